@@ -1,0 +1,75 @@
+# sheaf: build, test, demo.  See DEVELOPERS.md.
+
+CC      ?= cc
+OPT     ?= -O2
+CFLAGS  ?= $(OPT) -g
+CFLAGS  += -std=c11 -D_GNU_SOURCE -Wall -Wextra -Iinclude -Isrc -MMD -MP
+PKGS    := libisal libzstd libxxhash gsl openblas lapacke
+LDLIBS  := $(shell pkg-config --libs $(PKGS) 2>/dev/null || echo -lisal -lzstd -lxxhash -lgsl -lopenblas -llapacke) -lz -lm -lpthread
+
+# Debian packages sheaf needs to build, test, bench and demo.
+DEB_PKGS := build-essential pkg-config libisal-dev isal zlib1g-dev libzstd-dev zstd \
+            libxxhash-dev libcriterion-dev libgsl-dev libopenblas-dev liblapacke-dev \
+            python3-numpy python3-scipy python3-pandas python3-statsmodels parallel
+
+LIB_SRC := $(wildcard src/io/*.c src/acc/*.c src/summary/*.c src/stats/*.c src/out/*.c)
+CLI_SRC := $(wildcard src/cli/*.c)
+LIB_OBJ := $(LIB_SRC:%.c=build/%.o)
+CLI_OBJ := $(CLI_SRC:%.c=build/%.o)
+TEST_SRC := $(wildcard tests/test_*.c)
+TEST_BIN := $(TEST_SRC:tests/%.c=build/tests/%)
+DEMO_BIN := build/demo/generate
+
+.PHONY: all deps deps-check test demo bench clean
+all: sheaf libsheaf.a
+
+libsheaf.a: $(LIB_OBJ)
+	@rm -f $@
+	$(AR) rcs $@ $^
+
+sheaf: $(CLI_OBJ) libsheaf.a
+	$(CC) $(CFLAGS) -o $@ $(CLI_OBJ) libsheaf.a $(LDLIBS)
+
+build/%.o: %.c
+	@mkdir -p $(dir $@)
+	$(CC) $(CFLAGS) -c -o $@ $<
+
+build/tests/%: tests/%.c libsheaf.a tests/testutil.h
+	@mkdir -p $(dir $@)
+	$(CC) $(CFLAGS) -Itests -o $@ $< libsheaf.a -lcriterion $(LDLIBS)
+
+$(DEMO_BIN): demo/generate.c
+	@mkdir -p $(dir $@)
+	$(CC) $(CFLAGS) -O2 -o $@ $< $(LDLIBS)
+
+# Quick check: dpkg-query over the list; apt-get only when something is missing.
+deps-check:
+	@missing=$$(for p in $(DEB_PKGS); do dpkg-query -W -f='$${Status}\n' $$p 2>/dev/null | grep -q 'ok installed' || echo $$p; done); \
+	if [ -n "$$missing" ]; then $(MAKE) --no-print-directory deps; fi
+
+deps:
+	@missing=$$(for p in $(DEB_PKGS); do dpkg-query -W -f='$${Status}\n' $$p 2>/dev/null | grep -q 'ok installed' || echo $$p; done); \
+	if [ -z "$$missing" ]; then echo "deps: all Debian packages present"; exit 0; fi; \
+	echo "deps: missing:" $$missing; \
+	if [ "$$(id -u)" = 0 ]; then \
+	  apt-get update && DEBIAN_FRONTEND=noninteractive apt-get install -y --no-install-recommends $$missing; \
+	else \
+	  echo "deps: run as root:  apt-get update && apt-get install -y $$missing"; exit 1; \
+	fi
+
+test: deps-check
+	@$(MAKE) --no-print-directory all $(TEST_BIN) $(DEMO_BIN)
+	@tests/run.sh $(TEST_BIN)
+
+demo: deps-check
+	@$(MAKE) --no-print-directory all $(DEMO_BIN)
+	@demo/run.sh
+
+bench: deps-check
+	@$(MAKE) --no-print-directory all $(DEMO_BIN)
+	@bench/run.sh
+
+clean:
+	rm -rf build sheaf libsheaf.a
+
+-include $(LIB_OBJ:.o=.d) $(CLI_OBJ:.o=.d)

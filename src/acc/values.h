@@ -1,0 +1,63 @@
+/* values: the value table of one column.
+ *
+ * Exact counts for up to `max_levels` distinct values, keyed by a 64-bit hash
+ * of the value (XXH3 of the raw text, or of the double's bits for numbers).
+ * Once the table is full, further new values fall into VALUES_OVERFLOW_SLOTS
+ * hashed overflow counters (slot = hash % slots) and the table is marked
+ * overflowed: counts of values already in the table stay exact, the overflow
+ * counters keep the total exact, and per-value counts beyond the table are
+ * lost.  A label (the raw text, truncated to `label_bytes`) is kept for each
+ * entry, first seen wins, so the most frequent values can be displayed.
+ *
+ * Merge rule: entries of `from` add to matching entries of `into`; new ones
+ * are inserted while room remains, the rest go to the overflow counters (and
+ * `from`'s overflow counters add slot-wise).  Without overflow the merge is
+ * exact and order-independent.  Serialization is canonical (entries sorted by
+ * hash), so equal tables serialize to equal bytes.
+ */
+#ifndef SHEAF_VALUES_H
+#define SHEAF_VALUES_H
+
+#include <stddef.h>
+#include <stdint.h>
+
+#include "acc/wire.h"
+
+#define VALUES_OVERFLOW_SLOTS 64
+
+typedef struct values values;
+
+typedef struct {
+    uint64_t hash;      /* key */
+    uint64_t count;     /* exact occurrences */
+    const char *label;  /* first-seen text, not terminated */
+    uint32_t label_len; /* bytes of label */
+} values_entry;
+
+values *values_create(uint32_t max_levels, uint32_t label_bytes);
+void values_free(values *v);
+/* Empties the table, keeping its allocation. */
+void values_reset(values *v);
+/* Counts one occurrence; text is copied (truncated) when the entry is new.
+ * Returns 0, or -1 when memory runs out. */
+int values_add(values *v, uint64_t hash, const char *text, size_t len);
+int values_merge(values *into, const values *from);
+
+uint32_t values_levels(const values *v);       /* exact entries held */
+uint32_t values_max_levels(const values *v);
+int values_overflowed(const values *v);
+uint64_t values_overflow_total(const values *v); /* cells counted in overflow slots */
+uint64_t values_total(const values *v);          /* all counted cells */
+/* Count of one value: exact for table entries, 0 if absent. */
+uint64_t values_count_of(const values *v, uint64_t hash);
+/* Entry i (0 <= i < values_levels) in canonical (hash) order. */
+values_entry values_entry_at(const values *v, uint32_t i);
+/* The k most frequent entries, count descending then hash ascending; returns
+ * how many were written to out. */
+size_t values_top(const values *v, size_t k, values_entry *out);
+
+void values_write(const values *v, wire_writer *w);
+/* Returns a new table, or NULL (and sets r->failed) on malformed input. */
+values *values_read(wire_reader *r);
+
+#endif

@@ -1,0 +1,53 @@
+/* wire: little-endian serialization primitives shared by every accumulator.
+ *
+ * A wire_writer grows a byte buffer; a wire_reader walks one.  Neither ever
+ * fails loudly: a writer that cannot grow, or a reader asked for bytes past
+ * its end, sets `failed` and from then on writes nothing / returns zeros.  The
+ * caller checks `failed` once at the end, which keeps (de)serializers linear.
+ */
+#ifndef SHEAF_WIRE_H
+#define SHEAF_WIRE_H
+
+#include <stddef.h>
+#include <stdint.h>
+
+typedef struct {
+    uint8_t *data;  /* owned buffer (free with wire_writer_free) */
+    size_t len;     /* bytes written */
+    size_t cap;     /* bytes allocated */
+    int failed;     /* allocation failed: contents incomplete */
+} wire_writer;
+
+typedef struct {
+    const uint8_t *data; /* borrowed bytes */
+    size_t len;          /* total bytes */
+    size_t pos;          /* next byte to read */
+    int failed;          /* a read ran past the end or met a bad value */
+} wire_reader;
+
+void wire_writer_init(wire_writer *w);
+void wire_writer_free(wire_writer *w);
+void wire_put_u8(wire_writer *w, uint8_t v);
+void wire_put_u32(wire_writer *w, uint32_t v);
+void wire_put_u64(wire_writer *w, uint64_t v);
+void wire_put_i64(wire_writer *w, int64_t v);
+void wire_put_f64(wire_writer *w, double v);
+void wire_put_bytes(wire_writer *w, const void *p, size_t n);
+/* A string: u32 length then the bytes (no terminator). */
+void wire_put_str(wire_writer *w, const char *s, size_t n);
+
+void wire_reader_init(wire_reader *r, const void *data, size_t len);
+uint8_t wire_get_u8(wire_reader *r);
+uint32_t wire_get_u32(wire_reader *r);
+uint64_t wire_get_u64(wire_reader *r);
+int64_t wire_get_i64(wire_reader *r);
+double wire_get_f64(wire_reader *r);
+/* Copies n bytes into p (zero-fills p on failure). */
+void wire_get_bytes(wire_reader *r, void *p, size_t n);
+/* Returns a pointer into the reader's buffer and sets *n; NULL on failure.
+ * Lengths above `max` fail the reader (guards against corrupt lengths). */
+const char *wire_get_str(wire_reader *r, size_t *n, size_t max);
+/* Fails the reader unless at least n more bytes remain; returns !failed. */
+int wire_need(wire_reader *r, size_t n);
+
+#endif

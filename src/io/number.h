@@ -1,0 +1,52 @@
+/* number: the hot-path decimal parser and exact decimal differences.
+ *
+ * number_parse() reads one CSV cell as a decimal: optional sign, digits with
+ * an optional '.', an optional exponent (e/E, sign, digits).  It keeps the
+ * first 19 significant digits as an integer mantissa and the power of ten, and
+ * converts to the correctly rounded double: Clinger's exact fast path when the
+ * mantissa is below 2^53 and |power| <= 22 (one IEEE multiply or divide of two
+ * exact values), strtod() otherwise.  Spellings of infinity and NaN (inf,
+ * infinity, nan, any case, optional sign) are NUMBER_NONFINITE.  Anything
+ * else, including trailing characters, is NUMBER_TEXT.  Leading and trailing
+ * ASCII spaces are ignored (common practice in hand-edited CSV).
+ *
+ * number_difference() subtracts two parsed decimals exactly in 64-bit integer
+ * arithmetic when both mantissas fit at a common power of ten, then rounds the
+ * integer difference once to double.  Accumulating deviations from a
+ * reference this way means digits shared by all values cost no precision.
+ */
+#ifndef SHEAF_NUMBER_H
+#define SHEAF_NUMBER_H
+
+#include <stddef.h>
+#include <stdint.h>
+
+typedef enum {
+    NUMBER_FINITE = 0, /* a finite decimal number */
+    NUMBER_NONFINITE,  /* inf / nan spellings */
+    NUMBER_TEXT        /* not a number */
+} number_kind;
+
+typedef struct {
+    double value;      /* correctly rounded double of the text */
+    uint64_t mantissa; /* first 19 significant decimal digits */
+    int32_t exp10;     /* |value| == mantissa * 10^exp10 when `exact` */
+    uint8_t negative;  /* sign of the text (also for zero) */
+    uint8_t exact;     /* mantissa/exp10 hold every digit (<= 19 significant) */
+} number_decimal;
+
+/* Parses s[0..len).  Fills *out only for NUMBER_FINITE (value only for
+ * NUMBER_NONFINITE).  Never reads past len; s need not be terminated. */
+number_kind number_parse(const char *s, size_t len, number_decimal *out);
+
+/* The correctly rounded double of (negative ? -1 : 1) * mantissa * 10^exp10. */
+double number_to_double(uint64_t mantissa, int32_t exp10, int negative);
+
+/* a - b as a double.  When both are exact and their difference fits in a
+ * signed 64-bit integer at the smaller of the two powers of ten, the result is
+ * the correctly rounded value of the exact difference; otherwise it is
+ * a->value - b->value.  Returns the difference; *exact_out (may be NULL) is
+ * set to 1 when the integer path was taken. */
+double number_difference(const number_decimal *a, const number_decimal *b, int *exact_out);
+
+#endif
