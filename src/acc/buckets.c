@@ -1,0 +1,628 @@
+/* buckets: log-linear binning from the bits of a double, counted per
+ * (bucket, cell) in a budgeted sparse store.  Interface and guarantees: see
+ * buckets.h.
+ *
+ * Method.
+ *  - Key.  For an IEEE 754 binary64 x with magnitude bits u = |x| (sign
+ *    cleared), u >> 45 is (biased exponent << 7) | top 7 mantissa bits, an
+ *    18-bit index that is monotone in |x| and log-linear: 128 equal slices per
+ *    octave.  Level L drops L more low bits: key = (u >> (45 + L)) + 1, the
+ *    sign mirrored, 0 for x = 0.  Dropping one bit of (i - 1) is exactly the
+ *    pairwise collapse of UDDSketch, so collapsing level by level equals
+ *    keying the original value at the final level.
+ *  - Bounds.  A key's values are the doubles whose top bits equal the key's
+ *    bit pattern: lowest = pattern << 45 (the smallest subnormal for pattern
+ *    0), highest = ((pattern + 2^L) << 45) - 1, capped at DBL_MAX.
+ *  - Point and error.  The harmonic midpoint m = 2 lo hi / (lo + hi) equalises
+ *    the relative error at both ends, (m - lo) / lo = (hi - m) / hi =
+ *    (hi - lo) / (hi + lo).  Within the normal range the worst bucket of a
+ *    level is the first slice of an octave: sup / lo = 1 + 2^(L-7) for L <= 7
+ *    and 2^(2^(L-7)) for L > 7 (using the half-open sup bounds the closed hi).
+ *  - Store.  Open addressing with linear probing on the packed id
+ *    (cell << 32 | 32-bit key), load at most 1/2, Fibonacci hashing; count 0
+ *    marks an empty slot (entries never have count 0).  A second small table
+ *    counts entries per key, touched only when an entry is created, so the
+ *    budget of distinct keys is checked without a scan.  The last (key, cell)
+ *    and its slot are cached for runs of equal buckets.  A sort index (key,
+ *    cell, slot) serves ordered reads; it is rebuilt lazily after an insert.
+ *  - Collapse and merge.  Both gather the entries, re-key them to the target
+ *    level (monotone, so sorting then summing neighbours combines them), raise
+ *    the level one step while the distinct keys exceed the budget, and build a
+ *    fresh table that replaces the old one only on success, so a failed
+ *    allocation leaves the store unchanged.  Counts are only ever summed,
+ *    hence totals per cell are preserved exactly.
+ *  - Quantile.  Inverted empirical CDF (Hyndman & Fan definition 1, numpy
+ *    method='inverted_cdf'): rank r = max(1, ceil(p n)), the first key whose
+ *    cumulative count reaches r.  Since keys are monotone, the exact r-th
+ *    smallest value lies in that key, so the point is within the level's
+ *    relative error of it.
+ *
+ * References (cited from memory):
+ *  [1] C. Masson, J. E. Rim, H. K. Lee (2019), "DDSketch: a fast and
+ *      fully-mergeable quantile sketch with relative-error guarantees",
+ *      PVLDB 12(12).
+ *  [2] I. Epicoco, C. Melle, M. Cafaro, M. Pulimeno, G. Morleo (2020),
+ *      "UDDSketch: accurate tracking of quantiles in data streams",
+ *      IEEE Access 8.
+ *  [3] R. J. Hyndman, Y. Fan (1996), "Sample quantiles in statistical
+ *      packages", The American Statistician 50(4).
+ *  [4] IEEE 754-2008, binary64 interchange format.
+ */
+#include "acc/buckets.h"
+
+#include <float.h>
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
+
+#define SIGN_BIT 0x8000000000000000ull
+#define MAG_MASK 0x7FFFFFFFFFFFFFFFull
+#define EXP_ALL_ONES 0x7FF0000000000000ull /* inf; NaN above */
+#define INDEX_SHIFT (52 - BUCKETS_MANTISSA_BITS)
+#define LAST_INDEX 0x3FF7Full /* (0x7FE << 7) | 0x7F: largest finite u >> 45 */
+#define FIB_MULT 0x9E3779B97F4A7C15ull
+#define MIN_CAP 16
+#define NO_ID 0x80000000ull /* key INT32_MIN, never produced */
+#define ENTRY_WIRE_BYTES 20 /* i64 key, u32 cell, u64 count */
+
+typedef struct {
+    uint64_t id;    /* (cell << 32) | (uint32_t)key */
+    uint64_t count; /* 0 = empty slot */
+} slot;
+
+typedef struct {
+    int32_t key;      /* bucket key at the store's level */
+    uint32_t entries; /* entries with this key; 0 = empty slot */
+} key_slot;
+
+typedef struct {
+    int32_t key;   /* sort key, major */
+    uint32_t cell; /* sort key, minor */
+    uint32_t pos;  /* index into slots */
+} order_item;
+
+struct buckets {
+    slot *slots;        /* entry table, cap slots */
+    size_t cap;         /* power of two */
+    unsigned shift;     /* 64 - log2(cap) */
+    size_t n;           /* occupied slots (entries) */
+    key_slot *keys;     /* per-key entry counts, key_cap slots */
+    size_t key_cap;     /* power of two */
+    unsigned key_shift; /* 64 - log2(key_cap) */
+    size_t nkeys;       /* distinct keys */
+    order_item *order;  /* sort index, cap / 2 items allocated */
+    int order_valid;    /* order holds all n entries, sorted */
+    uint64_t total;     /* sum of all counts */
+    uint32_t budget;    /* most distinct keys allowed */
+    int level;          /* collapse level of the stored keys */
+    uint64_t last_id;   /* id of the last slot hit, NO_ID if none */
+    size_t last_pos;    /* its position */
+};
+
+/* ---- keys and bounds ---------------------------------------------------- */
+
+static inline uint64_t double_bits(double x)
+{
+    uint64_t u;
+    memcpy(&u, &x, sizeof u);
+    return u;
+}
+
+static inline double bits_double(uint64_t u)
+{
+    double x;
+    memcpy(&x, &u, sizeof x);
+    return x;
+}
+
+static inline int64_t key_of_bits(uint64_t u, int level)
+{
+    uint64_t mag = u & MAG_MASK;
+    int64_t m = (int64_t)((mag >> (INDEX_SHIFT + level)) + (mag != 0));
+    int64_t neg = -(int64_t)(u >> 63);
+    return (m ^ neg) - neg;
+}
+
+static inline int clamp_level(int level)
+{
+    return level < 0 ? 0 : level > BUCKETS_MAX_LEVEL ? BUCKETS_MAX_LEVEL : level;
+}
+
+/* Largest magnitude of a finite value at a level. */
+static inline int64_t max_magnitude(int level)
+{
+    return (int64_t)(LAST_INDEX >> level) + 1;
+}
+
+/* Key after collapsing `steps` more levels. */
+static inline int64_t rekey(int64_t key, int steps)
+{
+    if (key == 0 || steps == 0) return key;
+    if (key > 0) return ((key - 1) >> steps) + 1;
+    return -(((-key - 1) >> steps) + 1);
+}
+
+int64_t buckets_key(double x) { return key_of_bits(double_bits(x), 0); }
+
+int64_t buckets_key_at(int64_t key0, int level) { return rekey(key0, clamp_level(level)); }
+
+/* Bounds of a positive magnitude m at level. */
+static void magnitude_bounds(int64_t m, int level, double *lo, double *hi)
+{
+    int64_t top = max_magnitude(level);
+    if (m > top) m = top;
+    uint64_t first = (uint64_t)(m - 1) << level;
+    uint64_t last = first + ((uint64_t)1 << level) - 1;
+    if (last > LAST_INDEX) last = LAST_INDEX;
+    uint64_t lo_bits = first << INDEX_SHIFT;
+    if (lo_bits == 0) lo_bits = 1; /* 0 itself is key 0 */
+    *lo = bits_double(lo_bits);
+    *hi = bits_double(((last + 1) << INDEX_SHIFT) - 1);
+}
+
+void buckets_bounds(int64_t key, int level, double *lo, double *hi)
+{
+    level = clamp_level(level);
+    if (key == 0) { *lo = *hi = 0.0; return; }
+    if (key > 0) { magnitude_bounds(key, level, lo, hi); return; }
+    double plo, phi;
+    /* -key would overflow only for INT64_MIN, which clamps anyway */
+    magnitude_bounds(key == INT64_MIN ? INT64_MAX : -key, level, &plo, &phi);
+    *lo = -phi;
+    *hi = -plo;
+}
+
+double buckets_point(int64_t key, int level)
+{
+    if (key == 0) return 0.0;
+    double lo, hi;
+    magnitude_bounds(key > 0 ? key : key == INT64_MIN ? INT64_MAX : -key, clamp_level(level), &lo, &hi);
+    /* 2 lo hi / (lo + hi) without overflow near DBL_MAX or underflow of 1/lo */
+    double m = lo * (2.0 / (1.0 + lo / hi));
+    return key > 0 ? m : -m;
+}
+
+double buckets_relative_error(int level)
+{
+    level = clamp_level(level);
+    double rel;
+    if (level <= BUCKETS_MANTISSA_BITS) {
+        double w = ldexp(1.0, level - BUCKETS_MANTISSA_BITS);
+        rel = w / (2.0 + w);
+    } else {
+        double r = ldexp(1.0, 1 << (level - BUCKETS_MANTISSA_BITS)); /* inf from level 17 */
+        rel = 1.0 - 2.0 / (r + 1.0);
+    }
+    rel += 4 * DBL_EPSILON;
+    return rel > 1.0 ? 1.0 : rel;
+}
+
+/* ---- tables ------------------------------------------------------------- */
+
+static inline uint64_t make_id(int64_t key, uint32_t cell)
+{
+    return ((uint64_t)cell << 32) | (uint32_t)(int32_t)key;
+}
+
+static inline int64_t id_key(uint64_t id) { return (int32_t)(uint32_t)id; }
+static inline uint32_t id_cell(uint64_t id) { return (uint32_t)(id >> 32); }
+
+static unsigned log2_of(size_t pow2)
+{
+    unsigned k = 0;
+    while (((size_t)1 << k) < pow2) k++;
+    return k;
+}
+
+/* Smallest power of two >= MIN_CAP that keeps load <= 1/2 for n items. */
+static size_t cap_for(size_t n)
+{
+    size_t cap = MIN_CAP;
+    while (cap / 2 < n) cap *= 2;
+    return cap;
+}
+
+static inline size_t slot_find(const slot *slots, size_t cap, unsigned shift, uint64_t id)
+{
+    size_t mask = cap - 1;
+    size_t pos = (size_t)((id * FIB_MULT) >> shift);
+    for (;;) {
+        const slot *s = &slots[pos];
+        if (s->count == 0 || s->id == id) return pos;
+        pos = (pos + 1) & mask;
+    }
+}
+
+static inline size_t key_find(const key_slot *keys, size_t cap, unsigned shift, int64_t key)
+{
+    size_t mask = cap - 1;
+    size_t pos = (size_t)(((uint64_t)(uint32_t)(int32_t)key * FIB_MULT) >> shift);
+    for (;;) {
+        const key_slot *s = &keys[pos];
+        if (s->entries == 0 || s->key == key) return pos;
+        pos = (pos + 1) & mask;
+    }
+}
+
+static int grow_slots(buckets *b)
+{
+    size_t cap = b->cap * 2;
+    slot *slots = calloc(cap, sizeof *slots);
+    order_item *order = malloc(cap / 2 * sizeof *order);
+    if (!slots || !order) { free(slots); free(order); return -1; }
+    unsigned shift = 64 - log2_of(cap);
+    for (size_t i = 0; i < b->cap; i++) {
+        if (!b->slots[i].count) continue;
+        slots[slot_find(slots, cap, shift, b->slots[i].id)] = b->slots[i];
+    }
+    free(b->slots);
+    free(b->order);
+    b->slots = slots;
+    b->order = order;
+    b->cap = cap;
+    b->shift = shift;
+    b->order_valid = 0;
+    b->last_id = NO_ID;
+    return 0;
+}
+
+static int grow_keys(buckets *b)
+{
+    size_t cap = b->key_cap * 2;
+    key_slot *keys = calloc(cap, sizeof *keys);
+    if (!keys) return -1;
+    unsigned shift = 64 - log2_of(cap);
+    for (size_t i = 0; i < b->key_cap; i++) {
+        if (!b->keys[i].entries) continue;
+        keys[key_find(keys, cap, shift, b->keys[i].key)] = b->keys[i];
+    }
+    free(b->keys);
+    b->keys = keys;
+    b->key_cap = cap;
+    b->key_shift = shift;
+    return 0;
+}
+
+static int order_cmp(const void *pa, const void *pb)
+{
+    const order_item *a = pa, *c = pb;
+    if (a->key != c->key) return a->key < c->key ? -1 : 1;
+    return (a->cell > c->cell) - (a->cell < c->cell);
+}
+
+/* Builds the sort index.  Takes a const store: the index is a cache, its
+ * memory is preallocated with the table, so this never fails. */
+static void ensure_order(const buckets *cb)
+{
+    if (cb->order_valid) return;
+    buckets *b = (buckets *)cb;
+    size_t k = 0;
+    for (size_t i = 0; i < b->cap; i++) {
+        if (!b->slots[i].count) continue;
+        b->order[k].key = (int32_t)id_key(b->slots[i].id);
+        b->order[k].cell = id_cell(b->slots[i].id);
+        b->order[k].pos = (uint32_t)i;
+        k++;
+    }
+    qsort(b->order, k, sizeof *b->order, order_cmp);
+    b->order_valid = 1;
+}
+
+/* ---- entry arrays: re-key, sort, combine -------------------------------- */
+
+static int entry_cmp(const void *pa, const void *pb)
+{
+    const buckets_entry *a = pa, *c = pb;
+    if (a->key != c->key) return a->key < c->key ? -1 : 1;
+    return (a->cell > c->cell) - (a->cell < c->cell);
+}
+
+/* Sorts and sums equal (key, cell) neighbours; returns the new length. */
+static size_t sort_combine(buckets_entry *e, size_t n)
+{
+    if (n == 0) return 0;
+    qsort(e, n, sizeof *e, entry_cmp);
+    size_t k = 0;
+    for (size_t i = 1; i < n; i++) {
+        if (e[i].key == e[k].key && e[i].cell == e[k].cell) e[k].count += e[i].count;
+        else e[++k] = e[i];
+    }
+    return k + 1;
+}
+
+/* Distinct keys of a sorted array. */
+static size_t distinct_keys(const buckets_entry *e, size_t n)
+{
+    size_t k = 0;
+    for (size_t i = 0; i < n; i++)
+        if (i == 0 || e[i].key != e[i - 1].key) k++;
+    return k;
+}
+
+/* Raises *level one step at a time while the sorted array has more distinct
+ * keys than the budget; returns the new length. */
+static size_t fit_budget(buckets_entry *e, size_t n, int *level, uint32_t budget)
+{
+    while (distinct_keys(e, n) > budget && *level < BUCKETS_MAX_LEVEL) {
+        for (size_t i = 0; i < n; i++) e[i].key = rekey(e[i].key, 1);
+        (*level)++;
+        n = sort_combine(e, n);
+    }
+    return n;
+}
+
+/* Replaces b's tables by ones holding the sorted, combined entries e[0..n)
+ * at `level`.  b is unchanged on -1. */
+static int rebuild(buckets *b, const buckets_entry *e, size_t n, int level)
+{
+    size_t nk = distinct_keys(e, n);
+    size_t cap = cap_for(n), key_cap = cap_for(nk);
+    slot *slots = calloc(cap, sizeof *slots);
+    key_slot *keys = calloc(key_cap, sizeof *keys);
+    order_item *order = malloc(cap / 2 * sizeof *order);
+    if (!slots || !keys || !order) { free(slots); free(keys); free(order); return -1; }
+    unsigned shift = 64 - log2_of(cap), key_shift = 64 - log2_of(key_cap);
+    uint64_t total = 0;
+    for (size_t i = 0; i < n; i++) {
+        uint64_t id = make_id(e[i].key, e[i].cell);
+        size_t pos = slot_find(slots, cap, shift, id);
+        slots[pos].id = id;
+        slots[pos].count = e[i].count;
+        size_t kp = key_find(keys, key_cap, key_shift, e[i].key);
+        keys[kp].key = (int32_t)e[i].key;
+        keys[kp].entries++;
+        order[i].key = (int32_t)e[i].key;
+        order[i].cell = e[i].cell;
+        order[i].pos = (uint32_t)pos;
+        total += e[i].count;
+    }
+    free(b->slots);
+    free(b->keys);
+    free(b->order);
+    b->slots = slots;
+    b->cap = cap;
+    b->shift = shift;
+    b->n = n;
+    b->keys = keys;
+    b->key_cap = key_cap;
+    b->key_shift = key_shift;
+    b->nkeys = nk;
+    b->order = order;
+    b->order_valid = 1;
+    b->total = total;
+    b->level = level;
+    b->last_id = NO_ID;
+    return 0;
+}
+
+/* Appends b's entries re-keyed to `level` (>= b's level), cells mapped. */
+static size_t gather(const buckets *b, int level, const uint32_t *cell_map, buckets_entry *out)
+{
+    ensure_order(b);
+    int steps = level - b->level;
+    for (size_t i = 0; i < b->n; i++) {
+        const order_item *o = &b->order[i];
+        out[i].key = rekey(o->key, steps);
+        out[i].cell = cell_map ? cell_map[o->cell] : o->cell;
+        out[i].count = b->slots[o->pos].count;
+    }
+    return b->n;
+}
+
+/* Collapses b to the next level (and further if still over budget). */
+static int collapse(buckets *b)
+{
+    if (b->level >= BUCKETS_MAX_LEVEL) return -1;
+    buckets_entry *e = malloc((b->n ? b->n : 1) * sizeof *e);
+    if (!e) return -1;
+    int level = b->level + 1;
+    size_t n = sort_combine(e, gather(b, level, NULL, e));
+    n = fit_budget(e, n, &level, b->budget);
+    int rc = rebuild(b, e, n, level);
+    free(e);
+    return rc;
+}
+
+/* ---- store -------------------------------------------------------------- */
+
+buckets *buckets_create(uint32_t budget)
+{
+    buckets *b = calloc(1, sizeof *b);
+    if (!b) return NULL;
+    b->budget = budget < BUCKETS_MIN_BUDGET ? BUCKETS_MIN_BUDGET : budget;
+    if (rebuild(b, NULL, 0, 0)) { free(b); return NULL; }
+    return b;
+}
+
+void buckets_free(buckets *b)
+{
+    if (!b) return;
+    free(b->slots);
+    free(b->keys);
+    free(b->order);
+    free(b);
+}
+
+void buckets_reset(buckets *b)
+{
+    memset(b->slots, 0, b->cap * sizeof *b->slots);
+    memset(b->keys, 0, b->key_cap * sizeof *b->keys);
+    b->n = 0;
+    b->nkeys = 0;
+    b->order_valid = 1;
+    b->total = 0;
+    b->level = 0;
+    b->last_id = NO_ID;
+}
+
+/* Slow path of buckets_add: the (key, cell) entry does not exist yet. */
+static int add_new(buckets *b, uint64_t u, uint32_t cell, uint64_t count)
+{
+    for (;;) {
+        int64_t key = key_of_bits(u, b->level);
+        uint64_t id = make_id(key, cell);
+        size_t pos = slot_find(b->slots, b->cap, b->shift, id);
+        if (b->slots[pos].count) { /* appeared through a collapse */
+            b->slots[pos].count += count;
+            b->total += count;
+            b->last_id = id;
+            b->last_pos = pos;
+            return 0;
+        }
+        size_t kp = key_find(b->keys, b->key_cap, b->key_shift, key);
+        int new_key = b->keys[kp].entries == 0;
+        if (new_key && b->nkeys + 1 > b->budget) {
+            if (collapse(b)) return -1;
+            continue;
+        }
+        if (2 * (b->n + 1) > b->cap) {
+            if (grow_slots(b)) return -1;
+            pos = slot_find(b->slots, b->cap, b->shift, id);
+        }
+        if (new_key && 2 * (b->nkeys + 1) > b->key_cap) {
+            if (grow_keys(b)) return -1;
+            kp = key_find(b->keys, b->key_cap, b->key_shift, key);
+        }
+        b->slots[pos].id = id;
+        b->slots[pos].count = count;
+        b->keys[kp].key = (int32_t)key;
+        b->keys[kp].entries++;
+        b->nkeys += (size_t)new_key;
+        b->n++;
+        b->total += count;
+        b->order_valid = 0;
+        b->last_id = id;
+        b->last_pos = pos;
+        return 0;
+    }
+}
+
+int buckets_add(buckets *b, double x, uint32_t cell, uint64_t count)
+{
+    uint64_t u = double_bits(x);
+    if ((u & MAG_MASK) >= EXP_ALL_ONES) return -1;
+    if (count == 0) return 0;
+    uint64_t id = make_id(key_of_bits(u, b->level), cell);
+    if (id == b->last_id) {
+        b->slots[b->last_pos].count += count;
+        b->total += count;
+        return 0;
+    }
+    size_t pos = slot_find(b->slots, b->cap, b->shift, id);
+    if (b->slots[pos].count) {
+        b->slots[pos].count += count;
+        b->total += count;
+        b->last_id = id;
+        b->last_pos = pos;
+        return 0;
+    }
+    return add_new(b, u, cell, count);
+}
+
+int buckets_merge(buckets *into, const buckets *from, const uint32_t *cell_map, uint32_t map_len)
+{
+    if (cell_map) {
+        for (size_t i = 0; i < from->cap; i++)
+            if (from->slots[i].count && id_cell(from->slots[i].id) >= map_len) return -1;
+    }
+    size_t n = into->n + from->n;
+    buckets_entry *e = malloc((n ? n : 1) * sizeof *e);
+    if (!e) return -1;
+    int level = into->level > from->level ? into->level : from->level;
+    size_t k = gather(into, level, NULL, e);
+    k += gather(from, level, cell_map, e + k);
+    k = sort_combine(e, k);
+    k = fit_budget(e, k, &level, into->budget);
+    int rc = rebuild(into, e, k, level);
+    free(e);
+    return rc;
+}
+
+int buckets_level(const buckets *b) { return b->level; }
+uint32_t buckets_budget(const buckets *b) { return b->budget; }
+uint64_t buckets_total(const buckets *b) { return b->total; }
+size_t buckets_keys(const buckets *b) { return b->nkeys; }
+
+size_t buckets_entries(const buckets *b)
+{
+    ensure_order(b); /* so that later reads from several threads are pure */
+    return b->n;
+}
+
+buckets_entry buckets_entry_at(const buckets *b, size_t i)
+{
+    buckets_entry e = {0, 0, 0};
+    if (i >= b->n) return e;
+    ensure_order(b);
+    const order_item *o = &b->order[i];
+    e.key = o->key;
+    e.cell = o->cell;
+    e.count = b->slots[o->pos].count;
+    return e;
+}
+
+double buckets_quantile(const buckets *b, double p, double *rel_err)
+{
+    if (rel_err) *rel_err = buckets_relative_error(b->level);
+    if (b->total == 0 || !(p >= 0.0 && p <= 1.0)) return NAN;
+    /* same double product as numpy's n * quantiles */
+    double rd = ceil(p * (double)b->total);
+    uint64_t rank = rd < 1.0 ? 1 : rd >= (double)b->total ? b->total : (uint64_t)rd;
+    ensure_order(b);
+    uint64_t cum = 0;
+    for (size_t i = 0; i < b->n; i++) {
+        cum += b->slots[b->order[i].pos].count;
+        if (cum >= rank) return buckets_point(b->order[i].key, b->level);
+    }
+    return buckets_point(b->order[b->n - 1].key, b->level); /* not reached */
+}
+
+/* ---- serialization ------------------------------------------------------ */
+
+void buckets_write(const buckets *b, wire_writer *w)
+{
+    ensure_order(b);
+    wire_put_u32(w, b->budget);
+    wire_put_u8(w, (uint8_t)b->level);
+    wire_put_u64(w, (uint64_t)b->n);
+    for (size_t i = 0; i < b->n; i++) {
+        const order_item *o = &b->order[i];
+        wire_put_i64(w, o->key);
+        wire_put_u32(w, o->cell);
+        wire_put_u64(w, b->slots[o->pos].count);
+    }
+}
+
+buckets *buckets_read(wire_reader *r)
+{
+    uint32_t budget = wire_get_u32(r);
+    int level = wire_get_u8(r);
+    uint64_t n = wire_get_u64(r);
+    if (r->failed) return NULL;
+    if (budget < BUCKETS_MIN_BUDGET || level > BUCKETS_MAX_LEVEL || n > UINT32_MAX
+        || n > SIZE_MAX / ENTRY_WIRE_BYTES || !wire_need(r, (size_t)n * ENTRY_WIRE_BYTES)) {
+        r->failed = 1;
+        return NULL;
+    }
+    buckets_entry *e = malloc((n ? (size_t)n : 1) * sizeof *e);
+    if (!e) return NULL;
+    int64_t top = max_magnitude(level);
+    size_t nkeys = 0;
+    uint64_t total = 0;
+    for (size_t i = 0; i < n; i++) {
+        e[i].key = wire_get_i64(r);
+        e[i].cell = wire_get_u32(r);
+        e[i].count = wire_get_u64(r);
+        int bad = e[i].key > top || e[i].key < -top || e[i].count == 0
+                  || total + e[i].count < total;
+        if (i > 0 && entry_cmp(&e[i - 1], &e[i]) >= 0) bad = 1;
+        if (bad) { r->failed = 1; free(e); return NULL; }
+        total += e[i].count;
+        if (i == 0 || e[i].key != e[i - 1].key) nkeys++;
+    }
+    if (r->failed || nkeys > budget) { r->failed = 1; free(e); return NULL; }
+    buckets *b = buckets_create(budget);
+    if (!b || rebuild(b, e, (size_t)n, level)) { buckets_free(b); free(e); return NULL; }
+    free(e);
+    return b;
+}

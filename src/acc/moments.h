@@ -1,0 +1,55 @@
+/* moments: count, mean and central moments up to the fourth of one column,
+ * with exact merge.
+ *
+ * Values arrive as deviations from a decimal reference (the column's first
+ * value, see number_difference), so digits shared by all values never enter
+ * the floating-point sums.  Values are added in blocks: the block's mean and
+ * central power sums are computed in two passes (exact up to rounding of
+ * small deviations), and the block is merged into the running state with the
+ * pairwise formulas of Chan, Golub & LeVeque (1979) extended to the third and
+ * fourth moments by Pébay (2008), "Formulas for robust, one-pass parallel
+ * computation of covariances and arbitrary-order statistical moments",
+ * Sandia report SAND2008-6212, eqs. (3.1)-(3.3).  Merging two states gives
+ * the state of the combined input up to rounding, in any order.
+ */
+#ifndef SHEAF_MOMENTS_H
+#define SHEAF_MOMENTS_H
+
+#include <stddef.h>
+#include <stdint.h>
+
+#include "acc/wire.h"
+#include "io/number.h"
+
+typedef struct {
+    uint64_t n;          /* values counted */
+    double mean;         /* mean of (value - ref) */
+    double m2, m3, m4;   /* sums of 2nd, 3rd, 4th powers of deviations from the mean */
+    double min, max;     /* extreme values (as parsed) */
+    number_decimal ref;  /* decimal reference, valid when has_ref */
+    int has_ref;         /* ref set (by the first value) */
+} moments;
+
+void moments_init(moments *m);
+/* Sets the reference if none is set yet (call before the first deviation). */
+void moments_set_ref(moments *m, const number_decimal *ref);
+/* Adds `count` deviations from m->ref. */
+void moments_add_block(moments *m, const double *dev, size_t count);
+/* Updates min/max with a value. */
+static inline void moments_see(moments *m, double x)
+{
+    if (x < m->min) m->min = x;
+    if (x > m->max) m->max = x;
+}
+/* into := into (+) from, shifting from's mean into into's reference. */
+void moments_merge(moments *into, const moments *from);
+
+double moments_mean(const moments *m);        /* ref + mean of deviations */
+double moments_variance(const moments *m);    /* sample variance, n - 1; NaN if n < 2 */
+double moments_skewness(const moments *m);    /* g1 = sqrt(n) m3 / m2^1.5 */
+double moments_kurtosis(const moments *m);    /* g2 = n m4 / m2^2 - 3 */
+
+void moments_write(const moments *m, wire_writer *w);
+int moments_read(moments *m, wire_reader *r);
+
+#endif

@@ -1,0 +1,115 @@
+/* cli: option parsing and help shared by the commands. */
+#include "cli/cli.h"
+
+#include <ctype.h>
+#include <stdarg.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+void cli_error(const char *cmd, const char *fmt, ...)
+{
+    va_list ap;
+    fprintf(stderr, "sheaf %s: ", cmd);
+    va_start(ap, fmt);
+    vfprintf(stderr, fmt, ap);
+    va_end(ap);
+    fputc('\n', stderr);
+}
+
+void cli_help(const cli_command *cmd)
+{
+    printf("usage: sheaf %s %s\n\n%s\n", cmd->name, cmd->synopsis, cmd->about);
+    if (cmd->options[0].name) printf("\noptions:\n");
+    for (const cli_option *o = cmd->options; o->name; o++) {
+        char left[64];
+        if (o->letter)
+            snprintf(left, sizeof left, "-%c, --%s%s%s", o->letter, o->name, o->metavar ? " " : "",
+                     o->metavar ? o->metavar : "");
+        else
+            snprintf(left, sizeof left, "    --%s%s%s", o->name, o->metavar ? " " : "",
+                     o->metavar ? o->metavar : "");
+        printf("  %-26s %s\n", left, o->help);
+    }
+    printf("  %-26s %s\n", "-h, --help", "show this help");
+}
+
+static const cli_option *find(const cli_command *cmd, const char *name, size_t len, char letter)
+{
+    for (const cli_option *o = cmd->options; o->name; o++) {
+        if (letter && o->letter == letter) return o;
+        if (!letter && strlen(o->name) == len && strncmp(o->name, name, len) == 0) return o;
+    }
+    return NULL;
+}
+
+int cli_parse(const cli_command *cmd, int argc, char **argv, char ***pos, size_t *npos)
+{
+    *pos = calloc((size_t)argc + 1, sizeof **pos);
+    *npos = 0;
+    if (!*pos) { cli_error(cmd->name, "out of memory"); return EXIT_USAGE; }
+    int only_pos = 0;
+    for (int i = 1; i < argc; i++) {
+        char *a = argv[i];
+        if (only_pos || a[0] != '-' || a[1] == '\0') { (*pos)[(*npos)++] = a; continue; }
+        if (strcmp(a, "--") == 0) { only_pos = 1; continue; }
+        if (strcmp(a, "-h") == 0 || strcmp(a, "--help") == 0) { cli_help(cmd); return 1; }
+        const cli_option *o;
+        const char *val = NULL;
+        if (a[1] == '-') {
+            const char *eq = strchr(a + 2, '=');
+            size_t len = eq ? (size_t)(eq - (a + 2)) : strlen(a + 2);
+            o = find(cmd, a + 2, len, 0);
+            if (eq) val = eq + 1;
+        } else {
+            o = a[2] == '\0' ? find(cmd, NULL, 0, a[1]) : NULL;
+        }
+        if (!o) {
+            cli_error(cmd->name, "unknown option '%s' (see sheaf %s --help)", a, cmd->name);
+            return EXIT_USAGE;
+        }
+        if (!o->metavar) {
+            if (val) { cli_error(cmd->name, "--%s takes no value", o->name); return EXIT_USAGE; }
+            *o->flag = 1;
+            continue;
+        }
+        if (!val) {
+            if (i + 1 >= argc) {
+                cli_error(cmd->name, "--%s needs a value (%s)", o->name, o->metavar);
+                return EXIT_USAGE;
+            }
+            val = argv[++i];
+        }
+        *o->value = val;
+    }
+    return 0;
+}
+
+long long cli_parse_count(const char *s)
+{
+    if (!s || !*s) return -1;
+    char *end;
+    long long v = strtoll(s, &end, 10);
+    if (*end || v < 0) return -1;
+    return v;
+}
+
+long long cli_parse_size(const char *s)
+{
+    if (!s || !*s) return -1;
+    char *end;
+    double v = strtod(s, &end);
+    if (end == s || v < 0) return -1;
+    double mult = 1;
+    switch (tolower((unsigned char)*end)) {
+    case 'k': mult = 1024.0; end++; break;
+    case 'm': mult = 1024.0 * 1024; end++; break;
+    case 'g': mult = 1024.0 * 1024 * 1024; end++; break;
+    case '\0': break;
+    default: return -1;
+    }
+    if (*end == 'i' || *end == 'I') end++;
+    if (*end == 'b' || *end == 'B') end++;
+    if (*end) return -1;
+    return (long long)(v * mult);
+}

@@ -1,0 +1,54 @@
+/* cli: what every command shares: exit codes, option parsing, help. */
+#ifndef SHEAF_CLI_H
+#define SHEAF_CLI_H
+
+#include <stddef.h>
+
+/* Exit codes (documented in `sheaf --help` and the README). */
+enum {
+    EXIT_DONE = 0,         /* success */
+    EXIT_FAILED = 1,       /* could not write output, or another failure */
+    EXIT_USAGE = 2,        /* bad command line */
+    EXIT_INPUT = 3,        /* unreadable or malformed input data */
+    EXIT_CORRUPT = 4,      /* a summary file is damaged, truncated or too new */
+    EXIT_INCOMPATIBLE = 5, /* summaries that cannot be combined */
+    EXIT_RESOURCE = 6      /* out of memory or over --mem */
+};
+
+typedef struct {
+    const char *name;    /* long name without "--" */
+    char letter;         /* short form, 0 if none */
+    const char *metavar; /* value name, NULL for a flag */
+    const char *help;    /* one line */
+    const char **value;  /* receives the value (options with a metavar) */
+    int *flag;           /* set to 1 (flags) */
+} cli_option;
+
+typedef struct {
+    const char *name;     /* command name */
+    const char *synopsis; /* usage line after "sheaf NAME" */
+    const char *about;    /* paragraph shown by --help */
+    const cli_option *options; /* terminated by a zero entry */
+} cli_command;
+
+/* Parses argv[1..] (argv[0] is the command).  Positional arguments are put in
+ * *pos (allocated; caller frees).  Returns 0, 1 if --help was shown, or
+ * EXIT_USAGE after printing a one-line error. */
+int cli_parse(const cli_command *cmd, int argc, char **argv, char ***pos, size_t *npos);
+void cli_help(const cli_command *cmd);
+/* "sheaf CMD: message" on stderr. */
+void cli_error(const char *cmd, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
+
+/* Parses a size such as 4M, 64MiB, 512k, 2G (powers of 1024); -1 if bad. */
+long long cli_parse_size(const char *s);
+/* Parses a non-negative integer; -1 if bad. */
+long long cli_parse_count(const char *s);
+
+/* Exit code for a summary_status (declared here to keep summary.h out). */
+int cli_summary_exit(int status);
+
+/* Commands. */
+int cmd_scan(int argc, char **argv);
+int cmd_info(int argc, char **argv);
+
+#endif

@@ -1,0 +1,48 @@
+/* sheaf: command dispatch and the top-level help. */
+#include <stdio.h>
+#include <string.h>
+
+#include "cli/cli.h"
+
+typedef struct {
+    const char *name;
+    int (*run)(int, char **);
+    const char *what;
+} command;
+
+static const command COMMANDS[] = {
+    {"scan", cmd_scan, "read CSV/TSV tables (plain, gzip, zstd) into a summary file"},
+    {"info", cmd_info, "describe a summary: rows, sources, per-column statistics"},
+};
+
+static void help(FILE *f)
+{
+    fprintf(f, "usage: sheaf COMMAND [options] [arguments]\n\n"
+               "sheaf reads large CSV tables once, in bounded memory, into small mergeable\n"
+               "summary files, and screens columns from the summaries alone.\n\ncommands:\n");
+    for (size_t i = 0; i < sizeof COMMANDS / sizeof *COMMANDS; i++)
+        fprintf(f, "  %-10s %s\n", COMMANDS[i].name, COMMANDS[i].what);
+    fprintf(f, "\n'sheaf COMMAND --help' describes a command.\n\n"
+               "exit codes:\n"
+               "  0  success\n"
+               "  1  output could not be written, or another failure\n"
+               "  2  usage error (bad command line)\n"
+               "  3  bad input data (unreadable, malformed, truncated or corrupt stream)\n"
+               "  4  damaged, truncated or newer summary file\n"
+               "  5  incompatible summaries (different columns or options)\n"
+               "  6  resource limit (out of memory, over --mem)\n");
+}
+
+int main(int argc, char **argv)
+{
+    if (argc < 2) { help(stderr); return EXIT_USAGE; }
+    if (!strcmp(argv[1], "-h") || !strcmp(argv[1], "--help") || !strcmp(argv[1], "help")) {
+        help(stdout);
+        return EXIT_DONE;
+    }
+    if (!strcmp(argv[1], "--version")) { printf("sheaf 0.1 (summary format 1)\n"); return 0; }
+    for (size_t i = 0; i < sizeof COMMANDS / sizeof *COMMANDS; i++)
+        if (!strcmp(argv[1], COMMANDS[i].name)) return COMMANDS[i].run(argc - 1, argv + 1);
+    fprintf(stderr, "sheaf: unknown command '%s' (see sheaf --help)\n", argv[1]);
+    return EXIT_USAGE;
+}

@@ -1,0 +1,161 @@
+/* sheaf scan: data files -> summary file. */
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <time.h>
+#include <unistd.h>
+
+#include "cli/cli.h"
+#include "summary/scan.h"
+
+typedef struct {
+    double start;     /* seconds */
+    double last;      /* last print */
+    int shown;        /* something printed */
+} progress_state;
+
+static double now(void)
+{
+    struct timespec ts;
+    clock_gettime(CLOCK_MONOTONIC, &ts);
+    return (double)ts.tv_sec + ts.tv_nsec * 1e-9;
+}
+
+static void progress(void *ctx, uint64_t done, uint64_t total)
+{
+    progress_state *p = ctx;
+    double t = now();
+    if (t - p->last < 0.25) return;
+    p->last = t;
+    double mb = done / 1e6, rate = mb / (t - p->start > 1e-9 ? t - p->start : 1e-9);
+    if (total) {
+        double left = rate > 0 ? (total / 1e6 - mb) / rate : 0;
+        fprintf(stderr, "\rscan: %.0f / %.0f MB (%.0f%%), %.0f MB/s, %.0f s left   ", mb,
+                total / 1e6, 100.0 * done / total, rate, left > 0 ? left : 0);
+    } else {
+        fprintf(stderr, "\rscan: %.0f MB, %.0f MB/s   ", mb, rate);
+    }
+    p->shown = 1;
+}
+
+static int parse_delim(const char *s, char *out)
+{
+    if (!strcmp(s, "tab") || !strcmp(s, "\\t") || !strcmp(s, "\t")) { *out = '\t'; return 0; }
+    if (strlen(s) == 1 && s[0] != '"' && s[0] != '\n' && s[0] != '\r') { *out = s[0]; return 0; }
+    return -1;
+}
+
+int cmd_scan(int argc, char **argv)
+{
+    const char *out = NULL, *delim = NULL, *chunk = NULL, *maxrec = NULL, *missing = NULL;
+    const char *levels = NULL, *budget = NULL;
+    int no_header = 0, strict = 0, quiet = 0;
+    scan_options o;
+    scan_options_defaults(&o);
+    const cli_option opts[] = {
+        {"output", 'o', "OUT.sheaf", "summary file to write (required)", &out, NULL},
+        {"delim", 'd', "CHAR", "field delimiter: , ; | or tab (default: detected)", &delim, NULL},
+        {"no-header", 0, NULL, "first row is data; columns are named col1..colN", NULL, &no_header},
+        {"strict", 0, NULL, "rows with too few or too many fields are errors", NULL, &strict},
+        {"columns", 0, "A,B,..", "scan only these columns", &o.columns, NULL},
+        {"numeric", 0, "A,B,..", "declare columns numeric", &o.numeric, NULL},
+        {"categorical", 0, "A,B,..", "declare columns categorical (never parsed)", &o.categorical, NULL},
+        {"ignore", 0, "A,B,..", "leave these columns out", &o.ignore, NULL},
+        {"missing", 0, "S1,S2,..", "missing-value spellings (default NA,N/A,null,NULL,None,-,?)",
+         &missing, NULL},
+        {"max-levels", 0, "N", "exact value counts per column before overflow (default 1024)",
+         &levels, NULL},
+        {"bucket-budget", 0, "N", "occupied value buckets per column (default 2048)", &budget, NULL},
+        {"chunk-size", 0, "SIZE", "bytes per chunk, e.g. 4M (default 4 MiB)", &chunk, NULL},
+        {"max-record", 0, "SIZE", "longest record accepted (default 64 MiB)", &maxrec, NULL},
+        {"quiet", 'q', NULL, "no progress line", NULL, &quiet},
+        {0},
+    };
+    const cli_command cmd = {
+        "scan", "FILE... -o OUT.sheaf [options]",
+        "Reads each FILE (plain, gzip or zstd, detected from its bytes; '-' is standard\n"
+        "input) once, in bounded memory, and writes a summary of every column. Several\n"
+        "files are read in turn and must share the header. A failed scan writes nothing.",
+        opts};
+    char **pos;
+    size_t npos;
+    int rc = cli_parse(&cmd, argc, argv, &pos, &npos);
+    if (rc) { free(pos); summary_options_free(&o.opt); return rc == 1 ? EXIT_DONE : rc; }
+    rc = EXIT_USAGE;
+    long long v;
+    if (npos == 0) { cli_error("scan", "no input files (see sheaf scan --help)"); goto done; }
+    if (!out) { cli_error("scan", "-o OUT.sheaf is required"); goto done; }
+    if (delim && parse_delim(delim, &o.delim) != 0) {
+        cli_error("scan", "--delim must be one character or 'tab', got '%s'", delim);
+        goto done;
+    }
+    if (chunk) {
+        if ((v = cli_parse_size(chunk)) < 64 || v > (1ll << 32)) {
+            cli_error("scan", "--chunk-size must be a size between 64 and 4G, got '%s'", chunk);
+            goto done;
+        }
+        o.chunk_bytes = (size_t)v;
+    }
+    if (maxrec) {
+        if ((v = cli_parse_size(maxrec)) < 64) {
+            cli_error("scan", "--max-record must be a size of at least 64, got '%s'", maxrec);
+            goto done;
+        }
+        o.max_record_bytes = (size_t)v;
+    }
+    if (levels) {
+        if ((v = cli_parse_count(levels)) < 1 || v > (1 << 24)) {
+            cli_error("scan", "--max-levels must be between 1 and 16777216, got '%s'", levels);
+            goto done;
+        }
+        o.opt.max_levels = (uint32_t)v;
+    }
+    if (budget) {
+        if ((v = cli_parse_count(budget)) < 16 || v > (1 << 24)) {
+            cli_error("scan", "--bucket-budget must be between 16 and 16777216, got '%s'", budget);
+            goto done;
+        }
+        o.opt.bucket_budget = (uint32_t)v;
+    }
+    if (missing) {
+        summary_options_free(&o.opt);
+        char *copy = strdup(missing);
+        for (char *t = strtok(copy, ","); t; t = strtok(NULL, ",")) {
+            if (o.opt.n_missing == SUMMARY_MAX_MISSING) {
+                cli_error("scan", "--missing takes at most %d spellings", SUMMARY_MAX_MISSING);
+                free(copy);
+                goto done;
+            }
+            o.opt.missing[o.opt.n_missing++] = strdup(t);
+        }
+        free(copy);
+    }
+    o.header = !no_header;
+    o.strict = strict;
+    progress_state ps = {now(), now(), 0};
+    if (!quiet && isatty(STDERR_FILENO)) {
+        o.progress = progress;
+        o.progress_ctx = &ps;
+    }
+    summary *s;
+    char err[1024];
+    scan_status st = scan_files(&o, (const char *const *)pos, npos, &s, err, sizeof err);
+    if (ps.shown) fputs("\r\033[K", stderr);
+    if (st != SCAN_OK) {
+        cli_error("scan", "%s", err);
+        rc = st == SCAN_ERR_USAGE ? EXIT_USAGE : st == SCAN_ERR_MEMORY ? EXIT_RESOURCE : EXIT_INPUT;
+        goto done;
+    }
+    summary_status ws = summary_write(s, out, err, sizeof err);
+    summary_free(s);
+    if (ws != SUMMARY_OK) {
+        cli_error("scan", "%s", err);
+        rc = ws == SUMMARY_ERR_MEMORY ? EXIT_RESOURCE : EXIT_FAILED;
+        goto done;
+    }
+    rc = EXIT_DONE;
+done:
+    free(pos);
+    summary_options_free(&o.opt);
+    return rc;
+}

@@ -1,0 +1,122 @@
+/* csv: see csv.h.  The unquoted path is a tight byte loop over a class
+ * table (delimiter, newline, other); quoted fields are copied down in place
+ * only when they contain a doubled quote. */
+#include "io/csv.h"
+
+#include <string.h>
+
+void csv_reader_init(csv_reader *r, char *data, size_t len, char delim)
+{
+    r->pos = data;
+    r->end = data + len;
+    r->delim = delim;
+    r->lines = 0;
+    r->record_line = 0;
+}
+
+/* Parses a quoted field starting at p (just after the opening quote).
+ * Returns the byte after the field's last character, or NULL if the quote
+ * is not closed before end.  *flen receives the unescaped length. */
+static char *quoted(csv_reader *r, char *p, char *end, char delim, uint32_t *flen)
+{
+    char *out = p, *start = p;
+    for (;;) {
+        char *q = memchr(p, '"', (size_t)(end - p));
+        if (!q) return NULL;
+        size_t run = (size_t)(q - p);
+        for (char *s = p; s < q; s++) r->lines += (*s == '\n');
+        if (out != p) memmove(out, p, run);
+        out += run;
+        p = q + 1;
+        if (p < end && *p == '"') { /* doubled quote */
+            *out++ = '"';
+            p++;
+            continue;
+        }
+        break;
+    }
+    /* Lenient: anything up to the delimiter after the closing quote is kept. */
+    while (p < end && *p != delim && *p != '\n') {
+        if (*p == '\r' && p + 1 < end && p[1] == '\n') break;
+        *out++ = *p++;
+    }
+    if (p == end && out > start && out[-1] == '\r') out--;
+    *flen = (uint32_t)(out - start);
+    return p;
+}
+
+csv_status csv_next(csv_reader *r, csv_field *fields, size_t max_fields, size_t *nfields)
+{
+    char *p = r->pos, *end = r->end;
+    const char delim = r->delim;
+    /* Skip blank lines (nothing but a line end). */
+    for (;;) {
+        if (p >= end) { r->pos = p; return CSV_END; }
+        if (*p == '\n') { p++; r->lines++; continue; }
+        if (*p == '\r' && p + 1 < end && p[1] == '\n') { p += 2; r->lines++; continue; }
+        break;
+    }
+    r->record_line = r->lines;
+    size_t n = 0;
+    for (;;) {
+        const char *fstart;
+        uint32_t flen;
+        if (p < end && *p == '"') {
+            fstart = p + 1;
+            char *after = quoted(r, p + 1, end, delim, &flen);
+            if (!after) { r->pos = end; return CSV_UNTERMINATED; }
+            p = after;
+        } else {
+            char *s = p;
+            while (p < end && *p != delim && *p != '\n') p++;
+            fstart = s;
+            flen = (uint32_t)(p - s);
+            if (flen && s[flen - 1] == '\r' && (p == end || *p == '\n')) flen--;
+        }
+        if (n < max_fields) {
+            fields[n].ptr = fstart;
+            fields[n].len = flen;
+        }
+        n++;
+        if (p >= end) break;
+        if (*p == delim) { p++; continue; }
+        if (*p == '\r') p++; /* "\r\n" after a closing quote */
+        if (p < end) { p++; r->lines++; }
+        break;
+    }
+    r->pos = p;
+    *nfields = n;
+    return CSV_RECORD;
+}
+
+char csv_detect_delimiter(const char *data, size_t len)
+{
+    static const char cands[] = {',', '\t', ';', '|'};
+    int best = 0, best_score = -1;
+    for (int c = 0; c < 4; c++) {
+        /* Count fields per line outside quotes for the first 50 lines. */
+        int counts[50], lines = 0, inside = 0, fields = 1;
+        for (size_t i = 0; i < len && lines < 50; i++) {
+            char ch = data[i];
+            if (ch == '"') inside = !inside;
+            else if (!inside && ch == cands[c]) fields++;
+            else if (!inside && ch == '\n') { counts[lines++] = fields; fields = 1; }
+        }
+        if (lines == 0 && fields > 1) counts[lines++] = fields;
+        if (lines == 0) continue;
+        /* Score: lines agreeing with the first line's count, if it is > 1. */
+        int score = 0;
+        if (counts[0] > 1)
+            for (int i = 0; i < lines; i++) score += counts[i] == counts[0];
+        if (score > best_score) { best_score = score; best = c; }
+    }
+    return best_score > 0 ? cands[best] : ',';
+}
+
+size_t csv_bom_length(const char *data, size_t len)
+{
+    return len >= 3 && (unsigned char)data[0] == 0xEF && (unsigned char)data[1] == 0xBB &&
+                   (unsigned char)data[2] == 0xBF
+               ? 3
+               : 0;
+}

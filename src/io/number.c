@@ -1,0 +1,316 @@
+/* number: decimal cells to correctly rounded doubles (see number.h).
+ *
+ * Scan.  One pass over the cell keeps the first 19 significant digits as an
+ * integer mantissa m (10^19 - 1 < 2^64, so it cannot overflow) and a power of
+ * ten e, so that the text reads m * 10^e.  Leading zeros are not significant.
+ * Digits after the 19th are dropped: in the integer part each one raises e;
+ * if every dropped digit is zero the pair (m, e) is still exact.  Explicit
+ * exponents saturate at 10^9, so absurd exponents cannot overflow.
+ *
+ * Conversion.  Clinger (1990), "How to read floating point numbers
+ * accurately", PLDI '90: when m <= 2^53 and |e| <= 22 both m and 10^|e| are
+ * doubles exactly, so one IEEE multiply or divide rounds the exact product or
+ * quotient once and is correctly rounded.  Two cheap extensions keep more
+ * inputs on that path: for 22 < e <= 37, m * 10^(e-22) is formed in integer
+ * arithmetic when it stays <= 2^53 (then times 1e22); and a mantissa above
+ * 2^53 with trailing zeros is shortened first.  The fast path needs
+ * double evaluation in double precision (FLT_EVAL_METHOD == 0, e.g. SSE2);
+ * elsewhere it is compiled out and every conversion uses strtod().
+ *
+ * Fallback.  Everything else goes to strtod() (glibc rounds correctly for any
+ * length).  Its input is rebuilt in a stack buffer as "<digits>e<exponent>"
+ * with no decimal point, so the locale's radix character never matters, and
+ * errno is restored afterwards.  Cells with more significant digits than the
+ * buffer holds (NUMBER_KEEP_DIGITS = 800) are not treated as text: the digits
+ * are truncated to 800 and, when a dropped digit is nonzero, a final '1' is
+ * appended as a sticky digit.  A decimal midpoint between adjacent doubles
+ * (odd * 2^q, q >= -1075) has at most 768 significant digits, so no midpoint
+ * lies between the truncated text and the full one, and the rounding is the
+ * same.  Magnitudes beyond 10^310 become infinity, below 10^-330 zero,
+ * before strtod() sees them.
+ *
+ * Range.  A finite text that rounds to infinity is NUMBER_NONFINITE (value
+ * +-inf); one that underflows is a finite zero (value +-0, mantissa and
+ * exponent as written).  An exponent outside int32 leaves exact = 0.
+ *
+ * Difference.  Both mantissas are scaled to the smaller exponent s in 128-bit
+ * integers (m < 10^19, shift <= 19, product < 10^38 < 2^127); the difference
+ * d, when it fits int64, is rounded once by number_to_double(|d|, s).
+ */
+#include "io/number.h"
+
+#include <errno.h>
+#include <float.h>
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
+
+#define NUMBER_KEEP_DIGITS 800 /* significant digits handed to strtod() */
+#define NUMBER_TWO53 (UINT64_C(1) << 53)
+
+__extension__ typedef __int128 number_wide;
+
+static const double pow10_double[23] = {
+    1e0,  1e1,  1e2,  1e3,  1e4,  1e5,  1e6,  1e7,  1e8,  1e9,  1e10, 1e11,
+    1e12, 1e13, 1e14, 1e15, 1e16, 1e17, 1e18, 1e19, 1e20, 1e21, 1e22,
+};
+
+static const uint64_t pow10_u64[20] = {
+    UINT64_C(1),
+    UINT64_C(10),
+    UINT64_C(100),
+    UINT64_C(1000),
+    UINT64_C(10000),
+    UINT64_C(100000),
+    UINT64_C(1000000),
+    UINT64_C(10000000),
+    UINT64_C(100000000),
+    UINT64_C(1000000000),
+    UINT64_C(10000000000),
+    UINT64_C(100000000000),
+    UINT64_C(1000000000000),
+    UINT64_C(10000000000000),
+    UINT64_C(100000000000000),
+    UINT64_C(1000000000000000),
+    UINT64_C(10000000000000000),
+    UINT64_C(100000000000000000),
+    UINT64_C(1000000000000000000),
+    UINT64_C(10000000000000000000),
+};
+
+static inline unsigned digit_of(unsigned char c) { return (unsigned)c - '0'; }
+
+/* Clinger's exact case: m and 10^|e| exact doubles, one rounding. */
+static inline int fast_path(uint64_t m, int64_t e, double *v)
+{
+#if defined(FLT_EVAL_METHOD) && FLT_EVAL_METHOD == 0
+    if (m > NUMBER_TWO53) return 0;
+    if (e >= 0) {
+        if (e > 22) {
+            int64_t k = e - 22;
+            if (k > 15 || m > NUMBER_TWO53 / pow10_u64[k]) return 0;
+            m *= pow10_u64[k];
+            e = 22;
+        }
+        *v = (double)m * pow10_double[e];
+        return 1;
+    }
+    if (e < -22) return 0;
+    *v = (double)m / pow10_double[-e];
+    return 1;
+#else
+    (void)m, (void)e, (void)v;
+    return 0;
+#endif
+}
+
+/* strtod() of buf[0..n) digits followed by "e<exp10>"; buf has room for 24
+ * more bytes.  No radix character, so the locale does not matter. */
+static double strtod_digits(char *buf, size_t n, int64_t exp10)
+{
+    char rev[24];
+    int k = 0;
+    uint64_t u = exp10 < 0 ? (uint64_t)0 - (uint64_t)exp10 : (uint64_t)exp10;
+    buf[n++] = 'e';
+    if (exp10 < 0) buf[n++] = '-';
+    do {
+        rev[k++] = (char)('0' + u % 10);
+        u /= 10;
+    } while (u);
+    while (k) buf[n++] = rev[--k];
+    buf[n] = '\0';
+    int saved = errno;
+    double v = strtod(buf, NULL);
+    errno = saved;
+    return v;
+}
+
+/* m * 10^e for m != 0 when the fast path does not apply. */
+static double slow_path(uint64_t m, int64_t e)
+{
+    /* 1 <= m < 2^64 < 10^20, so the value lies in [10^e, 10^(e+20)). */
+    if (e > 310) return HUGE_VAL;
+    if (e < -350) return 0.0;
+    char buf[20 + 24], rev[20];
+    size_t n = 0;
+    int k = 0;
+    do {
+        rev[k++] = (char)('0' + m % 10);
+        m /= 10;
+    } while (m);
+    while (k) buf[n++] = rev[--k];
+    return strtod_digits(buf, n, e);
+}
+
+double number_to_double(uint64_t mantissa, int32_t exp10, int negative)
+{
+    double v;
+    int64_t e = exp10;
+    if (mantissa == 0) {
+        v = 0.0;
+    } else if (!fast_path(mantissa, e, &v)) {
+        while (mantissa % 10 == 0) {
+            mantissa /= 10;
+            e++;
+        }
+        if (!fast_path(mantissa, e, &v)) v = slow_path(mantissa, e);
+    }
+    return negative ? -v : v;
+}
+
+/* Appends the digits [p, end) to buf[0..*n) up to NUMBER_KEEP_DIGITS;
+ * returns nonzero when a dropped digit is nonzero. */
+static int keep_digits(char *buf, size_t *n, const unsigned char *p, const unsigned char *end)
+{
+    size_t len = (size_t)(end - p), room = NUMBER_KEEP_DIGITS - *n;
+    size_t take = len < room ? len : room;
+    memcpy(buf + *n, p, take);
+    *n += take;
+    for (p += take; p < end; p++)
+        if (*p != '0') return 1;
+    return 0;
+}
+
+/* Value of the digits in [p, end) (with at most one '.') times 10^exp10,
+ * for cells off the fast path; see the opening comment. */
+static double text_value(const unsigned char *p, const unsigned char *end, int64_t exp10)
+{
+    char buf[NUMBER_KEEP_DIGITS + 1 + 24];
+    size_t n = 0;
+    const unsigned char *dot = memchr(p, '.', (size_t)(end - p));
+    const unsigned char *integer_end = dot ? dot : end;
+    while (p < integer_end && *p == '0') p++;
+    int64_t point = integer_end - p; /* value = 0.<buf> * 10^(point + exp10) */
+    int sticky = keep_digits(buf, &n, p, integer_end);
+    if (dot) {
+        p = dot + 1;
+        if (n == 0)
+            for (; p < end && *p == '0'; p++) point--;
+        sticky |= keep_digits(buf, &n, p, end);
+    }
+    if (sticky) buf[n++] = '1';
+    int64_t magnitude = point + exp10; /* value in [10^(magnitude-1), 10^magnitude) */
+    if (magnitude > 310) return HUGE_VAL;
+    if (magnitude < -330) return 0.0;
+    return strtod_digits(buf, n, magnitude - (int64_t)n);
+}
+
+static int equal_fold(const unsigned char *p, size_t n, const char *lower)
+{
+    size_t i = 0;
+    for (; i < n && lower[i]; i++)
+        if ((p[i] | 0x20) != (unsigned char)lower[i]) return 0;
+    return i == n && lower[i] == '\0';
+}
+
+number_kind number_parse(const char *s, size_t len, number_decimal *out)
+{
+    const unsigned char *p = (const unsigned char *)s, *end = p + len;
+    while (p < end && *p == ' ') p++;
+    while (end > p && end[-1] == ' ') end--;
+
+    int negative = 0;
+    if (p < end && (*p == '-' || *p == '+')) negative = *p++ == '-';
+
+    const unsigned char *start = p;
+    uint64_t m = 0;
+    int room = 19;         /* significant digits m can still take */
+    int64_t shift = 0;     /* power of ten contributed by the digit positions */
+    unsigned dropped = 0;  /* OR of the digits beyond the 19th */
+    while (p < end && *p == '0') p++;
+    for (; p < end && digit_of(*p) < 10 && room; p++, room--) m = m * 10 + digit_of(*p);
+    for (; p < end && digit_of(*p) < 10; p++) {
+        shift++;
+        dropped |= digit_of(*p);
+    }
+    size_t digits = (size_t)(p - start);
+    if (p < end && *p == '.') {
+        const unsigned char *f = ++p;
+        if (room == 19) /* no significant digit yet: zeros only move the point */
+            for (; p < end && *p == '0'; p++) shift--;
+        const unsigned char *kept = p;
+        for (; p < end && digit_of(*p) < 10 && room; p++, room--) m = m * 10 + digit_of(*p);
+        shift -= p - kept;
+        for (; p < end && digit_of(*p) < 10; p++) dropped |= digit_of(*p);
+        digits += (size_t)(p - f);
+    }
+    const unsigned char *mantissa_end = p;
+
+    if (digits == 0) {
+        if (p != start || p == end) return NUMBER_TEXT; /* ".", "-", "" */
+        size_t n = (size_t)(end - p);
+        if (equal_fold(p, n, "inf") || equal_fold(p, n, "infinity")) {
+            out->value = negative ? -HUGE_VAL : HUGE_VAL;
+            return NUMBER_NONFINITE;
+        }
+        if (equal_fold(p, n, "nan")) {
+            out->value = negative ? -NAN : NAN;
+            return NUMBER_NONFINITE;
+        }
+        return NUMBER_TEXT;
+    }
+
+    int64_t exponent = 0;
+    if (p < end && (*p | 0x20) == 'e') {
+        int exponent_negative = 0;
+        p++;
+        if (p < end && (*p == '-' || *p == '+')) exponent_negative = *p++ == '-';
+        if (p == end || digit_of(*p) >= 10) return NUMBER_TEXT;
+        for (; p < end && digit_of(*p) < 10; p++)
+            if (exponent < 1000000000) exponent = exponent * 10 + digit_of(*p);
+        if (exponent_negative) exponent = -exponent;
+    }
+    if (p != end) return NUMBER_TEXT;
+
+    int64_t e = exponent + shift;
+    int exact = !dropped;
+    if (m == 0) {
+        e = 0;
+    } else if (e < INT32_MIN || e > INT32_MAX) {
+        e = e < 0 ? INT32_MIN : INT32_MAX; /* value is 0 or inf either way */
+        exact = 0;
+    }
+    double v = 0.0;
+    if (m != 0 && (dropped || !fast_path(m, e, &v))) v = text_value(start, mantissa_end, exponent);
+    if (negative) v = -v;
+    out->value = v;
+    if (isinf(v)) return NUMBER_NONFINITE;
+    out->mantissa = m;
+    out->exp10 = (int32_t)e;
+    out->negative = (uint8_t)negative;
+    out->exact = (uint8_t)exact;
+    return NUMBER_FINITE;
+}
+
+/* n's signed mantissa at power of ten s <= n->exp10; 0 when it would not fit. */
+static int scaled(const number_decimal *n, int32_t s, number_wide *out)
+{
+    number_wide m = n->mantissa;
+    if (m != 0) {
+        int64_t k = (int64_t)n->exp10 - s;
+        /* The operand already at s is below 10^19; this one would reach
+         * 10^20, so |difference| > 2^63. */
+        if (k > 19) return 0;
+        m *= pow10_u64[k];
+    }
+    *out = n->negative ? -m : m;
+    return 1;
+}
+
+double number_difference(const number_decimal *a, const number_decimal *b, int *exact_out)
+{
+    if (a->exact && b->exact) {
+        int32_t s = a->exp10 < b->exp10 ? a->exp10 : b->exp10;
+        number_wide x, y;
+        if (scaled(a, s, &x) && scaled(b, s, &y)) {
+            number_wide d = x - y;
+            if (d >= INT64_MIN && d <= INT64_MAX) {
+                if (exact_out) *exact_out = 1;
+                uint64_t u = d < 0 ? (uint64_t)0 - (uint64_t)(int64_t)d : (uint64_t)d;
+                return number_to_double(u, s, d < 0);
+            }
+        }
+    }
+    if (exact_out) *exact_out = 0;
+    return a->value - b->value;
+}

@@ -1,0 +1,315 @@
+/* source: plain / gzip / zstd byte streams.  See source.h.
+ *
+ * gzip: ISA-L's isal_inflate with crc_flag = ISAL_GZIP parses each member's
+ * header, inflates it and checks its CRC-32 and length trailer.  After a
+ * member ends (block_state == ISAL_BLOCK_FINISH) the state is reset and the
+ * next member, if any, follows (RFC 1952 allows concatenated members; `cat
+ * a.gz b.gz` produces one).  Input that ends inside a member is a truncated
+ * stream, reported with the raw byte offset.
+ * zstd: ZSTD_decompressStream over any number of frames; a nonzero hint at the
+ * end of input means the last frame is incomplete.
+ */
+#include "io/source.h"
+
+#include <errno.h>
+#include <fcntl.h>
+#include <isa-l.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <sys/stat.h>
+#include <unistd.h>
+#include <xxhash.h>
+#include <zstd.h>
+
+#define RAW_BYTES (1u << 20)
+
+struct source {
+    int fd;                   /* input descriptor */
+    int owns_fd;              /* close fd on source_close */
+    char *path;               /* as given ("-" for stdin) */
+    source_format kind;       /* detected format */
+    uint8_t *raw;             /* raw input buffer */
+    size_t raw_len, raw_pos;  /* bytes in raw, next unconsumed */
+    int raw_eof;              /* read() returned 0 */
+    uint64_t raw_offset;      /* raw bytes taken from fd (incl. buffered) */
+    uint64_t raw_size;        /* file size, 0 if unknown */
+    int64_t mtime;            /* seconds since the epoch */
+    XXH3_state_t *hash;       /* fingerprint of raw bytes */
+    struct inflate_state *gz; /* gzip state */
+    int gz_in_member;         /* inside a gzip member */
+    ZSTD_DStream *zs;         /* zstd state */
+    size_t zs_hint;           /* last ZSTD_decompressStream result */
+    int done;                 /* end of decoded input reached */
+    char err[512];            /* last error */
+};
+
+static void fail(source *s, const char *fmt, const char *detail)
+{
+    snprintf(s->err, sizeof s->err, fmt, s->path, detail);
+}
+
+/* Refills the raw buffer; returns bytes now available, 0 at EOF, -1 error. */
+static ssize_t raw_fill(source *s)
+{
+    if (s->raw_pos < s->raw_len) return (ssize_t)(s->raw_len - s->raw_pos);
+    s->raw_pos = s->raw_len = 0;
+    if (s->raw_eof) return 0;
+    for (;;) {
+        ssize_t n = read(s->fd, s->raw, RAW_BYTES);
+        if (n < 0 && errno == EINTR) continue;
+        if (n < 0) {
+            snprintf(s->err, sizeof s->err, "%s: read error at byte %llu: %s", s->path,
+                     (unsigned long long)s->raw_offset, strerror(errno));
+            return -1;
+        }
+        if (n == 0) { s->raw_eof = 1; return 0; }
+        XXH3_64bits_update(s->hash, s->raw, (size_t)n);
+        s->raw_len = (size_t)n;
+        s->raw_offset += (uint64_t)n;
+        return n;
+    }
+}
+
+static source *source_new(const char *path, int fd, int owns)
+{
+    source *s = calloc(1, sizeof *s);
+    if (!s) return NULL;
+    s->fd = fd;
+    s->owns_fd = owns;
+    s->path = strdup(path);
+    s->raw = malloc(RAW_BYTES);
+    s->hash = XXH3_createState();
+    if (!s->path || !s->raw || !s->hash) { source_close(s); return NULL; }
+    XXH3_64bits_reset(s->hash);
+    struct stat st;
+    if (fstat(fd, &st) == 0) {
+        if (S_ISREG(st.st_mode)) s->raw_size = (uint64_t)st.st_size;
+        s->mtime = (int64_t)st.st_mtime;
+    }
+    return s;
+}
+
+static int detect(source *s, char *err, size_t errlen)
+{
+    /* Gather at least 4 bytes (or all there is) to read the magic. */
+    while (!s->raw_eof && s->raw_len < 4) {
+        ssize_t n = read(s->fd, s->raw + s->raw_len, RAW_BYTES - s->raw_len);
+        if (n < 0 && errno == EINTR) continue;
+        if (n < 0) {
+            snprintf(err, errlen, "%s: cannot read: %s", s->path, strerror(errno));
+            return -1;
+        }
+        if (n == 0) { s->raw_eof = 1; break; }
+        XXH3_64bits_update(s->hash, s->raw + s->raw_len, (size_t)n);
+        s->raw_len += (size_t)n;
+        s->raw_offset += (uint64_t)n;
+    }
+    const uint8_t *m = s->raw;
+    if (s->raw_len >= 2 && m[0] == 0x1f && m[1] == 0x8b) {
+        s->kind = SOURCE_GZIP;
+        s->gz = malloc(sizeof *s->gz);
+        if (!s->gz) { snprintf(err, errlen, "%s: out of memory", s->path); return -1; }
+        isal_inflate_init(s->gz);
+        s->gz->crc_flag = ISAL_GZIP;
+        s->gz_in_member = 1;
+    } else if (s->raw_len >= 4 && m[0] == 0x28 && m[1] == 0xb5 && m[2] == 0x2f && m[3] == 0xfd) {
+        s->kind = SOURCE_ZSTD;
+        s->zs = ZSTD_createDStream();
+        if (!s->zs) { snprintf(err, errlen, "%s: out of memory", s->path); return -1; }
+        ZSTD_initDStream(s->zs);
+    } else {
+        s->kind = SOURCE_PLAIN;
+    }
+    return 0;
+}
+
+source *source_open(const char *path, char *err, size_t errlen)
+{
+    int fd = 0, owns = 0;
+    if (strcmp(path, "-") != 0) {
+        fd = open(path, O_RDONLY | O_CLOEXEC);
+        if (fd < 0) {
+            snprintf(err, errlen, "%s: cannot open: %s", path, strerror(errno));
+            return NULL;
+        }
+        owns = 1;
+        struct stat st;
+        if (fstat(fd, &st) == 0 && S_ISDIR(st.st_mode)) {
+            snprintf(err, errlen, "%s: is a directory", path);
+            close(fd);
+            return NULL;
+        }
+    }
+    source *s = source_new(path, fd, owns);
+    if (!s) {
+        snprintf(err, errlen, "%s: out of memory", path);
+        if (owns) close(fd);
+        return NULL;
+    }
+    if (detect(s, err, errlen) != 0) { source_close(s); return NULL; }
+    return s;
+}
+
+source *source_open_at(const char *path, uint64_t start, char *err, size_t errlen)
+{
+    source *s = source_open(path, err, errlen);
+    if (!s) return NULL;
+    if (s->kind != SOURCE_PLAIN) {
+        snprintf(err, errlen,
+                 "%s: a %s file cannot be split into byte ranges; split it into several "
+                 "compressed files instead and scan them as shards",
+                 path, source_format_name(s->kind));
+        source_close(s);
+        return NULL;
+    }
+    if (!s->raw_size || lseek(s->fd, (off_t)start, SEEK_SET) < 0) {
+        snprintf(err, errlen, "%s: byte ranges need a regular, seekable file", path);
+        source_close(s);
+        return NULL;
+    }
+    /* Restart hashing and counting from `start`. */
+    s->raw_len = s->raw_pos = 0;
+    s->raw_eof = 0;
+    s->raw_offset = start;
+    XXH3_64bits_reset(s->hash);
+    return s;
+}
+
+void source_close(source *s)
+{
+    if (!s) return;
+    if (s->owns_fd) close(s->fd);
+    free(s->path);
+    free(s->raw);
+    if (s->hash) XXH3_freeState(s->hash);
+    free(s->gz);
+    if (s->zs) ZSTD_freeDStream(s->zs);
+    free(s);
+}
+
+static ssize_t read_plain(source *s, uint8_t *buf, size_t cap)
+{
+    ssize_t avail = raw_fill(s);
+    if (avail <= 0) return avail;
+    size_t n = (size_t)avail < cap ? (size_t)avail : cap;
+    memcpy(buf, s->raw + s->raw_pos, n);
+    s->raw_pos += n;
+    return (ssize_t)n;
+}
+
+static ssize_t read_gzip(source *s, uint8_t *buf, size_t cap)
+{
+    struct inflate_state *st = s->gz;
+    size_t produced = 0;
+    while (produced == 0) {
+        if (!s->gz_in_member) {
+            /* Between members: more input starts a new member. */
+            ssize_t avail = raw_fill(s);
+            if (avail < 0) return -1;
+            if (avail == 0) return 0;
+            isal_inflate_reset(st);
+            st->crc_flag = ISAL_GZIP;
+            s->gz_in_member = 1;
+        }
+        ssize_t avail = raw_fill(s);
+        if (avail < 0) return -1;
+        st->next_in = s->raw + s->raw_pos;
+        st->avail_in = (uint32_t)avail;
+        uint32_t room = (uint32_t)(cap - produced);
+        st->next_out = buf + produced;
+        st->avail_out = room;
+        int rc = isal_inflate(st);
+        size_t used = (size_t)avail - st->avail_in;
+        s->raw_pos += used;
+        produced += room - st->avail_out;
+        if (rc < 0) {
+            char at[64];
+            snprintf(at, sizeof at, "%llu",
+                     (unsigned long long)(s->raw_offset - (s->raw_len - s->raw_pos)));
+            fail(s, rc == ISAL_INCORRECT_CHECKSUM
+                        ? "%s: corrupt gzip stream (checksum mismatch) near byte %s"
+                        : "%s: corrupt gzip stream near byte %s",
+                 at);
+            return -1;
+        }
+        if (st->block_state == ISAL_BLOCK_FINISH) {
+            s->gz_in_member = 0;
+            continue;
+        }
+        if (used == 0 && produced == 0 && avail == 0) {
+            char at[64];
+            snprintf(at, sizeof at, "%llu", (unsigned long long)s->raw_offset);
+            fail(s, "%s: truncated gzip stream (input ends inside a member at byte %s)", at);
+            return -1;
+        }
+    }
+    return (ssize_t)produced;
+}
+
+static ssize_t read_zstd(source *s, uint8_t *buf, size_t cap)
+{
+    ZSTD_outBuffer out = {buf, cap, 0};
+    while (out.pos == 0) {
+        ssize_t avail = raw_fill(s);
+        if (avail < 0) return -1;
+        if (avail == 0) {
+            if (s->zs_hint != 0) {
+                char at[64];
+                snprintf(at, sizeof at, "%llu", (unsigned long long)s->raw_offset);
+                fail(s, "%s: truncated zstd stream (input ends inside a frame at byte %s)", at);
+                return -1;
+            }
+            /* Flush anything still buffered inside the decoder. */
+            ZSTD_inBuffer none = {NULL, 0, 0};
+            size_t rc = ZSTD_decompressStream(s->zs, &out, &none);
+            if (ZSTD_isError(rc)) {
+                fail(s, "%s: corrupt zstd stream: %s", ZSTD_getErrorName(rc));
+                return -1;
+            }
+            return (ssize_t)out.pos;
+        }
+        ZSTD_inBuffer in = {s->raw + s->raw_pos, (size_t)avail, 0};
+        size_t rc = ZSTD_decompressStream(s->zs, &out, &in);
+        s->raw_pos += in.pos;
+        if (ZSTD_isError(rc)) {
+            char msg[160];
+            snprintf(msg, sizeof msg, "%s near byte %llu", ZSTD_getErrorName(rc),
+                     (unsigned long long)(s->raw_offset - (s->raw_len - s->raw_pos)));
+            fail(s, "%s: corrupt zstd stream: %s", msg);
+            return -1;
+        }
+        s->zs_hint = rc;
+    }
+    return (ssize_t)out.pos;
+}
+
+ssize_t source_read(source *s, void *buf, size_t cap)
+{
+    if (s->done || cap == 0) return 0;
+    ssize_t n;
+    switch (s->kind) {
+    case SOURCE_GZIP: n = read_gzip(s, buf, cap); break;
+    case SOURCE_ZSTD: n = read_zstd(s, buf, cap); break;
+    default: n = read_plain(s, buf, cap); break;
+    }
+    if (n == 0) s->done = 1;
+    return n;
+}
+
+const char *source_error(const source *s) { return s->err; }
+const char *source_path(const source *s) { return s->path; }
+source_format source_kind(const source *s) { return s->kind; }
+uint64_t source_raw_offset(const source *s) { return s->raw_offset - (s->raw_len - s->raw_pos); }
+uint64_t source_raw_size(const source *s) { return s->raw_size; }
+int64_t source_mtime(const source *s) { return s->mtime; }
+uint64_t source_fingerprint(const source *s) { return XXH3_64bits_digest(s->hash); }
+
+const char *source_format_name(source_format f)
+{
+    switch (f) {
+    case SOURCE_GZIP: return "gzip";
+    case SOURCE_ZSTD: return "zstd";
+    default: return "plain";
+    }
+}

@@ -1,0 +1,47 @@
+/* source: a stream of decompressed bytes from a file or standard input.
+ *
+ * The format is detected from the first bytes, never from the name: gzip
+ * (1f 8b; single or multi-member, decoded with ISA-L's isal_inflate, CRC and
+ * length of every member checked), zstd (28 b5 2f fd; libzstd streaming, any
+ * number of frames), anything else is plain bytes.  While reading, the source
+ * hashes the raw (compressed) bytes with XXH3-64: that fingerprint, the size
+ * and the modification time identify the source in a summary's provenance.
+
+ * A plain file may also be opened at a byte offset (source_open_at), for
+ * byte-range shards; the caller decides where to stop.
+ */
+#ifndef SHEAF_SOURCE_H
+#define SHEAF_SOURCE_H
+
+#include <stddef.h>
+#include <stdint.h>
+#include <sys/types.h>
+
+typedef enum { SOURCE_PLAIN = 0, SOURCE_GZIP, SOURCE_ZSTD } source_format;
+
+typedef struct source source;
+
+/* Opens path ("-" for standard input).  Returns NULL and writes a one-line
+ * message naming the file into err on failure. */
+source *source_open(const char *path, char *err, size_t errlen);
+/* Opens a plain (uncompressed) regular file positioned at byte `start`.
+ * Fails with a message when the file is compressed or not seekable. */
+source *source_open_at(const char *path, uint64_t start, char *err, size_t errlen);
+void source_close(source *s);
+
+/* Reads up to cap decompressed bytes.  Returns the count, 0 at the end of
+ * input, or -1 on error (message in source_error: file and byte offset). */
+ssize_t source_read(source *s, void *buf, size_t cap);
+const char *source_error(const source *s);
+
+const char *source_path(const source *s);
+source_format source_kind(const source *s);
+const char *source_format_name(source_format f);
+/* Raw bytes consumed so far, and the size of the file (0 if unknown). */
+uint64_t source_raw_offset(const source *s);
+uint64_t source_raw_size(const source *s);
+int64_t source_mtime(const source *s);
+/* XXH3-64 of the raw bytes read so far (complete once source_read returned 0). */
+uint64_t source_fingerprint(const source *s);
+
+#endif

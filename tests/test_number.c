@@ -1,0 +1,391 @@
+/* Tests for io/number: decimal parsing, rounding, exact differences.
+ *
+ * Reference for every rounding check: glibc strtod(), which rounds correctly
+ * for inputs of any length, and the C compiler's own conversion of double
+ * literals (gcc, correctly rounded).  Random inputs come from a fixed-seed
+ * xorshift64 generator (Marsaglia 2003), so every run checks the same cases.
+ */
+#include <criterion/criterion.h>
+
+#include <math.h>
+#include <stdint.h>
+#include <stdio.h>
+#include <string.h>
+
+#include "io/number.h"
+#include "testutil.h"
+
+static uint64_t xorshift64(uint64_t *state)
+{
+    uint64_t x = *state;
+    x ^= x << 13;
+    x ^= x >> 7;
+    x ^= x << 17;
+    return *state = x;
+}
+
+static uint64_t bits_of(double v)
+{
+    uint64_t u;
+    memcpy(&u, &v, sizeof u);
+    return u;
+}
+
+static number_kind parse(const char *s, number_decimal *d)
+{
+    return number_parse(s, strlen(s), d);
+}
+
+/* Parses s and checks it is finite with exactly the bits of want. */
+static void expect_value(const char *s, double want)
+{
+    number_decimal d;
+    number_kind k = parse(s, &d);
+    cr_assert_eq(k, NUMBER_FINITE, "\"%s\" kind %d", s, (int)k);
+    cr_assert_eq(bits_of(d.value), bits_of(want), "\"%s\" -> %.17g, want %.17g", s, d.value, want);
+}
+
+Test(number, sign_decimal_and_exponent_forms_parse)
+{
+    /* Expected values: the compiler's correctly rounded literals. */
+    expect_value("1.", 1.0);
+    expect_value(".5", 0.5);
+    expect_value("-0.25", -0.25);
+    expect_value("+3", 3.0);
+    expect_value("1e5", 1e5);
+    expect_value("1E-3", 1e-3);
+    expect_value("2.5e+10", 2.5e10);
+    expect_value("-.5E2", -50.0);
+    expect_value("007", 7.0);
+    expect_value("  42  ", 42.0);
+    expect_value("0.1", 0.1);
+    expect_value("12.345", 12.345);
+    expect_value("1700000000123456", 1700000000123456.0);
+    expect_value("-0.001", -0.001);
+    expect_value("1e23", 1e23);
+    expect_value("9007199254740993", 9007199254740992.0); /* tie to even */
+    expect_value("0.000", 0.0);
+    expect_value("-0", -0.0);
+    expect_value("1.7976931348623157e308", 1.7976931348623157e308);
+    expect_value("4.9406564584124654e-324", 4.9406564584124654e-324);
+}
+
+Test(number, mantissa_and_power_of_ten_are_reported)
+{
+    number_decimal d;
+    cr_assert_eq(parse("-12.3450", &d), NUMBER_FINITE);
+    cr_assert_eq(d.mantissa, 123450u);
+    cr_assert_eq(d.exp10, -4);
+    cr_assert_eq(d.negative, 1);
+    cr_assert_eq(d.exact, 1);
+
+    cr_assert_eq(parse("0.00072e3", &d), NUMBER_FINITE);
+    cr_assert_eq(d.mantissa, 72u);
+    cr_assert_eq(d.exp10, -2);
+
+    cr_assert_eq(parse("-0.0", &d), NUMBER_FINITE);
+    cr_assert_eq(d.mantissa, 0u);
+    cr_assert_eq(d.negative, 1);
+    cr_assert(signbit(d.value));
+    cr_assert_eq(d.exact, 1);
+}
+
+Test(number, text_forms_are_rejected_and_leave_output_untouched)
+{
+    static const char *const texts[] = {
+        "12abc", "1.2.3", "e5", ".", "-", "1e", "0x10", "1,5", "", "   ", "+-1", "--1",
+        "1e+", "1e-", ".e5", "1 2", "1d5", "in", "infin", "inf5", "nana", "nan(1)", "- 1",
+        "1e5.0", "\t1", "1\n", "Inf.", "1_000",
+    };
+    for (size_t i = 0; i < sizeof texts / sizeof *texts; i++) {
+        number_decimal d;
+        memset(&d, 0xab, sizeof d);
+        number_decimal before = d;
+        cr_assert_eq(parse(texts[i], &d), NUMBER_TEXT, "\"%s\" should be text", texts[i]);
+        cr_assert(memcmp(&d, &before, sizeof d) == 0, "\"%s\" wrote the output", texts[i]);
+    }
+}
+
+Test(number, infinity_and_nan_spellings_are_nonfinite)
+{
+    static const char *const infinities[] = {"inf", "INF", "Infinity", "+inf", " iNfInItY "};
+    for (size_t i = 0; i < sizeof infinities / sizeof *infinities; i++) {
+        number_decimal d;
+        cr_assert_eq(parse(infinities[i], &d), NUMBER_NONFINITE, "\"%s\"", infinities[i]);
+        cr_assert(isinf(d.value) && d.value > 0, "\"%s\"", infinities[i]);
+    }
+    number_decimal d;
+    cr_assert_eq(parse("-Infinity", &d), NUMBER_NONFINITE);
+    cr_assert(isinf(d.value) && d.value < 0);
+    static const char *const nans[] = {"nan", "NaN", "NAN", "-nan", "+nAn"};
+    for (size_t i = 0; i < sizeof nans / sizeof *nans; i++) {
+        cr_assert_eq(parse(nans[i], &d), NUMBER_NONFINITE, "\"%s\"", nans[i]);
+        cr_assert(isnan(d.value), "\"%s\"", nans[i]);
+    }
+}
+
+Test(number, parse_never_reads_past_len)
+{
+    number_decimal d;
+    cr_assert_eq(number_parse("123456", 3, &d), NUMBER_FINITE);
+    cr_assert_eq(d.value, 123.0);
+    cr_assert_eq(number_parse("1.5e7x", 5, &d), NUMBER_FINITE);
+    cr_assert_eq(d.value, 1.5e7);
+    cr_assert_eq(number_parse("1e5", 2, &d), NUMBER_TEXT);
+    cr_assert_eq(number_parse("infinity", 3, &d), NUMBER_NONFINITE);
+    char unterminated[4] = {'-', '2', '.', '5'};
+    cr_assert_eq(number_parse(unterminated, sizeof unterminated, &d), NUMBER_FINITE);
+    cr_assert_eq(d.value, -2.5);
+}
+
+Test(number, overflow_is_nonfinite_and_underflow_is_zero)
+{
+    number_decimal d;
+    cr_assert_eq(parse("1e999999999", &d), NUMBER_NONFINITE);
+    cr_assert(isinf(d.value) && d.value > 0);
+    cr_assert_eq(parse("-1e400", &d), NUMBER_NONFINITE);
+    cr_assert(isinf(d.value) && d.value < 0);
+    cr_assert_eq(parse("1.7976931348623159e308", &d), NUMBER_NONFINITE); /* rounds up */
+    cr_assert_eq(parse("99999999999999999999999999999e99999999999999999999999", &d),
+                 NUMBER_NONFINITE);
+
+    cr_assert_eq(parse("1e-400", &d), NUMBER_FINITE);
+    cr_assert_eq(bits_of(d.value), bits_of(0.0));
+    cr_assert_eq(d.mantissa, 1u);
+    cr_assert_eq(d.exp10, -400);
+    cr_assert_eq(parse("-2.5e-99999999999999999999", &d), NUMBER_FINITE);
+    cr_assert_eq(bits_of(d.value), bits_of(-0.0));
+    cr_assert_eq(d.exact, 0); /* exponent beyond int32 */
+    cr_assert_eq(parse("0e999999999999", &d), NUMBER_FINITE);
+    cr_assert_eq(d.value, 0.0);
+    cr_assert_eq(d.exact, 1);
+    /* Just above half the smallest subnormal rounds up to it (strtod agrees). */
+    expect_value("2.4703282292062328e-324", 4.9406564584124654e-324);
+}
+
+Test(number, more_than_19_digits_match_strtod)
+{
+    number_decimal d;
+    cr_assert_eq(parse("100000000000000000000", &d), NUMBER_FINITE);
+    cr_assert_eq(d.value, 1e20);
+    cr_assert_eq(d.exact, 1); /* only zeros were dropped */
+    cr_assert_eq(d.mantissa, UINT64_C(1000000000000000000));
+    cr_assert_eq(d.exp10, 2);
+
+    cr_assert_eq(parse("12345678901234567890123", &d), NUMBER_FINITE);
+    cr_assert_eq(d.mantissa, UINT64_C(1234567890123456789));
+    cr_assert_eq(d.exp10, 4);
+    cr_assert_eq(d.exact, 0);
+
+    static const char *const longs[] = {
+        "3.14159265358979323846264338327950288419716939937510",
+        "-0.000000000000000000000000000012345678901234567890123456789",
+        "9007199254740992.99999999999999999999",
+        "2.22507385850720113605740979670913197593481954635164564e-308",
+        "123456789012345678901234567890e-330",
+    };
+    for (size_t i = 0; i < sizeof longs / sizeof *longs; i++) {
+        number_kind k = parse(longs[i], &d);
+        cr_assert_eq(k, NUMBER_FINITE, "\"%s\"", longs[i]);
+        cr_assert_eq(bits_of(d.value), bits_of(strtod(longs[i], NULL)), "\"%s\"", longs[i]);
+    }
+}
+
+/* The exact decimal digits of 5^1075, so that "<digits>e-1075" is 2^-1075,
+ * the midpoint between 0 and the smallest subnormal (752 digits). */
+static size_t five_pow_1075(char *out)
+{
+    unsigned char digit[800] = {1}; /* little-endian decimal */
+    size_t n = 1;
+    for (int i = 0; i < 1075; i++) {
+        unsigned carry = 0;
+        for (size_t j = 0; j < n; j++) {
+            unsigned v = digit[j] * 5u + carry;
+            digit[j] = (unsigned char)(v % 10);
+            carry = v / 10;
+        }
+        if (carry) digit[n++] = (unsigned char)carry;
+    }
+    for (size_t j = 0; j < n; j++) out[j] = (char)('0' + digit[n - 1 - j]);
+    return n;
+}
+
+Test(number, digits_beyond_the_buffer_round_by_the_sticky_digit)
+{
+    static char text[4096];
+    size_t n = five_pow_1075(text);
+    cr_assert_eq(n, 752u);
+    const double tiny = 4.9406564584124654e-324; /* 2^-1074 */
+    number_decimal d;
+
+    /* The exact midpoint ties to even, i.e. to zero. */
+    snprintf(text + n, sizeof text - n, "e-1075");
+    cr_assert_eq(parse(text, &d), NUMBER_FINITE);
+    cr_assert_eq(bits_of(d.value), bits_of(0.0));
+
+    /* Zeros past the 800 kept digits change nothing ... */
+    memset(text + n, '0', 1200);
+    snprintf(text + n + 1200, sizeof text - n - 1200, "e-2275");
+    cr_assert_eq(parse(text, &d), NUMBER_FINITE);
+    cr_assert_eq(bits_of(d.value), bits_of(0.0));
+    cr_assert_eq(bits_of(d.value), bits_of(strtod(text, NULL)));
+
+    /* ... but a nonzero digit 1200 places later lifts it above the tie. */
+    text[n + 1199] = '1';
+    cr_assert_eq(parse(text, &d), NUMBER_FINITE);
+    cr_assert_eq(bits_of(d.value), bits_of(tiny));
+    cr_assert_eq(bits_of(d.value), bits_of(strtod(text, NULL)));
+
+    /* The same with a decimal point and leading zeros: 0.000D * 10^-320 is
+     * D * 10^-1075. */
+    char *q = text;
+    q += sprintf(q, "-0.000");
+    n = five_pow_1075(q);
+    memset(q + n, '0', 1200);
+    q[n + 1199] = '7';
+    snprintf(q + n + 1200, 32, "E-320");
+    cr_assert_eq(parse(text, &d), NUMBER_FINITE);
+    cr_assert_eq(bits_of(d.value), bits_of(-tiny));
+    cr_assert_eq(bits_of(d.value), bits_of(strtod(text, NULL)));
+}
+
+Test(number, printed_random_doubles_round_trip_bit_exact)
+{
+    uint64_t state = UINT64_C(0x9e3779b97f4a7c15);
+    char buf[64];
+    int checked = 0;
+    while (checked < 1000000) {
+        uint64_t u = xorshift64(&state);
+        double v;
+        memcpy(&v, &u, sizeof v);
+        if (!isfinite(v)) continue;
+        int len = snprintf(buf, sizeof buf, "%.17g", v);
+        number_decimal d;
+        number_kind k = number_parse(buf, (size_t)len, &d);
+        if (k != NUMBER_FINITE || bits_of(d.value) != u)
+            cr_assert_fail("\"%s\": kind %d, got %.17g", buf, (int)k, d.value);
+        checked++;
+    }
+}
+
+Test(number, random_decimal_strings_agree_with_strtod)
+{
+    uint64_t state = UINT64_C(0x2545f4914f6cdd1d);
+    char buf[64];
+    for (int i = 0; i < 1000000; i++) {
+        uint64_t r = xorshift64(&state);
+        int ndigits = 1 + (int)(r % 25);
+        int point = (int)((r >> 8) % (uint64_t)(ndigits + 2)) - 1; /* -1: no point */
+        int exponent = (int)((r >> 20) % 661) - 330;
+        int has_exponent = (r >> 40) % 4 != 0;
+        char *p = buf;
+        if ((r >> 42) & 1) *p++ = '-';
+        for (int j = 0; j < ndigits; j++) {
+            if (j == point) *p++ = '.';
+            *p++ = (char)('0' + xorshift64(&state) % 10);
+        }
+        if (point == ndigits) *p++ = '.';
+        if (has_exponent) p += sprintf(p, "%c%d", (r >> 43) & 1 ? 'E' : 'e', exponent);
+        *p = '\0';
+
+        double want = strtod(buf, NULL);
+        number_decimal d;
+        number_kind k = number_parse(buf, (size_t)(p - buf), &d);
+        number_kind want_kind = isfinite(want) ? NUMBER_FINITE : NUMBER_NONFINITE;
+        if (k != want_kind || bits_of(d.value) != bits_of(want))
+            cr_assert_fail("\"%s\": kind %d value %.17g, strtod %.17g", buf, (int)k, d.value, want);
+    }
+}
+
+Test(number, to_double_rounds_mantissa_and_power_correctly)
+{
+    /* Expected values: the compiler's correctly rounded literals. */
+    cr_assert_eq(number_to_double(1, 23, 0), 1e23);
+    cr_assert_eq(number_to_double(123, 30, 1), -123e30);
+    cr_assert_eq(number_to_double(UINT64_C(9007199254740993), 0, 0), 9007199254740992.0);
+    cr_assert_eq(number_to_double(UINT64_C(18446744073709551615), -5, 0), 184467440737095.51615);
+    cr_assert_eq(number_to_double(UINT64_C(12300000000000000000), 0, 0), 1.23e19);
+    cr_assert_eq(number_to_double(7, -330, 0), 0.0);
+    cr_assert(isinf(number_to_double(1, 400, 0)));
+    cr_assert(isinf(number_to_double(1, INT32_MAX, 0)));
+    cr_assert_eq(number_to_double(5, INT32_MIN, 0), 0.0);
+    cr_assert(signbit(number_to_double(0, 7, 1)));
+}
+
+static number_decimal decimal(const char *s)
+{
+    number_decimal d;
+    cr_assert_eq(parse(s, &d), NUMBER_FINITE, "\"%s\"", s);
+    return d;
+}
+
+Test(number, difference_of_shared_leading_digits_is_exact)
+{
+    number_decimal a = decimal("1000000000000.4"), b = decimal("1000000000000.3");
+    int exact = 0;
+    double got = number_difference(&a, &b, &exact);
+    cr_assert_eq(exact, 1);
+    cr_assert_eq(bits_of(got), bits_of(0.1)); /* the double nearest 1/10 */
+    cr_assert_neq(bits_of(a.value - b.value), bits_of(0.1)); /* plain subtraction is off */
+
+    a = decimal("0.1");
+    b = decimal("0.3");
+    got = number_difference(&a, &b, &exact);
+    cr_assert_eq(exact, 1);
+    cr_assert_eq(bits_of(got), bits_of(-0.2));
+}
+
+Test(number, difference_of_epoch_microseconds_is_exact)
+{
+    number_decimal a = decimal("1700000000123456"), b = decimal("1700000000000000");
+    int exact = 0;
+    cr_assert_eq(number_difference(&a, &b, &exact), 123456.0);
+    cr_assert_eq(exact, 1);
+    cr_assert_eq(number_difference(&b, &a, NULL), -123456.0);
+}
+
+Test(number, difference_across_scales_is_exact)
+{
+    number_decimal a = decimal("12.5"), b = decimal("3");
+    int exact = 0;
+    cr_assert_eq(number_difference(&a, &b, &exact), 9.5);
+    cr_assert_eq(exact, 1);
+
+    a = decimal("-2.5e3");
+    b = decimal("0.125");
+    cr_assert_eq(number_difference(&a, &b, &exact), -2500.125);
+    cr_assert_eq(exact, 1);
+
+    a = decimal("0");
+    b = decimal("1e-400"); /* zero mantissa needs no scaling */
+    cr_assert_eq(bits_of(number_difference(&a, &b, &exact)), bits_of(-0.0));
+    cr_assert_eq(exact, 1);
+
+    a = decimal("7.25");
+    b = decimal("7.250");
+    cr_assert_eq(bits_of(number_difference(&a, &b, &exact)), bits_of(0.0));
+    cr_assert_eq(exact, 1);
+}
+
+Test(number, difference_falls_back_when_not_exact)
+{
+    int exact = 1;
+    /* Scaling 1e30 to the power of ten of 1 leaves 64 bits. */
+    number_decimal a = decimal("1e30"), b = decimal("1");
+    cr_assert_eq(number_difference(&a, &b, &exact), 1e30 - 1.0);
+    cr_assert_eq(exact, 0);
+
+    /* Both fit, but their difference 1.8e19 does not fit int64. */
+    exact = 1;
+    a = decimal("9000000000000000000");
+    b = decimal("-9000000000000000000");
+    cr_assert_eq(number_difference(&a, &b, &exact), 1.8e19);
+    cr_assert_eq(exact, 0);
+
+    /* More than 19 significant digits: the inputs themselves are rounded. */
+    exact = 1;
+    a = decimal("1.00000000000000000001");
+    b = decimal("1");
+    cr_assert_eq(number_difference(&a, &b, &exact), 0.0);
+    cr_assert_eq(exact, 0);
+}
