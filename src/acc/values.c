@@ -211,6 +211,11 @@ static int add_new(values *v, uint64_t hash, const char *text, size_t len)
     return 0;
 }
 
+void values_prefetch(const values *v, uint64_t hash)
+{
+    if (v->bits) __builtin_prefetch(&v->slots[home_slot(hash, v->bits)]);
+}
+
 int values_add(values *v, uint64_t hash, const char *text, size_t len)
 {
     if (v->bits) {
@@ -263,16 +268,28 @@ static values_entry entry_of(const values *v, uint32_t i)
     return e;
 }
 
+/* The k-th entry of `from` to visit in a merge: canonical order when `into`
+ * may run out of room (the result then depends on the order), slot order
+ * otherwise (every entry fits, so any order gives the same table). */
+static uint32_t merge_slot(const values *from, int canonical, uint32_t k, uint32_t *cursor)
+{
+    if (canonical) return from->order[k].slot;
+    while (from->slots[*cursor].count == 0) (*cursor)++;
+    return (*cursor)++;
+}
+
 int values_merge(values *into, const values *from)
 {
-    if (build_order(from)) return -1;
+    uint32_t free_levels = into->max_levels > into->levels ? into->max_levels - into->levels : 0;
+    int canonical = free_levels > 0 && from->levels > free_levels;
+    if (canonical && build_order(from)) return -1;
 
     /* Pass 1: how many keys and label bytes will be inserted. */
     uint32_t room = into->max_levels > into->levels ? into->max_levels - into->levels : 0;
-    uint32_t inserts = 0;
+    uint32_t inserts = 0, cursor = 0;
     size_t label_total = 0;
     for (uint32_t k = 0; k < from->levels && inserts < room; k++) {
-        uint32_t fi = from->order[k].slot;
+        uint32_t fi = merge_slot(from, canonical, k, &cursor);
         if (into->bits && into->slots[find_slot(into, from->slots[fi].hash)].count) continue;
         uint32_t len = from->labels[fi].len;
         label_total += len < into->label_bytes ? len : into->label_bytes;
@@ -286,8 +303,9 @@ int values_merge(values *into, const values *from)
      * and nothing is inserted, so from's index stays valid. */
     uint32_t from_levels = from->levels;
     uint64_t from_total = from->total, from_overflow_total = from->overflow_total;
+    cursor = 0;
     for (uint32_t k = 0; k < from_levels; k++) {
-        uint32_t fi = from->order[k].slot;
+        uint32_t fi = merge_slot(from, canonical, k, &cursor);
         uint64_t hash = from->slots[fi].hash, count = from->slots[fi].count;
         uint32_t i = into->bits ? find_slot(into, hash) : 0;
         if (into->bits && into->slots[i].count) {

@@ -42,6 +42,8 @@ void values_reset(values *v);
  * Returns 0, or -1 when memory runs out. */
 int values_add(values *v, uint64_t hash, const char *text, size_t len);
 int values_merge(values *into, const values *from);
+/* Hints that `hash` will be added soon (issues a cache prefetch). */
+void values_prefetch(const values *v, uint64_t hash);
 
 uint32_t values_levels(const values *v);       /* exact entries held */
 uint32_t values_max_levels(const values *v);

@@ -12,17 +12,18 @@
  * doubles exactly, so one IEEE multiply or divide rounds the exact product or
  * quotient once and is correctly rounded.  Two cheap extensions keep more
  * inputs on that path: for 22 < e <= 37, m * 10^(e-22) is formed in integer
- * arithmetic when it stays <= 2^53 (then times 1e22); and a mantissa above
- * 2^53 with trailing zeros is shortened first.  The fast path needs
- * double evaluation in double precision (FLT_EVAL_METHOD == 0, e.g. SSE2);
- * elsewhere it is compiled out and every conversion uses strtod().
+ * arithmetic when it stays <= 2^53 (then times 1e22); and number_to_double()
+ * first strips trailing zeros from a mantissa above 2^53.  The fast path
+ * needs double evaluation in double precision (FLT_EVAL_METHOD == 0, e.g.
+ * SSE2); elsewhere it is compiled out and every conversion uses strtod().
  *
  * Fallback.  Everything else goes to strtod() (glibc rounds correctly for any
- * length).  Its input is rebuilt in a stack buffer as "<digits>e<exponent>"
- * with no decimal point, so the locale's radix character never matters, and
- * errno is restored afterwards.  Cells with more significant digits than the
- * buffer holds (NUMBER_KEEP_DIGITS = 800) are not treated as text: the digits
- * are truncated to 800 and, when a dropped digit is nonzero, a final '1' is
+ * length).  Its input is rebuilt in a stack buffer as "<digits>e<exponent>":
+ * the cell's significant digits, or the digits of m for number_to_double().
+ * With no decimal point the locale's radix character never matters; errno is
+ * restored afterwards.  Cells with more significant digits than the buffer
+ * holds (NUMBER_KEEP_DIGITS = 800) are not treated as text: the digits are
+ * truncated to 800 and, when a dropped digit is nonzero, a final '1' is
  * appended as a sticky digit.  A decimal midpoint between adjacent doubles
  * (odd * 2^q, q >= -1075) has at most 768 significant digits, so no midpoint
  * lies between the truncated text and the full one, and the rounding is the

@@ -12,6 +12,7 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#define XXH_INLINE_ALL
 #include <xxhash.h>
 
 #include "io/chunk.h"
@@ -28,11 +29,18 @@ void scan_options_defaults(scan_options *o)
     o->max_record_bytes = 64u << 20;
 }
 
-/* Per-column scanning state of the chunk-local set. */
+/* Per-column buffer of the current block of cells.  The hot loop only
+ * classifies, hashes and parses; the accumulators are fed a whole block of
+ * one column at a time, which keeps each column's tables in cache. */
 typedef struct {
-    int field;          /* field index in the record */
-    double *dev;        /* buffered deviations */
-    size_t ndev;        /* deviations buffered */
+    int field;           /* field index in the record */
+    size_t ncells;       /* present cells buffered */
+    uint64_t *hash;      /* XXH3-64 of each cell's text */
+    const char **text;   /* each cell's text (inside the current chunk) */
+    uint32_t *len;       /* each cell's length */
+    size_t nnum;         /* finite numbers buffered */
+    double *dev;         /* deviation of each number from the reference */
+    double *val;         /* each number */
 } lane;
 
 typedef struct {
@@ -46,6 +54,7 @@ typedef struct {
     csv_field *fields;     /* record buffer: file_fields + 1 */
     char delim;
     uint64_t missing_len_mask; /* bit L set: some spelling has length L (< 64) */
+    size_t missing_len[SUMMARY_MAX_MISSING]; /* length of each spelling */
     uint64_t line_base;    /* lines before the current chunk */
     uint64_t total_bytes;  /* raw bytes of all sources, 0 if unknown */
     uint64_t done_bytes;   /* raw bytes of finished sources */
@@ -59,19 +68,38 @@ static int is_missing(const scanner *sc, const char *p, uint32_t len)
     if (len >= 64 || !(sc->missing_len_mask >> len & 1)) return 0;
     const summary_options *o = &sc->o->opt;
     for (uint32_t i = 0; i < o->n_missing; i++)
-        if (strlen(o->missing[i]) == len && memcmp(o->missing[i], p, len) == 0) return 1;
+        if (sc->missing_len[i] == len && memcmp(o->missing[i], p, len) == 0) return 1;
     return 0;
 }
 
-static void flush_lanes(scanner *sc)
+/* Feeds one column's buffered block to its accumulators. */
+static int flush_lane(summary_column *c, lane *l)
 {
-    for (size_t j = 0; j < sc->work->ncols; j++) {
-        lane *l = &sc->lanes[j];
-        if (l->ndev) {
-            moments_add_block(&sc->work->cols[j].mom, l->dev, l->ndev);
-            l->ndev = 0;
-        }
+    for (size_t i = 0; i < l->ncells; i++) {
+        if (i + 8 < l->ncells) values_prefetch(c->vals, l->hash[i + 8]);
+        if (values_add(c->vals, l->hash[i], l->text[i], l->len[i]) != 0) return -1;
+        hll_add(c->distinct, l->hash[i]);
     }
+    l->ncells = 0;
+    if (l->nnum) {
+        moments_add_block(&c->mom, l->dev, l->nnum);
+        for (size_t i = 0; i < l->nnum; i++) {
+            double x = l->val[i];
+            moments_see(&c->mom, x);
+            c->zeros += x == 0;
+            c->integers += x == nearbyint(x);
+        }
+        if (buckets_add_many(c->bins, l->val, l->nnum, 0) != 0) return -1;
+        l->nnum = 0;
+    }
+    return 0;
+}
+
+static int flush_lanes(scanner *sc)
+{
+    for (size_t j = 0; j < sc->work->ncols; j++)
+        if (flush_lane(&sc->work->cols[j], &sc->lanes[j]) != 0) return -1;
+    return 0;
 }
 
 static void keep_example(summary_column *c, const char *p, uint32_t len)
@@ -89,32 +117,28 @@ static int cell(scanner *sc, size_t j, const char *p, uint32_t len)
 {
     summary_column *c = &sc->work->cols[j];
     if (is_missing(sc, p, len)) { c->missing++; return 0; }
-    uint64_t h = XXH3_64bits(p, len);
-    if (values_add(c->vals, h, p, len) != 0) return -1;
-    hll_add(c->distinct, h);
-    if (c->mode == COLUMN_CATEGORICAL) { c->non_numeric++; return 0; }
-    number_decimal d;
-    switch (number_parse(p, len, &d)) {
-    case NUMBER_FINITE: {
-        if (!c->mom.has_ref) moments_set_ref(&c->mom, &d);
-        lane *l = &sc->lanes[j];
-        l->dev[l->ndev++] = number_difference(&d, &c->mom.ref, NULL);
-        if (l->ndev == SCAN_BLOCK_ROWS) {
-            moments_add_block(&c->mom, l->dev, l->ndev);
-            l->ndev = 0;
+    lane *l = &sc->lanes[j];
+    size_t k = l->ncells++;
+    l->hash[k] = XXH3_64bits(p, len);
+    l->text[k] = p;
+    l->len[k] = len;
+    if (c->mode != COLUMN_CATEGORICAL) {
+        number_decimal d;
+        switch (number_parse(p, len, &d)) {
+        case NUMBER_FINITE:
+            if (!c->mom.has_ref) moments_set_ref(&c->mom, &d);
+            l->dev[l->nnum] = number_difference(&d, &c->mom.ref, NULL);
+            l->val[l->nnum++] = d.value;
+            break;
+        case NUMBER_NONFINITE: c->non_finite++; break;
+        default:
+            c->non_numeric++;
+            keep_example(c, p, len);
         }
-        moments_see(&c->mom, d.value);
-        c->zeros += d.value == 0;
-        c->integers += d.value == nearbyint(d.value);
-        if (buckets_add(c->bins, d.value, 0, 1) != 0) return -1;
-        return 0;
-    }
-    case NUMBER_NONFINITE: c->non_finite++; return 0;
-    default:
+    } else {
         c->non_numeric++;
-        keep_example(c, p, len);
-        return 0;
     }
+    return l->ncells == SCAN_BLOCK_ROWS ? flush_lane(c, l) : 0;
 }
 
 /* Splits a comma list; returns the count or -1 on OOM.  *items points into *buf. */
@@ -207,9 +231,14 @@ static scan_status setup(scanner *sc, char **names, size_t nnames)
         goto done;
     }
     for (size_t j = 0; j < n; j++) {
-        sc->lanes[j].field = field_of[j];
-        sc->lanes[j].dev = malloc(SCAN_BLOCK_ROWS * sizeof(double));
-        if (!sc->lanes[j].dev) {
+        lane *l = &sc->lanes[j];
+        l->field = field_of[j];
+        l->hash = malloc(SCAN_BLOCK_ROWS * sizeof *l->hash);
+        l->text = malloc(SCAN_BLOCK_ROWS * sizeof *l->text);
+        l->len = malloc(SCAN_BLOCK_ROWS * sizeof *l->len);
+        l->dev = malloc(SCAN_BLOCK_ROWS * sizeof *l->dev);
+        l->val = malloc(SCAN_BLOCK_ROWS * sizeof *l->val);
+        if (!l->hash || !l->text || !l->len || !l->dev || !l->val) {
             snprintf(sc->err, sc->errlen, "out of memory");
             st = SCAN_ERR_MEMORY;
             goto done;
@@ -357,11 +386,16 @@ static scan_status process_chunk(scanner *sc, const char *path, chunk *ch, int *
     }
     sc->line_base += r.lines;
     if (sc->work) {
-        flush_lanes(sc);
+        if (flush_lanes(sc) != 0) {
+            snprintf(sc->err, sc->errlen, "out of memory");
+            return SCAN_ERR_MEMORY;
+        }
         sc->work->bytes += ch->len;
         if (summary_merge(sc->run, sc->work, sc->err, sc->errlen) != SUMMARY_OK)
             return SCAN_ERR_MEMORY;
         summary_reset(sc->work);
+        for (size_t j = 0; j < sc->work->ncols; j++)
+            buckets_reset_level(sc->work->cols[j].bins, buckets_level(sc->run->cols[j].bins));
     }
     return SCAN_OK;
 }
@@ -421,6 +455,7 @@ scan_status scan_files(const scan_options *o, const char *const *paths, size_t n
     sc.errlen = errlen;
     for (uint32_t i = 0; i < o->opt.n_missing; i++) {
         size_t l = strlen(o->opt.missing[i]);
+        sc.missing_len[i] = l;
         if (l < 64) sc.missing_len_mask |= 1ull << l;
     }
     for (size_t i = 0; i < npaths; i++) {
@@ -436,7 +471,10 @@ scan_status scan_files(const scan_options *o, const char *const *paths, size_t n
     for (size_t i = 0; st == SCAN_OK && i < npaths; i++) st = scan_source(&sc, ck, paths[i]);
     chunker_free(ck);
     if (sc.lanes)
-        for (size_t j = 0; sc.work && j < sc.work->ncols; j++) free(sc.lanes[j].dev);
+        for (size_t j = 0; sc.work && j < sc.work->ncols; j++) {
+            lane *l = &sc.lanes[j];
+            free(l->hash); free(l->text); free(l->len); free(l->dev); free(l->val);
+        }
     free(sc.lanes);
     free(sc.fields);
     if (sc.header)

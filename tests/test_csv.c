@@ -1,0 +1,377 @@
+/* Tests for io/csv: the record tokenizer, delimiter detection, BOM skip.
+ *
+ * Reference for the field rules: RFC 4180 (section 2: fields may be quoted,
+ * a quoted field holds delimiters, line breaks and doubled quotes; records
+ * end at a line break, CRLF in the RFC).  The lenient cases (a quote inside
+ * an unquoted field, text after a closing quote) and the blank-line rule are
+ * the ones csv.h documents; they are not part of RFC 4180.  The UTF-8
+ * byte-order mark EF BB BF is from the Unicode Standard, section 23.8.
+ *
+ * Each test tokenizes a literal chunk and compares a rendering of the records:
+ * every field as <bytes>, every record followed by "\n" (a field that itself
+ * holds a newline shows it between its brackets).
+ */
+#include <criterion/criterion.h>
+
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "io/csv.h"
+#include "testutil.h"
+
+#define MAX_FIELDS 16
+
+typedef struct {
+    char text[4096];   /* rendering of the records read */
+    int records;       /* CSV_RECORD results */
+    csv_status last;   /* status that stopped the loop */
+    uint64_t lines;    /* reader's line count at the end */
+} tokenized;
+
+/* Tokenizes a copy of data[0..len) (the reader writes into its chunk). */
+static tokenized tokenize_n(const char *data, size_t len, char delim)
+{
+    tokenized t;
+    memset(&t, 0, sizeof t);
+    char *buf = malloc(len + 1);
+    cr_assert_not_null(buf);
+    memcpy(buf, data, len);
+    csv_reader r;
+    csv_reader_init(&r, buf, len, delim);
+    csv_field f[MAX_FIELDS];
+    size_t n, used = 0;
+    csv_status st;
+    while ((st = csv_next(&r, f, MAX_FIELDS, &n)) == CSV_RECORD) {
+        t.records++;
+        cr_assert_leq(n, (size_t)MAX_FIELDS, "test record wider than MAX_FIELDS");
+        for (size_t i = 0; i < n; i++) {
+            cr_assert_lt(used + f[i].len + 3, sizeof t.text);
+            t.text[used++] = '<';
+            memcpy(t.text + used, f[i].ptr, f[i].len);
+            used += f[i].len;
+            t.text[used++] = '>';
+        }
+        cr_assert_lt(used + 2, sizeof t.text);
+        t.text[used++] = '\n';
+    }
+    t.text[used] = '\0';
+    t.last = st;
+    t.lines = r.lines;
+    free(buf);
+    return t;
+}
+
+static tokenized tokenize(const char *data, char delim)
+{
+    return tokenize_n(data, strlen(data), delim);
+}
+
+static void expect_records(const char *data, char delim, const char *want)
+{
+    tokenized t = tokenize(data, delim);
+    cr_assert_eq(t.last, CSV_END, "input \"%s\": stopped with status %d", data, (int)t.last);
+    cr_assert_str_eq(t.text, want, "input \"%s\"", data);
+}
+
+/* --- plain and empty fields ------------------------------------------------ */
+
+Test(csv, plain_fields_are_split_at_the_delimiter)
+{
+    expect_records("a,b,c\n1,22,333\n", ',', "<a><b><c>\n<1><22><333>\n");
+    expect_records("solo\nline\n", ',', "<solo>\n<line>\n");
+    expect_records("  spaced , kept \n", ',', "<  spaced >< kept >\n");
+}
+
+Test(csv, adjacent_delimiters_give_empty_fields)
+{
+    expect_records("a,,b\n,,\n", ',', "<a><><b>\n<><><>\n");
+    expect_records(",x\n", ',', "<><x>\n");
+}
+
+Test(csv, trailing_delimiter_adds_an_empty_last_field)
+{
+    expect_records("a,b,\nc,d,\n", ',', "<a><b><>\n<c><d><>\n");
+    /* Also when the chunk ends right after the delimiter. */
+    expect_records("a,b,", ',', "<a><b><>\n");
+}
+
+Test(csv, empty_chunk_and_newline_only_chunk_hold_no_records)
+{
+    tokenized t = tokenize("", ',');
+    cr_assert_eq(t.last, CSV_END);
+    cr_assert_eq(t.records, 0);
+    t = tokenize("\n\n\r\n", ',');
+    cr_assert_eq(t.last, CSV_END);
+    cr_assert_eq(t.records, 0);
+    cr_assert_eq(t.lines, 3);
+}
+
+/* --- quoted fields (RFC 4180 section 2, rules 5-7) ------------------------- */
+
+Test(csv, quoted_field_keeps_delimiters)
+{
+    expect_records("\"a,b\",c\n", ',', "<a,b><c>\n");
+    expect_records("x,\",,,\"\n", ',', "<x><,,,>\n");
+}
+
+Test(csv, doubled_quote_becomes_one_quote)
+{
+    expect_records("\"say \"\"hi\"\"\",x\n", ',', "<say \"hi\"><x>\n");
+    expect_records("\"\"\"\"\n", ',', "<\">\n");           /* field holding one quote */
+    expect_records("\"\",\"\"\n", ',', "<><>\n");          /* two empty quoted fields */
+}
+
+Test(csv, unescaping_in_place_leaves_later_fields_intact)
+{
+    /* The doubled quotes shift bytes down inside the chunk; the fields after
+     * them must still point at their own bytes. */
+    expect_records("\"a\"\"b\",\"c\"\"\"\"d\",e\n\"f\"\"\",g\n", ',',
+                   "<a\"b><c\"\"d><e>\n<f\"><g>\n");
+}
+
+Test(csv, quoted_field_keeps_newlines_and_lines_counts_them)
+{
+    char buf[] = "\"l1\nl2\nl3\",b\nnext,row\n";
+    csv_reader r;
+    csv_reader_init(&r, buf, strlen(buf), ',');
+    csv_field f[4];
+    size_t n;
+    cr_assert_eq(csv_next(&r, f, 4, &n), CSV_RECORD);
+    cr_assert_eq(n, 2);
+    cr_assert_eq(f[0].len, 8);
+    cr_assert_eq(memcmp(f[0].ptr, "l1\nl2\nl3", 8), 0);
+    cr_assert_eq(r.record_line, 0);
+    cr_assert_eq(r.lines, 3, "two newlines inside quotes plus the record end, got %llu",
+                 (unsigned long long)r.lines);
+    cr_assert_eq(csv_next(&r, f, 4, &n), CSV_RECORD);
+    cr_assert_eq(r.record_line, 3, "second record starts on line 3, got %llu",
+                 (unsigned long long)r.record_line);
+    cr_assert_eq(r.lines, 4);
+    cr_assert_eq(csv_next(&r, f, 4, &n), CSV_END);
+}
+
+Test(csv, newlines_inside_quotes_around_doubled_quotes_are_all_counted)
+{
+    /* Newlines before, between and after doubled quotes in one field. */
+    tokenized t = tokenize("\"a\n\"\"\nb\"\"\n\",z\nlast\n", ',');
+    cr_assert_str_eq(t.text, "<a\n\"\nb\"\n><z>\n<last>\n");
+    cr_assert_eq(t.lines, 5, "got %llu", (unsigned long long)t.lines);
+}
+
+Test(csv, record_line_marks_the_first_line_of_each_record)
+{
+    char buf[] = "h1,h2\n\n\"multi\nline\",x\n\nlast,y\n";
+    csv_reader r;
+    csv_reader_init(&r, buf, strlen(buf), ',');
+    csv_field f[4];
+    size_t n;
+    uint64_t want[] = {0, 2, 5};
+    for (int i = 0; i < 3; i++) {
+        cr_assert_eq(csv_next(&r, f, 4, &n), CSV_RECORD);
+        cr_assert_eq(r.record_line, want[i], "record %d: line %llu, want %llu", i,
+                     (unsigned long long)r.record_line, (unsigned long long)want[i]);
+    }
+    cr_assert_eq(csv_next(&r, f, 4, &n), CSV_END);
+    cr_assert_eq(r.lines, 6);
+}
+
+/* --- line ends -------------------------------------------------------------- */
+
+Test(csv, crlf_line_end_is_dropped)
+{
+    tokenized t = tokenize("a,b\r\nc,d\r\n", ',');
+    cr_assert_str_eq(t.text, "<a><b>\n<c><d>\n");
+    cr_assert_eq(t.lines, 2);
+    /* An empty last field before CRLF stays empty, not "\r". */
+    expect_records("a,\r\n", ',', "<a><>\n");
+}
+
+Test(csv, crlf_after_a_closing_quote_is_dropped)
+{
+    tokenized t = tokenize("\"a\",\"b\"\r\n\"c\"\r\nd\r\n", ',');
+    cr_assert_eq(t.last, CSV_END);
+    cr_assert_str_eq(t.text, "<a><b>\n<c>\n<d>\n");
+    cr_assert_eq(t.lines, 3);
+}
+
+Test(csv, crlf_inside_quotes_is_kept)
+{
+    expect_records("\"a\r\nb\",c\r\n", ',', "<a\r\nb><c>\n");
+}
+
+Test(csv, lone_cr_inside_a_field_is_kept)
+{
+    expect_records("a\rb,c\n", ',', "<a\rb><c>\n");
+    expect_records("a\r,c\n", ',', "<a\r><c>\n");
+    expect_records("\"x\ry\",z\n", ',', "<x\ry><z>\n");
+    expect_records("\"x\r\"\n", ',', "<x\r>\n");
+}
+
+Test(csv, lone_cr_before_closing_quote_at_end_of_chunk_is_kept)
+{
+    /* The '\r' is inside the quotes, so it is data: only a '\r' outside
+     * quotes before a line end is a line-end byte. */
+    expect_records("a,\"x\r\"", ',', "<a><x\r>\n");
+}
+
+Test(csv, blank_lines_are_skipped)
+{
+    tokenized t = tokenize("\n\na\n\n\nb\n\n", ',');
+    cr_assert_eq(t.last, CSV_END);
+    cr_assert_str_eq(t.text, "<a>\n<b>\n");
+    cr_assert_eq(t.lines, 7);
+}
+
+Test(csv, crlf_blank_lines_are_skipped)
+{
+    tokenized t = tokenize("\r\n\r\na,b\r\n\r\nc,d\r\n\r\n", ',');
+    cr_assert_str_eq(t.text, "<a><b>\n<c><d>\n");
+    cr_assert_eq(t.lines, 6);
+}
+
+Test(csv, last_record_without_final_newline_is_read)
+{
+    expect_records("a,b\nc,d", ',', "<a><b>\n<c><d>\n");
+    expect_records("a,b\n\"c\",\"d\"", ',', "<a><b>\n<c><d>\n");
+    expect_records("only", ',', "<only>\n");
+}
+
+/* --- errors and width ------------------------------------------------------- */
+
+Test(csv, unterminated_quote_returns_csv_unterminated)
+{
+    char buf[] = "ok,1\nbad,\"never closed\nmore,2\n";
+    csv_reader r;
+    csv_reader_init(&r, buf, strlen(buf), ',');
+    csv_field f[4];
+    size_t n;
+    cr_assert_eq(csv_next(&r, f, 4, &n), CSV_RECORD);
+    cr_assert_eq(csv_next(&r, f, 4, &n), CSV_UNTERMINATED);
+    /* The reader does not run past the chunk afterwards. */
+    cr_assert_eq(csv_next(&r, f, 4, &n), CSV_END);
+
+    tokenized t = tokenize("\"", ',');
+    cr_assert_eq(t.last, CSV_UNTERMINATED);
+    t = tokenize("\"ab\"\"", ',');   /* the last quote is an escaped one */
+    cr_assert_eq(t.last, CSV_UNTERMINATED);
+}
+
+Test(csv, more_fields_than_max_fields_are_still_counted)
+{
+    char buf[] = "1,2,3,4,5\n6,7\n";
+    csv_reader r;
+    csv_reader_init(&r, buf, strlen(buf), ',');
+    csv_field f[3];
+    size_t n;
+    cr_assert_eq(csv_next(&r, f, 3, &n), CSV_RECORD);
+    cr_assert_eq(n, 5, "nfields %zu", n);
+    for (int i = 0; i < 3; i++) {
+        cr_assert_eq(f[i].len, 1);
+        cr_assert_eq(f[i].ptr[0], '1' + i);
+    }
+    /* The reader resumes at the next record, not at field 4. */
+    cr_assert_eq(csv_next(&r, f, 3, &n), CSV_RECORD);
+    cr_assert_eq(n, 2);
+    cr_assert_eq(f[0].ptr[0], '6');
+    cr_assert_eq(f[1].ptr[0], '7');
+
+    /* max_fields 0: nothing stored, fields still counted. */
+    char buf2[] = "x,\"y,z\",w\n";
+    csv_reader_init(&r, buf2, strlen(buf2), ',');
+    cr_assert_eq(csv_next(&r, NULL, 0, &n), CSV_RECORD);
+    cr_assert_eq(n, 3);
+}
+
+/* --- other delimiters ------------------------------------------------------- */
+
+Test(csv, tab_semicolon_and_pipe_delimiters)
+{
+    expect_records("a\tb,c\t\n", '\t', "<a><b,c><>\n");
+    expect_records("1;2,5;\"x;y\"\n", ';', "<1><2,5><x;y>\n");
+    expect_records("p|q\r\n|\"r|s\"\n", '|', "<p><q>\n<><r|s>\n");
+    /* A comma is plain data when it is not the delimiter. */
+    expect_records("a,b\n", ';', "<a,b>\n");
+}
+
+/* --- lenient cases documented in csv.h -------------------------------------- */
+
+Test(csv, quote_inside_unquoted_field_is_kept_as_a_character)
+{
+    expect_records("ab\"c,d\n", ',', "<ab\"c><d>\n");
+    expect_records("5\" pipe,x\n", ',', "<5\" pipe><x>\n");
+}
+
+Test(csv, text_after_closing_quote_is_appended)
+{
+    expect_records("\"ab\"cd,e\n", ',', "<abcd><e>\n");
+    expect_records("\"ab\" ,c\n", ',', "<ab ><c>\n");
+    expect_records("\"a\"\"b\"x\r\n", ',', "<a\"bx>\n");
+    expect_records("x,\"ab\"cd", ',', "<x><abcd>\n");
+}
+
+/* --- delimiter detection ---------------------------------------------------- */
+
+static char detect(const char *s) { return csv_detect_delimiter(s, strlen(s)); }
+
+Test(csv, detects_comma_tab_semicolon_and_pipe)
+{
+    cr_assert_eq(detect("id,name,score\n1,ann,3.5\n2,bo,4\n"), ',');
+    cr_assert_eq(detect("id\tname\tscore\n1\tann\t3.5\n2\tbo\t4\n"), '\t');
+    cr_assert_eq(detect("id;name;score\n1;ann;3.5\n2;bo;4\n"), ';');
+    cr_assert_eq(detect("id|name|score\n1|ann|3.5\n2|bo|4\n"), '|');
+}
+
+Test(csv, detects_tab_when_commas_appear_only_inside_quotes)
+{
+    const char *s = "site\tnote\tcount\n"
+                    "north\t\"wet, cold, windy\"\t3\n"
+                    "south\t\"dry, warm\"\t7\n"
+                    "east\t\"a, b, c, d\"\t1\n";
+    cr_assert_eq(detect(s), '\t');
+}
+
+Test(csv, detects_semicolon_with_decimal_commas)
+{
+    /* Decimal commas give a different comma count on every line. */
+    cr_assert_eq(detect("a;b;c\n1,5;2,25;3\n4;5,0;6,125\n"), ';');
+}
+
+Test(csv, newline_inside_quotes_does_not_end_a_sample_line)
+{
+    const char *s = "id|memo\n1|\"line one\nline, two, three\"\n2|plain\n";
+    cr_assert_eq(detect(s), '|');
+}
+
+Test(csv, detection_ties_go_to_the_earlier_candidate)
+{
+    /* Comma and semicolon both split every line in two: ',' comes first. */
+    cr_assert_eq(detect("a,b;c\nd,e;f\n"), ',');
+    /* Tab before pipe. */
+    cr_assert_eq(detect("a\tb|c\nd\te|f\n"), '\t');
+}
+
+Test(csv, detection_falls_back_to_comma)
+{
+    cr_assert_eq(detect("single\ncolumn\nonly\n"), ',');
+    cr_assert_eq(detect(""), ',');
+}
+
+Test(csv, detection_reads_a_sample_without_final_newline)
+{
+    cr_assert_eq(detect("a|b|c"), '|');
+    cr_assert_eq(detect("a;b;c\n1;2;3\n4;5"), ';');
+}
+
+/* --- byte-order mark -------------------------------------------------------- */
+
+Test(csv, bom_length_is_three_for_a_utf8_bom_else_zero)
+{
+    cr_assert_eq(csv_bom_length("\xEF\xBB\xBF" "a,b\n", 7), 3);
+    cr_assert_eq(csv_bom_length("\xEF\xBB\xBF", 3), 3);
+    cr_assert_eq(csv_bom_length("a,b\n", 4), 0);
+    cr_assert_eq(csv_bom_length("\xEF\xBB", 2), 0);       /* too short */
+    cr_assert_eq(csv_bom_length("\xEF\xBB\xBE" "x", 4), 0); /* not the BOM */
+    cr_assert_eq(csv_bom_length("\xFE\xFF" "a", 3), 0);     /* UTF-16 BOM is not skipped */
+    cr_assert_eq(csv_bom_length("", 0), 0);
+}
