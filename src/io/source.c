@@ -198,6 +198,33 @@ static ssize_t read_plain(source *s, uint8_t *buf, size_t cap)
     return (ssize_t)n;
 }
 
+/* Moves the unread tail of the raw buffer to its start and reads more after
+ * it.  ISA-L mis-reads a gzip trailer split across two calls (seen with
+ * libisal 2.30: a CRC mismatch when a member ends in the last 16 bytes of
+ * the input buffer), so gzip input is topped up to keep a margin. */
+static ssize_t raw_top_up(source *s, size_t margin)
+{
+    size_t have = s->raw_len - s->raw_pos;
+    if (have >= margin || s->raw_eof) return have ? (ssize_t)have : raw_fill(s);
+    memmove(s->raw, s->raw + s->raw_pos, have);
+    s->raw_pos = 0;
+    s->raw_len = have;
+    while (!s->raw_eof && s->raw_len < margin) {
+        ssize_t n = read(s->fd, s->raw + s->raw_len, RAW_BYTES - s->raw_len);
+        if (n < 0 && errno == EINTR) continue;
+        if (n < 0) {
+            snprintf(s->err, sizeof s->err, "%s: read error at byte %llu: %s", s->path,
+                     (unsigned long long)s->raw_offset, strerror(errno));
+            return -1;
+        }
+        if (n == 0) { s->raw_eof = 1; break; }
+        XXH3_64bits_update(s->hash, s->raw + s->raw_len, (size_t)n);
+        s->raw_len += (size_t)n;
+        s->raw_offset += (uint64_t)n;
+    }
+    return (ssize_t)s->raw_len;
+}
+
 static ssize_t read_gzip(source *s, uint8_t *buf, size_t cap)
 {
     struct inflate_state *st = s->gz;
@@ -212,7 +239,7 @@ static ssize_t read_gzip(source *s, uint8_t *buf, size_t cap)
             st->crc_flag = ISAL_GZIP;
             s->gz_in_member = 1;
         }
-        ssize_t avail = raw_fill(s);
+        ssize_t avail = raw_top_up(s, 64);
         if (avail < 0) return -1;
         st->next_in = s->raw + s->raw_pos;
         st->avail_in = (uint32_t)avail;

@@ -224,8 +224,10 @@ static scan_status setup(scanner *sc, char **names, size_t nnames)
     sc->work = sc->run ? summary_clone_empty(sc->run) : NULL;
     sc->lanes = calloc(n ? n : 1, sizeof *sc->lanes);
     sc->file_fields = nnames;
-    sc->fields = calloc(nnames + 1, sizeof *sc->fields);
-    if (!sc->run || !sc->work || !sc->lanes || !sc->fields) {
+    /* Keep the first record's fields: without a header it is data. */
+    csv_field *fields = realloc(sc->fields, (nnames + 1) * sizeof *fields);
+    if (fields) sc->fields = fields;
+    if (!sc->run || !sc->work || !sc->lanes || !fields) {
         snprintf(sc->err, sc->errlen, "out of memory");
         st = SCAN_ERR_MEMORY;
         goto done;
