@@ -4,8 +4,10 @@ CC      ?= cc
 OPT     ?= -O2
 CFLAGS  ?= $(OPT) -g
 CFLAGS  += -std=c11 -D_GNU_SOURCE -Wall -Wextra -Iinclude -Isrc -MMD -MP
-PKGS    := libisal libzstd libxxhash gsl openblas lapacke
-LDLIBS  := $(shell pkg-config --libs $(PKGS) 2>/dev/null || echo -lisal -lzstd -lxxhash -lgsl -lopenblas -llapacke) -lz -lm -lpthread
+# GSL is linked without its reference CBLAS (-lgslcblas): OpenBLAS provides
+# the cblas_* symbols, so GSL and sheaf's own BLAS calls both use it.
+PKGS    := libisal libzstd libxxhash openblas lapacke
+LDLIBS  := -lgsl $(shell pkg-config --libs $(PKGS) 2>/dev/null || echo -lisal -lzstd -lxxhash -lopenblas -llapacke) -lz -lm -lpthread
 
 # Debian packages sheaf needs to build, test, bench and demo.
 DEB_PKGS := build-essential pkg-config libisal-dev isal zlib1g-dev libzstd-dev zstd \

@@ -369,9 +369,12 @@ static void put_member(bytes *file, const bytes *deflated, const void *data, siz
 Test(source, gzip_member_boundary_near_the_raw_buffer_end)
 {
     /* The source reads the file 1 MiB at a time.  The first member's end is
-     * placed at every offset from 1 MiB - 24 to 1 MiB + 24, so the raw
-     * buffer boundary falls inside its deflate tail, inside its trailer, and
-     * inside the second member's header. */
+     * placed at offsets around 1 MiB so that the raw buffer boundary falls
+     * inside its deflate tail, inside its trailer, and inside the second
+     * member's header: in its fixed 10 bytes and in its FNAME field, short
+     * (3 bytes) or long (300 bytes; RFC 1952 sets no limit, and gzip stores
+     * the file name as given).  Every member of `cat a.gz b.gz` may carry
+     * such a header. */
     bytes a = make_text(16, 2500u << 10);
     const char *b = "tail,1\ntail,2\n";
     bytes da = raw_deflate(a.data, a.len), db = raw_deflate(b, strlen(b));
@@ -382,25 +385,32 @@ Test(source, gzip_member_boundary_near_the_raw_buffer_end)
     put(&want, b, strlen(b));
     char path[80];
     temp_path(path, ".gz");
-    for (int d = -24; d <= 24; d++) {
-        size_t end = (1u << 20) + (size_t)(long)d;
-        bytes file = {0};
-        put_member(&file, &da, a.data, a.len, end - fixed);
-        cr_assert_eq(file.len, end);
-        put_member(&file, &db, b, strlen(b), 3);
-        write_file(path, file.data, file.len);
-        char err[512] = "";
-        source *s = source_open(path, err, sizeof err);
-        cr_assert_not_null(s, "%s", err);
-        bytes got = {0};
-        int rc = drain(s, 65536, &got);
-        cr_expect_eq(rc, 0, "first member ends at 1 MiB %+d: %s", d, source_error(s));
-        cr_expect(rc != 0 || (got.len == want.len && memcmp(got.data, want.data, want.len) == 0),
-                  "first member ends at 1 MiB %+d: %zu bytes decoded, want %zu", d, got.len,
-                  want.len);
-        source_close(s);
-        free(got.data);
-        free(file.data);
+    static const size_t name_lens[] = {3, 300};
+    for (int k = 0; k < 2; k++) {
+        size_t name_len = name_lens[k];
+        int lo = -24 - (int)name_len, hi = 24;
+        for (int d = lo; d <= hi; d += name_len > 100 ? 7 : 1) {
+            size_t end = (1u << 20) + (size_t)(long)d;
+            bytes file = {0};
+            put_member(&file, &da, a.data, a.len, end - fixed);
+            cr_assert_eq(file.len, end);
+            put_member(&file, &db, b, strlen(b), name_len);
+            write_file(path, file.data, file.len);
+            char err[512] = "";
+            source *s = source_open(path, err, sizeof err);
+            cr_assert_not_null(s, "%s", err);
+            bytes got = {0};
+            int rc = drain(s, 65536, &got);
+            cr_expect_eq(rc, 0, "name %zu bytes, first member ends at 1 MiB %+d: %s", name_len,
+                         d, source_error(s));
+            cr_expect(rc != 0 ||
+                          (got.len == want.len && memcmp(got.data, want.data, want.len) == 0),
+                      "name %zu bytes, first member ends at 1 MiB %+d: %zu bytes decoded, "
+                      "want %zu", name_len, d, got.len, want.len);
+            source_close(s);
+            free(got.data);
+            free(file.data);
+        }
     }
     unlink(path);
     free(a.data); free(da.data); free(db.data); free(want.data);
@@ -625,6 +635,63 @@ Test(source, standard_input_pipe_is_read_as_plain_or_gzip)
     expect_stdin_decodes(gz.data, gz.len, SOURCE_GZIP, text.data, text.len);
     free(text.data);
     free(gz.data);
+}
+
+Test(source, gzip_header_arriving_in_two_pieces_on_standard_input_decodes)
+{
+    /* A slow producer (a download piped in): the first read gets the fixed
+     * header and part of a long FNAME field, the rest comes later. */
+    const char *text = "k,v\n1,alpha\n2,beta\n";
+    z_stream z;
+    memset(&z, 0, sizeof z);
+    cr_assert_eq(deflateInit2(&z, 6, Z_DEFLATED, 15 + 16, 8, Z_DEFAULT_STRATEGY), Z_OK);
+    gz_header h;
+    memset(&h, 0, sizeof h);
+    char name[201];
+    memset(name, 'r', 200);
+    name[200] = '\0';
+    h.name = (Bytef *)name;
+    cr_assert_eq(deflateSetHeader(&z, &h), Z_OK);
+    unsigned char gz[512];
+    z.next_in = (Bytef *)text;
+    z.avail_in = (uInt)strlen(text);
+    z.next_out = gz;
+    z.avail_out = sizeof gz;
+    cr_assert_eq(deflate(&z, Z_FINISH), Z_STREAM_END);
+    size_t gz_len = sizeof gz - z.avail_out;
+    deflateEnd(&z);
+    const size_t first = 110; /* 10-byte header + 100 bytes of the name */
+    int p[2];
+    cr_assert_eq(pipe(p), 0);
+    pid_t pid = fork();
+    cr_assert_geq(pid, 0);
+    if (pid == 0) {
+        close(p[0]);
+        if (write(p[1], gz, first) != (ssize_t)first) _exit(1);
+        usleep(200000);
+        if (write(p[1], gz + first, gz_len - first) != (ssize_t)(gz_len - first)) _exit(1);
+        _exit(0);
+    }
+    close(p[1]);
+    int saved = dup(0);
+    cr_assert_eq(dup2(p[0], 0), 0);
+    close(p[0]);
+    char err[512] = "";
+    source *s = source_open("-", err, sizeof err);
+    cr_assert_not_null(s, "%s", err);
+    cr_assert_eq(source_kind(s), SOURCE_GZIP);
+    bytes got = {0};
+    int rc = drain(s, 65536, &got);
+    cr_expect_eq(rc, 0, "%s", source_error(s));
+    cr_expect(rc != 0 || (got.len == strlen(text) && memcmp(got.data, text, got.len) == 0),
+              "decoded %zu bytes, want %zu", got.len, strlen(text));
+    source_close(s);
+    dup2(saved, 0);
+    close(saved);
+    int status;
+    cr_assert_eq(waitpid(pid, &status, 0), pid);
+    cr_assert(WIFEXITED(status) && WEXITSTATUS(status) == 0, "writer failed");
+    free(got.data);
 }
 
 /* --- fingerprint, sizes, offsets -------------------------------------------- */

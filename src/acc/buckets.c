@@ -520,18 +520,20 @@ int buckets_add(buckets *b, double x, uint32_t cell, uint64_t count)
     return add_new(b, u, cell, count);
 }
 
-int buckets_add_many(buckets *b, const double *x, size_t n, uint32_t cell)
+int buckets_add_many(buckets *b, const double *x, const uint32_t *cells, size_t n)
 {
-    /* Same as n calls of buckets_add(b, x[i], cell, 1), with the slot of the
-     * value PREFETCH ahead requested early: the table outgrows L1 for
-     * continuous columns and the misses, not the arithmetic, dominate. */
+    /* Same as n calls of buckets_add(b, x[i], cells ? cells[i] : 0, 1), with
+     * the slot of the value PREFETCH ahead requested early: the table
+     * outgrows L1 for continuous columns and the misses, not the
+     * arithmetic, dominate. */
     enum { PREFETCH = 8 };
     for (size_t i = 0; i < n; i++) {
         if (i + PREFETCH < n) {
-            uint64_t id = make_id(key_of_bits(double_bits(x[i + PREFETCH]), b->level), cell);
+            uint32_t c = cells ? cells[i + PREFETCH] : 0;
+            uint64_t id = make_id(key_of_bits(double_bits(x[i + PREFETCH]), b->level), c);
             __builtin_prefetch(&b->slots[(size_t)((id * FIB_MULT) >> b->shift)]);
         }
-        if (buckets_add(b, x[i], cell, 1) != 0) return -1;
+        if (buckets_add(b, x[i], cells ? cells[i] : 0, 1) != 0) return -1;
     }
     return 0;
 }

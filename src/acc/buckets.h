@@ -98,8 +98,9 @@ void buckets_reset(buckets *b);
 /* Adds `count` at value x in `cell` (count 0 is a no-op).  Returns 0, or -1
  * on OOM or when x is not finite; the store is unchanged on -1. */
 int buckets_add(buckets *b, double x, uint32_t cell, uint64_t count);
-/* n calls of buckets_add(b, x[i], cell, 1), faster (prefetches ahead). */
-int buckets_add_many(buckets *b, const double *x, size_t n, uint32_t cell);
+/* n calls of buckets_add(b, x[i], cells ? cells[i] : 0, 1), faster
+ * (prefetches ahead). */
+int buckets_add_many(buckets *b, const double *x, const uint32_t *cells, size_t n);
 /* Empties b and sets its level: a chunk-local store that starts at the
  * running store's level never collapses through the levels below it. */
 void buckets_reset_level(buckets *b, int level);

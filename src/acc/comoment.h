@@ -14,17 +14,25 @@
  * constant (its block mean over present cells) and zeroes missing cells; the
  * block's sums are then cross-products computed with BLAS: cblas_dsyrk for
  * X^T X, and, only for columns with a missing cell in the block, cblas_dgemm
- * of the value and presence matrices (X^T M_G, (X*X)^T M_G, M^T M_G).  The
- * block's pairwise state is merged into the running one with the pairwise
- * update of Chan, Golub & LeVeque (1979) / Pébay (2008):
+ * of the value and presence matrices (X^T M_G, (X*X)^T M_G, M^T M_G) -- or,
+ * for a column with few missing cells, the column totals minus the sums over
+ * its missing rows.  The block's pairwise state is merged into the running
+ * one with the pairwise update of Chan, Golub & LeVeque (1979) / Pébay (2008):
  *   n = na + nb, d_i = mean_b[i][j] - mean_a[i][j],
  *   mean = mean_a + d nb / n,  m2 = m2a + m2b + d_i^2 na nb / n,
  *   c = ca + cb + d_i d_j na nb / n.
  * Means are kept in a per-column frame (the caller's reference values), so
  * that two states merge after shifting by the difference of their frames.
  *
- * Memory: 4 p^2 doubles of state, plus scratch for one block.  OpenBLAS runs
- * single-threaded (set with openblas_set_num_threads(1) on creation).
+ * Memory: the state keeps, for each unordered pair {i <= j}, n, c and the
+ * mean and m2 of both columns: 3 p (p + 1) doubles (packed triangles).  A
+ * state that adds blocks also holds scratch for one block, allocated once:
+ * 4 p^2 + 2 max_rows p + 3 p doubles.  comoment_add_block allocates nothing.
+ * OpenBLAS is set single-threaded (openblas_set_num_threads(1), once per
+ * process, on the first creation); the scan's own threads give parallelism.
+ *
+ * A state is not shared between threads; distinct states may be used from
+ * distinct threads at the same time.
  */
 #ifndef SHEAF_COMOMENT_H
 #define SHEAF_COMOMENT_H
@@ -36,13 +44,16 @@
 
 typedef struct comoment comoment;
 
-/* State for p columns, blocks of at most max_rows rows.  NULL on OOM. */
+/* State for p columns, blocks of at most max_rows rows.  max_rows == 0 makes
+ * a state that is only merged into and read (no block scratch).  NULL on OOM
+ * or p > 100000 or max_rows > INT_MAX (BLAS dimensions are int). */
 comoment *comoment_create(size_t p, size_t max_rows);
 void comoment_free(comoment *c);
 void comoment_reset(comoment *c);
 size_t comoment_columns(const comoment *c);
 
-/* Bytes comoment_create(p, max_rows) will allocate (for the --mem check). */
+/* Bytes comoment_create(p, max_rows) will allocate (for the --mem check):
+ * state plus block scratch.  UINT64_MAX when create would refuse the sizes. */
 uint64_t comoment_bytes(size_t p, size_t max_rows);
 
 /* Adds a block of `rows` rows.
@@ -51,21 +62,47 @@ uint64_t comoment_bytes(size_t p, size_t max_rows);
  *   mask  same layout: 1.0 present, 0.0 missing
  *   center[j]  the constant subtracted from column j, in the state's frame
  *   complete[j] nonzero when column j has no missing cell in this block
- * Returns 0, or -1 on OOM. */
+ * The inputs are trusted: x must be 0 wherever mask is 0, and complete[j]
+ * must agree with the mask.  Centring near the block mean matters for
+ * accuracy: the block's M2 and co-moment are one-pass sums in that frame.
+ * Cost: one dsyrk (rows p^2 flops) and an O(p^2) merge.  An incomplete
+ * column with k missing cells adds about 4 p k operations when k <= rows / 6,
+ * else its share of three dgemm (6 rows p flops per column).  Measured on
+ * one core (p = 500, rows = 256): 2.1 ms with no missing cell, 2.5 ms with
+ * 5 incomplete columns, 3.5 ms with 1% and 10 ms with 20% of all cells
+ * missing.
+ * Returns 0 (rows == 0 is a no-op), or -1 when rows > max_rows. */
 int comoment_add_block(comoment *c, const double *x, const double *mask, const double *center,
                        const unsigned char *complete, size_t rows);
 
 /* into := into (+) from.  shift[j] = from's frame minus into's frame for
- * column j (add it to from's means); NULL = same frames.  Same p required. */
+ * column j (add it to from's means); NULL = same frames.  into != from.
+ * Returns 0, or -1 (into unchanged) when the column counts differ. */
 int comoment_merge(comoment *into, const comoment *from, const double *shift);
 
-/* Accessors (pairwise complete). */
+/* Accessors (pairwise complete).  comoment_n(c, i, i) is the count of column
+ * i, comoment_mean(c, i, i) its mean (in the frame), comoment_variance(c, i, i)
+ * its sample variance. */
 double comoment_n(const comoment *c, size_t i, size_t j);
-double comoment_mean(const comoment *c, size_t i, size_t j);     /* of i, where j present, in frame */
+double comoment_mean(const comoment *c, size_t i, size_t j);     /* of i, where j present, in frame; NaN if n = 0 */
 double comoment_covariance(const comoment *c, size_t i, size_t j); /* c / (n - 1); NaN if n < 2 */
-double comoment_correlation(const comoment *c, size_t i, size_t j); /* NaN if undefined */
-double comoment_variance(const comoment *c, size_t i, size_t j);  /* of i where j present */
+/* c / sqrt(m2[i][j] m2[j][i]); NaN if n < 2 or either m2 is 0.  Not clipped
+ * to [-1, 1]: rounding can leave |r| a few ulps above 1. */
+double comoment_correlation(const comoment *c, size_t i, size_t j);
+double comoment_variance(const comoment *c, size_t i, size_t j);  /* of i where j present: m2 / (n - 1); NaN if n < 2 */
 
+/* All p x p covariances / correlations, row-major into out[i * p + j]. */
+void comoment_covariance_matrix(const comoment *c, double *out);
+void comoment_correlation_matrix(const comoment *c, double *out);
+
+/* Serialized form: u64 p, then four p x p row-major matrices: N as u64 (exact
+ * counts), MEAN, M2 and C as f64, with MEAN[i][j] and M2[i][j] those of
+ * column i over rows where j is present.
+ * comoment_read gives a state with block scratch for max_rows (0: none).  On
+ * malformed input (p > 100000, too few bytes, a count above 2^53, N or C not
+ * symmetric, a pair count above a column count, a non-finite value, a
+ * negative M2, non-zero statistics for an empty pair, C[i][i] != M2[i][i]) it
+ * returns NULL and sets r->failed.  NULL with r->failed clear: out of memory. */
 void comoment_write(const comoment *c, wire_writer *w);
 comoment *comoment_read(wire_reader *r, size_t max_rows);
 

@@ -50,5 +50,7 @@ int cli_summary_exit(int status);
 /* Commands. */
 int cmd_scan(int argc, char **argv);
 int cmd_info(int argc, char **argv);
+int cmd_corr(int argc, char **argv);
+int cmd_merge(int argc, char **argv);
 
 #endif

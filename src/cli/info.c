@@ -45,6 +45,28 @@ static void print_json(const summary *s, double share, size_t ntop)
     json_array_begin(&j);
     for (uint32_t i = 0; i < s->n_bad_lines; i++) json_uint(&j, s->bad_lines[i]);
     json_array_end(&j);
+    json_key(&j, "target");
+    if (s->target < 0) {
+        json_null(&j);
+    } else {
+        static const char *tasks[] = {"none", "classify", "regress"};
+        json_object_begin(&j);
+        json_key(&j, "name"); json_string(&j, s->opt.target);
+        json_key(&j, "task"); json_string(&j, tasks[summary_target_task(s, share)]);
+        json_key(&j, "declared_task"); json_string(&j, s->opt.task ? tasks[s->opt.task] : "auto");
+        json_key(&j, "classes_dropped"); json_bool(&j, s->classes_dropped);
+        json_key(&j, "max_classes"); json_uint(&j, s->opt.max_classes);
+        json_key(&j, "levels");
+        json_array_begin(&j);
+        for (uint32_t c = 0; c < s->nclasses; c++) {
+            json_object_begin(&j);
+            json_key(&j, "value"); json_string(&j, s->class_label[c]);
+            json_key(&j, "rows"); json_uint(&j, s->class_rows[c]);
+            json_object_end(&j);
+        }
+        json_array_end(&j);
+        json_object_end(&j);
+    }
     json_key(&j, "sources");
     json_array_begin(&j);
     for (size_t i = 0; i < s->nsources; i++) {
@@ -120,6 +142,21 @@ static void print_json(const summary *s, double share, size_t ntop)
             json_number(&j, buckets_total(c->bins) ? buckets_quantile(c->bins, PROBS[q], &rel) : NAN);
         }
         json_object_end(&j);
+        if (c->cls && num) {
+            const number_decimal *ref = c->mom.has_ref ? &c->mom.ref : NULL;
+            json_key(&j, "by_class");
+            json_array_begin(&j);
+            for (uint32_t k = 0; k < s->nclasses; k++) {
+                const class_moments *cm = &c->cls[k];
+                json_object_begin(&j);
+                json_key(&j, "class"); json_string(&j, s->class_label[k]);
+                json_key(&j, "n"); json_uint(&j, cm->n);
+                json_key(&j, "mean"); json_number(&j, cm->n ? (ref ? ref->value : 0) + cm->mean : NAN);
+                json_key(&j, "variance"); json_number(&j, cm->n > 1 ? cm->m2 / (double)(cm->n - 1) : NAN);
+                json_object_end(&j);
+            }
+            json_array_end(&j);
+        }
         json_key(&j, "quantile_relative_error");
         json_number(&j, buckets_total(c->bins) ? buckets_relative_error(buckets_level(c->bins)) : NAN);
         json_object_end(&j);
@@ -142,6 +179,25 @@ static void print_text(const summary *s, const char *path, double share, size_t 
         for (uint32_t i = 0; i < s->n_bad_lines; i++)
             printf("%s %llu", i ? "," : "", (unsigned long long)s->bad_lines[i]);
         printf(")\n");
+    }
+    if (s->target >= 0) {
+        static const char *tasks[] = {"none", "classification", "regression"};
+        target_task task = summary_target_task(s, share);
+        printf("target: %s (%s%s)", s->opt.target, tasks[task],
+               s->opt.task ? ", declared" : "");
+        if (s->classes_dropped)
+            printf("; more than %u distinct values, so class statistics were dropped",
+                   s->opt.max_classes);
+        else if (s->nclasses) {
+            uint64_t total = 0;
+            for (uint32_t c = 0; c < s->nclasses; c++) total += s->class_rows[c];
+            printf(", %u levels:", s->nclasses);
+            for (uint32_t c = 0; c < s->nclasses && c < 8; c++)
+                printf("%s %s (%.1f%%)", c ? "," : "", s->class_label[c],
+                       total ? 100.0 * s->class_rows[c] / total : 0);
+            if (s->nclasses > 8) printf(", ...");
+        }
+        printf("\n");
     }
     size_t width = table_terminal_width();
     int color = table_use_color(stdout);

@@ -13,6 +13,8 @@ typedef struct {
 static const command COMMANDS[] = {
     {"scan", cmd_scan, "read CSV/TSV tables (plain, gzip, zstd) into a summary file"},
     {"info", cmd_info, "describe a summary: rows, sources, per-column statistics"},
+    {"merge", cmd_merge, "combine summaries of shards or nights exactly"},
+    {"corr", cmd_corr, "pairwise-complete correlation or covariance matrix"},
 };
 
 static void help(FILE *f)

@@ -48,7 +48,8 @@ static int parse_delim(const char *s, char *out)
 int cmd_scan(int argc, char **argv)
 {
     const char *out = NULL, *delim = NULL, *chunk = NULL, *maxrec = NULL, *missing = NULL;
-    const char *levels = NULL, *budget = NULL;
+    const char *levels = NULL, *budget = NULL, *target = NULL, *task = NULL, *classes = NULL;
+    const char *mem = NULL, *shard = NULL;
     int no_header = 0, strict = 0, quiet = 0;
     scan_options o;
     scan_options_defaults(&o);
@@ -61,6 +62,12 @@ int cmd_scan(int argc, char **argv)
         {"numeric", 0, "A,B,..", "declare columns numeric", &o.numeric, NULL},
         {"categorical", 0, "A,B,..", "declare columns categorical (never parsed)", &o.categorical, NULL},
         {"ignore", 0, "A,B,..", "leave these columns out", &o.ignore, NULL},
+        {"target", 't', "COL", "the outcome column (a class or a continuous measure)", &target, NULL},
+        {"task", 0, "TASK", "classify or regress (default: decided when the summary is read)",
+         &task, NULL},
+        {"max-classes", 0, "N", "target classes kept (default 256)", &classes, NULL},
+        {"mem", 0, "SIZE", "refuse when the co-moment matrix needs more (default: half of RAM)",
+         &mem, NULL},
         {"missing", 0, "S1,S2,..", "missing-value spellings (default NA,N/A,null,NULL,None,-,?)",
          &missing, NULL},
         {"max-levels", 0, "N", "exact value counts per column before overflow (default 1024)",
@@ -68,6 +75,8 @@ int cmd_scan(int argc, char **argv)
         {"bucket-budget", 0, "N", "occupied value buckets per column (default 2048)", &budget, NULL},
         {"chunk-size", 0, "SIZE", "bytes per chunk, e.g. 4M (default 4 MiB)", &chunk, NULL},
         {"max-record", 0, "SIZE", "longest record accepted (default 64 MiB)", &maxrec, NULL},
+        {"shard", 0, "I/N", "read only the records that start in the I-th of N byte ranges "
+         "(one plain file)", &shard, NULL},
         {"quiet", 'q', NULL, "no progress line", NULL, &quiet},
         {0},
     };
@@ -117,8 +126,42 @@ int cmd_scan(int argc, char **argv)
         }
         o.opt.bucket_budget = (uint32_t)v;
     }
+    if (shard) {
+        unsigned i, n;
+        char extra;
+        if (sscanf(shard, "%u/%u%c", &i, &n, &extra) != 2 || n < 1 || i < 1 || i > n) {
+            cli_error("scan", "--shard must be I/N with 1 <= I <= N, got '%s'", shard);
+            goto done;
+        }
+        o.shard_index = i;
+        o.shard_count = n;
+    }
+    if (task) {
+        if (!strcmp(task, "classify")) o.opt.task = TASK_CLASSIFY;
+        else if (!strcmp(task, "regress")) o.opt.task = TASK_REGRESS;
+        else { cli_error("scan", "--task must be classify or regress, got '%s'", task); goto done; }
+        if (!target) { cli_error("scan", "--task needs --target"); goto done; }
+    }
+    if (classes) {
+        if ((v = cli_parse_count(classes)) < 2 || v > SUMMARY_MAX_CLASSES) {
+            cli_error("scan", "--max-classes must be between 2 and %d, got '%s'", SUMMARY_MAX_CLASSES,
+                      classes);
+            goto done;
+        }
+        o.opt.max_classes = (uint32_t)v;
+    }
+    if (mem) {
+        if ((v = cli_parse_size(mem)) < 1) {
+            cli_error("scan", "--mem must be a size such as 512M or 4G, got '%s'", mem);
+            goto done;
+        }
+        o.mem_limit_bytes = (uint64_t)v;
+    } else {
+        long pages = sysconf(_SC_PHYS_PAGES), page = sysconf(_SC_PAGESIZE);
+        if (pages > 0 && page > 0) o.mem_limit_bytes = (uint64_t)pages * (uint64_t)page / 2;
+    }
     if (missing) {
-        summary_options_free(&o.opt);
+        summary_options_free(&o.opt); /* the target is set below */
         char *copy = strdup(missing);
         for (char *t = strtok(copy, ","); t; t = strtok(NULL, ",")) {
             if (o.opt.n_missing == SUMMARY_MAX_MISSING) {
@@ -130,6 +173,7 @@ int cmd_scan(int argc, char **argv)
         }
         free(copy);
     }
+    if (target) o.opt.target = strdup(target);
     o.header = !no_header;
     o.strict = strict;
     progress_state ps = {now(), now(), 0};

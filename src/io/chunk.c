@@ -1,9 +1,12 @@
 /* chunk: see chunk.h for the cutting rule. */
 #include "io/chunk.h"
 
+#include <errno.h>
+#include <fcntl.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <unistd.h>
 
 struct chunker {
     char *buf;            /* buffered decompressed bytes */
@@ -86,6 +89,14 @@ static ssize_t fill(chunker *c, char *err, size_t errlen)
     return n;
 }
 
+static int too_long(const chunker *c, size_t start, char *err, size_t errlen)
+{
+    snprintf(err, errlen, "%s: record at byte %llu is longer than the %zu-byte limit "
+             "(an unterminated quote, or raise --max-record)",
+             source_path(c->src), (unsigned long long)(c->offset + start), c->max_record);
+    return -1;
+}
+
 int chunker_next(chunker *c, chunk *out, char *err, size_t errlen)
 {
     /* Drop what the previous chunk used. */
@@ -111,7 +122,7 @@ int chunker_next(chunker *c, chunk *out, char *err, size_t errlen)
             return 1;
         }
         size_t cut = chunk_last_record_end(c->buf, c->len);
-        if (cut <= c->len) {
+        if (cut <= c->len && cut >= c->chunk_bytes) {
             out->data = c->buf;
             out->len = cut;
             out->offset = c->offset;
@@ -119,20 +130,68 @@ int chunker_next(chunker *c, chunk *out, char *err, size_t errlen)
             c->consumed = cut;
             return 1;
         }
-        /* No record end in the whole buffer: one record longer than it. */
-        if (c->len >= c->max_record) {
-            snprintf(err, errlen, "%s: record at byte %llu is longer than the %zu-byte limit "
-                     "(an unterminated quote, or raise --max-record)",
-                     source_path(c->src), (unsigned long long)c->offset, c->max_record);
-            return -1;
+        /* No record end at or past chunk_bytes: read on, unless the record
+         * after the last record end is already over the limit. */
+        size_t open_start = cut <= c->len ? cut : 0;
+        if (c->len - open_start >= c->max_record) {
+            if (open_start == 0) return too_long(c, 0, err, errlen);
+            /* Hand out the records before it; the next call reports it. */
+            out->data = c->buf;
+            out->len = open_start;
+            out->offset = c->offset;
+            out->last = 0;
+            c->consumed = open_start;
+            return 1;
         }
         ssize_t n = fill(c, err, errlen);
         if (n < 0) return -1;
-        if (n == 0 && !c->eof) {
-            snprintf(err, errlen, "%s: record at byte %llu is longer than the %zu-byte limit "
-                     "(an unterminated quote, or raise --max-record)",
-                     source_path(c->src), (unsigned long long)c->offset, c->max_record);
-            return -1;
-        }
+        if (n == 0 && !c->eof) return too_long(c, open_start, err, errlen);
     }
+}
+
+int chunk_find_record_start(const char *path, uint64_t offset, uint64_t *start, char *err,
+                            size_t errlen)
+{
+    if (offset == 0) { *start = 0; return 0; }
+    int fd = open(path, O_RDONLY | O_CLOEXEC);
+    if (fd < 0) {
+        snprintf(err, errlen, "%s: cannot open: %s", path, strerror(errno));
+        return -1;
+    }
+    enum { BLOCK = 1 << 20 };
+    char *buf = malloc(BLOCK);
+    if (!buf) { close(fd); snprintf(err, errlen, "out of memory"); return -1; }
+    /* Record starts are positions p with data[p-1] == '\n' outside quotes;
+     * look for the first one with p >= offset, i.e. a newline at >= offset-1. */
+    uint64_t pos = 0, want = offset - 1;
+    int inside = 0, rc = 1;
+    while (rc == 1) {
+        ssize_t n = read(fd, buf, BLOCK);
+        if (n < 0 && errno == EINTR) continue;
+        if (n < 0) {
+            snprintf(err, errlen, "%s: read error: %s", path, strerror(errno));
+            rc = -1;
+            break;
+        }
+        if (n == 0) { *start = pos; rc = 0; break; } /* no record starts in the rest */
+        size_t i = 0, len = (size_t)n;
+        while (i < len) {
+            if (pos + i < want) {
+                /* Before the target: only quotes matter. */
+                size_t stop = want - pos < len ? (size_t)(want - pos) : len;
+                const char *q = memchr(buf + i, '"', stop - i);
+                if (q) { inside = !inside; i = (size_t)(q - buf) + 1; }
+                else i = stop;
+                continue;
+            }
+            char ch = buf[i];
+            if (ch == '"') inside = !inside;
+            else if (ch == '\n' && !inside) { *start = pos + i + 1; rc = 0; break; }
+            i++;
+        }
+        pos += len;
+    }
+    free(buf);
+    close(fd);
+    return rc;
 }

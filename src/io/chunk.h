@@ -9,7 +9,7 @@
  * and newlines with memrchr, so unquoted data is scanned at memory speed.
  *
  * A record longer than the buffer grows it, up to `max_record_bytes`; past
- * that the reader stops with an error giving the byte offset.
+ * that the reader stops with an error giving the byte offset of the record.
  */
 #ifndef SHEAF_CHUNK_H
 #define SHEAF_CHUNK_H
@@ -44,5 +44,15 @@ int chunker_next(chunker *c, chunk *out, char *err, size_t errlen);
  * data[0..len), for text that starts outside quotes; len + 1 if there is none.
  * Exposed for tests. */
 size_t chunk_last_record_end(const char *data, size_t len);
+
+/* Byte-range shards.  The first record that starts at or after `offset` in a
+ * plain file.  The rule is provably right for RFC 4180 text: a record starts
+ * right after a '\n' preceded by an even number of quotes, so the quotes of
+ * the whole prefix [0, offset) are counted (memchr over the file, no
+ * parsing), then the first such '\n' at or after offset - 1 is found.
+ * Returns 0 and sets *start (the file size when no record starts there), or
+ * -1 with a message. */
+int chunk_find_record_start(const char *path, uint64_t offset, uint64_t *start, char *err,
+                            size_t errlen);
 
 #endif

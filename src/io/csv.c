@@ -12,6 +12,7 @@ void csv_reader_init(csv_reader *r, char *data, size_t len, char delim)
     r->delim = delim;
     r->lines = 0;
     r->record_line = 0;
+    r->record_start = data;
 }
 
 /* Parses a quoted field starting at p (just after the opening quote).
@@ -36,11 +37,12 @@ static char *quoted(csv_reader *r, char *p, char *end, char delim, uint32_t *fle
         break;
     }
     /* Lenient: anything up to the delimiter after the closing quote is kept. */
+    char *after = out;
     while (p < end && *p != delim && *p != '\n') {
         if (*p == '\r' && p + 1 < end && p[1] == '\n') break;
         *out++ = *p++;
     }
-    if (p == end && out > start && out[-1] == '\r') out--;
+    if (p == end && out > after && out[-1] == '\r') out--; /* CR of a CRLF cut by the end */
     *flen = (uint32_t)(out - start);
     return p;
 }
@@ -57,6 +59,7 @@ csv_status csv_next(csv_reader *r, csv_field *fields, size_t max_fields, size_t 
         break;
     }
     r->record_line = r->lines;
+    r->record_start = p;
     size_t n = 0;
     for (;;) {
         const char *fstart;

@@ -26,6 +26,7 @@ typedef struct {
     char delim;        /* field delimiter */
     uint64_t lines;    /* newlines consumed so far in this chunk */
     uint64_t record_line; /* line (0-based within the chunk) where the last record began */
+    char *record_start;   /* first byte of the last record read */
 } csv_reader;
 
 typedef enum {

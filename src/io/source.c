@@ -1,7 +1,10 @@
 /* source: plain / gzip / zstd byte streams.  See source.h.
  *
- * gzip: ISA-L's isal_inflate with crc_flag = ISAL_GZIP parses each member's
- * header, inflates it and checks its CRC-32 and length trailer.  After a
+ * gzip: each member's header is parsed with isal_read_gzip_header into a
+ * header record that persists across calls (ISA-L 2.30's own in-inflate
+ * parsing leaves fields of its header record unset when a header is split
+ * across two inputs), then isal_inflate with crc_flag = ISAL_GZIP_NO_HDR_VER
+ * inflates the member and checks its CRC-32 and length trailer.  After a
  * member ends (block_state == ISAL_BLOCK_FINISH) the state is reset and the
  * next member, if any, follows (RFC 1952 allows concatenated members; `cat
  * a.gz b.gz` produces one).  Input that ends inside a member is a truncated
@@ -38,6 +41,8 @@ struct source {
     XXH3_state_t *hash;       /* fingerprint of raw bytes */
     struct inflate_state *gz; /* gzip state */
     int gz_in_member;         /* inside a gzip member */
+    int gz_header_done;       /* the member's header has been parsed */
+    struct isal_gzip_header gz_header; /* header being parsed */
     ZSTD_DStream *zs;         /* zstd state */
     size_t zs_hint;           /* last ZSTD_decompressStream result */
     int done;                 /* end of decoded input reached */
@@ -111,8 +116,7 @@ static int detect(source *s, char *err, size_t errlen)
         s->gz = malloc(sizeof *s->gz);
         if (!s->gz) { snprintf(err, errlen, "%s: out of memory", s->path); return -1; }
         isal_inflate_init(s->gz);
-        s->gz->crc_flag = ISAL_GZIP;
-        s->gz_in_member = 1;
+        s->gz_in_member = 0;
     } else if (s->raw_len >= 4 && m[0] == 0x28 && m[1] == 0xb5 && m[2] == 0x2f && m[3] == 0xfd) {
         s->kind = SOURCE_ZSTD;
         s->zs = ZSTD_createDStream();
@@ -225,6 +229,16 @@ static ssize_t raw_top_up(source *s, size_t margin)
     return (ssize_t)s->raw_len;
 }
 
+static uint64_t unread_offset(const source *s) { return s->raw_offset - (s->raw_len - s->raw_pos); }
+
+static ssize_t gzip_fail(source *s, const char *fmt, uint64_t at)
+{
+    char num[32];
+    snprintf(num, sizeof num, "%llu", (unsigned long long)at);
+    fail(s, fmt, num);
+    return -1;
+}
+
 static ssize_t read_gzip(source *s, uint8_t *buf, size_t cap)
 {
     struct inflate_state *st = s->gz;
@@ -232,17 +246,37 @@ static ssize_t read_gzip(source *s, uint8_t *buf, size_t cap)
     while (produced == 0) {
         if (!s->gz_in_member) {
             /* Between members: more input starts a new member. */
-            ssize_t avail = raw_fill(s);
+            ssize_t avail = raw_top_up(s, 2);
             if (avail < 0) return -1;
             if (avail == 0) return 0;
+            const uint8_t *m = s->raw + s->raw_pos;
+            if (avail < 2 || m[0] != 0x1f || m[1] != 0x8b)
+                return gzip_fail(s, "%s: unexpected bytes after a gzip member at byte %s",
+                                 unread_offset(s));
             isal_inflate_reset(st);
-            st->crc_flag = ISAL_GZIP;
+            memset(&s->gz_header, 0, sizeof s->gz_header);
+            isal_gzip_header_init(&s->gz_header);
             s->gz_in_member = 1;
+            s->gz_header_done = 0;
         }
         ssize_t avail = raw_top_up(s, 64);
         if (avail < 0) return -1;
         st->next_in = s->raw + s->raw_pos;
         st->avail_in = (uint32_t)avail;
+        if (!s->gz_header_done) {
+            int rc = isal_read_gzip_header(st, &s->gz_header);
+            s->raw_pos += (size_t)avail - st->avail_in;
+            if (rc == ISAL_DECOMP_OK) {
+                s->gz_header_done = 1;
+                st->crc_flag = ISAL_GZIP_NO_HDR_VER;
+                continue;
+            }
+            if (rc == ISAL_END_INPUT && avail > 0) continue;
+            if (rc == ISAL_END_INPUT)
+                return gzip_fail(s, "%s: truncated gzip stream (input ends inside a member "
+                                    "header at byte %s)", s->raw_offset);
+            return gzip_fail(s, "%s: corrupt gzip header near byte %s", unread_offset(s));
+        }
         uint32_t room = (uint32_t)(cap - produced);
         st->next_out = buf + produced;
         st->avail_out = room;
@@ -250,26 +284,18 @@ static ssize_t read_gzip(source *s, uint8_t *buf, size_t cap)
         size_t used = (size_t)avail - st->avail_in;
         s->raw_pos += used;
         produced += room - st->avail_out;
-        if (rc < 0) {
-            char at[64];
-            snprintf(at, sizeof at, "%llu",
-                     (unsigned long long)(s->raw_offset - (s->raw_len - s->raw_pos)));
-            fail(s, rc == ISAL_INCORRECT_CHECKSUM
-                        ? "%s: corrupt gzip stream (checksum mismatch) near byte %s"
-                        : "%s: corrupt gzip stream near byte %s",
-                 at);
-            return -1;
-        }
+        if (rc < 0)
+            return gzip_fail(s, rc == ISAL_INCORRECT_CHECKSUM
+                                    ? "%s: corrupt gzip stream (checksum mismatch) near byte %s"
+                                    : "%s: corrupt gzip stream near byte %s",
+                             unread_offset(s));
         if (st->block_state == ISAL_BLOCK_FINISH) {
             s->gz_in_member = 0;
             continue;
         }
-        if (used == 0 && produced == 0 && avail == 0) {
-            char at[64];
-            snprintf(at, sizeof at, "%llu", (unsigned long long)s->raw_offset);
-            fail(s, "%s: truncated gzip stream (input ends inside a member at byte %s)", at);
-            return -1;
-        }
+        if (used == 0 && produced == 0 && avail == 0)
+            return gzip_fail(s, "%s: truncated gzip stream (input ends inside a member at byte %s)",
+                             s->raw_offset);
     }
     return (ssize_t)produced;
 }

@@ -4,11 +4,12 @@
  * raw text into the value table and the HyperLogLog, then, unless the column
  * is declared categorical, the decimal parse.  A finite number becomes a
  * deviation from the column's reference decimal (number_difference), buffered
- * per column and added to the moments SCAN_BLOCK_ROWS at a time.
+ * per column and added to the accumulators SUMMARY_BLOCK_ROWS rows at a time.
  */
 #include "summary/scan.h"
 
 #include <math.h>
+#include <sys/stat.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -29,7 +30,7 @@ void scan_options_defaults(scan_options *o)
     o->max_record_bytes = 64u << 20;
 }
 
-/* Per-column buffer of the current block of cells.  The hot loop only
+/* Per-column buffer of the current block of rows.  The hot loop only
  * classifies, hashes and parses; the accumulators are fed a whole block of
  * one column at a time, which keeps each column's tables in cache. */
 typedef struct {
@@ -38,9 +39,11 @@ typedef struct {
     uint64_t *hash;      /* XXH3-64 of each cell's text */
     const char **text;   /* each cell's text (inside the current chunk) */
     uint32_t *len;       /* each cell's length */
+    uint16_t *cell_row;  /* row in the block of each cell */
     size_t nnum;         /* finite numbers buffered */
     double *dev;         /* deviation of each number from the reference */
     double *val;         /* each number */
+    uint16_t *num_row;   /* row in the block of each number */
 } lane;
 
 typedef struct {
@@ -58,6 +61,21 @@ typedef struct {
     uint64_t line_base;    /* lines before the current chunk */
     uint64_t total_bytes;  /* raw bytes of all sources, 0 if unknown */
     uint64_t done_bytes;   /* raw bytes of finished sources */
+    int at_file_start;     /* the current source starts at byte 0 of its file */
+    int header_only;       /* read only the first record (a shard's header) */
+    uint64_t stop_at;      /* records starting here or later are another shard's */
+    uint64_t shard_start, shard_end; /* the byte range scanned, for provenance */
+    /* The current block of rows. */
+    size_t block_rows;     /* rows buffered */
+    uint32_t row_cell[SUMMARY_BLOCK_ROWS];   /* bucket cell of each row */
+    uint32_t row_class[SUMMARY_BLOCK_ROWS];  /* class 1..K, 0 = none */
+    double row_y[SUMMARY_BLOCK_ROWS];        /* regression target (work frame) */
+    unsigned char row_has_y[SUMMARY_BLOCK_ROWS];
+    uint32_t cells_tmp[SUMMARY_BLOCK_ROWS];  /* cells of one lane's numbers */
+    double *como_x;        /* ncomo x block, centred values */
+    double *como_mask;     /* ncomo x block, presence */
+    double *como_center;   /* ncomo */
+    unsigned char *como_complete; /* ncomo */
     char *err;
     size_t errlen;
 } scanner;
@@ -72,13 +90,34 @@ static int is_missing(const scanner *sc, const char *p, uint32_t len)
     return 0;
 }
 
-/* Feeds one column's buffered block to its accumulators. */
-static int flush_lane(summary_column *c, lane *l)
+static void class_add(class_moments *m, double x)
 {
+    m->n++;
+    double d = x - m->mean;
+    m->mean += d / (double)m->n;
+    m->m2 += d * (x - m->mean);
+}
+
+/* Feeds one column's buffered block to its accumulators. */
+static int flush_lane(scanner *sc, summary_column *c, lane *l)
+{
+    int classes = sc->work->has_classes;
     for (size_t i = 0; i < l->ncells; i++) {
         if (i + 8 < l->ncells) values_prefetch(c->vals, l->hash[i + 8]);
         if (values_add(c->vals, l->hash[i], l->text[i], l->len[i]) != 0) return -1;
         hll_add(c->distinct, l->hash[i]);
+    }
+    if (c->cross) {
+        for (size_t i = 0; i < l->ncells; i++) {
+            size_t r = l->cell_row[i];
+            int rc = 0;
+            if (classes) {
+                if (sc->row_class[r]) rc = crosstab_add_count(c->cross, l->hash[i], sc->row_class[r]);
+            } else if (sc->row_has_y[r]) {
+                rc = crosstab_add_value(c->cross, l->hash[i], sc->row_y[r]);
+            }
+            if (rc != 0) return -1;
+        }
     }
     l->ncells = 0;
     if (l->nnum) {
@@ -88,17 +127,66 @@ static int flush_lane(summary_column *c, lane *l)
             moments_see(&c->mom, x);
             c->zeros += x == 0;
             c->integers += x == nearbyint(x);
+            sc->cells_tmp[i] = sc->row_cell[l->num_row[i]];
         }
-        if (buckets_add_many(c->bins, l->val, l->nnum, 0) != 0) return -1;
-        l->nnum = 0;
+        if (buckets_add_many(c->bins, l->val, sc->o->opt.target ? sc->cells_tmp : NULL, l->nnum) != 0)
+            return -1;
+        if (c->cls)
+            for (size_t i = 0; i < l->nnum; i++) {
+                uint32_t k = sc->row_class[l->num_row[i]];
+                if (k) class_add(&c->cls[k - 1], l->dev[i]);
+            }
     }
     return 0;
 }
 
+/* Centres the block's numbers per co-moment column and feeds the running
+ * co-moment matrix (the block is the unit merged into it). */
+static int flush_comoments(scanner *sc)
+{
+    summary *w = sc->work, *run = sc->run;
+    size_t rows = sc->block_rows, p = run->ncomo;
+    if (!p || !rows) return 0;
+    memset(sc->como_x, 0, p * rows * sizeof *sc->como_x);
+    memset(sc->como_mask, 0, p * rows * sizeof *sc->como_mask);
+    for (size_t k = 0; k < p; k++) {
+        size_t j = run->como_col[k];
+        const lane *l = &sc->lanes[j];
+        const moments *m = &w->cols[j].mom;
+        sc->como_complete[k] = l->nnum == rows;
+        sc->como_center[k] = 0;
+        if (!l->nnum) continue;
+        double shift = 0;
+        if (!run->como_ref_set[k]) {
+            run->como_ref[k] = m->ref;
+            run->como_ref_set[k] = 1;
+        } else {
+            shift = number_difference(&m->ref, &run->como_ref[k], NULL);
+        }
+        double sum = 0;
+        for (size_t i = 0; i < l->nnum; i++) sum += l->dev[i];
+        double mean = sum / (double)l->nnum;
+        sc->como_center[k] = mean + shift;
+        double *x = sc->como_x + k * rows, *msk = sc->como_mask + k * rows;
+        for (size_t i = 0; i < l->nnum; i++) {
+            x[l->num_row[i]] = l->dev[i] - mean;
+            msk[l->num_row[i]] = 1.0;
+        }
+    }
+    return comoment_add_block(run->como, sc->como_x, sc->como_mask, sc->como_center,
+                              sc->como_complete, rows);
+}
+
 static int flush_lanes(scanner *sc)
 {
-    for (size_t j = 0; j < sc->work->ncols; j++)
-        if (flush_lane(&sc->work->cols[j], &sc->lanes[j]) != 0) return -1;
+    if (!sc->work) return 0;
+    if (flush_comoments(sc) != 0) return -1;
+    for (size_t j = 0; j < sc->work->ncols; j++) {
+        lane *l = &sc->lanes[j];
+        if (flush_lane(sc, &sc->work->cols[j], l) != 0) return -1;
+        l->nnum = 0;
+    }
+    sc->block_rows = 0;
     return 0;
 }
 
@@ -113,32 +201,79 @@ static void keep_example(summary_column *c, const char *p, uint32_t len)
     c->n_examples++;
 }
 
-static int cell(scanner *sc, size_t j, const char *p, uint32_t len)
+static void cell(scanner *sc, size_t j, const char *p, uint32_t len)
 {
     summary_column *c = &sc->work->cols[j];
-    if (is_missing(sc, p, len)) { c->missing++; return 0; }
+    if (is_missing(sc, p, len)) { c->missing++; return; }
     lane *l = &sc->lanes[j];
     size_t k = l->ncells++;
     l->hash[k] = XXH3_64bits(p, len);
     l->text[k] = p;
     l->len[k] = len;
-    if (c->mode != COLUMN_CATEGORICAL) {
-        number_decimal d;
-        switch (number_parse(p, len, &d)) {
-        case NUMBER_FINITE:
-            if (!c->mom.has_ref) moments_set_ref(&c->mom, &d);
-            l->dev[l->nnum] = number_difference(&d, &c->mom.ref, NULL);
-            l->val[l->nnum++] = d.value;
-            break;
-        case NUMBER_NONFINITE: c->non_finite++; break;
-        default:
-            c->non_numeric++;
-            keep_example(c, p, len);
-        }
-    } else {
+    l->cell_row[k] = (uint16_t)sc->block_rows;
+    if (c->mode == COLUMN_CATEGORICAL) { c->non_numeric++; return; }
+    number_decimal d;
+    switch (number_parse(p, len, &d)) {
+    case NUMBER_FINITE:
+        if (!c->mom.has_ref) moments_set_ref(&c->mom, &d);
+        l->dev[l->nnum] = number_difference(&d, &c->mom.ref, NULL);
+        l->val[l->nnum] = d.value;
+        l->num_row[l->nnum++] = (uint16_t)sc->block_rows;
+        break;
+    case NUMBER_NONFINITE: c->non_finite++; break;
+    default:
         c->non_numeric++;
+        keep_example(c, p, len);
     }
-    return l->ncells == SCAN_BLOCK_ROWS ? flush_lane(c, l) : 0;
+}
+
+/* The target cell of the current row: its class, or its regression cell and
+ * value.  Returns SCAN_OK or an error (too many classes for a text target). */
+static scan_status target_cell(scanner *sc, const char *path, uint64_t line, const char *p,
+                               uint32_t len)
+{
+    size_t r = sc->block_rows;
+    sc->row_cell[r] = 0;
+    sc->row_class[r] = 0;
+    sc->row_has_y[r] = 0;
+    if (!p || is_missing(sc, p, len)) return SCAN_OK;
+    summary *run = sc->run, *w = sc->work;
+    summary_column *tc = &w->cols[run->target];
+    number_decimal d;
+    int finite = tc->mode != COLUMN_CATEGORICAL && number_parse(p, len, &d) == NUMBER_FINITE;
+    if (!finite) w->target_text++;
+    if (run->has_classes) {
+        uint32_t k = summary_class_of(run, XXH3_64bits(p, len), p, len, finite ? &d : NULL);
+        if (k) {
+            run->class_rows[k - 1]++;
+            sc->row_cell[r] = sc->row_class[r] = k;
+            return SCAN_OK;
+        }
+        /* One class too many. */
+        int numeric = finite && run->opt.task != TASK_CLASSIFY;
+        for (uint32_t c = 0; numeric && c < run->nclasses; c++) numeric = run->class_numeric[c];
+        if (!numeric) {
+            snprintf(sc->err, sc->errlen,
+                     "%s: line %llu: target '%s' has more than %u classes; raise --max-classes "
+                     "or use --task regress",
+                     path, (unsigned long long)line, run->opt.target, run->opt.max_classes);
+            return SCAN_ERR_INPUT;
+        }
+        /* A numeric target: it continues as a regression target. */
+        if (flush_lanes(sc) != 0 || summary_drop_classes(w) != 0 || summary_drop_classes(run) != 0) {
+            snprintf(sc->err, sc->errlen, "out of memory");
+            return SCAN_ERR_MEMORY;
+        }
+        r = 0;
+        sc->row_cell[r] = sc->row_class[r] = sc->row_has_y[r] = 0;
+    }
+    if (finite) {
+        if (!tc->mom.has_ref) moments_set_ref(&tc->mom, &d);
+        sc->row_cell[r] = summary_target_cell(d.value);
+        sc->row_y[r] = number_difference(&d, &tc->mom.ref, NULL);
+        sc->row_has_y[r] = 1;
+    }
+    return SCAN_OK;
 }
 
 /* Splits a comma list; returns the count or -1 on OOM.  *items points into *buf. */
@@ -220,14 +355,45 @@ static scan_status setup(scanner *sc, char **names, size_t nnames)
         field_of[n] = (int)f;
         n++;
     }
-    sc->run = summary_create(&o->opt, n, cols, modes);
+    if (o->opt.target) {
+        size_t t = 0;
+        while (t < n && strcmp(cols[t], o->opt.target) != 0) t++;
+        if (t == n) {
+            snprintf(sc->err, sc->errlen, "--target: no column named '%s' %s", o->opt.target,
+                     in_list(ign, nign, o->opt.target) || nsel > 0 ? "among the scanned columns"
+                                                                   : "in the header");
+            st = SCAN_ERR_USAGE;
+            goto done;
+        }
+    }
+    size_t ncomo = 0;
+    for (size_t j = 0; j < n; j++) ncomo += modes[j] != COLUMN_CATEGORICAL;
+    uint64_t need = summary_comoment_bytes(ncomo);
+    if (o->mem_limit_bytes && need > o->mem_limit_bytes) {
+        snprintf(sc->err, sc->errlen,
+                 "the co-moment matrix of %zu numeric columns needs %.0f MiB, above the %.0f MiB "
+                 "limit (--mem); restrict the columns with --columns, --ignore or --categorical, "
+                 "or raise --mem",
+                 ncomo, need / 1048576.0, o->mem_limit_bytes / 1048576.0);
+        st = SCAN_ERR_MEMORY;
+        goto done;
+    }
+    sc->run = summary_create(&o->opt, n, cols, modes, 1);
     sc->work = sc->run ? summary_clone_empty(sc->run) : NULL;
+    if (sc->run) {
+        size_t cells = (sc->run->ncomo ? sc->run->ncomo : 1) * SUMMARY_BLOCK_ROWS;
+        sc->como_x = malloc(cells * sizeof *sc->como_x);
+        sc->como_mask = malloc(cells * sizeof *sc->como_mask);
+        sc->como_center = malloc((sc->run->ncomo + 1) * sizeof *sc->como_center);
+        sc->como_complete = malloc(sc->run->ncomo + 1);
+    }
     sc->lanes = calloc(n ? n : 1, sizeof *sc->lanes);
     sc->file_fields = nnames;
     /* Keep the first record's fields: without a header it is data. */
     csv_field *fields = realloc(sc->fields, (nnames + 1) * sizeof *fields);
     if (fields) sc->fields = fields;
-    if (!sc->run || !sc->work || !sc->lanes || !fields) {
+    if (!sc->run || !sc->work || !sc->lanes || !fields || !sc->como_x || !sc->como_mask ||
+        !sc->como_center || !sc->como_complete) {
         snprintf(sc->err, sc->errlen, "out of memory");
         st = SCAN_ERR_MEMORY;
         goto done;
@@ -235,12 +401,14 @@ static scan_status setup(scanner *sc, char **names, size_t nnames)
     for (size_t j = 0; j < n; j++) {
         lane *l = &sc->lanes[j];
         l->field = field_of[j];
-        l->hash = malloc(SCAN_BLOCK_ROWS * sizeof *l->hash);
-        l->text = malloc(SCAN_BLOCK_ROWS * sizeof *l->text);
-        l->len = malloc(SCAN_BLOCK_ROWS * sizeof *l->len);
-        l->dev = malloc(SCAN_BLOCK_ROWS * sizeof *l->dev);
-        l->val = malloc(SCAN_BLOCK_ROWS * sizeof *l->val);
-        if (!l->hash || !l->text || !l->len || !l->dev || !l->val) {
+        l->hash = malloc(SUMMARY_BLOCK_ROWS * sizeof *l->hash);
+        l->text = malloc(SUMMARY_BLOCK_ROWS * sizeof *l->text);
+        l->len = malloc(SUMMARY_BLOCK_ROWS * sizeof *l->len);
+        l->cell_row = malloc(SUMMARY_BLOCK_ROWS * sizeof *l->cell_row);
+        l->dev = malloc(SUMMARY_BLOCK_ROWS * sizeof *l->dev);
+        l->val = malloc(SUMMARY_BLOCK_ROWS * sizeof *l->val);
+        l->num_row = malloc(SUMMARY_BLOCK_ROWS * sizeof *l->num_row);
+        if (!l->hash || !l->text || !l->len || !l->cell_row || !l->dev || !l->val || !l->num_row) {
             snprintf(sc->err, sc->errlen, "out of memory");
             st = SCAN_ERR_MEMORY;
             goto done;
@@ -317,13 +485,15 @@ static scan_status ragged(scanner *sc, const char *path, uint64_t line, size_t n
     return SCAN_OK;
 }
 
-/* Tokenizes one chunk into the chunk-local set and merges it. */
+/* Tokenizes one chunk into the chunk-local set and merges it.  Records that
+ * start at or after sc->stop_at (relative to the source's first byte; 0 = no
+ * limit) end the source: *done is set. */
 static scan_status process_chunk(scanner *sc, const char *path, chunk *ch, int *at_first,
-                                 uint64_t *rows)
+                                 uint64_t *rows, int *done)
 {
     char *data = ch->data;
     size_t len = ch->len;
-    if (ch->offset == 0) {
+    if (ch->offset == 0 && sc->at_file_start) {
         size_t bom = csv_bom_length(data, len);
         data += bom;
         len -= bom;
@@ -355,6 +525,11 @@ static scan_status process_chunk(scanner *sc, const char *path, chunk *ch, int *
         }
         uint64_t line = sc->line_base + r.record_line + 1;
         if (cs == CSV_END) break;
+        if (sc->stop_at && !*at_first &&
+            ch->offset + (uint64_t)(r.record_start - ch->data) >= sc->stop_at) {
+            *done = 1;
+            break;
+        }
         if (cs == CSV_UNTERMINATED) {
             snprintf(sc->err, sc->errlen,
                      "%s: line %llu: unterminated quote (a quoted field runs to the end of the "
@@ -368,6 +543,7 @@ static scan_status process_chunk(scanner *sc, const char *path, chunk *ch, int *
             if (st != SCAN_OK) return st;
             *at_first = 0;
             maxf = sc->file_fields + 1;
+            if (sc->header_only) { *done = 1; break; }
             if (is_header) continue;
         }
         summary *w = sc->work;
@@ -377,13 +553,20 @@ static scan_status process_chunk(scanner *sc, const char *path, chunk *ch, int *
             scan_status st = ragged(sc, path, line, nf);
             if (st != SCAN_OK) return st;
         }
+        if (w->target >= 0) {
+            size_t fi = (size_t)sc->lanes[w->target].field;
+            scan_status st = target_cell(sc, path, line, fi < nf ? sc->fields[fi].ptr : NULL,
+                                         fi < nf ? sc->fields[fi].len : 0);
+            if (st != SCAN_OK) return st;
+        }
         for (size_t j = 0; j < w->ncols; j++) {
             size_t fi = (size_t)sc->lanes[j].field;
             if (fi >= nf) { w->cols[j].missing++; continue; }
-            if (cell(sc, j, sc->fields[fi].ptr, sc->fields[fi].len) != 0) {
-                snprintf(sc->err, sc->errlen, "out of memory");
-                return SCAN_ERR_MEMORY;
-            }
+            cell(sc, j, sc->fields[fi].ptr, sc->fields[fi].len);
+        }
+        if (++sc->block_rows == SUMMARY_BLOCK_ROWS && flush_lanes(sc) != 0) {
+            snprintf(sc->err, sc->errlen, "out of memory");
+            return SCAN_ERR_MEMORY;
         }
     }
     sc->line_base += r.lines;
@@ -402,31 +585,36 @@ static scan_status process_chunk(scanner *sc, const char *path, chunk *ch, int *
     return SCAN_OK;
 }
 
-static scan_status scan_source(scanner *sc, chunker *ck, const char *path)
+/* Reads one source from byte `from` (0: the whole file, header first).  With
+ * sc->header_only, stops after the first record. */
+static scan_status scan_source(scanner *sc, chunker *ck, const char *path, uint64_t from)
 {
-    source *src = source_open(path, sc->err, sc->errlen);
+    source *src = from ? source_open_at(path, from, sc->err, sc->errlen)
+                       : source_open(path, sc->err, sc->errlen);
     if (!src) return SCAN_ERR_INPUT;
     chunker_start(ck, src);
+    if (sc->stop_at) chunker_set_limit(ck, sc->stop_at);
     sc->line_base = 0;
-    int at_first = 1;
+    sc->at_file_start = from == 0;
+    int at_first = from == 0, done = 0;
     uint64_t rows = 0;
     scan_status st = SCAN_OK;
-    for (;;) {
+    while (!done) {
         chunk ch;
         int rc = chunker_next(ck, &ch, sc->err, sc->errlen);
         if (rc < 0) { st = SCAN_ERR_INPUT; break; }
         if (rc == 0) break;
-        st = process_chunk(sc, path, &ch, &at_first, &rows);
+        st = process_chunk(sc, path, &ch, &at_first, &rows, &done);
         if (st != SCAN_OK) break;
         if (sc->o->progress)
-            sc->o->progress(sc->o->progress_ctx, sc->done_bytes + source_raw_offset(src),
+            sc->o->progress(sc->o->progress_ctx, sc->done_bytes + source_raw_offset(src) - from,
                             sc->total_bytes);
     }
     if (st == SCAN_OK && at_first && !sc->run) {
         snprintf(sc->err, sc->errlen, "%s: no records (empty input)", path);
         st = SCAN_ERR_INPUT;
     }
-    if (st == SCAN_OK) {
+    if (st == SCAN_OK && !sc->header_only) {
         summary_source rec;
         memset(&rec, 0, sizeof rec);
         rec.path = (char *)path;
@@ -434,7 +622,9 @@ static scan_status scan_source(scanner *sc, chunker *ck, const char *path)
         rec.size_bytes = source_raw_size(src);
         rec.mtime = source_mtime(src);
         rec.fingerprint = source_fingerprint(src);
-        rec.raw_bytes = source_raw_offset(src);
+        rec.raw_bytes = source_raw_offset(src) - from;
+        rec.start_byte = sc->shard_start;
+        rec.end_byte = sc->shard_end;
         rec.rows = rows;
         if (summary_add_source(sc->run, &rec) != 0) {
             snprintf(sc->err, sc->errlen, "out of memory");
@@ -444,6 +634,59 @@ static scan_status scan_source(scanner *sc, chunker *ck, const char *path)
     }
     source_close(src);
     return st;
+}
+
+/* --shard I/N of one plain file: the header from byte 0, then the records
+ * that start in [size (I-1)/N, size I/N). */
+static scan_status scan_shard(scanner *sc, chunker *ck, const char *path)
+{
+    const scan_options *o = sc->o;
+    struct stat st;
+    if (strcmp(path, "-") == 0 || stat(path, &st) != 0 || !S_ISREG(st.st_mode)) {
+        snprintf(sc->err, sc->errlen, "%s: --shard needs a regular file (not a pipe)", path);
+        return SCAN_ERR_USAGE;
+    }
+    uint64_t size = (uint64_t)st.st_size;
+    uint64_t lo = size * (o->shard_index - 1) / o->shard_count;
+    uint64_t hi = size * o->shard_index / o->shard_count;
+    sc->shard_start = lo;
+    sc->shard_end = hi ? hi : 1;
+    /* The header, and a check that the file is plain. */
+    source *probe = source_open(path, sc->err, sc->errlen);
+    if (!probe) return SCAN_ERR_INPUT;
+    source_format kind = source_kind(probe);
+    source_close(probe);
+    if (kind != SOURCE_PLAIN) {
+        snprintf(sc->err, sc->errlen,
+                 "%s: --shard needs an uncompressed file, this one is %s; split the data into "
+                 "several compressed files instead and scan each as a shard",
+                 path, source_format_name(kind));
+        return SCAN_ERR_USAGE;
+    }
+    uint64_t first = 0;
+    if (lo > 0) {
+        sc->header_only = 1;
+        scan_status hs = scan_source(sc, ck, path, 0);
+        sc->header_only = 0;
+        if (hs != SCAN_OK) return hs;
+        if (chunk_find_record_start(path, lo, &first, sc->err, sc->errlen) != 0)
+            return SCAN_ERR_INPUT;
+    }
+    if (first >= hi && lo > 0) {
+        /* No record starts in this range: an empty shard. */
+        summary_source rec;
+        memset(&rec, 0, sizeof rec);
+        rec.path = (char *)path;
+        snprintf(rec.format, sizeof rec.format, "plain");
+        rec.size_bytes = size;
+        rec.mtime = (int64_t)st.st_mtime;
+        rec.fingerprint = XXH3_64bits(NULL, 0);
+        rec.start_byte = lo;
+        rec.end_byte = sc->shard_end;
+        return summary_add_source(sc->run, &rec) == 0 ? SCAN_OK : SCAN_ERR_MEMORY;
+    }
+    sc->stop_at = hi - first;
+    return scan_source(sc, ck, path, first);
 }
 
 scan_status scan_files(const scan_options *o, const char *const *paths, size_t npaths,
@@ -470,12 +713,22 @@ scan_status scan_files(const scan_options *o, const char *const *paths, size_t n
     scan_status st = SCAN_OK;
     chunker *ck = chunker_create(o->chunk_bytes, o->max_record_bytes);
     if (!ck) { snprintf(err, errlen, "out of memory"); st = SCAN_ERR_MEMORY; }
-    for (size_t i = 0; st == SCAN_OK && i < npaths; i++) st = scan_source(&sc, ck, paths[i]);
+    if (o->shard_count) {
+        if (npaths != 1) {
+            snprintf(err, errlen, "--shard reads exactly one file (got %zu)", npaths);
+            st = SCAN_ERR_USAGE;
+        } else if (st == SCAN_OK) {
+            st = scan_shard(&sc, ck, paths[0]);
+        }
+    }
+    for (size_t i = 0; !o->shard_count && st == SCAN_OK && i < npaths; i++)
+        st = scan_source(&sc, ck, paths[i], 0);
     chunker_free(ck);
     if (sc.lanes)
         for (size_t j = 0; sc.work && j < sc.work->ncols; j++) {
             lane *l = &sc.lanes[j];
-            free(l->hash); free(l->text); free(l->len); free(l->dev); free(l->val);
+            free(l->hash); free(l->text); free(l->len); free(l->cell_row);
+            free(l->dev); free(l->val); free(l->num_row);
         }
     free(sc.lanes);
     free(sc.fields);
@@ -483,6 +736,10 @@ scan_status scan_files(const scan_options *o, const char *const *paths, size_t n
         for (size_t i = 0; i < sc.file_fields; i++) free(sc.header[i]);
     free(sc.header);
     free(sc.first_path);
+    free(sc.como_x);
+    free(sc.como_mask);
+    free(sc.como_center);
+    free(sc.como_complete);
     summary_free(sc.work);
     if (st == SCAN_OK) *out = sc.run;
     else summary_free(sc.run);

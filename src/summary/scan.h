@@ -4,7 +4,7 @@
  * tokenized (io/csv) into a chunk-local accumulator set, which is merged into
  * the running summary and reset.  Numeric cells are parsed by io/number and
  * enter the moments as exact decimal deviations from the column's first
- * value, in blocks of SCAN_BLOCK_ROWS.  Nothing is allocated per field or row.
+ * value, in blocks of SUMMARY_BLOCK_ROWS rows.  Nothing is allocated per field or row.
  */
 #ifndef SHEAF_SCAN_H
 #define SHEAF_SCAN_H
@@ -14,7 +14,6 @@
 
 #include "summary/summary.h"
 
-#define SCAN_BLOCK_ROWS 256
 
 typedef enum {
     SCAN_OK = 0,
@@ -34,6 +33,9 @@ typedef struct {
     const char *numeric;      /* comma-separated names declared numeric */
     const char *categorical;  /* comma-separated names declared categorical */
     const char *ignore;       /* comma-separated names not scanned */
+    uint64_t mem_limit_bytes; /* refuse when the co-moment matrix needs more (0: none) */
+    uint32_t shard_index;     /* --shard I/N: I (1-based) */
+    uint32_t shard_count;     /* N, 0 = the whole input */
     /* Called after every chunk: raw bytes done and total (0 if unknown). */
     void (*progress)(void *ctx, uint64_t done_bytes, uint64_t total_bytes);
     void *progress_ctx;

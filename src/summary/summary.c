@@ -28,6 +28,8 @@ static const uint8_t MAGIC[8] = {0x89, 'S', 'H', 'F', 0x0d, 0x0a, 0x1a, 0x0a};
 #define TAG_SOURCES TAG('S', 'R', 'C', 'S')
 #define TAG_TABLE TAG('T', 'A', 'B', 'L')
 #define TAG_COLUMNS TAG('C', 'O', 'L', 'S')
+#define TAG_TARGET TAG('T', 'R', 'G', 'T')
+#define TAG_COMOMENTS TAG('C', 'O', 'M', 'O')
 #define TAG_END TAG('E', 'N', 'D', '.')
 
 #define MAX_NAME_BYTES 65536
@@ -43,27 +45,32 @@ void summary_options_defaults(summary_options *o)
     o->bucket_budget = 2048;
     o->n_missing = sizeof DEFAULT_MISSING / sizeof *DEFAULT_MISSING;
     for (uint32_t i = 0; i < o->n_missing; i++) o->missing[i] = strdup(DEFAULT_MISSING[i]);
+    o->max_classes = 256;
 }
 
 void summary_options_free(summary_options *o)
 {
     for (uint32_t i = 0; i < o->n_missing; i++) free(o->missing[i]);
     o->n_missing = 0;
+    free(o->target);
+    o->target = NULL;
 }
 
 int summary_options_copy(summary_options *dst, const summary_options *src)
 {
     *dst = *src;
+    dst->target = NULL;
     for (uint32_t i = 0; i < src->n_missing; i++) {
         dst->missing[i] = strdup(src->missing[i]);
         if (!dst->missing[i]) { dst->n_missing = i; return -1; }
     }
+    if (src->target && !(dst->target = strdup(src->target))) return -1;
     return 0;
 }
 
 /* ---- accumulator set ---------------------------------------------------- */
 
-static int column_alloc(summary_column *c, const summary_options *o)
+static int column_alloc(summary_column *c, const summary_options *o, int with_classes)
 {
     moments_init(&c->mom);
     c->vals = values_create(o->max_levels, o->label_bytes);
@@ -71,6 +78,14 @@ static int column_alloc(summary_column *c, const summary_options *o)
     c->bins = buckets_create(o->bucket_budget);
     if (!c->vals || !c->distinct || !c->bins) return -1;
     hll_init(c->distinct);
+    if (o->target) {
+        c->cross = crosstab_create(o->max_levels);
+        if (!c->cross) return -1;
+    }
+    if (with_classes) {
+        c->cls = calloc(o->max_classes, sizeof *c->cls);
+        if (!c->cls) return -1;
+    }
     return 0;
 }
 
@@ -80,23 +95,94 @@ static void column_free(summary_column *c)
     values_free(c->vals);
     free(c->distinct);
     buckets_free(c->bins);
+    crosstab_free(c->cross);
+    free(c->cls);
+}
+
+uint64_t summary_comoment_bytes(size_t ncomo)
+{
+    return comoment_bytes(ncomo, SUMMARY_BLOCK_ROWS);
+}
+
+static int class_reserve(summary *s, uint32_t need)
+{
+    if (need <= s->class_cap) return 0;
+    uint32_t cap = s->class_cap ? s->class_cap * 2 : 8;
+    while (cap < need) cap *= 2;
+    uint64_t *h = realloc(s->class_hash, cap * sizeof *h);
+    if (h) s->class_hash = h;
+    char **l = realloc(s->class_label, cap * sizeof *l);
+    if (l) s->class_label = l;
+    uint64_t *r = realloc(s->class_rows, cap * sizeof *r);
+    if (r) s->class_rows = r;
+    number_decimal *d = realloc(s->class_dec, cap * sizeof *d);
+    if (d) s->class_dec = d;
+    unsigned char *n = realloc(s->class_numeric, cap);
+    if (n) s->class_numeric = n;
+    if (!h || !l || !r || !d || !n) return -1;
+    s->class_cap = cap;
+    return 0;
+}
+
+uint32_t summary_target_cell(double y)
+{
+    return SUMMARY_TARGET_CELL_BASE +
+           (uint32_t)(int32_t)buckets_key_at(buckets_key(y), SUMMARY_TARGET_LEVEL);
+}
+
+uint32_t summary_class_of(summary *s, uint64_t h, const char *text, size_t len,
+                          const number_decimal *dec)
+{
+    for (uint32_t c = 0; c < s->nclasses; c++)
+        if (s->class_hash[c] == h) return c + 1;
+    if (s->nclasses >= s->opt.max_classes || class_reserve(s, s->nclasses + 1) != 0) return 0;
+    char *label = malloc(len + 1);
+    if (!label) return 0;
+    memcpy(label, text, len);
+    label[len] = '\0';
+    uint32_t c = s->nclasses++;
+    s->class_hash[c] = h;
+    s->class_label[c] = label;
+    s->class_rows[c] = 0;
+    s->class_numeric[c] = dec != NULL;
+    if (dec) s->class_dec[c] = *dec;
+    else memset(&s->class_dec[c], 0, sizeof s->class_dec[c]);
+    return c + 1;
 }
 
 summary *summary_create(const summary_options *opt, size_t ncols, char *const *names,
-                        const column_mode *modes)
+                        const column_mode *modes, int with_comoments)
 {
     summary *s = calloc(1, sizeof *s);
     if (!s) return NULL;
+    s->target = -1;
     if (summary_options_copy(&s->opt, opt) != 0) goto fail;
+    if (opt->target) {
+        for (size_t i = 0; i < ncols && s->target < 0; i++)
+            if (strcmp(names[i], opt->target) == 0) s->target = (int)i;
+        if (s->target < 0) goto fail;
+        s->has_classes = opt->task != TASK_REGRESS;
+    }
     s->cols = calloc(ncols ? ncols : 1, sizeof *s->cols);
-    if (!s->cols) goto fail;
+    s->como_of = calloc(ncols ? ncols : 1, sizeof *s->como_of);
+    s->como_col = calloc(ncols ? ncols : 1, sizeof *s->como_col);
+    if (!s->cols || !s->como_of || !s->como_col) goto fail;
     s->ncols = ncols;
     for (size_t i = 0; i < ncols; i++) {
         summary_column *c = &s->cols[i];
         c->name = strdup(names[i]);
         c->mode = modes ? modes[i] : COLUMN_AUTO;
-        if (!c->name || column_alloc(c, opt) != 0) goto fail;
+        if (!c->name || column_alloc(c, opt, s->has_classes) != 0) goto fail;
+        s->como_of[i] = -1;
+        if (c->mode != COLUMN_CATEGORICAL) {
+            s->como_of[i] = (int)s->ncomo;
+            s->como_col[s->ncomo++] = i;
+        }
     }
+    s->como_ref = calloc(s->ncomo ? s->ncomo : 1, sizeof *s->como_ref);
+    s->como_ref_set = calloc(s->ncomo ? s->ncomo : 1, 1);
+    if (!s->como_ref || !s->como_ref_set) goto fail;
+    if (with_comoments && !(s->como = comoment_create(s->ncomo, SUMMARY_BLOCK_ROWS))) goto fail;
     return s;
 fail:
     summary_free(s);
@@ -113,7 +199,7 @@ summary *summary_clone_empty(const summary *s)
             names[i] = s->cols[i].name;
             modes[i] = s->cols[i].mode;
         }
-        c = summary_create(&s->opt, s->ncols, names, modes);
+        c = summary_create(&s->opt, s->ncols, names, modes, 0);
     }
     free(names);
     free(modes);
@@ -127,6 +213,17 @@ void summary_free(summary *s)
     free(s->cols);
     for (size_t i = 0; i < s->nsources; i++) free(s->sources[i].path);
     free(s->sources);
+    for (uint32_t c = 0; c < s->nclasses; c++) free(s->class_label[c]);
+    free(s->class_hash);
+    free(s->class_label);
+    free(s->class_rows);
+    free(s->class_dec);
+    free(s->class_numeric);
+    free(s->como_col);
+    free(s->como_of);
+    comoment_free(s->como);
+    free(s->como_ref);
+    free(s->como_ref_set);
     summary_options_free(&s->opt);
     free(s);
 }
@@ -140,8 +237,14 @@ void summary_reset(summary *s)
         values_reset(c->vals);
         hll_init(c->distinct);
         buckets_reset(c->bins);
+        if (c->cross) crosstab_reset(c->cross);
+        if (c->cls) memset(c->cls, 0, s->opt.max_classes * sizeof *c->cls);
         c->n_examples = 0;
     }
+    for (uint32_t c = 0; c < s->nclasses; c++) s->class_rows[c] = 0;
+    s->target_text = 0;
+    if (s->como) comoment_reset(s->como);
+    memset(s->como_ref_set, 0, s->ncomo ? s->ncomo : 1);
     s->rows = s->bytes = s->short_rows = s->long_rows = 0;
     s->n_bad_lines = 0;
 }
@@ -156,6 +259,54 @@ int summary_add_source(summary *s, const summary_source *src)
     if (!p[s->nsources].path) return -1;
     s->nsources++;
     return 0;
+}
+
+/* The target's frame (its moments reference); NULL when it has none. */
+static const number_decimal *target_frame(const summary *s)
+{
+    if (s->target < 0 || !s->cols[s->target].mom.has_ref) return NULL;
+    return &s->cols[s->target].mom.ref;
+}
+
+int summary_drop_classes(summary *s)
+{
+    if (!s->has_classes) return 0;
+    for (uint32_t c = 0; c < s->nclasses; c++)
+        if (!s->class_numeric[c]) return -1; /* a text target cannot become numeric */
+    uint32_t k = s->nclasses;
+    uint32_t *map = malloc((k + 1) * sizeof *map);
+    double *y = malloc((k + 1) * sizeof *y);
+    if (!map || !y) { free(map); free(y); return -1; }
+    const number_decimal *frame = target_frame(s);
+    map[0] = 0;
+    y[0] = 0;
+    for (uint32_t c = 0; c < k; c++) {
+        map[c + 1] = summary_target_cell(s->class_dec[c].value);
+        y[c + 1] = frame ? number_difference(&s->class_dec[c], frame, NULL) : s->class_dec[c].value;
+    }
+    int rc = 0;
+    for (size_t i = 0; i < s->ncols && rc == 0; i++) {
+        summary_column *col = &s->cols[i];
+        buckets *nb = buckets_create(s->opt.bucket_budget);
+        if (!nb || buckets_merge(nb, col->bins, map, k + 1) != 0) { buckets_free(nb); rc = -1; break; }
+        buckets_free(col->bins);
+        col->bins = nb;
+        if (col->cross) {
+            crosstab *nx = crosstab_counts_to_values(col->cross, y, k + 1);
+            if (!nx) { rc = -1; break; }
+            crosstab_free(col->cross);
+            col->cross = nx;
+        }
+        free(col->cls);
+        col->cls = NULL;
+    }
+    free(map);
+    free(y);
+    if (rc == 0) {
+        s->has_classes = 0;
+        s->classes_dropped = 1;
+    }
+    return rc;
 }
 
 /* ---- compatibility and merge -------------------------------------------- */
@@ -204,15 +355,94 @@ int summary_compatible(const summary *a, const summary *b, char *msg, size_t msg
     for (uint32_t i = 0; same_missing && i < a->opt.n_missing; i++)
         same_missing = strcmp(a->opt.missing[i], b->opt.missing[i]) == 0;
     if (!same_missing) add_diff(msg, msglen, &used, "different missing-value lists");
+    const char *ta = a->opt.target ? a->opt.target : "(none)";
+    const char *tb = b->opt.target ? b->opt.target : "(none)";
+    if (strcmp(ta, tb) != 0) add_diff(msg, msglen, &used, "target '%s' vs '%s'", ta, tb);
+    static const char *tasks[] = {"auto", "classify", "regress"};
+    if (a->opt.task != b->opt.task)
+        add_diff(msg, msglen, &used, "task %s vs %s", tasks[a->opt.task], tasks[b->opt.task]);
+    if (a->opt.max_classes != b->opt.max_classes)
+        add_diff(msg, msglen, &used, "max classes %u vs %u", a->opt.max_classes, b->opt.max_classes);
     return used == 0;
 }
 
-summary_status summary_merge(summary *into, const summary *from, char *err, size_t errlen)
+/* Maps from's classes onto into's (adding new ones).  Returns 0, 1 when
+ * into would pass max_classes, -1 on OOM. */
+static int map_classes(summary *into, const summary *from, uint32_t *map)
+{
+    map[0] = 0;
+    for (uint32_t c = 0; c < from->nclasses; c++) {
+        const number_decimal *dec = from->class_numeric[c] ? &from->class_dec[c] : NULL;
+        uint32_t k = summary_class_of(into, from->class_hash[c], from->class_label[c],
+                                      strlen(from->class_label[c]), dec);
+        if (k == 0) return into->nclasses >= into->opt.max_classes ? 1 : -1;
+        map[c + 1] = k;
+    }
+    return 0;
+}
+
+/* Combines two class moments; shift = from's frame minus into's. */
+static void class_merge(class_moments *a, const class_moments *b, double shift)
+{
+    if (b->n == 0) return;
+    if (a->n == 0) { *a = *b; a->mean += shift; return; }
+    double na = (double)a->n, nb = (double)b->n, n = na + nb, d = b->mean + shift - a->mean;
+    a->mean += d * nb / n;
+    a->m2 += b->m2 + d * d * na * nb / n;
+    a->n += b->n;
+}
+
+static summary_status merge_fail(char *err, size_t errlen, const char *what)
+{
+    snprintf(err, errlen, "%s", what);
+    return SUMMARY_ERR_MEMORY;
+}
+
+summary_status summary_merge(summary *into, summary *from, char *err, size_t errlen)
 {
     if (!summary_compatible(into, from, err, errlen)) return SUMMARY_ERR_INCOMPATIBLE;
+    /* Classes: both kept, or neither (a side that dropped them wins). */
+    if (into->has_classes != from->has_classes) {
+        summary *keeper = into->has_classes ? into : from;
+        if (summary_drop_classes(keeper) != 0) {
+            snprintf(err, errlen, "target '%s': one summary has more than %u classes and the "
+                     "target is not numeric", into->opt.target, into->opt.max_classes);
+            return SUMMARY_ERR_INCOMPATIBLE;
+        }
+    }
+    uint32_t *map = NULL;
+    if (into->has_classes) {
+        map = malloc((from->nclasses + 1) * sizeof *map);
+        if (!map) return merge_fail(err, errlen, "out of memory while merging");
+        int rc = map_classes(into, from, map);
+        if (rc < 0) { free(map); return merge_fail(err, errlen, "out of memory while merging"); }
+        if (rc > 0) {
+            free(map);
+            map = NULL;
+            if (summary_drop_classes(into) != 0 || summary_drop_classes(from) != 0) {
+                snprintf(err, errlen, "target '%s': together the summaries have more than %u "
+                         "classes; rescan with a larger --max-classes or --task regress",
+                         into->opt.target, into->opt.max_classes);
+                return SUMMARY_ERR_INCOMPATIBLE;
+            }
+        }
+    }
+    int same_classes = map != NULL;
+    for (uint32_t c = 0; same_classes && c <= from->nclasses; c++) same_classes = map[c] == c;
+    /* Target frame shift for the regression tables. */
+    const number_decimal *fa = target_frame(into), *fb = target_frame(from);
+    double yshift = fa && fb ? number_difference(fb, fa, NULL) : 0;
     for (size_t i = 0; i < into->ncols; i++) {
         summary_column *a = &into->cols[i];
         const summary_column *b = &from->cols[i];
+        /* Column frame shift (before the moments merge sets a's reference). */
+        double shift = a->mom.has_ref && b->mom.has_ref ? number_difference(&b->mom.ref, &a->mom.ref, NULL) : 0;
+        if (a->cls && b->cls) {
+            /* A chunk-local set numbers classes like the running one (same_classes). */
+            uint32_t k = same_classes ? into->opt.max_classes : from->nclasses;
+            for (uint32_t c = 0; c < k; c++)
+                class_merge(&a->cls[same_classes ? c : map[c + 1] - 1], &b->cls[c], shift);
+        }
         a->missing += b->missing;
         a->non_numeric += b->non_numeric;
         a->non_finite += b->non_finite;
@@ -220,9 +450,13 @@ summary_status summary_merge(summary *into, const summary *from, char *err, size
         a->integers += b->integers;
         moments_merge(&a->mom, &b->mom);
         hll_merge(a->distinct, b->distinct);
-        if (values_merge(a->vals, b->vals) != 0 || buckets_merge(a->bins, b->bins, NULL, 0) != 0) {
-            snprintf(err, errlen, "out of memory while merging");
-            return SUMMARY_ERR_MEMORY;
+        uint32_t mlen = map ? from->nclasses + 1 : 0;
+        if (values_merge(a->vals, b->vals) != 0 ||
+            buckets_merge(a->bins, b->bins, same_classes ? NULL : map, mlen) != 0 ||
+            (a->cross && b->cross &&
+             crosstab_merge(a->cross, b->cross, same_classes ? NULL : map, mlen, yshift) != 0)) {
+            free(map);
+            return merge_fail(err, errlen, "out of memory while merging");
         }
         for (uint32_t e = 0; e < b->n_examples && a->n_examples < SUMMARY_EXAMPLES; e++) {
             int dup = 0;
@@ -231,6 +465,28 @@ summary_status summary_merge(summary *into, const summary *from, char *err, size
             if (!dup) memcpy(a->examples[a->n_examples++], b->examples[e], SUMMARY_EXAMPLE_BYTES + 1);
         }
     }
+    if (map)
+        for (uint32_t c = 0; c < from->nclasses; c++) into->class_rows[map[c + 1] - 1] += from->class_rows[c];
+    free(map);
+    into->classes_dropped |= from->classes_dropped;
+    into->target_text += from->target_text;
+    /* Co-moments: shift from's frame into into's. */
+    if (into->como && from->como) {
+        double *shift = calloc(into->ncomo ? into->ncomo : 1, sizeof *shift);
+        if (!shift) return merge_fail(err, errlen, "out of memory while merging");
+        for (size_t k = 0; k < into->ncomo; k++) {
+            if (!from->como_ref_set[k]) continue;
+            if (!into->como_ref_set[k]) {
+                into->como_ref[k] = from->como_ref[k];
+                into->como_ref_set[k] = 1;
+            } else {
+                shift[k] = number_difference(&from->como_ref[k], &into->como_ref[k], NULL);
+            }
+        }
+        int rc = comoment_merge(into->como, from->como, shift);
+        free(shift);
+        if (rc != 0) return merge_fail(err, errlen, "out of memory while merging");
+    }
     into->rows += from->rows;
     into->bytes += from->bytes;
     into->short_rows += from->short_rows;
@@ -238,10 +494,8 @@ summary_status summary_merge(summary *into, const summary *from, char *err, size
     for (uint32_t i = 0; i < from->n_bad_lines && into->n_bad_lines < SUMMARY_BAD_LINES; i++)
         into->bad_lines[into->n_bad_lines++] = from->bad_lines[i];
     for (size_t i = 0; i < from->nsources; i++)
-        if (summary_add_source(into, &from->sources[i]) != 0) {
-            snprintf(err, errlen, "out of memory while merging");
-            return SUMMARY_ERR_MEMORY;
-        }
+        if (summary_add_source(into, &from->sources[i]) != 0)
+            return merge_fail(err, errlen, "out of memory while merging");
     return SUMMARY_OK;
 }
 
@@ -260,6 +514,21 @@ column_kind summary_column_kind(const summary_column *c, double numeric_share)
     if (present == 0) return KIND_NUMERIC;
     double share = (double)(c->mom.n + c->non_finite) / (double)present;
     return share >= numeric_share ? KIND_NUMERIC : KIND_CATEGORICAL;
+}
+
+target_task summary_target_task(const summary *s, double numeric_share)
+{
+    if (s->target < 0) return TASK_AUTO;
+    if (s->opt.task != TASK_AUTO) return s->opt.task;
+    if (!s->has_classes) return TASK_REGRESS;
+    if (summary_column_kind(&s->cols[s->target], numeric_share) == KIND_CATEGORICAL)
+        return TASK_CLASSIFY;
+    if (s->nclasses > SUMMARY_CLASSIFY_MAX_INTEGERS) return TASK_REGRESS;
+    for (uint32_t c = 0; c < s->nclasses; c++) {
+        double v = s->class_dec[c].value;
+        if (!s->class_numeric[c] || v != nearbyint(v)) return TASK_REGRESS;
+    }
+    return TASK_CLASSIFY;
 }
 
 double summary_column_distinct(const summary_column *c, int *exact)
@@ -287,11 +556,62 @@ static void encode_schema(const summary *s, wire_writer *w)
     wire_put_u32(w, s->opt.n_missing);
     for (uint32_t i = 0; i < s->opt.n_missing; i++)
         wire_put_str(w, s->opt.missing[i], strlen(s->opt.missing[i]));
+    const char *t = s->opt.target ? s->opt.target : "";
+    wire_put_str(w, t, strlen(t));
+    wire_put_u8(w, (uint8_t)s->opt.task);
+    wire_put_u32(w, s->opt.max_classes);
     wire_put_u64(w, s->ncols);
     for (size_t i = 0; i < s->ncols; i++) {
         wire_put_str(w, s->cols[i].name, strlen(s->cols[i].name));
         wire_put_u8(w, (uint8_t)s->cols[i].mode);
     }
+}
+
+static void put_decimal(wire_writer *w, const number_decimal *d)
+{
+    wire_put_f64(w, d->value);
+    wire_put_u64(w, d->mantissa);
+    wire_put_i64(w, d->exp10);
+    wire_put_u8(w, d->negative);
+    wire_put_u8(w, d->exact);
+}
+
+static void get_decimal(wire_reader *r, number_decimal *d)
+{
+    d->value = wire_get_f64(r);
+    d->mantissa = wire_get_u64(r);
+    int64_t e = wire_get_i64(r);
+    if (e < INT32_MIN || e > INT32_MAX) r->failed = 1;
+    d->exp10 = (int32_t)e;
+    d->negative = wire_get_u8(r);
+    d->exact = wire_get_u8(r);
+    if (d->negative > 1 || d->exact > 1) r->failed = 1;
+}
+
+static void encode_target(const summary *s, wire_writer *w)
+{
+    wire_put_u8(w, (uint8_t)s->has_classes);
+    wire_put_u8(w, (uint8_t)s->classes_dropped);
+    wire_put_u64(w, s->target_text);
+    wire_put_u32(w, s->nclasses);
+    for (uint32_t c = 0; c < s->nclasses; c++) {
+        wire_put_u64(w, s->class_hash[c]);
+        wire_put_str(w, s->class_label[c], strlen(s->class_label[c]));
+        wire_put_u64(w, s->class_rows[c]);
+        wire_put_u8(w, s->class_numeric[c]);
+        put_decimal(w, &s->class_dec[c]);
+    }
+}
+
+static void encode_comoments(const summary *s, wire_writer *w)
+{
+    wire_put_u64(w, s->ncomo);
+    for (size_t k = 0; k < s->ncomo; k++) {
+        wire_put_u8(w, s->como_ref_set[k]);
+        put_decimal(w, &s->como_ref[k]);
+    }
+    wire_put_u8(w, s->como != NULL);
+    if (s->como) comoment_write(s->como, w);
 }
 
 static void encode_sources(const summary *s, wire_writer *w)
@@ -337,6 +657,15 @@ static void encode_columns(const summary *s, wire_writer *w)
         values_write(c->vals, w);
         hll_write(c->distinct, w);
         buckets_write(c->bins, w);
+        wire_put_u8(w, c->cross != NULL);
+        if (c->cross) crosstab_write(c->cross, w);
+        wire_put_u8(w, c->cls != NULL);
+        if (c->cls)
+            for (uint32_t k = 0; k < s->nclasses; k++) {
+                wire_put_u64(w, c->cls[k].n);
+                wire_put_f64(w, c->cls[k].mean);
+                wire_put_f64(w, c->cls[k].m2);
+            }
     }
 }
 
@@ -347,9 +676,11 @@ summary_status summary_encode(const summary *s, uint8_t **data, size_t *len)
     wire_put_bytes(&out, MAGIC, sizeof MAGIC);
     wire_put_u32(&out, SUMMARY_FORMAT_VERSION);
     void (*enc[])(const summary *, wire_writer *) = {encode_schema, encode_sources, encode_table,
-                                                      encode_columns};
-    const uint32_t tags[] = {TAG_SCHEMA, TAG_SOURCES, TAG_TABLE, TAG_COLUMNS};
-    for (int k = 0; k < 4; k++) {
+                                                      encode_target, encode_columns,
+                                                      encode_comoments};
+    const uint32_t tags[] = {TAG_SCHEMA,  TAG_SOURCES, TAG_TABLE,
+                             TAG_TARGET, TAG_COLUMNS, TAG_COMOMENTS};
+    for (int k = 0; k < 6; k++) {
         wire_writer_init(&part);
         enc[k](s, &part);
         if (part.failed) { wire_writer_free(&part); wire_writer_free(&out); return SUMMARY_ERR_MEMORY; }
@@ -395,6 +726,14 @@ static summary *decode_schema(wire_reader *r)
         o.missing[i] = dup_str(r, 1024);
         if (o.missing[i]) o.n_missing = i + 1;
     }
+    char *target = dup_str(r, MAX_NAME_BYTES);
+    if (target && *target) o.target = target;
+    else free(target);
+    uint8_t task = wire_get_u8(r);
+    if (task > TASK_REGRESS) r->failed = 1;
+    o.task = (target_task)task;
+    o.max_classes = wire_get_u32(r);
+    if (o.max_classes == 0 || o.max_classes > SUMMARY_MAX_CLASSES) r->failed = 1;
     uint64_t ncols = wire_get_u64(r);
     if (ncols > MAX_COLUMNS || !wire_need(r, ncols * 5)) r->failed = 1;
     summary *s = NULL;
@@ -412,7 +751,7 @@ static summary *decode_schema(wire_reader *r)
         modes[i] = (column_mode)m;
     }
     if (!r->failed) {
-        s = summary_create(&o, ncols, names, modes);
+        s = summary_create(&o, ncols, names, modes, 0); /* COMO section brings the matrix */
         if (!s) r->failed = 1;
     }
     if (names)
@@ -457,6 +796,53 @@ static void decode_table(summary *s, wire_reader *r)
     for (uint32_t i = 0; i < s->n_bad_lines; i++) s->bad_lines[i] = wire_get_u64(r);
 }
 
+static void decode_target(summary *s, wire_reader *r)
+{
+    uint8_t has = wire_get_u8(r), dropped = wire_get_u8(r);
+    s->target_text = wire_get_u64(r);
+    uint32_t n = wire_get_u32(r);
+    if (has > 1 || dropped > 1 || (has && s->target < 0) || n > s->opt.max_classes ||
+        (!has && n > 0) || (has && !s->has_classes)) {
+        r->failed = 1;
+        return;
+    }
+    if (!has && s->has_classes) {
+        /* Classes were dropped at scan time: free the per-class arrays. */
+        for (size_t i = 0; i < s->ncols; i++) { free(s->cols[i].cls); s->cols[i].cls = NULL; }
+        s->has_classes = 0;
+    }
+    s->classes_dropped = dropped;
+    for (uint32_t c = 0; c < n && !r->failed; c++) {
+        uint64_t h = wire_get_u64(r);
+        size_t len;
+        const char *label = wire_get_str(r, &len, 1 << 20);
+        uint64_t rows = wire_get_u64(r);
+        uint8_t numeric = wire_get_u8(r);
+        number_decimal d;
+        get_decimal(r, &d);
+        if (r->failed || numeric > 1) { r->failed = 1; return; }
+        uint32_t k = summary_class_of(s, h, label, len, numeric ? &d : NULL);
+        if (k != c + 1) { r->failed = 1; return; } /* duplicate class */
+        s->class_rows[c] = rows;
+    }
+}
+
+static void decode_comoments(summary *s, wire_reader *r)
+{
+    if (wire_get_u64(r) != s->ncomo) { r->failed = 1; return; }
+    for (size_t k = 0; k < s->ncomo && !r->failed; k++) {
+        s->como_ref_set[k] = wire_get_u8(r);
+        if (s->como_ref_set[k] > 1) r->failed = 1;
+        get_decimal(r, &s->como_ref[k]);
+    }
+    uint8_t present = wire_get_u8(r);
+    if (present != 1 || r->failed) { r->failed = 1; return; }
+    comoment *c = comoment_read(r, 0); /* read or merged, never fed blocks */
+    if (!c || comoment_columns(c) != s->ncomo) { comoment_free(c); r->failed = 1; return; }
+    comoment_free(s->como);
+    s->como = c;
+}
+
 static void decode_columns(summary *s, wire_reader *r)
 {
     for (size_t i = 0; i < s->ncols && !r->failed; i++) {
@@ -484,6 +870,21 @@ static void decode_columns(summary *s, wire_reader *r)
         if (!b) { r->failed = 1; break; }
         buckets_free(c->bins);
         c->bins = b;
+        uint8_t has_cross = wire_get_u8(r);
+        if (has_cross != (c->cross != NULL)) { r->failed = 1; break; }
+        if (has_cross) {
+            crosstab *x = crosstab_read(r);
+            if (!x) { r->failed = 1; break; }
+            crosstab_free(c->cross);
+            c->cross = x;
+        }
+        uint8_t has_cls = wire_get_u8(r);
+        if (has_cls != (c->cls != NULL)) { r->failed = 1; break; }
+        for (uint32_t k = 0; has_cls && k < s->nclasses; k++) {
+            c->cls[k].n = wire_get_u64(r);
+            c->cls[k].mean = wire_get_f64(r);
+            c->cls[k].m2 = wire_get_f64(r);
+        }
     }
 }
 
@@ -526,9 +927,10 @@ summary_status summary_decode(const uint8_t *data, size_t len, summary **out, ch
         snprintf(err, errlen, "unsupported summary format version %u", version);
         return SUMMARY_ERR_CORRUPT;
     }
-    const uint32_t want[] = {TAG_SCHEMA, TAG_SOURCES, TAG_TABLE, TAG_COLUMNS};
+    const uint32_t want[] = {TAG_SCHEMA, TAG_SOURCES, TAG_TABLE, TAG_TARGET, TAG_COLUMNS,
+                             TAG_COMOMENTS};
     summary *s = NULL;
-    for (int k = 0; k < 4; k++) {
+    for (int k = 0; k < 6; k++) {
         uint32_t tag = wire_get_u32(&r);
         uint64_t plen = wire_get_u64(&r);
         if (r.failed || tag != want[k] || plen > len - r.pos - 8 - 20) {
@@ -548,7 +950,9 @@ summary_status summary_decode(const uint8_t *data, size_t len, summary **out, ch
         if (k == 0) s = decode_schema(&p);
         else if (k == 1) decode_sources(s, &p);
         else if (k == 2) decode_table(s, &p);
-        else decode_columns(s, &p);
+        else if (k == 3) decode_target(s, &p);
+        else if (k == 4) decode_columns(s, &p);
+        else decode_comoments(s, &p);
         if (p.failed || p.pos != p.len || !s) {
             snprintf(err, errlen, "damaged summary (section %d does not parse)", k + 1);
             summary_free(s);

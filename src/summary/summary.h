@@ -17,6 +17,8 @@
 #include <stdint.h>
 
 #include "acc/buckets.h"
+#include "acc/comoment.h"
+#include "acc/crosstab.h"
 #include "acc/hll.h"
 #include "acc/moments.h"
 #include "acc/values.h"
@@ -26,6 +28,7 @@
 #define SUMMARY_EXAMPLE_BYTES 40  /* bytes kept of each example */
 #define SUMMARY_BAD_LINES 5       /* line numbers kept of ragged rows */
 #define SUMMARY_MAX_MISSING 32    /* missing-value spellings */
+#define SUMMARY_BLOCK_ROWS 256    /* rows per block fed to the accumulators */
 
 /* How a column was declared at scan time. */
 typedef enum {
@@ -37,6 +40,24 @@ typedef enum {
 /* Kind decided when the summary is read. */
 typedef enum { KIND_NUMERIC = 0, KIND_CATEGORICAL = 1 } column_kind;
 
+/* The task of a target: declared at scan time, or decided when read. */
+typedef enum { TASK_AUTO = 0, TASK_CLASSIFY = 1, TASK_REGRESS = 2 } target_task;
+
+/* Bucket-store cells: 0 holds rows whose target is missing (or all rows when
+ * there is no target); classes are 1..K; a regression target's value y is
+ * cell SUMMARY_TARGET_CELL_BASE + its bucket key at SUMMARY_TARGET_LEVEL
+ * (about 4 buckets per octave, the same on every shard). */
+#define SUMMARY_TARGET_LEVEL 5
+#define SUMMARY_TARGET_CELL_BASE (1u << 20)
+#define SUMMARY_MAX_CLASSES 65536
+
+/* Count, mean and M2 of one column within one class (Welford 1962). */
+typedef struct {
+    uint64_t n;   /* rows of the class with the column present */
+    double mean;  /* mean, in the column's frame (its moments reference) */
+    double m2;    /* sum of squared deviations from the mean */
+} class_moments;
+
 /* Options that change what the accumulators hold: equal in mergeable summaries. */
 typedef struct {
     uint32_t max_levels;     /* value-table entries per column */
@@ -44,6 +65,9 @@ typedef struct {
     uint32_t bucket_budget;  /* occupied buckets per column */
     uint32_t n_missing;      /* missing-value spellings */
     char *missing[SUMMARY_MAX_MISSING]; /* the spellings ("" is always missing) */
+    char *target;            /* target column name, NULL for none */
+    target_task task;        /* declared task (TASK_AUTO: decided when read) */
+    uint32_t max_classes;    /* class levels kept before giving up on classes */
 } summary_options;
 
 typedef struct {
@@ -57,7 +81,9 @@ typedef struct {
     moments mom;             /* moments of finite numeric cells */
     values *vals;            /* value table (raw text) */
     hll *distinct;           /* distinct-count sketch */
-    buckets *bins;           /* bucket store of finite numeric cells */
+    buckets *bins;           /* bucket store of finite numeric cells, cell = target cell */
+    crosstab *cross;         /* per value: class counts or target moments (with a target) */
+    class_moments *cls;      /* per class (with classes): cls[class - 1] */
     uint32_t n_examples;     /* non-numeric examples kept */
     char examples[SUMMARY_EXAMPLES][SUMMARY_EXAMPLE_BYTES + 1];
 } summary_column;
@@ -86,6 +112,27 @@ typedef struct {
     uint64_t bad_lines[SUMMARY_BAD_LINES];
     size_t nsources;
     summary_source *sources;
+
+    /* Target (opt.target set). */
+    int target;               /* column index of the target, -1 for none */
+    int has_classes;          /* class accumulators are kept */
+    int classes_dropped;      /* a numeric target passed max_classes: now regression only */
+    uint32_t nclasses;        /* classes seen */
+    uint32_t class_cap;       /* allocated classes */
+    uint64_t *class_hash;     /* XXH3-64 of each class's text */
+    char **class_label;       /* each class's text */
+    uint64_t *class_rows;     /* rows of each class */
+    number_decimal *class_dec; /* each class's value as a decimal, if numeric */
+    unsigned char *class_numeric; /* the class text is a finite number */
+    uint64_t target_text;     /* target cells that are not finite numbers */
+
+    /* Co-moments over the columns not declared categorical. */
+    size_t ncomo;             /* columns in the co-moment matrix */
+    size_t *como_col;         /* their column indices */
+    int *como_of;             /* ncols: index into como_col, -1 if not included */
+    comoment *como;           /* NULL in chunk-local sets */
+    number_decimal *como_ref; /* frame of each co-moment column */
+    unsigned char *como_ref_set; /* frame set */
 } summary;
 
 /* Error classes, mapped to exit codes by the CLI. */
@@ -101,11 +148,26 @@ void summary_options_defaults(summary_options *o);
 void summary_options_free(summary_options *o);
 int summary_options_copy(summary_options *dst, const summary_options *src);
 
-/* A summary with the given columns and no data; NULL on OOM. */
+/* A summary with the given columns and no data; NULL on OOM (or an unknown
+ * target name: check opt->target against names first).  `with_comoments`
+ * allocates the co-moment matrix (chunk-local sets do without). */
 summary *summary_create(const summary_options *opt, size_t ncols, char *const *names,
-                        const column_mode *modes);
-/* An empty summary with the same schema as s. */
+                        const column_mode *modes, int with_comoments);
+/* An empty summary with the same schema as s (no co-moment matrix). */
 summary *summary_clone_empty(const summary *s);
+/* Bytes the co-moment matrix of a schema will take (for --mem). */
+uint64_t summary_comoment_bytes(size_t ncomo);
+
+/* Target classes.  Finds or adds the class of a target text with hash h;
+ * returns its index 1..K, or 0 when adding would pass max_classes. */
+uint32_t summary_class_of(summary *s, uint64_t h, const char *text, size_t len,
+                          const number_decimal *dec);
+/* Drops the class accumulators of a numeric target (it continues as a
+ * regression target): bucket cells and per-value tables are converted
+ * exactly from class counts to target cells.  -1 on OOM. */
+int summary_drop_classes(summary *s);
+/* Regression cell of a target value. */
+uint32_t summary_target_cell(double y);
 void summary_free(summary *s);
 /* Empties the accumulators, keeping schema and allocations. */
 void summary_reset(summary *s);
@@ -114,8 +176,10 @@ void summary_reset(summary *s);
  * "; "-separated); returns 1 when compatible. */
 int summary_compatible(const summary *a, const summary *b, char *msg, size_t msglen);
 /* into := into (+) from: accumulators, counts, sources.  The schemas must be
- * compatible (checked; SUMMARY_ERR_INCOMPATIBLE otherwise). */
-summary_status summary_merge(summary *into, const summary *from, char *err, size_t errlen);
+ * compatible (checked; SUMMARY_ERR_INCOMPATIBLE otherwise).  When one side
+ * has dropped its target classes (or together they pass max_classes), the
+ * other side's classes are dropped too, so `from` may be modified. */
+summary_status summary_merge(summary *into, summary *from, char *err, size_t errlen);
 /* Appends a source record (copied). */
 int summary_add_source(summary *s, const summary_source *src);
 
@@ -124,6 +188,11 @@ column_kind summary_column_kind(const summary_column *c, double numeric_share);
 /* Distinct values: exact from the value table unless it overflowed, else the
  * HyperLogLog estimate.  *exact set accordingly (may be NULL). */
 double summary_column_distinct(const summary_column *c, int *exact);
+/* The task of the target: the declared one, else classification when the
+ * target is categorical or has at most SUMMARY_CLASSIFY_MAX_INTEGERS
+ * distinct integer values, regression otherwise.  TASK_AUTO: no target. */
+#define SUMMARY_CLASSIFY_MAX_INTEGERS 50
+target_task summary_target_task(const summary *s, double numeric_share);
 /* Present (non-missing) cells. */
 uint64_t summary_column_present(const summary_column *c);
 

@@ -1,0 +1,89 @@
+/* sheaf merge: combine summaries exactly, in bounded memory. */
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "cli/cli.h"
+#include "summary/summary.h"
+
+/* Index of the first source of `from` already counted in `into`, or -1.
+ * Two records name the same bytes when fingerprint, size and byte range
+ * agree (the path may differ: a copy of a file is still the same data). */
+static long duplicate_source(const summary *into, const summary *from, size_t *which)
+{
+    for (size_t i = 0; i < from->nsources; i++)
+        for (size_t k = 0; k < into->nsources; k++) {
+            const summary_source *a = &into->sources[k], *b = &from->sources[i];
+            if (a->fingerprint == b->fingerprint && a->raw_bytes == b->raw_bytes &&
+                a->start_byte == b->start_byte && a->end_byte == b->end_byte) {
+                *which = k;
+                return (long)i;
+            }
+        }
+    return -1;
+}
+
+int cmd_merge(int argc, char **argv)
+{
+    const char *out = NULL;
+    int allow_dup = 0;
+    const cli_option opts[] = {
+        {"output", 'o', "OUT.sheaf", "summary file to write (required)", &out, NULL},
+        {"allow-duplicates", 0, NULL, "merge even when the same source bytes appear twice", NULL,
+         &allow_dup},
+        {0},
+    };
+    const cli_command cmd = {
+        "merge", "A.sheaf B.sheaf ... -o OUT.sheaf",
+        "Combines summaries of shards or nights into one, as if one scan had read all their\n"
+        "sources. Inputs are read one at a time (bounded memory) and must have the same\n"
+        "columns and options. A merge that would count the same source bytes twice is\n"
+        "refused unless --allow-duplicates is given. The output is written atomically.",
+        opts};
+    char **pos;
+    size_t npos;
+    int rc = cli_parse(&cmd, argc, argv, &pos, &npos);
+    if (rc) { free(pos); return rc == 1 ? EXIT_DONE : rc; }
+    summary *acc = NULL;
+    rc = EXIT_USAGE;
+    if (npos == 0) { cli_error("merge", "no input summaries (see sheaf merge --help)"); goto done; }
+    if (!out) { cli_error("merge", "-o OUT.sheaf is required"); goto done; }
+    char err[2048];
+    for (size_t i = 0; i < npos; i++) {
+        summary *s;
+        summary_status st = summary_read(pos[i], &s, err, sizeof err);
+        if (st != SUMMARY_OK) { cli_error("merge", "%s", err); rc = cli_summary_exit(st); goto done; }
+        if (!acc) { acc = s; continue; }
+        size_t k;
+        long d = allow_dup ? -1 : duplicate_source(acc, s, &k);
+        if (d >= 0) {
+            cli_error("merge",
+                      "%s: source %s (fingerprint %016llx) is already counted (from %s); "
+                      "use --allow-duplicates to merge anyway",
+                      pos[i], s->sources[d].path, (unsigned long long)s->sources[d].fingerprint,
+                      acc->sources[k].path);
+            summary_free(s);
+            rc = EXIT_INCOMPATIBLE;
+            goto done;
+        }
+        char why[1536];
+        st = summary_merge(acc, s, why, sizeof why);
+        summary_free(s);
+        if (st != SUMMARY_OK) {
+            cli_error("merge", "%s and %s cannot be merged: %s", pos[0], pos[i], why);
+            rc = cli_summary_exit(st);
+            goto done;
+        }
+    }
+    summary_status st = summary_write(acc, out, err, sizeof err);
+    if (st != SUMMARY_OK) {
+        cli_error("merge", "%s", err);
+        rc = st == SUMMARY_ERR_MEMORY ? EXIT_RESOURCE : EXIT_FAILED;
+        goto done;
+    }
+    rc = EXIT_DONE;
+done:
+    summary_free(acc);
+    free(pos);
+    return rc;
+}
