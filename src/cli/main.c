@@ -1,6 +1,8 @@
 /* sheaf: command dispatch and the top-level help. */
 #include <stdio.h>
+#include <stdlib.h>
 #include <string.h>
+#include <unistd.h>
 
 #include "cli/cli.h"
 
@@ -37,6 +39,13 @@ static void help(FILE *f)
 
 int main(int argc, char **argv)
 {
+    /* sheaf runs its own threads: OpenBLAS must not start a pool of its own.
+     * It reads the variable when the library loads, before main, so the
+     * process re-executes itself once with it set. */
+    if (!getenv("OPENBLAS_NUM_THREADS")) {
+        setenv("OPENBLAS_NUM_THREADS", "1", 1);
+        execv("/proc/self/exe", argv);
+    }
     if (argc < 2) { help(stderr); return EXIT_USAGE; }
     if (!strcmp(argv[1], "-h") || !strcmp(argv[1], "--help") || !strcmp(argv[1], "help")) {
         help(stdout);

@@ -107,7 +107,9 @@ static int flush_lane(scanner *sc, summary_column *c, lane *l)
         if (values_add(c->vals, l->hash[i], l->text[i], l->len[i]) != 0) return -1;
         hll_add(c->distinct, l->hash[i]);
     }
-    if (c->cross) {
+    /* A per-value table only serves a categorical column whose value table
+     * stayed exact; once the running value table overflowed it never will. */
+    if (c->cross && !values_overflowed(sc->run->cols[l - sc->lanes].vals)) {
         for (size_t i = 0; i < l->ncells; i++) {
             size_t r = l->cell_row[i];
             int rc = 0;
@@ -260,7 +262,7 @@ static scan_status target_cell(scanner *sc, const char *path, uint64_t line, con
             return SCAN_ERR_INPUT;
         }
         /* A numeric target: it continues as a regression target. */
-        if (flush_lanes(sc) != 0 || summary_drop_classes(w) != 0 || summary_drop_classes(run) != 0) {
+        if (flush_lanes(sc) != 0 || summary_drop_classes(w, run) != 0 || summary_drop_classes(run, run) != 0) {
             snprintf(sc->err, sc->errlen, "out of memory");
             return SCAN_ERR_MEMORY;
         }

@@ -268,12 +268,12 @@ static const number_decimal *target_frame(const summary *s)
     return &s->cols[s->target].mom.ref;
 }
 
-int summary_drop_classes(summary *s)
+int summary_drop_classes(summary *s, const summary *dict)
 {
     if (!s->has_classes) return 0;
-    for (uint32_t c = 0; c < s->nclasses; c++)
-        if (!s->class_numeric[c]) return -1; /* a text target cannot become numeric */
-    uint32_t k = s->nclasses;
+    for (uint32_t c = 0; c < dict->nclasses; c++)
+        if (!dict->class_numeric[c]) return -1; /* a text target cannot become numeric */
+    uint32_t k = dict->nclasses;
     uint32_t *map = malloc((k + 1) * sizeof *map);
     double *y = malloc((k + 1) * sizeof *y);
     if (!map || !y) { free(map); free(y); return -1; }
@@ -281,8 +281,9 @@ int summary_drop_classes(summary *s)
     map[0] = 0;
     y[0] = 0;
     for (uint32_t c = 0; c < k; c++) {
-        map[c + 1] = summary_target_cell(s->class_dec[c].value);
-        y[c + 1] = frame ? number_difference(&s->class_dec[c], frame, NULL) : s->class_dec[c].value;
+        map[c + 1] = summary_target_cell(dict->class_dec[c].value);
+        y[c + 1] = frame ? number_difference(&dict->class_dec[c], frame, NULL)
+                         : dict->class_dec[c].value;
     }
     int rc = 0;
     for (size_t i = 0; i < s->ncols && rc == 0; i++) {
@@ -305,6 +306,8 @@ int summary_drop_classes(summary *s)
     if (rc == 0) {
         s->has_classes = 0;
         s->classes_dropped = 1;
+        for (uint32_t c = 0; c < s->nclasses; c++) free(s->class_label[c]);
+        s->nclasses = 0;
     }
     return rc;
 }
@@ -404,7 +407,7 @@ summary_status summary_merge(summary *into, summary *from, char *err, size_t err
     /* Classes: both kept, or neither (a side that dropped them wins). */
     if (into->has_classes != from->has_classes) {
         summary *keeper = into->has_classes ? into : from;
-        if (summary_drop_classes(keeper) != 0) {
+        if (summary_drop_classes(keeper, keeper) != 0) {
             snprintf(err, errlen, "target '%s': one summary has more than %u classes and the "
                      "target is not numeric", into->opt.target, into->opt.max_classes);
             return SUMMARY_ERR_INCOMPATIBLE;
@@ -419,7 +422,7 @@ summary_status summary_merge(summary *into, summary *from, char *err, size_t err
         if (rc > 0) {
             free(map);
             map = NULL;
-            if (summary_drop_classes(into) != 0 || summary_drop_classes(from) != 0) {
+            if (summary_drop_classes(into, into) != 0 || summary_drop_classes(from, from) != 0) {
                 snprintf(err, errlen, "target '%s': together the summaries have more than %u "
                          "classes; rescan with a larger --max-classes or --task regress",
                          into->opt.target, into->opt.max_classes);
@@ -458,6 +461,9 @@ summary_status summary_merge(summary *into, summary *from, char *err, size_t err
             free(map);
             return merge_fail(err, errlen, "out of memory while merging");
         }
+        /* The per-value table is void once the value table overflowed. */
+        if (a->cross && values_overflowed(a->vals) && crosstab_entries(a->cross))
+            crosstab_reset(a->cross);
         for (uint32_t e = 0; e < b->n_examples && a->n_examples < SUMMARY_EXAMPLES; e++) {
             int dup = 0;
             for (uint32_t k = 0; k < a->n_examples; k++)

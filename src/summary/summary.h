@@ -82,7 +82,8 @@ typedef struct {
     values *vals;            /* value table (raw text) */
     hll *distinct;           /* distinct-count sketch */
     buckets *bins;           /* bucket store of finite numeric cells, cell = target cell */
-    crosstab *cross;         /* per value: class counts or target moments (with a target) */
+    crosstab *cross;         /* per value: class counts or target moments (with a target);
+                                emptied and void once `vals` overflowed */
     class_moments *cls;      /* per class (with classes): cls[class - 1] */
     uint32_t n_examples;     /* non-numeric examples kept */
     char examples[SUMMARY_EXAMPLES][SUMMARY_EXAMPLE_BYTES + 1];
@@ -164,8 +165,10 @@ uint32_t summary_class_of(summary *s, uint64_t h, const char *text, size_t len,
                           const number_decimal *dec);
 /* Drops the class accumulators of a numeric target (it continues as a
  * regression target): bucket cells and per-value tables are converted
- * exactly from class counts to target cells.  -1 on OOM. */
-int summary_drop_classes(summary *s);
+ * exactly from class counts to target cells.  `dict` holds the class
+ * dictionary that numbers s's classes (s itself, or the running summary
+ * for a chunk-local set).  -1 on OOM or for a text target. */
+int summary_drop_classes(summary *s, const summary *dict);
 /* Regression cell of a target value. */
 uint32_t summary_target_cell(double y);
 void summary_free(summary *s);
