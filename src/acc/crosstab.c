@@ -314,21 +314,43 @@ static inline void welford(value_record *v, double y)
     v->m2 += d * (y - v->mean);
 }
 
-int crosstab_add_value(crosstab *t, uint64_t key, double y)
+/* Adds n rows of value y to record v (Chan et al. merge with M2 = 0). */
+static inline void add_equal(value_record *v, double y, uint64_t n)
+{
+    if (n == 1) { welford(v, y); return; }
+    double na = (double)v->r.n, nb = (double)n, tot = na + nb, d = y - v->mean;
+    v->mean += d * nb / tot;
+    v->m2 += d * d * na * nb / tot;
+    v->r.n += n;
+}
+
+int crosstab_add_values_in(crosstab *t, uint64_t key, uint32_t cell, double y, uint64_t n)
 {
     if (!isfinite(y)) return -1;
+    if (n == 0) return 0;
     key = crosstab_key_of(key);
     value_record *v;
     if (t->mode == CROSSTAB_VALUES) {
-        v = (value_record *)find_record(t, key, 0, sizeof(value_record));
-        if (v->r.n) { welford(v, y); return 0; }
+        v = (value_record *)find_record(t, key, cell, sizeof(value_record));
+        if (v->r.n) { add_equal(v, y, n); return 0; }
     } else if (begin_mode(t, CROSSTAB_VALUES)) {
         return -1;
     }
-    v = (value_record *)new_record(t, key, 0);
+    v = (value_record *)new_record(t, key, cell);
     if (!v) return -1;
-    welford(v, y);
+    if (n == 1) {
+        welford(v, y);
+    } else {
+        v->mean = y;
+        v->m2 = 0;
+        v->r.n = n;
+    }
     return 0;
+}
+
+int crosstab_add_value(crosstab *t, uint64_t key, double y)
+{
+    return crosstab_add_values_in(t, key, 0, y, 1);
 }
 
 /* ---- canonical order ---- */
@@ -595,58 +617,43 @@ int crosstab_merge(crosstab *into, const crosstab *from, const uint32_t *cell_ma
 
 /* ---- counts to values ---- */
 
-crosstab *crosstab_counts_to_values(const crosstab *t, const double *y, uint32_t len)
+/* n rows of value y under the overflow key (conversion of an overflowed table). */
+static int add_overflow_values(crosstab *t, uint32_t cell, double y, uint64_t n)
+{
+    if (begin_mode(t, CROSSTAB_VALUES)) return -1;
+    value_record *v = (value_record *)find_record(t, CROSSTAB_OVERFLOW_KEY, cell, t->stride);
+    if (!v->r.n) {
+        if (reserve_records(t, (uint64_t)t->records + 1)) return -1;
+        v = (value_record *)find_record(t, CROSSTAB_OVERFLOW_KEY, cell, t->stride);
+        init_record(t, &v->r, CROSSTAB_OVERFLOW_KEY, cell);
+        v->r.n = 0;
+        v->mean = 0;
+        v->m2 = 0;
+    }
+    if (v->r.n == 0) { v->mean = y; v->r.n = n; }
+    else add_equal(v, y, n);
+    t->overflowed = 1;
+    return 0;
+}
+
+crosstab *crosstab_counts_to_values(const crosstab *t, const double *y, const uint32_t *cells,
+                                    uint32_t len)
 {
     if (t->records && (t->mode != CROSSTAB_COUNTS || t->cells > len)) return NULL;
     for (uint32_t c = 0; c < t->cells; c++)
         if (!isfinite(y[c])) return NULL;
     crosstab *v = crosstab_create(t->max_keys);
     if (!v || !t->records) return v;
-    uint64_t records = (uint64_t)t->keys + (t->overflowed ? 1 : 0);
-    if (build_order(t) || begin_mode(v, CROSSTAB_VALUES) || reserve_records(v, records) ||
-        (t->keys && reserve_keys(v, t->keys))) {
-        crosstab_free(v);
-        return NULL;
+    if (build_order(t)) { crosstab_free(v); return NULL; }
+    /* Canonical order, so the result does not depend on the table layout;
+     * the overflow key keeps its place (new keys never need room here). */
+    for (uint32_t j = 0; j < t->records; j++) {
+        const record *r = slot_at(t, t->order[j].slot, t->stride);
+        uint32_t cell = cells ? cells[r->cell] : 0;
+        int rc = r->key == CROSSTAB_OVERFLOW_KEY ? add_overflow_values(v, cell, y[r->cell], r->n)
+                                                : crosstab_add_values_in(v, r->key, cell, y[r->cell], r->n);
+        if (rc != 0) { crosstab_free(v); return NULL; }
     }
-    /* One key's cells are adjacent in canonical order.  Per key: corrected
-     * two-pass mean and M2 of its rows (Chan, Golub & LeVeque 1983), with the
-     * rows of cell c all equal to y[c]. */
-    for (uint32_t j = 0; j < t->records;) {
-        uint64_t key = t->order[j].key;
-        uint32_t end = j;
-        double n = 0, sum = 0;
-        while (end < t->records && t->order[end].key == key) {
-            const record *r = slot_at(t, t->order[end].slot, t->stride);
-            n += (double)r->n;
-            sum += (double)r->n * y[r->cell];
-            end++;
-        }
-        double mean = sum / n, m2 = 0;
-        if (end - j == 1) {
-            mean = y[t->order[j].cell]; /* one cell: exact */
-        } else {
-            double corr = 0;
-            for (uint32_t k = j; k < end; k++) {
-                const record *r = slot_at(t, t->order[k].slot, t->stride);
-                corr += (double)r->n * (y[r->cell] - mean);
-            }
-            mean += corr / n;
-            for (uint32_t k = j; k < end; k++) {
-                const record *r = slot_at(t, t->order[k].slot, t->stride);
-                double d = y[r->cell] - mean;
-                m2 += (double)r->n * d * d;
-            }
-        }
-        if (key != CROSSTAB_OVERFLOW_KEY) insert_key(v, key);
-        value_record *out = (value_record *)find_record(v, key, 0, v->stride);
-        init_record(v, &out->r, key, 0);
-        out->r.n = 0;
-        for (uint32_t k = j; k < end; k++) out->r.n += slot_at(t, t->order[k].slot, t->stride)->n;
-        out->mean = mean;
-        out->m2 = m2;
-        j = end;
-    }
-    v->overflowed = t->overflowed;
     return v;
 }
 
@@ -734,7 +741,7 @@ crosstab *crosstab_read(wire_reader *r)
         if (mode == CROSSTAB_VALUES) {
             mean = wire_get_f64(r);
             m2 = wire_get_f64(r);
-            if (cell != 0 || !isfinite(mean) || !isfinite(m2) || m2 < 0) return read_fail(t, r);
+            if (!isfinite(mean) || !isfinite(m2) || m2 < 0) return read_fail(t, r);
         }
         if (r->failed || n == 0) return read_fail(t, r);
         int new_key = k == 0 || key != t->order[k - 1].key;

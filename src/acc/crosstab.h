@@ -71,6 +71,10 @@ int crosstab_add_count(crosstab *t, uint64_t key, uint32_t cell);
  * in the target's frame).  -1 on a table in CROSSTAB_COUNTS mode, or when y
  * is not finite. */
 int crosstab_add_value(crosstab *t, uint64_t key, double y);
+/* Regression: n rows with value `key`, all with target value y, in `cell`
+ * (the target's bucket cell, so that a table keeps both the per-value
+ * moments (sum over cells) and the value-by-target counts). */
+int crosstab_add_values_in(crosstab *t, uint64_t key, uint32_t cell, double y, uint64_t n);
 /* into := into (+) from.  Both tables must have the same mode (or one be
  * empty); into's max_keys rules.  Counts mode: cell c of from becomes
  * cell_map[c] (NULL: same); -1 if from holds a cell >= map_len.  Values mode:
@@ -81,11 +85,13 @@ int crosstab_add_value(crosstab *t, uint64_t key, double y);
 int crosstab_merge(crosstab *into, const crosstab *from, const uint32_t *cell_map,
                    uint32_t map_len, double shift);
 /* A new table in values mode holding what t (counts mode) says when every
- * row of cell c has target value y[c]: per key, n and the mean and M2 of its
- * rows; same max_keys, keys and overflow.  An empty t gives an empty table.
+ * row of cell c has target value y[c]: per (key, cells[c]) (cell 0 when
+ * cells is NULL), n and the mean and M2 of its rows; same max_keys, keys and
+ * overflow.  An empty t gives an empty table.
  * NULL when memory runs out, t is in values mode, t holds a cell >= len, or
  * a y[c] of a held cell is not finite. */
-crosstab *crosstab_counts_to_values(const crosstab *t, const double *y, uint32_t len);
+crosstab *crosstab_counts_to_values(const crosstab *t, const double *y, const uint32_t *cells,
+                                    uint32_t len);
 int crosstab_mode(const crosstab *t);        /* CROSSTAB_EMPTY / _COUNTS / _VALUES */
 uint32_t crosstab_max_keys(const crosstab *t);
 int crosstab_overflowed(const crosstab *t);

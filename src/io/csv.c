@@ -92,6 +92,52 @@ csv_status csv_next(csv_reader *r, csv_field *fields, size_t max_fields, size_t 
     return CSV_RECORD;
 }
 
+csv_status csv_next_raw(csv_reader *r, csv_field *fields, size_t max_fields, size_t *nfields,
+                        const char **eol, size_t *eol_len)
+{
+    char *p = r->pos, *end = r->end;
+    const char delim = r->delim;
+    for (;;) {
+        if (p >= end) { r->pos = p; return CSV_END; }
+        if (*p == '\n') { p++; r->lines++; continue; }
+        if (*p == '\r' && p + 1 < end && p[1] == '\n') { p += 2; r->lines++; continue; }
+        break;
+    }
+    r->record_line = r->lines;
+    r->record_start = p;
+    size_t n = 0;
+    for (;;) {
+        char *start = p;
+        if (p < end && *p == '"') {
+            p++;
+            for (;;) {
+                char *q = memchr(p, '"', (size_t)(end - p));
+                if (!q) { r->pos = end; return CSV_UNTERMINATED; }
+                for (char *c = p; c < q; c++) r->lines += *c == '\n';
+                p = q + 1;
+                if (p < end && *p == '"') { p++; continue; }
+                break;
+            }
+        }
+        while (p < end && *p != delim && *p != '\n') p++;
+        char *stop = p;
+        if (stop > start && stop[-1] == '\r' && (p == end || *p == '\n')) stop--;
+        if (n < max_fields) {
+            fields[n].ptr = start;
+            fields[n].len = (uint32_t)(stop - start);
+        }
+        n++;
+        if (p < end && *p == delim) { p++; continue; }
+        *eol = stop;
+        if (p < end) { p++; r->lines++; }
+        *eol_len = (size_t)(p - stop);
+        break;
+    }
+    r->pos = p;
+    *nfields = n;
+    return CSV_RECORD;
+}
+
 char csv_detect_delimiter(const char *data, size_t len)
 {
     static const char cands[] = {',', '\t', ';', '|'};

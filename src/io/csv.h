@@ -40,6 +40,13 @@ void csv_reader_init(csv_reader *r, char *data, size_t len, char delim);
  * to the number of fields the record has (which may exceed max_fields). */
 csv_status csv_next(csv_reader *r, csv_field *fields, size_t max_fields, size_t *nfields);
 
+/* Like csv_next, but leaves the chunk untouched: each field is its raw bytes
+ * (quotes and doubled quotes included), and *eol / *eol_len give the
+ * record's line terminator ("\n", "\r\n", or empty at the end of input), so
+ * that selected fields can be written back byte for byte. */
+csv_status csv_next_raw(csv_reader *r, csv_field *fields, size_t max_fields, size_t *nfields,
+                        const char **eol, size_t *eol_len);
+
 /* Picks the delimiter among ',', '\t', ';', '|' from a sample of whole
  * records: the candidate that gives the same field count (> 1) on the most
  * lines wins, ties broken in that order; ',' when nothing fits. */

@@ -116,7 +116,7 @@ static int flush_lane(scanner *sc, summary_column *c, lane *l)
             if (classes) {
                 if (sc->row_class[r]) rc = crosstab_add_count(c->cross, l->hash[i], sc->row_class[r]);
             } else if (sc->row_has_y[r]) {
-                rc = crosstab_add_value(c->cross, l->hash[i], sc->row_y[r]);
+                rc = crosstab_add_values_in(c->cross, l->hash[i], sc->row_cell[r], sc->row_y[r], 1);
             }
             if (rc != 0) return -1;
         }

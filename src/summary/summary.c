@@ -293,7 +293,7 @@ int summary_drop_classes(summary *s, const summary *dict)
         buckets_free(col->bins);
         col->bins = nb;
         if (col->cross) {
-            crosstab *nx = crosstab_counts_to_values(col->cross, y, k + 1);
+            crosstab *nx = crosstab_counts_to_values(col->cross, y, map, k + 1);
             if (!nx) { rc = -1; break; }
             crosstab_free(col->cross);
             col->cross = nx;

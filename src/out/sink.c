@@ -1,0 +1,162 @@
+/* sink: see sink.h. */
+#include "out/sink.h"
+
+#include <errno.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <sys/stat.h>
+#include <unistd.h>
+#include <zlib.h>
+#include <zstd.h>
+
+enum { PLAIN, GZIP, ZSTD };
+#define BUF_BYTES (1u << 18)
+
+struct sink {
+    int kind;            /* PLAIN, GZIP, ZSTD */
+    FILE *f;             /* plain / zstd destination */
+    gzFile gz;           /* gzip destination */
+    ZSTD_CStream *zs;    /* zstd state */
+    char *path, *tmp;    /* final and temporary names (NULL for stdout) */
+    unsigned char *buf;  /* pending bytes */
+    size_t len;          /* bytes pending */
+    unsigned char *zbuf; /* zstd output buffer */
+    int failed;          /* a write failed */
+};
+
+static int ends_with(const char *s, const char *suffix)
+{
+    size_t a = strlen(s), b = strlen(suffix);
+    return a >= b && strcmp(s + a - b, suffix) == 0;
+}
+
+sink *sink_open(const char *path, char *err, size_t errlen)
+{
+    sink *s = calloc(1, sizeof *s);
+    if (!s) { snprintf(err, errlen, "out of memory"); return NULL; }
+    s->buf = malloc(BUF_BYTES);
+    if (!s->buf) { free(s); snprintf(err, errlen, "out of memory"); return NULL; }
+    if (!path || strcmp(path, "-") == 0) {
+        s->f = stdout;
+        return s;
+    }
+    s->path = strdup(path);
+    s->tmp = malloc(strlen(path) + 16);
+    if (!s->path || !s->tmp) { sink_abort(s); snprintf(err, errlen, "out of memory"); return NULL; }
+    snprintf(s->tmp, strlen(path) + 16, "%s.tmp.XXXXXX", path);
+    int fd = mkstemp(s->tmp);
+    if (fd < 0) {
+        snprintf(err, errlen, "%s: cannot create: %s", path, strerror(errno));
+        free(s->tmp);
+        s->tmp = NULL;
+        sink_abort(s);
+        return NULL;
+    }
+    mode_t mask = umask(0);
+    umask(mask);
+    fchmod(fd, 0666 & ~mask);
+    s->kind = ends_with(path, ".gz") ? GZIP : ends_with(path, ".zst") ? ZSTD : PLAIN;
+    if (s->kind == GZIP) {
+        s->gz = gzdopen(fd, "wb6");
+        if (!s->gz) close(fd);
+    } else {
+        s->f = fdopen(fd, "wb");
+        if (!s->f) close(fd);
+    }
+    if (s->kind == ZSTD) {
+        s->zs = ZSTD_createCStream();
+        s->zbuf = malloc(ZSTD_CStreamOutSize());
+        if (s->zs) ZSTD_initCStream(s->zs, 3);
+    }
+    if ((s->kind == GZIP && !s->gz) || (s->kind != GZIP && !s->f) ||
+        (s->kind == ZSTD && (!s->zs || !s->zbuf))) {
+        snprintf(err, errlen, "%s: cannot open for writing", path);
+        sink_abort(s);
+        return NULL;
+    }
+    return s;
+}
+
+/* Writes raw (already compressed or plain) bytes to f. */
+static int put(sink *s, const void *p, size_t n)
+{
+    if (fwrite(p, 1, n, s->f) != n) s->failed = 1;
+    return s->failed ? -1 : 0;
+}
+
+static int drain(sink *s, int end)
+{
+    if (s->failed) return -1;
+    if (s->kind == GZIP) {
+        if (s->len && gzwrite(s->gz, s->buf, (unsigned)s->len) != (int)s->len) s->failed = 1;
+    } else if (s->kind == ZSTD) {
+        ZSTD_inBuffer in = {s->buf, s->len, 0};
+        for (;;) {
+            ZSTD_outBuffer out = {s->zbuf, ZSTD_CStreamOutSize(), 0};
+            size_t rc = end ? ZSTD_endStream(s->zs, &out) : ZSTD_compressStream(s->zs, &out, &in);
+            if (ZSTD_isError(rc)) { s->failed = 1; break; }
+            if (out.pos && put(s, s->zbuf, out.pos) != 0) break;
+            if (end ? rc == 0 : in.pos == in.size) break;
+        }
+    } else if (s->len) {
+        put(s, s->buf, s->len);
+    }
+    s->len = 0;
+    return s->failed ? -1 : 0;
+}
+
+int sink_write(sink *s, const void *data, size_t len)
+{
+    const unsigned char *p = data;
+    while (len && !s->failed) {
+        size_t room = BUF_BYTES - s->len, n = len < room ? len : room;
+        memcpy(s->buf + s->len, p, n);
+        s->len += n;
+        p += n;
+        len -= n;
+        if (s->len == BUF_BYTES) drain(s, 0);
+    }
+    return s->failed ? -1 : 0;
+}
+
+static void release(sink *s)
+{
+    if (s->zs) ZSTD_freeCStream(s->zs);
+    free(s->zbuf);
+    free(s->buf);
+    free(s->path);
+    free(s->tmp);
+    free(s);
+}
+
+int sink_close(sink *s, char *err, size_t errlen)
+{
+    drain(s, 0);
+    if (s->kind == ZSTD) drain(s, 1);
+    int ok = !s->failed;
+    if (s->kind == GZIP) ok &= gzclose(s->gz) == Z_OK;
+    else if (s->f == stdout) ok &= fflush(stdout) == 0;
+    else {
+        ok &= fflush(s->f) == 0;
+        ok &= fsync(fileno(s->f)) == 0;
+        ok &= fclose(s->f) == 0;
+    }
+    if (s->tmp) {
+        if (ok && rename(s->tmp, s->path) != 0) ok = 0;
+        if (!ok) unlink(s->tmp);
+    }
+    if (!ok) snprintf(err, errlen, "%s: write failed: %s", s->path ? s->path : "standard output",
+                      strerror(errno ? errno : EIO));
+    release(s);
+    return ok ? 0 : -1;
+}
+
+void sink_abort(sink *s)
+{
+    if (!s) return;
+    if (s->gz) gzclose(s->gz);
+    else if (s->f && s->f != stdout) fclose(s->f);
+    if (s->tmp) unlink(s->tmp);
+    release(s);
+}

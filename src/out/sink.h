@@ -1,0 +1,26 @@
+/* sink: buffered output to standard output or a file, compressed by name.
+ *
+ * A name ending in .gz is written as gzip (zlib, level 6), .zst as zstd
+ * (libzstd streaming, level 3), anything else plain; "-" or NULL is standard
+ * output.  Files are written to a temporary name in the target directory and
+ * renamed by sink_close, so a failed command never leaves a half-written file
+ * under the final name (sink_abort removes it).
+ */
+#ifndef SHEAF_SINK_H
+#define SHEAF_SINK_H
+
+#include <stddef.h>
+
+typedef struct sink sink;
+
+/* NULL with a message naming the file on failure. */
+sink *sink_open(const char *path, char *err, size_t errlen);
+/* Returns 0, or -1 once a write failed (the error is kept for sink_close). */
+int sink_write(sink *s, const void *data, size_t len);
+/* Flushes, finishes the compressed stream, renames into place.  Returns 0, or
+ * -1 with a message (and nothing left under the final name). */
+int sink_close(sink *s, char *err, size_t errlen);
+/* Discards everything written (removes the temporary file). */
+void sink_abort(sink *s);
+
+#endif
