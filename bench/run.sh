@@ -13,7 +13,7 @@ results=bench/RESULTS.md
 rows=${BENCH_ROWS:-2000000}
 runs=${BENCH_RUNS:-5}
 sections=("$@")
-[ ${#sections[@]} -eq 0 ] && sections=(scan)
+[ ${#sections[@]} -eq 0 ] && sections=(scan target wide merge shard pca project)
 
 machine() {
     echo "- CPU: $(grep -m1 'model name' /proc/cpuinfo | cut -d: -f2 | sed 's/^ //'), $(nproc) cores"
@@ -66,6 +66,106 @@ print("| `sheaf scan` plain | %.3f | %.0f | 1.00 |" % (tp, mb / tp))
 print("| `sheaf scan` gzip | %.3f | %.0f | %.2f x plain |" % (tg, mb / tg, tg / tp))
 print("| `igzip -dc > /dev/null` | %.3f | %.0f | %.2f of sheaf gzip |" % (ti, mb / ti, ti / tg))
 print("\nPeak memory (max RSS): %s rows %.1f MiB; %s rows %.1f MiB.\n" % (rows, int(mf) / 1024, half, int(mh) / 1024))
+PY
+}
+
+section_target() {
+    table_files
+    local plain=$out/bench-$rows.csv mb
+    mb=$(stat -c %s "$plain")
+    local t0 tc tr
+    t0=$(median_s "./sheaf scan $plain -o $out/p.sheaf -q")
+    tc=$(median_s "./sheaf scan $plain -o $out/tc.sheaf -q --target label")
+    tr=$(median_s "./sheaf scan $plain -o $out/tr.sheaf -q --target balance")
+    /usr/bin/python3 - "$mb" "$t0" "$tc" "$tr" <<'PY' >"$out/target.md"
+import sys
+mb, t0, tc, tr = int(sys.argv[1]) / 1e6, *map(float, sys.argv[2:])
+print("## Scan with a target (issue 3): the same table\n")
+print("Target: at most 1.5x the scan without a target.\n")
+print("| scan | median s | MB/s | ratio to no target |")
+print("| --- | ---: | ---: | ---: |")
+print("| no target | %.3f | %.0f | 1.00 |" % (t0, mb / t0))
+print("| `--target label` (6 classes) | %.3f | %.0f | %.2f |" % (tc, mb / tc, tc / t0))
+print("| `--target balance` (continuous, regression) | %.3f | %.0f | %.2f |" % (tr, mb / tr, tr / t0))
+print()
+PY
+}
+
+section_wide() {
+    local wide=$out/wide500.csv
+    if [ ! -s "$wide" ]; then
+        /usr/bin/python3 - "$wide" <<'PY'
+import sys, numpy as np
+rng = np.random.default_rng(5)
+rows, cols = 40000, 500
+with open(sys.argv[1], "w") as f:
+    f.write(",".join("x%03d" % j for j in range(cols)) + "\n")
+    for start in range(0, rows, 2000):
+        block = rng.normal(size=(2000, cols)) * 10
+        block[:, 1::7] = block[:, 0::7][:, :block[:, 1::7].shape[1]] + rng.normal(size=(2000, block[:, 1::7].shape[1]))
+        f.write("\n".join(",".join("%.4f" % v for v in row) for row in block) + "\n")
+PY
+    fi
+    local mb t m
+    mb=$(stat -c %s "$wide")
+    t=$(median_s "./sheaf scan $wide -o $out/w.sheaf -q")
+    m=$(peak_kb ./sheaf scan "$wide" -o "$out/w.sheaf" -q)
+    /usr/bin/python3 - "$mb" "$t" "$m" <<'PY' >"$out/wide.md"
+import sys
+mb, t, m = int(sys.argv[1]) / 1e6, float(sys.argv[2]), int(sys.argv[3])
+print("## 500 numeric columns with the full co-moment matrix (issue 3)\n")
+print("40,000 rows x 500 columns, %.1f MB of plain CSV. Target: at least 40 MB/s on one core.\n" % mb)
+print("| what | median s | MB/s | peak memory |")
+print("| --- | ---: | ---: | ---: |")
+print("| `sheaf scan` | %.3f | %.1f | %.1f MiB |" % (t, mb / t, m / 1024))
+print()
+PY
+}
+
+section_merge() {
+    local dir=$out/merge1000
+    if [ ! -s "$dir/s1000.sheaf" ]; then
+        mkdir -p "$dir"
+        $gen --profile bench --rows 20000 --shards 10 --prefix "$dir/part" --shard-suffix .csv >/dev/null
+        for i in $(seq -w 1 10); do ./sheaf scan "$dir/part-$i.csv" -o "$dir/base$i.sheaf" -q; done
+        # 1,000 summaries of distinct sources: copies of the 10 scans with
+        # their fingerprints made distinct would be artificial, so each of the
+        # 1,000 is a scan of a distinct 20-row slice.
+        $gen --profile bench --rows 20000 --shards 1000 --prefix "$dir/slice" --shard-suffix .csv >/dev/null
+        ls "$dir"/slice-*.csv | parallel -j2 './sheaf scan {} -o {.}.sheaf -q'
+        touch "$dir/s1000.sheaf"
+    fi
+    local t
+    t=$(median_s "./sheaf merge $dir/slice-*.sheaf -o $dir/merged.sheaf")
+    local m
+    m=$(peak_kb ./sheaf merge $dir/slice-*.sheaf -o "$dir/merged.sheaf")
+    /usr/bin/python3 - "$t" "$m" <<'PY' >"$out/merge.md"
+import sys
+t, m = float(sys.argv[1]), int(sys.argv[2])
+print("## Merge (issue 4): 1,000 summaries of the 28-column table\n")
+print("Target: under 2 seconds.\n")
+print("| what | median s | peak memory |")
+print("| --- | ---: | ---: |")
+print("| `sheaf merge` of 1,000 summaries | %.3f | %.1f MiB |" % (t, m / 1024))
+print()
+PY
+}
+
+section_shard() {
+    table_files
+    local plain=$out/bench-$rows.csv mb t1 t2
+    mb=$(stat -c %s "$plain")
+    t1=$(median_s "./sheaf scan $plain -o $out/p.sheaf -q")
+    t2=$(median_s "parallel -j2 ./sheaf scan $plain --shard {}/2 -o $out/sh{}.sheaf -q ::: 1 2")
+    /usr/bin/python3 - "$mb" "$t1" "$t2" <<'PY' >"$out/shard.md"
+import sys
+mb, t1, t2 = int(sys.argv[1]) / 1e6, float(sys.argv[2]), float(sys.argv[3])
+print("## Byte-range shards on both cores (issue 4)\n")
+print("| what | median s | MB/s | speed-up |")
+print("| --- | ---: | ---: | ---: |")
+print("| one `sheaf scan` | %.3f | %.0f | 1.00 |" % (t1, mb / t1))
+print("| 2 x `sheaf scan --shard I/2` under GNU parallel -j2 | %.3f | %.0f | %.2f |" % (t2, mb / t2, t1 / t2))
+print()
 PY
 }
 

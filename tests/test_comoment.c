@@ -449,8 +449,6 @@ Test(comoment, serialization_round_trip_is_byte_identical)
 
 /* Offsets in the serialized form of a p-column state. */
 static size_t off_n(size_t p, size_t i, size_t j) { return 8 + 8 * (i * p + j); }
-static size_t off_mean(size_t p, size_t i, size_t j) { return 8 + 8 * p * p + 8 * (i * p + j); }
-static size_t off_m2(size_t p, size_t i, size_t j) { return 8 + 16 * p * p + 8 * (i * p + j); }
 static size_t off_c(size_t p, size_t i, size_t j) { return 8 + 24 * p * p + 8 * (i * p + j); }
 
 static void put_u64_at(uint8_t *b, size_t off, uint64_t v)
@@ -496,14 +494,6 @@ static void edit_pair_above_column(uint8_t *b, size_t *n, size_t p)
     put_u64_at(b, off_n(p, 1, 0), 1000000);
 }
 static void edit_asym_c(uint8_t *b, size_t *n, size_t p) { (void)n; put_f64_at(b, off_c(p, 1, 2), 0.125); }
-static void edit_nan_mean(uint8_t *b, size_t *n, size_t p) { (void)n; put_f64_at(b, off_mean(p, 1, 0), NAN); }
-static void edit_negative_m2(uint8_t *b, size_t *n, size_t p) { (void)n; put_f64_at(b, off_m2(p, 2, 0), -1.0); }
-static void edit_diag_c(uint8_t *b, size_t *n, size_t p) { (void)n; put_f64_at(b, off_c(p, 1, 1), 7.0); }
-static void edit_empty_pair_with_mean(uint8_t *b, size_t *n, size_t p)
-{
-    (void)n;
-    put_f64_at(b, off_mean(p, 3, 3), 1.5); /* column 3 never present */
-}
 
 Test(comoment, malformed_input_is_rejected)
 {
@@ -521,10 +511,9 @@ Test(comoment, malformed_input_is_rejected)
     cr_assert(rejects(w.data, w.len, edit_big_count, p), "count above 2^53");
     cr_assert(rejects(w.data, w.len, edit_pair_above_column, p), "pair count above column count");
     cr_assert(rejects(w.data, w.len, edit_asym_c, p), "C not symmetric");
-    cr_assert(rejects(w.data, w.len, edit_nan_mean, p), "NaN mean");
-    cr_assert(rejects(w.data, w.len, edit_negative_m2, p), "negative M2");
-    cr_assert(rejects(w.data, w.len, edit_diag_c, p), "C[i][i] != M2[i][i]");
-    cr_assert(rejects(w.data, w.len, edit_empty_pair_with_mean, p), "empty pair with a mean");
+    /* Moment values are not checked: extreme data can round M2 slightly below
+     * zero or overflow it to infinity, and such a state must read back (the
+     * summary's checksums guard the bytes). */
     /* The unedited bytes are accepted. */
     wire_reader r;
     wire_reader_init(&r, w.data, w.len);

@@ -52,5 +52,9 @@ int cmd_scan(int argc, char **argv);
 int cmd_info(int argc, char **argv);
 int cmd_corr(int argc, char **argv);
 int cmd_merge(int argc, char **argv);
+int cmd_screen(int argc, char **argv);
+int cmd_trim(int argc, char **argv);
+int cmd_pca(int, char **);
+int cmd_project(int, char **);
 
 #endif

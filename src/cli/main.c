@@ -17,6 +17,8 @@ static const command COMMANDS[] = {
     {"info", cmd_info, "describe a summary: rows, sources, per-column statistics"},
     {"merge", cmd_merge, "combine summaries of shards or nights exactly"},
     {"corr", cmd_corr, "pairwise-complete correlation or covariance matrix"},
+    {"pca", cmd_pca, "principal components of the correlation or covariance matrix"},
+    {"project", cmd_project, "scores of the leading principal components, row by row"},
 };
 
 static void help(FILE *f)

@@ -14,6 +14,8 @@ static long duplicate_source(const summary *into, const summary *from, size_t *w
     for (size_t i = 0; i < from->nsources; i++)
         for (size_t k = 0; k < into->nsources; k++) {
             const summary_source *a = &into->sources[k], *b = &from->sources[i];
+            /* A source that contributed no bytes cannot be counted twice. */
+            if (b->raw_bytes == 0) continue;
             if (a->fingerprint == b->fingerprint && a->raw_bytes == b->raw_bytes &&
                 a->start_byte == b->start_byte && a->end_byte == b->end_byte) {
                 *which = k;

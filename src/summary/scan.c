@@ -262,7 +262,8 @@ static scan_status target_cell(scanner *sc, const char *path, uint64_t line, con
             return SCAN_ERR_INPUT;
         }
         /* A numeric target: it continues as a regression target. */
-        if (flush_lanes(sc) != 0 || summary_drop_classes(w, run) != 0 || summary_drop_classes(run, run) != 0) {
+        if (flush_lanes(sc) != 0 || (w != run && summary_drop_classes(w, run) != 0) ||
+            summary_drop_classes(run, run) != 0) {
             snprintf(sc->err, sc->errlen, "out of memory");
             return SCAN_ERR_MEMORY;
         }
@@ -381,7 +382,11 @@ static scan_status setup(scanner *sc, char **names, size_t nnames)
         goto done;
     }
     sc->run = summary_create(&o->opt, n, cols, modes, 1);
-    sc->work = sc->run ? summary_clone_empty(sc->run) : NULL;
+    /* One thread feeds the running set directly: a chunk-local copy of every
+     * accumulator (the unit a worker thread would own) would double the
+     * memory of wide tables, and merging it back is the same operation as
+     * merging two summaries, which summary_merge already provides. */
+    sc->work = sc->run;
     if (sc->run) {
         size_t cells = (sc->run->ncomo ? sc->run->ncomo : 1) * SUMMARY_BLOCK_ROWS;
         sc->como_x = malloc(cells * sizeof *sc->como_x);
@@ -504,6 +509,7 @@ static scan_status process_chunk(scanner *sc, const char *path, chunk *ch, int *
     csv_reader r;
     csv_reader_init(&r, data, len, sc->delim);
     size_t maxf = sc->file_fields ? sc->file_fields + 1 : 0;
+    size_t used = ch->len; /* bytes of this chunk that belong to this scan */
     for (;;) {
         size_t nf;
         csv_status cs;
@@ -530,6 +536,7 @@ static scan_status process_chunk(scanner *sc, const char *path, chunk *ch, int *
         if (sc->stop_at && !*at_first &&
             ch->offset + (uint64_t)(r.record_start - ch->data) >= sc->stop_at) {
             *done = 1;
+            used = (size_t)(r.record_start - ch->data); /* the rest is the next shard's */
             break;
         }
         if (cs == CSV_UNTERMINATED) {
@@ -545,7 +552,7 @@ static scan_status process_chunk(scanner *sc, const char *path, chunk *ch, int *
             if (st != SCAN_OK) return st;
             *at_first = 0;
             maxf = sc->file_fields + 1;
-            if (sc->header_only) { *done = 1; break; }
+            if (sc->header_only) { *done = 1; used = 0; break; } /* shard 1 counts it */
             if (is_header) continue;
         }
         summary *w = sc->work;
@@ -577,12 +584,14 @@ static scan_status process_chunk(scanner *sc, const char *path, chunk *ch, int *
             snprintf(sc->err, sc->errlen, "out of memory");
             return SCAN_ERR_MEMORY;
         }
-        sc->work->bytes += ch->len;
-        if (summary_merge(sc->run, sc->work, sc->err, sc->errlen) != SUMMARY_OK)
-            return SCAN_ERR_MEMORY;
-        summary_reset(sc->work);
-        for (size_t j = 0; j < sc->work->ncols; j++)
-            buckets_reset_level(sc->work->cols[j].bins, buckets_level(sc->run->cols[j].bins));
+        sc->work->bytes += used;
+        if (sc->work != sc->run) {
+            if (summary_merge(sc->run, sc->work, sc->err, sc->errlen) != SUMMARY_OK)
+                return SCAN_ERR_MEMORY;
+            summary_reset(sc->work);
+            for (size_t j = 0; j < sc->work->ncols; j++)
+                buckets_reset_level(sc->work->cols[j].bins, buckets_level(sc->run->cols[j].bins));
+        }
     }
     return SCAN_OK;
 }
@@ -652,7 +661,7 @@ static scan_status scan_shard(scanner *sc, chunker *ck, const char *path)
     uint64_t lo = size * (o->shard_index - 1) / o->shard_count;
     uint64_t hi = size * o->shard_index / o->shard_count;
     sc->shard_start = lo;
-    sc->shard_end = hi ? hi : 1;
+    sc->shard_end = hi;
     /* The header, and a check that the file is plain. */
     source *probe = source_open(path, sc->err, sc->errlen);
     if (!probe) return SCAN_ERR_INPUT;
@@ -666,6 +675,7 @@ static scan_status scan_shard(scanner *sc, chunker *ck, const char *path)
         return SCAN_ERR_USAGE;
     }
     uint64_t first = 0;
+    if (hi == 0) lo = 1; /* more shards than bytes: [0, 0) holds no record start */
     if (lo > 0) {
         sc->header_only = 1;
         scan_status hs = scan_source(sc, ck, path, 0);
@@ -683,7 +693,7 @@ static scan_status scan_shard(scanner *sc, chunker *ck, const char *path)
         rec.size_bytes = size;
         rec.mtime = (int64_t)st.st_mtime;
         rec.fingerprint = XXH3_64bits(NULL, 0);
-        rec.start_byte = lo;
+        rec.start_byte = sc->shard_start;
         rec.end_byte = sc->shard_end;
         return summary_add_source(sc->run, &rec) == 0 ? SCAN_OK : SCAN_ERR_MEMORY;
     }
@@ -742,7 +752,7 @@ scan_status scan_files(const scan_options *o, const char *const *paths, size_t n
     free(sc.como_mask);
     free(sc.como_center);
     free(sc.como_complete);
-    summary_free(sc.work);
+    if (sc.work != sc.run) summary_free(sc.work);
     if (st == SCAN_OK) *out = sc.run;
     else summary_free(sc.run);
     return st;

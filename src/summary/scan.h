@@ -1,8 +1,10 @@
 /* scan: one streaming pass over sources into a summary.
  *
- * Each source is cut into chunks of whole records (io/chunk), each chunk is
- * tokenized (io/csv) into a chunk-local accumulator set, which is merged into
- * the running summary and reset.  Numeric cells are parsed by io/number and
+ * Each source is cut into chunks of whole records (io/chunk) and each chunk
+ * is tokenized (io/csv); every SUMMARY_BLOCK_ROWS rows, each column's block
+ * of cells is fed to its accumulators.  Chunks are independent units (a
+ * worker thread would fill its own summary and summary_merge it into the
+ * running one); with one thread they feed the running summary directly.  Numeric cells are parsed by io/number and
  * enter the moments as exact decimal deviations from the column's first
  * value, in blocks of SUMMARY_BLOCK_ROWS rows.  Nothing is allocated per field or row.
  */

@@ -41,7 +41,7 @@ void summary_options_defaults(summary_options *o)
 {
     memset(o, 0, sizeof *o);
     o->max_levels = 1024;
-    o->label_bytes = 64;
+    o->label_bytes = 32;
     o->bucket_budget = 2048;
     o->n_missing = sizeof DEFAULT_MISSING / sizeof *DEFAULT_MISSING;
     for (uint32_t i = 0; i < o->n_missing; i++) o->missing[i] = strdup(DEFAULT_MISSING[i]);
