@@ -1,0 +1,364 @@
+/* sheaf pca: principal components of a summary's correlation or covariance
+ * matrix (see stats/pca.h for the method). */
+#include <errno.h>
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "cli/cli.h"
+#include "out/json.h"
+#include "out/table.h"
+#include "stats/pca.h"
+#include "summary/summary.h"
+
+#define KEEP_LIST_MAX_BYTES (64u << 20)
+
+/* Reads a whole (small) text file; NULL with a message on failure. */
+static char *read_text(const char *path, char *err, size_t errlen)
+{
+    FILE *f = fopen(path, "rb");
+    if (!f) { snprintf(err, errlen, "%s: %s", path, strerror(errno)); return NULL; }
+    size_t cap = 4096, len = 0;
+    char *buf = malloc(cap);
+    while (buf) {
+        if (len + 1 >= cap) {
+            char *g = cap < KEEP_LIST_MAX_BYTES ? realloc(buf, cap * 2) : NULL;
+            if (!g) { free(buf); buf = NULL; break; }
+            buf = g;
+            cap *= 2;
+        }
+        size_t got = fread(buf + len, 1, cap - 1 - len, f);
+        len += got;
+        if (got == 0) break;
+    }
+    int bad = ferror(f);
+    fclose(f);
+    if (!buf || bad) {
+        snprintf(err, errlen, "%s: %s", path, buf ? "read error" : "too large or out of memory");
+        free(buf);
+        return NULL;
+    }
+    buf[len] = '\0';
+    return buf;
+}
+
+static void csv_field_out(FILE *f, const char *s)
+{
+    if (!strpbrk(s, ",\"\n\r")) { fputs(s, f); return; }
+    fputc('"', f);
+    for (; *s; s++) {
+        if (*s == '"') fputc('"', f);
+        fputc(*s, f);
+    }
+    fputc('"', f);
+}
+
+static const char *col_name(const summary *s, const pca_result *r, size_t j)
+{
+    return s->cols[r->cols[j]].name;
+}
+
+static void print_csv(const summary *s, const pca_result *r, size_t k)
+{
+    fputs("column", stdout);
+    for (size_t c = 0; c < k; c++) printf(",PC%zu", c + 1);
+    fputc('\n', stdout);
+    for (size_t j = 0; j < r->p; j++) {
+        csv_field_out(stdout, col_name(s, r, j));
+        for (size_t c = 0; c < k; c++) printf(",%.17g", r->loadings[c * r->p + j]);
+        fputc('\n', stdout);
+    }
+}
+
+static void print_json(const summary *s, const pca_result *r, size_t k, const char *rule,
+                       size_t nleading)
+{
+    size_t p = r->p;
+    json_out j;
+    json_init(&j, stdout);
+    json_object_begin(&j);
+    json_key(&j, "basis"); json_string(&j, pca_basis_name(r->basis));
+    json_key(&j, "rows"); json_uint(&j, s->rows);
+    json_key(&j, "columns");
+    json_array_begin(&j);
+    for (size_t c = 0; c < p; c++) json_string(&j, col_name(s, r, c));
+    json_array_end(&j);
+    json_key(&j, "excluded");
+    json_array_begin(&j);
+    for (size_t i = 0; i < r->nleft; i++) {
+        json_object_begin(&j);
+        json_key(&j, "column"); json_string(&j, s->cols[r->left[i].column].name);
+        json_key(&j, "reason"); json_string(&j, pca_reason_name(r->left[i].reason));
+        json_object_end(&j);
+    }
+    json_array_end(&j);
+    json_key(&j, "means");
+    json_array_begin(&j);
+    for (size_t c = 0; c < p; c++) json_number(&j, r->center[c]);
+    json_array_end(&j);
+    json_key(&j, "sds");
+    json_array_begin(&j);
+    for (size_t c = 0; c < p; c++) json_number(&j, sqrt(moments_variance(&s->cols[r->cols[c]].mom)));
+    json_array_end(&j);
+    json_key(&j, "eigenvalues");
+    json_array_begin(&j);
+    for (size_t c = 0; c < p; c++) json_number(&j, r->eigenvalues[c]);
+    json_array_end(&j);
+    json_key(&j, "share");
+    json_array_begin(&j);
+    for (size_t c = 0; c < p; c++) json_number(&j, r->share[c]);
+    json_array_end(&j);
+    json_key(&j, "cumulative");
+    json_array_begin(&j);
+    for (size_t c = 0; c < p; c++) json_number(&j, r->cumulative[c]);
+    json_array_end(&j);
+    json_key(&j, "k"); json_uint(&j, k);
+    json_key(&j, "k_rule"); json_string(&j, rule);
+    json_key(&j, "kaiser_k"); json_uint(&j, r->kaiser_k);
+    json_key(&j, "broken_stick_k"); json_uint(&j, r->broken_stick_k);
+    json_key(&j, "clamped_negative"); json_uint(&j, r->clamped_negative);
+    json_key(&j, "most_negative_eigenvalue");
+    if (r->clamped_negative) json_number(&j, r->most_negative);
+    else json_null(&j);
+    json_key(&j, "undefined_pairs"); json_uint(&j, r->undefined_pairs);
+    json_key(&j, "loadings");
+    json_array_begin(&j);
+    for (size_t c = 0; c < k; c++) {
+        json_array_begin(&j);
+        for (size_t v = 0; v < p; v++) json_number(&j, r->loadings[c * p + v]);
+        json_array_end(&j);
+    }
+    json_array_end(&j);
+    json_key(&j, "leading");
+    size_t *idx = malloc((nleading ? nleading : 1) * sizeof *idx);
+    json_array_begin(&j);
+    for (size_t c = 0; c < k && idx; c++) {
+        size_t n = pca_leading(r, c, nleading, idx);
+        json_array_begin(&j);
+        for (size_t i = 0; i < n; i++) {
+            json_object_begin(&j);
+            json_key(&j, "column"); json_string(&j, col_name(s, r, idx[i]));
+            json_key(&j, "loading"); json_number(&j, r->loadings[c * p + idx[i]]);
+            json_object_end(&j);
+        }
+        json_array_end(&j);
+    }
+    json_array_end(&j);
+    free(idx);
+    json_object_end(&j);
+    json_finish(&j);
+}
+
+static void print_text(const summary *s, const pca_result *r, size_t k, const char *rule,
+                       size_t nleading)
+{
+    size_t p = r->p, width = table_terminal_width();
+    int color = table_use_color(stdout);
+    printf("principal components of the %s matrix (pairwise complete)\n",
+           r->basis == PCA_BASIS_CORRELATION ? "correlation" : "sample covariance");
+    printf("%zu columns, %llu rows; total variance %.6g\n", p, (unsigned long long)s->rows,
+           r->total);
+    if (r->nleft) {
+        printf("left out (%zu):", r->nleft);
+        size_t shown = r->nleft < 40 ? r->nleft : 40;
+        for (size_t i = 0; i < shown; i++)
+            printf("%s %s (%s)", i ? "," : "", s->cols[r->left[i].column].name,
+                   pca_reason_name(r->left[i].reason));
+        if (shown < r->nleft) printf(", ... %zu more (--format json lists all)", r->nleft - shown);
+        fputc('\n', stdout);
+    }
+    printf("kept %zu component%s (%s); guides: Kaiser rule %zu, broken-stick rule %zu\n\n", k,
+           k == 1 ? "" : "s", rule, r->kaiser_k, r->broken_stick_k);
+
+    size_t rows = k;
+    if (r->kaiser_k > rows) rows = r->kaiser_k;
+    if (r->broken_stick_k > rows) rows = r->broken_stick_k;
+    rows = p <= 20 ? p : (rows + 5 > 20 ? rows + 5 : 20);
+    if (rows > p) rows = p;
+    table *t = table_create(7);
+    if (!t) return;
+    table_heading(t, 0, "component", 0);
+    table_heading(t, 1, "eigenvalue", 1);
+    table_heading(t, 2, "share", 1);
+    table_heading(t, 3, "cumulative", 1);
+    table_heading(t, 4, "stick", 1);
+    table_heading(t, 5, "kept", 0);
+    table_heading(t, 6, "guides", 0);
+    for (size_t c = 0; c < rows; c++) {
+        table_row(t);
+        table_cellf(t, 0, "PC%zu", c + 1);
+        table_cellf(t, 1, "%.6g", r->eigenvalues[c]);
+        table_cellf(t, 2, "%.2f%%", 100 * r->share[c]);
+        table_cellf(t, 3, "%.2f%%", 100 * r->cumulative[c]);
+        table_cellf(t, 4, "%.2f%%", 100 * pca_broken_stick(c + 1, p));
+        if (c < k) table_cell(t, 5, "*");
+        const char *g = c < r->kaiser_k && c < r->broken_stick_k ? "Kaiser, stick"
+                        : c < r->kaiser_k                        ? "Kaiser"
+                        : c < r->broken_stick_k                  ? "stick"
+                                                                 : "";
+        table_cell(t, 6, g);
+    }
+    table_print(t, stdout, width, color);
+    table_free(t);
+    if (rows < p) printf("... %zu more components (--format json lists all)\n", p - rows);
+    printf("(stick: the share the broken-stick rule expects; a guide keeps a component "
+           "while it holds)\n");
+
+    size_t *idx = malloc((nleading ? nleading : 1) * sizeof *idx);
+    if (idx && nleading) {
+        printf("\nlargest loadings of the kept components:\n");
+        for (size_t c = 0; c < k; c++) {
+            size_t n = pca_leading(r, c, nleading, idx);
+            printf("  PC%-3zu", c + 1);
+            for (size_t i = 0; i < n; i++)
+                printf(" %+.3f %s%s", r->loadings[c * p + idx[i]], col_name(s, r, idx[i]),
+                       i + 1 < n ? "," : "");
+            fputc('\n', stdout);
+        }
+    }
+    free(idx);
+
+    printf("\nloadings:\n");
+    t = table_create(k + 1);
+    if (!t) return;
+    table_heading(t, 0, "column", 0);
+    for (size_t c = 0; c < k; c++) {
+        char h[32];
+        snprintf(h, sizeof h, "PC%zu", c + 1);
+        table_heading(t, c + 1, h, 1);
+    }
+    for (size_t j = 0; j < p; j++) {
+        table_row(t);
+        table_cell(t, 0, col_name(s, r, j));
+        for (size_t c = 0; c < k; c++) table_cellf(t, c + 1, "%.4f", r->loadings[c * p + j]);
+    }
+    table_print(t, stdout, width, color);
+    table_free(t);
+}
+
+int cmd_pca(int argc, char **argv)
+{
+    const char *format = "text", *basis = NULL, *cols = NULL, *exclude = NULL, *keep = NULL;
+    const char *k_s = NULL, *share_s = NULL, *numshare_s = NULL, *leading_s = NULL;
+    int with_target = 0;
+    const cli_option opts[] = {
+        {"format", 'f', "FMT", "text (default), csv (the loadings) or json", &format, NULL},
+        {"basis", 0, "B", "correlation (default) or covariance", &basis, NULL},
+        {"k", 'k', "N", "components to keep (default: the Kaiser rule's count)", &k_s, NULL},
+        {"share", 0, "P", "keep the fewest components reaching this cumulative share",
+         &share_s, NULL},
+        {"columns", 0, "A,B,..", "use these columns instead of the automatic choice", &cols, NULL},
+        {"keep-list", 0, "FILE", "use the columns named in FILE (one per line)", &keep, NULL},
+        {"exclude", 0, "A,B,..", "leave these columns out", &exclude, NULL},
+        {"with-target", 0, NULL, "keep the summary's target column in the automatic choice",
+         NULL, &with_target},
+        {"leading", 0, "N", "largest loadings listed per component (default 5)", &leading_s, NULL},
+        {"numeric-share", 0, "P", "share of parsing cells that makes a column numeric (default 0.99)",
+         &numshare_s, NULL},
+        {0},
+    };
+    const cli_command cmd = {
+        "pca", "FILE.sheaf [--k N | --share P] [--basis correlation|covariance] [options]",
+        "Principal components of the pairwise-complete correlation matrix (or, with\n"
+        "--basis covariance, the sample covariance matrix) of a summary's numeric\n"
+        "columns, from the summary alone. By default the columns are those a screen\n"
+        "would test: categorical, constant and ID-like columns and the target are left\n"
+        "out and listed. Prints the eigenvalues, their shares, where the Kaiser and\n"
+        "broken-stick rules would stop, and the loadings of the kept components.",
+        opts};
+    char **pos;
+    size_t npos;
+    int rc = cli_parse(&cmd, argc, argv, &pos, &npos);
+    if (rc) { free(pos); return rc == 1 ? EXIT_DONE : rc; }
+    rc = EXIT_USAGE;
+    summary *s = NULL;
+    pca_result *r = NULL;
+    char *keep_text = NULL;
+    char err[1024];
+    pca_options o;
+    pca_options_defaults(&o);
+    long long k_req = 0, nleading = 5;
+    double share_req = 0;
+    if (npos != 1) { cli_error("pca", "expected one summary file"); goto done; }
+    if (strcmp(format, "text") && strcmp(format, "csv") && strcmp(format, "json")) {
+        cli_error("pca", "--format must be text, csv or json, got '%s'", format);
+        goto done;
+    }
+    if (basis && !strcmp(basis, "covariance")) o.basis = PCA_BASIS_COVARIANCE;
+    else if (basis && strcmp(basis, "correlation")) {
+        cli_error("pca", "--basis must be correlation or covariance, got '%s'", basis);
+        goto done;
+    }
+    if (k_s && (k_req = cli_parse_count(k_s)) < 1) {
+        cli_error("pca", "--k must be a positive whole number, got '%s'", k_s);
+        goto done;
+    }
+    if (share_s) {
+        char *end;
+        share_req = strtod(share_s, &end);
+        if (*end || end == share_s || !(share_req > 0 && share_req <= 1)) {
+            cli_error("pca", "--share must be in (0, 1], got '%s'", share_s);
+            goto done;
+        }
+    }
+    if (k_s && share_s) { cli_error("pca", "give --k or --share, not both"); goto done; }
+    if (leading_s && (nleading = cli_parse_count(leading_s)) < 0) {
+        cli_error("pca", "--leading must be a whole number, got '%s'", leading_s);
+        goto done;
+    }
+    if (numshare_s) {
+        char *end;
+        o.numeric_share = strtod(numshare_s, &end);
+        if (*end || end == numshare_s || !(o.numeric_share > 0 && o.numeric_share <= 1)) {
+            cli_error("pca", "--numeric-share must be in (0, 1], got '%s'", numshare_s);
+            goto done;
+        }
+    }
+    if (keep) {
+        keep_text = read_text(keep, err, sizeof err);
+        if (!keep_text) { cli_error("pca", "--keep-list: %s", err); rc = EXIT_INPUT; goto done; }
+    }
+    o.columns = cols;
+    o.exclude = exclude;
+    o.keep_list = keep_text;
+    o.with_target = with_target;
+    summary_status st = summary_read(pos[0], &s, err, sizeof err);
+    if (st != SUMMARY_OK) { cli_error("pca", "%s", err); rc = cli_summary_exit(st); goto done; }
+    pca_status ps = pca_fit(s, &o, &r, err, sizeof err);
+    if (ps != PCA_OK) {
+        cli_error("pca", "%s: %s", pos[0], err);
+        rc = ps == PCA_ERR_USAGE ? EXIT_USAGE : ps == PCA_ERR_MEMORY ? EXIT_RESOURCE : EXIT_FAILED;
+        goto done;
+    }
+    if (r->undefined_pairs)
+        fprintf(stderr,
+                "sheaf pca: warning: %zu column pair%s never present together (or constant "
+                "where together): %s set to 0\n",
+                r->undefined_pairs, r->undefined_pairs == 1 ? " is" : "s are",
+                r->undefined_pairs == 1 ? "its entry" : "their entries");
+    if (r->clamped_negative)
+        fprintf(stderr,
+                "sheaf pca: warning: the pairwise-complete %s matrix is not positive "
+                "semi-definite (missing cells): %zu negative eigenvalue%s, the most negative "
+                "%.6g, set to 0\n",
+                pca_basis_name(r->basis), r->clamped_negative, r->clamped_negative == 1 ? "" : "s",
+                r->most_negative);
+    size_t k = pca_choose_k(r, (size_t)k_req, share_req);
+    char rule[64];
+    if (k_req) snprintf(rule, sizeof rule, "--k %lld", k_req);
+    else if (share_s) snprintf(rule, sizeof rule, "--share %s", share_s);
+    else snprintf(rule, sizeof rule, "Kaiser rule");
+    if (!strcmp(format, "csv")) print_csv(s, r, k);
+    else if (!strcmp(format, "json"))
+        print_json(s, r, k, k_req ? "k" : share_s ? "share" : "kaiser", (size_t)nleading);
+    else print_text(s, r, k, rule, (size_t)nleading);
+    rc = fflush(stdout) == 0 && !ferror(stdout) ? EXIT_DONE : EXIT_FAILED;
+    if (rc) cli_error("pca", "cannot write the output");
+done:
+    pca_result_free(r);
+    summary_free(s);
+    free(keep_text);
+    free(pos);
+    return rc;
+}

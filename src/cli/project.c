@@ -1,0 +1,771 @@
+/* sheaf project: scores of the leading principal components, row by row.
+ *
+ * The PCA is computed from the summary exactly as `sheaf pca` does (same
+ * column choice, same k); the data files are then streamed again: each file's
+ * header gives the position of every basis column by name, each cell is
+ * parsed (io/number), blocks of BLOCK_ROWS rows are standardised and
+ * multiplied by the loadings (pca_project: cblas_dgemm), and the scores are
+ * written as CSV.  Memory is bounded by one chunk of input, one block of rows
+ * and one output buffer.
+ *
+ * Output goes to a temporary file beside OUT that is renamed when complete,
+ * so a failed run leaves no partial OUT; it is gzip (ISA-L's isal_deflate,
+ * level GZIP_LEVEL, one member with the CRC-32 and length trailer) when OUT
+ * ends in .gz and zstd (libzstd streaming, level 3) when it ends in .zst.
+ */
+#include <errno.h>
+#include <math.h>
+#include <stdint.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <sys/stat.h>
+#include <unistd.h>
+#include <isa-l.h>
+#include <zstd.h>
+
+#include "cli/cli.h"
+#include "io/chunk.h"
+#include "io/csv.h"
+#include "io/number.h"
+#include "io/source.h"
+#include "stats/pca.h"
+#include "summary/summary.h"
+
+#define BLOCK_ROWS 256
+#define OUT_BUFFER_BYTES (1u << 20)
+#define KEEP_LIST_MAX_BYTES (64u << 20)
+#define GZIP_LEVEL 2
+
+/* ---- output ------------------------------------------------------------- */
+
+typedef enum { DEST_PLAIN, DEST_GZIP, DEST_ZSTD } dest_kind;
+
+typedef struct {
+    dest_kind kind;
+    int fd;               /* destination (1 for stdout) */
+    struct isal_zstream *gz; /* DEST_GZIP */
+    uint8_t *gz_level_buf; /* its level buffer */
+    ZSTD_CCtx *zc;        /* DEST_ZSTD */
+    char *zbuf;           /* compressed bytes (DEST_GZIP, DEST_ZSTD) */
+    size_t zcap;
+    char *buf;            /* text not yet handed to the dest */
+    size_t len, cap;
+    const char *path;     /* final name, NULL for stdout */
+    char *tmp;            /* temporary name */
+    int failed;           /* a write failed; err holds why */
+    char err[512];
+} dest;
+
+static int write_all(dest *o, const char *p, size_t n)
+{
+    while (n > 0) {
+        ssize_t w = write(o->fd, p, n);
+        if (w < 0 && errno == EINTR) continue;
+        if (w <= 0) {
+            snprintf(o->err, sizeof o->err, "%s: cannot write: %s", o->path ? o->path : "stdout",
+                     strerror(errno));
+            return -1;
+        }
+        p += w;
+        n -= (size_t)w;
+    }
+    return 0;
+}
+
+static int zstd_pump(dest *o, const char *p, size_t n, ZSTD_EndDirective mode)
+{
+    ZSTD_inBuffer in = {p, n, 0};
+    for (;;) {
+        ZSTD_outBuffer out = {o->zbuf, o->zcap, 0};
+        size_t left = ZSTD_compressStream2(o->zc, &out, &in, mode);
+        if (ZSTD_isError(left)) {
+            snprintf(o->err, sizeof o->err, "%s: zstd: %s", o->path, ZSTD_getErrorName(left));
+            return -1;
+        }
+        if (write_all(o, o->zbuf, out.pos) != 0) return -1;
+        if (mode == ZSTD_e_end ? left == 0 : in.pos == in.size) return 0;
+    }
+}
+
+static int gzip_pump(dest *o, const char *p, size_t n, int end)
+{
+    struct isal_zstream *z = o->gz;
+    z->next_in = (uint8_t *)p;
+    z->avail_in = (uint32_t)n;
+    z->end_of_stream = end;
+    for (;;) {
+        z->next_out = (uint8_t *)o->zbuf;
+        z->avail_out = (uint32_t)o->zcap;
+        int rc = isal_deflate(z);
+        if (rc != COMP_OK) {
+            snprintf(o->err, sizeof o->err, "%s: gzip: isal_deflate error %d", o->path, rc);
+            return -1;
+        }
+        if (write_all(o, o->zbuf, o->zcap - z->avail_out) != 0) return -1;
+        if (end ? z->internal_state.state == ZSTATE_END : z->avail_in == 0) return 0;
+    }
+}
+
+static int dest_drain(dest *o)
+{
+    if (o->failed) return -1;
+    int rc = 0;
+    if (o->len == 0) return 0;
+    switch (o->kind) {
+    case DEST_PLAIN: rc = write_all(o, o->buf, o->len); break;
+    case DEST_GZIP: rc = gzip_pump(o, o->buf, o->len, 0); break;
+    case DEST_ZSTD: rc = zstd_pump(o, o->buf, o->len, ZSTD_e_continue); break;
+    }
+    o->len = 0;
+    if (rc) o->failed = 1;
+    return rc;
+}
+
+/* Room for n more bytes in the buffer. */
+static int dest_reserve(dest *o, size_t n)
+{
+    if (o->len + n <= o->cap) return 0;
+    if (dest_drain(o) != 0) return -1;
+    if (n > o->cap) {
+        char *g = realloc(o->buf, n);
+        if (!g) { snprintf(o->err, sizeof o->err, "out of memory"); o->failed = 1; return -1; }
+        o->buf = g;
+        o->cap = n;
+    }
+    return 0;
+}
+
+static dest_kind kind_of(const char *path)
+{
+    size_t n = strlen(path);
+    if (n > 3 && !strcmp(path + n - 3, ".gz")) return DEST_GZIP;
+    if (n > 4 && !strcmp(path + n - 4, ".zst")) return DEST_ZSTD;
+    if (n > 5 && !strcmp(path + n - 5, ".zstd")) return DEST_ZSTD;
+    return DEST_PLAIN;
+}
+
+static int dest_open(dest *o, const char *path)
+{
+    memset(o, 0, sizeof *o);
+    o->fd = 1;
+    o->cap = OUT_BUFFER_BYTES;
+    o->buf = malloc(o->cap);
+    if (!o->buf) { snprintf(o->err, sizeof o->err, "out of memory"); return -1; }
+    if (!path || !strcmp(path, "-")) return 0;
+    o->path = path;
+    o->kind = kind_of(path);
+    size_t plen = strlen(path);
+    o->tmp = malloc(plen + 16);
+    if (!o->tmp) { snprintf(o->err, sizeof o->err, "out of memory"); return -1; }
+    snprintf(o->tmp, plen + 16, "%s.tmp.XXXXXX", path);
+    o->fd = mkstemp(o->tmp);
+    if (o->fd < 0) {
+        snprintf(o->err, sizeof o->err, "%s: cannot create: %s", path, strerror(errno));
+        free(o->tmp);
+        o->tmp = NULL;
+        return -1;
+    }
+    if (o->kind == DEST_GZIP) {
+        o->gz = malloc(sizeof *o->gz);
+        o->gz_level_buf = malloc(ISAL_DEF_LVL2_DEFAULT);
+        o->zcap = 256u << 10;
+        o->zbuf = malloc(o->zcap);
+        if (!o->gz || !o->gz_level_buf || !o->zbuf) {
+            snprintf(o->err, sizeof o->err, "out of memory");
+            return -1;
+        }
+        isal_deflate_init(o->gz);
+        o->gz->level = GZIP_LEVEL;
+        o->gz->level_buf = o->gz_level_buf;
+        o->gz->level_buf_size = ISAL_DEF_LVL2_DEFAULT;
+        o->gz->gzip_flag = IGZIP_GZIP;
+    } else if (o->kind == DEST_ZSTD) {
+        o->zc = ZSTD_createCCtx();
+        o->zcap = ZSTD_CStreamOutSize();
+        o->zbuf = malloc(o->zcap);
+        if (!o->zc || !o->zbuf ||
+            ZSTD_isError(ZSTD_CCtx_setParameter(o->zc, ZSTD_c_compressionLevel, 3))) {
+            snprintf(o->err, sizeof o->err, "%s: cannot start zstd output", path);
+            return -1;
+        }
+    }
+    return 0;
+}
+
+/* Finishes the output (ok: rename into place) or discards it.  Returns 0 or
+ * -1 with a message in o->err. */
+static int dest_close(dest *o, int ok)
+{
+    int rc = 0;
+    if (ok && dest_drain(o) != 0) ok = 0, rc = -1;
+    if (o->gz && ok && gzip_pump(o, NULL, 0, 1) != 0) ok = 0, rc = -1;
+    if (o->zc && ok && zstd_pump(o, NULL, 0, ZSTD_e_end) != 0) ok = 0, rc = -1;
+    if (o->path && o->fd >= 0) {
+        if (ok && fsync(o->fd) != 0) {
+            snprintf(o->err, sizeof o->err, "%s: cannot write: %s", o->path, strerror(errno));
+            ok = 0, rc = -1;
+        }
+        if (close(o->fd) != 0 && ok) {
+            snprintf(o->err, sizeof o->err, "%s: cannot write: %s", o->path, strerror(errno));
+            ok = 0, rc = -1;
+        }
+        mode_t mask = umask(0);
+        umask(mask);
+        if (ok) chmod(o->tmp, 0666 & ~mask);
+        if (ok && rename(o->tmp, o->path) != 0) {
+            snprintf(o->err, sizeof o->err, "%s: cannot write: %s", o->path, strerror(errno));
+            ok = 0, rc = -1;
+        }
+        if (!ok) unlink(o->tmp);
+    }
+    free(o->gz);
+    free(o->gz_level_buf);
+    ZSTD_freeCCtx(o->zc);
+    free(o->zbuf);
+    free(o->buf);
+    free(o->tmp);
+    return rc;
+}
+
+/* ---- formatting --------------------------------------------------------- */
+
+/* Appends a CSV field, quoted when it holds ',', '"', CR or LF (RFC 4180);
+ * needs at most 2 n + 2 bytes. */
+static char *put_field(char *d, const char *s, size_t n)
+{
+    int quote = 0;
+    for (size_t i = 0; i < n && !quote; i++)
+        quote = s[i] == ',' || s[i] == '"' || s[i] == '\n' || s[i] == '\r';
+    if (!quote) {
+        memcpy(d, s, n);
+        return d + n;
+    }
+    *d++ = '"';
+    for (size_t i = 0; i < n; i++) {
+        if (s[i] == '"') *d++ = '"';
+        *d++ = s[i];
+    }
+    *d++ = '"';
+    return d;
+}
+
+static const double POW10[] = {1e0,  1e1,  1e2,  1e3,  1e4,  1e5,  1e6,  1e7,
+                               1e8,  1e9,  1e10, 1e11, 1e12, 1e13, 1e14, 1e15,
+                               1e16, 1e17, 1e18, 1e19, 1e20, 1e21, 1e22};
+
+/* a * 10^s for |s| <= 22: one correctly rounded operation on exact values. */
+static double scale10(double a, int s)
+{
+    return s >= 0 ? a * POW10[s] : a / POW10[-s];
+}
+
+/* Writes v as printf's "%.10g" does (at most 24 bytes), without printf on
+ * the common path.  With 10^e <= |v| < 10^(e+1), m = |v| 10^(9-e) is one
+ * rounded operation away from the exact value (relative error <= 2^-53, so
+ * absolute error < 2e-6 for m < 1e10); rounding m to an integer is then
+ * exact unless m lies within 1e-4 of a half-integer, or the scale is not an
+ * exact power of ten (|9-e| > 22): those cases go to snprintf. */
+static char *put_g10(char *d, double v)
+{
+    if (v == 0) { *d++ = '0'; return d; }
+    double a = fabs(v);
+    if (!(a >= 1e-13 && a < 1e31)) return d + snprintf(d, 32, "%.10g", v);
+    int b2;
+    frexp(a, &b2); /* a in [2^(b2-1), 2^b2): e is this estimate or one more */
+    int e = (int)floor((b2 - 1) * 0.30102999566398120);
+    double m = 0;
+    for (int tries = 0; tries < 3; tries++) {
+        if (9 - e > 22 || 9 - e < -22) return d + snprintf(d, 32, "%.10g", v);
+        m = scale10(a, 9 - e);
+        if (m < 1e9) e--;
+        else if (m >= 1e10) e++;
+        else break;
+    }
+    if (!(m >= 1e9 && m < 1e10)) return d + snprintf(d, 32, "%.10g", v);
+    double fl = floor(m), frac = m - fl;
+    if (fabs(frac - 0.5) < 1e-4) return d + snprintf(d, 32, "%.10g", v);
+    uint64_t q = (uint64_t)fl + (frac > 0.5);
+    if (q == 10000000000ull) { q = 1000000000ull; e++; }
+    char dig[10];
+    for (int i = 9; i >= 0; i--) { dig[i] = (char)('0' + q % 10); q /= 10; }
+    int nd = 10;
+    while (nd > 1 && dig[nd - 1] == '0') nd--;
+    if (v < 0) *d++ = '-';
+    if (e < -4 || e >= 10) {
+        *d++ = dig[0];
+        if (nd > 1) {
+            *d++ = '.';
+            memcpy(d, dig + 1, (size_t)nd - 1);
+            d += nd - 1;
+        }
+        *d++ = 'e';
+        *d++ = e < 0 ? '-' : '+';
+        int x = e < 0 ? -e : e;
+        if (x >= 100) *d++ = (char)('0' + x / 100);
+        *d++ = (char)('0' + x / 10 % 10);
+        *d++ = (char)('0' + x % 10);
+    } else if (e >= 0) {
+        memcpy(d, dig, (size_t)e + 1);
+        d += e + 1;
+        if (nd > e + 1) {
+            *d++ = '.';
+            memcpy(d, dig + e + 1, (size_t)(nd - e - 1));
+            d += nd - e - 1;
+        }
+    } else {
+        *d++ = '0';
+        *d++ = '.';
+        for (int z = 0; z < -e - 1; z++) *d++ = '0';
+        memcpy(d, dig, (size_t)nd);
+        d += nd;
+    }
+    return d;
+}
+
+/* ---- the pass over the data --------------------------------------------- */
+
+typedef struct {
+    const summary *s;
+    const pca_result *r;
+    size_t k;
+    int header;                /* files start with a header */
+    char delim_opt;            /* --delim, 0 = detect per file */
+    char **carry;              /* carried column names */
+    size_t ncarry;
+    size_t *field_of;          /* p: field index of each basis column in this file */
+    size_t *carry_field;       /* ncarry: field index of each carried column */
+    csv_field *fields;         /* record buffer */
+    size_t cap_fields;
+    uint64_t miss_mask;        /* bit L: a missing spelling has length L */
+    size_t miss_len[SUMMARY_MAX_MISSING]; /* length of each spelling */
+    /* The current block. */
+    size_t rows;
+    double *x;                 /* BLOCK_ROWS x p */
+    double *scores;            /* BLOCK_ROWS x k */
+    csv_field *carried;        /* BLOCK_ROWS x ncarry */
+    size_t row_bytes;          /* upper bound on the output bytes of a row, carries aside */
+    uint64_t rows_out;
+    dest *out;
+    char err[1024];
+} projector;
+
+static int is_missing(const projector *pj, const char *p, uint32_t len)
+{
+    if (len == 0) return 1;
+    if (len >= 64 || !(pj->miss_mask >> len & 1)) return 0;
+    const summary_options *o = &pj->s->opt;
+    for (uint32_t i = 0; i < o->n_missing; i++)
+        if (pj->miss_len[i] == len && memcmp(o->missing[i], p, len) == 0) return 1;
+    return 0;
+}
+
+static int flush_block(projector *pj)
+{
+    if (!pj->rows) return 0;
+    pca_project(pj->r, pj->k, pj->x, pj->rows, pj->scores);
+    for (size_t i = 0; i < pj->rows; i++) {
+        size_t need = pj->row_bytes;
+        const csv_field *cf = pj->carried + i * pj->ncarry;
+        for (size_t c = 0; c < pj->ncarry; c++) need += 2 * (size_t)cf[c].len + 3;
+        if (dest_reserve(pj->out, need) != 0) return -1;
+        char *d = pj->out->buf + pj->out->len;
+        for (size_t c = 0; c < pj->ncarry; c++) {
+            if (c) *d++ = ',';
+            if (cf[c].ptr) d = put_field(d, cf[c].ptr, cf[c].len);
+        }
+        const double *sc = pj->scores + i * pj->k;
+        for (size_t c = 0; c < pj->k; c++) {
+            if (c || pj->ncarry) *d++ = ',';
+            d = put_g10(d, sc[c]);
+        }
+        *d++ = '\n';
+        pj->out->len = (size_t)(d - pj->out->buf);
+    }
+    pj->rows_out += pj->rows;
+    pj->rows = 0;
+    return 0;
+}
+
+/* Field index of a column name in a header of nf fields; SIZE_MAX when absent. */
+static size_t header_find(const projector *pj, const csv_field *f, size_t nf, const char *name)
+{
+    if (!pj->header) {
+        /* Unnamed columns are col1..colN (as sheaf scan --no-header names them). */
+        char *end;
+        if (strncmp(name, "col", 3) != 0 || name[3] < '1' || name[3] > '9') return SIZE_MAX;
+        unsigned long long i = strtoull(name + 3, &end, 10);
+        return *end || i < 1 || i >= SIZE_MAX / 2 ? SIZE_MAX : (size_t)(i - 1);
+    }
+    size_t len = strlen(name);
+    for (size_t i = 0; i < nf; i++)
+        if (f[i].len == len && memcmp(f[i].ptr, name, len) == 0) return i;
+    return SIZE_MAX;
+}
+
+/* Maps the basis and carried columns to fields of this file's first record. */
+static int map_header(projector *pj, const char *path, const csv_field *f, size_t nf)
+{
+    for (size_t j = 0; j < pj->r->p; j++) {
+        const char *name = pj->s->cols[pj->r->cols[j]].name;
+        size_t at = header_find(pj, f, nf, name);
+        if (at == SIZE_MAX) {
+            snprintf(pj->err, sizeof pj->err,
+                     "%s: line 1: no column named '%s' in the header (the PCA uses it)", path, name);
+            return -1;
+        }
+        pj->field_of[j] = at;
+    }
+    for (size_t c = 0; c < pj->ncarry; c++) {
+        size_t at = header_find(pj, f, nf, pj->carry[c]);
+        if (at == SIZE_MAX) {
+            snprintf(pj->err, sizeof pj->err, "%s: line 1: --carry: no column named '%s'%s", path,
+                     pj->carry[c], pj->header ? " in the header" : " (use col1..colN)");
+            return -1;
+        }
+        pj->carry_field[c] = at;
+    }
+    return 0;
+}
+
+/* Grows the record buffer to hold the fields of the record at p (an upper
+ * bound from the delimiters before its end). */
+static int fit_fields(projector *pj, const char *p, const char *end, char delim)
+{
+    size_t cap = 2;
+    int inside = 0, content = 0;
+    for (; p < end; p++) {
+        if (*p == '"') inside = !inside;
+        else if (!inside && *p == delim) cap++;
+        else if (!inside && *p == '\n' && content) break;
+        content |= *p != '\n' && *p != '\r';
+    }
+    size_t need = cap;
+    if (need <= pj->cap_fields) return 0;
+    csv_field *g = realloc(pj->fields, need * sizeof *g);
+    if (!g) { snprintf(pj->err, sizeof pj->err, "out of memory"); return -1; }
+    pj->fields = g;
+    pj->cap_fields = need;
+    return 0;
+}
+
+/* Streams one data file.  Returns 0, or an exit code with pj->err set. */
+static int project_file(projector *pj, chunker *ck, const char *path)
+{
+    source *src = source_open(path, pj->err, sizeof pj->err);
+    if (!src) return EXIT_INPUT;
+    chunker_start(ck, src);
+    int rc = 0, at_first = 1;
+    char delim = pj->delim_opt;
+    uint64_t line_base = 0;
+    size_t p = pj->r->p;
+    /* The largest field index the hot loop reads. */
+    size_t max_field = 0;
+    for (;;) {
+        chunk ch;
+        int got = chunker_next(ck, &ch, pj->err, sizeof pj->err);
+        if (got < 0) { rc = EXIT_INPUT; break; }
+        if (got == 0) break;
+        char *data = ch.data;
+        size_t len = ch.len;
+        if (ch.offset == 0) {
+            size_t bom = csv_bom_length(data, len);
+            data += bom;
+            len -= bom;
+            if (!delim) delim = csv_detect_delimiter(data, len);
+        }
+        csv_reader rd;
+        csv_reader_init(&rd, data, len, delim);
+        for (;;) {
+            size_t nf;
+            if (at_first && fit_fields(pj, rd.pos, rd.end, delim) != 0) { rc = EXIT_RESOURCE; break; }
+            csv_status cs = csv_next(&rd, pj->fields, pj->cap_fields, &nf);
+            if (cs == CSV_END) break;
+            uint64_t line = line_base + rd.record_line + 1;
+            if (cs == CSV_UNTERMINATED) {
+                snprintf(pj->err, sizeof pj->err,
+                         "%s: line %llu: unterminated quote (a quoted field runs to the end of "
+                         "the input)",
+                         path, (unsigned long long)line);
+                rc = EXIT_INPUT;
+                break;
+            }
+            size_t have = nf < pj->cap_fields ? nf : pj->cap_fields;
+            if (at_first) {
+                at_first = 0;
+                if (map_header(pj, path, pj->fields, have) != 0) { rc = EXIT_INPUT; break; }
+                for (size_t j = 0; j < p; j++)
+                    if (pj->field_of[j] > max_field) max_field = pj->field_of[j];
+                for (size_t c = 0; c < pj->ncarry; c++)
+                    if (pj->carry_field[c] > max_field) max_field = pj->carry_field[c];
+                if (max_field + 2 > pj->cap_fields) {
+                    csv_field *g = realloc(pj->fields, (max_field + 2) * sizeof *g);
+                    if (!g) { snprintf(pj->err, sizeof pj->err, "out of memory"); rc = EXIT_RESOURCE; break; }
+                    pj->fields = g;
+                    pj->cap_fields = max_field + 2;
+                }
+                if (pj->header) continue;
+            }
+            double *x = pj->x + pj->rows * p;
+            for (size_t j = 0; j < p; j++) {
+                size_t fi = pj->field_of[j];
+                double v = NAN;
+                if (fi < have) {
+                    const csv_field *f = &pj->fields[fi];
+                    number_decimal dec;
+                    if (!is_missing(pj, f->ptr, f->len) &&
+                        number_parse(f->ptr, f->len, &dec) == NUMBER_FINITE)
+                        v = dec.value;
+                }
+                x[j] = v;
+            }
+            csv_field *cf = pj->carried + pj->rows * pj->ncarry;
+            for (size_t c = 0; c < pj->ncarry; c++) {
+                size_t fi = pj->carry_field[c];
+                cf[c] = fi < have ? pj->fields[fi] : (csv_field){NULL, 0};
+            }
+            if (++pj->rows == BLOCK_ROWS && flush_block(pj) != 0) {
+                snprintf(pj->err, sizeof pj->err, "%s", pj->out->err);
+                rc = EXIT_FAILED;
+                break;
+            }
+        }
+        if (rc) break;
+        line_base += rd.lines;
+        /* Carried fields point into the chunk: finish the block with it. */
+        if (flush_block(pj) != 0) {
+            snprintf(pj->err, sizeof pj->err, "%s", pj->out->err);
+            rc = EXIT_FAILED;
+            break;
+        }
+    }
+    if (!rc && at_first) {
+        snprintf(pj->err, sizeof pj->err, "%s: no records (empty input)", path);
+        rc = EXIT_INPUT;
+    }
+    source_close(src);
+    return rc;
+}
+
+/* ---- the command -------------------------------------------------------- */
+
+static char *read_text(const char *path, char *err, size_t errlen)
+{
+    FILE *f = fopen(path, "rb");
+    if (!f) { snprintf(err, errlen, "%s: %s", path, strerror(errno)); return NULL; }
+    size_t cap = 4096, len = 0;
+    char *buf = malloc(cap);
+    while (buf) {
+        if (len + 1 >= cap) {
+            char *g = cap < KEEP_LIST_MAX_BYTES ? realloc(buf, cap * 2) : NULL;
+            if (!g) { free(buf); buf = NULL; break; }
+            buf = g;
+            cap *= 2;
+        }
+        size_t got = fread(buf + len, 1, cap - 1 - len, f);
+        len += got;
+        if (got == 0) break;
+    }
+    int bad = ferror(f);
+    fclose(f);
+    if (!buf || bad) {
+        snprintf(err, errlen, "%s: %s", path, buf ? "read error" : "too large or out of memory");
+        free(buf);
+        return NULL;
+    }
+    buf[len] = '\0';
+    return buf;
+}
+
+static int parse_delim(const char *s, char *out)
+{
+    if (!strcmp(s, "tab") || !strcmp(s, "\\t") || !strcmp(s, "\t")) { *out = '\t'; return 0; }
+    if (strlen(s) == 1 && s[0] != '"' && s[0] != '\n' && s[0] != '\r') { *out = s[0]; return 0; }
+    return -1;
+}
+
+int cmd_project(int argc, char **argv)
+{
+    const char *pca_path = NULL, *out_path = NULL, *delim_s = NULL, *carry_s = NULL;
+    const char *basis = NULL, *cols = NULL, *exclude = NULL, *keep = NULL;
+    const char *k_s = NULL, *share_s = NULL, *numshare_s = NULL;
+    int with_target = 0, no_header = 0;
+    const cli_option opts[] = {
+        {"pca", 0, "FILE.sheaf", "summary of the data the components come from (required)",
+         &pca_path, NULL},
+        {"output", 'o', "OUT", "file to write (.gz: gzip, .zst: zstd; default: standard output)",
+         &out_path, NULL},
+        {"carry", 0, "A,B,..", "copy these columns (IDs, the target) in front of the scores",
+         &carry_s, NULL},
+        {"k", 'k', "N", "components to score (default: the Kaiser rule's count)", &k_s, NULL},
+        {"share", 0, "P", "score the fewest components reaching this cumulative share",
+         &share_s, NULL},
+        {"basis", 0, "B", "correlation (default) or covariance", &basis, NULL},
+        {"columns", 0, "A,B,..", "use these columns instead of the automatic choice", &cols, NULL},
+        {"keep-list", 0, "FILE", "use the columns named in FILE (one per line)", &keep, NULL},
+        {"exclude", 0, "A,B,..", "leave these columns out", &exclude, NULL},
+        {"with-target", 0, NULL, "keep the summary's target column in the automatic choice",
+         NULL, &with_target},
+        {"numeric-share", 0, "P", "share of parsing cells that makes a column numeric (default 0.99)",
+         &numshare_s, NULL},
+        {"delim", 'd', "CHAR", "field delimiter: , ; | or tab (default: detected per file)",
+         &delim_s, NULL},
+        {"no-header", 0, NULL, "first row is data; columns are named col1..colN", NULL, &no_header},
+        {0},
+    };
+    const cli_command cmd = {
+        "project", "DATA... --pca FILE.sheaf [-o OUT] [--k N | --share P] [--carry COLS]",
+        "Reads each DATA file again and writes, for every row, its scores on the leading\n"
+        "principal components of the summary (the same components `sheaf pca` reports\n"
+        "with the same options) as CSV. Each value is standardised with the summary's\n"
+        "mean and sample standard deviation (centred only with --basis covariance); a\n"
+        "missing or non-numeric cell counts as the mean. A failed run writes nothing.",
+        opts};
+    char **pos;
+    size_t npos;
+    int rc = cli_parse(&cmd, argc, argv, &pos, &npos);
+    if (rc) { free(pos); return rc == 1 ? EXIT_DONE : rc; }
+    rc = EXIT_USAGE;
+    summary *s = NULL;
+    pca_result *r = NULL;
+    char *keep_text = NULL, *carry_buf = NULL;
+    chunker *ck = NULL;
+    char err[1024];
+    pca_options o;
+    pca_options_defaults(&o);
+    projector pj;
+    memset(&pj, 0, sizeof pj);
+    dest out;
+    int dest_opened = 0;
+    long long k_req = 0;
+    double share_req = 0;
+    if (npos == 0) { cli_error("project", "no data files (see sheaf project --help)"); goto done; }
+    if (!pca_path) { cli_error("project", "--pca FILE.sheaf is required"); goto done; }
+    if (delim_s && parse_delim(delim_s, &pj.delim_opt) != 0) {
+        cli_error("project", "--delim must be one character or 'tab', got '%s'", delim_s);
+        goto done;
+    }
+    if (basis && !strcmp(basis, "covariance")) o.basis = PCA_BASIS_COVARIANCE;
+    else if (basis && strcmp(basis, "correlation")) {
+        cli_error("project", "--basis must be correlation or covariance, got '%s'", basis);
+        goto done;
+    }
+    if (k_s && (k_req = cli_parse_count(k_s)) < 1) {
+        cli_error("project", "--k must be a positive whole number, got '%s'", k_s);
+        goto done;
+    }
+    if (share_s) {
+        char *end;
+        share_req = strtod(share_s, &end);
+        if (*end || end == share_s || !(share_req > 0 && share_req <= 1)) {
+            cli_error("project", "--share must be in (0, 1], got '%s'", share_s);
+            goto done;
+        }
+    }
+    if (k_s && share_s) { cli_error("project", "give --k or --share, not both"); goto done; }
+    if (numshare_s) {
+        char *end;
+        o.numeric_share = strtod(numshare_s, &end);
+        if (*end || end == numshare_s || !(o.numeric_share > 0 && o.numeric_share <= 1)) {
+            cli_error("project", "--numeric-share must be in (0, 1], got '%s'", numshare_s);
+            goto done;
+        }
+    }
+    if (carry_s) {
+        carry_buf = strdup(carry_s);
+        pj.carry = calloc(strlen(carry_s) / 2 + 2, sizeof *pj.carry);
+        if (!carry_buf || !pj.carry) { cli_error("project", "out of memory"); rc = EXIT_RESOURCE; goto done; }
+        for (char *t = strtok(carry_buf, ","); t; t = strtok(NULL, ",")) pj.carry[pj.ncarry++] = t;
+    }
+    if (keep) {
+        keep_text = read_text(keep, err, sizeof err);
+        if (!keep_text) { cli_error("project", "--keep-list: %s", err); rc = EXIT_INPUT; goto done; }
+    }
+    o.columns = cols;
+    o.exclude = exclude;
+    o.keep_list = keep_text;
+    o.with_target = with_target;
+    summary_status st = summary_read(pca_path, &s, err, sizeof err);
+    if (st != SUMMARY_OK) { cli_error("project", "%s", err); rc = cli_summary_exit(st); goto done; }
+    pca_status ps = pca_fit(s, &o, &r, err, sizeof err);
+    if (ps != PCA_OK) {
+        cli_error("project", "%s: %s", pca_path, err);
+        rc = ps == PCA_ERR_USAGE ? EXIT_USAGE : ps == PCA_ERR_MEMORY ? EXIT_RESOURCE : EXIT_FAILED;
+        goto done;
+    }
+    if (r->clamped_negative)
+        fprintf(stderr,
+                "sheaf project: warning: the pairwise-complete %s matrix is not positive "
+                "semi-definite (missing cells): %zu negative eigenvalue%s, the most negative "
+                "%.6g, set to 0\n",
+                pca_basis_name(r->basis), r->clamped_negative, r->clamped_negative == 1 ? "" : "s",
+                r->most_negative);
+    pj.s = s;
+    pj.r = r;
+    pj.k = pca_choose_k(r, (size_t)k_req, share_req);
+    pj.header = !no_header;
+    for (uint32_t i = 0; i < s->opt.n_missing; i++) {
+        size_t l = strlen(s->opt.missing[i]);
+        pj.miss_len[i] = l;
+        if (l < 64) pj.miss_mask |= 1ull << l;
+    }
+    pj.field_of = malloc(r->p * sizeof *pj.field_of);
+    pj.carry_field = malloc((pj.ncarry + 1) * sizeof *pj.carry_field);
+    pj.x = malloc(BLOCK_ROWS * r->p * sizeof *pj.x);
+    pj.scores = malloc(BLOCK_ROWS * pj.k * sizeof *pj.scores);
+    pj.carried = malloc((BLOCK_ROWS * pj.ncarry + 1) * sizeof *pj.carried);
+    pj.row_bytes = pj.k * 26 + 2;
+    ck = chunker_create(4u << 20, 64u << 20);
+    if (!pj.field_of || !pj.carry_field || !pj.x || !pj.scores || !pj.carried || !ck) {
+        cli_error("project", "out of memory");
+        rc = EXIT_RESOURCE;
+        goto done;
+    }
+    dest_opened = 1;
+    if (dest_open(&out, out_path) != 0) {
+        cli_error("project", "%s", out.err);
+        rc = EXIT_FAILED;
+        goto done;
+    }
+    pj.out = &out;
+    /* Header row: carried names, then PC1..PCk. */
+    {
+        size_t need = pj.k * 24 + 2;
+        for (size_t c = 0; c < pj.ncarry; c++) need += 2 * strlen(pj.carry[c]) + 3;
+        if (dest_reserve(&out, need) == 0) {
+            char *d = out.buf + out.len;
+            for (size_t c = 0; c < pj.ncarry; c++) {
+                if (c) *d++ = ',';
+                d = put_field(d, pj.carry[c], strlen(pj.carry[c]));
+            }
+            for (size_t c = 0; c < pj.k; c++)
+                d += sprintf(d, "%sPC%zu", c || pj.ncarry ? "," : "", c + 1);
+            *d++ = '\n';
+            out.len = (size_t)(d - out.buf);
+        }
+    }
+    rc = EXIT_DONE;
+    for (size_t i = 0; i < npos && rc == EXIT_DONE; i++) rc = project_file(&pj, ck, pos[i]);
+    if (rc != EXIT_DONE) cli_error("project", "%s", pj.err);
+done:
+    if (dest_opened) {
+        if (dest_close(&out, rc == EXIT_DONE) != 0 && rc == EXIT_DONE) {
+            cli_error("project", "%s", out.err);
+            rc = EXIT_FAILED;
+        }
+    }
+    chunker_free(ck);
+    free(pj.field_of);
+    free(pj.carry_field);
+    free(pj.x);
+    free(pj.scores);
+    free(pj.carried);
+    free(pj.fields);
+    free(pj.carry);
+    free(carry_buf);
+    pca_result_free(r);
+    summary_free(s);
+    free(keep_text);
+    free(pos);
+    return rc;
+}
