@@ -17,6 +17,8 @@ static const command COMMANDS[] = {
     {"info", cmd_info, "describe a summary: rows, sources, per-column statistics"},
     {"merge", cmd_merge, "combine summaries of shards or nights exactly"},
     {"corr", cmd_corr, "pairwise-complete correlation or covariance matrix"},
+    {"screen", cmd_screen, "which columns to keep and why: flags, tests, q-values, ranking"},
+    {"trim", cmd_trim, "write the table with only the kept columns"},
     {"pca", cmd_pca, "principal components of the correlation or covariance matrix"},
     {"project", cmd_project, "scores of the leading principal components, row by row"},
 };

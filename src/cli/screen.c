@@ -1,0 +1,346 @@
+/* sheaf screen: which columns to keep, and why, from a summary alone. */
+#include <float.h>
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <unistd.h>
+
+#include "cli/cli.h"
+#include "out/json.h"
+#include "out/table.h"
+#include "stats/screen.h"
+#include "summary/summary.h"
+
+static const char *const TASKS[] = {"none", "classify", "regress"};
+
+/* The p-value as text: "<2.2e-308" when it underflowed. */
+static void p_text(char *buf, size_t len, const screen_test *t)
+{
+    if (t->p_below) snprintf(buf, len, "<%.2g", DBL_MIN);
+    else table_format_number(buf, len, t->p, 3);
+}
+
+/* The test that decided a feature's q (the primary one). */
+static const screen_test *primary(const screen_result *r, const screen_feature *f, const char **name)
+{
+    if (r->task == TASK_CLASSIFY && f->kind == KIND_NUMERIC) { *name = "anova_f"; return &f->anova_f; }
+    if (r->task == TASK_CLASSIFY) { *name = "chi2"; return &f->chi2; }
+    if (r->task == TASK_REGRESS && f->kind == KIND_NUMERIC) { *name = "corr_f"; return &f->corr_f; }
+    if (r->task == TASK_REGRESS) { *name = "anova_f"; return &f->anova_f; }
+    *name = "";
+    return NULL;
+}
+
+static void json_test(json_out *j, const char *name, const screen_test *t, int one_df,
+                      const char *extra)
+{
+    if (!t->present) return;
+    json_key(j, name);
+    json_object_begin(j);
+    json_key(j, "stat"); json_number(j, t->stat);
+    if (one_df) {
+        json_key(j, "df"); json_number(j, t->df1);
+    } else {
+        json_key(j, "df1"); json_number(j, t->df1);
+        json_key(j, "df2"); json_number(j, t->df2);
+    }
+    json_key(j, "p"); json_number(j, t->p_below ? DBL_MIN : t->p);
+    if (t->p_below) { json_key(j, "p_is_upper_bound"); json_bool(j, 1); }
+    if (extra) { json_key(j, extra); json_number(j, t->extra); }
+    json_object_end(j);
+}
+
+static void print_json(const summary *s, const screen_result *r)
+{
+    json_out j;
+    json_init(&j, stdout);
+    json_object_begin(&j);
+    json_key(&j, "rows"); json_uint(&j, s->rows);
+    json_key(&j, "target");
+    if (s->target < 0) {
+        json_null(&j);
+    } else {
+        json_object_begin(&j);
+        json_key(&j, "name"); json_string(&j, s->opt.target);
+        json_key(&j, "task"); json_string(&j, TASKS[r->task]);
+        json_key(&j, "levels");
+        json_array_begin(&j);
+        for (uint32_t c = 0; c < s->nclasses && r->task == TASK_CLASSIFY; c++) {
+            json_object_begin(&j);
+            json_key(&j, "value"); json_string(&j, s->class_label[c]);
+            json_key(&j, "rows"); json_uint(&j, s->class_rows[c]);
+            json_object_end(&j);
+        }
+        json_array_end(&j);
+        json_object_end(&j);
+    }
+    json_key(&j, "kept"); json_uint(&j, r->kept);
+    json_key(&j, "features");
+    json_array_begin(&j);
+    for (size_t i = 0; i < r->nfeatures; i++) {
+        const screen_feature *f = &r->features[i];
+        json_object_begin(&j);
+        json_key(&j, "name"); json_string(&j, s->cols[f->col].name);
+        json_key(&j, "kind"); json_string(&j, f->kind == KIND_NUMERIC ? "numeric" : "categorical");
+        json_key(&j, "flags");
+        json_array_begin(&j);
+        for (int b = 0; b < SCREEN_NFLAGS; b++)
+            if (f->flags & (1u << b)) json_string(&j, screen_flag_names[b]);
+        json_array_end(&j);
+        json_key(&j, "tests");
+        json_object_begin(&j);
+        json_test(&j, "anova_f", &f->anova_f, 0, NULL);
+        json_test(&j, "welch_f", &f->welch_f, 0, NULL);
+        json_test(&j, "corr_f", &f->corr_f, 0, "r");
+        json_test(&j, "chi2", &f->chi2, 1, "cramers_v");
+        if (f->mi.present) {
+            json_key(&j, "mutual_information");
+            json_object_begin(&j);
+            json_key(&j, "nats"); json_number(&j, f->mi.nats);
+            json_key(&j, "nats_corrected"); json_number(&j, f->mi.nats_corrected);
+            json_key(&j, "normalized"); json_number(&j, f->mi.normalized);
+            json_key(&j, "feature_bins"); json_uint(&j, f->mi.bins_feature);
+            json_key(&j, "target_bins"); json_uint(&j, f->mi.bins_target);
+            json_object_end(&j);
+        }
+        json_object_end(&j);
+        json_key(&j, "q"); json_number(&j, f->q);
+        json_key(&j, "decision"); json_string(&j, f->keep ? "keep" : "drop");
+        json_key(&j, "reasons");
+        json_array_begin(&j);
+        const char *p = f->reasons;
+        while (*p) {
+            const char *e = strstr(p, "; ");
+            size_t l = e ? (size_t)(e - p) : strlen(p);
+            json_string_n(&j, p, l);
+            p += l + (e ? 2 : 0);
+        }
+        json_array_end(&j);
+        json_key(&j, "rank");
+        if (f->rank) json_uint(&j, f->rank);
+        else json_null(&j);
+        json_object_end(&j);
+    }
+    json_array_end(&j);
+    json_key(&j, "redundant_pairs");
+    json_array_begin(&j);
+    for (size_t i = 0; i < r->npairs; i++) {
+        json_object_begin(&j);
+        json_key(&j, "a"); json_string(&j, s->cols[r->features[r->pairs[i].a].col].name);
+        json_key(&j, "b"); json_string(&j, s->cols[r->features[r->pairs[i].b].col].name);
+        json_key(&j, "r"); json_number(&j, r->pairs[i].r);
+        json_object_end(&j);
+    }
+    json_array_end(&j);
+    json_object_end(&j);
+    json_finish(&j);
+}
+
+static void csv_out(const char *s)
+{
+    if (!strpbrk(s, ",\"\n\r")) { fputs(s, stdout); return; }
+    fputc('"', stdout);
+    for (; *s; s++) {
+        if (*s == '"') fputc('"', stdout);
+        fputc(*s, stdout);
+    }
+    fputc('"', stdout);
+}
+
+static void print_csv(const summary *s, const screen_result *r)
+{
+    printf("column,kind,decision,rank,flags,test,stat,df1,df2,p,q,mi_nats,mi_nats_corrected,"
+           "mi_normalized,reasons\n");
+    for (size_t i = 0; i < r->nfeatures; i++) {
+        const screen_feature *f = &r->features[i];
+        csv_out(s->cols[f->col].name);
+        printf(",%s,%s,", f->kind == KIND_NUMERIC ? "numeric" : "categorical", f->keep ? "keep" : "drop");
+        if (f->rank) printf("%zu", f->rank);
+        fputc(',', stdout);
+        int first = 1;
+        for (int b = 0; b < SCREEN_NFLAGS; b++)
+            if (f->flags & (1u << b)) { printf("%s%s", first ? "" : ";", screen_flag_names[b]); first = 0; }
+        const char *tn;
+        const screen_test *t = primary(r, f, &tn);
+        if (t && t->present) {
+            char pb[32];
+            p_text(pb, sizeof pb, t);
+            printf(",%s,%.10g,%.10g,", tn, t->stat, t->df1);
+            if (isfinite(t->df2)) printf("%.10g", t->df2);
+            printf(",%s,%.6g", pb, f->q);
+        } else {
+            printf(",,,,,,");
+        }
+        if (f->mi.present) printf(",%.6g,%.6g,%.6g,", f->mi.nats, f->mi.nats_corrected, f->mi.normalized);
+        else printf(",,,,");
+        csv_out(f->reasons);
+        fputc('\n', stdout);
+    }
+}
+
+static void print_text(const summary *s, const screen_result *r, const char *path)
+{
+    int color = table_use_color(stdout);
+    if (s->target >= 0)
+        printf("%s: %llu rows; target %s (%s); kept %zu of %zu columns\n", path,
+               (unsigned long long)s->rows, s->opt.target,
+               r->task == TASK_CLASSIFY ? "classification" : "regression", r->kept, r->nfeatures);
+    else
+        printf("%s: %llu rows; no target (only flags and redundancy); kept %zu of %zu columns\n",
+               path, (unsigned long long)s->rows, r->kept, r->nfeatures);
+    const char *head[] = {"rank", "column", "kind", "decision", "test", "stat", "p", "q", "MI norm", "reasons"};
+    size_t nh = sizeof head / sizeof *head;
+    table *t = table_create(nh);
+    for (size_t i = 0; i < nh; i++) table_heading(t, i, head[i], i == 0 || (i >= 5 && i <= 8));
+    /* Kept by rank first, then dropped in column order. */
+    for (int pass = 0; pass < 2; pass++)
+        for (size_t want = 1, i = 0; pass == 0 ? want <= r->kept : i < r->nfeatures;) {
+            const screen_feature *f = NULL;
+            if (pass == 0) {
+                for (size_t k = 0; k < r->nfeatures; k++)
+                    if (r->features[k].rank == want) f = &r->features[k];
+                want++;
+            } else {
+                f = &r->features[i++];
+                if (f->keep) continue;
+            }
+            if (!f) continue;
+            table_row(t);
+            if (f->rank) table_cellf(t, 0, "%zu", f->rank);
+            table_cell(t, 1, s->cols[f->col].name);
+            table_cell(t, 2, f->kind == KIND_NUMERIC ? "numeric" : "categorical");
+            table_cell(t, 3, f->keep ? (color ? "\033[32mkeep\033[0m" : "keep") : "drop");
+            const char *tn;
+            const screen_test *pt = primary(r, f, &tn);
+            if (pt && pt->present) {
+                char b[40];
+                table_cell(t, 4, tn);
+                table_format_number(b, sizeof b, pt->stat, 4);
+                table_cell(t, 5, b);
+                p_text(b, sizeof b, pt);
+                table_cell(t, 6, b);
+                table_format_number(b, sizeof b, f->q, 3);
+                table_cell(t, 7, b);
+            }
+            if (f->mi.present) table_cellf(t, 8, "%.3f", f->mi.normalized);
+            table_cell(t, 9, f->reasons);
+        }
+    table_print(t, stdout, table_terminal_width(), color);
+    table_free(t);
+    if (r->npairs) {
+        printf("\nredundant pairs (|r| at or above the threshold):\n");
+        for (size_t i = 0; i < r->npairs; i++)
+            printf("  %s ~ %s  r = %.4f\n", s->cols[r->features[r->pairs[i].a].col].name,
+                   s->cols[r->features[r->pairs[i].b].col].name, r->pairs[i].r);
+    }
+}
+
+static int parse_unit(const char *opt, const char *v, double *out, int allow_zero)
+{
+    char *end;
+    double x = strtod(v, &end);
+    if (*end || !(x >= 0 && x <= 1) || (!allow_zero && x == 0)) {
+        cli_error("screen", "%s must be a number in %s1], got '%s'", opt, allow_zero ? "[0, " : "(0, ", v);
+        return -1;
+    }
+    *out = x;
+    return 0;
+}
+
+int cmd_screen(int argc, char **argv)
+{
+    const char *format = "text", *q = NULL, *top = NULL, *bins = NULL, *rank_by = NULL;
+    const char *keep_list = NULL, *missing = NULL, *minvar = NULL, *redund = NULL, *share = NULL;
+    const cli_option opts[] = {
+        {"format", 'f', "FMT", "text (default), csv or json", &format, NULL},
+        {"q", 0, "LEVEL", "q-value below which a column counts as relevant (default 0.05)", &q, NULL},
+        {"top", 0, "K", "keep at most K columns", &top, NULL},
+        {"rank-by", 0, "KEY", "q (default), mi (normalized mutual information) or stat", &rank_by, NULL},
+        {"bins", 0, "K", "equal-frequency bins for mutual information (default 10)", &bins, NULL},
+        {"redundancy", 0, "R", "|r| at which two kept columns are redundant (default 0.95)", &redund, NULL},
+        {"missing-share", 0, "P", "share of missing cells that flags a column (default 0.5)", &missing, NULL},
+        {"min-variance", 0, "V", "flag numeric columns with a smaller variance as near-constant", &minvar, NULL},
+        {"numeric-share", 0, "P", "share of parsing cells that makes a column numeric (default 0.99)", &share, NULL},
+        {"keep-list", 0, "FILE", "also write the kept column names, one per line", &keep_list, NULL},
+        {0},
+    };
+    const cli_command cmd = {
+        "screen", "SUMMARY.sheaf [options]",
+        "Decides, from the summary alone, which columns to keep: flags constant,\n"
+        "near-constant, ID-like, mostly missing and high-cardinality columns, tests the\n"
+        "others against the target (ANOVA F, Welch's F, F test of Pearson r, chi-squared,\n"
+        "mutual information), controls the false discovery rate with Benjamini-Hochberg\n"
+        "q-values, prunes redundant pairs and ranks what is kept. The p-values assume\n"
+        "independent rows; see the README's cautions.",
+        opts};
+    char **pos;
+    size_t npos;
+    int rc = cli_parse(&cmd, argc, argv, &pos, &npos);
+    if (rc) { free(pos); return rc == 1 ? EXIT_DONE : rc; }
+    screen_options o;
+    screen_options_defaults(&o);
+    summary *s = NULL;
+    screen_result *r = NULL;
+    rc = EXIT_USAGE;
+    if (npos != 1) { cli_error("screen", "expected one summary file"); goto done; }
+    if (strcmp(format, "text") && strcmp(format, "csv") && strcmp(format, "json")) {
+        cli_error("screen", "--format must be text, csv or json, got '%s'", format);
+        goto done;
+    }
+    if (q && parse_unit("--q", q, &o.q_level, 0)) goto done;
+    if (missing && parse_unit("--missing-share", missing, &o.missing_share, 0)) goto done;
+    if (redund && parse_unit("--redundancy", redund, &o.redundancy, 0)) goto done;
+    if (share && parse_unit("--numeric-share", share, &o.numeric_share, 0)) goto done;
+    if (minvar) {
+        char *end;
+        o.min_variance = strtod(minvar, &end);
+        if (*end || !(o.min_variance >= 0)) { cli_error("screen", "--min-variance must be >= 0"); goto done; }
+    }
+    if (top) {
+        long long v = cli_parse_count(top);
+        if (v < 1) { cli_error("screen", "--top must be a positive count, got '%s'", top); goto done; }
+        o.top = (size_t)v;
+    }
+    if (bins) {
+        long long v = cli_parse_count(bins);
+        if (v < 2 || v > 1000) { cli_error("screen", "--bins must be between 2 and 1000"); goto done; }
+        o.bins = (unsigned)v;
+    }
+    if (rank_by) {
+        if (!strcmp(rank_by, "q")) o.rank_by = RANK_Q;
+        else if (!strcmp(rank_by, "mi")) o.rank_by = RANK_MI;
+        else if (!strcmp(rank_by, "stat")) o.rank_by = RANK_STAT;
+        else { cli_error("screen", "--rank-by must be q, mi or stat, got '%s'", rank_by); goto done; }
+    }
+    char err[512];
+    summary_status st = summary_read(pos[0], &s, err, sizeof err);
+    if (st != SUMMARY_OK) { cli_error("screen", "%s", err); rc = cli_summary_exit(st); goto done; }
+    r = screen_run(s, &o);
+    if (!r) { cli_error("screen", "out of memory"); rc = EXIT_RESOURCE; goto done; }
+    if (!strcmp(format, "json")) print_json(s, r);
+    else if (!strcmp(format, "csv")) print_csv(s, r);
+    else print_text(s, r, pos[0]);
+    if (keep_list) {
+        char tmp[4096];
+        snprintf(tmp, sizeof tmp, "%s.tmp", keep_list);
+        FILE *f = fopen(tmp, "w");
+        int ok = f != NULL;
+        for (size_t k = 1; ok && k <= r->kept; k++)
+            for (size_t i = 0; i < r->nfeatures; i++)
+                if (r->features[i].rank == k) fprintf(f, "%s\n", s->cols[r->features[i].col].name);
+        if (f && fclose(f) != 0) ok = 0;
+        if (!ok || rename(tmp, keep_list) != 0) {
+            unlink(tmp);
+            cli_error("screen", "%s: cannot write", keep_list);
+            rc = EXIT_FAILED;
+            goto done;
+        }
+    }
+    rc = fflush(stdout) == 0 ? EXIT_DONE : EXIT_FAILED;
+done:
+    screen_free(r);
+    summary_free(s);
+    free(pos);
+    return rc;
+}

@@ -1,0 +1,519 @@
+/* screen: see screen.h.  Reads the summary only; every statistic comes from
+ * the accumulators (per-class moments, co-moments, per-value tables, bucket
+ * stores), never from the data. */
+#include "stats/screen.h"
+
+#include <math.h>
+#include <stdarg.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+const char *const screen_flag_names[SCREEN_NFLAGS] = {"constant", "near_constant", "id_like",
+                                                      "mostly_missing", "high_cardinality"};
+
+/* ID-like needs this many present cells (a rule of sheaf's own: on tiny
+ * tables every integer column would otherwise look like an identifier). */
+#define ID_MIN_PRESENT 20
+
+void screen_options_defaults(screen_options *o)
+{
+    memset(o, 0, sizeof *o);
+    o->numeric_share = 0.99;
+    o->missing_share = 0.5;
+    o->near_constant = 0.99;
+    o->id_share = 0.95;
+    o->q_level = 0.05;
+    o->redundancy = 0.95;
+    o->bins = 10;
+}
+
+void screen_free(screen_result *r)
+{
+    if (!r) return;
+    free(r->features);
+    free(r->pairs);
+    free(r);
+}
+
+static void add_reason(screen_feature *f, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
+static void add_reason(screen_feature *f, const char *fmt, ...)
+{
+    size_t used = strlen(f->reasons);
+    if (used && used + 2 < sizeof f->reasons) { strcat(f->reasons, "; "); used += 2; }
+    va_list ap;
+    va_start(ap, fmt);
+    vsnprintf(f->reasons + used, sizeof f->reasons - used, fmt, ap);
+    va_end(ap);
+}
+
+static void set_test(screen_test *t, const stat_result *r)
+{
+    t->present = 1;
+    t->stat = r->stat;
+    t->df1 = r->df1;
+    t->df2 = r->df2;
+    t->p = r->p;
+    t->p_below = r->p_below;
+    t->extra = r->extra;
+}
+
+/* ---- flags ---------------------------------------------------------------- */
+
+static unsigned column_flags(const summary *s, const summary_column *c, column_kind kind,
+                             const screen_options *o)
+{
+    unsigned flags = 0;
+    uint64_t present = summary_column_present(c);
+    if (s->rows && (double)c->missing >= o->missing_share * (double)s->rows) flags |= SCREEN_MOSTLY_MISSING;
+    if (present == 0) return flags | SCREEN_CONSTANT;
+    int exact;
+    double distinct = summary_column_distinct(c, &exact);
+    double var = moments_variance(&c->mom);
+    if ((exact && distinct <= 1) || (kind == KIND_NUMERIC && c->mom.n >= 2 && var == 0))
+        return flags | SCREEN_CONSTANT;
+    values_entry top;
+    if (values_top(c->vals, 1, &top) == 1 && (double)top.count >= o->near_constant * (double)present)
+        flags |= SCREEN_NEAR_CONSTANT;
+    if (kind == KIND_NUMERIC && o->min_variance > 0 && var < o->min_variance) flags |= SCREEN_NEAR_CONSTANT;
+    int integer_valued = kind == KIND_NUMERIC && c->integers == c->mom.n;
+    if ((kind == KIND_CATEGORICAL || integer_valued) && present >= ID_MIN_PRESENT &&
+        distinct >= o->id_share * (double)present)
+        flags |= SCREEN_ID_LIKE;
+    if (kind == KIND_CATEGORICAL && values_overflowed(c->vals)) flags |= SCREEN_HIGH_CARDINALITY;
+    return flags;
+}
+
+/* ---- contingency tables ---------------------------------------------------- */
+
+/* Distinct sort keys with their total counts and assigned bins. */
+typedef struct {
+    int64_t order;
+    double count;
+    unsigned bin;
+} item;
+
+static int item_cmp(const void *a, const void *b)
+{
+    const item *x = a, *y = b;
+    return (x->order > y->order) - (x->order < y->order);
+}
+
+/* The distinct values of ord[0..n) with summed counts, sorted, with a bin
+ * each: about equal-frequency bins when k > 0, one bin per value otherwise.
+ * Returns the number of items (0 on OOM) and sets *nbins. */
+static size_t make_axis(const int64_t *ord, const double *cnt, size_t n, unsigned k, item **out,
+                        unsigned *nbins)
+{
+    item *it = malloc((n ? n : 1) * sizeof *it);
+    *nbins = 0;
+    if (!it) return 0;
+    for (size_t i = 0; i < n; i++) it[i] = (item){ord[i], cnt[i], 0};
+    qsort(it, n, sizeof *it, item_cmp);
+    size_t m = 0;
+    for (size_t i = 0; i < n; i++) {
+        if (m && it[m - 1].order == it[i].order) it[m - 1].count += it[i].count;
+        else it[m++] = it[i];
+    }
+    if (k == 0) {
+        for (size_t i = 0; i < m; i++) it[i].bin = (unsigned)i;
+        *nbins = (unsigned)m;
+    } else {
+        double *counts = malloc((m ? m : 1) * sizeof *counts);
+        unsigned *bins = malloc((m ? m : 1) * sizeof *bins);
+        if (!counts || !bins) { free(counts); free(bins); free(it); return 0; }
+        for (size_t i = 0; i < m; i++) counts[i] = it[i].count;
+        *nbins = stat_equal_frequency_bins(counts, m, k, bins);
+        for (size_t i = 0; i < m; i++) it[i].bin = bins[i];
+        free(counts);
+        free(bins);
+    }
+    *out = it;
+    return m;
+}
+
+static unsigned axis_bin(const item *it, size_t m, int64_t order)
+{
+    item key = {order, 0, 0};
+    const item *hit = bsearch(&key, it, m, sizeof *it, item_cmp);
+    return hit ? hit->bin : 0;
+}
+
+/* Builds the table from n (x order, y order, count) triples and fills MI
+ * (and chi-squared when with_chi2).  kx / ky: bins, 0 = one bin per value. */
+static int pair_table(screen_feature *f, const int64_t *xo, const int64_t *yo, const double *cnt,
+                      size_t n, unsigned kx, unsigned ky, int with_chi2)
+{
+    item *ix = NULL, *iy = NULL;
+    unsigned bx, by;
+    size_t mx = make_axis(xo, cnt, n, kx, &ix, &bx);
+    size_t my = make_axis(yo, cnt, n, ky, &iy, &by);
+    int rc = -1;
+    if (!ix || !iy) goto done;
+    rc = 0;
+    if (bx < 2 || by < 2) goto done;
+    double *table = calloc((size_t)bx * by, sizeof *table);
+    if (!table) { rc = -1; goto done; }
+    for (size_t i = 0; i < n; i++)
+        table[(size_t)axis_bin(ix, mx, xo[i]) * by + axis_bin(iy, my, yo[i])] += cnt[i];
+    stat_result r;
+    stat_mutual_info mi;
+    if (stat_mutual_information(table, bx, by, &mi) == 0) {
+        f->mi.present = 1;
+        f->mi.nats = mi.nats;
+        f->mi.nats_corrected = mi.nats_corrected;
+        f->mi.normalized = mi.normalized;
+        f->mi.bins_feature = mi.rows_used;
+        f->mi.bins_target = mi.cols_used;
+    }
+    if (with_chi2 && stat_chi_squared(table, bx, by, &r) == 0) set_test(&f->chi2, &r);
+    free(table);
+done:
+    free(ix);
+    free(iy);
+    return rc;
+}
+
+/* Sort position of a target cell: a class by its value (regression over a
+ * numeric target's classes) or its index; a regression cell by its key. */
+typedef struct {
+    int classes;        /* cells are classes */
+    int by_value;       /* order classes by value */
+    int64_t *rank;      /* class rank by value (by_value) */
+} target_axis;
+
+static int64_t cell_order(const target_axis *t, uint32_t cell)
+{
+    if (!t->classes) return (int64_t)cell - (int64_t)SUMMARY_TARGET_CELL_BASE;
+    return t->by_value ? t->rank[cell - 1] : (int64_t)cell;
+}
+
+/* Ranks of the classes by numeric value. */
+static void class_ranks(const summary *s, int64_t *rank)
+{
+    for (uint32_t a = 0; a < s->nclasses; a++) {
+        int64_t r = 0;
+        for (uint32_t b = 0; b < s->nclasses; b++) {
+            double va = s->class_dec[a].value, vb = s->class_dec[b].value;
+            r += vb < va || (vb == va && b < a);
+        }
+        rank[a] = r;
+    }
+}
+
+/* A growing list of (x order, y order, count) triples. */
+typedef struct {
+    int64_t *x, *y;
+    double *n;
+    size_t len, cap;
+} triples;
+
+static int triples_push(triples *t, int64_t x, int64_t y, double n)
+{
+    if (t->len == t->cap) {
+        size_t cap = t->cap ? t->cap * 2 : 256;
+        int64_t *a = realloc(t->x, cap * sizeof *a);
+        if (a) t->x = a;
+        int64_t *b = realloc(t->y, cap * sizeof *b);
+        if (b) t->y = b;
+        double *c = realloc(t->n, cap * sizeof *c);
+        if (c) t->n = c;
+        if (!a || !b || !c) return -1;
+        t->cap = cap;
+    }
+    t->x[t->len] = x;
+    t->y[t->len] = y;
+    t->n[t->len] = n;
+    t->len++;
+    return 0;
+}
+
+static void triples_free(triples *t)
+{
+    free(t->x);
+    free(t->y);
+    free(t->n);
+}
+
+/* Per-value target moments from a per-value table: classes (counts mode, y
+ * from the class values) or regression records (values mode, cells combined
+ * with the Chan et al. merge). */
+typedef struct {
+    uint64_t key;
+    double n, mean, m2;
+} level_moments;
+
+static size_t level_groups(const summary *s, const crosstab *x, level_moments *out)
+{
+    size_t ne = crosstab_entries(x), m = 0;
+    for (size_t i = 0; i < ne; i++) {
+        crosstab_entry e = crosstab_entry_at(x, i);
+        double nb = (double)e.n, mb, m2b;
+        if (crosstab_mode(x) == CROSSTAB_COUNTS) {
+            mb = s->class_dec[e.cell - 1].value; /* every row of the class has this value */
+            m2b = 0;
+        } else {
+            mb = e.mean;
+            m2b = e.m2;
+        }
+        if (!m || out[m - 1].key != e.key) {
+            out[m++] = (level_moments){e.key, nb, mb, m2b};
+            continue;
+        }
+        level_moments *a = &out[m - 1];
+        double na = a->n, tot = na + nb, d = mb - a->mean;
+        a->mean += d * nb / tot;
+        a->m2 += m2b + d * d * na * nb / tot;
+        a->n = tot;
+    }
+    return m;
+}
+
+/* ---- relevance ------------------------------------------------------------ */
+
+static int groups_test(const level_moments *g, size_t m, screen_test *t)
+{
+    double *n = malloc((m ? m : 1) * sizeof *n), *mean = malloc((m ? m : 1) * sizeof *mean),
+           *m2 = malloc((m ? m : 1) * sizeof *m2);
+    int rc = -1;
+    if (n && mean && m2) {
+        for (size_t i = 0; i < m; i++) { n[i] = g[i].n; mean[i] = g[i].mean; m2[i] = g[i].m2; }
+        stat_result r;
+        if (stat_anova(n, mean, m2, m, &r) == 0) set_test(t, &r);
+        rc = 0;
+    }
+    free(n); free(mean); free(m2);
+    return rc;
+}
+
+static int test_feature(const summary *s, size_t col, target_task task, const screen_options *o,
+                        const target_axis *ta, screen_feature *f)
+{
+    const summary_column *c = &s->cols[col];
+    stat_result r;
+    triples t = {0};
+    int rc = 0;
+    if (f->kind == KIND_NUMERIC) {
+        if (task == TASK_CLASSIFY && c->cls) {
+            size_t k = s->nclasses;
+            level_moments *g = malloc((k ? k : 1) * sizeof *g);
+            if (!g) return -1;
+            for (size_t i = 0; i < k; i++)
+                g[i] = (level_moments){i, (double)c->cls[i].n, c->cls[i].mean, c->cls[i].m2};
+            rc = groups_test(g, k, &f->anova_f);
+            double *n = malloc((k ? k : 1) * sizeof *n), *mean = malloc((k ? k : 1) * sizeof *mean),
+                   *m2 = malloc((k ? k : 1) * sizeof *m2);
+            if (n && mean && m2) {
+                for (size_t i = 0; i < k; i++) { n[i] = g[i].n; mean[i] = g[i].mean; m2[i] = g[i].m2; }
+                if (stat_welch(n, mean, m2, k, &r) == 0) set_test(&f->welch_f, &r);
+            } else {
+                rc = -1;
+            }
+            free(n); free(mean); free(m2); free(g);
+            f->p = f->anova_f.present ? f->anova_f.p : NAN;
+        } else if (task == TASK_REGRESS) {
+            int a = s->como_of[col], b = s->como_of[s->target];
+            if (a >= 0 && b >= 0) {
+                double rr = comoment_correlation(s->como, (size_t)a, (size_t)b);
+                double nn = comoment_n(s->como, (size_t)a, (size_t)b);
+                if (isfinite(rr) && stat_correlation_f(rr, nn, &r) == 0) set_test(&f->corr_f, &r);
+            }
+            f->p = f->corr_f.present ? f->corr_f.p : NAN;
+        }
+        /* MI (and chi-squared) from the bucket store: feature buckets x target cells. */
+        size_t ne = buckets_entries(c->bins);
+        for (size_t i = 0; i < ne && rc == 0; i++) {
+            buckets_entry e = buckets_entry_at(c->bins, i);
+            if (e.cell == 0) continue; /* target missing */
+            rc = triples_push(&t, e.key, cell_order(ta, e.cell), (double)e.count);
+        }
+        if (rc == 0)
+            rc = pair_table(f, t.x, t.y, t.n, t.len, o->bins, task == TASK_CLASSIFY ? 0 : o->bins, 1);
+        triples_free(&t);
+        return rc;
+    }
+    if (!c->cross) return 0;
+    size_t ne = crosstab_entries(c->cross);
+    if (task == TASK_REGRESS) {
+        level_moments *g = malloc((ne ? ne : 1) * sizeof *g);
+        if (!g) return -1;
+        size_t m = level_groups(s, c->cross, g);
+        rc = groups_test(g, m, &f->anova_f);
+        free(g);
+        f->p = f->anova_f.present ? f->anova_f.p : NAN;
+    }
+    /* Levels x target table: chi-squared (classification) and MI. */
+    for (size_t i = 0; i < ne && rc == 0; i++) {
+        crosstab_entry e = crosstab_entry_at(c->cross, i);
+        if (ta->classes && e.cell == 0) continue;
+        rc = triples_push(&t, (int64_t)e.key, cell_order(ta, e.cell), (double)e.n);
+    }
+    if (rc == 0) {
+        rc = pair_table(f, t.x, t.y, t.n, t.len, 0, task == TASK_CLASSIFY ? 0 : o->bins,
+                        task == TASK_CLASSIFY);
+        if (task == TASK_CLASSIFY) f->p = f->chi2.present ? f->chi2.p : NAN;
+    }
+    triples_free(&t);
+    return rc;
+}
+
+/* ---- selection ------------------------------------------------------------ */
+
+/* The statistic of the test behind q. */
+static double primary_stat(const screen_feature *f)
+{
+    if (f->corr_f.present) return f->corr_f.stat;
+    if (f->anova_f.present) return f->anova_f.stat;
+    if (f->chi2.present) return f->chi2.stat;
+    return 0;
+}
+
+/* More relevant first: the ranking key, then q, p, the statistic, the column. */
+static int relevance_cmp(const screen_feature *a, const screen_feature *b, screen_rank by)
+{
+    if (by == RANK_MI) {
+        double ma = a->mi.present ? a->mi.normalized : -1, mb = b->mi.present ? b->mi.normalized : -1;
+        if (ma != mb) return ma > mb ? -1 : 1;
+    }
+    if (by == RANK_STAT) {
+        double sa = primary_stat(a), sb = primary_stat(b);
+        if (sa != sb) return sa > sb ? -1 : 1;
+    }
+    double qa = isnan(a->q) ? 2 : a->q, qb = isnan(b->q) ? 2 : b->q;
+    if (qa != qb) return qa < qb ? -1 : 1;
+    double pa = isnan(a->p) ? 2 : a->p, pb = isnan(b->p) ? 2 : b->p;
+    if (pa != pb) return pa < pb ? -1 : 1;
+    double sa = primary_stat(a), sb = primary_stat(b);
+    if (sa != sb) return sa > sb ? -1 : 1;
+    return (a->col > b->col) - (a->col < b->col);
+}
+
+/* qsort has no context argument: a small insertion sort keeps this reentrant. */
+static void sort_by_relevance(size_t *order, size_t n, const screen_feature *f, screen_rank by)
+{
+    for (size_t i = 1; i < n; i++) {
+        size_t v = order[i], j = i;
+        while (j > 0 && relevance_cmp(&f[v], &f[order[j - 1]], by) < 0) {
+            order[j] = order[j - 1];
+            j--;
+        }
+        order[j] = v;
+    }
+}
+
+screen_result *screen_run(const summary *s, const screen_options *o)
+{
+    screen_result *res = calloc(1, sizeof *res);
+    if (!res) return NULL;
+    target_task task = summary_target_task(s, o->numeric_share);
+    res->task = task;
+    res->features = calloc(s->ncols ? s->ncols : 1, sizeof *res->features);
+    size_t *order = calloc(s->ncols ? s->ncols : 1, sizeof *order);
+    int64_t *rank = calloc(s->nclasses + 1, sizeof *rank);
+    double *p = malloc((s->ncols ? s->ncols : 1) * sizeof *p);
+    if (!res->features || !order || !rank || !p) goto oom;
+    target_axis ta = {s->has_classes, s->has_classes && task == TASK_REGRESS, rank};
+    if (ta.by_value) class_ranks(s, rank);
+    /* Flags and tests. */
+    size_t nf = 0;
+    for (size_t i = 0; i < s->ncols; i++) {
+        if ((int)i == s->target) continue;
+        screen_feature *f = &res->features[nf++];
+        const summary_column *c = &s->cols[i];
+        f->col = i;
+        f->kind = summary_column_kind(c, o->numeric_share);
+        f->flags = column_flags(s, c, f->kind, o);
+        f->p = f->q = NAN;
+        f->anova_f.df2 = f->chi2.df2 = NAN;
+        for (int b = 0; b < SCREEN_NFLAGS; b++)
+            if (f->flags & (1u << b)) add_reason(f, "%s", screen_flag_names[b]);
+        if (!f->flags && task != TASK_AUTO && test_feature(s, i, task, o, &ta, f) != 0) goto oom;
+    }
+    res->nfeatures = nf;
+    /* q-values over the tested features. */
+    for (size_t i = 0; i < nf; i++) p[i] = res->features[i].p;
+    stat_benjamini_hochberg(p, nf, p);
+    for (size_t i = 0; i < nf; i++) res->features[i].q = p[i];
+    /* Relevance. */
+    for (size_t i = 0; i < nf; i++) {
+        screen_feature *f = &res->features[i];
+        f->keep = !f->flags;
+        if (!f->keep || task == TASK_AUTO) continue;
+        if (isnan(f->q)) {
+            f->keep = 0;
+            add_reason(f, "no test applies");
+        } else if (f->q >= o->q_level) {
+            f->keep = 0;
+            add_reason(f, "not relevant (q = %.3g)", f->q);
+        }
+    }
+    size_t nk = 0;
+    for (size_t i = 0; i < nf; i++)
+        if (res->features[i].keep) order[nk++] = i;
+    if (task == TASK_AUTO) {
+        /* No target: more relevant = accounts for more of the others'
+         * variance (sum of squared correlations with the kept columns). The
+         * sum goes into p as a sort key and is cleared below. */
+        for (size_t a = 0; a < nk; a++) {
+            screen_feature *f = &res->features[order[a]];
+            double sum = 0;
+            int ca = s->como_of[f->col];
+            for (size_t b = 0; b < nk && ca >= 0; b++) {
+                int cb = s->como_of[res->features[order[b]].col];
+                if (b == a || cb < 0) continue;
+                double r = comoment_correlation(s->como, (size_t)ca, (size_t)cb);
+                if (isfinite(r)) sum += r * r;
+            }
+            f->p = -sum;
+        }
+    }
+    sort_by_relevance(order, nk, res->features, task == TASK_AUTO ? RANK_Q : o->rank_by);
+    /* Redundancy among kept numeric features, the more relevant one staying. */
+    for (size_t a = 0; a < nk; a++) {
+        screen_feature *fa = &res->features[order[a]];
+        int ca = s->como_of[fa->col];
+        if (fa->kind != KIND_NUMERIC || ca < 0) continue;
+        for (size_t b = a + 1; b < nk; b++) {
+            screen_feature *fb = &res->features[order[b]];
+            int cb = s->como_of[fb->col];
+            if (fb->kind != KIND_NUMERIC || cb < 0) continue;
+            double r = comoment_correlation(s->como, (size_t)ca, (size_t)cb);
+            if (!(fabs(r) >= o->redundancy)) continue;
+            screen_pair *pp = realloc(res->pairs, (res->npairs + 1) * sizeof *pp);
+            if (!pp) goto oom;
+            res->pairs = pp;
+            pp[res->npairs++] = (screen_pair){order[a], order[b], r};
+            if (fa->keep && fb->keep) {
+                fb->keep = 0;
+                add_reason(fb, "redundant with %s (r = %.3f)", s->cols[fa->col].name, r);
+            }
+        }
+    }
+    if (task == TASK_AUTO)
+        for (size_t i = 0; i < nf; i++) res->features[i].p = NAN;
+    /* Ranks and --top. */
+    size_t rnk = 0;
+    for (size_t a = 0; a < nk; a++) {
+        screen_feature *f = &res->features[order[a]];
+        if (!f->keep) continue;
+        if (o->top && rnk >= o->top) {
+            f->keep = 0;
+            add_reason(f, "beyond --top %zu", o->top);
+            continue;
+        }
+        f->rank = ++rnk;
+        if (task == TASK_AUTO) add_reason(f, "no flag, not redundant");
+        else add_reason(f, "relevant (q = %.3g)", f->q);
+    }
+    res->kept = rnk;
+    free(order);
+    free(rank);
+    free(p);
+    return res;
+oom:
+    free(order);
+    free(rank);
+    free(p);
+    screen_free(res);
+    return NULL;
+}

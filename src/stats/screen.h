@@ -1,0 +1,96 @@
+/* screen: which columns to keep and why, from a summary alone.
+ *
+ * Every column gets flags (constant, near-constant, ID-like, mostly missing,
+ * high-cardinality); flagged columns are dropped with the flag as reason and
+ * not tested.  With a target, every other column is tested for relevance:
+ *   classification, numeric feature    one-way ANOVA F and Welch's F (per-class moments)
+ *   classification, categorical        chi-squared of levels x classes (per-value table)
+ *   regression, numeric feature        F test of Pearson r with the target (co-moments)
+ *   regression, categorical            one-way ANOVA F of the target across levels
+ * and mutual information from its contingency table (numeric features and
+ * regression targets coarsened into about equal-frequency bins from the
+ * fine buckets), which also gives a chi-squared test for numeric features.
+ * Benjamini-Hochberg q-values across the tested features decide relevance.
+ * Kept numeric features with |r| >= a threshold are pruned greedily, the
+ * more relevant member of each pair staying.  Kept columns are ranked.
+ */
+#ifndef SHEAF_SCREEN_H
+#define SHEAF_SCREEN_H
+
+#include <stddef.h>
+
+#include "stats/stat.h"
+#include "summary/summary.h"
+
+enum {
+    SCREEN_CONSTANT = 1,
+    SCREEN_NEAR_CONSTANT = 2,
+    SCREEN_ID_LIKE = 4,
+    SCREEN_MOSTLY_MISSING = 8,
+    SCREEN_HIGH_CARDINALITY = 16
+};
+#define SCREEN_NFLAGS 5
+extern const char *const screen_flag_names[SCREEN_NFLAGS];
+
+typedef enum { RANK_Q = 0, RANK_MI, RANK_STAT } screen_rank;
+
+typedef struct {
+    double numeric_share;    /* kind rule (default 0.99) */
+    double missing_share;    /* mostly missing at or above (0.5) */
+    double near_constant;    /* top value share for near-constant (0.99) */
+    double id_share;         /* distinct share for ID-like (0.95) */
+    double min_variance;     /* near-constant below this variance (0: off) */
+    double q_level;          /* relevance level (0.05) */
+    double redundancy;       /* |r| threshold (0.95) */
+    unsigned bins;           /* equal-frequency bins for MI (10) */
+    size_t top;              /* keep at most this many (0: no limit) */
+    screen_rank rank_by;     /* ranking key */
+} screen_options;
+
+typedef struct {
+    int present;             /* computed */
+    double stat, df1, df2;   /* df2 NaN when the test has one df */
+    double p;                /* p-value (0 with p_below set when it underflows) */
+    int p_below;             /* p below the smallest positive double */
+    double extra;            /* r (corr_f) or Cramer's V (chi2) */
+} screen_test;
+
+typedef struct {
+    int present;
+    double nats, nats_corrected, normalized;
+    unsigned bins_feature, bins_target; /* non-empty bins used */
+} screen_mi;
+
+typedef struct {
+    size_t col;              /* summary column */
+    column_kind kind;
+    unsigned flags;
+    screen_test anova_f, welch_f, corr_f, chi2;
+    screen_mi mi;
+    double p;                /* the p-value behind q (primary test), NaN if untested */
+    double q;                /* Benjamini-Hochberg q-value, NaN if untested */
+    int keep;                /* decision */
+    char reasons[256];       /* "; "-separated */
+    size_t rank;             /* 1.. among kept, 0 when dropped */
+} screen_feature;
+
+typedef struct {
+    size_t a, b;             /* feature indices */
+    double r;                /* pairwise-complete r */
+} screen_pair;
+
+typedef struct {
+    target_task task;        /* TASK_AUTO when there is no target */
+    size_t nfeatures;        /* every column but the target */
+    screen_feature *features;
+    size_t npairs;
+    screen_pair *pairs;
+    size_t kept;
+} screen_result;
+
+void screen_options_defaults(screen_options *o);
+/* NULL on OOM. */
+screen_result *screen_run(const summary *s, const screen_options *o);
+void screen_free(screen_result *r);
+
+#endif
