@@ -220,7 +220,8 @@ static void print_text(const summary *s, const screen_result *r, const char *pat
                 table_cell(t, 5, b);
                 p_text(b, sizeof b, pt);
                 table_cell(t, 6, b);
-                table_format_number(b, sizeof b, f->q, 3);
+                if (f->q == 0 && pt->p_below) snprintf(b, sizeof b, "<%.2g", DBL_MIN);
+                else table_format_number(b, sizeof b, f->q, 3);
                 table_cell(t, 7, b);
             }
             if (f->mi.present) table_cellf(t, 8, "%.3f", f->mi.normalized);

@@ -341,9 +341,10 @@ static pca_status choose(const summary *s, const pca_options *o, pca_result *r, 
     pca_status st = PCA_ERR_MEMORY;
     name_entry *byname = malloc((n ? n : 1) * sizeof *byname);
     unsigned char *chosen = calloc(n ? n : 1, 1), *excluded = calloc(n ? n : 1, 1);
+    unsigned char *listed = calloc(n ? n : 1, 1);
     r->cols = malloc((n ? n : 1) * sizeof *r->cols);
     r->left = malloc((n ? n : 1) * sizeof *r->left);
-    if (!byname || !chosen || !excluded || !r->cols || !r->left) {
+    if (!byname || !chosen || !excluded || !listed || !r->cols || !r->left) {
         snprintf(err, errlen, "out of memory");
         goto done;
     }
@@ -354,15 +355,21 @@ static pca_status choose(const summary *s, const pca_options *o, pca_result *r, 
     if (o->columns && mark_names(s, byname, o->columns, ',', "--columns", chosen, err, errlen))
         goto done;
     if (o->keep_list &&
-        mark_names(s, byname, o->keep_list, '\n', "keep list", chosen, err, errlen))
+        mark_names(s, byname, o->keep_list, '\n', "keep list", listed, err, errlen))
         goto done;
     if (o->exclude && mark_names(s, byname, o->exclude, ',', "--exclude", excluded, err, errlen))
         goto done;
     r->p = r->nleft = 0;
     for (size_t j = 0; j < n; j++) {
         if (explicit_choice) {
-            if (!chosen[j] || excluded[j]) continue;
+            if ((!chosen[j] && !listed[j]) || excluded[j]) continue;
             int why = unusable(s, j, o, 1);
+            if (why && !chosen[j]) {
+                /* A keep list from a screen names categorical columns too:
+                 * they are left out and listed, not an error. */
+                r->left[r->nleft++] = (pca_left_out){j, (pca_reason)why};
+                continue;
+            }
             if (why) {
                 snprintf(err, errlen, "column '%s' %s", s->cols[j].name,
                          why_unusable(why, o->basis));
@@ -378,7 +385,8 @@ static pca_status choose(const summary *s, const pca_options *o, pca_result *r, 
     }
     if (explicit_choice)
         for (size_t j = 0; j < n; j++)
-            if (chosen[j] && excluded[j]) r->left[r->nleft++] = (pca_left_out){j, PCA_LEFT_EXCLUDED};
+            if ((chosen[j] || listed[j]) && excluded[j])
+                r->left[r->nleft++] = (pca_left_out){j, PCA_LEFT_EXCLUDED};
     if (r->p == 0) {
         snprintf(err, errlen, "no column is left for the PCA%s",
                  explicit_choice ? "" : " (every column is categorical, constant, ID-like, "
@@ -390,6 +398,7 @@ done:
     free(byname);
     free(chosen);
     free(excluded);
+    free(listed);
     return st;
 }
 

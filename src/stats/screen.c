@@ -503,6 +503,7 @@ screen_result *screen_run(const summary *s, const screen_options *o)
         }
         f->rank = ++rnk;
         if (task == TASK_AUTO) add_reason(f, "no flag, not redundant");
+        else if (f->q == 0) add_reason(f, "relevant (q < 1e-300)");
         else add_reason(f, "relevant (q = %.3g)", f->q);
     }
     res->kept = rnk;

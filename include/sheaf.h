@@ -1,0 +1,37 @@
+/* sheaf: the public API of libsheaf.a.
+ *
+ * sheaf reads CSV/TSV tables (plain, gzip, zstd) once, in bounded memory,
+ * into a mergeable summary, and computes screening statistics and principal
+ * components from summaries alone.  The library is the same code the `sheaf`
+ * command runs; a program uses it in four steps:
+ *
+ *   scan_options o;  scan_options_defaults(&o);       summary/scan.h
+ *   o.opt.target = strdup("outcome");
+ *   summary *s;  char err[512];
+ *   if (scan_files(&o, paths, npaths, &s, err, sizeof err) != SCAN_OK) ...
+ *   summary_write(s, "night.sheaf", err, sizeof err);  summary/summary.h
+ *   summary_merge(a, b, err, sizeof err);              exact merge of two summaries
+ *   screen_result *r = screen_run(s, &screen_opts);    stats/screen.h
+ *   pca_fit(s, &pca_opts, &fit, err, sizeof err);      stats/pca.h
+ *
+ * Every function reports failure through its return value and a one-line
+ * message in a caller-provided buffer; none prints or exits.  Objects are
+ * created and freed by the caller (summary_free, screen_free,
+ * pca_result_free).  Nothing keeps global mutable state, so independent
+ * summaries may be built on different threads.
+ *
+ * Compile with -Iinclude -Isrc and link libsheaf.a with
+ *   -lgsl -lisal -lzstd -lxxhash -lopenblas -llapacke -lz -lm -lpthread
+ * (the module headers below live under src/ and document each call).
+ */
+#ifndef SHEAF_H
+#define SHEAF_H
+
+#include "summary/scan.h"
+#include "summary/summary.h"
+#include "stats/screen.h"
+#include "stats/pca.h"
+
+#define SHEAF_VERSION "0.1"
+
+#endif
