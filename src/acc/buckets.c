@@ -90,7 +90,7 @@ struct buckets {
     size_t key_cap;     /* power of two */
     unsigned key_shift; /* 64 - log2(key_cap) */
     size_t nkeys;       /* distinct keys */
-    order_item *order;  /* sort index, cap / 2 items allocated */
+    order_item *order;  /* sort index, ORDER_CAP(cap) items allocated */
     int order_valid;    /* order holds all n entries, sorted */
     uint64_t total;     /* sum of all counts */
     uint32_t budget;    /* most distinct keys allowed */
@@ -214,11 +214,16 @@ static unsigned log2_of(size_t pow2)
     return k;
 }
 
-/* Smallest power of two >= MIN_CAP that keeps load <= 1/2 for n items. */
+/* Smallest power of two >= MIN_CAP that keeps load <= 3/4 for n items. */
+/* Tables are kept at most 3/4 full (memory matters: one store per column,
+ * thousands of columns). */
+#define OVER_LOAD(n, cap) (4 * (n) > 3 * (cap))
+#define ORDER_CAP(cap) ((cap) / 4 * 3 + 1)
+
 static size_t cap_for(size_t n)
 {
     size_t cap = MIN_CAP;
-    while (cap / 2 < n) cap *= 2;
+    while (OVER_LOAD(n, cap)) cap *= 2;
     return cap;
 }
 
@@ -249,7 +254,7 @@ static int grow_slots(buckets *b)
     if (b->cap > UINT32_MAX / 2) return -1; /* order_item.pos is 32-bit */
     size_t cap = b->cap * 2;
     slot *slots = calloc(cap, sizeof *slots);
-    order_item *order = malloc(cap / 2 * sizeof *order);
+    order_item *order = malloc(ORDER_CAP(cap) * sizeof *order);
     if (!slots || !order) { free(slots); free(order); return -1; }
     unsigned shift = 64 - log2_of(cap);
     for (size_t i = 0; i < b->cap; i++) {
@@ -360,7 +365,7 @@ static int rebuild(buckets *b, const buckets_entry *e, size_t n, int level)
     size_t cap = cap_for(n), key_cap = cap_for(nk);
     slot *slots = calloc(cap, sizeof *slots);
     key_slot *keys = calloc(key_cap, sizeof *keys);
-    order_item *order = malloc(cap / 2 * sizeof *order);
+    order_item *order = malloc(ORDER_CAP(cap) * sizeof *order);
     if (!slots || !keys || !order) { free(slots); free(keys); free(order); return -1; }
     unsigned shift = 64 - log2_of(cap), key_shift = 64 - log2_of(key_cap);
     uint64_t total = 0;
@@ -476,11 +481,11 @@ static int add_new(buckets *b, uint64_t u, uint32_t cell, uint64_t count)
             if (collapse(b)) return -1;
             continue;
         }
-        if (2 * (b->n + 1) > b->cap) {
+        if (OVER_LOAD(b->n + 1, b->cap)) {
             if (grow_slots(b)) return -1;
             pos = slot_find(b->slots, b->cap, b->shift, id);
         }
-        if (new_key && 2 * (b->nkeys + 1) > b->key_cap) {
+        if (new_key && OVER_LOAD(b->nkeys + 1, b->key_cap)) {
             if (grow_keys(b)) return -1;
             kp = key_find(b->keys, b->key_cap, b->key_shift, key);
         }
@@ -562,9 +567,9 @@ static int merge_in_place(buckets *into, const buckets *from, const uint32_t *ce
     }
     /* Rekeyed keys may coincide, so `fresh` is an upper bound: safe. */
     if (into->nkeys + fresh > into->budget) return 0;
-    while (2 * (into->n + from->n) > into->cap)
+    while (OVER_LOAD(into->n + from->n, into->cap))
         if (grow_slots(into)) return -1;
-    while (2 * (into->nkeys + fresh) > into->key_cap)
+    while (OVER_LOAD(into->nkeys + fresh, into->key_cap))
         if (grow_keys(into)) return -1;
     /* Pass 2: cannot fail. */
     for (size_t i = 0; i < from->cap; i++) {

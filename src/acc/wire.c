@@ -12,9 +12,18 @@ void wire_writer_free(wire_writer *w)
     memset(w, 0, sizeof *w);
 }
 
+int wire_writer_drain(wire_writer *w)
+{
+    if (w->failed || !w->drain || !w->len) return !w->failed;
+    if (w->drain(w->drain_ctx, w->data, w->len) != 0) w->failed = 1;
+    w->len = 0;
+    return !w->failed;
+}
+
 static int reserve(wire_writer *w, size_t n)
 {
     if (w->failed) return 0;
+    if (w->drain && w->len >= WIRE_DRAIN_BYTES && !wire_writer_drain(w)) return 0;
     if (w->len + n <= w->cap) return 1;
     size_t cap = w->cap ? w->cap : 256;
     while (cap < w->len + n) cap *= 2;

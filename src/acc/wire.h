@@ -15,8 +15,18 @@ typedef struct {
     uint8_t *data;  /* owned buffer (free with wire_writer_free) */
     size_t len;     /* bytes written */
     size_t cap;     /* bytes allocated */
-    int failed;     /* allocation failed: contents incomplete */
+    int failed;     /* allocation (or the drain) failed: contents incomplete */
+    /* Optional drain: when set, the buffer is handed to it whenever it holds
+     * WIRE_DRAIN_BYTES or more and then emptied, so large outputs stream in
+     * bounded memory.  Returns 0, or -1 to fail the writer. */
+    int (*drain)(void *ctx, const uint8_t *data, size_t len);
+    void *drain_ctx;
 } wire_writer;
+
+#define WIRE_DRAIN_BYTES (1u << 20)
+
+/* Hands what is buffered to the drain (no-op without one); returns !failed. */
+int wire_writer_drain(wire_writer *w);
 
 typedef struct {
     const uint8_t *data; /* borrowed bytes */

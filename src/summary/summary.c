@@ -17,6 +17,7 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <sys/mman.h>
 #include <sys/stat.h>
 #include <unistd.h>
 #include <xxhash.h>
@@ -546,13 +547,6 @@ double summary_column_distinct(const summary_column *c, int *exact)
 
 /* ---- encoding ----------------------------------------------------------- */
 
-static void put_section(wire_writer *w, uint32_t tag, const wire_writer *payload)
-{
-    wire_put_u32(w, tag);
-    wire_put_u64(w, payload->len);
-    wire_put_bytes(w, payload->data, payload->len);
-    wire_put_u64(w, XXH3_64bits(payload->data, payload->len));
-}
 
 static void encode_schema(const summary *s, wire_writer *w)
 {
@@ -675,33 +669,6 @@ static void encode_columns(const summary *s, wire_writer *w)
     }
 }
 
-summary_status summary_encode(const summary *s, uint8_t **data, size_t *len)
-{
-    wire_writer out, part;
-    wire_writer_init(&out);
-    wire_put_bytes(&out, MAGIC, sizeof MAGIC);
-    wire_put_u32(&out, SUMMARY_FORMAT_VERSION);
-    void (*enc[])(const summary *, wire_writer *) = {encode_schema, encode_sources, encode_table,
-                                                      encode_target, encode_columns,
-                                                      encode_comoments};
-    const uint32_t tags[] = {TAG_SCHEMA,  TAG_SOURCES, TAG_TABLE,
-                             TAG_TARGET, TAG_COLUMNS, TAG_COMOMENTS};
-    for (int k = 0; k < 6; k++) {
-        wire_writer_init(&part);
-        enc[k](s, &part);
-        if (part.failed) { wire_writer_free(&part); wire_writer_free(&out); return SUMMARY_ERR_MEMORY; }
-        put_section(&out, tags[k], &part);
-        wire_writer_free(&part);
-    }
-    wire_put_u32(&out, TAG_END);
-    wire_put_u64(&out, 8);
-    uint64_t h = out.failed ? 0 : XXH3_64bits(out.data, out.len);
-    wire_put_u64(&out, h);
-    if (out.failed) { wire_writer_free(&out); return SUMMARY_ERR_MEMORY; }
-    *data = out.data;
-    *len = out.len;
-    return SUMMARY_OK;
-}
 
 /* ---- decoding ----------------------------------------------------------- */
 
@@ -976,33 +943,111 @@ summary_status summary_decode(const uint8_t *data, size_t len, summary **out, ch
 
 /* ---- files -------------------------------------------------------------- */
 
+/* Streaming write: each section's payload is drained to the file as it is
+ * encoded, hashed on the way; its length is patched in afterwards, and the
+ * trailer checksum is computed over the finished bytes. */
+typedef struct {
+    int fd;               /* destination */
+    XXH3_state_t *hash;   /* payload checksum of the current section */
+    uint64_t bytes;       /* payload bytes of the current section */
+} section_out;
+
+static int write_all(int fd, const void *data, size_t len)
+{
+    const uint8_t *p = data;
+    while (len) {
+        ssize_t n = write(fd, p, len);
+        if (n < 0 && errno == EINTR) continue;
+        if (n <= 0) return -1;
+        p += n;
+        len -= (size_t)n;
+    }
+    return 0;
+}
+
+static int section_drain(void *ctx, const uint8_t *data, size_t len)
+{
+    section_out *o = ctx;
+    XXH3_64bits_update(o->hash, data, len);
+    o->bytes += len;
+    return write_all(o->fd, data, len);
+}
+
+static int put_le64(uint8_t *b, uint64_t v)
+{
+    for (int i = 0; i < 8; i++) b[i] = (uint8_t)(v >> (8 * i));
+    return 8;
+}
+
+static int write_sections(const summary *s, int fd)
+{
+    uint8_t head[12];
+    memcpy(head, MAGIC, sizeof MAGIC);
+    for (int i = 0; i < 4; i++) head[8 + i] = (uint8_t)(SUMMARY_FORMAT_VERSION >> (8 * i));
+    if (write_all(fd, head, sizeof head) != 0) return -1;
+    void (*enc[])(const summary *, wire_writer *) = {encode_schema, encode_sources, encode_table,
+                                                      encode_target, encode_columns,
+                                                      encode_comoments};
+    const uint32_t tags[] = {TAG_SCHEMA,  TAG_SOURCES, TAG_TABLE,
+                             TAG_TARGET, TAG_COLUMNS, TAG_COMOMENTS};
+    section_out so = {fd, XXH3_createState(), 0};
+    if (!so.hash) return -1;
+    int rc = 0;
+    off_t pos = (off_t)sizeof head;
+    for (int k = 0; k < 6 && rc == 0; k++) {
+        uint8_t sh[12];
+        for (int i = 0; i < 4; i++) sh[i] = (uint8_t)(tags[k] >> (8 * i));
+        put_le64(sh + 4, 0); /* length, patched below */
+        if (write_all(fd, sh, sizeof sh) != 0) { rc = -1; break; }
+        XXH3_64bits_reset(so.hash);
+        so.bytes = 0;
+        wire_writer w;
+        wire_writer_init(&w);
+        w.drain = section_drain;
+        w.drain_ctx = &so;
+        enc[k](s, &w);
+        wire_writer_drain(&w);
+        int failed = w.failed;
+        wire_writer_free(&w);
+        uint8_t sum[8];
+        put_le64(sum, XXH3_64bits_digest(so.hash));
+        uint8_t lenb[8];
+        put_le64(lenb, so.bytes);
+        if (failed || write_all(fd, sum, sizeof sum) != 0 ||
+            pwrite(fd, lenb, sizeof lenb, pos + 4) != (ssize_t)sizeof lenb) {
+            rc = -1;
+            break;
+        }
+        pos += (off_t)(sizeof sh + so.bytes + sizeof sum);
+    }
+    XXH3_freeState(so.hash);
+    if (rc != 0) return -1;
+    /* Trailer: the checksum of every byte so far, read back from the file. */
+    uint8_t tr[20];
+    for (int i = 0; i < 4; i++) tr[i] = (uint8_t)(TAG_END >> (8 * i));
+    put_le64(tr + 4, 8);
+    if (write_all(fd, tr, 12) != 0) return -1;
+    void *map = mmap(NULL, (size_t)pos + 12, PROT_READ, MAP_SHARED, fd, 0);
+    if (map == MAP_FAILED) return -1;
+    uint64_t h = XXH3_64bits(map, (size_t)pos + 12);
+    munmap(map, (size_t)pos + 12);
+    put_le64(tr + 12, h);
+    return write_all(fd, tr + 12, 8);
+}
+
 summary_status summary_write(const summary *s, const char *path, char *err, size_t errlen)
 {
-    uint8_t *data;
-    size_t len;
-    if (summary_encode(s, &data, &len) != SUMMARY_OK) {
-        snprintf(err, errlen, "%s: out of memory while encoding", path);
-        return SUMMARY_ERR_MEMORY;
-    }
     size_t plen = strlen(path);
     char *tmp = malloc(plen + 16);
-    if (!tmp) { free(data); snprintf(err, errlen, "out of memory"); return SUMMARY_ERR_MEMORY; }
+    if (!tmp) { snprintf(err, errlen, "out of memory"); return SUMMARY_ERR_MEMORY; }
     snprintf(tmp, plen + 16, "%s.tmp.XXXXXX", path);
     int fd = mkstemp(tmp);
     if (fd < 0) {
         snprintf(err, errlen, "%s: cannot create: %s", path, strerror(errno));
         free(tmp);
-        free(data);
         return SUMMARY_ERR_IO;
     }
-    size_t off = 0;
-    int ok = 1;
-    while (off < len) {
-        ssize_t n = write(fd, data + off, len - off);
-        if (n < 0 && errno == EINTR) continue;
-        if (n <= 0) { ok = 0; break; }
-        off += (size_t)n;
-    }
+    int ok = write_sections(s, fd) == 0;
     int saved = errno;
     if (ok && fsync(fd) != 0) { ok = 0; saved = errno; }
     if (close(fd) != 0 && ok) { ok = 0; saved = errno; }
@@ -1013,45 +1058,37 @@ summary_status summary_write(const summary *s, const char *path, char *err, size
     if (ok && rename(tmp, path) != 0) { ok = 0; saved = errno; }
     if (!ok) {
         unlink(tmp);
-        snprintf(err, errlen, "%s: cannot write: %s", path, strerror(saved));
+        snprintf(err, errlen, "%s: cannot write: %s", path, strerror(saved ? saved : EIO));
     }
     free(tmp);
-    free(data);
     return ok ? SUMMARY_OK : SUMMARY_ERR_IO;
 }
 
 summary_status summary_read(const char *path, summary **out, char *err, size_t errlen)
 {
     *out = NULL;
-    FILE *f = fopen(path, "rb");
-    if (!f) {
+    int fd = open(path, O_RDONLY | O_CLOEXEC);
+    if (fd < 0) {
         snprintf(err, errlen, "%s: cannot open: %s", path, strerror(errno));
         return SUMMARY_ERR_IO;
     }
-    size_t cap = 1 << 16, len = 0;
-    uint8_t *data = malloc(cap);
-    while (data) {
-        if (len == cap) {
-            uint8_t *p = realloc(data, cap * 2);
-            if (!p) { free(data); data = NULL; break; }
-            data = p;
-            cap *= 2;
-        }
-        size_t n = fread(data + len, 1, cap - len, f);
-        len += n;
-        if (n == 0) break;
+    struct stat st;
+    if (fstat(fd, &st) != 0 || !S_ISREG(st.st_mode)) {
+        close(fd);
+        snprintf(err, errlen, "%s: not a regular file", path);
+        return SUMMARY_ERR_IO;
     }
-    int bad = ferror(f);
-    fclose(f);
-    if (!data) { snprintf(err, errlen, "%s: out of memory", path); return SUMMARY_ERR_MEMORY; }
-    if (bad) {
-        free(data);
-        snprintf(err, errlen, "%s: read error", path);
+    size_t len = (size_t)st.st_size;
+    /* Mapped, not copied: a summary of thousands of columns is hundreds of MB. */
+    void *map = len ? mmap(NULL, len, PROT_READ, MAP_PRIVATE, fd, 0) : NULL;
+    close(fd);
+    if (len && map == MAP_FAILED) {
+        snprintf(err, errlen, "%s: cannot map: %s", path, strerror(errno));
         return SUMMARY_ERR_IO;
     }
     char inner[400];
-    summary_status st = summary_decode(data, len, out, inner, sizeof inner);
-    free(data);
-    if (st != SUMMARY_OK) snprintf(err, errlen, "%s: %s", path, inner);
-    return st;
+    summary_status rc = summary_decode(map ? map : "", len, out, inner, sizeof inner);
+    if (map) munmap(map, len);
+    if (rc != SUMMARY_OK) snprintf(err, errlen, "%s: %s", path, inner);
+    return rc;
 }

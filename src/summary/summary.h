@@ -203,8 +203,7 @@ uint64_t summary_column_present(const summary_column *c);
  * is flushed and renamed, so no half-written file ever has the final name. */
 summary_status summary_write(const summary *s, const char *path, char *err, size_t errlen);
 summary_status summary_read(const char *path, summary **out, char *err, size_t errlen);
-/* In-memory forms (the file is the same bytes). */
-summary_status summary_encode(const summary *s, uint8_t **data, size_t *len);
+/* Decodes a summary from the bytes of a file. */
 summary_status summary_decode(const uint8_t *data, size_t len, summary **out, char *err,
                               size_t errlen);
 

@@ -1,0 +1,322 @@
+#!/usr/bin/env bash
+# End-to-end checks of `sheaf trim` through the command line: the output is
+# the input with the dropped columns removed, byte for byte, on plain, gzip
+# and zstd inputs; quoted fields holding delimiters, newlines and doubled
+# quotes; CRLF record ends; a tab-delimited file with quoted header names;
+# output compressed by its name (.gz, .zst); --keep-list, --carry and --from
+# (the kept columns of `sheaf screen`, and the target always); input column
+# order kept; several files with one header; a file with a different header
+# refused (exit 3) and an unknown column in the keep list refused (exit 2),
+# neither leaving an output file; --help.
+#
+# Reference: since trim keeps each field's raw bytes, the expected output is
+# built here from the raw bytes of the plain input (Debian's /usr/bin/python3,
+# no csv module): each record is split on the delimiters outside quotes, the
+# kept fields are joined with the same delimiter and the record keeps its own
+# line end (LF or CRLF).  Decompression by gzip(1) and zstd(1).  The kept set
+# of --from comes from `sheaf screen --format json` on the same summary.
+#
+# Run from the repository root after make (tests/run.sh does both).  Prints
+# one "PASS name" or "FAIL name: why" line per check, "SKIP name: reason" for
+# checks whose tools are absent, and exits 0.  Inputs are made here with a
+# fixed seed (an invented inventory table).
+set -u
+cd "$(dirname "$0")/../.." || exit 0
+SHEAF=./sheaf
+PY=/usr/bin/python3
+T=$(mktemp -d "${TMPDIR:-/tmp}/sheaf-trim.XXXXXX")
+trap 'rm -rf "$T"' EXIT
+
+pass() { echo "PASS $1"; }
+fail() { echo "FAIL $1: $2"; }
+skip() { echo "SKIP $1: $2"; }
+# check NAME WHY COMMAND...: PASS when COMMAND succeeds.
+check() {
+    local name=$1 why=$2
+    shift 2
+    if "$@"; then pass "$name"; else fail "$name" "$why"; fi
+}
+# run CMD...: runs with stdout/stderr to $T/out, $T/err; exit code in $RC.
+run() {
+    "$@" >"$T/out" 2>"$T/err"
+    RC=$?
+}
+err_text() { tr '\n' '|' <"$T/err" | cut -c1-300; }
+# first_diff A B: where two files first differ (for failure messages).
+first_diff() { cmp "$1" "$2" 2>&1 | head -n 1; }
+
+if [ ! -x "$SHEAF" ]; then
+    fail binary "$SHEAF not found (run make first)"
+    exit 0
+fi
+if [ ! -x "$PY" ]; then
+    skip all "$PY not found"
+    exit 0
+fi
+
+# ------------------------------------------------------------------- --help
+run "$SHEAF" trim --help
+check help.exit_0 "exit $RC" [ "$RC" -eq 0 ]
+check help.prints_usage "stdout: $(head -c 80 "$T/out")" grep -q "^usage: sheaf trim" "$T/out"
+
+# ------------------------------------------------------------------- inputs
+# make.py DIR: writes the test tables.
+#   stock.csv       comma, LF; quoted fields with commas, newlines (LF and
+#                   CRLF inside quotes), doubled quotes and empty quoted
+#                   fields; 600 rows; 'state' is the class target
+#   stock_crlf.csv  the same records ending in CRLF
+#   stock.tsv       tab-delimited, quoted header names, quoted fields with
+#                   tabs inside, commas unquoted
+#   other.csv       like stock.csv with one header name changed
+cat >"$T/make.py" <<'EOF'
+import os, random, sys
+d = sys.argv[1]
+r = random.Random(20240918)
+names = ['"Smith, J."', 'plain', '"Ann ""Jo"" Lee"', '""', '"x,y,z"']
+notes_by_state = {
+    "ok": ['"fine"', '"all good,\nnothing to add"', 'none'],
+    "low": ['"reorder ""soon"""', '"two\r\nlines, low"', '"low"'],
+}
+header = ["sku", "label", "qty", "note", "shelf", "batch", "state", "weight"]
+rows = []
+for i in range(600):
+    qty = r.gauss(50, 15)
+    state = "low" if qty + r.gauss(0, 5) < 45 else "ok"
+    rows.append([
+        str(100000 + i),                     # ID-like: dropped by screen
+        r.choice(names),                     # unrelated text
+        "%.2f" % qty,                        # drives the target
+        r.choice(notes_by_state[state]),     # follows the target
+        "A7",                                # constant: dropped by screen
+        "" if r.random() < 0.1 else str(r.randint(1, 9)),
+        state,
+        "%.3f" % r.gauss(2, 0.5),
+    ])
+def write(path, head, delim, eol):
+    with open(path, "wb") as f:
+        f.write((delim.join(head) + eol).encode())
+        for row in rows:
+            f.write((delim.join(row) + eol).encode())
+write(os.path.join(d, "stock.csv"), header, ",", "\n")
+write(os.path.join(d, "stock_crlf.csv"), header, ",", "\r\n")
+other = list(header)
+other[2] = "quantity"
+write(os.path.join(d, "other.csv"), other, ",", "\n")
+# tab-delimited: quoted header names, tabs inside quoted fields
+tab_rows = [[c.replace(",", "\t") if c.startswith('"') else c.replace("plain", "plain,ish")
+             for c in row] for row in rows]
+rows = tab_rows
+write(os.path.join(d, "stock.tsv"), ['"%s"' % h for h in header], "\t", "\n")
+EOF
+# ref.py FILE DELIM NAME,NAME..: the expected trim output on stdout.
+cat >"$T/ref.py" <<'EOF'
+import sys
+path, delim, keep = sys.argv[1], sys.argv[2].encode(), set(sys.argv[3].split(","))
+data = open(path, "rb").read()
+Q, LF, CR = ord('"'), ord("\n"), ord("\r")
+D = delim[0]
+
+def records(data):
+    """(fields as raw bytes, line end) per record; delimiters and line ends
+    inside quotes belong to the field."""
+    i, n = 0, len(data)
+    while i < n:
+        fields, start, inq = [], i, False
+        while i < n:
+            c = data[i]
+            if c == Q:
+                inq = not inq
+            elif not inq and c == D:
+                fields.append(data[start:i])
+                start = i + 1
+            elif not inq and c == LF:
+                break
+            i += 1
+        last, eol = data[start:i], b"\n" if i < n else b""
+        if eol and last.endswith(b"\r"):
+            last, eol = last[:-1], b"\r\n"
+        fields.append(last)
+        yield fields, eol
+        i += 1
+
+out = sys.stdout.buffer
+pick = None
+for fields, eol in records(data):
+    if pick is None:
+        names = [f[1:-1] if len(f) >= 2 and f[0] == Q and f[-1] == Q else f for f in fields]
+        pick = [j for j, nm in enumerate(names) if nm.decode() in keep]
+        missing = keep - {names[j].decode() for j in pick}
+        if missing:
+            sys.exit("ref.py: no column %s" % sorted(missing))
+    out.write(delim.join(fields[j] if j < len(fields) else b"" for j in pick) + (eol or b"\n"))
+EOF
+# header_of FILE: the first line's field names, comma-joined (for messages).
+header_of() { head -n 1 "$1" | tr -d '\r' | tr '\t' ',' | tr -d '"'; }
+
+D=$T/in
+mkdir "$D"
+if ! "$PY" "$T/make.py" "$D"; then
+    fail inputs "make.py failed"
+    exit 0
+fi
+check inputs.quoted_newlines_present "no quoted newline in stock.csv" \
+    grep -q '"all good,$' "$D/stock.csv"
+HAVE_GZ=0 HAVE_ZST=0
+command -v gzip >/dev/null && HAVE_GZ=1 && gzip -c "$D/stock.csv" >"$D/stock.csv.gz"
+command -v zstd >/dev/null && HAVE_ZST=1 && zstd -q -c "$D/stock.csv" >"$D/stock.csv.zst"
+
+# same NAME EXPECTED GOT: byte-for-byte equal.
+same() {
+    if [ -s "$2" ] && cmp -s "$2" "$3"; then pass "$1"; else
+        fail "$1" "output differs from the reference: $(first_diff "$2" "$3"); got header '$(head -c 100 "$3" | head -n 1)'"
+    fi
+}
+# trim_case NAME EXPECTED ARGS...: trim to stdout exits 0 and equals EXPECTED.
+trim_case() {
+    local name=$1 want=$2
+    shift 2
+    run "$SHEAF" trim "$@"
+    if [ "$RC" -ne 0 ]; then fail "$name" "trim $* exited $RC: $(err_text)"; return; fi
+    same "$name" "$want" "$T/out"
+}
+
+# ------------------------------------------------------------- --keep-list
+# The keep list names columns out of input order; the output keeps input order.
+printf 'note\nqty\nlabel\n' >"$T/keep.txt"
+"$PY" "$T/ref.py" "$D/stock.csv" , label,qty,note >"$T/want_plain"
+"$PY" "$T/ref.py" "$D/stock_crlf.csv" , label,qty,note >"$T/want_crlf"
+"$PY" "$T/ref.py" "$D/stock.tsv" "$(printf '\t')" label,qty,note >"$T/want_tsv"
+check reference.keeps_quoted_newlines "reference has $(wc -l <"$T/want_plain") lines" \
+    [ "$(wc -l <"$T/want_plain")" -gt 601 ]
+check reference.crlf_record_ends "no CRLF in the reference" grep -q $'\r$' "$T/want_crlf"
+
+trim_case keep_list.plain_lf.bytes_equal "$T/want_plain" "$D/stock.csv" --keep-list "$T/keep.txt"
+check keep_list.input_order "header '$(header_of "$T/out")'" \
+    [ "$(header_of "$T/out")" = "label,qty,note" ]
+trim_case keep_list.crlf.bytes_equal "$T/want_crlf" "$D/stock_crlf.csv" --keep-list "$T/keep.txt"
+trim_case keep_list.tab_detected.bytes_equal "$T/want_tsv" "$D/stock.tsv" --keep-list "$T/keep.txt"
+trim_case keep_list.tab_given.bytes_equal "$T/want_tsv" "$D/stock.tsv" --keep-list "$T/keep.txt" -d tab
+if [ "$HAVE_GZ" -eq 1 ]; then
+    trim_case keep_list.gzip_input.bytes_equal "$T/want_plain" "$D/stock.csv.gz" --keep-list "$T/keep.txt"
+else
+    skip keep_list.gzip_input "gzip not found"
+fi
+if [ "$HAVE_ZST" -eq 1 ]; then
+    trim_case keep_list.zstd_input.bytes_equal "$T/want_plain" "$D/stock.csv.zst" --keep-list "$T/keep.txt"
+else
+    skip keep_list.zstd_input "zstd not found"
+fi
+
+# A single kept column: no delimiter left in the output but inside quotes.
+printf 'label\n' >"$T/keep1.txt"
+"$PY" "$T/ref.py" "$D/stock.csv" , label >"$T/want_one"
+trim_case keep_list.one_column.bytes_equal "$T/want_one" "$D/stock.csv" --keep-list "$T/keep1.txt"
+
+# ------------------------------------------------------------------ --carry
+"$PY" "$T/ref.py" "$D/stock.csv" , sku,label,qty,note >"$T/want_carry"
+trim_case carry.adds_columns.bytes_equal "$T/want_carry" "$D/stock.csv" --keep-list "$T/keep.txt" --carry sku
+"$PY" "$T/ref.py" "$D/stock_crlf.csv" , sku,label,qty,note,weight >"$T/want_carry2"
+trim_case carry.two_columns_crlf.bytes_equal "$T/want_carry2" "$D/stock_crlf.csv" \
+    --keep-list "$T/keep.txt" --carry weight,sku
+
+# --------------------------------------------------------- compressed output
+for ext in gz zst; do
+    tool=gzip
+    [ "$ext" = zst ] && tool=zstd
+    if ! command -v "$tool" >/dev/null; then skip "output_$ext" "$tool not found"; continue; fi
+    mkdir "$T/o_$ext"
+    out=$T/o_$ext/trimmed.csv.$ext
+    run "$SHEAF" trim "$D/stock.csv" --keep-list "$T/keep.txt" -o "$out"
+    if [ "$RC" -ne 0 ]; then fail "output_$ext.exit_0" "exit $RC: $(err_text)"; continue; fi
+    check "output_$ext.nothing_on_stdout" "$(wc -c <"$T/out") bytes on stdout" [ ! -s "$T/out" ]
+    magic=$(od -An -tx1 -N4 "$out" | tr -d ' ')
+    want_magic=1f8b
+    [ "$ext" = zst ] && want_magic=28b52ffd
+    check "output_$ext.is_$tool" "first bytes $magic" [ "${magic#"$want_magic"}" != "$magic" ]
+    "$tool" -dc "$out" >"$T/o_$ext/plain" 2>/dev/null
+    same "output_$ext.decompresses_to_reference" "$T/want_plain" "$T/o_$ext/plain"
+    check "output_$ext.only_the_output_left" "directory holds: $(ls "$T/o_$ext" | tr '\n' ' ')" \
+        [ "$(ls "$T/o_$ext" | tr '\n' ' ')" = "plain trimmed.csv.$ext " ]
+done
+mkdir "$T/o_plain"
+run "$SHEAF" trim "$D/stock_crlf.csv" --keep-list "$T/keep.txt" -o "$T/o_plain/trimmed.csv"
+check output_plain.exit_0 "exit $RC: $(err_text)" [ "$RC" -eq 0 ]
+same output_plain.bytes_equal "$T/want_crlf" "$T/o_plain/trimmed.csv"
+
+# ------------------------------------------------------------------- --from
+# The kept set is screen's, plus the target; nothing else.
+run "$SHEAF" scan -q "$D/stock.csv" -o "$T/stock.sheaf" --target state
+if [ "$RC" -ne 0 ]; then
+    fail from.scan "exit $RC: $(err_text)"
+else
+    "$SHEAF" screen "$T/stock.sheaf" --format json >"$T/screen.json" 2>"$T/err"
+    kept=$("$PY" -c 'import json, sys
+d = json.load(open(sys.argv[1]))
+print(",".join(f["name"] for f in d["features"] if f["decision"] == "keep"))' "$T/screen.json")
+    dropped=$("$PY" -c 'import json, sys
+d = json.load(open(sys.argv[1]))
+print(",".join(f["name"] for f in d["features"] if f["decision"] == "drop"))' "$T/screen.json")
+    # the table is made so that screen keeps qty and note and drops sku and shelf
+    check from.screen_keeps_some_drops_some "kept '$kept', dropped '$dropped'" \
+        eval '[[ ",$kept," == *,qty,* && ",$kept," == *,note,* && ",$dropped," == *,sku,* && ",$dropped," == *,shelf,* ]]'
+    "$PY" "$T/ref.py" "$D/stock.csv" , "$kept,state" >"$T/want_from"
+    trim_case from.screen_kept_plus_target.bytes_equal "$T/want_from" "$D/stock.csv" --from "$T/stock.sheaf"
+    check from.target_included "header '$(header_of "$T/out")'" \
+        eval '[[ ",$(header_of "$T/out")," == *,state,* ]]'
+    want_order=$(header_of "$T/want_from")
+    check from.input_order "header '$(header_of "$T/out")', want '$want_order'" \
+        [ "$(header_of "$T/out")" = "$want_order" ]
+    "$PY" "$T/ref.py" "$D/stock_crlf.csv" , "$kept,state,sku" >"$T/want_from_carry"
+    trim_case from.carry_crlf.bytes_equal "$T/want_from_carry" "$D/stock_crlf.csv" \
+        --from "$T/stock.sheaf" --carry sku
+    if [ "$HAVE_ZST" -eq 1 ]; then
+        trim_case from.zstd_input.bytes_equal "$T/want_from" "$D/stock.csv.zst" --from "$T/stock.sheaf"
+    fi
+    # --top 1: the best-ranked column and the target
+    best=$("$PY" -c 'import json, sys
+d = json.load(open(sys.argv[1]))
+print([f["name"] for f in d["features"] if f["rank"] == 1][0])' "$T/screen.json")
+    "$PY" "$T/ref.py" "$D/stock.csv" , "$best,state" >"$T/want_top1"
+    trim_case from.top_1.bytes_equal "$T/want_top1" "$D/stock.csv" --from "$T/stock.sheaf" --top 1
+fi
+
+# --------------------------------------------------------------- two files
+# One header, the records of both files in turn.
+{ cat "$T/want_plain"; tail -n +2 "$T/want_plain"; } >"$T/want_twice"
+trim_case two_files.one_header.bytes_equal "$T/want_twice" "$D/stock.csv" "$D/stock.csv" --keep-list "$T/keep.txt"
+if [ "$HAVE_GZ" -eq 1 ]; then
+    trim_case two_files.plain_then_gzip.bytes_equal "$T/want_twice" "$D/stock.csv" "$D/stock.csv.gz" \
+        --keep-list "$T/keep.txt"
+fi
+
+mkdir "$T/o_refused"
+printf 'label\nnote\n' >"$T/keep_common.txt"
+run "$SHEAF" trim "$D/stock.csv" "$D/other.csv" --keep-list "$T/keep_common.txt" -o "$T/o_refused/out.csv"
+check different_header.exit_3 "exit $RC: $(err_text)" [ "$RC" -eq 3 ]
+check different_header.names_file "stderr: $(err_text)" grep -q "other.csv" "$T/err"
+check different_header.no_output_left "directory holds: $(ls -A "$T/o_refused" | tr '\n' ' ')" \
+    [ -z "$(ls -A "$T/o_refused")" ]
+mkdir "$T/o_refused_gz"
+run "$SHEAF" trim "$D/stock.csv" "$D/other.csv" --keep-list "$T/keep_common.txt" -o "$T/o_refused_gz/out.csv.gz"
+check different_header_gz_output.exit_3 "exit $RC: $(err_text)" [ "$RC" -eq 3 ]
+check different_header_gz_output.no_output_left "directory holds: $(ls -A "$T/o_refused_gz" | tr '\n' ' ')" \
+    [ -z "$(ls -A "$T/o_refused_gz")" ]
+
+# ------------------------------------------------------------ usage errors
+mkdir "$T/o_unknown"
+printf 'qty\nno_such_column\n' >"$T/keep_bad.txt"
+run "$SHEAF" trim "$D/stock.csv" --keep-list "$T/keep_bad.txt" -o "$T/o_unknown/out.csv"
+check unknown_column.exit_2 "exit $RC: $(err_text)" [ "$RC" -eq 2 ]
+check unknown_column.names_column "stderr: $(err_text)" grep -q "no_such_column" "$T/err"
+check unknown_column.no_output_left "directory holds: $(ls -A "$T/o_unknown" | tr '\n' ' ')" \
+    [ -z "$(ls -A "$T/o_unknown")" ]
+run "$SHEAF" trim "$D/stock.csv" --keep-list "$T/keep.txt" --carry no_such_carry
+check unknown_carry_column.exit_2 "exit $RC: $(err_text)" [ "$RC" -eq 2 ]
+run "$SHEAF" trim "$D/stock.csv"
+check neither_from_nor_keep_list.exit_2 "exit $RC: $(err_text)" [ "$RC" -eq 2 ]
+run "$SHEAF" trim "$D/stock.csv" --keep-list "$T/keep.txt" --from "$T/stock.sheaf"
+check both_from_and_keep_list.exit_2 "exit $RC: $(err_text)" [ "$RC" -eq 2 ]
+run "$SHEAF" trim --keep-list "$T/keep.txt"
+check no_data_files.exit_2 "exit $RC: $(err_text)" [ "$RC" -eq 2 ]
+
+exit 0
