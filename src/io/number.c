@@ -300,6 +300,17 @@ static int scaled(const number_decimal *n, int32_t s, number_wide *out)
 
 double number_difference(const number_decimal *a, const number_decimal *b, int *exact_out)
 {
+    /* Common case first: both written with the same number of decimals. */
+    if (a->exact && b->exact && a->exp10 == b->exp10 && a->mantissa <= (uint64_t)INT64_MAX &&
+        b->mantissa <= (uint64_t)INT64_MAX) {
+        int64_t x = a->negative ? -(int64_t)a->mantissa : (int64_t)a->mantissa;
+        int64_t y = b->negative ? -(int64_t)b->mantissa : (int64_t)b->mantissa;
+        int64_t d;
+        if (!__builtin_sub_overflow(x, y, &d) && d != INT64_MIN) {
+            if (exact_out) *exact_out = 1;
+            return number_to_double(d < 0 ? (uint64_t)-d : (uint64_t)d, a->exp10, d < 0);
+        }
+    }
     if (a->exact && b->exact) {
         int32_t s = a->exp10 < b->exp10 ? a->exp10 : b->exp10;
         number_wide x, y;

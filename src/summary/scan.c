@@ -86,7 +86,9 @@ static int is_missing(const scanner *sc, const char *p, uint32_t len)
     if (len >= 64 || !(sc->missing_len_mask >> len & 1)) return 0;
     const summary_options *o = &sc->o->opt;
     for (uint32_t i = 0; i < o->n_missing; i++)
-        if (sc->missing_len[i] == len && memcmp(o->missing[i], p, len) == 0) return 1;
+        if (sc->missing_len[i] == len && o->missing[i][0] == p[0] &&
+            memcmp(o->missing[i], p, len) == 0)
+            return 1;
     return 0;
 }
 
@@ -102,10 +104,20 @@ static void class_add(class_moments *m, double x)
 static int flush_lane(scanner *sc, summary_column *c, lane *l)
 {
     int classes = sc->work->has_classes;
+    /* The sketch only matters once the exact table overflows: until then it
+     * stays empty and the table's keys stand in for it (summary.h). */
+    int sketching = values_overflowed(c->vals);
     for (size_t i = 0; i < l->ncells; i++) {
-        if (i + 8 < l->ncells) values_prefetch(c->vals, l->hash[i + 8]);
+        if (i + 8 < l->ncells) {
+            values_prefetch(c->vals, l->hash[i + 8]);
+            if (sketching) __builtin_prefetch(&c->distinct->reg[l->hash[i + 8] >> (64 - HLL_PRECISION)]);
+        }
         if (values_add(c->vals, l->hash[i], l->text[i], l->len[i]) != 0) return -1;
-        hll_add(c->distinct, l->hash[i]);
+        if (!sketching && values_overflowed(c->vals)) {
+            summary_column_fold_keys(c->distinct, c->vals);
+            sketching = 1;
+        }
+        if (sketching) hll_add(c->distinct, l->hash[i]);
     }
     /* A per-value table only serves a categorical column whose value table
      * stayed exact; once the running value table overflowed it never will. */

@@ -454,6 +454,7 @@ summary_status summary_merge(summary *into, summary *from, char *err, size_t err
         a->integers += b->integers;
         moments_merge(&a->mom, &b->mom);
         hll_merge(a->distinct, b->distinct);
+        int was_overflowed = values_overflowed(a->vals);
         uint32_t mlen = map ? from->nclasses + 1 : 0;
         if (values_merge(a->vals, b->vals) != 0 ||
             buckets_merge(a->bins, b->bins, same_classes ? NULL : map, mlen) != 0 ||
@@ -461,6 +462,11 @@ summary_status summary_merge(summary *into, summary *from, char *err, size_t err
              crosstab_merge(a->cross, b->cross, same_classes ? NULL : map, mlen, yshift) != 0)) {
             free(map);
             return merge_fail(err, errlen, "out of memory while merging");
+        }
+        /* Sketches hold only what arrived after their table overflowed. */
+        if (values_overflowed(a->vals)) {
+            if (!was_overflowed) summary_column_fold_keys(a->distinct, a->vals);
+            summary_column_fold_keys(a->distinct, b->vals);
         }
         /* The per-value table is void once the value table overflowed. */
         if (a->cross && values_overflowed(a->vals) && crosstab_entries(a->cross))
@@ -536,6 +542,12 @@ target_task summary_target_task(const summary *s, double numeric_share)
         if (!s->class_numeric[c] || v != nearbyint(v)) return TASK_REGRESS;
     }
     return TASK_CLASSIFY;
+}
+
+void summary_column_fold_keys(hll *h, const values *v)
+{
+    uint32_t n = values_levels(v);
+    for (uint32_t i = 0; i < n; i++) hll_add(h, values_entry_at(v, i).hash);
 }
 
 double summary_column_distinct(const summary_column *c, int *exact)

@@ -80,7 +80,8 @@ typedef struct {
     uint64_t integers;       /* finite cells with an integer value */
     moments mom;             /* moments of finite numeric cells */
     values *vals;            /* value table (raw text) */
-    hll *distinct;           /* distinct-count sketch */
+    hll *distinct;           /* distinct-count sketch: empty while `vals` is exact; once it
+                                overflows, holds every value (its keys folded in) */
     buckets *bins;           /* bucket store of finite numeric cells, cell = target cell */
     crosstab *cross;         /* per value: class counts or target moments (with a target);
                                 emptied and void once `vals` overflowed */
@@ -196,6 +197,8 @@ double summary_column_distinct(const summary_column *c, int *exact);
  * distinct integer values, regression otherwise.  TASK_AUTO: no target. */
 #define SUMMARY_CLASSIFY_MAX_INTEGERS 50
 target_task summary_target_task(const summary *s, double numeric_share);
+/* Adds every key of a value table to a sketch (when the table overflows). */
+void summary_column_fold_keys(hll *h, const values *v);
 /* Present (non-missing) cells. */
 uint64_t summary_column_present(const summary_column *c);
 

@@ -92,7 +92,7 @@ for i in range(600):
         state,
         "%.3f" % r.gauss(2, 0.5),
     ])
-def write(path, head, delim, eol):
+def write(path, head, delim, eol, rows=rows):
     with open(path, "wb") as f:
         f.write((delim.join(head) + eol).encode())
         for row in rows:
@@ -105,39 +105,64 @@ write(os.path.join(d, "other.csv"), other, ",", "\n")
 # tab-delimited: quoted header names, tabs inside quoted fields
 tab_rows = [[c.replace(",", "\t") if c.startswith('"') else c.replace("plain", "plain,ish")
              for c in row] for row in rows]
-rows = tab_rows
-write(os.path.join(d, "stock.tsv"), ['"%s"' % h for h in header], "\t", "\n")
+write(os.path.join(d, "stock.tsv"), ['"%s"' % h for h in header], "\t", "\n", tab_rows)
+# big.csv: about 10 MB, more than two of trim's 4 MiB chunks.  A chunk ends
+# at the first record end at or after 4 MiB from its start, so a record with
+# a long quoted field (newlines, commas, doubled quotes) is placed across
+# each such cut.
+CHUNK = 4 << 20
+long_note = '"' + "\n".join('part %d, ""quoted"", more' % k for k in range(40)) + '"'
+with open(os.path.join(d, "big.csv"), "wb") as f:
+    line = (",".join(header) + "\n").encode()
+    f.write(line)
+    off, cut = len(line), CHUNK
+    for i in range(200000):
+        row = list(rows[i % len(rows)])
+        if off < cut <= off + 400:
+            row[3] = long_note
+        line = (",".join(row) + "\n").encode()
+        if off < cut <= off + len(line):
+            cut = off + len(line) + CHUNK  # the next chunk starts after this record
+        f.write(line)
+        off += len(line)
 EOF
 # ref.py FILE DELIM NAME,NAME..: the expected trim output on stdout.
 cat >"$T/ref.py" <<'EOF'
 import sys
 path, delim, keep = sys.argv[1], sys.argv[2].encode(), set(sys.argv[3].split(","))
 data = open(path, "rb").read()
-Q, LF, CR = ord('"'), ord("\n"), ord("\r")
-D = delim[0]
+Q = ord('"')
 
 def records(data):
     """(fields as raw bytes, line end) per record; delimiters and line ends
-    inside quotes belong to the field."""
-    i, n = 0, len(data)
-    while i < n:
-        fields, start, inq = [], i, False
-        while i < n:
-            c = data[i]
-            if c == Q:
-                inq = not inq
-            elif not inq and c == D:
-                fields.append(data[start:i])
-                start = i + 1
-            elif not inq and c == LF:
-                break
-            i += 1
-        last, eol = data[start:i], b"\n" if i < n else b""
+    inside quotes belong to the field.  Splitting on '"' leaves the text
+    outside quotes at even positions and inside quotes at odd ones (a doubled
+    quote gives an empty outside piece between two inside ones)."""
+    fields, cur = [], bytearray()
+
+    def done(eol):
+        last = bytes(cur)
         if eol and last.endswith(b"\r"):
             last, eol = last[:-1], b"\r\n"
-        fields.append(last)
-        yield fields, eol
-        i += 1
+        return fields + [last], eol
+
+    for k, piece in enumerate(data.split(b'"')):
+        if k:
+            cur += b'"'
+        if k % 2:
+            cur += piece
+            continue
+        for li, line in enumerate(piece.split(b"\n")):
+            if li:
+                yield done(b"\n")
+                fields, cur = [], bytearray()
+            cells = line.split(delim)
+            cur += cells[0]
+            for c in cells[1:]:
+                fields.append(bytes(cur))
+                cur = bytearray(c)
+    if fields or cur:
+        yield done(b"")
 
 out = sys.stdout.buffer
 pick = None
@@ -159,6 +184,9 @@ if ! "$PY" "$T/make.py" "$D"; then
     fail inputs "make.py failed"
     exit 0
 fi
+printf '\357\273\277' | cat - "$D/stock.csv" >"$D/bom.csv"
+check inputs.big_spans_chunks "big.csv has $(wc -c <"$D/big.csv") bytes" \
+    [ "$(wc -c <"$D/big.csv")" -gt 9000000 ]
 check inputs.quoted_newlines_present "no quoted newline in stock.csv" \
     grep -q '"all good,$' "$D/stock.csv"
 HAVE_GZ=0 HAVE_ZST=0
@@ -206,6 +234,18 @@ if [ "$HAVE_ZST" -eq 1 ]; then
 else
     skip keep_list.zstd_input "zstd not found"
 fi
+
+# Records across chunk boundaries, plain and gzip.
+"$PY" "$T/ref.py" "$D/big.csv" , label,qty,note >"$T/want_big"
+trim_case keep_list.big_across_chunks.bytes_equal "$T/want_big" "$D/big.csv" --keep-list "$T/keep.txt"
+if [ "$HAVE_GZ" -eq 1 ]; then
+    gzip -c "$D/big.csv" >"$D/big.csv.gz"
+    trim_case keep_list.big_gzip_across_chunks.bytes_equal "$T/want_big" "$D/big.csv.gz" \
+        --keep-list "$T/keep.txt"
+fi
+# A UTF-8 byte order mark stays in front of the header.
+{ printf '\357\273\277'; cat "$T/want_plain"; } >"$T/want_bom"
+trim_case keep_list.bom_kept.bytes_equal "$T/want_bom" "$D/bom.csv" --keep-list "$T/keep.txt"
 
 # A single kept column: no delimiter left in the output but inside quotes.
 printf 'label\n' >"$T/keep1.txt"

@@ -276,11 +276,13 @@ def compare_class_numeric(tag, path, target, js):
 
 
 def test_class_numeric(sets):
-    for tag, target in (("iris", "species"), ("penguins", "species"), ("tips", "day")):
+    # mpg cylinders: a numeric column taken as classes
+    for tag, target, extra in (("iris", "species", []), ("penguins", "species", []),
+                               ("tips", "day", []), ("mpg", "cylinders", ["--task", "classify"])):
         if tag not in sets:
             continue
         name = "anova.%s_by_%s" % (tag, target)
-        js, _ = scan_screen(name, [sets[tag]], ["--target", target])
+        js, _ = scan_screen(name, [sets[tag]], ["--target", target] + extra)
         if js is None:
             continue
         check(name + ".task_classify", js["target"]["task"] == "classify",
@@ -352,7 +354,10 @@ def test_regress(sets):
     cases = [("tips", "tip", ["day", "sex", "smoker", "time"]),
              ("mpg", "mpg", ["origin", "name"]),
              ("longley", "TOTEMP", []),
-             ("penguins", "body_mass_g", ["species", "island", "sex"])]
+             ("penguins", "body_mass_g", ["species", "island", "sex"]),
+             # integer targets with few values (kept as classes, tested as continuous)
+             ("tips", "size", ["day", "sex", "smoker", "time"]),
+             ("mpg", "cylinders", ["origin"])]
     for tag, target, cats in cases:
         if tag not in sets:
             continue
@@ -493,21 +498,25 @@ def test_nist():
             fh.write("treatment,response\n")
             for a, b in data:
                 fh.write("%s,%s\n" % (a, b))
-        js, _ = scan_screen(t, [csv], ["--target", "treatment", "--task", "classify"])
-        if js is None:
-            continue
-        f = features_by_name(js).get("response")
-        a = (f or {}).get("tests", {}).get("anova_f")
-        if a is None:
-            fail(t + ".anova_f_certified", "no anova_f for response: %r" % f)
-            continue
-        need = 10 if n in ("SmLs07", "SmLs08", "SmLs09") else 12
-        got = digits(a["stat"], f_cert)
-        # NIST StRD certified F (the 'Between' line of the file)
-        check("%s.anova_f_certified_%d_digits" % (t, need), got >= need,
-              "sheaf F %r, certified %r: %.1f digits" % (a["stat"], f_cert, got))
-        check(t + ".df_certified", a["df1"] == df1 and a["df2"] == df2,
-              "sheaf df %r,%r; certified %d,%d" % (a["df1"], a["df2"], df1, df2))
+        # 1K chunks: the same sums merged from many partial summaries
+        for extra, tt in (([], t), (["--chunk-size", "1K"], t + ".chunk_1K")):
+            if extra and len(data) < 1000:
+                continue
+            js, _ = scan_screen(tt, [csv], ["--target", "treatment", "--task", "classify"] + extra)
+            if js is None:
+                continue
+            f = features_by_name(js).get("response")
+            a = (f or {}).get("tests", {}).get("anova_f")
+            if a is None:
+                fail(tt + ".anova_f_certified", "no anova_f for response: %r" % f)
+                continue
+            need = 10 if n in ("SmLs07", "SmLs08", "SmLs09") else 12
+            got = digits(a["stat"], f_cert)
+            # NIST StRD certified F (the 'Between' line of the file)
+            check("%s.anova_f_certified_%d_digits" % (tt, need), got >= need,
+                  "sheaf F %r, certified %r: %.1f digits" % (a["stat"], f_cert, got))
+            check(tt + ".df_certified", a["df1"] == df1 and a["df2"] == df2,
+                  "sheaf df %r,%r; certified %d,%d" % (a["df1"], a["df2"], df1, df2))
 
 
 # ---------------------------------------------------------------------------
@@ -533,12 +542,22 @@ def flag_table(rows=1000, seed=20240917):
     grp = rng.choice(["north", "south", "east", "west"], rows)
     cnt = rng.poisson(4, rows)
     label = np.where(sig + 0.5 * rng.normal(size=rows) > 0, "hi", "lo")
+    # just inside the thresholds: 98% one value, 40% empty, 90% distinct integers
+    near98 = np.zeros(rows, dtype=int)
+    near98[rng.choice(rows, rows // 50, replace=False)] = 1
+    miss40 = ["%.3f" % v for v in rng.normal(size=rows)]
+    for i in rng.choice(rows, rows * 4 // 10, replace=False):
+        miss40[i] = ""
+    int90 = np.arange(rows) + 7000
+    int90[rng.choice(rows, rows // 10, replace=False)] = 7000  # 90% distinct
     cols = [("const_col", ["4.5"] * rows), ("near_const", [str(v) for v in near]),
             ("int_id", [str(v) for v in int_id]), ("text_id", text_id),
             ("mostly_missing", mm), ("high_card", high),
             ("x_signal", ["%.4f" % v for v in sig]), ("x_noise", ["%.4f" % v for v in noise]),
             ("small_var", ["%.5f" % v for v in small]), ("grp", list(grp)),
-            ("count", [str(v) for v in cnt]), ("label", list(label))]
+            ("count", [str(v) for v in cnt]), ("near_98", [str(v) for v in near98]),
+            ("missing_40", miss40), ("int_90", [str(v) for v in int90]),
+            ("label", list(label))]
     p = os.path.join(TMP, "flags.csv")
     with open(p, "w") as f:
         f.write(",".join(n for n, _ in cols) + "\n")
@@ -547,7 +566,10 @@ def flag_table(rows=1000, seed=20240917):
     return p
 
 
-def check_flags(tag, js, want):
+def check_flags(tag, js, want, tested=True):
+    """Each named feature carries exactly the flags wanted; a flagged one is
+    dropped with its flags as the reasons and no test; an unflagged one is
+    tested (when tested: there is a target)."""
     byname = features_by_name(js)
     for name, flags in want.items():
         f = byname.get(name)
@@ -564,7 +586,8 @@ def check_flags(tag, js, want):
                   "decision %r reasons %r tests %r q %r rank %r"
                   % (f["decision"], f["reasons"], list(f["tests"]), f["q"], f["rank"]))
         else:
-            check(t + ".no_flag_tested", f["flags"] == [] and f["q"] is not None,
+            check(t + ".no_flag" + ("_tested" if tested else ""),
+                  f["flags"] == [] and (f["q"] is not None or not tested),
                   "flags %s, q %r" % (f["flags"], f["q"]))
 
 
@@ -572,7 +595,8 @@ def test_flags():
     p = flag_table()
     base = {"const_col": ["constant"], "near_const": ["near_constant"], "int_id": ["id_like"],
             "mostly_missing": ["mostly_missing"], "x_signal": [], "x_noise": [],
-            "small_var": [], "grp": [], "count": []}
+            "small_var": [], "grp": [], "count": [], "near_98": [], "missing_40": [],
+            "int_90": []}
     # --max-levels 50: the text columns' value tables overflow
     js, s = scan_screen("flags.max_levels_50", [p], ["--target", "label", "--max-levels", "50"])
     if js is not None:
@@ -594,6 +618,22 @@ def test_flags():
     js, _ = scan_screen("flags.default_levels", [p], ["--target", "label"])
     if js is not None:
         check_flags("flags.default_levels", js, dict(base, text_id=["id_like"], high_card=[]))
+
+
+def test_id_min_present():
+    """ID-like needs at least 20 present cells: unique integers and texts in
+    19 rows are not flagged, in 20 rows they are (no target: flags only)."""
+    for rows, want in ((19, []), (20, ["id_like"])):
+        p = os.path.join(TMP, "ids_%d.csv" % rows)
+        with open(p, "w") as f:
+            f.write("n,code,x\n")
+            for i in range(rows):
+                f.write("%d,k%03d,%.2f\n" % (1000 + 7 * i, i, (i * 37 % 11) / 3.0))
+        tag = "flags.id_min_present.%d_rows" % rows
+        js, _ = scan_screen(tag, [p])
+        if js is None:
+            continue
+        check_flags(tag, js, {"n": want, "code": want}, tested=False)
 
 
 # ---------------------------------------------------------------------------
@@ -785,6 +825,7 @@ def main():
         test_categorical_class(sets)
         test_nist()
         test_flags()
+        test_id_min_present()
         test_demo()
     finally:
         shutil.rmtree(TMP, ignore_errors=True)
