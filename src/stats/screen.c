@@ -383,6 +383,10 @@ static int relevance_cmp(const screen_feature *a, const screen_feature *b, scree
     if (qa != qb) return qa < qb ? -1 : 1;
     double pa = isnan(a->p) ? 2 : a->p, pb = isnan(b->p) ? 2 : b->p;
     if (pa != pb) return pa < pb ? -1 : 1;
+    /* Equal p (typically both below DBL_MIN): statistics of different tests
+     * are not comparable, normalized mutual information is. */
+    if (a->mi.present && b->mi.present && a->mi.normalized != b->mi.normalized)
+        return a->mi.normalized > b->mi.normalized ? -1 : 1;
     double sa = primary_stat(a), sb = primary_stat(b);
     if (sa != sb) return sa > sb ? -1 : 1;
     return (a->col > b->col) - (a->col < b->col);

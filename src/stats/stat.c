@@ -1,157 +1,285 @@
-/* stat: see stat.h for the methods and references. */
+/* stat: screening tests on plain arrays.  stat.h states the methods, the
+ * references and the conventions; this file adds how each number is formed.
+ *
+ * Sums run in long double so that the grand mean, SSB and the table sums
+ * keep the digits of their inputs (NIST StRD one-way ANOVA: F to 13 digits
+ * and more from exact group statistics).
+ *
+ * F upper tail, a = df1/2, b = df2/2, u = df1 f / (df1 f + df2), v = 1 - u
+ * (both formed without subtraction), Q = I_v(b, a) = 1 - I_u(a, b):
+ *  - b > 1e5, a < 10: Q = Gamma_Q(N log1p(df1 f / df2), a) with
+ *    N = b + (a - 1)/2, the large-b limit of Abramowitz & Stegun 26.5.17
+ *    (the one GSL applies, but to the lower tail);
+ *  - a > 1e5, b < 10: Q = Gamma_P(N log1p(df2 / (df1 f)), b), N = a + (b-1)/2;
+ *  - otherwise the incomplete beta on the smaller of u and v, where GSL's
+ *    continued fraction needs no subtraction for small Q.
+ * Chi-squared upper tail for df > 5e4, a = df/2, lambda = x/(2a):
+ *    Q = erfc(eta sqrt(a/2)) / 2 + exp(-a eta^2/2) / sqrt(2 pi a) (c0 + c1/a),
+ *    eta^2 / 2 = lambda - 1 - log lambda, sign(eta) = sign(lambda - 1),
+ *    c0 = 1/(lambda-1) - 1/eta,
+ *    c1 = 1/eta^3 - 1/(lambda-1)^3 - 1/(lambda-1)^2 - 1/(12 (lambda-1))
+ * (Temme 1979; DLMF 8.12), with the Taylor series c0 = -1/3 + eta/12 -
+ * 2 eta^2/135 (|eta| < 1e-3) and c1 = -1/540 - eta/288 (|eta| < 0.1) where
+ * the closed forms cancel.  The next term is O(a^-2).
+ */
 #include "stats/stat.h"
 
 #include <float.h>
 #include <gsl/gsl_cdf.h>
+#include <gsl/gsl_errno.h>
 #include <math.h>
+#include <pthread.h>
 #include <stdlib.h>
 #include <string.h>
 
-/* Upper tail of F(d1, d2) at x, with the underflow flag. */
-static void f_tail(double x, double d1, double d2, stat_result *r)
+/* ---- GSL errors -------------------------------------------------------- */
+
+static _Thread_local int gsl_status; /* last GSL error of this thread, 0 = none */
+static pthread_once_t handler_once = PTHREAD_ONCE_INIT;
+
+static void record_gsl_error(const char *reason, const char *file, int line, int gsl_errno)
 {
-    r->p = isinf(x) ? 0.0 : gsl_cdf_fdist_Q(x, d1, d2);
-    r->p_below = r->p < DBL_MIN;
-    if (r->p_below) r->p = 0;
+    (void)reason;
+    (void)file;
+    (void)line;
+    if (!gsl_status) gsl_status = gsl_errno;
 }
+
+static void install_handler(void)
+{
+    gsl_set_error_handler(record_gsl_error);
+}
+
+static void gsl_begin(void)
+{
+    pthread_once(&handler_once, install_handler);
+    gsl_status = 0;
+}
+
+/* ---- distribution tails ------------------------------------------------ */
+
+/* Q of F(d1, d2) at finite f > 0. */
+static double f_upper(double f, double d1, double d2)
+{
+    double a = d1 / 2, b = d2 / 2, r = d2 / d1;
+    double u, v, log_ratio; /* log_ratio = log1p(f / r) = -log(v) */
+    if (f <= r) {
+        double t = f / r;
+        u = t / (1 + t);
+        v = 1 / (1 + t);
+        log_ratio = log1p(t);
+    } else {
+        double s = r / f;
+        u = 1 / (1 + s);
+        v = s / (1 + s);
+        log_ratio = log1p(s) - log(s);
+    }
+    if (b > 1e5 && a < 10 && u < b / (a + b))
+        return gsl_cdf_gamma_Q((b + (a - 1) / 2) * log_ratio, a, 1);
+    if (a > 1e5 && b < 10 && v < a / (a + b)) /* -log(u) = log1p(r / f) */
+        return gsl_cdf_gamma_P((a + (b - 1) / 2) * log1p(r / f), b, 1);
+    return u <= 0.5 ? gsl_cdf_beta_Q(u, a, b) : gsl_cdf_beta_P(v, b, a);
+}
+
+/* Q(a, x) of the regularized incomplete gamma for large a (Temme). */
+static double gamma_upper_temme(double a, double x)
+{
+    double mu = (x - a) / a; /* lambda - 1 */
+    double half_eta2 = mu - log1p(mu);
+    double eta = sqrt(2 * half_eta2);
+    if (mu < 0) eta = -eta;
+    double c0, c1;
+    if (fabs(eta) < 1e-3) c0 = -1.0 / 3 + eta / 12 - 2 * eta * eta / 135;
+    else c0 = 1 / mu - 1 / eta;
+    if (fabs(eta) < 0.1) c1 = -1.0 / 540 - eta / 288;
+    else c1 = 1 / (eta * eta * eta) - 1 / (mu * mu * mu) - 1 / (mu * mu) - 1 / (12 * mu);
+    return 0.5 * erfc(eta * sqrt(a / 2)) +
+           exp(-a * half_eta2) / sqrt(2 * M_PI * a) * (c0 + c1 / a);
+}
+
+static double chi2_upper(double x, double df)
+{
+    if (df > 5e4) return gamma_upper_temme(df / 2, x / 2);
+    return gsl_cdf_chisq_Q(x, df);
+}
+
+static void set_undefined(stat_result *out)
+{
+    out->stat = out->df1 = out->df2 = out->p = out->extra = NAN;
+    out->p_below = 0;
+}
+
+/* Sets out->p from a computed tail (or from stat = +inf). */
+static void set_p(stat_result *out, double p)
+{
+    if (isinf(out->stat)) p = 0;
+    else if (gsl_status && gsl_status != GSL_EUNDRFLW) p = NAN;
+    else if (p > 1) p = 1;
+    out->p_below = p < DBL_MIN; /* false for NaN */
+    out->p = out->p_below ? 0 : p;
+}
+
+int stat_f_test(double f, double df1, double df2, stat_result *out)
+{
+    set_undefined(out);
+    if (!(f >= 0) || !(df1 > 0) || !(df2 > 0) || isinf(df1) || isinf(df2)) return -1;
+    out->stat = f;
+    out->df1 = df1;
+    out->df2 = df2;
+    gsl_begin();
+    set_p(out, f == 0 ? 1 : isinf(f) ? 0 : f_upper(f, df1, df2));
+    return 0;
+}
+
+int stat_chi2_test(double x, double df, stat_result *out)
+{
+    set_undefined(out);
+    if (!(x >= 0) || !(df > 0) || isinf(df)) return -1;
+    out->stat = x;
+    out->df1 = df;
+    gsl_begin();
+    set_p(out, x == 0 ? 1 : isinf(x) ? 0 : chi2_upper(x, df));
+    return 0;
+}
+
+/* ---- group tests --------------------------------------------------------- */
 
 int stat_anova(const double *n, const double *mean, const double *m2, size_t k, stat_result *out)
 {
-    double N = 0, sum = 0, ssw = 0;
+    long double N = 0, sum = 0, ssw = 0;
     size_t groups = 0;
+    set_undefined(out);
     for (size_t g = 0; g < k; g++) {
-        if (n[g] <= 0) continue;
+        if (!(n[g] > 0)) continue;
         N += n[g];
-        sum += n[g] * mean[g];
+        sum += (long double)n[g] * mean[g];
         ssw += m2[g];
         groups++;
     }
-    if (groups < 2 || N <= (double)groups) return -1;
-    double grand = sum / N, ssb = 0, corr = 0;
+    if (groups < 2 || N <= (long double)groups) return -1;
+    long double grand = sum / N, corr = 0, ssb = 0;
     for (size_t g = 0; g < k; g++)
-        if (n[g] > 0) corr += n[g] * (mean[g] - grand);
-    grand += corr / N; /* corrected two-pass grand mean */
-    for (size_t g = 0; g < k; g++)
-        if (n[g] > 0) ssb += n[g] * (mean[g] - grand) * (mean[g] - grand);
-    memset(out, 0, sizeof *out);
-    out->df1 = (double)(groups - 1);
-    out->df2 = N - (double)groups;
-    out->extra = ssb + ssw > 0 ? ssb / (ssb + ssw) : NAN;
-    if (ssw == 0) {
-        if (ssb == 0) return -1;
-        out->stat = INFINITY;
-    } else {
-        out->stat = (ssb / out->df1) / (ssw / out->df2);
+        if (n[g] > 0) corr += (long double)n[g] * (mean[g] - grand);
+    grand += corr / N; /* second pass: the residual of the first mean */
+    for (size_t g = 0; g < k; g++) {
+        if (!(n[g] > 0)) continue;
+        long double d = mean[g] - grand;
+        ssb += n[g] * d * d;
     }
-    f_tail(out->stat, out->df1, out->df2, out);
+    if (ssw == 0 && ssb == 0) return -1;
+    double df1 = (double)(groups - 1), df2 = (double)(N - groups);
+    double f = ssw == 0 ? INFINITY : (double)((ssb / df1) / (ssw / df2));
+    stat_f_test(f, df1, df2, out);
+    out->extra = (double)(ssb / (ssb + ssw));
     return 0;
 }
 
 int stat_welch(const double *n, const double *mean, const double *m2, size_t k, stat_result *out)
 {
-    double W = 0, wm = 0;
+    long double W = 0, wm = 0;
     size_t groups = 0;
+    set_undefined(out);
     for (size_t g = 0; g < k; g++) {
-        if (n[g] < 2 || !(m2[g] > 0)) continue;
-        double w = n[g] / (m2[g] / (n[g] - 1));
+        if (!(n[g] >= 2) || !(m2[g] > 0)) continue;
+        long double w = n[g] * (n[g] - 1) / (long double)m2[g];
         W += w;
         wm += w * mean[g];
         groups++;
     }
     if (groups < 2) return -1;
-    double mw = wm / W, a = 0, b = 0;
+    long double mw = wm / W, between = 0, lambda = 0;
     for (size_t g = 0; g < k; g++) {
-        if (n[g] < 2 || !(m2[g] > 0)) continue;
-        double w = n[g] / (m2[g] / (n[g] - 1)), d = mean[g] - mw, t = 1 - w / W;
-        a += w * d * d;
-        b += t * t / (n[g] - 1);
+        if (!(n[g] >= 2) || !(m2[g] > 0)) continue;
+        long double w = n[g] * (n[g] - 1) / (long double)m2[g], d = mean[g] - mw, t = 1 - w / W;
+        between += w * d * d;
+        lambda += t * t / (n[g] - 1);
     }
-    double kk = (double)groups;
-    memset(out, 0, sizeof *out);
-    out->df1 = kk - 1;
-    out->df2 = (kk * kk - 1) / (3 * b);
-    out->stat = (a / (kk - 1)) / (1 + 2 * (kk - 2) * b / (kk * kk - 1));
-    out->extra = NAN;
-    f_tail(out->stat, out->df1, out->df2, out);
+    long double kk = groups;
+    double f = (double)((between / (kk - 1)) / (1 + 2 * (kk - 2) * lambda / (kk * kk - 1)));
+    double df2 = (double)((kk * kk - 1) / (3 * lambda));
+    stat_f_test(f, (double)(kk - 1), df2, out);
     return 0;
 }
 
 int stat_correlation_f(double r, double n, stat_result *out)
 {
-    if (!(n > 2) || !isfinite(r)) return -1;
+    set_undefined(out);
+    if (!isfinite(r) || !(n > 2) || isinf(n)) return -1;
     if (r > 1) r = 1;
     if (r < -1) r = -1;
-    memset(out, 0, sizeof *out);
-    out->df1 = 1;
-    out->df2 = n - 2;
+    double a = fabs(r);
+    double f = a == 1 ? INFINITY : r * r * (n - 2) / ((1 - a) * (1 + a));
+    stat_f_test(f, 1, n - 2, out);
     out->extra = r;
-    out->stat = fabs(r) == 1 ? INFINITY : r * r * (n - 2) / (1 - r * r);
-    f_tail(out->stat, out->df1, out->df2, out);
     return 0;
 }
 
-/* Row and column sums; counts of non-empty rows and columns. */
-static double margins(const double *t, size_t rows, size_t cols, double *rs, double *cs,
-                      size_t *rn, size_t *cn)
+/* ---- tables ---------------------------------------------------------------- */
+
+/* Row sums rs[rows] and column sums cs[cols]; non-empty rows and columns. */
+static long double margins(const double *t, size_t rows, size_t cols, long double *rs,
+                           long double *cs, size_t *rn, size_t *cn)
 {
-    double N = 0;
-    memset(cs, 0, cols * sizeof *cs);
+    long double N = 0;
+    for (size_t j = 0; j < cols; j++) cs[j] = 0;
     *rn = *cn = 0;
     for (size_t i = 0; i < rows; i++) {
-        rs[i] = 0;
+        long double s = 0;
         for (size_t j = 0; j < cols; j++) {
-            rs[i] += t[i * cols + j];
+            s += t[i * cols + j];
             cs[j] += t[i * cols + j];
         }
-        N += rs[i];
-        *rn += rs[i] > 0;
+        rs[i] = s;
+        N += s;
+        *rn += s > 0;
     }
     for (size_t j = 0; j < cols; j++) *cn += cs[j] > 0;
     return N;
 }
 
+/* One block for both margins; NULL when memory runs out. */
+static long double *margin_space(size_t rows, size_t cols)
+{
+    size_t len = rows + cols;
+    return malloc((len ? len : 1) * sizeof(long double));
+}
+
 int stat_chi_squared(const double *table, size_t rows, size_t cols, stat_result *out)
 {
-    double *rs = malloc((rows ? rows : 1) * sizeof *rs), *cs = malloc((cols ? cols : 1) * sizeof *cs);
-    if (!rs || !cs) { free(rs); free(cs); return -1; }
+    long double *rs = margin_space(rows, cols);
+    if (!rs) return -2;
+    long double *cs = rs + rows;
     size_t rn, cn;
-    double N = margins(table, rows, cols, rs, cs, &rn, &cn);
+    long double N = margins(table, rows, cols, rs, cs, &rn, &cn);
     int rc = -1;
-    if (rn >= 2 && cn >= 2 && N > 0) {
-        double x2 = 0;
+    set_undefined(out);
+    if (rn >= 2 && cn >= 2) {
+        long double x2 = 0;
         for (size_t i = 0; i < rows; i++) {
-            if (rs[i] <= 0) continue;
+            if (!(rs[i] > 0)) continue;
             for (size_t j = 0; j < cols; j++) {
-                if (cs[j] <= 0) continue;
-                double e = rs[i] * cs[j] / N, d = table[i * cols + j] - e;
+                if (!(cs[j] > 0)) continue;
+                long double e = rs[i] * cs[j] / N, d = table[i * cols + j] - e;
                 x2 += d * d / e;
             }
         }
-        memset(out, 0, sizeof *out);
-        out->stat = x2;
-        out->df1 = (double)((rn - 1) * (cn - 1));
-        out->df2 = NAN;
         double m = (double)(rn < cn ? rn : cn) - 1;
-        out->extra = sqrt(x2 / (N * m));
-        out->p = gsl_cdf_chisq_Q(x2, out->df1);
-        out->p_below = out->p < DBL_MIN;
-        if (out->p_below) out->p = 0;
+        stat_chi2_test((double)x2, (double)(rn - 1) * (double)(cn - 1), out);
+        out->extra = sqrt((double)(x2 / (N * m)));
         rc = 0;
     }
     free(rs);
-    free(cs);
     return rc;
 }
 
-/* Entropy in nats of counts c[0..n) summing to N, and the non-empty cells. */
-static double entropy(const double *c, size_t n, double N, size_t *used)
+/* Plug-in entropy in nats of sums c[0..n) totalling N; non-empty cells. */
+static long double entropy(const long double *c, size_t n, long double N, size_t *used)
 {
-    double h = 0;
+    long double h = 0, log_n = logl(N);
     *used = 0;
     for (size_t i = 0; i < n; i++)
         if (c[i] > 0) {
-            double p = c[i] / N;
-            h -= p * log(p);
+            h += c[i] / N * (log_n - logl(c[i]));
             (*used)++;
         }
     return h;
@@ -159,38 +287,58 @@ static double entropy(const double *c, size_t n, double N, size_t *used)
 
 int stat_mutual_information(const double *table, size_t rows, size_t cols, stat_mutual_info *out)
 {
-    double *rs = malloc((rows ? rows : 1) * sizeof *rs), *cs = malloc((cols ? cols : 1) * sizeof *cs);
-    if (!rs || !cs) { free(rs); free(cs); return -1; }
-    size_t rn, cn, cells;
-    double N = margins(table, rows, cols, rs, cs, &rn, &cn);
-    int rc = -1;
-    if (N > 0) {
-        double hx = entropy(rs, rows, N, &rn), hy = entropy(cs, cols, N, &cn);
-        double hxy = entropy(table, rows * cols, N, &cells);
-        double mi = hx + hy - hxy;
-        if (mi < 0) mi = 0; /* rounding */
-        out->nats = mi;
-        /* Miller (1955): each plug-in entropy is biased low by (m - 1) / (2N). */
-        out->nats_corrected = mi + ((double)rn - 1 + (double)cn - 1 - ((double)cells - 1)) / (2 * N);
-        out->normalized = hy > 0 ? mi / hy : NAN;
-        out->rows_used = (unsigned)rn;
-        out->cols_used = (unsigned)cn;
-        rc = 0;
+    long double *rs = margin_space(rows, cols);
+    if (!rs) return -2;
+    long double *cs = rs + rows;
+    size_t rn, cn;
+    long double N = margins(table, rows, cols, rs, cs, &rn, &cn);
+    memset(out, 0, sizeof *out);
+    out->nats = out->nats_corrected = out->normalized = NAN;
+    out->h_x = out->h_y = out->h_xy = NAN;
+    out->n = (double)N;
+    if (!(N > 0)) {
+        free(rs);
+        return -1;
     }
+    long double log_n = logl(N), mi = 0, hxy = 0;
+    size_t cells = 0;
+    for (size_t i = 0; i < rows; i++)
+        for (size_t j = 0; j < cols; j++) {
+            long double o = table[i * cols + j];
+            if (!(o > 0)) continue;
+            long double log_o = logl(o);
+            mi += o / N * (log_o + log_n - logl(rs[i]) - logl(cs[j]));
+            hxy += o / N * (log_n - log_o);
+            cells++;
+        }
+    long double hx = entropy(rs, rows, N, &rn), hy = entropy(cs, cols, N, &cn);
+    if (mi < 0) mi = 0; /* rounding of an independent table */
+    out->nats = (double)mi;
+    out->nats_corrected =
+        (double)(mi + ((long double)rn + (long double)cn - (long double)cells - 1) / (2 * N));
+    out->normalized = hy > 0 ? (double)(mi / hy) : NAN;
+    out->rows_used = (unsigned)rn;
+    out->cols_used = (unsigned)cn;
+    out->cells_used = cells;
+    out->h_x = (double)hx;
+    out->h_y = (double)hy;
+    out->h_xy = (double)hxy;
     free(rs);
-    free(cs);
-    return rc;
+    return 0;
 }
 
+/* ---- multiple testing ------------------------------------------------------ */
+
 typedef struct {
-    double p;
-    size_t i;
+    double p;  /* p-value */
+    size_t i;  /* its position in the input */
 } ranked;
 
 static int ranked_cmp(const void *a, const void *b)
 {
-    double x = ((const ranked *)a)->p, y = ((const ranked *)b)->p;
-    return (x > y) - (x < y);
+    const ranked *x = a, *y = b;
+    if (x->p != y->p) return (x->p > y->p) - (x->p < y->p);
+    return (x->i > y->i) - (x->i < y->i);
 }
 
 void stat_benjamini_hochberg(const double *p, size_t n, double *q)
@@ -215,24 +363,26 @@ void stat_benjamini_hochberg(const double *p, size_t n, double *q)
     free(r);
 }
 
+/* ---- coarsening ------------------------------------------------------------ */
+
 unsigned stat_equal_frequency_bins(const double *counts, size_t n, unsigned k, unsigned *bins)
 {
-    double N = 0;
-    for (size_t i = 0; i < n; i++) N += counts[i];
-    if (N <= 0 || k == 0) {
-        for (size_t i = 0; i < n; i++) bins[i] = 0;
-        return n ? 1 : 0;
-    }
-    double before = 0;
+    long double N = 0;
+    for (size_t i = 0; i < n; i++)
+        if (counts[i] > 0) N += counts[i];
+    for (size_t i = 0; i < n; i++) bins[i] = 0;
+    if (!(N > 0) || k == 0) return 0;
+    long double before = 0;
     unsigned last = 0, used = 0;
     for (size_t i = 0; i < n; i++) {
-        unsigned b = (unsigned)floor((double)k * (before + counts[i] / 2) / N);
-        if (b >= k) b = k - 1;
-        before += counts[i];
-        /* Renumber without gaps. */
-        if (i == 0 || b != last) used++;
-        last = b;
-        bins[i] = used - 1;
+        if (counts[i] > 0) {
+            long double pos = floorl((long double)k * (before + (long double)counts[i] / 2) / N);
+            unsigned b = pos >= k ? k - 1 : (unsigned)pos;
+            if (used == 0 || b != last) used++;
+            last = b;
+            before += counts[i];
+        }
+        bins[i] = used ? used - 1 : 0;
     }
     return used;
 }

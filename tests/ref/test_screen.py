@@ -278,7 +278,8 @@ def compare_class_numeric(tag, path, target, js):
 def test_class_numeric(sets):
     # mpg cylinders: a numeric column taken as classes
     for tag, target, extra in (("iris", "species", []), ("penguins", "species", []),
-                               ("tips", "day", []), ("mpg", "cylinders", ["--task", "classify"])):
+                               ("tips", "day", []), ("mpg", "cylinders", ["--task", "classify"]),
+                               ("penguins", "sex", [])):  # 11 rows without a class
         if tag not in sets:
             continue
         name = "anova.%s_by_%s" % (tag, target)
@@ -357,7 +358,9 @@ def test_regress(sets):
              ("penguins", "body_mass_g", ["species", "island", "sex"]),
              # integer targets with few values (kept as classes, tested as continuous)
              ("tips", "size", ["day", "sex", "smoker", "time"]),
-             ("mpg", "cylinders", ["origin"])]
+             ("mpg", "cylinders", ["origin"]),
+             # 6 rows without a target value
+             ("mpg", "horsepower", ["origin", "name"])]
     for tag, target, cats in cases:
         if tag not in sets:
             continue
@@ -436,7 +439,8 @@ def compare_categorical_class(tag, path, target, js, names):
 def test_categorical_class(sets):
     # penguins: 11 rows without sex, left out of its table
     for tag, target, names in (("penguins", "species", ["island", "sex"]),
-                               ("tips", "sex", ["day", "time", "smoker"])):
+                               ("tips", "sex", ["day", "time", "smoker"]),
+                               ("penguins", "sex", ["species", "island"])):
         if tag not in sets:
             continue
         name = "chi2.%s_by_%s" % (tag, target)
@@ -550,6 +554,14 @@ def flag_table(rows=1000, seed=20240917):
         miss40[i] = ""
     int90 = np.arange(rows) + 7000
     int90[rng.choice(rows, rows // 10, replace=False)] = 7000  # 90% distinct
+    # exactly at the thresholds: 99% one value, 50% empty, 95% distinct
+    near99 = np.zeros(rows, dtype=int)
+    near99[rng.choice(rows, rows // 100, replace=False)] = 1
+    miss50 = ["%.3f" % v for v in rng.normal(size=rows)]
+    for i in rng.choice(rows, rows // 2, replace=False):
+        miss50[i] = ""
+    int95 = np.arange(rows) + 3000
+    int95[rng.choice(rows, rows // 20 + 1, replace=False)] = 2999  # 95% distinct
     cols = [("const_col", ["4.5"] * rows), ("near_const", [str(v) for v in near]),
             ("int_id", [str(v) for v in int_id]), ("text_id", text_id),
             ("mostly_missing", mm), ("high_card", high),
@@ -557,6 +569,8 @@ def flag_table(rows=1000, seed=20240917):
             ("small_var", ["%.5f" % v for v in small]), ("grp", list(grp)),
             ("count", [str(v) for v in cnt]), ("near_98", [str(v) for v in near98]),
             ("missing_40", miss40), ("int_90", [str(v) for v in int90]),
+            ("near_99", [str(v) for v in near99]), ("missing_50", miss50),
+            ("int_95", [str(v) for v in int95]),
             ("label", list(label))]
     p = os.path.join(TMP, "flags.csv")
     with open(p, "w") as f:
@@ -596,7 +610,7 @@ def test_flags():
     base = {"const_col": ["constant"], "near_const": ["near_constant"], "int_id": ["id_like"],
             "mostly_missing": ["mostly_missing"], "x_signal": [], "x_noise": [],
             "small_var": [], "grp": [], "count": [], "near_98": [], "missing_40": [],
-            "int_90": []}
+            "int_90": [], "near_99": ["near_constant"], "missing_50": ["mostly_missing"]}
     # --max-levels 50: the text columns' value tables overflow
     js, s = scan_screen("flags.max_levels_50", [p], ["--target", "label", "--max-levels", "50"])
     if js is not None:
@@ -617,7 +631,9 @@ def test_flags():
     # default --max-levels (1024): 1000 distinct texts fit, nothing overflows
     js, _ = scan_screen("flags.default_levels", [p], ["--target", "label"])
     if js is not None:
-        check_flags("flags.default_levels", js, dict(base, text_id=["id_like"], high_card=[]))
+        # exact distinct counts: 95% distinct integers are ID-like
+        check_flags("flags.default_levels", js, dict(base, text_id=["id_like"], high_card=[],
+                                                     int_95=["id_like"]))
 
 
 def test_id_min_present():
