@@ -100,9 +100,10 @@ void comoment_correlation_matrix(const comoment *c, double *out);
  * column i over rows where j is present.
  * comoment_read gives a state with block scratch for max_rows (0: none).  On
  * malformed input (p > 100000, too few bytes, a count above 2^53, N or C not
- * symmetric, a pair count above a column count, a non-finite value, a
- * negative M2, non-zero statistics for an empty pair, C[i][i] != M2[i][i]) it
- * returns NULL and sets r->failed.  NULL with r->failed clear: out of memory. */
+ * symmetric, a pair count above a column count) it returns NULL and sets
+ * r->failed.  Moment values are not checked: extreme data can overflow them
+ * to infinity or round M2 slightly below zero, and such states must read
+ * back; the summary's checksums guard the bytes.  NULL with r->failed clear: out of memory. */
 void comoment_write(const comoment *c, wire_writer *w);
 comoment *comoment_read(wire_reader *r, size_t max_rows);
 

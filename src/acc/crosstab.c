@@ -47,8 +47,8 @@
  *
  * Serialization: see crosstab.h.  crosstab_read checks the mode and flag
  * bytes, strictly ascending (key, cell), n >= 1, at most max_keys exact keys,
- * overflowed == "an overflow-key record exists", and in values mode cell 0,
- * finite mean and finite M2 >= 0.
+ * overflowed == "an overflow-key record exists", and in values mode a finite
+ * mean and finite M2 >= 0.
  */
 #include "acc/crosstab.h"
 

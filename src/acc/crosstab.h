@@ -3,7 +3,8 @@
  * Keys are the 64-bit hashes of the column's values (the same hashes as the
  * value table).  Each key holds a small record per cell:
  *   - classification target: cell = class index, a count per (key, class);
- *   - regression target: cell 0, the count, mean and M2 of the target over
+ *   - regression target: cell = the target's bucket cell, the count, mean and
+ *     M2 of the target over
  *     the rows with that key (Welford 1962 update; Chan et al. 1979 merge).
  * A table holds one kind of record only: its mode is set by the first record
  * (CROSSTAB_COUNTS or CROSSTAB_VALUES) and cleared by crosstab_reset.
@@ -40,7 +41,7 @@
 /* Table modes (also the serialized mode byte). */
 #define CROSSTAB_EMPTY 0  /* no record yet */
 #define CROSSTAB_COUNTS 1 /* classification: counts per (key, class) */
-#define CROSSTAB_VALUES 2 /* regression: n, mean, M2 per key, cell 0 */
+#define CROSSTAB_VALUES 2 /* regression: n, mean, M2 per (key, target cell) */
 
 typedef struct crosstab crosstab;
 

@@ -2,8 +2,9 @@
  *
  * Flajolet, Fusy, Gandouet & Meunier (2007), "HyperLogLog: the analysis of a
  * near-optimal cardinality estimation algorithm", with the small-range
- * correction of Heule, Nunkesser & Hall (2013) (linear counting below the
- * empirical threshold for p = 14).  Input is a 64-bit hash (XXH3 in sheaf);
+ * correction of Heule, Nunkesser & Hall (2013): linear counting while its
+ * estimate is at most 3m (see hll.c for why 3m and not the paper's 11500,
+ * which assumes its bias-correction table).  Input is a 64-bit hash (XXH3 in sheaf);
  * register index = top 14 bits, rank = leading zeros of the rest + 1.
  * Merge is the register-wise maximum, so it is exact: merge(a, b) equals the
  * sketch of the union.  Standard error about 1.04 / sqrt(16384) = 0.81%.

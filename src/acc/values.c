@@ -147,7 +147,11 @@ static int reserve_arena(values *v, size_t more)
 static void insert_at(values *v, uint32_t i, uint64_t hash, uint64_t count,
                       const char *text, size_t len)
 {
-    if (len > v->label_bytes) len = v->label_bytes;
+    if (len > v->label_bytes) {
+        len = v->label_bytes;
+        /* Never cut a UTF-8 sequence: back off over continuation bytes. */
+        while (len && ((unsigned char)text[len] & 0xC0) == 0x80) len--;
+    }
     v->slots[i].hash = hash;
     v->slots[i].count = count;
     v->labels[i].offset = (uint32_t)v->arena_len;

@@ -1,7 +1,7 @@
 /* values: the value table of one column.
  *
  * Exact counts for up to `max_levels` distinct values, keyed by a 64-bit hash
- * of the value (XXH3 of the raw text, or of the double's bits for numbers).
+ * of the value's raw text (XXH3).
  * Once the table is full, further new values fall into VALUES_OVERFLOW_SLOTS
  * hashed overflow counters (slot = hash % slots) and the table is marked
  * overflowed: counts of values already in the table stay exact, the overflow

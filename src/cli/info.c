@@ -139,7 +139,12 @@ static void print_json(const summary *s, double share, size_t ntop)
             char key[16];
             snprintf(key, sizeof key, "%g", PROBS[q]);
             json_key(&j, key);
-            json_number(&j, buckets_total(c->bins) ? buckets_quantile(c->bins, PROBS[q], &rel) : NAN);
+            double v = buckets_total(c->bins) ? buckets_quantile(c->bins, PROBS[q], &rel) : NAN;
+            /* The bucket point may lie beyond the observed extremes: clamping
+             * can only bring it closer to the true quantile. */
+            if (m->n && v < m->min) v = m->min;
+            if (m->n && v > m->max) v = m->max;
+            json_number(&j, v);
         }
         json_object_end(&j);
         if (c->cls && num) {
@@ -242,7 +247,9 @@ static void print_text(const summary *s, const char *path, double share, size_t 
             table_format_number(b, sizeof b, moments_mean(m), 6); table_cell(t, 4, b);
             table_format_number(b, sizeof b, sqrt(moments_variance(m)), 6); table_cell(t, 5, b);
             table_format_number(b, sizeof b, m->min, 6); table_cell(t, 6, b);
-            table_format_number(b, sizeof b, buckets_quantile(c->bins, 0.5, &rel), 4);
+            double med = buckets_quantile(c->bins, 0.5, &rel);
+            med = med < m->min ? m->min : med > m->max ? m->max : med;
+            table_format_number(b, sizeof b, med, 4);
             table_cellf(t, 7, "~%s", b);
             table_format_number(b, sizeof b, m->max, 6); table_cell(t, 8, b);
         }

@@ -74,11 +74,10 @@ static double f_upper(double f, double d1, double d2)
         v = s / (1 + s);
         log_ratio = log1p(s) - log(s);
     }
-    if (b > 1e5 && a < 10 && u < b / (a + b))
+    if (f < 1) return gsl_cdf_beta_Q(u, a, b); /* Q > 0.3: a subtraction is harmless */
+    if (b > 1.5e7 && a < 10 && u < b / (a + b))
         return gsl_cdf_gamma_Q((b + (a - 1) / 2) * log_ratio, a, 1);
-    if (a > 1e5 && b < 10 && v < a / (a + b)) /* -log(u) = log1p(r / f) */
-        return gsl_cdf_gamma_P((a + (b - 1) / 2) * log1p(r / f), b, 1);
-    return u <= 0.5 ? gsl_cdf_beta_Q(u, a, b) : gsl_cdf_beta_P(v, b, a);
+    return gsl_cdf_beta_P(v, b, a);
 }
 
 /* Q(a, x) of the regularized incomplete gamma for large a (Temme). */

@@ -3,10 +3,10 @@
  * A summary holds, for every scanned column, the per-column accumulators
  * (counts, moments, value table, HyperLogLog, bucket store), the table's row
  * counts, the options that decide how cells were read (they must agree for
- * two summaries to merge), and the provenance of every source.  A scan builds
- * one summary per chunk and merges it into the running one, so merging is the
- * only way state ever combines: a scan of everything and a merge of scans of
- * its parts follow the same rules.
+ * two summaries to merge), and the provenance of every source.  Every
+ * accumulator merges exactly (or by a stated rule once a bounded table
+ * overflows), so a merge of scans of the parts of a table equals a scan of
+ * the whole, up to rounding of the moments.
  *
  * The file format is specified in docs/summary-format.md.
  */
@@ -132,7 +132,7 @@ typedef struct {
     size_t ncomo;             /* columns in the co-moment matrix */
     size_t *como_col;         /* their column indices */
     int *como_of;             /* ncols: index into como_col, -1 if not included */
-    comoment *como;           /* NULL in chunk-local sets */
+    comoment *como;           /* co-moment matrix (NULL in sets made without it) */
     number_decimal *como_ref; /* frame of each co-moment column */
     unsigned char *como_ref_set; /* frame set */
 } summary;
@@ -152,7 +152,7 @@ int summary_options_copy(summary_options *dst, const summary_options *src);
 
 /* A summary with the given columns and no data; NULL on OOM (or an unknown
  * target name: check opt->target against names first).  `with_comoments`
- * allocates the co-moment matrix (chunk-local sets do without). */
+ * allocates the co-moment matrix with block scratch (for scanning). */
 summary *summary_create(const summary_options *opt, size_t ncols, char *const *names,
                         const column_mode *modes, int with_comoments);
 /* An empty summary with the same schema as s (no co-moment matrix). */
