@@ -58,6 +58,7 @@ typedef struct {
     char delim;
     uint64_t missing_len_mask; /* bit L set: some spelling has length L (< 64) */
     size_t missing_len[SUMMARY_MAX_MISSING]; /* length of each spelling */
+    uint64_t missing_first[4];   /* bit set: some spelling starts with this byte */
     uint64_t line_base;    /* lines before the current chunk */
     uint64_t total_bytes;  /* raw bytes of all sources, 0 if unknown */
     uint64_t done_bytes;   /* raw bytes of finished sources */
@@ -84,6 +85,7 @@ static int is_missing(const scanner *sc, const char *p, uint32_t len)
 {
     if (len == 0) return 1;
     if (len >= 64 || !(sc->missing_len_mask >> len & 1)) return 0;
+    if (!(sc->missing_first[(unsigned char)p[0] >> 6] >> ((unsigned char)p[0] & 63) & 1)) return 0;
     const summary_options *o = &sc->o->opt;
     for (uint32_t i = 0; i < o->n_missing; i++)
         if (sc->missing_len[i] == len && o->missing[i][0] == p[0] &&
@@ -726,6 +728,8 @@ scan_status scan_files(const scan_options *o, const char *const *paths, size_t n
         size_t l = strlen(o->opt.missing[i]);
         sc.missing_len[i] = l;
         if (l < 64) sc.missing_len_mask |= 1ull << l;
+        unsigned char c0 = (unsigned char)o->opt.missing[i][0];
+        if (l) sc.missing_first[c0 >> 6] |= 1ull << (c0 & 63);
     }
     for (size_t i = 0; i < npaths; i++) {
         FILE *f = strcmp(paths[i], "-") ? fopen(paths[i], "rb") : NULL;
