@@ -622,6 +622,12 @@ static scan_status scan_source(scanner *sc, chunker *ck, const char *path, uint6
     sc->line_base = 0;
     sc->at_file_start = from == 0;
     int at_first = from == 0, done = 0;
+    /* A shard does not know how many lines precede it: its messages count
+     * lines from its first record, and say so. */
+    char shown[4200];
+    if (from) snprintf(shown, sizeof shown, "%s (shard; lines counted from byte %llu)", path,
+                       (unsigned long long)from);
+    else snprintf(shown, sizeof shown, "%s", path);
     uint64_t rows = 0;
     scan_status st = SCAN_OK;
     while (!done) {
@@ -629,7 +635,7 @@ static scan_status scan_source(scanner *sc, chunker *ck, const char *path, uint6
         int rc = chunker_next(ck, &ch, sc->err, sc->errlen);
         if (rc < 0) { st = SCAN_ERR_INPUT; break; }
         if (rc == 0) break;
-        st = process_chunk(sc, path, &ch, &at_first, &rows, &done);
+        st = process_chunk(sc, shown, &ch, &at_first, &rows, &done);
         if (st != SCAN_OK) break;
         if (sc->o->progress)
             sc->o->progress(sc->o->progress_ctx, sc->done_bytes + source_raw_offset(src) - from,
