@@ -7,16 +7,18 @@
 #include <string.h>
 #include <sys/stat.h>
 #include <unistd.h>
-#include <zlib.h>
+#include <isa-l.h>
 #include <zstd.h>
 
 enum { PLAIN, GZIP, ZSTD };
 #define BUF_BYTES (1u << 18)
+#define ZBUF_BYTES (1u << 18)
 
 struct sink {
     int kind;            /* PLAIN, GZIP, ZSTD */
-    FILE *f;             /* plain / zstd destination */
-    gzFile gz;           /* gzip destination */
+    FILE *f;             /* destination */
+    struct isal_zstream *gz; /* gzip state (ISA-L deflate, level 2) */
+    uint8_t *gz_level;   /* ISA-L level buffer */
     ZSTD_CStream *zs;    /* zstd state */
     char *path, *tmp;    /* final and temporary names (NULL for stdout) */
     unsigned char *buf;  /* pending bytes */
@@ -57,19 +59,26 @@ sink *sink_open(const char *path, char *err, size_t errlen)
     umask(mask);
     fchmod(fd, 0666 & ~mask);
     s->kind = ends_with(path, ".gz") ? GZIP : ends_with(path, ".zst") ? ZSTD : PLAIN;
+    s->f = fdopen(fd, "wb");
+    if (!s->f) close(fd);
     if (s->kind == GZIP) {
-        s->gz = gzdopen(fd, "wb6");
-        if (!s->gz) close(fd);
-    } else {
-        s->f = fdopen(fd, "wb");
-        if (!s->f) close(fd);
+        s->gz = malloc(sizeof *s->gz);
+        s->gz_level = malloc(ISAL_DEF_LVL2_DEFAULT);
+        s->zbuf = malloc(ZBUF_BYTES);
+        if (s->gz && s->gz_level) {
+            isal_deflate_init(s->gz);
+            s->gz->level = 2;
+            s->gz->level_buf = s->gz_level;
+            s->gz->level_buf_size = ISAL_DEF_LVL2_DEFAULT;
+            s->gz->gzip_flag = IGZIP_GZIP;
+        }
     }
     if (s->kind == ZSTD) {
         s->zs = ZSTD_createCStream();
         s->zbuf = malloc(ZSTD_CStreamOutSize());
         if (s->zs) ZSTD_initCStream(s->zs, 3);
     }
-    if ((s->kind == GZIP && !s->gz) || (s->kind != GZIP && !s->f) ||
+    if (!s->f || (s->kind == GZIP && (!s->gz || !s->gz_level || !s->zbuf)) ||
         (s->kind == ZSTD && (!s->zs || !s->zbuf))) {
         snprintf(err, errlen, "%s: cannot open for writing", path);
         sink_abort(s);
@@ -89,7 +98,17 @@ static int drain(sink *s, int end)
 {
     if (s->failed) return -1;
     if (s->kind == GZIP) {
-        if (s->len && gzwrite(s->gz, s->buf, (unsigned)s->len) != (int)s->len) s->failed = 1;
+        struct isal_zstream *z = s->gz;
+        z->next_in = s->buf;
+        z->avail_in = (uint32_t)s->len;
+        z->end_of_stream = end;
+        for (;;) {
+            z->next_out = s->zbuf;
+            z->avail_out = ZBUF_BYTES;
+            if (isal_deflate(z) != COMP_OK) { s->failed = 1; break; }
+            if (ZBUF_BYTES - z->avail_out && put(s, s->zbuf, ZBUF_BYTES - z->avail_out) != 0) break;
+            if (end ? z->internal_state.state == ZSTATE_END : z->avail_in == 0) break;
+        }
     } else if (s->kind == ZSTD) {
         ZSTD_inBuffer in = {s->buf, s->len, 0};
         for (;;) {
@@ -123,6 +142,8 @@ int sink_write(sink *s, const void *data, size_t len)
 static void release(sink *s)
 {
     if (s->zs) ZSTD_freeCStream(s->zs);
+    free(s->gz);
+    free(s->gz_level);
     free(s->zbuf);
     free(s->buf);
     free(s->path);
@@ -133,10 +154,9 @@ static void release(sink *s)
 int sink_close(sink *s, char *err, size_t errlen)
 {
     drain(s, 0);
-    if (s->kind == ZSTD) drain(s, 1);
+    if (s->kind != PLAIN) drain(s, 1);
     int ok = !s->failed;
-    if (s->kind == GZIP) ok &= gzclose(s->gz) == Z_OK;
-    else if (s->f == stdout) ok &= fflush(stdout) == 0;
+    if (s->f == stdout) ok &= fflush(stdout) == 0;
     else {
         ok &= fflush(s->f) == 0;
         ok &= fsync(fileno(s->f)) == 0;
@@ -155,8 +175,7 @@ int sink_close(sink *s, char *err, size_t errlen)
 void sink_abort(sink *s)
 {
     if (!s) return;
-    if (s->gz) gzclose(s->gz);
-    else if (s->f && s->f != stdout) fclose(s->f);
+    if (s->f && s->f != stdout) fclose(s->f);
     if (s->tmp) unlink(s->tmp);
     release(s);
 }

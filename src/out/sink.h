@@ -1,6 +1,6 @@
 /* sink: buffered output to standard output or a file, compressed by name.
  *
- * A name ending in .gz is written as gzip (zlib, level 6), .zst as zstd
+ * A name ending in .gz is written as gzip (ISA-L deflate, level 2), .zst as zstd
  * (libzstd streaming, level 3), anything else plain; "-" or NULL is standard
  * output.  Files are written to a temporary name in the target directory and
  * renamed by sink_close, so a failed command never leaves a half-written file
