@@ -8,10 +8,8 @@
  * written as CSV.  Memory is bounded by one chunk of input, one block of rows
  * and one output buffer.
  *
- * Output goes to a temporary file beside OUT that is renamed when complete,
- * so a failed run leaves no partial OUT; it is gzip (ISA-L's isal_deflate,
- * level GZIP_LEVEL, one member with the CRC-32 and length trailer) when OUT
- * ends in .gz and zstd (libzstd streaming, level 3) when it ends in .zst.
+ * Output goes through out/sink: a temporary file beside OUT renamed when
+ * complete (a failed run leaves no partial OUT), gzip or zstd by OUT's name.
  */
 #include <errno.h>
 #include <math.h>
@@ -21,10 +19,9 @@
 #include <string.h>
 #include <sys/stat.h>
 #include <unistd.h>
-#include <isa-l.h>
-#include <zstd.h>
 
 #include "cli/cli.h"
+#include "out/sink.h"
 #include "io/chunk.h"
 #include "io/csv.h"
 #include "io/number.h"
@@ -33,200 +30,8 @@
 #include "summary/summary.h"
 
 #define BLOCK_ROWS 256
-#define OUT_BUFFER_BYTES (1u << 20)
 #define KEEP_LIST_MAX_BYTES (64u << 20)
-#define GZIP_LEVEL 2
 
-/* ---- output ------------------------------------------------------------- */
-
-typedef enum { DEST_PLAIN, DEST_GZIP, DEST_ZSTD } dest_kind;
-
-typedef struct {
-    dest_kind kind;
-    int fd;               /* destination (1 for stdout) */
-    struct isal_zstream *gz; /* DEST_GZIP */
-    uint8_t *gz_level_buf; /* its level buffer */
-    ZSTD_CCtx *zc;        /* DEST_ZSTD */
-    char *zbuf;           /* compressed bytes (DEST_GZIP, DEST_ZSTD) */
-    size_t zcap;
-    char *buf;            /* text not yet handed to the dest */
-    size_t len, cap;
-    const char *path;     /* final name, NULL for stdout */
-    char *tmp;            /* temporary name */
-    int failed;           /* a write failed; err holds why */
-    char err[512];
-} dest;
-
-static int write_all(dest *o, const char *p, size_t n)
-{
-    while (n > 0) {
-        ssize_t w = write(o->fd, p, n);
-        if (w < 0 && errno == EINTR) continue;
-        if (w <= 0) {
-            snprintf(o->err, sizeof o->err, "%s: cannot write: %s", o->path ? o->path : "stdout",
-                     strerror(errno));
-            return -1;
-        }
-        p += w;
-        n -= (size_t)w;
-    }
-    return 0;
-}
-
-static int zstd_pump(dest *o, const char *p, size_t n, ZSTD_EndDirective mode)
-{
-    ZSTD_inBuffer in = {p, n, 0};
-    for (;;) {
-        ZSTD_outBuffer out = {o->zbuf, o->zcap, 0};
-        size_t left = ZSTD_compressStream2(o->zc, &out, &in, mode);
-        if (ZSTD_isError(left)) {
-            snprintf(o->err, sizeof o->err, "%s: zstd: %s", o->path, ZSTD_getErrorName(left));
-            return -1;
-        }
-        if (write_all(o, o->zbuf, out.pos) != 0) return -1;
-        if (mode == ZSTD_e_end ? left == 0 : in.pos == in.size) return 0;
-    }
-}
-
-static int gzip_pump(dest *o, const char *p, size_t n, int end)
-{
-    struct isal_zstream *z = o->gz;
-    z->next_in = (uint8_t *)p;
-    z->avail_in = (uint32_t)n;
-    z->end_of_stream = end;
-    for (;;) {
-        z->next_out = (uint8_t *)o->zbuf;
-        z->avail_out = (uint32_t)o->zcap;
-        int rc = isal_deflate(z);
-        if (rc != COMP_OK) {
-            snprintf(o->err, sizeof o->err, "%s: gzip: isal_deflate error %d", o->path, rc);
-            return -1;
-        }
-        if (write_all(o, o->zbuf, o->zcap - z->avail_out) != 0) return -1;
-        if (end ? z->internal_state.state == ZSTATE_END : z->avail_in == 0) return 0;
-    }
-}
-
-static int dest_drain(dest *o)
-{
-    if (o->failed) return -1;
-    int rc = 0;
-    if (o->len == 0) return 0;
-    switch (o->kind) {
-    case DEST_PLAIN: rc = write_all(o, o->buf, o->len); break;
-    case DEST_GZIP: rc = gzip_pump(o, o->buf, o->len, 0); break;
-    case DEST_ZSTD: rc = zstd_pump(o, o->buf, o->len, ZSTD_e_continue); break;
-    }
-    o->len = 0;
-    if (rc) o->failed = 1;
-    return rc;
-}
-
-/* Room for n more bytes in the buffer. */
-static int dest_reserve(dest *o, size_t n)
-{
-    if (o->len + n <= o->cap) return 0;
-    if (dest_drain(o) != 0) return -1;
-    if (n > o->cap) {
-        char *g = realloc(o->buf, n);
-        if (!g) { snprintf(o->err, sizeof o->err, "out of memory"); o->failed = 1; return -1; }
-        o->buf = g;
-        o->cap = n;
-    }
-    return 0;
-}
-
-static dest_kind kind_of(const char *path)
-{
-    size_t n = strlen(path);
-    if (n > 3 && !strcmp(path + n - 3, ".gz")) return DEST_GZIP;
-    if (n > 4 && !strcmp(path + n - 4, ".zst")) return DEST_ZSTD;
-    if (n > 5 && !strcmp(path + n - 5, ".zstd")) return DEST_ZSTD;
-    return DEST_PLAIN;
-}
-
-static int dest_open(dest *o, const char *path)
-{
-    memset(o, 0, sizeof *o);
-    o->fd = 1;
-    o->cap = OUT_BUFFER_BYTES;
-    o->buf = malloc(o->cap);
-    if (!o->buf) { snprintf(o->err, sizeof o->err, "out of memory"); return -1; }
-    if (!path || !strcmp(path, "-")) return 0;
-    o->path = path;
-    o->kind = kind_of(path);
-    size_t plen = strlen(path);
-    o->tmp = malloc(plen + 16);
-    if (!o->tmp) { snprintf(o->err, sizeof o->err, "out of memory"); return -1; }
-    snprintf(o->tmp, plen + 16, "%s.tmp.XXXXXX", path);
-    o->fd = mkstemp(o->tmp);
-    if (o->fd < 0) {
-        snprintf(o->err, sizeof o->err, "%s: cannot create: %s", path, strerror(errno));
-        free(o->tmp);
-        o->tmp = NULL;
-        return -1;
-    }
-    if (o->kind == DEST_GZIP) {
-        o->gz = malloc(sizeof *o->gz);
-        o->gz_level_buf = malloc(ISAL_DEF_LVL2_DEFAULT);
-        o->zcap = 256u << 10;
-        o->zbuf = malloc(o->zcap);
-        if (!o->gz || !o->gz_level_buf || !o->zbuf) {
-            snprintf(o->err, sizeof o->err, "out of memory");
-            return -1;
-        }
-        isal_deflate_init(o->gz);
-        o->gz->level = GZIP_LEVEL;
-        o->gz->level_buf = o->gz_level_buf;
-        o->gz->level_buf_size = ISAL_DEF_LVL2_DEFAULT;
-        o->gz->gzip_flag = IGZIP_GZIP;
-    } else if (o->kind == DEST_ZSTD) {
-        o->zc = ZSTD_createCCtx();
-        o->zcap = ZSTD_CStreamOutSize();
-        o->zbuf = malloc(o->zcap);
-        if (!o->zc || !o->zbuf ||
-            ZSTD_isError(ZSTD_CCtx_setParameter(o->zc, ZSTD_c_compressionLevel, 3))) {
-            snprintf(o->err, sizeof o->err, "%s: cannot start zstd output", path);
-            return -1;
-        }
-    }
-    return 0;
-}
-
-/* Finishes the output (ok: rename into place) or discards it.  Returns 0 or
- * -1 with a message in o->err. */
-static int dest_close(dest *o, int ok)
-{
-    int rc = 0;
-    if (ok && dest_drain(o) != 0) ok = 0, rc = -1;
-    if (o->gz && ok && gzip_pump(o, NULL, 0, 1) != 0) ok = 0, rc = -1;
-    if (o->zc && ok && zstd_pump(o, NULL, 0, ZSTD_e_end) != 0) ok = 0, rc = -1;
-    if (o->path && o->fd >= 0) {
-        if (ok && fsync(o->fd) != 0) {
-            snprintf(o->err, sizeof o->err, "%s: cannot write: %s", o->path, strerror(errno));
-            ok = 0, rc = -1;
-        }
-        if (close(o->fd) != 0 && ok) {
-            snprintf(o->err, sizeof o->err, "%s: cannot write: %s", o->path, strerror(errno));
-            ok = 0, rc = -1;
-        }
-        mode_t mask = umask(0);
-        umask(mask);
-        if (ok) chmod(o->tmp, 0666 & ~mask);
-        if (ok && rename(o->tmp, o->path) != 0) {
-            snprintf(o->err, sizeof o->err, "%s: cannot write: %s", o->path, strerror(errno));
-            ok = 0, rc = -1;
-        }
-        if (!ok) unlink(o->tmp);
-    }
-    free(o->gz);
-    free(o->gz_level_buf);
-    ZSTD_freeCCtx(o->zc);
-    free(o->zbuf);
-    free(o->buf);
-    free(o->tmp);
-    return rc;
-}
 
 /* ---- formatting --------------------------------------------------------- */
 
@@ -346,7 +151,7 @@ typedef struct {
     csv_field *carried;        /* BLOCK_ROWS x ncarry */
     size_t row_bytes;          /* upper bound on the output bytes of a row, carries aside */
     uint64_t rows_out;
-    dest *out;
+    sink *out;
     char err[1024];
 } projector;
 
@@ -368,8 +173,8 @@ static int flush_block(projector *pj)
         size_t need = pj->row_bytes;
         const csv_field *cf = pj->carried + i * pj->ncarry;
         for (size_t c = 0; c < pj->ncarry; c++) need += 2 * (size_t)cf[c].len + 3;
-        if (dest_reserve(pj->out, need) != 0) return -1;
-        char *d = pj->out->buf + pj->out->len;
+        char *d0 = sink_reserve(pj->out, need), *d = d0;
+        if (!d) return -1;
         for (size_t c = 0; c < pj->ncarry; c++) {
             if (c) *d++ = ',';
             if (cf[c].ptr) d = put_field(d, cf[c].ptr, cf[c].len);
@@ -380,7 +185,7 @@ static int flush_block(projector *pj)
             d = put_g10(d, sc[c]);
         }
         *d++ = '\n';
-        pj->out->len = (size_t)(d - pj->out->buf);
+        sink_commit(pj->out, (size_t)(d - d0));
     }
     pj->rows_out += pj->rows;
     pj->rows = 0;
@@ -525,7 +330,7 @@ static int project_file(projector *pj, chunker *ck, const char *path)
                 cf[c] = fi < have ? pj->fields[fi] : (csv_field){NULL, 0};
             }
             if (++pj->rows == BLOCK_ROWS && flush_block(pj) != 0) {
-                snprintf(pj->err, sizeof pj->err, "%s", pj->out->err);
+                snprintf(pj->err, sizeof pj->err, "write failed");
                 rc = EXIT_FAILED;
                 break;
             }
@@ -534,7 +339,7 @@ static int project_file(projector *pj, chunker *ck, const char *path)
         line_base += rd.lines;
         /* Carried fields point into the chunk: finish the block with it. */
         if (flush_block(pj) != 0) {
-            snprintf(pj->err, sizeof pj->err, "%s", pj->out->err);
+            snprintf(pj->err, sizeof pj->err, "write failed");
             rc = EXIT_FAILED;
             break;
         }
@@ -635,8 +440,7 @@ int cmd_project(int argc, char **argv)
     pca_options_defaults(&o);
     projector pj;
     memset(&pj, 0, sizeof pj);
-    dest out;
-    int dest_opened = 0;
+    sink *out = NULL;
     long long k_req = 0;
     double share_req = 0;
     if (npos == 0) { cli_error("project", "no data files (see sheaf project --help)"); goto done; }
@@ -721,19 +525,19 @@ int cmd_project(int argc, char **argv)
         rc = EXIT_RESOURCE;
         goto done;
     }
-    dest_opened = 1;
-    if (dest_open(&out, out_path) != 0) {
-        cli_error("project", "%s", out.err);
+    out = sink_open(out_path, err, sizeof err);
+    if (!out) {
+        cli_error("project", "%s", err);
         rc = EXIT_FAILED;
         goto done;
     }
-    pj.out = &out;
+    pj.out = out;
     /* Header row: carried names, then PC1..PCk. */
     {
         size_t need = pj.k * 24 + 2;
         for (size_t c = 0; c < pj.ncarry; c++) need += 2 * strlen(pj.carry[c]) + 3;
-        if (dest_reserve(&out, need) == 0) {
-            char *d = out.buf + out.len;
+        char *d0 = sink_reserve(out, need), *d = d0;
+        if (d) {
             for (size_t c = 0; c < pj.ncarry; c++) {
                 if (c) *d++ = ',';
                 d = put_field(d, pj.carry[c], strlen(pj.carry[c]));
@@ -741,18 +545,18 @@ int cmd_project(int argc, char **argv)
             for (size_t c = 0; c < pj.k; c++)
                 d += sprintf(d, "%sPC%zu", c || pj.ncarry ? "," : "", c + 1);
             *d++ = '\n';
-            out.len = (size_t)(d - out.buf);
+            sink_commit(out, (size_t)(d - d0));
         }
     }
     rc = EXIT_DONE;
     for (size_t i = 0; i < npos && rc == EXIT_DONE; i++) rc = project_file(&pj, ck, pos[i]);
     if (rc != EXIT_DONE) cli_error("project", "%s", pj.err);
 done:
-    if (dest_opened) {
-        if (dest_close(&out, rc == EXIT_DONE) != 0 && rc == EXIT_DONE) {
-            cli_error("project", "%s", out.err);
-            rc = EXIT_FAILED;
-        }
+    if (out && rc != EXIT_DONE) {
+        sink_abort(out);
+    } else if (out && sink_close(out, err, sizeof err) != 0) {
+        cli_error("project", "%s", err);
+        rc = EXIT_FAILED;
     }
     chunker_free(ck);
     free(pj.field_of);

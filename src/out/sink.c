@@ -23,6 +23,7 @@ struct sink {
     char *path, *tmp;    /* final and temporary names (NULL for stdout) */
     unsigned char *buf;  /* pending bytes */
     size_t len;          /* bytes pending */
+    size_t cap;          /* bytes allocated for buf */
     unsigned char *zbuf; /* zstd output buffer */
     int failed;          /* a write failed */
 };
@@ -38,6 +39,7 @@ sink *sink_open(const char *path, char *err, size_t errlen)
     sink *s = calloc(1, sizeof *s);
     if (!s) { snprintf(err, errlen, "out of memory"); return NULL; }
     s->buf = malloc(BUF_BYTES);
+    s->cap = BUF_BYTES;
     if (!s->buf) { free(s); snprintf(err, errlen, "out of memory"); return NULL; }
     if (!path || strcmp(path, "-") == 0) {
         s->f = stdout;
@@ -125,16 +127,31 @@ static int drain(sink *s, int end)
     return s->failed ? -1 : 0;
 }
 
+char *sink_reserve(sink *s, size_t n)
+{
+    if (s->failed) return NULL;
+    if (s->len + n > s->cap && drain(s, 0) != 0) return NULL;
+    if (n > s->cap) {
+        unsigned char *g = realloc(s->buf, n);
+        if (!g) { s->failed = 1; return NULL; }
+        s->buf = g;
+        s->cap = n;
+    }
+    return (char *)s->buf + s->len;
+}
+
+void sink_commit(sink *s, size_t n) { s->len += n; }
+
 int sink_write(sink *s, const void *data, size_t len)
 {
     const unsigned char *p = data;
     while (len && !s->failed) {
-        size_t room = BUF_BYTES - s->len, n = len < room ? len : room;
+        size_t room = s->cap - s->len, n = len < room ? len : room;
         memcpy(s->buf + s->len, p, n);
         s->len += n;
         p += n;
         len -= n;
-        if (s->len == BUF_BYTES) drain(s, 0);
+        if (s->len == s->cap) drain(s, 0);
     }
     return s->failed ? -1 : 0;
 }

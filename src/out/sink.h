@@ -17,6 +17,11 @@ typedef struct sink sink;
 sink *sink_open(const char *path, char *err, size_t errlen);
 /* Returns 0, or -1 once a write failed (the error is kept for sink_close). */
 int sink_write(sink *s, const void *data, size_t len);
+/* Room for n bytes written in place: returns where to write them (commit
+ * with sink_commit), or NULL once a write failed or memory ran out. */
+char *sink_reserve(sink *s, size_t n);
+/* Marks n bytes written at the last sink_reserve's pointer. */
+void sink_commit(sink *s, size_t n);
 /* Flushes, finishes the compressed stream, renames into place.  Returns 0, or
  * -1 with a message (and nothing left under the final name). */
 int sink_close(sink *s, char *err, size_t errlen);
