@@ -2,10 +2,14 @@
 #include "cli/cli.h"
 
 #include <ctype.h>
+#include <errno.h>
 #include <stdarg.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+
+/* Largest text file a command reads whole (keep lists). */
+#define KEEP_LIST_MAX_BYTES (64u << 20)
 
 void cli_error(const char *cmd, const char *fmt, ...)
 {
@@ -112,4 +116,32 @@ long long cli_parse_size(const char *s)
     if (*end == 'b' || *end == 'B') end++;
     if (*end) return -1;
     return (long long)(v * mult);
+}
+
+char *cli_read_text(const char *path, char *err, size_t errlen)
+{
+    FILE *f = fopen(path, "rb");
+    if (!f) { snprintf(err, errlen, "%s: %s", path, strerror(errno)); return NULL; }
+    size_t cap = 4096, len = 0;
+    char *buf = malloc(cap);
+    while (buf) {
+        if (len + 1 >= cap) {
+            char *g = cap < KEEP_LIST_MAX_BYTES ? realloc(buf, cap * 2) : NULL;
+            if (!g) { free(buf); buf = NULL; break; }
+            buf = g;
+            cap *= 2;
+        }
+        size_t got = fread(buf + len, 1, cap - 1 - len, f);
+        len += got;
+        if (got == 0) break;
+    }
+    int bad = ferror(f);
+    fclose(f);
+    if (!buf || bad) {
+        snprintf(err, errlen, "%s: %s", path, buf ? "read error" : "too large or out of memory");
+        free(buf);
+        return NULL;
+    }
+    buf[len] = '\0';
+    return buf;
 }

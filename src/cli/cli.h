@@ -39,6 +39,10 @@ void cli_help(const cli_command *cmd);
 /* "sheaf CMD: message" on stderr. */
 void cli_error(const char *cmd, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
 
+/* Reads a whole text file (a keep list), NUL-terminated; NULL with a
+ * message naming the file when it cannot be read or passes 64 MiB. */
+char *cli_read_text(const char *path, char *err, size_t errlen);
+
 /* Parses a size such as 4M, 64MiB, 512k, 2G (powers of 1024); -1 if bad. */
 long long cli_parse_size(const char *s);
 /* Parses a non-negative integer; -1 if bad. */

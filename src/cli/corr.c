@@ -9,17 +9,6 @@
 #include "out/table.h"
 #include "summary/summary.h"
 
-/* Writes a CSV field, quoted when needed (RFC 4180). */
-static void csv_field_out(FILE *f, const char *s)
-{
-    if (!strpbrk(s, ",\"\n\r")) { fputs(s, f); return; }
-    fputc('"', f);
-    for (; *s; s++) {
-        if (*s == '"') fputc('"', f);
-        fputc(*s, f);
-    }
-    fputc('"', f);
-}
 
 int cmd_corr(int argc, char **argv)
 {
@@ -101,11 +90,11 @@ int cmd_corr(int argc, char **argv)
     if (!strcmp(format, "csv")) {
         for (size_t a = 0; a < np; a++) {
             fputc(',', stdout);
-            csv_field_out(stdout, s->cols[s->como_col[pick[a]]].name);
+            table_csv_field(stdout, s->cols[s->como_col[pick[a]]].name);
         }
         fputc('\n', stdout);
         for (size_t a = 0; a < np; a++) {
-            csv_field_out(stdout, s->cols[s->como_col[pick[a]]].name);
+            table_csv_field(stdout, s->cols[s->como_col[pick[a]]].name);
             for (size_t b = 0; b < np; b++) {
                 double v = VAL(a, b);
                 if (isfinite(v)) printf(",%.17g", v);

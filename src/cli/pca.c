@@ -12,47 +12,9 @@
 #include "stats/pca.h"
 #include "summary/summary.h"
 
-#define KEEP_LIST_MAX_BYTES (64u << 20)
 
 /* Reads a whole (small) text file; NULL with a message on failure. */
-static char *read_text(const char *path, char *err, size_t errlen)
-{
-    FILE *f = fopen(path, "rb");
-    if (!f) { snprintf(err, errlen, "%s: %s", path, strerror(errno)); return NULL; }
-    size_t cap = 4096, len = 0;
-    char *buf = malloc(cap);
-    while (buf) {
-        if (len + 1 >= cap) {
-            char *g = cap < KEEP_LIST_MAX_BYTES ? realloc(buf, cap * 2) : NULL;
-            if (!g) { free(buf); buf = NULL; break; }
-            buf = g;
-            cap *= 2;
-        }
-        size_t got = fread(buf + len, 1, cap - 1 - len, f);
-        len += got;
-        if (got == 0) break;
-    }
-    int bad = ferror(f);
-    fclose(f);
-    if (!buf || bad) {
-        snprintf(err, errlen, "%s: %s", path, buf ? "read error" : "too large or out of memory");
-        free(buf);
-        return NULL;
-    }
-    buf[len] = '\0';
-    return buf;
-}
 
-static void csv_field_out(FILE *f, const char *s)
-{
-    if (!strpbrk(s, ",\"\n\r")) { fputs(s, f); return; }
-    fputc('"', f);
-    for (; *s; s++) {
-        if (*s == '"') fputc('"', f);
-        fputc(*s, f);
-    }
-    fputc('"', f);
-}
 
 static const char *col_name(const summary *s, const pca_result *r, size_t j)
 {
@@ -65,7 +27,7 @@ static void print_csv(const summary *s, const pca_result *r, size_t k)
     for (size_t c = 0; c < k; c++) printf(",PC%zu", c + 1);
     fputc('\n', stdout);
     for (size_t j = 0; j < r->p; j++) {
-        csv_field_out(stdout, col_name(s, r, j));
+        table_csv_field(stdout, col_name(s, r, j));
         for (size_t c = 0; c < k; c++) printf(",%.17g", r->loadings[c * r->p + j]);
         fputc('\n', stdout);
     }
@@ -316,7 +278,7 @@ int cmd_pca(int argc, char **argv)
         }
     }
     if (keep) {
-        keep_text = read_text(keep, err, sizeof err);
+        keep_text = cli_read_text(keep, err, sizeof err);
         if (!keep_text) { cli_error("pca", "--keep-list: %s", err); rc = EXIT_INPUT; goto done; }
     }
     o.columns = cols;

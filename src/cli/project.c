@@ -30,7 +30,6 @@
 #include "summary/summary.h"
 
 #define BLOCK_ROWS 256
-#define KEEP_LIST_MAX_BYTES (64u << 20)
 
 
 /* ---- formatting --------------------------------------------------------- */
@@ -354,33 +353,6 @@ static int project_file(projector *pj, chunker *ck, const char *path)
 
 /* ---- the command -------------------------------------------------------- */
 
-static char *read_text(const char *path, char *err, size_t errlen)
-{
-    FILE *f = fopen(path, "rb");
-    if (!f) { snprintf(err, errlen, "%s: %s", path, strerror(errno)); return NULL; }
-    size_t cap = 4096, len = 0;
-    char *buf = malloc(cap);
-    while (buf) {
-        if (len + 1 >= cap) {
-            char *g = cap < KEEP_LIST_MAX_BYTES ? realloc(buf, cap * 2) : NULL;
-            if (!g) { free(buf); buf = NULL; break; }
-            buf = g;
-            cap *= 2;
-        }
-        size_t got = fread(buf + len, 1, cap - 1 - len, f);
-        len += got;
-        if (got == 0) break;
-    }
-    int bad = ferror(f);
-    fclose(f);
-    if (!buf || bad) {
-        snprintf(err, errlen, "%s: %s", path, buf ? "read error" : "too large or out of memory");
-        free(buf);
-        return NULL;
-    }
-    buf[len] = '\0';
-    return buf;
-}
 
 static int parse_delim(const char *s, char *out)
 {
@@ -482,7 +454,7 @@ int cmd_project(int argc, char **argv)
         for (char *t = strtok(carry_buf, ","); t; t = strtok(NULL, ",")) pj.carry[pj.ncarry++] = t;
     }
     if (keep) {
-        keep_text = read_text(keep, err, sizeof err);
+        keep_text = cli_read_text(keep, err, sizeof err);
         if (!keep_text) { cli_error("project", "--keep-list: %s", err); rc = EXIT_INPUT; goto done; }
     }
     o.columns = cols;

@@ -137,16 +137,6 @@ static void print_json(const summary *s, const screen_result *r)
     json_finish(&j);
 }
 
-static void csv_out(const char *s)
-{
-    if (!strpbrk(s, ",\"\n\r")) { fputs(s, stdout); return; }
-    fputc('"', stdout);
-    for (; *s; s++) {
-        if (*s == '"') fputc('"', stdout);
-        fputc(*s, stdout);
-    }
-    fputc('"', stdout);
-}
 
 static void print_csv(const summary *s, const screen_result *r)
 {
@@ -154,7 +144,7 @@ static void print_csv(const summary *s, const screen_result *r)
            "mi_normalized,reasons\n");
     for (size_t i = 0; i < r->nfeatures; i++) {
         const screen_feature *f = &r->features[i];
-        csv_out(s->cols[f->col].name);
+        table_csv_field(stdout, s->cols[f->col].name);
         printf(",%s,%s,", f->kind == KIND_NUMERIC ? "numeric" : "categorical", f->keep ? "keep" : "drop");
         if (f->rank) printf("%zu", f->rank);
         fputc(',', stdout);
@@ -174,7 +164,7 @@ static void print_csv(const summary *s, const screen_result *r)
         }
         if (f->mi.present) printf(",%.6g,%.6g,%.6g,", f->mi.nats, f->mi.nats_corrected, f->mi.normalized);
         else printf(",,,,");
-        csv_out(f->reasons);
+        table_csv_field(stdout, f->reasons);
         fputc('\n', stdout);
     }
 }

@@ -170,3 +170,14 @@ void table_format_number(char *buf, size_t len, double v, int digits)
     if (isinf(v)) { snprintf(buf, len, v > 0 ? "inf" : "-inf"); return; }
     snprintf(buf, len, "%.*g", digits, v);
 }
+
+void table_csv_field(FILE *f, const char *s)
+{
+    if (!strpbrk(s, ",\"\n\r")) { fputs(s, f); return; }
+    fputc('"', f);
+    for (; *s; s++) {
+        if (*s == '"') fputc('"', f);
+        fputc(*s, f);
+    }
+    fputc('"', f);
+}

@@ -25,6 +25,10 @@ void table_cellf(table *t, size_t col, const char *fmt, ...) __attribute__((form
  * `bold_heading` underlines nothing but wraps the heading in bold escapes. */
 void table_print(const table *t, FILE *f, size_t max_width, int bold_heading);
 
+/* Writes s as one CSV field (RFC 4180: quoted when it holds a comma, quote
+ * or line break, quotes doubled). */
+void table_csv_field(FILE *f, const char *s);
+
 /* Terminal width of stdout (COLUMNS, then the tty, else 0 = unknown). */
 size_t table_terminal_width(void);
 /* 1 when colour/bold may be used on f: a terminal and NO_COLOR unset. */
