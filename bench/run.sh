@@ -77,9 +77,16 @@ section_target() {
     t0=$(median_s "./sheaf scan $plain -o $out/p.sheaf -q")
     tc=$(median_s "./sheaf scan $plain -o $out/tc.sheaf -q --target label")
     tr=$(median_s "./sheaf scan $plain -o $out/tr.sheaf -q --target balance")
-    /usr/bin/python3 - "$mb" "$t0" "$tc" "$tr" <<'PY' >"$out/target.md"
+    local mc1 mc2 mr1 mr2 half=$out/bench-$((rows / 2)).csv
+    mc1=$(peak_kb ./sheaf scan "$half" -o "$out/m.sheaf" -q --target label)
+    mc2=$(peak_kb ./sheaf scan "$plain" -o "$out/m.sheaf" -q --target label)
+    mr1=$(peak_kb ./sheaf scan "$half" -o "$out/m.sheaf" -q --target balance)
+    mr2=$(peak_kb ./sheaf scan "$plain" -o "$out/m.sheaf" -q --target balance)
+    /usr/bin/python3 - "$mb" "$t0" "$tc" "$tr" "$mc1" "$mc2" "$mr1" "$mr2" "$rows" <<'PY' >"$out/target.md"
 import sys
-mb, t0, tc, tr = int(sys.argv[1]) / 1e6, *map(float, sys.argv[2:])
+mb, t0, tc, tr = int(sys.argv[1]) / 1e6, *map(float, sys.argv[2:5])
+mc1, mc2, mr1, mr2 = (int(x) / 1024 for x in sys.argv[5:9])
+rows = int(sys.argv[9])
 print("## Scan with a target (issue 3): the same table\n")
 print("Target: at most 1.5x the scan without a target.\n")
 print("| scan | median s | MB/s | ratio to no target |")
@@ -87,6 +94,10 @@ print("| --- | ---: | ---: | ---: |")
 print("| no target | %.3f | %.0f | 1.00 |" % (t0, mb / t0))
 print("| `--target label` (6 classes) | %.3f | %.0f | %.2f |" % (tc, mb / tc, tc / t0))
 print("| `--target balance` (continuous, regression) | %.3f | %.0f | %.2f |" % (tr, mb / tr, tr / t0))
+print()
+print("Peak memory as rows grow: `--target label` %.1f MiB at %d rows, %.1f MiB at %d;" % (mc1, rows // 2, mc2, rows))
+print("`--target balance` %.1f MiB and %.1f MiB (its bucket stores count per target bucket, bounded" % (mr1, mr2))
+print("by the bucket budget times the target's buckets).")
 print()
 PY
 }
