@@ -81,7 +81,7 @@ typedef struct {
     size_t errlen;
 } scanner;
 
-static int is_missing(const scanner *sc, const char *p, uint32_t len)
+static inline int is_missing(const scanner *sc, const char *p, uint32_t len)
 {
     if (len == 0) return 1;
     if (len >= 64 || !(sc->missing_len_mask >> len & 1)) return 0;
@@ -163,14 +163,17 @@ static int flush_comoments(scanner *sc)
     summary *w = sc->work, *run = sc->run;
     size_t rows = sc->block_rows, p = run->ncomo;
     if (!p || !rows) return 0;
-    memset(sc->como_x, 0, p * rows * sizeof *sc->como_x);
-    memset(sc->como_mask, 0, p * rows * sizeof *sc->como_mask);
     for (size_t k = 0; k < p; k++) {
         size_t j = run->como_col[k];
         const lane *l = &sc->lanes[j];
         const moments *m = &w->cols[j].mom;
         sc->como_complete[k] = l->nnum == rows;
         sc->como_center[k] = 0;
+        double *x = sc->como_x + k * rows, *msk = sc->como_mask + k * rows;
+        if (l->nnum < rows) { /* missing cells are 0 in both; complete columns overwrite all */
+            memset(x, 0, rows * sizeof *x);
+            memset(msk, 0, rows * sizeof *msk);
+        }
         if (!l->nnum) continue;
         double shift = 0;
         if (!run->como_ref_set[k]) {
@@ -183,7 +186,6 @@ static int flush_comoments(scanner *sc)
         for (size_t i = 0; i < l->nnum; i++) sum += l->dev[i];
         double mean = sum / (double)l->nnum;
         sc->como_center[k] = mean + shift;
-        double *x = sc->como_x + k * rows, *msk = sc->como_mask + k * rows;
         for (size_t i = 0; i < l->nnum; i++) {
             x[l->num_row[i]] = l->dev[i] - mean;
             msk[l->num_row[i]] = 1.0;
