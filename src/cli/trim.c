@@ -83,7 +83,7 @@ static int add_list(name_set *s, const char *list)
 /* Streams one file; writes the header only for the first. */
 static int trim_file(const char *path, const name_set *keep, char delim_opt, sink *out,
                      int *header_done, char **header_line, size_t *header_len, int *missing_warned,
-                     char *err, size_t errlen)
+                     int *unterminated, char *err, size_t errlen)
 {
     source *src = source_open(path, err, errlen);
     if (!src) return EXIT_INPUT;
@@ -183,6 +183,9 @@ static int trim_file(const char *path, const name_set *keep, char delim_opt, sin
                 *header_len = hl;
                 *header_done = 1;
             }
+            /* The previous file ended without a line end: give it one now. */
+            if (*unterminated && sink_write(out, "\n", 1) != 0) goto write_fail;
+            *unterminated = 0;
             int first = 1;
             for (size_t i = 0; i < nfields; i++) {
                 if (!pick[i]) continue;
@@ -190,8 +193,9 @@ static int trim_file(const char *path, const name_set *keep, char delim_opt, sin
                 first = 0;
                 if (i < nf && f[i].len && sink_write(out, f[i].ptr, f[i].len) != 0) goto write_fail;
             }
-            const char *nl = eol_len ? eol : "\n";
-            if (sink_write(out, nl, eol_len ? eol_len : 1) != 0) goto write_fail;
+            /* The input's own line end; none after a last record without one. */
+            if (eol_len && sink_write(out, eol, eol_len) != 0) goto write_fail;
+            *unterminated = eol_len == 0;
         }
         line_base += r.lines;
     }
@@ -280,10 +284,10 @@ int cmd_trim(int argc, char **argv)
     if (add_list(&keep, carry) != 0) { rc = EXIT_RESOURCE; goto done; }
     out = sink_open(out_path, err, sizeof err);
     if (!out) { cli_error("trim", "%s", err); rc = EXIT_FAILED; goto done; }
-    int header_done = 0, warned = 0;
+    int header_done = 0, warned = 0, unterminated = 0;
     for (size_t i = 0; i < npos; i++) {
-        rc = trim_file(pos[i], &keep, delim, out, &header_done, &header, &header_len, &warned, err,
-                       sizeof err);
+        rc = trim_file(pos[i], &keep, delim, out, &header_done, &header, &header_len, &warned,
+                       &unterminated, err, sizeof err);
         if (rc != EXIT_DONE) {
             cli_error("trim", "%s", err);
             sink_abort(out);
