@@ -118,6 +118,9 @@ static void print_json(const summary *s, double share, size_t ntop)
         json_key(&j, "distinct"); json_number(&j, exact ? distinct : round(distinct));
         json_key(&j, "distinct_exact"); json_bool(&j, exact);
         json_key(&j, "high_cardinality"); json_bool(&j, values_overflowed(c->vals));
+        /* Once a value table overflowed (here or in a merged shard), counts of
+         * values that entered it late are lower bounds. */
+        json_key(&j, "top_exact"); json_bool(&j, !values_overflowed(c->vals));
         json_key(&j, "top");
         json_array_begin(&j);
         size_t nt = values_top(c->vals, ntop, top);
