@@ -5,6 +5,27 @@
 
 #include <string.h>
 
+/* The first byte at or after p that is the delimiter or '\n', or end.  Eight
+ * bytes at a time: a byte b of word w equals c exactly when byte b of
+ * w ^ (c * 0x01..01) is zero, and the lowest set bit of
+ * (v - 0x01..01) & ~v & 0x80..80 marks the lowest zero byte of v (higher
+ * bits may be false positives, the lowest never is). */
+static inline char *field_end(char *p, const char *end, char delim)
+{
+    const uint64_t ones = 0x0101010101010101ull, highs = 0x8080808080808080ull;
+    const uint64_t d = ones * (unsigned char)delim, nl = ones * (unsigned char)'\n';
+    while (end - p >= 8) {
+        uint64_t w;
+        memcpy(&w, p, 8);
+        uint64_t a = w ^ d, b = w ^ nl;
+        uint64_t hit = ((a - ones) & ~a & highs) | ((b - ones) & ~b & highs);
+        if (hit) return p + (__builtin_ctzll(hit) >> 3);
+        p += 8;
+    }
+    while (p < end && *p != delim && *p != '\n') p++;
+    return p;
+}
+
 void csv_reader_init(csv_reader *r, char *data, size_t len, char delim)
 {
     r->pos = data;
@@ -71,7 +92,7 @@ csv_status csv_next(csv_reader *r, csv_field *fields, size_t max_fields, size_t 
             p = after;
         } else {
             char *s = p;
-            while (p < end && *p != delim && *p != '\n') p++;
+            p = field_end(p, end, delim);
             fstart = s;
             flen = (uint32_t)(p - s);
             if (flen && s[flen - 1] == '\r' && (p == end || *p == '\n')) flen--;
@@ -119,7 +140,7 @@ csv_status csv_next_raw(csv_reader *r, csv_field *fields, size_t max_fields, siz
                 break;
             }
         }
-        while (p < end && *p != delim && *p != '\n') p++;
+        p = field_end(p, end, delim);
         char *stop = p;
         if (stop > start && stop[-1] == '\r' && (p == end || *p == '\n')) stop--;
         if (n < max_fields) {
