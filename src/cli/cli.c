@@ -1,5 +1,6 @@
 /* cli: option parsing and help shared by the commands. */
 #include "cli/cli.h"
+#include "summary/summary.h"
 
 #include <ctype.h>
 #include <errno.h>
@@ -144,4 +145,15 @@ char *cli_read_text(const char *path, char *err, size_t errlen)
     }
     buf[len] = '\0';
     return buf;
+}
+
+int cli_summary_exit(int st)
+{
+    switch ((summary_status)st) {
+    case SUMMARY_OK: return EXIT_DONE;
+    case SUMMARY_ERR_IO: return EXIT_INPUT;
+    case SUMMARY_ERR_CORRUPT: return EXIT_CORRUPT;
+    case SUMMARY_ERR_INCOMPATIBLE: return EXIT_INCOMPATIBLE;
+    default: return EXIT_RESOURCE;
+    }
 }

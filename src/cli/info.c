@@ -12,17 +12,6 @@
 static const double PROBS[] = {0.01, 0.05, 0.25, 0.5, 0.75, 0.95, 0.99};
 #define NPROBS (sizeof PROBS / sizeof *PROBS)
 
-int cli_summary_exit(int st)
-{
-    switch ((summary_status)st) {
-    case SUMMARY_OK: return EXIT_DONE;
-    case SUMMARY_ERR_IO: return EXIT_INPUT;
-    case SUMMARY_ERR_CORRUPT: return EXIT_CORRUPT;
-    case SUMMARY_ERR_INCOMPATIBLE: return EXIT_INCOMPATIBLE;
-    default: return EXIT_RESOURCE;
-    }
-}
-
 static void human_bytes(char *buf, size_t len, double b)
 {
     const char *unit[] = {"B", "kB", "MB", "GB", "TB"};
