@@ -157,3 +157,15 @@ int cli_summary_exit(int st)
     default: return EXIT_RESOURCE;
     }
 }
+
+int cli_parse_unit(const char *cmd, const char *opt, const char *s, double *out)
+{
+    char *end;
+    double v = strtod(s, &end);
+    if (end == s || *end || !(v > 0 && v <= 1)) {
+        cli_error(cmd, "%s must be a number in (0, 1], got '%s'", opt, s);
+        return -1;
+    }
+    *out = v;
+    return 0;
+}

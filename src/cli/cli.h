@@ -45,6 +45,9 @@ char *cli_read_text(const char *path, char *err, size_t errlen);
 
 /* Parses a size such as 4M, 64MiB, 512k, 2G (powers of 1024); -1 if bad. */
 long long cli_parse_size(const char *s);
+/* Parses a share or level in (0, 1] for option `opt`; prints a one-line
+ * error and returns -1 when it is not one. */
+int cli_parse_unit(const char *cmd, const char *opt, const char *s, double *out);
 /* Parses a non-negative integer; -1 if bad. */
 long long cli_parse_count(const char *s);
 

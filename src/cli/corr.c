@@ -40,14 +40,7 @@ int cmd_corr(int argc, char **argv)
         cli_error("corr", "--format must be text, csv or json, got '%s'", format);
         goto done;
     }
-    if (share_s) {
-        char *end;
-        share = strtod(share_s, &end);
-        if (*end || !(share > 0 && share <= 1)) {
-            cli_error("corr", "--numeric-share must be in (0, 1], got '%s'", share_s);
-            goto done;
-        }
-    }
+    if (share_s && cli_parse_unit("corr", "--numeric-share", share_s, &share)) goto done;
     char err[512];
     summary_status st = summary_read(pos[0], &s, err, sizeof err);
     if (st != SUMMARY_OK) { cli_error("corr", "%s", err); rc = cli_summary_exit(st); goto done; }

@@ -288,14 +288,9 @@ int cmd_info(int argc, char **argv)
     double share = 0.99;
     long long ntop = 3;
     if (npos != 1) { cli_error("info", "expected one summary file"); free(pos); return EXIT_USAGE; }
-    if (share_s) {
-        char *end;
-        share = strtod(share_s, &end);
-        if (*end || !(share > 0 && share <= 1)) {
-            cli_error("info", "--numeric-share must be in (0, 1], got '%s'", share_s);
-            free(pos);
-            return EXIT_USAGE;
-        }
+    if (share_s && cli_parse_unit("info", "--numeric-share", share_s, &share)) {
+        free(pos);
+        return EXIT_USAGE;
     }
     if (top_s && (ntop = cli_parse_count(top_s)) < 0) {
         cli_error("info", "--top must be a count, got '%s'", top_s);

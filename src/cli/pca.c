@@ -269,14 +269,8 @@ int cmd_pca(int argc, char **argv)
         cli_error("pca", "--leading must be a whole number, got '%s'", leading_s);
         goto done;
     }
-    if (numshare_s) {
-        char *end;
-        o.numeric_share = strtod(numshare_s, &end);
-        if (*end || end == numshare_s || !(o.numeric_share > 0 && o.numeric_share <= 1)) {
-            cli_error("pca", "--numeric-share must be in (0, 1], got '%s'", numshare_s);
-            goto done;
-        }
-    }
+    if (numshare_s && cli_parse_unit("pca", "--numeric-share", numshare_s, &o.numeric_share))
+        goto done;
     if (keep) {
         keep_text = cli_read_text(keep, err, sizeof err);
         if (!keep_text) { cli_error("pca", "--keep-list: %s", err); rc = EXIT_INPUT; goto done; }

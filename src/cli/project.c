@@ -439,14 +439,8 @@ int cmd_project(int argc, char **argv)
         }
     }
     if (k_s && share_s) { cli_error("project", "give --k or --share, not both"); goto done; }
-    if (numshare_s) {
-        char *end;
-        o.numeric_share = strtod(numshare_s, &end);
-        if (*end || end == numshare_s || !(o.numeric_share > 0 && o.numeric_share <= 1)) {
-            cli_error("project", "--numeric-share must be in (0, 1], got '%s'", numshare_s);
-            goto done;
-        }
-    }
+    if (numshare_s && cli_parse_unit("project", "--numeric-share", numshare_s, &o.numeric_share))
+        goto done;
     if (carry_s) {
         carry_buf = strdup(carry_s);
         pj.carry = calloc(strlen(carry_s) / 2 + 2, sizeof *pj.carry);

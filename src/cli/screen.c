@@ -227,17 +227,6 @@ static void print_text(const summary *s, const screen_result *r, const char *pat
     }
 }
 
-static int parse_unit(const char *opt, const char *v, double *out, int allow_zero)
-{
-    char *end;
-    double x = strtod(v, &end);
-    if (*end || !(x >= 0 && x <= 1) || (!allow_zero && x == 0)) {
-        cli_error("screen", "%s must be a number in %s1], got '%s'", opt, allow_zero ? "[0, " : "(0, ", v);
-        return -1;
-    }
-    *out = x;
-    return 0;
-}
 
 int cmd_screen(int argc, char **argv)
 {
@@ -279,10 +268,10 @@ int cmd_screen(int argc, char **argv)
         cli_error("screen", "--format must be text, csv or json, got '%s'", format);
         goto done;
     }
-    if (q && parse_unit("--q", q, &o.q_level, 0)) goto done;
-    if (missing && parse_unit("--missing-share", missing, &o.missing_share, 0)) goto done;
-    if (redund && parse_unit("--redundancy", redund, &o.redundancy, 0)) goto done;
-    if (share && parse_unit("--numeric-share", share, &o.numeric_share, 0)) goto done;
+    if (q && cli_parse_unit("screen", "--q", q, &o.q_level)) goto done;
+    if (missing && cli_parse_unit("screen", "--missing-share", missing, &o.missing_share)) goto done;
+    if (redund && cli_parse_unit("screen", "--redundancy", redund, &o.redundancy)) goto done;
+    if (share && cli_parse_unit("screen", "--numeric-share", share, &o.numeric_share)) goto done;
     if (minvar) {
         char *end;
         o.min_variance = strtod(minvar, &end);

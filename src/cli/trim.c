@@ -254,11 +254,7 @@ int cmd_trim(int argc, char **argv)
         else if (strlen(delim_s) == 1) delim = delim_s[0];
         else { cli_error("trim", "--delim must be one character or 'tab'"); goto done; }
     }
-    if (q) {
-        char *end;
-        so.q_level = strtod(q, &end);
-        if (*end || !(so.q_level > 0 && so.q_level <= 1)) { cli_error("trim", "--q must be in (0, 1]"); goto done; }
-    }
+    if (q && cli_parse_unit("trim", "--q", q, &so.q_level)) goto done;
     if (top) {
         long long v = cli_parse_count(top);
         if (v < 1) { cli_error("trim", "--top must be a positive count"); goto done; }

@@ -68,19 +68,27 @@ static char *quoted(csv_reader *r, char *p, char *end, char delim, uint32_t *fle
     return p;
 }
 
-csv_status csv_next(csv_reader *r, csv_field *fields, size_t max_fields, size_t *nfields)
+/* Skips blank lines (nothing but a line end) and marks where the next
+ * record starts; returns it, or NULL at the end of the chunk. */
+static char *record_begin(csv_reader *r)
 {
     char *p = r->pos, *end = r->end;
-    const char delim = r->delim;
-    /* Skip blank lines (nothing but a line end). */
     for (;;) {
-        if (p >= end) { r->pos = p; return CSV_END; }
+        if (p >= end) { r->pos = p; return NULL; }
         if (*p == '\n') { p++; r->lines++; continue; }
         if (*p == '\r' && p + 1 < end && p[1] == '\n') { p += 2; r->lines++; continue; }
         break;
     }
     r->record_line = r->lines;
     r->record_start = p;
+    return p;
+}
+
+csv_status csv_next(csv_reader *r, csv_field *fields, size_t max_fields, size_t *nfields)
+{
+    char *p = record_begin(r), *end = r->end;
+    const char delim = r->delim;
+    if (!p) return CSV_END;
     size_t n = 0;
     for (;;) {
         const char *fstart;
@@ -116,16 +124,9 @@ csv_status csv_next(csv_reader *r, csv_field *fields, size_t max_fields, size_t 
 csv_status csv_next_raw(csv_reader *r, csv_field *fields, size_t max_fields, size_t *nfields,
                         const char **eol, size_t *eol_len)
 {
-    char *p = r->pos, *end = r->end;
+    char *p = record_begin(r), *end = r->end;
     const char delim = r->delim;
-    for (;;) {
-        if (p >= end) { r->pos = p; return CSV_END; }
-        if (*p == '\n') { p++; r->lines++; continue; }
-        if (*p == '\r' && p + 1 < end && p[1] == '\n') { p += 2; r->lines++; continue; }
-        break;
-    }
-    r->record_line = r->lines;
-    r->record_start = p;
+    if (!p) return CSV_END;
     size_t n = 0;
     for (;;) {
         char *start = p;
