@@ -142,7 +142,8 @@ static int flush_lane(scanner *sc, summary_column *c, lane *l)
             double x = l->val[i];
             moments_see(&c->mom, x);
             c->zeros += x == 0;
-            c->integers += x == nearbyint(x);
+            /* Integer-valued: every double of magnitude 2^53 or more is. */
+            c->integers += fabs(x) >= 9007199254740992.0 || x == (double)(int64_t)x;
             sc->cells_tmp[i] = sc->row_cell[l->num_row[i]];
         }
         if (buckets_add_many(c->bins, l->val, sc->o->opt.target ? sc->cells_tmp : NULL, l->nnum) != 0)
