@@ -4,6 +4,8 @@
 
 #include <stddef.h>
 
+#include "stats/pca.h"
+
 /* Exit codes (documented in `sheaf --help` and the README). */
 enum {
     EXIT_DONE = 0,         /* success */
@@ -42,6 +44,28 @@ void cli_error(const char *cmd, const char *fmt, ...) __attribute__((format(prin
 /* Reads a whole text file (a keep list), NUL-terminated; NULL with a
  * message naming the file when it cannot be read or passes 64 MiB. */
 char *cli_read_text(const char *path, char *err, size_t errlen);
+
+/* Parses a delimiter option: one character, or "tab"; -1 if bad. */
+int cli_parse_delim(const char *s, char *out);
+
+/* Options that choose principal components (pca, project). */
+typedef struct {
+    const char *basis;          /* --basis */
+    const char *k;              /* --k */
+    const char *share;          /* --share */
+    const char *numeric_share;  /* --numeric-share */
+    const char *columns;        /* --columns */
+    const char *exclude;        /* --exclude */
+    const char *keep_list;      /* --keep-list FILE */
+    int with_target;            /* --with-target */
+} cli_components;
+
+/* Parses the component options, reads the summary at path and fits it,
+ * warning about undefined pairs and clamped eigenvalues.  Returns EXIT_DONE
+ * with *s, *r and the number of components *k set (caller frees), or an exit
+ * code after a one-line error. */
+int cli_fit_components(const char *cmd, const char *path, const cli_components *c,
+                       summary **s, pca_result **r, size_t *k);
 
 /* Parses a size such as 4M, 64MiB, 512k, 2G (powers of 1024); -1 if bad. */
 long long cli_parse_size(const char *s);

@@ -236,85 +236,33 @@ int cmd_pca(int argc, char **argv)
     rc = EXIT_USAGE;
     summary *s = NULL;
     pca_result *r = NULL;
-    char *keep_text = NULL;
-    char err[1024];
-    pca_options o;
-    pca_options_defaults(&o);
-    long long k_req = 0, nleading = 5;
-    double share_req = 0;
+    long long nleading = 5;
+    size_t k = 0;
     if (npos != 1) { cli_error("pca", "expected one summary file"); goto done; }
     if (strcmp(format, "text") && strcmp(format, "csv") && strcmp(format, "json")) {
         cli_error("pca", "--format must be text, csv or json, got '%s'", format);
         goto done;
     }
-    if (basis && !strcmp(basis, "covariance")) o.basis = PCA_BASIS_COVARIANCE;
-    else if (basis && strcmp(basis, "correlation")) {
-        cli_error("pca", "--basis must be correlation or covariance, got '%s'", basis);
-        goto done;
-    }
-    if (k_s && (k_req = cli_parse_count(k_s)) < 1) {
-        cli_error("pca", "--k must be a positive whole number, got '%s'", k_s);
-        goto done;
-    }
-    if (share_s) {
-        char *end;
-        share_req = strtod(share_s, &end);
-        if (*end || end == share_s || !(share_req > 0 && share_req <= 1)) {
-            cli_error("pca", "--share must be in (0, 1], got '%s'", share_s);
-            goto done;
-        }
-    }
-    if (k_s && share_s) { cli_error("pca", "give --k or --share, not both"); goto done; }
     if (leading_s && (nleading = cli_parse_count(leading_s)) < 0) {
         cli_error("pca", "--leading must be a whole number, got '%s'", leading_s);
         goto done;
     }
-    if (numshare_s && cli_parse_unit("pca", "--numeric-share", numshare_s, &o.numeric_share))
-        goto done;
-    if (keep) {
-        keep_text = cli_read_text(keep, err, sizeof err);
-        if (!keep_text) { cli_error("pca", "--keep-list: %s", err); rc = EXIT_INPUT; goto done; }
-    }
-    o.columns = cols;
-    o.exclude = exclude;
-    o.keep_list = keep_text;
-    o.with_target = with_target;
-    summary_status st = summary_read(pos[0], &s, err, sizeof err);
-    if (st != SUMMARY_OK) { cli_error("pca", "%s", err); rc = cli_summary_exit(st); goto done; }
-    pca_status ps = pca_fit(s, &o, &r, err, sizeof err);
-    if (ps != PCA_OK) {
-        cli_error("pca", "%s: %s", pos[0], err);
-        rc = ps == PCA_ERR_USAGE ? EXIT_USAGE : ps == PCA_ERR_MEMORY ? EXIT_RESOURCE : EXIT_FAILED;
-        goto done;
-    }
-    if (r->undefined_pairs)
-        fprintf(stderr,
-                "sheaf pca: warning: %zu column pair%s never present together (or constant "
-                "where together): %s set to 0\n",
-                r->undefined_pairs, r->undefined_pairs == 1 ? " is" : "s are",
-                r->undefined_pairs == 1 ? "its entry" : "their entries");
-    if (r->clamped_negative)
-        fprintf(stderr,
-                "sheaf pca: warning: the pairwise-complete %s matrix is not positive "
-                "semi-definite (missing cells): %zu negative eigenvalue%s, the most negative "
-                "%.6g, set to 0\n",
-                pca_basis_name(r->basis), r->clamped_negative, r->clamped_negative == 1 ? "" : "s",
-                r->most_negative);
-    size_t k = pca_choose_k(r, (size_t)k_req, share_req);
+    const cli_components cc = {basis, k_s, share_s, numshare_s, cols, exclude, keep, with_target};
+    rc = cli_fit_components("pca", pos[0], &cc, &s, &r, &k);
+    if (rc != EXIT_DONE) goto done;
     char rule[64];
-    if (k_req) snprintf(rule, sizeof rule, "--k %lld", k_req);
+    if (k_s) snprintf(rule, sizeof rule, "--k %s", k_s);
     else if (share_s) snprintf(rule, sizeof rule, "--share %s", share_s);
     else snprintf(rule, sizeof rule, "Kaiser rule");
     if (!strcmp(format, "csv")) print_csv(s, r, k);
     else if (!strcmp(format, "json"))
-        print_json(s, r, k, k_req ? "k" : share_s ? "share" : "kaiser", (size_t)nleading);
+        print_json(s, r, k, k_s ? "k" : share_s ? "share" : "kaiser", (size_t)nleading);
     else print_text(s, r, k, rule, (size_t)nleading);
     rc = fflush(stdout) == 0 && !ferror(stdout) ? EXIT_DONE : EXIT_FAILED;
     if (rc) cli_error("pca", "cannot write the output");
 done:
     pca_result_free(r);
     summary_free(s);
-    free(keep_text);
     free(pos);
     return rc;
 }

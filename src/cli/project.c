@@ -354,13 +354,6 @@ static int project_file(projector *pj, chunker *ck, const char *path)
 /* ---- the command -------------------------------------------------------- */
 
 
-static int parse_delim(const char *s, char *out)
-{
-    if (!strcmp(s, "tab") || !strcmp(s, "\\t") || !strcmp(s, "\t")) { *out = '\t'; return 0; }
-    if (strlen(s) == 1 && s[0] != '"' && s[0] != '\n' && s[0] != '\r') { *out = s[0]; return 0; }
-    return -1;
-}
-
 int cmd_project(int argc, char **argv)
 {
     const char *pca_path = NULL, *out_path = NULL, *delim_s = NULL, *carry_s = NULL;
@@ -405,74 +398,30 @@ int cmd_project(int argc, char **argv)
     rc = EXIT_USAGE;
     summary *s = NULL;
     pca_result *r = NULL;
-    char *keep_text = NULL, *carry_buf = NULL;
+    char *carry_buf = NULL;
     chunker *ck = NULL;
     char err[1024];
-    pca_options o;
-    pca_options_defaults(&o);
     projector pj;
     memset(&pj, 0, sizeof pj);
     sink *out = NULL;
-    long long k_req = 0;
-    double share_req = 0;
     if (npos == 0) { cli_error("project", "no data files (see sheaf project --help)"); goto done; }
     if (!pca_path) { cli_error("project", "--pca FILE.sheaf is required"); goto done; }
-    if (delim_s && parse_delim(delim_s, &pj.delim_opt) != 0) {
+    if (delim_s && cli_parse_delim(delim_s, &pj.delim_opt) != 0) {
         cli_error("project", "--delim must be one character or 'tab', got '%s'", delim_s);
         goto done;
     }
-    if (basis && !strcmp(basis, "covariance")) o.basis = PCA_BASIS_COVARIANCE;
-    else if (basis && strcmp(basis, "correlation")) {
-        cli_error("project", "--basis must be correlation or covariance, got '%s'", basis);
-        goto done;
-    }
-    if (k_s && (k_req = cli_parse_count(k_s)) < 1) {
-        cli_error("project", "--k must be a positive whole number, got '%s'", k_s);
-        goto done;
-    }
-    if (share_s) {
-        char *end;
-        share_req = strtod(share_s, &end);
-        if (*end || end == share_s || !(share_req > 0 && share_req <= 1)) {
-            cli_error("project", "--share must be in (0, 1], got '%s'", share_s);
-            goto done;
-        }
-    }
-    if (k_s && share_s) { cli_error("project", "give --k or --share, not both"); goto done; }
-    if (numshare_s && cli_parse_unit("project", "--numeric-share", numshare_s, &o.numeric_share))
-        goto done;
     if (carry_s) {
         carry_buf = strdup(carry_s);
         pj.carry = calloc(strlen(carry_s) / 2 + 2, sizeof *pj.carry);
         if (!carry_buf || !pj.carry) { cli_error("project", "out of memory"); rc = EXIT_RESOURCE; goto done; }
         for (char *t = strtok(carry_buf, ","); t; t = strtok(NULL, ",")) pj.carry[pj.ncarry++] = t;
     }
-    if (keep) {
-        keep_text = cli_read_text(keep, err, sizeof err);
-        if (!keep_text) { cli_error("project", "--keep-list: %s", err); rc = EXIT_INPUT; goto done; }
-    }
-    o.columns = cols;
-    o.exclude = exclude;
-    o.keep_list = keep_text;
-    o.with_target = with_target;
-    summary_status st = summary_read(pca_path, &s, err, sizeof err);
-    if (st != SUMMARY_OK) { cli_error("project", "%s", err); rc = cli_summary_exit(st); goto done; }
-    pca_status ps = pca_fit(s, &o, &r, err, sizeof err);
-    if (ps != PCA_OK) {
-        cli_error("project", "%s: %s", pca_path, err);
-        rc = ps == PCA_ERR_USAGE ? EXIT_USAGE : ps == PCA_ERR_MEMORY ? EXIT_RESOURCE : EXIT_FAILED;
-        goto done;
-    }
-    if (r->clamped_negative)
-        fprintf(stderr,
-                "sheaf project: warning: the pairwise-complete %s matrix is not positive "
-                "semi-definite (missing cells): %zu negative eigenvalue%s, the most negative "
-                "%.6g, set to 0\n",
-                pca_basis_name(r->basis), r->clamped_negative, r->clamped_negative == 1 ? "" : "s",
-                r->most_negative);
+    const cli_components cc = {basis, k_s, share_s, numshare_s, cols, exclude, keep, with_target};
+    rc = cli_fit_components("project", pca_path, &cc, &s, &r, &pj.k);
+    if (rc != EXIT_DONE) goto done;
+    rc = EXIT_USAGE;
     pj.s = s;
     pj.r = r;
-    pj.k = pca_choose_k(r, (size_t)k_req, share_req);
     pj.header = !no_header;
     for (uint32_t i = 0; i < s->opt.n_missing; i++) {
         size_t l = strlen(s->opt.missing[i]);
@@ -535,7 +484,6 @@ done:
     free(carry_buf);
     pca_result_free(r);
     summary_free(s);
-    free(keep_text);
     free(pos);
     return rc;
 }

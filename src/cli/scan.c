@@ -38,13 +38,6 @@ static void progress(void *ctx, uint64_t done, uint64_t total)
     p->shown = 1;
 }
 
-static int parse_delim(const char *s, char *out)
-{
-    if (!strcmp(s, "tab") || !strcmp(s, "\\t") || !strcmp(s, "\t")) { *out = '\t'; return 0; }
-    if (strlen(s) == 1 && s[0] != '"' && s[0] != '\n' && s[0] != '\r') { *out = s[0]; return 0; }
-    return -1;
-}
-
 int cmd_scan(int argc, char **argv)
 {
     const char *out = NULL, *delim = NULL, *chunk = NULL, *maxrec = NULL, *missing = NULL;
@@ -94,7 +87,7 @@ int cmd_scan(int argc, char **argv)
     long long v;
     if (npos == 0) { cli_error("scan", "no input files (see sheaf scan --help)"); goto done; }
     if (!out) { cli_error("scan", "-o OUT.sheaf is required"); goto done; }
-    if (delim && parse_delim(delim, &o.delim) != 0) {
+    if (delim && cli_parse_delim(delim, &o.delim) != 0) {
         cli_error("scan", "--delim must be one character or 'tab', got '%s'", delim);
         goto done;
     }

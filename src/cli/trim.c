@@ -249,10 +249,9 @@ int cmd_trim(int argc, char **argv)
     rc = EXIT_USAGE;
     if (npos == 0) { cli_error("trim", "no data files (see sheaf trim --help)"); goto done; }
     if (!!from == !!keep_list) { cli_error("trim", "give exactly one of --from and --keep-list"); goto done; }
-    if (delim_s) {
-        if (!strcmp(delim_s, "tab")) delim = '\t';
-        else if (strlen(delim_s) == 1) delim = delim_s[0];
-        else { cli_error("trim", "--delim must be one character or 'tab'"); goto done; }
+    if (delim_s && cli_parse_delim(delim_s, &delim) != 0) {
+        cli_error("trim", "--delim must be one character or 'tab', got '%s'", delim_s);
+        goto done;
     }
     if (q && cli_parse_unit("trim", "--q", q, &so.q_level)) goto done;
     if (top) {
