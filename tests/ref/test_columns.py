@@ -28,6 +28,8 @@ import subprocess
 import sys
 import tempfile
 from fractions import Fraction
+sys.path.insert(0, os.path.join(os.path.dirname(os.path.abspath(__file__)), ".."))
+from refcheck import check, counts, fail, ok, skip  # noqa: E402  (shared PASS/FAIL lines)
 
 import numpy as np
 import pandas as pd
@@ -46,30 +48,6 @@ MISSING = {"", "NA", "N/A", "null", "NULL", "None", "-", "?"}
 NUMBER = re.compile(r"^[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?$")
 NONFINITE = re.compile(r"^[+-]?(inf|infinity|nan)$", re.I)
 TOP = 5
-
-counts = {"pass": 0, "fail": 0}
-
-
-def ok(name):
-    counts["pass"] += 1
-    print("PASS " + name, flush=True)
-
-
-def fail(name, why):
-    counts["fail"] += 1
-    print("FAIL %s: %s" % (name, why), flush=True)
-
-
-def skip(name, why):
-    print("SKIP %s: %s" % (name, why), flush=True)
-
-
-def check(name, cond, why=""):
-    if cond:
-        ok(name)
-    else:
-        fail(name, why)
-    return cond
 
 
 def close(name, got, want, rel=1e-12, scale=None):

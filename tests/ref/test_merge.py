@@ -26,6 +26,8 @@ import shutil
 import subprocess
 import sys
 import tempfile
+sys.path.insert(0, os.path.join(os.path.dirname(os.path.abspath(__file__)), ".."))
+from refcheck import check, counts, fail, ok, skip  # noqa: E402  (shared PASS/FAIL lines)
 
 import numpy as np
 import pandas as pd
@@ -35,26 +37,6 @@ os.chdir(ROOT)
 SHEAF = "./sheaf"
 MISSING = {"", "NA", "N/A", "null", "NULL", "None", "-", "?"}
 TOP = 12
-
-counts = {"pass": 0, "fail": 0}
-
-
-def ok(name):
-    counts["pass"] += 1
-    print("PASS " + name, flush=True)
-
-
-def fail(name, why):
-    counts["fail"] += 1
-    print("FAIL %s: %s" % (name, why), flush=True)
-
-
-def check(name, cond, why=""):
-    if cond:
-        ok(name)
-    else:
-        fail(name, why)
-    return cond
 
 
 TMP = tempfile.mkdtemp(prefix="sheaf-merge-")

@@ -37,6 +37,8 @@ import shutil
 import subprocess
 import sys
 import tempfile
+sys.path.insert(0, os.path.join(os.path.dirname(os.path.abspath(__file__)), ".."))
+from refcheck import check, counts, fail, ok, skip  # noqa: E402  (shared PASS/FAIL lines)
 
 import numpy as np
 import pandas as pd
@@ -59,30 +61,6 @@ NUMBER = re.compile(r"^[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?$")
 
 STAT_REL = 1e-9
 P_REL, P_ABS = 1e-6, 1e-300
-
-counts = {"pass": 0, "fail": 0}
-
-
-def ok(name):
-    counts["pass"] += 1
-    print("PASS " + name, flush=True)
-
-
-def fail(name, why):
-    counts["fail"] += 1
-    print("FAIL %s: %s" % (name, why), flush=True)
-
-
-def skip(name, why):
-    print("SKIP %s: %s" % (name, why), flush=True)
-
-
-def check(name, cond, why=""):
-    if cond:
-        ok(name)
-    else:
-        fail(name, why)
-    return cond
 
 
 def close(got, want, rel, absolute=0.0):
