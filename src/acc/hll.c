@@ -67,6 +67,15 @@ void hll_add(hll *h, uint64_t hash)
     if (rank > h->reg[j]) h->reg[j] = rank;
 }
 
+void hll_add_many(hll *h, const uint64_t *hash, size_t n)
+{
+    enum { PREFETCH = 8 };
+    for (size_t i = 0; i < n; i++) {
+        if (i + PREFETCH < n) __builtin_prefetch(&h->reg[hash[i + PREFETCH] >> (64 - HLL_PRECISION)]);
+        hll_add(h, hash[i]);
+    }
+}
+
 void hll_merge(hll *into, const hll *from)
 {
     for (uint32_t j = 0; j < HLL_REGISTERS; j++)

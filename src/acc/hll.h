@@ -12,6 +12,7 @@
 #ifndef SHEAF_HLL_H
 #define SHEAF_HLL_H
 
+#include <stddef.h>
 #include <stdint.h>
 
 #include "acc/wire.h"
@@ -25,6 +26,8 @@ typedef struct {
 
 void hll_init(hll *h);
 void hll_add(hll *h, uint64_t hash);
+/* hll_add of each of n hashes, with prefetching. */
+void hll_add_many(hll *h, const uint64_t *hash, size_t n);
 void hll_merge(hll *into, const hll *from);
 double hll_estimate(const hll *h);
 /* Compact serialization (sparse when few registers are set). */

@@ -233,6 +233,39 @@ int values_add(values *v, uint64_t hash, const char *text, size_t len)
     return add_new(v, hash, text, len);
 }
 
+long values_add_many(values *v, const uint64_t *hash, const char *const *text,
+                     const uint32_t *len, size_t n, int stop_at_overflow)
+{
+    enum { PREFETCH = 8 };
+    uint64_t hits = 0;
+    size_t i = 0;
+    while (i < n) {
+        uint64_t h = hash[i];
+        if (v->bits) {
+            if (i + PREFETCH < n) __builtin_prefetch(&v->slots[home_slot(hash[i + PREFETCH], v->bits)]);
+            slot *s = &v->slots[find_slot(v, h)];
+            if (s->count) {
+                s->count++;
+                hits++;
+                i++;
+                continue;
+            }
+        }
+        i++;
+        if (v->levels >= v->max_levels && v->overflowed) { /* full: the common miss */
+            v->overflow[h % VALUES_OVERFLOW_SLOTS]++;
+            v->overflow_total++;
+            hits++;
+            continue;
+        }
+        int was = v->overflowed;
+        if (add_new(v, h, text[i - 1], len[i - 1]) != 0) { v->total += hits; return -1; }
+        if (stop_at_overflow && !was && v->overflowed) break;
+    }
+    v->total += hits;
+    return (long)i;
+}
+
 static int order_cmp(const void *a, const void *b)
 {
     uint64_t x = ((const order_ref *)a)->hash, y = ((const order_ref *)b)->hash;

@@ -41,6 +41,11 @@ void values_reset(values *v);
 /* Counts one occurrence; text is copied (truncated) when the entry is new.
  * Returns 0, or -1 when memory runs out. */
 int values_add(values *v, uint64_t hash, const char *text, size_t len);
+/* values_add of hash[i], text[i], len[i] for i < n, with prefetching.  With
+ * stop_at_overflow, stops just after the cell that first overflows the
+ * table.  Returns the cells counted, or -1 when memory runs out. */
+long values_add_many(values *v, const uint64_t *hash, const char *const *text,
+                     const uint32_t *len, size_t n, int stop_at_overflow);
 int values_merge(values *into, const values *from);
 /* Hints that `hash` will be added soon (issues a cache prefetch). */
 void values_prefetch(const values *v, uint64_t hash);

@@ -109,17 +109,19 @@ static int flush_lane(scanner *sc, summary_column *c, lane *l)
     /* The sketch only matters once the exact table overflows: until then it
      * stays empty and the table's keys stand in for it (summary.h). */
     int sketching = values_overflowed(c->vals);
-    for (size_t i = 0; i < l->ncells; i++) {
-        if (i + 8 < l->ncells) {
-            values_prefetch(c->vals, l->hash[i + 8]);
-            if (sketching) __builtin_prefetch(&c->distinct->reg[l->hash[i + 8] >> (64 - HLL_PRECISION)]);
-        }
-        if (values_add(c->vals, l->hash[i], l->text[i], l->len[i]) != 0) return -1;
-        if (!sketching && values_overflowed(c->vals)) {
+    for (size_t i = 0; i < l->ncells;) {
+        long k = values_add_many(c->vals, l->hash + i, l->text + i, l->len + i, l->ncells - i,
+                                 !sketching);
+        if (k < 0) return -1;
+        if (sketching) {
+            hll_add_many(c->distinct, l->hash + i, (size_t)k);
+        } else if (values_overflowed(c->vals)) {
+            /* The cell that overflowed the table starts the sketch. */
             summary_column_fold_keys(c->distinct, c->vals);
             sketching = 1;
+            hll_add(c->distinct, l->hash[i + (size_t)k - 1]);
         }
-        if (sketching) hll_add(c->distinct, l->hash[i]);
+        i += (size_t)k;
     }
     /* A per-value table only serves a categorical column whose value table
      * stayed exact; once the running value table overflowed it never will. */
