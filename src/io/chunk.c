@@ -28,7 +28,8 @@ chunker *chunker_create(size_t chunk_bytes, size_t max_record_bytes)
     c->chunk_bytes = chunk_bytes < 64 ? 64 : chunk_bytes;
     c->max_record = max_record_bytes;
     c->cap = c->chunk_bytes * 2;
-    c->buf = malloc(c->cap + 1);
+    c->buf = malloc(c->cap + 1 + CHUNK_PADDING);
+    if (c->buf) memset(c->buf, 0, c->cap + 1 + CHUNK_PADDING);
     if (!c->buf) { free(c); return NULL; }
     return c;
 }
@@ -77,9 +78,10 @@ static ssize_t fill(chunker *c, char *err, size_t errlen)
         size_t cap = c->cap * 2;
         if (cap > c->max_record + c->chunk_bytes) cap = c->max_record + c->chunk_bytes;
         if (cap <= c->cap) return 0;
-        char *p = realloc(c->buf, cap + 1);
+        char *p = realloc(c->buf, cap + 1 + CHUNK_PADDING);
         if (!p) { snprintf(err, errlen, "%s: out of memory", source_path(c->src)); return -1; }
         c->buf = p;
+        memset(c->buf + c->cap, 0, cap - c->cap + 1 + CHUNK_PADDING);
         c->cap = cap;
     }
     ssize_t n = source_read(c->src, c->buf + c->len, c->cap - c->len);

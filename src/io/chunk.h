@@ -19,6 +19,10 @@
 
 #include "io/source.h"
 
+/* Bytes after the end of every chunk that may be read (never written): the
+ * tokenizer loads whole 64-byte blocks.  Their content is unspecified. */
+#define CHUNK_PADDING 64
+
 typedef struct {
     char *data;      /* chunk bytes, writable (the tokenizer unquotes in place) */
     size_t len;      /* bytes in the chunk */

@@ -4,6 +4,9 @@
 #include "io/csv.h"
 
 #include <string.h>
+#if defined(__SSE2__)
+#include <emmintrin.h>
+#endif
 
 /* The first byte at or after p that is the delimiter or '\n', or end.  Eight
  * bytes at a time: a byte b of word w equals c exactly when byte b of
@@ -34,6 +37,68 @@ void csv_reader_init(csv_reader *r, char *data, size_t len, char delim)
     r->lines = 0;
     r->record_line = 0;
     r->record_start = data;
+    r->padded = 0;
+    r->mask_base = NULL;
+    r->mask_bits = 0;
+}
+
+void csv_reader_init_padded(csv_reader *r, char *data, size_t len, char delim)
+{
+    csv_reader_init(r, data, len, delim);
+    r->padded = 1;
+}
+
+/* Bit i set: byte b[i] is the delimiter, '\n' or '"' (i < 64). */
+static inline uint64_t block_mask(const char *b, char delim)
+{
+#if defined(__SSE2__)
+    const __m128i d = _mm_set1_epi8(delim), nl = _mm_set1_epi8('\n'), q = _mm_set1_epi8('"');
+    uint64_t m = 0;
+    for (int k = 0; k < 4; k++) {
+        __m128i v = _mm_loadu_si128((const __m128i *)(const void *)(b + 16 * k));
+        __m128i hit = _mm_or_si128(_mm_or_si128(_mm_cmpeq_epi8(v, d), _mm_cmpeq_epi8(v, nl)),
+                                   _mm_cmpeq_epi8(v, q));
+        m |= (uint64_t)(uint16_t)_mm_movemask_epi8(hit) << (16 * k);
+    }
+    return m;
+#else
+    /* Eight bytes at a time: a byte of v is zero exactly when the high bit
+     * of ((v & 0x7f..) + 0x7f..) | v is clear; the flags are then packed
+     * into eight bits by a multiply. */
+    const uint64_t ones = 0x0101010101010101ull, low7 = 0x7F7F7F7F7F7F7F7Full;
+    const uint64_t cd = ones * (unsigned char)delim, cn = ones * '\n', cq = ones * '"';
+    uint64_t m = 0;
+    for (int k = 0; k < 8; k++) {
+        uint64_t w;
+        memcpy(&w, b + 8 * k, 8);
+        uint64_t hit = 0;
+        const uint64_t c[3] = {w ^ cd, w ^ cn, w ^ cq};
+        for (int j = 0; j < 3; j++) hit |= ~(((c[j] & low7) + low7) | c[j]) & ~low7;
+        m |= (((hit >> 7) * 0x0102040810204080ull) >> 56) << (8 * k);
+    }
+    return m;
+#endif
+}
+
+/* The first delimiter, newline or quote at or after p, or end (padded
+ * reader).  The block mask is cached: consecutive fields of a record reuse
+ * it, and a position outside the cached block loads a new one. */
+static inline char *next_mark(csv_reader *r, char *p)
+{
+    for (;;) {
+        size_t off = (size_t)(p - r->mask_base);
+        if (off >= 64) {
+            if (p >= r->end) return r->end;
+            size_t left = (size_t)(r->end - p);
+            r->mask_base = p;
+            r->mask_bits = block_mask(p, r->delim) & (left >= 64 ? ~0ull : (1ull << left) - 1);
+            off = 0;
+        }
+        uint64_t m = r->mask_bits >> off;
+        if (m) return p + __builtin_ctzll(m);
+        p = (char *)r->mask_base + 64;
+        if (p >= r->end) return r->end;
+    }
 }
 
 /* Parses a quoted field starting at p (just after the opening quote).
@@ -84,8 +149,60 @@ static char *record_begin(csv_reader *r)
     return p;
 }
 
+/* csv_next for a padded reader: the same record, with field ends found
+ * through the block mask. */
+static csv_status next_padded(csv_reader *r, csv_field *fields, size_t max_fields,
+                              size_t *nfields)
+{
+    char *p = record_begin(r), *end = r->end;
+    const char delim = r->delim;
+    if (!p) return CSV_END;
+    size_t n = 0;
+    for (;;) {
+        char *s;
+        if (*p == '"' && p < end) {
+            uint32_t flen;
+            s = quoted(r, p + 1, end, delim, &flen);
+            if (!s) { r->pos = end; return CSV_UNTERMINATED; }
+            if (n < max_fields) {
+                fields[n].ptr = p + 1;
+                fields[n].len = flen;
+            }
+        } else {
+            s = next_mark(r, p);
+            if (s < end && *s == delim) { /* the common case */
+                if (n < max_fields) {
+                    fields[n].ptr = p;
+                    fields[n].len = (uint32_t)(s - p);
+                }
+                n++;
+                p = s + 1;
+                continue;
+            }
+            while (s < end && *s == '"') s = next_mark(r, s + 1); /* a quote inside: data */
+            uint32_t flen = (uint32_t)(s - p);
+            if (flen && p[flen - 1] == '\r' && (s == end || *s == '\n')) flen--;
+            if (n < max_fields) {
+                fields[n].ptr = p;
+                fields[n].len = flen;
+            }
+        }
+        n++;
+        if (s >= end) { p = end; break; }
+        if (*s == delim) { p = s + 1; continue; }
+        if (*s == '\r') s++; /* "\r\n" after a closing quote */
+        if (s < end) { s++; r->lines++; }
+        p = s;
+        break;
+    }
+    r->pos = p;
+    *nfields = n;
+    return CSV_RECORD;
+}
+
 csv_status csv_next(csv_reader *r, csv_field *fields, size_t max_fields, size_t *nfields)
 {
+    if (r->padded) return next_padded(r, fields, max_fields, nfields);
     char *p = record_begin(r), *end = r->end;
     const char delim = r->delim;
     if (!p) return CSV_END;

@@ -21,6 +21,8 @@
 #include "io/number.h"
 #include "io/source.h"
 
+_Static_assert(CHUNK_PADDING >= CSV_READ_AHEAD, "chunks must be readable past their end");
+
 void scan_options_defaults(scan_options *o)
 {
     memset(o, 0, sizeof *o);
@@ -526,7 +528,7 @@ static scan_status process_chunk(scanner *sc, const char *path, chunk *ch, int *
         if (!sc->delim) sc->delim = sc->o->delim ? sc->o->delim : csv_detect_delimiter(data, len);
     }
     csv_reader r;
-    csv_reader_init(&r, data, len, sc->delim);
+    csv_reader_init_padded(&r, data, len, sc->delim);
     size_t maxf = sc->file_fields ? sc->file_fields + 1 : 0;
     size_t used = ch->len; /* bytes of this chunk that belong to this scan */
     for (;;) {
