@@ -389,3 +389,67 @@ Test(number, difference_falls_back_when_not_exact)
     cr_assert_eq(number_difference(&a, &b, &exact), 0.0);
     cr_assert_eq(exact, 0);
 }
+
+Test(number, fast_and_general_paths_give_the_same_decimal)
+{
+    /* A leading space sends a cell past the fast path (parse_plain) to the
+     * general one; both must report the same value, mantissa, power, sign
+     * and exactness.  Short random cells with and without exponents. */
+    uint64_t state = UINT64_C(0x9e3779b97f4a7c15);
+    char buf[64];
+    for (int i = 0; i < 300000; i++) {
+        uint64_t r = xorshift64(&state);
+        int ndigits = 1 + (int)(r % 21);
+        int point = (int)((r >> 8) % (uint64_t)(ndigits + 2)) - 1;
+        char *p = buf + 1;
+        buf[0] = ' ';
+        if ((r >> 42) & 1) *p++ = '-';
+        for (int j = 0; j < ndigits; j++) {
+            if (j == point) *p++ = '.';
+            *p++ = (char)('0' + xorshift64(&state) % ((r >> 50) & 1 ? 10 : 2));
+        }
+        if (point == ndigits) *p++ = '.';
+        if ((r >> 40) % 3 == 0)
+            p += sprintf(p, "%s%d", (r >> 43) & 1 ? "e" : "E+", (int)((r >> 20) % 60) - 30);
+        size_t len = (size_t)(p - buf);
+        number_decimal fast, general;
+        memset(&fast, 0, sizeof fast);
+        memset(&general, 0, sizeof general);
+        number_kind kf = number_parse(buf + 1, len - 1, &fast);
+        number_kind kg = number_parse(buf, len, &general);
+        cr_assert_eq(kf, kg, "\"%s\"", buf + 1);
+        if (kf != NUMBER_FINITE) continue;
+        cr_assert_eq(bits_of(fast.value), bits_of(general.value), "\"%s\"", buf + 1);
+        cr_assert(fast.mantissa == general.mantissa && fast.exp10 == general.exp10 &&
+                      fast.negative == general.negative && fast.exact == general.exact,
+                  "\"%s\": fast %llu e%d, general %llu e%d", buf + 1,
+                  (unsigned long long)fast.mantissa, fast.exp10,
+                  (unsigned long long)general.mantissa, general.exp10);
+    }
+}
+
+Test(number, inline_difference_equals_the_general_one)
+{
+    /* number_difference_fast must return the same bits as
+     * number_difference: random pairs written with the same number of
+     * decimals (its inline case) and with different ones (the fallback). */
+    uint64_t state = UINT64_C(0xd1b54a32d192ed03);
+    char a_text[40], b_text[40];
+    for (int i = 0; i < 300000; i++) {
+        uint64_t r = xorshift64(&state);
+        int decimals_a = (int)(r % 8), decimals_b = (r >> 3) & 1 ? decimals_a : (int)((r >> 4) % 8);
+        static const uint64_t limit[4] = {UINT64_C(1000), UINT64_C(10000000000),
+                                          UINT64_C(4503599627370496), /* 2^52 */
+                                          UINT64_C(100000000000000000)};
+        uint64_t ma = xorshift64(&state) % limit[(r >> 11) % 4];
+        uint64_t mb = xorshift64(&state) % limit[(r >> 13) % 4];
+        snprintf(a_text, sizeof a_text, "%s%llu", (r >> 9) & 1 ? "-" : "", (unsigned long long)ma);
+        snprintf(b_text, sizeof b_text, "%s%llu", (r >> 10) & 1 ? "-" : "", (unsigned long long)mb);
+        number_decimal a = decimal(a_text), b = decimal(b_text);
+        a.exp10 -= decimals_a; /* same digits, decimals_a of them after the point */
+        b.exp10 -= decimals_b;
+        double want = number_difference(&a, &b, NULL), got = number_difference_fast(&a, &b);
+        cr_assert_eq(bits_of(got), bits_of(want), "%s e-%d - %s e-%d", a_text, decimals_a, b_text,
+                     decimals_b);
+    }
+}

@@ -51,7 +51,7 @@
 
 __extension__ typedef __int128 number_wide;
 
-static const double pow10_double[23] = {
+const double number_pow10[23] = {
     1e0,  1e1,  1e2,  1e3,  1e4,  1e5,  1e6,  1e7,  1e8,  1e9,  1e10, 1e11,
     1e12, 1e13, 1e14, 1e15, 1e16, 1e17, 1e18, 1e19, 1e20, 1e21, 1e22,
 };
@@ -93,11 +93,11 @@ static inline int fast_path(uint64_t m, int64_t e, double *v)
             m *= pow10_u64[k];
             e = 22;
         }
-        *v = (double)m * pow10_double[e];
+        *v = (double)m * number_pow10[e];
         return 1;
     }
     if (e < -22) return 0;
-    *v = (double)m / pow10_double[-e];
+    *v = (double)m / number_pow10[-e];
     return 1;
 #else
     (void)m, (void)e, (void)v;
@@ -204,29 +204,58 @@ static int equal_fold(const unsigned char *p, size_t n, const char *lower)
     return i == n && lower[i] == '\0';
 }
 
-/* The common cell, "[-]digits[.digits]" with at most 19 digits, in one
- * loop; -1 sends anything else to the general parser below.  It yields the
- * same mantissa and power as the general path. */
-static int parse_plain(const unsigned char *p, const unsigned char *end, number_decimal *out)
+/* The common cell, "[-]digits[.digits][e[+-]digits]" with at most 19 digits
+ * and at most 4 exponent digits; -1 sends anything else to the general
+ * parser below.  It yields the same mantissa and power as the general path
+ * (leading zeros add nothing to the mantissa). */
+/* Adds the digits at *pp to *m (m = m * 10 + digit each); stops at the
+ * first non-digit.  (Eight-at-a-time SWAR conversion was tried: most cells
+ * are shorter than eight digits and it cost more than it saved.) */
+static inline void take_digits(const unsigned char **pp, const unsigned char *end, uint64_t *m)
+{
+    const unsigned char *p = *pp;
+    uint64_t v = *m;
+    unsigned d;
+    while (p < end && (d = (unsigned)*p - '0') < 10) {
+        v = v * 10 + d;
+        p++;
+    }
+    *pp = p;
+    *m = v;
+}
+
+static inline int parse_plain(const unsigned char *p, const unsigned char *end,
+                              number_decimal *out)
 {
     int negative = *p == '-';
     p += negative;
+    const unsigned char *start = p;
     uint64_t m = 0;
-    int digits = 0;
-    const unsigned char *dot = NULL;
-    for (; p < end; p++) {
-        unsigned d = (unsigned)*p - '0';
-        if (d < 10) {
-            m = m * 10 + d;
-            digits++;
-        } else if (*p == '.' && !dot) {
-            dot = p;
-        } else {
-            return -1;
-        }
+    unsigned d;
+    take_digits(&p, end, &m);
+    size_t digits = (size_t)(p - start);
+    int64_t e = 0;
+    if (p < end && *p == '.') {
+        const unsigned char *f = ++p;
+        take_digits(&p, end, &m);
+        e = -(int64_t)(p - f);
+        digits += (size_t)(p - f);
     }
     if (digits == 0 || digits > 19) return -1;
-    int64_t e = dot ? -(int64_t)(end - dot - 1) : 0;
+    if (p < end) {
+        if ((*p | 0x20) != 'e') return -1;
+        p++;
+        int exponent_negative = 0;
+        if (p < end && (*p == '-' || *p == '+')) exponent_negative = *p++ == '-';
+        const unsigned char *x = p;
+        int64_t exponent = 0;
+        while (p < end && p - x < 4 && (d = (unsigned)*p - '0') < 10) {
+            exponent = exponent * 10 + d;
+            p++;
+        }
+        if (p != end || p == x) return -1;
+        e += exponent_negative ? -exponent : exponent;
+    }
     double v;
     if (m == 0) {
         e = 0;
@@ -242,13 +271,27 @@ static int parse_plain(const unsigned char *p, const unsigned char *end, number_
     return NUMBER_FINITE;
 }
 
+static number_kind parse_general(const unsigned char *p, const unsigned char *end,
+                                 number_decimal *out) __attribute__((noinline));
+
 number_kind number_parse(const char *s, size_t len, number_decimal *out)
 {
     const unsigned char *p = (const unsigned char *)s, *end = p + len;
-    if (len && len <= 21) {
+    if (len && len <= 32) {
         int k = parse_plain(p, end, out);
         if (k >= 0) return (number_kind)k;
+        /* A letter other than the first of inf or nan starts text. */
+        unsigned c = *p | 0x20u;
+        if (c >= 'a' && c <= 'z' && c != 'i' && c != 'n') return NUMBER_TEXT;
     }
+    return parse_general(p, end, out);
+}
+
+/* Everything parse_plain leaves: spaces, '+', more than 19 digits, long
+ * exponents, inf/nan, text. */
+static number_kind parse_general(const unsigned char *p, const unsigned char *end,
+                                 number_decimal *out)
+{
     while (p < end && *p == ' ') p++;
     while (end > p && end[-1] == ' ') end--;
 

@@ -49,4 +49,24 @@ double number_to_double(uint64_t mantissa, int32_t exp10, int negative);
  * set to 1 when the integer path was taken. */
 double number_difference(const number_decimal *a, const number_decimal *b, int *exact_out);
 
+/* 10^0 .. 10^22, each exactly a double. */
+extern const double number_pow10[23];
+
+/* number_difference(a, b, NULL), with its most common case inline: equal
+ * powers of ten |e| <= 22 and mantissas below 2^53, where the integer
+ * difference d is exact in a double and d * 10^e (or d / 10^-e) is one
+ * correctly rounded operation, the same one number_difference performs. */
+static inline double number_difference_fast(const number_decimal *a, const number_decimal *b)
+{
+    int32_t e = a->exp10;
+    if (e == b->exp10 && (a->exact & b->exact) && e >= -22 && e <= 22 &&
+        ((a->mantissa | b->mantissa) >> 52) == 0) {
+        int64_t x = a->negative ? -(int64_t)a->mantissa : (int64_t)a->mantissa;
+        int64_t y = b->negative ? -(int64_t)b->mantissa : (int64_t)b->mantissa;
+        double d = (double)(x - y); /* |x - y| < 2^53: exact */
+        return e >= 0 ? d * number_pow10[e] : d / number_pow10[-e];
+    }
+    return number_difference(a, b, NULL);
+}
+
 #endif

@@ -239,7 +239,7 @@ static void cell(scanner *sc, size_t j, const char *p, uint32_t len)
     switch (number_parse(p, len, &d)) {
     case NUMBER_FINITE:
         if (!c->mom.has_ref) moments_set_ref(&c->mom, &d);
-        l->dev[l->nnum] = number_difference(&d, &c->mom.ref, NULL);
+        l->dev[l->nnum] = number_difference_fast(&d, &c->mom.ref);
         l->val[l->nnum] = d.value;
         l->num_row[l->nnum++] = (uint16_t)sc->block_rows;
         break;
