@@ -536,3 +536,60 @@ Test(values, malformed_input_rejected_without_crash)
     expect_rejected(&w, "fewer entries claimed than present");
     wire_writer_free(&w);
 }
+
+/* Writes v canonically into a fresh buffer; returns its length. */
+static size_t serialized(const values *v, unsigned char **out)
+{
+    wire_writer w;
+    wire_writer_init(&w);
+    values_write(v, &w);
+    cr_assert(!w.failed);
+    *out = w.data;
+    return w.len;
+}
+
+Test(values, batched_adds_equal_single_adds_through_overflow)
+{
+    /* values_add_many (with its filter for full tables, and stopping at the
+     * first overflow) must build the same table as values_add cell by
+     * cell: a skewed stream where early keys recur and most later ones are
+     * new, fed in uneven batches, then reset and fed again. */
+    values *one = values_create(64, 16), *many = values_create(64, 16);
+    cr_assert(one && many);
+    for (int round = 0; round < 2; round++) {
+        enum { N = 20000 };
+        static uint64_t hash[N];
+        static const char *text[N];
+        static uint32_t len[N];
+        static char words[N][16];
+        uint64_t x = 0x9E3779B97F4A7C15ull + (uint64_t)round;
+        for (int i = 0; i < N; i++) {
+            x ^= x << 13; x ^= x >> 7; x ^= x << 17;
+            unsigned k = x % 4 == 0 ? (unsigned)(x >> 8) % 40 : (unsigned)(x >> 8) % 100000;
+            snprintf(words[i], sizeof words[i], "w%u", k);
+            text[i] = words[i];
+            len[i] = (uint32_t)strlen(words[i]);
+            hash[i] = hash_text(words[i]);
+            cr_assert_eq(values_add(one, hash[i], text[i], len[i]), 0);
+        }
+        int stopped = 0;
+        for (size_t i = 0, step = 1; i < N; step = step * 3 % 1000 + 1) {
+            size_t m = N - i < step ? N - i : step;
+            long k = values_add_many(many, hash + i, text + i, len + i, m, !stopped);
+            cr_assert_gt(k, 0);
+            if (values_overflowed(many)) stopped = 1;
+            i += (size_t)k;
+        }
+        cr_assert(values_overflowed(one) && values_overflowed(many));
+        unsigned char *a, *b;
+        size_t na = serialized(one, &a), nb = serialized(many, &b);
+        cr_assert_eq(na, nb);
+        cr_assert_eq(memcmp(a, b, na), 0, "round %d: tables differ", round);
+        free(a);
+        free(b);
+        values_reset(one);
+        values_reset(many);
+    }
+    values_free(one);
+    values_free(many);
+}

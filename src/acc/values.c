@@ -72,6 +72,9 @@ struct values {
     uint64_t total;       /* all counted cells */
     uint64_t overflow_total;                   /* cells in overflow slots */
     uint64_t overflow[VALUES_OVERFLOW_SLOTS];  /* hashed overflow counters */
+    uint64_t *filter;     /* membership filter of a full table, or NULL */
+    uint32_t filter_words; /* 64-bit words of filter (power of two) */
+    int filter_valid;     /* filter holds exactly the current keys */
 };
 
 static inline uint32_t home_slot(uint64_t hash, uint32_t bits)
@@ -160,6 +163,7 @@ static void insert_at(values *v, uint32_t i, uint64_t hash, uint64_t count,
     v->arena_len += len;
     v->levels++;
     v->order_valid = 0;
+    v->filter_valid = 0;
 }
 
 static void add_overflow(values *v, uint64_t hash, uint64_t count)
@@ -185,6 +189,7 @@ void values_free(values *v)
     free(v->labels);
     free(v->arena);
     free(v->order);
+    free(v->filter);
     free(v);
 }
 
@@ -194,6 +199,7 @@ void values_reset(values *v)
     v->levels = 0;
     v->arena_len = 0;
     v->order_valid = 0;
+    v->filter_valid = 0;
     v->overflowed = 0;
     v->total = 0;
     v->overflow_total = 0;
@@ -233,12 +239,67 @@ int values_add(values *v, uint64_t hash, const char *text, size_t len)
     return add_new(v, hash, text, len);
 }
 
+/* The filter bits of a hash: two bits of one word (a blocked Bloom filter,
+ * Putze, Sanders & Singler 2007), from hash bits the home slot barely
+ * depends on. */
+static inline uint64_t filter_bits(uint64_t hash)
+{
+    return (UINT64_C(1) << (hash & 63)) | (UINT64_C(1) << ((hash >> 6) & 63));
+}
+
+static inline uint32_t filter_word(const values *v, uint64_t hash)
+{
+    return (uint32_t)(hash >> 12) & (v->filter_words - 1);
+}
+
+/* Builds the membership filter of a full table: 16 bits per key, so that
+ * with two bits per key about 1.4% of absent keys still probe the table.
+ * Returns 0 or -1 (out of memory: the caller simply probes). */
+static int build_filter(values *v)
+{
+    uint32_t words = 1;
+    while ((uint64_t)words * 64 < (uint64_t)v->levels * 16 && words < (UINT32_C(1) << 26)) words *= 2;
+    if (words != v->filter_words) {
+        uint64_t *f = realloc(v->filter, (size_t)words * sizeof *f);
+        if (!f) return -1;
+        v->filter = f;
+        v->filter_words = words;
+    }
+    memset(v->filter, 0, (size_t)words * sizeof *v->filter);
+    uint32_t n = slot_count(v);
+    for (uint32_t i = 0; i < n; i++)
+        if (v->slots[i].count) v->filter[filter_word(v, v->slots[i].hash)] |= filter_bits(v->slots[i].hash);
+    v->filter_valid = 1;
+    return 0;
+}
+
 long values_add_many(values *v, const uint64_t *hash, const char *const *text,
                      const uint32_t *len, size_t n, int stop_at_overflow)
 {
     enum { PREFETCH = 8 };
     uint64_t hits = 0;
     size_t i = 0;
+    /* A full table takes no new keys, and in a high-cardinality column most
+     * cells are new: a filter answers those without probing. */
+    if (v->levels >= v->max_levels && v->overflowed && v->bits &&
+        (v->filter_valid || build_filter(v) == 0)) {
+        for (; i < n; i++) {
+            uint64_t h = hash[i];
+            if (i + PREFETCH < n) __builtin_prefetch(&v->filter[filter_word(v, hash[i + PREFETCH])]);
+            uint64_t b = filter_bits(h);
+            if ((v->filter[filter_word(v, h)] & b) == b) {
+                slot *s = &v->slots[find_slot(v, h)];
+                if (s->count) {
+                    s->count++;
+                    continue;
+                }
+            }
+            v->overflow[h % VALUES_OVERFLOW_SLOTS]++;
+            v->overflow_total++;
+        }
+        v->total += n;
+        return (long)n;
+    }
     while (i < n) {
         uint64_t h = hash[i];
         if (v->bits) {
