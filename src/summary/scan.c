@@ -142,14 +142,24 @@ static int flush_lane(scanner *sc, summary_column *c, lane *l)
     l->ncells = 0;
     if (l->nnum) {
         moments_add_block(&c->mom, l->dev, l->nnum);
+        double lo = c->mom.min, hi = c->mom.max;
+        uint64_t zeros = 0, integers = 0;
         for (size_t i = 0; i < l->nnum; i++) {
             double x = l->val[i];
-            moments_see(&c->mom, x);
-            c->zeros += x == 0;
-            /* Integer-valued: every double of magnitude 2^53 or more is. */
-            c->integers += fabs(x) >= 9007199254740992.0 || x == (double)(int64_t)x;
-            sc->cells_tmp[i] = sc->row_cell[l->num_row[i]];
+            lo = x < lo ? x : lo;
+            hi = x > hi ? x : hi;
+            zeros += x == 0;
+            /* Integer-valued, without branches: every double of magnitude
+             * 2^53 or more is, and those are tested as 0. */
+            double a = fabs(x), t = a < 9007199254740992.0 ? a : 0.0;
+            integers += (double)(int64_t)t == t;
         }
+        c->mom.min = lo;
+        c->mom.max = hi;
+        c->zeros += zeros;
+        c->integers += integers;
+        if (sc->o->opt.target)
+            for (size_t i = 0; i < l->nnum; i++) sc->cells_tmp[i] = sc->row_cell[l->num_row[i]];
         if (buckets_add_many(c->bins, l->val, sc->o->opt.target ? sc->cells_tmp : NULL, l->nnum) != 0)
             return -1;
         if (c->cls)
