@@ -46,6 +46,13 @@ typedef struct {
     double *dev;         /* deviation of each number from the reference */
     double *val;         /* each number */
     uint16_t *num_row;   /* row in the block of each number */
+    /* The column's reference decimal, unpacked for the inline deviation
+     * (valid once the column's moments have their reference). */
+    int ref_fast;        /* exact, mantissa < 2^52, |exp10| <= 22 */
+    int ref_divide;      /* exp10 < 0: deviations are divided by ref_scale */
+    int32_t ref_exp;     /* exp10 */
+    int64_t ref_signed;  /* signed mantissa */
+    double ref_scale;    /* 10^|exp10| */
 } lane;
 
 typedef struct {
@@ -234,25 +241,52 @@ static void keep_example(summary_column *c, const char *p, uint32_t len)
     c->n_examples++;
 }
 
+static void lane_set_ref(lane *l, const number_decimal *r)
+{
+    l->ref_fast = r->exact && r->exp10 >= -22 && r->exp10 <= 22 && (r->mantissa >> 52) == 0;
+    l->ref_divide = r->exp10 < 0;
+    l->ref_exp = r->exp10;
+    l->ref_signed = r->negative ? -(int64_t)r->mantissa : (int64_t)r->mantissa;
+    l->ref_scale = l->ref_fast ? number_pow10[r->exp10 < 0 ? -r->exp10 : r->exp10] : 1.0;
+}
+
 static void cell(scanner *sc, size_t j, const char *p, uint32_t len)
 {
     summary_column *c = &sc->work->cols[j];
     if (is_missing(sc, p, len)) { c->missing++; return; }
     lane *l = &sc->lanes[j];
-    size_t k = l->ncells++;
+    size_t k = l->ncells;
+    uint16_t row = (uint16_t)sc->block_rows;
     l->hash[k] = XXH3_64bits(p, len);
     l->text[k] = p;
     l->len[k] = len;
-    l->cell_row[k] = (uint16_t)sc->block_rows;
+    l->cell_row[k] = row;
+    l->ncells = k + 1;
     if (c->mode == COLUMN_CATEGORICAL) { c->non_numeric++; return; }
     number_decimal d;
     switch (number_parse(p, len, &d)) {
-    case NUMBER_FINITE:
-        if (!c->mom.has_ref) moments_set_ref(&c->mom, &d);
-        l->dev[l->nnum] = number_difference_fast(&d, &c->mom.ref);
-        l->val[l->nnum] = d.value;
-        l->num_row[l->nnum++] = (uint16_t)sc->block_rows;
+    case NUMBER_FINITE: {
+        if (!c->mom.has_ref) {
+            moments_set_ref(&c->mom, &d);
+            lane_set_ref(l, &d);
+        }
+        /* number_difference's common case, with the reference unpacked:
+         * the same integer difference and the same single rounding. */
+        double dev;
+        if (d.exp10 == l->ref_exp && l->ref_fast && d.exact && (d.mantissa >> 52) == 0) {
+            int64_t x = d.negative ? -(int64_t)d.mantissa : (int64_t)d.mantissa;
+            double diff = (double)(x - l->ref_signed);
+            dev = l->ref_divide ? diff / l->ref_scale : diff * l->ref_scale;
+        } else {
+            dev = number_difference(&d, &c->mom.ref, NULL);
+        }
+        size_t n = l->nnum;
+        l->dev[n] = dev;
+        l->val[n] = d.value;
+        l->num_row[n] = row;
+        l->nnum = n + 1;
         break;
+    }
     case NUMBER_NONFINITE: c->non_finite++; break;
     default:
         c->non_numeric++;
@@ -620,8 +654,11 @@ static scan_status process_chunk(scanner *sc, const char *path, chunk *ch, int *
             if (summary_merge(sc->run, sc->work, sc->err, sc->errlen) != SUMMARY_OK)
                 return SCAN_ERR_MEMORY;
             summary_reset(sc->work);
-            for (size_t j = 0; j < sc->work->ncols; j++)
+            for (size_t j = 0; j < sc->work->ncols; j++) {
                 buckets_reset_level(sc->work->cols[j].bins, buckets_level(sc->run->cols[j].bins));
+                sc->lanes[j].ref_fast = 0; /* the reset moments take a new reference */
+                sc->lanes[j].ref_exp = INT32_MIN;
+            }
         }
     }
     return SCAN_OK;
