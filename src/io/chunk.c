@@ -8,6 +8,8 @@
 #include <string.h>
 #include <unistd.h>
 
+#define READ_STEP (1u << 20) /* bytes asked of the source per read */
+
 struct chunker {
     char *buf;            /* buffered decompressed bytes */
     size_t cap;           /* allocated bytes of buf */
@@ -29,7 +31,7 @@ chunker *chunker_create(size_t chunk_bytes, size_t max_record_bytes)
     c->max_record = max_record_bytes;
     c->cap = c->chunk_bytes * 2;
     c->buf = malloc(c->cap + 1 + CHUNK_PADDING);
-    if (c->buf) memset(c->buf, 0, c->cap + 1 + CHUNK_PADDING);
+    if (c->buf) memset(c->buf, 0, 1 + CHUNK_PADDING);
     if (!c->buf) { free(c); return NULL; }
     return c;
 }
@@ -81,13 +83,16 @@ static ssize_t fill(chunker *c, char *err, size_t errlen)
         char *p = realloc(c->buf, cap + 1 + CHUNK_PADDING);
         if (!p) { snprintf(err, errlen, "%s: out of memory", source_path(c->src)); return -1; }
         c->buf = p;
-        memset(c->buf + c->cap, 0, cap - c->cap + 1 + CHUNK_PADDING);
         c->cap = cap;
     }
-    ssize_t n = source_read(c->src, c->buf + c->len, c->cap - c->len);
+    /* At most READ_STEP per call, so that only about a chunk's worth of the
+     * buffer is ever touched. */
+    size_t room = c->cap - c->len;
+    ssize_t n = source_read(c->src, c->buf + c->len, room < READ_STEP ? room : READ_STEP);
     if (n < 0) { snprintf(err, errlen, "%s", source_error(c->src)); return -1; }
     if (n == 0) c->eof = 1;
     c->len += (size_t)n;
+    memset(c->buf + c->len, 0, CHUNK_PADDING); /* the tokenizer may read past the end */
     return n;
 }
 
