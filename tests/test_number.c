@@ -453,3 +453,44 @@ Test(number, inline_difference_equals_the_general_one)
                      decimals_b);
     }
 }
+
+Test(number, padded_parser_equals_number_parse)
+{
+    /* The parser for padded cells (SIMD where the CPU allows) must agree
+     * with number_parse in kind and every field, on cells of every shape:
+     * digits, points, exponents, signs, zeros, text, stray bytes, lengths
+     * 0 to 24, with junk (digits, points, 'e') in the bytes after the cell. */
+    number_parser parse = number_padded_parser();
+    static const char alphabet[] = "0123456789012345678900.-+eE x";
+    uint64_t state = UINT64_C(0x8f1bbcdcca62c1d6);
+    char buf[24 + NUMBER_READ_AHEAD + 1];
+    for (int i = 0; i < 1000000; i++) {
+        uint64_t r = xorshift64(&state);
+        size_t len = (size_t)(r % 25);
+        int shape = (int)((r >> 8) % 4);
+        for (size_t j = 0; j < sizeof buf; j++) {
+            uint64_t c = xorshift64(&state);
+            /* Mostly digits, a point and an exponent now and then. */
+            buf[j] = shape == 0 ? alphabet[c % (sizeof alphabet - 1)] : (char)('0' + c % 10);
+        }
+        if (shape >= 2 && len > 2) buf[(r >> 16) % len] = '.';
+        if (shape == 3 && len > 3) {
+            size_t at = len - 1 - (r >> 24) % 4;
+            buf[at] = (r >> 30) & 1 ? 'e' : 'E';
+            if (at + 2 < len && (r >> 31) & 1) buf[at + 1] = (r >> 32) & 1 ? '-' : '+';
+        }
+        if ((r >> 40) & 1 && len) buf[0] = '-';
+        number_decimal a, b;
+        memset(&a, 0, sizeof a);
+        memset(&b, 0, sizeof b);
+        number_kind ka = number_parse(buf, len, &a), kb = parse(buf, len, &b);
+        cr_assert_eq(ka, kb, "\"%.*s\": kind %d vs %d", (int)len, buf, (int)ka, (int)kb);
+        if (ka == NUMBER_TEXT) continue;
+        cr_assert_eq(bits_of(a.value), bits_of(b.value), "\"%.*s\"", (int)len, buf);
+        if (ka != NUMBER_FINITE) continue;
+        cr_assert(a.mantissa == b.mantissa && a.exp10 == b.exp10 && a.negative == b.negative &&
+                      a.exact == b.exact,
+                  "\"%.*s\": %llu e%d vs %llu e%d", (int)len, buf, (unsigned long long)a.mantissa,
+                  a.exp10, (unsigned long long)b.mantissa, b.exp10);
+    }
+}

@@ -21,7 +21,8 @@
 #include "io/number.h"
 #include "io/source.h"
 
-_Static_assert(CHUNK_PADDING >= CSV_READ_AHEAD, "chunks must be readable past their end");
+_Static_assert(CHUNK_PADDING >= CSV_READ_AHEAD && CHUNK_PADDING >= NUMBER_READ_AHEAD,
+               "chunks must be readable past their end");
 
 void scan_options_defaults(scan_options *o)
 {
@@ -86,6 +87,7 @@ typedef struct {
     double *como_mask;     /* ncomo x block, presence */
     double *como_center;   /* ncomo */
     unsigned char *como_complete; /* ncomo */
+    number_parser parse;   /* number_padded_parser(): cells sit in padded chunks */
     char *err;
     size_t errlen;
 } scanner;
@@ -264,7 +266,7 @@ static void cell(scanner *sc, size_t j, const char *p, uint32_t len)
     l->ncells = k + 1;
     if (c->mode == COLUMN_CATEGORICAL) { c->non_numeric++; return; }
     number_decimal d;
-    switch (number_parse(p, len, &d)) {
+    switch (sc->parse(p, len, &d)) {
     case NUMBER_FINITE: {
         if (!c->mom.has_ref) {
             moments_set_ref(&c->mom, &d);
@@ -782,6 +784,7 @@ scan_status scan_files(const scan_options *o, const char *const *paths, size_t n
     scanner sc;
     memset(&sc, 0, sizeof sc);
     sc.o = o;
+    sc.parse = number_padded_parser();
     sc.err = err;
     sc.errlen = errlen;
     for (uint32_t i = 0; i < o->opt.n_missing; i++) {
