@@ -527,42 +527,64 @@ int buckets_add(buckets *b, double x, uint32_t cell, uint64_t count)
 
 int buckets_add_many(buckets *b, const double *x, const uint32_t *cells, size_t n)
 {
-    /* Same as n calls of buckets_add(b, x[i], cells ? cells[i] : 0, 1).  The
-     * ids of a run of values are computed once, and the slot of each is
-     * requested PREFETCH values ahead: the table outgrows L1 for continuous
-     * columns.  Hits (the common case) are counted inline; a miss or a new
-     * entry goes through buckets_add, which may collapse the store and so
-     * change the level: the remaining ids of the run are then recomputed. */
+    /* Same as n calls of buckets_add(b, x[i], cells ? cells[i] : 0, 1).  For
+     * a run of values the ids and home slots are computed first, and the
+     * home slot of each is requested PREFETCH values ahead: the table
+     * outgrows L1 for continuous columns.  Hits (the common case) are
+     * counted with the table's state held in locals; a new entry goes
+     * through buckets_add, which may grow or collapse the table: the rest of
+     * the run is then recomputed. */
     enum { RUN = 64, PREFETCH = 8 };
     uint64_t ids[RUN];
+    uint32_t home[RUN];
     for (size_t base = 0; base < n;) {
         size_t m = n - base < RUN ? n - base : RUN;
         const double *xs = x + base;
         const uint32_t *cs = cells ? cells + base : NULL;
-        int level = b->level;
+        const int level = b->level;
+        const unsigned shift = b->shift;
+        uint64_t bad = 0;
         for (size_t i = 0; i < m; i++) {
             uint64_t u = double_bits(xs[i]);
-            if ((u & MAG_MASK) >= EXP_ALL_ONES) return -1;
+            bad |= (u & MAG_MASK) >= EXP_ALL_ONES;
             ids[i] = make_id(key_of_bits(u, level), cs ? cs[i] : 0);
+            home[i] = (uint32_t)((ids[i] * FIB_MULT) >> shift);
         }
-        size_t i = 0;
-        for (; i < m && b->level == level; i++) {
-            if (i + PREFETCH < m)
-                __builtin_prefetch(&b->slots[(size_t)((ids[i + PREFETCH] * FIB_MULT) >> b->shift)]);
+        if (bad) return -1;
+        slot *slots = b->slots;
+        const size_t mask = b->cap - 1;
+        uint64_t last_id = b->last_id, added = 0;
+        size_t last_pos = b->last_pos, i = 0;
+        while (i < m) {
+            if (i + PREFETCH < m) __builtin_prefetch(&slots[home[i + PREFETCH]]);
             uint64_t id = ids[i];
-            size_t pos = b->last_pos;
-            if (id != b->last_id) {
-                pos = slot_find(b->slots, b->cap, b->shift, id);
-                if (!b->slots[pos].count) {
+            if (id != last_id) {
+                size_t pos = home[i];
+                while (slots[pos].count && slots[pos].id != id) pos = (pos + 1) & mask;
+                if (!slots[pos].count) { /* a new entry */
+                    b->total += added;
+                    added = 0;
                     if (buckets_add(b, xs[i], cs ? cs[i] : 0, 1) != 0) return -1;
+                    i++;
+                    if (b->level != level || b->slots != slots || b->shift != shift) {
+                        last_id = b->last_id;
+                        last_pos = b->last_pos;
+                        break;
+                    }
+                    last_id = b->last_id;
+                    last_pos = b->last_pos;
                     continue;
                 }
-                b->last_id = id;
-                b->last_pos = pos;
+                last_id = id;
+                last_pos = pos;
             }
-            b->slots[pos].count++;
-            b->total++;
+            slots[last_pos].count++;
+            added++;
+            i++;
         }
+        b->last_id = last_id;
+        b->last_pos = last_pos;
+        b->total += added;
         base += i;
     }
     return 0;
