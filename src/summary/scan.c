@@ -219,9 +219,12 @@ static int flush_comoments(scanner *sc)
                               sc->como_complete, rows);
 }
 
+static void decode_lane(scanner *sc, summary_column *c, lane *l);
+
 static int flush_lanes(scanner *sc)
 {
     if (!sc->work) return 0;
+    for (size_t j = 0; j < sc->work->ncols; j++) decode_lane(sc, &sc->work->cols[j], &sc->lanes[j]);
     if (flush_comoments(sc) != 0) return -1;
     for (size_t j = 0; j < sc->work->ncols; j++) {
         lane *l = &sc->lanes[j];
@@ -252,47 +255,75 @@ static void lane_set_ref(lane *l, const number_decimal *r)
     l->ref_scale = l->ref_fast ? number_pow10[r->exp10 < 0 ? -r->exp10 : r->exp10] : 1.0;
 }
 
-static void cell(scanner *sc, size_t j, const char *p, uint32_t len)
+/* Records one cell of column j: missing cells are counted, the others wait
+ * in the column's lane for decode_lane. */
+static inline void cell(scanner *sc, size_t j, const char *p, uint32_t len)
 {
-    summary_column *c = &sc->work->cols[j];
-    if (is_missing(sc, p, len)) { c->missing++; return; }
+    if (is_missing(sc, p, len)) { sc->work->cols[j].missing++; return; }
     lane *l = &sc->lanes[j];
     size_t k = l->ncells;
-    uint16_t row = (uint16_t)sc->block_rows;
-    l->hash[k] = XXH3_64bits(p, len);
     l->text[k] = p;
     l->len[k] = len;
-    l->cell_row[k] = row;
+    l->cell_row[k] = (uint16_t)sc->block_rows;
     l->ncells = k + 1;
-    if (c->mode == COLUMN_CATEGORICAL) { c->non_numeric++; return; }
-    number_decimal d;
-    switch (sc->parse(p, len, &d)) {
-    case NUMBER_FINITE: {
-        if (!c->mom.has_ref) {
-            moments_set_ref(&c->mom, &d);
-            lane_set_ref(l, &d);
+}
+
+/* Hashes and parses the buffered cells of one column, one column at a time
+ * (each column's cells look alike, so the branches of the hash and the
+ * parser predict well).  A finite number becomes a deviation from the
+ * column's reference decimal, with number_difference's common case inline
+ * on the unpacked reference: the same integer difference and the same
+ * single rounding. */
+static void decode_lane(scanner *sc, summary_column *c, lane *l)
+{
+    const size_t n = l->ncells;
+    for (size_t i = 0; i < n; i++) l->hash[i] = XXH3_64bits(l->text[i], l->len[i]);
+    if (c->mode == COLUMN_CATEGORICAL) { c->non_numeric += n; return; }
+    const number_parser parse = sc->parse;
+    size_t nnum = l->nnum;
+    for (size_t i = 0; i < n; i++) {
+        number_decimal d;
+        switch (parse(l->text[i], l->len[i], &d)) {
+        case NUMBER_FINITE: {
+            if (!c->mom.has_ref) {
+                moments_set_ref(&c->mom, &d);
+                lane_set_ref(l, &d);
+            }
+            double dev;
+            if (d.exp10 == l->ref_exp && l->ref_fast && d.exact && (d.mantissa >> 52) == 0) {
+                int64_t x = d.negative ? -(int64_t)d.mantissa : (int64_t)d.mantissa;
+                double diff = (double)(x - l->ref_signed);
+                dev = l->ref_divide ? diff / l->ref_scale : diff * l->ref_scale;
+            } else {
+                dev = number_difference(&d, &c->mom.ref, NULL);
+            }
+            l->dev[nnum] = dev;
+            l->val[nnum] = d.value;
+            l->num_row[nnum] = l->cell_row[i];
+            nnum++;
+            break;
         }
-        /* number_difference's common case, with the reference unpacked:
-         * the same integer difference and the same single rounding. */
-        double dev;
-        if (d.exp10 == l->ref_exp && l->ref_fast && d.exact && (d.mantissa >> 52) == 0) {
-            int64_t x = d.negative ? -(int64_t)d.mantissa : (int64_t)d.mantissa;
-            double diff = (double)(x - l->ref_signed);
-            dev = l->ref_divide ? diff / l->ref_scale : diff * l->ref_scale;
-        } else {
-            dev = number_difference(&d, &c->mom.ref, NULL);
+        case NUMBER_NONFINITE: c->non_finite++; break;
+        default:
+            c->non_numeric++;
+            keep_example(c, l->text[i], l->len[i]);
         }
-        size_t n = l->nnum;
-        l->dev[n] = dev;
-        l->val[n] = d.value;
-        l->num_row[n] = row;
-        l->nnum = n + 1;
-        break;
     }
-    case NUMBER_NONFINITE: c->non_finite++; break;
-    default:
-        c->non_numeric++;
-        keep_example(c, p, len);
+    l->nnum = nnum;
+}
+
+/* Every column's cell of the current record (sc->fields, nf of them).  Kept
+ * out of line: inside the record loop the compiler runs out of registers. */
+static __attribute__((noinline)) void row_cells(scanner *sc, size_t nf)
+{
+    summary *w = sc->work;
+    const csv_field *fields = sc->fields;
+    const lane *lanes = sc->lanes;
+    const size_t ncols = w->ncols;
+    for (size_t j = 0; j < ncols; j++) {
+        size_t fi = (size_t)lanes[j].field;
+        if (fi >= nf) { w->cols[j].missing++; continue; }
+        cell(sc, j, fields[fi].ptr, fields[fi].len);
     }
 }
 
@@ -635,11 +666,7 @@ static scan_status process_chunk(scanner *sc, const char *path, chunk *ch, int *
                                          fi < nf ? sc->fields[fi].len : 0);
             if (st != SCAN_OK) return st;
         }
-        for (size_t j = 0; j < w->ncols; j++) {
-            size_t fi = (size_t)sc->lanes[j].field;
-            if (fi >= nf) { w->cols[j].missing++; continue; }
-            cell(sc, j, sc->fields[fi].ptr, sc->fields[fi].len);
-        }
+        row_cells(sc, nf);
         if (++sc->block_rows == SUMMARY_BLOCK_ROWS && flush_lanes(sc) != 0) {
             snprintf(sc->err, sc->errlen, "out of memory");
             return SCAN_ERR_MEMORY;
