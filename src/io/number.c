@@ -41,10 +41,7 @@
 #include "io/number.h"
 
 #include <errno.h>
-#if defined(__x86_64__) && defined(__GNUC__)
-#include <immintrin.h>
-#define NUMBER_SIMD 1
-#endif
+#include "io/number_simd.h"
 #include <float.h>
 #include <math.h>
 #include <stdlib.h>
@@ -278,93 +275,34 @@ static inline int parse_plain(const unsigned char *p, const unsigned char *end,
 static number_kind parse_general(const unsigned char *p, const unsigned char *end,
                                  number_decimal *out) __attribute__((noinline));
 
-#if defined(NUMBER_SIMD) && defined(FLT_EVAL_METHOD) && FLT_EVAL_METHOD == 0
-/* number_parse for cells with 16 readable bytes after the sign: a cell of
- * "digits[.digits][e[+-]digits]" in at most 16 bytes after the sign, with at
- * most 4 exponent digits, is read here; anything else goes to number_parse.
- * One 16-byte load classifies every byte (digit, the first '.', the first
- * 'e'); a byte shuffle drops the point and right-aligns the digits behind
- * leading zeros; three multiply-add steps combine them into two 8-digit
- * halves (the SIMD digit conversion used by simdjson).  No branch depends
- * on where a digit run ends, which the scalar loop mispredicts.  Needs
- * SSSE3 (pshufb, pmaddubsw): number_padded_parser checks the CPU. */
+#if defined(NUMBER_SIMD)
+/* number_parse_ssse3 (number_simd.h), falling back to number_parse. */
 __attribute__((target("ssse3"))) static number_kind parse_simd(const char *s, size_t len,
                                                              number_decimal *out)
 {
-    const unsigned char *q = (const unsigned char *)s;
-    int negative = len && *q == '-';
-    q += negative;
-    size_t n = len - (size_t)negative;
-    if (n - 1 >= 16) return number_parse(s, len, out);
-    const __m128i v = _mm_loadu_si128((const __m128i *)(const void *)q);
-    const __m128i t = _mm_sub_epi8(v, _mm_set1_epi8('0'));
-    const __m128i digit = _mm_cmpeq_epi8(_mm_min_epu8(t, _mm_set1_epi8(9)), t);
-    uint32_t inside = (UINT32_C(1) << n) - 1;
-    uint32_t other = inside & ~(uint32_t)_mm_movemask_epi8(digit);
-    unsigned mlen = (unsigned)n; /* bytes of the mantissa */
-    unsigned point = 16;         /* position of the '.', 16 if none */
-    int64_t e = 0;
-    if (other) {
-        unsigned k = (unsigned)__builtin_ctz(other);
-        if (q[k] == '.') {
-            point = k;
-            other &= other - 1;
-        }
-        if (other) {
-            unsigned x = (unsigned)__builtin_ctz(other);
-            if ((q[x] | 0x20) != 'e') return number_parse(s, len, out);
-            mlen = x;
-            const unsigned char *p = q + x + 1, *end = q + n;
-            int exponent_negative = 0;
-            if (p < end && (*p == '-' || *p == '+')) exponent_negative = *p++ == '-';
-            if (p == end || end - p > 4) return number_parse(s, len, out);
-            int64_t exponent = 0;
-            for (; p < end; p++) {
-                unsigned d = (unsigned)*p - '0';
-                if (d > 9) return number_parse(s, len, out);
-                exponent = exponent * 10 + d;
-            }
-            e = exponent_negative ? -exponent : exponent;
-        }
-    }
-    unsigned digits = mlen - (point < mlen);
-    if (digits == 0) return number_parse(s, len, out);
-    if (point < mlen) e -= (int64_t)(mlen - point - 1);
-    /* Lane i takes digit i - (16 - digits), skipping the point; lanes with a
-     * negative index read as zero. */
-    const __m128i iota = _mm_setr_epi8(0, 1, 2, 3, 4, 5, 6, 7, 8, 9, 10, 11, 12, 13, 14, 15);
-    __m128i idx = _mm_add_epi8(iota, _mm_set1_epi8((char)((int)digits - 16)));
-    idx = _mm_sub_epi8(idx, _mm_cmpgt_epi8(idx, _mm_set1_epi8((char)((int)point - 1))));
-    __m128i d = _mm_shuffle_epi8(t, idx);
-    __m128i pairs = _mm_maddubs_epi16(d, _mm_setr_epi8(10, 1, 10, 1, 10, 1, 10, 1, 10, 1, 10, 1,
-                                                        10, 1, 10, 1));
-    __m128i quads = _mm_madd_epi16(pairs, _mm_setr_epi16(100, 1, 100, 1, 100, 1, 100, 1));
-    quads = _mm_packs_epi32(quads, quads);
-    __m128i octets = _mm_madd_epi16(quads, _mm_setr_epi16(10000, 1, 10000, 1, 10000, 1, 10000, 1));
-    uint64_t hi = (uint32_t)_mm_cvtsi128_si32(octets);
-    uint64_t lo = (uint32_t)_mm_cvtsi128_si32(_mm_srli_si128(octets, 4));
-    uint64_t m = hi * 100000000u + lo;
-    double val;
-    if (m == 0) {
-        e = 0;
-        val = 0.0;
-    } else if (!fast_path(m, e, &val)) {
-        return number_parse(s, len, out);
-    }
-    out->value = negative ? -val : val;
-    out->mantissa = m;
-    out->exp10 = (int32_t)e;
-    out->negative = (uint8_t)negative;
-    out->exact = 1;
-    return NUMBER_FINITE;
+    if (number_parse_ssse3(s, len, out) == 0) return NUMBER_FINITE;
+    return number_parse(s, len, out);
 }
 #endif
 
+int number_simd_usable(void)
+{
+#if defined(NUMBER_SIMD)
+    static int usable = -1; /* benign race: every thread stores the same value */
+    if (usable < 0) {
+        __builtin_cpu_init();
+        usable = __builtin_cpu_supports("ssse3") ? 1 : 0;
+    }
+    return usable;
+#else
+    return 0;
+#endif
+}
+
 number_parser number_padded_parser(void)
 {
-#if defined(NUMBER_SIMD) && defined(FLT_EVAL_METHOD) && FLT_EVAL_METHOD == 0
-    __builtin_cpu_init();
-    if (__builtin_cpu_supports("ssse3")) return parse_simd;
+#if defined(NUMBER_SIMD)
+    if (number_simd_usable()) return parse_simd;
 #endif
     return number_parse;
 }

@@ -47,6 +47,8 @@ typedef number_kind (*number_parser)(const char *s, size_t len, number_decimal *
  * readable bytes (whatever len is): SIMD on x86-64 with SSSE3, else
  * number_parse itself.  Same results either way. */
 number_parser number_padded_parser(void);
+/* 1 when this CPU runs number_parse_ssse3 (number_simd.h). */
+int number_simd_usable(void);
 
 /* The correctly rounded double of (negative ? -1 : 1) * mantissa * 10^exp10. */
 double number_to_double(uint64_t mantissa, int32_t exp10, int negative);

@@ -19,6 +19,7 @@
 #include "io/chunk.h"
 #include "io/csv.h"
 #include "io/number.h"
+#include "io/number_simd.h"
 #include "io/source.h"
 
 _Static_assert(CHUNK_PADDING >= CSV_READ_AHEAD && CHUNK_PADDING >= NUMBER_READ_AHEAD,
@@ -87,7 +88,7 @@ typedef struct {
     double *como_mask;     /* ncomo x block, presence */
     double *como_center;   /* ncomo */
     unsigned char *como_complete; /* ncomo */
-    number_parser parse;   /* number_padded_parser(): cells sit in padded chunks */
+    int simd;              /* number_simd_usable(): cells sit in padded chunks */
     char *err;
     size_t errlen;
 } scanner;
@@ -268,48 +269,75 @@ static inline void cell(scanner *sc, size_t j, const char *p, uint32_t len)
     l->ncells = k + 1;
 }
 
+/* The numbers of a lane's cells: parse (an expression of text, length and
+ * &d giving a number_kind) for each cell, then a finite number becomes a
+ * deviation from the column's reference decimal, with number_difference's
+ * common case inline on the unpacked reference: the same integer difference
+ * and the same single rounding.  A macro, so that the SSSE3 variant below
+ * inlines its parser. */
+#define DECODE_NUMBERS(parse)                                                                  \
+    do {                                                                                       \
+        size_t nnum = l->nnum;                                                                 \
+        for (size_t i = 0; i < n; i++) {                                                       \
+            number_decimal d;                                                                  \
+            switch (parse(l->text[i], l->len[i], &d)) {                                        \
+            case NUMBER_FINITE: {                                                              \
+                if (!c->mom.has_ref) {                                                         \
+                    moments_set_ref(&c->mom, &d);                                              \
+                    lane_set_ref(l, &d);                                                       \
+                }                                                                              \
+                double dev;                                                                    \
+                if (d.exp10 == l->ref_exp && l->ref_fast && d.exact && (d.mantissa >> 52) == 0) { \
+                    int64_t x = d.negative ? -(int64_t)d.mantissa : (int64_t)d.mantissa;       \
+                    double diff = (double)(x - l->ref_signed);                                 \
+                    dev = l->ref_divide ? diff / l->ref_scale : diff * l->ref_scale;           \
+                } else {                                                                       \
+                    dev = number_difference(&d, &c->mom.ref, NULL);                            \
+                }                                                                              \
+                l->dev[nnum] = dev;                                                            \
+                l->val[nnum] = d.value;                                                        \
+                l->num_row[nnum] = l->cell_row[i];                                             \
+                nnum++;                                                                        \
+                break;                                                                         \
+            }                                                                                  \
+            case NUMBER_NONFINITE: c->non_finite++; break;                                     \
+            default:                                                                           \
+                c->non_numeric++;                                                              \
+                keep_example(c, l->text[i], l->len[i]);                                        \
+            }                                                                                  \
+        }                                                                                      \
+        l->nnum = nnum;                                                                        \
+    } while (0)
+
+static void decode_numbers(summary_column *c, lane *l, size_t n)
+{
+    DECODE_NUMBERS(number_parse);
+}
+
+#if defined(NUMBER_SIMD)
+#define PARSE_SSSE3(t, len, d) \
+    (number_parse_ssse3(t, len, d) == 0 ? NUMBER_FINITE : number_parse(t, len, d))
+/* Cells sit in padded chunks, so the SIMD parser may read past them. */
+__attribute__((target("ssse3"))) static void decode_numbers_ssse3(summary_column *c, lane *l,
+                                                                  size_t n)
+{
+    DECODE_NUMBERS(PARSE_SSSE3);
+}
+#endif
+
 /* Hashes and parses the buffered cells of one column, one column at a time
  * (each column's cells look alike, so the branches of the hash and the
- * parser predict well).  A finite number becomes a deviation from the
- * column's reference decimal, with number_difference's common case inline
- * on the unpacked reference: the same integer difference and the same
- * single rounding. */
+ * parser predict well). */
 static void decode_lane(scanner *sc, summary_column *c, lane *l)
 {
     const size_t n = l->ncells;
     for (size_t i = 0; i < n; i++) l->hash[i] = XXH3_64bits(l->text[i], l->len[i]);
     if (c->mode == COLUMN_CATEGORICAL) { c->non_numeric += n; return; }
-    const number_parser parse = sc->parse;
-    size_t nnum = l->nnum;
-    for (size_t i = 0; i < n; i++) {
-        number_decimal d;
-        switch (parse(l->text[i], l->len[i], &d)) {
-        case NUMBER_FINITE: {
-            if (!c->mom.has_ref) {
-                moments_set_ref(&c->mom, &d);
-                lane_set_ref(l, &d);
-            }
-            double dev;
-            if (d.exp10 == l->ref_exp && l->ref_fast && d.exact && (d.mantissa >> 52) == 0) {
-                int64_t x = d.negative ? -(int64_t)d.mantissa : (int64_t)d.mantissa;
-                double diff = (double)(x - l->ref_signed);
-                dev = l->ref_divide ? diff / l->ref_scale : diff * l->ref_scale;
-            } else {
-                dev = number_difference(&d, &c->mom.ref, NULL);
-            }
-            l->dev[nnum] = dev;
-            l->val[nnum] = d.value;
-            l->num_row[nnum] = l->cell_row[i];
-            nnum++;
-            break;
-        }
-        case NUMBER_NONFINITE: c->non_finite++; break;
-        default:
-            c->non_numeric++;
-            keep_example(c, l->text[i], l->len[i]);
-        }
-    }
-    l->nnum = nnum;
+#if defined(NUMBER_SIMD)
+    if (sc->simd) { decode_numbers_ssse3(c, l, n); return; }
+#endif
+    (void)sc;
+    decode_numbers(c, l, n);
 }
 
 /* Every column's cell of the current record (sc->fields, nf of them).  Kept
@@ -811,7 +839,7 @@ scan_status scan_files(const scan_options *o, const char *const *paths, size_t n
     scanner sc;
     memset(&sc, 0, sizeof sc);
     sc.o = o;
-    sc.parse = number_padded_parser();
+    sc.simd = number_simd_usable();
     sc.err = err;
     sc.errlen = errlen;
     for (uint32_t i = 0; i < o->opt.n_missing; i++) {
