@@ -63,8 +63,8 @@ void hll_add(hll *h, uint64_t hash)
     /* The sentinel bit just below the 50 rank bits caps the count of leading
      * zeros at 50, so rank <= 51 and clz never sees 0. */
     uint64_t w = (hash << HLL_PRECISION) | (UINT64_C(1) << (HLL_PRECISION - 1));
-    uint8_t rank = (uint8_t)(leading_zeros64(w) + 1);
-    if (rank > h->reg[j]) h->reg[j] = rank;
+    uint8_t rank = (uint8_t)(leading_zeros64(w) + 1), old = h->reg[j];
+    h->reg[j] = rank > old ? rank : old; /* a store either way: no branch to mispredict */
 }
 
 void hll_add_many(hll *h, const uint64_t *hash, size_t n)

@@ -67,9 +67,11 @@ typedef struct {
     char *first_path;      /* source the header came from */
     csv_field *fields;     /* record buffer: file_fields + 1 */
     char delim;
-    uint64_t missing_len_mask; /* bit L set: some spelling has length L (< 64) */
     size_t missing_len[SUMMARY_MAX_MISSING]; /* length of each spelling */
-    uint64_t missing_first[4];   /* bit set: some spelling starts with this byte */
+    /* Bit b of missing_cand[L]: a cell of length L (< 64) starting with byte
+     * b may be missing (empty, or some spelling has that length and first
+     * byte); every other cell is present after one test. */
+    uint64_t missing_cand[64][4];
     uint64_t line_base;    /* lines before the current chunk */
     uint64_t total_bytes;  /* raw bytes of all sources, 0 if unknown */
     uint64_t done_bytes;   /* raw bytes of finished sources */
@@ -93,11 +95,12 @@ typedef struct {
     size_t errlen;
 } scanner;
 
+/* p[0] is read even when len is 0: cells sit in padded chunks. */
 static inline int is_missing(const scanner *sc, const char *p, uint32_t len)
 {
+    unsigned char c0 = (unsigned char)p[0];
+    if (len >= 64 || !(sc->missing_cand[len][c0 >> 6] >> (c0 & 63) & 1)) return 0;
     if (len == 0) return 1;
-    if (len >= 64 || !(sc->missing_len_mask >> len & 1)) return 0;
-    if (!(sc->missing_first[(unsigned char)p[0] >> 6] >> ((unsigned char)p[0] & 63) & 1)) return 0;
     const summary_options *o = &sc->o->opt;
     for (uint32_t i = 0; i < o->n_missing; i++)
         if (sc->missing_len[i] == len && o->missing[i][0] == p[0] &&
@@ -845,10 +848,10 @@ scan_status scan_files(const scan_options *o, const char *const *paths, size_t n
     for (uint32_t i = 0; i < o->opt.n_missing; i++) {
         size_t l = strlen(o->opt.missing[i]);
         sc.missing_len[i] = l;
-        if (l < 64) sc.missing_len_mask |= 1ull << l;
         unsigned char c0 = (unsigned char)o->opt.missing[i][0];
-        if (l) sc.missing_first[c0 >> 6] |= 1ull << (c0 & 63);
+        if (l && l < 64) sc.missing_cand[l][c0 >> 6] |= 1ull << (c0 & 63);
     }
+    memset(sc.missing_cand[0], 0xFF, sizeof sc.missing_cand[0]); /* the empty cell */
     for (size_t i = 0; i < npaths; i++) {
         FILE *f = strcmp(paths[i], "-") ? fopen(paths[i], "rb") : NULL;
         if (f) {
