@@ -1,7 +1,7 @@
 # sheaf: build, test, demo.  See DEVELOPERS.md.
 
 CC      ?= cc
-OPT     ?= -O2
+OPT     ?= -O3
 CFLAGS  ?= $(OPT) -g
 CFLAGS  += -std=c11 -D_GNU_SOURCE -Wall -Wextra -Iinclude -Isrc -MMD -MP
 # GSL is linked without its reference CBLAS (-lgslcblas): OpenBLAS provides

@@ -18,7 +18,7 @@ sections=("$@")
 machine() {
     echo "- CPU: $(grep -m1 'model name' /proc/cpuinfo | cut -d: -f2 | sed 's/^ //'), $(nproc) cores"
     echo "- memory: $(free -g | awk '/Mem:/ {print $2}') GiB; OS: $(. /etc/os-release; echo "$PRETTY_NAME"); kernel $(uname -r)"
-    echo "- compiler: $(cc --version | head -n1); sheaf built with the Makefile defaults (-O2)"
+    echo "- compiler: $(cc --version | head -n1); sheaf built with the Makefile defaults ($(sed -n "s/^OPT *?= *//p" Makefile))"
     echo "- date: $(date -u +%Y-%m-%d); the machine is shared, so single timings are noisy: medians of $runs runs"
 }
 
