@@ -68,10 +68,10 @@ typedef struct {
     csv_field *fields;     /* record buffer: file_fields + 1 */
     char delim;
     size_t missing_len[SUMMARY_MAX_MISSING]; /* length of each spelling */
-    /* Bit b of missing_cand[L]: a cell of length L (< 64) starting with byte
-     * b may be missing (empty, or some spelling has that length and first
-     * byte); every other cell is present after one test. */
-    uint64_t missing_cand[64][4];
+    /* Bit L of missing_cand[b]: a cell of length L (< 64) starting with
+     * byte b may be missing (empty, or some spelling has that length and
+     * first byte); every other cell is present after one test. */
+    uint64_t missing_cand[256];
     uint64_t line_base;    /* lines before the current chunk */
     uint64_t total_bytes;  /* raw bytes of all sources, 0 if unknown */
     uint64_t done_bytes;   /* raw bytes of finished sources */
@@ -99,7 +99,7 @@ typedef struct {
 static inline int is_missing(const scanner *sc, const char *p, uint32_t len)
 {
     unsigned char c0 = (unsigned char)p[0];
-    if (len >= 64 || !(sc->missing_cand[len][c0 >> 6] >> (c0 & 63) & 1)) return 0;
+    if (len >= 64 || !(sc->missing_cand[c0] >> len & 1)) return 0;
     if (len == 0) return 1;
     const summary_options *o = &sc->o->opt;
     for (uint32_t i = 0; i < o->n_missing; i++)
@@ -849,9 +849,9 @@ scan_status scan_files(const scan_options *o, const char *const *paths, size_t n
         size_t l = strlen(o->opt.missing[i]);
         sc.missing_len[i] = l;
         unsigned char c0 = (unsigned char)o->opt.missing[i][0];
-        if (l && l < 64) sc.missing_cand[l][c0 >> 6] |= 1ull << (c0 & 63);
+        if (l && l < 64) sc.missing_cand[c0] |= 1ull << l;
     }
-    memset(sc.missing_cand[0], 0xFF, sizeof sc.missing_cand[0]); /* the empty cell */
+    for (int b = 0; b < 256; b++) sc.missing_cand[b] |= 1; /* the empty cell */
     for (size_t i = 0; i < npaths; i++) {
         FILE *f = strcmp(paths[i], "-") ? fopen(paths[i], "rb") : NULL;
         if (f) {
