@@ -296,8 +296,58 @@ static int order_cmp(const void *pa, const void *pb)
     return (a->cell > c->cell) - (a->cell < c->cell);
 }
 
+/* ---- sorting by (key, cell) ---------------------------------------------- */
+
+/* (key, cell) as one unsigned 64-bit number in the same order: the key's
+ * sign bit flipped, above the cell. */
+static inline uint64_t sort_key(int64_t key, uint32_t cell)
+{
+    return ((uint64_t)((uint32_t)(int32_t)key ^ 0x80000000u) << 32) | cell;
+}
+
+typedef struct {
+    uint64_t k;  /* sort_key */
+    uint32_t i;  /* index of the item */
+} sort_pair;
+
+#define RADIX_BITS 11
+#define RADIX_MIN 256 /* below this many items qsort is as fast */
+
+/* Sorts a[0..n) by k, stably: LSD radix sort, RADIX_BITS at a time over
+ * only the bits in which the keys differ (a store's keys span a few
+ * octaves and its cells a few bits, so two or three passes).  tmp holds n
+ * pairs; returns whichever of a and tmp holds the result. */
+static sort_pair *radix_sort(sort_pair *a, sort_pair *tmp, size_t n)
+{
+    uint64_t any = 0, all = ~(uint64_t)0;
+    for (size_t i = 0; i < n; i++) {
+        any |= a[i].k;
+        all &= a[i].k;
+    }
+    uint64_t vary = any ^ all;
+    if (!vary) return a;
+    int lo = __builtin_ctzll(vary), hi = 63 - __builtin_clzll(vary);
+    size_t count[1u << RADIX_BITS]; /* reset per pass */
+    for (int shift = lo; shift <= hi; shift += RADIX_BITS) {
+        memset(count, 0, sizeof count);
+        for (size_t i = 0; i < n; i++) count[(a[i].k >> shift) & ((1u << RADIX_BITS) - 1)]++;
+        size_t at = 0;
+        for (size_t d = 0; d < (1u << RADIX_BITS); d++) {
+            size_t c = count[d];
+            count[d] = at;
+            at += c;
+        }
+        for (size_t i = 0; i < n; i++) tmp[count[(a[i].k >> shift) & ((1u << RADIX_BITS) - 1)]++] = a[i];
+        sort_pair *t = a;
+        a = tmp;
+        tmp = t;
+    }
+    return a;
+}
+
 /* Builds the sort index.  Takes a const store: the index is a cache, its
- * memory is preallocated with the table, so this never fails. */
+ * memory is preallocated with the table; the radix sort's scratch is not,
+ * and without it qsort does the work, so this never fails. */
 static void ensure_order(const buckets *cb)
 {
     if (cb->order_valid) return;
@@ -310,7 +360,23 @@ static void ensure_order(const buckets *cb)
         b->order[k].pos = (uint32_t)i;
         k++;
     }
-    qsort(b->order, k, sizeof *b->order, order_cmp);
+    sort_pair *pairs = k >= RADIX_MIN ? malloc(2 * k * sizeof *pairs) : NULL;
+    if (pairs) {
+        for (size_t i = 0; i < k; i++) {
+            pairs[i].k = sort_key(b->order[i].key, b->order[i].cell);
+            pairs[i].i = b->order[i].pos;
+        }
+        sort_pair *sorted = radix_sort(pairs, pairs + k, k);
+        for (size_t i = 0; i < k; i++) {
+            uint64_t id = b->slots[sorted[i].i].id;
+            b->order[i].key = (int32_t)id_key(id);
+            b->order[i].cell = id_cell(id);
+            b->order[i].pos = sorted[i].i;
+        }
+        free(pairs);
+    } else {
+        qsort(b->order, k, sizeof *b->order, order_cmp);
+    }
     b->order_valid = 1;
 }
 
@@ -323,11 +389,32 @@ static int entry_cmp(const void *pa, const void *pb)
     return (a->cell > c->cell) - (a->cell < c->cell);
 }
 
+/* Sorts e[0..n) by (key, cell): radix when scratch can be had, else qsort. */
+static void sort_entries(buckets_entry *e, size_t n)
+{
+    sort_pair *pairs = n >= RADIX_MIN ? malloc(2 * n * sizeof *pairs) : NULL;
+    buckets_entry *copy = pairs ? malloc(n * sizeof *copy) : NULL;
+    if (!copy) {
+        free(pairs);
+        qsort(e, n, sizeof *e, entry_cmp);
+        return;
+    }
+    for (size_t i = 0; i < n; i++) {
+        pairs[i].k = sort_key(e[i].key, e[i].cell);
+        pairs[i].i = (uint32_t)i;
+    }
+    sort_pair *sorted = radix_sort(pairs, pairs + n, n);
+    memcpy(copy, e, n * sizeof *e);
+    for (size_t i = 0; i < n; i++) e[i] = copy[sorted[i].i];
+    free(pairs);
+    free(copy);
+}
+
 /* Sorts and sums equal (key, cell) neighbours; returns the new length. */
 static size_t sort_combine(buckets_entry *e, size_t n)
 {
     if (n == 0) return 0;
-    qsort(e, n, sizeof *e, entry_cmp);
+    sort_entries(e, n);
     size_t k = 0;
     for (size_t i = 1; i < n; i++) {
         if (e[i].key == e[k].key && e[i].cell == e[k].cell) e[k].count += e[i].count;
