@@ -2,8 +2,10 @@
 # sheaf benchmarks.  Writes bench/RESULTS.md (machine, medians, ratios).
 #   bench/run.sh            all sections
 #   bench/run.sh scan ...   only the named sections
-# Times are medians of hyperfine runs measured side by side in one run; peak
-# memory is the maximum resident set from /usr/bin/time -v.
+# Times are medians of runs measured side by side in one run: commands that
+# are compared run interleaved (bench/interleave.py), since the shared
+# machine's speed drifts from minute to minute; peak memory is the maximum
+# resident set from /usr/bin/time.
 set -euo pipefail
 cd "$(dirname "$0")/.."
 out=bench/out
@@ -19,7 +21,11 @@ machine() {
     echo "- CPU: $(grep -m1 'model name' /proc/cpuinfo | cut -d: -f2 | sed 's/^ //'), $(nproc) cores"
     echo "- memory: $(free -g | awk '/Mem:/ {print $2}') GiB; OS: $(. /etc/os-release; echo "$PRETTY_NAME"); kernel $(uname -r)"
     echo "- compiler: $(cc --version | head -n1); sheaf built with the Makefile defaults ($(sed -n "s/^OPT *?= *//p" Makefile))"
-    echo "- date: $(date -u +%Y-%m-%d); the machine is shared, so single timings are noisy: medians of $runs runs"
+    echo "- date: $(date -u +%Y-%m-%d); the machine is shared and its speed drifts, so timings are medians of $runs runs, and commands that are compared run interleaved"
+}
+
+interleaved() { # command... -> their median seconds, one per line, run in turn
+    /usr/bin/python3 bench/interleave.py "$runs" "$@"
 }
 
 median_s() { # command... -> median seconds (hyperfine)
@@ -44,10 +50,9 @@ section_scan() {
     local mb gzmb
     mb=$(stat -c %s "$plain"); gzmb=$(stat -c %s "$gz")
     local t_plain t_gz t_igzip t_cat
-    t_cat=$(median_s "cat $plain")
-    t_plain=$(median_s "./sheaf scan $plain -o $out/p.sheaf -q")
-    t_gz=$(median_s "./sheaf scan $gz -o $out/g.sheaf -q")
-    t_igzip=$(median_s "igzip -dc $gz")
+    { read -r t_cat; read -r t_plain; read -r t_gz; read -r t_igzip; } < <(interleaved \
+        "cat $plain" "./sheaf scan $plain -o $out/p.sheaf -q" "./sheaf scan $gz -o $out/g.sheaf -q" \
+        "igzip -dc $gz")
     local m_full m_half
     m_full=$(peak_kb ./sheaf scan "$plain" -o "$out/p.sheaf" -q)
     m_half=$(peak_kb ./sheaf scan "$out/bench-$half.csv" -o "$out/h.sheaf" -q)
@@ -74,9 +79,9 @@ section_target() {
     local plain=$out/bench-$rows.csv mb
     mb=$(stat -c %s "$plain")
     local t0 tc tr
-    t0=$(median_s "./sheaf scan $plain -o $out/p.sheaf -q")
-    tc=$(median_s "./sheaf scan $plain -o $out/tc.sheaf -q --target label")
-    tr=$(median_s "./sheaf scan $plain -o $out/tr.sheaf -q --target balance")
+    { read -r t0; read -r tc; read -r tr; } < <(interleaved "./sheaf scan $plain -o $out/p.sheaf -q" \
+        "./sheaf scan $plain -o $out/tc.sheaf -q --target label" \
+        "./sheaf scan $plain -o $out/tr.sheaf -q --target balance")
     local mc1 mc2 mr1 mr2 half=$out/bench-$((rows / 2)).csv
     mc1=$(peak_kb ./sheaf scan "$half" -o "$out/m.sheaf" -q --target label)
     mc2=$(peak_kb ./sheaf scan "$plain" -o "$out/m.sheaf" -q --target label)
@@ -166,8 +171,8 @@ section_shard() {
     table_files
     local plain=$out/bench-$rows.csv mb t1 t2
     mb=$(stat -c %s "$plain")
-    t1=$(median_s "./sheaf scan $plain -o $out/p.sheaf -q")
-    t2=$(median_s "parallel -j2 ./sheaf scan $plain --shard {}/2 -o $out/sh{}.sheaf -q ::: 1 2")
+    { read -r t1; read -r t2; } < <(interleaved "./sheaf scan $plain -o $out/p.sheaf -q" \
+        "parallel -j2 ./sheaf scan $plain --shard {}/2 -o $out/sh{}.sheaf -q ::: 1 2")
     /usr/bin/python3 - "$mb" "$t1" "$t2" <<'PY' >"$out/shard.md"
 import sys
 mb, t1, t2 = int(sys.argv[1]) / 1e6, float(sys.argv[2]), float(sys.argv[3])
