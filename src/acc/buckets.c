@@ -655,6 +655,27 @@ int buckets_add_many(buckets *b, const double *x, const uint32_t *cells, size_t 
                 size_t pos = home[i];
                 while (slots[pos].count && slots[pos].id != id) pos = (pos + 1) & mask;
                 if (!slots[pos].count) { /* a new entry */
+                    /* In place when no growth or collapse is due: pos is
+                     * already its empty slot. */
+                    int32_t key = (int32_t)id_key(id);
+                    size_t kp = key_find(b->keys, b->key_cap, b->key_shift, key);
+                    int new_key = b->keys[kp].entries == 0;
+                    if (!(new_key && (b->nkeys + 1 > b->budget ||
+                                      OVER_LOAD(b->nkeys + 1, b->key_cap))) &&
+                        !OVER_LOAD(b->n + 1, b->cap)) {
+                        slots[pos].id = id;
+                        slots[pos].count = 1;
+                        b->keys[kp].key = key;
+                        b->keys[kp].entries++;
+                        b->nkeys += (size_t)new_key;
+                        b->n++;
+                        b->order_valid = 0;
+                        last_id = id;
+                        last_pos = pos;
+                        added++;
+                        i++;
+                        continue;
+                    }
                     b->total += added;
                     added = 0;
                     if (buckets_add(b, xs[i], cs ? cs[i] : 0, 1) != 0) return -1;

@@ -290,6 +290,12 @@ static record *new_record(crosstab *t, uint64_t key, uint32_t cell)
     return r;
 }
 
+void crosstab_prefetch(const crosstab *t, uint64_t key, uint32_t cell)
+{
+    if (t->bits && t->slots)
+        __builtin_prefetch(slot_at(t, record_home(crosstab_key_of(key), cell, t->bits), t->stride));
+}
+
 int crosstab_add_count(crosstab *t, uint64_t key, uint32_t cell)
 {
     key = crosstab_key_of(key);

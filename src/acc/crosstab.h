@@ -67,6 +67,9 @@ void crosstab_free(crosstab *t);
 void crosstab_reset(crosstab *t);
 /* Classification: one row of class `cell` with value hash `key`.  -1 on a
  * table in CROSSTAB_VALUES mode. */
+/* Hints that (key, cell) will be added soon (a cache prefetch of its home
+ * slot); no effect on the table. */
+void crosstab_prefetch(const crosstab *t, uint64_t key, uint32_t cell);
 int crosstab_add_count(crosstab *t, uint64_t key, uint32_t cell);
 /* Regression: one row with value hash `key` and target value y (a deviation
  * in the target's frame).  -1 on a table in CROSSTAB_COUNTS mode, or when y

@@ -142,6 +142,11 @@ static int flush_lane(scanner *sc, summary_column *c, lane *l)
      * stayed exact; once the running value table overflowed it never will. */
     if (c->cross && !values_overflowed(sc->run->cols[l - sc->lanes].vals)) {
         for (size_t i = 0; i < l->ncells; i++) {
+            if (i + 8 < l->ncells) { /* the tables outgrow the caches */
+                size_t r8 = l->cell_row[i + 8];
+                crosstab_prefetch(c->cross, l->hash[i + 8],
+                                  classes ? sc->row_class[r8] : sc->row_cell[r8]);
+            }
             size_t r = l->cell_row[i];
             int rc = 0;
             if (classes) {
