@@ -15,7 +15,7 @@ results=bench/RESULTS.md
 rows=${BENCH_ROWS:-2000000}
 runs=${BENCH_RUNS:-5}
 sections=("$@")
-[ ${#sections[@]} -eq 0 ] && sections=(scan target wide merge shard pca project)
+[ ${#sections[@]} -eq 0 ] && sections=(scan count target wide merge shard pca project)
 
 machine() {
     echo "- CPU: $(grep -m1 'model name' /proc/cpuinfo | cut -d: -f2 | sed 's/^ //'), $(nproc) cores"
@@ -71,6 +71,28 @@ print("| `sheaf scan` plain | %.3f | %.0f | 1.00 |" % (tp, mb / tp))
 print("| `sheaf scan` gzip | %.3f | %.0f | %.2f x plain |" % (tg, mb / tg, tg / tp))
 print("| `igzip -dc > /dev/null` | %.3f | %.0f | %.2f of sheaf gzip |" % (ti, mb / ti, ti / tg))
 print("\nPeak memory (max RSS): %s rows %.1f MiB; %s rows %.1f MiB.\n" % (rows, int(mf) / 1024, half, int(mh) / 1024))
+PY
+}
+
+section_count() {
+    # Instructions and simulated branch misses of a scan of the table's first
+    # 10 MB (callgrind): deterministic, unlike wall time on a shared machine.
+    table_files
+    command -v valgrind >/dev/null || { echo "count: valgrind not installed, skipped" >&2; return 0; }
+    head -c 10000000 "$out/bench-$rows.csv" >"$out/slice10.csv"
+    OPENBLAS_NUM_THREADS=1 valgrind --tool=callgrind --branch-sim=yes \
+        --callgrind-out-file="$out/cg.out" ./sheaf scan "$out/slice10.csv" -o "$out/s10.sheaf" -q \
+        2>"$out/cg.log"
+    /usr/bin/python3 - "$out/cg.log" <<'PY' >"$out/count.md"
+import re, sys
+log = open(sys.argv[1]).read()
+ir = int(re.search(r"I\s+refs:\s+([\d,]+)", log).group(1).replace(",", ""))
+bm = int(re.search(r"Mispredicts:\s+([\d,]+)", log).group(1).replace(",", ""))
+print("Instructions (callgrind, deterministic) for a scan of the table's first 10 MB: %.0f million"
+      % (ir / 1e6))
+print("(%.1f per byte, fixed costs such as start-up and the final sorts included), %.2f million"
+      % (ir / 1e7, bm / 1e6))
+print("simulated branch misses.\n")
 PY
 }
 
@@ -253,7 +275,7 @@ for s in "${sections[@]}"; do "section_$s"; done
     echo
     machine
     echo
-    for f in scan target wide merge shard pca project; do
+    for f in scan count target wide merge shard pca project; do
         [ -s "$out/$f.md" ] && cat "$out/$f.md"
     done
 } >"$results"
