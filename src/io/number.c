@@ -264,11 +264,7 @@ static inline int parse_plain(const unsigned char *p, const unsigned char *end,
     } else if (!fast_path(m, e, &v)) {
         return -1;
     }
-    out->value = negative ? -v : v;
-    out->mantissa = m;
-    out->exp10 = (int32_t)e;
-    out->negative = (uint8_t)negative;
-    out->exact = 1;
+    number_set_exact(out, v, m, e, negative);
     return NUMBER_FINITE;
 }
 

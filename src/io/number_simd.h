@@ -12,6 +12,18 @@
 
 #include "io/number.h"
 
+/* Fills *out with an exact decimal m * 10^e of value val (>= 0) and its
+ * sign; shared by the scalar and the SIMD fast paths. */
+static inline void number_set_exact(number_decimal *out, double val, uint64_t m, int64_t e,
+                                    int negative)
+{
+    out->value = negative ? -val : val;
+    out->mantissa = m;
+    out->exp10 = (int32_t)e;
+    out->negative = (uint8_t)negative;
+    out->exact = 1;
+}
+
 #if defined(__x86_64__) && defined(__GNUC__) && defined(FLT_EVAL_METHOD) && FLT_EVAL_METHOD == 0
 #define NUMBER_SIMD 1
 #include <immintrin.h>
@@ -93,11 +105,7 @@ number_parse_ssse3(const char *s, size_t len, number_decimal *out)
     } else {
         return -1;
     }
-    out->value = negative ? -val : val;
-    out->mantissa = m;
-    out->exp10 = (int32_t)e;
-    out->negative = (uint8_t)negative;
-    out->exact = 1;
+    number_set_exact(out, val, m, e, negative);
     return 0;
 }
 #endif

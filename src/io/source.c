@@ -55,13 +55,13 @@ static void fail(source *s, const char *fmt, const char *detail)
 }
 
 /* Refills the raw buffer; returns bytes now available, 0 at EOF, -1 error. */
-static ssize_t raw_fill(source *s)
+/* Reads up to cap raw bytes of the file into buf, into the fingerprint and
+ * the raw offset.  Returns the bytes read, 0 at the end (raw_eof set), -1 on
+ * error (message set). */
+static ssize_t read_raw(source *s, uint8_t *buf, size_t cap)
 {
-    if (s->raw_pos < s->raw_len) return (ssize_t)(s->raw_len - s->raw_pos);
-    s->raw_pos = s->raw_len = 0;
-    if (s->raw_eof) return 0;
     for (;;) {
-        ssize_t n = read(s->fd, s->raw, RAW_BYTES);
+        ssize_t n = read(s->fd, buf, cap);
         if (n < 0 && errno == EINTR) continue;
         if (n < 0) {
             snprintf(s->err, sizeof s->err, "%s: read error at byte %llu: %s", s->path,
@@ -69,11 +69,20 @@ static ssize_t raw_fill(source *s)
             return -1;
         }
         if (n == 0) { s->raw_eof = 1; return 0; }
-        XXH3_64bits_update(s->hash, s->raw, (size_t)n);
-        s->raw_len = (size_t)n;
+        XXH3_64bits_update(s->hash, buf, (size_t)n);
         s->raw_offset += (uint64_t)n;
         return n;
     }
+}
+
+static ssize_t raw_fill(source *s)
+{
+    if (s->raw_pos < s->raw_len) return (ssize_t)(s->raw_len - s->raw_pos);
+    s->raw_pos = s->raw_len = 0;
+    if (s->raw_eof) return 0;
+    ssize_t n = read_raw(s, s->raw, RAW_BYTES);
+    if (n > 0) s->raw_len = (size_t)n;
+    return n;
 }
 
 static source *source_new(const char *path, int fd, int owns)
@@ -196,21 +205,7 @@ static ssize_t read_plain(source *s, uint8_t *buf, size_t cap)
 {
     /* Nothing buffered (after the format probe): read straight into the
      * caller's buffer, sparing a copy of every byte. */
-    if (s->raw_pos == s->raw_len && !s->raw_eof && cap >= RAW_BYTES) {
-        for (;;) {
-            ssize_t n = read(s->fd, buf, cap);
-            if (n < 0 && errno == EINTR) continue;
-            if (n < 0) {
-                snprintf(s->err, sizeof s->err, "%s: read error at byte %llu: %s", s->path,
-                         (unsigned long long)s->raw_offset, strerror(errno));
-                return -1;
-            }
-            if (n == 0) { s->raw_eof = 1; return 0; }
-            XXH3_64bits_update(s->hash, buf, (size_t)n);
-            s->raw_offset += (uint64_t)n;
-            return n;
-        }
-    }
+    if (s->raw_pos == s->raw_len && !s->raw_eof && cap >= RAW_BYTES) return read_raw(s, buf, cap);
     ssize_t avail = raw_fill(s);
     if (avail <= 0) return avail;
     size_t n = (size_t)avail < cap ? (size_t)avail : cap;
