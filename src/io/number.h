@@ -63,21 +63,39 @@ double number_difference(const number_decimal *a, const number_decimal *b, int *
 /* 10^0 .. 10^22, each exactly a double. */
 extern const double number_pow10[23];
 
-/* number_difference(a, b, NULL), with its most common case inline: equal
- * powers of ten |e| <= 22 and mantissas below 2^53, where the integer
- * difference d is exact in a double and d * 10^e (or d / 10^-e) is one
- * correctly rounded operation, the same one number_difference performs. */
-static inline double number_difference_fast(const number_decimal *a, const number_decimal *b)
+/* A reference decimal unpacked for repeated differences from it. */
+typedef struct {
+    number_decimal dec;  /* the reference itself */
+    int fast;            /* exact, mantissa < 2^52, |exp10| <= 22 */
+    int divide;          /* exp10 < 0: differences are divided by scale */
+    int32_t exp10;       /* dec.exp10 (INT32_MIN when unset) */
+    int64_t signed_m;    /* signed mantissa */
+    double scale;        /* 10^|exp10| */
+} number_ref;
+
+static inline void number_ref_set(number_ref *r, const number_decimal *d)
 {
-    int32_t e = a->exp10;
-    if (e == b->exp10 && (a->exact & b->exact) && e >= -22 && e <= 22 &&
-        ((a->mantissa | b->mantissa) >> 52) == 0) {
+    r->dec = *d;
+    r->fast = d->exact && d->exp10 >= -22 && d->exp10 <= 22 && (d->mantissa >> 52) == 0;
+    r->divide = d->exp10 < 0;
+    r->exp10 = d->exp10;
+    r->signed_m = d->negative ? -(int64_t)d->mantissa : (int64_t)d->mantissa;
+    r->scale = r->fast ? number_pow10[d->exp10 < 0 ? -d->exp10 : d->exp10] : 1.0;
+}
+
+/* number_difference(a, &r->dec, NULL), with its most common case inline:
+ * the same power of ten |e| <= 22 and mantissas below 2^52, where the
+ * integer difference is exact in a double and times 10^e (or divided by
+ * 10^-e) is one correctly rounded operation, the one number_difference
+ * performs. */
+static inline double number_deviation(const number_decimal *a, const number_ref *r)
+{
+    if (a->exp10 == r->exp10 && r->fast && a->exact && (a->mantissa >> 52) == 0) {
         int64_t x = a->negative ? -(int64_t)a->mantissa : (int64_t)a->mantissa;
-        int64_t y = b->negative ? -(int64_t)b->mantissa : (int64_t)b->mantissa;
-        double d = (double)(x - y); /* |x - y| < 2^53: exact */
-        return e >= 0 ? d * number_pow10[e] : d / number_pow10[-e];
+        double d = (double)(x - r->signed_m);
+        return r->divide ? d / r->scale : d * r->scale;
     }
-    return number_difference(a, b, NULL);
+    return number_difference(a, &r->dec, NULL);
 }
 
 #endif

@@ -50,11 +50,7 @@ typedef struct {
     uint16_t *num_row;   /* row in the block of each number */
     /* The column's reference decimal, unpacked for the inline deviation
      * (valid once the column's moments have their reference). */
-    int ref_fast;        /* exact, mantissa < 2^52, |exp10| <= 22 */
-    int ref_divide;      /* exp10 < 0: deviations are divided by ref_scale */
-    int32_t ref_exp;     /* exp10 */
-    int64_t ref_signed;  /* signed mantissa */
-    double ref_scale;    /* 10^|exp10| */
+    number_ref ref;
 } lane;
 
 typedef struct {
@@ -255,15 +251,6 @@ static void keep_example(summary_column *c, const char *p, uint32_t len)
     c->n_examples++;
 }
 
-static void lane_set_ref(lane *l, const number_decimal *r)
-{
-    l->ref_fast = r->exact && r->exp10 >= -22 && r->exp10 <= 22 && (r->mantissa >> 52) == 0;
-    l->ref_divide = r->exp10 < 0;
-    l->ref_exp = r->exp10;
-    l->ref_signed = r->negative ? -(int64_t)r->mantissa : (int64_t)r->mantissa;
-    l->ref_scale = l->ref_fast ? number_pow10[r->exp10 < 0 ? -r->exp10 : r->exp10] : 1.0;
-}
-
 /* Records one cell of column j: missing cells are counted, the others wait
  * in the column's lane for decode_lane. */
 static inline void cell(scanner *sc, size_t j, const char *p, uint32_t len)
@@ -292,17 +279,9 @@ static inline void cell(scanner *sc, size_t j, const char *p, uint32_t len)
             case NUMBER_FINITE: {                                                              \
                 if (!c->mom.has_ref) {                                                         \
                     moments_set_ref(&c->mom, &d);                                              \
-                    lane_set_ref(l, &d);                                                       \
+                    number_ref_set(&l->ref, &d);                                               \
                 }                                                                              \
-                double dev;                                                                    \
-                if (d.exp10 == l->ref_exp && l->ref_fast && d.exact && (d.mantissa >> 52) == 0) { \
-                    int64_t x = d.negative ? -(int64_t)d.mantissa : (int64_t)d.mantissa;       \
-                    double diff = (double)(x - l->ref_signed);                                 \
-                    dev = l->ref_divide ? diff / l->ref_scale : diff * l->ref_scale;           \
-                } else {                                                                       \
-                    dev = number_difference(&d, &c->mom.ref, NULL);                            \
-                }                                                                              \
-                l->dev[nnum] = dev;                                                            \
+                l->dev[nnum] = number_deviation(&d, &l->ref);                                  \
                 l->val[nnum] = d.value;                                                        \
                 l->num_row[nnum] = l->cell_row[i];                                             \
                 nnum++;                                                                        \
@@ -721,8 +700,8 @@ static scan_status process_chunk(scanner *sc, const char *path, chunk *ch, int *
             summary_reset(sc->work);
             for (size_t j = 0; j < sc->work->ncols; j++) {
                 buckets_reset_level(sc->work->cols[j].bins, buckets_level(sc->run->cols[j].bins));
-                sc->lanes[j].ref_fast = 0; /* the reset moments take a new reference */
-                sc->lanes[j].ref_exp = INT32_MIN;
+                sc->lanes[j].ref.fast = 0; /* the reset moments take a new reference */
+                sc->lanes[j].ref.exp10 = INT32_MIN;
             }
         }
     }
