@@ -266,9 +266,8 @@ static inline void cell(scanner *sc, size_t j, const char *p, uint32_t len)
 
 /* The numbers of a lane's cells: parse (an expression of text, length and
  * &d giving a number_kind) for each cell, then a finite number becomes a
- * deviation from the column's reference decimal, with number_difference's
- * common case inline on the unpacked reference: the same integer difference
- * and the same single rounding.  A macro, so that the SSSE3 variant below
+ * deviation from the column's reference decimal (number_deviation, on the
+ * reference unpacked in the lane).  A macro, so that the SSSE3 variant below
  * inlines its parser. */
 #define DECODE_NUMBERS(parse)                                                                  \
     do {                                                                                       \
