@@ -221,11 +221,6 @@ static int add_new(values *v, uint64_t hash, const char *text, size_t len)
     return 0;
 }
 
-void values_prefetch(const values *v, uint64_t hash)
-{
-    if (v->bits) __builtin_prefetch(&v->slots[home_slot(hash, v->bits)]);
-}
-
 int values_add(values *v, uint64_t hash, const char *text, size_t len)
 {
     if (v->bits) {

@@ -47,8 +47,6 @@ int values_add(values *v, uint64_t hash, const char *text, size_t len);
 long values_add_many(values *v, const uint64_t *hash, const char *const *text,
                      const uint32_t *len, size_t n, int stop_at_overflow);
 int values_merge(values *into, const values *from);
-/* Hints that `hash` will be added soon (issues a cache prefetch). */
-void values_prefetch(const values *v, uint64_t hash);
 
 uint32_t values_levels(const values *v);       /* exact entries held */
 uint32_t values_max_levels(const values *v);

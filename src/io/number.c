@@ -271,16 +271,6 @@ static inline int parse_plain(const unsigned char *p, const unsigned char *end,
 static number_kind parse_general(const unsigned char *p, const unsigned char *end,
                                  number_decimal *out) __attribute__((noinline));
 
-#if defined(NUMBER_SIMD)
-/* number_parse_ssse3 (number_simd.h), falling back to number_parse. */
-__attribute__((target("ssse3"))) static number_kind parse_simd(const char *s, size_t len,
-                                                             number_decimal *out)
-{
-    if (number_parse_ssse3(s, len, out) == 0) return NUMBER_FINITE;
-    return number_parse(s, len, out);
-}
-#endif
-
 int number_simd_usable(void)
 {
 #if defined(NUMBER_SIMD)
@@ -293,14 +283,6 @@ int number_simd_usable(void)
 #else
     return 0;
 #endif
-}
-
-number_parser number_padded_parser(void)
-{
-#if defined(NUMBER_SIMD)
-    if (number_simd_usable()) return parse_simd;
-#endif
-    return number_parse;
 }
 
 number_kind number_parse(const char *s, size_t len, number_decimal *out)

@@ -39,14 +39,6 @@ typedef struct {
  * NUMBER_NONFINITE).  Never reads past len; s need not be terminated. */
 number_kind number_parse(const char *s, size_t len, number_decimal *out);
 
-/* A parser with number_parse's signature and results. */
-typedef number_kind (*number_parser)(const char *s, size_t len, number_decimal *out);
-/* Bytes after s + len that a number_padded_parser() parser may read. */
-#define NUMBER_READ_AHEAD 17
-/* The fastest parser on this CPU for cells followed by NUMBER_READ_AHEAD
- * readable bytes (whatever len is): SIMD on x86-64 with SSSE3, else
- * number_parse itself.  Same results either way. */
-number_parser number_padded_parser(void);
 /* 1 when this CPU runs number_parse_ssse3 (number_simd.h). */
 int number_simd_usable(void);
 

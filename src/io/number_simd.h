@@ -24,6 +24,9 @@ static inline void number_set_exact(number_decimal *out, double val, uint64_t m,
     out->exact = 1;
 }
 
+/* Bytes after s + len that number_parse_ssse3 may read. */
+#define NUMBER_READ_AHEAD 17
+
 #if defined(__x86_64__) && defined(__GNUC__) && defined(FLT_EVAL_METHOD) && FLT_EVAL_METHOD == 0
 #define NUMBER_SIMD 1
 #include <immintrin.h>
@@ -107,6 +110,14 @@ number_parse_ssse3(const char *s, size_t len, number_decimal *out)
     }
     number_set_exact(out, val, m, e, negative);
     return 0;
+}
+
+/* number_parse for a cell with NUMBER_READ_AHEAD readable bytes after it:
+ * number_parse_ssse3, and number_parse for whatever that does not read. */
+static inline __attribute__((always_inline, target("ssse3"))) number_kind
+number_parse_padded(const char *s, size_t len, number_decimal *out)
+{
+    return number_parse_ssse3(s, len, out) == 0 ? NUMBER_FINITE : number_parse(s, len, out);
 }
 #endif
 

@@ -301,13 +301,11 @@ static void decode_numbers(summary_column *c, lane *l, size_t n)
 }
 
 #if defined(NUMBER_SIMD)
-#define PARSE_SSSE3(t, len, d) \
-    (number_parse_ssse3(t, len, d) == 0 ? NUMBER_FINITE : number_parse(t, len, d))
 /* Cells sit in padded chunks, so the SIMD parser may read past them. */
 __attribute__((target("ssse3"))) static void decode_numbers_ssse3(summary_column *c, lane *l,
                                                                   size_t n)
 {
-    DECODE_NUMBERS(PARSE_SSSE3);
+    DECODE_NUMBERS(number_parse_padded);
 }
 #endif
 
