@@ -30,23 +30,14 @@ import tempfile
 from fractions import Fraction
 sys.path.insert(0, os.path.join(os.path.dirname(os.path.abspath(__file__)), ".."))
 from refcheck import check, counts, fail, ok, skip  # noqa: E402  (shared PASS/FAIL lines)
+from refcheck import DATA, MISSING, NONFINITE, NUMBER, ROOT, SHEAF, SM  # noqa: E402,F401
 
 import numpy as np
 import pandas as pd
 from scipy import stats
 
-ROOT = os.path.dirname(os.path.dirname(os.path.dirname(os.path.abspath(__file__))))
 os.chdir(ROOT)
-SHEAF = "./sheaf"
-DATA = os.environ.get("SHEAF_DATA") or os.path.join("..", "shared", "data")
-SM = "/usr/lib/python3/dist-packages/statsmodels/datasets"
 
-# sheaf's default missing spellings; the empty cell is always missing.
-MISSING = {"", "NA", "N/A", "null", "NULL", "None", "-", "?"}
-# What sheaf's decimal parser accepts (sign, digits, '.', exponent), with
-# surrounding ASCII spaces ignored.
-NUMBER = re.compile(r"^[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?$")
-NONFINITE = re.compile(r"^[+-]?(inf|infinity|nan)$", re.I)
 TOP = 5
 
 

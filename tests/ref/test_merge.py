@@ -28,23 +28,17 @@ import sys
 import tempfile
 sys.path.insert(0, os.path.join(os.path.dirname(os.path.abspath(__file__)), ".."))
 from refcheck import check, counts, fail, ok, skip  # noqa: E402  (shared PASS/FAIL lines)
+from refcheck import (MISSING, NUMBER, ROOT, SHEAF, corr_differences,  # noqa: E402,F401
+                      fclose, moment_differences, run)
 
 import numpy as np
 import pandas as pd
 
-ROOT = os.path.dirname(os.path.dirname(os.path.dirname(os.path.abspath(__file__))))
 os.chdir(ROOT)
-SHEAF = "./sheaf"
-MISSING = {"", "NA", "N/A", "null", "NULL", "None", "-", "?"}
 TOP = 12
 
 
 TMP = tempfile.mkdtemp(prefix="sheaf-merge-")
-
-
-def run(args):
-    p = subprocess.run(args, stdout=subprocess.PIPE, stderr=subprocess.PIPE)
-    return p.returncode, p.stdout, p.stderr.decode(errors="replace").strip()
 
 
 _n = [0]
@@ -139,12 +133,6 @@ def split_sizes(rows, parts, rnd):
 # ---------------------------------------------------------------------------
 # Comparison
 
-def fclose(x, y, scale):
-    if x is None or y is None:
-        return x is None and y is None
-    return abs(x - y) <= 1e-12 * max(scale, 1e-300)
-
-
 def compare(name, got, want, gc, wc):
     """got/want: info JSON; gc/wc: corr JSON.  Counts identical, moments,
     per-class moments and r to 1e-12 relative, quantiles identical when the
@@ -186,37 +174,8 @@ def compare(name, got, want, gc, wc):
         if x.get("quantile_relative_error") == y.get("quantile_relative_error") and \
                 x.get("quantiles") != y.get("quantiles"):
             why.append("%s.quantiles %r vs %r" % (nm, x.get("quantiles"), y.get("quantiles")))
-        sc = max(abs(y["min"] or 0), abs(y["max"] or 0))
-        for k, s in (("mean", sc), ("variance", abs(y["variance"] or 0)),
-                     ("skewness", 1.0), ("kurtosis", 1.0)):
-            if not fclose(x.get(k), y.get(k), s):
-                why.append("%s.%s %r vs %r" % (nm, k, x.get(k), y.get(k)))
-        bx, by = x.get("by_class"), y.get("by_class")
-        if (bx is None) != (by is None):
-            why.append("%s.by_class in one only" % nm)
-            continue
-        bx = {e["class"]: e for e in bx or []}
-        by = {e["class"]: e for e in by or []}
-        if set(bx) != set(by):
-            why.append("%s.by_class classes %s vs %s" % (nm, sorted(bx), sorted(by)))
-            continue
-        for cls in by:
-            ex, ey = bx[cls], by[cls]
-            if ex["n"] != ey["n"]:
-                why.append("%s/%s n %r vs %r" % (nm, cls, ex["n"], ey["n"]))
-            if not fclose(ex["mean"], ey["mean"], sc) or \
-                    not fclose(ex["variance"], ey["variance"], abs(ey["variance"] or 0)):
-                why.append("%s/%s mean, variance %r, %r vs %r, %r" % (
-                    nm, cls, ex["mean"], ex["variance"], ey["mean"], ey["variance"]))
-    if gc["columns"] != wc["columns"] or gc["pairs_n"] != wc["pairs_n"] or \
-            gc["rows"] != wc["rows"]:
-        why.append("corr columns, rows or pairs_n differ")
-    else:
-        for i, row in enumerate(gc["matrix"]):
-            for j, v in enumerate(row):
-                if not fclose(v, wc["matrix"][i][j], 1.0):
-                    why.append("r[%s,%s] %r vs %r" % (gc["columns"][i], gc["columns"][j], v,
-                                                      wc["matrix"][i][j]))
+        moment_differences(nm, x, y, max(abs(y["min"] or 0), abs(y["max"] or 0)), why)
+    corr_differences(gc, wc, why, rows=True)
     return check(name, not why, "; ".join(why[:4]))
 
 

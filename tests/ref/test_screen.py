@@ -39,6 +39,7 @@ import sys
 import tempfile
 sys.path.insert(0, os.path.join(os.path.dirname(os.path.abspath(__file__)), ".."))
 from refcheck import check, counts, fail, ok, skip  # noqa: E402  (shared PASS/FAIL lines)
+from refcheck import DATA, MISSING, NONFINITE, NUMBER, ROOT, SHEAF, SM, run  # noqa: E402,F401
 
 import numpy as np
 import pandas as pd
@@ -47,17 +48,9 @@ from scipy.stats import contingency
 from statsmodels.stats.multitest import multipletests
 from statsmodels.stats.oneway import anova_oneway
 
-ROOT = os.path.dirname(os.path.dirname(os.path.dirname(os.path.abspath(__file__))))
 os.chdir(ROOT)
-SHEAF = "./sheaf"
 GENERATE = "build/demo/generate"
-DATA = os.environ.get("SHEAF_DATA") or os.path.join("..", "shared", "data")
-SM = "/usr/lib/python3/dist-packages/statsmodels/datasets"
 
-# sheaf's default missing spellings; the empty cell is always missing.
-MISSING = {"", "NA", "N/A", "null", "NULL", "None", "-", "?"}
-# What sheaf's decimal parser accepts (sign, digits, '.', exponent).
-NUMBER = re.compile(r"^[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?$")
 
 STAT_REL = 1e-9
 P_REL, P_ABS = 1e-6, 1e-300
@@ -80,11 +73,6 @@ _n = [0]
 def new_path(ext=".sheaf"):
     _n[0] += 1
     return os.path.join(TMP, "s%d%s" % (_n[0], ext))
-
-
-def run(args, stdin=None):
-    p = subprocess.run(args, input=stdin, stdout=subprocess.PIPE, stderr=subprocess.PIPE)
-    return p.returncode, p.stdout, p.stderr.decode(errors="replace").strip()
 
 
 def scan_file(paths, extra=()):

@@ -29,20 +29,14 @@ import tempfile
 from fractions import Fraction
 sys.path.insert(0, os.path.join(os.path.dirname(os.path.abspath(__file__)), ".."))
 from refcheck import check, counts, fail, ok, skip  # noqa: E402  (shared PASS/FAIL lines)
+from refcheck import (DATA, MISSING, NUMBER, ROOT, SHEAF, SM,  # noqa: E402,F401
+                      corr_differences, fclose, moment_differences, run)
 
 import numpy as np
 import pandas as pd
 
-ROOT = os.path.dirname(os.path.dirname(os.path.dirname(os.path.abspath(__file__))))
 os.chdir(ROOT)
-SHEAF = "./sheaf"
-DATA = os.environ.get("SHEAF_DATA") or os.path.join("..", "shared", "data")
-SM = "/usr/lib/python3/dist-packages/statsmodels/datasets"
 
-# sheaf's default missing spellings; the empty cell is always missing.
-MISSING = {"", "NA", "N/A", "null", "NULL", "None", "-", "?"}
-# What sheaf's decimal parser accepts (sign, digits, '.', exponent).
-NUMBER = re.compile(r"^[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?$")
 
 
 def near(got, want, tol):
@@ -53,12 +47,6 @@ def near(got, want, tol):
 
 
 TMP = tempfile.mkdtemp(prefix="sheaf-target-")
-
-
-def run(args, stdin=None):
-    p = subprocess.run(args, input=stdin, stdout=subprocess.PIPE,
-                       stderr=subprocess.PIPE)
-    return p.returncode, p.stdout, p.stderr.decode(errors="replace").strip()
 
 
 _n = [0]
@@ -598,11 +586,6 @@ def same_with_target(name, a, b, ca, cb):
     if len(a["columns"]) != len(b["columns"]):
         why.append("%d vs %d columns" % (len(a["columns"]), len(b["columns"])))
 
-    def fclose(x, y, sc):
-        if x is None or y is None:
-            return x == y
-        return abs(x - y) <= 1e-12 * max(sc, 1e-300)
-
     for x, y in zip(a["columns"], b["columns"]):
         nm = x["name"]
         # the top list of an overflowed value table (distinct_exact false)
@@ -614,36 +597,8 @@ def same_with_target(name, a, b, ca, cb):
         for k in keys:
             if x.get(k) != y.get(k):
                 why.append("%s.%s %r vs %r" % (nm, k, x.get(k), y.get(k)))
-        sc = max(abs(x["min"] or 0), abs(x["max"] or 0))
-        for k, s in (("mean", sc), ("variance", abs(y["variance"] or 0)),
-                     ("skewness", 1.0), ("kurtosis", 1.0)):
-            if not fclose(x.get(k), y.get(k), s):
-                why.append("%s.%s %r vs %r" % (nm, k, x.get(k), y.get(k)))
-        bx, by = x.get("by_class"), y.get("by_class")
-        if (bx is None) != (by is None):
-            why.append("%s.by_class present in one only" % nm)
-            continue
-        bx = {e["class"]: e for e in bx or []}
-        by = {e["class"]: e for e in by or []}
-        if set(bx) != set(by):
-            why.append("%s.by_class classes %s vs %s" % (nm, sorted(bx), sorted(by)))
-            continue
-        for cls in bx:
-            ex, ey = bx[cls], by[cls]
-            if ex["n"] != ey["n"]:
-                why.append("%s/%s n %r vs %r" % (nm, cls, ex["n"], ey["n"]))
-            if not fclose(ex["mean"], ey["mean"], sc) or \
-                    not fclose(ex["variance"], ey["variance"], abs(ey["variance"] or 0)):
-                why.append("%s/%s mean/variance %r/%r vs %r/%r" % (
-                    nm, cls, ex["mean"], ex["variance"], ey["mean"], ey["variance"]))
-    if ca["columns"] != cb["columns"] or ca["pairs_n"] != cb["pairs_n"]:
-        why.append("corr columns or pairs_n differ")
-    else:
-        for i, row in enumerate(ca["matrix"]):
-            for j, v in enumerate(row):
-                if not fclose(v, cb["matrix"][i][j], 1.0):
-                    why.append("r[%s,%s] %r vs %r" % (ca["columns"][i], ca["columns"][j], v,
-                                                      cb["matrix"][i][j]))
+        moment_differences(nm, x, y, max(abs(x["min"] or 0), abs(x["max"] or 0)), why)
+    corr_differences(ca, cb, why)
     check(name, not why, "; ".join(why[:4]))
 
 
