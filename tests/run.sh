@@ -1,7 +1,7 @@
 #!/usr/bin/env bash
 # Runs every suite and prints one summary line "N passed, N failed".
 #   Criterion binaries (arguments), then tests/ref/*.py (reference checks with
-#   Debian's numpy/scipy/pandas/statsmodels) and tests/cli/*.sh (end to end).
+#   Debian's numpy/scipy/pandas/statsmodels) and tests/cli/test_*.sh (end to end; tests/cli/common.sh holds their shared helpers).
 # Reference and CLI scripts print one line per check: "PASS name" or
 # "FAIL name: why".
 set -u
@@ -24,7 +24,7 @@ for bin in "$@"; do
     [ "$f" -ne 0 ] && grep -a -E '\[(FAIL|----)\]|CRASH|signal' "$log/$name.out" | head -n 20
 done
 
-for script in tests/ref/*.py tests/cli/*.sh; do
+for script in tests/ref/*.py tests/cli/test_*.sh; do
     [ -e "$script" ] || continue
     name=$(basename "$script")
     case "$script" in

@@ -21,20 +21,7 @@ PY=/usr/bin/python3
 T=$(mktemp -d "${TMPDIR:-/tmp}/sheaf-shard.XXXXXX")
 trap 'rm -rf "$T"' EXIT
 
-pass() { echo "PASS $1"; }
-fail() { echo "FAIL $1: $2"; }
-skip() { echo "SKIP $1: $2"; }
-# check NAME WHY COMMAND...: PASS when COMMAND succeeds; returns its status.
-check() {
-    local name=$1 why=$2
-    shift 2
-    if "$@"; then pass "$name"; else fail "$name" "$why"; return 1; fi
-}
-run() {
-    "$@" >"$T/out" 2>"$T/err"
-    RC=$?
-}
-err_text() { tr '\n' '|' <"$T/err" | cut -c1-300; }
+. tests/cli/common.sh
 
 if [ ! -x "$SHEAF" ]; then
     fail binary "$SHEAF not found (run make first)"

@@ -18,22 +18,7 @@ PY=/usr/bin/python3
 T=$(mktemp -d "${TMPDIR:-/tmp}/sheaf-cli.XXXXXX")
 trap 'rm -rf "$T"' EXIT
 
-pass() { echo "PASS $1"; }
-fail() { echo "FAIL $1: $2"; }
-skip() { echo "SKIP $1: $2"; }
-# check NAME WHY COMMAND...: PASS when COMMAND succeeds.
-check() {
-    local name=$1 why=$2
-    shift 2
-    if "$@"; then pass "$name"; else fail "$name" "$why"; fi
-}
-
-# run CMD...: runs with stdout/stderr to $T/out, $T/err; exit code in $RC.
-run() {
-    "$@" >"$T/out" 2>"$T/err"
-    RC=$?
-}
-err_text() { tr '\n' '|' <"$T/err" | cut -c1-300; }
+. tests/cli/common.sh
 lines_of() { wc -l <"$1" | tr -d ' '; }
 # one_line_error: stderr holds exactly one line.
 one_line_error() { [ "$(lines_of "$T/err")" -eq 1 ]; }
@@ -450,7 +435,7 @@ gzip -c "$T/comma.csv" >"$T/comma.csv.gz"
 run "$SHEAF" info "$T/comma.csv.gz"
 check non_summary_gzip.exit_4 "exit $RC" [ "$RC" -eq 4 ]
 run "$SHEAF" info "$T/no-such.sheaf"
-check nonexistent_summary.fails "exit $RC" [ "$RC" -ne 0 ] && [ "$RC" -lt 128 ]
+check nonexistent_summary.fails "exit $RC" [ "$RC" -ne 0 -a "$RC" -lt 128 ]
 
 # ----------------------------------------------------------- output handling
 mkdir "$T/outdir"

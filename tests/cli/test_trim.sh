@@ -27,23 +27,7 @@ PY=/usr/bin/python3
 T=$(mktemp -d "${TMPDIR:-/tmp}/sheaf-trim.XXXXXX")
 trap 'rm -rf "$T"' EXIT
 
-pass() { echo "PASS $1"; }
-fail() { echo "FAIL $1: $2"; }
-skip() { echo "SKIP $1: $2"; }
-# check NAME WHY COMMAND...: PASS when COMMAND succeeds.
-check() {
-    local name=$1 why=$2
-    shift 2
-    if "$@"; then pass "$name"; else fail "$name" "$why"; fi
-}
-# run CMD...: runs with stdout/stderr to $T/out, $T/err; exit code in $RC.
-run() {
-    "$@" >"$T/out" 2>"$T/err"
-    RC=$?
-}
-err_text() { tr '\n' '|' <"$T/err" | cut -c1-300; }
-# first_diff A B: where two files first differ (for failure messages).
-first_diff() { cmp "$1" "$2" 2>&1 | head -n 1; }
+. tests/cli/common.sh
 
 if [ ! -x "$SHEAF" ]; then
     fail binary "$SHEAF not found (run make first)"
