@@ -827,3 +827,61 @@ Test(buckets, malformed_input_is_rejected)
     w = stream(10, 0, 2, overflow, 2);
     assert_rejected(&w, "total overflows");
 }
+
+/* buckets_write of b into a fresh buffer; returns its length. */
+static size_t stored_bytes(const buckets *b, unsigned char **out)
+{
+    wire_writer w;
+    wire_writer_init(&w);
+    buckets_write(b, &w);
+    cr_assert(!w.failed);
+    *out = w.data;
+    return w.len;
+}
+
+Test(buckets, add_many_equals_single_adds)
+{
+    /* buckets_add_many must leave the store exactly as n calls of
+     * buckets_add: values over many octaves, with and without cells, a budget
+     * small enough to collapse several times and tables that grow, fed in
+     * uneven batches; then a batch holding a NaN fails at the same point. */
+    for (int with_cells = 0; with_cells < 2; with_cells++) {
+        buckets *one = buckets_create(64), *many = buckets_create(64);
+        cr_assert(one && many);
+        enum { N = 30000 };
+        static double x[N];
+        static uint32_t cells[N];
+        uint64_t r = 0x853c49e6748fea9bull;
+        for (int i = 0; i < N; i++) {
+            r ^= r << 13; r ^= r >> 7; r ^= r << 17;
+            double mag = ldexp(1.0 + (double)(r >> 11) / 9007199254740992.0, (int)(r % 40) - 20);
+            x[i] = (r >> 5) % 7 == 0 ? 0.0 : (r >> 6) & 1 ? -mag : mag;
+            if (i % 97 < 30) x[i] = x[i > 0 ? i - 1 : 0]; /* runs of equal values */
+            cells[i] = with_cells ? (uint32_t)((r >> 20) % 9) : 0;
+            cr_assert_eq(buckets_add(one, x[i], cells[i], 1), 0);
+        }
+        for (size_t i = 0, step = 1; i < N; step = step * 7 % 500 + 1) {
+            size_t m = N - i < step ? N - i : step;
+            cr_assert_eq(buckets_add_many(many, x + i, with_cells ? cells + i : NULL, m), 0);
+            i += m;
+        }
+        cr_assert_gt(buckets_level(one), 0, "the test should collapse the store");
+        unsigned char *a, *b;
+        size_t na = stored_bytes(one, &a), nb = stored_bytes(many, &b);
+        cr_assert(na == nb && memcmp(a, b, na) == 0, "with_cells %d: stores differ", with_cells);
+        free(a);
+        free(b);
+
+        double bad[5] = {1.5, -2.0, NAN, 4.0, 8.0};
+        uint32_t bad_cells[5] = {1, 2, 3, 4, 5};
+        cr_assert_eq(buckets_add_many(many, bad, with_cells ? bad_cells : NULL, 5), -1);
+        for (int i = 0; i < 2; i++) buckets_add(one, bad[i], with_cells ? bad_cells[i] : 0, 1);
+        na = stored_bytes(one, &a);
+        nb = stored_bytes(many, &b);
+        cr_assert(na == nb && memcmp(a, b, na) == 0, "with_cells %d: NaN batch differs", with_cells);
+        free(a);
+        free(b);
+        buckets_free(one);
+        buckets_free(many);
+    }
+}

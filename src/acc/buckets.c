@@ -554,6 +554,20 @@ void buckets_reset(buckets *b)
     b->last_id = NO_ID;
 }
 
+/* Fills the empty slot pos with entry id (its key's slot kp, new_key when
+ * the key has no entry yet); the caller counts the total. */
+static inline void insert_entry(buckets *b, size_t pos, size_t kp, uint64_t id, int new_key,
+                                uint64_t count)
+{
+    b->slots[pos].id = id;
+    b->slots[pos].count = count;
+    b->keys[kp].key = (int32_t)id_key(id);
+    b->keys[kp].entries++;
+    b->nkeys += (size_t)new_key;
+    b->n++;
+    b->order_valid = 0;
+}
+
 /* Slow path of buckets_add: the (key, cell) entry does not exist yet. */
 static int add_new(buckets *b, uint64_t u, uint32_t cell, uint64_t count)
 {
@@ -582,14 +596,8 @@ static int add_new(buckets *b, uint64_t u, uint32_t cell, uint64_t count)
             if (grow_keys(b)) return -1;
             kp = key_find(b->keys, b->key_cap, b->key_shift, key);
         }
-        b->slots[pos].id = id;
-        b->slots[pos].count = count;
-        b->keys[kp].key = (int32_t)key;
-        b->keys[kp].entries++;
-        b->nkeys += (size_t)new_key;
-        b->n++;
+        insert_entry(b, pos, kp, id, new_key, count);
         b->total += count;
-        b->order_valid = 0;
         b->last_id = id;
         b->last_pos = pos;
         return 0;
@@ -643,7 +651,12 @@ int buckets_add_many(buckets *b, const double *x, const uint32_t *cells, size_t 
             ids[i] = make_id(key_of_bits(u, level), cs ? cs[i] : 0);
             home[i] = (uint32_t)((ids[i] * FIB_MULT) >> shift);
         }
-        if (bad) return -1;
+        if (bad) { /* a value that is not finite: exactly n calls of buckets_add */
+            for (size_t i = 0; i < m; i++)
+                if (buckets_add(b, xs[i], cs ? cs[i] : 0, 1) != 0) return -1;
+            base += m;
+            continue;
+        }
         slot *slots = b->slots;
         const size_t mask = b->cap - 1;
         uint64_t last_id = b->last_id, added = 0;
@@ -663,13 +676,7 @@ int buckets_add_many(buckets *b, const double *x, const uint32_t *cells, size_t 
                     if (!(new_key && (b->nkeys + 1 > b->budget ||
                                       OVER_LOAD(b->nkeys + 1, b->key_cap))) &&
                         !OVER_LOAD(b->n + 1, b->cap)) {
-                        slots[pos].id = id;
-                        slots[pos].count = 1;
-                        b->keys[kp].key = key;
-                        b->keys[kp].entries++;
-                        b->nkeys += (size_t)new_key;
-                        b->n++;
-                        b->order_valid = 0;
+                        insert_entry(b, pos, kp, id, new_key, 1);
                         last_id = id;
                         last_pos = pos;
                         added++;
