@@ -271,3 +271,26 @@ Test(hll, largest_legal_index_and_rank_accepted)
     cr_expect_eq(h->reg[HLL_REGISTERS - 1], 51);
     free(h);
 }
+
+Test(hll, add_many_equals_single_adds)
+{
+    /* hll_add_many (prefetching, branch-free register update) must set the
+     * same registers as hll_add one hash at a time, in batches of every size. */
+    static hll one, many;
+    hll_init(&one);
+    hll_init(&many);
+    enum { N = 100000 };
+    static uint64_t h[N];
+    uint64_t x = 0xda3e39cb94b95bdbull;
+    for (int i = 0; i < N; i++) {
+        x ^= x << 13; x ^= x >> 7; x ^= x << 17;
+        h[i] = x;
+        hll_add(&one, h[i]);
+    }
+    for (size_t i = 0, step = 0; i < N; step = step % 37 + 1) {
+        size_t m = N - i < step ? N - i : step;
+        hll_add_many(&many, h + i, m);
+        i += m;
+    }
+    cr_assert_eq(memcmp(one.reg, many.reg, sizeof one.reg), 0);
+}
