@@ -279,7 +279,7 @@ static int project_file(projector *pj, chunker *ck, const char *path)
             if (!delim) delim = csv_detect_delimiter(data, len);
         }
         csv_reader rd;
-        csv_reader_init(&rd, data, len, delim);
+        csv_reader_init_padded(&rd, data, len, delim); /* chunks are padded (io/chunk.h) */
         for (;;) {
             size_t nf;
             if (at_first && fit_fields(pj, rd.pos, rd.end, delim) != 0) { rc = EXIT_RESOURCE; break; }
