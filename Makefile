@@ -15,7 +15,7 @@ DEB_PKGS := build-essential pkg-config libisal-dev isal zlib1g-dev libzstd-dev z
             python3-numpy python3-scipy python3-pandas python3-statsmodels parallel \
             hyperfine time bc
 
-LIB_SRC := $(wildcard src/io/*.c src/acc/*.c src/summary/*.c src/stats/*.c src/out/*.c)
+LIB_SRC := $(wildcard src/io/*.c src/acc/*.c src/summary/*.c src/stats/*.c src/out/*.c src/pass/*.c)
 CLI_SRC := $(wildcard src/cli/*.c)
 LIB_OBJ := $(LIB_SRC:%.c=build/%.o)
 CLI_OBJ := $(CLI_SRC:%.c=build/%.o)

@@ -176,3 +176,24 @@ int cli_parse_delim(const char *s, char *out)
     if (strlen(s) == 1 && s[0] != '"' && s[0] != '\n' && s[0] != '\r') { *out = s[0]; return 0; }
     return -1;
 }
+
+int cli_parse_reading(const char *cmd, const char *chunk, const char *max_record,
+                      size_t *chunk_bytes, size_t *max_record_bytes)
+{
+    long long v;
+    if (chunk) {
+        if ((v = cli_parse_size(chunk)) < 64 || v > (1ll << 32)) {
+            cli_error(cmd, "--chunk-size must be a size between 64 and 4G, got '%s'", chunk);
+            return EXIT_USAGE;
+        }
+        *chunk_bytes = (size_t)v;
+    }
+    if (max_record) {
+        if ((v = cli_parse_size(max_record)) < 64) {
+            cli_error(cmd, "--max-record must be a size of at least 64, got '%s'", max_record);
+            return EXIT_USAGE;
+        }
+        *max_record_bytes = (size_t)v;
+    }
+    return 0;
+}

@@ -69,6 +69,11 @@ int cli_fit_components(const char *cmd, const char *path, const cli_components *
 
 /* Parses a size such as 4M, 64MiB, 512k, 2G (powers of 1024); -1 if bad. */
 long long cli_parse_size(const char *s);
+/* --chunk-size and --max-record (either may be NULL: left as they are), as
+ * every pass over the data reads them.  Returns 0, or EXIT_USAGE after a
+ * one-line error. */
+int cli_parse_reading(const char *cmd, const char *chunk, const char *max_record,
+                      size_t *chunk_bytes, size_t *max_record_bytes);
 /* Parses a share or level in (0, 1] for option `opt`; prints a one-line
  * error and returns -1 when it is not one. */
 int cli_parse_unit(const char *cmd, const char *opt, const char *s, double *out);

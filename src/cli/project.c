@@ -22,9 +22,8 @@
 
 #include "cli/cli.h"
 #include "out/sink.h"
-#include "io/chunk.h"
-#include "io/csv.h"
 #include "io/number.h"
+#include "io/reader.h"
 #include "io/source.h"
 #include "stats/pca.h"
 #include "summary/summary.h"
@@ -139,10 +138,9 @@ typedef struct {
     size_t ncarry;
     size_t *field_of;          /* p: field index of each basis column in this file */
     size_t *carry_field;       /* ncarry: field index of each carried column */
-    csv_field *fields;         /* record buffer */
-    size_t cap_fields;
-    uint64_t miss_mask;        /* bit L: a missing spelling has length L */
-    size_t miss_len[SUMMARY_MAX_MISSING]; /* length of each spelling */
+    reader *rd;                /* the record reader */
+    reader_missing missing;    /* the missing-cell test */
+    char *name;                /* scratch for a column name */
     /* The current block. */
     size_t rows;
     double *x;                 /* BLOCK_ROWS x p */
@@ -153,16 +151,6 @@ typedef struct {
     sink *out;
     char err[1024];
 } projector;
-
-static int is_missing(const projector *pj, const char *p, uint32_t len)
-{
-    if (len == 0) return 1;
-    if (len >= 64 || !(pj->miss_mask >> len & 1)) return 0;
-    const summary_options *o = &pj->s->opt;
-    for (uint32_t i = 0; i < o->n_missing; i++)
-        if (pj->miss_len[i] == len && memcmp(o->missing[i], p, len) == 0) return 1;
-    return 0;
-}
 
 static int flush_block(projector *pj)
 {
@@ -191,25 +179,31 @@ static int flush_block(projector *pj)
     return 0;
 }
 
-/* Field index of a column name in a header of nf fields; SIZE_MAX when absent. */
+/* Field index of a column name in a first record of nf fields (named as the
+ * scan names them); SIZE_MAX when absent. */
 static size_t header_find(const projector *pj, const csv_field *f, size_t nf, const char *name)
 {
-    if (!pj->header) {
-        /* Unnamed columns are col1..colN (as sheaf scan --no-header names them). */
-        char *end;
-        if (strncmp(name, "col", 3) != 0 || name[3] < '1' || name[3] > '9') return SIZE_MAX;
-        unsigned long long i = strtoull(name + 3, &end, 10);
-        return *end || i < 1 || i >= SIZE_MAX / 2 ? SIZE_MAX : (size_t)(i - 1);
-    }
     size_t len = strlen(name);
     for (size_t i = 0; i < nf; i++)
-        if (f[i].len == len && memcmp(f[i].ptr, name, len) == 0) return i;
-    return SIZE_MAX;
+        if (reader_column_name(&f[i], i, pj->header, 0, pj->name) == len &&
+            memcmp(pj->name, name, len) == 0)
+            return i;
+    if (pj->header) return SIZE_MAX;
+    /* Without a header, colN names field N even past the first record's width. */
+    char *end;
+    if (strncmp(name, "col", 3) != 0 || name[3] < '1' || name[3] > '9') return SIZE_MAX;
+    unsigned long long i = strtoull(name + 3, &end, 10);
+    return *end || i < 1 || i >= SIZE_MAX / 2 ? SIZE_MAX : (size_t)(i - 1);
 }
 
 /* Maps the basis and carried columns to fields of this file's first record. */
 static int map_header(projector *pj, const char *path, const csv_field *f, size_t nf)
 {
+    size_t longest = 0;
+    for (size_t i = 0; i < nf; i++) longest = f[i].len > longest ? f[i].len : longest;
+    free(pj->name);
+    pj->name = malloc(longest + 25);
+    if (!pj->name) { snprintf(pj->err, sizeof pj->err, "out of memory"); return -1; }
     for (size_t j = 0; j < pj->r->p; j++) {
         const char *name = pj->s->cols[pj->r->cols[j]].name;
         size_t at = header_find(pj, f, nf, name);
@@ -232,115 +226,66 @@ static int map_header(projector *pj, const char *path, const csv_field *f, size_
     return 0;
 }
 
-/* Grows the record buffer to hold the fields of the record at p (an upper
- * bound from the delimiters before its end). */
-static int fit_fields(projector *pj, const char *p, const char *end, char delim)
+/* One record: its numbers into the block, its carried fields beside them. */
+static int project_record(projector *pj, const csv_field *fields, size_t nf)
 {
-    size_t cap = 2;
-    int inside = 0, content = 0;
-    for (; p < end; p++) {
-        if (*p == '"') inside = !inside;
-        else if (!inside && *p == delim) cap++;
-        else if (!inside && *p == '\n' && content) break;
-        content |= *p != '\n' && *p != '\r';
+    size_t p = pj->r->p;
+    double *x = pj->x + pj->rows * p;
+    for (size_t j = 0; j < p; j++) {
+        size_t fi = pj->field_of[j];
+        double v = NAN;
+        if (fi < nf) {
+            const csv_field *f = &fields[fi];
+            number_decimal dec;
+            if (!reader_is_missing(&pj->missing, f->ptr, f->len) &&
+                number_parse(f->ptr, f->len, &dec) == NUMBER_FINITE)
+                v = dec.value;
+        }
+        x[j] = v;
     }
-    size_t need = cap;
-    if (need <= pj->cap_fields) return 0;
-    csv_field *g = realloc(pj->fields, need * sizeof *g);
-    if (!g) { snprintf(pj->err, sizeof pj->err, "out of memory"); return -1; }
-    pj->fields = g;
-    pj->cap_fields = need;
+    csv_field *cf = pj->carried + pj->rows * pj->ncarry;
+    for (size_t c = 0; c < pj->ncarry; c++) {
+        size_t fi = pj->carry_field[c];
+        cf[c] = fi < nf ? fields[fi] : (csv_field){NULL, 0};
+    }
+    if (++pj->rows == BLOCK_ROWS && flush_block(pj) != 0) {
+        snprintf(pj->err, sizeof pj->err, "write failed");
+        return EXIT_FAILED;
+    }
     return 0;
 }
 
 /* Streams one data file.  Returns 0, or an exit code with pj->err set. */
-static int project_file(projector *pj, chunker *ck, const char *path)
+static int project_file(projector *pj, const char *path)
 {
     source *src = source_open(path, pj->err, sizeof pj->err);
     if (!src) return EXIT_INPUT;
-    chunker_start(ck, src);
+    reader_start(pj->rd, path, 1, pj->delim_opt, 0);
     int rc = 0, at_first = 1;
-    char delim = pj->delim_opt;
-    uint64_t line_base = 0;
-    size_t p = pj->r->p;
-    /* The largest field index the hot loop reads. */
-    size_t max_field = 0;
-    for (;;) {
-        chunk ch;
-        int got = chunker_next(ck, &ch, pj->err, sizeof pj->err);
-        if (got < 0) { rc = EXIT_INPUT; break; }
-        if (got == 0) break;
-        char *data = ch.data;
-        size_t len = ch.len;
-        if (ch.offset == 0) {
-            size_t bom = csv_bom_length(data, len);
-            data += bom;
-            len -= bom;
-            if (!delim) delim = csv_detect_delimiter(data, len);
-        }
-        csv_reader rd;
-        csv_reader_init_padded(&rd, data, len, delim); /* chunks are padded (io/chunk.h) */
-        for (;;) {
-            size_t nf;
-            if (at_first && fit_fields(pj, rd.pos, rd.end, delim) != 0) { rc = EXIT_RESOURCE; break; }
-            csv_status cs = csv_next(&rd, pj->fields, pj->cap_fields, &nf);
-            if (cs == CSV_END) break;
-            uint64_t line = line_base + rd.record_line + 1;
-            if (cs == CSV_UNTERMINATED) {
-                snprintf(pj->err, sizeof pj->err,
-                         "%s: line %llu: unterminated quote (a quoted field runs to the end of "
-                         "the input)",
-                         path, (unsigned long long)line);
-                rc = EXIT_INPUT;
-                break;
-            }
-            size_t have = nf < pj->cap_fields ? nf : pj->cap_fields;
+    while (!rc) {
+        reader_record rec;
+        reader_status rs = reader_next(pj->rd, &rec);
+        if (rs == READER_RECORD) {
             if (at_first) {
                 at_first = 0;
-                if (map_header(pj, path, pj->fields, have) != 0) { rc = EXIT_INPUT; break; }
-                for (size_t j = 0; j < p; j++)
-                    if (pj->field_of[j] > max_field) max_field = pj->field_of[j];
-                for (size_t c = 0; c < pj->ncarry; c++)
-                    if (pj->carry_field[c] > max_field) max_field = pj->carry_field[c];
-                if (max_field + 2 > pj->cap_fields) {
-                    csv_field *g = realloc(pj->fields, (max_field + 2) * sizeof *g);
-                    if (!g) { snprintf(pj->err, sizeof pj->err, "out of memory"); rc = EXIT_RESOURCE; break; }
-                    pj->fields = g;
-                    pj->cap_fields = max_field + 2;
-                }
+                if (map_header(pj, path, rec.fields, rec.nfields) != 0) { rc = EXIT_INPUT; break; }
                 if (pj->header) continue;
             }
-            double *x = pj->x + pj->rows * p;
-            for (size_t j = 0; j < p; j++) {
-                size_t fi = pj->field_of[j];
-                double v = NAN;
-                if (fi < have) {
-                    const csv_field *f = &pj->fields[fi];
-                    number_decimal dec;
-                    if (!is_missing(pj, f->ptr, f->len) &&
-                        number_parse(f->ptr, f->len, &dec) == NUMBER_FINITE)
-                        v = dec.value;
-                }
-                x[j] = v;
-            }
-            csv_field *cf = pj->carried + pj->rows * pj->ncarry;
-            for (size_t c = 0; c < pj->ncarry; c++) {
-                size_t fi = pj->carry_field[c];
-                cf[c] = fi < have ? pj->fields[fi] : (csv_field){NULL, 0};
-            }
-            if (++pj->rows == BLOCK_ROWS && flush_block(pj) != 0) {
+            rc = project_record(pj, rec.fields, rec.nfields);
+        } else if (rs == READER_CHUNK_END) {
+            /* Carried fields point into the chunk: finish the block with it. */
+            if (flush_block(pj) != 0) {
                 snprintf(pj->err, sizeof pj->err, "write failed");
                 rc = EXIT_FAILED;
-                break;
             }
-        }
-        if (rc) break;
-        line_base += rd.lines;
-        /* Carried fields point into the chunk: finish the block with it. */
-        if (flush_block(pj) != 0) {
-            snprintf(pj->err, sizeof pj->err, "write failed");
-            rc = EXIT_FAILED;
+        } else if (rs == READER_WANT) {
+            if (reader_pull(pj->rd, src) < 0) rs = READER_ERROR;
+        } else if (rs == READER_END) {
             break;
+        }
+        if (rs == READER_ERROR) {
+            snprintf(pj->err, sizeof pj->err, "%s", reader_error(pj->rd));
+            rc = EXIT_INPUT;
         }
     }
     if (!rc && at_first) {
@@ -359,6 +304,7 @@ int cmd_project(int argc, char **argv)
     const char *pca_path = NULL, *out_path = NULL, *delim_s = NULL, *carry_s = NULL;
     const char *basis = NULL, *cols = NULL, *exclude = NULL, *keep = NULL;
     const char *k_s = NULL, *share_s = NULL, *numshare_s = NULL;
+    const char *chunk = NULL, *maxrec = NULL;
     int with_target = 0, no_header = 0;
     const cli_option opts[] = {
         {"pca", 0, "FILE.sheaf", "summary of the data the components come from (required)",
@@ -381,6 +327,8 @@ int cmd_project(int argc, char **argv)
         {"delim", 'd', "CHAR", "field delimiter: , ; | or tab (default: detected per file)",
          &delim_s, NULL},
         {"no-header", 0, NULL, "first row is data; columns are named col1..colN", NULL, &no_header},
+        {"chunk-size", 0, "SIZE", "bytes per chunk, e.g. 4M (default 4 MiB)", &chunk, NULL},
+        {"max-record", 0, "SIZE", "longest record accepted (default 64 MiB)", &maxrec, NULL},
         {0},
     };
     const cli_command cmd = {
@@ -399,7 +347,6 @@ int cmd_project(int argc, char **argv)
     summary *s = NULL;
     pca_result *r = NULL;
     char *carry_buf = NULL;
-    chunker *ck = NULL;
     char err[1024];
     projector pj;
     memset(&pj, 0, sizeof pj);
@@ -423,19 +370,19 @@ int cmd_project(int argc, char **argv)
     pj.s = s;
     pj.r = r;
     pj.header = !no_header;
-    for (uint32_t i = 0; i < s->opt.n_missing; i++) {
-        size_t l = strlen(s->opt.missing[i]);
-        pj.miss_len[i] = l;
-        if (l < 64) pj.miss_mask |= 1ull << l;
-    }
+    reader_missing_init(&pj.missing, s->opt.missing, s->opt.n_missing);
+    reader_options ro;
+    reader_options_defaults(&ro);
+    if (cli_parse_reading("project", chunk, maxrec, &ro.chunk_bytes, &ro.max_record_bytes)) goto done;
+    ro.delim = pj.delim_opt;
     pj.field_of = malloc(r->p * sizeof *pj.field_of);
     pj.carry_field = malloc((pj.ncarry + 1) * sizeof *pj.carry_field);
     pj.x = malloc(BLOCK_ROWS * r->p * sizeof *pj.x);
     pj.scores = malloc(BLOCK_ROWS * pj.k * sizeof *pj.scores);
     pj.carried = malloc((BLOCK_ROWS * pj.ncarry + 1) * sizeof *pj.carried);
     pj.row_bytes = pj.k * 26 + 2;
-    ck = chunker_create(4u << 20, 64u << 20);
-    if (!pj.field_of || !pj.carry_field || !pj.x || !pj.scores || !pj.carried || !ck) {
+    pj.rd = reader_create(&ro);
+    if (!pj.field_of || !pj.carry_field || !pj.x || !pj.scores || !pj.carried || !pj.rd) {
         cli_error("project", "out of memory");
         rc = EXIT_RESOURCE;
         goto done;
@@ -464,7 +411,7 @@ int cmd_project(int argc, char **argv)
         }
     }
     rc = EXIT_DONE;
-    for (size_t i = 0; i < npos && rc == EXIT_DONE; i++) rc = project_file(&pj, ck, pos[i]);
+    for (size_t i = 0; i < npos && rc == EXIT_DONE; i++) rc = project_file(&pj, pos[i]);
     if (rc != EXIT_DONE) cli_error("project", "%s", pj.err);
 done:
     if (out && rc != EXIT_DONE) {
@@ -473,13 +420,13 @@ done:
         cli_error("project", "%s", err);
         rc = EXIT_FAILED;
     }
-    chunker_free(ck);
+    reader_free(pj.rd);
+    free(pj.name);
     free(pj.field_of);
     free(pj.carry_field);
     free(pj.x);
     free(pj.scores);
     free(pj.carried);
-    free(pj.fields);
     free(pj.carry);
     free(carry_buf);
     pca_result_free(r);

@@ -91,20 +91,7 @@ int cmd_scan(int argc, char **argv)
         cli_error("scan", "--delim must be one character or 'tab', got '%s'", delim);
         goto done;
     }
-    if (chunk) {
-        if ((v = cli_parse_size(chunk)) < 64 || v > (1ll << 32)) {
-            cli_error("scan", "--chunk-size must be a size between 64 and 4G, got '%s'", chunk);
-            goto done;
-        }
-        o.chunk_bytes = (size_t)v;
-    }
-    if (maxrec) {
-        if ((v = cli_parse_size(maxrec)) < 64) {
-            cli_error("scan", "--max-record must be a size of at least 64, got '%s'", maxrec);
-            goto done;
-        }
-        o.max_record_bytes = (size_t)v;
-    }
+    if (cli_parse_reading("scan", chunk, maxrec, &o.chunk_bytes, &o.max_record_bytes)) goto done;
     if (levels) {
         if ((v = cli_parse_count(levels)) < 1 || v > (1 << 24)) {
             cli_error("scan", "--max-levels must be between 1 and 16777216, got '%s'", levels);

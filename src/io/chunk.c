@@ -8,19 +8,29 @@
 #include <string.h>
 #include <unistd.h>
 
-#define READ_STEP (1u << 20) /* bytes asked of the source per read */
+#include "io/csv.h"
+
+#define MARK_BYTES (1u << 20) /* spacing of the marks chunks end before */
 
 struct chunker {
-    char *buf;            /* buffered decompressed bytes */
-    size_t cap;           /* allocated bytes of buf */
+    char *buf;            /* buffered bytes, CHUNK_PADDING zero bytes after them */
+    size_t cap;           /* allocated bytes of buf (padding aside) */
     size_t len;           /* bytes held */
-    size_t consumed;      /* bytes of buf handed out in the last chunk */
+    size_t start;         /* buf offset of the next chunk's first byte */
+    uint64_t base;        /* stream offset of buf[0] */
     size_t chunk_bytes;   /* target chunk size */
     size_t max_record;    /* longest record accepted */
-    uint64_t offset;      /* source offset of buf[0] */
-    uint64_t limit;       /* stop after the record containing this offset */
-    source *src;          /* current source */
-    int eof;              /* source exhausted */
+    uint64_t mark_step;   /* g: min(MARK_BYTES, chunk_bytes) */
+    const char *name;     /* the stream's name, for messages */
+    int ended;            /* no more bytes follow */
+    int dialect_set;      /* the delimiter is known */
+    char delim;           /* field delimiter */
+    size_t skip;          /* bytes before the first record (BOM) */
+    /* The quote scan of the chunk being cut, kept between calls. */
+    csv_quote_state quote; /* state after byte `scanned` */
+    uint64_t scanned;      /* stream offset the scan has reached */
+    uint64_t mark;         /* the mark the chunk is tried at (0: chunk not begun) */
+    uint64_t best;         /* last record end found since the chunk start */
 };
 
 chunker *chunker_create(size_t chunk_bytes, size_t max_record_bytes)
@@ -29,9 +39,9 @@ chunker *chunker_create(size_t chunk_bytes, size_t max_record_bytes)
     if (!c) return NULL;
     c->chunk_bytes = chunk_bytes < 64 ? 64 : chunk_bytes;
     c->max_record = max_record_bytes;
+    c->mark_step = c->chunk_bytes < MARK_BYTES ? c->chunk_bytes : MARK_BYTES;
     c->cap = c->chunk_bytes * 2;
-    c->buf = malloc(c->cap + 1 + CHUNK_PADDING);
-    if (c->buf) memset(c->buf, 0, 1 + CHUNK_PADDING);
+    c->buf = calloc(1, c->cap + 1 + CHUNK_PADDING);
     if (!c->buf) { free(c); return NULL; }
     return c;
 }
@@ -43,121 +53,134 @@ void chunker_free(chunker *c)
     free(c);
 }
 
-void chunker_start(chunker *c, source *src)
+void chunker_start(chunker *c, const char *name)
 {
-    c->src = src;
-    c->len = c->consumed = 0;
-    c->offset = 0;
-    c->eof = 0;
-    c->limit = 0;
+    c->name = name;
+    c->len = c->start = 0;
+    c->base = 0;
+    c->ended = c->dialect_set = 0;
+    c->mark = 0;
+    memset(c->buf, 0, 1 + CHUNK_PADDING);
 }
 
-void chunker_set_limit(chunker *c, uint64_t limit) { c->limit = limit; }
-
-size_t chunk_last_record_end(const char *data, size_t len)
+void chunker_set_dialect(chunker *c, char delim, size_t skip_bytes)
 {
-    /* Walk the quotes; remember the last '\n' seen in an even-parity stretch. */
-    size_t best = len + 1, pos = 0;
-    int inside = 0;
-    while (pos < len) {
-        const char *q = memchr(data + pos, '"', len - pos);
-        size_t stop = q ? (size_t)(q - data) : len;
-        if (!inside && stop > pos) {
-            const char *nl = memrchr(data + pos, '\n', stop - pos);
-            if (nl) best = (size_t)(nl - data) + 1;
-        }
-        if (!q) break;
-        inside = !inside;
-        pos = stop + 1;
+    c->delim = delim;
+    c->skip = skip_bytes;
+    c->dialect_set = 1;
+}
+
+char *chunker_space(chunker *c, size_t *room, char *err, size_t errlen)
+{
+    if (c->start) { /* drop what was handed out */
+        memmove(c->buf, c->buf + c->start, c->len - c->start);
+        c->len -= c->start;
+        c->base += c->start;
+        c->start = 0;
     }
-    return best == len + 1 ? len + 1 : best;
-}
-
-/* Reads more bytes into buf; returns bytes added, 0 at EOF, -1 on error. */
-static ssize_t fill(chunker *c, char *err, size_t errlen)
-{
     if (c->len == c->cap) {
-        size_t cap = c->cap * 2;
-        if (cap > c->max_record + c->chunk_bytes) cap = c->max_record + c->chunk_bytes;
-        if (cap <= c->cap) return 0;
+        /* One record longer than a chunk, or bytes held for detection: grow,
+         * within what a chunk plus the longest record can need. */
+        size_t limit = c->chunk_bytes + MARK_BYTES + c->max_record;
+        size_t cap = c->cap * 2 > limit ? limit : c->cap * 2;
+        if (cap <= c->cap) {
+            snprintf(err, errlen, "%s: record at byte %llu is longer than the %zu-byte limit "
+                     "(an unterminated quote, or raise --max-record)",
+                     c->name, (unsigned long long)c->base, c->max_record);
+            return NULL;
+        }
         char *p = realloc(c->buf, cap + 1 + CHUNK_PADDING);
-        if (!p) { snprintf(err, errlen, "%s: out of memory", source_path(c->src)); return -1; }
+        if (!p) { snprintf(err, errlen, "%s: out of memory", c->name); return NULL; }
         c->buf = p;
         c->cap = cap;
     }
-    /* At most READ_STEP per call, so that only about a chunk's worth of the
-     * buffer is ever touched. */
-    size_t room = c->cap - c->len;
-    ssize_t n = source_read(c->src, c->buf + c->len, room < READ_STEP ? room : READ_STEP);
-    if (n < 0) { snprintf(err, errlen, "%s", source_error(c->src)); return -1; }
-    if (n == 0) c->eof = 1;
-    c->len += (size_t)n;
-    memset(c->buf + c->len, 0, CHUNK_PADDING); /* the tokenizer may read past the end */
+    *room = c->cap - c->len;
+    return c->buf + c->len;
+}
+
+void chunker_commit(chunker *c, size_t n)
+{
+    c->len += n;
+    memset(c->buf + c->len, 0, 1 + CHUNK_PADDING); /* the tokenizer may read past the end */
+}
+
+size_t chunker_feed(chunker *c, const void *data, size_t len, char *err, size_t errlen)
+{
+    size_t room;
+    char *p = chunker_space(c, &room, err, errlen);
+    if (!p) return 0;
+    size_t n = len < room ? len : room;
+    memcpy(p, data, n);
+    chunker_commit(c, n);
     return n;
 }
 
-static int too_long(const chunker *c, size_t start, char *err, size_t errlen)
+void chunker_finish(chunker *c) { c->ended = 1; }
+
+int chunker_done(const chunker *c) { return c->ended && c->start == c->len; }
+
+const char *chunker_pending(const chunker *c, size_t *len)
+{
+    *len = c->len - c->start;
+    return c->buf + c->start;
+}
+
+static int too_long(const chunker *c, uint64_t at, char *err, size_t errlen)
 {
     snprintf(err, errlen, "%s: record at byte %llu is longer than the %zu-byte limit "
              "(an unterminated quote, or raise --max-record)",
-             source_path(c->src), (unsigned long long)(c->offset + start), c->max_record);
+             c->name, (unsigned long long)at, c->max_record);
     return -1;
+}
+
+/* Hands out [start, end) (stream offsets) as the next chunk. */
+static int emit(chunker *c, uint64_t end, chunk *out)
+{
+    size_t at = c->start, n = (size_t)(end - c->base) - at;
+    out->data = c->buf + at;
+    out->len = n;
+    out->offset = c->base + at;
+    c->start = at + n;
+    out->last = c->ended && c->start == c->len;
+    c->mark = 0;
+    return 1;
 }
 
 int chunker_next(chunker *c, chunk *out, char *err, size_t errlen)
 {
-    /* Drop what the previous chunk used. */
-    if (c->consumed) {
-        memmove(c->buf, c->buf + c->consumed, c->len - c->consumed);
-        c->len -= c->consumed;
-        c->offset += c->consumed;
-        c->consumed = 0;
+    if (!c->dialect_set || c->start == c->len) return 0;
+    const uint64_t s = c->base + c->start, held = c->base + c->len;
+    if (!c->mark) { /* a new chunk: its first mark, and the scan from its start */
+        uint64_t want = s + c->chunk_bytes, g = c->mark_step;
+        c->mark = (want + g - 1) / g * g;
+        uint64_t first = s < c->skip ? c->skip : s;
+        csv_quote_init(&c->quote, c->delim);
+        c->scanned = first;
+        c->best = s;
     }
-    if (c->limit && c->offset > c->limit) return 0; /* past the range: done */
     for (;;) {
-        while (!c->eof && c->len < c->chunk_bytes) {
-            if (fill(c, err, errlen) < 0) return -1;
+        if (held < c->mark && !c->ended) return 0;
+        uint64_t upto = held < c->mark ? held : c->mark;
+        if (upto > c->scanned) {
+            size_t from = (size_t)(c->scanned - c->base), n = (size_t)(upto - c->scanned);
+            size_t r = csv_quote_scan(&c->quote, c->buf + from, n, 0);
+            if (r <= n) c->best = c->scanned + r;
+            c->scanned = upto;
         }
-        if (c->len == 0) return 0;
-        if (c->eof) {
-            out->data = c->buf;
-            out->len = c->len;
-            out->offset = c->offset;
-            out->last = 1;
-            c->consumed = c->len;
-            c->buf[c->len] = '\0';
-            return 1;
+        int final = c->ended && upto == held;
+        /* The open record (from the last record end) must fit the limit. */
+        if (upto - c->best > c->max_record && !(final && c->best == held)) {
+            if (c->best > s) return emit(c, c->best, out);
+            return too_long(c, c->best, err, errlen);
         }
-        size_t cut = chunk_last_record_end(c->buf, c->len);
-        if (cut <= c->len && cut >= c->chunk_bytes) {
-            out->data = c->buf;
-            out->len = cut;
-            out->offset = c->offset;
-            out->last = 0;
-            c->consumed = cut;
-            return 1;
-        }
-        /* No record end at or past chunk_bytes: read on, unless the record
-         * after the last record end is already over the limit. */
-        size_t open_start = cut <= c->len ? cut : 0;
-        if (c->len - open_start >= c->max_record) {
-            if (open_start == 0) return too_long(c, 0, err, errlen);
-            /* Hand out the records before it; the next call reports it. */
-            out->data = c->buf;
-            out->len = open_start;
-            out->offset = c->offset;
-            out->last = 0;
-            c->consumed = open_start;
-            return 1;
-        }
-        ssize_t n = fill(c, err, errlen);
-        if (n < 0) return -1;
-        if (n == 0 && !c->eof) return too_long(c, open_start, err, errlen);
+        if (c->best >= s + c->chunk_bytes) return emit(c, c->best, out);
+        if (final) return emit(c, held, out);
+        c->mark += c->mark_step;
     }
 }
 
-int chunk_find_record_start(const char *path, uint64_t offset, uint64_t *start, char *err,
-                            size_t errlen)
+int chunk_find_record_start(const char *path, uint64_t offset, char delim, uint64_t *start,
+                            char *err, size_t errlen)
 {
     if (offset == 0) { *start = 0; return 0; }
     int fd = open(path, O_RDONLY | O_CLOEXEC);
@@ -168,10 +191,12 @@ int chunk_find_record_start(const char *path, uint64_t offset, uint64_t *start, 
     enum { BLOCK = 1 << 20 };
     char *buf = malloc(BLOCK);
     if (!buf) { close(fd); snprintf(err, errlen, "out of memory"); return -1; }
-    /* Record starts are positions p with data[p-1] == '\n' outside quotes;
-     * look for the first one with p >= offset, i.e. a newline at >= offset-1. */
+    /* Record starts are positions p just after a record end; the first with
+     * p >= offset ends at a newline at >= offset - 1. */
+    csv_quote_state q;
+    csv_quote_init(&q, delim);
     uint64_t pos = 0, want = offset - 1;
-    int inside = 0, rc = 1;
+    int rc = 1;
     while (rc == 1) {
         ssize_t n = read(fd, buf, BLOCK);
         if (n < 0 && errno == EINTR) continue;
@@ -182,19 +207,17 @@ int chunk_find_record_start(const char *path, uint64_t offset, uint64_t *start, 
         }
         if (n == 0) { *start = pos; rc = 0; break; } /* no record starts in the rest */
         size_t i = 0, len = (size_t)n;
-        while (i < len) {
-            if (pos + i < want) {
-                /* Before the target: only quotes matter. */
-                size_t stop = want - pos < len ? (size_t)(want - pos) : len;
-                const char *q = memchr(buf + i, '"', stop - i);
-                if (q) { inside = !inside; i = (size_t)(q - buf) + 1; }
-                else i = stop;
-                continue;
-            }
-            char ch = buf[i];
-            if (ch == '"') inside = !inside;
-            else if (ch == '\n' && !inside) { *start = pos + i + 1; rc = 0; break; }
-            i++;
+        if (pos == 0 && len >= 3 && (unsigned char)buf[0] == 0xEF &&
+            (unsigned char)buf[1] == 0xBB && (unsigned char)buf[2] == 0xBF)
+            i = 3; /* the byte-order mark belongs to no record */
+        if (pos + i < want) { /* before the target: only the quote state matters */
+            size_t stop = want - pos < len ? (size_t)(want - pos) : len;
+            csv_quote_scan(&q, buf + i, stop - i, 0);
+            i = stop;
+        }
+        if (i < len) {
+            size_t r = csv_quote_scan(&q, buf + i, len - i, 1);
+            if (r <= len - i) { *start = pos + i + r; rc = 0; }
         }
         pos += len;
     }

@@ -1,15 +1,24 @@
-/* chunk: cuts a byte source into chunks of whole records.
+/* chunk: cuts a stream of bytes into chunks of whole records.
  *
- * A chunk is at least `chunk_bytes` long (except the last) and ends just
- * after a record terminator ('\n') that lies outside quotes, so every chunk
- * can be tokenized on its own, in any thread.  The quote state at a cut is
- * found by parity: in RFC 4180 text a '"' toggles "inside quotes" and a
- * doubled quote toggles twice, so a '\n' is a record end exactly when an even
- * number of quotes precedes it in the chunk.  Quotes are located with memchr
- * and newlines with memrchr, so unquoted data is scanned at memory speed.
+ * The chunker is fed: the caller appends bytes (chunker_space, then
+ * chunker_commit, or chunker_feed), says when they end (chunker_finish), and
+ * takes the chunks that are complete (chunker_next).  It never reads a file
+ * itself.
  *
- * A record longer than the buffer grows it, up to `max_record_bytes`; past
- * that the reader stops with an error giving the byte offset of the record.
+ * Where a chunk ends is decided by the bytes alone, never by how they were
+ * fed or read, so that any split of the same bytes gives the same chunks.
+ * Records end where the quote rule of io/csv.h says ('\n' outside quotes,
+ * found by csv_quote_scan), so every chunk can be tokenized on its own, in
+ * any thread.  With g = min(1 MiB, chunk_bytes) and marks at the multiples
+ * of g (offsets counted from the first byte of the stream), a chunk starting
+ * at S ends at the last record end at or before the first mark E >=
+ * S + chunk_bytes for which that record end lies at or after S + chunk_bytes;
+ * the last chunk holds whatever is left.  (The marks are where a reader
+ * asking 1 MiB at a time stops, so a chunk is cut from whole reads; the
+ * chunks equal those of the earlier read-driven chunker on plain files.)
+ *
+ * A record longer than max_record_bytes stops the chunker with an error that
+ * gives the record's byte offset.
  */
 #ifndef SHEAF_CHUNK_H
 #define SHEAF_CHUNK_H
@@ -17,46 +26,58 @@
 #include <stddef.h>
 #include <stdint.h>
 
-#include "io/source.h"
-
 /* Bytes after the end of every chunk that may be read (never written): the
- * tokenizer loads whole 64-byte blocks.  Their content is unspecified. */
+ * tokenizer loads whole 64-byte blocks.  They are zero past the fed data. */
 #define CHUNK_PADDING 64
 
 typedef struct {
     char *data;      /* chunk bytes, writable (the tokenizer unquotes in place) */
     size_t len;      /* bytes in the chunk */
-    uint64_t offset; /* decompressed offset of data[0] in the source */
-    int last;        /* no more chunks follow from this source */
+    uint64_t offset; /* offset of data[0] in the stream */
+    int last;        /* the stream ends with this chunk */
 } chunk;
 
 typedef struct chunker chunker;
 
 chunker *chunker_create(size_t chunk_bytes, size_t max_record_bytes);
 void chunker_free(chunker *c);
-/* Starts reading a new source (the previous one must be exhausted). */
-void chunker_start(chunker *c, source *src);
-/* Stops the current source early after `limit` decompressed bytes have been
- * *started*: the chunk that contains offset `limit` is completed to its
- * record end, then reading ends (byte-range shards).  0 disables. */
-void chunker_set_limit(chunker *c, uint64_t limit);
-/* Next chunk.  Returns 1 with *out filled, 0 at end of source, -1 on error
- * (message in err).  The chunk stays valid until the next call. */
-int chunker_next(chunker *c, chunk *out, char *err, size_t errlen);
+/* Starts a new stream (the previous one is dropped).  `name` is used in
+ * messages and must outlive the stream. */
+void chunker_start(chunker *c, const char *name);
+/* The delimiter the quote rule needs, and the bytes at the start of the
+ * stream that belong to no record (a byte-order mark).  No chunk is cut
+ * before this is set. */
+void chunker_set_dialect(chunker *c, char delim, size_t skip_bytes);
 
-/* Offset just after the last record end ('\n' outside quotes) in
- * data[0..len), for text that starts outside quotes; len + 1 if there is none.
- * Exposed for tests. */
-size_t chunk_last_record_end(const char *data, size_t len);
+/* Space for at least one more byte after the buffered ones: *room bytes at
+ * the returned pointer.  Moves the buffer, so chunks handed out before are
+ * invalid afterwards: call it only once chunker_next has returned 0.
+ * Returns NULL with a message when the buffer cannot grow. */
+char *chunker_space(chunker *c, size_t *room, char *err, size_t errlen);
+/* n bytes were written at the space. */
+void chunker_commit(chunker *c, size_t n);
+/* Copies up to len bytes in (as space + commit); returns how many. */
+size_t chunker_feed(chunker *c, const void *data, size_t len, char *err, size_t errlen);
+/* No more bytes follow in this stream. */
+void chunker_finish(chunker *c);
+
+/* Next complete chunk.  Returns 1 with *out filled, 0 when more bytes are
+ * needed (or the stream is done: chunker_done), -1 on error (message in err).
+ * Chunks stay valid until the next chunker_space or chunker_feed. */
+int chunker_next(chunker *c, chunk *out, char *err, size_t errlen);
+/* The stream was finished and every byte has been handed out. */
+int chunker_done(const chunker *c);
+/* The bytes buffered and not yet handed out (for dialect detection). */
+const char *chunker_pending(const chunker *c, size_t *len);
 
 /* Byte-range shards.  The first record that starts at or after `offset` in a
- * plain file.  The rule is provably right for RFC 4180 text: a record starts
- * right after a '\n' preceded by an even number of quotes, so the quotes of
- * the whole prefix [0, offset) are counted (memchr over the file, no
- * parsing), then the first such '\n' at or after offset - 1 is found.
- * Returns 0 and sets *start (the file size when no record starts there), or
- * -1 with a message. */
-int chunk_find_record_start(const char *path, uint64_t offset, uint64_t *start, char *err,
-                            size_t errlen);
+ * plain file, under the quote rule with the given delimiter.  The rule is
+ * provably right: the quote state of the whole prefix [0, offset) is
+ * followed (csv_quote_scan: memchr over the file, no tokenizing), then the
+ * first record end at or after offset - 1 is found.  A byte-order mark at
+ * the start is skipped.  Returns 0 and sets *start (the file size when no
+ * record starts there), or -1 with a message. */
+int chunk_find_record_start(const char *path, uint64_t offset, char delim, uint64_t *start,
+                            char *err, size_t errlen);
 
 #endif

@@ -3,10 +3,41 @@
  * only when they contain a doubled quote. */
 #include "io/csv.h"
 
+#include <stdlib.h>
 #include <string.h>
 #if defined(__SSE2__)
 #include <emmintrin.h>
 #endif
+
+void csv_record_free(csv_record *rec)
+{
+    free(rec->fields);
+    rec->fields = NULL;
+    rec->nfields = rec->cap = 0;
+}
+
+/* Room for one more field; 0, or -1 when out of memory. */
+static __attribute__((noinline)) int grow(csv_record *rec)
+{
+    size_t cap = rec->cap ? rec->cap * 2 : 16;
+    csv_field *f = realloc(rec->fields, cap * sizeof *f);
+    if (!f) return -1;
+    rec->fields = f;
+    rec->cap = cap;
+    return 0;
+}
+
+/* Stores field n of the current record, growing the buffer first when full. */
+#define STORE_FIELD(n, p, l)                                                                   \
+    do {                                                                                       \
+        if ((n) >= cap) {                                                                      \
+            if (grow(rec) != 0) return CSV_NOMEM;                                              \
+            fields = rec->fields;                                                              \
+            cap = rec->cap;                                                                    \
+        }                                                                                      \
+        fields[n].ptr = (p);                                                                   \
+        fields[n].len = (l);                                                                   \
+    } while (0)
 
 /* The first byte at or after p that is the delimiter or '\n', or end.  Eight
  * bytes at a time: a byte b of word w equals c exactly when byte b of
@@ -151,11 +182,12 @@ static char *record_begin(csv_reader *r)
 
 /* csv_next for a padded reader: the same record, with field ends found
  * through the block mask. */
-static csv_status next_padded(csv_reader *r, csv_field *fields, size_t max_fields,
-                              size_t *nfields)
+static csv_status next_padded(csv_reader *r, csv_record *rec)
 {
     char *p = record_begin(r), *end = r->end;
     const char delim = r->delim;
+    csv_field *fields = rec->fields;
+    size_t cap = rec->cap;
     if (!p) return CSV_END;
     size_t n = 0;
     for (;;) {
@@ -164,17 +196,11 @@ static csv_status next_padded(csv_reader *r, csv_field *fields, size_t max_field
             uint32_t flen;
             s = quoted(r, p + 1, end, delim, &flen);
             if (!s) { r->pos = end; return CSV_UNTERMINATED; }
-            if (n < max_fields) {
-                fields[n].ptr = p + 1;
-                fields[n].len = flen;
-            }
+            STORE_FIELD(n, p + 1, flen);
         } else {
             s = next_mark(r, p);
             if (s < end && *s == delim) { /* the common case */
-                if (n < max_fields) {
-                    fields[n].ptr = p;
-                    fields[n].len = (uint32_t)(s - p);
-                }
+                STORE_FIELD(n, p, (uint32_t)(s - p));
                 n++;
                 p = s + 1;
                 continue;
@@ -182,10 +208,7 @@ static csv_status next_padded(csv_reader *r, csv_field *fields, size_t max_field
             while (s < end && *s == '"') s = next_mark(r, s + 1); /* a quote inside: data */
             uint32_t flen = (uint32_t)(s - p);
             if (flen && p[flen - 1] == '\r' && (s == end || *s == '\n')) flen--;
-            if (n < max_fields) {
-                fields[n].ptr = p;
-                fields[n].len = flen;
-            }
+            STORE_FIELD(n, p, flen);
         }
         n++;
         if (s >= end) { p = end; break; }
@@ -196,15 +219,17 @@ static csv_status next_padded(csv_reader *r, csv_field *fields, size_t max_field
         break;
     }
     r->pos = p;
-    *nfields = n;
+    rec->nfields = n;
     return CSV_RECORD;
 }
 
-csv_status csv_next(csv_reader *r, csv_field *fields, size_t max_fields, size_t *nfields)
+csv_status csv_next(csv_reader *r, csv_record *rec)
 {
-    if (r->padded) return next_padded(r, fields, max_fields, nfields);
+    if (r->padded) return next_padded(r, rec);
     char *p = record_begin(r), *end = r->end;
     const char delim = r->delim;
+    csv_field *fields = rec->fields;
+    size_t cap = rec->cap;
     if (!p) return CSV_END;
     size_t n = 0;
     for (;;) {
@@ -222,10 +247,7 @@ csv_status csv_next(csv_reader *r, csv_field *fields, size_t max_fields, size_t 
             flen = (uint32_t)(p - s);
             if (flen && s[flen - 1] == '\r' && (p == end || *p == '\n')) flen--;
         }
-        if (n < max_fields) {
-            fields[n].ptr = fstart;
-            fields[n].len = flen;
-        }
+        STORE_FIELD(n, fstart, flen);
         n++;
         if (p >= end) break;
         if (*p == delim) { p++; continue; }
@@ -234,15 +256,16 @@ csv_status csv_next(csv_reader *r, csv_field *fields, size_t max_fields, size_t 
         break;
     }
     r->pos = p;
-    *nfields = n;
+    rec->nfields = n;
     return CSV_RECORD;
 }
 
-csv_status csv_next_raw(csv_reader *r, csv_field *fields, size_t max_fields, size_t *nfields,
-                        const char **eol, size_t *eol_len)
+csv_status csv_next_raw(csv_reader *r, csv_record *rec, const char **eol, size_t *eol_len)
 {
     char *p = record_begin(r), *end = r->end;
     const char delim = r->delim;
+    csv_field *fields = rec->fields;
+    size_t cap = rec->cap;
     if (!p) return CSV_END;
     size_t n = 0;
     for (;;) {
@@ -261,10 +284,7 @@ csv_status csv_next_raw(csv_reader *r, csv_field *fields, size_t max_fields, siz
         p = field_end(p, end, delim);
         char *stop = p;
         if (stop > start && stop[-1] == '\r' && (p == end || *p == '\n')) stop--;
-        if (n < max_fields) {
-            fields[n].ptr = start;
-            fields[n].len = (uint32_t)(stop - start);
-        }
+        STORE_FIELD(n, start, (uint32_t)(stop - start));
         n++;
         if (p < end && *p == delim) { p++; continue; }
         *eol = stop;
@@ -273,8 +293,70 @@ csv_status csv_next_raw(csv_reader *r, csv_field *fields, size_t max_fields, siz
         break;
     }
     r->pos = p;
-    *nfields = n;
+    rec->nfields = n;
     return CSV_RECORD;
+}
+
+size_t csv_unquote(const char *raw, size_t len, char *out)
+{
+    if (len == 0 || raw[0] != '"') {
+        memcpy(out, raw, len);
+        return len;
+    }
+    size_t i = 1, o = 0;
+    while (i < len) {
+        if (raw[i] != '"') { out[o++] = raw[i++]; continue; }
+        if (i + 1 < len && raw[i + 1] == '"') { out[o++] = '"'; i += 2; continue; }
+        i++; /* the closing quote: the rest is kept as it is */
+        memcpy(out + o, raw + i, len - i);
+        return o + (len - i);
+    }
+    return o;
+}
+
+void csv_quote_init(csv_quote_state *q, char delim)
+{
+    q->mode = CSV_AT_FIELD;
+    q->delim = delim;
+}
+
+size_t csv_quote_scan(csv_quote_state *q, const char *data, size_t len, int first)
+{
+    const char delim = q->delim;
+    csv_quote_mode mode = q->mode;
+    size_t best = len + 1, pos = 0;
+    while (pos < len) {
+        if (mode == CSV_IN_QUOTES) {
+            const char *e = memchr(data + pos, '"', len - pos);
+            if (!e) { pos = len; break; }
+            pos = (size_t)(e - data) + 1;
+            mode = CSV_QUOTE_SEEN;
+            continue;
+        }
+        if (mode == CSV_QUOTE_SEEN) {
+            if (data[pos] == '"') { mode = CSV_IN_QUOTES; pos++; continue; }
+            mode = CSV_IN_FIELD; /* closed: the byte at pos is outside quotes */
+        }
+        /* Outside quotes: newlines end records; a quote opens quotes only as
+         * the first byte of a field. */
+        const char *e = memchr(data + pos, '"', len - pos);
+        size_t stop = e ? (size_t)(e - data) : len;
+        if (stop > pos) {
+            const char *nl = first ? memchr(data + pos, '\n', stop - pos)
+                                   : memrchr(data + pos, '\n', stop - pos);
+            if (nl) {
+                best = (size_t)(nl - data) + 1;
+                if (first) { q->mode = CSV_AT_FIELD; return best; }
+            }
+            char last = data[stop - 1];
+            mode = last == delim || last == '\n' ? CSV_AT_FIELD : CSV_IN_FIELD;
+        }
+        if (!e) { pos = len; break; }
+        mode = mode == CSV_AT_FIELD ? CSV_IN_QUOTES : CSV_IN_FIELD;
+        pos = stop + 1;
+    }
+    q->mode = mode;
+    return best;
 }
 
 char csv_detect_delimiter(const char *data, size_t len)
@@ -282,13 +364,24 @@ char csv_detect_delimiter(const char *data, size_t len)
     static const char cands[] = {',', '\t', ';', '|'};
     int best = 0, best_score = -1;
     for (int c = 0; c < 4; c++) {
-        /* Count fields per line outside quotes for the first 50 lines. */
-        int counts[50], lines = 0, inside = 0, fields = 1;
+        /* Count fields per line under the quote rule for the first 50 lines. */
+        int counts[50], lines = 0, fields = 1;
+        csv_quote_mode mode = CSV_AT_FIELD;
         for (size_t i = 0; i < len && lines < 50; i++) {
             char ch = data[i];
-            if (ch == '"') inside = !inside;
-            else if (!inside && ch == cands[c]) fields++;
-            else if (!inside && ch == '\n') { counts[lines++] = fields; fields = 1; }
+            switch (mode) {
+            case CSV_IN_QUOTES: if (ch == '"') mode = CSV_QUOTE_SEEN; continue;
+            case CSV_QUOTE_SEEN:
+                if (ch == '"') { mode = CSV_IN_QUOTES; continue; }
+                break;
+            case CSV_AT_FIELD:
+                if (ch == '"') { mode = CSV_IN_QUOTES; continue; }
+                break;
+            default: break;
+            }
+            mode = CSV_IN_FIELD;
+            if (ch == cands[c]) { fields++; mode = CSV_AT_FIELD; }
+            else if (ch == '\n') { counts[lines++] = fields; fields = 1; mode = CSV_AT_FIELD; }
         }
         if (lines == 0 && fields > 1) counts[lines++] = fields;
         if (lines == 0) continue;

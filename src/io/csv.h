@@ -3,11 +3,22 @@
  * Fields are separated by a one-byte delimiter; a field that starts with '"'
  * is quoted: it may hold delimiters, newlines and doubled quotes ("" -> "),
  * which are unescaped in place (the chunk is writable).  Records end at '\n';
- * a '\r' just before it is dropped (CRLF).  Lenient on two common defects: a
- * quote inside an unquoted field is kept as a character, and text after a
- * closing quote is appended to the field.  A line holding nothing at all is
+ * a '\r' just before it is dropped (CRLF).  A line holding nothing at all is
  * skipped (blank line).  A quoted field still open at the end of the chunk is
  * an unterminated quote.
+ *
+ * The one quote rule.  Every reader of sheaf (the tokenizer below, the
+ * chunker that cuts records, the shard start, the delimiter detection) uses
+ * this rule and no other, so where records end never depends on the chunk
+ * size, the shard count or the thread count:
+ *   - a '"' opens a quoted field only as the first byte of a field (at the
+ *     start of a record or right after a delimiter);
+ *   - inside quotes, '""' is one quote and a lone '"' closes the quotes;
+ *   - elsewhere a '"' is an ordinary byte (a cell such as 5'10" is kept as
+ *     it is), and text after a closing quote up to the next delimiter or
+ *     line end is kept as part of the field;
+ *   - a '\n' outside quotes ends the record.
+ * csv_quote_scan applies it to raw bytes without tokenizing them.
  */
 #ifndef SHEAF_CSV_H
 #define SHEAF_CSV_H
@@ -36,30 +47,68 @@ typedef struct {
 } csv_reader;
 
 typedef enum {
-    CSV_RECORD = 1,      /* a record was read */
-    CSV_END = 0,         /* no more records in the chunk */
-    CSV_UNTERMINATED = -1 /* a quoted field runs to the end of the chunk */
+    CSV_RECORD = 1,       /* a record was read */
+    CSV_END = 0,          /* no more records in the chunk */
+    CSV_UNTERMINATED = -1, /* a quoted field runs to the end of the chunk */
+    CSV_NOMEM = -2        /* the field buffer could not grow */
 } csv_status;
+
+/* The fields of one record.  The buffer grows as a record needs (never sized
+ * by a count made under another rule); free it with csv_record_free. */
+typedef struct {
+    csv_field *fields; /* fields[0..nfields) of the last record read */
+    size_t nfields;    /* fields in the last record */
+    size_t cap;        /* allocated entries */
+} csv_record;
+
+void csv_record_free(csv_record *rec);
 
 void csv_reader_init(csv_reader *r, char *data, size_t len, char delim);
 /* The same, for data followed by at least CSV_READ_AHEAD readable bytes:
  * csv_next then finds field ends 64 bytes at a time (a bit mask of the
  * delimiters, newlines and quotes of a block), with the same results. */
 void csv_reader_init_padded(csv_reader *r, char *data, size_t len, char delim);
-/* Reads the next record: stores up to max_fields fields and sets *nfields
- * to the number of fields the record has (which may exceed max_fields). */
-csv_status csv_next(csv_reader *r, csv_field *fields, size_t max_fields, size_t *nfields);
+/* Reads the next record into rec (all of its fields). */
+csv_status csv_next(csv_reader *r, csv_record *rec);
 
 /* Like csv_next, but leaves the chunk untouched: each field is its raw bytes
  * (quotes and doubled quotes included), and *eol / *eol_len give the
  * record's line terminator ("\n", "\r\n", or empty at the end of input), so
  * that selected fields can be written back byte for byte. */
-csv_status csv_next_raw(csv_reader *r, csv_field *fields, size_t max_fields, size_t *nfields,
-                        const char **eol, size_t *eol_len);
+csv_status csv_next_raw(csv_reader *r, csv_record *rec, const char **eol, size_t *eol_len);
+
+/* The text of a raw field (as csv_next_raw gives it) as csv_next would give
+ * it: outer quotes dropped, doubled quotes halved, text after the closing
+ * quote kept.  out needs len bytes; returns the text's length. */
+size_t csv_unquote(const char *raw, size_t len, char *out);
+
+/* The quote rule's state between two calls of csv_quote_scan. */
+typedef enum {
+    CSV_AT_FIELD = 0,  /* at the first byte of a field (or of a record) */
+    CSV_IN_FIELD = 1,  /* inside an unquoted field, or after a closing quote */
+    CSV_IN_QUOTES = 2, /* inside quotes */
+    CSV_QUOTE_SEEN = 3 /* a quote inside quotes: closing, unless another follows */
+} csv_quote_mode;
+
+typedef struct {
+    csv_quote_mode mode; /* state after the bytes seen so far */
+    char delim;          /* field delimiter */
+} csv_quote_state;
+
+/* Starts at the first byte of a record. */
+void csv_quote_init(csv_quote_state *q, char delim);
+/* Applies the quote rule to data[0..len), continuing from *q and leaving the
+ * state after data[len-1] in *q.  Returns the offset just after the first
+ * (first != 0) or the last record end ('\n' outside quotes) in the data, or
+ * len + 1 when there is none.  With first != 0 the state is left just after
+ * the record end it returns.  Quotes and newlines are found with memchr /
+ * memrchr, so unquoted data passes at memory speed. */
+size_t csv_quote_scan(csv_quote_state *q, const char *data, size_t len, int first);
 
 /* Picks the delimiter among ',', '\t', ';', '|' from a sample of whole
  * records: the candidate that gives the same field count (> 1) on the most
- * lines wins, ties broken in that order; ',' when nothing fits. */
+ * of the first 50 lines wins, ties broken in that order; ',' when nothing
+ * fits.  Fields are counted under the quote rule with each candidate. */
 char csv_detect_delimiter(const char *data, size_t len);
 
 /* Skips a UTF-8 byte-order mark; returns bytes to skip (0 or 3). */

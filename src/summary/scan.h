@@ -1,12 +1,25 @@
-/* scan: one streaming pass over sources into a summary.
+/* scan: one streaming pass over byte streams into a summary.
  *
- * Each source is cut into chunks of whole records (io/chunk) and each chunk
- * is tokenized (io/csv); every SUMMARY_BLOCK_ROWS rows, each column's block
- * of cells is fed to its accumulators.  Chunks are independent units (a
- * worker thread would fill its own summary and summary_merge it into the
- * running one); with one thread they feed the running summary directly.  Numeric cells are parsed by io/number and
- * enter the moments as exact decimal deviations from the column's first
- * value, in blocks of SUMMARY_BLOCK_ROWS rows.  Nothing is allocated per field or row.
+ * A scan context is created from options, fed streams, and finished into a
+ * summary:
+ *
+ *   scan_context *sc = scan_create(&o);
+ *   scan_begin(sc, "night-1");  scan_feed(sc, buf, n) ...;  scan_end(sc);
+ *   scan_source(sc, src);        a byte source the caller opened (io/source.h)
+ *   scan_path(sc, "b.csv.gz");   a file by name ("-" is standard input)
+ *   summary *s = scan_finish(sc);   scan_free(sc);
+ *
+ * Every stream is read by the one record reader (io/reader.h); the first
+ * stream's first record fixes the schema and later streams must share it.
+ * The summary depends on the bytes alone: feeding the same bytes in any
+ * split gives the same summary, byte for byte.  Numeric cells enter the
+ * moments as exact decimal deviations from the column's first value, in
+ * blocks of SUMMARY_BLOCK_ROWS rows (summary/block.h).  Nothing is
+ * allocated per field or row.
+ *
+ * Errors are sticky: after one, every call returns the same status and
+ * scan_error gives the one-line message naming the stream and the line or
+ * byte offset.
  */
 #ifndef SHEAF_SCAN_H
 #define SHEAF_SCAN_H
@@ -14,6 +27,7 @@
 #include <stddef.h>
 #include <stdint.h>
 
+#include "io/source.h"
 #include "summary/summary.h"
 
 
@@ -45,6 +59,37 @@ typedef struct {
 
 /* Defaults: detect the delimiter, header on, 4 MiB chunks, 64 MiB records. */
 void scan_options_defaults(scan_options *o);
+
+typedef struct scan_context scan_context;
+
+/* A context for the options (copied; their strings are borrowed and must
+ * outlive the context).  NULL when out of memory. */
+scan_context *scan_create(const scan_options *o);
+void scan_free(scan_context *sc);
+/* The message of the first error ("" when none). */
+const char *scan_error(const scan_context *sc);
+
+/* A stream of bytes fed by the caller.  `name` goes into messages and into
+ * the summary's source record (format plain, the XXH3-64 of the fed bytes
+ * as its fingerprint). */
+scan_status scan_begin(scan_context *sc, const char *name);
+/* Feeds bytes of the open stream, in pieces of any size. */
+scan_status scan_feed(scan_context *sc, const void *data, size_t len);
+/* Ends the open stream: its last records, its source record. */
+scan_status scan_end(scan_context *sc);
+/* A whole source the caller opened: file, standard input, gzip, zstd. */
+scan_status scan_source(scan_context *sc, source *src);
+/* A file by path ("-": standard input); with shard options, that shard. */
+scan_status scan_path(scan_context *sc, const char *path);
+
+/* Stream offset (decompressed bytes from the stream's first byte) just after
+ * the last complete record absorbed into the summary: the point a resumed
+ * scan would start from. */
+uint64_t scan_position(const scan_context *sc);
+
+/* The summary of everything scanned; the caller owns it.  NULL on an
+ * error, or when nothing was scanned (scan_error tells). */
+summary *scan_finish(scan_context *sc);
 
 /* Scans paths in turn ("-" is standard input); they must share the header.
  * On success *out holds the summary; on failure err names the file and the

@@ -1,0 +1,133 @@
+/* reader: the one record reader of sheaf.
+ *
+ * Every pass over the data (scan, trim, project) reads through it:
+ *
+ *   bytes (fed, or pulled from a source) -> chunker (records cut under the
+ *   quote rule of io/csv.h) -> byte-order mark and delimiter detection at
+ *   the start of a file -> RFC 4180 fields (io/csv) -> line numbers and
+ *   byte offsets -> the reading errors (unterminated quote, record longer
+ *   than the limit, out of memory), each naming the stream and the line or
+ *   the byte offset.
+ *
+ * It is fed like a zstd stream: reader_feed (or reader_space and
+ * reader_commit, or reader_pull from a source) adds bytes, reader_finish
+ * ends them, and reader_next hands out the records that are complete.  The
+ * records, their fields and line numbers depend on the bytes alone, never on
+ * how they were split when fed.  Nothing is allocated per record.
+ *
+ * The missing-cell test every pass applies to a field is here too
+ * (reader_missing), so that all passes agree on what is missing.
+ */
+#ifndef SHEAF_READER_H
+#define SHEAF_READER_H
+
+#include <stddef.h>
+#include <stdint.h>
+#include <string.h>
+
+#include "io/chunk.h"
+#include "io/csv.h"
+#include "io/source.h"
+
+typedef struct {
+    char delim;              /* field delimiter; 0 = detect at the start of a file */
+    size_t chunk_bytes;      /* target chunk size (io/chunk.h) */
+    size_t max_record_bytes; /* longest record accepted */
+    int raw;                 /* fields keep their raw bytes (quotes included), for trim */
+} reader_options;
+
+/* Detect the delimiter, 4 MiB chunks, 64 MiB records, unquoted fields. */
+void reader_options_defaults(reader_options *o);
+
+typedef struct {
+    const csv_field *fields; /* the record's fields, valid until the next reader call */
+    size_t nfields;          /* how many */
+    uint64_t line;           /* 1-based line where the record begins, from the stream start */
+    uint64_t offset;         /* stream offset of the record's first byte */
+    const char *text;        /* the record's first byte */
+    const char *eol;         /* raw mode: the record's line end ("\n", "\r\n", or empty) */
+    size_t eol_len;          /* its length */
+} reader_record;
+
+typedef enum {
+    READER_RECORD = 1,    /* *rec holds a record */
+    READER_CHUNK_END = 2, /* a chunk is done (a point where work may be flushed) */
+    READER_WANT = 0,      /* every complete record is out: feed more, or finish */
+    READER_END = 3,       /* the stream is done (or reached its stop offset) */
+    READER_ERROR = -1     /* reader_error tells why */
+} reader_status;
+
+typedef struct reader reader;
+
+reader *reader_create(const reader_options *o);
+void reader_free(reader *r);
+
+/* Starts a stream named `name` (kept for messages; must outlive the stream).
+ * at_file_start: the stream begins at byte 0 of its file, so a byte-order
+ * mark is skipped and the delimiter detected there.  delim: the delimiter
+ * when already known (a shard after its header), else 0 for the option's
+ * choice.  stop_at: records that start at or after this stream offset are
+ * left to someone else (0: none). */
+void reader_start(reader *r, const char *name, int at_file_start, char delim, uint64_t stop_at);
+
+/* Feeding: copies up to len bytes; returns how many were taken (0 means the
+ * buffer is full: call reader_next first), or (size_t)-1 on an error. */
+size_t reader_feed(reader *r, const void *data, size_t len);
+/* Reads once from src into the reader (at most 1 MiB).  Returns 1 after
+ * reading, 0 at the end of the source (the stream is then finished), -1 on
+ * an error. */
+int reader_pull(reader *r, source *src);
+/* No more bytes follow. */
+void reader_finish(reader *r);
+
+/* The next record or event.  The fields of the records of a chunk stay
+ * valid until the next reader_feed / reader_pull. */
+reader_status reader_next(reader *r, reader_record *rec);
+
+const char *reader_error(const reader *r);
+/* The delimiter in use (0 before it is known). */
+char reader_delim(const reader *r);
+/* Stream offset just after the last record absorbed: the end of the last
+ * chunk done, or where the stream stopped (stop_at). */
+uint64_t reader_absorbed(const reader *r);
+
+/* Bytes of the byte-order mark skipped at the start of the stream. */
+size_t reader_bom_length(const reader *r);
+
+/* The name of column i of a first record, as every pass names columns: the
+ * field's text (unquoted first when raw), or "col<i+1>" when the field is
+ * empty or the file has no header.  out needs f->len + 24 bytes; returns
+ * the name's length (not terminated). */
+size_t reader_column_name(const csv_field *f, size_t i, int header, int raw, char *out);
+
+/* ---- the missing-cell test ---------------------------------------------- */
+
+#define READER_MAX_MISSING 32
+
+typedef struct {
+    const char *spelling[READER_MAX_MISSING]; /* borrowed spellings */
+    size_t len[READER_MAX_MISSING];           /* their lengths */
+    uint32_t n;                               /* how many */
+    /* Bit L of cand[b]: a cell of length L (< 64) starting with byte b may be
+     * missing (empty, or some spelling has that length and first byte);
+     * every other cell is present after one test. */
+    uint64_t cand[256];
+} reader_missing;
+
+/* The empty cell is always missing; n <= READER_MAX_MISSING spellings more.
+ * The spellings are borrowed and must outlive m. */
+void reader_missing_init(reader_missing *m, char *const *spellings, uint32_t n);
+
+/* p[0] is read even when len is 0: cells sit in padded chunks. */
+static inline int reader_is_missing(const reader_missing *m, const char *p, uint32_t len)
+{
+    unsigned char c0 = (unsigned char)p[0];
+    if (len >= 64 || !(m->cand[c0] >> len & 1)) return 0;
+    if (len == 0) return 1;
+    for (uint32_t i = 0; i < m->n; i++)
+        if (m->len[i] == len && m->spelling[i][0] == p[0] && memcmp(m->spelling[i], p, len) == 0)
+            return 1;
+    return 0;
+}
+
+#endif

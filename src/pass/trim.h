@@ -1,0 +1,44 @@
+/* trim: the reduced table, in one more streaming pass over the data.
+ *
+ * Each file is read by the one record reader (io/reader.h, raw fields) and
+ * written with only the kept columns, in their input order, each field's
+ * bytes and quoting as they were, with the input's own line ends.  Columns
+ * are named as the scan names them (reader_column_name): the header's text,
+ * or col1..colN for empty header fields and files without a header.  The
+ * header (and a byte-order mark) is written once; later files must have the
+ * same header.
+ */
+#ifndef SHEAF_TRIM_H
+#define SHEAF_TRIM_H
+
+#include <stddef.h>
+
+#include "out/sink.h"
+
+typedef struct {
+    char *const *keep;       /* names of the columns to keep */
+    size_t nkeep;            /* how many */
+    char delim;              /* field delimiter, 0 = detect in the first file */
+    int header;              /* files start with a header */
+    size_t chunk_bytes;      /* as for the scan */
+    size_t max_record_bytes; /* longest record accepted */
+} trim_options;
+
+typedef enum {
+    TRIM_OK = 0,
+    TRIM_ERR_USAGE = 1,  /* a kept name is not a column */
+    TRIM_ERR_INPUT = 2,  /* unreadable or malformed input */
+    TRIM_ERR_OUTPUT = 3, /* the output could not be written */
+    TRIM_ERR_MEMORY = 4  /* out of memory */
+} trim_status;
+
+/* Defaults: no names, detect the delimiter, a header, 4 MiB chunks, 64 MiB records. */
+void trim_options_defaults(trim_options *o);
+
+/* Writes the kept columns of the files ("-": standard input) to out.  On
+ * failure err names the file and the line or byte offset; what was written
+ * to out stays there (abort the sink). */
+trim_status trim_files(const trim_options *o, const char *const *paths, size_t npaths, sink *out,
+                       char *err, size_t errlen);
+
+#endif
