@@ -1,0 +1,47 @@
+/* project: scores of the leading principal components, row by row.
+ *
+ * The data files are streamed again through the one record reader
+ * (io/reader.h): each file's first record gives the position of every basis
+ * column by name (named as the scan names them), each cell is parsed
+ * (io/number; a missing or non-numeric cell counts as the mean), blocks of
+ * BLOCK_ROWS rows are standardised and multiplied by the loadings
+ * (pca_project: cblas_dgemm), and the scores are written as CSV: the carried
+ * columns, then PC1..PCk.  Memory is bounded by one chunk of input, one block
+ * of rows and the sink's buffer.
+ */
+#ifndef SHEAF_PROJECT_H
+#define SHEAF_PROJECT_H
+
+#include <stddef.h>
+
+#include "out/sink.h"
+#include "stats/pca.h"
+#include "summary/summary.h"
+
+typedef struct {
+    char *const *carry;      /* columns copied in front of the scores (IDs, the target) */
+    size_t ncarry;           /* how many */
+    char delim;              /* field delimiter, 0 = detect at each file's start */
+    int header;              /* files start with a header */
+    size_t chunk_bytes;      /* as for the scan */
+    size_t max_record_bytes; /* longest record accepted */
+} project_options;
+
+typedef enum {
+    PROJECT_OK = 0,
+    PROJECT_ERR_INPUT = 1,  /* unreadable or malformed input, a basis column absent */
+    PROJECT_ERR_OUTPUT = 2, /* the output could not be written */
+    PROJECT_ERR_MEMORY = 3  /* out of memory */
+} project_status;
+
+/* No carried columns, detect the delimiter, a header, 4 MiB chunks, 64 MiB records. */
+void project_options_defaults(project_options *o);
+
+/* Writes the header row and the scores on the first k components of r (fit
+ * on s) of every row of the files ("-": standard input) to out.  On failure
+ * err names the file and the line or byte offset. */
+project_status project_files(const summary *s, const pca_result *r, size_t k,
+                             const project_options *o, const char *const *paths, size_t npaths,
+                             sink *out, char *err, size_t errlen);
+
+#endif
