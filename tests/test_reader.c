@@ -177,3 +177,21 @@ Test(reader, missing_test_knows_the_empty_cell_and_every_spelling)
     cr_assert(!reader_is_missing(&m, "nul", 3));
     cr_assert(!reader_is_missing(&m, "-1", 2));
 }
+
+Test(reader, record_over_the_limit_inside_one_chunk_is_an_error_too)
+{
+    /* 5,000 bytes in a 64 KiB chunk: the limit holds wherever chunks end. */
+    size_t len = 5000;
+    char *text = malloc(len + 16);
+    strcpy(text, "a,b\n1,");
+    for (size_t i = 6; i < len - 1; i++) text[i] = 'x';
+    text[len - 1] = '\n';
+    reader_status last;
+    char err[512];
+    char *got = read_all(text, len, 0, 65536, 0, &last, err, sizeof err);
+    cr_assert_eq(last, READER_ERROR);
+    cr_assert_neq(strstr(err, "t.csv: line 2: record at byte 4 is longer than the 4096-byte limit"),
+                  NULL, "%s", err);
+    free(got);
+    free(text);
+}

@@ -154,6 +154,16 @@ reader_status reader_next(reader *r, reader_record *rec)
                  (unsigned long long)rec->line);
         return READER_ERROR;
     }
+    if ((size_t)(r->tok.pos - r->tok.record_start) > r->o.max_record_bytes) {
+        /* The chunker bounds records that span chunks; this bounds every one,
+         * so the limit does not depend on where chunks end. */
+        snprintf(r->err, sizeof r->err,
+                 "%s: line %llu: record at byte %llu is longer than the %zu-byte limit "
+                 "(raise --max-record)",
+                 r->name, (unsigned long long)rec->line, (unsigned long long)rec->offset,
+                 r->o.max_record_bytes);
+        return READER_ERROR;
+    }
     rec->fields = r->fields.fields;
     rec->nfields = r->fields.nfields;
     rec->text = r->tok.record_start;

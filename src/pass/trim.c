@@ -58,8 +58,13 @@ static trim_status choose(trimmer *t, const char *path, const reader_record *rec
     }
     for (size_t k = 0; k < o->nkeep; k++)
         if (!found[k]) {
-            snprintf(t->err, t->errlen, "%s: no column named '%s' %s", path, o->keep[k],
-                     o->header ? "in the header" : "(without a header: col1..colN)");
+            const char *k0 = o->keep[k];
+            int generated = strncmp(k0, "col", 3) == 0 && k0[3] >= '1' && k0[3] <= '9' &&
+                            strspn(k0 + 3, "0123456789") == strlen(k0 + 3);
+            snprintf(t->err, t->errlen, "%s: no column named '%s' %s", path, k0,
+                     !o->header  ? "(without a header: col1..colN)"
+                     : generated ? "in the header (for a file without one, add --no-header)"
+                                 : "in the header");
             free(found);
             return TRIM_ERR_USAGE;
         }
