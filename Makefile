@@ -67,7 +67,7 @@ build/fuzz/replay_scan_split: tests/fuzz/fuzz_scan_split.c $(LIB_SRC) $(wildcard
 	    -D_GNU_SOURCE -Wall -Wextra -Iinclude -Isrc -DFUZZ_REPLAY_MAIN -o $@ \
 	    tests/fuzz/fuzz_scan_split.c $(LIB_SRC) $(LDLIBS)
 
-# Long fuzzing: FUZZ_SECONDS (default 900) of libFuzzer, then the corpus replay.
+# Long fuzzing: the corpus replay, then FUZZ_SECONDS (default 900) of libFuzzer.
 fuzz: deps-check
 	@FUZZ_SECONDS=$(FUZZ_SECONDS) bash tests/cli/test_fuzz_bounded.sh
 
