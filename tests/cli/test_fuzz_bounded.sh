@@ -22,6 +22,8 @@ CORPUS=tests/fuzz/corpus/scan_split
 ART=build/fuzz/artifacts
 mkdir -p "$ART"
 export OPENBLAS_NUM_THREADS=1
+# The harness writes its input file under TMPDIR: a crash leaves it in $T.
+export TMPDIR="$T"
 
 # libFuzzer is there when clang links a trivial target with -fsanitize=fuzzer.
 have_libfuzzer() {
@@ -46,7 +48,7 @@ pass "fuzz.build ($MODE)"
 # why LOG: the first line that says what went wrong.
 why() {
     grep -a -m 1 -E 'disagree|ERROR: AddressSanitizer|runtime error|ERROR: libFuzzer|deadly signal|^fuzz_scan_split:' "$1" |
-        sed "s|/tmp/fuzz_scan_split\.[A-Za-z0-9]*|INPUT|g" | cut -c1-400
+        sed "s|[^ (]*/fuzz_scan_split\.[A-Za-z0-9]*|INPUT|g" | cut -c1-400
 }
 
 mkdir -p "$T/seeds"
