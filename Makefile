@@ -13,7 +13,7 @@ LDLIBS  := -lgsl $(shell pkg-config --libs $(PKGS) 2>/dev/null || echo -lisal -l
 DEB_PKGS := build-essential pkg-config libisal-dev isal zlib1g-dev libzstd-dev zstd \
             libxxhash-dev libcriterion-dev libgsl-dev libopenblas-dev liblapacke-dev \
             python3-numpy python3-scipy python3-pandas python3-statsmodels parallel \
-            hyperfine time bc
+            hyperfine time bc clang
 
 LIB_SRC := $(wildcard src/io/*.c src/acc/*.c src/summary/*.c src/stats/*.c src/out/*.c src/pass/*.c)
 CLI_SRC := $(wildcard src/cli/*.c)
@@ -23,7 +23,7 @@ TEST_SRC := $(wildcard tests/test_*.c)
 TEST_BIN := $(TEST_SRC:tests/%.c=build/tests/%)
 DEMO_BIN := build/demo/generate
 
-.PHONY: all deps deps-check test demo bench clean
+.PHONY: all deps deps-check test demo bench clean fuzz
 all: sheaf libsheaf.a
 
 libsheaf.a: $(LIB_OBJ)
@@ -44,6 +44,32 @@ build/tests/%: tests/%.c libsheaf.a tests/testutil.h
 $(DEMO_BIN): demo/generate.c
 	@mkdir -p $(dir $@)
 	$(CC) $(CFLAGS) -O2 -o $@ $< $(LDLIBS)
+
+# Fuzzing (tests/fuzz/, DEVELOPERS.md "Fuzzing"): the library built again with
+# clang's libFuzzer, AddressSanitizer and UndefinedBehaviorSanitizer, and a
+# replay driver (any compiler, no libFuzzer) for the committed corpus.
+FUZZ_CC     ?= clang
+FUZZ_FLAGS  := -O1 -g -fno-omit-frame-pointer -fsanitize=address,undefined \
+               -fno-sanitize-recover=undefined -std=c11 -D_GNU_SOURCE -Wall -Wextra -Iinclude -Isrc
+FUZZ_OBJ    := $(LIB_SRC:%.c=build/fuzz/obj/%.o)
+FUZZ_SECONDS ?= 900
+
+build/fuzz/obj/%.o: %.c
+	@mkdir -p $(dir $@)
+	$(FUZZ_CC) $(FUZZ_FLAGS) -fsanitize=fuzzer-no-link -MMD -MP -c -o $@ $<
+
+build/fuzz/fuzz_scan_split: tests/fuzz/fuzz_scan_split.c $(FUZZ_OBJ)
+	$(FUZZ_CC) $(FUZZ_FLAGS) -fsanitize=fuzzer -o $@ $^ $(LDLIBS)
+
+build/fuzz/replay_scan_split: tests/fuzz/fuzz_scan_split.c $(LIB_SRC) $(wildcard src/*/*.h)
+	@mkdir -p $(dir $@)
+	$(CC) -O1 -g -fsanitize=address,undefined -fno-sanitize-recover=undefined -std=c11 \
+	    -D_GNU_SOURCE -Wall -Wextra -Iinclude -Isrc -DFUZZ_REPLAY_MAIN -o $@ \
+	    tests/fuzz/fuzz_scan_split.c $(LIB_SRC) $(LDLIBS)
+
+# Long fuzzing: the corpus replay, then FUZZ_SECONDS (default 900) of libFuzzer.
+fuzz: deps-check
+	@FUZZ_SECONDS=$(FUZZ_SECONDS) bash tests/cli/test_fuzz_bounded.sh
 
 # Quick check: dpkg-query over the list; apt-get only when something is missing.
 deps-check:
@@ -75,4 +101,4 @@ bench: deps-check
 clean:
 	rm -rf build sheaf libsheaf.a
 
--include $(LIB_OBJ:.o=.d) $(CLI_OBJ:.o=.d)
+-include $(LIB_OBJ:.o=.d) $(CLI_OBJ:.o=.d) $(FUZZ_OBJ:.o=.d)
