@@ -114,6 +114,20 @@ static int dialect(reader *r)
     return 0;
 }
 
+/* The first record start at or after stop_at among the chunk bytes
+ * [from, to), which hold only blank lines: `from` and each position after a
+ * '\n'; the offset of `to` when none is.  A shard's range ends at the same
+ * record start (blank lines included) as the next shard's begins
+ * (chunk_find_record_start), so no byte is counted twice. */
+static uint64_t first_start(const reader *r, const char *from, const char *to)
+{
+    uint64_t base = r->ch.offset; /* the offset of ch.data */
+    for (const char *p = from; p < to; p++)
+        if ((p == from || p[-1] == '\n') && base + (uint64_t)(p - r->ch.data) >= r->stop_at)
+            return base + (uint64_t)(p - r->ch.data);
+    return base + (uint64_t)(to - r->ch.data);
+}
+
 reader_status reader_next(reader *r, reader_record *rec)
 {
     if (r->stopped) return READER_END;
@@ -128,19 +142,24 @@ reader_status reader_next(reader *r, reader_record *rec)
         r->in_chunk = 1;
     }
     csv_status cs;
+    char *from = r->tok.pos; /* a record start: the previous record ended here */
     if (r->o.raw) cs = csv_next_raw(&r->tok, &r->fields, &rec->eol, &rec->eol_len);
     else cs = csv_next(&r->tok, &r->fields);
     if (cs == CSV_END) {
         r->in_chunk = 0;
         r->lines_before += r->tok.lines;
         r->absorbed = r->ch.offset + r->ch.len;
+        if (r->stop_at) { /* blank lines that reach into the next shard's range */
+            uint64_t at = first_start(r, from, r->tok.end);
+            if (at < r->absorbed) { r->absorbed = at; r->stopped = 1; }
+        }
         return READER_CHUNK_END;
     }
     rec->offset = r->ch.offset + (uint64_t)(r->tok.record_start - r->ch.data);
     rec->line = r->lines_before + r->tok.record_line + 1;
     if (r->stop_at && rec->offset >= r->stop_at) {
         r->stopped = 1;
-        r->absorbed = rec->offset;
+        r->absorbed = first_start(r, from, r->tok.record_start);
         return READER_END;
     }
     if (cs == CSV_UNTERMINATED) {

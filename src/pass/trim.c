@@ -107,14 +107,21 @@ static trim_status record(trimmer *t, const char *path, const reader_record *rec
     /* The previous file ended without a line end: give it one now. */
     if (t->unterminated && sink_write(t->out, "\n", 1) != 0) return write_fail(t);
     int lead = 1;
+    size_t written = 0;
     for (size_t i = 0; i < t->nfields; i++) {
         if (!t->pick[i]) continue;
         if (!lead && sink_write(t->out, &t->delim, 1) != 0) return write_fail(t);
+        written += !lead;
         lead = 0;
-        if (i < rec->nfields && rec->fields[i].len &&
-            sink_write(t->out, rec->fields[i].ptr, rec->fields[i].len) != 0)
-            return write_fail(t);
+        if (i < rec->nfields && rec->fields[i].len) {
+            if (sink_write(t->out, rec->fields[i].ptr, rec->fields[i].len) != 0)
+                return write_fail(t);
+            written += rec->fields[i].len;
+        }
     }
+    /* A row whose kept cells are one empty cell would be a blank line, which
+     * every reader skips: write it as an empty quoted field. */
+    if (!written && !lead && sink_write(t->out, "\"\"", 2) != 0) return write_fail(t);
     /* The input's own line end; none after a last record without one. */
     if (rec->eol_len && sink_write(t->out, rec->eol, rec->eol_len) != 0) return write_fail(t);
     t->unterminated = rec->eol_len == 0;

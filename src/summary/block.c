@@ -259,3 +259,48 @@ int block_flush(block *b)
     return 0;
 }
 
+
+void block_ragged(block *b, int short_row, uint64_t line)
+{
+    summary *s = b->s;
+    if (short_row) s->short_rows++;
+    else s->long_rows++;
+    if (s->n_bad_lines < SUMMARY_BAD_LINES) s->bad_lines[s->n_bad_lines++] = line;
+}
+
+int block_target(block *b, const char *p, uint32_t len)
+{
+    size_t r = b->rows;
+    b->row_cell[r] = 0;
+    b->row_class[r] = 0;
+    b->row_has_y[r] = 0;
+    if (!p) return 0;
+    summary *s = b->s;
+    summary_column *tc = &s->cols[s->target];
+    number_decimal d;
+    int finite = tc->mode != COLUMN_CATEGORICAL && number_parse(p, len, &d) == NUMBER_FINITE;
+    if (!finite) s->target_text++;
+    if (s->has_classes) {
+        uint32_t k = summary_class_of(s, XXH3_64bits(p, len), p, len, finite ? &d : NULL);
+        if (k) {
+            s->class_rows[k - 1]++;
+            b->row_cell[r] = b->row_class[r] = k;
+            return 0;
+        }
+        /* One class too many: a numeric target continues as a regression
+         * target, a text one cannot. */
+        int numeric = finite && s->opt.task != TASK_CLASSIFY;
+        for (uint32_t c = 0; numeric && c < s->nclasses; c++) numeric = s->class_numeric[c];
+        if (!numeric) return 1;
+        if (block_flush(b) != 0 || summary_drop_classes(s, s) != 0) return -1;
+        r = 0;
+        b->row_cell[r] = b->row_class[r] = b->row_has_y[r] = 0;
+    }
+    if (finite) {
+        if (!tc->mom.has_ref) moments_set_ref(&tc->mom, &d);
+        b->row_cell[r] = summary_target_cell(d.value);
+        b->row_y[r] = number_difference(&d, &tc->mom.ref, NULL);
+        b->row_has_y[r] = 1;
+    }
+    return 0;
+}

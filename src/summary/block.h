@@ -62,6 +62,27 @@ typedef struct {
 int block_init(block *b, summary *s, const int *field_of);
 void block_free(block *b);
 
+/* ---- per row: the scan hands the summary its rows through these calls ---- */
+
+/* A row begins. */
+static inline void block_row(block *b) { b->s->rows++; }
+
+/* Column j's cell of the current row is missing (or absent). */
+static inline void block_missing(block *b, size_t j) { b->s->cols[j].missing++; }
+
+/* The current row has too few (short != 0) or too many fields; line is
+ * kept among the first SUMMARY_BAD_LINES such lines. */
+void block_ragged(block *b, int short_row, uint64_t line);
+
+/* The current row's target cell (NULL: missing): its class, or its
+ * regression cell and value.  Returns 0; 1 when a text target has one class
+ * more than max_classes (a numeric one then continues as a regression
+ * target, its classes dropped); -1 when out of memory. */
+int block_target(block *b, const char *p, uint32_t len);
+
+/* Bytes of input the summary covers. */
+static inline void block_bytes(block *b, uint64_t n) { b->s->bytes += n; }
+
 /* Records a present cell of column j in the current row. */
 static inline void block_cell(block *b, size_t j, const char *p, uint32_t len)
 {
@@ -76,5 +97,12 @@ static inline void block_cell(block *b, size_t j, const char *p, uint32_t len)
 /* Feeds the buffered rows to the summary and empties the block.  Returns 0,
  * or -1 when out of memory. */
 int block_flush(block *b);
+
+/* The current row is complete (flushes a full block).  0, or -1 when out of
+ * memory. */
+static inline int block_row_end(block *b)
+{
+    return ++b->rows == SUMMARY_BLOCK_ROWS ? block_flush(b) : 0;
+}
 
 #endif

@@ -75,67 +75,32 @@ static scan_status fail(scan_context *sc, scan_status st, const char *msg)
 static __attribute__((noinline)) void row_cells(scan_context *sc, const csv_field *fields,
                                                 size_t nf)
 {
-    summary *w = sc->run;
     block *b = &sc->blk;
     const block_lane *lanes = b->lanes;
-    const size_t ncols = w->ncols;
+    const size_t ncols = sc->run->ncols;
     for (size_t j = 0; j < ncols; j++) {
         size_t fi = (size_t)lanes[j].field;
-        if (fi >= nf) { w->cols[j].missing++; continue; }
+        if (fi >= nf) { block_missing(b, j); continue; }
         const char *p = fields[fi].ptr;
         uint32_t len = fields[fi].len;
-        if (reader_is_missing(&sc->missing, p, len)) { w->cols[j].missing++; continue; }
+        if (reader_is_missing(&sc->missing, p, len)) { block_missing(b, j); continue; }
         block_cell(b, j, p, len);
     }
 }
 
-/* The target cell of the current row: its class, or its regression cell and
- * value.  Returns SCAN_OK or an error (too many classes for a text target). */
+/* The target cell of the current row (p NULL: absent). */
 static scan_status target_cell(scan_context *sc, uint64_t line, const char *p, uint32_t len)
 {
-    block *b = &sc->blk;
-    size_t r = b->rows;
-    b->row_cell[r] = 0;
-    b->row_class[r] = 0;
-    b->row_has_y[r] = 0;
-    if (!p || reader_is_missing(&sc->missing, p, len)) return SCAN_OK;
-    summary *run = sc->run, *w = sc->run;
-    summary_column *tc = &w->cols[run->target];
-    number_decimal d;
-    int finite = tc->mode != COLUMN_CATEGORICAL && number_parse(p, len, &d) == NUMBER_FINITE;
-    if (!finite) w->target_text++;
-    if (run->has_classes) {
-        uint32_t k = summary_class_of(run, XXH3_64bits(p, len), p, len, finite ? &d : NULL);
-        if (k) {
-            run->class_rows[k - 1]++;
-            b->row_cell[r] = b->row_class[r] = k;
-            return SCAN_OK;
-        }
-        /* One class too many. */
-        int numeric = finite && run->opt.task != TASK_CLASSIFY;
-        for (uint32_t c = 0; numeric && c < run->nclasses; c++) numeric = run->class_numeric[c];
-        if (!numeric) {
-            snprintf(sc->err, sizeof sc->err,
-                     "%s: line %llu: target '%s' has more than %u classes; raise --max-classes "
-                     "or use --task regress",
-                     sc->shown, (unsigned long long)line, run->opt.target, run->opt.max_classes);
-            return SCAN_ERR_INPUT;
-        }
-        /* A numeric target: it continues as a regression target. */
-        if (block_flush(b) != 0 || summary_drop_classes(run, run) != 0) {
-            snprintf(sc->err, sizeof sc->err, "out of memory");
-            return SCAN_ERR_MEMORY;
-        }
-        r = 0;
-        b->row_cell[r] = b->row_class[r] = b->row_has_y[r] = 0;
-    }
-    if (finite) {
-        if (!tc->mom.has_ref) moments_set_ref(&tc->mom, &d);
-        b->row_cell[r] = summary_target_cell(d.value);
-        b->row_y[r] = number_difference(&d, &tc->mom.ref, NULL);
-        b->row_has_y[r] = 1;
-    }
-    return SCAN_OK;
+    int present = p && !reader_is_missing(&sc->missing, p, len);
+    int rc = block_target(&sc->blk, present ? p : NULL, len);
+    if (rc == 0) return SCAN_OK;
+    if (rc < 0) return fail(sc, SCAN_ERR_MEMORY, "out of memory");
+    const summary_options *o = &sc->o.opt;
+    snprintf(sc->err, sizeof sc->err,
+             "%s: line %llu: target '%s' has more than %u classes; raise --max-classes "
+             "or use --task regress",
+             sc->shown, (unsigned long long)line, o->target, o->max_classes);
+    return SCAN_ERR_INPUT;
 }
 
 /* Splits a comma list; returns the count or -1 on OOM.  *items points into *buf. */
@@ -294,10 +259,7 @@ oom:
 
 static scan_status ragged(scan_context *sc, uint64_t line, size_t nf)
 {
-    summary *w = sc->run;
-    if (nf < sc->file_fields) w->short_rows++;
-    else w->long_rows++;
-    if (w->n_bad_lines < SUMMARY_BAD_LINES) w->bad_lines[w->n_bad_lines++] = line;
+    block_ragged(&sc->blk, nf < sc->file_fields, line);
     if (sc->o.strict) {
         snprintf(sc->err, sizeof sc->err, "%s: line %llu: %zu fields, the header has %zu (--strict)",
                  sc->shown, (unsigned long long)line, nf, sc->file_fields);
@@ -320,23 +282,21 @@ static scan_status record(scan_context *sc, const reader_record *rec)
         if (sc->header_only) { sc->done = 1; return SCAN_OK; }
         if (is_header) return SCAN_OK;
     }
-    summary *w = sc->run;
-    w->rows++;
+    block *b = &sc->blk;
+    block_row(b);
     sc->rows++;
     if (nf != sc->file_fields) {
         scan_status st = ragged(sc, rec->line, nf);
         if (st != SCAN_OK) return st;
     }
-    block *b = &sc->blk;
-    if (w->target >= 0) {
-        size_t fi = (size_t)b->lanes[w->target].field;
+    if (sc->run->target >= 0) {
+        size_t fi = (size_t)b->lanes[sc->run->target].field;
         scan_status st = target_cell(sc, rec->line, fi < nf ? fields[fi].ptr : NULL,
                                      fi < nf ? fields[fi].len : 0);
         if (st != SCAN_OK) return st;
     }
     row_cells(sc, fields, nf);
-    if (++b->rows == SUMMARY_BLOCK_ROWS && block_flush(b) != 0)
-        return fail(sc, SCAN_ERR_MEMORY, "out of memory");
+    if (block_row_end(b) != 0) return fail(sc, SCAN_ERR_MEMORY, "out of memory");
     return SCAN_OK;
 }
 
@@ -401,7 +361,7 @@ static scan_status end(scan_context *sc, const summary_source *prov)
         return fail(sc, SCAN_ERR_INPUT, NULL);
     }
     if (sc->header_only) return SCAN_OK;
-    sc->run->bytes += reader_absorbed(sc->rd);
+    block_bytes(&sc->blk, reader_absorbed(sc->rd));
     summary_source rec = *prov;
     rec.path = sc->name;
     rec.start_byte = sc->shard_start;
