@@ -18,3 +18,17 @@ run() {
 err_text() { tr '\n' '|' <"$T/err" | cut -c1-300; }
 # first_diff A B: where two files first differ (for failure messages).
 first_diff() { cmp "$1" "$2" 2>&1 | head -n 1; }
+
+# cli_setup TAG [python]: the scratch directory $T (removed on exit), $SHEAF
+# and $PY.  Returns 1 after a FAIL line when ./sheaf is not built, or (with
+# "python") after a SKIP line when Debian's python3 is absent: call it as
+# `cli_setup tag python || exit 0`.
+cli_setup() {
+    SHEAF=./sheaf
+    PY=/usr/bin/python3
+    T=$(mktemp -d "${TMPDIR:-/tmp}/sheaf-$1.XXXXXX")
+    trap 'rm -rf "$T"' EXIT
+    if [ ! -x "$SHEAF" ]; then fail binary "$SHEAF not found (run make first)"; return 1; fi
+    if [ "${2:-}" = python ] && [ ! -x "$PY" ]; then skip all "$PY not found"; return 1; fi
+    return 0
+}

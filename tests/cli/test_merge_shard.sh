@@ -16,21 +16,8 @@
 # here; the gzip parts come from build/demo/generate.
 set -u
 cd "$(dirname "$0")/../.." || exit 0
-SHEAF=./sheaf
-PY=/usr/bin/python3
-T=$(mktemp -d "${TMPDIR:-/tmp}/sheaf-shard.XXXXXX")
-trap 'rm -rf "$T"' EXIT
-
 . tests/cli/common.sh
-
-if [ ! -x "$SHEAF" ]; then
-    fail binary "$SHEAF not found (run make first)"
-    exit 0
-fi
-if [ ! -x "$PY" ]; then
-    skip all "$PY not found"
-    exit 0
-fi
+cli_setup shard python || exit 0
 
 # cmp.py A.sheaf B.sheaf [IGNORED_KEY...]: compares the info JSON of two
 # summaries without "sources" (and the keys given, at the top level and in

@@ -24,21 +24,8 @@
 # one "PASS name" / "FAIL name: why" line per check and exits 0.
 set -u
 cd "$(dirname "$0")/../.." || exit 0
-SHEAF=./sheaf
-PY=/usr/bin/python3
-T=$(mktemp -d "${TMPDIR:-/tmp}/sheaf-passes.XXXXXX")
-trap 'rm -rf "$T"' EXIT
-
 . tests/cli/common.sh
-
-if [ ! -x "$SHEAF" ]; then
-    fail binary "$SHEAF not found (run make first)"
-    exit 0
-fi
-if [ ! -x "$PY" ]; then
-    skip all "$PY not found"
-    exit 0
-fi
+cli_setup passes python || exit 0
 
 # ------------------------------------------------------------------- inputs
 # make.py DIR: the tables (fixed seed; an invented field-survey scenario).

@@ -16,21 +16,8 @@
 # "PASS name" / "FAIL name: why" / "SKIP name: reason" line per check; exits 0.
 set -u
 cd "$(dirname "$0")/../.." || exit 0
-SHEAF=./sheaf
-PY=/usr/bin/python3
-T=$(mktemp -d "${TMPDIR:-/tmp}/sheaf-quote.XXXXXX")
-trap 'rm -rf "$T"' EXIT
-
 . tests/cli/common.sh
-
-if [ ! -x "$SHEAF" ]; then
-    fail binary "$SHEAF not found (run make first)"
-    exit 0
-fi
-if [ ! -x "$PY" ]; then
-    skip all "$PY not found"
-    exit 0
-fi
+cli_setup quote python || exit 0
 ROWS=1000000
 
 # gen OUT HEIGHT_ROW NOTE_ROW: ROWS rows of id,height,team,score; data row

@@ -22,21 +22,8 @@
 # fixed seed (an invented inventory table).
 set -u
 cd "$(dirname "$0")/../.." || exit 0
-SHEAF=./sheaf
-PY=/usr/bin/python3
-T=$(mktemp -d "${TMPDIR:-/tmp}/sheaf-trim.XXXXXX")
-trap 'rm -rf "$T"' EXIT
-
 . tests/cli/common.sh
-
-if [ ! -x "$SHEAF" ]; then
-    fail binary "$SHEAF not found (run make first)"
-    exit 0
-fi
-if [ ! -x "$PY" ]; then
-    skip all "$PY not found"
-    exit 0
-fi
+cli_setup trim python || exit 0
 
 # ------------------------------------------------------------------- --help
 run "$SHEAF" trim --help
