@@ -6,13 +6,17 @@
  * command runs; a program uses it in four steps:
  *
  *   scan_options o;  scan_options_defaults(&o);       summary/scan.h
- *   o.opt.target = strdup("outcome");
- *   summary *s;  char err[512];
- *   if (scan_files(&o, paths, npaths, &s, err, sizeof err) != SCAN_OK) ...
+ *   o.opt.target = "outcome";
+ *   scan_context *sc = scan_create(&o);
+ *   scan_path(sc, "night-1.csv.gz");                   a file (or scan_source)
+ *   scan_begin(sc, "feed");  scan_feed(sc, buf, n); ... scan_end(sc);   bytes it holds
+ *   summary *s = scan_finish(sc);  scan_free(sc);     (or scan_files for a path list)
  *   summary_write(s, "night.sheaf", err, sizeof err);  summary/summary.h
  *   summary_merge(a, b, err, sizeof err);              exact merge of two summaries
  *   screen_result *r = screen_run(s, &screen_opts);    stats/screen.h
  *   pca_fit(s, &pca_opts, &fit, err, sizeof err);      stats/pca.h
+ *   trim_files(&trim_opts, paths, n, out, err, sizeof err);       pass/trim.h
+ *   project_files(s, fit, k, &proj_opts, paths, n, out, err, sizeof err);  pass/project.h
  *
  * Every function reports failure through its return value and a one-line
  * message in a caller-provided buffer; none prints or exits.  Objects are
@@ -27,10 +31,13 @@
 #ifndef SHEAF_H
 #define SHEAF_H
 
+#include "io/reader.h"
 #include "summary/scan.h"
 #include "summary/summary.h"
 #include "stats/screen.h"
 #include "stats/pca.h"
+#include "pass/trim.h"
+#include "pass/project.h"
 
 #define SHEAF_VERSION "0.1"
 
