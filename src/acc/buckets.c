@@ -24,7 +24,10 @@
  *    counts entries per key, touched only when an entry is created, so the
  *    budget of distinct keys is checked without a scan.  The last (key, cell)
  *    and its slot are cached for runs of equal buckets.  A sort index (key,
- *    cell, slot) serves ordered reads; it is rebuilt lazily after an insert.
+ *    cell, slot) serves ordered reads.  An insert invalidates it and
+ *    buckets_seal rebuilds it (collapse, merge and read leave it built); a
+ *    read of an unsealed store sorts into a temporary index of its own and
+ *    never writes to the store.
  *  - Collapse and merge.  Both gather the entries, re-key them to the target
  *    level (monotone, so sorting then summing neighbours combines them), raise
  *    the level one step while the distinct keys exceed the budget, and build a
@@ -351,39 +354,50 @@ static sort_pair *radix_sort(sort_pair *a, sort_pair *tmp, size_t n)
     return a;
 }
 
-/* Builds the sort index.  Takes a const store: the index is a cache, its
- * memory is preallocated with the table; the radix sort's scratch is not,
- * and without it qsort does the work, so this never fails. */
-static void ensure_order(const buckets *cb)
+/* Writes the sort index of b's entries, in (key, cell) order, to out[0..n).
+ * The radix sort's scratch is optional: without it qsort does the work, so
+ * this never fails. */
+static void fill_order(const buckets *b, order_item *out)
 {
-    if (cb->order_valid) return;
-    buckets *b = (buckets *)cb;
     size_t k = 0;
     for (size_t i = 0; i < b->cap; i++) {
         if (!b->slots[i].count) continue;
-        b->order[k].key = (int32_t)id_key(b->slots[i].id);
-        b->order[k].cell = id_cell(b->slots[i].id);
-        b->order[k].pos = (uint32_t)i;
+        out[k].key = (int32_t)id_key(b->slots[i].id);
+        out[k].cell = id_cell(b->slots[i].id);
+        out[k].pos = (uint32_t)i;
         k++;
     }
     sort_pair *pairs = k >= RADIX_MIN ? malloc(2 * k * sizeof *pairs) : NULL;
     if (pairs) {
         for (size_t i = 0; i < k; i++) {
-            pairs[i].k = sort_key(b->order[i].key, b->order[i].cell);
-            pairs[i].i = b->order[i].pos;
+            pairs[i].k = sort_key(out[i].key, out[i].cell);
+            pairs[i].i = out[i].pos;
         }
         sort_pair *sorted = radix_sort(pairs, pairs + k, k);
         for (size_t i = 0; i < k; i++) {
             uint64_t id = b->slots[sorted[i].i].id;
-            b->order[i].key = (int32_t)id_key(id);
-            b->order[i].cell = id_cell(id);
-            b->order[i].pos = sorted[i].i;
+            out[i].key = (int32_t)id_key(id);
+            out[i].cell = id_cell(id);
+            out[i].pos = sorted[i].i;
         }
         free(pairs);
     } else {
-        qsort(b->order, k, sizeof *b->order, order_cmp);
+        qsort(out, k, sizeof *out, order_cmp);
     }
-    b->order_valid = 1;
+}
+
+/* The sort index for a read: the store's own when sealed; else a temporary
+ * one in *tmp, which the caller frees (the store is never written).  -1
+ * when memory for the temporary index runs out. */
+static int read_order(const buckets *b, const order_item **order, order_item **tmp)
+{
+    *tmp = NULL;
+    *order = b->order;
+    if (b->order_valid) return 0;
+    *order = *tmp = malloc((b->n ? b->n : 1) * sizeof **tmp);
+    if (!*tmp) return -1;
+    fill_order(b, *tmp);
+    return 0;
 }
 
 /* ---- entry arrays: re-key, sort, combine -------------------------------- */
@@ -494,18 +508,21 @@ static int rebuild(buckets *b, const buckets_entry *e, size_t n, int level)
     return 0;
 }
 
-/* Appends b's entries re-keyed to `level` (>= b's level), cells mapped. */
+/* Appends b's entries re-keyed to `level` (>= b's level), cells mapped, in
+ * slot order: every caller sorts them next. */
 static size_t gather(const buckets *b, int level, const uint32_t *cell_map, buckets_entry *out)
 {
-    ensure_order(b);
     int steps = level - b->level;
-    for (size_t i = 0; i < b->n; i++) {
-        const order_item *o = &b->order[i];
-        out[i].key = rekey(o->key, steps);
-        out[i].cell = cell_map ? cell_map[o->cell] : o->cell;
-        out[i].count = b->slots[o->pos].count;
+    size_t k = 0;
+    for (size_t i = 0; i < b->cap; i++) {
+        const slot *s = &b->slots[i];
+        if (!s->count) continue;
+        out[k].key = rekey(id_key(s->id), steps);
+        out[k].cell = cell_map ? cell_map[id_cell(s->id)] : id_cell(s->id);
+        out[k].count = s->count;
+        k++;
     }
-    return b->n;
+    return k;
 }
 
 /* Collapses b to the next level (and further if still over budget). */
@@ -791,21 +808,27 @@ uint32_t buckets_budget(const buckets *b) { return b->budget; }
 uint64_t buckets_total(const buckets *b) { return b->total; }
 size_t buckets_keys(const buckets *b) { return b->nkeys; }
 
-size_t buckets_entries(const buckets *b)
+size_t buckets_entries(const buckets *b) { return b->n; }
+
+void buckets_seal(buckets *b)
 {
-    ensure_order(b); /* so that later reads from several threads are pure */
-    return b->n;
+    if (b->order_valid) return;
+    fill_order(b, b->order);
+    b->order_valid = 1;
 }
+
+int buckets_sealed(const buckets *b) { return b->order_valid; }
 
 buckets_entry buckets_entry_at(const buckets *b, size_t i)
 {
     buckets_entry e = {0, 0, 0};
-    if (i >= b->n) return e;
-    ensure_order(b);
-    const order_item *o = &b->order[i];
-    e.key = o->key;
-    e.cell = o->cell;
-    e.count = b->slots[o->pos].count;
+    const order_item *order;
+    order_item *tmp;
+    if (i >= b->n || read_order(b, &order, &tmp)) return e;
+    e.key = order[i].key;
+    e.cell = order[i].cell;
+    e.count = b->slots[order[i].pos].count;
+    free(tmp);
     return e;
 }
 
@@ -816,29 +839,33 @@ double buckets_quantile(const buckets *b, double p, double *rel_err)
     /* same double product as numpy's n * quantiles */
     double rd = ceil(p * (double)b->total);
     uint64_t rank = rd < 1.0 ? 1 : rd >= (double)b->total ? b->total : (uint64_t)rd;
-    ensure_order(b);
-    uint64_t cum = 0;
-    for (size_t i = 0; i < b->n; i++) {
-        cum += b->slots[b->order[i].pos].count;
-        if (cum >= rank) return buckets_point(b->order[i].key, b->level);
-    }
-    return buckets_point(b->order[b->n - 1].key, b->level); /* not reached */
+    const order_item *order;
+    order_item *tmp;
+    if (read_order(b, &order, &tmp)) return NAN;
+    size_t i = 0; /* the first key whose cumulative count reaches rank; else the last */
+    for (uint64_t cum = 0; i + 1 < b->n; i++)
+        if ((cum += b->slots[order[i].pos].count) >= rank) break;
+    double q = buckets_point(order[i].key, b->level);
+    free(tmp);
+    return q;
 }
 
 /* ---- serialization ------------------------------------------------------ */
 
 void buckets_write(const buckets *b, wire_writer *w)
 {
-    ensure_order(b);
+    const order_item *order;
+    order_item *tmp;
+    if (read_order(b, &order, &tmp)) { w->failed = 1; return; }
     wire_put_u32(w, b->budget);
     wire_put_u8(w, (uint8_t)b->level);
     wire_put_u64(w, (uint64_t)b->n);
     for (size_t i = 0; i < b->n; i++) {
-        const order_item *o = &b->order[i];
-        wire_put_i64(w, o->key);
-        wire_put_u32(w, o->cell);
-        wire_put_u64(w, b->slots[o->pos].count);
+        wire_put_i64(w, order[i].key);
+        wire_put_u32(w, order[i].cell);
+        wire_put_u64(w, b->slots[order[i].pos].count);
     }
+    free(tmp);
 }
 
 buckets *buckets_read(wire_reader *r)

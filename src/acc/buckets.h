@@ -45,12 +45,15 @@
  * lambda(X + Y, budget(into)) <= max of the two levels, that is exactly the
  * store into's budget would have built from X + Y directly.
  *
- * Threads: a store is not locked.  The first ordered read after buckets_add
- * (buckets_entries, buckets_entry_at, buckets_quantile, buckets_write)
- * builds a sort index inside the store; merge and read leave it built.  So
- * several threads may read one store only if no buckets_add happened since
- * its last merge, read or ordered read by a single thread.  Distinct stores
- * are independent.
+ * Threads: a store is not locked.  Ordered reads (buckets_entry_at,
+ * buckets_quantile, buckets_write) go through a sort index.  buckets_add may
+ * invalidate it; buckets_seal rebuilds it, and collapse, merge and read leave
+ * it built.  Every function taking a const store only reads it, so any
+ * number of threads may read one store at once while nobody adds to it.  A
+ * read of an unsealed store is still correct but sorts the entries into a
+ * temporary index first (O(n log n) per call, and it can fail for memory):
+ * seal a store before reading it many times.  Distinct stores are
+ * independent.
  *
  * Serialization (canonical, via wire): u32 budget, u8 level, u64 entry count,
  * then per entry i64 key, u32 cell, u64 count, in key-then-cell order.  Equal
@@ -112,10 +115,17 @@ int buckets_merge(buckets *into, const buckets *from, const uint32_t *cell_map, 
 int buckets_level(const buckets *b);
 uint32_t buckets_budget(const buckets *b);
 uint64_t buckets_total(const buckets *b);
+/* Builds the sort index of the ordered reads (a no-op when it is built).
+ * Cannot fail: the index's memory is allocated with the table. */
+void buckets_seal(buckets *b);
+/* 1 when the sort index is built (reads need no temporary index). */
+int buckets_sealed(const buckets *b);
 /* Occupied keys (distinct), and all (key, cell) entries in key-then-cell order. */
 size_t buckets_keys(const buckets *b);
 size_t buckets_entries(const buckets *b);
-/* Entry i (0 <= i < buckets_entries) in key-then-cell order. */
+/* Entry i (0 <= i < buckets_entries) in key-then-cell order; count 0 when i
+ * is out of range, or when the store is unsealed and its temporary index
+ * cannot be allocated. */
 buckets_entry buckets_entry_at(const buckets *b, size_t i);
 /* The p-quantile (0 <= p <= 1) of the marginal over cells, by the inverted
  * empirical CDF (numpy method='inverted_cdf', Hyndman & Fan definition 1):
@@ -124,7 +134,7 @@ buckets_entry buckets_entry_at(const buckets *b, size_t i);
  * bucket's point (buckets_point; 0 for key 0); *rel_err (may be NULL)
  * receives buckets_relative_error(level), so |result - q| <= *rel_err * |q|
  * for the exact sample quantile q whenever |q| is above the level's normal
- * floor.  NaN when empty or p outside [0, 1]. */
+ * floor.  NaN when empty or p outside [0, 1] (or unsealed and out of memory). */
 double buckets_quantile(const buckets *b, double p, double *rel_err);
 /* The relative-error bound of a level for the harmonic midpoint, max over
  * normal-range buckets of (hi - lo) / (hi + lo) (see above), rounded up by
@@ -132,6 +142,8 @@ double buckets_quantile(const buckets *b, double p, double *rel_err);
  * never above 1. */
 double buckets_relative_error(int level);
 
+/* Sets w->failed when the store is unsealed and its temporary index cannot
+ * be allocated. */
 void buckets_write(const buckets *b, wire_writer *w);
 /* Returns a new store, or NULL: with r->failed set on malformed input
  * (unsorted or duplicate entries, zero counts, keys outside the level's range,

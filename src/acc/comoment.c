@@ -49,7 +49,6 @@
 #include <cblas.h>
 #include <limits.h>
 #include <math.h>
-#include <pthread.h>
 #include <stdlib.h>
 #include <string.h>
 
@@ -101,9 +100,6 @@ static size_t pair_index(size_t i, size_t j)
     return hi * (hi + 1) / 2 + lo;
 }
 
-static pthread_once_t blas_once = PTHREAD_ONCE_INIT;
-static void blas_single_thread(void) { openblas_set_num_threads(1); }
-
 /* Sizes; the caller has checked p and max_rows against overflow. */
 static uint64_t state_doubles(uint64_t p)
 {
@@ -138,7 +134,6 @@ uint64_t comoment_bytes(size_t p, size_t max_rows)
 comoment *comoment_create(size_t p, size_t max_rows)
 {
     if (!sizes_ok(p, max_rows)) return NULL;
-    pthread_once(&blas_once, blas_single_thread);
     comoment *c = calloc(1, sizeof *c);
     if (!c) return NULL;
     c->p = p;

@@ -28,8 +28,11 @@
  * mean and m2 of both columns: 3 p (p + 1) doubles (packed triangles).  A
  * state that adds blocks also holds scratch for one block, allocated once:
  * 4 p^2 + 2 max_rows p + 3 p doubles.  comoment_add_block allocates nothing.
- * OpenBLAS is set single-threaded (openblas_set_num_threads(1), once per
- * process, on the first creation); the scan's own threads give parallelism.
+ * The BLAS calls run with whatever threading the host gave its BLAS: this
+ * module never changes it (the sheaf command sets OpenBLAS to one thread at
+ * start, in src/cli/main.c, since its blocks are small and its parallelism
+ * comes from processes).  Results do not depend on the BLAS thread count
+ * beyond the rounding of the block sums.
  *
  * A state is not shared between threads; distinct states may be used from
  * distinct threads at the same time.

@@ -41,9 +41,12 @@
  * Without overflow, a counts merge equals the table of the concatenated
  * input exactly; a values merge equals it up to rounding.
  *
- * Canonical order.  A sorted index of (key, cell, slot) is built on demand by
- * the readers (entry_at, write, merge) and dropped when a record is inserted
- * or the table grows; updates of existing records do not touch it.
+ * Canonical order.  A sorted index of (key, cell, slot) serves the ordered
+ * reads (entry_at, write, counts_to_values, merge).  Inserting a record or
+ * growing the table invalidates it, updates of existing records do not;
+ * crosstab_seal rebuilds it and crosstab_read leaves it built.  A read of an
+ * unsealed table sorts into a temporary index of its own, so a const table
+ * is never written.
  *
  * Serialization: see crosstab.h.  crosstab_read checks the mode and flag
  * bytes, strictly ascending (key, cell), n >= 1, at most max_keys exact keys,
@@ -53,6 +56,8 @@
 #include "acc/crosstab.h"
 
 #include <math.h>
+
+#include "acc/moments.h"
 #include <stdlib.h>
 #include <string.h>
 
@@ -324,9 +329,7 @@ static inline void welford(value_record *v, double y)
 static inline void add_equal(value_record *v, double y, uint64_t n)
 {
     if (n == 1) { welford(v, y); return; }
-    double na = (double)v->r.n, nb = (double)n, tot = na + nb, d = y - v->mean;
-    v->mean += d * nb / tot;
-    v->m2 += d * d * na * nb / tot;
+    moments_pair_merge((double)v->r.n, &v->mean, &v->m2, (double)n, y, 0.0);
     v->r.n += n;
 }
 
@@ -368,10 +371,23 @@ static int order_cmp(const void *a, const void *b)
     return (x->cell > y->cell) - (x->cell < y->cell);
 }
 
-/* Builds the canonical index if stale.  Returns 0 or -1 (out of memory). */
-static int build_order(const crosstab *ct)
+/* Writes the canonical index of t's records to out[0..records). */
+static void fill_order(const crosstab *t, order_ref *out)
 {
-    crosstab *t = (crosstab *)ct; /* cache only: the records do not change */
+    uint32_t k = 0, n = t->bits ? UINT32_C(1) << t->bits : 0;
+    for (uint32_t i = 0; i < n; i++) {
+        const record *r = slot_at(t, i, t->stride);
+        if (!r->n) continue;
+        out[k].key = r->key;
+        out[k].cell = r->cell;
+        out[k].slot = i;
+        k++;
+    }
+    if (k > 1) qsort(out, k, sizeof *out, order_cmp);
+}
+
+int crosstab_seal(crosstab *t)
+{
     if (t->order_valid) return 0;
     if (t->records > t->order_cap) {
         order_ref *p = realloc(t->order, (size_t)t->records * sizeof *p);
@@ -379,17 +395,24 @@ static int build_order(const crosstab *ct)
         t->order = p;
         t->order_cap = t->records;
     }
-    uint32_t k = 0, n = t->bits ? UINT32_C(1) << t->bits : 0;
-    for (uint32_t i = 0; i < n; i++) {
-        const record *r = slot_at(t, i, t->stride);
-        if (!r->n) continue;
-        t->order[k].key = r->key;
-        t->order[k].cell = r->cell;
-        t->order[k].slot = i;
-        k++;
-    }
-    if (k > 1) qsort(t->order, k, sizeof *t->order, order_cmp);
+    fill_order(t, t->order);
     t->order_valid = 1;
+    return 0;
+}
+
+int crosstab_sealed(const crosstab *t) { return t->order_valid; }
+
+/* The canonical index for a read: the table's own when sealed; else a
+ * temporary one in *tmp, which the caller frees (the table is never
+ * written).  -1 when memory for the temporary index runs out. */
+static int read_order(const crosstab *t, const order_ref **order, order_ref **tmp)
+{
+    *tmp = NULL;
+    *order = t->order;
+    if (t->order_valid) return 0;
+    *order = *tmp = malloc((t->records ? t->records : 1) * sizeof **tmp);
+    if (!*tmp) return -1;
+    fill_order(t, *tmp);
     return 0;
 }
 
@@ -435,9 +458,10 @@ static uint32_t count_new_keys(const crosstab *into, const crosstab *from)
 
 /* The k-th record of `from` to visit in a merge: canonical order, or slot
  * order through *cursor. */
-static const record *merge_next(const crosstab *from, int canonical, uint32_t k, uint32_t *cursor)
+static const record *merge_next(const crosstab *from, const order_ref *canonical, uint32_t k,
+                                uint32_t *cursor)
 {
-    if (canonical) return slot_at(from, from->order[k].slot, from->stride);
+    if (canonical) return slot_at(from, canonical[k].slot, from->stride);
     while (!slot_at(from, *cursor, from->stride)->n) (*cursor)++;
     return slot_at(from, (*cursor)++, from->stride);
 }
@@ -450,8 +474,8 @@ static const record *merge_next(const crosstab *from, int canonical, uint32_t k,
  * (else CROSSTAB_NO_HIT), so that pass 2 need not probe again while the table
  * does not grow. */
 static uint64_t count_new_records(const crosstab *into, const crosstab *from,
-                                  const uint32_t *cell_map, const admission *a, int canonical,
-                                  uint32_t *hits)
+                                  const uint32_t *cell_map, const admission *a,
+                                  const order_ref *canonical, uint32_t *hits)
 {
     uint64_t added = 0, to_overflow = 0;
     uint32_t cursor = 0;
@@ -492,6 +516,9 @@ static void combine(record *r, const record *fr, int values, double shift)
             a->mean = mean_b;
             a->m2 = b->m2;
         } else {
+            /* moments_pair_merge's rule, with the weight nb / n rounded on
+             * its own: files merged before the rule was shared keep their
+             * bytes (the other order moves the last bit of some means). */
             double d = mean_b - a->mean;
             a->mean += d * ((double)nb / (double)n);
             a->m2 += b->m2 + d * d * ((double)na * (double)nb / (double)n);
@@ -559,16 +586,20 @@ int crosstab_merge(crosstab *into, const crosstab *from, const uint32_t *cell_ma
             if (new_keys > a.room) a.limited = 1;
         }
     }
-    int canonical = a.limited && values;
-    if ((a.limited && a.room > 0) || canonical) {
-        if (build_order(from)) return -1;
+    /* from's canonical index: to find the admitted keys, and to visit from
+     * in order when values merge into the overflow record. */
+    order_ref *tmp = NULL;
+    const order_ref *order = NULL;
+    if (a.limited && (a.room > 0 || values)) {
+        if (read_order(from, &order, &tmp)) return -1;
     }
+    const order_ref *canonical = a.limited && values ? order : NULL;
     if (a.limited && a.room > 0) {
         /* The room-th smallest new key of from. */
         uint32_t taken = 0;
         for (uint32_t k = 0; k < from->records && taken < a.room; k++) {
-            uint64_t key = from->order[k].key;
-            if (key == CROSSTAB_OVERFLOW_KEY || (k > 0 && key == from->order[k - 1].key)) continue;
+            uint64_t key = order[k].key;
+            if (key == CROSSTAB_OVERFLOW_KEY || (k > 0 && key == order[k - 1].key)) continue;
             if (!key_present(into, key) && ++taken == a.room) a.last = key;
         }
     }
@@ -589,8 +620,10 @@ int crosstab_merge(crosstab *into, const crosstab *from, const uint32_t *cell_ma
     uint32_t key_inserts = a.limited ? a.room : new_keys;
     uint32_t bits = into->bits;
     if (reserve_records(into, record_bound) ||
-        (key_inserts && reserve_keys(into, (uint64_t)into->keys + key_inserts)))
+        (key_inserts && reserve_keys(into, (uint64_t)into->keys + key_inserts))) {
+        free(tmp);
         return -1;
+    }
     if (into->bits != bits) hits = NULL; /* records moved */
 
     /* Pass 2: cannot fail.  Records already held keep their slots when new
@@ -618,6 +651,7 @@ int crosstab_merge(crosstab *into, const crosstab *from, const uint32_t *cell_ma
         combine(r, fr, values, shift);
     }
     if (from->overflowed) into->overflowed = 1;
+    free(tmp);
     return 0;
 }
 
@@ -650,16 +684,19 @@ crosstab *crosstab_counts_to_values(const crosstab *t, const double *y, const ui
         if (!isfinite(y[c])) return NULL;
     crosstab *v = crosstab_create(t->max_keys);
     if (!v || !t->records) return v;
-    if (build_order(t)) { crosstab_free(v); return NULL; }
+    const order_ref *order;
+    order_ref *tmp;
+    if (read_order(t, &order, &tmp)) { crosstab_free(v); return NULL; }
     /* Canonical order, so the result does not depend on the table layout;
      * the overflow key keeps its place (new keys never need room here). */
     for (uint32_t j = 0; j < t->records; j++) {
-        const record *r = slot_at(t, t->order[j].slot, t->stride);
+        const record *r = slot_at(t, order[j].slot, t->stride);
         uint32_t cell = cells ? cells[r->cell] : 0;
         int rc = r->key == CROSSTAB_OVERFLOW_KEY ? add_overflow_values(v, cell, y[r->cell], r->n)
                                                 : crosstab_add_values_in(v, r->key, cell, y[r->cell], r->n);
-        if (rc != 0) { crosstab_free(v); return NULL; }
+        if (rc != 0) { crosstab_free(v); free(tmp); return NULL; }
     }
+    free(tmp);
     return v;
 }
 
@@ -673,9 +710,13 @@ size_t crosstab_entries(const crosstab *t) { return t->records; }
 
 crosstab_entry crosstab_entry_at(const crosstab *t, size_t i)
 {
-    crosstab_entry none = {0, 0, 0, 0.0, 0.0};
-    if (i >= t->records || build_order(t)) return none;
-    return entry_of(t, slot_at(t, t->order[i].slot, t->stride));
+    crosstab_entry e = {0, 0, 0, 0.0, 0.0};
+    const order_ref *order;
+    order_ref *tmp;
+    if (i >= t->records || read_order(t, &order, &tmp)) return e;
+    e = entry_of(t, slot_at(t, order[i].slot, t->stride));
+    free(tmp);
+    return e;
 }
 
 crosstab_entry crosstab_lookup(const crosstab *t, uint64_t key, uint32_t cell)
@@ -690,14 +731,16 @@ crosstab_entry crosstab_lookup(const crosstab *t, uint64_t key, uint32_t cell)
 
 void crosstab_write(const crosstab *t, wire_writer *w)
 {
-    if (build_order(t)) { w->failed = 1; return; }
+    const order_ref *order;
+    order_ref *tmp;
+    if (read_order(t, &order, &tmp)) { w->failed = 1; return; }
     int mode = crosstab_mode(t);
     wire_put_u32(w, t->max_keys);
     wire_put_u8(w, (uint8_t)mode);
     wire_put_u8(w, (uint8_t)(t->overflowed != 0));
     wire_put_u64(w, t->records);
     for (uint32_t k = 0; k < t->records; k++) {
-        crosstab_entry e = entry_of(t, slot_at(t, t->order[k].slot, t->stride));
+        crosstab_entry e = entry_of(t, slot_at(t, order[k].slot, t->stride));
         wire_put_u64(w, e.key);
         wire_put_u32(w, e.cell);
         wire_put_u64(w, e.n);
@@ -706,6 +749,7 @@ void crosstab_write(const crosstab *t, wire_writer *w)
             wire_put_f64(w, e.m2);
         }
     }
+    free(tmp);
 }
 
 static crosstab *read_fail(crosstab *t, wire_reader *r)

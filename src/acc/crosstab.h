@@ -24,9 +24,16 @@
  *
  * Errors: functions returning int return 0, or -1 when memory runs out or the
  * call breaks a rule stated below; a failed call leaves the table unchanged.
- * The canonical index behind crosstab_entry_at / crosstab_write is built on
- * demand inside the table, so concurrent readers of one table must not share
- * it unguarded.
+ *
+ * Threads: a table is not locked.  Ordered reads (crosstab_entry_at,
+ * crosstab_write, crosstab_counts_to_values, and crosstab_merge's reads of
+ * `from` when into may fill up) go through a canonical index that inserting a
+ * record invalidates; crosstab_seal rebuilds it and crosstab_read leaves it
+ * built.  Every function taking a const table only reads it, so any number
+ * of threads may read one table at once while nobody updates it.  A read of
+ * an unsealed table is still correct but sorts the records into a temporary
+ * index first (O(n log n) per call, and it can fail for memory): seal a
+ * table before reading it many times.
  */
 #ifndef SHEAF_CROSSTAB_H
 #define SHEAF_CROSSTAB_H
@@ -96,12 +103,18 @@ int crosstab_merge(crosstab *into, const crosstab *from, const uint32_t *cell_ma
  * a y[c] of a held cell is not finite. */
 crosstab *crosstab_counts_to_values(const crosstab *t, const double *y, const uint32_t *cells,
                                     uint32_t len);
+/* Builds the canonical index (a no-op when it is built).  Returns 0, or -1
+ * when memory runs out (the table is unchanged and still correct). */
+int crosstab_seal(crosstab *t);
+/* 1 when the canonical index is built. */
+int crosstab_sealed(const crosstab *t);
 int crosstab_mode(const crosstab *t);        /* CROSSTAB_EMPTY / _COUNTS / _VALUES */
 uint32_t crosstab_max_keys(const crosstab *t);
 int crosstab_overflowed(const crosstab *t);
 size_t crosstab_keys(const crosstab *t);     /* distinct keys incl. overflow */
 size_t crosstab_entries(const crosstab *t);  /* (key, cell) records */
-/* Entry i in canonical (key, cell) order; n == 0 when i >= crosstab_entries. */
+/* Entry i in canonical (key, cell) order; n == 0 when i >= crosstab_entries,
+ * or when the table is unsealed and its temporary index cannot be allocated. */
 crosstab_entry crosstab_entry_at(const crosstab *t, size_t i);
 /* The record (key, cell), key being crosstab_key_of(hash) or
  * CROSSTAB_OVERFLOW_KEY; n == 0 when absent. */
@@ -112,7 +125,9 @@ crosstab_entry crosstab_lookup(const crosstab *t, uint64_t key, uint32_t cell);
  * u64 key, u32 cell, u64 n >= 1, and in values mode f64 mean, f64 m2.
  * An empty table is written with mode CROSSTAB_EMPTY. */
 void crosstab_write(const crosstab *t, wire_writer *w);
-/* Returns a new table, or NULL (and sets r->failed) on malformed input. */
+/* Returns a new table, or NULL (and sets r->failed) on malformed input.
+ * crosstab_write sets w->failed when the table is unsealed and its temporary
+ * index cannot be allocated. */
 crosstab *crosstab_read(wire_reader *r);
 
 #endif

@@ -34,12 +34,11 @@ static void combine(moments *m, double nb_, double mb, double m2b, double m3b, d
     double na = (double)m->n, nb = nb_, n = na + nb;
     double d = mb - m->mean, d2 = d * d;
     double m2a = m->m2, m3a = m->m3;
-    m->mean += d * nb / n;
     m->m4 += m4b + d2 * d2 * na * nb * (na * na - na * nb + nb * nb) / (n * n * n) +
              6.0 * d2 * (na * na * m2b + nb * nb * m2a) / (n * n) +
              4.0 * d * (na * m3b - nb * m3a) / n;
     m->m3 += m3b + d2 * d * na * nb * (na - nb) / (n * n) + 3.0 * d * (na * m2b - nb * m2a) / n;
-    m->m2 += m2b + d2 * na * nb / n;
+    moments_pair_merge(na, &m->mean, &m->m2, nb, mb, m2b);
 }
 
 void moments_add_block(moments *m, const double *dev, size_t count)

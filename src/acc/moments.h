@@ -41,6 +41,20 @@ static inline void moments_see(moments *m, double x)
     if (x < m->min) m->min = x;
     if (x > m->max) m->max = x;
 }
+/* The pair merge of (n, mean, M2) of Chan, Golub & LeVeque (1979):
+ *     n = na + nb,  d = mean_b - mean_a,
+ *     mean = mean_a + d nb / n,  M2 = M2a + M2b + d^2 na nb / n,
+ * applied to (*mean_a, *m2_a); mean_b must already be in a's frame, and
+ * na + nb > 0.  The caller updates its count.  One evaluation order for every
+ * user (moments, class moments, per-value tables), so equal inputs give equal
+ * bits wherever the rule is applied. */
+static inline void moments_pair_merge(double na, double *mean_a, double *m2_a, double nb,
+                                      double mean_b, double m2_b)
+{
+    double n = na + nb, d = mean_b - *mean_a;
+    *mean_a += d * nb / n;
+    *m2_a += m2_b + d * d * na * nb / n;
+}
 /* into := into (+) from, shifting from's mean into into's reference. */
 void moments_merge(moments *into, const moments *from);
 

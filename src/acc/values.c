@@ -20,10 +20,12 @@
  * reserved before anything changes, so a failed merge leaves `into` intact.
  * Without overflow the result equals the table of the concatenated input.
  *
- * Canonical order.  A sorted index of (hash, slot) is built on demand by the
- * readers (entry_at, write, merge) and dropped when a key is inserted; count
- * increments do not touch it.  Building it writes to the table behind a const
- * pointer, so concurrent readers of one table must not share it unguarded.
+ * Canonical order.  A sorted index of (hash, slot) serves the ordered reads
+ * (entry_at, write, and merge when the result depends on the order).  An
+ * insert invalidates it, count increments do not; values_seal rebuilds it
+ * and values_read leaves it built.  A read of an unsealed table sorts into a
+ * temporary index of its own: functions taking a const table never write
+ * to it, so concurrent readers may share one.
  *
  * Serialization (little-endian, wire.h):
  *     u32 max_levels, u32 label_bytes, u8 overflowed, u32 levels,
@@ -328,10 +330,21 @@ static int order_cmp(const void *a, const void *b)
     return (x > y) - (x < y);
 }
 
-/* Builds the canonical index if stale.  Returns 0 or -1 (out of memory). */
-static int build_order(const values *cv)
+/* Writes the canonical index of v's entries to out[0..levels). */
+static void fill_order(const values *v, order_ref *out)
 {
-    values *v = (values *)cv; /* cache only: the table's contents do not change */
+    uint32_t k = 0, n = slot_count(v);
+    for (uint32_t i = 0; i < n; i++) {
+        if (!v->slots[i].count) continue;
+        out[k].hash = v->slots[i].hash;
+        out[k].slot = i;
+        k++;
+    }
+    if (k > 1) qsort(out, k, sizeof *out, order_cmp);
+}
+
+int values_seal(values *v)
+{
     if (v->order_valid) return 0;
     if (v->levels > v->order_cap) {
         order_ref *p = realloc(v->order, (size_t)v->levels * sizeof *p);
@@ -339,15 +352,24 @@ static int build_order(const values *cv)
         v->order = p;
         v->order_cap = v->levels;
     }
-    uint32_t k = 0, n = slot_count(v);
-    for (uint32_t i = 0; i < n; i++) {
-        if (!v->slots[i].count) continue;
-        v->order[k].hash = v->slots[i].hash;
-        v->order[k].slot = i;
-        k++;
-    }
-    if (k > 1) qsort(v->order, k, sizeof *v->order, order_cmp);
+    fill_order(v, v->order);
     v->order_valid = 1;
+    return 0;
+}
+
+int values_sealed(const values *v) { return v->order_valid; }
+
+/* The canonical index for a read: the table's own when sealed; else a
+ * temporary one in *tmp, which the caller frees (the table is never
+ * written).  -1 when memory for the temporary index runs out. */
+static int read_order(const values *v, const order_ref **order, order_ref **tmp)
+{
+    *tmp = NULL;
+    *order = v->order;
+    if (v->order_valid) return 0;
+    *order = *tmp = malloc((v->levels ? v->levels : 1) * sizeof **tmp);
+    if (!*tmp) return -1;
+    fill_order(v, *tmp);
     return 0;
 }
 
@@ -364,9 +386,10 @@ static values_entry entry_of(const values *v, uint32_t i)
 /* The k-th entry of `from` to visit in a merge: canonical order when `into`
  * may run out of room (the result then depends on the order), slot order
  * otherwise (every entry fits, so any order gives the same table). */
-static uint32_t merge_slot(const values *from, int canonical, uint32_t k, uint32_t *cursor)
+static uint32_t merge_slot(const values *from, const order_ref *canonical, uint32_t k,
+                           uint32_t *cursor)
 {
-    if (canonical) return from->order[k].slot;
+    if (canonical) return canonical[k].slot;
     while (from->slots[*cursor].count == 0) (*cursor)++;
     return (*cursor)++;
 }
@@ -374,8 +397,10 @@ static uint32_t merge_slot(const values *from, int canonical, uint32_t k, uint32
 int values_merge(values *into, const values *from)
 {
     uint32_t free_levels = into->max_levels > into->levels ? into->max_levels - into->levels : 0;
-    int canonical = free_levels > 0 && from->levels > free_levels;
-    if (canonical && build_order(from)) return -1;
+    order_ref *tmp = NULL;
+    const order_ref *canonical = NULL;
+    if (free_levels > 0 && from->levels > free_levels && read_order(from, &canonical, &tmp))
+        return -1;
 
     /* Pass 1: how many keys and label bytes will be inserted. */
     uint32_t room = into->max_levels > into->levels ? into->max_levels - into->levels : 0;
@@ -389,8 +414,10 @@ int values_merge(values *into, const values *from)
         inserts++;
     }
     if (inserts && (reserve_entries(into, into->levels + inserts) ||
-                    reserve_arena(into, label_total)))
+                    reserve_arena(into, label_total))) {
+        free(tmp);
         return -1;
+    }
 
     /* Pass 2: cannot fail.  `from` may be `into`; then every key is found
      * and nothing is inserted, so from's index stays valid. */
@@ -414,6 +441,7 @@ int values_merge(values *into, const values *from)
     into->overflow_total += from_overflow_total;
     if (from->overflowed) into->overflowed = 1;
     into->total += from_total;
+    free(tmp);
     return 0;
 }
 
@@ -431,9 +459,20 @@ uint64_t values_count_of(const values *v, uint64_t hash)
 
 values_entry values_entry_at(const values *v, uint32_t i)
 {
-    values_entry none = {0, 0, "", 0};
-    if (i >= v->levels || build_order(v)) return none;
-    return entry_of(v, v->order[i].slot);
+    values_entry e = {0, 0, "", 0};
+    const order_ref *order;
+    order_ref *tmp;
+    if (i >= v->levels || read_order(v, &order, &tmp)) return e;
+    e = entry_of(v, order[i].slot);
+    free(tmp);
+    return e;
+}
+
+void values_for_each_hash(const values *v, void (*fn)(void *ctx, uint64_t hash), void *ctx)
+{
+    uint32_t n = slot_count(v);
+    for (uint32_t i = 0; i < n; i++)
+        if (v->slots[i].count) fn(ctx, v->slots[i].hash);
 }
 
 /* Top-k order: count descending, then hash ascending (a total order, since
@@ -492,18 +531,21 @@ size_t values_top(const values *v, size_t k, values_entry *out)
 
 void values_write(const values *v, wire_writer *w)
 {
-    if (build_order(v)) { w->failed = 1; return; }
+    const order_ref *order;
+    order_ref *tmp;
+    if (read_order(v, &order, &tmp)) { w->failed = 1; return; }
     wire_put_u32(w, v->max_levels);
     wire_put_u32(w, v->label_bytes);
     wire_put_u8(w, (uint8_t)(v->overflowed != 0));
     wire_put_u32(w, v->levels);
     for (uint32_t k = 0; k < v->levels; k++) {
-        values_entry e = entry_of(v, v->order[k].slot);
+        values_entry e = entry_of(v, order[k].slot);
         wire_put_u64(w, e.hash);
         wire_put_u64(w, e.count);
         wire_put_str(w, e.label, e.label_len);
     }
     for (uint32_t s = 0; s < VALUES_OVERFLOW_SLOTS; s++) wire_put_u64(w, v->overflow[s]);
+    free(tmp);
 }
 
 static values *read_fail(values *v, wire_reader *r)

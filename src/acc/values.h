@@ -14,6 +14,15 @@
  * `from`'s overflow counters add slot-wise).  Without overflow the merge is
  * exact and order-independent.  Serialization is canonical (entries sorted by
  * hash), so equal tables serialize to equal bytes.
+ *
+ * Threads: a table is not locked.  Ordered reads (values_entry_at,
+ * values_write, and values_merge's reads of `from` when into may fill up) go
+ * through a canonical index that an insert invalidates; values_seal rebuilds
+ * it and values_read leaves it built.  Every function taking a const table
+ * only reads it, so any number of threads may read one table at once while
+ * nobody updates it.  A read of an unsealed table is still correct but sorts
+ * the entries into a temporary index first (O(n log n) per call, and it can
+ * fail for memory): seal a table before reading it many times.
  */
 #ifndef SHEAF_VALUES_H
 #define SHEAF_VALUES_H
@@ -48,6 +57,12 @@ long values_add_many(values *v, const uint64_t *hash, const char *const *text,
                      const uint32_t *len, size_t n, int stop_at_overflow);
 int values_merge(values *into, const values *from);
 
+/* Builds the canonical index (a no-op when it is built).  Returns 0, or -1
+ * when memory runs out (the table is unchanged and still correct). */
+int values_seal(values *v);
+/* 1 when the canonical index is built. */
+int values_sealed(const values *v);
+
 uint32_t values_levels(const values *v);       /* exact entries held */
 uint32_t values_max_levels(const values *v);
 int values_overflowed(const values *v);
@@ -55,12 +70,20 @@ uint64_t values_overflow_total(const values *v); /* cells counted in overflow sl
 uint64_t values_total(const values *v);          /* all counted cells */
 /* Count of one value: exact for table entries, 0 if absent. */
 uint64_t values_count_of(const values *v, uint64_t hash);
-/* Entry i (0 <= i < values_levels) in canonical (hash) order. */
+/* Entry i (0 <= i < values_levels) in canonical (hash) order; count 0 when
+ * i is out of range, or when the table is unsealed and its temporary index
+ * cannot be allocated. */
 values_entry values_entry_at(const values *v, uint32_t i);
+/* Calls fn(ctx, hash) once for every exact entry, in table order (not
+ * canonical): for uses that do not depend on the order, such as folding the
+ * keys into a sketch.  Needs no index. */
+void values_for_each_hash(const values *v, void (*fn)(void *ctx, uint64_t hash), void *ctx);
 /* The k most frequent entries, count descending then hash ascending; returns
  * how many were written to out. */
 size_t values_top(const values *v, size_t k, values_entry *out);
 
+/* Sets w->failed when the table is unsealed and its temporary index cannot
+ * be allocated. */
 void values_write(const values *v, wire_writer *w);
 /* Returns a new table, or NULL (and sets r->failed) on malformed input. */
 values *values_read(wire_reader *r);

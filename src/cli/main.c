@@ -1,10 +1,17 @@
-/* sheaf: command dispatch and the top-level help. */
+/* sheaf: command dispatch and the top-level help.
+ *
+ * Process-wide settings are made here, once, and nowhere in the library:
+ * OpenBLAS runs single-threaded, and GSL failures give NaN p-values
+ * (stat_gsl_error_handler) instead of GSL's default abort. */
+#include <cblas.h>
+#include <gsl/gsl_errno.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 #include <unistd.h>
 
 #include "cli/cli.h"
+#include "stats/stat.h"
 
 typedef struct {
     const char *name;
@@ -50,6 +57,8 @@ int main(int argc, char **argv)
         setenv("OPENBLAS_NUM_THREADS", "1", 1);
         execv("/proc/self/exe", argv);
     }
+    openblas_set_num_threads(1); /* in case the re-execution failed */
+    gsl_set_error_handler(stat_gsl_error_handler);
     if (argc < 2) { help(stderr); return EXIT_USAGE; }
     if (!strcmp(argv[1], "-h") || !strcmp(argv[1], "--help") || !strcmp(argv[1], "help")) {
         help(stdout);

@@ -5,10 +5,11 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
-#include <sys/stat.h>
 #include <unistd.h>
 #include <isa-l.h>
 #include <zstd.h>
+
+#include "summary/tempfile.h"
 
 enum { PLAIN, GZIP, ZSTD };
 #define BUF_BYTES (1u << 18)
@@ -46,20 +47,13 @@ sink *sink_open(const char *path, char *err, size_t errlen)
         return s;
     }
     s->path = strdup(path);
-    s->tmp = malloc(strlen(path) + 16);
-    if (!s->path || !s->tmp) { sink_abort(s); snprintf(err, errlen, "out of memory"); return NULL; }
-    snprintf(s->tmp, strlen(path) + 16, "%s.tmp.XXXXXX", path);
-    int fd = mkstemp(s->tmp);
+    if (!s->path) { sink_abort(s); snprintf(err, errlen, "out of memory"); return NULL; }
+    int fd = tempfile_create(path, &s->tmp); /* mode as creat() would give it */
     if (fd < 0) {
         snprintf(err, errlen, "%s: cannot create: %s", path, strerror(errno));
-        free(s->tmp);
-        s->tmp = NULL;
         sink_abort(s);
         return NULL;
     }
-    mode_t mask = umask(0);
-    umask(mask);
-    fchmod(fd, 0666 & ~mask);
     s->kind = ends_with(path, ".gz") ? GZIP : ends_with(path, ".zst") ? ZSTD : PLAIN;
     s->f = fdopen(fd, "wb");
     if (!s->f) close(fd);

@@ -35,16 +35,14 @@
 #include <gsl/gsl_cdf.h>
 #include <gsl/gsl_errno.h>
 #include <math.h>
-#include <pthread.h>
 #include <stdlib.h>
 #include <string.h>
 
 /* ---- GSL errors -------------------------------------------------------- */
 
-static _Thread_local int gsl_status; /* last GSL error of this thread, 0 = none */
-static pthread_once_t handler_once = PTHREAD_ONCE_INIT;
+static _Thread_local int gsl_status; /* first GSL error of this thread's current p-value */
 
-static void record_gsl_error(const char *reason, const char *file, int line, int gsl_errno)
+void stat_gsl_error_handler(const char *reason, const char *file, int line, int gsl_errno)
 {
     (void)reason;
     (void)file;
@@ -52,16 +50,7 @@ static void record_gsl_error(const char *reason, const char *file, int line, int
     if (!gsl_status) gsl_status = gsl_errno;
 }
 
-static void install_handler(void)
-{
-    gsl_set_error_handler(record_gsl_error);
-}
-
-static void gsl_begin(void)
-{
-    pthread_once(&handler_once, install_handler);
-    gsl_status = 0;
-}
+static void gsl_begin(void) { gsl_status = 0; }
 
 /* ---- distribution tails ------------------------------------------------ */
 

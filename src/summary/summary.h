@@ -8,7 +8,24 @@
  * overflows), so a merge of scans of the parts of a table equals a scan of
  * the whole, up to rounding of the moments.
  *
- * The file format is specified in docs/summary-format.md.
+ * The file format is specified in docs/summary-format.md.  summary.c holds
+ * the accumulator set, merge.c the merge, format.c the file.
+ *
+ * Sealing and threads.  The value table, the bucket store and the per-value
+ * table answer ordered reads (canonical order, quantiles, top values, the
+ * file) from a sort index that updates invalidate.  summary_seal builds every
+ * such index; summary_read, summary_decode and summary_merge end with it,
+ * and a scan must call it when it has fed its last row.  From then on every
+ * call that takes a const summary (or a const accumulator of one) only reads
+ * memory, so any number of threads may run the read-only calls (screen, PCA,
+ * quantiles, top values, summary_write ...) on one summary at once, as long
+ * as nobody updates it.  An unsealed summary gives the same answers, and is
+ * still never written by those calls: each ordered read then sorts into a
+ * temporary index of its own, which costs O(n log n) per call (a full walk
+ * of a bucket store with buckets_entry_at becomes quadratic) and can fail
+ * for memory (an entry with count 0, a NaN quantile, a failed write).
+ * Checking instead (an assert) would abort hosts that build summaries by
+ * hand; the slow path keeps them correct and the cost visible in a profile.
  */
 #ifndef SHEAF_SUMMARY_H
 #define SHEAF_SUMMARY_H
@@ -175,14 +192,25 @@ uint32_t summary_target_cell(double y);
 void summary_free(summary *s);
 /* Empties the accumulators, keeping schema and allocations. */
 void summary_reset(summary *s);
+/* Builds the sort index of every accumulator of every column (see "Sealing
+ * and threads" above), so that read-only calls need no temporary index.
+ * Returns 0, or -1 when memory runs out (s is unchanged apart from the
+ * indexes already built, and still correct).  Idempotent and cheap on a
+ * sealed summary. */
+int summary_seal(summary *s);
+/* 1 when every index is built (summary_seal has nothing left to do). */
+int summary_sealed(const summary *s);
 
 /* Lists the differences that forbid merging a and b into msg (one line,
  * "; "-separated); returns 1 when compatible. */
 int summary_compatible(const summary *a, const summary *b, char *msg, size_t msglen);
-/* into := into (+) from: accumulators, counts, sources.  The schemas must be
- * compatible (checked; SUMMARY_ERR_INCOMPATIBLE otherwise).  When one side
- * has dropped its target classes (or together they pass max_classes), the
- * other side's classes are dropped too, so `from` may be modified. */
+/* into := into (+) from: accumulators, counts, sources; then seals into.
+ * The schemas must be compatible (checked; SUMMARY_ERR_INCOMPATIBLE
+ * otherwise, also when the classes of a text target would have to be
+ * dropped).  When one side has dropped its target classes (or together they
+ * pass max_classes), the other side's classes are dropped too, so `from`
+ * may be modified.  SUMMARY_ERR_MEMORY ("out of memory while merging") when
+ * memory runs out; into may then be partly merged. */
 summary_status summary_merge(summary *into, summary *from, char *err, size_t errlen);
 /* Appends a source record (copied). */
 int summary_add_source(summary *s, const summary_source *src);
@@ -203,10 +231,13 @@ void summary_column_fold_keys(hll *h, const values *v);
 uint64_t summary_column_present(const summary_column *c);
 
 /* File I/O.  Writing goes to a temporary file in the target directory that
- * is flushed and renamed, so no half-written file ever has the final name. */
+ * is flushed and renamed, so no half-written file ever has the final name;
+ * the file gets the mode a plain creat() would give it (0666 less the
+ * umask), and the process umask is never touched (src/summary/tempfile.h). */
 summary_status summary_write(const summary *s, const char *path, char *err, size_t errlen);
+/* Reads a summary file into a new, sealed summary. */
 summary_status summary_read(const char *path, summary **out, char *err, size_t errlen);
-/* Decodes a summary from the bytes of a file. */
+/* Decodes a summary from the bytes of a file into a new, sealed summary. */
 summary_status summary_decode(const uint8_t *data, size_t len, summary **out, char *err,
                               size_t errlen);
 

@@ -1,0 +1,277 @@
+/* summary merge: compatibility, the class dictionary's conversion and
+ * mapping, and summary_merge (see summary.h).
+ *
+ * Every accumulator merges by its own rule (see its header); this file maps
+ * target classes between the two summaries, shifts frames by the exact
+ * difference of their decimal references (number_difference), and seals the
+ * result.  Per-class moments combine by the pair rule of Chan, Golub &
+ * LeVeque (1979), moments_pair_merge.
+ */
+#include "summary/summary.h"
+
+#include <stdarg.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+/* The target's frame (its moments reference); NULL when it has none. */
+static const number_decimal *target_frame(const summary *s)
+{
+    if (s->target < 0 || !s->cols[s->target].mom.has_ref) return NULL;
+    return &s->cols[s->target].mom.ref;
+}
+
+int summary_drop_classes(summary *s, const summary *dict)
+{
+    if (!s->has_classes) return 0;
+    for (uint32_t c = 0; c < dict->nclasses; c++)
+        if (!dict->class_numeric[c]) return -1; /* a text target cannot become numeric */
+    uint32_t k = dict->nclasses;
+    uint32_t *map = malloc((k + 1) * sizeof *map);
+    double *y = malloc((k + 1) * sizeof *y);
+    if (!map || !y) { free(map); free(y); return -1; }
+    const number_decimal *frame = target_frame(s);
+    map[0] = 0;
+    y[0] = 0;
+    for (uint32_t c = 0; c < k; c++) {
+        map[c + 1] = summary_target_cell(dict->class_dec[c].value);
+        y[c + 1] = frame ? number_difference(&dict->class_dec[c], frame, NULL)
+                         : dict->class_dec[c].value;
+    }
+    int rc = 0;
+    for (size_t i = 0; i < s->ncols && rc == 0; i++) {
+        summary_column *col = &s->cols[i];
+        buckets *nb = buckets_create(s->opt.bucket_budget);
+        if (!nb || buckets_merge(nb, col->bins, map, k + 1) != 0) { buckets_free(nb); rc = -1; break; }
+        buckets_free(col->bins);
+        col->bins = nb;
+        if (col->cross) {
+            crosstab *nx = crosstab_counts_to_values(col->cross, y, map, k + 1);
+            if (!nx) { rc = -1; break; }
+            crosstab_free(col->cross);
+            col->cross = nx;
+        }
+        free(col->cls);
+        col->cls = NULL;
+    }
+    free(map);
+    free(y);
+    if (rc == 0) {
+        s->has_classes = 0;
+        s->classes_dropped = 1;
+        for (uint32_t c = 0; c < s->nclasses; c++) free(s->class_label[c]);
+        s->nclasses = 0;
+    }
+    return rc;
+}
+
+/* ---- compatibility and merge -------------------------------------------- */
+
+static void add_diff(char *msg, size_t msglen, size_t *used, const char *fmt, ...)
+    __attribute__((format(printf, 4, 5)));
+
+static void add_diff(char *msg, size_t msglen, size_t *used, const char *fmt, ...)
+{
+    if (*used >= msglen) return;
+    if (*used) *used += (size_t)snprintf(msg + *used, msglen - *used, "; ");
+    if (*used >= msglen) return;
+    va_list ap;
+    va_start(ap, fmt);
+    *used += (size_t)vsnprintf(msg + *used, msglen - *used, fmt, ap);
+    va_end(ap);
+}
+
+int summary_compatible(const summary *a, const summary *b, char *msg, size_t msglen)
+{
+    size_t used = 0;
+    if (msglen) msg[0] = '\0';
+    if (a->ncols != b->ncols) add_diff(msg, msglen, &used, "%zu columns vs %zu", a->ncols, b->ncols);
+    size_t n = a->ncols < b->ncols ? a->ncols : b->ncols;
+    int shown = 0;
+    for (size_t i = 0; i < n && shown < 5; i++) {
+        if (strcmp(a->cols[i].name, b->cols[i].name) != 0) {
+            add_diff(msg, msglen, &used, "column %zu is '%s' vs '%s'", i + 1, a->cols[i].name,
+                     b->cols[i].name);
+            shown++;
+        } else if (a->cols[i].mode != b->cols[i].mode) {
+            static const char *m[] = {"auto", "numeric", "categorical"};
+            add_diff(msg, msglen, &used, "column '%s' declared %s vs %s", a->cols[i].name,
+                     m[a->cols[i].mode], m[b->cols[i].mode]);
+            shown++;
+        }
+    }
+    if (a->opt.max_levels != b->opt.max_levels)
+        add_diff(msg, msglen, &used, "max levels %u vs %u", a->opt.max_levels, b->opt.max_levels);
+    if (a->opt.label_bytes != b->opt.label_bytes)
+        add_diff(msg, msglen, &used, "label bytes %u vs %u", a->opt.label_bytes, b->opt.label_bytes);
+    if (a->opt.bucket_budget != b->opt.bucket_budget)
+        add_diff(msg, msglen, &used, "bucket budget %u vs %u", a->opt.bucket_budget,
+                 b->opt.bucket_budget);
+    int same_missing = a->opt.n_missing == b->opt.n_missing;
+    for (uint32_t i = 0; same_missing && i < a->opt.n_missing; i++)
+        same_missing = strcmp(a->opt.missing[i], b->opt.missing[i]) == 0;
+    if (!same_missing) add_diff(msg, msglen, &used, "different missing-value lists");
+    const char *ta = a->opt.target ? a->opt.target : "(none)";
+    const char *tb = b->opt.target ? b->opt.target : "(none)";
+    if (strcmp(ta, tb) != 0) add_diff(msg, msglen, &used, "target '%s' vs '%s'", ta, tb);
+    static const char *tasks[] = {"auto", "classify", "regress"};
+    if (a->opt.task != b->opt.task)
+        add_diff(msg, msglen, &used, "task %s vs %s", tasks[a->opt.task], tasks[b->opt.task]);
+    if (a->opt.max_classes != b->opt.max_classes)
+        add_diff(msg, msglen, &used, "max classes %u vs %u", a->opt.max_classes, b->opt.max_classes);
+    return used == 0;
+}
+
+/* Maps from's classes onto into's (adding new ones).  Returns 0, 1 when
+ * into would pass max_classes, -1 on OOM. */
+static int map_classes(summary *into, const summary *from, uint32_t *map)
+{
+    map[0] = 0;
+    for (uint32_t c = 0; c < from->nclasses; c++) {
+        const number_decimal *dec = from->class_numeric[c] ? &from->class_dec[c] : NULL;
+        uint32_t k = summary_class_of(into, from->class_hash[c], from->class_label[c],
+                                      strlen(from->class_label[c]), dec);
+        if (k == 0) return into->nclasses >= into->opt.max_classes ? 1 : -1;
+        map[c + 1] = k;
+    }
+    return 0;
+}
+
+/* Combines two class moments; shift = from's frame minus into's. */
+static void class_merge(class_moments *a, const class_moments *b, double shift)
+{
+    if (b->n == 0) return;
+    if (a->n == 0) { *a = *b; a->mean += shift; return; }
+    moments_pair_merge((double)a->n, &a->mean, &a->m2, (double)b->n, b->mean + shift, b->m2);
+    a->n += b->n;
+}
+
+/* 1 when every class of s is a number, so that its classes can be dropped
+ * (a text target cannot continue as a regression target). */
+static int classes_numeric(const summary *s)
+{
+    for (uint32_t c = 0; c < s->nclasses; c++)
+        if (!s->class_numeric[c]) return 0;
+    return 1;
+}
+
+static summary_status out_of_memory(char *err, size_t errlen)
+{
+    snprintf(err, errlen, "out of memory while merging");
+    return SUMMARY_ERR_MEMORY;
+}
+
+summary_status summary_merge(summary *into, summary *from, char *err, size_t errlen)
+{
+    if (!summary_compatible(into, from, err, errlen)) return SUMMARY_ERR_INCOMPATIBLE;
+    /* Classes: both kept, or neither (a side that dropped them wins). */
+    if (into->has_classes != from->has_classes) {
+        summary *keeper = into->has_classes ? into : from;
+        if (!classes_numeric(keeper)) {
+            snprintf(err, errlen, "target '%s': one summary has more than %u classes and the "
+                     "target is not numeric", into->opt.target, into->opt.max_classes);
+            return SUMMARY_ERR_INCOMPATIBLE;
+        }
+        if (summary_drop_classes(keeper, keeper) != 0) return out_of_memory(err, errlen);
+    }
+    uint32_t *map = NULL;
+    if (into->has_classes) {
+        map = malloc((from->nclasses + 1) * sizeof *map);
+        if (!map) return out_of_memory(err, errlen);
+        int rc = map_classes(into, from, map);
+        if (rc < 0) { free(map); return out_of_memory(err, errlen); }
+        if (rc > 0) {
+            free(map);
+            map = NULL;
+            if (!classes_numeric(into) || !classes_numeric(from)) {
+                snprintf(err, errlen, "target '%s': together the summaries have more than %u "
+                         "classes; rescan with a larger --max-classes or --task regress",
+                         into->opt.target, into->opt.max_classes);
+                return SUMMARY_ERR_INCOMPATIBLE;
+            }
+            if (summary_drop_classes(into, into) != 0 || summary_drop_classes(from, from) != 0)
+                return out_of_memory(err, errlen);
+        }
+    }
+    int same_classes = map != NULL;
+    for (uint32_t c = 0; same_classes && c <= from->nclasses; c++) same_classes = map[c] == c;
+    /* Target frame shift for the regression tables. */
+    const number_decimal *fa = target_frame(into), *fb = target_frame(from);
+    double yshift = fa && fb ? number_difference(fb, fa, NULL) : 0;
+    for (size_t i = 0; i < into->ncols; i++) {
+        summary_column *a = &into->cols[i];
+        const summary_column *b = &from->cols[i];
+        /* Column frame shift (before the moments merge sets a's reference). */
+        double shift = a->mom.has_ref && b->mom.has_ref ? number_difference(&b->mom.ref, &a->mom.ref, NULL) : 0;
+        if (a->cls && b->cls) {
+            /* A chunk-local set numbers classes like the running one (same_classes). */
+            uint32_t k = same_classes ? into->opt.max_classes : from->nclasses;
+            for (uint32_t c = 0; c < k; c++)
+                class_merge(&a->cls[same_classes ? c : map[c + 1] - 1], &b->cls[c], shift);
+        }
+        a->missing += b->missing;
+        a->non_numeric += b->non_numeric;
+        a->non_finite += b->non_finite;
+        a->zeros += b->zeros;
+        a->integers += b->integers;
+        moments_merge(&a->mom, &b->mom);
+        hll_merge(a->distinct, b->distinct);
+        int was_overflowed = values_overflowed(a->vals);
+        uint32_t mlen = map ? from->nclasses + 1 : 0;
+        if (values_merge(a->vals, b->vals) != 0 ||
+            buckets_merge(a->bins, b->bins, same_classes ? NULL : map, mlen) != 0 ||
+            (a->cross && b->cross &&
+             crosstab_merge(a->cross, b->cross, same_classes ? NULL : map, mlen, yshift) != 0)) {
+            free(map);
+            return out_of_memory(err, errlen);
+        }
+        /* Sketches hold only what arrived after their table overflowed. */
+        if (values_overflowed(a->vals)) {
+            if (!was_overflowed) summary_column_fold_keys(a->distinct, a->vals);
+            summary_column_fold_keys(a->distinct, b->vals);
+        }
+        /* The per-value table is void once the value table overflowed. */
+        if (a->cross && values_overflowed(a->vals) && crosstab_entries(a->cross))
+            crosstab_reset(a->cross);
+        for (uint32_t e = 0; e < b->n_examples && a->n_examples < SUMMARY_EXAMPLES; e++) {
+            int dup = 0;
+            for (uint32_t k = 0; k < a->n_examples; k++)
+                dup |= strcmp(a->examples[k], b->examples[e]) == 0;
+            if (!dup) memcpy(a->examples[a->n_examples++], b->examples[e], SUMMARY_EXAMPLE_BYTES + 1);
+        }
+    }
+    if (map)
+        for (uint32_t c = 0; c < from->nclasses; c++) into->class_rows[map[c + 1] - 1] += from->class_rows[c];
+    free(map);
+    into->classes_dropped |= from->classes_dropped;
+    into->target_text += from->target_text;
+    /* Co-moments: shift from's frame into into's. */
+    if (into->como && from->como) {
+        double *shift = calloc(into->ncomo ? into->ncomo : 1, sizeof *shift);
+        if (!shift) return out_of_memory(err, errlen);
+        for (size_t k = 0; k < into->ncomo; k++) {
+            if (!from->como_ref_set[k]) continue;
+            if (!into->como_ref_set[k]) {
+                into->como_ref[k] = from->como_ref[k];
+                into->como_ref_set[k] = 1;
+            } else {
+                shift[k] = number_difference(&from->como_ref[k], &into->como_ref[k], NULL);
+            }
+        }
+        int rc = comoment_merge(into->como, from->como, shift);
+        free(shift);
+        if (rc != 0) return out_of_memory(err, errlen);
+    }
+    into->rows += from->rows;
+    into->bytes += from->bytes;
+    into->short_rows += from->short_rows;
+    into->long_rows += from->long_rows;
+    for (uint32_t i = 0; i < from->n_bad_lines && into->n_bad_lines < SUMMARY_BAD_LINES; i++)
+        into->bad_lines[into->n_bad_lines++] = from->bad_lines[i];
+    for (size_t i = 0; i < from->nsources; i++)
+        if (summary_add_source(into, &from->sources[i]) != 0)
+            return out_of_memory(err, errlen);
+    if (summary_seal(into) != 0) return out_of_memory(err, errlen);
+    return SUMMARY_OK;
+}
+
