@@ -728,12 +728,6 @@ int buckets_add_many(buckets *b, const double *x, const uint32_t *cells, size_t 
     return 0;
 }
 
-void buckets_reset_level(buckets *b, int level)
-{
-    buckets_reset(b);
-    b->level = clamp_level(level);
-}
-
 /* Fast path of buckets_merge: `from` is no coarser than `into` and the union
  * fits into's budget at into's level, so entries are added in place with no
  * sort.  Returns 1 when done, 0 when the general path is needed, -1 on OOM

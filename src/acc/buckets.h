@@ -104,9 +104,6 @@ int buckets_add(buckets *b, double x, uint32_t cell, uint64_t count);
 /* n calls of buckets_add(b, x[i], cells ? cells[i] : 0, 1), faster
  * (prefetches ahead). */
 int buckets_add_many(buckets *b, const double *x, const uint32_t *cells, size_t n);
-/* Empties b and sets its level: a chunk-local store that starts at the
- * running store's level never collapses through the levels below it. */
-void buckets_reset_level(buckets *b, int level);
 /* Adds from's counts to into; cell c of `from` becomes cell_map[c] (NULL:
  * identity).  into's budget applies to the result.  Returns 0, or -1 on OOM
  * or when from holds a cell >= map_len with a non-NULL map; into is

@@ -292,7 +292,7 @@ int block_target(block *b, const char *p, uint32_t len)
         int numeric = finite && s->opt.task != TASK_CLASSIFY;
         for (uint32_t c = 0; numeric && c < s->nclasses; c++) numeric = s->class_numeric[c];
         if (!numeric) return 1;
-        if (block_flush(b) != 0 || summary_drop_classes(s, s) != 0) return -1;
+        if (block_flush(b) != 0 || summary_drop_classes(s) != 0) return -1;
         r = 0;
         b->row_cell[r] = b->row_class[r] = b->row_has_y[r] = 0;
     }

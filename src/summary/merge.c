@@ -21,8 +21,9 @@ static const number_decimal *target_frame(const summary *s)
     return &s->cols[s->target].mom.ref;
 }
 
-int summary_drop_classes(summary *s, const summary *dict)
+int summary_drop_classes(summary *s)
 {
+    const summary *dict = s; /* its own classes number its cells */
     if (!s->has_classes) return 0;
     for (uint32_t c = 0; c < dict->nclasses; c++)
         if (!dict->class_numeric[c]) return -1; /* a text target cannot become numeric */
@@ -172,7 +173,7 @@ summary_status summary_merge(summary *into, summary *from, char *err, size_t err
                      "target is not numeric", into->opt.target, into->opt.max_classes);
             return SUMMARY_ERR_INCOMPATIBLE;
         }
-        if (summary_drop_classes(keeper, keeper) != 0) return out_of_memory(err, errlen);
+        if (summary_drop_classes(keeper) != 0) return out_of_memory(err, errlen);
     }
     uint32_t *map = NULL;
     if (into->has_classes) {
@@ -189,7 +190,7 @@ summary_status summary_merge(summary *into, summary *from, char *err, size_t err
                          into->opt.target, into->opt.max_classes);
                 return SUMMARY_ERR_INCOMPATIBLE;
             }
-            if (summary_drop_classes(into, into) != 0 || summary_drop_classes(from, from) != 0)
+            if (summary_drop_classes(into) != 0 || summary_drop_classes(from) != 0)
                 return out_of_memory(err, errlen);
         }
     }

@@ -552,6 +552,7 @@ summary *scan_finish(scan_context *sc)
     if (!sc->run) { fail(sc, SCAN_ERR_INPUT, "no records (nothing was scanned)"); return NULL; }
     block_free(&sc->blk);
     summary *s = sc->run;
+    if (summary_seal(s) != 0) { fail(sc, SCAN_ERR_MEMORY, "out of memory"); return NULL; }
     sc->run = NULL;
     return s;
 }

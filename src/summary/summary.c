@@ -164,23 +164,6 @@ fail:
     return NULL;
 }
 
-summary *summary_clone_empty(const summary *s)
-{
-    char **names = malloc((s->ncols ? s->ncols : 1) * sizeof *names);
-    column_mode *modes = malloc((s->ncols ? s->ncols : 1) * sizeof *modes);
-    summary *c = NULL;
-    if (names && modes) {
-        for (size_t i = 0; i < s->ncols; i++) {
-            names[i] = s->cols[i].name;
-            modes[i] = s->cols[i].mode;
-        }
-        c = summary_create(&s->opt, s->ncols, names, modes, 0);
-    }
-    free(names);
-    free(modes);
-    return c;
-}
-
 void summary_free(summary *s)
 {
     if (!s) return;
@@ -201,27 +184,6 @@ void summary_free(summary *s)
     free(s->como_ref_set);
     summary_options_free(&s->opt);
     free(s);
-}
-
-void summary_reset(summary *s)
-{
-    for (size_t i = 0; i < s->ncols; i++) {
-        summary_column *c = &s->cols[i];
-        c->missing = c->non_numeric = c->non_finite = c->zeros = c->integers = 0;
-        moments_init(&c->mom);
-        values_reset(c->vals);
-        hll_init(c->distinct);
-        buckets_reset(c->bins);
-        if (c->cross) crosstab_reset(c->cross);
-        if (c->cls) memset(c->cls, 0, s->opt.max_classes * sizeof *c->cls);
-        c->n_examples = 0;
-    }
-    for (uint32_t c = 0; c < s->nclasses; c++) s->class_rows[c] = 0;
-    s->target_text = 0;
-    if (s->como) comoment_reset(s->como);
-    memset(s->como_ref_set, 0, s->ncomo ? s->ncomo : 1);
-    s->rows = s->bytes = s->short_rows = s->long_rows = 0;
-    s->n_bad_lines = 0;
 }
 
 int summary_add_source(summary *s, const summary_source *src)

@@ -172,8 +172,6 @@ int summary_options_copy(summary_options *dst, const summary_options *src);
  * allocates the co-moment matrix with block scratch (for scanning). */
 summary *summary_create(const summary_options *opt, size_t ncols, char *const *names,
                         const column_mode *modes, int with_comoments);
-/* An empty summary with the same schema as s (no co-moment matrix). */
-summary *summary_clone_empty(const summary *s);
 /* Bytes the co-moment matrix of a schema will take (for --mem). */
 uint64_t summary_comoment_bytes(size_t ncomo);
 
@@ -183,15 +181,12 @@ uint32_t summary_class_of(summary *s, uint64_t h, const char *text, size_t len,
                           const number_decimal *dec);
 /* Drops the class accumulators of a numeric target (it continues as a
  * regression target): bucket cells and per-value tables are converted
- * exactly from class counts to target cells.  `dict` holds the class
- * dictionary that numbers s's classes (s itself, or the running summary
- * for a chunk-local set).  -1 on OOM or for a text target. */
-int summary_drop_classes(summary *s, const summary *dict);
+ * exactly from class counts to target cells.  -1 on OOM or for a text
+ * target. */
+int summary_drop_classes(summary *s);
 /* Regression cell of a target value. */
 uint32_t summary_target_cell(double y);
 void summary_free(summary *s);
-/* Empties the accumulators, keeping schema and allocations. */
-void summary_reset(summary *s);
 /* Builds the sort index of every accumulator of every column (see "Sealing
  * and threads" above), so that read-only calls need no temporary index.
  * Returns 0, or -1 when memory runs out (s is unchanged apart from the
