@@ -4,6 +4,7 @@
 
 #include <stddef.h>
 
+#include "out/json.h"
 #include "stats/pca.h"
 
 /* Exit codes (documented in `sheaf --help` and the README). */
@@ -77,6 +78,20 @@ long long cli_parse_count(const char *s);
 
 /* Exit code for a summary_status (declared here to keep summary.h out). */
 int cli_summary_exit(int status);
+
+/* Shared by the commands that report on one summary (report.c). */
+/* Reads the summary at path: EXIT_DONE with *s set (caller frees), or the
+ * exit code after a one-line error. */
+int cli_read_summary(const char *cmd, const char *path, summary **s);
+/* 0 when format is text, csv or json; else EXIT_USAGE after a one-line error. */
+int cli_check_format(const char *cmd, const char *format);
+/* Writes the key "levels": the target's classes with their rows, or an
+ * empty list when !with_levels. */
+void cli_json_class_levels(json_out *j, const summary *s, int with_levels);
+/* The --numeric-share entry of an option table. */
+#define CLI_NUMERIC_SHARE_OPTION(var)                                                           \
+    {"numeric-share", 0, "P", "share of parsing cells that makes a column numeric (default 0.99)", \
+     &(var), NULL}
 
 /* Commands. */
 int cmd_scan(int argc, char **argv);
