@@ -10,15 +10,11 @@
 #include "out/json.h"
 #include "out/table.h"
 #include "stats/pca.h"
-#include "summary/summary.h"
-
-
-/* Reads a whole (small) text file; NULL with a message on failure. */
-
+#include "summary/access.h"
 
 static const char *col_name(const summary *s, const pca_result *r, size_t j)
 {
-    return s->cols[r->cols[j]].name;
+    return summary_name(s, r->cols[j]);
 }
 
 static void print_csv(const summary *s, const pca_result *r, size_t k)
@@ -41,7 +37,7 @@ static void print_json(const summary *s, const pca_result *r, size_t k, const ch
     json_init(&j, stdout);
     json_object_begin(&j);
     json_key(&j, "basis"); json_string(&j, pca_basis_name(r->basis));
-    json_key(&j, "rows"); json_uint(&j, s->rows);
+    json_key(&j, "rows"); json_uint(&j, summary_rows(s));
     json_key(&j, "columns");
     json_array_begin(&j);
     for (size_t c = 0; c < p; c++) json_string(&j, col_name(s, r, c));
@@ -50,7 +46,7 @@ static void print_json(const summary *s, const pca_result *r, size_t k, const ch
     json_array_begin(&j);
     for (size_t i = 0; i < r->nleft; i++) {
         json_object_begin(&j);
-        json_key(&j, "column"); json_string(&j, s->cols[r->left[i].column].name);
+        json_key(&j, "column"); json_string(&j, summary_name(s, r->left[i].column));
         json_key(&j, "reason"); json_string(&j, pca_reason_name(r->left[i].reason));
         json_object_end(&j);
     }
@@ -61,7 +57,7 @@ static void print_json(const summary *s, const pca_result *r, size_t k, const ch
     json_array_end(&j);
     json_key(&j, "sds");
     json_array_begin(&j);
-    for (size_t c = 0; c < p; c++) json_number(&j, sqrt(moments_variance(&s->cols[r->cols[c]].mom)));
+    for (size_t c = 0; c < p; c++) json_number(&j, summary_sd(s, r->cols[c]));
     json_array_end(&j);
     json_key(&j, "eigenvalues");
     json_array_begin(&j);
@@ -119,13 +115,13 @@ static void print_text(const summary *s, const pca_result *r, size_t k, const ch
     int color = table_use_color(stdout);
     printf("principal components of the %s matrix (pairwise complete)\n",
            r->basis == PCA_BASIS_CORRELATION ? "correlation" : "sample covariance");
-    printf("%zu columns, %llu rows; total variance %.6g\n", p, (unsigned long long)s->rows,
+    printf("%zu columns, %llu rows; total variance %.6g\n", p, (unsigned long long)summary_rows(s),
            r->total);
     if (r->nleft) {
         printf("left out (%zu):", r->nleft);
         size_t shown = r->nleft < 40 ? r->nleft : 40;
         for (size_t i = 0; i < shown; i++)
-            printf("%s %s (%s)", i ? "," : "", s->cols[r->left[i].column].name,
+            printf("%s %s (%s)", i ? "," : "", summary_name(s, r->left[i].column),
                    pca_reason_name(r->left[i].reason));
         if (shown < r->nleft) printf(", ... %zu more (--format json lists all)", r->nleft - shown);
         fputc('\n', stdout);
@@ -216,8 +212,7 @@ int cmd_pca(int argc, char **argv)
         {"with-target", 0, NULL, "keep the summary's target column in the automatic choice",
          NULL, &with_target},
         {"leading", 0, "N", "largest loadings listed per component (default 5)", &leading_s, NULL},
-        {"numeric-share", 0, "P", "share of parsing cells that makes a column numeric (default 0.99)",
-         &numshare_s, NULL},
+        CLI_NUMERIC_SHARE_OPTION(numshare_s),
         {0},
     };
     const cli_command cmd = {
@@ -239,10 +234,7 @@ int cmd_pca(int argc, char **argv)
     long long nleading = 5;
     size_t k = 0;
     if (npos != 1) { cli_error("pca", "expected one summary file"); goto done; }
-    if (strcmp(format, "text") && strcmp(format, "csv") && strcmp(format, "json")) {
-        cli_error("pca", "--format must be text, csv or json, got '%s'", format);
-        goto done;
-    }
+    if (cli_check_format("pca", format)) goto done;
     if (leading_s && (nleading = cli_parse_count(leading_s)) < 0) {
         cli_error("pca", "--leading must be a whole number, got '%s'", leading_s);
         goto done;
