@@ -54,14 +54,7 @@ static int print_json(const corr_report *r)
     json_array_begin(&j);
     for (size_t a = 0; a < n; a++) json_string(&j, name(r, a));
     json_array_end(&j);
-    json_key(&j, "matrix");
-    json_array_begin(&j);
-    for (size_t a = 0; a < n; a++) {
-        json_array_begin(&j);
-        for (size_t b = 0; b < n; b++) json_number(&j, r->v[a * n + b]);
-        json_array_end(&j);
-    }
-    json_array_end(&j);
+    cli_json_matrix(&j, "matrix", r->v, n, n);
     json_key(&j, "pairs_n");
     json_array_begin(&j);
     for (size_t a = 0; a < n; a++) {
@@ -128,17 +121,15 @@ int cmd_corr(int argc, char **argv)
         "(each pair over the rows where both are present), from the summary alone.",
         opts};
     char **pos;
-    size_t npos;
-    int rc = cli_parse(&cmd, argc, argv, &pos, &npos);
-    if (rc) { free(pos); return rc == 1 ? EXIT_DONE : rc; }
+    int rc = cli_parse_single(&cmd, argc, argv, &pos);
+    if (rc >= 0) return rc;
     rc = EXIT_USAGE;
-    double share = 0.99;
+    double share;
     summary *s = NULL;
     size_t *cols = NULL;
     double *v = NULL;
-    if (npos != 1) { cli_error("corr", "expected one summary file"); goto done; }
     if (cli_check_format("corr", format)) goto done;
-    if (share_s && cli_parse_unit("corr", "--numeric-share", share_s, &share)) goto done;
+    if (cli_numeric_share("corr", share_s, &share)) goto done;
     if ((rc = cli_read_summary("corr", pos[0], &s)) != EXIT_DONE) goto done;
     rc = EXIT_RESOURCE;
     cols = malloc((summary_columns(s) + 1) * sizeof *cols);

@@ -23,19 +23,21 @@ static void json_column(json_out *j, const column_description *d)
     json_object_begin(j);
     json_key(j, "name"); json_string(j, d->name);
     json_key(j, "kind"); json_string(j, d->kind == KIND_NUMERIC ? "numeric" : "categorical");
-    json_key(j, "n"); json_uint(j, d->numbers);
-    json_key(j, "missing"); json_uint(j, d->missing);
-    json_key(j, "non_numeric"); json_uint(j, d->non_numeric);
-    json_key(j, "non_finite"); json_uint(j, d->non_finite);
-    json_key(j, "zeros"); json_uint(j, d->zeros);
-    json_key(j, "integers"); json_uint(j, d->integers);
-    json_key(j, "mean"); json_number(j, d->mean);
-    json_key(j, "variance"); json_number(j, d->variance);
-    json_key(j, "sd"); json_number(j, d->sd);
-    json_key(j, "min"); json_number(j, d->min);
-    json_key(j, "max"); json_number(j, d->max);
-    json_key(j, "skewness"); json_number(j, d->skewness);
-    json_key(j, "kurtosis"); json_number(j, d->kurtosis);
+    const struct { const char *key; uint64_t v; } counts[] = {
+        {"n", d->numbers},       {"missing", d->missing}, {"non_numeric", d->non_numeric},
+        {"non_finite", d->non_finite}, {"zeros", d->zeros}, {"integers", d->integers}};
+    for (size_t i = 0; i < sizeof counts / sizeof *counts; i++) {
+        json_key(j, counts[i].key);
+        json_uint(j, counts[i].v);
+    }
+    const struct { const char *key; double v; } moments[] = {
+        {"mean", d->mean}, {"variance", d->variance}, {"sd", d->sd},
+        {"min", d->min},   {"max", d->max},           {"skewness", d->skewness},
+        {"kurtosis", d->kurtosis}};
+    for (size_t i = 0; i < sizeof moments / sizeof *moments; i++) {
+        json_key(j, moments[i].key);
+        json_number(j, moments[i].v);
+    }
     json_key(j, "distinct"); json_number(j, d->distinct_exact ? d->distinct : round(d->distinct));
     json_key(j, "distinct_exact"); json_bool(j, d->distinct_exact);
     json_key(j, "high_cardinality"); json_bool(j, d->high_cardinality);
@@ -280,15 +282,13 @@ int cmd_info(int argc, char **argv)
                              "per column its kind, counts, moments, quantiles and top values.",
                              opts};
     char **pos;
-    size_t npos;
-    int rc = cli_parse(&cmd, argc, argv, &pos, &npos);
-    if (rc) { free(pos); return rc == 1 ? EXIT_DONE : rc; }
+    int rc = cli_parse_single(&cmd, argc, argv, &pos);
+    if (rc >= 0) return rc;
     rc = EXIT_USAGE;
-    double share = 0.99;
+    double share;
     long long ntop = 3;
     summary *s = NULL;
-    if (npos != 1) { cli_error("info", "expected one summary file"); goto done; }
-    if (share_s && cli_parse_unit("info", "--numeric-share", share_s, &share)) goto done;
+    if (cli_numeric_share("info", share_s, &share)) goto done;
     if (top_s && (ntop = cli_parse_count(top_s)) < 0) {
         cli_error("info", "--top must be a count, got '%s'", top_s);
         goto done;

@@ -1,7 +1,9 @@
-/* What several commands print or check the same way: reading the summary
- * they report on, the --format choice, and the target's class levels in
+/* What the commands on one summary (info, corr, screen, pca) parse, check
+ * and print the same way: the one positional argument, the summary read,
+ * the --format choice, the target's class levels and number arrays in
  * JSON. */
 #include <stdio.h>
+#include <stdlib.h>
 #include <string.h>
 
 #include "cli/cli.h"
@@ -34,4 +36,44 @@ void cli_json_class_levels(json_out *j, const summary *s, int with_levels)
         json_object_end(j);
     }
     json_array_end(j);
+}
+
+int cli_parse_single(const cli_command *cmd, int argc, char **argv, char ***pos)
+{
+    size_t npos;
+    int rc = cli_parse(cmd, argc, argv, pos, &npos);
+    if (rc == 0 && npos == 1) return -1;
+    if (rc == 0) {
+        cli_error(cmd->name, "expected one summary file");
+        rc = EXIT_USAGE;
+    }
+    free(*pos);
+    *pos = NULL;
+    return rc == 1 ? EXIT_DONE : rc;
+}
+
+void cli_json_numbers(json_out *j, const char *key, const double *v, size_t n)
+{
+    json_key(j, key);
+    json_array_begin(j);
+    for (size_t i = 0; i < n; i++) json_number(j, v[i]);
+    json_array_end(j);
+}
+
+void cli_json_matrix(json_out *j, const char *key, const double *v, size_t rows, size_t cols)
+{
+    json_key(j, key);
+    json_array_begin(j);
+    for (size_t r = 0; r < rows; r++) {
+        json_array_begin(j);
+        for (size_t c = 0; c < cols; c++) json_number(j, v[r * cols + c]);
+        json_array_end(j);
+    }
+    json_array_end(j);
+}
+
+int cli_numeric_share(const char *cmd, const char *text, double *share)
+{
+    *share = CLI_NUMERIC_SHARE_DEFAULT;
+    return text && cli_parse_unit(cmd, "--numeric-share", text, share) ? EXIT_USAGE : 0;
 }

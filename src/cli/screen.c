@@ -255,15 +255,13 @@ int cmd_screen(int argc, char **argv)
         "independent rows; see the README's cautions.",
         opts};
     char **pos;
-    size_t npos;
-    int rc = cli_parse(&cmd, argc, argv, &pos, &npos);
-    if (rc) { free(pos); return rc == 1 ? EXIT_DONE : rc; }
+    int rc = cli_parse_single(&cmd, argc, argv, &pos);
+    if (rc >= 0) return rc;
     screen_options o;
     screen_options_defaults(&o);
     summary *s = NULL;
     screen_result *r = NULL;
     rc = EXIT_USAGE;
-    if (npos != 1) { cli_error("screen", "expected one summary file"); goto done; }
     if (cli_check_format("screen", format)) goto done;
     if (q && cli_parse_unit("screen", "--q", q, &o.q_level)) goto done;
     if (missing && cli_parse_unit("screen", "--missing-share", missing, &o.missing_share)) goto done;
