@@ -34,6 +34,10 @@ uint64_t summary_long_rows(const summary *s);   /* rows with too many fields */
 /* Line numbers of the first ragged rows (at most SUMMARY_BAD_LINES): their
  * count, with *lines pointing into the summary. */
 size_t summary_ragged_lines(const summary *s, const uint64_t **lines);
+/* Missing-value spellings the cells were read with ("" is always missing
+ * besides): their count, and spelling i (owned by the summary). */
+uint32_t summary_missing_spellings(const summary *s);
+const char *summary_missing_spelling(const summary *s, uint32_t i);
 size_t summary_source_count(const summary *s);  /* source records */
 /* Source record i (0 <= i < summary_source_count), owned by the summary. */
 const summary_source *summary_source_at(const summary *s, size_t i);
