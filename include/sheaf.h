@@ -15,6 +15,10 @@
  *   summary_merge(a, b, err, sizeof err);              exact merge of two summaries
  *   screen_result *r = screen_run(s, &screen_opts);    stats/screen.h
  *   pca_fit(s, &pca_opts, &fit, err, sizeof err);      stats/pca.h
+ *   long col = summary_find_column(s, "x");            summary/access.h (-1: no such column)
+ *   double mean = summary_mean(s, (size_t)col);        reading a summary, one figure a call
+ *   describe_column(s, col, 0.99, 3, &d);              stats/describe.h (what `info` shows)
+ *   corr_matrix(s, cols, n, CORR_PEARSON, out);        stats/corr.h
  *   trim_files(&trim_opts, paths, n, out, err, sizeof err);       pass/trim.h
  *   project_files(s, fit, k, &proj_opts, paths, n, out, err, sizeof err);  pass/project.h
  *
@@ -34,6 +38,9 @@
 #include "io/reader.h"
 #include "summary/scan.h"
 #include "summary/summary.h"
+#include "summary/access.h"
+#include "stats/corr.h"
+#include "stats/describe.h"
 #include "stats/screen.h"
 #include "stats/pca.h"
 #include "pass/trim.h"

@@ -166,7 +166,7 @@ Test(reader, columns_are_named_as_the_scan_names_them)
 
 Test(reader, missing_test_knows_the_empty_cell_and_every_spelling)
 {
-    char *sp[] = {"NA", "null", "-"};
+    const char *sp[] = {"NA", "null", "-"};
     reader_missing m;
     reader_missing_init(&m, sp, 3);
     cr_assert(reader_is_missing(&m, "\0", 0));

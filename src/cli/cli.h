@@ -4,6 +4,7 @@
 
 #include <stddef.h>
 
+#include "out/json.h"
 #include "stats/pca.h"
 
 /* Exit codes (documented in `sheaf --help` and the README). */
@@ -82,6 +83,32 @@ long long cli_parse_count(const char *s);
 
 /* Exit code for a summary_status (declared here to keep summary.h out). */
 int cli_summary_exit(int status);
+
+/* Shared by the commands that report on one summary (report.c). */
+/* cli_parse for a command with exactly one positional argument (a summary
+ * file): -1 with *pos set (caller frees), or the exit code to return, after
+ * --help (EXIT_DONE) or a one-line error, with *pos freed. */
+int cli_parse_single(const cli_command *cmd, int argc, char **argv, char ***pos);
+/* Reads the summary at path: EXIT_DONE with *s set (caller frees), or the
+ * exit code after a one-line error. */
+int cli_read_summary(const char *cmd, const char *path, summary **s);
+/* 0 when format is text, csv or json; else EXIT_USAGE after a one-line error. */
+int cli_check_format(const char *cmd, const char *format);
+/* Writes the key "levels": the target's classes with their rows, or an
+ * empty list when !with_levels. */
+void cli_json_class_levels(json_out *j, const summary *s, int with_levels);
+/* Writes key: [v[0], ..., v[n - 1]]. */
+void cli_json_numbers(json_out *j, const char *key, const double *v, size_t n);
+/* Writes key: the rows x cols row-major matrix v as an array of rows. */
+void cli_json_matrix(json_out *j, const char *key, const double *v, size_t rows, size_t cols);
+/* The --numeric-share entry of an option table, and its value: the default
+ * when text is NULL; EXIT_USAGE after a one-line error when it is not a
+ * share in (0, 1], else 0. */
+#define CLI_NUMERIC_SHARE_DEFAULT 0.99
+#define CLI_NUMERIC_SHARE_OPTION(var)                                                           \
+    {"numeric-share", 0, "P", "share of parsing cells that makes a column numeric (default 0.99)", \
+     &(var), NULL}
+int cli_numeric_share(const char *cmd, const char *text, double *share);
 
 /* Commands. */
 int cmd_scan(int argc, char **argv);

@@ -7,8 +7,102 @@
 #include "cli/cli.h"
 #include "out/json.h"
 #include "out/table.h"
-#include "summary/summary.h"
+#include "stats/corr.h"
+#include "summary/access.h"
 
+/* What is printed: the matrix v of the columns cols, n x n. */
+typedef struct {
+    const summary *s;
+    const size_t *cols;
+    size_t n;
+    const double *v;
+    int covariance;
+} corr_report;
+
+static const char *name(const corr_report *r, size_t a) { return summary_name(r->s, r->cols[a]); }
+
+static void print_csv(const corr_report *r)
+{
+    for (size_t a = 0; a < r->n; a++) {
+        fputc(',', stdout);
+        table_csv_field(stdout, name(r, a));
+    }
+    fputc('\n', stdout);
+    for (size_t a = 0; a < r->n; a++) {
+        table_csv_field(stdout, name(r, a));
+        for (size_t b = 0; b < r->n; b++) {
+            double v = r->v[a * r->n + b];
+            if (isfinite(v)) printf(",%.17g", v);
+            else fputs(",", stdout);
+        }
+        fputc('\n', stdout);
+    }
+}
+
+static int print_json(const corr_report *r)
+{
+    size_t n = r->n;
+    uint64_t *pairs = malloc((n ? n * n : 1) * sizeof *pairs);
+    if (!pairs) return -1;
+    corr_pair_counts(r->s, r->cols, n, pairs);
+    json_out j;
+    json_init(&j, stdout);
+    json_object_begin(&j);
+    json_key(&j, "statistic"); json_string(&j, r->covariance ? "covariance" : "correlation");
+    json_key(&j, "rows"); json_uint(&j, summary_rows(r->s));
+    json_key(&j, "columns");
+    json_array_begin(&j);
+    for (size_t a = 0; a < n; a++) json_string(&j, name(r, a));
+    json_array_end(&j);
+    cli_json_matrix(&j, "matrix", r->v, n, n);
+    json_key(&j, "pairs_n");
+    json_array_begin(&j);
+    for (size_t a = 0; a < n; a++) {
+        json_array_begin(&j);
+        for (size_t b = 0; b < n; b++) json_uint(&j, pairs[a * n + b]);
+        json_array_end(&j);
+    }
+    json_array_end(&j);
+    json_object_end(&j);
+    json_finish(&j);
+    free(pairs);
+    return 0;
+}
+
+/* Panels of as many columns as fit the terminal (100 when not a terminal). */
+static void print_text(const corr_report *r)
+{
+    size_t n = r->n, width = table_terminal_width();
+    if (!width) width = 100;
+    size_t namew = 4;
+    for (size_t a = 0; a < n; a++) {
+        size_t l = strlen(name(r, a));
+        if (l > namew) namew = l;
+    }
+    if (namew > 28) namew = 28;
+    size_t cellw = r->covariance ? 11 : 7;
+    size_t per = width > namew + 5 ? (width - namew - 5) / (cellw + 1) : 1;
+    if (per < 1) per = 1;
+    printf("%s (pairwise complete), %zu numeric columns, %llu rows\n",
+           r->covariance ? "sample covariance" : "Pearson r", n,
+           (unsigned long long)summary_rows(r->s));
+    for (size_t from = 0; from < n; from += per) {
+        size_t to = from + per < n ? from + per : n;
+        printf("\n%*s", (int)(namew + 4), "");
+        for (size_t b = from; b < to; b++) printf(" %*zu", (int)cellw, b + 1);
+        fputc('\n', stdout);
+        for (size_t a = 0; a < n; a++) {
+            printf("%3zu %-*.*s", a + 1, (int)namew, (int)namew, name(r, a));
+            for (size_t b = from; b < to; b++) {
+                double v = r->v[a * n + b];
+                if (!isfinite(v)) printf(" %*s", (int)cellw, "-");
+                else if (r->covariance) printf(" %*.4g", (int)cellw, v);
+                else printf(" %*.3f", (int)cellw, v);
+            }
+            fputc('\n', stdout);
+        }
+    }
+}
 
 int cmd_corr(int argc, char **argv)
 {
@@ -18,8 +112,7 @@ int cmd_corr(int argc, char **argv)
         {"format", 'f', "FMT", "text (default), csv or json", &format, NULL},
         {"covariance", 0, NULL, "print the sample covariance instead of Pearson r", NULL, &covariance},
         {"columns", 0, "A,B,..", "only these columns", &cols_s, NULL},
-        {"numeric-share", 0, "P", "share of parsing cells that makes a column numeric (default 0.99)",
-         &share_s, NULL},
+        CLI_NUMERIC_SHARE_OPTION(share_s),
         {0},
     };
     const cli_command cmd = {
@@ -28,137 +121,38 @@ int cmd_corr(int argc, char **argv)
         "(each pair over the rows where both are present), from the summary alone.",
         opts};
     char **pos;
-    size_t npos;
-    int rc = cli_parse(&cmd, argc, argv, &pos, &npos);
-    if (rc) { free(pos); return rc == 1 ? EXIT_DONE : rc; }
+    int rc = cli_parse_single(&cmd, argc, argv, &pos);
+    if (rc >= 0) return rc;
     rc = EXIT_USAGE;
-    double share = 0.99;
+    double share;
     summary *s = NULL;
-    size_t *pick = NULL, np = 0;
-    if (npos != 1) { cli_error("corr", "expected one summary file"); goto done; }
-    if (strcmp(format, "text") && strcmp(format, "csv") && strcmp(format, "json")) {
-        cli_error("corr", "--format must be text, csv or json, got '%s'", format);
+    size_t *cols = NULL;
+    double *v = NULL;
+    if (cli_check_format("corr", format)) goto done;
+    if (cli_numeric_share("corr", share_s, &share)) goto done;
+    if ((rc = cli_read_summary("corr", pos[0], &s)) != EXIT_DONE) goto done;
+    rc = EXIT_RESOURCE;
+    cols = malloc((summary_columns(s) + 1) * sizeof *cols);
+    if (!cols) { cli_error("corr", "out of memory"); goto done; }
+    char err[512];
+    long n = corr_columns(s, share, cols_s, cols, err, sizeof err);
+    if (n < 0) {
+        cli_error("corr", "--columns: %s of %s", err, pos[0]);
+        rc = EXIT_USAGE;
         goto done;
     }
-    if (share_s && cli_parse_unit("corr", "--numeric-share", share_s, &share)) goto done;
-    char err[512];
-    summary_status st = summary_read(pos[0], &s, err, sizeof err);
-    if (st != SUMMARY_OK) { cli_error("corr", "%s", err); rc = cli_summary_exit(st); goto done; }
-    pick = malloc((s->ncomo + 1) * sizeof *pick);
-    if (!pick) { cli_error("corr", "out of memory"); rc = EXIT_RESOURCE; goto done; }
-    for (size_t k = 0; k < s->ncomo; k++) {
-        const summary_column *c = &s->cols[s->como_col[k]];
-        if (summary_column_kind(c, share) != KIND_NUMERIC || c->mom.n == 0) continue;
-        if (cols_s) {
-            size_t len = strlen(c->name);
-            const char *p = cols_s;
-            int found = 0;
-            while (*p && !found) {
-                const char *e = strchr(p, ',');
-                size_t l = e ? (size_t)(e - p) : strlen(p);
-                found = l == len && strncmp(p, c->name, l) == 0;
-                p += l + (e != NULL);
-            }
-            if (!found) continue;
-        }
-        pick[np++] = k;
-    }
-    if (cols_s) {
-        /* Every requested name must be a numeric column. */
-        char *copy = strdup(cols_s);
-        for (char *t = strtok(copy, ","); t; t = strtok(NULL, ",")) {
-            size_t k = 0;
-            while (k < np && strcmp(s->cols[s->como_col[pick[k]]].name, t) != 0) k++;
-            if (k == np) {
-                cli_error("corr", "--columns: '%s' is not a numeric column of %s", t, pos[0]);
-                free(copy);
-                goto done;
-            }
-        }
-        free(copy);
-    }
-    const comoment *cm = s->como;
-#define VAL(a, b) (covariance ? comoment_covariance(cm, pick[a], pick[b]) \
-                              : comoment_correlation(cm, pick[a], pick[b]))
-    if (!strcmp(format, "csv")) {
-        for (size_t a = 0; a < np; a++) {
-            fputc(',', stdout);
-            table_csv_field(stdout, s->cols[s->como_col[pick[a]]].name);
-        }
-        fputc('\n', stdout);
-        for (size_t a = 0; a < np; a++) {
-            table_csv_field(stdout, s->cols[s->como_col[pick[a]]].name);
-            for (size_t b = 0; b < np; b++) {
-                double v = VAL(a, b);
-                if (isfinite(v)) printf(",%.17g", v);
-                else fputs(",", stdout);
-            }
-            fputc('\n', stdout);
-        }
-    } else if (!strcmp(format, "json")) {
-        json_out j;
-        json_init(&j, stdout);
-        json_object_begin(&j);
-        json_key(&j, "statistic"); json_string(&j, covariance ? "covariance" : "correlation");
-        json_key(&j, "rows"); json_uint(&j, s->rows);
-        json_key(&j, "columns");
-        json_array_begin(&j);
-        for (size_t a = 0; a < np; a++) json_string(&j, s->cols[s->como_col[pick[a]]].name);
-        json_array_end(&j);
-        json_key(&j, "matrix");
-        json_array_begin(&j);
-        for (size_t a = 0; a < np; a++) {
-            json_array_begin(&j);
-            for (size_t b = 0; b < np; b++) json_number(&j, VAL(a, b));
-            json_array_end(&j);
-        }
-        json_array_end(&j);
-        json_key(&j, "pairs_n");
-        json_array_begin(&j);
-        for (size_t a = 0; a < np; a++) {
-            json_array_begin(&j);
-            for (size_t b = 0; b < np; b++) json_uint(&j, (uint64_t)comoment_n(cm, pick[a], pick[b]));
-            json_array_end(&j);
-        }
-        json_array_end(&j);
-        json_object_end(&j);
-        json_finish(&j);
-    } else {
-        /* Panels of as many columns as fit the terminal (80 when not a terminal). */
-        size_t width = table_terminal_width();
-        if (!width) width = 100;
-        size_t namew = 4;
-        for (size_t a = 0; a < np; a++) {
-            size_t l = strlen(s->cols[s->como_col[pick[a]]].name);
-            if (l > namew) namew = l;
-        }
-        if (namew > 28) namew = 28;
-        size_t cellw = covariance ? 11 : 7;
-        size_t per = width > namew + 5 ? (width - namew - 5) / (cellw + 1) : 1;
-        if (per < 1) per = 1;
-        printf("%s (pairwise complete), %zu numeric columns, %llu rows\n",
-               covariance ? "sample covariance" : "Pearson r", np, (unsigned long long)s->rows);
-        for (size_t from = 0; from < np; from += per) {
-            size_t to = from + per < np ? from + per : np;
-            printf("\n%*s", (int)(namew + 4), "");
-            for (size_t b = from; b < to; b++) printf(" %*zu", (int)cellw, b + 1);
-            fputc('\n', stdout);
-            for (size_t a = 0; a < np; a++) {
-                printf("%3zu %-*.*s", a + 1, (int)namew, (int)namew, s->cols[s->como_col[pick[a]]].name);
-                for (size_t b = from; b < to; b++) {
-                    double v = VAL(a, b);
-                    if (!isfinite(v)) printf(" %*s", (int)cellw, "-");
-                    else if (covariance) printf(" %*.4g", (int)cellw, v);
-                    else printf(" %*.3f", (int)cellw, v);
-                }
-                fputc('\n', stdout);
-            }
-        }
-    }
-#undef VAL
+    corr_report r = {s, cols, (size_t)n, NULL, covariance};
+    v = malloc(((size_t)n * (size_t)n + 1) * sizeof *v);
+    if (!v) { cli_error("corr", "out of memory (the %ld x %ld matrix)", n, n); goto done; }
+    corr_matrix(s, cols, r.n, covariance ? CORR_COVARIANCE : CORR_PEARSON, v);
+    r.v = v;
+    if (!strcmp(format, "csv")) print_csv(&r);
+    else if (!strcmp(format, "text")) print_text(&r);
+    else if (print_json(&r)) { cli_error("corr", "out of memory"); goto done; }
     rc = fflush(stdout) == 0 ? EXIT_DONE : EXIT_FAILED;
 done:
-    free(pick);
+    free(v);
+    free(cols);
     summary_free(s);
     free(pos);
     return rc;

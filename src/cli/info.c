@@ -7,10 +7,8 @@
 #include "cli/cli.h"
 #include "out/json.h"
 #include "out/table.h"
-#include "summary/summary.h"
-
-static const double PROBS[] = {0.01, 0.05, 0.25, 0.5, 0.75, 0.95, 0.99};
-#define NPROBS (sizeof PROBS / sizeof *PROBS)
+#include "stats/describe.h"
+#include "summary/access.h"
 
 static void human_bytes(char *buf, size_t len, double b)
 {
@@ -20,46 +18,107 @@ static void human_bytes(char *buf, size_t len, double b)
     snprintf(buf, len, u ? "%.1f %s" : "%.0f %s", b, unit[u]);
 }
 
-static void print_json(const summary *s, double share, size_t ntop)
+static void json_column(json_out *j, const column_description *d)
+{
+    json_object_begin(j);
+    json_key(j, "name"); json_string(j, d->name);
+    json_key(j, "kind"); json_string(j, d->kind == KIND_NUMERIC ? "numeric" : "categorical");
+    const struct { const char *key; uint64_t v; } counts[] = {
+        {"n", d->numbers},       {"missing", d->missing}, {"non_numeric", d->non_numeric},
+        {"non_finite", d->non_finite}, {"zeros", d->zeros}, {"integers", d->integers}};
+    for (size_t i = 0; i < sizeof counts / sizeof *counts; i++) {
+        json_key(j, counts[i].key);
+        json_uint(j, counts[i].v);
+    }
+    const struct { const char *key; double v; } moments[] = {
+        {"mean", d->mean}, {"variance", d->variance}, {"sd", d->sd},
+        {"min", d->min},   {"max", d->max},           {"skewness", d->skewness},
+        {"kurtosis", d->kurtosis}};
+    for (size_t i = 0; i < sizeof moments / sizeof *moments; i++) {
+        json_key(j, moments[i].key);
+        json_number(j, moments[i].v);
+    }
+    json_key(j, "distinct"); json_number(j, d->distinct_exact ? d->distinct : round(d->distinct));
+    json_key(j, "distinct_exact"); json_bool(j, d->distinct_exact);
+    json_key(j, "high_cardinality"); json_bool(j, d->high_cardinality);
+    /* Once a value table overflowed (here or in a merged shard), counts of
+     * values that entered it late are lower bounds. */
+    json_key(j, "top_exact"); json_bool(j, !d->high_cardinality);
+    json_key(j, "top");
+    json_array_begin(j);
+    for (size_t t = 0; t < d->ntop; t++) {
+        json_object_begin(j);
+        json_key(j, "value"); json_string_n(j, d->top[t].label, d->top[t].label_len);
+        json_key(j, "count"); json_uint(j, d->top[t].count);
+        json_object_end(j);
+    }
+    json_array_end(j);
+    json_key(j, "non_numeric_examples");
+    json_array_begin(j);
+    for (uint32_t e = 0; e < d->nexamples; e++) json_string(j, d->examples[e]);
+    json_array_end(j);
+    json_key(j, "quantiles");
+    json_object_begin(j);
+    for (size_t q = 0; q < DESCRIBE_NQUANTILES; q++) {
+        char key[16];
+        snprintf(key, sizeof key, "%g", describe_quantile_probs[q]);
+        json_key(j, key);
+        json_number(j, d->quantiles[q]);
+    }
+    json_object_end(j);
+    if (d->has_by_class) {
+        json_key(j, "by_class");
+        json_array_begin(j);
+        for (size_t k = 0; k < d->nclasses; k++) {
+            const describe_class *c = &d->by_class[k];
+            json_object_begin(j);
+            json_key(j, "class"); json_string(j, c->label);
+            json_key(j, "n"); json_uint(j, c->n);
+            json_key(j, "mean"); json_number(j, c->mean);
+            json_key(j, "variance"); json_number(j, c->variance);
+            json_object_end(j);
+        }
+        json_array_end(j);
+    }
+    json_key(j, "quantile_relative_error"); json_number(j, d->quantile_relative_error);
+    json_object_end(j);
+}
+
+static int print_json(const summary *s, double share, size_t ntop)
 {
     json_out j;
     json_init(&j, stdout);
     json_object_begin(&j);
     json_key(&j, "format_version"); json_uint(&j, SUMMARY_FORMAT_VERSION);
-    json_key(&j, "rows"); json_uint(&j, s->rows);
-    json_key(&j, "bytes"); json_uint(&j, s->bytes);
-    json_key(&j, "short_rows"); json_uint(&j, s->short_rows);
-    json_key(&j, "long_rows"); json_uint(&j, s->long_rows);
+    json_key(&j, "rows"); json_uint(&j, summary_rows(s));
+    json_key(&j, "bytes"); json_uint(&j, summary_bytes(s));
+    json_key(&j, "short_rows"); json_uint(&j, summary_short_rows(s));
+    json_key(&j, "long_rows"); json_uint(&j, summary_long_rows(s));
     json_key(&j, "ragged_lines");
     json_array_begin(&j);
-    for (uint32_t i = 0; i < s->n_bad_lines; i++) json_uint(&j, s->bad_lines[i]);
+    const uint64_t *lines;
+    size_t nlines = summary_ragged_lines(s, &lines);
+    for (size_t i = 0; i < nlines; i++) json_uint(&j, lines[i]);
     json_array_end(&j);
     json_key(&j, "target");
-    if (s->target < 0) {
+    if (summary_target_column(s) < 0) {
         json_null(&j);
     } else {
         static const char *tasks[] = {"none", "classify", "regress"};
+        target_task declared = summary_declared_task(s);
         json_object_begin(&j);
-        json_key(&j, "name"); json_string(&j, s->opt.target);
-        json_key(&j, "task"); json_string(&j, tasks[summary_target_task(s, share)]);
-        json_key(&j, "declared_task"); json_string(&j, s->opt.task ? tasks[s->opt.task] : "auto");
-        json_key(&j, "classes_dropped"); json_bool(&j, s->classes_dropped);
-        json_key(&j, "max_classes"); json_uint(&j, s->opt.max_classes);
-        json_key(&j, "levels");
-        json_array_begin(&j);
-        for (uint32_t c = 0; c < s->nclasses; c++) {
-            json_object_begin(&j);
-            json_key(&j, "value"); json_string(&j, s->class_label[c]);
-            json_key(&j, "rows"); json_uint(&j, s->class_rows[c]);
-            json_object_end(&j);
-        }
-        json_array_end(&j);
+        json_key(&j, "name"); json_string(&j, summary_target_name(s));
+        json_key(&j, "task"); json_string(&j, tasks[summary_task(s, share)]);
+        json_key(&j, "declared_task"); json_string(&j, declared ? tasks[declared] : "auto");
+        json_key(&j, "classes_dropped"); json_bool(&j, summary_classes_dropped(s));
+        json_key(&j, "max_classes"); json_uint(&j, summary_max_classes(s));
+        cli_json_class_levels(&j, s, 1);
         json_object_end(&j);
     }
     json_key(&j, "sources");
     json_array_begin(&j);
-    for (size_t i = 0; i < s->nsources; i++) {
-        const summary_source *src = &s->sources[i];
+    for (size_t i = 0; i < summary_source_count(s); i++) {
+        const summary_source *src = summary_source_at(s, i);
         char fp[20];
         snprintf(fp, sizeof fp, "%016llx", (unsigned long long)src->fingerprint);
         json_object_begin(&j);
@@ -79,130 +138,46 @@ static void print_json(const summary *s, double share, size_t ntop)
     json_array_end(&j);
     json_key(&j, "columns");
     json_array_begin(&j);
-    values_entry *top = calloc(ntop ? ntop : 1, sizeof *top);
-    for (size_t i = 0; i < s->ncols; i++) {
-        const summary_column *c = &s->cols[i];
-        column_kind kind = summary_column_kind(c, share);
-        int num = kind == KIND_NUMERIC;
-        const moments *m = &c->mom;
-        double var = moments_variance(m);
-        json_object_begin(&j);
-        json_key(&j, "name"); json_string(&j, c->name);
-        json_key(&j, "kind"); json_string(&j, num ? "numeric" : "categorical");
-        json_key(&j, "n"); json_uint(&j, m->n);
-        json_key(&j, "missing"); json_uint(&j, c->missing);
-        json_key(&j, "non_numeric"); json_uint(&j, c->non_numeric);
-        json_key(&j, "non_finite"); json_uint(&j, c->non_finite);
-        json_key(&j, "zeros"); json_uint(&j, c->zeros);
-        json_key(&j, "integers"); json_uint(&j, c->integers);
-        json_key(&j, "mean"); json_number(&j, m->n ? moments_mean(m) : NAN);
-        json_key(&j, "variance"); json_number(&j, var);
-        json_key(&j, "sd"); json_number(&j, sqrt(var));
-        json_key(&j, "min"); json_number(&j, m->n ? m->min : NAN);
-        json_key(&j, "max"); json_number(&j, m->n ? m->max : NAN);
-        json_key(&j, "skewness"); json_number(&j, moments_skewness(m));
-        json_key(&j, "kurtosis"); json_number(&j, moments_kurtosis(m));
-        int exact;
-        double distinct = summary_column_distinct(c, &exact);
-        json_key(&j, "distinct"); json_number(&j, exact ? distinct : round(distinct));
-        json_key(&j, "distinct_exact"); json_bool(&j, exact);
-        json_key(&j, "high_cardinality"); json_bool(&j, values_overflowed(c->vals));
-        /* Once a value table overflowed (here or in a merged shard), counts of
-         * values that entered it late are lower bounds. */
-        json_key(&j, "top_exact"); json_bool(&j, !values_overflowed(c->vals));
-        json_key(&j, "top");
-        json_array_begin(&j);
-        size_t nt = values_top(c->vals, ntop, top);
-        for (size_t t = 0; t < nt; t++) {
-            json_object_begin(&j);
-            json_key(&j, "value"); json_string_n(&j, top[t].label, top[t].label_len);
-            json_key(&j, "count"); json_uint(&j, top[t].count);
-            json_object_end(&j);
-        }
-        json_array_end(&j);
-        json_key(&j, "non_numeric_examples");
-        json_array_begin(&j);
-        for (uint32_t e = 0; e < c->n_examples; e++) json_string(&j, c->examples[e]);
-        json_array_end(&j);
-        double rel = NAN;
-        json_key(&j, "quantiles");
-        json_object_begin(&j);
-        for (size_t q = 0; q < NPROBS; q++) {
-            char key[16];
-            snprintf(key, sizeof key, "%g", PROBS[q]);
-            json_key(&j, key);
-            double v = buckets_total(c->bins) ? buckets_quantile(c->bins, PROBS[q], &rel) : NAN;
-            /* The bucket point may lie beyond the observed extremes: clamping
-             * can only bring it closer to the true quantile. */
-            if (m->n && v < m->min) v = m->min;
-            if (m->n && v > m->max) v = m->max;
-            json_number(&j, v);
-        }
-        json_object_end(&j);
-        if (c->cls && num) {
-            const number_decimal *ref = c->mom.has_ref ? &c->mom.ref : NULL;
-            json_key(&j, "by_class");
-            json_array_begin(&j);
-            for (uint32_t k = 0; k < s->nclasses; k++) {
-                const class_moments *cm = &c->cls[k];
-                json_object_begin(&j);
-                json_key(&j, "class"); json_string(&j, s->class_label[k]);
-                json_key(&j, "n"); json_uint(&j, cm->n);
-                json_key(&j, "mean"); json_number(&j, cm->n ? (ref ? ref->value : 0) + cm->mean : NAN);
-                json_key(&j, "variance"); json_number(&j, cm->n > 1 ? cm->m2 / (double)(cm->n - 1) : NAN);
-                json_object_end(&j);
-            }
-            json_array_end(&j);
-        }
-        json_key(&j, "quantile_relative_error");
-        json_number(&j, buckets_total(c->bins) ? buckets_relative_error(buckets_level(c->bins)) : NAN);
-        json_object_end(&j);
+    for (size_t i = 0; i < summary_columns(s); i++) {
+        column_description d;
+        if (describe_column(s, i, share, ntop, &d) != 0) return -1;
+        json_column(&j, &d);
+        describe_column_free(&d);
     }
-    free(top);
     json_array_end(&j);
     json_object_end(&j);
     json_finish(&j);
+    return 0;
 }
 
-static void print_text(const summary *s, const char *path, double share, size_t ntop)
+static void print_target(const summary *s, double share)
 {
-    char a[64], b[64];
-    human_bytes(a, sizeof a, (double)s->bytes);
-    printf("%s: %llu rows, %zu columns, %s of text from %zu source%s\n", path,
-           (unsigned long long)s->rows, s->ncols, a, s->nsources, s->nsources == 1 ? "" : "s");
-    if (s->short_rows || s->long_rows) {
-        printf("ragged rows: %llu short, %llu long (first at line", (unsigned long long)s->short_rows,
-               (unsigned long long)s->long_rows);
-        for (uint32_t i = 0; i < s->n_bad_lines; i++)
-            printf("%s %llu", i ? "," : "", (unsigned long long)s->bad_lines[i]);
-        printf(")\n");
+    static const char *tasks[] = {"none", "classification", "regression"};
+    uint32_t nclasses = summary_class_count(s);
+    printf("target: %s (%s%s)", summary_target_name(s), tasks[summary_task(s, share)],
+           summary_declared_task(s) ? ", declared" : "");
+    if (summary_classes_dropped(s))
+        printf("; more than %u distinct values, so class statistics were dropped",
+               summary_max_classes(s));
+    else if (nclasses) {
+        uint64_t total = describe_class_total(s);
+        printf(", %u levels:", nclasses);
+        for (uint32_t c = 0; c < nclasses && c < 8; c++)
+            printf("%s %s (%.1f%%)", c ? "," : "", summary_class_label(s, c),
+                   total ? 100.0 * summary_class_rows(s, c) / total : 0);
+        if (nclasses > 8) printf(", ...");
     }
-    if (s->target >= 0) {
-        static const char *tasks[] = {"none", "classification", "regression"};
-        target_task task = summary_target_task(s, share);
-        printf("target: %s (%s%s)", s->opt.target, tasks[task],
-               s->opt.task ? ", declared" : "");
-        if (s->classes_dropped)
-            printf("; more than %u distinct values, so class statistics were dropped",
-                   s->opt.max_classes);
-        else if (s->nclasses) {
-            uint64_t total = 0;
-            for (uint32_t c = 0; c < s->nclasses; c++) total += s->class_rows[c];
-            printf(", %u levels:", s->nclasses);
-            for (uint32_t c = 0; c < s->nclasses && c < 8; c++)
-                printf("%s %s (%.1f%%)", c ? "," : "", s->class_label[c],
-                       total ? 100.0 * s->class_rows[c] / total : 0);
-            if (s->nclasses > 8) printf(", ...");
-        }
-        printf("\n");
-    }
-    size_t width = table_terminal_width();
-    int color = table_use_color(stdout);
+    printf("\n");
+}
+
+static void print_sources(const summary *s, size_t width, int color)
+{
+    char b[64];
     table *t = table_create(5);
     const char *sh[] = {"source", "format", "size", "rows", "fingerprint"};
     for (int i = 0; i < 5; i++) table_heading(t, (size_t)i, sh[i], i == 2 || i == 3);
-    for (size_t i = 0; i < s->nsources; i++) {
-        const summary_source *src = &s->sources[i];
+    for (size_t i = 0; i < summary_source_count(s); i++) {
+        const summary_source *src = summary_source_at(s, i);
         table_row(t);
         if (src->end_byte)
             table_cellf(t, 0, "%s [%llu,%llu)", src->path, (unsigned long long)src->start_byte,
@@ -218,52 +193,78 @@ static void print_text(const summary *s, const char *path, double share, size_t 
     printf("\n");
     table_print(t, stdout, width, color);
     table_free(t);
+}
+
+/* One row of the column table. */
+static void text_column(table *t, const column_description *d)
+{
+    char b[64];
+    int num = d->kind == KIND_NUMERIC;
+    table_row(t);
+    table_cell(t, 0, d->name);
+    table_cell(t, 1, num ? "numeric" : "categorical");
+    table_cellf(t, 2, "%llu", (unsigned long long)(num ? d->numbers : d->present));
+    table_cellf(t, 3, "%llu", (unsigned long long)d->missing);
+    if (num && d->numbers) {
+        table_format_number(b, sizeof b, d->mean, 6); table_cell(t, 4, b);
+        table_format_number(b, sizeof b, d->sd, 6); table_cell(t, 5, b);
+        table_format_number(b, sizeof b, d->min, 6); table_cell(t, 6, b);
+        table_format_number(b, sizeof b, d->median, 4);
+        table_cellf(t, 7, "~%s", b);
+        table_format_number(b, sizeof b, d->max, 6); table_cell(t, 8, b);
+    }
+    table_cellf(t, 9, d->distinct_exact ? "%.0f" : "~%.0f", d->distinct);
+    char line[256];
+    size_t used = 0;
+    for (size_t k = 0; k < d->ntop && used < sizeof line - 1; k++) {
+        const values_entry *e = &d->top[k];
+        used += (size_t)snprintf(line + used, sizeof line - used, "%s%.*s (%.0f%%)", k ? ", " : "",
+                                 (int)(e->label_len > 24 ? 24 : e->label_len), e->label,
+                                 d->present ? 100.0 * e->count / d->present : 0);
+    }
+    table_cell(t, 10, d->ntop ? line : "");
+}
+
+static int print_text(const summary *s, const char *path, double share, size_t ntop)
+{
+    char a[64];
+    size_t nsources = summary_source_count(s);
+    human_bytes(a, sizeof a, (double)summary_bytes(s));
+    printf("%s: %llu rows, %zu columns, %s of text from %zu source%s\n", path,
+           (unsigned long long)summary_rows(s), summary_columns(s), a, nsources,
+           nsources == 1 ? "" : "s");
+    uint64_t short_rows = summary_short_rows(s), long_rows = summary_long_rows(s);
+    if (short_rows || long_rows) {
+        const uint64_t *lines;
+        size_t nlines = summary_ragged_lines(s, &lines);
+        printf("ragged rows: %llu short, %llu long (first at line", (unsigned long long)short_rows,
+               (unsigned long long)long_rows);
+        for (size_t i = 0; i < nlines; i++)
+            printf("%s %llu", i ? "," : "", (unsigned long long)lines[i]);
+        printf(")\n");
+    }
+    if (summary_target_column(s) >= 0) print_target(s, share);
+    size_t width = table_terminal_width();
+    int color = table_use_color(stdout);
+    print_sources(s, width, color);
 
     const char *ch[] = {"column", "kind", "n", "missing", "mean", "sd", "min", "median", "max",
                         "distinct", "top values"};
     size_t nc = sizeof ch / sizeof *ch;
-    t = table_create(nc);
+    table *t = table_create(nc);
     for (size_t i = 0; i < nc; i++) table_heading(t, i, ch[i], i >= 2 && i <= 9);
-    values_entry *top = calloc(ntop ? ntop : 1, sizeof *top);
-    for (size_t i = 0; i < s->ncols; i++) {
-        const summary_column *c = &s->cols[i];
-        int num = summary_column_kind(c, share) == KIND_NUMERIC;
-        const moments *m = &c->mom;
-        table_row(t);
-        table_cell(t, 0, c->name);
-        table_cell(t, 1, num ? "numeric" : "categorical");
-        table_cellf(t, 2, "%llu", (unsigned long long)(num ? m->n : summary_column_present(c)));
-        table_cellf(t, 3, "%llu", (unsigned long long)c->missing);
-        if (num && m->n) {
-            double rel;
-            table_format_number(b, sizeof b, moments_mean(m), 6); table_cell(t, 4, b);
-            table_format_number(b, sizeof b, sqrt(moments_variance(m)), 6); table_cell(t, 5, b);
-            table_format_number(b, sizeof b, m->min, 6); table_cell(t, 6, b);
-            double med = buckets_quantile(c->bins, 0.5, &rel);
-            med = med < m->min ? m->min : med > m->max ? m->max : med;
-            table_format_number(b, sizeof b, med, 4);
-            table_cellf(t, 7, "~%s", b);
-            table_format_number(b, sizeof b, m->max, 6); table_cell(t, 8, b);
-        }
-        int exact;
-        double d = summary_column_distinct(c, &exact);
-        table_cellf(t, 9, exact ? "%.0f" : "~%.0f", d);
-        size_t nt = values_top(c->vals, ntop, top);
-        char line[256];
-        size_t used = 0;
-        uint64_t present = summary_column_present(c);
-        for (size_t k = 0; k < nt && used < sizeof line - 1; k++)
-            used += (size_t)snprintf(line + used, sizeof line - used, "%s%.*s (%.0f%%)",
-                                     k ? ", " : "", (int)(top[k].label_len > 24 ? 24 : top[k].label_len),
-                                     top[k].label, present ? 100.0 * top[k].count / present : 0);
-        table_cell(t, 10, nt ? line : "");
+    for (size_t i = 0; i < summary_columns(s); i++) {
+        column_description d;
+        if (describe_column(s, i, share, ntop, &d) != 0) { table_free(t); return -1; }
+        text_column(t, &d);
+        describe_column_free(&d);
     }
-    free(top);
     printf("\n");
     table_print(t, stdout, width, color);
     table_free(t);
     printf("\nmedians are bucket estimates (relative error at most %.2g%%); '~' marks estimates.\n",
-           100 * buckets_relative_error(0));
+           100 * summary_quantile_error_floor());
+    return 0;
 }
 
 int cmd_info(int argc, char **argv)
@@ -272,8 +273,7 @@ int cmd_info(int argc, char **argv)
     const char *share_s = NULL, *top_s = NULL;
     const cli_option opts[] = {
         {"json", 0, NULL, "print JSON instead of tables", NULL, &as_json},
-        {"numeric-share", 0, "P", "share of parsing cells that makes a column numeric (default 0.99)",
-         &share_s, NULL},
+        CLI_NUMERIC_SHARE_OPTION(share_s),
         {"top", 0, "N", "most frequent values shown per column (default 3)", &top_s, NULL},
         {0},
     };
@@ -282,33 +282,26 @@ int cmd_info(int argc, char **argv)
                              "per column its kind, counts, moments, quantiles and top values.",
                              opts};
     char **pos;
-    size_t npos;
-    int rc = cli_parse(&cmd, argc, argv, &pos, &npos);
-    if (rc) { free(pos); return rc == 1 ? EXIT_DONE : rc; }
-    double share = 0.99;
+    int rc = cli_parse_single(&cmd, argc, argv, &pos);
+    if (rc >= 0) return rc;
+    rc = EXIT_USAGE;
+    double share;
     long long ntop = 3;
-    if (npos != 1) { cli_error("info", "expected one summary file"); free(pos); return EXIT_USAGE; }
-    if (share_s && cli_parse_unit("info", "--numeric-share", share_s, &share)) {
-        free(pos);
-        return EXIT_USAGE;
-    }
+    summary *s = NULL;
+    if (cli_numeric_share("info", share_s, &share)) goto done;
     if (top_s && (ntop = cli_parse_count(top_s)) < 0) {
         cli_error("info", "--top must be a count, got '%s'", top_s);
-        free(pos);
-        return EXIT_USAGE;
+        goto done;
     }
-    summary *s;
-    char err[512];
-    summary_status st = summary_read(pos[0], &s, err, sizeof err);
-    if (st != SUMMARY_OK) {
-        cli_error("info", "%s", err);
-        free(pos);
-        return cli_summary_exit(st);
+    if ((rc = cli_read_summary("info", pos[0], &s)) != EXIT_DONE) goto done;
+    if ((as_json ? print_json(s, share, (size_t)ntop) : print_text(s, pos[0], share, (size_t)ntop))) {
+        cli_error("info", "out of memory");
+        rc = EXIT_RESOURCE;
+        goto done;
     }
-    if (as_json) print_json(s, share, (size_t)ntop);
-    else print_text(s, pos[0], share, (size_t)ntop);
+    rc = fflush(stdout) == 0 ? EXIT_DONE : EXIT_FAILED;
+done:
     summary_free(s);
     free(pos);
-    if (fflush(stdout) != 0) return EXIT_FAILED;
-    return EXIT_DONE;
+    return rc;
 }

@@ -4,16 +4,16 @@
 #include <string.h>
 
 #include "cli/cli.h"
-#include "summary/summary.h"
+#include "summary/access.h"
 
 /* Index of the first source of `from` already counted in `into`, or -1.
  * Two records name the same bytes when fingerprint, size and byte range
  * agree (the path may differ: a copy of a file is still the same data). */
 static long duplicate_source(const summary *into, const summary *from, size_t *which)
 {
-    for (size_t i = 0; i < from->nsources; i++)
-        for (size_t k = 0; k < into->nsources; k++) {
-            const summary_source *a = &into->sources[k], *b = &from->sources[i];
+    for (size_t i = 0; i < summary_source_count(from); i++)
+        for (size_t k = 0; k < summary_source_count(into); k++) {
+            const summary_source *a = summary_source_at(into, k), *b = summary_source_at(from, i);
             /* A source that contributed no bytes cannot be counted twice. */
             if (b->raw_bytes == 0) continue;
             if (a->fingerprint == b->fingerprint && a->raw_bytes == b->raw_bytes &&
@@ -62,8 +62,9 @@ int cmd_merge(int argc, char **argv)
             cli_error("merge",
                       "%s: source %s (fingerprint %016llx) is already counted (from %s); "
                       "use --allow-duplicates to merge anyway",
-                      pos[i], s->sources[d].path, (unsigned long long)s->sources[d].fingerprint,
-                      acc->sources[k].path);
+                      pos[i], summary_source_at(s, (size_t)d)->path,
+                      (unsigned long long)summary_source_at(s, (size_t)d)->fingerprint,
+                      summary_source_at(acc, k)->path);
             summary_free(s);
             rc = EXIT_INCOMPATIBLE;
             goto done;

@@ -10,15 +10,11 @@
 #include "out/json.h"
 #include "out/table.h"
 #include "stats/pca.h"
-#include "summary/summary.h"
-
-
-/* Reads a whole (small) text file; NULL with a message on failure. */
-
+#include "summary/access.h"
 
 static const char *col_name(const summary *s, const pca_result *r, size_t j)
 {
-    return s->cols[r->cols[j]].name;
+    return summary_name(s, r->cols[j]);
 }
 
 static void print_csv(const summary *s, const pca_result *r, size_t k)
@@ -33,15 +29,19 @@ static void print_csv(const summary *s, const pca_result *r, size_t k)
     }
 }
 
-static void print_json(const summary *s, const pca_result *r, size_t k, const char *rule,
-                       size_t nleading)
+static int print_json(const summary *s, const pca_result *r, size_t k, const char *rule,
+                      size_t nleading)
 {
     size_t p = r->p;
+    double *sds = malloc(p * sizeof *sds);
+    size_t *idx = malloc((nleading ? nleading : 1) * sizeof *idx);
+    if (!sds || !idx) { free(sds); free(idx); return -1; }
+    for (size_t c = 0; c < p; c++) sds[c] = summary_sd(s, r->cols[c]);
     json_out j;
     json_init(&j, stdout);
     json_object_begin(&j);
     json_key(&j, "basis"); json_string(&j, pca_basis_name(r->basis));
-    json_key(&j, "rows"); json_uint(&j, s->rows);
+    json_key(&j, "rows"); json_uint(&j, summary_rows(s));
     json_key(&j, "columns");
     json_array_begin(&j);
     for (size_t c = 0; c < p; c++) json_string(&j, col_name(s, r, c));
@@ -50,31 +50,16 @@ static void print_json(const summary *s, const pca_result *r, size_t k, const ch
     json_array_begin(&j);
     for (size_t i = 0; i < r->nleft; i++) {
         json_object_begin(&j);
-        json_key(&j, "column"); json_string(&j, s->cols[r->left[i].column].name);
+        json_key(&j, "column"); json_string(&j, summary_name(s, r->left[i].column));
         json_key(&j, "reason"); json_string(&j, pca_reason_name(r->left[i].reason));
         json_object_end(&j);
     }
     json_array_end(&j);
-    json_key(&j, "means");
-    json_array_begin(&j);
-    for (size_t c = 0; c < p; c++) json_number(&j, r->center[c]);
-    json_array_end(&j);
-    json_key(&j, "sds");
-    json_array_begin(&j);
-    for (size_t c = 0; c < p; c++) json_number(&j, sqrt(moments_variance(&s->cols[r->cols[c]].mom)));
-    json_array_end(&j);
-    json_key(&j, "eigenvalues");
-    json_array_begin(&j);
-    for (size_t c = 0; c < p; c++) json_number(&j, r->eigenvalues[c]);
-    json_array_end(&j);
-    json_key(&j, "share");
-    json_array_begin(&j);
-    for (size_t c = 0; c < p; c++) json_number(&j, r->share[c]);
-    json_array_end(&j);
-    json_key(&j, "cumulative");
-    json_array_begin(&j);
-    for (size_t c = 0; c < p; c++) json_number(&j, r->cumulative[c]);
-    json_array_end(&j);
+    cli_json_numbers(&j, "means", r->center, p);
+    cli_json_numbers(&j, "sds", sds, p);
+    cli_json_numbers(&j, "eigenvalues", r->eigenvalues, p);
+    cli_json_numbers(&j, "share", r->share, p);
+    cli_json_numbers(&j, "cumulative", r->cumulative, p);
     json_key(&j, "k"); json_uint(&j, k);
     json_key(&j, "k_rule"); json_string(&j, rule);
     json_key(&j, "kaiser_k"); json_uint(&j, r->kaiser_k);
@@ -84,18 +69,10 @@ static void print_json(const summary *s, const pca_result *r, size_t k, const ch
     if (r->clamped_negative) json_number(&j, r->most_negative);
     else json_null(&j);
     json_key(&j, "undefined_pairs"); json_uint(&j, r->undefined_pairs);
-    json_key(&j, "loadings");
+    cli_json_matrix(&j, "loadings", r->loadings, k, p);
+    json_key(&j, "leading");
     json_array_begin(&j);
     for (size_t c = 0; c < k; c++) {
-        json_array_begin(&j);
-        for (size_t v = 0; v < p; v++) json_number(&j, r->loadings[c * p + v]);
-        json_array_end(&j);
-    }
-    json_array_end(&j);
-    json_key(&j, "leading");
-    size_t *idx = malloc((nleading ? nleading : 1) * sizeof *idx);
-    json_array_begin(&j);
-    for (size_t c = 0; c < k && idx; c++) {
         size_t n = pca_leading(r, c, nleading, idx);
         json_array_begin(&j);
         for (size_t i = 0; i < n; i++) {
@@ -108,8 +85,10 @@ static void print_json(const summary *s, const pca_result *r, size_t k, const ch
     }
     json_array_end(&j);
     free(idx);
+    free(sds);
     json_object_end(&j);
     json_finish(&j);
+    return 0;
 }
 
 static void print_text(const summary *s, const pca_result *r, size_t k, const char *rule,
@@ -119,13 +98,13 @@ static void print_text(const summary *s, const pca_result *r, size_t k, const ch
     int color = table_use_color(stdout);
     printf("principal components of the %s matrix (pairwise complete)\n",
            r->basis == PCA_BASIS_CORRELATION ? "correlation" : "sample covariance");
-    printf("%zu columns, %llu rows; total variance %.6g\n", p, (unsigned long long)s->rows,
+    printf("%zu columns, %llu rows; total variance %.6g\n", p, (unsigned long long)summary_rows(s),
            r->total);
     if (r->nleft) {
         printf("left out (%zu):", r->nleft);
         size_t shown = r->nleft < 40 ? r->nleft : 40;
         for (size_t i = 0; i < shown; i++)
-            printf("%s %s (%s)", i ? "," : "", s->cols[r->left[i].column].name,
+            printf("%s %s (%s)", i ? "," : "", summary_name(s, r->left[i].column),
                    pca_reason_name(r->left[i].reason));
         if (shown < r->nleft) printf(", ... %zu more (--format json lists all)", r->nleft - shown);
         fputc('\n', stdout);
@@ -216,8 +195,7 @@ int cmd_pca(int argc, char **argv)
         {"with-target", 0, NULL, "keep the summary's target column in the automatic choice",
          NULL, &with_target},
         {"leading", 0, "N", "largest loadings listed per component (default 5)", &leading_s, NULL},
-        {"numeric-share", 0, "P", "share of parsing cells that makes a column numeric (default 0.99)",
-         &numshare_s, NULL},
+        CLI_NUMERIC_SHARE_OPTION(numshare_s),
         {0},
     };
     const cli_command cmd = {
@@ -230,19 +208,14 @@ int cmd_pca(int argc, char **argv)
         "broken-stick rules would stop, and the loadings of the kept components.",
         opts};
     char **pos;
-    size_t npos;
-    int rc = cli_parse(&cmd, argc, argv, &pos, &npos);
-    if (rc) { free(pos); return rc == 1 ? EXIT_DONE : rc; }
+    int rc = cli_parse_single(&cmd, argc, argv, &pos);
+    if (rc >= 0) return rc;
     rc = EXIT_USAGE;
     summary *s = NULL;
     pca_result *r = NULL;
     long long nleading = 5;
     size_t k = 0;
-    if (npos != 1) { cli_error("pca", "expected one summary file"); goto done; }
-    if (strcmp(format, "text") && strcmp(format, "csv") && strcmp(format, "json")) {
-        cli_error("pca", "--format must be text, csv or json, got '%s'", format);
-        goto done;
-    }
+    if (cli_check_format("pca", format)) goto done;
     if (leading_s && (nleading = cli_parse_count(leading_s)) < 0) {
         cli_error("pca", "--leading must be a whole number, got '%s'", leading_s);
         goto done;
@@ -254,10 +227,15 @@ int cmd_pca(int argc, char **argv)
     if (k_s) snprintf(rule, sizeof rule, "--k %s", k_s);
     else if (share_s) snprintf(rule, sizeof rule, "--share %s", share_s);
     else snprintf(rule, sizeof rule, "Kaiser rule");
-    if (!strcmp(format, "csv")) print_csv(s, r, k);
-    else if (!strcmp(format, "json"))
-        print_json(s, r, k, k_s ? "k" : share_s ? "share" : "kaiser", (size_t)nleading);
-    else print_text(s, r, k, rule, (size_t)nleading);
+    if (!strcmp(format, "csv")) {
+        print_csv(s, r, k);
+    } else if (!strcmp(format, "text")) {
+        print_text(s, r, k, rule, (size_t)nleading);
+    } else if (print_json(s, r, k, k_s ? "k" : share_s ? "share" : "kaiser", (size_t)nleading)) {
+        cli_error("pca", "out of memory");
+        rc = EXIT_RESOURCE;
+        goto done;
+    }
     rc = fflush(stdout) == 0 && !ferror(stdout) ? EXIT_DONE : EXIT_FAILED;
     if (rc) cli_error("pca", "cannot write the output");
 done:

@@ -10,7 +10,7 @@
 #include "out/json.h"
 #include "out/table.h"
 #include "stats/screen.h"
-#include "summary/summary.h"
+#include "summary/access.h"
 
 static const char *const TASKS[] = {"none", "classify", "regress"};
 
@@ -51,28 +51,27 @@ static void json_test(json_out *j, const char *name, const screen_test *t, int o
     json_object_end(j);
 }
 
+/* Name of member `second` (0: a, 1: b) of redundant pair i. */
+static const char *pair_name(const summary *s, const screen_result *r, size_t i, int second)
+{
+    const screen_pair *p = &r->pairs[i];
+    return summary_name(s, r->features[second ? p->b : p->a].col);
+}
+
 static void print_json(const summary *s, const screen_result *r)
 {
     json_out j;
     json_init(&j, stdout);
     json_object_begin(&j);
-    json_key(&j, "rows"); json_uint(&j, s->rows);
+    json_key(&j, "rows"); json_uint(&j, summary_rows(s));
     json_key(&j, "target");
-    if (s->target < 0) {
+    if (summary_target_column(s) < 0) {
         json_null(&j);
     } else {
         json_object_begin(&j);
-        json_key(&j, "name"); json_string(&j, s->opt.target);
+        json_key(&j, "name"); json_string(&j, summary_target_name(s));
         json_key(&j, "task"); json_string(&j, TASKS[r->task]);
-        json_key(&j, "levels");
-        json_array_begin(&j);
-        for (uint32_t c = 0; c < s->nclasses && r->task == TASK_CLASSIFY; c++) {
-            json_object_begin(&j);
-            json_key(&j, "value"); json_string(&j, s->class_label[c]);
-            json_key(&j, "rows"); json_uint(&j, s->class_rows[c]);
-            json_object_end(&j);
-        }
-        json_array_end(&j);
+        cli_json_class_levels(&j, s, r->task == TASK_CLASSIFY);
         json_object_end(&j);
     }
     json_key(&j, "kept"); json_uint(&j, r->kept);
@@ -81,7 +80,7 @@ static void print_json(const summary *s, const screen_result *r)
     for (size_t i = 0; i < r->nfeatures; i++) {
         const screen_feature *f = &r->features[i];
         json_object_begin(&j);
-        json_key(&j, "name"); json_string(&j, s->cols[f->col].name);
+        json_key(&j, "name"); json_string(&j, summary_name(s, f->col));
         json_key(&j, "kind"); json_string(&j, f->kind == KIND_NUMERIC ? "numeric" : "categorical");
         json_key(&j, "flags");
         json_array_begin(&j);
@@ -127,8 +126,8 @@ static void print_json(const summary *s, const screen_result *r)
     json_array_begin(&j);
     for (size_t i = 0; i < r->npairs; i++) {
         json_object_begin(&j);
-        json_key(&j, "a"); json_string(&j, s->cols[r->features[r->pairs[i].a].col].name);
-        json_key(&j, "b"); json_string(&j, s->cols[r->features[r->pairs[i].b].col].name);
+        json_key(&j, "a"); json_string(&j, pair_name(s, r, i, 0));
+        json_key(&j, "b"); json_string(&j, pair_name(s, r, i, 1));
         json_key(&j, "r"); json_number(&j, r->pairs[i].r);
         json_object_end(&j);
     }
@@ -144,7 +143,7 @@ static void print_csv(const summary *s, const screen_result *r)
            "mi_normalized,reasons\n");
     for (size_t i = 0; i < r->nfeatures; i++) {
         const screen_feature *f = &r->features[i];
-        table_csv_field(stdout, s->cols[f->col].name);
+        table_csv_field(stdout, summary_name(s, f->col));
         printf(",%s,%s,", f->kind == KIND_NUMERIC ? "numeric" : "categorical", f->keep ? "keep" : "drop");
         if (f->rank) printf("%zu", f->rank);
         fputc(',', stdout);
@@ -172,13 +171,14 @@ static void print_csv(const summary *s, const screen_result *r)
 static void print_text(const summary *s, const screen_result *r, const char *path)
 {
     int color = table_use_color(stdout);
-    if (s->target >= 0)
-        printf("%s: %llu rows; target %s (%s); kept %zu of %zu columns\n", path,
-               (unsigned long long)s->rows, s->opt.target,
-               r->task == TASK_CLASSIFY ? "classification" : "regression", r->kept, r->nfeatures);
+    unsigned long long rows = summary_rows(s);
+    if (summary_target_column(s) >= 0)
+        printf("%s: %llu rows; target %s (%s); kept %zu of %zu columns\n", path, rows,
+               summary_target_name(s), r->task == TASK_CLASSIFY ? "classification" : "regression",
+               r->kept, r->nfeatures);
     else
         printf("%s: %llu rows; no target (only flags and redundancy); kept %zu of %zu columns\n",
-               path, (unsigned long long)s->rows, r->kept, r->nfeatures);
+               path, rows, r->kept, r->nfeatures);
     const char *head[] = {"rank", "column", "kind", "decision", "test", "stat", "p", "q", "MI norm", "reasons"};
     size_t nh = sizeof head / sizeof *head;
     table *t = table_create(nh);
@@ -198,7 +198,7 @@ static void print_text(const summary *s, const screen_result *r, const char *pat
             if (!f) continue;
             table_row(t);
             if (f->rank) table_cellf(t, 0, "%zu", f->rank);
-            table_cell(t, 1, s->cols[f->col].name);
+            table_cell(t, 1, summary_name(s, f->col));
             table_cell(t, 2, f->kind == KIND_NUMERIC ? "numeric" : "categorical");
             table_cell(t, 3, f->keep ? (color ? "\033[32mkeep\033[0m" : "keep") : "drop");
             const char *tn;
@@ -222,8 +222,8 @@ static void print_text(const summary *s, const screen_result *r, const char *pat
     if (r->npairs) {
         printf("\nredundant pairs (|r| at or above the threshold):\n");
         for (size_t i = 0; i < r->npairs; i++)
-            printf("  %s ~ %s  r = %.4f\n", s->cols[r->features[r->pairs[i].a].col].name,
-                   s->cols[r->features[r->pairs[i].b].col].name, r->pairs[i].r);
+            printf("  %s ~ %s  r = %.4f\n", pair_name(s, r, i, 0), pair_name(s, r, i, 1),
+                   r->pairs[i].r);
     }
 }
 
@@ -241,7 +241,7 @@ int cmd_screen(int argc, char **argv)
         {"redundancy", 0, "R", "|r| at which two kept columns are redundant (default 0.95)", &redund, NULL},
         {"missing-share", 0, "P", "share of missing cells that flags a column (default 0.5)", &missing, NULL},
         {"min-variance", 0, "V", "flag numeric columns with a smaller variance as near-constant", &minvar, NULL},
-        {"numeric-share", 0, "P", "share of parsing cells that makes a column numeric (default 0.99)", &share, NULL},
+        CLI_NUMERIC_SHARE_OPTION(share),
         {"keep-list", 0, "FILE", "also write the kept column names, one per line", &keep_list, NULL},
         {0},
     };
@@ -255,19 +255,14 @@ int cmd_screen(int argc, char **argv)
         "independent rows; see the README's cautions.",
         opts};
     char **pos;
-    size_t npos;
-    int rc = cli_parse(&cmd, argc, argv, &pos, &npos);
-    if (rc) { free(pos); return rc == 1 ? EXIT_DONE : rc; }
+    int rc = cli_parse_single(&cmd, argc, argv, &pos);
+    if (rc >= 0) return rc;
     screen_options o;
     screen_options_defaults(&o);
     summary *s = NULL;
     screen_result *r = NULL;
     rc = EXIT_USAGE;
-    if (npos != 1) { cli_error("screen", "expected one summary file"); goto done; }
-    if (strcmp(format, "text") && strcmp(format, "csv") && strcmp(format, "json")) {
-        cli_error("screen", "--format must be text, csv or json, got '%s'", format);
-        goto done;
-    }
+    if (cli_check_format("screen", format)) goto done;
     if (q && cli_parse_unit("screen", "--q", q, &o.q_level)) goto done;
     if (missing && cli_parse_unit("screen", "--missing-share", missing, &o.missing_share)) goto done;
     if (redund && cli_parse_unit("screen", "--redundancy", redund, &o.redundancy)) goto done;
@@ -293,9 +288,7 @@ int cmd_screen(int argc, char **argv)
         else if (!strcmp(rank_by, "stat")) o.rank_by = RANK_STAT;
         else { cli_error("screen", "--rank-by must be q, mi or stat, got '%s'", rank_by); goto done; }
     }
-    char err[512];
-    summary_status st = summary_read(pos[0], &s, err, sizeof err);
-    if (st != SUMMARY_OK) { cli_error("screen", "%s", err); rc = cli_summary_exit(st); goto done; }
+    if ((rc = cli_read_summary("screen", pos[0], &s)) != EXIT_DONE) goto done;
     r = screen_run(s, &o);
     if (!r) { cli_error("screen", "out of memory"); rc = EXIT_RESOURCE; goto done; }
     if (!strcmp(format, "json")) print_json(s, r);
@@ -308,7 +301,7 @@ int cmd_screen(int argc, char **argv)
         int ok = f != NULL;
         for (size_t k = 1; ok && k <= r->kept; k++)
             for (size_t i = 0; i < r->nfeatures; i++)
-                if (r->features[i].rank == k) fprintf(f, "%s\n", s->cols[r->features[i].col].name);
+                if (r->features[i].rank == k) fprintf(f, "%s\n", summary_name(s, r->features[i].col));
         if (f && fclose(f) != 0) ok = 0;
         if (!ok || rename(tmp, keep_list) != 0) {
             unlink(tmp);

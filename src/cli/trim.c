@@ -7,6 +7,7 @@
 #include "out/sink.h"
 #include "pass/trim.h"
 #include "stats/screen.h"
+#include "summary/access.h"
 #include "summary/summary.h"
 
 typedef struct {
@@ -137,10 +138,11 @@ int cmd_trim(int argc, char **argv)
         if (!res) { cli_error("trim", "out of memory"); rc = EXIT_RESOURCE; goto done; }
         for (size_t i = 0; i < res->nfeatures; i++)
             if (res->features[i].keep) {
-                const char *nm = s->cols[res->features[i].col].name;
+                const char *nm = summary_name(s, res->features[i].col);
                 if (names_add(&keep, nm, strlen(nm)) != 0) { rc = EXIT_RESOURCE; goto done; }
             }
-        if (s->target >= 0 && names_add(&keep, s->opt.target, strlen(s->opt.target)) != 0) goto done;
+        const char *target = summary_target_name(s);
+        if (target && names_add(&keep, target, strlen(target)) != 0) goto done;
     }
     if (add_list(&keep, carry) != 0) { rc = EXIT_RESOURCE; goto done; }
     out = sink_open(out_path, err, sizeof err);

@@ -199,7 +199,7 @@ size_t reader_column_name(const csv_field *f, size_t i, int header, int raw, cha
     return (size_t)snprintf(out, 24, "col%zu", i + 1);
 }
 
-void reader_missing_init(reader_missing *m, char *const *spellings, uint32_t n)
+void reader_missing_init(reader_missing *m, const char *const *spellings, uint32_t n)
 {
     memset(m, 0, sizeof *m);
     m->n = n < READER_MAX_MISSING ? n : READER_MAX_MISSING;

@@ -116,7 +116,7 @@ typedef struct {
 
 /* The empty cell is always missing; n <= READER_MAX_MISSING spellings more.
  * The spellings are borrowed and must outlive m. */
-void reader_missing_init(reader_missing *m, char *const *spellings, uint32_t n);
+void reader_missing_init(reader_missing *m, const char *const *spellings, uint32_t n);
 
 /* p[0] is read even when len is 0: cells sit in padded chunks. */
 static inline int reader_is_missing(const reader_missing *m, const char *p, uint32_t len)

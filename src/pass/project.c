@@ -10,6 +10,7 @@
 #include "io/number.h"
 #include "io/reader.h"
 #include "io/source.h"
+#include "summary/access.h"
 
 #define BLOCK_ROWS 256
 
@@ -188,7 +189,7 @@ static int map_header(projector *pj, const char *path, const csv_field *f, size_
     pj->name = malloc(longest + 25);
     if (!pj->name) { snprintf(pj->err, pj->errlen, "out of memory"); return -1; }
     for (size_t j = 0; j < pj->r->p; j++) {
-        const char *name = pj->s->cols[pj->r->cols[j]].name;
+        const char *name = summary_name(pj->s, pj->r->cols[j]);
         size_t at = header_find(pj, f, nf, name);
         if (at == SIZE_MAX) {
             snprintf(pj->err, pj->errlen,
@@ -321,7 +322,11 @@ project_status project_files(const summary *s, const pca_result *r, size_t k,
     pj.out = out;
     pj.err = err;
     pj.errlen = errlen;
-    reader_missing_init(&pj.missing, s->opt.missing, s->opt.n_missing);
+    const char *spelling[READER_MAX_MISSING];
+    uint32_t nmissing = summary_missing_spellings(s);
+    for (uint32_t i = 0; i < nmissing && i < READER_MAX_MISSING; i++)
+        spelling[i] = summary_missing_spelling(s, i);
+    reader_missing_init(&pj.missing, spelling, nmissing);
     reader_options ro;
     reader_options_defaults(&ro);
     ro.delim = o->delim;

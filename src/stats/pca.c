@@ -33,6 +33,7 @@
  * blocks of rows with cblas_dgemm.
  */
 #include "stats/pca.h"
+#include "summary/access.h"
 
 #include <cblas.h>
 #include <lapacke.h>
@@ -274,20 +275,20 @@ static long find_name(const name_entry *byname, size_t n, const char *name, size
  * the caller. */
 static int unusable(const summary *s, size_t j, const pca_options *o, int explicit_choice)
 {
-    const summary_column *c = &s->cols[j];
-    if (s->como_of[j] < 0 || summary_column_kind(c, o->numeric_share) != KIND_NUMERIC)
+    if (!summary_has_pairs(s, j) || summary_kind(s, j, o->numeric_share) != KIND_NUMERIC)
         return PCA_LEFT_CATEGORICAL;
-    if (c->mom.n < 2) return PCA_LEFT_EMPTY;
-    double var = moments_variance(&c->mom);
-    double distinct = summary_column_distinct(c, NULL);
+    uint64_t numbers = summary_numbers(s, j);
+    if (numbers < 2) return PCA_LEFT_EMPTY;
+    double var = summary_variance(s, j);
+    double distinct = summary_distinct(s, j, NULL);
     if (!(var > 0) || distinct <= 1) {
         /* A covariance basis can hold a constant column that was asked for. */
         if (explicit_choice && o->basis == PCA_BASIS_COVARIANCE && var == 0) return 0;
         return PCA_LEFT_CONSTANT;
     }
     if (explicit_choice) return 0;
-    uint64_t present = summary_column_present(c);
-    if (c->integers == c->mom.n && present > 0 && distinct >= o->id_share * (double)present)
+    uint64_t present = summary_present(s, j);
+    if (summary_integers(s, j) == numbers && present > 0 && distinct >= o->id_share * (double)present)
         return PCA_LEFT_ID_LIKE;
     return 0;
 }
@@ -310,7 +311,7 @@ static int mark_names(const summary *s, const name_entry *byname, const char *li
             p = next;
             continue;
         }
-        long j = find_name(byname, s->ncols, p, len);
+        long j = find_name(byname, summary_columns(s), p, len);
         if (j < 0) {
             snprintf(err, errlen, "%s: no column named '%.*s' in the summary", what, (int)len, p);
             return -1;
@@ -337,7 +338,7 @@ static const char *why_unusable(int reason, pca_basis basis)
 static pca_status choose(const summary *s, const pca_options *o, pca_result *r, char *err,
                          size_t errlen)
 {
-    size_t n = s->ncols;
+    size_t n = summary_columns(s);
     pca_status st = PCA_ERR_MEMORY;
     name_entry *byname = malloc((n ? n : 1) * sizeof *byname);
     unsigned char *chosen = calloc(n ? n : 1, 1), *excluded = calloc(n ? n : 1, 1);
@@ -348,7 +349,7 @@ static pca_status choose(const summary *s, const pca_options *o, pca_result *r, 
         snprintf(err, errlen, "out of memory");
         goto done;
     }
-    for (size_t j = 0; j < n; j++) byname[j] = (name_entry){s->cols[j].name, j};
+    for (size_t j = 0; j < n; j++) byname[j] = (name_entry){summary_name(s, j), j};
     qsort(byname, n, sizeof *byname, entry_cmp);
     st = PCA_ERR_USAGE;
     int explicit_choice = o->columns != NULL || o->keep_list != NULL;
@@ -371,14 +372,14 @@ static pca_status choose(const summary *s, const pca_options *o, pca_result *r, 
                 continue;
             }
             if (why) {
-                snprintf(err, errlen, "column '%s' %s", s->cols[j].name,
+                snprintf(err, errlen, "column '%s' %s", summary_name(s, j),
                          why_unusable(why, o->basis));
                 goto done;
             }
             r->cols[r->p++] = j;
             continue;
         }
-        int why = (int)j == s->target && !o->with_target ? PCA_LEFT_TARGET : unusable(s, j, o, 0);
+        int why = (int)j == summary_target_column(s) && !o->with_target ? PCA_LEFT_TARGET : unusable(s, j, o, 0);
         if (!why && excluded[j]) why = PCA_LEFT_EXCLUDED;
         if (why) r->left[r->nleft++] = (pca_left_out){j, (pca_reason)why};
         else r->cols[r->p++] = j;
@@ -406,7 +407,7 @@ pca_status pca_fit(const summary *s, const pca_options *o, pca_result **out, cha
                    size_t errlen)
 {
     *out = NULL;
-    if (!s->como) {
+    if (!summary_has_comoments(s)) {
         snprintf(err, errlen, "the summary has no co-moment matrix");
         return PCA_ERR_USAGE;
     }
@@ -430,18 +431,15 @@ pca_status pca_fit(const summary *s, const pca_options *o, pca_result **out, cha
         snprintf(err, errlen, "out of memory (the %zu x %zu basis matrix)", p, p);
         return PCA_ERR_MEMORY;
     }
-    const comoment *cm = s->como;
     int corr = o->basis == PCA_BASIS_CORRELATION;
     for (size_t i = 0; i < p; i++) {
-        const moments *m = &s->cols[r->cols[i]].mom;
-        double sd = sqrt(moments_variance(m));
-        r->center[i] = moments_mean(m);
-        r->factor[i] = corr ? 1.0 / sd : 1.0;
-        size_t ki = (size_t)s->como_of[r->cols[i]];
-        a[i * p + i] = corr ? 1.0 : comoment_variance(cm, ki, ki);
+        size_t ci = r->cols[i];
+        r->center[i] = summary_mean(s, ci);
+        r->factor[i] = corr ? 1.0 / summary_sd(s, ci) : 1.0;
+        a[i * p + i] = corr ? 1.0 : summary_pair_variance(s, ci, ci);
         for (size_t j = 0; j < i; j++) {
-            size_t kj = (size_t)s->como_of[r->cols[j]];
-            double v = corr ? comoment_correlation(cm, ki, kj) : comoment_covariance(cm, ki, kj);
+            size_t cj = r->cols[j];
+            double v = corr ? summary_correlation(s, ci, cj) : summary_covariance(s, ci, cj);
             if (!isfinite(v)) { v = 0; r->undefined_pairs++; }
             a[i * p + j] = a[j * p + i] = v;
         }

@@ -9,6 +9,8 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "summary/access.h"
+
 const char *const screen_flag_names[SCREEN_NFLAGS] = {"constant", "near_constant", "id_like",
                                                       "mostly_missing", "high_cardinality"};
 
@@ -60,27 +62,29 @@ static void set_test(screen_test *t, const stat_result *r)
 
 /* ---- flags ---------------------------------------------------------------- */
 
-static unsigned column_flags(const summary *s, const summary_column *c, column_kind kind,
+static unsigned column_flags(const summary *s, size_t col, column_kind kind,
                              const screen_options *o)
 {
     unsigned flags = 0;
-    uint64_t present = summary_column_present(c);
-    if (s->rows && (double)c->missing >= o->missing_share * (double)s->rows) flags |= SCREEN_MOSTLY_MISSING;
+    uint64_t present = summary_present(s, col), rows = summary_rows(s);
+    if (rows && (double)summary_missing(s, col) >= o->missing_share * (double)rows)
+        flags |= SCREEN_MOSTLY_MISSING;
     if (present == 0) return flags | SCREEN_CONSTANT;
     int exact;
-    double distinct = summary_column_distinct(c, &exact);
-    double var = moments_variance(&c->mom);
-    if ((exact && distinct <= 1) || (kind == KIND_NUMERIC && c->mom.n >= 2 && var == 0))
+    double distinct = summary_distinct(s, col, &exact);
+    double var = summary_variance(s, col);
+    uint64_t numbers = summary_numbers(s, col);
+    if ((exact && distinct <= 1) || (kind == KIND_NUMERIC && numbers >= 2 && var == 0))
         return flags | SCREEN_CONSTANT;
     values_entry top;
-    if (values_top(c->vals, 1, &top) == 1 && (double)top.count >= o->near_constant * (double)present)
+    if (summary_top(s, col, 1, &top) == 1 && (double)top.count >= o->near_constant * (double)present)
         flags |= SCREEN_NEAR_CONSTANT;
     if (kind == KIND_NUMERIC && o->min_variance > 0 && var < o->min_variance) flags |= SCREEN_NEAR_CONSTANT;
-    int integer_valued = kind == KIND_NUMERIC && c->integers == c->mom.n;
+    int integer_valued = kind == KIND_NUMERIC && summary_integers(s, col) == numbers;
     if ((kind == KIND_CATEGORICAL || integer_valued) && present >= ID_MIN_PRESENT &&
         distinct >= o->id_share * (double)present)
         flags |= SCREEN_ID_LIKE;
-    if (kind == KIND_CATEGORICAL && values_overflowed(c->vals)) flags |= SCREEN_HIGH_CARDINALITY;
+    if (kind == KIND_CATEGORICAL && summary_high_cardinality(s, col)) flags |= SCREEN_HIGH_CARDINALITY;
     return flags;
 }
 
@@ -191,10 +195,11 @@ static int64_t cell_order(const target_axis *t, uint32_t cell)
 /* Ranks of the classes by numeric value. */
 static void class_ranks(const summary *s, int64_t *rank)
 {
-    for (uint32_t a = 0; a < s->nclasses; a++) {
+    uint32_t k = summary_class_count(s);
+    for (uint32_t a = 0; a < k; a++) {
         int64_t r = 0;
-        for (uint32_t b = 0; b < s->nclasses; b++) {
-            double va = s->class_dec[a].value, vb = s->class_dec[b].value;
+        for (uint32_t b = 0; b < k; b++) {
+            double va = summary_class_value(s, a), vb = summary_class_value(s, b);
             r += vb < va || (vb == va && b < a);
         }
         rank[a] = r;
@@ -250,7 +255,7 @@ static size_t level_groups(const summary *s, const crosstab *x, level_moments *o
         crosstab_entry e = crosstab_entry_at(x, i);
         double nb = (double)e.n, mb, m2b;
         if (crosstab_mode(x) == CROSSTAB_COUNTS) {
-            mb = s->class_dec[e.cell - 1].value; /* every row of the class has this value */
+            mb = summary_class_value(s, e.cell - 1); /* every row of the class has this value */
             m2b = 0;
         } else {
             mb = e.mean;
@@ -289,17 +294,20 @@ static int groups_test(const level_moments *g, size_t m, screen_test *t)
 static int test_feature(const summary *s, size_t col, target_task task, const screen_options *o,
                         const target_axis *ta, screen_feature *f)
 {
-    const summary_column *c = &s->cols[col];
     stat_result r;
     triples t = {0};
     int rc = 0;
     if (f->kind == KIND_NUMERIC) {
-        if (task == TASK_CLASSIFY && c->cls) {
-            size_t k = s->nclasses;
+        if (task == TASK_CLASSIFY && summary_has_class_moments(s, col)) {
+            size_t k = summary_class_count(s);
             level_moments *g = malloc((k ? k : 1) * sizeof *g);
             if (!g) return -1;
-            for (size_t i = 0; i < k; i++)
-                g[i] = (level_moments){i, (double)c->cls[i].n, c->cls[i].mean, c->cls[i].m2};
+            for (size_t i = 0; i < k; i++) {
+                /* In the column's frame: the tests are shift-free, and the frame keeps digits. */
+                summary_class_stats cs;
+                summary_class_moments(s, col, (uint32_t)i, &cs);
+                g[i] = (level_moments){i, (double)cs.n, cs.frame_mean, cs.m2};
+            }
             rc = groups_test(g, k, &f->anova_f);
             double *n = malloc((k ? k : 1) * sizeof *n), *mean = malloc((k ? k : 1) * sizeof *mean),
                    *m2 = malloc((k ? k : 1) * sizeof *m2);
@@ -312,18 +320,17 @@ static int test_feature(const summary *s, size_t col, target_task task, const sc
             free(n); free(mean); free(m2); free(g);
             f->p = f->anova_f.present ? f->anova_f.p : NAN;
         } else if (task == TASK_REGRESS) {
-            int a = s->como_of[col], b = s->como_of[s->target];
-            if (a >= 0 && b >= 0) {
-                double rr = comoment_correlation(s->como, (size_t)a, (size_t)b);
-                double nn = comoment_n(s->como, (size_t)a, (size_t)b);
-                if (isfinite(rr) && stat_correlation_f(rr, nn, &r) == 0) set_test(&f->corr_f, &r);
-            }
+            size_t y = (size_t)summary_target_column(s);
+            double rr = summary_correlation(s, col, y);
+            double nn = (double)summary_pair_count(s, col, y);
+            if (isfinite(rr) && stat_correlation_f(rr, nn, &r) == 0) set_test(&f->corr_f, &r);
             f->p = f->corr_f.present ? f->corr_f.p : NAN;
         }
         /* MI (and chi-squared) from the bucket store: feature buckets x target cells. */
-        size_t ne = buckets_entries(c->bins);
+        const buckets *bins = summary_buckets(s, col);
+        size_t ne = buckets_entries(bins);
         for (size_t i = 0; i < ne && rc == 0; i++) {
-            buckets_entry e = buckets_entry_at(c->bins, i);
+            buckets_entry e = buckets_entry_at(bins, i);
             if (e.cell == 0) continue; /* target missing */
             rc = triples_push(&t, e.key, cell_order(ta, e.cell), (double)e.count);
         }
@@ -332,19 +339,20 @@ static int test_feature(const summary *s, size_t col, target_task task, const sc
         triples_free(&t);
         return rc;
     }
-    if (!c->cross) return 0;
-    size_t ne = crosstab_entries(c->cross);
+    const crosstab *cross = summary_crosstab(s, col);
+    if (!cross) return 0;
+    size_t ne = crosstab_entries(cross);
     if (task == TASK_REGRESS) {
         level_moments *g = malloc((ne ? ne : 1) * sizeof *g);
         if (!g) return -1;
-        size_t m = level_groups(s, c->cross, g);
+        size_t m = level_groups(s, cross, g);
         rc = groups_test(g, m, &f->anova_f);
         free(g);
         f->p = f->anova_f.present ? f->anova_f.p : NAN;
     }
     /* Levels x target table: chi-squared (classification) and MI. */
     for (size_t i = 0; i < ne && rc == 0; i++) {
-        crosstab_entry e = crosstab_entry_at(c->cross, i);
+        crosstab_entry e = crosstab_entry_at(cross, i);
         if (ta->classes && e.cell == 0) continue;
         rc = triples_push(&t, (int64_t)e.key, cell_order(ta, e.cell), (double)e.n);
     }
@@ -411,22 +419,23 @@ screen_result *screen_run(const summary *s, const screen_options *o)
     if (!res) return NULL;
     target_task task = summary_target_task(s, o->numeric_share);
     res->task = task;
-    res->features = calloc(s->ncols ? s->ncols : 1, sizeof *res->features);
-    size_t *order = calloc(s->ncols ? s->ncols : 1, sizeof *order);
-    int64_t *rank = calloc(s->nclasses + 1, sizeof *rank);
-    double *p = malloc((s->ncols ? s->ncols : 1) * sizeof *p);
+    size_t ncols = summary_columns(s);
+    int target = summary_target_column(s), classes = summary_classes_kept(s);
+    res->features = calloc(ncols ? ncols : 1, sizeof *res->features);
+    size_t *order = calloc(ncols ? ncols : 1, sizeof *order);
+    int64_t *rank = calloc(summary_class_count(s) + 1, sizeof *rank);
+    double *p = malloc((ncols ? ncols : 1) * sizeof *p);
     if (!res->features || !order || !rank || !p) goto oom;
-    target_axis ta = {s->has_classes, s->has_classes && task == TASK_REGRESS, rank};
+    target_axis ta = {classes, classes && task == TASK_REGRESS, rank};
     if (ta.by_value) class_ranks(s, rank);
     /* Flags and tests. */
     size_t nf = 0;
-    for (size_t i = 0; i < s->ncols; i++) {
-        if ((int)i == s->target) continue;
+    for (size_t i = 0; i < ncols; i++) {
+        if ((int)i == target) continue;
         screen_feature *f = &res->features[nf++];
-        const summary_column *c = &s->cols[i];
         f->col = i;
-        f->kind = summary_column_kind(c, o->numeric_share);
-        f->flags = column_flags(s, c, f->kind, o);
+        f->kind = summary_kind(s, i, o->numeric_share);
+        f->flags = column_flags(s, i, f->kind, o);
         f->p = f->q = NAN;
         f->anova_f.df2 = f->chi2.df2 = NAN;
         for (int b = 0; b < SCREEN_NFLAGS; b++)
@@ -461,11 +470,9 @@ screen_result *screen_run(const summary *s, const screen_options *o)
         for (size_t a = 0; a < nk; a++) {
             screen_feature *f = &res->features[order[a]];
             double sum = 0;
-            int ca = s->como_of[f->col];
-            for (size_t b = 0; b < nk && ca >= 0; b++) {
-                int cb = s->como_of[res->features[order[b]].col];
-                if (b == a || cb < 0) continue;
-                double r = comoment_correlation(s->como, (size_t)ca, (size_t)cb);
+            for (size_t b = 0; b < nk && summary_has_pairs(s, f->col); b++) {
+                if (b == a) continue;
+                double r = summary_correlation(s, f->col, res->features[order[b]].col);
                 if (isfinite(r)) sum += r * r;
             }
             f->p = -sum;
@@ -475,13 +482,11 @@ screen_result *screen_run(const summary *s, const screen_options *o)
     /* Redundancy among kept numeric features, the more relevant one staying. */
     for (size_t a = 0; a < nk; a++) {
         screen_feature *fa = &res->features[order[a]];
-        int ca = s->como_of[fa->col];
-        if (fa->kind != KIND_NUMERIC || ca < 0) continue;
+        if (fa->kind != KIND_NUMERIC || !summary_has_pairs(s, fa->col)) continue;
         for (size_t b = a + 1; b < nk; b++) {
             screen_feature *fb = &res->features[order[b]];
-            int cb = s->como_of[fb->col];
-            if (fb->kind != KIND_NUMERIC || cb < 0) continue;
-            double r = comoment_correlation(s->como, (size_t)ca, (size_t)cb);
+            if (fb->kind != KIND_NUMERIC || !summary_has_pairs(s, fb->col)) continue;
+            double r = summary_correlation(s, fa->col, fb->col);
             if (!(fabs(r) >= o->redundancy)) continue;
             screen_pair *pp = realloc(res->pairs, (res->npairs + 1) * sizeof *pp);
             if (!pp) goto oom;
@@ -489,7 +494,7 @@ screen_result *screen_run(const summary *s, const screen_options *o)
             pp[res->npairs++] = (screen_pair){order[a], order[b], r};
             if (fa->keep && fb->keep) {
                 fb->keep = 0;
-                add_reason(fb, "redundant with %s (r = %.3f)", s->cols[fa->col].name, r);
+                add_reason(fb, "redundant with %s (r = %.3f)", summary_name(s, fa->col), r);
             }
         }
     }

@@ -385,7 +385,7 @@ scan_context *scan_create(const scan_options *o)
     sc->rd = reader_create(&ro);
     sc->fed_hash = XXH3_createState();
     if (!sc->rd || !sc->fed_hash) { scan_free(sc); return NULL; }
-    reader_missing_init(&sc->missing, o->opt.missing, o->opt.n_missing);
+    reader_missing_init(&sc->missing, (const char *const *)o->opt.missing, o->opt.n_missing);
     return sc;
 }
 

@@ -1,0 +1,79 @@
+/* What the commands on one summary (info, corr, screen, pca) parse, check
+ * and print the same way: the one positional argument, the summary read,
+ * the --format choice, the target's class levels and number arrays in
+ * JSON. */
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "cli/cli.h"
+#include "summary/access.h"
+
+int cli_read_summary(const char *cmd, const char *path, summary **s)
+{
+    char err[512];
+    summary_status st = summary_read(path, s, err, sizeof err);
+    if (st == SUMMARY_OK) return EXIT_DONE;
+    cli_error(cmd, "%s", err);
+    return cli_summary_exit(st);
+}
+
+int cli_check_format(const char *cmd, const char *format)
+{
+    if (!strcmp(format, "text") || !strcmp(format, "csv") || !strcmp(format, "json")) return 0;
+    cli_error(cmd, "--format must be text, csv or json, got '%s'", format);
+    return EXIT_USAGE;
+}
+
+void cli_json_class_levels(json_out *j, const summary *s, int with_levels)
+{
+    json_key(j, "levels");
+    json_array_begin(j);
+    for (uint32_t c = 0; with_levels && c < summary_class_count(s); c++) {
+        json_object_begin(j);
+        json_key(j, "value"); json_string(j, summary_class_label(s, c));
+        json_key(j, "rows"); json_uint(j, summary_class_rows(s, c));
+        json_object_end(j);
+    }
+    json_array_end(j);
+}
+
+int cli_parse_single(const cli_command *cmd, int argc, char **argv, char ***pos)
+{
+    size_t npos;
+    int rc = cli_parse(cmd, argc, argv, pos, &npos);
+    if (rc == 0 && npos == 1) return -1;
+    if (rc == 0) {
+        cli_error(cmd->name, "expected one summary file");
+        rc = EXIT_USAGE;
+    }
+    free(*pos);
+    *pos = NULL;
+    return rc == 1 ? EXIT_DONE : rc;
+}
+
+void cli_json_numbers(json_out *j, const char *key, const double *v, size_t n)
+{
+    json_key(j, key);
+    json_array_begin(j);
+    for (size_t i = 0; i < n; i++) json_number(j, v[i]);
+    json_array_end(j);
+}
+
+void cli_json_matrix(json_out *j, const char *key, const double *v, size_t rows, size_t cols)
+{
+    json_key(j, key);
+    json_array_begin(j);
+    for (size_t r = 0; r < rows; r++) {
+        json_array_begin(j);
+        for (size_t c = 0; c < cols; c++) json_number(j, v[r * cols + c]);
+        json_array_end(j);
+    }
+    json_array_end(j);
+}
+
+int cli_numeric_share(const char *cmd, const char *text, double *share)
+{
+    *share = CLI_NUMERIC_SHARE_DEFAULT;
+    return text && cli_parse_unit(cmd, "--numeric-share", text, share) ? EXIT_USAGE : 0;
+}
