@@ -9,6 +9,7 @@
  * The trailer checksum covers the whole file, so any single-bit change is
  * detected (a change to the magic or version is reported as such first).
  */
+#include "summary/column.h"
 #include "summary/summary.h"
 
 #include <errno.h>
@@ -135,30 +136,7 @@ static void encode_table(const summary *s, wire_writer *w)
 
 static void encode_columns(const summary *s, wire_writer *w)
 {
-    for (size_t i = 0; i < s->ncols; i++) {
-        const summary_column *c = &s->cols[i];
-        wire_put_u64(w, c->missing);
-        wire_put_u64(w, c->non_numeric);
-        wire_put_u64(w, c->non_finite);
-        wire_put_u64(w, c->zeros);
-        wire_put_u64(w, c->integers);
-        moments_write(&c->mom, w);
-        wire_put_u32(w, c->n_examples);
-        for (uint32_t e = 0; e < c->n_examples; e++)
-            wire_put_str(w, c->examples[e], strlen(c->examples[e]));
-        values_write(c->vals, w);
-        hll_write(c->distinct, w);
-        buckets_write(c->bins, w);
-        wire_put_u8(w, c->cross != NULL);
-        if (c->cross) crosstab_write(c->cross, w);
-        wire_put_u8(w, c->cls != NULL);
-        if (c->cls)
-            for (uint32_t k = 0; k < s->nclasses; k++) {
-                wire_put_u64(w, c->cls[k].n);
-                wire_put_f64(w, c->cls[k].mean);
-                wire_put_f64(w, c->cls[k].m2);
-            }
-    }
+    for (size_t i = 0; i < s->ncols; i++) column_write(&s->cols[i], s->nclasses, w);
 }
 
 
@@ -310,47 +288,8 @@ static void decode_comoments(summary *s, wire_reader *r)
 
 static void decode_columns(summary *s, wire_reader *r)
 {
-    for (size_t i = 0; i < s->ncols && !r->failed; i++) {
-        summary_column *c = &s->cols[i];
-        c->missing = wire_get_u64(r);
-        c->non_numeric = wire_get_u64(r);
-        c->non_finite = wire_get_u64(r);
-        c->zeros = wire_get_u64(r);
-        c->integers = wire_get_u64(r);
-        moments_read(&c->mom, r);
-        c->n_examples = wire_get_u32(r);
-        if (c->n_examples > SUMMARY_EXAMPLES) { r->failed = 1; c->n_examples = 0; break; }
-        for (uint32_t e = 0; e < c->n_examples; e++) {
-            size_t n;
-            const char *p = wire_get_str(r, &n, SUMMARY_EXAMPLE_BYTES);
-            if (p) memcpy(c->examples[e], p, n);
-            c->examples[e][n] = '\0';
-        }
-        values *v = values_read(r);
-        if (!v) { r->failed = 1; break; }
-        values_free(c->vals);
-        c->vals = v;
-        if (hll_read(c->distinct, r) != 0) { r->failed = 1; break; }
-        buckets *b = buckets_read(r);
-        if (!b) { r->failed = 1; break; }
-        buckets_free(c->bins);
-        c->bins = b;
-        uint8_t has_cross = wire_get_u8(r);
-        if (has_cross != (c->cross != NULL)) { r->failed = 1; break; }
-        if (has_cross) {
-            crosstab *x = crosstab_read(r);
-            if (!x) { r->failed = 1; break; }
-            crosstab_free(c->cross);
-            c->cross = x;
-        }
-        uint8_t has_cls = wire_get_u8(r);
-        if (has_cls != (c->cls != NULL)) { r->failed = 1; break; }
-        for (uint32_t k = 0; has_cls && k < s->nclasses; k++) {
-            c->cls[k].n = wire_get_u64(r);
-            c->cls[k].mean = wire_get_f64(r);
-            c->cls[k].m2 = wire_get_f64(r);
-        }
-    }
+    for (size_t i = 0; i < s->ncols && !r->failed; i++)
+        if (column_read(&s->cols[i], s->nclasses, r) != 0) r->failed = 1;
 }
 
 summary_status summary_decode(const uint8_t *data, size_t len, summary **out, char *err,

@@ -7,6 +7,7 @@
  * result.  Per-class moments combine by the pair rule of Chan, Golub &
  * LeVeque (1979), moments_pair_merge.
  */
+#include "summary/column.h"
 #include "summary/summary.h"
 
 #include <stdarg.h>
@@ -138,15 +139,6 @@ static int map_classes(summary *into, const summary *from, uint32_t *map)
     return 0;
 }
 
-/* Combines two class moments; shift = from's frame minus into's. */
-static void class_merge(class_moments *a, const class_moments *b, double shift)
-{
-    if (b->n == 0) return;
-    if (a->n == 0) { *a = *b; a->mean += shift; return; }
-    moments_pair_merge((double)a->n, &a->mean, &a->m2, (double)b->n, b->mean + shift, b->m2);
-    a->n += b->n;
-}
-
 /* 1 when every class of s is a number, so that its classes can be dropped
  * (a text target cannot continue as a regression target). */
 static int classes_numeric(const summary *s)
@@ -200,45 +192,11 @@ summary_status summary_merge(summary *into, summary *from, char *err, size_t err
     const number_decimal *fa = target_frame(into), *fb = target_frame(from);
     double yshift = fa && fb ? number_difference(fb, fa, NULL) : 0;
     for (size_t i = 0; i < into->ncols; i++) {
-        summary_column *a = &into->cols[i];
-        const summary_column *b = &from->cols[i];
-        /* Column frame shift (before the moments merge sets a's reference). */
-        double shift = a->mom.has_ref && b->mom.has_ref ? number_difference(&b->mom.ref, &a->mom.ref, NULL) : 0;
-        if (a->cls && b->cls) {
-            /* A chunk-local set numbers classes like the running one (same_classes). */
-            uint32_t k = same_classes ? into->opt.max_classes : from->nclasses;
-            for (uint32_t c = 0; c < k; c++)
-                class_merge(&a->cls[same_classes ? c : map[c + 1] - 1], &b->cls[c], shift);
-        }
-        a->missing += b->missing;
-        a->non_numeric += b->non_numeric;
-        a->non_finite += b->non_finite;
-        a->zeros += b->zeros;
-        a->integers += b->integers;
-        moments_merge(&a->mom, &b->mom);
-        hll_merge(a->distinct, b->distinct);
-        int was_overflowed = values_overflowed(a->vals);
-        uint32_t mlen = map ? from->nclasses + 1 : 0;
-        if (values_merge(a->vals, b->vals) != 0 ||
-            buckets_merge(a->bins, b->bins, same_classes ? NULL : map, mlen) != 0 ||
-            (a->cross && b->cross &&
-             crosstab_merge(a->cross, b->cross, same_classes ? NULL : map, mlen, yshift) != 0)) {
+        column_merge_map cm = {map, map ? from->nclasses + 1 : 0, same_classes,
+                               into->opt.max_classes, from->nclasses, yshift};
+        if (column_merge(&into->cols[i], &from->cols[i], &cm) != 0) {
             free(map);
             return out_of_memory(err, errlen);
-        }
-        /* Sketches hold only what arrived after their table overflowed. */
-        if (values_overflowed(a->vals)) {
-            if (!was_overflowed) summary_column_fold_keys(a->distinct, a->vals);
-            summary_column_fold_keys(a->distinct, b->vals);
-        }
-        /* The per-value table is void once the value table overflowed. */
-        if (a->cross && values_overflowed(a->vals) && crosstab_entries(a->cross))
-            crosstab_reset(a->cross);
-        for (uint32_t e = 0; e < b->n_examples && a->n_examples < SUMMARY_EXAMPLES; e++) {
-            int dup = 0;
-            for (uint32_t k = 0; k < a->n_examples; k++)
-                dup |= strcmp(a->examples[k], b->examples[e]) == 0;
-            if (!dup) memcpy(a->examples[a->n_examples++], b->examples[e], SUMMARY_EXAMPLE_BYTES + 1);
         }
     }
     if (map)

@@ -3,6 +3,7 @@
  * helpers.  The merge is in merge.c, the file format in format.c
  * (docs/summary-format.md).
  */
+#include "summary/column.h"
 #include "summary/summary.h"
 
 #include <math.h>
@@ -44,35 +45,6 @@ int summary_options_copy(summary_options *dst, const summary_options *src)
 }
 
 /* ---- accumulator set ---------------------------------------------------- */
-
-static int column_alloc(summary_column *c, const summary_options *o, int with_classes)
-{
-    moments_init(&c->mom);
-    c->vals = values_create(o->max_levels, o->label_bytes);
-    c->distinct = malloc(sizeof *c->distinct);
-    c->bins = buckets_create(o->bucket_budget);
-    if (!c->vals || !c->distinct || !c->bins) return -1;
-    hll_init(c->distinct);
-    if (o->target) {
-        c->cross = crosstab_create(o->max_levels);
-        if (!c->cross) return -1;
-    }
-    if (with_classes) {
-        c->cls = calloc(o->max_classes, sizeof *c->cls);
-        if (!c->cls) return -1;
-    }
-    return 0;
-}
-
-static void column_free(summary_column *c)
-{
-    free(c->name);
-    values_free(c->vals);
-    free(c->distinct);
-    buckets_free(c->bins);
-    crosstab_free(c->cross);
-    free(c->cls);
-}
 
 uint64_t summary_comoment_bytes(size_t ncomo)
 {
@@ -202,23 +174,15 @@ int summary_add_source(summary *s, const summary_source *src)
 int summary_seal(summary *s)
 {
     int rc = 0;
-    for (size_t i = 0; i < s->ncols; i++) {
-        summary_column *c = &s->cols[i];
-        buckets_seal(c->bins);
-        if (values_seal(c->vals) != 0) rc = -1;
-        if (c->cross && crosstab_seal(c->cross) != 0) rc = -1;
-    }
+    for (size_t i = 0; i < s->ncols; i++)
+        if (column_seal(&s->cols[i]) != 0) rc = -1;
     return rc;
 }
 
 int summary_sealed(const summary *s)
 {
-    for (size_t i = 0; i < s->ncols; i++) {
-        const summary_column *c = &s->cols[i];
-        if (!buckets_sealed(c->bins) || !values_sealed(c->vals) ||
-            (c->cross && !crosstab_sealed(c->cross)))
-            return 0;
-    }
+    for (size_t i = 0; i < s->ncols; i++)
+        if (!column_sealed(&s->cols[i])) return 0;
     return 1;
 }
 

@@ -1,0 +1,56 @@
+/* column: everything a summary keeps per column, in one place.
+ *
+ * A column's accumulators (counts, moments, examples, value table, sketch,
+ * bucket store, per-value table, per-class moments) are allocated, freed,
+ * written, read, merged and sealed here, each next to the others, so that
+ * adding an accumulator to a column touches this file for all of it (the
+ * scan feeds it in summary/block.c, readers reach it through
+ * summary/access.c).  Internal to the summary module: summary.c, format.c
+ * and merge.c call it for each column.
+ *
+ * Written layout of a column (the COLS section of docs/summary-format.md,
+ * in this order): missing, non_numeric, non_finite, zeros, integers (u64
+ * each), moments, n_examples (u32) and the examples, value table, sketch,
+ * bucket store, has_cross (u8) and the per-value table, has_cls (u8) and
+ * per class n (u64), mean, m2 (f64).
+ */
+#ifndef SHEAF_COLUMN_H
+#define SHEAF_COLUMN_H
+
+#include <stdint.h>
+
+#include "acc/wire.h"
+#include "summary/summary.h"
+
+/* Allocates a column's accumulators for the options (a per-value table with
+ * a target, per-class moments with classes).  0, or -1 when out of memory
+ * (column_free then frees what was made). */
+int column_alloc(summary_column *c, const summary_options *o, int with_classes);
+void column_free(summary_column *c);
+
+/* Appends the column in the written layout; nclasses is the summary's. */
+void column_write(const summary_column *c, uint32_t nclasses, wire_writer *w);
+/* Reads a column written by column_write into c (allocated by column_alloc
+ * for the same options).  0, or -1 on malformed or truncated input. */
+int column_read(summary_column *c, uint32_t nclasses, wire_reader *r);
+
+/* How the target cells and classes of `from` map into `into` for a merge. */
+typedef struct {
+    const uint32_t *map;   /* from's class k (1-based) -> into's, map[0] = 0; NULL: no classes */
+    uint32_t map_len;      /* entries of map */
+    int same_classes;      /* map is the identity */
+    uint32_t max_classes;  /* classes into may hold */
+    uint32_t from_classes; /* classes from holds */
+    double yshift;         /* from's target frame minus into's */
+} column_merge_map;
+
+/* a := a (+) b by each accumulator's rule.  0, or -1 when out of memory
+ * (a is then partly merged: the caller discards it). */
+int column_merge(summary_column *a, const summary_column *b, const column_merge_map *m);
+
+/* Builds the sort index of each accumulator (see "Sealing" in summary.h).
+ * 0, or -1 when out of memory. */
+int column_seal(summary_column *c);
+int column_sealed(const summary_column *c);
+
+#endif
