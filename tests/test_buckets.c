@@ -885,3 +885,34 @@ Test(buckets, add_many_equals_single_adds)
         buckets_free(many);
     }
 }
+
+Test(buckets, reads_of_an_unsealed_store_equal_sealed_reads_and_write_nothing)
+{
+    /* Reference: the same store sealed (sheaf's own code, sealed path). */
+    enum { N = 20000 };
+    double *x = normal_sample(N, 77, 3, 2);
+    uint32_t *cell = malloc(N * sizeof *cell);
+    for (size_t i = 0; i < N; i++) cell[i] = (uint32_t)(i % 3);
+    buckets *a = store_of(x, cell, NULL, N, 300), *b = store_of(x, cell, NULL, N, 300);
+    cr_assert_eq(buckets_add(a, 0.125, 1, 1), 0); /* a new entry: the index is stale */
+    cr_assert_eq(buckets_add(b, 0.125, 1, 1), 0);
+    cr_assert(!buckets_sealed(a));
+    buckets_seal(b);
+    cr_assert(buckets_sealed(b));
+    for (double p = 0; p <= 1; p += 0.05)
+        cr_expect_eq(buckets_quantile(a, p, NULL), buckets_quantile(b, p, NULL), "p %g", p);
+    cr_assert_eq(buckets_entries(a), buckets_entries(b));
+    for (size_t i = 0; i < buckets_entries(a); i += 7) {
+        buckets_entry ea = buckets_entry_at(a, i), eb = buckets_entry_at(b, i);
+        cr_expect(ea.key == eb.key && ea.cell == eb.cell && ea.count == eb.count, "entry %zu", i);
+    }
+    wire_writer wa = serialized(a), wb = serialized(b);
+    cr_expect(wa.len == wb.len && memcmp(wa.data, wb.data, wa.len) == 0);
+    cr_expect(!buckets_sealed(a), "a read built the index of a const store");
+    wire_writer_free(&wa);
+    wire_writer_free(&wb);
+    buckets_free(a);
+    buckets_free(b);
+    free(x);
+    free(cell);
+}

@@ -1056,3 +1056,31 @@ Test(crosstab, regression_cells_keep_value_by_target_counts)
     wire_writer_free(&w);
     crosstab_free(t);
 }
+
+Test(crosstab, reads_of_an_unsealed_table_equal_sealed_reads_and_write_nothing)
+{
+    /* Reference: the same table sealed (sheaf's own code, sealed path). */
+    crosstab *a = crosstab_create(40), *b = crosstab_create(40);
+    fill_values(a, 9, 3000, 60, 10.0);
+    fill_values(b, 9, 3000, 60, 10.0);
+    cr_assert(!crosstab_sealed(a));
+    cr_assert_eq(crosstab_seal(b), 0);
+    cr_assert(crosstab_sealed(b));
+    for (size_t i = 0; i < crosstab_entries(a); i++) {
+        crosstab_entry ea = crosstab_entry_at(a, i), eb = crosstab_entry_at(b, i);
+        cr_expect(ea.key == eb.key && ea.n == eb.n && ea.mean == eb.mean, "entry %zu", i);
+    }
+    expect_same_bytes(a, b);
+    /* A merge into a smaller table visits `from` in canonical order. */
+    crosstab *into = crosstab_create(10), *into_b = crosstab_create(10);
+    fill_values(into, 3, 50, 20, 10.0);
+    fill_values(into_b, 3, 50, 20, 10.0);
+    cr_assert_eq(crosstab_merge(into, a, NULL, 0, 0.0), 0);
+    cr_assert_eq(crosstab_merge(into_b, b, NULL, 0, 0.0), 0);
+    expect_same_bytes(into, into_b);
+    cr_expect(!crosstab_sealed(a), "a read built the index of a const table");
+    crosstab_free(a);
+    crosstab_free(b);
+    crosstab_free(into);
+    crosstab_free(into_b);
+}

@@ -593,3 +593,32 @@ Test(values, batched_adds_equal_single_adds_through_overflow)
     values_free(one);
     values_free(many);
 }
+
+Test(values, reads_of_an_unsealed_table_equal_sealed_reads_and_write_nothing)
+{
+    /* Reference: the same table sealed (sheaf's own code, sealed path). */
+    values *a = values_create(64, 16), *b = values_create(64, 16);
+    char buf[32];
+    for (unsigned i = 0; i < 200; i++) {
+        add_word(a, item(buf, sizeof buf, i * 7 % 90));
+        add_word(b, item(buf, sizeof buf, i * 7 % 90));
+    }
+    cr_assert(!values_sealed(a));
+    cr_assert_eq(values_seal(b), 0);
+    cr_assert(values_sealed(b));
+    for (uint32_t i = 0; i < values_levels(a); i++)
+        cr_expect_eq(values_entry_at(a, i).hash, values_entry_at(b, i).hash, "entry %u", i);
+    expect_same_bytes(a, b);
+    values *into = values_create(8, 16);
+    add_word(into, "seed");
+    cr_assert_eq(values_merge(into, a), 0); /* canonical visit of an unsealed `from` */
+    cr_expect(!values_sealed(a), "a read built the index of a const table");
+    values *into_b = values_create(8, 16);
+    add_word(into_b, "seed");
+    cr_assert_eq(values_merge(into_b, b), 0);
+    expect_same_bytes(into, into_b);
+    values_free(a);
+    values_free(b);
+    values_free(into);
+    values_free(into_b);
+}
