@@ -133,13 +133,23 @@ static void assert_store_equals(const buckets *b, const reference *r)
     cr_assert_eq(buckets_keys(b), reference_keys(r));
 }
 
-static buckets *store_of(const double *x, const uint32_t *cell, const uint64_t *count, size_t n,
-                         uint32_t budget)
+static buckets *unsealed_store_of(const double *x, const uint32_t *cell, const uint64_t *count,
+                                  size_t n, uint32_t budget)
 {
     buckets *b = buckets_create(budget);
     cr_assert_not_null(b);
     for (size_t i = 0; i < n; i++)
         cr_assert_eq(buckets_add(b, x[i], cell ? cell[i] : 0, count ? count[i] : 1), 0);
+    return b;
+}
+
+/* A store as a scan leaves it: sealed, so that entry walks read the index
+ * (unsealed, each buckets_entry_at sorts a temporary index of its own). */
+static buckets *store_of(const double *x, const uint32_t *cell, const uint64_t *count, size_t n,
+                         uint32_t budget)
+{
+    buckets *b = unsealed_store_of(x, cell, count, n, budget);
+    buckets_seal(b);
     return b;
 }
 
@@ -374,6 +384,7 @@ Test(buckets, collapse_preserves_cell_totals_and_respects_budget)
         if (i % 997 == 0) cr_assert_leq(buckets_keys(b), budget);
     }
     cr_assert_leq(buckets_keys(b), budget);
+    buckets_seal(b);
     uint64_t got[CELLS] = {0};
     for (size_t i = 0; i < buckets_entries(b); i++) {
         buckets_entry e = buckets_entry_at(b, i);
@@ -893,7 +904,8 @@ Test(buckets, reads_of_an_unsealed_store_equal_sealed_reads_and_write_nothing)
     double *x = normal_sample(N, 77, 3, 2);
     uint32_t *cell = malloc(N * sizeof *cell);
     for (size_t i = 0; i < N; i++) cell[i] = (uint32_t)(i % 3);
-    buckets *a = store_of(x, cell, NULL, N, 300), *b = store_of(x, cell, NULL, N, 300);
+    buckets *a = unsealed_store_of(x, cell, NULL, N, 300);
+    buckets *b = unsealed_store_of(x, cell, NULL, N, 300);
     cr_assert_eq(buckets_add(a, 0.125, 1, 1), 0); /* a new entry: the index is stale */
     cr_assert_eq(buckets_add(b, 0.125, 1, 1), 0);
     cr_assert(!buckets_sealed(a));
