@@ -53,16 +53,12 @@
  */
 #include "acc/buckets.h"
 
-#include <float.h>
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
 
-#define SIGN_BIT 0x8000000000000000ull
-#define MAG_MASK 0x7FFFFFFFFFFFFFFFull
-#define EXP_ALL_ONES 0x7FF0000000000000ull /* inf; NaN above */
-#define INDEX_SHIFT (52 - BUCKETS_MANTISSA_BITS)
-#define LAST_INDEX 0x3FF7Full /* (0x7FE << 7) | 0x7F: largest finite u >> 45 */
+#include "acc/buckets_key.h"
+
 #define FIB_MULT 0x9E3779B97F4A7C15ull
 #define MIN_CAP 16
 #define NO_ID 0x80000000ull /* key INT32_MIN, never produced */
@@ -101,104 +97,6 @@ struct buckets {
     uint64_t last_id;   /* id of the last slot hit, NO_ID if none */
     size_t last_pos;    /* its position */
 };
-
-/* ---- keys and bounds ---------------------------------------------------- */
-
-static inline uint64_t double_bits(double x)
-{
-    uint64_t u;
-    memcpy(&u, &x, sizeof u);
-    return u;
-}
-
-static inline double bits_double(uint64_t u)
-{
-    double x;
-    memcpy(&x, &u, sizeof x);
-    return x;
-}
-
-static inline int64_t key_of_bits(uint64_t u, int level)
-{
-    uint64_t mag = u & MAG_MASK;
-    int64_t m = (int64_t)((mag >> (INDEX_SHIFT + level)) + (mag != 0));
-    int64_t neg = -(int64_t)(u >> 63);
-    return (m ^ neg) - neg;
-}
-
-static inline int clamp_level(int level)
-{
-    return level < 0 ? 0 : level > BUCKETS_MAX_LEVEL ? BUCKETS_MAX_LEVEL : level;
-}
-
-/* Largest magnitude of a finite value at a level. */
-static inline int64_t max_magnitude(int level)
-{
-    return (int64_t)(LAST_INDEX >> level) + 1;
-}
-
-/* Key after collapsing `steps` more levels. */
-static inline int64_t rekey(int64_t key, int steps)
-{
-    if (key == 0 || steps == 0) return key;
-    if (key > 0) return ((key - 1) >> steps) + 1;
-    return -(((-key - 1) >> steps) + 1);
-}
-
-int64_t buckets_key(double x) { return key_of_bits(double_bits(x), 0); }
-
-int64_t buckets_key_at(int64_t key0, int level) { return rekey(key0, clamp_level(level)); }
-
-/* Bounds of a positive magnitude m at level. */
-static void magnitude_bounds(int64_t m, int level, double *lo, double *hi)
-{
-    int64_t top = max_magnitude(level);
-    if (m > top) m = top;
-    uint64_t first = (uint64_t)(m - 1) << level;
-    uint64_t last = first + ((uint64_t)1 << level) - 1;
-    if (last > LAST_INDEX) last = LAST_INDEX;
-    uint64_t lo_bits = first << INDEX_SHIFT;
-    if (lo_bits == 0) lo_bits = 1; /* 0 itself is key 0 */
-    *lo = bits_double(lo_bits);
-    *hi = bits_double(((last + 1) << INDEX_SHIFT) - 1);
-}
-
-void buckets_bounds(int64_t key, int level, double *lo, double *hi)
-{
-    level = clamp_level(level);
-    if (key == 0) { *lo = *hi = 0.0; return; }
-    if (key > 0) { magnitude_bounds(key, level, lo, hi); return; }
-    double plo, phi;
-    /* -key would overflow only for INT64_MIN, which clamps anyway */
-    magnitude_bounds(key == INT64_MIN ? INT64_MAX : -key, level, &plo, &phi);
-    *lo = -phi;
-    *hi = -plo;
-}
-
-double buckets_point(int64_t key, int level)
-{
-    if (key == 0) return 0.0;
-    double lo, hi;
-    magnitude_bounds(key > 0 ? key : key == INT64_MIN ? INT64_MAX : -key, clamp_level(level), &lo, &hi);
-    /* 2 lo hi / (lo + hi) without overflow near DBL_MAX or underflow of 1/lo */
-    double m = lo * (2.0 / (1.0 + lo / hi));
-    return key > 0 ? m : -m;
-}
-
-double buckets_relative_error(int level)
-{
-    level = clamp_level(level);
-    double rel;
-    if (level <= BUCKETS_MANTISSA_BITS) {
-        double w = ldexp(1.0, level - BUCKETS_MANTISSA_BITS);
-        rel = w / (2.0 + w);
-    } else {
-        double r = ldexp(1.0, 1 << (level - BUCKETS_MANTISSA_BITS)); /* inf from level 17 */
-        rel = 1.0 - 2.0 / (r + 1.0);
-    }
-    rel += 4 * DBL_EPSILON;
-    return rel > 1.0 ? 1.0 : rel;
-}
 
 /* ---- tables ------------------------------------------------------------- */
 
