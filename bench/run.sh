@@ -92,7 +92,9 @@ print("Instructions (callgrind, deterministic) for a scan of the table's first 1
       % (ir / 1e6))
 print("(%.1f per byte, fixed costs such as start-up and the final sorts included), %.2f million"
       % (ir / 1e7, bm / 1e6))
-print("simulated branch misses.\n")
+print("simulated branch misses. For reference: 676 million before the engine was reshaped")
+print("(one record reader, the fed scan, summary accessors; 2026-12-02), which a change to the")
+print("scan should stay within 2% of, or explain.\n")
 PY
 }
 
