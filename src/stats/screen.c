@@ -266,10 +266,8 @@ static size_t level_groups(const summary *s, const crosstab *x, level_moments *o
             continue;
         }
         level_moments *a = &out[m - 1];
-        double na = a->n, tot = na + nb, d = mb - a->mean;
-        a->mean += d * nb / tot;
-        a->m2 += m2b + d * d * na * nb / tot;
-        a->n = tot;
+        moments_pair_merge(a->n, &a->mean, &a->m2, nb, mb, m2b);
+        a->n += nb;
     }
     return m;
 }
