@@ -70,6 +70,8 @@ void reader_start(reader *r, const char *name, int at_file_start, char delim, ui
     if (r->delim && !at_file_start) chunker_set_dialect(r->ck, r->delim, 0);
 }
 
+void reader_set_stop(reader *r, uint64_t stop_at) { r->stop_at = stop_at; }
+
 size_t reader_feed(reader *r, const void *data, size_t len)
 {
     if (!len) return 0;
@@ -183,6 +185,7 @@ reader_status reader_next(reader *r, reader_record *rec)
                  r->o.max_record_bytes);
         return READER_ERROR;
     }
+    rec->end = r->ch.offset + (uint64_t)(r->tok.pos - r->ch.data);
     rec->fields = r->fields.fields;
     rec->nfields = r->fields.nfields;
     rec->text = r->tok.record_start;

@@ -44,6 +44,7 @@ typedef struct {
     size_t nfields;          /* how many */
     uint64_t line;           /* 1-based line where the record begins, from the stream start */
     uint64_t offset;         /* stream offset of the record's first byte */
+    uint64_t end;            /* stream offset just after it (its line end included) */
     const char *text;        /* the record's first byte */
     const char *eol;         /* raw mode: the record's line end ("\n", "\r\n", or empty) */
     size_t eol_len;          /* its length */
@@ -69,6 +70,9 @@ void reader_free(reader *r);
  * choice.  stop_at: records that start at or after this stream offset are
  * left to someone else (0: none). */
 void reader_start(reader *r, const char *name, int at_file_start, char delim, uint64_t stop_at);
+
+/* Sets the stop offset from now on (0: none), for records not yet read. */
+void reader_set_stop(reader *r, uint64_t stop_at);
 
 /* Feeding: copies up to len bytes; returns how many were taken (0 means the
  * buffer is full: call reader_next first), or (size_t)-1 on an error. */

@@ -51,6 +51,8 @@ struct scan_context {
     int open;              /* a stream is open */
     int at_first;          /* its first record is still to come */
     int header_only;       /* read only the first record (a shard's header) */
+    uint64_t stop_at;      /* the stop offset to set after the first record (0: none) */
+    uint64_t first_end;    /* offset just after the first record of the last file begun at 0 */
     int done;              /* it needs no more bytes */
     uint64_t rows;         /* its data rows */
     XXH3_state_t *fed_hash; /* fingerprint of fed bytes */
@@ -279,6 +281,8 @@ static scan_status record(scan_context *sc, const reader_record *rec)
         scan_status st = first_record(sc, fields, nf, &is_header);
         if (st != SCAN_OK) return st;
         sc->at_first = 0;
+        if (sc->stop_at) reader_set_stop(sc->rd, sc->stop_at);
+        sc->first_end = rec->end;
         if (sc->header_only) { sc->done = 1; return SCAN_OK; }
         if (is_header) return SCAN_OK;
     }
@@ -334,7 +338,11 @@ static scan_status begin(scan_context *sc, const char *name, uint64_t from, uint
     if (from) snprintf(sc->shown, sizeof sc->shown, "%s (shard; lines counted from byte %llu)",
                        name, (unsigned long long)from);
     else snprintf(sc->shown, sizeof sc->shown, "%s", name);
-    reader_start(sc->rd, sc->shown, from == 0, sc->delim, stop_at);
+    /* The first record of a file is this stream's even when it starts past
+     * the range end (a byte-order mark before a tiny first range): the stop
+     * applies from the second record on. */
+    reader_start(sc->rd, sc->shown, from == 0, sc->delim, from == 0 ? 0 : stop_at);
+    sc->stop_at = from == 0 ? stop_at : 0;
     sc->open = 1;
     sc->at_first = from == 0;
     sc->done = 0;
@@ -520,6 +528,9 @@ static scan_status scan_shard(scan_context *sc, const char *path)
         if (hs != SCAN_OK) return hs;
         if (chunk_find_record_start(path, lo, sc->delim, &first, sc->err, sizeof sc->err) != 0)
             return fail(sc, SCAN_ERR_INPUT, NULL);
+        /* The first record (after any blank lines) is the first shard's, even
+         * when this range starts before its end. */
+        if (first < sc->first_end) first = sc->first_end;
     }
     if (first >= hi && lo > 0) {
         /* No record starts in this range: an empty shard. */
