@@ -83,19 +83,29 @@ static char *summary_bytes(summary *s, size_t *len)
     return d;
 }
 
-Test(scan, feeding_in_any_split_equals_scanning_the_file)
+/* A table of `rows` rows written to path (*table, *len: its bytes) and the
+ * bytes of its summary scanned as a file (the reference). */
+static char *file_summary(size_t rows, const char *path, char **table, size_t *len,
+                          size_t *want_len)
 {
-    size_t len;
-    char *table = make_table(3000, &len);
-    const char *path = "/tmp/sheaf_test_scan.csv";
-    write_file(path, table, len);
+    *table = make_table(rows, len);
+    write_file(path, *table, *len);
     scan_options o;
     options(&o);
     summary *s;
     char err[512];
     cr_assert_eq(scan_files(&o, &path, 1, &s, err, sizeof err), SCAN_OK, "%s", err);
-    size_t want_len;
-    char *want = summary_bytes(s, &want_len);
+    return summary_bytes(s, want_len);
+}
+
+Test(scan, feeding_in_any_split_equals_scanning_the_file)
+{
+    const char *path = "/tmp/sheaf_test_scan.csv";
+    char *table;
+    size_t len, want_len;
+    char *want = file_summary(3000, path, &table, &len, &want_len);
+    scan_options o;
+    options(&o);
     size_t steps[] = {1, 7, 64, 999, 1000, 1001, 65536, len};
     for (size_t k = 0; k < sizeof steps / sizeof *steps; k++) {
         scan_context *sc = scan_create(&o);
@@ -127,17 +137,13 @@ Test(scan, feeding_in_any_split_equals_scanning_the_file)
 
 Test(scan, a_source_the_caller_opened_equals_the_path)
 {
-    size_t len;
-    char *table = make_table(500, &len);
     const char *path = "/tmp/sheaf_test_scan2.csv";
-    write_file(path, table, len);
+    char *table;
+    size_t len, want_len, got_len;
+    char *want = file_summary(500, path, &table, &len, &want_len);
     scan_options o;
     options(&o);
-    summary *s;
     char err[512];
-    cr_assert_eq(scan_files(&o, &path, 1, &s, err, sizeof err), SCAN_OK, "%s", err);
-    size_t want_len, got_len;
-    char *want = summary_bytes(s, &want_len);
     scan_context *sc = scan_create(&o);
     source *src = source_open(path, err, sizeof err);
     cr_assert_not_null(src, "%s", err);
