@@ -96,7 +96,7 @@ static trim_status record(trimmer *t, const char *path, const reader_record *rec
         memcpy(t->header, rec->text, hl);
         t->header_len = hl;
         size_t bom = reader_bom_length(t->rd);
-        if (bom && sink_write(t->out, rec->text - rec->offset, bom) != 0) return write_fail(t);
+        if (bom && sink_write(t->out, "\xEF\xBB\xBF", bom) != 0) return write_fail(t);
     }
     if (first && !t->started) {
         trim_status st = choose(t, path, rec);
