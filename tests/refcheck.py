@@ -99,3 +99,27 @@ def corr_differences(ca, cb, why, rows=False):
             if not fclose(v, cb["matrix"][i][j], 1.0):
                 why.append("r[%s,%s] %r vs %r" % (ca["columns"][i], ca["columns"][j], v,
                                                   cb["matrix"][i][j]))
+
+
+def tree_differences(a, b, rel, path=""):
+    """Where two JSON trees differ: integers, strings and the shape exactly,
+    floats to `rel` relative (absolute below 1).  One line per difference."""
+    num = (int, float)
+    if (isinstance(a, num) and isinstance(b, num)
+            and not isinstance(a, bool) and not isinstance(b, bool)):
+        if isinstance(a, int) and isinstance(b, int):
+            return [] if a == b else ["%s: %r vs %r" % (path, a, b)]
+        return ([] if abs(a - b) <= rel * max(abs(a), abs(b), 1.0)
+                else ["%s: %r vs %r" % (path, a, b)])
+    if type(a) != type(b):
+        return ["%s: %r vs %r" % (path, a, b)]
+    if isinstance(a, dict):
+        if set(a) != set(b):
+            return [path + " keys %s" % sorted(set(a) ^ set(b))]
+        return [d for k in a for d in tree_differences(a[k], b[k], rel, path + "." + k)]
+    if isinstance(a, list):
+        if len(a) != len(b):
+            return ["%s length %d vs %d" % (path, len(a), len(b))]
+        return [d for i in range(len(a))
+                for d in tree_differences(a[i], b[i], rel, "%s[%d]" % (path, i))]
+    return [] if a == b else ["%s: %r vs %r" % (path, a, b)]

@@ -29,6 +29,8 @@ cli_setup shard python || exit 0
 # keeps the first values it met, which depends on the grouping of the rows.
 cat >"$T/cmp.py" <<'EOF'
 import json, subprocess, sys
+sys.path.insert(0, "tests")
+from refcheck import tree_differences
 
 def info(p):
     r = subprocess.run(["./sheaf", "info", "--json", "--top", "1000", p],
@@ -52,26 +54,8 @@ def norm(d, ignore):
             c["by_class"] = sorted(c["by_class"], key=lambda e: e["class"])
     return d
 
-def cmp(a, b, path):
-    if isinstance(a, bool) or isinstance(b, bool) or not (
-            isinstance(a, (int, float)) and isinstance(b, (int, float))):
-        if type(a) != type(b):
-            return ["%s: %r vs %r" % (path, a, b)]
-        if isinstance(a, dict):
-            if set(a) != set(b):
-                return [path + " keys %s" % sorted(set(a) ^ set(b))]
-            return [p for k in a for p in cmp(a[k], b[k], path + "." + k)]
-        if isinstance(a, list):
-            if len(a) != len(b):
-                return ["%s length %d vs %d" % (path, len(a), len(b))]
-            return [p for i in range(len(a)) for p in cmp(a[i], b[i], "%s[%d]" % (path, i))]
-        return [] if a == b else ["%s: %r vs %r" % (path, a, b)]
-    if isinstance(a, int) and isinstance(b, int):
-        return [] if a == b else ["%s: %r vs %r" % (path, a, b)]
-    return [] if abs(a - b) <= 1e-12 * max(abs(a), abs(b), 1.0) else ["%s: %r vs %r" % (path, a, b)]
-
 ignore = {"sources"} | set(sys.argv[3:])
-d = cmp(norm(info(sys.argv[1]), ignore), norm(info(sys.argv[2]), ignore), "")
+d = tree_differences(norm(info(sys.argv[1]), ignore), norm(info(sys.argv[2]), ignore), 1e-12)
 print("; ".join(d[:4]))
 EOF
 # same_summary NAME A B [IGNORED_KEY...]

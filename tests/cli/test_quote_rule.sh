@@ -43,6 +43,8 @@ gen() {
 # top-value lists as count-ordered sets, and only for exact value tables.
 cat >"$T/cmp.py" <<'EOF'
 import json, sys
+sys.path.insert(0, "tests")
+from refcheck import tree_differences
 
 def info(p):
     try:
@@ -57,25 +59,7 @@ def info(p):
             c.pop("top", None)
     return d
 
-def cmp(a, b, path):
-    num = (int, float)
-    if isinstance(a, num) and isinstance(b, num) and not isinstance(a, bool) and not isinstance(b, bool):
-        if isinstance(a, int) and isinstance(b, int):
-            return [] if a == b else ["%s: %r vs %r" % (path, a, b)]
-        return [] if abs(a - b) <= 1e-9 * max(abs(a), abs(b), 1.0) else ["%s: %r vs %r" % (path, a, b)]
-    if type(a) != type(b):
-        return ["%s: %r vs %r" % (path, a, b)]
-    if isinstance(a, dict):
-        if set(a) != set(b):
-            return [path + " keys %s" % sorted(set(a) ^ set(b))]
-        return [p for k in a for p in cmp(a[k], b[k], path + "." + k)]
-    if isinstance(a, list):
-        if len(a) != len(b):
-            return ["%s length %d vs %d" % (path, len(a), len(b))]
-        return [p for i in range(len(a)) for p in cmp(a[i], b[i], "%s[%d]" % (path, i))]
-    return [] if a == b else ["%s: %r vs %r" % (path, a, b)]
-
-print("; ".join(cmp(info(sys.argv[1]), info(sys.argv[2]), "")[:4]))
+print("; ".join(tree_differences(info(sys.argv[1]), info(sys.argv[2]), 1e-9)[:4]))
 EOF
 # info_json SUMMARY: its `info --json --top 20`, written once to SUMMARY.json.
 info_json() {
