@@ -77,11 +77,11 @@ int cmd_project(int argc, char **argv)
     sink *out = NULL;
     if (npos == 0) { cli_error("project", "no data files (see sheaf project --help)"); goto done; }
     if (!pca_path) { cli_error("project", "--pca FILE.sheaf is required"); goto done; }
-    if (delim_s && cli_parse_delim(delim_s, &po.delim) != 0) {
+    if (delim_s && cli_parse_delim(delim_s, &po.read.delim) != 0) {
         cli_error("project", "--delim must be one character or 'tab', got '%s'", delim_s);
         goto done;
     }
-    if (cli_parse_reading("project", chunk, maxrec, &po.chunk_bytes, &po.max_record_bytes)) goto done;
+    if (cli_parse_reading("project", chunk, maxrec, &po.read.chunk_bytes, &po.read.max_record_bytes)) goto done;
     if (carry_s) {
         carry_buf = strdup(carry_s);
         carry = calloc(strlen(carry_s) / 2 + 2, sizeof *carry);

@@ -119,7 +119,7 @@ int cmd_trim(int argc, char **argv)
     trim_options to;
     trim_options_defaults(&to);
     to.header = !no_header;
-    if (cli_parse_reading("trim", chunk, maxrec, &to.chunk_bytes, &to.max_record_bytes)) goto done;
+    if (cli_parse_reading("trim", chunk, maxrec, &to.read.chunk_bytes, &to.read.max_record_bytes)) goto done;
     if (q && cli_parse_unit("trim", "--q", q, &so.q_level)) goto done;
     if (top) {
         long long v = cli_parse_count(top);
@@ -149,7 +149,7 @@ int cmd_trim(int argc, char **argv)
     if (!out) { cli_error("trim", "%s", err); rc = EXIT_FAILED; goto done; }
     to.keep = keep.names;
     to.nkeep = keep.n;
-    to.delim = delim;
+    to.read.delim = delim;
     trim_status ts = trim_files(&to, (const char *const *)pos, npos, out, err, sizeof err);
     if (ts != TRIM_OK) {
         cli_error("trim", "%s", err);

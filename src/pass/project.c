@@ -116,7 +116,6 @@ typedef struct {
     const pca_result *r;
     size_t k;
     int header;                /* files start with a header */
-    char delim_opt;            /* the delimiter, 0 = detect */
     char *const *carry;        /* carried column names */
     size_t ncarry;
     size_t *field_of;          /* p: field index of each basis column in this file */
@@ -244,7 +243,7 @@ static int project_file(projector *pj, const char *path)
 {
     source *src = source_open(path, pj->err, pj->errlen);
     if (!src) return PROJECT_ERR_INPUT;
-    reader_start(pj->rd, path, 1, pj->delim_opt, 0);
+    reader_start(pj->rd, path, 1, 0, 0); /* the option's delimiter, or detect */
     int rc = 0, at_first = 1;
     while (!rc) {
         reader_record rec;
@@ -284,8 +283,7 @@ void project_options_defaults(project_options *o)
 {
     memset(o, 0, sizeof *o);
     o->header = 1;
-    o->chunk_bytes = 4u << 20;
-    o->max_record_bytes = 64u << 20;
+    reader_options_defaults(&o->read);
 }
 
 /* The header row: carried names, then PC1..PCk. */
@@ -316,7 +314,6 @@ project_status project_files(const summary *s, const pca_result *r, size_t k,
     pj.r = r;
     pj.k = k;
     pj.header = o->header;
-    pj.delim_opt = o->delim;
     pj.carry = o->carry;
     pj.ncarry = o->ncarry;
     pj.out = out;
@@ -327,11 +324,8 @@ project_status project_files(const summary *s, const pca_result *r, size_t k,
     for (uint32_t i = 0; i < nmissing && i < READER_MAX_MISSING; i++)
         spelling[i] = summary_missing_spelling(s, i);
     reader_missing_init(&pj.missing, spelling, nmissing);
-    reader_options ro;
-    reader_options_defaults(&ro);
-    ro.delim = o->delim;
-    ro.chunk_bytes = o->chunk_bytes;
-    ro.max_record_bytes = o->max_record_bytes;
+    reader_options ro = o->read;
+    ro.raw = 0;
     pj.field_of = malloc((r->p + 1) * sizeof *pj.field_of);
     pj.carry_field = malloc((pj.ncarry + 1) * sizeof *pj.carry_field);
     pj.x = malloc(BLOCK_ROWS * (r->p + 1) * sizeof *pj.x);

@@ -14,6 +14,7 @@
 
 #include <stddef.h>
 
+#include "io/reader.h"
 #include "out/sink.h"
 #include "stats/pca.h"
 #include "summary/summary.h"
@@ -21,10 +22,9 @@
 typedef struct {
     char *const *carry;      /* columns copied in front of the scores (IDs, the target) */
     size_t ncarry;           /* how many */
-    char delim;              /* field delimiter, 0 = detect at each file's start */
     int header;              /* files start with a header */
-    size_t chunk_bytes;      /* as for the scan */
-    size_t max_record_bytes; /* longest record accepted */
+    reader_options read;     /* delimiter (0: detect at each file's start), chunk and
+                                record sizes */
 } project_options;
 
 typedef enum {

@@ -29,8 +29,7 @@ void trim_options_defaults(trim_options *o)
 {
     memset(o, 0, sizeof *o);
     o->header = 1;
-    o->chunk_bytes = 4u << 20;
-    o->max_record_bytes = 64u << 20;
+    reader_options_defaults(&o->read);
 }
 
 /* The first record of the first file: which fields are kept. */
@@ -132,7 +131,7 @@ static trim_status trim_file(trimmer *t, const char *path)
 {
     source *src = source_open(path, t->err, t->errlen);
     if (!src) return TRIM_ERR_INPUT;
-    reader_start(t->rd, path, 1, t->started ? t->delim : t->o->delim, 0);
+    reader_start(t->rd, path, 1, t->started ? t->delim : 0, 0);
     trim_status st = TRIM_OK;
     int first = 1;
     for (;;) {
@@ -166,11 +165,7 @@ trim_status trim_files(const trim_options *o, const char *const *paths, size_t n
     t.out = out;
     t.err = err;
     t.errlen = errlen;
-    reader_options ro;
-    reader_options_defaults(&ro);
-    ro.delim = o->delim;
-    ro.chunk_bytes = o->chunk_bytes;
-    ro.max_record_bytes = o->max_record_bytes;
+    reader_options ro = o->read;
     ro.raw = 1;
     t.rd = reader_create(&ro);
     trim_status st = TRIM_OK;

@@ -13,15 +13,15 @@
 
 #include <stddef.h>
 
+#include "io/reader.h"
 #include "out/sink.h"
 
 typedef struct {
     char *const *keep;       /* names of the columns to keep */
     size_t nkeep;            /* how many */
-    char delim;              /* field delimiter, 0 = detect in the first file */
     int header;              /* files start with a header */
-    size_t chunk_bytes;      /* as for the scan */
-    size_t max_record_bytes; /* longest record accepted */
+    reader_options read;     /* delimiter (0: detect in the first file), chunk and record
+                                sizes; `raw` is set by trim */
 } trim_options;
 
 typedef enum {
