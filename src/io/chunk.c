@@ -169,7 +169,7 @@ int chunker_next(chunker *c, chunk *out, char *err, size_t errlen)
         }
         int final = c->ended && upto == held;
         /* The open record (from the last record end) must fit the limit. */
-        if (upto - c->best > c->max_record && !(final && c->best == held)) {
+        if (upto - c->best > c->max_record) {
             if (c->best > s) return emit(c, c->best, out);
             return too_long(c, c->best, err, errlen);
         }
