@@ -14,9 +14,8 @@ _Static_assert(CHUNK_PADDING >= CSV_READ_AHEAD, "chunks must be readable past th
 struct reader {
     reader_options o;     /* options */
     chunker *ck;          /* cuts the stream */
-    csv_reader tok;       /* the tokenizer over the current chunk */
-    csv_record fields;    /* the current record's fields */
-    chunk ch;             /* the current chunk */
+    reader_cursor cur;    /* the records of the current chunk */
+    reader_chunk ch;      /* the current chunk */
     int in_chunk;         /* ch is being tokenized */
     const char *name;     /* the stream's name */
     int at_file_start;    /* skip a BOM, detect the delimiter */
@@ -44,6 +43,7 @@ reader *reader_create(const reader_options *o)
     r->o = *o;
     r->ck = chunker_create(o->chunk_bytes, o->max_record_bytes);
     if (!r->ck) { free(r); return NULL; }
+    reader_cursor_init(&r->cur, &r->o);
     return r;
 }
 
@@ -51,7 +51,7 @@ void reader_free(reader *r)
 {
     if (!r) return;
     chunker_free(r->ck);
-    csv_record_free(&r->fields);
+    reader_cursor_free(&r->cur);
     free(r);
 }
 
@@ -70,7 +70,11 @@ void reader_start(reader *r, const char *name, int at_file_start, char delim, ui
     if (r->delim && !at_file_start) chunker_set_dialect(r->ck, r->delim, 0);
 }
 
-void reader_set_stop(reader *r, uint64_t stop_at) { r->stop_at = stop_at; }
+void reader_set_stop(reader *r, uint64_t stop_at)
+{
+    r->stop_at = stop_at;
+    r->cur.stop_at = stop_at;
+}
 
 size_t reader_feed(reader *r, const void *data, size_t len)
 {
@@ -116,80 +120,155 @@ static int dialect(reader *r)
     return 0;
 }
 
-/* The first record start at or after stop_at among the chunk bytes
- * [from, to), which hold only blank lines: `from` and each position after a
- * '\n'; the offset of `to` when none is.  A shard's range ends at the same
- * record start (blank lines included) as the next shard's begins
- * (chunk_find_record_start), so no byte is counted twice. */
-static uint64_t first_start(const reader *r, const char *from, const char *to)
+reader_status reader_next_chunk(reader *r, reader_chunk *out)
 {
-    uint64_t base = r->ch.offset; /* the offset of ch.data */
-    for (const char *p = from; p < to; p++)
-        if ((p == from || p[-1] == '\n') && base + (uint64_t)(p - r->ch.data) >= r->stop_at)
-            return base + (uint64_t)(p - r->ch.data);
-    return base + (uint64_t)(to - r->ch.data);
+    if (r->at_file_start && dialect(r)) return READER_WANT;
+    chunk ch;
+    int got = chunker_next(r->ck, &ch, r->err, sizeof r->err);
+    if (got < 0) return READER_ERROR;
+    if (got == 0) return chunker_done(r->ck) ? READER_END : READER_WANT;
+    out->data = ch.data;
+    out->len = ch.len;
+    out->offset = ch.offset;
+    out->skip = ch.offset == 0 ? r->bom : 0;
+    out->delim = r->delim;
+    return READER_CHUNK;
 }
 
 reader_status reader_next(reader *r, reader_record *rec)
 {
     if (r->stopped) return READER_END;
     if (!r->in_chunk) {
-        if (r->at_file_start && dialect(r)) return READER_WANT;
-        int got = chunker_next(r->ck, &r->ch, r->err, sizeof r->err);
-        if (got < 0) return READER_ERROR;
-        if (got == 0) return chunker_done(r->ck) ? READER_END : READER_WANT;
-        size_t skip = r->ch.offset == 0 ? r->bom : 0;
-        if (r->o.raw) csv_reader_init(&r->tok, r->ch.data + skip, r->ch.len - skip, r->delim);
-        else csv_reader_init_padded(&r->tok, r->ch.data + skip, r->ch.len - skip, r->delim);
+        reader_status st = reader_next_chunk(r, &r->ch);
+        if (st != READER_CHUNK) return st;
+        reader_cursor_start(&r->cur, &r->ch, r->stop_at, 0);
         r->in_chunk = 1;
     }
-    csv_status cs;
-    char *from = r->tok.pos; /* a record start: the previous record ended here */
-    if (r->o.raw) cs = csv_next_raw(&r->tok, &r->fields, &rec->eol, &rec->eol_len);
-    else cs = csv_next(&r->tok, &r->fields);
-    if (cs == CSV_END) {
+    reader_status st = reader_cursor_next(&r->cur, rec);
+    switch (st) {
+    case READER_RECORD: rec->line += r->lines_before; return st;
+    case READER_CHUNK_END:
         r->in_chunk = 0;
-        r->lines_before += r->tok.lines;
-        r->absorbed = r->ch.offset + r->ch.len;
-        if (r->stop_at) { /* blank lines that reach into the next shard's range */
-            uint64_t at = first_start(r, from, r->tok.end);
-            if (at < r->absorbed) { r->absorbed = at; r->stopped = 1; }
+        r->lines_before += r->cur.lines;
+        r->absorbed = r->cur.absorbed;
+        r->stopped = r->cur.stopped;
+        return st;
+    case READER_END:
+        r->stopped = 1;
+        r->absorbed = r->cur.absorbed;
+        return st;
+    default:
+        reader_cursor_message(&r->cur, r->name, r->lines_before, r->err, sizeof r->err);
+        return READER_ERROR;
+    }
+}
+
+/* ---- the cursor ---------------------------------------------------------- */
+
+void reader_cursor_init(reader_cursor *c, const reader_options *o)
+{
+    memset(c, 0, sizeof *c);
+    c->o = o;
+}
+
+void reader_cursor_free(reader_cursor *c) { csv_record_free(&c->fields); }
+
+void reader_cursor_start(reader_cursor *c, const reader_chunk *ch, uint64_t stop_at,
+                         int exempt_first)
+{
+    c->ch = *ch;
+    c->stop_at = stop_at;
+    c->exempt_first = exempt_first;
+    c->seen = 0;
+    c->lines = 0;
+    c->absorbed = ch->offset;
+    c->stopped = 0;
+    c->fault = READER_FAULT_NONE;
+    char *p = ch->data + ch->skip;
+    size_t n = ch->len - ch->skip;
+    if (c->o->raw) csv_reader_init(&c->tok, p, n, ch->delim);
+    else csv_reader_init_padded(&c->tok, p, n, ch->delim);
+}
+
+/* The first record start at or after stop_at among the chunk bytes
+ * [from, to), which hold only blank lines: `from` and each position after a
+ * '\n'; the offset of `to` when none is.  A shard's range ends at the same
+ * record start (blank lines included) as the next shard's begins
+ * (chunk_find_record_start), so no byte is counted twice. */
+static uint64_t first_start(const reader_cursor *c, const char *from, const char *to)
+{
+    uint64_t base = c->ch.offset; /* the offset of ch.data */
+    for (const char *p = from; p < to; p++)
+        if ((p == from || p[-1] == '\n') && base + (uint64_t)(p - c->ch.data) >= c->stop_at)
+            return base + (uint64_t)(p - c->ch.data);
+    return base + (uint64_t)(to - c->ch.data);
+}
+
+static reader_status fault(reader_cursor *c, reader_fault f, const reader_record *rec)
+{
+    c->fault = f;
+    c->fault_line = rec->line;
+    c->fault_offset = rec->offset;
+    return READER_ERROR;
+}
+
+reader_status reader_cursor_next(reader_cursor *c, reader_record *rec)
+{
+    csv_status cs;
+    char *from = c->tok.pos; /* a record start: the previous record ended here */
+    if (c->o->raw) cs = csv_next_raw(&c->tok, &c->fields, &rec->eol, &rec->eol_len);
+    else cs = csv_next(&c->tok, &c->fields);
+    if (cs == CSV_END) {
+        c->lines = c->tok.lines;
+        c->absorbed = c->ch.offset + c->ch.len;
+        if (c->stop_at) { /* blank lines that reach into the next shard's range */
+            uint64_t at = first_start(c, from, c->tok.end);
+            if (at < c->absorbed) { c->absorbed = at; c->stopped = 1; }
         }
         return READER_CHUNK_END;
     }
-    rec->offset = r->ch.offset + (uint64_t)(r->tok.record_start - r->ch.data);
-    rec->line = r->lines_before + r->tok.record_line + 1;
-    if (r->stop_at && rec->offset >= r->stop_at) {
-        r->stopped = 1;
-        r->absorbed = first_start(r, from, r->tok.record_start);
+    rec->offset = c->ch.offset + (uint64_t)(c->tok.record_start - c->ch.data);
+    rec->line = c->tok.record_line + 1;
+    int first = c->seen++ == 0;
+    if (c->stop_at && rec->offset >= c->stop_at && !(first && c->exempt_first)) {
+        c->stopped = 1;
+        c->lines = c->tok.record_line;
+        c->absorbed = first_start(c, from, c->tok.record_start);
         return READER_END;
     }
-    if (cs == CSV_UNTERMINATED) {
-        snprintf(r->err, sizeof r->err,
-                 "%s: line %llu: unterminated quote (a quoted field runs to the end of the input)",
-                 r->name, (unsigned long long)rec->line);
-        return READER_ERROR;
-    }
-    if (cs == CSV_NOMEM) {
-        snprintf(r->err, sizeof r->err, "%s: line %llu: out of memory", r->name,
-                 (unsigned long long)rec->line);
-        return READER_ERROR;
-    }
-    if ((size_t)(r->tok.pos - r->tok.record_start) > r->o.max_record_bytes) {
+    if (cs == CSV_UNTERMINATED) return fault(c, READER_FAULT_UNTERMINATED, rec);
+    if (cs == CSV_NOMEM) return fault(c, READER_FAULT_NOMEM, rec);
+    if ((size_t)(c->tok.pos - c->tok.record_start) > c->o->max_record_bytes) {
         /* The chunker bounds records that span chunks; this bounds every one,
          * so the limit does not depend on where chunks end. */
-        snprintf(r->err, sizeof r->err,
+        return fault(c, READER_FAULT_TOO_LONG, rec);
+    }
+    rec->end = c->ch.offset + (uint64_t)(c->tok.pos - c->ch.data);
+    rec->fields = c->fields.fields;
+    rec->nfields = c->fields.nfields;
+    rec->text = c->tok.record_start;
+    return READER_RECORD;
+}
+
+void reader_cursor_message(const reader_cursor *c, const char *name, uint64_t lines_before,
+                           char *buf, size_t len)
+{
+    unsigned long long line = (unsigned long long)(lines_before + c->fault_line);
+    switch (c->fault) {
+    case READER_FAULT_UNTERMINATED:
+        snprintf(buf, len,
+                 "%s: line %llu: unterminated quote (a quoted field runs to the end of the input)",
+                 name, line);
+        break;
+    case READER_FAULT_NOMEM: snprintf(buf, len, "%s: line %llu: out of memory", name, line); break;
+    case READER_FAULT_TOO_LONG:
+        snprintf(buf, len,
                  "%s: line %llu: record at byte %llu is longer than the %zu-byte limit "
                  "(raise --max-record)",
-                 r->name, (unsigned long long)rec->line, (unsigned long long)rec->offset,
-                 r->o.max_record_bytes);
-        return READER_ERROR;
+                 name, line, (unsigned long long)c->fault_offset, c->o->max_record_bytes);
+        break;
+    default: snprintf(buf, len, "%s: no error", name);
     }
-    rec->end = r->ch.offset + (uint64_t)(r->tok.pos - r->ch.data);
-    rec->fields = r->fields.fields;
-    rec->nfields = r->fields.nfields;
-    rec->text = r->tok.record_start;
-    return READER_RECORD;
 }
 
 size_t reader_bom_length(const reader *r) { return r->bom; }

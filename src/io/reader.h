@@ -51,6 +51,7 @@ typedef struct {
 } reader_record;
 
 typedef enum {
+    READER_CHUNK = 4,     /* reader_next_chunk: *out holds a chunk */
     READER_RECORD = 1,    /* *rec holds a record */
     READER_CHUNK_END = 2, /* a chunk is done (a point where work may be flushed) */
     READER_WANT = 0,      /* every complete record is out: feed more, or finish */
@@ -87,6 +88,71 @@ void reader_finish(reader *r);
 /* The next record or event.  The fields of the records of a chunk stay
  * valid until the next reader_feed / reader_pull. */
 reader_status reader_next(reader *r, reader_record *rec);
+
+/* ---- chunks and cursors: the reader in two halves, for threads -----------
+ *
+ * reader_next is reader_next_chunk (bytes -> chunks of whole records, the
+ * byte-order mark and the delimiter) followed by a cursor over each chunk
+ * (chunk -> records, line numbers, the reading errors).  A pass that
+ * tokenizes chunks on other threads takes the chunks itself and runs a
+ * cursor per chunk there; line numbers are then counted from the chunk's
+ * first line, and the caller adds the lines of the chunks before it (known
+ * once those are tokenized) when it reports a record or an error. */
+
+typedef struct {
+    char *data;       /* the chunk's bytes, writable, CHUNK_PADDING readable bytes after */
+    size_t len;       /* bytes */
+    uint64_t offset;  /* stream offset of data[0] */
+    size_t skip;      /* bytes at data[0] that belong to no record (a byte-order mark) */
+    char delim;       /* the delimiter */
+} reader_chunk;
+
+/* The next chunk of the stream instead of its records: READER_CHUNK with *out
+ * filled (valid until the next feed or pull), READER_WANT, READER_END, or
+ * READER_ERROR.  Do not mix with reader_next on one stream. */
+reader_status reader_next_chunk(reader *r, reader_chunk *out);
+
+typedef enum {
+    READER_FAULT_NONE = 0,
+    READER_FAULT_UNTERMINATED, /* a quoted field runs to the end of the input */
+    READER_FAULT_NOMEM,        /* the field buffer could not grow */
+    READER_FAULT_TOO_LONG      /* a record over max_record_bytes */
+} reader_fault;
+
+/* Records of one chunk. */
+typedef struct {
+    const reader_options *o;  /* borrowed */
+    csv_reader tok;           /* the tokenizer */
+    csv_record fields;        /* the current record's fields (owned; grows) */
+    reader_chunk ch;          /* the chunk */
+    uint64_t stop_at;         /* records from here on are someone else's (0: none) */
+    int exempt_first;         /* the chunk's first record ignores stop_at */
+    int seen;                 /* records handed out */
+    /* After READER_CHUNK_END or READER_END: */
+    uint64_t lines;           /* lines in the chunk */
+    uint64_t absorbed;        /* stream offset after the last record absorbed */
+    int stopped;              /* reached stop_at: later chunks hold nothing of ours */
+    /* After READER_ERROR: */
+    reader_fault fault;       /* what went wrong */
+    uint64_t fault_line;      /* its line, counted from the chunk's first (1-based) */
+    uint64_t fault_offset;    /* the record's stream offset */
+} reader_cursor;
+
+/* A cursor for chunks read with the options o (borrowed).  Free its field
+ * buffer with reader_cursor_free. */
+void reader_cursor_init(reader_cursor *c, const reader_options *o);
+void reader_cursor_free(reader_cursor *c);
+/* Starts on a chunk (its bytes are unquoted in place unless o->raw). */
+void reader_cursor_start(reader_cursor *c, const reader_chunk *ch, uint64_t stop_at,
+                         int exempt_first);
+/* The next record (rec->line counted from the chunk's first line, 1-based),
+ * READER_CHUNK_END after the last one, READER_END at the stop offset, or
+ * READER_ERROR (fault, fault_line, fault_offset tell). */
+reader_status reader_cursor_next(reader_cursor *c, reader_record *rec);
+/* The one-line message of a cursor's fault, in a stream called name whose
+ * chunks before this one hold lines_before lines. */
+void reader_cursor_message(const reader_cursor *c, const char *name, uint64_t lines_before,
+                           char *buf, size_t len);
 
 const char *reader_error(const reader *r);
 /* The delimiter in use (0 before it is known). */
