@@ -8,6 +8,8 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <time.h>
+#include <unistd.h>
 
 /* Largest text file a command reads whole (keep lists). */
 #define KEEP_LIST_MAX_BYTES (64u << 20)
@@ -67,7 +69,12 @@ int cli_parse(const cli_command *cmd, int argc, char **argv, char ***pos, size_t
             o = find(cmd, a + 2, len, 0);
             if (eq) val = eq + 1;
         } else {
-            o = a[2] == '\0' ? find(cmd, NULL, 0, a[1]) : NULL;
+            o = find(cmd, NULL, 0, a[1]);
+            /* A short option's value may follow it directly: -j2, -ofile. */
+            if (o && a[2] != '\0') {
+                if (o->metavar) val = a + 2;
+                else o = NULL;
+            }
         }
         if (!o) {
             cli_error(cmd->name, "unknown option '%s' (see sheaf %s --help)", a, cmd->name);
@@ -196,4 +203,55 @@ int cli_parse_reading(const char *cmd, const char *chunk, const char *max_record
         *max_record_bytes = (size_t)v;
     }
     return 0;
+}
+
+int cli_parse_threads(const char *cmd, const char *text, unsigned *threads)
+{
+    if (!text) return 0;
+    long long v = cli_parse_count(text);
+    if (v < 1 || v > 1024) {
+        cli_error(cmd, "--threads must be a count from 1 to 1024, got '%s'", text);
+        return EXIT_USAGE;
+    }
+    *threads = (unsigned)v;
+    return 0;
+}
+
+static double seconds_now(void)
+{
+    struct timespec ts;
+    clock_gettime(CLOCK_MONOTONIC, &ts);
+    return (double)ts.tv_sec + ts.tv_nsec * 1e-9;
+}
+
+void cli_progress_start(cli_progress *p, const char *label, int quiet)
+{
+    p->label = label;
+    p->on = !quiet && isatty(STDERR_FILENO);
+    p->start = p->last = seconds_now();
+    p->shown = 0;
+}
+
+void cli_progress_update(void *ctx, uint64_t done, uint64_t total)
+{
+    cli_progress *p = ctx;
+    if (!p->on) return;
+    double t = seconds_now();
+    if (t - p->last < 0.25) return;
+    p->last = t;
+    double mb = done / 1e6, rate = mb / (t - p->start > 1e-9 ? t - p->start : 1e-9);
+    if (total) {
+        double left = rate > 0 ? (total / 1e6 - mb) / rate : 0;
+        fprintf(stderr, "\r%s: %.0f / %.0f MB (%.0f%%), %.0f MB/s, %.0f s left\033[K", p->label, mb,
+                total / 1e6, 100.0 * done / total, rate, left > 0 ? left : 0);
+    } else {
+        fprintf(stderr, "\r%s: %.0f MB, %.0f MB/s\033[K", p->label, mb, rate);
+    }
+    p->shown = 1;
+}
+
+void cli_progress_end(cli_progress *p)
+{
+    if (p->shown) fputs("\r\033[K", stderr);
+    p->shown = 0;
 }

@@ -77,6 +77,28 @@ int cli_parse_reading(const char *cmd, const char *chunk, const char *max_record
                       size_t *chunk_bytes, size_t *max_record_bytes);
 /* Parses a share or level in (0, 1] for option `opt`; prints a one-line
  * error and returns -1 when it is not one. */
+/* -j / --threads: a count from 1 to 1024 into *threads (NULL text: leaves
+ * the default, 0 = the CPUs this process may use).  0 or EXIT_USAGE. */
+int cli_parse_threads(const char *cmd, const char *text, unsigned *threads);
+/* The help line of -j, shared by every pass. */
+#define CLI_THREADS_HELP "worker threads (default: the CPUs this process may use; 1: no threads); " \
+    "each holds at most 2 chunks and their partial state at a time"
+
+/* The one progress line of a long pass on a terminal: bytes done of total (0:
+ * unknown), rate, time left; at most 4 times a second.  Nothing when stderr
+ * is not a terminal or quiet is set. */
+typedef struct {
+    const char *label;  /* the command */
+    int on;             /* printing */
+    double start, last; /* seconds */
+    int shown;          /* something is on the line */
+} cli_progress;
+void cli_progress_start(cli_progress *p, const char *label, int quiet);
+/* The callback the passes take (ctx: a cli_progress). */
+void cli_progress_update(void *ctx, uint64_t done, uint64_t total);
+/* Clears the line. */
+void cli_progress_end(cli_progress *p);
+
 int cli_parse_unit(const char *cmd, const char *opt, const char *s, double *out);
 /* Parses a non-negative integer; -1 if bad. */
 long long cli_parse_count(const char *s);

@@ -2,47 +2,16 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
-#include <time.h>
 #include <unistd.h>
 
 #include "cli/cli.h"
 #include "summary/scan.h"
 
-typedef struct {
-    double start;     /* seconds */
-    double last;      /* last print */
-    int shown;        /* something printed */
-} progress_state;
-
-static double now(void)
-{
-    struct timespec ts;
-    clock_gettime(CLOCK_MONOTONIC, &ts);
-    return (double)ts.tv_sec + ts.tv_nsec * 1e-9;
-}
-
-static void progress(void *ctx, uint64_t done, uint64_t total)
-{
-    progress_state *p = ctx;
-    double t = now();
-    if (t - p->last < 0.25) return;
-    p->last = t;
-    double mb = done / 1e6, rate = mb / (t - p->start > 1e-9 ? t - p->start : 1e-9);
-    if (total) {
-        double left = rate > 0 ? (total / 1e6 - mb) / rate : 0;
-        fprintf(stderr, "\rscan: %.0f / %.0f MB (%.0f%%), %.0f MB/s, %.0f s left   ", mb,
-                total / 1e6, 100.0 * done / total, rate, left > 0 ? left : 0);
-    } else {
-        fprintf(stderr, "\rscan: %.0f MB, %.0f MB/s   ", mb, rate);
-    }
-    p->shown = 1;
-}
-
 int cmd_scan(int argc, char **argv)
 {
     const char *out = NULL, *delim = NULL, *chunk = NULL, *maxrec = NULL, *missing = NULL;
     const char *levels = NULL, *budget = NULL, *target = NULL, *task = NULL, *classes = NULL;
-    const char *mem = NULL, *shard = NULL;
+    const char *mem = NULL, *shard = NULL, *threads = NULL;
     int no_header = 0, strict = 0, quiet = 0;
     scan_options o;
     scan_options_defaults(&o);
@@ -70,6 +39,7 @@ int cmd_scan(int argc, char **argv)
         {"max-record", 0, "SIZE", "longest record accepted (default 64 MiB)", &maxrec, NULL},
         {"shard", 0, "I/N", "read only the records that start in the I-th of N byte ranges "
          "(one plain file)", &shard, NULL},
+        {"threads", 'j', "N", CLI_THREADS_HELP, &threads, NULL},
         {"quiet", 'q', NULL, "no progress line", NULL, &quiet},
         {0},
     };
@@ -92,6 +62,7 @@ int cmd_scan(int argc, char **argv)
         goto done;
     }
     if (cli_parse_reading("scan", chunk, maxrec, &o.chunk_bytes, &o.max_record_bytes)) goto done;
+    if (cli_parse_threads("scan", threads, &o.threads)) goto done;
     if (levels) {
         if ((v = cli_parse_count(levels)) < 1 || v > (1 << 24)) {
             cli_error("scan", "--max-levels must be between 1 and 16777216, got '%s'", levels);
@@ -156,15 +127,14 @@ int cmd_scan(int argc, char **argv)
     if (target) o.opt.target = strdup(target);
     o.header = !no_header;
     o.strict = strict;
-    progress_state ps = {now(), now(), 0};
-    if (!quiet && isatty(STDERR_FILENO)) {
-        o.progress = progress;
-        o.progress_ctx = &ps;
-    }
+    cli_progress ps;
+    cli_progress_start(&ps, "scan", quiet);
+    o.progress = cli_progress_update;
+    o.progress_ctx = &ps;
     summary *s;
     char err[1024];
     scan_status st = scan_files(&o, (const char *const *)pos, npos, &s, err, sizeof err);
-    if (ps.shown) fputs("\r\033[K", stderr);
+    cli_progress_end(&ps);
     if (st != SCAN_OK) {
         cli_error("scan", "%s", err);
         rc = st == SCAN_ERR_USAGE ? EXIT_USAGE : st == SCAN_ERR_MEMORY ? EXIT_RESOURCE : EXIT_INPUT;

@@ -13,6 +13,7 @@ int block_init(block *b, summary *s, const int *field_of)
 {
     memset(b, 0, sizeof *b);
     b->s = s;
+    b->ncols = s->ncols;
     b->simd = number_simd_usable();
     size_t n = s->ncols, cells = (s->ncomo ? s->ncomo : 1) * SUMMARY_BLOCK_ROWS;
     b->como_x = malloc(cells * sizeof *b->como_x);
@@ -41,7 +42,7 @@ int block_init(block *b, summary *s, const int *field_of)
 void block_free(block *b)
 {
     if (b->lanes)
-        for (size_t j = 0; j < b->s->ncols; j++) {
+        for (size_t j = 0; j < b->ncols; j++) {
             block_lane *l = &b->lanes[j];
             free(l->hash); free(l->text); free(l->len); free(l->cell_row);
             free(l->dev); free(l->val); free(l->num_row);

@@ -42,7 +42,8 @@ typedef struct {
 } block_lane;
 
 typedef struct {
-    summary *s;            /* the summary fed */
+    summary *s;            /* the summary fed (another of the same schema may take its place) */
+    size_t ncols;          /* columns of the schema */
     block_lane *lanes;     /* one per column of s */
     size_t rows;           /* rows buffered */
     uint32_t row_cell[SUMMARY_BLOCK_ROWS];   /* bucket cell of each row */

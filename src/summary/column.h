@@ -50,6 +50,9 @@ int column_merge(summary_column *a, const summary_column *b, const column_merge_
 
 /* Builds the sort index of each accumulator (see "Sealing" in summary.h).
  * 0, or -1 when out of memory. */
+/* Empties c's accumulators, keeping their memory, as column_alloc left them
+ * (with_classes: max_classes per-class slots to clear). */
+void column_reset(summary_column *c, uint32_t max_classes);
 int column_seal(summary_column *c);
 int column_sealed(const summary_column *c);
 

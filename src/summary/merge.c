@@ -156,6 +156,14 @@ static summary_status out_of_memory(char *err, size_t errlen)
 
 summary_status summary_merge(summary *into, summary *from, char *err, size_t errlen)
 {
+    summary_status st = summary_fold(into, from, err, errlen);
+    if (st != SUMMARY_OK) return st;
+    if (summary_seal(into) != 0) return out_of_memory(err, errlen);
+    return SUMMARY_OK;
+}
+
+summary_status summary_fold(summary *into, summary *from, char *err, size_t errlen)
+{
     if (!summary_compatible(into, from, err, errlen)) return SUMMARY_ERR_INCOMPATIBLE;
     /* Classes: both kept, or neither (a side that dropped them wins). */
     if (into->has_classes != from->has_classes) {
@@ -230,7 +238,6 @@ summary_status summary_merge(summary *into, summary *from, char *err, size_t err
     for (size_t i = 0; i < from->nsources; i++)
         if (summary_add_source(into, &from->sources[i]) != 0)
             return out_of_memory(err, errlen);
-    if (summary_seal(into) != 0) return out_of_memory(err, errlen);
     return SUMMARY_OK;
 }
 

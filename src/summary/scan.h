@@ -52,6 +52,9 @@ typedef struct {
     uint64_t mem_limit_bytes; /* refuse when the co-moment matrix needs more (0: none) */
     uint32_t shard_index;     /* --shard I/N: I (1-based) */
     uint32_t shard_count;     /* N, 0 = the whole input */
+    unsigned threads;         /* worker threads; 0 = the CPUs this process may use, 1 = none
+                                 (everything on the calling thread); the summary is the same
+                                 for every count */
     /* Called after every chunk: raw bytes done and total (0 if unknown). */
     void (*progress)(void *ctx, uint64_t done_bytes, uint64_t total_bytes);
     void *progress_ctx;

@@ -1,0 +1,212 @@
+/* pipeline: see pipeline.h.
+ *
+ * Jobs live in a ring of slots indexed by seq % nslots.  Three counters,
+ * under one mutex, say where each job is:
+ *
+ *   committed <= taken <= pushed,   pushed - committed <= nslots
+ *
+ * jobs [committed, taken) are being worked or wait for their commit (done
+ * says which), [taken, pushed) wait for a worker.  A worker that finishes a
+ * job commits, in order, every job that is done from `committed` on, unless
+ * another thread is committing (it will see the job when it looks again).
+ */
+#include "io/pipeline.h"
+
+#include <pthread.h>
+#include <sched.h>
+#include <stdlib.h>
+#include <string.h>
+
+typedef struct {
+    pipeline_job job;
+    char *buf;       /* the slot's copy of its chunk (threads only) */
+    size_t cap;      /* its capacity */
+    int done;        /* work has run (or was skipped) */
+    int rc;          /* what work returned */
+} slot;
+
+struct pipeline {
+    pipeline_work_fn work;
+    pipeline_commit_fn commit;
+    void *ctx;
+    unsigned nslots;
+    slot *slots;
+    unsigned nthreads;   /* workers started */
+    pthread_t *threads;
+    pthread_mutex_t mu;
+    pthread_cond_t work_cv;  /* a job was pushed, or quit */
+    pthread_cond_t space_cv; /* a job was committed */
+    uint64_t pushed, taken, committed;
+    int committing;      /* a thread is in the commit loop */
+    int failed;          /* the first failure code, in push order */
+    int quit;            /* workers must stop */
+};
+
+unsigned pipeline_cpus(void)
+{
+    cpu_set_t set;
+    if (sched_getaffinity(0, sizeof set, &set) != 0) return 1;
+    int n = CPU_COUNT(&set);
+    return n > 0 ? (unsigned)n : 1;
+}
+
+/* Commits every done job from `committed` on.  Called with the lock held;
+ * returns with it held. */
+static void commit_ready(pipeline *p)
+{
+    if (p->committing) return;
+    p->committing = 1;
+    while (p->committed < p->taken) {
+        slot *s = &p->slots[p->committed % p->nslots];
+        if (!s->done) break;
+        int failed = p->failed;
+        pthread_mutex_unlock(&p->mu);
+        int rc = failed ? 0 : p->commit(p->ctx, (unsigned)(s->job.seq % p->nslots), &s->job, s->rc);
+        pthread_mutex_lock(&p->mu);
+        if (rc && !p->failed) p->failed = rc;
+        s->done = 0;
+        p->committed++;
+        pthread_cond_broadcast(&p->space_cv);
+    }
+    p->committing = 0;
+}
+
+static void *worker(void *arg)
+{
+    pipeline *p = arg;
+    pthread_mutex_lock(&p->mu);
+    for (;;) {
+        while (!p->quit && p->taken == p->pushed) pthread_cond_wait(&p->work_cv, &p->mu);
+        if (p->quit) break;
+        slot *s = &p->slots[p->taken % p->nslots];
+        p->taken++;
+        int failed = p->failed;
+        pthread_mutex_unlock(&p->mu);
+        int rc = failed ? 0 : p->work(p->ctx, (unsigned)(s->job.seq % p->nslots), &s->job);
+        pthread_mutex_lock(&p->mu);
+        s->rc = rc;
+        s->done = 1;
+        commit_ready(p);
+    }
+    pthread_mutex_unlock(&p->mu);
+    return NULL;
+}
+
+pipeline *pipeline_create(unsigned threads, unsigned slots, pipeline_work_fn work,
+                          pipeline_commit_fn commit, void *ctx)
+{
+    if (threads < 1) threads = 1;
+    if (slots < threads) slots = threads;
+    pipeline *p = calloc(1, sizeof *p);
+    if (!p) return NULL;
+    p->work = work;
+    p->commit = commit;
+    p->ctx = ctx;
+    p->nslots = threads > 1 ? slots : 1;
+    p->slots = calloc(p->nslots, sizeof *p->slots);
+    p->threads = calloc(threads, sizeof *p->threads);
+    if (!p->slots || !p->threads) { free(p->slots); free(p->threads); free(p); return NULL; }
+    pthread_mutex_init(&p->mu, NULL);
+    pthread_cond_init(&p->work_cv, NULL);
+    pthread_cond_init(&p->space_cv, NULL);
+    if (threads > 1)
+        for (unsigned i = 0; i < threads; i++) {
+            if (pthread_create(&p->threads[p->nthreads], NULL, worker, p) != 0) break;
+            p->nthreads++;
+        }
+    return p;
+}
+
+void pipeline_free(pipeline *p)
+{
+    if (!p) return;
+    pthread_mutex_lock(&p->mu);
+    p->quit = 1;
+    pthread_cond_broadcast(&p->work_cv);
+    pthread_mutex_unlock(&p->mu);
+    for (unsigned i = 0; i < p->nthreads; i++) pthread_join(p->threads[i], NULL);
+    for (unsigned i = 0; i < p->nslots; i++) free(p->slots[i].buf);
+    pthread_mutex_destroy(&p->mu);
+    pthread_cond_destroy(&p->work_cv);
+    pthread_cond_destroy(&p->space_cv);
+    free(p->slots);
+    free(p->threads);
+    free(p);
+}
+
+unsigned pipeline_slots(const pipeline *p) { return p->nslots; }
+unsigned pipeline_threads(const pipeline *p) { return p->nthreads; }
+
+/* On the caller's thread: work and commit now, on the caller's bytes. */
+static int push_inline(pipeline *p, const reader_chunk *c, uint64_t tag)
+{
+    if (p->failed) return p->failed;
+    slot *s = &p->slots[0];
+    s->job.ck = *c;
+    s->job.seq = p->pushed++;
+    s->job.tag = tag;
+    int rc = p->work(p->ctx, 0, &s->job);
+    rc = p->commit(p->ctx, 0, &s->job, rc);
+    p->committed++;
+    if (rc) p->failed = rc;
+    return rc;
+}
+
+int pipeline_push(pipeline *p, const reader_chunk *c, uint64_t tag)
+{
+    if (!p->nthreads) return push_inline(p, c, tag);
+    pthread_mutex_lock(&p->mu);
+    while (!p->failed && p->pushed - p->committed >= p->nslots)
+        pthread_cond_wait(&p->space_cv, &p->mu);
+    int failed = p->failed;
+    uint64_t seq = p->pushed;
+    pthread_mutex_unlock(&p->mu);
+    if (failed) return failed;
+    /* The slot is free: no worker looks at it until it is pushed. */
+    slot *s = &p->slots[seq % p->nslots];
+    size_t need = c->len + CHUNK_PADDING;
+    if (need > s->cap) {
+        char *nb = realloc(s->buf, need);
+        if (!nb) {
+            pthread_mutex_lock(&p->mu);
+            /* Chunks pushed before still commit; this one is the failure. */
+            while (p->committed < p->pushed) pthread_cond_wait(&p->space_cv, &p->mu);
+            if (!p->failed) p->failed = PIPELINE_ERR_MEMORY;
+            failed = p->failed;
+            pthread_mutex_unlock(&p->mu);
+            return failed;
+        }
+        s->buf = nb;
+        s->cap = need;
+    }
+    memcpy(s->buf, c->data, need); /* the padding too: zero past the data */
+    s->job.ck = *c;
+    s->job.ck.data = s->buf;
+    s->job.seq = seq;
+    s->job.tag = tag;
+    s->done = 0;
+    pthread_mutex_lock(&p->mu);
+    p->pushed++;
+    pthread_cond_signal(&p->work_cv);
+    pthread_mutex_unlock(&p->mu);
+    return 0;
+}
+
+int pipeline_wait(pipeline *p)
+{
+    if (!p->nthreads) return p->failed;
+    pthread_mutex_lock(&p->mu);
+    while (p->committed < p->pushed) pthread_cond_wait(&p->space_cv, &p->mu);
+    int failed = p->failed;
+    pthread_mutex_unlock(&p->mu);
+    return failed;
+}
+
+int pipeline_failed(pipeline *p)
+{
+    if (!p->nthreads) return p->failed;
+    pthread_mutex_lock(&p->mu);
+    int failed = p->failed;
+    pthread_mutex_unlock(&p->mu);
+    return failed;
+}

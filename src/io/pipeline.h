@@ -1,0 +1,75 @@
+/* pipeline: chunks of records worked on by threads, committed in order.
+ *
+ * The thread that reads (and decompresses) a stream pushes its chunks
+ * (reader_next_chunk) into a pipeline.  Worker threads run `work` on each
+ * chunk, in any order and on any thread, into state the caller keeps per
+ * slot; `commit` then runs on each chunk's slot one chunk at a time, in push
+ * order.  What commit folds therefore depends on the chunks alone, never on
+ * the thread count or the scheduling: a scan folds a chunk's partial
+ * summary, trim and project write a chunk's output.
+ *
+ *   pipeline *p = pipeline_create(threads, slots, work, commit, ctx);
+ *   pipeline_push(p, &chunk, tag) ...;   blocks while every slot is busy
+ *   pipeline_wait(p);                    every pushed chunk committed
+ *   pipeline_free(p);
+ *
+ * Slots bound the memory: at most `slots` chunks are between push and commit
+ * (each copied into its slot's buffer, so the reader may go on).  With one
+ * thread nothing is copied and no thread is started: push runs work and
+ * commit on the caller's thread, on the caller's bytes.
+ *
+ * Errors.  work returns 0 or a code of the caller's (> 0); commit receives it
+ * and returns 0 or a code.  The first nonzero code commit returns, in push
+ * order, is the pipeline's: every later chunk is skipped (neither worked nor
+ * committed), and push and wait return the code.  So a failure is the one a
+ * single thread meets first, whatever the threads did after it.  The
+ * pipeline's own failures are negative: PIPELINE_ERR_MEMORY when a slot's
+ * buffer cannot grow.
+ */
+#ifndef SHEAF_PIPELINE_H
+#define SHEAF_PIPELINE_H
+
+#include <stdint.h>
+
+#include "io/reader.h"
+
+#define PIPELINE_ERR_MEMORY (-1)
+
+typedef struct {
+    reader_chunk ck; /* the chunk (its bytes: the slot's copy, or the caller's with one thread) */
+    uint64_t seq;    /* 0, 1, 2 ... in push order */
+    uint64_t tag;    /* what the caller pushed with it */
+} pipeline_job;
+
+/* Runs on a worker thread (or the caller's, with one thread). */
+typedef int (*pipeline_work_fn)(void *ctx, unsigned slot, pipeline_job *job);
+/* Runs in push order, never two at once. */
+typedef int (*pipeline_commit_fn)(void *ctx, unsigned slot, pipeline_job *job, int work_rc);
+
+typedef struct pipeline pipeline;
+
+/* threads workers (1: none, everything on the caller's thread) and slots >=
+ * threads chunks in flight.  NULL when out of memory.  When a thread cannot
+ * be started, the pipeline runs with the threads it has (at least the
+ * caller's). */
+pipeline *pipeline_create(unsigned threads, unsigned slots, pipeline_work_fn work,
+                          pipeline_commit_fn commit, void *ctx);
+/* Stops the workers (chunks not yet committed are dropped) and frees p. */
+void pipeline_free(pipeline *p);
+unsigned pipeline_slots(const pipeline *p);
+/* Worker threads running (0 when work runs on the caller's thread). */
+unsigned pipeline_threads(const pipeline *p);
+
+/* Hands a chunk over; blocks while every slot is busy.  Returns 0, or the
+ * pipeline's failure code. */
+int pipeline_push(pipeline *p, const reader_chunk *c, uint64_t tag);
+/* Waits until every pushed chunk is committed (or skipped after a failure).
+ * Returns 0 or the failure code. */
+int pipeline_wait(pipeline *p);
+/* The failure code so far (0: none), without waiting. */
+int pipeline_failed(pipeline *p);
+
+/* CPUs this process may run on (sched_getaffinity), at least 1. */
+unsigned pipeline_cpus(void);
+
+#endif
