@@ -9,53 +9,29 @@
 
 #include "io/number_simd.h"
 
-int block_init(block *b, summary *s, const int *field_of)
+int block_lane_init(block_lane *l)
 {
-    memset(b, 0, sizeof *b);
-    b->s = s;
-    b->ncols = s->ncols;
-    b->simd = number_simd_usable();
-    size_t n = s->ncols, cells = (s->ncomo ? s->ncomo : 1) * SUMMARY_BLOCK_ROWS;
-    b->como_x = malloc(cells * sizeof *b->como_x);
-    b->como_mask = malloc(cells * sizeof *b->como_mask);
-    b->como_center = malloc((s->ncomo + 1) * sizeof *b->como_center);
-    b->como_complete = malloc(s->ncomo + 1);
-    b->lanes = calloc(n ? n : 1, sizeof *b->lanes);
-    if (!b->como_x || !b->como_mask || !b->como_center || !b->como_complete || !b->lanes)
+    memset(l, 0, sizeof *l);
+    l->hash = malloc(SUMMARY_BLOCK_ROWS * sizeof *l->hash);
+    l->text = malloc(SUMMARY_BLOCK_ROWS * sizeof *l->text);
+    l->len = malloc(SUMMARY_BLOCK_ROWS * sizeof *l->len);
+    l->cell_row = malloc(SUMMARY_BLOCK_ROWS * sizeof *l->cell_row);
+    l->dev = malloc(SUMMARY_BLOCK_ROWS * sizeof *l->dev);
+    l->val = malloc(SUMMARY_BLOCK_ROWS * sizeof *l->val);
+    l->num_row = malloc(SUMMARY_BLOCK_ROWS * sizeof *l->num_row);
+    l->cells_tmp = malloc(SUMMARY_BLOCK_ROWS * sizeof *l->cells_tmp);
+    if (!l->hash || !l->text || !l->len || !l->cell_row || !l->dev || !l->val || !l->num_row ||
+        !l->cells_tmp)
         return -1;
-    for (size_t j = 0; j < n; j++) {
-        block_lane *l = &b->lanes[j];
-        l->field = field_of[j];
-        l->hash = malloc(SUMMARY_BLOCK_ROWS * sizeof *l->hash);
-        l->text = malloc(SUMMARY_BLOCK_ROWS * sizeof *l->text);
-        l->len = malloc(SUMMARY_BLOCK_ROWS * sizeof *l->len);
-        l->cell_row = malloc(SUMMARY_BLOCK_ROWS * sizeof *l->cell_row);
-        l->dev = malloc(SUMMARY_BLOCK_ROWS * sizeof *l->dev);
-        l->val = malloc(SUMMARY_BLOCK_ROWS * sizeof *l->val);
-        l->num_row = malloc(SUMMARY_BLOCK_ROWS * sizeof *l->num_row);
-        if (!l->hash || !l->text || !l->len || !l->cell_row || !l->dev || !l->val || !l->num_row)
-            return -1;
-    }
     return 0;
 }
 
-void block_free(block *b)
+void block_lane_free(block_lane *l)
 {
-    if (b->lanes)
-        for (size_t j = 0; j < b->ncols; j++) {
-            block_lane *l = &b->lanes[j];
-            free(l->hash); free(l->text); free(l->len); free(l->cell_row);
-            free(l->dev); free(l->val); free(l->num_row);
-        }
-    free(b->lanes);
-    free(b->como_x);
-    free(b->como_mask);
-    free(b->como_center);
-    free(b->como_complete);
-    memset(b, 0, sizeof *b);
+    free(l->hash); free(l->text); free(l->len); free(l->cell_row);
+    free(l->dev); free(l->val); free(l->num_row); free(l->cells_tmp);
+    memset(l, 0, sizeof *l);
 }
-
-static void decode_lane(block *b, summary_column *c, block_lane *l);
 
 static void class_add(class_moments *m, double x)
 {
@@ -65,10 +41,9 @@ static void class_add(class_moments *m, double x)
     m->m2 += d * (x - m->mean);
 }
 
-/* Feeds one column's buffered block to its accumulators. */
-static int flush_lane(block *b, summary_column *c, block_lane *l)
+int block_feed(summary_column *c, block_lane *l, const block_rows *b)
 {
-    int classes = b->s->has_classes;
+    int classes = b->classes;
     /* The sketch only matters once the exact table overflows: until then it
      * stays empty and the table's keys stand in for it (summary.h). */
     int sketching = values_overflowed(c->vals);
@@ -88,7 +63,7 @@ static int flush_lane(block *b, summary_column *c, block_lane *l)
     }
     /* A per-value table only serves a categorical column whose value table
      * stayed exact; once the running value table overflowed it never will. */
-    if (c->cross && !values_overflowed(b->s->cols[l - b->lanes].vals)) {
+    if (c->cross && !values_overflowed(c->vals)) {
         for (size_t i = 0; i < l->ncells; i++) {
             if (i + 8 < l->ncells) { /* the tables outgrow the caches */
                 size_t r8 = l->cell_row[i + 8];
@@ -124,38 +99,62 @@ static int flush_lane(block *b, summary_column *c, block_lane *l)
         c->mom.max = hi;
         c->zeros += zeros;
         c->integers += integers;
-        if (b->s->opt.target)
-            for (size_t i = 0; i < l->nnum; i++) b->cells_tmp[i] = b->row_cell[l->num_row[i]];
-        if (buckets_add_many(c->bins, l->val, b->s->opt.target ? b->cells_tmp : NULL, l->nnum) != 0)
+        if (b->target)
+            for (size_t i = 0; i < l->nnum; i++) l->cells_tmp[i] = b->row_cell[l->num_row[i]];
+        if (buckets_add_many(c->bins, l->val, b->target ? l->cells_tmp : NULL, l->nnum) != 0)
             return -1;
-        if (c->cls)
+        if (c->cls && classes)
             for (size_t i = 0; i < l->nnum; i++) {
                 uint32_t k = b->row_class[l->num_row[i]];
                 if (k) class_add(&c->cls[k - 1], l->dev[i]);
             }
     }
+    l->nnum = 0;
     return 0;
 }
 
-/* Centres the block's numbers per co-moment column and feeds the running
- * co-moment matrix (the block is the unit merged into it). */
-static int flush_comoments(block *b)
+int block_como_init(block_como *bc, size_t ncomo)
 {
-    summary *run = b->s;
-    size_t rows = b->rows, p = run->ncomo;
+    memset(bc, 0, sizeof *bc);
+    size_t cells = (ncomo ? ncomo : 1) * SUMMARY_BLOCK_ROWS;
+    bc->ncomo = ncomo;
+    bc->x = malloc(cells * sizeof *bc->x);
+    bc->mask = malloc(cells * sizeof *bc->mask);
+    bc->center = malloc((ncomo + 1) * sizeof *bc->center);
+    bc->complete = malloc(ncomo + 1);
+    return bc->x && bc->mask && bc->center && bc->complete ? 0 : -1;
+}
+
+void block_como_free(block_como *bc)
+{
+    free(bc->x);
+    free(bc->mask);
+    free(bc->center);
+    free(bc->complete);
+    memset(bc, 0, sizeof *bc);
+}
+
+int block_comoments(summary *run, block_como *bc, const double *const *dev,
+                    const unsigned char *const *present, size_t rows)
+{
+    size_t p = run->ncomo;
     if (!p || !rows) return 0;
     for (size_t k = 0; k < p; k++) {
-        size_t j = run->como_col[k];
-        const block_lane *l = &b->lanes[j];
-        const moments *m = &run->cols[j].mom;
-        b->como_complete[k] = l->nnum == rows;
-        b->como_center[k] = 0;
-        double *x = b->como_x + k * rows, *msk = b->como_mask + k * rows;
-        if (l->nnum < rows) { /* missing cells are 0 in both; complete columns overwrite all */
+        const double *d = dev[k];
+        const unsigned char *pr = present[k];
+        size_t nnum = 0;
+        double sum = 0;
+        for (size_t r = 0; r < rows; r++)
+            if (pr[r]) { sum += d[r]; nnum++; }
+        bc->complete[k] = nnum == rows;
+        bc->center[k] = 0;
+        double *x = bc->x + k * rows, *msk = bc->mask + k * rows;
+        if (nnum < rows) { /* missing cells are 0 in both; complete columns overwrite all */
             memset(x, 0, rows * sizeof *x);
             memset(msk, 0, rows * sizeof *msk);
         }
-        if (!l->nnum) continue;
+        if (!nnum) continue;
+        const moments *m = &run->cols[run->como_col[k]].mom;
         double shift = 0;
         if (!run->como_ref_set[k]) {
             run->como_ref[k] = m->ref;
@@ -163,17 +162,15 @@ static int flush_comoments(block *b)
         } else {
             shift = number_difference(&m->ref, &run->como_ref[k], NULL);
         }
-        double sum = 0;
-        for (size_t i = 0; i < l->nnum; i++) sum += l->dev[i];
-        double mean = sum / (double)l->nnum;
-        b->como_center[k] = mean + shift;
-        for (size_t i = 0; i < l->nnum; i++) {
-            x[l->num_row[i]] = l->dev[i] - mean;
-            msk[l->num_row[i]] = 1.0;
-        }
+        double mean = sum / (double)nnum;
+        bc->center[k] = mean + shift;
+        for (size_t r = 0; r < rows; r++)
+            if (pr[r]) {
+                x[r] = d[r] - mean;
+                msk[r] = 1.0;
+            }
     }
-    return comoment_add_block(run->como, b->como_x, b->como_mask, b->como_center,
-                              b->como_complete, rows);
+    return comoment_add_block(run->como, bc->x, bc->mask, bc->center, bc->complete, rows);
 }
 
 static void keep_example(summary_column *c, const char *p, uint32_t len)
@@ -199,9 +196,10 @@ static void keep_example(summary_column *c, const char *p, uint32_t len)
             number_decimal d;                                                                  \
             switch (parse(l->text[i], l->len[i], &d)) {                                        \
             case NUMBER_FINITE: {                                                              \
-                if (!c->mom.has_ref) {                                                         \
-                    moments_set_ref(&c->mom, &d);                                              \
-                    number_ref_set(&l->ref, &d);                                               \
+                if (!l->ref_set) {                                                             \
+                    if (!c->mom.has_ref) moments_set_ref(&c->mom, &d);                         \
+                    number_ref_set(&l->ref, &c->mom.ref);                                      \
+                    l->ref_set = 1;                                                            \
                 }                                                                              \
                 l->dev[nnum] = number_deviation(&d, &l->ref);                                  \
                 l->val[nnum] = d.value;                                                        \
@@ -232,76 +230,14 @@ __attribute__((target("ssse3"))) static void decode_numbers_ssse3(summary_column
 }
 #endif
 
-/* Hashes and parses the buffered cells of one column, one column at a time
- * (each column's cells look alike, so the branches of the hash and the
- * parser predict well). */
-static void decode_lane(block *b, summary_column *c, block_lane *l)
+void block_decode(summary_column *c, block_lane *l, int simd)
 {
     const size_t n = l->ncells;
     for (size_t i = 0; i < n; i++) l->hash[i] = XXH3_64bits(l->text[i], l->len[i]);
     if (c->mode == COLUMN_CATEGORICAL) { c->non_numeric += n; return; }
 #if defined(NUMBER_SIMD)
-    if (b->simd) { decode_numbers_ssse3(c, l, n); return; }
+    if (simd) { decode_numbers_ssse3(c, l, n); return; }
 #endif
-    (void)b;
+    (void)simd;
     decode_numbers(c, l, n);
-}
-
-int block_flush(block *b)
-{
-    for (size_t j = 0; j < b->s->ncols; j++) decode_lane(b, &b->s->cols[j], &b->lanes[j]);
-    if (flush_comoments(b) != 0) return -1;
-    for (size_t j = 0; j < b->s->ncols; j++) {
-        block_lane *l = &b->lanes[j];
-        if (flush_lane(b, &b->s->cols[j], l) != 0) return -1;
-        l->nnum = 0;
-    }
-    b->rows = 0;
-    return 0;
-}
-
-
-void block_ragged(block *b, int short_row, uint64_t line)
-{
-    summary *s = b->s;
-    if (short_row) s->short_rows++;
-    else s->long_rows++;
-    if (s->n_bad_lines < SUMMARY_BAD_LINES) s->bad_lines[s->n_bad_lines++] = line;
-}
-
-int block_target(block *b, const char *p, uint32_t len)
-{
-    size_t r = b->rows;
-    b->row_cell[r] = 0;
-    b->row_class[r] = 0;
-    b->row_has_y[r] = 0;
-    if (!p) return 0;
-    summary *s = b->s;
-    summary_column *tc = &s->cols[s->target];
-    number_decimal d;
-    int finite = tc->mode != COLUMN_CATEGORICAL && number_parse(p, len, &d) == NUMBER_FINITE;
-    if (!finite) s->target_text++;
-    if (s->has_classes) {
-        uint32_t k = summary_class_of(s, XXH3_64bits(p, len), p, len, finite ? &d : NULL);
-        if (k) {
-            s->class_rows[k - 1]++;
-            b->row_cell[r] = b->row_class[r] = k;
-            return 0;
-        }
-        /* One class too many: a numeric target continues as a regression
-         * target, a text one cannot. */
-        int numeric = finite && s->opt.task != TASK_CLASSIFY;
-        for (uint32_t c = 0; numeric && c < s->nclasses; c++) numeric = s->class_numeric[c];
-        if (!numeric) return 1;
-        if (block_flush(b) != 0 || summary_drop_classes(s) != 0) return -1;
-        r = 0;
-        b->row_cell[r] = b->row_class[r] = b->row_has_y[r] = 0;
-    }
-    if (finite) {
-        if (!tc->mom.has_ref) moments_set_ref(&tc->mom, &d);
-        b->row_cell[r] = summary_target_cell(d.value);
-        b->row_y[r] = number_difference(&d, &tc->mom.ref, NULL);
-        b->row_has_y[r] = 1;
-    }
-    return 0;
 }

@@ -1,21 +1,26 @@
 /* block: a block of rows on its way into a summary's accumulators.
  *
- * The scan's record loop only records cells: each present cell of column j
- * waits in lane j (a pointer into its chunk, its length and its row in the
- * block).  Every SUMMARY_BLOCK_ROWS rows, and at the end of each chunk (the
- * cells point into it), block_flush works column by column:
- *   - decode: XXH3-64 of each cell, then (unless the column is declared
- *     categorical) the decimal parse, SSSE3 where the CPU has it; a finite
- *     number becomes its exact deviation from the column's frame
+ * A scan feeds each column's accumulators a block of at most
+ * SUMMARY_BLOCK_ROWS rows at a time (blocks end every SUMMARY_BLOCK_ROWS rows
+ * of a chunk, at the chunk's end, and where a numeric target's classes are
+ * dropped).  One column at a time:
+ *   - block_decode: XXH3-64 of each present cell, then (unless the column is
+ *     declared categorical) the decimal parse, SSSE3 where the CPU has it; a
+ *     finite number becomes its exact deviation from the column's frame
  *     (number_deviation);
- *   - the co-moment block: each column centred by its block mean, with a
- *     presence mask, into one comoment_add_block;
- *   - each column's accumulators with the whole block: value table and
- *     sketch, per-value table, moments, min / max / zeros / integers,
- *     buckets with the rows' target cells, per-class moments.
- * One column's cells look alike, so the parser's and the hash's branches
- * predict, and one column's tables stay in cache while it is fed.  Nothing
- * is allocated per cell or per row.
+ *   - block_feed: the column's accumulators with the whole block: value
+ *     table and sketch, per-value table, moments, min / max / zeros /
+ *     integers, buckets with the rows' target cells, per-class moments.
+ * and, over every co-moment column at once, block_comoments: each column
+ * centred by its block mean, with a presence mask, into one
+ * comoment_add_block.
+ *
+ * Each column's state is touched only by its own calls, and the co-moment
+ * state only by block_comoments, so distinct columns (and the co-moments)
+ * may be fed from distinct threads at once; each column must see its blocks
+ * in order.  One column's cells look alike, so the parser's and the hash's
+ * branches predict, and one column's tables stay in cache while it is fed.
+ * Nothing is allocated per cell or per row.
  */
 #ifndef SHEAF_BLOCK_H
 #define SHEAF_BLOCK_H
@@ -26,10 +31,9 @@
 #include "io/number.h"
 #include "summary/summary.h"
 
-/* The buffered cells of one column. */
+/* The present cells of one column in one block (a worker's scratch). */
 typedef struct {
-    int field;           /* field index in the record */
-    size_t ncells;       /* present cells buffered */
+    size_t ncells;       /* present cells */
     uint64_t *hash;      /* XXH3-64 of each cell's text */
     const char **text;   /* each cell's text (inside its chunk, which is padded) */
     uint32_t *len;       /* each cell's length */
@@ -38,72 +42,63 @@ typedef struct {
     double *dev;         /* deviation of each number from the column's frame */
     double *val;         /* each number */
     uint16_t *num_row;   /* row in the block of each number */
+    uint32_t *cells_tmp; /* bucket cell of each number */
     number_ref ref;      /* the column's frame, unpacked for number_deviation */
+    int ref_set;         /* ref holds the column's frame */
 } block_lane;
 
+/* What the accumulators need of a block's rows: their target cells. */
 typedef struct {
-    summary *s;            /* the summary fed (another of the same schema may take its place) */
-    size_t ncols;          /* columns of the schema */
-    block_lane *lanes;     /* one per column of s */
-    size_t rows;           /* rows buffered */
-    uint32_t row_cell[SUMMARY_BLOCK_ROWS];   /* bucket cell of each row */
-    uint32_t row_class[SUMMARY_BLOCK_ROWS];  /* class 1..K, 0 = none */
-    double row_y[SUMMARY_BLOCK_ROWS];        /* regression target (its frame) */
-    unsigned char row_has_y[SUMMARY_BLOCK_ROWS];
-    uint32_t cells_tmp[SUMMARY_BLOCK_ROWS];  /* cells of one lane's numbers */
-    double *como_x;        /* ncomo x rows, centred values */
-    double *como_mask;     /* ncomo x rows, presence */
-    double *como_center;   /* ncomo */
-    unsigned char *como_complete; /* ncomo */
-    int simd;              /* the SSSE3 parser may be used */
-} block;
+    size_t rows;                    /* rows in the block */
+    const uint32_t *row_cell;       /* bucket cell of each row (0: no target value) */
+    const uint32_t *row_class;      /* class 1..K of each row, 0 = none */
+    const double *row_y;            /* regression target of each row, in the target's frame */
+    const unsigned char *row_has_y; /* the row has a regression target value */
+    int classes;                    /* class accumulators are kept for this block */
+    int target;                     /* the summary has a target */
+} block_rows;
 
-/* Buffers for every column of s; field_of[j] is column j's field index.
- * Returns 0, or -1 when out of memory (block_free then frees what was made). */
-int block_init(block *b, summary *s, const int *field_of);
-void block_free(block *b);
+/* Scratch for SUMMARY_BLOCK_ROWS cells.  0, or -1 when out of memory
+ * (block_lane_free then frees what was made). */
+int block_lane_init(block_lane *l);
+void block_lane_free(block_lane *l);
 
-/* ---- per row: the scan hands the summary its rows through these calls ---- */
-
-/* A row begins. */
-static inline void block_row(block *b) { b->s->rows++; }
-
-/* Column j's cell of the current row is missing (or absent). */
-static inline void block_missing(block *b, size_t j) { b->s->cols[j].missing++; }
-
-/* The current row has too few (short != 0) or too many fields; line is
- * kept among the first SUMMARY_BAD_LINES such lines. */
-void block_ragged(block *b, int short_row, uint64_t line);
-
-/* The current row's target cell (NULL: missing): its class, or its
- * regression cell and value.  Returns 0; 1 when a text target has one class
- * more than max_classes (a numeric one then continues as a regression
- * target, its classes dropped); -1 when out of memory. */
-int block_target(block *b, const char *p, uint32_t len);
-
-/* Bytes of input the summary covers. */
-static inline void block_bytes(block *b, uint64_t n) { b->s->bytes += n; }
-
-/* Records a present cell of column j in the current row. */
-static inline void block_cell(block *b, size_t j, const char *p, uint32_t len)
+/* Records a present cell of the current row. */
+static inline void block_lane_cell(block_lane *l, const char *p, uint32_t len, size_t row)
 {
-    block_lane *l = &b->lanes[j];
     size_t k = l->ncells;
     l->text[k] = p;
     l->len[k] = len;
-    l->cell_row[k] = (uint16_t)b->rows;
+    l->cell_row[k] = (uint16_t)row;
     l->ncells = k + 1;
 }
 
-/* Feeds the buffered rows to the summary and empties the block.  Returns 0,
- * or -1 when out of memory. */
-int block_flush(block *b);
+/* Hashes and parses the lane's cells for column c (simd: the SSSE3 parser
+ * may be used, number_simd_usable()).  Sets c's frame from its first finite
+ * number. */
+void block_decode(summary_column *c, block_lane *l, int simd);
 
-/* The current row is complete (flushes a full block).  0, or -1 when out of
- * memory. */
-static inline int block_row_end(block *b)
-{
-    return ++b->rows == SUMMARY_BLOCK_ROWS ? block_flush(b) : 0;
-}
+/* Feeds the decoded lane to c's accumulators and empties it.  0, or -1 when
+ * out of memory. */
+int block_feed(summary_column *c, block_lane *l, const block_rows *rows);
+
+/* Co-moment scratch for blocks of the co-moment columns of a summary. */
+typedef struct {
+    size_t ncomo;
+    double *x;               /* ncomo x rows, centred values */
+    double *mask;            /* ncomo x rows, presence */
+    double *center;          /* ncomo */
+    unsigned char *complete; /* ncomo */
+} block_como;
+
+int block_como_init(block_como *bc, size_t ncomo);
+void block_como_free(block_como *bc);
+
+/* Feeds one block to s's co-moments: for co-moment column k, dev[k][r] is
+ * row r's deviation from the column's frame when present[k][r] (rows of the
+ * block, in order), and s->cols[s->como_col[k]].mom holds the frame once the
+ * column has had a number.  0, or -1 when out of memory. */
+int block_comoments(summary *s, block_como *bc, const double *const *dev,
+                    const unsigned char *const *present, size_t rows);
 
 #endif

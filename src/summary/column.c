@@ -23,6 +23,24 @@ int column_alloc(summary_column *c, const summary_options *o, int with_classes)
     return 0;
 }
 
+int column_drop_classes(summary_column *c, const uint32_t *map, const double *y, uint32_t n,
+                        uint32_t bucket_budget)
+{
+    buckets *nb = buckets_create(bucket_budget);
+    if (!nb || buckets_merge(nb, c->bins, map, n) != 0) { buckets_free(nb); return -1; }
+    buckets_free(c->bins);
+    c->bins = nb;
+    if (c->cross) {
+        crosstab *nx = crosstab_counts_to_values(c->cross, y, map, n);
+        if (!nx) return -1;
+        crosstab_free(c->cross);
+        c->cross = nx;
+    }
+    free(c->cls);
+    c->cls = NULL;
+    return 0;
+}
+
 void column_reset(summary_column *c, uint32_t max_classes)
 {
     c->missing = c->non_numeric = c->non_finite = c->zeros = c->integers = 0;

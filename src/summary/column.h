@@ -50,6 +50,15 @@ int column_merge(summary_column *a, const summary_column *b, const column_merge_
 
 /* Builds the sort index of each accumulator (see "Sealing" in summary.h).
  * 0, or -1 when out of memory. */
+/* Converts c's class accumulators to target cells (a numeric target passing
+ * max_classes): map[class 0..n-1] is each class's bucket cell, y[class] its
+ * value in the target's frame.  0, or -1 when out of memory. */
+int column_drop_classes(summary_column *c, const uint32_t *map, const double *y, uint32_t n,
+                        uint32_t bucket_budget);
+/* The conversion tables of s's classes (malloc'ed; the caller frees them),
+ * with frame the target's frame (NULL: values as they are).  0 or -1. */
+int summary_class_conversion(const summary *s, const number_decimal *frame, uint32_t **map,
+                             double **y);
 /* Empties c's accumulators, keeping their memory, as column_alloc left them
  * (with_classes: max_classes per-class slots to clear). */
 void column_reset(summary_column *c, uint32_t max_classes);

@@ -22,40 +22,35 @@ static const number_decimal *target_frame(const summary *s)
     return &s->cols[s->target].mom.ref;
 }
 
-int summary_drop_classes(summary *s)
+int summary_class_conversion(const summary *s, const number_decimal *frame, uint32_t **map_out,
+                             double **y_out)
 {
-    const summary *dict = s; /* its own classes number its cells */
-    if (!s->has_classes) return 0;
-    for (uint32_t c = 0; c < dict->nclasses; c++)
-        if (!dict->class_numeric[c]) return -1; /* a text target cannot become numeric */
-    uint32_t k = dict->nclasses;
+    uint32_t k = s->nclasses;
     uint32_t *map = malloc((k + 1) * sizeof *map);
     double *y = malloc((k + 1) * sizeof *y);
     if (!map || !y) { free(map); free(y); return -1; }
-    const number_decimal *frame = target_frame(s);
     map[0] = 0;
     y[0] = 0;
     for (uint32_t c = 0; c < k; c++) {
-        map[c + 1] = summary_target_cell(dict->class_dec[c].value);
-        y[c + 1] = frame ? number_difference(&dict->class_dec[c], frame, NULL)
-                         : dict->class_dec[c].value;
+        map[c + 1] = summary_target_cell(s->class_dec[c].value);
+        y[c + 1] = frame ? number_difference(&s->class_dec[c], frame, NULL) : s->class_dec[c].value;
     }
+    *map_out = map;
+    *y_out = y;
+    return 0;
+}
+
+int summary_drop_classes(summary *s)
+{
+    if (!s->has_classes) return 0;
+    for (uint32_t c = 0; c < s->nclasses; c++)
+        if (!s->class_numeric[c]) return -1; /* a text target cannot become numeric */
+    uint32_t *map;
+    double *y;
+    if (summary_class_conversion(s, target_frame(s), &map, &y) != 0) return -1;
     int rc = 0;
-    for (size_t i = 0; i < s->ncols && rc == 0; i++) {
-        summary_column *col = &s->cols[i];
-        buckets *nb = buckets_create(s->opt.bucket_budget);
-        if (!nb || buckets_merge(nb, col->bins, map, k + 1) != 0) { buckets_free(nb); rc = -1; break; }
-        buckets_free(col->bins);
-        col->bins = nb;
-        if (col->cross) {
-            crosstab *nx = crosstab_counts_to_values(col->cross, y, map, k + 1);
-            if (!nx) { rc = -1; break; }
-            crosstab_free(col->cross);
-            col->cross = nx;
-        }
-        free(col->cls);
-        col->cls = NULL;
-    }
+    for (size_t i = 0; i < s->ncols && rc == 0; i++)
+        rc = column_drop_classes(&s->cols[i], map, y, s->nclasses + 1, s->opt.bucket_budget);
     free(map);
     free(y);
     if (rc == 0) {

@@ -1,11 +1,11 @@
 /* scan: see scan.h.
  *
- * Records come from the one record reader (io/reader); per record, the
- * target cell is read first (its class, or its regression cell and value),
- * then every scanned field is recorded in its column's lane (block_cell)
- * after the missing test.  Every SUMMARY_BLOCK_ROWS rows and at the end of
- * every chunk the block is fed to the summary (summary/block.h).  Nothing is
- * allocated per field or row.
+ * The calling thread reads: source -> reader_next_chunk (decompressed bytes
+ * cut into chunks of whole records by the bytes alone) -> the stream's first
+ * record (the header, which fixes the schema; read raw, so the chunk is left
+ * as it is) -> summary/chunks, which tokenizes the chunks and feeds their
+ * rows to the summary, on the worker threads or on this one.  The summary is
+ * the same, byte for byte, for any thread count (summary/chunks.h).
  */
 #include "summary/scan.h"
 
@@ -19,6 +19,8 @@
 #include "io/chunk.h"
 #include "io/number.h"
 #include "io/number_simd.h"
+#include "io/pipeline.h"
+#include "summary/chunks.h"
 #include "io/reader.h"
 #include "summary/block.h"
 
@@ -35,12 +37,27 @@ void scan_options_defaults(scan_options *o)
     o->max_record_bytes = 64u << 20;
 }
 
+/* Chunks in flight beyond one per worker thread: one the reading thread
+ * fills while the workers work.  Each holds a chunk's bytes and about 17
+ * bytes per cell of it (summary/chunks.h), so they bound the memory. */
+#define SCAN_SPARE_SLOTS 1
+
 struct scan_context {
     scan_options o;        /* options (borrowed strings) */
-    reader *rd;            /* the record reader */
-    summary *run;          /* the summary, once the schema is known */
-    block blk;             /* the current block of rows */
+    reader_options ro;     /* the reader's options */
+    reader_options head_ro; /* the same, raw: for a stream's first record */
+    reader *rd;            /* the record reader (the reading half) */
+    reader_cursor head;    /* reads a stream's first record on the reading thread */
+    chunks *work;          /* the chunks into the summary (once the schema is known) */
+    unsigned threads;      /* worker threads */
+    summary *run;          /* the summary (once the schema is known) */
     reader_missing missing; /* the missing-cell test */
+    /* The schema, from the first stream's first record. */
+    int schema;            /* known */
+    size_t ncols;          /* columns scanned */
+    char **col_names;      /* their names (pointers into header) */
+    column_mode *col_modes; /* their declared modes */
+    int *field_of;         /* their field index */
     size_t file_fields;    /* fields in the header */
     char **header;         /* the header's names (file_fields of them) */
     char *first_path;      /* the stream the header came from */
@@ -51,10 +68,10 @@ struct scan_context {
     int open;              /* a stream is open */
     int at_first;          /* its first record is still to come */
     int header_only;       /* read only the first record (a shard's header) */
-    uint64_t stop_at;      /* the stop offset to set after the first record (0: none) */
+    uint64_t stop_at;      /* records from here on are the next shard's (0: none) */
     uint64_t first_end;    /* offset just after the first record of the last file begun at 0 */
     int done;              /* it needs no more bytes */
-    uint64_t rows;         /* its data rows */
+    uint64_t blank_lines;  /* lines of blank chunks before the schema was known */
     XXH3_state_t *fed_hash; /* fingerprint of fed bytes */
     uint64_t fed_bytes;    /* bytes fed */
     uint64_t shard_start, shard_end; /* the byte range scanned, for provenance */
@@ -71,41 +88,26 @@ static scan_status fail(scan_context *sc, scan_status st, const char *msg)
     return st;
 }
 
+/* ---- the reading thread ---------------------------------------------------- */
 
-/* Every column's cell of the current record.  Kept out of line: inside the
- * record loop the compiler runs out of registers. */
-static __attribute__((noinline)) void row_cells(scan_context *sc, const csv_field *fields,
-                                                size_t nf)
+static int start_work(scan_context *sc)
 {
-    block *b = &sc->blk;
-    const block_lane *lanes = b->lanes;
-    const size_t ncols = sc->run->ncols;
-    for (size_t j = 0; j < ncols; j++) {
-        size_t fi = (size_t)lanes[j].field;
-        if (fi >= nf) { block_missing(b, j); continue; }
-        const char *p = fields[fi].ptr;
-        uint32_t len = fields[fi].len;
-        if (reader_is_missing(&sc->missing, p, len)) { block_missing(b, j); continue; }
-        block_cell(b, j, p, len);
-    }
+    chunks_options co = {sc->run, sc->field_of, sc->file_fields, sc->o.header, sc->o.strict,
+                         &sc->ro, &sc->missing, sc->threads, sc->threads + SCAN_SPARE_SLOTS};
+    sc->work = chunks_create(&co);
+    if (!sc->work) return -1;
+    if (sc->open) chunks_stream(sc->work, sc->shown, sc->stop_at, sc->blank_lines);
+    return 0;
 }
 
-/* The target cell of the current row (p NULL: absent). */
-static scan_status target_cell(scan_context *sc, uint64_t line, const char *p, uint32_t len)
+/* The chunks failed: their failure becomes the scan's. */
+static scan_status worked(scan_context *sc, scan_status st)
 {
-    int present = p && !reader_is_missing(&sc->missing, p, len);
-    int rc = block_target(&sc->blk, present ? p : NULL, len);
-    if (rc == 0) return SCAN_OK;
-    if (rc < 0) return fail(sc, SCAN_ERR_MEMORY, "out of memory");
-    const summary_options *o = &sc->o.opt;
-    snprintf(sc->err, sizeof sc->err,
-             "%s: line %llu: target '%s' has more than %u classes; raise --max-classes "
-             "or use --task regress",
-             sc->shown, (unsigned long long)line, o->target, o->max_classes);
-    return SCAN_ERR_INPUT;
+    snprintf(sc->err, sizeof sc->err, "%s", chunks_error(sc->work));
+    sc->failed = st;
+    return st;
 }
 
-/* Splits a comma list; returns the count or -1 on OOM.  *items points into *buf. */
 static int split_list(const char *s, char ***items, char **buf)
 {
     *items = NULL;
@@ -143,7 +145,8 @@ static int check_names(scan_context *sc, const char *opt, char **items, int n, c
     return 0;
 }
 
-/* Builds the summary schema from the header names. */
+/* The schema from the header names: the scanned columns, their modes and
+ * fields; then the summary and its chunks. */
 static scan_status setup(scan_context *sc, char **names, size_t nnames)
 {
     const scan_options *o = &sc->o;
@@ -208,12 +211,25 @@ static scan_status setup(scan_context *sc, char **names, size_t nnames)
         goto done;
     }
     sc->run = summary_create(&o->opt, n, cols, modes, 1);
-    if (!sc->run || block_init(&sc->blk, sc->run, field_of) != 0) {
+    if (!sc->run) {
         snprintf(sc->err, sizeof sc->err, "out of memory");
         st = SCAN_ERR_MEMORY;
         goto done;
     }
+    sc->col_names = cols;
+    sc->col_modes = modes;
+    sc->field_of = field_of;
+    cols = NULL;
+    modes = NULL;
+    field_of = NULL;
+    sc->ncols = n;
     sc->file_fields = nnames;
+    sc->schema = 1;
+    if (start_work(sc) != 0) {
+        snprintf(sc->err, sizeof sc->err, "out of memory");
+        st = SCAN_ERR_MEMORY;
+        goto done;
+    }
 done:
     free(sel); free(num); free(cat); free(ign);
     free(b1); free(b2); free(b3); free(b4);
@@ -222,22 +238,34 @@ done:
 }
 
 /* The first record of a source: the header, or (no header) the width. */
-static scan_status first_record(scan_context *sc, const csv_field *f, size_t nf, int *is_header)
+
+/* The first record of a stream: the header, or (no header) the width.  Its
+ * fields are raw (the reading thread leaves the chunk as it is). */
+static scan_status first_record(scan_context *sc, const csv_field *f, size_t nf)
 {
-    *is_header = sc->o.header;
-    if (sc->run) {
+    char *name = NULL;
+    if (sc->schema) {
         if (!sc->o.header) return SCAN_OK;
         /* Later sources: the header must match the first one's. */
         for (size_t i = 0; i < nf || i < sc->file_fields; i++) {
-            if (i >= nf || i >= sc->file_fields || strlen(sc->header[i]) != f[i].len ||
-                memcmp(sc->header[i], f[i].ptr, f[i].len) != 0) {
+            int same = i < nf && i < sc->file_fields;
+            if (same) {
+                char *nb = realloc(name, f[i].len + 25);
+                if (!nb) { free(name); return fail(sc, SCAN_ERR_MEMORY, "out of memory"); }
+                name = nb;
+                size_t n = reader_column_name(&f[i], i, 1, 1, name);
+                same = strlen(sc->header[i]) == n && memcmp(sc->header[i], name, n) == 0;
+            }
+            if (!same) {
+                free(name);
                 snprintf(sc->err, sizeof sc->err,
                          "%s: header differs from %s's (%zu vs %zu fields; first difference at "
                          "field %zu)",
                          sc->shown, sc->first_path, nf, sc->file_fields, i + 1);
-                return SCAN_ERR_INPUT;
+                return fail(sc, SCAN_ERR_INPUT, NULL);
             }
         }
+        free(name);
         return SCAN_OK;
     }
     char **names = calloc(nf ? nf : 1, sizeof *names);
@@ -246,81 +274,75 @@ static scan_status first_record(scan_context *sc, const csv_field *f, size_t nf,
     for (size_t i = 0; i < nf; i++) {
         names[i] = malloc(f[i].len + 25);
         if (!names[i]) goto oom;
-        names[i][reader_column_name(&f[i], i, sc->o.header, 0, names[i])] = '\0';
+        names[i][reader_column_name(&f[i], i, sc->o.header, 1, names[i])] = '\0';
     }
     sc->header = names;
     sc->file_fields = nf;
-    return setup(sc, names, nf);
+    scan_status st = setup(sc, names, nf);
+    return st == SCAN_OK ? st : fail(sc, st, NULL);
 oom:
     if (names)
         for (size_t i = 0; i < nf; i++) free(names[i]);
     free(names);
-    snprintf(sc->err, sizeof sc->err, "out of memory");
-    return SCAN_ERR_MEMORY;
+    return fail(sc, SCAN_ERR_MEMORY, "out of memory");
 }
 
-static scan_status ragged(scan_context *sc, uint64_t line, size_t nf)
+/* Looks for the stream's first record in a chunk, on the reading thread.
+ * Sets *found when the chunk holds it. */
+static scan_status head(scan_context *sc, const reader_chunk *ch, int *found)
 {
-    block_ragged(&sc->blk, nf < sc->file_fields, line);
-    if (sc->o.strict) {
-        snprintf(sc->err, sizeof sc->err, "%s: line %llu: %zu fields, the header has %zu (--strict)",
-                 sc->shown, (unsigned long long)line, nf, sc->file_fields);
-        return SCAN_ERR_INPUT;
+    reader_record rec;
+    *found = 0;
+    reader_cursor_start(&sc->head, ch, 0, 0);
+    reader_status rs = reader_cursor_next(&sc->head, &rec);
+    if (rs == READER_CHUNK_END) return SCAN_OK; /* blank lines only */
+    if (rs == READER_ERROR) {
+        /* The lines of the chunks before (blank ones) are counted once done. */
+        uint64_t lines = 0;
+        if (sc->work) {
+            scan_status st = chunks_wait(sc->work);
+            if (st != SCAN_OK) return worked(sc, st);
+            lines = chunks_lines(sc->work);
+        }
+        reader_cursor_message(&sc->head, sc->shown, lines, sc->err, sizeof sc->err);
+        return fail(sc, sc->head.fault == READER_FAULT_NOMEM ? SCAN_ERR_MEMORY : SCAN_ERR_INPUT,
+                    NULL);
     }
+    scan_status st = first_record(sc, rec.fields, rec.nfields);
+    if (st != SCAN_OK) return st;
+    *found = 1;
+    sc->at_first = 0;
+    sc->first_end = rec.end;
+    if (sc->header_only) sc->done = 1;
     return SCAN_OK;
 }
 
-
-/* One record of the current stream. */
-static scan_status record(scan_context *sc, const reader_record *rec)
-{
-    const csv_field *fields = rec->fields;
-    size_t nf = rec->nfields;
-    if (sc->at_first) {
-        int is_header;
-        scan_status st = first_record(sc, fields, nf, &is_header);
-        if (st != SCAN_OK) return st;
-        sc->at_first = 0;
-        if (sc->stop_at) reader_set_stop(sc->rd, sc->stop_at);
-        sc->first_end = rec->end;
-        if (sc->header_only) { sc->done = 1; return SCAN_OK; }
-        if (is_header) return SCAN_OK;
-    }
-    block *b = &sc->blk;
-    block_row(b);
-    sc->rows++;
-    if (nf != sc->file_fields) {
-        scan_status st = ragged(sc, rec->line, nf);
-        if (st != SCAN_OK) return st;
-    }
-    if (sc->run->target >= 0) {
-        size_t fi = (size_t)b->lanes[sc->run->target].field;
-        scan_status st = target_cell(sc, rec->line, fi < nf ? fields[fi].ptr : NULL,
-                                     fi < nf ? fields[fi].len : 0);
-        if (st != SCAN_OK) return st;
-    }
-    row_cells(sc, fields, nf);
-    if (block_row_end(b) != 0) return fail(sc, SCAN_ERR_MEMORY, "out of memory");
-    return SCAN_OK;
-}
-
-/* Takes every complete record out of the reader. */
+/* Hands every complete chunk of the reader to the chunks. */
 static scan_status drain(scan_context *sc)
 {
     while (!sc->done) {
-        reader_record rec;
-        reader_status rs = reader_next(sc->rd, &rec);
-        if (rs == READER_RECORD) {
-            scan_status st = record(sc, &rec);
-            if (st != SCAN_OK) return sc->failed ? sc->failed : fail(sc, st, NULL);
-            continue;
-        }
+        reader_chunk ch;
+        reader_status rs = reader_next_chunk(sc->rd, &ch);
         if (rs == READER_WANT) return SCAN_OK;
         if (rs == READER_ERROR) return fail(sc, SCAN_ERR_INPUT, reader_error(sc->rd));
-        /* The end of a chunk (its cells are about to go) or of the stream. */
-        if (sc->run && block_flush(&sc->blk) != 0)
-            return fail(sc, SCAN_ERR_MEMORY, "out of memory");
-        if (rs == READER_END) sc->done = 1;
+        if (rs == READER_END) { sc->done = 1; break; }
+        int first = 0;
+        if (sc->at_first) {
+            int found;
+            scan_status st = head(sc, &ch, &found);
+            if (st != SCAN_OK) return st;
+            if (sc->done) break; /* a shard's header: nothing more */
+            first = found;
+        } else if (sc->stop_at && ch.offset >= sc->stop_at) {
+            sc->done = 1; /* every record from here on is the next shard's */
+            break;
+        }
+        if (!sc->work) { /* blank lines before the first header: their lines count */
+            for (size_t i = 0; i < ch.len; i++) sc->blank_lines += ch.data[i] == '\n';
+            continue;
+        }
+        scan_status st = chunks_push(sc->work, &ch, first);
+        if (st != SCAN_OK) return worked(sc, st);
     }
     return SCAN_OK;
 }
@@ -338,16 +360,17 @@ static scan_status begin(scan_context *sc, const char *name, uint64_t from, uint
     if (from) snprintf(sc->shown, sizeof sc->shown, "%s (shard; lines counted from byte %llu)",
                        name, (unsigned long long)from);
     else snprintf(sc->shown, sizeof sc->shown, "%s", name);
+    reader_start(sc->rd, sc->shown, from == 0, sc->delim, 0);
     /* The first record of a file is this stream's even when it starts past
-     * the range end (a byte-order mark before a tiny first range): the stop
-     * applies from the second record on. */
-    reader_start(sc->rd, sc->shown, from == 0, sc->delim, from == 0 ? 0 : stop_at);
-    sc->stop_at = from == 0 ? stop_at : 0;
+     * the range end (a byte-order mark before a tiny first range): the
+     * workers exempt it (TAG_FIRST). */
+    sc->stop_at = stop_at;
     sc->open = 1;
     sc->at_first = from == 0;
     sc->done = 0;
-    sc->rows = 0;
     sc->fed_bytes = 0;
+    sc->blank_lines = 0;
+    if (sc->work) chunks_stream(sc->work, sc->shown, stop_at, 0);
     XXH3_64bits_reset(sc->fed_hash);
     return SCAN_OK;
 }
@@ -362,19 +385,23 @@ static scan_status end(scan_context *sc, const summary_source *prov)
         scan_status st = drain(sc);
         if (st != SCAN_OK) return st;
     }
+    if (sc->work) {
+        scan_status st = chunks_wait(sc->work);
+        if (st != SCAN_OK) return worked(sc, st);
+    }
     sc->open = 0;
     if (!sc->delim) sc->delim = reader_delim(sc->rd);
-    if (sc->at_first && !sc->run) {
+    if (sc->at_first && !sc->schema) {
         snprintf(sc->err, sizeof sc->err, "%s: no records (empty input)", sc->name);
         return fail(sc, SCAN_ERR_INPUT, NULL);
     }
     if (sc->header_only) return SCAN_OK;
-    block_bytes(&sc->blk, reader_absorbed(sc->rd));
+    sc->run->bytes += chunks_absorbed(sc->work);
     summary_source rec = *prov;
     rec.path = sc->name;
     rec.start_byte = sc->shard_start;
     rec.end_byte = sc->shard_end;
-    rec.rows = sc->rows;
+    rec.rows = chunks_rows(sc->work);
     if (summary_add_source(sc->run, &rec) != 0) return fail(sc, SCAN_ERR_MEMORY, "out of memory");
     sc->done_bytes += rec.raw_bytes;
     return SCAN_OK;
@@ -385,14 +412,19 @@ scan_context *scan_create(const scan_options *o)
     scan_context *sc = calloc(1, sizeof *sc);
     if (!sc) return NULL;
     sc->o = *o;
-    reader_options ro;
-    reader_options_defaults(&ro);
-    ro.delim = o->delim;
-    ro.chunk_bytes = o->chunk_bytes;
-    ro.max_record_bytes = o->max_record_bytes;
-    sc->rd = reader_create(&ro);
+    reader_options_defaults(&sc->ro);
+    sc->ro.delim = o->delim;
+    sc->ro.chunk_bytes = o->chunk_bytes;
+    sc->ro.max_record_bytes = o->max_record_bytes;
+    sc->rd = reader_create(&sc->ro);
     sc->fed_hash = XXH3_createState();
     if (!sc->rd || !sc->fed_hash) { scan_free(sc); return NULL; }
+    /* The reading thread reads a stream's first record raw: it leaves the
+     * chunk's bytes for the worker that tokenizes them. */
+    sc->head_ro = sc->ro;
+    sc->head_ro.raw = 1;
+    reader_cursor_init(&sc->head, &sc->head_ro);
+    sc->threads = o->threads ? o->threads : pipeline_cpus();
     reader_missing_init(&sc->missing, (const char *const *)o->opt.missing, o->opt.n_missing);
     return sc;
 }
@@ -400,12 +432,16 @@ scan_context *scan_create(const scan_options *o)
 void scan_free(scan_context *sc)
 {
     if (!sc) return;
+    chunks_free(sc->work);
     reader_free(sc->rd);
-    if (sc->run) block_free(&sc->blk);
+    reader_cursor_free(&sc->head);
     summary_free(sc->run);
     if (sc->header)
         for (size_t i = 0; i < sc->file_fields; i++) free(sc->header[i]);
     free(sc->header);
+    free(sc->col_names);
+    free(sc->col_modes);
+    free(sc->field_of);
     free(sc->first_path);
     free(sc->name);
     if (sc->fed_hash) XXH3_freeState(sc->fed_hash);
@@ -414,7 +450,7 @@ void scan_free(scan_context *sc)
 
 const char *scan_error(const scan_context *sc) { return sc->err; }
 
-uint64_t scan_position(const scan_context *sc) { return reader_absorbed(sc->rd); }
+uint64_t scan_position(const scan_context *sc) { return sc->work ? chunks_absorbed(sc->work) : 0; }
 
 scan_status scan_begin(scan_context *sc, const char *name) { return begin(sc, name, 0, 0); }
 
@@ -561,7 +597,8 @@ summary *scan_finish(scan_context *sc)
     if (sc->failed) return NULL;
     if (sc->open) { fail(sc, SCAN_ERR_USAGE, "scan_finish: a stream is still open (scan_end)"); return NULL; }
     if (!sc->run) { fail(sc, SCAN_ERR_INPUT, "no records (nothing was scanned)"); return NULL; }
-    block_free(&sc->blk);
+    chunks_free(sc->work);
+    sc->work = NULL;
     summary *s = sc->run;
     if (summary_seal(s) != 0) { fail(sc, SCAN_ERR_MEMORY, "out of memory"); return NULL; }
     sc->run = NULL;

@@ -1,0 +1,665 @@
+/* chunks: see chunks.h.
+ *
+ * Jobs live in a ring of slots indexed by seq % nslots.  Under one mutex:
+ *   t_next    the next chunk to tokenize (T runs in any order, but is
+ *             handed out in push order);
+ *   r_next    the next chunk for R (chunks before it are through R);
+ *   g_next[j] the next chunk for column j;
+ *   c_next    the next chunk for the co-moments;
+ *   retired   chunks before it are done and their slots free.
+ * A worker takes the oldest ready task: R first (it unlocks the columns),
+ * then the column whose next chunk is oldest, then C, then T.
+ */
+#include "summary/chunks.h"
+
+#include <pthread.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#define XXH_INLINE_ALL
+#include <xxhash.h>
+
+#include "io/number.h"
+#include "io/number_simd.h"
+#include "summary/block.h"
+#include "summary/column.h"
+
+#define CELL_ABSENT UINT32_MAX
+
+enum { T_WAIT = 0, T_BUSY = 1, T_DONE = 2 };
+enum { FAULT_NONE = 0, FAULT_READER, FAULT_MEMORY, FAULT_TOO_BIG };
+
+typedef struct {
+    uint32_t start, end; /* rows [start, end) of the chunk */
+    int classes;         /* class accumulators are kept in this block */
+    int drop;            /* the classes are dropped before it */
+} block_span;
+
+typedef struct {
+    reader_chunk ck;        /* the chunk (its bytes: buf, or the caller's with one thread) */
+    char *buf;              /* the slot's copy */
+    size_t cap;
+    uint64_t seq;
+    int first;              /* holds the stream's first record */
+    int t_state;
+    /* T */
+    reader_cursor cur;
+    int fault;              /* FAULT_* */
+    size_t rows, rows_cap;
+    uint32_t *cell_off;     /* ncols x rows_cap, column-major: offset of each cell in ck.data */
+    uint32_t *cell_len;     /* its length, or CELL_ABSENT */
+    uint64_t *line;         /* rows: line of each row, from the chunk's first */
+    uint32_t *nf;           /* rows: fields of each row */
+    /* R */
+    uint32_t *row_cell, *row_class;
+    double *row_y;
+    unsigned char *row_has_y;
+    block_span *blocks;
+    size_t nblocks, blocks_cap;
+    uint32_t *drop_map;     /* the class conversion at a drop */
+    double *drop_y;
+    uint32_t drop_n;
+    /* G, for C: deviations of the co-moment columns (ncomo x rows_cap) */
+    double *dev;
+    unsigned char *present;
+} job;
+
+struct chunks {
+    chunks_options o;
+    summary *run;
+    size_t ncols, ncomo;
+    int simd;
+    unsigned nslots;
+    job *jobs;
+    /* scheduling */
+    pthread_mutex_t mu;
+    pthread_cond_t work_cv;  /* a task may be ready */
+    pthread_cond_t done_cv;  /* a chunk retired, or a failure */
+    pthread_t *threads;
+    unsigned nthreads;
+    uint64_t pushed, t_next, r_next, c_next, retired;
+    uint64_t *g_next;       /* per column group */
+    unsigned char *g_busy;
+    size_t ngroups;         /* column groups: G tasks are (chunk, group) */
+    size_t *group_cols;     /* the columns of group g: group_cols[group_at[g] .. group_at[g+1]) */
+    size_t *group_at;
+    int r_busy, c_busy, quit;
+    scan_status failed;
+    char err[4608];
+    /* R's state (one R at a time) */
+    const char *shown;
+    uint64_t stop_at;
+    uint64_t lines, rows, absorbed;
+    number_decimal target_ref;
+    int target_ref_set;
+    /* C's scratch */
+    block_como bc;
+    const double **devp;
+    const unsigned char **presp;
+    block_lane inline_lane; /* G's scratch with one thread */
+};
+
+/* ---- T: tokenize --------------------------------------------------------- */
+
+static int grow_rows(chunks *w, job *j)
+{
+    size_t cap = j->rows_cap ? 2 * j->rows_cap : 4096, n = w->ncols ? w->ncols : 1;
+    uint32_t *off = malloc(n * cap * sizeof *off), *len = malloc(n * cap * sizeof *len);
+    uint64_t *line = realloc(j->line, cap * sizeof *line);
+    if (line) j->line = line;
+    uint32_t *nf = realloc(j->nf, cap * sizeof *nf);
+    if (nf) j->nf = nf;
+    if (!off || !len || !line || !nf) { free(off); free(len); return -1; }
+    for (size_t c = 0; j->rows && c < w->ncols; c++) {
+        memcpy(off + c * cap, j->cell_off + c * j->rows_cap, j->rows * sizeof *off);
+        memcpy(len + c * cap, j->cell_len + c * j->rows_cap, j->rows * sizeof *len);
+    }
+    free(j->cell_off);
+    free(j->cell_len);
+    j->cell_off = off;
+    j->cell_len = len;
+    j->rows_cap = cap;
+    return 0;
+}
+
+static void tokenize(chunks *w, job *j)
+{
+    j->rows = 0;
+    j->fault = FAULT_NONE;
+    if (j->ck.len > UINT32_MAX - 64) { j->fault = FAULT_TOO_BIG; return; }
+    reader_cursor_start(&j->cur, &j->ck, w->stop_at, j->first);
+    int skip = j->first && w->o.header;
+    const int *field_of = w->o.field_of;
+    const size_t ncols = w->ncols;
+    const char *base = j->ck.data;
+    for (;;) {
+        reader_record rec;
+        reader_status rs = reader_cursor_next(&j->cur, &rec);
+        if (rs == READER_ERROR) {
+            j->fault = j->cur.fault == READER_FAULT_NOMEM ? FAULT_MEMORY : FAULT_READER;
+            return;
+        }
+        if (rs != READER_RECORD) return;
+        if (skip) { skip = 0; continue; } /* the header, read by the reading thread */
+        if (j->rows == j->rows_cap && grow_rows(w, j) != 0) { j->fault = FAULT_MEMORY; return; }
+        size_t r = j->rows++, cap = j->rows_cap, nfields = rec.nfields;
+        j->line[r] = rec.line;
+        j->nf[r] = (uint32_t)(nfields < UINT32_MAX ? nfields : UINT32_MAX);
+        for (size_t c = 0; c < ncols; c++) {
+            size_t fi = (size_t)field_of[c];
+            uint32_t len = CELL_ABSENT, off = 0;
+            if (fi < nfields) {
+                const char *p = rec.fields[fi].ptr;
+                uint32_t l = rec.fields[fi].len;
+                if (!reader_is_missing(w->o.missing, p, l)) {
+                    len = l;
+                    off = (uint32_t)(p - base);
+                }
+            }
+            j->cell_off[c * cap + r] = off;
+            j->cell_len[c * cap + r] = len;
+        }
+    }
+}
+
+/* ---- R: rows, in chunk order --------------------------------------------- */
+
+
+static int add_block(job *j, uint32_t start, uint32_t end, int classes, int drop)
+{
+    if (j->nblocks == j->blocks_cap) {
+        size_t cap = j->blocks_cap ? 2 * j->blocks_cap : 64;
+        block_span *b = realloc(j->blocks, cap * sizeof *b);
+        if (!b) return -1;
+        j->blocks = b;
+        j->blocks_cap = cap;
+    }
+    j->blocks[j->nblocks++] = (block_span){start, end, classes, drop};
+    return 0;
+}
+
+static int grow_row_arrays(chunks *w, job *j)
+{
+    size_t cap = j->rows_cap ? j->rows_cap : 1, p = w->ncomo;
+    uint32_t *cell = realloc(j->row_cell, cap * sizeof *cell);
+    if (cell) j->row_cell = cell;
+    uint32_t *cls = realloc(j->row_class, cap * sizeof *cls);
+    if (cls) j->row_class = cls;
+    double *y = realloc(j->row_y, cap * sizeof *y);
+    if (y) j->row_y = y;
+    unsigned char *hy = realloc(j->row_has_y, cap);
+    if (hy) j->row_has_y = hy;
+    double *dev = p ? realloc(j->dev, p * cap * sizeof *dev) : j->dev;
+    if (dev) j->dev = dev;
+    unsigned char *pr = p ? realloc(j->present, p * cap) : j->present;
+    if (pr) j->present = pr;
+    return cell && cls && y && hy && (!p || (dev && pr)) ? 0 : -1;
+}
+
+/* The message of a failure at a row (absolute line), in w->err. */
+static scan_status row_error(chunks *w, scan_status st, const char *fmt, uint64_t line, size_t nf)
+{
+    if (st == SCAN_ERR_MEMORY) snprintf(w->err, sizeof w->err, "out of memory");
+    else if (nf != (size_t)-1)
+        snprintf(w->err, sizeof w->err, fmt, w->shown, (unsigned long long)line, nf, w->o.width);
+    else
+        snprintf(w->err, sizeof w->err, fmt, w->shown, (unsigned long long)line,
+                 w->run->opt.target, w->run->opt.max_classes);
+    return st;
+}
+
+/* The target cell of row r (p NULL: absent): block_rows semantics. */
+static scan_status target_row(chunks *w, job *j, size_t r, const char *p, uint32_t len,
+                              uint32_t *block_start, int *classes)
+{
+    summary *s = w->run;
+    j->row_cell[r] = j->row_class[r] = 0;
+    j->row_has_y[r] = 0;
+    if (!p) return SCAN_OK;
+    summary_column *tc = &s->cols[s->target];
+    number_decimal d;
+    int finite = tc->mode != COLUMN_CATEGORICAL && number_parse(p, len, &d) == NUMBER_FINITE;
+    if (!finite) s->target_text++;
+    if (s->has_classes) {
+        uint32_t k = summary_class_of(s, XXH3_64bits(p, len), p, len, finite ? &d : NULL);
+        if (k) {
+            s->class_rows[k - 1]++;
+            j->row_cell[r] = j->row_class[r] = k;
+            return SCAN_OK;
+        }
+        /* One class too many: a numeric target continues as a regression
+         * target, a text one cannot. */
+        int numeric = finite && s->opt.task != TASK_CLASSIFY;
+        for (uint32_t c = 0; numeric && c < s->nclasses; c++) numeric = s->class_numeric[c];
+        if (!numeric)
+            return row_error(w, SCAN_ERR_INPUT,
+                             "%s: line %llu: target '%s' has more than %u classes; raise "
+                             "--max-classes or use --task regress",
+                             w->lines + j->line[r], (size_t)-1);
+        /* The rows before end a block; the columns convert before the next. */
+        if (r > *block_start && add_block(j, *block_start, (uint32_t)r, 1, 0) != 0)
+            return SCAN_ERR_MEMORY;
+        *block_start = (uint32_t)r;
+        if (summary_class_conversion(s, w->target_ref_set ? &w->target_ref : NULL, &j->drop_map,
+                                     &j->drop_y) != 0)
+            return SCAN_ERR_MEMORY;
+        j->drop_n = s->nclasses + 1;
+        s->has_classes = 0;
+        s->classes_dropped = 1;
+        for (uint32_t c = 0; c < s->nclasses; c++) free(s->class_label[c]);
+        s->nclasses = 0;
+        *classes = -1; /* the next block drops them */
+    }
+    if (finite) {
+        if (!w->target_ref_set) {
+            w->target_ref = d;
+            w->target_ref_set = 1;
+        }
+        j->row_cell[r] = summary_target_cell(d.value);
+        j->row_y[r] = number_difference(&d, &w->target_ref, NULL);
+        j->row_has_y[r] = 1;
+    }
+    return SCAN_OK;
+}
+
+static scan_status rows_of(chunks *w, job *j)
+{
+    summary *s = w->run;
+    j->nblocks = 0;
+    if (j->fault == FAULT_READER) {
+        reader_cursor_message(&j->cur, w->shown, w->lines, w->err, sizeof w->err);
+        return SCAN_ERR_INPUT;
+    }
+    if (j->fault == FAULT_TOO_BIG) {
+        snprintf(w->err, sizeof w->err,
+                 "%s: a chunk of %zu bytes is over the 4 GiB a chunk may hold; lower "
+                 "--chunk-size or --max-record", w->shown, j->ck.len);
+        return SCAN_ERR_USAGE;
+    }
+    if (j->fault == FAULT_MEMORY || grow_row_arrays(w, j) != 0) return row_error(w, SCAN_ERR_MEMORY, NULL, 0, 0);
+    const int target = s->target;
+    uint32_t start = 0;
+    int classes = s->has_classes, drop = 0;
+    for (size_t r = 0; r < j->rows; r++) {
+        s->rows++;
+        w->rows++;
+        if (j->nf[r] != w->o.width) {
+            int short_row = j->nf[r] < w->o.width;
+            if (short_row) s->short_rows++;
+            else s->long_rows++;
+            uint64_t line = w->lines + j->line[r];
+            if (s->n_bad_lines < SUMMARY_BAD_LINES) s->bad_lines[s->n_bad_lines++] = line;
+            if (w->o.strict)
+                return row_error(w, SCAN_ERR_INPUT,
+                                 "%s: line %llu: %zu fields, the header has %zu (--strict)", line,
+                                 j->nf[r]);
+        }
+        if (target >= 0) {
+            size_t at = (size_t)target * j->rows_cap + r;
+            uint32_t len = j->cell_len[at];
+            const char *p = len == CELL_ABSENT ? NULL : j->ck.data + j->cell_off[at];
+            int cl = classes;
+            scan_status st = target_row(w, j, r, p, len == CELL_ABSENT ? 0 : len, &start, &cl);
+            if (st != SCAN_OK) return st == SCAN_ERR_MEMORY ? row_error(w, st, NULL, 0, 0) : st;
+            if (cl < 0) { /* dropped at this row, which opens a block without classes */
+                classes = 0;
+                drop = 1;
+            }
+        }
+        if (r + 1 - start == SUMMARY_BLOCK_ROWS || r + 1 == j->rows) {
+            if (add_block(j, start, (uint32_t)(r + 1), classes, drop) != 0)
+                return row_error(w, SCAN_ERR_MEMORY, NULL, 0, 0);
+            start = (uint32_t)(r + 1);
+            drop = 0;
+        }
+    }
+    w->lines += j->cur.lines;
+    w->absorbed = j->cur.absorbed;
+    return SCAN_OK;
+}
+
+/* ---- G: one column, C: the co-moments ------------------------------------ */
+
+/* One block of one column: its cells into the lane, decoded, kept for the
+ * co-moments, fed. */
+static int column_block(chunks *w, job *j, size_t col, const block_span *sp, block_lane *l)
+{
+    summary *s = w->run;
+    summary_column *c = &s->cols[col];
+    const int k = s->como_of[col];
+    const size_t cap = j->rows_cap;
+    const uint32_t *off = j->cell_off + col * cap, *len = j->cell_len + col * cap;
+    if (sp->drop && c->cls &&
+        column_drop_classes(c, j->drop_map, j->drop_y, j->drop_n, s->opt.bucket_budget) != 0)
+        return -1;
+    l->ref_set = c->mom.has_ref;
+    if (l->ref_set) number_ref_set(&l->ref, &c->mom.ref);
+    l->ncells = 0;
+    l->nnum = 0;
+    for (uint32_t r = sp->start; r < sp->end; r++) {
+        if (len[r] == CELL_ABSENT) { c->missing++; continue; }
+        block_lane_cell(l, j->ck.data + off[r], len[r], r - sp->start);
+    }
+    block_decode(c, l, w->simd);
+    if (k >= 0) {
+        double *dev = j->dev + (size_t)k * cap + sp->start;
+        unsigned char *pr = j->present + (size_t)k * cap + sp->start;
+        memset(pr, 0, sp->end - sp->start);
+        for (size_t i = 0; i < l->nnum; i++) {
+            dev[l->num_row[i]] = l->dev[i];
+            pr[l->num_row[i]] = 1;
+        }
+    }
+    block_rows rows = {sp->end - sp->start, j->row_cell + sp->start, j->row_class + sp->start,
+                       j->row_y + sp->start, j->row_has_y + sp->start, sp->classes,
+                       s->target >= 0};
+    return block_feed(c, l, &rows);
+}
+
+/* A group of columns through the chunk, block by block (the block's rows
+ * stay in cache while its columns are fed). */
+static int group_of(chunks *w, job *j, size_t g, block_lane *l)
+{
+    for (size_t b = 0; b < j->nblocks; b++)
+        for (size_t i = w->group_at[g]; i < w->group_at[g + 1]; i++)
+            if (column_block(w, j, w->group_cols[i], &j->blocks[b], l) != 0) return -1;
+    return 0;
+}
+
+static int comoments_of(chunks *w, job *j)
+{
+    summary *s = w->run;
+    const size_t cap = j->rows_cap;
+    for (size_t b = 0; b < j->nblocks; b++) {
+        const block_span *sp = &j->blocks[b];
+        for (size_t k = 0; k < w->ncomo; k++) {
+            w->devp[k] = j->dev + k * cap + sp->start;
+            w->presp[k] = j->present + k * cap + sp->start;
+        }
+        if (block_comoments(s, &w->bc, w->devp, w->presp, sp->end - sp->start) != 0) return -1;
+    }
+    return 0;
+}
+
+/* ---- scheduling ------------------------------------------------------------ */
+
+typedef enum { TASK_NONE, TASK_T, TASK_R, TASK_G, TASK_C } task_kind;
+
+static job *slot_of(chunks *w, uint64_t seq) { return &w->jobs[seq % w->nslots]; }
+
+static uint64_t min_g(const chunks *w)
+{
+    uint64_t m = w->r_next;
+    for (size_t g = 0; g < w->ngroups; g++)
+        if (w->g_next[g] < m) m = w->g_next[g];
+    return m;
+}
+
+/* Frees the slots of chunks that are done.  Under the lock. */
+static void retire(chunks *w)
+{
+    uint64_t done = w->ncomo ? w->c_next : min_g(w);
+    if (done > w->retired) {
+        w->retired = done;
+        pthread_cond_broadcast(&w->done_cv);
+    }
+}
+
+static scan_status fail_locked(chunks *w, scan_status st)
+{
+    if (!w->failed) w->failed = st;
+    pthread_cond_broadcast(&w->done_cv);
+    pthread_cond_broadcast(&w->work_cv);
+    return st;
+}
+
+/* The oldest ready task.  Under the lock. */
+static task_kind pick(chunks *w, uint64_t *seq, size_t *col)
+{
+    if (w->failed) return TASK_NONE;
+    if (!w->r_busy && w->r_next < w->pushed && slot_of(w, w->r_next)->t_state == T_DONE) {
+        w->r_busy = 1;
+        *seq = w->r_next;
+        return TASK_R;
+    }
+    size_t best = (size_t)-1;
+    for (size_t g = 0; g < w->ngroups; g++)
+        if (!w->g_busy[g] && w->g_next[g] < w->r_next &&
+            (best == (size_t)-1 || w->g_next[g] < w->g_next[best]))
+            best = g;
+    if (w->ncomo && !w->c_busy && w->c_next < min_g(w) &&
+        (best == (size_t)-1 || w->c_next <= w->g_next[best])) {
+        w->c_busy = 1;
+        *seq = w->c_next;
+        return TASK_C;
+    }
+    if (best != (size_t)-1) {
+        w->g_busy[best] = 1;
+        *seq = w->g_next[best];
+        *col = best;
+        return TASK_G;
+    }
+    if (w->t_next < w->pushed) {
+        *seq = w->t_next++;
+        slot_of(w, *seq)->t_state = T_BUSY;
+        return TASK_T;
+    }
+    return TASK_NONE;
+}
+
+/* Runs a task outside the lock; returns its status. */
+static scan_status run_task(chunks *w, task_kind t, uint64_t seq, size_t col, block_lane *lane)
+{
+    job *j = slot_of(w, seq);
+    switch (t) {
+    case TASK_T: tokenize(w, j); return SCAN_OK;
+    case TASK_R: return rows_of(w, j);
+    case TASK_G:
+        if (group_of(w, j, col, lane) == 0) return SCAN_OK;
+        snprintf(w->err, sizeof w->err, "out of memory");
+        return SCAN_ERR_MEMORY;
+    case TASK_C:
+        if (comoments_of(w, j) == 0) return SCAN_OK;
+        snprintf(w->err, sizeof w->err, "out of memory");
+        return SCAN_ERR_MEMORY;
+    default: return SCAN_OK;
+    }
+}
+
+/* After a task: its counters.  Under the lock. */
+static void finish_task(chunks *w, task_kind t, uint64_t seq, size_t col, scan_status st)
+{
+    switch (t) {
+    case TASK_T: slot_of(w, seq)->t_state = T_DONE; break;
+    case TASK_R: w->r_busy = 0; if (st == SCAN_OK) w->r_next++; break;
+    case TASK_G: w->g_busy[col] = 0; if (st == SCAN_OK) w->g_next[col]++; break;
+    case TASK_C: w->c_busy = 0; if (st == SCAN_OK) w->c_next++; break;
+    default: break;
+    }
+    if (st != SCAN_OK) fail_locked(w, st);
+    retire(w);
+    pthread_cond_broadcast(&w->work_cv);
+    /* chunks_wait also waits for the tasks still running after a failure. */
+    if (w->failed) pthread_cond_broadcast(&w->done_cv);
+}
+
+static void *worker(void *arg)
+{
+    chunks *w = arg;
+    block_lane lane;
+    int ok = block_lane_init(&lane) == 0;
+    pthread_mutex_lock(&w->mu);
+    if (!ok) {
+        snprintf(w->err, sizeof w->err, "out of memory");
+        fail_locked(w, SCAN_ERR_MEMORY);
+    }
+    while (ok && !w->quit) {
+        uint64_t seq;
+        size_t col = 0;
+        task_kind t = pick(w, &seq, &col);
+        if (t == TASK_NONE) { pthread_cond_wait(&w->work_cv, &w->mu); continue; }
+        pthread_mutex_unlock(&w->mu);
+        scan_status st = run_task(w, t, seq, col, &lane);
+        pthread_mutex_lock(&w->mu);
+        finish_task(w, t, seq, col, st);
+    }
+    pthread_mutex_unlock(&w->mu);
+    block_lane_free(&lane);
+    return NULL;
+}
+
+/* ---- the interface ----------------------------------------------------------- */
+
+chunks *chunks_create(const chunks_options *o)
+{
+    chunks *w = calloc(1, sizeof *w);
+    if (!w) return NULL;
+    w->o = *o;
+    w->run = o->run;
+    w->ncols = o->run->ncols;
+    w->ncomo = o->run->ncomo;
+    w->simd = number_simd_usable();
+    unsigned threads = o->threads ? o->threads : 1;
+    w->nslots = threads > 1 ? (o->slots > threads ? o->slots : threads) : 1;
+    w->jobs = calloc(w->nslots, sizeof *w->jobs);
+    /* Column groups: one with one thread; else two per thread (the columns
+     * dealt out in turn), so that a worker finds a group to feed while
+     * another is busy.  Groups decide only who feeds a column, never what. */
+    w->ngroups = threads > 1 ? 2 * (size_t)threads : 1;
+    if (w->ngroups > w->ncols) w->ngroups = w->ncols ? w->ncols : 1;
+    w->g_next = calloc(w->ngroups, sizeof *w->g_next);
+    w->g_busy = calloc(w->ngroups, 1);
+    w->group_cols = calloc(w->ncols ? w->ncols : 1, sizeof *w->group_cols);
+    w->group_at = calloc(w->ngroups + 1, sizeof *w->group_at);
+    if (w->group_cols && w->group_at) {
+        size_t n = 0;
+        for (size_t g = 0; g < w->ngroups; g++) {
+            w->group_at[g] = n;
+            for (size_t c = g; c < w->ncols; c += w->ngroups) w->group_cols[n++] = c;
+        }
+        w->group_at[w->ngroups] = n;
+    }
+    w->devp = calloc(w->ncomo ? w->ncomo : 1, sizeof *w->devp);
+    w->presp = calloc(w->ncomo ? w->ncomo : 1, sizeof *w->presp);
+    w->threads = calloc(threads, sizeof *w->threads);
+    pthread_mutex_init(&w->mu, NULL);
+    pthread_cond_init(&w->work_cv, NULL);
+    pthread_cond_init(&w->done_cv, NULL);
+    if (!w->jobs || !w->g_next || !w->g_busy || !w->group_cols || !w->group_at || !w->devp || !w->presp || !w->threads ||
+        block_como_init(&w->bc, w->ncomo) != 0 || block_lane_init(&w->inline_lane) != 0) {
+        chunks_free(w);
+        return NULL;
+    }
+    for (unsigned i = 0; i < w->nslots; i++) reader_cursor_init(&w->jobs[i].cur, o->ro);
+    if (threads > 1)
+        for (unsigned i = 0; i < threads; i++) {
+            if (pthread_create(&w->threads[w->nthreads], NULL, worker, w) != 0) break;
+            w->nthreads++;
+        }
+    return w;
+}
+
+void chunks_free(chunks *w)
+{
+    if (!w) return;
+    pthread_mutex_lock(&w->mu);
+    w->quit = 1;
+    pthread_cond_broadcast(&w->work_cv);
+    pthread_mutex_unlock(&w->mu);
+    for (unsigned i = 0; i < w->nthreads; i++) pthread_join(w->threads[i], NULL);
+    for (unsigned i = 0; w->jobs && i < w->nslots; i++) {
+        job *j = &w->jobs[i];
+        free(j->buf); free(j->cell_off); free(j->cell_len); free(j->line); free(j->nf);
+        free(j->row_cell); free(j->row_class); free(j->row_y); free(j->row_has_y);
+        free(j->blocks); free(j->drop_map); free(j->drop_y); free(j->dev); free(j->present);
+        reader_cursor_free(&j->cur);
+    }
+    block_como_free(&w->bc);
+    block_lane_free(&w->inline_lane);
+    pthread_mutex_destroy(&w->mu);
+    pthread_cond_destroy(&w->work_cv);
+    pthread_cond_destroy(&w->done_cv);
+    free(w->jobs); free(w->g_next); free(w->g_busy); free(w->group_cols); free(w->group_at); free(w->devp); free(w->presp);
+    free(w->threads);
+    free(w);
+}
+
+void chunks_stream(chunks *w, const char *shown, uint64_t stop_at, uint64_t lines)
+{
+    w->shown = shown;
+    w->stop_at = stop_at;
+    w->lines = lines;
+    w->rows = w->absorbed = 0;
+}
+
+/* One thread: every task of the chunk now, on the caller's bytes. */
+static scan_status push_inline(chunks *w, const reader_chunk *c, int first)
+{
+    job *j = &w->jobs[0];
+    j->ck = *c;
+    j->first = first;
+    j->seq = w->pushed++;
+    tokenize(w, j);
+    scan_status st = rows_of(w, j);
+    for (size_t g = 0; st == SCAN_OK && g < w->ngroups; g++)
+        st = run_task(w, TASK_G, j->seq, g, &w->inline_lane);
+    if (st == SCAN_OK && w->ncomo) st = run_task(w, TASK_C, j->seq, 0, NULL);
+    if (st != SCAN_OK) w->failed = st;
+    return st;
+}
+
+scan_status chunks_push(chunks *w, const reader_chunk *c, int first)
+{
+    if (!w->nthreads) return w->failed ? w->failed : push_inline(w, c, first);
+    pthread_mutex_lock(&w->mu);
+    while (!w->failed && w->pushed - w->retired >= w->nslots)
+        pthread_cond_wait(&w->done_cv, &w->mu);
+    scan_status failed = w->failed;
+    uint64_t seq = w->pushed;
+    pthread_mutex_unlock(&w->mu);
+    if (failed) return failed;
+    job *j = slot_of(w, seq); /* free: nothing looks at it until it is pushed */
+    size_t need = c->len + CHUNK_PADDING;
+    if (need > j->cap) {
+        char *nb = realloc(j->buf, need);
+        if (!nb) {
+            pthread_mutex_lock(&w->mu);
+            snprintf(w->err, sizeof w->err, "out of memory");
+            fail_locked(w, SCAN_ERR_MEMORY);
+            pthread_mutex_unlock(&w->mu);
+            return SCAN_ERR_MEMORY;
+        }
+        j->buf = nb;
+        j->cap = need;
+    }
+    memcpy(j->buf, c->data, need); /* the padding too: zero past the data */
+    j->ck = *c;
+    j->ck.data = j->buf;
+    j->first = first;
+    j->seq = seq;
+    pthread_mutex_lock(&w->mu);
+    j->t_state = T_WAIT;
+    w->pushed++;
+    pthread_cond_broadcast(&w->work_cv);
+    pthread_mutex_unlock(&w->mu);
+    return SCAN_OK;
+}
+
+scan_status chunks_wait(chunks *w)
+{
+    if (!w->nthreads) return w->failed;
+    pthread_mutex_lock(&w->mu);
+    /* After a failure, tasks already running finish (they may still use the
+     * slots); none starts. */
+    while (w->retired < w->pushed && !(w->failed && !w->r_busy && !w->c_busy &&
+                                       !memchr(w->g_busy, 1, w->ngroups)))
+        pthread_cond_wait(&w->done_cv, &w->mu);
+    scan_status st = w->failed;
+    pthread_mutex_unlock(&w->mu);
+    return st;
+}
+
+const char *chunks_error(const chunks *w) { return w->err; }
+uint64_t chunks_rows(const chunks *w) { return w->rows; }
+uint64_t chunks_lines(const chunks *w) { return w->lines; }
+uint64_t chunks_absorbed(const chunks *w) { return w->absorbed; }

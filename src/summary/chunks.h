@@ -1,0 +1,75 @@
+/* chunks: a scan's chunks of records into its summary, on any number of
+ * threads, with the summary the same byte for byte for every thread count.
+ *
+ * Each chunk (cut by the bytes alone, io/chunk.h) goes through four kinds
+ * of task:
+ *   T  tokenize: the chunk's records (reader_cursor), each scanned column's
+ *      cells (offset and length, or absent after the missing test), each
+ *      row's line and width.  Any chunk, any thread, any order.
+ *   R  rows: in chunk order, one at a time: row counts, ragged rows, the
+ *      target cell of every row (its class in the one class dictionary, or
+ *      its regression cell and value), where the chunk's blocks of rows end,
+ *      and every error a single thread would meet first (with its line).
+ *   G  column j: in chunk order for that column, one at a time per column,
+ *      columns in parallel: its cells block by block into its accumulators
+ *      (summary/block.h), its numbers kept for the co-moments.
+ *   C  co-moments: in chunk order, once every column is done with the
+ *      chunk: the chunk's blocks into the co-moment matrix.
+ * Every accumulator therefore sees exactly the values, in exactly the
+ * blocks and the order, that a single thread gives it: the summary does not
+ * depend on the thread count or the scheduling, and equals what one thread
+ * makes.  A chunk's slot is free once its C (or, without co-moments, its
+ * last G) is done; slots bound the memory: the chunk's bytes, 8 bytes per
+ * cell and 9 per co-moment cell.
+ *
+ * With one thread nothing is copied and no thread starts: each pushed chunk
+ * goes through T, R, every G and C on the caller's thread.
+ */
+#ifndef SHEAF_CHUNKS_H
+#define SHEAF_CHUNKS_H
+
+#include <stddef.h>
+#include <stdint.h>
+
+#include "io/reader.h"
+#include "summary/scan.h"
+#include "summary/summary.h"
+
+typedef struct {
+    summary *run;                  /* the summary fed (borrowed) */
+    const int *field_of;           /* field index of each of run's columns */
+    size_t width;                  /* fields in the header */
+    int header;                    /* a stream's first record is its header */
+    int strict;                    /* a ragged row is an error */
+    const reader_options *ro;      /* the reader's options (borrowed) */
+    const reader_missing *missing; /* the missing-cell test (borrowed) */
+    unsigned threads;              /* worker threads (1: none) */
+    unsigned slots;                /* chunks in flight (>= threads) */
+} chunks_options;
+
+typedef struct chunks chunks;
+
+chunks *chunks_create(const chunks_options *o);
+void chunks_free(chunks *w);
+
+/* A stream begins: its name in messages (borrowed until chunks_wait), its
+ * stop offset (records that start there or later are another shard's; 0:
+ * none) and the lines before its first chunk pushed (blank lines).  Call
+ * with nothing in flight. */
+void chunks_stream(chunks *w, const char *shown, uint64_t stop_at, uint64_t lines);
+/* Hands a chunk over (first: it holds the stream's first record, which the
+ * caller has read: skipped when it is a header, exempt from the stop
+ * offset).  Blocks while every slot is busy.  SCAN_OK or the failure. */
+scan_status chunks_push(chunks *w, const reader_chunk *c, int first);
+/* Waits until every pushed chunk is in the summary.  SCAN_OK or the failure
+ * (chunks_error tells). */
+scan_status chunks_wait(chunks *w);
+const char *chunks_error(const chunks *w);
+
+/* The stream so far (after chunks_wait): data rows, lines, and the offset
+ * after the last record absorbed. */
+uint64_t chunks_rows(const chunks *w);
+uint64_t chunks_lines(const chunks *w);
+uint64_t chunks_absorbed(const chunks *w);
+
+#endif
