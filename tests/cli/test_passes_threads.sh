@@ -153,6 +153,8 @@ for cmd in trim project; do
     quiet_ok=0
     [ "$RC" = 0 ] && [ ! -s "$T/err" ] && quiet_ok=1
     check "no_progress_off_terminal.$cmd" "exit $RC, stderr: $(err_text)" [ $quiet_ok = 1 ]
+    # trim's --q is the significance level; -q alone is --quiet.
+    [ $cmd = trim ] && args="$args --q 0.05"
     run $SHEAF $cmd "$T/t.csv" $args -q -j2 -o "$T/quiet.csv"
     check "quiet_accepted.$cmd" "exit $RC: $(err_text)" [ "$RC" = 0 ]
 done
