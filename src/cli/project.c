@@ -25,8 +25,8 @@ int cmd_project(int argc, char **argv)
     const char *pca_path = NULL, *out_path = NULL, *delim_s = NULL, *carry_s = NULL;
     const char *basis = NULL, *cols = NULL, *exclude = NULL, *keep = NULL;
     const char *k_s = NULL, *share_s = NULL, *numshare_s = NULL;
-    const char *chunk = NULL, *maxrec = NULL;
-    int with_target = 0, no_header = 0;
+    const char *chunk = NULL, *maxrec = NULL, *threads = NULL;
+    int with_target = 0, no_header = 0, quiet = 0;
     const cli_option opts[] = {
         {"pca", 0, "FILE.sheaf", "summary of the data the components come from (required)",
          &pca_path, NULL},
@@ -50,6 +50,8 @@ int cmd_project(int argc, char **argv)
         {"no-header", 0, NULL, "first row is data; columns are named col1..colN", NULL, &no_header},
         {"chunk-size", 0, "SIZE", "bytes per chunk, e.g. 4M (default 4 MiB)", &chunk, NULL},
         {"max-record", 0, "SIZE", "longest record accepted (default 64 MiB)", &maxrec, NULL},
+        {"threads", 'j', "N", CLI_THREADS_HELP, &threads, NULL},
+        {"quiet", 'q', NULL, "no progress line", NULL, &quiet},
         {0},
     };
     const cli_command cmd = {
@@ -82,6 +84,7 @@ int cmd_project(int argc, char **argv)
         goto done;
     }
     if (cli_parse_reading("project", chunk, maxrec, &po.read.chunk_bytes, &po.read.max_record_bytes)) goto done;
+    if (cli_parse_threads("project", threads, &po.threads)) goto done;
     if (carry_s) {
         carry_buf = strdup(carry_s);
         carry = calloc(strlen(carry_s) / 2 + 2, sizeof *carry);
@@ -98,8 +101,13 @@ int cmd_project(int argc, char **argv)
         rc = EXIT_FAILED;
         goto done;
     }
+    cli_progress bar;
+    cli_progress_start(&bar, "project", quiet);
+    po.progress = cli_progress_update;
+    po.progress_ctx = &bar;
     project_status ps = project_files(s, r, k, &po, (const char *const *)pos, npos, out, err,
                                       sizeof err);
+    cli_progress_end(&bar);
     rc = ps == PROJECT_OK           ? EXIT_DONE
          : ps == PROJECT_ERR_INPUT  ? EXIT_INPUT
          : ps == PROJECT_ERR_OUTPUT ? EXIT_FAILED

@@ -77,8 +77,8 @@ int cmd_trim(int argc, char **argv)
     const char *from = NULL, *keep_list = NULL, *carry = NULL, *out_path = NULL, *delim_s = NULL;
     screen_options so;
     screen_options_defaults(&so);
-    const char *q = NULL, *top = NULL, *chunk = NULL, *maxrec = NULL;
-    int no_header = 0;
+    const char *q = NULL, *top = NULL, *chunk = NULL, *maxrec = NULL, *threads = NULL;
+    int no_header = 0, quiet = 0;
     const cli_option opts[] = {
         {"from", 0, "SUMMARY.sheaf", "keep what `sheaf screen` keeps on this summary", &from, NULL},
         {"keep-list", 0, "FILE", "keep the columns named in FILE, one per line", &keep_list, NULL},
@@ -91,6 +91,8 @@ int cmd_trim(int argc, char **argv)
         {"max-record", 0, "SIZE", "longest record accepted (default 64 MiB)", &maxrec, NULL},
         {"q", 0, "LEVEL", "as in screen: significance level (default 0.05)", &q, NULL},
         {"top", 0, "K", "as in screen: keep at most K columns", &top, NULL},
+        {"threads", 'j', "N", CLI_THREADS_HELP, &threads, NULL},
+        {"quiet", 'q', NULL, "no progress line", NULL, &quiet},
         {0},
     };
     const cli_command cmd = {
@@ -120,6 +122,7 @@ int cmd_trim(int argc, char **argv)
     trim_options_defaults(&to);
     to.header = !no_header;
     if (cli_parse_reading("trim", chunk, maxrec, &to.read.chunk_bytes, &to.read.max_record_bytes)) goto done;
+    if (cli_parse_threads("trim", threads, &to.threads)) goto done;
     if (q && cli_parse_unit("trim", "--q", q, &so.q_level)) goto done;
     if (top) {
         long long v = cli_parse_count(top);
@@ -150,7 +153,12 @@ int cmd_trim(int argc, char **argv)
     to.keep = keep.names;
     to.nkeep = keep.n;
     to.read.delim = delim;
+    cli_progress ps;
+    cli_progress_start(&ps, "trim", quiet);
+    to.progress = cli_progress_update;
+    to.progress_ctx = &ps;
     trim_status ts = trim_files(&to, (const char *const *)pos, npos, out, err, sizeof err);
+    cli_progress_end(&ps);
     if (ts != TRIM_OK) {
         cli_error("trim", "%s", err);
         rc = ts == TRIM_ERR_USAGE    ? EXIT_USAGE

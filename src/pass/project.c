@@ -9,7 +9,7 @@
 
 #include "io/number.h"
 #include "io/reader.h"
-#include "io/source.h"
+#include "pass/stream.h"
 #include "summary/access.h"
 
 #define BLOCK_ROWS 256
@@ -111,6 +111,22 @@ static char *put_g10(char *d, double v)
 
 /* ---- the pass over the data --------------------------------------------- */
 
+/* Per slot of the pipeline: the block of rows being built and the chunk's
+ * formatted rows, each with the room it reserves in the sink. */
+typedef struct {
+    size_t rows;               /* rows in the block */
+    double *x;                 /* BLOCK_ROWS x p */
+    double *scores;            /* BLOCK_ROWS x k */
+    csv_field *carried;        /* BLOCK_ROWS x ncarry */
+    char *buf;                 /* the chunk's formatted rows, back to back */
+    size_t len, cap;           /* bytes in buf, allocated */
+    struct {
+        size_t len;            /* bytes of a formatted row */
+        size_t need;           /* what it reserves in the sink */
+    } *row;
+    size_t nrows, rows_cap;    /* formatted rows, allocated */
+} project_slot;
+
 typedef struct {
     const summary *s;
     const pca_result *r;
@@ -118,57 +134,71 @@ typedef struct {
     int header;                /* files start with a header */
     char *const *carry;        /* carried column names */
     size_t ncarry;
-    size_t *field_of;          /* p: field index of each basis column in this file */
-    size_t *carry_field;       /* ncarry: field index of each carried column */
-    reader *rd;                /* the record reader */
-    reader_missing missing;    /* the missing-cell test */
+    /* Fixed by the reading thread before a worker sees a row of the file: */
+    size_t **maps;             /* per file: the field index of each basis column (p), then
+                                  of each carried column (ncarry) */
+    size_t nfiles;
     char *name;                /* scratch for a column name */
-    /* The current block. */
-    size_t rows;
-    double *x;                 /* BLOCK_ROWS x p */
-    double *scores;            /* BLOCK_ROWS x k */
-    csv_field *carried;        /* BLOCK_ROWS x ncarry */
+    reader_missing missing;    /* the missing-cell test */
     size_t row_bytes;          /* upper bound on the output bytes of a row, carries aside */
-    uint64_t rows_out;
-    sink *out;
-    char *err;                 /* the caller's message buffer */
-    size_t errlen;
+    project_slot *slots;
+    unsigned nslots;
+    sink *out;                 /* written by commits (and the header row before them) */
 } projector;
 
-static int flush_block(projector *pj)
+/* The array p of *cap elements of `size` bytes, grown to at least need:
+ * its new place, or NULL (p untouched) when out of memory. */
+static void *grow(void *p, size_t *cap, size_t need, size_t size)
 {
-    if (!pj->rows) return 0;
-    pca_project(pj->r, pj->k, pj->x, pj->rows, pj->scores);
-    for (size_t i = 0; i < pj->rows; i++) {
+    if (need <= *cap) return p;
+    size_t c = *cap ? *cap : 256;
+    while (c < need) c *= 2;
+    void *g = realloc(p, c * size);
+    if (g) *cap = c;
+    return g;
+}
+
+/* The block's scores, formatted into the slot's buffer. */
+static int flush_block(projector *pj, project_slot *sl)
+{
+    if (!sl->rows) return 0;
+    pca_project(pj->r, pj->k, sl->x, sl->rows, sl->scores);
+    void *g = grow(sl->row, &sl->rows_cap, sl->nrows + sl->rows, sizeof *sl->row);
+    if (!g) return -1;
+    sl->row = g;
+    for (size_t i = 0; i < sl->rows; i++) {
         size_t need = pj->row_bytes;
-        const csv_field *cf = pj->carried + i * pj->ncarry;
+        const csv_field *cf = sl->carried + i * pj->ncarry;
         for (size_t c = 0; c < pj->ncarry; c++) need += 2 * (size_t)cf[c].len + 3;
-        char *d0 = sink_reserve(pj->out, need), *d = d0;
-        if (!d) return -1;
+        if (!(g = grow(sl->buf, &sl->cap, sl->len + need, 1))) return -1;
+        sl->buf = g;
+        char *d0 = sl->buf + sl->len, *d = d0;
         for (size_t c = 0; c < pj->ncarry; c++) {
             if (c) *d++ = ',';
             if (cf[c].ptr) d = put_field(d, cf[c].ptr, cf[c].len);
         }
-        const double *sc = pj->scores + i * pj->k;
+        const double *sc = sl->scores + i * pj->k;
         for (size_t c = 0; c < pj->k; c++) {
             if (c || pj->ncarry) *d++ = ',';
             d = put_g10(d, sc[c]);
         }
         *d++ = '\n';
-        sink_commit(pj->out, (size_t)(d - d0));
+        sl->row[sl->nrows].len = (size_t)(d - d0);
+        sl->row[sl->nrows].need = need;
+        sl->nrows++;
+        sl->len += (size_t)(d - d0);
     }
-    pj->rows_out += pj->rows;
-    pj->rows = 0;
+    sl->rows = 0;
     return 0;
 }
 
-/* Field index of a column name in a first record of nf fields (named as the
- * scan names them); SIZE_MAX when absent. */
+/* Field index of a column name in a first record of nf raw fields (named as
+ * the scan names them); SIZE_MAX when absent. */
 static size_t header_find(const projector *pj, const csv_field *f, size_t nf, const char *name)
 {
     size_t len = strlen(name);
     for (size_t i = 0; i < nf; i++)
-        if (reader_column_name(&f[i], i, pj->header, 0, pj->name) == len &&
+        if (reader_column_name(&f[i], i, pj->header, 1, pj->name) == len &&
             memcmp(pj->name, name, len) == 0)
             return i;
     if (pj->header) return SIZE_MAX;
@@ -179,43 +209,73 @@ static size_t header_find(const projector *pj, const csv_field *f, size_t nf, co
     return *end || i < 1 || i >= SIZE_MAX / 2 ? SIZE_MAX : (size_t)(i - 1);
 }
 
-/* Maps the basis and carried columns to fields of this file's first record. */
-static int map_header(projector *pj, const char *path, const csv_field *f, size_t nf)
+/* Reading thread: maps the basis and carried columns to fields of this
+ * file's first record; the header itself is no row. */
+static int map_header(void *ctx, size_t file, const char *path, const reader *rd,
+                      const reader_record *rec, int *skip, char *msg, size_t msglen)
 {
+    projector *pj = ctx;
+    const csv_field *f = rec->fields;
+    size_t nf = rec->nfields;
+    (void)rd;
+    *skip = pj->header;
     size_t longest = 0;
     for (size_t i = 0; i < nf; i++) longest = f[i].len > longest ? f[i].len : longest;
     free(pj->name);
     pj->name = malloc(longest + 25);
-    if (!pj->name) { snprintf(pj->err, pj->errlen, "out of memory"); return -1; }
+    size_t *map = pj->maps[file] = malloc((pj->r->p + pj->ncarry + 1) * sizeof *map);
+    if (!pj->name || !map) { snprintf(msg, msglen, "out of memory"); return PROJECT_ERR_MEMORY; }
     for (size_t j = 0; j < pj->r->p; j++) {
         const char *name = summary_name(pj->s, pj->r->cols[j]);
         size_t at = header_find(pj, f, nf, name);
         if (at == SIZE_MAX) {
-            snprintf(pj->err, pj->errlen,
+            snprintf(msg, msglen,
                      "%s: line 1: no column named '%s' in the header (the PCA uses it)", path, name);
-            return -1;
+            return PROJECT_ERR_INPUT;
         }
-        pj->field_of[j] = at;
+        map[j] = at;
     }
     for (size_t c = 0; c < pj->ncarry; c++) {
         size_t at = header_find(pj, f, nf, pj->carry[c]);
         if (at == SIZE_MAX) {
-            snprintf(pj->err, pj->errlen, "%s: line 1: --carry: no column named '%s'%s", path,
+            snprintf(msg, msglen, "%s: line 1: --carry: no column named '%s'%s", path,
                      pj->carry[c], pj->header ? " in the header" : " (use col1..colN)");
-            return -1;
+            return PROJECT_ERR_INPUT;
         }
-        pj->carry_field[c] = at;
+        map[pj->r->p + c] = at;
     }
     return 0;
 }
 
-/* One record: its numbers into the block, its carried fields beside them. */
-static int project_record(projector *pj, const csv_field *fields, size_t nf)
+static int make_slots(void *ctx, unsigned nslots)
 {
-    size_t p = pj->r->p;
-    double *x = pj->x + pj->rows * p;
+    projector *pj = ctx;
+    pj->slots = calloc(nslots, sizeof *pj->slots);
+    if (!pj->slots) return PROJECT_ERR_MEMORY;
+    pj->nslots = nslots;
+    for (unsigned i = 0; i < nslots; i++) {
+        project_slot *sl = &pj->slots[i];
+        sl->x = malloc(BLOCK_ROWS * (pj->r->p + 1) * sizeof *sl->x);
+        sl->scores = malloc(BLOCK_ROWS * (pj->k + 1) * sizeof *sl->scores);
+        sl->carried = malloc((BLOCK_ROWS * pj->ncarry + 1) * sizeof *sl->carried);
+        if (!sl->x || !sl->scores || !sl->carried) return PROJECT_ERR_MEMORY;
+    }
+    return 0;
+}
+
+/* Worker: one record's numbers into the block, its carried fields beside them. */
+static int project_row(void *ctx, unsigned slot, size_t file, const reader_record *rec,
+                       int first_of_file)
+{
+    projector *pj = ctx;
+    project_slot *sl = &pj->slots[slot];
+    const size_t *map = pj->maps[file];
+    const csv_field *fields = rec->fields;
+    size_t nf = rec->nfields, p = pj->r->p;
+    (void)first_of_file;
+    double *x = sl->x + sl->rows * p;
     for (size_t j = 0; j < p; j++) {
-        size_t fi = pj->field_of[j];
+        size_t fi = map[j];
         double v = NAN;
         if (fi < nf) {
             const csv_field *f = &fields[fi];
@@ -226,57 +286,43 @@ static int project_record(projector *pj, const csv_field *fields, size_t nf)
         }
         x[j] = v;
     }
-    csv_field *cf = pj->carried + pj->rows * pj->ncarry;
+    csv_field *cf = sl->carried + sl->rows * pj->ncarry;
     for (size_t c = 0; c < pj->ncarry; c++) {
-        size_t fi = pj->carry_field[c];
+        size_t fi = map[p + c];
         cf[c] = fi < nf ? fields[fi] : (csv_field){NULL, 0};
     }
-    if (++pj->rows == BLOCK_ROWS && flush_block(pj) != 0) {
-        snprintf(pj->err, pj->errlen, "write failed");
-        return PROJECT_ERR_OUTPUT;
-    }
+    if (++sl->rows == BLOCK_ROWS) return flush_block(pj, sl);
     return 0;
 }
 
-/* Streams one data file.  Returns 0, or an exit code with pj->err set. */
-static int project_file(projector *pj, const char *path)
+/* Worker: carried fields point into the chunk, so its last block ends with it. */
+static int chunk_end(void *ctx, unsigned slot, size_t file)
 {
-    source *src = source_open(path, pj->err, pj->errlen);
-    if (!src) return PROJECT_ERR_INPUT;
-    reader_start(pj->rd, path, 1, 0, 0); /* the option's delimiter, or detect */
-    int rc = 0, at_first = 1;
-    while (!rc) {
-        reader_record rec;
-        reader_status rs = reader_next(pj->rd, &rec);
-        if (rs == READER_RECORD) {
-            if (at_first) {
-                at_first = 0;
-                if (map_header(pj, path, rec.fields, rec.nfields) != 0) { rc = PROJECT_ERR_INPUT; break; }
-                if (pj->header) continue;
-            }
-            rc = project_record(pj, rec.fields, rec.nfields);
-        } else if (rs == READER_CHUNK_END) {
-            /* Carried fields point into the chunk: finish the block with it. */
-            if (flush_block(pj) != 0) {
-                snprintf(pj->err, pj->errlen, "write failed");
-                rc = PROJECT_ERR_OUTPUT;
-            }
-        } else if (rs == READER_WANT) {
-            if (reader_pull(pj->rd, src) < 0) rs = READER_ERROR;
-        } else if (rs == READER_END) {
-            break;
-        }
-        if (rs == READER_ERROR) {
-            snprintf(pj->err, pj->errlen, "%s", reader_error(pj->rd));
-            rc = PROJECT_ERR_INPUT;
-        }
+    projector *pj = ctx;
+    (void)file;
+    return flush_block(pj, &pj->slots[slot]);
+}
+
+/* In chunk order: the slot's rows to the sink, each reserving the room a
+ * one-thread run reserves, so that the sink drains (and a gzip stream cuts
+ * its blocks) at the same bytes. */
+static int commit(void *ctx, unsigned slot, char *err, size_t errlen)
+{
+    projector *pj = ctx;
+    project_slot *sl = &pj->slots[slot];
+    const char *from = sl->buf;
+    int failed = 0;
+    for (size_t i = 0; i < sl->nrows && !failed; i++) {
+        char *d = sink_reserve(pj->out, sl->row[i].need);
+        if (!d) { failed = 1; break; }
+        memcpy(d, from, sl->row[i].len);
+        sink_commit(pj->out, sl->row[i].len);
+        from += sl->row[i].len;
     }
-    if (!rc && at_first) {
-        snprintf(pj->err, pj->errlen, "%s: no records (empty input)", path);
-        rc = PROJECT_ERR_INPUT;
-    }
-    source_close(src);
-    return rc;
+    sl->rows = sl->nrows = sl->len = 0;
+    if (!failed) return 0;
+    snprintf(err, errlen, "write failed");
+    return PROJECT_ERR_OUTPUT;
 }
 
 void project_options_defaults(project_options *o)
@@ -317,37 +363,53 @@ project_status project_files(const summary *s, const pca_result *r, size_t k,
     pj.carry = o->carry;
     pj.ncarry = o->ncarry;
     pj.out = out;
-    pj.err = err;
-    pj.errlen = errlen;
+    pj.nfiles = npaths;
+    pj.row_bytes = k * 26 + 2;
     const char *spelling[READER_MAX_MISSING];
     uint32_t nmissing = summary_missing_spellings(s);
     for (uint32_t i = 0; i < nmissing && i < READER_MAX_MISSING; i++)
         spelling[i] = summary_missing_spelling(s, i);
     reader_missing_init(&pj.missing, spelling, nmissing);
-    reader_options ro = o->read;
-    ro.raw = 0;
-    pj.field_of = malloc((r->p + 1) * sizeof *pj.field_of);
-    pj.carry_field = malloc((pj.ncarry + 1) * sizeof *pj.carry_field);
-    pj.x = malloc(BLOCK_ROWS * (r->p + 1) * sizeof *pj.x);
-    pj.scores = malloc(BLOCK_ROWS * (k + 1) * sizeof *pj.scores);
-    pj.carried = malloc((BLOCK_ROWS * pj.ncarry + 1) * sizeof *pj.carried);
-    pj.row_bytes = k * 26 + 2;
-    pj.rd = reader_create(&ro);
+    stream_options so = {
+        .read = o->read,
+        .threads = o->threads,
+        .same_delimiter = 0, /* the option's delimiter, or detected per file */
+        .require_records = 1,
+        .progress = o->progress,
+        .progress_ctx = o->progress_ctx,
+    };
+    so.read.raw = 0;
+    const stream_handler h = {
+        .input_error = PROJECT_ERR_INPUT,
+        .memory_error = PROJECT_ERR_MEMORY,
+        .slots = make_slots,
+        .first = map_header,
+        .row = project_row,
+        .chunk_end = chunk_end,
+        .commit = commit,
+    };
     int rc = PROJECT_OK;
-    if (!pj.field_of || !pj.carry_field || !pj.x || !pj.scores || !pj.carried || !pj.rd) {
+    pj.maps = calloc(npaths + 1, sizeof *pj.maps);
+    if (!pj.maps) {
         snprintf(err, errlen, "out of memory");
         rc = PROJECT_ERR_MEMORY;
     } else if (header_row(&pj) != 0) {
         snprintf(err, errlen, "write failed");
         rc = PROJECT_ERR_OUTPUT;
+    } else {
+        rc = stream_files(&so, &h, &pj, paths, npaths, err, errlen);
     }
-    for (size_t i = 0; i < npaths && rc == PROJECT_OK; i++) rc = project_file(&pj, paths[i]);
-    reader_free(pj.rd);
+    for (unsigned i = 0; i < pj.nslots; i++) {
+        project_slot *sl = &pj.slots[i];
+        free(sl->x);
+        free(sl->scores);
+        free(sl->carried);
+        free(sl->buf);
+        free(sl->row);
+    }
+    free(pj.slots);
+    for (size_t i = 0; pj.maps && i < npaths; i++) free(pj.maps[i]);
+    free(pj.maps);
     free(pj.name);
-    free(pj.field_of);
-    free(pj.carry_field);
-    free(pj.x);
-    free(pj.scores);
-    free(pj.carried);
     return (project_status)rc;
 }

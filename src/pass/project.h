@@ -6,13 +6,17 @@
  * (io/number; a missing or non-numeric cell counts as the mean), blocks of
  * BLOCK_ROWS rows are standardised and multiplied by the loadings
  * (pca_project: cblas_dgemm), and the scores are written as CSV: the carried
- * columns, then PC1..PCk.  Memory is bounded by one chunk of input, one block
- * of rows and the sink's buffer.
+ * columns, then PC1..PCk.  Chunks are scored on worker threads
+ * (pass/stream.h) and written in their order, each row reserving in the sink
+ * what a one-thread run reserves, so the output (gzip included) is the same
+ * bytes for any thread count.  Memory is bounded by two chunks of input and
+ * their formatted rows per thread, and the sink's buffer.
  */
 #ifndef SHEAF_PROJECT_H
 #define SHEAF_PROJECT_H
 
 #include <stddef.h>
+#include <stdint.h>
 
 #include "io/reader.h"
 #include "out/sink.h"
@@ -25,6 +29,11 @@ typedef struct {
     int header;              /* files start with a header */
     reader_options read;     /* delimiter (0: detect at each file's start), chunk and
                                 record sizes */
+    unsigned threads;        /* worker threads; 0 = pipeline_cpus(), 1 = none */
+    /* Called on the reading thread after each read (NULL: none): raw bytes
+     * read so far, and the sum of the files' sizes (0 when unknown). */
+    void (*progress)(void *ctx, uint64_t done_bytes, uint64_t total_bytes);
+    void *progress_ctx;      /* passed to progress */
 } project_options;
 
 typedef enum {
@@ -34,7 +43,8 @@ typedef enum {
     PROJECT_ERR_MEMORY = 3  /* out of memory */
 } project_status;
 
-/* No carried columns, detect the delimiter, a header, 4 MiB chunks, 64 MiB records. */
+/* No carried columns, detect the delimiter, a header, 4 MiB chunks, 64 MiB records,
+ * a thread per CPU, no progress. */
 void project_options_defaults(project_options *o);
 
 /* Writes the header row and the scores on the first k components of r (fit

@@ -1,17 +1,30 @@
-/* trim: see trim.h. */
+/* trim: see trim.h.
+ *
+ * The reading thread sees each file's first record (pass/stream.h): the
+ * first file's picks the kept fields and is kept as the header, later files'
+ * are compared with it and skipped.  Workers write a chunk's kept fields
+ * into their slot's buffer; commits append the buffers to the sink in chunk
+ * order.  The sink's gzip and zstd streams depend on the bytes alone when
+ * they come through sink_write, so any thread count gives the same file.
+ */
 #include "pass/trim.h"
 
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 
-#include "io/reader.h"
-#include "io/source.h"
+#include "pass/stream.h"
+
+typedef struct {
+    char *buf;             /* the chunk's output */
+    size_t len, cap;       /* bytes in it, allocated */
+    size_t rows;           /* rows in it */
+    int unterminated;      /* its last row has no line end */
+} trim_slot;
 
 typedef struct {
     const trim_options *o;
-    reader *rd;
-    sink *out;
+    /* Fixed by the reading thread before a worker sees a row: */
     unsigned char *pick;   /* per field of the first record: kept */
     size_t nfields;        /* fields of the first file's first record */
     char *header;          /* the first file's header record, raw */
@@ -19,10 +32,15 @@ typedef struct {
     char *name;            /* scratch for a column name */
     size_t name_cap;
     int started;           /* the first file's first record was seen */
-    int unterminated;      /* the last record written had no line end */
+    size_t bom;            /* byte-order mark written before the header (0: none) */
+    size_t bom_file;       /* the file whose header gets it */
     char delim;            /* the delimiter of the first file */
-    char *err;
-    size_t errlen;
+    /* Workers: */
+    trim_slot *slots;
+    unsigned nslots;
+    /* Commits: */
+    sink *out;
+    int unterminated;      /* the last row written had no line end */
 } trimmer;
 
 void trim_options_defaults(trim_options *o)
@@ -33,18 +51,18 @@ void trim_options_defaults(trim_options *o)
 }
 
 /* The first record of the first file: which fields are kept. */
-static trim_status choose(trimmer *t, const char *path, const reader_record *rec)
+static int choose(trimmer *t, const char *path, const reader_record *rec, char *msg, size_t msglen)
 {
     const trim_options *o = t->o;
     t->nfields = rec->nfields;
     t->pick = calloc(rec->nfields ? rec->nfields : 1, 1);
     unsigned char *found = calloc(o->nkeep ? o->nkeep : 1, 1);
-    if (!t->pick || !found) { free(found); snprintf(t->err, t->errlen, "out of memory"); return TRIM_ERR_MEMORY; }
+    if (!t->pick || !found) { free(found); snprintf(msg, msglen, "out of memory"); return TRIM_ERR_MEMORY; }
     for (size_t i = 0; i < rec->nfields; i++) {
         const csv_field *f = &rec->fields[i];
         if (f->len + 25 > t->name_cap) {
             char *p = realloc(t->name, f->len + 25);
-            if (!p) { free(found); snprintf(t->err, t->errlen, "out of memory"); return TRIM_ERR_MEMORY; }
+            if (!p) { free(found); snprintf(msg, msglen, "out of memory"); return TRIM_ERR_MEMORY; }
             t->name = p;
             t->name_cap = f->len + 25;
         }
@@ -60,7 +78,7 @@ static trim_status choose(trimmer *t, const char *path, const reader_record *rec
             const char *k0 = o->keep[k];
             int generated = strncmp(k0, "col", 3) == 0 && k0[3] >= '1' && k0[3] <= '9' &&
                             strspn(k0 + 3, "0123456789") == strlen(k0 + 3);
-            snprintf(t->err, t->errlen, "%s: no column named '%s' %s", path, k0,
+            snprintf(msg, msglen, "%s: no column named '%s' %s", path, k0,
                      !o->header  ? "(without a header: col1..colN)"
                      : generated ? "in the header (for a file without one, add --no-header)"
                                  : "in the header");
@@ -71,89 +89,114 @@ static trim_status choose(trimmer *t, const char *path, const reader_record *rec
     return TRIM_OK;
 }
 
-static trim_status write_fail(trimmer *t)
+/* Reading thread: a file's first record (the header checks). */
+static int first_record(void *ctx, size_t file, const char *path, const reader *rd,
+                        const reader_record *rec, int *skip, char *msg, size_t msglen)
 {
-    snprintf(t->err, t->errlen, "write failed");
-    return TRIM_ERR_OUTPUT;
-}
-
-/* One record: the header checks, then its kept fields. */
-static trim_status record(trimmer *t, const char *path, const reader_record *rec, int first)
-{
-    if (first && t->o->header) {
+    trimmer *t = ctx;
+    if (t->o->header) {
         size_t hl = (size_t)(rec->eol - rec->text);
         if (t->started) { /* later files: the same header, not written again */
             if (hl != t->header_len || memcmp(t->header, rec->text, hl) != 0) {
-                snprintf(t->err, t->errlen, "%s: line %llu: header differs from the first file's",
-                         path, (unsigned long long)rec->line);
+                snprintf(msg, msglen, "%s: line %llu: header differs from the first file's", path,
+                         (unsigned long long)rec->line);
                 return TRIM_ERR_INPUT;
             }
+            *skip = 1;
             return TRIM_OK;
         }
         t->header = malloc(hl + 1);
-        if (!t->header) { snprintf(t->err, t->errlen, "out of memory"); return TRIM_ERR_MEMORY; }
+        if (!t->header) { snprintf(msg, msglen, "out of memory"); return TRIM_ERR_MEMORY; }
         memcpy(t->header, rec->text, hl);
         t->header_len = hl;
-        size_t bom = reader_bom_length(t->rd);
-        if (bom && sink_write(t->out, "\xEF\xBB\xBF", bom) != 0) return write_fail(t);
+        t->bom = reader_bom_length(rd);
+        t->bom_file = file;
     }
-    if (first && !t->started) {
-        trim_status st = choose(t, path, rec);
+    if (!t->started) {
+        int st = choose(t, path, rec, msg, msglen);
         if (st != TRIM_OK) return st;
         t->started = 1;
-        t->delim = reader_delim(t->rd);
+        t->delim = reader_delim(rd);
     }
-    /* The previous file ended without a line end: give it one now. */
-    if (t->unterminated && sink_write(t->out, "\n", 1) != 0) return write_fail(t);
+    return TRIM_OK;
+}
+
+static int make_slots(void *ctx, unsigned nslots)
+{
+    trimmer *t = ctx;
+    t->slots = calloc(nslots, sizeof *t->slots);
+    t->nslots = t->slots ? nslots : 0;
+    return t->slots ? 0 : TRIM_ERR_MEMORY;
+}
+
+/* Worker: one record's kept fields into the slot's buffer. */
+static int row(void *ctx, unsigned slot, size_t file, const reader_record *rec, int first_of_file)
+{
+    trimmer *t = ctx;
+    trim_slot *s = &t->slots[slot];
+    /* The kept fields are bytes of the record: its length bounds theirs. */
+    size_t need = (size_t)(rec->end - rec->offset) + t->nfields + 8;
+    if (s->len + need > s->cap) {
+        size_t cap = s->cap ? s->cap : 1u << 16;
+        while (cap < s->len + need) cap *= 2;
+        char *b = realloc(s->buf, cap);
+        if (!b) return -1;
+        s->buf = b;
+        s->cap = cap;
+    }
+    char *d = s->buf + s->len;
+    if (first_of_file && t->bom && file == t->bom_file) {
+        memcpy(d, "\xEF\xBB\xBF", t->bom);
+        d += t->bom;
+    }
+    /* A row without a line end (the end of a file) gets one when a row follows. */
+    if (s->rows && s->unterminated) *d++ = '\n';
     int lead = 1;
-    size_t written = 0;
+    char *start = d;
     for (size_t i = 0; i < t->nfields; i++) {
         if (!t->pick[i]) continue;
-        if (!lead && sink_write(t->out, &t->delim, 1) != 0) return write_fail(t);
-        written += !lead;
+        if (!lead) *d++ = t->delim;
         lead = 0;
         if (i < rec->nfields && rec->fields[i].len) {
-            if (sink_write(t->out, rec->fields[i].ptr, rec->fields[i].len) != 0)
-                return write_fail(t);
-            written += rec->fields[i].len;
+            memcpy(d, rec->fields[i].ptr, rec->fields[i].len);
+            d += rec->fields[i].len;
         }
     }
     /* A row whose kept cells are one empty cell would be a blank line, which
      * every reader skips: write it as an empty quoted field. */
-    if (!written && !lead && sink_write(t->out, "\"\"", 2) != 0) return write_fail(t);
+    if (d == start && !lead) { memcpy(d, "\"\"", 2); d += 2; }
     /* The input's own line end; none after a last record without one. */
-    if (rec->eol_len && sink_write(t->out, rec->eol, rec->eol_len) != 0) return write_fail(t);
-    t->unterminated = rec->eol_len == 0;
-    return TRIM_OK;
+    memcpy(d, rec->eol, rec->eol_len);
+    d += rec->eol_len;
+    s->unterminated = rec->eol_len == 0;
+    s->rows++;
+    s->len = (size_t)(d - s->buf);
+    return 0;
 }
 
-static trim_status trim_file(trimmer *t, const char *path)
+static int chunk_end(void *ctx, unsigned slot, size_t file)
 {
-    source *src = source_open(path, t->err, t->errlen);
-    if (!src) return TRIM_ERR_INPUT;
-    reader_start(t->rd, path, 1, t->started ? t->delim : 0, 0);
-    trim_status st = TRIM_OK;
-    int first = 1;
-    for (;;) {
-        reader_record rec;
-        reader_status rs = reader_next(t->rd, &rec);
-        if (rs == READER_RECORD) {
-            st = record(t, path, &rec, first);
-            first = 0;
-            if (st != TRIM_OK) break;
-        } else if (rs == READER_WANT) {
-            if (reader_pull(t->rd, src) < 0) rs = READER_ERROR;
-        } else if (rs == READER_END) {
-            break;
-        }
-        if (rs == READER_ERROR) {
-            snprintf(t->err, t->errlen, "%s", reader_error(t->rd));
-            st = TRIM_ERR_INPUT;
-            break;
-        }
+    (void)ctx, (void)slot, (void)file;
+    return 0;
+}
+
+/* In chunk order: the slot's rows to the sink. */
+static int commit(void *ctx, unsigned slot, char *err, size_t errlen)
+{
+    trimmer *t = ctx;
+    trim_slot *s = &t->slots[slot];
+    int failed = 0;
+    if (s->rows) {
+        /* The previous file ended without a line end: give it one now. */
+        if (t->unterminated) failed |= sink_write(t->out, "\n", 1) != 0;
+        failed |= sink_write(t->out, s->buf, s->len) != 0;
+        t->unterminated = s->unterminated;
     }
-    source_close(src);
-    return st;
+    s->len = s->rows = 0;
+    s->unterminated = 0;
+    if (!failed) return 0;
+    snprintf(err, errlen, "write failed");
+    return TRIM_ERR_OUTPUT;
 }
 
 trim_status trim_files(const trim_options *o, const char *const *paths, size_t npaths, sink *out,
@@ -163,17 +206,29 @@ trim_status trim_files(const trim_options *o, const char *const *paths, size_t n
     memset(&t, 0, sizeof t);
     t.o = o;
     t.out = out;
-    t.err = err;
-    t.errlen = errlen;
-    reader_options ro = o->read;
-    ro.raw = 1;
-    t.rd = reader_create(&ro);
-    trim_status st = TRIM_OK;
-    if (!t.rd) { snprintf(err, errlen, "out of memory"); st = TRIM_ERR_MEMORY; }
-    for (size_t i = 0; st == TRIM_OK && i < npaths; i++) st = trim_file(&t, paths[i]);
-    reader_free(t.rd);
+    stream_options so = {
+        .read = o->read,
+        .threads = o->threads,
+        .same_delimiter = 1,
+        .require_records = 0,
+        .progress = o->progress,
+        .progress_ctx = o->progress_ctx,
+    };
+    so.read.raw = 1;
+    const stream_handler h = {
+        .input_error = TRIM_ERR_INPUT,
+        .memory_error = TRIM_ERR_MEMORY,
+        .slots = make_slots,
+        .first = first_record,
+        .row = row,
+        .chunk_end = chunk_end,
+        .commit = commit,
+    };
+    int rc = stream_files(&so, &h, &t, paths, npaths, err, errlen);
+    for (unsigned i = 0; i < t.nslots; i++) free(t.slots[i].buf);
+    free(t.slots);
     free(t.pick);
     free(t.header);
     free(t.name);
-    return st;
+    return (trim_status)rc;
 }

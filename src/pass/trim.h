@@ -7,11 +7,15 @@
  * or col1..colN for empty header fields and files without a header.  The
  * header (and a byte-order mark) is written once; later files must have the
  * same header.
+ *
+ * Chunks are formatted on worker threads (pass/stream.h) and written in
+ * their order, so the output is the same bytes for any thread count.
  */
 #ifndef SHEAF_TRIM_H
 #define SHEAF_TRIM_H
 
 #include <stddef.h>
+#include <stdint.h>
 
 #include "io/reader.h"
 #include "out/sink.h"
@@ -22,6 +26,11 @@ typedef struct {
     int header;              /* files start with a header */
     reader_options read;     /* delimiter (0: detect in the first file), chunk and record
                                 sizes; `raw` is set by trim */
+    unsigned threads;        /* worker threads; 0 = pipeline_cpus(), 1 = none */
+    /* Called on the reading thread after each read (NULL: none): raw bytes
+     * read so far, and the sum of the files' sizes (0 when unknown). */
+    void (*progress)(void *ctx, uint64_t done_bytes, uint64_t total_bytes);
+    void *progress_ctx;      /* passed to progress */
 } trim_options;
 
 typedef enum {
@@ -32,12 +41,14 @@ typedef enum {
     TRIM_ERR_MEMORY = 4  /* out of memory */
 } trim_status;
 
-/* Defaults: no names, detect the delimiter, a header, 4 MiB chunks, 64 MiB records. */
+/* Defaults: no names, detect the delimiter, a header, 4 MiB chunks, 64 MiB records,
+ * a thread per CPU, no progress. */
 void trim_options_defaults(trim_options *o);
 
 /* Writes the kept columns of the files ("-": standard input) to out.  On
- * failure err names the file and the line or byte offset; what was written
- * to out stays there (abort the sink). */
+ * failure err names the file and the line or byte offset (the same message
+ * for any thread count); what was written to out stays there (abort the
+ * sink). */
 trim_status trim_files(const trim_options *o, const char *const *paths, size_t npaths, sink *out,
                        char *err, size_t errlen);
 
