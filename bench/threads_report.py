@@ -100,7 +100,7 @@ print("| plain: -j2 speed-up over -j1 | %.2f | >= 1.8 | %s |" % (r, verdict(r >=
 r = t["pandas"] / t["gz6_j2"]
 print("| pandas time / sheaf -j2 time (gzip -6) | %.1f | >= 10 | %s |" % (r, verdict(r >= 10)))
 r = m["j2_gz"] / m["pandas"]
-print("| sheaf -j2 peak memory / pandas peak memory (gzip -6) | %.2f | <= 0.10 | %s |" % (r, verdict(r <= 0.1)))
+print("| sheaf -j2 peak memory / pandas peak memory (gzip -6) | %.3f | <= 0.1 | %s |" % (r, verdict(r <= 0.1)))
 r = t["sql_corr"] / t["gz6_j2"]
 print("| SQL engine, aggregates + correlations / sheaf -j2 (gzip -6) | %.2f | > 1 | %s |" % (r, verdict(r > 1)))
 r = t["sql_agg"] / t["gz6_j2"]
