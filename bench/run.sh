@@ -15,7 +15,7 @@ results=bench/RESULTS.md
 rows=${BENCH_ROWS:-2000000}
 runs=${BENCH_RUNS:-5}
 sections=("$@")
-[ ${#sections[@]} -eq 0 ] && sections=(scan count target wide merge shard pca project)
+[ ${#sections[@]} -eq 0 ] && sections=(scan count target wide merge shard pca project threads)
 
 machine() {
     echo "- CPU: $(grep -m1 'model name' /proc/cpuinfo | cut -d: -f2 | sed 's/^ //'), $(nproc) cores"
@@ -131,7 +131,7 @@ print()
 PY
 }
 
-section_wide() {
+wide_file() { # -> builds $out/wide500.csv (40,000 rows x 500 numeric columns) once
     local wide=$out/wide500.csv
     if [ ! -s "$wide" ]; then
         /usr/bin/python3 - "$wide" <<'PY'
@@ -146,6 +146,11 @@ with open(sys.argv[1], "w") as f:
         f.write("\n".join(",".join("%.4f" % v for v in row) for row in block) + "\n")
 PY
     fi
+}
+
+section_wide() {
+    wide_file
+    local wide=$out/wide500.csv
     local mb t m
     mb=$(stat -c %s "$wide")
     t=$(median_s "./sheaf scan $wide -o $out/w.sheaf -q")
@@ -268,6 +273,80 @@ print()
 PY
 }
 
+compressed_forms() { # plain -> its gzip -6, igzip -1 and zstd (level 3) forms, made once
+    local plain=$1 base=${1%.csv}
+    [ -s "$base.gz6.csv.gz" ] || { gzip -6 -c "$plain" >"$base.gz6.tmp.gz"; mv "$base.gz6.tmp.gz" "$base.gz6.csv.gz"; }
+    [ -s "$base.igz1.csv.gz" ] || { igzip -1 -c "$plain" >"$base.igz1.tmp.gz"; mv "$base.igz1.tmp.gz" "$base.igz1.csv.gz"; }
+    [ -s "$base.csv.zst" ] || { zstd -q -c "$plain" >"$base.tmp.zst"; mv "$base.tmp.zst" "$base.csv.zst"; }
+}
+
+sqlengine_ready() { # the yardstick SQL engine's Node client, installed when missing
+    if ! command -v node >/dev/null || ! command -v npm >/dev/null; then
+        echo "threads: node and npm are needed: apt-get install nodejs npm" >&2
+        return 1
+    fi
+    [ -s bench/sqlengine/node_modules/@duckdb/node-api/package.json ] ||
+        npm install --prefix bench/sqlengine --no-audit --no-fund @duckdb/node-api >&2
+}
+
+section_threads() {
+    # The scan on one and two threads, next to the decompression limit and to
+    # what a user would otherwise run: a chunked pandas script, and a
+    # general-purpose SQL engine with a multi-threaded CSV reader (a yardstick
+    # only). Every scan counts classes of `label`.
+    local started=$SECONDS
+    table_files
+    sqlengine_ready
+    local plain=$out/bench-$rows.csv base=$out/bench-$rows
+    compressed_forms "$plain"
+    wide_file
+    local built=$SECONDS
+    local gz6=$base.gz6.csv.gz igz1=$base.igz1.csv.gz zst=$base.csv.zst
+    local scan="./sheaf scan" tl="--target label -q"
+    local -a cmds=(
+        "igzip -dc $gz6" "igzip -dc $igz1" "zstd -dc $zst"
+        "$scan $plain $tl -o $out/t1p.sheaf -j1" "$scan $plain $tl -o $out/t2p.sheaf -j2"
+        "$scan $gz6 $tl -o $out/t1g.sheaf -j1" "$scan $gz6 $tl -o $out/t2g.sheaf -j2"
+        "$scan $igz1 $tl -o $out/t1i.sheaf -j1" "$scan $igz1 $tl -o $out/t2i.sheaf -j2"
+        "$scan $zst $tl -o $out/t1z.sheaf -j1" "$scan $zst $tl -o $out/t2z.sheaf -j2"
+        "/usr/bin/python3 bench/pandas_scan.py $gz6 label"
+        "node bench/sqlengine/query.mjs aggregates $gz6 2"
+        "node bench/sqlengine/query.mjs correlations $gz6 2"
+    )
+    local -a t
+    mapfile -t t < <(interleaved "${cmds[@]}")
+    [ ${#t[@]} -eq ${#cmds[@]} ] || { echo "threads: interleave.py gave ${#t[@]} times for ${#cmds[@]} commands" >&2; return 1; }
+    local half=$out/bench-$((rows / 2)).csv
+    local m_j2 m_j2_half m_j1 m_j2_gz m_pandas m_sql_agg m_sql_corr
+    m_j2=$(peak_kb $scan "$plain" $tl -o "$out/m.sheaf" -j2)
+    m_j2_half=$(peak_kb $scan "$half" $tl -o "$out/m.sheaf" -j2)
+    m_j1=$(peak_kb $scan "$plain" $tl -o "$out/m.sheaf" -j1)
+    m_j2_gz=$(peak_kb $scan "$gz6" $tl -o "$out/m.sheaf" -j2)
+    m_pandas=$(peak_kb /usr/bin/python3 bench/pandas_scan.py "$gz6" label)
+    m_sql_agg=$(peak_kb node bench/sqlengine/query.mjs aggregates "$gz6" 2)
+    m_sql_corr=$(peak_kb node bench/sqlengine/query.mjs correlations "$gz6" 2)
+    local wide=$out/wide500.csv w1 w2 m_w1 m_w2
+    { read -r w1; read -r w2; } < <(interleaved "./sheaf scan $wide -o $out/w1.sheaf -q -j1" \
+        "./sheaf scan $wide -o $out/w2.sheaf -q -j2")
+    m_w1=$(peak_kb ./sheaf scan "$wide" -o "$out/w1.sheaf" -q -j1)
+    m_w2=$(peak_kb ./sheaf scan "$wide" -o "$out/w2.sheaf" -q -j2)
+    local duckdb_version
+    duckdb_version=$(node -p "require('./bench/sqlengine/node_modules/@duckdb/node-api/package.json').version")
+    /usr/bin/python3 bench/threads_report.py \
+        rows="$rows" half=$((rows / 2)) runs="$runs" build_s=$((built - started)) measure_s=$((SECONDS - built)) \
+        plain_bytes="$(stat -c %s "$plain")" gz6_bytes="$(stat -c %s "$gz6")" \
+        igz1_bytes="$(stat -c %s "$igz1")" zst_bytes="$(stat -c %s "$zst")" \
+        wide_bytes="$(stat -c %s "$wide")" duckdb="$duckdb_version" \
+        "$(node --version | sed 's/^/node=/')" \
+        t_igzip_gz6="${t[0]}" t_igzip_igz1="${t[1]}" t_zstd="${t[2]}" \
+        t_plain_j1="${t[3]}" t_plain_j2="${t[4]}" t_gz6_j1="${t[5]}" t_gz6_j2="${t[6]}" \
+        t_igz1_j1="${t[7]}" t_igz1_j2="${t[8]}" t_zst_j1="${t[9]}" t_zst_j2="${t[10]}" \
+        t_pandas="${t[11]}" t_sql_agg="${t[12]}" t_sql_corr="${t[13]}" \
+        m_j2="$m_j2" m_j2_half="$m_j2_half" m_j1="$m_j1" m_j2_gz="$m_j2_gz" m_pandas="$m_pandas" \
+        m_sql_agg="$m_sql_agg" m_sql_corr="$m_sql_corr" \
+        t_wide_j1="$w1" t_wide_j2="$w2" m_wide_j1="$m_w1" m_wide_j2="$m_w2" >"$out/threads.md"
+}
+
 for s in "${sections[@]}"; do "section_$s"; done
 
 {
@@ -277,7 +356,7 @@ for s in "${sections[@]}"; do "section_$s"; done
     echo
     machine
     echo
-    for f in scan count target wide merge shard pca project; do
+    for f in scan count target wide merge shard pca project threads; do
         [ -s "$out/$f.md" ] && cat "$out/$f.md"
     done
 } >"$results"
