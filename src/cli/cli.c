@@ -207,7 +207,9 @@ int cli_parse_reading(const char *cmd, const char *chunk, const char *max_record
 
 int cli_parse_threads(const char *cmd, const char *text, unsigned *threads)
 {
-    if (!text) return 0;
+    /* SHEAF_THREADS sets the default (for a whole test suite, or a cron job). */
+    if (!text) text = getenv("SHEAF_THREADS");
+    if (!text || !*text) return 0;
     long long v = cli_parse_count(text);
     if (v < 1 || v > 1024) {
         cli_error(cmd, "--threads must be a count from 1 to 1024, got '%s'", text);

@@ -77,12 +77,14 @@ int cli_parse_reading(const char *cmd, const char *chunk, const char *max_record
                       size_t *chunk_bytes, size_t *max_record_bytes);
 /* Parses a share or level in (0, 1] for option `opt`; prints a one-line
  * error and returns -1 when it is not one. */
-/* -j / --threads: a count from 1 to 1024 into *threads (NULL text: leaves
- * the default, 0 = the CPUs this process may use).  0 or EXIT_USAGE. */
+/* -j / --threads: a count from 1 to 1024 into *threads.  NULL text: the
+ * environment's SHEAF_THREADS if set, else the default is left (0 = the CPUs
+ * this process may use).  0 or EXIT_USAGE. */
 int cli_parse_threads(const char *cmd, const char *text, unsigned *threads);
 /* The help line of -j, shared by every pass. */
-#define CLI_THREADS_HELP "worker threads (default: the CPUs this process may use; 1: no threads); " \
-    "each holds at most 2 chunks and their partial state at a time"
+#define CLI_THREADS_HELP "worker threads (default: the CPUs this process may use; 1: none); " \
+    "output is the same for every N; memory: one chunk in flight per thread, with about " \
+    "twice its size in cell positions"
 
 /* The one progress line of a long pass on a terminal: bytes done of total (0:
  * unknown), rate, time left; at most 4 times a second.  Nothing when stderr

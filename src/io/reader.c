@@ -32,7 +32,7 @@ struct reader {
 void reader_options_defaults(reader_options *o)
 {
     memset(o, 0, sizeof *o);
-    o->chunk_bytes = 4u << 20;
+    o->chunk_bytes = 1u << 20;
     o->max_record_bytes = 64u << 20;
 }
 

@@ -36,7 +36,7 @@ typedef struct {
     int raw;                 /* fields keep their raw bytes (quotes included), for trim */
 } reader_options;
 
-/* Detect the delimiter, 4 MiB chunks, 64 MiB records, unquoted fields. */
+/* Detect the delimiter, 1 MiB chunks, 64 MiB records, unquoted fields. */
 void reader_options_defaults(reader_options *o);
 
 typedef struct {

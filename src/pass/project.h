@@ -43,7 +43,7 @@ typedef enum {
     PROJECT_ERR_MEMORY = 3  /* out of memory */
 } project_status;
 
-/* No carried columns, detect the delimiter, a header, 4 MiB chunks, 64 MiB records,
+/* No carried columns, detect the delimiter, a header, 1 MiB chunks, 64 MiB records,
  * a thread per CPU, no progress. */
 void project_options_defaults(project_options *o);
 

@@ -41,7 +41,7 @@ typedef enum {
     TRIM_ERR_MEMORY = 4  /* out of memory */
 } trim_status;
 
-/* Defaults: no names, detect the delimiter, a header, 4 MiB chunks, 64 MiB records,
+/* Defaults: no names, detect the delimiter, a header, 1 MiB chunks, 64 MiB records,
  * a thread per CPU, no progress. */
 void trim_options_defaults(trim_options *o);
 

@@ -25,6 +25,9 @@
 #include "summary/column.h"
 
 #define CELL_ABSENT UINT32_MAX
+#ifndef GROUPS_PER_THREAD
+#define GROUPS_PER_THREAD 2
+#endif
 
 enum { T_WAIT = 0, T_BUSY = 1, T_DONE = 2 };
 enum { FAULT_NONE = 0, FAULT_READER, FAULT_MEMORY, FAULT_TOO_BIG };
@@ -525,7 +528,7 @@ chunks *chunks_create(const chunks_options *o)
     /* Column groups: one with one thread; else two per thread (the columns
      * dealt out in turn), so that a worker finds a group to feed while
      * another is busy.  Groups decide only who feeds a column, never what. */
-    w->ngroups = threads > 1 ? 2 * (size_t)threads : 1;
+    w->ngroups = threads > 1 ? GROUPS_PER_THREAD * (size_t)threads : 1;
     if (w->ngroups > w->ncols) w->ngroups = w->ncols ? w->ncols : 1;
     w->g_next = calloc(w->ngroups, sizeof *w->g_next);
     w->g_busy = calloc(w->ngroups, 1);

@@ -33,14 +33,14 @@ void scan_options_defaults(scan_options *o)
     memset(o, 0, sizeof *o);
     summary_options_defaults(&o->opt);
     o->header = 1;
-    o->chunk_bytes = 4u << 20;
+    o->chunk_bytes = 1u << 20;
     o->max_record_bytes = 64u << 20;
 }
 
 /* Chunks in flight beyond one per worker thread: one the reading thread
  * fills while the workers work.  Each holds a chunk's bytes and about 17
  * bytes per cell of it (summary/chunks.h), so they bound the memory. */
-#define SCAN_SPARE_SLOTS 1
+#define SCAN_SPARE_SLOTS 0
 
 struct scan_context {
     scan_options o;        /* options (borrowed strings) */

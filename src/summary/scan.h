@@ -60,7 +60,7 @@ typedef struct {
     void *progress_ctx;
 } scan_options;
 
-/* Defaults: detect the delimiter, header on, 4 MiB chunks, 64 MiB records. */
+/* Defaults: detect the delimiter, header on, 1 MiB chunks, 64 MiB records. */
 void scan_options_defaults(scan_options *o);
 
 typedef struct scan_context scan_context;

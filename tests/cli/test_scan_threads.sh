@@ -1,0 +1,137 @@
+#!/usr/bin/env bash
+# The scan on threads (summary/chunks.h): the summary file is the same, byte
+# for byte, for every -j and every scheduling, on plain, gzip and zstd input,
+# without a target, with a class target and with a continuous target, at
+# several chunk sizes, over several files and for a shard; an error anywhere
+# gives the one-line message and exit code of -j1 and leaves no file; the
+# golden fingerprints hold at -j1 as at the default.  The continuous target's
+# own column is checked against pandas (Debian python3-pandas), the outside
+# reference for a column mean.
+set -u
+cd "$(dirname "$0")/../.." || exit 1
+. tests/cli/common.sh
+cli_setup scan-threads || exit 0
+GEN=build/demo/generate
+[ -x "$GEN" ] || { fail threads.setup "build/demo/generate is not built"; exit 0; }
+
+$GEN --profile bench --rows 40000 -o "$T/t.csv" 2>/dev/null
+gzip -6 -c "$T/t.csv" >"$T/t.csv.gz"
+zstd -q -c "$T/t.csv" >"$T/t.csv.zst"
+sha() { sha256sum <"$1" | cut -c1-16; }
+
+# 1. The matrix: every -j gives the -j1 bytes.
+for f in t.csv t.csv.gz t.csv.zst; do
+    for tgt in none label price; do
+        topt=(); [ "$tgt" != none ] && topt=(--target "$tgt")
+        for cs in default 64K 300K; do
+            copt=(); [ "$cs" != default ] && copt=(--chunk-size "$cs")
+            want=
+            bad=
+            for j in 1 2 3 8; do
+                run "$SHEAF" scan "$T/$f" "${topt[@]}" "${copt[@]}" -j "$j" -q -o "$T/s$j.sheaf"
+                if [ "$RC" -ne 0 ]; then bad="-j$j exit $RC: $(err_text)"; break; fi
+                h=$(sha "$T/s$j.sheaf")
+                [ -z "$want" ] && want=$h
+                [ "$h" != "$want" ] && bad="-j$j gives $h, -j1 $want"
+            done
+            name="threads.same_bytes.$f.$tgt.$cs"
+            if [ -z "$bad" ]; then pass "$name"; else fail "$name" "$bad"; fi
+        done
+    done
+done
+
+# 2. Several files, and a shard, at every -j.
+for case in files shard; do
+    want=
+    bad=
+    for j in 1 2 5; do
+        if [ $case = files ]; then
+            run "$SHEAF" scan "$T/t.csv.gz" "$T/t.csv" "$T/t.csv.zst" --target label -j "$j" -q -o "$T/m$j.sheaf"
+        else
+            run "$SHEAF" scan "$T/t.csv" --shard 2/3 --chunk-size 64K --target label -j "$j" -q -o "$T/m$j.sheaf"
+        fi
+        [ "$RC" -ne 0 ] && { bad="-j$j exit $RC: $(err_text)"; break; }
+        h=$(sha "$T/m$j.sheaf")
+        [ -z "$want" ] && want=$h
+        [ "$h" != "$want" ] && bad="-j$j gives $h, -j1 $want"
+    done
+    if [ -z "$bad" ]; then pass "threads.same_bytes.$case"; else fail "threads.same_bytes.$case" "$bad"; fi
+done
+
+# 3. Errors: the same message and exit code as -j1, and no file left.
+# A quote opened on line 30001 and never closed (the quotes after it dropped).
+{ head -n 30000 "$T/t.csv"; tail -n +30001 "$T/t.csv" | tr -d '"' |
+    awk 'NR == 1 { sub(/,/, ",\"never closed,") } { print }'; } >"$T/quote.csv"
+awk 'NR == 25001 { $0 = $0 ",extra" } { print }' "$T/t.csv" >"$T/ragged.csv"
+# Two gzip members; the second has bytes overwritten in its middle.
+head -n 20000 "$T/t.csv" | gzip -6 >"$T/bad.csv.gz"
+tail -n +20001 "$T/t.csv" | gzip -6 >"$T/second.gz"
+size=$(stat -c %s "$T/second.gz")
+printf 'XXXXXXXXXXXXXXXX' | dd of="$T/second.gz" bs=1 seek=$((size / 2)) conv=notrunc 2>/dev/null
+cat "$T/second.gz" >>"$T/bad.csv.gz"
+err_case() { # name, then the scan's arguments after the input list ($OUT: the output)
+    local name=$1 out=${OUT:-$T/e.sheaf}
+    shift
+    local want_rc= want_err= bad=
+    for j in 1 2 4; do
+        rm -f "$T"/e.sheaf "$T"/.e.sheaf* "$T"/*.tmp* 2>/dev/null
+        run "$SHEAF" scan "$@" -j "$j" -q -o "$out"
+        local e
+        e=$(cat "$T/err")
+        if [ -z "$want_rc" ]; then want_rc=$RC; want_err=$e; fi
+        [ "$RC" -eq 0 ] && bad="-j$j succeeded"
+        [ "$RC" -ne "$want_rc" ] && bad="-j$j exit $RC, -j1 $want_rc"
+        [ "$e" != "$want_err" ] && bad="-j$j says '$e', -j1 '$want_err'"
+        [ -n "$(ls -A "$T" | grep -E '^(e\.sheaf|\.e\.sheaf)')" ] && bad="-j$j left $(ls -A "$T" | grep e.sheaf)"
+        [ -n "$bad" ] && break
+    done
+    if [ -z "$bad" ]; then pass "threads.error.$name"; else fail "threads.error.$name" "$bad"; fi
+}
+err_case unterminated_quote "$T/quote.csv" --chunk-size 64K
+err_case strict_ragged "$T/ragged.csv" --strict --chunk-size 64K
+err_case corrupt_gzip_member "$T/bad.csv.gz"
+err_case too_many_classes "$T/t.csv" --target label --max-classes 3 --chunk-size 64K
+OUT=$T/no/such/dir/x.sheaf err_case unwritable_output "$T/t.csv"
+# The messages name the place.
+run "$SHEAF" scan "$T/quote.csv" --chunk-size 64K -j 4 -q -o "$T/e.sheaf"
+check threads.error.names_line "no 'line 30001' in: $(err_text)" grep -q "quote.csv: line 30001: unterminated quote" "$T/err"
+run "$SHEAF" scan "$T/ragged.csv" --strict -j 4 -q -o "$T/e.sheaf"
+check threads.error.names_ragged_line "no 'line 25001' in: $(err_text)" grep -q "line 25001: " "$T/err"
+
+# 4. A continuous target's own column: its mean and sd against pandas.
+"$SHEAF" scan "$T/t.csv" --target price -j 2 -q -o "$T/r.sheaf" &&
+    "$SHEAF" info "$T/r.sheaf" --json >"$T/r.json"
+if [ -x "$PY" ] && "$PY" -c 'import pandas' 2>/dev/null; then
+    if out=$("$PY" - "$T/t.csv" "$T/r.json" <<'PY' 2>&1
+import json, sys
+import pandas as pd
+col = pd.read_csv(sys.argv[1], usecols=["price"])["price"]
+info = json.load(open(sys.argv[2]))
+cols = info["columns"] if isinstance(info, dict) and "columns" in info else info
+c = next(c for c in cols if c["name"] == "price")
+for key, want in (("mean", col.mean()), ("sd", col.std())):
+    got = c[key]
+    if abs(got - want) > 1e-12 * abs(want):
+        sys.exit("%s: sheaf %r, pandas %r" % (key, got, want))
+PY
+    ); then pass threads.regression_target_column_vs_pandas
+    else fail threads.regression_target_column_vs_pandas "$out"; fi
+else
+    skip threads.regression_target_column_vs_pandas "Debian python3-pandas not installed"
+fi
+
+# 5. Options.
+run "$SHEAF" scan "$T/t.csv" -j 0 -o "$T/z.sheaf"
+check threads.option.zero_is_usage "exit $RC" test "$RC" -eq 2
+run "$SHEAF" scan --help
+check threads.option.help "--threads missing from --help" grep -q -- "--threads" "$T/out"
+run env SHEAF_THREADS=3 "$SHEAF" scan "$T/t.csv" -q -o "$T/env.sheaf"
+"$SHEAF" scan "$T/t.csv" -j 1 -q -o "$T/one.sheaf"
+check threads.option.environment "SHEAF_THREADS=3 gives other bytes" cmp -s "$T/env.sheaf" "$T/one.sheaf"
+
+# 6. Every golden fingerprint at -j1 as at the default thread count.
+SHEAF_THREADS=1 bash tests/cli/test_golden.sh >"$T/golden1" 2>&1
+g_fail=$(grep -c '^FAIL' "$T/golden1")
+g_pass=$(grep -c '^PASS' "$T/golden1")
+if [ "$g_fail" -eq 0 ] && [ "$g_pass" -gt 0 ]; then pass "threads.golden_at_j1 ($g_pass fingerprints)"
+else fail threads.golden_at_j1 "$g_fail of $((g_pass + g_fail)) differ: $(grep '^FAIL' "$T/golden1" | head -n 2 | tr '\n' '|')"; fi
