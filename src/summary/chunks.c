@@ -30,6 +30,12 @@
 #endif
 
 enum { T_WAIT = 0, T_BUSY = 1, T_DONE = 2 };
+
+/* A scanned column's cell of a row: its offset in the chunk and length, or
+ * len CELL_ABSENT (missing, or past the row's end). */
+typedef struct {
+    uint32_t off, len;
+} cell;
 enum { FAULT_NONE = 0, FAULT_READER, FAULT_MEMORY, FAULT_TOO_BIG };
 
 typedef struct {
@@ -49,8 +55,7 @@ typedef struct {
     reader_cursor cur;
     int fault;              /* FAULT_* */
     size_t rows, rows_cap;
-    uint32_t *cell_off;     /* ncols x rows_cap, column-major: offset of each cell in ck.data */
-    uint32_t *cell_len;     /* its length, or CELL_ABSENT */
+    cell *cells;            /* rows x ncols, row-major (written in order, read a block at a time) */
     uint64_t *line;         /* rows: line of each row, from the chunk's first */
     uint32_t *nf;           /* rows: fields of each row */
     /* R */
@@ -87,6 +92,7 @@ struct chunks {
     size_t *group_cols;     /* the columns of group g: group_cols[group_at[g] .. group_at[g+1]) */
     size_t *group_at;
     int r_busy, c_busy, quit;
+    unsigned started;       /* workers that took an id */
     scan_status failed;
     char err[4608];
     /* R's state (one R at a time) */
@@ -107,20 +113,13 @@ struct chunks {
 static int grow_rows(chunks *w, job *j)
 {
     size_t cap = j->rows_cap ? 2 * j->rows_cap : 4096, n = w->ncols ? w->ncols : 1;
-    uint32_t *off = malloc(n * cap * sizeof *off), *len = malloc(n * cap * sizeof *len);
+    cell *cells = realloc(j->cells, n * cap * sizeof *cells);
+    if (cells) j->cells = cells;
     uint64_t *line = realloc(j->line, cap * sizeof *line);
     if (line) j->line = line;
     uint32_t *nf = realloc(j->nf, cap * sizeof *nf);
     if (nf) j->nf = nf;
-    if (!off || !len || !line || !nf) { free(off); free(len); return -1; }
-    for (size_t c = 0; j->rows && c < w->ncols; c++) {
-        memcpy(off + c * cap, j->cell_off + c * j->rows_cap, j->rows * sizeof *off);
-        memcpy(len + c * cap, j->cell_len + c * j->rows_cap, j->rows * sizeof *len);
-    }
-    free(j->cell_off);
-    free(j->cell_len);
-    j->cell_off = off;
-    j->cell_len = len;
+    if (!cells || !line || !nf) return -1;
     j->rows_cap = cap;
     return 0;
 }
@@ -145,7 +144,8 @@ static void tokenize(chunks *w, job *j)
         if (rs != READER_RECORD) return;
         if (skip) { skip = 0; continue; } /* the header, read by the reading thread */
         if (j->rows == j->rows_cap && grow_rows(w, j) != 0) { j->fault = FAULT_MEMORY; return; }
-        size_t r = j->rows++, cap = j->rows_cap, nfields = rec.nfields;
+        size_t r = j->rows++, nfields = rec.nfields;
+        cell *row = j->cells + r * ncols;
         j->line[r] = rec.line;
         j->nf[r] = (uint32_t)(nfields < UINT32_MAX ? nfields : UINT32_MAX);
         for (size_t c = 0; c < ncols; c++) {
@@ -159,8 +159,8 @@ static void tokenize(chunks *w, job *j)
                     off = (uint32_t)(p - base);
                 }
             }
-            j->cell_off[c * cap + r] = off;
-            j->cell_len[c * cap + r] = len;
+            row[c].off = off;
+            row[c].len = len;
         }
     }
 }
@@ -298,9 +298,9 @@ static scan_status rows_of(chunks *w, job *j)
                                  j->nf[r]);
         }
         if (target >= 0) {
-            size_t at = (size_t)target * j->rows_cap + r;
-            uint32_t len = j->cell_len[at];
-            const char *p = len == CELL_ABSENT ? NULL : j->ck.data + j->cell_off[at];
+            const cell *tc = &j->cells[r * w->ncols + (size_t)target];
+            uint32_t len = tc->len;
+            const char *p = len == CELL_ABSENT ? NULL : j->ck.data + tc->off;
             int cl = classes;
             scan_status st = target_row(w, j, r, p, len == CELL_ABSENT ? 0 : len, &start, &cl);
             if (st != SCAN_OK) return st == SCAN_ERR_MEMORY ? row_error(w, st, NULL, 0, 0) : st;
@@ -331,7 +331,8 @@ static int column_block(chunks *w, job *j, size_t col, const block_span *sp, blo
     summary_column *c = &s->cols[col];
     const int k = s->como_of[col];
     const size_t cap = j->rows_cap;
-    const uint32_t *off = j->cell_off + col * cap, *len = j->cell_len + col * cap;
+    const size_t ncols = w->ncols;
+    const cell *cells = j->cells + col;
     if (sp->drop && c->cls &&
         column_drop_classes(c, j->drop_map, j->drop_y, j->drop_n, s->opt.bucket_budget) != 0)
         return -1;
@@ -340,8 +341,9 @@ static int column_block(chunks *w, job *j, size_t col, const block_span *sp, blo
     l->ncells = 0;
     l->nnum = 0;
     for (uint32_t r = sp->start; r < sp->end; r++) {
-        if (len[r] == CELL_ABSENT) { c->missing++; continue; }
-        block_lane_cell(l, j->ck.data + off[r], len[r], r - sp->start);
+        const cell *x = &cells[(size_t)r * ncols];
+        if (x->len == CELL_ABSENT) { c->missing++; continue; }
+        block_lane_cell(l, j->ck.data + x->off, x->len, r - sp->start);
     }
     block_decode(c, l, w->simd);
     if (k >= 0) {
@@ -417,7 +419,7 @@ static scan_status fail_locked(chunks *w, scan_status st)
 }
 
 /* The oldest ready task.  Under the lock. */
-static task_kind pick(chunks *w, uint64_t *seq, size_t *col)
+static task_kind pick(chunks *w, unsigned id, uint64_t *seq, size_t *col)
 {
     if (w->failed) return TASK_NONE;
     if (!w->r_busy && w->r_next < w->pushed && slot_of(w, w->r_next)->t_state == T_DONE) {
@@ -425,11 +427,17 @@ static task_kind pick(chunks *w, uint64_t *seq, size_t *col)
         *seq = w->r_next;
         return TASK_R;
     }
-    size_t best = (size_t)-1;
-    for (size_t g = 0; g < w->ngroups; g++)
-        if (!w->g_busy[g] && w->g_next[g] < w->r_next &&
-            (best == (size_t)-1 || w->g_next[g] < w->g_next[best]))
+    /* A worker keeps to its own groups (g % threads == id) while one is
+     * ready, so that a column's tables stay in one core's caches; it takes
+     * another's only when none of its own is. */
+    size_t best = (size_t)-1, any = (size_t)-1;
+    for (size_t g = 0; g < w->ngroups; g++) {
+        if (w->g_busy[g] || w->g_next[g] >= w->r_next) continue;
+        if (any == (size_t)-1 || w->g_next[g] < w->g_next[any]) any = g;
+        if (g % w->o.threads == id && (best == (size_t)-1 || w->g_next[g] < w->g_next[best]))
             best = g;
+    }
+    if (best == (size_t)-1) best = any;
     if (w->ncomo && !w->c_busy && w->c_next < min_g(w) &&
         (best == (size_t)-1 || w->c_next <= w->g_next[best])) {
         w->c_busy = 1;
@@ -492,6 +500,7 @@ static void *worker(void *arg)
     block_lane lane;
     int ok = block_lane_init(&lane) == 0;
     pthread_mutex_lock(&w->mu);
+    unsigned id = w->started++;
     if (!ok) {
         snprintf(w->err, sizeof w->err, "out of memory");
         fail_locked(w, SCAN_ERR_MEMORY);
@@ -499,7 +508,7 @@ static void *worker(void *arg)
     while (ok && !w->quit) {
         uint64_t seq;
         size_t col = 0;
-        task_kind t = pick(w, &seq, &col);
+        task_kind t = pick(w, id, &seq, &col);
         if (t == TASK_NONE) { pthread_cond_wait(&w->work_cv, &w->mu); continue; }
         pthread_mutex_unlock(&w->mu);
         scan_status st = run_task(w, t, seq, col, &lane);
@@ -572,7 +581,7 @@ void chunks_free(chunks *w)
     for (unsigned i = 0; i < w->nthreads; i++) pthread_join(w->threads[i], NULL);
     for (unsigned i = 0; w->jobs && i < w->nslots; i++) {
         job *j = &w->jobs[i];
-        free(j->buf); free(j->cell_off); free(j->cell_len); free(j->line); free(j->nf);
+        free(j->buf); free(j->cells); free(j->line); free(j->nf);
         free(j->row_cell); free(j->row_class); free(j->row_y); free(j->row_has_y);
         free(j->blocks); free(j->drop_map); free(j->drop_y); free(j->dev); free(j->present);
         reader_cursor_free(&j->cur);

@@ -41,18 +41,6 @@ int column_drop_classes(summary_column *c, const uint32_t *map, const double *y,
     return 0;
 }
 
-void column_reset(summary_column *c, uint32_t max_classes)
-{
-    c->missing = c->non_numeric = c->non_finite = c->zeros = c->integers = 0;
-    moments_init(&c->mom);
-    values_reset(c->vals);
-    hll_init(c->distinct);
-    buckets_reset(c->bins);
-    if (c->cross) crosstab_reset(c->cross);
-    if (c->cls) memset(c->cls, 0, max_classes * sizeof *c->cls);
-    c->n_examples = 0;
-}
-
 void column_free(summary_column *c)
 {
     free(c->name);

@@ -59,9 +59,6 @@ int column_drop_classes(summary_column *c, const uint32_t *map, const double *y,
  * with frame the target's frame (NULL: values as they are).  0 or -1. */
 int summary_class_conversion(const summary *s, const number_decimal *frame, uint32_t **map,
                              double **y);
-/* Empties c's accumulators, keeping their memory, as column_alloc left them
- * (with_classes: max_classes per-class slots to clear). */
-void column_reset(summary_column *c, uint32_t max_classes);
 int column_seal(summary_column *c);
 int column_sealed(const summary_column *c);
 

@@ -149,15 +149,18 @@ static summary_status out_of_memory(char *err, size_t errlen)
     return SUMMARY_ERR_MEMORY;
 }
 
+static summary_status fold(summary *into, summary *from, char *err, size_t errlen);
+
 summary_status summary_merge(summary *into, summary *from, char *err, size_t errlen)
 {
-    summary_status st = summary_fold(into, from, err, errlen);
+    summary_status st = fold(into, from, err, errlen);
     if (st != SUMMARY_OK) return st;
     if (summary_seal(into) != 0) return out_of_memory(err, errlen);
     return SUMMARY_OK;
 }
 
-summary_status summary_fold(summary *into, summary *from, char *err, size_t errlen)
+/* summary_merge up to its seal. */
+static summary_status fold(summary *into, summary *from, char *err, size_t errlen)
 {
     if (!summary_compatible(into, from, err, errlen)) return SUMMARY_ERR_INCOMPATIBLE;
     /* Classes: both kept, or neither (a side that dropped them wins). */

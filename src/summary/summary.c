@@ -97,20 +97,6 @@ uint32_t summary_class_of(summary *s, uint64_t h, const char *text, size_t len,
     return c + 1;
 }
 
-int summary_reset(summary *s)
-{
-    if (s->classes_dropped || s->nsources) return -1;
-    for (size_t i = 0; i < s->ncols; i++) column_reset(&s->cols[i], s->opt.max_classes);
-    s->rows = s->bytes = s->short_rows = s->long_rows = 0;
-    s->n_bad_lines = 0;
-    for (uint32_t c = 0; c < s->nclasses; c++) free(s->class_label[c]);
-    s->nclasses = 0;
-    s->target_text = 0;
-    if (s->como) comoment_reset(s->como);
-    memset(s->como_ref_set, 0, s->ncomo ? s->ncomo : 1);
-    return 0;
-}
-
 summary *summary_create(const summary_options *opt, size_t ncols, char *const *names,
                         const column_mode *modes, int with_comoments)
 {

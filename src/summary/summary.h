@@ -184,10 +184,6 @@ uint32_t summary_class_of(summary *s, uint64_t h, const char *text, size_t len,
  * exactly from class counts to target cells.  -1 on OOM or for a text
  * target. */
 int summary_drop_classes(summary *s);
-/* Empties a summary made by summary_create (with its co-moments) for reuse,
- * keeping its memory: the same state as a new one.  -1 when it cannot be
- * (its target classes were dropped): free it and create another. */
-int summary_reset(summary *s);
 /* Regression cell of a target value. */
 uint32_t summary_target_cell(double y);
 void summary_free(summary *s);
@@ -211,9 +207,6 @@ int summary_compatible(const summary *a, const summary *b, char *msg, size_t msg
  * may be modified.  SUMMARY_ERR_MEMORY ("out of memory while merging") when
  * memory runs out; into may then be partly merged. */
 summary_status summary_merge(summary *into, summary *from, char *err, size_t errlen);
-/* summary_merge without the seal at its end, for folding many partial
- * summaries in a row (a scan's chunks): seal once after the last. */
-summary_status summary_fold(summary *into, summary *from, char *err, size_t errlen);
 /* Appends a source record (copied). */
 int summary_add_source(summary *s, const summary_source *src);
 
