@@ -98,7 +98,7 @@ print("(%.1f per byte, fixed costs such as start-up and the final sorts included
 print("simulated branch misses. For reference: 675 million before the scan went on threads")
 print("(2026-12-02); the staged chunks of summary/chunks.h (cell positions written by the")
 print("tokenizing task and read back by the column tasks, row and co-moment tasks apart)")
-print("measured 718 million (+6.3%) at -j1 that day.  A change to the scan should stay within")
+print("measured 716 million (+6.0%) at -j1 that day.  A change to the scan should stay within")
 print("2% of the latest figure, or explain.\n")
 PY
 }
@@ -364,5 +364,6 @@ for s in "${sections[@]}"; do "section_$s"; done
     for f in scan count target wide merge shard pca project threads; do
         [ -s "$out/$f.md" ] && cat "$out/$f.md"
     done
+    [ -s bench/threads-notes.md ] && cat bench/threads-notes.md
 } >"$results"
 cat "$results"
