@@ -199,16 +199,27 @@ static int grow_row_arrays(chunks *w, job *j)
     return cell && cls && y && hy && (!p || (dev && pr)) ? 0 : -1;
 }
 
-/* The message of a failure at a row (absolute line), in w->err. */
-static scan_status row_error(chunks *w, scan_status st, const char *fmt, uint64_t line, size_t nf)
+/* The failures of the row task, with their messages in w->err. */
+static scan_status out_of_memory(chunks *w)
 {
-    if (st == SCAN_ERR_MEMORY) snprintf(w->err, sizeof w->err, "out of memory");
-    else if (nf != (size_t)-1)
-        snprintf(w->err, sizeof w->err, fmt, w->shown, (unsigned long long)line, nf, w->o.width);
-    else
-        snprintf(w->err, sizeof w->err, fmt, w->shown, (unsigned long long)line,
-                 w->run->opt.target, w->run->opt.max_classes);
-    return st;
+    snprintf(w->err, sizeof w->err, "out of memory");
+    return SCAN_ERR_MEMORY;
+}
+
+static scan_status too_many_classes(chunks *w, uint64_t line)
+{
+    snprintf(w->err, sizeof w->err,
+             "%s: line %llu: target '%s' has more than %u classes; raise --max-classes or use "
+             "--task regress",
+             w->shown, (unsigned long long)line, w->run->opt.target, w->run->opt.max_classes);
+    return SCAN_ERR_INPUT;
+}
+
+static scan_status ragged_row(chunks *w, uint64_t line, size_t nf)
+{
+    snprintf(w->err, sizeof w->err, "%s: line %llu: %zu fields, the header has %zu (--strict)",
+             w->shown, (unsigned long long)line, nf, w->o.width);
+    return SCAN_ERR_INPUT;
 }
 
 /* The target cell of row r (p NULL: absent): block_rows semantics. */
@@ -235,10 +246,7 @@ static scan_status target_row(chunks *w, job *j, size_t r, const char *p, uint32
         int numeric = finite && s->opt.task != TASK_CLASSIFY;
         for (uint32_t c = 0; numeric && c < s->nclasses; c++) numeric = s->class_numeric[c];
         if (!numeric)
-            return row_error(w, SCAN_ERR_INPUT,
-                             "%s: line %llu: target '%s' has more than %u classes; raise "
-                             "--max-classes or use --task regress",
-                             w->lines + j->line[r], (size_t)-1);
+            return too_many_classes(w, w->lines + j->line[r]);
         /* The rows before end a block; the columns convert before the next. */
         if (r > *block_start && add_block(j, *block_start, (uint32_t)r, 1, 0) != 0)
             return SCAN_ERR_MEMORY;
@@ -279,7 +287,7 @@ static scan_status rows_of(chunks *w, job *j)
                  "--chunk-size or --max-record", w->shown, j->ck.len);
         return SCAN_ERR_USAGE;
     }
-    if (j->fault == FAULT_MEMORY || grow_row_arrays(w, j) != 0) return row_error(w, SCAN_ERR_MEMORY, NULL, 0, 0);
+    if (j->fault == FAULT_MEMORY || grow_row_arrays(w, j) != 0) return out_of_memory(w);
     const int target = s->target;
     uint32_t start = 0;
     int classes = s->has_classes, drop = 0;
@@ -293,9 +301,7 @@ static scan_status rows_of(chunks *w, job *j)
             uint64_t line = w->lines + j->line[r];
             if (s->n_bad_lines < SUMMARY_BAD_LINES) s->bad_lines[s->n_bad_lines++] = line;
             if (w->o.strict)
-                return row_error(w, SCAN_ERR_INPUT,
-                                 "%s: line %llu: %zu fields, the header has %zu (--strict)", line,
-                                 j->nf[r]);
+                return ragged_row(w, line, j->nf[r]);
         }
         if (target >= 0) {
             const cell *tc = &j->cells[r * w->ncols + (size_t)target];
@@ -303,7 +309,7 @@ static scan_status rows_of(chunks *w, job *j)
             const char *p = len == CELL_ABSENT ? NULL : j->ck.data + tc->off;
             int cl = classes;
             scan_status st = target_row(w, j, r, p, len == CELL_ABSENT ? 0 : len, &start, &cl);
-            if (st != SCAN_OK) return st == SCAN_ERR_MEMORY ? row_error(w, st, NULL, 0, 0) : st;
+            if (st != SCAN_OK) return st == SCAN_ERR_MEMORY ? out_of_memory(w) : st;
             if (cl < 0) { /* dropped at this row, which opens a block without classes */
                 classes = 0;
                 drop = 1;
@@ -311,7 +317,7 @@ static scan_status rows_of(chunks *w, job *j)
         }
         if (r + 1 - start == SUMMARY_BLOCK_ROWS || r + 1 == j->rows) {
             if (add_block(j, start, (uint32_t)(r + 1), classes, drop) != 0)
-                return row_error(w, SCAN_ERR_MEMORY, NULL, 0, 0);
+                return out_of_memory(w);
             start = (uint32_t)(r + 1);
             drop = 0;
         }

@@ -52,12 +52,8 @@ struct scan_context {
     unsigned threads;      /* worker threads */
     summary *run;          /* the summary (once the schema is known) */
     reader_missing missing; /* the missing-cell test */
-    /* The schema, from the first stream's first record. */
-    int schema;            /* known */
-    size_t ncols;          /* columns scanned */
-    char **col_names;      /* their names (pointers into header) */
-    column_mode *col_modes; /* their declared modes */
-    int *field_of;         /* their field index */
+    /* The schema, from the first stream's first record (run is made then). */
+    int *field_of;         /* each scanned column's field index */
     size_t file_fields;    /* fields in the header */
     char **header;         /* the header's names (file_fields of them) */
     char *first_path;      /* the stream the header came from */
@@ -216,15 +212,9 @@ static scan_status setup(scan_context *sc, char **names, size_t nnames)
         st = SCAN_ERR_MEMORY;
         goto done;
     }
-    sc->col_names = cols;
-    sc->col_modes = modes;
     sc->field_of = field_of;
-    cols = NULL;
-    modes = NULL;
     field_of = NULL;
-    sc->ncols = n;
     sc->file_fields = nnames;
-    sc->schema = 1;
     if (start_work(sc) != 0) {
         snprintf(sc->err, sizeof sc->err, "out of memory");
         st = SCAN_ERR_MEMORY;
@@ -244,7 +234,7 @@ done:
 static scan_status first_record(scan_context *sc, const csv_field *f, size_t nf)
 {
     char *name = NULL;
-    if (sc->schema) {
+    if (sc->run) {
         if (!sc->o.header) return SCAN_OK;
         /* Later sources: the header must match the first one's. */
         for (size_t i = 0; i < nf || i < sc->file_fields; i++) {
@@ -391,7 +381,7 @@ static scan_status end(scan_context *sc, const summary_source *prov)
     }
     sc->open = 0;
     if (!sc->delim) sc->delim = reader_delim(sc->rd);
-    if (sc->at_first && !sc->schema) {
+    if (sc->at_first && !sc->run) {
         snprintf(sc->err, sizeof sc->err, "%s: no records (empty input)", sc->name);
         return fail(sc, SCAN_ERR_INPUT, NULL);
     }
@@ -439,8 +429,6 @@ void scan_free(scan_context *sc)
     if (sc->header)
         for (size_t i = 0; i < sc->file_fields; i++) free(sc->header[i]);
     free(sc->header);
-    free(sc->col_names);
-    free(sc->col_modes);
     free(sc->field_of);
     free(sc->first_path);
     free(sc->name);

@@ -32,3 +32,20 @@ cli_setup() {
     if [ "${2:-}" = python ] && [ ! -x "$PY" ]; then skip all "$PY not found"; return 1; fi
     return 0
 }
+
+# tsan_compiler DIR: sets CC_TSAN to the first compiler here whose
+# -fsanitize=thread builds and runs a program (TSAN_CC first, then gcc,
+# clang, cc); returns 1 when none does.  DIR holds the probe.
+tsan_compiler() {
+    CC_TSAN=
+    local c
+    for c in "${TSAN_CC:-}" gcc clang cc; do
+        [ -n "$c" ] && command -v "$c" >/dev/null || continue
+        if echo 'int main(void){return 0;}' |
+            "$c" -fsanitize=thread -x c - -o "$1/probe" >/dev/null 2>&1 && "$1/probe"; then
+            CC_TSAN=$c
+            return 0
+        fi
+    done
+    return 1
+}

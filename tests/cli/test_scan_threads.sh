@@ -21,8 +21,13 @@ sha() { sha256sum <"$1" | cut -c1-16; }
 
 # 1. The matrix: every -j gives the -j1 bytes.
 for f in t.csv t.csv.gz t.csv.zst; do
-    for tgt in none label price; do
-        topt=(); [ "$tgt" != none ] && topt=(--target "$tgt")
+    # digit3: a numeric target past --max-classes, whose classes are dropped mid-chunk.
+    for tgt in none label price digit3; do
+        case $tgt in
+            none) topt=() ;;
+            digit3) topt=(--target digit --max-classes 3) ;;
+            *) topt=(--target "$tgt") ;;
+        esac
         for cs in default 64K 300K; do
             copt=(); [ "$cs" != default ] && copt=(--chunk-size "$cs")
             want=

@@ -15,16 +15,7 @@ cli_setup threads-tsan || exit 0
 OUT=build/tsan
 BIN=$OUT/sheaf
 mkdir -p "$OUT"
-CC_TSAN=
-for c in "${TSAN_CC:-}" gcc clang cc; do
-    [ -n "$c" ] && command -v "$c" >/dev/null || continue
-    if echo 'int main(void){return 0;}' |
-        "$c" -fsanitize=thread -x c - -o "$OUT/probe" >/dev/null 2>&1 && "$OUT/probe"; then
-        CC_TSAN=$c
-        break
-    fi
-done
-if [ -z "$CC_TSAN" ]; then
+if ! tsan_compiler "$OUT"; then
     skip threads_tsan "no compiler with a working -fsanitize=thread"
     exit 0
 fi
