@@ -17,6 +17,7 @@
 #include <errno.h>
 #include <fcntl.h>
 #include <isa-l.h>
+#include <pthread.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -47,6 +48,33 @@ struct source {
     size_t zs_hint;           /* last ZSTD_decompressStream result */
     int done;                 /* end of decoded input reached */
     char err[512];            /* last error */
+    struct ahead *ahead;      /* read-ahead thread (source_read_ahead), or NULL */
+};
+
+/* Read-ahead: a thread decodes the source into blocks that source_read hands
+ * out in order.  Everything the thread touches in the source is its own
+ * until it has finished (after the end or an error), which the consumer
+ * learns under the mutex. */
+#define AHEAD_BLOCK (1u << 20)
+
+typedef struct ahead_block {
+    struct ahead_block *next;
+    size_t len, pos;    /* decoded bytes, and how many were handed out */
+    uint64_t raw_after; /* the raw offset once this block was decoded */
+    uint8_t data[];
+} ahead_block;
+
+struct ahead {
+    pthread_t thread;
+    pthread_mutex_t mu;
+    pthread_cond_t cv;
+    ahead_block *head, *tail; /* decoded, not yet handed out */
+    size_t buffered;          /* their bytes */
+    size_t budget;            /* decode no further while this many wait */
+    int finished;             /* the thread reached the end (rc 0) or an error (rc -1) */
+    ssize_t rc;
+    int quit;                 /* source_close: stop */
+    uint64_t consumed_raw;    /* raw offset of what was handed out */
 };
 
 static void fail(source *s, const char *fmt, const char *detail)
@@ -189,9 +217,12 @@ source *source_open_at(const char *path, uint64_t start, char *err, size_t errle
     return s;
 }
 
+static void ahead_stop(source *s);
+
 void source_close(source *s)
 {
     if (!s) return;
+    ahead_stop(s);
     if (s->owns_fd) close(s->fd);
     free(s->path);
     free(s->raw);
@@ -349,7 +380,9 @@ static ssize_t read_zstd(source *s, uint8_t *buf, size_t cap)
     return (ssize_t)out.pos;
 }
 
-ssize_t source_read(source *s, void *buf, size_t cap)
+static ssize_t ahead_read(source *s, void *buf, size_t cap);
+
+static ssize_t decode(source *s, void *buf, size_t cap)
 {
     if (s->done || cap == 0) return 0;
     ssize_t n;
@@ -362,10 +395,129 @@ ssize_t source_read(source *s, void *buf, size_t cap)
     return n;
 }
 
+ssize_t source_read(source *s, void *buf, size_t cap)
+{
+    return s->ahead ? ahead_read(s, buf, cap) : decode(s, buf, cap);
+}
+
+static void *ahead_main(void *arg)
+{
+    source *s = arg;
+    struct ahead *a = s->ahead;
+    for (;;) {
+        pthread_mutex_lock(&a->mu);
+        while (!a->quit && a->buffered >= a->budget) pthread_cond_wait(&a->cv, &a->mu);
+        int quit = a->quit;
+        pthread_mutex_unlock(&a->mu);
+        if (quit) break;
+        ahead_block *b = malloc(sizeof *b + AHEAD_BLOCK);
+        ssize_t n = -1;
+        if (!b) snprintf(s->err, sizeof s->err, "%s: out of memory", s->path);
+        else n = decode(s, b->data, AHEAD_BLOCK);
+        pthread_mutex_lock(&a->mu);
+        if (n > 0) {
+            b->next = NULL;
+            b->len = (size_t)n;
+            b->pos = 0;
+            b->raw_after = s->raw_offset - (s->raw_len - s->raw_pos);
+            if (a->tail) a->tail->next = b;
+            else a->head = b;
+            a->tail = b;
+            a->buffered += (size_t)n;
+        } else {
+            free(b);
+            a->finished = 1;
+            a->rc = n < 0 ? -1 : 0;
+        }
+        pthread_cond_broadcast(&a->cv);
+        pthread_mutex_unlock(&a->mu);
+        if (n <= 0) break;
+    }
+    return NULL;
+}
+
+int source_read_ahead(source *s, size_t budget)
+{
+    if (s->ahead) return 0;
+    struct ahead *a = calloc(1, sizeof *a);
+    if (!a) return -1;
+    a->budget = budget ? budget : AHEAD_BLOCK;
+    a->consumed_raw = source_raw_offset(s);
+    pthread_mutex_init(&a->mu, NULL);
+    pthread_cond_init(&a->cv, NULL);
+    s->ahead = a;
+    if (pthread_create(&a->thread, NULL, ahead_main, s) != 0) {
+        pthread_mutex_destroy(&a->mu);
+        pthread_cond_destroy(&a->cv);
+        free(a);
+        s->ahead = NULL; /* reads stay on the caller's thread */
+    }
+    return 0;
+}
+
+static ssize_t ahead_read(source *s, void *buf, size_t cap)
+{
+    struct ahead *a = s->ahead;
+    if (cap == 0) return 0;
+    pthread_mutex_lock(&a->mu);
+    while (!a->head && !a->finished) pthread_cond_wait(&a->cv, &a->mu);
+    ssize_t n;
+    if (a->head) {
+        ahead_block *b = a->head;
+        size_t k = b->len - b->pos < cap ? b->len - b->pos : cap;
+        memcpy(buf, b->data + b->pos, k);
+        b->pos += k;
+        if (b->pos == b->len) {
+            a->head = b->next;
+            if (!a->head) a->tail = NULL;
+            a->buffered -= b->len;
+            a->consumed_raw = b->raw_after;
+            free(b);
+            pthread_cond_broadcast(&a->cv);
+        }
+        n = (ssize_t)k;
+    } else {
+        n = a->rc; /* the thread is done with the source: its state is ours */
+        if (n == 0) a->consumed_raw = s->raw_offset - (s->raw_len - s->raw_pos);
+    }
+    pthread_mutex_unlock(&a->mu);
+    return n;
+}
+
+static void ahead_stop(source *s)
+{
+    struct ahead *a = s->ahead;
+    if (!a) return;
+    pthread_mutex_lock(&a->mu);
+    a->quit = 1;
+    pthread_cond_broadcast(&a->cv);
+    pthread_mutex_unlock(&a->mu);
+    pthread_join(a->thread, NULL);
+    while (a->head) {
+        ahead_block *b = a->head;
+        a->head = b->next;
+        free(b);
+    }
+    pthread_mutex_destroy(&a->mu);
+    pthread_cond_destroy(&a->cv);
+    free(a);
+    s->ahead = NULL;
+}
+
 const char *source_error(const source *s) { return s->err; }
 const char *source_path(const source *s) { return s->path; }
 source_format source_kind(const source *s) { return s->kind; }
-uint64_t source_raw_offset(const source *s) { return s->raw_offset - (s->raw_len - s->raw_pos); }
+uint64_t source_raw_offset(const source *s)
+{
+    if (s->ahead) {
+        struct ahead *a = s->ahead;
+        pthread_mutex_lock(&a->mu);
+        uint64_t at = a->consumed_raw;
+        pthread_mutex_unlock(&a->mu);
+        return at;
+    }
+    return s->raw_offset - (s->raw_len - s->raw_pos);
+}
 uint64_t source_raw_size(const source *s) { return s->raw_size; }
 int64_t source_mtime(const source *s) { return s->mtime; }
 uint64_t source_fingerprint(const source *s) { return XXH3_64bits_digest(s->hash); }

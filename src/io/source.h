@@ -33,6 +33,14 @@ void source_close(source *s);
  * input, or -1 on error (message in source_error: file and byte offset). */
 ssize_t source_read(source *s, void *buf, size_t cap);
 const char *source_error(const source *s);
+/* Decodes ahead on a thread of its own, at most `budget` bytes (0: 1 MiB)
+ * beyond what source_read has handed out, so that reading and decompressing
+ * overlap the caller's work (and one file's with another's).  source_read
+ * gives the same bytes and the same error at the same place as without;
+ * source_raw_offset then counts what was handed out, block by block.  0, or
+ * -1 when out of memory (nothing changed).  When the thread cannot start,
+ * reads stay on the caller's thread. */
+int source_read_ahead(source *s, size_t budget);
 
 const char *source_path(const source *s);
 source_format source_kind(const source *s);

@@ -45,7 +45,7 @@ for f in t.csv t.csv.gz t.csv.zst; do
     done
 done
 
-# 2. Several files, and a shard, at every -j.
+# 2. Several files (read ahead on threads of their own), and a shard, at every -j.
 for case in files shard; do
     want=
     bad=
@@ -97,6 +97,12 @@ err_case strict_ragged "$T/ragged.csv" --strict --chunk-size 64K
 err_case corrupt_gzip_member "$T/bad.csv.gz"
 err_case too_many_classes "$T/t.csv" --target label --max-classes 3 --chunk-size 64K
 OUT=$T/no/such/dir/x.sheaf err_case unwritable_output "$T/t.csv"
+# Files read ahead (the next one opened and decompressed while this one is
+# scanned) still fail in turn, with the same message.
+head -c 300000 "$T/t.csv.gz" >"$T/short.csv.gz"
+err_case second_file_missing "$T/t.csv" "$T/no-such.csv"
+err_case second_file_truncated "$T/t.csv.zst" "$T/short.csv.gz"
+err_case fourth_file_unterminated "$T/t.csv" "$T/t.csv.gz" "$T/ragged.csv" "$T/quote.csv"
 # The messages name the place.
 run "$SHEAF" scan "$T/quote.csv" --chunk-size 64K -j 4 -q -o "$T/e.sheaf"
 check threads.error.names_line "no 'line 30001' in: $(err_text)" grep -q "quote.csv: line 30001: unterminated quote" "$T/err"
