@@ -4,9 +4,11 @@
  * (reader_next_chunk) into a pipeline.  Worker threads run `work` on each
  * chunk, in any order and on any thread, into state the caller keeps per
  * slot; `commit` then runs on each chunk's slot one chunk at a time, in push
- * order.  What commit folds therefore depends on the chunks alone, never on
- * the thread count or the scheduling: a scan folds a chunk's partial
- * summary, trim and project write a chunk's output.
+ * order.  What commit writes therefore depends on the chunks alone, never on
+ * the thread count or the scheduling: trim and project (pass/stream) format
+ * a chunk's rows in `work` and write them in `commit`.  (The scan has a
+ * scheduler of its own, summary/chunks.h, since its per-column state must
+ * see the chunks in order too.)
  *
  *   pipeline *p = pipeline_create(threads, slots, work, commit, ctx);
  *   pipeline_push(p, &chunk, tag) ...;   blocks while every slot is busy

@@ -12,7 +12,9 @@
  * Every stream is read by the one record reader (io/reader.h); the first
  * stream's first record fixes the schema and later streams must share it.
  * The summary depends on the bytes alone: feeding the same bytes in any
- * split gives the same summary, byte for byte.  Numeric cells enter the
+ * split gives the same summary, byte for byte, and so does any thread count
+ * (scan_options.threads; summary/chunks.h says how).  With threads,
+ * scan_position counts the chunks finished so far: call it after scan_end.  Numeric cells enter the
  * moments as exact decimal deviations from the column's first value, in
  * blocks of SUMMARY_BLOCK_ROWS rows (summary/block.h).  Nothing is
  * allocated per field or row.
