@@ -55,6 +55,7 @@ typedef struct {
     reader_cursor cur;
     int fault;              /* FAULT_* */
     size_t rows, rows_cap;
+    size_t row_arrays_cap;  /* rows the R and co-moment arrays hold */
     cell *cells;            /* rows x ncols, row-major (written in order, read a block at a time) */
     uint64_t *line;         /* rows: line of each row, from the chunk's first */
     uint32_t *nf;           /* rows: fields of each row */
@@ -287,7 +288,11 @@ static scan_status rows_of(chunks *w, job *j)
                  "--chunk-size or --max-record", w->shown, j->ck.len);
         return SCAN_ERR_USAGE;
     }
-    if (j->fault == FAULT_MEMORY || grow_row_arrays(w, j) != 0) return out_of_memory(w);
+    if (j->fault == FAULT_MEMORY) return out_of_memory(w);
+    if (j->row_arrays_cap < j->rows_cap) { /* the tokenizer grew the chunk's rows */
+        if (grow_row_arrays(w, j) != 0) return out_of_memory(w);
+        j->row_arrays_cap = j->rows_cap;
+    }
     const int target = s->target;
     uint32_t start = 0;
     int classes = s->has_classes, drop = 0;
