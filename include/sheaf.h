@@ -26,7 +26,10 @@
  * message in a caller-provided buffer; none prints or exits.  Objects are
  * created and freed by the caller (summary_free, screen_free,
  * pca_result_free).  Nothing keeps global mutable state, so independent
- * summaries may be built on different threads.
+ * summaries may be built on different threads.  A scan, trim or project
+ * starts worker threads of its own: as many as the CPUs the process may use,
+ * unless o.threads (or the pass's `threads`) says otherwise (1: none); the
+ * results are the same, byte for byte, for every count.
  *
  * Compile with -Iinclude -Isrc and link libsheaf.a with
  *   -lgsl -lisal -lzstd -lxxhash -lopenblas -llapacke -lz -lm -lpthread
