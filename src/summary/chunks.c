@@ -543,7 +543,7 @@ chunks *chunks_create(const chunks_options *o)
     w->ncomo = o->run->ncomo;
     w->simd = number_simd_usable();
     unsigned threads = o->threads ? o->threads : 1;
-    w->nslots = threads > 1 ? (o->slots > threads ? o->slots : threads) : 1;
+    w->nslots = threads;
     w->jobs = calloc(w->nslots, sizeof *w->jobs);
     /* Column groups: one with one thread; else two per thread (the columns
      * dealt out in turn), so that a worker finds a group to feed while

@@ -43,8 +43,8 @@ typedef struct {
     int strict;                    /* a ragged row is an error */
     const reader_options *ro;      /* the reader's options (borrowed) */
     const reader_missing *missing; /* the missing-cell test (borrowed) */
-    unsigned threads;              /* worker threads (1: none) */
-    unsigned slots;                /* chunks in flight (>= threads) */
+    unsigned threads;              /* worker threads (1: none), and chunks in flight: a spare
+                                      slot for the reading thread measured no faster */
 } chunks_options;
 
 typedef struct chunks chunks;

@@ -37,11 +37,6 @@ void scan_options_defaults(scan_options *o)
     o->max_record_bytes = 64u << 20;
 }
 
-/* Chunks in flight beyond one per worker thread: one the reading thread
- * fills while the workers work.  Each holds a chunk's bytes and about 17
- * bytes per cell of it (summary/chunks.h), so they bound the memory. */
-#define SCAN_SPARE_SLOTS 0
-
 struct scan_context {
     scan_options o;        /* options (borrowed strings) */
     reader_options ro;     /* the reader's options */
@@ -89,7 +84,7 @@ static scan_status fail(scan_context *sc, scan_status st, const char *msg)
 static int start_work(scan_context *sc)
 {
     chunks_options co = {sc->run, sc->field_of, sc->file_fields, sc->o.header, sc->o.strict,
-                         &sc->ro, &sc->missing, sc->threads, sc->threads + SCAN_SPARE_SLOTS};
+                         &sc->ro, &sc->missing, sc->threads};
     sc->work = chunks_create(&co);
     if (!sc->work) return -1;
     if (sc->open) chunks_stream(sc->work, sc->shown, sc->stop_at, sc->blank_lines);
