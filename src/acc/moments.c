@@ -58,6 +58,7 @@ void moments_add_block(moments *m, const double *dev, size_t count)
     /* Second pass correction of the block mean (Björck; Chan et al. 1983). */
     mean += corr / (double)count;
     s2 -= corr * corr / (double)count;
+    if (s2 < 0) s2 = 0; /* rounding of the correction; a sum of squares is never negative */
     if (m->n == 0) {
         m->n = count;
         m->mean = mean;
@@ -147,7 +148,40 @@ int moments_read(moments *m, wire_reader *r)
     int64_t e = wire_get_i64(r);
     m->ref.negative = wire_get_u8(r);
     m->ref.exact = wire_get_u8(r);
-    if (e < INT32_MIN || e > INT32_MAX || m->has_ref > 1) r->failed = 1;
+    if (e < INT32_MIN || e > INT32_MAX || m->has_ref > 1 || m->ref.negative > 1 ||
+        m->ref.exact > 1)
+        r->failed = 1;
     m->ref.exp10 = (int32_t)e;
+    if (!r->failed && !moments_valid(m)) r->failed = 1;
     return r->failed ? -1 : 0;
+}
+
+int moments_spread_allows_overflow(double min, double max)
+{
+    /* Fourth powers of deviations below 2^200 times a count below 2^64 stay
+     * far below DBL_MAX (2^1024); only a wider spread can overflow. */
+    return !(max - min < 0x1p200);
+}
+
+int moments_mean_plausible(double mean, double min, double max)
+{
+    /* |mean| <= max - min exactly (the frame lies in [min, max]); the slack
+     * covers decimals that round to the same double and summation rounding. */
+    double spread = max - min, scale = fmax(fabs(min), fabs(max));
+    return fabs(mean) <= 2.0 * spread + 0x1p-30 * scale + 0x1p-1000;
+}
+
+int moments_valid(const moments *m)
+{
+    if (m->n == 0)
+        return m->mean == 0 && m->m2 == 0 && m->m3 == 0 && m->m4 == 0 && m->min == INFINITY &&
+               m->max == -INFINITY;
+    if (!m->has_ref || !isfinite(m->min) || !isfinite(m->max) || !(m->min <= m->max) ||
+        !isfinite(m->ref.value) || m->ref.value < m->min || m->ref.value > m->max)
+        return 0;
+    if (m->n == 1) return m->mean == 0 && m->m2 == 0 && m->m3 == 0 && m->m4 == 0;
+    if (m->m2 < 0 || m->m4 < 0) return 0;
+    if (moments_spread_allows_overflow(m->min, m->max)) return 1;
+    return isfinite(m->mean) && isfinite(m->m2) && isfinite(m->m3) && isfinite(m->m4) &&
+           moments_mean_plausible(m->mean, m->min, m->max);
 }

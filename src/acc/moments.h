@@ -64,6 +64,20 @@ double moments_skewness(const moments *m);    /* g1 = sqrt(n) m3 / m2^1.5 */
 double moments_kurtosis(const moments *m);    /* g2 = n m4 / m2^2 - 3 */
 
 void moments_write(const moments *m, wire_writer *w);
+/* Reads a state and checks it with moments_valid; -1 (r->failed set) on
+ * malformed or impossible input. */
 int moments_read(moments *m, wire_reader *r);
+/* 1 when the state could have come from values (docs/summary-format.md,
+ * "Invariants"): n = 0 leaves the initial state; otherwise min <= max are
+ * finite and hold the frame, n = 1 has zero central sums, M2 and M4 are not
+ * negative, and mean, M2..M4 are finite with |mean| within the spread unless
+ * the spread is wide enough (moments_spread_allows_overflow) to overflow. */
+int moments_valid(const moments *m);
+/* 1 when values spread over [min, max] may overflow the power sums (the
+ * spread is 2^200 or more, or not finite). */
+int moments_spread_allows_overflow(double min, double max);
+/* 1 when a mean of deviations from a frame inside [min, max] could be
+ * `mean` (|mean| is at most the spread, with slack for rounding). */
+int moments_mean_plausible(double mean, double min, double max);
 
 #endif

@@ -1,8 +1,13 @@
 /* column: see column.h. */
 #include "summary/column.h"
 
+#include <float.h>
+#include <math.h>
+#include <stdarg.h>
+#include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <xxhash.h>
 
 int column_alloc(summary_column *c, const summary_options *o, int with_classes)
 {
@@ -76,47 +81,227 @@ void column_write(const summary_column *c, uint32_t nclasses, wire_writer *w)
         }
 }
 
-int column_read(summary_column *c, uint32_t nclasses, wire_reader *r)
+int column_read(summary_column *c, uint32_t nclasses, wire_reader *r, const char **part)
 {
+    *part = "counts";
     c->missing = wire_get_u64(r);
     c->non_numeric = wire_get_u64(r);
     c->non_finite = wire_get_u64(r);
     c->zeros = wire_get_u64(r);
     c->integers = wire_get_u64(r);
-    moments_read(&c->mom, r);
+    if (r->failed) return -1;
+    *part = "moments";
+    if (moments_read(&c->mom, r) != 0) return -1;
+    *part = "examples";
     c->n_examples = wire_get_u32(r);
-    if (c->n_examples > SUMMARY_EXAMPLES) { c->n_examples = 0; return -1; }
+    if (c->n_examples > SUMMARY_EXAMPLES) { c->n_examples = 0; r->failed = 1; return -1; }
     for (uint32_t e = 0; e < c->n_examples; e++) {
         size_t n;
         const char *p = wire_get_str(r, &n, SUMMARY_EXAMPLE_BYTES);
         if (p) memcpy(c->examples[e], p, n);
         c->examples[e][n] = '\0';
     }
+    if (r->failed) return -1;
+    *part = "value table";
     values *v = values_read(r);
     if (!v) return -1;
     values_free(c->vals);
     c->vals = v;
+    *part = "distinct-count sketch";
     if (hll_read(c->distinct, r) != 0) return -1;
+    *part = "bucket store";
     buckets *b = buckets_read(r);
-    if (!b) return -1;
+    if (!b) { r->failed = 1; return -1; }
     buckets_free(c->bins);
     c->bins = b;
+    *part = "per-value table";
     uint8_t has_cross = wire_get_u8(r);
-    if (has_cross != (c->cross != NULL)) return -1;
+    if (r->failed || has_cross != (c->cross != NULL)) { r->failed = 1; return -1; }
     if (has_cross) {
         crosstab *x = crosstab_read(r);
-        if (!x) return -1;
+        if (!x) { r->failed = 1; return -1; }
         crosstab_free(c->cross);
         c->cross = x;
     }
+    *part = "per-class moments";
     uint8_t has_cls = wire_get_u8(r);
-    if (has_cls != (c->cls != NULL)) return -1;
+    if (r->failed || has_cls != (c->cls != NULL) || !wire_need(r, (size_t)nclasses * 24 * has_cls)) {
+        r->failed = 1;
+        return -1;
+    }
     for (uint32_t k = 0; has_cls && k < nclasses; k++) {
         c->cls[k].n = wire_get_u64(r);
         c->cls[k].mean = wire_get_f64(r);
         c->cls[k].m2 = wire_get_f64(r);
     }
     return r->failed ? -1 : 0;
+}
+
+/* ---- invariants ---------------------------------------------------------- */
+
+static int why(char *msg, size_t len, const char *fmt, ...) __attribute__((format(printf, 3, 4)));
+
+static int why(char *msg, size_t len, const char *fmt, ...)
+{
+    va_list ap;
+    va_start(ap, fmt);
+    vsnprintf(msg, len, fmt, ap);
+    va_end(ap);
+    return -1;
+}
+
+/* 1 when cell is a regression target cell: SUMMARY_TARGET_CELL_BASE plus a
+ * bucket key at SUMMARY_TARGET_LEVEL (see summary_target_cell). */
+static int regression_cell(uint32_t cell)
+{
+    int64_t key = (int64_t)cell - (int64_t)SUMMARY_TARGET_CELL_BASE;
+    int64_t top = buckets_key_at(buckets_key(DBL_MAX), SUMMARY_TARGET_LEVEL);
+    return key >= -top && key <= top;
+}
+
+/* What a target cell may be in this summary: 0 (no target, or its cell is
+ * missing), a class 1..K with classes, a regression cell without. */
+static int cell_valid(const summary *s, uint32_t cell)
+{
+    if (cell == 0) return 1;
+    if (s->target < 0) return 0;
+    if (s->has_classes) return cell <= s->nclasses;
+    return regression_cell(cell);
+}
+
+/* Per-class moments: as a column's moments, without min and max of their
+ * own (the column's bound them). */
+static int class_moments_valid(const class_moments *k, const moments *col)
+{
+    if (k->n == 0) return k->mean == 0 && k->m2 == 0;
+    if (k->n == 1 && k->m2 != 0) return 0;
+    if (k->m2 < 0) return 0;
+    if (moments_spread_allows_overflow(col->min, col->max)) return 1;
+    return isfinite(k->mean) && isfinite(k->m2) &&
+           moments_mean_plausible(k->mean, col->min, col->max);
+}
+
+int column_check(const summary *s, const summary_column *c, char *msg, size_t len)
+{
+    const summary_options *o = &s->opt;
+    /* Counts: every row has exactly one state in every column. */
+    uint64_t present = c->mom.n, rows = c->missing;
+    if (present > UINT64_MAX - c->non_numeric || present + c->non_numeric > UINT64_MAX - c->non_finite)
+        return why(msg, len, "cell counts overflow");
+    present += c->non_numeric + c->non_finite;
+    if (rows > UINT64_MAX - present || rows + present != s->rows)
+        return why(msg, len, "missing + numbers + text + non-finite cells = %llu + %llu, not the "
+                   "table's %llu rows", (unsigned long long)c->missing,
+                   (unsigned long long)present, (unsigned long long)s->rows);
+    if (c->zeros > c->integers || c->integers > c->mom.n)
+        return why(msg, len, "zeros %llu, integers %llu, numbers %llu out of order",
+                   (unsigned long long)c->zeros, (unsigned long long)c->integers,
+                   (unsigned long long)c->mom.n);
+    if (c->mode == COLUMN_CATEGORICAL && (c->mom.n || c->non_finite || c->n_examples))
+        return why(msg, len, "a declared-categorical column holds numbers or examples");
+    if (c->n_examples > c->non_numeric)
+        return why(msg, len, "more examples than text cells");
+    for (uint32_t e = 0; e < c->n_examples; e++)
+        for (uint32_t f = 0; f < e; f++)
+            if (strcmp(c->examples[e], c->examples[f]) == 0)
+                return why(msg, len, "example %u repeats example %u", e + 1, f + 1);
+
+    /* Value table: the schema's sizes, every present cell counted once,
+     * full when it overflowed, and a label that was not cut hashes to its
+     * key (XXH3-64, as the scan hashed the cell). */
+    const values *v = c->vals;
+    if (values_max_levels(v) != o->max_levels)
+        return why(msg, len, "value table of %u entries, not the schema's %u",
+                   values_max_levels(v), o->max_levels);
+    if (values_total(v) != present)
+        return why(msg, len, "value table counts %llu cells, not the %llu present",
+                   (unsigned long long)values_total(v), (unsigned long long)present);
+    if (values_overflowed(v) && values_levels(v) != o->max_levels)
+        return why(msg, len, "value table overflowed with room left");
+    for (uint32_t k = 0; k < values_levels(v); k++) {
+        values_entry e = values_entry_at(v, k);
+        if (e.label_len > o->label_bytes)
+            return why(msg, len, "value label longer than the schema's label_bytes");
+        if (e.label_len < o->label_bytes && XXH3_64bits(e.label, e.label_len) != e.hash)
+            return why(msg, len, "value %u: label does not hash to its key", k + 1);
+    }
+
+    /* Bucket store: the schema's budget, one entry count per number, zeros
+     * in key 0, and cells that exist. */
+    const buckets *b = c->bins;
+    if (buckets_budget(b) != o->bucket_budget)
+        return why(msg, len, "bucket budget %u, not the schema's %u", buckets_budget(b),
+                   o->bucket_budget);
+    if (buckets_total(b) != c->mom.n)
+        return why(msg, len, "bucket store counts %llu numbers, not %llu",
+                   (unsigned long long)buckets_total(b), (unsigned long long)c->mom.n);
+    uint64_t zero_count = 0, class_total = 0;
+    for (size_t i = 0, n = buckets_entries(b); i < n; i++) {
+        buckets_entry e = buckets_entry_at(b, i);
+        if (!cell_valid(s, e.cell))
+            return why(msg, len, "bucket entry %zu names target cell %u, which does not exist",
+                       i + 1, e.cell);
+        if (e.key == 0) zero_count += e.count;
+        if (s->has_classes && e.cell) class_total += e.count;
+    }
+    if (zero_count != c->zeros)
+        return why(msg, len, "bucket store holds %llu zeros, not %llu",
+                   (unsigned long long)zero_count, (unsigned long long)c->zeros);
+
+    /* Per-value table: with a target, the mode the target asks for, cells
+     * that exist, keys of the value table, counts within the value's (the
+     * scan stops feeding it when the value table overflows, so its keys
+     * stay in the table). */
+    if (c->cross) {
+        const crosstab *x = c->cross;
+        int mode = crosstab_mode(x);
+        if (crosstab_max_keys(x) != o->max_levels)
+            return why(msg, len, "per-value table of %u keys, not the schema's %u",
+                       crosstab_max_keys(x), o->max_levels);
+        if (mode == CROSSTAB_COUNTS && !s->has_classes)
+            return why(msg, len, "per-value class counts without target classes");
+        if (mode == CROSSTAB_VALUES && s->has_classes)
+            return why(msg, len, "per-value target moments with target classes");
+        uint64_t key_total = 0, last_key = 0;
+        for (size_t i = 0, n = crosstab_entries(x); i < n; i++) {
+            crosstab_entry e = crosstab_entry_at(x, i);
+            if (mode == CROSSTAB_COUNTS ? e.cell == 0 || e.cell > s->nclasses : !regression_cell(e.cell))
+                return why(msg, len, "per-value entry %zu names target cell %u, which does "
+                           "not exist", i + 1, e.cell);
+            if (e.key == CROSSTAB_OVERFLOW_KEY) continue; /* values past max_keys */
+            if (i == 0 || e.key != last_key) key_total = 0;
+            last_key = e.key;
+            /* The key is the hash, except that 2^64 - 1 is stored as 2^64 - 2. */
+            uint64_t count = values_count_of(v, e.key);
+            if (e.key == CROSSTAB_OVERFLOW_KEY - 1) count += values_count_of(v, CROSSTAB_OVERFLOW_KEY);
+            if (e.n > count - key_total)
+                return why(msg, len, "per-value entry %zu counts more rows than its value has",
+                           i + 1);
+            key_total += e.n;
+            if (mode == CROSSTAB_COUNTS && e.n > s->class_rows[e.cell - 1])
+                return why(msg, len, "per-value entry %zu counts more rows than class %u has",
+                           i + 1, e.cell);
+        }
+    }
+
+    /* Per-class moments: within the class's rows, adding up to the bucket
+     * store's class cells. */
+    if (c->cls) {
+        uint64_t sum = 0;
+        for (uint32_t k = 0; k < s->nclasses; k++) {
+            const class_moments *m = &c->cls[k];
+            if (m->n > s->class_rows[k])
+                return why(msg, len, "class %u: %llu numbers in %llu rows", k + 1,
+                           (unsigned long long)m->n, (unsigned long long)s->class_rows[k]);
+            if (!class_moments_valid(m, &c->mom))
+                return why(msg, len, "class %u: impossible moments", k + 1);
+            sum += m->n;
+        }
+        if (sum != class_total)
+            return why(msg, len, "per-class counts add to %llu, the bucket store's class cells "
+                       "to %llu", (unsigned long long)sum, (unsigned long long)class_total);
+    }
+    return 0;
 }
 
 /* Combines two class moments; shift = from's frame minus into's. */

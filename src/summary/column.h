@@ -31,8 +31,13 @@ void column_free(summary_column *c);
 /* Appends the column in the written layout; nclasses is the summary's. */
 void column_write(const summary_column *c, uint32_t nclasses, wire_writer *w);
 /* Reads a column written by column_write into c (allocated by column_alloc
- * for the same options).  0, or -1 on malformed or truncated input. */
-int column_read(summary_column *c, uint32_t nclasses, wire_reader *r);
+ * for the same options).  0, or -1 on malformed or truncated input, with
+ * *part naming the accumulator that did not read ("moments", ...). */
+int column_read(summary_column *c, uint32_t nclasses, wire_reader *r, const char **part);
+/* Checks the invariants of a read column against its summary (the table
+ * counts, the schema's options, the target classes; docs/summary-format.md,
+ * "Invariants").  0, or -1 with the broken one described in msg. */
+int column_check(const summary *s, const summary_column *c, char *msg, size_t len);
 
 /* How the target cells and classes of `from` map into `into` for a merge. */
 typedef struct {

@@ -14,6 +14,8 @@
 
 #include <errno.h>
 #include <fcntl.h>
+#include <math.h>
+#include <stdarg.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -142,6 +144,30 @@ static void encode_columns(const summary *s, wire_writer *w)
 
 /* ---- decoding ----------------------------------------------------------- */
 
+/* Every decode step reads through a wire_reader whose `failed` flag it sets
+ * on truncated or malformed bytes; a broken invariant (docs/summary-format.md,
+ * "Invariants") also writes what broke into `why`, which becomes the error
+ * message.  No count is used before wire_need has checked that the bytes
+ * it announces remain. */
+typedef struct {
+    char why[240];      /* the broken invariant, "" when only the bytes did not parse */
+    size_t remaining;   /* bytes of the file after the current section */
+} decode_state;
+
+static int broken(wire_reader *r, decode_state *d, const char *fmt, ...)
+    __attribute__((format(printf, 3, 4)));
+
+static int broken(wire_reader *r, decode_state *d, const char *fmt, ...)
+{
+    r->failed = 1;
+    if (d->why[0]) return -1;
+    va_list ap;
+    va_start(ap, fmt);
+    vsnprintf(d->why, sizeof d->why, fmt, ap);
+    va_end(ap);
+    return -1;
+}
+
 static char *dup_str(wire_reader *r, size_t max)
 {
     size_t n;
@@ -154,7 +180,12 @@ static char *dup_str(wire_reader *r, size_t max)
     return s;
 }
 
-static summary *decode_schema(wire_reader *r)
+/* The fewest bytes a column takes in COLS: five counts, moments, the
+ * example count, an empty value table with its overflow slots, an empty
+ * sparse sketch, an empty bucket store and the two flags. */
+#define MIN_COLUMN_BYTES (5 * 8 + 84 + 4 + (4 + 4 + 1 + 4 + 8 * VALUES_OVERFLOW_SLOTS) + 5 + 13 + 2)
+
+static summary *decode_schema(wire_reader *r, decode_state *ds)
 {
     summary_options o;
     memset(&o, 0, sizeof o);
@@ -163,7 +194,7 @@ static summary *decode_schema(wire_reader *r)
     o.bucket_budget = wire_get_u32(r);
     uint32_t nm = wire_get_u32(r);
     if (nm > SUMMARY_MAX_MISSING || o.max_levels == 0 || o.max_levels > (1u << 26) ||
-        o.label_bytes > 65536 || o.bucket_budget == 0 || o.bucket_budget > (1u << 26))
+        o.label_bytes > 65536 || o.bucket_budget < 3 || o.bucket_budget > (1u << 26))
         r->failed = 1;
     for (uint32_t i = 0; i < nm && !r->failed; i++) {
         o.missing[i] = dup_str(r, 1024);
@@ -179,6 +210,11 @@ static summary *decode_schema(wire_reader *r)
     if (o.max_classes == 0 || o.max_classes > SUMMARY_MAX_CLASSES) r->failed = 1;
     uint64_t ncols = wire_get_u64(r);
     if (ncols > MAX_COLUMNS || !wire_need(r, ncols * 5)) r->failed = 1;
+    /* The columns' records come later in the file: check that it can hold
+     * them before allocating their accumulators. */
+    if (!r->failed && ncols > ds->remaining / MIN_COLUMN_BYTES)
+        broken(r, ds, "%llu columns cannot fit in the %zu bytes that follow",
+               (unsigned long long)ncols, ds->remaining);
     summary *s = NULL;
     char **names = NULL;
     column_mode *modes = NULL;
@@ -193,6 +229,11 @@ static summary *decode_schema(wire_reader *r)
         if (m > COLUMN_CATEGORICAL) r->failed = 1;
         modes[i] = (column_mode)m;
     }
+    if (!r->failed && o.target) {
+        int found = 0;
+        for (uint64_t i = 0; i < ncols && !found; i++) found = strcmp(names[i], o.target) == 0;
+        if (!found) broken(r, ds, "the target '%.80s' is not a column", o.target);
+    }
     if (!r->failed) {
         s = summary_create(&o, ncols, names, modes, 0); /* COMO section brings the matrix */
         if (!s) r->failed = 1;
@@ -205,7 +246,7 @@ static summary *decode_schema(wire_reader *r)
     return s;
 }
 
-static void decode_sources(summary *s, wire_reader *r)
+static void decode_sources(summary *s, wire_reader *r, decode_state *ds)
 {
     uint64_t n = wire_get_u64(r);
     if (n > (1u << 30) || !wire_need(r, n * 64)) { r->failed = 1; return; }
@@ -223,12 +264,18 @@ static void decode_sources(summary *s, wire_reader *r)
         src.start_byte = wire_get_u64(r);
         src.end_byte = wire_get_u64(r);
         src.rows = wire_get_u64(r);
+        if (!r->failed && strcmp(src.format, "plain") != 0 && strcmp(src.format, "gzip") != 0 &&
+            strcmp(src.format, "zstd") != 0)
+            broken(r, ds, "source %llu: unknown format", (unsigned long long)i + 1);
+        if (!r->failed && src.end_byte && src.start_byte > src.end_byte)
+            broken(r, ds, "source %llu: byte range starts after its end",
+                   (unsigned long long)i + 1);
         if (!r->failed && summary_add_source(s, &src) != 0) r->failed = 1;
         free(src.path);
     }
 }
 
-static void decode_table(summary *s, wire_reader *r)
+static void decode_table(summary *s, wire_reader *r, decode_state *ds)
 {
     s->rows = wire_get_u64(r);
     s->bytes = wire_get_u64(r);
@@ -237,42 +284,98 @@ static void decode_table(summary *s, wire_reader *r)
     s->n_bad_lines = wire_get_u32(r);
     if (s->n_bad_lines > SUMMARY_BAD_LINES) { r->failed = 1; s->n_bad_lines = 0; return; }
     for (uint32_t i = 0; i < s->n_bad_lines; i++) s->bad_lines[i] = wire_get_u64(r);
+    if (r->failed) return;
+    uint64_t source_rows = 0;
+    for (size_t i = 0; i < s->nsources; i++) {
+        if (s->sources[i].rows > UINT64_MAX - source_rows) { source_rows = UINT64_MAX; break; }
+        source_rows += s->sources[i].rows;
+    }
+    if (source_rows != s->rows)
+        broken(r, ds, "%llu rows, but the sources hold %llu", (unsigned long long)s->rows,
+               (unsigned long long)source_rows);
+    else if (s->short_rows > s->rows || s->long_rows > s->rows - s->short_rows)
+        broken(r, ds, "more short and long rows than rows");
+    else if (s->n_bad_lines > s->short_rows + s->long_rows)
+        broken(r, ds, "more ragged line numbers than ragged rows");
+    for (uint32_t i = 0; i < s->n_bad_lines && !r->failed; i++)
+        if (s->bad_lines[i] == 0) broken(r, ds, "ragged line number 0 (lines count from 1)");
 }
 
-static void decode_target(summary *s, wire_reader *r)
+static int hash_order(const void *a, const void *b)
+{
+    uint64_t x = *(const uint64_t *)a, y = *(const uint64_t *)b;
+    return x < y ? -1 : x > y;
+}
+
+static void decode_target(summary *s, wire_reader *r, decode_state *ds)
 {
     uint8_t has = wire_get_u8(r), dropped = wire_get_u8(r);
     s->target_text = wire_get_u64(r);
     uint32_t n = wire_get_u32(r);
-    if (has > 1 || dropped > 1 || (has && s->target < 0) || n > s->opt.max_classes ||
+    if (r->failed || has > 1 || dropped > 1 || (has && s->target < 0) || n > s->opt.max_classes ||
         (!has && n > 0) || (has && !s->has_classes)) {
         r->failed = 1;
         return;
     }
+    /* Each class takes at least 47 bytes (hash, label length, rows, flag,
+     * decimal). */
+    if (!wire_need(r, (size_t)n * 47)) return;
+    if (dropped && (has || s->target < 0))
+        { broken(r, ds, "classes marked dropped while kept, or without a target"); return; }
+    if (s->target_text > s->rows)
+        { broken(r, ds, "more target text cells than rows"); return; }
     if (!has && s->has_classes) {
         /* Classes were dropped at scan time: free the per-class arrays. */
         for (size_t i = 0; i < s->ncols; i++) { free(s->cols[i].cls); s->cols[i].cls = NULL; }
         s->has_classes = 0;
     }
     s->classes_dropped = dropped;
+    uint64_t rows = 0;
     for (uint32_t c = 0; c < n && !r->failed; c++) {
         uint64_t h = wire_get_u64(r);
         size_t len;
         const char *label = wire_get_str(r, &len, 1 << 20);
-        uint64_t rows = wire_get_u64(r);
+        uint64_t crows = wire_get_u64(r);
         uint8_t numeric = wire_get_u8(r);
         number_decimal d;
         get_decimal(r, &d);
         if (r->failed || numeric > 1) { r->failed = 1; return; }
-        uint32_t k = summary_class_of(s, h, label, len, numeric ? &d : NULL);
-        if (k != c + 1) { r->failed = 1; return; } /* duplicate class */
-        s->class_rows[c] = rows;
+        if (XXH3_64bits(label, len) != h)
+            { broken(r, ds, "class %u: label does not hash to its key", c + 1); return; }
+        static const number_decimal zero;
+        if (numeric ? !isfinite(d.value) : memcmp(&d, &zero, sizeof d) != 0)
+            { broken(r, ds, "class %u: value does not match its numeric flag", c + 1); return; }
+        if (crows == 0 || crows > s->rows - rows)
+            { broken(r, ds, "class %u: %llu rows do not fit the table", c + 1,
+                     (unsigned long long)crows); return; }
+        rows += crows;
+        if (summary_append_class(s, h, label, len, numeric ? &d : NULL) != 0) {
+            r->failed = 1;
+            return;
+        }
+        s->class_rows[c] = crows;
+    }
+    if (n > 1) { /* class texts are unique */
+        uint64_t *sorted = malloc((size_t)n * sizeof *sorted);
+        if (!sorted) { r->failed = 1; return; }
+        memcpy(sorted, s->class_hash, (size_t)n * sizeof *sorted);
+        qsort(sorted, n, sizeof *sorted, hash_order);
+        for (uint32_t c = 1; c < n && !r->failed; c++)
+            if (sorted[c] == sorted[c - 1]) broken(r, ds, "a class text appears twice");
+        free(sorted);
     }
 }
 
-static void decode_comoments(summary *s, wire_reader *r)
+static int decimal_equal(const number_decimal *a, const number_decimal *b)
+{
+    return memcmp(&a->value, &b->value, sizeof a->value) == 0 && a->mantissa == b->mantissa &&
+           a->exp10 == b->exp10 && a->negative == b->negative && a->exact == b->exact;
+}
+
+static void decode_comoments(summary *s, wire_reader *r, decode_state *ds)
 {
     if (wire_get_u64(r) != s->ncomo) { r->failed = 1; return; }
+    if (!wire_need(r, s->ncomo * 28)) return;
     for (size_t k = 0; k < s->ncomo && !r->failed; k++) {
         s->como_ref_set[k] = wire_get_u8(r);
         if (s->como_ref_set[k] > 1) r->failed = 1;
@@ -284,12 +387,67 @@ static void decode_comoments(summary *s, wire_reader *r)
     if (!c || comoment_columns(c) != s->ncomo) { comoment_free(c); r->failed = 1; return; }
     comoment_free(s->como);
     s->como = c;
+    /* Each co-moment column: its frame is its column's, and its own count
+     * is its column's count of numbers. */
+    for (size_t k = 0; k < s->ncomo && !r->failed; k++) {
+        size_t i = s->como_col[k];
+        const moments *m = &s->cols[i].mom;
+        if (s->como_ref_set[k] != (m->n > 0) ||
+            (m->n > 0 && !decimal_equal(&s->como_ref[k], &m->ref)))
+            broken(r, ds, "column %zu '%.80s': co-moment frame differs from the column's", i + 1,
+                   s->cols[i].name);
+        else if (comoment_n(c, k, k) != (double)m->n)
+            broken(r, ds, "column %zu '%.80s': co-moment count %.0f, not the column's %llu",
+                   i + 1, s->cols[i].name, comoment_n(c, k, k), (unsigned long long)m->n);
+    }
 }
 
-static void decode_columns(summary *s, wire_reader *r)
+/* The target column against the class table: every present target cell
+ * has a class, and while the column's value table is exact, the classes
+ * are its values with the same counts. */
+static void check_target(summary *s, wire_reader *r, decode_state *ds)
 {
-    for (size_t i = 0; i < s->ncols && !r->failed; i++)
-        if (column_read(&s->cols[i], s->nclasses, r) != 0) r->failed = 1;
+    if (s->target < 0) return;
+    const summary_column *t = &s->cols[s->target];
+    if (t->mode != COLUMN_CATEGORICAL && s->target_text != t->non_numeric + t->non_finite) {
+        broken(r, ds, "%llu target text cells, but the target column has %llu",
+               (unsigned long long)s->target_text,
+               (unsigned long long)(t->non_numeric + t->non_finite));
+        return;
+    }
+    if (!s->has_classes) return;
+    uint64_t rows = 0;
+    for (uint32_t c = 0; c < s->nclasses; c++) rows += s->class_rows[c];
+    if (rows != summary_column_present(t)) {
+        broken(r, ds, "the classes hold %llu rows, the target column %llu present cells",
+               (unsigned long long)rows, (unsigned long long)summary_column_present(t));
+        return;
+    }
+    if (values_overflowed(t->vals)) return;
+    if (values_levels(t->vals) != s->nclasses) {
+        broken(r, ds, "%u classes, but the target column has %u distinct values", s->nclasses,
+               values_levels(t->vals));
+        return;
+    }
+    for (uint32_t c = 0; c < s->nclasses && !r->failed; c++)
+        if (values_count_of(t->vals, s->class_hash[c]) != s->class_rows[c])
+            broken(r, ds, "class %u: %llu rows, but the target column counts %llu", c + 1,
+                   (unsigned long long)s->class_rows[c],
+                   (unsigned long long)values_count_of(t->vals, s->class_hash[c]));
+}
+
+static void decode_columns(summary *s, wire_reader *r, decode_state *ds)
+{
+    for (size_t i = 0; i < s->ncols && !r->failed; i++) {
+        summary_column *c = &s->cols[i];
+        const char *part;
+        char msg[200];
+        if (column_read(c, s->nclasses, r, &part) != 0)
+            broken(r, ds, "column %zu '%.80s': %s does not parse", i + 1, c->name, part);
+        else if (column_check(s, c, msg, sizeof msg) != 0)
+            broken(r, ds, "column %zu '%.80s': %s", i + 1, c->name, msg);
+    }
+    if (!r->failed) check_target(s, r, ds);
 }
 
 summary_status summary_decode(const uint8_t *data, size_t len, summary **out, char *err,
@@ -331,34 +489,44 @@ summary_status summary_decode(const uint8_t *data, size_t len, summary **out, ch
         snprintf(err, errlen, "unsupported summary format version %u", version);
         return SUMMARY_ERR_CORRUPT;
     }
-    const uint32_t want[] = {TAG_SCHEMA, TAG_SOURCES, TAG_TABLE, TAG_TARGET, TAG_COLUMNS,
-                             TAG_COMOMENTS};
+    static const uint32_t want[] = {TAG_SCHEMA, TAG_SOURCES, TAG_TABLE, TAG_TARGET, TAG_COLUMNS,
+                                    TAG_COMOMENTS};
+    static const char *const names[] = {"SCHM", "SRCS", "TABL", "TRGT", "COLS", "COMO"};
     summary *s = NULL;
     for (int k = 0; k < 6; k++) {
         uint32_t tag = wire_get_u32(&r);
         uint64_t plen = wire_get_u64(&r);
-        if (r.failed || tag != want[k] || plen > len - r.pos - 8 - 20) {
+        /* The payload, its checksum (8) and the trailer (20) must remain;
+         * r.pos <= len holds after any read that did not fail. */
+        size_t left = r.failed ? 0 : len - r.pos;
+        if (r.failed || tag != want[k] || left < 8 + 20 || plen > left - 8 - 20) {
             snprintf(err, errlen, "damaged summary (section %d)", k + 1);
             summary_free(s);
             return SUMMARY_ERR_CORRUPT;
         }
         const uint8_t *payload = data + r.pos;
-        r.pos += plen;
-        if (XXH3_64bits(payload, plen) != wire_get_u64(&r)) {
+        r.pos += (size_t)plen;
+        if (XXH3_64bits(payload, (size_t)plen) != wire_get_u64(&r)) {
             snprintf(err, errlen, "damaged summary (section %d checksum mismatch)", k + 1);
             summary_free(s);
             return SUMMARY_ERR_CORRUPT;
         }
         wire_reader p;
-        wire_reader_init(&p, payload, plen);
-        if (k == 0) s = decode_schema(&p);
-        else if (k == 1) decode_sources(s, &p);
-        else if (k == 2) decode_table(s, &p);
-        else if (k == 3) decode_target(s, &p);
-        else if (k == 4) decode_columns(s, &p);
-        else decode_comoments(s, &p);
+        wire_reader_init(&p, payload, (size_t)plen);
+        decode_state ds = {"", len - r.pos};
+        if (k == 0) s = decode_schema(&p, &ds);
+        else if (k == 1) decode_sources(s, &p, &ds);
+        else if (k == 2) decode_table(s, &p, &ds);
+        else if (k == 3) decode_target(s, &p, &ds);
+        else if (k == 4) decode_columns(s, &p, &ds);
+        else decode_comoments(s, &p, &ds);
         if (p.failed || p.pos != p.len || !s) {
-            snprintf(err, errlen, "damaged summary (section %d does not parse)", k + 1);
+            if (ds.why[0])
+                snprintf(err, errlen, "damaged summary (section %d %s: %s)", k + 1, names[k],
+                         ds.why);
+            else
+                snprintf(err, errlen, "damaged summary (section %d %s does not parse)", k + 1,
+                         names[k]);
             summary_free(s);
             return SUMMARY_ERR_CORRUPT;
         }

@@ -82,9 +82,15 @@ uint32_t summary_class_of(summary *s, uint64_t h, const char *text, size_t len,
 {
     for (uint32_t c = 0; c < s->nclasses; c++)
         if (s->class_hash[c] == h) return c + 1;
-    if (s->nclasses >= s->opt.max_classes || class_reserve(s, s->nclasses + 1) != 0) return 0;
+    return summary_append_class(s, h, text, len, dec) == 0 ? s->nclasses : 0;
+}
+
+int summary_append_class(summary *s, uint64_t h, const char *text, size_t len,
+                         const number_decimal *dec)
+{
+    if (s->nclasses >= s->opt.max_classes || class_reserve(s, s->nclasses + 1) != 0) return -1;
     char *label = malloc(len + 1);
-    if (!label) return 0;
+    if (!label) return -1;
     memcpy(label, text, len);
     label[len] = '\0';
     uint32_t c = s->nclasses++;
@@ -94,7 +100,7 @@ uint32_t summary_class_of(summary *s, uint64_t h, const char *text, size_t len,
     s->class_numeric[c] = dec != NULL;
     if (dec) s->class_dec[c] = *dec;
     else memset(&s->class_dec[c], 0, sizeof s->class_dec[c]);
-    return c + 1;
+    return 0;
 }
 
 summary *summary_create(const summary_options *opt, size_t ncols, char *const *names,

@@ -179,6 +179,11 @@ uint64_t summary_comoment_bytes(size_t ncomo);
  * returns its index 1..K, or 0 when adding would pass max_classes. */
 uint32_t summary_class_of(summary *s, uint64_t h, const char *text, size_t len,
                           const number_decimal *dec);
+/* Adds class K + 1 without looking for h among the classes (the reader,
+ * which checks uniqueness once for all).  0, or -1 past max_classes or when
+ * out of memory. */
+int summary_append_class(summary *s, uint64_t h, const char *text, size_t len,
+                         const number_decimal *dec);
 /* Drops the class accumulators of a numeric target (it continues as a
  * regression target): bucket cells and per-value tables are converted
  * exactly from class counts to target cells.  -1 on OOM or for a text

@@ -1,0 +1,290 @@
+#!/usr/bin/python3
+"""Reads and rewrites sheaf summary files field by field, for tests of the
+decoder (tests/cli/test_summary_decode.sh).  The layout and the checksum
+scheme are docs/summary-format.md: sections (u32 tag, u64 length, payload,
+u64 XXH3-64 of the payload) and a trailer (u32 'END.', u64 8, u64 XXH3-64 of
+every byte before it).  Every rewrite recomputes both kinds of checksum, so
+the decoder sees the change instead of a checksum mismatch.
+
+  summary_craft.py fields FILE               every field: name offset type value
+  summary_craft.py get FILE NAME             one field's value
+  summary_craft.py set IN OUT NAME=VALUE...  rewrite fields (ints, floats,
+                                             inf, -inf, nan, or 0x.. bits)
+  summary_craft.py flip IN OUT BIT           flip bit BIT of the payload bytes
+                                             (counted over all payloads)
+  summary_craft.py payload-bits FILE         number of payload bits
+  summary_craft.py long-section IN OUT       keeps the first section and ends
+                                             the file with the second one's
+                                             header claiming 2^30 bytes
+XXH3-64 comes from Debian's libxxhash (the library sheaf links).
+"""
+import ctypes
+import math
+import struct
+import sys
+
+_xxh = ctypes.CDLL("libxxhash.so.0")
+_xxh.XXH3_64bits.restype = ctypes.c_uint64
+_xxh.XXH3_64bits.argtypes = [ctypes.c_char_p, ctypes.c_size_t]
+
+
+def xxh3(b):
+    b = bytes(b)
+    return _xxh.XXH3_64bits(b, len(b))
+
+
+MAGIC = b"\x89SHF\r\n\x1a\n"
+TAGS = [b"SCHM", b"SRCS", b"TABL", b"TRGT", b"COLS", b"COMO"]
+SIZES = {"u8": 1, "u16": 2, "u32": 4, "u64": 8, "i64": 8, "f64": 8}
+FMT = {"u8": "<B", "u16": "<H", "u32": "<I", "u64": "<Q", "i64": "<q", "f64": "<d"}
+
+
+class Walker:
+    """Walks one payload, recording (name, offset, type) of every field."""
+
+    def __init__(self, data, start, end, fields):
+        self.d, self.pos, self.end, self.fields = data, start, end, fields
+
+    def get(self, name, typ):
+        n = SIZES[typ]
+        if self.pos + n > self.end:
+            raise ValueError("field %s past the end of its section" % name)
+        (v,) = struct.unpack_from(FMT[typ], self.d, self.pos)
+        self.fields.append((name, self.pos, typ, v))
+        self.pos += n
+        return v
+
+    def str(self, name):
+        n = self.get(name + ".len", "u32")
+        if self.pos + n > self.end:
+            raise ValueError("string %s past the end" % name)
+        s = self.d[self.pos:self.pos + n]
+        self.pos += n
+        return s
+
+    def decimal(self, name):
+        for f, t in (("value", "f64"), ("mantissa", "u64"), ("exp10", "i64"),
+                     ("negative", "u8"), ("exact", "u8")):
+            self.get(name + "." + f, t)
+
+
+def parse(data):
+    """Returns (sections, fields): sections = [(tag, header_offset,
+    payload_offset, length)], fields = [(name, offset, type, value)]."""
+    if data[:8] != MAGIC:
+        raise ValueError("not a summary")
+    pos, sections, fields = 12, [], []
+    for tag in TAGS:
+        t = data[pos:pos + 4]
+        (plen,) = struct.unpack_from("<Q", data, pos + 4)
+        if t != tag:
+            raise ValueError("section %s expected at %d" % (tag, pos))
+        sections.append((tag.decode(), pos, pos + 12, plen))
+        pos += 12 + plen + 8
+    info = {}
+    for tag, _, start, plen in sections:
+        w = Walker(data, start, start + plen, fields)
+        globals()["_walk_" + tag](w, info)
+    return sections, fields
+
+
+def _walk_SCHM(w, info):
+    w.get("SCHM.max_levels", "u32")
+    w.get("SCHM.label_bytes", "u32")
+    w.get("SCHM.bucket_budget", "u32")
+    for i in range(w.get("SCHM.n_missing", "u32")):
+        w.str("SCHM.missing[%d]" % i)
+    info["target"] = w.str("SCHM.target")
+    w.get("SCHM.task", "u8")
+    w.get("SCHM.max_classes", "u32")
+    ncols = w.get("SCHM.ncols", "u64")
+    info["modes"] = []
+    for i in range(ncols):
+        w.str("SCHM.column[%d].name" % i)
+        info["modes"].append(w.get("SCHM.column[%d].mode" % i, "u8"))
+
+
+def _walk_SRCS(w, info):
+    for i in range(w.get("SRCS.n", "u64")):
+        p = "SRCS.source[%d]." % i
+        w.str(p + "path")
+        w.str(p + "format")
+        for f, t in (("size_bytes", "u64"), ("mtime", "i64"), ("fingerprint", "u64"),
+                     ("raw_bytes", "u64"), ("start_byte", "u64"), ("end_byte", "u64"),
+                     ("rows", "u64")):
+            w.get(p + f, t)
+
+
+def _walk_TABL(w, info):
+    for f in ("rows", "bytes", "short_rows", "long_rows"):
+        w.get("TABL." + f, "u64")
+    for i in range(w.get("TABL.n_bad_lines", "u32")):
+        w.get("TABL.bad_line[%d]" % i, "u64")
+
+
+def _walk_TRGT(w, info):
+    w.get("TRGT.has_classes", "u8")
+    w.get("TRGT.classes_dropped", "u8")
+    w.get("TRGT.target_text", "u64")
+    n = info["nclasses"] = w.get("TRGT.nclasses", "u32")
+    for c in range(n):
+        p = "TRGT.class[%d]." % (c + 1)
+        w.get(p + "hash", "u64")
+        w.str(p + "label")
+        w.get(p + "rows", "u64")
+        w.get(p + "numeric", "u8")
+        w.decimal(p + "value")
+
+
+def _walk_COLS(w, info):
+    for i in range(len(info["modes"])):
+        p = "COLS[%d]." % i
+        for f in ("missing", "non_numeric", "non_finite", "zeros", "integers"):
+            w.get(p + f, "u64")
+        m = p + "moments."
+        w.get(m + "n", "u64")
+        for f in ("mean", "m2", "m3", "m4", "min", "max"):
+            w.get(m + f, "f64")
+        w.get(m + "has_ref", "u8")
+        w.decimal(m + "ref")
+        for e in range(w.get(p + "n_examples", "u32")):
+            w.str(p + "example[%d]" % e)
+        v = p + "values."
+        w.get(v + "max_levels", "u32")
+        w.get(v + "label_bytes", "u32")
+        w.get(v + "overflowed", "u8")
+        for k in range(w.get(v + "levels", "u32")):
+            w.get(v + "entry[%d].hash" % k, "u64")
+            w.get(v + "entry[%d].count" % k, "u64")
+            w.str(v + "entry[%d].label" % k)
+        for s in range(64):
+            w.get(v + "overflow[%d]" % s, "u64")
+        h = p + "hll."
+        tag = w.get(h + "tag", "u8")
+        if tag == 0:
+            for k in range(w.get(h + "k", "u32")):
+                w.get(h + "pair[%d].index" % k, "u16")
+                w.get(h + "pair[%d].rank" % k, "u8")
+        else:
+            for j in range(16384):
+                w.get(h + "reg[%d]" % j, "u8")
+        b = p + "bins."
+        w.get(b + "budget", "u32")
+        w.get(b + "level", "u8")
+        for k in range(w.get(b + "n", "u64")):
+            w.get(b + "entry[%d].key" % k, "i64")
+            w.get(b + "entry[%d].cell" % k, "u32")
+            w.get(b + "entry[%d].count" % k, "u64")
+        if w.get(p + "has_cross", "u8"):
+            x = p + "cross."
+            w.get(x + "max_keys", "u32")
+            mode = w.get(x + "mode", "u8")
+            w.get(x + "overflowed", "u8")
+            for k in range(w.get(x + "n", "u64")):
+                w.get(x + "entry[%d].key" % k, "u64")
+                w.get(x + "entry[%d].cell" % k, "u32")
+                w.get(x + "entry[%d].n" % k, "u64")
+                if mode == 2:
+                    w.get(x + "entry[%d].mean" % k, "f64")
+                    w.get(x + "entry[%d].m2" % k, "f64")
+        if w.get(p + "has_cls", "u8"):
+            for c in range(info["nclasses"]):
+                q = p + "cls[%d]." % (c + 1)
+                w.get(q + "n", "u64")
+                w.get(q + "mean", "f64")
+                w.get(q + "m2", "f64")
+
+
+def _walk_COMO(w, info):
+    n = w.get("COMO.ncomo", "u64")
+    for k in range(n):
+        w.get("COMO.frame[%d].set" % k, "u8")
+        w.decimal("COMO.frame[%d]" % k)
+    w.get("COMO.present", "u8")
+    p = w.get("COMO.p", "u64")
+    for mat, typ in (("N", "u64"), ("MEAN", "f64"), ("M2", "f64"), ("C", "f64")):
+        for i in range(p):
+            for j in range(p):
+                w.get("COMO.%s[%d][%d]" % (mat, i, j), typ)
+
+
+def reseal(data, sections):
+    """Recomputes every section checksum and the trailer, in place."""
+    for _, _, start, plen in sections:
+        struct.pack_into("<Q", data, start + plen, xxh3(data[start:start + plen]))
+    struct.pack_into("<Q", data, len(data) - 8, xxh3(data[:len(data) - 8]))
+
+
+def parse_value(text, typ):
+    if text.startswith("0x"):
+        bits = int(text, 16)
+        if typ == "f64":
+            return struct.unpack("<d", struct.pack("<Q", bits))[0]
+        return bits
+    if typ == "f64":
+        return float(text)
+    v = int(text)
+    if typ == "i64":
+        return v
+    return v & ((1 << (8 * SIZES[typ])) - 1)
+
+
+def main(argv):
+    cmd = argv[1]
+    data = bytearray(open(argv[2], "rb").read())
+    if cmd == "long-section":
+        # Section 1 kept whole, then section 2's header with a length of 2^30
+        # and nothing after it but the trailer: fewer than 28 bytes remain
+        # after the header (docs/summary-format.md, "Reading and validation").
+        sections = [(b"", 0, 12, 0)]
+        (plen,) = struct.unpack_from("<Q", data, 16)
+        head = data[:12 + 12 + plen + 8]
+        out = bytearray(head + b"SRCS" + struct.pack("<Q", 1 << 30) + b"END." +
+                        struct.pack("<Q", 8) + b"\0" * 8)
+        struct.pack_into("<Q", out, len(out) - 8, xxh3(out[:len(out) - 8]))
+        open(argv[3], "wb").write(out)
+        return 0
+    sections, fields = parse(data)
+    if cmd == "fields":
+        for name, off, typ, v in fields:
+            print(name, off, typ, v)
+    elif cmd == "get":
+        for name, off, typ, v in fields:
+            if name == argv[3]:
+                print(v)
+                return 0
+        print("no field " + argv[3], file=sys.stderr)
+        return 1
+    elif cmd == "payload-bits":
+        print(sum(plen for _, _, _, plen in sections) * 8)
+    elif cmd == "set":
+        by_name = {f[0]: f for f in fields}
+        for assignment in argv[4:]:
+            name, text = assignment.split("=", 1)
+            if name not in by_name:
+                print("no field " + name, file=sys.stderr)
+                return 1
+            _, off, typ, _ = by_name[name]
+            struct.pack_into(FMT[typ], data, off, parse_value(text, typ))
+        reseal(data, sections)
+        open(argv[3], "wb").write(data)
+    elif cmd == "flip":
+        bit = int(argv[4])
+        for _, _, start, plen in sections:
+            if bit < plen * 8:
+                data[start + bit // 8] ^= 1 << (bit % 8)
+                break
+            bit -= plen * 8
+        else:
+            print("bit past the payloads", file=sys.stderr)
+            return 1
+        reseal(data, sections)
+        open(argv[3], "wb").write(data)
+    else:
+        print(__doc__, file=sys.stderr)
+        return 2
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main(sys.argv))
