@@ -13,13 +13,21 @@ the decoder sees the change instead of a checksum mismatch.
   summary_craft.py flip IN OUT BIT           flip bit BIT of the payload bytes
                                              (counted over all payloads)
   summary_craft.py payload-bits FILE         number of payload bits
-  summary_craft.py long-section IN OUT       keeps the first section and ends
-                                             the file with the second one's
-                                             header claiming 2^30 bytes
+  summary_craft.py flips IN DIR N SEED       N files DIR/flip-K.sheaf, each IN
+                                             with one random payload bit
+                                             flipped (random.Random(SEED));
+                                             prints K and the bit per line
+  summary_craft.py long-section IN OUT [empty]
+                                             keeps the first section (with
+                                             "empty": a schema of no columns)
+                                             and ends the file with the second
+                                             one's header claiming 2^30 bytes
+A string field NAME has NAME.len and NAME.text; set NAME.text=... keeps its
+length.
 XXH3-64 comes from Debian's libxxhash (the library sheaf links).
 """
 import ctypes
-import math
+import random
 import struct
 import sys
 
@@ -58,7 +66,8 @@ class Walker:
         n = self.get(name + ".len", "u32")
         if self.pos + n > self.end:
             raise ValueError("string %s past the end" % name)
-        s = self.d[self.pos:self.pos + n]
+        s = bytes(self.d[self.pos:self.pos + n])
+        self.fields.append((name + ".text", self.pos, "text", s.decode("latin-1")))
         self.pos += n
         return s
 
@@ -215,6 +224,19 @@ def reseal(data, sections):
     struct.pack_into("<Q", data, len(data) - 8, xxh3(data[:len(data) - 8]))
 
 
+def flipped(data, sections, bit):
+    """A copy of data with payload bit `bit` flipped and the checksums
+    recomputed; None past the payloads."""
+    out = bytearray(data)
+    for _, _, start, plen in sections:
+        if bit < plen * 8:
+            out[start + bit // 8] ^= 1 << (bit % 8)
+            reseal(out, sections)
+            return out
+        bit -= plen * 8
+    return None
+
+
 def parse_value(text, typ):
     if text.startswith("0x"):
         bits = int(text, 16)
@@ -236,9 +258,15 @@ def main(argv):
         # Section 1 kept whole, then section 2's header with a length of 2^30
         # and nothing after it but the trailer: fewer than 28 bytes remain
         # after the header (docs/summary-format.md, "Reading and validation").
-        sections = [(b"", 0, 12, 0)]
         (plen,) = struct.unpack_from("<Q", data, 16)
         head = data[:12 + 12 + plen + 8]
+        if len(argv) > 4 and argv[4] == "empty":
+            # max_levels, label_bytes, bucket_budget, no missing spellings,
+            # no target, task 0, max_classes, no columns
+            schema = struct.pack("<IIII", 1024, 32, 2048, 0) + struct.pack("<I", 0) + \
+                b"\0" + struct.pack("<IQ", 256, 0)
+            head = data[:12] + b"SCHM" + struct.pack("<Q", len(schema)) + schema + \
+                struct.pack("<Q", xxh3(schema))
         out = bytearray(head + b"SRCS" + struct.pack("<Q", 1 << 30) + b"END." +
                         struct.pack("<Q", 8) + b"\0" * 8)
         struct.pack_into("<Q", out, len(out) - 8, xxh3(out[:len(out) - 8]))
@@ -264,22 +292,29 @@ def main(argv):
             if name not in by_name:
                 print("no field " + name, file=sys.stderr)
                 return 1
-            _, off, typ, _ = by_name[name]
-            struct.pack_into(FMT[typ], data, off, parse_value(text, typ))
+            _, off, typ, old = by_name[name]
+            if typ == "text":  # same length only: the layout stays
+                if len(text) != len(old):
+                    print("%s: %d bytes expected" % (name, len(old)), file=sys.stderr)
+                    return 1
+                data[off:off + len(text)] = text.encode("latin-1")
+            else:
+                struct.pack_into(FMT[typ], data, off, parse_value(text, typ))
         reseal(data, sections)
         open(argv[3], "wb").write(data)
     elif cmd == "flip":
-        bit = int(argv[4])
-        for _, _, start, plen in sections:
-            if bit < plen * 8:
-                data[start + bit // 8] ^= 1 << (bit % 8)
-                break
-            bit -= plen * 8
-        else:
+        out = flipped(data, sections, int(argv[4]))
+        if out is None:
             print("bit past the payloads", file=sys.stderr)
             return 1
-        reseal(data, sections)
-        open(argv[3], "wb").write(data)
+        open(argv[3], "wb").write(out)
+    elif cmd == "flips":
+        rng = random.Random(int(argv[5]))
+        bits = sum(plen for _, _, _, plen in sections) * 8
+        for k in range(int(argv[4])):
+            bit = rng.randrange(bits)
+            open("%s/flip-%d.sheaf" % (argv[3], k), "wb").write(flipped(data, sections, bit))
+            print(k, bit)
     else:
         print(__doc__, file=sys.stderr)
         return 2

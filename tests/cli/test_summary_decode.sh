@@ -1,0 +1,171 @@
+#!/usr/bin/env bash
+# Damaged summaries that a checksum cannot catch (docs/summary-format.md,
+# "Invariants"): each crafted case below rewrites fields of a real summary
+# with tests/cli/summary_craft.py, which recomputes every checksum, so that
+# the decoder itself must find the damage.  Every command that reads a
+# summary must exit exactly 4 with one line naming the file, never die by a
+# signal.  Then a bit-flip campaign: single-bit flips of a small summary's
+# payloads (fixed seed, checksums recomputed) must each exit 0 or 4.
+cd "$(dirname "$0")/../.."
+. tests/cli/common.sh
+cli_setup decode python || exit 0
+CRAFT="$PY tests/cli/summary_craft.py"
+export OPENBLAS_NUM_THREADS=1 # sheaf would re-execute itself to set it: half the time of a read
+
+# Data: a text class target, a numeric target kept as classes, a regression
+# target, no target; one short row so the table has a ragged line.
+$PY - "$T" <<'EOF'
+import random, sys
+random.seed(7)
+with open(sys.argv[1] + "/t.csv", "w") as f:
+    f.write("kind,size,weight,note\n")
+    for i in range(40):
+        k = random.choice(["red", "blue", "green"])
+        s = "" if i % 9 == 0 else "%.2f" % random.uniform(1, 10)
+        w = 0 if i == 5 else random.randint(1, 50)
+        f.write("%s,%s,%d,%s\n" % (k, s, w, random.choice(["x", "y", "NA", "z z"])))
+    f.write("blue,2.5\n")
+EOF
+D=$T/t.csv
+$SHEAF scan "$D" --target kind -o "$T/cls.sheaf" -q 2>/dev/null &&
+    $SHEAF scan "$D" --target size -o "$T/numcls.sheaf" -q 2>/dev/null &&
+    $SHEAF scan "$D" --target weight --task regress -o "$T/reg.sheaf" -q 2>/dev/null &&
+    $SHEAF scan "$D" -o "$T/none.sheaf" -q 2>/dev/null ||
+    { fail setup "scans failed"; exit 0; }
+
+get() { $CRAFT get "$T/$1.sheaf" "$2"; }
+
+# expect_damaged NAME FILE: every reader exits 4 with one line naming FILE.
+expect_damaged() {
+    local name=$1 f=$2 bad=
+    local -a cmds=(
+        "info $f" "info --json $f" "screen $f" "pca $f" "corr $f"
+        "merge $f $T/none.sheaf -o $T/merged.sheaf"
+        "trim $D --from $f -o $T/trim.csv"
+        "project $D --pca $f -o $T/proj.csv")
+    for c in "${cmds[@]}"; do
+        # shellcheck disable=SC2086
+        run $SHEAF $c
+        local lines
+        lines=$(wc -l <"$T/err")
+        if [ "$RC" -ne 4 ] || [ "$lines" -ne 1 ] || ! grep -qF "$f" "$T/err"; then
+            bad="$bad; '${c%% *}' exit $RC ($lines lines: $(err_text))"
+        fi
+    done
+    if [ -z "$bad" ]; then pass "decode.$name"; else fail "decode.$name" "${bad#; }"; fi
+}
+
+# crafted NAME BASE FIELD=VALUE...: rewrites BASE.sheaf and expects rejection.
+crafted() {
+    local name=$1 base=$2
+    shift 2
+    if ! $CRAFT set "$T/$base.sheaf" "$T/$name.sheaf" "$@" 2>"$T/craft.err"; then
+        fail "decode.$name" "could not craft: $(tr '\n' ' ' <"$T/craft.err")"
+        return
+    fi
+    expect_damaged "$name" "$T/$name.sheaf"
+}
+
+# The good summaries are read by every command.
+for b in cls numcls reg none; do
+    run $SHEAF info "$T/$b.sheaf"
+    check "decode.good.$b" "info exit $RC: $(err_text)" [ "$RC" -eq 0 ]
+done
+
+# A section header in the last 28 bytes claiming 2^30 bytes: the bounds
+# check once underflowed and every reader died with SIGBUS.
+$CRAFT long-section "$T/cls.sheaf" "$T/long.sheaf"
+expect_damaged section_length_after_schema "$T/long.sheaf"
+$CRAFT long-section "$T/cls.sheaf" "$T/long0.sheaf" empty
+expect_damaged section_length_underflow "$T/long0.sheaf"
+
+# Indices: bucket and per-value cells naming classes that do not exist
+# (the first once crashed screen and trim --from with SIGSEGV).
+crafted bucket_cell_past_classes numcls "COLS[2].bins.entry[0].cell=100000"
+crafted bucket_cell_class_k_plus_1 cls "COLS[1].bins.entry[0].cell=4"
+crafted bucket_cell_regression_range reg "COLS[1].bins.entry[0].cell=5"
+crafted bucket_cell_without_target none "COLS[1].bins.entry[0].cell=1"
+crafted cross_cell_past_classes cls "COLS[3].cross.entry[0].cell=9"
+crafted cross_cell_zero cls "COLS[3].cross.entry[0].cell=0"
+
+# SCHM, SRCS, TABL.
+crafted source_format cls "SRCS.source[0].format.text=plaix"
+crafted source_range cls "SRCS.source[0].start_byte=10" "SRCS.source[0].end_byte=5"
+crafted rows_vs_sources cls "TABL.rows=$(($(get cls TABL.rows) + 1))"
+crafted ragged_more_than_rows cls "TABL.short_rows=1000"
+crafted ragged_lines_without_rows cls "TABL.short_rows=0"
+crafted ragged_line_zero cls "TABL.bad_line[0]=0"
+
+# TRGT: the class table.
+crafted class_hash cls "TRGT.class[1].hash=1"
+crafted class_numeric_flag numcls "TRGT.class[1].numeric=0"
+crafted class_no_rows cls "TRGT.class[1].rows=0"
+crafted class_rows_vs_target cls "TRGT.class[1].rows=$(($(get cls 'TRGT.class[1].rows') + 1))"
+crafted class_dropped_while_kept cls "TRGT.classes_dropped=1"
+crafted target_text_vs_column cls "TRGT.target_text=3"
+l1=$(get numcls 'TRGT.class[1].label.text') h1=$(get numcls 'TRGT.class[1].hash')
+l2=$(get numcls 'TRGT.class[2].label.len')
+if [ "${#l1}" -eq "$l2" ]; then
+    crafted class_twice numcls "TRGT.class[2].label.text=$l1" "TRGT.class[2].hash=$h1"
+else
+    skip decode.class_twice "first two class labels differ in length"
+fi
+
+# COLS: counts, moments, value table, bucket store, per-value table,
+# per-class moments.
+crafted cells_vs_rows cls "COLS[1].missing=$(($(get cls 'COLS[1].missing') + 1))"
+crafted zeros_over_integers cls "COLS[2].zeros=1000"
+crafted zeros_vs_buckets cls "COLS[2].zeros=$(($(get cls 'COLS[2].zeros') + 1))"
+crafted categorical_with_numbers cls "SCHM.column[2].mode=2"
+crafted example_repeated cls "COLS[3].example[2].text=$(get cls 'COLS[3].example[1].text')"
+crafted moments_min_over_max cls "COLS[1].moments.min=100"
+crafted moments_negative_m2 cls "COLS[1].moments.m2=-1"
+crafted moments_negative_m4 cls "COLS[1].moments.m4=-1"
+crafted moments_nan_mean cls "COLS[1].moments.mean=nan"
+crafted moments_inf_m3 cls "COLS[1].moments.m3=inf"
+crafted moments_mean_far cls "COLS[1].moments.mean=1e6"
+crafted moments_frame_outside cls "COLS[1].moments.ref.value=1000"
+crafted moments_empty_nonzero none "COLS[0].moments.m2=1"
+crafted moments_no_frame cls "COLS[1].moments.has_ref=0"
+crafted values_max_levels cls "COLS[1].values.max_levels=1000"
+crafted values_total cls "COLS[1].values.entry[0].count=$(($(get cls 'COLS[1].values.entry[0].count') + 1))"
+crafted values_label cls "COLS[0].values.entry[0].label.text=$(get cls 'COLS[0].values.entry[0].label.text' | tr 'a-z' 'b-za')"
+crafted values_overflow_with_room cls "COLS[1].values.overflowed=1" "COLS[1].values.overflow[0]=1" \
+    "COLS[1].missing=$(($(get cls 'COLS[1].missing') - 1))"
+crafted buckets_budget cls "COLS[1].bins.budget=100"
+crafted buckets_total cls "COLS[1].bins.entry[0].count=$(($(get cls 'COLS[1].bins.entry[0].count') + 1))"
+crafted cross_max_keys cls "COLS[3].cross.max_keys=5"
+crafted cross_over_value_count cls "COLS[3].cross.entry[0].n=1000"
+crafted class_moments_over_rows cls "COLS[1].cls[1].n=1000"
+crafted class_moments_negative_m2 cls "COLS[1].cls[1].m2=-1"
+crafted class_moments_vs_buckets cls "COLS[1].cls[1].n=$(($(get cls 'COLS[1].cls[1].n') - 1))"
+
+# COMO: frames and counts against the columns.
+crafted como_frame cls "COMO.frame[1].value=$(get cls 'COLS[1].moments.max')"
+crafted como_count cls "COMO.N[1][1]=$(($(get cls 'COMO.N[1][1]') + 1))"
+crafted como_asymmetric cls "COMO.N[1][2]=$(($(get cls 'COMO.N[1][2]') - 1))"
+
+# Bit flips with the checksums recomputed: every reader exits 0 or 4.
+flips=${SHEAF_DECODE_FLIPS:-200}
+mkdir -p "$T/flips"
+$CRAFT flips "$T/cls.sheaf" "$T/flips" "$flips" 12 >"$T/flips.list"
+$SHEAF info --json "$T/cls.sheaf" >"$T/info.ref" 2>/dev/null
+rejected=0 accepted=0 changed=0 signals=
+while read -r k bit; do
+    f=$T/flips/flip-$k.sheaf
+    rcs=
+    for c in "info --json" "screen --format json" corr pca; do
+        # shellcheck disable=SC2086
+        $SHEAF $c "$f" >"$T/flip.out" 2>"$T/flip.err"
+        rc=$?
+        rcs="$rcs $rc"
+        [ "$c" = "info --json" ] && [ "$rc" -eq 0 ] && ! cmp -s "$T/flip.out" "$T/info.ref" &&
+            changed=$((changed + 1))
+        if { [ "$rc" -ne 0 ] && [ "$rc" -ne 4 ]; } || grep -q 'Sanitizer\|runtime error' "$T/flip.err"; then
+            signals="$signals bit $bit '$c' exit $rc;"
+        fi
+    done
+    case "$rcs" in *4*) rejected=$((rejected + 1)) ;; *) accepted=$((accepted + 1)) ;; esac
+done <"$T/flips.list"
+echo "bit flips: $flips, rejected $rejected, accepted $accepted, accepted flips that changed info --json: $changed"
+check decode.bit_flips "${signals:-}" [ -z "$signals" ]
