@@ -18,7 +18,8 @@
  * recomputes them first (the section checksums, then the trailer), so the
  * fuzzer reaches the decoder's checks of the structure itself
  * (docs/summary-format.md, "Invariants").  Set SHEAF_FUZZ_KEEP_CHECKSUMS=1
- * to decode the bytes exactly as given.
+ * to decode the bytes exactly as given, and SHEAF_FUZZ_VERBOSE=1 to print
+ * whether each input was accepted (and why not).
  *
  * Seeds: tests/fuzz/corpus/summary_decode/ (small summaries of a class
  * target, a numeric target kept as classes, a regression target, no target,
@@ -170,7 +171,10 @@ int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
     if (!keep || strcmp(keep, "1") != 0) reseal(b, size);
     summary *s = NULL;
     char err[512];
-    if (summary_decode(b, size, &s, err, sizeof err) == SUMMARY_OK) {
+    summary_status st = summary_decode(b, size, &s, err, sizeof err);
+    if (getenv("SHEAF_FUZZ_VERBOSE"))
+        fprintf(stderr, "  %s\n", st == SUMMARY_OK ? "accepted" : err);
+    if (st == SUMMARY_OK) {
         run_info(s);
         screen_options o;
         screen_options_defaults(&o);
