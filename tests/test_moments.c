@@ -191,3 +191,56 @@ Test(moments, serialization_round_trip)
     cr_assert_eq(r.ref.mantissa, m.ref.mantissa);
     wire_writer_free(&w);
 }
+
+/* moments_read refuses a state that no values could give (the invariants of
+ * docs/summary-format.md, "Invariants"); each case breaks one of them in the
+ * state of the values 1.5, 2.25, 4. */
+static int reads_back(const moments *m)
+{
+    wire_writer w;
+    wire_writer_init(&w);
+    moments_write(m, &w);
+    wire_reader rd;
+    wire_reader_init(&rd, w.data, w.len);
+    moments back;
+    int ok = moments_read(&back, &rd) == 0 && !rd.failed;
+    wire_writer_free(&w);
+    return ok;
+}
+
+Test(moments, read_rejects_impossible_states)
+{
+    moments good;
+    moments_init(&good);
+    add_text(&good, "1.5");
+    add_text(&good, "2.25");
+    add_text(&good, "4");
+    cr_assert(reads_back(&good));
+    moments empty;
+    moments_init(&empty);
+    cr_assert(reads_back(&empty));
+    struct { const char *what; moments m; } cases[8];
+    for (int i = 0; i < 8; i++) cases[i].m = good;
+    cases[0].what = "min above max", cases[0].m.min = 5;
+    cases[1].what = "negative m2", cases[1].m.m2 = -1;
+    cases[2].what = "negative m4", cases[2].m.m4 = -0.5;
+    cases[3].what = "NaN mean", cases[3].m.mean = NAN;
+    cases[4].what = "infinite m3", cases[4].m.m3 = INFINITY;
+    cases[5].what = "mean beyond the spread", cases[5].m.mean = 100;
+    cases[6].what = "frame outside [min, max]", cases[6].m.ref.value = 7;
+    cases[7].what = "no frame", cases[7].m.has_ref = 0;
+    for (int i = 0; i < 8; i++) cr_expect(!reads_back(&cases[i].m), "%s accepted", cases[i].what);
+    moments e = empty;
+    e.m2 = 1;
+    cr_expect(!reads_back(&e), "an empty state with m2 accepted");
+    moments one;
+    moments_init(&one);
+    add_text(&one, "3");
+    cr_assert(reads_back(&one));
+    one.m2 = 0.25;
+    cr_expect(!reads_back(&one), "one value with m2 accepted");
+    /* A spread of 2^200 or more may overflow the power sums: accepted. */
+    moments wide = good;
+    wide.min = -1e300, wide.max = 1e300, wide.m4 = INFINITY, wide.m3 = NAN;
+    cr_expect(reads_back(&wide), "an overflowing state of a wide spread refused");
+}
