@@ -173,9 +173,13 @@ int moments_mean_plausible(double mean, double min, double max)
 
 int moments_valid(const moments *m)
 {
-    if (m->n == 0)
-        return m->mean == 0 && m->m2 == 0 && m->m3 == 0 && m->m4 == 0 && m->min == INFINITY &&
+    if (m->n == 0) {
+        /* The frame is set by the first value, which is also counted. */
+        static const number_decimal zero;
+        return !m->has_ref && memcmp(&m->ref, &zero, sizeof zero) == 0 && m->mean == 0 &&
+               m->m2 == 0 && m->m3 == 0 && m->m4 == 0 && m->min == INFINITY &&
                m->max == -INFINITY;
+    }
     if (!m->has_ref || !isfinite(m->min) || !isfinite(m->max) || !(m->min <= m->max) ||
         !isfinite(m->ref.value) || m->ref.value < m->min || m->ref.value > m->max)
         return 0;

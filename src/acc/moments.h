@@ -68,7 +68,8 @@ void moments_write(const moments *m, wire_writer *w);
  * malformed or impossible input. */
 int moments_read(moments *m, wire_reader *r);
 /* 1 when the state could have come from values (docs/summary-format.md,
- * "Invariants"): n = 0 leaves the initial state; otherwise min <= max are
+ * "Invariants"): n = 0 leaves the initial state (no frame, all zero);
+ * otherwise min <= max are
  * finite and hold the frame, n = 1 has zero central sums, M2 and M4 are not
  * negative, and mean, M2..M4 are finite with |mean| within the spread unless
  * the spread is wide enough (moments_spread_allows_overflow) to overflow. */

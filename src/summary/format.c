@@ -392,8 +392,9 @@ static void decode_comoments(summary *s, wire_reader *r, decode_state *ds)
     for (size_t k = 0; k < s->ncomo && !r->failed; k++) {
         size_t i = s->como_col[k];
         const moments *m = &s->cols[i].mom;
-        if (s->como_ref_set[k] != (m->n > 0) ||
-            (m->n > 0 && !decimal_equal(&s->como_ref[k], &m->ref)))
+        static const number_decimal zero;
+        const number_decimal *want = m->n > 0 ? &m->ref : &zero;
+        if (s->como_ref_set[k] != (m->n > 0) || !decimal_equal(&s->como_ref[k], want))
             broken(r, ds, "column %zu '%.80s': co-moment frame differs from the column's", i + 1,
                    s->cols[i].name);
         else if (comoment_n(c, k, k) != (double)m->n)
