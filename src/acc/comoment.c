@@ -516,6 +516,16 @@ double comoment_mean(const comoment *c, size_t i, size_t j)
     return i <= j ? c->mean_lo[k] : c->mean_hi[k];
 }
 
+void comoment_pair_state(const comoment *c, size_t i, size_t j, double *n, double *mean,
+                         double *m2, double *co)
+{
+    size_t k = pair_index(i, j);
+    *n = c->n[k];
+    *mean = i <= j ? c->mean_lo[k] : c->mean_hi[k];
+    *m2 = i <= j ? c->m2_lo[k] : c->m2_hi[k];
+    *co = c->co[k];
+}
+
 double comoment_variance(const comoment *c, size_t i, size_t j)
 {
     size_t k = pair_index(i, j);

@@ -93,6 +93,10 @@ double comoment_covariance(const comoment *c, size_t i, size_t j); /* c / (n - 1
  * to [-1, 1]: rounding can leave |r| a few ulps above 1. */
 double comoment_correlation(const comoment *c, size_t i, size_t j);
 double comoment_variance(const comoment *c, size_t i, size_t j);  /* of i where j present: m2 / (n - 1); NaN if n < 2 */
+/* The stored state of pair (i, j) as written: n, mean and M2 of column i
+ * over the rows where j is present, and the co-moment sum. */
+void comoment_pair_state(const comoment *c, size_t i, size_t j, double *n, double *mean,
+                         double *m2, double *co);
 
 /* All p x p covariances / correlations, row-major into out[i * p + j]. */
 void comoment_covariance_matrix(const comoment *c, double *out);

@@ -372,6 +372,8 @@ static int decimal_equal(const number_decimal *a, const number_decimal *b)
            a->exp10 == b->exp10 && a->negative == b->negative && a->exact == b->exact;
 }
 
+static void check_comoment_sums(summary *s, const comoment *c, wire_reader *r, decode_state *ds);
+
 static void decode_comoments(summary *s, wire_reader *r, decode_state *ds)
 {
     if (wire_get_u64(r) != s->ncomo) { r->failed = 1; return; }
@@ -400,6 +402,51 @@ static void decode_comoments(summary *s, wire_reader *r, decode_state *ds)
         else if (comoment_n(c, k, k) != (double)m->n)
             broken(r, ds, "column %zu '%.80s': co-moment count %.0f, not the column's %llu",
                    i + 1, s->cols[i].name, comoment_n(c, k, k), (unsigned long long)m->n);
+    }
+    if (!r->failed) check_comoment_sums(s, c, r, ds);
+}
+
+/* The co-moment sums against the columns' moments, with slack for
+ * rounding (2^-20 of the scale n spread^2): the diagonal M2 is the column's
+ * M2; over a subset of the rows (where j is present) M2[i][j] lies in
+ * [0, M2[i][i]] and MEAN[i][j] between the column's min and max (in its
+ * frame); |C[i][j]| <= sqrt(M2[i][j] M2[j][i]) (Cauchy-Schwarz).  Pairs of
+ * columns spread over 2^200 or more may overflow and are not checked. */
+static void check_comoment_sums(summary *s, const comoment *c, wire_reader *r, decode_state *ds)
+{
+    const double slack = 0x1p-20;
+    for (size_t a = 0; a < s->ncomo && !r->failed; a++) {
+        const summary_column *ca = &s->cols[s->como_col[a]];
+        const moments *ma = &ca->mom;
+        if (ma->n < 2 || moments_spread_allows_overflow(ma->min, ma->max)) continue;
+        double sa = ma->max - ma->min, nd, mean, m2d, cod;
+        comoment_pair_state(c, a, a, &nd, &mean, &m2d, &cod);
+        double scale = (double)ma->n * sa * sa, tol = slack * scale;
+        if (!isfinite(m2d) || fabs(m2d - ma->m2) > tol) {
+            broken(r, ds, "column %zu '%.80s': co-moment M2 %g, the column's %g",
+                   s->como_col[a] + 1, ca->name, m2d, ma->m2);
+            break;
+        }
+        double lo = ma->min - ma->ref.value, hi = ma->max - ma->ref.value;
+        double mtol = slack * fmax(sa, fmax(fabs(ma->min), fabs(ma->max)));
+        for (size_t b = 0; b < s->ncomo && !r->failed; b++) {
+            const moments *mb = &s->cols[s->como_col[b]].mom;
+            double n, m, m2, co, nb_, mb_, m2b, cob;
+            comoment_pair_state(c, a, b, &n, &m, &m2, &co);
+            if (n == 0) continue;
+            const char *what = NULL;
+            if (!isfinite(m) || m < lo - mtol || m > hi + mtol) what = "MEAN";
+            else if (!isfinite(m2) || m2 < -tol || m2 > m2d + tol) what = "M2";
+            else if (mb->n >= 2 && !moments_spread_allows_overflow(mb->min, mb->max)) {
+                comoment_pair_state(c, b, a, &nb_, &mb_, &m2b, &cob);
+                double bound = sqrt(fmax(m2, 0) * fmax(m2b, 0)) +
+                               slack * (double)n * sa * (mb->max - mb->min);
+                if (!isfinite(co) || fabs(co) > bound) what = "C";
+            }
+            if (what)
+                broken(r, ds, "co-moment %s[%zu][%zu] is impossible for columns '%.60s' and '%.60s'",
+                       what, a + 1, b + 1, ca->name, s->cols[s->como_col[b]].name);
+        }
     }
 }
 

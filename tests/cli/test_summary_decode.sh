@@ -147,6 +147,11 @@ crafted como_frame cls "COMO.frame[1].value=$(get cls 'COLS[1].moments.max')"
 crafted como_frame_without_numbers cls "COMO.frame[0].mantissa=1"
 crafted como_count cls "COMO.N[1][1]=$(($(get cls 'COMO.N[1][1]') + 1))"
 crafted como_asymmetric cls "COMO.N[1][2]=$(($(get cls 'COMO.N[1][2]') - 1))"
+crafted como_m2_diagonal cls "COMO.M2[1][1]=1e12" "COMO.C[1][1]=1e12"
+crafted como_m2_subset cls "COMO.M2[1][2]=1e6"
+crafted como_m2_negative cls "COMO.M2[1][2]=-1"
+crafted como_mean_outside cls "COMO.MEAN[1][2]=1e9"
+crafted como_cauchy_schwarz cls "COMO.C[1][2]=1e12" "COMO.C[2][1]=1e12"
 
 # Bit flips with the checksums recomputed: every reader exits 0 or 4.
 flips=${SHEAF_DECODE_FLIPS:-200}
