@@ -43,7 +43,7 @@ static void help(FILE *f)
                "exit codes:\n"
                "  0  success\n"
                "  1  output could not be written, or another failure\n"
-               "  2  usage error (bad command line)\n"
+               "  2  usage error (bad command line, or an output that is one of the inputs)\n"
                "  3  bad input data (unreadable, malformed, truncated or corrupt stream)\n"
                "  4  damaged, truncated or newer summary file\n"
                "  5  incompatible summaries (different columns or options)\n"
