@@ -69,7 +69,6 @@ done
 # sheaf CMD-STRING TARGET: runs a command line from the tables with OUT set.
 sheaf_to() { local line=$1; $SHEAF ${line/OUT/$2}; }
 
-echo "# at ${SECONDS}s"
 # fresh_full: the device node $T/full made anew (a failing run replaces it).
 fresh_full() { rm -f "$T/full" && mknod "$T/full" c 1 7 2>/dev/null; }
 # ---- device.*: write through ----
@@ -116,7 +115,6 @@ mkdir "$T/adir"
 run sheaf_to "${SMALL[scan]}" "$T/adir"
 check device.directory_refused "exit $RC, $(err_text)" [ "$RC" -eq 1 -a -d "$T/adir" ]
 
-echo "# at ${SECONDS}s"
 # ---- link.*: follow symbolic links ----
 mkdir -p "$T/l/real" "$T/l/links"
 for c in scan merge trim project; do
@@ -144,7 +142,6 @@ check link.dangling_stays_a_link "" [ -L "$T/l/links/dangling" ]
 left=$(ls -A "$T/l/real" "$T/l/links" | grep -c -e '\.tmp\.' -e '\.sheaf-')
 check link.no_temporary_files "$left left" [ "$left" -eq 0 ]
 
-echo "# at ${SECONDS}s"
 # ---- same.*: an input is never the output ----
 mkdir "$T/s"
 cp "$T/a.csv" "$T/s/a.csv"
@@ -186,7 +183,6 @@ same project.input $SHEAF project -q "$T/s/bigcopy.csv" --pca "$T/s/big.sheaf" -
 run $SHEAF scan -q /dev/null -o /dev/null
 check same.devices_are_not_protected "exit $RC: $(err_text)" [ "$RC" -ne 2 ]
 
-echo "# at ${SECONDS}s"
 # ---- kill.* and named.*: signals at random moments ----
 # The reference new output of each big command, and how long it runs.
 declare -A SECS
@@ -280,7 +276,6 @@ if [ -n "$SHIM" ]; then
     done
 fi
 
-echo "# at ${SECONDS}s"
 # ---- full.*: a full disk ----
 if fresh_full; then
     for c in trim project; do
@@ -312,7 +307,6 @@ else
     skip full.tmpfs "cannot mount a tmpfs (not root?)"
 fi
 
-echo "# at ${SECONDS}s"
 # ---- stdout.*: standard output ----
 declare -A OUT=(
     [info]="info $T/in/big.sheaf"
