@@ -8,6 +8,7 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <sys/stat.h>
 #include <time.h>
 #include <unistd.h>
 
@@ -124,6 +125,46 @@ long long cli_parse_size(const char *s)
     if (*end == 'b' || *end == 'B') end++;
     if (*end) return -1;
     return (long long)(v * mult);
+}
+
+/* stat of a path, or of standard input or output for "-"; 0 or -1. */
+static int stat_of(const char *path, int std_fd, struct stat *st)
+{
+    if (!path || !strcmp(path, "-")) return fstat(std_fd, st);
+    return stat(path, st);
+}
+
+int cli_check_output(const char *cmd, const char *out, const char *const *inputs, size_t n)
+{
+    struct stat o;
+    if (stat_of(out, STDOUT_FILENO, &o) != 0 || !S_ISREG(o.st_mode)) return 0;
+    for (size_t i = 0; i < n; i++) {
+        struct stat in;
+        if (!inputs[i] || stat_of(inputs[i], STDIN_FILENO, &in) != 0) continue;
+        if (in.st_dev != o.st_dev || in.st_ino != o.st_ino) continue;
+        const char *on = out && strcmp(out, "-") ? out : "standard output";
+        const char *inn = strcmp(inputs[i], "-") ? inputs[i] : "standard input";
+        cli_error(cmd, "%s: is the same file as the input %s; refusing to overwrite an input", on,
+                  inn);
+        return EXIT_USAGE;
+    }
+    return 0;
+}
+
+int cli_close_stdout(void)
+{
+    int failed = ferror(stdout);
+    errno = 0;
+    if (fflush(stdout) != 0) failed = 1;
+    int reason = errno; /* a failed write is retried by the flush, which sets errno again */
+    if (fclose(stdout) != 0 && !failed) {
+        failed = 1;
+        reason = errno;
+    }
+    if (!failed) return 0;
+    fprintf(stderr, "sheaf: standard output: %s\n",
+            strerror(reason ? reason : EIO));
+    return EXIT_FAILED;
 }
 
 char *cli_read_text(const char *path, char *err, size_t errlen)

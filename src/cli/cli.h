@@ -42,6 +42,20 @@ void cli_help(const cli_command *cmd);
 /* "sheaf CMD: message" on stderr. */
 void cli_error(const char *cmd, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
 
+/* Refuses an output that is the same file as an input: out (a path; NULL or
+ * "-" is standard output) is compared with each of the n inputs (paths; "-"
+ * is standard input) by device and inode, after every symbolic link, so a
+ * hard link or a link to an input is caught too.  Only a regular file is
+ * protected: /dev/null as input and output is fine.  Returns 0, or
+ * EXIT_USAGE after a one-line error naming both. */
+int cli_check_output(const char *cmd, const char *out, const char *const *inputs, size_t n);
+
+/* Flushes and closes standard output.  Returns 0, or EXIT_FAILED after the
+ * one line "sheaf: standard output: REASON" when a write to it failed at any
+ * point (a full disk, a closed descriptor, a broken pipe when SIGPIPE is
+ * ignored).  main calls it once, after the command. */
+int cli_close_stdout(void);
+
 /* Reads a whole text file (a keep list), NUL-terminated; NULL with a
  * message naming the file when it cannot be read or passes 64 MiB. */
 char *cli_read_text(const char *path, char *err, size_t errlen);

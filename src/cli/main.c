@@ -4,6 +4,8 @@
  * OpenBLAS runs single-threaded, and GSL failures give NaN p-values
  * (stat_gsl_error_handler) instead of GSL's default abort. */
 #include <cblas.h>
+#include <errno.h>
+#include <fcntl.h>
 #include <gsl/gsl_errno.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -41,13 +43,46 @@ static void help(FILE *f)
                "exit codes:\n"
                "  0  success\n"
                "  1  output could not be written, or another failure\n"
-               "  2  usage error (bad command line)\n"
+               "  2  usage error (bad command line, or an output that is one of the inputs)\n"
                "  3  bad input data (unreadable, malformed, truncated or corrupt stream)\n"
                "  4  damaged, truncated or newer summary file\n"
                "  5  incompatible summaries (different columns or options)\n"
                "  6  resource limit (out of memory, over --mem)\n");
 }
 
+/* A closed standard descriptor (`>&-`) is held by /dev/null opened the
+ * other way round, so that no file sheaf opens lands on it (and receives
+ * what was meant for the terminal), and a write to standard output still
+ * fails, with EBADF, as it would have. */
+static void hold_closed_std_fds(void)
+{
+    static const int MODES[3] = {O_WRONLY, O_RDONLY, O_RDONLY};
+    for (int fd = 0; fd < 3; fd++)
+        if (fcntl(fd, F_GETFD) < 0 && errno == EBADF) {
+            int got = open("/dev/null", MODES[fd]);
+            if (got >= 0 && got != fd) close(got);
+        }
+}
+
+static int run(int argc, char **argv)
+{
+    if (argc < 2) { help(stderr); return EXIT_USAGE; }
+    if (!strcmp(argv[1], "-h") || !strcmp(argv[1], "--help") || !strcmp(argv[1], "help")) {
+        help(stdout);
+        return EXIT_DONE;
+    }
+    if (!strcmp(argv[1], "--version")) { printf("sheaf 0.1 (summary format 1)\n"); return 0; }
+    for (size_t i = 0; i < sizeof COMMANDS / sizeof *COMMANDS; i++)
+        if (!strcmp(argv[1], COMMANDS[i].name)) return COMMANDS[i].run(argc - 1, argv + 1);
+    fprintf(stderr, "sheaf: unknown command '%s' (see sheaf --help)\n", argv[1]);
+    return EXIT_USAGE;
+}
+
+/* Every failure to write standard output ends in one line and exit 1
+ * (cli_close_stdout), whatever the command printed and however it ended.
+ * SIGPIPE keeps its default action: `sheaf info x | head -1` ends quietly
+ * when head exits, as other filters do; with SIGPIPE ignored by the parent,
+ * the broken pipe is a write failure like any other. */
 int main(int argc, char **argv)
 {
     /* sheaf runs its own threads: OpenBLAS must not start a pool of its own.
@@ -59,14 +94,8 @@ int main(int argc, char **argv)
     }
     openblas_set_num_threads(1); /* in case the re-execution failed */
     gsl_set_error_handler(stat_gsl_error_handler);
-    if (argc < 2) { help(stderr); return EXIT_USAGE; }
-    if (!strcmp(argv[1], "-h") || !strcmp(argv[1], "--help") || !strcmp(argv[1], "help")) {
-        help(stdout);
-        return EXIT_DONE;
-    }
-    if (!strcmp(argv[1], "--version")) { printf("sheaf 0.1 (summary format 1)\n"); return 0; }
-    for (size_t i = 0; i < sizeof COMMANDS / sizeof *COMMANDS; i++)
-        if (!strcmp(argv[1], COMMANDS[i].name)) return COMMANDS[i].run(argc - 1, argv + 1);
-    fprintf(stderr, "sheaf: unknown command '%s' (see sheaf --help)\n", argv[1]);
-    return EXIT_USAGE;
+    hold_closed_std_fds();
+    int rc = run(argc, argv);
+    int out = cli_close_stdout();
+    return rc == EXIT_DONE ? out : rc;
 }

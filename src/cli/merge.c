@@ -50,6 +50,7 @@ int cmd_merge(int argc, char **argv)
     rc = EXIT_USAGE;
     if (npos == 0) { cli_error("merge", "no input summaries (see sheaf merge --help)"); goto done; }
     if (!out) { cli_error("merge", "-o OUT.sheaf is required"); goto done; }
+    if (cli_check_output("merge", out, (const char *const *)pos, npos)) goto done;
     char err[2048];
     for (size_t i = 0; i < npos; i++) {
         summary *s;

@@ -79,6 +79,12 @@ int cmd_project(int argc, char **argv)
     sink *out = NULL;
     if (npos == 0) { cli_error("project", "no data files (see sheaf project --help)"); goto done; }
     if (!pca_path) { cli_error("project", "--pca FILE.sheaf is required"); goto done; }
+    {
+        const char *side[2] = {pca_path, keep};
+        if (cli_check_output("project", out_path, (const char *const *)pos, npos) ||
+            cli_check_output("project", out_path, side, 2))
+            goto done;
+    }
     if (delim_s && cli_parse_delim(delim_s, &po.read.delim) != 0) {
         cli_error("project", "--delim must be one character or 'tab', got '%s'", delim_s);
         goto done;

@@ -57,6 +57,7 @@ int cmd_scan(int argc, char **argv)
     long long v;
     if (npos == 0) { cli_error("scan", "no input files (see sheaf scan --help)"); goto done; }
     if (!out) { cli_error("scan", "-o OUT.sheaf is required"); goto done; }
+    if (cli_check_output("scan", out, (const char *const *)pos, npos)) goto done;
     if (delim && cli_parse_delim(delim, &o.delim) != 0) {
         cli_error("scan", "--delim must be one character or 'tab', got '%s'", delim);
         goto done;

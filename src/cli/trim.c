@@ -114,6 +114,12 @@ int cmd_trim(int argc, char **argv)
     rc = EXIT_USAGE;
     if (npos == 0) { cli_error("trim", "no data files (see sheaf trim --help)"); goto done; }
     if (!!from == !!keep_list) { cli_error("trim", "give exactly one of --from and --keep-list"); goto done; }
+    {
+        const char *side[2] = {from, keep_list};
+        if (cli_check_output("trim", out_path, (const char *const *)pos, npos) ||
+            cli_check_output("trim", out_path, side, 2))
+            goto done;
+    }
     if (delim_s && cli_parse_delim(delim_s, &delim) != 0) {
         cli_error("trim", "--delim must be one character or 'tab', got '%s'", delim_s);
         goto done;

@@ -2,6 +2,7 @@
 #include "out/sink.h"
 
 #include <errno.h>
+#include <stdint.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -17,16 +18,19 @@ enum { PLAIN, GZIP, ZSTD };
 
 struct sink {
     int kind;            /* PLAIN, GZIP, ZSTD */
-    FILE *f;             /* destination */
+    int fd;              /* destination: the tempfile's descriptor, or 1 */
+    tempfile out;        /* the file (unused for standard output) */
+    int to_file;         /* out is open */
     struct isal_zstream *gz; /* gzip state (ISA-L deflate, level 2) */
     uint8_t *gz_level;   /* ISA-L level buffer */
     ZSTD_CStream *zs;    /* zstd state */
-    char *path, *tmp;    /* final and temporary names (NULL for stdout) */
+    char *path;          /* the name given (NULL for standard output) */
     unsigned char *buf;  /* pending bytes */
     size_t len;          /* bytes pending */
     size_t cap;          /* bytes allocated for buf */
     unsigned char *zbuf; /* zstd output buffer */
     int failed;          /* a write failed */
+    int error;           /* errno of the first failure (0: a compressor failed) */
 };
 
 static int ends_with(const char *s, const char *suffix)
@@ -43,20 +47,18 @@ sink *sink_open(const char *path, char *err, size_t errlen)
     s->cap = BUF_BYTES;
     if (!s->buf) { free(s); snprintf(err, errlen, "out of memory"); return NULL; }
     if (!path || strcmp(path, "-") == 0) {
-        s->f = stdout;
+        s->fd = STDOUT_FILENO;
         return s;
     }
     s->path = strdup(path);
     if (!s->path) { sink_abort(s); snprintf(err, errlen, "out of memory"); return NULL; }
-    int fd = tempfile_create(path, &s->tmp); /* mode as creat() would give it */
-    if (fd < 0) {
-        snprintf(err, errlen, "%s: cannot create: %s", path, strerror(errno));
+    if (tempfile_open(&s->out, path, 0, err, errlen) != 0) {
         sink_abort(s);
         return NULL;
     }
+    s->to_file = 1;
+    s->fd = s->out.fd;
     s->kind = ends_with(path, ".gz") ? GZIP : ends_with(path, ".zst") ? ZSTD : PLAIN;
-    s->f = fdopen(fd, "wb");
-    if (!s->f) close(fd);
     if (s->kind == GZIP) {
         s->gz = malloc(sizeof *s->gz);
         s->gz_level = malloc(ISAL_DEF_LVL2_DEFAULT);
@@ -74,7 +76,7 @@ sink *sink_open(const char *path, char *err, size_t errlen)
         s->zbuf = malloc(ZSTD_CStreamOutSize());
         if (s->zs) ZSTD_initCStream(s->zs, 3);
     }
-    if (!s->f || (s->kind == GZIP && (!s->gz || !s->gz_level || !s->zbuf)) ||
+    if ((s->kind == GZIP && (!s->gz || !s->gz_level || !s->zbuf)) ||
         (s->kind == ZSTD && (!s->zs || !s->zbuf))) {
         snprintf(err, errlen, "%s: cannot open for writing", path);
         sink_abort(s);
@@ -83,10 +85,21 @@ sink *sink_open(const char *path, char *err, size_t errlen)
     return s;
 }
 
-/* Writes raw (already compressed or plain) bytes to f. */
+/* Writes raw (already compressed or plain) bytes to the destination. */
 static int put(sink *s, const void *p, size_t n)
 {
-    if (fwrite(p, 1, n, s->f) != n) s->failed = 1;
+    const unsigned char *b = p;
+    while (n && !s->failed) {
+        ssize_t w = write(s->fd, b, n);
+        if (w < 0 && errno == EINTR) continue;
+        if (w < 0) {
+            s->failed = 1;
+            s->error = errno;
+            break;
+        }
+        b += w;
+        n -= (size_t)w;
+    }
     return s->failed ? -1 : 0;
 }
 
@@ -127,7 +140,7 @@ char *sink_reserve(sink *s, size_t n)
     if (s->len + n > s->cap && drain(s, 0) != 0) return NULL;
     if (n > s->cap) {
         unsigned char *g = realloc(s->buf, n);
-        if (!g) { s->failed = 1; return NULL; }
+        if (!g) { s->failed = 1; s->error = ENOMEM; return NULL; }
         s->buf = g;
         s->cap = n;
     }
@@ -158,35 +171,35 @@ static void release(sink *s)
     free(s->zbuf);
     free(s->buf);
     free(s->path);
-    free(s->tmp);
     free(s);
+}
+
+void sink_error(const sink *s, char *err, size_t errlen)
+{
+    snprintf(err, errlen, "%s: cannot write: %s", s->path ? s->path : "standard output",
+             s->error ? strerror(s->error) : "the compressor failed");
 }
 
 int sink_close(sink *s, char *err, size_t errlen)
 {
     drain(s, 0);
     if (s->kind != PLAIN) drain(s, 1);
-    int ok = !s->failed;
-    if (s->f == stdout) ok &= fflush(stdout) == 0;
-    else {
-        ok &= fflush(s->f) == 0;
-        ok &= fsync(fileno(s->f)) == 0;
-        ok &= fclose(s->f) == 0;
+    int rc = 0;
+    if (s->failed) {
+        sink_error(s, err, errlen);
+        rc = -1;
+        if (s->to_file) tempfile_discard(&s->out);
+    } else if (s->to_file) {
+        rc = tempfile_commit(&s->out, err, errlen);
     }
-    if (s->tmp) {
-        if (ok && rename(s->tmp, s->path) != 0) ok = 0;
-        if (!ok) unlink(s->tmp);
-    }
-    if (!ok) snprintf(err, errlen, "%s: write failed: %s", s->path ? s->path : "standard output",
-                      strerror(errno ? errno : EIO));
+    s->to_file = 0;
     release(s);
-    return ok ? 0 : -1;
+    return rc;
 }
 
 void sink_abort(sink *s)
 {
     if (!s) return;
-    if (s->f && s->f != stdout) fclose(s->f);
-    if (s->tmp) unlink(s->tmp);
+    if (s->to_file) tempfile_discard(&s->out);
     release(s);
 }

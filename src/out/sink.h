@@ -2,9 +2,14 @@
  *
  * A name ending in .gz is written as gzip (ISA-L deflate, level 2), .zst as zstd
  * (libzstd streaming, level 3), anything else plain; "-" or NULL is standard
- * output.  Files are written to a temporary name in the target directory and
- * renamed by sink_close, so a failed command never leaves a half-written file
- * under the final name (sink_abort removes it).
+ * output.  A file goes through src/summary/tempfile.h: a regular file (or a
+ * new one, or the file a symbolic link names) is written without a name and
+ * given the final name by sink_close, so a failed or killed command never
+ * leaves a half-written file under the final name nor a temporary file beside
+ * it; a character device or a FIFO (/dev/null, a named pipe) is written
+ * through.  Bytes go out with write(2) from the sink's own buffer (standard
+ * output too, on descriptor 1, bypassing stdio's stdout), and the first
+ * failure's errno is kept, so every message names the output and the reason.
  */
 #ifndef SHEAF_SINK_H
 #define SHEAF_SINK_H
@@ -25,6 +30,9 @@ void sink_commit(sink *s, size_t n);
 /* Flushes, finishes the compressed stream, renames into place.  Returns 0, or
  * -1 with a message (and nothing left under the final name). */
 int sink_close(sink *s, char *err, size_t errlen);
+/* After a failed sink_write or sink_reserve: "NAME: cannot write: REASON"
+ * (NAME is the path, or "standard output"). */
+void sink_error(const sink *s, char *err, size_t errlen);
 /* Discards everything written (removes the temporary file). */
 void sink_abort(sink *s);
 

@@ -321,7 +321,7 @@ static int commit(void *ctx, unsigned slot, char *err, size_t errlen)
     }
     sl->rows = sl->nrows = sl->len = 0;
     if (!failed) return 0;
-    snprintf(err, errlen, "write failed");
+    sink_error(pj->out, err, errlen);
     return PROJECT_ERR_OUTPUT;
 }
 
@@ -394,7 +394,7 @@ project_status project_files(const summary *s, const pca_result *r, size_t k,
         snprintf(err, errlen, "out of memory");
         rc = PROJECT_ERR_MEMORY;
     } else if (header_row(&pj) != 0) {
-        snprintf(err, errlen, "write failed");
+        sink_error(pj.out, err, errlen);
         rc = PROJECT_ERR_OUTPUT;
     } else {
         rc = stream_files(&so, &h, &pj, paths, npaths, err, errlen);

@@ -195,7 +195,7 @@ static int commit(void *ctx, unsigned slot, char *err, size_t errlen)
     s->len = s->rows = 0;
     s->unterminated = 0;
     if (!failed) return 0;
-    snprintf(err, errlen, "write failed");
+    sink_error(t->out, err, errlen);
     return TRIM_ERR_OUTPUT;
 }
 

@@ -689,24 +689,16 @@ static int write_sections(const summary *s, int fd)
 
 summary_status summary_write(const summary *s, const char *path, char *err, size_t errlen)
 {
-    char *tmp;
-    int fd = tempfile_create(path, &tmp); /* mode as creat() would give it */
-    if (fd < 0) {
-        if (errno == ENOMEM) { snprintf(err, errlen, "out of memory"); return SUMMARY_ERR_MEMORY; }
-        snprintf(err, errlen, "%s: cannot create: %s", path, strerror(errno));
+    tempfile t; /* written in full, then made the target's (src/summary/tempfile.h) */
+    if (tempfile_open(&t, path, TEMPFILE_SEEKABLE, err, errlen) != 0)
+        return errno == ENOMEM ? SUMMARY_ERR_MEMORY : SUMMARY_ERR_IO;
+    if (write_sections(s, t.fd) != 0) {
+        int saved = errno;
+        snprintf(err, errlen, "%s: cannot write: %s", path, strerror(saved ? saved : EIO));
+        tempfile_discard(&t);
         return SUMMARY_ERR_IO;
     }
-    int ok = write_sections(s, fd) == 0;
-    int saved = errno;
-    if (ok && fsync(fd) != 0) { ok = 0; saved = errno; }
-    if (close(fd) != 0 && ok) { ok = 0; saved = errno; }
-    if (ok && rename(tmp, path) != 0) { ok = 0; saved = errno; }
-    if (!ok) {
-        unlink(tmp);
-        snprintf(err, errlen, "%s: cannot write: %s", path, strerror(saved ? saved : EIO));
-    }
-    free(tmp);
-    return ok ? SUMMARY_OK : SUMMARY_ERR_IO;
+    return tempfile_commit(&t, err, errlen) == 0 ? SUMMARY_OK : SUMMARY_ERR_IO;
 }
 
 summary_status summary_read(const char *path, summary **out, char *err, size_t errlen)

@@ -230,10 +230,13 @@ void summary_column_fold_keys(hll *h, const values *v);
 /* Present (non-missing) cells. */
 uint64_t summary_column_present(const summary_column *c);
 
-/* File I/O.  Writing goes to a temporary file in the target directory that
- * is flushed and renamed, so no half-written file ever has the final name;
- * the file gets the mode a plain creat() would give it (0666 less the
- * umask), and the process umask is never touched (src/summary/tempfile.h). */
+/* File I/O.  Writing goes through src/summary/tempfile.h: a regular target
+ * (or a new one, or the file a symbolic link names) is replaced atomically by
+ * a file written in full and flushed, so no half-written file ever has the
+ * final name and a killed process leaves no temporary file; a character
+ * device or a FIFO (/dev/null, a pipe) receives the bytes in place.  A new
+ * file gets the mode a plain creat() would give it (0666 less the umask), and
+ * the process umask is never touched. */
 summary_status summary_write(const summary *s, const char *path, char *err, size_t errlen);
 /* Reads a summary file into a new, sealed summary. */
 summary_status summary_read(const char *path, summary **out, char *err, size_t errlen);

@@ -1,22 +1,87 @@
-/* tempfile: a new file beside a final path, written and then renamed over it.
+/* tempfile: an output file that is whole or absent, never half written, and
+ * never the cause of a file lying about after the process ends.
  *
- * tempfile_create makes "<path>.tmp.XXXXXX" (six random letters or digits)
- * with O_CREAT | O_EXCL and mode 0666, so the kernel filters the mode through
- * the process umask (and the directory's default ACL) exactly as it does for
- * a plain creat(): the file renamed into place gets the mode any other new
- * file of the process would.  mkstemp is not used: it creates mode 0600, and
- * restoring the usual mode needs the umask, which a process can only read by
- * setting it (umask() is process-wide, so a library calling it races with
- * every other thread that creates a file).  O_EXCL makes the name the
- * caller's alone; a name that exists is retried with new random letters.
+ * What a target path gets (tempfile_open decides once, before any byte):
+ *
+ *   - a regular file, or nothing yet: the bytes go to a new file in the
+ *     target's directory that has no name (O_TMPFILE), and tempfile_commit
+ *     gives it the target's name: linkat(2) when the name is free, else
+ *     linkat to a random name beside it and rename(2) over the target, so the
+ *     target is the old complete file or the new complete file at every
+ *     instant.  A process killed while writing, even by SIGKILL, leaves
+ *     nothing (the kernel frees a file without a name when its last
+ *     descriptor closes).  The one window: between that linkat and that
+ *     rename (two system calls, with SIGTERM, SIGINT and SIGHUP blocked) a
+ *     SIGKILL or a power cut leaves the random name ".NAME.sheaf-XXXXXX".
+ *   - a regular file on a file system without O_TMPFILE (open fails with
+ *     EOPNOTSUPP, EISDIR or EINVAL): a named file "<path>.tmp.XXXXXX" is
+ *     created and renamed over the target.  Its name is recorded for a
+ *     handler of SIGTERM, SIGINT and SIGHUP that removes it and then dies of
+ *     the same signal (so the exit status still says which).  The handler is
+ *     installed only for a signal whose action is the default one, so a host
+ *     program that handles these signals keeps its own handler (and its own
+ *     cleanup); SIGKILL leaves the named file.
+ *   - a symbolic link: followed (through any chain, relative links resolved
+ *     from the link's directory) to the file it names, which is then handled
+ *     as above; the link itself stays.  A dangling link names the file to
+ *     create.
+ *   - a character device or a FIFO (/dev/null, /dev/full, /dev/stdout on a
+ *     terminal or a pipe, a named pipe): written through, in place, as a
+ *     shell redirection would.  A caller that must seek or map what it
+ *     writes (TEMPFILE_SEEKABLE) writes to a scratch file without a name
+ *     (O_TMPFILE in $TMPDIR or /tmp, else memfd_create), copied to the
+ *     target by tempfile_commit.
+ *   - anything else (a directory, a block device, a socket): refused.
+ *
+ * A new file gets mode 0666 filtered by the process umask (and the
+ * directory's default ACL), as a plain creat() would; a replaced file does
+ * not keep its old mode.  The umask is never read (umask() is process-wide:
+ * a library calling it races with every thread that creates a file).
+ *
+ * Global state: the names recorded for the signal handler (the named
+ * fallback only) are the one process-wide table here, TEMPFILE_SLOTS
+ * entries of atomic flags and fixed buffers, safe to use from any thread
+ * and read by the handler without locks.  With every slot in use (or a name
+ * longer than PATH_MAX) the file is still written, without the cleanup.
  */
 #ifndef SHEAF_TEMPFILE_H
 #define SHEAF_TEMPFILE_H
 
-/* Creates the temporary file for `path` and opens it for reading and
- * writing (O_RDWR | O_CLOEXEC: summary_write maps what it wrote to hash it).  Returns the descriptor and sets *tmp_path to its name (the
- * caller frees it, and unlinks or renames the file); -1 with errno set (and
- * *tmp_path NULL) when it cannot be created. */
-int tempfile_create(const char *path, char **tmp_path);
+#include <stddef.h>
+
+enum {
+    TEMPFILE_SEEKABLE = 1 /* the caller seeks, reads back or maps what it writes */
+};
+
+typedef enum {
+    TEMPFILE_ANONYMOUS, /* O_TMPFILE in the target's directory, linked at commit */
+    TEMPFILE_NAMED,     /* "<path>.tmp.XXXXXX", renamed at commit */
+    TEMPFILE_THROUGH,   /* the target itself (a character device or a FIFO) */
+    TEMPFILE_SCRATCH    /* a nameless scratch file, copied to the target at commit */
+} tempfile_kind;
+
+typedef struct {
+    int fd;             /* where the caller writes (read and write, close-on-exec) */
+    tempfile_kind kind; /* how the bytes reach the target */
+    char *path;         /* the target with symbolic links followed */
+    char *tmp_path;     /* TEMPFILE_NAMED: the temporary name; else NULL */
+    int target_fd;      /* TEMPFILE_SCRATCH: the target, open for writing; else -1 */
+    int slot;           /* the signal-cleanup slot of tmp_path, or -1 */
+} tempfile;
+
+/* Prepares the output for `path` (see above).  Returns 0 with t filled, or
+ * -1 with errno set (ENOMEM when memory ran out) and a one-line message
+ * naming the path in err; t then holds nothing to release. */
+int tempfile_open(tempfile *t, const char *path, int flags, char *err, size_t errlen);
+
+/* Makes the written bytes the target's: fsync and the link or rename for a
+ * regular file (and fsync of its directory), the copy for a scratch file.
+ * Closes t->fd and releases t in every case.  Returns 0, or -1 with errno
+ * set and a message naming the target in err, after which nothing is left
+ * but the target as it was (a device or FIFO may have received part). */
+int tempfile_commit(tempfile *t, char *err, size_t errlen);
+
+/* Drops everything written (closes, removes a named file) and releases t. */
+void tempfile_discard(tempfile *t);
 
 #endif
