@@ -120,6 +120,12 @@ int cmd_scan(int argc, char **argv)
                 free(copy);
                 goto done;
             }
+            if (strlen(t) > SUMMARY_MAX_MISSING_BYTES) {
+                cli_error("scan", "--missing: a spelling is at most %d bytes, '%.20s...' has %zu",
+                          SUMMARY_MAX_MISSING_BYTES, t, strlen(t));
+                free(copy);
+                goto done;
+            }
             o.opt.missing[o.opt.n_missing++] = strdup(t);
         }
         free(copy);

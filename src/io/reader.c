@@ -26,6 +26,10 @@ struct reader {
     uint64_t absorbed;    /* stream offset after the last record absorbed */
     int stopped;          /* reached stop_at */
     int ended;            /* reader_finish was called */
+    source *src;          /* the source pulled from last (for its member starts) */
+    uint64_t *starts;     /* member and frame starts not yet handed out with a chunk */
+    size_t starts_at;     /* starts[0 .. starts_at) went out with the last chunk */
+    size_t nstarts, starts_cap;
     char err[4352];       /* the last error */
 };
 
@@ -52,6 +56,7 @@ void reader_free(reader *r)
     if (!r) return;
     chunker_free(r->ck);
     reader_cursor_free(&r->cur);
+    free(r->starts);
     free(r);
 }
 
@@ -66,6 +71,7 @@ void reader_start(reader *r, const char *name, int at_file_start, char delim, ui
     r->lines_before = 0;
     r->absorbed = 0;
     r->in_chunk = r->stopped = r->ended = 0;
+    r->nstarts = r->starts_at = 0;
     r->err[0] = '\0';
     if (r->delim && !at_file_start) chunker_set_dialect(r->ck, r->delim, 0);
 }
@@ -92,6 +98,19 @@ int reader_pull(reader *r, source *src)
     if (n < 0) { snprintf(r->err, sizeof r->err, "%s", source_error(src)); return -1; }
     if (n == 0) { reader_finish(r); return 0; }
     chunker_commit(r->ck, (size_t)n);
+    /* The starts among the bytes just read (and any decoded ahead). */
+    for (;;) {
+        if (r->nstarts == r->starts_cap) {
+            size_t cap = r->starts_cap ? 2 * r->starts_cap : 16;
+            uint64_t *p = realloc(r->starts, cap * sizeof *p);
+            if (!p) { snprintf(r->err, sizeof r->err, "out of memory"); return -1; }
+            r->starts = p;
+            r->starts_cap = cap;
+        }
+        size_t got = source_take_starts(src, r->starts + r->nstarts, r->starts_cap - r->nstarts);
+        r->nstarts += got;
+        if (r->nstarts < r->starts_cap) break;
+    }
     return 1;
 }
 
@@ -132,6 +151,20 @@ reader_status reader_next_chunk(reader *r, reader_chunk *out)
     out->offset = ch.offset;
     out->skip = ch.offset == 0 ? r->bom : 0;
     out->delim = r->delim;
+    /* The starts handed out with the previous chunk are done; this chunk's
+     * are those before its end. */
+    if (r->starts_at) {
+        memmove(r->starts, r->starts + r->starts_at,
+                (r->nstarts - r->starts_at) * sizeof *r->starts);
+        r->nstarts -= r->starts_at;
+    }
+    size_t from = 0;
+    while (from < r->nstarts && r->starts[from] < ch.offset) from++;
+    size_t to = from;
+    while (to < r->nstarts && r->starts[to] < ch.offset + ch.len) to++;
+    out->starts = r->nstarts ? r->starts + from : NULL;
+    out->nstarts = to - from;
+    r->starts_at = to;
     return READER_CHUNK;
 }
 
@@ -273,6 +306,23 @@ void reader_cursor_message(const reader_cursor *c, const char *name, uint64_t li
 
 size_t reader_bom_length(const reader *r) { return r->bom; }
 
+size_t reader_repeated_headers(const reader_chunk *ch, const char *head, size_t head_len,
+                               uint64_t *out, size_t max)
+{
+    size_t n = 0;
+    for (size_t i = 0; i < ch->nstarts && n < max; i++) {
+        size_t at = (size_t)(ch->starts[i] - ch->offset);
+        if (at < ch->skip || (at > 0 && ch->data[at - 1] != '\n')) continue;
+        const char *p = ch->data + at, *end = ch->data + ch->len;
+        p += csv_bom_length(p, (size_t)(end - p));
+        if ((size_t)(end - p) < head_len || memcmp(p, head, head_len) != 0) continue;
+        p += head_len;
+        if (p == end || *p == '\n' || (*p == '\r' && p + 1 < end && p[1] == '\n'))
+            out[n++] = ch->starts[i];
+    }
+    return n;
+}
+
 size_t reader_column_name(const csv_field *f, size_t i, int header, int raw, char *out)
 {
     size_t n = header ? (raw ? csv_unquote(f->ptr, f->len, out) : f->len) : 0;
@@ -290,6 +340,7 @@ void reader_missing_init(reader_missing *m, const char *const *spellings, uint32
         m->spelling[i] = spellings[i];
         m->len[i] = l;
         if (l && l < 64) m->cand[(unsigned char)spellings[i][0]] |= 1ull << l;
+        if (l >= 64) m->long_spellings = 1; /* tested by the loop alone: rare and slow is fine */
     }
     for (int b = 0; b < 256; b++) m->cand[b] |= 1; /* the empty cell */
 }

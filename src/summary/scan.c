@@ -52,6 +52,10 @@ struct scan_context {
     size_t file_fields;    /* fields in the header */
     char **header;         /* the header's names (file_fields of them) */
     char *first_path;      /* the stream the header came from */
+    char *head_line;       /* the current stream's header line, raw, without its line end */
+    size_t head_len;       /* its bytes */
+    uint64_t *repeats;     /* scratch: a chunk's repeated headers */
+    size_t repeats_cap;
     char delim;            /* the delimiter of the first file */
     /* The current stream. */
     char *name;            /* its name (a path, or what the caller chose) */
@@ -295,6 +299,14 @@ static scan_status head(scan_context *sc, const reader_chunk *ch, int *found)
     }
     scan_status st = first_record(sc, rec.fields, rec.nfields);
     if (st != SCAN_OK) return st;
+    if (sc->o.header) { /* kept to recognize it where a compressed member begins */
+        size_t hl = (size_t)(rec.eol - rec.text);
+        char *p = realloc(sc->head_line, hl ? hl : 1);
+        if (!p) return fail(sc, SCAN_ERR_MEMORY, "out of memory");
+        memcpy(p, rec.text, hl);
+        sc->head_line = p;
+        sc->head_len = hl;
+    }
     *found = 1;
     sc->at_first = 0;
     sc->first_end = rec.end;
@@ -326,7 +338,18 @@ static scan_status drain(scan_context *sc)
             for (size_t i = 0; i < ch.len; i++) sc->blank_lines += ch.data[i] == '\n';
             continue;
         }
-        scan_status st = chunks_push(sc->work, &ch, first);
+        size_t nrep = 0;
+        if (ch.nstarts && sc->head_line) {
+            if (ch.nstarts > sc->repeats_cap) {
+                uint64_t *p = realloc(sc->repeats, ch.nstarts * sizeof *p);
+                if (!p) return fail(sc, SCAN_ERR_MEMORY, "out of memory");
+                sc->repeats = p;
+                sc->repeats_cap = ch.nstarts;
+            }
+            nrep = reader_repeated_headers(&ch, sc->head_line, sc->head_len, sc->repeats,
+                                           sc->repeats_cap);
+        }
+        scan_status st = chunks_push(sc->work, &ch, first, sc->repeats, nrep);
         if (st != SCAN_OK) return worked(sc, st);
     }
     return SCAN_OK;
@@ -426,6 +449,8 @@ void scan_free(scan_context *sc)
     free(sc->header);
     free(sc->field_of);
     free(sc->first_path);
+    free(sc->head_line);
+    free(sc->repeats);
     free(sc->name);
     if (sc->fed_hash) XXH3_freeState(sc->fed_hash);
     free(sc);
