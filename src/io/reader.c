@@ -8,6 +8,10 @@
  * first 50 lines of them), unless the stream ends first. */
 #define DETECT_BYTES (1u << 20)
 #define PULL_BYTES (1u << 20)
+/* Bytes at a file's start that the text check reads (reader_not_text). */
+#define TEXT_SAMPLE_BYTES (64u << 10)
+/* Share of control bytes in the sample above which it is not text. */
+#define TEXT_MAX_CONTROL_SHARE 0.01
 
 _Static_assert(CHUNK_PADDING >= CSV_READ_AHEAD, "chunks must be readable past their end");
 
@@ -21,6 +25,7 @@ struct reader {
     int at_file_start;    /* skip a BOM, detect the delimiter */
     size_t bom;           /* bytes of the byte-order mark at offset 0 */
     char delim;           /* the delimiter, 0 until known */
+    const char *not_text; /* why the file's first bytes are not text, or NULL */
     uint64_t stop_at;     /* records from here on are someone else's (0: none) */
     uint64_t lines_before; /* lines in the chunks before the current one */
     uint64_t absorbed;    /* stream offset after the last record absorbed */
@@ -66,6 +71,7 @@ void reader_start(reader *r, const char *name, int at_file_start, char delim, ui
     r->name = name;
     r->at_file_start = at_file_start;
     r->bom = 0;
+    r->not_text = NULL;
     r->delim = delim ? delim : r->o.delim;
     r->stop_at = stop_at;
     r->lines_before = 0;
@@ -124,14 +130,45 @@ const char *reader_error(const reader *r) { return r->err; }
 char reader_delim(const reader *r) { return r->delim; }
 uint64_t reader_absorbed(const reader *r) { return r->absorbed; }
 
-/* At the start of a file: the byte-order mark and the delimiter, once
- * enough bytes are in.  Returns 0 when they are known, 1 to wait. */
+/* A control byte that text does not hold: C0 but tab, LF, CR, form feed and
+ * ESC (colour codes in logs), and DEL.  NUL is judged on its own. */
+static int stray_control(unsigned char c)
+{
+    return (c < 0x20 && c != '\t' && c != '\n' && c != '\r' && c != '\f' && c != 0x1b) ||
+           c == 0x7f;
+}
+
+/* Why the first bytes of a file are not text, or NULL.  Cheap: the first
+ * 64 KiB (fixed, so the verdict never depends on chunk or read sizes) and
+ * three rules that CSV never breaks: no NUL byte (binary data, UTF-16), a
+ * header line without stray control bytes, and at most 1% of them in the
+ * sample (random or compressed bytes hold about 10%).  Bytes above 0x7f are
+ * not judged: Latin-1 and other 8-bit text are text. */
+static const char *text_verdict(const char *p, size_t len)
+{
+    if (len > TEXT_SAMPLE_BYTES) len = TEXT_SAMPLE_BYTES;
+    if (memchr(p, 0, len)) return "NUL bytes";
+    const char *eol = memchr(p, '\n', len);
+    size_t head = eol ? (size_t)(eol - p) : len, controls = 0;
+    for (size_t i = 0; i < len; i++) {
+        if (!stray_control((unsigned char)p[i])) continue;
+        if (i < head) return "control characters in the header";
+        controls++;
+    }
+    if ((double)controls > TEXT_MAX_CONTROL_SHARE * (double)len) return "control characters";
+    return NULL;
+}
+
+/* At the start of a file: the byte-order mark, the delimiter and the text
+ * check, once enough bytes are in.  Returns 0 when they are known, 1 to
+ * wait. */
 static int dialect(reader *r)
 {
     size_t len;
     const char *p = chunker_pending(r->ck, &len);
-    if (!r->ended && len < (r->delim ? 3 : DETECT_BYTES)) return 1;
+    if (!r->ended && len < (r->delim ? TEXT_SAMPLE_BYTES : DETECT_BYTES)) return 1;
     size_t bom = csv_bom_length(p, len);
+    r->not_text = text_verdict(p + bom, len - bom);
     if (!r->delim) r->delim = csv_detect_delimiter(p + bom, len - bom);
     chunker_set_dialect(r->ck, r->delim, bom);
     r->bom = bom;
@@ -305,6 +342,7 @@ void reader_cursor_message(const reader_cursor *c, const char *name, uint64_t li
 }
 
 size_t reader_bom_length(const reader *r) { return r->bom; }
+const char *reader_not_text(const reader *r) { return r->not_text; }
 
 size_t reader_repeated_headers(const reader_chunk *ch, const char *head, size_t head_len,
                                uint64_t *out, size_t max)

@@ -168,6 +168,14 @@ uint64_t reader_absorbed(const reader *r);
 /* Bytes of the byte-order mark skipped at the start of the stream. */
 size_t reader_bom_length(const reader *r);
 
+/* Once the first chunk of a stream begun at its file's start is out: NULL
+ * when its first 64 KiB (after a byte-order mark) read as text, else why not
+ * ("NUL bytes", "control characters in the header", "control characters"
+ * in more than 1% of the bytes).  Tabs, CR LF, form feeds, ESC and bytes
+ * above 0x7f (UTF-8, Latin-1) are text.  The verdict is the caller's to act
+ * on; the reader reads the bytes either way. */
+const char *reader_not_text(const reader *r);
+
 /* The name of column i of a first record, as every pass names columns: the
  * field's text (unquoted first when raw), or "col<i+1>" when the field is
  * empty or the file has no header.  out needs f->len + 24 bytes; returns

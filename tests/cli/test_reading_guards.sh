@@ -171,10 +171,17 @@ printf 'b\n' >"$T/keep_b.txt"
 run "$SHEAF" trim "$T/dup.csv" --keep-list "$T/keep_b.txt" -q
 check dup.trim_unique_ok "exit $RC, out: $(tr '\n' '|' <"$T/out")" \
     test "$RC" = 0 -a "$(tr '\n' '|' <"$T/out")" = 'b|x|y|x|'
-run "$SHEAF" corr "$T/dup.sheaf" --columns a
-check dup.corr_columns_refused "exit $RC: $(err_text)" test "$RC" = 2
-run "$SHEAF" pca "$T/dup.sheaf" --columns a,b
-check dup.pca_columns_refused "exit $RC: $(err_text)" test "$RC" = 2
+# corr, pca and project on a summary of a table with duplicate names (40 rows).
+{ echo 'a,b,a'; for i in $(seq 1 40); do echo "$i,$(((i * 7) % 13)),$(((i * 5) % 11))"; done; } >"$T/dup40.csv"
+"$SHEAF" scan "$T/dup40.csv" -q -o "$T/dup40.sheaf" 2>/dev/null
+run "$SHEAF" corr "$T/dup40.sheaf" --columns a,b
+check dup.corr_columns_refused "exit $RC: $(err_text)" test "$RC" = 2 -a "$(grep -c "'a' names 2 columns" "$T/err")" = 1
+run "$SHEAF" corr "$T/dup40.sheaf"
+check dup.corr_unnamed_ok "exit $RC: $(err_text)" test "$RC" = 0
+run "$SHEAF" pca "$T/dup40.sheaf" --columns a,b
+check dup.pca_columns_refused "exit $RC: $(err_text)" test "$RC" = 2 -a "$(grep -c "'a' names more than one" "$T/err")" = 1
+run "$SHEAF" project "$T/dup40.csv" --pca "$T/dup40.sheaf" -q
+check dup.project_refused "exit $RC: $(err_text)" test "$RC" = 3 -a "$(grep -c "'a' names more than one" "$T/err")" = 1
 
 # ---- 6. input that is not text ---------------------------------------------
 head -c 1048576 /dev/urandom >"$T/random.bin"
