@@ -391,6 +391,7 @@ project_status project_files(const summary *s, const pca_result *r, size_t k,
         .threads = o->threads,
         .same_delimiter = 0, /* the option's delimiter, or detected per file */
         .require_records = 1,
+        .header = o->header,
         .progress = o->progress,
         .progress_ctx = o->progress_ctx,
     };

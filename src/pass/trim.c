@@ -219,6 +219,7 @@ trim_status trim_files(const trim_options *o, const char *const *paths, size_t n
         .threads = o->threads,
         .same_delimiter = 1,
         .require_records = 0,
+        .header = o->header,
         .progress = o->progress,
         .progress_ctx = o->progress_ctx,
     };
