@@ -103,9 +103,11 @@ size_t source_take_starts(source *s, uint64_t *out, size_t max)
 {
     if (s->ahead) pthread_mutex_lock(&s->ahead->mu);
     size_t n = s->nstarts < max ? s->nstarts : max;
-    memcpy(out, s->starts, n * sizeof *out);
-    memmove(s->starts, s->starts + n, (s->nstarts - n) * sizeof *out);
-    s->nstarts -= n;
+    if (n) {
+        memcpy(out, s->starts, n * sizeof *out);
+        memmove(s->starts, s->starts + n, (s->nstarts - n) * sizeof *out);
+        s->nstarts -= n;
+    }
     if (s->ahead) pthread_mutex_unlock(&s->ahead->mu);
     return n;
 }
