@@ -89,11 +89,12 @@ static int print_json(const summary *s, double share, size_t ntop)
     json_out j;
     json_init(&j, stdout);
     json_object_begin(&j);
-    json_key(&j, "format_version"); json_uint(&j, SUMMARY_FORMAT_VERSION);
+    json_key(&j, "format_version"); json_uint(&j, summary_file_version(s));
     json_key(&j, "rows"); json_uint(&j, summary_rows(s));
     json_key(&j, "bytes"); json_uint(&j, summary_bytes(s));
     json_key(&j, "short_rows"); json_uint(&j, summary_short_rows(s));
     json_key(&j, "long_rows"); json_uint(&j, summary_long_rows(s));
+    json_key(&j, "repeated_headers"); json_uint(&j, summary_repeated_headers(s));
     json_key(&j, "ragged_lines");
     json_array_begin(&j);
     const uint64_t *lines;
@@ -243,6 +244,9 @@ static int print_text(const summary *s, const char *path, double share, size_t n
             printf("%s %llu", i ? "," : "", (unsigned long long)lines[i]);
         printf(")\n");
     }
+    if (summary_repeated_headers(s))
+        printf("repeated header lines skipped: %llu (at the start of a gzip member or zstd frame)\n",
+               (unsigned long long)summary_repeated_headers(s));
     if (summary_target_column(s) >= 0) print_target(s, share);
     size_t width = table_terminal_width();
     int color = table_use_color(stdout);

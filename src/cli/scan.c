@@ -7,12 +7,19 @@
 #include "cli/cli.h"
 #include "summary/scan.h"
 
+/* A warning that does not stop the scan: one line on stderr. */
+static void warn_line(void *ctx, const char *message)
+{
+    (void)ctx;
+    fprintf(stderr, "sheaf scan: warning: %s\n", message);
+}
+
 int cmd_scan(int argc, char **argv)
 {
     const char *out = NULL, *delim = NULL, *chunk = NULL, *maxrec = NULL, *missing = NULL;
     const char *levels = NULL, *budget = NULL, *target = NULL, *task = NULL, *classes = NULL;
     const char *mem = NULL, *shard = NULL, *threads = NULL;
-    int no_header = 0, strict = 0, quiet = 0;
+    int no_header = 0, strict = 0, quiet = 0, force = 0;
     scan_options o;
     scan_options_defaults(&o);
     const cli_option opts[] = {
@@ -20,6 +27,8 @@ int cmd_scan(int argc, char **argv)
         {"delim", 'd', "CHAR", "field delimiter: , ; | or tab (default: detected)", &delim, NULL},
         {"no-header", 0, NULL, "first row is data; columns are named col1..colN", NULL, &no_header},
         {"strict", 0, NULL, "rows with too few or too many fields are errors", NULL, &strict},
+        {"force", 0, NULL, "read a file that does not look like text (NUL or control bytes)",
+         NULL, &force},
         {"columns", 0, "A,B,..", "scan only these columns", &o.columns, NULL},
         {"numeric", 0, "A,B,..", "declare columns numeric", &o.numeric, NULL},
         {"categorical", 0, "A,B,..", "declare columns categorical (never parsed)", &o.categorical, NULL},
@@ -121,6 +130,12 @@ int cmd_scan(int argc, char **argv)
                 free(copy);
                 goto done;
             }
+            if (strlen(t) > SUMMARY_MAX_MISSING_BYTES) {
+                cli_error("scan", "--missing: a spelling is at most %d bytes, '%.20s...' has %zu",
+                          SUMMARY_MAX_MISSING_BYTES, t, strlen(t));
+                free(copy);
+                goto done;
+            }
             o.opt.missing[o.opt.n_missing++] = strdup(t);
         }
         free(copy);
@@ -128,10 +143,12 @@ int cmd_scan(int argc, char **argv)
     if (target) o.opt.target = strdup(target);
     o.header = !no_header;
     o.strict = strict;
+    o.force = force;
     cli_progress ps;
     cli_progress_start(&ps, "scan", quiet);
     o.progress = cli_progress_update;
     o.progress_ctx = &ps;
+    o.warn = warn_line;
     summary *s;
     char err[1024];
     scan_status st = scan_files(&o, (const char *const *)pos, npos, &s, err, sizeof err);

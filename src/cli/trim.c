@@ -154,6 +154,15 @@ int cmd_trim(int argc, char **argv)
         if (target && names_add(&keep, target, strlen(target)) != 0) goto done;
     }
     if (add_list(&keep, carry) != 0) { rc = EXIT_RESOURCE; goto done; }
+    if (keep.n == 0) {
+        /* Rows of no field would be one empty line each: never what was meant. */
+        if (from)
+            cli_error("trim", "%s: the screen keeps no column and the summary has no target; "
+                      "nothing to write (add --carry, or loosen --q)", from);
+        else
+            cli_error("trim", "%s: the keep list names no column; nothing to write", keep_list);
+        goto done;
+    }
     out = sink_open(out_path, err, sizeof err);
     if (!out) { cli_error("trim", "%s", err); rc = EXIT_FAILED; goto done; }
     to.keep = keep.names;

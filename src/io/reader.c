@@ -8,6 +8,10 @@
  * first 50 lines of them), unless the stream ends first. */
 #define DETECT_BYTES (1u << 20)
 #define PULL_BYTES (1u << 20)
+/* Bytes at a file's start that the text check reads (reader_not_text). */
+#define TEXT_SAMPLE_BYTES (64u << 10)
+/* Share of control bytes in the sample above which it is not text. */
+#define TEXT_MAX_CONTROL_SHARE 0.01
 
 _Static_assert(CHUNK_PADDING >= CSV_READ_AHEAD, "chunks must be readable past their end");
 
@@ -21,11 +25,16 @@ struct reader {
     int at_file_start;    /* skip a BOM, detect the delimiter */
     size_t bom;           /* bytes of the byte-order mark at offset 0 */
     char delim;           /* the delimiter, 0 until known */
+    const char *not_text; /* why the file's first bytes are not text, or NULL */
     uint64_t stop_at;     /* records from here on are someone else's (0: none) */
     uint64_t lines_before; /* lines in the chunks before the current one */
     uint64_t absorbed;    /* stream offset after the last record absorbed */
     int stopped;          /* reached stop_at */
     int ended;            /* reader_finish was called */
+    source *src;          /* the source pulled from last (for its member starts) */
+    uint64_t *starts;     /* member and frame starts not yet handed out with a chunk */
+    size_t starts_at;     /* starts[0 .. starts_at) went out with the last chunk */
+    size_t nstarts, starts_cap;
     char err[4352];       /* the last error */
 };
 
@@ -52,6 +61,7 @@ void reader_free(reader *r)
     if (!r) return;
     chunker_free(r->ck);
     reader_cursor_free(&r->cur);
+    free(r->starts);
     free(r);
 }
 
@@ -61,11 +71,13 @@ void reader_start(reader *r, const char *name, int at_file_start, char delim, ui
     r->name = name;
     r->at_file_start = at_file_start;
     r->bom = 0;
+    r->not_text = NULL;
     r->delim = delim ? delim : r->o.delim;
     r->stop_at = stop_at;
     r->lines_before = 0;
     r->absorbed = 0;
     r->in_chunk = r->stopped = r->ended = 0;
+    r->nstarts = r->starts_at = 0;
     r->err[0] = '\0';
     if (r->delim && !at_file_start) chunker_set_dialect(r->ck, r->delim, 0);
 }
@@ -92,6 +104,19 @@ int reader_pull(reader *r, source *src)
     if (n < 0) { snprintf(r->err, sizeof r->err, "%s", source_error(src)); return -1; }
     if (n == 0) { reader_finish(r); return 0; }
     chunker_commit(r->ck, (size_t)n);
+    /* The starts among the bytes just read (and any decoded ahead). */
+    for (;;) {
+        if (r->nstarts == r->starts_cap) {
+            size_t cap = r->starts_cap ? 2 * r->starts_cap : 16;
+            uint64_t *p = realloc(r->starts, cap * sizeof *p);
+            if (!p) { snprintf(r->err, sizeof r->err, "out of memory"); return -1; }
+            r->starts = p;
+            r->starts_cap = cap;
+        }
+        size_t got = source_take_starts(src, r->starts + r->nstarts, r->starts_cap - r->nstarts);
+        r->nstarts += got;
+        if (r->nstarts < r->starts_cap) break;
+    }
     return 1;
 }
 
@@ -105,14 +130,45 @@ const char *reader_error(const reader *r) { return r->err; }
 char reader_delim(const reader *r) { return r->delim; }
 uint64_t reader_absorbed(const reader *r) { return r->absorbed; }
 
-/* At the start of a file: the byte-order mark and the delimiter, once
- * enough bytes are in.  Returns 0 when they are known, 1 to wait. */
+/* A control byte that text does not hold: C0 but tab, LF, CR, form feed and
+ * ESC (colour codes in logs), and DEL.  NUL is judged on its own. */
+static int stray_control(unsigned char c)
+{
+    return (c < 0x20 && c != '\t' && c != '\n' && c != '\r' && c != '\f' && c != 0x1b) ||
+           c == 0x7f;
+}
+
+/* Why the first bytes of a file are not text, or NULL.  Cheap: the first
+ * 64 KiB (fixed, so the verdict never depends on chunk or read sizes) and
+ * three rules that CSV never breaks: no NUL byte (binary data, UTF-16), a
+ * header line without stray control bytes, and at most 1% of them in the
+ * sample (random or compressed bytes hold about 10%).  Bytes above 0x7f are
+ * not judged: Latin-1 and other 8-bit text are text. */
+static const char *text_verdict(const char *p, size_t len)
+{
+    if (len > TEXT_SAMPLE_BYTES) len = TEXT_SAMPLE_BYTES;
+    if (memchr(p, 0, len)) return "NUL bytes";
+    const char *eol = memchr(p, '\n', len);
+    size_t head = eol ? (size_t)(eol - p) : len, controls = 0;
+    for (size_t i = 0; i < len; i++) {
+        if (!stray_control((unsigned char)p[i])) continue;
+        if (i < head) return "control characters in the header";
+        controls++;
+    }
+    if ((double)controls > TEXT_MAX_CONTROL_SHARE * (double)len) return "control characters";
+    return NULL;
+}
+
+/* At the start of a file: the byte-order mark, the delimiter and the text
+ * check, once enough bytes are in.  Returns 0 when they are known, 1 to
+ * wait. */
 static int dialect(reader *r)
 {
     size_t len;
     const char *p = chunker_pending(r->ck, &len);
-    if (!r->ended && len < (r->delim ? 3 : DETECT_BYTES)) return 1;
+    if (!r->ended && len < (r->delim ? TEXT_SAMPLE_BYTES : DETECT_BYTES)) return 1;
     size_t bom = csv_bom_length(p, len);
+    r->not_text = text_verdict(p + bom, len - bom);
     if (!r->delim) r->delim = csv_detect_delimiter(p + bom, len - bom);
     chunker_set_dialect(r->ck, r->delim, bom);
     r->bom = bom;
@@ -132,6 +188,20 @@ reader_status reader_next_chunk(reader *r, reader_chunk *out)
     out->offset = ch.offset;
     out->skip = ch.offset == 0 ? r->bom : 0;
     out->delim = r->delim;
+    /* The starts handed out with the previous chunk are done; this chunk's
+     * are those before its end. */
+    if (r->starts_at) {
+        memmove(r->starts, r->starts + r->starts_at,
+                (r->nstarts - r->starts_at) * sizeof *r->starts);
+        r->nstarts -= r->starts_at;
+    }
+    size_t from = 0;
+    while (from < r->nstarts && r->starts[from] < ch.offset) from++;
+    size_t to = from;
+    while (to < r->nstarts && r->starts[to] < ch.offset + ch.len) to++;
+    out->starts = r->nstarts ? r->starts + from : NULL;
+    out->nstarts = to - from;
+    r->starts_at = to;
     return READER_CHUNK;
 }
 
@@ -272,6 +342,24 @@ void reader_cursor_message(const reader_cursor *c, const char *name, uint64_t li
 }
 
 size_t reader_bom_length(const reader *r) { return r->bom; }
+const char *reader_not_text(const reader *r) { return r->not_text; }
+
+size_t reader_repeated_headers(const reader_chunk *ch, const char *head, size_t head_len,
+                               uint64_t *out, size_t max)
+{
+    size_t n = 0;
+    for (size_t i = 0; i < ch->nstarts && n < max; i++) {
+        size_t at = (size_t)(ch->starts[i] - ch->offset);
+        if (at < ch->skip || (at > 0 && ch->data[at - 1] != '\n')) continue;
+        const char *p = ch->data + at, *end = ch->data + ch->len;
+        p += csv_bom_length(p, (size_t)(end - p));
+        if ((size_t)(end - p) < head_len || memcmp(p, head, head_len) != 0) continue;
+        p += head_len;
+        if (p == end || *p == '\n' || (*p == '\r' && p + 1 < end && p[1] == '\n'))
+            out[n++] = ch->starts[i];
+    }
+    return n;
+}
 
 size_t reader_column_name(const csv_field *f, size_t i, int header, int raw, char *out)
 {
@@ -290,6 +378,7 @@ void reader_missing_init(reader_missing *m, const char *const *spellings, uint32
         m->spelling[i] = spellings[i];
         m->len[i] = l;
         if (l && l < 64) m->cand[(unsigned char)spellings[i][0]] |= 1ull << l;
+        if (l >= 64) m->long_spellings = 1; /* tested by the loop alone: rare and slow is fine */
     }
     for (int b = 0; b < 256; b++) m->cand[b] |= 1; /* the empty cell */
 }

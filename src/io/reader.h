@@ -105,6 +105,10 @@ typedef struct {
     uint64_t offset;  /* stream offset of data[0] */
     size_t skip;      /* bytes at data[0] that belong to no record (a byte-order mark) */
     char delim;       /* the delimiter */
+    const uint64_t *starts; /* stream offsets in [offset, offset + len) where a gzip member
+                               or zstd frame after the first begins (source_take_starts),
+                               ascending; valid as data is */
+    size_t nstarts;   /* how many */
 } reader_chunk;
 
 /* The next chunk of the stream instead of its records: READER_CHUNK with *out
@@ -164,11 +168,31 @@ uint64_t reader_absorbed(const reader *r);
 /* Bytes of the byte-order mark skipped at the start of the stream. */
 size_t reader_bom_length(const reader *r);
 
+/* Once the first chunk of a stream begun at its file's start is out: NULL
+ * when its first 64 KiB (after a byte-order mark) read as text, else why not
+ * ("NUL bytes", "control characters in the header", "control characters"
+ * in more than 1% of the bytes).  Tabs, CR LF, form feeds, ESC and bytes
+ * above 0x7f (UTF-8, Latin-1) are text.  The verdict is the caller's to act
+ * on; the reader reads the bytes either way. */
+const char *reader_not_text(const reader *r);
+
 /* The name of column i of a first record, as every pass names columns: the
  * field's text (unquoted first when raw), or "col<i+1>" when the field is
  * empty or the file has no header.  out needs f->len + 24 bytes; returns
  * the name's length (not terminated). */
 size_t reader_column_name(const csv_field *f, size_t i, int header, int raw, char *out);
+
+/* The records of a chunk that repeat the header of their file where one
+ * compressed member or frame ends and the next begins (`cat a.csv.gz
+ * b.csv.gz`): at each of ch->starts that begins a line, an optional UTF-8
+ * byte-order mark, then exactly the header's bytes head[0..head_len) (its
+ * line end excluded), then a line end or the chunk's end.  Writes their
+ * stream offsets (where the record starts) to out, at most max, ascending,
+ * and returns how many.  A start inside a quoted field can match only if
+ * that field's text repeats the header line; a pass skips a record only
+ * when one starts at such an offset, so it never skips part of a record. */
+size_t reader_repeated_headers(const reader_chunk *ch, const char *head, size_t head_len,
+                               uint64_t *out, size_t max);
 
 /* ---- the missing-cell test ---------------------------------------------- */
 
@@ -182,6 +206,7 @@ typedef struct {
      * missing (empty, or some spelling has that length and first byte);
      * every other cell is present after one test. */
     uint64_t cand[256];
+    int long_spellings;                       /* some spelling is 64 bytes or longer */
 } reader_missing;
 
 /* The empty cell is always missing; n <= READER_MAX_MISSING spellings more.
@@ -192,7 +217,7 @@ void reader_missing_init(reader_missing *m, const char *const *spellings, uint32
 static inline int reader_is_missing(const reader_missing *m, const char *p, uint32_t len)
 {
     unsigned char c0 = (unsigned char)p[0];
-    if (len >= 64 || !(m->cand[c0] >> len & 1)) return 0;
+    if (len >= 64 ? !m->long_spellings : !(m->cand[c0] >> len & 1)) return 0;
     if (len == 0) return 1;
     for (uint32_t i = 0; i < m->n; i++)
         if (m->len[i] == len && m->spelling[i][0] == p[0] && memcmp(m->spelling[i], p, len) == 0)

@@ -47,6 +47,10 @@ struct source {
     ZSTD_DStream *zs;         /* zstd state */
     size_t zs_hint;           /* last ZSTD_decompressStream result */
     int done;                 /* end of decoded input reached */
+    uint64_t decoded;         /* decompressed bytes produced so far */
+    uint64_t *starts;         /* offsets (in decoded bytes) of members or frames after the
+                                 first, not yet taken (source_take_starts) */
+    size_t nstarts, starts_cap;
     char err[512];            /* last error */
     struct ahead *ahead;      /* read-ahead thread (source_read_ahead), or NULL */
 };
@@ -76,6 +80,37 @@ struct ahead {
     int quit;                 /* source_close: stop */
     uint64_t consumed_raw;    /* raw offset of what was handed out */
 };
+
+/* Notes that a gzip member or zstd frame begins at decoded offset `at`.  Out
+ * of memory drops the note: a repeated header there is then read as data,
+ * as it was before starts were reported. */
+static void note_start(source *s, uint64_t at)
+{
+    if (at == 0) return;
+    if (s->ahead) pthread_mutex_lock(&s->ahead->mu);
+    if (!(s->nstarts && s->starts[s->nstarts - 1] == at)) {
+        if (s->nstarts == s->starts_cap) {
+            size_t cap = s->starts_cap ? 2 * s->starts_cap : 16;
+            uint64_t *p = realloc(s->starts, cap * sizeof *p);
+            if (p) { s->starts = p; s->starts_cap = cap; }
+        }
+        if (s->nstarts < s->starts_cap) s->starts[s->nstarts++] = at;
+    }
+    if (s->ahead) pthread_mutex_unlock(&s->ahead->mu);
+}
+
+size_t source_take_starts(source *s, uint64_t *out, size_t max)
+{
+    if (s->ahead) pthread_mutex_lock(&s->ahead->mu);
+    size_t n = s->nstarts < max ? s->nstarts : max;
+    if (n) {
+        memcpy(out, s->starts, n * sizeof *out);
+        memmove(s->starts, s->starts + n, (s->nstarts - n) * sizeof *out);
+        s->nstarts -= n;
+    }
+    if (s->ahead) pthread_mutex_unlock(&s->ahead->mu);
+    return n;
+}
 
 static void fail(source *s, const char *fmt, const char *detail)
 {
@@ -229,6 +264,7 @@ void source_close(source *s)
     if (s->hash) XXH3_freeState(s->hash);
     free(s->gz);
     if (s->zs) ZSTD_freeDStream(s->zs);
+    free(s->starts);
     free(s);
 }
 
@@ -297,6 +333,7 @@ static ssize_t read_gzip(source *s, uint8_t *buf, size_t cap)
                 return gzip_fail(s, "%s: unexpected bytes after a gzip member at byte %s",
                                  unread_offset(s));
             isal_inflate_reset(st);
+            note_start(s, s->decoded); /* produced is 0 here: a member starts a read */
             memset(&s->gz_header, 0, sizeof s->gz_header);
             isal_gzip_header_init(&s->gz_header);
             s->gz_in_member = 1;
@@ -376,6 +413,7 @@ static ssize_t read_zstd(source *s, uint8_t *buf, size_t cap)
             return -1;
         }
         s->zs_hint = rc;
+        if (rc == 0) note_start(s, s->decoded + out.pos); /* a frame ended: the next starts */
     }
     return (ssize_t)out.pos;
 }
@@ -392,6 +430,7 @@ static ssize_t decode(source *s, void *buf, size_t cap)
     default: n = read_plain(s, buf, cap); break;
     }
     if (n == 0) s->done = 1;
+    if (n > 0) s->decoded += (uint64_t)n;
     return n;
 }
 

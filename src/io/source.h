@@ -42,6 +42,14 @@ const char *source_error(const source *s);
  * reads stay on the caller's thread. */
 int source_read_ahead(source *s, size_t budget);
 
+/* Where a gzip member or a zstd frame after the first begins, as an offset in
+ * the decompressed stream (where `cat a.gz b.gz` put b's first byte): moves
+ * up to max of the offsets found so far, ascending, into out, and returns
+ * how many.  Offsets are reported once decoding reaches them, never later
+ * than the first byte after them is handed out by source_read; callers take
+ * them after each read.  A plain source has none. */
+size_t source_take_starts(source *s, uint64_t *out, size_t max);
+
 const char *source_path(const source *s);
 source_format source_kind(const source *s);
 const char *source_format_name(source_format f);

@@ -192,16 +192,21 @@ static int flush_block(projector *pj, project_slot *sl)
     return 0;
 }
 
+#define FIELD_AMBIGUOUS (SIZE_MAX - 1)
+
 /* Field index of a column name in a first record of nf raw fields (named as
- * the scan names them); SIZE_MAX when absent. */
+ * the scan names them); SIZE_MAX when absent, FIELD_AMBIGUOUS when several
+ * fields carry it. */
 static size_t header_find(const projector *pj, const csv_field *f, size_t nf, const char *name)
 {
-    size_t len = strlen(name);
+    size_t len = strlen(name), at = SIZE_MAX;
     for (size_t i = 0; i < nf; i++)
         if (reader_column_name(&f[i], i, pj->header, 1, pj->name) == len &&
-            memcmp(pj->name, name, len) == 0)
-            return i;
-    if (pj->header) return SIZE_MAX;
+            memcmp(pj->name, name, len) == 0) {
+            if (at != SIZE_MAX) return FIELD_AMBIGUOUS;
+            at = i;
+        }
+    if (at != SIZE_MAX || pj->header) return at;
     /* Without a header, colN names field N even past the first record's width. */
     char *end;
     if (strncmp(name, "col", 3) != 0 || name[3] < '1' || name[3] > '9') return SIZE_MAX;
@@ -228,6 +233,12 @@ static int map_header(void *ctx, size_t file, const char *path, const reader *rd
     for (size_t j = 0; j < pj->r->p; j++) {
         const char *name = summary_name(pj->s, pj->r->cols[j]);
         size_t at = header_find(pj, f, nf, name);
+        if (at == FIELD_AMBIGUOUS) {
+            snprintf(msg, msglen,
+                     "%s: line 1: '%s' names more than one column of the header (the PCA uses "
+                     "it); rename them to tell them apart", path, name);
+            return PROJECT_ERR_INPUT;
+        }
         if (at == SIZE_MAX) {
             snprintf(msg, msglen,
                      "%s: line 1: no column named '%s' in the header (the PCA uses it)", path, name);
@@ -237,6 +248,11 @@ static int map_header(void *ctx, size_t file, const char *path, const reader *rd
     }
     for (size_t c = 0; c < pj->ncarry; c++) {
         size_t at = header_find(pj, f, nf, pj->carry[c]);
+        if (at == FIELD_AMBIGUOUS) {
+            snprintf(msg, msglen, "%s: line 1: --carry: '%s' names more than one column of the "
+                     "header", path, pj->carry[c]);
+            return PROJECT_ERR_INPUT;
+        }
         if (at == SIZE_MAX) {
             snprintf(msg, msglen, "%s: line 1: --carry: no column named '%s'%s", path,
                      pj->carry[c], pj->header ? " in the header" : " (use col1..colN)");
@@ -375,6 +391,7 @@ project_status project_files(const summary *s, const pca_result *r, size_t k,
         .threads = o->threads,
         .same_delimiter = 0, /* the option's delimiter, or detected per file */
         .require_records = 1,
+        .header = o->header,
         .progress = o->progress,
         .progress_ctx = o->progress_ctx,
     };

@@ -17,7 +17,17 @@
 #define TAG_FILE_START 1u  /* the file's first chunk */
 #define TAG_FIRST 2u       /* the chunk's first record is the file's first */
 #define TAG_SKIP 4u        /* ... and the workers skip it */
-#define TAG_SHIFT 3        /* the file's index above these bits */
+#define TAG_RING_SHIFT 3   /* then the chunk's entry in the ring of repeated headers */
+#define TAG_RING_MASK 0xffffu
+#define TAG_SHIFT 19       /* the file's index above these bits */
+
+/* The repeated headers of a chunk in flight (reader_repeated_headers): the
+ * reading thread fills entry (push count mod ring) before the push, the
+ * chunk's worker reads it; more entries than chunks can be in flight. */
+typedef struct {
+    uint64_t *at;          /* stream offsets of the records to skip, ascending */
+    size_t n, cap;
+} repeats;
 
 typedef struct {
     const stream_options *o;
@@ -39,6 +49,11 @@ typedef struct {
     char *err;               /* the caller's message buffer */
     size_t errlen;
     char *msg;               /* the reading thread's message, until it is the run's */
+    repeats *ring;           /* per chunk in flight: its repeated headers */
+    unsigned nring;
+    uint64_t pushed;         /* chunks pushed */
+    char *head;              /* the current file's header line (raw, no line end), or NULL */
+    size_t head_len;
 } run;
 
 static int work(void *ctx, unsigned slot, pipeline_job *job)
@@ -47,12 +62,16 @@ static int work(void *ctx, unsigned slot, pipeline_job *job)
     reader_cursor *c = &r->cursors[slot];
     size_t file = (size_t)(job->tag >> TAG_SHIFT);
     int first = (job->tag & TAG_FIRST) != 0, skip = (job->tag & TAG_SKIP) != 0;
+    const repeats *rep = &r->ring[(job->tag >> TAG_RING_SHIFT) & TAG_RING_MASK];
+    size_t next_repeat = 0;
     reader_cursor_start(c, &job->ck, 0, 0);
     for (;;) {
         reader_record rec;
         reader_status st = reader_cursor_next(c, &rec);
         if (st == READER_RECORD) {
             if (first && skip) { first = 0; continue; }
+            while (next_repeat < rep->n && rep->at[next_repeat] < rec.offset) next_repeat++;
+            if (next_repeat < rep->n && rep->at[next_repeat] == rec.offset) continue;
             if (r->h->row(r->ctx, slot, file, &rec, first) != 0) return r->h->memory_error;
             first = 0;
         } else if (st == READER_ERROR) {
@@ -132,12 +151,40 @@ static int stream_file(run *r, size_t file)
                     if (frc) { rc = reading_failed(r, frc); break; }
                     if (!r->delim) r->delim = reader_delim(r->rd);
                     seen = 1;
+                    free(r->head);
+                    r->head = NULL;
+                    if (r->o->header) { /* recognized again where a member begins */
+                        r->head_len = (size_t)(rec.eol - rec.text);
+                        r->head = malloc(r->head_len ? r->head_len : 1);
+                        if (!r->head) {
+                            snprintf(r->msg, r->errlen, "out of memory");
+                            rc = reading_failed(r, h->memory_error);
+                            break;
+                        }
+                        memcpy(r->head, rec.text, r->head_len);
+                    }
                     tag |= TAG_FIRST | (skip ? TAG_SKIP : 0);
                 } else { /* READER_CHUNK_END: blank lines only */
                     lines += r->hcur.lines;
                 }
             }
-            rc = outcome(r, pipeline_push(r->p, &ch, tag));
+            unsigned e = (unsigned)(r->pushed++ % r->nring);
+            repeats *rep = &r->ring[e];
+            rep->n = 0;
+            if (ch.nstarts && r->head) {
+                if (ch.nstarts > rep->cap) {
+                    uint64_t *p = realloc(rep->at, ch.nstarts * sizeof *p);
+                    if (!p) {
+                        snprintf(r->msg, r->errlen, "out of memory");
+                        rc = reading_failed(r, h->memory_error);
+                        break;
+                    }
+                    rep->at = p;
+                    rep->cap = ch.nstarts;
+                }
+                rep->n = reader_repeated_headers(&ch, r->head, r->head_len, rep->at, rep->cap);
+            }
+            rc = outcome(r, pipeline_push(r->p, &ch, tag | (uint64_t)e << TAG_RING_SHIFT));
             tag = (uint64_t)file << TAG_SHIFT;
         } else if (st == READER_WANT) {
             int got = reader_pull(r->rd, src);
@@ -192,9 +239,11 @@ int stream_files(const stream_options *o, const stream_handler *h, void *ctx,
     if (r.p) {
         r.nslots = pipeline_slots(r.p);
         r.cursors = calloc(r.nslots, sizeof *r.cursors);
+        r.nring = 2 * r.nslots + 2 <= TAG_RING_MASK + 1 ? 2 * r.nslots + 2 : TAG_RING_MASK + 1;
+        r.ring = calloc(r.nring, sizeof *r.ring);
     }
     int rc = 0;
-    if (!r.msg || !r.rd || !r.p || !r.cursors || h->slots(ctx, r.nslots) != 0) {
+    if (!r.msg || !r.rd || !r.p || !r.cursors || !r.ring || h->slots(ctx, r.nslots) != 0) {
         snprintf(err, errlen, "out of memory");
         rc = h->memory_error;
     } else {
@@ -205,6 +254,9 @@ int stream_files(const stream_options *o, const stream_handler *h, void *ctx,
     pipeline_free(r.p); /* workers stopped before their cursors go */
     for (unsigned i = 0; r.cursors && i < r.nslots; i++) reader_cursor_free(&r.cursors[i]);
     free(r.cursors);
+    for (unsigned i = 0; r.ring && i < r.nring; i++) free(r.ring[i].at);
+    free(r.ring);
+    free(r.head);
     reader_cursor_free(&r.hcur);
     reader_free(r.rd);
     free(r.msg);

@@ -36,6 +36,9 @@ typedef struct {
     unsigned threads;        /* workers; 0 = pipeline_cpus(), 1 = none (all on the caller's thread) */
     int same_delimiter;      /* later files take the delimiter of the first file with a record */
     int require_records;     /* a file without a record is an input error */
+    int header;              /* each file's first record is a header: a line repeating it
+                                where a gzip member or zstd frame begins is no row
+                                (reader_repeated_headers) */
     /* Called on the reading thread after each read: raw bytes read so far
      * over all files, and the sum of the files' sizes (0 when unknown). */
     void (*progress)(void *ctx, uint64_t done_bytes, uint64_t total_bytes);

@@ -56,7 +56,7 @@ static int choose(trimmer *t, const char *path, const reader_record *rec, char *
     const trim_options *o = t->o;
     t->nfields = rec->nfields;
     t->pick = calloc(rec->nfields ? rec->nfields : 1, 1);
-    unsigned char *found = calloc(o->nkeep ? o->nkeep : 1, 1);
+    size_t *found = calloc(o->nkeep ? o->nkeep : 1, sizeof *found); /* 1 + the field */
     if (!t->pick || !found) { free(found); snprintf(msg, msglen, "out of memory"); return TRIM_ERR_MEMORY; }
     for (size_t i = 0; i < rec->nfields; i++) {
         const csv_field *f = &rec->fields[i];
@@ -69,8 +69,16 @@ static int choose(trimmer *t, const char *path, const reader_record *rec, char *
         size_t n = reader_column_name(f, i, o->header, 1, t->name);
         for (size_t k = 0; k < o->nkeep; k++)
             if (strlen(o->keep[k]) == n && memcmp(o->keep[k], t->name, n) == 0) {
+                if (found[k]) { /* two fields carry the name: which one is meant? */
+                    snprintf(msg, msglen,
+                             "%s: '%s' names more than one column of the header (fields %zu and "
+                             "%zu); rename them to tell them apart",
+                             path, o->keep[k], found[k], i + 1);
+                    free(found);
+                    return TRIM_ERR_USAGE;
+                }
                 t->pick[i] = 1;
-                found[k] = 1;
+                found[k] = i + 1;
             }
     }
     for (size_t k = 0; k < o->nkeep; k++)
@@ -211,6 +219,7 @@ trim_status trim_files(const trim_options *o, const char *const *paths, size_t n
         .threads = o->threads,
         .same_delimiter = 1,
         .require_records = 0,
+        .header = o->header,
         .progress = o->progress,
         .progress_ctx = o->progress_ctx,
     };

@@ -43,6 +43,14 @@ long corr_columns(const summary *s, double numeric_share, const char *names, siz
             snprintf(err, errlen, "'%.*s' is not a numeric column", (int)l, p);
             return -1;
         }
+        size_t named = 0;
+        for (size_t j = 0; l && j < summary_columns(s); j++)
+            named += strncmp(summary_name(s, j), p, l) == 0 && summary_name(s, j)[l] == '\0';
+        if (named > 1) {
+            snprintf(err, errlen, "'%.*s' names %zu columns (duplicate header names)", (int)l, p,
+                     named);
+            return -1;
+        }
         p += l + (e != NULL);
     }
     return (long)n;

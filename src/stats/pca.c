@@ -271,6 +271,15 @@ static long find_name(const name_entry *byname, size_t n, const char *name, size
     return -1;
 }
 
+/* How many columns carry a name (byname is sorted by name). */
+static size_t count_name(const name_entry *byname, size_t n, const char *name, size_t len)
+{
+    size_t count = 0;
+    for (size_t i = 0; i < n; i++)
+        count += strncmp(byname[i].name, name, len) == 0 && byname[i].name[len] == '\0';
+    return count;
+}
+
 /* Why column j cannot enter the basis (0: it can).  The target is judged by
  * the caller. */
 static int unusable(const summary *s, size_t j, const pca_options *o, int explicit_choice)
@@ -314,6 +323,11 @@ static int mark_names(const summary *s, const name_entry *byname, const char *li
         long j = find_name(byname, summary_columns(s), p, len);
         if (j < 0) {
             snprintf(err, errlen, "%s: no column named '%.*s' in the summary", what, (int)len, p);
+            return -1;
+        }
+        if (count_name(byname, summary_columns(s), p, len) > 1) {
+            snprintf(err, errlen, "%s: '%.*s' names more than one column (duplicate header names)",
+                     what, (int)len, p);
             return -1;
         }
         mark[j] = 1;

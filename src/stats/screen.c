@@ -74,8 +74,11 @@ static unsigned column_flags(const summary *s, size_t col, column_kind kind,
     double distinct = summary_distinct(s, col, &exact);
     double var = summary_variance(s, col);
     uint64_t numbers = summary_numbers(s, col);
-    if ((exact && distinct <= 1) || (kind == KIND_NUMERIC && numbers >= 2 && var == 0))
-        return flags | SCREEN_CONSTANT;
+    /* Constant only when the exact value table holds one value.  A variance
+     * of 0 over several distinct cells is the rounding of long numbers to a
+     * double (30-digit IDs that share 28 digits), not a constant; a table
+     * that overflowed holds more than max_levels values. */
+    if (exact && distinct <= 1) return flags | SCREEN_CONSTANT;
     values_entry top;
     if (summary_top(s, col, 1, &top) == 1 && (double)top.count >= o->near_constant * (double)present)
         flags |= SCREEN_NEAR_CONSTANT;

@@ -12,6 +12,7 @@ static const summary_column *column(const summary *s, size_t col) { return &s->c
 uint64_t summary_rows(const summary *s) { return s->rows; }
 uint64_t summary_bytes(const summary *s) { return s->bytes; }
 uint64_t summary_short_rows(const summary *s) { return s->short_rows; }
+uint64_t summary_repeated_headers(const summary *s) { return s->repeated_headers; }
 uint64_t summary_long_rows(const summary *s) { return s->long_rows; }
 
 size_t summary_ragged_lines(const summary *s, const uint64_t **lines)

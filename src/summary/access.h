@@ -30,6 +30,8 @@
 uint64_t summary_rows(const summary *s);        /* data rows */
 uint64_t summary_bytes(const summary *s);       /* decompressed bytes read */
 uint64_t summary_short_rows(const summary *s);  /* rows with too few fields */
+/* Header lines skipped where a gzip member or zstd frame began (not rows). */
+uint64_t summary_repeated_headers(const summary *s);
 uint64_t summary_long_rows(const summary *s);   /* rows with too many fields */
 /* Line numbers of the first ragged rows (at most SUMMARY_BAD_LINES): their
  * count, with *lines pointing into the summary. */

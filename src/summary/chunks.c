@@ -50,6 +50,9 @@ typedef struct {
     size_t cap;
     uint64_t seq;
     int first;              /* holds the stream's first record */
+    uint64_t *repeats;      /* stream offsets of repeated headers to skip (ascending) */
+    size_t nrepeats, repeats_cap;
+    uint64_t repeated;      /* T: repeated headers skipped */
     int t_state;
     /* T */
     reader_cursor cur;
@@ -132,6 +135,8 @@ static void tokenize(chunks *w, job *j)
     if (j->ck.len > UINT32_MAX - 64) { j->fault = FAULT_TOO_BIG; return; }
     reader_cursor_start(&j->cur, &j->ck, w->stop_at, j->first);
     int skip = j->first && w->o.header;
+    size_t next_repeat = 0;
+    j->repeated = 0;
     const int *field_of = w->o.field_of;
     const size_t ncols = w->ncols;
     const char *base = j->ck.data;
@@ -144,6 +149,11 @@ static void tokenize(chunks *w, job *j)
         }
         if (rs != READER_RECORD) return;
         if (skip) { skip = 0; continue; } /* the header, read by the reading thread */
+        while (next_repeat < j->nrepeats && j->repeats[next_repeat] < rec.offset) next_repeat++;
+        if (next_repeat < j->nrepeats && j->repeats[next_repeat] == rec.offset) {
+            j->repeated++; /* a header repeated where a compressed member begins */
+            continue;
+        }
         if (j->rows == j->rows_cap && grow_rows(w, j) != 0) { j->fault = FAULT_MEMORY; return; }
         size_t r = j->rows++, nfields = rec.nfields;
         cell *row = j->cells + r * ncols;
@@ -289,6 +299,7 @@ static scan_status rows_of(chunks *w, job *j)
         return SCAN_ERR_USAGE;
     }
     if (j->fault == FAULT_MEMORY) return out_of_memory(w);
+    s->repeated_headers += j->repeated;
     if (j->row_arrays_cap < j->rows_cap) { /* the tokenizer grew the chunk's rows */
         if (grow_row_arrays(w, j) != 0) return out_of_memory(w);
         j->row_arrays_cap = j->rows_cap;
@@ -595,6 +606,7 @@ void chunks_free(chunks *w)
         free(j->buf); free(j->cells); free(j->line); free(j->nf);
         free(j->row_cell); free(j->row_class); free(j->row_y); free(j->row_has_y);
         free(j->blocks); free(j->drop_map); free(j->drop_y); free(j->dev); free(j->present);
+        free(j->repeats);
         reader_cursor_free(&j->cur);
     }
     block_como_free(&w->bc);
@@ -616,9 +628,28 @@ void chunks_stream(chunks *w, const char *shown, uint64_t stop_at, uint64_t line
 }
 
 /* One thread: every task of the chunk now, on the caller's bytes. */
-static scan_status push_inline(chunks *w, const reader_chunk *c, int first)
+/* Keeps the offsets of the repeated headers to skip in the job. */
+static int set_repeats(job *j, const uint64_t *repeats, size_t n)
+{
+    if (n > j->repeats_cap) {
+        uint64_t *p = realloc(j->repeats, n * sizeof *p);
+        if (!p) return -1;
+        j->repeats = p;
+        j->repeats_cap = n;
+    }
+    if (n) memcpy(j->repeats, repeats, n * sizeof *repeats);
+    j->nrepeats = n;
+    return 0;
+}
+
+static scan_status push_inline(chunks *w, const reader_chunk *c, int first,
+                               const uint64_t *repeats, size_t nrepeats)
 {
     job *j = &w->jobs[0];
+    if (set_repeats(j, repeats, nrepeats) != 0) {
+        w->failed = out_of_memory(w);
+        return w->failed;
+    }
     j->ck = *c;
     j->first = first;
     j->seq = w->pushed++;
@@ -631,9 +662,11 @@ static scan_status push_inline(chunks *w, const reader_chunk *c, int first)
     return st;
 }
 
-scan_status chunks_push(chunks *w, const reader_chunk *c, int first)
+scan_status chunks_push(chunks *w, const reader_chunk *c, int first, const uint64_t *repeats,
+                        size_t nrepeats)
 {
-    if (!w->nthreads) return w->failed ? w->failed : push_inline(w, c, first);
+    if (!w->nthreads)
+        return w->failed ? w->failed : push_inline(w, c, first, repeats, nrepeats);
     pthread_mutex_lock(&w->mu);
     while (!w->failed && w->pushed - w->retired >= w->nslots)
         pthread_cond_wait(&w->done_cv, &w->mu);
@@ -643,21 +676,23 @@ scan_status chunks_push(chunks *w, const reader_chunk *c, int first)
     if (failed) return failed;
     job *j = slot_of(w, seq); /* free: nothing looks at it until it is pushed */
     size_t need = c->len + CHUNK_PADDING;
-    if (need > j->cap) {
-        char *nb = realloc(j->buf, need);
-        if (!nb) {
-            pthread_mutex_lock(&w->mu);
-            snprintf(w->err, sizeof w->err, "out of memory");
-            fail_locked(w, SCAN_ERR_MEMORY);
-            pthread_mutex_unlock(&w->mu);
-            return SCAN_ERR_MEMORY;
-        }
+    char *nb = need > j->cap ? realloc(j->buf, need) : j->buf;
+    if (nb && need > j->cap) {
         j->buf = nb;
         j->cap = need;
+    }
+    if (!nb || set_repeats(j, repeats, nrepeats) != 0) {
+        pthread_mutex_lock(&w->mu);
+        snprintf(w->err, sizeof w->err, "out of memory");
+        fail_locked(w, SCAN_ERR_MEMORY);
+        pthread_mutex_unlock(&w->mu);
+        return SCAN_ERR_MEMORY;
     }
     memcpy(j->buf, c->data, need); /* the padding too: zero past the data */
     j->ck = *c;
     j->ck.data = j->buf;
+    j->ck.starts = NULL; /* the reader's, gone by the time T runs */
+    j->ck.nstarts = 0;
     j->first = first;
     j->seq = seq;
     pthread_mutex_lock(&w->mu);

@@ -59,8 +59,13 @@ void chunks_free(chunks *w);
 void chunks_stream(chunks *w, const char *shown, uint64_t stop_at, uint64_t lines);
 /* Hands a chunk over (first: it holds the stream's first record, which the
  * caller has read: skipped when it is a header, exempt from the stop
- * offset).  Blocks while every slot is busy.  SCAN_OK or the failure. */
-scan_status chunks_push(chunks *w, const reader_chunk *c, int first);
+ * offset).  repeats: the stream offsets of the nrepeats records that repeat
+ * the header at a compressed member's start (reader_repeated_headers),
+ * ascending; they are skipped and counted in the summary's repeated_headers
+ * (copied: the caller's array may go).  Blocks while every slot is busy.
+ * SCAN_OK or the failure. */
+scan_status chunks_push(chunks *w, const reader_chunk *c, int first, const uint64_t *repeats,
+                        size_t nrepeats);
 /* Waits until every pushed chunk is in the summary.  SCAN_OK or the failure
  * (chunks_error tells). */
 scan_status chunks_wait(chunks *w);

@@ -134,7 +134,10 @@ static void encode_table(const summary *s, wire_writer *w)
     wire_put_u64(w, s->long_rows);
     wire_put_u32(w, s->n_bad_lines);
     for (uint32_t i = 0; i < s->n_bad_lines; i++) wire_put_u64(w, s->bad_lines[i]);
+    if (summary_file_version(s) >= 2) wire_put_u64(w, s->repeated_headers);
 }
+
+uint32_t summary_file_version(const summary *s) { return s->repeated_headers ? 2 : 1; }
 
 static void encode_columns(const summary *s, wire_writer *w)
 {
@@ -275,7 +278,7 @@ static void decode_sources(summary *s, wire_reader *r, decode_state *ds)
     }
 }
 
-static void decode_table(summary *s, wire_reader *r, decode_state *ds)
+static void decode_table(summary *s, wire_reader *r, decode_state *ds, uint32_t version)
 {
     s->rows = wire_get_u64(r);
     s->bytes = wire_get_u64(r);
@@ -284,6 +287,11 @@ static void decode_table(summary *s, wire_reader *r, decode_state *ds)
     s->n_bad_lines = wire_get_u32(r);
     if (s->n_bad_lines > SUMMARY_BAD_LINES) { r->failed = 1; s->n_bad_lines = 0; return; }
     for (uint32_t i = 0; i < s->n_bad_lines; i++) s->bad_lines[i] = wire_get_u64(r);
+    if (version >= 2) {
+        s->repeated_headers = wire_get_u64(r);
+        if (s->repeated_headers == 0)
+            broken(r, ds, "a count of 0 repeated headers in a version-2 file (written as version 1)");
+    }
     if (r->failed) return;
     uint64_t source_rows = 0;
     for (size_t i = 0; i < s->nsources; i++) {
@@ -533,7 +541,7 @@ summary_status summary_decode(const uint8_t *data, size_t len, summary **out, ch
         snprintf(err, errlen, "damaged summary (file checksum mismatch)");
         return SUMMARY_ERR_CORRUPT;
     }
-    if (version != SUMMARY_FORMAT_VERSION) {
+    if (version < 1) {
         snprintf(err, errlen, "unsupported summary format version %u", version);
         return SUMMARY_ERR_CORRUPT;
     }
@@ -564,7 +572,7 @@ summary_status summary_decode(const uint8_t *data, size_t len, summary **out, ch
         decode_state ds = {"", len - r.pos};
         if (k == 0) s = decode_schema(&p, &ds);
         else if (k == 1) decode_sources(s, &p, &ds);
-        else if (k == 2) decode_table(s, &p, &ds);
+        else if (k == 2) decode_table(s, &p, &ds, version);
         else if (k == 3) decode_target(s, &p, &ds);
         else if (k == 4) decode_columns(s, &p, &ds);
         else decode_comoments(s, &p, &ds);
@@ -635,7 +643,8 @@ static int write_sections(const summary *s, int fd)
 {
     uint8_t head[12];
     memcpy(head, MAGIC, sizeof MAGIC);
-    for (int i = 0; i < 4; i++) head[8 + i] = (uint8_t)(SUMMARY_FORMAT_VERSION >> (8 * i));
+    uint32_t version = summary_file_version(s);
+    for (int i = 0; i < 4; i++) head[8 + i] = (uint8_t)(version >> (8 * i));
     if (write_all(fd, head, sizeof head) != 0) return -1;
     void (*enc[])(const summary *, wire_writer *) = {encode_schema, encode_sources, encode_table,
                                                       encode_target, encode_columns,

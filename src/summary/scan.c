@@ -52,6 +52,10 @@ struct scan_context {
     size_t file_fields;    /* fields in the header */
     char **header;         /* the header's names (file_fields of them) */
     char *first_path;      /* the stream the header came from */
+    char *head_line;       /* the current stream's header line, raw, without its line end */
+    size_t head_len;       /* its bytes */
+    uint64_t *repeats;     /* scratch: a chunk's repeated headers */
+    size_t repeats_cap;
     char delim;            /* the delimiter of the first file */
     /* The current stream. */
     char *name;            /* its name (a path, or what the caller chose) */
@@ -121,7 +125,27 @@ static int in_list(char **items, int n, const char *name)
     return 0;
 }
 
-/* Checks every name in a list exists in the header. */
+/* Refuses a name that several header fields carry (an option could not
+ * say which it means).  0, or -1 with the message. */
+static int ambiguous(scan_context *sc, const char *opt, const char *name, char **names,
+                     size_t nnames)
+{
+    size_t first = 0, count = 0, second = 0;
+    for (size_t k = 0; k < nnames; k++)
+        if (strcmp(names[k], name) == 0) {
+            if (count == 0) first = k;
+            else if (count == 1) second = k;
+            count++;
+        }
+    if (count < 2) return 0;
+    snprintf(sc->err, sizeof sc->err,
+             "%s: '%s' names %zu columns of %s's header (fields %zu and %zu%s); rename them to "
+             "tell them apart",
+             opt, name, count, sc->first_path, first + 1, second + 1, count > 2 ? ", ..." : "");
+    return -1;
+}
+
+/* Checks every name in a list exists in the header, once. */
 static int check_names(scan_context *sc, const char *opt, char **items, int n, char **names,
                        size_t nnames)
 {
@@ -132,6 +156,56 @@ static int check_names(scan_context *sc, const char *opt, char **items, int n, c
             snprintf(sc->err, sizeof sc->err, "%s: no column named '%s' in the header", opt, items[i]);
             return -1;
         }
+        if (ambiguous(sc, opt, items[i], names, nnames)) return -1;
+    }
+    return 0;
+}
+
+typedef struct {
+    const char *name; /* a header name */
+    size_t field;     /* its field index */
+} named_field;
+
+static int named_field_cmp(const void *a, const void *b)
+{
+    const named_field *x = a, *y = b;
+    int c = strcmp(x->name, y->name);
+    return c ? c : (x->field > y->field) - (x->field < y->field);
+}
+
+/* Warns once (o.warn) when header names repeat, naming the file and them. */
+static int warn_duplicates(scan_context *sc, char **names, size_t nnames)
+{
+    if (!sc->o.warn || nnames < 2) return 0;
+    named_field *nf = malloc(nnames * sizeof *nf);
+    if (!nf) return -1;
+    for (size_t i = 0; i < nnames; i++) nf[i] = (named_field){names[i], i};
+    qsort(nf, nnames, sizeof *nf, named_field_cmp);
+    char msg[1024];
+    size_t used = 0, groups = 0;
+    for (size_t i = 0; i < nnames;) {
+        size_t e = i + 1;
+        while (e < nnames && strcmp(nf[e].name, nf[i].name) == 0) e++;
+        if (e - i > 1 && used < sizeof msg - 64) {
+            int w = snprintf(msg + used, sizeof msg - used, "%s'%.80s' (fields", groups ? ", " : "",
+                             nf[i].name);
+            used += w > 0 ? (size_t)w : 0;
+            for (size_t k = i; k < e && used < sizeof msg - 32; k++) {
+                w = snprintf(msg + used, sizeof msg - used, "%s %zu", k > i ? "," : "", nf[k].field + 1);
+                used += w > 0 ? (size_t)w : 0;
+            }
+            if (used < sizeof msg - 2) used += (size_t)snprintf(msg + used, sizeof msg - used, ")");
+            groups++;
+        }
+        i = e;
+    }
+    free(nf);
+    if (groups) {
+        char line[sizeof sc->shown + sizeof msg + 96];
+        snprintf(line, sizeof line,
+                 "%s: duplicate column name%s in the header: %s; options cannot name %s",
+                 sc->shown, groups > 1 ? "s" : "", msg, groups > 1 ? "them" : "it");
+        sc->o.warn(sc->o.warn_ctx, line);
     }
     return 0;
 }
@@ -149,6 +223,11 @@ static scan_status setup(scan_context *sc, char **names, size_t nnames)
     column_mode *modes = calloc(nnames ? nnames : 1, sizeof *modes);
     int *field_of = calloc(nnames ? nnames : 1, sizeof *field_of);
     if (nsel < 0 || nnum < 0 || ncat < 0 || nign < 0 || !cols || !modes || !field_of) {
+        snprintf(sc->err, sizeof sc->err, "out of memory");
+        st = SCAN_ERR_MEMORY;
+        goto done;
+    }
+    if (warn_duplicates(sc, names, nnames) != 0) {
         snprintf(sc->err, sizeof sc->err, "out of memory");
         st = SCAN_ERR_MEMORY;
         goto done;
@@ -181,6 +260,10 @@ static scan_status setup(scan_context *sc, char **names, size_t nnames)
     if (o->opt.target) {
         size_t t = 0;
         while (t < n && strcmp(cols[t], o->opt.target) != 0) t++;
+        if (t < n && ambiguous(sc, "--target", o->opt.target, names, nnames)) {
+            st = SCAN_ERR_USAGE;
+            goto done;
+        }
         if (t == n) {
             snprintf(sc->err, sizeof sc->err, "--target: no column named '%s' %s", o->opt.target,
                      in_list(ign, nign, o->opt.target) || nsel > 0 ? "among the scanned columns"
@@ -278,6 +361,14 @@ static scan_status head(scan_context *sc, const reader_chunk *ch, int *found)
 {
     reader_record rec;
     *found = 0;
+    const char *why = reader_not_text(sc->rd);
+    if (why && !sc->o.force) {
+        snprintf(sc->err, sizeof sc->err,
+                 "%s: not text (%s in the first 64 KiB): a binary file, UTF-16, or a compression "
+                 "sheaf does not read (it reads gzip and zstd); --force reads it anyway",
+                 sc->shown, why);
+        return fail(sc, SCAN_ERR_INPUT, NULL);
+    }
     reader_cursor_start(&sc->head, ch, 0, 0);
     reader_status rs = reader_cursor_next(&sc->head, &rec);
     if (rs == READER_CHUNK_END) return SCAN_OK; /* blank lines only */
@@ -295,6 +386,14 @@ static scan_status head(scan_context *sc, const reader_chunk *ch, int *found)
     }
     scan_status st = first_record(sc, rec.fields, rec.nfields);
     if (st != SCAN_OK) return st;
+    if (sc->o.header) { /* kept to recognize it where a compressed member begins */
+        size_t hl = (size_t)(rec.eol - rec.text);
+        char *p = realloc(sc->head_line, hl ? hl : 1);
+        if (!p) return fail(sc, SCAN_ERR_MEMORY, "out of memory");
+        memcpy(p, rec.text, hl);
+        sc->head_line = p;
+        sc->head_len = hl;
+    }
     *found = 1;
     sc->at_first = 0;
     sc->first_end = rec.end;
@@ -326,7 +425,18 @@ static scan_status drain(scan_context *sc)
             for (size_t i = 0; i < ch.len; i++) sc->blank_lines += ch.data[i] == '\n';
             continue;
         }
-        scan_status st = chunks_push(sc->work, &ch, first);
+        size_t nrep = 0;
+        if (ch.nstarts && sc->head_line) {
+            if (ch.nstarts > sc->repeats_cap) {
+                uint64_t *p = realloc(sc->repeats, ch.nstarts * sizeof *p);
+                if (!p) return fail(sc, SCAN_ERR_MEMORY, "out of memory");
+                sc->repeats = p;
+                sc->repeats_cap = ch.nstarts;
+            }
+            nrep = reader_repeated_headers(&ch, sc->head_line, sc->head_len, sc->repeats,
+                                           sc->repeats_cap);
+        }
+        scan_status st = chunks_push(sc->work, &ch, first, sc->repeats, nrep);
         if (st != SCAN_OK) return worked(sc, st);
     }
     return SCAN_OK;
@@ -426,6 +536,8 @@ void scan_free(scan_context *sc)
     free(sc->header);
     free(sc->field_of);
     free(sc->first_path);
+    free(sc->head_line);
+    free(sc->repeats);
     free(sc->name);
     if (sc->fed_hash) XXH3_freeState(sc->fed_hash);
     free(sc);

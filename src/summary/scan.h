@@ -45,6 +45,7 @@ typedef struct {
     char delim;               /* field delimiter, 0 = detect from the first chunk */
     int header;               /* first record holds the column names */
     int strict;               /* a row with too few or too many fields is an error */
+    int force;                /* read a file whose start is not text (reader_not_text) */
     size_t chunk_bytes;       /* target chunk size */
     size_t max_record_bytes;  /* longest record accepted */
     const char *columns;      /* comma-separated names to scan (NULL: all) */
@@ -60,6 +61,10 @@ typedef struct {
     /* Called after every chunk: raw bytes done and total (0 if unknown). */
     void (*progress)(void *ctx, uint64_t done_bytes, uint64_t total_bytes);
     void *progress_ctx;
+    /* Called (may be NULL) with a one-line warning that does not stop the
+     * scan: duplicate column names in the header, naming the file and them. */
+    void (*warn)(void *ctx, const char *message);
+    void *warn_ctx;
 } scan_options;
 
 /* Defaults: detect the delimiter, header on, 1 MiB chunks, 64 MiB records. */

@@ -40,11 +40,15 @@
 #include "acc/moments.h"
 #include "acc/values.h"
 
-#define SUMMARY_FORMAT_VERSION 1
+/* The newest format version this sheaf reads and writes.  A summary is
+ * written in the oldest version that holds it (summary_file_version): 1
+ * unless it counted repeated headers, so that older readers read it. */
+#define SUMMARY_FORMAT_VERSION 2
 #define SUMMARY_EXAMPLES 3        /* non-numeric examples kept per column */
 #define SUMMARY_EXAMPLE_BYTES 40  /* bytes kept of each example */
 #define SUMMARY_BAD_LINES 5       /* line numbers kept of ragged rows */
 #define SUMMARY_MAX_MISSING 32    /* missing-value spellings */
+#define SUMMARY_MAX_MISSING_BYTES 1024 /* bytes of one spelling (the reader refuses more) */
 #define SUMMARY_BLOCK_ROWS 256    /* rows per block fed to the accumulators */
 
 /* How a column was declared at scan time. */
@@ -127,6 +131,7 @@ typedef struct {
     uint64_t bytes;           /* decompressed bytes read */
     uint64_t short_rows;      /* rows with too few fields */
     uint64_t long_rows;       /* rows with too many fields */
+    uint64_t repeated_headers; /* header lines skipped where a compressed member began */
     uint32_t n_bad_lines;     /* kept line numbers of ragged rows */
     uint64_t bad_lines[SUMMARY_BAD_LINES];
     size_t nsources;
@@ -238,6 +243,9 @@ uint64_t summary_column_present(const summary_column *c);
  * file gets the mode a plain creat() would give it (0666 less the umask), and
  * the process umask is never touched. */
 summary_status summary_write(const summary *s, const char *path, char *err, size_t errlen);
+/* The format version s is written in: the oldest that holds it (1, or 2
+ * when it counted repeated headers).  Readers take 1 .. SUMMARY_FORMAT_VERSION. */
+uint32_t summary_file_version(const summary *s);
 /* Reads a summary file into a new, sealed summary. */
 summary_status summary_read(const char *path, summary **out, char *err, size_t errlen);
 /* Decodes a summary from the bytes of a file into a new, sealed summary. */

@@ -106,6 +106,7 @@ static void base_options(scan_options *o, char delim, size_t max_record)
     o->opt.label_bytes = 16;
     o->opt.bucket_budget = 64;
     o->delim = delim;
+    o->force = 1; /* binary inputs too: the text check would refuse most mutations */
     o->max_record_bytes = max_record;
     o->mem_limit_bytes = 64u << 20; /* wide headers fail alike in every run */
 }

@@ -1,0 +1,215 @@
+#!/usr/bin/env bash
+# Reading guards: inputs that used to give a silently wrong summary.
+#  1. a header repeated at the start of a gzip member or zstd frame
+#     (`cat a.csv.gz b.csv.gz`) or of a later file is skipped, counted and
+#     reported by info (text and JSON), the same at every -j and chunk size;
+#  2. a column whose exact value table holds several values is never flagged
+#     constant (30-digit IDs that round to one double);
+#  3. --missing spellings of 63, 64, 65 and 1024 bytes match; 1025 is refused;
+#  4. trim refuses an empty keep list;
+#  5. duplicate column names: one warning line at scan time, every name-based
+#     option refuses an ambiguous name with exit 2;
+#  6. input that is not text (random bytes, NUL bytes) stops the scan with
+#     exit 3 unless --force; real CSV (tabs, CRLF, Latin-1, a UTF-8 BOM,
+#     UTF-8 text) passes.
+# Expected counts are worked by hand from the inputs this script writes (the
+# outside reference: the inputs' own construction, counted with wc/grep).
+set -u
+cd "$(dirname "$0")/../.." || exit 1
+. tests/cli/common.sh
+cli_setup reading-guards || exit 0
+
+json_field() { # json_field FILE KEY: the first integer value of "KEY": in FILE
+    sed -n "s/^ *\"$2\": \([0-9]*\),*$/\1/p" "$1" | head -n 1
+}
+
+# ---- 1. repeated headers ---------------------------------------------------
+{
+    echo 'id,x,label'
+    for i in $(seq 1 200); do echo "$i,$((i % 7)).5,c$((i % 2))"; done
+} >"$T/a.csv"
+gzip -c "$T/a.csv" >"$T/a.csv.gz"
+cat "$T/a.csv.gz" "$T/a.csv.gz" >"$T/aa.csv.gz"
+zstd -q -c "$T/a.csv" >"$T/a.csv.zst"
+cat "$T/a.csv.zst" "$T/a.csv.zst" "$T/a.csv.zst" >"$T/aaa.csv.zst"
+# A member that does not start with the header: its first line is data.
+tail -n +2 "$T/a.csv" | gzip -c >"$T/body.csv.gz"
+cat "$T/a.csv.gz" "$T/body.csv.gz" >"$T/ab.csv.gz"
+# A header line in the middle of a member is data (only boundaries are checked).
+{ cat "$T/a.csv"; head -n 1 "$T/a.csv"; echo '201,1.5,c1'; } | gzip -c >"$T/mid.csv.gz"
+# A member boundary inside a record (bgzip-like): nothing skipped.
+head -c 1000 "$T/a.csv" | gzip -c >"$T/p1.gz"
+tail -c +1001 "$T/a.csv" | gzip -c >"$T/p2.gz"
+cat "$T/p1.gz" "$T/p2.gz" >"$T/split.csv.gz"
+# CRLF files and a byte-order mark at a member's start.
+sed 's/$/\r/' "$T/a.csv" | gzip -c >"$T/crlf.csv.gz"
+{ printf '\357\273\277'; cat "$T/a.csv"; } | gzip -c >"$T/bom.csv.gz"
+cat "$T/crlf.csv.gz" "$T/crlf.csv.gz" >"$T/crlf2.csv.gz"
+cat "$T/bom.csv.gz" "$T/bom.csv.gz" >"$T/bom2.csv.gz"
+
+# rows and repeated headers expected: 200 data rows per copy of a.csv.
+for c in "aa.csv.gz 400 1" "aaa.csv.zst 600 2" "ab.csv.gz 400 0" "mid.csv.gz 202 0" \
+         "split.csv.gz 200 0" "crlf2.csv.gz 400 1" "bom2.csv.gz 400 1"; do
+    set -- $c
+    run "$SHEAF" scan "$T/$1" --target label -q -o "$T/r.sheaf"
+    if [ "$RC" -ne 0 ]; then fail "repeat_header.$1" "scan exit $RC: $(err_text)"; continue; fi
+    "$SHEAF" info "$T/r.sheaf" --json >"$T/r.json" 2>/dev/null
+    rows=$(json_field "$T/r.json" rows)
+    rep=$(json_field "$T/r.json" repeated_headers)
+    levels=$(grep -c '"value": "label"' "$T/r.json")
+    if [ "$rows" = "$2" ] && [ "${rep:-0}" = "$3" ] && { [ "$1" = mid.csv.gz ] || [ "$levels" = 0 ]; }; then
+        pass "repeat_header.$1"
+    else
+        fail "repeat_header.$1" "rows $rows (want $2), repeated_headers ${rep:-absent} (want $3), class 'label' $levels times"
+    fi
+done
+# The text of info says how many header lines were skipped.
+"$SHEAF" scan "$T/aa.csv.gz" -q -o "$T/r.sheaf" 2>/dev/null
+"$SHEAF" info "$T/r.sheaf" >"$T/r.txt" 2>/dev/null
+check repeat_header.info_text "info does not report the skipped header line" \
+    grep -q 'repeated header lines skipped: 1' "$T/r.txt"
+# A merge adds the counts (sheaf's own scans as the reference: 1 + 2 lines).
+"$SHEAF" scan "$T/aaa.csv.zst" -q -o "$T/r3.sheaf" 2>/dev/null
+"$SHEAF" merge "$T/r.sheaf" "$T/r3.sheaf" -o "$T/rm.sheaf" 2>/dev/null
+"$SHEAF" info "$T/rm.sheaf" --json >"$T/rm.json" 2>/dev/null
+check repeat_header.merge_adds "merge does not add the counts ($(json_field "$T/rm.json" repeated_headers))" \
+    test "$(json_field "$T/rm.json" repeated_headers)" = 3
+# A summary without repeated headers keeps format version 1 (older readers
+# read it); one with them is version 2.
+"$SHEAF" scan "$T/a.csv.gz" -q -o "$T/one.sheaf" 2>/dev/null
+check repeat_header.version1_kept "a summary without repeated headers is not version 1" \
+    test "$(od -An -tu4 -j8 -N4 "$T/one.sheaf" | tr -d ' ')" = 1
+check repeat_header.version2 "a summary with repeated headers is not version 2" \
+    test "$(od -An -tu4 -j8 -N4 "$T/r.sheaf" | tr -d ' ')" = 2
+# Every -j and chunk size gives the same bytes; a later file's header is
+# skipped as before (each file's first record is its header).
+# (The bytes depend on the chunk size, where blocks of rows end; not on -j.)
+bad=
+for cs in 64 1K default; do
+    want=
+    copt=(); [ "$cs" != default ] && copt=(--chunk-size "$cs")
+    for j in 1 2 3; do
+        "$SHEAF" scan "$T/aaa.csv.zst" "$T/aa.csv.gz" --target label -j $j "${copt[@]}" -q -o "$T/t.sheaf" 2>/dev/null ||
+            bad="-j$j $cs failed"
+        h=$(sha256sum <"$T/t.sheaf" | cut -c1-16)
+        [ -z "$want" ] && want=$h
+        [ "$h" != "$want" ] && bad="-j$j --chunk-size $cs differs from -j1"
+    done
+done
+check repeat_header.same_bytes_every_j "$bad" test -z "$bad"
+"$SHEAF" info "$T/t.sheaf" --json >"$T/t.json" 2>/dev/null
+check repeat_header.multi_file "two files (3 + 2 copies): rows $(json_field "$T/t.json" rows), repeated $(json_field "$T/t.json" repeated_headers)" \
+    test "$(json_field "$T/t.json" rows)" = 1000 -a "$(json_field "$T/t.json" repeated_headers)" = 3
+"$SHEAF" scan "$T/a.csv" "$T/a.csv" -q -o "$T/f.sheaf" 2>/dev/null
+"$SHEAF" info "$T/f.sheaf" --json >"$T/f.json" 2>/dev/null
+check repeat_header.next_file_header "a.csv twice: rows $(json_field "$T/f.json" rows)" \
+    test "$(json_field "$T/f.json" rows)" = 400
+# trim and project skip the repeated header as the scan does.
+printf 'id\nx\n' >"$T/keep.txt"
+"$SHEAF" trim "$T/aa.csv.gz" --keep-list "$T/keep.txt" -q >"$T/trim.out" 2>/dev/null
+check repeat_header.trim "trim writes $(grep -c '^id,x' "$T/trim.out") header lines, $(wc -l <"$T/trim.out") lines" \
+    test "$(grep -c '^id,x' "$T/trim.out")" = 1 -a "$(wc -l <"$T/trim.out")" = 401
+
+# ---- 2. long integers are not constant ------------------------------------
+{
+    echo 'big,y'
+    for i in $(seq 10 59); do echo "1234567890123456789012345678$i,$((i % 3))"; done
+} >"$T/big.csv"
+"$SHEAF" scan "$T/big.csv" -q -o "$T/big.sheaf" 2>/dev/null
+"$SHEAF" screen "$T/big.sheaf" --format json >"$T/big.json" 2>/dev/null
+# 50 distinct texts (seq 10 59): the exact table has 50 values.
+if grep -q '"constant"' "$T/big.json"; then
+    fail constant.distinct_long_integers "flagged constant: $(grep -o '"flags": \[[^]]*\]' "$T/big.json" | head -n 1)"
+else
+    pass constant.distinct_long_integers
+fi
+printf 'c,y\n7,1\n7,2\n7,3\n' >"$T/const.csv"
+"$SHEAF" scan "$T/const.csv" -q -o "$T/const.sheaf" 2>/dev/null
+"$SHEAF" screen "$T/const.sheaf" --format json >"$T/const.json" 2>/dev/null
+check constant.one_value_still_constant "a column of one value is not flagged constant" \
+    grep -q '"constant"' "$T/const.json"
+
+# ---- 3. long --missing spellings ------------------------------------------
+for n in 63 64 65 1024; do
+    s=$(head -c "$n" /dev/zero | tr '\0' 'm')
+    { echo 'v'; echo 1; echo "$s"; echo 2; } >"$T/m.csv"
+    run "$SHEAF" scan "$T/m.csv" --missing "$s" -q -o "$T/m.sheaf"
+    "$SHEAF" info "$T/m.sheaf" --json >"$T/m.json" 2>/dev/null
+    check "missing.spelling_${n}_bytes" "exit $RC, missing $(json_field "$T/m.json" missing) (want 1)" \
+        test "$RC" = 0 -a "$(json_field "$T/m.json" missing)" = 1
+done
+s=$(head -c 1025 /dev/zero | tr '\0' 'm')
+run "$SHEAF" scan "$T/m.csv" --missing "$s" -q -o "$T/m2.sheaf"
+check missing.spelling_1025_refused "exit $RC: $(err_text)" \
+    test "$RC" = 2 -a ! -e "$T/m2.sheaf" -a "$(wc -l <"$T/err")" = 1
+
+# ---- 4. trim with nothing to keep ------------------------------------------
+printf '# nothing\n\n' >"$T/empty.txt"
+run "$SHEAF" trim "$T/a.csv" --keep-list "$T/empty.txt" -q
+check trim.empty_keep_list_refused "exit $RC, $(wc -c <"$T/out") bytes out: $(err_text)" \
+    test "$RC" = 2 -a ! -s "$T/out" -a "$(wc -l <"$T/err")" = 1
+
+# ---- 5. duplicate column names ---------------------------------------------
+printf 'a,b,a\n1,x,10\n2,y,20\n3,x,30\n' >"$T/dup.csv"
+run "$SHEAF" scan "$T/dup.csv" -q -o "$T/dup.sheaf"
+check dup.scan_warns "exit $RC, stderr: $(err_text)" \
+    test "$RC" = 0 -a "$(wc -l <"$T/err")" = 1 -a "$(grep -c "dup.csv.*duplicate column name.*'a'" "$T/err")" = 1
+run "$SHEAF" scan "$T/dup.csv" --target a -q -o "$T/dupt.sheaf"
+check dup.scan_target_refused "exit $RC: $(err_text)" test "$RC" = 2 -a ! -e "$T/dupt.sheaf"
+run "$SHEAF" scan "$T/dup.csv" --target b -q -o "$T/dupb.sheaf"
+check dup.scan_unique_target_ok "exit $RC: $(err_text)" test "$RC" = 0
+for opt in --columns --numeric --categorical --ignore; do
+    run "$SHEAF" scan "$T/dup.csv" $opt a -q -o "$T/dupo.sheaf"
+    check "dup.scan${opt}_refused" "exit $RC: $(err_text)" test "$RC" = 2
+done
+printf 'a\n' >"$T/keep_a.txt"
+run "$SHEAF" trim "$T/dup.csv" --keep-list "$T/keep_a.txt" -q
+check dup.trim_keep_refused "exit $RC: $(err_text)" test "$RC" = 2 -a ! -s "$T/out"
+run "$SHEAF" trim "$T/dup.csv" --keep-list "$T/keep_a.txt" --carry b -q
+check dup.trim_carry_refused "exit $RC: $(err_text)" test "$RC" = 2
+printf 'b\n' >"$T/keep_b.txt"
+run "$SHEAF" trim "$T/dup.csv" --keep-list "$T/keep_b.txt" -q
+check dup.trim_unique_ok "exit $RC, out: $(tr '\n' '|' <"$T/out")" \
+    test "$RC" = 0 -a "$(tr '\n' '|' <"$T/out")" = 'b|x|y|x|'
+# corr, pca and project on a summary of a table with duplicate names (40 rows).
+{ echo 'a,b,a'; for i in $(seq 1 40); do echo "$i,$(((i * 7) % 13)),$(((i * 5) % 11))"; done; } >"$T/dup40.csv"
+"$SHEAF" scan "$T/dup40.csv" -q -o "$T/dup40.sheaf" 2>/dev/null
+run "$SHEAF" corr "$T/dup40.sheaf" --columns a,b
+check dup.corr_columns_refused "exit $RC: $(err_text)" test "$RC" = 2 -a "$(grep -c "'a' names 2 columns" "$T/err")" = 1
+run "$SHEAF" corr "$T/dup40.sheaf"
+check dup.corr_unnamed_ok "exit $RC: $(err_text)" test "$RC" = 0
+run "$SHEAF" pca "$T/dup40.sheaf" --columns a,b
+check dup.pca_columns_refused "exit $RC: $(err_text)" test "$RC" = 2 -a "$(grep -c "'a' names more than one" "$T/err")" = 1
+run "$SHEAF" project "$T/dup40.csv" --pca "$T/dup40.sheaf" -q
+check dup.project_refused "exit $RC: $(err_text)" test "$RC" = 3 -a "$(grep -c "'a' names more than one" "$T/err")" = 1
+
+# ---- 6. input that is not text ---------------------------------------------
+head -c 1048576 /dev/urandom >"$T/random.bin"
+run "$SHEAF" scan "$T/random.bin" -q -o "$T/rnd.sheaf"
+check binary.random_refused "exit $RC: $(err_text)" \
+    test "$RC" = 3 -a ! -e "$T/rnd.sheaf" -a "$(wc -l <"$T/err")" = 1
+check binary.message_says_not_text "$(err_text)" grep -q 'random.bin.*not text' "$T/err"
+run "$SHEAF" scan "$T/random.bin" --force -q -o "$T/rnd.sheaf"
+check binary.force_scans "exit $RC: $(err_text)" test "$RC" = 0 -a -e "$T/rnd.sheaf"
+gzip -c "$T/random.bin" >"$T/random.bin.gz"
+run "$SHEAF" scan "$T/random.bin.gz" -q -o "$T/rnd.sheaf"
+check binary.random_gzip_refused "exit $RC: $(err_text)" test "$RC" = 3
+{ printf 'a,b\n'; for i in $(seq 1 100); do printf '%d,x\0y\n' "$i"; done; } >"$T/nul.csv"
+run "$SHEAF" scan "$T/nul.csv" -q -o "$T/nul.sheaf"
+check binary.nul_bytes_refused "exit $RC: $(err_text)" test "$RC" = 3
+# UTF-16 text (NUL in every other byte) is not read as text either.
+printf 'a,b\n1,2\n' | iconv -f UTF-8 -t UTF-16LE >"$T/u16.csv"
+run "$SHEAF" scan "$T/u16.csv" -q -o "$T/u16.sheaf"
+check binary.utf16_refused "exit $RC: $(err_text)" test "$RC" = 3
+# Real CSV passes: tabs, CRLF, Latin-1 bytes, a UTF-8 BOM, UTF-8 text, quoted
+# newlines, a few stray control bytes (an ESC colour code in a log line).
+{
+    printf '\357\273\277name\tcity\tnote\r\n'
+    for i in $(seq 1 300); do printf 'n%d\tZ\374rich\t"two\r\nlines \342\202\254"\r\n' "$i"; done
+    printf 'x\t\033[31mred\033[0m\tok\r\n'
+} >"$T/real.tsv"
+run "$SHEAF" scan "$T/real.tsv" -q -o "$T/real.sheaf"
+check binary.real_text_passes "exit $RC: $(err_text)" test "$RC" = 0
+printf 'a\001b,c\n1,2\n' >"$T/ctlhead.csv"
+run "$SHEAF" scan "$T/ctlhead.csv" -q -o "$T/ctl.sheaf"
+check binary.control_in_header_refused "exit $RC: $(err_text)" test "$RC" = 3
