@@ -333,6 +333,8 @@ summary_status summary_decode(const uint8_t *data, size_t len, summary **out, ch
     }
     const uint32_t want[] = {TAG_SCHEMA, TAG_SOURCES, TAG_TABLE, TAG_TARGET, TAG_COLUMNS,
                              TAG_COMOMENTS};
+    static const char *const SECTION_NAMES[] = {"schema",  "sources", "table",
+                                                "target",  "columns", "co-moments"};
     summary *s = NULL;
     for (int k = 0; k < 6; k++) {
         uint32_t tag = wire_get_u32(&r);
@@ -351,6 +353,9 @@ summary_status summary_decode(const uint8_t *data, size_t len, summary **out, ch
         }
         wire_reader p;
         wire_reader_init(&p, payload, plen);
+        /* A failed allocation sets errno to ENOMEM (nothing else the
+         * decoders call does): that is a resource limit, not damage. */
+        errno = 0;
         if (k == 0) s = decode_schema(&p);
         else if (k == 1) decode_sources(s, &p);
         else if (k == 2) decode_table(s, &p);
@@ -358,9 +363,14 @@ summary_status summary_decode(const uint8_t *data, size_t len, summary **out, ch
         else if (k == 4) decode_columns(s, &p);
         else decode_comoments(s, &p);
         if (p.failed || p.pos != p.len || !s) {
-            snprintf(err, errlen, "damaged summary (section %d does not parse)", k + 1);
+            int nomem = errno == ENOMEM;
+            if (nomem)
+                snprintf(err, errlen, "out of memory while decoding section %d (%s)", k + 1,
+                         SECTION_NAMES[k]);
+            else
+                snprintf(err, errlen, "damaged summary (section %d does not parse)", k + 1);
             summary_free(s);
-            return SUMMARY_ERR_CORRUPT;
+            return nomem ? SUMMARY_ERR_MEMORY : SUMMARY_ERR_CORRUPT;
         }
     }
     if (r.pos != len - 20) {
@@ -369,7 +379,7 @@ summary_status summary_decode(const uint8_t *data, size_t len, summary **out, ch
         return SUMMARY_ERR_CORRUPT;
     }
     if (summary_seal(s) != 0) {
-        snprintf(err, errlen, "out of memory");
+        snprintf(err, errlen, "out of memory while sealing the summary (sorting bucket stores)");
         summary_free(s);
         return SUMMARY_ERR_MEMORY;
     }
@@ -510,8 +520,15 @@ summary_status summary_read(const char *path, summary **out, char *err, size_t e
     size_t len = (size_t)st.st_size;
     /* Mapped, not copied: a summary of thousands of columns is hundreds of MB. */
     void *map = len ? mmap(NULL, len, PROT_READ, MAP_PRIVATE, fd, 0) : NULL;
+    int map_errno = errno;
     close(fd);
     if (len && map == MAP_FAILED) {
+        errno = map_errno;
+        if (errno == ENOMEM) {
+            snprintf(err, errlen, "%s: out of memory: no room to map its %.1f MiB", path,
+                     len / 1048576.0);
+            return SUMMARY_ERR_MEMORY;
+        }
         snprintf(err, errlen, "%s: cannot map: %s", path, strerror(errno));
         return SUMMARY_ERR_IO;
     }
