@@ -46,6 +46,8 @@
  */
 #include "acc/comoment.h"
 
+#include "acc/blas.h"
+
 #include <cblas.h>
 #include <limits.h>
 #include <math.h>
@@ -392,6 +394,7 @@ int comoment_add_block(comoment *c, const double *x, const double *mask, const d
 {
     if (rows == 0 || c->p == 0) return 0;
     if (rows > c->max_rows) return -1;
+    if (blas_thread_ready() != 0) return -2;
     const size_t p = c->p;
     const int n_rows = (int)rows, n_cols = (int)p;
 

@@ -27,7 +27,8 @@
  * Memory: the state keeps, for each unordered pair {i <= j}, n, c and the
  * mean and m2 of both columns: 3 p (p + 1) doubles (packed triangles).  A
  * state that adds blocks also holds scratch for one block, allocated once:
- * 4 p^2 + 2 max_rows p + 3 p doubles.  comoment_add_block allocates nothing.
+ * 4 p^2 + 2 max_rows p + 3 p doubles.  comoment_add_block allocates nothing
+ * itself; OpenBLAS takes its working buffer on a thread's first call.
  * The BLAS calls run with whatever threading the host gave its BLAS: this
  * module never changes it (the sheaf command sets OpenBLAS to one thread at
  * start, in src/cli/main.c, since its blocks are small and its parallelism
@@ -74,7 +75,9 @@ uint64_t comoment_bytes(size_t p, size_t max_rows);
  * one core (p = 500, rows = 256): 2.1 ms with no missing cell, 2.5 ms with
  * 5 incomplete columns, 3.5 ms with 1% and 10 ms with 20% of all cells
  * missing.
- * Returns 0 (rows == 0 is a no-op), or -1 when rows > max_rows. */
+ * Returns 0 (rows == 0 is a no-op), -1 when rows > max_rows, or -2 when
+ * OpenBLAS's working buffer does not fit in this thread (acc/blas.h: the
+ * state is unchanged). */
 int comoment_add_block(comoment *c, const double *x, const double *mask, const double *center,
                        const unsigned char *complete, size_t rows);
 

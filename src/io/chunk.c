@@ -90,7 +90,7 @@ char *chunker_space(chunker *c, size_t *room, char *err, size_t errlen)
             return NULL;
         }
         char *p = realloc(c->buf, cap + 1 + CHUNK_PADDING);
-        if (!p) { snprintf(err, errlen, "%s: out of memory", c->name); return NULL; }
+        if (!p) { snprintf(err, errlen, "%s: out of memory", c->name); errno = ENOMEM; return NULL; }
         c->buf = p;
         c->cap = cap;
     }

@@ -1,6 +1,7 @@
 /* reader: see reader.h. */
 #include "io/reader.h"
 
+#include <errno.h>
 #include <stdio.h>
 #include <stdlib.h>
 
@@ -22,6 +23,7 @@ struct reader {
     reader_chunk ch;      /* the current chunk */
     int in_chunk;         /* ch is being tokenized */
     const char *name;     /* the stream's name */
+    int nomem;            /* the error was a failed allocation */
     int at_file_start;    /* skip a BOM, detect the delimiter */
     size_t bom;           /* bytes of the byte-order mark at offset 0 */
     char delim;           /* the delimiter, 0 until known */
@@ -98,10 +100,15 @@ size_t reader_feed(reader *r, const void *data, size_t len)
 int reader_pull(reader *r, source *src)
 {
     size_t room;
+    errno = 0;
     char *p = chunker_space(r->ck, &room, r->err, sizeof r->err);
-    if (!p) return -1;
+    if (!p) { r->nomem = errno == ENOMEM; return -1; }
     ssize_t n = source_read(src, p, room < PULL_BYTES ? room : PULL_BYTES);
-    if (n < 0) { snprintf(r->err, sizeof r->err, "%s", source_error(src)); return -1; }
+    if (n < 0) {
+        r->nomem = errno == ENOMEM;
+        snprintf(r->err, sizeof r->err, "%s", source_error(src));
+        return -1;
+    }
     if (n == 0) { reader_finish(r); return 0; }
     chunker_commit(r->ck, (size_t)n);
     /* The starts among the bytes just read (and any decoded ahead). */
@@ -127,6 +134,7 @@ void reader_finish(reader *r)
 }
 
 const char *reader_error(const reader *r) { return r->err; }
+int reader_out_of_memory(const reader *r) { return r->nomem; }
 char reader_delim(const reader *r) { return r->delim; }
 uint64_t reader_absorbed(const reader *r) { return r->absorbed; }
 

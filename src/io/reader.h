@@ -159,6 +159,9 @@ void reader_cursor_message(const reader_cursor *c, const char *name, uint64_t li
                            char *buf, size_t len);
 
 const char *reader_error(const reader *r);
+/* After READER_ERROR: 1 when the cause was a failed allocation (out of
+ * memory), not the input. */
+int reader_out_of_memory(const reader *r);
 /* The delimiter in use (0 before it is known). */
 char reader_delim(const reader *r);
 /* Stream offset just after the last record absorbed: the end of the last

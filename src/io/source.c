@@ -33,6 +33,7 @@ struct source {
     int owns_fd;              /* close fd on source_close */
     char *path;               /* as given ("-" for stdin) */
     source_format kind;       /* detected format */
+    int nomem;                /* the error was a failed allocation (errno ENOMEM after it) */
     uint8_t *raw;             /* raw input buffer */
     size_t raw_len, raw_pos;  /* bytes in raw, next unconsumed */
     int raw_eof;              /* read() returned 0 */
@@ -186,13 +187,13 @@ static int detect(source *s, char *err, size_t errlen)
     if (s->raw_len >= 2 && m[0] == 0x1f && m[1] == 0x8b) {
         s->kind = SOURCE_GZIP;
         s->gz = malloc(sizeof *s->gz);
-        if (!s->gz) { snprintf(err, errlen, "%s: out of memory", s->path); return -1; }
+        if (!s->gz) { snprintf(err, errlen, "%s: out of memory", s->path); errno = ENOMEM; return -1; }
         isal_inflate_init(s->gz);
         s->gz_in_member = 0;
     } else if (s->raw_len >= 4 && m[0] == 0x28 && m[1] == 0xb5 && m[2] == 0x2f && m[3] == 0xfd) {
         s->kind = SOURCE_ZSTD;
         s->zs = ZSTD_createDStream();
-        if (!s->zs) { snprintf(err, errlen, "%s: out of memory", s->path); return -1; }
+        if (!s->zs) { snprintf(err, errlen, "%s: out of memory", s->path); errno = ENOMEM; return -1; }
         ZSTD_initDStream(s->zs);
     } else {
         s->kind = SOURCE_PLAIN;
@@ -221,9 +222,15 @@ source *source_open(const char *path, char *err, size_t errlen)
     if (!s) {
         snprintf(err, errlen, "%s: out of memory", path);
         if (owns) close(fd);
+        errno = ENOMEM;
         return NULL;
     }
-    if (detect(s, err, errlen) != 0) { source_close(s); return NULL; }
+    if (detect(s, err, errlen) != 0) {
+        int e = errno;
+        source_close(s);
+        errno = e;
+        return NULL;
+    }
     return s;
 }
 
@@ -436,7 +443,9 @@ static ssize_t decode(source *s, void *buf, size_t cap)
 
 ssize_t source_read(source *s, void *buf, size_t cap)
 {
-    return s->ahead ? ahead_read(s, buf, cap) : decode(s, buf, cap);
+    ssize_t n = s->ahead ? ahead_read(s, buf, cap) : decode(s, buf, cap);
+    if (n < 0) errno = s->nomem ? ENOMEM : EIO;
+    return n;
 }
 
 static void *ahead_main(void *arg)
@@ -451,7 +460,10 @@ static void *ahead_main(void *arg)
         if (quit) break;
         ahead_block *b = malloc(sizeof *b + AHEAD_BLOCK);
         ssize_t n = -1;
-        if (!b) snprintf(s->err, sizeof s->err, "%s: out of memory", s->path);
+        if (!b) {
+            snprintf(s->err, sizeof s->err, "%s: out of memory", s->path);
+            s->nomem = 1;
+        }
         else n = decode(s, b->data, AHEAD_BLOCK);
         pthread_mutex_lock(&a->mu);
         if (n > 0) {

@@ -162,7 +162,7 @@ static void *grow(void *p, size_t *cap, size_t need, size_t size)
 static int flush_block(projector *pj, project_slot *sl)
 {
     if (!sl->rows) return 0;
-    pca_project(pj->r, pj->k, sl->x, sl->rows, sl->scores);
+    if (pca_project(pj->r, pj->k, sl->x, sl->rows, sl->scores) != 0) return -1;
     void *g = grow(sl->row, &sl->rows_cap, sl->nrows + sl->rows, sizeof *sl->row);
     if (!g) return -1;
     sl->row = g;

@@ -6,6 +6,8 @@
  */
 #include "pass/stream.h"
 
+#include "acc/blas.h"
+
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -95,7 +97,8 @@ static int commit(void *ctx, unsigned slot, pipeline_job *job, int work_rc)
         return c->fault == READER_FAULT_NOMEM ? r->h->memory_error : r->h->input_error;
     }
     if (work_rc) {
-        snprintf(r->err, r->errlen, "out of memory");
+        snprintf(r->err, r->errlen,
+                 "out of memory: a worker's row buffers, or %s, did not fit", blas_buffer_what());
         return work_rc;
     }
     r->lines_before += c->lines;

@@ -33,6 +33,8 @@
  * blocks of rows with cblas_dgemm.
  */
 #include "stats/pca.h"
+
+#include "acc/blas.h"
 #include "summary/access.h"
 
 #include <cblas.h>
@@ -88,6 +90,7 @@ int pca_eigen(double *a, size_t p, double *values, double *vectors)
 {
     if (p == 0) return 0;
     lapack_int n = (lapack_int)p, m = 0;
+    if (blas_thread_ready() != 0) return -1001;
     lapack_int *isuppz = malloc(2 * p * sizeof *isuppz);
     if (!isuppz) return -1000;
     /* Column-major 'L' reads the row-major upper triangle: the same numbers
@@ -225,10 +228,11 @@ size_t pca_leading(const pca_result *r, size_t comp, size_t m, size_t *idx)
     return n;
 }
 
-void pca_project(const pca_result *r, size_t k, double *x, size_t rows, double *scores)
+int pca_project(const pca_result *r, size_t k, double *x, size_t rows, double *scores)
 {
     size_t p = r->p;
-    if (!rows || !k) return;
+    if (!rows || !k) return 0;
+    if (blas_thread_ready() != 0) return -1;
     for (size_t i = 0; i < rows; i++) {
         double *row = x + i * p;
         for (size_t j = 0; j < p; j++) {
@@ -238,6 +242,7 @@ void pca_project(const pca_result *r, size_t k, double *x, size_t rows, double *
     }
     cblas_dgemm(CblasRowMajor, CblasNoTrans, CblasTrans, (int)rows, (int)k, (int)p, 1.0, x,
                 (int)p, r->loadings, (int)p, 0.0, scores, (int)k);
+    return 0;
 }
 
 /* ---- choosing columns --------------------------------------------------- */
@@ -462,8 +467,9 @@ pca_status pca_fit(const summary *s, const pca_options *o, pca_result **out, cha
     free(a);
     if (info != 0) {
         pca_result_free(r);
-        if (info == -1000) {
-            snprintf(err, errlen, "out of memory");
+        if (info == -1000 || info == -1001) {
+            snprintf(err, errlen, "out of memory: %s",
+                     info == -1000 ? "LAPACK's work space" : blas_buffer_what());
             return PCA_ERR_MEMORY;
         }
         snprintf(err, errlen, "LAPACK dsyevr failed (info %d) on the %zu x %zu matrix", info, p, p);

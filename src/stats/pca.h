@@ -146,7 +146,8 @@ size_t pca_leading(const pca_result *r, size_t comp, size_t m, size_t *idx);
  * x is rows x p row-major in basis-column order: the raw values, NaN for a
  * missing or non-numeric cell.  x is overwritten with the standardised
  * values ((x - center) * factor, 0 for NaN: mean imputation), then
- * scores = x L with cblas_dgemm, scores rows x k row-major. */
-void pca_project(const pca_result *r, size_t k, double *x, size_t rows, double *scores);
+ * scores = x L with cblas_dgemm, scores rows x k row-major.  0, or -1 when
+ * OpenBLAS's working buffer does not fit in this thread (acc/blas.h). */
+int pca_project(const pca_result *r, size_t k, double *x, size_t rows, double *scores);
 
 #endif

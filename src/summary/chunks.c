@@ -21,6 +21,7 @@
 
 #include "io/number.h"
 #include "io/number_simd.h"
+#include "acc/blas.h"
 #include "summary/block.h"
 #include "summary/column.h"
 
@@ -97,8 +98,12 @@ struct chunks {
     size_t *group_at;
     int r_busy, c_busy, quit;
     unsigned started;       /* workers that took an id */
+    unsigned no_blas;       /* workers whose BLAS buffer did not fit (acc/blas.h): they
+                               never take a co-moment task */
+    int all_made;           /* every worker thread was created (nthreads is final) */
     scan_status failed;
-    char err[4608];
+    char err[4608];         /* the first failure's message (under the lock) */
+    char r_err[4608];       /* the row task's message, written by that task only */
     /* R's state (one R at a time) */
     const char *shown;
     uint64_t stop_at;
@@ -210,16 +215,17 @@ static int grow_row_arrays(chunks *w, job *j)
     return cell && cls && y && hy && (!p || (dev && pr)) ? 0 : -1;
 }
 
-/* The failures of the row task, with their messages in w->err. */
+/* The failures of the row task, with their messages in w->r_err. */
 static scan_status out_of_memory(chunks *w)
 {
-    snprintf(w->err, sizeof w->err, "out of memory");
+    snprintf(w->r_err, sizeof w->r_err, "out of memory: the row index of a %zu-row chunk",
+             w->jobs ? w->jobs[0].rows_cap : (size_t)0);
     return SCAN_ERR_MEMORY;
 }
 
 static scan_status too_many_classes(chunks *w, uint64_t line)
 {
-    snprintf(w->err, sizeof w->err,
+    snprintf(w->r_err, sizeof w->r_err,
              "%s: line %llu: target '%s' has more than %u classes; raise --max-classes or use "
              "--task regress",
              w->shown, (unsigned long long)line, w->run->opt.target, w->run->opt.max_classes);
@@ -228,7 +234,7 @@ static scan_status too_many_classes(chunks *w, uint64_t line)
 
 static scan_status ragged_row(chunks *w, uint64_t line, size_t nf)
 {
-    snprintf(w->err, sizeof w->err, "%s: line %llu: %zu fields, the header has %zu (--strict)",
+    snprintf(w->r_err, sizeof w->r_err, "%s: line %llu: %zu fields, the header has %zu (--strict)",
              w->shown, (unsigned long long)line, nf, w->o.width);
     return SCAN_ERR_INPUT;
 }
@@ -289,11 +295,11 @@ static scan_status rows_of(chunks *w, job *j)
     summary *s = w->run;
     j->nblocks = 0;
     if (j->fault == FAULT_READER) {
-        reader_cursor_message(&j->cur, w->shown, w->lines, w->err, sizeof w->err);
+        reader_cursor_message(&j->cur, w->shown, w->lines, w->r_err, sizeof w->r_err);
         return SCAN_ERR_INPUT;
     }
     if (j->fault == FAULT_TOO_BIG) {
-        snprintf(w->err, sizeof w->err,
+        snprintf(w->r_err, sizeof w->r_err,
                  "%s: a chunk of %zu bytes is over the 4 GiB a chunk may hold; lower "
                  "--chunk-size or --max-record", w->shown, j->ck.len);
         return SCAN_ERR_USAGE;
@@ -385,11 +391,15 @@ static int column_block(chunks *w, job *j, size_t col, const block_span *sp, blo
 
 /* A group of columns through the chunk, block by block (the block's rows
  * stay in cache while its columns are fed). */
-static int group_of(chunks *w, job *j, size_t g, block_lane *l)
+static int group_of(chunks *w, job *j, size_t g, block_lane *l, char *msg, size_t msglen)
 {
     for (size_t b = 0; b < j->nblocks; b++)
         for (size_t i = w->group_at[g]; i < w->group_at[g + 1]; i++)
-            if (column_block(w, j, w->group_cols[i], &j->blocks[b], l) != 0) return -1;
+            if (column_block(w, j, w->group_cols[i], &j->blocks[b], l) != 0) {
+                snprintf(msg, msglen, "out of memory: the accumulators of column '%s' grew past it",
+                         w->run->cols[w->group_cols[i]].name);
+                return -1;
+            }
     return 0;
 }
 
@@ -441,7 +451,7 @@ static scan_status fail_locked(chunks *w, scan_status st)
 }
 
 /* The oldest ready task.  Under the lock. */
-static task_kind pick(chunks *w, unsigned id, uint64_t *seq, size_t *col)
+static task_kind pick(chunks *w, unsigned id, uint64_t *seq, size_t *col, int blas)
 {
     if (w->failed) return TASK_NONE;
     if (!w->r_busy && w->r_next < w->pushed && slot_of(w, w->r_next)->t_state == T_DONE) {
@@ -460,7 +470,7 @@ static task_kind pick(chunks *w, unsigned id, uint64_t *seq, size_t *col)
             best = g;
     }
     if (best == (size_t)-1) best = any;
-    if (w->ncomo && !w->c_busy && w->c_next < min_g(w) &&
+    if (w->ncomo && blas && !w->c_busy && w->c_next < min_g(w) &&
         (best == (size_t)-1 || w->c_next <= w->g_next[best])) {
         w->c_busy = 1;
         *seq = w->c_next;
@@ -480,28 +490,33 @@ static task_kind pick(chunks *w, unsigned id, uint64_t *seq, size_t *col)
     return TASK_NONE;
 }
 
-/* Runs a task outside the lock; returns its status. */
-static scan_status run_task(chunks *w, task_kind t, uint64_t seq, size_t col, block_lane *lane)
+/* Runs a task outside the lock; returns its status.  A failing task leaves
+ * its message in msg (the row task: in w->r_err); finish_task keeps the
+ * first. */
+static scan_status run_task(chunks *w, task_kind t, uint64_t seq, size_t col, block_lane *lane,
+                            char *msg, size_t msglen)
 {
     job *j = slot_of(w, seq);
     switch (t) {
     case TASK_T: tokenize(w, j); return SCAN_OK;
     case TASK_R: return rows_of(w, j);
     case TASK_G:
-        if (group_of(w, j, col, lane) == 0) return SCAN_OK;
-        snprintf(w->err, sizeof w->err, "out of memory");
+        if (group_of(w, j, col, lane, msg, msglen) == 0) return SCAN_OK;
         return SCAN_ERR_MEMORY;
     case TASK_C:
         if (comoments_of(w, j) == 0) return SCAN_OK;
-        snprintf(w->err, sizeof w->err, "out of memory");
+        snprintf(msg, msglen, "out of memory: %s does not fit", blas_buffer_what());
         return SCAN_ERR_MEMORY;
     default: return SCAN_OK;
     }
 }
 
 /* After a task: its counters.  Under the lock. */
-static void finish_task(chunks *w, task_kind t, uint64_t seq, size_t col, scan_status st)
+static void finish_task(chunks *w, task_kind t, uint64_t seq, size_t col, scan_status st,
+                        const char *msg)
 {
+    if (st != SCAN_OK && !w->failed)
+        snprintf(w->err, sizeof w->err, "%s", t == TASK_R ? w->r_err : msg);
     switch (t) {
     case TASK_T: slot_of(w, seq)->t_state = T_DONE; break;
     case TASK_R: w->r_busy = 0; if (st == SCAN_OK) w->r_next++; break;
@@ -516,26 +531,44 @@ static void finish_task(chunks *w, task_kind t, uint64_t seq, size_t col, scan_s
     if (w->failed) pthread_cond_broadcast(&w->done_cv);
 }
 
+/* Fails the scan when no worker can run the co-moment task.  Under the lock. */
+static void no_blas_worker(chunks *w)
+{
+    if (w->ncomo && w->all_made && w->nthreads && w->no_blas == w->nthreads && !w->failed) {
+        snprintf(w->err, sizeof w->err, "out of memory: %s does not fit", blas_buffer_what());
+        fail_locked(w, SCAN_ERR_MEMORY);
+    }
+}
+
 static void *worker(void *arg)
 {
     chunks *w = arg;
     block_lane lane;
+    char msg[600] = "";
     int ok = block_lane_init(&lane) == 0;
+    /* OpenBLAS takes a buffer per thread on its first call, and hangs when
+     * it cannot: a worker whose buffer does not fit leaves the co-moments to
+     * the others. */
+    int blas = !w->ncomo || blas_thread_ready() == 0;
     pthread_mutex_lock(&w->mu);
     unsigned id = w->started++;
     if (!ok) {
-        snprintf(w->err, sizeof w->err, "out of memory");
+        snprintf(w->err, sizeof w->err, "out of memory: a worker thread's column scratch");
         fail_locked(w, SCAN_ERR_MEMORY);
+    }
+    if (!blas) {
+        w->no_blas++;
+        no_blas_worker(w);
     }
     while (ok && !w->quit) {
         uint64_t seq;
         size_t col = 0;
-        task_kind t = pick(w, id, &seq, &col);
+        task_kind t = pick(w, id, &seq, &col, blas);
         if (t == TASK_NONE) { pthread_cond_wait(&w->work_cv, &w->mu); continue; }
         pthread_mutex_unlock(&w->mu);
-        scan_status st = run_task(w, t, seq, col, &lane);
+        scan_status st = run_task(w, t, seq, col, &lane, msg, sizeof msg);
         pthread_mutex_lock(&w->mu);
-        finish_task(w, t, seq, col, st);
+        finish_task(w, t, seq, col, st, msg);
     }
     pthread_mutex_unlock(&w->mu);
     block_lane_free(&lane);
@@ -585,11 +618,17 @@ chunks *chunks_create(const chunks_options *o)
         return NULL;
     }
     for (unsigned i = 0; i < w->nslots; i++) reader_cursor_init(&w->jobs[i].cur, o->ro);
+    unsigned made = 0;
     if (threads > 1)
         for (unsigned i = 0; i < threads; i++) {
-            if (pthread_create(&w->threads[w->nthreads], NULL, worker, w) != 0) break;
-            w->nthreads++;
+            if (pthread_create(&w->threads[made], NULL, worker, w) != 0) break;
+            made++;
         }
+    pthread_mutex_lock(&w->mu);
+    w->nthreads = made;
+    w->all_made = 1;
+    no_blas_worker(w);
+    pthread_mutex_unlock(&w->mu);
     return w;
 }
 
@@ -654,11 +693,16 @@ static scan_status push_inline(chunks *w, const reader_chunk *c, int first,
     j->first = first;
     j->seq = w->pushed++;
     tokenize(w, j);
+    char msg[600] = "";
     scan_status st = rows_of(w, j);
+    const char *why = st != SCAN_OK ? w->r_err : msg;
     for (size_t g = 0; st == SCAN_OK && g < w->ngroups; g++)
-        st = run_task(w, TASK_G, j->seq, g, &w->inline_lane);
-    if (st == SCAN_OK && w->ncomo) st = run_task(w, TASK_C, j->seq, 0, NULL);
-    if (st != SCAN_OK) w->failed = st;
+        st = run_task(w, TASK_G, j->seq, g, &w->inline_lane, msg, sizeof msg);
+    if (st == SCAN_OK && w->ncomo) st = run_task(w, TASK_C, j->seq, 0, NULL, msg, sizeof msg);
+    if (st != SCAN_OK) {
+        w->failed = st;
+        snprintf(w->err, sizeof w->err, "%s", why);
+    }
     return st;
 }
 
@@ -683,7 +727,9 @@ scan_status chunks_push(chunks *w, const reader_chunk *c, int first, const uint6
     }
     if (!nb || set_repeats(j, repeats, nrepeats) != 0) {
         pthread_mutex_lock(&w->mu);
-        snprintf(w->err, sizeof w->err, "out of memory");
+        if (!w->failed)
+            snprintf(w->err, sizeof w->err, "out of memory: %s",
+                     nb ? "the list of repeated headers in a chunk" : "a chunk buffer");
         fail_locked(w, SCAN_ERR_MEMORY);
         pthread_mutex_unlock(&w->mu);
         return SCAN_ERR_MEMORY;

@@ -570,6 +570,9 @@ summary_status summary_decode(const uint8_t *data, size_t len, summary **out, ch
         wire_reader p;
         wire_reader_init(&p, payload, (size_t)plen);
         decode_state ds = {"", len - r.pos};
+        /* A failed allocation sets errno to ENOMEM (nothing else the
+         * decoders call does): that is a resource limit, not damage. */
+        errno = 0;
         if (k == 0) s = decode_schema(&p, &ds);
         else if (k == 1) decode_sources(s, &p, &ds);
         else if (k == 2) decode_table(s, &p, &ds, version);
@@ -577,14 +580,18 @@ summary_status summary_decode(const uint8_t *data, size_t len, summary **out, ch
         else if (k == 4) decode_columns(s, &p, &ds);
         else decode_comoments(s, &p, &ds);
         if (p.failed || p.pos != p.len || !s) {
+            int nomem = !ds.why[0] && errno == ENOMEM;
             if (ds.why[0])
                 snprintf(err, errlen, "damaged summary (section %d %s: %s)", k + 1, names[k],
                          ds.why);
+            else if (nomem)
+                snprintf(err, errlen, "out of memory while decoding section %d %s", k + 1,
+                         names[k]);
             else
                 snprintf(err, errlen, "damaged summary (section %d %s does not parse)", k + 1,
                          names[k]);
             summary_free(s);
-            return SUMMARY_ERR_CORRUPT;
+            return nomem ? SUMMARY_ERR_MEMORY : SUMMARY_ERR_CORRUPT;
         }
     }
     if (r.pos != len - 20) {
@@ -593,7 +600,7 @@ summary_status summary_decode(const uint8_t *data, size_t len, summary **out, ch
         return SUMMARY_ERR_CORRUPT;
     }
     if (summary_seal(s) != 0) {
-        snprintf(err, errlen, "out of memory");
+        snprintf(err, errlen, "out of memory while sealing the summary (sorting bucket stores)");
         summary_free(s);
         return SUMMARY_ERR_MEMORY;
     }
@@ -727,8 +734,15 @@ summary_status summary_read(const char *path, summary **out, char *err, size_t e
     size_t len = (size_t)st.st_size;
     /* Mapped, not copied: a summary of thousands of columns is hundreds of MB. */
     void *map = len ? mmap(NULL, len, PROT_READ, MAP_PRIVATE, fd, 0) : NULL;
+    int map_errno = errno;
     close(fd);
     if (len && map == MAP_FAILED) {
+        errno = map_errno;
+        if (errno == ENOMEM) {
+            snprintf(err, errlen, "%s: out of memory: no room to map its %.1f MiB", path,
+                     len / 1048576.0);
+            return SUMMARY_ERR_MEMORY;
+        }
         snprintf(err, errlen, "%s: cannot map: %s", path, strerror(errno));
         return SUMMARY_ERR_IO;
     }

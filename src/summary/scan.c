@@ -9,6 +9,7 @@
  */
 #include "summary/scan.h"
 
+#include <errno.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -223,7 +224,7 @@ static scan_status setup(scan_context *sc, char **names, size_t nnames)
     column_mode *modes = calloc(nnames ? nnames : 1, sizeof *modes);
     int *field_of = calloc(nnames ? nnames : 1, sizeof *field_of);
     if (nsel < 0 || nnum < 0 || ncat < 0 || nign < 0 || !cols || !modes || !field_of) {
-        snprintf(sc->err, sizeof sc->err, "out of memory");
+        snprintf(sc->err, sizeof sc->err, "out of memory: the list of %zu columns", nnames);
         st = SCAN_ERR_MEMORY;
         goto done;
     }
@@ -286,7 +287,7 @@ static scan_status setup(scan_context *sc, char **names, size_t nnames)
     }
     sc->run = summary_create(&o->opt, n, cols, modes, 1);
     if (!sc->run) {
-        snprintf(sc->err, sizeof sc->err, "out of memory");
+        snprintf(sc->err, sizeof sc->err, "out of memory: the accumulators of %zu columns", n);
         st = SCAN_ERR_MEMORY;
         goto done;
     }
@@ -294,7 +295,8 @@ static scan_status setup(scan_context *sc, char **names, size_t nnames)
     field_of = NULL;
     sc->file_fields = nnames;
     if (start_work(sc) != 0) {
-        snprintf(sc->err, sizeof sc->err, "out of memory");
+        snprintf(sc->err, sizeof sc->err,
+                 "out of memory: the chunk buffers and worker threads of the scan");
         st = SCAN_ERR_MEMORY;
         goto done;
     }
@@ -408,7 +410,9 @@ static scan_status drain(scan_context *sc)
         reader_chunk ch;
         reader_status rs = reader_next_chunk(sc->rd, &ch);
         if (rs == READER_WANT) return SCAN_OK;
-        if (rs == READER_ERROR) return fail(sc, SCAN_ERR_INPUT, reader_error(sc->rd));
+        if (rs == READER_ERROR)
+            return fail(sc, reader_out_of_memory(sc->rd) ? SCAN_ERR_MEMORY : SCAN_ERR_INPUT,
+                        reader_error(sc->rd));
         if (rs == READER_END) { sc->done = 1; break; }
         int first = 0;
         if (sc->at_first) {
@@ -612,9 +616,10 @@ scan_status scan_source(scan_context *sc, source *src)
 static scan_status scan_file(scan_context *sc, const char *path, uint64_t from, uint64_t stop_at)
 {
     if (sc->failed) return sc->failed;
+    errno = 0;
     source *src = from ? source_open_at(path, from, sc->err, sizeof sc->err)
                        : source_open(path, sc->err, sizeof sc->err);
-    if (!src) return fail(sc, SCAN_ERR_INPUT, NULL);
+    if (!src) return fail(sc, errno == ENOMEM ? SCAN_ERR_MEMORY : SCAN_ERR_INPUT, NULL);
     scan_status st = begin(sc, path, from, stop_at);
     if (st == SCAN_OK) st = pull(sc, src, from);
     source_close(src);
@@ -637,8 +642,9 @@ static scan_status scan_shard(scan_context *sc, const char *path)
     sc->shard_start = lo;
     sc->shard_end = hi;
     /* A check that the file is plain. */
+    errno = 0;
     source *probe = source_open(path, sc->err, sizeof sc->err);
-    if (!probe) return fail(sc, SCAN_ERR_INPUT, NULL);
+    if (!probe) return fail(sc, errno == ENOMEM ? SCAN_ERR_MEMORY : SCAN_ERR_INPUT, NULL);
     source_format kind = source_kind(probe);
     source_close(probe);
     if (kind != SOURCE_PLAIN) {
@@ -710,12 +716,16 @@ summary *scan_finish(scan_context *sc)
 #define READ_AHEAD_CHUNKS 2
 #define READ_AHEAD_MIN_THREADS 3
 
-static source *open_ahead(scan_context *sc, const char *path, char *err, size_t errlen)
+static source *open_ahead(scan_context *sc, const char *path, char *err, size_t errlen,
+                          int *nomem)
 {
+    errno = 0;
     source *src = source_open(path, err, errlen);
+    *nomem = !src && errno == ENOMEM;
     if (src && source_read_ahead(src, READ_AHEAD_CHUNKS * sc->o.chunk_bytes) != 0) {
         source_close(src);
-        snprintf(err, errlen, "out of memory");
+        snprintf(err, errlen, "%s: out of memory: the read-ahead thread", path);
+        *nomem = 1;
         return NULL;
     }
     return src;
@@ -724,16 +734,18 @@ static source *open_ahead(scan_context *sc, const char *path, char *err, size_t 
 static scan_status read_ahead(scan_context *sc, const char *const *paths, size_t npaths)
 {
     char next_err[sizeof sc->err];
-    source *next = npaths ? open_ahead(sc, paths[0], next_err, sizeof next_err) : NULL;
+    int next_nomem = 0;
+    source *next = npaths ? open_ahead(sc, paths[0], next_err, sizeof next_err, &next_nomem) : NULL;
     scan_status st = SCAN_OK;
     for (size_t i = 0; st == SCAN_OK && i < npaths; i++) {
         source *src = next;
         if (!src) {
-            st = fail(sc, strcmp(next_err, "out of memory") ? SCAN_ERR_INPUT : SCAN_ERR_MEMORY,
-                      next_err);
+            st = fail(sc, next_nomem ? SCAN_ERR_MEMORY : SCAN_ERR_INPUT, next_err);
             break;
         }
-        next = i + 1 < npaths ? open_ahead(sc, paths[i + 1], next_err, sizeof next_err) : NULL;
+        next = i + 1 < npaths
+                   ? open_ahead(sc, paths[i + 1], next_err, sizeof next_err, &next_nomem)
+                   : NULL;
         st = scan_source(sc, src);
         source_close(src);
     }
