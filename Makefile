@@ -99,10 +99,11 @@ check-sanitize: deps-check
 	    tests/run.sh $(ASAN_TEST_BIN)
 
 # The part of it that `make test` runs: every unit suite, the quick CLI suites.
+ASAN_QUICK_RUN = $(ASAN_ENV) SHEAF_BIN=$(ASAN_DIR)/sheaf SHEAF_TEST_LOGS=build/test-logs/asan \
+                 SHEAF_TEST_SCRIPTS="$(ASAN_QUICK_SCRIPTS)" tests/run.sh $(ASAN_TEST_BIN)
 check-sanitize-quick: deps-check
 	@$(MAKE) --no-print-directory sanitize-build
-	@$(ASAN_ENV) SHEAF_BIN=$(ASAN_DIR)/sheaf SHEAF_TEST_LOGS=build/test-logs/asan \
-	    SHEAF_TEST_SCRIPTS="$(ASAN_QUICK_SCRIPTS)" tests/run.sh $(ASAN_TEST_BIN)
+	@$(ASAN_QUICK_RUN)
 
 # Fuzzing (tests/fuzz/, DEVELOPERS.md "Fuzzing"): every tests/fuzz/fuzz_NAME.c
 # is a libFuzzer target, build/fuzz/fuzz_NAME (clang, libFuzzer, ASan and
@@ -158,10 +159,10 @@ deps:
 
 # The suites, then the sanitized quick subset (both always run).
 test: deps-check
-	@$(MAKE) --no-print-directory all $(TEST_BIN) $(DEMO_BIN)
+	@$(MAKE) --no-print-directory all $(TEST_BIN) $(DEMO_BIN) sanitize-build
 	@tests/run.sh $(TEST_BIN); rc=$$?; \
 	echo "-- under AddressSanitizer and UndefinedBehaviorSanitizer (build/asan/):"; \
-	$(MAKE) --no-print-directory check-sanitize-quick || rc=1; exit $$rc
+	$(ASAN_QUICK_RUN) || rc=1; exit $$rc
 
 demo: deps-check
 	@$(MAKE) --no-print-directory all $(DEMO_BIN)
