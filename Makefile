@@ -140,7 +140,7 @@ replay-build: $(REPLAY_BIN)
 # 900) of libFuzzer per harness with a random seed.  FUZZ_ONLY=NAME... picks
 # harnesses.
 fuzz: deps-check
-	@FUZZ_SECONDS=$(FUZZ_SECONDS) bash tests/cli/test_fuzz_bounded.sh
+	@FUZZ_SECONDS=$(FUZZ_SECONDS) FUZZ_ONLY="$(FUZZ_ONLY)" bash tests/cli/test_fuzz_bounded.sh
 
 # Quick check: dpkg-query over the list; apt-get only when something is missing.
 deps-check:
