@@ -23,7 +23,8 @@ TEST_SRC := $(wildcard tests/test_*.c)
 TEST_BIN := $(TEST_SRC:tests/%.c=build/tests/%)
 DEMO_BIN := build/demo/generate
 
-.PHONY: all deps deps-check test demo bench clean fuzz
+.PHONY: all deps deps-check test demo bench clean fuzz fuzz-build replay-build \
+        sanitize-build check-sanitize check-sanitize-quick
 all: sheaf libsheaf.a
 
 libsheaf.a: $(LIB_OBJ)
@@ -45,31 +46,101 @@ $(DEMO_BIN): demo/generate.c
 	@mkdir -p $(dir $@)
 	$(CC) $(CFLAGS) -O2 -o $@ $< $(LDLIBS)
 
-# Fuzzing (tests/fuzz/, DEVELOPERS.md "Fuzzing"): the library built again with
-# clang's libFuzzer, AddressSanitizer and UndefinedBehaviorSanitizer, and a
-# replay driver (any compiler, no libFuzzer) for the committed corpus.
+# Sanitizers (DEVELOPERS.md "Tests"): the library, sheaf and the Criterion
+# suites built again with AddressSanitizer and UndefinedBehaviorSanitizer
+# into build/asan/.  `make check-sanitize` runs the whole suite against
+# them; `make test` runs the fast subset ASAN_QUICK_SCRIPTS (and every unit
+# suite).  test_summary is left out: it replaces malloc with glibc's
+# __libc_malloc to inject failures, and ASan cannot free those blocks.
+ASAN_DIR    := build/asan
+ASAN_FLAGS  := -O1 -g -fno-omit-frame-pointer -fsanitize=address,undefined \
+               -fno-sanitize-recover=undefined
+ASAN_CFLAGS := $(ASAN_FLAGS) -std=c11 -D_GNU_SOURCE -Wall -Wextra -Iinclude -Isrc -MMD -MP
+ASAN_LIB_OBJ := $(LIB_SRC:%.c=$(ASAN_DIR)/%.o)
+ASAN_CLI_OBJ := $(CLI_SRC:%.c=$(ASAN_DIR)/%.o)
+ASAN_TEST_BIN := $(filter-out $(ASAN_DIR)/tests/test_summary,$(TEST_SRC:tests/%.c=$(ASAN_DIR)/tests/%))
+# The CLI suites of the quick subset: small inputs, about 20 s together
+# (test_scan_info.sh, 1.5 minutes even unsanitized, and test_merge_shard.sh,
+# over 10 minutes sanitized, run only in check-sanitize).
+ASAN_QUICK_SCRIPTS := tests/cli/test_output_modes.sh tests/cli/test_trim.sh
+# What the sanitized runs report, and why each option is set:
+#   detect_leaks=0     LeakSanitizer finds leaks only in test code (test_csv
+#                      leaves csv_record buffers, test_scan its scan_options'
+#                      missing spellings, unfreed); with it on, those tests
+#                      count as crashed.  sheaf itself reports no leak under
+#                      the quick subset: turn it on once those tests free;
+#   abort_on_error=1   a report ends the process with SIGABRT, which the
+#                      suites count as a failure;
+#   halt_on_error / print_stacktrace: stop at the first report, with a stack.
+ASAN_ENV := ASAN_OPTIONS=detect_leaks=0:abort_on_error=1:halt_on_error=1 \
+            UBSAN_OPTIONS=print_stacktrace=1:halt_on_error=1
+
+$(ASAN_DIR)/%.o: %.c
+	@mkdir -p $(dir $@)
+	$(CC) $(ASAN_CFLAGS) -c -o $@ $<
+
+$(ASAN_DIR)/libsheaf.a: $(ASAN_LIB_OBJ)
+	@rm -f $@
+	$(AR) rcs $@ $^
+
+$(ASAN_DIR)/sheaf: $(ASAN_CLI_OBJ) $(ASAN_DIR)/libsheaf.a
+	$(CC) $(ASAN_CFLAGS) -o $@ $(ASAN_CLI_OBJ) $(ASAN_DIR)/libsheaf.a $(LDLIBS)
+
+$(ASAN_DIR)/tests/%: tests/%.c $(ASAN_DIR)/libsheaf.a tests/testutil.h
+	@mkdir -p $(dir $@)
+	$(CC) $(ASAN_CFLAGS) -Itests -o $@ $< $(ASAN_DIR)/libsheaf.a -lcriterion $(LDLIBS)
+
+sanitize-build: $(ASAN_DIR)/sheaf $(ASAN_DIR)/libsheaf.a $(ASAN_TEST_BIN)
+
+# The whole suite (unit, reference and CLI) against the sanitized build.
+check-sanitize: deps-check
+	@$(MAKE) --no-print-directory sanitize-build $(DEMO_BIN)
+	@$(ASAN_ENV) SHEAF_BIN=$(ASAN_DIR)/sheaf SHEAF_TEST_LOGS=build/test-logs/asan \
+	    tests/run.sh $(ASAN_TEST_BIN)
+
+# The part of it that `make test` runs: every unit suite, the quick CLI suites.
+ASAN_QUICK_RUN = $(ASAN_ENV) SHEAF_BIN=$(ASAN_DIR)/sheaf SHEAF_TEST_LOGS=build/test-logs/asan \
+                 SHEAF_TEST_SCRIPTS="$(ASAN_QUICK_SCRIPTS)" tests/run.sh $(ASAN_TEST_BIN)
+check-sanitize-quick: deps-check
+	@$(MAKE) --no-print-directory sanitize-build
+	@$(ASAN_QUICK_RUN)
+
+# Fuzzing (tests/fuzz/, DEVELOPERS.md "Fuzzing"): every tests/fuzz/fuzz_NAME.c
+# is a libFuzzer target, build/fuzz/fuzz_NAME (clang, libFuzzer, ASan and
+# UBSan over the library rebuilt with coverage into build/fuzz/obj/), and a
+# replay driver, build/fuzz/replay_NAME (-DFUZZ_REPLAY_MAIN, $(CC) with ASan
+# and UBSan, no libFuzzer, linked with build/asan/libsheaf.a) for the corpus
+# tests/fuzz/corpus/NAME/.
 FUZZ_CC     ?= clang
-FUZZ_FLAGS  := -O1 -g -fno-omit-frame-pointer -fsanitize=address,undefined \
-               -fno-sanitize-recover=undefined -std=c11 -D_GNU_SOURCE -Wall -Wextra -Iinclude -Isrc
+FUZZ_FLAGS  := $(ASAN_FLAGS) -std=c11 -D_GNU_SOURCE -Wall -Wextra -Iinclude -Isrc -MMD -MP
 FUZZ_OBJ    := $(LIB_SRC:%.c=build/fuzz/obj/%.o)
+FUZZ_NAMES  := $(patsubst tests/fuzz/fuzz_%.c,%,$(wildcard tests/fuzz/fuzz_*.c))
+FUZZ_BIN    := $(FUZZ_NAMES:%=build/fuzz/fuzz_%)
+REPLAY_BIN  := $(FUZZ_NAMES:%=build/fuzz/replay_%)
+# Seconds of `make fuzz` for each harness (so the whole run takes
+# FUZZ_SECONDS times the number of harnesses).
 FUZZ_SECONDS ?= 900
 
 build/fuzz/obj/%.o: %.c
 	@mkdir -p $(dir $@)
-	$(FUZZ_CC) $(FUZZ_FLAGS) -fsanitize=fuzzer-no-link -MMD -MP -c -o $@ $<
+	$(FUZZ_CC) $(FUZZ_FLAGS) -fsanitize=fuzzer-no-link -c -o $@ $<
 
-build/fuzz/fuzz_scan_split: tests/fuzz/fuzz_scan_split.c $(FUZZ_OBJ)
-	$(FUZZ_CC) $(FUZZ_FLAGS) -fsanitize=fuzzer -o $@ $^ $(LDLIBS)
-
-build/fuzz/replay_scan_split: tests/fuzz/fuzz_scan_split.c $(LIB_SRC) $(wildcard src/*/*.h)
+build/fuzz/fuzz_%: tests/fuzz/fuzz_%.c $(FUZZ_OBJ)
 	@mkdir -p $(dir $@)
-	$(CC) -O1 -g -fsanitize=address,undefined -fno-sanitize-recover=undefined -std=c11 \
-	    -D_GNU_SOURCE -Wall -Wextra -Iinclude -Isrc -DFUZZ_REPLAY_MAIN -o $@ \
-	    tests/fuzz/fuzz_scan_split.c $(LIB_SRC) $(LDLIBS)
+	$(FUZZ_CC) $(FUZZ_FLAGS) -fsanitize=fuzzer -o $@ $< $(FUZZ_OBJ) $(LDLIBS)
 
-# Long fuzzing: the corpus replay, then FUZZ_SECONDS (default 900) of libFuzzer.
+build/fuzz/replay_%: tests/fuzz/fuzz_%.c $(ASAN_DIR)/libsheaf.a
+	@mkdir -p $(dir $@)
+	$(CC) $(ASAN_CFLAGS) -DFUZZ_REPLAY_MAIN -o $@ $< $(ASAN_DIR)/libsheaf.a $(LDLIBS)
+
+fuzz-build: $(FUZZ_BIN)
+replay-build: $(REPLAY_BIN)
+
+# Long fuzzing: each harness's corpus replayed, then FUZZ_SECONDS (default
+# 900) of libFuzzer per harness with a random seed.  FUZZ_ONLY=NAME... picks
+# harnesses.
 fuzz: deps-check
-	@FUZZ_SECONDS=$(FUZZ_SECONDS) bash tests/cli/test_fuzz_bounded.sh
+	@FUZZ_SECONDS=$(FUZZ_SECONDS) FUZZ_ONLY="$(FUZZ_ONLY)" bash tests/cli/test_fuzz_bounded.sh
 
 # Quick check: dpkg-query over the list; apt-get only when something is missing.
 deps-check:
@@ -86,9 +157,12 @@ deps:
 	  echo "deps: run as root:  apt-get update && apt-get install -y $$missing"; exit 1; \
 	fi
 
+# The suites, then the sanitized quick subset (both always run).
 test: deps-check
-	@$(MAKE) --no-print-directory all $(TEST_BIN) $(DEMO_BIN)
-	@tests/run.sh $(TEST_BIN)
+	@$(MAKE) --no-print-directory all $(TEST_BIN) $(DEMO_BIN) sanitize-build
+	@tests/run.sh $(TEST_BIN); rc=$$?; \
+	echo "-- under AddressSanitizer and UndefinedBehaviorSanitizer (build/asan/):"; \
+	$(ASAN_QUICK_RUN) || rc=1; exit $$rc
 
 demo: deps-check
 	@$(MAKE) --no-print-directory all $(DEMO_BIN)
@@ -101,4 +175,5 @@ bench: deps-check
 clean:
 	rm -rf build sheaf libsheaf.a
 
--include $(LIB_OBJ:.o=.d) $(CLI_OBJ:.o=.d) $(FUZZ_OBJ:.o=.d)
+-include $(LIB_OBJ:.o=.d) $(CLI_OBJ:.o=.d) $(FUZZ_OBJ:.o=.d) $(ASAN_LIB_OBJ:.o=.d) \
+         $(ASAN_CLI_OBJ:.o=.d) $(wildcard build/fuzz/*.d $(ASAN_DIR)/tests/*.d)

@@ -4,10 +4,15 @@
 #   Debian's numpy/scipy/pandas/statsmodels) and tests/cli/test_*.sh (end to end; tests/cli/common.sh holds their shared helpers).
 # Reference and CLI scripts print one line per check: "PASS name" or
 # "FAIL name: why".
+# Environment: SHEAF_BIN, the sheaf binary the scripts run (./sheaf; the
+# sanitized build sets build/asan/sheaf); SHEAF_TEST_SCRIPTS, the scripts to
+# run instead of all of them; SHEAF_TEST_LOGS, the log directory
+# (build/test-logs).
 set -u
 cd "$(dirname "$0")/.."
 passed=0 failed=0
-log=build/test-logs; mkdir -p "$log"
+log=${SHEAF_TEST_LOGS:-build/test-logs}; mkdir -p "$log"
+export SHEAF_BIN=${SHEAF_BIN:-./sheaf}
 
 for bin in "$@"; do
     name=$(basename "$bin")
@@ -24,7 +29,8 @@ for bin in "$@"; do
     [ "$f" -ne 0 ] && grep -a -E '\[(FAIL|----)\]|CRASH|signal' "$log/$name.out" | head -n 20
 done
 
-for script in tests/ref/*.py tests/cli/test_*.sh; do
+# shellcheck disable=SC2086
+for script in ${SHEAF_TEST_SCRIPTS:-tests/ref/*.py tests/cli/test_*.sh}; do
     [ -e "$script" ] || continue
     name=$(basename "$script")
     case "$script" in

@@ -195,3 +195,27 @@ Test(reader, record_over_the_limit_inside_one_chunk_is_an_error_too)
     free(got);
     free(text);
 }
+
+Test(reader, record_over_the_limit_after_a_byte_order_mark_starts_after_it)
+{
+    /* The byte-order mark belongs to no record: the first record starts at
+     * byte 3, whether the chunker (small chunks: the record spans them) or
+     * the cursor (one chunk) finds it too long.  Found by fuzz_csv_reader. */
+    size_t len = 5004;
+    char *text = malloc(len + 16);
+    memcpy(text, "\xEF\xBB\xBF", 3);
+    for (size_t i = 3; i < len - 1; i++) text[i] = 'x';
+    text[len - 1] = '\n';
+    reader_status last;
+    char err[512];
+    char *got = read_all(text, len, 100, 64, 0, &last, err, sizeof err);
+    cr_assert_eq(last, READER_ERROR);
+    cr_assert_neq(strstr(err, "record at byte 3 is longer than the 4096-byte limit"), NULL, "%s", err);
+    free(got);
+    got = read_all(text, len, 0, 65536, 0, &last, err, sizeof err);
+    cr_assert_eq(last, READER_ERROR);
+    cr_assert_neq(strstr(err, "line 1: record at byte 3 is longer than the 4096-byte limit"), NULL,
+                  "%s", err);
+    free(got);
+    free(text);
+}

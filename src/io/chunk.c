@@ -70,6 +70,14 @@ void chunker_set_dialect(chunker *c, char delim, size_t skip_bytes)
     c->dialect_set = 1;
 }
 
+/* The stream offset of the record that starts at `at`: past the byte-order
+ * mark at the stream's start, which belongs to no record (the cursor counts
+ * from there too, so both name the same byte). */
+static uint64_t record_start(const chunker *c, uint64_t at)
+{
+    return at < c->skip ? c->skip : at;
+}
+
 char *chunker_space(chunker *c, size_t *room, char *err, size_t errlen)
 {
     if (c->start) { /* drop what was handed out */
@@ -86,7 +94,7 @@ char *chunker_space(chunker *c, size_t *room, char *err, size_t errlen)
         if (cap <= c->cap) {
             snprintf(err, errlen, "%s: record at byte %llu is longer than the %zu-byte limit "
                      "(an unterminated quote, or raise --max-record)",
-                     c->name, (unsigned long long)c->base, c->max_record);
+                     c->name, (unsigned long long)record_start(c, c->base), c->max_record);
             return NULL;
         }
         char *p = realloc(c->buf, cap + 1 + CHUNK_PADDING);
@@ -171,7 +179,7 @@ int chunker_next(chunker *c, chunk *out, char *err, size_t errlen)
         /* The open record (from the last record end) must fit the limit. */
         if (upto - c->best > c->max_record) {
             if (c->best > s) return emit(c, c->best, out);
-            return too_long(c, c->best, err, errlen);
+            return too_long(c, record_start(c, c->best), err, errlen);
         }
         if (c->best >= s + c->chunk_bytes) return emit(c, c->best, out);
         if (final) return emit(c, held, out);

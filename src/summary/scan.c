@@ -357,6 +357,20 @@ oom:
     return fail(sc, SCAN_ERR_MEMORY, "out of memory");
 }
 
+/* A reading error (a record the chunker cannot hold, bad compressed data):
+ * it lies after every chunk already pushed, so a failure among those comes
+ * first in the stream and is the scan's, as on one thread, where each chunk
+ * is done before the next is read. */
+static scan_status reading_failed(scan_context *sc)
+{
+    if (sc->work) {
+        scan_status st = chunks_wait(sc->work);
+        if (st != SCAN_OK) return worked(sc, st);
+    }
+    return fail(sc, reader_out_of_memory(sc->rd) ? SCAN_ERR_MEMORY : SCAN_ERR_INPUT,
+                reader_error(sc->rd));
+}
+
 /* Looks for the stream's first record in a chunk, on the reading thread.
  * Sets *found when the chunk holds it. */
 static scan_status head(scan_context *sc, const reader_chunk *ch, int *found)
@@ -410,9 +424,7 @@ static scan_status drain(scan_context *sc)
         reader_chunk ch;
         reader_status rs = reader_next_chunk(sc->rd, &ch);
         if (rs == READER_WANT) return SCAN_OK;
-        if (rs == READER_ERROR)
-            return fail(sc, reader_out_of_memory(sc->rd) ? SCAN_ERR_MEMORY : SCAN_ERR_INPUT,
-                        reader_error(sc->rd));
+        if (rs == READER_ERROR) return reading_failed(sc);
         if (rs == READER_END) { sc->done = 1; break; }
         int first = 0;
         if (sc->at_first) {
@@ -562,7 +574,7 @@ scan_status scan_feed(scan_context *sc, const void *data, size_t len)
     const char *p = data;
     while (len && !sc->done) {
         size_t n = reader_feed(sc->rd, p, len);
-        if (n == (size_t)-1) return fail(sc, SCAN_ERR_INPUT, reader_error(sc->rd));
+        if (n == (size_t)-1) return reading_failed(sc);
         p += n;
         len -= n;
         scan_status st = drain(sc);
@@ -587,7 +599,7 @@ static scan_status pull(scan_context *sc, source *src, uint64_t from)
 {
     while (!sc->done) {
         int got = reader_pull(sc->rd, src);
-        if (got < 0) return fail(sc, SCAN_ERR_INPUT, reader_error(sc->rd));
+        if (got < 0) return reading_failed(sc);
         scan_status st = drain(sc);
         if (st != SCAN_OK) return st;
         if (sc->o.progress)

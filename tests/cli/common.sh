@@ -24,7 +24,7 @@ first_diff() { cmp "$1" "$2" 2>&1 | head -n 1; }
 # "python") after a SKIP line when Debian's python3 is absent: call it as
 # `cli_setup tag python || exit 0`.
 cli_setup() {
-    SHEAF=./sheaf
+    SHEAF=${SHEAF_BIN:-./sheaf}
     PY=/usr/bin/python3
     T=$(mktemp -d "${TMPDIR:-/tmp}/sheaf-$1.XXXXXX")
     trap 'rm -rf "$T"' EXIT

@@ -1,17 +1,28 @@
 #!/usr/bin/env bash
-# The differential fuzz target tests/fuzz/fuzz_scan_split.c, bounded: every
-# committed corpus file is replayed on its own (a whole scan, scans with other
-# chunk sizes and merged shard scans must agree; see the harness's header),
-# then libFuzzer mutates the corpus files that passed.  Under `make test`
-# the mutation is reproducible: a fixed seed (FUZZ_SEED, 1) and a fixed
-# number of inputs (FUZZ_RUNS, 400), so the same inputs run on every machine
-# and a CI run cannot fail by luck; `make fuzz` sets FUZZ_SECONDS (900) and
-# explores with a random seed for that long.  Without clang's libFuzzer the corpus is
-# replayed by the plain driver (built with $CC) and the fuzzing is skipped.
+# Every fuzz harness tests/fuzz/fuzz_NAME.c, bounded: its committed corpus
+# tests/fuzz/corpus/NAME/ is replayed (one PASS line, or a FAIL line per
+# failing file), then libFuzzer mutates the corpus files that passed.  What each harness checks
+# and against which reference is in its header:
+#   scan_split     the whole scan at other chunk sizes and as merged shards
+#                  against the whole-file scan;
+#   scan_threads   the scan on 2 and 3 threads against one thread, byte for
+#                  byte;
+#   csv_reader     the record reader at any chunk and feed size, raw fields,
+#                  the plain and padded tokenizers and the quote rule;
+#   number         the scalar and SIMD number parsers against glibc strtod;
+#   (any other harness is picked up by its file name).
+# Under `make test` the mutation is reproducible: a fixed seed (FUZZ_SEED,
+# 1) and a fixed number of inputs per harness (runs_for below, or FUZZ_RUNS
+# for all), so the same inputs run on every machine and a CI run cannot fail
+# by luck; about a minute in all on the development machine.  `make fuzz`
+# sets FUZZ_SECONDS (900) and explores each harness for that long with a
+# random seed.  FUZZ_ONLY="NAME..." limits the run to some harnesses.
+# Without clang's libFuzzer the corpus is replayed by the plain drivers
+# (build/fuzz/replay_NAME, $CC with ASan and UBSan) and the fuzzing is
+# skipped.
 #
-# Reference: sheaf's own whole-file scan with the default chunk size (the
-# harness compares the other runs with it).  Built objects go to build/fuzz/
-# (reused across runs); a failing input is kept in build/fuzz/artifacts/.
+# Built objects go to build/fuzz/ (reused across runs); a failing input is
+# kept in build/fuzz/artifacts/NAME/, the log in build/fuzz/artifacts/NAME.log.
 # Prints "PASS name", "FAIL name: why" or "SKIP name: reason" lines and exits 0.
 set -u
 cd "$(dirname "$0")/../.." || exit 0
@@ -20,17 +31,30 @@ trap 'rm -rf "$T"' EXIT
 
 . tests/cli/common.sh
 
-if [ -n "${FUZZ_SECONDS:-}" ]; then
-    LIMIT="-max_total_time=$FUZZ_SECONDS"; SHOWN="$FUZZ_SECONDS s"
-else
-    LIMIT="-seed=${FUZZ_SEED:-1} -runs=${FUZZ_RUNS:-400} -max_total_time=300"
-    SHOWN="seed ${FUZZ_SEED:-1}"
-fi
-CORPUS=tests/fuzz/corpus/scan_split
+# Inputs per harness under `make test`: roughly ten seconds each or less
+# on the shared 2-core development machine (the scans write and read files
+# for every input; the parsers run in memory).
+runs_for() {
+    case $1 in
+        scan_split) echo 120 ;;
+        scan_threads) echo 150 ;;
+        csv_reader) echo 8000 ;;
+        number) echo 100000 ;;
+        *) echo 2000 ;;
+    esac
+}
+# Longest input per harness (each harness also cuts what is longer).
+max_len_for() {
+    case $1 in
+        number) echo 64 ;;
+        *) echo 4096 ;;
+    esac
+}
+
 ART=build/fuzz/artifacts
 mkdir -p "$ART"
 export OPENBLAS_NUM_THREADS=1
-# The harness writes its input file under TMPDIR: a crash leaves it in $T.
+# Harnesses write their input files under TMPDIR: a crash leaves them in $T.
 export TMPDIR="$T"
 
 # libFuzzer is there when clang links a trivial target with -fsanitize=fuzzer.
@@ -39,58 +63,80 @@ have_libfuzzer() {
     printf '#include <stddef.h>\n#include <stdint.h>\nint LLVMFuzzerTestOneInput(const uint8_t *d, size_t n) { (void)d; (void)n; return 0; }\n' >"$T/probe.c"
     "${FUZZ_CC:-clang}" -fsanitize=fuzzer,address,undefined "$T/probe.c" -o "$T/probe" >/dev/null 2>&1
 }
-
-if have_libfuzzer; then
-    BIN=build/fuzz/fuzz_scan_split
-    MODE=libfuzzer
-else
-    BIN=build/fuzz/replay_scan_split
-    MODE=replay
-fi
-if ! make -s "$BIN" >"$T/build.log" 2>&1; then
-    fail fuzz.build "make $BIN: $(tail -n 3 "$T/build.log" | tr '\n' '|' | cut -c1-300)"
-    exit 0
-fi
-pass "fuzz.build ($MODE)"
+if have_libfuzzer; then MODE=libfuzzer; PREFIX=fuzz; else MODE=replay; PREFIX=replay; fi
 
 # why LOG: the first line that says what went wrong.
 why() {
-    grep -a -m 1 -E 'disagree|ERROR: AddressSanitizer|runtime error|ERROR: libFuzzer|deadly signal|^fuzz_scan_split:' "$1" |
-        sed "s|[^ (]*/fuzz_scan_split\.[A-Za-z0-9]*|INPUT|g" | cut -c1-400
+    grep -a -m 1 -E 'disagree|ERROR: AddressSanitizer|runtime error|ERROR: libFuzzer|deadly signal|^fuzz_[a-z_]*:' "$1" |
+        sed "s|[^ (]*/fuzz_[a-z_]*\.[A-Za-z0-9]*|INPUT|g" | cut -c1-400
 }
 
-mkdir -p "$T/seeds"
-for f in "$CORPUS"/*; do
-    name=$(basename "$f")
-    SHEAF_FUZZ_ALL_SPLITS=1 "$BIN" "$f" >"$T/replay.log" 2>&1
-    rc=$?
-    if [ "$rc" -eq 0 ]; then
-        pass "corpus.$name"
-        cp "$f" "$T/seeds/"
-    else
-        fail "corpus.$name" "exit $rc: $(why "$T/replay.log")"
+fuzz_one() {
+    local name=$1 bin=build/fuzz/${PREFIX}_$1 corpus=tests/fuzz/corpus/$1
+    if ! make -s "$bin" >"$T/build.log" 2>&1; then
+        fail "$name.build" "make $bin: $(grep -a -m 3 -E 'error|Error' "$T/build.log" | tr '\n' '|' | cut -c1-300)"
+        return
     fi
-done
+    pass "$name.build ($MODE)"
+    rm -rf "$T/seeds"
+    mkdir -p "$T/seeds"
+    # The corpus in one run (one start-up); file by file only when it fails,
+    # to name every failing file.
+    local files=() f
+    for f in "$corpus"/*; do [ -f "$f" ] && files+=("$f"); done
+    if [ "${#files[@]}" -gt 0 ]; then
+        if SHEAF_FUZZ_ALL_SPLITS=1 "$bin" "${files[@]}" >"$T/replay.log" 2>&1; then
+            pass "$name.corpus (${#files[@]} files)"
+            cp "${files[@]}" "$T/seeds/"
+        else
+            for f in "${files[@]}"; do
+                SHEAF_FUZZ_ALL_SPLITS=1 "$bin" "$f" >"$T/replay.log" 2>&1
+                local rc=$?
+                if [ "$rc" -eq 0 ]; then
+                    cp "$f" "$T/seeds/"
+                else
+                    fail "$name.corpus.$(basename "$f")" "exit $rc: $(why "$T/replay.log")"
+                fi
+            done
+        fi
+    fi
+    if [ "$MODE" != libfuzzer ]; then
+        skip "$name.fuzz" "clang with libFuzzer (-fsanitize=fuzzer) not found"
+        return
+    fi
+    if [ -z "$(ls "$T/seeds")" ]; then
+        skip "$name.fuzz" "no corpus file passes its replay"
+        return
+    fi
+    local limit shown
+    if [ -n "${FUZZ_SECONDS:-}" ]; then
+        limit="-max_total_time=$FUZZ_SECONDS"
+        shown="$FUZZ_SECONDS s"
+    else
+        local runs=${FUZZ_RUNS:-$(runs_for "$name")}
+        limit="-seed=${FUZZ_SEED:-1} -runs=$runs -max_total_time=600"
+        shown="seed ${FUZZ_SEED:-1}"
+    fi
+    mkdir -p "$ART/$name"
+    # Mutates copies of the passing seeds (new units go to the copy, not to git).
+    # shellcheck disable=SC2086
+    "$bin" $limit -max_len="$(max_len_for "$name")" -timeout=60 -rss_limit_mb=2048 \
+        -print_final_stats=1 -artifact_prefix="$ART/$name/" "$T/seeds" >"$T/fuzz.log" 2>&1
+    local rc=$?
+    local done_runs
+    done_runs=$(sed -n 's/^stat::number_of_executed_units: *//p' "$T/fuzz.log")
+    if [ "$rc" -eq 0 ]; then
+        pass "$name.fuzz ($shown, ${done_runs:-?} inputs)"
+    else
+        local unit
+        unit=$(sed -n 's/.*Test unit written to //p' "$T/fuzz.log" | head -n 1)
+        cp "$T/fuzz.log" "$ART/$name.log"
+        fail "$name.fuzz" "exit $rc after ${done_runs:-?} inputs: $(why "$T/fuzz.log"); input ${unit:-none} (replay: $bin FILE)"
+    fi
+}
 
-if [ "$MODE" != libfuzzer ]; then
-    skip fuzz.run "clang with libFuzzer (-fsanitize=fuzzer) not found"
-    exit 0
-fi
-if [ -z "$(ls "$T/seeds")" ]; then
-    skip fuzz.run "no corpus file passes its replay"
-    exit 0
-fi
-# Mutates copies of the passing seeds (new units go to the copy, not to git).
-# shellcheck disable=SC2086
-"$BIN" $LIMIT -max_len=4096 -timeout=60 -rss_limit_mb=2048 \
-    -print_final_stats=1 -artifact_prefix="$ART/" "$T/seeds" >"$T/fuzz.log" 2>&1
-rc=$?
-runs=$(sed -n 's/^stat::number_of_executed_units: *//p' "$T/fuzz.log")
-if [ "$rc" -eq 0 ]; then
-    pass "fuzz.run ($SHOWN, ${runs:-?} inputs)"
-else
-    unit=$(sed -n 's/.*Test unit written to //p' "$T/fuzz.log" | head -n 1)
-    cp "$T/fuzz.log" "$ART/last-fuzz.log"
-    fail fuzz.run "exit $rc after ${runs:-?} inputs: $(why "$T/fuzz.log"); input ${unit:-none} (replay: $BIN FILE)"
-fi
+names=${FUZZ_ONLY:-$(for f in tests/fuzz/fuzz_*.c; do basename "$f" .c; done | sed 's/^fuzz_//')}
+for name in $names; do
+    fuzz_one "$name"
+done
 exit 0

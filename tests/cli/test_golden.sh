@@ -25,7 +25,7 @@
 # command on a mismatch), "SKIP" for an absent data set, and exits 0.
 set -u
 cd "$(dirname "$0")/../.." || exit 0
-SHEAF=./sheaf
+SHEAF=${SHEAF_BIN:-./sheaf}
 GEN=build/demo/generate
 G=build/golden
 IN=$G/in

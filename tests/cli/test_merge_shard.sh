@@ -28,12 +28,12 @@ cli_setup shard python || exit 0
 # only for exact value tables: an overflowed table (distinct_exact false)
 # keeps the first values it met, which depends on the grouping of the rows.
 cat >"$T/cmp.py" <<'EOF'
-import json, subprocess, sys
+import json, os, subprocess, sys
 sys.path.insert(0, "tests")
 from refcheck import tree_differences
 
 def info(p):
-    r = subprocess.run(["./sheaf", "info", "--json", "--top", "1000", p],
+    r = subprocess.run([os.environ.get("SHEAF_BIN", "./sheaf"), "info", "--json", "--top", "1000", p],
                        stdout=subprocess.PIPE, stderr=subprocess.PIPE)
     if r.returncode:
         sys.exit("info %s exit %d: %s" % (p, r.returncode, r.stderr.decode().strip()))

@@ -5,7 +5,7 @@
 # Covers summary_write (scan, merge) and the sink (trim, plain and gzip).
 set -u
 cd "$(dirname "$0")/../.." || exit 0
-SHEAF=./sheaf
+SHEAF=${SHEAF_BIN:-./sheaf}
 T=$(mktemp -d "${TMPDIR:-/tmp}/sheaf-modes.XXXXXX")
 trap 'rm -rf "$T"' EXIT
 . tests/cli/common.sh

@@ -12,7 +12,7 @@
 # here; the penguins table comes from ../shared/data/open (or $SHEAF_DATA).
 set -u
 cd "$(dirname "$0")/../.."
-SHEAF=./sheaf
+SHEAF=${SHEAF_BIN:-./sheaf}
 DATA=${SHEAF_DATA:-../shared/data}
 PY=/usr/bin/python3
 T=$(mktemp -d "${TMPDIR:-/tmp}/sheaf-cli.XXXXXX")

@@ -97,6 +97,23 @@ err_case strict_ragged "$T/ragged.csv" --strict --chunk-size 64K
 err_case corrupt_gzip_member "$T/bad.csv.gz"
 err_case too_many_classes "$T/t.csv" --target label --max-classes 3 --chunk-size 64K
 OUT=$T/no/such/dir/x.sheaf err_case unwritable_output "$T/t.csv"
+# Two records over --max-record: the first (line 5) inside one chunk, found
+# by the worker that tokenizes it; the second (1,000 bytes) longer than any
+# chunk can grow, found by the reading thread.  The first in the stream is
+# the error at every -j (found by fuzz_scan_threads: the reading thread's
+# error used to win when it ran ahead of the workers).
+{
+    echo "id,note,v"
+    for i in 1 2 3; do echo "$i,ok,$i"; done
+    printf '4,"%s",4\n' "$(head -c 100 /dev/zero | tr '\0' x)"
+    for i in $(seq 5 40); do echo "$i,ok,$i"; done
+    printf '41,%s,41\n' "$(head -c 1000 /dev/zero | tr '\0' y)"
+    echo "42,ok,42"
+} >"$T/two_long.csv"
+err_case first_of_two_long_records "$T/two_long.csv" --chunk-size 256 --max-record 64
+run "$SHEAF" scan "$T/two_long.csv" --chunk-size 256 --max-record 64 -j 2 -q -o "$T/e.sheaf"
+check threads.error.first_long_record "no 'line 5: record at byte 31' in: $(err_text)" \
+    grep -q "two_long.csv: line 5: record at byte 31 is longer" "$T/err"
 # Files read ahead (the next one opened and decompressed while this one is
 # scanned) still fail in turn, with the same message.
 head -c 300000 "$T/t.csv.gz" >"$T/short.csv.gz"

@@ -335,12 +335,12 @@ check no_data_files.exit_2 "exit $RC: $(err_text)" [ "$RC" -eq 2 ]
 nt_dir=$(mktemp -d)
 printf 'a,b,c\n1,2,3\n4,5,6' > "$nt_dir/nt.csv"
 printf 'a\nc\n' > "$nt_dir/keep"
-if [ "$(./sheaf trim "$nt_dir/nt.csv" --keep-list "$nt_dir/keep" | od -An -c | tr -d ' \n')" = 'a,c\n1,3\n4,6' ]; then
+if [ "$("$SHEAF" trim "$nt_dir/nt.csv" --keep-list "$nt_dir/keep" | od -An -c | tr -d ' \n')" = 'a,c\n1,3\n4,6' ]; then
     echo "PASS no_final_newline.kept_as_is"
 else
     echo "FAIL no_final_newline.kept_as_is: output differs"
 fi
-if [ "$(./sheaf trim "$nt_dir/nt.csv" "$nt_dir/nt.csv" --keep-list "$nt_dir/keep" | od -An -c | tr -d ' \n')" = 'a,c\n1,3\n4,6\n1,3\n4,6' ]; then
+if [ "$("$SHEAF" trim "$nt_dir/nt.csv" "$nt_dir/nt.csv" --keep-list "$nt_dir/keep" | od -An -c | tr -d ' \n')" = 'a,c\n1,3\n4,6\n1,3\n4,6' ]; then
     echo "PASS no_final_newline.between_files_supplied"
 else
     echo "FAIL no_final_newline.between_files_supplied: output differs"

@@ -1,0 +1,265 @@
+/* fuzz_number: the decimal parser (io/number) on any bytes.
+ *
+ * An input (at most 64 bytes) is one cell, or two cells a and b split at
+ * its first '|'.  For each cell:
+ *   - number_parse reads it from a buffer of exactly its size, so
+ *     AddressSanitizer sees any read past len;
+ *   - the SIMD parser for padded cells (number_parse_padded, where the CPU
+ *     has SSSE3) reads it with NUMBER_READ_AHEAD bytes of digits, points and
+ *     'e's after it, and must give the same kind and, for a number, the same
+ *     value bits, mantissa, power of ten, sign and exactness;
+ *   - glibc strtod (correctly rounded for inputs of any length) is the
+ *     outside reference, on what both accept under sheaf's number rules
+ *     (number.h: sign, digits with one optional point, optional exponent;
+ *     leading and trailing ASCII spaces ignored; inf/infinity/nan in any
+ *     case):
+ *       * a cell number_parse calls finite: strtod reads the whole cell
+ *         (spaces trimmed) to the same bits;
+ *       * a cell it calls non-finite: strtod reads the whole cell to an
+ *         infinity of the same sign, or both are NaN;
+ *       * a cell of only digits, signs, points and e/E that strtod reads
+ *         whole: number_parse does not call it text;
+ *       * an exact decimal (<= 19 digits): number_to_double of its mantissa
+ *         and power of ten has the value's bits.
+ * With two numeric cells, number_deviation (the inline difference) must
+ * equal number_difference to the bit, and when number_difference says it
+ * took the exact integer path, its result must equal the correctly rounded
+ * difference of the two decimals (strtod of the difference written out
+ * exactly as a decimal, when both are exact at powers of ten within 40).
+ *
+ * A disagreement prints both sides and aborts, so libFuzzer keeps the input.
+ * Built with -DFUZZ_REPLAY_MAIN it is a plain program:
+ * `replay_number FILE_OR_DIR...` runs every file once.
+ */
+#include <dirent.h>
+#include <math.h>
+#include <stdarg.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <sys/stat.h>
+
+#include "io/number.h"
+#include "io/number_simd.h"
+
+#define MAX_INPUT_BYTES 64
+
+int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size);
+
+static void fault(const char *fmt, ...) __attribute__((format(printf, 1, 2), noreturn));
+static void fault(const char *fmt, ...)
+{
+    va_list ap;
+    va_start(ap, fmt);
+    fprintf(stderr, "fuzz_number: ");
+    vfprintf(stderr, fmt, ap);
+    fprintf(stderr, "\n");
+    va_end(ap);
+    abort();
+}
+
+static uint64_t bits_of(double v)
+{
+    uint64_t u;
+    memcpy(&u, &v, sizeof u);
+    return u;
+}
+
+#if defined(NUMBER_SIMD)
+__attribute__((target("ssse3"))) static number_kind parse_padded(const char *s, size_t len,
+                                                               number_decimal *out)
+{
+    return number_parse_padded(s, len, out);
+}
+#endif
+
+/* Parses one cell every way and checks them against each other. */
+static number_kind check_cell(const uint8_t *cell, size_t len, number_decimal *out)
+{
+    char *exact = malloc(len ? len : 1);
+    char text[MAX_INPUT_BYTES + 1];
+    if (!exact) fault("out of memory");
+    memcpy(exact, cell, len);
+    memcpy(text, cell, len);
+    text[len] = '\0';
+    number_decimal d;
+    memset(&d, 0, sizeof d);
+    number_kind k = number_parse(exact, len, &d);
+    free(exact);
+
+#if defined(NUMBER_SIMD)
+    if (number_simd_usable()) {
+        static const char junk[] = "7.e1-0+5E9.3e";
+        char padded[MAX_INPUT_BYTES + NUMBER_READ_AHEAD + 16];
+        memcpy(padded, cell, len);
+        for (size_t i = 0; i < NUMBER_READ_AHEAD + 16; i++)
+            padded[len + i] = junk[(len + i) % (sizeof junk - 1)];
+        number_decimal p;
+        memset(&p, 0, sizeof p);
+        number_kind kp = parse_padded(padded, len, &p);
+        if (kp != k) fault("\"%s\": number_parse kind %d, padded parser %d", text, k, kp);
+        if (k != NUMBER_TEXT && bits_of(p.value) != bits_of(d.value) && !(isnan(p.value) && isnan(d.value)))
+            fault("\"%s\": number_parse %.17g, padded parser %.17g", text, d.value, p.value);
+        if (k == NUMBER_FINITE &&
+            (p.mantissa != d.mantissa || p.exp10 != d.exp10 || p.negative != d.negative ||
+             p.exact != d.exact))
+            fault("\"%s\": number_parse %llu e%d neg %d exact %d, padded %llu e%d neg %d exact %d",
+                  text, (unsigned long long)d.mantissa, d.exp10, d.negative, d.exact,
+                  (unsigned long long)p.mantissa, p.exp10, p.negative, p.exact);
+    }
+#endif
+
+    /* The cell without its leading and trailing ASCII spaces. */
+    size_t a = 0, b = len;
+    while (a < b && text[a] == ' ') a++;
+    while (b > a && text[b - 1] == ' ') b--;
+    char trimmed[MAX_INPUT_BYTES + 1];
+    memcpy(trimmed, text + a, b - a);
+    trimmed[b - a] = '\0';
+    int has_nul = memchr(cell, 0, len) != NULL;
+    char *end;
+    double want = strtod(trimmed, &end);
+    int whole = !has_nul && b > a && *end == '\0' && trimmed[0] != ' ' &&
+                !(trimmed[0] >= '\t' && trimmed[0] <= '\r');
+    if (k == NUMBER_FINITE) {
+        if (!whole) fault("\"%s\": finite for number_parse, strtod stops at \"%s\"", text, end);
+        if (bits_of(want) != bits_of(d.value))
+            fault("\"%s\": number_parse %.17g, strtod %.17g", text, d.value, want);
+        if (d.exact && bits_of(number_to_double(d.mantissa, d.exp10, d.negative)) != bits_of(d.value))
+            fault("\"%s\": number_to_double(%llu, %d) %.17g, value %.17g", text,
+                  (unsigned long long)d.mantissa, d.exp10,
+                  number_to_double(d.mantissa, d.exp10, d.negative), d.value);
+    } else if (k == NUMBER_NONFINITE) {
+        if (!whole) fault("\"%s\": non-finite for number_parse, strtod stops at \"%s\"", text, end);
+        if (!(isnan(want) && isnan(d.value)) && !(isinf(want) && want == d.value))
+            fault("\"%s\": number_parse %g, strtod %g", text, d.value, want);
+    } else if (whole && strspn(trimmed, "0123456789+-.eE") == b - a) {
+        fault("\"%s\": strtod reads %.17g, number_parse calls it text", text, want);
+    }
+    *out = d;
+    return k;
+}
+
+/* The exact difference a - b of two exact decimals written as a decimal
+ * string, when their powers of ten are within 40 of each other. */
+static int exact_difference_text(const number_decimal *x, const number_decimal *y, char *buf,
+                                 size_t len)
+{
+    if (!x->exact || !y->exact) return 0;
+    int32_t e = x->exp10 < y->exp10 ? x->exp10 : y->exp10;
+    if (x->exp10 - e > 40 || y->exp10 - e > 40) return 0;
+    /* Each mantissa times 10^(its power - e) as decimal digits (at most
+     * 20 + 40), then added or subtracted digit by digit. */
+    char xs[80], ys[80];
+    int nx = snprintf(xs, sizeof xs, "%llu%0*d", (unsigned long long)x->mantissa,
+                      (int)(x->exp10 - e), 0);
+    int ny = snprintf(ys, sizeof ys, "%llu%0*d", (unsigned long long)y->mantissa,
+                      (int)(y->exp10 - e), 0);
+    if (x->exp10 == e) nx = snprintf(xs, sizeof xs, "%llu", (unsigned long long)x->mantissa);
+    if (y->exp10 == e) ny = snprintf(ys, sizeof ys, "%llu", (unsigned long long)y->mantissa);
+    /* Signed values sx*X - sy*Y: add or subtract magnitudes. */
+    int sx = x->negative ? -1 : 1, sy = y->negative ? 1 : -1; /* a + (-b) */
+    char r[96];
+    int neg;
+    int width = (nx > ny ? nx : ny) + 1;
+    int dx[96] = {0}, dy[96] = {0}, dr[96] = {0};
+    for (int i = 0; i < nx; i++) dx[width - nx + i] = xs[i] - '0';
+    for (int i = 0; i < ny; i++) dy[width - ny + i] = ys[i] - '0';
+    if (sx == sy) {
+        int carry = 0;
+        for (int i = width - 1; i >= 0; i--) {
+            int s = dx[i] + dy[i] + carry;
+            dr[i] = s % 10;
+            carry = s / 10;
+        }
+        neg = sx < 0;
+    } else {
+        int cmp = 0; /* |X| vs |Y|: the first digit that differs */
+        for (int i = 0; i < width && !cmp; i++) cmp = dx[i] - dy[i];
+        int *big = cmp >= 0 ? dx : dy, *small = cmp >= 0 ? dy : dx;
+        int borrow = 0;
+        for (int i = width - 1; i >= 0; i--) {
+            int s = big[i] - small[i] - borrow;
+            borrow = s < 0;
+            dr[i] = s + (borrow ? 10 : 0);
+        }
+        neg = (cmp >= 0 ? sx : sy) < 0;
+    }
+    int n = 0;
+    r[n++] = neg ? '-' : '+';
+    for (int i = 0; i < width; i++) r[n++] = (char)('0' + dr[i]);
+    r[n] = '\0';
+    snprintf(buf, len, "%se%d", r, e);
+    return 1;
+}
+
+int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
+{
+    if (size > MAX_INPUT_BYTES) size = MAX_INPUT_BYTES;
+    const uint8_t *bar = memchr(data, '|', size);
+    number_decimal x, y;
+    if (!bar) {
+        check_cell(data, size, &x);
+        return 0;
+    }
+    size_t la = (size_t)(bar - data);
+    number_kind ka = check_cell(data, la, &x);
+    number_kind kb = check_cell(bar + 1, size - la - 1, &y);
+    if (ka != NUMBER_FINITE || kb != NUMBER_FINITE) return 0;
+    number_ref r;
+    number_ref_set(&r, &y);
+    int took_exact = 0;
+    double general = number_difference(&x, &y, &took_exact);
+    double inline_d = number_deviation(&x, &r);
+    if (bits_of(general) != bits_of(inline_d) && !(isnan(general) && isnan(inline_d)))
+        fault("%.17g - %.17g: number_difference %.17g, number_deviation %.17g", x.value, y.value,
+              general, inline_d);
+    char text[160];
+    if (took_exact && exact_difference_text(&x, &y, text, sizeof text)) {
+        double want = strtod(text, NULL);
+        /* Zero's sign: the integer path gives +0 for equal decimals. */
+        if (bits_of(want) != bits_of(general) && !(want == 0 && general == 0))
+            fault("%.17g - %.17g: exact path gives %.17g, strtod(\"%s\") %.17g", x.value, y.value,
+                  general, text, want);
+    }
+    return 0;
+}
+
+#ifdef FUZZ_REPLAY_MAIN
+/* Replays files (and the files in directories) without libFuzzer. */
+static int replay_file(const char *path)
+{
+    FILE *f = fopen(path, "rb");
+    if (!f) { fprintf(stderr, "%s: cannot open\n", path); return -1; }
+    uint8_t buf[MAX_INPUT_BYTES];
+    size_t n = fread(buf, 1, sizeof buf, f);
+    fclose(f);
+    fprintf(stderr, "replay %s (%zu bytes)\n", path, n);
+    LLVMFuzzerTestOneInput(buf, n);
+    return 0;
+}
+
+int main(int argc, char **argv)
+{
+    int files = 0, bad = 0;
+    for (int i = 1; i < argc; i++) {
+        struct stat st;
+        if (stat(argv[i], &st) != 0) { fprintf(stderr, "%s: not found\n", argv[i]); bad++; continue; }
+        if (!S_ISDIR(st.st_mode)) { bad += replay_file(argv[i]) != 0; files++; continue; }
+        struct dirent **list;
+        int n = scandir(argv[i], &list, NULL, alphasort);
+        for (int k = 0; k < n; k++) {
+            if (list[k]->d_name[0] != '.') {
+                char p[4096];
+                snprintf(p, sizeof p, "%s/%s", argv[i], list[k]->d_name);
+                bad += replay_file(p) != 0;
+                files++;
+            }
+            free(list[k]);
+        }
+        free(n >= 0 ? list : NULL);
+    }
+    printf("replayed %d inputs, %d unreadable\n", files, bad);
+    return bad ? 1 : 0;
+}
+#endif
