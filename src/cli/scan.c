@@ -37,7 +37,7 @@ int cmd_scan(int argc, char **argv)
         {"task", 0, "TASK", "classify or regress (default: decided when the summary is read)",
          &task, NULL},
         {"max-classes", 0, "N", "target classes kept (default 256)", &classes, NULL},
-        {"mem", 0, "SIZE", "refuse when the co-moment matrix needs more (default: half of RAM)",
+        {"mem", 0, "SIZE", "memory the scan may add: co-moments and chunk buffers checked before reading, everything after each chunk (default: half of RAM)",
          &mem, NULL},
         {"missing", 0, "S1,S2,..", "missing-value spellings (default NA,N/A,null,NULL,None,-,?)",
          &missing, NULL},

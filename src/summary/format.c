@@ -580,13 +580,16 @@ summary_status summary_decode(const uint8_t *data, size_t len, summary **out, ch
         else if (k == 4) decode_columns(s, &p, &ds);
         else decode_comoments(s, &p, &ds);
         if (p.failed || p.pos != p.len || !s) {
-            int nomem = !ds.why[0] && errno == ENOMEM;
-            if (ds.why[0])
-                snprintf(err, errlen, "damaged summary (section %d %s: %s)", k + 1, names[k],
-                         ds.why);
-            else if (nomem)
+            /* Counts are checked against the bytes that remain before
+             * anything is allocated for them: a failed allocation is a
+             * real shortage. */
+            int nomem = errno == ENOMEM;
+            if (nomem)
                 snprintf(err, errlen, "out of memory while decoding section %d %s", k + 1,
                          names[k]);
+            else if (ds.why[0])
+                snprintf(err, errlen, "damaged summary (section %d %s: %s)", k + 1, names[k],
+                         ds.why);
             else
                 snprintf(err, errlen, "damaged summary (section %d %s does not parse)", k + 1,
                          names[k]);

@@ -14,6 +14,7 @@
 #include <stdlib.h>
 #include <string.h>
 #include <sys/stat.h>
+#include <unistd.h>
 #define XXH_INLINE_ALL
 #include <xxhash.h>
 
@@ -46,6 +47,8 @@ struct scan_context {
     reader_cursor head;    /* reads a stream's first record on the reading thread */
     chunks *work;          /* the chunks into the summary (once the schema is known) */
     unsigned threads;      /* worker threads */
+    uint64_t rss_base;     /* resident bytes when the scan was created (--mem) */
+    uint64_t pushed_bytes; /* stream bytes handed to the workers (--mem messages) */
     summary *run;          /* the summary (once the schema is known) */
     reader_missing missing; /* the missing-cell test */
     /* The schema, from the first stream's first record (run is made then). */
@@ -85,6 +88,45 @@ static scan_status fail(scan_context *sc, scan_status st, const char *msg)
 }
 
 /* ---- the reading thread ---------------------------------------------------- */
+
+/* Resident bytes of the process (/proc/self/statm), 0 when unknown. */
+static uint64_t resident_bytes(void)
+{
+    FILE *f = fopen("/proc/self/statm", "re");
+    if (!f) return 0;
+    unsigned long long size = 0, resident = 0;
+    int n = fscanf(f, "%llu %llu", &size, &resident);
+    fclose(f);
+    long page = sysconf(_SC_PAGESIZE);
+    return n == 2 && page > 0 ? (uint64_t)resident * (uint64_t)page : 0;
+}
+
+/* --mem, during the scan: what the scan added to the process's resident
+ * memory since it was created, checked after every chunk the reading thread
+ * hands on.  The structures that grow with the data (value tables, bucket
+ * stores, per-value class tables, chunk buffers of long records) are
+ * bounded by their options, not by the limit; this check stops the scan
+ * when their sum passes it. */
+static scan_status within_limit(scan_context *sc, int before_rows)
+{
+    if (!sc->o.mem_limit_bytes) return SCAN_OK;
+    uint64_t now = resident_bytes();
+    if (!now || now <= sc->rss_base || now - sc->rss_base <= sc->o.mem_limit_bytes) return SCAN_OK;
+    if (before_rows)
+        snprintf(sc->err, sizeof sc->err,
+                 "the accumulators of %zu columns (with %u target classes at most) take %.0f MiB "
+                 "before any row, above the %.0f MiB memory limit (--mem)",
+                 sc->run ? sc->run->ncols : (size_t)0, sc->o.opt.target ? sc->o.opt.max_classes : 0,
+                 (now - sc->rss_base) / 1048576.0, sc->o.mem_limit_bytes / 1048576.0);
+    else
+        snprintf(sc->err, sizeof sc->err,
+                 "%s: byte %llu: the scan holds %.0f MiB (its accumulators, chunk buffers and "
+                 "co-moments), above the %.0f MiB memory limit (--mem)",
+                 sc->name ? sc->name : "input", (unsigned long long)sc->pushed_bytes,
+                 (now - sc->rss_base) / 1048576.0, sc->o.mem_limit_bytes / 1048576.0);
+    return fail(sc, SCAN_ERR_MEMORY, NULL);
+}
+
 
 static int start_work(scan_context *sc)
 {
@@ -285,6 +327,19 @@ static scan_status setup(scan_context *sc, char **names, size_t nnames)
         st = SCAN_ERR_MEMORY;
         goto done;
     }
+    /* The chunk buffers: one per worker slot, and the reader's own (a chunk
+     * being cut and the next being read). */
+    uint64_t nbuf = (uint64_t)sc->threads + 2, chunk = o->chunk_bytes + 64;
+    if (o->mem_limit_bytes && need + nbuf * chunk > o->mem_limit_bytes) {
+        snprintf(sc->err, sizeof sc->err,
+                 "the co-moment matrix (%.1f MiB) and %llu chunk buffers of %.1f MiB need "
+                 "%.0f MiB before any row, above the %.0f MiB limit (--mem); lower --chunk-size "
+                 "or --threads, or raise --mem",
+                 need / 1048576.0, (unsigned long long)nbuf, chunk / 1048576.0,
+                 (need + nbuf * chunk) / 1048576.0, o->mem_limit_bytes / 1048576.0);
+        st = SCAN_ERR_MEMORY;
+        goto done;
+    }
     sc->run = summary_create(&o->opt, n, cols, modes, 1);
     if (!sc->run) {
         snprintf(sc->err, sizeof sc->err, "out of memory: the accumulators of %zu columns", n);
@@ -297,6 +352,10 @@ static scan_status setup(scan_context *sc, char **names, size_t nnames)
     if (start_work(sc) != 0) {
         snprintf(sc->err, sizeof sc->err,
                  "out of memory: the chunk buffers and worker threads of the scan");
+        st = SCAN_ERR_MEMORY;
+        goto done;
+    }
+    if (within_limit(sc, 1) != SCAN_OK) {
         st = SCAN_ERR_MEMORY;
         goto done;
     }
@@ -454,6 +513,8 @@ static scan_status drain(scan_context *sc)
         }
         scan_status st = chunks_push(sc->work, &ch, first, sc->repeats, nrep);
         if (st != SCAN_OK) return worked(sc, st);
+        sc->pushed_bytes = ch.offset + ch.len;
+        if (within_limit(sc, 0) != SCAN_OK) return sc->failed;
     }
     return SCAN_OK;
 }
@@ -536,6 +597,7 @@ scan_context *scan_create(const scan_options *o)
     sc->head_ro.raw = 1;
     reader_cursor_init(&sc->head, &sc->head_ro);
     sc->threads = o->threads ? o->threads : pipeline_cpus();
+    sc->rss_base = o->mem_limit_bytes ? resident_bytes() : 0;
     reader_missing_init(&sc->missing, (const char *const *)o->opt.missing, o->opt.n_missing);
     return sc;
 }
@@ -710,6 +772,9 @@ summary *scan_finish(scan_context *sc)
     if (sc->failed) return NULL;
     if (sc->open) { fail(sc, SCAN_ERR_USAGE, "scan_finish: a stream is still open (scan_end)"); return NULL; }
     if (!sc->run) { fail(sc, SCAN_ERR_INPUT, "no records (nothing was scanned)"); return NULL; }
+    /* Every chunk is absorbed by now (scan_end waited): the last check of
+     * --mem sees all that the workers added. */
+    if (within_limit(sc, 0) != SCAN_OK) return NULL;
     chunks_free(sc->work);
     sc->work = NULL;
     summary *s = sc->run;

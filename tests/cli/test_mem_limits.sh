@@ -74,3 +74,18 @@ done
 # levels above really exercise the limits on this machine).
 limited 100 info_refused_at_100M $SHEAF info "$T/t.sheaf"
 check info_exits_6_at_100M "exit $RC, expected 6 (the limit no longer binds?)" test "$RC" = 6
+
+# --mem bounds the whole scan, not only the co-moment matrix.  Without a
+# limit this scan adds about 80 MiB (value tables, bucket stores and class
+# tables of 301 columns); before the change --mem 20M let it run to the end.
+run $SHEAF scan -q -j2 "$T/w.csv" --target label --mem 7M -o "$T/l.sheaf"
+check mem_7M_refused_before_reading "exit $RC: $(err_text)" \
+    bash -c "[ $RC = 6 ] && grep -q 'before any row' '$T/err' && [ ! -e '$T/l.sheaf' ]"
+for j in 1 2; do
+    run $SHEAF scan -q -j$j "$T/w.csv" --target label --mem 20M -o "$T/l.sheaf"
+    check "mem_20M_stops_the_scan_j$j" "exit $RC: $(err_text)" \
+        bash -c "[ $RC = 6 ] && grep -q 'above the 20 MiB memory limit' '$T/err' && [ ! -e '$T/l.sheaf' ]"
+done
+run $SHEAF scan -q -j2 "$T/w.csv" --target label --mem 1G -o "$T/l.sheaf"
+check mem_1G_scans "exit $RC: $(err_text)" test "$RC" = 0
+check mem_1G_same_summary "differs from the scan without --mem" cmp -s "$T/l.sheaf" "$T/t.sheaf"
