@@ -160,9 +160,13 @@ deps:
 # The suites, then the sanitized quick subset (both always run).
 test: deps-check
 	@$(MAKE) --no-print-directory all $(TEST_BIN) $(DEMO_BIN) sanitize-build
-	@tests/run.sh $(TEST_BIN); rc=$$?; \
+	@mkdir -p build/test-logs; \
+	tests/run.sh $(TEST_BIN) | tee build/test-logs/total-main.txt | sed '$$d'; \
 	echo "-- under AddressSanitizer and UndefinedBehaviorSanitizer (build/asan/):"; \
-	$(ASAN_QUICK_RUN) || rc=1; exit $$rc
+	$(ASAN_QUICK_RUN) | tee build/test-logs/total-asan.txt | sed '$$d'; \
+	awk '/^[0-9]+ passed, [0-9]+ failed$$/ { p += $$1; f += $$3; n++ } \
+	     END { if (n < 2) f++; printf "%d passed, %d failed\n", p, f; exit f > 0 }' \
+	    build/test-logs/total-main.txt build/test-logs/total-asan.txt
 
 demo: deps-check
 	@$(MAKE) --no-print-directory all $(DEMO_BIN)

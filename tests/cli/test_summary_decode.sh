@@ -154,7 +154,7 @@ crafted como_mean_outside cls "COMO.MEAN[1][2]=1e9"
 crafted como_cauchy_schwarz cls "COMO.C[1][2]=1e12" "COMO.C[2][1]=1e12"
 
 # Bit flips with the checksums recomputed: every reader exits 0 or 4.
-flips=${SHEAF_DECODE_FLIPS:-200}
+flips=${SHEAF_DECODE_FLIPS:-100}
 mkdir -p "$T/flips"
 $CRAFT flips "$T/cls.sheaf" "$T/flips" "$flips" 12 >"$T/flips.list"
 $SHEAF info --json "$T/cls.sheaf" >"$T/info.ref" 2>/dev/null

@@ -196,42 +196,5 @@ int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
 }
 
 #ifdef FUZZ_REPLAY_MAIN
-/* Replays files (and the files in directories) without libFuzzer. */
-static int replay_file(const char *path)
-{
-    FILE *f = fopen(path, "rb");
-    if (!f) { fprintf(stderr, "%s: cannot open\n", path); return -1; }
-    uint8_t *buf = malloc(MAX_INPUT_BYTES);
-    size_t n = buf ? fread(buf, 1, MAX_INPUT_BYTES, f) : 0;
-    fclose(f);
-    if (!buf) return -1;
-    fprintf(stderr, "replay %s (%zu bytes)\n", path, n);
-    LLVMFuzzerTestOneInput(buf, n);
-    free(buf);
-    return 0;
-}
-
-int main(int argc, char **argv)
-{
-    int files = 0, bad = 0;
-    for (int i = 1; i < argc; i++) {
-        struct stat st;
-        if (stat(argv[i], &st) != 0) { fprintf(stderr, "%s: not found\n", argv[i]); bad++; continue; }
-        if (!S_ISDIR(st.st_mode)) { bad += replay_file(argv[i]) != 0; files++; continue; }
-        struct dirent **list;
-        int n = scandir(argv[i], &list, NULL, alphasort);
-        for (int k = 0; k < n; k++) {
-            if (list[k]->d_name[0] != '.') {
-                char p[4096];
-                snprintf(p, sizeof p, "%s/%s", argv[i], list[k]->d_name);
-                bad += replay_file(p) != 0;
-                files++;
-            }
-            free(list[k]);
-        }
-        free(n >= 0 ? list : NULL);
-    }
-    printf("replayed %d inputs, %d unreadable\n", files, bad);
-    return bad ? 1 : 0;
-}
+#include "replay_main.h"
 #endif
