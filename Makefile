@@ -15,6 +15,7 @@ DEB_PKGS := build-essential pkg-config libisal-dev isal zlib1g-dev libzstd-dev z
             python3-numpy python3-scipy python3-pandas python3-statsmodels parallel \
             hyperfine time bc clang
 
+NPROC   := $(shell nproc 2>/dev/null || echo 1)
 LIB_SRC := $(wildcard src/io/*.c src/acc/*.c src/summary/*.c src/stats/*.c src/out/*.c src/pass/*.c)
 CLI_SRC := $(wildcard src/cli/*.c)
 LIB_OBJ := $(LIB_SRC:%.c=build/%.o)
@@ -159,7 +160,7 @@ deps:
 
 # The suites, then the sanitized quick subset (both always run).
 test: deps-check
-	@$(MAKE) --no-print-directory all $(TEST_BIN) $(DEMO_BIN) sanitize-build
+	@$(MAKE) --no-print-directory -j$(NPROC) all $(TEST_BIN) $(DEMO_BIN) sanitize-build
 	@mkdir -p build/test-logs; \
 	tests/run.sh $(TEST_BIN) | tee build/test-logs/total-main.txt | sed '$$d'; \
 	echo "-- under AddressSanitizer and UndefinedBehaviorSanitizer (build/asan/):"; \

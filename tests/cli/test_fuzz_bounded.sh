@@ -40,6 +40,7 @@ runs_for() {
         scan_threads) echo 150 ;;
         csv_reader) echo 8000 ;;
         number) echo 100000 ;;
+        summary_decode) echo 1000 ;;
         *) echo 2000 ;;
     esac
 }
@@ -73,7 +74,7 @@ why() {
 
 fuzz_one() {
     local name=$1 bin=build/fuzz/${PREFIX}_$1 corpus=tests/fuzz/corpus/$1
-    if ! make -s "$bin" >"$T/build.log" 2>&1; then
+    if ! make -s -j"$(nproc)" "$bin" >"$T/build.log" 2>&1; then
         fail "$name.build" "make $bin: $(grep -a -m 3 -E 'error|Error' "$T/build.log" | tr '\n' '|' | cut -c1-300)"
         return
     fi

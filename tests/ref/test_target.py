@@ -639,13 +639,13 @@ def test_mem_limit():
         for _ in range(200):
             f.write(",".join("%.3f" % v for v in rng.normal(size=300)) + "\n")
     out = new_path()
-    rc, _, err = run([SHEAF, "scan", "-q", p, "--mem", "1M", "-o", out])
-    check("mem.300_columns_1M.exit_6", rc == 6, "exit %d: %s" % (rc, err))
-    check("mem.300_columns_1M.says_need",
+    rc, _, err = run([SHEAF, "scan", "-q", p, "--mem", "5M", "-o", out])
+    check("mem.300_columns_5M.exit_6", rc == 6, "exit %d: %s" % (rc, err))
+    check("mem.300_columns_5M.says_need",
           re.search(r"needs? [0-9.]+ ?[KMG]i?B", err) is not None, "stderr: %s" % err)
-    check("mem.300_columns_1M.mentions_columns", "--columns" in err, "stderr: %s" % err)
-    check("mem.300_columns_1M.one_line", err.count("\n") == 0 and err != "", "stderr: %r" % err)
-    check("mem.300_columns_1M.no_output", not os.path.exists(out), "output exists")
+    check("mem.300_columns_5M.mentions_columns", "--columns" in err, "stderr: %s" % err)
+    check("mem.300_columns_5M.one_line", err.count("\n") == 0 and err != "", "stderr: %r" % err)
+    check("mem.300_columns_5M.no_output", not os.path.exists(out), "output exists")
     info, s = scan([p])
     check("mem.300_columns_default.ok", info is not None and len(info["columns"]) == 300,
           s if info is None else "%d columns" % len(info["columns"]))
@@ -653,8 +653,11 @@ def test_mem_limit():
         cr, err = corr_of(s)
         check("mem.300_columns_default.corr", cr is not None and len(cr["columns"]) == 300,
               err or "%d columns" % len(cr["columns"]))
-    info, s = scan([p], ["--mem", "1M", "--columns", ",".join("w%d" % i for i in range(20))])
-    check("mem.1M_with_20_columns.ok", info is not None and len(info["columns"]) == 20,
+    # --mem bounds the whole scan: 20 columns need their co-moments (0.1 MiB)
+    # and 4 chunk buffers of 1 MiB at -j2, so 5 MiB fits them, not 300 columns.
+    info, s = scan([p], ["--mem", "5M", "-j", "2",
+                         "--columns", ",".join("w%d" % i for i in range(20))])
+    check("mem.5M_with_20_columns.ok", info is not None and len(info["columns"]) == 20,
           s if info is None else "%d columns" % len(info["columns"]))
 
 
