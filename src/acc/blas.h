@@ -4,8 +4,8 @@
  * on them) OpenBLAS allocates a working buffer of BLAS_BUFFER_BYTES, which it
  * keeps for the thread's life.  When that allocation fails (an address-space
  * limit such as `ulimit -v`, or strict overcommit) it does not return an
- * error: it retries forever.  blas_thread_ready allocates the same amount
- * itself first, frees it, and makes a 1 x 1 call at once so that OpenBLAS
+ * error: it retries forever.  blas_thread_ready maps the same amount of
+ * address space itself first (mmap, as OpenBLAS does), unmaps it, and makes a 1 x 1 call at once so that OpenBLAS
  * takes the buffer while the space is known to be free.  The check is made
  * once per thread; later calls cost a thread-local test.
  *
