@@ -25,6 +25,7 @@
 #include "summary/chunks.h"
 #include "io/reader.h"
 #include "summary/block.h"
+#include "summary/schema.h"
 
 _Static_assert(CHUNK_PADDING >= CSV_READ_AHEAD && CHUNK_PADDING >= NUMBER_READ_AHEAD,
                "chunks must be readable past their end");
@@ -146,175 +147,18 @@ static scan_status worked(scan_context *sc, scan_status st)
     return st;
 }
 
-static int split_list(const char *s, char ***items, char **buf)
-{
-    *items = NULL;
-    *buf = NULL;
-    if (!s || !*s) return 0;
-    *buf = strdup(s);
-    size_t n = 1;
-    for (const char *p = s; *p; p++) n += *p == ',';
-    *items = calloc(n, sizeof **items);
-    if (!*buf || !*items) return -1;
-    size_t k = 0;
-    for (char *tok = strtok(*buf, ","); tok; tok = strtok(NULL, ",")) (*items)[k++] = tok;
-    return (int)k;
-}
-
-static int in_list(char **items, int n, const char *name)
-{
-    for (int i = 0; i < n; i++)
-        if (strcmp(items[i], name) == 0) return 1;
-    return 0;
-}
-
-/* Refuses a name that several header fields carry (an option could not
- * say which it means).  0, or -1 with the message. */
-static int ambiguous(scan_context *sc, const char *opt, const char *name, char **names,
-                     size_t nnames)
-{
-    size_t first = 0, count = 0, second = 0;
-    for (size_t k = 0; k < nnames; k++)
-        if (strcmp(names[k], name) == 0) {
-            if (count == 0) first = k;
-            else if (count == 1) second = k;
-            count++;
-        }
-    if (count < 2) return 0;
-    snprintf(sc->err, sizeof sc->err,
-             "%s: '%s' names %zu columns of %s's header (fields %zu and %zu%s); rename them to "
-             "tell them apart",
-             opt, name, count, sc->first_path, first + 1, second + 1, count > 2 ? ", ..." : "");
-    return -1;
-}
-
-/* Checks every name in a list exists in the header, once. */
-static int check_names(scan_context *sc, const char *opt, char **items, int n, char **names,
-                       size_t nnames)
-{
-    for (int i = 0; i < n; i++) {
-        size_t k = 0;
-        while (k < nnames && strcmp(names[k], items[i]) != 0) k++;
-        if (k == nnames) {
-            snprintf(sc->err, sizeof sc->err, "%s: no column named '%s' in the header", opt, items[i]);
-            return -1;
-        }
-        if (ambiguous(sc, opt, items[i], names, nnames)) return -1;
-    }
-    return 0;
-}
-
-typedef struct {
-    const char *name; /* a header name */
-    size_t field;     /* its field index */
-} named_field;
-
-static int named_field_cmp(const void *a, const void *b)
-{
-    const named_field *x = a, *y = b;
-    int c = strcmp(x->name, y->name);
-    return c ? c : (x->field > y->field) - (x->field < y->field);
-}
-
-/* Warns once (o.warn) when header names repeat, naming the file and them. */
-static int warn_duplicates(scan_context *sc, char **names, size_t nnames)
-{
-    if (!sc->o.warn || nnames < 2) return 0;
-    named_field *nf = malloc(nnames * sizeof *nf);
-    if (!nf) return -1;
-    for (size_t i = 0; i < nnames; i++) nf[i] = (named_field){names[i], i};
-    qsort(nf, nnames, sizeof *nf, named_field_cmp);
-    char msg[1024];
-    size_t used = 0, groups = 0;
-    for (size_t i = 0; i < nnames;) {
-        size_t e = i + 1;
-        while (e < nnames && strcmp(nf[e].name, nf[i].name) == 0) e++;
-        if (e - i > 1 && used < sizeof msg - 64) {
-            int w = snprintf(msg + used, sizeof msg - used, "%s'%.80s' (fields", groups ? ", " : "",
-                             nf[i].name);
-            used += w > 0 ? (size_t)w : 0;
-            for (size_t k = i; k < e && used < sizeof msg - 32; k++) {
-                w = snprintf(msg + used, sizeof msg - used, "%s %zu", k > i ? "," : "", nf[k].field + 1);
-                used += w > 0 ? (size_t)w : 0;
-            }
-            if (used < sizeof msg - 2) used += (size_t)snprintf(msg + used, sizeof msg - used, ")");
-            groups++;
-        }
-        i = e;
-    }
-    free(nf);
-    if (groups) {
-        char line[sizeof sc->shown + sizeof msg + 96];
-        snprintf(line, sizeof line,
-                 "%s: duplicate column name%s in the header: %s; options cannot name %s",
-                 sc->shown, groups > 1 ? "s" : "", msg, groups > 1 ? "them" : "it");
-        sc->o.warn(sc->o.warn_ctx, line);
-    }
-    return 0;
-}
-
-/* The schema from the header names: the scanned columns, their modes and
- * fields; then the summary and its chunks. */
+/* The schema from the header names (summary/schema.h), then the summary and
+ * its chunks. */
 static scan_status setup(scan_context *sc, char **names, size_t nnames)
 {
     const scan_options *o = &sc->o;
-    char **sel, **num, **cat, **ign, *b1, *b2, *b3, *b4;
-    int nsel = split_list(o->columns, &sel, &b1), nnum = split_list(o->numeric, &num, &b2);
-    int ncat = split_list(o->categorical, &cat, &b3), nign = split_list(o->ignore, &ign, &b4);
-    scan_status st = SCAN_OK;
-    char **cols = calloc(nnames ? nnames : 1, sizeof *cols);
-    column_mode *modes = calloc(nnames ? nnames : 1, sizeof *modes);
-    int *field_of = calloc(nnames ? nnames : 1, sizeof *field_of);
-    if (nsel < 0 || nnum < 0 || ncat < 0 || nign < 0 || !cols || !modes || !field_of) {
-        snprintf(sc->err, sizeof sc->err, "out of memory: the list of %zu columns", nnames);
-        st = SCAN_ERR_MEMORY;
-        goto done;
-    }
-    if (warn_duplicates(sc, names, nnames) != 0) {
-        snprintf(sc->err, sizeof sc->err, "out of memory");
-        st = SCAN_ERR_MEMORY;
-        goto done;
-    }
-    if (check_names(sc, "--columns", sel, nsel, names, nnames) ||
-        check_names(sc, "--numeric", num, nnum, names, nnames) ||
-        check_names(sc, "--categorical", cat, ncat, names, nnames) ||
-        check_names(sc, "--ignore", ign, nign, names, nnames)) {
-        st = SCAN_ERR_USAGE;
-        goto done;
-    }
-    for (int i = 0; i < nnum; i++)
-        if (in_list(cat, ncat, num[i])) {
-            snprintf(sc->err, sizeof sc->err, "column '%s' is declared both numeric and categorical",
-                     num[i]);
-            st = SCAN_ERR_USAGE;
-            goto done;
-        }
-    size_t n = 0;
-    for (size_t f = 0; f < nnames; f++) {
-        if (nsel > 0 && !in_list(sel, nsel, names[f])) continue;
-        if (in_list(ign, nign, names[f])) continue;
-        cols[n] = names[f];
-        modes[n] = in_list(num, nnum, names[f])   ? COLUMN_NUMERIC
-                   : in_list(cat, ncat, names[f]) ? COLUMN_CATEGORICAL
-                                                  : COLUMN_AUTO;
-        field_of[n] = (int)f;
-        n++;
-    }
-    if (o->opt.target) {
-        size_t t = 0;
-        while (t < n && strcmp(cols[t], o->opt.target) != 0) t++;
-        if (t < n && ambiguous(sc, "--target", o->opt.target, names, nnames)) {
-            st = SCAN_ERR_USAGE;
-            goto done;
-        }
-        if (t == n) {
-            snprintf(sc->err, sizeof sc->err, "--target: no column named '%s' %s", o->opt.target,
-                     in_list(ign, nign, o->opt.target) || nsel > 0 ? "among the scanned columns"
-                                                                   : "in the header");
-            st = SCAN_ERR_USAGE;
-            goto done;
-        }
-    }
+    schema_plan plan;
+    scan_status st = schema_plan_make(o, sc->first_path, sc->shown, names, nnames, &plan, sc->err,
+                                      sizeof sc->err);
+    if (st != SCAN_OK) return st;
+    size_t n = plan.n;
+    char **cols = plan.cols;
+    column_mode *modes = plan.modes;
     size_t ncomo = 0;
     for (size_t j = 0; j < n; j++) ncomo += modes[j] != COLUMN_CATEGORICAL;
     uint64_t need = summary_comoment_bytes(ncomo);
@@ -346,8 +190,8 @@ static scan_status setup(scan_context *sc, char **names, size_t nnames)
         st = SCAN_ERR_MEMORY;
         goto done;
     }
-    sc->field_of = field_of;
-    field_of = NULL;
+    sc->field_of = plan.field_of;
+    plan.field_of = NULL;
     sc->file_fields = nnames;
     if (start_work(sc) != 0) {
         snprintf(sc->err, sizeof sc->err,
@@ -360,9 +204,7 @@ static scan_status setup(scan_context *sc, char **names, size_t nnames)
         goto done;
     }
 done:
-    free(sel); free(num); free(cat); free(ign);
-    free(b1); free(b2); free(b3); free(b4);
-    free(cols); free(modes); free(field_of);
+    schema_plan_free(&plan);
     return st;
 }
 
