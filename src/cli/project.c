@@ -48,7 +48,7 @@ int cmd_project(int argc, char **argv)
         {"delim", 'd', "CHAR", "field delimiter: , ; | or tab (default: detected per file)",
          &delim_s, NULL},
         {"no-header", 0, NULL, "first row is data; columns are named col1..colN", NULL, &no_header},
-        {"chunk-size", 0, "SIZE", "bytes per chunk, e.g. 4M (default 1 MiB)", &chunk, NULL},
+        {"chunk-size", 0, "SIZE", "bytes per chunk, e.g. 1M (default 256 KiB)", &chunk, NULL},
         {"max-record", 0, "SIZE", "longest record accepted (default 64 MiB)", &maxrec, NULL},
         {"threads", 'j', "N", CLI_THREADS_HELP, &threads, NULL},
         {"quiet", 'q', NULL, "no progress line", NULL, &quiet},

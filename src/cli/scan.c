@@ -44,7 +44,7 @@ int cmd_scan(int argc, char **argv)
         {"max-levels", 0, "N", "exact value counts per column before overflow (default 1024)",
          &levels, NULL},
         {"bucket-budget", 0, "N", "occupied value buckets per column (default 2048)", &budget, NULL},
-        {"chunk-size", 0, "SIZE", "bytes per chunk, e.g. 4M (default 1 MiB)", &chunk, NULL},
+        {"chunk-size", 0, "SIZE", "bytes per chunk, e.g. 1M (default 256 KiB)", &chunk, NULL},
         {"max-record", 0, "SIZE", "longest record accepted (default 64 MiB)", &maxrec, NULL},
         {"shard", 0, "I/N", "read only the records that start in the I-th of N byte ranges "
          "(one plain file)", &shard, NULL},

@@ -87,7 +87,7 @@ int cmd_trim(int argc, char **argv)
          NULL},
         {"delim", 'd', "CHAR", "field delimiter (default: detected)", &delim_s, NULL},
         {"no-header", 0, NULL, "first row is data; columns are named col1..colN", NULL, &no_header},
-        {"chunk-size", 0, "SIZE", "bytes per chunk, e.g. 4M (default 1 MiB)", &chunk, NULL},
+        {"chunk-size", 0, "SIZE", "bytes per chunk, e.g. 1M (default 256 KiB)", &chunk, NULL},
         {"max-record", 0, "SIZE", "longest record accepted (default 64 MiB)", &maxrec, NULL},
         {"q", 0, "LEVEL", "as in screen: significance level (default 0.05)", &q, NULL},
         {"top", 0, "K", "as in screen: keep at most K columns", &top, NULL},

@@ -43,7 +43,7 @@ struct reader {
 void reader_options_defaults(reader_options *o)
 {
     memset(o, 0, sizeof *o);
-    o->chunk_bytes = 1u << 20;
+    o->chunk_bytes = 256u << 10;
     o->max_record_bytes = 64u << 20;
 }
 

@@ -36,7 +36,7 @@ void scan_options_defaults(scan_options *o)
     memset(o, 0, sizeof *o);
     summary_options_defaults(&o->opt);
     o->header = 1;
-    o->chunk_bytes = 1u << 20;
+    o->chunk_bytes = 256u << 10;
     o->max_record_bytes = 64u << 20;
 }
 
