@@ -122,7 +122,14 @@ int block_como_init(block_como *bc, size_t ncomo)
     bc->mask = malloc(cells * sizeof *bc->mask);
     bc->center = malloc((ncomo + 1) * sizeof *bc->center);
     bc->complete = malloc(ncomo + 1);
-    return bc->x && bc->mask && bc->center && bc->complete ? 0 : -1;
+    bc->stage_dev = malloc(cells * sizeof *bc->stage_dev);
+    bc->stage_present = malloc(cells);
+    bc->dev_at = malloc((ncomo + 1) * sizeof *bc->dev_at);
+    bc->present_at = malloc((ncomo + 1) * sizeof *bc->present_at);
+    return bc->x && bc->mask && bc->center && bc->complete && bc->stage_dev &&
+                   bc->stage_present && bc->dev_at && bc->present_at
+               ? 0
+               : -1;
 }
 
 void block_como_free(block_como *bc)
@@ -131,6 +138,10 @@ void block_como_free(block_como *bc)
     free(bc->mask);
     free(bc->center);
     free(bc->complete);
+    free(bc->stage_dev);
+    free(bc->stage_present);
+    free(bc->dev_at);
+    free(bc->present_at);
     memset(bc, 0, sizeof *bc);
 }
 
@@ -171,6 +182,45 @@ int block_comoments(summary *run, block_como *bc, const double *const *dev,
             }
     }
     return comoment_add_block(run->como, bc->x, bc->mask, bc->center, bc->complete, rows);
+}
+
+int block_comoments_flush(summary *run, block_como *bc)
+{
+    if (!bc->staged) return 0;
+    for (size_t k = 0; k < bc->ncomo; k++) {
+        bc->dev_at[k] = bc->stage_dev + k * SUMMARY_BLOCK_ROWS;
+        bc->present_at[k] = bc->stage_present + k * SUMMARY_BLOCK_ROWS;
+    }
+    size_t rows = bc->staged;
+    bc->staged = 0;
+    return block_comoments(run, bc, bc->dev_at, bc->present_at, rows);
+}
+
+int block_comoments_add(summary *run, block_como *bc, const double *const *dev,
+                        const unsigned char *const *present, size_t rows)
+{
+    const size_t p = bc->ncomo, B = SUMMARY_BLOCK_ROWS;
+    size_t r = 0;
+    while (r < rows) {
+        if (bc->staged == 0 && rows - r >= B) { /* a whole block in place */
+            for (size_t k = 0; k < p; k++) {
+                bc->dev_at[k] = dev[k] + r;
+                bc->present_at[k] = present[k] + r;
+            }
+            if (block_comoments(run, bc, bc->dev_at, bc->present_at, B) != 0) return -1;
+            r += B;
+            continue;
+        }
+        size_t n = B - bc->staged < rows - r ? B - bc->staged : rows - r;
+        for (size_t k = 0; k < p; k++) {
+            memcpy(bc->stage_dev + k * B + bc->staged, dev[k] + r, n * sizeof *dev[k]);
+            memcpy(bc->stage_present + k * B + bc->staged, present[k] + r, n);
+        }
+        bc->staged += n;
+        r += n;
+        if (bc->staged == B && block_comoments_flush(run, bc) != 0) return -1;
+    }
+    return 0;
 }
 
 static void keep_example(summary_column *c, const char *p, uint32_t len)

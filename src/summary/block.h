@@ -89,6 +89,14 @@ typedef struct {
     double *mask;            /* ncomo x rows, presence */
     double *center;          /* ncomo */
     unsigned char *complete; /* ncomo */
+    /* Rows held until a whole block of SUMMARY_BLOCK_ROWS is there
+     * (block_comoments_add): ncomo x SUMMARY_BLOCK_ROWS deviations and
+     * presence flags, `staged` rows of them used. */
+    double *stage_dev;
+    unsigned char *stage_present;
+    size_t staged;
+    const double **dev_at;              /* ncomo: pointers into a block's rows */
+    const unsigned char **present_at;   /* ncomo */
 } block_como;
 
 int block_como_init(block_como *bc, size_t ncomo);
@@ -100,5 +108,16 @@ void block_como_free(block_como *bc);
  * column has had a number.  0, or -1 when out of memory. */
 int block_comoments(summary *s, block_como *bc, const double *const *dev,
                     const unsigned char *const *present, size_t rows);
+
+/* Rows in any split into s's co-moments, in blocks of SUMMARY_BLOCK_ROWS:
+ * rows are held in bc until a block is whole, so the blocks do not depend
+ * on where chunks end (a wide table's chunk may hold a few dozen rows, and
+ * each block costs a merge over every pair of columns).  dev and present
+ * as for block_comoments.  block_comoments_flush feeds the rows held (a
+ * last, shorter block); the scan calls it at each stream's end (chunks_wait).
+ * 0, or -1 as block_comoments. */
+int block_comoments_add(summary *s, block_como *bc, const double *const *dev,
+                        const unsigned char *const *present, size_t rows);
+int block_comoments_flush(summary *s, block_como *bc);
 
 #endif

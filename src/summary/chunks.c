@@ -417,7 +417,8 @@ static int comoments_of(chunks *w, job *j)
             w->devp[k] = j->dev + k * cap + sp->start;
             w->presp[k] = j->present + k * cap + sp->start;
         }
-        if (block_comoments(s, &w->bc, w->devp, w->presp, sp->end - sp->start) != 0) return -1;
+        if (block_comoments_add(s, &w->bc, w->devp, w->presp, sp->end - sp->start) != 0)
+            return -1;
     }
     return 0;
 }
@@ -753,9 +754,22 @@ scan_status chunks_push(chunks *w, const reader_chunk *c, int first, const uint6
     return SCAN_OK;
 }
 
+/* The co-moment rows held for a whole block, at the end of a stream: on the
+ * calling thread, once every task is done. */
+static scan_status flush_comoments(chunks *w)
+{
+    if (!w->ncomo || !w->bc.staged) return SCAN_OK;
+    if (block_comoments_flush(w->run, &w->bc) == 0) return SCAN_OK;
+    if (w->nthreads) pthread_mutex_lock(&w->mu); /* idle workers look at `failed` */
+    snprintf(w->err, sizeof w->err, "out of memory: %s does not fit", blas_buffer_what());
+    w->failed = SCAN_ERR_MEMORY;
+    if (w->nthreads) pthread_mutex_unlock(&w->mu);
+    return SCAN_ERR_MEMORY;
+}
+
 scan_status chunks_wait(chunks *w)
 {
-    if (!w->nthreads) return w->failed;
+    if (!w->nthreads) return w->failed ? w->failed : flush_comoments(w);
     pthread_mutex_lock(&w->mu);
     /* After a failure, tasks already running finish (they may still use the
      * slots); none starts. */
@@ -764,7 +778,7 @@ scan_status chunks_wait(chunks *w)
         pthread_cond_wait(&w->done_cv, &w->mu);
     scan_status st = w->failed;
     pthread_mutex_unlock(&w->mu);
-    return st;
+    return st ? st : flush_comoments(w);
 }
 
 const char *chunks_error(const chunks *w) { return w->err; }
