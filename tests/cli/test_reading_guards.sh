@@ -156,6 +156,12 @@ check dup.scan_warns "exit $RC, stderr: $(err_text)" \
     test "$RC" = 0 -a "$(wc -l <"$T/err")" = 1 -a "$(grep -c "dup.csv.*duplicate column name.*'a'" "$T/err")" = 1
 run "$SHEAF" scan "$T/dup.csv" --target a -q -o "$T/dupt.sheaf"
 check dup.scan_target_refused "exit $RC: $(err_text)" test "$RC" = 2 -a ! -e "$T/dupt.sheaf"
+# A failed scan prints its error alone: one line (the warning once came first).
+check dup.scan_target_refused_in_one_line "$(err_text)" test "$(wc -l <"$T/err")" = 1
+printf 'a,b,a\n1,"x,10\n2,y,20\n' >"$T/dupq.csv"
+run "$SHEAF" scan "$T/dupq.csv" -q -o "$T/dupq.sheaf"
+check dup.scan_failing_in_one_line "exit $RC: $(err_text)" \
+    test "$RC" = 3 -a "$(wc -l <"$T/err")" = 1 -a "$(grep -c 'dupq.csv' "$T/err")" = 1
 run "$SHEAF" scan "$T/dup.csv" --target b -q -o "$T/dupb.sheaf"
 check dup.scan_unique_target_ok "exit $RC: $(err_text)" test "$RC" = 0
 for opt in --columns --numeric --categorical --ignore; do
