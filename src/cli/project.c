@@ -117,6 +117,7 @@ int cmd_project(int argc, char **argv)
     rc = ps == PROJECT_OK           ? EXIT_DONE
          : ps == PROJECT_ERR_INPUT  ? EXIT_INPUT
          : ps == PROJECT_ERR_OUTPUT ? EXIT_FAILED
+         : ps == PROJECT_ERR_USAGE  ? EXIT_USAGE
                                     : EXIT_RESOURCE;
     if (rc != EXIT_DONE) cli_error("project", "%s", err);
 done:

@@ -7,11 +7,37 @@
 #include "cli/cli.h"
 #include "summary/scan.h"
 
-/* A warning that does not stop the scan: one line on stderr. */
+/* Warnings that do not stop the scan (duplicate column names), held until
+ * it has succeeded: a failed scan prints its error alone, one line.  A
+ * warning repeated by a later file with the same header is kept once. */
+typedef struct {
+    char *text;   /* the lines, each ended by a newline; NULL when none */
+    size_t len;   /* bytes in text */
+    int dropped;  /* a line did not fit in memory */
+} held_warnings;
+
 static void warn_line(void *ctx, const char *message)
 {
-    (void)ctx;
-    fprintf(stderr, "sheaf scan: warning: %s\n", message);
+    held_warnings *h = ctx;
+    size_t n = strlen(message);
+    for (const char *p = h->text; p && p < h->text + h->len; p = strchr(p, '\n') + 1)
+        if (!strncmp(p, message, n) && p[n] == '\n') return;
+    char *grown = realloc(h->text, h->len + n + 2);
+    if (!grown) { h->dropped = 1; return; }
+    memcpy(grown + h->len, message, n);
+    grown[h->len + n] = '\n';
+    h->len += n + 1;
+    h->text = grown;
+}
+
+static void print_warnings(const held_warnings *h)
+{
+    for (const char *p = h->text; p && p < h->text + h->len;) {
+        const char *e = strchr(p, '\n');
+        fprintf(stderr, "sheaf scan: warning: %.*s\n", (int)(e - p), p);
+        p = e + 1;
+    }
+    if (h->dropped) fprintf(stderr, "sheaf scan: warning: out of memory for a warning\n");
 }
 
 int cmd_scan(int argc, char **argv)
@@ -20,6 +46,7 @@ int cmd_scan(int argc, char **argv)
     const char *levels = NULL, *budget = NULL, *target = NULL, *task = NULL, *classes = NULL;
     const char *mem = NULL, *shard = NULL, *threads = NULL;
     int no_header = 0, strict = 0, quiet = 0, force = 0;
+    held_warnings held = {0};
     scan_options o;
     scan_options_defaults(&o);
     const cli_option opts[] = {
@@ -149,6 +176,7 @@ int cmd_scan(int argc, char **argv)
     o.progress = cli_progress_update;
     o.progress_ctx = &ps;
     o.warn = warn_line;
+    o.warn_ctx = &held;
     summary *s;
     char err[1024];
     scan_status st = scan_files(&o, (const char *const *)pos, npos, &s, err, sizeof err);
@@ -165,8 +193,10 @@ int cmd_scan(int argc, char **argv)
         rc = ws == SUMMARY_ERR_MEMORY ? EXIT_RESOURCE : EXIT_FAILED;
         goto done;
     }
+    print_warnings(&held);
     rc = EXIT_DONE;
 done:
+    free(held.text);
     free(pos);
     summary_options_free(&o.opt);
     return rc;

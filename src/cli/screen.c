@@ -1,5 +1,7 @@
 /* sheaf screen: which columns to keep, and why, from a summary alone. */
+#include <errno.h>
 #include <float.h>
+#include <limits.h>
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -11,8 +13,41 @@
 #include "out/table.h"
 #include "stats/screen.h"
 #include "summary/access.h"
+#include "summary/tempfile.h"
 
 static const char *const TASKS[] = {"none", "classify", "regress"};
+
+/* Writes the kept column names, one per line in rank order, to the keep
+ * list's file (src/summary/tempfile.h: whole or absent, links followed,
+ * devices written through) and gives it its name.  Returns 0, or -1 with a
+ * message naming the file and the reason; t is released in both cases. */
+static int write_keep_list(tempfile *t, const summary *s, const screen_result *r, char *err,
+                           size_t errlen)
+{
+    for (size_t k = 1; k <= r->kept; k++)
+        for (size_t i = 0; i < r->nfeatures; i++) {
+            if (r->features[i].rank != k) continue;
+            const char *name = summary_name(s, r->features[i].col);
+            size_t len = strlen(name);
+            for (size_t part = 0; part < 2; part++) {
+                const char *p = part ? "\n" : name;
+                size_t left = part ? 1 : len;
+                while (left > 0) {
+                    ssize_t w = write(t->fd, p, left);
+                    if (w < 0 && errno == EINTR) continue;
+                    if (w <= 0) {
+                        int saved = w < 0 ? errno : EIO;
+                        snprintf(err, errlen, "%s: cannot write: %s", t->path, strerror(saved));
+                        tempfile_discard(t);
+                        return -1;
+                    }
+                    p += w;
+                    left -= (size_t)w;
+                }
+            }
+        }
+    return tempfile_commit(t, err, errlen);
+}
 
 /* The p-value as text: "<2.2e-308" when it underflowed. */
 static void p_text(char *buf, size_t len, const screen_test *t)
@@ -261,6 +296,8 @@ int cmd_screen(int argc, char **argv)
     screen_options_defaults(&o);
     summary *s = NULL;
     screen_result *r = NULL;
+    tempfile kept;
+    int kept_open = 0;
     rc = EXIT_USAGE;
     if (cli_check_format("screen", format)) goto done;
     if (q && cli_parse_unit("screen", "--q", q, &o.q_level)) goto done;
@@ -288,30 +325,40 @@ int cmd_screen(int argc, char **argv)
         else if (!strcmp(rank_by, "stat")) o.rank_by = RANK_STAT;
         else { cli_error("screen", "--rank-by must be q, mi or stat, got '%s'", rank_by); goto done; }
     }
+    /* The keep list is an output file like scan's: never the summary it
+     * comes from, prepared before anything is printed, written whole. */
+    if (keep_list && !strcmp(keep_list, "-")) {
+        cli_error("screen", "--keep-list needs a file name (standard output holds the report)");
+        goto done;
+    }
+    if (keep_list && cli_check_output("screen", keep_list, (const char *const *)pos, 1)) goto done;
     if ((rc = cli_read_summary("screen", pos[0], &s)) != EXIT_DONE) goto done;
     r = screen_run(s, &o);
     if (!r) { cli_error("screen", "out of memory"); rc = EXIT_RESOURCE; goto done; }
+    if (keep_list) {
+        char err[PATH_MAX + 128];
+        if (tempfile_open(&kept, keep_list, 0, err, sizeof err) != 0) {
+            rc = errno == ENOMEM ? EXIT_RESOURCE : EXIT_FAILED;
+            cli_error("screen", "%s", err);
+            goto done;
+        }
+        kept_open = 1;
+    }
     if (!strcmp(format, "json")) print_json(s, r);
     else if (!strcmp(format, "csv")) print_csv(s, r);
     else print_text(s, r, pos[0]);
     if (keep_list) {
-        char tmp[4096];
-        snprintf(tmp, sizeof tmp, "%s.tmp", keep_list);
-        FILE *f = fopen(tmp, "w");
-        int ok = f != NULL;
-        for (size_t k = 1; ok && k <= r->kept; k++)
-            for (size_t i = 0; i < r->nfeatures; i++)
-                if (r->features[i].rank == k) fprintf(f, "%s\n", summary_name(s, r->features[i].col));
-        if (f && fclose(f) != 0) ok = 0;
-        if (!ok || rename(tmp, keep_list) != 0) {
-            unlink(tmp);
-            cli_error("screen", "%s: cannot write", keep_list);
+        char err[PATH_MAX + 128];
+        kept_open = 0;
+        if (write_keep_list(&kept, s, r, err, sizeof err) != 0) {
+            cli_error("screen", "%s", err);
             rc = EXIT_FAILED;
             goto done;
         }
     }
     rc = EXIT_DONE; /* standard output is checked once, by main (cli_close_stdout) */
 done:
+    if (kept_open) tempfile_discard(&kept);
     screen_free(r);
     summary_free(s);
     free(pos);

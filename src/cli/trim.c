@@ -1,4 +1,5 @@
 /* sheaf trim: the reduced table, in one more streaming pass. */
+#include <errno.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -40,23 +41,32 @@ static void names_free(name_set *s)
     free(s->names);
 }
 
-/* Reads one name per line (blank lines and '#' comments skipped). */
+/* Reads one name per line (blank lines and '#' comments skipped).  Returns
+ * 0, -1 when the list cannot be opened or read (a directory, an I/O error:
+ * an error with its reason, never a shorter list) or -2 out of memory. */
 static int read_keep_list(const char *path, name_set *out, char *err, size_t errlen)
 {
     FILE *f = strcmp(path, "-") ? fopen(path, "r") : stdin;
-    if (!f) { snprintf(err, errlen, "%s: cannot open", path); return -1; }
+    if (!f) { snprintf(err, errlen, "%s: cannot open: %s", path, strerror(errno)); return -1; }
     char *line = NULL;
     size_t cap = 0;
     ssize_t n;
     int rc = 0;
-    while ((n = getline(&line, &cap, f)) >= 0 && rc == 0) {
+    errno = 0;
+    while (rc == 0 && (n = getline(&line, &cap, f)) >= 0) {
         while (n && (line[n - 1] == '\n' || line[n - 1] == '\r')) line[--n] = '\0';
         if (n == 0 || line[0] == '#') continue;
-        rc = names_add(out, line, (size_t)n);
+        if (names_add(out, line, (size_t)n) != 0) {
+            snprintf(err, errlen, "out of memory: the keep list %s", path);
+            rc = -2;
+        }
+    }
+    if (rc == 0 && ferror(f)) {
+        snprintf(err, errlen, "%s: cannot read: %s", path, strerror(errno ? errno : EIO));
+        rc = errno == ENOMEM ? -2 : -1;
     }
     free(line);
     if (f != stdin) fclose(f);
-    if (rc) snprintf(err, errlen, "out of memory");
     return rc;
 }
 
@@ -135,10 +145,13 @@ int cmd_trim(int argc, char **argv)
         if (v < 1) { cli_error("trim", "--top must be a positive count"); goto done; }
         so.top = (size_t)v;
     }
-    if (keep_list && read_keep_list(keep_list, &keep, err, sizeof err) != 0) {
-        cli_error("trim", "%s", err);
-        rc = EXIT_INPUT;
-        goto done;
+    if (keep_list) {
+        int kr = read_keep_list(keep_list, &keep, err, sizeof err);
+        if (kr != 0) {
+            cli_error("trim", "%s", err);
+            rc = kr == -2 ? EXIT_RESOURCE : EXIT_INPUT;
+            goto done;
+        }
     }
     if (from) {
         summary_status st = summary_read(from, &s, err, sizeof err);

@@ -251,12 +251,12 @@ static int map_header(void *ctx, size_t file, const char *path, const reader *rd
         if (at == FIELD_AMBIGUOUS) {
             snprintf(msg, msglen, "%s: line 1: --carry: '%s' names more than one column of the "
                      "header", path, pj->carry[c]);
-            return PROJECT_ERR_INPUT;
+            return PROJECT_ERR_USAGE;
         }
         if (at == SIZE_MAX) {
             snprintf(msg, msglen, "%s: line 1: --carry: no column named '%s'%s", path,
                      pj->carry[c], pj->header ? " in the header" : " (use col1..colN)");
-            return PROJECT_ERR_INPUT;
+            return PROJECT_ERR_USAGE;
         }
         map[pj->r->p + c] = at;
     }

@@ -40,7 +40,8 @@ typedef enum {
     PROJECT_OK = 0,
     PROJECT_ERR_INPUT = 1,  /* unreadable or malformed input, a basis column absent */
     PROJECT_ERR_OUTPUT = 2, /* the output could not be written */
-    PROJECT_ERR_MEMORY = 3  /* out of memory */
+    PROJECT_ERR_MEMORY = 3, /* out of memory */
+    PROJECT_ERR_USAGE = 4   /* a carried name is no column, or several, of a file's header */
 } project_status;
 
 /* No carried columns, detect the delimiter, a header, 1 MiB chunks, 64 MiB records,

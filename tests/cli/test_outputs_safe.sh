@@ -143,6 +143,44 @@ check link.dangling_stays_a_link "" [ -L "$T/l/links/dangling" ]
 left=$(ls -A "$T/l/real" "$T/l/links" | grep -c -e '\.tmp\.' -e '\.sheaf-')
 check link.no_temporary_files "$left left" [ "$left" -eq 0 ]
 
+# ---- keep.*: screen --keep-list, the output file of a printing command ----
+# It once wrote "NAME.tmp" with fopen and renamed it over the target: a device
+# became a regular file, a link was replaced, and the summary itself could be
+# overwritten by its own keep list.
+mkdir "$T/kl"
+awk 'BEGIN { srand(3); print "x,noise,cls"
+    for (i = 0; i < 300; i++) printf "%.3f,%.3f,%s\n", (i % 2) * 2 + rand(), rand(), i % 2 ? "b" : "a" }' >"$T/kl/t.csv"
+$SHEAF scan -q "$T/kl/t.csv" --target cls -o "$T/kl/t.sheaf" || fail setup "scan with a target failed"
+$SHEAF screen "$T/kl/t.sheaf" --keep-list "$T/ref/keep.list" >/dev/null 2>&1
+check keep.reference_written "no keep list written" test -s "$T/ref/keep.list"
+if fresh_full; then
+    run $SHEAF screen "$T/kl/t.sheaf" --keep-list "$T/full"
+    check keep.full_exit_1 "exit $RC: $(err_text)" [ "$RC" -eq 1 ]
+    check keep.full_one_line_names_file_and_reason "$(err_text)" \
+        [ "$(wc -l <"$T/err")" -eq 1 -a -n "$(grep -F "$T/full" "$T/err" | grep 'No space left on device')" ]
+    check keep.full_stays_a_device "$(stat -c %F "$T/full")" [ -c "$T/full" ]
+fi
+cp "$T/kl/t.sheaf" "$T/kl/copy.sheaf"
+run $SHEAF screen "$T/kl/t.sheaf" --keep-list "$T/kl/t.sheaf"
+check keep.summary_as_keep_list_exit_2 "exit $RC: $(err_text)" [ "$RC" -eq 2 ]
+check keep.summary_as_keep_list_says_so "$(err_text)" grep -q 'same file as the input' "$T/err"
+check keep.summary_unchanged "$(first_diff "$T/kl/t.sheaf" "$T/kl/copy.sheaf")" cmp -s "$T/kl/t.sheaf" "$T/kl/copy.sheaf"
+cp "$T/kl/copy.sheaf" "$T/kl/t.sheaf" # whatever happened above
+mkdir "$T/kl/real"
+echo old >"$T/kl/real/keep"
+ln -s real/keep "$T/kl/link"
+run $SHEAF screen "$T/kl/t.sheaf" --keep-list "$T/kl/link"
+check keep.link_exit_0 "exit $RC: $(err_text)" [ "$RC" -eq 0 ]
+check keep.link_stays "$(stat -c %F "$T/kl/link")" [ -L "$T/kl/link" ]
+check keep.named_file_replaced "$(first_diff "$T/kl/real/keep" "$T/ref/keep.list")" \
+    cmp -s "$T/kl/real/keep" "$T/ref/keep.list"
+mkdir "$T/kl/adir"
+run $SHEAF screen "$T/kl/t.sheaf" --keep-list "$T/kl/adir"
+check keep.directory_refused "exit $RC, $(err_text)" [ "$RC" -eq 1 -a -d "$T/kl/adir" ]
+check keep.directory_reason "$(err_text)" grep -q 'Is a directory\|not a regular file\|directory' "$T/err"
+left=$(ls -A "$T/kl" "$T/kl/real" | grep -c -e '\.tmp' -e '\.keep-' -e '\.adir')
+check keep.no_temporary_files "$(ls -A "$T/kl" "$T/kl/real" | tr '\n' ' ')" [ "$left" -eq 0 ]
+
 # ---- same.*: an input is never the output ----
 mkdir "$T/s"
 cp "$T/a.csv" "$T/s/a.csv"

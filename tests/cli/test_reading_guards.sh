@@ -8,7 +8,8 @@
 #  3. --missing spellings of 63, 64, 65 and 1024 bytes match; 1025 is refused;
 #  4. trim refuses an empty keep list;
 #  5. duplicate column names: one warning line at scan time, every name-based
-#     option refuses an ambiguous name with exit 2;
+#     option refuses an ambiguous name with exit 2 (and an unknown --carry
+#     name, in trim and project alike);
 #  6. input that is not text (random bytes, NUL bytes) stops the scan with
 #     exit 3 unless --force; real CSV (tabs, CRLF, Latin-1, a UTF-8 BOM,
 #     UTF-8 text) passes.
@@ -156,6 +157,12 @@ check dup.scan_warns "exit $RC, stderr: $(err_text)" \
     test "$RC" = 0 -a "$(wc -l <"$T/err")" = 1 -a "$(grep -c "dup.csv.*duplicate column name.*'a'" "$T/err")" = 1
 run "$SHEAF" scan "$T/dup.csv" --target a -q -o "$T/dupt.sheaf"
 check dup.scan_target_refused "exit $RC: $(err_text)" test "$RC" = 2 -a ! -e "$T/dupt.sheaf"
+# A failed scan prints its error alone: one line (the warning once came first).
+check dup.scan_target_refused_in_one_line "$(err_text)" test "$(wc -l <"$T/err")" = 1
+printf 'a,b,a\n1,"x,10\n2,y,20\n' >"$T/dupq.csv"
+run "$SHEAF" scan "$T/dupq.csv" -q -o "$T/dupq.sheaf"
+check dup.scan_failing_in_one_line "exit $RC: $(err_text)" \
+    test "$RC" = 3 -a "$(wc -l <"$T/err")" = 1 -a "$(grep -c 'dupq.csv' "$T/err")" = 1
 run "$SHEAF" scan "$T/dup.csv" --target b -q -o "$T/dupb.sheaf"
 check dup.scan_unique_target_ok "exit $RC: $(err_text)" test "$RC" = 0
 for opt in --columns --numeric --categorical --ignore; do
@@ -182,6 +189,19 @@ run "$SHEAF" pca "$T/dup40.sheaf" --columns a,b
 check dup.pca_columns_refused "exit $RC: $(err_text)" test "$RC" = 2 -a "$(grep -c "'a' names more than one" "$T/err")" = 1
 run "$SHEAF" project "$T/dup40.csv" --pca "$T/dup40.sheaf" -q
 check dup.project_refused "exit $RC: $(err_text)" test "$RC" = 3 -a "$(grep -c "'a' names more than one" "$T/err")" = 1
+# project's --carry names columns the user typed, as trim's --carry does: an
+# unknown or duplicated name is a usage error (exit 2) in both passes; only a
+# column the PCA needs that the data lacks is the data's fault (exit 3, above).
+{ echo 'a,b,t,t'; for i in $(seq 1 40); do echo "$i,$(((i * 7) % 13)),x$((i % 3)),y"; done; } >"$T/carry.csv"
+"$SHEAF" scan "$T/carry.csv" -q -o "$T/carry.sheaf" 2>/dev/null
+run "$SHEAF" project "$T/carry.csv" --pca "$T/carry.sheaf" --carry nosuch -q
+check carry.project_unknown_exit_2 "exit $RC: $(err_text)" \
+    test "$RC" = 2 -a "$(wc -l <"$T/err")" = 1 -a "$(grep -c "nosuch" "$T/err")" = 1
+run "$SHEAF" trim "$T/carry.csv" --keep-list "$T/keep_b.txt" --carry nosuch -q
+check carry.trim_unknown_exit_2 "exit $RC: $(err_text)" test "$RC" = 2
+run "$SHEAF" project "$T/carry.csv" --pca "$T/carry.sheaf" --carry t -q
+check carry.project_duplicated_exit_2 "exit $RC: $(err_text)" \
+    test "$RC" = 2 -a "$(grep -c "'t' names more than one" "$T/err")" = 1
 
 # ---- 6. input that is not text ---------------------------------------------
 head -c 1048576 /dev/urandom >"$T/random.bin"

@@ -329,6 +329,16 @@ run "$SHEAF" trim "$D/stock.csv" --keep-list "$T/keep.txt" --from "$T/stock.shea
 check both_from_and_keep_list.exit_2 "exit $RC: $(err_text)" [ "$RC" -eq 2 ]
 run "$SHEAF" trim --keep-list "$T/keep.txt"
 check no_data_files.exit_2 "exit $RC: $(err_text)" [ "$RC" -eq 2 ]
+# A keep list that cannot be read is unreadable input (exit 3) with its
+# reason (strerror of glibc), never an empty list (it once read a directory
+# as no names: "names no column", exit 2).
+run "$SHEAF" trim "$D/stock.csv" --keep-list "$T/no_such_list.txt"
+check keep_list_missing.exit_3 "exit $RC: $(err_text)" [ "$RC" -eq 3 ]
+check keep_list_missing.reason "$(err_text)" grep -q 'no_such_list.txt.*No such file or directory' "$T/err"
+mkdir "$T/list_dir"
+run "$SHEAF" trim "$D/stock.csv" --keep-list "$T/list_dir"
+check keep_list_directory.exit_3 "exit $RC: $(err_text)" [ "$RC" -eq 3 ]
+check keep_list_directory.reason "$(err_text)" grep -q 'list_dir.*Is a directory' "$T/err"
 
 # A last record without a line end stays without one (byte for byte); with a
 # second file after it, the line end is supplied so records do not run together.
