@@ -447,6 +447,7 @@ int values_merge(values *into, const values *from)
 
 uint32_t values_levels(const values *v) { return v->levels; }
 uint32_t values_max_levels(const values *v) { return v->max_levels; }
+uint32_t values_label_bytes(const values *v) { return v->label_bytes; }
 int values_overflowed(const values *v) { return v->overflowed; }
 uint64_t values_overflow_total(const values *v) { return v->overflow_total; }
 uint64_t values_total(const values *v) { return v->total; }

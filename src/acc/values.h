@@ -65,6 +65,7 @@ int values_sealed(const values *v);
 
 uint32_t values_levels(const values *v);       /* exact entries held */
 uint32_t values_max_levels(const values *v);
+uint32_t values_label_bytes(const values *v);   /* label truncation length */
 int values_overflowed(const values *v);
 uint64_t values_overflow_total(const values *v); /* cells counted in overflow slots */
 uint64_t values_total(const values *v);          /* all counted cells */

@@ -213,6 +213,9 @@ int column_check(const summary *s, const summary_column *c, char *msg, size_t le
     if (values_max_levels(v) != o->max_levels)
         return why(msg, len, "value table of %u entries, not the schema's %u",
                    values_max_levels(v), o->max_levels);
+    if (values_label_bytes(v) != o->label_bytes)
+        return why(msg, len, "value labels cut at %u bytes, not the schema's %u",
+                   values_label_bytes(v), o->label_bytes);
     if (values_total(v) != present)
         return why(msg, len, "value table counts %llu cells, not the %llu present",
                    (unsigned long long)values_total(v), (unsigned long long)present);

@@ -129,6 +129,8 @@ crafted moments_empty_nonzero none "COLS[0].moments.m2=1"
 crafted moments_no_frame cls "COLS[1].moments.has_ref=0"
 crafted moments_frame_without_numbers cls "COLS[0].moments.ref.value=1"
 crafted values_max_levels cls "COLS[1].values.max_levels=1000"
+crafted values_label_bytes cls "COLS[1].values.label_bytes=64"
+crafted values_label_bytes_target cls "COLS[0].values.label_bytes=8224"
 crafted values_total cls "COLS[1].values.entry[0].count=$(($(get cls 'COLS[1].values.entry[0].count') + 1))"
 crafted values_label cls "COLS[0].values.entry[0].label.text=$(get cls 'COLS[0].values.entry[0].label.text' | tr 'a-z' 'b-za')"
 crafted values_overflow_with_room cls "COLS[1].values.overflowed=1" "COLS[1].values.overflow[0]=1" \

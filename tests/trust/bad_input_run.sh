@@ -1093,9 +1093,10 @@ EOF_PY
     # 400 flips of payload bits with every checksum recomputed
     # (summary_craft.py flips): the decoder's invariants must refuse what is
     # impossible; what it accepts must be read without a crash or a hang,
-    # give exit 0 from both info --json and screen --format json, and print
+    # give exit 0 from both info --json and screen --format json, print
     # JSON that keeps the invariants of docs/summary-format.md that its
-    # output shows (judged by the checker below, once for all files).
+    # output shows (judged by the checker below, once for all files), and
+    # be a file that keeps every invariant check_invariants.py checks.
     $CRAFT flips "$g" "$M/sealed" 400 1202 >"$M/sealed.list"
     "$SHEAF" screen --format json "$g" >"$M/screen.ref"
     refused=0 accepted=0
@@ -1203,6 +1204,18 @@ EOF_PY
     changed=$(sed -n 's/^changed //p' "$M/judged.txt")
     checked "$accepted"
     while read -r line; do problem silent "$line"; done < <(grep -v '^changed ' "$M/judged.txt")
+    # The accepted files themselves, field by field, against the format's
+    # invariants (tests/trust/check_invariants.py, apart from sheaf's
+    # decoder): an accepted file that breaks one is a silent wrong result,
+    # whatever the commands print.
+    if [ "$accepted" -gt 0 ]; then
+        checked "$accepted"
+        while read -r k bit; do echo "$M/sealed/flip-$k.sheaf"; done <"$M/accepted.list" |
+            xargs "$PY" "$ROOT/tests/trust/check_invariants.py" >"$M/invariants.txt"
+        while read -r line; do
+            problem silent "sealed flip accepted, yet ${line#"$M"/sealed/}"
+        done <"$M/invariants.txt"
+    fi
     echo "  400 single-bit flips, checksums recomputed: $refused refused, $accepted accepted ($changed of them print something else than the undamaged summary)"
     SEALED_REFUSED=$refused SEALED_ACCEPTED=$accepted SEALED_CHANGED=$changed
     rm -rf "$M"
@@ -1390,6 +1403,7 @@ part_memory() {
 # ====================================================================
 # The run and its table.
 # ====================================================================
+LOADS="start $(cut -d' ' -f1 /proc/loadavg)"
 for p in $PARTS; do
     case $p in
     inputs) part_inputs ;;
@@ -1399,6 +1413,7 @@ for p in $PARTS; do
     memory) part_memory ;;
     *) echo "bad_input_run.sh: unknown part '$p'" >&2; exit 2 ;;
     esac
+    LOADS="$LOADS, after $p $(cut -d' ' -f1 /proc/loadavg)"
 done
 ELAPSED=$(($(date +%s) - START))
 
@@ -1431,14 +1446,16 @@ table() { # FORMAT (text or markdown)
     fi
 }
 FINAL="bad-input run: $CHECKS checks, $PROBLEMS problems"
-echo "== counts"
+echo "== counts (load average: $LOADS)"
 table text
 echo "$FINAL"
 if [ -n "$REPORT" ]; then
     {
         echo "# Bad-input run, $(date -u '+%Y-%m-%d %H:%M UTC')"
         echo
-        echo "sheaf $(git -C "$ROOT" rev-parse --short HEAD 2>/dev/null) ($SHEAF), $(nproc) cores, load average at the end $(cut -d' ' -f1-3 /proc/loadavg), parts: $PARTS, FUZZ_SECONDS=$FUZZ_SECONDS."
+        echo "sheaf $(git -C "$ROOT" describe --always --dirty 2>/dev/null) ($SHEAF);" \
+            "$(nproc) cores, $(. /etc/os-release 2>/dev/null && echo "$PRETTY_NAME");" \
+            "parts: $PARTS; FUZZ_SECONDS=$FUZZ_SECONDS; load average (1 min): $LOADS."
         echo
         table markdown
         echo
