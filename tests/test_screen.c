@@ -491,3 +491,52 @@ Test(screen_ranking, without_a_target_nothing_is_tested_and_unflagged_columns_ar
     screen_free(r);
     summary_free(s);
 }
+
+/* 3,000 rows, two classes a and b in turn.  sharp ~ N(0, 1) in a and N(6, 1)
+ * in b (Box-Muller from the generator); boxed ~ U(0, 1) in a and U(1, 2) in
+ * b: perfectly separated, so its normalized MI is 1, above sharp's, while its
+ * F is about a third of sharp's.  Both p-values are far below 1e-308. */
+static char *separated_table(void)
+{
+    buffer b = {0};
+    uint64_t seed = 20241203;
+    put(&b, "sharp,boxed,class\n");
+    for (int i = 0; i < 3000; i++) {
+        int g = i % 2;
+        double u1 = uniform(&seed), u2 = uniform(&seed);
+        double z = sqrt(-2 * log(1 - u1)) * cos(2 * M_PI * u2);
+        put(&b, "%.5f,%.5f,%c\n", 6 * g + z, g + uniform(&seed), "ab"[g]);
+    }
+    return b.text;
+}
+
+Test(screen_ranking, p_values_below_the_double_range_rank_by_log10_q, .init = make_dir,
+     .fini = remove_dir)
+{
+    char *text = separated_table();
+    summary *s = scan_table(text, (scan_setup){.target = "class"});
+    screen_result *r = screen(s, NULL);
+    const screen_feature *sharp = feature(s, r, "sharp"), *boxed = feature(s, r, "boxed");
+    for (int i = 0; i < 2; i++) {
+        const screen_feature *f = i ? boxed : sharp;
+        cr_expect(f->p == 0 && f->q == 0 && f->anova_f.p_below, "p %g q %g", f->p, f->q);
+        cr_expect(isfinite(f->log10_p) && f->log10_p < -308, "log10 p %g", f->log10_p);
+        cr_expect_eq(f->log10_p, f->anova_f.log10_p);
+        cr_expect(strstr(f->reasons, "relevant (q = ") && strstr(f->reasons, "e-") &&
+                      !strchr(f->reasons, '<'),
+                  "%s", f->reasons);
+    }
+    cr_expect_lt(sharp->log10_p, boxed->log10_p - 100, "sharp's p is the smaller by far");
+    cr_expect_gt(boxed->mi.normalized, sharp->mi.normalized, "boxed's MI is the larger");
+    /* Worked by hand, Benjamini-Hochberg with m = 2: q_(1) = p_(1) 2 / 1,
+     * q_(2) = p_(2) (both far below the larger's q_(1)). */
+    cr_expect(fabs(sharp->log10_q - (sharp->log10_p + log10(2.0))) < 1e-9);
+    cr_expect_eq(boxed->log10_q, boxed->log10_p);
+    /* Ranked by log10 q: sharp first, though MI (the tie-break when both
+     * p-values were 0) puts boxed first. */
+    cr_expect_eq(sharp->rank, 1);
+    cr_expect_eq(boxed->rank, 2);
+    screen_free(r);
+    summary_free(s);
+    free(text);
+}

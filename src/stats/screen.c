@@ -3,12 +3,14 @@
  * stores), never from the data. */
 #include "stats/screen.h"
 
+#include <float.h>
 #include <math.h>
 #include <stdarg.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 
+#include "stats/logp.h"
 #include "summary/access.h"
 
 const char *const screen_flag_names[SCREEN_NFLAGS] = {"constant", "near_constant", "id_like",
@@ -57,7 +59,15 @@ static void set_test(screen_test *t, const stat_result *r)
     t->df2 = r->df2;
     t->p = r->p;
     t->p_below = r->p_below;
+    t->log10_p = r->log10_p;
     t->extra = r->extra;
+}
+
+/* The p-value behind q: that of the primary test t, NaN without one. */
+static void set_primary(screen_feature *f, const screen_test *t)
+{
+    f->p = t->present ? t->p : NAN;
+    f->log10_p = t->present ? t->log10_p : NAN;
 }
 
 /* ---- flags ---------------------------------------------------------------- */
@@ -319,13 +329,13 @@ static int test_feature(const summary *s, size_t col, target_task task, const sc
                 rc = -1;
             }
             free(n); free(mean); free(m2); free(g);
-            f->p = f->anova_f.present ? f->anova_f.p : NAN;
+            set_primary(f, &f->anova_f);
         } else if (task == TASK_REGRESS) {
             size_t y = (size_t)summary_target_column(s);
             double rr = summary_correlation(s, col, y);
             double nn = (double)summary_pair_count(s, col, y);
             if (isfinite(rr) && stat_correlation_f(rr, nn, &r) == 0) set_test(&f->corr_f, &r);
-            f->p = f->corr_f.present ? f->corr_f.p : NAN;
+            set_primary(f, &f->corr_f);
         }
         /* MI (and chi-squared) from the bucket store: feature buckets x target cells. */
         const buckets *bins = summary_buckets(s, col);
@@ -349,7 +359,7 @@ static int test_feature(const summary *s, size_t col, target_task task, const sc
         size_t m = level_groups(s, cross, g);
         rc = groups_test(g, m, &f->anova_f);
         free(g);
-        f->p = f->anova_f.present ? f->anova_f.p : NAN;
+        set_primary(f, &f->anova_f);
     }
     /* Levels x target table: chi-squared (classification) and MI. */
     for (size_t i = 0; i < ne && rc == 0; i++) {
@@ -360,7 +370,7 @@ static int test_feature(const summary *s, size_t col, target_task task, const sc
     if (rc == 0) {
         rc = pair_table(f, t.x, t.y, t.n, t.len, 0, task == TASK_CLASSIFY ? 0 : o->bins,
                         task == TASK_CLASSIFY);
-        if (task == TASK_CLASSIFY) f->p = f->chi2.present ? f->chi2.p : NAN;
+        if (task == TASK_CLASSIFY) set_primary(f, &f->chi2);
     }
     triples_free(&t);
     return rc;
@@ -388,12 +398,16 @@ static int relevance_cmp(const screen_feature *a, const screen_feature *b, scree
         double sa = primary_stat(a), sb = primary_stat(b);
         if (sa != sb) return sa > sb ? -1 : 1;
     }
-    double qa = isnan(a->q) ? 2 : a->q, qb = isnan(b->q) ? 2 : b->q;
-    if (qa != qb) return qa < qb ? -1 : 1;
-    double pa = isnan(a->p) ? 2 : a->p, pb = isnan(b->p) ? 2 : b->p;
+    /* log10 q and log10 p (at most 0; NaN = untested, last) keep their order
+     * below the double range, where q and p are both 0. */
+    double lqa = isnan(a->log10_q) ? 1 : a->log10_q, lqb = isnan(b->log10_q) ? 1 : b->log10_q;
+    if (lqa != lqb) return lqa < lqb ? -1 : 1;
+    double lpa = isnan(a->log10_p) ? 1 : a->log10_p, lpb = isnan(b->log10_p) ? 1 : b->log10_p;
+    if (lpa != lpb) return lpa < lpb ? -1 : 1;
+    double pa = isnan(a->p) ? 2 : a->p, pb = isnan(b->p) ? 2 : b->p; /* the key without a target */
     if (pa != pb) return pa < pb ? -1 : 1;
-    /* Equal p (typically both below DBL_MIN): statistics of different tests
-     * are not comparable, normalized mutual information is. */
+    /* Equal p (both 0 exactly, or equal by rounding): statistics of
+     * different tests are not comparable, normalized mutual information is. */
     if (a->mi.present && b->mi.present && a->mi.normalized != b->mi.normalized)
         return a->mi.normalized > b->mi.normalized ? -1 : 1;
     double sa = primary_stat(a), sb = primary_stat(b);
@@ -437,17 +451,22 @@ screen_result *screen_run(const summary *s, const screen_options *o)
         f->col = i;
         f->kind = summary_kind(s, i, o->numeric_share);
         f->flags = column_flags(s, i, f->kind, o);
-        f->p = f->q = NAN;
+        f->p = f->q = f->log10_p = f->log10_q = NAN;
         f->anova_f.df2 = f->chi2.df2 = NAN;
         for (int b = 0; b < SCREEN_NFLAGS; b++)
             if (f->flags & (1u << b)) add_reason(f, "%s", screen_flag_names[b]);
         if (!f->flags && task != TASK_AUTO && test_feature(s, i, task, o, &ta, f) != 0) goto oom;
     }
     res->nfeatures = nf;
-    /* q-values over the tested features. */
-    for (size_t i = 0; i < nf; i++) p[i] = res->features[i].p;
-    stat_benjamini_hochberg(p, nf, p);
-    for (size_t i = 0; i < nf; i++) res->features[i].q = p[i];
+    /* q-values over the tested features, from log10 p. */
+    for (size_t i = 0; i < nf; i++) p[i] = res->features[i].log10_p;
+    if (logp_benjamini_hochberg(p, nf, p) != 0) goto oom;
+    for (size_t i = 0; i < nf; i++) {
+        screen_feature *f = &res->features[i];
+        f->log10_q = p[i];
+        f->q = pow(10, p[i]); /* NaN stays NaN */
+        if (f->q < DBL_MIN) f->q = 0;
+    }
     /* Relevance. */
     for (size_t i = 0; i < nf; i++) {
         screen_feature *f = &res->features[i];
@@ -513,8 +532,11 @@ screen_result *screen_run(const summary *s, const screen_options *o)
         }
         f->rank = ++rnk;
         if (task == TASK_AUTO) add_reason(f, "no flag, not redundant");
-        else if (f->q == 0) add_reason(f, "relevant (q < 1e-300)");
-        else add_reason(f, "relevant (q = %.3g)", f->q);
+        else {
+            char q[40];
+            logp_format(q, sizeof q, f->log10_q, 3);
+            add_reason(f, "relevant (q = %s)", q);
+        }
     }
     res->kept = rnk;
     free(order);

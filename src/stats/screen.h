@@ -10,9 +10,12 @@
  * and mutual information from its contingency table (numeric features and
  * regression targets coarsened into about equal-frequency bins from the
  * fine buckets), which also gives a chi-squared test for numeric features.
- * Benjamini-Hochberg q-values across the tested features decide relevance.
+ * Benjamini-Hochberg q-values across the tested features decide relevance;
+ * they are formed from log10 p (src/stats/logp.h), so that p-values below
+ * the double range (1e-308) keep their size and their order.
  * Kept numeric features with |r| >= a threshold are pruned greedily, the
- * more relevant member of each pair staying.  Kept columns are ranked.
+ * more relevant member of each pair staying.  Kept columns are ranked by
+ * log10 q, then log10 p, then the tie-breaks of docs/methods.md.
  */
 #ifndef SHEAF_SCREEN_H
 #define SHEAF_SCREEN_H
@@ -52,6 +55,7 @@ typedef struct {
     double stat, df1, df2;   /* df2 NaN when the test has one df */
     double p;                /* p-value (0 with p_below set when it underflows) */
     int p_below;             /* p below the smallest positive double */
+    double log10_p;          /* log10 p, finite where p underflows (-inf: p = 0 exactly) */
     double extra;            /* r (corr_f) or Cramer's V (chi2) */
 } screen_test;
 
@@ -68,7 +72,9 @@ typedef struct {
     screen_test anova_f, welch_f, corr_f, chi2;
     screen_mi mi;
     double p;                /* the p-value behind q (primary test), NaN if untested */
-    double q;                /* Benjamini-Hochberg q-value, NaN if untested */
+    double q;                /* Benjamini-Hochberg q-value, NaN if untested, 0 below DBL_MIN */
+    double log10_p;          /* log10 of p, finite where p underflows; NaN if untested */
+    double log10_q;          /* log10 of q from log10_p (logp_benjamini_hochberg) */
     int keep;                /* decision */
     char reasons[256];       /* "; "-separated */
     size_t rank;             /* 1.. among kept, 0 when dropped */
