@@ -1,6 +1,5 @@
 /* sheaf screen: which columns to keep, and why, from a summary alone. */
 #include <errno.h>
-#include <float.h>
 #include <limits.h>
 #include <math.h>
 #include <stdio.h>
@@ -11,6 +10,7 @@
 #include "cli/cli.h"
 #include "out/json.h"
 #include "out/table.h"
+#include "stats/logp.h"
 #include "stats/screen.h"
 #include "summary/access.h"
 #include "summary/tempfile.h"
@@ -49,11 +49,13 @@ static int write_keep_list(tempfile *t, const summary *s, const screen_result *r
     return tempfile_commit(t, err, errlen);
 }
 
-/* The p-value as text: "<2.2e-308" when it underflowed. */
-static void p_text(char *buf, size_t len, const screen_test *t)
+/* A p- or q-value as text from its log10, in %g's form at every size:
+ * "0.0123", "4.56e-23", and below the double range "4.56e-48213" (the
+ * exponent from the logarithm); "0" for a p-value that is exactly 0
+ * (infinite statistic), "-" when undefined. */
+static void p_text(char *buf, size_t len, double log10_value, int digits)
 {
-    if (t->p_below) snprintf(buf, len, "<%.2g", DBL_MIN);
-    else table_format_number(buf, len, t->p, 3);
+    logp_format(buf, len, log10_value, digits);
 }
 
 /* The test that decided a feature's q (the primary one). */
@@ -80,8 +82,8 @@ static void json_test(json_out *j, const char *name, const screen_test *t, int o
         json_key(j, "df1"); json_number(j, t->df1);
         json_key(j, "df2"); json_number(j, t->df2);
     }
-    json_key(j, "p"); json_number(j, t->p_below ? DBL_MIN : t->p);
-    if (t->p_below) { json_key(j, "p_is_upper_bound"); json_bool(j, 1); }
+    json_key(j, "p"); json_number(j, t->p);
+    json_key(j, "log10_p"); json_number(j, t->log10_p);
     if (extra) { json_key(j, extra); json_number(j, t->extra); }
     json_object_end(j);
 }
@@ -140,6 +142,7 @@ static void print_json(const summary *s, const screen_result *r)
         }
         json_object_end(&j);
         json_key(&j, "q"); json_number(&j, f->q);
+        json_key(&j, "log10_q"); json_number(&j, f->log10_q);
         json_key(&j, "decision"); json_string(&j, f->keep ? "keep" : "drop");
         json_key(&j, "reasons");
         json_array_begin(&j);
@@ -174,8 +177,8 @@ static void print_json(const summary *s, const screen_result *r)
 
 static void print_csv(const summary *s, const screen_result *r)
 {
-    printf("column,kind,decision,rank,flags,test,stat,df1,df2,p,q,mi_nats,mi_nats_corrected,"
-           "mi_normalized,reasons\n");
+    printf("column,kind,decision,rank,flags,test,stat,df1,df2,p,q,log10_p,log10_q,mi_nats,"
+           "mi_nats_corrected,mi_normalized,reasons\n");
     for (size_t i = 0; i < r->nfeatures; i++) {
         const screen_feature *f = &r->features[i];
         table_csv_field(stdout, summary_name(s, f->col));
@@ -188,13 +191,14 @@ static void print_csv(const summary *s, const screen_result *r)
         const char *tn;
         const screen_test *t = primary(r, f, &tn);
         if (t && t->present) {
-            char pb[32];
-            p_text(pb, sizeof pb, t);
+            char pb[40], qb[40];
+            p_text(pb, sizeof pb, t->log10_p, 3);
+            p_text(qb, sizeof qb, f->log10_q, 6);
             printf(",%s,%.10g,%.10g,", tn, t->stat, t->df1);
             if (isfinite(t->df2)) printf("%.10g", t->df2);
-            printf(",%s,%.6g", pb, f->q);
+            printf(",%s,%s,%.10g,%.10g", pb, qb, t->log10_p, f->log10_q);
         } else {
-            printf(",,,,,,");
+            printf(",,,,,,,,");
         }
         if (f->mi.present) printf(",%.6g,%.6g,%.6g,", f->mi.nats, f->mi.nats_corrected, f->mi.normalized);
         else printf(",,,,");
@@ -243,10 +247,9 @@ static void print_text(const summary *s, const screen_result *r, const char *pat
                 table_cell(t, 4, tn);
                 table_format_number(b, sizeof b, pt->stat, 4);
                 table_cell(t, 5, b);
-                p_text(b, sizeof b, pt);
+                p_text(b, sizeof b, pt->log10_p, 3);
                 table_cell(t, 6, b);
-                if (f->q == 0 && pt->p_below) snprintf(b, sizeof b, "<%.2g", DBL_MIN);
-                else table_format_number(b, sizeof b, f->q, 3);
+                p_text(b, sizeof b, f->log10_q, 3);
                 table_cell(t, 7, b);
             }
             if (f->mi.present) table_cellf(t, 8, "%.3f", f->mi.normalized);
