@@ -13,12 +13,10 @@
 #include "stats/logp.h"
 #include "summary/access.h"
 
-const char *const screen_flag_names[SCREEN_NFLAGS] = {"constant", "near_constant", "id_like",
-                                                      "mostly_missing", "high_cardinality"};
-
-/* ID-like needs this many present cells (a rule of sheaf's own: on tiny
- * tables every integer column would otherwise look like an identifier). */
-#define ID_MIN_PRESENT 20
+/* Named for what the user should conclude, not for what was measured. */
+const char *const screen_flag_names[SCREEN_NFLAGS] = {"no_information", "little_information",
+                                                      "names_rows", "too_sparse",
+                                                      "too_many_levels", "mirrors_target"};
 
 void screen_options_defaults(screen_options *o)
 {
@@ -83,7 +81,6 @@ static unsigned column_flags(const summary *s, size_t col, column_kind kind,
     int exact;
     double distinct = summary_distinct(s, col, &exact);
     double var = summary_variance(s, col);
-    uint64_t numbers = summary_numbers(s, col);
     /* Constant only when the exact value table holds one value.  A variance
      * of 0 over several distinct cells is the rounding of long numbers to a
      * double (30-digit IDs that share 28 digits), not a constant; a table
@@ -93,10 +90,7 @@ static unsigned column_flags(const summary *s, size_t col, column_kind kind,
     if (summary_top(s, col, 1, &top) == 1 && (double)top.count >= o->near_constant * (double)present)
         flags |= SCREEN_NEAR_CONSTANT;
     if (kind == KIND_NUMERIC && o->min_variance > 0 && var < o->min_variance) flags |= SCREEN_NEAR_CONSTANT;
-    int integer_valued = kind == KIND_NUMERIC && summary_integers(s, col) == numbers;
-    if ((kind == KIND_CATEGORICAL || integer_valued) && present >= ID_MIN_PRESENT &&
-        distinct >= o->id_share * (double)present)
-        flags |= SCREEN_ID_LIKE;
+    if (validity_id_like(s, col, kind, o->id_share)) flags |= SCREEN_ID_LIKE;
     if (kind == KIND_CATEGORICAL && summary_high_cardinality(s, col)) flags |= SCREEN_HIGH_CARDINALITY;
     return flags;
 }
@@ -182,8 +176,16 @@ static int pair_table(screen_feature *f, const int64_t *xo, const int64_t *yo, c
         f->mi.normalized = mi.normalized;
         f->mi.bins_feature = mi.rows_used;
         f->mi.bins_target = mi.cols_used;
+        validity_expected e;
+        if (validity_expected_mi(table, bx, by, &e) == -2) rc = -1;
+        f->mi.expected_nats = e.nats;
+        f->mi.approximated_cells = e.approximated_cells;
+        f->mi.adjusted = validity_adjusted_mi(mi.nats, e.nats, mi.h_x, mi.h_y);
     }
-    if (with_chi2 && stat_chi_squared(table, bx, by, &r) == 0) set_test(&f->chi2, &r);
+    if (with_chi2 && stat_chi_squared(table, bx, by, &r) == 0) {
+        set_test(&f->chi2, &r);
+        if (validity_cochran(table, bx, by, &f->chi2_check) != 0) rc = -1;
+    }
     free(table);
 done:
     free(ix);
@@ -302,6 +304,51 @@ static int groups_test(const level_moments *g, size_t m, screen_test *t)
     return rc;
 }
 
+/* The level-size rule (validity.h) on the rows of each level. */
+static int level_check(const level_moments *g, size_t m, validity_check *out)
+{
+    double *n = malloc((m ? m : 1) * sizeof *n);
+    if (!n) return -1;
+    for (size_t i = 0; i < m; i++) n[i] = g[i].n;
+    validity_level_sizes(n, m, out);
+    free(n);
+    return 0;
+}
+
+/* Marks a feature whose test behind q fails its validity rule, with the
+ * reason. */
+static void judge_primary(screen_feature *f, target_task task)
+{
+    int classify = task == TASK_CLASSIFY;
+    if (f->kind != KIND_CATEGORICAL) return;
+    if (classify && f->chi2.present && f->chi2_check.rule == VALIDITY_COCHRAN &&
+        !f->chi2_check.holds) {
+        f->unreliable = 1;
+        add_reason(f, "chi-squared unreliable by Cochran's rule (%.0f%% of expected counts below 5, "
+                      "smallest %.2g): not kept on it",
+                   100 * f->chi2_check.small_share, f->chi2_check.smallest);
+    } else if (!classify && f->anova_f.present && f->anova_check.rule == VALIDITY_LEVEL_SIZES &&
+               !f->anova_check.holds) {
+        f->unreliable = 1;
+        add_reason(f, "ANOVA F across levels unreliable (%.0f%% of rows in levels of fewer than 5 "
+                      "rows): not kept on it",
+                   100 * f->anova_check.small_share);
+    }
+}
+
+/* Flags a tested feature that mirrors the target (validity.h). */
+static void judge_mirror(const summary *s, screen_feature *f, target_task task)
+{
+    double r = task == TASK_REGRESS && f->corr_f.present ? f->corr_f.extra : NAN;
+    double ami = f->mi.present ? f->mi.adjusted : NAN;
+    int apart = task == TASK_CLASSIFY && f->kind == KIND_NUMERIC &&
+                validity_classes_separated(summary_buckets(s, f->col), summary_class_count(s));
+    char why[128];
+    if (!validity_mirrors_target(r, ami, apart, why, sizeof why)) return;
+    f->flags |= SCREEN_MIRRORS_TARGET;
+    add_reason(f, "mirrors_target: %s (a possible leak of the outcome)", why);
+}
+
 static int test_feature(const summary *s, size_t col, target_task task, const screen_options *o,
                         const target_axis *ta, screen_feature *f)
 {
@@ -358,6 +405,7 @@ static int test_feature(const summary *s, size_t col, target_task task, const sc
         if (!g) return -1;
         size_t m = level_groups(s, cross, g);
         rc = groups_test(g, m, &f->anova_f);
+        if (rc == 0) rc = level_check(g, m, &f->anova_check);
         free(g);
         set_primary(f, &f->anova_f);
     }
@@ -391,7 +439,8 @@ static double primary_stat(const screen_feature *f)
 static int relevance_cmp(const screen_feature *a, const screen_feature *b, screen_rank by)
 {
     if (by == RANK_MI) {
-        double ma = a->mi.present ? a->mi.normalized : -1, mb = b->mi.present ? b->mi.normalized : -1;
+        double ma = a->mi.present && !isnan(a->mi.adjusted) ? a->mi.adjusted : -2,
+               mb = b->mi.present && !isnan(b->mi.adjusted) ? b->mi.adjusted : -2;
         if (ma != mb) return ma > mb ? -1 : 1;
     }
     if (by == RANK_STAT) {
@@ -407,9 +456,11 @@ static int relevance_cmp(const screen_feature *a, const screen_feature *b, scree
     double pa = isnan(a->p) ? 2 : a->p, pb = isnan(b->p) ? 2 : b->p; /* the key without a target */
     if (pa != pb) return pa < pb ? -1 : 1;
     /* Equal p (both 0 exactly, or equal by rounding): statistics of
-     * different tests are not comparable, normalized mutual information is. */
-    if (a->mi.present && b->mi.present && a->mi.normalized != b->mi.normalized)
-        return a->mi.normalized > b->mi.normalized ? -1 : 1;
+     * different tests are not comparable, mutual information adjusted for
+     * chance is. */
+    if (a->mi.present && b->mi.present && a->mi.adjusted != b->mi.adjusted &&
+        !isnan(a->mi.adjusted) && !isnan(b->mi.adjusted))
+        return a->mi.adjusted > b->mi.adjusted ? -1 : 1;
     double sa = primary_stat(a), sb = primary_stat(b);
     if (sa != sb) return sa > sb ? -1 : 1;
     return (a->col > b->col) - (a->col < b->col);
@@ -455,11 +506,17 @@ screen_result *screen_run(const summary *s, const screen_options *o)
         f->anova_f.df2 = f->chi2.df2 = NAN;
         for (int b = 0; b < SCREEN_NFLAGS; b++)
             if (f->flags & (1u << b)) add_reason(f, "%s", screen_flag_names[b]);
-        if (!f->flags && task != TASK_AUTO && test_feature(s, i, task, o, &ta, f) != 0) goto oom;
+        f->mi.expected_nats = f->mi.adjusted = NAN;
+        if (!f->flags && task != TASK_AUTO) {
+            if (test_feature(s, i, task, o, &ta, f) != 0) goto oom;
+            judge_primary(f, task);
+            judge_mirror(s, f, task);
+        }
     }
     res->nfeatures = nf;
-    /* q-values over the tested features, from log10 p. */
-    for (size_t i = 0; i < nf; i++) p[i] = res->features[i].log10_p;
+    /* q-values over the tested features whose test holds, from log10 p. */
+    for (size_t i = 0; i < nf; i++)
+        p[i] = res->features[i].unreliable ? NAN : res->features[i].log10_p;
     if (logp_benjamini_hochberg(p, nf, p) != 0) goto oom;
     for (size_t i = 0; i < nf; i++) {
         screen_feature *f = &res->features[i];
@@ -470,9 +527,11 @@ screen_result *screen_run(const summary *s, const screen_options *o)
     /* Relevance. */
     for (size_t i = 0; i < nf; i++) {
         screen_feature *f = &res->features[i];
-        f->keep = !f->flags;
+        f->keep = !(o->keep_mirrors ? f->flags & ~(unsigned)SCREEN_MIRRORS_TARGET : f->flags);
         if (!f->keep || task == TASK_AUTO) continue;
-        if (isnan(f->q)) {
+        if (f->unreliable) {
+            f->keep = 0; /* the reason was given with the test */
+        } else if (isnan(f->q)) {
             f->keep = 0;
             add_reason(f, "no test applies");
         } else if (f->q >= o->q_level) {
