@@ -122,13 +122,14 @@ static void print_json(const summary *s, const screen_result *r)
     json_object_begin(&j);
     json_key(&j, "rows"); json_uint(&j, summary_rows(s));
     json_key(&j, "target");
-    if (summary_target_column(s) < 0) {
+    if (r->target < 0) {
         json_null(&j);
     } else {
         json_object_begin(&j);
-        json_key(&j, "name"); json_string(&j, summary_target_name(s));
+        json_key(&j, "name"); json_string(&j, summary_name(s, (size_t)r->target));
         json_key(&j, "task"); json_string(&j, TASKS[r->task]);
-        cli_json_class_levels(&j, s, r->task == TASK_CLASSIFY);
+        json_key(&j, "from_comoments"); json_bool(&j, r->from_comoments);
+        if (!r->from_comoments) cli_json_class_levels(&j, s, r->task == TASK_CLASSIFY);
         json_object_end(&j);
     }
     json_key(&j, "kept"); json_uint(&j, r->kept);
@@ -245,7 +246,11 @@ static void print_text(const summary *s, const screen_result *r, const char *pat
 {
     int color = table_use_color(stdout);
     unsigned long long rows = summary_rows(s);
-    if (summary_target_column(s) >= 0)
+    if (r->from_comoments)
+        printf("%s: %llu rows; target %s (regression from the co-moments: F test of r only); kept "
+               "%zu of %zu columns\n", path, rows, summary_name(s, (size_t)r->target), r->kept,
+               r->nfeatures);
+    else if (r->target >= 0)
         printf("%s: %llu rows; target %s (%s); kept %zu of %zu columns\n", path, rows,
                summary_target_name(s), r->task == TASK_CLASSIFY ? "classification" : "regression",
                r->kept, r->nfeatures);
@@ -313,7 +318,10 @@ int cmd_screen(int argc, char **argv)
     const char *format = "text", *q = NULL, *top = NULL, *bins = NULL, *rank_by = NULL;
     const char *keep_list = NULL, *missing = NULL, *minvar = NULL, *redund = NULL, *share = NULL;
     int keep_mirrors = 0;
+    const char *target = NULL;
     const cli_option opts[] = {
+        {"target", 't', "COL", "test against numeric column COL instead of the scan's target: the F "
+                               "test of r from the co-moments only", &target, NULL},
         {"format", 'f', "FMT", "text (default), csv or json", &format, NULL},
         {"q", 0, "LEVEL", "q-value below which a column counts as relevant (default 0.05)", &q, NULL},
         {"top", 0, "K", "keep at most K columns", &top, NULL},
@@ -389,6 +397,20 @@ int cmd_screen(int argc, char **argv)
         cli_error("screen", "%s: %s", pos[0], why);
         rc = EXIT_USAGE;
         goto done;
+    }
+    if (target) {
+        long col = summary_find_column(s, target);
+        size_t same = 0;
+        for (size_t i = 0; i < summary_columns(s); i++) same += !strcmp(summary_name(s, i), target);
+        const char *problem = col < 0     ? "no such column"
+                              : same > 1 ? "names more than one column of the summary"
+                                         : screen_target_problem(s, (size_t)col, o.numeric_share);
+        if (problem) {
+            cli_error("screen", "%s: --target %s: %s", pos[0], target, problem);
+            rc = EXIT_USAGE;
+            goto done;
+        }
+        o.target_col = col;
     }
     r = screen_run(s, &o);
     if (!r) { cli_error("screen", "out of memory"); rc = EXIT_RESOURCE; goto done; }

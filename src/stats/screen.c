@@ -28,6 +28,18 @@ void screen_options_defaults(screen_options *o)
     o->q_level = 0.05;
     o->redundancy = 0.95;
     o->bins = 10;
+    o->target_col = -1;
+}
+
+const char *screen_target_problem(const summary *s, size_t col, double numeric_share)
+{
+    if (col >= summary_columns(s)) return "no such column";
+    if ((long)col == (long)summary_target_column(s)) return NULL;
+    if (summary_kind(s, col, numeric_share) != KIND_NUMERIC)
+        return "not a numeric column (a text target needs a scan with it as the target)";
+    if (!summary_has_pairs(s, col))
+        return "not in the summary's co-moment matrix (it was scanned as a text column)";
+    return NULL;
 }
 
 void screen_free(screen_result *r)
@@ -349,6 +361,23 @@ static void judge_mirror(const summary *s, screen_feature *f, target_task task)
     add_reason(f, "mirrors_target: %s (a possible leak of the outcome)", why);
 }
 
+/* A column tested against a target that is not the scan's (y, from the
+ * co-moments): the F test of r for a numeric column in the matrix, nothing
+ * else (no per-class, per-level or bucket table was kept against y). */
+static void test_from_comoments(const summary *s, size_t col, size_t y, screen_feature *f)
+{
+    stat_result r;
+    if (f->kind != KIND_NUMERIC || !summary_has_pairs(s, col)) {
+        add_reason(f, "no test from this summary against %s (scan with it as the target)",
+                   summary_name(s, y));
+        return;
+    }
+    double rr = summary_correlation(s, col, y);
+    double nn = (double)summary_pair_count(s, col, y);
+    if (isfinite(rr) && stat_correlation_f(rr, nn, &r) == 0) set_test(&f->corr_f, &r);
+    set_primary(f, &f->corr_f);
+}
+
 static int test_feature(const summary *s, size_t col, target_task task, const screen_options *o,
                         const target_axis *ta, screen_feature *f)
 {
@@ -483,10 +512,21 @@ screen_result *screen_run(const summary *s, const screen_options *o)
 {
     screen_result *res = calloc(1, sizeof *res);
     if (!res) return NULL;
-    target_task task = summary_target_task(s, o->numeric_share);
-    res->task = task;
-    size_t ncols = summary_columns(s);
     int target = summary_target_column(s), classes = summary_classes_kept(s);
+    int from_comoments = o->target_col >= 0 && o->target_col != target;
+    if (from_comoments && screen_target_problem(s, (size_t)o->target_col, o->numeric_share)) {
+        free(res);
+        return NULL;
+    }
+    target_task task = from_comoments ? TASK_REGRESS : summary_target_task(s, o->numeric_share);
+    if (from_comoments) {
+        target = (int)o->target_col;
+        classes = 0;
+    }
+    res->task = task;
+    res->target = target;
+    res->from_comoments = from_comoments;
+    size_t ncols = summary_columns(s);
     res->features = calloc(ncols ? ncols : 1, sizeof *res->features);
     size_t *order = calloc(ncols ? ncols : 1, sizeof *order);
     int64_t *rank = calloc(summary_class_count(s) + 1, sizeof *rank);
@@ -507,7 +547,10 @@ screen_result *screen_run(const summary *s, const screen_options *o)
         for (int b = 0; b < SCREEN_NFLAGS; b++)
             if (f->flags & (1u << b)) add_reason(f, "%s", screen_flag_names[b]);
         f->mi.expected_nats = f->mi.adjusted = NAN;
-        if (!f->flags && task != TASK_AUTO) {
+        if (!f->flags && from_comoments) {
+            test_from_comoments(s, i, (size_t)target, f);
+            judge_mirror(s, f, task);
+        } else if (!f->flags && task != TASK_AUTO) {
             if (test_feature(s, i, task, o, &ta, f) != 0) goto oom;
             judge_primary(f, task);
             judge_mirror(s, f, task);
@@ -533,7 +576,7 @@ screen_result *screen_run(const summary *s, const screen_options *o)
             f->keep = 0; /* the reason was given with the test */
         } else if (isnan(f->q)) {
             f->keep = 0;
-            add_reason(f, "no test applies");
+            if (!f->reasons[0]) add_reason(f, "no test applies");
         } else if (f->q >= o->q_level) {
             f->keep = 0;
             add_reason(f, "not relevant (q = %.3g)", f->q);

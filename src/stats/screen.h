@@ -61,6 +61,9 @@ typedef struct {
     size_t top;              /* keep at most this many (0: no limit) */
     screen_rank rank_by;     /* ranking key */
     int keep_mirrors;        /* keep columns flagged mirrors_target in the selection */
+    long target_col;         /* -1: the summary's own target; else a numeric column of the
+                                co-moment matrix taken as a continuous target (see
+                                screen_target_problem): only the F test of r applies */
 } screen_options;
 
 typedef struct {
@@ -106,6 +109,8 @@ typedef struct {
 
 typedef struct {
     target_task task;        /* TASK_AUTO when there is no target */
+    long target;             /* the target column, -1 without one */
+    int from_comoments;      /* the target is not the scan's: tests from the co-moments only */
     size_t nfeatures;        /* every column but the target */
     screen_feature *features;
     size_t npairs;
@@ -114,7 +119,11 @@ typedef struct {
 } screen_result;
 
 void screen_options_defaults(screen_options *o);
-/* NULL on OOM. */
+/* NULL when column col can be screen_options.target_col of s; otherwise why
+ * not (a phrase for a message).  The summary's own target always can; another
+ * column must be numeric and in the co-moment matrix. */
+const char *screen_target_problem(const summary *s, size_t col, double numeric_share);
+/* NULL on OOM, or when o->target_col is refused by screen_target_problem. */
 screen_result *screen_run(const summary *s, const screen_options *o);
 void screen_free(screen_result *r);
 
