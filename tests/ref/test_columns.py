@@ -661,6 +661,53 @@ def test_exact_quantiles():
               "median cell %r" % med)
 
 
+def test_wide_decimals():
+    """Cells of 20 to 30 significant digits keep their columns exact: mean,
+    variance, skewness and kurtosis against exact rational arithmetic
+    (fractions.Fraction on the cells' text), each rounded once to a double."""
+    import random
+    rnd = random.Random(20)
+    cases = [
+        # the ten values of issue 13: exact variance 8.69e-12 (was 0)
+        ("ten_values_near_1e12", ["1000000000000.0000005"] +
+         ["1000000000000.00000%d" % i for i in range(1, 10)]),
+        # one 20-digit cell in the middle of a column (was 1.11e-11, exact 9.55e-12)
+        ("one_wide_cell_in_the_middle", ["1000000000000.000001", "1000000000000.000002",
+                                         "1000000000000.0000035", "1000000000000.000004",
+                                         "1000000000000.000009"]),
+    ]
+    for digits in (20, 24, 27, 30):
+        base = rnd.randrange(10 ** 12, 10 ** 13)
+        vals = []
+        for _ in range(300):
+            frac = rnd.randrange(10 ** (digits - 14), 10 ** (digits - 13))
+            v = "%s%d.%d" % ("-" if base < 0 else "", base, frac)
+            vals.append(v[:digits + 1] if len(v.replace(".", "")) > digits else v)
+        cases.append(("offset_1e12_%d_digits" % digits, vals))
+        # values that differ in their first digits, with long tails
+        vals = ["%d.%0*d" % (rnd.randrange(-999, 1000), digits - 3, rnd.randrange(10 ** (digits - 3)))
+                for _ in range(300)]
+        cases.append(("spread_%d_digits" % digits, vals))
+    for tag, vals in cases:
+        t = "wide." + tag
+        p = os.path.join(TMP, tag + ".csv")
+        write_column(p, "v", vals)
+        for extra, sub in (((), ""), (("--chunk-size", "1K"), ".chunk_1K")):
+            info, err = scan([p], extra)
+            if info is None:
+                fail(t + sub, err)
+                continue
+            c = info["columns"][0]
+            mean, var = exact_mean_var(vals)
+            g1, g2 = exact_shape(vals)
+            # the mean to 1e-15 of the largest |value| (the rounding of a sum)
+            scale = max(abs(float(v)) for v in vals)
+            close(t + sub + ".mean_vs_fractions", c["mean"], float(mean), rel=1e-15, scale=scale)
+            close(t + sub + ".variance_vs_fractions", c["variance"], float(var), rel=1e-13)
+            close(t + sub + ".skewness_vs_fractions", c["skewness"], g1, rel=1e-11, scale=1.0)
+            close(t + sub + ".kurtosis_vs_fractions", c["kurtosis"], g2, rel=1e-11, scale=1.0)
+
+
 def main():
     if not os.access(SHEAF, os.X_OK):
         fail("binary", "%s not found (run make first)" % os.path.abspath(SHEAF))
@@ -677,6 +724,7 @@ def main():
         test_nist_numacc()
         test_epoch_microseconds()
         test_exact_quantiles()
+        test_wide_decimals()
     finally:
         shutil.rmtree(TMP, ignore_errors=True)
 
