@@ -127,21 +127,46 @@ Test(access_columns, counts_and_moments_match_the_hand_worked_table)
     summary_free(s);
 }
 
-Test(access_columns, quantiles_are_clamped_and_within_their_bound)
+Test(access_columns, quantiles_are_exact_when_the_value_table_holds_every_number)
 {
     summary *s = scan_text(SMALL, NULL);
     size_t x = (size_t)column(s, "x");
     double rel = NAN;
-    double med = summary_quantile(s, x, 0.5, &rel);
-    cr_assert(rel > 0 && rel < 0.01, "bound %g", rel);
-    cr_assert_eq(rel, summary_quantile_error(s, x));
-    cr_assert_leq(fabs(med - 2), rel * 2, "median %.17g", med);
-    /* The extremes: within the bound, and clamped to the observed min and max. */
-    double q0 = summary_quantile(s, x, 0, NULL), q1 = summary_quantile(s, x, 1, NULL);
-    cr_assert(q0 >= 1 && q0 <= 1 + rel, "q0 %.17g", q0);
-    cr_assert(q1 <= 4 && q1 >= 4 - 4 * rel, "q1 %.17g", q1);
+    /* x = 1, 2, 3, 4: numpy.quantile(method='linear'), by hand: h = 3p. */
+    cr_assert_eq(summary_quantile(s, x, 0.5, &rel), 2.5);
+    cr_assert_eq(rel, 0);
+    cr_assert_eq(summary_quantile_error(s, x), 0);
+    cr_assert_eq(summary_quantile(s, x, 0, NULL), 1);
+    cr_assert_eq(summary_quantile(s, x, 1, NULL), 4);
+    cr_assert_eq(summary_quantile(s, x, 0.25, NULL), 1.75);
+    double p[] = {0.1, 0.9, 2}, q[3];
+    cr_assert_eq(summary_quantiles(s, x, p, 3, q, NULL), 0);
+    cr_assert_eq(q[0], 1.3); /* 1 + 0.3 (2 - 1): the double numpy gives */
+    cr_assert_eq(q[1], 3.7);
+    cr_assert(isnan(q[2]));
     cr_assert(isnan(summary_quantile(s, x, 1.5, NULL)));
-    cr_assert_geq(summary_quantile_error(s, x), summary_quantile_error_floor());
+    summary_free(s);
+}
+
+Test(access_columns, quantiles_past_the_value_table_are_clamped_estimates_within_their_bound)
+{
+    /* 1 .. 2000: 2000 distinct values overflow the 1024-entry table. */
+    size_t cap = 16 + 2000 * 6;
+    char *text = malloc(cap);
+    size_t used = (size_t)snprintf(text, cap, "x\n");
+    for (int i = 1; i <= 2000; i++) used += (size_t)snprintf(text + used, cap - used, "%d\n", i);
+    summary *s = scan_text(text, NULL);
+    free(text);
+    double rel = NAN;
+    double med = summary_quantile(s, 0, 0.5, &rel);
+    cr_assert(rel > 0 && rel < 0.01, "bound %g", rel);
+    cr_assert_eq(rel, summary_quantile_error(s, 0));
+    cr_assert_geq(rel, summary_quantile_error_floor());
+    /* numpy linear median of 1..2000, by hand: 1000.5, between 1000 and 1001 */
+    cr_assert_leq(fabs(med - 1000.5), rel * 1000.5, "median %.17g", med);
+    double q0 = summary_quantile(s, 0, 0, NULL), q1 = summary_quantile(s, 0, 1, NULL);
+    cr_assert(q0 >= 1 && q0 <= 1 + rel, "q0 %.17g", q0);
+    cr_assert(q1 <= 2000 && q1 >= 2000 * (1 - rel), "q1 %.17g", q1);
     summary_free(s);
 }
 

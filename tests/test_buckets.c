@@ -698,6 +698,72 @@ Test(buckets, quantiles_match_numpy_inverted_cdf_on_small_sample)
     buckets_free(b);
 }
 
+/* numpy's 'linear' on a sorted array: x_j + g (x_j+1 - x_j), h = (n - 1) p. */
+static void linear_neighbours(const double *sorted, size_t n, double p, double *a, double *b,
+                              double *g)
+{
+    double h = (double)(n - 1) * p, j = floor(h);
+    size_t k = (size_t)j;
+    *a = sorted[k];
+    *b = sorted[k + 1 < n ? k + 1 : k];
+    *g = h - j;
+}
+
+Test(buckets, linear_quantiles_are_within_the_bound_of_their_two_neighbours)
+{
+    enum { N = 100000 };
+    double *x = normal_sample(N, 43, 0, 1);
+    static const double ps[] = {0, 1e-5, 0.01, 0.25, 0.3, 0.5, 0.6, 0.75, 0.99, 0.99999, 1};
+    for (int pass = 0; pass < 2; pass++) {
+        if (pass) for (size_t i = 0; i < N; i++) x[i] = 250.0 + 30.0 * x[i];
+        double *sorted = malloc(N * sizeof *sorted);
+        memcpy(sorted, x, N * sizeof *x);
+        qsort(sorted, N, sizeof *sorted, cmp_double);
+        static const uint32_t budgets[] = {100000, 500, 40};
+        for (size_t k = 0; k < 3; k++) {
+            buckets *b = store_of(x, NULL, NULL, N, budgets[k]);
+            for (size_t i = 0; i < sizeof ps / sizeof ps[0]; i++) {
+                double rel = -1, a, c, g;
+                double q = buckets_quantile_linear(b, ps[i], &rel);
+                linear_neighbours(sorted, N, ps[i], &a, &c, &g);
+                double want = a + (c - a) * g;
+                cr_assert_eq(rel, buckets_relative_error(buckets_level(b)));
+                cr_assert(fabs(q - want) <= rel * ((1 - g) * fabs(a) + g * fabs(c)) * (1 + 1e-12),
+                          "level %d p %g: %.17g vs %.17g", buckets_level(b), ps[i], q, want);
+            }
+            buckets_free(b);
+        }
+        free(sorted);
+    }
+    free(x);
+}
+
+Test(buckets, linear_quantiles_match_numpy_on_small_sample)
+{
+    static const double x[] = {3.5, -1.25, 7.0, 0.0, 2.0, 2.0, 10.5, -4.0, 6.25, 1.5};
+    /* numpy 1.24.2 (Debian python3-numpy): np.quantile(x, p) (method='linear') */
+    static const double ps[] = {0, 0.1, 0.15, 0.25, 0.3, 0.5, 0.51, 0.9, 0.95, 1.0};
+    static const double want[] = {-4.0, -1.525, -0.8125000000000002, 0.375, 1.0499999999999996,
+                                  2.0, 2.0, 7.349999999999999,
+                                  8.924999999999997, 10.5};
+    double sorted[10];
+    memcpy(sorted, x, sizeof x);
+    qsort(sorted, 10, sizeof *sorted, cmp_double);
+    buckets *b = store_of(x, NULL, NULL, 10, 1000);
+    for (size_t i = 0; i < sizeof ps / sizeof ps[0]; i++) {
+        double rel, a, c, g;
+        double q = buckets_quantile_linear(b, ps[i], &rel);
+        linear_neighbours(sorted, 10, ps[i], &a, &c, &g);
+        cr_assert(fabs(q - want[i]) <= rel * ((1 - g) * fabs(a) + g * fabs(c)) + 1e-15,
+                  "p %g: %.17g vs %.17g", ps[i], q, want[i]);
+    }
+    cr_assert(isnan(buckets_quantile_linear(b, 1.5, NULL)));
+    buckets_free(b);
+    b = buckets_create(10);
+    cr_assert(isnan(buckets_quantile_linear(b, 0.5, NULL)));
+    buckets_free(b);
+}
+
 Test(buckets, quantile_of_empty_store_or_bad_p_is_nan)
 {
     buckets *b = buckets_create(10);

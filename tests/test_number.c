@@ -383,12 +383,123 @@ Test(number, difference_falls_back_when_not_exact)
     cr_assert_eq(number_difference(&a, &b, &exact), 1.8e19);
     cr_assert_eq(exact, 0);
 
-    /* More than 19 significant digits: the inputs themselves are rounded. */
+    /* More than 38 significant digits (a non-zero 40th): the inputs
+     * themselves are rounded. */
     exact = 1;
-    a = decimal("1.00000000000000000001");
+    a = decimal("1.000000000000000000000000000000000000001");
     b = decimal("1");
+    cr_assert_eq(a.tail_digits, 0);
     cr_assert_eq(number_difference(&a, &b, &exact), 0.0);
     cr_assert_eq(exact, 0);
+}
+
+Test(number, cells_of_20_to_38_digits_keep_their_tail)
+{
+    number_decimal d = decimal("1000000000000.0000005"); /* 20 digits */
+    cr_assert_eq(d.exact, 0);
+    cr_assert_eq(d.mantissa, UINT64_C(1000000000000000000));
+    cr_assert_eq(d.exp10, -6);
+    cr_assert_eq(d.tail, 5);
+    cr_assert_eq(d.tail_digits, 1);
+    d = decimal("-12345678901234567890123"); /* 23 digits, an integer */
+    cr_assert_eq(d.mantissa, UINT64_C(1234567890123456789));
+    cr_assert_eq(d.exp10, 4);
+    cr_assert_eq(d.tail, 123);
+    cr_assert_eq(d.tail_digits, 4);
+    cr_assert(d.negative);
+    d = decimal("0.000123456789012345678901234567890123456780000e5"); /* 38 digits, zeros after */
+    cr_assert_eq(d.mantissa, UINT64_C(1234567890123456789));
+    cr_assert_eq(d.tail, UINT64_C(123456789012345678));
+    cr_assert_eq(d.tail_digits, 19);
+    cr_assert_eq(d.exp10 - d.tail_digits, -36); /* the 38th digit at 10^-41, times 10^5 */
+    /* Digits after the 19th that are all zero leave the decimal exact. */
+    d = decimal("1234567890123456789000");
+    cr_assert(d.exact);
+    cr_assert_eq(d.tail_digits, 0);
+}
+
+Test(number, differences_of_20_to_38_digit_decimals_are_exact)
+{
+    /* Each difference worked by hand, then the double the compiler gives
+     * for it (correctly rounded). */
+    static const struct {
+        const char *a, *b;
+        double want;
+    } cases[] = {
+        {"1000000000000.0000005", "1000000000000", 5e-7},
+        {"1000000000000.0000005", "1000000000000.000009", -8.5e-6},
+        {"1000000000000.000001", "1000000000000.0000005", 5e-7},
+        {"123456789012345678901234567.5", "123456789012345678901234560", 7.5},
+        {"-0.1000000000000000000000000000001", "-0.1", -1e-31},
+        {"99999999999999999999.99", "100000000000000000000", -0.01},
+        {"1.23456789012345678901234567890123456", "1.23456789012345678901234567890123455",
+         1e-35},
+        /* the difference passes 2^64: rounded through strtod */
+        {"123456789012345678901234567890", "-1", 123456789012345678901234567891.0},
+    };
+    for (size_t i = 0; i < sizeof cases / sizeof cases[0]; i++) {
+        number_decimal a = decimal(cases[i].a), b = decimal(cases[i].b);
+        int exact = 0;
+        double got = number_difference(&a, &b, &exact);
+        cr_assert_eq(exact, 1, "%s - %s", cases[i].a, cases[i].b);
+        cr_assert_eq(bits_of(got), bits_of(cases[i].want), "%s - %s: %.17g, want %.17g",
+                     cases[i].a, cases[i].b, got, cases[i].want);
+        /* the inline deviation takes the general path for them */
+        number_ref r;
+        number_ref_set(&r, &b);
+        cr_assert_eq(bits_of(number_deviation(&a, &r)), bits_of(got));
+    }
+}
+
+Test(number, a_frame_has_19_digits_and_the_cell_s_double)
+{
+    number_decimal f, d = decimal("1000000000000.0000005");
+    number_frame(&d, &f);
+    cr_assert(f.exact);
+    cr_assert_eq(f.tail_digits, 0);
+    cr_assert_eq(f.mantissa, UINT64_C(1000000000000000000));
+    cr_assert_eq(f.exp10, -6);
+    cr_assert_eq(bits_of(f.value), bits_of(d.value));
+    /* Its first 19 digits, 15458522103180.20605, read as ...205 (strtod),
+     * the cell as ...207: the frame takes one unit more. */
+    d = decimal("15458522103180.2060591839");
+    number_frame(&d, &f);
+    cr_assert(f.exact);
+    cr_assert_eq(f.mantissa, UINT64_C(1545852210318020606));
+    cr_assert_eq(f.exp10, -5);
+    cr_assert_eq(bits_of(number_to_double(f.mantissa, f.exp10, 0)), bits_of(d.value));
+    cr_assert_eq(bits_of(f.value), bits_of(d.value));
+    /* The unit more carries into a 20th digit: 19 nines become 10^18 at the
+     * next power of ten. */
+    d = decimal("9999999999999999999.9");
+    number_frame(&d, &f);
+    cr_assert(f.exact);
+    cr_assert_eq(bits_of(number_to_double(f.mantissa, f.exp10, 0)), bits_of(d.value));
+    /* An exact cell is its own frame. */
+    d = decimal("-2.5");
+    number_frame(&d, &f);
+    cr_assert(f.exact && f.mantissa == 25 && f.exp10 == -1 && f.negative);
+    /* Random cells of 20 to 38 digits: always exact, same double, within
+     * one unit of the 19th digit of the cell. */
+    uint64_t state = 0x5eed5eedULL;
+    for (int k = 0; k < 20000; k++) {
+        char buf[64];
+        int digits = 20 + (int)(xorshift64(&state) % 19), point = 1 + (int)(xorshift64(&state) % 30);
+        size_t n = 0;
+        for (int i = 0; i < digits; i++) {
+            if (i == point) buf[n++] = '.';
+            buf[n++] = (char)('0' + (i == 0 ? 1 + xorshift64(&state) % 9 : xorshift64(&state) % 10));
+        }
+        buf[n] = '\0';
+        d = decimal(buf);
+        number_frame(&d, &f);
+        cr_assert(f.exact, "%s", buf);
+        cr_assert_eq(bits_of(number_to_double(f.mantissa, f.exp10, 0)), bits_of(d.value), "%s", buf);
+        int exact = 0;
+        double dev = number_difference(&d, &f, &exact);
+        cr_assert(exact, "%s", buf);
+        cr_assert_leq(fabs(dev), 2 * d.value * 1e-18, "%s: %g", buf, dev);
+    }
 }
 
 Test(number, fast_and_general_paths_give_the_same_decimal)

@@ -742,6 +742,36 @@ double buckets_quantile(const buckets *b, double p, double *rel_err)
     return q;
 }
 
+/* The key of the value of 0-based rank r (r < total) in key order. */
+static int64_t rank_key(const buckets *b, const order_item *order, uint64_t r)
+{
+    size_t i = 0;
+    for (uint64_t cum = 0; i + 1 < b->n; i++)
+        if ((cum += b->slots[order[i].pos].count) > r) break;
+    return order[i].key;
+}
+
+double buckets_quantile_linear(const buckets *b, double p, double *rel_err)
+{
+    if (rel_err) *rel_err = buckets_relative_error(b->level);
+    if (b->total == 0 || !(p >= 0.0 && p <= 1.0)) return NAN;
+    /* numpy's virtual index (n - 1) p, the same double operation */
+    double n = (double)b->total, h = (n - 1.0) * p, lo = floor(h);
+    if (lo < 0) lo = 0;
+    if (lo > n - 1) lo = n - 1;
+    uint64_t j = (uint64_t)lo;
+    uint64_t k = j + 1 < b->total ? j + 1 : j;
+    double g = h - lo;
+    const order_item *order;
+    order_item *tmp;
+    if (read_order(b, &order, &tmp)) return NAN;
+    double a = buckets_point(rank_key(b, order, j), b->level);
+    double c = k == j ? a : buckets_point(rank_key(b, order, k), b->level);
+    free(tmp);
+    double diff = c - a; /* numpy's _lerp */
+    return g >= 0.5 ? c - diff * (1.0 - g) : a + diff * g;
+}
+
 /* ---- serialization ------------------------------------------------------ */
 
 void buckets_write(const buckets *b, wire_writer *w)

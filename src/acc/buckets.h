@@ -133,6 +133,15 @@ buckets_entry buckets_entry_at(const buckets *b, size_t i);
  * for the exact sample quantile q whenever |q| is above the level's normal
  * floor.  NaN when empty or p outside [0, 1] (or unsealed and out of memory). */
 double buckets_quantile(const buckets *b, double p, double *rel_err);
+/* The p-quantile by linear interpolation between order statistics (numpy
+ * method='linear', its default; Hyndman & Fan definition 7): with
+ * h = (n - 1) p, j = floor(h) and g = h - j, (1 - g) x_(j) + g x_(j+1)
+ * (0-based ranks), each x taken as its bucket's point.  Since
+ * |point - x| <= eps |x| for each of the two, the result is within
+ * eps ((1 - g) |x_(j)| + g |x_(j+1)|) of the exact sample quantile q, which
+ * is eps |q| when the two neighbours have one sign.  *rel_err and NaN as
+ * for buckets_quantile. */
+double buckets_quantile_linear(const buckets *b, double p, double *rel_err);
 /* The relative-error bound of a level for the harmonic midpoint, max over
  * normal-range buckets of (hi - lo) / (hi + lo) (see above), rounded up by
  * 4 DBL_EPSILON to cover the floating-point evaluation of the midpoint;

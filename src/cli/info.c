@@ -81,6 +81,7 @@ static void json_column(json_out *j, const column_description *d)
         json_array_end(j);
     }
     json_key(j, "quantile_relative_error"); json_number(j, d->quantile_relative_error);
+    json_key(j, "quantiles_exact"); json_bool(j, d->quantiles_exact);
     json_object_end(j);
 }
 
@@ -210,8 +211,13 @@ static void text_column(table *t, const column_description *d)
         table_format_number(b, sizeof b, d->mean, 6); table_cell(t, 4, b);
         table_format_number(b, sizeof b, d->sd, 6); table_cell(t, 5, b);
         table_format_number(b, sizeof b, d->min, 6); table_cell(t, 6, b);
-        table_format_number(b, sizeof b, d->median, 4);
-        table_cellf(t, 7, "~%s", b);
+        if (d->quantiles_exact) {
+            table_format_number(b, sizeof b, d->median, 6);
+            table_cell(t, 7, b);
+        } else {
+            table_format_number(b, sizeof b, d->median, 4);
+            table_cellf(t, 7, "~%s", b);
+        }
         table_format_number(b, sizeof b, d->max, 6); table_cell(t, 8, b);
     }
     table_cellf(t, 9, d->distinct_exact ? "%.0f" : "~%.0f", d->distinct);
@@ -266,7 +272,9 @@ static int print_text(const summary *s, const char *path, double share, size_t n
     printf("\n");
     table_print(t, stdout, width, color);
     table_free(t);
-    printf("\nmedians are bucket estimates (relative error at most %.2g%%); '~' marks estimates.\n",
+    printf("\nmedians interpolate between the middle values (numpy's 'linear'); exact where the "
+           "value table holds every number, else bucket estimates (relative error at most "
+           "%.2g%%) marked '~'.\n",
            100 * summary_quantile_error_floor());
     return 0;
 }

@@ -37,6 +37,18 @@
  * Difference.  Both mantissas are scaled to the smaller exponent s in 128-bit
  * integers (m < 10^19, shift <= 19, product < 10^38 < 2^127); the difference
  * d, when it fits int64, is rounded once by number_to_double(|d|, s).
+ *
+ * Wide cells.  A cell of 20 to 38 significant digits keeps the digits after
+ * the 19th in `tail` (19 at most), so its whole significand w = mantissa
+ * 10^t + tail is below 10^38 < 2^127.  Differences involving one are taken
+ * the same way on w in 128-bit integers (scaled to the smaller power of ten
+ * while they stay below 2^127) and rounded once, through strtod of the
+ * integer's digits when it passes 2^64.  When a scaled significand would not
+ * fit, the two values differ by more than a factor of 1.7 and the
+ * floating-point difference a.value - b.value is within a few ulps.  A frame
+ * (number_frame) is never wide: the first 19 digits, or one unit more when
+ * those read as another double, so that the frame's double is the cell's
+ * and the format keeps its 19-digit decimals.
  */
 #include "io/number.h"
 
@@ -271,6 +283,24 @@ static inline int parse_plain(const unsigned char *p, const unsigned char *end,
 static number_kind parse_general(const unsigned char *p, const unsigned char *end,
                                  number_decimal *out) __attribute__((noinline));
 
+/* The digits after the 19th significant one: the next 19 as an integer,
+ * and whether a non-zero digit lies beyond them (the 39th on). */
+typedef struct {
+    uint64_t value;  /* digits 20 .. 19 + digits */
+    int digits;      /* how many (at most 19) */
+    unsigned beyond; /* OR of the digits past the 38th */
+} number_tail;
+
+static inline void tail_take(number_tail *t, unsigned d)
+{
+    if (t->digits < 19) {
+        t->value = t->value * 10 + d;
+        t->digits++;
+    } else {
+        t->beyond |= d;
+    }
+}
+
 int number_simd_usable(void)
 {
 #if defined(NUMBER_SIMD)
@@ -314,11 +344,13 @@ static number_kind parse_general(const unsigned char *p, const unsigned char *en
     int room = 19;         /* significant digits m can still take */
     int64_t shift = 0;     /* power of ten contributed by the digit positions */
     unsigned dropped = 0;  /* OR of the digits beyond the 19th */
+    number_tail t = {0, 0, 0};
     while (p < end && *p == '0') p++;
     for (; p < end && digit_of(*p) < 10 && room; p++, room--) m = m * 10 + digit_of(*p);
     for (; p < end && digit_of(*p) < 10; p++) {
         shift++;
         dropped |= digit_of(*p);
+        tail_take(&t, digit_of(*p));
     }
     size_t digits = (size_t)(p - start);
     if (p < end && *p == '.') {
@@ -328,7 +360,10 @@ static number_kind parse_general(const unsigned char *p, const unsigned char *en
         const unsigned char *kept = p;
         for (; p < end && digit_of(*p) < 10 && room; p++, room--) m = m * 10 + digit_of(*p);
         shift -= p - kept;
-        for (; p < end && digit_of(*p) < 10; p++) dropped |= digit_of(*p);
+        for (; p < end && digit_of(*p) < 10; p++) {
+            dropped |= digit_of(*p);
+            tail_take(&t, digit_of(*p));
+        }
         digits += (size_t)(p - f);
     }
     const unsigned char *mantissa_end = p;
@@ -361,11 +396,12 @@ static number_kind parse_general(const unsigned char *p, const unsigned char *en
 
     int64_t e = exponent + shift;
     int exact = !dropped;
+    int wide = dropped && !t.beyond;
     if (m == 0) {
         e = 0;
     } else if (e < INT32_MIN || e > INT32_MAX) {
         e = e < 0 ? INT32_MIN : INT32_MAX; /* value is 0 or inf either way */
-        exact = 0;
+        exact = wide = 0;
     }
     double v = 0.0;
     if (m != 0 && (dropped || !fast_path(m, e, &v))) v = text_value(start, mantissa_end, exponent);
@@ -376,7 +412,107 @@ static number_kind parse_general(const unsigned char *p, const unsigned char *en
     out->exp10 = (int32_t)e;
     out->negative = (uint8_t)negative;
     out->exact = (uint8_t)exact;
+    out->tail = wide ? t.value : 0;
+    out->tail_digits = (uint8_t)(wide ? t.digits : 0);
     return NUMBER_FINITE;
+}
+
+__extension__ typedef unsigned __int128 number_uwide;
+
+/* d's whole significand w and its power of ten e (|d| = w 10^e), when d
+ * holds every digit: `exact` (w < 10^19) or with a tail (w < 10^38 < 2^127). */
+static int whole_significand(const number_decimal *d, number_uwide *w, int32_t *e)
+{
+    if (d->exact) {
+        *w = d->mantissa;
+        *e = d->exp10;
+        return 1;
+    }
+    int64_t ew = (int64_t)d->exp10 - d->tail_digits;
+    if (!d->tail_digits || ew < INT32_MIN) return 0;
+    *w = (number_uwide)d->mantissa * pow10_u64[d->tail_digits] + d->tail;
+    *e = (int32_t)ew;
+    return 1;
+}
+
+/* w 10^k below 2^127 (signed-safe), or 0 when it would not be. */
+static int scale_wide(number_uwide w, int64_t k, number_uwide *out)
+{
+    const number_uwide limit = (number_uwide)1 << 127;
+    while (k > 0 && w) {
+        int step = k > 19 ? 19 : (int)k;
+        if (__builtin_mul_overflow(w, (number_uwide)pow10_u64[step], &w) || w >= limit) return 0;
+        k -= step;
+    }
+    *out = w;
+    return 1;
+}
+
+/* The correctly rounded double of (negative ? -1 : 1) u 10^e, u < 2^128. */
+static double wide_to_double(number_uwide u, int32_t e, int negative)
+{
+    if (u <= UINT64_MAX) return number_to_double((uint64_t)u, e, negative);
+    /* 2^64 <= u < 2^128 < 10^39: the value lies in [10^(e+19), 10^(e+39)). */
+    double v;
+    if (e > 310) {
+        v = HUGE_VAL;
+    } else if (e < -400) {
+        v = 0.0;
+    } else {
+        char rev[40], buf[40 + 24];
+        int k = 0;
+        size_t n = 0;
+        while (u) {
+            rev[k++] = (char)('0' + (int)(u % 10));
+            u /= 10;
+        }
+        while (k) buf[n++] = rev[--k];
+        v = strtod_digits(buf, n, e);
+    }
+    return negative ? -v : v;
+}
+
+/* a - b by their whole significands in 128-bit integers: 1 and *out when
+ * both hold every digit and the scaled significands and their difference
+ * fit. */
+static int wide_difference(const number_decimal *a, const number_decimal *b, double *out)
+{
+    number_uwide wa, wb;
+    int32_t ea, eb;
+    if (!whole_significand(a, &wa, &ea) || !whole_significand(b, &wb, &eb)) return 0;
+    int32_t s = ea < eb ? ea : eb;
+    if (!scale_wide(wa, (int64_t)ea - s, &wa) || !scale_wide(wb, (int64_t)eb - s, &wb)) return 0;
+    number_wide x = a->negative ? -(number_wide)wa : (number_wide)wa;
+    number_wide y = b->negative ? -(number_wide)wb : (number_wide)wb;
+    number_wide d;
+    if (__builtin_sub_overflow(x, y, &d)) return 0;
+    number_uwide u = d < 0 ? (number_uwide)0 - (number_uwide)d : (number_uwide)d;
+    *out = wide_to_double(u, s, d < 0);
+    return 1;
+}
+
+void number_frame(const number_decimal *d, number_decimal *frame)
+{
+    *frame = *d;
+    frame->tail = 0;
+    frame->tail_digits = 0;
+    if (d->exact || d->exp10 == INT32_MIN || d->exp10 == INT32_MAX) return;
+    /* The first 19 digits read toward zero: when a rounding boundary of the
+     * doubles lies between them and the cell, one unit more (a step of at
+     * most 10^-18 relative, far inside the spacing of doubles, 2^-53) reads
+     * as the cell's double. */
+    uint64_t m = d->mantissa;
+    int32_t e = d->exp10;
+    if (number_to_double(m, e, d->negative) != d->value) {
+        if (++m == pow10_u64[19]) {
+            m = pow10_u64[18];
+            e++;
+        }
+        if (number_to_double(m, e, d->negative) != d->value) return; /* not met; kept inexact */
+    }
+    frame->mantissa = m;
+    frame->exp10 = e;
+    frame->exact = 1;
 }
 
 /* n's signed mantissa at power of ten s <= n->exp10; 0 when it would not fit. */
@@ -418,6 +554,11 @@ double number_difference(const number_decimal *a, const number_decimal *b, int *
                 return number_to_double(u, s, d < 0);
             }
         }
+    }
+    double wide;
+    if ((a->tail_digits || b->tail_digits) && wide_difference(a, b, &wide)) {
+        if (exact_out) *exact_out = 1;
+        return wide;
     }
     if (exact_out) *exact_out = 0;
     return a->value - b->value;

@@ -10,10 +10,16 @@
  * else, including trailing characters, is NUMBER_TEXT.  Leading and trailing
  * ASCII spaces are ignored (common practice in hand-edited CSV).
  *
- * number_difference() subtracts two parsed decimals exactly in 64-bit integer
- * arithmetic when both mantissas fit at a common power of ten, then rounds the
- * integer difference once to double.  Accumulating deviations from a
- * reference this way means digits shared by all values cost no precision.
+ * Cells of 20 to 38 significant digits keep the digits after the 19th in
+ * a second integer (`tail`), so that their differences stay exact too.
+ *
+ * number_difference() subtracts two parsed decimals exactly in integer
+ * arithmetic (64-bit, or 128-bit for wide cells) when both significands fit
+ * at a common power of ten, then rounds the integer difference once to
+ * double.  Accumulating deviations from a reference this way means digits
+ * shared by all values cost no precision.  number_frame() turns a cell into
+ * such a reference: a decimal of at most 19 digits that reads as the same
+ * double.
  */
 #ifndef SHEAF_NUMBER_H
 #define SHEAF_NUMBER_H
@@ -28,11 +34,16 @@ typedef enum {
 } number_kind;
 
 typedef struct {
-    double value;      /* correctly rounded double of the text */
-    uint64_t mantissa; /* first 19 significant decimal digits */
-    int32_t exp10;     /* |value| == mantissa * 10^exp10 when `exact` */
-    uint8_t negative;  /* sign of the text (also for zero) */
-    uint8_t exact;     /* mantissa/exp10 hold every digit (<= 19 significant) */
+    double value;        /* correctly rounded double of the text */
+    uint64_t mantissa;   /* first 19 significant decimal digits */
+    uint64_t tail;       /* the digits after the 19th, as an integer of tail_digits digits */
+    int32_t exp10;       /* |value| == mantissa * 10^exp10 when `exact` */
+    uint8_t negative;    /* sign of the text (also for zero) */
+    uint8_t exact;       /* mantissa/exp10 hold every digit (<= 19 significant) */
+    uint8_t tail_digits; /* 1..19 when the cell has 20..38 significant digits and
+                            |value| == (mantissa * 10^tail_digits + tail) *
+                            10^(exp10 - tail_digits) exactly; 0 otherwise (`exact`, or
+                            more than 38 digits), and tail is then not read */
 } number_decimal;
 
 /* Parses s[0..len).  Fills *out only for NUMBER_FINITE (value only for
@@ -45,12 +56,20 @@ int number_simd_usable(void);
 /* The correctly rounded double of (negative ? -1 : 1) * mantissa * 10^exp10. */
 double number_to_double(uint64_t mantissa, int32_t exp10, int negative);
 
-/* a - b as a double.  When both are exact and their difference fits in a
- * signed 64-bit integer at the smaller of the two powers of ten, the result is
- * the correctly rounded value of the exact difference; otherwise it is
- * a->value - b->value.  Returns the difference; *exact_out (may be NULL) is
- * set to 1 when the integer path was taken. */
+/* a - b as a double.  When both hold every digit (`exact`, or a tail) and
+ * their significands fit in a signed 128-bit integer at the smaller of the
+ * two powers of ten, the result is the correctly rounded value of the exact
+ * difference; otherwise it is a->value - b->value.  Returns the difference;
+ * *exact_out (may be NULL) is set to 1 when the integer path was taken. */
 double number_difference(const number_decimal *a, const number_decimal *b, int *exact_out);
+
+/* A reference decimal (a frame) for the cell d: d itself when `exact`;
+ * otherwise (a cell of more than 19 significant digits) the decimal of at
+ * most 19 digits next to it that reads as the same double (its first 19
+ * digits, or one unit of the 19th more when those round to another double),
+ * so a frame is always exact and its value is d's.  A decimal whose power
+ * of ten overflowed is copied as it is (inexact).  The tail is cleared. */
+void number_frame(const number_decimal *d, number_decimal *frame);
 
 /* 10^0 .. 10^22, each exactly a double. */
 extern const double number_pow10[23];

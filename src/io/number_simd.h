@@ -22,6 +22,7 @@ static inline void number_set_exact(number_decimal *out, double val, uint64_t m,
     out->exp10 = (int32_t)e;
     out->negative = (uint8_t)negative;
     out->exact = 1;
+    out->tail_digits = 0;
 }
 
 /* Bytes after s + len that number_parse_ssse3 may read. */

@@ -31,10 +31,11 @@ int describe_column(const summary *s, size_t col, double numeric_share, size_t n
     d->max = summary_max(s, col);
     d->skewness = summary_skewness(s, col);
     d->kurtosis = summary_kurtosis(s, col);
-    d->median = summary_quantile(s, col, 0.5, NULL);
-    for (size_t q = 0; q < DESCRIBE_NQUANTILES; q++)
-        d->quantiles[q] = summary_quantile(s, col, describe_quantile_probs[q], NULL);
-    d->quantile_relative_error = summary_quantile_error(s, col);
+    if (summary_quantiles(s, col, describe_quantile_probs, DESCRIBE_NQUANTILES, d->quantiles,
+                          &d->quantile_relative_error) != 0)
+        goto oom;
+    d->median = d->quantiles[DESCRIBE_MEDIAN];
+    d->quantiles_exact = d->quantile_relative_error == 0;
     d->distinct = summary_distinct(s, col, &d->distinct_exact);
     d->high_cardinality = summary_high_cardinality(s, col);
     d->nexamples = summary_example_count(s, col);

@@ -3,9 +3,10 @@
  *
  * Counts come straight from the summary; mean, variance, skewness and
  * kurtosis from the column's moments (Welford 1962; Pébay 2008, see
- * acc/moments.h), in the column's units; quantiles from its bucket store
- * with their relative-error bound (acc/buckets.h), clamped to the observed
- * extremes; the distinct count from the value table while it is exact, else
+ * acc/moments.h), in the column's units; quantiles (numpy's 'linear',
+ * Hyndman & Fan definition 7) exactly from the value table when it holds
+ * every number, else from the bucket store with their relative-error bound
+ * (acc/buckets.h), clamped to the observed extremes; the distinct count from the value table while it is exact, else
  * from the HyperLogLog sketch (Flajolet et al. 2007); the top values from
  * the value table; and, while a target's classes are kept, the count, mean
  * and variance of a numeric column within each class.
@@ -23,6 +24,7 @@
 #include "summary/summary.h"
 
 #define DESCRIBE_NQUANTILES 7
+#define DESCRIBE_MEDIAN 3 /* the index of 0.5 among them */
 /* The probabilities of column_description.quantiles: 0.01, 0.05, 0.25, 0.5,
  * 0.75, 0.95, 0.99. */
 extern const double describe_quantile_probs[DESCRIBE_NQUANTILES];
@@ -51,9 +53,13 @@ typedef struct {
     double min, max;       /* NaN when there are no numbers */
     double skewness;       /* g1; NaN when undefined */
     double kurtosis;       /* excess kurtosis g2; NaN when undefined */
-    double median;         /* bucket estimate, clamped to [min, max]; NaN when no numbers */
-    double quantiles[DESCRIBE_NQUANTILES]; /* at describe_quantile_probs, as median */
-    double quantile_relative_error; /* bound of the estimates; NaN when no numbers */
+    double median;         /* NaN when no numbers; see quantiles */
+    double quantiles[DESCRIBE_NQUANTILES]; /* at describe_quantile_probs, numpy's 'linear'
+                                              definition: exact from the value table when it
+                                              holds every number, else bucket estimates clamped
+                                              to [min, max] (summary_quantiles) */
+    double quantile_relative_error; /* bound of the estimates, 0 when exact; NaN when no numbers */
+    int quantiles_exact;   /* the quantiles are exact (the value table holds every number) */
     double distinct;       /* distinct values (an unrounded estimate unless exact) */
     int distinct_exact;    /* distinct is exact */
     int high_cardinality;  /* the value table overflowed: top counts are lower bounds */

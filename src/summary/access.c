@@ -3,7 +3,9 @@
 #include "summary/access.h"
 
 #include <math.h>
+#include <stdlib.h>
 #include <string.h>
+#include <xxhash.h>
 
 static const summary_column *column(const summary *s, size_t col) { return &s->cols[col]; }
 
@@ -86,23 +88,121 @@ double summary_max(const summary *s, size_t col)
     return m->n ? m->max : NAN;
 }
 
-double summary_quantile(const summary *s, size_t col, double p, double *rel_error)
+/* One distinct number of a column's value table and its count. */
+typedef struct {
+    number_decimal dec; /* the number, as its cells spell it */
+    uint64_t count;     /* cells with that text */
+} exact_number;
+
+/* Ascending by value; decimals that round to one double by their exact
+ * difference. */
+static int exact_number_cmp(const void *a, const void *b)
+{
+    const number_decimal *x = &((const exact_number *)a)->dec, *y = &((const exact_number *)b)->dec;
+    if (x->value != y->value) return x->value < y->value ? -1 : 1;
+    double d = number_difference(x, y, NULL);
+    return (d > 0) - (d < 0);
+}
+
+/* The column's numbers as distinct decimals with their counts, ascending,
+ * when its value table holds every one of them: the table never overflowed,
+ * every label is the whole cell (shorter than the label length, or hashing
+ * to the entry's key) and the finite numbers among the labels count exactly
+ * the column's numbers.  Returns how many (*out malloc'ed), 0 when the table
+ * does not hold them all, -1 when out of memory. */
+static long exact_numbers(const summary_column *c, exact_number **out)
+{
+    *out = NULL;
+    const values *v = c->vals;
+    if (c->mom.n == 0 || values_overflowed(v)) return 0;
+    uint32_t levels = values_levels(v), label_bytes = values_label_bytes(v);
+    exact_number *x = malloc((levels ? levels : 1) * sizeof *x);
+    if (!x) return -1;
+    long m = 0;
+    uint64_t total = 0;
+    for (uint32_t i = 0; i < levels; i++) {
+        values_entry e = values_entry_at(v, i);
+        if (e.count == 0) { free(x); return -1; } /* unsealed, and no memory for the index */
+        if (e.label_len >= label_bytes && XXH3_64bits(e.label, e.label_len) != e.hash) {
+            free(x);
+            return 0; /* a label cut short: its number is unknown */
+        }
+        number_decimal d;
+        if (number_parse(e.label, e.label_len, &d) != NUMBER_FINITE) continue;
+        x[m++] = (exact_number){d, e.count};
+        total += e.count;
+    }
+    if (total != c->mom.n) { free(x); return 0; }
+    qsort(x, (size_t)m, sizeof *x, exact_number_cmp);
+    *out = x;
+    return m;
+}
+
+/* The number of 0-based rank r among the sorted distinct numbers. */
+static const number_decimal *exact_rank(const exact_number *x, long m, uint64_t r)
+{
+    uint64_t cum = 0;
+    for (long i = 0; i < m; i++)
+        if ((cum += x[i].count) > r) return &x[i].dec;
+    return &x[m - 1].dec;
+}
+
+/* numpy.quantile(method='linear') of the exact numbers: the same virtual
+ * index and the same interpolation, with the difference of the two
+ * neighbours taken exactly from their decimals (rounded once). */
+static double exact_quantile(const exact_number *x, long m, uint64_t n, double p)
+{
+    double nd = (double)n, h = (nd - 1.0) * p, lo = floor(h);
+    if (lo < 0) lo = 0;
+    if (lo > nd - 1) lo = nd - 1;
+    uint64_t j = (uint64_t)lo, k = j + 1 < n ? j + 1 : j;
+    double g = h - lo;
+    const number_decimal *a = exact_rank(x, m, j), *b = exact_rank(x, m, k);
+    if (g == 0 || a == b) return a->value;
+    double diff = number_difference(b, a, NULL);
+    if (diff == 0) return a->value;
+    return g >= 0.5 ? b->value - diff * (1.0 - g) : a->value + diff * g;
+}
+
+int summary_quantiles(const summary *s, size_t col, const double *p, size_t k, double *out,
+                      double *rel_error)
 {
     const summary_column *c = column(s, col);
     if (rel_error) *rel_error = NAN;
-    if (!buckets_total(c->bins)) return NAN;
-    double rel, v = buckets_quantile(c->bins, p, &rel);
-    if (rel_error) *rel_error = rel;
-    const moments *m = &c->mom;
-    if (m->n && v < m->min) v = m->min;
-    if (m->n && v > m->max) v = m->max;
+    for (size_t i = 0; i < k; i++) out[i] = NAN;
+    if (!buckets_total(c->bins)) return 0;
+    exact_number *x;
+    long m = exact_numbers(c, &x);
+    if (m < 0) return -1;
+    const moments *mom = &c->mom;
+    for (size_t i = 0; i < k; i++) {
+        if (!(p[i] >= 0.0 && p[i] <= 1.0)) continue;
+        if (m > 0) {
+            out[i] = exact_quantile(x, m, mom->n, p[i]);
+            continue;
+        }
+        double v = buckets_quantile_linear(c->bins, p[i], NULL);
+        if (mom->n && v < mom->min) v = mom->min;
+        if (mom->n && v > mom->max) v = mom->max;
+        out[i] = v;
+    }
+    free(x);
+    if (rel_error) *rel_error = m > 0 ? 0.0 : buckets_relative_error(buckets_level(c->bins));
+    return 0;
+}
+
+double summary_quantile(const summary *s, size_t col, double p, double *rel_error)
+{
+    double v;
+    if (summary_quantiles(s, col, &p, 1, &v, rel_error) != 0) return NAN;
     return v;
 }
 
 double summary_quantile_error(const summary *s, size_t col)
 {
-    const buckets *b = column(s, col)->bins;
-    return buckets_total(b) ? buckets_relative_error(buckets_level(b)) : NAN;
+    double v, rel, half = 0.5;
+    if (summary_quantiles(s, col, &half, 1, &v, &rel) != 0) return NAN;
+    return rel;
 }
 
 double summary_quantile_error_floor(void) { return buckets_relative_error(0); }

@@ -73,14 +73,25 @@ double summary_kurtosis(const summary *s, size_t col); /* g2 = n m4 / m2^2 - 3; 
 double summary_min(const summary *s, size_t col);      /* smallest number; NaN when none */
 double summary_max(const summary *s, size_t col);      /* largest number; NaN when none */
 
-/* The p-quantile (0 <= p <= 1) of the numbers from the bucket store,
- * clamped to [min, max] (the bucket point may lie past the extremes, and
- * clamping only brings it closer).  NaN when the store is empty or p is out
- * of range.  *rel_error (may be NULL) receives the bound of
- * summary_quantile_error. */
+/* The p-quantiles of the numbers (0 <= p[i] <= 1; NaN for another p, or
+ * when the column has no numbers), by linear interpolation between order
+ * statistics: numpy.quantile(method='linear'), its default, Hyndman & Fan
+ * (1996) definition 7.  Exact when the value table holds every number (it
+ * never overflowed and no label was cut: the numbers are read back from
+ * the labels, and the neighbours' difference is the exact decimal
+ * difference, so the result is the quantile to within rounding); then
+ * *rel_error = 0.  Otherwise estimated from the bucket store
+ * (buckets_quantile_linear), clamped to [min, max] (the bucket point may
+ * lie past the extremes, and clamping only brings it closer), with
+ * *rel_error the store's bound.  *rel_error may be NULL; NaN without
+ * numbers.  Returns 0, or -1 when out of memory (out all NaN). */
+int summary_quantiles(const summary *s, size_t col, const double *p, size_t k, double *out,
+                      double *rel_error);
+/* summary_quantiles of one p; NaN when out of memory. */
 double summary_quantile(const summary *s, size_t col, double p, double *rel_error);
-/* Relative-error bound of the column's quantiles (|estimate - q| <= bound
- * |q| above the store's normal floor); NaN when the store is empty. */
+/* Relative-error bound of the column's quantiles: 0 when they are exact,
+ * else the bucket store's (|estimate - q| <= bound |q| above the store's
+ * normal floor, see buckets_quantile_linear); NaN without numbers. */
 double summary_quantile_error(const summary *s, size_t col);
 /* The smallest bound any bucket store gives (level 0, no collapse). */
 double summary_quantile_error_floor(void);

@@ -237,7 +237,8 @@ static void keep_example(summary_column *c, const char *p, uint32_t len)
 /* The numbers of a lane's cells: parse (an expression of text, length and
  * &d giving a number_kind) for each cell, then a finite number becomes a
  * deviation from the column's reference decimal (number_deviation, on the
- * reference unpacked in the lane).  A macro, so that the SSSE3 variant below
+ * reference unpacked in the lane; the first number sets the reference,
+ * through number_frame).  A macro, so that the SSSE3 variant below
  * inlines its parser. */
 #define DECODE_NUMBERS(parse)                                                                  \
     do {                                                                                       \
@@ -247,7 +248,11 @@ static void keep_example(summary_column *c, const char *p, uint32_t len)
             switch (parse(l->text[i], l->len[i], &d)) {                                        \
             case NUMBER_FINITE: {                                                              \
                 if (!l->ref_set) {                                                             \
-                    if (!c->mom.has_ref) moments_set_ref(&c->mom, &d);                         \
+                    if (!c->mom.has_ref) {                                                     \
+                        number_decimal frame;                                                  \
+                        number_frame(&d, &frame);                                              \
+                        moments_set_ref(&c->mom, &frame);                                      \
+                    }                                                                          \
                     number_ref_set(&l->ref, &c->mom.ref);                                      \
                     l->ref_set = 1;                                                            \
                 }                                                                              \

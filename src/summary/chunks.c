@@ -283,8 +283,8 @@ static scan_status target_row(chunks *w, job *j, size_t r, const char *p, uint32
         *classes = -1; /* the next block drops them */
     }
     if (finite) {
-        if (!w->target_ref_set) {
-            w->target_ref = d;
+        if (!w->target_ref_set) { /* the target column's frame (block.c) */
+            number_frame(&d, &w->target_ref);
             w->target_ref_set = 1;
         }
         j->row_cell[r] = summary_target_cell(d.value);

@@ -73,6 +73,7 @@ static void put_decimal(wire_writer *w, const number_decimal *d)
 
 static void get_decimal(wire_reader *r, number_decimal *d)
 {
+    memset(d, 0, sizeof *d); /* no tail: the file keeps 19 digits */
     d->value = wire_get_f64(r);
     d->mantissa = wire_get_u64(r);
     int64_t e = wire_get_i64(r);

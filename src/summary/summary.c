@@ -98,8 +98,12 @@ int summary_append_class(summary *s, uint64_t h, const char *text, size_t len,
     s->class_label[c] = label;
     s->class_rows[c] = 0;
     s->class_numeric[c] = dec != NULL;
-    if (dec) s->class_dec[c] = *dec;
-    else memset(&s->class_dec[c], 0, sizeof s->class_dec[c]);
+    memset(&s->class_dec[c], 0, sizeof s->class_dec[c]);
+    if (dec) { /* as the file keeps it: 19 digits, no tail */
+        s->class_dec[c] = *dec;
+        s->class_dec[c].tail = 0;
+        s->class_dec[c].tail_digits = 0;
+    }
     return 0;
 }
 

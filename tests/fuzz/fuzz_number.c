@@ -25,7 +25,8 @@
  * equal number_difference to the bit, and when number_difference says it
  * took the exact integer path, its result must equal the correctly rounded
  * difference of the two decimals (strtod of the difference written out
- * exactly as a decimal, when both are exact at powers of ten within 40).
+ * exactly as a decimal, when both hold every digit, exact or with a tail
+ * of 20 to 38 digits, at powers of ten within 40).
  *
  * A disagreement prints both sides and aborts, so libFuzzer keeps the input.
  * Built with -DFUZZ_REPLAY_MAIN it is a plain program:
@@ -102,7 +103,8 @@ static number_kind check_cell(const uint8_t *cell, size_t len, number_decimal *o
             fault("\"%s\": number_parse %.17g, padded parser %.17g", text, d.value, p.value);
         if (k == NUMBER_FINITE &&
             (p.mantissa != d.mantissa || p.exp10 != d.exp10 || p.negative != d.negative ||
-             p.exact != d.exact))
+             p.exact != d.exact || p.tail_digits != d.tail_digits ||
+             (d.tail_digits && p.tail != d.tail)))
             fault("\"%s\": number_parse %llu e%d neg %d exact %d, padded %llu e%d neg %d exact %d",
                   text, (unsigned long long)d.mantissa, d.exp10, d.negative, d.exact,
                   (unsigned long long)p.mantissa, p.exp10, p.negative, p.exact);
@@ -140,29 +142,47 @@ static number_kind check_cell(const uint8_t *cell, size_t len, number_decimal *o
     return k;
 }
 
-/* The exact difference a - b of two exact decimals written as a decimal
- * string, when their powers of ten are within 40 of each other. */
+/* A decimal's whole significand as digits and its power of ten: the
+ * mantissa, then for a wide cell its tail padded to tail_digits digits.
+ * 0 when the decimal does not hold every digit. */
+static int whole_digits(const number_decimal *x, char *buf, size_t len, int64_t *e)
+{
+    if (x->exact) {
+        snprintf(buf, len, "%llu", (unsigned long long)x->mantissa);
+        *e = x->exp10;
+        return 1;
+    }
+    if (!x->tail_digits) return 0;
+    snprintf(buf, len, "%llu%0*llu", (unsigned long long)x->mantissa, (int)x->tail_digits,
+             (unsigned long long)x->tail);
+    *e = (int64_t)x->exp10 - x->tail_digits;
+    return 1;
+}
+
+/* The exact difference a - b of two decimals that hold every digit (exact,
+ * or wide with a tail) written as a decimal string, when their powers of
+ * ten are within 40 of each other. */
 static int exact_difference_text(const number_decimal *x, const number_decimal *y, char *buf,
                                  size_t len)
 {
-    if (!x->exact || !y->exact) return 0;
-    int32_t e = x->exp10 < y->exp10 ? x->exp10 : y->exp10;
-    if (x->exp10 - e > 40 || y->exp10 - e > 40) return 0;
-    /* Each mantissa times 10^(its power - e) as decimal digits (at most
-     * 20 + 40), then added or subtracted digit by digit. */
-    char xs[80], ys[80];
-    int nx = snprintf(xs, sizeof xs, "%llu%0*d", (unsigned long long)x->mantissa,
-                      (int)(x->exp10 - e), 0);
-    int ny = snprintf(ys, sizeof ys, "%llu%0*d", (unsigned long long)y->mantissa,
-                      (int)(y->exp10 - e), 0);
-    if (x->exp10 == e) nx = snprintf(xs, sizeof xs, "%llu", (unsigned long long)x->mantissa);
-    if (y->exp10 == e) ny = snprintf(ys, sizeof ys, "%llu", (unsigned long long)y->mantissa);
+    char wx[48], wy[48];
+    int64_t ex, ey;
+    if (!whole_digits(x, wx, sizeof wx, &ex) || !whole_digits(y, wy, sizeof wy, &ey)) return 0;
+    int64_t e = ex < ey ? ex : ey;
+    if (ex - e > 40 || ey - e > 40) return 0;
+    /* Each significand times 10^(its power - e) as decimal digits (at most
+     * 38 + 40), then added or subtracted digit by digit. */
+    char xs[96], ys[96];
+    int nx = snprintf(xs, sizeof xs, "%s%0*d", wx, (int)(ex - e), 0);
+    int ny = snprintf(ys, sizeof ys, "%s%0*d", wy, (int)(ey - e), 0);
+    if (ex == e) nx = snprintf(xs, sizeof xs, "%s", wx);
+    if (ey == e) ny = snprintf(ys, sizeof ys, "%s", wy);
     /* Signed values sx*X - sy*Y: add or subtract magnitudes. */
     int sx = x->negative ? -1 : 1, sy = y->negative ? 1 : -1; /* a + (-b) */
-    char r[96];
+    char r[112];
     int neg;
     int width = (nx > ny ? nx : ny) + 1;
-    int dx[96] = {0}, dy[96] = {0}, dr[96] = {0};
+    int dx[112] = {0}, dy[112] = {0}, dr[112] = {0};
     for (int i = 0; i < nx; i++) dx[width - nx + i] = xs[i] - '0';
     for (int i = 0; i < ny; i++) dy[width - ny + i] = ys[i] - '0';
     if (sx == sy) {
@@ -189,7 +209,7 @@ static int exact_difference_text(const number_decimal *x, const number_decimal *
     r[n++] = neg ? '-' : '+';
     for (int i = 0; i < width; i++) r[n++] = (char)('0' + dr[i]);
     r[n] = '\0';
-    snprintf(buf, len, "%se%d", r, e);
+    snprintf(buf, len, "%se%lld", r, (long long)e);
     return 1;
 }
 
@@ -214,7 +234,7 @@ int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
     if (bits_of(general) != bits_of(inline_d) && !(isnan(general) && isnan(inline_d)))
         fault("%.17g - %.17g: number_difference %.17g, number_deviation %.17g", x.value, y.value,
               general, inline_d);
-    char text[160];
+    char text[200];
     if (took_exact && exact_difference_text(&x, &y, text, sizeof text)) {
         double want = strtod(text, NULL);
         /* Zero's sign: the integer path gives +0 for equal decimals. */

@@ -342,13 +342,19 @@ def test_quantiles_no_collapse():
           "merged %r (error %r), whole %r (error %r)" % (
               ca["quantiles"], ca["quantile_relative_error"], cb["quantiles"],
               cb["quantile_relative_error"]))
-    # numpy.quantile(method='inverted_cdf') (Debian) within the stated bound
+    # numpy.quantile(method='linear') (Debian) within the stated bound of
+    # the two order statistics it interpolates between (4000 distinct
+    # values: past the value table, so these are bucket estimates)
     x = np.array([float(v) for v in vals])
+    xs = np.sort(x)
     rel = ca["quantile_relative_error"]
     bad = []
     for key, got in ca["quantiles"].items():
-        q = float(np.quantile(x, float(key), method="inverted_cdf"))
-        if got is None or abs(got - q) > rel * abs(q) * (1 + 1e-12):
+        q = float(np.quantile(x, float(key), method="linear"))
+        h = (len(xs) - 1) * float(key)
+        j = int(math.floor(h))
+        a, b, g = xs[j], xs[min(j + 1, len(xs) - 1)], h - j
+        if got is None or abs(got - q) > rel * ((1 - g) * abs(a) + g * abs(b)) * (1 + 1e-12):
             bad.append("%s: %r vs numpy %r" % (key, got, q))
     check("quantiles_no_collapse.within_bound_vs_numpy", rel and not bad, "; ".join(bad[:3]))
 
