@@ -26,6 +26,7 @@
  * 7.9.2), 60 terms evaluated backwards, for z >= 12.
  */
 #include "stats/logp.h"
+#include "stats/stat.h"
 
 #include <gsl/gsl_sf_gamma.h>
 #include <math.h>
@@ -222,38 +223,23 @@ double logp_chi2_upper(double x, double df)
 
 /* ---- multiple testing ------------------------------------------------------- */
 
-typedef struct {
-    double lp;  /* log10 p */
-    size_t i;   /* position in the input */
-} ranked_log;
-
-static int ranked_log_cmp(const void *a, const void *b)
-{
-    const ranked_log *x = a, *y = b;
-    if (x->lp != y->lp) return (x->lp > y->lp) - (x->lp < y->lp);
-    return (x->i > y->i) - (x->i < y->i);
-}
-
 int logp_benjamini_hochberg(const double *log10_p, size_t n, double *log10_q)
 {
-    ranked_log *r = malloc((n ? n : 1) * sizeof *r);
-    if (!r) {
+    size_t m;
+    size_t *order = stat_order_finite(log10_p, n, &m);
+    if (!order) {
         for (size_t i = 0; i < n; i++) log10_q[i] = NAN;
         return -1;
     }
-    size_t m = 0;
-    for (size_t i = 0; i < n; i++)
-        if (!isnan(log10_p[i])) r[m++] = (ranked_log){log10_p[i], i};
-    for (size_t i = 0; i < n; i++)
-        if (isnan(log10_p[i])) log10_q[i] = NAN;
-    qsort(r, m, sizeof *r, ranked_log_cmp);
     double running = 0, log_m = log10((double)m);
     for (size_t k = m; k-- > 0;) {
-        double v = r[k].lp + (log_m - log10((double)(k + 1)));
+        double v = log10_p[order[k]] + (log_m - log10((double)(k + 1)));
         if (v < running) running = v;
-        log10_q[r[k].i] = running;
+        log10_q[order[k]] = running; /* after reading log10_p[order[k]]: they may alias */
     }
-    free(r);
+    for (size_t i = 0; i < n; i++)
+        if (isnan(log10_p[i])) log10_q[i] = NAN;
+    free(order);
     return 0;
 }
 

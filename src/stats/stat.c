@@ -359,37 +359,53 @@ int stat_mutual_information(const double *table, size_t rows, size_t cols, stat_
 /* ---- multiple testing ------------------------------------------------------ */
 
 typedef struct {
-    double p;  /* p-value */
+    double x;  /* the value */
     size_t i;  /* its position in the input */
 } ranked;
 
 static int ranked_cmp(const void *a, const void *b)
 {
     const ranked *x = a, *y = b;
-    if (x->p != y->p) return (x->p > y->p) - (x->p < y->p);
+    if (x->x != y->x) return (x->x > y->x) - (x->x < y->x);
     return (x->i > y->i) - (x->i < y->i);
+}
+
+size_t *stat_order_finite(const double *x, size_t n, size_t *m_out)
+{
+    ranked *r = malloc((n ? n : 1) * sizeof *r);
+    size_t *order = malloc((n ? n : 1) * sizeof *order);
+    if (!r || !order) {
+        free(r);
+        free(order);
+        return NULL;
+    }
+    size_t m = 0;
+    for (size_t i = 0; i < n; i++)
+        if (!isnan(x[i])) r[m++] = (ranked){x[i], i};
+    qsort(r, m, sizeof *r, ranked_cmp);
+    for (size_t k = 0; k < m; k++) order[k] = r[k].i;
+    free(r);
+    *m_out = m;
+    return order;
 }
 
 void stat_benjamini_hochberg(const double *p, size_t n, double *q)
 {
-    ranked *r = malloc((n ? n : 1) * sizeof *r);
-    if (!r) {
+    size_t m;
+    size_t *order = stat_order_finite(p, n, &m);
+    if (!order) {
         for (size_t i = 0; i < n; i++) q[i] = NAN;
         return;
     }
-    size_t m = 0;
-    for (size_t i = 0; i < n; i++)
-        if (!isnan(p[i])) r[m++] = (ranked){p[i], i};
-    for (size_t i = 0; i < n; i++)
-        if (isnan(p[i])) q[i] = NAN;
-    qsort(r, m, sizeof *r, ranked_cmp);
     double running = 1;
     for (size_t k = m; k-- > 0;) {
-        double v = r[k].p * (double)m / (double)(k + 1);
+        double v = p[order[k]] * (double)m / (double)(k + 1);
         if (v < running) running = v;
-        q[r[k].i] = running;
+        q[order[k]] = running; /* after reading p[order[k]]: q may alias p */
     }
-    free(r);
+    for (size_t i = 0; i < n; i++)
+        if (isnan(p[i])) q[i] = NAN;
+    free(order);
 }
 
 /* ---- coarsening ------------------------------------------------------------ */

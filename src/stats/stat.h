@@ -144,6 +144,10 @@ int stat_mutual_information(const double *table, size_t rows, size_t cols, stat_
  * (not counted in m) and give NaN.  q may alias p.  When memory runs out
  * every q is NaN. */
 void stat_benjamini_hochberg(const double *p, size_t n, double *q);
+/* The positions of x's non-NaN values in ascending order (ties by
+ * position), *m of them, in an array the caller frees; NULL on OOM.  The
+ * ranking behind both Benjamini-Hochberg steps (here and logp.h). */
+size_t *stat_order_finite(const double *x, size_t n, size_t *m);
 
 /* A GSL error handler (gsl_error_handler_t) for the host to install with
  * gsl_set_error_handler: it records a GSL failure in a thread-local flag,
