@@ -194,6 +194,14 @@ static double log_gamma_upper_series(double a, double x)
     return log1p(-exp(log_gamma_prefix(a, x, (x - a) / a) + log(sum)));
 }
 
+void logp_temme_coefficients(double eta, double mu, double *c0, double *c1)
+{
+    if (fabs(eta) < 1e-3) *c0 = -1.0 / 3 + eta / 12 - 2 * eta * eta / 135;
+    else *c0 = 1 / mu - 1 / eta;
+    if (fabs(eta) < 0.03) *c1 = -1.0 / 540 - eta / 288 + eta * eta / 378;
+    else *c1 = 1 / (eta * eta * eta) - 1 / (mu * mu * mu) - 1 / (mu * mu) - 1 / (12 * mu);
+}
+
 /* log Q(a, x) by Temme's expansion, a large. */
 static double log_gamma_upper_temme(double a, double x)
 {
@@ -202,10 +210,7 @@ static double log_gamma_upper_temme(double a, double x)
     double eta = sqrt(2 * half_eta2);
     if (mu < 0) eta = -eta;
     double c0, c1;
-    if (fabs(eta) < 1e-3) c0 = -1.0 / 3 + eta / 12 - 2 * eta * eta / 135;
-    else c0 = 1 / mu - 1 / eta;
-    if (fabs(eta) < 0.03) c1 = -1.0 / 540 - eta / 288 + eta * eta / 378;
-    else c1 = 1 / (eta * eta * eta) - 1 / (mu * mu * mu) - 1 / (mu * mu) - 1 / (12 * mu);
+    logp_temme_coefficients(eta, mu, &c0, &c1);
     double series = (c0 + c1 / a) / sqrt(2 * M_PI * a);
     if (eta <= 0) /* Q >= 1/2: no underflow to guard against */
         return log(0.5 * erfc(eta * sqrt(a / 2)) + exp(-a * half_eta2) * series);

@@ -69,4 +69,10 @@ int logp_benjamini_hochberg(const double *log10_p, size_t n, double *log10_q);
  * length snprintf would have written. */
 int logp_format(char *buf, size_t len, double log10_value, int digits);
 
+/* The first two coefficients c0, c1 of Temme's expansion of Q(a, x) (DLMF
+ * 8.12.8), at mu = x/a - 1 and eta = sign(mu) sqrt(2 (mu - log(1 + mu))),
+ * by their Taylor series near eta = 0, where the closed forms cancel.
+ * Shared by the log-space tail and the plain one of stat.c. */
+void logp_temme_coefficients(double eta, double mu, double *c0, double *c1);
+
 #endif

@@ -103,10 +103,7 @@ static double gamma_upper_temme(double a, double x)
     double eta = sqrt(2 * half_eta2);
     if (mu < 0) eta = -eta;
     double c0, c1;
-    if (fabs(eta) < 1e-3) c0 = -1.0 / 3 + eta / 12 - 2 * eta * eta / 135;
-    else c0 = 1 / mu - 1 / eta;
-    if (fabs(eta) < 0.03) c1 = -1.0 / 540 - eta / 288 + eta * eta / 378;
-    else c1 = 1 / (eta * eta * eta) - 1 / (mu * mu * mu) - 1 / (mu * mu) - 1 / (12 * mu);
+    logp_temme_coefficients(eta, mu, &c0, &c1);
     return 0.5 * erfc(eta * sqrt(a / 2)) +
            exp(-a * half_eta2) / sqrt(2 * M_PI * a) * (c0 + c1 / a);
 }

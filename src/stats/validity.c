@@ -65,6 +65,32 @@ static double cell_steps(long double a, long double b, long double N)
     return (double)(steps < hi - lo + 1 ? steps : hi - lo + 1);
 }
 
+/* ---- margins of a table ---------------------------------------------------- */
+
+/* The row sums, then the column sums, of a rows x cols table in one block the
+ * caller frees; *total the grand total. NULL when out of memory. */
+static long double *table_margins(const double *table, size_t rows, size_t cols, long double *total)
+{
+    long double *rs = calloc(rows + cols + 1, sizeof *rs);
+    if (!rs) return NULL;
+    long double *cs = rs + rows, N = 0;
+    for (size_t i = 0; i < rows; i++)
+        for (size_t j = 0; j < cols; j++) {
+            rs[i] += table[i * cols + j];
+            cs[j] += table[i * cols + j];
+            N += table[i * cols + j];
+        }
+    *total = N;
+    return rs;
+}
+
+static size_t nonzero(const long double *margin, size_t n)
+{
+    size_t k = 0;
+    for (size_t i = 0; i < n; i++) k += margin[i] > 0;
+    return k;
+}
+
 /* A cell's walk length and its position in the table's order of cells. */
 typedef struct {
     double steps;
@@ -84,19 +110,11 @@ int validity_expected_mi(const double *table, size_t rows, size_t cols, validity
 {
     out->nats = NAN;
     out->approximated_cells = out->cells = 0;
-    long double *rs = calloc(rows + cols + 1, sizeof *rs);
+    long double N, *rs = table_margins(table, rows, cols, &N);
     if (!rs) return -2;
-    long double *cs = rs + rows, N = 0;
-    for (size_t i = 0; i < rows; i++)
-        for (size_t j = 0; j < cols; j++) {
-            rs[i] += table[i * cols + j];
-            cs[j] += table[i * cols + j];
-            N += table[i * cols + j];
-        }
+    long double *cs = rs + rows;
     if (!(N > 0)) { free(rs); return -1; }
-    size_t rn = 0, cn = 0;
-    for (size_t i = 0; i < rows; i++) rn += rs[i] > 0;
-    for (size_t j = 0; j < cols; j++) cn += cs[j] > 0;
+    size_t rn = nonzero(rs, rows), cn = nonzero(cs, cols);
     size_t cells = rn * cn;
     cell_cost *cost = malloc((cells ? cells : 1) * sizeof *cost);
     unsigned char *approximate = calloc(cells ? cells : 1, 1);
@@ -153,18 +171,10 @@ int validity_cochran(const double *table, size_t rows, size_t cols, validity_che
 {
     memset(out, 0, sizeof *out);
     out->smallest = NAN;
-    long double *rs = calloc(rows + cols + 1, sizeof *rs);
+    long double N, *rs = table_margins(table, rows, cols, &N);
     if (!rs) return -2;
-    long double *cs = rs + rows, N = 0;
-    for (size_t i = 0; i < rows; i++)
-        for (size_t j = 0; j < cols; j++) {
-            rs[i] += table[i * cols + j];
-            cs[j] += table[i * cols + j];
-            N += table[i * cols + j];
-        }
-    size_t rn = 0, cn = 0;
-    for (size_t i = 0; i < rows; i++) rn += rs[i] > 0;
-    for (size_t j = 0; j < cols; j++) cn += cs[j] > 0;
+    long double *cs = rs + rows;
+    size_t rn = nonzero(rs, rows), cn = nonzero(cs, cols);
     if (rn >= 2 && cn >= 2) {
         out->rule = VALIDITY_COCHRAN;
         double smallest = INFINITY;
