@@ -53,20 +53,16 @@ int column_drop_classes(summary_column *c, const uint32_t *map, const double *y,
 
 int column_remap_target_cells(summary_column *c, const uint32_t *map, uint32_t len)
 {
-    buckets *nb = buckets_create(buckets_budget(c->bins));
-    if (!nb || buckets_merge(nb, c->bins, map, len) != 0) { buckets_free(nb); return -1; }
     crosstab *nx = NULL;
-    if (c->cross) {
+    if (c->cross && crosstab_entries(c->cross)) {
         nx = crosstab_create(crosstab_max_keys(c->cross));
         if (!nx || crosstab_merge(nx, c->cross, map, len, 0.0) != 0) {
             crosstab_free(nx);
-            buckets_free(nb);
             return -1;
         }
     }
-    buckets_free(c->bins);
-    c->bins = nb;
-    if (c->cross) {
+    if (buckets_map_cells(c->bins, map, len) != 0) { crosstab_free(nx); return -1; }
+    if (nx) {
         crosstab_free(c->cross);
         c->cross = nx;
     }
