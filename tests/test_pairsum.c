@@ -27,8 +27,9 @@ static cell cell_of(const char *s)
 {
     number_decimal d;
     cr_assert_eq(number_parse(s, strlen(s), &d), NUMBER_FINITE, "%s", s);
-    int64_t m = (int64_t)d.mantissa;
-    return (cell){d.negative ? -m : m, d.exact && m >= 0 ? d.exp10 : PAIRSUM_INEXACT};
+    int whole = d.exact && (d.mantissa >> 63) == 0;
+    int64_t m = whole ? (int64_t)d.mantissa : 0;
+    return (cell){d.negative ? -m : m, whole ? d.exp10 : PAIRSUM_INEXACT};
 }
 
 /* Adds pairs (x[i], y[i]) in blocks of `block` (rows = indices). */

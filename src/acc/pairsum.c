@@ -243,13 +243,13 @@ void pairsum_add_many(pairsum *p, const int64_t *mx, const int32_t *ex, const in
          * the range test): 256 of them sum in 64 bits, their products in
          * 128.  Cells at the scales come first (the common case). */
         const uint64_t two55 = (uint64_t)LIMIT55[0];
-        int fits = ex[i] == sx && eyr == sy && (uint64_t)(x + (int64_t)two55) < 2 * two55 &&
-                   (uint64_t)(y + (int64_t)two55) < 2 * two55;
+        int fits = ex[i] == sx && eyr == sy && (uint64_t)x + two55 < 2 * two55 &&
+                   (uint64_t)y + two55 < 2 * two55;
         if (!fits) {
             uint32_t kx = (uint32_t)((int64_t)ex[i] - sx), ky = (uint32_t)((int64_t)eyr - sy);
             fits = kx <= 16 && ky <= 16 &&
-                   (uint64_t)(x + LIMIT55[kx]) < 2 * (uint64_t)LIMIT55[kx] &&
-                   (uint64_t)(y + LIMIT55[ky]) < 2 * (uint64_t)LIMIT55[ky];
+                   (uint64_t)x + (uint64_t)LIMIT55[kx] < 2 * (uint64_t)LIMIT55[kx] &&
+                   (uint64_t)y + (uint64_t)LIMIT55[ky] < 2 * (uint64_t)LIMIT55[ky];
             if (fits) {
                 x *= (int64_t)POW10[kx];
                 y *= (int64_t)POW10[ky];

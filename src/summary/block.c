@@ -346,9 +346,10 @@ static void keep_example(summary_column *c, const char *p, uint32_t len)
                 l->dev[nnum] = number_deviation(&d, &l->ref);                                  \
                 l->val[nnum] = d.value;                                                        \
                 if (decimals) { /* an int64 mantissa, or inexact for the pair sums */      \
-                    int64_t m = (int64_t)d.mantissa;                                           \
+                    int whole = d.exact && (d.mantissa >> 63) == 0;                            \
+                    int64_t m = whole ? (int64_t)d.mantissa : 0;                               \
                     l->num_mant[nnum] = d.negative ? -m : m;                                   \
-                    l->num_exp[nnum] = d.exact && m >= 0 ? d.exp10 : BLOCK_INEXACT;            \
+                    l->num_exp[nnum] = whole ? d.exp10 : BLOCK_INEXACT;                        \
                 }                                                                              \
                 l->num_row[nnum] = l->cell_row[i];                                             \
                 nnum++;                                                                        \

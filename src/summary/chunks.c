@@ -266,9 +266,10 @@ static scan_status target_row(chunks *w, job *j, size_t r, const char *p, uint32
     int finite = tc->mode != COLUMN_CATEGORICAL && number_parse(p, len, &d) == NUMBER_FINITE;
     if (!finite) s->target_text++;
     if (finite) { /* for the pair sums, whatever the task */
-        int64_t m = (int64_t)d.mantissa;
+        int whole = d.exact && (d.mantissa >> 63) == 0;
+        int64_t m = whole ? (int64_t)d.mantissa : 0;
         j->row_ym[r] = d.negative ? -m : m;
-        j->row_ye[r] = d.exact && (d.mantissa >> 63) == 0 ? d.exp10 : BLOCK_INEXACT;
+        j->row_ye[r] = whole ? d.exp10 : BLOCK_INEXACT;
         j->any_y = 1;
     }
     if (s->has_classes) {
