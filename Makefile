@@ -12,7 +12,7 @@ LDLIBS  := -lgsl $(shell pkg-config --libs $(PKGS) 2>/dev/null || echo -lisal -l
 # Debian packages sheaf needs to build, test, bench and demo.
 DEB_PKGS := build-essential pkg-config libisal-dev isal zlib1g-dev libzstd-dev zstd \
             libxxhash-dev libcriterion-dev libgsl-dev libopenblas-dev liblapacke-dev \
-            python3-numpy python3-scipy python3-pandas python3-statsmodels parallel \
+            python3-numpy python3-scipy python3-pandas python3-statsmodels python3-sklearn python3-mpmath parallel \
             hyperfine time bc clang
 
 NPROC   := $(shell nproc 2>/dev/null || echo 1)
@@ -190,4 +190,4 @@ clean:
 	rm -rf build sheaf libsheaf.a
 
 -include $(LIB_OBJ:.o=.d) $(CLI_OBJ:.o=.d) $(FUZZ_OBJ:.o=.d) $(ASAN_LIB_OBJ:.o=.d) \
-         $(ASAN_CLI_OBJ:.o=.d) $(wildcard build/fuzz/*.d $(ASAN_DIR)/tests/*.d)
+         $(ASAN_CLI_OBJ:.o=.d) $(wildcard build/tests/*.d build/fuzz/*.d $(ASAN_DIR)/tests/*.d)

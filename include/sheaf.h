@@ -44,6 +44,7 @@
 #include "summary/access.h"
 #include "stats/corr.h"
 #include "stats/describe.h"
+#include "stats/logp.h"
 #include "stats/screen.h"
 #include "stats/pca.h"
 #include "pass/trim.h"

@@ -221,7 +221,9 @@ Test(screen_flags, a_text_column_past_the_value_table_is_high_cardinality, .init
 
 /* Two classes of 5 rows.  Per feature, class a then class b, by hand
  * (SSB = sum n_g (mean_g - mean)^2, SSW = sum of squares within, df 1 and 8):
- *   f25  a 1..5,  b 6..10   means 3, 8   SSB 62.5  SSW 20   F = 62.5 / 2.5 = 25
+ *   f25  a 2..10, b 12..20  means 6, 16  SSB 250   SSW 80   F = 250 / 10   = 25
+ *        (even numbers: 1..10 would be a run of consecutive integers, one per
+ *        row, which the ID-like rule of stats/validity.h flags names_rows)
  *   f4   a 1..5,  b 3..7    means 3, 5   SSB 10    SSW 20   F = 10 / 2.5   = 4
  *   f1   a 1..5,  b 2..6    means 3, 4   SSB 2.5   SSW 20   F = 2.5 / 2.5  = 1
  *   f0   a 1..5,  b 5..1    means 3, 3   SSB 0     SSW 20   F = 0
@@ -234,8 +236,8 @@ static const double P25 = 0.0010528257933665396, P4 = 0.08051623795726266,
 
 static const char ANOVA_TABLE[] =
     "f4,flat,f1,f25,f0,label\n"
-    "1,9,1,1,1,a\n2,9,2,2,2,a\n3,9,3,3,3,a\n4,9,4,4,4,a\n5,9,5,5,5,a\n"
-    "3,9,2,6,5,b\n4,9,3,7,4,b\n5,9,4,8,3,b\n6,9,5,9,2,b\n7,9,6,10,1,b\n";
+    "1,9,1,2,1,a\n2,9,2,4,2,a\n3,9,3,6,3,a\n4,9,4,8,4,a\n5,9,5,10,5,a\n"
+    "3,9,2,12,5,b\n4,9,3,14,4,b\n5,9,4,16,3,b\n6,9,5,18,2,b\n7,9,6,20,1,b\n";
 
 Test(screen_tests, anova_f_and_p_of_a_numeric_feature_match_hand_and_scipy, .init = make_dir,
      .fini = remove_dir)
@@ -323,12 +325,14 @@ Test(screen_tests, chi_squared_of_a_categorical_feature_matches_hand_and_scipy,
 Test(screen_tests, correlation_f_of_a_regression_feature_matches_scipy, .init = make_dir,
      .fini = remove_dir)
 {
-    /* x = 1..10, y = 2,1,4,3,6,5,8,7,10,9 (declared a regression target).
+    /* x = 2, 4 .. 20 (even: 1..10 would be ID-like, a run of consecutive
+     * integers), y = 2,1,4,3,6,5,8,7,10,9 (declared a regression target).
      * /usr/bin/python3 -c 'import scipy.stats as s;
      *   print(s.pearsonr(range(1,11), [2,1,4,3,6,5,8,7,10,9]))'
      * gives r = 0.9393939393939393 (= 31/33 by hand: Sxy = 82.5 - 5, Sxx = Syy =
-     * 82.5), p = 5.484052998513635e-05; F = r^2 (n - 2) / (1 - r^2) = 60.0625. */
-    summary *s = scan_table("x,y\n1,2\n2,1\n3,4\n4,3\n5,6\n6,5\n7,8\n8,7\n9,10\n10,9\n",
+     * 82.5; r does not change when x is doubled), p = 5.484052998513635e-05;
+     * F = r^2 (n - 2) / (1 - r^2) = 60.0625. */
+    summary *s = scan_table("x,y\n2,2\n4,1\n6,4\n8,3\n10,6\n12,5\n14,8\n16,7\n18,10\n20,9\n",
                             (scan_setup){.target = "y", .task = TASK_REGRESS});
     screen_result *r = screen(s, NULL);
     cr_assert_eq(r->task, TASK_REGRESS);
@@ -345,7 +349,8 @@ Test(screen_tests, correlation_f_of_a_regression_feature_matches_scipy, .init = 
 
 /* 300 rows, continuous target y ~ U(0, 10) (regression: not integers).  In
  * file order: noise ~ U(0, 10) independent of y; weak = y + U(-20, 20);
- * strong = 2 y + U(-1, 1); code = one of four letters, independent of y. */
+ * strong = 2 y + U(-4, 4) (r about 0.96: below the 0.99 at which a column
+ * mirrors the target); code = one of four letters, independent of y. */
 static char *planted_table(void)
 {
     buffer b = {0};
@@ -355,7 +360,7 @@ static char *planted_table(void)
         double y = 10 * uniform(&seed);
         double noise = 10 * uniform(&seed);
         double weak = y + 40 * (uniform(&seed) - 0.5);
-        double strong = 2 * y + 2 * (uniform(&seed) - 0.5);
+        double strong = 2 * y + 8 * (uniform(&seed) - 0.5);
         char code = "ABCD"[(int)(4 * uniform(&seed))];
         put(&b, "%.4f,%.4f,%c,%.4f,%.4f\n", noise, weak, code, strong, y);
     }
@@ -372,7 +377,7 @@ Test(screen_ranking, a_planted_strong_column_is_kept_and_ranked_first, .init = m
     const screen_feature *strong = feature(s, r, "strong");
     cr_expect_eq(strong->keep, 1, "%s", strong->reasons);
     cr_expect_eq(strong->rank, 1);
-    cr_expect_gt(strong->corr_f.extra, 0.99); /* r of 2y + U(-1,1) with y: about 0.995 */
+    cr_expect_gt(strong->corr_f.extra, 0.9); /* r of 2y + U(-4,4) with y: about 0.96 */
     for (size_t i = 0; i < r->nfeatures; i++)
         if (&r->features[i] != strong)
             cr_expect(r->features[i].q > strong->q, "%s: q %g not above strong's %g",
@@ -424,9 +429,10 @@ Test(screen_ranking, top_keeps_only_the_k_most_relevant, .init = make_dir, .fini
     free(text);
 }
 
-/* 200 rows, target y = 1.5 i + 0.25.  close = y + U(-10, 10) (r with y about
- * 0.98); blurred = close + U(-5, 5), listed first in the file: r(close,
- * blurred) about 0.99 >= 0.95, and blurred is the less relevant of the two. */
+/* 200 rows, target y = 1.5 i + 0.25.  close = y + U(-30, 30) (r with y about
+ * 0.98, below the 0.99 at which a column mirrors the target); blurred =
+ * close + U(-15, 15), listed first in the file: r(close, blurred) about 0.995
+ * >= 0.95, and blurred is the less relevant of the two. */
 static char *redundant_table(void)
 {
     buffer b = {0};
@@ -434,8 +440,8 @@ static char *redundant_table(void)
     put(&b, "blurred,close,other,y\n");
     for (int i = 0; i < 200; i++) {
         double y = 1.5 * i + 0.25;
-        double close = y + 20 * (uniform(&seed) - 0.5);
-        double blurred = close + 10 * (uniform(&seed) - 0.5);
+        double close = y + 60 * (uniform(&seed) - 0.5);
+        double blurred = close + 30 * (uniform(&seed) - 0.5);
         double other = (i % 7) * 3.5 + 0.5 * (i % 2) + 40 * uniform(&seed);
         put(&b, "%.4f,%.4f,%.4f,%.2f\n", blurred, close, other, y);
     }
@@ -490,4 +496,190 @@ Test(screen_ranking, without_a_target_nothing_is_tested_and_unflagged_columns_ar
     cr_expect_eq(r->kept, 2); /* reading, shade */
     screen_free(r);
     summary_free(s);
+}
+
+/* ---- validity: unreliable tests, columns that mirror the target -------------------------- */
+
+/* 60 rows, class target "yes"/"no" in turn.  shop: 30 levels of 2 rows, each
+ * level holding one class only (chi-squared 60 on 29 df, p about 6e-4, but
+ * every expected count is 1: Cochran's rule fails); tier: 3 levels of 20
+ * rows against the class (expected counts 10, rule holds); gauge: numeric,
+ * the "yes" rows in [10, 10.29], the "no" rows in [20, 20.29] (every class
+ * apart: mirrors the target); hum: numeric noise. */
+static char *validity_table(void)
+{
+    buffer b = {0};
+    uint64_t seed = 4242;
+    put(&b, "shop,tier,gauge,hum,label\n");
+    for (int i = 0; i < 60; i++) {
+        int yes = i % 2 == 0;
+        put(&b, "s%02d,%c,%.2f,%.4f,%s\n", (i / 4) * 2 + yes, "ABC"[(i / 2) % 3],
+            (yes ? 10 : 20) + 0.01 * (i / 2), uniform(&seed), yes ? "yes" : "no");
+    }
+    return b.text;
+}
+
+Test(screen_validity, a_chi_squared_failing_cochrans_rule_has_no_q_and_keeps_nothing,
+     .init = make_dir, .fini = remove_dir)
+{
+    char *text = validity_table();
+    summary *s = scan_table(text, (scan_setup){.target = "label"});
+    screen_result *r = screen(s, NULL);
+    const screen_feature *shop = feature(s, r, "shop"), *tier = feature(s, r, "tier");
+    cr_assert(shop->chi2.present);
+    /* 30 levels x 2 classes, every expected count 2 x 30 / 60 = 1 (by hand). */
+    cr_expect_eq(shop->chi2_check.rule, VALIDITY_COCHRAN);
+    cr_expect_eq(shop->chi2_check.units, 60);
+    cr_expect_eq(shop->chi2_check.small, 60);
+    cr_expect_not(shop->chi2_check.holds);
+    cr_expect(shop->chi2.p < 0.05, "p %g: the test alone would keep shop", shop->chi2.p);
+    cr_expect(shop->unreliable);
+    cr_expect(isnan(shop->q));
+    cr_expect_eq(shop->keep, 0);
+    cr_expect(strstr(shop->reasons, "Cochran") != NULL, "%s", shop->reasons);
+    /* tier: expected counts 20 x 30 / 60 = 10: the rule holds. */
+    cr_expect(tier->chi2_check.holds);
+    cr_expect_not(tier->unreliable);
+    cr_expect_not(isnan(tier->q));
+    screen_free(r);
+    summary_free(s);
+    free(text);
+}
+
+Test(screen_validity, a_column_whose_classes_lie_apart_mirrors_the_target, .init = make_dir,
+     .fini = remove_dir)
+{
+    char *text = validity_table();
+    summary *s = scan_table(text, (scan_setup){.target = "label"});
+    screen_result *r = screen(s, NULL);
+    const screen_feature *gauge = feature(s, r, "gauge");
+    cr_expect_eq(gauge->flags, SCREEN_MIRRORS_TARGET, "flags %#x (%s)", gauge->flags, gauge->reasons);
+    cr_expect(gauge->anova_f.present, "tested before it was flagged");
+    cr_expect_eq(gauge->keep, 0);
+    cr_expect(strstr(gauge->reasons, "mirrors_target") != NULL, "%s", gauge->reasons);
+    cr_expect_eq(feature(s, r, "hum")->flags, 0);
+    screen_free(r);
+    /* --keep-mirrors keeps it (relevant), still flagged. */
+    screen_options o;
+    screen_options_defaults(&o);
+    o.keep_mirrors = 1;
+    r = screen(s, &o);
+    gauge = feature(s, r, "gauge");
+    cr_expect_eq(gauge->keep, 1, "%s", gauge->reasons);
+    cr_expect_eq(gauge->rank, 1);
+    cr_expect(gauge->flags & SCREEN_MIRRORS_TARGET);
+    screen_free(r);
+    summary_free(s);
+    free(text);
+}
+
+Test(screen_validity, a_near_copy_of_a_numeric_target_mirrors_it, .init = make_dir,
+     .fini = remove_dir)
+{
+    /* 200 rows, y ~ U(0, 10); copy = 100 y + U(-1, 1) (r about 0.99998);
+     * weak = y + U(-20, 20). */
+    buffer b = {0};
+    uint64_t seed = 99;
+    put(&b, "copy,weak,y\n");
+    for (int i = 0; i < 200; i++) {
+        double y = 10 * uniform(&seed);
+        put(&b, "%.4f,%.4f,%.4f\n", 100 * y + 2 * (uniform(&seed) - 0.5),
+            y + 40 * (uniform(&seed) - 0.5), y);
+    }
+    summary *s = scan_table(b.text, (scan_setup){.target = "y"});
+    screen_result *r = screen(s, NULL);
+    cr_assert_eq(r->task, TASK_REGRESS);
+    const screen_feature *copy = feature(s, r, "copy");
+    cr_expect_gt(copy->corr_f.extra, 0.99);
+    cr_expect_eq(copy->flags, SCREEN_MIRRORS_TARGET, "%s", copy->reasons);
+    cr_expect_eq(copy->keep, 0);
+    cr_expect(strstr(copy->reasons, "|r| = ") != NULL, "%s", copy->reasons);
+    cr_expect_eq(feature(s, r, "weak")->flags, 0);
+    screen_free(r);
+    summary_free(s);
+    free(b.text);
+}
+
+Test(screen_validity, an_anova_across_levels_of_mostly_one_row_has_no_q, .init = make_dir,
+     .fini = remove_dir)
+{
+    /* 60 rows, y = 1.5 i + noise (regression): model = 50 levels, 10 of 2
+     * rows and 40 of one row (all 60 rows in levels below 5 rows: the
+     * level-size rule fails); half = 2 levels of 30 rows (holds). */
+    buffer b = {0};
+    uint64_t seed = 5;
+    put(&b, "model,half,y\n");
+    for (int i = 0; i < 60; i++)
+        put(&b, "m%02d,%s,%.3f\n", i < 20 ? i / 2 : i - 10, i < 30 ? "lo" : "hi",
+            1.5 * i + uniform(&seed));
+    summary *s = scan_table(b.text, (scan_setup){.target = "y"});
+    screen_result *r = screen(s, NULL);
+    cr_assert_eq(r->task, TASK_REGRESS);
+    const screen_feature *model = feature(s, r, "model"), *half = feature(s, r, "half");
+    cr_assert(model->anova_f.present);
+    cr_expect_eq(model->anova_check.rule, VALIDITY_LEVEL_SIZES);
+    cr_expect_eq(model->anova_check.units, 50);
+    cr_expect_eq(model->anova_check.small, 50);
+    expect_rel(model->anova_check.small_share, 1.0, 0, "rows in thin levels");
+    cr_expect(model->unreliable);
+    cr_expect(isnan(model->q));
+    cr_expect_eq(model->keep, 0);
+    cr_expect(half->anova_check.holds);
+    cr_expect_eq(half->keep, 1, "%s", half->reasons);
+    screen_free(r);
+    summary_free(s);
+    free(b.text);
+}
+
+/* 3,000 rows, two classes a and b in turn.  sharp ~ N(0, 1) in a and N(6, 1)
+ * in b (Box-Muller from the generator); boxed ~ U(0, 1) in a and U(1, 2) in
+ * b: perfectly separated, so its normalized MI is 1, above sharp's, while its
+ * F is about a third of sharp's.  Both p-values are far below 1e-308. */
+static char *separated_table(void)
+{
+    buffer b = {0};
+    uint64_t seed = 20241203;
+    put(&b, "sharp,boxed,class\n");
+    for (int i = 0; i < 3000; i++) {
+        int g = i % 2;
+        double u1 = uniform(&seed), u2 = uniform(&seed);
+        double z = sqrt(-2 * log(1 - u1)) * cos(2 * M_PI * u2);
+        put(&b, "%.5f,%.5f,%c\n", 6 * g + z, g + uniform(&seed), "ab"[g]);
+    }
+    return b.text;
+}
+
+Test(screen_ranking, p_values_below_the_double_range_rank_by_log10_q, .init = make_dir,
+     .fini = remove_dir)
+{
+    char *text = separated_table();
+    summary *s = scan_table(text, (scan_setup){.target = "class"});
+    screen_options o;
+    screen_options_defaults(&o);
+    o.keep_mirrors = 1; /* both columns mirror the target (boxed: classes apart) */
+    screen_result *r = screen(s, &o);
+    const screen_feature *sharp = feature(s, r, "sharp"), *boxed = feature(s, r, "boxed");
+    for (int i = 0; i < 2; i++) {
+        const screen_feature *f = i ? boxed : sharp;
+        cr_expect(f->p == 0 && f->q == 0 && f->anova_f.p_below, "p %g q %g", f->p, f->q);
+        cr_expect(isfinite(f->log10_p) && f->log10_p < -308, "log10 p %g", f->log10_p);
+        cr_expect_eq(f->log10_p, f->anova_f.log10_p);
+        cr_expect(strstr(f->reasons, "relevant (q = ") && strstr(f->reasons, "e-") &&
+                      !strchr(f->reasons, '<'),
+                  "%s", f->reasons);
+    }
+    cr_expect_lt(sharp->log10_p, boxed->log10_p - 100, "sharp's p is the smaller by far");
+    cr_expect_gt(boxed->mi.normalized, sharp->mi.normalized, "boxed's MI is the larger");
+    cr_expect_gt(boxed->mi.adjusted, sharp->mi.adjusted, "boxed's adjusted MI is the larger");
+    /* Worked by hand, Benjamini-Hochberg with m = 2: q_(1) = p_(1) 2 / 1,
+     * q_(2) = p_(2) (both far below the larger's q_(1)). */
+    cr_expect(fabs(sharp->log10_q - (sharp->log10_p + log10(2.0))) < 1e-9);
+    cr_expect_eq(boxed->log10_q, boxed->log10_p);
+    /* Ranked by log10 q: sharp first, though adjusted MI (the tie-break when
+     * both p-values were 0) puts boxed first. */
+    cr_expect_eq(sharp->rank, 1);
+    cr_expect_eq(boxed->rank, 2);
+    screen_free(r);
+    summary_free(s);
+    free(text);
 }

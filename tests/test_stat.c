@@ -7,7 +7,10 @@
  *    numpy 1.24.2 for the mutual information, pandas 1.5.3 for reading the
  *    open datasets (../shared/data/open);
  *  - mpmath 1.2.1 (Debian) at 40 digits for p-values in the regimes where
- *    GSL's own routines go wrong.
+ *    GSL's own routines go wrong, and at 50 digits (quadrature of the
+ *    densities, tests/logp_reference.py) for log10 p down to 1e-100000 and
+ *    p around the switch of the F tail to its large-df limit
+ *    (tests/logp_reference.h).
  * Values worked by hand from the definitions say so.
  */
 #include <criterion/criterion.h>
@@ -21,6 +24,7 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "logp_reference.h"
 #include "stats/stat.h"
 #include "testutil.h"
 
@@ -143,8 +147,11 @@ static void check_nist(const char *name, double f_digits)
               r.stat, c.f, digits(r.stat, c.f));
     cr_expect(digits(r.extra, c.r2) >= f_digits, "%s: R^2 %.15g vs certified %.15g", name, r.extra,
               c.r2);
-    /* F = 2001 on (8, 18000) df (SmLs03, 06, 09) has p near 1e-3500. */
+    /* F = 2001 on (8, 18000) df (SmLs03, 06, 09) has p near 1e-2477, which
+     * log10_p keeps. */
     cr_expect(r.p_below ? r.p == 0 && c.f > 1000 : r.p > 0 && r.p < 1, "%s: p %g", name, r.p);
+    cr_expect(r.p_below ? r.log10_p < -307 && isfinite(r.log10_p) : r.log10_p == log10(r.p),
+              "%s: log10 p %g for p %g", name, r.log10_p, r.p);
 }
 
 /* NIST StRD one-way ANOVA, certified F statistic and R^2. */
@@ -359,6 +366,11 @@ Test(stat_correlation_f, perfect_or_overwhelming_correlation_sets_p_below)
      * is near exp(-F/2) = 1e-45000 (worked by hand; scipy also gives 0). */
     cr_assert_eq(stat_correlation_f(0.2, 5e6, &r), 0);
     cr_expect(r.p == 0 && r.p_below);
+    /* mpmath 1.2.1, quadrature at 50 digits (tests/logp_reference.py's
+     * ln_f_upper): log10 p = -44324.648249267797543. */
+    REL_OK(r.log10_p, -44324.648249267797543, 1e-9, "log10 p (mpmath)");
+    cr_assert_eq(stat_correlation_f(1, 50, &r), 0);
+    cr_expect(r.log10_p == -INFINITY, "|r| = 1: p is exactly 0");
 }
 
 Test(stat_correlation_f, too_few_pairs_or_nan_is_undefined)
@@ -453,24 +465,28 @@ Test(stat_tails, chi2_tail_small_df_matches_mpmath)
     cr_assert_eq(stat_chi2_test(1000, 3, &r), 0);
     REL_OK(r.p, 1.7994208765314477e-216, 1e-10, "chi2 1000 on 3 df");
     cr_expect(!r.p_below);
-    /* mpmath: 1.9016849634750064e-326, below DBL_MIN. */
+    /* mpmath: 1.9016849634750064e-326, below DBL_MIN; log10 p =
+     * -325.72086142743887074 (gammainc at 50 digits). */
     cr_assert_eq(stat_chi2_test(1500, 2, &r), 0);
     cr_expect(r.p == 0 && r.p_below, "p %g below %d", r.p, r.p_below);
+    REL_OK(r.log10_p, -325.72086142743887074, 1e-12, "log10 p (mpmath)");
+    cr_assert_eq(stat_chi2_test(1000, 3, &r), 0);
+    REL_OK(r.log10_p, log10(1.7994208765314477e-216), 1e-14, "log10 p = log10 of p");
 }
 
 Test(stat_tails, zero_and_infinite_statistics_and_bad_input)
 {
     stat_result r;
     cr_assert_eq(stat_f_test(0, 3, 10, &r), 0);
-    cr_expect(r.p == 1 && !r.p_below);
+    cr_expect(r.p == 1 && !r.p_below && r.log10_p == 0);
     cr_assert_eq(stat_chi2_test(0, 3, &r), 0);
-    cr_expect(r.p == 1);
+    cr_expect(r.p == 1 && r.log10_p == 0);
     cr_assert_eq(stat_f_test(INFINITY, 3, 10, &r), 0);
-    cr_expect(r.p == 0 && r.p_below);
+    cr_expect(r.p == 0 && r.p_below && r.log10_p == -INFINITY);
     cr_assert_eq(stat_chi2_test(INFINITY, 3e6, &r), 0);
-    cr_expect(r.p == 0 && r.p_below);
+    cr_expect(r.p == 0 && r.p_below && r.log10_p == -INFINITY);
     cr_expect_eq(stat_f_test(NAN, 3, 10, &r), -1);
-    cr_expect(isnan(r.p) && !r.p_below);
+    cr_expect(isnan(r.p) && !r.p_below && isnan(r.log10_p));
     cr_expect_eq(stat_f_test(-1, 3, 10, &r), -1);
     cr_expect_eq(stat_f_test(1, 0, 10, &r), -1);
     cr_expect_eq(stat_chi2_test(1, 0, &r), -1);
@@ -506,6 +522,90 @@ Test(stat_tails, p_values_stay_in_range_and_decrease_with_the_statistic)
             cr_assert(r.p <= last * (1 + 1e-6) + 1e-300, "chi2 %g on %g: p %g after %g", x, dfs[i],
                       r.p, last);
             last = r.p;
+        }
+    }
+}
+
+Test(stat_tails, log10_p_matches_mpmath_from_1e_5_to_1e_100000)
+{
+    /* mpmath 1.2.1, quadrature at 50 digits (tests/logp_reference.h):
+     * log10 p to 6 significant digits, and to 1e-8 relative (measured:
+     * 1.4e-9 at worst) so that a loss of digits shows.  Above p = 1e-250
+     * log10_p is log10 of the double p; below, the log-space tails. */
+    for (size_t i = 0; i < sizeof logp_reference_f / sizeof *logp_reference_f; i++) {
+        const logp_reference *c = &logp_reference_f[i];
+        stat_result r;
+        cr_assert_eq(stat_f_test(c->stat, c->df1, c->df2, &r), 0);
+        double e = testutil_rel(r.log10_p, c->log10_p);
+        cr_expect(e <= 5e-7, "F %.17g on (%g, %g): log10 p %.12g, mpmath %.12g (6 digits)", c->stat,
+                  c->df1, c->df2, r.log10_p, c->log10_p);
+        cr_expect(e <= 1e-8, "F %.17g on (%g, %g): log10 p %.15g, mpmath %.15g (rel %.2g)", c->stat,
+                  c->df1, c->df2, r.log10_p, c->log10_p, e);
+    }
+    for (size_t i = 0; i < sizeof logp_reference_chi2 / sizeof *logp_reference_chi2; i++) {
+        const logp_reference *c = &logp_reference_chi2[i];
+        stat_result r;
+        cr_assert_eq(stat_chi2_test(c->stat, c->df1, &r), 0);
+        double e = testutil_rel(r.log10_p, c->log10_p);
+        cr_expect(e <= 5e-7, "chi2 %.17g on %g: log10 p %.12g, mpmath %.12g (6 digits)", c->stat,
+                  c->df1, r.log10_p, c->log10_p);
+        cr_expect(e <= 1e-8, "chi2 %.17g on %g: log10 p %.15g, mpmath %.15g (rel %.2g)", c->stat,
+                  c->df1, r.log10_p, c->log10_p, e);
+    }
+}
+
+Test(stat_tails, f_tail_near_its_large_df_switch_matches_mpmath)
+{
+    /* mpmath 1.2.1 at 50 digits (tests/logp_reference.h, third table):
+     * df1 1..300, df2 1e7..1e9, p 1e-2..1e-300.  The switch to the gamma
+     * limit (df2 > 3e7 and df2 > 6e5 df1) is where its error falls below the
+     * beta ratio's; with the switch at df2 > 3e7 for df1 < 20 only, p on
+     * (300, 3e8) erred by 1e-8 and on (100, 1e9) by 3e-8. */
+    double worst = 0;
+    for (size_t i = 0; i < sizeof logp_reference_f_switch / sizeof *logp_reference_f_switch; i++) {
+        const logp_reference *c = &logp_reference_f_switch[i];
+        stat_result r;
+        cr_assert_eq(stat_f_test(c->stat, c->df1, c->df2, &r), 0);
+        double e = fabs(log(r.p) - c->log10_p * M_LN10); /* relative error of p */
+        if (e > worst) worst = e;
+        cr_expect(e <= 5e-9, "F %.17g on (%g, %g): p %.17g, mpmath 10^%.17g (rel %.2g)", c->stat,
+                  c->df1, c->df2, r.p, c->log10_p, e);
+    }
+    cr_log_info("F near the large-df switch: worst relative error of p %.2g", worst);
+}
+
+Test(stat_tails, log10_p_keeps_decreasing_below_the_double_range)
+{
+    /* Sweep of F up to 1e300 and chi-squared up to 60 standard deviations
+     * and beyond, df from 1 to 1e9 (no outside reference: log10 p must not
+     * increase with the statistic, stay finite where the statistic is, and
+     * equal log10 p where p is representable and above 1e-250). */
+    const double dfs[] = {1, 2, 7, 30, 1e3, 1e5, 3e5, 1e7, 1e9};
+    for (size_t i = 0; i < 9; i++)
+        for (size_t j = 0; j < 9; j++) {
+            double last = 0;
+            for (double f = 1.1; f < 1e300; f *= 1.9) {
+                stat_result r;
+                cr_assert_eq(stat_f_test(f, dfs[i], dfs[j], &r), 0);
+                cr_assert(isfinite(r.log10_p) && r.log10_p <= 0, "F %g on (%g, %g): log10 p %g", f,
+                          dfs[i], dfs[j], r.log10_p);
+                cr_assert(r.log10_p <= last + 1e-9 * fabs(last), "F %g on (%g, %g): %.17g after %.17g",
+                          f, dfs[i], dfs[j], r.log10_p, last);
+                if (r.p >= 1e-250) cr_assert_eq(r.log10_p, log10(r.p));
+                last = r.log10_p;
+            }
+        }
+    for (size_t i = 0; i < 9; i++) {
+        double last = 0;
+        for (double z = 0; z < 1e8; z = z * 1.3 + 0.5) {
+            double x = dfs[i] + z * sqrt(2 * dfs[i]);
+            stat_result r;
+            cr_assert_eq(stat_chi2_test(x, dfs[i], &r), 0);
+            cr_assert(isfinite(r.log10_p) && r.log10_p <= 0, "chi2 %g on %g: log10 p %g", x, dfs[i],
+                      r.log10_p);
+            cr_assert(r.log10_p <= last + 1e-9 * fabs(last), "chi2 %g on %g: %.17g after %.17g", x,
+                      dfs[i], r.log10_p, last);
+            last = r.log10_p;
         }
     }
 }

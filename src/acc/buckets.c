@@ -58,6 +58,7 @@
 #include <string.h>
 
 #include "acc/buckets_key.h"
+#include "acc/radix.h"
 
 #define FIB_MULT 0x9E3779B97F4A7C15ull
 #define MIN_CAP 16
@@ -206,51 +207,7 @@ static inline uint64_t sort_key(int64_t key, uint32_t cell)
     return ((uint64_t)((uint32_t)(int32_t)key ^ 0x80000000u) << 32) | cell;
 }
 
-typedef struct {
-    uint64_t k;  /* sort_key */
-    uint32_t i;  /* index of the item */
-} sort_pair;
-
-#define RADIX_BITS 11
 #define RADIX_MIN 256 /* below this many items qsort is as fast */
-
-/* Sorts a[0..n) by k, stably: LSD radix sort, up to RADIX_BITS at a time over
- * only the bits in which the keys differ (a store's keys span a few
- * octaves and its cells a few bits, so two or three passes).  tmp holds n
- * pairs; returns whichever of a and tmp holds the result. */
-static sort_pair *radix_sort(sort_pair *a, sort_pair *tmp, size_t n)
-{
-    uint64_t any = 0, all = ~(uint64_t)0;
-    for (size_t i = 0; i < n; i++) {
-        any |= a[i].k;
-        all &= a[i].k;
-    }
-    uint64_t vary = any ^ all;
-    if (!vary) return a;
-    int lo = __builtin_ctzll(vary), hi = 63 - __builtin_clzll(vary);
-    /* Digits no wider than log2(n) - 1 bits: the counters stay fewer than
-     * the items. */
-    int bits = 63 - __builtin_clzll((uint64_t)n) - 1;
-    if (bits > RADIX_BITS) bits = RADIX_BITS;
-    if (bits < 4) bits = 4;
-    const uint64_t digit = ((uint64_t)1 << bits) - 1;
-    size_t count[1u << RADIX_BITS];
-    for (int shift = lo; shift <= hi; shift += bits) {
-        memset(count, 0, ((size_t)1 << bits) * sizeof *count);
-        for (size_t i = 0; i < n; i++) count[(a[i].k >> shift) & digit]++;
-        size_t at = 0;
-        for (size_t d = 0; d <= digit; d++) {
-            size_t c = count[d];
-            count[d] = at;
-            at += c;
-        }
-        for (size_t i = 0; i < n; i++) tmp[count[(a[i].k >> shift) & digit]++] = a[i];
-        sort_pair *t = a;
-        a = tmp;
-        tmp = t;
-    }
-    return a;
-}
 
 /* Writes the sort index of b's entries, in (key, cell) order, to out[0..n).
  * The radix sort's scratch is optional: without it qsort does the work, so
@@ -265,13 +222,13 @@ static void fill_order(const buckets *b, order_item *out)
         out[k].pos = (uint32_t)i;
         k++;
     }
-    sort_pair *pairs = k >= RADIX_MIN ? malloc(2 * k * sizeof *pairs) : NULL;
+    radix_pair *pairs = k >= RADIX_MIN ? malloc(2 * k * sizeof *pairs) : NULL;
     if (pairs) {
         for (size_t i = 0; i < k; i++) {
             pairs[i].k = sort_key(out[i].key, out[i].cell);
             pairs[i].i = out[i].pos;
         }
-        sort_pair *sorted = radix_sort(pairs, pairs + k, k);
+        radix_pair *sorted = radix_sort_pairs(pairs, pairs + k, k);
         for (size_t i = 0; i < k; i++) {
             uint64_t id = b->slots[sorted[i].i].id;
             out[i].key = (int32_t)id_key(id);
@@ -310,7 +267,7 @@ static int entry_cmp(const void *pa, const void *pb)
 /* Sorts e[0..n) by (key, cell): radix when scratch can be had, else qsort. */
 static void sort_entries(buckets_entry *e, size_t n)
 {
-    sort_pair *pairs = n >= RADIX_MIN ? malloc(2 * n * sizeof *pairs) : NULL;
+    radix_pair *pairs = n >= RADIX_MIN ? malloc(2 * n * sizeof *pairs) : NULL;
     buckets_entry *copy = pairs ? malloc(n * sizeof *copy) : NULL;
     if (!copy) {
         free(pairs);
@@ -321,7 +278,7 @@ static void sort_entries(buckets_entry *e, size_t n)
         pairs[i].k = sort_key(e[i].key, e[i].cell);
         pairs[i].i = (uint32_t)i;
     }
-    sort_pair *sorted = radix_sort(pairs, pairs + n, n);
+    radix_pair *sorted = radix_sort_pairs(pairs, pairs + n, n);
     memcpy(copy, e, n * sizeof *e);
     for (size_t i = 0; i < n; i++) e[i] = copy[sorted[i].i];
     free(pairs);

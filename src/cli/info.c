@@ -40,7 +40,7 @@ static void json_column(json_out *j, const column_description *d)
     }
     json_key(j, "distinct"); json_number(j, d->distinct_exact ? d->distinct : round(d->distinct));
     json_key(j, "distinct_exact"); json_bool(j, d->distinct_exact);
-    json_key(j, "high_cardinality"); json_bool(j, d->high_cardinality);
+    json_key(j, "value_table_full"); json_bool(j, d->high_cardinality);
     /* Once a value table overflowed (here or in a merged shard), counts of
      * values that entered it late are lower bounds. */
     json_key(j, "top_exact"); json_bool(j, !d->high_cardinality);

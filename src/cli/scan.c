@@ -5,6 +5,8 @@
 #include <unistd.h>
 
 #include "cli/cli.h"
+#include "stats/screen.h"
+#include "stats/validity.h"
 #include "summary/scan.h"
 
 /* Warnings that do not stop the scan (duplicate column names), held until
@@ -184,6 +186,15 @@ int cmd_scan(int argc, char **argv)
     if (st != SCAN_OK) {
         cli_error("scan", "%s", err);
         rc = st == SCAN_ERR_USAGE ? EXIT_USAGE : st == SCAN_ERR_MEMORY ? EXIT_RESOURCE : EXIT_INPUT;
+        goto done;
+    }
+    screen_options judged; /* the task is judged by screen's default kind rule */
+    screen_options_defaults(&judged);
+    if (validity_task_fits(s, judged.numeric_share, err, sizeof err) != 0) {
+        if (npos > 1) cli_error("scan", "%s and %zu more: %s", pos[0], npos - 1, err);
+        else cli_error("scan", "%s: %s", pos[0], err);
+        summary_free(s);
+        rc = EXIT_USAGE;
         goto done;
     }
     summary_status ws = summary_write(s, out, err, sizeof err);

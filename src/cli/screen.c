@@ -1,6 +1,5 @@
 /* sheaf screen: which columns to keep, and why, from a summary alone. */
 #include <errno.h>
-#include <float.h>
 #include <limits.h>
 #include <math.h>
 #include <stdio.h>
@@ -11,6 +10,7 @@
 #include "cli/cli.h"
 #include "out/json.h"
 #include "out/table.h"
+#include "stats/logp.h"
 #include "stats/screen.h"
 #include "summary/access.h"
 #include "summary/tempfile.h"
@@ -49,11 +49,13 @@ static int write_keep_list(tempfile *t, const summary *s, const screen_result *r
     return tempfile_commit(t, err, errlen);
 }
 
-/* The p-value as text: "<2.2e-308" when it underflowed. */
-static void p_text(char *buf, size_t len, const screen_test *t)
+/* A p- or q-value as text from its log10, in %g's form at every size:
+ * "0.0123", "4.56e-23", and below the double range "4.56e-48213" (the
+ * exponent from the logarithm); "0" for a p-value that is exactly 0
+ * (infinite statistic), "-" when undefined. */
+static void p_text(char *buf, size_t len, double log10_value, int digits)
 {
-    if (t->p_below) snprintf(buf, len, "<%.2g", DBL_MIN);
-    else table_format_number(buf, len, t->p, 3);
+    logp_format(buf, len, log10_value, digits);
 }
 
 /* The test that decided a feature's q (the primary one). */
@@ -67,8 +69,27 @@ static const screen_test *primary(const screen_result *r, const screen_feature *
     return NULL;
 }
 
+static const char *const RULES[] = {"", "cochran_1954", "level_sizes"};
+
+/* A test's validity rule and what it found (validity.h), inside its object. */
+static void json_check(json_out *j, const validity_check *c)
+{
+    if (!c || c->rule == VALIDITY_NONE) return;
+    json_key(j, "validity");
+    json_object_begin(j);
+    json_key(j, "rule"); json_string(j, RULES[c->rule]);
+    json_key(j, "holds"); json_bool(j, c->holds);
+    json_key(j, c->rule == VALIDITY_COCHRAN ? "expected_counts" : "levels"); json_uint(j, c->units);
+    json_key(j, "below_5"); json_uint(j, c->small);
+    json_key(j, c->rule == VALIDITY_COCHRAN ? "share_below_5" : "row_share_in_levels_below_5");
+    json_number(j, c->small_share);
+    json_key(j, c->rule == VALIDITY_COCHRAN ? "smallest_expected" : "smallest_level_rows");
+    json_number(j, c->smallest);
+    json_object_end(j);
+}
+
 static void json_test(json_out *j, const char *name, const screen_test *t, int one_df,
-                      const char *extra)
+                      const char *extra, const validity_check *check)
 {
     if (!t->present) return;
     json_key(j, name);
@@ -80,9 +101,10 @@ static void json_test(json_out *j, const char *name, const screen_test *t, int o
         json_key(j, "df1"); json_number(j, t->df1);
         json_key(j, "df2"); json_number(j, t->df2);
     }
-    json_key(j, "p"); json_number(j, t->p_below ? DBL_MIN : t->p);
-    if (t->p_below) { json_key(j, "p_is_upper_bound"); json_bool(j, 1); }
+    json_key(j, "p"); json_number(j, t->p);
+    json_key(j, "log10_p"); json_number(j, t->log10_p);
     if (extra) { json_key(j, extra); json_number(j, t->extra); }
+    json_check(j, check);
     json_object_end(j);
 }
 
@@ -100,13 +122,14 @@ static void print_json(const summary *s, const screen_result *r)
     json_object_begin(&j);
     json_key(&j, "rows"); json_uint(&j, summary_rows(s));
     json_key(&j, "target");
-    if (summary_target_column(s) < 0) {
+    if (r->target < 0) {
         json_null(&j);
     } else {
         json_object_begin(&j);
-        json_key(&j, "name"); json_string(&j, summary_target_name(s));
+        json_key(&j, "name"); json_string(&j, summary_name(s, (size_t)r->target));
         json_key(&j, "task"); json_string(&j, TASKS[r->task]);
-        cli_json_class_levels(&j, s, r->task == TASK_CLASSIFY);
+        json_key(&j, "from_comoments"); json_bool(&j, r->from_comoments);
+        if (!r->from_comoments) cli_json_class_levels(&j, s, r->task == TASK_CLASSIFY);
         json_object_end(&j);
     }
     json_key(&j, "kept"); json_uint(&j, r->kept);
@@ -124,10 +147,10 @@ static void print_json(const summary *s, const screen_result *r)
         json_array_end(&j);
         json_key(&j, "tests");
         json_object_begin(&j);
-        json_test(&j, "anova_f", &f->anova_f, 0, NULL);
-        json_test(&j, "welch_f", &f->welch_f, 0, NULL);
-        json_test(&j, "corr_f", &f->corr_f, 0, "r");
-        json_test(&j, "chi2", &f->chi2, 1, "cramers_v");
+        json_test(&j, "anova_f", &f->anova_f, 0, NULL, &f->anova_check);
+        json_test(&j, "welch_f", &f->welch_f, 0, NULL, NULL);
+        json_test(&j, "corr_f", &f->corr_f, 0, "r", NULL);
+        json_test(&j, "chi2", &f->chi2, 1, "cramers_v", &f->chi2_check);
         if (f->mi.present) {
             json_key(&j, "mutual_information");
             json_object_begin(&j);
@@ -136,10 +159,15 @@ static void print_json(const summary *s, const screen_result *r)
             json_key(&j, "normalized"); json_number(&j, f->mi.normalized);
             json_key(&j, "feature_bins"); json_uint(&j, f->mi.bins_feature);
             json_key(&j, "target_bins"); json_uint(&j, f->mi.bins_target);
+            json_key(&j, "expected_nats"); json_number(&j, f->mi.expected_nats);
+            json_key(&j, "adjusted"); json_number(&j, f->mi.adjusted);
+            json_key(&j, "expected_approximated_cells"); json_uint(&j, f->mi.approximated_cells);
             json_object_end(&j);
         }
         json_object_end(&j);
         json_key(&j, "q"); json_number(&j, f->q);
+        json_key(&j, "log10_q"); json_number(&j, f->log10_q);
+        json_key(&j, "test_holds"); json_bool(&j, !f->unreliable);
         json_key(&j, "decision"); json_string(&j, f->keep ? "keep" : "drop");
         json_key(&j, "reasons");
         json_array_begin(&j);
@@ -174,8 +202,8 @@ static void print_json(const summary *s, const screen_result *r)
 
 static void print_csv(const summary *s, const screen_result *r)
 {
-    printf("column,kind,decision,rank,flags,test,stat,df1,df2,p,q,mi_nats,mi_nats_corrected,"
-           "mi_normalized,reasons\n");
+    printf("column,kind,decision,rank,flags,test,stat,df1,df2,p,q,log10_p,log10_q,test_holds,r,"
+           "mi_nats,mi_nats_corrected,mi_normalized,mi_expected_nats,mi_adjusted,reasons\n");
     for (size_t i = 0; i < r->nfeatures; i++) {
         const screen_feature *f = &r->features[i];
         table_csv_field(stdout, summary_name(s, f->col));
@@ -188,16 +216,27 @@ static void print_csv(const summary *s, const screen_result *r)
         const char *tn;
         const screen_test *t = primary(r, f, &tn);
         if (t && t->present) {
-            char pb[32];
-            p_text(pb, sizeof pb, t);
+            char pb[40] = "", qb[40] = "", lp[40] = "", lq[40] = ""; /* empty when undefined */
+            if (!isnan(t->log10_p)) {
+                p_text(pb, sizeof pb, t->log10_p, 3);
+                snprintf(lp, sizeof lp, "%.10g", t->log10_p);
+            }
+            if (!isnan(f->log10_q)) {
+                p_text(qb, sizeof qb, f->log10_q, 6);
+                snprintf(lq, sizeof lq, "%.10g", f->log10_q);
+            }
             printf(",%s,%.10g,%.10g,", tn, t->stat, t->df1);
             if (isfinite(t->df2)) printf("%.10g", t->df2);
-            printf(",%s,%.6g", pb, f->q);
+            printf(",%s,%s,%s,%s", pb, qb, lp, lq);
         } else {
-            printf(",,,,,,");
+            printf(",,,,,,,,");
         }
-        if (f->mi.present) printf(",%.6g,%.6g,%.6g,", f->mi.nats, f->mi.nats_corrected, f->mi.normalized);
-        else printf(",,,,");
+        printf(",%s,", t && t->present ? (f->unreliable ? "no" : "yes") : "");
+        if (f->corr_f.present) printf("%.6g", f->corr_f.extra);
+        if (f->mi.present)
+            printf(",%.6g,%.6g,%.6g,%.6g,%.6g,", f->mi.nats, f->mi.nats_corrected, f->mi.normalized,
+                   f->mi.expected_nats, f->mi.adjusted);
+        else printf(",,,,,,");
         table_csv_field(stdout, f->reasons);
         fputc('\n', stdout);
     }
@@ -207,17 +246,27 @@ static void print_text(const summary *s, const screen_result *r, const char *pat
 {
     int color = table_use_color(stdout);
     unsigned long long rows = summary_rows(s);
-    if (summary_target_column(s) >= 0)
+    if (r->from_comoments)
+        printf("%s: %llu rows; target %s (regression from the co-moments: F test of r only); kept "
+               "%zu of %zu columns\n", path, rows, summary_name(s, (size_t)r->target), r->kept,
+               r->nfeatures);
+    else if (r->target >= 0)
         printf("%s: %llu rows; target %s (%s); kept %zu of %zu columns\n", path, rows,
                summary_target_name(s), r->task == TASK_CLASSIFY ? "classification" : "regression",
                r->kept, r->nfeatures);
     else
         printf("%s: %llu rows; no target (only flags and redundancy); kept %zu of %zu columns\n",
                path, rows, r->kept, r->nfeatures);
-    const char *head[] = {"rank", "column", "kind", "decision", "test", "stat", "p", "q", "MI norm", "reasons"};
-    size_t nh = sizeof head / sizeof *head;
-    table *t = table_create(nh);
-    for (size_t i = 0; i < nh; i++) table_heading(t, i, head[i], i == 0 || (i >= 5 && i <= 8));
+    /* r (signed) only for a numeric target; adj. MI is AMI (validity.h). */
+    int with_r = r->task == TASK_REGRESS;
+    const char *head[] = {"rank", "column", "kind", "decision", "test", "stat", "p", "q", "r", "adj. MI", "reasons"};
+    size_t nh = sizeof head / sizeof *head, col_r = 8, col_mi = with_r ? 9 : 8, col_why = col_mi + 1;
+    table *t = table_create(nh - !with_r);
+    for (size_t i = 0, c = 0; i < nh; i++) {
+        if (i == 8 && !with_r) continue;
+        table_heading(t, c, head[i], i == 0 || (i >= 5 && i <= 9));
+        c++;
+    }
     /* Kept by rank first, then dropped in column order. */
     for (int pass = 0; pass < 2; pass++)
         for (size_t want = 1, i = 0; pass == 0 ? want <= r->kept : i < r->nfeatures;) {
@@ -243,14 +292,15 @@ static void print_text(const summary *s, const screen_result *r, const char *pat
                 table_cell(t, 4, tn);
                 table_format_number(b, sizeof b, pt->stat, 4);
                 table_cell(t, 5, b);
-                p_text(b, sizeof b, pt);
+                p_text(b, sizeof b, pt->log10_p, 3);
                 table_cell(t, 6, b);
-                if (f->q == 0 && pt->p_below) snprintf(b, sizeof b, "<%.2g", DBL_MIN);
-                else table_format_number(b, sizeof b, f->q, 3);
+                p_text(b, sizeof b, f->log10_q, 3);
                 table_cell(t, 7, b);
             }
-            if (f->mi.present) table_cellf(t, 8, "%.3f", f->mi.normalized);
-            table_cell(t, 9, f->reasons);
+            if (with_r && f->corr_f.present) table_cellf(t, col_r, "%+.3f", f->corr_f.extra);
+            if (f->mi.present && !isnan(f->mi.adjusted)) /* at chance, not "-0.000" */
+                table_cellf(t, col_mi, "%.3f", fabs(f->mi.adjusted) < 5e-4 ? 0.0 : f->mi.adjusted);
+            table_cell(t, col_why, f->reasons);
         }
     table_print(t, stdout, table_terminal_width(), color);
     table_free(t);
@@ -267,27 +317,35 @@ int cmd_screen(int argc, char **argv)
 {
     const char *format = "text", *q = NULL, *top = NULL, *bins = NULL, *rank_by = NULL;
     const char *keep_list = NULL, *missing = NULL, *minvar = NULL, *redund = NULL, *share = NULL;
+    int keep_mirrors = 0;
+    const char *target = NULL;
     const cli_option opts[] = {
+        {"target", 't', "COL", "test against numeric column COL instead of the scan's target: the F "
+                               "test of r from the co-moments only", &target, NULL},
         {"format", 'f', "FMT", "text (default), csv or json", &format, NULL},
         {"q", 0, "LEVEL", "q-value below which a column counts as relevant (default 0.05)", &q, NULL},
         {"top", 0, "K", "keep at most K columns", &top, NULL},
-        {"rank-by", 0, "KEY", "q (default), mi (normalized mutual information) or stat", &rank_by, NULL},
+        {"rank-by", 0, "KEY", "q (default), mi (mutual information adjusted for chance) or stat", &rank_by, NULL},
         {"bins", 0, "K", "equal-frequency bins for mutual information (default 10)", &bins, NULL},
         {"redundancy", 0, "R", "|r| at which two kept columns are redundant (default 0.95)", &redund, NULL},
-        {"missing-share", 0, "P", "share of missing cells that flags a column (default 0.5)", &missing, NULL},
-        {"min-variance", 0, "V", "flag numeric columns with a smaller variance as near-constant", &minvar, NULL},
+        {"missing-share", 0, "P", "share of missing cells that flags a column too_sparse (default 0.5)", &missing, NULL},
+        {"min-variance", 0, "V", "flag numeric columns with a smaller variance little_information", &minvar, NULL},
         CLI_NUMERIC_SHARE_OPTION(share),
         {"keep-list", 0, "FILE", "also write the kept column names, one per line", &keep_list, NULL},
+        {"keep-mirrors", 0, NULL, "keep columns flagged mirrors_target (possible leaks) if relevant", NULL,
+         &keep_mirrors},
         {0},
     };
     const cli_command cmd = {
         "screen", "SUMMARY.sheaf [options]",
-        "Decides, from the summary alone, which columns to keep: flags constant,\n"
-        "near-constant, ID-like, mostly missing and high-cardinality columns, tests the\n"
-        "others against the target (ANOVA F, Welch's F, F test of Pearson r, chi-squared,\n"
-        "mutual information), controls the false discovery rate with Benjamini-Hochberg\n"
-        "q-values, prunes redundant pairs and ranks what is kept. The p-values assume\n"
-        "independent rows; see the README's cautions.",
+        "Decides, from the summary alone, which columns to keep: flags columns with no\n"
+        "or little information, columns that name rows, too sparse columns and columns\n"
+        "with too many levels, tests the others against the target (ANOVA F, Welch's F,\n"
+        "F test of Pearson r, chi-squared with Cochran's rule, mutual information adjusted\n"
+        "for chance), controls the false discovery rate with Benjamini-Hochberg q-values,\n"
+        "flags columns that mirror the target (possible leaks), prunes redundant pairs and\n"
+        "ranks what is kept. The p-values assume independent rows; see the README's\n"
+        "cautions.",
         opts};
     char **pos;
     int rc = cli_parse_single(&cmd, argc, argv, &pos);
@@ -333,6 +391,27 @@ int cmd_screen(int argc, char **argv)
     }
     if (keep_list && cli_check_output("screen", keep_list, (const char *const *)pos, 1)) goto done;
     if ((rc = cli_read_summary("screen", pos[0], &s)) != EXIT_DONE) goto done;
+    o.keep_mirrors = keep_mirrors;
+    char why[512];
+    if (validity_task_fits(s, o.numeric_share, why, sizeof why) != 0) {
+        cli_error("screen", "%s: %s", pos[0], why);
+        rc = EXIT_USAGE;
+        goto done;
+    }
+    if (target) {
+        long col = summary_find_column(s, target);
+        size_t same = 0;
+        for (size_t i = 0; i < summary_columns(s); i++) same += !strcmp(summary_name(s, i), target);
+        const char *problem = col < 0     ? "no such column"
+                              : same > 1 ? "names more than one column of the summary"
+                                         : screen_target_problem(s, (size_t)col, o.numeric_share);
+        if (problem) {
+            cli_error("screen", "%s: --target %s: %s", pos[0], target, problem);
+            rc = EXIT_USAGE;
+            goto done;
+        }
+        o.target_col = col;
+    }
     r = screen_run(s, &o);
     if (!r) { cli_error("screen", "out of memory"); rc = EXIT_RESOURCE; goto done; }
     if (keep_list) {

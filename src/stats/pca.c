@@ -35,6 +35,7 @@
 #include "stats/pca.h"
 
 #include "acc/blas.h"
+#include "stats/validity.h"
 #include "summary/access.h"
 
 #include <cblas.h>
@@ -301,9 +302,7 @@ static int unusable(const summary *s, size_t j, const pca_options *o, int explic
         return PCA_LEFT_CONSTANT;
     }
     if (explicit_choice) return 0;
-    uint64_t present = summary_present(s, j);
-    if (summary_integers(s, j) == numbers && present > 0 && distinct >= o->id_share * (double)present)
-        return PCA_LEFT_ID_LIKE;
+    if (validity_id_like(s, j, KIND_NUMERIC, o->id_share)) return PCA_LEFT_ID_LIKE; /* screen's rule */
     return 0;
 }
 

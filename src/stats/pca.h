@@ -37,7 +37,7 @@ typedef enum {
     PCA_LEFT_CATEGORICAL,  /* categorical, or declared categorical at scan time */
     PCA_LEFT_EMPTY,        /* fewer than two finite numbers */
     PCA_LEFT_CONSTANT,     /* variance 0, or a single distinct value */
-    PCA_LEFT_ID_LIKE,      /* integer-valued, distinct values >= id_share of present cells */
+    PCA_LEFT_ID_LIKE,      /* ID-like by validity_id_like, the rule screen uses */
     PCA_LEFT_EXCLUDED      /* named in `exclude` */
 } pca_reason;
 

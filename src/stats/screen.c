@@ -3,20 +3,20 @@
  * stores), never from the data. */
 #include "stats/screen.h"
 
+#include <float.h>
 #include <math.h>
 #include <stdarg.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 
+#include "stats/logp.h"
 #include "summary/access.h"
 
-const char *const screen_flag_names[SCREEN_NFLAGS] = {"constant", "near_constant", "id_like",
-                                                      "mostly_missing", "high_cardinality"};
-
-/* ID-like needs this many present cells (a rule of sheaf's own: on tiny
- * tables every integer column would otherwise look like an identifier). */
-#define ID_MIN_PRESENT 20
+/* Named for what the user should conclude, not for what was measured. */
+const char *const screen_flag_names[SCREEN_NFLAGS] = {"no_information", "little_information",
+                                                      "names_rows", "too_sparse",
+                                                      "too_many_levels", "mirrors_target"};
 
 void screen_options_defaults(screen_options *o)
 {
@@ -28,6 +28,18 @@ void screen_options_defaults(screen_options *o)
     o->q_level = 0.05;
     o->redundancy = 0.95;
     o->bins = 10;
+    o->target_col = -1;
+}
+
+const char *screen_target_problem(const summary *s, size_t col, double numeric_share)
+{
+    if (col >= summary_columns(s)) return "no such column";
+    if ((long)col == (long)summary_target_column(s)) return NULL;
+    if (summary_kind(s, col, numeric_share) != KIND_NUMERIC)
+        return "not a numeric column (a text target needs a scan with it as the target)";
+    if (!summary_has_pairs(s, col))
+        return "not in the summary's co-moment matrix (it was scanned as a text column)";
+    return NULL;
 }
 
 void screen_free(screen_result *r)
@@ -57,7 +69,15 @@ static void set_test(screen_test *t, const stat_result *r)
     t->df2 = r->df2;
     t->p = r->p;
     t->p_below = r->p_below;
+    t->log10_p = r->log10_p;
     t->extra = r->extra;
+}
+
+/* The p-value behind q: that of the primary test t, NaN without one. */
+static void set_primary(screen_feature *f, const screen_test *t)
+{
+    f->p = t->present ? t->p : NAN;
+    f->log10_p = t->present ? t->log10_p : NAN;
 }
 
 /* ---- flags ---------------------------------------------------------------- */
@@ -73,7 +93,6 @@ static unsigned column_flags(const summary *s, size_t col, column_kind kind,
     int exact;
     double distinct = summary_distinct(s, col, &exact);
     double var = summary_variance(s, col);
-    uint64_t numbers = summary_numbers(s, col);
     /* Constant only when the exact value table holds one value.  A variance
      * of 0 over several distinct cells is the rounding of long numbers to a
      * double (30-digit IDs that share 28 digits), not a constant; a table
@@ -83,10 +102,7 @@ static unsigned column_flags(const summary *s, size_t col, column_kind kind,
     if (summary_top(s, col, 1, &top) == 1 && (double)top.count >= o->near_constant * (double)present)
         flags |= SCREEN_NEAR_CONSTANT;
     if (kind == KIND_NUMERIC && o->min_variance > 0 && var < o->min_variance) flags |= SCREEN_NEAR_CONSTANT;
-    int integer_valued = kind == KIND_NUMERIC && summary_integers(s, col) == numbers;
-    if ((kind == KIND_CATEGORICAL || integer_valued) && present >= ID_MIN_PRESENT &&
-        distinct >= o->id_share * (double)present)
-        flags |= SCREEN_ID_LIKE;
+    if (validity_id_like(s, col, kind, o->id_share)) flags |= SCREEN_ID_LIKE;
     if (kind == KIND_CATEGORICAL && summary_high_cardinality(s, col)) flags |= SCREEN_HIGH_CARDINALITY;
     return flags;
 }
@@ -172,8 +188,16 @@ static int pair_table(screen_feature *f, const int64_t *xo, const int64_t *yo, c
         f->mi.normalized = mi.normalized;
         f->mi.bins_feature = mi.rows_used;
         f->mi.bins_target = mi.cols_used;
+        validity_expected e;
+        if (validity_expected_mi(table, bx, by, &e) == -2) rc = -1;
+        f->mi.expected_nats = e.nats;
+        f->mi.approximated_cells = e.approximated_cells;
+        f->mi.adjusted = validity_adjusted_mi(mi.nats, e.nats, mi.h_x, mi.h_y);
     }
-    if (with_chi2 && stat_chi_squared(table, bx, by, &r) == 0) set_test(&f->chi2, &r);
+    if (with_chi2 && stat_chi_squared(table, bx, by, &r) == 0) {
+        set_test(&f->chi2, &r);
+        if (validity_cochran(table, bx, by, &f->chi2_check) != 0) rc = -1;
+    }
     free(table);
 done:
     free(ix);
@@ -312,6 +336,68 @@ static __attribute__((noinline)) void correlation_test(const summary *s, size_t 
     if (isfinite(rr) && stat_correlation_f(rr, nn, &r) == 0) set_test(t, &r);
 }
 
+/* The level-size rule (validity.h) on the rows of each level. */
+static int level_check(const level_moments *g, size_t m, validity_check *out)
+{
+    double *n = malloc((m ? m : 1) * sizeof *n);
+    if (!n) return -1;
+    for (size_t i = 0; i < m; i++) n[i] = g[i].n;
+    validity_level_sizes(n, m, out);
+    free(n);
+    return 0;
+}
+
+/* Marks a feature whose test behind q fails its validity rule, with the
+ * reason. */
+static void judge_primary(screen_feature *f, target_task task)
+{
+    int classify = task == TASK_CLASSIFY;
+    if (f->kind != KIND_CATEGORICAL) return;
+    if (classify && f->chi2.present && f->chi2_check.rule == VALIDITY_COCHRAN &&
+        !f->chi2_check.holds) {
+        f->unreliable = 1;
+        add_reason(f, "chi-squared unreliable by Cochran's rule (%.0f%% of expected counts below 5, "
+                      "smallest %.2g): not kept on it",
+                   100 * f->chi2_check.small_share, f->chi2_check.smallest);
+    } else if (!classify && f->anova_f.present && f->anova_check.rule == VALIDITY_LEVEL_SIZES &&
+               !f->anova_check.holds) {
+        f->unreliable = 1;
+        add_reason(f, "ANOVA F across levels unreliable (%.0f%% of rows in levels of fewer than 5 "
+                      "rows): not kept on it",
+                   100 * f->anova_check.small_share);
+    }
+}
+
+/* Flags a tested feature that mirrors the target (validity.h). */
+static void judge_mirror(const summary *s, screen_feature *f, target_task task)
+{
+    double r = task == TASK_REGRESS && f->corr_f.present ? f->corr_f.extra : NAN;
+    double ami = f->mi.present ? f->mi.adjusted : NAN;
+    int apart = task == TASK_CLASSIFY && f->kind == KIND_NUMERIC &&
+                validity_classes_separated(summary_buckets(s, f->col), summary_class_count(s));
+    char why[128];
+    if (!validity_mirrors_target(r, ami, apart, why, sizeof why)) return;
+    f->flags |= SCREEN_MIRRORS_TARGET;
+    add_reason(f, "mirrors_target: %s (a possible leak of the outcome)", why);
+}
+
+/* A column tested against a target that is not the scan's (y, from the
+ * co-moments): the F test of r for a numeric column in the matrix, nothing
+ * else (no per-class, per-level or bucket table was kept against y). */
+static void test_from_comoments(const summary *s, size_t col, size_t y, screen_feature *f)
+{
+    stat_result r;
+    if (f->kind != KIND_NUMERIC || !summary_has_pairs(s, col)) {
+        add_reason(f, "no test from this summary against %s (scan with it as the target)",
+                   summary_name(s, y));
+        return;
+    }
+    double rr = summary_correlation(s, col, y);
+    double nn = (double)summary_pair_count(s, col, y);
+    if (isfinite(rr) && stat_correlation_f(rr, nn, &r) == 0) set_test(&f->corr_f, &r);
+    set_primary(f, &f->corr_f);
+}
+
 static int test_feature(const summary *s, size_t col, target_task task, const screen_options *o,
                         const target_axis *ta, screen_feature *f)
 {
@@ -339,10 +425,10 @@ static int test_feature(const summary *s, size_t col, target_task task, const sc
                 rc = -1;
             }
             free(n); free(mean); free(m2); free(g);
-            f->p = f->anova_f.present ? f->anova_f.p : NAN;
+            set_primary(f, &f->anova_f);
         } else if (task == TASK_REGRESS) {
             correlation_test(s, col, &f->corr_f);
-            f->p = f->corr_f.present ? f->corr_f.p : NAN;
+            set_primary(f, &f->corr_f);
         }
         /* MI (and chi-squared) from the bucket store: feature buckets x target cells. */
         const buckets *bins = summary_buckets(s, col);
@@ -365,8 +451,9 @@ static int test_feature(const summary *s, size_t col, target_task task, const sc
         if (!g) return -1;
         size_t m = level_groups(s, cross, g);
         rc = groups_test(g, m, &f->anova_f);
+        if (rc == 0) rc = level_check(g, m, &f->anova_check);
         free(g);
-        f->p = f->anova_f.present ? f->anova_f.p : NAN;
+        set_primary(f, &f->anova_f);
     }
     /* Levels x target table: chi-squared (classification) and MI. */
     for (size_t i = 0; i < ne && rc == 0; i++) {
@@ -377,7 +464,7 @@ static int test_feature(const summary *s, size_t col, target_task task, const sc
     if (rc == 0) {
         rc = pair_table(f, t.x, t.y, t.n, t.len, 0, task == TASK_CLASSIFY ? 0 : o->bins,
                         task == TASK_CLASSIFY);
-        if (task == TASK_CLASSIFY) f->p = f->chi2.present ? f->chi2.p : NAN;
+        if (task == TASK_CLASSIFY) set_primary(f, &f->chi2);
     }
     triples_free(&t);
     return rc;
@@ -398,21 +485,28 @@ static double primary_stat(const screen_feature *f)
 static int relevance_cmp(const screen_feature *a, const screen_feature *b, screen_rank by)
 {
     if (by == RANK_MI) {
-        double ma = a->mi.present ? a->mi.normalized : -1, mb = b->mi.present ? b->mi.normalized : -1;
+        double ma = a->mi.present && !isnan(a->mi.adjusted) ? a->mi.adjusted : -2,
+               mb = b->mi.present && !isnan(b->mi.adjusted) ? b->mi.adjusted : -2;
         if (ma != mb) return ma > mb ? -1 : 1;
     }
     if (by == RANK_STAT) {
         double sa = primary_stat(a), sb = primary_stat(b);
         if (sa != sb) return sa > sb ? -1 : 1;
     }
-    double qa = isnan(a->q) ? 2 : a->q, qb = isnan(b->q) ? 2 : b->q;
-    if (qa != qb) return qa < qb ? -1 : 1;
-    double pa = isnan(a->p) ? 2 : a->p, pb = isnan(b->p) ? 2 : b->p;
+    /* log10 q and log10 p (at most 0; NaN = untested, last) keep their order
+     * below the double range, where q and p are both 0. */
+    double lqa = isnan(a->log10_q) ? 1 : a->log10_q, lqb = isnan(b->log10_q) ? 1 : b->log10_q;
+    if (lqa != lqb) return lqa < lqb ? -1 : 1;
+    double lpa = isnan(a->log10_p) ? 1 : a->log10_p, lpb = isnan(b->log10_p) ? 1 : b->log10_p;
+    if (lpa != lpb) return lpa < lpb ? -1 : 1;
+    double pa = isnan(a->p) ? 2 : a->p, pb = isnan(b->p) ? 2 : b->p; /* the key without a target */
     if (pa != pb) return pa < pb ? -1 : 1;
-    /* Equal p (typically both below DBL_MIN): statistics of different tests
-     * are not comparable, normalized mutual information is. */
-    if (a->mi.present && b->mi.present && a->mi.normalized != b->mi.normalized)
-        return a->mi.normalized > b->mi.normalized ? -1 : 1;
+    /* Equal p (both 0 exactly, or equal by rounding): statistics of
+     * different tests are not comparable, mutual information adjusted for
+     * chance is. */
+    if (a->mi.present && b->mi.present && a->mi.adjusted != b->mi.adjusted &&
+        !isnan(a->mi.adjusted) && !isnan(b->mi.adjusted))
+        return a->mi.adjusted > b->mi.adjusted ? -1 : 1;
     double sa = primary_stat(a), sb = primary_stat(b);
     if (sa != sb) return sa > sb ? -1 : 1;
     return (a->col > b->col) - (a->col < b->col);
@@ -435,10 +529,21 @@ screen_result *screen_run(const summary *s, const screen_options *o)
 {
     screen_result *res = calloc(1, sizeof *res);
     if (!res) return NULL;
-    target_task task = summary_target_task(s, o->numeric_share);
-    res->task = task;
-    size_t ncols = summary_columns(s);
     int target = summary_target_column(s), classes = summary_classes_kept(s);
+    int from_comoments = o->target_col >= 0 && o->target_col != target;
+    if (from_comoments && screen_target_problem(s, (size_t)o->target_col, o->numeric_share)) {
+        free(res);
+        return NULL;
+    }
+    target_task task = from_comoments ? TASK_REGRESS : summary_target_task(s, o->numeric_share);
+    if (from_comoments) {
+        target = (int)o->target_col;
+        classes = 0;
+    }
+    res->task = task;
+    res->target = target;
+    res->from_comoments = from_comoments;
+    size_t ncols = summary_columns(s);
     res->features = calloc(ncols ? ncols : 1, sizeof *res->features);
     size_t *order = calloc(ncols ? ncols : 1, sizeof *order);
     int64_t *rank = calloc(summary_class_count(s) + 1, sizeof *rank);
@@ -454,25 +559,41 @@ screen_result *screen_run(const summary *s, const screen_options *o)
         f->col = i;
         f->kind = summary_kind(s, i, o->numeric_share);
         f->flags = column_flags(s, i, f->kind, o);
-        f->p = f->q = NAN;
+        f->p = f->q = f->log10_p = f->log10_q = NAN;
         f->anova_f.df2 = f->chi2.df2 = NAN;
         for (int b = 0; b < SCREEN_NFLAGS; b++)
             if (f->flags & (1u << b)) add_reason(f, "%s", screen_flag_names[b]);
-        if (!f->flags && task != TASK_AUTO && test_feature(s, i, task, o, &ta, f) != 0) goto oom;
+        f->mi.expected_nats = f->mi.adjusted = NAN;
+        if (!f->flags && from_comoments) {
+            test_from_comoments(s, i, (size_t)target, f);
+            judge_mirror(s, f, task);
+        } else if (!f->flags && task != TASK_AUTO) {
+            if (test_feature(s, i, task, o, &ta, f) != 0) goto oom;
+            judge_primary(f, task);
+            judge_mirror(s, f, task);
+        }
     }
     res->nfeatures = nf;
-    /* q-values over the tested features. */
-    for (size_t i = 0; i < nf; i++) p[i] = res->features[i].p;
-    stat_benjamini_hochberg(p, nf, p);
-    for (size_t i = 0; i < nf; i++) res->features[i].q = p[i];
+    /* q-values over the tested features whose test holds, from log10 p. */
+    for (size_t i = 0; i < nf; i++)
+        p[i] = res->features[i].unreliable ? NAN : res->features[i].log10_p;
+    if (logp_benjamini_hochberg(p, nf, p) != 0) goto oom;
+    for (size_t i = 0; i < nf; i++) {
+        screen_feature *f = &res->features[i];
+        f->log10_q = p[i];
+        f->q = pow(10, p[i]); /* NaN stays NaN */
+        if (f->q < DBL_MIN) f->q = 0;
+    }
     /* Relevance. */
     for (size_t i = 0; i < nf; i++) {
         screen_feature *f = &res->features[i];
-        f->keep = !f->flags;
+        f->keep = !(o->keep_mirrors ? f->flags & ~(unsigned)SCREEN_MIRRORS_TARGET : f->flags);
         if (!f->keep || task == TASK_AUTO) continue;
-        if (isnan(f->q)) {
+        if (f->unreliable) {
+            f->keep = 0; /* the reason was given with the test */
+        } else if (isnan(f->q)) {
             f->keep = 0;
-            add_reason(f, "no test applies");
+            if (!f->reasons[0]) add_reason(f, "no test applies");
         } else if (f->q >= o->q_level) {
             f->keep = 0;
             add_reason(f, "not relevant (q = %.3g)", f->q);
@@ -530,8 +651,11 @@ screen_result *screen_run(const summary *s, const screen_options *o)
         }
         f->rank = ++rnk;
         if (task == TASK_AUTO) add_reason(f, "no flag, not redundant");
-        else if (f->q == 0) add_reason(f, "relevant (q < 1e-300)");
-        else add_reason(f, "relevant (q = %.3g)", f->q);
+        else {
+            char q[40];
+            logp_format(q, sizeof q, f->log10_q, 3);
+            add_reason(f, "relevant (q = %s)", q);
+        }
     }
     res->kept = rnk;
     free(order);

@@ -1,8 +1,9 @@
 /* screen: which columns to keep and why, from a summary alone.
  *
- * Every column gets flags (constant, near-constant, ID-like, mostly missing,
- * high-cardinality); flagged columns are dropped with the flag as reason and
- * not tested.  With a target, every other column is tested for relevance:
+ * Every column gets flags (no_information: one value; little_information:
+ * nearly one value; names_rows: ID-like; too_sparse: mostly missing;
+ * too_many_levels: past the exact value table); flagged columns are dropped
+ * with the flag as reason and not tested.  With a target, every other column is tested for relevance:
  *   classification, numeric feature    one-way ANOVA F and Welch's F (per-class moments)
  *   classification, categorical        chi-squared of levels x classes (per-value table)
  *   regression, numeric feature        F test of Pearson r with the target (co-moments)
@@ -10,9 +11,19 @@
  * and mutual information from its contingency table (numeric features and
  * regression targets coarsened into about equal-frequency bins from the
  * fine buckets), which also gives a chi-squared test for numeric features.
- * Benjamini-Hochberg q-values across the tested features decide relevance.
+ * Benjamini-Hochberg q-values across the tested features decide relevance;
+ * they are formed from log10 p (src/stats/logp.h), so that p-values below
+ * the double range (1e-308) keep their size and their order.
+ * A test that fails its validity rule (Cochran's rule for chi-squared, the
+ * level-size rule for the ANOVA across levels; stats/validity.h) takes no
+ * part in the q-values and never keeps a column.  Mutual information is
+ * also given adjusted for chance (AMI, Vinh et al. 2010), which ranks by
+ * --rank-by mi.  A column that mirrors the target (classes apart, |r| or
+ * AMI near 1) is flagged mirrors_target after its tests, as a possible leak
+ * of the outcome, and left out of the selection unless keep_mirrors.
  * Kept numeric features with |r| >= a threshold are pruned greedily, the
- * more relevant member of each pair staying.  Kept columns are ranked.
+ * more relevant member of each pair staying.  Kept columns are ranked by
+ * log10 q, then log10 p, then the tie-breaks of docs/methods.md.
  */
 #ifndef SHEAF_SCREEN_H
 #define SHEAF_SCREEN_H
@@ -20,6 +31,7 @@
 #include <stddef.h>
 
 #include "stats/stat.h"
+#include "stats/validity.h"
 #include "summary/summary.h"
 
 enum {
@@ -27,9 +39,12 @@ enum {
     SCREEN_NEAR_CONSTANT = 2,
     SCREEN_ID_LIKE = 4,
     SCREEN_MOSTLY_MISSING = 8,
-    SCREEN_HIGH_CARDINALITY = 16
+    SCREEN_HIGH_CARDINALITY = 16,
+    SCREEN_MIRRORS_TARGET = 32   /* set after the tests: a possible leak of the outcome */
 };
-#define SCREEN_NFLAGS 5
+#define SCREEN_NFLAGS 6
+/* The flags' names, bit b at index b: no_information, little_information,
+ * names_rows, too_sparse, too_many_levels, mirrors_target. */
 extern const char *const screen_flag_names[SCREEN_NFLAGS];
 
 typedef enum { RANK_Q = 0, RANK_MI, RANK_STAT } screen_rank;
@@ -45,6 +60,10 @@ typedef struct {
     unsigned bins;           /* equal-frequency bins for MI (10) */
     size_t top;              /* keep at most this many (0: no limit) */
     screen_rank rank_by;     /* ranking key */
+    int keep_mirrors;        /* keep columns flagged mirrors_target in the selection */
+    long target_col;         /* -1: the summary's own target; else a numeric column of the
+                                co-moment matrix taken as a continuous target (see
+                                screen_target_problem): only the F test of r applies */
 } screen_options;
 
 typedef struct {
@@ -52,6 +71,7 @@ typedef struct {
     double stat, df1, df2;   /* df2 NaN when the test has one df */
     double p;                /* p-value (0 with p_below set when it underflows) */
     int p_below;             /* p below the smallest positive double */
+    double log10_p;          /* log10 p, finite where p underflows (-inf: p = 0 exactly) */
     double extra;            /* r (corr_f) or Cramer's V (chi2) */
 } screen_test;
 
@@ -59,6 +79,9 @@ typedef struct {
     int present;
     double nats, nats_corrected, normalized;
     unsigned bins_feature, bins_target; /* non-empty bins used */
+    double expected_nats;    /* E[I] under the hypergeometric model (validity.h) */
+    double adjusted;         /* AMI_max = (I - E) / (max(H) - E); NaN when undefined */
+    size_t approximated_cells; /* cells of E[I] taken from the expansion, not summed */
 } screen_mi;
 
 typedef struct {
@@ -67,8 +90,13 @@ typedef struct {
     unsigned flags;
     screen_test anova_f, welch_f, corr_f, chi2;
     screen_mi mi;
+    validity_check chi2_check;  /* Cochran's rule on the chi-squared table (chi2 present) */
+    validity_check anova_check; /* level sizes of the ANOVA across levels (regression, text) */
+    int unreliable;          /* the test behind q fails its rule: no q, never kept on it */
     double p;                /* the p-value behind q (primary test), NaN if untested */
-    double q;                /* Benjamini-Hochberg q-value, NaN if untested */
+    double q;                /* Benjamini-Hochberg q-value, NaN if untested, 0 below DBL_MIN */
+    double log10_p;          /* log10 of p, finite where p underflows; NaN if untested */
+    double log10_q;          /* log10 of q from log10_p (logp_benjamini_hochberg) */
     int keep;                /* decision */
     char reasons[256];       /* "; "-separated */
     size_t rank;             /* 1.. among kept, 0 when dropped */
@@ -81,6 +109,8 @@ typedef struct {
 
 typedef struct {
     target_task task;        /* TASK_AUTO when there is no target */
+    long target;             /* the target column, -1 without one */
+    int from_comoments;      /* the target is not the scan's: tests from the co-moments only */
     size_t nfeatures;        /* every column but the target */
     screen_feature *features;
     size_t npairs;
@@ -89,7 +119,11 @@ typedef struct {
 } screen_result;
 
 void screen_options_defaults(screen_options *o);
-/* NULL on OOM. */
+/* NULL when column col can be screen_options.target_col of s; otherwise why
+ * not (a phrase for a message).  The summary's own target always can; another
+ * column must be numeric and in the co-moment matrix. */
+const char *screen_target_problem(const summary *s, size_t col, double numeric_share);
+/* NULL on OOM, or when o->target_col is refused by screen_target_problem. */
 screen_result *screen_run(const summary *s, const screen_options *o);
 void screen_free(screen_result *r);
 

@@ -8,9 +8,13 @@
  * Conventions.  A test that is undefined for its input (fewer than two
  * groups, no within-group df, a table with one non-empty row ...) returns -1
  * and fills its result with NaN; a failed allocation returns -2 and leaves
- * the result untouched.  A p-value too small for a double (below DBL_MIN,
- * about 2.2e-308) is stored as 0 with p_below = 1, so callers can print
- * "< 2.2e-308" instead of a false 0.
+ * the result untouched.  Every p-value also comes as log10_p, which stays
+ * finite far below the double range (down to p = 1e-100000 and beyond); a
+ * p-value too small for a double (below DBL_MIN, about 2.2e-308) is stored
+ * as p = 0 with p_below = 1, and only log10_p tells how small it is.
+ * log10_p is log10(p) while p >= 1e-250 and the log-space tails of logp.h
+ * below (the two agree to 1e-9 relative or better at the switch, measured
+ * against mpmath in tests/test_logp.c).
  *
  * Methods and references: one-way ANOVA (Fisher 1925); Welch, B. L. (1951),
  * "On the comparison of several mean values: an alternative approach",
@@ -27,9 +31,13 @@
  *  - F: gsl_cdf_fdist_Q forms 1 - P when the denominator df exceeds 2e5 and
  *    returns 0 for p-values such as 1e-17 or 1e-64 (F = 100 on (3, 1e6) df),
  *    which a table of a million rows meets at once.  stat_f_test takes the
- *    incomplete beta ratio on the side that needs no subtraction, and for
- *    df2 > 3e7 (df1 < 20) the Abramowitz & Stegun 26.5.17 gamma limit of the
- *    upper tail; relative error below 1e-9 for df2 <= 1e7, 4e-8 at 1e9.
+ *    incomplete beta ratio on the side that needs no subtraction; for
+ *    df2 > 3e7 and df2 > 6e5 df1 the Abramowitz & Stegun 26.5.17 gamma limit
+ *    of the upper tail (the switch is where the two errors cross, measured
+ *    against mpmath; stat.c has the figures); and when both df are 1e5 or
+ *    more the log-space tail of logp.h, since GSL's beta ratio errs there by
+ *    up to 5e-6 relative at (1e9, 1e9).  Relative error of p: below 5e-9
+ *    for df2 <= 3e8 and 2e-8 at df2 = 1e9.
  *  - chi-squared with df > 5e4: GSL's incomplete gamma loses digits (4e-3
  *    relative at df = 1.1e6) or stops with an error; stat_chi2_test uses
  *    Temme's uniform asymptotic expansion there (N. M. Temme 1979, SIAM J.
@@ -61,6 +69,8 @@ typedef struct {
     double df2;    /* denominator df, NaN for a chi-squared */
     double p;      /* upper-tail p-value (0 with p_below set when it underflows) */
     int p_below;   /* p underflowed: the true p is below DBL_MIN */
+    double log10_p; /* log10 of the p-value, finite where p underflows; -inf when
+                       p is 0 (infinite statistic), NaN when undefined */
     double extra;  /* r for the correlation F, Cramer's V for chi-squared, R^2 for ANOVA */
 } stat_result;
 
@@ -76,9 +86,10 @@ typedef struct {
 } stat_mutual_info;
 
 /* Upper-tail p-value of an F statistic on (df1, df2) df, with the underflow
- * flag: out->stat = f, out->extra = NaN.  f = 0 gives p = 1, f = +inf gives
- * p = 0 with p_below; -1 (out NaN) when f is NaN or negative or a df is not
- * a positive number.  df need not be integers (Welch). */
+ * flag and log10_p: out->stat = f, out->extra = NaN.  f = 0 gives p = 1,
+ * f = +inf gives p = 0 with p_below and log10_p = -inf; -1 (out NaN) when f
+ * is NaN or negative or a df is not a positive number.  df need not be
+ * integers (Welch). */
 int stat_f_test(double f, double df1, double df2, stat_result *out);
 
 /* Upper-tail p-value of a chi-squared statistic on df degrees of freedom
@@ -133,6 +144,10 @@ int stat_mutual_information(const double *table, size_t rows, size_t cols, stat_
  * (not counted in m) and give NaN.  q may alias p.  When memory runs out
  * every q is NaN. */
 void stat_benjamini_hochberg(const double *p, size_t n, double *q);
+/* The positions of x's non-NaN values in ascending order (ties by
+ * position), *m of them, in an array the caller frees; NULL on OOM.  The
+ * ranking behind both Benjamini-Hochberg steps (here and logp.h). */
+size_t *stat_order_finite(const double *x, size_t n, size_t *m);
 
 /* A GSL error handler (gsl_error_handler_t) for the host to install with
  * gsl_set_error_handler: it records a GSL failure in a thread-local flag,

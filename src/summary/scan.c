@@ -10,6 +10,7 @@
 #include "summary/scan.h"
 
 #include <errno.h>
+#include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -102,6 +103,16 @@ static uint64_t resident_bytes(void)
     return n == 2 && page > 0 ? (uint64_t)resident * (uint64_t)page : 0;
 }
 
+/* A byte count for a message, in the unit that shows its size: "512 bytes",
+ * "3.5 KiB", "20 MiB" (no decimals when whole).  Returns buf. */
+static const char *show_bytes(double bytes, char *buf, size_t len)
+{
+    double unit = bytes < 1024 ? 1 : bytes < 1048576 ? 1024 : 1048576, x = bytes / unit;
+    const char *name = unit == 1 ? (x == 1 ? "byte" : "bytes") : unit == 1024 ? "KiB" : "MiB";
+    snprintf(buf, len, x == floor(x) ? "%.0f %s" : "%.1f %s", x, name);
+    return buf;
+}
+
 /* --mem, during the scan: what the scan added to the process's resident
  * memory since it was created, checked after every chunk the reading thread
  * hands on.  The structures that grow with the data (value tables, bucket
@@ -113,18 +124,20 @@ static scan_status within_limit(scan_context *sc, int before_rows)
     if (!sc->o.mem_limit_bytes) return SCAN_OK;
     uint64_t now = resident_bytes();
     if (!now || now <= sc->rss_base || now - sc->rss_base <= sc->o.mem_limit_bytes) return SCAN_OK;
+    char held[32], limit[32];
+    show_bytes((double)(now - sc->rss_base), held, sizeof held);
+    show_bytes((double)sc->o.mem_limit_bytes, limit, sizeof limit);
     if (before_rows)
         snprintf(sc->err, sizeof sc->err,
-                 "the accumulators of %zu columns (with %u target classes at most) take %.0f MiB "
-                 "before any row, above the %.0f MiB memory limit (--mem)",
+                 "the accumulators of %zu columns (with %u target classes at most) take %s "
+                 "before any row, above the %s memory limit (--mem)",
                  sc->run ? sc->run->ncols : (size_t)0, sc->o.opt.target ? sc->o.opt.max_classes : 0,
-                 (now - sc->rss_base) / 1048576.0, sc->o.mem_limit_bytes / 1048576.0);
+                 held, limit);
     else
         snprintf(sc->err, sizeof sc->err,
-                 "%s: byte %llu: the scan holds %.0f MiB (its accumulators, chunk buffers and "
-                 "co-moments), above the %.0f MiB memory limit (--mem)",
-                 sc->name ? sc->name : "input", (unsigned long long)sc->pushed_bytes,
-                 (now - sc->rss_base) / 1048576.0, sc->o.mem_limit_bytes / 1048576.0);
+                 "%s: byte %llu: the scan holds %s (its accumulators, chunk buffers and "
+                 "co-moments), above the %s memory limit (--mem)",
+                 sc->name ? sc->name : "input", (unsigned long long)sc->pushed_bytes, held, limit);
     return fail(sc, SCAN_ERR_MEMORY, NULL);
 }
 
@@ -162,12 +175,14 @@ static scan_status setup(scan_context *sc, char **names, size_t nnames)
     size_t ncomo = 0;
     for (size_t j = 0; j < n; j++) ncomo += modes[j] != COLUMN_CATEGORICAL;
     uint64_t need = summary_comoment_bytes(ncomo);
+    char needs[32], limit[32], chunk_s[32], total[32];
+    show_bytes((double)o->mem_limit_bytes, limit, sizeof limit);
     if (o->mem_limit_bytes && need > o->mem_limit_bytes) {
         snprintf(sc->err, sizeof sc->err,
-                 "the co-moment matrix of %zu numeric columns needs %.0f MiB, above the %.0f MiB "
+                 "the co-moment matrix of %zu numeric columns needs %s, above the %s "
                  "limit (--mem); restrict the columns with --columns, --ignore or --categorical, "
                  "or raise --mem",
-                 ncomo, need / 1048576.0, o->mem_limit_bytes / 1048576.0);
+                 ncomo, show_bytes((double)need, needs, sizeof needs), limit);
         st = SCAN_ERR_MEMORY;
         goto done;
     }
@@ -176,11 +191,12 @@ static scan_status setup(scan_context *sc, char **names, size_t nnames)
     uint64_t nbuf = (uint64_t)sc->threads + 2, chunk = o->chunk_bytes + 64;
     if (o->mem_limit_bytes && need + nbuf * chunk > o->mem_limit_bytes) {
         snprintf(sc->err, sizeof sc->err,
-                 "the co-moment matrix (%.1f MiB) and %llu chunk buffers of %.1f MiB need "
-                 "%.0f MiB before any row, above the %.0f MiB limit (--mem); lower --chunk-size "
+                 "the co-moment matrix (%s) and %llu chunk buffers of %s need "
+                 "%s before any row, above the %s limit (--mem); lower --chunk-size "
                  "or --threads, or raise --mem",
-                 need / 1048576.0, (unsigned long long)nbuf, chunk / 1048576.0,
-                 (need + nbuf * chunk) / 1048576.0, o->mem_limit_bytes / 1048576.0);
+                 show_bytes((double)need, needs, sizeof needs), (unsigned long long)nbuf,
+                 show_bytes((double)chunk, chunk_s, sizeof chunk_s),
+                 show_bytes((double)(need + nbuf * chunk), total, sizeof total), limit);
         st = SCAN_ERR_MEMORY;
         goto done;
     }

@@ -86,6 +86,14 @@ for j in 1 2; do
     check "mem_20M_stops_the_scan_j$j" "exit $RC: $(err_text)" \
         bash -c "[ $RC = 6 ] && grep -q 'above the 20 MiB memory limit' '$T/err' && [ ! -e '$T/l.sheaf' ]"
 done
+# A limit below one MiB is shown in the unit that shows it: before, `--mem 1`
+# said "needs 0 MiB, above the 0 MiB limit".
+run $SHEAF scan -q -j1 "$T/w.csv" --mem 1 -o "$T/l.sheaf"
+check mem_tiny_limit_names_its_size "exit $RC: $(err_text)" \
+    bash -c "[ $RC = 6 ] && grep -q 'above the 1 byte limit' '$T/err' && ! grep -q ' 0 MiB' '$T/err'"
+run $SHEAF scan -q -j1 "$T/w.csv" --mem 100K -o "$T/l.sheaf"
+check mem_100K_limit_in_KiB "exit $RC: $(err_text)" \
+    bash -c "[ $RC = 6 ] && grep -q 'above the 100 KiB limit' '$T/err'"
 run $SHEAF scan -q -j2 "$T/w.csv" --target label --mem 1G -o "$T/l.sheaf"
 check mem_1G_scans "exit $RC: $(err_text)" test "$RC" = 0
 check mem_1G_same_summary "differs from the scan without --mem" cmp -s "$T/l.sheaf" "$T/t.sheaf"

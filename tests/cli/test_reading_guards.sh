@@ -119,16 +119,16 @@ check repeat_header.trim "trim writes $(grep -c '^id,x' "$T/trim.out") header li
 "$SHEAF" scan "$T/big.csv" -q -o "$T/big.sheaf" 2>/dev/null
 "$SHEAF" screen "$T/big.sheaf" --format json >"$T/big.json" 2>/dev/null
 # 50 distinct texts (seq 10 59): the exact table has 50 values.
-if grep -q '"constant"' "$T/big.json"; then
-    fail constant.distinct_long_integers "flagged constant: $(grep -o '"flags": \[[^]]*\]' "$T/big.json" | head -n 1)"
+if grep -q '"no_information"' "$T/big.json"; then
+    fail constant.distinct_long_integers "flagged no_information: $(grep -o '"flags": \[[^]]*\]' "$T/big.json" | head -n 1)"
 else
     pass constant.distinct_long_integers
 fi
 printf 'c,y\n7,1\n7,2\n7,3\n' >"$T/const.csv"
 "$SHEAF" scan "$T/const.csv" -q -o "$T/const.sheaf" 2>/dev/null
 "$SHEAF" screen "$T/const.sheaf" --format json >"$T/const.json" 2>/dev/null
-check constant.one_value_still_constant "a column of one value is not flagged constant" \
-    grep -q '"constant"' "$T/const.json"
+check constant.one_value_still_constant "a column of one value is not flagged no_information" \
+    grep -q '"no_information"' "$T/const.json"
 
 # ---- 3. long --missing spellings ------------------------------------------
 for n in 63 64 65 1024; do

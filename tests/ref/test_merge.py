@@ -157,7 +157,7 @@ def compare(name, got, want, gc, wc):
     for x, y in zip(got["columns"], want["columns"]):
         nm = x["name"]
         keys = ["kind", "n", "missing", "non_numeric", "non_finite", "zeros", "integers",
-                "min", "max", "distinct", "distinct_exact", "high_cardinality",
+                "min", "max", "distinct", "distinct_exact", "value_table_full",
                 "quantile_relative_error"]
         for k in keys:
             if x.get(k) != y.get(k):

@@ -89,7 +89,9 @@ def expected_columns(raw, num, target=None):
     """The automatic choice by its definition: numeric (numbers >= 99% of
     present cells), at least two numbers, variance > 0 and more than one
     distinct text, not ID-like (all numbers integers and distinct texts >=
-    95% of present cells), not the target."""
+    95% of present cells, with at least 20 present cells or, below that, the
+    numbers a run of consecutive integers: the rule screen uses too), not the
+    target."""
     keep = []
     for c in raw.columns:
         if c == target:
@@ -101,7 +103,8 @@ def expected_columns(raw, num, target=None):
             continue
         if len(x) < 2 or not np.var(x) > 0 or len(set(present)) <= 1:
             continue
-        if np.all(x == np.round(x)) and len(set(present)) >= 0.95 * len(present):
+        if np.all(x == np.round(x)) and len(set(present)) >= 0.95 * len(present) and (
+                len(present) >= 20 or x.max() - x.min() + 1 == len(set(x))):
             continue
         keep.append(c)
     return keep
