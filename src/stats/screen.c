@@ -410,7 +410,7 @@ static int test_feature(const summary *s, size_t col, target_task task, const sc
             level_moments *g = malloc((k ? k : 1) * sizeof *g);
             if (!g) return -1;
             for (size_t i = 0; i < k; i++) {
-                /* In the column's frame: the tests are shift-free, and the frame keeps digits. */
+                /* Less the column's mean, a frame common to every class: the tests are shift-free, and the frame keeps the digits in which classes differ. */
                 summary_class_stats cs;
                 summary_class_moments(s, col, (uint32_t)i, &cs);
                 g[i] = (level_moments){i, (double)cs.n, cs.frame_mean, cs.m2};
