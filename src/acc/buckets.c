@@ -652,6 +652,45 @@ int buckets_merge(buckets *into, const buckets *from, const uint32_t *cell_map, 
     return rc;
 }
 
+int buckets_map_cells(buckets *b, const uint32_t *cell_map, uint32_t map_len)
+{
+    for (size_t i = 0; i < b->cap; i++)
+        if (b->slots[i].count && id_cell(b->slots[i].id) >= map_len) return -1;
+    /* The same keys and level: only the entry table is rebuilt, each entry
+     * under its new id (entries that meet add up, so each key's entry count
+     * is recounted); the sort index is left to the next seal. */
+    slot *slots = calloc(b->cap, sizeof *slots);
+    if (!slots) return -1;
+    size_t n = 0;
+    for (size_t i = 0; i < b->cap; i++) {
+        const slot *o = &b->slots[i];
+        if (!o->count) continue;
+        uint64_t id = make_id(id_key(o->id), cell_map[id_cell(o->id)]);
+        size_t pos = slot_find(slots, b->cap, b->shift, id);
+        if (!slots[pos].count) {
+            slots[pos].id = id;
+            n++;
+        }
+        slots[pos].count += o->count;
+    }
+    if (n != b->n) { /* cells met: recount the entries of each key */
+        memset(b->keys, 0, b->key_cap * sizeof *b->keys);
+        for (size_t i = 0; i < b->cap; i++) {
+            if (!slots[i].count) continue;
+            int64_t key = id_key(slots[i].id);
+            size_t kp = key_find(b->keys, b->key_cap, b->key_shift, key);
+            b->keys[kp].key = (int32_t)key;
+            b->keys[kp].entries++;
+        }
+    }
+    free(b->slots);
+    b->slots = slots;
+    b->n = n;
+    b->order_valid = 0;
+    b->last_id = NO_ID;
+    return 0;
+}
+
 int buckets_level(const buckets *b) { return b->level; }
 uint32_t buckets_budget(const buckets *b) { return b->budget; }
 uint64_t buckets_total(const buckets *b) { return b->total; }

@@ -109,6 +109,11 @@ int buckets_add_many(buckets *b, const double *x, const uint32_t *cells, size_t 
  * or when from holds a cell >= map_len with a non-NULL map; into is
  * unchanged on -1.  into == from is allowed (doubles every count). */
 int buckets_merge(buckets *into, const buckets *from, const uint32_t *cell_map, uint32_t map_len);
+/* Renumbers the cells in place: cell c becomes cell_map[c] (cells that meet
+ * add up); keys, level and totals stay.  Returns 0, or -1 on OOM or when the
+ * store holds a cell >= map_len; the store is unchanged on -1.  Leaves the
+ * store unsealed. */
+int buckets_map_cells(buckets *b, const uint32_t *cell_map, uint32_t map_len);
 int buckets_level(const buckets *b);
 uint32_t buckets_budget(const buckets *b);
 uint64_t buckets_total(const buckets *b);

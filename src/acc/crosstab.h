@@ -87,12 +87,13 @@ int crosstab_add_value(crosstab *t, uint64_t key, double y);
  * moments (sum over cells) and the value-by-target counts). */
 int crosstab_add_values_in(crosstab *t, uint64_t key, uint32_t cell, double y, uint64_t n);
 /* into := into (+) from.  Both tables must have the same mode (or one be
- * empty); into's max_keys rules.  Counts mode: cell c of from becomes
- * cell_map[c] (NULL: same); -1 if from holds a cell >= map_len.  Values mode:
- * cell_map is ignored and shift is added to from's means (the difference of
- * the two target frames, 0 if the same); -1 if shift is not finite.  Keys of
- * from that find no room go to the overflow key; the result does not depend
- * on either table's hash layout.  from may be into. */
+ * empty); into's max_keys rules.  Cell c of from becomes cell_map[c] (NULL:
+ * same; cells that meet combine); -1 if from holds a cell >= map_len.  Values
+ * mode: shift is added to from's means (the difference of the two target
+ * frames, 0 if the same); -1 if shift is not finite.  Keys of from that find
+ * no room go to the overflow key; counts do not depend on either table's
+ * hash layout (values combine in from's slot order, which its history
+ * decides).  from may be into. */
 int crosstab_merge(crosstab *into, const crosstab *from, const uint32_t *cell_map,
                    uint32_t map_len, double shift);
 /* A new table in values mode holding what t (counts mode) says when every

@@ -142,12 +142,11 @@ int crosstab_merge(crosstab *into, const crosstab *from, const uint32_t *cell_ma
     if (into->records && into->mode != from->mode) return -1;
     int values = from->mode == CROSSTAB_VALUES;
     if (values) {
-        cell_map = NULL;
         if (!isfinite(shift)) return -1;
     } else {
         shift = 0.0;
-        if (cell_map && from->cells > map_len) return -1;
     }
+    if (cell_map && from->cells > map_len) return -1;
     if (into == from) {
         /* New records (a cell map) would move the slots being visited. */
         crosstab *copy = clone(from);

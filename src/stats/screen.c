@@ -316,6 +316,26 @@ static int groups_test(const level_moments *g, size_t m, screen_test *t)
     return rc;
 }
 
+/* The F test of Pearson r with the target: from the exact residual sum of
+ * squares when the pair sums are exact (summary_target_fit; issue 13: NIST
+ * StRD Norris to 13 digits), else from the co-moments' r.  (Not inlined:
+ * inlined into test_feature, it made GCC 12 see an uninitialized g there.) */
+static __attribute__((noinline)) void correlation_test(const summary *s, size_t col,
+                                                      screen_test *t)
+{
+    stat_result r;
+    double xr, xf, xn;
+    if (summary_target_fit(s, col, &xr, &xf, &xn) == 0 && stat_f_test(xf, 1, xn - 2, &r) == 0) {
+        r.extra = xr;
+        set_test(t, &r);
+        return;
+    }
+    size_t y = (size_t)summary_target_column(s);
+    double rr = summary_correlation(s, col, y);
+    double nn = (double)summary_pair_count(s, col, y);
+    if (isfinite(rr) && stat_correlation_f(rr, nn, &r) == 0) set_test(t, &r);
+}
+
 /* The level-size rule (validity.h) on the rows of each level. */
 static int level_check(const level_moments *g, size_t m, validity_check *out)
 {
@@ -390,7 +410,7 @@ static int test_feature(const summary *s, size_t col, target_task task, const sc
             level_moments *g = malloc((k ? k : 1) * sizeof *g);
             if (!g) return -1;
             for (size_t i = 0; i < k; i++) {
-                /* In the column's frame: the tests are shift-free, and the frame keeps digits. */
+                /* Less the column's mean, a frame common to every class: the tests are shift-free, and the frame keeps the digits in which classes differ. */
                 summary_class_stats cs;
                 summary_class_moments(s, col, (uint32_t)i, &cs);
                 g[i] = (level_moments){i, (double)cs.n, cs.frame_mean, cs.m2};
@@ -407,10 +427,7 @@ static int test_feature(const summary *s, size_t col, target_task task, const sc
             free(n); free(mean); free(m2); free(g);
             set_primary(f, &f->anova_f);
         } else if (task == TASK_REGRESS) {
-            size_t y = (size_t)summary_target_column(s);
-            double rr = summary_correlation(s, col, y);
-            double nn = (double)summary_pair_count(s, col, y);
-            if (isfinite(rr) && stat_correlation_f(rr, nn, &r) == 0) set_test(&f->corr_f, &r);
+            correlation_test(s, col, &f->corr_f);
             set_primary(f, &f->corr_f);
         }
         /* MI (and chi-squared) from the bucket store: feature buckets x target cells. */

@@ -277,9 +277,15 @@ int summary_class_moments(const summary *s, size_t col, uint32_t k, summary_clas
     const class_moments *cm = &c->cls[k];
     const number_decimal *ref = c->mom.has_ref ? &c->mom.ref : NULL;
     out->n = cm->n;
-    out->frame_mean = cm->mean;
     out->m2 = cm->m2;
-    out->mean = cm->n ? (ref ? ref->value : 0) + cm->mean : NAN;
+    if (cm->n) {
+        /* (sum - n M) / n with n M an exact two-double product: the class
+         * mean less the column's mean of deviations M, to about 2^-53 of
+         * itself however close the classes lie. */
+        double n = (double)cm->n, M = c->mom.mean, p = n * M, pe = fma(n, M, -p);
+        out->frame_mean = ((cm->sum - p) + (cm->sum_low - pe)) / n;
+        out->mean = (ref ? ref->value : 0) + class_moments_mean(cm);
+    }
     out->variance = cm->n > 1 ? cm->m2 / (double)(cm->n - 1) : NAN;
     return 0;
 }
@@ -324,6 +330,14 @@ double summary_pair_variance(const summary *s, size_t a, size_t b)
 {
     size_t i, j;
     return pair(s, a, b, &i, &j) ? comoment_variance(s->como, i, j) : NAN;
+}
+
+int summary_target_fit(const summary *s, size_t col, double *r, double *f, double *n)
+{
+    const pairsum *p = column(s, col)->pairs;
+    *r = *f = *n = NAN;
+    if (!p || s->target < 0 || (size_t)s->target == col) return -1;
+    return pairsum_fit(p, r, f, n);
 }
 
 /* ---- accumulators ---------------------------------------------------------- */

@@ -129,12 +129,15 @@ uint64_t summary_class_rows(const summary *s, uint32_t k);     /* rows of class 
 double summary_class_value(const summary *s, uint32_t k);
 int summary_class_numeric(const summary *s, uint32_t k);
 
-/* Count, mean and variance of one column within one class (Welford). */
+/* Count, mean and variance of one column within one class. */
 typedef struct {
     uint64_t n;        /* rows of the class with a number in the column */
     double mean;       /* their mean in the column's units; NaN when n = 0 */
     double variance;   /* sample variance (n - 1); NaN when n < 2 */
-    double frame_mean; /* the mean less the column's frame (what shift-free tests use) */
+    double frame_mean; /* the mean less a reference common to every class of the column
+                          (the column's mean): what shift-free tests use, to about 2^-53
+                          of itself, so the digits in which classes differ are kept;
+                          NaN when n = 0 */
     double m2;         /* sum of squared deviations from the mean */
 } summary_class_stats;
 
@@ -161,6 +164,15 @@ double summary_correlation(const summary *s, size_t a, size_t b);
 double summary_covariance(const summary *s, size_t a, size_t b);
 /* Sample variance of a over the rows where b is present; NaN as above. */
 double summary_pair_variance(const summary *s, size_t a, size_t b);
+
+/* The regression of the target on column col from their exact pair sums
+ * (acc/pairsum.h): Pearson r, F = (n - 2) r^2 / (1 - r^2) formed from the
+ * exact residual sum of squares (+inf for a perfect fit), and the pairs n.
+ * Returns 0, or -1 (all NaN) when there are no exact sums: no target, col
+ * is the target, a cell that is not an exact decimal (or a version 1 or 2
+ * file), fewer than 3 pairs, or either column constant over them; the
+ * co-moments' r then stands in (summary_correlation). */
+int summary_target_fit(const summary *s, size_t col, double *r, double *f, double *n);
 
 /* ---- accumulators, for statistics that walk their entries ----------------- */
 

@@ -10,7 +10,9 @@
  *     (number_deviation);
  *   - block_feed: the column's accumulators with the whole block: value
  *     table and sketch, per-value table, moments, min / max / zeros /
- *     integers, buckets with the rows' target cells, per-class moments.
+ *     integers, buckets with the rows' target cells, per-class moments
+ *     (each class's sums kept in two doubles, its M2 from shifted block sums),
+ *     the exact pair sums with the target (acc/pairsum.h).
  * and, over every co-moment column at once, block_comoments: each column
  * centred by its block mean, with a presence mask, into one
  * comoment_add_block.
@@ -42,7 +44,13 @@ typedef struct {
     double *dev;         /* deviation of each number from the column's frame */
     double *val;         /* each number */
     uint16_t *num_row;   /* row in the block of each number */
+    int64_t *num_mant;   /* with `decimals`: each number's signed mantissa */
+    int32_t *num_exp;    /* and its power of ten (BLOCK_INEXACT: not an exact decimal) */
+    int decimals;        /* block_decode keeps num_mant and num_exp */
     uint32_t *cells_tmp; /* bucket cell of each number */
+    struct block_class *cls_tmp; /* per class 1..max_classes: the block's part */
+    uint32_t *cls_touched;       /* classes with numbers in the block */
+    uint32_t cls_cap;            /* entries of cls_tmp */
     number_ref ref;      /* the column's frame, unpacked for number_deviation */
     int ref_set;         /* ref holds the column's frame */
 } block_lane;
@@ -56,7 +64,16 @@ typedef struct {
     const unsigned char *row_has_y; /* the row has a regression target value */
     int classes;                    /* class accumulators are kept for this block */
     int target;                     /* the summary has a target */
+    uint32_t max_classes;           /* the summary's class limit (scratch size) */
+    const int64_t *row_ym;          /* the target's signed mantissa in each row */
+    const int32_t *row_ye;          /* its power of ten; BLOCK_NO_NUMBER when the row has no
+                                       finite target, BLOCK_INEXACT when it is not exact */
+    int any_y;                      /* some row of the block has a finite target (row_ye set) */
 } block_rows;
+
+/* row_ye and num_exp markers (acc/pairsum.h). */
+#define BLOCK_NO_NUMBER PAIRSUM_NONE
+#define BLOCK_INEXACT PAIRSUM_INEXACT
 
 /* Scratch for SUMMARY_BLOCK_ROWS cells.  0, or -1 when out of memory
  * (block_lane_free then frees what was made). */
@@ -75,7 +92,8 @@ static inline void block_lane_cell(block_lane *l, const char *p, uint32_t len, s
 
 /* Hashes and parses the lane's cells for column c (simd: the SSSE3 parser
  * may be used, number_simd_usable()).  Sets c's frame from its first finite
- * number. */
+ * number.  With l->decimals set, also keeps each number's mantissa and
+ * power of ten (for the pair sums with the target). */
 void block_decode(summary_column *c, block_lane *l, int simd);
 
 /* Feeds the decoded lane to c's accumulators and empties it.  0, or -1 when

@@ -43,6 +43,7 @@ typedef struct {
     uint32_t start, end; /* rows [start, end) of the chunk */
     int classes;         /* class accumulators are kept in this block */
     int drop;            /* the classes are dropped before it */
+    uint32_t tepoch;     /* the target cell epoch of its rows' regression cells */
 } block_span;
 
 typedef struct {
@@ -67,11 +68,15 @@ typedef struct {
     uint32_t *row_cell, *row_class;
     double *row_y;
     unsigned char *row_has_y;
+    int64_t *row_ym;        /* the target's signed mantissa (pair sums, block_rows) */
+    int32_t *row_ye;        /* its power of ten, or BLOCK_NO_NUMBER / BLOCK_INEXACT */
+    int any_y;              /* some row of the chunk has a finite target */
     block_span *blocks;
     size_t nblocks, blocks_cap;
     uint32_t *drop_map;     /* the class conversion at a drop */
     double *drop_y;
     uint32_t drop_n;
+    uint32_t drop_epoch;    /* the target cell epoch of drop_map's cells */
     /* G, for C: deviations of the co-moment columns (ncomo x rows_cap) */
     double *dev;
     unsigned char *present;
@@ -188,7 +193,7 @@ static void tokenize(chunks *w, job *j)
 /* ---- R: rows, in chunk order --------------------------------------------- */
 
 
-static int add_block(job *j, uint32_t start, uint32_t end, int classes, int drop)
+static int add_block(job *j, uint32_t start, uint32_t end, int classes, int drop, uint32_t tepoch)
 {
     if (j->nblocks == j->blocks_cap) {
         size_t cap = j->blocks_cap ? 2 * j->blocks_cap : 64;
@@ -197,7 +202,7 @@ static int add_block(job *j, uint32_t start, uint32_t end, int classes, int drop
         j->blocks = b;
         j->blocks_cap = cap;
     }
-    j->blocks[j->nblocks++] = (block_span){start, end, classes, drop};
+    j->blocks[j->nblocks++] = (block_span){start, end, classes, drop, tepoch};
     return 0;
 }
 
@@ -212,11 +217,15 @@ static int grow_row_arrays(chunks *w, job *j)
     if (y) j->row_y = y;
     unsigned char *hy = realloc(j->row_has_y, cap);
     if (hy) j->row_has_y = hy;
+    int64_t *ym = realloc(j->row_ym, cap * sizeof *ym);
+    if (ym) j->row_ym = ym;
+    int32_t *ye = realloc(j->row_ye, cap * sizeof *ye);
+    if (ye) j->row_ye = ye;
     double *dev = p ? realloc(j->dev, p * cap * sizeof *dev) : j->dev;
     if (dev) j->dev = dev;
     unsigned char *pr = p ? realloc(j->present, p * cap) : j->present;
     if (pr) j->present = pr;
-    return cell && cls && y && hy && (!p || (dev && pr)) ? 0 : -1;
+    return cell && cls && y && hy && ym && ye && (!p || (dev && pr)) ? 0 : -1;
 }
 
 /* The failures of the row task, with their messages in w->r_err. */
@@ -250,11 +259,19 @@ static scan_status target_row(chunks *w, job *j, size_t r, const char *p, uint32
     summary *s = w->run;
     j->row_cell[r] = j->row_class[r] = 0;
     j->row_has_y[r] = 0;
+    j->row_ye[r] = BLOCK_NO_NUMBER;
     if (!p) return SCAN_OK;
     summary_column *tc = &s->cols[s->target];
     number_decimal d;
     int finite = tc->mode != COLUMN_CATEGORICAL && number_parse(p, len, &d) == NUMBER_FINITE;
     if (!finite) s->target_text++;
+    if (finite) { /* for the pair sums, whatever the task */
+        int whole = d.exact && (d.mantissa >> 63) == 0;
+        int64_t m = whole ? (int64_t)d.mantissa : 0;
+        j->row_ym[r] = d.negative ? -m : m;
+        j->row_ye[r] = whole ? d.exp10 : BLOCK_INEXACT;
+        j->any_y = 1;
+    }
     if (s->has_classes) {
         uint32_t k = summary_class_of(s, XXH3_64bits(p, len), p, len, finite ? &d : NULL);
         if (k) {
@@ -269,13 +286,14 @@ static scan_status target_row(chunks *w, job *j, size_t r, const char *p, uint32
         if (!numeric)
             return too_many_classes(w, w->lines + j->line[r]);
         /* The rows before end a block; the columns convert before the next. */
-        if (r > *block_start && add_block(j, *block_start, (uint32_t)r, 1, 0) != 0)
+        if (r > *block_start && add_block(j, *block_start, (uint32_t)r, 1, 0, 0) != 0)
             return SCAN_ERR_MEMORY;
         *block_start = (uint32_t)r;
         if (summary_class_conversion(s, w->target_ref_set ? &w->target_ref : NULL, &j->drop_map,
                                      &j->drop_y) != 0)
             return SCAN_ERR_MEMORY;
         j->drop_n = s->nclasses + 1;
+        j->drop_epoch = s->tcells.epoch;
         s->has_classes = 0;
         s->classes_dropped = 1;
         for (uint32_t c = 0; c < s->nclasses; c++) free(s->class_label[c]);
@@ -287,7 +305,8 @@ static scan_status target_row(chunks *w, job *j, size_t r, const char *p, uint32
             number_frame(&d, &w->target_ref);
             w->target_ref_set = 1;
         }
-        j->row_cell[r] = summary_target_cell(d.value);
+        j->row_cell[r] = summary_target_cell(s, d.value);
+        if (!j->row_cell[r]) return SCAN_ERR_MEMORY;
         j->row_y[r] = number_difference(&d, &w->target_ref, NULL);
         j->row_has_y[r] = 1;
     }
@@ -317,6 +336,8 @@ static scan_status rows_of(chunks *w, job *j)
     const int target = s->target;
     uint32_t start = 0;
     int classes = s->has_classes, drop = 0;
+    uint32_t tepoch = s->tcells.epoch; /* of the rows since start */
+    j->any_y = 0;
     for (size_t r = 0; r < j->rows; r++) {
         s->rows++;
         w->rows++;
@@ -339,10 +360,19 @@ static scan_status rows_of(chunks *w, job *j)
             if (cl < 0) { /* dropped at this row, which opens a block without classes */
                 classes = 0;
                 drop = 1;
+                tepoch = s->tcells.epoch;
+            } else if (s->tcells.epoch != tepoch) {
+                /* The target cells were renumbered at this row: the rows
+                 * before end a block, the columns catch up before the next. */
+                if (r > start && add_block(j, start, (uint32_t)r, classes, drop, tepoch) != 0)
+                    return out_of_memory(w);
+                if (r > start) drop = 0;
+                start = (uint32_t)r;
+                tepoch = s->tcells.epoch;
             }
         }
         if (r + 1 - start == SUMMARY_BLOCK_ROWS || r + 1 == j->rows) {
-            if (add_block(j, start, (uint32_t)(r + 1), classes, drop) != 0)
+            if (add_block(j, start, (uint32_t)(r + 1), classes, drop, tepoch) != 0)
                 return out_of_memory(w);
             start = (uint32_t)(r + 1);
             drop = 0;
@@ -368,10 +398,13 @@ static int column_block(chunks *w, job *j, size_t col, const block_span *sp, blo
     if (sp->drop && c->cls &&
         column_drop_classes(c, j->drop_map, j->drop_y, j->drop_n, s->opt.bucket_budget) != 0)
         return -1;
+    if (sp->drop) c->tcell_epoch = j->drop_epoch; /* its cells were classes until now */
+    if (summary_column_catch_up(s, c, sp->tepoch) != 0) return -1;
     l->ref_set = c->mom.has_ref;
     if (l->ref_set) number_ref_set(&l->ref, &c->mom.ref);
     l->ncells = 0;
     l->nnum = 0;
+    l->decimals = j->any_y;
     for (uint32_t r = sp->start; r < sp->end; r++) {
         const cell *x = &cells[(size_t)r * ncols];
         if (x->len == CELL_ABSENT) { c->missing++; continue; }
@@ -389,7 +422,8 @@ static int column_block(chunks *w, job *j, size_t col, const block_span *sp, blo
     }
     block_rows rows = {sp->end - sp->start, j->row_cell + sp->start, j->row_class + sp->start,
                        j->row_y + sp->start, j->row_has_y + sp->start, sp->classes,
-                       s->target >= 0};
+                       s->target >= 0, s->opt.max_classes, j->row_ym + sp->start,
+                       j->row_ye + sp->start, j->any_y};
     return block_feed(c, l, &rows);
 }
 
@@ -649,6 +683,7 @@ void chunks_free(chunks *w)
         job *j = &w->jobs[i];
         free(j->buf); free(j->cells); free(j->line); free(j->nf);
         free(j->row_cell); free(j->row_class); free(j->row_y); free(j->row_has_y);
+        free(j->row_ym); free(j->row_ye);
         free(j->blocks); free(j->drop_map); free(j->drop_y); free(j->dev); free(j->present);
         free(j->repeats);
         reader_cursor_free(&j->cur);

@@ -11,6 +11,11 @@
 
 int column_alloc(summary_column *c, const summary_options *o, int with_classes)
 {
+    if (o->target && c->mode != COLUMN_CATEGORICAL) {
+        c->pairs = malloc(sizeof *c->pairs);
+        if (!c->pairs) return -1;
+        pairsum_init(c->pairs);
+    }
     moments_init(&c->mom);
     c->vals = values_create(o->max_levels, o->label_bytes);
     c->distinct = malloc(sizeof *c->distinct);
@@ -46,6 +51,24 @@ int column_drop_classes(summary_column *c, const uint32_t *map, const double *y,
     return 0;
 }
 
+int column_remap_target_cells(summary_column *c, const uint32_t *map, uint32_t len)
+{
+    crosstab *nx = NULL;
+    if (c->cross && crosstab_entries(c->cross)) {
+        nx = crosstab_create(crosstab_max_keys(c->cross));
+        if (!nx || crosstab_merge(nx, c->cross, map, len, 0.0) != 0) {
+            crosstab_free(nx);
+            return -1;
+        }
+    }
+    if (buckets_map_cells(c->bins, map, len) != 0) { crosstab_free(nx); return -1; }
+    if (nx) {
+        crosstab_free(c->cross);
+        c->cross = nx;
+    }
+    return 0;
+}
+
 void column_free(summary_column *c)
 {
     free(c->name);
@@ -54,9 +77,10 @@ void column_free(summary_column *c)
     buckets_free(c->bins);
     crosstab_free(c->cross);
     free(c->cls);
+    free(c->pairs);
 }
 
-void column_write(const summary_column *c, uint32_t nclasses, wire_writer *w)
+void column_write(const summary_column *c, uint32_t nclasses, uint32_t version, wire_writer *w)
 {
     wire_put_u64(w, c->missing);
     wire_put_u64(w, c->non_numeric);
@@ -75,13 +99,24 @@ void column_write(const summary_column *c, uint32_t nclasses, wire_writer *w)
     wire_put_u8(w, c->cls != NULL);
     if (c->cls)
         for (uint32_t k = 0; k < nclasses; k++) {
-            wire_put_u64(w, c->cls[k].n);
-            wire_put_f64(w, c->cls[k].mean);
-            wire_put_f64(w, c->cls[k].m2);
+            const class_moments *m = &c->cls[k];
+            wire_put_u64(w, m->n);
+            if (version >= 3) {
+                wire_put_f64(w, m->sum);
+                wire_put_f64(w, m->sum_low);
+            } else { /* never written: a summary with classes is version 3 */
+                wire_put_f64(w, m->n ? class_moments_mean(m) : 0);
+            }
+            wire_put_f64(w, m->m2);
         }
+    if (version >= 3) {
+        wire_put_u8(w, c->pairs != NULL);
+        if (c->pairs) pairsum_write(c->pairs, w);
+    }
 }
 
-int column_read(summary_column *c, uint32_t nclasses, wire_reader *r, const char **part)
+int column_read(summary_column *c, uint32_t nclasses, uint32_t version, wire_reader *r,
+                const char **part)
 {
     *part = "counts";
     c->missing = wire_get_u64(r);
@@ -125,14 +160,37 @@ int column_read(summary_column *c, uint32_t nclasses, wire_reader *r, const char
     }
     *part = "per-class moments";
     uint8_t has_cls = wire_get_u8(r);
-    if (r->failed || has_cls != (c->cls != NULL) || !wire_need(r, (size_t)nclasses * 24 * has_cls)) {
+    size_t record = version >= 3 ? 32 : 24;
+    if (r->failed || has_cls != (c->cls != NULL) ||
+        !wire_need(r, (size_t)nclasses * record * has_cls)) {
         r->failed = 1;
         return -1;
     }
     for (uint32_t k = 0; has_cls && k < nclasses; k++) {
-        c->cls[k].n = wire_get_u64(r);
-        c->cls[k].mean = wire_get_f64(r);
-        c->cls[k].m2 = wire_get_f64(r);
+        class_moments *m = &c->cls[k];
+        m->n = wire_get_u64(r);
+        if (version >= 3) {
+            m->sum = wire_get_f64(r);
+            m->sum_low = wire_get_f64(r);
+        } else {
+            /* A mean (version 1, 2): n mean as an exact two-double product. */
+            double mean = wire_get_f64(r), n = (double)m->n;
+            m->sum = mean * n;
+            m->sum_low = fma(mean, n, -m->sum);
+            if (!isfinite(m->sum)) m->sum_low = 0;
+        }
+        m->m2 = wire_get_f64(r);
+    }
+    if (r->failed) return -1;
+    *part = "pair sums with the target";
+    if (version >= 3) {
+        uint8_t has_pairs = wire_get_u8(r);
+        if (r->failed || has_pairs != (c->pairs != NULL)) { r->failed = 1; return -1; }
+        if (has_pairs && pairsum_read(c->pairs, r) != 0) return -1;
+    } else if (c->pairs) {
+        /* Versions 1 and 2 kept no pair sums: none, and not exact. */
+        pairsum_init(c->pairs);
+        c->pairs->exact = 0;
     }
     return r->failed ? -1 : 0;
 }
@@ -150,13 +208,15 @@ static int why(char *msg, size_t len, const char *fmt, ...)
     return -1;
 }
 
-/* 1 when cell is a regression target cell: SUMMARY_TARGET_CELL_BASE plus a
- * bucket key at SUMMARY_TARGET_LEVEL (see summary_target_cell). */
-static int regression_cell(uint32_t cell)
+/* 1 when cell is a regression target cell of s: 1..n of its cell table (in
+ * a version 1 or 2 file, 2^20 plus a key at level 50: |key| <= 8188). */
+static int regression_cell(const summary *s, uint32_t cell)
 {
-    int64_t key = (int64_t)cell - (int64_t)SUMMARY_TARGET_CELL_BASE;
-    int64_t top = buckets_key_at(buckets_key(DBL_MAX), SUMMARY_TARGET_LEVEL);
-    return key >= -top && key <= top;
+    if (s->legacy_cells) {
+        int64_t key = (int64_t)cell - (int64_t)(1u << 20);
+        return key >= -8188 && key <= 8188;
+    }
+    return cell >= 1 && cell <= s->tcells.n;
 }
 
 /* What a target cell may be in this summary: 0 (no target, or its cell is
@@ -166,19 +226,24 @@ static int cell_valid(const summary *s, uint32_t cell)
     if (cell == 0) return 1;
     if (s->target < 0) return 0;
     if (s->has_classes) return cell <= s->nclasses;
-    return regression_cell(cell);
+    return regression_cell(s, cell);
 }
 
 /* Per-class moments: as a column's moments, without min and max of their
  * own (the column's bound them). */
 static int class_moments_valid(const class_moments *k, const moments *col)
 {
-    if (k->n == 0) return k->mean == 0 && k->m2 == 0;
+    if (k->n == 0) return k->sum == 0 && k->sum_low == 0 && k->m2 == 0;
     if (k->n == 1 && k->m2 != 0) return 0;
     if (k->m2 < 0) return 0;
     if (moments_spread_allows_overflow(col->min, col->max)) return 1;
-    return isfinite(k->mean) && isfinite(k->m2) &&
-           moments_mean_plausible(k->mean, col->min, col->max);
+    /* the low part is what the high one left: at most half its ulp */
+    double mag = fabs(k->sum);
+    if (!isfinite(k->sum) || !isfinite(k->sum_low) ||
+        !(fabs(k->sum_low) <= 0.5 * (nextafter(mag, INFINITY) - mag)))
+        return 0;
+    double mean = class_moments_mean(k);
+    return isfinite(mean) && isfinite(k->m2) && moments_mean_plausible(mean, col->min, col->max);
 }
 
 int column_check(const summary *s, const summary_column *c, char *msg, size_t len)
@@ -285,7 +350,8 @@ int column_check(const summary *s, const summary_column *c, char *msg, size_t le
         uint64_t key_total = 0, last_key = 0;
         for (size_t i = 0, n = crosstab_entries(x); i < n; i++) {
             crosstab_entry e = crosstab_entry_at(x, i);
-            if (mode == CROSSTAB_COUNTS ? e.cell == 0 || e.cell > s->nclasses : !regression_cell(e.cell))
+            if (mode == CROSSTAB_COUNTS ? e.cell == 0 || e.cell > s->nclasses
+                                        : !regression_cell(s, e.cell))
                 return why(msg, len, "per-value entry %zu names target cell %u, which does "
                            "not exist", i + 1, e.cell);
             if (e.key == CROSSTAB_OVERFLOW_KEY) continue; /* values past max_keys */
@@ -304,6 +370,13 @@ int column_check(const summary *s, const summary_column *c, char *msg, size_t le
         }
     }
 
+    /* Pair sums with the target: over rows holding numbers in both. */
+    if ((c->pairs != NULL) != (s->target >= 0 && c->mode != COLUMN_CATEGORICAL))
+        return why(msg, len, "pair sums %s", c->pairs ? "without a target" : "missing");
+    if (c->pairs && c->pairs->n > c->mom.n)
+        return why(msg, len, "%llu exact pairs with the target, more than the column's %llu "
+                   "numbers", (unsigned long long)c->pairs->n, (unsigned long long)c->mom.n);
+
     /* Per-class moments: within the class's rows (their counts were
      * checked against the bucket store above). */
     if (c->cls) {
@@ -319,18 +392,41 @@ int column_check(const summary *s, const summary_column *c, char *msg, size_t le
     return 0;
 }
 
-/* Combines two class moments; shift = from's frame minus into's. */
+/* s + x exactly as (*s, *low added to): Knuth's TwoSum. */
+static void two_sum_into(double *s, double *low, double x)
+{
+    double t = *s + x, v = t - *s;
+    *low += (*s - (t - v)) + (x - v);
+    *s = t;
+}
+
+/* Combines two class moments; shift = from's frame minus into's.  The sums
+ * add as two-double sums, from's shifted by n_b shift (an exact product by
+ * fma); M2 by the pairwise rule of Chan, Golub & LeVeque (1979). */
 static void class_merge(class_moments *a, const class_moments *b, double shift)
 {
     if (b->n == 0) return;
-    if (a->n == 0) { *a = *b; a->mean += shift; return; }
-    moments_pair_merge((double)a->n, &a->mean, &a->m2, (double)b->n, b->mean + shift, b->m2);
+    double nb = (double)b->n, p = nb * shift, pe = fma(nb, shift, -p);
+    double mb = class_moments_mean(b) + shift;
+    double sum = a->n ? a->sum : 0, low = a->n ? a->sum_low : 0;
+    double mean_a = a->n ? class_moments_mean(a) : 0, m2 = a->n ? a->m2 : 0;
+    two_sum_into(&sum, &low, b->sum);
+    two_sum_into(&sum, &low, p);
+    low += b->sum_low + pe;
+    if (a->n) moments_pair_merge((double)a->n, &mean_a, &m2, nb, mb, b->m2);
+    else m2 = b->m2;
+    a->sum = sum; /* renormalize: |sum_low| <= ulp(sum) / 2 */
+    a->sum_low = 0;
+    two_sum_into(&a->sum, &a->sum_low, low);
+    a->m2 = m2;
     a->n += b->n;
 }
 
 
 int column_merge(summary_column *a, const summary_column *b, const column_merge_map *m)
 {
+    if (m->into_cells && column_remap_target_cells(a, m->into_cells, m->into_cells_len) != 0)
+        return -1;
     /* Column frame shift (before the moments merge sets a's reference). */
     double shift = a->mom.has_ref && b->mom.has_ref ? number_difference(&b->mom.ref, &a->mom.ref, NULL) : 0;
     if (a->cls && b->cls) {
@@ -344,6 +440,7 @@ int column_merge(summary_column *a, const summary_column *b, const column_merge_
     a->zeros += b->zeros;
     a->integers += b->integers;
     moments_merge(&a->mom, &b->mom);
+    if (a->pairs && b->pairs) pairsum_merge(a->pairs, b->pairs);
     hll_merge(a->distinct, b->distinct);
     int was_overflowed = values_overflowed(a->vals);
     const uint32_t *map = m->same_classes ? NULL : m->map;

@@ -12,7 +12,7 @@
  * in this order): missing, non_numeric, non_finite, zeros, integers (u64
  * each), moments, n_examples (u32) and the examples, value table, sketch,
  * bucket store, has_cross (u8) and the per-value table, has_cls (u8) and
- * per class n (u64), mean, m2 (f64).
+ * per class n (u64), sum, sum_low, m2 (f64; versions 1 and 2: n, mean, m2).
  */
 #ifndef SHEAF_COLUMN_H
 #define SHEAF_COLUMN_H
@@ -28,12 +28,15 @@
 int column_alloc(summary_column *c, const summary_options *o, int with_classes);
 void column_free(summary_column *c);
 
-/* Appends the column in the written layout; nclasses is the summary's. */
-void column_write(const summary_column *c, uint32_t nclasses, wire_writer *w);
-/* Reads a column written by column_write into c (allocated by column_alloc
- * for the same options).  0, or -1 on malformed or truncated input, with
- * *part naming the accumulator that did not read ("moments", ...). */
-int column_read(summary_column *c, uint32_t nclasses, wire_reader *r, const char **part);
+/* Appends the column in the written layout of format `version`; nclasses
+ * is the summary's. */
+void column_write(const summary_column *c, uint32_t nclasses, uint32_t version, wire_writer *w);
+/* Reads a column written by column_write in format `version` into c
+ * (allocated by column_alloc for the same options).  0, or -1 on malformed
+ * or truncated input, with *part naming the accumulator that did not read
+ * ("moments", ...). */
+int column_read(summary_column *c, uint32_t nclasses, uint32_t version, wire_reader *r,
+                const char **part);
 /* Checks the invariants of a read column against its summary (the table
  * counts, the schema's options, the target classes; docs/summary-format.md,
  * "Invariants").  0, or -1 with the broken one described in msg. */
@@ -41,12 +44,15 @@ int column_check(const summary *s, const summary_column *c, char *msg, size_t le
 
 /* How the target cells and classes of `from` map into `into` for a merge. */
 typedef struct {
-    const uint32_t *map;   /* from's class k (1-based) -> into's, map[0] = 0; NULL: no classes */
+    const uint32_t *map;   /* from's class k (1-based) -> into's, map[0] = 0; without classes
+                              from's regression cells -> the united ones; NULL: the same */
     uint32_t map_len;      /* entries of map */
     int same_classes;      /* map is the identity */
     uint32_t max_classes;  /* classes into may hold */
     uint32_t from_classes; /* classes from holds */
     double yshift;         /* from's target frame minus into's */
+    const uint32_t *into_cells; /* into's regression cells -> the united ones; NULL: the same */
+    uint32_t into_cells_len;    /* entries of into_cells */
 } column_merge_map;
 
 /* a := a (+) b by each accumulator's rule.  0, or -1 when out of memory
@@ -61,9 +67,14 @@ int column_merge(summary_column *a, const summary_column *b, const column_merge_
 int column_drop_classes(summary_column *c, const uint32_t *map, const double *y, uint32_t n,
                         uint32_t bucket_budget);
 /* The conversion tables of s's classes (malloc'ed; the caller frees them),
- * with frame the target's frame (NULL: values as they are).  0 or -1. */
-int summary_class_conversion(const summary *s, const number_decimal *frame, uint32_t **map,
+ * with frame the target's frame (NULL: values as they are): the class
+ * values enter s's target cell table, renumbered in key order.  0 or -1. */
+int summary_class_conversion(summary *s, const number_decimal *frame, uint32_t **map,
                              double **y);
+/* Renumbers c's regression target cells: cell k becomes map[k] (k < len) in
+ * the bucket store and the per-value table (cells that meet combine).  0, or
+ * -1 when out of memory (c is then unchanged). */
+int column_remap_target_cells(summary_column *c, const uint32_t *map, uint32_t len);
 int column_seal(summary_column *c);
 int column_sealed(const summary_column *c);
 

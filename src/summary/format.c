@@ -97,6 +97,7 @@ static void encode_target(const summary *s, wire_writer *w)
         wire_put_u8(w, s->class_numeric[c]);
         put_decimal(w, &s->class_dec[c]);
     }
+    if (summary_file_version(s) >= 3) tcells_write(&s->tcells, w);
 }
 
 static void encode_comoments(const summary *s, wire_writer *w)
@@ -138,11 +139,15 @@ static void encode_table(const summary *s, wire_writer *w)
     if (summary_file_version(s) >= 2) wire_put_u64(w, s->repeated_headers);
 }
 
-uint32_t summary_file_version(const summary *s) { return s->repeated_headers ? 2 : 1; }
+uint32_t summary_file_version(const summary *s)
+{
+    return s->target >= 0 ? 3 : s->repeated_headers ? 2 : 1;
+}
 
 static void encode_columns(const summary *s, wire_writer *w)
 {
-    for (size_t i = 0; i < s->ncols; i++) column_write(&s->cols[i], s->nclasses, w);
+    uint32_t version = summary_file_version(s);
+    for (size_t i = 0; i < s->ncols; i++) column_write(&s->cols[i], s->nclasses, version, w);
 }
 
 
@@ -290,9 +295,11 @@ static void decode_table(summary *s, wire_reader *r, decode_state *ds, uint32_t 
     for (uint32_t i = 0; i < s->n_bad_lines; i++) s->bad_lines[i] = wire_get_u64(r);
     if (version >= 2) {
         s->repeated_headers = wire_get_u64(r);
-        if (s->repeated_headers == 0)
+        if (s->repeated_headers == 0 && version == 2)
             broken(r, ds, "a count of 0 repeated headers in a version-2 file (written as version 1)");
     }
+    if (version >= 3 && s->target < 0)
+        broken(r, ds, "a version-3 file without a target (written as version 1 or 2)");
     if (r->failed) return;
     uint64_t source_rows = 0;
     for (size_t i = 0; i < s->nsources; i++) {
@@ -316,7 +323,7 @@ static int hash_order(const void *a, const void *b)
     return x < y ? -1 : x > y;
 }
 
-static void decode_target(summary *s, wire_reader *r, decode_state *ds)
+static void decode_target(summary *s, wire_reader *r, decode_state *ds, uint32_t version)
 {
     uint8_t has = wire_get_u8(r), dropped = wire_get_u8(r);
     s->target_text = wire_get_u64(r);
@@ -373,6 +380,14 @@ static void decode_target(summary *s, wire_reader *r, decode_state *ds)
             if (sorted[c] == sorted[c - 1]) broken(r, ds, "a class text appears twice");
         free(sorted);
     }
+    if (r->failed) return;
+    if (version >= 3) {
+        if (tcells_read(&s->tcells, r) != 0) return;
+        if ((s->has_classes || s->target < 0) && (s->tcells.n || s->tcells.level))
+            broken(r, ds, "continuous target cells while classes are kept, or without a target");
+    } else {
+        s->legacy_cells = s->target >= 0 && !s->has_classes;
+    }
 }
 
 static int decimal_equal(const number_decimal *a, const number_decimal *b)
@@ -411,6 +426,14 @@ static void decode_comoments(summary *s, wire_reader *r, decode_state *ds)
         else if (comoment_n(c, k, k) != (double)m->n)
             broken(r, ds, "column %zu '%.80s': co-moment count %.0f, not the column's %llu",
                    i + 1, s->cols[i].name, comoment_n(c, k, k), (unsigned long long)m->n);
+        /* Exact pair sums count the rows where the column and the target
+         * both hold a number: the pair count of the two. */
+        const pairsum *ps = s->cols[i].pairs;
+        int t = s->target >= 0 ? s->como_of[s->target] : -1;
+        if (!r->failed && ps && ps->exact && t >= 0 && (double)ps->n != comoment_n(c, k, (size_t)t))
+            broken(r, ds, "column %zu '%.80s': %llu exact pairs with the target, %.0f co-moment "
+                   "pairs", i + 1, s->cols[i].name, (unsigned long long)ps->n,
+                   comoment_n(c, k, (size_t)t));
     }
     if (!r->failed) check_comoment_sums(s, c, r, ds);
 }
@@ -472,6 +495,13 @@ static void check_target(summary *s, wire_reader *r, decode_state *ds)
                (unsigned long long)(t->non_numeric + t->non_finite));
         return;
     }
+    for (size_t i = 0; i < s->ncols; i++)
+        if (s->cols[i].pairs && s->cols[i].pairs->n > t->mom.n) {
+            broken(r, ds, "column %zu '%.80s': %llu exact pairs with the target, more than its "
+                   "%llu numbers", i + 1, s->cols[i].name,
+                   (unsigned long long)s->cols[i].pairs->n, (unsigned long long)t->mom.n);
+            return;
+        }
     if (!s->has_classes) return;
     uint64_t rows = 0;
     for (uint32_t c = 0; c < s->nclasses; c++) rows += s->class_rows[c];
@@ -493,16 +523,59 @@ static void check_target(summary *s, wire_reader *r, decode_state *ds)
                    (unsigned long long)values_count_of(t->vals, s->class_hash[c]));
 }
 
-static void decode_columns(summary *s, wire_reader *r, decode_state *ds)
+/* A version 1 or 2 summary of a continuous target: its regression cells,
+ * 2^20 plus the value's key at level 50 (4 buckets an octave), become a
+ * cell table (summary/tcells.h) at that level, raised while over the
+ * budget; every column's cells are renumbered.  0, or -1 when out of
+ * memory. */
+static int convert_legacy_cells(summary *s)
+{
+    const uint32_t base = 1u << 20, span = 2 * 8188 + 1;
+    int64_t *keys = malloc(span * sizeof *keys);
+    uint32_t *map = calloc((size_t)base + 8189, sizeof *map), *cells = malloc(span * sizeof *cells);
+    unsigned char *seen = calloc(span, 1);
+    int rc = -1;
+    if (!keys || !map || !cells || !seen) goto done;
+    for (size_t i = 0; i < s->ncols; i++) {
+        const summary_column *c = &s->cols[i];
+        for (size_t e = 0, n = buckets_entries(c->bins); e < n; e++) {
+            uint32_t cell = buckets_entry_at(c->bins, e).cell;
+            if (cell) seen[cell - (base - 8188)] = 1;
+        }
+        for (size_t e = 0, n = c->cross ? crosstab_entries(c->cross) : 0; e < n; e++)
+            seen[crosstab_entry_at(c->cross, e).cell - (base - 8188)] = 1;
+    }
+    size_t n = 0;
+    for (uint32_t k = 0; k < span; k++)
+        if (seen[k]) keys[n++] = (int64_t)k - 8188;
+    if (tcells_from_keys(&s->tcells, 50, keys, n, cells) != 0) goto done;
+    for (size_t k = 0; k < n; k++) map[(uint32_t)(keys[k] + base)] = cells[k];
+    rc = 0;
+    for (size_t i = 0; i < s->ncols && rc == 0; i++)
+        rc = column_remap_target_cells(&s->cols[i], map, base + 8189);
+done:
+    free(keys);
+    free(map);
+    free(cells);
+    free(seen);
+    s->legacy_cells = 0;
+    return rc;
+}
+
+static void decode_columns(summary *s, wire_reader *r, decode_state *ds, uint32_t version)
 {
     for (size_t i = 0; i < s->ncols && !r->failed; i++) {
         summary_column *c = &s->cols[i];
         const char *part;
         char msg[200];
-        if (column_read(c, s->nclasses, r, &part) != 0)
+        if (column_read(c, s->nclasses, version, r, &part) != 0)
             broken(r, ds, "column %zu '%.80s': %s does not parse", i + 1, c->name, part);
         else if (column_check(s, c, msg, sizeof msg) != 0)
             broken(r, ds, "column %zu '%.80s': %s", i + 1, c->name, msg);
+    }
+    if (!r->failed && s->legacy_cells && convert_legacy_cells(s) != 0) {
+        errno = ENOMEM;
+        r->failed = 1;
     }
     if (!r->failed) check_target(s, r, ds);
 }
@@ -577,8 +650,8 @@ summary_status summary_decode(const uint8_t *data, size_t len, summary **out, ch
         if (k == 0) s = decode_schema(&p, &ds);
         else if (k == 1) decode_sources(s, &p, &ds);
         else if (k == 2) decode_table(s, &p, &ds, version);
-        else if (k == 3) decode_target(s, &p, &ds);
-        else if (k == 4) decode_columns(s, &p, &ds);
+        else if (k == 3) decode_target(s, &p, &ds, version);
+        else if (k == 4) decode_columns(s, &p, &ds, version);
         else decode_comoments(s, &p, &ds);
         if (p.failed || p.pos != p.len || !s) {
             /* Counts are checked against the bytes that remain before

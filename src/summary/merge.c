@@ -22,7 +22,7 @@ static const number_decimal *target_frame(const summary *s)
     return &s->cols[s->target].mom.ref;
 }
 
-int summary_class_conversion(const summary *s, const number_decimal *frame, uint32_t **map_out,
+int summary_class_conversion(summary *s, const number_decimal *frame, uint32_t **map_out,
                              double **y_out)
 {
     uint32_t k = s->nclasses;
@@ -31,8 +31,13 @@ int summary_class_conversion(const summary *s, const number_decimal *frame, uint
     if (!map || !y) { free(map); free(y); return -1; }
     map[0] = 0;
     y[0] = 0;
+    /* The class values enter the target cell table (which may rise), then
+     * the cells are numbered in key order and each class looks its up. */
+    for (uint32_t c = 0; c < k; c++)
+        if (!summary_target_cell(s, s->class_dec[c].value)) { free(map); free(y); return -1; }
+    if (tcells_canonical(&s->tcells) != 0) { free(map); free(y); return -1; }
     for (uint32_t c = 0; c < k; c++) {
-        map[c + 1] = summary_target_cell(s->class_dec[c].value);
+        map[c + 1] = summary_target_cell(s, s->class_dec[c].value);
         y[c + 1] = frame ? number_difference(&s->class_dec[c], frame, NULL) : s->class_dec[c].value;
     }
     *map_out = map;
@@ -53,6 +58,7 @@ int summary_drop_classes(summary *s)
         rc = column_drop_classes(&s->cols[i], map, y, s->nclasses + 1, s->opt.bucket_budget);
     free(map);
     free(y);
+    tcells_free(&s->tcells); /* outside a scan no column waits on an epoch */
     if (rc == 0) {
         s->has_classes = 0;
         s->classes_dropped = 1;
@@ -194,12 +200,31 @@ static summary_status fold(summary *into, summary *from, char *err, size_t errle
     }
     int same_classes = map != NULL;
     for (uint32_t c = 0; same_classes && c <= from->nclasses; c++) same_classes = map[c] == c;
+    /* A continuous target: the two cell tables united (summary/tcells.h), the
+     * cells of both sides renumbered into the union. */
+    uint32_t into_cells[SUMMARY_TARGET_CELLS + 2], from_cells[SUMMARY_TARGET_CELLS + 2];
+    uint32_t into_len = into->tcells.n + 1, from_len = from->tcells.n + 1;
+    int cells = into->target >= 0 && !into->has_classes;
+    int into_moves = 0, from_moves = 0;
+    if (cells) {
+        if (tcells_unite(&into->tcells, &from->tcells, into_cells, from_cells) != 0) {
+            free(map);
+            return out_of_memory(err, errlen);
+        }
+        for (uint32_t c = 1; c < into_len; c++) into_moves |= into_cells[c] != c;
+        for (uint32_t c = 1; c < from_len; c++) from_moves |= from_cells[c] != c;
+    }
     /* Target frame shift for the regression tables. */
     const number_decimal *fa = target_frame(into), *fb = target_frame(from);
     double yshift = fa && fb ? number_difference(fb, fa, NULL) : 0;
     for (size_t i = 0; i < into->ncols; i++) {
         column_merge_map cm = {map, map ? from->nclasses + 1 : 0, same_classes,
-                               into->opt.max_classes, from->nclasses, yshift};
+                               into->opt.max_classes, from->nclasses, yshift,
+                               into_moves ? into_cells : NULL, into_len};
+        if (from_moves) {
+            cm.map = from_cells;
+            cm.map_len = from_len;
+        }
         if (column_merge(&into->cols[i], &from->cols[i], &cm) != 0) {
             free(map);
             return out_of_memory(err, errlen);

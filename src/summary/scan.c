@@ -636,7 +636,12 @@ summary *scan_finish(scan_context *sc)
     chunks_free(sc->work);
     sc->work = NULL;
     summary *s = sc->run;
-    if (summary_seal(s) != 0) { fail(sc, SCAN_ERR_MEMORY, "out of memory"); return NULL; }
+    /* The continuous target's cells numbered in key order, every column
+     * brought to that numbering (summary/tcells.h). */
+    if (summary_target_cells_settle(s) != 0 || summary_seal(s) != 0) {
+        fail(sc, SCAN_ERR_MEMORY, "out of memory");
+        return NULL;
+    }
     sc->run = NULL;
     return s;
 }

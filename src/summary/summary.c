@@ -71,10 +71,29 @@ static int class_reserve(summary *s, uint32_t need)
     return 0;
 }
 
-uint32_t summary_target_cell(double y)
+uint32_t summary_target_cell(summary *s, double y)
 {
-    return SUMMARY_TARGET_CELL_BASE +
-           (uint32_t)(int32_t)buckets_key_at(buckets_key(y), SUMMARY_TARGET_LEVEL);
+    return tcells_cell(&s->tcells, y);
+}
+
+int summary_column_catch_up(summary *s, summary_column *c, uint32_t epoch)
+{
+    if (c->tcell_epoch >= epoch) return 0;
+    uint32_t map[SUMMARY_TARGET_CELLS + 2], len;
+    tcells_map_since(&s->tcells, c->tcell_epoch, epoch, map, &len);
+    if (column_remap_target_cells(c, map, len) != 0) return -1;
+    c->tcell_epoch = epoch;
+    return 0;
+}
+
+int summary_target_cells_settle(summary *s)
+{
+    if (tcells_canonical(&s->tcells) != 0) return -1;
+    for (size_t i = 0; i < s->ncols; i++)
+        if (summary_column_catch_up(s, &s->cols[i], s->tcells.epoch) != 0) return -1;
+    tcells_free(&s->tcells);
+    for (size_t i = 0; i < s->ncols; i++) s->cols[i].tcell_epoch = 0;
+    return 0;
 }
 
 uint32_t summary_class_of(summary *s, uint64_t h, const char *text, size_t len,
@@ -113,6 +132,7 @@ summary *summary_create(const summary_options *opt, size_t ncols, char *const *n
     summary *s = calloc(1, sizeof *s);
     if (!s) return NULL;
     s->target = -1;
+    tcells_init(&s->tcells);
     if (summary_options_copy(&s->opt, opt) != 0) goto fail;
     if (opt->target) {
         for (size_t i = 0; i < ncols && s->target < 0; i++)
@@ -164,6 +184,7 @@ void summary_free(summary *s)
     comoment_free(s->como);
     free(s->como_ref);
     free(s->como_ref_set);
+    tcells_free(&s->tcells);
     summary_options_free(&s->opt);
     free(s);
 }

@@ -38,12 +38,15 @@
 #include "acc/crosstab.h"
 #include "acc/hll.h"
 #include "acc/moments.h"
+#include "acc/pairsum.h"
 #include "acc/values.h"
+#include "summary/tcells.h"
 
 /* The newest format version this sheaf reads and writes.  A summary is
- * written in the oldest version that holds it (summary_file_version): 1
- * unless it counted repeated headers, so that older readers read it. */
-#define SUMMARY_FORMAT_VERSION 2
+ * written in the oldest version that holds it (summary_file_version), so
+ * that older readers read it: 3 with a target (per-class sums in two
+ * doubles), else 2 when it counted repeated headers, else 1. */
+#define SUMMARY_FORMAT_VERSION 3
 #define SUMMARY_EXAMPLES 3        /* non-numeric examples kept per column */
 #define SUMMARY_EXAMPLE_BYTES 40  /* bytes kept of each example */
 #define SUMMARY_BAD_LINES 5       /* line numbers kept of ragged rows */
@@ -66,18 +69,29 @@ typedef enum { TASK_AUTO = 0, TASK_CLASSIFY = 1, TASK_REGRESS = 2 } target_task;
 
 /* Bucket-store cells: 0 holds rows whose target is missing (or all rows when
  * there is no target); classes are 1..K; a regression target's value y is
- * cell SUMMARY_TARGET_CELL_BASE + its bucket key at SUMMARY_TARGET_LEVEL
- * (about 4 buckets per octave, the same on every shard). */
-#define SUMMARY_TARGET_LEVEL 5
-#define SUMMARY_TARGET_CELL_BASE (1u << 20)
+ * cell 1..n of the summary's target cell table (summary/tcells.h: at most
+ * SUMMARY_TARGET_CELLS cells at a resolution the target's values choose,
+ * numbered in ascending order of y).  SUMMARY_TARGET_CELL_BASE is 0: a
+ * reader may order regression cells by cell - SUMMARY_TARGET_CELL_BASE. */
+#define SUMMARY_TARGET_CELL_BASE 0u
 #define SUMMARY_MAX_CLASSES 65536
 
-/* Count, mean and M2 of one column within one class (Welford 1962). */
+/* Count, sum and M2 of one column within one class.  The sum of the
+ * deviations from the column's frame is kept in two doubles (sum + sum_low,
+ * an unevaluated sum to about 2^-106 relative), so that class means keep
+ * the digits in which classes differ (see block.c for the update). */
 typedef struct {
-    uint64_t n;   /* rows of the class with the column present */
-    double mean;  /* mean, in the column's frame (its moments reference) */
-    double m2;    /* sum of squared deviations from the mean */
+    uint64_t n;       /* rows of the class with the column present */
+    double sum;       /* sum of the deviations, in the column's frame (its moments reference) */
+    double sum_low;   /* the rest of that sum: |sum_low| <= ulp(sum) / 2 */
+    double m2;        /* sum of squared deviations from the class mean */
 } class_moments;
+
+/* A class's mean in the column's frame (NaN when n = 0). */
+static inline double class_moments_mean(const class_moments *m)
+{
+    return (m->sum + m->sum_low) / (double)m->n;
+}
 
 /* Options that change what the accumulators hold: equal in mergeable summaries. */
 typedef struct {
@@ -107,6 +121,9 @@ typedef struct {
     crosstab *cross;         /* per value: class counts or target moments (with a target);
                                 emptied and void once `vals` overflowed */
     class_moments *cls;      /* per class (with classes): cls[class - 1] */
+    pairsum *pairs;          /* exact sums of the column paired with the target (with a
+                                target; NULL for a declared-categorical column) */
+    uint32_t tcell_epoch;    /* (a scan) the target cell epoch its accumulators are at */
     uint32_t n_examples;     /* non-numeric examples kept */
     char examples[SUMMARY_EXAMPLES][SUMMARY_EXAMPLE_BYTES + 1];
 } summary_column;
@@ -149,6 +166,9 @@ typedef struct {
     number_decimal *class_dec; /* each class's value as a decimal, if numeric */
     unsigned char *class_numeric; /* the class text is a finite number */
     uint64_t target_text;     /* target cells that are not finite numbers */
+    tcells tcells;            /* a continuous target's cells (empty while classes are kept) */
+    int legacy_cells;         /* decoding a version 1 or 2 file: regression cells are still
+                                 2^20 + the value's key at level 50 (format.c converts them) */
 
     /* Co-moments over the columns not declared categorical. */
     size_t ncomo;             /* columns in the co-moment matrix */
@@ -194,8 +214,17 @@ int summary_append_class(summary *s, uint64_t h, const char *text, size_t len,
  * exactly from class counts to target cells.  -1 on OOM or for a text
  * target. */
 int summary_drop_classes(summary *s);
-/* Regression cell of a target value. */
-uint32_t summary_target_cell(double y);
+/* The regression cell of a finite target value, adding it to the cell table
+ * (which may renumber the cells: a new epoch, see summary/tcells.h).  0 when
+ * out of memory. */
+uint32_t summary_target_cell(summary *s, double y);
+/* Brings column c's accumulators from their target cell epoch to `epoch`
+ * (remapping the regression cells of its bucket store and per-value table).
+ * 0, or -1 when out of memory. */
+int summary_column_catch_up(summary *s, summary_column *c, uint32_t epoch);
+/* Ends a scan's epochs: the cells numbered in key order, every column
+ * brought to it, the epoch maps freed.  0, or -1 when out of memory. */
+int summary_target_cells_settle(summary *s);
 void summary_free(summary *s);
 /* Builds the sort index of every accumulator of every column (see "Sealing
  * and threads" above), so that read-only calls need no temporary index.

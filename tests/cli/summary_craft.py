@@ -23,7 +23,7 @@ the decoder sees the change instead of a checksum mismatch.
                                              and ends the file with the second
                                              one's header claiming 2^30 bytes
 A string field NAME has NAME.len and NAME.text; set NAME.text=... keeps its
-length.
+length.  The header's version is the field "version".
 XXH3-64 comes from Debian's libxxhash (the library sheaf links).
 """
 import ctypes
@@ -43,8 +43,8 @@ def xxh3(b):
 
 MAGIC = b"\x89SHF\r\n\x1a\n"
 TAGS = [b"SCHM", b"SRCS", b"TABL", b"TRGT", b"COLS", b"COMO"]
-SIZES = {"u8": 1, "u16": 2, "u32": 4, "u64": 8, "i64": 8, "f64": 8}
-FMT = {"u8": "<B", "u16": "<H", "u32": "<I", "u64": "<Q", "i64": "<q", "f64": "<d"}
+SIZES = {"u8": 1, "u16": 2, "u32": 4, "i32": 4, "u64": 8, "i64": 8, "f64": 8}
+FMT = {"u8": "<B", "u16": "<H", "u32": "<I", "i32": "<i", "u64": "<Q", "i64": "<q", "f64": "<d"}
 
 
 class Walker:
@@ -83,6 +83,8 @@ def parse(data):
     if data[:8] != MAGIC:
         raise ValueError("not a summary")
     pos, sections, fields = 12, [], []
+    (version,) = struct.unpack_from("<I", data, 8)
+    fields.append(("version", 8, "u32", version))
     for tag in TAGS:
         t = data[pos:pos + 4]
         (plen,) = struct.unpack_from("<Q", data, pos + 4)
@@ -90,7 +92,7 @@ def parse(data):
             raise ValueError("section %s expected at %d" % (tag, pos))
         sections.append((tag.decode(), pos, pos + 12, plen))
         pos += 12 + plen + 8
-    info = {}
+    info = {"version": version}
     for tag, _, start, plen in sections:
         w = Walker(data, start, start + plen, fields)
         globals()["_walk_" + tag](w, info)
@@ -129,6 +131,8 @@ def _walk_TABL(w, info):
         w.get("TABL." + f, "u64")
     for i in range(w.get("TABL.n_bad_lines", "u32")):
         w.get("TABL.bad_line[%d]" % i, "u64")
+    if info["version"] >= 2:
+        w.get("TABL.repeated_headers", "u64")
 
 
 def _walk_TRGT(w, info):
@@ -143,6 +147,10 @@ def _walk_TRGT(w, info):
         w.get(p + "rows", "u64")
         w.get(p + "numeric", "u8")
         w.decimal(p + "value")
+    if info["version"] >= 3:  # a continuous target's cells (summary/tcells.h)
+        w.get("TRGT.tcells.level", "u8")
+        for k in range(w.get("TRGT.tcells.n", "u32")):
+            w.get("TRGT.tcells.key[%d]" % k, "i64")
 
 
 def _walk_COLS(w, info):
@@ -200,8 +208,23 @@ def _walk_COLS(w, info):
             for c in range(info["nclasses"]):
                 q = p + "cls[%d]." % (c + 1)
                 w.get(q + "n", "u64")
-                w.get(q + "mean", "f64")
+                if info["version"] >= 3:  # the sum of deviations in two doubles
+                    w.get(q + "sum", "f64")
+                    w.get(q + "sum_low", "f64")
+                else:
+                    w.get(q + "mean", "f64")
                 w.get(q + "m2", "f64")
+        if info["version"] >= 3 and w.get(p + "has_pairs", "u8"):
+            # exact pair sums with the target: 256-bit sums as 4 u64 words,
+            # least significant first
+            q = p + "pairs."
+            w.get(q + "exact", "u8")
+            w.get(q + "n", "u64")
+            w.get(q + "scale_x", "i32")
+            w.get(q + "scale_y", "i32")
+            for f in ("sx", "sy", "sxx", "syy", "sxy"):
+                for k in range(4):
+                    w.get(q + "%s[%d]" % (f, k), "u64")
 
 
 def _walk_COMO(w, info):
@@ -246,7 +269,7 @@ def parse_value(text, typ):
     if typ == "f64":
         return float(text)
     v = int(text)
-    if typ == "i64":
+    if typ in ("i64", "i32"):
         return v
     return v & ((1 << (8 * SIZES[typ])) - 1)
 

@@ -30,7 +30,9 @@ D=$T/t.csv
 $SHEAF scan "$D" --target kind -o "$T/cls.sheaf" -q 2>/dev/null &&
     $SHEAF scan "$D" --target size -o "$T/numcls.sheaf" -q 2>/dev/null &&
     $SHEAF scan "$D" --target weight --task regress -o "$T/reg.sheaf" -q 2>/dev/null &&
-    $SHEAF scan "$D" -o "$T/none.sheaf" -q 2>/dev/null ||
+    $SHEAF scan "$D" -o "$T/none.sheaf" -q 2>/dev/null &&
+    { head -n 5 "$D" | gzip -c; head -n 5 "$D" | gzip -c; } >"$T/rep.csv.gz" &&
+    $SHEAF scan "$T/rep.csv.gz" -o "$T/rep.sheaf" -q 2>/dev/null ||
     { fail setup "scans failed"; exit 0; }
 
 get() { $CRAFT get "$T/$1.sheaf" "$2"; }
@@ -67,7 +69,7 @@ crafted() {
 }
 
 # The good summaries are read by every command.
-for b in cls numcls reg none; do
+for b in cls numcls reg none rep; do
     run $SHEAF info "$T/$b.sheaf"
     check "decode.good.$b" "info exit $RC: $(err_text)" [ "$RC" -eq 0 ]
 done
@@ -83,7 +85,14 @@ expect_damaged section_length_underflow "$T/long0.sheaf"
 # (the first once crashed screen and trim --from with SIGSEGV).
 crafted bucket_cell_past_classes numcls "COLS[2].bins.entry[0].cell=100000"
 crafted bucket_cell_class_k_plus_1 cls "COLS[1].bins.entry[0].cell=4"
-crafted bucket_cell_regression_range reg "COLS[1].bins.entry[0].cell=5"
+crafted bucket_cell_regression_range reg "COLS[1].bins.entry[0].cell=$(($(get reg TRGT.tcells.n) + 1))"
+# A continuous target's cells (summary/tcells.h): ascending keys within the
+# level's range, none while classes are kept, cells within the table.
+crafted target_cells_unordered reg "TRGT.tcells.key[1]=$(get reg 'TRGT.tcells.key[0]')"
+crafted target_cells_level reg "TRGT.tcells.level=64"
+crafted target_cells_key_range reg "TRGT.tcells.level=63" "TRGT.tcells.key[0]=-5"
+crafted target_cells_with_classes cls "TRGT.tcells.level=3"
+crafted cross_cell_past_target_cells reg "COLS[0].cross.entry[0].cell=$(($(get reg TRGT.tcells.n) + 1))"
 crafted bucket_cell_without_target none "COLS[1].bins.entry[0].cell=1"
 crafted cross_cell_past_classes cls "COLS[3].cross.entry[0].cell=9"
 crafted cross_cell_zero cls "COLS[3].cross.entry[0].cell=0"
@@ -142,6 +151,21 @@ crafted cross_over_value_count cls "COLS[3].cross.entry[0].n=1000"
 crafted class_moments_over_rows cls "COLS[1].cls[1].n=1000"
 crafted class_moments_negative_m2 cls "COLS[1].cls[1].m2=-1"
 crafted class_moments_vs_buckets cls "COLS[1].cls[1].n=$(($(get cls 'COLS[1].cls[1].n') - 1))"
+# Version 3 (per-class sums in two doubles): the low part within half an
+# ulp of the high one; version 3 only with a target (a file without one is
+# written as version 1 or 2: rep.sheaf, version 2 for its repeated header).
+crafted class_sum_low_over_half_ulp cls "COLS[1].cls[1].sum_low=1"
+crafted class_sum_nan cls "COLS[1].cls[1].sum=nan"
+crafted version3_without_target rep "version=3"
+# Exact pair sums with the target (acc/pairsum.h).
+crafted pairs_exact_flag reg "COLS[1].pairs.exact=2"
+crafted pairs_inexact_not_zero reg "COLS[1].pairs.exact=0"
+crafted pairs_over_numbers reg "COLS[1].pairs.n=1000"
+crafted pairs_vs_comoment_pairs reg "COLS[1].pairs.n=$(($(get reg 'COLS[1].pairs.n') - 1))"
+crafted pairs_scale reg "COLS[1].pairs.scale_x=5000"
+crafted pairs_cauchy_schwarz reg "COLS[1].pairs.sxy[2]=1"
+crafted pairs_negative_squares reg "COLS[1].pairs.syy[3]=$((1 << 63))"
+crafted pairs_flag_missing reg "COLS[1].has_pairs=0"
 crafted bucket_cell_other_class cls "COLS[1].bins.entry[0].cell=$(($(get cls 'COLS[1].bins.entry[0].cell') % 3 + 1))"
 
 # COMO: frames and counts against the columns.

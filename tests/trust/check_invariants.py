@@ -15,7 +15,9 @@ Checked (each line of the format's tables that fields alone can decide):
             end_byte != 0; the sources' rows add up to TABL's rows
   TABL      short + long rows <= rows; n_bad_lines <= 5 and <= short +
             long; every kept line >= 1
-  TRGT      flags 0 or 1; classes_dropped only with a target and without
+  TRGT      (version 3) target cells: at most 64 keys, ascending, in range,
+            none with classes; bucket cells within them;
+            flags 0 or 1; classes_dropped only with a target and without
             classes; has_classes 0 needs nclasses 0; target_text <= rows;
             each class: hash = XXH3-64 of its label, rows >= 1, no hash
             twice, numeric 0 means an all-zero value; class rows add up to
@@ -35,7 +37,9 @@ Checked (each line of the format's tables that fields alone can decide):
             target; per-value table: max_keys = SCHM's max_levels, entries
             strictly ascending by (key, cell), n >= 1; has_cls = TRGT's
             has_classes; per-class moments: n <= the class's rows, m2 >= 0,
-            n = 0 gives zeros, n = 1 gives m2 = 0
+            n = 0 gives zeros, n = 1 gives m2 = 0, (version 3) |sum_low|
+            <= half an ulp of sum
+  PAIRS     (version 3) see check_pairs
   COMO      ncomo and p = the columns not declared categorical; present =
             1; frame_set = 1 exactly when the column has a number; N
             symmetric with N[i][i] = the column's n and N[i][j] <= N[i][i],
@@ -93,6 +97,18 @@ def check(data):
         yield "TRGT: class records without has_classes"
     if g("TRGT.target_text") > rows:
         yield "TRGT: target_text > rows"
+    # version 3: a continuous target's cells, at most 64 keys strictly
+    # ascending within the level's range (level <= 63), none with classes
+    tcells = g("TRGT.tcells.n") if "TRGT.tcells.n" in f else None
+    if tcells is not None:
+        level = g("TRGT.tcells.level")
+        keys = [g("TRGT.tcells.key[%d]" % k) for k in range(tcells)]
+        limit = (0x7FEFFFFFFFFFFFFF >> min(level, 63)) + 1
+        if level > 63 or tcells > 64 or any(a >= b for a, b in zip(keys, keys[1:])) or \
+                any(abs(k) > limit for k in keys):
+            yield "TRGT: target cells out of order or range"
+        if (g("TRGT.has_classes") or not target) and (tcells or level):
+            yield "TRGT: continuous target cells while classes are kept, or without a target"
     class_rows, hashes = [0], set()
     for c in range(1, nclasses + 1):
         p = "TRGT.class[%d]." % c
@@ -173,6 +189,9 @@ def check(data):
         bcounts = [g(b + "entry[%d].count" % k) for k in range(g(b + "n"))]
         if any(a >= c for a, c in zip(ents, ents[1:])) or any(c < 1 for c in bcounts):
             yield col + "bucket entries order or counts"
+        if tcells is not None and target and not g("TRGT.has_classes") and \
+                any(c > tcells for _, c in ents):
+            yield col + "bucket entry names a target cell past the cell table"
         if sum(bcounts) != n:
             yield col + "bucket counts do not add up to n"
         if g(p + "has_cross") != (1 if target else 0):
@@ -190,10 +209,17 @@ def check(data):
         if g(p + "has_cls"):
             for c in range(1, nclasses + 1):
                 q = p + "cls[%d]." % c
-                cn, cm, cm2 = g(q + "n"), g(q + "mean"), g(q + "m2")
-                if cn > class_rows[c] or not cm2 >= 0 or (cn == 0 and (cm, cm2) != (0, 0)) or \
+                cn, cm2 = g(q + "n"), g(q + "m2")
+                # version 3: the sum in two doubles, the low part within
+                # half an ulp of the high one; before, a mean
+                parts = (g(q + "sum"), g(q + "sum_low")) if q + "sum" in f else (g(q + "mean"),)
+                if cn > class_rows[c] or not cm2 >= 0 or \
+                        (cn == 0 and any(x != 0 for x in parts + (cm2,))) or \
                         (cn == 1 and cm2 != 0):
                     yield col + "class %d moments" % c
+                elif len(parts) == 2 and all(math.isfinite(x) for x in parts) and \
+                        abs(parts[1]) > 0.5 * (math.ulp(parts[0]) if parts[0] else 0):
+                    yield col + "class %d sum's low part is more than half an ulp" % c
     como = [i for i in range(ncols) if modes[i] != 2]
     if g("COMO.ncomo") != len(como) or g("COMO.p") != len(como) or g("COMO.present") != 1:
         yield "COMO: sizes differ from the columns not declared categorical"
@@ -204,6 +230,7 @@ def check(data):
             yield "COMO: frame %d set without numbers, or the reverse" % k
         if g("COMO.N[%d][%d]" % (k, k)) != g("COLS[%d].moments.n" % i):
             yield "COMO: N[%d][%d] differs from the column's n" % (k, k)
+    yield from check_pairs(g, f, ncols, modes, names, target, como)
     p = len(como)
     for a in range(p):
         for c in range(a + 1, p):
@@ -212,6 +239,59 @@ def check(data):
                 yield "COMO: N[%d][%d]" % (a, c)
             if bits(g("COMO.C[%d][%d]" % (a, c))) != bits(g("COMO.C[%d][%d]" % (c, a))):
                 yield "COMO: C[%d][%d] not symmetric" % (a, c)
+
+
+def signed256(g, name):
+    """A 256-bit two's-complement sum stored as 4 u64 words."""
+    v = sum(g("%s[%d]" % (name, k)) << (64 * k) for k in range(4))
+    return v - (1 << 256) if v >> 255 else v
+
+
+def check_pairs(g, f, ncols, modes, names, target, como):
+    """Version 3 exact pair sums with the target (acc/pairsum.h): present
+    exactly for the columns not declared categorical when there is a
+    target; exact in {0, 1}; an inexact or empty state all zero; n at most
+    the column's and the target's numbers, and equal to the co-moment pair
+    count with the target when exact; scales within +-1100; 0 <= Sxx, Syy <
+    2^200; A = n Sxx - Sx^2 >= 0, B >= 0, C^2 <= A B (Cauchy-Schwarz, in
+    Python's exact integers); n = 1 gives A = B = C = 0."""
+    t = names.index(target) if target in names else -1
+    for i in range(ncols):
+        p = "COLS[%d]." % i
+        if p + "has_pairs" not in f:
+            continue
+        col = "COLS: column %d: " % (i + 1)
+        want = 1 if t >= 0 and modes[i] != 2 else 0
+        if g(p + "has_pairs") != want:
+            yield col + "has_pairs is %d" % g(p + "has_pairs")
+            continue
+        if not want:
+            continue
+        q = p + "pairs."
+        exact, n = g(q + "exact"), g(q + "n")
+        sums = {k: signed256(g, q + k) for k in ("sx", "sy", "sxx", "syy", "sxy")}
+        scales = (g(q + "scale_x"), g(q + "scale_y"))
+        if exact not in (0, 1):
+            yield col + "pair sums exact flag %d" % exact
+            continue
+        if not exact or n == 0:
+            if n or any(sums.values()) or any(scales):
+                yield col + "pair sums not all zero while %s" % ("inexact" if not exact else "empty")
+            continue
+        if n > g(p + "moments.n") or n > g("COLS[%d].moments.n" % t):
+            yield col + "more exact pairs than numbers"
+        if i in como and t in como:
+            if g("COMO.N[%d][%d]" % (como.index(i), como.index(t))) != n:
+                yield col + "exact pairs differ from the co-moment pair count"
+        if any(abs(x) > 1100 for x in scales):
+            yield col + "pair sum scales %r" % (scales,)
+        if not (0 <= sums["sxx"] < 1 << 200 and 0 <= sums["syy"] < 1 << 200):
+            yield col + "pair sums of squares out of range"
+        a = n * sums["sxx"] - sums["sx"] ** 2
+        b = n * sums["syy"] - sums["sy"] ** 2
+        c = n * sums["sxy"] - sums["sx"] * sums["sy"]
+        if a < 0 or b < 0 or c * c > a * b or (n == 1 and (a, b, c) != (0, 0, 0)):
+            yield col + "pair sums break Cauchy-Schwarz"
 
 
 def main(paths):
