@@ -33,7 +33,7 @@ summary_status summary_map_file(const char *path, void **map, size_t *len, char 
 enum {
     SUMMARY_COMMON_OPTIONS,   /* options but the target, and the column count */
     SUMMARY_COMMON_SOURCES,
-    SUMMARY_COMMON_TABLE,     /* row counts */
+    SUMMARY_COMMON_TABLE,     /* row counts (then each column, column_write_common) */
     SUMMARY_COMMON_COMOMENTS,
     SUMMARY_COMMON_PIECES
 };

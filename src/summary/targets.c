@@ -242,7 +242,7 @@ static summary_status check_part(const summary *first, const summary *s, size_t 
         if (!same)
             return damaged(err, errlen, "target %zu '%.80s': its %s differ from target 1's", k + 1,
                            s->opt.target, what[piece]);
-        if (piece == SUMMARY_COMMON_OPTIONS) /* the columns, before the co-moments */
+        if (piece == SUMMARY_COMMON_TABLE) /* the columns, before the co-moments */
             for (size_t c = 0; c < s->ncols; c++) {
                 int col_same = same_common(first, s, 0, (long)c);
                 if (col_same < 0) goto oom;
@@ -348,8 +348,8 @@ summary_status summary_set_decode(const uint8_t *data, size_t len, summary_set *
             st = damaged(err, errlen, "section 1 TGTS: target %u: no name", k + 1);
         for (uint32_t i = 0; i < k && st == SUMMARY_OK; i++)
             if (name_len[i] == name_len[k] && memcmp(names[i], names[k], name_len[k]) == 0)
-                st = damaged(err, errlen, "section 1 TGTS: target '%.80s' is listed twice",
-                             names[k]);
+                st = damaged(err, errlen, "section 1 TGTS: target '%.*s' is listed twice",
+                             (int)(name_len[k] < 80 ? name_len[k] : 80), names[k]);
     }
     if (st == SUMMARY_OK && r.pos != r.len)
         st = damaged(err, errlen, "section 1 TGTS: bytes after the names");
