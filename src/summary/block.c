@@ -215,20 +215,20 @@ int block_feed(summary_column *c, block_lane *l, const block_rows *b)
     /* A per-value table only serves a categorical column whose value table
      * stayed exact; once the running value table overflowed it never will. */
     if (c->cross && !values_overflowed(c->vals)) {
-        for (size_t i = 0; i < l->ncells; i++) {
-            if (i + 8 < l->ncells) { /* the tables outgrow the caches */
-                size_t r8 = l->cell_row[i + 8];
-                crosstab_prefetch(c->cross, l->hash[i + 8],
-                                  classes ? b->row_class[r8] : b->row_cell[r8]);
+        if (classes) {
+            for (size_t i = 0; i < l->ncells; i++) l->cells_tmp[i] = b->row_class[l->cell_row[i]];
+            if (crosstab_add_counts(c->cross, l->hash, l->cells_tmp, l->ncells) != 0) return -1;
+        } else {
+            for (size_t i = 0; i < l->ncells; i++) {
+                if (i + 8 < l->ncells) { /* the tables outgrow the caches */
+                    size_t r8 = l->cell_row[i + 8];
+                    crosstab_prefetch(c->cross, l->hash[i + 8], b->row_cell[r8]);
+                }
+                size_t r = l->cell_row[i];
+                if (b->row_has_y[r] &&
+                    crosstab_add_values_in(c->cross, l->hash[i], b->row_cell[r], b->row_y[r], 1) != 0)
+                    return -1;
             }
-            size_t r = l->cell_row[i];
-            int rc = 0;
-            if (classes) {
-                if (b->row_class[r]) rc = crosstab_add_count(c->cross, l->hash[i], b->row_class[r]);
-            } else if (b->row_has_y[r]) {
-                rc = crosstab_add_values_in(c->cross, l->hash[i], b->row_cell[r], b->row_y[r], 1);
-            }
-            if (rc != 0) return -1;
         }
     }
     l->ncells = 0;
