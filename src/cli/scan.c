@@ -89,8 +89,8 @@ int cmd_scan(int argc, char **argv)
         "input) once, in bounded memory, and writes a summary of every column. Several\n"
         "files are read in turn and must share the header. A failed scan writes nothing.\n"
         "With --target A,B,.. the one pass keeps what each target needs, and the summary\n"
-        "holds every target: info, screen, pca, trim, components and corr take --target to\n"
-        "choose one (a column name with commas in it is taken whole when it is a header name).",
+        "holds every target: info, screen, corr, pca, project and trim --from take --target\n"
+        "to choose one. The value is split at commas unless it is, whole, a header name.",
         opts};
     char **pos;
     size_t npos;
