@@ -24,20 +24,19 @@
 #include <unistd.h>
 #include <xxhash.h>
 
+#include "summary/format.h"
 #include "summary/tempfile.h"
 
-static const uint8_t MAGIC[8] = {0x89, 'S', 'H', 'F', 0x0d, 0x0a, 0x1a, 0x0a};
+const uint8_t SUMMARY_MAGIC[8] = {0x89, 'S', 'H', 'F', 0x0d, 0x0a, 0x1a, 0x0a};
+#define MAGIC SUMMARY_MAGIC
 
-#define TAG(a, b, c, d) ((uint32_t)(a) | (uint32_t)(b) << 8 | (uint32_t)(c) << 16 | (uint32_t)(d) << 24)
 #define TAG_SCHEMA TAG('S', 'C', 'H', 'M')
 #define TAG_SOURCES TAG('S', 'R', 'C', 'S')
 #define TAG_TABLE TAG('T', 'A', 'B', 'L')
 #define TAG_COLUMNS TAG('C', 'O', 'L', 'S')
 #define TAG_TARGET TAG('T', 'R', 'G', 'T')
 #define TAG_COMOMENTS TAG('C', 'O', 'M', 'O')
-#define TAG_END TAG('E', 'N', 'D', '.')
 
-#define MAX_NAME_BYTES 65536
 #define MAX_COLUMNS 1000000
 
 /* ---- encoding ----------------------------------------------------------- */
@@ -150,6 +149,28 @@ static void encode_columns(const summary *s, wire_writer *w)
     for (size_t i = 0; i < s->ncols; i++) column_write(&s->cols[i], s->nclasses, version, w);
 }
 
+
+/* What a summary holds apart from its target (summary/format.h). */
+void summary_encode_common(const summary *s, int piece, wire_writer *w)
+{
+    switch (piece) {
+    case SUMMARY_COMMON_OPTIONS:
+        wire_put_u32(w, s->opt.max_levels);
+        wire_put_u32(w, s->opt.label_bytes);
+        wire_put_u32(w, s->opt.bucket_budget);
+        wire_put_u32(w, s->opt.n_missing);
+        for (uint32_t i = 0; i < s->opt.n_missing; i++)
+            wire_put_str(w, s->opt.missing[i], strlen(s->opt.missing[i]));
+        wire_put_u8(w, (uint8_t)s->opt.task);
+        wire_put_u32(w, s->opt.max_classes);
+        wire_put_u64(w, s->ncols);
+        break;
+    case SUMMARY_COMMON_SOURCES: encode_sources(s, w); break;
+    case SUMMARY_COMMON_TABLE: encode_table(s, w); break;
+    case SUMMARY_COMMON_COMOMENTS: encode_comoments(s, w); break;
+    default: break;
+    }
+}
 
 /* ---- decoding ----------------------------------------------------------- */
 
@@ -596,9 +617,19 @@ summary_status summary_decode(const uint8_t *data, size_t len, summary **out, ch
     wire_reader_init(&r, data, len);
     r.pos = sizeof MAGIC;
     uint32_t version = wire_get_u32(&r);
+    if (version == SUMMARY_SET_FORMAT_VERSION) { /* several targets: which one? */
+        summary_set *set;
+        summary_status st = summary_set_decode(data, len, &set, err, errlen);
+        if (st != SUMMARY_OK) return st;
+        char names[512];
+        snprintf(err, errlen, "a summary of %zu targets (%s): choose one", set->n,
+                 summary_set_names(set, names, sizeof names));
+        summary_set_free(set);
+        return SUMMARY_ERR_TARGETS;
+    }
     if (version > SUMMARY_FORMAT_VERSION) {
         snprintf(err, errlen, "summary format version %u is newer than this sheaf reads (%u)",
-                 version, SUMMARY_FORMAT_VERSION);
+                 version, SUMMARY_SET_FORMAT_VERSION);
         return SUMMARY_ERR_CORRUPT;
     }
     /* The trailer: tag, length 8, checksum of everything before it. */
@@ -696,7 +727,7 @@ typedef struct {
     uint64_t bytes;       /* payload bytes of the current section */
 } section_out;
 
-static int write_all(int fd, const void *data, size_t len)
+int summary_write_all(int fd, const void *data, size_t len)
 {
     const uint8_t *p = data;
     while (len) {
@@ -714,7 +745,7 @@ static int section_drain(void *ctx, const uint8_t *data, size_t len)
     section_out *o = ctx;
     XXH3_64bits_update(o->hash, data, len);
     o->bytes += len;
-    return write_all(o->fd, data, len);
+    return summary_write_all(o->fd, data, len);
 }
 
 static int put_le64(uint8_t *b, uint64_t v)
@@ -723,13 +754,25 @@ static int put_le64(uint8_t *b, uint64_t v)
     return 8;
 }
 
-static int write_sections(const summary *s, int fd)
+int summary_hash_region(int fd, off_t from, off_t to, uint64_t *hash)
+{
+    long page = sysconf(_SC_PAGESIZE);
+    off_t start = page > 0 ? from - from % page : 0;
+    size_t len = (size_t)(to - start);
+    void *map = mmap(NULL, len ? len : 1, PROT_READ, MAP_SHARED, fd, start);
+    if (map == MAP_FAILED) return -1;
+    *hash = XXH3_64bits((const uint8_t *)map + (from - start), (size_t)(to - from));
+    munmap(map, len ? len : 1);
+    return 0;
+}
+
+int summary_write_at(const summary *s, int fd, off_t base, off_t *end)
 {
     uint8_t head[12];
     memcpy(head, MAGIC, sizeof MAGIC);
     uint32_t version = summary_file_version(s);
     for (int i = 0; i < 4; i++) head[8 + i] = (uint8_t)(version >> (8 * i));
-    if (write_all(fd, head, sizeof head) != 0) return -1;
+    if (summary_write_all(fd, head, sizeof head) != 0) return -1;
     void (*enc[])(const summary *, wire_writer *) = {encode_schema, encode_sources, encode_table,
                                                       encode_target, encode_columns,
                                                       encode_comoments};
@@ -738,12 +781,12 @@ static int write_sections(const summary *s, int fd)
     section_out so = {fd, XXH3_createState(), 0};
     if (!so.hash) return -1;
     int rc = 0;
-    off_t pos = (off_t)sizeof head;
+    off_t pos = base + (off_t)sizeof head;
     for (int k = 0; k < 6 && rc == 0; k++) {
         uint8_t sh[12];
         for (int i = 0; i < 4; i++) sh[i] = (uint8_t)(tags[k] >> (8 * i));
         put_le64(sh + 4, 0); /* length, patched below */
-        if (write_all(fd, sh, sizeof sh) != 0) { rc = -1; break; }
+        if (summary_write_all(fd, sh, sizeof sh) != 0) { rc = -1; break; }
         XXH3_64bits_reset(so.hash);
         so.bytes = 0;
         wire_writer w;
@@ -758,7 +801,7 @@ static int write_sections(const summary *s, int fd)
         put_le64(sum, XXH3_64bits_digest(so.hash));
         uint8_t lenb[8];
         put_le64(lenb, so.bytes);
-        if (failed || write_all(fd, sum, sizeof sum) != 0 ||
+        if (failed || summary_write_all(fd, sum, sizeof sum) != 0 ||
             pwrite(fd, lenb, sizeof lenb, pos + 4) != (ssize_t)sizeof lenb) {
             rc = -1;
             break;
@@ -771,13 +814,12 @@ static int write_sections(const summary *s, int fd)
     uint8_t tr[20];
     for (int i = 0; i < 4; i++) tr[i] = (uint8_t)(TAG_END >> (8 * i));
     put_le64(tr + 4, 8);
-    if (write_all(fd, tr, 12) != 0) return -1;
-    void *map = mmap(NULL, (size_t)pos + 12, PROT_READ, MAP_SHARED, fd, 0);
-    if (map == MAP_FAILED) return -1;
-    uint64_t h = XXH3_64bits(map, (size_t)pos + 12);
-    munmap(map, (size_t)pos + 12);
+    if (summary_write_all(fd, tr, 12) != 0) return -1;
+    uint64_t h;
+    if (summary_hash_region(fd, base, pos + 12, &h) != 0) return -1;
     put_le64(tr + 12, h);
-    return write_all(fd, tr + 12, 8);
+    if (end) *end = pos + 20;
+    return summary_write_all(fd, tr + 12, 8);
 }
 
 summary_status summary_write(const summary *s, const char *path, char *err, size_t errlen)
@@ -785,7 +827,7 @@ summary_status summary_write(const summary *s, const char *path, char *err, size
     tempfile t; /* written in full, then made the target's (src/summary/tempfile.h) */
     if (tempfile_open(&t, path, TEMPFILE_SEEKABLE, err, errlen) != 0)
         return errno == ENOMEM ? SUMMARY_ERR_MEMORY : SUMMARY_ERR_IO;
-    if (write_sections(s, t.fd) != 0) {
+    if (summary_write_at(s, t.fd, 0, NULL) != 0) {
         int saved = errno;
         snprintf(err, errlen, "%s: cannot write: %s", path, strerror(saved ? saved : EIO));
         tempfile_discard(&t);
@@ -794,9 +836,11 @@ summary_status summary_write(const summary *s, const char *path, char *err, size
     return tempfile_commit(&t, err, errlen) == 0 ? SUMMARY_OK : SUMMARY_ERR_IO;
 }
 
-summary_status summary_read(const char *path, summary **out, char *err, size_t errlen)
+summary_status summary_map_file(const char *path, void **map_out, size_t *len_out, char *err,
+                                size_t errlen)
 {
-    *out = NULL;
+    *map_out = NULL;
+    *len_out = 0;
     int fd = open(path, O_RDONLY | O_CLOEXEC);
     if (fd < 0) {
         snprintf(err, errlen, "%s: cannot open: %s", path, strerror(errno));
@@ -823,10 +867,21 @@ summary_status summary_read(const char *path, summary **out, char *err, size_t e
         snprintf(err, errlen, "%s: cannot map: %s", path, strerror(errno));
         return SUMMARY_ERR_IO;
     }
+    *map_out = map;
+    *len_out = len;
+    return SUMMARY_OK;
+}
+
+summary_status summary_read(const char *path, summary **out, char *err, size_t errlen)
+{
+    *out = NULL;
+    void *map;
+    size_t len;
+    summary_status rc = summary_map_file(path, &map, &len, err, errlen);
+    if (rc != SUMMARY_OK) return rc;
     char inner[400];
-    summary_status rc = summary_decode(map ? map : "", len, out, inner, sizeof inner);
+    rc = summary_decode(map ? map : "", len, out, inner, sizeof inner);
     if (map) munmap(map, len);
     if (rc != SUMMARY_OK) snprintf(err, errlen, "%s: %s", path, inner);
     return rc;
 }
-
