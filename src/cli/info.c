@@ -267,9 +267,9 @@ static int print_text(const summary *s, const held_targets *held, const char *pa
         printf("repeated header lines skipped: %llu (at the start of a gzip member or zstd frame)\n",
                (unsigned long long)summary_repeated_headers(s));
     if (held->n > 1) {
-        printf("targets: %zu,", held->n);
+        printf("targets:");
         for (size_t i = 0; i < held->n; i++) printf("%s %s", i ? "," : "", held->names[i]);
-        printf(" (shown: %s; choose with --target)\n", summary_target_name(s));
+        printf(" (%zu; shown: %s; choose another with --target)\n", held->n, summary_target_name(s));
     }
     if (summary_target_column(s) >= 0) print_target(s, share);
     size_t width = table_terminal_width();

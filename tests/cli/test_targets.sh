@@ -158,7 +158,7 @@ check targets_otherwise_split_at_commas "$(head -c 200 "$T/out")" \
 M=$T/penguins.j1.sheaf
 run $SHEAF info "$M"
 check targets_info_lists_them "exit $RC: $(head -c 300 "$T/out")" \
-    all 'test $RC = 0' 'grep -q "^targets: 2, species, body_mass_g (shown: species" "$T/out"' \
+    all 'test $RC = 0' 'grep -q "^targets: species, body_mass_g (2; shown: species" "$T/out"' \
     'grep -q "^target: species" "$T/out"' 
 run $SHEAF info "$M" --target body_mass_g --json
 JSON_CHECK='import json,sys; d=json.load(open(sys.argv[1])); assert d["format_version"] == 4 and d["targets"] == ["species", "body_mass_g"] and d["target"]["name"] == "body_mass_g", d["targets"]'
