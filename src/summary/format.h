@@ -12,6 +12,12 @@
 
 #define TAG(a, b, c, d) ((uint32_t)(a) | (uint32_t)(b) << 8 | (uint32_t)(c) << 16 | (uint32_t)(d) << 24)
 #define TAG_END TAG('E', 'N', 'D', '.')
+#define TAG_SCHEMA TAG('S', 'C', 'H', 'M')
+#define TAG_SOURCES TAG('S', 'R', 'C', 'S')
+#define TAG_TABLE TAG('T', 'A', 'B', 'L')
+#define TAG_COLUMNS TAG('C', 'O', 'L', 'S')
+#define TAG_TARGET TAG('T', 'R', 'G', 'T')
+#define TAG_COMOMENTS TAG('C', 'O', 'M', 'O')
 #define MAX_NAME_BYTES 65536
 
 extern const uint8_t SUMMARY_MAGIC[8];
