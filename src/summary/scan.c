@@ -8,16 +8,14 @@
  * the same, byte for byte, for any thread count (summary/chunks.h).
  */
 #include "summary/scan.h"
+#include "summary/scan_context.h"
 
 #include <errno.h>
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
-#include <sys/stat.h>
 #include <unistd.h>
-#define XXH_INLINE_ALL
-#include <xxhash.h>
 
 #include "io/chunk.h"
 #include "io/number.h"
@@ -42,52 +40,8 @@ void scan_options_defaults(scan_options *o)
     o->max_record_bytes = 64u << 20;
 }
 
-struct scan_context {
-    scan_options o;        /* options (borrowed strings) */
-    reader_options ro;     /* the reader's options */
-    reader_options head_ro; /* the same, raw: for a stream's first record */
-    reader *rd;            /* the record reader (the reading half) */
-    reader_cursor head;    /* reads a stream's first record on the reading thread */
-    chunks *work;          /* the chunks into the summary (once the schema is known) */
-    unsigned threads;      /* worker threads */
-    uint64_t rss_base;     /* resident bytes when the scan was created (--mem) */
-    uint64_t pushed_bytes; /* stream bytes handed to the workers (--mem messages) */
-    summary *run;          /* the summary (once the schema is known): runs[0] */
-    summary **runs;        /* one summary per target (nruns; one without a target) */
-    size_t nruns;
-    char **target_names;   /* the targets, resolved against the header (ntargets) */
-    size_t ntargets;
-    reader_missing missing; /* the missing-cell test */
-    /* The schema, from the first stream's first record (run is made then). */
-    int *field_of;         /* each scanned column's field index */
-    size_t file_fields;    /* fields in the header */
-    char **header;         /* the header's names (file_fields of them) */
-    char *first_path;      /* the stream the header came from */
-    char *head_line;       /* the current stream's header line, raw, without its line end */
-    size_t head_len;       /* its bytes */
-    uint64_t *repeats;     /* scratch: a chunk's repeated headers */
-    size_t repeats_cap;
-    char delim;            /* the delimiter of the first file */
-    /* The current stream. */
-    char *name;            /* its name (a path, or what the caller chose) */
-    char shown[4352];      /* its name in messages */
-    int open;              /* a stream is open */
-    int at_first;          /* its first record is still to come */
-    int header_only;       /* read only the first record (a shard's header) */
-    uint64_t stop_at;      /* records from here on are the next shard's (0: none) */
-    uint64_t first_end;    /* offset just after the first record of the last file begun at 0 */
-    int done;              /* it needs no more bytes */
-    uint64_t blank_lines;  /* lines of blank chunks before the schema was known */
-    XXH3_state_t *fed_hash; /* fingerprint of fed bytes */
-    uint64_t fed_bytes;    /* bytes fed */
-    uint64_t shard_start, shard_end; /* the byte range scanned, for provenance */
-    uint64_t total_bytes;  /* raw bytes of all paths (progress), 0 if unknown */
-    uint64_t done_bytes;   /* raw bytes of finished streams */
-    scan_status failed;    /* sticky: the first error */
-    char err[4608];        /* its message */
-};
 
-static scan_status fail(scan_context *sc, scan_status st, const char *msg)
+scan_status scan_fail(scan_context *sc, scan_status st, const char *msg)
 {
     if (msg) snprintf(sc->err, sizeof sc->err, "%s", msg);
     sc->failed = st;
@@ -144,7 +98,7 @@ static scan_status within_limit(scan_context *sc, int before_rows)
                  "%s: byte %llu: the scan holds %s (its accumulators, chunk buffers and "
                  "co-moments), above the %s memory limit (--mem)",
                  sc->name ? sc->name : "input", (unsigned long long)sc->pushed_bytes, held, limit);
-    return fail(sc, SCAN_ERR_MEMORY, NULL);
+    return scan_fail(sc, SCAN_ERR_MEMORY, NULL);
 }
 
 
@@ -172,7 +126,7 @@ static scan_status resolve_targets(scan_context *sc, char **names, size_t nnames
 {
     const char *list = sc->o.targets;
     if (list && sc->o.opt.target)
-        return fail(sc, SCAN_ERR_USAGE, "scan options: set opt.target or targets, not both");
+        return scan_fail(sc, SCAN_ERR_USAGE, "scan options: set opt.target or targets, not both");
     if (!list) list = sc->o.opt.target;
     if (!list) return SCAN_OK;
     int whole = !sc->o.targets;
@@ -180,21 +134,21 @@ static scan_status resolve_targets(scan_context *sc, char **names, size_t nnames
     size_t cap = 1;
     for (const char *p = list; !whole && *p; p++) cap += *p == ',';
     sc->target_names = calloc(cap, sizeof *sc->target_names);
-    if (!sc->target_names) return fail(sc, SCAN_ERR_MEMORY, "out of memory");
+    if (!sc->target_names) return scan_fail(sc, SCAN_ERR_MEMORY, "out of memory");
     for (const char *p = list;;) {
         const char *e = whole ? p + strlen(p) : strchrnul(p, ',');
         if (e == p) {
             snprintf(sc->err, sizeof sc->err,
                      "--target: an empty name in '%s' (names are separated by commas)", list);
-            return fail(sc, SCAN_ERR_USAGE, NULL);
+            return scan_fail(sc, SCAN_ERR_USAGE, NULL);
         }
         char *name = strndup(p, (size_t)(e - p));
-        if (!name) return fail(sc, SCAN_ERR_MEMORY, "out of memory");
+        if (!name) return scan_fail(sc, SCAN_ERR_MEMORY, "out of memory");
         for (size_t t = 0; t < sc->ntargets; t++)
             if (strcmp(sc->target_names[t], name) == 0) {
                 snprintf(sc->err, sizeof sc->err, "--target: '%s' is named twice", name);
                 free(name);
-                return fail(sc, SCAN_ERR_USAGE, NULL);
+                return scan_fail(sc, SCAN_ERR_USAGE, NULL);
             }
         sc->target_names[sc->ntargets++] = name;
         if (!*e) break;
@@ -306,7 +260,7 @@ static scan_status first_record(scan_context *sc, const csv_field *f, size_t nf)
             int same = i < nf && i < sc->file_fields;
             if (same) {
                 char *nb = realloc(name, f[i].len + 25);
-                if (!nb) { free(name); return fail(sc, SCAN_ERR_MEMORY, "out of memory"); }
+                if (!nb) { free(name); return scan_fail(sc, SCAN_ERR_MEMORY, "out of memory"); }
                 name = nb;
                 size_t n = reader_column_name(&f[i], i, 1, 1, name);
                 same = strlen(sc->header[i]) == n && memcmp(sc->header[i], name, n) == 0;
@@ -317,7 +271,7 @@ static scan_status first_record(scan_context *sc, const csv_field *f, size_t nf)
                          "%s: header differs from %s's (%zu vs %zu fields; first difference at "
                          "field %zu)",
                          sc->shown, sc->first_path, nf, sc->file_fields, i + 1);
-                return fail(sc, SCAN_ERR_INPUT, NULL);
+                return scan_fail(sc, SCAN_ERR_INPUT, NULL);
             }
         }
         free(name);
@@ -334,12 +288,12 @@ static scan_status first_record(scan_context *sc, const csv_field *f, size_t nf)
     sc->header = names;
     sc->file_fields = nf;
     scan_status st = setup(sc, names, nf);
-    return st == SCAN_OK ? st : fail(sc, st, NULL);
+    return st == SCAN_OK ? st : scan_fail(sc, st, NULL);
 oom:
     if (names)
         for (size_t i = 0; i < nf; i++) free(names[i]);
     free(names);
-    return fail(sc, SCAN_ERR_MEMORY, "out of memory");
+    return scan_fail(sc, SCAN_ERR_MEMORY, "out of memory");
 }
 
 /* A reading error (a record the chunker cannot hold, bad compressed data):
@@ -352,7 +306,7 @@ static scan_status reading_failed(scan_context *sc)
         scan_status st = chunks_wait(sc->work);
         if (st != SCAN_OK) return worked(sc, st);
     }
-    return fail(sc, reader_out_of_memory(sc->rd) ? SCAN_ERR_MEMORY : SCAN_ERR_INPUT,
+    return scan_fail(sc, reader_out_of_memory(sc->rd) ? SCAN_ERR_MEMORY : SCAN_ERR_INPUT,
                 reader_error(sc->rd));
 }
 
@@ -368,7 +322,7 @@ static scan_status head(scan_context *sc, const reader_chunk *ch, int *found)
                  "%s: not text (%s in the first 64 KiB): a binary file, UTF-16, or a compression "
                  "sheaf does not read (it reads gzip and zstd); --force reads it anyway",
                  sc->shown, why);
-        return fail(sc, SCAN_ERR_INPUT, NULL);
+        return scan_fail(sc, SCAN_ERR_INPUT, NULL);
     }
     reader_cursor_start(&sc->head, ch, 0, 0);
     reader_status rs = reader_cursor_next(&sc->head, &rec);
@@ -382,7 +336,7 @@ static scan_status head(scan_context *sc, const reader_chunk *ch, int *found)
             lines = chunks_lines(sc->work);
         }
         reader_cursor_message(&sc->head, sc->shown, lines, sc->err, sizeof sc->err);
-        return fail(sc, sc->head.fault == READER_FAULT_NOMEM ? SCAN_ERR_MEMORY : SCAN_ERR_INPUT,
+        return scan_fail(sc, sc->head.fault == READER_FAULT_NOMEM ? SCAN_ERR_MEMORY : SCAN_ERR_INPUT,
                     NULL);
     }
     scan_status st = first_record(sc, rec.fields, rec.nfields);
@@ -390,7 +344,7 @@ static scan_status head(scan_context *sc, const reader_chunk *ch, int *found)
     if (sc->o.header) { /* kept to recognize it where a compressed member begins */
         size_t hl = (size_t)(rec.eol - rec.text);
         char *p = realloc(sc->head_line, hl ? hl : 1);
-        if (!p) return fail(sc, SCAN_ERR_MEMORY, "out of memory");
+        if (!p) return scan_fail(sc, SCAN_ERR_MEMORY, "out of memory");
         memcpy(p, rec.text, hl);
         sc->head_line = p;
         sc->head_len = hl;
@@ -430,7 +384,7 @@ static scan_status drain(scan_context *sc)
         if (ch.nstarts && sc->head_line) {
             if (ch.nstarts > sc->repeats_cap) {
                 uint64_t *p = realloc(sc->repeats, ch.nstarts * sizeof *p);
-                if (!p) return fail(sc, SCAN_ERR_MEMORY, "out of memory");
+                if (!p) return scan_fail(sc, SCAN_ERR_MEMORY, "out of memory");
                 sc->repeats = p;
                 sc->repeats_cap = ch.nstarts;
             }
@@ -449,10 +403,10 @@ static scan_status drain(scan_context *sc)
 static scan_status begin(scan_context *sc, const char *name, uint64_t from, uint64_t stop_at)
 {
     if (sc->failed) return sc->failed;
-    if (sc->open) return fail(sc, SCAN_ERR_USAGE, "a stream is already open");
+    if (sc->open) return scan_fail(sc, SCAN_ERR_USAGE, "a stream is already open");
     free(sc->name);
     sc->name = strdup(name);
-    if (!sc->name) return fail(sc, SCAN_ERR_MEMORY, "out of memory");
+    if (!sc->name) return scan_fail(sc, SCAN_ERR_MEMORY, "out of memory");
     /* A shard does not know how many lines precede it: its messages count
      * lines from its first record, and say so. */
     if (from) snprintf(sc->shown, sizeof sc->shown, "%s (shard; lines counted from byte %llu)",
@@ -477,7 +431,7 @@ static scan_status begin(scan_context *sc, const char *name, uint64_t from, uint
 static scan_status end(scan_context *sc, const summary_source *prov)
 {
     if (sc->failed) return sc->failed;
-    if (!sc->open) return fail(sc, SCAN_ERR_USAGE, "no stream is open");
+    if (!sc->open) return scan_fail(sc, SCAN_ERR_USAGE, "no stream is open");
     if (!sc->done) {
         reader_finish(sc->rd);
         scan_status st = drain(sc);
@@ -491,7 +445,7 @@ static scan_status end(scan_context *sc, const summary_source *prov)
     if (!sc->delim) sc->delim = reader_delim(sc->rd);
     if (sc->at_first && !sc->run) {
         snprintf(sc->err, sizeof sc->err, "%s: no records (empty input)", sc->name);
-        return fail(sc, SCAN_ERR_INPUT, NULL);
+        return scan_fail(sc, SCAN_ERR_INPUT, NULL);
     }
     if (sc->header_only) return SCAN_OK;
     summary_source rec = *prov;
@@ -502,7 +456,7 @@ static scan_status end(scan_context *sc, const summary_source *prov)
     for (size_t t = 0; t < sc->nruns; t++) {
         sc->runs[t]->bytes += chunks_absorbed(sc->work);
         if (summary_add_source(sc->runs[t], &rec) != 0)
-            return fail(sc, SCAN_ERR_MEMORY, "out of memory");
+            return scan_fail(sc, SCAN_ERR_MEMORY, "out of memory");
     }
     sc->done_bytes += rec.raw_bytes;
     return SCAN_OK;
@@ -562,7 +516,7 @@ scan_status scan_begin(scan_context *sc, const char *name) { return begin(sc, na
 scan_status scan_feed(scan_context *sc, const void *data, size_t len)
 {
     if (sc->failed) return sc->failed;
-    if (!sc->open) return fail(sc, SCAN_ERR_USAGE, "scan_feed: no stream is open (scan_begin)");
+    if (!sc->open) return scan_fail(sc, SCAN_ERR_USAGE, "scan_feed: no stream is open (scan_begin)");
     XXH3_64bits_update(sc->fed_hash, data, len);
     sc->fed_bytes += len;
     const char *p = data;
@@ -619,85 +573,17 @@ scan_status scan_source(scan_context *sc, source *src)
 
 /* A file from byte `from` (0: the whole file, header first), stopping before
  * records that start at stop_at (0: none). */
-static scan_status scan_file(scan_context *sc, const char *path, uint64_t from, uint64_t stop_at)
+scan_status scan_file_range(scan_context *sc, const char *path, uint64_t from, uint64_t stop_at)
 {
     if (sc->failed) return sc->failed;
     errno = 0;
     source *src = from ? source_open_at(path, from, sc->err, sizeof sc->err)
                        : source_open(path, sc->err, sizeof sc->err);
-    if (!src) return fail(sc, errno == ENOMEM ? SCAN_ERR_MEMORY : SCAN_ERR_INPUT, NULL);
+    if (!src) return scan_fail(sc, errno == ENOMEM ? SCAN_ERR_MEMORY : SCAN_ERR_INPUT, NULL);
     scan_status st = begin(sc, path, from, stop_at);
     if (st == SCAN_OK) st = pull(sc, src, from);
     source_close(src);
     return st;
-}
-
-/* --shard I/N of one plain file: the header from byte 0, then the records
- * that start in [size (I-1)/N, size I/N). */
-static scan_status scan_shard(scan_context *sc, const char *path)
-{
-    const scan_options *o = &sc->o;
-    struct stat st;
-    if (strcmp(path, "-") == 0 || stat(path, &st) != 0 || !S_ISREG(st.st_mode)) {
-        snprintf(sc->err, sizeof sc->err, "%s: --shard needs a regular file (not a pipe)", path);
-        return fail(sc, SCAN_ERR_USAGE, NULL);
-    }
-    uint64_t size = (uint64_t)st.st_size;
-    uint64_t lo = size * (o->shard_index - 1) / o->shard_count;
-    uint64_t hi = size * o->shard_index / o->shard_count;
-    sc->shard_start = lo;
-    sc->shard_end = hi;
-    /* A check that the file is plain. */
-    errno = 0;
-    source *probe = source_open(path, sc->err, sizeof sc->err);
-    if (!probe) return fail(sc, errno == ENOMEM ? SCAN_ERR_MEMORY : SCAN_ERR_INPUT, NULL);
-    source_format kind = source_kind(probe);
-    source_close(probe);
-    if (kind != SOURCE_PLAIN) {
-        snprintf(sc->err, sizeof sc->err,
-                 "%s: --shard needs an uncompressed file, this one is %s; split the data into "
-                 "several compressed files instead and scan each as a shard",
-                 path, source_format_name(kind));
-        return fail(sc, SCAN_ERR_USAGE, NULL);
-    }
-    uint64_t first = 0;
-    if (hi == 0) lo = 1; /* more shards than bytes: [0, 0) holds no record start */
-    if (lo > 0) {
-        /* The header (and the delimiter) from byte 0, then the first record
-         * start in the range under the quote rule. */
-        sc->header_only = 1;
-        scan_status hs = scan_file(sc, path, 0, 0);
-        sc->header_only = 0;
-        if (hs != SCAN_OK) return hs;
-        if (chunk_find_record_start(path, lo, sc->delim, &first, sc->err, sizeof sc->err) != 0)
-            return fail(sc, SCAN_ERR_INPUT, NULL);
-        /* The first record (after any blank lines) is the first shard's, even
-         * when this range starts before its end. */
-        if (first < sc->first_end) first = sc->first_end;
-    }
-    if (first >= hi && lo > 0) {
-        /* No record starts in this range: an empty shard. */
-        summary_source rec;
-        memset(&rec, 0, sizeof rec);
-        rec.path = (char *)path;
-        snprintf(rec.format, sizeof rec.format, "plain");
-        rec.size_bytes = size;
-        rec.mtime = (int64_t)st.st_mtime;
-        rec.fingerprint = XXH3_64bits(NULL, 0);
-        rec.start_byte = sc->shard_start;
-        rec.end_byte = sc->shard_end;
-        for (size_t t = 0; t < sc->nruns; t++)
-            if (summary_add_source(sc->runs[t], &rec) != 0)
-                return fail(sc, SCAN_ERR_MEMORY, "out of memory");
-        return SCAN_OK;
-    }
-    return scan_file(sc, path, first, hi - first);
-}
-
-scan_status scan_path(scan_context *sc, const char *path)
-{
-    if (sc->o.shard_count) return scan_shard(sc, path);
-    return scan_file(sc, path, 0, 0);
 }
 
 /* Every summary of the scan finished: each target's cells settled, the
@@ -707,10 +593,10 @@ static int finish_runs(scan_context *sc)
 {
     if (sc->failed) return -1;
     if (sc->open) {
-        fail(sc, SCAN_ERR_USAGE, "scan_finish: a stream is still open (scan_end)");
+        scan_fail(sc, SCAN_ERR_USAGE, "scan_finish: a stream is still open (scan_end)");
         return -1;
     }
-    if (!sc->run) { fail(sc, SCAN_ERR_INPUT, "no records (nothing was scanned)"); return -1; }
+    if (!sc->run) { scan_fail(sc, SCAN_ERR_INPUT, "no records (nothing was scanned)"); return -1; }
     /* Every chunk is absorbed by now (scan_end waited): the last check of
      * --mem sees all that the workers added. */
     if (within_limit(sc, 0) != SCAN_OK) return -1;
@@ -722,7 +608,7 @@ static int finish_runs(scan_context *sc)
          * brought to that numbering (summary/tcells.h). */
         if (summary_target_cells_settle(s) != 0 ||
             (t > 0 && summary_copy_comoments(s, sc->run) != 0) || summary_seal(s) != 0) {
-            fail(sc, SCAN_ERR_MEMORY, "out of memory");
+            scan_fail(sc, SCAN_ERR_MEMORY, "out of memory");
             return -1;
         }
     }
@@ -750,123 +636,11 @@ summary_set *scan_finish_set(scan_context *sc)
 {
     if (finish_runs(sc) != 0) return NULL;
     summary_set *set = malloc(sizeof *set);
-    if (!set) { fail(sc, SCAN_ERR_MEMORY, "out of memory"); return NULL; }
+    if (!set) { scan_fail(sc, SCAN_ERR_MEMORY, "out of memory"); return NULL; }
     set->n = sc->nruns;
     set->parts = sc->runs;
     sc->runs = NULL;
     sc->nruns = 0;
     sc->run = NULL;
     return set;
-}
-
-
-/* Files in turn, each decompressed ahead on a thread of its own (a file and
- * the next at once), READ_AHEAD_CHUNKS chunks ahead at most.  A file that
- * cannot be opened fails when its turn comes, as it would in turn.  Only
- * from READ_AHEAD_MIN_THREADS workers on: below, the reading thread keeps up
- * (on 2 cores at -j2, four gzip files took 13% longer with read-ahead, its
- * threads competing with the workers for the same cores). */
-#define READ_AHEAD_CHUNKS 2
-#define READ_AHEAD_MIN_THREADS 3
-
-static source *open_ahead(scan_context *sc, const char *path, char *err, size_t errlen,
-                          int *nomem)
-{
-    errno = 0;
-    source *src = source_open(path, err, errlen);
-    *nomem = !src && errno == ENOMEM;
-    if (src && source_read_ahead(src, READ_AHEAD_CHUNKS * sc->o.chunk_bytes) != 0) {
-        source_close(src);
-        snprintf(err, errlen, "%s: out of memory: the read-ahead thread", path);
-        *nomem = 1;
-        return NULL;
-    }
-    return src;
-}
-
-static scan_status read_ahead(scan_context *sc, const char *const *paths, size_t npaths)
-{
-    char next_err[sizeof sc->err];
-    int next_nomem = 0;
-    source *next = npaths ? open_ahead(sc, paths[0], next_err, sizeof next_err, &next_nomem) : NULL;
-    scan_status st = SCAN_OK;
-    for (size_t i = 0; st == SCAN_OK && i < npaths; i++) {
-        source *src = next;
-        if (!src) {
-            st = fail(sc, next_nomem ? SCAN_ERR_MEMORY : SCAN_ERR_INPUT, next_err);
-            break;
-        }
-        next = i + 1 < npaths
-                   ? open_ahead(sc, paths[i + 1], next_err, sizeof next_err, &next_nomem)
-                   : NULL;
-        st = scan_source(sc, src);
-        source_close(src);
-    }
-    source_close(next);
-    return st;
-}
-
-/* The paths into sc (see scan_files). */
-static scan_status scan_all(scan_context *sc, const char *const *paths, size_t npaths)
-{
-    /* Sizes for the progress report, from the file system (nothing is read). */
-    for (size_t i = 0; i < npaths; i++) {
-        struct stat st;
-        if (strcmp(paths[i], "-") && stat(paths[i], &st) == 0 && S_ISREG(st.st_mode))
-            sc->total_bytes += (uint64_t)st.st_size;
-    }
-    scan_status st = SCAN_OK;
-    if (sc->o.shard_count || sc->threads < READ_AHEAD_MIN_THREADS) {
-        for (size_t i = 0; st == SCAN_OK && i < npaths; i++) st = scan_path(sc, paths[i]);
-    } else {
-        st = read_ahead(sc, paths, npaths);
-    }
-    return st;
-}
-
-static scan_context *files_context(const scan_options *o, size_t npaths, char *err,
-                                   size_t errlen, scan_status *st)
-{
-    if (o->shard_count && npaths != 1) {
-        snprintf(err, errlen, "--shard reads exactly one file (got %zu)", npaths);
-        *st = SCAN_ERR_USAGE;
-        return NULL;
-    }
-    scan_context *sc = scan_create(o);
-    if (!sc) { snprintf(err, errlen, "out of memory"); *st = SCAN_ERR_MEMORY; }
-    return sc;
-}
-
-scan_status scan_files(const scan_options *o, const char *const *paths, size_t npaths,
-                       summary **out, char *err, size_t errlen)
-{
-    *out = NULL;
-    scan_status st = SCAN_OK;
-    scan_context *sc = files_context(o, npaths, err, errlen, &st);
-    if (!sc) return st;
-    st = scan_all(sc, paths, npaths);
-    if (st == SCAN_OK) {
-        *out = scan_finish(sc);
-        st = sc->failed;
-    }
-    if (st != SCAN_OK) snprintf(err, errlen, "%s", sc->err);
-    scan_free(sc);
-    return st;
-}
-
-scan_status scan_files_set(const scan_options *o, const char *const *paths, size_t npaths,
-                           summary_set **out, char *err, size_t errlen)
-{
-    *out = NULL;
-    scan_status st = SCAN_OK;
-    scan_context *sc = files_context(o, npaths, err, errlen, &st);
-    if (!sc) return st;
-    st = scan_all(sc, paths, npaths);
-    if (st == SCAN_OK) {
-        *out = scan_finish_set(sc);
-        st = sc->failed;
-    }
-    if (st != SCAN_OK) snprintf(err, errlen, "%s", sc->err);
-    scan_free(sc);
-    return st;
 }
