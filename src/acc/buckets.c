@@ -60,54 +60,10 @@
 #include "acc/buckets_key.h"
 #include "acc/radix.h"
 
-#define FIB_MULT 0x9E3779B97F4A7C15ull
-#define MIN_CAP 16
-#define NO_ID 0x80000000ull /* key INT32_MIN, never produced */
-#define ENTRY_WIRE_BYTES 20 /* i64 key, u32 cell, u64 count */
-
-typedef struct {
-    uint64_t id;    /* (cell << 32) | (uint32_t)key */
-    uint64_t count; /* 0 = empty slot */
-} slot;
-
-typedef struct {
-    int32_t key;      /* bucket key at the store's level */
-    uint32_t entries; /* entries with this key; 0 = empty slot */
-} key_slot;
-
-typedef struct {
-    int32_t key;   /* sort key, major */
-    uint32_t cell; /* sort key, minor */
-    uint32_t pos;  /* index into slots */
-} order_item;
-
-struct buckets {
-    slot *slots;        /* entry table, cap slots */
-    size_t cap;         /* power of two */
-    unsigned shift;     /* 64 - log2(cap) */
-    size_t n;           /* occupied slots (entries) */
-    key_slot *keys;     /* per-key entry counts, key_cap slots */
-    size_t key_cap;     /* power of two */
-    unsigned key_shift; /* 64 - log2(key_cap) */
-    size_t nkeys;       /* distinct keys */
-    order_item *order;  /* sort index, ORDER_CAP(cap) items allocated */
-    int order_valid;    /* order holds all n entries, sorted */
-    uint64_t total;     /* sum of all counts */
-    uint32_t budget;    /* most distinct keys allowed */
-    int level;          /* collapse level of the stored keys */
-    uint64_t last_id;   /* id of the last slot hit, NO_ID if none */
-    size_t last_pos;    /* its position */
-};
+#include "acc/buckets_store.h"
 
 /* ---- tables ------------------------------------------------------------- */
 
-static inline uint64_t make_id(int64_t key, uint32_t cell)
-{
-    return ((uint64_t)cell << 32) | (uint32_t)(int32_t)key;
-}
-
-static inline int64_t id_key(uint64_t id) { return (int32_t)(uint32_t)id; }
-static inline uint32_t id_cell(uint64_t id) { return (uint32_t)(id >> 32); }
 
 static unsigned log2_of(size_t pow2)
 {
@@ -241,10 +197,8 @@ static void fill_order(const buckets *b, order_item *out)
     }
 }
 
-/* The sort index for a read: the store's own when sealed; else a temporary
- * one in *tmp, which the caller frees (the store is never written).  -1
- * when memory for the temporary index runs out. */
-static int read_order(const buckets *b, const order_item **order, order_item **tmp)
+/* See buckets_store.h. */
+int buckets_read_order(const buckets *b, const order_item **order, order_item **tmp)
 {
     *tmp = NULL;
     *order = b->order;
@@ -257,7 +211,7 @@ static int read_order(const buckets *b, const order_item **order, order_item **t
 
 /* ---- entry arrays: re-key, sort, combine -------------------------------- */
 
-static int entry_cmp(const void *pa, const void *pb)
+int buckets_entry_cmp(const void *pa, const void *pb)
 {
     const buckets_entry *a = pa, *c = pb;
     if (a->key != c->key) return a->key < c->key ? -1 : 1;
@@ -271,7 +225,7 @@ static void sort_entries(buckets_entry *e, size_t n)
     buckets_entry *copy = pairs ? malloc(n * sizeof *copy) : NULL;
     if (!copy) {
         free(pairs);
-        qsort(e, n, sizeof *e, entry_cmp);
+        qsort(e, n, sizeof *e, buckets_entry_cmp);
         return;
     }
     for (size_t i = 0; i < n; i++) {
@@ -319,9 +273,8 @@ static size_t fit_budget(buckets_entry *e, size_t n, int *level, uint32_t budget
     return n;
 }
 
-/* Replaces b's tables by ones holding the sorted, combined entries e[0..n)
- * at `level`.  b is unchanged on -1. */
-static int rebuild(buckets *b, const buckets_entry *e, size_t n, int level)
+/* See buckets_store.h. */
+int buckets_rebuild(buckets *b, const buckets_entry *e, size_t n, int level)
 {
     size_t nk = distinct_keys(e, n);
     size_t cap = cap_for(n), key_cap = cap_for(nk);
@@ -389,7 +342,7 @@ static int collapse(buckets *b)
     int level = b->level + 1;
     size_t n = sort_combine(e, gather(b, level, NULL, e));
     n = fit_budget(e, n, &level, b->budget);
-    int rc = rebuild(b, e, n, level);
+    int rc = buckets_rebuild(b, e, n, level);
     free(e);
     return rc;
 }
@@ -401,7 +354,7 @@ buckets *buckets_create(uint32_t budget)
     buckets *b = calloc(1, sizeof *b);
     if (!b) return NULL;
     b->budget = budget < BUCKETS_MIN_BUDGET ? BUCKETS_MIN_BUDGET : budget;
-    if (rebuild(b, NULL, 0, 0)) { free(b); return NULL; }
+    if (buckets_rebuild(b, NULL, 0, 0)) { free(b); return NULL; }
     return b;
 }
 
@@ -649,7 +602,7 @@ int buckets_merge(buckets *into, const buckets *from, const uint32_t *cell_map, 
     k += gather(from, level, cell_map, e + k);
     k = sort_combine(e, k);
     k = fit_budget(e, k, &level, into->budget);
-    int rc = rebuild(into, e, k, level);
+    int rc = buckets_rebuild(into, e, k, level);
     free(e);
     return rc;
 }
@@ -714,110 +667,10 @@ buckets_entry buckets_entry_at(const buckets *b, size_t i)
     buckets_entry e = {0, 0, 0};
     const order_item *order;
     order_item *tmp;
-    if (i >= b->n || read_order(b, &order, &tmp)) return e;
+    if (i >= b->n || buckets_read_order(b, &order, &tmp)) return e;
     e.key = order[i].key;
     e.cell = order[i].cell;
     e.count = b->slots[order[i].pos].count;
     free(tmp);
     return e;
-}
-
-double buckets_quantile(const buckets *b, double p, double *rel_err)
-{
-    if (rel_err) *rel_err = buckets_relative_error(b->level);
-    if (b->total == 0 || !(p >= 0.0 && p <= 1.0)) return NAN;
-    /* same double product as numpy's n * quantiles */
-    double rd = ceil(p * (double)b->total);
-    uint64_t rank = rd < 1.0 ? 1 : rd >= (double)b->total ? b->total : (uint64_t)rd;
-    const order_item *order;
-    order_item *tmp;
-    if (read_order(b, &order, &tmp)) return NAN;
-    size_t i = 0; /* the first key whose cumulative count reaches rank; else the last */
-    for (uint64_t cum = 0; i + 1 < b->n; i++)
-        if ((cum += b->slots[order[i].pos].count) >= rank) break;
-    double q = buckets_point(order[i].key, b->level);
-    free(tmp);
-    return q;
-}
-
-/* The key of the value of 0-based rank r (r < total) in key order. */
-static int64_t rank_key(const buckets *b, const order_item *order, uint64_t r)
-{
-    size_t i = 0;
-    for (uint64_t cum = 0; i + 1 < b->n; i++)
-        if ((cum += b->slots[order[i].pos].count) > r) break;
-    return order[i].key;
-}
-
-double buckets_quantile_linear(const buckets *b, double p, double *rel_err)
-{
-    if (rel_err) *rel_err = buckets_relative_error(b->level);
-    if (b->total == 0 || !(p >= 0.0 && p <= 1.0)) return NAN;
-    /* numpy's virtual index (n - 1) p, the same double operation */
-    double n = (double)b->total, h = (n - 1.0) * p, lo = floor(h);
-    if (lo < 0) lo = 0;
-    if (lo > n - 1) lo = n - 1;
-    uint64_t j = (uint64_t)lo;
-    uint64_t k = j + 1 < b->total ? j + 1 : j;
-    double g = h - lo;
-    const order_item *order;
-    order_item *tmp;
-    if (read_order(b, &order, &tmp)) return NAN;
-    double a = buckets_point(rank_key(b, order, j), b->level);
-    double c = k == j ? a : buckets_point(rank_key(b, order, k), b->level);
-    free(tmp);
-    double diff = c - a; /* numpy's _lerp */
-    return g >= 0.5 ? c - diff * (1.0 - g) : a + diff * g;
-}
-
-/* ---- serialization ------------------------------------------------------ */
-
-void buckets_write(const buckets *b, wire_writer *w)
-{
-    const order_item *order;
-    order_item *tmp;
-    if (read_order(b, &order, &tmp)) { w->failed = 1; return; }
-    wire_put_u32(w, b->budget);
-    wire_put_u8(w, (uint8_t)b->level);
-    wire_put_u64(w, (uint64_t)b->n);
-    for (size_t i = 0; i < b->n; i++) {
-        wire_put_i64(w, order[i].key);
-        wire_put_u32(w, order[i].cell);
-        wire_put_u64(w, b->slots[order[i].pos].count);
-    }
-    free(tmp);
-}
-
-buckets *buckets_read(wire_reader *r)
-{
-    uint32_t budget = wire_get_u32(r);
-    int level = wire_get_u8(r);
-    uint64_t n = wire_get_u64(r);
-    if (r->failed) return NULL;
-    if (budget < BUCKETS_MIN_BUDGET || level > BUCKETS_MAX_LEVEL || n > UINT32_MAX / 4
-        || n > SIZE_MAX / ENTRY_WIRE_BYTES || !wire_need(r, (size_t)n * ENTRY_WIRE_BYTES)) {
-        r->failed = 1;
-        return NULL;
-    }
-    buckets_entry *e = malloc((n ? (size_t)n : 1) * sizeof *e);
-    if (!e) return NULL;
-    int64_t top = max_magnitude(level);
-    size_t nkeys = 0;
-    uint64_t total = 0;
-    for (size_t i = 0; i < n; i++) {
-        e[i].key = wire_get_i64(r);
-        e[i].cell = wire_get_u32(r);
-        e[i].count = wire_get_u64(r);
-        int bad = e[i].key > top || e[i].key < -top || e[i].count == 0
-                  || total + e[i].count < total;
-        if (i > 0 && entry_cmp(&e[i - 1], &e[i]) >= 0) bad = 1;
-        if (bad) { r->failed = 1; free(e); return NULL; }
-        total += e[i].count;
-        if (i == 0 || e[i].key != e[i - 1].key) nkeys++;
-    }
-    if (r->failed || nkeys > budget) { r->failed = 1; free(e); return NULL; }
-    buckets *b = buckets_create(budget);
-    if (!b || rebuild(b, e, (size_t)n, level)) { buckets_free(b); free(e); return NULL; }
-    free(e);
-    return b;
 }
