@@ -39,6 +39,64 @@ static csv_status next_rec(csv_reader *r, csv_record *rec, const csv_field **f, 
     return st;
 }
 
+/* Appends a record's rendering: its first MAX_FIELDS fields, then
+ * "count@line". */
+static void render(tokenized *t, size_t *used, const char *const *ptr, const uint32_t *len,
+                   size_t n, uint64_t line)
+{
+    size_t shown = n < MAX_FIELDS ? n : MAX_FIELDS;
+    t->records++;
+    for (size_t i = 0; i < shown; i++) {
+        cr_assert_lt(*used + len[i] + 3, sizeof t->text);
+        t->text[(*used)++] = '<';
+        memcpy(t->text + *used, ptr[i], len[i]);
+        *used += len[i];
+        t->text[(*used)++] = '>';
+    }
+    *used += (size_t)snprintf(t->text + *used, sizeof t->text - *used, "%zu@%llu\n", n,
+                              (unsigned long long)line);
+    cr_assert_lt(*used + 2, sizeof t->text);
+}
+
+/* The same with csv_next_rows, `batch` rows at a time (rows of MAX_FIELDS
+ * spans, so that every field rendered is kept). */
+static tokenized tokenize_rows(const char *data, size_t len, char delim, size_t batch)
+{
+    tokenized t;
+    memset(&t, 0, sizeof t);
+    char *buf = malloc(len + CSV_READ_AHEAD + 1);
+    cr_assert_not_null(buf);
+    memcpy(buf, data, len);
+    for (size_t i = 0; i < CSV_READ_AHEAD + 1; i++) buf[len + i] = "\"\n\r,;\t|x"[i % 8];
+    csv_reader r;
+    csv_reader_init_padded(&r, buf, len, delim);
+    csv_span cells[MAX_FIELDS * 4];
+    uint32_t nf[4];
+    uint64_t line[4];
+    cr_assert_leq(batch, 4);
+    csv_rows rows = {cells, batch, MAX_FIELDS, 0, batch, nf, line, buf, SIZE_MAX, SIZE_MAX};
+    size_t used = 0;
+    csv_status st;
+    do {
+        rows.rows = 0;
+        st = csv_next_rows(&r, &rows);
+        for (size_t i = 0; i < rows.rows; i++) {
+            const char *ptr[MAX_FIELDS];
+            uint32_t flen[MAX_FIELDS];
+            for (size_t f = 0; f < MAX_FIELDS; f++) {
+                ptr[f] = buf + cells[f * batch + i].off;
+                flen[f] = cells[f * batch + i].len;
+            }
+            render(&t, &used, ptr, flen, nf[i], line[i] - 1);
+        }
+    } while (st == CSV_RECORD);
+    t.text[used] = '\0';
+    t.last = st;
+    t.lines = r.lines;
+    free(buf);
+    return t;
+}
+
 /* Tokenizes a copy of data[0..len) (the reader writes into its chunk) with
  * the plain reader (padded = 0) or the padded one, whose buffer is followed
  * by CSV_READ_AHEAD bytes of delimiters, quotes and newlines that must
@@ -58,20 +116,13 @@ static tokenized tokenize_with(const char *data, size_t len, char delim, int pad
     size_t used = 0;
     csv_status st;
     while ((st = csv_next(&r, &rec)) == CSV_RECORD) {
-        const csv_field *f = rec.fields;
-        size_t n = rec.nfields;
-        t.records++;
-        size_t shown = n < MAX_FIELDS ? n : MAX_FIELDS;
-        for (size_t i = 0; i < shown; i++) {
-            cr_assert_lt(used + f[i].len + 3, sizeof t.text);
-            t.text[used++] = '<';
-            memcpy(t.text + used, f[i].ptr, f[i].len);
-            used += f[i].len;
-            t.text[used++] = '>';
+        const char *ptr[MAX_FIELDS];
+        uint32_t flen[MAX_FIELDS];
+        for (size_t i = 0; i < rec.nfields && i < MAX_FIELDS; i++) {
+            ptr[i] = rec.fields[i].ptr;
+            flen[i] = rec.fields[i].len;
         }
-        used += (size_t)snprintf(t.text + used, sizeof t.text - used, "%zu@%llu\n", n,
-                                 (unsigned long long)r.record_line);
-        cr_assert_lt(used + 2, sizeof t.text);
+        render(&t, &used, ptr, flen, rec.nfields, r.record_line);
     }
     t.text[used] = '\0';
     t.last = st;
@@ -81,15 +132,26 @@ static tokenized tokenize_with(const char *data, size_t len, char delim, int pad
     return t;
 }
 
-/* Both readers, which must agree; returns the rendering without the field
- * counts and record lines (those are compared, then dropped). */
+/* The plain reader against the padded one and the rows reader (two rows at
+ * a time), which must agree. */
+static void agree(const tokenized *a, const char *data, size_t len, char delim, const char *what)
+{
+    tokenized b = tokenize_with(data, len, delim, 1), c = tokenize_rows(data, len, delim, 2);
+    cr_assert_str_eq(a->text, b.text, "plain and padded readers differ on %s", what);
+    cr_assert_str_eq(a->text, c.text, "plain and rows readers differ on %s", what);
+    cr_assert(a->last == b.last && a->last == c.last, "%s", what);
+    cr_assert(a->lines == b.lines && a->lines == c.lines, "%s", what);
+    cr_assert(a->records == b.records && a->records == c.records, "%s", what);
+}
+
+/* The three readers, which must agree; returns the rendering without the
+ * field counts and record lines (those are compared, then dropped). */
 static tokenized tokenize_n(const char *data, size_t len, char delim)
 {
-    tokenized a = tokenize_with(data, len, delim, 0), b = tokenize_with(data, len, delim, 1);
-    cr_assert_str_eq(a.text, b.text, "plain and padded readers differ on \"%.*s\"", (int)len, data);
-    cr_assert_eq(a.last, b.last);
-    cr_assert_eq(a.lines, b.lines);
-    cr_assert_eq(a.records, b.records);
+    tokenized a = tokenize_with(data, len, delim, 0);
+    char what[200];
+    snprintf(what, sizeof what, "\"%.*s\"", (int)(len < 150 ? len : 150), data);
+    agree(&a, data, len, delim, what);
     /* Drop the "N@L" annotations: the expectations below predate them. */
     char *w = a.text;
     for (const char *p = a.text; *p;) {
@@ -394,10 +456,11 @@ Test(csv, quote_scan_agrees_with_the_tokenizer_on_random_text)
     csv_record_free(&rec);
 }
 
-Test(csv, padded_reader_agrees_with_the_plain_one_on_random_chunks)
+Test(csv, padded_and_rows_readers_agree_with_the_plain_one_on_random_chunks)
 {
     /* Differential: 20,000 random chunks over an alphabet rich in the bytes
-     * that matter, every length from 0 to 300, three delimiters. */
+     * that matter, every length from 0 to 300, three delimiters; the rows
+     * reader (csv_next_rows) also 1, 2 and 3 rows at a time. */
     static const char alphabet[] = "ab1,,,;\t\"\"\n\n\r ";
     uint64_t x = 0x243F6A8885A308D3ull;
     char data[301];
@@ -408,10 +471,16 @@ Test(csv, padded_reader_agrees_with_the_plain_one_on_random_chunks)
             data[i] = alphabet[x % (sizeof alphabet - 1)];
         }
         char delim = ",;\t"[iter % 3];
-        tokenized a = tokenize_with(data, len, delim, 0), b = tokenize_with(data, len, delim, 1);
-        cr_assert_str_eq(a.text, b.text, "iteration %d", iter);
-        cr_assert_eq(a.last, b.last, "iteration %d", iter);
-        cr_assert_eq(a.lines, b.lines, "iteration %d", iter);
+        tokenized a = tokenize_with(data, len, delim, 0);
+        char what[32];
+        snprintf(what, sizeof what, "iteration %d", iter);
+        agree(&a, data, len, delim, what);
+        /* One row at a time and three: where a batch ends changes nothing. */
+        for (size_t batch = 1; batch <= 3; batch += 2) {
+            tokenized c = tokenize_rows(data, len, delim, batch);
+            cr_assert_str_eq(a.text, c.text, "%s, %zu rows at a time", what, batch);
+            cr_assert(a.last == c.last && a.lines == c.lines, "%s", what);
+        }
     }
 }
 
