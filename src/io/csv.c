@@ -8,6 +8,14 @@
 #if defined(__SSE2__)
 #include <emmintrin.h>
 #endif
+/* AVX2 blocks where the compiler can target them and the CPU has them
+ * (csv_reader_init_padded asks); SSE2 (x86-64's baseline) or SWAR else. */
+#if defined(__x86_64__) && defined(__GNUC__)
+#include <immintrin.h>
+#define CSV_WIDE 1
+#else
+#define CSV_WIDE 0
+#endif
 
 void csv_record_free(csv_record *rec)
 {
@@ -75,6 +83,7 @@ void csv_reader_init(csv_reader *r, char *data, size_t len, char delim)
     r->record_start = data;
     r->record_end = data;
     r->padded = 0;
+    r->wide = 0;
     r->mask_base = data;
     r->mask_bits = 0;
 }
@@ -83,7 +92,8 @@ void csv_reader_init(csv_reader *r, char *data, size_t len, char delim)
  * Returns the byte after the field's last character, or NULL if the quote
  * is not closed before end.  *flen receives the unescaped length; newlines
  * inside the quotes are added to *lines. */
-static char *quoted(char *p, char *end, char delim, uint32_t *flen, uint64_t *lines)
+static __attribute__((noinline)) char *quoted(char *p, char *end, char delim, uint32_t *flen,
+                                              uint64_t *lines)
 {
     char *out = p, *start = p;
     for (;;) {
@@ -177,29 +187,56 @@ static inline uint64_t block_mask(const char *b, char delim)
 #endif
 }
 
-/* The marks of the block at b (b < end); none at or past end. */
-static inline uint64_t marks_at(const char *b, const char *end, char delim)
+#if CSV_WIDE
+/* block_mask 32 bytes at a time (AVX2): the same bits. */
+static inline __attribute__((target("avx2"))) uint64_t block_mask_wide(const char *b, char delim)
 {
-    size_t left = (size_t)(end - b);
-    uint64_t m = block_mask(b, delim);
-    return left >= 64 ? m : m & ((1ull << left) - 1);
+    const __m256i d = _mm256_set1_epi8(delim), nl = _mm256_set1_epi8('\n'),
+                  q = _mm256_set1_epi8('"');
+    uint64_t m = 0;
+    for (int k = 0; k < 2; k++) {
+        __m256i v = _mm256_loadu_si256((const __m256i *)(const void *)(b + 32 * k));
+        __m256i hit = _mm256_or_si256(
+            _mm256_or_si256(_mm256_cmpeq_epi8(v, d), _mm256_cmpeq_epi8(v, nl)),
+            _mm256_cmpeq_epi8(v, q));
+        m |= (uint64_t)(uint32_t)_mm256_movemask_epi8(hit) << (32 * k);
+    }
+    return m;
 }
+#endif
 
 /* The current block and its marks not yet passed. */
 typedef struct {
     const char *base; /* the block's first byte (never past end) */
     uint64_t bits;    /* bit i: base[i] is a mark at or after the reading position */
+    int wide;         /* blocks are read with block_mask_wide: a constant where the marks
+                         are walked (row_fields, row_fields_wide) */
 } marks;
 
-/* Moves the reading position to p (at or after every mark passed). */
-static inline void marks_skip_to(marks *m, const char *p, const char *end, char delim)
+/* The marks of the block at b (b < end); none at or past end. */
+static inline uint64_t marks_at(const marks *m, const char *b, const char *end, char delim)
+{
+    size_t left = (size_t)(end - b);
+#if CSV_WIDE
+    uint64_t bits = m->wide ? block_mask_wide(b, delim) : block_mask(b, delim);
+#else
+    (void)m;
+    uint64_t bits = block_mask(b, delim);
+#endif
+    return left >= 64 ? bits : bits & ((1ull << left) - 1);
+}
+
+/* Moves the reading position to p (at or after every mark passed).  Past
+ * the block, the block becomes the empty one just before p, so that the
+ * next marks_refill loads the block at p (one place loads blocks). */
+static inline void marks_skip_to(marks *m, const char *p)
 {
     size_t off = (size_t)(p - m->base);
     if (off < 64) {
         m->bits &= ~0ull << off;
     } else {
-        m->base = p;
-        m->bits = p < end ? marks_at(p, end, delim) : 0;
+        m->base = p - 64;
+        m->bits = 0;
     }
 }
 
@@ -210,7 +247,7 @@ static inline int marks_refill(marks *m, const char *end, char delim)
     do {
         if (end - m->base <= 64) return 0;
         m->base += 64;
-        m->bits = marks_at(m->base, end, delim);
+        m->bits = marks_at(m, m->base, end, delim);
     } while (!m->bits);
     return 1;
 }
@@ -263,11 +300,12 @@ static inline const char *plain_quoted(marks *m, const char *end, char delim, ui
  * registers. */
 static inline __attribute__((always_inline)) csv_status
 fields_of(csv_reader *r, marks *mk, char *f, const char *base, csv_span *dst, size_t stride,
-          size_t width, csv_record *rec, size_t *nfields, char **after)
+          size_t width, csv_record *rec, size_t *nfields, char **after, int wide)
 {
     const char delim = r->delim;
     char *const end = r->end;
     marks m = *mk;
+    m.wide = wide;
     size_t nf = 0;
     csv_status st = CSV_RECORD;
     const char *s;
@@ -314,12 +352,12 @@ fields_of(csv_reader *r, marks *mk, char *f, const char *base, csv_span *dst, si
          * a closing quote: the '\r' is no text), or the end. */
         if (s < end && *s == delim) {
             f = (char *)s + 1;
-            marks_skip_to(&m, f, end, delim);
+            marks_skip_to(&m, f);
             continue;
         }
         if (s < end && *s == '\r') s++;
         if (s < end) { s++; r->lines++; }
-        marks_skip_to(&m, s, end, delim);
+        marks_skip_to(&m, s);
         goto record_done;
     }
 last_field:
@@ -344,13 +382,27 @@ static __attribute__((noinline)) csv_status
 row_fields(csv_reader *r, marks *mk, char *f, const char *base, csv_span *dst, size_t stride,
            size_t width, size_t *nfields, char **after)
 {
-    return fields_of(r, mk, f, base, dst, stride, width, NULL, nfields, after);
+    return fields_of(r, mk, f, base, dst, stride, width, NULL, nfields, after, 0);
 }
+
+#if CSV_WIDE
+/* The same loop with AVX2 blocks.  flatten: block_mask_wide may only be
+ * inlined into a function compiled for AVX2, so the helpers that call it
+ * are inlined here with it (quoted() stays a call). */
+static __attribute__((noinline, flatten, target("avx2"))) csv_status
+row_fields_wide(csv_reader *r, marks *mk, char *f, const char *base, csv_span *dst,
+                size_t stride, size_t width, size_t *nfields, char **after)
+{
+    return fields_of(r, mk, f, base, dst, stride, width, NULL, nfields, after, 1);
+}
+#else
+#define row_fields_wide row_fields
+#endif
 
 static __attribute__((noinline)) csv_status
 record_fields(csv_reader *r, marks *mk, char *f, csv_record *rec, size_t *nfields, char **after)
 {
-    return fields_of(r, mk, f, f, rec->spans, 1, rec->cap, rec, nfields, after);
+    return fields_of(r, mk, f, f, rec->spans, 1, rec->cap, rec, nfields, after, 0);
 }
 
 /* The padded reader's loop over records, for csv_next_rows and (rec not
@@ -360,9 +412,9 @@ padded_rows(csv_reader *r, csv_rows *out, csv_record *rec)
 {
     char *const end = r->end;
     char *p = r->pos;
-    marks m = {r->mask_base, r->mask_bits};
+    marks m = {r->mask_base, r->mask_bits, 0};
     csv_status st = CSV_RECORD;
-    marks_skip_to(&m, p, end, r->delim);
+    marks_skip_to(&m, p);
     while (out->rows < out->max_rows) {
         /* Blank lines (nothing but a line end) are no records. */
         char *blank = p;
@@ -371,15 +423,20 @@ padded_rows(csv_reader *r, csv_rows *out, csv_record *rec)
             r->lines++;
         }
         if (p >= end) { st = CSV_END; break; }
-        if (p != blank) marks_skip_to(&m, p, end, r->delim);
+        if (p != blank) marks_skip_to(&m, p);
         r->record_start = p;
         r->record_line = r->lines;
         if (!rec && (size_t)(p - out->base) >= out->stop) { st = CSV_STOP; break; }
         size_t nf;
         char *after;
-        st = rec ? record_fields(r, &m, p, rec, &nf, &after)
-                 : row_fields(r, &m, p, out->base, out->cells + out->rows, out->stride,
-                              out->width, &nf, &after);
+        if (rec)
+            st = record_fields(r, &m, p, rec, &nf, &after);
+        else if (r->wide)
+            st = row_fields_wide(r, &m, p, out->base, out->cells + out->rows, out->stride,
+                                 out->width, &nf, &after);
+        else
+            st = row_fields(r, &m, p, out->base, out->cells + out->rows, out->stride,
+                            out->width, &nf, &after);
         p = after;
         if (st != CSV_RECORD) break;
         r->record_end = p;
@@ -398,7 +455,11 @@ void csv_reader_init_padded(csv_reader *r, char *data, size_t len, char delim)
 {
     csv_reader_init(r, data, len, delim);
     r->padded = 1;
-    r->mask_bits = len ? marks_at(data, r->end, delim) : 0;
+    const marks m = {data, 0, 0};
+    r->mask_bits = len ? marks_at(&m, data, r->end, delim) : 0;
+#if CSV_WIDE
+    r->wide = __builtin_cpu_supports("avx2") != 0;
+#endif
 }
 
 csv_status csv_next_rows(csv_reader *r, csv_rows *out)
@@ -518,43 +579,146 @@ void csv_quote_init(csv_quote_state *q, char delim)
     q->delim = delim;
 }
 
-size_t csv_quote_scan(csv_quote_state *q, const char *data, size_t len, int first)
+/* Bit i set: byte b[i] is c (i < 64). */
+static inline uint64_t byte_mask(const char *b, char c)
+{
+#if defined(__SSE2__)
+    const __m128i x = _mm_set1_epi8(c);
+    uint64_t m = 0;
+    for (int k = 0; k < 4; k++) {
+        __m128i v = _mm_loadu_si128((const __m128i *)(const void *)(b + 16 * k));
+        m |= (uint64_t)(uint16_t)_mm_movemask_epi8(_mm_cmpeq_epi8(v, x)) << (16 * k);
+    }
+    return m;
+#else
+    const uint64_t ones = 0x0101010101010101ull, low7 = 0x7F7F7F7F7F7F7F7Full;
+    uint64_t m = 0;
+    for (int k = 0; k < 8; k++) { /* as block_mask does */
+        uint64_t w;
+        memcpy(&w, b + 8 * k, 8);
+        w ^= ones * (unsigned char)c;
+        uint64_t hit = ~(((w & low7) + low7) | w) & ~low7;
+        m |= (((hit >> 7) * 0x0102040810204080ull) >> 56) << (8 * k);
+    }
+    return m;
+#endif
+}
+
+/* The quote rule over raw bytes, 64 at a time: each block gives the bits
+ * of its quotes (and, looking for the first record end, of its newlines),
+ * and only those positions are looked at.  Outside quotes, a quote opens
+ * quotes when the byte before it is the delimiter or '\n' (at data[0]: when
+ * the state says a field starts); inside, the next quote either doubles (the
+ * pair is passed) or closes.  Text without quotes is passed with memchr.
+ *
+ * For the last record end (the chunker's question) newlines are not looked
+ * at on the way: the stretches outside quotes are noted (the last
+ * QUOTE_STRETCHES of them), and the newest that holds a newline gives it,
+ * searched backwards with memrchr (which stops within a line or so).  Only
+ * when none of those holds one is the data read again with its newlines.
+ *
+ * last: 0 for the first record end; 1 for the last; 2 for the last, reading
+ * every block's newlines (the fallback). */
+#define QUOTE_STRETCHES 32
+static size_t quote_scan_full(csv_quote_state *q, const char *data, size_t len);
+
+/* Inlined into three functions below with last a constant. */
+static inline __attribute__((always_inline)) size_t
+quote_scan(csv_quote_state *q, const char *data, size_t len, int last)
 {
     const char delim = q->delim;
-    csv_quote_mode mode = q->mode;
-    size_t best = len + 1, pos = 0;
-    while (pos < len) {
-        if (mode == CSV_IN_QUOTES) {
-            const char *e = memchr(data + pos, '"', len - pos);
-            if (!e) { pos = len; break; }
-            pos = (size_t)(e - data) + 1;
-            mode = CSV_QUOTE_SEEN;
+    const csv_quote_mode mode = q->mode;
+    size_t best = len + 1;
+    size_t pos = 0;   /* the first byte not yet looked at */
+    size_t plain = 0; /* outside quotes: where the stretch began */
+    size_t stretch[QUOTE_STRETCHES][2], nstretch = 0; /* [begin, end) of the newest, in a ring */
+    int inq = mode == CSV_IN_QUOTES, seen = 0; /* seen: a quote at len-1 may close */
+    if (mode == CSV_QUOTE_SEEN && len) {
+        inq = data[0] == '"'; /* a doubled quote: still inside; else closed before data[0] */
+        pos = plain = inq;
+    }
+    char tail[64];
+    for (size_t at = 0; at < len; at += 64) {
+        const char *b = data + at;
+        const size_t n = len - at < 64 ? len - at : 64;
+        if (n < 64) { /* the last bytes: nothing past len is read */
+            memset(tail, 0, sizeof tail);
+            memcpy(tail, b, n);
+            b = tail;
+        }
+        if (pos >= at + n) continue; /* a doubled quote's second half ended the block */
+        const uint64_t quotes = byte_mask(b, '"');
+        if (!inq && last == 1 && !(quotes >> (pos - at))) {
+            /* Nothing but text up to the next quote. */
+            const char *nq = at + n == len ? NULL : memchr(b + 64, '"', len - at - 64);
+            if (!nq) break;
+            pos = (size_t)(nq - data);
+            at = pos - 64; /* the next block begins at the quote */
             continue;
         }
-        if (mode == CSV_QUOTE_SEEN) {
-            if (data[pos] == '"') { mode = CSV_IN_QUOTES; pos++; continue; }
-            mode = CSV_IN_FIELD; /* closed: the byte at pos is outside quotes */
-        }
-        /* Outside quotes: newlines end records; a quote opens quotes only as
-         * the first byte of a field. */
-        const char *e = memchr(data + pos, '"', len - pos);
-        size_t stop = e ? (size_t)(e - data) : len;
-        if (stop > pos) {
-            const char *nl = first ? memchr(data + pos, '\n', stop - pos)
-                                   : memrchr(data + pos, '\n', stop - pos);
-            if (nl) {
-                best = (size_t)(nl - data) + 1;
-                if (first) { q->mode = CSV_AT_FIELD; return best; }
+        const uint64_t newlines = last == 1 ? 0 : byte_mask(b, '\n');
+        uint64_t outside = 0; /* last == 2: the block's newlines outside quotes */
+        while (pos < at + n) {
+            uint64_t qb = quotes & (~0ull << (pos - at)); /* quotes at or after pos */
+            if (inq) {
+                if (!qb) break; /* the rest of the block is quoted */
+                size_t i = at + (size_t)__builtin_ctzll(qb);
+                if (i + 1 == len) { seen = 1; pos = len; break; } /* closing, unless more follows */
+                if (data[i + 1] == '"') { pos = i + 2; continue; } /* doubled: passed as a pair */
+                inq = 0;
+                pos = plain = i + 1;
+                continue;
             }
-            char last = data[stop - 1];
-            mode = last == delim || last == '\n' ? CSV_AT_FIELD : CSV_IN_FIELD;
+            /* Outside quotes up to the next quote: its newlines end records. */
+            uint64_t nb = newlines & (~0ull << (pos - at)) & (qb ? (qb & -qb) - 1 : ~0ull);
+            if (!last && nb) {
+                q->mode = CSV_AT_FIELD;
+                return at + (size_t)__builtin_ctzll(nb) + 1;
+            }
+            outside |= nb;
+            if (!qb) break;
+            size_t i = at + (size_t)__builtin_ctzll(qb);
+            pos = i + 1;
+            if (i == 0 ? mode == CSV_AT_FIELD : data[i - 1] == delim || data[i - 1] == '\n') {
+                stretch[nstretch % QUOTE_STRETCHES][0] = plain;
+                stretch[nstretch % QUOTE_STRETCHES][1] = i;
+                nstretch++;
+                inq = 1;
+            }
         }
-        if (!e) { pos = len; break; }
-        mode = mode == CSV_AT_FIELD ? CSV_IN_QUOTES : CSV_IN_FIELD;
-        pos = stop + 1;
+        if (pos < at + n) pos = at + n;
+        if (outside) best = at + (size_t)(63 - __builtin_clzll(outside)) + 1;
     }
-    q->mode = mode;
-    return best;
+    if (seen) q->mode = CSV_QUOTE_SEEN;
+    else if (inq) q->mode = CSV_IN_QUOTES;
+    else if (len) q->mode = data[len - 1] == delim || data[len - 1] == '\n' ? CSV_AT_FIELD
+                                                                           : CSV_IN_FIELD;
+    else q->mode = mode;
+    if (last != 1) return best;
+    /* The newest stretch outside quotes with a newline: the data's end first. */
+    if (!inq && !seen && plain < len) {
+        const char *nl = memrchr(data + plain, '\n', len - plain);
+        if (nl) return (size_t)(nl - data) + 1;
+    }
+    for (size_t k = 0; k < nstretch && k < QUOTE_STRETCHES; k++) {
+        const size_t *s = stretch[(nstretch - 1 - k) % QUOTE_STRETCHES];
+        const char *nl = s[1] > s[0] ? memrchr(data + s[0], '\n', s[1] - s[0]) : NULL;
+        if (nl) return (size_t)(nl - data) + 1;
+    }
+    if (nstretch <= QUOTE_STRETCHES) return len + 1; /* every stretch was searched */
+    csv_quote_state again = {mode, delim};
+    return quote_scan_full(&again, data, len);
+}
+
+static __attribute__((noinline)) size_t quote_scan_full(csv_quote_state *q, const char *data,
+                                                        size_t len)
+{
+    return quote_scan(q, data, len, 2);
+}
+
+size_t csv_quote_scan(csv_quote_state *q, const char *data, size_t len, int first)
+{
+    return first ? quote_scan(q, data, len, 0) : quote_scan(q, data, len, 1);
 }
 
 char csv_detect_delimiter(const char *data, size_t len)
