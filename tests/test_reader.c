@@ -222,8 +222,9 @@ Test(reader, record_over_the_limit_after_a_byte_order_mark_starts_after_it)
 
 Test(reader, missing_test_knows_spellings_of_63_bytes_and_more)
 {
-    /* Lengths from 63 on share one bit of the first test (reader.h): each
-     * length must still be told apart by the spellings themselves. */
+    /* Lengths 64 apart share a bit of the first test (reader.h), and a
+     * spelling of 64 bytes shares the empty cell's: each length must still
+     * be told apart by the spellings themselves. */
     char longer[71], cell[80];
     memset(longer, 'x', 70);
     longer[70] = '\0';
@@ -237,7 +238,15 @@ Test(reader, missing_test_knows_spellings_of_63_bytes_and_more)
     cr_assert(!reader_is_missing(&m, cell, 71));
     cell[69] = 'y';
     cr_assert(!reader_is_missing(&m, cell, 70));
-    cr_assert(!reader_is_missing(&m, cell, 6)); /* 70 & 63: no alias either */
+    cr_assert(!reader_is_missing(&m, cell, 6)); /* 70 % 64: no alias either */
+    char sixty_four[65];
+    memset(sixty_four, 'x', 64);
+    sixty_four[64] = '\0';
+    const char *sp64[] = {sixty_four};
+    reader_missing_init(&m, sp64, 1);
+    cr_assert(reader_is_missing(&m, "x", 0)); /* empty: missing, whatever the bits */
+    cr_assert(reader_is_missing(&m, cell, 64));
+    cr_assert(!reader_is_missing(&m, cell, 1));
 }
 
 /* ---- rows: reader_cursor_rows against reader_cursor_next ------------------ */

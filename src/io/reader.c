@@ -470,6 +470,6 @@ void reader_missing_init(reader_missing *m, const char *const *spellings, uint32
         size_t l = strlen(spellings[i]);
         m->spelling[i] = spellings[i];
         m->len[i] = l;
-        if (l) m->cand[(unsigned char)spellings[i][0]] |= 1ull << (l < 63 ? l : 63);
+        if (l) m->cand[(unsigned char)spellings[i][0]] |= 1ull << (l % 64);
     }
 }

@@ -222,9 +222,9 @@ typedef struct {
     const char *spelling[READER_MAX_MISSING]; /* borrowed spellings */
     size_t len[READER_MAX_MISSING];           /* their lengths */
     uint32_t n;                               /* how many */
-    /* Bit L of cand[b] (L < 63): some spelling has length L and first byte
-     * b; bit 63: some spelling of 63 bytes or more starts with b.  A
-     * non-empty cell whose bit is clear is present after this one test. */
+    /* Bit L % 64 of cand[b]: some spelling has length L and first byte b.
+     * A non-empty cell whose bit is clear is present after this one test
+     * (x86 shifts by the count mod 64 anyway, so the % costs nothing). */
     uint64_t cand[256];
 } reader_missing;
 
@@ -240,9 +240,8 @@ int reader_missing_spelled(const reader_missing *m, const char *p, uint32_t len)
  * taken branch, so a column of mostly empty cells does not mispredict. */
 static inline int reader_is_missing(const reader_missing *m, const char *p, uint32_t len)
 {
-    uint32_t bit = len < 63 ? len : 63;
-    if (__builtin_expect(m->cand[(unsigned char)p[0]] >> bit & 1, 0))
-        return reader_missing_spelled(m, p, len);
+    if (__builtin_expect(m->cand[(unsigned char)p[0]] >> (len % 64) & 1, 0))
+        return len == 0 || reader_missing_spelled(m, p, len);
     return len == 0;
 }
 
