@@ -386,10 +386,12 @@ row_fields(csv_reader *r, marks *mk, char *f, const char *base, csv_span *dst, s
 }
 
 #if CSV_WIDE
-/* The same loop with AVX2 blocks.  flatten: block_mask_wide may only be
- * inlined into a function compiled for AVX2, so the helpers that call it
- * are inlined here with it (quoted() stays a call). */
-static __attribute__((noinline, flatten, target("avx2"))) csv_status
+/* The same loop with AVX2 blocks, and BMI1's tzcnt and blsr for the marks
+ * (every CPU with AVX2 has BMI1; both are asked for).  flatten:
+ * block_mask_wide may only be inlined into a function compiled for AVX2, so
+ * the helpers that call it are inlined here with it (quoted() stays a
+ * call). */
+static __attribute__((noinline, flatten, target("avx2,bmi"))) csv_status
 row_fields_wide(csv_reader *r, marks *mk, char *f, const char *base, csv_span *dst,
                 size_t stride, size_t width, size_t *nfields, char **after)
 {
@@ -458,7 +460,7 @@ void csv_reader_init_padded(csv_reader *r, char *data, size_t len, char delim)
     const marks m = {data, 0, 0};
     r->mask_bits = len ? marks_at(&m, data, r->end, delim) : 0;
 #if CSV_WIDE
-    r->wide = __builtin_cpu_supports("avx2") != 0;
+    r->wide = __builtin_cpu_supports("avx2") && __builtin_cpu_supports("bmi");
 #endif
 }
 

@@ -51,8 +51,8 @@ typedef struct {
     char *record_end;     /* just after the last record read (its line end included); the
                              data's first byte before the first */
     int padded;           /* CSV_READ_AHEAD bytes after end are readable */
-    int wide;             /* csv_next_rows reads 32 bytes at a time (AVX2, where the CPU
-                             has it); the same results either way */
+    int wide;             /* csv_next_rows reads 32 bytes at a time (AVX2 and BMI1, where
+                             the CPU has them); the same results either way */
     const char *mask_base;  /* first byte of the current block (padded reader) */
     uint64_t mask_bits;     /* its delimiter, newline and quote positions not yet passed */
 } csv_reader;
