@@ -55,9 +55,10 @@ typedef struct {
     int fault;              /* FAULT_* */
     size_t rows, rows_cap;
     size_t row_arrays_cap;  /* rows the R and co-moment arrays hold */
-    csv_span *cells;        /* the rows' fields (offsets in the chunk), by field: field f of
-                               row r at cells[f * rows_cap + r], so that a column's task
-                               walks its own cells in order (csv_next_rows) */
+    csv_span *cells;        /* the rows' fields (offsets in the chunk) up to the last one
+                               scanned, by field: field f of row r at cells[f * rows_cap +
+                               r], so that a column's task walks its own cells in order
+                               (csv_next_rows) */
     uint64_t *line;         /* rows: line of each row, from the chunk's first */
     uint32_t *nf;           /* rows: fields of each row */
     /* R */
@@ -82,6 +83,7 @@ struct chunks {
     chunks_options o;
     summary *run;
     size_t ncols, ncomo;
+    size_t kept_fields;     /* fields kept per row: up to the last scanned one */
     int simd;
     unsigned nslots;
     job *jobs;
@@ -128,7 +130,7 @@ static int grow_rows(chunks *w, job *j, csv_rows *rows)
      * chunk to chunk, so they settle within a quarter of the most rows a
      * chunk has held (a 256 KiB chunk of the 28-column benchmark table has
      * about 1,240; doubling from 4,096 kept three times that). */
-    size_t old = j->rows_cap, cap = old ? old + old / 4 : 1024, width = w->o.width;
+    size_t old = j->rows_cap, cap = old ? old + old / 4 : 1024, width = w->kept_fields;
     csv_span *cells = realloc(j->cells, width * cap * sizeof *cells);
     if (cells) {
         /* Each field's column to its new place, the last first (they only
@@ -157,7 +159,7 @@ static void tokenize(chunks *w, job *j)
     j->repeated = 0;
     if (j->ck.len > UINT32_MAX - 64) { j->fault = FAULT_TOO_BIG; return; }
     reader_cursor_start(&j->cur, &j->ck, w->stop_at, j->first);
-    csv_rows rows = {j->cells, j->rows_cap, w->o.width, 0, j->rows_cap, j->nf, j->line,
+    csv_rows rows = {j->cells, j->rows_cap, w->kept_fields, 0, j->rows_cap, j->nf, j->line,
                      j->ck.data, 0, 0};
     if (!j->rows_cap && grow_rows(w, j, &rows) != 0) { j->fault = FAULT_MEMORY; return; }
     reader_status rs = READER_RECORD;
@@ -628,6 +630,9 @@ chunks *chunks_create(const chunks_options *o)
     w->ncols = o->run->ncols;
     w->ncomo = o->run->ncomo;
     w->simd = number_simd_usable();
+    w->kept_fields = 1;
+    for (size_t c = 0; c < w->ncols; c++)
+        if ((size_t)o->field_of[c] + 1 > w->kept_fields) w->kept_fields = (size_t)o->field_of[c] + 1;
     unsigned threads = o->threads ? o->threads : 1;
     w->nslots = threads;
     w->jobs = calloc(w->nslots, sizeof *w->jobs);
