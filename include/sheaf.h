@@ -13,6 +13,17 @@
  *   summary *s = scan_finish(sc);  scan_free(sc);     (or scan_files for a path list)
  *   summary_write(s, "night.sheaf", err, sizeof err);  summary/summary.h
  *   summary_merge(a, b, err, sizeof err);              exact merge of two summaries
+ *
+ *   o.targets = "outcome,grade";                       several targets, one pass:
+ *   summary_set *set = scan_finish_set(sc);            one summary per target, each what
+ *                                                      a scan with it alone gives
+ *   summary_set_write(set, "night.sheaf", err, sizeof err);   one file holds them all
+ *   summary_set_read("night.sheaf", &set, err, sizeof err);   any summary file (n >= 1)
+ *   summary *g = summary_set_take(set, summary_set_find(set, "grade"));
+ *   summary_read_target("night.sheaf", "grade", &g, err, sizeof err);   or in one call
+ *   summary_set_merge(a, b, err, sizeof err);          the same targets, the same order
+ *
+
  *   screen_result *r = screen_run(s, &screen_opts);    stats/screen.h
  *   pca_fit(s, &pca_opts, &fit, err, sizeof err);      stats/pca.h
  *   long col = summary_find_column(s, "x");            summary/access.h (-1: no such column)
@@ -24,8 +35,9 @@
  *
  * Every function reports failure through its return value and a one-line
  * message in a caller-provided buffer; none prints or exits.  Objects are
- * created and freed by the caller (summary_free, screen_free,
- * pca_result_free).  Nothing keeps global mutable state, so independent
+ * created and freed by the caller (summary_free, summary_set_free,
+ * screen_free, pca_result_free); a summary taken out of a set with
+ * summary_set_take is the caller's, the set keeps NULL in its place.  Nothing keeps global mutable state, so independent
  * summaries may be built on different threads.  A scan, trim or project
  * starts worker threads of its own: as many as the CPUs the process may use,
  * unless o.threads (or the pass's `threads`) says otherwise (1: none); the

@@ -53,7 +53,8 @@ static int run(unsigned threads, state *s, char chunks[][64])
     int rc = 0;
     for (unsigned i = 0; i < CHUNKS && rc == 0; i++) {
         snprintf(chunks[i], 64, "chunk %u", i);
-        reader_chunk c = {chunks[i], strlen(chunks[i]), (uint64_t)i * 64, 0, ','};
+        reader_chunk c = {.data = chunks[i], .len = strlen(chunks[i]), .offset = (uint64_t)i * 64,
+                          .delim = ','};
         rc = pipeline_push(p, &c, i);
     }
     int w = pipeline_wait(p);

@@ -7,6 +7,7 @@
  */
 #include <criterion/criterion.h>
 
+#include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -213,4 +214,70 @@ Test(scan, a_quote_inside_a_header_field_does_not_crash_the_scan)
     cr_assert_str_eq(s->cols[0].name, "a\"b");
     summary_free(s);
     scan_free(sc);
+}
+
+/* The scalar rule the block loop must match: lo = x < lo ? x : lo in order
+ * (of equal values the first stays: -0 or +0), an integer-valued number one
+ * whose truncation gives it back (2^53 and above always). */
+static void extent_in_order(const double *v, size_t n, double *lo, double *hi, uint64_t *zeros,
+                            uint64_t *integers)
+{
+    *lo = INFINITY, *hi = -INFINITY, *zeros = *integers = 0;
+    for (size_t i = 0; i < n; i++) {
+        double x = v[i], a = fabs(x), t = a < 9007199254740992.0 ? a : 0.0;
+        *lo = x < *lo ? x : *lo;
+        *hi = x > *hi ? x : *hi;
+        *zeros += x == 0;
+        *integers += (double)(int64_t)t == t;
+    }
+}
+
+Test(scan, extremes_zeros_and_integers_follow_the_scalar_rule)
+{
+    /* Signed zeros where the extreme is zero, integers near 2^52 and 2^53,
+     * halves, large magnitudes: the SIMD loop of block_feed against the
+     * scalar rule above, over blocks of every parity. */
+    static const char *pool[] = {"0", "-0", "0.0", "-0.0", "1", "-1", "0.5", "-0.5",
+                                 "4503599627370495.5", "4503599627370496", "4503599627370497",
+                                 "9007199254740991", "9007199254740993", "1e300", "-1e300",
+                                 "2.5", "3", "-7", "1e-300", "123456789012"};
+    const size_t npool = sizeof pool / sizeof *pool;
+    for (int round = 0; round < 200; round++) {
+        size_t rows = 1 + next_random() % 700;
+        int zeros_only = round % 4 == 0; /* the extreme is a zero of either sign */
+        char *text = malloc(rows * 24 + 8);
+        double *v = malloc(rows * sizeof *v);
+        size_t n = (size_t)sprintf(text, "x\n");
+        for (size_t i = 0; i < rows; i++) {
+            uint64_t r = next_random();
+            const char *cell = zeros_only ? pool[r % 4] : pool[r % npool];
+            if (round % 4 == 1 && r % 3) cell = pool[(r >> 8) % 2 ? 4 : 9]; /* a positive run */
+            n += (size_t)sprintf(text + n, "%s\n", cell);
+            v[i] = strtod(cell, NULL);
+        }
+        double lo, hi;
+        uint64_t zeros, integers;
+        extent_in_order(v, rows, &lo, &hi, &zeros, &integers);
+        scan_options o;
+        scan_options_defaults(&o);
+        scan_context *sc = scan_create(&o);
+        cr_assert_eq(scan_begin(sc, "extent"), SCAN_OK);
+        cr_assert_eq(scan_feed(sc, text, n), SCAN_OK);
+        cr_assert_eq(scan_end(sc), SCAN_OK, "%s", scan_error(sc));
+        summary *s = scan_finish(sc);
+        cr_assert_not_null(s);
+        const summary_column *c = &s->cols[0];
+        cr_assert(c->mom.min == lo && signbit(c->mom.min) == signbit(lo),
+                  "round %d: min %g (sign %d), in order %g (sign %d)", round, c->mom.min,
+                  signbit(c->mom.min) != 0, lo, signbit(lo) != 0);
+        cr_assert(c->mom.max == hi && signbit(c->mom.max) == signbit(hi),
+                  "round %d: max %g, in order %g", round, c->mom.max, hi);
+        cr_assert_eq(c->zeros, zeros, "round %d", round);
+        cr_assert_eq(c->integers, integers, "round %d: %llu integers, in order %llu", round,
+                     (unsigned long long)c->integers, (unsigned long long)integers);
+        summary_free(s);
+        scan_free(sc);
+        free(text);
+        free(v);
+    }
 }

@@ -533,8 +533,10 @@ int buckets_add_many(buckets *b, const double *x, const uint32_t *cells, size_t 
         const size_t mask = b->cap - 1;
         uint64_t last_id = b->last_id, added = 0;
         size_t last_pos = b->last_pos, i = 0;
+        /* A table of up to 1024 slots (16 KiB) stays in L1: no prefetch. */
+        const size_t ahead = b->cap > 1024 ? PREFETCH : m;
         while (i < m) {
-            if (i + PREFETCH < m) __builtin_prefetch(&slots[home[i + PREFETCH]]);
+            if (i + ahead < m) __builtin_prefetch(&slots[home[i + ahead]]);
             uint64_t id = ids[i];
             if (id != last_id) {
                 size_t pos = home[i];

@@ -233,6 +233,25 @@ int crosstab_add_count(crosstab *t, uint64_t key, uint32_t cell)
     return 0;
 }
 
+int crosstab_add_counts(crosstab *t, const uint64_t *keys, const uint32_t *cells, size_t n)
+{
+    enum { AHEAD = 8 }; /* the tables outgrow the caches */
+    for (size_t i = 0; i < n; i++) {
+        if (!cells[i]) continue;
+        uint64_t key = crosstab_key_of(keys[i]);
+        if (t->mode == CROSSTAB_COUNTS) {
+            if (i + AHEAD < n)
+                __builtin_prefetch(slot_at(t, record_home(crosstab_key_of(keys[i + AHEAD]),
+                                                          cells[i + AHEAD], t->bits),
+                                           sizeof(record)));
+            record *r = find_record(t, key, cells[i], sizeof(record));
+            if (r->n) { r->n++; continue; }
+        }
+        if (crosstab_add_count(t, keys[i], cells[i]) != 0) return -1;
+    }
+    return 0;
+}
+
 int crosstab_add_values_in(crosstab *t, uint64_t key, uint32_t cell, double y, uint64_t n)
 {
     if (!isfinite(y)) return -1;

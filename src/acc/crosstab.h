@@ -72,12 +72,17 @@ crosstab *crosstab_create(uint32_t max_keys);
 void crosstab_free(crosstab *t);
 /* Empties the table (mode back to CROSSTAB_EMPTY), keeping its allocation. */
 void crosstab_reset(crosstab *t);
-/* Classification: one row of class `cell` with value hash `key`.  -1 on a
- * table in CROSSTAB_VALUES mode. */
 /* Hints that (key, cell) will be added soon (a cache prefetch of its home
  * slot); no effect on the table. */
 void crosstab_prefetch(const crosstab *t, uint64_t key, uint32_t cell);
+/* Classification: one row of class `cell` with value hash `key`.  -1 on a
+ * table in CROSSTAB_VALUES mode, or when memory runs out. */
 int crosstab_add_count(crosstab *t, uint64_t key, uint32_t cell);
+/* n calls of crosstab_add_count(t, keys[i], cells[i]) in order, skipping
+ * the rows whose cell is 0 (no class), with the home slots prefetched a few
+ * rows ahead: the same table.  0, or -1 as crosstab_add_count (the rows
+ * before the failing one are in). */
+int crosstab_add_counts(crosstab *t, const uint64_t *keys, const uint32_t *cells, size_t n);
 /* Regression: one row with value hash `key` and target value y (a deviation
  * in the target's frame).  -1 on a table in CROSSTAB_COUNTS mode, or when y
  * is not finite. */

@@ -202,6 +202,7 @@ int cli_summary_exit(int st)
     case SUMMARY_ERR_IO: return EXIT_INPUT;
     case SUMMARY_ERR_CORRUPT: return EXIT_CORRUPT;
     case SUMMARY_ERR_INCOMPATIBLE: return EXIT_INCOMPATIBLE;
+    case SUMMARY_ERR_TARGETS: return EXIT_USAGE;
     default: return EXIT_RESOURCE;
     }
 }

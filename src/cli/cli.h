@@ -73,6 +73,7 @@ typedef struct {
     const char *exclude;        /* --exclude */
     const char *keep_list;      /* --keep-list FILE */
     int with_target;            /* --with-target */
+    const char *target;         /* --target: which target of a summary of several */
 } cli_components;
 
 /* Parses the component options, reads the summary at path and fits it,
@@ -130,6 +131,22 @@ int cli_parse_single(const cli_command *cmd, int argc, char **argv, char ***pos)
 /* Reads the summary at path: EXIT_DONE with *s set (caller frees), or the
  * exit code after a one-line error. */
 int cli_read_summary(const char *cmd, const char *path, summary **s);
+/* Every summary a file holds (one, or one per target).  EXIT_DONE, or the
+ * exit code after a one-line error. */
+int cli_read_set(const char *cmd, const char *path, summary_set **set);
+/* The summary of --target `target` (NULL: not given) taken out of set:
+ * that target's; without --target, the only one, or (need_one 0) the first
+ * of several.  EXIT_USAGE after a one-line error naming the targets when
+ * the name is not one of them, or when need_one and there are several. */
+int cli_choose_target(const char *cmd, const char *path, summary_set *set, const char *target,
+                      int need_one, summary **s);
+/* cli_read_set, then cli_choose_target. */
+int cli_read_target(const char *cmd, const char *path, const char *target, int need_one,
+                    summary **s);
+/* The --target option of the commands that read a summary. */
+#define CLI_TARGET_OPTION(var)                                                                  \
+    {"target", 't', "COL", "which target of a summary scanned with several (scan --target A,B)", \
+     &(var), NULL}
 /* 0 when format is text, csv or json; else EXIT_USAGE after a one-line error. */
 int cli_check_format(const char *cmd, const char *format);
 /* Writes the key "levels": the target's classes with their rows, or an

@@ -41,11 +41,10 @@ int cli_fit_components(const char *cmd, const char *path, const cli_components *
     o.exclude = c->exclude;
     o.keep_list = keep_text;
     o.with_target = c->with_target;
-    summary_status st = summary_read(path, s, err, sizeof err);
-    if (st != SUMMARY_OK) {
+    int rc = cli_read_target(cmd, path, c->target, 1, s);
+    if (rc != EXIT_DONE) {
         free(keep_text);
-        cli_error(cmd, "%s", err);
-        return cli_summary_exit(st);
+        return rc;
     }
     pca_status ps = pca_fit(*s, &o, r, err, sizeof err);
     free(keep_text); /* the fit keeps column indices, not names */

@@ -106,9 +106,10 @@ static void print_text(const corr_report *r)
 
 int cmd_corr(int argc, char **argv)
 {
-    const char *format = "text", *share_s = NULL, *cols_s = NULL;
+    const char *format = "text", *share_s = NULL, *cols_s = NULL, *target = NULL;
     int covariance = 0;
     const cli_option opts[] = {
+        CLI_TARGET_OPTION(target),
         {"format", 'f', "FMT", "text (default), csv or json", &format, NULL},
         {"covariance", 0, NULL, "print the sample covariance instead of Pearson r", NULL, &covariance},
         {"columns", 0, "A,B,..", "only these columns", &cols_s, NULL},
@@ -130,7 +131,8 @@ int cmd_corr(int argc, char **argv)
     double *v = NULL;
     if (cli_check_format("corr", format)) goto done;
     if (cli_numeric_share("corr", share_s, &share)) goto done;
-    if ((rc = cli_read_summary("corr", pos[0], &s)) != EXIT_DONE) goto done;
+    /* The co-moments are every target's alike: any part will do. */
+    if ((rc = cli_read_target("corr", pos[0], target, 0, &s)) != EXIT_DONE) goto done;
     rc = EXIT_RESOURCE;
     cols = malloc((summary_columns(s) + 1) * sizeof *cols);
     if (!cols) { cli_error("corr", "out of memory"); goto done; }

@@ -85,12 +85,24 @@ static void json_column(json_out *j, const column_description *d)
     json_object_end(j);
 }
 
-static int print_json(const summary *s, double share, size_t ntop)
+/* The targets the file holds (names, in the order scanned), and its format
+ * version. */
+typedef struct {
+    const char **names;
+    size_t n;
+    uint32_t version;
+} held_targets;
+
+static int print_json(const summary *s, const held_targets *held, double share, size_t ntop)
 {
     json_out j;
     json_init(&j, stdout);
     json_object_begin(&j);
-    json_key(&j, "format_version"); json_uint(&j, summary_file_version(s));
+    json_key(&j, "format_version"); json_uint(&j, held->version);
+    json_key(&j, "targets");
+    json_array_begin(&j);
+    for (size_t i = 0; i < held->n; i++) json_string(&j, held->names[i]);
+    json_array_end(&j);
     json_key(&j, "rows"); json_uint(&j, summary_rows(s));
     json_key(&j, "bytes"); json_uint(&j, summary_bytes(s));
     json_key(&j, "short_rows"); json_uint(&j, summary_short_rows(s));
@@ -232,7 +244,8 @@ static void text_column(table *t, const column_description *d)
     table_cell(t, 10, d->ntop ? line : "");
 }
 
-static int print_text(const summary *s, const char *path, double share, size_t ntop)
+static int print_text(const summary *s, const held_targets *held, const char *path, double share,
+                      size_t ntop)
 {
     char a[64];
     size_t nsources = summary_source_count(s);
@@ -253,6 +266,11 @@ static int print_text(const summary *s, const char *path, double share, size_t n
     if (summary_repeated_headers(s))
         printf("repeated header lines skipped: %llu (at the start of a gzip member or zstd frame)\n",
                (unsigned long long)summary_repeated_headers(s));
+    if (held->n > 1) {
+        printf("targets:");
+        for (size_t i = 0; i < held->n; i++) printf("%s %s", i ? "," : "", held->names[i]);
+        printf(" (%zu; shown: %s; choose another with --target)\n", held->n, summary_target_name(s));
+    }
     if (summary_target_column(s) >= 0) print_target(s, share);
     size_t width = table_terminal_width();
     int color = table_use_color(stdout);
@@ -282,16 +300,19 @@ static int print_text(const summary *s, const char *path, double share, size_t n
 int cmd_info(int argc, char **argv)
 {
     int as_json = 0;
-    const char *share_s = NULL, *top_s = NULL;
+    const char *share_s = NULL, *top_s = NULL, *target = NULL;
     const cli_option opts[] = {
         {"json", 0, NULL, "print JSON instead of tables", NULL, &as_json},
+        CLI_TARGET_OPTION(target),
         CLI_NUMERIC_SHARE_OPTION(share_s),
         {"top", 0, "N", "most frequent values shown per column (default 3)", &top_s, NULL},
         {0},
     };
     const cli_command cmd = {"info", "FILE.sheaf [--json]",
                              "Prints what a summary holds: rows, sources with their fingerprints, and\n"
-                             "per column its kind, counts, moments, quantiles and top values.",
+                             "per column its kind, counts, moments, quantiles and top values.\n"
+                             "A summary of several targets lists them and describes the first,\n"
+                             "or the one --target names.",
                              opts};
     char **pos;
     int rc = cli_parse_single(&cmd, argc, argv, &pos);
@@ -300,13 +321,27 @@ int cmd_info(int argc, char **argv)
     double share;
     long long ntop = 3;
     summary *s = NULL;
+    summary_set *set = NULL;
+    const char **names = NULL;
     if (cli_numeric_share("info", share_s, &share)) goto done;
     if (top_s && (ntop = cli_parse_count(top_s)) < 0) {
         cli_error("info", "--top must be a count, got '%s'", top_s);
         goto done;
     }
-    if ((rc = cli_read_summary("info", pos[0], &s)) != EXIT_DONE) goto done;
-    if ((as_json ? print_json(s, share, (size_t)ntop) : print_text(s, pos[0], share, (size_t)ntop))) {
+    if ((rc = cli_read_set("info", pos[0], &set)) != EXIT_DONE) goto done;
+    held_targets held = {NULL, 0, set->n > 1 ? SUMMARY_SET_FORMAT_VERSION
+                                             : summary_file_version(set->parts[0])};
+    if (!(names = calloc(set->n, sizeof *names))) {
+        cli_error("info", "out of memory");
+        rc = EXIT_RESOURCE;
+        goto done;
+    }
+    for (size_t i = 0; i < set->n; i++)
+        if (set->parts[i]->opt.target) names[held.n++] = set->parts[i]->opt.target;
+    held.names = names;
+    if ((rc = cli_choose_target("info", pos[0], set, target, 0, &s)) != EXIT_DONE) goto done;
+    if ((as_json ? print_json(s, &held, share, (size_t)ntop)
+                 : print_text(s, &held, pos[0], share, (size_t)ntop))) {
         cli_error("info", "out of memory");
         rc = EXIT_RESOURCE;
         goto done;
@@ -314,6 +349,8 @@ int cmd_info(int argc, char **argv)
     rc = EXIT_DONE; /* standard output is checked once, by main (cli_close_stdout) */
 done:
     summary_free(s);
+    free(names); /* the names are the set's: freed after their last use */
+    summary_set_free(set);
     free(pos);
     return rc;
 }

@@ -39,47 +39,49 @@ int cmd_merge(int argc, char **argv)
         "merge", "A.sheaf B.sheaf ... -o OUT.sheaf",
         "Combines summaries of shards or nights into one, as if one scan had read all their\n"
         "sources. Inputs are read one at a time (bounded memory) and must have the same\n"
-        "columns and options. A merge that would count the same source bytes twice is\n"
-        "refused unless --allow-duplicates is given. The output is written atomically.",
+        "columns and options, and the same targets in the same order (scan --target A,B).\n"
+        "A merge that would count the same source bytes twice is refused unless\n"
+        "--allow-duplicates is given. The output is written atomically.",
         opts};
     char **pos;
     size_t npos;
     int rc = cli_parse(&cmd, argc, argv, &pos, &npos);
     if (rc) { free(pos); return rc == 1 ? EXIT_DONE : rc; }
-    summary *acc = NULL;
+    summary_set *acc = NULL;
     rc = EXIT_USAGE;
     if (npos == 0) { cli_error("merge", "no input summaries (see sheaf merge --help)"); goto done; }
     if (!out) { cli_error("merge", "-o OUT.sheaf is required"); goto done; }
     if (cli_check_output("merge", out, (const char *const *)pos, npos)) goto done;
     char err[2048];
     for (size_t i = 0; i < npos; i++) {
-        summary *s;
-        summary_status st = summary_read(pos[i], &s, err, sizeof err);
+        summary_set *s;
+        summary_status st = summary_set_read(pos[i], &s, err, sizeof err);
         if (st != SUMMARY_OK) { cli_error("merge", "%s", err); rc = cli_summary_exit(st); goto done; }
         if (!acc) { acc = s; continue; }
         size_t k;
-        long d = allow_dup ? -1 : duplicate_source(acc, s, &k);
+        /* Every part holds the same sources: the first part's tell. */
+        long d = allow_dup ? -1 : duplicate_source(acc->parts[0], s->parts[0], &k);
         if (d >= 0) {
             cli_error("merge",
                       "%s: source %s (fingerprint %016llx) is already counted (from %s); "
                       "use --allow-duplicates to merge anyway",
-                      pos[i], summary_source_at(s, (size_t)d)->path,
-                      (unsigned long long)summary_source_at(s, (size_t)d)->fingerprint,
-                      summary_source_at(acc, k)->path);
-            summary_free(s);
+                      pos[i], summary_source_at(s->parts[0], (size_t)d)->path,
+                      (unsigned long long)summary_source_at(s->parts[0], (size_t)d)->fingerprint,
+                      summary_source_at(acc->parts[0], k)->path);
+            summary_set_free(s);
             rc = EXIT_INCOMPATIBLE;
             goto done;
         }
         char why[1536];
-        st = summary_merge(acc, s, why, sizeof why);
-        summary_free(s);
+        st = summary_set_merge(acc, s, why, sizeof why);
+        summary_set_free(s);
         if (st != SUMMARY_OK) {
             cli_error("merge", "%s and %s cannot be merged: %s", pos[0], pos[i], why);
             rc = cli_summary_exit(st);
             goto done;
         }
     }
-    summary_status st = summary_write(acc, out, err, sizeof err);
+    summary_status st = summary_set_write(acc, out, err, sizeof err);
     if (st != SUMMARY_OK) {
         cli_error("merge", "%s", err);
         rc = st == SUMMARY_ERR_MEMORY ? EXIT_RESOURCE : EXIT_FAILED;
@@ -87,7 +89,7 @@ int cmd_merge(int argc, char **argv)
     }
     rc = EXIT_DONE;
 done:
-    summary_free(acc);
+    summary_set_free(acc);
     free(pos);
     return rc;
 }

@@ -183,7 +183,9 @@ int cmd_pca(int argc, char **argv)
     const char *format = "text", *basis = NULL, *cols = NULL, *exclude = NULL, *keep = NULL;
     const char *k_s = NULL, *share_s = NULL, *numshare_s = NULL, *leading_s = NULL;
     int with_target = 0;
+    const char *target = NULL;
     const cli_option opts[] = {
+        CLI_TARGET_OPTION(target),
         {"format", 'f', "FMT", "text (default), csv (the loadings) or json", &format, NULL},
         {"basis", 0, "B", "correlation (default) or covariance", &basis, NULL},
         {"k", 'k', "N", "components to keep (default: the Kaiser rule's count)", &k_s, NULL},
@@ -220,7 +222,8 @@ int cmd_pca(int argc, char **argv)
         cli_error("pca", "--leading must be a whole number, got '%s'", leading_s);
         goto done;
     }
-    const cli_components cc = {basis, k_s, share_s, numshare_s, cols, exclude, keep, with_target};
+    const cli_components cc = {basis,   k_s,  share_s,     numshare_s, cols,
+                               exclude, keep, with_target, target};
     rc = cli_fit_components("pca", pos[0], &cc, &s, &r, &k);
     if (rc != EXIT_DONE) goto done;
     char rule[64];

@@ -27,7 +27,9 @@ int cmd_project(int argc, char **argv)
     const char *k_s = NULL, *share_s = NULL, *numshare_s = NULL;
     const char *chunk = NULL, *maxrec = NULL, *threads = NULL;
     int with_target = 0, no_header = 0, quiet = 0;
+    const char *target = NULL;
     const cli_option opts[] = {
+        CLI_TARGET_OPTION(target),
         {"pca", 0, "FILE.sheaf", "summary of the data the components come from (required)",
          &pca_path, NULL},
         {"output", 'o', "OUT", "file to write (.gz: gzip, .zst: zstd; default: standard output)",
@@ -98,7 +100,8 @@ int cmd_project(int argc, char **argv)
         for (char *t = strtok(carry_buf, ","); t; t = strtok(NULL, ",")) carry[po.ncarry++] = t;
         po.carry = carry;
     }
-    const cli_components cc = {basis, k_s, share_s, numshare_s, cols, exclude, keep, with_target};
+    const cli_components cc = {basis,   k_s,  share_s,     numshare_s, cols,
+                               exclude, keep, with_target, target};
     rc = cli_fit_components("project", pca_path, &cc, &s, &r, &k);
     if (rc != EXIT_DONE) goto done;
     out = sink_open(out_path, err, sizeof err);

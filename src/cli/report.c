@@ -18,6 +18,49 @@ int cli_read_summary(const char *cmd, const char *path, summary **s)
     return cli_summary_exit(st);
 }
 
+int cli_read_set(const char *cmd, const char *path, summary_set **set)
+{
+    char err[1024];
+    summary_status st = summary_set_read(path, set, err, sizeof err);
+    if (st == SUMMARY_OK) return EXIT_DONE;
+    cli_error(cmd, "%s", err);
+    return cli_summary_exit(st);
+}
+
+int cli_choose_target(const char *cmd, const char *path, summary_set *set, const char *target,
+                      int need_one, summary **s)
+{
+    char names[1024];
+    summary_set_names(set, names, sizeof names);
+    long i = target ? summary_set_find(set, target) : set->n == 1 || !need_one ? 0 : -1;
+    if (i >= 0) {
+        *s = summary_set_take(set, (size_t)i);
+        return EXIT_DONE;
+    }
+    if (!target)
+        cli_error(cmd, "%s holds %zu targets (%s): choose one with --target", path, set->n,
+                  names);
+    else if (set->n > 1)
+        cli_error(cmd, "%s: --target %s: not one of its targets (%s)", path, target, names);
+    else if (!set->parts[0]->opt.target)
+        cli_error(cmd, "%s: --target %s: the summary was scanned without a target", path,
+                  target);
+    else
+        cli_error(cmd, "%s: --target %s: the summary's target is %s", path, target, names);
+    return EXIT_USAGE;
+}
+
+int cli_read_target(const char *cmd, const char *path, const char *target, int need_one,
+                    summary **s)
+{
+    summary_set *set;
+    int rc = cli_read_set(cmd, path, &set);
+    if (rc != EXIT_DONE) return rc;
+    rc = cli_choose_target(cmd, path, set, target, need_one, s);
+    summary_set_free(set);
+    return rc;
+}
+
 int cli_check_format(const char *cmd, const char *format)
 {
     if (!strcmp(format, "text") || !strcmp(format, "csv") || !strcmp(format, "json")) return 0;

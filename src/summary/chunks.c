@@ -40,6 +40,28 @@ typedef struct {
     uint32_t tepoch;     /* the target cell epoch of its rows' regression cells */
 } block_span;
 
+/* One target's part of a chunk (R writes it, G reads it): the target cell
+ * of every row and the blocks its columns are fed in. */
+typedef struct {
+    uint32_t *row_cell, *row_class;
+    double *row_y;
+    unsigned char *row_has_y;
+    int64_t *row_ym;        /* the target's signed mantissa (pair sums, block_rows) */
+    int32_t *row_ye;        /* its power of ten, or BLOCK_NO_NUMBER / BLOCK_INEXACT */
+    int any_y;              /* some row of the chunk has a finite target */
+    block_span *blocks;
+    size_t nblocks, blocks_cap;
+    int on_grid;            /* its blocks are the chunk's grid (every SUMMARY_BLOCK_ROWS rows) */
+    uint32_t *drop_map;     /* the class conversion at a drop */
+    double *drop_y;
+    uint32_t drop_n;
+    uint32_t drop_epoch;    /* the target cell epoch of drop_map's cells */
+    /* R's running state within the chunk */
+    uint32_t start;         /* the open block's first row */
+    int classes, drop;      /* the open block keeps classes / drops them first */
+    uint32_t tepoch;        /* the target cell epoch of the open block's rows */
+} job_target;
+
 typedef struct {
     reader_chunk ck;        /* the chunk (its bytes: buf, or the caller's with one thread) */
     char *buf;              /* the slot's copy */
@@ -61,19 +83,8 @@ typedef struct {
                                (csv_next_rows) */
     uint64_t *line;         /* rows: line of each row, from the chunk's first */
     uint32_t *nf;           /* rows: fields of each row */
-    /* R */
-    uint32_t *row_cell, *row_class;
-    double *row_y;
-    unsigned char *row_has_y;
-    int64_t *row_ym;        /* the target's signed mantissa (pair sums, block_rows) */
-    int32_t *row_ye;        /* its power of ten, or BLOCK_NO_NUMBER / BLOCK_INEXACT */
-    int any_y;              /* some row of the chunk has a finite target */
-    block_span *blocks;
-    size_t nblocks, blocks_cap;
-    uint32_t *drop_map;     /* the class conversion at a drop */
-    double *drop_y;
-    uint32_t drop_n;
-    uint32_t drop_epoch;    /* the target cell epoch of drop_map's cells */
+    /* R: one part per target (one when the scan has none) */
+    job_target *tg;
     /* G, for C: deviations of the co-moment columns (ncomo x rows_cap) */
     double *dev;
     unsigned char *present;
@@ -81,7 +92,9 @@ typedef struct {
 
 struct chunks {
     chunks_options o;
-    summary *run;
+    summary *run;           /* the first summary: table counts, co-moments */
+    summary *const *runs;   /* one summary per target (borrowed) */
+    size_t nruns;
     size_t ncols, ncomo;
     size_t kept_fields;     /* fields kept per row: up to the last scanned one */
     int simd;
@@ -111,8 +124,8 @@ struct chunks {
     const char *shown;
     uint64_t stop_at;
     uint64_t lines, rows, absorbed;
-    number_decimal target_ref;
-    int target_ref_set;
+    number_decimal *target_ref; /* per target: its column's frame */
+    unsigned char *target_ref_set;
     /* C's scratch */
     block_como bc;
     const double **devp;
@@ -197,39 +210,45 @@ static const char *cell_text(const chunks *w, const job *j, size_t col, size_t r
 /* ---- R: rows, in chunk order --------------------------------------------- */
 
 
-static int add_block(job *j, uint32_t start, uint32_t end, int classes, int drop, uint32_t tepoch)
+static int add_block(job_target *jt, uint32_t start, uint32_t end, int classes, int drop,
+                     uint32_t tepoch)
 {
-    if (j->nblocks == j->blocks_cap) {
-        size_t cap = j->blocks_cap ? 2 * j->blocks_cap : 64;
-        block_span *b = realloc(j->blocks, cap * sizeof *b);
+    if (jt->nblocks == jt->blocks_cap) {
+        size_t cap = jt->blocks_cap ? 2 * jt->blocks_cap : 64;
+        block_span *b = realloc(jt->blocks, cap * sizeof *b);
         if (!b) return -1;
-        j->blocks = b;
-        j->blocks_cap = cap;
+        jt->blocks = b;
+        jt->blocks_cap = cap;
     }
-    j->blocks[j->nblocks++] = (block_span){start, end, classes, drop, tepoch};
+    jt->blocks[jt->nblocks++] = (block_span){start, end, classes, drop, tepoch};
     return 0;
 }
 
 static int grow_row_arrays(chunks *w, job *j)
 {
     size_t cap = j->rows_cap ? j->rows_cap : 1, p = w->ncomo;
-    uint32_t *cell = realloc(j->row_cell, cap * sizeof *cell);
-    if (cell) j->row_cell = cell;
-    uint32_t *cls = realloc(j->row_class, cap * sizeof *cls);
-    if (cls) j->row_class = cls;
-    double *y = realloc(j->row_y, cap * sizeof *y);
-    if (y) j->row_y = y;
-    unsigned char *hy = realloc(j->row_has_y, cap);
-    if (hy) j->row_has_y = hy;
-    int64_t *ym = realloc(j->row_ym, cap * sizeof *ym);
-    if (ym) j->row_ym = ym;
-    int32_t *ye = realloc(j->row_ye, cap * sizeof *ye);
-    if (ye) j->row_ye = ye;
+    int ok = 1;
+    for (size_t t = 0; t < w->nruns; t++) {
+        job_target *jt = &j->tg[t];
+        uint32_t *cell = realloc(jt->row_cell, cap * sizeof *cell);
+        if (cell) jt->row_cell = cell;
+        uint32_t *cls = realloc(jt->row_class, cap * sizeof *cls);
+        if (cls) jt->row_class = cls;
+        double *y = realloc(jt->row_y, cap * sizeof *y);
+        if (y) jt->row_y = y;
+        unsigned char *hy = realloc(jt->row_has_y, cap);
+        if (hy) jt->row_has_y = hy;
+        int64_t *ym = realloc(jt->row_ym, cap * sizeof *ym);
+        if (ym) jt->row_ym = ym;
+        int32_t *ye = realloc(jt->row_ye, cap * sizeof *ye);
+        if (ye) jt->row_ye = ye;
+        ok = ok && cell && cls && y && hy && ym && ye;
+    }
     double *dev = p ? realloc(j->dev, p * cap * sizeof *dev) : j->dev;
     if (dev) j->dev = dev;
     unsigned char *pr = p ? realloc(j->present, p * cap) : j->present;
     if (pr) j->present = pr;
-    return cell && cls && y && hy && ym && ye && (!p || (dev && pr)) ? 0 : -1;
+    return ok && (!p || (dev && pr)) ? 0 : -1;
 }
 
 /* The failures of the row task, with their messages in w->r_err. */
@@ -240,12 +259,12 @@ static scan_status out_of_memory(chunks *w)
     return SCAN_ERR_MEMORY;
 }
 
-static scan_status too_many_classes(chunks *w, uint64_t line)
+static scan_status too_many_classes(chunks *w, const summary *s, uint64_t line)
 {
     snprintf(w->r_err, sizeof w->r_err,
              "%s: line %llu: target '%s' has more than %u classes; raise --max-classes or use "
              "--task regress",
-             w->shown, (unsigned long long)line, w->run->opt.target, w->run->opt.max_classes);
+             w->shown, (unsigned long long)line, s->opt.target, s->opt.max_classes);
     return SCAN_ERR_INPUT;
 }
 
@@ -256,14 +275,16 @@ static scan_status ragged_row(chunks *w, uint64_t line, size_t nf)
     return SCAN_ERR_INPUT;
 }
 
-/* The target cell of row r (p NULL: absent): block_rows semantics. */
-static scan_status target_row(chunks *w, job *j, size_t r, const char *p, uint32_t len,
-                              uint32_t *block_start, int *classes)
+/* The target cell of row r for target t (p NULL: absent): block_rows
+ * semantics. */
+static scan_status target_row(chunks *w, job *j, size_t t, size_t r, const char *p, uint32_t len,
+                              int *classes)
 {
-    summary *s = w->run;
-    j->row_cell[r] = j->row_class[r] = 0;
-    j->row_has_y[r] = 0;
-    j->row_ye[r] = BLOCK_NO_NUMBER;
+    summary *s = w->runs[t];
+    job_target *jt = &j->tg[t];
+    jt->row_cell[r] = jt->row_class[r] = 0;
+    jt->row_has_y[r] = 0;
+    jt->row_ye[r] = BLOCK_NO_NUMBER;
     if (!p) return SCAN_OK;
     summary_column *tc = &s->cols[s->target];
     number_decimal d;
@@ -272,15 +293,15 @@ static scan_status target_row(chunks *w, job *j, size_t r, const char *p, uint32
     if (finite) { /* for the pair sums, whatever the task */
         int whole = d.exact && (d.mantissa >> 63) == 0;
         int64_t m = whole ? (int64_t)d.mantissa : 0;
-        j->row_ym[r] = d.negative ? -m : m;
-        j->row_ye[r] = whole ? d.exp10 : BLOCK_INEXACT;
-        j->any_y = 1;
+        jt->row_ym[r] = d.negative ? -m : m;
+        jt->row_ye[r] = whole ? d.exp10 : BLOCK_INEXACT;
+        jt->any_y = 1;
     }
     if (s->has_classes) {
         uint32_t k = summary_class_of(s, XXH3_64bits(p, len), p, len, finite ? &d : NULL);
         if (k) {
             s->class_rows[k - 1]++;
-            j->row_cell[r] = j->row_class[r] = k;
+            jt->row_cell[r] = jt->row_class[r] = k;
             return SCAN_OK;
         }
         /* One class too many: a numeric target continues as a regression
@@ -288,16 +309,16 @@ static scan_status target_row(chunks *w, job *j, size_t r, const char *p, uint32
         int numeric = finite && s->opt.task != TASK_CLASSIFY;
         for (uint32_t c = 0; numeric && c < s->nclasses; c++) numeric = s->class_numeric[c];
         if (!numeric)
-            return too_many_classes(w, w->lines + j->line[r]);
+            return too_many_classes(w, s, w->lines + j->line[r]);
         /* The rows before end a block; the columns convert before the next. */
-        if (r > *block_start && add_block(j, *block_start, (uint32_t)r, 1, 0, 0) != 0)
+        if (r > jt->start && add_block(jt, jt->start, (uint32_t)r, 1, 0, 0) != 0)
             return SCAN_ERR_MEMORY;
-        *block_start = (uint32_t)r;
-        if (summary_class_conversion(s, w->target_ref_set ? &w->target_ref : NULL, &j->drop_map,
-                                     &j->drop_y) != 0)
+        jt->start = (uint32_t)r;
+        if (summary_class_conversion(s, w->target_ref_set[t] ? &w->target_ref[t] : NULL,
+                                     &jt->drop_map, &jt->drop_y) != 0)
             return SCAN_ERR_MEMORY;
-        j->drop_n = s->nclasses + 1;
-        j->drop_epoch = s->tcells.epoch;
+        jt->drop_n = s->nclasses + 1;
+        jt->drop_epoch = s->tcells.epoch;
         s->has_classes = 0;
         s->classes_dropped = 1;
         for (uint32_t c = 0; c < s->nclasses; c++) free(s->class_label[c]);
@@ -305,22 +326,68 @@ static scan_status target_row(chunks *w, job *j, size_t r, const char *p, uint32
         *classes = -1; /* the next block drops them */
     }
     if (finite) {
-        if (!w->target_ref_set) { /* the target column's frame (block.c) */
-            number_frame(&d, &w->target_ref);
-            w->target_ref_set = 1;
+        if (!w->target_ref_set[t]) { /* the target column's frame (block.c) */
+            number_frame(&d, &w->target_ref[t]);
+            w->target_ref_set[t] = 1;
         }
-        j->row_cell[r] = summary_target_cell(s, d.value);
-        if (!j->row_cell[r]) return SCAN_ERR_MEMORY;
-        j->row_y[r] = number_difference(&d, &w->target_ref, NULL);
-        j->row_has_y[r] = 1;
+        jt->row_cell[r] = summary_target_cell(s, d.value);
+        if (!jt->row_cell[r]) return SCAN_ERR_MEMORY;
+        jt->row_y[r] = number_difference(&d, &w->target_ref[t], NULL);
+        jt->row_has_y[r] = 1;
     }
     return SCAN_OK;
 }
 
+/* Row r for target t: its target cell, and where its blocks end.  Every
+ * SUMMARY_BLOCK_ROWS rows, at the chunk's end, at a drop of the classes and
+ * where the target cells are renumbered. */
+static scan_status target_rows_of(chunks *w, job *j, size_t t, size_t r)
+{
+    summary *s = w->runs[t];
+    job_target *jt = &j->tg[t];
+    if (s->target >= 0) {
+        uint32_t len;
+        const char *p = cell_text(w, j, (size_t)s->target, r, &len);
+        int cl = jt->classes;
+        scan_status st = target_row(w, j, t, r, p, len, &cl);
+        if (st != SCAN_OK) return st == SCAN_ERR_MEMORY ? out_of_memory(w) : st;
+        if (cl < 0) { /* dropped at this row, which opens a block without classes */
+            jt->classes = 0;
+            jt->drop = 1;
+            jt->tepoch = s->tcells.epoch;
+        } else if (s->tcells.epoch != jt->tepoch) {
+            /* The target cells were renumbered at this row: the rows before
+             * end a block, the columns catch up before the next. */
+            if (r > jt->start &&
+                add_block(jt, jt->start, (uint32_t)r, jt->classes, jt->drop, jt->tepoch) != 0)
+                return out_of_memory(w);
+            if (r > jt->start) jt->drop = 0;
+            jt->start = (uint32_t)r;
+            jt->tepoch = s->tcells.epoch;
+        }
+    }
+    if (r + 1 - jt->start == SUMMARY_BLOCK_ROWS || r + 1 == j->rows) {
+        if (add_block(jt, jt->start, (uint32_t)(r + 1), jt->classes, jt->drop, jt->tepoch) != 0)
+            return out_of_memory(w);
+        jt->start = (uint32_t)(r + 1);
+        jt->drop = 0;
+    }
+    return SCAN_OK;
+}
+
+/* A target's blocks are the grid when they end every SUMMARY_BLOCK_ROWS
+ * rows from the chunk's first and at its end. */
+static int on_grid(const job *j, const job_target *jt)
+{
+    size_t ngrid = (j->rows + SUMMARY_BLOCK_ROWS - 1) / SUMMARY_BLOCK_ROWS;
+    if (jt->nblocks != ngrid) return 0;
+    for (size_t b = 0; b < ngrid; b++)
+        if (jt->blocks[b].start != b * SUMMARY_BLOCK_ROWS) return 0;
+    return 1;
+}
+
 static scan_status rows_of(chunks *w, job *j)
 {
-    summary *s = w->run;
-    j->nblocks = 0;
     if (j->fault == FAULT_READER) {
         reader_cursor_message(&j->cur, w->shown, w->lines, w->r_err, sizeof w->r_err);
         return SCAN_ERR_INPUT;
@@ -332,55 +399,39 @@ static scan_status rows_of(chunks *w, job *j)
         return SCAN_ERR_USAGE;
     }
     if (j->fault == FAULT_MEMORY) return out_of_memory(w);
-    s->repeated_headers += j->repeated;
+    for (size_t t = 0; t < w->nruns; t++) w->runs[t]->repeated_headers += j->repeated;
     if (j->row_arrays_cap < j->rows_cap) { /* the tokenizer grew the chunk's rows */
         if (grow_row_arrays(w, j) != 0) return out_of_memory(w);
         j->row_arrays_cap = j->rows_cap;
     }
-    const int target = s->target;
-    uint32_t start = 0;
-    int classes = s->has_classes, drop = 0;
-    uint32_t tepoch = s->tcells.epoch; /* of the rows since start */
-    j->any_y = 0;
+    for (size_t t = 0; t < w->nruns; t++) {
+        job_target *jt = &j->tg[t];
+        jt->nblocks = 0;
+        jt->start = 0;
+        jt->classes = w->runs[t]->has_classes;
+        jt->drop = 0;
+        jt->tepoch = w->runs[t]->tcells.epoch; /* of the rows since start */
+        jt->any_y = 0;
+    }
     for (size_t r = 0; r < j->rows; r++) {
-        s->rows++;
         w->rows++;
-        if (j->nf[r] != w->o.width) {
-            int short_row = j->nf[r] < w->o.width;
-            if (short_row) s->short_rows++;
+        int ragged = j->nf[r] != w->o.width;
+        uint64_t line = w->lines + j->line[r];
+        for (size_t t = 0; t < w->nruns; t++) { /* the table's counts, in every summary */
+            summary *s = w->runs[t];
+            s->rows++;
+            if (!ragged) continue;
+            if (j->nf[r] < w->o.width) s->short_rows++;
             else s->long_rows++;
-            uint64_t line = w->lines + j->line[r];
             if (s->n_bad_lines < SUMMARY_BAD_LINES) s->bad_lines[s->n_bad_lines++] = line;
-            if (w->o.strict)
-                return ragged_row(w, line, j->nf[r]);
         }
-        if (target >= 0) {
-            uint32_t len;
-            const char *p = cell_text(w, j, (size_t)target, r, &len);
-            int cl = classes;
-            scan_status st = target_row(w, j, r, p, len, &start, &cl);
-            if (st != SCAN_OK) return st == SCAN_ERR_MEMORY ? out_of_memory(w) : st;
-            if (cl < 0) { /* dropped at this row, which opens a block without classes */
-                classes = 0;
-                drop = 1;
-                tepoch = s->tcells.epoch;
-            } else if (s->tcells.epoch != tepoch) {
-                /* The target cells were renumbered at this row: the rows
-                 * before end a block, the columns catch up before the next. */
-                if (r > start && add_block(j, start, (uint32_t)r, classes, drop, tepoch) != 0)
-                    return out_of_memory(w);
-                if (r > start) drop = 0;
-                start = (uint32_t)r;
-                tepoch = s->tcells.epoch;
-            }
-        }
-        if (r + 1 - start == SUMMARY_BLOCK_ROWS || r + 1 == j->rows) {
-            if (add_block(j, start, (uint32_t)(r + 1), classes, drop, tepoch) != 0)
-                return out_of_memory(w);
-            start = (uint32_t)(r + 1);
-            drop = 0;
+        if (ragged && w->o.strict) return ragged_row(w, line, j->nf[r]);
+        for (size_t t = 0; t < w->nruns; t++) {
+            scan_status st = target_rows_of(w, j, t, r);
+            if (st != SCAN_OK) return st;
         }
     }
+    for (size_t t = 0; t < w->nruns; t++) j->tg[t].on_grid = on_grid(j, &j->tg[t]);
     w->lines += j->cur.lines;
     w->absorbed = j->cur.absorbed;
     return SCAN_OK;
@@ -388,75 +439,147 @@ static scan_status rows_of(chunks *w, job *j)
 
 /* ---- G: one column, C: the co-moments ------------------------------------ */
 
-/* One block of one column: its cells into the lane, decoded, kept for the
- * co-moments, fed. */
-static int column_block(chunks *w, job *j, size_t col, const block_span *sp, block_lane *l)
+/* The cells of rows [start, end) of one column into the lane, less the
+ * missing ones (counted in *missing when given). */
+static void fill_lane(const chunks *w, const job *j, size_t col, uint32_t start, uint32_t end,
+                      block_lane *l, uint64_t *missing)
+{
+    const csv_span *cells = j->cells + (size_t)w->o.field_of[col] * j->rows_cap;
+    l->nnum = 0;
+    size_t absent = block_lane_gather(l, j->ck.data, cells + start, end - start, w->o.missing);
+    if (missing) *missing += absent;
+}
+
+/* Target t's column col fed with the decoded lane, block sp of t's. */
+static int feed_target(chunks *w, job *j, size_t t, size_t col, const block_span *sp,
+                       block_lane *l)
+{
+    summary *s = w->runs[t];
+    summary_column *c = &s->cols[col];
+    job_target *jt = &j->tg[t];
+    if (sp->drop && c->cls &&
+        column_drop_classes(c, jt->drop_map, jt->drop_y, jt->drop_n, s->opt.bucket_budget) != 0)
+        return -1;
+    if (sp->drop) c->tcell_epoch = jt->drop_epoch; /* its cells were classes until now */
+    if (summary_column_catch_up(s, c, sp->tepoch) != 0) return -1;
+    block_rows rows = {sp->end - sp->start, jt->row_cell + sp->start, jt->row_class + sp->start,
+                       jt->row_y + sp->start, jt->row_has_y + sp->start, sp->classes,
+                       s->target >= 0, s->opt.max_classes, jt->row_ym + sp->start,
+                       jt->row_ye + sp->start, jt->any_y};
+    return block_feed(c, l, &rows);
+}
+
+/* One grid block of one column (rows [start, end), the b-th
+ * SUMMARY_BLOCK_ROWS of the chunk): its cells into the lane, decoded once
+ * into the first summary's column, what decoding counts copied to the other
+ * targets' columns, the numbers kept for the co-moments, and every target
+ * whose blocks are the grid fed from the one lane. */
+static int column_grid_block(chunks *w, job *j, size_t col, size_t b, block_lane *l)
 {
     summary *s = w->run;
     summary_column *c = &s->cols[col];
     const int k = s->como_of[col];
     const size_t cap = j->rows_cap;
-    const csv_span *cells = j->cells + (size_t)w->o.field_of[col] * j->rows_cap;
-    if (sp->drop && c->cls &&
-        column_drop_classes(c, j->drop_map, j->drop_y, j->drop_n, s->opt.bucket_budget) != 0)
-        return -1;
-    if (sp->drop) c->tcell_epoch = j->drop_epoch; /* its cells were classes until now */
-    if (summary_column_catch_up(s, c, sp->tepoch) != 0) return -1;
+    uint32_t start = (uint32_t)(b * SUMMARY_BLOCK_ROWS), end = start + SUMMARY_BLOCK_ROWS;
+    if (end > j->rows) end = (uint32_t)j->rows;
     l->ref_set = c->mom.has_ref;
     if (l->ref_set) number_ref_set(&l->ref, &c->mom.ref);
-    l->ncells = 0;
-    l->nnum = 0;
-    l->decimals = j->any_y;
-    c->missing += block_lane_gather(l, j->ck.data, cells + sp->start, sp->end - sp->start,
-                                    w->o.missing);
+    fill_lane(w, j, col, start, end, l, &c->missing);
+    l->decimals = 0;
+    for (size_t t = 0; t < w->nruns; t++) l->decimals |= j->tg[t].any_y;
     block_decode(c, l, w->simd);
+    for (size_t t = 1; t < w->nruns; t++) { /* the same cells, the same counts */
+        summary_column *ct = &w->runs[t]->cols[col];
+        ct->missing = c->missing;
+        ct->non_numeric = c->non_numeric;
+        ct->non_finite = c->non_finite;
+        ct->n_examples = c->n_examples;
+        memcpy(ct->examples, c->examples, sizeof ct->examples);
+        if (c->mom.has_ref && !ct->mom.has_ref) moments_set_ref(&ct->mom, &c->mom.ref);
+    }
     if (k >= 0) {
-        double *dev = j->dev + (size_t)k * cap + sp->start;
-        unsigned char *pr = j->present + (size_t)k * cap + sp->start;
+        double *dev = j->dev + (size_t)k * cap + start;
+        unsigned char *pr = j->present + (size_t)k * cap + start;
         /* The lane's arrays in locals: a store through pr (unsigned char)
          * may alias anything, so l's fields would be loaded again for every
          * number. */
         const size_t nnum = l->nnum;
         const uint16_t *num_row = l->num_row;
         const double *num_dev = l->dev;
-        memset(pr, 0, sp->end - sp->start);
+        memset(pr, 0, end - start);
         for (size_t i = 0; i < nnum; i++) {
             dev[num_row[i]] = num_dev[i];
             pr[num_row[i]] = 1;
         }
     }
-    block_rows rows = {sp->end - sp->start, j->row_cell + sp->start, j->row_class + sp->start,
-                       j->row_y + sp->start, j->row_has_y + sp->start, sp->classes,
-                       s->target >= 0, s->opt.max_classes, j->row_ym + sp->start,
-                       j->row_ye + sp->start, j->any_y};
-    return block_feed(c, l, &rows);
+    /* block_feed empties the lane, and reads it only: each target is fed the
+     * same cells. */
+    size_t ncells = l->ncells, nnum = l->nnum;
+    for (size_t t = 0; t < w->nruns; t++) {
+        if (!j->tg[t].on_grid) continue;
+        l->ncells = ncells;
+        l->nnum = nnum;
+        if (feed_target(w, j, t, col, &j->tg[t].blocks[b], l) != 0) return -1;
+    }
+    l->ncells = l->nnum = 0;
+    return 0;
+}
+
+/* One block of target t's own (its blocks leave the grid in this chunk:
+ * its classes were dropped or its target cells renumbered): the cells
+ * decoded again, into a copy of the column that takes what decoding counts
+ * (the grid blocks counted it), then fed. */
+static int column_own_block(chunks *w, job *j, size_t t, size_t col, const block_span *sp,
+                            block_lane *l)
+{
+    summary_column scratch = w->runs[t]->cols[col]; /* decoding writes counts and examples */
+    l->ref_set = scratch.mom.has_ref;
+    if (l->ref_set) number_ref_set(&l->ref, &scratch.mom.ref);
+    fill_lane(w, j, col, sp->start, sp->end, l, NULL);
+    l->decimals = j->tg[t].any_y;
+    block_decode(&scratch, l, w->simd);
+    return feed_target(w, j, t, col, sp, l);
 }
 
 /* A group of columns through the chunk, block by block (the block's rows
- * stay in cache while its columns are fed). */
+ * stay in cache while its columns are fed).  A cell is hashed and parsed
+ * once for every target, except in the chunks where a target's blocks
+ * leave the grid (at most one drop of its classes and TCELLS_MAX_EPOCHS
+ * renumberings in a scan): that target's blocks there are decoded again. */
 static int group_of(chunks *w, job *j, size_t g, block_lane *l, char *msg, size_t msglen)
 {
-    for (size_t b = 0; b < j->nblocks; b++)
+    size_t ngrid = (j->rows + SUMMARY_BLOCK_ROWS - 1) / SUMMARY_BLOCK_ROWS, col = 0;
+    for (size_t b = 0; b < ngrid; b++)
         for (size_t i = w->group_at[g]; i < w->group_at[g + 1]; i++)
-            if (column_block(w, j, w->group_cols[i], &j->blocks[b], l) != 0) {
-                snprintf(msg, msglen, "out of memory: the accumulators of column '%s' grew past it",
-                         w->run->cols[w->group_cols[i]].name);
-                return -1;
-            }
+            if (column_grid_block(w, j, col = w->group_cols[i], b, l) != 0) goto oom;
+    for (size_t t = 0; t < w->nruns; t++) {
+        const job_target *jt = &j->tg[t];
+        if (jt->on_grid) continue;
+        for (size_t b = 0; b < jt->nblocks; b++)
+            for (size_t i = w->group_at[g]; i < w->group_at[g + 1]; i++)
+                if (column_own_block(w, j, t, col = w->group_cols[i], &jt->blocks[b], l) != 0)
+                    goto oom;
+    }
     return 0;
+oom:
+    snprintf(msg, msglen, "out of memory: the accumulators of column '%s' grew past it",
+             w->run->cols[col].name);
+    return -1;
 }
 
 static int comoments_of(chunks *w, job *j)
 {
     summary *s = w->run;
     const size_t cap = j->rows_cap;
-    for (size_t b = 0; b < j->nblocks; b++) {
-        const block_span *sp = &j->blocks[b];
+    size_t ngrid = (j->rows + SUMMARY_BLOCK_ROWS - 1) / SUMMARY_BLOCK_ROWS;
+    for (size_t b = 0; b < ngrid; b++) {
+        size_t start = b * SUMMARY_BLOCK_ROWS, end = start + SUMMARY_BLOCK_ROWS;
+        if (end > j->rows) end = j->rows;
         for (size_t k = 0; k < w->ncomo; k++) {
-            w->devp[k] = j->dev + k * cap + sp->start;
-            w->presp[k] = j->present + k * cap + sp->start;
+            w->devp[k] = j->dev + k * cap + start;
+            w->presp[k] = j->present + k * cap + start;
         }
-        if (block_comoments_add(s, &w->bc, w->devp, w->presp, sp->end - sp->start) != 0)
+        if (block_comoments_add(s, &w->bc, w->devp, w->presp, end - start) != 0)
             return -1;
     }
     return 0;
@@ -626,9 +749,11 @@ chunks *chunks_create(const chunks_options *o)
     chunks *w = calloc(1, sizeof *w);
     if (!w) return NULL;
     w->o = *o;
-    w->run = o->run;
-    w->ncols = o->run->ncols;
-    w->ncomo = o->run->ncomo;
+    w->runs = o->runs;
+    w->nruns = o->nruns;
+    w->run = o->runs[0];
+    w->ncols = w->run->ncols;
+    w->ncomo = w->run->ncomo;
     w->simd = number_simd_usable();
     w->kept_fields = 1;
     for (size_t c = 0; c < w->ncols; c++)
@@ -636,6 +761,11 @@ chunks *chunks_create(const chunks_options *o)
     unsigned threads = o->threads ? o->threads : 1;
     w->nslots = threads;
     w->jobs = calloc(w->nslots, sizeof *w->jobs);
+    int parts = w->jobs != NULL;
+    for (unsigned i = 0; parts && i < w->nslots; i++)
+        parts = (w->jobs[i].tg = calloc(w->nruns, sizeof *w->jobs[i].tg)) != NULL;
+    w->target_ref = calloc(w->nruns, sizeof *w->target_ref);
+    w->target_ref_set = calloc(w->nruns, 1);
     /* Column groups: one with one thread; else two per thread (the columns
      * dealt out in turn), so that a worker finds a group to feed while
      * another is busy.  Groups decide only who feeds a column, never what. */
@@ -659,7 +789,7 @@ chunks *chunks_create(const chunks_options *o)
     pthread_mutex_init(&w->mu, NULL);
     pthread_cond_init(&w->work_cv, NULL);
     pthread_cond_init(&w->done_cv, NULL);
-    if (!w->jobs || !w->g_next || !w->g_busy || !w->group_cols || !w->group_at || !w->devp || !w->presp || !w->threads ||
+    if (!parts || !w->target_ref || !w->target_ref_set || !w->g_next || !w->g_busy || !w->group_cols || !w->group_at || !w->devp || !w->presp || !w->threads ||
         block_como_init(&w->bc, w->ncomo) != 0 || block_lane_init(&w->inline_lane) != 0) {
         chunks_free(w);
         return NULL;
@@ -690,9 +820,13 @@ void chunks_free(chunks *w)
     for (unsigned i = 0; w->jobs && i < w->nslots; i++) {
         job *j = &w->jobs[i];
         free(j->buf); free(j->cells); free(j->line); free(j->nf);
-        free(j->row_cell); free(j->row_class); free(j->row_y); free(j->row_has_y);
-        free(j->row_ym); free(j->row_ye);
-        free(j->blocks); free(j->drop_map); free(j->drop_y); free(j->dev); free(j->present);
+        for (size_t t = 0; j->tg && t < w->nruns; t++) {
+            job_target *jt = &j->tg[t];
+            free(jt->row_cell); free(jt->row_class); free(jt->row_y); free(jt->row_has_y);
+            free(jt->row_ym); free(jt->row_ye);
+            free(jt->blocks); free(jt->drop_map); free(jt->drop_y);
+        }
+        free(j->tg); free(j->dev); free(j->present);
         free(j->repeats);
         reader_cursor_free(&j->cur);
     }
@@ -703,6 +837,8 @@ void chunks_free(chunks *w)
     pthread_cond_destroy(&w->done_cv);
     free(w->jobs); free(w->g_next); free(w->g_busy); free(w->group_cols); free(w->group_at); free(w->devp); free(w->presp);
     free(w->threads);
+    free(w->target_ref);
+    free(w->target_ref_set);
     free(w);
 }
 

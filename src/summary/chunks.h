@@ -26,6 +26,17 @@
  *
  * With one thread nothing is copied and no thread starts: each pushed chunk
  * goes through T, R, every G and C on the caller's thread.
+ *
+ * Several targets (scan --target A,B): one summary per target, fed from the
+ * same chunks.  T tokenizes once; R works out each target's cells and
+ * blocks; G decodes (hashes and parses) each column's cells once per grid
+ * block (SUMMARY_BLOCK_ROWS rows from the chunk's first) and feeds that lane
+ * to every target whose blocks are the grid, so each summary sees what a
+ * scan with that target alone gives it.  A target whose blocks leave the
+ * grid in a chunk (its classes dropped, its target cells renumbered: a few
+ * chunks in a scan) has its blocks there decoded again.  C feeds the first
+ * summary's co-moments only (they do not depend on the target); scan.c
+ * copies them into the others at the end.
  */
 #ifndef SHEAF_CHUNKS_H
 #define SHEAF_CHUNKS_H
@@ -38,7 +49,9 @@
 #include "summary/summary.h"
 
 typedef struct {
-    summary *run;                  /* the summary fed (borrowed) */
+    summary *const *runs;          /* the summaries fed, one per target (borrowed): the first
+                                      gets the co-moments, every one the rest */
+    size_t nruns;                  /* at least 1 */
     const int *field_of;           /* field index of each of run's columns */
     size_t width;                  /* fields in the header */
     int header;                    /* a stream's first record is its header */

@@ -115,6 +115,31 @@ void column_write(const summary_column *c, uint32_t nclasses, uint32_t version, 
     }
 }
 
+void column_write_common(const summary_column *c, wire_writer *w)
+{
+    wire_put_str(w, c->name, strlen(c->name));
+    wire_put_u8(w, (uint8_t)c->mode);
+    wire_put_u64(w, c->missing);
+    wire_put_u64(w, c->non_numeric);
+    wire_put_u64(w, c->non_finite);
+    wire_put_u64(w, c->zeros);
+    wire_put_u64(w, c->integers);
+    wire_put_u64(w, c->mom.n);
+    wire_put_f64(w, c->mom.min);
+    wire_put_f64(w, c->mom.max);
+    wire_put_u8(w, (uint8_t)c->mom.has_ref);
+    wire_put_f64(w, c->mom.ref.value);
+    wire_put_u64(w, c->mom.ref.mantissa);
+    wire_put_i64(w, c->mom.ref.exp10);
+    wire_put_u8(w, c->mom.ref.negative);
+    wire_put_u8(w, c->mom.ref.exact);
+    wire_put_u32(w, c->n_examples);
+    for (uint32_t e = 0; e < c->n_examples; e++)
+        wire_put_str(w, c->examples[e], strlen(c->examples[e]));
+    values_write(c->vals, w);
+    hll_write(c->distinct, w);
+}
+
 int column_read(summary_column *c, uint32_t nclasses, uint32_t version, wire_reader *r,
                 const char **part)
 {

@@ -75,6 +75,15 @@ int summary_class_conversion(summary *s, const number_decimal *frame, uint32_t *
  * the bucket store and the per-value table (cells that meet combine).  0, or
  * -1 when out of memory (c is then unchanged). */
 int column_remap_target_cells(summary_column *c, const uint32_t *map, uint32_t len);
+/* What c holds that does not depend on the target, in a canonical byte
+ * form (for comparing the parts of a summary of several targets): name,
+ * mode, counts, the moments' count, extremes and frame (not their sums,
+ * which take the rounding of the target's blocks), examples, value table and
+ * sketch. */
+void column_write_common(const summary_column *c, wire_writer *w);
+/* into's co-moments := a copy of from's (same schema; a scan of several
+ * targets feeds them once).  0, or -1 when out of memory. */
+int summary_copy_comoments(summary *into, const summary *from);
 int column_seal(summary_column *c);
 int column_sealed(const summary_column *c);
 

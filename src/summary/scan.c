@@ -26,6 +26,7 @@
 #include "summary/chunks.h"
 #include "io/reader.h"
 #include "summary/block.h"
+#include "summary/column.h"
 #include "summary/schema.h"
 
 _Static_assert(CHUNK_PADDING >= CSV_READ_AHEAD && CHUNK_PADDING >= NUMBER_READ_AHEAD,
@@ -51,7 +52,11 @@ struct scan_context {
     unsigned threads;      /* worker threads */
     uint64_t rss_base;     /* resident bytes when the scan was created (--mem) */
     uint64_t pushed_bytes; /* stream bytes handed to the workers (--mem messages) */
-    summary *run;          /* the summary (once the schema is known) */
+    summary *run;          /* the summary (once the schema is known): runs[0] */
+    summary **runs;        /* one summary per target (nruns; one without a target) */
+    size_t nruns;
+    char **target_names;   /* the targets, resolved against the header (ntargets) */
+    size_t ntargets;
     reader_missing missing; /* the missing-cell test */
     /* The schema, from the first stream's first record (run is made then). */
     int *field_of;         /* each scanned column's field index */
@@ -131,7 +136,8 @@ static scan_status within_limit(scan_context *sc, int before_rows)
         snprintf(sc->err, sizeof sc->err,
                  "the accumulators of %zu columns (with %u target classes at most) take %s "
                  "before any row, above the %s memory limit (--mem)",
-                 sc->run ? sc->run->ncols : (size_t)0, sc->o.opt.target ? sc->o.opt.max_classes : 0,
+                 sc->run ? sc->run->ncols : (size_t)0,
+                 sc->run && sc->run->target >= 0 ? sc->o.opt.max_classes : 0,
                  held, limit);
     else
         snprintf(sc->err, sizeof sc->err,
@@ -144,7 +150,7 @@ static scan_status within_limit(scan_context *sc, int before_rows)
 
 static int start_work(scan_context *sc)
 {
-    chunks_options co = {sc->run, sc->field_of, sc->file_fields, sc->o.header, sc->o.strict,
+    chunks_options co = {sc->runs, sc->nruns, sc->field_of, sc->file_fields, sc->o.header, sc->o.strict,
                          &sc->ro, &sc->missing, sc->threads};
     sc->work = chunks_create(&co);
     if (!sc->work) return -1;
@@ -160,15 +166,67 @@ static scan_status worked(scan_context *sc, scan_status st)
     return st;
 }
 
+/* The target names: opt.target, or the list in `targets`, taken whole when
+ * it is a header name, else split at commas.  Each name once. */
+static scan_status resolve_targets(scan_context *sc, char **names, size_t nnames)
+{
+    const char *list = sc->o.targets;
+    if (list && sc->o.opt.target)
+        return fail(sc, SCAN_ERR_USAGE, "scan options: set opt.target or targets, not both");
+    if (!list) list = sc->o.opt.target;
+    if (!list) return SCAN_OK;
+    int whole = !sc->o.targets;
+    for (size_t i = 0; i < nnames && !whole; i++) whole = strcmp(names[i], list) == 0;
+    size_t cap = 1;
+    for (const char *p = list; !whole && *p; p++) cap += *p == ',';
+    sc->target_names = calloc(cap, sizeof *sc->target_names);
+    if (!sc->target_names) return fail(sc, SCAN_ERR_MEMORY, "out of memory");
+    for (const char *p = list;;) {
+        const char *e = whole ? p + strlen(p) : strchrnul(p, ',');
+        if (e == p) {
+            snprintf(sc->err, sizeof sc->err,
+                     "--target: an empty name in '%s' (names are separated by commas)", list);
+            return fail(sc, SCAN_ERR_USAGE, NULL);
+        }
+        char *name = strndup(p, (size_t)(e - p));
+        if (!name) return fail(sc, SCAN_ERR_MEMORY, "out of memory");
+        for (size_t t = 0; t < sc->ntargets; t++)
+            if (strcmp(sc->target_names[t], name) == 0) {
+                snprintf(sc->err, sizeof sc->err, "--target: '%s' is named twice", name);
+                free(name);
+                return fail(sc, SCAN_ERR_USAGE, NULL);
+            }
+        sc->target_names[sc->ntargets++] = name;
+        if (!*e) break;
+        p = e + 1;
+    }
+    return SCAN_OK;
+}
+
 /* The schema from the header names (summary/schema.h), then the summary and
- * its chunks. */
+ * its chunks (one summary per target). */
 static scan_status setup(scan_context *sc, char **names, size_t nnames)
 {
-    const scan_options *o = &sc->o;
-    schema_plan plan;
-    scan_status st = schema_plan_make(o, sc->first_path, sc->shown, names, nnames, &plan, sc->err,
-                                      sizeof sc->err);
+    scan_status st = resolve_targets(sc, names, nnames);
     if (st != SCAN_OK) return st;
+    /* The plan with the first target; each other target checked the same way. */
+    scan_options first = sc->o;
+    first.opt.target = sc->ntargets ? sc->target_names[0] : NULL;
+    const scan_options *o = &first;
+    schema_plan plan;
+    st = schema_plan_make(o, sc->first_path, sc->shown, names, nnames, &plan, sc->err,
+                          sizeof sc->err);
+    if (st != SCAN_OK) return st;
+    for (size_t t = 1; t < sc->ntargets; t++) {
+        scan_options other = first;
+        other.opt.target = sc->target_names[t];
+        other.warn = NULL; /* warned once above */
+        schema_plan check;
+        st = schema_plan_make(&other, sc->first_path, sc->shown, names, nnames, &check, sc->err,
+                              sizeof sc->err);
+        if (st != SCAN_OK) goto done;
+        schema_plan_free(&check);
+    }
     size_t n = plan.n;
     char **cols = plan.cols;
     column_mode *modes = plan.modes;
@@ -200,9 +258,19 @@ static scan_status setup(scan_context *sc, char **names, size_t nnames)
         st = SCAN_ERR_MEMORY;
         goto done;
     }
-    sc->run = summary_create(&o->opt, n, cols, modes, 1);
-    if (!sc->run) {
-        snprintf(sc->err, sizeof sc->err, "out of memory: the accumulators of %zu columns", n);
+    sc->nruns = sc->ntargets ? sc->ntargets : 1;
+    sc->runs = calloc(sc->nruns, sizeof *sc->runs);
+    for (size_t t = 0; sc->runs && t < sc->nruns; t++) {
+        /* The co-moments are fed into the first summary alone (scan_finish
+         * copies them). */
+        summary_options ot = o->opt;
+        ot.target = sc->ntargets ? sc->target_names[t] : NULL;
+        if (!(sc->runs[t] = summary_create(&ot, n, cols, modes, t == 0))) break;
+    }
+    sc->run = sc->runs ? sc->runs[0] : NULL;
+    if (!sc->runs || !sc->runs[sc->nruns - 1]) {
+        snprintf(sc->err, sizeof sc->err, "out of memory: the accumulators of %zu columns%s", n,
+                 sc->nruns > 1 ? " for each target" : "");
         st = SCAN_ERR_MEMORY;
         goto done;
     }
@@ -426,13 +494,16 @@ static scan_status end(scan_context *sc, const summary_source *prov)
         return fail(sc, SCAN_ERR_INPUT, NULL);
     }
     if (sc->header_only) return SCAN_OK;
-    sc->run->bytes += chunks_absorbed(sc->work);
     summary_source rec = *prov;
     rec.path = sc->name;
     rec.start_byte = sc->shard_start;
     rec.end_byte = sc->shard_end;
     rec.rows = chunks_rows(sc->work);
-    if (summary_add_source(sc->run, &rec) != 0) return fail(sc, SCAN_ERR_MEMORY, "out of memory");
+    for (size_t t = 0; t < sc->nruns; t++) {
+        sc->runs[t]->bytes += chunks_absorbed(sc->work);
+        if (summary_add_source(sc->runs[t], &rec) != 0)
+            return fail(sc, SCAN_ERR_MEMORY, "out of memory");
+    }
     sc->done_bytes += rec.raw_bytes;
     return SCAN_OK;
 }
@@ -466,7 +537,10 @@ void scan_free(scan_context *sc)
     chunks_free(sc->work);
     reader_free(sc->rd);
     reader_cursor_free(&sc->head);
-    summary_free(sc->run);
+    for (size_t t = 0; t < sc->nruns; t++) summary_free(sc->runs[t]);
+    free(sc->runs);
+    for (size_t t = 0; t < sc->ntargets; t++) free(sc->target_names[t]);
+    free(sc->target_names);
     if (sc->header)
         for (size_t i = 0; i < sc->file_fields; i++) free(sc->header[i]);
     free(sc->header);
@@ -612,8 +686,9 @@ static scan_status scan_shard(scan_context *sc, const char *path)
         rec.fingerprint = XXH3_64bits(NULL, 0);
         rec.start_byte = sc->shard_start;
         rec.end_byte = sc->shard_end;
-        if (summary_add_source(sc->run, &rec) != 0)
-            return fail(sc, SCAN_ERR_MEMORY, "out of memory");
+        for (size_t t = 0; t < sc->nruns; t++)
+            if (summary_add_source(sc->runs[t], &rec) != 0)
+                return fail(sc, SCAN_ERR_MEMORY, "out of memory");
         return SCAN_OK;
     }
     return scan_file(sc, path, first, hi - first);
@@ -625,25 +700,63 @@ scan_status scan_path(scan_context *sc, const char *path)
     return scan_file(sc, path, 0, 0);
 }
 
-summary *scan_finish(scan_context *sc)
+/* Every summary of the scan finished: each target's cells settled, the
+ * first summary's co-moments copied into the others, all sealed.  0, or -1
+ * (the scan's error set). */
+static int finish_runs(scan_context *sc)
 {
-    if (sc->failed) return NULL;
-    if (sc->open) { fail(sc, SCAN_ERR_USAGE, "scan_finish: a stream is still open (scan_end)"); return NULL; }
-    if (!sc->run) { fail(sc, SCAN_ERR_INPUT, "no records (nothing was scanned)"); return NULL; }
+    if (sc->failed) return -1;
+    if (sc->open) {
+        fail(sc, SCAN_ERR_USAGE, "scan_finish: a stream is still open (scan_end)");
+        return -1;
+    }
+    if (!sc->run) { fail(sc, SCAN_ERR_INPUT, "no records (nothing was scanned)"); return -1; }
     /* Every chunk is absorbed by now (scan_end waited): the last check of
      * --mem sees all that the workers added. */
-    if (within_limit(sc, 0) != SCAN_OK) return NULL;
+    if (within_limit(sc, 0) != SCAN_OK) return -1;
     chunks_free(sc->work);
     sc->work = NULL;
-    summary *s = sc->run;
-    /* The continuous target's cells numbered in key order, every column
-     * brought to that numbering (summary/tcells.h). */
-    if (summary_target_cells_settle(s) != 0 || summary_seal(s) != 0) {
-        fail(sc, SCAN_ERR_MEMORY, "out of memory");
-        return NULL;
+    for (size_t t = 0; t < sc->nruns; t++) {
+        summary *s = sc->runs[t];
+        /* The continuous target's cells numbered in key order, every column
+         * brought to that numbering (summary/tcells.h). */
+        if (summary_target_cells_settle(s) != 0 ||
+            (t > 0 && summary_copy_comoments(s, sc->run) != 0) || summary_seal(s) != 0) {
+            fail(sc, SCAN_ERR_MEMORY, "out of memory");
+            return -1;
+        }
     }
+    return 0;
+}
+
+summary *scan_finish(scan_context *sc)
+{
+    if (!sc->failed && sc->nruns > 1) {
+        snprintf(sc->err, sizeof sc->err,
+                 "scan_finish: the scan has %zu targets; scan_finish_set takes them all",
+                 sc->nruns);
+        sc->failed = SCAN_ERR_USAGE;
+    }
+    if (finish_runs(sc) != 0) return NULL;
+    summary *s = sc->run;
+    free(sc->runs);
+    sc->runs = NULL;
+    sc->nruns = 0;
     sc->run = NULL;
     return s;
+}
+
+summary_set *scan_finish_set(scan_context *sc)
+{
+    if (finish_runs(sc) != 0) return NULL;
+    summary_set *set = malloc(sizeof *set);
+    if (!set) { fail(sc, SCAN_ERR_MEMORY, "out of memory"); return NULL; }
+    set->n = sc->nruns;
+    set->parts = sc->runs;
+    sc->runs = NULL;
+    sc->nruns = 0;
+    sc->run = NULL;
+    return set;
 }
 
 
@@ -693,16 +806,9 @@ static scan_status read_ahead(scan_context *sc, const char *const *paths, size_t
     return st;
 }
 
-scan_status scan_files(const scan_options *o, const char *const *paths, size_t npaths,
-                       summary **out, char *err, size_t errlen)
+/* The paths into sc (see scan_files). */
+static scan_status scan_all(scan_context *sc, const char *const *paths, size_t npaths)
 {
-    *out = NULL;
-    if (o->shard_count && npaths != 1) {
-        snprintf(err, errlen, "--shard reads exactly one file (got %zu)", npaths);
-        return SCAN_ERR_USAGE;
-    }
-    scan_context *sc = scan_create(o);
-    if (!sc) { snprintf(err, errlen, "out of memory"); return SCAN_ERR_MEMORY; }
     /* Sizes for the progress report, from the file system (nothing is read). */
     for (size_t i = 0; i < npaths; i++) {
         struct stat st;
@@ -710,13 +816,54 @@ scan_status scan_files(const scan_options *o, const char *const *paths, size_t n
             sc->total_bytes += (uint64_t)st.st_size;
     }
     scan_status st = SCAN_OK;
-    if (o->shard_count || sc->threads < READ_AHEAD_MIN_THREADS) {
+    if (sc->o.shard_count || sc->threads < READ_AHEAD_MIN_THREADS) {
         for (size_t i = 0; st == SCAN_OK && i < npaths; i++) st = scan_path(sc, paths[i]);
     } else {
         st = read_ahead(sc, paths, npaths);
     }
+    return st;
+}
+
+static scan_context *files_context(const scan_options *o, size_t npaths, char *err,
+                                   size_t errlen, scan_status *st)
+{
+    if (o->shard_count && npaths != 1) {
+        snprintf(err, errlen, "--shard reads exactly one file (got %zu)", npaths);
+        *st = SCAN_ERR_USAGE;
+        return NULL;
+    }
+    scan_context *sc = scan_create(o);
+    if (!sc) { snprintf(err, errlen, "out of memory"); *st = SCAN_ERR_MEMORY; }
+    return sc;
+}
+
+scan_status scan_files(const scan_options *o, const char *const *paths, size_t npaths,
+                       summary **out, char *err, size_t errlen)
+{
+    *out = NULL;
+    scan_status st = SCAN_OK;
+    scan_context *sc = files_context(o, npaths, err, errlen, &st);
+    if (!sc) return st;
+    st = scan_all(sc, paths, npaths);
     if (st == SCAN_OK) {
         *out = scan_finish(sc);
+        st = sc->failed;
+    }
+    if (st != SCAN_OK) snprintf(err, errlen, "%s", sc->err);
+    scan_free(sc);
+    return st;
+}
+
+scan_status scan_files_set(const scan_options *o, const char *const *paths, size_t npaths,
+                           summary_set **out, char *err, size_t errlen)
+{
+    *out = NULL;
+    scan_status st = SCAN_OK;
+    scan_context *sc = files_context(o, npaths, err, errlen, &st);
+    if (!sc) return st;
+    st = scan_all(sc, paths, npaths);
+    if (st == SCAN_OK) {
+        *out = scan_finish_set(sc);
         st = sc->failed;
     }
     if (st != SCAN_OK) snprintf(err, errlen, "%s", sc->err);

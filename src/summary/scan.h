@@ -41,7 +41,12 @@ typedef enum {
 } scan_status;
 
 typedef struct {
-    summary_options opt;      /* accumulator options */
+    summary_options opt;      /* accumulator options (opt.target: one target, taken whole) */
+    const char *targets;      /* one or several targets instead of opt.target (which must then
+                                 be NULL): the text is one name when it is a whole header name,
+                                 else names separated by commas ("a,b"), each a scanned column
+                                 named once (SCAN_ERR_USAGE otherwise).  Several targets make
+                                 one summary per target in the one pass (scan_finish_set) */
     char delim;               /* field delimiter, 0 = detect from the first chunk */
     int header;               /* first record holds the column names */
     int strict;               /* a row with too few or too many fields is an error */
@@ -98,13 +103,23 @@ scan_status scan_path(scan_context *sc, const char *path);
 uint64_t scan_position(const scan_context *sc);
 
 /* The summary of everything scanned; the caller owns it.  NULL on an
- * error, or when nothing was scanned (scan_error tells). */
+ * error, or when nothing was scanned (scan_error tells), and when the scan
+ * has several targets (SCAN_ERR_USAGE: take them with scan_finish_set). */
 summary *scan_finish(scan_context *sc);
+/* The summaries of everything scanned, one per target in the order named
+ * (one summary, n = 1, without a target or with one): each is what a scan
+ * with that target alone gives, byte for byte.  The caller owns the set
+ * (summary_set_free).  NULL on an error as scan_finish. */
+summary_set *scan_finish_set(scan_context *sc);
 
 /* Scans paths in turn ("-" is standard input); they must share the header.
  * On success *out holds the summary; on failure err names the file and the
  * line or byte offset. */
 scan_status scan_files(const scan_options *o, const char *const *paths, size_t npaths,
                        summary **out, char *err, size_t errlen);
+/* The same for any number of targets (o->targets): *out holds the set,
+ * owned by the caller (summary_set_free). */
+scan_status scan_files_set(const scan_options *o, const char *const *paths, size_t npaths,
+                           summary_set **out, char *err, size_t errlen);
 
 #endif

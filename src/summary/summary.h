@@ -47,6 +47,10 @@
  * that older readers read it: 3 with a target (per-class sums in two
  * doubles), else 2 when it counted repeated headers, else 1. */
 #define SUMMARY_FORMAT_VERSION 3
+/* The version of a file of several targets (a container of version 3
+ * summaries, one per target: docs/summary-format.md). */
+#define SUMMARY_SET_FORMAT_VERSION 4
+#define SUMMARY_MAX_TARGETS 1024  /* targets one file may hold */
 #define SUMMARY_EXAMPLES 3        /* non-numeric examples kept per column */
 #define SUMMARY_EXAMPLE_BYTES 40  /* bytes kept of each example */
 #define SUMMARY_BAD_LINES 5       /* line numbers kept of ragged rows */
@@ -185,7 +189,10 @@ typedef enum {
     SUMMARY_ERR_IO = 1,           /* cannot read or write a file */
     SUMMARY_ERR_CORRUPT = 2,      /* not a summary, damaged, truncated, newer */
     SUMMARY_ERR_INCOMPATIBLE = 3, /* different schema or options */
-    SUMMARY_ERR_MEMORY = 4        /* out of memory */
+    SUMMARY_ERR_MEMORY = 4,       /* out of memory */
+    SUMMARY_ERR_TARGETS = 5       /* a file of several targets read as one summary
+                                     (summary_set_read reads it), or a target name
+                                     the file does not hold */
 } summary_status;
 
 void summary_options_defaults(summary_options *o);
@@ -280,5 +287,54 @@ summary_status summary_read(const char *path, summary **out, char *err, size_t e
 /* Decodes a summary from the bytes of a file into a new, sealed summary. */
 summary_status summary_decode(const uint8_t *data, size_t len, summary **out, char *err,
                               size_t errlen);
+
+/* ---- several targets -----------------------------------------------------
+ *
+ * A scan with several targets (scan_options.targets) makes one summary per
+ * target: each is, byte for byte, the summary a scan with that target alone
+ * would make, and they share every part that does not depend on the target
+ * (schema, sources, row counts, the value tables, sketches and counts of
+ * every column, co-moments).  A file holds them all (format version 4); a
+ * set of one summary is written as that summary's own file. */
+typedef struct {
+    size_t n;          /* summaries: 1, or one per target (2 ..  SUMMARY_MAX_TARGETS) */
+    summary **parts;   /* parts[i] has the i-th target (owned by the set) */
+} summary_set;
+
+/* Frees the set and every summary it still holds (NULL parts are skipped). */
+void summary_set_free(summary_set *set);
+/* A set of one summary (owned by the set from then on); NULL when out of
+ * memory (s is then still the caller's). */
+summary_set *summary_set_of(summary *s);
+/* The index of the part whose target is `name`, or -1. */
+long summary_set_find(const summary_set *set, const char *name);
+/* Takes part i out of the set: the caller owns it (summary_free); the set
+ * keeps NULL there. */
+summary *summary_set_take(summary_set *set, size_t i);
+/* The targets' names joined by ", " into buf (for messages); returns buf. */
+const char *summary_set_names(const summary_set *set, char *buf, size_t len);
+/* Reads any summary file: one summary (n = 1), or every target of a file
+ * of several.  Each part is checked as summary_read checks a file, and the
+ * parts against each other (distinct targets, each a column; the same
+ * schema, options, sources, counts, value tables, sketches and co-moments).
+ * The caller owns *out (summary_set_free). */
+summary_status summary_set_read(const char *path, summary_set **out, char *err, size_t errlen);
+summary_status summary_set_decode(const uint8_t *data, size_t len, summary_set **out, char *err,
+                                  size_t errlen);
+/* Reads the summary of one target: `target` NULL takes a file of one summary
+ * (SUMMARY_ERR_TARGETS, naming the targets, for a file of several); a name
+ * takes that target's part of a file of several, or a file of one summary
+ * whose target it is (SUMMARY_ERR_TARGETS, naming those it holds,
+ * otherwise).  The caller owns *out. */
+summary_status summary_read_target(const char *path, const char *target, summary **out,
+                                   char *err, size_t errlen);
+/* Writes the set: a set of one summary exactly as summary_write, else a
+ * file of format version 4 (atomically, as summary_write). */
+summary_status summary_set_write(const summary_set *set, const char *path, char *err,
+                                 size_t errlen);
+/* into := into (+) from, part by part (summary_merge).  The sets must hold
+ * the same targets in the same order (SUMMARY_ERR_INCOMPATIBLE, naming both
+ * lists, otherwise).  On failure into may be partly merged. */
+summary_status summary_set_merge(summary_set *into, summary_set *from, char *err, size_t errlen);
 
 #endif

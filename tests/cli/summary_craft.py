@@ -22,6 +22,12 @@ the decoder sees the change instead of a checksum mismatch.
                                              "empty": a schema of no columns)
                                              and ends the file with the second
                                              one's header claiming 2^30 bytes
+  summary_craft.py several IN OUT OP ARGS... a file of several targets (format
+                                             version 4), rewritten and resealed:
+      names A,B,..        the TGTS list (its count follows the names)
+      parts K,K,..        keep these parts (0-based), in this order
+      part-set K F=V..    rewrite fields of part K (as `set`)
+      part-from K FILE    part K becomes FILE's bytes
 A string field NAME has NAME.len and NAME.text; set NAME.text=... keeps its
 length.  The header's version is the field "version".
 XXH3-64 comes from Debian's libxxhash (the library sheaf links).
@@ -274,8 +280,77 @@ def parse_value(text, typ):
     return v & ((1 << (8 * SIZES[typ])) - 1)
 
 
+def set_fields(data, assignments):
+    """`set` on the bytes of one summary; returns the new bytes or an error text."""
+    sections, fields = parse(data)
+    by_name = {f[0]: f for f in fields}
+    for assignment in assignments:
+        name, text = assignment.split("=", 1)
+        if name not in by_name:
+            return "no field " + name
+        _, off, typ, old = by_name[name]
+        if typ == "text":  # same length only: the layout stays
+            if len(text) != len(old):
+                return "%s: %d bytes expected" % (name, len(old))
+            data[off:off + len(text)] = text.encode("latin-1")
+        else:
+            struct.pack_into(FMT[typ], data, off, parse_value(text, typ))
+    reseal(data, sections)
+    return data
+
+
+def several(argv):
+    """A file of several targets: magic, version 4, TGTS (u32 n, n names),
+    n PART sections (each a whole summary file), trailer."""
+    data = bytearray(open(argv[2], "rb").read())
+    if data[:8] != MAGIC or struct.unpack_from("<I", data, 8)[0] != 4:
+        print("not a file of several targets", file=sys.stderr)
+        return 1
+    pos, names, parts = 12, [], []
+    while data[pos:pos + 4] != b"END.":
+        (n,) = struct.unpack_from("<Q", data, pos + 4)
+        payload = data[pos + 12:pos + 12 + n]
+        if data[pos:pos + 4] == b"TGTS":
+            (k,) = struct.unpack_from("<I", payload, 0)
+            q = 4
+            for _ in range(k):
+                (ln,) = struct.unpack_from("<I", payload, q)
+                names.append(bytes(payload[q + 4:q + 4 + ln]).decode("latin-1"))
+                q += 4 + ln
+        else:
+            parts.append(bytearray(payload))
+        pos += 12 + n + 8
+    op = argv[4]
+    if op == "names":
+        names = argv[5].split(",")
+    elif op == "parts":
+        parts = [parts[int(k)] for k in argv[5].split(",")]
+    elif op == "part-set":
+        out = set_fields(parts[int(argv[5])], argv[6:])
+        if isinstance(out, str):
+            print(out, file=sys.stderr)
+            return 1
+        parts[int(argv[5])] = out
+    elif op == "part-from":
+        parts[int(argv[5])] = bytearray(open(argv[6], "rb").read())
+    else:
+        print(__doc__, file=sys.stderr)
+        return 2
+    tg = struct.pack("<I", len(names)) + b"".join(
+        struct.pack("<I", len(x.encode("latin-1"))) + x.encode("latin-1") for x in names)
+    out = bytearray(data[:12])
+    for tag, payload in [(b"TGTS", tg)] + [(b"PART", bytes(p)) for p in parts]:
+        out += tag + struct.pack("<Q", len(payload)) + payload + struct.pack("<Q", xxh3(payload))
+    out += b"END." + struct.pack("<Q", 8)
+    out += struct.pack("<Q", xxh3(out))
+    open(argv[3], "wb").write(out)
+    return 0
+
+
 def main(argv):
     cmd = argv[1]
+    if cmd == "several":
+        return several(argv)
     data = bytearray(open(argv[2], "rb").read())
     if cmd == "long-section":
         # Section 1 kept whole, then section 2's header with a length of 2^30
@@ -309,22 +384,11 @@ def main(argv):
     elif cmd == "payload-bits":
         print(sum(plen for _, _, _, plen in sections) * 8)
     elif cmd == "set":
-        by_name = {f[0]: f for f in fields}
-        for assignment in argv[4:]:
-            name, text = assignment.split("=", 1)
-            if name not in by_name:
-                print("no field " + name, file=sys.stderr)
-                return 1
-            _, off, typ, old = by_name[name]
-            if typ == "text":  # same length only: the layout stays
-                if len(text) != len(old):
-                    print("%s: %d bytes expected" % (name, len(old)), file=sys.stderr)
-                    return 1
-                data[off:off + len(text)] = text.encode("latin-1")
-            else:
-                struct.pack_into(FMT[typ], data, off, parse_value(text, typ))
-        reseal(data, sections)
-        open(argv[3], "wb").write(data)
+        out = set_fields(data, argv[4:])
+        if isinstance(out, str):
+            print(out, file=sys.stderr)
+            return 1
+        open(argv[3], "wb").write(out)
     elif cmd == "flip":
         out = flipped(data, sections, int(argv[4]))
         if out is None:

@@ -219,6 +219,10 @@ open_case mpg cylinders --max-classes 3
 open_case mpg mpg
 open_case mpg mpg --task classify
 open_case mpg horsepower --task regress
+# Several targets in one pass: a file of format version 4 (its parts are the
+# single-target summaries above, byte for byte: tests/cli/test_targets.sh).
+open_case mpg mpg,cylinders,horsepower --max-classes 3
+open_case penguins species,body_mass_g,sex
 open_case longley
 open_case longley TOTEMP --task regress
 for tag in stackloss macrodata fair star98 randhie grunfeld fertility co2; do

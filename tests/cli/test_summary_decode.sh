@@ -179,6 +179,44 @@ crafted como_m2_negative cls "COMO.M2[1][2]=-1"
 crafted como_mean_outside cls "COMO.MEAN[1][2]=1e9"
 crafted como_cauchy_schwarz cls "COMO.C[1][2]=1e12" "COMO.C[2][1]=1e12"
 
+# A file of several targets (format version 4, docs/summary-format.md
+# "Several targets"): the list against the parts, the parts against each
+# other in everything that does not depend on the target, every part
+# checked as a summary of its own.
+$SHEAF scan "$D" --target kind,weight -o "$T/sev.sheaf" -q 2>/dev/null &&
+    head -n 20 "$D" >"$T/t20.csv" && $SHEAF scan "$T/t20.csv" --target weight -o "$T/w20.sheaf" -q ||
+    fail decode.several_setup "scan --target kind,weight failed"
+run $SHEAF info "$T/sev.sheaf"
+check decode.good.several "info exit $RC: $(err_text)" [ "$RC" -eq 0 ]
+# several NAME OP ARGS...: rewrites sev.sheaf (summary_craft.py several) and
+# expects rejection naming what broke.
+several() {
+    local name=$1 want=$2
+    shift 2
+    if ! $CRAFT several "$T/sev.sheaf" "$T/$name.sheaf" "$@" 2>"$T/craft.err"; then
+        fail "decode.$name" "could not craft: $(tr '\n' ' ' <"$T/craft.err")"
+        return
+    fi
+    expect_damaged "$name" "$T/$name.sheaf"
+    run $SHEAF info "$T/$name.sheaf"
+    grep -qF "$want" "$T/err" || fail "decode.$name.message" "no '$want' in: $(err_text)"
+}
+several several_target_twice "target 'kind' is listed twice" names kind,kind
+several several_list_vs_part "the list names 'size', its summary 'weight'" names kind,size
+several several_one_target "1 targets (2 to 1024" names kind
+several several_parts_swapped "target 1: the list names 'kind', its summary 'weight'" parts 1,0
+several several_part_missing "section 3 PART (target 'weight'): missing" parts 0
+several several_sources_differ "its sources differ from target 1's" part-set 1 "SRCS.source[0].mtime=5"
+several several_column_differs "column 4 'note' differs from target 1's" \
+    part-set 1 "COLS[3].example[1].text=q"
+several several_comoments_differ "its co-moments differ from target 1's" \
+    part-set 1 "COMO.C[1][2]=-134.8" "COMO.C[2][1]=-134.8"
+several several_part_of_another_table "target 2 'weight': its sources differ" part-from 1 "$T/w20.sheaf"
+several several_part_damaged "target 2 'weight': damaged summary" part-set 1 "TRGT.target_text=3"
+several several_nested "target 2 'weight': a summary of 2 targets" part-from 1 "$T/sev.sheaf"
+head -c 400 "$T/sev.sheaf" >"$T/several_cut.sheaf"
+expect_damaged several_truncated "$T/several_cut.sheaf"
+
 # Bit flips with the checksums recomputed: every reader exits 0 or 4.
 flips=${SHEAF_DECODE_FLIPS:-100}
 mkdir -p "$T/flips"

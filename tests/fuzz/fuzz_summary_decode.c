@@ -2,7 +2,9 @@
  * computation of the commands that read a summary.
  *
  * Each input is the bytes of a summary file.  summary_decode must either
- * refuse it (SUMMARY_ERR_CORRUPT, or SUMMARY_ERR_MEMORY) or return a summary
+ * refuse it (SUMMARY_ERR_CORRUPT, or SUMMARY_ERR_MEMORY; SUMMARY_ERR_TARGETS
+ * for a file of several targets, which summary_set_decode must then read,
+ * each part going through info, screen and corr) or return a summary
  * on which nothing that a reading command computes may fail a sanitizer:
  *   - info: describe_column of every column (top values, quantiles,
  *     per-class moments), the class table, the sources;
@@ -63,12 +65,18 @@ static void put_le64(uint8_t *p, uint64_t v)
 static void reseal(uint8_t *b, size_t n)
 {
     if (n < 12 + 20) return;
+    /* A file of several targets (version 4): its TGTS section and up to
+     * SUMMARY_MAX_TARGETS PART sections, each a whole summary resealed
+     * first. */
+    int several = b[8] == SUMMARY_SET_FORMAT_VERSION && !b[9] && !b[10] && !b[11];
     size_t pos = 12;
-    for (int k = 0; k < 6; k++) {
+    for (int k = 0; k < (several ? SUMMARY_MAX_TARGETS + 1 : 6); k++) {
         if (n - 20 - pos < 12) break;
         uint64_t plen = get_le64(b + pos + 4);
         pos += 12;
         if (plen > n - 20 - pos || n - 20 - pos - plen < 8) break;
+        if (several && k > 0 && plen >= 12 && b[pos + 8] != SUMMARY_SET_FORMAT_VERSION)
+            reseal(b + pos, (size_t)plen);
         put_le64(b + pos + plen, XXH3_64bits(b + pos, (size_t)plen));
         pos += (size_t)plen + 8;
     }
@@ -172,6 +180,27 @@ int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
     summary *s = NULL;
     char err[512];
     summary_status st = summary_decode(b, size, &s, err, sizeof err);
+    if (st == SUMMARY_ERR_TARGETS) {
+        /* A file of several targets: summary_decode names them; the set
+         * must decode, and each of its parts go through what follows. */
+        summary_set *set = NULL;
+        st = summary_set_decode(b, size, &set, err, sizeof err);
+        if (st != SUMMARY_OK && st != SUMMARY_ERR_MEMORY) {
+            fprintf(stderr, "refused as several targets, then as a set: %s\n", err);
+            abort();
+        }
+        for (size_t i = 0; set && i < set->n; i++) {
+            summary *part = summary_set_take(set, i);
+            run_info(part);
+            screen_options o;
+            screen_options_defaults(&o);
+            run_screen(part, &o);
+            run_corr(part);
+            summary_free(part);
+        }
+        summary_set_free(set);
+        st = SUMMARY_ERR_TARGETS;
+    }
     if (getenv("SHEAF_FUZZ_VERBOSE"))
         fprintf(stderr, "  %s\n", st == SUMMARY_OK ? "accepted" : err);
     if (st == SUMMARY_OK) {

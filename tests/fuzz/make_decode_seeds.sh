@@ -34,6 +34,8 @@ $S scan "$T/t.csv" -o "$OUT/continuous_target.sheaf" -t grade --task regress "${
 $S scan "$T/t.csv" -o "$T/s1.sheaf" --shard 1/2 -t state "${SMALL[@]}"
 $S scan "$T/t.csv" -o "$T/s2.sheaf" --shard 2/2 -t state "${SMALL[@]}"
 $S merge "$T/s1.sheaf" "$T/s2.sheaf" -o "$OUT/merged_shards.sheaf"
+# Several targets in one file (format version 4).
+$S scan "$T/t.csv" -o "$OUT/several_targets.sheaf" -t state,code --columns temp,load,code,state "${SMALL[@]}"
 printf 'a,b\n' >"$T/empty.csv"
 $S scan "$T/empty.csv" -o "$OUT/header_only.sheaf" "${SMALL[@]}"
 # The 2^30-byte section header at the end (once SIGBUS in every reader).

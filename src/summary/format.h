@@ -1,0 +1,48 @@
+/* format: what the summary file code shares between one summary's file
+ * (format.c) and the file of several targets (targets.c).  Internal to
+ * summary/; the layouts are in docs/summary-format.md. */
+#ifndef SHEAF_SUMMARY_FORMAT_H
+#define SHEAF_SUMMARY_FORMAT_H
+
+#include <stdint.h>
+#include <sys/types.h>
+
+#include "acc/wire.h"
+#include "summary/summary.h"
+
+#define TAG(a, b, c, d) ((uint32_t)(a) | (uint32_t)(b) << 8 | (uint32_t)(c) << 16 | (uint32_t)(d) << 24)
+#define TAG_END TAG('E', 'N', 'D', '.')
+#define TAG_SCHEMA TAG('S', 'C', 'H', 'M')
+#define TAG_SOURCES TAG('S', 'R', 'C', 'S')
+#define TAG_TABLE TAG('T', 'A', 'B', 'L')
+#define TAG_COLUMNS TAG('C', 'O', 'L', 'S')
+#define TAG_TARGET TAG('T', 'R', 'G', 'T')
+#define TAG_COMOMENTS TAG('C', 'O', 'M', 'O')
+#define MAX_NAME_BYTES 65536
+
+extern const uint8_t SUMMARY_MAGIC[8];
+
+/* Writes s's whole file (magic to trailer) to fd from byte `base` on, which
+ * must be fd's position; *end (may be NULL) receives the offset after it.
+ * 0, or -1 with errno set. */
+int summary_write_at(const summary *s, int fd, off_t base, off_t *end);
+/* Writes all of data to fd (retrying short writes).  0, or -1 with errno. */
+int summary_write_all(int fd, const void *data, size_t len);
+/* XXH3-64 of fd's bytes [from, to), read back through a map.  0 or -1. */
+int summary_hash_region(int fd, off_t from, off_t to, uint64_t *hash);
+/* Maps a file read-only (*map NULL for an empty file; munmap it). */
+summary_status summary_map_file(const char *path, void **map, size_t *len, char *err,
+                                size_t errlen);
+
+/* The parts of a summary that do not depend on its target, each in a
+ * canonical byte form (column.h's column_write_common gives a column's). */
+enum {
+    SUMMARY_COMMON_OPTIONS,   /* options but the target, and the column count */
+    SUMMARY_COMMON_SOURCES,
+    SUMMARY_COMMON_TABLE,     /* row counts (then each column, column_write_common) */
+    SUMMARY_COMMON_COMOMENTS,
+    SUMMARY_COMMON_PIECES
+};
+void summary_encode_common(const summary *s, int piece, wire_writer *w);
+
+#endif
