@@ -39,6 +39,66 @@ static csv_status next_rec(csv_reader *r, csv_record *rec, const csv_field **f, 
     return st;
 }
 
+/* Appends a record's rendering: its first MAX_FIELDS fields, then
+ * "count@line". */
+static void render(tokenized *t, size_t *used, const char *const *ptr, const uint32_t *len,
+                   size_t n, uint64_t line)
+{
+    size_t shown = n < MAX_FIELDS ? n : MAX_FIELDS;
+    t->records++;
+    for (size_t i = 0; i < shown; i++) {
+        cr_assert_lt(*used + len[i] + 3, sizeof t->text);
+        t->text[(*used)++] = '<';
+        memcpy(t->text + *used, ptr[i], len[i]);
+        *used += len[i];
+        t->text[(*used)++] = '>';
+    }
+    *used += (size_t)snprintf(t->text + *used, sizeof t->text - *used, "%zu@%llu\n", n,
+                              (unsigned long long)line);
+    cr_assert_lt(*used + 2, sizeof t->text);
+}
+
+/* The same with csv_next_rows, `batch` rows at a time (rows of MAX_FIELDS
+ * spans, so that every field rendered is kept); wide 0 keeps the reader to
+ * its SSE2 blocks, 1 lets it read 32 bytes at a time where the CPU can. */
+static tokenized tokenize_rows(const char *data, size_t len, char delim, size_t batch, int wide)
+{
+    tokenized t;
+    memset(&t, 0, sizeof t);
+    char *buf = malloc(len + CSV_READ_AHEAD + 1);
+    cr_assert_not_null(buf);
+    memcpy(buf, data, len);
+    for (size_t i = 0; i < CSV_READ_AHEAD + 1; i++) buf[len + i] = "\"\n\r,;\t|x"[i % 8];
+    csv_reader r;
+    csv_reader_init_padded(&r, buf, len, delim);
+    if (!wide) r.wide = 0;
+    csv_span cells[MAX_FIELDS * 4];
+    uint32_t nf[4];
+    uint64_t line[4];
+    cr_assert_leq(batch, 4);
+    csv_rows rows = {cells, batch, MAX_FIELDS, 0, batch, nf, line, buf, SIZE_MAX, SIZE_MAX};
+    size_t used = 0;
+    csv_status st;
+    do {
+        rows.rows = 0;
+        st = csv_next_rows(&r, &rows);
+        for (size_t i = 0; i < rows.rows; i++) {
+            const char *ptr[MAX_FIELDS];
+            uint32_t flen[MAX_FIELDS];
+            for (size_t f = 0; f < MAX_FIELDS; f++) {
+                ptr[f] = buf + cells[f * batch + i].off;
+                flen[f] = cells[f * batch + i].len;
+            }
+            render(&t, &used, ptr, flen, nf[i], line[i] - 1);
+        }
+    } while (st == CSV_RECORD);
+    t.text[used] = '\0';
+    t.last = st;
+    t.lines = r.lines;
+    free(buf);
+    return t;
+}
+
 /* Tokenizes a copy of data[0..len) (the reader writes into its chunk) with
  * the plain reader (padded = 0) or the padded one, whose buffer is followed
  * by CSV_READ_AHEAD bytes of delimiters, quotes and newlines that must
@@ -58,20 +118,13 @@ static tokenized tokenize_with(const char *data, size_t len, char delim, int pad
     size_t used = 0;
     csv_status st;
     while ((st = csv_next(&r, &rec)) == CSV_RECORD) {
-        const csv_field *f = rec.fields;
-        size_t n = rec.nfields;
-        t.records++;
-        size_t shown = n < MAX_FIELDS ? n : MAX_FIELDS;
-        for (size_t i = 0; i < shown; i++) {
-            cr_assert_lt(used + f[i].len + 3, sizeof t.text);
-            t.text[used++] = '<';
-            memcpy(t.text + used, f[i].ptr, f[i].len);
-            used += f[i].len;
-            t.text[used++] = '>';
+        const char *ptr[MAX_FIELDS];
+        uint32_t flen[MAX_FIELDS];
+        for (size_t i = 0; i < rec.nfields && i < MAX_FIELDS; i++) {
+            ptr[i] = rec.fields[i].ptr;
+            flen[i] = rec.fields[i].len;
         }
-        used += (size_t)snprintf(t.text + used, sizeof t.text - used, "%zu@%llu\n", n,
-                                 (unsigned long long)r.record_line);
-        cr_assert_lt(used + 2, sizeof t.text);
+        render(&t, &used, ptr, flen, rec.nfields, r.record_line);
     }
     t.text[used] = '\0';
     t.last = st;
@@ -81,15 +134,26 @@ static tokenized tokenize_with(const char *data, size_t len, char delim, int pad
     return t;
 }
 
-/* Both readers, which must agree; returns the rendering without the field
- * counts and record lines (those are compared, then dropped). */
+/* The plain reader against the padded one and the rows reader (two rows at
+ * a time), which must agree. */
+static void agree(const tokenized *a, const char *data, size_t len, char delim, const char *what)
+{
+    tokenized b = tokenize_with(data, len, delim, 1), c = tokenize_rows(data, len, delim, 2, 1);
+    cr_assert_str_eq(a->text, b.text, "plain and padded readers differ on %s", what);
+    cr_assert_str_eq(a->text, c.text, "plain and rows readers differ on %s", what);
+    cr_assert(a->last == b.last && a->last == c.last, "%s", what);
+    cr_assert(a->lines == b.lines && a->lines == c.lines, "%s", what);
+    cr_assert(a->records == b.records && a->records == c.records, "%s", what);
+}
+
+/* The three readers, which must agree; returns the rendering without the
+ * field counts and record lines (those are compared, then dropped). */
 static tokenized tokenize_n(const char *data, size_t len, char delim)
 {
-    tokenized a = tokenize_with(data, len, delim, 0), b = tokenize_with(data, len, delim, 1);
-    cr_assert_str_eq(a.text, b.text, "plain and padded readers differ on \"%.*s\"", (int)len, data);
-    cr_assert_eq(a.last, b.last);
-    cr_assert_eq(a.lines, b.lines);
-    cr_assert_eq(a.records, b.records);
+    tokenized a = tokenize_with(data, len, delim, 0);
+    char what[200];
+    snprintf(what, sizeof what, "\"%.*s\"", (int)(len < 150 ? len : 150), data);
+    agree(&a, data, len, delim, what);
     /* Drop the "N@L" annotations: the expectations below predate them. */
     char *w = a.text;
     for (const char *p = a.text; *p;) {
@@ -394,10 +458,133 @@ Test(csv, quote_scan_agrees_with_the_tokenizer_on_random_text)
     csv_record_free(&rec);
 }
 
-Test(csv, padded_reader_agrees_with_the_plain_one_on_random_chunks)
+/* The quote rule of csv.h read one byte at a time: the reference for
+ * csv_quote_scan (same arguments, same result, same state after). */
+static size_t rule_scan(csv_quote_mode *mode, char delim, const char *d, size_t len, int first)
+{
+    size_t best = len + 1;
+    for (size_t i = 0; i < len; i++) {
+        char c = d[i];
+        switch (*mode) {
+        case CSV_IN_QUOTES:
+            if (c == '"') *mode = CSV_QUOTE_SEEN;
+            continue;
+        case CSV_QUOTE_SEEN: /* '""' is a quote; anything else follows a closing one */
+            if (c == '"') { *mode = CSV_IN_QUOTES; continue; }
+            break;
+        case CSV_AT_FIELD: /* a quote opens quotes only as a field's first byte */
+            if (c == '"') { *mode = CSV_IN_QUOTES; continue; }
+            break;
+        default: break;
+        }
+        if (c == '\n') {
+            *mode = CSV_AT_FIELD;
+            best = i + 1;
+            if (first) return best;
+        } else {
+            *mode = c == delim ? CSV_AT_FIELD : CSV_IN_FIELD;
+        }
+    }
+    return best;
+}
+
+Test(csv, quote_scan_follows_the_rule_byte_by_byte)
+{
+    /* 40,000 random texts up to 700 bytes, each from every state and in
+     * both modes: dense quotes and newlines; long text with rare quotes
+     * (passed with memchr); long lines of many short quoted fields (more
+     * stretches outside quotes than csv_quote_scan notes, so it reads the
+     * data again). */
+    static const char *const alphabets[] = {
+        "ab1,,;\"\"\"\n\n\r ",
+        "abcdefghijklmnopqrstuvwxyz0123456789abcdefghijklmnopqrstuvwxyz,,,,,,,,\n\"",
+        "\"\"\"a,,b,\"\"a,,\"a,\"\"a,,b,\"\"a,,\"a,\"\"a,,b,\"\"a,,\"a,\"\"a,,b,\"\"a,,\"a,\n"};
+    uint64_t x = 0x452821E638D01377ull;
+    char data[701];
+    for (int iter = 0; iter < 40000; iter++) {
+        const char *al = alphabets[iter % 3];
+        size_t an = strlen(al), len = (size_t)(iter / 3 % 701);
+        for (size_t i = 0; i < len; i++) {
+            x ^= x << 13; x ^= x >> 7; x ^= x << 17;
+            data[i] = al[x % an];
+        }
+        char delim = ",;"[iter % 2];
+        for (int first = 0; first < 2; first++)
+            for (int m = CSV_AT_FIELD; m <= CSV_QUOTE_SEEN; m++) {
+                csv_quote_mode want_mode = (csv_quote_mode)m;
+                csv_quote_state q = {(csv_quote_mode)m, delim};
+                size_t want = rule_scan(&want_mode, delim, data, len, first);
+                size_t got = csv_quote_scan(&q, data, len, first);
+                cr_assert_eq(got, want, "iteration %d (%s, from state %d): %zu, the rule %zu", iter,
+                             first ? "first" : "last", m, got, want);
+                cr_assert_eq(q.mode, want_mode, "iteration %d (%s, from state %d)", iter,
+                             first ? "first" : "last", m);
+            }
+    }
+}
+
+Test(csv, quote_scan_gives_the_same_record_ends_in_any_pieces)
+{
+    /* csv_quote_scan carries its state from piece to piece: cut into random
+     * pieces, the first record end of each piece (first mode, again after
+     * each end) and its last (last mode) are those of the whole text read
+     * at once in first mode; 20,000 texts up to 300 bytes, pieces of 1 to
+     * 150 bytes, so that blocks of 64 end anywhere. */
+    static const char alphabet[] = "ab1,,;\"\"\"\n\n\r ";
+    uint64_t x = 0xA4093822299F31D0ull;
+    char data[301];
+    unsigned char is_end[302];
+    for (int iter = 0; iter < 20000; iter++) {
+        size_t len = (size_t)(iter % 301);
+        for (size_t i = 0; i < len; i++) {
+            x ^= x << 13; x ^= x >> 7; x ^= x << 17;
+            data[i] = alphabet[x % (sizeof alphabet - 1)];
+        }
+        char delim = ",;"[iter % 2];
+        csv_quote_state q;
+        csv_quote_init(&q, delim);
+        memset(is_end, 0, sizeof is_end);
+        for (size_t at = 0; at < len;) {
+            size_t e = csv_quote_scan(&q, data + at, len - at, 1);
+            if (e > len - at) break;
+            at += e;
+            is_end[at] = 1;
+        }
+        csv_quote_state a, b;
+        csv_quote_init(&a, delim);
+        csv_quote_init(&b, delim);
+        for (size_t at = 0; at < len;) {
+            x ^= x << 13; x ^= x >> 7; x ^= x << 17;
+            size_t n = 1 + x % 150;
+            if (n > len - at) n = len - at;
+            size_t want = 0; /* the last record end in the piece, as an offset after it */
+            for (size_t i = 1; i <= n; i++)
+                if (is_end[at + i]) want = i;
+            size_t got = csv_quote_scan(&a, data + at, n, 0);
+            cr_assert_eq(got, want ? want : n + 1, "iteration %d, piece at %zu of %zu bytes", iter,
+                         at, n);
+            for (size_t from = 0; from < n;) { /* first mode, end after end */
+                size_t e = csv_quote_scan(&b, data + at + from, n - from, 1);
+                size_t next = from + 1;
+                while (next <= n && !is_end[at + next]) next++;
+                if (next > n) {
+                    cr_assert_eq(e, n - from + 1, "iteration %d", iter);
+                    break;
+                }
+                cr_assert_eq(from + e, next, "iteration %d, first end after %zu", iter, at + from);
+                from = next;
+            }
+            cr_assert_eq(a.mode, b.mode, "iteration %d: the states differ after %zu", iter, at + n);
+            at += n;
+        }
+    }
+}
+
+Test(csv, padded_and_rows_readers_agree_with_the_plain_one_on_random_chunks)
 {
     /* Differential: 20,000 random chunks over an alphabet rich in the bytes
-     * that matter, every length from 0 to 300, three delimiters. */
+     * that matter, every length from 0 to 300, three delimiters; the rows
+     * reader (csv_next_rows) also 1, 2 and 3 rows at a time. */
     static const char alphabet[] = "ab1,,,;\t\"\"\n\n\r ";
     uint64_t x = 0x243F6A8885A308D3ull;
     char data[301];
@@ -408,10 +595,20 @@ Test(csv, padded_reader_agrees_with_the_plain_one_on_random_chunks)
             data[i] = alphabet[x % (sizeof alphabet - 1)];
         }
         char delim = ",;\t"[iter % 3];
-        tokenized a = tokenize_with(data, len, delim, 0), b = tokenize_with(data, len, delim, 1);
-        cr_assert_str_eq(a.text, b.text, "iteration %d", iter);
-        cr_assert_eq(a.last, b.last, "iteration %d", iter);
-        cr_assert_eq(a.lines, b.lines, "iteration %d", iter);
+        tokenized a = tokenize_with(data, len, delim, 0);
+        char what[32];
+        snprintf(what, sizeof what, "iteration %d", iter);
+        agree(&a, data, len, delim, what);
+        /* One row at a time and three: where a batch ends changes nothing;
+         * nor do the blocks the reader reads (SSE2, or AVX2 where the CPU
+         * has it). */
+        for (size_t batch = 1; batch <= 3; batch += 2)
+            for (int wide = 0; wide < 2; wide++) {
+                tokenized c = tokenize_rows(data, len, delim, batch, wide);
+                cr_assert_str_eq(a.text, c.text, "%s, %zu rows at a time, wide %d", what, batch,
+                                 wide);
+                cr_assert(a.last == c.last && a.lines == c.lines, "%s", what);
+            }
     }
 }
 

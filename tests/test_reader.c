@@ -219,3 +219,182 @@ Test(reader, record_over_the_limit_after_a_byte_order_mark_starts_after_it)
     free(got);
     free(text);
 }
+
+Test(reader, missing_test_knows_spellings_of_63_bytes_and_more)
+{
+    /* Lengths 64 apart share a bit of the first test (reader.h), and a
+     * spelling of 64 bytes shares the empty cell's: each length must still
+     * be told apart by the spellings themselves. */
+    char longer[71], cell[80];
+    memset(longer, 'x', 70);
+    longer[70] = '\0';
+    const char *sp[] = {longer};
+    reader_missing m;
+    reader_missing_init(&m, sp, 1);
+    memset(cell, 'x', sizeof cell);
+    cr_assert(reader_is_missing(&m, cell, 70));
+    cr_assert(!reader_is_missing(&m, cell, 63));
+    cr_assert(!reader_is_missing(&m, cell, 64));
+    cr_assert(!reader_is_missing(&m, cell, 71));
+    cell[69] = 'y';
+    cr_assert(!reader_is_missing(&m, cell, 70));
+    cr_assert(!reader_is_missing(&m, cell, 6)); /* 70 % 64: no alias either */
+    char sixty_four[65];
+    memset(sixty_four, 'x', 64);
+    sixty_four[64] = '\0';
+    const char *sp64[] = {sixty_four};
+    reader_missing_init(&m, sp64, 1);
+    cr_assert(reader_is_missing(&m, "x", 0)); /* empty: missing, whatever the bits */
+    cr_assert(reader_is_missing(&m, cell, 64));
+    cr_assert(!reader_is_missing(&m, cell, 1));
+}
+
+/* ---- rows: reader_cursor_rows against reader_cursor_next ------------------ */
+
+/* One record as the record cursor gives it. */
+typedef struct {
+    const csv_field *fields; /* into the record cursor's chunk (unquoted in place) */
+    size_t nfields;
+    uint64_t line;
+} expected_record;
+
+/* Reads chunk bytes data[0..len) (stream offset `offset`) both ways, with
+ * the stop offset, the exempt first record and the offsets to skip, and
+ * checks that reader_cursor_rows (rows of `width` spans, at most max_rows
+ * at a time, the table emptied whenever it is full) gives the records of
+ * reader_cursor_next less those that begin at a skipped offset, and ends
+ * the same way (status, lines, absorbed offset, stop, fault). */
+static void rows_agree(const char *data, size_t len, uint64_t offset, uint64_t stop_at,
+                       int exempt, const uint64_t *skip, size_t nskip, size_t width,
+                       size_t max_rows, size_t max_record, const char *what)
+{
+    reader_options o;
+    reader_options_defaults(&o);
+    o.max_record_bytes = max_record;
+    char *a = calloc(len + CHUNK_PADDING, 1), *b = calloc(len + CHUNK_PADDING, 1);
+    cr_assert(a && b);
+    memcpy(a, data, len);
+    memcpy(b, data, len);
+    reader_chunk ca = {a, len, offset, 0, ',', NULL, 0}, cb = {b, len, offset, 0, ',', NULL, 0};
+    reader_cursor x, y;
+    reader_cursor_init(&x, &o);
+    reader_cursor_init(&y, &o);
+    reader_cursor_start(&x, &ca, stop_at, exempt);
+    reader_cursor_start(&y, &cb, stop_at, exempt);
+    reader_cursor_skip(&y, skip, nskip);
+
+    /* The record cursor; its field arrays are copied (the next record reuses them). */
+    expected_record want[512];
+    csv_field *kept = malloc((len + 1) * sizeof *kept);
+    size_t nwant = 0, nkept = 0, skipped = 0, at = 0;
+    reader_status xs;
+    for (;;) {
+        reader_record rec;
+        xs = reader_cursor_next(&x, &rec);
+        if (xs != READER_RECORD) break;
+        while (at < nskip && skip[at] < rec.offset) at++;
+        if (at < nskip && skip[at] == rec.offset) { skipped++; continue; }
+        cr_assert_lt(nwant, 512);
+        memcpy(kept + nkept, rec.fields, rec.nfields * sizeof *kept);
+        want[nwant++] = (expected_record){kept + nkept, rec.nfields, rec.line};
+        nkept += rec.nfields;
+    }
+
+    csv_span *cells = malloc(width * max_rows * sizeof *cells);
+    uint32_t nf[8];
+    uint64_t line[8];
+    cr_assert_leq(max_rows, 8);
+    csv_rows rows = {cells, max_rows, width, 0, max_rows, nf, line, b, 0, 0};
+    size_t got = 0;
+    reader_status ys;
+    do {
+        ys = reader_cursor_rows(&y, &rows);
+        for (size_t i = 0; i < rows.rows; i++, got++) {
+            cr_assert_lt(got, nwant, "%s: more rows than records", what);
+            const expected_record *e = &want[got];
+            cr_assert_eq(nf[i], e->nfields, "%s: row %zu has %u fields, want %zu", what, got,
+                         nf[i], e->nfields);
+            cr_assert_eq(line[i], e->line, "%s: row %zu", what, got);
+            for (size_t f = 0; f < width; f++) {
+                const csv_span *s = &cells[f * max_rows + i];
+                if (f >= e->nfields) {
+                    cr_assert(s->off == 0 && s->len == 0, "%s: row %zu field %zu", what, got, f);
+                    continue;
+                }
+                cr_assert_eq(s->len, e->fields[f].len, "%s: row %zu field %zu", what, got, f);
+                cr_assert_eq(memcmp(b + s->off, e->fields[f].ptr, s->len), 0,
+                             "%s: row %zu field %zu", what, got, f);
+            }
+        }
+        rows.rows = 0;
+    } while (ys == READER_RECORD);
+    cr_assert_eq(got, nwant, "%s: %zu rows, %zu records", what, got, nwant);
+    cr_assert_eq(ys, xs, "%s: rows end with %d, records with %d", what, ys, xs);
+    cr_assert_eq(y.skipped, skipped, "%s", what);
+    if (ys == READER_ERROR) {
+        cr_assert_eq(y.fault, x.fault, "%s", what);
+        cr_assert_eq(y.fault_line, x.fault_line, "%s", what);
+        cr_assert_eq(y.fault_offset, x.fault_offset, "%s", what);
+    } else {
+        cr_assert_eq(y.lines, x.lines, "%s", what);
+        cr_assert_eq(y.absorbed, x.absorbed, "%s", what);
+        cr_assert_eq(y.stopped, x.stopped, "%s", what);
+    }
+    reader_cursor_free(&x);
+    reader_cursor_free(&y);
+    free(cells);
+    free(kept);
+    free(a);
+    free(b);
+}
+
+Test(reader, rows_skip_the_given_records_and_fill_what_a_row_lacks)
+{
+    /* Hand-worked: records begin at 1000 ("h,h"), 1005 (after a blank
+     * line), 1011 ("h,h"), 1015 and 1017; of the skip offsets, 1004 (the
+     * blank line) is no record start and 1011 leaves out the second "h,h"
+     * alone; width 3 fills "x" with two empty spans and counts the fourth
+     * field of "1,2,3,4" without keeping it. */
+    const char text[] = "h,h\n\n1,\"a\"\nh,h\nx\n1,2,3,4\n";
+    const uint64_t skip[] = {1004, 1011};
+    rows_agree(text, sizeof text - 1, 1000, 0, 0, skip, 2, 3, 2, 4096, "literal");
+}
+
+/* xorshift64: the random chunks' bytes and choices. */
+static uint64_t next_random(uint64_t *x)
+{
+    *x ^= *x << 13;
+    *x ^= *x >> 7;
+    *x ^= *x << 17;
+    return *x;
+}
+
+Test(reader, rows_agree_with_records_on_random_chunks)
+{
+    /* Differential, 20,000 random chunks over the bytes that matter: every
+     * stop offset (none, inside the chunk, exempt first record or not),
+     * skip offsets at record starts and elsewhere, widths 1 to 4, 1 to 3
+     * rows at a time, and small record limits. */
+    static const char alphabet[] = "ab1,,,\"\"\n\n\r ";
+    uint64_t x = 0x13198A2E03707344ull;
+    char data[121];
+    uint64_t skip[16];
+    for (int iter = 0; iter < 20000; iter++) {
+        size_t len = (size_t)(iter % 121);
+        for (size_t i = 0; i < len; i++) data[i] = alphabet[next_random(&x) % (sizeof alphabet - 1)];
+        const uint64_t offset = 5000;
+        uint64_t stop = next_random(&x) % 3 ? 0 : offset + next_random(&x) % (len + 2);
+        size_t nskip = 0;
+        for (size_t i = 0; i < len && nskip < 16; i++) { /* line starts mostly, and some others */
+            int line_start = i == 0 || data[i - 1] == '\n';
+            if ((line_start && next_random(&x) % 3 == 0) || next_random(&x) % 40 == 0)
+                skip[nskip++] = offset + i;
+        }
+        int exempt = (int)(next_random(&x) % 2);
+        size_t width = 1 + next_random(&x) % 4, max_rows = 1 + next_random(&x) % 3;
+        size_t max_record = next_random(&x) % 4 ? 4096 : 4 + next_random(&x) % 20;
+        char what[64];
+        snprintf(what, sizeof what, "iteration %d", iter);
+        rows_agree(data, len, offset, stop, exempt, skip, nskip, width, max_rows, max_record, what);
+    }
+}

@@ -34,23 +34,36 @@ typedef struct {
 /* Bytes after the end of the data that csv_reader_init_padded may read. */
 #define CSV_READ_AHEAD 64
 
+/* A field as an offset and a length: the form csv_next_rows writes, 8 bytes
+ * a field. */
+typedef struct {
+    uint32_t off; /* first byte, counted from a base the reader is given */
+    uint32_t len; /* field length */
+} csv_span;
+
 typedef struct {
     char *pos;         /* next unread byte */
     char *end;         /* end of the chunk */
     char delim;        /* field delimiter */
     uint64_t lines;    /* newlines consumed so far in this chunk */
     uint64_t record_line; /* line (0-based within the chunk) where the last record began */
-    char *record_start;   /* first byte of the last record read */
+    char *record_start;   /* first byte of the last record read (or found, csv_next_rows) */
+    char *record_end;     /* just after the last record read (its line end included); the
+                             data's first byte before the first */
     int padded;           /* CSV_READ_AHEAD bytes after end are readable */
-    const char *mask_base;  /* first byte of the cached block (padded reader) */
-    uint64_t mask_bits;     /* its delimiter, newline and quote positions */
+    int wide;             /* csv_next_rows reads 32 bytes at a time (AVX2 and BMI1, where
+                             the CPU has them); the same results either way */
+    const char *mask_base;  /* first byte of the current block (padded reader) */
+    uint64_t mask_bits;     /* its delimiter, newline and quote positions not yet passed */
 } csv_reader;
 
 typedef enum {
-    CSV_RECORD = 1,       /* a record was read */
+    CSV_RECORD = 1,       /* a record was read (csv_next_rows: the rows are full) */
     CSV_END = 0,          /* no more records in the chunk */
     CSV_UNTERMINATED = -1, /* a quoted field runs to the end of the chunk */
-    CSV_NOMEM = -2        /* the field buffer could not grow */
+    CSV_NOMEM = -2,       /* the field buffer could not grow */
+    CSV_STOP = -3,        /* csv_next_rows: the next record begins at or after the stop */
+    CSV_TOO_LONG = -4     /* csv_next_rows: a record is longer than max_record_bytes */
 } csv_status;
 
 /* The fields of one record.  The buffer grows as a record needs (never sized
@@ -58,7 +71,8 @@ typedef enum {
 typedef struct {
     csv_field *fields; /* fields[0..nfields) of the last record read */
     size_t nfields;    /* fields in the last record */
-    size_t cap;        /* allocated entries */
+    size_t cap;        /* allocated entries (of fields and of spans) */
+    csv_span *spans;   /* the padded reader's scratch: the fields from the record's start */
 } csv_record;
 
 void csv_record_free(csv_record *rec);
@@ -70,6 +84,37 @@ void csv_reader_init(csv_reader *r, char *data, size_t len, char delim);
 void csv_reader_init_padded(csv_reader *r, char *data, size_t len, char delim);
 /* Reads the next record into rec (all of its fields). */
 csv_status csv_next(csv_reader *r, csv_record *rec);
+
+/* Many records at once, for a padded reader, into a table of spans laid out
+ * by field: field f of row i is cells[f * stride + i], so that a reader of
+ * one field's column walks it in order.  Each row gets `width` spans: a
+ * record with more fields has the rest counted (nfields) but not kept; one
+ * with fewer gets empty spans (offset 0, length 0) for the fields it lacks.
+ * Nothing is allocated.
+ *
+ * Rows go to rows, rows+1, ... until max_rows are there (CSV_RECORD), the
+ * data ends (CSV_END), or the next record begins at or after base + stop
+ * (CSV_STOP: it is not read; pos and record_start are its first byte,
+ * record_line its line, record_end the end of the record before it).  A
+ * record of more than max_record_bytes bytes (its line end included) is
+ * read but not kept (CSV_TOO_LONG), and a quote left open (CSV_UNTERMINATED)
+ * ends the data; record_start and record_line then name that record.
+ * Fields are unquoted in place as csv_next does.  Spans count from base,
+ * which is at or before the data and within 4 GiB of its end. */
+typedef struct {
+    csv_span *cells;         /* width x stride spans */
+    size_t stride;           /* rows of each field's column */
+    size_t width;            /* spans kept per row */
+    size_t rows;             /* rows written; the next record goes to this row */
+    size_t max_rows;         /* at most this many (<= stride) */
+    uint32_t *nfields;       /* per row: the record's fields (all of them) */
+    uint64_t *line;          /* per row: its first line, 1-based, counted from the data's start */
+    const char *base;        /* spans count from here */
+    size_t stop;             /* records that begin at base + stop or later are not read */
+    size_t max_record_bytes; /* longest record kept */
+} csv_rows;
+
+csv_status csv_next_rows(csv_reader *r, csv_rows *out);
 
 /* Like csv_next, but leaves the chunk untouched: each field is its raw bytes
  * (quotes and doubled quotes included), and *eol / *eol_len give the

@@ -258,6 +258,8 @@ void reader_cursor_start(reader_cursor *c, const reader_chunk *ch, uint64_t stop
     c->stop_at = stop_at;
     c->exempt_first = exempt_first;
     c->seen = 0;
+    c->skip = NULL;
+    c->nskip = c->skip_at = c->skipped = 0;
     c->lines = 0;
     c->absorbed = ch->offset;
     c->stopped = 0;
@@ -328,6 +330,81 @@ reader_status reader_cursor_next(reader_cursor *c, reader_record *rec)
     return READER_RECORD;
 }
 
+void reader_cursor_skip(reader_cursor *c, const uint64_t *skip, size_t n)
+{
+    c->skip = skip;
+    c->nskip = n;
+    c->skip_at = 0;
+}
+
+/* Where reader_cursor_rows pauses: the stop offset, unless the next record
+ * is the chunk's exempt first one, or the next offset to skip, whichever
+ * comes first; as an offset from the chunk's data (SIZE_MAX: none). */
+static size_t rows_stop(reader_cursor *c)
+{
+    uint64_t at = c->ch.offset + (uint64_t)(c->tok.pos - c->ch.data), stop = UINT64_MAX;
+    while (c->skip_at < c->nskip && c->skip[c->skip_at] < at) c->skip_at++;
+    if (c->skip_at < c->nskip) stop = c->skip[c->skip_at];
+    if (c->stop_at && c->stop_at < stop && !(c->exempt_first && !c->seen)) stop = c->stop_at;
+    if (stop == UINT64_MAX) return SIZE_MAX;
+    return stop > c->ch.offset ? (size_t)(stop - c->ch.offset) : 0;
+}
+
+reader_status reader_cursor_rows(reader_cursor *c, csv_rows *out)
+{
+    csv_reader *t = &c->tok;
+    out->max_record_bytes = c->o->max_record_bytes;
+    for (;;) {
+        size_t max_rows = out->max_rows, before = out->rows;
+        if (before == max_rows) return READER_RECORD;
+        /* The exempt first record alone, so that the stop applies after it. */
+        if (c->exempt_first && !c->seen) out->max_rows = before + 1;
+        out->stop = rows_stop(c);
+        csv_status cs = csv_next_rows(t, out);
+        out->max_rows = max_rows;
+        c->seen += (int)(out->rows - before) + (cs == CSV_UNTERMINATED || cs == CSV_TOO_LONG);
+        uint64_t at = c->ch.offset + (uint64_t)(t->record_start - c->ch.data);
+        switch (cs) {
+        case CSV_RECORD: continue; /* full (checked above), or after the exempt record */
+        case CSV_END:
+            c->lines = t->lines;
+            c->absorbed = c->ch.offset + c->ch.len;
+            if (c->stop_at) { /* blank lines that reach into the next shard's range */
+                uint64_t to = first_start(c, t->record_end, t->end);
+                if (to < c->absorbed) { c->absorbed = to; c->stopped = 1; }
+            }
+            return READER_CHUNK_END;
+        case CSV_STOP:
+            if (c->stop_at && at >= c->stop_at && !(c->exempt_first && !c->seen)) {
+                c->stopped = 1;
+                c->lines = t->record_line;
+                c->absorbed = first_start(c, t->record_end, t->record_start);
+                return READER_END;
+            }
+            if (c->skip_at < c->nskip && at == c->skip[c->skip_at]) {
+                /* Read it into the next row, which the next record takes. */
+                out->max_rows = out->rows + 1;
+                out->stop = SIZE_MAX;
+                cs = csv_next_rows(t, out);
+                out->max_rows = max_rows;
+                c->seen++;
+                if (cs == CSV_RECORD) {
+                    out->rows--;
+                    c->skipped++;
+                } else if (cs != CSV_END) {
+                    break; /* its fault, below */
+                }
+            }
+            c->skip_at++;
+            continue;
+        default: break;
+        }
+        reader_record rec = {.line = t->record_line + 1, .offset = at};
+        return fault(c, cs == CSV_UNTERMINATED ? READER_FAULT_UNTERMINATED : READER_FAULT_TOO_LONG,
+                     &rec);
+    }
+}
+
 void reader_cursor_message(const reader_cursor *c, const char *name, uint64_t lines_before,
                            char *buf, size_t len)
 {
@@ -377,6 +454,14 @@ size_t reader_column_name(const csv_field *f, size_t i, int header, int raw, cha
     return (size_t)snprintf(out, 24, "col%zu", i + 1);
 }
 
+int reader_missing_spelled(const reader_missing *m, const char *p, uint32_t len)
+{
+    for (uint32_t i = 0; i < m->n; i++)
+        if (m->len[i] == len && m->spelling[i][0] == p[0] && memcmp(m->spelling[i], p, len) == 0)
+            return 1;
+    return 0;
+}
+
 void reader_missing_init(reader_missing *m, const char *const *spellings, uint32_t n)
 {
     memset(m, 0, sizeof *m);
@@ -385,8 +470,6 @@ void reader_missing_init(reader_missing *m, const char *const *spellings, uint32
         size_t l = strlen(spellings[i]);
         m->spelling[i] = spellings[i];
         m->len[i] = l;
-        if (l && l < 64) m->cand[(unsigned char)spellings[i][0]] |= 1ull << l;
-        if (l >= 64) m->long_spellings = 1; /* tested by the loop alone: rare and slow is fine */
+        if (l) m->cand[(unsigned char)spellings[i][0]] |= 1ull << (l % 64);
     }
-    for (int b = 0; b < 256; b++) m->cand[b] |= 1; /* the empty cell */
 }

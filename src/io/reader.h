@@ -132,6 +132,10 @@ typedef struct {
     uint64_t stop_at;         /* records from here on are someone else's (0: none) */
     int exempt_first;         /* the chunk's first record ignores stop_at */
     int seen;                 /* records handed out */
+    const uint64_t *skip;     /* reader_cursor_rows leaves out records that begin at these
+                                 stream offsets (ascending; borrowed) */
+    size_t nskip, skip_at;    /* how many; the first not yet passed */
+    size_t skipped;           /* records left out so */
     /* After READER_CHUNK_END or READER_END: */
     uint64_t lines;           /* lines in the chunk */
     uint64_t absorbed;        /* stream offset after the last record absorbed */
@@ -153,6 +157,19 @@ void reader_cursor_start(reader_cursor *c, const reader_chunk *ch, uint64_t stop
  * READER_CHUNK_END after the last one, READER_END at the stop offset, or
  * READER_ERROR (fault, fault_line, fault_offset tell). */
 reader_status reader_cursor_next(reader_cursor *c, reader_record *rec);
+/* The next records of the chunk as rows of spans (io/csv.h, csv_next_rows:
+ * out->base must be the chunk's data, out->max_record_bytes and out->stop are
+ * set here), many per call; the chunk is unquoted in place (not raw).  Line
+ * numbers in out->line count from the chunk's first line, as rec->line does.
+ * READER_RECORD when out is full (make room, then call again), else as
+ * reader_cursor_next: READER_CHUNK_END, READER_END or READER_ERROR after the
+ * rows before.  Records that begin at one of the offsets given to
+ * reader_cursor_skip are read but left out. */
+reader_status reader_cursor_rows(reader_cursor *c, csv_rows *out);
+/* For reader_cursor_rows on the current chunk: the records that begin at
+ * the stream offsets skip[0..n) (ascending; borrowed until the chunk is
+ * done) are left out and counted in c->skipped. */
+void reader_cursor_skip(reader_cursor *c, const uint64_t *skip, size_t n);
 /* The one-line message of a cursor's fault, in a stream called name whose
  * chunks before this one hold lines_before lines. */
 void reader_cursor_message(const reader_cursor *c, const char *name, uint64_t lines_before,
@@ -205,27 +222,27 @@ typedef struct {
     const char *spelling[READER_MAX_MISSING]; /* borrowed spellings */
     size_t len[READER_MAX_MISSING];           /* their lengths */
     uint32_t n;                               /* how many */
-    /* Bit L of cand[b]: a cell of length L (< 64) starting with byte b may be
-     * missing (empty, or some spelling has that length and first byte);
-     * every other cell is present after one test. */
+    /* Bit L % 64 of cand[b]: some spelling has length L and first byte b.
+     * A non-empty cell whose bit is clear is present after this one test
+     * (x86 shifts by the count mod 64 anyway, so the % costs nothing). */
     uint64_t cand[256];
-    int long_spellings;                       /* some spelling is 64 bytes or longer */
 } reader_missing;
 
 /* The empty cell is always missing; n <= READER_MAX_MISSING spellings more.
  * The spellings are borrowed and must outlive m. */
 void reader_missing_init(reader_missing *m, const char *const *spellings, uint32_t n);
 
-/* p[0] is read even when len is 0: cells sit in padded chunks. */
+/* The spellings alone (for a cell that the first test could not clear). */
+int reader_missing_spelled(const reader_missing *m, const char *p, uint32_t len);
+
+/* p[0] is read even when len is 0: cells sit in padded chunks.  The common
+ * cells (present, or empty) are told with one table lookup and one rarely
+ * taken branch, so a column of mostly empty cells does not mispredict. */
 static inline int reader_is_missing(const reader_missing *m, const char *p, uint32_t len)
 {
-    unsigned char c0 = (unsigned char)p[0];
-    if (len >= 64 ? !m->long_spellings : !(m->cand[c0] >> len & 1)) return 0;
-    if (len == 0) return 1;
-    for (uint32_t i = 0; i < m->n; i++)
-        if (m->len[i] == len && m->spelling[i][0] == p[0] && memcmp(m->spelling[i], p, len) == 0)
-            return 1;
-    return 0;
+    if (__builtin_expect(m->cand[(unsigned char)p[0]] >> (len % 64) & 1, 0))
+        return len == 0 || reader_missing_spelled(m, p, len);
+    return len == 0;
 }
 
 #endif

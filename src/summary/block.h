@@ -30,7 +30,9 @@
 #include <stddef.h>
 #include <stdint.h>
 
+#include "io/csv.h"
 #include "io/number.h"
+#include "io/reader.h"
 #include "summary/summary.h"
 
 /* The present cells of one column in one block (a worker's scratch). */
@@ -80,14 +82,28 @@ typedef struct {
 int block_lane_init(block_lane *l);
 void block_lane_free(block_lane *l);
 
-/* Records a present cell of the current row. */
-static inline void block_lane_cell(block_lane *l, const char *p, uint32_t len, size_t row)
+/* A column's cells of a block: the spans of its rows (offsets into data,
+ * rows <= SUMMARY_BLOCK_ROWS) become the lane's cells, those the missing test
+ * m passes over left out.  Returns how many were missing.  Every span is
+ * written to the next free place and the count moves only for a present
+ * cell, so the loop does not branch on a column's mix of missing cells. */
+static inline size_t block_lane_gather(block_lane *l, const char *data, const csv_span *spans,
+                                       size_t rows, const reader_missing *m)
 {
-    size_t k = l->ncells;
-    l->text[k] = p;
-    l->len[k] = len;
-    l->cell_row[k] = (uint16_t)row;
-    l->ncells = k + 1;
+    const char **text = l->text;
+    uint32_t *len = l->len;
+    uint16_t *row = l->cell_row;
+    size_t k = 0;
+    for (size_t r = 0; r < rows; r++) {
+        const char *p = data + spans[r].off;
+        uint32_t n = spans[r].len;
+        text[k] = p;
+        len[k] = n;
+        row[k] = (uint16_t)r;
+        k += !reader_is_missing(m, p, n);
+    }
+    l->ncells = k;
+    return rows - k;
 }
 
 /* Hashes and parses the lane's cells for column c (simd: the SSSE3 parser

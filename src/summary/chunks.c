@@ -25,18 +25,12 @@
 #include "summary/block.h"
 #include "summary/column.h"
 
-#define CELL_ABSENT UINT32_MAX
 #ifndef GROUPS_PER_THREAD
 #define GROUPS_PER_THREAD 2
 #endif
 
 enum { T_WAIT = 0, T_BUSY = 1, T_DONE = 2 };
 
-/* A scanned column's cell of a row: its offset in the chunk and length, or
- * len CELL_ABSENT (missing, or past the row's end). */
-typedef struct {
-    uint32_t off, len;
-} cell;
 enum { FAULT_NONE = 0, FAULT_READER, FAULT_MEMORY, FAULT_TOO_BIG };
 
 typedef struct {
@@ -83,7 +77,10 @@ typedef struct {
     int fault;              /* FAULT_* */
     size_t rows, rows_cap;
     size_t row_arrays_cap;  /* rows the R and co-moment arrays hold */
-    cell *cells;            /* rows x ncols, row-major (written in order, read a block at a time) */
+    csv_span *cells;        /* the rows' fields (offsets in the chunk) up to the last one
+                               scanned, by field: field f of row r at cells[f * rows_cap +
+                               r], so that a column's task walks its own cells in order
+                               (csv_next_rows) */
     uint64_t *line;         /* rows: line of each row, from the chunk's first */
     uint32_t *nf;           /* rows: fields of each row */
     /* R: one part per target (one when the scan has none) */
@@ -99,6 +96,7 @@ struct chunks {
     summary *const *runs;   /* one summary per target (borrowed) */
     size_t nruns;
     size_t ncols, ncomo;
+    size_t kept_fields;     /* fields kept per row: up to the last scanned one */
     int simd;
     unsigned nslots;
     job *jobs;
@@ -137,21 +135,33 @@ struct chunks {
 
 /* ---- T: tokenize --------------------------------------------------------- */
 
-static int grow_rows(chunks *w, job *j)
+/* Room for more rows in the chunk's arrays, and in *rows (the tokenizer's
+ * view of them); 0, or -1 when out of memory. */
+static int grow_rows(chunks *w, job *j, csv_rows *rows)
 {
     /* From 1,024 rows, grown by a quarter: a slot's arrays are kept from
      * chunk to chunk, so they settle within a quarter of the most rows a
      * chunk has held (a 256 KiB chunk of the 28-column benchmark table has
      * about 1,240; doubling from 4,096 kept three times that). */
-    size_t cap = j->rows_cap ? j->rows_cap + j->rows_cap / 4 : 1024, n = w->ncols ? w->ncols : 1;
-    cell *cells = realloc(j->cells, n * cap * sizeof *cells);
-    if (cells) j->cells = cells;
+    size_t old = j->rows_cap, cap = old ? old + old / 4 : 1024, width = w->kept_fields;
+    csv_span *cells = realloc(j->cells, width * cap * sizeof *cells);
+    if (cells) {
+        /* Each field's column to its new place, the last first (they only
+         * move up).  Only the rows written so far are kept. */
+        for (size_t f = width; f-- > 1 && rows->rows;)
+            memmove(cells + f * cap, cells + f * old, rows->rows * sizeof *cells);
+        j->cells = cells;
+    }
     uint64_t *line = realloc(j->line, cap * sizeof *line);
     if (line) j->line = line;
     uint32_t *nf = realloc(j->nf, cap * sizeof *nf);
     if (nf) j->nf = nf;
     if (!cells || !line || !nf) return -1;
     j->rows_cap = cap;
+    rows->cells = j->cells;
+    rows->stride = rows->max_rows = cap;
+    rows->nfields = j->nf;
+    rows->line = j->line;
     return 0;
 }
 
@@ -159,48 +169,42 @@ static void tokenize(chunks *w, job *j)
 {
     j->rows = 0;
     j->fault = FAULT_NONE;
+    j->repeated = 0;
     if (j->ck.len > UINT32_MAX - 64) { j->fault = FAULT_TOO_BIG; return; }
     reader_cursor_start(&j->cur, &j->ck, w->stop_at, j->first);
-    int skip = j->first && w->o.header;
-    size_t next_repeat = 0;
-    j->repeated = 0;
-    const int *field_of = w->o.field_of;
-    const size_t ncols = w->ncols;
-    const char *base = j->ck.data;
-    for (;;) {
-        reader_record rec;
-        reader_status rs = reader_cursor_next(&j->cur, &rec);
-        if (rs == READER_ERROR) {
-            j->fault = j->cur.fault == READER_FAULT_NOMEM ? FAULT_MEMORY : FAULT_READER;
+    csv_rows rows = {j->cells, j->rows_cap, w->kept_fields, 0, j->rows_cap, j->nf, j->line,
+                     j->ck.data, 0, 0};
+    if (!j->rows_cap && grow_rows(w, j, &rows) != 0) { j->fault = FAULT_MEMORY; return; }
+    reader_status rs = READER_RECORD;
+    if (j->first && w->o.header) { /* the header, read by the reading thread: row 0, dropped */
+        rows.max_rows = 1;
+        rs = reader_cursor_rows(&j->cur, &rows);
+        rows.rows = 0;
+        rows.max_rows = j->rows_cap;
+    }
+    reader_cursor_skip(&j->cur, j->repeats, j->nrepeats);
+    while (rs == READER_RECORD) {
+        rs = reader_cursor_rows(&j->cur, &rows);
+        if (rs == READER_RECORD && grow_rows(w, j, &rows) != 0) {
+            j->fault = FAULT_MEMORY;
             return;
         }
-        if (rs != READER_RECORD) return;
-        if (skip) { skip = 0; continue; } /* the header, read by the reading thread */
-        while (next_repeat < j->nrepeats && j->repeats[next_repeat] < rec.offset) next_repeat++;
-        if (next_repeat < j->nrepeats && j->repeats[next_repeat] == rec.offset) {
-            j->repeated++; /* a header repeated where a compressed member begins */
-            continue;
-        }
-        if (j->rows == j->rows_cap && grow_rows(w, j) != 0) { j->fault = FAULT_MEMORY; return; }
-        size_t r = j->rows++, nfields = rec.nfields;
-        cell *row = j->cells + r * ncols;
-        j->line[r] = rec.line;
-        j->nf[r] = (uint32_t)(nfields < UINT32_MAX ? nfields : UINT32_MAX);
-        for (size_t c = 0; c < ncols; c++) {
-            size_t fi = (size_t)field_of[c];
-            uint32_t len = CELL_ABSENT, off = 0;
-            if (fi < nfields) {
-                const char *p = rec.fields[fi].ptr;
-                uint32_t l = rec.fields[fi].len;
-                if (!reader_is_missing(w->o.missing, p, l)) {
-                    len = l;
-                    off = (uint32_t)(p - base);
-                }
-            }
-            row[c].off = off;
-            row[c].len = len;
-        }
     }
+    if (rs == READER_ERROR)
+        j->fault = j->cur.fault == READER_FAULT_NOMEM ? FAULT_MEMORY : FAULT_READER;
+    j->rows = rows.rows;
+    j->repeated = j->cur.skipped; /* headers repeated where a compressed member begins */
+}
+
+/* The text of scanned column col in row r, or NULL when the cell is missing
+ * (reader_is_missing; a field past the row's end is empty). */
+static const char *cell_text(const chunks *w, const job *j, size_t col, size_t r, uint32_t *len)
+{
+    const csv_span *x = j->cells + (size_t)w->o.field_of[col] * j->rows_cap + r;
+    const char *p = j->ck.data + x->off;
+    if (reader_is_missing(w->o.missing, p, x->len)) { *len = 0; return NULL; }
+    *len = x->len;
+    return p;
 }
 
 /* ---- R: rows, in chunk order --------------------------------------------- */
@@ -342,11 +346,10 @@ static scan_status target_rows_of(chunks *w, job *j, size_t t, size_t r)
     summary *s = w->runs[t];
     job_target *jt = &j->tg[t];
     if (s->target >= 0) {
-        const cell *tc = &j->cells[r * w->ncols + (size_t)s->target];
-        uint32_t len = tc->len;
-        const char *p = len == CELL_ABSENT ? NULL : j->ck.data + tc->off;
+        uint32_t len;
+        const char *p = cell_text(w, j, (size_t)s->target, r, &len);
         int cl = jt->classes;
-        scan_status st = target_row(w, j, t, r, p, len == CELL_ABSENT ? 0 : len, &cl);
+        scan_status st = target_row(w, j, t, r, p, len, &cl);
         if (st != SCAN_OK) return st == SCAN_ERR_MEMORY ? out_of_memory(w) : st;
         if (cl < 0) { /* dropped at this row, which opens a block without classes */
             jt->classes = 0;
@@ -436,20 +439,15 @@ static scan_status rows_of(chunks *w, job *j)
 
 /* ---- G: one column, C: the co-moments ------------------------------------ */
 
-/* The cells of rows [start, end) of one column into the lane (counting the
- * absent ones in *missing when given). */
+/* The cells of rows [start, end) of one column into the lane, less the
+ * missing ones (counted in *missing when given). */
 static void fill_lane(const chunks *w, const job *j, size_t col, uint32_t start, uint32_t end,
                       block_lane *l, uint64_t *missing)
 {
-    const size_t ncols = w->ncols;
-    const cell *cells = j->cells + col;
-    l->ncells = 0;
+    const csv_span *cells = j->cells + (size_t)w->o.field_of[col] * j->rows_cap;
     l->nnum = 0;
-    for (uint32_t r = start; r < end; r++) {
-        const cell *x = &cells[(size_t)r * ncols];
-        if (x->len == CELL_ABSENT) { if (missing) (*missing)++; continue; }
-        block_lane_cell(l, j->ck.data + x->off, x->len, r - start);
-    }
+    size_t absent = block_lane_gather(l, j->ck.data, cells + start, end - start, w->o.missing);
+    if (missing) *missing += absent;
 }
 
 /* Target t's column col fed with the decoded lane, block sp of t's. */
@@ -502,10 +500,16 @@ static int column_grid_block(chunks *w, job *j, size_t col, size_t b, block_lane
     if (k >= 0) {
         double *dev = j->dev + (size_t)k * cap + start;
         unsigned char *pr = j->present + (size_t)k * cap + start;
+        /* The lane's arrays in locals: a store through pr (unsigned char)
+         * may alias anything, so l's fields would be loaded again for every
+         * number. */
+        const size_t nnum = l->nnum;
+        const uint16_t *num_row = l->num_row;
+        const double *num_dev = l->dev;
         memset(pr, 0, end - start);
-        for (size_t i = 0; i < l->nnum; i++) {
-            dev[l->num_row[i]] = l->dev[i];
-            pr[l->num_row[i]] = 1;
+        for (size_t i = 0; i < nnum; i++) {
+            dev[num_row[i]] = num_dev[i];
+            pr[num_row[i]] = 1;
         }
     }
     /* block_feed empties the lane, and reads it only: each target is fed the
@@ -751,6 +755,9 @@ chunks *chunks_create(const chunks_options *o)
     w->ncols = w->run->ncols;
     w->ncomo = w->run->ncomo;
     w->simd = number_simd_usable();
+    w->kept_fields = 1;
+    for (size_t c = 0; c < w->ncols; c++)
+        if ((size_t)o->field_of[c] + 1 > w->kept_fields) w->kept_fields = (size_t)o->field_of[c] + 1;
     unsigned threads = o->threads ? o->threads : 1;
     w->nslots = threads;
     w->jobs = calloc(w->nslots, sizeof *w->jobs);

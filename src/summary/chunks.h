@@ -3,16 +3,18 @@
  *
  * Each chunk (cut by the bytes alone, io/chunk.h) goes through four kinds
  * of task:
- *   T  tokenize: the chunk's records (reader_cursor), each scanned column's
- *      cells (offset and length, or absent after the missing test), each
- *      row's line and width.  Any chunk, any thread, any order.
+ *   T  tokenize: the chunk's records (reader_cursor_rows) as rows of
+ *      fields (offset and length in the chunk; empty past a short row's
+ *      end), laid out by field, each row's line and width.  Any chunk, any
+ *      thread, any order.
  *   R  rows: in chunk order, one at a time: row counts, ragged rows, the
  *      target cell of every row (its class in the one class dictionary, or
  *      its regression cell and value), where the chunk's blocks of rows end,
  *      and every error a single thread would meet first (with its line).
  *   G  column j: in chunk order for that column, one at a time per column,
- *      columns in parallel: its cells block by block into its accumulators
- *      (summary/block.h), its numbers kept for the co-moments.
+ *      columns in parallel: its cells block by block, less the missing ones
+ *      (reader_is_missing), into its accumulators (summary/block.h), its
+ *      numbers kept for the co-moments.
  *   C  co-moments: in chunk order, once every column is done with the
  *      chunk: the chunk's blocks into the co-moment matrix.
  * Every accumulator therefore sees exactly the values, in exactly the
@@ -20,7 +22,7 @@
  * depend on the thread count or the scheduling, and equals what one thread
  * makes.  A chunk's slot is free once its C (or, without co-moments, its
  * last G) is done; slots bound the memory: the chunk's bytes, 8 bytes per
- * cell and 9 per co-moment cell.
+ * field of a row (up to the last scanned one) and 9 per co-moment cell.
  *
  * With one thread nothing is copied and no thread starts: each pushed chunk
  * goes through T, R, every G and C on the caller's thread.

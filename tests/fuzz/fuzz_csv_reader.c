@@ -21,7 +21,13 @@
  *      read past it): the plain tokenizer (csv_reader_init) and the padded
  *      one (csv_reader_init_padded, 64 zero bytes after the data) give the
  *      same fields and statuses, and every record they end is a record end
- *      of csv_quote_scan (the chunker's and the shard start's quote rule).
+ *      of csv_quote_scan (the chunker's and the shard start's quote rule);
+ *   5. the rows reader (csv_next_rows, what the scan reads with) on the
+ *      same bytes, in both its block widths (SSE2, and AVX2 where the CPU
+ *      has it), rows of 1 to 5 spans (byte 1), 1 to 3 rows at a time
+ *      (byte 2): the first fields of each record of reading 4, empty spans
+ *      for the fields a record lacks, its field count and line, the same
+ *      ending.
  * Reference: the reader's own whole-input reading (reading 1) and the quote
  * rule as io/csv.h states it; what the readings must share is what
  * io/reader.h promises ("the records, their fields and line numbers depend
@@ -266,6 +272,57 @@ static void check_tokenizer(const uint8_t *s, size_t len, char delim)
     free(ends);
 }
 
+/* Reading 5: csv_next_rows against the plain tokenizer, in step. */
+static void check_rows(const uint8_t *s, size_t len, char delim, size_t width, size_t batch,
+                       int wide)
+{
+    char *plain = malloc(len ? len : 1), *padded = malloc(len + CSV_READ_AHEAD);
+    csv_span *cells = malloc(width * batch * sizeof *cells);
+    uint32_t nf[3];
+    uint64_t line[3];
+    if (!plain || !padded || !cells || batch > 3) fault("out of memory");
+    memcpy(plain, s, len);
+    memcpy(padded, s, len);
+    memset(padded + len, 0, CSV_READ_AHEAD);
+    csv_reader a, b;
+    csv_reader_init(&a, plain, len, delim);
+    csv_reader_init_padded(&b, padded, len, delim);
+    if (!wide) b.wide = 0;
+    csv_record ra = {0};
+    csv_rows rows = {cells, batch, width, 0, batch, nf, line, padded, SIZE_MAX, SIZE_MAX};
+    size_t k = 0;
+    csv_status sb, sa = CSV_RECORD;
+    do {
+        rows.rows = 0;
+        sb = csv_next_rows(&b, &rows);
+        for (size_t i = 0; i < rows.rows; i++, k++) {
+            sa = csv_next(&a, &ra);
+            if (sa != CSV_RECORD) fault("rows record %zu: the plain tokenizer ends with %d", k, sa);
+            if (nf[i] != ra.nfields || line[i] != a.record_line + 1)
+                fault("rows record %zu: %u fields at line %llu, plain %zu at %llu", k, nf[i],
+                      (unsigned long long)line[i], ra.nfields,
+                      (unsigned long long)a.record_line + 1);
+            for (size_t f = 0; f < width; f++) {
+                const csv_span *x = &cells[f * batch + i];
+                size_t want = f < ra.nfields ? ra.fields[f].len : 0;
+                if (x->len != want || (want && memcmp(padded + x->off, ra.fields[f].ptr, want)))
+                    fault("rows record %zu field %zu (wide %d): \"%.*s\", plain \"%.*s\"", k,
+                          f + 1, wide, (int)x->len, padded + x->off, (int)want,
+                          want ? ra.fields[f].ptr : "");
+                if (f >= ra.nfields && x->off != 0) fault("rows record %zu: a lacking field is not empty", k);
+            }
+        }
+    } while (sb == CSV_RECORD);
+    sa = csv_next(&a, &ra);
+    if (sa != sb) fault("rows end with %d after %zu records, the plain tokenizer with %d", sb, k, sa);
+    if (a.lines != b.lines) fault("rows count %llu lines, the plain tokenizer %llu",
+                                  (unsigned long long)b.lines, (unsigned long long)a.lines);
+    csv_record_free(&ra);
+    free(plain);
+    free(padded);
+    free(cells);
+}
+
 /* The same records; after an error, the records of one reading may be a
  * prefix of the other's (the chunker stops at a record over the limit before
  * it hands out the records of the chunk before it). */
@@ -344,6 +401,8 @@ int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
         free(c.scratch);
         size_t bom = csv_bom_length((const char *)s, len);
         check_tokenizer(s + bom, len - bom, e1.delim);
+        for (int wide = 0; wide < 2; wide++)
+            check_rows(s + bom, len - bom, e1.delim, 1 + data[1] % 5, 1 + data[2] % 3, wide);
     }
     free(t1.p);
     free(t2.p);
