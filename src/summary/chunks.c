@@ -25,113 +25,7 @@
 #include "summary/block.h"
 #include "summary/column.h"
 
-#ifndef GROUPS_PER_THREAD
-#define GROUPS_PER_THREAD 2
-#endif
-
-enum { T_WAIT = 0, T_BUSY = 1, T_DONE = 2 };
-
-enum { FAULT_NONE = 0, FAULT_READER, FAULT_MEMORY, FAULT_TOO_BIG };
-
-typedef struct {
-    uint32_t start, end; /* rows [start, end) of the chunk */
-    int classes;         /* class accumulators are kept in this block */
-    int drop;            /* the classes are dropped before it */
-    uint32_t tepoch;     /* the target cell epoch of its rows' regression cells */
-} block_span;
-
-/* One target's part of a chunk (R writes it, G reads it): the target cell
- * of every row and the blocks its columns are fed in. */
-typedef struct {
-    uint32_t *row_cell, *row_class;
-    double *row_y;
-    unsigned char *row_has_y;
-    int64_t *row_ym;        /* the target's signed mantissa (pair sums, block_rows) */
-    int32_t *row_ye;        /* its power of ten, or BLOCK_NO_NUMBER / BLOCK_INEXACT */
-    int any_y;              /* some row of the chunk has a finite target */
-    block_span *blocks;
-    size_t nblocks, blocks_cap;
-    int on_grid;            /* its blocks are the chunk's grid (every SUMMARY_BLOCK_ROWS rows) */
-    uint32_t *drop_map;     /* the class conversion at a drop */
-    double *drop_y;
-    uint32_t drop_n;
-    uint32_t drop_epoch;    /* the target cell epoch of drop_map's cells */
-    /* R's running state within the chunk */
-    uint32_t start;         /* the open block's first row */
-    int classes, drop;      /* the open block keeps classes / drops them first */
-    uint32_t tepoch;        /* the target cell epoch of the open block's rows */
-} job_target;
-
-typedef struct {
-    reader_chunk ck;        /* the chunk (its bytes: buf, or the caller's with one thread) */
-    char *buf;              /* the slot's copy */
-    size_t cap;
-    uint64_t seq;
-    int first;              /* holds the stream's first record */
-    uint64_t *repeats;      /* stream offsets of repeated headers to skip (ascending) */
-    size_t nrepeats, repeats_cap;
-    uint64_t repeated;      /* T: repeated headers skipped */
-    int t_state;
-    /* T */
-    reader_cursor cur;
-    int fault;              /* FAULT_* */
-    size_t rows, rows_cap;
-    size_t row_arrays_cap;  /* rows the R and co-moment arrays hold */
-    csv_span *cells;        /* the rows' fields (offsets in the chunk) up to the last one
-                               scanned, by field: field f of row r at cells[f * rows_cap +
-                               r], so that a column's task walks its own cells in order
-                               (csv_next_rows) */
-    uint64_t *line;         /* rows: line of each row, from the chunk's first */
-    uint32_t *nf;           /* rows: fields of each row */
-    /* R: one part per target (one when the scan has none) */
-    job_target *tg;
-    /* G, for C: deviations of the co-moment columns (ncomo x rows_cap) */
-    double *dev;
-    unsigned char *present;
-} job;
-
-struct chunks {
-    chunks_options o;
-    summary *run;           /* the first summary: table counts, co-moments */
-    summary *const *runs;   /* one summary per target (borrowed) */
-    size_t nruns;
-    size_t ncols, ncomo;
-    size_t kept_fields;     /* fields kept per row: up to the last scanned one */
-    int simd;
-    unsigned nslots;
-    job *jobs;
-    /* scheduling */
-    pthread_mutex_t mu;
-    pthread_cond_t work_cv;  /* a task may be ready */
-    pthread_cond_t done_cv;  /* a chunk retired, or a failure */
-    pthread_t *threads;
-    unsigned nthreads;
-    uint64_t pushed, t_next, r_next, c_next, retired;
-    uint64_t *g_next;       /* per column group */
-    unsigned char *g_busy;
-    size_t ngroups;         /* column groups: G tasks are (chunk, group) */
-    size_t *group_cols;     /* the columns of group g: group_cols[group_at[g] .. group_at[g+1]) */
-    size_t *group_at;
-    int r_busy, c_busy, quit;
-    unsigned started;       /* workers that took an id */
-    unsigned no_blas;       /* workers whose BLAS buffer did not fit (acc/blas.h): they
-                               never take a co-moment task */
-    int all_made;           /* every worker thread was created (nthreads is final) */
-    scan_status failed;
-    char err[4608];         /* the first failure's message (under the lock) */
-    char r_err[4608];       /* the row task's message, written by that task only */
-    /* R's state (one R at a time) */
-    const char *shown;
-    uint64_t stop_at;
-    uint64_t lines, rows, absorbed;
-    number_decimal *target_ref; /* per target: its column's frame */
-    unsigned char *target_ref_set;
-    /* C's scratch */
-    block_como bc;
-    const double **devp;
-    const unsigned char **presp;
-    block_lane inline_lane; /* G's scratch with one thread */
-};
+#include "summary/chunks_state.h"
 
 /* ---- T: tokenize --------------------------------------------------------- */
 
@@ -194,247 +88,6 @@ static void tokenize(chunks *w, job *j)
         j->fault = j->cur.fault == READER_FAULT_NOMEM ? FAULT_MEMORY : FAULT_READER;
     j->rows = rows.rows;
     j->repeated = j->cur.skipped; /* headers repeated where a compressed member begins */
-}
-
-/* The text of scanned column col in row r, or NULL when the cell is missing
- * (reader_is_missing; a field past the row's end is empty). */
-static const char *cell_text(const chunks *w, const job *j, size_t col, size_t r, uint32_t *len)
-{
-    const csv_span *x = j->cells + (size_t)w->o.field_of[col] * j->rows_cap + r;
-    const char *p = j->ck.data + x->off;
-    if (reader_is_missing(w->o.missing, p, x->len)) { *len = 0; return NULL; }
-    *len = x->len;
-    return p;
-}
-
-/* ---- R: rows, in chunk order --------------------------------------------- */
-
-
-static int add_block(job_target *jt, uint32_t start, uint32_t end, int classes, int drop,
-                     uint32_t tepoch)
-{
-    if (jt->nblocks == jt->blocks_cap) {
-        size_t cap = jt->blocks_cap ? 2 * jt->blocks_cap : 64;
-        block_span *b = realloc(jt->blocks, cap * sizeof *b);
-        if (!b) return -1;
-        jt->blocks = b;
-        jt->blocks_cap = cap;
-    }
-    jt->blocks[jt->nblocks++] = (block_span){start, end, classes, drop, tepoch};
-    return 0;
-}
-
-static int grow_row_arrays(chunks *w, job *j)
-{
-    size_t cap = j->rows_cap ? j->rows_cap : 1, p = w->ncomo;
-    int ok = 1;
-    for (size_t t = 0; t < w->nruns; t++) {
-        job_target *jt = &j->tg[t];
-        uint32_t *cell = realloc(jt->row_cell, cap * sizeof *cell);
-        if (cell) jt->row_cell = cell;
-        uint32_t *cls = realloc(jt->row_class, cap * sizeof *cls);
-        if (cls) jt->row_class = cls;
-        double *y = realloc(jt->row_y, cap * sizeof *y);
-        if (y) jt->row_y = y;
-        unsigned char *hy = realloc(jt->row_has_y, cap);
-        if (hy) jt->row_has_y = hy;
-        int64_t *ym = realloc(jt->row_ym, cap * sizeof *ym);
-        if (ym) jt->row_ym = ym;
-        int32_t *ye = realloc(jt->row_ye, cap * sizeof *ye);
-        if (ye) jt->row_ye = ye;
-        ok = ok && cell && cls && y && hy && ym && ye;
-    }
-    double *dev = p ? realloc(j->dev, p * cap * sizeof *dev) : j->dev;
-    if (dev) j->dev = dev;
-    unsigned char *pr = p ? realloc(j->present, p * cap) : j->present;
-    if (pr) j->present = pr;
-    return ok && (!p || (dev && pr)) ? 0 : -1;
-}
-
-/* The failures of the row task, with their messages in w->r_err. */
-static scan_status out_of_memory(chunks *w)
-{
-    snprintf(w->r_err, sizeof w->r_err, "out of memory: the row index of a %zu-row chunk",
-             w->jobs ? w->jobs[0].rows_cap : (size_t)0);
-    return SCAN_ERR_MEMORY;
-}
-
-static scan_status too_many_classes(chunks *w, const summary *s, uint64_t line)
-{
-    snprintf(w->r_err, sizeof w->r_err,
-             "%s: line %llu: target '%s' has more than %u classes; raise --max-classes or use "
-             "--task regress",
-             w->shown, (unsigned long long)line, s->opt.target, s->opt.max_classes);
-    return SCAN_ERR_INPUT;
-}
-
-static scan_status ragged_row(chunks *w, uint64_t line, size_t nf)
-{
-    snprintf(w->r_err, sizeof w->r_err, "%s: line %llu: %zu fields, the header has %zu (--strict)",
-             w->shown, (unsigned long long)line, nf, w->o.width);
-    return SCAN_ERR_INPUT;
-}
-
-/* The target cell of row r for target t (p NULL: absent): block_rows
- * semantics. */
-static scan_status target_row(chunks *w, job *j, size_t t, size_t r, const char *p, uint32_t len,
-                              int *classes)
-{
-    summary *s = w->runs[t];
-    job_target *jt = &j->tg[t];
-    jt->row_cell[r] = jt->row_class[r] = 0;
-    jt->row_has_y[r] = 0;
-    jt->row_ye[r] = BLOCK_NO_NUMBER;
-    if (!p) return SCAN_OK;
-    summary_column *tc = &s->cols[s->target];
-    number_decimal d;
-    int finite = tc->mode != COLUMN_CATEGORICAL && number_parse(p, len, &d) == NUMBER_FINITE;
-    if (!finite) s->target_text++;
-    if (finite) { /* for the pair sums, whatever the task */
-        int whole = d.exact && (d.mantissa >> 63) == 0;
-        int64_t m = whole ? (int64_t)d.mantissa : 0;
-        jt->row_ym[r] = d.negative ? -m : m;
-        jt->row_ye[r] = whole ? d.exp10 : BLOCK_INEXACT;
-        jt->any_y = 1;
-    }
-    if (s->has_classes) {
-        uint32_t k = summary_class_of(s, XXH3_64bits(p, len), p, len, finite ? &d : NULL);
-        if (k) {
-            s->class_rows[k - 1]++;
-            jt->row_cell[r] = jt->row_class[r] = k;
-            return SCAN_OK;
-        }
-        /* One class too many: a numeric target continues as a regression
-         * target, a text one cannot. */
-        int numeric = finite && s->opt.task != TASK_CLASSIFY;
-        for (uint32_t c = 0; numeric && c < s->nclasses; c++) numeric = s->class_numeric[c];
-        if (!numeric)
-            return too_many_classes(w, s, w->lines + j->line[r]);
-        /* The rows before end a block; the columns convert before the next. */
-        if (r > jt->start && add_block(jt, jt->start, (uint32_t)r, 1, 0, 0) != 0)
-            return SCAN_ERR_MEMORY;
-        jt->start = (uint32_t)r;
-        if (summary_class_conversion(s, w->target_ref_set[t] ? &w->target_ref[t] : NULL,
-                                     &jt->drop_map, &jt->drop_y) != 0)
-            return SCAN_ERR_MEMORY;
-        jt->drop_n = s->nclasses + 1;
-        jt->drop_epoch = s->tcells.epoch;
-        s->has_classes = 0;
-        s->classes_dropped = 1;
-        for (uint32_t c = 0; c < s->nclasses; c++) free(s->class_label[c]);
-        s->nclasses = 0;
-        *classes = -1; /* the next block drops them */
-    }
-    if (finite) {
-        if (!w->target_ref_set[t]) { /* the target column's frame (block.c) */
-            number_frame(&d, &w->target_ref[t]);
-            w->target_ref_set[t] = 1;
-        }
-        jt->row_cell[r] = summary_target_cell(s, d.value);
-        if (!jt->row_cell[r]) return SCAN_ERR_MEMORY;
-        jt->row_y[r] = number_difference(&d, &w->target_ref[t], NULL);
-        jt->row_has_y[r] = 1;
-    }
-    return SCAN_OK;
-}
-
-/* Row r for target t: its target cell, and where its blocks end.  Every
- * SUMMARY_BLOCK_ROWS rows, at the chunk's end, at a drop of the classes and
- * where the target cells are renumbered. */
-static scan_status target_rows_of(chunks *w, job *j, size_t t, size_t r)
-{
-    summary *s = w->runs[t];
-    job_target *jt = &j->tg[t];
-    if (s->target >= 0) {
-        uint32_t len;
-        const char *p = cell_text(w, j, (size_t)s->target, r, &len);
-        int cl = jt->classes;
-        scan_status st = target_row(w, j, t, r, p, len, &cl);
-        if (st != SCAN_OK) return st == SCAN_ERR_MEMORY ? out_of_memory(w) : st;
-        if (cl < 0) { /* dropped at this row, which opens a block without classes */
-            jt->classes = 0;
-            jt->drop = 1;
-            jt->tepoch = s->tcells.epoch;
-        } else if (s->tcells.epoch != jt->tepoch) {
-            /* The target cells were renumbered at this row: the rows before
-             * end a block, the columns catch up before the next. */
-            if (r > jt->start &&
-                add_block(jt, jt->start, (uint32_t)r, jt->classes, jt->drop, jt->tepoch) != 0)
-                return out_of_memory(w);
-            if (r > jt->start) jt->drop = 0;
-            jt->start = (uint32_t)r;
-            jt->tepoch = s->tcells.epoch;
-        }
-    }
-    if (r + 1 - jt->start == SUMMARY_BLOCK_ROWS || r + 1 == j->rows) {
-        if (add_block(jt, jt->start, (uint32_t)(r + 1), jt->classes, jt->drop, jt->tepoch) != 0)
-            return out_of_memory(w);
-        jt->start = (uint32_t)(r + 1);
-        jt->drop = 0;
-    }
-    return SCAN_OK;
-}
-
-/* A target's blocks are the grid when they end every SUMMARY_BLOCK_ROWS
- * rows from the chunk's first and at its end. */
-static int on_grid(const job *j, const job_target *jt)
-{
-    size_t ngrid = (j->rows + SUMMARY_BLOCK_ROWS - 1) / SUMMARY_BLOCK_ROWS;
-    if (jt->nblocks != ngrid) return 0;
-    for (size_t b = 0; b < ngrid; b++)
-        if (jt->blocks[b].start != b * SUMMARY_BLOCK_ROWS) return 0;
-    return 1;
-}
-
-static scan_status rows_of(chunks *w, job *j)
-{
-    if (j->fault == FAULT_READER) {
-        reader_cursor_message(&j->cur, w->shown, w->lines, w->r_err, sizeof w->r_err);
-        return SCAN_ERR_INPUT;
-    }
-    if (j->fault == FAULT_TOO_BIG) {
-        snprintf(w->r_err, sizeof w->r_err,
-                 "%s: a chunk of %zu bytes is over the 4 GiB a chunk may hold; lower "
-                 "--chunk-size or --max-record", w->shown, j->ck.len);
-        return SCAN_ERR_USAGE;
-    }
-    if (j->fault == FAULT_MEMORY) return out_of_memory(w);
-    for (size_t t = 0; t < w->nruns; t++) w->runs[t]->repeated_headers += j->repeated;
-    if (j->row_arrays_cap < j->rows_cap) { /* the tokenizer grew the chunk's rows */
-        if (grow_row_arrays(w, j) != 0) return out_of_memory(w);
-        j->row_arrays_cap = j->rows_cap;
-    }
-    for (size_t t = 0; t < w->nruns; t++) {
-        job_target *jt = &j->tg[t];
-        jt->nblocks = 0;
-        jt->start = 0;
-        jt->classes = w->runs[t]->has_classes;
-        jt->drop = 0;
-        jt->tepoch = w->runs[t]->tcells.epoch; /* of the rows since start */
-        jt->any_y = 0;
-    }
-    for (size_t r = 0; r < j->rows; r++) {
-        w->rows++;
-        int ragged = j->nf[r] != w->o.width;
-        uint64_t line = w->lines + j->line[r];
-        for (size_t t = 0; t < w->nruns; t++) { /* the table's counts, in every summary */
-            summary *s = w->runs[t];
-            s->rows++;
-            if (!ragged) continue;
-            if (j->nf[r] < w->o.width) s->short_rows++;
-            else s->long_rows++;
-            if (s->n_bad_lines < SUMMARY_BAD_LINES) s->bad_lines[s->n_bad_lines++] = line;
-        }
-        if (ragged && w->o.strict) return ragged_row(w, line, j->nf[r]);
-        for (size_t t = 0; t < w->nruns; t++) {
-            scan_status st = target_rows_of(w, j, t, r);
-            if (st != SCAN_OK) return st;
-        }
-    }
-    for (size_t t = 0; t < w->nruns; t++) j->tg[t].on_grid = on_grid(j, &j->tg[t]);
-    w->lines += j->cur.lines;
-    w->absorbed = j->cur.absorbed;
-    return SCAN_OK;
 }
 
 /* ---- G: one column, C: the co-moments ------------------------------------ */
@@ -666,7 +319,7 @@ static scan_status run_task(chunks *w, task_kind t, uint64_t seq, size_t col, bl
     job *j = slot_of(w, seq);
     switch (t) {
     case TASK_T: tokenize(w, j); return SCAN_OK;
-    case TASK_R: return rows_of(w, j);
+    case TASK_R: return chunks_rows_of(w, j);
     case TASK_G:
         if (group_of(w, j, col, lane, msg, msglen) == 0) return SCAN_OK;
         return SCAN_ERR_MEMORY;
@@ -870,7 +523,7 @@ static scan_status push_inline(chunks *w, const reader_chunk *c, int first,
 {
     job *j = &w->jobs[0];
     if (set_repeats(j, repeats, nrepeats) != 0) {
-        w->failed = out_of_memory(w);
+        w->failed = chunks_out_of_memory(w);
         return w->failed;
     }
     j->ck = *c;
@@ -878,7 +531,7 @@ static scan_status push_inline(chunks *w, const reader_chunk *c, int first,
     j->seq = w->pushed++;
     tokenize(w, j);
     char msg[600] = "";
-    scan_status st = rows_of(w, j);
+    scan_status st = chunks_rows_of(w, j);
     const char *why = st != SCAN_OK ? w->r_err : msg;
     for (size_t g = 0; st == SCAN_OK && g < w->ngroups; g++)
         st = run_task(w, TASK_G, j->seq, g, &w->inline_lane, msg, sizeof msg);
