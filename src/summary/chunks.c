@@ -411,6 +411,9 @@ chunks *chunks_create(const chunks_options *o)
     w->kept_fields = 1;
     for (size_t c = 0; c < w->ncols; c++)
         if ((size_t)o->field_of[c] + 1 > w->kept_fields) w->kept_fields = (size_t)o->field_of[c] + 1;
+    /* Whole blocks of lines: a piece of full rows starts on the block grid. */
+    w->piece_lines = CELLS_BUDGET / (sizeof(csv_span) * w->kept_fields) / SUMMARY_BLOCK_ROWS;
+    w->piece_lines = (w->piece_lines ? w->piece_lines : 1) * SUMMARY_BLOCK_ROWS;
     unsigned threads = o->threads ? o->threads : 1;
     w->nslots = threads;
     w->jobs = calloc(w->nslots, sizeof *w->jobs);
@@ -543,8 +546,9 @@ static scan_status push_inline(chunks *w, const reader_chunk *c, int first,
     return st;
 }
 
-scan_status chunks_push(chunks *w, const reader_chunk *c, int first, const uint64_t *repeats,
-                        size_t nrepeats)
+/* One piece of a chunk to the tasks. */
+static scan_status push_piece(chunks *w, const reader_chunk *c, int first,
+                              const uint64_t *repeats, size_t nrepeats)
 {
     if (!w->nthreads)
         return w->failed ? w->failed : push_inline(w, c, first, repeats, nrepeats);
@@ -611,6 +615,60 @@ scan_status chunks_wait(chunks *w)
     scan_status st = w->failed;
     pthread_mutex_unlock(&w->mu);
     return st ? st : flush_comoments(w);
+}
+
+/* The end of the piece of c that begins at `from` (a record start): just
+ * after the last record end among its first w->piece_lines newlines, or
+ * the first record end after them when they are all quoted; c->len when the
+ * rest holds fewer. */
+static size_t piece_end(const chunks *w, const reader_chunk *c, size_t from)
+{
+    size_t x = from, lines = 0;
+    while (lines < w->piece_lines) {
+        const char *nl = memchr(c->data + x, '\n', c->len - x);
+        if (!nl) return c->len;
+        x = (size_t)(nl - c->data) + 1;
+        lines++;
+    }
+    if (x == c->len) return c->len;
+    csv_quote_state q;
+    csv_quote_init(&q, c->delim);
+    size_t r = csv_quote_scan(&q, c->data + from, x - from, 0);
+    if (r <= x - from) return from + r;
+    r = csv_quote_scan(&q, c->data + x, c->len - x, 1);
+    return r <= c->len - x ? x + r : c->len;
+}
+
+scan_status chunks_push(chunks *w, const reader_chunk *c, int first, const uint64_t *repeats,
+                        size_t nrepeats)
+{
+    /* A chunk of more lines than piece_lines goes to the tasks in pieces
+     * of whole records, cut by its bytes alone, so that the cell table
+     * (8 bytes a field up to the last scanned one, for every row, short
+     * rows too) stays within CELLS_BUDGET bytes a slot. */
+    size_t from = c->skip;
+    for (;;) {
+        size_t end = piece_end(w, c, from);
+        reader_chunk piece = *c;
+        if (from > c->skip) {
+            piece.data = c->data + from;
+            piece.offset = c->offset + from;
+            piece.skip = 0;
+            piece.len = end - from;
+        } else {
+            piece.len = end;
+        }
+        int head = first && from == c->skip;
+        if (w->stop_at && piece.offset >= w->stop_at && !head)
+            return SCAN_OK; /* the next shard's records, as the reading thread judges chunks */
+        size_t nrep = 0; /* the repeated headers that begin in the piece */
+        const uint64_t *rep = repeats;
+        while (rep < repeats + nrepeats && *rep < piece.offset) rep++;
+        while (rep + nrep < repeats + nrepeats && rep[nrep] < piece.offset + piece.len) nrep++;
+        scan_status st = push_piece(w, &piece, head, rep, nrep);
+        if (st != SCAN_OK || end == c->len) return st;
+        from = end;
+    }
 }
 
 const char *chunks_error(const chunks *w) { return w->err; }

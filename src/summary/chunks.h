@@ -22,7 +22,10 @@
  * depend on the thread count or the scheduling, and equals what one thread
  * makes.  A chunk's slot is free once its C (or, without co-moments, its
  * last G) is done; slots bound the memory: the chunk's bytes, 8 bytes per
- * field of a row (up to the last scanned one) and 9 per co-moment cell.
+ * field of a row (up to the last scanned one) and 9 per co-moment cell.  A
+ * chunk of many short rows goes to the tasks in pieces of whole records
+ * (cut by its bytes alone), so that a slot's fields stay within
+ * CELLS_BUDGET bytes (chunks_state.h).
  *
  * With one thread nothing is copied and no thread starts: each pushed chunk
  * goes through T, R, every G and C on the caller's thread.
@@ -78,6 +81,7 @@ void chunks_stream(chunks *w, const char *shown, uint64_t stop_at, uint64_t line
  * the header at a compressed member's start (reader_repeated_headers),
  * ascending; they are skipped and counted in the summary's repeated_headers
  * (copied: the caller's array may go).  Blocks while every slot is busy.
+ * A chunk of more lines than the cell budget allows is handed on in pieces.
  * SCAN_OK or the failure. */
 scan_status chunks_push(chunks *w, const reader_chunk *c, int first, const uint64_t *repeats,
                         size_t nrepeats);

@@ -18,6 +18,13 @@
 #define GROUPS_PER_THREAD 2
 #endif
 
+/* A slot's cell table is held within this many bytes (chunks_push cuts a
+ * chunk of many short rows into pieces); a row of all its fields takes at
+ * least a byte a field, so only short rows ever make a piece. */
+#ifndef CELLS_BUDGET
+#define CELLS_BUDGET (8u << 20)
+#endif
+
 enum { T_WAIT = 0, T_BUSY = 1, T_DONE = 2 };
 
 enum { FAULT_NONE = 0, FAULT_READER, FAULT_MEMORY, FAULT_TOO_BIG };
@@ -86,6 +93,7 @@ struct chunks {
     size_t nruns;
     size_t ncols, ncomo;
     size_t kept_fields;     /* fields kept per row: up to the last scanned one */
+    size_t piece_lines;     /* lines of a chunk handed to the tasks at once (chunks_push) */
     int simd;
     unsigned nslots;
     job *jobs;
