@@ -661,11 +661,10 @@ scan_status chunks_push(chunks *w, const reader_chunk *c, int first, const uint6
         int head = first && from == c->skip;
         if (w->stop_at && piece.offset >= w->stop_at && !head)
             return SCAN_OK; /* the next shard's records, as the reading thread judges chunks */
-        size_t nrep = 0; /* the repeated headers that begin in the piece */
-        const uint64_t *rep = repeats;
-        while (rep < repeats + nrepeats && *rep < piece.offset) rep++;
-        while (rep + nrep < repeats + nrepeats && rep[nrep] < piece.offset + piece.len) nrep++;
-        scan_status st = push_piece(w, &piece, head, rep, nrep);
+        size_t r0 = 0, r1; /* the repeated headers that begin in the piece */
+        while (r0 < nrepeats && repeats[r0] < piece.offset) r0++;
+        for (r1 = r0; r1 < nrepeats && repeats[r1] < piece.offset + piece.len;) r1++;
+        scan_status st = push_piece(w, &piece, head, r1 > r0 ? repeats + r0 : NULL, r1 - r0);
         if (st != SCAN_OK || end == c->len) return st;
         from = end;
     }

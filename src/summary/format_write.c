@@ -17,7 +17,10 @@
 /* ---- encoding ----------------------------------------------------------- */
 
 
-static void encode_schema(const summary *s, wire_writer *w)
+/* The scan options a summary was made with, then its column count; the
+ * target's name among them in one summary's schema (with_target), not in
+ * what the summaries of one scan share (SUMMARY_COMMON_OPTIONS). */
+static void put_options(const summary *s, wire_writer *w, int with_target)
 {
     wire_put_u32(w, s->opt.max_levels);
     wire_put_u32(w, s->opt.label_bytes);
@@ -25,11 +28,18 @@ static void encode_schema(const summary *s, wire_writer *w)
     wire_put_u32(w, s->opt.n_missing);
     for (uint32_t i = 0; i < s->opt.n_missing; i++)
         wire_put_str(w, s->opt.missing[i], strlen(s->opt.missing[i]));
-    const char *t = s->opt.target ? s->opt.target : "";
-    wire_put_str(w, t, strlen(t));
+    if (with_target) {
+        const char *t = s->opt.target ? s->opt.target : "";
+        wire_put_str(w, t, strlen(t));
+    }
     wire_put_u8(w, (uint8_t)s->opt.task);
     wire_put_u32(w, s->opt.max_classes);
     wire_put_u64(w, s->ncols);
+}
+
+static void encode_schema(const summary *s, wire_writer *w)
+{
+    put_options(s, w, 1);
     for (size_t i = 0; i < s->ncols; i++) {
         wire_put_str(w, s->cols[i].name, strlen(s->cols[i].name));
         wire_put_u8(w, (uint8_t)s->cols[i].mode);
@@ -116,17 +126,7 @@ static void encode_columns(const summary *s, wire_writer *w)
 void summary_encode_common(const summary *s, int piece, wire_writer *w)
 {
     switch (piece) {
-    case SUMMARY_COMMON_OPTIONS:
-        wire_put_u32(w, s->opt.max_levels);
-        wire_put_u32(w, s->opt.label_bytes);
-        wire_put_u32(w, s->opt.bucket_budget);
-        wire_put_u32(w, s->opt.n_missing);
-        for (uint32_t i = 0; i < s->opt.n_missing; i++)
-            wire_put_str(w, s->opt.missing[i], strlen(s->opt.missing[i]));
-        wire_put_u8(w, (uint8_t)s->opt.task);
-        wire_put_u32(w, s->opt.max_classes);
-        wire_put_u64(w, s->ncols);
-        break;
+    case SUMMARY_COMMON_OPTIONS: put_options(s, w, 0); break;
     case SUMMARY_COMMON_SOURCES: encode_sources(s, w); break;
     case SUMMARY_COMMON_TABLE: encode_table(s, w); break;
     case SUMMARY_COMMON_COMOMENTS: encode_comoments(s, w); break;
