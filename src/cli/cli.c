@@ -1,5 +1,6 @@
 /* cli: option parsing and help shared by the commands. */
 #include "cli/cli.h"
+#include "io/closest.h"
 #include "summary/summary.h"
 
 #include <ctype.h>
@@ -40,6 +41,7 @@ void cli_help(const cli_command *cmd)
         printf("  %-26s %s\n", left, o->help);
     }
     printf("  %-26s %s\n", "-h, --help", "show this help");
+    if (cmd->examples) printf("\nexamples:\n%s", cmd->examples);
 }
 
 static const cli_option *find(const cli_command *cmd, const char *name, size_t len, char letter)
@@ -49,6 +51,39 @@ static const cli_option *find(const cli_command *cmd, const char *name, size_t l
         if (!letter && strlen(o->name) == len && strncmp(o->name, name, len) == 0) return o;
     }
     return NULL;
+}
+
+/* "unknown option" with the nearest long names (io/closest.h), or the short
+ * letters there are; then EXIT_USAGE. */
+static int unknown_option(const cli_command *cmd, const char *arg, size_t len, char letter)
+{
+    char msg[512];
+    if (letter) {
+        snprintf(msg, sizeof msg, "unknown option '-%c'%s%s%s (short options:", letter,
+                 arg[2] ? " in '" : "", arg[2] ? arg : "", arg[2] ? "'" : "");
+        for (const cli_option *o = cmd->options; o->name; o++)
+            if (o->letter) {
+                size_t used = strlen(msg);
+                snprintf(msg + used, sizeof msg - used, " -%c", o->letter);
+            }
+        size_t used = strlen(msg);
+        snprintf(msg + used, sizeof msg - used, " -h)");
+    } else {
+        snprintf(msg, sizeof msg, "unknown option '%.*s'", (int)(len + 2), arg);
+        /* The names as typed, with their dashes. */
+        char longs[64][40];
+        size_t n = 0;
+        closest c;
+        closest_init(&c, arg, len + 2);
+        for (const cli_option *o = cmd->options; o->name && n < 63; o++, n++)
+            snprintf(longs[n], sizeof longs[n], "--%s", o->name);
+        snprintf(longs[n++], sizeof longs[0], "--help");
+        for (size_t k = 0; k < n; k++) closest_offer(&c, longs[k], strlen(longs[k]));
+        size_t used = strlen(msg);
+        closest_append(&c, NULL, msg + used, sizeof msg - used);
+    }
+    cli_error(cmd->name, "%s (see sheaf %s --help)", msg, cmd->name);
+    return EXIT_USAGE;
 }
 
 int cli_parse(const cli_command *cmd, int argc, char **argv, char ***pos, size_t *npos)
@@ -61,39 +96,39 @@ int cli_parse(const cli_command *cmd, int argc, char **argv, char ***pos, size_t
         char *a = argv[i];
         if (only_pos || a[0] != '-' || a[1] == '\0') { (*pos)[(*npos)++] = a; continue; }
         if (strcmp(a, "--") == 0) { only_pos = 1; continue; }
-        if (strcmp(a, "-h") == 0 || strcmp(a, "--help") == 0) { cli_help(cmd); return 1; }
-        const cli_option *o;
-        const char *val = NULL;
+        if (strcmp(a, "--help") == 0) { cli_help(cmd); return 1; }
         if (a[1] == '-') {
             const char *eq = strchr(a + 2, '=');
             size_t len = eq ? (size_t)(eq - (a + 2)) : strlen(a + 2);
-            o = find(cmd, a + 2, len, 0);
-            if (eq) val = eq + 1;
-        } else {
-            o = find(cmd, NULL, 0, a[1]);
-            /* A short option's value may follow it directly: -j2, -ofile. */
-            if (o && a[2] != '\0') {
-                if (o->metavar) val = a + 2;
-                else o = NULL;
+            const cli_option *o = find(cmd, a + 2, len, 0);
+            if (!o) return unknown_option(cmd, a, len, 0);
+            if (!o->metavar) {
+                if (eq) { cli_error(cmd->name, "--%s takes no value", o->name); return EXIT_USAGE; }
+                *o->flag = 1;
+                continue;
             }
-        }
-        if (!o) {
-            cli_error(cmd->name, "unknown option '%s' (see sheaf %s --help)", a, cmd->name);
-            return EXIT_USAGE;
-        }
-        if (!o->metavar) {
-            if (val) { cli_error(cmd->name, "--%s takes no value", o->name); return EXIT_USAGE; }
-            *o->flag = 1;
-            continue;
-        }
-        if (!val) {
-            if (i + 1 >= argc) {
+            if (!eq && i + 1 >= argc) {
                 cli_error(cmd->name, "--%s needs a value (%s)", o->name, o->metavar);
                 return EXIT_USAGE;
             }
-            val = argv[++i];
+            *o->value = eq ? eq + 1 : argv[++i];
+            continue;
         }
-        *o->value = val;
+        /* Short options, bundled as getopt reads them: flags first, and the
+         * first letter that takes a value takes the rest of the word (-j2,
+         * -ofile, -qo FILE) or, at the word's end, the next argument. */
+        for (const char *p = a + 1; *p; p++) {
+            const cli_option *o = find(cmd, NULL, 0, *p);
+            if (!o && *p == 'h') { cli_help(cmd); return 1; }
+            if (!o) return unknown_option(cmd, a, 0, *p);
+            if (!o->metavar) { *o->flag = 1; continue; }
+            if (p[1] == '\0' && i + 1 >= argc) {
+                cli_error(cmd->name, "-%c (--%s) needs a value (%s)", *p, o->name, o->metavar);
+                return EXIT_USAGE;
+            }
+            *o->value = p[1] ? p + 1 : argv[++i];
+            break;
+        }
     }
     return 0;
 }
@@ -149,6 +184,28 @@ int cli_check_output(const char *cmd, const char *out, const char *const *inputs
         return EXIT_USAGE;
     }
     return 0;
+}
+
+int cli_check_binary_stdout(const char *cmd, const char *out)
+{
+    if (!out || strcmp(out, "-") || !isatty(STDOUT_FILENO)) return 0;
+    cli_error(cmd, "-o -: refusing to write a binary summary to a terminal; redirect standard "
+                   "output to a file or a pipe");
+    return EXIT_USAGE;
+}
+
+int cli_check_stdin(const char *cmd, const char *const *paths, size_t n)
+{
+    size_t seen = 0;
+    for (size_t i = 0; i < n; i++) seen += paths[i] && !strcmp(paths[i], "-");
+    if (seen < 2) return 0;
+    cli_error(cmd, "'-' (standard input) is named %zu times; it can be read only once", seen);
+    return EXIT_USAGE;
+}
+
+const char *cli_path_name(const char *path)
+{
+    return strcmp(path, "-") ? path : "standard input";
 }
 
 int cli_close_stdout(void)

@@ -32,11 +32,20 @@ typedef struct {
     const char *synopsis; /* usage line after "sheaf NAME" */
     const char *about;    /* paragraph shown by --help */
     const cli_option *options; /* terminated by a zero entry */
+    const char *examples; /* lines ending --help, each "  $ sheaf ...\n"; NULL: none */
 } cli_command;
 
-/* Parses argv[1..] (argv[0] is the command).  Positional arguments are put in
- * *pos (allocated; caller frees).  Returns 0, 1 if --help was shown, or
- * EXIT_USAGE after printing a one-line error. */
+/* What `sheaf -V` prints. */
+#define CLI_VERSION "sheaf 0.1 (summary format 1)"
+
+/* Parses argv[1..] (argv[0] is the command) as getopt_long would, without
+ * abbreviations: --name VALUE, --name=VALUE, -x VALUE, -xVALUE, bundled
+ * short flags (-qj2, -qo FILE: the first letter that takes a value takes the
+ * rest of the word or the next argument), "--" ends the options and "-"
+ * alone is an argument.  Positional arguments are put in *pos (allocated;
+ * caller frees).  Returns 0, 1 if --help (or -h) was shown, or EXIT_USAGE
+ * after a one-line error (an unknown long option names the nearest ones,
+ * io/closest.h; an unknown letter lists the letters there are). */
 int cli_parse(const cli_command *cmd, int argc, char **argv, char ***pos, size_t *npos);
 void cli_help(const cli_command *cmd);
 /* "sheaf CMD: message" on stderr. */
@@ -49,6 +58,17 @@ void cli_error(const char *cmd, const char *fmt, ...) __attribute__((format(prin
  * protected: /dev/null as input and output is fine.  Returns 0, or
  * EXIT_USAGE after a one-line error naming both. */
 int cli_check_output(const char *cmd, const char *out, const char *const *inputs, size_t n);
+
+/* Refuses `-o -` for a binary output (a summary) when standard output is a
+ * terminal: 0, or EXIT_USAGE after a one-line error.  A pipe or a
+ * redirection is fine. */
+int cli_check_binary_stdout(const char *cmd, const char *out);
+/* Refuses standard input ("-") named more than once among the n paths
+ * (NULL entries are skipped): it can be read only once.  0, or EXIT_USAGE
+ * after a one-line error. */
+int cli_check_stdin(const char *cmd, const char *const *paths, size_t n);
+/* How a path is named in messages: "standard input" for "-". */
+const char *cli_path_name(const char *path);
 
 /* Flushes and closes standard output.  Returns 0, or EXIT_FAILED after the
  * one line "sheaf: standard output: REASON" when a write to it failed at any

@@ -120,7 +120,9 @@ int cmd_corr(int argc, char **argv)
         "corr", "FILE.sheaf [--format text|csv|json] [--covariance]",
         "Prints the pairwise-complete Pearson correlation matrix of the numeric columns\n"
         "(each pair over the rows where both are present), from the summary alone.",
-        opts};
+        opts,
+        "  $ sheaf corr fleet.sheaf --columns battery_v,motor_temp_c,payload_kg\n"
+        "  $ sheaf corr fleet.sheaf --covariance -f csv > cov.csv\n"};
     char **pos;
     int rc = cli_parse_single(&cmd, argc, argv, &pos);
     if (rc >= 0) return rc;

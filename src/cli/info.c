@@ -313,7 +313,10 @@ int cmd_info(int argc, char **argv)
                              "per column its kind, counts, moments, quantiles and top values.\n"
                              "A summary of several targets lists them and describes the first,\n"
                              "or the one --target names.",
-                             opts};
+                             opts,
+        "  $ sheaf info fleet.sheaf\n"
+        "  $ sheaf info fleet.sheaf --json --top 10 > fleet.json\n"
+        "  $ sheaf info - < fleet.sheaf\n"};
     char **pos;
     int rc = cli_parse_single(&cmd, argc, argv, &pos);
     if (rc >= 0) return rc;
@@ -341,7 +344,7 @@ int cmd_info(int argc, char **argv)
     held.names = names;
     if ((rc = cli_choose_target("info", pos[0], set, target, 0, &s)) != EXIT_DONE) goto done;
     if ((as_json ? print_json(s, &held, share, (size_t)ntop)
-                 : print_text(s, &held, pos[0], share, (size_t)ntop))) {
+                 : print_text(s, &held, cli_path_name(pos[0]), share, (size_t)ntop))) {
         cli_error("info", "out of memory");
         rc = EXIT_RESOURCE;
         goto done;

@@ -13,6 +13,7 @@
 #include <unistd.h>
 
 #include "cli/cli.h"
+#include "io/closest.h"
 #include "stats/stat.h"
 
 typedef struct {
@@ -39,7 +40,9 @@ static void help(FILE *f)
                "summary files, and screens columns from the summaries alone.\n\ncommands:\n");
     for (size_t i = 0; i < sizeof COMMANDS / sizeof *COMMANDS; i++)
         fprintf(f, "  %-10s %s\n", COMMANDS[i].name, COMMANDS[i].what);
-    fprintf(f, "\n'sheaf COMMAND --help' describes a command.\n\n"
+    fprintf(f, "\n'sheaf help COMMAND' (or 'sheaf COMMAND --help') describes a command;\n"
+               "'sheaf -V' (--version) prints the version.  '-' names standard output for -o\n"
+               "and standard input for a data file or a summary.\n\n"
                "exit codes:\n"
                "  0  success\n"
                "  1  output could not be written, or another failure\n"
@@ -64,18 +67,51 @@ static void hold_closed_std_fds(void)
         }
 }
 
+/* "unknown command" with the nearest command names (io/closest.h). */
+static int unknown_command(const char *name)
+{
+    char msg[512];
+    snprintf(msg, sizeof msg, "unknown command '%s'", name);
+    closest c;
+    closest_init(&c, name, strlen(name));
+    for (size_t i = 0; i < sizeof COMMANDS / sizeof *COMMANDS; i++)
+        closest_offer(&c, COMMANDS[i].name, strlen(COMMANDS[i].name));
+    closest_offer(&c, "help", 4);
+    size_t used = strlen(msg);
+    closest_append(&c, NULL, msg + used, sizeof msg - used);
+    fprintf(stderr, "sheaf: %s (see sheaf --help)\n", msg);
+    return EXIT_USAGE;
+}
+
+static const command *find_command(const char *name)
+{
+    for (size_t i = 0; i < sizeof COMMANDS / sizeof *COMMANDS; i++)
+        if (!strcmp(name, COMMANDS[i].name)) return &COMMANDS[i];
+    return NULL;
+}
+
 static int run(int argc, char **argv)
 {
     if (argc < 2) { help(stderr); return EXIT_USAGE; }
-    if (!strcmp(argv[1], "-h") || !strcmp(argv[1], "--help") || !strcmp(argv[1], "help")) {
+    if (!strcmp(argv[1], "-h") || !strcmp(argv[1], "--help") ||
+        (!strcmp(argv[1], "help") && argc == 2)) {
         help(stdout);
         return EXIT_DONE;
     }
-    if (!strcmp(argv[1], "--version")) { printf("sheaf 0.1 (summary format 1)\n"); return 0; }
-    for (size_t i = 0; i < sizeof COMMANDS / sizeof *COMMANDS; i++)
-        if (!strcmp(argv[1], COMMANDS[i].name)) return COMMANDS[i].run(argc - 1, argv + 1);
-    fprintf(stderr, "sheaf: unknown command '%s' (see sheaf --help)\n", argv[1]);
-    return EXIT_USAGE;
+    if (!strcmp(argv[1], "help")) { /* sheaf help COMMAND: that command's --help */
+        if (argc > 3) { fprintf(stderr, "sheaf help: give one command\n"); return EXIT_USAGE; }
+        const command *c = find_command(argv[2]);
+        if (!c) return unknown_command(argv[2]);
+        char *args[] = {argv[2], "--help", NULL};
+        return c->run(2, args);
+    }
+    if (!strcmp(argv[1], "-V") || !strcmp(argv[1], "--version")) {
+        printf("%s\n", CLI_VERSION);
+        return EXIT_DONE;
+    }
+    const command *c = find_command(argv[1]);
+    if (c) return c->run(argc - 1, argv + 1);
+    return unknown_command(argv[1]);
 }
 
 /* Every failure to write standard output ends in one line and exit 1

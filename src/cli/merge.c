@@ -30,7 +30,7 @@ int cmd_merge(int argc, char **argv)
     const char *out = NULL;
     int allow_dup = 0;
     const cli_option opts[] = {
-        {"output", 'o', "OUT.sheaf", "summary file to write (required)", &out, NULL},
+        {"output", 'o', "OUT.sheaf", "summary file to write (required; - : standard output)", &out, NULL},
         {"allow-duplicates", 0, NULL, "merge even when the same source bytes appear twice", NULL,
          &allow_dup},
         {0},
@@ -42,7 +42,9 @@ int cmd_merge(int argc, char **argv)
         "columns and options, and the same targets in the same order (scan --target A,B).\n"
         "A merge that would count the same source bytes twice is refused unless\n"
         "--allow-duplicates is given. The output is written atomically.",
-        opts};
+        opts,
+        "  $ sheaf merge monday.sheaf tuesday.sheaf -o week.sheaf\n"
+        "  $ sheaf scan depot-b.csv -q -o - | sheaf merge depot-a.sheaf - -o both.sheaf\n"};
     char **pos;
     size_t npos;
     int rc = cli_parse(&cmd, argc, argv, &pos, &npos);
@@ -51,7 +53,9 @@ int cmd_merge(int argc, char **argv)
     rc = EXIT_USAGE;
     if (npos == 0) { cli_error("merge", "no input summaries (see sheaf merge --help)"); goto done; }
     if (!out) { cli_error("merge", "-o OUT.sheaf is required"); goto done; }
-    if (cli_check_output("merge", out, (const char *const *)pos, npos)) goto done;
+    if (cli_check_output("merge", out, (const char *const *)pos, npos) ||
+        cli_check_binary_stdout("merge", out) || cli_check_stdin("merge", (const char *const *)pos, npos))
+        goto done;
     char err[2048];
     for (size_t i = 0; i < npos; i++) {
         summary_set *s;
@@ -65,7 +69,7 @@ int cmd_merge(int argc, char **argv)
             cli_error("merge",
                       "%s: source %s (fingerprint %016llx) is already counted (from %s); "
                       "use --allow-duplicates to merge anyway",
-                      pos[i], summary_source_at(s->parts[0], (size_t)d)->path,
+                      cli_path_name(pos[i]), summary_source_at(s->parts[0], (size_t)d)->path,
                       (unsigned long long)summary_source_at(s->parts[0], (size_t)d)->fingerprint,
                       summary_source_at(acc->parts[0], k)->path);
             summary_set_free(s);
@@ -76,7 +80,8 @@ int cmd_merge(int argc, char **argv)
         st = summary_set_merge(acc, s, why, sizeof why);
         summary_set_free(s);
         if (st != SUMMARY_OK) {
-            cli_error("merge", "%s and %s cannot be merged: %s", pos[0], pos[i], why);
+            cli_error("merge", "%s and %s cannot be merged: %s", cli_path_name(pos[0]),
+                      cli_path_name(pos[i]), why);
             rc = cli_summary_exit(st);
             goto done;
         }

@@ -208,7 +208,9 @@ int cmd_pca(int argc, char **argv)
         "would test: categorical, constant and ID-like columns and the target are left\n"
         "out and listed. Prints the eigenvalues, their shares, where the Kaiser and\n"
         "broken-stick rules would stop, and the loadings of the kept components.",
-        opts};
+        opts,
+        "  $ sheaf pca fleet.sheaf --share 0.9\n"
+        "  $ sheaf pca fleet.sheaf -k 3 -f csv > loadings.csv\n"};
     char **pos;
     int rc = cli_parse_single(&cmd, argc, argv, &pos);
     if (rc >= 0) return rc;

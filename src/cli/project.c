@@ -32,7 +32,7 @@ int cmd_project(int argc, char **argv)
         CLI_TARGET_OPTION(target),
         {"pca", 0, "FILE.sheaf", "summary of the data the components come from (required)",
          &pca_path, NULL},
-        {"output", 'o', "OUT", "file to write (.gz: gzip, .zst: zstd; default: standard output)",
+        {"output", 'o', "OUT", "file to write (.gz: gzip, .zst: zstd; default or -: standard output)",
          &out_path, NULL},
         {"carry", 0, "A,B,..", "copy these columns (IDs, the target) in front of the scores",
          &carry_s, NULL},
@@ -63,7 +63,9 @@ int cmd_project(int argc, char **argv)
         "with the same options) as CSV. Each value is standardised with the summary's\n"
         "mean and sample standard deviation (centred only with --basis covariance); a\n"
         "missing or non-numeric cell counts as the mean. A failed run writes nothing.",
-        opts};
+        opts,
+        "  $ sheaf project flights.csv.gz --pca fleet.sheaf -k 2 --carry drone_id -o scores.csv\n"
+        "  $ sheaf project flights.csv --pca - -o - < fleet.sheaf | head\n"};
     char **pos;
     size_t npos;
     int rc = cli_parse(&cmd, argc, argv, &pos, &npos);
@@ -86,6 +88,11 @@ int cmd_project(int argc, char **argv)
         if (cli_check_output("project", out_path, (const char *const *)pos, npos) ||
             cli_check_output("project", out_path, side, 2))
             goto done;
+        const char *all[npos + 2]; /* data, --pca and --keep-list: standard input once */
+        for (size_t i = 0; i < npos; i++) all[i] = pos[i];
+        all[npos] = pca_path;
+        all[npos + 1] = keep;
+        if (cli_check_stdin("project", all, npos + 2)) goto done;
     }
     if (delim_s && cli_parse_delim(delim_s, &po.read.delim) != 0) {
         cli_error("project", "--delim must be one character or 'tab', got '%s'", delim_s);

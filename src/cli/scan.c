@@ -52,7 +52,7 @@ int cmd_scan(int argc, char **argv)
     scan_options o;
     scan_options_defaults(&o);
     const cli_option opts[] = {
-        {"output", 'o', "OUT.sheaf", "summary file to write (required)", &out, NULL},
+        {"output", 'o', "OUT.sheaf", "summary file to write (required; - : standard output)", &out, NULL},
         {"delim", 'd', "CHAR", "field delimiter: , ; | or tab (default: detected)", &delim, NULL},
         {"no-header", 0, NULL, "first row is data; columns are named col1..colN", NULL, &no_header},
         {"strict", 0, NULL, "rows with too few or too many fields are errors", NULL, &strict},
@@ -91,7 +91,10 @@ int cmd_scan(int argc, char **argv)
         "With --target A,B,.. the one pass keeps what each target needs, and the summary\n"
         "holds every target: info, screen, corr, pca, project and trim --from take --target\n"
         "to choose one. The value is split at commas unless it is, whole, a header name.",
-        opts};
+        opts,
+        "  $ sheaf scan flights-*.csv.gz -t landed_ok -o fleet.sheaf\n"
+        "  $ zcat night.csv.gz | sheaf scan - -o night.sheaf\n"
+        "  $ sheaf scan rotors.csv -qj2 -o - | sheaf info -\n"};
     char **pos;
     size_t npos;
     int rc = cli_parse(&cmd, argc, argv, &pos, &npos);
@@ -100,7 +103,9 @@ int cmd_scan(int argc, char **argv)
     long long v;
     if (npos == 0) { cli_error("scan", "no input files (see sheaf scan --help)"); goto done; }
     if (!out) { cli_error("scan", "-o OUT.sheaf is required"); goto done; }
-    if (cli_check_output("scan", out, (const char *const *)pos, npos)) goto done;
+    if (cli_check_output("scan", out, (const char *const *)pos, npos) ||
+        cli_check_binary_stdout("scan", out) || cli_check_stdin("scan", (const char *const *)pos, npos))
+        goto done;
     if (delim && cli_parse_delim(delim, &o.delim) != 0) {
         cli_error("scan", "--delim must be one character or 'tab', got '%s'", delim);
         goto done;

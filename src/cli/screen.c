@@ -346,7 +346,10 @@ int cmd_screen(int argc, char **argv)
         "flags columns that mirror the target (possible leaks), prunes redundant pairs and\n"
         "ranks what is kept. The p-values assume independent rows; see the README's\n"
         "cautions. A summary scanned with several targets needs --target to choose one.",
-        opts};
+        opts,
+        "  $ sheaf screen fleet.sheaf --q 0.01 --keep-list kept.txt\n"
+        "  $ sheaf screen fleet.sheaf -t motor_temp_c -f json > temp-screen.json\n"
+        "  $ sheaf trim flights.csv.gz --keep-list kept.txt -o flights-kept.csv.gz\n"};
     char **pos;
     int rc = cli_parse_single(&cmd, argc, argv, &pos);
     if (rc >= 0) return rc;
@@ -435,7 +438,7 @@ int cmd_screen(int argc, char **argv)
     }
     if (!strcmp(format, "json")) print_json(s, r);
     else if (!strcmp(format, "csv")) print_csv(s, r);
-    else print_text(s, r, pos[0]);
+    else print_text(s, r, cli_path_name(pos[0]));
     if (keep_list) {
         char err[PATH_MAX + 128];
         kept_open = 0;

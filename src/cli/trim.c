@@ -96,7 +96,7 @@ int cmd_trim(int argc, char **argv)
          &target, NULL},
         {"keep-list", 0, "FILE", "keep the columns named in FILE, one per line", &keep_list, NULL},
         {"carry", 0, "A,B,..", "also keep these columns (IDs, timestamps)", &carry, NULL},
-        {"output", 'o', "OUT", "write here (.gz / .zst compress; default standard output)", &out_path,
+        {"output", 'o', "OUT", "write here (.gz / .zst compress; default or -: standard output)", &out_path,
          NULL},
         {"delim", 'd', "CHAR", "field delimiter (default: detected)", &delim_s, NULL},
         {"no-header", 0, NULL, "first row is data; columns are named col1..colN", NULL, &no_header},
@@ -113,7 +113,9 @@ int cmd_trim(int argc, char **argv)
         "Writes DATA with only the kept columns (and the target, and --carry columns), in\n"
         "their input order, keeping each field's bytes and quoting as they were.\n"
         "With --from, the kept set is that of `sheaf screen` with the same options.",
-        opts};
+        opts,
+        "  $ sheaf trim flights.csv.gz --from fleet.sheaf --carry drone_id -o kept.csv.gz\n"
+        "  $ sheaf trim flights.csv --keep-list kept.txt -o - | head\n"};
     char **pos;
     size_t npos;
     int rc = cli_parse(&cmd, argc, argv, &pos, &npos);
@@ -132,6 +134,11 @@ int cmd_trim(int argc, char **argv)
         if (cli_check_output("trim", out_path, (const char *const *)pos, npos) ||
             cli_check_output("trim", out_path, side, 2))
             goto done;
+        const char *all[npos + 2]; /* data, --from and --keep-list: standard input once */
+        for (size_t i = 0; i < npos; i++) all[i] = pos[i];
+        all[npos] = from;
+        all[npos + 1] = keep_list;
+        if (cli_check_stdin("trim", all, npos + 2)) goto done;
     }
     if (delim_s && cli_parse_delim(delim_s, &delim) != 0) {
         cli_error("trim", "--delim must be one character or 'tab', got '%s'", delim_s);

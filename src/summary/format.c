@@ -593,11 +593,56 @@ summary_status summary_decode(const uint8_t *data, size_t len, summary **out, ch
 /* ---- files -------------------------------------------------------------- */
 
 
+/* Standard input read to its end into anonymous pages, grown by doubling
+ * (mremap), so the caller releases it as it would a map: munmap. */
+static summary_status read_stdin(void **map_out, size_t *len_out, char *err, size_t errlen)
+{
+    size_t cap = 1u << 16, len = 0;
+    unsigned char *buf = mmap(NULL, cap, PROT_READ | PROT_WRITE, MAP_PRIVATE | MAP_ANONYMOUS, -1, 0);
+    if (buf == MAP_FAILED) {
+        snprintf(err, errlen, "standard input: out of memory");
+        return SUMMARY_ERR_MEMORY;
+    }
+    for (;;) {
+        if (len == cap) {
+            void *grown = cap <= SIZE_MAX / 2 ? mremap(buf, cap, cap * 2, MREMAP_MAYMOVE) : MAP_FAILED;
+            if (grown == MAP_FAILED) {
+                munmap(buf, cap);
+                snprintf(err, errlen, "standard input: out of memory after %.1f MiB",
+                         len / 1048576.0);
+                return SUMMARY_ERR_MEMORY;
+            }
+            buf = grown;
+            cap *= 2;
+        }
+        ssize_t got = read(STDIN_FILENO, buf + len, cap - len);
+        if (got < 0 && errno == EINTR) continue;
+        if (got < 0) {
+            snprintf(err, errlen, "standard input: cannot read: %s", strerror(errno));
+            munmap(buf, cap);
+            return SUMMARY_ERR_IO;
+        }
+        if (got == 0) break;
+        len += (size_t)got;
+    }
+    if (len == 0) {
+        munmap(buf, cap);
+        return SUMMARY_OK; /* an empty file: the decoder says what is wrong */
+    }
+    /* Trim to whole pages of len so that munmap(map, len) releases all. */
+    size_t page = (size_t)sysconf(_SC_PAGESIZE), keep = (len + page - 1) / page * page;
+    if (keep < cap) munmap(buf + keep, cap - keep);
+    *map_out = buf;
+    *len_out = len;
+    return SUMMARY_OK;
+}
+
 summary_status summary_map_file(const char *path, void **map_out, size_t *len_out, char *err,
                                 size_t errlen)
 {
     *map_out = NULL;
     *len_out = 0;
+    if (!strcmp(path, "-")) return read_stdin(map_out, len_out, err, errlen);
     int fd = open(path, O_RDONLY | O_CLOEXEC);
     if (fd < 0) {
         snprintf(err, errlen, "%s: cannot open: %s", path, strerror(errno));
@@ -639,6 +684,7 @@ summary_status summary_read(const char *path, summary **out, char *err, size_t e
     char inner[400];
     rc = summary_decode(map ? map : "", len, out, inner, sizeof inner);
     if (map) munmap(map, len);
-    if (rc != SUMMARY_OK) snprintf(err, errlen, "%s: %s", path, inner);
+    if (rc != SUMMARY_OK)
+        snprintf(err, errlen, "%s: %s", strcmp(path, "-") ? path : "standard input", inner);
     return rc;
 }

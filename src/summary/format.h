@@ -30,7 +30,9 @@ int summary_write_at(const summary *s, int fd, off_t base, off_t *end);
 int summary_write_all(int fd, const void *data, size_t len);
 /* XXH3-64 of fd's bytes [from, to), read back through a map.  0 or -1. */
 int summary_hash_region(int fd, off_t from, off_t to, uint64_t *hash);
-/* Maps a file read-only (*map NULL for an empty file; munmap it). */
+/* Maps a file read-only (*map NULL for an empty file; munmap it).  The path
+ * "-" is standard input, read to its end into anonymous memory (also
+ * released with munmap), named "standard input" in messages. */
 summary_status summary_map_file(const char *path, void **map, size_t *len, char *err,
                                 size_t errlen);
 

@@ -243,8 +243,13 @@ int summary_write_at(const summary *s, int fd, off_t base, off_t *end)
 summary_status summary_write(const summary *s, const char *path, char *err, size_t errlen)
 {
     tempfile t; /* written in full, then made the target's (src/summary/tempfile.h) */
-    if (tempfile_open(&t, path, TEMPFILE_SEEKABLE, err, errlen) != 0)
+    /* "-": standard output, through a scratch file (nothing written on failure). */
+    int to_stdout = !strcmp(path, "-");
+    if ((to_stdout ? tempfile_open_fd(&t, STDOUT_FILENO, "standard output", TEMPFILE_SEEKABLE,
+                                      err, errlen)
+                   : tempfile_open(&t, path, TEMPFILE_SEEKABLE, err, errlen)) != 0)
         return errno == ENOMEM ? SUMMARY_ERR_MEMORY : SUMMARY_ERR_IO;
+    if (to_stdout) path = "standard output";
     if (summary_write_at(s, t.fd, 0, NULL) != 0) {
         int saved = errno;
         snprintf(err, errlen, "%s: cannot write: %s", path, strerror(saved ? saved : EIO));

@@ -277,7 +277,10 @@ uint64_t summary_column_present(const summary_column *c);
  * final name and a killed process leaves no temporary file; a character
  * device or a FIFO (/dev/null, a pipe) receives the bytes in place.  A new
  * file gets the mode a plain creat() would give it (0666 less the umask), and
- * the process umask is never touched. */
+ * the process umask is never touched.  The path "-" is standard output: the
+ * file is written whole to a scratch file first and then copied, so a
+ * failure writes nothing there.  For reading (summary_read,
+ * summary_set_read), "-" is standard input, read whole into memory. */
 summary_status summary_write(const summary *s, const char *path, char *err, size_t errlen);
 /* The format version s is written in: the oldest that holds it (1, or 2
  * when it counted repeated headers).  Readers take 1 .. SUMMARY_FORMAT_VERSION. */

@@ -182,8 +182,13 @@ summary_status summary_set_write(const summary_set *set, const char *path, char 
             return SUMMARY_ERR_INCOMPATIBLE;
         }
     tempfile t; /* written in full, then made the target's (src/summary/tempfile.h) */
-    if (tempfile_open(&t, path, TEMPFILE_SEEKABLE, err, errlen) != 0)
+    /* "-": standard output, through a scratch file (nothing written on failure). */
+    int to_stdout = !strcmp(path, "-");
+    if ((to_stdout ? tempfile_open_fd(&t, STDOUT_FILENO, "standard output", TEMPFILE_SEEKABLE,
+                                      err, errlen)
+                   : tempfile_open(&t, path, TEMPFILE_SEEKABLE, err, errlen)) != 0)
         return errno == ENOMEM ? SUMMARY_ERR_MEMORY : SUMMARY_ERR_IO;
+    if (to_stdout) path = "standard output";
     if (write_set(set, t.fd) != 0) {
         int saved = errno;
         snprintf(err, errlen, "%s: cannot write: %s", path, strerror(saved ? saved : EIO));
@@ -398,7 +403,8 @@ summary_status summary_set_read(const char *path, summary_set **out, char *err, 
     char inner[600];
     rc = summary_set_decode(map ? map : (const void *)"", len, out, inner, sizeof inner);
     if (map) munmap(map, len);
-    if (rc != SUMMARY_OK) snprintf(err, errlen, "%s: %s", path, inner);
+    if (rc != SUMMARY_OK)
+        snprintf(err, errlen, "%s: %s", strcmp(path, "-") ? path : "standard input", inner);
     return rc;
 }
 

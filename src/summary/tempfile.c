@@ -288,6 +288,32 @@ int tempfile_open(tempfile *t, const char *path, int flags, char *err, size_t er
     return 0;
 }
 
+int tempfile_open_fd(tempfile *t, int fd, const char *name, int flags, char *err, size_t errlen)
+{
+    memset(t, 0, sizeof *t);
+    t->fd = t->target_fd = t->slot = -1;
+    t->path = strdup(name);
+    if (!t->path) { errno = ENOMEM; return fail(t, err, errlen, name, ""); }
+    int target = fcntl(fd, F_DUPFD_CLOEXEC, 3);
+    if (target < 0) return fail(t, err, errlen, name, "cannot write");
+    if (!(flags & TEMPFILE_SEEKABLE)) {
+        t->kind = TEMPFILE_THROUGH;
+        t->fd = target;
+        return 0;
+    }
+    t->kind = TEMPFILE_SCRATCH;
+    t->target_fd = target;
+    t->fd = open_scratch();
+    if (t->fd < 0) {
+        int saved = errno;
+        close(target);
+        t->target_fd = -1;
+        errno = saved;
+        return fail(t, err, errlen, name, "cannot create a scratch file");
+    }
+    return 0;
+}
+
 /* ---- committing ---- */
 
 static void release(tempfile *t)

@@ -74,6 +74,14 @@ typedef struct {
  * naming the path in err; t then holds nothing to release. */
 int tempfile_open(tempfile *t, const char *path, int flags, char *err, size_t errlen);
 
+/* Prepares an output to the open descriptor fd (standard output for `-o -`),
+ * which stays open (a duplicate is written and closed): a caller that must
+ * seek or map what it writes (TEMPFILE_SEEKABLE) writes to a scratch file
+ * without a name, copied to fd by tempfile_commit, so a failure before the
+ * commit writes nothing to fd; else it writes through.  `name` names fd in
+ * messages.  Returns 0, or -1 with errno set and a message in err. */
+int tempfile_open_fd(tempfile *t, int fd, const char *name, int flags, char *err, size_t errlen);
+
 /* Makes the written bytes the target's: fsync and the link or rename for a
  * regular file (and fsync of its directory), the copy for a scratch file.
  * Closes t->fd and releases t in every case.  Returns 0, or -1 with errno
