@@ -141,7 +141,7 @@ int cmd_corr(int argc, char **argv)
     char err[512];
     long n = corr_columns(s, share, cols_s, cols, err, sizeof err);
     if (n < 0) {
-        cli_error("corr", "--columns: %s of %s", err, pos[0]);
+        cli_error("corr", "%s: --columns: %s", cli_path_name(pos[0]), err);
         rc = EXIT_USAGE;
         goto done;
     }

@@ -7,6 +7,7 @@
 #include <string.h>
 
 #include "cli/cli.h"
+#include "io/closest.h"
 #include "summary/access.h"
 
 int cli_read_summary(const char *cmd, const char *path, summary **s)
@@ -40,8 +41,16 @@ int cli_choose_target(const char *cmd, const char *path, summary_set *set, const
     if (!target)
         cli_error(cmd, "%s holds %zu targets (%s): choose one with --target", path, set->n,
                   names);
-    else if (set->n > 1)
-        cli_error(cmd, "%s: --target %s: not one of its targets (%s)", path, target, names);
+    else if (set->n > 1) {
+        char hint[512] = "";
+        closest c;
+        closest_init(&c, target, strlen(target));
+        for (size_t k = 0; k < set->n; k++)
+            closest_offer(&c, set->parts[k]->opt.target, strlen(set->parts[k]->opt.target));
+        closest_append(&c, NULL, hint, sizeof hint);
+        cli_error(cmd, "%s: --target %s: not one of its targets (%s)%s", cli_path_name(path),
+                  target, names, hint);
+    }
     else if (!set->parts[0]->opt.target)
         cli_error(cmd, "%s: --target %s: the summary was scanned without a target", path,
                   target);

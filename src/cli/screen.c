@@ -419,7 +419,9 @@ int cmd_screen(int argc, char **argv)
                               : same > 1 ? "names more than one column of the summary"
                                          : screen_target_problem(s, (size_t)col, o.numeric_share);
         if (problem) {
-            cli_error("screen", "%s: --target %s: %s", pos[0], target, problem);
+            char hint[768] = "";
+            if (col < 0) summary_suggest_columns(s, target, strlen(target), hint, sizeof hint);
+            cli_error("screen", "%s: --target %s: %s%s", cli_path_name(pos[0]), target, problem, hint);
             rc = EXIT_USAGE;
             goto done;
         }

@@ -242,6 +242,7 @@ static int map_header(void *ctx, size_t file, const char *path, const reader *rd
         if (at == SIZE_MAX) {
             snprintf(msg, msglen,
                      "%s: line 1: no column named '%s' in the header (the PCA uses it)", path, name);
+            if (pj->header) stream_suggest_column(f, nf, 1, name, msg, msglen);
             return PROJECT_ERR_INPUT;
         }
         map[j] = at;
@@ -256,6 +257,7 @@ static int map_header(void *ctx, size_t file, const char *path, const reader *rd
         if (at == SIZE_MAX) {
             snprintf(msg, msglen, "%s: line 1: --carry: no column named '%s'%s", path,
                      pj->carry[c], pj->header ? " in the header" : " (use col1..colN)");
+            if (pj->header) stream_suggest_column(f, nf, 1, pj->carry[c], msg, msglen);
             return PROJECT_ERR_USAGE;
         }
         map[pj->r->p + c] = at;

@@ -13,7 +13,9 @@
 #include <string.h>
 #include <sys/stat.h>
 
+#include "io/closest.h"
 #include "io/pipeline.h"
+#include "io/reader.h"
 #include "io/source.h"
 
 #define TAG_FILE_START 1u  /* the file's first chunk */
@@ -264,4 +266,23 @@ int stream_files(const stream_options *o, const stream_handler *h, void *ctx,
     reader_free(r.rd);
     free(r.msg);
     return rc;
+}
+
+void stream_suggest_column(const csv_field *fields, size_t n, int header, const char *name,
+                           char *msg, size_t msglen)
+{
+    size_t total = 0;
+    for (size_t i = 0; i < n; i++) total += fields[i].len + 24;
+    char *names = malloc(total ? total : 1);
+    if (!names) return; /* the message stands without the hint */
+    closest c;
+    closest_init(&c, name, strlen(name));
+    char *at = names;
+    for (size_t i = 0; i < n; i++) {
+        size_t len = reader_column_name(&fields[i], i, header, 1, at);
+        closest_offer(&c, at, len);
+        at += len;
+    }
+    closest_append(&c, "columns", msg, msglen);
+    free(names);
 }

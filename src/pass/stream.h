@@ -28,6 +28,8 @@
 #include <stddef.h>
 #include <stdint.h>
 
+#include "io/csv.h"
+
 #include "io/reader.h"
 
 typedef struct {
@@ -74,5 +76,11 @@ typedef struct {
  * one-line message in err. */
 int stream_files(const stream_options *o, const stream_handler *h, void *ctx,
                  const char *const *paths, size_t npaths, char *err, size_t errlen);
+
+/* For a name that is no column of a first record's n fields (named as
+ * reader_column_name names them, raw): appends to msg (msglen bytes, cut to
+ * fit) the nearest names (io/closest.h) and the first few. */
+void stream_suggest_column(const csv_field *fields, size_t n, int header, const char *name,
+                           char *msg, size_t msglen);
 
 #endif

@@ -90,6 +90,7 @@ static int choose(trimmer *t, const char *path, const reader_record *rec, char *
                      !o->header  ? "(without a header: col1..colN)"
                      : generated ? "in the header (for a file without one, add --no-header)"
                                  : "in the header");
+            if (o->header) stream_suggest_column(rec->fields, rec->nfields, 1, k0, msg, msglen);
             free(found);
             return TRIM_ERR_USAGE;
         }

@@ -41,6 +41,7 @@ long corr_columns(const summary *s, double numeric_share, const char *names, siz
             k++;
         if (l && k == n) {
             snprintf(err, errlen, "'%.*s' is not a numeric column", (int)l, p);
+            if (summary_find_column_n(s, p, l) < 0) summary_suggest_columns(s, p, l, err, errlen);
             return -1;
         }
         size_t named = 0;

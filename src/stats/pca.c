@@ -327,6 +327,7 @@ static int mark_names(const summary *s, const name_entry *byname, const char *li
         long j = find_name(byname, summary_columns(s), p, len);
         if (j < 0) {
             snprintf(err, errlen, "%s: no column named '%.*s' in the summary", what, (int)len, p);
+            summary_suggest_columns(s, p, len, err, errlen);
             return -1;
         }
         if (count_name(byname, summary_columns(s), p, len) > 1) {

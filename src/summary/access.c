@@ -1,6 +1,7 @@
 /* access: see access.h.  The one place outside the summary module that
  * reads a summary's fields; every call is a read. */
 #include "summary/access.h"
+#include "io/closest.h"
 
 #include <math.h>
 #include <stdlib.h>
@@ -42,6 +43,18 @@ long summary_find_column_n(const summary *s, const char *name, size_t len)
         if (strncmp(s->cols[i].name, name, len) == 0 && s->cols[i].name[len] == '\0')
             return (long)i;
     return -1;
+}
+
+void summary_suggest_columns(const summary *s, const char *name, size_t len, char *buf,
+                             size_t buflen)
+{
+    closest c;
+    closest_init(&c, name, len);
+    for (size_t i = 0; i < summary_columns(s); i++) {
+        const char *n = summary_name(s, i);
+        closest_offer(&c, n, strlen(n));
+    }
+    closest_append(&c, "columns", buf, buflen);
 }
 
 long summary_find_column(const summary *s, const char *name)

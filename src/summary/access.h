@@ -51,6 +51,11 @@ size_t summary_columns(const summary *s);       /* scanned columns */
 long summary_find_column(const summary *s, const char *name);
 /* The same for a name of len bytes that need not be terminated. */
 long summary_find_column_n(const summary *s, const char *name, size_t len);
+/* For a name that is no column: appends to the message in buf (buflen
+ * bytes, cut to fit) the nearest column names (io/closest.h) and the first
+ * few columns, "; did you mean 'a'? (columns: x, y, ... N in all)". */
+void summary_suggest_columns(const summary *s, const char *name, size_t len, char *buf,
+                             size_t buflen);
 const char *summary_name(const summary *s, size_t col);  /* header name, owned by s */
 column_mode summary_mode(const summary *s, size_t col);  /* as declared at scan time */
 /* Kind by the rule of summary_column_kind: numeric when at least

@@ -1,5 +1,6 @@
 /* schema: see schema.h. */
 #include "summary/schema.h"
+#include "io/closest.h"
 
 #include <stdio.h>
 #include <stdlib.h>
@@ -47,6 +48,16 @@ static int ambiguous(const char *file, const char *opt, const char *name, char *
     return -1;
 }
 
+/* Appends the header names nearest to a name that is none of them, and the
+ * first few (io/closest.h). */
+static void suggest(const char *name, char **names, size_t nnames, char *err, size_t errlen)
+{
+    closest c;
+    closest_init(&c, name, strlen(name));
+    for (size_t k = 0; k < nnames; k++) closest_offer(&c, names[k], strlen(names[k]));
+    closest_append(&c, "columns", err, errlen);
+}
+
 /* Checks every name in a list exists in the header, once. */
 static int check_names(const char *file, const char *opt, char **items, int n, char **names,
                        size_t nnames, char *err, size_t errlen)
@@ -56,6 +67,7 @@ static int check_names(const char *file, const char *opt, char **items, int n, c
         while (k < nnames && strcmp(names[k], items[i]) != 0) k++;
         if (k == nnames) {
             snprintf(err, errlen, "%s: no column named '%s' in the header", opt, items[i]);
+            suggest(items[i], names, nnames, err, errlen);
             return -1;
         }
         if (ambiguous(file, opt, items[i], names, nnames, err, errlen)) return -1;
@@ -169,6 +181,11 @@ scan_status schema_plan_make(const scan_options *o, const char *file, const char
             snprintf(err, errlen, "--target: no column named '%s' %s", o->opt.target,
                      in_list(ign, nign, o->opt.target) || nsel > 0 ? "among the scanned columns"
                                                                    : "in the header");
+            /* The scanned columns (p->cols) are the ones a target can be. */
+            closest c;
+            closest_init(&c, o->opt.target, strlen(o->opt.target));
+            for (size_t k = 0; k < n; k++) closest_offer(&c, p->cols[k], strlen(p->cols[k]));
+            closest_append(&c, "scanned columns", err, errlen);
             st = SCAN_ERR_USAGE;
             goto done;
         }

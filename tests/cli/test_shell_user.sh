@@ -23,11 +23,11 @@ holds() { eval "$1"; }
     done
 } >"$T/fly.csv"
 printf 'battery_v\nmotor_temp_c\n' >"$T/keep.txt"
+# Every command runs in an empty directory of its own: nothing may land there.
+mkdir "$T/cwd" && cd "$T/cwd" || exit 0
 "$S" scan -q "$T/fly.csv" -t status -o "$T/fly.sheaf" || { fail setup "scan failed"; exit 0; }
 
 # ---- '-' as standard output and input -------------------------------------
-mkdir "$T/cwd"
-cd "$T/cwd" || exit 0
 "$S" scan -q "$T/fly.csv" -t status -o - >../piped.sheaf 2>../err
 RC=$?
 check stdout.scan_dash_writes_stdout "exit $RC, $(first_diff ../piped.sheaf ../fly.sheaf)" \
@@ -52,7 +52,6 @@ check stdout.project_dash "$(first_diff ../proj.out ../proj.ref)" \
     holds '[ -s ../proj.out ] && cmp -s ../proj.out ../proj.ref'
 left=$(ls -A . | tr '\n' ' ')
 check stdout.no_file_in_cwd_any_command "left: $left" [ -z "$left" ]
-cd - >/dev/null || exit 0
 
 # A summary on a terminal is refused (script(1) gives the command a terminal).
 if command -v script >/dev/null; then
@@ -165,6 +164,35 @@ suggest short_letters "(short options: -o -d -t -j -q -h)" "$S" scan "$T/fly.csv
 run "$S" scan "$T/fly.csv" --zzzzzz
 check suggest.none_when_far "exit $RC: $(err_text)" holds '[ "$RC" -eq 2 ] && ! grep -q '\''did you mean'\'' "$T/err"'
 
+# Column names: the nearest (and a few that exist) wherever a command takes them.
+column() { # NAME WANT COMMAND...: a non-zero exit, one line with WANT and the column list
+    local name=$1 want=$2
+    shift 2
+    run "$@"
+    check "suggest.column.$name" "exit $RC: $(err_text)" \
+        holds '[ "$RC" -ne 0 ] && grep -qF -- "$want" "$T/err" && grep -q "(.*columns: drone_id, battery_v" "$T/err" && [ "$(wc -l <"$T/err")" -eq 1 ]'
+}
+column scan_target "did you mean 'status'?" "$S" scan -q "$T/fly.csv" -t stats -o "$T/x.sheaf"
+column scan_ignore "did you mean 'battery_v'?" "$S" scan -q "$T/fly.csv" --ignore batery_v -o "$T/x.sheaf"
+column scan_columns "did you mean 'payload_kg'?" "$S" scan -q "$T/fly.csv" --columns payload,status -o "$T/x.sheaf"
+column scan_numeric "did you mean 'altitude_m'?" "$S" scan -q "$T/fly.csv" --numeric Altitude_M -o "$T/x.sheaf"
+column screen_target "did you mean 'motor_temp_c'?" "$S" screen "$T/fly.sheaf" -t motor_tmp_c
+column corr_columns "did you mean 'battery_v'?" "$S" corr "$T/fly.sheaf" --columns batteryv,motor_temp_c
+column pca_columns "did you mean 'altitude_m'?" "$S" pca "$T/fly.sheaf" --columns battery_v,altitud_m
+column pca_exclude "did you mean 'payload_kg'?" "$S" pca "$T/fly.sheaf" --exclude paylod_kg
+printf 'battery_v\nmotortemp_c\n' >"$T/typo.txt"
+column pca_keep_list "did you mean 'motor_temp_c'?" "$S" pca "$T/fly.sheaf" --keep-list "$T/typo.txt"
+column project_carry "did you mean 'drone_id'?" "$S" project "$T/fly.csv" --pca "$T/fly.sheaf" -k 1 --carry droneid
+column trim_keep_list "did you mean 'motor_temp_c'?" "$S" trim "$T/fly.csv" --keep-list "$T/typo.txt"
+column trim_carry "did you mean 'drone_id'?" "$S" trim "$T/fly.csv" --keep-list "$T/keep.txt" --carry drone
+run "$S" screen "$T/fly.sheaf" -t zzzzzzzzz
+check suggest.column.far_lists_some "exit $RC: $(err_text)" \
+    holds '[ "$RC" -eq 2 ] && ! grep -q "did you mean" "$T/err" && grep -q "columns: drone_id, battery_v, motor_temp_c, altitude_m, payload_kg, ... 6 in all" "$T/err"'
+"$S" scan -q "$T/fly.csv" -t status,altitude_m -o "$T/two.sheaf"
+run "$S" info "$T/two.sheaf" -t altitude
+check suggest.target_of_several "exit $RC: $(err_text)" \
+    holds '[ "$RC" -eq 2 ] && grep -qF "did you mean '\''altitude_m'\''?" "$T/err"'
+
 # ---- write failures ---------------------------------------------------------
 if [ -w /dev/full ]; then
     for c in "info @X" "info --json @X" "corr @X" "corr -f json @X" "corr -f csv @X" "screen @X" \
@@ -182,4 +210,6 @@ if [ -w /dev/full ]; then
 else
     skip write_failure "/dev/full not writable"
 fi
+left=$(ls -A . | tr '\n' ' ')
+check no_file_in_cwd_at_the_end "left in the current directory: $left" [ -z "$left" ]
 exit 0
