@@ -24,8 +24,10 @@ size_t closest_distance(const char *a, size_t alen, const char *b, size_t blen, 
     for (size_t i = 1; i <= alen; i++) {
         size_t lo = i > limit ? i - limit : 0, hi = i + limit < blen ? i + limit : blen;
         size_t row_min = over;
-        for (size_t j = 0; j <= blen; j++) cur[j] = over;
+        /* The cells beside the band that the next rows read stay over. */
         if (lo == 0) cur[0] = i;
+        else cur[lo - 1] = over;
+        if (hi < blen) cur[hi + 1] = over;
         for (size_t j = lo > 1 ? lo : 1; j <= hi; j++) {
             unsigned char x = fold((unsigned char)a[i - 1]), y = fold((unsigned char)b[j - 1]);
             size_t v = prev[j - 1] + (x != y);

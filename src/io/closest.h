@@ -9,9 +9,11 @@
  *     1 for typed text of 1 to 3 bytes, 2 for 4 to 6, 3 from 7 on,
  *
  * or when the typed text (3 bytes or more) begins the name.  Names longer
- * than CLOSEST_MAX_BYTES are only matched by that prefix rule.  The DP is
- * banded to the threshold, so a name costs a few dozen operations per byte
- * and a header of 100,000 columns is searched in milliseconds.
+ * than CLOSEST_MAX_BYTES are only matched by that prefix rule.  The table
+ * is computed only within the threshold of its diagonal (2 x 3 + 1 cells a
+ * row at most), and a name is left as soon as a row is over the threshold:
+ * 100,000 names of 13 bytes took 32 to 38 ms on the shared 2-core
+ * development machine (an error path only).
  *
  * A closest context is fed every existing name once (closest_offer, in the
  * order they should be listed) and keeps the CLOSEST_KEEP nearest (ties:
