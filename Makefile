@@ -25,7 +25,7 @@ TEST_BIN := $(TEST_SRC:tests/%.c=build/tests/%)
 DEMO_BIN := build/demo/generate
 
 .PHONY: all deps deps-check test demo bench clean fuzz fuzz-build replay-build \
-        sanitize-build check-sanitize check-sanitize-quick trust-run
+        sanitize-build check-sanitize check-sanitize-quick trust-run help
 all: sheaf libsheaf.a
 
 libsheaf.a: $(LIB_OBJ)
@@ -186,8 +186,24 @@ bench: deps-check
 	@$(MAKE) --no-print-directory all $(DEMO_BIN)
 	@bench/run.sh
 
+# What the build, the tests and the demo wrote; bench/out (the benchmark
+# tables, slow to make) stays: remove it by hand.
 clean:
-	rm -rf build sheaf libsheaf.a
+	rm -rf build sheaf libsheaf.a demo/out
+
+help:
+	@echo "make targets:"
+	@echo "  all (default)          build sheaf and libsheaf.a"
+	@echo "  deps                   install the Debian packages the build and tests need (root)"
+	@echo "  demo                   build, then run the demo scenario (writes demo/out/)"
+	@echo "  test                   every suite, then the sanitized quick subset; ends 'N passed, N failed'"
+	@echo "  check-sanitize         every suite against the AddressSanitizer/UBSan build"
+	@echo "  check-sanitize-quick   the sanitized subset that 'make test' runs"
+	@echo "  bench                  the benchmarks (bench/run.sh), results in bench/RESULTS.md"
+	@echo "  fuzz                   long libFuzzer runs (FUZZ_SECONDS per harness, FUZZ_ONLY=NAME)"
+	@echo "  trust-run              the bad-input run (TRUST_REPORT=FILE writes its table)"
+	@echo "  clean                  remove build/, sheaf, libsheaf.a and demo/out/ (not bench/out/)"
+	@echo "  help                   this list"
 
 -include $(LIB_OBJ:.o=.d) $(CLI_OBJ:.o=.d) $(FUZZ_OBJ:.o=.d) $(ASAN_LIB_OBJ:.o=.d) \
          $(ASAN_CLI_OBJ:.o=.d) $(wildcard build/tests/*.d build/fuzz/*.d $(ASAN_DIR)/tests/*.d)

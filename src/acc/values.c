@@ -475,7 +475,7 @@ uint64_t values_count_of(const values *v, uint64_t hash)
 
 values_entry values_entry_at(const values *v, uint32_t i)
 {
-    values_entry e = {0, 0, "", 0};
+    values_entry e = {0, 0, "", 0, 0};
     const order_ref *order;
     order_ref *tmp;
     if (i >= v->levels || read_order(v, &order, &tmp)) return e;

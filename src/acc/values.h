@@ -41,7 +41,20 @@ typedef struct {
     uint64_t count;     /* exact occurrences */
     const char *label;  /* first-seen text, not terminated */
     uint32_t label_len; /* bytes of label */
+    int cut;            /* summary_top: the label is the start of a longer text */
 } values_entry;
+
+/* Bytes of s[0..len) without a UTF-8 sequence cut at its end (a label cut
+ * at label_bytes may end inside one). */
+static inline uint32_t values_whole_utf8(const char *s, uint32_t len)
+{
+    uint32_t i = len, back = 0;
+    while (i && back < 4 && ((unsigned char)s[i - 1] & 0xC0) == 0x80) { i--; back++; }
+    if (!i || !((unsigned char)s[i - 1] & 0x80)) return len; /* ASCII end, or nothing to judge */
+    unsigned char lead = (unsigned char)s[i - 1];
+    uint32_t need = lead >= 0xF0 ? 3 : lead >= 0xE0 ? 2 : lead >= 0xC0 ? 1 : 0;
+    return back >= need ? len : i - 1;
+}
 
 values *values_create(uint32_t max_levels, uint32_t label_bytes);
 void values_free(values *v);

@@ -2,6 +2,7 @@
 #include "cli/cli.h"
 #include "io/closest.h"
 #include "summary/summary.h"
+#include "out/table.h"
 
 #include <ctype.h>
 #include <errno.h>
@@ -355,4 +356,33 @@ void cli_progress_end(cli_progress *p)
 {
     if (p->shown) fputs("\r\033[K", stderr);
     p->shown = 0;
+}
+
+FILE *cli_text_begin(cli_text *t)
+{
+    t->buf = NULL;
+    t->len = 0;
+    t->width = table_terminal_width();
+    t->f = t->width ? open_memstream(&t->buf, &t->len) : NULL;
+    return t->f ? t->f : stdout;
+}
+
+void cli_text_end(cli_text *t)
+{
+    if (!t->f) return;
+    if (fclose(t->f) == 0 && t->buf) table_wrap(stdout, t->buf, t->width);
+    free(t->buf);
+    t->f = NULL;
+}
+
+int cli_set_color(const char *cmd, const char *when)
+{
+    if (!when || !strcmp(when, "auto")) table_set_color(TABLE_COLOR_AUTO);
+    else if (!strcmp(when, "always")) table_set_color(TABLE_COLOR_ALWAYS);
+    else if (!strcmp(when, "never")) table_set_color(TABLE_COLOR_NEVER);
+    else {
+        cli_error(cmd, "--color: '%s' is not auto, always or never", when);
+        return EXIT_USAGE;
+    }
+    return 0;
 }

@@ -112,6 +112,27 @@ int cli_parse_reading(const char *cmd, const char *chunk, const char *max_record
                       size_t *chunk_bytes, size_t *max_record_bytes);
 /* Parses a share or level in (0, 1] for option `opt`; prints a one-line
  * error and returns -1 when it is not one. */
+/* Text output for a terminal (or COLUMNS): the command writes into
+ * cli_text_begin's stream, and cli_text_end copies it to stdout with every
+ * line wider than table_terminal_width() word-wrapped (tables are already
+ * fitted, so they pass untouched).  With no width known, the stream is
+ * stdout itself. */
+/* --color WHEN on the commands that print text tables. */
+#define CLI_COLOR_OPTION(var)                                                                   \
+    {"color", 0, "WHEN", "colour and bold: auto (a terminal and NO_COLOR unset; default), "     \
+     "always or never", &(var), NULL}
+/* Applies --color (NULL: auto); 0, or EXIT_USAGE after a message. */
+int cli_set_color(const char *cmd, const char *when);
+
+typedef struct {
+    FILE *f;     /* the memory stream, or NULL when writing to stdout */
+    char *buf;
+    size_t len;
+    size_t width;
+} cli_text;
+FILE *cli_text_begin(cli_text *t);
+void cli_text_end(cli_text *t);
+
 /* -j / --threads: a count from 1 to 1024 into *threads.  NULL text: the
  * environment's SHEAF_THREADS if set, else the default is left (0 = the CPUs
  * this process may use).  0 or EXIT_USAGE. */

@@ -70,42 +70,48 @@ static int print_json(const corr_report *r)
 }
 
 /* Panels of as many columns as fit the terminal (100 when not a terminal). */
-static void print_text(const corr_report *r)
+static void print_text(FILE *f, const corr_report *r)
 {
     size_t n = r->n, width = table_terminal_width();
     if (!width) width = 100;
+    /* Names whole (users copy them), unless one is so long that not even
+     * one value would fit beside it: then cut, with the marker. */
     size_t namew = 4;
     for (size_t a = 0; a < n; a++) {
-        size_t l = strlen(name(r, a));
+        size_t l = table_text_width(name(r, a));
         if (l > namew) namew = l;
     }
-    if (namew > 28) namew = 28;
     size_t cellw = r->covariance ? 11 : 7;
-    size_t per = width > namew + 5 ? (width - namew - 5) / (cellw + 1) : 1;
+    if (width > 4 + cellw + 1 + 8 && namew > width - 4 - cellw - 1) namew = width - 4 - cellw - 1;
+    size_t per = width >= namew + 4 + cellw + 1 ? (width - namew - 4) / (cellw + 1) : 1;
     if (per < 1) per = 1;
-    printf("%s (pairwise complete), %zu numeric columns, %llu rows\n",
+    fprintf(f, "%s (pairwise complete), %zu numeric columns, %llu rows\n",
            r->covariance ? "sample covariance" : "Pearson r", n,
            (unsigned long long)summary_rows(r->s));
     for (size_t from = 0; from < n; from += per) {
         size_t to = from + per < n ? from + per : n;
-        printf("\n%*s", (int)(namew + 4), "");
-        for (size_t b = from; b < to; b++) printf(" %*zu", (int)cellw, b + 1);
-        fputc('\n', stdout);
+        fprintf(f, "\n%*s", (int)(namew + 4), "");
+        for (size_t b = from; b < to; b++) fprintf(f, " %*zu", (int)cellw, b + 1);
+        fputc('\n', f);
         for (size_t a = 0; a < n; a++) {
-            printf("%3zu %-*.*s", a + 1, (int)namew, (int)namew, name(r, a));
+            fprintf(f, "%3zu ", a + 1);
+            const char *nm = name(r, a);
+            table_put_cut(f, nm, namew);
+            for (size_t w = table_text_width(nm); w < namew; w++) fputc(' ', f);
             for (size_t b = from; b < to; b++) {
                 double v = r->v[a * n + b];
-                if (!isfinite(v)) printf(" %*s", (int)cellw, "-");
-                else if (r->covariance) printf(" %*.4g", (int)cellw, v);
-                else printf(" %*.3f", (int)cellw, v);
+                if (!isfinite(v)) fprintf(f, " %*s", (int)cellw, "-");
+                else if (r->covariance) fprintf(f, " %*.4g", (int)cellw, v);
+                else fprintf(f, " %*.3f", (int)cellw, v);
             }
-            fputc('\n', stdout);
+            fputc('\n', f);
         }
     }
 }
 
 int cmd_corr(int argc, char **argv)
 {
+    const char *color = NULL;
     const char *format = "text", *share_s = NULL, *cols_s = NULL, *target = NULL;
     int covariance = 0;
     const cli_option opts[] = {
@@ -114,6 +120,7 @@ int cmd_corr(int argc, char **argv)
         {"covariance", 0, NULL, "print the sample covariance instead of Pearson r", NULL, &covariance},
         {"columns", 0, "A,B,..", "only these columns", &cols_s, NULL},
         CLI_NUMERIC_SHARE_OPTION(share_s),
+        CLI_COLOR_OPTION(color),
         {0},
     };
     const cli_command cmd = {
@@ -126,6 +133,7 @@ int cmd_corr(int argc, char **argv)
     char **pos;
     int rc = cli_parse_single(&cmd, argc, argv, &pos);
     if (rc >= 0) return rc;
+    if (cli_set_color("corr", color) != 0) return EXIT_USAGE;
     rc = EXIT_USAGE;
     double share;
     summary *s = NULL;
@@ -151,7 +159,11 @@ int cmd_corr(int argc, char **argv)
     corr_matrix(s, cols, r.n, covariance ? CORR_COVARIANCE : CORR_PEARSON, v);
     r.v = v;
     if (!strcmp(format, "csv")) print_csv(&r);
-    else if (!strcmp(format, "text")) print_text(&r);
+    else if (!strcmp(format, "text")) {
+        cli_text out;
+        print_text(cli_text_begin(&out), &r);
+        cli_text_end(&out);
+    }
     else if (print_json(&r)) { cli_error("corr", "out of memory"); goto done; }
     rc = EXIT_DONE; /* standard output is checked once, by main (cli_close_stdout) */
 done:

@@ -49,6 +49,7 @@ static void json_column(json_out *j, const column_description *d)
     for (size_t t = 0; t < d->ntop; t++) {
         json_object_begin(j);
         json_key(j, "value"); json_string_n(j, d->top[t].label, d->top[t].label_len);
+        if (d->top[t].cut) { json_key(j, "cut"); json_bool(j, 1); }
         json_key(j, "count"); json_uint(j, d->top[t].count);
         json_object_end(j);
     }
@@ -164,32 +165,35 @@ static int print_json(const summary *s, const held_targets *held, double share, 
     return 0;
 }
 
-static void print_target(const summary *s, double share)
+static void print_target(FILE *f, const summary *s, double share)
 {
     static const char *tasks[] = {"none", "classification", "regression"};
     uint32_t nclasses = summary_class_count(s);
-    printf("target: %s (%s%s)", summary_target_name(s), tasks[summary_task(s, share)],
+    fprintf(f, "target: %s (%s%s)", summary_target_name(s), tasks[summary_task(s, share)],
            summary_declared_task(s) ? ", declared" : "");
     if (summary_classes_dropped(s))
-        printf("; more than %u distinct values, so class statistics were dropped",
+        fprintf(f, "; more than %u distinct values, so class statistics were dropped",
                summary_max_classes(s));
     else if (nclasses) {
         uint64_t total = describe_class_total(s);
-        printf(", %u levels:", nclasses);
+        fprintf(f, ", %u levels:", nclasses);
         for (uint32_t c = 0; c < nclasses && c < 8; c++)
-            printf("%s %s (%.1f%%)", c ? "," : "", summary_class_label(s, c),
+            fprintf(f, "%s %s (%.1f%%)", c ? "," : "", summary_class_label(s, c),
                    total ? 100.0 * summary_class_rows(s, c) / total : 0);
-        if (nclasses > 8) printf(", ...");
+        if (nclasses > 8) fprintf(f, ", ...");
     }
-    printf("\n");
+    fprintf(f, "\n");
 }
 
-static void print_sources(const summary *s, size_t width, int color)
+static void print_sources(FILE *f, const summary *s, size_t width, int color)
 {
     char b[64];
     table *t = table_create(5);
     const char *sh[] = {"source", "format", "size", "rows", "fingerprint"};
     for (int i = 0; i < 5; i++) table_heading(t, (size_t)i, sh[i], i == 2 || i == 3);
+    table_keep_whole(t, 0);
+    table_drop_rank(t, 4, 2); /* fingerprint, then format */
+    table_drop_rank(t, 1, 1);
     for (size_t i = 0; i < summary_source_count(s); i++) {
         const summary_source *src = summary_source_at(s, i);
         table_row(t);
@@ -204,8 +208,8 @@ static void print_sources(const summary *s, size_t width, int color)
         table_cellf(t, 3, "%llu", (unsigned long long)src->rows);
         table_cellf(t, 4, "%016llx", (unsigned long long)src->fingerprint);
     }
-    printf("\n");
-    table_print(t, stdout, width, color);
+    fprintf(f, "\n");
+    table_print(t, f, width, color);
     table_free(t);
 }
 
@@ -237,68 +241,93 @@ static void text_column(table *t, const column_description *d)
     size_t used = 0;
     for (size_t k = 0; k < d->ntop && used < sizeof line - 1; k++) {
         const values_entry *e = &d->top[k];
-        used += (size_t)snprintf(line + used, sizeof line - used, "%s%.*s (%.0f%%)", k ? ", " : "",
-                                 (int)(e->label_len > 24 ? 24 : e->label_len), e->label,
+        /* At most 24 screen columns of a value, cut on a code point and marked. */
+        char label[200];
+        uint32_t n = e->label_len < sizeof label ? e->label_len : (uint32_t)sizeof label - 1;
+        n = values_whole_utf8(e->label, n);
+        memcpy(label, e->label, n);
+        label[n] = '\0';
+        size_t keep = table_text_width(label) > 24 ? table_cut(label, 23) : n;
+        int marked = keep < n || e->cut;
+        used += (size_t)snprintf(line + used, sizeof line - used, "%s%.*s%s (%.0f%%)",
+                                 k ? ", " : "", (int)keep, label, marked ? TABLE_CUT_MARK : "",
                                  d->present ? 100.0 * e->count / d->present : 0);
     }
     table_cell(t, 10, d->ntop ? line : "");
 }
 
-static int print_text(const summary *s, const held_targets *held, const char *path, double share,
+static int print_text(FILE *f, const summary *s, const held_targets *held, const char *path, double share,
                       size_t ntop)
 {
     char a[64];
     size_t nsources = summary_source_count(s);
     human_bytes(a, sizeof a, (double)summary_bytes(s));
-    printf("%s: %llu rows, %zu columns, %s of text from %zu source%s\n", path,
+    fprintf(f, "%s: %llu rows, %zu columns, %s of text from %zu source%s\n", path,
            (unsigned long long)summary_rows(s), summary_columns(s), a, nsources,
            nsources == 1 ? "" : "s");
     uint64_t short_rows = summary_short_rows(s), long_rows = summary_long_rows(s);
     if (short_rows || long_rows) {
         const uint64_t *lines;
         size_t nlines = summary_ragged_lines(s, &lines);
-        printf("ragged rows: %llu short, %llu long (first at line", (unsigned long long)short_rows,
+        fprintf(f, "ragged rows: %llu short, %llu long (first at line", (unsigned long long)short_rows,
                (unsigned long long)long_rows);
         for (size_t i = 0; i < nlines; i++)
-            printf("%s %llu", i ? "," : "", (unsigned long long)lines[i]);
-        printf(")\n");
+            fprintf(f, "%s %llu", i ? "," : "", (unsigned long long)lines[i]);
+        fprintf(f, ")\n");
     }
     if (summary_repeated_headers(s))
-        printf("repeated header lines skipped: %llu (at the start of a gzip member or zstd frame)\n",
+        fprintf(f, "repeated header lines skipped: %llu (at the start of a gzip member or zstd frame)\n",
                (unsigned long long)summary_repeated_headers(s));
     if (held->n > 1) {
-        printf("targets:");
-        for (size_t i = 0; i < held->n; i++) printf("%s %s", i ? "," : "", held->names[i]);
-        printf(" (%zu; shown: %s; choose another with --target)\n", held->n, summary_target_name(s));
+        fprintf(f, "targets:");
+        for (size_t i = 0; i < held->n; i++) fprintf(f, "%s %s", i ? "," : "", held->names[i]);
+        fprintf(f, " (%zu; shown: %s; choose another with --target)\n", held->n, summary_target_name(s));
     }
-    if (summary_target_column(s) >= 0) print_target(s, share);
+    if (summary_target_column(s) >= 0) print_target(f, s, share);
     size_t width = table_terminal_width();
     int color = table_use_color(stdout);
-    print_sources(s, width, color);
+    print_sources(f, s, width, color);
 
     const char *ch[] = {"column", "kind", "n", "missing", "mean", "sd", "min", "median", "max",
                         "distinct", "top values"};
     size_t nc = sizeof ch / sizeof *ch;
     table *t = table_create(nc);
     for (size_t i = 0; i < nc; i++) table_heading(t, i, ch[i], i >= 2 && i <= 9);
+    table_keep_whole(t, 0);
+    table_keep_whole(t, 1);
+    /* At a narrow width, in this order: median, sd, min, max, top values,
+     * distinct, missing; the name, kind, n and mean stay. */
+    const int rank[] = {0, 0, 0, 1, 0, 6, 5, 7, 4, 2, 3};
+    for (size_t i = 0; i < nc; i++) table_drop_rank(t, i, rank[i]);
     for (size_t i = 0; i < summary_columns(s); i++) {
         column_description d;
         if (describe_column(s, i, share, ntop, &d) != 0) { table_free(t); return -1; }
         text_column(t, &d);
         describe_column_free(&d);
     }
-    printf("\n");
-    table_print(t, stdout, width, color);
+    fprintf(f, "\n");
+    table_print(t, f, width, color);
     table_free(t);
-    printf("\nmedians interpolate between the middle values (numpy's 'linear'); exact where the "
+    fprintf(f, "\nmedians interpolate between the middle values (numpy's 'linear'); exact where the "
            "value table holds every number, else bucket estimates (relative error at most "
            "%.2g%%) marked '~'.\n",
            100 * summary_quantile_error_floor());
     return 0;
 }
 
+/* The text form, through cli_text (lines wider than the terminal wrap). */
+static int text_of(const summary *s, const held_targets *held, const char *path, double share,
+                   size_t ntop)
+{
+    cli_text out;
+    int rc = print_text(cli_text_begin(&out), s, held, path, share, ntop);
+    cli_text_end(&out);
+    return rc;
+}
+
 int cmd_info(int argc, char **argv)
 {
+    const char *color = NULL;
     int as_json = 0;
     const char *share_s = NULL, *top_s = NULL, *target = NULL;
     const cli_option opts[] = {
@@ -306,6 +335,7 @@ int cmd_info(int argc, char **argv)
         CLI_TARGET_OPTION(target),
         CLI_NUMERIC_SHARE_OPTION(share_s),
         {"top", 0, "N", "most frequent values shown per column (default 3)", &top_s, NULL},
+        CLI_COLOR_OPTION(color),
         {0},
     };
     const cli_command cmd = {"info", "FILE.sheaf [--json]",
@@ -320,6 +350,7 @@ int cmd_info(int argc, char **argv)
     char **pos;
     int rc = cli_parse_single(&cmd, argc, argv, &pos);
     if (rc >= 0) return rc;
+    if (cli_set_color("info", color) != 0) return EXIT_USAGE;
     rc = EXIT_USAGE;
     double share;
     long long ntop = 3;
@@ -344,7 +375,7 @@ int cmd_info(int argc, char **argv)
     held.names = names;
     if ((rc = cli_choose_target("info", pos[0], set, target, 0, &s)) != EXIT_DONE) goto done;
     if ((as_json ? print_json(s, &held, share, (size_t)ntop)
-                 : print_text(s, &held, cli_path_name(pos[0]), share, (size_t)ntop))) {
+                 : text_of(s, &held, cli_path_name(pos[0]), share, (size_t)ntop))) {
         cli_error("info", "out of memory");
         rc = EXIT_RESOURCE;
         goto done;

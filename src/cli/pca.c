@@ -91,25 +91,25 @@ static int print_json(const summary *s, const pca_result *r, size_t k, const cha
     return 0;
 }
 
-static void print_text(const summary *s, const pca_result *r, size_t k, const char *rule,
+static void print_text(FILE *f, const summary *s, const pca_result *r, size_t k, const char *rule,
                        size_t nleading)
 {
     size_t p = r->p, width = table_terminal_width();
     int color = table_use_color(stdout);
-    printf("principal components of the %s matrix (pairwise complete)\n",
+    fprintf(f, "principal components of the %s matrix (pairwise complete)\n",
            r->basis == PCA_BASIS_CORRELATION ? "correlation" : "sample covariance");
-    printf("%zu columns, %llu rows; total variance %.6g\n", p, (unsigned long long)summary_rows(s),
+    fprintf(f, "%zu columns, %llu rows; total variance %.6g\n", p, (unsigned long long)summary_rows(s),
            r->total);
     if (r->nleft) {
-        printf("left out (%zu):", r->nleft);
+        fprintf(f, "left out (%zu):", r->nleft);
         size_t shown = r->nleft < 40 ? r->nleft : 40;
         for (size_t i = 0; i < shown; i++)
-            printf("%s %s (%s)", i ? "," : "", summary_name(s, r->left[i].column),
+            fprintf(f, "%s %s (%s)", i ? "," : "", summary_name(s, r->left[i].column),
                    pca_reason_name(r->left[i].reason));
-        if (shown < r->nleft) printf(", ... %zu more (--format json lists all)", r->nleft - shown);
-        fputc('\n', stdout);
+        if (shown < r->nleft) fprintf(f, ", ... %zu more (--format json lists all)", r->nleft - shown);
+        fputc('\n', f);
     }
-    printf("kept %zu component%s (%s); guides: Kaiser rule %zu, broken-stick rule %zu\n\n", k,
+    fprintf(f, "kept %zu component%s (%s); guides: Kaiser rule %zu, broken-stick rule %zu\n\n", k,
            k == 1 ? "" : "s", rule, r->kaiser_k, r->broken_stick_k);
 
     size_t rows = k;
@@ -126,6 +126,10 @@ static void print_text(const summary *s, const pca_result *r, size_t k, const ch
     table_heading(t, 4, "stick", 1);
     table_heading(t, 5, "kept", 0);
     table_heading(t, 6, "guides", 0);
+    /* At a narrow width, in this order: stick, guides, kept, cumulative, share. */
+    const int rank[] = {0, 0, 1, 2, 5, 3, 4};
+    for (size_t c = 0; c < 7; c++) table_drop_rank(t, c, rank[c]);
+    table_keep_whole(t, 0);
     for (size_t c = 0; c < rows; c++) {
         table_row(t);
         table_cellf(t, 0, "PC%zu", c + 1);
@@ -140,27 +144,27 @@ static void print_text(const summary *s, const pca_result *r, size_t k, const ch
                                                                  : "";
         table_cell(t, 6, g);
     }
-    table_print(t, stdout, width, color);
+    table_print(t, f, width, color);
     table_free(t);
-    if (rows < p) printf("... %zu more components (--format json lists all)\n", p - rows);
-    printf("(stick: the share the broken-stick rule expects; a guide keeps a component "
+    if (rows < p) fprintf(f, "... %zu more components (--format json lists all)\n", p - rows);
+    fprintf(f, "(stick: the share the broken-stick rule expects; a guide keeps a component "
            "while it holds)\n");
 
     size_t *idx = malloc((nleading ? nleading : 1) * sizeof *idx);
     if (idx && nleading) {
-        printf("\nlargest loadings of the kept components:\n");
+        fprintf(f, "\nlargest loadings of the kept components:\n");
         for (size_t c = 0; c < k; c++) {
             size_t n = pca_leading(r, c, nleading, idx);
-            printf("  PC%-3zu", c + 1);
+            fprintf(f, "  PC%-3zu", c + 1);
             for (size_t i = 0; i < n; i++)
-                printf(" %+.3f %s%s", r->loadings[c * p + idx[i]], col_name(s, r, idx[i]),
+                fprintf(f, " %+.3f %s%s", r->loadings[c * p + idx[i]], col_name(s, r, idx[i]),
                        i + 1 < n ? "," : "");
-            fputc('\n', stdout);
+            fputc('\n', f);
         }
     }
     free(idx);
 
-    printf("\nloadings:\n");
+    fprintf(f, "\nloadings:\n");
     t = table_create(k + 1);
     if (!t) return;
     table_heading(t, 0, "column", 0);
@@ -168,18 +172,21 @@ static void print_text(const summary *s, const pca_result *r, size_t k, const ch
         char h[32];
         snprintf(h, sizeof h, "PC%zu", c + 1);
         table_heading(t, c + 1, h, 1);
+        table_drop_rank(t, c + 1, (int)c + 1); /* the last components go first */
     }
+    table_keep_whole(t, 0);
     for (size_t j = 0; j < p; j++) {
         table_row(t);
         table_cell(t, 0, col_name(s, r, j));
         for (size_t c = 0; c < k; c++) table_cellf(t, c + 1, "%.4f", r->loadings[c * p + j]);
     }
-    table_print(t, stdout, width, color);
+    table_print(t, f, width, color);
     table_free(t);
 }
 
 int cmd_pca(int argc, char **argv)
 {
+    const char *color = NULL;
     const char *format = "text", *basis = NULL, *cols = NULL, *exclude = NULL, *keep = NULL;
     const char *k_s = NULL, *share_s = NULL, *numshare_s = NULL, *leading_s = NULL;
     int with_target = 0;
@@ -198,6 +205,7 @@ int cmd_pca(int argc, char **argv)
          NULL, &with_target},
         {"leading", 0, "N", "largest loadings listed per component (default 5)", &leading_s, NULL},
         CLI_NUMERIC_SHARE_OPTION(numshare_s),
+        CLI_COLOR_OPTION(color),
         {0},
     };
     const cli_command cmd = {
@@ -214,6 +222,7 @@ int cmd_pca(int argc, char **argv)
     char **pos;
     int rc = cli_parse_single(&cmd, argc, argv, &pos);
     if (rc >= 0) return rc;
+    if (cli_set_color("pca", color) != 0) return EXIT_USAGE;
     rc = EXIT_USAGE;
     summary *s = NULL;
     pca_result *r = NULL;
@@ -235,7 +244,9 @@ int cmd_pca(int argc, char **argv)
     if (!strcmp(format, "csv")) {
         print_csv(s, r, k);
     } else if (!strcmp(format, "text")) {
-        print_text(s, r, k, rule, (size_t)nleading);
+        cli_text out;
+        print_text(cli_text_begin(&out), s, r, k, rule, (size_t)nleading);
+        cli_text_end(&out);
     } else if (print_json(s, r, k, k_s ? "k" : share_s ? "share" : "kaiser", (size_t)nleading)) {
         cli_error("pca", "out of memory");
         rc = EXIT_RESOURCE;

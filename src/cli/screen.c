@@ -242,21 +242,22 @@ static void print_csv(const summary *s, const screen_result *r)
     }
 }
 
-static void print_text(const summary *s, const screen_result *r, const char *path)
+static void print_text(FILE *out, const summary *s, const screen_result *r, const char *path)
 {
+    const char *named = cli_path_name(path); /* "standard input" for "-" */
     int color = table_use_color(stdout);
     unsigned long long rows = summary_rows(s);
     if (r->from_comoments)
-        printf("%s: %llu rows; target %s (regression from the co-moments: F test of r only); kept "
-               "%zu of %zu columns\n", path, rows, summary_name(s, (size_t)r->target), r->kept,
+        fprintf(out, "%s: %llu rows; target %s (regression from the co-moments: F test of r only); kept "
+               "%zu of %zu columns\n", named, rows, summary_name(s, (size_t)r->target), r->kept,
                r->nfeatures);
     else if (r->target >= 0)
-        printf("%s: %llu rows; target %s (%s); kept %zu of %zu columns\n", path, rows,
+        fprintf(out, "%s: %llu rows; target %s (%s); kept %zu of %zu columns\n", named, rows,
                summary_target_name(s), r->task == TASK_CLASSIFY ? "classification" : "regression",
                r->kept, r->nfeatures);
     else
-        printf("%s: %llu rows; no target (only flags and redundancy); kept %zu of %zu columns\n",
-               path, rows, r->kept, r->nfeatures);
+        fprintf(out, "%s: %llu rows; no target (only flags and redundancy); kept %zu of %zu columns\n",
+               named, rows, r->kept, r->nfeatures);
     /* r (signed) only for a numeric target; adj. MI is AMI (validity.h). */
     int with_r = r->task == TASK_REGRESS;
     const char *head[] = {"rank", "column", "kind", "decision", "test", "stat", "p", "q", "r", "adj. MI", "reasons"};
@@ -265,6 +266,11 @@ static void print_text(const summary *s, const screen_result *r, const char *pat
     for (size_t i = 0, c = 0; i < nh; i++) {
         if (i == 8 && !with_r) continue;
         table_heading(t, c, head[i], i == 0 || (i >= 5 && i <= 9));
+        /* At a narrow width, in this order: stat, test, kind, r, adj. MI,
+         * q; rank, column, decision, p and the reasons (cut) stay. */
+        const int rank[] = {0, 0, 4, 0, 5, 6, 0, 1, 2, 3, 0};
+        table_drop_rank(t, c, rank[i]);
+        if (i == 1 || i == 2) table_keep_whole(t, c);
         c++;
     }
     /* Kept by rank first, then dropped in column order. */
@@ -302,19 +308,24 @@ static void print_text(const summary *s, const screen_result *r, const char *pat
                 table_cellf(t, col_mi, "%.3f", fabs(f->mi.adjusted) < 5e-4 ? 0.0 : f->mi.adjusted);
             table_cell(t, col_why, f->reasons);
         }
-    table_print(t, stdout, table_terminal_width(), color);
+    table_print(t, out, table_terminal_width(), color);
     table_free(t);
     if (r->npairs) {
-        printf("\nredundant pairs (|r| at or above the threshold):\n");
+        fprintf(out, "\nredundant pairs (|r| at or above the threshold):\n");
         for (size_t i = 0; i < r->npairs; i++)
-            printf("  %s ~ %s  r = %.4f\n", pair_name(s, r, i, 0), pair_name(s, r, i, 1),
+            fprintf(out, "  %s ~ %s  r = %.4f\n", pair_name(s, r, i, 0), pair_name(s, r, i, 1),
                    r->pairs[i].r);
     }
+    fprintf(out, "\nnext: write the kept names with --keep-list FILE, then keep only those "
+                 "columns with `sheaf trim DATA --keep-list FILE -o OUT` (or `sheaf trim DATA "
+                 "--from %s -o OUT`, which screens again with the same options)\n",
+            strcmp(path, "-") ? path : "SUMMARY.sheaf");
 }
 
 
 int cmd_screen(int argc, char **argv)
 {
+    const char *color = NULL;
     const char *format = "text", *q = NULL, *top = NULL, *bins = NULL, *rank_by = NULL;
     const char *keep_list = NULL, *missing = NULL, *minvar = NULL, *redund = NULL, *share = NULL;
     int keep_mirrors = 0;
@@ -334,6 +345,7 @@ int cmd_screen(int argc, char **argv)
         {"keep-list", 0, "FILE", "also write the kept column names, one per line", &keep_list, NULL},
         {"keep-mirrors", 0, NULL, "keep columns flagged mirrors_target (possible leaks) if relevant", NULL,
          &keep_mirrors},
+        CLI_COLOR_OPTION(color),
         {0},
     };
     const cli_command cmd = {
@@ -353,6 +365,7 @@ int cmd_screen(int argc, char **argv)
     char **pos;
     int rc = cli_parse_single(&cmd, argc, argv, &pos);
     if (rc >= 0) return rc;
+    if (cli_set_color("screen", color) != 0) return EXIT_USAGE;
     screen_options o;
     screen_options_defaults(&o);
     summary *s = NULL;
@@ -440,7 +453,11 @@ int cmd_screen(int argc, char **argv)
     }
     if (!strcmp(format, "json")) print_json(s, r);
     else if (!strcmp(format, "csv")) print_csv(s, r);
-    else print_text(s, r, cli_path_name(pos[0]));
+    else {
+        cli_text out;
+        print_text(cli_text_begin(&out), s, r, pos[0]);
+        cli_text_end(&out);
+    }
     if (keep_list) {
         char err[PATH_MAX + 128];
         kept_open = 0;

@@ -27,6 +27,7 @@
 #include <zstd.h>
 
 #define RAW_BYTES (1u << 20)
+#define DIRECT_BYTES (64u << 10) /* read() straight into a caller's room this large */
 
 struct source {
     int fd;                   /* input descriptor */
@@ -278,8 +279,10 @@ void source_close(source *s)
 static ssize_t read_plain(source *s, uint8_t *buf, size_t cap)
 {
     /* Nothing buffered (after the format probe): read straight into the
-     * caller's buffer, sparing a copy of every byte. */
-    if (s->raw_pos == s->raw_len && !s->raw_eof && cap >= RAW_BYTES) return read_raw(s, buf, cap);
+     * caller's buffer, sparing a copy of every byte.  A chunker's room is
+     * often under RAW_BYTES (its buffer is two chunks), so any room of
+     * DIRECT_BYTES or more is read into directly. */
+    if (s->raw_pos == s->raw_len && !s->raw_eof && cap >= DIRECT_BYTES) return read_raw(s, buf, cap);
     ssize_t avail = raw_fill(s);
     if (avail <= 0) return avail;
     size_t n = (size_t)avail < cap ? (size_t)avail : cap;

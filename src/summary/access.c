@@ -232,7 +232,14 @@ int summary_high_cardinality(const summary *s, size_t col)
 
 size_t summary_top(const summary *s, size_t col, size_t k, values_entry *out)
 {
-    return values_top(column(s, col)->vals, k, out);
+    const values *v = column(s, col)->vals;
+    size_t n = values_top(v, k, out);
+    for (size_t i = 0; i < n; i++) {
+        values_entry *e = &out[i];
+        e->cut = e->label_len >= values_label_bytes(v) && XXH3_64bits(e->label, e->label_len) != e->hash;
+        if (e->cut) e->label_len = values_whole_utf8(e->label, e->label_len);
+    }
+    return n;
 }
 
 uint32_t summary_example_count(const summary *s, size_t col) { return column(s, col)->n_examples; }

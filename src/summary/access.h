@@ -108,7 +108,9 @@ double summary_distinct(const summary *s, size_t col, int *exact);
  * the top values are then lower bounds. */
 int summary_high_cardinality(const summary *s, size_t col);
 /* The k most frequent values, count descending then hash ascending, into
- * out (k entries; labels point into the summary); returns how many. */
+ * out (k entries; labels point into the summary); returns how many.  A
+ * label cut at the label length is marked cut and ends on a whole UTF-8
+ * sequence. */
 size_t summary_top(const summary *s, size_t col, size_t k, values_entry *out);
 /* Non-numeric examples kept (at most SUMMARY_EXAMPLES), and example i. */
 uint32_t summary_example_count(const summary *s, size_t col);

@@ -379,7 +379,7 @@ int block_comoments_add(summary *run, block_como *bc, const double *const *dev,
 static void keep_example(summary_column *c, const char *p, uint32_t len)
 {
     if (c->n_examples >= SUMMARY_EXAMPLES) return;
-    uint32_t n = len > SUMMARY_EXAMPLE_BYTES ? SUMMARY_EXAMPLE_BYTES : len;
+    uint32_t n = len > SUMMARY_EXAMPLE_BYTES ? values_whole_utf8(p, SUMMARY_EXAMPLE_BYTES) : len;
     for (uint32_t k = 0; k < c->n_examples; k++)
         if (strlen(c->examples[k]) == n && memcmp(c->examples[k], p, n) == 0) return;
     memcpy(c->examples[c->n_examples], p, n);

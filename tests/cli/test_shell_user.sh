@@ -69,7 +69,7 @@ fi
 # Summaries from standard input: the same output as from the file.
 for c in "info" "info --json" "corr" "screen" "screen -f json" "pca -f csv"; do
     "$S" $c "$T/fly.sheaf" 2>&1 | sed "s|$T/fly.sheaf|X|" >"$T/a"
-    "$S" $c - <"$T/fly.sheaf" 2>&1 | sed 's|standard input|X|' >"$T/b"
+    "$S" $c - <"$T/fly.sheaf" 2>&1 | sed 's|standard input|X|; s|--from SUMMARY.sheaf|--from X|' >"$T/b"
     check "stdin.${c// /_}" "$(first_diff "$T/a" "$T/b")" cmp -s "$T/a" "$T/b"
 done
 "$S" merge "$T/fly.sheaf" - --allow-duplicates -o "$T/m2.sheaf" <"$T/fly.sheaf" 2>"$T/err"

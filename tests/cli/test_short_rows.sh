@@ -110,3 +110,37 @@ print("; ".join(bad[:4])[:300])
 EOF
     ) && [ -z "$out" ]; then pass "${s}_against_csv_module"; else fail "${s}_against_csv_module" "$out"; fi
 done
+
+# Pieces meet the other chunk rules: two gzip members whose second repeats
+# the header (skipped once, in whichever piece it falls), and byte-range
+# shards of a short-row file with quoted newlines (each row counted once).
+"$PY" - "$T" <<'EOF2'
+import sys
+t = sys.argv[1]
+h = ",".join(f"c{i}" for i in range(500)) + "\n"
+open(f"{t}/m1.csv", "w").write(h + "".join(f"{i % 7}\n" for i in range(3000)))
+open(f"{t}/m2.csv", "w").write(h + "".join(f"{i % 5},{i}\n" for i in range(3000)))
+open(f"{t}/sh.csv", "w").write(h + "".join(f"{i % 7},\"q\n{i}\"\n" if i % 11 == 0 else f"{i % 7}\n"
+                                          for i in range(50000)))
+EOF2
+{ gzip -c "$T/m1.csv"; gzip -c "$T/m2.csv"; } >"$T/mm.csv.gz"
+for j in 1 2; do $SHEAF scan -q -j$j "$T/mm.csv.gz" -o "$T/mm$j.sheaf" || fail "members_scan_j$j" "exit $?"; done
+check members_same_j1_j2 "summaries differ" cmp -s "$T/mm1.sheaf" "$T/mm2.sheaf"
+got=$($SHEAF info --json "$T/mm1.sheaf" | "$PY" -c 'import json, sys
+d = json.load(sys.stdin)
+print(d["rows"], d["repeated_headers"], d["columns"][0]["n"], d["columns"][1]["n"])')
+check members_counts "rows, repeated headers, cells: $got (want 6000 1 6000 3000)" [ "$got" = "6000 1 6000 3000" ]
+$SHEAF scan -q "$T/sh.csv" -o "$T/sh_all.sheaf"
+want=$($SHEAF info --json "$T/sh_all.sheaf" | "$PY" -c 'import json, sys
+d = json.load(sys.stdin)
+print(d["rows"], d["columns"][0]["n"], d["columns"][1]["non_numeric"])')
+check shards_whole_counts "whole file: $want (want 50000 50000 4546)" [ "$want" = "50000 50000 4546" ]
+for n in 3 7; do
+    rm -f "$T"/shp*.sheaf
+    for i in $(seq 1 $n); do $SHEAF scan -q "$T/sh.csv" --shard $i/$n -o "$T/shp$i.sheaf" || fail "shard_${i}_of_$n" "exit $?"; done
+    $SHEAF merge "$T"/shp*.sheaf -o "$T/shm.sheaf" || fail "shards_merge_$n" "exit $?"
+    got=$($SHEAF info --json "$T/shm.sheaf" | "$PY" -c 'import json, sys
+d = json.load(sys.stdin)
+print(d["rows"], d["columns"][0]["n"], d["columns"][1]["non_numeric"])')
+    check "shards_${n}_counts" "merged $n shards: $got, whole file: $want" [ "$got" = "$want" ]
+done
