@@ -53,7 +53,7 @@ int cmd_scan(int argc, char **argv)
     scan_options_defaults(&o);
     const cli_option opts[] = {
         {"output", 'o', "OUT.sheaf", "summary file to write (required)", &out, NULL},
-        {"delim", 'd', "CHAR", "field delimiter: , ; | or tab (default: detected)", &delim, NULL},
+        {"delim", 'd', "CHAR", "field delimiter: , ; | tab or space (default: detected)", &delim, NULL},
         {"no-header", 0, NULL, "first row is data; columns are named col1..colN", NULL, &no_header},
         {"strict", 0, NULL, "rows with too few or too many fields are errors", NULL, &strict},
         {"force", 0, NULL, "read a file that does not look like text (NUL or control bytes)",
@@ -102,7 +102,7 @@ int cmd_scan(int argc, char **argv)
     if (!out) { cli_error("scan", "-o OUT.sheaf is required"); goto done; }
     if (cli_check_output("scan", out, (const char *const *)pos, npos)) goto done;
     if (delim && cli_parse_delim(delim, &o.delim) != 0) {
-        cli_error("scan", "--delim must be one character or 'tab', got '%s'", delim);
+        cli_error("scan", "--delim must be one character, 'tab' or 'space', got '%s'", delim);
         goto done;
     }
     if (cli_parse_reading("scan", chunk, maxrec, &o.chunk_bytes, &o.max_record_bytes)) goto done;
