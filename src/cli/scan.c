@@ -5,6 +5,7 @@
 #include <unistd.h>
 
 #include "cli/cli.h"
+#include "cli/scan_notes.h"
 #include "stats/screen.h"
 #include "stats/validity.h"
 #include "summary/scan.h"
@@ -81,7 +82,8 @@ int cmd_scan(int argc, char **argv)
         {"shard", 0, "I/N", "read only the records that start in the I-th of N byte ranges "
          "(one plain file)", &shard, NULL},
         {"threads", 'j', "N", CLI_THREADS_HELP, &threads, NULL},
-        {"quiet", 'q', NULL, "no progress line", NULL, &quiet},
+        {"quiet", 'q', NULL, "no progress line, closing line or notes on ragged or mixed input",
+         NULL, &quiet},
         {0},
     };
     const cli_command cmd = {
@@ -205,13 +207,16 @@ int cmd_scan(int argc, char **argv)
             goto done;
         }
     summary_status ws = summary_set_write(set, out, err, sizeof err);
-    summary_set_free(set);
     if (ws != SUMMARY_OK) {
+        summary_set_free(set);
         cli_error("scan", "%s", err);
         rc = ws == SUMMARY_ERR_MEMORY ? EXIT_RESOURCE : EXIT_FAILED;
         goto done;
     }
     print_warnings(&held);
+    scan_notes_print(stderr, set->parts[0], judged.numeric_share, quiet);
+    scan_notes_closing(&ps, set->parts[0]);
+    summary_set_free(set);
     rc = EXIT_DONE;
 done:
     free(held.text);
