@@ -39,8 +39,23 @@ SHEAF = os.environ.get("SHEAF_BIN", "./sheaf")  # relative to ROOT
 DATA = os.environ.get("SHEAF_DATA") or os.path.join("..", "shared", "data")
 SM = "/usr/lib/python3/dist-packages/statsmodels/datasets"
 
-# sheaf's default missing spellings; the empty cell is always missing.
-MISSING = {"", "NA", "N/A", "null", "NULL", "None", "-", "?"}
+# sheaf's default missing spellings; the empty cell is always missing.  A
+# spelling matches in any ASCII letter case, so every casing is listed (a
+# set works with `in` and with pandas' isin).
+
+
+def casings(spellings):
+    out = set()
+    for s in spellings:
+        forms = [""]
+        for ch in s:
+            options = {ch.lower(), ch.upper()} if ch.isascii() and ch.isalpha() else {ch}
+            forms = [f + c for f in forms for c in options]
+        out.update(forms)
+    return out
+
+
+MISSING = casings(["", "NA", "N/A", "null", "NULL", "None", "-", "?"])
 # What sheaf's decimal parser accepts (sign, digits, '.', exponent), with
 # surrounding ASCII spaces ignored by the callers.
 NUMBER = re.compile(r"^[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?$")

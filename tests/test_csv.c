@@ -651,6 +651,24 @@ Test(csv, detects_comma_tab_semicolon_and_pipe)
     cr_assert_eq(detect("id|name|score\n1|ann|3.5\n2|bo|4\n"), '|');
 }
 
+Test(csv, detects_space_when_it_is_the_only_consistent_delimiter)
+{
+    /* The layout of statsmodels' spector.csv (Debian python3-statsmodels). */
+    cr_assert_eq(detect("'OBS' 'GPA' 'TUCE'\n1 2.66 20\n2 2.89 22\n"), ' ');
+    cr_assert_eq(detect("a b\r\n1 2\r\n"), ' ');
+    cr_assert_eq(detect("\"a b\" c\n1 2\n"), ' ', "a quoted space is not a delimiter");
+    /* a comma (or tab, ';', '|') splitting the first line wins over spaces */
+    cr_assert_eq(detect("fan rpm,temp c\n1,2\n"), ',');
+    cr_assert_eq(detect("fan rpm\ttemp c\n1\t2\n"), '\t');
+}
+
+Test(csv, uneven_spaces_are_not_a_delimiter)
+{
+    cr_assert_eq(detect("note\nthe fan stopped\nok\n"), ',', "prose in one column");
+    cr_assert_eq(detect("a  b\n1 2\n"), ',', "aligned with a run of spaces: uneven counts");
+    cr_assert_eq(detect("one\ntwo\n"), ',');
+}
+
 Test(csv, detects_tab_when_commas_appear_only_inside_quotes)
 {
     const char *s = "site\tnote\tcount\n"

@@ -178,6 +178,25 @@ Test(reader, missing_test_knows_the_empty_cell_and_every_spelling)
     cr_assert(!reader_is_missing(&m, "-1", 2));
 }
 
+Test(reader, missing_spellings_match_in_any_ascii_letter_case)
+{
+    const char *sp[] = {"NA", "n/a", "Null", "N\xc3\x89" "ANT", "?"};
+    reader_missing m;
+    reader_missing_init(&m, sp, 5);
+    const char *yes[] = {"na", "Na", "nA", "N/A", "n/A", "NULL", "null", "nUlL", "n\xc3\x89" "ant", "?"};
+    for (size_t i = 0; i < sizeof yes / sizeof *yes; i++)
+        cr_assert(reader_is_missing(&m, yes[i], (uint32_t)strlen(yes[i])), "'%s'", yes[i]);
+    /* Only ASCII letters fold: the UTF-8 bytes of 'é' (c3 a9) are not 'É' (c3 89). */
+    const char *no[] = {"nan", "NA ", " na", "nul", "nulls", "n\xc3\xa9" "ant", "\xce\x9d" "A", "?a"};
+    for (size_t i = 0; i < sizeof no / sizeof *no; i++)
+        cr_assert(!reader_is_missing(&m, no[i], (uint32_t)strlen(no[i])), "'%s'", no[i]);
+    /* ASCII folding is | 0x20 on letters only: '@' (0x40) is not '`' (0x60). */
+    const char *at[] = {"@x"};
+    reader_missing_init(&m, at, 1);
+    cr_assert(reader_is_missing(&m, "@X", 2));
+    cr_assert(!reader_is_missing(&m, "`x", 2));
+}
+
 Test(reader, record_over_the_limit_inside_one_chunk_is_an_error_too)
 {
     /* 5,000 bytes in a 64 KiB chunk: the limit holds wherever chunks end. */

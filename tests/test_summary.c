@@ -432,7 +432,8 @@ Test(summary_merge, incompatible_options_are_refused_and_leave_into_unchanged)
 {
     static const char *const named[DIFF_COUNT] = {
         "max levels", "label bytes", "bucket budget", "missing", "target", "target", "task",
-        "max classes", "column 3", "columns", "declared"};
+        "max classes", "column 'z' is missing from the second; column 'w' is missing from the first",
+        "columns", "declared"};
     for (int d = 0; d < DIFF_COUNT; d++) {
         summary *base = variant(-1);
         summary *other = variant(d);
@@ -448,6 +449,62 @@ Test(summary_merge, incompatible_options_are_refused_and_leave_into_unchanged)
         summary_free(base);
         summary_free(other);
     }
+}
+
+/* An empty summary of the named columns, no target. */
+static summary *columns_named(char **names, size_t n)
+{
+    summary_options o;
+    summary_options_defaults(&o);
+    column_mode modes[16] = {0};
+    summary *s = summary_create(&o, n, names, modes, 0);
+    summary_options_free(&o);
+    cr_assert_not_null(s);
+    return s;
+}
+
+Test(summary_merge, schema_differences_are_named_by_column)
+{
+    char *a[] = {"id", "fan_rpm", "temp", "rssi_dbm"}, *b[] = {"id", "temp", "rssi_dbm"};
+    char *c[] = {"id", "rssi_dbm", "temp", "fan_rpm"};
+    summary *sa = columns_named(a, 4), *sb = columns_named(b, 3), *sc = columns_named(c, 4);
+    char err[512];
+    /* A missing column shifts the later ones: that is not listed as a move. */
+    cr_expect_eq(summary_compatible_named(sa, sb, "A", "B", err, sizeof err), 0);
+    cr_expect_str_eq(err, "4 columns vs 3; column 'fan_rpm' is missing from B");
+    cr_expect_eq(summary_compatible_named(sb, sa, "B", "A", err, sizeof err), 0);
+    cr_expect_str_eq(err, "3 columns vs 4; column 'fan_rpm' is missing from B");
+    /* The same columns in another order: the moves, 1-based. */
+    cr_expect_eq(summary_compatible_named(sa, sc, "A", "C", err, sizeof err), 0);
+    cr_expect_str_eq(err, "column 'fan_rpm' moved from 2 to 4; column 'rssi_dbm' moved from 4 to 2");
+    cr_expect_eq(summary_compatible(sa, sb, err, sizeof err), 0);
+    cr_expect_str_eq(err, "4 columns vs 3; column 'fan_rpm' is missing from the second");
+    summary_free(sa);
+    summary_free(sb);
+    summary_free(sc);
+}
+
+Test(summary_merge, many_schema_differences_end_with_how_many_more)
+{
+    char *a[] = {"a1", "a2", "a3", "a4", "a5", "a6", "a7", "a8"}, *b[] = {"b1"};
+    summary *sa = columns_named(a, 8), *sb = columns_named(b, 1);
+    char err[1024];
+    cr_expect_eq(summary_compatible_named(sa, sb, "A", "B", err, sizeof err), 0);
+    cr_expect_str_eq(err, "8 columns vs 1; columns 'a1', 'a2', 'a3', 'a4', 'a5', 'a6' and 2 more are "
+                          "missing from B; column 'b1' is missing from A");
+    summary_free(sa);
+    summary_free(sb);
+}
+
+Test(summary_merge, repeated_names_fall_back_to_positions)
+{
+    char *a[] = {"x", "x", "y"}, *b[] = {"x", "y", "x"};
+    summary *sa = columns_named(a, 3), *sb = columns_named(b, 3);
+    char err[512];
+    cr_expect_eq(summary_compatible_named(sa, sb, "A", "B", err, sizeof err), 0);
+    cr_expect_str_eq(err, "column 2 is 'x' vs 'y'; column 3 is 'y' vs 'x'");
+    summary_free(sa);
+    summary_free(sb);
 }
 
 Test(summary_merge, equal_options_are_compatible)

@@ -280,6 +280,7 @@ int cli_parse_unit(const char *cmd, const char *opt, const char *s, double *out)
 int cli_parse_delim(const char *s, char *out)
 {
     if (!strcmp(s, "tab") || !strcmp(s, "\\t") || !strcmp(s, "\t")) { *out = '\t'; return 0; }
+    if (!strcmp(s, "space")) { *out = ' '; return 0; }
     if (strlen(s) == 1 && s[0] != '"' && s[0] != '\n' && s[0] != '\r') { *out = s[0]; return 0; }
     return -1;
 }

@@ -80,7 +80,7 @@ int cli_close_stdout(void);
  * message naming the file when it cannot be read or passes 64 MiB. */
 char *cli_read_text(const char *path, char *err, size_t errlen);
 
-/* Parses a delimiter option: one character, or "tab"; -1 if bad. */
+/* Parses a delimiter option: one character, "tab" or "space"; -1 if bad. */
 int cli_parse_delim(const char *s, char *out);
 
 /* Options that choose principal components (pca, project). */

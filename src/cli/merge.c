@@ -78,6 +78,13 @@ int cmd_merge(int argc, char **argv)
         }
         char why[1536];
         st = summary_set_merge(acc, s, why, sizeof why);
+        /* One target each: name the files in a schema difference (every
+         * summary merged so far has the first one's schema). */
+        char named[sizeof why];
+        if (st == SUMMARY_ERR_INCOMPATIBLE && acc->n == 1 && s->n == 1 &&
+            !summary_compatible_named(acc->parts[0], s->parts[0], pos[0], pos[i], named,
+                                      sizeof named))
+            memcpy(why, named, sizeof why);
         summary_set_free(s);
         if (st != SUMMARY_OK) {
             cli_error("merge", "%s and %s cannot be merged: %s", cli_path_name(pos[0]),

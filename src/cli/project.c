@@ -47,7 +47,7 @@ int cmd_project(int argc, char **argv)
          NULL, &with_target},
         {"numeric-share", 0, "P", "share of parsing cells that makes a column numeric (default 0.99)",
          &numshare_s, NULL},
-        {"delim", 'd', "CHAR", "field delimiter: , ; | or tab (default: detected per file)",
+        {"delim", 'd', "CHAR", "field delimiter: , ; | tab or space (default: detected per file)",
          &delim_s, NULL},
         {"no-header", 0, NULL, "first row is data; columns are named col1..colN", NULL, &no_header},
         {"chunk-size", 0, "SIZE", "bytes per chunk, e.g. 1M (default 256 KiB)", &chunk, NULL},
@@ -95,7 +95,7 @@ int cmd_project(int argc, char **argv)
         if (cli_check_stdin("project", all, npos + 2)) goto done;
     }
     if (delim_s && cli_parse_delim(delim_s, &po.read.delim) != 0) {
-        cli_error("project", "--delim must be one character or 'tab', got '%s'", delim_s);
+        cli_error("project", "--delim must be one character, 'tab' or 'space', got '%s'", delim_s);
         goto done;
     }
     if (cli_parse_reading("project", chunk, maxrec, &po.read.chunk_bytes, &po.read.max_record_bytes)) goto done;

@@ -5,6 +5,7 @@
 #include <unistd.h>
 
 #include "cli/cli.h"
+#include "cli/scan_notes.h"
 #include "stats/screen.h"
 #include "stats/validity.h"
 #include "summary/scan.h"
@@ -53,7 +54,7 @@ int cmd_scan(int argc, char **argv)
     scan_options_defaults(&o);
     const cli_option opts[] = {
         {"output", 'o', "OUT.sheaf", "summary file to write (required; - : standard output)", &out, NULL},
-        {"delim", 'd', "CHAR", "field delimiter: , ; | or tab (default: detected)", &delim, NULL},
+        {"delim", 'd', "CHAR", "field delimiter: , ; | tab or space (default: detected)", &delim, NULL},
         {"no-header", 0, NULL, "first row is data; columns are named col1..colN", NULL, &no_header},
         {"strict", 0, NULL, "rows with too few or too many fields are errors", NULL, &strict},
         {"force", 0, NULL, "read a file that does not look like text (NUL or control bytes)",
@@ -70,8 +71,9 @@ int cmd_scan(int argc, char **argv)
         {"max-classes", 0, "N", "target classes kept (default 256)", &classes, NULL},
         {"mem", 0, "SIZE", "memory the scan may add: co-moments and chunk buffers checked before reading, everything after each chunk (default: half of RAM)",
          &mem, NULL},
-        {"missing", 0, "S1,S2,..", "missing-value spellings (default NA,N/A,null,NULL,None,-,?)",
-         &missing, NULL},
+        {"missing", 0, "S1,S2,..",
+         "missing-value spellings, any letter case (default NA,N/A,null,NULL,None,-,?)", &missing,
+         NULL},
         {"max-levels", 0, "N", "exact value counts per column before overflow (default 1024)",
          &levels, NULL},
         {"bucket-budget", 0, "N", "occupied value buckets per column (default 2048)", &budget, NULL},
@@ -80,7 +82,8 @@ int cmd_scan(int argc, char **argv)
         {"shard", 0, "I/N", "read only the records that start in the I-th of N byte ranges "
          "(one plain file)", &shard, NULL},
         {"threads", 'j', "N", CLI_THREADS_HELP, &threads, NULL},
-        {"quiet", 'q', NULL, "no progress line", NULL, &quiet},
+        {"quiet", 'q', NULL, "no progress line, closing line or notes on ragged or mixed input",
+         NULL, &quiet},
         {0},
     };
     const cli_command cmd = {
@@ -107,7 +110,7 @@ int cmd_scan(int argc, char **argv)
         cli_check_binary_stdout("scan", out) || cli_check_stdin("scan", (const char *const *)pos, npos))
         goto done;
     if (delim && cli_parse_delim(delim, &o.delim) != 0) {
-        cli_error("scan", "--delim must be one character or 'tab', got '%s'", delim);
+        cli_error("scan", "--delim must be one character, 'tab' or 'space', got '%s'", delim);
         goto done;
     }
     if (cli_parse_reading("scan", chunk, maxrec, &o.chunk_bytes, &o.max_record_bytes)) goto done;
@@ -209,13 +212,16 @@ int cmd_scan(int argc, char **argv)
             goto done;
         }
     summary_status ws = summary_set_write(set, out, err, sizeof err);
-    summary_set_free(set);
     if (ws != SUMMARY_OK) {
+        summary_set_free(set);
         cli_error("scan", "%s", err);
         rc = ws == SUMMARY_ERR_MEMORY ? EXIT_RESOURCE : EXIT_FAILED;
         goto done;
     }
     print_warnings(&held);
+    scan_notes_print(stderr, set->parts[0], judged.numeric_share, quiet);
+    scan_notes_closing(&ps, set->parts[0]);
+    summary_set_free(set);
     rc = EXIT_DONE;
 done:
     free(held.text);

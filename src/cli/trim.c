@@ -98,7 +98,7 @@ int cmd_trim(int argc, char **argv)
         {"carry", 0, "A,B,..", "also keep these columns (IDs, timestamps)", &carry, NULL},
         {"output", 'o', "OUT", "write here (.gz / .zst compress; default or -: standard output)", &out_path,
          NULL},
-        {"delim", 'd', "CHAR", "field delimiter (default: detected)", &delim_s, NULL},
+        {"delim", 'd', "CHAR", "field delimiter: , ; | tab or space (default: detected)", &delim_s, NULL},
         {"no-header", 0, NULL, "first row is data; columns are named col1..colN", NULL, &no_header},
         {"chunk-size", 0, "SIZE", "bytes per chunk, e.g. 1M (default 256 KiB)", &chunk, NULL},
         {"max-record", 0, "SIZE", "longest record accepted (default 64 MiB)", &maxrec, NULL},
@@ -141,7 +141,7 @@ int cmd_trim(int argc, char **argv)
         if (cli_check_stdin("trim", all, npos + 2)) goto done;
     }
     if (delim_s && cli_parse_delim(delim_s, &delim) != 0) {
-        cli_error("trim", "--delim must be one character or 'tab', got '%s'", delim_s);
+        cli_error("trim", "--delim must be one character, 'tab' or 'space', got '%s'", delim_s);
         goto done;
     }
     trim_options to;

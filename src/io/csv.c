@@ -723,31 +723,39 @@ size_t csv_quote_scan(csv_quote_state *q, const char *data, size_t len, int firs
     return first ? quote_scan(q, data, len, 0) : quote_scan(q, data, len, 1);
 }
 
+/* Field counts under the quote rule with delimiter d, for the first 50
+ * lines of the sample (a last line without its newline counts only when it
+ * is the only one).  Returns how many lines were counted. */
+static int count_fields(const char *data, size_t len, char d, int counts[50])
+{
+    int lines = 0, fields = 1;
+    csv_quote_mode mode = CSV_AT_FIELD;
+    for (size_t i = 0; i < len && lines < 50; i++) {
+        char ch = data[i];
+        switch (mode) {
+        case CSV_IN_QUOTES: if (ch == '"') mode = CSV_QUOTE_SEEN; continue;
+        case CSV_QUOTE_SEEN:
+            if (ch == '"') { mode = CSV_IN_QUOTES; continue; }
+            break;
+        case CSV_AT_FIELD:
+            if (ch == '"') { mode = CSV_IN_QUOTES; continue; }
+            break;
+        default: break;
+        }
+        mode = CSV_IN_FIELD;
+        if (ch == d) { fields++; mode = CSV_AT_FIELD; }
+        else if (ch == '\n') { counts[lines++] = fields; fields = 1; mode = CSV_AT_FIELD; }
+    }
+    if (lines == 0 && fields > 1) counts[lines++] = fields;
+    return lines;
+}
+
 char csv_detect_delimiter(const char *data, size_t len)
 {
     static const char cands[] = {',', '\t', ';', '|'};
-    int best = 0, best_score = -1;
+    int best = 0, best_score = -1, counts[50];
     for (int c = 0; c < 4; c++) {
-        /* Count fields per line under the quote rule for the first 50 lines. */
-        int counts[50], lines = 0, fields = 1;
-        csv_quote_mode mode = CSV_AT_FIELD;
-        for (size_t i = 0; i < len && lines < 50; i++) {
-            char ch = data[i];
-            switch (mode) {
-            case CSV_IN_QUOTES: if (ch == '"') mode = CSV_QUOTE_SEEN; continue;
-            case CSV_QUOTE_SEEN:
-                if (ch == '"') { mode = CSV_IN_QUOTES; continue; }
-                break;
-            case CSV_AT_FIELD:
-                if (ch == '"') { mode = CSV_IN_QUOTES; continue; }
-                break;
-            default: break;
-            }
-            mode = CSV_IN_FIELD;
-            if (ch == cands[c]) { fields++; mode = CSV_AT_FIELD; }
-            else if (ch == '\n') { counts[lines++] = fields; fields = 1; mode = CSV_AT_FIELD; }
-        }
-        if (lines == 0 && fields > 1) counts[lines++] = fields;
+        int lines = count_fields(data, len, cands[c], counts);
         if (lines == 0) continue;
         /* Score: lines agreeing with the first line's count, if it is > 1. */
         int score = 0;
@@ -755,7 +763,14 @@ char csv_detect_delimiter(const char *data, size_t len)
             for (int i = 0; i < lines; i++) score += counts[i] == counts[0];
         if (score > best_score) { best_score = score; best = c; }
     }
-    return best_score > 0 ? cands[best] : ',';
+    if (best_score > 0) return cands[best];
+    /* A space only when every line counted (a CR before the newline is the
+     * last field's) has the same number of fields, more than one: prose in
+     * a one-column file rarely has the same number of words on every line,
+     * and a file aligned with runs of spaces gives uneven counts. */
+    int lines = count_fields(data, len, ' ', counts), same = lines > 0 && counts[0] > 1;
+    for (int i = 1; same && i < lines; i++) same = counts[i] == counts[0];
+    return same ? ' ' : ',';
 }
 
 size_t csv_bom_length(const char *data, size_t len)

@@ -152,8 +152,11 @@ size_t csv_quote_scan(csv_quote_state *q, const char *data, size_t len, int firs
 
 /* Picks the delimiter among ',', '\t', ';', '|' from a sample of whole
  * records: the candidate that gives the same field count (> 1) on the most
- * of the first 50 lines wins, ties broken in that order; ',' when nothing
- * fits.  Fields are counted under the quote rule with each candidate. */
+ * of the first 50 lines wins, ties broken in that order.  When none of them
+ * splits the first line, ' ' is taken if it gives every one of those lines
+ * the same field count, more than one; else ','.  Fields are counted under
+ * the quote rule with each candidate.  A space delimiter is one space: a run
+ * of n spaces makes n - 1 empty fields, as a run of commas would. */
 char csv_detect_delimiter(const char *data, size_t len);
 
 /* Skips a UTF-8 byte-order mark; returns bytes to skip (0 or 3). */

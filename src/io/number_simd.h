@@ -118,7 +118,13 @@ number_parse_ssse3(const char *s, size_t len, number_decimal *out)
 static inline __attribute__((always_inline, target("ssse3"))) number_kind
 number_parse_padded(const char *s, size_t len, number_decimal *out)
 {
-    return number_parse_ssse3(s, len, out) == 0 ? NUMBER_FINITE : number_parse(s, len, out);
+    if (number_parse_ssse3(s, len, out) == 0) return NUMBER_FINITE;
+    /* Text cells of a column not yet known to be text: a first letter other
+     * than that of inf or nan is text, as number_parse would find after its
+     * plain pass. */
+    unsigned c = len ? ((unsigned char)*s | 0x20u) : 0u;
+    if (len <= 32 && c >= 'a' && c <= 'z' && c != 'i' && c != 'n') return NUMBER_TEXT;
+    return number_parse(s, len, out);
 }
 #endif
 

@@ -454,11 +454,24 @@ size_t reader_column_name(const csv_field *f, size_t i, int header, int raw, cha
     return (size_t)snprintf(out, 24, "col%zu", i + 1);
 }
 
+/* ASCII letters only: bytes of UTF-8 sequences never fold, so a spelling
+ * never matches half of a character, and no locale is consulted. */
+static inline unsigned char fold(unsigned char c)
+{
+    return c >= 'A' && c <= 'Z' ? (unsigned char)(c | 0x20) : c;
+}
+
+static int same_folded(const char *a, const char *b, uint32_t len)
+{
+    for (uint32_t i = 0; i < len; i++)
+        if (fold((unsigned char)a[i]) != fold((unsigned char)b[i])) return 0;
+    return 1;
+}
+
 int reader_missing_spelled(const reader_missing *m, const char *p, uint32_t len)
 {
     for (uint32_t i = 0; i < m->n; i++)
-        if (m->len[i] == len && m->spelling[i][0] == p[0] && memcmp(m->spelling[i], p, len) == 0)
-            return 1;
+        if (m->len[i] == len && same_folded(m->spelling[i], p, len)) return 1;
     return 0;
 }
 
@@ -470,6 +483,12 @@ void reader_missing_init(reader_missing *m, const char *const *spellings, uint32
         size_t l = strlen(spellings[i]);
         m->spelling[i] = spellings[i];
         m->len[i] = l;
-        if (l) m->cand[(unsigned char)spellings[i][0]] |= 1ull << (l % 64);
+        if (!l) continue;
+        /* The cell's first byte in either case, so a present cell is still
+         * cleared by the one test. */
+        unsigned char c = (unsigned char)spellings[i][0];
+        m->cand[c] |= 1ull << (l % 64);
+        if (fold(c) != c) m->cand[fold(c)] |= 1ull << (l % 64);
+        else if (c >= 'a' && c <= 'z') m->cand[c - 0x20] |= 1ull << (l % 64);
     }
 }

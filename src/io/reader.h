@@ -228,11 +228,14 @@ typedef struct {
     uint64_t cand[256];
 } reader_missing;
 
-/* The empty cell is always missing; n <= READER_MAX_MISSING spellings more.
- * The spellings are borrowed and must outlive m. */
+/* The empty cell is always missing; n <= READER_MAX_MISSING spellings more,
+ * each matched in any ASCII letter case ("NA" also takes "na" and "Na"; other
+ * bytes, UTF-8 included, must be equal).  The spellings are borrowed and
+ * must outlive m. */
 void reader_missing_init(reader_missing *m, const char *const *spellings, uint32_t n);
 
-/* The spellings alone (for a cell that the first test could not clear). */
+/* The spellings alone (for a cell that the first test could not clear):
+ * lengths compared first, then the bytes with ASCII letters folded. */
 int reader_missing_spelled(const reader_missing *m, const char *p, uint32_t len);
 
 /* p[0] is read even when len is 0: cells sit in padded chunks.  The common

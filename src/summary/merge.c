@@ -84,23 +84,164 @@ static void add_diff(char *msg, size_t msglen, size_t *used, const char *fmt, ..
     va_end(ap);
 }
 
-int summary_compatible(const summary *a, const summary *b, char *msg, size_t msglen)
+/* A summary's columns sorted by name (then index), to find a name in
+ * O(log n) without a per-call context for qsort. */
+typedef struct {
+    const char *name; /* the column's name, owned by the summary */
+    size_t index;     /* its index */
+} named_column;
+
+typedef struct {
+    named_column *cols; /* ncols entries, sorted */
+    size_t n;           /* how many */
+} name_index;
+
+static int by_name(const void *x, const void *y)
 {
-    size_t used = 0;
-    if (msglen) msg[0] = '\0';
-    if (a->ncols != b->ncols) add_diff(msg, msglen, &used, "%zu columns vs %zu", a->ncols, b->ncols);
+    const named_column *a = x, *b = y;
+    int c = strcmp(a->name, b->name);
+    return c ? c : (a->index > b->index) - (a->index < b->index);
+}
+
+static int name_index_make(name_index *ix, const summary *s)
+{
+    ix->n = s->ncols;
+    ix->cols = malloc((s->ncols ? s->ncols : 1) * sizeof *ix->cols);
+    if (!ix->cols) return -1;
+    for (size_t i = 0; i < s->ncols; i++) ix->cols[i] = (named_column){s->cols[i].name, i};
+    qsort(ix->cols, ix->n, sizeof *ix->cols, by_name);
+    return 0;
+}
+
+/* The first column (by index) named name, or -1. */
+static long name_index_find(const name_index *ix, const char *name)
+{
+    size_t lo = 0, hi = ix->n;
+    while (lo < hi) {
+        size_t mid = lo + (hi - lo) / 2;
+        if (strcmp(ix->cols[mid].name, name) < 0) lo = mid + 1;
+        else hi = mid;
+    }
+    return lo < ix->n && strcmp(ix->cols[lo].name, name) == 0 ? (long)ix->cols[lo].index : -1;
+}
+
+#define SHOWN_DIFFS 6 /* columns named in a list, or differences listed, before "N more" */
+
+/* "column 'x' is missing from B" or "columns 'x', 'y' (and N more) are
+ * missing from B": the columns of s that the index of the other summary
+ * lacks. */
+static void missing_from(const summary *s, const name_index *other, const char *other_name,
+                         char *msg, size_t msglen, size_t *used)
+{
+    size_t n = 0, first = 0;
+    for (size_t i = 0; i < s->ncols; i++)
+        if (name_index_find(other, s->cols[i].name) < 0 && n++ == 0) first = i;
+    if (n == 0) return;
+    if (n == 1) {
+        add_diff(msg, msglen, used, "column '%s' is missing from %s", s->cols[first].name,
+                 other_name);
+        return;
+    }
+    add_diff(msg, msglen, used, "columns");
+    size_t shown = 0;
+    for (size_t i = first; i < s->ncols && shown < SHOWN_DIFFS && *used < msglen; i++)
+        if (name_index_find(other, s->cols[i].name) < 0)
+            *used += (size_t)snprintf(msg + *used, msglen - *used, "%s '%s'", shown++ ? "," : "",
+                                      s->cols[i].name);
+    if (n > shown && *used < msglen)
+        *used += (size_t)snprintf(msg + *used, msglen - *used, " and %zu more", n - shown);
+    if (*used < msglen)
+        *used += (size_t)snprintf(msg + *used, msglen - *used, " are missing from %s", other_name);
+}
+
+/* The column differences of a and b by name: columns missing from either
+ * side, and, when the shared columns are not in the same order, the ones
+ * that moved (1-based positions); a column declared differently.  Returns
+ * -1 on out of memory (the caller falls back to positions). */
+static int column_diffs(const summary *a, const summary *b, const char *name_a,
+                        const char *name_b, char *msg, size_t msglen, size_t *used)
+{
+    name_index ia, ib;
+    if (name_index_make(&ia, a) != 0) return -1;
+    if (name_index_make(&ib, b) != 0) { free(ia.cols); return -1; }
+    missing_from(a, &ib, name_b, msg, msglen, used);
+    missing_from(b, &ia, name_a, msg, msglen, used);
+    /* Shared columns in the same relative order: every shift of position is
+     * explained by the missing ones, and is not listed.  A repeated name
+     * counts at its first place only. */
+    int reordered = 0;
+    long last = -1;
+    for (size_t i = 0; i < a->ncols && !reordered; i++) {
+        long j = name_index_find(&ib, a->cols[i].name);
+        if (j < 0 || (size_t)name_index_find(&ia, a->cols[i].name) != i) continue;
+        reordered = j < last;
+        last = j;
+    }
+    size_t shown = 0, more = 0;
+    for (size_t i = 0; i < a->ncols; i++) {
+        long j = name_index_find(&ib, a->cols[i].name);
+        if (j < 0 || (size_t)name_index_find(&ia, a->cols[i].name) != i) continue;
+        static const char *m[] = {"auto", "numeric", "categorical"};
+        int moved = reordered && (size_t)j != i, declared = a->cols[i].mode != b->cols[j].mode;
+        if (!moved && !declared) continue;
+        if (shown++ >= SHOWN_DIFFS) { more++; continue; }
+        if (moved)
+            add_diff(msg, msglen, used, "column '%s' moved from %zu to %zu", a->cols[i].name, i + 1,
+                     (size_t)j + 1);
+        if (declared)
+            add_diff(msg, msglen, used, "column '%s' declared %s vs %s", a->cols[i].name,
+                     m[a->cols[i].mode], m[b->cols[j].mode]);
+    }
+    if (more) add_diff(msg, msglen, used, "and %zu more column%s moved or declared otherwise", more,
+                       more > 1 ? "s" : "");
+    free(ia.cols);
+    free(ib.cols);
+    return 0;
+}
+
+/* The old positional comparison: for repeated names, which a name alone
+ * cannot tell apart, and when memory for the name index runs out. */
+static void column_diffs_by_position(const summary *a, const summary *b, char *msg,
+                                     size_t msglen, size_t *used)
+{
     size_t n = a->ncols < b->ncols ? a->ncols : b->ncols;
     int shown = 0;
     for (size_t i = 0; i < n && shown < 5; i++) {
         if (strcmp(a->cols[i].name, b->cols[i].name) != 0) {
-            add_diff(msg, msglen, &used, "column %zu is '%s' vs '%s'", i + 1, a->cols[i].name,
+            add_diff(msg, msglen, used, "column %zu is '%s' vs '%s'", i + 1, a->cols[i].name,
                      b->cols[i].name);
             shown++;
         } else if (a->cols[i].mode != b->cols[i].mode) {
             static const char *m[] = {"auto", "numeric", "categorical"};
-            add_diff(msg, msglen, &used, "column '%s' declared %s vs %s", a->cols[i].name,
+            add_diff(msg, msglen, used, "column '%s' declared %s vs %s", a->cols[i].name,
                      m[a->cols[i].mode], m[b->cols[i].mode]);
             shown++;
+        }
+    }
+}
+
+int summary_compatible(const summary *a, const summary *b, char *msg, size_t msglen)
+{
+    return summary_compatible_named(a, b, "the first", "the second", msg, msglen);
+}
+
+int summary_compatible_named(const summary *a, const summary *b, const char *name_a,
+                             const char *name_b, char *msg, size_t msglen)
+{
+    size_t used = 0;
+    if (msglen) msg[0] = '\0';
+    int same = a->ncols == b->ncols;
+    for (size_t i = 0; same && i < a->ncols; i++)
+        same = strcmp(a->cols[i].name, b->cols[i].name) == 0 && a->cols[i].mode == b->cols[i].mode;
+    if (!same) {
+        if (a->ncols != b->ncols)
+            add_diff(msg, msglen, &used, "%zu columns vs %zu", a->ncols, b->ncols);
+        size_t before = used;
+        if (column_diffs(a, b, name_a, name_b, msg, msglen, &used) != 0 || used == before) {
+            /* Out of memory, or repeated names hide the difference. */
+            used = before;
+            if (used < msglen) msg[used] = '\0';
+            column_diffs_by_position(a, b, msg, msglen, &used);
         }
     }
     if (a->opt.max_levels != b->opt.max_levels)

@@ -140,6 +140,15 @@ scan_status schema_plan_make(const scan_options *o, const char *file, const char
         st = SCAN_ERR_MEMORY;
         goto done;
     }
+    if (nnames == 1 && o->warn) {
+        /* A file of one column is rare; one whose delimiter was not found is not. */
+        char line[4352 + 160];
+        snprintf(line, sizeof line,
+                 "%s: one column only ('%.60s'); if another character separates the fields, "
+                 "give it with --delim",
+                 shown, names[0]);
+        o->warn(o->warn_ctx, line);
+    }
     if (warn_duplicates(o, shown, names, nnames) != 0) {
         snprintf(err, errlen, "out of memory");
         st = SCAN_ERR_MEMORY;

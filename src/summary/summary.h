@@ -243,8 +243,18 @@ int summary_seal(summary *s);
 int summary_sealed(const summary *s);
 
 /* Lists the differences that forbid merging a and b into msg (one line,
- * "; "-separated); returns 1 when compatible. */
+ * "; "-separated); returns 1 when compatible.  Columns are compared by name:
+ * "columns 'x', 'w' are missing from the second", "column 'y' moved from 22
+ * to 21" (1-based; moves are listed only when the shared columns are not in
+ * the same order, since a missing column shifts every later one), "column
+ * 'z' declared numeric vs categorical"; at most 6 names in a list and 6
+ * moves, then how many more.  Repeated names fall back to positions
+ * ("column 3 is 'a' vs 'b'"). */
 int summary_compatible(const summary *a, const summary *b, char *msg, size_t msglen);
+/* The same, naming a and b in the message with name_a and name_b (a file
+ * name; summary_compatible uses "the first" and "the second"). */
+int summary_compatible_named(const summary *a, const summary *b, const char *name_a,
+                             const char *name_b, char *msg, size_t msglen);
 /* into := into (+) from: accumulators, counts, sources; then seals into.
  * The schemas must be compatible (checked; SUMMARY_ERR_INCOMPATIBLE
  * otherwise, also when the classes of a text target would have to be

@@ -347,7 +347,7 @@ def test_mpg_question_mark(sets):
 
 
 def test_spellings():
-    """Every default missing spelling is missing; other text is counted as
+    """Every default missing spelling is missing, in any letter case; other text is counted as
     raw text ('1' and '1.0' are two distinct values, ' 3 ' keeps its
     spaces as a value but parses as 3); inf/nan spellings are non-finite."""
     a = ["1", "1.0", "1", "2", "NA", "N/A", "null", "NULL", "None", "-", "?", "",
@@ -372,8 +372,11 @@ def test_spellings():
     cb = info["columns"][1]
     check("spellings.b.non_finite_is_5", cb["non_finite"] == 5,
           "non_finite %r" % cb["non_finite"])
-    check("spellings.c.near_spellings_not_missing", info["columns"][2]["missing"] == 4,
-          "missing %r (only NA, '', ?, - are spellings)" % info["columns"][2]["missing"])
+    # Spellings match in any letter case (na, n/a, none, Null are missing);
+    # spaces, quotes and other words still make a value.
+    check("spellings.c.other_cases_missing_near_spellings_not", info["columns"][2]["missing"] == 8,
+          "missing %r (na, n/a, none, Null, NA, '', ?, - are spellings; 'NA ', ' NA', "
+          "\"'NA'\", nil, --, ?? are not)" % info["columns"][2]["missing"])
 
 
 def test_compressed(sets):
