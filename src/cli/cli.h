@@ -35,9 +35,6 @@ typedef struct {
     const char *examples; /* lines ending --help, each "  $ sheaf ...\n"; NULL: none */
 } cli_command;
 
-/* What `sheaf -V` prints. */
-#define CLI_VERSION "sheaf 0.1 (summary format 1)"
-
 /* Parses argv[1..] (argv[0] is the command) as getopt_long would, without
  * abbreviations: --name VALUE, --name=VALUE, -x VALUE, -xVALUE, bundled
  * short flags (-qj2, -qo FILE: the first letter that takes a value takes the

@@ -13,6 +13,7 @@
 #include <unistd.h>
 
 #include "cli/cli.h"
+#include "sheaf.h" /* SHEAF_VERSION */
 #include "io/closest.h"
 #include "stats/stat.h"
 
@@ -106,7 +107,8 @@ static int run(int argc, char **argv)
         return c->run(2, args);
     }
     if (!strcmp(argv[1], "-V") || !strcmp(argv[1], "--version")) {
-        printf("%s\n", CLI_VERSION);
+        printf("sheaf %s (summary format %d; %d for a summary of several targets)\n",
+               SHEAF_VERSION, SUMMARY_FORMAT_VERSION, SUMMARY_SET_FORMAT_VERSION);
         return EXIT_DONE;
     }
     const command *c = find_command(argv[1]);
