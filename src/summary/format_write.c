@@ -240,7 +240,8 @@ int summary_write_at(const summary *s, int fd, off_t base, off_t *end)
     return summary_write_all(fd, tr + 12, 8);
 }
 
-summary_status summary_write(const summary *s, const char *path, char *err, size_t errlen)
+summary_status summary_write_through(const char *path, int (*write)(const void *obj, int fd),
+                                     const void *obj, char *err, size_t errlen)
 {
     tempfile t; /* written in full, then made the target's (src/summary/tempfile.h) */
     /* "-": standard output, through a scratch file (nothing written on failure). */
@@ -250,11 +251,18 @@ summary_status summary_write(const summary *s, const char *path, char *err, size
                    : tempfile_open(&t, path, TEMPFILE_SEEKABLE, err, errlen)) != 0)
         return errno == ENOMEM ? SUMMARY_ERR_MEMORY : SUMMARY_ERR_IO;
     if (to_stdout) path = "standard output";
-    if (summary_write_at(s, t.fd, 0, NULL) != 0) {
+    if (write(obj, t.fd) != 0) {
         int saved = errno;
         snprintf(err, errlen, "%s: cannot write: %s", path, strerror(saved ? saved : EIO));
         tempfile_discard(&t);
         return SUMMARY_ERR_IO;
     }
     return tempfile_commit(&t, err, errlen) == 0 ? SUMMARY_OK : SUMMARY_ERR_IO;
+}
+
+static int write_one(const void *s, int fd) { return summary_write_at(s, fd, 0, NULL); }
+
+summary_status summary_write(const summary *s, const char *path, char *err, size_t errlen)
+{
+    return summary_write_through(path, write_one, s, err, errlen);
 }

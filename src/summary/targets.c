@@ -23,7 +23,6 @@
 #include "summary/format.h"
 #include "summary/summary.h"
 
-#include <errno.h>
 #include <stdarg.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -32,7 +31,6 @@
 #include <unistd.h>
 #include <xxhash.h>
 
-#include "summary/tempfile.h"
 
 #define TAG_TARGETS TAG('T', 'G', 'T', 'S')
 #define TAG_PART TAG('P', 'A', 'R', 'T')
@@ -125,8 +123,9 @@ static int put_section_head(int fd, uint32_t tag, uint64_t len)
     return summary_write_all(fd, h, sizeof h);
 }
 
-static int write_set(const summary_set *set, int fd)
+static int write_set(const void *obj, int fd)
 {
+    const summary_set *set = obj;
     uint8_t head[12];
     memcpy(head, SUMMARY_MAGIC, 8);
     put_le(head + 8, SUMMARY_SET_FORMAT_VERSION, 4);
@@ -181,21 +180,7 @@ summary_status summary_set_write(const summary_set *set, const char *path, char 
             snprintf(err, errlen, "%s: a set of several summaries needs a target in each", path);
             return SUMMARY_ERR_INCOMPATIBLE;
         }
-    tempfile t; /* written in full, then made the target's (src/summary/tempfile.h) */
-    /* "-": standard output, through a scratch file (nothing written on failure). */
-    int to_stdout = !strcmp(path, "-");
-    if ((to_stdout ? tempfile_open_fd(&t, STDOUT_FILENO, "standard output", TEMPFILE_SEEKABLE,
-                                      err, errlen)
-                   : tempfile_open(&t, path, TEMPFILE_SEEKABLE, err, errlen)) != 0)
-        return errno == ENOMEM ? SUMMARY_ERR_MEMORY : SUMMARY_ERR_IO;
-    if (to_stdout) path = "standard output";
-    if (write_set(set, t.fd) != 0) {
-        int saved = errno;
-        snprintf(err, errlen, "%s: cannot write: %s", path, strerror(saved ? saved : EIO));
-        tempfile_discard(&t);
-        return SUMMARY_ERR_IO;
-    }
-    return tempfile_commit(&t, err, errlen) == 0 ? SUMMARY_OK : SUMMARY_ERR_IO;
+    return summary_write_through(path, write_set, set, err, errlen);
 }
 
 /* ---- decoding -------------------------------------------------------------- */
