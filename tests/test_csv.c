@@ -58,6 +58,18 @@ static void render(tokenized *t, size_t *used, const char *const *ptr, const uin
     cr_assert_lt(*used + 2, sizeof t->text);
 }
 
+/* A copy of data[0..len) (the reader writes into its chunk) followed by
+ * CSV_READ_AHEAD + 1 bytes of delimiters, quotes and newlines that must
+ * never show in a field. */
+static char *padded_copy(const char *data, size_t len)
+{
+    char *buf = malloc(len + CSV_READ_AHEAD + 1);
+    cr_assert_not_null(buf);
+    memcpy(buf, data, len);
+    for (size_t i = 0; i < CSV_READ_AHEAD + 1; i++) buf[len + i] = "\"\n\r,;\t|x"[i % 8];
+    return buf;
+}
+
 /* The same with csv_next_rows, `batch` rows at a time (rows of MAX_FIELDS
  * spans, so that every field rendered is kept); wide 0 keeps the reader to
  * its SSE2 blocks, 1 lets it read 32 bytes at a time where the CPU can. */
@@ -65,10 +77,7 @@ static tokenized tokenize_rows(const char *data, size_t len, char delim, size_t 
 {
     tokenized t;
     memset(&t, 0, sizeof t);
-    char *buf = malloc(len + CSV_READ_AHEAD + 1);
-    cr_assert_not_null(buf);
-    memcpy(buf, data, len);
-    for (size_t i = 0; i < CSV_READ_AHEAD + 1; i++) buf[len + i] = "\"\n\r,;\t|x"[i % 8];
+    char *buf = padded_copy(data, len);
     csv_reader r;
     csv_reader_init_padded(&r, buf, len, delim);
     if (!wide) r.wide = 0;
@@ -107,10 +116,7 @@ static tokenized tokenize_with(const char *data, size_t len, char delim, int pad
 {
     tokenized t;
     memset(&t, 0, sizeof t);
-    char *buf = malloc(len + CSV_READ_AHEAD + 1);
-    cr_assert_not_null(buf);
-    memcpy(buf, data, len);
-    for (size_t i = 0; i < CSV_READ_AHEAD + 1; i++) buf[len + i] = "\"\n\r,;\t|x"[i % 8];
+    char *buf = padded_copy(data, len);
     csv_reader r;
     if (padded) csv_reader_init_padded(&r, buf, len, delim);
     else csv_reader_init(&r, buf, len, delim);

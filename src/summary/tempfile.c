@@ -222,6 +222,29 @@ static int open_scratch(void)
     return fd;
 }
 
+/* An output that is not a regular file (a pipe, a terminal, a device):
+ * written straight through fd, or, when the writer must seek, into a
+ * scratch file copied to fd on commit.  Takes fd (closed on failure). */
+static int attach(tempfile *t, int fd, int flags, const char *name, char *err, size_t errlen)
+{
+    if (!(flags & TEMPFILE_SEEKABLE)) {
+        t->kind = TEMPFILE_THROUGH;
+        t->fd = fd;
+        return 0;
+    }
+    t->kind = TEMPFILE_SCRATCH;
+    t->target_fd = fd;
+    t->fd = open_scratch();
+    if (t->fd < 0) {
+        int saved = errno;
+        close(fd);
+        t->target_fd = -1;
+        errno = saved;
+        return fail(t, err, errlen, name, "cannot create a scratch file");
+    }
+    return 0;
+}
+
 int tempfile_open(tempfile *t, const char *path, int flags, char *err, size_t errlen)
 {
     memset(t, 0, sizeof *t);
@@ -245,21 +268,7 @@ int tempfile_open(tempfile *t, const char *path, int flags, char *err, size_t er
         if (!t->path) { errno = ENOMEM; return fail(t, err, errlen, path, ""); }
         int fd = open(path, O_WRONLY | O_CLOEXEC | O_NOCTTY);
         if (fd < 0) return fail(t, err, errlen, path, "cannot open");
-        if (flags & TEMPFILE_SEEKABLE) {
-            t->kind = TEMPFILE_SCRATCH;
-            t->target_fd = fd;
-            t->fd = open_scratch();
-            if (t->fd < 0) {
-                int saved = errno;
-                close(fd);
-                errno = saved;
-                return fail(t, err, errlen, path, "cannot create a scratch file");
-            }
-        } else {
-            t->kind = TEMPFILE_THROUGH;
-            t->fd = fd;
-        }
-        return 0;
+        return attach(t, fd, flags, path, err, errlen);
     }
     t->path = follow_links(path);
     if (!t->path) return fail(t, err, errlen, path, "cannot follow the link");
@@ -296,22 +305,7 @@ int tempfile_open_fd(tempfile *t, int fd, const char *name, int flags, char *err
     if (!t->path) { errno = ENOMEM; return fail(t, err, errlen, name, ""); }
     int target = fcntl(fd, F_DUPFD_CLOEXEC, 3);
     if (target < 0) return fail(t, err, errlen, name, "cannot write");
-    if (!(flags & TEMPFILE_SEEKABLE)) {
-        t->kind = TEMPFILE_THROUGH;
-        t->fd = target;
-        return 0;
-    }
-    t->kind = TEMPFILE_SCRATCH;
-    t->target_fd = target;
-    t->fd = open_scratch();
-    if (t->fd < 0) {
-        int saved = errno;
-        close(target);
-        t->target_fd = -1;
-        errno = saved;
-        return fail(t, err, errlen, name, "cannot create a scratch file");
-    }
-    return 0;
+    return attach(t, target, flags, name, err, errlen);
 }
 
 /* ---- committing ---- */
