@@ -168,7 +168,7 @@ Test(reader, missing_test_knows_the_empty_cell_and_every_spelling)
 {
     const char *sp[] = {"NA", "null", "-"};
     reader_missing m;
-    reader_missing_init(&m, sp, 3);
+    reader_missing_init(&m, sp, 3, 1);
     cr_assert(reader_is_missing(&m, "\0", 0));
     cr_assert(reader_is_missing(&m, "NA,", 2));
     cr_assert(reader_is_missing(&m, "null", 4));
@@ -182,7 +182,7 @@ Test(reader, missing_spellings_match_in_any_ascii_letter_case)
 {
     const char *sp[] = {"NA", "n/a", "Null", "N\xc3\x89" "ANT", "?"};
     reader_missing m;
-    reader_missing_init(&m, sp, 5);
+    reader_missing_init(&m, sp, 5, 1);
     const char *yes[] = {"na", "Na", "nA", "N/A", "n/A", "NULL", "null", "nUlL", "n\xc3\x89" "ant", "?"};
     for (size_t i = 0; i < sizeof yes / sizeof *yes; i++)
         cr_assert(reader_is_missing(&m, yes[i], (uint32_t)strlen(yes[i])), "'%s'", yes[i]);
@@ -192,9 +192,24 @@ Test(reader, missing_spellings_match_in_any_ascii_letter_case)
         cr_assert(!reader_is_missing(&m, no[i], (uint32_t)strlen(no[i])), "'%s'", no[i]);
     /* ASCII folding is | 0x20 on letters only: '@' (0x40) is not '`' (0x60). */
     const char *at[] = {"@x"};
-    reader_missing_init(&m, at, 1);
+    reader_missing_init(&m, at, 1, 1);
     cr_assert(reader_is_missing(&m, "@X", 2));
     cr_assert(!reader_is_missing(&m, "`x", 2));
+}
+
+/* A summary written before 2026-12-03 matched its spellings byte for byte;
+ * a pass reading it must match the same way. */
+Test(reader, missing_spellings_match_exactly_without_any_case)
+{
+    const char *sp[] = {"NA", "Null"};
+    reader_missing m;
+    reader_missing_init(&m, sp, 2, 0);
+    cr_assert(reader_is_missing(&m, "NA", 2));
+    cr_assert(reader_is_missing(&m, "Null", 4));
+    cr_assert(reader_is_missing(&m, "", 0));
+    const char *no[] = {"na", "Na", "nA", "NULL", "null", "nulL"};
+    for (size_t i = 0; i < sizeof no / sizeof *no; i++)
+        cr_assert(!reader_is_missing(&m, no[i], (uint32_t)strlen(no[i])), "'%s'", no[i]);
 }
 
 Test(reader, record_over_the_limit_inside_one_chunk_is_an_error_too)
@@ -249,7 +264,7 @@ Test(reader, missing_test_knows_spellings_of_63_bytes_and_more)
     longer[70] = '\0';
     const char *sp[] = {longer};
     reader_missing m;
-    reader_missing_init(&m, sp, 1);
+    reader_missing_init(&m, sp, 1, 1);
     memset(cell, 'x', sizeof cell);
     cr_assert(reader_is_missing(&m, cell, 70));
     cr_assert(!reader_is_missing(&m, cell, 63));
@@ -262,7 +277,7 @@ Test(reader, missing_test_knows_spellings_of_63_bytes_and_more)
     memset(sixty_four, 'x', 64);
     sixty_four[64] = '\0';
     const char *sp64[] = {sixty_four};
-    reader_missing_init(&m, sp64, 1);
+    reader_missing_init(&m, sp64, 1, 1);
     cr_assert(reader_is_missing(&m, "x", 0)); /* empty: missing, whatever the bits */
     cr_assert(reader_is_missing(&m, cell, 64));
     cr_assert(!reader_is_missing(&m, cell, 1));

@@ -471,13 +471,17 @@ static int same_folded(const char *a, const char *b, uint32_t len)
 int reader_missing_spelled(const reader_missing *m, const char *p, uint32_t len)
 {
     for (uint32_t i = 0; i < m->n; i++)
-        if (m->len[i] == len && same_folded(m->spelling[i], p, len)) return 1;
+        if (m->len[i] == len && (m->any_case ? same_folded(m->spelling[i], p, len)
+                                             : memcmp(m->spelling[i], p, len) == 0))
+            return 1;
     return 0;
 }
 
-void reader_missing_init(reader_missing *m, const char *const *spellings, uint32_t n)
+void reader_missing_init(reader_missing *m, const char *const *spellings, uint32_t n,
+                         int any_case)
 {
     memset(m, 0, sizeof *m);
+    m->any_case = any_case != 0;
     m->n = n < READER_MAX_MISSING ? n : READER_MAX_MISSING;
     for (uint32_t i = 0; i < m->n; i++) {
         size_t l = strlen(spellings[i]);
@@ -488,6 +492,7 @@ void reader_missing_init(reader_missing *m, const char *const *spellings, uint32
          * cleared by the one test. */
         unsigned char c = (unsigned char)spellings[i][0];
         m->cand[c] |= 1ull << (l % 64);
+        if (!m->any_case) continue;
         if (fold(c) != c) m->cand[fold(c)] |= 1ull << (l % 64);
         else if (c >= 'a' && c <= 'z') m->cand[c - 0x20] |= 1ull << (l % 64);
     }

@@ -222,6 +222,7 @@ typedef struct {
     const char *spelling[READER_MAX_MISSING]; /* borrowed spellings */
     size_t len[READER_MAX_MISSING];           /* their lengths */
     uint32_t n;                               /* how many */
+    int any_case;                             /* ASCII letters match in either case */
     /* Bit L % 64 of cand[b]: some spelling has length L and first byte b.
      * A non-empty cell whose bit is clear is present after this one test
      * (x86 shifts by the count mod 64 anyway, so the % costs nothing). */
@@ -229,13 +230,16 @@ typedef struct {
 } reader_missing;
 
 /* The empty cell is always missing; n <= READER_MAX_MISSING spellings more,
- * each matched in any ASCII letter case ("NA" also takes "na" and "Na"; other
- * bytes, UTF-8 included, must be equal).  The spellings are borrowed and
- * must outlive m. */
-void reader_missing_init(reader_missing *m, const char *const *spellings, uint32_t n);
+ * each matched byte for byte, or with any_case in any ASCII letter case
+ * ("NA" also takes "na" and "Na"; other bytes, UTF-8 included, must be
+ * equal).  A scan matches in any case; a pass over the data matches as the
+ * summary it reads says (summaries written before 2026-12-03 matched
+ * exactly).  The spellings are borrowed and must outlive m. */
+void reader_missing_init(reader_missing *m, const char *const *spellings, uint32_t n,
+                         int any_case);
 
 /* The spellings alone (for a cell that the first test could not clear):
- * lengths compared first, then the bytes with ASCII letters folded. */
+ * lengths compared first, then the bytes (ASCII letters folded with any_case). */
 int reader_missing_spelled(const reader_missing *m, const char *p, uint32_t len);
 
 /* p[0] is read even when len is 0: cells sit in padded chunks.  The common

@@ -387,7 +387,7 @@ project_status project_files(const summary *s, const pca_result *r, size_t k,
     uint32_t nmissing = summary_missing_spellings(s);
     for (uint32_t i = 0; i < nmissing && i < READER_MAX_MISSING; i++)
         spelling[i] = summary_missing_spelling(s, i);
-    reader_missing_init(&pj.missing, spelling, nmissing);
+    reader_missing_init(&pj.missing, spelling, nmissing, summary_missing_any_case(s));
     stream_options so = {
         .read = o->read,
         .threads = o->threads,

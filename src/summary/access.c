@@ -26,6 +26,7 @@ size_t summary_ragged_lines(const summary *s, const uint64_t **lines)
 
 uint32_t summary_missing_spellings(const summary *s) { return s->opt.n_missing; }
 const char *summary_missing_spelling(const summary *s, uint32_t i) { return s->opt.missing[i]; }
+int summary_missing_any_case(const summary *s) { return s->opt.missing_any_case; }
 size_t summary_source_count(const summary *s) { return s->nsources; }
 
 const summary_source *summary_source_at(const summary *s, size_t i)

@@ -40,6 +40,9 @@ size_t summary_ragged_lines(const summary *s, const uint64_t **lines);
  * besides): their count, and spelling i (owned by the summary). */
 uint32_t summary_missing_spellings(const summary *s);
 const char *summary_missing_spelling(const summary *s, uint32_t i);
+/* 1: the spellings matched in any ASCII letter case; 0: byte for byte (a
+ * summary written before 2026-12-03). */
+int summary_missing_any_case(const summary *s);
 size_t summary_source_count(const summary *s);  /* source records */
 /* Source record i (0 <= i < summary_source_count), owned by the summary. */
 const summary_source *summary_source_at(const summary *s, size_t i);

@@ -89,7 +89,7 @@ static char *dup_str(wire_reader *r, size_t max)
  * sparse sketch, an empty bucket store and the two flags. */
 #define MIN_COLUMN_BYTES (5 * 8 + 84 + 4 + (4 + 4 + 1 + 4 + 8 * VALUES_OVERFLOW_SLOTS) + 5 + 13 + 2)
 
-static summary *decode_schema(wire_reader *r, decode_state *ds)
+static summary *decode_schema(wire_reader *r, decode_state *ds, uint32_t version)
 {
     summary_options o;
     memset(&o, 0, sizeof o);
@@ -103,6 +103,14 @@ static summary *decode_schema(wire_reader *r, decode_state *ds)
     for (uint32_t i = 0; i < nm && !r->failed; i++) {
         o.missing[i] = dup_str(r, 1024);
         if (o.missing[i]) o.n_missing = i + 1;
+    }
+    if (version >= 5) { /* older files matched the spellings byte for byte */
+        uint8_t rule = wire_get_u8(r);
+        if (rule > 1) r->failed = 1;
+        else if (rule == 0 && !r->failed)
+            broken(r, ds, "a version-5 file whose missing-value spellings match exactly "
+                          "(written as version 1 to 3)");
+        o.missing_any_case = rule;
     }
     char *target = dup_str(r, MAX_NAME_BYTES);
     if (target && *target) o.target = target;
@@ -193,7 +201,7 @@ static void decode_table(summary *s, wire_reader *r, decode_state *ds, uint32_t 
         if (s->repeated_headers == 0 && version == 2)
             broken(r, ds, "a count of 0 repeated headers in a version-2 file (written as version 1)");
     }
-    if (version >= 3 && s->target < 0)
+    if (version == 3 && s->target < 0)
         broken(r, ds, "a version-3 file without a target (written as version 1 or 2)");
     if (r->failed) return;
     uint64_t source_rows = 0;
@@ -503,7 +511,8 @@ summary_status summary_decode(const uint8_t *data, size_t len, summary **out, ch
     }
     if (version > SUMMARY_FORMAT_VERSION) {
         snprintf(err, errlen, "summary format version %u is newer than this sheaf reads (%u)",
-                 version, SUMMARY_SET_FORMAT_VERSION);
+                 version, SUMMARY_FORMAT_VERSION > SUMMARY_SET_FORMAT_VERSION
+                              ? SUMMARY_FORMAT_VERSION : SUMMARY_SET_FORMAT_VERSION);
         return SUMMARY_ERR_CORRUPT;
     }
     /* The trailer: tag, length 8, checksum of everything before it. */
@@ -552,7 +561,7 @@ summary_status summary_decode(const uint8_t *data, size_t len, summary **out, ch
         /* A failed allocation sets errno to ENOMEM (nothing else the
          * decoders call does): that is a resource limit, not damage. */
         errno = 0;
-        if (k == 0) s = decode_schema(&p, &ds);
+        if (k == 0) s = decode_schema(&p, &ds, version);
         else if (k == 1) decode_sources(s, &p, &ds);
         else if (k == 2) decode_table(s, &p, &ds, version);
         else if (k == 3) decode_target(s, &p, &ds, version);

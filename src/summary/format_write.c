@@ -28,6 +28,7 @@ static void put_options(const summary *s, wire_writer *w, int with_target)
     wire_put_u32(w, s->opt.n_missing);
     for (uint32_t i = 0; i < s->opt.n_missing; i++)
         wire_put_str(w, s->opt.missing[i], strlen(s->opt.missing[i]));
+    if (summary_file_version(s) >= 5) wire_put_u8(w, (uint8_t)s->opt.missing_any_case);
     if (with_target) {
         const char *t = s->opt.target ? s->opt.target : "";
         wire_put_str(w, t, strlen(t));
@@ -112,6 +113,7 @@ static void encode_table(const summary *s, wire_writer *w)
 
 uint32_t summary_file_version(const summary *s)
 {
+    if (s->opt.missing_any_case) return 5;
     return s->target >= 0 ? 3 : s->repeated_headers ? 2 : 1;
 }
 

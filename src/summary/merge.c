@@ -255,6 +255,12 @@ int summary_compatible_named(const summary *a, const summary *b, const char *nam
     for (uint32_t i = 0; same_missing && i < a->opt.n_missing; i++)
         same_missing = strcmp(a->opt.missing[i], b->opt.missing[i]) == 0;
     if (!same_missing) add_diff(msg, msglen, &used, "different missing-value lists");
+    if (a->opt.missing_any_case != b->opt.missing_any_case)
+        add_diff(msg, msglen, &used,
+                 "missing-value spellings matched in %s in %s but %s in %s (a summary written "
+                 "before 2026-12-03 matched them exactly: rescan its data)",
+                 a->opt.missing_any_case ? "any letter case" : "exact case", name_a,
+                 b->opt.missing_any_case ? "any letter case" : "exact case", name_b);
     const char *ta = a->opt.target ? a->opt.target : "(none)";
     const char *tb = b->opt.target ? b->opt.target : "(none)";
     if (strcmp(ta, tb) != 0) add_diff(msg, msglen, &used, "target '%s' vs '%s'", ta, tb);

@@ -481,7 +481,8 @@ scan_context *scan_create(const scan_options *o)
     reader_cursor_init(&sc->head, &sc->head_ro);
     sc->threads = o->threads ? o->threads : pipeline_cpus();
     sc->rss_base = o->mem_limit_bytes ? resident_bytes() : 0;
-    reader_missing_init(&sc->missing, (const char *const *)o->opt.missing, o->opt.n_missing);
+    reader_missing_init(&sc->missing, (const char *const *)o->opt.missing, o->opt.n_missing,
+                        o->opt.missing_any_case);
     return sc;
 }
 

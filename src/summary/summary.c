@@ -22,6 +22,7 @@ void summary_options_defaults(summary_options *o)
     o->n_missing = sizeof DEFAULT_MISSING / sizeof *DEFAULT_MISSING;
     for (uint32_t i = 0; i < o->n_missing; i++) o->missing[i] = strdup(DEFAULT_MISSING[i]);
     o->max_classes = 256;
+    o->missing_any_case = 1;
 }
 
 void summary_options_free(summary_options *o)

@@ -44,10 +44,13 @@
 
 /* The newest format version this sheaf reads and writes.  A summary is
  * written in the oldest version that holds it (summary_file_version), so
- * that older readers read it: 3 with a target (per-class sums in two
- * doubles), else 2 when it counted repeated headers, else 1. */
-#define SUMMARY_FORMAT_VERSION 3
-/* The version of a file of several targets (a container of version 3
+ * that older readers read it: 5 when its missing-value spellings matched in
+ * any ASCII letter case (every scan since 2026-12-03: version 5 is version
+ * 3's layout with the rule in SCHM), else 3 with a target (per-class sums
+ * in two doubles), else 2 when it counted repeated headers, else 1.  Files
+ * of versions 1 to 3 matched the spellings byte for byte. */
+#define SUMMARY_FORMAT_VERSION 5
+/* The version of a file of several targets (a container of single-target
  * summaries, one per target: docs/summary-format.md). */
 #define SUMMARY_SET_FORMAT_VERSION 4
 #define SUMMARY_MAX_TARGETS 1024  /* targets one file may hold */
@@ -104,6 +107,8 @@ typedef struct {
     uint32_t bucket_budget;  /* occupied buckets per column */
     uint32_t n_missing;      /* missing-value spellings */
     char *missing[SUMMARY_MAX_MISSING]; /* the spellings ("" is always missing) */
+    int missing_any_case;    /* 1: spellings match in any ASCII letter case (every scan
+                                since 2026-12-03); 0: byte for byte (older summaries) */
     char *target;            /* target column name, NULL for none */
     target_task task;        /* declared task (TASK_AUTO: decided when read) */
     uint32_t max_classes;    /* class levels kept before giving up on classes */
@@ -292,8 +297,9 @@ uint64_t summary_column_present(const summary_column *c);
  * failure writes nothing there.  For reading (summary_read,
  * summary_set_read), "-" is standard input, read whole into memory. */
 summary_status summary_write(const summary *s, const char *path, char *err, size_t errlen);
-/* The format version s is written in: the oldest that holds it (1, or 2
- * when it counted repeated headers).  Readers take 1 .. SUMMARY_FORMAT_VERSION. */
+/* The format version s is written in: the oldest that holds it (5 when its
+ * spellings match in any case, else 3 with a target, 2 when it counted
+ * repeated headers, 1).  Readers take 1 .. SUMMARY_FORMAT_VERSION. */
 uint32_t summary_file_version(const summary *s);
 /* Reads a summary file into a new, sealed summary. */
 summary_status summary_read(const char *path, summary **out, char *err, size_t errlen);

@@ -111,6 +111,8 @@ def _walk_SCHM(w, info):
     w.get("SCHM.bucket_budget", "u32")
     for i in range(w.get("SCHM.n_missing", "u32")):
         w.str("SCHM.missing[%d]" % i)
+    if info["version"] >= 5:  # 1: the spellings match in any ASCII letter case
+        w.get("SCHM.missing_any_case", "u8")
     info["target"] = w.str("SCHM.target")
     w.get("SCHM.task", "u8")
     w.get("SCHM.max_classes", "u32")
@@ -361,7 +363,9 @@ def main(argv):
         if len(argv) > 4 and argv[4] == "empty":
             # max_levels, label_bytes, bucket_budget, no missing spellings,
             # no target, task 0, max_classes, no columns
-            schema = struct.pack("<IIII", 1024, 32, 2048, 0) + struct.pack("<I", 0) + \
+            (version,) = struct.unpack_from("<I", data, 8)
+            rule = b"\1" if version >= 5 else b""  # version 5: the spellings' case rule
+            schema = struct.pack("<IIII", 1024, 32, 2048, 0) + rule + struct.pack("<I", 0) + \
                 b"\0" + struct.pack("<IQ", 256, 0)
             head = data[:12] + b"SCHM" + struct.pack("<Q", len(schema)) + schema + \
                 struct.pack("<Q", xxh3(schema))

@@ -153,10 +153,17 @@ crafted class_moments_negative_m2 cls "COLS[1].cls[1].m2=-1"
 crafted class_moments_vs_buckets cls "COLS[1].cls[1].n=$(($(get cls 'COLS[1].cls[1].n') - 1))"
 # Version 3 (per-class sums in two doubles): the low part within half an
 # ulp of the high one; version 3 only with a target (a file without one is
-# written as version 1 or 2: rep.sheaf, version 2 for its repeated header).
+# written as version 1 or 2: oldrep.sheaf, a version-2 file with a repeated
+# header written by an earlier build, tests/old/README.md).
 crafted class_sum_low_over_half_ulp cls "COLS[1].cls[1].sum_low=1"
 crafted class_sum_nan cls "COLS[1].cls[1].sum=nan"
-crafted version3_without_target rep "version=3"
+cp tests/old/v2-exact-case.sheaf "$T/oldrep.sheaf"
+crafted version3_without_target oldrep "version=3"
+check decode.version3_without_target.message "$(err_text)" \
+    grep -q 'a version-3 file without a target' "$T/err"
+# Version 5 records the missing-value case rule, 1 (any case) or refused.
+crafted version5_rule_exact rep "SCHM.missing_any_case=0"
+crafted version5_rule_two rep "SCHM.missing_any_case=2"
 # Exact pair sums with the target (acc/pairsum.h).
 crafted pairs_exact_flag reg "COLS[1].pairs.exact=2"
 crafted pairs_inexact_not_zero reg "COLS[1].pairs.exact=0"
