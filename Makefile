@@ -52,7 +52,7 @@ $(DEMO_BIN): demo/generate.c
 # (DEVELOPERS.md "Installing".)  The version comes from one place,
 # SHEAF_VERSION in include/sheaf.h: "0.1" is 0.1.0, the soname carries the
 # major number (libsheaf.so.0 -> libsheaf.so.0.1.0).
-VERSION    := $(shell sed -n 's/^.define SHEAF_VERSION "\([0-9.]*\)".*/\1/p' include/sheaf.h)
+VERSION    := $(shell sed -n -E 's/^.[[:space:]]*define[[:space:]]+SHEAF_VERSION[[:space:]]+"([0-9.]+)".*/\1/p' include/sheaf.h)
 VERSION_W  := $(subst ., ,$(VERSION))
 SO_MAJOR   := $(word 1,$(VERSION_W))
 SO_VERSION := $(SO_MAJOR).$(or $(word 2,$(VERSION_W)),0).$(or $(word 3,$(VERSION_W)),0)
@@ -68,6 +68,7 @@ build/pic/%.o: %.c
 	$(CC) $(CFLAGS) -fPIC -fvisibility=hidden -c -o $@ $<
 
 $(SHARED): $(PIC_OBJ) src/libsheaf.map
+	@test -n "$(SO_MAJOR)" || { echo 'Makefile: no #define SHEAF_VERSION "X.Y[.Z]" in include/sheaf.h' >&2; exit 1; }
 	@mkdir -p $(dir $@)
 	$(CC) $(CFLAGS) -shared -Wl,-soname,$(SONAME) -Wl,--version-script=src/libsheaf.map \
 	    -Wl,--no-undefined -o $@ $(PIC_OBJ) $(LDLIBS)
@@ -83,7 +84,7 @@ shared: $(SHARED)
 CLI_COMMANDS := $(shell sed -n 's/^ *{"\([a-z]*\)", cmd_[a-z_]*,.*/\1/p' src/cli/main.c)
 MAN_PAGES    := build/man/sheaf.1 $(CLI_COMMANDS:%=build/man/sheaf-%.1)
 COMPLETION   := build/completion/sheaf
-DOC_EPOCH    := $(or $(SOURCE_DATE_EPOCH),$(shell git log -1 --format=%ct 2>/dev/null))
+DOC_EPOCH     = $(or $(SOURCE_DATE_EPOCH),$(shell git log -1 --format=%ct 2>/dev/null))
 
 build/man/sheaf.1: sheaf
 	@mkdir -p $(dir $@)

@@ -378,13 +378,13 @@ static void bash_command(const cli_command *cmd)
     fputs("--help -h'\n        case $prev in\n", f);
     for (const cli_option *o = cmd->options; o->name; o++) {
         if (!o->metavar) continue;
-        char values[256];
+        char words[256];
         fputs("        ", f);
         bash_pattern(f, o);
         if (takes_file(o))
             fputs(") _sheaf_files; return 0 ;;\n", f);
-        else if (fixed_values(o->help, values, sizeof values))
-            fprintf(f, ") _sheaf_words '%s'; return 0 ;;\n", values);
+        else if (fixed_values(o->help, words, sizeof words))
+            fprintf(f, ") _sheaf_words '%s'; return 0 ;;\n", words);
         else
             fprintf(f, ") return 0 ;; # %s: typed\n", o->metavar);
     }

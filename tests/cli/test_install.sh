@@ -15,7 +15,8 @@ for tool in make pkg-config nm readelf cc; do
 done
 
 # The version and the commands, from where the build takes them.
-version=$(sed -n 's/^#define SHEAF_VERSION "\([0-9.]*\)".*/\1/p' include/sheaf.h)
+version=$(sed -n -E 's/^#[[:space:]]*define[[:space:]]+SHEAF_VERSION[[:space:]]+"([0-9.]+)".*/\1/p' include/sheaf.h)
+[ -n "$version" ] || fail version_found "no #define SHEAF_VERSION \"X.Y[.Z]\" in include/sheaf.h"
 IFS=. read -r v1 v2 v3 <<<"$version"
 so_version=$v1.${v2:-0}.${v3:-0}
 
