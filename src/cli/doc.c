@@ -228,19 +228,17 @@ static void roff_top_list(FILE *f, const char *text, size_t n)
         const char *rest = key_end;
         while (rest < end && *rest == ' ') rest++;
         int bol = 0;
-        fputs(".TP\n", f);
-        if (commands) {
-            fputs(".BR sheaf\\-", f);
-            roff_put(f, key, (size_t)(key_end - key), LITERAL, &bol);
-            fputs(" (1)\n", f);
-        } else {
-            fputs("\\fB", f);
-            roff_put(f, key, (size_t)(key_end - key), LITERAL, &bol);
-            fputs("\\fR\n", f);
-        }
+        fputs(".TP\n\\fB", f);
+        roff_put(f, key, (size_t)(key_end - key), LITERAL, &bol);
+        fputs("\\fR\n", f);
         char *copy = strndup(rest, (size_t)(end - rest));
         if (copy) roff_prose(f, copy);
         free(copy);
+        if (commands) { /* the command's own page */
+            fputs("(\\fBsheaf\\-", f);
+            roff_put(f, key, (size_t)(key_end - key), LITERAL, &bol);
+            fputs("\\fR(1))\n", f);
+        }
         line = end + 1;
     }
 }
