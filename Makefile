@@ -118,8 +118,10 @@ INSTALL      ?= install
 # which sheaf does not link (OpenBLAS provides the cblas_* symbols).
 PC_REQUIRES  := $(PKGS) zlib
 PC_LIBS      := -lgsl -lm -lpthread
-# Relative to ${prefix} / ${exec_prefix} in sheaf.pc where they are under them.
-PC_SUBST = $(patsubst $(EXEC_PREFIX)/%,$${exec_prefix}/%,$(patsubst $(PREFIX)/%,$${prefix}/%,$(1)))
+# In sheaf.pc, libdir relative to ${exec_prefix} and includedir to ${prefix}
+# where they are under them.
+PC_LIBDIR     = $(patsubst $(PREFIX)/%,$${prefix}/%,$(patsubst $(EXEC_PREFIX)/%,$${exec_prefix}/%,$(LIBDIR)))
+PC_INCLUDEDIR = $(patsubst $(PREFIX)/%,$${prefix}/%,$(INCLUDEDIR))
 # Every file install writes (uninstall removes these, and only these).
 INSTALLED := $(BINDIR)/sheaf $(LIBDIR)/libsheaf.a $(LIBDIR)/libsheaf.so.$(SO_VERSION) \
              $(LIBDIR)/$(SONAME) $(LIBDIR)/libsheaf.so $(INCLUDEDIR)/sheaf.h \
@@ -129,8 +131,7 @@ build/sheaf.pc: sheaf.pc.in FORCE
 	@mkdir -p $(dir $@)
 	sed -e 's|@PREFIX@|$(PREFIX)|' \
 	    -e 's|@EXEC_PREFIX@|$(if $(filter $(PREFIX),$(EXEC_PREFIX)),$${prefix},$(EXEC_PREFIX))|' \
-	    -e 's|@LIBDIR@|$(call PC_SUBST,$(LIBDIR))|' \
-	    -e 's|@INCLUDEDIR@|$(call PC_SUBST,$(INCLUDEDIR))|' \
+	    -e 's|@LIBDIR@|$(PC_LIBDIR)|' -e 's|@INCLUDEDIR@|$(PC_INCLUDEDIR)|' \
 	    -e 's|@VERSION@|$(SO_VERSION)|' -e 's|@REQUIRES_PRIVATE@|$(PC_REQUIRES)|' \
 	    -e 's|@LIBS_PRIVATE@|$(PC_LIBS)|' sheaf.pc.in >$@.tmp && mv $@.tmp $@
 

@@ -217,6 +217,16 @@ make -s -n --no-print-directory install DESTDIR="$T/dry" >"$T/dry.log" 2>&1
 check default_prefix "make -n install does not install under /usr/local/bin" \
     grep -q "$T/dry/usr/local/bin/sheaf" "$T/dry.log"
 
+# sheaf.pc follows LIBDIR and EXEC_PREFIX (a Debian multiarch LIBDIR).
+if make -s --no-print-directory build/sheaf.pc PREFIX=/opt/fleet EXEC_PREFIX=/opt/fleet/x86 \
+    LIBDIR=/opt/fleet/x86/lib/x86_64-linux-gnu >"$T/pc.log" 2>&1; then
+    got=$(PKG_CONFIG_PATH=build PKG_CONFIG_SYSROOT_DIR= pkg-config --variable=libdir sheaf)/$(PKG_CONFIG_PATH=build PKG_CONFIG_SYSROOT_DIR= pkg-config --variable=includedir sheaf)
+    check pc_directories "libdir/includedir: $got" \
+        test "$got" = /opt/fleet/x86/lib/x86_64-linux-gnu//opt/fleet/include
+else
+    fail pc_directories "make build/sheaf.pc: $(head -c 200 "$T/pc.log")"
+fi
+
 # Uninstall leaves no file (directories may stay).
 make -s --no-print-directory uninstall DESTDIR="$D" PREFIX=/usr >"$T/uninstall.log" 2>&1 ||
     fail uninstall_runs "exit $?: $(tail -n 3 "$T/uninstall.log" | tr '\n' '|')"
