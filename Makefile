@@ -13,7 +13,7 @@ LDLIBS  := -lgsl $(shell pkg-config --libs $(PKGS) 2>/dev/null || echo -lisal -l
 DEB_PKGS := build-essential pkg-config libisal-dev isal zlib1g-dev libzstd-dev zstd \
             libxxhash-dev libcriterion-dev libgsl-dev libopenblas-dev liblapacke-dev \
             python3-numpy python3-scipy python3-pandas python3-statsmodels python3-sklearn python3-mpmath parallel \
-            hyperfine time bc clang
+            hyperfine time bc clang mandoc groff-base
 
 NPROC   := $(shell nproc 2>/dev/null || echo 1)
 LIB_SRC := $(wildcard src/io/*.c src/acc/*.c src/summary/*.c src/stats/*.c src/out/*.c src/pass/*.c)
@@ -24,9 +24,10 @@ TEST_SRC := $(wildcard tests/test_*.c)
 TEST_BIN := $(TEST_SRC:tests/%.c=build/tests/%)
 DEMO_BIN := build/demo/generate
 
-.PHONY: all deps deps-check test demo bench clean fuzz fuzz-build replay-build \
-        sanitize-build check-sanitize check-sanitize-quick trust-run help
-all: sheaf libsheaf.a
+.PHONY: FORCE all deps deps-check test demo bench clean fuzz fuzz-build replay-build \
+        sanitize-build check-sanitize check-sanitize-quick trust-run help \
+        shared man completion install uninstall
+all: sheaf libsheaf.a man completion
 
 libsheaf.a: $(LIB_OBJ)
 	@rm -f $@
@@ -46,6 +47,112 @@ build/tests/%: tests/%.c libsheaf.a tests/testutil.h
 $(DEMO_BIN): demo/generate.c
 	@mkdir -p $(dir $@)
 	$(CC) $(CFLAGS) -O2 -o $@ $< $(LDLIBS)
+
+# ---- The shared library, the man pages, the completion, install ----
+# (DEVELOPERS.md "Installing".)  The version comes from one place,
+# SHEAF_VERSION in include/sheaf.h: "0.1" is 0.1.0, the soname carries the
+# major number (libsheaf.so.0 -> libsheaf.so.0.1.0).
+VERSION    := $(shell sed -n -E 's/^.[[:space:]]*define[[:space:]]+SHEAF_VERSION[[:space:]]+"([0-9.]+)".*/\1/p' include/sheaf.h)
+VERSION_W  := $(subst ., ,$(VERSION))
+SO_MAJOR   := $(word 1,$(VERSION_W))
+SO_VERSION := $(SO_MAJOR).$(or $(word 2,$(VERSION_W)),0).$(or $(word 3,$(VERSION_W)),0)
+SONAME     := libsheaf.so.$(SO_MAJOR)
+SHARED     := build/lib/libsheaf.so.$(SO_VERSION)
+# libsheaf.so is built from position-independent objects of its own
+# (build/pic/), with every symbol hidden but those the version script
+# src/libsheaf.map exports (sheaf_*).  sheaf itself links libsheaf.a.
+PIC_OBJ    := $(LIB_SRC:%.c=build/pic/%.o)
+
+build/pic/%.o: %.c
+	@mkdir -p $(dir $@)
+	$(CC) $(CFLAGS) -fPIC -fvisibility=hidden -c -o $@ $<
+
+$(SHARED): $(PIC_OBJ) src/libsheaf.map
+	@test -n "$(SO_MAJOR)" || { echo 'Makefile: no #define SHEAF_VERSION "X.Y[.Z]" in include/sheaf.h' >&2; exit 1; }
+	@mkdir -p $(dir $@)
+	$(CC) $(CFLAGS) -shared -Wl,-soname,$(SONAME) -Wl,--version-script=src/libsheaf.map \
+	    -Wl,--no-undefined -o $@ $(PIC_OBJ) $(LDLIBS)
+	ln -sf $(notdir $@) build/lib/$(SONAME)
+	ln -sf $(SONAME) build/lib/libsheaf.so
+
+shared: $(SHARED)
+
+# Man pages and the bash completion, written by sheaf from the option tables
+# that --help prints (src/cli/doc.h), so they cannot drift from it.  The
+# commands are those of the COMMANDS table in src/cli/main.c.  The pages
+# are dated by SOURCE_DATE_EPOCH, else by the last commit.
+CLI_COMMANDS := $(shell sed -n 's/^ *{"\([a-z]*\)", cmd_[a-z_]*,.*/\1/p' src/cli/main.c)
+MAN_PAGES    := build/man/sheaf.1 $(CLI_COMMANDS:%=build/man/sheaf-%.1)
+COMPLETION   := build/completion/sheaf
+DOC_EPOCH     = $(or $(SOURCE_DATE_EPOCH),$(shell git log -1 --format=%ct 2>/dev/null))
+
+build/man/sheaf.1: sheaf
+	@mkdir -p $(dir $@)
+	SOURCE_DATE_EPOCH=$(DOC_EPOCH) ./sheaf help --roff >$@.tmp && mv $@.tmp $@
+
+build/man/sheaf-%.1: sheaf
+	@mkdir -p $(dir $@)
+	SOURCE_DATE_EPOCH=$(DOC_EPOCH) ./sheaf help --roff $* >$@.tmp && mv $@.tmp $@
+
+$(COMPLETION): sheaf
+	@mkdir -p $(dir $@)
+	./sheaf help --completion >$@.tmp && mv $@.tmp $@
+
+man: $(MAN_PAGES)
+completion: $(COMPLETION)
+
+# GNU directory variables; DESTDIR is prepended to every one of them.
+PREFIX       ?= /usr/local
+EXEC_PREFIX  ?= $(PREFIX)
+BINDIR       ?= $(EXEC_PREFIX)/bin
+LIBDIR       ?= $(EXEC_PREFIX)/lib
+INCLUDEDIR   ?= $(PREFIX)/include
+DATAROOTDIR  ?= $(PREFIX)/share
+MANDIR       ?= $(DATAROOTDIR)/man
+MAN1DIR      ?= $(MANDIR)/man1
+PKGCONFIGDIR ?= $(LIBDIR)/pkgconfig
+BASHCOMPDIR  ?= $(DATAROOTDIR)/bash-completion/completions
+INSTALL      ?= install
+# sheaf.pc: the libraries with a .pc file on Debian 12 are required
+# privately by name; GSL is named by -lgsl because gsl.pc adds -lgslcblas,
+# which sheaf does not link (OpenBLAS provides the cblas_* symbols).
+PC_REQUIRES  := $(PKGS) zlib
+PC_LIBS      := -lgsl -lm -lpthread
+# In sheaf.pc, libdir relative to ${exec_prefix} and includedir to ${prefix}
+# where they are under them.
+PC_LIBDIR     = $(patsubst $(PREFIX)/%,$${prefix}/%,$(patsubst $(EXEC_PREFIX)/%,$${exec_prefix}/%,$(LIBDIR)))
+PC_INCLUDEDIR = $(patsubst $(PREFIX)/%,$${prefix}/%,$(INCLUDEDIR))
+# Every file install writes (uninstall removes these, and only these).
+INSTALLED := $(BINDIR)/sheaf $(LIBDIR)/libsheaf.a $(LIBDIR)/libsheaf.so.$(SO_VERSION) \
+             $(LIBDIR)/$(SONAME) $(LIBDIR)/libsheaf.so $(INCLUDEDIR)/sheaf.h \
+             $(PKGCONFIGDIR)/sheaf.pc $(MAN_PAGES:build/man/%=$(MAN1DIR)/%) $(BASHCOMPDIR)/sheaf
+
+build/sheaf.pc: sheaf.pc.in FORCE
+	@mkdir -p $(dir $@)
+	sed -e 's|@PREFIX@|$(PREFIX)|' \
+	    -e 's|@EXEC_PREFIX@|$(if $(filter $(PREFIX),$(EXEC_PREFIX)),$${prefix},$(EXEC_PREFIX))|' \
+	    -e 's|@LIBDIR@|$(PC_LIBDIR)|' -e 's|@INCLUDEDIR@|$(PC_INCLUDEDIR)|' \
+	    -e 's|@VERSION@|$(SO_VERSION)|' -e 's|@REQUIRES_PRIVATE@|$(PC_REQUIRES)|' \
+	    -e 's|@LIBS_PRIVATE@|$(PC_LIBS)|' sheaf.pc.in >$@.tmp && mv $@.tmp $@
+
+FORCE:
+
+install: all $(SHARED) build/sheaf.pc
+	$(INSTALL) -d $(DESTDIR)$(BINDIR) $(DESTDIR)$(LIBDIR) $(DESTDIR)$(INCLUDEDIR) \
+	    $(DESTDIR)$(PKGCONFIGDIR) $(DESTDIR)$(MAN1DIR) $(DESTDIR)$(BASHCOMPDIR)
+	$(INSTALL) -m 755 sheaf $(DESTDIR)$(BINDIR)/sheaf
+	$(INSTALL) -m 644 libsheaf.a $(DESTDIR)$(LIBDIR)/libsheaf.a
+	$(INSTALL) -m 755 $(SHARED) $(DESTDIR)$(LIBDIR)/libsheaf.so.$(SO_VERSION)
+	ln -sf libsheaf.so.$(SO_VERSION) $(DESTDIR)$(LIBDIR)/$(SONAME)
+	ln -sf $(SONAME) $(DESTDIR)$(LIBDIR)/libsheaf.so
+	$(INSTALL) -m 644 include/sheaf.h $(DESTDIR)$(INCLUDEDIR)/sheaf.h
+	$(INSTALL) -m 644 build/sheaf.pc $(DESTDIR)$(PKGCONFIGDIR)/sheaf.pc
+	$(INSTALL) -m 644 $(MAN_PAGES) $(DESTDIR)$(MAN1DIR)
+	$(INSTALL) -m 644 $(COMPLETION) $(DESTDIR)$(BASHCOMPDIR)/sheaf
+	@if [ -z "$(DESTDIR)" ] && [ "$$(id -u)" = 0 ] && command -v ldconfig >/dev/null; then ldconfig; fi
+
+uninstall:
+	rm -f $(addprefix $(DESTDIR),$(INSTALLED))
 
 # Sanitizers (DEVELOPERS.md "Tests"): the library, sheaf and the Criterion
 # suites built again with AddressSanitizer and UndefinedBehaviorSanitizer
@@ -193,7 +300,7 @@ clean:
 
 help:
 	@echo "make targets:"
-	@echo "  all (default)          build sheaf and libsheaf.a"
+	@echo "  all (default)          build sheaf, libsheaf.a, the man pages and the bash completion"
 	@echo "  deps                   install the Debian packages the build and tests need (root)"
 	@echo "  demo                   build, then run the demo scenario (writes demo/out/)"
 	@echo "  test                   every suite, then the sanitized quick subset; ends 'N passed, N failed'"
@@ -202,8 +309,14 @@ help:
 	@echo "  bench                  the benchmarks (bench/run.sh), results in bench/RESULTS.md"
 	@echo "  fuzz                   long libFuzzer runs (FUZZ_SECONDS per harness, FUZZ_ONLY=NAME)"
 	@echo "  trust-run              the bad-input run (TRUST_REPORT=FILE writes its table)"
+	@echo "  shared                 build build/lib/libsheaf.so (soname $(SONAME), only sheaf_* exported)"
+	@echo "  man                    write the man pages into build/man/ (part of all)"
+	@echo "  completion             write the bash completion into build/completion/ (part of all)"
+	@echo "  install                install under PREFIX (/usr/local) into DESTDIR: sheaf, libsheaf.a/.so,"
+	@echo "                         sheaf.h, sheaf.pc, man pages, bash completion (BINDIR, LIBDIR, ... too)"
+	@echo "  uninstall              remove what install wrote (the same PREFIX, DESTDIR)"
 	@echo "  clean                  remove build/, sheaf, libsheaf.a and demo/out/ (not bench/out/)"
 	@echo "  help                   this list"
 
--include $(LIB_OBJ:.o=.d) $(CLI_OBJ:.o=.d) $(FUZZ_OBJ:.o=.d) $(ASAN_LIB_OBJ:.o=.d) \
+-include $(LIB_OBJ:.o=.d) $(CLI_OBJ:.o=.d) $(PIC_OBJ:.o=.d) $(FUZZ_OBJ:.o=.d) $(ASAN_LIB_OBJ:.o=.d) \
          $(ASAN_CLI_OBJ:.o=.d) $(wildcard build/tests/*.d build/fuzz/*.d $(ASAN_DIR)/tests/*.d)

@@ -1,5 +1,6 @@
 /* cli: option parsing and help shared by the commands. */
 #include "cli/cli.h"
+#include "cli/doc.h"
 #include "io/closest.h"
 #include "summary/summary.h"
 #include "out/table.h"
@@ -29,6 +30,7 @@ void cli_error(const char *cmd, const char *fmt, ...)
 
 void cli_help(const cli_command *cmd)
 {
+    if (cli_doc_command(cmd)) return; /* sheaf help --roff / --completion (cli/doc.h) */
     printf("usage: sheaf %s %s\n\n%s\n", cmd->name, cmd->synopsis, cmd->about);
     if (cmd->options[0].name) printf("\noptions:\n");
     for (const cli_option *o = cmd->options; o->name; o++) {

@@ -13,6 +13,7 @@
 #include <unistd.h>
 
 #include "cli/cli.h"
+#include "cli/doc.h"
 #include "sheaf.h" /* SHEAF_VERSION */
 #include "io/closest.h"
 #include "stats/stat.h"
@@ -91,6 +92,48 @@ static const command *find_command(const char *name)
     return NULL;
 }
 
+/* The hidden `sheaf help --roff [COMMAND]` and `sheaf help --completion`
+ * (cli/doc.h): the man pages and the completion script the Makefile
+ * installs, from the tables --help prints.  -1 when argv is not one. */
+static int generated_docs(int argc, char **argv)
+{
+    enum { N = sizeof COMMANDS / sizeof *COMMANDS };
+    const char *names[N];
+    for (size_t i = 0; i < N; i++) names[i] = COMMANDS[i].name;
+    if (argc == 3 && !strcmp(argv[2], "--completion")) {
+        cli_doc_bash_begin(stdout, names, N);
+        for (size_t i = 0; i < N; i++) {
+            char *args[] = {(char *)COMMANDS[i].name, "--help", NULL};
+            cli_doc_set(CLI_DOC_BASH, COMMANDS[i].what, SHEAF_VERSION);
+            COMMANDS[i].run(2, args);
+        }
+        cli_doc_set(CLI_DOC_OFF, NULL, NULL);
+        cli_doc_bash_end(stdout);
+        return EXIT_DONE;
+    }
+    if (argc == 3 && !strcmp(argv[2], "--roff")) {
+        char *text = NULL;
+        size_t len = 0;
+        FILE *m = open_memstream(&text, &len);
+        if (!m) { fprintf(stderr, "sheaf help: out of memory\n"); return EXIT_RESOURCE; }
+        help(m);
+        if (fclose(m)) { free(text); fprintf(stderr, "sheaf help: out of memory\n"); return EXIT_RESOURCE; }
+        cli_doc_roff_top(stdout, text, names, N, SHEAF_VERSION);
+        free(text);
+        return EXIT_DONE;
+    }
+    if (argc == 4 && !strcmp(argv[2], "--roff")) {
+        const command *c = find_command(argv[3]);
+        if (!c) return unknown_command(argv[3]);
+        char *args[] = {argv[3], "--help", NULL};
+        cli_doc_set(CLI_DOC_ROFF, c->what, SHEAF_VERSION);
+        int rc = c->run(2, args);
+        cli_doc_set(CLI_DOC_OFF, NULL, NULL);
+        return rc;
+    }
+    return -1;
+}
+
 static int run(int argc, char **argv)
 {
     if (argc < 2) { help(stderr); return EXIT_USAGE; }
@@ -99,6 +142,8 @@ static int run(int argc, char **argv)
         help(stdout);
         return EXIT_DONE;
     }
+    int docs = !strcmp(argv[1], "help") ? generated_docs(argc, argv) : -1;
+    if (docs >= 0) return docs;
     if (!strcmp(argv[1], "help")) { /* sheaf help COMMAND: that command's --help */
         if (argc > 3) { fprintf(stderr, "sheaf help: give one command\n"); return EXIT_USAGE; }
         const command *c = find_command(argv[2]);

@@ -1,5 +1,6 @@
 #!/usr/bin/env bash
-# `make help` lists the targets a user runs, and `make clean` removes what
+# `make help` lists the targets a user runs (install and uninstall are
+# exercised by test_install.sh), and `make clean` removes what
 # the build, the tests and the demo wrote (demo/out/), but not the benchmark
 # tables (bench/out/, slow to make).  Checked with `make -n`, which prints
 # the commands without running them.
@@ -10,7 +11,7 @@ trap 'rm -rf "$T"' EXIT
 command -v make >/dev/null || { skip all "make not found"; exit 0; }
 
 make -s --no-print-directory help >"$T/help" 2>&1 || fail help_runs "exit $?"
-for t in all deps demo test bench fuzz clean help; do
+for t in all deps demo test bench fuzz clean help shared man completion install uninstall; do
     if grep -Eq "^  $t( |$)" "$T/help"; then pass "help_lists_$t"; else fail "help_lists_$t" "not in make help"; fi
 done
 make -n --no-print-directory clean >"$T/clean" 2>&1 || fail clean_dry "exit $?"
