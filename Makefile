@@ -16,7 +16,8 @@ DEB_PKGS := build-essential pkg-config libisal-dev isal zlib1g-dev libzstd-dev z
             hyperfine time bc clang
 
 NPROC   := $(shell nproc 2>/dev/null || echo 1)
-LIB_SRC := $(wildcard src/io/*.c src/acc/*.c src/summary/*.c src/stats/*.c src/out/*.c src/pass/*.c)
+LIB_SRC := $(wildcard src/io/*.c src/acc/*.c src/summary/*.c src/stats/*.c src/out/*.c src/pass/*.c \
+                     src/api/*.c)
 CLI_SRC := $(wildcard src/cli/*.c)
 LIB_OBJ := $(LIB_SRC:%.c=build/%.o)
 CLI_OBJ := $(CLI_SRC:%.c=build/%.o)
