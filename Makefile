@@ -44,6 +44,12 @@ build/tests/%: tests/%.c libsheaf.a tests/testutil.h
 	@mkdir -p $(dir $@)
 	$(CC) $(CFLAGS) -Itests -o $@ $< libsheaf.a -lcriterion $(LDLIBS)
 
+# test_api uses the public header alone (include/sheaf.h): built without
+# -Isrc, so that a reach into an internal header does not compile.
+build/tests/test_api: tests/test_api.c libsheaf.a include/sheaf.h
+	@mkdir -p $(dir $@)
+	$(CC) $(filter-out -Isrc,$(CFLAGS)) -o $@ $< libsheaf.a -lcriterion $(LDLIBS)
+
 $(DEMO_BIN): demo/generate.c
 	@mkdir -p $(dir $@)
 	$(CC) $(CFLAGS) -O2 -o $@ $< $(LDLIBS)
@@ -91,6 +97,10 @@ $(ASAN_DIR)/sheaf: $(ASAN_CLI_OBJ) $(ASAN_DIR)/libsheaf.a
 $(ASAN_DIR)/tests/%: tests/%.c $(ASAN_DIR)/libsheaf.a tests/testutil.h
 	@mkdir -p $(dir $@)
 	$(CC) $(ASAN_CFLAGS) -Itests -o $@ $< $(ASAN_DIR)/libsheaf.a -lcriterion $(LDLIBS)
+
+$(ASAN_DIR)/tests/test_api: tests/test_api.c $(ASAN_DIR)/libsheaf.a include/sheaf.h
+	@mkdir -p $(dir $@)
+	$(CC) $(filter-out -Isrc,$(ASAN_CFLAGS)) -o $@ $< $(ASAN_DIR)/libsheaf.a -lcriterion $(LDLIBS)
 
 sanitize-build: $(ASAN_DIR)/sheaf $(ASAN_DIR)/libsheaf.a $(ASAN_TEST_BIN)
 
