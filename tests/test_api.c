@@ -296,7 +296,7 @@ static void scan_one_way(int way, const char *path, const char *out, unsigned th
 
 Test(api, four_ways_in_give_byte_identical_summaries)
 {
-    char path[128], out[4][128], name[16];
+    char path[128], out[4][128], name[32];
     in_dir(path, sizeof path, "greenhouse.csv");
     write_file(path, GREENHOUSE, sizeof GREENHOUSE - 1);
     /* A file by path records its modification time, the other ways 0: the
