@@ -171,9 +171,9 @@ SHEAF_API int sheaf_options_set_pca_exclude(sheaf_options *o, const char *names,
  * A scan reads any number of streams in turn (they must share the header;
  * the first fixes the columns) and is finished into a summary.  Errors are
  * sticky: after one, every later call on the scan returns the same code and
- * message.  The four ways in give the same summary for the same bytes; only
- * the source record differs (a file by path records its size and
- * modification time, the others record 0 for the time). */
+ * message.  The four ways in give the same summary, byte for byte, for the
+ * same bytes under the same stream name, however the bytes are split; only
+ * a file by path also records its modification time (the others 0). */
 
 typedef struct sheaf_scan sheaf_scan;
 typedef struct sheaf_summary sheaf_summary;
@@ -302,8 +302,9 @@ typedef struct {
     uint64_t count;   /* occurrences (a lower bound once the value table overflowed) */
     int cut;          /* 1: the text is the start of a longer value */
 } sheaf_value;
-/* The k most frequent values, most frequent first, into out (room for k);
- * returns how many were written. */
+/* The k most frequent values, most frequent first (equal counts in a fixed
+ * order of sheaf's own), into out (room for k); returns how many were
+ * written (0 also when out of memory, which only k > 64 may run into). */
 SHEAF_API size_t sheaf_column_top(const sheaf_summary *s, size_t col, size_t k, sheaf_value *out);
 
 /* Pearson r of two numeric columns over the rows where both hold a number;
@@ -330,8 +331,8 @@ SHEAF_API void sheaf_screen_free(sheaf_screen *r);
 SHEAF_API int sheaf_screen_task(const sheaf_screen *r);         /* SHEAF_TASK_*; AUTO: no target */
 SHEAF_API size_t sheaf_screen_row_count(const sheaf_screen *r);  /* rows */
 SHEAF_API size_t sheaf_screen_kept_count(const sheaf_screen *r); /* rows kept */
-/* Row i (0 <= i < sheaf_screen_row_count): its summary column index and
- * name; 1 when kept, 0 when dropped; its rank among the kept (1 = most
+/* Row i (0 <= i < sheaf_screen_row_count; out of range: (size_t)-1, NULL,
+ * 0 or NaN): its summary column index and name; 1 when kept, 0 when dropped; its rank among the kept (1 = most
  * relevant, 0 when dropped); the test behind its q ("anova_f", "chi2",
  * "corr_f"; "" when untested) and that test's statistic; p and log10 p
  * (log10 p stays finite where p underflows to 0); the Benjamini-Hochberg q
@@ -360,7 +361,8 @@ typedef struct sheaf_pca sheaf_pca;
 SHEAF_API sheaf_pca *sheaf_pca_fit(const sheaf_summary *s, const sheaf_options *o,
                                    sheaf_error *err);
 SHEAF_API void sheaf_pca_free(sheaf_pca *f);
-/* Columns in the basis (= components), their summary indices and names. */
+/* Columns in the basis (= components), their summary indices and names
+ * (j out of range: (size_t)-1 and NULL). */
 SHEAF_API size_t sheaf_pca_column_count(const sheaf_pca *f);
 SHEAF_API size_t sheaf_pca_column(const sheaf_pca *f, size_t j);
 SHEAF_API const char *sheaf_pca_column_name(const sheaf_pca *f, size_t j);

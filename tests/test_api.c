@@ -839,3 +839,21 @@ Test(api, missing_spellings_replace_the_defaults)
     cr_expect(isnan(sheaf_correlation(s, tray, column(s, "temp_c"))));
     sheaf_summary_free(s);
 }
+
+Test(api, screen_without_a_target_only_flags)
+{
+    sheaf_summary *s = scan_text(GREENHOUSE, sizeof GREENHOUSE - 1, NULL);
+    sheaf_error err;
+    cr_expect_null(sheaf_summary_target(s));
+    sheaf_screen *r = sheaf_screen_run(s, NULL, &err);
+    cr_assert_not_null(r, "%s", err.message);
+    cr_expect_eq(sheaf_screen_task(r), SHEAF_TASK_AUTO);
+    cr_expect_eq(sheaf_screen_row_count(r), 6, "every column is a row");
+    for (size_t i = 0; i < sheaf_screen_row_count(r); i++) {
+        cr_expect_str_eq(sheaf_screen_test(r, i), "", "nothing is tested without a target");
+        cr_expect(isnan(sheaf_screen_q(r, i)));
+    }
+    cr_expect_eq(sheaf_screen_column(r, 6), (size_t)-1);
+    sheaf_screen_free(r);
+    sheaf_summary_free(s);
+}
