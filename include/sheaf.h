@@ -146,6 +146,12 @@ SHEAF_API int sheaf_options_set_columns(sheaf_options *o, const char *names, she
 SHEAF_API int sheaf_options_set_numeric(sheaf_options *o, const char *names, sheaf_error *err);
 SHEAF_API int sheaf_options_set_categorical(sheaf_options *o, const char *names, sheaf_error *err);
 SHEAF_API int sheaf_options_set_ignore(sheaf_options *o, const char *names, sheaf_error *err);
+/* The longest record accepted, in bytes (at least 64; default 64 MiB): a
+ * longer one fails the scan with SHEAF_ERR_INPUT naming its byte offset. */
+SHEAF_API int sheaf_options_set_max_record_bytes(sheaf_options *o, size_t bytes, sheaf_error *err);
+/* 1: read a stream whose start does not look like text (NUL or control
+ * bytes), which is refused by default (SHEAF_ERR_INPUT). */
+SHEAF_API int sheaf_options_set_force(sheaf_options *o, int force, sheaf_error *err);
 /* Exact value counts kept per column before the table overflows (1 .. 2^24). */
 SHEAF_API int sheaf_options_set_max_levels(sheaf_options *o, uint32_t levels, sheaf_error *err);
 /* Target classes kept before a numeric target turns to regression (2 .. 65536). */

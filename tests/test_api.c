@@ -857,3 +857,35 @@ Test(api, screen_without_a_target_only_flags)
     sheaf_screen_free(r);
     sheaf_summary_free(s);
 }
+
+Test(api, reading_limits_long_records_and_binary_input)
+{
+    sheaf_error err = {0, ""};
+    sheaf_options *o = options(NULL, 1);
+    cr_expect_eq(sheaf_options_set_max_record_bytes(o, 10, &err), SHEAF_ERR_USAGE);
+    cr_assert_eq(sheaf_options_set_max_record_bytes(o, 64, &err), SHEAF_OK);
+    sheaf_scan *sc = sheaf_scan_create(o, &err);
+    char text[200];
+    memset(text, 'x', sizeof text);
+    memcpy(text, "a,b\n1,", 6);
+    text[sizeof text - 1] = '\n';
+    cr_expect_eq(sheaf_scan_memory(sc, text, sizeof text, "wide", &err), SHEAF_ERR_INPUT);
+    cr_expect(strstr(err.message, "wide") != NULL, "%s", err.message);
+    sheaf_scan_free(sc);
+    /* NUL bytes in a header: refused unless forced. */
+    static const char bin[] = "a,b\n1,\0\0\0\0\0\0\0\0\0\0\0\0\0\0\0\0\0\0\0\0\0\0\0\0\n2,3\n";
+    sc = sheaf_scan_create(o, &err);
+    err.code = 0;
+    cr_expect_eq(sheaf_scan_memory(sc, bin, sizeof bin - 1, "bin", &err), SHEAF_ERR_INPUT);
+    sheaf_scan_free(sc);
+    cr_assert_eq(sheaf_options_set_force(o, 1, &err), SHEAF_OK);
+    sc = sheaf_scan_create(o, &err);
+    cr_expect_eq(sheaf_scan_memory(sc, bin, sizeof bin - 1, "bin", &err), SHEAF_OK, "%s",
+                 err.message);
+    sheaf_summary *s = sheaf_scan_finish(sc, &err);
+    cr_expect_not_null(s, "%s", err.message);
+    cr_expect_eq(sheaf_summary_rows(s), 2);
+    sheaf_summary_free(s);
+    sheaf_scan_free(sc);
+    sheaf_options_free(o);
+}

@@ -339,3 +339,20 @@ int sheaf_options_set_pca_basis(sheaf_options *o, int basis, sheaf_error *err)
     o->pca.basis = basis == SHEAF_BASIS_COVARIANCE ? PCA_BASIS_COVARIANCE : PCA_BASIS_CORRELATION;
     return SHEAF_OK;
 }
+
+int sheaf_options_set_max_record_bytes(sheaf_options *o, size_t bytes, sheaf_error *err)
+{
+    if (!o) return no_options(err, "sheaf_options_set_max_record_bytes");
+    if (bytes < 64)
+        return api_fail(err, SHEAF_ERR_USAGE,
+                        "sheaf_options_set_max_record_bytes: at least 64, got %zu", bytes);
+    o->scan.max_record_bytes = bytes;
+    return SHEAF_OK;
+}
+
+int sheaf_options_set_force(sheaf_options *o, int force, sheaf_error *err)
+{
+    if (!o) return no_options(err, "sheaf_options_set_force");
+    o->scan.force = force != 0;
+    return SHEAF_OK;
+}
