@@ -16,7 +16,8 @@ DEB_PKGS := build-essential pkg-config libisal-dev isal zlib1g-dev libzstd-dev z
             hyperfine time bc clang mandoc groff-base
 
 NPROC   := $(shell nproc 2>/dev/null || echo 1)
-LIB_SRC := $(wildcard src/io/*.c src/acc/*.c src/summary/*.c src/stats/*.c src/out/*.c src/pass/*.c)
+LIB_SRC := $(wildcard src/io/*.c src/acc/*.c src/summary/*.c src/stats/*.c src/out/*.c src/pass/*.c \
+                     src/api/*.c)
 CLI_SRC := $(wildcard src/cli/*.c)
 LIB_OBJ := $(LIB_SRC:%.c=build/%.o)
 CLI_OBJ := $(CLI_SRC:%.c=build/%.o)
@@ -43,6 +44,12 @@ build/%.o: %.c
 build/tests/%: tests/%.c libsheaf.a tests/testutil.h
 	@mkdir -p $(dir $@)
 	$(CC) $(CFLAGS) -Itests -o $@ $< libsheaf.a -lcriterion $(LDLIBS)
+
+# test_api uses the public header alone (include/sheaf.h): built without
+# -Isrc, so that a reach into an internal header does not compile.
+build/tests/test_api: tests/test_api.c libsheaf.a include/sheaf.h
+	@mkdir -p $(dir $@)
+	$(CC) $(filter-out -Isrc,$(CFLAGS)) -o $@ $< libsheaf.a -lcriterion $(LDLIBS)
 
 $(DEMO_BIN): demo/generate.c
 	@mkdir -p $(dir $@)
@@ -197,6 +204,10 @@ $(ASAN_DIR)/sheaf: $(ASAN_CLI_OBJ) $(ASAN_DIR)/libsheaf.a
 $(ASAN_DIR)/tests/%: tests/%.c $(ASAN_DIR)/libsheaf.a tests/testutil.h
 	@mkdir -p $(dir $@)
 	$(CC) $(ASAN_CFLAGS) -Itests -o $@ $< $(ASAN_DIR)/libsheaf.a -lcriterion $(LDLIBS)
+
+$(ASAN_DIR)/tests/test_api: tests/test_api.c $(ASAN_DIR)/libsheaf.a include/sheaf.h
+	@mkdir -p $(dir $@)
+	$(CC) $(filter-out -Isrc,$(ASAN_CFLAGS)) -o $@ $< $(ASAN_DIR)/libsheaf.a -lcriterion $(LDLIBS)
 
 sanitize-build: $(ASAN_DIR)/sheaf $(ASAN_DIR)/libsheaf.a $(ASAN_TEST_BIN)
 

@@ -1,67 +1,388 @@
-/* sheaf: the public API of libsheaf.a.
+/* sheaf.h: the public C API of libsheaf.
  *
  * sheaf reads CSV/TSV tables (plain, gzip, zstd) once, in bounded memory,
  * into a mergeable summary, and computes screening statistics and principal
- * components from summaries alone.  The library is the same code the `sheaf`
- * command runs; a program uses it in four steps:
+ * components from summaries alone.  This header is the whole interface: it
+ * includes only standard headers, declares opaque handles and `sheaf_*`
+ * calls, and needs nothing but -I for its own directory.  docs/library.md
+ * has the walk-through and a complete program; the link line is
  *
- *   scan_options o;  scan_options_defaults(&o);       summary/scan.h
- *   o.opt.target = "outcome";
- *   scan_context *sc = scan_create(&o);
- *   scan_path(sc, "night-1.csv.gz");                   a file (or scan_source)
- *   scan_begin(sc, "feed");  scan_feed(sc, buf, n); ... scan_end(sc);   bytes it holds
- *   summary *s = scan_finish(sc);  scan_free(sc);     (or scan_files for a path list)
- *   summary_write(s, "night.sheaf", err, sizeof err);  summary/summary.h
- *   summary_merge(a, b, err, sizeof err);              exact merge of two summaries
+ *   cc prog.c -Iinclude libsheaf.a -lgsl -lisal -lzstd -lxxhash -lopenblas \
+ *      -llapacke -lz -lm -lpthread
  *
- *   o.targets = "outcome,grade";                       several targets, one pass:
- *   summary_set *set = scan_finish_set(sc);            one summary per target, each what
- *                                                      a scan with it alone gives
- *   summary_set_write(set, "night.sheaf", err, sizeof err);   one file holds them all
- *   summary_set_read("night.sheaf", &set, err, sizeof err);   any summary file (n >= 1)
- *   summary *g = summary_set_take(set, summary_set_find(set, "grade"));
- *   summary_read_target("night.sheaf", "grade", &g, err, sizeof err);   or in one call
- *   summary_set_merge(a, b, err, sizeof err);          the same targets, the same order
+ * The handles:
+ *   sheaf_options      what a scan reads and keeps, and how screen and PCA run
+ *   sheaf_scan         one pass over streams (files, FILE *, memory, fed bytes)
+ *   sheaf_summary      the summary of one table (one target, or none)
+ *   sheaf_summary_set  the summaries of a scan or file with several targets
+ *   sheaf_screen       a screen's rows: which columns to keep and why
+ *   sheaf_pca          a principal component fit
  *
-
- *   screen_result *r = screen_run(s, &screen_opts);    stats/screen.h
- *   pca_fit(s, &pca_opts, &fit, err, sizeof err);      stats/pca.h
- *   long col = summary_find_column(s, "x");            summary/access.h (-1: no such column)
- *   double mean = summary_mean(s, (size_t)col);        reading a summary, one figure a call
- *   describe_column(s, col, 0.99, 3, &d);              stats/describe.h (what `info` shows)
- *   corr_matrix(s, cols, n, CORR_PEARSON, out);        stats/corr.h
- *   trim_files(&trim_opts, paths, n, out, err, sizeof err);       pass/trim.h
- *   project_files(s, fit, k, &proj_opts, paths, n, out, err, sizeof err);  pass/project.h
+ * Errors.  Every call that can fail returns an int status (SHEAF_OK, 0, on
+ * success, else a SHEAF_ERR_* code) or a pointer (NULL on failure), and
+ * takes a `sheaf_error *err` as its last argument.  On failure the call
+ * writes the code and a one-line message (naming the file, line or byte
+ * offset where there is one) into *err; on success *err is left as it was.
+ * err may be NULL when the caller does not want the message.  Calls that
+ * cannot fail (the readers of figures) take no err: a figure that does not
+ * exist (no numbers, fewer than two for a variance, a column index out of
+ * range) is NaN, a count is 0, a name is NULL.
  *
- * Every function reports failure through its return value and a one-line
- * message in a caller-provided buffer; none prints or exits.  Objects are
- * created and freed by the caller (summary_free, summary_set_free,
- * screen_free, pca_result_free); a summary taken out of a set with
- * summary_set_take is the caller's, the set keeps NULL in its place.  Nothing keeps global mutable state, so independent
- * summaries may be built on different threads.  A scan, trim or project
- * starts worker threads of its own: as many as the CPUs the process may use,
- * unless o.threads (or the pass's `threads`) says otherwise (1: none); the
- * results are the same, byte for byte, for every count.
+ * Ownership.  Every handle is created by one call and freed by its
+ * sheaf_*_free (which accepts NULL).  Strings and arrays passed in are
+ * copied before the call returns, so the caller may free them at once.
+ * Strings returned point into the handle they were read from and live until
+ * that handle is freed; the caller never frees them.  Objects made from
+ * another (a scan from options, a screen or PCA from a summary) hold copies
+ * of what they need, so their source may be freed first.
  *
- * Compile with -Iinclude -Isrc and link libsheaf.a with
- *   -lgsl -lisal -lzstd -lxxhash -lopenblas -llapacke -lz -lm -lpthread
- * (the module headers below live under src/ and document each call).
+ * Threads.  No call keeps global mutable state.  A handle may be used by one
+ * thread at a time; the read-only calls on a summary (readers, screen, PCA,
+ * write) may run on many threads at once.  A scan starts worker threads of
+ * its own (sheaf_options_set_threads); the summary is the same, byte for
+ * byte, for every thread count and for every way the bytes are split.
  */
 #ifndef SHEAF_H
 #define SHEAF_H
 
-#include "io/reader.h"
-#include "summary/scan.h"
-#include "summary/summary.h"
-#include "summary/access.h"
-#include "stats/corr.h"
-#include "stats/describe.h"
-#include "stats/logp.h"
-#include "stats/screen.h"
-#include "stats/pca.h"
-#include "pass/trim.h"
-#include "pass/project.h"
+#include <stddef.h>
+#include <stdint.h>
+#include <stdio.h>
 
-#define SHEAF_VERSION "0.1"
+#ifdef __cplusplus
+extern "C" {
+#endif
+
+/* Marks the exported calls, so that a shared library built with
+ * -fvisibility=hidden exports these and nothing else. */
+#ifndef SHEAF_API
+#if defined(__GNUC__) || defined(__clang__)
+#define SHEAF_API __attribute__((visibility("default")))
+#else
+#define SHEAF_API
+#endif
+#endif
+
+/* ---- version and errors ---------------------------------------------------- */
+
+#define SHEAF_VERSION_MAJOR 0
+#define SHEAF_VERSION_MINOR 1
+#define SHEAF_VERSION "0.1" /* "MAJOR.MINOR" of this header */
+
+/* The version of the library linked in, "MAJOR.MINOR" (static storage). */
+SHEAF_API const char *sheaf_version(void);
+
+enum {
+    SHEAF_OK = 0,
+    SHEAF_ERR_USAGE = 1,        /* a bad argument: unknown column, value out of range,
+                                   a call out of order */
+    SHEAF_ERR_INPUT = 2,        /* table data that cannot be read or is malformed */
+    SHEAF_ERR_IO = 3,           /* a summary file that cannot be read or written */
+    SHEAF_ERR_CORRUPT = 4,      /* not a summary, damaged, truncated, or from a newer sheaf */
+    SHEAF_ERR_INCOMPATIBLE = 5, /* summaries that cannot be merged (schema or options) */
+    SHEAF_ERR_TARGETS = 6,      /* a file of several targets where one summary was asked
+                                   for, or a target the file does not hold */
+    SHEAF_ERR_MEMORY = 7,       /* out of memory, or over the scan's memory limit */
+    SHEAF_ERR_NUMERIC = 8       /* the eigen-decomposition failed */
+};
+
+/* A short phrase for a status code ("ok", "out of memory" ...; static
+ * storage); "unknown error code" for a value that is none of them. */
+SHEAF_API const char *sheaf_error_string(int code);
+
+#define SHEAF_ERROR_BYTES 1024
+/* What a failed call wrote: its code and a one-line message (cut to fit). */
+typedef struct {
+    int code;                        /* a SHEAF_ERR_* code */
+    char message[SHEAF_ERROR_BYTES]; /* one line, no newline */
+} sheaf_error;
+
+/* ---- options ---------------------------------------------------------------
+ *
+ * Setter style: create, set what differs from the defaults, hand to
+ * sheaf_scan_create (which copies it) and to sheaf_screen_run / sheaf_pca_fit
+ * (which read it during the call).  Every setter copies its strings and
+ * returns SHEAF_OK or SHEAF_ERR_USAGE for a value out of range. */
+
+typedef struct sheaf_options sheaf_options;
+
+enum { SHEAF_TASK_AUTO = 0, SHEAF_TASK_CLASSIFY = 1, SHEAF_TASK_REGRESS = 2 };
+enum { SHEAF_BASIS_CORRELATION = 0, SHEAF_BASIS_COVARIANCE = 1 };
+
+/* Defaults: no target, delimiter detected, header on, the missing-value
+ * spellings NA N/A null NULL None - ? (any letter case; the empty cell is
+ * always missing), 1024 exact values and 256 classes per column, as many
+ * scan threads as CPUs, no memory limit; screen at q 0.05 with redundancy
+ * |r| 0.95 and no cap; PCA on the correlation basis of the automatic columns.
+ * NULL when out of memory.  Free with sheaf_options_free. */
+SHEAF_API sheaf_options *sheaf_options_create(sheaf_error *err);
+SHEAF_API void sheaf_options_free(sheaf_options *o);
+
+/* The outcome column: one header name, or several separated by commas (a
+ * text that is a whole header name is one column), kept for in one pass
+ * (then finish with sheaf_scan_finish_set).  NULL: none. */
+SHEAF_API int sheaf_options_set_target(sheaf_options *o, const char *names, sheaf_error *err);
+/* SHEAF_TASK_AUTO (decided when the summary is read), _CLASSIFY or _REGRESS. */
+SHEAF_API int sheaf_options_set_task(sheaf_options *o, int task, sheaf_error *err);
+/* Worker threads: 0 = the CPUs the process may use, 1 = none (all on the
+ * calling thread). */
+SHEAF_API int sheaf_options_set_threads(sheaf_options *o, unsigned threads, sheaf_error *err);
+/* The field delimiter, one byte (',' '\t' ';' '|' ' ' ...), or 0 to detect it. */
+SHEAF_API int sheaf_options_set_delimiter(sheaf_options *o, char delimiter, sheaf_error *err);
+/* 1: the first record names the columns (default); 0: it is data, and the
+ * columns are named col1, col2, ... */
+SHEAF_API int sheaf_options_set_header(sheaf_options *o, int has_header, sheaf_error *err);
+/* 1: a row with too few or too many fields is an error (default 0: counted). */
+SHEAF_API int sheaf_options_set_strict(sheaf_options *o, int strict, sheaf_error *err);
+/* Replaces the missing-value spellings with these n (at most 32, each at
+ * most 1024 bytes; n = 0 leaves only the empty cell missing).  They match in
+ * any ASCII letter case. */
+SHEAF_API int sheaf_options_set_missing(sheaf_options *o, const char *const *spellings, size_t n,
+                                        sheaf_error *err);
+/* Comma-separated header names (NULL: clear): scan only these columns;
+ * declare these numeric; declare these categorical (never parsed); leave
+ * these out.  A name the header does not hold fails the scan (USAGE). */
+SHEAF_API int sheaf_options_set_columns(sheaf_options *o, const char *names, sheaf_error *err);
+SHEAF_API int sheaf_options_set_numeric(sheaf_options *o, const char *names, sheaf_error *err);
+SHEAF_API int sheaf_options_set_categorical(sheaf_options *o, const char *names, sheaf_error *err);
+SHEAF_API int sheaf_options_set_ignore(sheaf_options *o, const char *names, sheaf_error *err);
+/* The longest record accepted, in bytes (at least 64; default 64 MiB): a
+ * longer one fails the scan with SHEAF_ERR_INPUT naming its byte offset. */
+SHEAF_API int sheaf_options_set_max_record_bytes(sheaf_options *o, size_t bytes, sheaf_error *err);
+/* 1: read a stream whose start does not look like text (NUL or control
+ * bytes), which is refused by default (SHEAF_ERR_INPUT). */
+SHEAF_API int sheaf_options_set_force(sheaf_options *o, int force, sheaf_error *err);
+/* Exact value counts kept per column before the table overflows (1 .. 2^24). */
+SHEAF_API int sheaf_options_set_max_levels(sheaf_options *o, uint32_t levels, sheaf_error *err);
+/* Target classes kept before a numeric target turns to regression (2 .. 65536). */
+SHEAF_API int sheaf_options_set_max_classes(sheaf_options *o, uint32_t classes, sheaf_error *err);
+/* Memory the scan may add, in bytes (0: no limit); past it the scan fails
+ * with SHEAF_ERR_MEMORY. */
+SHEAF_API int sheaf_options_set_memory_limit(sheaf_options *o, uint64_t bytes, sheaf_error *err);
+/* Screen: the q-value at which a column is relevant (0 < q <= 1, default
+ * 0.05); at most `top` columns kept (0: no cap); the |r| above which the
+ * less relevant of two kept numeric columns is dropped (0 < r <= 1, 0.95). */
+SHEAF_API int sheaf_options_set_q_level(sheaf_options *o, double q, sheaf_error *err);
+SHEAF_API int sheaf_options_set_keep_at_most(sheaf_options *o, size_t top, sheaf_error *err);
+SHEAF_API int sheaf_options_set_redundancy(sheaf_options *o, double abs_r, sheaf_error *err);
+/* PCA: SHEAF_BASIS_CORRELATION or _COVARIANCE; comma-separated columns to
+ * use instead of the automatic choice (NULL: automatic); columns to leave
+ * out (NULL: none). */
+SHEAF_API int sheaf_options_set_pca_basis(sheaf_options *o, int basis, sheaf_error *err);
+SHEAF_API int sheaf_options_set_pca_columns(sheaf_options *o, const char *names, sheaf_error *err);
+SHEAF_API int sheaf_options_set_pca_exclude(sheaf_options *o, const char *names, sheaf_error *err);
+
+/* ---- scanning ---------------------------------------------------------------
+ *
+ * A scan reads any number of streams in turn (they must share the header;
+ * the first fixes the columns) and is finished into a summary.  Errors are
+ * sticky: after one, every later call on the scan returns the same code and
+ * message.  The four ways in give the same summary, byte for byte, for the
+ * same bytes under the same stream name, however the bytes are split; only
+ * a file by path also records its modification time (the others 0). */
+
+typedef struct sheaf_scan sheaf_scan;
+typedef struct sheaf_summary sheaf_summary;
+typedef struct sheaf_summary_set sheaf_summary_set;
+
+/* A scan with a copy of the options (NULL: the defaults); o may be freed
+ * at once.  NULL on failure.  Free with sheaf_scan_free. */
+SHEAF_API sheaf_scan *sheaf_scan_create(const sheaf_options *o, sheaf_error *err);
+SHEAF_API void sheaf_scan_free(sheaf_scan *sc);
+
+/* A file by path: plain, gzip or zstd, detected from its bytes; "-" is
+ * standard input. */
+SHEAF_API int sheaf_scan_path(sheaf_scan *sc, const char *path, sheaf_error *err);
+/* Reads f from where it stands to its end (the bytes as they are: plain
+ * text, not decompressed) as one stream named `name` (copied; used in
+ * messages and the source record).  f stays open and the caller's. */
+SHEAF_API int sheaf_scan_stream(sheaf_scan *sc, FILE *f, const char *name, sheaf_error *err);
+/* len bytes of plain text held in memory, as one stream named `name`.  The
+ * bytes are read during the call only. */
+SHEAF_API int sheaf_scan_memory(sheaf_scan *sc, const void *data, size_t len, const char *name,
+                                sheaf_error *err);
+/* Bytes fed in pieces of any size: begin a stream named `name`, feed, end.
+ * Each piece is read during the call only. */
+SHEAF_API int sheaf_scan_begin(sheaf_scan *sc, const char *name, sheaf_error *err);
+SHEAF_API int sheaf_scan_feed(sheaf_scan *sc, const void *data, size_t len, sheaf_error *err);
+SHEAF_API int sheaf_scan_end(sheaf_scan *sc, sheaf_error *err);
+
+/* The summary of everything scanned, owned by the caller (sheaf_summary_free).
+ * NULL on an error, when nothing was scanned, or when the scan has several
+ * targets (SHEAF_ERR_USAGE: use sheaf_scan_finish_set).  The scan is spent:
+ * only sheaf_scan_free remains. */
+SHEAF_API sheaf_summary *sheaf_scan_finish(sheaf_scan *sc, sheaf_error *err);
+/* The summaries of everything scanned, one per target in the order named
+ * (a set of one without a target or with one), owned by the caller
+ * (sheaf_summary_set_free). */
+SHEAF_API sheaf_summary_set *sheaf_scan_finish_set(sheaf_scan *sc, sheaf_error *err);
+
+/* ---- summaries: files and merges --------------------------------------------- */
+
+SHEAF_API void sheaf_summary_free(sheaf_summary *s);
+/* Writes s to path, atomically: the file appears whole or not at all ("-":
+ * standard output). */
+SHEAF_API int sheaf_summary_write(const sheaf_summary *s, const char *path, sheaf_error *err);
+/* Reads a summary file ("-": standard input).  A file of several targets
+ * fails with SHEAF_ERR_TARGETS naming them (use sheaf_summary_read_target).
+ * Owned by the caller. */
+SHEAF_API sheaf_summary *sheaf_summary_read(const char *path, sheaf_error *err);
+/* Reads one target's summary from a file of several targets, or a file of
+ * one summary whose target it is (SHEAF_ERR_TARGETS otherwise). */
+SHEAF_API sheaf_summary *sheaf_summary_read_target(const char *path, const char *target,
+                                                   sheaf_error *err);
+/* Decodes a summary from the len bytes of a summary file in memory (read
+ * during the call only). */
+SHEAF_API sheaf_summary *sheaf_summary_read_memory(const void *data, size_t len, sheaf_error *err);
+/* into := into + from, exactly as a scan of both tables' bytes would count
+ * (moments up to rounding).  The schemas and options must agree
+ * (SHEAF_ERR_INCOMPATIBLE, naming the differences).  from stays the
+ * caller's; it may be changed (its target classes dropped when into's were).
+ * On failure into may be partly merged: discard it. */
+SHEAF_API int sheaf_summary_merge(sheaf_summary *into, sheaf_summary *from, sheaf_error *err);
+
+/* Several targets.  A set owns its summaries until one is taken out. */
+SHEAF_API void sheaf_summary_set_free(sheaf_summary_set *set);
+SHEAF_API sheaf_summary_set *sheaf_summary_set_read(const char *path, sheaf_error *err);
+SHEAF_API int sheaf_summary_set_write(const sheaf_summary_set *set, const char *path,
+                                      sheaf_error *err);
+/* Part by part; the sets must hold the same targets in the same order. */
+SHEAF_API int sheaf_summary_set_merge(sheaf_summary_set *into, sheaf_summary_set *from,
+                                      sheaf_error *err);
+SHEAF_API size_t sheaf_summary_set_count(const sheaf_summary_set *set);
+/* The target of part i (owned by the set); NULL when out of range, when the
+ * part has no target, or after it was taken. */
+SHEAF_API const char *sheaf_summary_set_target(const sheaf_summary_set *set, size_t i);
+/* Takes part i out of the set: the caller owns it from then on. */
+SHEAF_API sheaf_summary *sheaf_summary_set_take(sheaf_summary_set *set, size_t i, sheaf_error *err);
+
+/* ---- summaries: the table and its columns -----------------------------------
+ *
+ * A column is named by its index, 0 <= col < sheaf_summary_column_count(s).
+ * Figures are in the column's own units.  Returned strings are owned by s. */
+
+SHEAF_API uint64_t sheaf_summary_rows(const sheaf_summary *s);        /* data rows */
+SHEAF_API size_t sheaf_summary_column_count(const sheaf_summary *s);  /* scanned columns */
+SHEAF_API const char *sheaf_summary_column_name(const sheaf_summary *s, size_t col);
+SHEAF_API const char *sheaf_summary_target(const sheaf_summary *s);   /* NULL: no target */
+/* The index of the column with this exact name into *col; SHEAF_ERR_USAGE
+ * for no such column, with the nearest names in the message. */
+SHEAF_API int sheaf_summary_find_column(const sheaf_summary *s, const char *name, size_t *col,
+                                        sheaf_error *err);
+
+/* Counts: finite numbers, present cells (numbers, text, inf/nan), missing
+ * cells (absent ones in short rows included), present cells that are not
+ * numbers. */
+SHEAF_API uint64_t sheaf_column_numbers(const sheaf_summary *s, size_t col);
+SHEAF_API uint64_t sheaf_column_present(const sheaf_summary *s, size_t col);
+SHEAF_API uint64_t sheaf_column_missing(const sheaf_summary *s, size_t col);
+SHEAF_API uint64_t sheaf_column_text(const sheaf_summary *s, size_t col);
+/* 1 when at least 99% of the present cells are numbers (or the column was
+ * declared numeric), else 0. */
+SHEAF_API int sheaf_column_is_numeric(const sheaf_summary *s, size_t col);
+/* Moments of the finite numbers: mean; sample variance and sd (n - 1);
+ * skewness g1 = sqrt(n) m3 / m2^1.5; excess kurtosis g2 = n m4 / m2^2 - 3;
+ * smallest and largest number.  NaN where undefined. */
+SHEAF_API double sheaf_column_mean(const sheaf_summary *s, size_t col);
+SHEAF_API double sheaf_column_variance(const sheaf_summary *s, size_t col);
+SHEAF_API double sheaf_column_sd(const sheaf_summary *s, size_t col);
+SHEAF_API double sheaf_column_skewness(const sheaf_summary *s, size_t col);
+SHEAF_API double sheaf_column_kurtosis(const sheaf_summary *s, size_t col);
+SHEAF_API double sheaf_column_min(const sheaf_summary *s, size_t col);
+SHEAF_API double sheaf_column_max(const sheaf_summary *s, size_t col);
+/* The p[i]-quantiles (0 <= p[i] <= 1; NaN for another p or without numbers)
+ * into out[i], i < k, by numpy.quantile's default (linear) definition:
+ * exact while the value table holds every number (*rel_error = 0), else
+ * estimates within *rel_error relative (rel_error may be NULL). */
+SHEAF_API int sheaf_column_quantiles(const sheaf_summary *s, size_t col, const double *p, size_t k,
+                                     double *out, double *rel_error, sheaf_error *err);
+/* Distinct values: exact while the value table holds them (*exact = 1),
+ * else a HyperLogLog estimate (*exact = 0; exact may be NULL). */
+SHEAF_API double sheaf_column_distinct(const sheaf_summary *s, size_t col, int *exact);
+
+/* A value and its count.  text points into the summary and is NOT
+ * NUL-terminated: print it with "%.*s", (int)v.len, v.text. */
+typedef struct {
+    const char *text; /* the value's text (the first bytes of it when cut) */
+    size_t len;       /* bytes of text */
+    uint64_t count;   /* occurrences (a lower bound once the value table overflowed) */
+    int cut;          /* 1: the text is the start of a longer value */
+} sheaf_value;
+/* The k most frequent values, most frequent first (equal counts in a fixed
+ * order of sheaf's own), into out (room for k); returns how many were
+ * written (0 also when out of memory, which only k > 64 may run into). */
+SHEAF_API size_t sheaf_column_top(const sheaf_summary *s, size_t col, size_t k, sheaf_value *out);
+
+/* Pearson r of two numeric columns over the rows where both hold a number;
+ * NaN with fewer than two such rows, a constant side, or a column outside
+ * the co-moments (declared categorical).  The sample covariance over the
+ * same rows, and how many rows that is. */
+SHEAF_API double sheaf_correlation(const sheaf_summary *s, size_t a, size_t b);
+SHEAF_API double sheaf_covariance(const sheaf_summary *s, size_t a, size_t b);
+SHEAF_API uint64_t sheaf_pair_count(const sheaf_summary *s, size_t a, size_t b);
+
+/* ---- screen ------------------------------------------------------------------
+ *
+ * Which columns to keep as features of the summary's target, and why: one
+ * row per column other than the target, in summary order.  A screen holds
+ * copies of what it reports (it may outlive the summary). */
+
+typedef struct sheaf_screen sheaf_screen;
+
+/* Runs the screen with o's screen settings (NULL: the defaults).  NULL on
+ * failure.  Free with sheaf_screen_free. */
+SHEAF_API sheaf_screen *sheaf_screen_run(const sheaf_summary *s, const sheaf_options *o,
+                                         sheaf_error *err);
+SHEAF_API void sheaf_screen_free(sheaf_screen *r);
+SHEAF_API int sheaf_screen_task(const sheaf_screen *r);         /* SHEAF_TASK_*; AUTO: no target */
+SHEAF_API size_t sheaf_screen_row_count(const sheaf_screen *r);  /* rows */
+SHEAF_API size_t sheaf_screen_kept_count(const sheaf_screen *r); /* rows kept */
+/* Row i (0 <= i < sheaf_screen_row_count; out of range: (size_t)-1, NULL,
+ * 0 or NaN): its summary column index and name; 1 when kept, 0 when dropped; its rank among the kept (1 = most
+ * relevant, 0 when dropped); the test behind its q ("anova_f", "chi2",
+ * "corr_f"; "" when untested) and that test's statistic; p and log10 p
+ * (log10 p stays finite where p underflows to 0); the Benjamini-Hochberg q
+ * and log10 q (NaN when untested); the reasons, "; "-separated. */
+SHEAF_API size_t sheaf_screen_column(const sheaf_screen *r, size_t i);
+SHEAF_API const char *sheaf_screen_name(const sheaf_screen *r, size_t i);
+SHEAF_API int sheaf_screen_kept(const sheaf_screen *r, size_t i);
+SHEAF_API size_t sheaf_screen_rank(const sheaf_screen *r, size_t i);
+SHEAF_API const char *sheaf_screen_test(const sheaf_screen *r, size_t i);
+SHEAF_API double sheaf_screen_statistic(const sheaf_screen *r, size_t i);
+SHEAF_API double sheaf_screen_p(const sheaf_screen *r, size_t i);
+SHEAF_API double sheaf_screen_log10_p(const sheaf_screen *r, size_t i);
+SHEAF_API double sheaf_screen_q(const sheaf_screen *r, size_t i);
+SHEAF_API double sheaf_screen_log10_q(const sheaf_screen *r, size_t i);
+SHEAF_API const char *sheaf_screen_reason(const sheaf_screen *r, size_t i);
+
+/* ---- principal components ------------------------------------------------------
+ *
+ * From the pairwise-complete correlation (or covariance) matrix of the
+ * summary's numeric columns.  A fit holds copies of what it reports. */
+
+typedef struct sheaf_pca sheaf_pca;
+
+/* Fits with o's PCA settings (NULL: the defaults).  NULL on failure (a named
+ * column that is not usable: SHEAF_ERR_USAGE).  Free with sheaf_pca_free. */
+SHEAF_API sheaf_pca *sheaf_pca_fit(const sheaf_summary *s, const sheaf_options *o,
+                                   sheaf_error *err);
+SHEAF_API void sheaf_pca_free(sheaf_pca *f);
+/* Columns in the basis (= components), their summary indices and names
+ * (j out of range: (size_t)-1 and NULL). */
+SHEAF_API size_t sheaf_pca_column_count(const sheaf_pca *f);
+SHEAF_API size_t sheaf_pca_column(const sheaf_pca *f, size_t j);
+SHEAF_API const char *sheaf_pca_column_name(const sheaf_pca *f, size_t j);
+/* Component k's eigenvalue (decreasing in k; negative ones set to 0), its
+ * share of the sum and the cumulative share; NaN out of range. */
+SHEAF_API double sheaf_pca_eigenvalue(const sheaf_pca *f, size_t k);
+SHEAF_API double sheaf_pca_share(const sheaf_pca *f, size_t k);
+SHEAF_API double sheaf_pca_cumulative(const sheaf_pca *f, size_t k);
+/* Loading of basis column j on component k: the unit eigenvector's entry,
+ * signed so that each component's largest-magnitude entry is positive. */
+SHEAF_API double sheaf_pca_loading(const sheaf_pca *f, size_t k, size_t j);
+
+#ifdef __cplusplus
+}
+#endif
 
 #endif

@@ -1,0 +1,246 @@
+/* api_stats: the screen and PCA handles of the public API (include/sheaf.h)
+ * over stats/screen.h and stats/pca.h.  Each handle keeps the internal
+ * result and copies of the column names it reports, so it may outlive the
+ * summary it came from. */
+#include "api/api.h"
+
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "summary/access.h"
+
+struct sheaf_screen {
+    screen_result *r;  /* owned */
+    char **names;      /* r->nfeatures names, owned */
+};
+
+struct sheaf_pca {
+    pca_result *r;     /* owned */
+    char **names;      /* r->p names, owned */
+};
+
+static void free_names(char **names, size_t n)
+{
+    if (!names) return;
+    for (size_t i = 0; i < n; i++) free(names[i]);
+    free(names);
+}
+
+/* Copies of the names of the n columns cols[i]; NULL when out of memory. */
+static char **copy_names(const summary *s, const size_t *cols, size_t n)
+{
+    char **names = calloc(n ? n : 1, sizeof *names);
+    if (!names) return NULL;
+    for (size_t i = 0; i < n; i++)
+        if (!(names[i] = strdup(summary_name(s, cols[i])))) {
+            free_names(names, n);
+            return NULL;
+        }
+    return names;
+}
+
+/* ---- screen ---------------------------------------------------------------- */
+
+sheaf_screen *sheaf_screen_run(const sheaf_summary *s, const sheaf_options *o, sheaf_error *err)
+{
+    if (!s) {
+        api_fail(err, SHEAF_ERR_USAGE, "sheaf_screen_run: no summary (NULL)");
+        return NULL;
+    }
+    screen_options so;
+    if (o) so = o->screen;
+    else screen_options_defaults(&so);
+    sheaf_screen *w = calloc(1, sizeof *w);
+    if (!w || !(w->r = screen_run(s->s, &so))) goto oom;
+    size_t n = w->r->nfeatures;
+    w->names = calloc(n ? n : 1, sizeof *w->names);
+    if (!w->names) goto oom;
+    for (size_t i = 0; i < n; i++)
+        if (!(w->names[i] = strdup(summary_name(s->s, w->r->features[i].col)))) goto oom;
+    return w;
+oom:
+    sheaf_screen_free(w);
+    api_fail(err, SHEAF_ERR_MEMORY, "out of memory");
+    return NULL;
+}
+
+void sheaf_screen_free(sheaf_screen *r)
+{
+    if (!r) return;
+    if (r->r) free_names(r->names, r->r->nfeatures);
+    screen_free(r->r);
+    free(r);
+}
+
+int sheaf_screen_task(const sheaf_screen *r)
+{
+    if (!r) return SHEAF_TASK_AUTO;
+    return r->r->task == TASK_CLASSIFY ? SHEAF_TASK_CLASSIFY
+           : r->r->task == TASK_REGRESS ? SHEAF_TASK_REGRESS : SHEAF_TASK_AUTO;
+}
+
+size_t sheaf_screen_row_count(const sheaf_screen *r) { return r ? r->r->nfeatures : 0; }
+size_t sheaf_screen_kept_count(const sheaf_screen *r) { return r ? r->r->kept : 0; }
+
+/* Row i, or NULL out of range. */
+static const screen_feature *row(const sheaf_screen *r, size_t i)
+{
+    return r && i < r->r->nfeatures ? &r->r->features[i] : NULL;
+}
+
+/* The test that decided the row's q, as `sheaf screen` names it
+ * (src/cli/screen.c): the task and the column's kind choose it. */
+static const screen_test *primary(const sheaf_screen *r, const screen_feature *f,
+                                  const char **name)
+{
+    target_task task = r->r->task;
+    if (task == TASK_CLASSIFY && f->kind == KIND_NUMERIC) { *name = "anova_f"; return &f->anova_f; }
+    if (task == TASK_CLASSIFY) { *name = "chi2"; return &f->chi2; }
+    if (task == TASK_REGRESS && f->kind == KIND_NUMERIC) { *name = "corr_f"; return &f->corr_f; }
+    if (task == TASK_REGRESS) { *name = "anova_f"; return &f->anova_f; }
+    *name = "";
+    return NULL;
+}
+
+size_t sheaf_screen_column(const sheaf_screen *r, size_t i)
+{
+    const screen_feature *f = row(r, i);
+    return f ? f->col : (size_t)-1;
+}
+
+const char *sheaf_screen_name(const sheaf_screen *r, size_t i)
+{
+    return row(r, i) ? r->names[i] : NULL;
+}
+
+int sheaf_screen_kept(const sheaf_screen *r, size_t i)
+{
+    const screen_feature *f = row(r, i);
+    return f ? f->keep != 0 : 0;
+}
+
+size_t sheaf_screen_rank(const sheaf_screen *r, size_t i)
+{
+    const screen_feature *f = row(r, i);
+    return f ? f->rank : 0;
+}
+
+const char *sheaf_screen_test(const sheaf_screen *r, size_t i)
+{
+    const screen_feature *f = row(r, i);
+    if (!f) return NULL;
+    const char *name;
+    const screen_test *t = primary(r, f, &name);
+    return t && t->present ? name : "";
+}
+
+double sheaf_screen_statistic(const sheaf_screen *r, size_t i)
+{
+    const screen_feature *f = row(r, i);
+    if (!f) return NAN;
+    const char *name;
+    const screen_test *t = primary(r, f, &name);
+    return t && t->present ? t->stat : NAN;
+}
+
+double sheaf_screen_p(const sheaf_screen *r, size_t i)
+{
+    const screen_feature *f = row(r, i);
+    return f ? f->p : NAN;
+}
+
+double sheaf_screen_log10_p(const sheaf_screen *r, size_t i)
+{
+    const screen_feature *f = row(r, i);
+    return f ? f->log10_p : NAN;
+}
+
+double sheaf_screen_q(const sheaf_screen *r, size_t i)
+{
+    const screen_feature *f = row(r, i);
+    return f ? f->q : NAN;
+}
+
+double sheaf_screen_log10_q(const sheaf_screen *r, size_t i)
+{
+    const screen_feature *f = row(r, i);
+    return f ? f->log10_q : NAN;
+}
+
+const char *sheaf_screen_reason(const sheaf_screen *r, size_t i)
+{
+    const screen_feature *f = row(r, i);
+    return f ? f->reasons : NULL;
+}
+
+/* ---- PCA ------------------------------------------------------------------- */
+
+sheaf_pca *sheaf_pca_fit(const sheaf_summary *s, const sheaf_options *o, sheaf_error *err)
+{
+    if (!s) {
+        api_fail(err, SHEAF_ERR_USAGE, "sheaf_pca_fit: no summary (NULL)");
+        return NULL;
+    }
+    pca_options po;
+    if (o) po = o->pca;
+    else pca_options_defaults(&po);
+    char msg[SHEAF_ERROR_BYTES] = "";
+    pca_result *r = NULL;
+    pca_status st = pca_fit(s->s, &po, &r, msg, sizeof msg);
+    if (st != PCA_OK) {
+        api_fail(err, st == PCA_ERR_MEMORY ? SHEAF_ERR_MEMORY
+                      : st == PCA_ERR_LAPACK ? SHEAF_ERR_NUMERIC : SHEAF_ERR_USAGE,
+                 "%s", msg);
+        return NULL;
+    }
+    sheaf_pca *w = calloc(1, sizeof *w);
+    if (!w || !(w->names = copy_names(s->s, r->cols, r->p))) {
+        free(w);
+        pca_result_free(r);
+        api_fail(err, SHEAF_ERR_MEMORY, "out of memory");
+        return NULL;
+    }
+    w->r = r;
+    return w;
+}
+
+void sheaf_pca_free(sheaf_pca *f)
+{
+    if (!f) return;
+    if (f->r) free_names(f->names, f->r->p);
+    pca_result_free(f->r);
+    free(f);
+}
+
+size_t sheaf_pca_column_count(const sheaf_pca *f) { return f ? f->r->p : 0; }
+
+size_t sheaf_pca_column(const sheaf_pca *f, size_t j)
+{
+    return f && j < f->r->p ? f->r->cols[j] : (size_t)-1;
+}
+
+const char *sheaf_pca_column_name(const sheaf_pca *f, size_t j)
+{
+    return f && j < f->r->p ? f->names[j] : NULL;
+}
+
+double sheaf_pca_eigenvalue(const sheaf_pca *f, size_t k)
+{
+    return f && k < f->r->p ? f->r->eigenvalues[k] : NAN;
+}
+
+double sheaf_pca_share(const sheaf_pca *f, size_t k)
+{
+    return f && k < f->r->p ? f->r->share[k] : NAN;
+}
+
+double sheaf_pca_cumulative(const sheaf_pca *f, size_t k)
+{
+    return f && k < f->r->p ? f->r->cumulative[k] : NAN;
+}
+
+double sheaf_pca_loading(const sheaf_pca *f, size_t k, size_t j)
+{
+    return f && k < f->r->p && j < f->r->p ? f->r->loadings[k * f->r->p + j] : NAN;
+}

@@ -1,0 +1,333 @@
+/* api_summary: summaries and sets of the public API (include/sheaf.h): their
+ * files and merges (summary/summary.h) and the figures of a table and its
+ * columns (summary/access.h).  Column indices are checked here, since the
+ * accessors below do not check them: out of range gives NaN, 0 or NULL. */
+#include "api/api.h"
+
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "summary/access.h"
+
+/* The kind rule of `screen` and `info` (screen_options_defaults). */
+#define NUMERIC_SHARE 0.99
+
+sheaf_summary *api_wrap(summary *s, sheaf_error *err)
+{
+    sheaf_summary *w = malloc(sizeof *w);
+    if (!w) {
+        summary_free(s);
+        api_fail(err, SHEAF_ERR_MEMORY, "out of memory");
+        return NULL;
+    }
+    w->s = s;
+    return w;
+}
+
+void sheaf_summary_free(sheaf_summary *s)
+{
+    if (!s) return;
+    summary_free(s->s);
+    free(s);
+}
+
+static int no_summary(sheaf_error *err, const char *call)
+{
+    return api_fail(err, SHEAF_ERR_USAGE, "%s: no summary (NULL)", call);
+}
+
+/* A status of summary/summary.h as the public code, its message into err. */
+static int reported(summary_status st, const char *msg, sheaf_error *err)
+{
+    if (st == SUMMARY_OK) return SHEAF_OK;
+    return api_fail(err, api_summary_code(st), "%s", msg);
+}
+
+int sheaf_summary_write(const sheaf_summary *s, const char *path, sheaf_error *err)
+{
+    if (!s) return no_summary(err, "sheaf_summary_write");
+    if (!path) return api_fail(err, SHEAF_ERR_USAGE, "sheaf_summary_write: no path (NULL)");
+    char msg[SHEAF_ERROR_BYTES] = "";
+    return reported(summary_write(s->s, path, msg, sizeof msg), msg, err);
+}
+
+sheaf_summary *sheaf_summary_read(const char *path, sheaf_error *err)
+{
+    return sheaf_summary_read_target(path, NULL, err);
+}
+
+sheaf_summary *sheaf_summary_read_target(const char *path, const char *target, sheaf_error *err)
+{
+    if (!path) {
+        api_fail(err, SHEAF_ERR_USAGE, "sheaf_summary_read: no path (NULL)");
+        return NULL;
+    }
+    char msg[SHEAF_ERROR_BYTES] = "";
+    summary *s = NULL;
+    if (reported(summary_read_target(path, target, &s, msg, sizeof msg), msg, err)) return NULL;
+    return api_wrap(s, err);
+}
+
+sheaf_summary *sheaf_summary_read_memory(const void *data, size_t len, sheaf_error *err)
+{
+    if (!data && len) {
+        api_fail(err, SHEAF_ERR_USAGE, "sheaf_summary_read_memory: no bytes (NULL)");
+        return NULL;
+    }
+    char msg[SHEAF_ERROR_BYTES] = "";
+    summary *s = NULL;
+    if (reported(summary_decode(data, len, &s, msg, sizeof msg), msg, err)) return NULL;
+    return api_wrap(s, err);
+}
+
+int sheaf_summary_merge(sheaf_summary *into, sheaf_summary *from, sheaf_error *err)
+{
+    if (!into || !from) return no_summary(err, "sheaf_summary_merge");
+    if (into == from)
+        return api_fail(err, SHEAF_ERR_USAGE, "sheaf_summary_merge: a summary merged into itself");
+    char msg[SHEAF_ERROR_BYTES] = "";
+    return reported(summary_merge(into->s, from->s, msg, sizeof msg), msg, err);
+}
+
+/* ---- sets ------------------------------------------------------------------- */
+
+void sheaf_summary_set_free(sheaf_summary_set *set)
+{
+    if (!set) return;
+    summary_set_free(set->set);
+    free(set);
+}
+
+sheaf_summary_set *sheaf_summary_set_read(const char *path, sheaf_error *err)
+{
+    if (!path) {
+        api_fail(err, SHEAF_ERR_USAGE, "sheaf_summary_set_read: no path (NULL)");
+        return NULL;
+    }
+    char msg[SHEAF_ERROR_BYTES] = "";
+    summary_set *set = NULL;
+    if (reported(summary_set_read(path, &set, msg, sizeof msg), msg, err)) return NULL;
+    sheaf_summary_set *w = malloc(sizeof *w);
+    if (!w) {
+        summary_set_free(set);
+        api_fail(err, SHEAF_ERR_MEMORY, "out of memory");
+        return NULL;
+    }
+    w->set = set;
+    return w;
+}
+
+/* 1 when every part is still in the set (write and merge need them all). */
+static int whole(const sheaf_summary_set *set, const char *call, sheaf_error *err)
+{
+    if (!set) { api_fail(err, SHEAF_ERR_USAGE, "%s: no set (NULL)", call); return 0; }
+    for (size_t i = 0; i < set->set->n; i++)
+        if (!set->set->parts[i]) {
+            api_fail(err, SHEAF_ERR_USAGE, "%s: part %zu was taken out of the set", call, i);
+            return 0;
+        }
+    return 1;
+}
+
+int sheaf_summary_set_write(const sheaf_summary_set *set, const char *path, sheaf_error *err)
+{
+    if (!whole(set, "sheaf_summary_set_write", err)) return err ? err->code : SHEAF_ERR_USAGE;
+    if (!path) return api_fail(err, SHEAF_ERR_USAGE, "sheaf_summary_set_write: no path (NULL)");
+    char msg[SHEAF_ERROR_BYTES] = "";
+    return reported(summary_set_write(set->set, path, msg, sizeof msg), msg, err);
+}
+
+int sheaf_summary_set_merge(sheaf_summary_set *into, sheaf_summary_set *from, sheaf_error *err)
+{
+    if (!whole(into, "sheaf_summary_set_merge", err) || !whole(from, "sheaf_summary_set_merge", err))
+        return err ? err->code : SHEAF_ERR_USAGE;
+    if (into == from)
+        return api_fail(err, SHEAF_ERR_USAGE, "sheaf_summary_set_merge: a set merged into itself");
+    char msg[SHEAF_ERROR_BYTES] = "";
+    return reported(summary_set_merge(into->set, from->set, msg, sizeof msg), msg, err);
+}
+
+size_t sheaf_summary_set_count(const sheaf_summary_set *set) { return set ? set->set->n : 0; }
+
+const char *sheaf_summary_set_target(const sheaf_summary_set *set, size_t i)
+{
+    if (!set || i >= set->set->n || !set->set->parts[i]) return NULL;
+    return summary_target_name(set->set->parts[i]);
+}
+
+sheaf_summary *sheaf_summary_set_take(sheaf_summary_set *set, size_t i, sheaf_error *err)
+{
+    if (!set) {
+        api_fail(err, SHEAF_ERR_USAGE, "sheaf_summary_set_take: no set (NULL)");
+        return NULL;
+    }
+    if (i >= set->set->n) {
+        api_fail(err, SHEAF_ERR_USAGE, "sheaf_summary_set_take: part %zu of %zu", i, set->set->n);
+        return NULL;
+    }
+    if (!set->set->parts[i]) {
+        api_fail(err, SHEAF_ERR_USAGE, "sheaf_summary_set_take: part %zu was taken already", i);
+        return NULL;
+    }
+    sheaf_summary *w = malloc(sizeof *w);
+    if (!w) {
+        api_fail(err, SHEAF_ERR_MEMORY, "out of memory");
+        return NULL;
+    }
+    w->s = summary_set_take(set->set, i);
+    return w;
+}
+
+/* ---- the table and its columns ------------------------------------------------ */
+
+uint64_t sheaf_summary_rows(const sheaf_summary *s) { return s ? summary_rows(s->s) : 0; }
+
+size_t sheaf_summary_column_count(const sheaf_summary *s) { return s ? summary_columns(s->s) : 0; }
+
+/* 1 when col is a column of s. */
+static int has(const sheaf_summary *s, size_t col) { return s && col < summary_columns(s->s); }
+
+const char *sheaf_summary_column_name(const sheaf_summary *s, size_t col)
+{
+    return has(s, col) ? summary_name(s->s, col) : NULL;
+}
+
+const char *sheaf_summary_target(const sheaf_summary *s)
+{
+    return s ? summary_target_name(s->s) : NULL;
+}
+
+int sheaf_summary_find_column(const sheaf_summary *s, const char *name, size_t *col,
+                              sheaf_error *err)
+{
+    if (!s) return no_summary(err, "sheaf_summary_find_column");
+    if (!name) return api_fail(err, SHEAF_ERR_USAGE, "sheaf_summary_find_column: no name (NULL)");
+    long i = summary_find_column(s->s, name);
+    if (i < 0) {
+        char msg[SHEAF_ERROR_BYTES];
+        snprintf(msg, sizeof msg, "no column '%s'", name);
+        summary_suggest_columns(s->s, name, strlen(name), msg, sizeof msg);
+        return api_fail(err, SHEAF_ERR_USAGE, "%s", msg);
+    }
+    if (col) *col = (size_t)i;
+    return SHEAF_OK;
+}
+
+uint64_t sheaf_column_numbers(const sheaf_summary *s, size_t col)
+{
+    return has(s, col) ? summary_numbers(s->s, col) : 0;
+}
+
+uint64_t sheaf_column_present(const sheaf_summary *s, size_t col)
+{
+    return has(s, col) ? summary_present(s->s, col) : 0;
+}
+
+uint64_t sheaf_column_missing(const sheaf_summary *s, size_t col)
+{
+    return has(s, col) ? summary_missing(s->s, col) : 0;
+}
+
+uint64_t sheaf_column_text(const sheaf_summary *s, size_t col)
+{
+    return has(s, col) ? summary_non_numeric(s->s, col) : 0;
+}
+
+int sheaf_column_is_numeric(const sheaf_summary *s, size_t col)
+{
+    return has(s, col) && summary_kind(s->s, col, NUMERIC_SHARE) == KIND_NUMERIC;
+}
+
+double sheaf_column_mean(const sheaf_summary *s, size_t col)
+{
+    return has(s, col) ? summary_mean(s->s, col) : NAN;
+}
+
+double sheaf_column_variance(const sheaf_summary *s, size_t col)
+{
+    return has(s, col) ? summary_variance(s->s, col) : NAN;
+}
+
+double sheaf_column_sd(const sheaf_summary *s, size_t col)
+{
+    return has(s, col) ? summary_sd(s->s, col) : NAN;
+}
+
+double sheaf_column_skewness(const sheaf_summary *s, size_t col)
+{
+    return has(s, col) ? summary_skewness(s->s, col) : NAN;
+}
+
+double sheaf_column_kurtosis(const sheaf_summary *s, size_t col)
+{
+    return has(s, col) ? summary_kurtosis(s->s, col) : NAN;
+}
+
+double sheaf_column_min(const sheaf_summary *s, size_t col)
+{
+    return has(s, col) ? summary_min(s->s, col) : NAN;
+}
+
+double sheaf_column_max(const sheaf_summary *s, size_t col)
+{
+    return has(s, col) ? summary_max(s->s, col) : NAN;
+}
+
+int sheaf_column_quantiles(const sheaf_summary *s, size_t col, const double *p, size_t k,
+                           double *out, double *rel_error, sheaf_error *err)
+{
+    if (!s) return no_summary(err, "sheaf_column_quantiles");
+    if (!has(s, col))
+        return api_fail(err, SHEAF_ERR_USAGE, "sheaf_column_quantiles: column %zu of %zu", col,
+                        summary_columns(s->s));
+    if (k && (!p || !out))
+        return api_fail(err, SHEAF_ERR_USAGE, "sheaf_column_quantiles: no p or out (NULL)");
+    if (summary_quantiles(s->s, col, p, k, out, rel_error) != 0)
+        return api_fail(err, SHEAF_ERR_MEMORY, "out of memory");
+    return SHEAF_OK;
+}
+
+double sheaf_column_distinct(const sheaf_summary *s, size_t col, int *exact)
+{
+    if (!has(s, col)) {
+        if (exact) *exact = 0;
+        return NAN;
+    }
+    return summary_distinct(s->s, col, exact);
+}
+
+size_t sheaf_column_top(const sheaf_summary *s, size_t col, size_t k, sheaf_value *out)
+{
+    if (!has(s, col) || !k || !out) return 0;
+    values_entry e[64];
+    size_t done = 0;
+    /* summary_top fills a caller array; go through a small one when k is
+     * small, a heap one otherwise. */
+    values_entry *buf = k <= 64 ? e : malloc(k * sizeof *buf);
+    if (!buf) return 0;
+    done = summary_top(s->s, col, k, buf);
+    for (size_t i = 0; i < done; i++) {
+        out[i].text = buf[i].label;
+        out[i].len = buf[i].label_len;
+        out[i].count = buf[i].count;
+        out[i].cut = buf[i].cut != 0;
+    }
+    if (buf != e) free(buf);
+    return done;
+}
+
+double sheaf_correlation(const sheaf_summary *s, size_t a, size_t b)
+{
+    return has(s, a) && has(s, b) ? summary_correlation(s->s, a, b) : NAN;
+}
+
+double sheaf_covariance(const sheaf_summary *s, size_t a, size_t b)
+{
+    return has(s, a) && has(s, b) ? summary_covariance(s->s, a, b) : NAN;
+}
+
+uint64_t sheaf_pair_count(const sheaf_summary *s, size_t a, size_t b)
+{
+    return has(s, a) && has(s, b) ? summary_pair_count(s->s, a, b) : 0;
+}
