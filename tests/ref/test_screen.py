@@ -760,7 +760,7 @@ def test_options(tag, summary, base):
               js["kept"] == len(got) == min(k, len(order)) and got == order[:k],
               "kept %r %s; without --top %s" % (js["kept"], got, order))
         beyond = [f["name"] for f in js["features"]
-                  if f["name"] in order[k:] and not any(r.startswith("beyond --top")
+                  if f["name"] in order[k:] and not any(r.startswith("beyond the first ")
                                                        for r in f["reasons"])]
         check("%s.top_%d.reason_beyond_top" % (tag, k), not beyond,
               "without the reason: %s" % beyond)
