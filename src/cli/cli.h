@@ -42,8 +42,11 @@ typedef struct {
  * alone is an argument.  Positional arguments are put in *pos (allocated;
  * caller frees).  Returns 0, 1 if --help (or -h) was shown, or EXIT_USAGE
  * after a one-line error (an unknown long option names the nearest ones,
- * io/closest.h; an unknown letter lists the letters there are). */
+ * io/closest.h; an unknown letter lists the letters there are).  An old
+ * spelling in CLI_RENAMED is read as its new option after a one-line
+ * warning on stderr. */
 int cli_parse(const cli_command *cmd, int argc, char **argv, char ***pos, size_t *npos);
+/* --help: usage, about, the options, the renamed old spellings, examples. */
 void cli_help(const cli_command *cmd);
 /* "sheaf CMD: message" on stderr, with every setting key of a library
  * message ("{max_classes}") shown as its option (cli_name_settings). */

@@ -89,14 +89,14 @@ static scan_status within_limit(scan_context *sc, int before_rows)
     if (before_rows)
         snprintf(sc->err, sizeof sc->err,
                  "the accumulators of %zu columns (with %u target classes at most) take %s "
-                 "before any row, above the %s memory limit {mem_limit}",
+                 "before any row, above the %s memory limit ({mem_limit})",
                  sc->run ? sc->run->ncols : (size_t)0,
                  sc->run && sc->run->target >= 0 ? sc->o.opt.max_classes : 0,
                  held, limit);
     else
         snprintf(sc->err, sizeof sc->err,
                  "%s: byte %llu: the scan holds %s (its accumulators, chunk buffers and "
-                 "co-moments), above the %s memory limit {mem_limit}",
+                 "co-moments), above the %s memory limit ({mem_limit})",
                  sc->name ? sc->name : "input", (unsigned long long)sc->pushed_bytes, held, limit);
     return scan_fail(sc, SCAN_ERR_MEMORY, NULL);
 }
@@ -192,7 +192,7 @@ static scan_status setup(scan_context *sc, char **names, size_t nnames)
     if (o->mem_limit_bytes && need > o->mem_limit_bytes) {
         snprintf(sc->err, sizeof sc->err,
                  "the co-moment matrix of %zu numeric columns needs %s, above the %s "
-                 "memory limit {mem_limit}; restrict the columns with {columns}, {exclude} or "
+                 "limit ({mem_limit}); restrict the columns with {columns}, {exclude} or "
                  "{categorical}, or raise the limit",
                  ncomo, show_bytes((double)need, needs, sizeof needs), limit);
         st = SCAN_ERR_MEMORY;
@@ -204,7 +204,7 @@ static scan_status setup(scan_context *sc, char **names, size_t nnames)
     if (o->mem_limit_bytes && need + nbuf * chunk > o->mem_limit_bytes) {
         snprintf(sc->err, sizeof sc->err,
                  "the co-moment matrix (%s) and %llu chunk buffers of %s need "
-                 "%s before any row, above the %s memory limit {mem_limit}; lower {chunk_size} "
+                 "%s before any row, above the %s limit ({mem_limit}); lower {chunk_size} "
                  "or {threads}, or raise the limit",
                  show_bytes((double)need, needs, sizeof needs), (unsigned long long)nbuf,
                  show_bytes((double)chunk, chunk_s, sizeof chunk_s),
