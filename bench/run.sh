@@ -236,8 +236,8 @@ PY
     local m_scan m_small t_pca m_pca
     m_scan=$(peak_kb ./sheaf scan "$wide" -o "$out/w2000.sheaf" -q)
     m_small=$(peak_kb ./sheaf scan "$wide" -o "$out/w2000s.sheaf" -q --max-levels 256 --bucket-budget 512)
-    t_pca=$(median_s "./sheaf pca $out/w2000.sheaf --k 5")
-    m_pca=$(peak_kb ./sheaf pca "$out/w2000.sheaf" --k 5)
+    t_pca=$(median_s "./sheaf pca $out/w2000.sheaf --components 5")
+    m_pca=$(peak_kb ./sheaf pca "$out/w2000.sheaf" --components 5)
     /usr/bin/python3 - "$m_scan" "$m_small" "$t_pca" "$m_pca" "$(stat -c %s "$out/w2000.sheaf")" <<'PY' >"$out/pca.md"
 import sys
 ms, mm, t, mp, size = int(sys.argv[1]), int(sys.argv[2]), float(sys.argv[3]), int(sys.argv[4]), int(sys.argv[5])
@@ -248,7 +248,7 @@ print("| what | median s | peak memory |")
 print("| --- | ---: | ---: |")
 print("| `sheaf scan`, defaults (max-levels 1024, bucket-budget 2048) | | %.0f MiB |" % (ms / 1024))
 print("| `sheaf scan --max-levels 256 --bucket-budget 512` | | %.0f MiB |" % (mm / 1024))
-print("| `sheaf pca --k 5` on the %.0f MB summary | %.2f | %.0f MiB |" % (size / 1e6, t, mp / 1024))
+print("| `sheaf pca --components 5` on the %.0f MB summary | %.2f | %.0f MiB |" % (size / 1e6, t, mp / 1024))
 print()
 print("The co-moment state and block scratch of p columns take 3p(p+1)/2 + p^2 + ... doubles:")
 print("0.95 MiB for 100 columns, 15.4 MiB for 500, 222 MiB for 2,000 (`comoment_bytes`). The rest")
@@ -262,7 +262,7 @@ section_project() {
     local plain=$out/bench-$rows.csv mb t
     mb=$(stat -c %s "$plain")
     [ -s "$out/p.sheaf" ] || ./sheaf scan "$plain" -o "$out/p.sheaf" -q
-    t=$(median_s "./sheaf project $plain --pca $out/p.sheaf --k 5 -o $out/scores.csv")
+    t=$(median_s "./sheaf project $plain --summary $out/p.sheaf --components 5 -o $out/scores.csv")
     local ncols
     ncols=$(./sheaf pca "$out/p.sheaf" --format json | /usr/bin/python3 -c "import json,sys; print(len(json.load(sys.stdin)['columns']))")
     /usr/bin/python3 - "$mb" "$t" "$ncols" <<'PY' >"$out/project.md"
@@ -273,7 +273,7 @@ print("`sheaf project` over the %.0f MB plain benchmark table, %s numeric column
 print("Target: at least 100 MB/s on one core.\n")
 print("| what | median s | MB/s |")
 print("| --- | ---: | ---: |")
-print("| `sheaf project --k 5 -o scores.csv` | %.3f | %.0f |" % (t, mb / t))
+print("| `sheaf project --components 5 -o scores.csv` | %.3f | %.0f |" % (t, mb / t))
 print()
 PY
 }

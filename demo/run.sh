@@ -37,23 +37,23 @@ echo "== sheaf info"
 
 echo
 echo "== sheaf screen: which columns to keep against arrival_condition"
-./sheaf screen "$out/legs.sheaf" --keep-list "$out/keep.txt"
+./sheaf screen "$out/legs.sheaf" --write-kept "$out/keep.txt"
 
 echo
 echo "== sheaf trim: the reduced table (second streaming pass)"
-/usr/bin/time -f "   %e s" ./sheaf trim "$out"/legs-0*.csv.gz --from "$out/legs.sheaf" \
+/usr/bin/time -f "   %e s" ./sheaf trim "$out"/legs-0*.csv.gz --summary "$out/legs.sheaf" \
     --carry reading_id -o "$out/legs-reduced.csv.gz"
 ls -l "$out/legs-reduced.csv.gz" | awk '{printf "   %s: %.1f MB\n", $9, $5 / 1e6}'
 { zcat "$out/legs-reduced.csv.gz" || true; } 2>/dev/null | head -n 3 | sed 's/^/   /'
 
 echo
 echo "== sheaf pca: principal components of the kept numeric columns"
-./sheaf pca "$out/legs.sheaf" --keep-list "$out/keep.txt"
+./sheaf pca "$out/legs.sheaf" --columns-from "$out/keep.txt"
 
 echo
 echo "== sheaf project: the first component scores (another streaming pass)"
-/usr/bin/time -f "   %e s" ./sheaf project "$out"/legs-0*.csv.gz --pca "$out/legs.sheaf" \
-    --keep-list "$out/keep.txt" --k 3 --carry reading_id,arrival_condition -o "$out/legs-scores.csv.gz"
+/usr/bin/time -f "   %e s" ./sheaf project "$out"/legs-0*.csv.gz --summary "$out/legs.sheaf" \
+    --columns-from "$out/keep.txt" -k 3 --carry reading_id,arrival_condition -o "$out/legs-scores.csv.gz"
 { zcat "$out/legs-scores.csv.gz" || true; } 2>/dev/null | head -n 4 | sed 's/^/   /'
 echo
 echo "Everything above came from one read of each shard plus the two output passes;"

@@ -414,7 +414,7 @@ Test(screen_ranking, top_keeps_only_the_k_most_relevant, .init = make_dir, .fini
         const screen_feature *f = &r->features[i];
         if (f->keep) cr_expect_eq(f->rank, 1);
         else cr_expect_eq(f->rank, 0);
-        beyond += strstr(f->reasons, "beyond --top 1") != NULL;
+        beyond += strstr(f->reasons, "beyond the first 1 kept") != NULL;
     }
     cr_expect_eq(beyond, all->kept - 1);
     screen_free(r);

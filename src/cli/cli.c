@@ -20,12 +20,13 @@
 
 void cli_error(const char *cmd, const char *fmt, ...)
 {
+    char msg[8192], shown[8192];
     va_list ap;
-    fprintf(stderr, "sheaf %s: ", cmd);
     va_start(ap, fmt);
-    vfprintf(stderr, fmt, ap);
+    vsnprintf(msg, sizeof msg, fmt, ap);
     va_end(ap);
-    fputc('\n', stderr);
+    cli_name_settings(msg, shown, sizeof shown);
+    fprintf(stderr, "sheaf %s: %s\n", cmd, shown);
 }
 
 void cli_help(const cli_command *cmd)
@@ -44,6 +45,14 @@ void cli_help(const cli_command *cmd)
         printf("  %-26s %s\n", left, o->help);
     }
     printf("  %-26s %s\n", "-h, --help", "show this help");
+    int renamed = 0;
+    for (const cli_renamed *r = CLI_RENAMED; r->command; r++) {
+        if (strcmp(r->command, cmd->name)) continue;
+        if (!renamed++) printf("\nrenamed (the old spelling works until the next release):\n");
+        char old[64];
+        snprintf(old, sizeof old, "--%s", r->old);
+        printf("  %-26s now --%s%s%s\n", old, r->now, r->value ? " " : "", r->value ? r->value : "");
+    }
     if (cmd->examples) printf("\nexamples:\n%s", cmd->examples);
 }
 
@@ -104,7 +113,22 @@ int cli_parse(const cli_command *cmd, int argc, char **argv, char ***pos, size_t
             const char *eq = strchr(a + 2, '=');
             size_t len = eq ? (size_t)(eq - (a + 2)) : strlen(a + 2);
             const cli_option *o = find(cmd, a + 2, len, 0);
+            const cli_renamed *old = o ? NULL : cli_find_renamed(cmd->name, a + 2, len);
+            if (old) o = find(cmd, old->now, strlen(old->now), 0);
             if (!o) return unknown_option(cmd, a, len, 0);
+            if (old) {
+                if (old->value && eq) { /* an old flag that stands for an option with a value */
+                    cli_error(cmd->name, "--%s takes no value", old->old);
+                    return EXIT_USAGE;
+                }
+                fprintf(stderr, "sheaf %s: warning: --%s is renamed --%s%s%s; the old spelling "
+                        "goes in the next release\n", cmd->name, old->old, old->now,
+                        old->value ? " " : "", old->value ? old->value : "");
+                if (old->value) {
+                    *o->value = old->value;
+                    continue;
+                }
+            }
             if (!o->metavar) {
                 if (eq) { cli_error(cmd->name, "--%s takes no value", o->name); return EXIT_USAGE; }
                 *o->flag = 1;

@@ -42,11 +42,35 @@ typedef struct {
  * alone is an argument.  Positional arguments are put in *pos (allocated;
  * caller frees).  Returns 0, 1 if --help (or -h) was shown, or EXIT_USAGE
  * after a one-line error (an unknown long option names the nearest ones,
- * io/closest.h; an unknown letter lists the letters there are). */
+ * io/closest.h; an unknown letter lists the letters there are).  An old
+ * spelling in CLI_RENAMED is read as its new option after a one-line
+ * warning on stderr. */
 int cli_parse(const cli_command *cmd, int argc, char **argv, char ***pos, size_t *npos);
+/* --help: usage, about, the options, the renamed old spellings, examples. */
 void cli_help(const cli_command *cmd);
-/* "sheaf CMD: message" on stderr. */
+/* "sheaf CMD: message" on stderr, with every setting key of a library
+ * message ("{max_classes}") shown as its option (cli_name_settings). */
 void cli_error(const char *cmd, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
+
+/* The vocabulary (vocabulary.c).  The library names a setting in a message
+ * by a key in braces, "{max_classes}" or "{task=regress}"; the option a
+ * command line uses for it ("--max-classes", "--task regress"), or NULL for
+ * a key that is not one. */
+const char *cli_setting_option(const char *key, size_t len);
+/* Copies in to out (cap bytes, NUL-terminated, cut if longer) with every
+ * known setting key replaced by its option. */
+void cli_name_settings(const char *in, char *out, size_t cap);
+/* An option renamed for one vocabulary across commands: the old spelling
+ * still parses for one release, with a warning naming the new one. */
+typedef struct {
+    const char *command; /* the command it was on */
+    const char *old;     /* its old long name, without "--" */
+    const char *now;     /* the option it became, without "--" */
+    const char *value;   /* the value an old flag stands for (info --json: "json"), or NULL */
+} cli_renamed;
+extern const cli_renamed CLI_RENAMED[]; /* ends with a zero entry */
+/* The renaming of --name (len bytes) on cmd, or NULL. */
+const cli_renamed *cli_find_renamed(const char *cmd, const char *name, size_t len);
 
 /* Refuses an output that is the same file as an input: out (a path; NULL or
  * "-" is standard output) is compared with each of the n inputs (paths; "-"
@@ -83,12 +107,12 @@ int cli_parse_delim(const char *s, char *out);
 /* Options that choose principal components (pca, project). */
 typedef struct {
     const char *basis;          /* --basis */
-    const char *k;              /* --k */
+    const char *k;              /* --components (-k) */
     const char *share;          /* --share */
     const char *numeric_share;  /* --numeric-share */
     const char *columns;        /* --columns */
     const char *exclude;        /* --exclude */
-    const char *keep_list;      /* --keep-list FILE */
+    const char *keep_list;      /* --columns-from FILE */
     int with_target;            /* --with-target */
     const char *target;         /* --target: which target of a summary of several */
 } cli_components;

@@ -24,17 +24,17 @@ int cli_fit_components(const char *cmd, const char *path, const cli_components *
         return EXIT_USAGE;
     }
     if (c->k && (k_req = cli_parse_count(c->k)) < 1) {
-        cli_error(cmd, "--k must be a positive whole number, got '%s'", c->k);
+        cli_error(cmd, "--components must be a positive whole number, got '%s'", c->k);
         return EXIT_USAGE;
     }
     if (c->share && cli_parse_unit(cmd, "--share", c->share, &share_req)) return EXIT_USAGE;
-    if (c->k && c->share) { cli_error(cmd, "give --k or --share, not both"); return EXIT_USAGE; }
+    if (c->k && c->share) { cli_error(cmd, "give --components (-k) or --share, not both"); return EXIT_USAGE; }
     if (c->numeric_share && cli_parse_unit(cmd, "--numeric-share", c->numeric_share, &o.numeric_share))
         return EXIT_USAGE;
     char err[1024];
     char *keep_text = NULL;
     if (c->keep_list && !(keep_text = cli_read_text(c->keep_list, err, sizeof err))) {
-        cli_error(cmd, "--keep-list: %s", err);
+        cli_error(cmd, "--columns-from: %s", err);
         return EXIT_INPUT;
     }
     o.columns = c->columns;

@@ -113,23 +113,24 @@ int cmd_corr(int argc, char **argv)
 {
     const char *color = NULL;
     const char *format = "text", *share_s = NULL, *cols_s = NULL, *target = NULL;
-    int covariance = 0;
+    const char *basis = NULL;
     const cli_option opts[] = {
         CLI_TARGET_OPTION(target),
         {"format", 'f', "FMT", "text (default), csv or json", &format, NULL},
-        {"covariance", 0, NULL, "print the sample covariance instead of Pearson r", NULL, &covariance},
+        {"basis", 0, "B", "correlation (Pearson r; default) or covariance (the sample covariance)",
+         &basis, NULL},
         {"columns", 0, "A,B,..", "only these columns", &cols_s, NULL},
         CLI_NUMERIC_SHARE_OPTION(share_s),
         CLI_COLOR_OPTION(color),
         {0},
     };
     const cli_command cmd = {
-        "corr", "FILE.sheaf [--format text|csv|json] [--covariance]",
+        "corr", "FILE.sheaf [--format text|csv|json] [--basis correlation|covariance]",
         "Prints the pairwise-complete Pearson correlation matrix of the numeric columns\n"
         "(each pair over the rows where both are present), from the summary alone.",
         opts,
         "  $ sheaf corr fleet.sheaf --columns battery_v,motor_temp_c,payload_kg\n"
-        "  $ sheaf corr fleet.sheaf --covariance -f csv > cov.csv\n"};
+        "  $ sheaf corr fleet.sheaf --basis covariance -f csv > cov.csv\n"};
     char **pos;
     int rc = cli_parse_single(&cmd, argc, argv, &pos);
     if (rc >= 0) return rc;
@@ -140,6 +141,11 @@ int cmd_corr(int argc, char **argv)
     size_t *cols = NULL;
     double *v = NULL;
     if (cli_check_format("corr", format)) goto done;
+    if (basis && strcmp(basis, "correlation") && strcmp(basis, "covariance")) {
+        cli_error("corr", "--basis must be correlation or covariance, got '%s'", basis);
+        goto done;
+    }
+    int covariance = basis && !strcmp(basis, "covariance");
     if (cli_numeric_share("corr", share_s, &share)) goto done;
     /* The co-moments are every target's alike: any part will do. */
     if ((rc = cli_read_target("corr", pos[0], target, 0, &s)) != EXIT_DONE) goto done;

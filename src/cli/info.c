@@ -328,24 +328,23 @@ static int text_of(const summary *s, const held_targets *held, const char *path,
 int cmd_info(int argc, char **argv)
 {
     const char *color = NULL;
-    int as_json = 0;
-    const char *share_s = NULL, *top_s = NULL, *target = NULL;
+    const char *format = "text", *share_s = NULL, *top_s = NULL, *target = NULL;
     const cli_option opts[] = {
-        {"json", 0, NULL, "print JSON instead of tables", NULL, &as_json},
+        {"format", 'f', "FMT", "text (default) or json", &format, NULL},
         CLI_TARGET_OPTION(target),
         CLI_NUMERIC_SHARE_OPTION(share_s),
-        {"top", 0, "N", "most frequent values shown per column (default 3)", &top_s, NULL},
+        {"top-values", 0, "N", "most frequent values shown per column (default 3)", &top_s, NULL},
         CLI_COLOR_OPTION(color),
         {0},
     };
-    const cli_command cmd = {"info", "FILE.sheaf [--json]",
+    const cli_command cmd = {"info", "FILE.sheaf [--format text|json]",
                              "Prints what a summary holds: rows, sources with their fingerprints, and\n"
                              "per column its kind, counts, moments, quantiles and top values.\n"
                              "A summary of several targets lists them and describes the first,\n"
                              "or the one --target names.",
                              opts,
         "  $ sheaf info fleet.sheaf\n"
-        "  $ sheaf info fleet.sheaf --json --top 10 > fleet.json\n"
+        "  $ sheaf info fleet.sheaf -f json --top-values 10 > fleet.json\n"
         "  $ sheaf info - < fleet.sheaf\n"};
     char **pos;
     int rc = cli_parse_single(&cmd, argc, argv, &pos);
@@ -358,8 +357,13 @@ int cmd_info(int argc, char **argv)
     summary_set *set = NULL;
     const char **names = NULL;
     if (cli_numeric_share("info", share_s, &share)) goto done;
+    if (strcmp(format, "text") && strcmp(format, "json")) {
+        cli_error("info", "--format must be text or json, got '%s'", format);
+        goto done;
+    }
+    int as_json = !strcmp(format, "json");
     if (top_s && (ntop = cli_parse_count(top_s)) < 0) {
-        cli_error("info", "--top must be a count, got '%s'", top_s);
+        cli_error("info", "--top-values must be a count, got '%s'", top_s);
         goto done;
     }
     if ((rc = cli_read_set("info", pos[0], &set)) != EXIT_DONE) goto done;

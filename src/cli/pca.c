@@ -195,11 +195,12 @@ int cmd_pca(int argc, char **argv)
         CLI_TARGET_OPTION(target),
         {"format", 'f', "FMT", "text (default), csv (the loadings) or json", &format, NULL},
         {"basis", 0, "B", "correlation (default) or covariance", &basis, NULL},
-        {"k", 'k', "N", "components to keep (default: the Kaiser rule's count)", &k_s, NULL},
+        {"components", 'k', "N", "components to keep (default: the Kaiser rule's count)", &k_s, NULL},
         {"share", 0, "P", "keep the fewest components reaching this cumulative share",
          &share_s, NULL},
         {"columns", 0, "A,B,..", "use these columns instead of the automatic choice", &cols, NULL},
-        {"keep-list", 0, "FILE", "use the columns named in FILE (one per line)", &keep, NULL},
+        {"columns-from", 0, "FILE", "use the columns named in FILE, one per line (screen --write-kept)",
+         &keep, NULL},
         {"exclude", 0, "A,B,..", "leave these columns out", &exclude, NULL},
         {"with-target", 0, NULL, "keep the summary's target column in the automatic choice",
          NULL, &with_target},
@@ -209,7 +210,7 @@ int cmd_pca(int argc, char **argv)
         {0},
     };
     const cli_command cmd = {
-        "pca", "FILE.sheaf [--k N | --share P] [--basis correlation|covariance] [options]",
+        "pca", "FILE.sheaf [-k N | --share P] [--basis correlation|covariance] [options]",
         "Principal components of the pairwise-complete correlation matrix (or, with\n"
         "--basis covariance, the sample covariance matrix) of a summary's numeric\n"
         "columns, from the summary alone. By default the columns are those a screen\n"
@@ -238,7 +239,7 @@ int cmd_pca(int argc, char **argv)
     rc = cli_fit_components("pca", pos[0], &cc, &s, &r, &k);
     if (rc != EXIT_DONE) goto done;
     char rule[64];
-    if (k_s) snprintf(rule, sizeof rule, "--k %s", k_s);
+    if (k_s) snprintf(rule, sizeof rule, "--components %s", k_s);
     else if (share_s) snprintf(rule, sizeof rule, "--share %s", share_s);
     else snprintf(rule, sizeof rule, "Kaiser rule");
     if (!strcmp(format, "csv")) {

@@ -30,18 +30,19 @@ int cmd_project(int argc, char **argv)
     const char *target = NULL;
     const cli_option opts[] = {
         CLI_TARGET_OPTION(target),
-        {"pca", 0, "FILE.sheaf", "summary of the data the components come from (required)",
+        {"summary", 0, "FILE.sheaf", "summary of the data the components come from (required)",
          &pca_path, NULL},
         {"output", 'o', "OUT", "file to write (.gz: gzip, .zst: zstd; default or -: standard output)",
          &out_path, NULL},
         {"carry", 0, "A,B,..", "copy these columns (IDs, the target) in front of the scores",
          &carry_s, NULL},
-        {"k", 'k', "N", "components to score (default: the Kaiser rule's count)", &k_s, NULL},
+        {"components", 'k', "N", "components to score (default: the Kaiser rule's count)", &k_s, NULL},
         {"share", 0, "P", "score the fewest components reaching this cumulative share",
          &share_s, NULL},
         {"basis", 0, "B", "correlation (default) or covariance", &basis, NULL},
         {"columns", 0, "A,B,..", "use these columns instead of the automatic choice", &cols, NULL},
-        {"keep-list", 0, "FILE", "use the columns named in FILE (one per line)", &keep, NULL},
+        {"columns-from", 0, "FILE", "use the columns named in FILE, one per line (screen --write-kept)",
+         &keep, NULL},
         {"exclude", 0, "A,B,..", "leave these columns out", &exclude, NULL},
         {"with-target", 0, NULL, "keep the summary's target column in the automatic choice",
          NULL, &with_target},
@@ -57,15 +58,15 @@ int cmd_project(int argc, char **argv)
         {0},
     };
     const cli_command cmd = {
-        "project", "DATA... --pca FILE.sheaf [-o OUT] [--k N | --share P] [--carry COLS]",
+        "project", "DATA... --summary FILE.sheaf [-o OUT] [-k N | --share P] [--carry COLS]",
         "Reads each DATA file again and writes, for every row, its scores on the leading\n"
         "principal components of the summary (the same components `sheaf pca` reports\n"
         "with the same options) as CSV. Each value is standardised with the summary's\n"
         "mean and sample standard deviation (centred only with --basis covariance); a\n"
         "missing or non-numeric cell counts as the mean. A failed run writes nothing.",
         opts,
-        "  $ sheaf project flights.csv.gz --pca fleet.sheaf -k 2 --carry drone_id -o scores.csv\n"
-        "  $ sheaf project flights.csv --pca - -o - < fleet.sheaf | head\n"};
+        "  $ sheaf project flights.csv.gz --summary fleet.sheaf -k 2 --carry drone_id -o scores.csv\n"
+        "  $ sheaf project flights.csv --summary - -o - < fleet.sheaf | head\n"};
     char **pos;
     size_t npos;
     int rc = cli_parse(&cmd, argc, argv, &pos, &npos);
@@ -82,13 +83,13 @@ int cmd_project(int argc, char **argv)
     size_t k = 0;
     sink *out = NULL;
     if (npos == 0) { cli_error("project", "no data files (see sheaf project --help)"); goto done; }
-    if (!pca_path) { cli_error("project", "--pca FILE.sheaf is required"); goto done; }
+    if (!pca_path) { cli_error("project", "--summary FILE.sheaf is required"); goto done; }
     {
         const char *side[2] = {pca_path, keep};
         if (cli_check_output("project", out_path, (const char *const *)pos, npos) ||
             cli_check_output("project", out_path, side, 2))
             goto done;
-        const char *all[npos + 2]; /* data, --pca and --keep-list: standard input once */
+        const char *all[npos + 2]; /* data, --summary and --columns-from: standard input once */
         for (size_t i = 0; i < npos; i++) all[i] = pos[i];
         all[npos] = pca_path;
         all[npos + 1] = keep;

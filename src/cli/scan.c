@@ -37,7 +37,7 @@ static void print_warnings(const held_warnings *h)
 {
     for (const char *p = h->text; p && p < h->text + h->len;) {
         const char *e = strchr(p, '\n');
-        fprintf(stderr, "sheaf scan: warning: %.*s\n", (int)(e - p), p);
+        cli_error("scan", "warning: %.*s", (int)(e - p), p);
         p = e + 1;
     }
     if (h->dropped) fprintf(stderr, "sheaf scan: warning: out of memory for a warning\n");
@@ -62,7 +62,7 @@ int cmd_scan(int argc, char **argv)
         {"columns", 0, "A,B,..", "scan only these columns", &o.columns, NULL},
         {"numeric", 0, "A,B,..", "declare columns numeric", &o.numeric, NULL},
         {"categorical", 0, "A,B,..", "declare columns categorical (never parsed)", &o.categorical, NULL},
-        {"ignore", 0, "A,B,..", "leave these columns out", &o.ignore, NULL},
+        {"exclude", 0, "A,B,..", "leave these columns out", &o.ignore, NULL},
         {"target", 't', "COL[,COL..]", "the outcome column (a class or a continuous measure); "
          "several, separated by commas, in one pass (a value that is a whole header name is one "
          "column)", &target, NULL},
@@ -92,7 +92,7 @@ int cmd_scan(int argc, char **argv)
         "input) once, in bounded memory, and writes a summary of every column. Several\n"
         "files are read in turn and must share the header. A failed scan writes nothing.\n"
         "With --target A,B,.. the one pass keeps what each target needs, and the summary\n"
-        "holds every target: info, screen, corr, pca, project and trim --from take --target\n"
+        "holds every target: info, screen, corr, pca, project and trim --summary take --target\n"
         "to choose one. The value is split at commas unless it is, whole, a header name.",
         opts,
         "  $ sheaf scan flights-*.csv.gz -t landed_ok -o fleet.sheaf\n"

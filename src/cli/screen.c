@@ -316,9 +316,9 @@ static void print_text(FILE *out, const summary *s, const screen_result *r, cons
             fprintf(out, "  %s ~ %s  r = %.4f\n", pair_name(s, r, i, 0), pair_name(s, r, i, 1),
                    r->pairs[i].r);
     }
-    fprintf(out, "\nnext: write the kept names with --keep-list FILE, then keep only those "
-                 "columns with `sheaf trim DATA --keep-list FILE -o OUT` (or `sheaf trim DATA "
-                 "--from %s -o OUT`, which screens again with the same options)\n",
+    fprintf(out, "\nnext: write the kept names with --write-kept FILE, then keep only those "
+                 "columns with `sheaf trim DATA --columns-from FILE -o OUT` (or `sheaf trim DATA "
+                 "--summary %s -o OUT`, which screens again with the same options)\n",
             strcmp(path, "-") ? path : "SUMMARY.sheaf");
 }
 
@@ -334,15 +334,17 @@ int cmd_screen(int argc, char **argv)
         {"target", 't', "COL", "which target of a summary scanned with several; another numeric "
                                "column COL: the F test of r from the co-moments only", &target, NULL},
         {"format", 'f', "FMT", "text (default), csv or json", &format, NULL},
-        {"q", 0, "LEVEL", "q-value below which a column counts as relevant (default 0.05)", &q, NULL},
-        {"top", 0, "K", "keep at most K columns", &top, NULL},
+        {"fdr", 0, "LEVEL", "false discovery rate: a column whose q-value is below it is relevant "
+                            "(default 0.05)", &q, NULL},
+        {"max-kept", 0, "K", "keep at most K columns (the best ranked)", &top, NULL},
         {"rank-by", 0, "KEY", "q (default), mi (mutual information adjusted for chance) or stat", &rank_by, NULL},
         {"bins", 0, "K", "equal-frequency bins for mutual information (default 10)", &bins, NULL},
         {"redundancy", 0, "R", "|r| at which two kept columns are redundant (default 0.95)", &redund, NULL},
         {"missing-share", 0, "P", "share of missing cells that flags a column too_sparse (default 0.5)", &missing, NULL},
         {"min-variance", 0, "V", "flag numeric columns with a smaller variance little_information", &minvar, NULL},
         CLI_NUMERIC_SHARE_OPTION(share),
-        {"keep-list", 0, "FILE", "also write the kept column names, one per line", &keep_list, NULL},
+        {"write-kept", 0, "FILE", "also write the kept column names, one per line (for trim, pca and "
+                                  "project --columns-from)", &keep_list, NULL},
         {"keep-mirrors", 0, NULL, "keep columns flagged mirrors_target (possible leaks) if relevant", NULL,
          &keep_mirrors},
         CLI_COLOR_OPTION(color),
@@ -359,9 +361,9 @@ int cmd_screen(int argc, char **argv)
         "ranks what is kept. The p-values assume independent rows; see the README's\n"
         "cautions. A summary scanned with several targets needs --target to choose one.",
         opts,
-        "  $ sheaf screen fleet.sheaf --q 0.01 --keep-list kept.txt\n"
+        "  $ sheaf screen fleet.sheaf --fdr 0.01 --write-kept kept.txt\n"
         "  $ sheaf screen fleet.sheaf -t motor_temp_c -f json > temp-screen.json\n"
-        "  $ sheaf trim flights.csv.gz --keep-list kept.txt -o flights-kept.csv.gz\n"};
+        "  $ sheaf trim flights.csv.gz --columns-from kept.txt -o flights-kept.csv.gz\n"};
     char **pos;
     int rc = cli_parse_single(&cmd, argc, argv, &pos);
     if (rc >= 0) return rc;
@@ -374,7 +376,7 @@ int cmd_screen(int argc, char **argv)
     int kept_open = 0;
     rc = EXIT_USAGE;
     if (cli_check_format("screen", format)) goto done;
-    if (q && cli_parse_unit("screen", "--q", q, &o.q_level)) goto done;
+    if (q && cli_parse_unit("screen", "--fdr", q, &o.q_level)) goto done;
     if (missing && cli_parse_unit("screen", "--missing-share", missing, &o.missing_share)) goto done;
     if (redund && cli_parse_unit("screen", "--redundancy", redund, &o.redundancy)) goto done;
     if (share && cli_parse_unit("screen", "--numeric-share", share, &o.numeric_share)) goto done;
@@ -385,7 +387,7 @@ int cmd_screen(int argc, char **argv)
     }
     if (top) {
         long long v = cli_parse_count(top);
-        if (v < 1) { cli_error("screen", "--top must be a positive count, got '%s'", top); goto done; }
+        if (v < 1) { cli_error("screen", "--max-kept must be a positive count, got '%s'", top); goto done; }
         o.top = (size_t)v;
     }
     if (bins) {
@@ -402,7 +404,7 @@ int cmd_screen(int argc, char **argv)
     /* The keep list is an output file like scan's: never the summary it
      * comes from, prepared before anything is printed, written whole. */
     if (keep_list && !strcmp(keep_list, "-")) {
-        cli_error("screen", "--keep-list needs a file name (standard output holds the report)");
+        cli_error("screen", "--write-kept needs a file name (standard output holds the report)");
         goto done;
     }
     if (keep_list && cli_check_output("screen", keep_list, (const char *const *)pos, 1)) goto done;

@@ -91,10 +91,12 @@ int cmd_trim(int argc, char **argv)
     int no_header = 0, quiet = 0;
     const char *target = NULL;
     const cli_option opts[] = {
-        {"from", 0, "SUMMARY.sheaf", "keep what `sheaf screen` keeps on this summary", &from, NULL},
-        {"target", 't', "COL", "with --from: which target of a summary scanned with several",
+        {"summary", 0, "FILE.sheaf", "keep what `sheaf screen` keeps on this summary of the data", &from,
+         NULL},
+        {"target", 't', "COL", "with --summary: which target of a summary scanned with several",
          &target, NULL},
-        {"keep-list", 0, "FILE", "keep the columns named in FILE, one per line", &keep_list, NULL},
+        {"columns-from", 0, "FILE", "keep the columns named in FILE, one per line (screen --write-kept)",
+         &keep_list, NULL},
         {"carry", 0, "A,B,..", "also keep these columns (IDs, timestamps)", &carry, NULL},
         {"output", 'o', "OUT", "write here (.gz / .zst compress; default or -: standard output)", &out_path,
          NULL},
@@ -102,20 +104,20 @@ int cmd_trim(int argc, char **argv)
         {"no-header", 0, NULL, "first row is data; columns are named col1..colN", NULL, &no_header},
         {"chunk-size", 0, "SIZE", "bytes per chunk, e.g. 1M (default 256 KiB)", &chunk, NULL},
         {"max-record", 0, "SIZE", "longest record accepted (default 64 MiB)", &maxrec, NULL},
-        {"q", 0, "LEVEL", "as in screen: significance level (default 0.05)", &q, NULL},
-        {"top", 0, "K", "as in screen: keep at most K columns", &top, NULL},
+        {"fdr", 0, "LEVEL", "as in screen: false discovery rate (default 0.05)", &q, NULL},
+        {"max-kept", 0, "K", "as in screen: keep at most K columns", &top, NULL},
         {"threads", 'j', "N", CLI_THREADS_HELP, &threads, NULL},
         {"quiet", 'q', NULL, "no progress line", NULL, &quiet},
         {0},
     };
     const cli_command cmd = {
-        "trim", "DATA... (--from SUMMARY.sheaf | --keep-list FILE) [-o OUT]",
+        "trim", "DATA... (--summary FILE.sheaf | --columns-from FILE) [-o OUT]",
         "Writes DATA with only the kept columns (and the target, and --carry columns), in\n"
         "their input order, keeping each field's bytes and quoting as they were.\n"
-        "With --from, the kept set is that of `sheaf screen` with the same options.",
+        "With --summary, the kept set is that of `sheaf screen` with the same options.",
         opts,
-        "  $ sheaf trim flights.csv.gz --from fleet.sheaf --carry drone_id -o kept.csv.gz\n"
-        "  $ sheaf trim flights.csv --keep-list kept.txt -o - | head\n"};
+        "  $ sheaf trim flights.csv.gz --summary fleet.sheaf --carry drone_id -o kept.csv.gz\n"
+        "  $ sheaf trim flights.csv --columns-from kept.txt -o - | head\n"};
     char **pos;
     size_t npos;
     int rc = cli_parse(&cmd, argc, argv, &pos, &npos);
@@ -128,13 +130,13 @@ int cmd_trim(int argc, char **argv)
     char delim = 0;
     rc = EXIT_USAGE;
     if (npos == 0) { cli_error("trim", "no data files (see sheaf trim --help)"); goto done; }
-    if (!!from == !!keep_list) { cli_error("trim", "give exactly one of --from and --keep-list"); goto done; }
+    if (!!from == !!keep_list) { cli_error("trim", "give exactly one of --summary and --columns-from"); goto done; }
     {
         const char *side[2] = {from, keep_list};
         if (cli_check_output("trim", out_path, (const char *const *)pos, npos) ||
             cli_check_output("trim", out_path, side, 2))
             goto done;
-        const char *all[npos + 2]; /* data, --from and --keep-list: standard input once */
+        const char *all[npos + 2]; /* data, --summary and --columns-from: standard input once */
         for (size_t i = 0; i < npos; i++) all[i] = pos[i];
         all[npos] = from;
         all[npos + 1] = keep_list;
@@ -149,10 +151,10 @@ int cmd_trim(int argc, char **argv)
     to.header = !no_header;
     if (cli_parse_reading("trim", chunk, maxrec, &to.read.chunk_bytes, &to.read.max_record_bytes)) goto done;
     if (cli_parse_threads("trim", threads, &to.threads)) goto done;
-    if (q && cli_parse_unit("trim", "--q", q, &so.q_level)) goto done;
+    if (q && cli_parse_unit("trim", "--fdr", q, &so.q_level)) goto done;
     if (top) {
         long long v = cli_parse_count(top);
-        if (v < 1) { cli_error("trim", "--top must be a positive count"); goto done; }
+        if (v < 1) { cli_error("trim", "--max-kept must be a positive count"); goto done; }
         so.top = (size_t)v;
     }
     if (keep_list) {
@@ -164,7 +166,7 @@ int cmd_trim(int argc, char **argv)
         }
     }
     if (target && !from) {
-        cli_error("trim", "--target chooses the target of the --from summary; give --from");
+        cli_error("trim", "--target chooses the target of the --summary summary; give --summary");
         goto done;
     }
     if (from) {
@@ -185,7 +187,7 @@ int cmd_trim(int argc, char **argv)
         /* Rows of no field would be one empty line each: never what was meant. */
         if (from)
             cli_error("trim", "%s: the screen keeps no column and the summary has no target; "
-                      "nothing to write (add --carry, or loosen --q)", from);
+                      "nothing to write (add --carry, or loosen --fdr)", from);
         else
             cli_error("trim", "%s: the keep list names no column; nothing to write", keep_list);
         goto done;

@@ -93,7 +93,7 @@ char *chunker_space(chunker *c, size_t *room, char *err, size_t errlen)
         size_t cap = c->cap * 2 > limit ? limit : c->cap * 2;
         if (cap <= c->cap) {
             snprintf(err, errlen, "%s: record at byte %llu is longer than the %zu-byte limit "
-                     "(an unterminated quote, or raise --max-record)",
+                     "(the record limit: an unterminated quote, or raise {max_record})",
                      c->name, (unsigned long long)record_start(c, c->base), c->max_record);
             return NULL;
         }
@@ -136,7 +136,7 @@ const char *chunker_pending(const chunker *c, size_t *len)
 static int too_long(const chunker *c, uint64_t at, char *err, size_t errlen)
 {
     snprintf(err, errlen, "%s: record at byte %llu is longer than the %zu-byte limit "
-             "(an unterminated quote, or raise --max-record)",
+             "(the record limit: an unterminated quote, or raise {max_record})",
              c->name, (unsigned long long)at, c->max_record);
     return -1;
 }

@@ -419,7 +419,7 @@ void reader_cursor_message(const reader_cursor *c, const char *name, uint64_t li
     case READER_FAULT_TOO_LONG:
         snprintf(buf, len,
                  "%s: line %llu: record at byte %llu is longer than the %zu-byte limit "
-                 "(raise --max-record)",
+                 "(the record limit: raise {max_record})",
                  name, line, (unsigned long long)c->fault_offset, c->o->max_record_bytes);
         break;
     default: snprintf(buf, len, "%s: no error", name);

@@ -250,12 +250,12 @@ static int map_header(void *ctx, size_t file, const char *path, const reader *rd
     for (size_t c = 0; c < pj->ncarry; c++) {
         size_t at = header_find(pj, f, nf, pj->carry[c]);
         if (at == FIELD_AMBIGUOUS) {
-            snprintf(msg, msglen, "%s: line 1: --carry: '%s' names more than one column of the "
+            snprintf(msg, msglen, "%s: line 1: {carry}: '%s' names more than one column of the "
                      "header", path, pj->carry[c]);
             return PROJECT_ERR_USAGE;
         }
         if (at == SIZE_MAX) {
-            snprintf(msg, msglen, "%s: line 1: --carry: no column named '%s'%s", path,
+            snprintf(msg, msglen, "%s: line 1: {carry}: no column named '%s'%s", path,
                      pj->carry[c], pj->header ? " in the header" : " (use col1..colN)");
             if (pj->header) stream_suggest_column(f, nf, 1, pj->carry[c], msg, msglen);
             return PROJECT_ERR_USAGE;

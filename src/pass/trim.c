@@ -88,7 +88,7 @@ static int choose(trimmer *t, const char *path, const reader_record *rec, char *
                             strspn(k0 + 3, "0123456789") == strlen(k0 + 3);
             snprintf(msg, msglen, "%s: no column named '%s' %s", path, k0,
                      !o->header  ? "(without a header: col1..colN)"
-                     : generated ? "in the header (for a file without one, add --no-header)"
+                     : generated ? "in the header (for a file without one, add {no_header})"
                                  : "in the header");
             if (o->header) stream_suggest_column(rec->fields, rec->nfields, 1, k0, msg, msglen);
             free(found);

@@ -372,12 +372,12 @@ static pca_status choose(const summary *s, const pca_options *o, pca_result *r, 
     qsort(byname, n, sizeof *byname, entry_cmp);
     st = PCA_ERR_USAGE;
     int explicit_choice = o->columns != NULL || o->keep_list != NULL;
-    if (o->columns && mark_names(s, byname, o->columns, ',', "--columns", chosen, err, errlen))
+    if (o->columns && mark_names(s, byname, o->columns, ',', "{columns}", chosen, err, errlen))
         goto done;
     if (o->keep_list &&
         mark_names(s, byname, o->keep_list, '\n', "keep list", listed, err, errlen))
         goto done;
-    if (o->exclude && mark_names(s, byname, o->exclude, ',', "--exclude", excluded, err, errlen))
+    if (o->exclude && mark_names(s, byname, o->exclude, ',', "{exclude}", excluded, err, errlen))
         goto done;
     r->p = r->nleft = 0;
     for (size_t j = 0; j < n; j++) {

@@ -646,7 +646,7 @@ screen_result *screen_run(const summary *s, const screen_options *o)
         if (!f->keep) continue;
         if (o->top && rnk >= o->top) {
             f->keep = 0;
-            add_reason(f, "beyond --top %zu", o->top);
+            add_reason(f, "beyond the first %zu kept", o->top);
             continue;
         }
         f->rank = ++rnk;

@@ -285,8 +285,8 @@ int validity_task_fits(const summary *s, double numeric_share, char *err, size_t
     if (y < 0 || summary_declared_task(s) != TASK_REGRESS) return 0;
     if (summary_kind(s, (size_t)y, numeric_share) != KIND_CATEGORICAL) return 0;
     snprintf(err, errlen,
-             "--task regress needs a numeric target, and '%s' is text (%llu of %llu present "
-             "cells are not numbers); leave --task out or use --task classify",
+             "{task=regress} needs a numeric target, and '%s' is text (%llu of %llu present "
+             "cells are not numbers); leave {task} out or use {task=classify}",
              summary_target_name(s), (unsigned long long)summary_non_numeric(s, (size_t)y),
              (unsigned long long)summary_present(s, (size_t)y));
     return -1;

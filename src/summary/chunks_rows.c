@@ -67,15 +67,15 @@ scan_status chunks_out_of_memory(chunks *w)
 static scan_status too_many_classes(chunks *w, const summary *s, uint64_t line)
 {
     snprintf(w->r_err, sizeof w->r_err,
-             "%s: line %llu: target '%s' has more than %u classes; raise --max-classes or use "
-             "--task regress",
+             "%s: line %llu: target '%s' has more than %u classes (the class limit); raise "
+             "{max_classes}, or read the target as a measure with {task=regress}",
              w->shown, (unsigned long long)line, s->opt.target, s->opt.max_classes);
     return SCAN_ERR_INPUT;
 }
 
 static scan_status ragged_row(chunks *w, uint64_t line, size_t nf)
 {
-    snprintf(w->r_err, sizeof w->r_err, "%s: line %llu: %zu fields, the header has %zu (--strict)",
+    snprintf(w->r_err, sizeof w->r_err, "%s: line %llu: %zu fields, the header has %zu (rows must match: {strict})",
              w->shown, (unsigned long long)line, nf, w->o.width);
     return SCAN_ERR_INPUT;
 }
@@ -200,7 +200,7 @@ scan_status chunks_rows_of(chunks *w, job *j)
     if (j->fault == FAULT_TOO_BIG) {
         snprintf(w->r_err, sizeof w->r_err,
                  "%s: a chunk of %zu bytes is over the 4 GiB a chunk may hold; lower "
-                 "--chunk-size or --max-record", w->shown, j->ck.len);
+                 "{chunk_size} or {max_record}", w->shown, j->ck.len);
         return SCAN_ERR_USAGE;
     }
     if (j->fault == FAULT_MEMORY) return chunks_out_of_memory(w);

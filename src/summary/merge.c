@@ -337,7 +337,8 @@ static summary_status fold(summary *into, summary *from, char *err, size_t errle
             map = NULL;
             if (!classes_numeric(into) || !classes_numeric(from)) {
                 snprintf(err, errlen, "target '%s': together the summaries have more than %u "
-                         "classes; rescan with a larger --max-classes or --task regress",
+                         "classes (the class limit); rescan with a larger {max_classes} or with "
+                         "{task=regress}",
                          into->opt.target, into->opt.max_classes);
                 return SUMMARY_ERR_INCOMPATIBLE;
             }

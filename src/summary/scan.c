@@ -89,14 +89,14 @@ static scan_status within_limit(scan_context *sc, int before_rows)
     if (before_rows)
         snprintf(sc->err, sizeof sc->err,
                  "the accumulators of %zu columns (with %u target classes at most) take %s "
-                 "before any row, above the %s memory limit (--mem)",
+                 "before any row, above the %s memory limit ({mem_limit})",
                  sc->run ? sc->run->ncols : (size_t)0,
                  sc->run && sc->run->target >= 0 ? sc->o.opt.max_classes : 0,
                  held, limit);
     else
         snprintf(sc->err, sizeof sc->err,
                  "%s: byte %llu: the scan holds %s (its accumulators, chunk buffers and "
-                 "co-moments), above the %s memory limit (--mem)",
+                 "co-moments), above the %s memory limit ({mem_limit})",
                  sc->name ? sc->name : "input", (unsigned long long)sc->pushed_bytes, held, limit);
     return scan_fail(sc, SCAN_ERR_MEMORY, NULL);
 }
@@ -139,14 +139,14 @@ static scan_status resolve_targets(scan_context *sc, char **names, size_t nnames
         const char *e = whole ? p + strlen(p) : strchrnul(p, ',');
         if (e == p) {
             snprintf(sc->err, sizeof sc->err,
-                     "--target: an empty name in '%s' (names are separated by commas)", list);
+                     "{target}: an empty name in '%s' (names are separated by commas)", list);
             return scan_fail(sc, SCAN_ERR_USAGE, NULL);
         }
         char *name = strndup(p, (size_t)(e - p));
         if (!name) return scan_fail(sc, SCAN_ERR_MEMORY, "out of memory");
         for (size_t t = 0; t < sc->ntargets; t++)
             if (strcmp(sc->target_names[t], name) == 0) {
-                snprintf(sc->err, sizeof sc->err, "--target: '%s' is named twice", name);
+                snprintf(sc->err, sizeof sc->err, "{target}: '%s' is named twice", name);
                 free(name);
                 return scan_fail(sc, SCAN_ERR_USAGE, NULL);
             }
@@ -192,8 +192,8 @@ static scan_status setup(scan_context *sc, char **names, size_t nnames)
     if (o->mem_limit_bytes && need > o->mem_limit_bytes) {
         snprintf(sc->err, sizeof sc->err,
                  "the co-moment matrix of %zu numeric columns needs %s, above the %s "
-                 "limit (--mem); restrict the columns with --columns, --ignore or --categorical, "
-                 "or raise --mem",
+                 "limit ({mem_limit}); restrict the columns with {columns}, {exclude} or "
+                 "{categorical}, or raise the limit",
                  ncomo, show_bytes((double)need, needs, sizeof needs), limit);
         st = SCAN_ERR_MEMORY;
         goto done;
@@ -204,8 +204,8 @@ static scan_status setup(scan_context *sc, char **names, size_t nnames)
     if (o->mem_limit_bytes && need + nbuf * chunk > o->mem_limit_bytes) {
         snprintf(sc->err, sizeof sc->err,
                  "the co-moment matrix (%s) and %llu chunk buffers of %s need "
-                 "%s before any row, above the %s limit (--mem); lower --chunk-size "
-                 "or --threads, or raise --mem",
+                 "%s before any row, above the %s limit ({mem_limit}); lower {chunk_size} "
+                 "or {threads}, or raise the limit",
                  show_bytes((double)need, needs, sizeof needs), (unsigned long long)nbuf,
                  show_bytes((double)chunk, chunk_s, sizeof chunk_s),
                  show_bytes((double)(need + nbuf * chunk), total, sizeof total), limit);
@@ -320,7 +320,7 @@ static scan_status head(scan_context *sc, const reader_chunk *ch, int *found)
     if (why && !sc->o.force) {
         snprintf(sc->err, sizeof sc->err,
                  "%s: not text (%s in the first 64 KiB): a binary file, UTF-16, or a compression "
-                 "sheaf does not read (it reads gzip and zstd); --force reads it anyway",
+                 "sheaf does not read (it reads gzip and zstd); {force} reads it anyway",
                  sc->shown, why);
         return scan_fail(sc, SCAN_ERR_INPUT, NULL);
     }

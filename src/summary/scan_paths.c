@@ -17,7 +17,7 @@ static scan_status scan_shard(scan_context *sc, const char *path)
     const scan_options *o = &sc->o;
     struct stat st;
     if (strcmp(path, "-") == 0 || stat(path, &st) != 0 || !S_ISREG(st.st_mode)) {
-        snprintf(sc->err, sizeof sc->err, "%s: --shard needs a regular file (not a pipe)", path);
+        snprintf(sc->err, sizeof sc->err, "%s: {shard} needs a regular file (not a pipe)", path);
         return scan_fail(sc, SCAN_ERR_USAGE, NULL);
     }
     uint64_t size = (uint64_t)st.st_size;
@@ -33,7 +33,7 @@ static scan_status scan_shard(scan_context *sc, const char *path)
     source_close(probe);
     if (kind != SOURCE_PLAIN) {
         snprintf(sc->err, sizeof sc->err,
-                 "%s: --shard needs an uncompressed file, this one is %s; split the data into "
+                 "%s: {shard} needs an uncompressed file, this one is %s; split the data into "
                  "several compressed files instead and scan each as a shard",
                  path, source_format_name(kind));
         return scan_fail(sc, SCAN_ERR_USAGE, NULL);
@@ -146,7 +146,7 @@ static scan_context *files_context(const scan_options *o, size_t npaths, char *e
                                    size_t errlen, scan_status *st)
 {
     if (o->shard_count && npaths != 1) {
-        snprintf(err, errlen, "--shard reads exactly one file (got %zu)", npaths);
+        snprintf(err, errlen, "{shard} reads exactly one file (got %zu)", npaths);
         *st = SCAN_ERR_USAGE;
         return NULL;
     }

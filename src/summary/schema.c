@@ -145,7 +145,7 @@ scan_status schema_plan_make(const scan_options *o, const char *file, const char
         char line[4352 + 160];
         snprintf(line, sizeof line,
                  "%s: one column only ('%.60s'); if another character separates the fields, "
-                 "give it with --delim",
+                 "give it with {delim}",
                  shown, names[0]);
         o->warn(o->warn_ctx, line);
     }
@@ -154,10 +154,10 @@ scan_status schema_plan_make(const scan_options *o, const char *file, const char
         st = SCAN_ERR_MEMORY;
         goto done;
     }
-    if (check_names(file, "--columns", sel, nsel, names, nnames, err, errlen) ||
-        check_names(file, "--numeric", num, nnum, names, nnames, err, errlen) ||
-        check_names(file, "--categorical", cat, ncat, names, nnames, err, errlen) ||
-        check_names(file, "--ignore", ign, nign, names, nnames, err, errlen)) {
+    if (check_names(file, "{columns}", sel, nsel, names, nnames, err, errlen) ||
+        check_names(file, "{numeric}", num, nnum, names, nnames, err, errlen) ||
+        check_names(file, "{categorical}", cat, ncat, names, nnames, err, errlen) ||
+        check_names(file, "{exclude}", ign, nign, names, nnames, err, errlen)) {
         st = SCAN_ERR_USAGE;
         goto done;
     }
@@ -182,12 +182,12 @@ scan_status schema_plan_make(const scan_options *o, const char *file, const char
     if (o->opt.target) {
         size_t t = 0;
         while (t < n && strcmp(p->cols[t], o->opt.target) != 0) t++;
-        if (t < n && ambiguous(file, "--target", o->opt.target, names, nnames, err, errlen)) {
+        if (t < n && ambiguous(file, "{target}", o->opt.target, names, nnames, err, errlen)) {
             st = SCAN_ERR_USAGE;
             goto done;
         }
         if (t == n) {
-            snprintf(err, errlen, "--target: no column named '%s' %s", o->opt.target,
+            snprintf(err, errlen, "{target}: no column named '%s' %s", o->opt.target,
                      in_list(ign, nign, o->opt.target) || nsel > 0 ? "among the scanned columns"
                                                                    : "in the header");
             /* The scanned columns (p->cols) are the ones a target can be. */

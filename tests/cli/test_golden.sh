@@ -1,5 +1,5 @@
 #!/usr/bin/env bash
-# Golden fingerprints: the sha256 of every summary (and of a few `info --json`
+# Golden fingerprints: the sha256 of every summary (and of a few `info --format json`
 # and `screen --format json` outputs) that today's code writes for a fixed
 # set of well-formed inputs.  A change to the engine that is meant to keep
 # the format must leave every one of them byte-identical.
@@ -240,24 +240,24 @@ if have tips-tab; then
 fi
 have penguins-crlf && summary penguins-crlf.species $IN/penguins-crlf.csv --target species
 
-# Read-back outputs: `info --json` and `screen --format json`.
-stdout info.bench-csv.label $SHEAF info --json $OUT/bench-csv.label.sheaf
-stdout info.legs.merge.arrival_condition $SHEAF info --json --top 10 \
+# Read-back outputs: `info --format json` and `screen --format json`.
+stdout info.bench-csv.label $SHEAF info --format json $OUT/bench-csv.label.sheaf
+stdout info.legs.merge.arrival_condition $SHEAF info --format json --top-values 10 \
     $OUT/legs.merge.arrival_condition.sheaf
 stdout screen.bench-csv.label $SHEAF screen --format json $OUT/bench-csv.label.sheaf
 stdout screen.bench-csv.balance $SHEAF screen --format json $OUT/bench-csv.balance.sheaf
 stdout screen.legs.merge.arrival_condition $SHEAF screen --format json \
     $OUT/legs.merge.arrival_condition.sheaf
 if have iris; then
-    stdout info.iris.species $SHEAF info --json $OUT/iris.species.sheaf
+    stdout info.iris.species $SHEAF info --format json $OUT/iris.species.sheaf
     stdout screen.iris.species $SHEAF screen --format json $OUT/iris.species.sheaf
 fi
 if have tips; then
     stdout screen.tips.tip $SHEAF screen --format json $OUT/tips.tip.task_regress.sheaf
 fi
 if have mpg; then
-    stdout info.mpg $SHEAF info --json --top 20 $OUT/mpg.sheaf
-    stdout screen.mpg.cylinders.top3 $SHEAF screen --format json --top 3 $OUT/mpg.cylinders.sheaf
+    stdout info.mpg $SHEAF info --format json --top-values 20 $OUT/mpg.sheaf
+    stdout screen.mpg.cylinders.top3 $SHEAF screen --format json --max-kept 3 $OUT/mpg.cylinders.sheaf
 fi
 
 # Stored cases that did not run: their input is absent (SKIP above) or the

@@ -66,8 +66,8 @@ for mb in 100 150 200 400; do
         fi
     done
     limited $mb merge $SHEAF merge --allow-duplicates "$T/t.sheaf" "$T/t.sheaf" -o "$T/m.sheaf"
-    limited $mb trim_from $SHEAF trim -q "$T/w.csv" --from "$T/t.sheaf" -o "$T/trim.csv"
-    limited $mb project_j2 $SHEAF project -q -j2 "$T/w.csv" --pca "$T/n.sheaf" -o "$T/p.csv"
+    limited $mb trim_from $SHEAF trim -q "$T/w.csv" --summary "$T/t.sheaf" -o "$T/trim.csv"
+    limited $mb project_j2 $SHEAF project -q -j2 "$T/w.csv" --summary "$T/n.sheaf" -o "$T/p.csv"
 done
 
 # The lowest limit must refuse at least the read-only commands (so that the

@@ -33,7 +33,7 @@ sys.path.insert(0, "tests")
 from refcheck import tree_differences
 
 def info(p):
-    r = subprocess.run([os.environ.get("SHEAF_BIN", "./sheaf"), "info", "--json", "--top", "1000", p],
+    r = subprocess.run([os.environ.get("SHEAF_BIN", "./sheaf"), "info", "--format", "json", "--top-values", "1000", p],
                        stdout=subprocess.PIPE, stderr=subprocess.PIPE)
     if r.returncode:
         sys.exit("info %s exit %d: %s" % (p, r.returncode, r.stderr.decode().strip()))
@@ -67,7 +67,7 @@ same_summary() {
 }
 # jget SUMMARY EXPR: python expression over d, the info JSON.
 jget() {
-    "$SHEAF" info --json "$1" 2>/dev/null | "$PY" -c 'import json,sys
+    "$SHEAF" info --format json "$1" 2>/dev/null | "$PY" -c 'import json,sys
 d = json.load(sys.stdin)
 print(json.dumps(eval(sys.argv[1]), separators=(",", ":")))' "$2" 2>/dev/null || echo "no-summary"
 }
@@ -164,7 +164,7 @@ for n in "$size" $((size - 1)) $((size / 2 + 1)) 37 13 $((size + 1)); do
         parts+=("$p")
     done
     if ! check "every_offset_$n.scans" "${bad:0:300}" [ -z "$bad" ]; then continue; fi
-    rows=$(for p in "${parts[@]}"; do "$SHEAF" info --json "$p"; done | "$PY" -c '
+    rows=$(for p in "${parts[@]}"; do "$SHEAF" info --format json "$p"; done | "$PY" -c '
 import json, sys
 dec = json.JSONDecoder()
 s = sys.stdin.read()

@@ -89,9 +89,9 @@ env -u COLUMNS $SHEAF info "$T/pg.sheaf" >"$T/wide.txt"
 if grep -q "…\|not shown at this width" "$T/wide.txt"; then fail pipe_uncut "cut or dropped in a pipe"; else pass pipe_uncut; fi
 # screen ends with the next step.
 check screen_next_step "screen's text output does not end with the next step" \
-    grep -q "^next: .*--keep-list" "$T/n.txt"
+    grep -q "^next: .*--write-kept" "$T/n.txt"
 # JSON of values kept in part: valid UTF-8, and the top value marked cut.
-$SHEAF info --json "$T/u.sheaf" >"$T/u.json"
+$SHEAF info --format json "$T/u.sheaf" >"$T/u.json"
 ok=$("$PY" - "$T/u.json" <<'EOF2'
 import json, sys
 try:

@@ -19,8 +19,8 @@ for mask in 022 027 077 002; do
         touch "$T/ref-$mask"
         "$SHEAF" scan -q "$T/in.csv" -o "$T/s-$mask.sheaf" &&
             "$SHEAF" merge "$T/s-$mask.sheaf" "$T/s-$mask.sheaf" --allow-duplicates -o "$T/m-$mask.sheaf" &&
-            "$SHEAF" trim "$T/in.csv" --keep-list "$T/keep.txt" -o "$T/t-$mask.csv" &&
-            "$SHEAF" trim "$T/in.csv" --keep-list "$T/keep.txt" -o "$T/t-$mask.csv.gz"
+            "$SHEAF" trim "$T/in.csv" --columns-from "$T/keep.txt" -o "$T/t-$mask.csv" &&
+            "$SHEAF" trim "$T/in.csv" --columns-from "$T/keep.txt" -o "$T/t-$mask.csv.gz"
     ) >"$T/out" 2>"$T/err" || { fail "umask_$mask.commands" "$(err_text)"; continue; }
     want=$(stat -c %a "$T/ref-$mask")
     for pair in scan:s-$mask.sheaf merge:m-$mask.sheaf trim_plain:t-$mask.csv \

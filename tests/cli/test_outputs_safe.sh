@@ -54,14 +54,14 @@ for i in $(seq 1 150); do ln -s big.sheaf "$T/in/m$i.sheaf"; done
 declare -A CMD=(
     [scan]="scan -q $T/big.csv -o OUT"
     [merge]="merge --allow-duplicates $(printf "$T/in/m%d.sheaf " $(seq 1 150))-o OUT"
-    [trim]="trim -q $T/big.csv --keep-list $T/keep -o OUT"
-    [project]="project -q $T/big.csv --pca $T/in/big.sheaf -o OUT"
+    [trim]="trim -q $T/big.csv --columns-from $T/keep -o OUT"
+    [project]="project -q $T/big.csv --summary $T/in/big.sheaf -o OUT"
 )
 declare -A SMALL=(
     [scan]="scan -q $T/a.csv -o OUT"
     [merge]="merge $T/in/a.sheaf $T/in/b.sheaf -o OUT"
-    [trim]="trim -q $T/a.csv --keep-list $T/keep_a -o OUT"
-    [project]="project -q $T/mid.csv --pca $T/in/mid.sheaf --k 1 -o OUT"
+    [trim]="trim -q $T/a.csv --columns-from $T/keep_a -o OUT"
+    [project]="project -q $T/mid.csv --summary $T/in/mid.sheaf --components 1 -o OUT"
 )
 # The reference output of each command, written to a new plain file.
 for c in scan merge trim project; do
@@ -143,7 +143,7 @@ check link.dangling_stays_a_link "" [ -L "$T/l/links/dangling" ]
 left=$(ls -A "$T/l/real" "$T/l/links" | grep -c -e '\.tmp\.' -e '\.sheaf-')
 check link.no_temporary_files "$left left" [ "$left" -eq 0 ]
 
-# ---- keep.*: screen --keep-list, the output file of a printing command ----
+# ---- keep.*: screen --write-kept, the output file of a printing command ----
 # It once wrote "NAME.tmp" with fopen and renamed it over the target: a device
 # became a regular file, a link was replaced, and the summary itself could be
 # overwritten by its own keep list.
@@ -153,17 +153,17 @@ mkdir "$T/kl"
 awk 'BEGIN { srand(3); print "x,noise,cls"
     for (i = 0; i < 300; i++) printf "%.3f,%.3f,%s\n", (i % 2) * 0.8 + rand(), rand(), i % 2 ? "b" : "a" }' >"$T/kl/t.csv"
 $SHEAF scan -q "$T/kl/t.csv" --target cls -o "$T/kl/t.sheaf" || fail setup "scan with a target failed"
-$SHEAF screen "$T/kl/t.sheaf" --keep-list "$T/ref/keep.list" >/dev/null 2>&1
+$SHEAF screen "$T/kl/t.sheaf" --write-kept "$T/ref/keep.list" >/dev/null 2>&1
 check keep.reference_written "no keep list written" test -s "$T/ref/keep.list"
 if fresh_full; then
-    run $SHEAF screen "$T/kl/t.sheaf" --keep-list "$T/full"
+    run $SHEAF screen "$T/kl/t.sheaf" --write-kept "$T/full"
     check keep.full_exit_1 "exit $RC: $(err_text)" [ "$RC" -eq 1 ]
     check keep.full_one_line_names_file_and_reason "$(err_text)" \
         [ "$(wc -l <"$T/err")" -eq 1 -a -n "$(grep -F "$T/full" "$T/err" | grep 'No space left on device')" ]
     check keep.full_stays_a_device "$(stat -c %F "$T/full")" [ -c "$T/full" ]
 fi
 cp "$T/kl/t.sheaf" "$T/kl/copy.sheaf"
-run $SHEAF screen "$T/kl/t.sheaf" --keep-list "$T/kl/t.sheaf"
+run $SHEAF screen "$T/kl/t.sheaf" --write-kept "$T/kl/t.sheaf"
 check keep.summary_as_keep_list_exit_2 "exit $RC: $(err_text)" [ "$RC" -eq 2 ]
 check keep.summary_as_keep_list_says_so "$(err_text)" grep -q 'same file as the input' "$T/err"
 check keep.summary_unchanged "$(first_diff "$T/kl/t.sheaf" "$T/kl/copy.sheaf")" cmp -s "$T/kl/t.sheaf" "$T/kl/copy.sheaf"
@@ -171,13 +171,13 @@ cp "$T/kl/copy.sheaf" "$T/kl/t.sheaf" # whatever happened above
 mkdir "$T/kl/real"
 echo old >"$T/kl/real/keep"
 ln -s real/keep "$T/kl/link"
-run $SHEAF screen "$T/kl/t.sheaf" --keep-list "$T/kl/link"
+run $SHEAF screen "$T/kl/t.sheaf" --write-kept "$T/kl/link"
 check keep.link_exit_0 "exit $RC: $(err_text)" [ "$RC" -eq 0 ]
 check keep.link_stays "$(stat -c %F "$T/kl/link")" [ -L "$T/kl/link" ]
 check keep.named_file_replaced "$(first_diff "$T/kl/real/keep" "$T/ref/keep.list")" \
     cmp -s "$T/kl/real/keep" "$T/ref/keep.list"
 mkdir "$T/kl/adir"
-run $SHEAF screen "$T/kl/t.sheaf" --keep-list "$T/kl/adir"
+run $SHEAF screen "$T/kl/t.sheaf" --write-kept "$T/kl/adir"
 check keep.directory_refused "exit $RC, $(err_text)" [ "$RC" -eq 1 -a -d "$T/kl/adir" ]
 check keep.directory_reason "$(err_text)" grep -q 'Is a directory\|not a regular file\|directory' "$T/err"
 left=$(ls -A "$T/kl" "$T/kl/real" | grep -c -e '\.tmp' -e '\.keep-' -e '\.adir')
@@ -212,15 +212,15 @@ same scan.output_symlink $SHEAF scan -q "$T/s/a.csv" -o "$T/s/soft.csv"
 same scan.second_input $SHEAF scan -q "$T/b.csv" "$T/s/a.csv" -o "$T/s/a.csv"
 sheaf_stdin() { $SHEAF scan -q - -o "$T/s/a.csv" <"$T/s/a.csv"; }
 same scan.standard_input sheaf_stdin
-same trim.gzip_input $SHEAF trim -q "$T/s/a.csv.gz" --keep-list "$T/s/keep" -o "$T/s/a.csv.gz"
-same trim.keep_list $SHEAF trim -q "$T/s/a.csv" --keep-list "$T/s/keep" -o "$T/s/keep"
-same trim.from $SHEAF trim -q "$T/s/a.csv" --from "$T/s/a.sheaf" -o "$T/s/a.sheaf"
-sheaf_append() { $SHEAF trim -q "$T/s/a.csv" --keep-list "$T/s/keep" >>"$T/s/a.csv"; }
+same trim.gzip_input $SHEAF trim -q "$T/s/a.csv.gz" --columns-from "$T/s/keep" -o "$T/s/a.csv.gz"
+same trim.keep_list $SHEAF trim -q "$T/s/a.csv" --columns-from "$T/s/keep" -o "$T/s/keep"
+same trim.from $SHEAF trim -q "$T/s/a.csv" --summary "$T/s/a.sheaf" -o "$T/s/a.sheaf"
+sheaf_append() { $SHEAF trim -q "$T/s/a.csv" --columns-from "$T/s/keep" >>"$T/s/a.csv"; }
 same trim.standard_output_appending sheaf_append
 same merge.input $SHEAF merge "$T/s/a.sheaf" "$T/s/b.sheaf" -o "$T/s/b.sheaf"
-same project.pca $SHEAF project -q "$T/big.csv" --pca "$T/s/big.sheaf" -o "$T/s/big.sheaf"
+same project.pca $SHEAF project -q "$T/big.csv" --summary "$T/s/big.sheaf" -o "$T/s/big.sheaf"
 cp "$T/big.csv" "$T/s/bigcopy.csv"
-same project.input $SHEAF project -q "$T/s/bigcopy.csv" --pca "$T/s/big.sheaf" -o "$T/s/bigcopy.csv"
+same project.input $SHEAF project -q "$T/s/bigcopy.csv" --summary "$T/s/big.sheaf" -o "$T/s/bigcopy.csv"
 run $SHEAF scan -q /dev/null -o /dev/null
 check same.devices_are_not_protected "exit $RC: $(err_text)" [ "$RC" -ne 2 ]
 
@@ -353,13 +353,13 @@ fi
 # ---- stdout.*: standard output ----
 declare -A OUT=(
     [info]="info $T/in/big.sheaf"
-    [info_json]="info --json $T/in/big.sheaf"
+    [info_json]="info --format json $T/in/big.sheaf"
     [screen]="screen $T/in/big.sheaf"
     [screen_json]="screen --format json $T/in/big.sheaf"
     [corr]="corr $T/in/big.sheaf"
     [pca]="pca $T/in/big.sheaf"
-    [trim]="trim -q $T/a.csv --keep-list $T/keep_a"
-    [project]="project -q $T/mid.csv --pca $T/in/mid.sheaf --k 1"
+    [trim]="trim -q $T/a.csv --columns-from $T/keep_a"
+    [project]="project -q $T/mid.csv --summary $T/in/mid.sheaf --components 1"
     [help]="--help"
     [scan_help]="scan --help"
     [version]="--version"

@@ -7,12 +7,12 @@
 # columns and the same number of records:
 #   - scan's rows and column names (empty names become colN, as scan names
 #     them; --no-header gives col1..colN);
-#   - trim --keep-list with every column (that a one-name-per-line list can
+#   - trim --columns-from with every column (that a one-name-per-line list can
 #     name) gives those columns of the input back, and with the last column
 #     gives that column, one output record per scanned row (an empty cell
 #     alone on its line must not become a blank line, which readers skip);
-#     trim --from a summary names the columns as scan does;
-#   - project --pca gives one score row per scanned row.
+#     trim --summary a summary names the columns as scan does;
+#   - project --summary gives one score row per scanned row.
 # On bad input they must fail alike: a record longer than --max-record (trim
 # and project take --max-record too) and an unterminated quote exit 3 in all
 # three, and the unterminated quote is reported at the same line.
@@ -113,7 +113,7 @@ EOF
 ref() { "$PY" "$T/csvref.py" "$@" 2>&1; }
 # jget SUMMARY EXPR: a Python expression over d, the info JSON.
 jget() {
-    "$SHEAF" info --json "$1" 2>/dev/null | "$PY" -c 'import json,sys
+    "$SHEAF" info --format json "$1" 2>/dev/null | "$PY" -c 'import json,sys
 d = json.load(sys.stdin)
 print(json.dumps(eval(sys.argv[1]), separators=(",", ":")))' "$2" 2>/dev/null || echo "no-summary"
 }
@@ -143,7 +143,7 @@ names = json.loads(sys.argv[1])
 idx = [i for i, n in enumerate(names) if "\n" not in n and "\r" not in n]
 open(sys.argv[2], "w").write("".join(names[i] + "\n" for i in idx))
 print(json.dumps(idx))' "$names" "$T/keep_all")
-    run "$SHEAF" trim "$f" --keep-list "$T/keep_all" -o "$T/$name.all.csv"
+    run "$SHEAF" trim "$f" --columns-from "$T/keep_all" -o "$T/$name.all.csv"
     if check "$name.trim_all.exit_0" "exit $RC: $(err_text)" [ "$RC" -eq 0 ]; then
         why=$(ref same "$f" "$T/$name.all.csv" "$idx")
         check "$name.trim_all.same_table" "$why" [ "$why" = ok ]
@@ -154,19 +154,19 @@ print(json.dumps(idx))' "$names" "$T/keep_all")
     last=$("$PY" -c 'import json,sys; print(json.loads(sys.argv[1])[-1])' "$names")
     k=$(( $("$PY" -c 'import json,sys; print(len(json.loads(sys.argv[1])))' "$names") - 1 ))
     printf '%s\n' "$last" >"$T/keep_last"
-    run "$SHEAF" trim "$f" --keep-list "$T/keep_last" -o "$T/$name.last.csv"
+    run "$SHEAF" trim "$f" --columns-from "$T/keep_last" -o "$T/$name.last.csv"
     if check "$name.trim_last.exit_0" "exit $RC: $(err_text)" [ "$RC" -eq 0 ]; then
         got=$(ref col "$T/$name.last.csv" 0) want=$(ref col "$f" "$k")
         check "$name.trim_last.column" "trim ${got:0:120}, csv module ${want:0:120}" [ "$got" = "$want" ]
     fi
-    # trim --from: the kept names are scan's names
-    run "$SHEAF" trim "$f" --from "$T/$name.sheaf" -o "$T/$name.from.csv"
+    # trim --summary: the kept names are scan's names
+    run "$SHEAF" trim "$f" --summary "$T/$name.sheaf" -o "$T/$name.from.csv"
     if check "$name.trim_from.exit_0" "exit $RC: $(err_text)" [ "$RC" -eq 0 ]; then
         got=$(ref rows "$T/$name.from.csv")
         check "$name.trim_from.rows_as_scan" "trim wrote $got records, scan read $rows" [ "$got" = "$rows" ]
     fi
     # project: one score row per scanned row
-    run "$SHEAF" project "$f" --pca "$T/$name.sheaf" --k 1 -o "$T/$name.scores.csv"
+    run "$SHEAF" project "$f" --summary "$T/$name.sheaf" --components 1 -o "$T/$name.scores.csv"
     if check "$name.project.exit_0" "exit $RC: $(err_text)" [ "$RC" -eq 0 ]; then
         got=$(ref rows "$T/$name.scores.csv")
         check "$name.project.rows_as_scan" "project wrote $got score rows, scan read $rows" [ "$got" = "$rows" ]
@@ -182,17 +182,17 @@ if check no_header.scan.exit_0 "exit $RC: $(err_text)" [ "$RC" -eq 0 ]; then
         [ "$(jget "$T/nh.sheaf" 'd["rows"]')" = "$rows" ]
     printf 'col2\ncol4\n' >"$T/keep_nh"
     # No header in, no header out: the kept fields of every record.
-    run "$SHEAF" trim "$f" --no-header --keep-list "$T/keep_nh" -o "$T/nh.kept.csv"
+    run "$SHEAF" trim "$f" --no-header --columns-from "$T/keep_nh" -o "$T/nh.kept.csv"
     if check no_header.trim_keep_list.exit_0 "exit $RC: $(err_text)" [ "$RC" -eq 0 ]; then
         got=$(ref col "$T/nh.kept.csv" 1 noheader) want=$(ref col "$f" 3 noheader)
         check no_header.trim_keep_list.col4 "trim ${got:0:100}, csv module ${want:0:100}" [ "$got" = "$want" ]
     fi
-    run "$SHEAF" trim "$f" --no-header --from "$T/nh.sheaf" -o "$T/nh.from.csv"
+    run "$SHEAF" trim "$f" --no-header --summary "$T/nh.sheaf" -o "$T/nh.from.csv"
     if check no_header.trim_from.exit_0 "exit $RC: $(err_text)" [ "$RC" -eq 0 ]; then
         got=$(ref rows "$T/nh.from.csv" noheader)
         check no_header.trim_from.rows_as_scan "trim wrote $got records, scan read $rows" [ "$got" = "$rows" ]
     fi
-    run "$SHEAF" project "$f" --no-header --pca "$T/nh.sheaf" --k 1 -o "$T/nh.scores.csv"
+    run "$SHEAF" project "$f" --no-header --summary "$T/nh.sheaf" --components 1 -o "$T/nh.scores.csv"
     if check no_header.project.exit_0 "exit $RC: $(err_text)" [ "$RC" -eq 0 ]; then
         got=$(ref rows "$T/nh.scores.csv")
         check no_header.project.rows_as_scan "project wrote $got score rows, scan read $rows" [ "$got" = "$rows" ]
@@ -206,14 +206,14 @@ run "$SHEAF" scan -q "$f" -o "$T/long.sheaf" # the summary project needs
 check long_record.scan_default.exit_0 "exit $RC: $(err_text)" [ "$RC" -eq 0 ]
 run "$SHEAF" scan -q --max-record 256 "$f" -o "$T/long256.sheaf"
 check long_record.scan.exit_3 "exit $RC, want 3: $(err_text)" [ "$RC" -eq 3 ]
-run "$SHEAF" trim --max-record 256 "$f" --keep-list "$T/keep_xyz" -o "$T/long.trim.csv"
+run "$SHEAF" trim --max-record 256 "$f" --columns-from "$T/keep_xyz" -o "$T/long.trim.csv"
 check long_record.trim.exit_3 "exit $RC, want 3: $(err_text)" [ "$RC" -eq 3 ]
 check long_record.trim.no_output "an output file was left" [ ! -e "$T/long.trim.csv" ]
-run "$SHEAF" trim --max-record 1M "$f" --keep-list "$T/keep_xyz" -o "$T/long.trim1m.csv"
+run "$SHEAF" trim --max-record 1M "$f" --columns-from "$T/keep_xyz" -o "$T/long.trim1m.csv"
 check long_record.trim_1M.exit_0 "exit $RC: $(err_text)" [ "$RC" -eq 0 ]
-run "$SHEAF" project --max-record 256 "$f" --pca "$T/long.sheaf" --k 1 -o "$T/long.scores.csv"
+run "$SHEAF" project --max-record 256 "$f" --summary "$T/long.sheaf" --components 1 -o "$T/long.scores.csv"
 check long_record.project.exit_3 "exit $RC, want 3: $(err_text)" [ "$RC" -eq 3 ]
-run "$SHEAF" project --max-record 1M "$f" --pca "$T/long.sheaf" --k 1 -o "$T/long.scores1m.csv"
+run "$SHEAF" project --max-record 1M "$f" --summary "$T/long.sheaf" --components 1 -o "$T/long.scores1m.csv"
 check long_record.project_1M.exit_0 "exit $RC: $(err_text)" [ "$RC" -eq 0 ]
 
 # ------------------------------------ an unterminated quote: line 8 in all three
@@ -224,10 +224,10 @@ run "$SHEAF" scan -q "$f" -o "$T/unt_bad.sheaf"
 check unterminated.scan.exit_3 "exit $RC, want 3: $(err_text)" [ "$RC" -eq 3 ]
 check unterminated.scan.line_8 "line '$(line_of)', want 8 (by hand): $(err_text)" [ "$(line_of)" = 8 ]
 printf 'w\n' >"$T/keep_w"
-run "$SHEAF" trim "$f" --keep-list "$T/keep_w" -o "$T/unt.trim.csv"
+run "$SHEAF" trim "$f" --columns-from "$T/keep_w" -o "$T/unt.trim.csv"
 check unterminated.trim.exit_3 "exit $RC, want 3: $(err_text)" [ "$RC" -eq 3 ]
 check unterminated.trim.line_8 "line '$(line_of)', want 8 (by hand): $(err_text)" [ "$(line_of)" = 8 ]
-run "$SHEAF" project "$f" --pca "$T/unt.sheaf" --k 1 -o "$T/unt.scores.csv"
+run "$SHEAF" project "$f" --summary "$T/unt.sheaf" --components 1 -o "$T/unt.scores.csv"
 check unterminated.project.exit_3 "exit $RC, want 3: $(err_text)" [ "$RC" -eq 3 ]
 check unterminated.project.line_8 "line '$(line_of)', want 8 (by hand): $(err_text)" [ "$(line_of)" = 8 ]
 exit 0

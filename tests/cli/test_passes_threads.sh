@@ -3,12 +3,12 @@
 # count, and a failure is the same failure.
 #   - a 60,000-row bench table (build/demo/generate --profile bench), plain,
 #     gzip and zstd, and a summary of it with the class target `label`;
-#   - trim --from the summary and project --pca with --carry: the sha256 of
+#   - trim --summary the summary and project --summary with --carry: the sha256 of
 #     the output at -j2, -j3 and -j8 equals that at -j1, at the default chunk
 #     size and at --chunk-size 64K (about 190 chunks), on each input, written
 #     plain and as .gz (the gzip stream depends on where the sink drains, so
 #     this also holds the order and sizes of the writes); the same for trim
-#     --from with --top and --carry, and trim --keep-list, on the plain
+#     --summary with --max-kept and --carry, and trim --columns-from, on the plain
 #     input at 64K;
 #   - the -j1 outputs against an outside reference: Python's csv module
 #     (Debian's /usr/bin/python3, standard library) reads the input and the
@@ -72,13 +72,13 @@ for in in $INPUTS; do
         opt=""
         [ "$cs" = 64K ] && opt="--chunk-size 64K"
         tag="$in.$cs"
-        same "trim_from.$tag" $SHEAF trim "$T/$in" --from "$T/t.sheaf" $opt
-        same "project.$tag" $SHEAF project "$T/$in" --pca "$T/t.sheaf" --carry seq,label $opt
+        same "trim_from.$tag" $SHEAF trim "$T/$in" --summary "$T/t.sheaf" $opt
+        same "project.$tag" $SHEAF project "$T/$in" --summary "$T/t.sheaf" --carry seq,label $opt
     done
 done
-same trim_from_top_carry.t.csv.64K $SHEAF trim "$T/t.csv" --from "$T/t.sheaf" --top 5 \
+same trim_from_top_carry.t.csv.64K $SHEAF trim "$T/t.csv" --summary "$T/t.sheaf" --max-kept 5 \
     --carry seq,stamp_ms --chunk-size 64K
-same trim_keep_list.t.csv.64K $SHEAF trim "$T/t.csv" --keep-list "$T/keep.txt" --chunk-size 64K
+same trim_keep_list.t.csv.64K $SHEAF trim "$T/t.csv" --columns-from "$T/keep.txt" --chunk-size 64K
 
 # -------------------------------------------- the -j1 outputs, read by Python
 cat >"$T/ref.py" <<'EOF'
@@ -117,7 +117,7 @@ for in in bad.csv bad.csv.gz; do
         opt=""
         [ "$cs" = 64K ] && opt="--chunk-size 64K"
         for cmd in trim project; do
-            if [ $cmd = trim ]; then args="--from $T/t.sheaf"; else args="--pca $T/t.sheaf"; fi
+            args="--summary $T/t.sheaf"
             name="unterminated.$cmd.$in.$cs"
             rm -f "$T/fail.csv.gz"
             run $SHEAF $cmd "$T/$in" $args $opt -j1 -o "$T/fail.csv.gz"
@@ -146,15 +146,15 @@ for cmd in trim project; do
     check "help_mentions_threads.$cmd" "$(head -c 200 "$T/out")" \
         grep -q -- "--threads" "$T/out"
     check "help_mentions_quiet.$cmd" "$(head -c 200 "$T/out")" grep -q -- "--quiet" "$T/out"
-    if [ $cmd = trim ]; then args="--from $T/t.sheaf"; else args="--pca $T/t.sheaf"; fi
+    args="--summary $T/t.sheaf"
     run $SHEAF $cmd "$T/t.csv" $args -j0 -o "$T/j0.csv"
     check "threads_zero_is_usage.$cmd" "exit $RC: $(err_text)" [ "$RC" = 2 ]
     run $SHEAF $cmd "$T/t.csv.gz" $args --threads 2 -o "$T/quiet.csv"
     quiet_ok=0
     [ "$RC" = 0 ] && [ ! -s "$T/err" ] && quiet_ok=1
     check "no_progress_off_terminal.$cmd" "exit $RC, stderr: $(err_text)" [ $quiet_ok = 1 ]
-    # trim's --q is the significance level; -q alone is --quiet.
-    [ $cmd = trim ] && args="$args --q 0.05"
+    # trim's --fdr is the significance level; -q alone is --quiet.
+    [ $cmd = trim ] && args="$args --fdr 0.05"
     run $SHEAF $cmd "$T/t.csv" $args -q -j2 -o "$T/quiet.csv"
     check "quiet_accepted.$cmd" "exit $RC: $(err_text)" [ "$RC" = 0 ]
 done

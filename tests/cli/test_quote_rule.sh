@@ -61,9 +61,9 @@ def info(p):
 
 print("; ".join(tree_differences(info(sys.argv[1]), info(sys.argv[2]), 1e-9)[:4]))
 EOF
-# info_json SUMMARY: its `info --json --top 20`, written once to SUMMARY.json.
+# info_json SUMMARY: its `info --format json --top-values 20`, written once to SUMMARY.json.
 info_json() {
-    [ -s "$1.json" ] || "$SHEAF" info --json --top 20 "$1" >"$1.json" 2>/dev/null
+    [ -s "$1.json" ] || "$SHEAF" info --format json --top-values 20 "$1" >"$1.json" 2>/dev/null
     echo "$1.json"
 }
 # jget SUMMARY EXPR: a Python expression over d, the info JSON.

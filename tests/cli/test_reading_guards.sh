@@ -54,7 +54,7 @@ for c in "aa.csv.gz 400 1" "aaa.csv.zst 600 2" "ab.csv.gz 400 0" "mid.csv.gz 202
     set -- $c
     run "$SHEAF" scan "$T/$1" --target label -q -o "$T/r.sheaf"
     if [ "$RC" -ne 0 ]; then fail "repeat_header.$1" "scan exit $RC: $(err_text)"; continue; fi
-    "$SHEAF" info "$T/r.sheaf" --json >"$T/r.json" 2>/dev/null
+    "$SHEAF" info "$T/r.sheaf" --format json >"$T/r.json" 2>/dev/null
     rows=$(json_field "$T/r.json" rows)
     rep=$(json_field "$T/r.json" repeated_headers)
     levels=$(grep -c '"value": "label"' "$T/r.json")
@@ -72,7 +72,7 @@ check repeat_header.info_text "info does not report the skipped header line" \
 # A merge adds the counts (sheaf's own scans as the reference: 1 + 2 lines).
 "$SHEAF" scan "$T/aaa.csv.zst" -q -o "$T/r3.sheaf" 2>/dev/null
 "$SHEAF" merge "$T/r.sheaf" "$T/r3.sheaf" -o "$T/rm.sheaf" 2>/dev/null
-"$SHEAF" info "$T/rm.sheaf" --json >"$T/rm.json" 2>/dev/null
+"$SHEAF" info "$T/rm.sheaf" --format json >"$T/rm.json" 2>/dev/null
 check repeat_header.merge_adds "merge does not add the counts ($(json_field "$T/rm.json" repeated_headers))" \
     test "$(json_field "$T/rm.json" repeated_headers)" = 3
 # A scan writes format version 5 with or without repeated headers (the
@@ -102,16 +102,16 @@ for cs in 64 1K default; do
     done
 done
 check repeat_header.same_bytes_every_j "$bad" test -z "$bad"
-"$SHEAF" info "$T/t.sheaf" --json >"$T/t.json" 2>/dev/null
+"$SHEAF" info "$T/t.sheaf" --format json >"$T/t.json" 2>/dev/null
 check repeat_header.multi_file "two files (3 + 2 copies): rows $(json_field "$T/t.json" rows), repeated $(json_field "$T/t.json" repeated_headers)" \
     test "$(json_field "$T/t.json" rows)" = 1000 -a "$(json_field "$T/t.json" repeated_headers)" = 3
 "$SHEAF" scan "$T/a.csv" "$T/a.csv" -q -o "$T/f.sheaf" 2>/dev/null
-"$SHEAF" info "$T/f.sheaf" --json >"$T/f.json" 2>/dev/null
+"$SHEAF" info "$T/f.sheaf" --format json >"$T/f.json" 2>/dev/null
 check repeat_header.next_file_header "a.csv twice: rows $(json_field "$T/f.json" rows)" \
     test "$(json_field "$T/f.json" rows)" = 400
 # trim and project skip the repeated header as the scan does.
 printf 'id\nx\n' >"$T/keep.txt"
-"$SHEAF" trim "$T/aa.csv.gz" --keep-list "$T/keep.txt" -q >"$T/trim.out" 2>/dev/null
+"$SHEAF" trim "$T/aa.csv.gz" --columns-from "$T/keep.txt" -q >"$T/trim.out" 2>/dev/null
 check repeat_header.trim "trim writes $(grep -c '^id,x' "$T/trim.out") header lines, $(wc -l <"$T/trim.out") lines" \
     test "$(grep -c '^id,x' "$T/trim.out")" = 1 -a "$(wc -l <"$T/trim.out")" = 401
 
@@ -139,7 +139,7 @@ for n in 63 64 65 1024; do
     s=$(head -c "$n" /dev/zero | tr '\0' 'm')
     { echo 'v'; echo 1; echo "$s"; echo 2; } >"$T/m.csv"
     run "$SHEAF" scan "$T/m.csv" --missing "$s" -q -o "$T/m.sheaf"
-    "$SHEAF" info "$T/m.sheaf" --json >"$T/m.json" 2>/dev/null
+    "$SHEAF" info "$T/m.sheaf" --format json >"$T/m.json" 2>/dev/null
     check "missing.spelling_${n}_bytes" "exit $RC, missing $(json_field "$T/m.json" missing) (want 1)" \
         test "$RC" = 0 -a "$(json_field "$T/m.json" missing)" = 1
 done
@@ -150,7 +150,7 @@ check missing.spelling_1025_refused "exit $RC: $(err_text)" \
 
 # ---- 4. trim with nothing to keep ------------------------------------------
 printf '# nothing\n\n' >"$T/empty.txt"
-run "$SHEAF" trim "$T/a.csv" --keep-list "$T/empty.txt" -q
+run "$SHEAF" trim "$T/a.csv" --columns-from "$T/empty.txt" -q
 check trim.empty_keep_list_refused "exit $RC, $(wc -c <"$T/out") bytes out: $(err_text)" \
     test "$RC" = 2 -a ! -s "$T/out" -a "$(wc -l <"$T/err")" = 1
 
@@ -169,17 +169,17 @@ check dup.scan_failing_in_one_line "exit $RC: $(err_text)" \
     test "$RC" = 3 -a "$(wc -l <"$T/err")" = 1 -a "$(grep -c 'dupq.csv' "$T/err")" = 1
 run "$SHEAF" scan "$T/dup.csv" --target b -q -o "$T/dupb.sheaf"
 check dup.scan_unique_target_ok "exit $RC: $(err_text)" test "$RC" = 0
-for opt in --columns --numeric --categorical --ignore; do
+for opt in --columns --numeric --categorical --exclude; do
     run "$SHEAF" scan "$T/dup.csv" $opt a -q -o "$T/dupo.sheaf"
     check "dup.scan${opt}_refused" "exit $RC: $(err_text)" test "$RC" = 2
 done
 printf 'a\n' >"$T/keep_a.txt"
-run "$SHEAF" trim "$T/dup.csv" --keep-list "$T/keep_a.txt" -q
+run "$SHEAF" trim "$T/dup.csv" --columns-from "$T/keep_a.txt" -q
 check dup.trim_keep_refused "exit $RC: $(err_text)" test "$RC" = 2 -a ! -s "$T/out"
-run "$SHEAF" trim "$T/dup.csv" --keep-list "$T/keep_a.txt" --carry b -q
+run "$SHEAF" trim "$T/dup.csv" --columns-from "$T/keep_a.txt" --carry b -q
 check dup.trim_carry_refused "exit $RC: $(err_text)" test "$RC" = 2
 printf 'b\n' >"$T/keep_b.txt"
-run "$SHEAF" trim "$T/dup.csv" --keep-list "$T/keep_b.txt" -q
+run "$SHEAF" trim "$T/dup.csv" --columns-from "$T/keep_b.txt" -q
 check dup.trim_unique_ok "exit $RC, out: $(tr '\n' '|' <"$T/out")" \
     test "$RC" = 0 -a "$(tr '\n' '|' <"$T/out")" = 'b|x|y|x|'
 # corr, pca and project on a summary of a table with duplicate names (40 rows).
@@ -191,19 +191,19 @@ run "$SHEAF" corr "$T/dup40.sheaf"
 check dup.corr_unnamed_ok "exit $RC: $(err_text)" test "$RC" = 0
 run "$SHEAF" pca "$T/dup40.sheaf" --columns a,b
 check dup.pca_columns_refused "exit $RC: $(err_text)" test "$RC" = 2 -a "$(grep -c "'a' names more than one" "$T/err")" = 1
-run "$SHEAF" project "$T/dup40.csv" --pca "$T/dup40.sheaf" -q
+run "$SHEAF" project "$T/dup40.csv" --summary "$T/dup40.sheaf" -q
 check dup.project_refused "exit $RC: $(err_text)" test "$RC" = 3 -a "$(grep -c "'a' names more than one" "$T/err")" = 1
 # project's --carry names columns the user typed, as trim's --carry does: an
 # unknown or duplicated name is a usage error (exit 2) in both passes; only a
 # column the PCA needs that the data lacks is the data's fault (exit 3, above).
 { echo 'a,b,t,t'; for i in $(seq 1 40); do echo "$i,$(((i * 7) % 13)),x$((i % 3)),y"; done; } >"$T/carry.csv"
 "$SHEAF" scan "$T/carry.csv" -q -o "$T/carry.sheaf" 2>/dev/null
-run "$SHEAF" project "$T/carry.csv" --pca "$T/carry.sheaf" --carry nosuch -q
+run "$SHEAF" project "$T/carry.csv" --summary "$T/carry.sheaf" --carry nosuch -q
 check carry.project_unknown_exit_2 "exit $RC: $(err_text)" \
     test "$RC" = 2 -a "$(wc -l <"$T/err")" = 1 -a "$(grep -c "nosuch" "$T/err")" = 1
-run "$SHEAF" trim "$T/carry.csv" --keep-list "$T/keep_b.txt" --carry nosuch -q
+run "$SHEAF" trim "$T/carry.csv" --columns-from "$T/keep_b.txt" --carry nosuch -q
 check carry.trim_unknown_exit_2 "exit $RC: $(err_text)" test "$RC" = 2
-run "$SHEAF" project "$T/carry.csv" --pca "$T/carry.sheaf" --carry t -q
+run "$SHEAF" project "$T/carry.csv" --summary "$T/carry.sheaf" --carry t -q
 check carry.project_duplicated_exit_2 "exit $RC: $(err_text)" \
     test "$RC" = 2 -a "$(grep -c "'t' names more than one" "$T/err")" = 1
 

@@ -18,7 +18,7 @@ E6=$SM/interest_inflation/E6_jmulti.csv
 # moments_match SUMMARY PYTHON_EXPR_FOR_FRAME: every numeric column's count,
 # mean and sample sd against pandas on the frame (columns in file order).
 moments_match() {
-    "$SHEAF" info --json "$1" >"$T/info.json" || return 1
+    "$SHEAF" info --format json "$1" >"$T/info.json" || return 1
     "$PY" - "$T/info.json" "$2" <<'EOF'
 import json, sys
 import pandas as pd
@@ -41,7 +41,7 @@ if [ -r "$SPECTOR" ] && [ -r "$E6" ]; then
     # reference: pandas.read_csv(sep=' '), as statsmodels' loader reads it (sep=r'\s')
     check spector_moments_match_pandas "differs" moments_match "$T/spector.sheaf" \
         "pd.read_csv('$SPECTOR', sep=' ')"
-    "$SHEAF" info --json "$T/spector.sheaf" >"$T/sp.json"
+    "$SHEAF" info --format json "$T/spector.sheaf" >"$T/sp.json"
     check spector_names_keep_their_single_quotes "names differ from pandas'" \
         "$PY" -c "import json,sys,pandas as pd; n=[c['name'] for c in json.load(open('$T/sp.json'))['columns']]; sys.exit(n != list(pd.read_csv('$SPECTOR', sep=' ').columns) or n[0] != \"'OBS'\")"
     run "$SHEAF" scan --no-header "$E6" -o "$T/e6.sheaf"
@@ -58,7 +58,7 @@ fi
 # A run of spaces is several delimiters: "1  2" is 1, an empty (missing) field, 2.
 printf 'a b c\n1  2\n3 4 5\n' >"$T/runs.txt"
 run "$SHEAF" scan --delim space "$T/runs.txt" -o "$T/runs.sheaf"
-"$SHEAF" info --json "$T/runs.sheaf" >"$T/runs.json" 2>/dev/null
+"$SHEAF" info --format json "$T/runs.sheaf" >"$T/runs.json" 2>/dev/null
 check run_of_spaces_is_an_empty_field "$(head -c 300 "$T/runs.json")" \
     "$PY" -c "import json,sys; c=json.load(open('$T/runs.json'))['columns']; sys.exit([(x['n'],x['missing']) for x in c] != [(2,0),(1,1),(2,0)])"
 # An aligned file (runs of spaces of different lengths) is not detected as
@@ -73,8 +73,8 @@ printf 'a\tb\n1\t2\n' >"$T/tab.txt"
 for cmd in scan trim project; do
     case $cmd in
     scan) args=("$T/tab.txt" -o "$T/w.sheaf") ;;
-    trim) args=("$T/tab.txt" --from "$T/w.sheaf" -o "$T/w.csv") ;;
-    project) args=("$T/tab.txt" --pca "$T/w.sheaf" -o "$T/w.csv") ;;
+    trim) args=("$T/tab.txt" --summary "$T/w.sheaf" -o "$T/w.csv") ;;
+    project) args=("$T/tab.txt" --summary "$T/w.sheaf" -o "$T/w.csv") ;;
     esac
     run "$SHEAF" "$cmd" --delim blank "${args[@]}"
     check "delim_word_refused_${cmd}" "rc $RC: $(err_text)" \
@@ -89,14 +89,14 @@ check delim_tab_word "rc $RC: $(err_text)" [ "$RC" = 0 ]
 # would also get the one-column warning, hence the second column)
 printf 'reading,unit\n1,V\nna,V\nN/a,V\nNULL,V\nnone,V\nNone,V\nnull,V\n2,V\nnA,V\n"NA ",V\n' >"$T/case.csv"
 run "$SHEAF" scan "$T/case.csv" -o "$T/case.sheaf"
-"$SHEAF" info --json "$T/case.sheaf" >"$T/case.json" 2>/dev/null
+"$SHEAF" info --format json "$T/case.sheaf" >"$T/case.json" 2>/dev/null
 check missing_spellings_any_case "$(err_text)" "$PY" -c "
 import json, sys
 c = json.load(open('$T/case.json'))['columns'][0]
 sys.exit(not (c['missing'] == 7 and c['n'] == 2 and c['non_numeric'] == 1))"
 printf 'reading,unit\n1,V\nERR,V\nerr,V\n2,V\n' >"$T/case2.csv"
 run "$SHEAF" scan "$T/case2.csv" --missing ERR -o "$T/case2.sheaf"
-"$SHEAF" info --json "$T/case2.sheaf" >"$T/case2.json" 2>/dev/null
+"$SHEAF" info --format json "$T/case2.sheaf" >"$T/case2.json" 2>/dev/null
 check missing_option_spellings_any_case "$(err_text)" "$PY" -c "
 import json, sys
 c = json.load(open('$T/case2.json'))['columns'][0]

@@ -33,7 +33,7 @@ HAVE_PY=0
 # json SUMMARY EXPR: evaluates the python expression EXPR over d, the info
 # JSON of SUMMARY, and prints the result (compact JSON).
 json() {
-    "$SHEAF" info --json "$1" >"$T/json.out" 2>"$T/json.err" || { echo "info-exit-$?"; return; }
+    "$SHEAF" info --format json "$1" >"$T/json.out" 2>"$T/json.err" || { echo "info-exit-$?"; return; }
     "$PY" -c 'import json,sys
 d = json.load(open(sys.argv[1]))
 print(json.dumps(eval(sys.argv[2]), sort_keys=True, separators=(",", ":")))' "$T/json.out" "$2"
@@ -342,7 +342,7 @@ printf 'id,level,code,note\n1,10.5,007,x\n2,11.5,008,y\n3,NA,009,z\n' >"$T/cols.
 if scan_ok columns_option "$T/cols.csv" --columns note,level -o "$T/c1.sheaf"; then
     jcheck columns_option.selected "$T/c1.sheaf" 'sorted(c["name"] for c in d["columns"])' '["level","note"]'
 fi
-if scan_ok ignore_option "$T/cols.csv" --ignore id,note -o "$T/c2.sheaf"; then
+if scan_ok ignore_option "$T/cols.csv" --exclude id,note -o "$T/c2.sheaf"; then
     jcheck ignore_option.left_out "$T/c2.sheaf" '[c["name"] for c in d["columns"]]' '["level","code"]'
 fi
 if scan_ok categorical_option "$T/cols.csv" --categorical code -o "$T/c3.sheaf"; then
@@ -389,7 +389,7 @@ PENG="$DATA/open/penguins.csv"
 scan_ok base_summary "$PENG" -o "$T/base.sheaf"
 if [ -s "$T/base.sheaf" ]; then
     size=$(stat -c %s "$T/base.sheaf")
-    run "$SHEAF" info --json "$T/base.sheaf"
+    run "$SHEAF" info --format json "$T/base.sheaf"
     check intact_summary.exit_0 "exit $RC: $(err_text)" [ "$RC" -eq 0 ]
     # one flipped bit at 200 evenly spaced positions, then every bit of the
     # first 12 bytes (magic and version)
@@ -401,7 +401,7 @@ if [ -s "$T/base.sheaf" ]; then
         p=${pb%%:*} b=${pb#*:}
         cp "$T/base.sheaf" "$T/flip.sheaf"
         flip_bit "$T/flip.sheaf" "$p" "$b"
-        run "$SHEAF" info --json "$T/flip.sheaf"
+        run "$SHEAF" info --format json "$T/flip.sheaf"
         n=$((n + 1))
         if [ "$RC" -ne 4 ] || ! one_line_error || [ -s "$T/out" ]; then
             bad+=" byte $p bit $b: exit $RC, $(lines_of "$T/err") stderr lines, $(wc -c <"$T/out") stdout bytes;"
@@ -418,17 +418,17 @@ if [ -s "$T/base.sheaf" ]; then
     bad=""
     for cut in 0 1 8 12 $((size / 2)) $((size - 9)) $((size - 1)); do
         head -c "$cut" "$T/base.sheaf" >"$T/trunc.sheaf"
-        run "$SHEAF" info --json "$T/trunc.sheaf"
+        run "$SHEAF" info --format json "$T/trunc.sheaf"
         if [ "$RC" -ne 4 ] || ! one_line_error; then bad+=" $cut bytes: exit $RC;"; fi
     done
     check truncated_summary.exit_4 "$bad" [ -z "$bad" ]
     { cat "$T/base.sheaf"; printf 'x'; } >"$T/trailing.sheaf"
-    run "$SHEAF" info --json "$T/trailing.sheaf"
+    run "$SHEAF" info --format json "$T/trailing.sheaf"
     check trailing_garbage_summary.exit_4 "exit $RC" [ "$RC" -eq 4 ]
 else
     skip damaged_summaries "no base summary"
 fi
-run "$SHEAF" info --json "$T/comma.csv"
+run "$SHEAF" info --format json "$T/comma.csv"
 check non_summary.exit_4 "exit $RC" [ "$RC" -eq 4 ]
 check non_summary.one_line "stderr: $(err_text)" one_line_error
 gzip -c "$T/comma.csv" >"$T/comma.csv.gz"

@@ -76,7 +76,7 @@ for cs in 16K 64K 300K 1M; do
     for j in 1 2; do
         run "$SHEAF" scan "$T/t.csv" --chunk-size "$cs" -j "$j" -q -o "$T/c.sheaf"
         [ "$RC" -ne 0 ] && { bad="--chunk-size $cs -j$j exit $RC: $(err_text)"; break 2; }
-        h=$({ "$SHEAF" corr "$T/c.sheaf" --format json --covariance
+        h=$({ "$SHEAF" corr "$T/c.sheaf" --format json --basis covariance
               "$SHEAF" corr "$T/c.sheaf" --format json; } | sha256sum | cut -c1-16)
         [ -z "$want" ] && want=$h
         [ "$h" != "$want" ] && bad="--chunk-size $cs -j$j gives $h, 16K -j1 $want"
@@ -149,7 +149,7 @@ check threads.error.names_ragged_line "no 'line 25001' in: $(err_text)" grep -q 
 
 # 4. A continuous target's own column: its mean and sd against pandas.
 "$SHEAF" scan "$T/t.csv" --target price -j 2 -q -o "$T/r.sheaf" &&
-    "$SHEAF" info "$T/r.sheaf" --json >"$T/r.json"
+    "$SHEAF" info "$T/r.sheaf" --format json >"$T/r.json"
 if [ -x "$PY" ] && "$PY" -c 'import pandas' 2>/dev/null; then
     if out=$("$PY" - "$T/t.csv" "$T/r.json" <<'PY' 2>&1
 import json, sys

@@ -43,11 +43,11 @@ check stdout.failed_scan_writes_nothing "exit $RC, $(wc -c <../bad.out) bytes" \
     holds '[ "$RC" -eq 3 ] && [ ! -s ../bad.out ]'
 "$S" merge ../fly.sheaf -o - >../m.sheaf 2>../err
 check stdout.merge_dash "$(first_diff ../m.sheaf ../fly.sheaf)" cmp -s ../m.sheaf ../fly.sheaf
-"$S" trim ../fly.csv --keep-list ../keep.txt -o - >../trim.out 2>../err
-"$S" trim ../fly.csv --keep-list ../keep.txt >../trim.ref 2>>../err
+"$S" trim ../fly.csv --columns-from ../keep.txt -o - >../trim.out 2>../err
+"$S" trim ../fly.csv --columns-from ../keep.txt >../trim.ref 2>>../err
 check stdout.trim_dash "$(first_diff ../trim.out ../trim.ref)" cmp -s ../trim.out ../trim.ref
-"$S" project ../fly.csv --pca ../fly.sheaf -k 1 -o - >../proj.out 2>../err
-"$S" project ../fly.csv --pca ../fly.sheaf -k 1 >../proj.ref 2>>../err
+"$S" project ../fly.csv --summary ../fly.sheaf -k 1 -o - >../proj.out 2>../err
+"$S" project ../fly.csv --summary ../fly.sheaf -k 1 >../proj.ref 2>>../err
 check stdout.project_dash "$(first_diff ../proj.out ../proj.ref)" \
     holds '[ -s ../proj.out ] && cmp -s ../proj.out ../proj.ref'
 left=$(ls -A . | tr '\n' ' ')
@@ -67,16 +67,16 @@ else
 fi
 
 # Summaries from standard input: the same output as from the file.
-for c in "info" "info --json" "corr" "screen" "screen -f json" "pca -f csv"; do
+for c in "info" "info --format", "json" "corr" "screen" "screen -f json" "pca -f csv"; do
     "$S" $c "$T/fly.sheaf" 2>&1 | sed "s|$T/fly.sheaf|X|" >"$T/a"
-    "$S" $c - <"$T/fly.sheaf" 2>&1 | sed 's|standard input|X|; s|--from SUMMARY.sheaf|--from X|' >"$T/b"
+    "$S" $c - <"$T/fly.sheaf" 2>&1 | sed 's|standard input|X|; s|--summary SUMMARY.sheaf|--summary X|' >"$T/b"
     check "stdin.${c// /_}" "$(first_diff "$T/a" "$T/b")" cmp -s "$T/a" "$T/b"
 done
 "$S" merge "$T/fly.sheaf" - --allow-duplicates -o "$T/m2.sheaf" <"$T/fly.sheaf" 2>"$T/err"
 "$S" merge "$T/fly.sheaf" "$T/fly.sheaf" --allow-duplicates -o "$T/m3.sheaf" 2>>"$T/err"
 check stdin.merge_input "$(err_text)" cmp -s "$T/m2.sheaf" "$T/m3.sheaf"
-"$S" project "$T/fly.csv" --pca - -k 1 <"$T/fly.sheaf" >"$T/p2" 2>"$T/err"
-"$S" project "$T/fly.csv" --pca "$T/fly.sheaf" -k 1 >"$T/p3" 2>>"$T/err"
+"$S" project "$T/fly.csv" --summary - -k 1 <"$T/fly.sheaf" >"$T/p2" 2>"$T/err"
+"$S" project "$T/fly.csv" --summary "$T/fly.sheaf" -k 1 >"$T/p3" 2>>"$T/err"
 check stdin.project_pca "$(err_text)" cmp -s "$T/p2" "$T/p3"
 "$S" scan -q "$T/fly.csv" -t status -o - | "$S" screen - >"$T/a" 2>"$T/err"
 check stdin.scan_pipe_screen "$(err_text)" grep -q 'kept' "$T/a"
@@ -88,7 +88,7 @@ run "$S" info - </dev/null
 check stdin.empty_is_damaged "exit $RC: $(err_text)" [ "$RC" -eq 4 ]
 run "$S" merge - - -o "$T/x.sheaf" <"$T/fly.sheaf"
 check stdin.named_twice_refused "exit $RC: $(err_text)" holds '[ "$RC" -eq 2 ] && [ ! -e "$T/x.sheaf" ]'
-run "$S" trim - --from - <"$T/fly.csv"
+run "$S" trim - --summary - <"$T/fly.csv"
 check stdin.trim_data_and_summary_refused "exit $RC: $(err_text)" [ "$RC" -eq 2 ]
 
 # ---- option forms ---------------------------------------------------------
@@ -105,12 +105,12 @@ forms scan_bundled_qo "$S" scan "$T/fly.csv" -t status -qo "$T/f.sheaf"
 forms scan_bundled_qj2 "$S" scan "$T/fly.csv" --target=status -qj2 -o "$T/f.sheaf"
 forms scan_bundled_qt "$S" scan "$T/fly.csv" -qtstatus -j1 -o "$T/f.sheaf"
 forms merge_o_attached "$S" merge "$T/fly.sheaf" "-o$T/f.sheaf"
-run "$S" trim "$T/fly.csv" --keep-list="$T/keep.txt" -j2 -qo "$T/t.csv"
+run "$S" trim "$T/fly.csv" --columns-from="$T/keep.txt" -j2 -qo "$T/t.csv"
 check options.trim_bundled "exit $RC: $(err_text)" holds '[ "$RC" -eq 0 ] && cmp -s "$T/t.csv" "$T/trim.ref"'
-run "$S" project "$T/fly.csv" "--pca=$T/fly.sheaf" -qk1 "-o$T/p.csv"
+run "$S" project "$T/fly.csv" "--summary=$T/fly.sheaf" -qk1 "-o$T/p.csv"
 check options.project_bundled "exit $RC: $(err_text)" holds '[ "$RC" -eq 0 ] && cmp -s "$T/p.csv" "$T/proj.ref"'
-"$S" info --top 2 --json "$T/fly.sheaf" >"$T/a"
-run "$S" info --top=2 --json "$T/fly.sheaf"
+"$S" info --top-values 2 --format json "$T/fly.sheaf" >"$T/a"
+run "$S" info --top-values=2 --format json "$T/fly.sheaf"
 check options.info_equals "exit $RC" cmp -s "$T/out" "$T/a"
 "$S" screen --format json "$T/fly.sheaf" >"$T/a"
 run "$S" screen -fjson "$T/fly.sheaf"
@@ -118,7 +118,7 @@ check options.screen_attached "exit $RC" cmp -s "$T/out" "$T/a"
 "$S" corr --format csv "$T/fly.sheaf" >"$T/a"
 run "$S" corr -fcsv "$T/fly.sheaf"
 check options.corr_attached "exit $RC" cmp -s "$T/out" "$T/a"
-"$S" pca --k 1 --format csv "$T/fly.sheaf" >"$T/a"
+"$S" pca --components 1 --format csv "$T/fly.sheaf" >"$T/a"
 run "$S" pca -k1 -fcsv "$T/fly.sheaf"
 check options.pca_attached "exit $RC" cmp -s "$T/out" "$T/a"
 run "$S" scan -q "$T/fly.csv" -qo
@@ -158,7 +158,7 @@ suggest command_swap "did you mean 'scan'?" "$S" sacn x
 suggest command_drop "did you mean 'merge'?" "$S" merg
 suggest help_command "did you mean 'screen'?" "$S" help screne
 suggest option_swap "did you mean '--output'?" "$S" scan "$T/fly.csv" --outptu x
-suggest option_prefix "did you mean '--covariance'?" "$S" corr "$T/fly.sheaf" --cov
+suggest option_prefix "did you mean '--basis'?" "$S" corr "$T/fly.sheaf" --basi
 suggest option_case "did you mean '--rank-by'?" "$S" screen "$T/fly.sheaf" --Rank-By q
 suggest short_letters "(short options: -o -d -t -j -q -h)" "$S" scan "$T/fly.csv" -qx
 run "$S" scan "$T/fly.csv" --zzzzzz
@@ -173,7 +173,7 @@ column() { # NAME WANT COMMAND...: a non-zero exit, one line with WANT and the c
         holds '[ "$RC" -ne 0 ] && grep -qF -- "$want" "$T/err" && grep -q "(.*columns: drone_id, battery_v" "$T/err" && [ "$(wc -l <"$T/err")" -eq 1 ]'
 }
 column scan_target "did you mean 'status'?" "$S" scan -q "$T/fly.csv" -t stats -o "$T/x.sheaf"
-column scan_ignore "did you mean 'battery_v'?" "$S" scan -q "$T/fly.csv" --ignore batery_v -o "$T/x.sheaf"
+column scan_ignore "did you mean 'battery_v'?" "$S" scan -q "$T/fly.csv" --exclude batery_v -o "$T/x.sheaf"
 column scan_columns "did you mean 'payload_kg'?" "$S" scan -q "$T/fly.csv" --columns payload,status -o "$T/x.sheaf"
 column scan_numeric "did you mean 'altitude_m'?" "$S" scan -q "$T/fly.csv" --numeric Altitude_M -o "$T/x.sheaf"
 column screen_target "did you mean 'motor_temp_c'?" "$S" screen "$T/fly.sheaf" -t motor_tmp_c
@@ -181,10 +181,10 @@ column corr_columns "did you mean 'battery_v'?" "$S" corr "$T/fly.sheaf" --colum
 column pca_columns "did you mean 'altitude_m'?" "$S" pca "$T/fly.sheaf" --columns battery_v,altitud_m
 column pca_exclude "did you mean 'payload_kg'?" "$S" pca "$T/fly.sheaf" --exclude paylod_kg
 printf 'battery_v\nmotortemp_c\n' >"$T/typo.txt"
-column pca_keep_list "did you mean 'motor_temp_c'?" "$S" pca "$T/fly.sheaf" --keep-list "$T/typo.txt"
-column project_carry "did you mean 'drone_id'?" "$S" project "$T/fly.csv" --pca "$T/fly.sheaf" -k 1 --carry droneid
-column trim_keep_list "did you mean 'motor_temp_c'?" "$S" trim "$T/fly.csv" --keep-list "$T/typo.txt"
-column trim_carry "did you mean 'drone_id'?" "$S" trim "$T/fly.csv" --keep-list "$T/keep.txt" --carry drone
+column pca_keep_list "did you mean 'motor_temp_c'?" "$S" pca "$T/fly.sheaf" --columns-from "$T/typo.txt"
+column project_carry "did you mean 'drone_id'?" "$S" project "$T/fly.csv" --summary "$T/fly.sheaf" -k 1 --carry droneid
+column trim_keep_list "did you mean 'motor_temp_c'?" "$S" trim "$T/fly.csv" --columns-from "$T/typo.txt"
+column trim_carry "did you mean 'drone_id'?" "$S" trim "$T/fly.csv" --columns-from "$T/keep.txt" --carry drone
 run "$S" screen "$T/fly.sheaf" -t zzzzzzzzz
 check suggest.column.far_lists_some "exit $RC: $(err_text)" \
     holds '[ "$RC" -eq 2 ] && ! grep -q "did you mean" "$T/err" && grep -q "columns: drone_id, battery_v, motor_temp_c, altitude_m, payload_kg, ... 6 in all" "$T/err"'
@@ -195,9 +195,9 @@ check suggest.target_of_several "exit $RC: $(err_text)" \
 
 # ---- write failures ---------------------------------------------------------
 if [ -w /dev/full ]; then
-    for c in "info @X" "info --json @X" "corr @X" "corr -f json @X" "corr -f csv @X" "screen @X" \
+    for c in "info @X" "info --format json @X" "corr @X" "corr -f json @X" "corr -f csv @X" "screen @X" \
         "screen -f json @X" "screen -f csv @X" "pca @X" "pca -f json @X" "pca -f csv @X" \
-        "trim @D --from @X" "project @D --pca @X -k 1" "scan -q @D -o -" "merge @X -o -" \
+        "trim @D --summary @X" "project @D --summary @X -k 1" "scan -q @D -o -" "merge @X -o -" \
         "--help" "help scan" "scan --help" "-V" "info - <@X"; do
         cmd=${c//@X/$T/fly.sheaf}
         cmd=${cmd//@D/$T/fly.csv}

@@ -85,7 +85,7 @@ done
 
 # Every count against the csv module; sums to 1e-9 relative.
 for s in mixed1 mixed64k mixed2M; do
-    $SHEAF info --json "$T/$s.sheaf" >"$T/$s.json" || fail "${s}_info" "exit $?"
+    $SHEAF info --format json "$T/$s.sheaf" >"$T/$s.json" || fail "${s}_info" "exit $?"
     if out=$("$PY" - "$T/mixed.csv" "$T/$s.json" <<'EOF'
 import csv, json, math, sys
 with open(sys.argv[1], newline="") as f:
@@ -126,12 +126,12 @@ EOF2
 { gzip -c "$T/m1.csv"; gzip -c "$T/m2.csv"; } >"$T/mm.csv.gz"
 for j in 1 2; do $SHEAF scan -q -j$j "$T/mm.csv.gz" -o "$T/mm$j.sheaf" || fail "members_scan_j$j" "exit $?"; done
 check members_same_j1_j2 "summaries differ" cmp -s "$T/mm1.sheaf" "$T/mm2.sheaf"
-got=$($SHEAF info --json "$T/mm1.sheaf" | "$PY" -c 'import json, sys
+got=$($SHEAF info --format json "$T/mm1.sheaf" | "$PY" -c 'import json, sys
 d = json.load(sys.stdin)
 print(d["rows"], d["repeated_headers"], d["columns"][0]["n"], d["columns"][1]["n"])')
 check members_counts "rows, repeated headers, cells: $got (want 6000 1 6000 3000)" [ "$got" = "6000 1 6000 3000" ]
 $SHEAF scan -q "$T/sh.csv" -o "$T/sh_all.sheaf"
-want=$($SHEAF info --json "$T/sh_all.sheaf" | "$PY" -c 'import json, sys
+want=$($SHEAF info --format json "$T/sh_all.sheaf" | "$PY" -c 'import json, sys
 d = json.load(sys.stdin)
 print(d["rows"], d["columns"][0]["n"], d["columns"][1]["non_numeric"])')
 check shards_whole_counts "whole file: $want (want 50000 50000 4546)" [ "$want" = "50000 50000 4546" ]
@@ -139,7 +139,7 @@ for n in 3 7; do
     rm -f "$T"/shp*.sheaf
     for i in $(seq 1 $n); do $SHEAF scan -q "$T/sh.csv" --shard $i/$n -o "$T/shp$i.sheaf" || fail "shard_${i}_of_$n" "exit $?"; done
     $SHEAF merge "$T"/shp*.sheaf -o "$T/shm.sheaf" || fail "shards_merge_$n" "exit $?"
-    got=$($SHEAF info --json "$T/shm.sheaf" | "$PY" -c 'import json, sys
+    got=$($SHEAF info --format json "$T/shm.sheaf" | "$PY" -c 'import json, sys
 d = json.load(sys.stdin)
 print(d["rows"], d["columns"][0]["n"], d["columns"][1]["non_numeric"])')
     check "shards_${n}_counts" "merged $n shards: $got, whole file: $want" [ "$got" = "$want" ]

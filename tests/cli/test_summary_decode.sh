@@ -41,10 +41,10 @@ get() { $CRAFT get "$T/$1.sheaf" "$2"; }
 expect_damaged() {
     local name=$1 f=$2 bad=
     local -a cmds=(
-        "info $f" "info --json $f" "screen $f" "pca $f" "corr $f"
+        "info $f" "info --format json $f" "screen $f" "pca $f" "corr $f"
         "merge $f $T/none.sheaf -o $T/merged.sheaf"
-        "trim $D --from $f -o $T/trim.csv"
-        "project $D --pca $f -o $T/proj.csv")
+        "trim $D --summary $f -o $T/trim.csv"
+        "project $D --summary $f -o $T/proj.csv")
     for c in "${cmds[@]}"; do
         # shellcheck disable=SC2086
         run $SHEAF $c
@@ -82,7 +82,7 @@ $CRAFT long-section "$T/cls.sheaf" "$T/long0.sheaf" empty
 expect_damaged section_length_underflow "$T/long0.sheaf"
 
 # Indices: bucket and per-value cells naming classes that do not exist
-# (the first once crashed screen and trim --from with SIGSEGV).
+# (the first once crashed screen and trim --summary with SIGSEGV).
 crafted bucket_cell_past_classes numcls "COLS[2].bins.entry[0].cell=100000"
 crafted bucket_cell_class_k_plus_1 cls "COLS[1].bins.entry[0].cell=4"
 crafted bucket_cell_regression_range reg "COLS[1].bins.entry[0].cell=$(($(get reg TRGT.tcells.n) + 1))"
@@ -228,17 +228,17 @@ expect_damaged several_truncated "$T/several_cut.sheaf"
 flips=${SHEAF_DECODE_FLIPS:-100}
 mkdir -p "$T/flips"
 $CRAFT flips "$T/cls.sheaf" "$T/flips" "$flips" 12 >"$T/flips.list"
-$SHEAF info --json "$T/cls.sheaf" >"$T/info.ref" 2>/dev/null
+$SHEAF info --format json "$T/cls.sheaf" >"$T/info.ref" 2>/dev/null
 rejected=0 accepted=0 changed=0 signals=
 while read -r k bit; do
     f=$T/flips/flip-$k.sheaf
     rcs=
-    for c in "info --json" "screen --format json" corr pca; do
+    for c in "info --format", "json" "screen --format json" corr pca; do
         # shellcheck disable=SC2086
         $SHEAF $c "$f" >"$T/flip.out" 2>"$T/flip.err"
         rc=$?
         rcs="$rcs $rc"
-        [ "$c" = "info --json" ] && [ "$rc" -eq 0 ] && ! cmp -s "$T/flip.out" "$T/info.ref" &&
+        [ "$c" = "info --format", "json" ] && [ "$rc" -eq 0 ] && ! cmp -s "$T/flip.out" "$T/info.ref" &&
             changed=$((changed + 1))
         if { [ "$rc" -ne 0 ] && [ "$rc" -ne 4 ]; } || grep -q 'Sanitizer\|runtime error' "$T/flip.err"; then
             signals="$signals bit $bit '$c' exit $rc;"
@@ -246,5 +246,5 @@ while read -r k bit; do
     done
     case "$rcs" in *4*) rejected=$((rejected + 1)) ;; *) accepted=$((accepted + 1)) ;; esac
 done <"$T/flips.list"
-echo "bit flips: $flips, rejected $rejected, accepted $accepted, accepted flips that changed info --json: $changed"
+echo "bit flips: $flips, rejected $rejected, accepted $accepted, accepted flips that changed info --format json: $changed"
 check decode.bit_flips "${signals:-}" [ -z "$signals" ]

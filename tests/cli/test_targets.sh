@@ -32,7 +32,7 @@ sys.path.insert(0, "tests")
 from refcheck import tree_differences
 
 def info(p, t):
-    r = subprocess.run([os.environ.get("SHEAF_BIN", "./sheaf"), "info", "--json", "--top", "1000",
+    r = subprocess.run([os.environ.get("SHEAF_BIN", "./sheaf"), "info", "--format", "json", "--top-values", "1000",
                         "--target", t, p], stdout=subprocess.PIPE, stderr=subprocess.PIPE)
     if r.returncode:
         sys.exit("info %s exit %d: %s" % (p, r.returncode, r.stderr.decode().strip()))
@@ -147,10 +147,10 @@ check targets_regress_on_a_text_target_exits_2 "exit $RC: $(err_text)" \
 # A header name with commas is one target when the value is that whole name.
 printf 'x,"a,b",a,b\n1,u,2,3\n2,v,3,4\n3,u,5,1\n4,v,1,2\n' >"$T/comma.csv"
 $SHEAF scan -q "$T/comma.csv" --target a,b -o "$T/comma1.sheaf" &&
-    $SHEAF info --json "$T/comma1.sheaf" >"$T/out"
+    $SHEAF info --format json "$T/comma1.sheaf" >"$T/out"
 check targets_a_header_name_with_a_comma_is_one_target "$(head -c 200 "$T/out")" \
     grep -q '"targets": \[ *"a,b" *\]' <(tr -d '\n' <"$T/out")
-$SHEAF scan -q "$T/comma.csv" --target a,x -o "$T/comma2.sheaf" && $SHEAF info --json "$T/comma2.sheaf" >"$T/out"
+$SHEAF scan -q "$T/comma.csv" --target a,x -o "$T/comma2.sheaf" && $SHEAF info --format json "$T/comma2.sheaf" >"$T/out"
 check targets_otherwise_split_at_commas "$(head -c 200 "$T/out")" \
     grep -q '"targets": \[ *"a", *"x" *\]' <(tr -d '\n' <"$T/out")
 
@@ -160,7 +160,7 @@ run $SHEAF info "$M"
 check targets_info_lists_them "exit $RC: $(head -c 300 "$T/out")" \
     all 'test $RC = 0' 'grep -q "^targets: species, body_mass_g (2; shown: species" "$T/out"' \
     'grep -q "^target: species" "$T/out"' 
-run $SHEAF info "$M" --target body_mass_g --json
+run $SHEAF info "$M" --target body_mass_g --format json
 JSON_CHECK='import json,sys; d=json.load(open(sys.argv[1])); assert d["format_version"] == 4 and d["targets"] == ["species", "body_mass_g"] and d["target"]["name"] == "body_mass_g", d["targets"]'
 check targets_info_json_chooses "exit $RC" all 'test $RC = 0' '"$PY" -c "$JSON_CHECK" "$T/out"'
 run $SHEAF info "$M" --target island
@@ -173,7 +173,7 @@ $SHEAF screen "$T/plain.sheaf" --target flipper_length_mm -f json >"$T/a.json"
 $SHEAF screen "$M" --target flipper_length_mm -f json >"$T/b.json"
 check targets_screen_other_column_is_the_retarget "$(first_diff "$T/a.json" "$T/b.json")" \
     all 'test -s "$T/b.json"' 'cmp -s "$T/a.json" "$T/b.json"' 
-# pca, corr and trim --from.
+# pca, corr and trim --summary.
 run $SHEAF pca "$M"
 check targets_pca_without_target_exits_2 "exit $RC: $(err_text)" \
     all 'test $RC = 2' 'grep -q "choose one with --target" "$T/err"' 
@@ -185,9 +185,9 @@ $SHEAF corr "$M" -f csv >"$T/a.csv"
 $SHEAF corr "$T/penguins.a.sheaf" -f csv >"$T/b.csv"
 check targets_corr_needs_no_choice "$(first_diff "$T/a.csv" "$T/b.csv")" \
     all 'test -s "$T/a.csv"' 'cmp -s "$T/a.csv" "$T/b.csv"' 
-$SHEAF trim "$P" --from "$M" --target species -o "$T/a.trim.csv" 2>/dev/null
-$SHEAF trim "$P" --from "$T/penguins.a.sheaf" -o "$T/b.trim.csv" 2>/dev/null
+$SHEAF trim "$P" --summary "$M" --target species -o "$T/a.trim.csv" 2>/dev/null
+$SHEAF trim "$P" --summary "$T/penguins.a.sheaf" -o "$T/b.trim.csv" 2>/dev/null
 check targets_trim_from_chooses "$(first_diff "$T/a.trim.csv" "$T/b.trim.csv")" \
     all 'test -s "$T/a.trim.csv"' 'cmp -s "$T/a.trim.csv" "$T/b.trim.csv"' 
-run $SHEAF trim "$P" --from "$M" -o "$T/c.trim.csv"
+run $SHEAF trim "$P" --summary "$M" -o "$T/c.trim.csv"
 check targets_trim_without_target_exits_2 "exit $RC: $(err_text)" test $RC = 2 -a ! -e "$T/c.trim.csv"

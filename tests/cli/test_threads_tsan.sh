@@ -58,11 +58,11 @@ for tgt in label price; do
         same "scan_$tgt" "$T/a.sheaf" "$T/b.sheaf"
 done
 ./sheaf scan "$T/t.csv" --target label -q -o "$T/s.sheaf"
-tsan trim "$BIN" trim "$T/t.csv.gz" --from "$T/s.sheaf" --chunk-size 64K -j 3 -q -o "$T/a.csv" &&
-    ./sheaf trim "$T/t.csv.gz" --from "$T/s.sheaf" --chunk-size 64K -j 1 -q -o "$T/b.csv" &&
+tsan trim "$BIN" trim "$T/t.csv.gz" --summary "$T/s.sheaf" --chunk-size 64K -j 3 -q -o "$T/a.csv" &&
+    ./sheaf trim "$T/t.csv.gz" --summary "$T/s.sheaf" --chunk-size 64K -j 1 -q -o "$T/b.csv" &&
     same trim "$T/a.csv" "$T/b.csv"
-tsan project "$BIN" project "$T/t.csv" --pca "$T/s.sheaf" --chunk-size 64K -j 3 -q -o "$T/a.pc.csv" &&
-    ./sheaf project "$T/t.csv" --pca "$T/s.sheaf" --chunk-size 64K -j 1 -q -o "$T/b.pc.csv" &&
+tsan project "$BIN" project "$T/t.csv" --summary "$T/s.sheaf" --chunk-size 64K -j 3 -q -o "$T/a.pc.csv" &&
+    ./sheaf project "$T/t.csv" --summary "$T/s.sheaf" --chunk-size 64K -j 1 -q -o "$T/b.pc.csv" &&
     same project "$T/a.pc.csv" "$T/b.pc.csv"
 if tsan failing_scan "$BIN" scan "$T/quote.csv" --chunk-size 64K -j 3 -q -o "$T/q.sheaf"; then
     if [ "$RC" -eq 3 ] && grep -q "line 3001: unterminated quote" "$T/err"; then pass threads_tsan.failing_scan

@@ -3,7 +3,7 @@
 # the input with the dropped columns removed, byte for byte, on plain, gzip
 # and zstd inputs; quoted fields holding delimiters, newlines and doubled
 # quotes; CRLF record ends; a tab-delimited file with quoted header names;
-# output compressed by its name (.gz, .zst); --keep-list, --carry and --from
+# output compressed by its name (.gz, .zst); --columns-from, --carry and --summary
 # (the kept columns of `sheaf screen`, and the target always); input column
 # order kept; several files with one header; a file with a different header
 # refused (exit 3) and an unknown column in the keep list refused (exit 2),
@@ -14,7 +14,7 @@
 # no csv module): each record is split on the delimiters outside quotes, the
 # kept fields are joined with the same delimiter and the record keeps its own
 # line end (LF or CRLF).  Decompression by gzip(1) and zstd(1).  The kept set
-# of --from comes from `sheaf screen --format json` on the same summary.
+# of --summary comes from `sheaf screen --format json` on the same summary.
 #
 # Run from the repository root after make (tests/run.sh does both).  Prints
 # one "PASS name" or "FAIL name: why" line per check, "SKIP name: reason" for
@@ -179,7 +179,7 @@ trim_case() {
     same "$name" "$want" "$T/out"
 }
 
-# ------------------------------------------------------------- --keep-list
+# ------------------------------------------------------------- --columns-from
 # The keep list names columns out of input order; the output keeps input order.
 printf 'note\nqty\nlabel\n' >"$T/keep.txt"
 "$PY" "$T/ref.py" "$D/stock.csv" , label,qty,note >"$T/want_plain"
@@ -189,46 +189,46 @@ check reference.keeps_quoted_newlines "reference has $(wc -l <"$T/want_plain") l
     [ "$(wc -l <"$T/want_plain")" -gt 601 ]
 check reference.crlf_record_ends "no CRLF in the reference" grep -q $'\r$' "$T/want_crlf"
 
-trim_case keep_list.plain_lf.bytes_equal "$T/want_plain" "$D/stock.csv" --keep-list "$T/keep.txt"
+trim_case keep_list.plain_lf.bytes_equal "$T/want_plain" "$D/stock.csv" --columns-from "$T/keep.txt"
 check keep_list.input_order "header '$(header_of "$T/out")'" \
     [ "$(header_of "$T/out")" = "label,qty,note" ]
-trim_case keep_list.crlf.bytes_equal "$T/want_crlf" "$D/stock_crlf.csv" --keep-list "$T/keep.txt"
-trim_case keep_list.tab_detected.bytes_equal "$T/want_tsv" "$D/stock.tsv" --keep-list "$T/keep.txt"
-trim_case keep_list.tab_given.bytes_equal "$T/want_tsv" "$D/stock.tsv" --keep-list "$T/keep.txt" -d tab
+trim_case keep_list.crlf.bytes_equal "$T/want_crlf" "$D/stock_crlf.csv" --columns-from "$T/keep.txt"
+trim_case keep_list.tab_detected.bytes_equal "$T/want_tsv" "$D/stock.tsv" --columns-from "$T/keep.txt"
+trim_case keep_list.tab_given.bytes_equal "$T/want_tsv" "$D/stock.tsv" --columns-from "$T/keep.txt" -d tab
 if [ "$HAVE_GZ" -eq 1 ]; then
-    trim_case keep_list.gzip_input.bytes_equal "$T/want_plain" "$D/stock.csv.gz" --keep-list "$T/keep.txt"
+    trim_case keep_list.gzip_input.bytes_equal "$T/want_plain" "$D/stock.csv.gz" --columns-from "$T/keep.txt"
 else
     skip keep_list.gzip_input "gzip not found"
 fi
 if [ "$HAVE_ZST" -eq 1 ]; then
-    trim_case keep_list.zstd_input.bytes_equal "$T/want_plain" "$D/stock.csv.zst" --keep-list "$T/keep.txt"
+    trim_case keep_list.zstd_input.bytes_equal "$T/want_plain" "$D/stock.csv.zst" --columns-from "$T/keep.txt"
 else
     skip keep_list.zstd_input "zstd not found"
 fi
 
 # Records across chunk boundaries, plain and gzip.
 "$PY" "$T/ref.py" "$D/big.csv" , label,qty,note >"$T/want_big"
-trim_case keep_list.big_across_chunks.bytes_equal "$T/want_big" "$D/big.csv" --keep-list "$T/keep.txt"
+trim_case keep_list.big_across_chunks.bytes_equal "$T/want_big" "$D/big.csv" --columns-from "$T/keep.txt"
 if [ "$HAVE_GZ" -eq 1 ]; then
     gzip -c "$D/big.csv" >"$D/big.csv.gz"
     trim_case keep_list.big_gzip_across_chunks.bytes_equal "$T/want_big" "$D/big.csv.gz" \
-        --keep-list "$T/keep.txt"
+        --columns-from "$T/keep.txt"
 fi
 # A UTF-8 byte order mark stays in front of the header.
 { printf '\357\273\277'; cat "$T/want_plain"; } >"$T/want_bom"
-trim_case keep_list.bom_kept.bytes_equal "$T/want_bom" "$D/bom.csv" --keep-list "$T/keep.txt"
+trim_case keep_list.bom_kept.bytes_equal "$T/want_bom" "$D/bom.csv" --columns-from "$T/keep.txt"
 
 # A single kept column: no delimiter left in the output but inside quotes.
 printf 'label\n' >"$T/keep1.txt"
 "$PY" "$T/ref.py" "$D/stock.csv" , label >"$T/want_one"
-trim_case keep_list.one_column.bytes_equal "$T/want_one" "$D/stock.csv" --keep-list "$T/keep1.txt"
+trim_case keep_list.one_column.bytes_equal "$T/want_one" "$D/stock.csv" --columns-from "$T/keep1.txt"
 
 # ------------------------------------------------------------------ --carry
 "$PY" "$T/ref.py" "$D/stock.csv" , sku,label,qty,note >"$T/want_carry"
-trim_case carry.adds_columns.bytes_equal "$T/want_carry" "$D/stock.csv" --keep-list "$T/keep.txt" --carry sku
+trim_case carry.adds_columns.bytes_equal "$T/want_carry" "$D/stock.csv" --columns-from "$T/keep.txt" --carry sku
 "$PY" "$T/ref.py" "$D/stock_crlf.csv" , sku,label,qty,note,weight >"$T/want_carry2"
 trim_case carry.two_columns_crlf.bytes_equal "$T/want_carry2" "$D/stock_crlf.csv" \
-    --keep-list "$T/keep.txt" --carry weight,sku
+    --columns-from "$T/keep.txt" --carry weight,sku
 
 # --------------------------------------------------------- compressed output
 for ext in gz zst; do
@@ -237,7 +237,7 @@ for ext in gz zst; do
     if ! command -v "$tool" >/dev/null; then skip "output_$ext" "$tool not found"; continue; fi
     mkdir "$T/o_$ext"
     out=$T/o_$ext/trimmed.csv.$ext
-    run "$SHEAF" trim "$D/stock.csv" --keep-list "$T/keep.txt" -o "$out"
+    run "$SHEAF" trim "$D/stock.csv" --columns-from "$T/keep.txt" -o "$out"
     if [ "$RC" -ne 0 ]; then fail "output_$ext.exit_0" "exit $RC: $(err_text)"; continue; fi
     check "output_$ext.nothing_on_stdout" "$(wc -c <"$T/out") bytes on stdout" [ ! -s "$T/out" ]
     magic=$(od -An -tx1 -N4 "$out" | tr -d ' ')
@@ -250,11 +250,11 @@ for ext in gz zst; do
         [ "$(ls "$T/o_$ext" | tr '\n' ' ')" = "plain trimmed.csv.$ext " ]
 done
 mkdir "$T/o_plain"
-run "$SHEAF" trim "$D/stock_crlf.csv" --keep-list "$T/keep.txt" -o "$T/o_plain/trimmed.csv"
+run "$SHEAF" trim "$D/stock_crlf.csv" --columns-from "$T/keep.txt" -o "$T/o_plain/trimmed.csv"
 check output_plain.exit_0 "exit $RC: $(err_text)" [ "$RC" -eq 0 ]
 same output_plain.bytes_equal "$T/want_crlf" "$T/o_plain/trimmed.csv"
 
-# ------------------------------------------------------------------- --from
+# ------------------------------------------------------------------- --summary
 # The kept set is screen's, plus the target; nothing else.
 run "$SHEAF" scan -q "$D/stock.csv" -o "$T/stock.sheaf" --target state
 if [ "$RC" -ne 0 ]; then
@@ -271,7 +271,7 @@ print(",".join(f["name"] for f in d["features"] if f["decision"] == "drop"))' "$
     check from.screen_keeps_some_drops_some "kept '$kept', dropped '$dropped'" \
         eval '[[ ",$kept," == *,qty,* && ",$kept," == *,note,* && ",$dropped," == *,sku,* && ",$dropped," == *,shelf,* ]]'
     "$PY" "$T/ref.py" "$D/stock.csv" , "$kept,state" >"$T/want_from"
-    trim_case from.screen_kept_plus_target.bytes_equal "$T/want_from" "$D/stock.csv" --from "$T/stock.sheaf"
+    trim_case from.screen_kept_plus_target.bytes_equal "$T/want_from" "$D/stock.csv" --summary "$T/stock.sheaf"
     check from.target_included "header '$(header_of "$T/out")'" \
         eval '[[ ",$(header_of "$T/out")," == *,state,* ]]'
     want_order=$(header_of "$T/want_from")
@@ -279,36 +279,36 @@ print(",".join(f["name"] for f in d["features"] if f["decision"] == "drop"))' "$
         [ "$(header_of "$T/out")" = "$want_order" ]
     "$PY" "$T/ref.py" "$D/stock_crlf.csv" , "$kept,state,sku" >"$T/want_from_carry"
     trim_case from.carry_crlf.bytes_equal "$T/want_from_carry" "$D/stock_crlf.csv" \
-        --from "$T/stock.sheaf" --carry sku
+        --summary "$T/stock.sheaf" --carry sku
     if [ "$HAVE_ZST" -eq 1 ]; then
-        trim_case from.zstd_input.bytes_equal "$T/want_from" "$D/stock.csv.zst" --from "$T/stock.sheaf"
+        trim_case from.zstd_input.bytes_equal "$T/want_from" "$D/stock.csv.zst" --summary "$T/stock.sheaf"
     fi
-    # --top 1: the best-ranked column and the target
+    # --max-kept 1: the best-ranked column and the target
     best=$("$PY" -c 'import json, sys
 d = json.load(open(sys.argv[1]))
 print([f["name"] for f in d["features"] if f["rank"] == 1][0])' "$T/screen.json")
     "$PY" "$T/ref.py" "$D/stock.csv" , "$best,state" >"$T/want_top1"
-    trim_case from.top_1.bytes_equal "$T/want_top1" "$D/stock.csv" --from "$T/stock.sheaf" --top 1
+    trim_case from.top_1.bytes_equal "$T/want_top1" "$D/stock.csv" --summary "$T/stock.sheaf" --max-kept 1
 fi
 
 # --------------------------------------------------------------- two files
 # One header, the records of both files in turn.
 { cat "$T/want_plain"; tail -n +2 "$T/want_plain"; } >"$T/want_twice"
-trim_case two_files.one_header.bytes_equal "$T/want_twice" "$D/stock.csv" "$D/stock.csv" --keep-list "$T/keep.txt"
+trim_case two_files.one_header.bytes_equal "$T/want_twice" "$D/stock.csv" "$D/stock.csv" --columns-from "$T/keep.txt"
 if [ "$HAVE_GZ" -eq 1 ]; then
     trim_case two_files.plain_then_gzip.bytes_equal "$T/want_twice" "$D/stock.csv" "$D/stock.csv.gz" \
-        --keep-list "$T/keep.txt"
+        --columns-from "$T/keep.txt"
 fi
 
 mkdir "$T/o_refused"
 printf 'label\nnote\n' >"$T/keep_common.txt"
-run "$SHEAF" trim "$D/stock.csv" "$D/other.csv" --keep-list "$T/keep_common.txt" -o "$T/o_refused/out.csv"
+run "$SHEAF" trim "$D/stock.csv" "$D/other.csv" --columns-from "$T/keep_common.txt" -o "$T/o_refused/out.csv"
 check different_header.exit_3 "exit $RC: $(err_text)" [ "$RC" -eq 3 ]
 check different_header.names_file "stderr: $(err_text)" grep -q "other.csv" "$T/err"
 check different_header.no_output_left "directory holds: $(ls -A "$T/o_refused" | tr '\n' ' ')" \
     [ -z "$(ls -A "$T/o_refused")" ]
 mkdir "$T/o_refused_gz"
-run "$SHEAF" trim "$D/stock.csv" "$D/other.csv" --keep-list "$T/keep_common.txt" -o "$T/o_refused_gz/out.csv.gz"
+run "$SHEAF" trim "$D/stock.csv" "$D/other.csv" --columns-from "$T/keep_common.txt" -o "$T/o_refused_gz/out.csv.gz"
 check different_header_gz_output.exit_3 "exit $RC: $(err_text)" [ "$RC" -eq 3 ]
 check different_header_gz_output.no_output_left "directory holds: $(ls -A "$T/o_refused_gz" | tr '\n' ' ')" \
     [ -z "$(ls -A "$T/o_refused_gz")" ]
@@ -316,27 +316,27 @@ check different_header_gz_output.no_output_left "directory holds: $(ls -A "$T/o_
 # ------------------------------------------------------------ usage errors
 mkdir "$T/o_unknown"
 printf 'qty\nno_such_column\n' >"$T/keep_bad.txt"
-run "$SHEAF" trim "$D/stock.csv" --keep-list "$T/keep_bad.txt" -o "$T/o_unknown/out.csv"
+run "$SHEAF" trim "$D/stock.csv" --columns-from "$T/keep_bad.txt" -o "$T/o_unknown/out.csv"
 check unknown_column.exit_2 "exit $RC: $(err_text)" [ "$RC" -eq 2 ]
 check unknown_column.names_column "stderr: $(err_text)" grep -q "no_such_column" "$T/err"
 check unknown_column.no_output_left "directory holds: $(ls -A "$T/o_unknown" | tr '\n' ' ')" \
     [ -z "$(ls -A "$T/o_unknown")" ]
-run "$SHEAF" trim "$D/stock.csv" --keep-list "$T/keep.txt" --carry no_such_carry
+run "$SHEAF" trim "$D/stock.csv" --columns-from "$T/keep.txt" --carry no_such_carry
 check unknown_carry_column.exit_2 "exit $RC: $(err_text)" [ "$RC" -eq 2 ]
 run "$SHEAF" trim "$D/stock.csv"
 check neither_from_nor_keep_list.exit_2 "exit $RC: $(err_text)" [ "$RC" -eq 2 ]
-run "$SHEAF" trim "$D/stock.csv" --keep-list "$T/keep.txt" --from "$T/stock.sheaf"
+run "$SHEAF" trim "$D/stock.csv" --columns-from "$T/keep.txt" --summary "$T/stock.sheaf"
 check both_from_and_keep_list.exit_2 "exit $RC: $(err_text)" [ "$RC" -eq 2 ]
-run "$SHEAF" trim --keep-list "$T/keep.txt"
+run "$SHEAF" trim --columns-from "$T/keep.txt"
 check no_data_files.exit_2 "exit $RC: $(err_text)" [ "$RC" -eq 2 ]
 # A keep list that cannot be read is unreadable input (exit 3) with its
 # reason (strerror of glibc), never an empty list (it once read a directory
 # as no names: "names no column", exit 2).
-run "$SHEAF" trim "$D/stock.csv" --keep-list "$T/no_such_list.txt"
+run "$SHEAF" trim "$D/stock.csv" --columns-from "$T/no_such_list.txt"
 check keep_list_missing.exit_3 "exit $RC: $(err_text)" [ "$RC" -eq 3 ]
 check keep_list_missing.reason "$(err_text)" grep -q 'no_such_list.txt.*No such file or directory' "$T/err"
 mkdir "$T/list_dir"
-run "$SHEAF" trim "$D/stock.csv" --keep-list "$T/list_dir"
+run "$SHEAF" trim "$D/stock.csv" --columns-from "$T/list_dir"
 check keep_list_directory.exit_3 "exit $RC: $(err_text)" [ "$RC" -eq 3 ]
 check keep_list_directory.reason "$(err_text)" grep -q 'list_dir.*Is a directory' "$T/err"
 
@@ -345,12 +345,12 @@ check keep_list_directory.reason "$(err_text)" grep -q 'list_dir.*Is a directory
 nt_dir=$(mktemp -d)
 printf 'a,b,c\n1,2,3\n4,5,6' > "$nt_dir/nt.csv"
 printf 'a\nc\n' > "$nt_dir/keep"
-if [ "$("$SHEAF" trim "$nt_dir/nt.csv" --keep-list "$nt_dir/keep" | od -An -c | tr -d ' \n')" = 'a,c\n1,3\n4,6' ]; then
+if [ "$("$SHEAF" trim "$nt_dir/nt.csv" --columns-from "$nt_dir/keep" | od -An -c | tr -d ' \n')" = 'a,c\n1,3\n4,6' ]; then
     echo "PASS no_final_newline.kept_as_is"
 else
     echo "FAIL no_final_newline.kept_as_is: output differs"
 fi
-if [ "$("$SHEAF" trim "$nt_dir/nt.csv" "$nt_dir/nt.csv" --keep-list "$nt_dir/keep" | od -An -c | tr -d ' \n')" = 'a,c\n1,3\n4,6\n1,3\n4,6' ]; then
+if [ "$("$SHEAF" trim "$nt_dir/nt.csv" "$nt_dir/nt.csv" --columns-from "$nt_dir/keep" | od -An -c | tr -d ' \n')" = 'a,c\n1,3\n4,6\n1,3\n4,6' ]; then
     echo "PASS no_final_newline.between_files_supplied"
 else
     echo "FAIL no_final_newline.between_files_supplied: output differs"

@@ -9,8 +9,8 @@
  *   - info: describe_column of every column (top values, quantiles,
  *     per-class moments), the class table, the sources;
  *   - screen, with the default options and with others that reach more
- *     paths (MI ranking, few bins, a variance floor, --top);
- *   - trim --from: the kept names from screen, plus the target's;
+ *     paths (MI ranking, few bins, a variance floor, --max-kept);
+ *   - trim --summary: the kept names from screen, plus the target's;
  *   - corr: the columns, Pearson r and covariance matrices, pair counts;
  *   - pca: the correlation and covariance bases, with and without the
  *     target, and a projection of a few rows of zeros;
@@ -99,7 +99,7 @@ static void run_info(const summary *s)
     (void)summary_target_name(s);
 }
 
-/* The screen, and the names trim --from keeps from it. */
+/* The screen, and the names trim --summary keeps from it. */
 static void run_screen(const summary *s, const screen_options *o)
 {
     screen_result *r = screen_run(s, o);

@@ -1,5 +1,5 @@
 #!/usr/bin/python3
-"""End-to-end column statistics of `sheaf scan` + `sheaf info --json`
+"""End-to-end column statistics of `sheaf scan` + `sheaf info --format json`
 against reference computations.
 
 References, named again beside each check:
@@ -73,7 +73,7 @@ def scan(paths, extra=(), stdin=None, top=TOP):
                      stdin=stdin)
     if rc != 0:
         return None, "scan exit %d: %s" % (rc, err.decode(errors="replace").strip())
-    rc, js, err = run([SHEAF, "info", "--json", "--top", str(top), out])
+    rc, js, err = run([SHEAF, "info", "--format", "json", "--top-values", str(top), out])
     if rc != 0:
         return None, "info exit %d: %s" % (rc, err.decode(errors="replace").strip())
     try:

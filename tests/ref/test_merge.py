@@ -66,7 +66,7 @@ def merge_files(inputs, extra=()):
 
 
 def info_of(summary):
-    rc, js, err = run([SHEAF, "info", "--json", "--top", str(TOP), summary])
+    rc, js, err = run([SHEAF, "info", "--format", "json", "--top-values", str(TOP), summary])
     if rc != 0:
         return None, "info exit %d: %s" % (rc, err)
     return json.loads(js), ""
@@ -400,7 +400,7 @@ def test_incompatible():
                   "stderr %r should name %s" % (err, words))
             check(t + ".no_output", os.listdir(outdir) == [], "left %s" % os.listdir(outdir))
     # the same column set chosen two ways merges
-    sa, _ = scan_file([a], ["--ignore", "note"])
+    sa, _ = scan_file([a], ["--exclude", "note"])
     sb, _ = scan_file([b], ["--columns", ",".join(h for h in HEADER if h != "note")])
     m, err = merge_files([sa, sb]) if sa and sb else (None, "scan failed")
     check("compatible.ignore_vs_columns", m is not None, err)

@@ -195,7 +195,7 @@ def compare_scores(tag, data, summary, got, num, basis="correlation", extra=()):
     cols = got["columns"]
     k = got["k"]
     out = os.path.join(TMP, tag + ".scores.csv")
-    args = [SHEAF, "project", data, "--pca", summary, "--k", str(k), "-o", out]
+    args = [SHEAF, "project", data, "--summary", summary, "--components", str(k), "-o", out]
     if basis != "correlation":
         args += ["--basis", basis]
     rc, _, err = run(args + list(extra))
@@ -257,7 +257,7 @@ def test_datasets(sets):
         raw, num = numeric_frame(path)
         want_cols = expected_columns(raw, num)
         p = len(want_cols)
-        got, _, err = pca_json(s, ["--k", str(max(p, 1))])
+        got, _, err = pca_json(s, ["--components", str(max(p, 1))])
         if got is None:
             fail(tag + ".pca", err)
             continue
@@ -287,7 +287,7 @@ def test_covariance(sets):
             continue
         raw, num = numeric_frame(path)
         cols = expected_columns(raw, num)
-        got, _, err = pca_json(s, ["--basis", "covariance", "--k", str(len(cols))])
+        got, _, err = pca_json(s, ["--basis", "covariance", "--components", str(len(cols))])
         if got is None:
             fail(tag + ".cov.pca", err)
             continue
@@ -312,7 +312,7 @@ def test_hidden_factors():
     s, err = scan(path)
     if not s:
         return fail("factors.scan", err)
-    got, _, err = pca_json(s, ["--k", "6"])
+    got, _, err = pca_json(s, ["--components", "6"])
     if got is None:
         return fail("factors.pca", err)
     e = got["eigenvalues"]
@@ -364,8 +364,8 @@ def test_outputs(sets):
     s, err = scan(path)
     if not s:
         return fail("outputs.scan", err)
-    got, _, _ = pca_json(s, ["--k", "2"])
-    rc, out, err = run([SHEAF, "pca", s, "--format", "csv", "--k", "2"])
+    got, _, _ = pca_json(s, ["--components", "2"])
+    rc, out, err = run([SHEAF, "pca", s, "--format", "csv", "--components", "2"])
     lines = out.decode().strip().split("\n")
     check("outputs.csv_header", rc == 0 and lines[0] == "column,PC1,PC2", repr(lines[:1]))
     ok_rows = len(lines) == 1 + len(got["columns"]) and all(
@@ -389,7 +389,7 @@ def test_outputs(sets):
     if not s2:
         return fail("outputs.carry_scan", err)
     out = os.path.join(TMP, "carry.scores.csv")
-    rc, _, err = run([SHEAF, "project", data, "--pca", s2, "--k", "2", "--carry", "tag,y",
+    rc, _, err = run([SHEAF, "project", data, "--summary", s2, "--components", "2", "--carry", "tag,y",
                       "-o", out])
     if check("outputs.carry_exit", rc == 0, err.decode(errors="replace")):
         lines = open(out).read().split("\n")
@@ -403,24 +403,24 @@ def test_outputs(sets):
 
     # compressed outputs decode to the plain bytes
     plain = os.path.join(TMP, "p.csv")
-    run([SHEAF, "project", path, "--pca", s, "--k", "3", "-o", plain])
+    run([SHEAF, "project", path, "--summary", s, "--components", "3", "-o", plain])
     ref = open(plain, "rb").read()
     gz = os.path.join(TMP, "p.csv.gz")
-    rc, _, err = run([SHEAF, "project", path, "--pca", s, "--k", "3", "-o", gz])
+    rc, _, err = run([SHEAF, "project", path, "--summary", s, "--components", "3", "-o", gz])
     check("outputs.gzip", rc == 0 and gzip.open(gz).read() == ref, err.decode(errors="replace"))
     if shutil.which("zstd"):
         zs = os.path.join(TMP, "p.csv.zst")
-        rc, _, err = run([SHEAF, "project", path, "--pca", s, "--k", "3", "-o", zs])
+        rc, _, err = run([SHEAF, "project", path, "--summary", s, "--components", "3", "-o", zs])
         rc2, dec, _ = run(["zstd", "-dc", zs])
         check("outputs.zstd", rc == 0 and rc2 == 0 and dec == ref, err.decode(errors="replace"))
     else:
         skip("outputs.zstd", "zstd command not found")
-    rc, dec, _ = run([SHEAF, "project", path, "--pca", s, "--k", "3"])
+    rc, dec, _ = run([SHEAF, "project", path, "--summary", s, "--components", "3"])
     check("outputs.stdout_same", rc == 0 and dec == ref, "")
 
     # a data file without a basis column: exit 3, names file and column, no output
     bad = os.path.join(TMP, "nope.csv")
-    rc, _, err = run([SHEAF, "project", dict(sets).get("iris", path), "--pca", s, "-o", bad])
+    rc, _, err = run([SHEAF, "project", dict(sets).get("iris", path), "--summary", s, "-o", bad])
     e = err.decode(errors="replace")
     check("outputs.missing_column", rc == 3 and "bill_length_mm" in e and "line 1" in e and
           not os.path.exists(bad) and not any(f.startswith("nope.csv.tmp") for f in os.listdir(TMP)),
@@ -431,7 +431,7 @@ def test_outputs(sets):
     with open(trunc, "w") as fh:
         fh.write("\n".join(src[:200]) + '\n"Adelie,Torgersen,39.1,18.7,181,3750,MALE\n')
     bad2 = os.path.join(TMP, "trunc.scores.csv")
-    rc, _, err = run([SHEAF, "project", trunc, "--pca", s, "-o", bad2])
+    rc, _, err = run([SHEAF, "project", trunc, "--summary", s, "-o", bad2])
     e = err.decode(errors="replace")
     check("outputs.unterminated_quote", rc == 3 and "line 201" in e and trunc in e and
           not os.path.exists(bad2), "exit %d: %s" % (rc, e.strip()))
@@ -440,14 +440,14 @@ def test_outputs(sets):
     check("outputs.unknown_column", rc == 2 and b"nosuch" in err, err.decode(errors="replace"))
     rc, _, err = run([SHEAF, "pca", s, "--columns", "bill_length_mm,species"])
     check("outputs.categorical_column", rc == 2 and b"species" in err, err.decode(errors="replace"))
-    rc, _, err = run([SHEAF, "pca", s, "--k", "2", "--share", "0.9"])
+    rc, _, err = run([SHEAF, "pca", s, "--components", "2", "--share", "0.9"])
     check("outputs.k_and_share", rc == 2, err.decode(errors="replace"))
 
-    # --keep-list and --exclude choose the same columns as --columns
+    # --columns-from and --exclude choose the same columns as --columns
     kl = os.path.join(TMP, "keep.txt")
     with open(kl, "w") as fh:
         fh.write("# kept by a screen\nbody_mass_g\nbill_length_mm\n\n")
-    a, _, _ = pca_json(s, ["--keep-list", kl])
+    a, _, _ = pca_json(s, ["--columns-from", kl])
     b, _, _ = pca_json(s, ["--columns", "bill_length_mm,body_mass_g"])
     c, _, _ = pca_json(s, ["--exclude", "bill_depth_mm,flipper_length_mm"])
     check("outputs.keep_list", a and b and c and a["columns"] == b["columns"] == c["columns"] ==

@@ -733,7 +733,7 @@ def test_demo():
 
 
 # ---------------------------------------------------------------------------
-# --top, --keep-list, --rank-by, --q, --format csv
+# --max-kept, --write-kept, --rank-by, --fdr, --format csv
 
 def primary_stat(f):
     t = f["tests"]
@@ -751,22 +751,22 @@ def test_options(tag, summary, base):
           and all((f["rank"] is not None) == (f["decision"] == "keep") for f in base["features"]),
           "kept %r, ranks %s" % (base["kept"], [(f["name"], f["rank"]) for f in base["features"]]))
     for k in (1, 3, base["kept"] + 5):
-        js, err = screen_json(summary, ["--top", str(k)])
+        js, err = screen_json(summary, ["--max-kept", str(k)])
         if js is None:
             fail("%s.top_%d" % (tag, k), err)
             continue
         got = by_rank(js)
         check("%s.top_%d.keeps_at_most_%d" % (tag, k, k),
               js["kept"] == len(got) == min(k, len(order)) and got == order[:k],
-              "kept %r %s; without --top %s" % (js["kept"], got, order))
+              "kept %r %s; without --max-kept %s" % (js["kept"], got, order))
         beyond = [f["name"] for f in js["features"]
-                  if f["name"] in order[k:] and not any(r.startswith("beyond --top")
+                  if f["name"] in order[k:] and not any(r.startswith("beyond the first ")
                                                        for r in f["reasons"])]
         check("%s.top_%d.reason_beyond_top" % (tag, k), not beyond,
               "without the reason: %s" % beyond)
-    for extra in ([], ["--top", "3"], ["--rank-by", "mi"]):
+    for extra in ([], ["--max-kept", "3"], ["--rank-by", "mi"]):
         kl = new_path(".txt")
-        js, err = screen_json(summary, extra + ["--keep-list", kl])
+        js, err = screen_json(summary, extra + ["--write-kept", kl])
         t = "%s.keep_list%s" % (tag, "".join("_" + e.lstrip("-") for e in extra))
         if js is None or not os.path.exists(kl):
             fail(t, err or "no keep list written")
@@ -793,7 +793,7 @@ def test_options(tag, summary, base):
               all(a >= b for a, b in zip(st, st[1:])) and set(by_rank(js)) == set(order),
               "ranked %s, stat %s" % (by_rank(js), st))
     for level in ("0.5", "1e-100"):
-        js, err = screen_json(summary, ["--q", level])
+        js, err = screen_json(summary, ["--fdr", level])
         if js is None:
             fail("%s.q_%s" % (tag, level), err)
             continue

@@ -67,7 +67,7 @@ def scan_file(paths, extra=()):
 
 
 def info_of(summary):
-    rc, js, err = run([SHEAF, "info", "--json", summary])
+    rc, js, err = run([SHEAF, "info", "--format", "json", summary])
     if rc != 0:
         return None, "info exit %d: %s" % (rc, err)
     try:
@@ -79,7 +79,7 @@ def info_of(summary):
 def corr_of(summary, covariance=False):
     args = [SHEAF, "corr", "--format", "json", summary]
     if covariance:
-        args.append("--covariance")
+        args += ["--basis", "covariance"]
     rc, js, err = run(args)
     if rc != 0:
         return None, "corr exit %d: %s" % (rc, err)
@@ -692,7 +692,7 @@ def test_huge_values():
         rc, _, err = run([SHEAF, "scan", "-q", p, "-o", out])
         if not check(tag + ".scan", rc == 0, "exit %d: %s" % (rc, err)):
             continue
-        rc, _, err = run([SHEAF, "info", "--json", out])
+        rc, _, err = run([SHEAF, "info", "--format", "json", out])
         check(tag + ".info_reads_back", rc == 0, "scan exit 0, then info exit %d: %s" % (rc, err))
         rc, _, err = run([SHEAF, "corr", "--format", "json", out])
         check(tag + ".corr_reads_back", rc == 0, "scan exit 0, then corr exit %d: %s" % (rc, err))
@@ -748,7 +748,7 @@ def test_damaged_sections(sets):
         d[o] ^= 0x10
         p = os.path.join(TMP, "flip.sheaf")
         open(p, "wb").write(bytes(d))
-        rc, outp, err = run([SHEAF, "info", "--json", p])
+        rc, outp, err = run([SHEAF, "info", "--format", "json", p])
         rc2, _, _ = run([SHEAF, "corr", "--format", "json", p])
         if rc != 4 or rc2 != 4 or outp:
             bad.append("offset %d (%s): info exit %d, corr exit %d, %d stdout bytes"
@@ -770,7 +770,7 @@ def test_damaged_sections(sets):
                        ("trailer", size - 20), ("half", size // 2)):
         p = os.path.join(TMP, "cut.sheaf")
         open(p, "wb").write(data[:cut])
-        rc, _, _ = run([SHEAF, "info", "--json", p])
+        rc, _, _ = run([SHEAF, "info", "--format", "json", p])
         check("damaged.truncated_%s.exit_4" % label, rc == 4,
               "%d of %d bytes: exit %d" % (cut, size, rc))
 

@@ -152,7 +152,7 @@ S scan -q good.csv --target cls -o good.sheaf &&
     S scan -q good.csv -o nt.sheaf &&
     S scan -q good2.csv --target cls -o good2.sheaf ||
     { echo "bad_input_run.sh: scans of the good tables failed" >&2; exit 2; }
-S info --json good.sheaf >"$D/good.info.json" || exit 2
+S info --format json good.sheaf >"$D/good.info.json" || exit 2
 
 # Every command the catalogue drives (`sheaf --help`).
 COMMANDS=(scan merge info screen corr pca trim project)
@@ -279,11 +279,11 @@ kind() {
 as_table() {
     local p=$1
     VERIFY=${VERIFY_scan:-} inv scan "${ALLOW_scan:-$ALLOW}" "$O/out.sheaf" "$SHEAF" scan -q "$p" -o "$O/out.sheaf" ${SCAN_ARGS:-} ${READ_ARGS:-}
-    inv trim "${ALLOW_trim:-$ALLOW}" "$O/out.csv" "$SHEAF" trim -q "$p" --keep-list "$D/keep.txt" -o "$O/out.csv" ${READ_ARGS:-}
-    inv project "${ALLOW_project:-$ALLOW}" "$O/out.csv" "$SHEAF" project -q "$p" --pca "$D/nt.sheaf" -o "$O/out.csv" ${READ_ARGS:-}
+    inv trim "${ALLOW_trim:-$ALLOW}" "$O/out.csv" "$SHEAF" trim -q "$p" --columns-from "$D/keep.txt" -o "$O/out.csv" ${READ_ARGS:-}
+    inv project "${ALLOW_project:-$ALLOW}" "$O/out.csv" "$SHEAF" project -q "$p" --summary "$D/nt.sheaf" -o "$O/out.csv" ${READ_ARGS:-}
 }
 # as_summary PATH: the summary of merge, info, screen, corr, pca, trim
-# --from and project --pca (ALLOW_sum, or ALLOW).
+# --summary and project --summary (ALLOW_sum, or ALLOW).
 as_summary() {
     local p=$1 a=${ALLOW_sum:-$ALLOW}
     inv merge "$a" "$O/out.sheaf" "$SHEAF" merge "$p" "$D/good2.sheaf" -o "$O/out.sheaf"
@@ -291,12 +291,12 @@ as_summary() {
     inv screen "$a" - "$SHEAF" screen "$p"
     inv corr "$a" - "$SHEAF" corr "$p"
     inv pca "$a" - "$SHEAF" pca "$p"
-    inv trim "$a" "$O/out.csv" "$SHEAF" trim -q "$D/good.csv" --from "$p" -o "$O/out.csv"
-    inv project "$a" "$O/out.csv" "$SHEAF" project -q "$D/good.csv" --pca "$p" -o "$O/out.csv"
+    inv trim "$a" "$O/out.csv" "$SHEAF" trim -q "$D/good.csv" --summary "$p" -o "$O/out.csv"
+    inv project "$a" "$O/out.csv" "$SHEAF" project -q "$D/good.csv" --summary "$p" -o "$O/out.csv"
 }
 
 # Checks of successful results (VERIFY): each prints what is wrong, if anything.
-info_field() { "$SHEAF" info --json "$1" | "$PY" -c "import json,sys; d=json.load(sys.stdin); print(eval(sys.argv[1]))" "$2"; }
+info_field() { "$SHEAF" info --format json "$1" | "$PY" -c "import json,sys; d=json.load(sys.stdin); print(eval(sys.argv[1]))" "$2"; }
 # rows_are N: the scan's summary holds N rows and no class named after the
 # target ("cls"), i.e. no header was read as a row.
 rows_are() {
@@ -584,8 +584,8 @@ k_wide() {
     cp "$F/wide.csv" "$IN/w.csv"
     inv scan 6 "$O/out.sheaf" "$SHEAF" scan -q "$IN/w.csv" --mem 1G -o "$O/out.sheaf"
     VERIFY="rows_are 5" inv scan 0 "$O/out.sheaf" "$SHEAF" scan -q "$IN/w.csv" --columns x,c9999 -o "$O/out.sheaf"
-    inv trim 0 "$O/out.csv" "$SHEAF" trim -q "$IN/w.csv" --keep-list "$D/keep.txt" -o "$O/out.csv"
-    NAMES=w.csv inv project 3 "$O/out.csv" "$SHEAF" project -q "$IN/w.csv" --pca "$D/nt.sheaf" -o "$O/out.csv"
+    inv trim 0 "$O/out.csv" "$SHEAF" trim -q "$IN/w.csv" --columns-from "$D/keep.txt" -o "$O/out.csv"
+    NAMES=w.csv inv project 3 "$O/out.csv" "$SHEAF" project -q "$IN/w.csv" --summary "$D/nt.sheaf" -o "$O/out.csv"
 }
 k_duplicate_names() {
     # A duplicated name warns at scan time (one line); trim's keep list
@@ -822,7 +822,7 @@ opt_kind() { # NAME DESCRIPTION CMD:ARGS... ; each CMD with its args, exit ALLOW
         inv "$cmd" "${ALLOW:-2}" "$out" "$SHEAF" $cmd $args
     done
 }
-PASSES=("scan:@G -q -o @O/out.sheaf" "trim:@G -q --keep-list @K -o @O/out.csv" "project:@G -q --pca @N -o @O/out.csv")
+PASSES=("scan:@G -q -o @O/out.sheaf" "trim:@G -q --columns-from @K -o @O/out.csv" "project:@G -q --summary @N -o @O/out.csv")
 passes_with() { local p IFS=' '; for p in "${PASSES[@]}"; do echo "$p $*"; done; }
 k_options() {
     local IFS=$'\n'
@@ -847,7 +847,7 @@ k_options() {
     opt_kind shard_malformed "--shard 1/" "scan:@G -q -o @O/out.sheaf --shard 1/"
     opt_kind target_missing_column "--target names no column" "scan:@G -q -o @O/out.sheaf --target nosuch"
     opt_kind columns_unknown "--columns names no column" "scan:@G -q -o @O/out.sheaf --columns x,nosuch" \
-        "corr:@S --columns x,nosuch" "pca:@N --columns x,nosuch" "project:@G -q --pca @N --columns x,nosuch -o @O/out.csv"
+        "corr:@S --columns x,nosuch" "pca:@N --columns x,nosuch" "project:@G -q --summary @N --columns x,nosuch -o @O/out.csv"
     opt_kind missing_2000_bytes "--missing with a spelling of 2,000 bytes (the limit is 1024)" \
         "scan:@G -q -o @O/out.sheaf --missing NA,$(printf 'm%.0s' {1..2000})"
     opt_kind max_classes_zero "--max-classes 0" "scan:@G -q -o @O/out.sheaf --target cls --max-classes 0"
@@ -855,31 +855,31 @@ k_options() {
     opt_kind max_levels_huge "--max-levels 10000000000" "scan:@G -q -o @O/out.sheaf --max-levels 10000000000"
     opt_kind bucket_budget_zero "--bucket-budget 0" "scan:@G -q -o @O/out.sheaf --bucket-budget 0"
     opt_kind task_unknown "--task guess" "scan:@G -q -o @O/out.sheaf --target cls --task guess"
-    opt_kind q_out_of_range "--q 2" "screen:@S --q 2" "trim:@G -q --from @S --q 2 -o @O/out.csv"
-    opt_kind q_not_a_number "--q nan" "screen:@S --q nan" "trim:@G -q --from @S --q nan -o @O/out.csv"
-    opt_kind top_negative "--top -1" "info:@S --top -1" "screen:@S --top -1" "trim:@G -q --from @S --top -1 -o @O/out.csv"
+    opt_kind q_out_of_range "--fdr 2" "screen:@S --fdr 2" "trim:@G -q --summary @S --fdr 2 -o @O/out.csv"
+    opt_kind q_not_a_number "--fdr nan" "screen:@S --fdr nan" "trim:@G -q --summary @S --fdr nan -o @O/out.csv"
+    opt_kind top_negative "--top-values / --max-kept -1" "info:@S --top-values -1" "screen:@S --max-kept -1" "trim:@G -q --summary @S --max-kept -1 -o @O/out.csv"
     opt_kind bins_zero "--bins 0" "screen:@S --bins 0"
     opt_kind rank_by_unknown "--rank-by luck" "screen:@S --rank-by luck"
     opt_kind redundancy_negative "--redundancy -0.5" "screen:@S --redundancy -0.5"
     opt_kind format_unknown "--format xml" "screen:@S --format xml" "corr:@S --format xml" "pca:@N --format xml"
     opt_kind numeric_share_over_1 "--numeric-share 2" "info:@S --numeric-share 2" "screen:@S --numeric-share 2" \
-        "corr:@S --numeric-share 2" "pca:@N --numeric-share 2" "project:@G -q --pca @N --numeric-share 2 -o @O/out.csv"
-    opt_kind k_zero "--k 0" "pca:@N --k 0" "project:@G -q --pca @N --k 0 -o @O/out.csv"
-    opt_kind share_over_1 "--share 1.5" "pca:@N --share 1.5" "project:@G -q --pca @N --share 1.5 -o @O/out.csv"
-    opt_kind k_and_share "--k and --share together" "pca:@N --k 2 --share 0.5" "project:@G -q --pca @N --k 2 --share 0.5 -o @O/out.csv"
-    opt_kind basis_unknown "--basis spherical" "pca:@N --basis spherical" "project:@G -q --pca @N --basis spherical -o @O/out.csv"
+        "corr:@S --numeric-share 2" "pca:@N --numeric-share 2" "project:@G -q --summary @N --numeric-share 2 -o @O/out.csv"
+    opt_kind k_zero "--components 0" "pca:@N --components 0" "project:@G -q --summary @N --components 0 -o @O/out.csv"
+    opt_kind share_over_1 "--share 1.5" "pca:@N --share 1.5" "project:@G -q --summary @N --share 1.5 -o @O/out.csv"
+    opt_kind k_and_share "--components and --share together" "pca:@N --components 2 --share 0.5" "project:@G -q --summary @N --components 2 --share 0.5 -o @O/out.csv"
+    opt_kind basis_unknown "--basis spherical" "pca:@N --basis spherical" "project:@G -q --summary @N --basis spherical -o @O/out.csv"
     # --leading 0 lists no loadings: the eigenvalues and shares alone, a
-    # request that makes sense (unlike --k 0), so exit 0 is right.
+    # request that makes sense (unlike --components 0), so exit 0 is right.
     ALLOW=0 opt_kind leading_zero "--leading 0" "pca:@N --leading 0"
-    opt_kind carry_unknown "--carry names no column" "trim:@G -q --keep-list @K --carry nosuch -o @O/out.csv" \
-        "project:@G -q --pca @N --carry nosuch -o @O/out.csv"
-    opt_kind exclude_unknown "--exclude names no column" "pca:@N --exclude nosuch" "project:@G -q --pca @N --exclude nosuch -o @O/out.csv"
-    opt_kind from_and_keep_list "trim with both --from and --keep-list" "trim:@G -q --from @S --keep-list @K -o @O/out.csv"
-    opt_kind trim_without_list "trim with neither --from nor --keep-list" "trim:@G -q -o @O/out.csv"
-    opt_kind project_without_pca "project without --pca" "project:@G -q -o @O/out.csv"
+    opt_kind carry_unknown "--carry names no column" "trim:@G -q --columns-from @K --carry nosuch -o @O/out.csv" \
+        "project:@G -q --summary @N --carry nosuch -o @O/out.csv"
+    opt_kind exclude_unknown "--exclude names no column" "pca:@N --exclude nosuch" "project:@G -q --summary @N --exclude nosuch -o @O/out.csv"
+    opt_kind from_and_keep_list "trim with both --summary and --columns-from" "trim:@G -q --summary @S --columns-from @K -o @O/out.csv"
+    opt_kind trim_without_list "trim with neither --summary nor --columns-from" "trim:@G -q -o @O/out.csv"
+    opt_kind project_without_pca "project without --summary" "project:@G -q -o @O/out.csv"
     opt_kind unknown_option "--frobnicate" $(for c in scan merge info screen corr pca trim project; do echo "$c:--frobnicate @S"; done)
     opt_kind no_arguments "the command alone" $(for c in scan merge info screen corr pca trim project; do echo "$c:"; done)
-    opt_kind option_value_missing "-o as the last word" "scan:@G -o" "merge:@S @N -o" "trim:@G --keep-list @K -o" "project:@G --pca @N -o"
+    opt_kind option_value_missing "-o as the last word" "scan:@G -o" "merge:@S @N -o" "trim:@G --columns-from @K -o" "project:@G --summary @N -o"
     opt_kind too_many_summaries "two summaries where one is read" "info:@S @N" "screen:@S @N" "corr:@S @N" "pca:@S @N"
     opt_kind merge_without_output "merge without -o" "merge:@S @N"
     opt_kind scan_without_output "scan without -o" "scan:@G"
@@ -888,34 +888,34 @@ k_options() {
     printf 'x\nnosuch\n' >"$W/keep_unknown.txt"
     printf '# nothing\n\n' >"$W/keep_empty.txt"
     printf 'x\nx\ny\n' >"$W/keep_twice.txt"
-    kind keep_list_missing_file "--keep-list names a file that does not exist"
+    kind keep_list_missing_file "--columns-from names a file that does not exist"
     local NAMES=nosuch.txt
-    inv trim 3 "$O/out.csv" "$SHEAF" trim -q "$D/good.csv" --keep-list "$W/nosuch.txt" -o "$O/out.csv"
-    inv pca 3 - "$SHEAF" pca "$D/nt.sheaf" --keep-list "$W/nosuch.txt"
-    inv project 3 "$O/out.csv" "$SHEAF" project -q "$D/good.csv" --pca "$D/nt.sheaf" --keep-list "$W/nosuch.txt" -o "$O/out.csv"
+    inv trim 3 "$O/out.csv" "$SHEAF" trim -q "$D/good.csv" --columns-from "$W/nosuch.txt" -o "$O/out.csv"
+    inv pca 3 - "$SHEAF" pca "$D/nt.sheaf" --columns-from "$W/nosuch.txt"
+    inv project 3 "$O/out.csv" "$SHEAF" project -q "$D/good.csv" --summary "$D/nt.sheaf" --columns-from "$W/nosuch.txt" -o "$O/out.csv"
     NAMES=
     local f what
     for what in directory read_error; do
         if [ $what = directory ]; then f=$W; else f=/proc/self/mem; fi
-        kind "keep_list_$what" "--keep-list names $( [ $what = directory ] && echo "a directory" || echo "a file whose read fails (EIO)")"
+        kind "keep_list_$what" "--columns-from names $( [ $what = directory ] && echo "a directory" || echo "a file whose read fails (EIO)")"
         NAMES=$f
-        inv trim 3 "$O/out.csv" "$SHEAF" trim -q "$D/good.csv" --keep-list "$f" -o "$O/out.csv"
-        inv pca 3 - "$SHEAF" pca "$D/nt.sheaf" --keep-list "$f"
-        inv project 3 "$O/out.csv" "$SHEAF" project -q "$D/good.csv" --pca "$D/nt.sheaf" --keep-list "$f" -o "$O/out.csv"
+        inv trim 3 "$O/out.csv" "$SHEAF" trim -q "$D/good.csv" --columns-from "$f" -o "$O/out.csv"
+        inv pca 3 - "$SHEAF" pca "$D/nt.sheaf" --columns-from "$f"
+        inv project 3 "$O/out.csv" "$SHEAF" project -q "$D/good.csv" --summary "$D/nt.sheaf" --columns-from "$f" -o "$O/out.csv"
     done
     NAMES=
-    kind keep_list_unknown_column "--keep-list names a column that does not exist"
-    inv trim 2 "$O/out.csv" "$SHEAF" trim -q "$D/good.csv" --keep-list "$W/keep_unknown.txt" -o "$O/out.csv"
-    inv pca 2 - "$SHEAF" pca "$D/nt.sheaf" --keep-list "$W/keep_unknown.txt"
-    inv project 2 "$O/out.csv" "$SHEAF" project -q "$D/good.csv" --pca "$D/nt.sheaf" --keep-list "$W/keep_unknown.txt" -o "$O/out.csv"
-    kind keep_list_empty "--keep-list of comments and blank lines"
-    inv trim 2 "$O/out.csv" "$SHEAF" trim -q "$D/good.csv" --keep-list "$W/keep_empty.txt" -o "$O/out.csv"
-    inv pca 2 - "$SHEAF" pca "$D/nt.sheaf" --keep-list "$W/keep_empty.txt"
-    inv project 2 "$O/out.csv" "$SHEAF" project -q "$D/good.csv" --pca "$D/nt.sheaf" --keep-list "$W/keep_empty.txt" -o "$O/out.csv"
-    kind keep_list_binary "--keep-list of random bytes"
-    inv trim 2 "$O/out.csv" "$SHEAF" trim -q "$D/good.csv" --keep-list "$F/random.bin" -o "$O/out.csv"
-    inv pca 2 - "$SHEAF" pca "$D/nt.sheaf" --keep-list "$F/random.bin"
-    inv project 2 "$O/out.csv" "$SHEAF" project -q "$D/good.csv" --pca "$D/nt.sheaf" --keep-list "$F/random.bin" -o "$O/out.csv"
+    kind keep_list_unknown_column "--columns-from names a column that does not exist"
+    inv trim 2 "$O/out.csv" "$SHEAF" trim -q "$D/good.csv" --columns-from "$W/keep_unknown.txt" -o "$O/out.csv"
+    inv pca 2 - "$SHEAF" pca "$D/nt.sheaf" --columns-from "$W/keep_unknown.txt"
+    inv project 2 "$O/out.csv" "$SHEAF" project -q "$D/good.csv" --summary "$D/nt.sheaf" --columns-from "$W/keep_unknown.txt" -o "$O/out.csv"
+    kind keep_list_empty "--columns-from of comments and blank lines"
+    inv trim 2 "$O/out.csv" "$SHEAF" trim -q "$D/good.csv" --columns-from "$W/keep_empty.txt" -o "$O/out.csv"
+    inv pca 2 - "$SHEAF" pca "$D/nt.sheaf" --columns-from "$W/keep_empty.txt"
+    inv project 2 "$O/out.csv" "$SHEAF" project -q "$D/good.csv" --summary "$D/nt.sheaf" --columns-from "$W/keep_empty.txt" -o "$O/out.csv"
+    kind keep_list_binary "--columns-from of random bytes"
+    inv trim 2 "$O/out.csv" "$SHEAF" trim -q "$D/good.csv" --columns-from "$F/random.bin" -o "$O/out.csv"
+    inv pca 2 - "$SHEAF" pca "$D/nt.sheaf" --columns-from "$F/random.bin"
+    inv project 2 "$O/out.csv" "$SHEAF" project -q "$D/good.csv" --summary "$D/nt.sheaf" --columns-from "$F/random.bin" -o "$O/out.csv"
 }
 
 # Outputs that cannot be written (README, "Where outputs land").
@@ -925,9 +925,9 @@ writes() {
     case $1 in
     scan) echo "$SHEAF scan -q $D/good.csv -o $2" ;;
     merge) echo "$SHEAF merge $D/good.sheaf $D/good2.sheaf -o $2" ;;
-    trim) echo "$SHEAF trim -q $D/good.csv --keep-list $D/keep.txt -o $2" ;;
-    project) echo "$SHEAF project -q $D/good.csv --pca $D/nt.sheaf -o $2" ;;
-    screen) echo "$SHEAF screen $D/good.sheaf --keep-list $2" ;; # the keep list is its output file
+    trim) echo "$SHEAF trim -q $D/good.csv --columns-from $D/keep.txt -o $2" ;;
+    project) echo "$SHEAF project -q $D/good.csv --summary $D/nt.sheaf -o $2" ;;
+    screen) echo "$SHEAF screen $D/good.sheaf --write-kept $2" ;; # the keep list is its output file
     esac
 }
 out_kind() { # NAME DESCRIPTION ALLOWED TARGET [OUTPUT]
@@ -963,9 +963,9 @@ k_outputs() {
     local NAMES="same file as the input"
     inv scan 2 - "$SHEAF" scan -q "$IN/in.csv" -o "$IN/in.csv"
     inv merge 2 - "$SHEAF" merge "$IN/in.sheaf" "$D/good2.sheaf" -o "$IN/in.sheaf"
-    inv trim 2 - "$SHEAF" trim -q "$D/good.csv" --keep-list "$IN/keep.txt" -o "$IN/keep.txt"
-    inv project 2 - "$SHEAF" project -q "$IN/in.csv" --pca "$D/nt.sheaf" -o "$IN/in.csv"
-    inv screen 2 - "$SHEAF" screen "$IN/in.sheaf" --keep-list "$IN/in.sheaf"
+    inv trim 2 - "$SHEAF" trim -q "$D/good.csv" --columns-from "$IN/keep.txt" -o "$IN/keep.txt"
+    inv project 2 - "$SHEAF" project -q "$IN/in.csv" --summary "$D/nt.sheaf" -o "$IN/in.csv"
+    inv screen 2 - "$SHEAF" screen "$IN/in.sheaf" --write-kept "$IN/in.sheaf"
     NAMES=
     # Standard output closed (>&-) or full (a device made here): the
     # commands that print end with exit 1 and one line naming standard
@@ -977,8 +977,8 @@ k_outputs() {
         inv scan 0 "$O/out.sheaf" "$SHEAF" scan -q "$D/good.csv" -o "$O/out.sheaf"
         inv merge 0 "$O/out.sheaf" "$SHEAF" merge "$D/good.sheaf" "$D/good2.sheaf" -o "$O/out.sheaf"
         for c in info screen corr pca; do inv "$c" 1 - "$SHEAF" "$c" "$D/good.sheaf"; done
-        inv trim 1 - "$SHEAF" trim -q "$D/good.csv" --keep-list "$D/keep.txt"
-        inv project 1 - "$SHEAF" project -q "$D/good.csv" --pca "$D/nt.sheaf"
+        inv trim 1 - "$SHEAF" trim -q "$D/good.csv" --columns-from "$D/keep.txt"
+        inv project 1 - "$SHEAF" project -q "$D/good.csv" --summary "$D/nt.sheaf"
         STDOUT=normal NAMES=
     done
 }
@@ -1093,7 +1093,7 @@ EOF_PY
     # 400 flips of payload bits with every checksum recomputed
     # (summary_craft.py flips): the decoder's invariants must refuse what is
     # impossible; what it accepts must be read without a crash or a hang,
-    # give exit 0 from both info --json and screen --format json, print
+    # give exit 0 from both info --format json and screen --format json, print
     # JSON that keeps the invariants of docs/summary-format.md that its
     # output shows (judged by the checker below, once for all files), and
     # be a file that keeps every invariant check_invariants.py checks.
@@ -1103,7 +1103,7 @@ EOF_PY
     : >"$M/accepted.list"
     while read -r k bit; do
         local f=$M/sealed/flip-$k.sheaf rc_info rc_screen
-        judge_read "sealed flip of payload bit $bit (info --json)" "0 4" "$SHEAF" info --json "$f"
+        judge_read "sealed flip of payload bit $bit (info --format json)" "0 4" "$SHEAF" info --format json "$f"
         rc_info=$RC
         cp "$W/read.out" "$M/sealed/info-$k.json"
         judge_read "sealed flip of payload bit $bit (screen --format json)" "0 4" "$SHEAF" screen --format json "$f"
@@ -1243,8 +1243,8 @@ part_kills() {
     for i in $(seq 1 1000); do ln -s big.sheaf "$K/in/m$i.sheaf"; done
     declare -A CMD=(
         [scan]="scan -q $K/in/big.csv -o OUT"
-        [trim]="trim -q $K/in/big.csv --keep-list $K/in/keep -o OUT"
-        [project]="project -q $K/in/big.csv --pca $K/in/big.sheaf -o OUT"
+        [trim]="trim -q $K/in/big.csv --columns-from $K/in/keep -o OUT"
+        [project]="project -q $K/in/big.csv --summary $K/in/big.sheaf -o OUT"
         [merge]="merge --allow-duplicates $(printf "$K/in/m%d.sheaf " $(seq 1 1000))-o OUT")
     declare -A MS
     local c t0
