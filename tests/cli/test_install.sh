@@ -171,7 +171,7 @@ command -v mandoc >/dev/null || skip mandoc_lint "mandoc not installed (make dep
 for c in $commands; do
     rendered=$(MANWIDTH=200 groff -man -Tascii -P-c -rLL=200n "$man_dir/sheaf-$c.1" 2>/dev/null | sed 's/.\x08//g')
     missing=
-    for o in $("$D/usr/bin/sheaf" "$c" --help | grep -oE '^  (-[a-zA-Z], )?--[a-z0-9-]+' | grep -oE -- '--[a-z0-9-]+'); do
+    for o in $("$D/usr/bin/sheaf" "$c" --help | sed "/^renamed/,/^$/d" | grep -oE '^  (-[a-zA-Z], )?--[a-z0-9-]+' | grep -oE -- '--[a-z0-9-]+'); do
         grep -q -- "$o" <<<"$rendered" || missing="$missing $o"
     done
     check "man_options_$c" "sheaf-$c.1 lacks$missing" test -z "$missing"
@@ -206,7 +206,7 @@ check complete_no_files_for_count "sheaf scan -j <TAB> offers '$(complete_words 
 for c in $commands; do
     offered=$(complete_words sheaf "$c" -)
     missing=
-    for o in $("$D/usr/bin/sheaf" "$c" --help | grep -oE '^  (-[a-zA-Z], )?--[a-z0-9-]+' | grep -oE -- '-[a-zA-Z]|--[a-z0-9-]+'); do
+    for o in $("$D/usr/bin/sheaf" "$c" --help | sed "/^renamed/,/^$/d" | grep -oE '^  (-[a-zA-Z], )?--[a-z0-9-]+' | grep -oE -- '-[a-zA-Z]|--[a-z0-9-]+'); do
         grep -qx -- "$o" <<<"$offered" || missing="$missing $o"
     done
     check "complete_options_$c" "not offered:$missing" test -z "$missing"

@@ -233,12 +233,12 @@ rejected=0 accepted=0 changed=0 signals=
 while read -r k bit; do
     f=$T/flips/flip-$k.sheaf
     rcs=
-    for c in "info --format", "json" "screen --format json" corr pca; do
+    for c in "info --format json" "screen --format json" corr pca; do
         # shellcheck disable=SC2086
         $SHEAF $c "$f" >"$T/flip.out" 2>"$T/flip.err"
         rc=$?
         rcs="$rcs $rc"
-        [ "$c" = "info --format", "json" ] && [ "$rc" -eq 0 ] && ! cmp -s "$T/flip.out" "$T/info.ref" &&
+        [ "$c" = "info --format json" ] && [ "$rc" -eq 0 ] && ! cmp -s "$T/flip.out" "$T/info.ref" &&
             changed=$((changed + 1))
         if { [ "$rc" -ne 0 ] && [ "$rc" -ne 4 ]; } || grep -q 'Sanitizer\|runtime error' "$T/flip.err"; then
             signals="$signals bit $bit '$c' exit $rc;"
