@@ -67,7 +67,7 @@ else
 fi
 
 # Summaries from standard input: the same output as from the file.
-for c in "info" "info --format", "json" "corr" "screen" "screen -f json" "pca -f csv"; do
+for c in "info" "info --format json" "corr" "screen" "screen -f json" "pca -f csv"; do
     "$S" $c "$T/fly.sheaf" 2>&1 | sed "s|$T/fly.sheaf|X|" >"$T/a"
     "$S" $c - <"$T/fly.sheaf" 2>&1 | sed 's|standard input|X|; s|--summary SUMMARY.sheaf|--summary X|' >"$T/b"
     check "stdin.${c// /_}" "$(first_diff "$T/a" "$T/b")" cmp -s "$T/a" "$T/b"
