@@ -145,7 +145,7 @@ SHEAF_API int sheaf_options_set_missing(sheaf_options *o, const char *const *spe
 SHEAF_API int sheaf_options_set_columns(sheaf_options *o, const char *names, sheaf_error *err);
 SHEAF_API int sheaf_options_set_numeric(sheaf_options *o, const char *names, sheaf_error *err);
 SHEAF_API int sheaf_options_set_categorical(sheaf_options *o, const char *names, sheaf_error *err);
-SHEAF_API int sheaf_options_set_ignore(sheaf_options *o, const char *names, sheaf_error *err);
+SHEAF_API int sheaf_options_set_exclude(sheaf_options *o, const char *names, sheaf_error *err);
 /* The longest record accepted, in bytes (at least 64; default 64 MiB): a
  * longer one fails the scan with SHEAF_ERR_INPUT naming its byte offset. */
 SHEAF_API int sheaf_options_set_max_record_bytes(sheaf_options *o, size_t bytes, sheaf_error *err);
@@ -162,8 +162,8 @@ SHEAF_API int sheaf_options_set_memory_limit(sheaf_options *o, uint64_t bytes, s
 /* Screen: the q-value at which a column is relevant (0 < q <= 1, default
  * 0.05); at most `top` columns kept (0: no cap); the |r| above which the
  * less relevant of two kept numeric columns is dropped (0 < r <= 1, 0.95). */
-SHEAF_API int sheaf_options_set_q_level(sheaf_options *o, double q, sheaf_error *err);
-SHEAF_API int sheaf_options_set_keep_at_most(sheaf_options *o, size_t top, sheaf_error *err);
+SHEAF_API int sheaf_options_set_fdr(sheaf_options *o, double q, sheaf_error *err);
+SHEAF_API int sheaf_options_set_max_kept(sheaf_options *o, size_t top, sheaf_error *err);
 SHEAF_API int sheaf_options_set_redundancy(sheaf_options *o, double abs_r, sheaf_error *err);
 /* PCA: SHEAF_BASIS_CORRELATION or _COVARIANCE; comma-separated columns to
  * use instead of the automatic choice (NULL: automatic); columns to leave

@@ -228,8 +228,8 @@ Test(api, setters_refuse_values_out_of_range)
     cr_expect_eq(sheaf_options_set_delimiter(o, '"', &err), SHEAF_ERR_USAGE);
     cr_expect_eq(sheaf_options_set_max_levels(o, 0, &err), SHEAF_ERR_USAGE);
     cr_expect_eq(sheaf_options_set_max_classes(o, 1, &err), SHEAF_ERR_USAGE);
-    cr_expect_eq(sheaf_options_set_q_level(o, 0, &err), SHEAF_ERR_USAGE);
-    cr_expect_eq(sheaf_options_set_q_level(o, NAN, &err), SHEAF_ERR_USAGE);
+    cr_expect_eq(sheaf_options_set_fdr(o, 0, &err), SHEAF_ERR_USAGE);
+    cr_expect_eq(sheaf_options_set_fdr(o, NAN, &err), SHEAF_ERR_USAGE);
     cr_expect_eq(sheaf_options_set_redundancy(o, 1.5, &err), SHEAF_ERR_USAGE);
     cr_expect_eq(sheaf_options_set_pca_basis(o, 3, &err), SHEAF_ERR_USAGE);
     cr_expect_eq(sheaf_options_set_target(o, "", &err), SHEAF_ERR_USAGE);
@@ -248,8 +248,8 @@ Test(api, setters_refuse_values_out_of_range)
     cr_expect_eq(sheaf_options_set_max_levels(o, 4096, NULL), SHEAF_OK);
     cr_expect_eq(sheaf_options_set_max_classes(o, 64, NULL), SHEAF_OK);
     cr_expect_eq(sheaf_options_set_memory_limit(o, 0, NULL), SHEAF_OK);
-    cr_expect_eq(sheaf_options_set_q_level(o, 0.01, NULL), SHEAF_OK);
-    cr_expect_eq(sheaf_options_set_keep_at_most(o, 3, NULL), SHEAF_OK);
+    cr_expect_eq(sheaf_options_set_fdr(o, 0.01, NULL), SHEAF_OK);
+    cr_expect_eq(sheaf_options_set_max_kept(o, 3, NULL), SHEAF_OK);
     cr_expect_eq(sheaf_options_set_redundancy(o, 0.9, NULL), SHEAF_OK);
     cr_expect_eq(sheaf_options_set_pca_basis(o, SHEAF_BASIS_COVARIANCE, NULL), SHEAF_OK);
     cr_expect_eq(sheaf_options_set_task(o, 9, NULL), SHEAF_ERR_USAGE);
@@ -478,7 +478,7 @@ Test(api, screen_rows)
     /* A cap from the options: one column kept. */
     s = greenhouse();
     sheaf_options *o = options(NULL, 1);
-    cr_assert_eq(sheaf_options_set_keep_at_most(o, 1, &err), SHEAF_OK);
+    cr_assert_eq(sheaf_options_set_max_kept(o, 1, &err), SHEAF_OK);
     r = sheaf_screen_run(s, o, &err);
     cr_assert_not_null(r, "%s", err.message);
     cr_expect_eq(sheaf_screen_kept_count(r), 1);
@@ -818,7 +818,7 @@ Test(api, missing_spellings_replace_the_defaults)
     cr_assert_eq(sheaf_options_set_missing(o, dash, 1, &err), SHEAF_OK, "%s", err.message);
     cr_assert_eq(sheaf_options_set_delimiter(o, ',', &err), SHEAF_OK);
     cr_assert_eq(sheaf_options_set_categorical(o, "tray", &err), SHEAF_OK);
-    cr_assert_eq(sheaf_options_set_ignore(o, "light_klux", &err), SHEAF_OK);
+    cr_assert_eq(sheaf_options_set_exclude(o, "light_klux", &err), SHEAF_OK);
     cr_assert_eq(sheaf_options_set_numeric(o, "temp_c", &err), SHEAF_OK);
     sheaf_scan *sc = sheaf_scan_create(o, &err);
     sheaf_options_free(o);
@@ -888,4 +888,24 @@ Test(api, reading_limits_long_records_and_binary_input)
     sheaf_summary_free(s);
     sheaf_scan_free(sc);
     sheaf_options_free(o);
+}
+
+/* The library names a setting in its messages by a key; a C caller reads
+ * the call that changes it (api_options.c), never a command-line flag. */
+Test(api, messages_name_the_setting_call)
+{
+    static const char text[] = "shelf,kind\n1,fern\n2,moss\n3,ivy\n4,reed\n5,sage\n";
+    sheaf_error err = {0, ""};
+    sheaf_options *o = options("kind", 1);
+    cr_assert_eq(sheaf_options_set_max_classes(o, 2, &err), SHEAF_OK, "%s", err.message);
+    sheaf_scan *sc = sheaf_scan_create(o, &err);
+    sheaf_options_free(o);
+    cr_assert_not_null(sc, "%s", err.message);
+    int rc = sheaf_scan_memory(sc, text, sizeof text - 1, "shelves.csv", &err);
+    sheaf_summary *s = rc == SHEAF_OK ? sheaf_scan_finish(sc, &err) : NULL;
+    cr_assert_null(s, "a text target of 5 classes over a limit of 2 was accepted");
+    cr_expect(strstr(err.message, "sheaf_options_set_max_classes") != NULL, "%s", err.message);
+    cr_expect_null(strchr(err.message, '{'), "%s", err.message);
+    cr_expect_null(strstr(err.message, "--"), "%s", err.message);
+    sheaf_scan_free(sc);
 }

@@ -27,6 +27,55 @@ const char *sheaf_error_string(int code)
     }
 }
 
+/* The library names a setting in its messages by a key in braces
+ * ("raise {max_classes}"); a C caller reads the call that changes it. */
+static const struct { const char *key, *call; } SETTING_CALLS[] = {
+    {"delim", "sheaf_options_set_delimiter"},
+    {"columns", "sheaf_options_set_columns"},
+    {"numeric", "sheaf_options_set_numeric"},
+    {"categorical", "sheaf_options_set_categorical"},
+    {"exclude", "sheaf_options_set_exclude"},
+    {"target", "sheaf_options_set_target"},
+    {"max_classes", "sheaf_options_set_max_classes"},
+    {"task", "sheaf_options_set_task"},
+    {"task=regress", "sheaf_options_set_task(SHEAF_TASK_REGRESS)"},
+    {"task=classify", "sheaf_options_set_task(SHEAF_TASK_CLASSIFY)"},
+    {"strict", "sheaf_options_set_strict"},
+    {"max_record", "sheaf_options_set_max_record_bytes"},
+    {"mem_limit", "sheaf_options_set_memory_limit"},
+    {"threads", "sheaf_options_set_threads"},
+    {"force", "sheaf_options_set_force"},
+    {"no_header", "sheaf_options_set_header(0)"},
+};
+
+/* msg with every known {key} shown as its call; other braces are left as
+ * they are (a column may be named "{x}"). */
+static void name_calls(char *msg, size_t cap)
+{
+    char out[sizeof ((sheaf_error *)0)->message];
+    size_t o = 0;
+    for (const char *p = msg; *p && o + 1 < sizeof out;) {
+        const char *close = *p == '{' ? strchr(p + 1, '}') : NULL;
+        const char *call = NULL;
+        if (close)
+            for (size_t i = 0; i < sizeof SETTING_CALLS / sizeof *SETTING_CALLS; i++)
+                if (strlen(SETTING_CALLS[i].key) == (size_t)(close - p - 1) &&
+                    !memcmp(SETTING_CALLS[i].key, p + 1, (size_t)(close - p - 1)))
+                    call = SETTING_CALLS[i].call;
+        if (call) {
+            size_t n = strlen(call);
+            if (o + n >= sizeof out) break;
+            memcpy(out + o, call, n);
+            o += n;
+            p = close + 1;
+        } else {
+            out[o++] = *p++;
+        }
+    }
+    out[o] = '\0';
+    snprintf(msg, cap, "%s", out);
+}
+
 int api_fail(sheaf_error *err, int code, const char *fmt, ...)
 {
     if (!err) return code;
@@ -38,6 +87,7 @@ int api_fail(sheaf_error *err, int code, const char *fmt, ...)
     /* One line: a newline inside a message ends it. */
     char *nl = strchr(err->message, '\n');
     if (nl) *nl = '\0';
+    name_calls(err->message, sizeof err->message);
     return code;
 }
 
@@ -185,9 +235,9 @@ int sheaf_options_set_categorical(sheaf_options *o, const char *names, sheaf_err
     return set_text(o, o ? &o->categorical : NULL, names, "sheaf_options_set_categorical", err);
 }
 
-int sheaf_options_set_ignore(sheaf_options *o, const char *names, sheaf_error *err)
+int sheaf_options_set_exclude(sheaf_options *o, const char *names, sheaf_error *err)
 {
-    return set_text(o, o ? &o->ignore : NULL, names, "sheaf_options_set_ignore", err);
+    return set_text(o, o ? &o->ignore : NULL, names, "sheaf_options_set_exclude", err);
 }
 
 int sheaf_options_set_pca_columns(sheaf_options *o, const char *names, sheaf_error *err)
@@ -304,18 +354,18 @@ int sheaf_options_set_memory_limit(sheaf_options *o, uint64_t bytes, sheaf_error
     return SHEAF_OK;
 }
 
-int sheaf_options_set_q_level(sheaf_options *o, double q, sheaf_error *err)
+int sheaf_options_set_fdr(sheaf_options *o, double q, sheaf_error *err)
 {
-    if (!o) return no_options(err, "sheaf_options_set_q_level");
+    if (!o) return no_options(err, "sheaf_options_set_fdr");
     if (!(q > 0 && q <= 1))
-        return api_fail(err, SHEAF_ERR_USAGE, "sheaf_options_set_q_level: 0 < q <= 1, got %g", q);
+        return api_fail(err, SHEAF_ERR_USAGE, "sheaf_options_set_fdr: 0 < q <= 1, got %g", q);
     o->screen.q_level = q;
     return SHEAF_OK;
 }
 
-int sheaf_options_set_keep_at_most(sheaf_options *o, size_t top, sheaf_error *err)
+int sheaf_options_set_max_kept(sheaf_options *o, size_t top, sheaf_error *err)
 {
-    if (!o) return no_options(err, "sheaf_options_set_keep_at_most");
+    if (!o) return no_options(err, "sheaf_options_set_max_kept");
     o->screen.top = top;
     return SHEAF_OK;
 }
