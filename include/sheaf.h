@@ -381,6 +381,32 @@ SHEAF_API double sheaf_pca_cumulative(const sheaf_pca *f, size_t k);
  * signed so that each component's largest-magnitude entry is positive. */
 SHEAF_API double sheaf_pca_loading(const sheaf_pca *f, size_t k, size_t j);
 
+/* ---- second passes over the data -------------------------------------------
+ *
+ * Both read the files again ("-": standard input; plain, gzip or zstd by
+ * their bytes) with o's delimiter, header, record limit and threads (NULL:
+ * the defaults), and write out_path ("-": standard output; a name ending in
+ * .gz is gzip, .zst zstd) whole or not at all: a failed pass leaves nothing
+ * under that name.  The output is the same bytes for any thread count.  The
+ * arrays and strings passed in are read during the call only. */
+
+/* The kept columns (nkeep header names, e.g. the screen's kept rows) of
+ * every file, in their input order, each field's bytes and quoting as they
+ * were; the header once.  SHEAF_ERR_USAGE when a name is not a column,
+ * SHEAF_ERR_INPUT for unreadable or malformed data (the message names the
+ * file and line), SHEAF_ERR_IO when the output cannot be written. */
+SHEAF_API int sheaf_trim_files(const sheaf_options *o, const char *const *keep, size_t nkeep,
+                               const char *const *paths, size_t npaths, const char *out_path,
+                               sheaf_error *err);
+/* CSV of the carried columns (ncarry header names, e.g. an ID; may be 0)
+ * then PC1..PCk: the scores of every row on the first k components of fit
+ * (1 <= k <= sheaf_pca_column_count), which must have been fit on s.  A
+ * missing or non-numeric cell counts as its column's mean. */
+SHEAF_API int sheaf_project_files(const sheaf_summary *s, const sheaf_pca *fit, size_t k,
+                                  const sheaf_options *o, const char *const *carry,
+                                  size_t ncarry, const char *const *paths, size_t npaths,
+                                  const char *out_path, sheaf_error *err);
+
 #ifdef __cplusplus
 }
 #endif

@@ -909,3 +909,102 @@ Test(api, messages_name_the_setting_call)
     cr_expect_null(strstr(err.message, "--"), "%s", err.message);
     sheaf_scan_free(sc);
 }
+
+/* The reduced table: the kept columns in input order, each line's fields
+ * as they were (the fixture has no quotes: fields 0 and 4 of each line,
+ * cut here by commas), the same bytes at 1 and 2 threads; an unknown name
+ * is a usage error that leaves no output. */
+Test(api, trim_keeps_the_named_columns)
+{
+    char in[128], out1[128], out2[128], bad[128];
+    in_dir(in, sizeof in, "greenhouse.csv");
+    write_file(in, GREENHOUSE, sizeof GREENHOUSE - 1);
+    const char *paths[] = {in};
+    const char *keep[] = {"soil", "tray"};
+    sheaf_error err = {0, ""};
+    for (unsigned t = 1; t <= 2; t++) {
+        sheaf_options *o = options(NULL, t);
+        cr_assert_eq(sheaf_trim_files(o, keep, 2, paths, 1,
+                                      in_dir(t == 1 ? out1 : out2, sizeof out1,
+                                             t == 1 ? "kept1.csv" : "kept2.csv"),
+                                      &err),
+                     SHEAF_OK, "%s", err.message);
+        sheaf_options_free(o);
+    }
+    cr_expect(same_bytes(out1, out2), "1 and 2 threads differ");
+    char want[sizeof GREENHOUSE];
+    size_t w = 0;
+    for (const char *p = GREENHOUSE; *p;) {
+        const char *end = strchr(p, '\n');
+        const char *f[6];
+        size_t nf = 0;
+        for (const char *q = p; nf < 6 && q <= end; q = strchr(q, ',') ? strchr(q, ',') + 1 : end + 1)
+            f[nf++] = q;
+        cr_assert_eq(nf, 6);
+        size_t l0 = (size_t)(strchr(f[0], ',') - f[0]), l4 = (size_t)(strchr(f[4], ',') - f[4]);
+        memcpy(want + w, f[0], l0), w += l0;
+        want[w++] = ',';
+        memcpy(want + w, f[4], l4), w += l4;
+        want[w++] = '\n';
+        p = end + 1;
+    }
+    size_t n;
+    char *got = read_file(out1, &n);
+    cr_expect(n == w && memcmp(got, want, w) == 0, "trimmed table:\n%.*s", (int)n, got);
+    free(got);
+    const char *unknown[] = {"tray", "humidty"};
+    cr_expect_eq(sheaf_trim_files(NULL, unknown, 2, paths, 1, in_dir(bad, sizeof bad, "bad.csv"),
+                                  &err),
+                 SHEAF_ERR_USAGE);
+    cr_expect(strstr(err.message, "humidty") != NULL, "%s", err.message);
+    cr_expect_neq(access(bad, F_OK), 0, "a failed trim left %s", bad);
+}
+
+/* Component scores of rows 1, 3 (humidity missing: its mean) and 48.
+ * Reference: pandas 1.5.3 / numpy 1.24.2 on the same table,
+ *   cols = ["temp_c", "humidity", "light_klux"]; w, v = np.linalg.eigh(df[cols].corr())
+ *   (decreasing, each vector's largest entry positive);
+ *   Z = ((df[cols] - df[cols].mean()) / df[cols].std(ddof=1)).fillna(0); S = Z @ v. */
+Test(api, project_scores_match_numpy)
+{
+    char in[128], out[128], bad[128];
+    in_dir(in, sizeof in, "greenhouse.csv");
+    write_file(in, GREENHOUSE, sizeof GREENHOUSE - 1);
+    sheaf_summary *s = greenhouse();
+    sheaf_error err = {0, ""};
+    sheaf_pca *f = sheaf_pca_fit(s, NULL, &err);
+    cr_assert_not_null(f, "%s", err.message);
+    const char *paths[] = {in};
+    const char *carry[] = {"tray"};
+    cr_assert_eq(sheaf_project_files(s, f, 2, NULL, carry, 1, paths, 1,
+                                     in_dir(out, sizeof out, "scores.csv"), &err),
+                 SHEAF_OK, "%s", err.message);
+    size_t n;
+    char *text = read_file(out, &n);
+    text[n] = '\0';
+    cr_expect_eq(strncmp(text, "tray,PC1,PC2\n", 13), 0, "%.40s", text);
+    const struct { int tray; double pc1, pc2; } want[] = {
+        {1, 1.1694172462028953, -0.8364901959463177},
+        {3, -0.5767744662929807, 1.5319576746708818},
+        {48, 1.1188524521329775, -1.4469884827976112}};
+    size_t rows = 0;
+    for (char *line = strchr(text, '\n') + 1; *line; line = strchr(line, '\n') + 1) {
+        int tray;
+        double a, b;
+        cr_assert_eq(sscanf(line, "%d,%lf,%lf", &tray, &a, &b), 3, "%.60s", line);
+        rows++;
+        for (size_t i = 0; i < 3; i++)
+            if (tray == want[i].tray) {
+                near(a, want[i].pc1, 1e-9, "PC1");
+                near(b, want[i].pc2, 1e-9, "PC2");
+            }
+    }
+    cr_expect_eq(rows, 48);
+    free(text);
+    cr_expect_eq(sheaf_project_files(s, f, 4, NULL, NULL, 0, paths, 1,
+                                     in_dir(bad, sizeof bad, "bad.csv"), &err),
+                 SHEAF_ERR_USAGE);
+    cr_expect_neq(access(bad, F_OK), 0, "a refused projection left %s", bad);
+    sheaf_pca_free(f);
+    sheaf_summary_free(s);
+}

@@ -53,6 +53,9 @@ int api_options_init(sheaf_options *o);
 int api_options_copy(sheaf_options *dst, const sheaf_options *src);
 void api_options_release(sheaf_options *o);
 
+/* The fit a PCA handle holds (owned by the handle). */
+const pca_result *api_pca_result(const sheaf_pca *fit);
+
 /* A summary wrapped in a new handle (NULL when out of memory: s freed). */
 sheaf_summary *api_wrap(summary *s, sheaf_error *err);
 

@@ -244,3 +244,5 @@ double sheaf_pca_loading(const sheaf_pca *f, size_t k, size_t j)
 {
     return f && k < f->r->p && j < f->r->p ? f->r->loadings[k * f->r->p + j] : NAN;
 }
+
+const pca_result *api_pca_result(const sheaf_pca *fit) { return fit->r; }
