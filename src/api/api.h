@@ -58,5 +58,7 @@ const pca_result *api_pca_result(const sheaf_pca *fit);
 
 /* A summary wrapped in a new handle (NULL when out of memory: s freed). */
 sheaf_summary *api_wrap(summary *s, sheaf_error *err);
+/* The same for a set of several targets (set freed on failure). */
+sheaf_summary_set *api_wrap_set(summary_set *set, sheaf_error *err);
 
 #endif

@@ -33,6 +33,17 @@ static int check_lists(const char *call, const char *const *paths, size_t npaths
     return SHEAF_OK;
 }
 
+/* The public code of a pass's status (0 is success, anything else not
+ * named is memory). */
+static int pass_code(int st, int usage, int input, int output)
+{
+    return st == 0        ? SHEAF_OK
+           : st == usage  ? SHEAF_ERR_USAGE
+           : st == input  ? SHEAF_ERR_INPUT
+           : st == output ? SHEAF_ERR_IO
+                          : SHEAF_ERR_MEMORY;
+}
+
 /* The sink closed on success, aborted on failure; the public code. */
 static int finish(sink *out, int code, const char *msg, sheaf_error *err)
 {
@@ -66,12 +77,7 @@ int sheaf_trim_files(const sheaf_options *o, const char *const *keep, size_t nke
     sink *out = sink_open(out_path, msg, sizeof msg);
     if (!out) return api_fail(err, SHEAF_ERR_IO, "%s", msg);
     trim_status st = trim_files(&to, paths, npaths, out, msg, sizeof msg);
-    int code = st == TRIM_OK           ? SHEAF_OK
-               : st == TRIM_ERR_USAGE  ? SHEAF_ERR_USAGE
-               : st == TRIM_ERR_INPUT  ? SHEAF_ERR_INPUT
-               : st == TRIM_ERR_OUTPUT ? SHEAF_ERR_IO
-                                       : SHEAF_ERR_MEMORY;
-    return finish(out, code, msg, err);
+    return finish(out, pass_code(st, TRIM_ERR_USAGE, TRIM_ERR_INPUT, TRIM_ERR_OUTPUT), msg, err);
 }
 
 int sheaf_project_files(const sheaf_summary *s, const sheaf_pca *fit, size_t k,
@@ -101,10 +107,6 @@ int sheaf_project_files(const sheaf_summary *s, const sheaf_pca *fit, size_t k,
     sink *out = sink_open(out_path, msg, sizeof msg);
     if (!out) return api_fail(err, SHEAF_ERR_IO, "%s", msg);
     project_status st = project_files(s->s, r, k, &po, paths, npaths, out, msg, sizeof msg);
-    int code = st == PROJECT_OK           ? SHEAF_OK
-               : st == PROJECT_ERR_USAGE  ? SHEAF_ERR_USAGE
-               : st == PROJECT_ERR_INPUT  ? SHEAF_ERR_INPUT
-               : st == PROJECT_ERR_OUTPUT ? SHEAF_ERR_IO
-                                          : SHEAF_ERR_MEMORY;
-    return finish(out, code, msg, err);
+    return finish(out, pass_code(st, PROJECT_ERR_USAGE, PROJECT_ERR_INPUT, PROJECT_ERR_OUTPUT),
+                  msg, err);
 }

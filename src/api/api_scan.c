@@ -178,12 +178,5 @@ sheaf_summary_set *sheaf_scan_finish_set(sheaf_scan *sc, sheaf_error *err)
     sc->spent = 1;
     summary_set *set = scan_finish_set(sc->sc);
     if (!set) { finish_failed(sc, err); return NULL; }
-    sheaf_summary_set *w = malloc(sizeof *w);
-    if (!w) {
-        summary_set_free(set);
-        api_fail(err, SHEAF_ERR_MEMORY, "out of memory");
-        return NULL;
-    }
-    w->set = set;
-    return w;
+    return api_wrap_set(set, err);
 }

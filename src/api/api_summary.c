@@ -25,6 +25,18 @@ sheaf_summary *api_wrap(summary *s, sheaf_error *err)
     return w;
 }
 
+sheaf_summary_set *api_wrap_set(summary_set *set, sheaf_error *err)
+{
+    sheaf_summary_set *w = malloc(sizeof *w);
+    if (!w) {
+        summary_set_free(set);
+        api_fail(err, SHEAF_ERR_MEMORY, "out of memory");
+        return NULL;
+    }
+    w->set = set;
+    return w;
+}
+
 void sheaf_summary_free(sheaf_summary *s)
 {
     if (!s) return;
@@ -108,14 +120,7 @@ sheaf_summary_set *sheaf_summary_set_read(const char *path, sheaf_error *err)
     char msg[SHEAF_ERROR_BYTES] = "";
     summary_set *set = NULL;
     if (reported(summary_set_read(path, &set, msg, sizeof msg), msg, err)) return NULL;
-    sheaf_summary_set *w = malloc(sizeof *w);
-    if (!w) {
-        summary_set_free(set);
-        api_fail(err, SHEAF_ERR_MEMORY, "out of memory");
-        return NULL;
-    }
-    w->set = set;
-    return w;
+    return api_wrap_set(set, err);
 }
 
 /* 1 when every part is still in the set (write and merge need them all). */
