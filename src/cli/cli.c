@@ -29,10 +29,46 @@ void cli_error(const char *cmd, const char *fmt, ...)
     fprintf(stderr, "sheaf %s: %s\n", cmd, shown);
 }
 
+/* "  LEFT  help", the help word-wrapped at width with its later lines
+ * under its first (an 80-column page when the width is unknown: --help is
+ * read through pagers and in files). */
+static void help_line(const char *left, const char *help, size_t width)
+{
+    enum { INDENT = 29 };
+    int used = printf("  %-26s ", left);
+    size_t col = used > 0 ? (size_t)used : INDENT;
+    if (width < INDENT + 20) width = INDENT + 20;
+    int first = 1;
+    for (const char *p = help; *p;) {
+        while (*p == ' ') p++;
+        size_t n = strcspn(p, " ");
+        if (!n) break;
+        size_t w = 0; /* code points: help text holds no wide characters */
+        for (size_t i = 0; i < n; i++) w += ((unsigned char)p[i] & 0xC0) != 0x80;
+        if (!first && col + 1 + w > width) {
+            printf("\n%*s", INDENT, "");
+            col = INDENT;
+            first = 1;
+        }
+        if (!first) { putchar(' '); col++; }
+        fwrite(p, 1, n, stdout);
+        col += w;
+        first = 0;
+        p += n;
+    }
+    putchar('\n');
+}
+
 void cli_help(const cli_command *cmd)
 {
     if (cli_doc_command(cmd)) return; /* sheaf help --roff / --completion (cli/doc.h) */
-    printf("usage: sheaf %s %s\n\n%s\n", cmd->name, cmd->synopsis, cmd->about);
+    size_t width = table_terminal_width();
+    if (!width) width = 80;
+    char usage[512];
+    snprintf(usage, sizeof usage, "usage: sheaf %s %s\n", cmd->name, cmd->synopsis);
+    table_wrap(stdout, usage, width);
+    putchar('\n');
+    table_wrap(stdout, cmd->about, width);
     if (cmd->options[0].name) printf("\noptions:\n");
     for (const cli_option *o = cmd->options; o->name; o++) {
         char left[64];
@@ -42,9 +78,9 @@ void cli_help(const cli_command *cmd)
         else
             snprintf(left, sizeof left, "    --%s%s%s", o->name, o->metavar ? " " : "",
                      o->metavar ? o->metavar : "");
-        printf("  %-26s %s\n", left, o->help);
+        help_line(left, o->help, width);
     }
-    printf("  %-26s %s\n", "-h, --help", "show this help");
+    help_line("-h, --help", "show this help", width);
     int renamed = 0;
     for (const cli_renamed *r = CLI_RENAMED; r->command; r++) {
         if (strcmp(r->command, cmd->name)) continue;

@@ -65,7 +65,7 @@ int cmd_project(int argc, char **argv)
         "mean and sample standard deviation (centred only with --basis covariance); a\n"
         "missing or non-numeric cell counts as the mean. A failed run writes nothing.",
         opts,
-        "  $ sheaf project flights.csv.gz --summary fleet.sheaf -k 2 --carry drone_id -o scores.csv\n"
+        "  $ sheaf project day.csv.gz --summary fleet.sheaf -k 3 --carry drone_id >pc.csv\n"
         "  $ sheaf project flights.csv --summary - -o - < fleet.sheaf | head\n"};
     char **pos;
     size_t npos;

@@ -116,7 +116,7 @@ int cmd_trim(int argc, char **argv)
         "their input order, keeping each field's bytes and quoting as they were.\n"
         "With --summary, the kept set is that of `sheaf screen` with the same options.",
         opts,
-        "  $ sheaf trim flights.csv.gz --summary fleet.sheaf --carry drone_id -o kept.csv.gz\n"
+        "  $ sheaf trim day.csv.gz --summary fleet.sheaf --carry drone_id -o kept.csv.gz\n"
         "  $ sheaf trim flights.csv --columns-from kept.txt -o - | head\n"};
     char **pos;
     size_t npos;

@@ -105,3 +105,16 @@ print("yes" if t.get("cut") is True and t["value"].startswith("xéé") and ex.st
 EOF2
 )
 check json_utf8_cut "$ok" [ "$ok" = yes ]
+
+# --help fits 80 columns in a file or a pipe (no width known), and the width
+# of a terminal (COLUMNS) when it has one: option help wraps under itself.
+for c in "" scan info merge corr screen trim pca project; do
+    wide=$(env -u COLUMNS $SHEAF $c --help 2>&1 | awk 'length($0) > 80 { n++ } END { print n + 0 }')
+    check "help_80.${c:-top}" "$wide lines wider than 80" [ "$wide" = 0 ]
+done
+wide=$(COLUMNS=64 $SHEAF screen --help | sed '/^examples:/,$d' |
+    awk 'length($0) > 64 { n++ } END { print n + 0 }')
+check help_columns_64.screen "$wide lines wider than 64 before the examples" [ "$wide" = 0 ]
+env -u COLUMNS $SHEAF screen --help >"$T/h80"
+check help_wraps_under_itself "the --fdr help does not go on under column 30" \
+    grep -qE '^ {29}below it is relevant' "$T/h80"

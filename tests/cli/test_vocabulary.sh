@@ -220,8 +220,9 @@ shard|read one of N byte ranges|scan
 declare -A on
 for cmd in $COMMANDS; do
     "$SHEAF" "$cmd" --help >"$T/help.$cmd"
-    # the option lines (before "renamed" and "examples")
-    sed -n '/^options:/,/^$/p' "$T/help.$cmd" | grep -o '^  \(-[a-zA-Z], \)\?    *--[a-z-]*\|^  -[a-zA-Z], --[a-z-]*' |
+    # the option lines (before "renamed" and "examples"): "  -x, --name" or
+    # "      --name"; a wrapped help line goes on under column 30
+    sed -n '/^options:/,/^$/p' "$T/help.$cmd" | grep -o '^      --[a-z-]*\|^  -[a-zA-Z], --[a-z-]*' |
         sed 's/^ *//' >"$T/opts.$cmd"
     while read -r line; do
         name=${line##*--}
