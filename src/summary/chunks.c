@@ -421,11 +421,7 @@ chunks *chunks_create(const chunks_options *o)
     w->piece_lines = CELLS_BUDGET / (sizeof(csv_span) * w->kept_fields) / SUMMARY_BLOCK_ROWS;
     w->piece_lines = (w->piece_lines ? w->piece_lines : 1) * SUMMARY_BLOCK_ROWS;
     unsigned threads = o->threads ? o->threads : 1;
-    /* One slot per thread; two with a wide co-moment matrix, whose C task
-     * (serial, and for a whole block every pair of columns) takes as long
-     * as several chunks' column tasks and holds its chunk's slot meanwhile:
-     * the spare slots let the other workers go on with the next chunks. */
-    w->nslots = threads > 1 && w->ncomo >= COMO_SPARE_SLOTS ? 2 * threads : threads;
+    w->nslots = threads;
     w->jobs = calloc(w->nslots, sizeof *w->jobs);
     int parts = w->jobs != NULL;
     for (unsigned i = 0; parts && i < w->nslots; i++)

@@ -18,13 +18,6 @@
 #define GROUPS_PER_THREAD 2
 #endif
 
-/* From this many co-moment columns on, two chunk slots per thread instead
- * of one (chunks_create).  The 500-column table at -j2: workers idle 0.52 s
- * a scan with 2 slots, 0.07 s with 4. */
-#ifndef COMO_SPARE_SLOTS
-#define COMO_SPARE_SLOTS 64
-#endif
-
 /* A slot's cell table is held within this many bytes (chunks_push cuts a
  * chunk of many short rows into pieces); a row of all its fields takes at
  * least a byte a field, so only short rows ever make a piece. */
