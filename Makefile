@@ -1,6 +1,7 @@
 # sheaf: build, test, demo.  See DEVELOPERS.md.
 
 CC      ?= cc
+OBJCOPY ?= objcopy
 OPT     ?= -O3
 CFLAGS  ?= $(OPT) -g
 CFLAGS  += -std=c11 -D_GNU_SOURCE -Wall -Wextra -Iinclude -Isrc -MMD -MP
@@ -82,7 +83,21 @@ $(SHARED): $(PIC_OBJ) src/libsheaf.map
 	ln -sf $(notdir $@) build/lib/$(SONAME)
 	ln -sf $(SONAME) build/lib/libsheaf.so
 
-shared: $(SHARED)
+# The static library a program links (installed as libsheaf.a): the same
+# hidden-visibility objects joined into one (ld -r) whose hidden symbols are
+# then made local (objcopy --localize-hidden), so that only sheaf_* is global
+# and the internal modules (json_*, table_*, csv_*, ...) cannot clash with a
+# program's own names.  The root libsheaf.a keeps them global: sheaf and the
+# unit tests reach the internals through it.
+STATIC := build/lib/libsheaf.a
+
+$(STATIC): $(PIC_OBJ)
+	@mkdir -p $(dir $@)
+	$(LD) -r -o build/lib/libsheaf-all.o $(PIC_OBJ)
+	$(OBJCOPY) --localize-hidden build/lib/libsheaf-all.o
+	rm -f $@ && $(AR) rcs $@ build/lib/libsheaf-all.o
+
+shared: $(SHARED) $(STATIC)
 
 # Man pages and the bash completion, written by sheaf from the option tables
 # that --help prints (src/cli/doc.h), so they cannot drift from it.  The
@@ -144,11 +159,11 @@ build/sheaf.pc: sheaf.pc.in FORCE
 
 FORCE:
 
-install: all $(SHARED) build/sheaf.pc
+install: all $(SHARED) $(STATIC) build/sheaf.pc
 	$(INSTALL) -d $(DESTDIR)$(BINDIR) $(DESTDIR)$(LIBDIR) $(DESTDIR)$(INCLUDEDIR) \
 	    $(DESTDIR)$(PKGCONFIGDIR) $(DESTDIR)$(MAN1DIR) $(DESTDIR)$(BASHCOMPDIR)
 	$(INSTALL) -m 755 sheaf $(DESTDIR)$(BINDIR)/sheaf
-	$(INSTALL) -m 644 libsheaf.a $(DESTDIR)$(LIBDIR)/libsheaf.a
+	$(INSTALL) -m 644 $(STATIC) $(DESTDIR)$(LIBDIR)/libsheaf.a
 	$(INSTALL) -m 755 $(SHARED) $(DESTDIR)$(LIBDIR)/libsheaf.so.$(SO_VERSION)
 	ln -sf libsheaf.so.$(SO_VERSION) $(DESTDIR)$(LIBDIR)/$(SONAME)
 	ln -sf $(SONAME) $(DESTDIR)$(LIBDIR)/libsheaf.so

@@ -63,12 +63,22 @@ if nm -D --defined-only "$D/usr/lib/libsheaf.so.$so_version" >"$T/exports" 2>"$T
 else
     fail exports_prefixed "nm -D failed: $(head -c 200 "$T/nm.err")"
 fi
-# ... while the library's internal modules (json_*, summary_*) are global in
-# libsheaf.a: the hiding is the version script's and the visibility's work.
-internal=$(nm -g --defined-only "$D/usr/lib/libsheaf.a" 2>/dev/null | awk 'NF == 3 && $2 == "T" { print $3 }' |
+# ... the installed static library defines the same global names and no
+# other (its internals are local: ld -r and objcopy --localize-hidden) ...
+nm -g --defined-only "$D/usr/lib/libsheaf.a" 2>/dev/null | awk 'NF == 3 { print $3 }' | sort >"$T/static"
+awk '{ print $NF }' "$T/exports" | sort >"$T/dynamic"
+check static_globals_prefixed "libsheaf.a defines globally: $(grep -v '^sheaf_' "$T/static" | head -n 8 | tr '\n' ' ')" \
+    test -s "$T/static" -a -z "$(grep -v '^sheaf_' "$T/static")"
+check static_equals_shared "$(diff "$T/static" "$T/dynamic" | head -n 4 | tr '\n' ' ')" \
+    cmp -s "$T/static" "$T/dynamic"
+# ... while the internal modules (json_*, summary_*) are global in the build's
+# own libsheaf.a (what sheaf and the unit tests link): the hiding is the
+# visibility's, the version script's and the localizing's work.
+internal=$(nm -g --defined-only libsheaf.a 2>/dev/null | awk 'NF == 3 && $2 == "T" { print $3 }' |
     grep -E '^(json|summary)_' | head -n 1)
-check internals_hidden "libsheaf.a defines '$internal' and the .so exports it" \
-    test -n "$internal" -a -z "$(awk -v s="$internal" '$NF == s' "$T/exports")"
+check internals_hidden "the build's libsheaf.a defines '$internal', the installed ones hide it" \
+    test -n "$internal" -a -z "$(awk -v s="$internal" '$NF == s' "$T/exports")" \
+    -a -z "$(grep -x -- "$internal" "$T/static")"
 
 # pkg-config, the files staged under DESTDIR.
 export PKG_CONFIG_PATH=$D/usr/lib/pkgconfig PKG_CONFIG_SYSROOT_DIR=$D
