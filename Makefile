@@ -335,7 +335,7 @@ help:
 	@echo "  bench                  the benchmarks (bench/run.sh), results in bench/RESULTS.md"
 	@echo "  fuzz                   long libFuzzer runs (FUZZ_SECONDS per harness, FUZZ_ONLY=NAME)"
 	@echo "  trust-run              the bad-input run (TRUST_REPORT=FILE writes its table)"
-	@echo "  shared                 build build/lib/libsheaf.so (soname $(SONAME), only sheaf_* exported)"
+	@echo "  shared                 build build/lib/libsheaf.so (soname $(SONAME)) and build/lib/libsheaf.a, only sheaf_* global"
 	@echo "  man                    write the man pages into build/man/ (part of all)"
 	@echo "  completion             write the bash completion into build/completion/ (part of all)"
 	@echo "  install                install under PREFIX (/usr/local) into DESTDIR: sheaf, libsheaf.a/.so,"
