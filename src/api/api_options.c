@@ -3,6 +3,7 @@
  * and a pca_options with the defaults of summary/scan.h, stats/screen.h and
  * stats/pca.h; every string is copied in. */
 #include "api/api.h"
+#include "out/keys.h"
 
 #include <stdarg.h>
 #include <stdio.h>
@@ -48,32 +49,13 @@ static const struct { const char *key, *call; } SETTING_CALLS[] = {
     {"no_header", "sheaf_options_set_header(0)"},
 };
 
-/* msg with every known {key} shown as its call; other braces are left as
- * they are (a column may be named "{x}"). */
-static void name_calls(char *msg, size_t cap)
+/* The call that sets a key, or NULL (out/keys.h). */
+static const char *setting_call(const char *key, size_t len)
 {
-    char out[sizeof ((sheaf_error *)0)->message];
-    size_t o = 0;
-    for (const char *p = msg; *p && o + 1 < sizeof out;) {
-        const char *close = *p == '{' ? strchr(p + 1, '}') : NULL;
-        const char *call = NULL;
-        if (close)
-            for (size_t i = 0; i < sizeof SETTING_CALLS / sizeof *SETTING_CALLS; i++)
-                if (strlen(SETTING_CALLS[i].key) == (size_t)(close - p - 1) &&
-                    !memcmp(SETTING_CALLS[i].key, p + 1, (size_t)(close - p - 1)))
-                    call = SETTING_CALLS[i].call;
-        if (call) {
-            size_t n = strlen(call);
-            if (o + n >= sizeof out) break;
-            memcpy(out + o, call, n);
-            o += n;
-            p = close + 1;
-        } else {
-            out[o++] = *p++;
-        }
-    }
-    out[o] = '\0';
-    snprintf(msg, cap, "%s", out);
+    for (size_t i = 0; i < sizeof SETTING_CALLS / sizeof *SETTING_CALLS; i++)
+        if (strlen(SETTING_CALLS[i].key) == len && !memcmp(SETTING_CALLS[i].key, key, len))
+            return SETTING_CALLS[i].call;
+    return NULL;
 }
 
 int api_fail(sheaf_error *err, int code, const char *fmt, ...)
@@ -87,7 +69,9 @@ int api_fail(sheaf_error *err, int code, const char *fmt, ...)
     /* One line: a newline inside a message ends it. */
     char *nl = strchr(err->message, '\n');
     if (nl) *nl = '\0';
-    name_calls(err->message, sizeof err->message);
+    char raw[sizeof err->message];
+    memcpy(raw, err->message, sizeof raw);
+    keys_replace(raw, err->message, sizeof err->message, setting_call);
     return code;
 }
 

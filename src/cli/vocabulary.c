@@ -12,6 +12,7 @@
 #include <string.h>
 
 #include "cli/cli.h"
+#include "out/keys.h"
 
 /* Library setting key -> what a command line says. */
 static const struct {
@@ -49,22 +50,7 @@ const char *cli_setting_option(const char *key, size_t len)
 
 void cli_name_settings(const char *in, char *out, size_t cap)
 {
-    size_t o = 0;
-    if (!cap) return;
-    while (*in && o + 1 < cap) {
-        const char *close = *in == '{' ? strchr(in + 1, '}') : NULL;
-        const char *opt = close ? cli_setting_option(in + 1, (size_t)(close - in - 1)) : NULL;
-        if (!opt) {
-            out[o++] = *in++;
-            continue;
-        }
-        size_t n = strlen(opt);
-        if (n > cap - 1 - o) n = cap - 1 - o;
-        memcpy(out + o, opt, n);
-        o += n;
-        in = close + 1;
-    }
-    out[o] = '\0';
+    keys_replace(in, out, cap, cli_setting_option);
 }
 
 const cli_renamed CLI_RENAMED[] = {
