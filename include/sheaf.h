@@ -193,16 +193,17 @@ SHEAF_API void sheaf_scan_free(sheaf_scan *sc);
 /* A file by path: plain, gzip or zstd, detected from its bytes; "-" is
  * standard input. */
 SHEAF_API int sheaf_scan_path(sheaf_scan *sc, const char *path, sheaf_error *err);
-/* Reads f from where it stands to its end (the bytes as they are: plain
- * text, not decompressed) as one stream named `name` (copied; used in
- * messages and the source record).  f stays open and the caller's. */
+/* Reads f from where it stands to its end as one stream named `name`
+ * (copied; used in messages and the source record): plain, gzip or zstd,
+ * detected from its first bytes as for a file.  f stays open and the
+ * caller's. */
 SHEAF_API int sheaf_scan_stream(sheaf_scan *sc, FILE *f, const char *name, sheaf_error *err);
-/* len bytes of plain text held in memory, as one stream named `name`.  The
- * bytes are read during the call only. */
+/* len bytes held in memory (plain, gzip or zstd, detected), as one stream
+ * named `name`.  The bytes are read during the call only. */
 SHEAF_API int sheaf_scan_memory(sheaf_scan *sc, const void *data, size_t len, const char *name,
                                 sheaf_error *err);
-/* Bytes fed in pieces of any size: begin a stream named `name`, feed, end.
- * Each piece is read during the call only. */
+/* Plain text fed in pieces of any size: begin a stream named `name`, feed,
+ * end.  Each piece is read during the call only. */
 SHEAF_API int sheaf_scan_begin(sheaf_scan *sc, const char *name, sheaf_error *err);
 SHEAF_API int sheaf_scan_feed(sheaf_scan *sc, const void *data, size_t len, sheaf_error *err);
 SHEAF_API int sheaf_scan_end(sheaf_scan *sc, sheaf_error *err);

@@ -26,6 +26,9 @@
 #include <unistd.h>
 #include <utime.h>
 
+#include <zlib.h>
+#include <zstd.h>
+
 #include "sheaf.h"
 
 static const char GREENHOUSE[] =
@@ -309,6 +312,72 @@ Test(api, four_ways_in_give_byte_identical_summaries)
     }
     for (int way = 1; way < 4; way++)
         cr_expect(same_bytes(out[0], out[way]), "way %d differs from the path's summary", way);
+}
+
+/* Compressed bytes: a gzip and a zstd file of the table (zlib, libzstd), each
+ * scanned by path, through a FILE * and from memory, give one summary per
+ * format, byte for byte; and its figures are those of the plain table. */
+Test(api, compressed_bytes_through_every_way_in)
+{
+    char gz[128], zs[128], out[3][128];
+    const size_t len = sizeof GREENHOUSE - 1;
+    in_dir(gz, sizeof gz, "greenhouse.csv.gz");
+    gzFile g = gzopen(gz, "wb6");
+    cr_assert_not_null(g);
+    cr_assert_eq(gzwrite(g, GREENHOUSE, (unsigned)len), (int)len);
+    cr_assert_eq(gzclose(g), Z_OK);
+    in_dir(zs, sizeof zs, "greenhouse.csv.zst");
+    size_t cap = ZSTD_compressBound(len);
+    char *z = malloc(cap);
+    cr_assert_not_null(z);
+    size_t zlen = ZSTD_compress(z, cap, GREENHOUSE, len, 3);
+    cr_assert(!ZSTD_isError(zlen));
+    write_file(zs, z, zlen);
+    free(z);
+    sheaf_summary *plain = greenhouse();
+    const char *files[] = {gz, zs};
+    struct utimbuf epoch = {0, 0};
+    for (int k = 0; k < 2; k++) {
+        cr_assert_eq(utime(files[k], &epoch), 0);
+        size_t n;
+        char *bytes = read_file(files[k], &n);
+        for (int way = 0; way < 3; way++) {
+            sheaf_error err;
+            sheaf_options *o = options(NULL, 1);
+            sheaf_scan *sc = sheaf_scan_create(o, &err);
+            sheaf_options_free(o);
+            cr_assert_not_null(sc, "%s", err.message);
+            int rc;
+            if (way == 0) {
+                rc = sheaf_scan_path(sc, files[k], &err);
+            } else if (way == 1) {
+                FILE *f = fopen(files[k], "rb");
+                cr_assert_not_null(f);
+                rc = sheaf_scan_stream(sc, f, files[k], &err);
+                fclose(f);
+            } else {
+                rc = sheaf_scan_memory(sc, bytes, n, files[k], &err);
+            }
+            cr_assert_eq(rc, SHEAF_OK, "%s way %d: %s", files[k], way, err.message);
+            sheaf_summary *s = sheaf_scan_finish(sc, &err);
+            cr_assert_not_null(s, "%s", err.message);
+            sheaf_scan_free(sc);
+            cr_expect_eq(sheaf_summary_rows(s), sheaf_summary_rows(plain));
+            size_t c = column(s, "light_klux");
+            cr_expect_eq(sheaf_column_mean(s, c), sheaf_column_mean(plain, column(plain, "light_klux")),
+                         "%s way %d: the mean differs from the plain table's", files[k], way);
+            char name[32];
+            snprintf(name, sizeof name, "z%d-%d.sheaf", k, way);
+            cr_assert_eq(sheaf_summary_write(s, in_dir(out[way], sizeof out[way], name), &err),
+                         SHEAF_OK, "%s", err.message);
+            sheaf_summary_free(s);
+        }
+        free(bytes);
+        for (int way = 1; way < 3; way++)
+            cr_expect(same_bytes(out[0], out[way]), "%s: way %d differs from the path's summary",
+                      files[k], way);
+    }
+    sheaf_summary_free(plain);
 }
 
 /* ---- figures against numpy ---------------------------------------------------------- */

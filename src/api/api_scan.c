@@ -4,16 +4,16 @@
  * through scan_begin / scan_feed / scan_end, as the caller's own feeding is;
  * the summary depends on the bytes alone, not on how they were split. */
 #include "api/api.h"
+#include "io/source.h"
 
 #include <errno.h>
 #include <stdlib.h>
 #include <stdio.h>
 #include <string.h>
+#include <sys/stat.h>
 
 #include "summary/scan.h"
 
-/* Bytes read from a FILE * at a time. */
-#define STREAM_PIECE_BYTES (1u << 20)
 
 sheaf_scan *sheaf_scan_create(const sheaf_options *o, sheaf_error *err)
 {
@@ -125,15 +125,52 @@ int sheaf_scan_end(sheaf_scan *sc, sheaf_error *err)
     return scanned(sc, scan_end(sc->sc), err);
 }
 
+/* Bytes in memory, read by the source as a file would be. */
+typedef struct {
+    const unsigned char *p;
+    size_t left;
+} memory_bytes;
+
+static ssize_t pull_memory(void *ctx, void *buf, size_t cap)
+{
+    memory_bytes *m = ctx;
+    size_t n = m->left < cap ? m->left : cap;
+    memcpy(buf, m->p, n);
+    m->p += n;
+    m->left -= n;
+    return (ssize_t)n;
+}
+
+static ssize_t pull_stream(void *ctx, void *buf, size_t cap)
+{
+    FILE *f = ctx;
+    size_t n = fread(buf, 1, cap, f);
+    if (n == 0 && ferror(f)) return -1; /* errno from the read, when it set one */
+    return (ssize_t)n;
+}
+
+/* A whole stream through a pull source (io/source.h): plain, gzip or zstd,
+ * detected by its first bytes as for a file. */
+static int scan_pulled(sheaf_scan *sc, const char *name, source_pull pull, void *ctx,
+                       uint64_t size, sheaf_error *err)
+{
+    char msg[SHEAF_ERROR_BYTES] = "";
+    errno = 0;
+    source *src = source_open_pull(name, pull, ctx, size, msg, sizeof msg);
+    if (!src) return fail_scan(sc, errno == ENOMEM ? SHEAF_ERR_MEMORY : SHEAF_ERR_INPUT, msg, err);
+    int rc = scanned(sc, scan_source(sc->sc, src), err);
+    source_close(src);
+    return rc;
+}
+
 int sheaf_scan_memory(sheaf_scan *sc, const void *data, size_t len, const char *name,
                       sheaf_error *err)
 {
     int rc = unusable(sc, "sheaf_scan_memory", 0, err);
     if (rc) return rc;
     if (!data && len) return api_fail(err, SHEAF_ERR_USAGE, "sheaf_scan_memory: no bytes (NULL)");
-    if ((rc = sheaf_scan_begin(sc, name ? name : "(memory)", err))) return rc;
-    if ((rc = sheaf_scan_feed(sc, data, len, err))) return rc;
-    return sheaf_scan_end(sc, err);
+    memory_bytes m = {data, len};
+    return scan_pulled(sc, name ? name : "(memory)", pull_memory, &m, len, err);
 }
 
 int sheaf_scan_stream(sheaf_scan *sc, FILE *f, const char *name, sheaf_error *err)
@@ -141,26 +178,13 @@ int sheaf_scan_stream(sheaf_scan *sc, FILE *f, const char *name, sheaf_error *er
     int rc = unusable(sc, "sheaf_scan_stream", 0, err);
     if (rc) return rc;
     if (!f) return api_fail(err, SHEAF_ERR_USAGE, "sheaf_scan_stream: no stream (NULL)");
-    if (!name) name = "(stream)";
-    char *buf = malloc(STREAM_PIECE_BYTES);
-    if (!buf) return api_fail(err, SHEAF_ERR_MEMORY, "out of memory");
-    rc = sheaf_scan_begin(sc, name, err);
-    while (rc == SHEAF_OK) {
-        size_t n = fread(buf, 1, STREAM_PIECE_BYTES, f);
-        if (n) rc = sheaf_scan_feed(sc, buf, n, err);
-        if (n < STREAM_PIECE_BYTES) {
-            if (rc == SHEAF_OK && ferror(f)) {
-                int e = errno;
-                char msg[512];
-                snprintf(msg, sizeof msg, "%s: read error: %s", name,
-                         e ? strerror(e) : "stream error");
-                rc = fail_scan(sc, SHEAF_ERR_INPUT, msg, err);
-            }
-            break;
-        }
-    }
-    free(buf);
-    return rc == SHEAF_OK ? sheaf_scan_end(sc, err) : rc;
+    /* The size of a regular file not yet read from, as a path scan records it. */
+    struct stat st;
+    uint64_t size = 0;
+    int fd = fileno(f);
+    if (fd >= 0 && fstat(fd, &st) == 0 && S_ISREG(st.st_mode) && ftello(f) == 0)
+        size = (uint64_t)st.st_size;
+    return scan_pulled(sc, name ? name : "(stream)", pull_stream, f, size, err);
 }
 
 sheaf_summary *sheaf_scan_finish(sheaf_scan *sc, sheaf_error *err)

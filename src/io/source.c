@@ -30,7 +30,9 @@
 #define DIRECT_BYTES (64u << 10) /* read() straight into a caller's room this large */
 
 struct source {
-    int fd;                   /* input descriptor */
+    int fd;                   /* input descriptor (-1 with a pull function) */
+    source_pull pull;         /* reads raw bytes instead of fd, or NULL */
+    void *pull_ctx;           /* its context */
     int owns_fd;              /* close fd on source_close */
     char *path;               /* as given ("-" for stdin) */
     source_format kind;       /* detected format */
@@ -126,11 +128,12 @@ static void fail(source *s, const char *fmt, const char *detail)
 static ssize_t read_raw(source *s, uint8_t *buf, size_t cap)
 {
     for (;;) {
-        ssize_t n = read(s->fd, buf, cap);
-        if (n < 0 && errno == EINTR) continue;
+        errno = 0;
+        ssize_t n = s->pull ? s->pull(s->pull_ctx, buf, cap) : read(s->fd, buf, cap);
+        if (n < 0 && errno == EINTR && !s->pull) continue;
         if (n < 0) {
             snprintf(s->err, sizeof s->err, "%s: read error at byte %llu: %s", s->path,
-                     (unsigned long long)s->raw_offset, strerror(errno));
+                     (unsigned long long)s->raw_offset, errno ? strerror(errno) : "stream error");
             return -1;
         }
         if (n == 0) { s->raw_eof = 1; return 0; }
@@ -162,7 +165,7 @@ static source *source_new(const char *path, int fd, int owns)
     if (!s->path || !s->raw || !s->hash) { source_close(s); return NULL; }
     XXH3_64bits_reset(s->hash);
     struct stat st;
-    if (fstat(fd, &st) == 0) {
+    if (fd >= 0 && fstat(fd, &st) == 0) {
         if (S_ISREG(st.st_mode)) s->raw_size = (uint64_t)st.st_size;
         s->mtime = (int64_t)st.st_mtime;
     }
@@ -173,16 +176,12 @@ static int detect(source *s, char *err, size_t errlen)
 {
     /* Gather at least 4 bytes (or all there is) to read the magic. */
     while (!s->raw_eof && s->raw_len < 4) {
-        ssize_t n = read(s->fd, s->raw + s->raw_len, RAW_BYTES - s->raw_len);
-        if (n < 0 && errno == EINTR) continue;
+        ssize_t n = read_raw(s, s->raw + s->raw_len, RAW_BYTES - s->raw_len);
         if (n < 0) {
-            snprintf(err, errlen, "%s: cannot read: %s", s->path, strerror(errno));
+            snprintf(err, errlen, "%s", s->err);
             return -1;
         }
-        if (n == 0) { s->raw_eof = 1; break; }
-        XXH3_64bits_update(s->hash, s->raw + s->raw_len, (size_t)n);
         s->raw_len += (size_t)n;
-        s->raw_offset += (uint64_t)n;
     }
     const uint8_t *m = s->raw;
     if (s->raw_len >= 2 && m[0] == 0x1f && m[1] == 0x8b) {
@@ -226,6 +225,27 @@ source *source_open(const char *path, char *err, size_t errlen)
         errno = ENOMEM;
         return NULL;
     }
+    if (detect(s, err, errlen) != 0) {
+        int e = errno;
+        source_close(s);
+        errno = e;
+        return NULL;
+    }
+    return s;
+}
+
+source *source_open_pull(const char *name, source_pull pull, void *ctx, uint64_t size, char *err,
+                         size_t errlen)
+{
+    source *s = source_new(name, -1, 0);
+    if (!s) {
+        snprintf(err, errlen, "%s: out of memory", name);
+        errno = ENOMEM;
+        return NULL;
+    }
+    s->pull = pull;
+    s->pull_ctx = ctx;
+    s->raw_size = size;
     if (detect(s, err, errlen) != 0) {
         int e = errno;
         source_close(s);
@@ -303,17 +323,9 @@ static ssize_t raw_top_up(source *s, size_t margin)
     s->raw_pos = 0;
     s->raw_len = have;
     while (!s->raw_eof && s->raw_len < margin) {
-        ssize_t n = read(s->fd, s->raw + s->raw_len, RAW_BYTES - s->raw_len);
-        if (n < 0 && errno == EINTR) continue;
-        if (n < 0) {
-            snprintf(s->err, sizeof s->err, "%s: read error at byte %llu: %s", s->path,
-                     (unsigned long long)s->raw_offset, strerror(errno));
-            return -1;
-        }
-        if (n == 0) { s->raw_eof = 1; break; }
-        XXH3_64bits_update(s->hash, s->raw + s->raw_len, (size_t)n);
+        ssize_t n = read_raw(s, s->raw + s->raw_len, RAW_BYTES - s->raw_len);
+        if (n < 0) return -1;
         s->raw_len += (size_t)n;
-        s->raw_offset += (uint64_t)n;
     }
     return (ssize_t)s->raw_len;
 }

@@ -24,6 +24,14 @@ typedef struct source source;
 /* Opens path ("-" for standard input).  Returns NULL and writes a one-line
  * message naming the file into err on failure. */
 source *source_open(const char *path, char *err, size_t errlen);
+/* A source of bytes the caller reads (a FILE *, memory): up to cap raw
+ * bytes into buf; the count, 0 at the end, or -1 (errno may say why). */
+typedef ssize_t (*source_pull)(void *ctx, void *buf, size_t cap);
+/* Opens the bytes pull reads, named `name` in messages and records, plain,
+ * gzip or zstd as for a file; `size` is their raw size when known (else 0),
+ * the modification time 0.  pull and ctx are used until source_close. */
+source *source_open_pull(const char *name, source_pull pull, void *ctx, uint64_t size, char *err,
+                         size_t errlen);
 /* Opens a plain (uncompressed) regular file positioned at byte `start`.
  * Fails with a message when the file is compressed or not seekable. */
 source *source_open_at(const char *path, uint64_t start, char *err, size_t errlen);
