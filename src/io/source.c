@@ -201,6 +201,16 @@ static int detect(source *s, char *err, size_t errlen)
     return 0;
 }
 
+/* s with its format detected, or NULL (s closed, errno kept) on failure. */
+static source *detected(source *s, char *err, size_t errlen)
+{
+    if (detect(s, err, errlen) == 0) return s;
+    int e = errno;
+    source_close(s);
+    errno = e;
+    return NULL;
+}
+
 source *source_open(const char *path, char *err, size_t errlen)
 {
     int fd = 0, owns = 0;
@@ -225,13 +235,7 @@ source *source_open(const char *path, char *err, size_t errlen)
         errno = ENOMEM;
         return NULL;
     }
-    if (detect(s, err, errlen) != 0) {
-        int e = errno;
-        source_close(s);
-        errno = e;
-        return NULL;
-    }
-    return s;
+    return detected(s, err, errlen);
 }
 
 source *source_open_pull(const char *name, source_pull pull, void *ctx, uint64_t size, char *err,
@@ -246,13 +250,7 @@ source *source_open_pull(const char *name, source_pull pull, void *ctx, uint64_t
     s->pull = pull;
     s->pull_ctx = ctx;
     s->raw_size = size;
-    if (detect(s, err, errlen) != 0) {
-        int e = errno;
-        source_close(s);
-        errno = e;
-        return NULL;
-    }
-    return s;
+    return detected(s, err, errlen);
 }
 
 source *source_open_at(const char *path, uint64_t start, char *err, size_t errlen)
