@@ -177,11 +177,18 @@ for page in "$man_dir"/*.1; do
         check "man_l_$name" "$(head -c 300 <<<"$out")" test -z "$out"
     fi
 done
+# help_options CMD: the option lines of CMD's --help, "-x, --name" or
+# "--name" (options with and without a letter; not the renamed old
+# spellings, and not wrapped help lines, which go on under column 30).
+help_options() {
+    "$D/usr/bin/sheaf" "$1" --help | sed -n '/^options:/,/^$/p' |
+        grep -oE '^  -[a-zA-Z], --[a-z0-9-]+|^      --[a-z0-9-]+' | sed 's/^ *//'
+}
 command -v mandoc >/dev/null || skip mandoc_lint "mandoc not installed (make deps)"
 for c in $commands; do
     rendered=$(MANWIDTH=200 groff -man -Tascii -P-c -rLL=200n "$man_dir/sheaf-$c.1" 2>/dev/null | sed 's/.\x08//g')
     missing=
-    for o in $("$D/usr/bin/sheaf" "$c" --help | sed "/^renamed/,/^$/d" | grep -oE '^  (-[a-zA-Z], )?--[a-z0-9-]+' | grep -oE -- '--[a-z0-9-]+'); do
+    for o in $(help_options "$c" | grep -oE -- '--[a-z0-9-]+'); do
         grep -q -- "$o" <<<"$rendered" || missing="$missing $o"
     done
     check "man_options_$c" "sheaf-$c.1 lacks$missing" test -z "$missing"
@@ -216,7 +223,7 @@ check complete_no_files_for_count "sheaf scan -j <TAB> offers '$(complete_words 
 for c in $commands; do
     offered=$(complete_words sheaf "$c" -)
     missing=
-    for o in $("$D/usr/bin/sheaf" "$c" --help | sed "/^renamed/,/^$/d" | grep -oE '^  (-[a-zA-Z], )?--[a-z0-9-]+' | grep -oE -- '-[a-zA-Z]|--[a-z0-9-]+'); do
+    for o in $(help_options "$c" | grep -oE -- '-[a-zA-Z]|--[a-z0-9-]+'); do
         grep -qx -- "$o" <<<"$offered" || missing="$missing $o"
     done
     check "complete_options_$c" "not offered:$missing" test -z "$missing"
