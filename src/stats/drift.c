@@ -198,15 +198,17 @@ static void numeric_drift(const summary *base, const summary *next, drift_column
         c->psi += (b - a) * log(b / a);
     }
 
-    /* KS over the union of keys: exact at bucket ends, bounded inside. */
-    double lowd = 0, high = 0, fp = 0, fq = 0;
+    /* KS over the union of keys: exact at bucket ends, bounded inside.  The
+     * cumulative counts are integers, so equal stores give exactly 0. */
+    double lowd = 0, high = 0;
+    uint64_t cp = 0, cq = 0;
+    double np_ = (double)p.total, nq = (double)q.total;
     for (size_t a = 0, b = 0; a < p.n || b < q.n;) {
         int64_t k = a >= p.n ? q.key[b] : b >= q.n ? p.key[a] : p.key[a] < q.key[b] ? p.key[a] : q.key[b];
-        double ap = fp, aq = fq;
-        if (a < p.n && p.key[a] == k) fp += (double)p.count[a++] / (double)p.total;
-        if (b < q.n && q.key[b] == k) fq += (double)q.count[b++] / (double)q.total;
-        if (a == p.n) fp = 1; /* no rounding left over at the end */
-        if (b == q.n) fq = 1;
+        double ap = (double)cp / np_, aq = (double)cq / nq;
+        if (a < p.n && p.key[a] == k) cp += p.count[a++];
+        if (b < q.n && q.key[b] == k) cq += q.count[b++];
+        double fp = (double)cp / np_, fq = (double)cq / nq;
         double d = fabs(fp - fq);
         if (d > lowd) lowd = d;
         if (fp - aq > high) high = fp - aq;
