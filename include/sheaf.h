@@ -453,7 +453,7 @@ SHEAF_API int sheaf_drift_found(const sheaf_drift *d);
 /* Columns compared: the baseline's in its order, then those only in the new. */
 SHEAF_API size_t sheaf_drift_column_count(const sheaf_drift *d);
 /* The name of flag bit b (0 <= b < 13: appeared, vanished, kind, psi, ks,
- * mean_shift, missing_share, non_numeric_share, distinct_share, categories,
+ * mean_shift, missing_share, non_numeric_share, distinct, categories,
  * tv, relevance, rank), or NULL. */
 SHEAF_API const char *sheaf_drift_flag_name(unsigned b);
 

@@ -403,8 +403,9 @@ int cmd_drift(int argc, char **argv)
          "(default 0.1)", &tv, NULL},
         {"max-r-change", 0, "D", "change of Pearson r at which a pair of columns moved "
          "(default 0.2)", &r_change, NULL},
-        {"fdr", 0, "LEVEL", "false discovery rate: a column whose q-value crossed it drifts "
-         "(default 0.05; with the same target in both)", &fdr, NULL},
+        {"fdr", 0, "LEVEL", "false discovery rate: a column relevant in one night (q at most "
+         "LEVEL/10) and not in the other (q above LEVEL) drifts (default 0.05; with the same "
+         "target in both)", &fdr, NULL},
         {"max-rank-change", 0, "K", "places a kept column may move in the relevance ranking "
          "(default 3; 0: not checked)", &rank_change, NULL},
         CLI_TARGET_OPTION(target),

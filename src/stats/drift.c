@@ -15,7 +15,7 @@
 
 const char *const drift_flag_names[DRIFT_NFLAGS] = {
     "appeared",          "vanished",       "kind",       "psi",       "ks",
-    "mean_shift",        "missing_share",  "non_numeric_share",       "distinct_share",
+    "mean_shift",        "missing_share",  "non_numeric_share",       "distinct",
     "categories",        "tv",             "relevance",  "rank",
 };
 
@@ -357,6 +357,7 @@ static void side_of(const summary *s, long col, const drift_options *o, drift_si
     d->mean = summary_mean(s, c);
     d->sd = summary_sd(s, c);
     d->numbers = summary_numbers(s, c);
+    d->present = present;
     d->overflowed = summary_high_cardinality(s, c);
 }
 
@@ -376,7 +377,17 @@ static void compare_column(const summary *base, const summary *next, drift_colum
     if (fabs(c->next.missing_share - c->base.missing_share) >= m) c->flags |= DRIFT_MISSING;
     if (fabs(c->next.non_numeric_share - c->base.non_numeric_share) >= m)
         c->flags |= DRIFT_NON_NUMERIC;
-    if (fabs(c->next.distinct_share - c->base.distinct_share) >= m) c->flags |= DRIFT_DISTINCT;
+    /* The expected distinct count of a sample is concave in its size and 0
+     * at 0, so from n to n' cells it stays within [d min(1, n'/n),
+     * d max(1, n'/n)]: only what lies beyond counts, as a share of the new
+     * night's cells. */
+    double db = c->base.distinct, dn = c->next.distinct;
+    double pb = (double)c->base.present, pn = (double)c->next.present;
+    if (pb > 0 && pn > 0 && isfinite(db) && isfinite(dn)) {
+        double r = pn / pb, lo = db * (r < 1 ? r : 1), hi = db * (r > 1 ? r : 1);
+        double excess = dn < lo ? lo - dn : dn > hi ? dn - hi : 0;
+        if (excess >= m * pn) c->flags |= DRIFT_DISTINCT;
+    }
     if (c->base.kind != c->next.kind) { c->flags |= DRIFT_KIND; return; }
     if (c->base.kind == KIND_NUMERIC) numeric_drift(base, next, c, o, oom);
     else text_drift(base, next, c, o, oom);
@@ -456,8 +467,12 @@ static int relevance(const summary *base, const summary *next, drift_result *r,
     for (size_t i = 0; i < r->ncolumns; i++) {
         drift_column *c = &r->columns[i];
         if (!c->base.ranked || !c->next.ranked) continue;
-        int in_b = c->base.q <= o->fdr, in_n = c->next.q <= o->fdr; /* NaN: untested, not relevant */
-        if (in_b != in_n) c->flags |= DRIFT_RELEVANCE;
+        /* Relevant at q <= fdr (NaN: untested, not relevant); the crossing
+         * counts from q <= fdr / DRIFT_Q_MARGIN on the relevant side, so
+         * that a column near the level does not flip on noise. */
+        double qb = c->base.q, qn = c->next.q, strong = o->fdr / DRIFT_Q_MARGIN;
+        if ((qb <= strong && !(qn <= o->fdr)) || (qn <= strong && !(qb <= o->fdr)))
+            c->flags |= DRIFT_RELEVANCE;
         if (o->max_rank_change && c->base.rank && c->next.rank) {
             size_t a = c->base.rank, b = c->next.rank;
             if ((a > b ? a - b : b - a) >= o->max_rank_change) c->flags |= DRIFT_RANK;

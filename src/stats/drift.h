@@ -34,8 +34,14 @@
  *    (mean_new - mean_base) / sd_base (+-inf when the baseline is constant
  *    and the means differ, 0 when they do not).
  * For every column present in both: the missing share (of rows), the share
- * of non-numeric cells (of present cells) and the distinct count with its
- * share of present cells (exact from the value table, else HyperLogLog).
+ * of non-numeric cells (of present cells) and the distinct count (exact
+ * from the value table, else HyperLogLog).  The expected distinct count of
+ * a sample is concave in the sample's size and 0 at 0, so d(n)/n never
+ * grows: from n present cells to n', the same distribution keeps it within
+ * [d min(1, n'/n), d max(1, n'/n)].  The distinct count drifts when it lies
+ * beyond that range by max_share_change of the new night's present cells
+ * or more (a sensor that starts reporting whole numbers, a column that
+ * starts holding IDs); at equal sizes, when it moved by that share.
  * For a column categorical in both, from the value tables: the categories
  * that appeared (held by the new table only, listed when the baseline's
  * table never overflowed) or vanished (the other way round), Pearson's
@@ -49,7 +55,10 @@
  * Pairs of columns numeric in both and in both co-moment matrices whose
  * Pearson r moved by at least max_r_change.  With the same target in both,
  * the screen (stats/screen.h) is run on each: a column whose q crossed the
- * level fdr, or that is kept in both and moved max_rank_change places or
+ * level fdr (q <= fdr / DRIFT_Q_MARGIN in one night and q > fdr, or
+ * untested, in the other: without the margin a column that is not relevant
+ * is found relevant in one of two nights about twice the level's rate, and
+ * flips), or that is kept in both and moved max_rank_change places or
  * more.  Columns that appeared, vanished or changed kind are flagged.
  *
  * A column drifts when any of its flags is set; the thresholds are the
@@ -67,6 +76,7 @@
 #define DRIFT_LISTED 8   /* categories listed per column that appeared (or vanished) */
 #define DRIFT_PSI_MODERATE 0.1 /* common practice (no source): below, no change */
 #define DRIFT_PSI_MAJOR 0.25   /* common practice (no source): above, a major shift */
+#define DRIFT_Q_MARGIN 10      /* relevance crossed: q <= fdr / 10 in one night, > fdr in the other */
 
 /* Why a column drifts (flags of drift_column). */
 enum {
@@ -78,16 +88,18 @@ enum {
     DRIFT_SHIFT = 32,         /* |mean shift| >= max_shift baseline sd */
     DRIFT_MISSING = 64,       /* |change of the missing share| >= max_share_change */
     DRIFT_NON_NUMERIC = 128,  /* |change of the non-numeric share| >= max_share_change */
-    DRIFT_DISTINCT = 256,     /* |change of the distinct share| >= max_share_change */
+    DRIFT_DISTINCT = 256,     /* the distinct count left the range the change of the
+                                 present cells explains by >= max_share_change of them */
     DRIFT_CATEGORIES = 512,   /* a category that appeared or vanished holds
                                  >= max_share_change of its night's present cells */
     DRIFT_TV = 1024,          /* total-variation distance >= max_tv */
-    DRIFT_RELEVANCE = 2048,   /* q crossed fdr (relevant in one night only) */
+    DRIFT_RELEVANCE = 2048,   /* q crossed fdr (q <= fdr / DRIFT_Q_MARGIN in one night,
+                                 > fdr in the other) */
     DRIFT_RANK = 4096         /* kept in both, rank moved >= max_rank_change */
 };
 #define DRIFT_NFLAGS 13
 /* The flags' names, bit b at index b: appeared, vanished, kind, psi, ks,
- * mean_shift, missing_share, non_numeric_share, distinct_share, categories,
+ * mean_shift, missing_share, non_numeric_share, distinct, categories,
  * tv, relevance, rank. */
 extern const char *const drift_flag_names[DRIFT_NFLAGS];
 
@@ -96,7 +108,7 @@ typedef struct {
     double max_psi;          /* 0.25 */
     double max_ks;           /* 0.1 */
     double max_shift;        /* 0.5 baseline standard deviations */
-    double max_share_change; /* 0.05: missing, non-numeric and distinct shares, categories */
+    double max_share_change; /* 0.05: missing and non-numeric shares, distinct count, categories */
     double max_tv;           /* 0.1 */
     double max_r_change;     /* 0.2 */
     double fdr;              /* 0.05: the screen's q level */
@@ -123,6 +135,7 @@ typedef struct {
     double distinct_share;   /* distinct / present cells */
     double mean, sd;         /* of the numbers */
     uint64_t numbers;        /* finite numbers (the bins' total) */
+    uint64_t present;        /* present cells */
     int overflowed;          /* the value table overflowed */
     int ranked;              /* the relevance figures below are set */
     double q;                /* the screen's q-value (NaN: untested) */

@@ -20,12 +20,13 @@ References, named beside each check:
     whole-file scan: zero drift), next to the checks above.
 
 Data: numpy default_rng with fixed seeds.  Planted: a mean shift of 0.8 sd,
-a doubled spread, the missing share from 2% to 20%, a category that appears
+a doubled spread, values reported as whole numbers (the distinct count), the missing share from 2% to 20%, a category that appears
 with a fifth of the rows, a pair whose r falls from 0.8 to 0, a column that
 vanishes, one that appears and one that turns from numbers to text.  The
 others are drawn from the same distribution both nights.  Over 20 seeds the
 planted changes must be found every time and the false alarms on the quiet
-columns are counted (docs/drift.md reports them).
+columns are counted (docs/drift.md reports them); the new night has twice
+the rows there, so that the distinct rule is checked across sizes.
 Prints one "PASS name" / "FAIL name: why" line per check and exits 0.
 """
 import json
@@ -51,7 +52,8 @@ PLANTED = {  # column -> flags that must be set
     "x_gone": {"vanished"},
     "x_added": {"appeared"},
     "x_kind": {"kind"},
-    "p2": {"relevance"},  # its r with p1 (relevant to y) falls to 0: relevant no more
+    "p2": {"relevance"},
+    "x_round": {"distinct"},  # the same values, reported as whole numbers  # its r with p1 (relevant to y) falls to 0: relevant no more
 }
 MOVED = [("p1", "p2"), ("p2", "y")]  # the pairs whose r moves (y is numeric 0/1)
 
@@ -77,9 +79,11 @@ def night(seed, which, n):
         num["x_added"] = r.normal(0, 1, n)
     else:
         num["x_gone"] = r.normal(0, 1, n)
+    num["x_round"] = r.normal(0, 10, n)
     cells = {}
     for k, v in num.items():
-        cells[k] = np.array(["" if np.isnan(x) else "%.6g" % x for x in v], dtype=object)
+        f = "%.0f" if k == "x_round" and two else "%.6g"
+        cells[k] = np.array(["" if np.isnan(x) else f % x for x in v], dtype=object)
     cells["t_new"] = (r.choice(["a", "b", "c", "d"], n, p=[0.4, 0.25, 0.15, 0.2]) if two else
                       r.choice(["a", "b", "c"], n, p=[0.5, 0.3, 0.2])).astype(object)
     cells["t_same"] = r.choice(["u", "v", "w", "x", "y", "z"], n).astype(object)
@@ -284,7 +288,7 @@ alarms, alarm_list, quiet_checks = 0, [], 0
 SEEDS, NS = 20, 3000
 for seed in range(1, SEEDS + 1):
     a, _ = night(100 + seed, 1, NS)
-    b, _ = night(100 + seed, 2, NS)
+    b, _ = night(100 + seed, 2, 2 * NS)  # twice the rows: the distinct rule scales
     pa, pb = os.path.join(TMP, "s1.csv"), os.path.join(TMP, "s2.csv")
     write(pa, a)
     write(pb, b)
