@@ -129,13 +129,15 @@ static void print_text(FILE *f, const drift_report *d)
         for (size_t i = 0; i < r->ncolumns; i++) {
             const drift_column *c = &r->columns[i];
             if (!(c->flags & (DRIFT_RELEVANCE | DRIFT_RANK))) continue;
-            if (!listed++) fprintf(f, "\nrelevance to %s (q at or below %g, rank among kept):\n", r->target, o->fdr);
+            if (!listed++)
+                fprintf(f, "\nrelevance to %s (relevant at q <= %g; rank among the kept columns, 0 "
+                           "when not kept):\n", r->target, o->fdr);
             char qa[32], qb[32];
             table_format_number(qa, sizeof qa, c->base.q, 3);
             table_format_number(qb, sizeof qb, c->next.q, 3);
             fprintf(f, "  %s: q %s > %s", c->name, qa, qb);
             if (c->base.rank || c->next.rank) fprintf(f, ", rank %zu > %zu", c->base.rank, c->next.rank);
-            fputs(" (0: not kept)\n", f);
+            fputc('\n', f);
         }
     }
     if (r->npairs) {

@@ -147,3 +147,35 @@ for cols in 60 80 100; do
         else fail "$name" "a line of $w columns at COLUMNS=$cols"; fi
     done
 done
+
+# Relevance: four features whose strength order reverses between nights
+# move by 3 places (flag rank); a summary without the target says why
+# relevance was not compared.
+"$PY" - "$T" <<'EOF2'
+import math, random, sys
+d = sys.argv[1]
+for night, w in ((1, (2.0, 1.4, 0.9, 0.5)), (2, (0.5, 0.9, 1.4, 2.0))):
+    r = random.Random(10 + night)
+    with open("%s/r%d.csv" % (d, night), "w") as f:
+        f.write("f1,f2,f3,f4,noise,y\n")
+        for i in range(4000):
+            x = [r.gauss(0, 1) for _ in range(5)]
+            s = sum(a * b for a, b in zip(w, x))
+            f.write("%s,%d\n" % (",".join("%.4f" % v for v in x), r.random() < 1 / (1 + math.exp(-s))))
+EOF2
+$SHEAF scan -q "$T/r1.csv" -o "$T/r1.sheaf" -t y && $SHEAF scan -q "$T/r2.csv" -o "$T/r2.sheaf" -t y &&
+    $SHEAF scan -q "$T/r2.csv" -o "$T/r2none.sheaf" || fail setup "relevance scans"
+run $SHEAF drift "$T/r1.sheaf" "$T/r2.sheaf" -f csv
+check relevance.rank_moved_3 "$(cut -d, -f1-3,26-29 "$T/out" | tr '\n' '|')" \
+    eval 'grep -q "^f1,1,.*rank" "$T/out" && grep -q "^f4,1,.*rank" "$T/out" && ! grep -q "^noise,1" "$T/out"'
+run $SHEAF drift "$T/r1.sheaf" "$T/r2.sheaf" --max-rank-change 0 -f csv
+check relevance.rank_check_off "$(cut -d, -f1-3 "$T/out" | tr '\n' '|')" eval '! grep -q "rank" <(cut -d, -f3 "$T/out" | tail -n +2)'
+run $SHEAF drift "$T/r1.sheaf" "$T/r2none.sheaf"
+check relevance.note_without_target "exit $RC: $(tail -n 3 "$T/out" | tr '\n' '|')" \
+    grep -q "relevance not compared: only one summary has a target" "$T/out"
+
+# The vocabulary: the names drift shares with other commands keep their letters.
+$SHEAF drift --help >"$T/help"
+check vocabulary.shared_letters "$(grep -- '--format\|--target' "$T/help" | tr '\n' '|')" \
+    eval 'grep -q "^  -f, --format" "$T/help" && grep -q "^  -t, --target" "$T/help" &&
+          grep -q "^      --numeric-share" "$T/help" && grep -q "^      --fdr" "$T/help"'
