@@ -63,6 +63,11 @@
  *
  * A column drifts when any of its flags is set; the thresholds are the
  * options.  Read-only over both summaries; nothing is printed.
+ *
+ * Sources (recalled from memory, as in docs/methods.md): Kolmogorov (1933)
+ * and Smirnov (1948) for the two-sample distance, Pearson (1900) for the
+ * chi-squared test; the PSI and its reading thresholds are common practice
+ * without a source.  docs/drift.md has the tests behind every bound.
  */
 #ifndef SHEAF_DRIFT_H
 #define SHEAF_DRIFT_H
