@@ -280,6 +280,29 @@ if os.path.exists(old):
                       os.path.join(TMP, "lockers.sheaf")])
     refused("missing_case_rule", [], "byte for byte", old, os.path.join(TMP, "lockers.sheaf"))
 
+# ---- value tables that overflowed: TV is a lower bound -------------------------
+
+r = np.random.default_rng(5)
+lv = np.array(["L%02d" % i for i in range(100)], dtype=object)
+w_new = np.linspace(1, 3, 100)
+ov = {1: r.choice(lv, 4000), 2: r.choice(lv, 4000, p=w_new / w_new.sum())}
+for k in (1, 2):
+    with open(os.path.join(TMP, "ov%d.csv" % k), "w") as f:
+        f.write("lvl\n" + "".join(v + "\n" for v in ov[k]))
+    rc, _, err = run([SHEAF, "scan", "-q", os.path.join(TMP, "ov%d.csv" % k), "-o",
+                      os.path.join(TMP, "ov%d.sheaf" % k), "--max-levels", "40", "--categorical", "lvl"])
+rc, d, err = drift(os.path.join(TMP, "ov1.sheaf"), os.path.join(TMP, "ov2.sheaf"))
+t = d["columns"][0]["text"] if d else None
+cats = sorted(lv)
+pa = np.array([np.mean(ov[1] == c) for c in cats])
+pb = np.array([np.mean(ov[2] == c) for c in cats])
+tv = 0.5 * np.abs(pa - pb).sum()
+print("# overflowed tables: sheaf TV %r (a lower bound), numpy TV %r" % (t and t["tv"], tv))
+check("overflow.tv_lower_bound_of_numpy_tv",
+      t is not None and not t["tv_exact"] and t["chi2"] is None and 0 <= t["tv"] <= tv + 1e-12 and
+      not t["appeared"]["known"] and not t["vanished"]["known"],
+      "exit %d, sheaf %s, numpy TV %r" % (rc, t and (t["tv"], t["tv_exact"], t["chi2"]), tv))
+
 # ---- 20 seeds: planted found, false alarms counted ----------------------------
 
 found = {k: 0 for k in PLANTED}
