@@ -279,6 +279,7 @@ static void json_column(json_out *j, const drift_column *c, int relevance)
         json_key(j, "psi"); json_number(j, c->psi);
         json_key(j, "ks"); json_number(j, c->ks);
         json_key(j, "ks_bound"); json_number(j, c->ks_bound);
+        json_key(j, "ks_exact"); json_bool(j, c->ks_exact);
         json_key(j, "bucket_level"); if (c->bins) json_int(j, c->level); else json_null(j);
         cli_json_numbers(j, "edges", c->edges, c->bins ? c->bins - 1 : 0);
         json_key(j, "base_counts");

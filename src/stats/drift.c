@@ -8,6 +8,7 @@
 #include <string.h>
 #include <strings.h>
 
+#include "io/number.h"
 #include "stats/screen.h"
 #include "stats/stat.h"
 #include "summary/access.h"
@@ -148,6 +149,71 @@ static double share_of(uint64_t count, uint64_t total)
     return (count ? (double)count : 0.5) / (double)total;
 }
 
+/* A distinct number and its cells. */
+typedef struct {
+    double value;
+    uint64_t count;
+} counted;
+
+static int by_value(const void *pa, const void *pb)
+{
+    double a = ((const counted *)pa)->value, b = ((const counted *)pb)->value;
+    return (a > b) - (a < b);
+}
+
+/* The column's finite numbers with their counts, ascending and merged by
+ * value, when its value table holds every one: never overflowed, no label
+ * cut, and the labels that read as finite numbers count exactly the
+ * column's numbers (as summary_quantiles' exact path).  Returns how many
+ * (*out malloc'ed), 0 when the table does not hold them all, -1 when out
+ * of memory. */
+static long exact_numbers(const summary *s, size_t col, counted **out)
+{
+    *out = NULL;
+    const values *v = summary_values(s, col);
+    if (!v || values_overflowed(v) || !summary_numbers(s, col)) return 0;
+    size_t k = values_levels(v);
+    values_entry *e = malloc((k ? k : 1) * sizeof *e);
+    counted *x = malloc((k ? k : 1) * sizeof *x);
+    if (!e || !x) { free(e); free(x); return -1; }
+    size_t n = summary_top(s, col, k, e), m = 0;
+    uint64_t total = 0;
+    for (size_t i = 0; i < n; i++) {
+        number_decimal d;
+        if (e[i].cut) { m = 0; total = 0; break; }
+        if (number_parse(e[i].label, e[i].label_len, &d) != NUMBER_FINITE) continue;
+        x[m++] = (counted){d.value, e[i].count};
+        total += e[i].count;
+    }
+    free(e);
+    if (n < k || total != summary_numbers(s, col)) { free(x); return 0; }
+    qsort(x, m, sizeof *x, by_value);
+    size_t w = 0;
+    for (size_t i = 0; i < m; i++) {
+        if (w && x[w - 1].value == x[i].value) x[w - 1].count += x[i].count;
+        else x[w++] = x[i];
+    }
+    *out = x;
+    return (long)w;
+}
+
+/* The exact two-sample D of the empirical CDFs of two counted samples. */
+static double exact_ks(const counted *a, size_t na, const counted *b, size_t nb)
+{
+    uint64_t ta = 0, tb = 0, ca = 0, cb = 0;
+    for (size_t i = 0; i < na; i++) ta += a[i].count;
+    for (size_t i = 0; i < nb; i++) tb += b[i].count;
+    double d = 0;
+    for (size_t i = 0, j = 0; i < na || j < nb;) {
+        double v = i >= na ? b[j].value : j >= nb ? a[i].value : a[i].value < b[j].value ? a[i].value : b[j].value;
+        if (i < na && a[i].value == v) ca += a[i++].count;
+        if (j < nb && b[j].value == v) cb += b[j++].count;
+        double g = fabs((double)ca / (double)ta - (double)cb / (double)tb);
+        if (g > d) d = g;
+    }
+    return d;
+}
+
 static void numeric_drift(const summary *base, const summary *next, drift_column *c,
                           const drift_options *o, int *oom)
 {
@@ -218,6 +284,16 @@ static void numeric_drift(const summary *base, const summary *next, drift_column
     c->ks_bound = high > lowd ? high : lowd;
     marginal_free(&p);
     marginal_free(&q);
+    /* Both value tables hold every number: D itself. */
+    counted *xa = NULL, *xb = NULL;
+    long na = exact_numbers(base, bc, &xa), nb2 = na > 0 ? exact_numbers(next, nc, &xb) : 0;
+    if (na < 0 || nb2 < 0) *oom = 1;
+    else if (na > 0 && nb2 > 0) {
+        c->ks = c->ks_bound = exact_ks(xa, (size_t)na, xb, (size_t)nb2);
+        c->ks_exact = 1;
+    }
+    free(xa);
+    free(xb);
     if (c->psi >= o->max_psi) c->flags |= DRIFT_PSI;
     if (c->ks >= o->max_ks) c->flags |= DRIFT_KS;
 }

@@ -29,7 +29,10 @@
  *    cumulative shares before and after it, F lies in [A_F, B_F] and G in
  *    [A_G, B_G], so D <= ks_bound = max over b of max(B_F - A_G, B_G - A_F).
  *    The bucket resolution thus bounds D to [ks, ks_bound], an interval no
- *    wider than the largest share one bucket holds in either night.
+ *    wider than the largest share one bucket holds in either night.  When
+ *    both value tables hold every number of the column (never overflowed,
+ *    no label cut: at most max_levels distinct numbers), D is computed from
+ *    them exactly and ks = ks_bound = D.
  *  - The shift of the mean in baseline standard deviations,
  *    (mean_new - mean_base) / sd_base (+-inf when the baseline is constant
  *    and the means differ, 0 when they do not).
@@ -158,6 +161,7 @@ typedef struct {
     int level;               /* the common bucket level of the bins */
     double psi;
     double ks, ks_bound;     /* ks <= D <= ks_bound */
+    int ks_exact;            /* both value tables hold every number: ks = ks_bound = D */
     double mean_shift;       /* in baseline standard deviations */
     /* Categorical in both (counts 0 and NaN otherwise). */
     int text;                /* the text figures below are set */

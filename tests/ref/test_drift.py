@@ -181,6 +181,12 @@ for name in sorted(set(rb) & set(rn)):
     d_ks = stats.ks_2samp(xb, xn).statistic
     check("ks.%s.scipy_within_bound" % name, nm["ks"] - 1e-12 <= d_ks <= nm["ks_bound"] + 1e-12,
           "scipy %r, sheaf [%r, %r]" % (d_ks, nm["ks"], nm["ks_bound"]))
+    if nm["ks_exact"]:  # both value tables hold every number: D itself
+        check("ks.%s.exact_equals_scipy" % name, abs(nm["ks"] - d_ks) <= 1e-12 and nm["ks_bound"] == nm["ks"],
+              "scipy %r, sheaf %r" % (d_ks, nm["ks"]))
+    check("ks.%s.exact_when_tables_hold_every_number" % name,
+          nm["ks_exact"] == (len(np.unique(xb)) <= 1024 and len(np.unique(xn)) <= 1024),
+          "ks_exact %r, distinct %d / %d" % (nm["ks_exact"], len(np.unique(xb)), len(np.unique(xn))))
     kbk, knk = bucket_keys(xb, level), bucket_keys(xn, level)
     _, cnt_b = np.unique(kbk, return_counts=True)
     _, cnt_n = np.unique(knk, return_counts=True)
