@@ -259,7 +259,6 @@ static void json_categories(json_out *j, const char *key, size_t n, const drift_
 
 static void json_column(json_out *j, const drift_column *c, int relevance)
 {
-    char b[200];
     json_object_begin(j);
     json_key(j, "name"); json_string(j, c->name);
     json_key(j, "drifts"); json_bool(j, c->flags != 0);
@@ -268,7 +267,6 @@ static void json_column(json_out *j, const drift_column *c, int relevance)
     for (int k = 0; k < DRIFT_NFLAGS; k++)
         if (c->flags & (1u << k)) json_string(j, drift_flag_names[k]);
     json_array_end(j);
-    (void)b;
     json_side(j, "base", &c->base, relevance);
     json_side(j, "new", &c->next, relevance);
     json_key(j, "numeric");
