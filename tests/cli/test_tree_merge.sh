@@ -52,20 +52,19 @@ if ! "$PY" -c 'import numpy' 2>/dev/null; then skip tree_merge "numpy not found 
 if [ ! -f libsheaf.a ]; then fail tree_merge.libsheaf "libsheaf.a not built (run make first)"; exit 0; fi
 
 # --------------------------------------------------------------- the table
-# A day of meter readings from a small invented grid: a feeder name (7
-# values), a meter id (20,000 values: its value table overflows), a load, a
-# temperature with missing cells and a count.
-"$PY" - "$T/grid.csv" $((NPIECES * PER)) <<'EOF'
+# Random, from a fixed seed: a group name (7 values), a key of 20,000 values
+# (its value table overflows), a normal column with a few large values, one
+# with empty and NA cells, and small integers.
+"$PY" - "$T/table.csv" $((NPIECES * PER)) <<'EOF'
 import random, sys
 rnd = random.Random(17)
 with open(sys.argv[1], "w", newline="") as f:
-    f.write("feeder,meter,load_kw,temp_c,trips\n")
+    f.write("grp,key,x,y,k\n")
     for i in range(int(sys.argv[2])):
-        temp = "" if i % 13 == 5 else ("NA" if i % 29 == 3 else "%.3f" % rnd.uniform(-8, 36))
-        f.write("%s,m%05d,%.4f,%s,%d\n" % (rnd.choice(["north", "south", "east", "west", "mill",
-                                                        "harbour", "ridge"]),
-                                          i, rnd.gauss(50, 12) * (1 + (i % 97 == 0) * 40),
-                                          temp, rnd.randint(0, 9)))
+        y = "" if i % 13 == 5 else ("NA" if i % 29 == 3 else "%.3f" % rnd.uniform(-8, 36))
+        f.write("%s,k%05d,%.4f,%s,%d\n" % (rnd.choice(["a", "b", "c", "d", "e", "f", "g"]), i,
+                                          rnd.gauss(50, 12) * (1 + (i % 97 == 0) * 40),
+                                          y, rnd.randint(0, 9)))
 EOF
 
 # ------------------------------------------------- 10,000 small summaries
@@ -150,7 +149,7 @@ fi
 W=$T/day
 mkdir -p "$W/parts"
 t0=$(date +%s.%N)
-(cd "$T" && ./pieces grid.csv "$PER" day/parts) >"$T/out" 2>"$T/err"
+(cd "$T" && ./pieces table.csv "$PER" day/parts) >"$T/out" 2>"$T/err"
 RC=$?
 t1=$(date +%s.%N)
 check pieces.exit_0 "exit $RC: $(err_text)" [ "$RC" -eq 0 ]
@@ -175,7 +174,7 @@ check tree.exit_0 "exit $RC: $(err_text)" [ "$RC" -eq 0 ]
 ng=$(find "$W/groups" -name 'g*.sheaf' | wc -l)
 check tree.groups "$ng group summaries, want 100" [ "$ng" -eq 100 ]
 echo "# tree merge (100 groups of 100 on 2 job slots, then the 100): $(echo "$t1 - $t0" | bc) s"
-run "$SHEAF" scan -q "$T/grid.csv" -o "$T/single.sheaf"
+run "$SHEAF" scan -q "$T/table.csv" -o "$T/single.sheaf"
 check single.exit_0 "exit $RC: $(err_text)" [ "$RC" -eq 0 ]
 
 # ---------------------------------------------------------- comparisons
@@ -228,7 +227,7 @@ bad = []
 if d["rows"] != len(rows): bad.append("rows %d vs %d" % (d["rows"], len(rows)))
 if len(d["sources"]) != int(sys.argv[2]): bad.append("sources %d" % len(d["sources"]))
 cols = {c["name"]: c for c in d["columns"]}
-for name in ("load_kw", "temp_c", "trips"):
+for name in ("x", "y", "k"):
     c = cols[name]
     cells = [r[name] for r in rows]
     x = np.array([float(v) for v in cells if v not in ("", "NA")])
@@ -238,10 +237,10 @@ for name in ("load_kw", "temp_c", "trips"):
     for k, ref in (("mean", x.mean()), ("variance", x.var(ddof=1)), ("min", x.min()), ("max", x.max())):
         if abs(c[k] - ref) > 1e-10 * max(abs(ref), 1.0):
             bad.append("%s %s %r vs numpy %r" % (name, k, c[k], ref))
-top = {e["value"]: e["count"] for e in cols["feeder"]["top"]}
+top = {e["value"]: e["count"] for e in cols["grp"]["top"]}
 ref = {}
-for r in rows: ref[r["feeder"]] = ref.get(r["feeder"], 0) + 1
-if top != ref: bad.append("feeder counts %s vs %s" % (top, ref))
-print("; ".join(bad[:4]))' "$T/grid.csv" "$NPIECES" 2>&1)
+for r in rows: ref[r["grp"]] = ref.get(r["grp"], 0) + 1
+if top != ref: bad.append("grp counts %s vs %s" % (top, ref))
+print("; ".join(bad[:4]))' "$T/table.csv" "$NPIECES" 2>&1)
 check tree_vs_numpy.counts_and_moments "$why" [ -z "$why" ]
 exit 0
