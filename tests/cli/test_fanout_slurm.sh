@@ -18,8 +18,9 @@
 # Reference: sheaf's own whole-file scan (counts exact, floating-point values
 # to 1e-12 relative, absolute below 1), and the records counted by Python's
 # csv module for the row total.  Needs root (slurmd starts jobs as their
-# user); otherwise, or when a daemon is missing or does not come up, prints
-# "SKIP slurm_cluster: reason" and counts nothing as failed.  Run from the
+# user); when not root, or a program or the memory is missing, prints "SKIP
+# slurm_cluster: reason" and counts nothing as failed.  As root with the
+# packages installed, a cluster that does not come up is a FAIL.  Run from the
 # repository root after make (tests/run.sh does both).
 set -u
 cd "$(dirname "$0")/../.." || exit 0
@@ -77,16 +78,17 @@ stop_cluster() {
     PIDS=()
 }
 trap 'stop_cluster; [ -n "${KEEP:-}" ] || rm -rf "$T"' EXIT
-# started: NAME PID LOG: is PID alive after its start?  (SKIP otherwise)
+# started: NAME PID LOG: is PID alive after its start?  As root with the
+# packages in place the cluster must come up: FAIL otherwise.
 started() {
     sleep 0.3
     kill -0 "$2" 2>/dev/null && return 0
-    skip slurm_cluster "$1 did not start: $(tail -n 2 "$3" 2>/dev/null | tr '\n' '|' | cut -c1-200)"
+    fail slurm_cluster "$1 did not start: $(tail -n 2 "$3" 2>/dev/null | tr '\n' '|' | cut -c1-200)"
     exit 0
 }
 
 mungekey --create --keyfile="$C/key/munge.key" >"$C/log/mungekey.out" 2>&1 ||
-    { skip slurm_cluster "mungekey failed: $(head -c 200 "$C/log/mungekey.out")"; exit 0; }
+    { fail slurm_cluster "mungekey failed: $(head -c 200 "$C/log/mungekey.out")"; exit 0; }
 munged -F --socket="$C/run/munge.sock" --key-file="$C/key/munge.key" --pid-file="$C/run/munged.pid" \
     --log-file="$C/log/munged.log" --seed-file="$C/key/munged.seed" >"$C/log/munged.out" 2>&1 &
 PIDS+=($!)
@@ -144,7 +146,7 @@ for _ in $(seq 1 60); do
     sleep 0.5
 done
 if [ "$state" != idle ]; then
-    skip slurm_cluster "the node did not come up (state '$state'): $(grep -h error "$C"/log/slurm*.log | tail -n 2 | tr '\n' '|' | cut -c1-250)"
+    fail slurm_cluster "the node did not come up (state '$state'): $(grep -h error "$C"/log/slurm*.log | tail -n 2 | tr '\n' '|' | cut -c1-250)"
     exit 0
 fi
 pass slurm_cluster.node_idle

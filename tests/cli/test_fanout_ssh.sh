@@ -16,8 +16,9 @@
 # to 1e-12 relative, absolute below 1), and the records counted by Python's
 # csv module for the row total.  The sessions log in as the user who runs
 # the test (root in CI; an sshd that is not root can log in no one else).
-# When sshd, ssh, parallel or rsync is missing or sshd does not answer, prints
-# "SKIP ssh_fanout: reason" and counts nothing as failed.  Run from the
+# When sshd, ssh, parallel or rsync is missing, or (not root) sshd does not
+# let the user in, prints "SKIP ssh_fanout: reason" and counts nothing as
+# failed; as root, a login that fails is a FAIL.  Run from the
 # repository root after make (tests/run.sh does both).
 set -u
 cd "$(dirname "$0")/../.." || exit 0
@@ -115,8 +116,11 @@ for _ in $(seq 1 40); do
     grep -q "Permission denied" "$S/ssh.err" && break # it answers, and says no
     sleep 0.25
 done
+# Not root, sshd may refuse the user (no shell, locked account): SKIP.  As
+# root, sshd must let root in with the key: FAIL otherwise.
 if [ -z "$ok" ]; then
-    skip ssh_fanout "no login through the sshd on 127.0.0.1:$PORT: $(tail -n 2 "$S/sshd.log" "$S/ssh.err" | tr '\n' '|' | cut -c1-250)"
+    [ "$(id -u)" -eq 0 ] && f=fail || f=skip
+    $f ssh_fanout "no login through the sshd on 127.0.0.1:$PORT: $(tail -n 2 "$S/sshd.log" "$S/ssh.err" | tr '\n' '|' | cut -c1-250)"
     exit 0
 fi
 remote_sheaf=$(ssh -F "$S/ssh_config" node2 'command -v sheaf' 2>&1)
