@@ -21,8 +21,8 @@
 # user); when not root, or a program or the memory is missing, prints "SKIP
 # slurm_cluster: reason" and counts nothing as failed.  As root with the
 # packages installed, a cluster that does not come up is a FAIL.  KEEP=1
-# keeps the scratch directory (slurm.conf, daemon and job logs) afterwards.  Run from the
-# repository root after make (tests/run.sh does both).
+# keeps the scratch directory (slurm.conf, daemon and job logs) afterwards.
+# Run from the repository root after make (tests/run.sh does both).
 set -u
 cd "$(dirname "$0")/../.." || exit 0
 . tests/cli/common.sh
