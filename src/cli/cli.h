@@ -236,5 +236,6 @@ int cmd_screen(int argc, char **argv);
 int cmd_trim(int argc, char **argv);
 int cmd_pca(int, char **);
 int cmd_project(int, char **);
+int cmd_page(int, char **);
 
 #endif

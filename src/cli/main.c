@@ -33,6 +33,7 @@ static const command COMMANDS[] = {
     {"trim", cmd_trim, "write the table with only the kept columns"},
     {"pca", cmd_pca, "principal components of the correlation or covariance matrix"},
     {"project", cmd_project, "scores of the leading principal components, row by row"},
+    {"page", cmd_page, "one self-contained HTML page of charts about a summary"},
 };
 
 static void help(FILE *f)
