@@ -482,6 +482,7 @@ static void chart_scree(html_buf *b, const report *r, int standalone)
     const double w = 560, h = 270, left = 48, right = 48, top = 30, bottom = 52;
     double pw = w - left - right, ph = h - top - bottom;
     double emax = p->eigenvalues[0] > 0 ? p->eigenvalues[0] : 1, mean = p->total / (double)p->p;
+    if (pca_broken_stick(1, p->p) * p->total > emax) emax = pca_broken_stick(1, p->p) * p->total;
     svg_begin(b, w, h, "Scree chart: eigenvalues, cumulative share, Kaiser and broken-stick guides",
               standalone);
     double bw = pw / (double)n;
