@@ -113,7 +113,11 @@ start=$(date +%s%N)
 "$SHEAF" page "$T/w100.sheaf" -o "$T/w100.html" --svg "$T/w100.svg"
 ms=$((($(date +%s%N) - start) / 1000000))
 echo "   page of 100 columns: $ms ms"
-check wide.100_columns_under_a_second "$ms ms" [ "$ms" -lt 1000 ]
+if [ "$SHEAF" = ./sheaf ]; then
+    check wide.100_columns_under_a_second "$ms ms" [ "$ms" -lt 1000 ]
+else
+    skip wide.100_columns_under_a_second "timed only for the optimised ./sheaf, not $SHEAF"
+fi
 page_check w130 "$T/w130.sheaf"
 cells=$(grep -c 'class="cell"' "$T/w130.html")
 check wide.130_columns_show_100 "$cells cells" [ "$cells" = 10000 ]
