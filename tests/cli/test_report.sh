@@ -109,12 +109,13 @@ wide 100 3000 "$T/w100.csv"
 wide 130 2000 "$T/w130.csv"
 "$SHEAF" scan "$T/w100.csv" --target state -o "$T/w100.sheaf" -q
 "$SHEAF" scan "$T/w130.csv" --target state -o "$T/w130.sheaf" -q
-start=$(date +%s%N)
-"$SHEAF" page "$T/w100.sheaf" -o "$T/w100.html" --svg "$T/w100.svg"
-ms=$((($(date +%s%N) - start) / 1000000))
-echo "   page of 100 columns: $ms ms"
+# CPU time (user + system), which other work on a shared machine does not inflate
+/usr/bin/time -f '%e %U %S' -o "$T/time" "$SHEAF" page "$T/w100.sheaf" -o "$T/w100.html" --svg "$T/w100.svg"
+read -r wall user sys <"$T/time"
+ms=$(echo "($user + $sys) * 1000 / 1" | bc)
+echo "   page of 100 columns: $ms ms of CPU, $wall s wall"
 if [ "$SHEAF" = ./sheaf ]; then
-    check wide.100_columns_under_a_second "$ms ms" [ "$ms" -lt 1000 ]
+    check wide.100_columns_under_a_second "$ms ms of CPU" [ "$ms" -lt 1000 ]
 else
     skip wide.100_columns_under_a_second "timed only for the optimised ./sheaf, not $SHEAF"
 fi
