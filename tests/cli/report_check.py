@@ -126,6 +126,21 @@ def main():
             if not close(num(v[k]), None if w is None else float(w), absolute=slack):
                 bad.append(f"{name} cell {k}: {v[k]} vs {w}")
     check("column_table_equals_info_json", not bad and len(body) == len(cols), "; ".join(bad)[:400])
+    # the text shown is the carried number rounded (4 significant digits, 3 past 1e6 or below 1e-3)
+    bad = []
+    for tr in body:
+        for td in list(tr)[4:9]:
+            v, text = num(td.attrib["data-v"]), "".join(td.itertext())
+            if math.isnan(v):
+                ok = text == "\u2013"
+            else:
+                try:
+                    ok = abs(float(text) - v) <= 5e-3 * abs(v)
+                except ValueError:
+                    ok = False
+            if not ok:
+                bad.append(f"{text!r} for {v}")
+    check("column_table_text_is_the_number_rounded", not bad, "; ".join(bad)[:300])
 
     rel = [e for e in els if e.attrib.get("class") == "rel"]
     if info.get("target"):
