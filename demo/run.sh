@@ -61,5 +61,5 @@ echo "see README.md for the cautions that apply to the p-values."
 
 echo
 echo "== sheaf page: one HTML page of charts about the night (opens in any browser, offline)"
-./sheaf page "$out/legs.sheaf" -o "$out/night.html" --svg "$out/charts"
+./sheaf page "$out/legs.sheaf" -o "$out/night.html" --write-svg "$out/charts"
 echo "   $(realpath "$out/night.html")"

@@ -79,7 +79,7 @@ int cmd_page(int argc, char **argv)
     const char *out = NULL, *svg = NULL, *target = NULL, *q = NULL, *redund = NULL, *share = NULL;
     const cli_option opts[] = {
         {"output", 'o', "FILE", "the HTML file to write (- : standard output)", &out, NULL},
-        {"svg", 0, "DIR", "also write each chart as its own SVG file into the folder DIR", &svg, NULL},
+        {"write-svg", 0, "DIR", "also write each chart as its own SVG file into the folder DIR", &svg, NULL},
         CLI_TARGET_OPTION(target),
         {"fdr", 0, "LEVEL", "false discovery rate of the relevance chart (default 0.05)", &q, NULL},
         {"redundancy", 0, "R", "|r| at which two kept columns are redundant (default 0.95)", &redund, NULL},
@@ -87,19 +87,19 @@ int cmd_page(int argc, char **argv)
         {0},
     };
     const cli_command cmd = {
-        "page", "SUMMARY.sheaf -o REPORT.html [--svg DIR] [options]",
+        "page", "SUMMARY.sheaf -o REPORT.html [--write-svg DIR] [options]",
         "Writes one self-contained HTML page about a summary, from the summary alone:\n"
         "an overview, a sortable table of the columns with a small histogram of each,\n"
         "the relevance of each column to the target, the correlation heat map in\n"
         "clustered order with its dendrogram, the class-conditional distributions of\n"
         "the best columns, the principal components' scree chart and loadings, and\n"
         "the cautions. The page loads nothing from anywhere and reads without\n"
-        "scripts. With --svg, each chart is also written as an SVG file of its own.\n"
-        "The screen inside uses screen's defaults unless --fdr or --redundancy say\n"
-        "otherwise.",
+        "scripts. With --write-svg, each chart is also written as an SVG file of its\n"
+        "own. The screen inside uses screen's defaults unless --fdr or --redundancy\n"
+        "say otherwise.",
         opts,
         "  $ sheaf page fleet.sheaf -o fleet.html\n"
-        "  $ sheaf page fleet.sheaf -o fleet.html --svg fleet-charts\n"};
+        "  $ sheaf page fleet.sheaf -o fleet.html --write-svg fleet-charts\n"};
     char **pos;
     int rc = cli_parse_single(&cmd, argc, argv, &pos);
     if (rc >= 0) return rc;
@@ -111,11 +111,11 @@ int cmd_page(int argc, char **argv)
     report_options o;
     report_options_defaults(&o);
     if (!out && !svg) {
-        cli_error("page", "name the page to write with -o FILE (or the chart folder with --svg DIR)");
+        cli_error("page", "name the page to write with -o FILE (or the chart folder with --write-svg DIR)");
         goto done;
     }
     if (svg && !strcmp(svg, "-")) {
-        cli_error("page", "--svg needs a folder name");
+        cli_error("page", "--write-svg needs a folder name");
         goto done;
     }
     if (q && cli_parse_unit("page", "--fdr", q, &o.screen.q_level)) goto done;

@@ -34,7 +34,7 @@ check damaged_summary_exit_4_output_untouched "exit $RC: $(err_text)" \
 run "$SHEAF" page "$T/iris.sheaf" -o "$T/no/such/dir/x.html"
 check unwritable_output_exit_1 "exit $RC: $(err_text)" [ "$RC" = 1 -a ! -e "$T/no" ]
 : >"$T/afile"
-run "$SHEAF" page "$T/iris.sheaf" --svg "$T/afile"
+run "$SHEAF" page "$T/iris.sheaf" --write-svg "$T/afile"
 check svg_into_a_file_refused "exit $RC: $(err_text)" [ "$RC" = 1 -a ! -s "$T/afile" ]
 run "$SHEAF" page "$T/iris.sheaf" -o -
 check stdout_output "exit $RC, $(head -c 40 "$T/out")" [ "$RC" = 0 ] && head -n 1 "$T/out" | grep -q '^<!DOCTYPE html>'
@@ -43,7 +43,7 @@ ls -A "$T" | grep -q '^\..*sheaf-\|\.tmp\.' && fail no_temporary_files_left "$(l
 # ---- the open datasets: structure and numbers ------------------------------------
 page_check() { # TAG SUMMARY
     rm -rf "$T/$1.svg"
-    run "$SHEAF" page "$2" -o "$T/$1.html" --svg "$T/$1.svg"
+    run "$SHEAF" page "$2" -o "$T/$1.html" --write-svg "$T/$1.svg"
     if [ "$RC" != 0 ]; then fail "$1.page" "exit $RC: $(err_text)"; return; fi
     "$PY" tests/cli/report_check.py "$SHEAF" "$2" "$T/$1.html" "$T/$1.svg" "$1"
 }
@@ -110,7 +110,7 @@ wide 130 2000 "$T/w130.csv"
 "$SHEAF" scan "$T/w100.csv" --target state -o "$T/w100.sheaf" -q
 "$SHEAF" scan "$T/w130.csv" --target state -o "$T/w130.sheaf" -q
 # CPU time (user + system), which other work on a shared machine does not inflate
-/usr/bin/time -f '%e %U %S' -o "$T/time" "$SHEAF" page "$T/w100.sheaf" -o "$T/w100.html" --svg "$T/w100.svg"
+/usr/bin/time -f '%e %U %S' -o "$T/time" "$SHEAF" page "$T/w100.sheaf" -o "$T/w100.html" --write-svg "$T/w100.svg"
 read -r wall user sys <"$T/time"
 ms=$(echo "($user + $sys) * 1000 / 1" | bc)
 echo "   page of 100 columns: $ms ms of CPU, $wall s wall"

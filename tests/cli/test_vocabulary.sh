@@ -216,7 +216,7 @@ missing|spellings of a missing value|scan
 max-levels|exact value counts per column|scan
 bucket-budget|occupied value buckets per column|scan
 shard|read one of N byte ranges|scan
-svg|a folder each chart is written to as an SVG file|page
+write-svg|a folder each chart is written to as an SVG file|page
 '
 declare -A on
 for cmd in $COMMANDS; do
