@@ -123,3 +123,13 @@ page_check w130 "$T/w130.sheaf"
 cells=$(grep -c 'class="cell"' "$T/w130.html")
 check wide.130_columns_show_100 "$cells cells" [ "$cells" = 10000 ]
 check wide.note_names_the_cut "no note" grep -q '100 of 130 numeric columns shown: the most relevant' "$T/w130.html"
+
+# ---- a summary of several targets: the first without --target, the named one with it ----
+"$SHEAF" scan "$DATA/penguins.csv" --target species,sex -o "$T/two.sheaf" -q
+run "$SHEAF" page "$T/two.sheaf" -o "$T/two-first.html"
+check targets.first_without_target "exit $RC: $(err_text)" [ "$RC" = 0 ] &&
+    grep -q 'target species' "$T/two-first.html"
+run "$SHEAF" page "$T/two.sheaf" -t sex -o "$T/two-sex.html"
+check targets.named_with_target "exit $RC: $(err_text)" [ "$RC" = 0 ] && grep -q 'target sex' "$T/two-sex.html"
+run "$SHEAF" page "$T/two.sheaf" -t island -o "$T/two-x.html"
+check targets.unknown_target_is_usage "exit $RC: $(err_text)" [ "$RC" = 2 -a ! -e "$T/two-x.html" ]
