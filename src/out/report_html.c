@@ -419,8 +419,14 @@ static void chart_classes(html_buf *b, const report *r, size_t which, int standa
     snprintf(title, sizeof title, "%s by class: share of each class's rows per bin", name);
     svg_begin(b, w, h, title, standalone);
     char cut[128];
-    svg_text(b, left, 16, "start", 12, SVG_INK, 0, "font-weight=\"600\" class=\"label\"",
+    html_buf a;
+    html_init(&a);
+    html_raw(&a, "font-weight=\"600\" class=\"label class-column\" data-name=\"");
+    html_text(&a, name);
+    html_raw_n(&a, "\"", 2);
+    svg_text(b, left, 16, "start", 12, SVG_INK, 0, a.failed ? "font-weight=\"600\"" : a.data,
              short_label(name, cut, sizeof cut));
+    html_free(&a);
     const uint64_t *base = r->class_hist + which * (size_t)r->nclasses * REPORT_BINS;
     double top_share = 0;
     for (size_t i = 0; i < m; i++) {
@@ -451,6 +457,12 @@ static void chart_classes(html_buf *b, const report *r, size_t which, int standa
         snprintf(t, sizeof t, "%s = %s: %llu rows with a number", summary_target_name(r->s),
                  summary_class_label(r->s, cls[i]), (unsigned long long)tot);
         const char *dash = svg_class_dash(i);
+        html_raw(b, "<g class=\"class-line\" data-class=\"");
+        html_text(b, summary_class_label(r->s, cls[i]));
+        html_printf(b, "\" data-n=\"%llu\" data-counts=\"", (unsigned long long)tot);
+        for (size_t k = 0; k < REPORT_BINS; k++)
+            html_printf(b, "%s%llu", k ? " " : "", (unsigned long long)hh[k]);
+        html_raw(b, "\">");
         svg_path_begin(b, svg_class_color(i), 1.8, strcmp(dash, "none") ? dash : NULL, NULL);
         for (size_t k = 0; k < REPORT_BINS; k++) {
             double y = top + ph - ph * ((double)hh[k] / (double)tot) / top_share;
@@ -458,6 +470,7 @@ static void chart_classes(html_buf *b, const report *r, size_t which, int standa
             svg_path_to(b, 0, left + bw * (double)(k + 1), y);
         }
         svg_path_end(b, t);
+        html_raw(b, "</g>\n");
     }
     /* legend */
     double lx = left;
@@ -873,7 +886,14 @@ static void column_table(html_buf *b, const report *r)
         } else {
             html_raw(b, "<td class=\"t\" data-v=\"\"></td><td class=\"why\" data-v=\"\"></td>");
         }
-        html_raw(b, "<td class=\"pic\" data-v=\"\">");
+        html_raw(b, "<td class=\"pic\" data-v=\"\"");
+        if (rc->has_hist) {
+            html_raw(b, " data-counts=\"");
+            for (size_t k = 0; k < REPORT_BINS; k++)
+                html_printf(b, "%s%llu", k ? " " : "", (unsigned long long)rc->hist[k]);
+            html_raw(b, "\"");
+        }
+        html_raw(b, ">");
         if (rc->has_hist) mini_histogram(b, rc);
         else if (d->ntop) mini_top_values(b, rc);
         html_raw(b, "</td></tr>\n");

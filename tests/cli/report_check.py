@@ -3,7 +3,7 @@
 prints one line per check (PASS NAME / FAIL NAME: why) for
 tests/cli/test_report.sh.
 
-    report_check.py SHEAF SUMMARY PAGE.html SVG_DIR TAG
+    report_check.py SHEAF SUMMARY PAGE.html SVG_DIR TAG [DATA.csv]
 
 - the page and every SVG file are well-formed XML (xml.etree, Python's
   standard library);
@@ -19,7 +19,10 @@ tests/cli/test_report.sh.
   (criterion 'distance') cuts it into the same clusters at every height, and
   the page's leaf order is no costlier than scipy's optimal_leaf_ordering
   (which can return a costlier order than it found: scipy issue #11227);
-- the redundant pairs of `sheaf screen` that are shown are marked.
+- the redundant pairs of `sheaf screen` that are shown are marked;
+- the histograms hold every number, and (with DATA.csv) equal numpy's counts
+  in the same bins up to the numbers within 1% of a bin edge (the buckets'
+  error); the class lines hold each class's numbers (info's by_class n).
 """
 import glob
 import json
@@ -78,7 +81,9 @@ def walk(el):
 
 def main():
     global SHEAF, TAG
+    global CSV
     SHEAF, summary, page, svg_dir, TAG = sys.argv[1:6]
+    CSV = sys.argv[6] if len(sys.argv) > 6 else None
     try:
         root = ET.parse(page).getroot()
         check("page_is_well_formed_xml", True)
@@ -141,6 +146,64 @@ def main():
             if not ok:
                 bad.append(f"{text!r} for {v}")
     check("column_table_text_is_the_number_rounded", not bad, "; ".join(bad)[:300])
+    # every number of a column is in its histogram (the end bins hold the tails)
+    bad = []
+    for tr in body:
+        td = list(tr)[12]
+        if "data-counts" in td.attrib:
+            c = cols[list(tr)[0].attrib["data-v"]]
+            total = sum(int(x) for x in td.attrib["data-counts"].split())
+            if total != c["n"]:
+                bad.append(f"{c['name']}: {total} in the histogram, n {c['n']}")
+    check("histograms_hold_every_number", not bad, "; ".join(bad)[:300])
+    if CSV:
+        # against numpy on the raw numbers: the same 24 bins between info's 1% and 99%
+        # quantiles (min and max when they meet), the tails in the end bins; a bucket
+        # (0.4% of its value at most off) may put a number within 1% of an edge in the
+        # neighbouring bin, so a bin may differ by the numbers that near its edges
+        import pandas as pd
+        raw = pd.read_csv(CSV, na_values=["NA", "?", ""], keep_default_na=False)
+        bad, compared = [], 0
+        for tr in body:
+            td = list(tr)[12]
+            name = list(tr)[0].attrib["data-v"]
+            if "data-counts" not in td.attrib or name not in raw:
+                continue
+            x = pd.to_numeric(raw[name], errors="coerce").dropna().to_numpy(float)
+            c = cols[name]
+            lo, hi = c["quantiles"]["0.01"], c["quantiles"]["0.99"]
+            if not hi > lo:
+                lo, hi = c["min"], c["max"]
+            edges = lo + (hi - lo) * np.arange(25) / 24
+            k = np.clip(np.floor((x - lo) / ((hi - lo) / 24)) if hi > lo else np.zeros(len(x)), 0, 23)
+            k[x <= lo] = 0
+            want = np.bincount(k.astype(int), minlength=24)
+            got = np.array([int(v) for v in td.attrib["data-counts"].split()])
+            near = [np.sum(np.abs(x - e) <= 0.01 * np.abs(x)) for e in edges]
+            slack = np.array([near[i] + near[i + 1] for i in range(24)])
+            compared += 1
+            if np.any(np.abs(got - want) > slack):
+                bad.append(f"{name}: page {list(got)}, numpy {list(want)}")
+        check("histograms_equal_numpy_within_bucket_error", compared and not bad, "; ".join(bad)[:400])
+    # each class line of a class-conditional chart holds the class's numbers (info's by_class n)
+    bad, lines = [], 0
+    for e in els:
+        if local(e.tag) != "svg":
+            continue
+        head = [t for t in walk(e) if "class-column" in t.attrib.get("class", "")]
+        if not head:
+            continue
+        c = cols[head[0].attrib["data-name"]]
+        by = {k["class"]: k["n"] for k in c.get("by_class") or []}
+        for g in walk(e):
+            if g.attrib.get("class") == "class-line":
+                lines += 1
+                counts = [int(x) for x in g.attrib["data-counts"].split()]
+                n = int(g.attrib["data-n"])
+                if sum(counts) != n or by.get(g.attrib["data-class"]) != n:
+                    bad.append(f"{c['name']} {g.attrib['data-class']}: {sum(counts)}, {n}, info {by.get(g.attrib['data-class'])}")
+    if info.get("target") and info["target"]["task"] == "classify":
+        check("class_lines_hold_each_class_s_numbers", lines > 0 and not bad, f"{lines} lines; " + "; ".join(bad)[:300])
 
     rel = [e for e in els if e.attrib.get("class") == "rel"]
     if info.get("target"):

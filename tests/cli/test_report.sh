@@ -41,19 +41,19 @@ check stdout_output "exit $RC, $(head -c 40 "$T/out")" [ "$RC" = 0 ] && head -n 
 ls -A "$T" | grep -q '^\..*sheaf-\|\.tmp\.' && fail no_temporary_files_left "$(ls -A "$T")" || pass no_temporary_files_left
 
 # ---- the open datasets: structure and numbers ------------------------------------
-page_check() { # TAG SUMMARY
+page_check() { # TAG SUMMARY [DATA.csv]
     rm -rf "$T/$1.svg"
     run "$SHEAF" page "$2" -o "$T/$1.html" --write-svg "$T/$1.svg"
     if [ "$RC" != 0 ]; then fail "$1.page" "exit $RC: $(err_text)"; return; fi
-    "$PY" tests/cli/report_check.py "$SHEAF" "$2" "$T/$1.html" "$T/$1.svg" "$1"
+    "$PY" tests/cli/report_check.py "$SHEAF" "$2" "$T/$1.html" "$T/$1.svg" "$1" ${3:+"$3"}
 }
 "$SHEAF" scan "$DATA/mpg.csv" --target mpg -o "$T/mpg.sheaf" -q
 "$SHEAF" scan "$DATA/penguins.csv" --target species -o "$T/penguins.sheaf" -q
 "$SHEAF" scan "$DATA/tips.csv" -o "$T/tips.sheaf" -q
-page_check iris "$T/iris.sheaf"
-page_check mpg "$T/mpg.sheaf"
-page_check penguins "$T/penguins.sheaf"
-page_check tips "$T/tips.sheaf"
+page_check iris "$T/iris.sheaf" "$DATA/iris.csv"
+page_check mpg "$T/mpg.sheaf" "$DATA/mpg.csv"
+page_check penguins "$T/penguins.sheaf" "$DATA/penguins.csv"
+page_check tips "$T/tips.sheaf" "$DATA/tips.csv"
 grep -q 'id="classes"' "$T/iris.html" && ! grep -q 'id="classes"' "$T/mpg.html" &&
     pass classes_section_only_for_a_class_target || fail classes_section_only_for_a_class_target "iris/mpg"
 check same_bytes_twice "page not deterministic" \
@@ -71,7 +71,7 @@ for i in range(400):
     print(f"{x:.5f},{x * 2 + r.gauss(0, 0.3):.5f},\"{g.replace(chr(34), chr(34) * 2)}\",{r.random():.5f}")'
 } >"$T/hostile.csv"
 "$SHEAF" scan "$T/hostile.csv" --target grp -o "$T/hostile.sheaf" -q
-page_check hostile "$T/hostile.sheaf"
+page_check hostile "$T/hostile.sheaf" "$T/hostile.csv"
 check hostile.no_raw_markup "a raw <script>alert or \"&<> in the page or an SVG file" \
     bash -c "! grep -q '<script>alert\|\"&<>' \"$T/hostile.html\" \"$T\"/hostile.svg/*.svg"
 "$PY" - "$T/hostile.html" "$T/hostile.svg" <<'EOF'
