@@ -262,8 +262,8 @@ static void dendrogram(html_buf *b, const report *r, double x0, double width, do
     svg_line(b, DX(0), ya, DX(hmax), ya, SVG_MUTED, 1, NULL);
     char lab[32];
     snprintf(lab, sizeof lab, "%.2g", hmax);
-    svg_text(b, DX(hmax), ya + 12, "middle", 9, SVG_MUTED, 0, NULL, lab);
-    svg_text(b, DX(0), ya + 12, "middle", 9, SVG_MUTED, 0, NULL, "0");
+    svg_text(b, DX(hmax), ya + 12, "start", 9, SVG_MUTED, 0, NULL, lab);
+    svg_text(b, DX(0), ya + 12, "end", 9, SVG_MUTED, 0, NULL, "0");
     svg_text(b, x0 + width / 2, ya + 24, "middle", 9, SVG_MUTED, 0, NULL, "1 \xe2\x88\x92 |r|");
 #undef DX
     free(pos);
