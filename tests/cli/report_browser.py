@@ -33,7 +33,7 @@ import tempfile
 import time
 import zlib
 
-TIMEOUT_S = 40
+TIMEOUT_S = 90
 
 
 class Browser:
@@ -51,6 +51,7 @@ class Browser:
 
         args = [exe, "--headless", "--no-sandbox", "--disable-gpu", "--remote-debugging-pipe",
                 "--user-data-dir=" + profile, "--no-first-run", "--no-default-browser-check",
+                "--disable-dev-shm-usage", "--disable-crash-reporter",
                 "--disable-extensions", "--disable-background-networking", "--disable-sync",
                 "--disable-component-update", "--disable-default-apps", "--mute-audio",
                 "--hide-scrollbars", "about:blank"]
