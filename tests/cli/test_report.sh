@@ -38,6 +38,13 @@ run "$SHEAF" page "$T/iris.sheaf" --write-svg "$T/afile"
 check svg_into_a_file_refused "exit $RC: $(err_text)" [ "$RC" = 1 -a ! -s "$T/afile" ]
 run "$SHEAF" page "$T/iris.sheaf" -o -
 check stdout_output "exit $RC, $(head -c 40 "$T/out")" [ "$RC" = 0 ] && head -n 1 "$T/out" | grep -q '^<!DOCTYPE html>'
+if [ -w /dev/full ]; then
+    run "$SHEAF" page "$T/iris.sheaf" -o /dev/full
+    check full_device_exit_1 "exit $RC: $(err_text)" [ "$RC" = 1 ] && grep -q 'No space left' "$T/err"
+    "$SHEAF" page "$T/iris.sheaf" -o - >/dev/full 2>"$T/err"
+    RC=$?
+    check full_stdout_exit_1 "exit $RC: $(err_text)" [ "$RC" = 1 ] && grep -q 'standard output' "$T/err"
+fi
 ls -A "$T" | grep -q '^\..*sheaf-\|\.tmp\.' && fail no_temporary_files_left "$(ls -A "$T")" || pass no_temporary_files_left
 
 # ---- the open datasets: structure and numbers ------------------------------------
