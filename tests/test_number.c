@@ -544,12 +544,14 @@ Test(number, inline_deviation_equals_the_general_difference)
 {
     /* number_deviation from an unpacked reference must return the same bits
      * as number_difference: random pairs written with the same number of
-     * decimals (its inline case) and with different ones (the fallback). */
+     * decimals and with different ones (fewer or more than the reference's,
+     * up to 19 apart: inline while both stay below 2^52 at the smaller power
+     * of ten, the general difference beyond). */
     uint64_t state = UINT64_C(0xd1b54a32d192ed03);
     char a_text[40], b_text[40];
     for (int i = 0; i < 300000; i++) {
         uint64_t r = xorshift64(&state);
-        int decimals_a = (int)(r % 8), decimals_b = (r >> 3) & 1 ? decimals_a : (int)((r >> 4) % 8);
+        int decimals_a = (int)(r % 20), decimals_b = (r >> 5) & 1 ? decimals_a : (int)((r >> 6) % 20);
         static const uint64_t limit[4] = {UINT64_C(1000), UINT64_C(10000000000),
                                           UINT64_C(4503599627370496), /* 2^52 */
                                           UINT64_C(100000000000000000)};

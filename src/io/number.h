@@ -94,17 +94,36 @@ static inline void number_ref_set(number_ref *r, const number_decimal *d)
     r->scale = r->fast ? number_pow10[d->exp10 < 0 ? -d->exp10 : d->exp10] : 1.0;
 }
 
-/* number_difference(a, &r->dec, NULL), with its most common case inline:
- * the same power of ten |e| <= 22 and mantissas below 2^52, where the
- * integer difference is exact in a double and times 10^e (or divided by
- * 10^-e) is one correctly rounded operation, the one number_difference
- * performs. */
+/* 10^0 .. 10^15 as integers, and the largest mantissa m with m * 10^k
+ * below 2^52, for k = 0 .. 15. */
+extern const int64_t number_pow10_i64[16];
+extern const uint64_t number_below52[16];
+
+/* number_difference(a, &r->dec, NULL), with its common cases inline: a
+ * power of ten |e| <= 22 and mantissas that stay below 2^52 once written at
+ * the smaller of the two powers (the same power, or a cell with fewer or more
+ * decimals than the reference), where the integer difference is exact in a
+ * double and times 10^e (or divided by 10^-e) is one correctly rounded
+ * operation: the one number_difference performs. */
 static inline double number_deviation(const number_decimal *a, const number_ref *r)
 {
-    if (a->exp10 == r->exp10 && r->fast && a->exact && (a->mantissa >> 52) == 0) {
+    if (r->fast && a->exact && (a->mantissa >> 52) == 0) {
         int64_t x = a->negative ? -(int64_t)a->mantissa : (int64_t)a->mantissa;
-        double d = (double)(x - r->signed_m);
-        return r->divide ? d / r->scale : d * r->scale;
+        if (a->exp10 == r->exp10) {
+            double d = (double)(x - r->signed_m);
+            return r->divide ? d / r->scale : d * r->scale;
+        }
+        int32_t k = a->exp10 - r->exp10;
+        if (k > 0 && k < 16 && a->mantissa <= number_below52[k]) {
+            /* a has fewer decimals: written at the reference's power */
+            double d = (double)(x * number_pow10_i64[k] - r->signed_m);
+            return r->divide ? d / r->scale : d * r->scale;
+        }
+        if (k < 0 && k > -16 && r->dec.mantissa <= number_below52[-k] && a->exp10 >= -22) {
+            /* a has more decimals: the reference written at a's power */
+            double d = (double)(x - r->signed_m * number_pow10_i64[-k]);
+            return a->exp10 < 0 ? d / number_pow10[-a->exp10] : d * number_pow10[a->exp10];
+        }
     }
     return number_difference(a, &r->dec, NULL);
 }
