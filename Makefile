@@ -14,7 +14,7 @@ LDLIBS  := -lgsl $(shell pkg-config --libs $(PKGS) 2>/dev/null || echo -lisal -l
 DEB_PKGS := build-essential pkg-config libisal-dev isal zlib1g-dev libzstd-dev zstd \
             libxxhash-dev libcriterion-dev libgsl-dev libopenblas-dev liblapacke-dev \
             python3-numpy python3-scipy python3-pandas python3-statsmodels python3-sklearn python3-mpmath parallel \
-            hyperfine time bc clang mandoc groff-base slurm-wlm munge openssh-server rsync
+            hyperfine time bc clang mandoc groff-base slurm-wlm munge openssh-server rsync chromium
 
 NPROC   := $(shell nproc 2>/dev/null || echo 1)
 LIB_SRC := $(wildcard src/io/*.c src/acc/*.c src/summary/*.c src/stats/*.c src/out/*.c src/pass/*.c \

@@ -67,3 +67,8 @@ echo "== sheaf project: the first component scores (another streaming pass)"
 echo
 echo "Everything above came from one read of each shard plus the two output passes;"
 echo "see README.md for the cautions that apply to the p-values."
+
+echo
+echo "== sheaf page: one HTML page of charts about the night (opens in any browser, offline)"
+./sheaf page "$out/legs.sheaf" -o "$out/night.html" --write-svg "$out/charts"
+echo "   $(realpath "$out/night.html")"

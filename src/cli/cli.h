@@ -238,5 +238,6 @@ int cmd_trim(int argc, char **argv);
 int cmd_pca(int, char **);
 int cmd_project(int, char **);
 int cmd_drift(int, char **);
+int cmd_page(int, char **);
 
 #endif

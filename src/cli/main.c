@@ -34,6 +34,7 @@ static const command COMMANDS[] = {
     {"pca", cmd_pca, "principal components of the correlation or covariance matrix"},
     {"project", cmd_project, "scores of the leading principal components, row by row"},
     {"drift", cmd_drift, "what changed between two summaries (last night and tonight)"},
+    {"page", cmd_page, "one self-contained HTML page of charts about a summary"},
 };
 
 static void help(FILE *f)
