@@ -485,6 +485,22 @@ SHEAF_API size_t sheaf_drift_pair_count(const sheaf_drift *d);
 SHEAF_API int sheaf_drift_pair_at(const sheaf_drift *d, size_t i, const char **a, const char **b,
                                   double *base_r, double *new_r);
 
+/* ---- the page: an HTML report of a summary -----------------------------------
+ * What `sheaf page` writes: one self-contained HTML file (inline CSS and SVG,
+ * nothing loaded from anywhere) with an overview, the column table, the
+ * relevance chart, the clustered correlation heat map, the class-conditional
+ * distributions, the scree chart and loadings, and the cautions
+ * (docs/report.md).  o (may be NULL: defaults) gives the screen's
+ * sheaf_options_set_fdr and sheaf_options_set_redundancy; title names the
+ * summary on the page (may be NULL).  html_path (NULL: no page; "-":
+ * standard output) is written whole and renamed into place; with svg_dir
+ * (may be NULL), each chart is also written as its own SVG file into that
+ * folder, created when missing.  SHEAF_OK, SHEAF_ERR_IO (a file could not be
+ * written; the message names it), SHEAF_ERR_MEMORY, or SHEAF_ERR_USAGE
+ * (neither a page nor a folder asked for). */
+SHEAF_API int sheaf_page_write(const sheaf_summary *s, const sheaf_options *o, const char *title,
+                               const char *html_path, const char *svg_dir, sheaf_error *err);
+
 #ifdef __cplusplus
 }
 #endif

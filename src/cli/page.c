@@ -1,6 +1,5 @@
 /* sheaf page: one self-contained HTML report of a summary, and its charts as
  * SVG files (stats/report.h computes, out/report_html.h draws). */
-#include <errno.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -8,71 +7,9 @@
 #include <time.h>
 
 #include "cli/cli.h"
-#include "out/html.h"
 #include "out/report_html.h"
-#include "out/sink.h"
 #include "stats/report.h"
 #include "summary/access.h"
-
-/* Writes the bytes of b to path through a sink (a temporary file renamed
- * into place): 0, or EXIT_FAILED after a one-line error. */
-static int write_whole(const char *path, const html_buf *b)
-{
-    char err[1024];
-    sink *k = sink_open(path, err, sizeof err);
-    if (!k) {
-        cli_error("page", "%s", err);
-        return EXIT_FAILED;
-    }
-    if (sink_write(k, b->data, b->len)) {
-        sink_error(k, err, sizeof err);
-        sink_abort(k);
-        cli_error("page", "%s", err);
-        return EXIT_FAILED;
-    }
-    if (sink_close(k, err, sizeof err)) {
-        cli_error("page", "%s", err);
-        return EXIT_FAILED;
-    }
-    return EXIT_DONE;
-}
-
-static int write_charts(const report *r, const char *dir)
-{
-    struct stat st;
-    if (mkdir(dir, 0777) != 0 && errno != EEXIST) {
-        cli_error("page", "%s: cannot create the folder: %s", dir, strerror(errno));
-        return EXIT_FAILED;
-    }
-    if (stat(dir, &st) != 0 || !S_ISDIR(st.st_mode)) {
-        cli_error("page", "%s: not a folder", dir);
-        return EXIT_FAILED;
-    }
-    size_t n = report_chart_count(r);
-    for (size_t i = 0; i < n; i++) {
-        html_buf b;
-        html_init(&b);
-        const char *name = NULL;
-        if (report_chart(r, i, &b, &name)) {
-            html_free(&b);
-            cli_error("page", "out of memory");
-            return EXIT_RESOURCE;
-        }
-        size_t len = strlen(dir) + strlen(name) + 2;
-        char *path = malloc(len);
-        if (!path) {
-            html_free(&b);
-            cli_error("page", "out of memory");
-            return EXIT_RESOURCE;
-        }
-        snprintf(path, len, "%s/%s", dir, name);
-        int rc = write_whole(path, &b);
-        free(path);
-        html_free(&b);
-        if (rc != EXIT_DONE) return rc;
-    }
-    return EXIT_DONE;
-}
 
 int cmd_page(int argc, char **argv)
 {
@@ -106,8 +43,6 @@ int cmd_page(int argc, char **argv)
     rc = EXIT_USAGE;
     summary *s = NULL;
     report *r = NULL;
-    html_buf page;
-    html_init(&page);
     report_options o;
     report_options_defaults(&o);
     if (!out && !svg) {
@@ -136,18 +71,12 @@ int cmd_page(int argc, char **argv)
         time_t t = st.st_mtime;
         if (gmtime_r(&t, &tm)) strftime(made, sizeof made, "%Y-%m-%d %H:%M UTC", &tm);
     }
-    if (out) {
-        const report_page p = {cli_path_name(pos[0]), made[0] ? made : NULL};
-        if (report_html_write(r, &p, &page)) {
-            cli_error("page", "out of memory");
-            rc = EXIT_RESOURCE;
-            goto done;
-        }
-    }
-    if (svg && (rc = write_charts(r, svg)) != EXIT_DONE) goto done;
-    rc = out ? write_whole(out, &page) : EXIT_DONE;
+    const report_page p = {cli_path_name(pos[0]), made[0] ? made : NULL};
+    char err[1024];
+    int w = report_files_write(r, &p, out, svg, err, sizeof err);
+    if (w) cli_error("page", "%s", err);
+    rc = w == 0 ? EXIT_DONE : w == REPORT_FILES_MEMORY ? EXIT_RESOURCE : EXIT_FAILED;
 done:
-    html_free(&page);
     report_free(r);
     summary_free(s);
     free(pos);

@@ -36,4 +36,15 @@ int report_html_write(const report *r, const report_page *p, html_buf *out);
 size_t report_chart_count(const report *r);
 int report_chart(const report *r, size_t i, html_buf *out, const char **name);
 
+/* report_files_write's failures. */
+enum { REPORT_FILES_WRITE = 1, REPORT_FILES_MEMORY = 2 };
+
+/* The page into html_path (NULL: none; "-": standard output) and, when
+ * svg_dir is not NULL, each chart as its own SVG file in that folder
+ * (created when missing; the charts first, then the page).  Each file is
+ * written whole and renamed into place (out/sink.h).  Returns 0, or
+ * REPORT_FILES_WRITE / REPORT_FILES_MEMORY with a one-line message in err. */
+int report_files_write(const report *r, const report_page *p, const char *html_path,
+                       const char *svg_dir, char *err, size_t errlen);
+
 #endif
