@@ -72,3 +72,5 @@ echo
 echo "== sheaf page: one HTML page of charts about the night (opens in any browser, offline)"
 ./sheaf page "$out/legs.sheaf" -o "$out/night.html" --write-svg "$out/charts"
 echo "   $(realpath "$out/night.html")"
+./sheaf page "$out/legs-night2.sheaf" --base "$out/legs.sheaf" -o "$out/night2.html"
+echo "   $(realpath "$out/night2.html") (the next night, with what drifted since this one)"

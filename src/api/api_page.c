@@ -21,7 +21,7 @@ SHEAF_API int sheaf_page_write(const sheaf_summary *s, const sheaf_options *o, c
     }
     report *r = report_build(s->s, &ro);
     if (!r) return api_fail(err, SHEAF_ERR_MEMORY, "out of memory");
-    const report_page p = {title ? title : "summary", NULL};
+    const report_page p = {title ? title : "summary", NULL, NULL, NULL};
     char msg[SHEAF_ERROR_BYTES - 64];
     int w = report_files_write(r, &p, html_path, svg_dir, msg, sizeof msg);
     report_free(r);

@@ -19,11 +19,14 @@
 #include <stddef.h>
 
 #include "out/html.h"
+#include "stats/drift.h"
 #include "stats/report.h"
 
 typedef struct {
     const char *summary_name; /* how the summary is named on the page (a path) */
     const char *made;         /* when the summary file was written (text), or NULL */
+    const drift_result *drift; /* the drift from a baseline (stats/drift.h), or NULL */
+    const char *base_name;    /* how the baseline is named (with drift) */
 } report_page;
 
 /* The whole page into out.  Returns 0, or -1 when out of memory. */

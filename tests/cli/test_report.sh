@@ -140,3 +140,59 @@ run "$SHEAF" page "$T/two.sheaf" -t sex -o "$T/two-sex.html"
 check targets.named_with_target "exit $RC: $(err_text)" [ "$RC" = 0 ] && grep -q 'target sex' "$T/two-sex.html"
 run "$SHEAF" page "$T/two.sheaf" -t island -o "$T/two-x.html"
 check targets.unknown_target_is_usage "exit $RC: $(err_text)" [ "$RC" = 2 -a ! -e "$T/two-x.html" ]
+
+# ---- --base: the drift section holds sheaf drift's figures ------------------------------
+GEN=build/demo/generate
+if [ -x "$GEN" ]; then
+    "$GEN" --rows 6000 --seed 3 -o "$T/n1.csv" && "$GEN" --rows 6000 --seed 4 --night 2 -o "$T/n2.csv"
+    "$SHEAF" scan "$T/n1.csv" --target arrival_condition -o "$T/n1.sheaf" -q
+    "$SHEAF" scan "$T/n2.csv" --target arrival_condition -o "$T/n2.sheaf" -q
+    run "$SHEAF" page "$T/n2.sheaf" --base "$T/n1.sheaf" -o "$T/drift.html"
+    check base.page_written "exit $RC: $(err_text)" [ "$RC" = 0 ]
+    "$SHEAF" drift "$T/n1.sheaf" "$T/n2.sheaf" --format json >"$T/drift.json"
+    why=$("$PY" - "$T/drift.html" "$T/drift.json" <<'PY' 2>&1
+import json, sys, xml.etree.ElementTree as ET
+page = ET.parse(sys.argv[1]).getroot()
+d = json.load(open(sys.argv[2]))
+cols = d["columns"] if isinstance(d, dict) and "columns" in d else d
+drifting = {c["name"]: c for c in cols if c.get("flags")}
+rows = {}
+for table in page.iter("table"):
+    if table.get("id") != "drift-columns":
+        continue
+    for tr in table.iter("tr"):
+        tds = [td for td in tr if td.tag == "td"]
+        if tds:
+            rows["".join(tds[0].itertext())] = tds
+if set(rows) != set(drifting):
+    print("columns on the page %s, drift says %s" % (sorted(rows), sorted(drifting)))
+    sys.exit(1)
+checked = 0
+for name, tds in rows.items():
+    want = (drifting[name].get("numeric") or {}).get("psi")
+    got = tds[2].get("data-v")
+    if want is None:
+        continue
+    if got in (None, "nan") or abs(float(got) - float(want)) > 1e-9 * max(1, abs(float(want))):
+        print("%s: PSI %s on the page, %s from sheaf drift" % (name, got, want))
+        sys.exit(1)
+    checked += 1
+if checked == 0:
+    print("no PSI compared")
+    sys.exit(1)
+PY
+    )
+    check base.same_columns_and_psi_as_drift "$why" [ -z "$why" ]
+    check base.appeared_category_listed "no appeared category" grep -q 'appeared: ' "$T/drift.html"
+    run "$SHEAF" page "$T/n1.sheaf" --base "$T/n1.sheaf" -o "$T/self.html"
+    check base.self_is_quiet "exit $RC; $(grep -o '[0-9]* of [0-9]* columns drift' "$T/self.html")" \
+        grep -q ' 0 of [0-9]* columns drift' "$T/self.html"
+    "$SHEAF" scan "$T/n1.csv" --target arrival_condition --missing NA -o "$T/other.sheaf" -q
+    run "$SHEAF" page "$T/n2.sheaf" --base "$T/other.sheaf" -o "$T/bad.html"
+    check base.incompatible_exit_5 "exit $RC: $(err_text)" [ "$RC" = 5 -a ! -e "$T/bad.html" ]
+    run "$SHEAF" page "$T/n2.sheaf" -o "$T/plain.html"
+    check base.no_section_without_base "a drift section without --base" \
+        sh -c "! grep -q 'id=\"drift\"' '$T/plain.html'"
+else
+    skip base.all "$GEN not built"
+fi

@@ -217,6 +217,7 @@ max-levels|exact value counts per column|scan
 bucket-budget|occupied value buckets per column|scan
 shard|read one of N byte ranges|scan
 write-svg|a folder each chart is written to as an SVG file|page
+base|a baseline summary whose drift a page shows|page
 '
 declare -A on
 for cmd in $COMMANDS; do
