@@ -495,11 +495,15 @@ SHEAF_API int sheaf_drift_pair_at(const sheaf_drift *d, size_t i, const char **a
  * summary on the page (may be NULL).  html_path (NULL: no page; "-":
  * standard output) is written whole and renamed into place; with svg_dir
  * (may be NULL), each chart is also written as its own SVG file into that
- * folder, created when missing.  SHEAF_OK, SHEAF_ERR_IO (a file could not be
- * written; the message names it), SHEAF_ERR_MEMORY, or SHEAF_ERR_USAGE
- * (neither a page nor a folder asked for). */
-SHEAF_API int sheaf_page_write(const sheaf_summary *s, const sheaf_options *o, const char *title,
-                               const char *html_path, const char *svg_dir, sheaf_error *err);
+ * folder, created when missing.  With base (may be NULL), the page has the
+ * drift section of `sheaf page --base`: what changed since that summary, at
+ * sheaf_drift_thresholds_default's thresholds.  SHEAF_OK, SHEAF_ERR_IO (a
+ * file could not be written; the message names it), SHEAF_ERR_MEMORY,
+ * SHEAF_ERR_INCOMPATIBLE (base was scanned with other settings), or
+ * SHEAF_ERR_USAGE (neither a page nor a folder asked for). */
+SHEAF_API int sheaf_page_write(const sheaf_summary *s, const sheaf_summary *base,
+                               const sheaf_options *o, const char *title, const char *html_path,
+                               const char *svg_dir, sheaf_error *err);
 
 #ifdef __cplusplus
 }

@@ -1086,7 +1086,7 @@ Test(api, page_and_charts_are_written_whole)
     sheaf_summary *s = greenhouse();
     sheaf_error err;
     char page[128], charts[128], bad[128];
-    cr_assert_eq(sheaf_page_write(s, NULL, "bench <b>&", in_dir(page, sizeof page, "p.html"),
+    cr_assert_eq(sheaf_page_write(s, NULL, NULL, "bench <b>&", in_dir(page, sizeof page, "p.html"),
                                   in_dir(charts, sizeof charts, "charts"), &err),
                  SHEAF_OK, "%s", err.message);
     size_t n;
@@ -1114,10 +1114,17 @@ Test(api, page_and_charts_are_written_whole)
     }
     closedir(d);
     cr_expect_geq(svgs, 3, "charts written: %zu", svgs);
-    cr_expect_eq(sheaf_page_write(s, NULL, NULL, NULL, NULL, &err), SHEAF_ERR_USAGE);
-    cr_expect_eq(sheaf_page_write(s, NULL, NULL, in_dir(bad, sizeof bad, "no/such/dir/p.html"), NULL,
+    cr_expect_eq(sheaf_page_write(s, NULL, NULL, NULL, NULL, NULL, &err), SHEAF_ERR_USAGE);
+    cr_expect_eq(sheaf_page_write(s, NULL, NULL, NULL, in_dir(bad, sizeof bad, "no/such/dir/p.html"), NULL,
                                   &err),
                  SHEAF_ERR_IO);
     cr_expect_not_null(strstr(err.message, "no/such/dir"), "%s", err.message);
+    /* Against itself as the baseline: a drift section with nothing drifting. */
+    cr_assert_eq(sheaf_page_write(s, s, NULL, "again", page, NULL, &err), SHEAF_OK, "%s", err.message);
+    text = read_file(page, &n);
+    text[n] = '\0';
+    cr_expect_not_null(strstr(text, "id=\"drift\""), "no drift section");
+    cr_expect_not_null(strstr(text, " 0 of "), "something drifts against itself");
+    free(text);
     sheaf_summary_free(s);
 }
