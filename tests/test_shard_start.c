@@ -319,6 +319,7 @@ static void every_record_once(const char *kind, const char *window)
         summary_free(all);
     }
     if (window) unsetenv("SHEAF_TEST_SHARD_WINDOW");
+    summary_options_free(&o.opt);
     summary_free(whole);
     unlink(path);
     free(text);
@@ -395,6 +396,7 @@ Test(shard_files, a_wrong_guess_is_refused_and_a_rescan_from_the_top_fits, .time
         summary_free(all);
     }
     cr_assert_gt(caught, 0, "no wrong guess was made");
+    summary_options_free(&o.opt);
     unlink(path);
     free(text);
 }
