@@ -230,6 +230,19 @@ check short_window.one_note "$(err_text)" [ "$(grep -c 'found it from the top of
 check short_window.prefix_rule "rule $(jget "$T/short.sheaf" 'd["sources"][0]["shard"]["start_rule"]')" \
     [ "$(jget "$T/short.sheaf" 'd["sources"][0]["shard"]["start_rule"]')" = '"prefix"' ]
 
+# A wrong guess can leave a quote open to the end of the file (the guess
+# rules such a candidate out when its window reaches the end; the test hook
+# takes it anyway): the scan fails (exit 3) saying the start was guessed and
+# how to find it from the top, and that scan succeeds.
+printf 'a,b\n1,"x\nyy\n",2\n3,4\n5,6\n7,8\n' >"$T/open.csv"
+run env SHEAF_TEST_SHARD_WORST=1 "$SHEAF" scan -q "$T/open.csv" --shard 2/4 -o "$T/open.sheaf"
+check open_quote.fails "exit $RC: $(err_text)" [ "$RC" -eq 3 ]
+check open_quote.says_how "$(err_text)" grep -q "guessed its first record from the bytes after byte [0-9]*; --shard-from-top finds it" "$T/err"
+run "$SHEAF" scan -q "$T/open.csv" --shard 2/4 --shard-from-top -o "$T/open.sheaf"
+check open_quote.from_the_top "exit $RC: $(err_text)" [ "$RC" -eq 0 ]
+run "$SHEAF" scan -q "$T/open.csv" --shard 2/4 -o "$T/open2.sheaf"
+check open_quote.no_hook_guesses_right "exit $RC: $(err_text)" [ "$RC" -eq 0 ]
+
 # ------------------------------------------------------------- misuse
 run "$SHEAF" merge "$T/quoted.2.1.sheaf" "$T/quoted.7.1.sheaf" -o "$T/overlap.sheaf"
 check overlap.refused "exit $RC: $(err_text)" [ "$RC" -eq 5 ]
