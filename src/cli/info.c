@@ -9,6 +9,7 @@
 #include "out/table.h"
 #include "stats/describe.h"
 #include "summary/access.h"
+#include "summary/shards.h"
 
 static void human_bytes(char *buf, size_t len, double b)
 {
@@ -94,6 +95,37 @@ typedef struct {
     uint32_t version;
 } held_targets;
 
+
+/* A shard's start record (docs/shards.md). */
+static void json_shard(json_out *j, const summary_source *src, shard_verdict v)
+{
+    static const char *const modes[] = {"at_field", "in_field", "in_quotes", "quote_seen"};
+    static const char *const verdict[] = {"", "verified", "unverified", "wrong"};
+    char id[20];
+    snprintf(id, sizeof id, "%016llx", (unsigned long long)src->file_id);
+    json_key(j, "shard");
+    json_object_begin(j);
+    json_key(j, "index"); json_uint(j, src->shard_index);
+    json_key(j, "count"); json_uint(j, src->shard_count);
+    json_key(j, "file_id"); json_string(j, id);
+    json_key(j, "start_rule"); json_string(j, summary_shard_rule_name(src->shard_rule));
+    json_key(j, "start_modes");
+    json_array_begin(j);
+    for (int m = 0; m < 4; m++)
+        if (src->shard_modes >> m & 1) json_string(j, modes[m]);
+    json_array_end(j);
+    json_key(j, "transfer");
+    json_object_begin(j);
+    for (int m = 0; m < 4; m++) {
+        json_key(j, modes[m]);
+        json_string(j, modes[(src->shard_map >> (2 * m)) & 3]);
+    }
+    json_object_end(j);
+    json_key(j, "read_bytes"); json_uint(j, src->read_bytes);
+    json_key(j, "check"); json_string(j, verdict[v]);
+    json_object_end(j);
+}
+
 static int print_json(const summary *s, const held_targets *held, double share, size_t ntop)
 {
     json_out j;
@@ -130,6 +162,12 @@ static int print_json(const summary *s, const held_targets *held, double share, 
         cli_json_class_levels(&j, s, 1);
         json_object_end(&j);
     }
+    /* The shards' check (summary/shards.h): a verdict per source. */
+    shard_check sc;
+    size_t bad;
+    char why[2560];
+    shard_verdict *verdicts = calloc(summary_source_count(s) + 1, sizeof *verdicts);
+    if (verdicts) summary_shards_check(s, &sc, verdicts, &bad, why, sizeof why);
     json_key(&j, "sources");
     json_array_begin(&j);
     for (size_t i = 0; i < summary_source_count(s); i++) {
@@ -148,9 +186,11 @@ static int print_json(const summary *s, const held_targets *held, double share, 
             json_key(&j, "end_byte"); json_uint(&j, src->end_byte);
         }
         json_key(&j, "rows"); json_uint(&j, src->rows);
+        if (src->shard_rule) json_shard(&j, src, verdicts ? verdicts[i] : SHARD_NOT);
         json_object_end(&j);
     }
     json_array_end(&j);
+    free(verdicts);
     json_key(&j, "columns");
     json_array_begin(&j);
     for (size_t i = 0; i < summary_columns(s); i++) {
@@ -197,7 +237,12 @@ static void print_sources(FILE *f, const summary *s, size_t width, int color)
     for (size_t i = 0; i < summary_source_count(s); i++) {
         const summary_source *src = summary_source_at(s, i);
         table_row(t);
-        if (src->end_byte)
+        if (src->shard_rule)
+            table_cellf(t, 0, "%s [%llu,%llu) shard %u/%u, start %s", src->path,
+                        (unsigned long long)src->start_byte, (unsigned long long)src->end_byte,
+                        src->shard_index, src->shard_count,
+                        summary_shard_rule_name(src->shard_rule));
+        else if (src->end_byte)
             table_cellf(t, 0, "%s [%llu,%llu)", src->path, (unsigned long long)src->start_byte,
                         (unsigned long long)src->end_byte);
         else

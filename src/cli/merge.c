@@ -5,6 +5,7 @@
 
 #include "cli/cli.h"
 #include "summary/access.h"
+#include "summary/shards.h"
 
 /* Index of the first source of `from` already counted in `into`, or -1.
  * Two records name the same bytes when fingerprint, size and byte range
@@ -22,6 +23,29 @@ static long duplicate_source(const summary *into, const summary *from, size_t *w
                 return (long)i;
             }
         }
+    return -1;
+}
+
+/* The byte-range shards among the merged sources fit together (summary/
+ * shards.h): 0, or -1 after one line naming the shard and the command that
+ * rescans it. */
+static int shards_fit(const summary *s)
+{
+    shard_check c;
+    size_t bad = 0;
+    char why[2560], named[2560];
+    if (summary_shards_check(s, &c, NULL, &bad, why, sizeof why) == 0) return 0;
+    cli_name_settings(why, named, sizeof named);
+    const summary_source *x = bad < summary_source_count(s) ? summary_source_at(s, bad) : NULL;
+    if (x && strstr(why, "{shard_from_top}")) {
+        const char *t = summary_target_name(s);
+        cli_error("merge", "%s: sheaf scan %s --shard %u/%u --shard-from-top%s%s -o NEW.sheaf "
+                  "(with the other options its scan had)",
+                  named, x->path, x->shard_index, x->shard_count, t ? " --target " : "",
+                  t ? t : "");
+    } else {
+        cli_error("merge", "%s", named);
+    }
     return -1;
 }
 
@@ -93,6 +117,7 @@ int cmd_merge(int argc, char **argv)
             goto done;
         }
     }
+    if (shards_fit(acc->parts[0]) != 0) { rc = EXIT_INCOMPATIBLE; goto done; }
     summary_status st = summary_set_write(acc, out, err, sizeof err);
     if (st != SUMMARY_OK) {
         cli_error("merge", "%s", err);

@@ -6,8 +6,10 @@
 
 #include "cli/cli.h"
 #include "cli/scan_notes.h"
+#include "io/shard_start.h"
 #include "stats/screen.h"
 #include "stats/validity.h"
+#include "summary/access.h"
 #include "summary/scan.h"
 
 /* Warnings that do not stop the scan (duplicate column names), held until
@@ -48,7 +50,7 @@ int cmd_scan(int argc, char **argv)
     const char *out = NULL, *delim = NULL, *chunk = NULL, *maxrec = NULL, *missing = NULL;
     const char *levels = NULL, *budget = NULL, *target = NULL, *task = NULL, *classes = NULL;
     const char *mem = NULL, *shard = NULL, *threads = NULL;
-    int no_header = 0, strict = 0, quiet = 0, force = 0;
+    int no_header = 0, strict = 0, quiet = 0, force = 0, from_top = 0;
     held_warnings held = {0};
     scan_options o;
     scan_options_defaults(&o);
@@ -81,6 +83,8 @@ int cmd_scan(int argc, char **argv)
         {"max-record", 0, "SIZE", "longest record accepted (default 64 MiB)", &maxrec, NULL},
         {"shard", 0, "I/N", "read only the records that start in the I-th of N byte ranges "
          "(one plain file)", &shard, NULL},
+        {"shard-from-top", 0, NULL, "find the shard's first record by reading the file from its "
+         "top, not by guessing from the bytes near its range (docs/shards.md)", NULL, &from_top},
         {"threads", 'j', "N", CLI_THREADS_HELP, &threads, NULL},
         {"quiet", 'q', NULL, "no progress line, closing line or notes on ragged or mixed input",
          NULL, &quiet},
@@ -139,6 +143,8 @@ int cmd_scan(int argc, char **argv)
         o.shard_index = i;
         o.shard_count = n;
     }
+    if (from_top && !shard) { cli_error("scan", "--shard-from-top needs --shard"); goto done; }
+    o.shard_from_top = from_top;
     if (task) {
         if (!strcmp(task, "classify")) o.opt.task = TASK_CLASSIFY;
         else if (!strcmp(task, "regress")) o.opt.task = TASK_REGRESS;
@@ -219,6 +225,16 @@ int cmd_scan(int argc, char **argv)
         goto done;
     }
     print_warnings(&held);
+    if (shard && !from_top)
+        for (size_t i = 0; i < summary_source_count(set->parts[0]); i++) {
+            const summary_source *src = summary_source_at(set->parts[0], i);
+            if (src->shard_rule == SHARD_START_PREFIX && src->start_byte > 4)
+                fprintf(stderr, "scan: note: %s shard %u/%u: the bytes after byte %llu did not "
+                        "tell where its first record begins; found it from the top of the file "
+                        "(read %llu bytes in all)\n", src->path, src->shard_index,
+                        src->shard_count, (unsigned long long)src->start_byte,
+                        (unsigned long long)src->read_bytes);
+        }
     scan_notes_print(stderr, set->parts[0], judged.numeric_share, quiet);
     scan_notes_closing(&ps, set->parts[0]);
     summary_set_free(set);

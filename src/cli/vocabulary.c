@@ -33,6 +33,7 @@ static const struct {
     {"chunk_size", "--chunk-size"},
     {"max_record", "--max-record"},
     {"shard", "--shard"},
+    {"shard_from_top", "--shard-from-top"},
     {"mem_limit", "--mem"},
     {"threads", "--threads"},
     {"force", "--force"},

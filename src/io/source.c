@@ -57,6 +57,8 @@ struct source {
     size_t nstarts, starts_cap;
     char err[512];            /* last error */
     struct ahead *ahead;      /* read-ahead thread (source_read_ahead), or NULL */
+    source_observer observe;  /* shown every decoded byte (source_observe), or NULL */
+    void *observe_ctx;        /* its context */
 };
 
 /* Read-ahead: a thread decodes the source into blocks that source_read hands
@@ -451,7 +453,14 @@ static ssize_t decode(source *s, void *buf, size_t cap)
     }
     if (n == 0) s->done = 1;
     if (n > 0) s->decoded += (uint64_t)n;
+    if (n > 0 && s->observe) s->observe(s->observe_ctx, buf, (size_t)n);
     return n;
+}
+
+void source_observe(source *s, source_observer fn, void *ctx)
+{
+    s->observe = fn;
+    s->observe_ctx = ctx;
 }
 
 ssize_t source_read(source *s, void *buf, size_t cap)

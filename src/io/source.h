@@ -58,6 +58,13 @@ int source_read_ahead(source *s, size_t budget);
  * them after each read.  A plain source has none. */
 size_t source_take_starts(source *s, uint64_t *out, size_t max);
 
+/* Shows every decoded byte to fn(ctx, data, len), in order, as it is decoded
+ * (on the read-ahead thread when there is one): how a byte-range shard
+ * follows the quote rule over the bytes it reads without a second pass
+ * (io/shard_start.h).  fn NULL: none. */
+typedef void (*source_observer)(void *ctx, const char *data, size_t len);
+void source_observe(source *s, source_observer fn, void *ctx);
+
 const char *source_path(const source *s);
 source_format source_kind(const source *s);
 const char *source_format_name(source_format f);

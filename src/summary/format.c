@@ -107,7 +107,7 @@ static summary *decode_schema(wire_reader *r, decode_state *ds, uint32_t version
     if (version >= 5) { /* older files matched the spellings byte for byte */
         uint8_t rule = wire_get_u8(r);
         if (rule > 1) r->failed = 1;
-        else if (rule == 0 && !r->failed)
+        else if (rule == 0 && version == 5 && !r->failed)
             broken(r, ds, "a version-5 file whose missing-value spellings match exactly "
                           "(written as version 1 to 3)");
         o.missing_any_case = rule;
@@ -158,9 +158,50 @@ static summary *decode_schema(wire_reader *r, decode_state *ds, uint32_t version
     return s;
 }
 
-static void decode_sources(summary *s, wire_reader *r, decode_state *ds)
+/* A version 6 source's shard fields (docs/summary-format.md). */
+static void decode_shard(summary_source *src, wire_reader *r, decode_state *ds, uint64_t i)
 {
-    uint64_t n = wire_get_u64(r);
+    src->shard_rule = wire_get_u8(r);
+    src->shard_modes = wire_get_u8(r);
+    src->shard_map = wire_get_u8(r);
+    src->shard_index = wire_get_u32(r);
+    src->shard_count = wire_get_u32(r);
+    src->file_id = wire_get_u64(r);
+    src->read_bytes = wire_get_u64(r);
+    if (r->failed) return;
+    if (src->shard_rule == 0) {
+        if (src->shard_modes || src->shard_map || src->shard_index || src->shard_count ||
+            src->file_id || src->read_bytes)
+            broken(r, ds, "source %llu: shard fields of a source that is no shard",
+                   (unsigned long long)i + 1);
+        return;
+    }
+    if (src->shard_rule > 3)
+        broken(r, ds, "source %llu: unknown shard start rule %u", (unsigned long long)i + 1,
+               src->shard_rule);
+    else if (src->shard_modes == 0 || src->shard_modes > 15)
+        broken(r, ds, "source %llu: shard start modes %u (want 1 to 15)",
+               (unsigned long long)i + 1, src->shard_modes);
+    else if (src->shard_rule == 3 && (src->shard_modes & (src->shard_modes - 1)))
+        broken(r, ds, "source %llu: a start found from the top names more than one mode",
+               (unsigned long long)i + 1);
+    else if (src->shard_count == 0 || src->shard_index == 0 ||
+             src->shard_index > src->shard_count)
+        broken(r, ds, "source %llu: shard %u of %u", (unsigned long long)i + 1,
+               src->shard_index, src->shard_count);
+    else if (src->read_bytes < src->raw_bytes)
+        broken(r, ds, "source %llu: a shard that read %llu bytes in all but %llu in its data",
+               (unsigned long long)i + 1, (unsigned long long)src->read_bytes,
+               (unsigned long long)src->raw_bytes);
+    else if (src->end_byte < src->start_byte || src->end_byte > src->size_bytes)
+        broken(r, ds, "source %llu: shard byte range %llu..%llu outside the %llu-byte file",
+               (unsigned long long)i + 1, (unsigned long long)src->start_byte,
+               (unsigned long long)src->end_byte, (unsigned long long)src->size_bytes);
+}
+
+static void decode_sources(summary *s, wire_reader *r, decode_state *ds, uint32_t version)
+{
+    uint64_t n = wire_get_u64(r), shards = 0;
     if (n > (1u << 30) || !wire_need(r, n * 64)) { r->failed = 1; return; }
     for (uint64_t i = 0; i < n && !r->failed; i++) {
         summary_source src;
@@ -176,6 +217,8 @@ static void decode_sources(summary *s, wire_reader *r, decode_state *ds)
         src.start_byte = wire_get_u64(r);
         src.end_byte = wire_get_u64(r);
         src.rows = wire_get_u64(r);
+        if (version >= 6) decode_shard(&src, r, ds, i);
+        if (!r->failed && src.shard_rule) shards++;
         if (!r->failed && strcmp(src.format, "plain") != 0 && strcmp(src.format, "gzip") != 0 &&
             strcmp(src.format, "zstd") != 0)
             broken(r, ds, "source %llu: unknown format", (unsigned long long)i + 1);
@@ -185,6 +228,9 @@ static void decode_sources(summary *s, wire_reader *r, decode_state *ds)
         if (!r->failed && summary_add_source(s, &src) != 0) r->failed = 1;
         free(src.path);
     }
+    if (!r->failed && version >= 6 && shards == 0)
+        broken(r, ds, "a version-6 file without a shard's start record (written as version 5 "
+                      "or older)");
 }
 
 static void decode_table(summary *s, wire_reader *r, decode_state *ds, uint32_t version)
@@ -562,7 +608,7 @@ summary_status summary_decode(const uint8_t *data, size_t len, summary **out, ch
          * decoders call does): that is a resource limit, not damage. */
         errno = 0;
         if (k == 0) s = decode_schema(&p, &ds, version);
-        else if (k == 1) decode_sources(s, &p, &ds);
+        else if (k == 1) decode_sources(s, &p, &ds, version);
         else if (k == 2) decode_table(s, &p, &ds, version);
         else if (k == 3) decode_target(s, &p, &ds, version);
         else if (k == 4) decode_columns(s, &p, &ds, version);

@@ -97,6 +97,15 @@ static void encode_sources(const summary *s, wire_writer *w)
         wire_put_u64(w, src->start_byte);
         wire_put_u64(w, src->end_byte);
         wire_put_u64(w, src->rows);
+        if (summary_file_version(s) >= 6) {
+            wire_put_u8(w, src->shard_rule);
+            wire_put_u8(w, src->shard_modes);
+            wire_put_u8(w, src->shard_map);
+            wire_put_u32(w, src->shard_index);
+            wire_put_u32(w, src->shard_count);
+            wire_put_u64(w, src->file_id);
+            wire_put_u64(w, src->read_bytes);
+        }
     }
 }
 
@@ -113,6 +122,8 @@ static void encode_table(const summary *s, wire_writer *w)
 
 uint32_t summary_file_version(const summary *s)
 {
+    for (size_t i = 0; i < s->nsources; i++)
+        if (s->sources[i].shard_rule) return 6;
     if (s->opt.missing_any_case) return 5;
     return s->target >= 0 ? 3 : s->repeated_headers ? 2 : 1;
 }

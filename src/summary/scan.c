@@ -581,6 +581,7 @@ scan_status scan_file_range(scan_context *sc, const char *path, uint64_t from, u
     source *src = from ? source_open_at(path, from, sc->err, sizeof sc->err)
                        : source_open(path, sc->err, sizeof sc->err);
     if (!src) return scan_fail(sc, errno == ENOMEM ? SCAN_ERR_MEMORY : SCAN_ERR_INPUT, NULL);
+    source_observe(src, sc->observe, sc->observe_ctx);
     scan_status st = begin(sc, path, from, stop_at);
     if (st == SCAN_OK) st = pull(sc, src, from);
     source_close(src);

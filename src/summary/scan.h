@@ -60,6 +60,8 @@ typedef struct {
     uint64_t mem_limit_bytes; /* refuse when the co-moment matrix needs more (0: none) */
     uint32_t shard_index;     /* --shard I/N: I (1-based) */
     uint32_t shard_count;     /* N, 0 = the whole input */
+    int shard_from_top;       /* find the shard's first record from the top of the file (the
+                                 prefix rule), not from the bytes near its range */
     unsigned threads;         /* worker threads; 0 = the CPUs this process may use, 1 = none
                                  (everything on the calling thread); the summary is the same
                                  for every count */

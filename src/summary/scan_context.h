@@ -11,6 +11,7 @@
 #include <xxhash.h>
 
 #include "io/reader.h"
+#include "io/source.h"
 #include "summary/chunks.h"
 #include "summary/scan.h"
 #include "summary/summary.h"
@@ -54,6 +55,8 @@ struct scan_context {
     XXH3_state_t *fed_hash; /* fingerprint of fed bytes */
     uint64_t fed_bytes;    /* bytes fed */
     uint64_t shard_start, shard_end; /* the byte range scanned, for provenance */
+    source_observer observe; /* shown the bytes scan_file_range reads (a shard's), or NULL */
+    void *observe_ctx;       /* its context */
     uint64_t total_bytes;  /* raw bytes of all paths (progress), 0 if unknown */
     uint64_t done_bytes;   /* raw bytes of finished streams */
     scan_status failed;    /* sticky: the first error */

@@ -7,69 +7,329 @@
 #include <string.h>
 #include <sys/stat.h>
 
-#include "io/chunk.h"
+#include <fcntl.h>
+#include <stdlib.h>
+#include <unistd.h>
+
+#include "io/csv.h"
+#include "io/shard_start.h"
 #include "io/source.h"
 
 /* --shard I/N of one plain file: the header from byte 0, then the records
- * that start in [size (I-1)/N, size I/N). */
-static scan_status scan_shard(scan_context *sc, const char *path)
+ * that start in [lo, hi) = [size (I-1)/N, size I/N).  The first of them is
+ * found from the bytes after lo (io/shard_start.h; docs/shards.md), or from
+ * the top of the file when those do not tell or {shard_from_top} asks. */
+
+#define SHARD_LOOK_AHEAD (1u << 20) /* the most read after a range start to find its first
+                                        record */
+#define SHARD_FIRST_LOOK (64u << 10) /* read first; the rest of the window only when these do
+                                        not tell */
+#define SHARD_ID_BYTES (64u << 10)  /* the file identity: XXH3-64 of this many first bytes */
+#define SHARD_BLOCK (1u << 20)      /* reads of the prefix rule */
+
+/* Follows the bytes a pass reads: counts them, and feeds those of [from, to)
+ * to the four quote modes, in order (under each of nmodes delimiters: the
+ * first shard's delimiter is known only once its reader has read ahead). */
+typedef struct {
+    uint64_t pos;       /* file offset of the next byte shown */
+    uint64_t seen;      /* bytes shown */
+    shard_modes *modes; /* fed [from, to), or NULL */
+    size_t nmodes;      /* modes[0..nmodes) */
+    uint64_t from, to;  /* from: the next byte the modes need */
+} shard_watch;
+
+static void shard_watch_bytes(void *ctx, const char *data, size_t len)
+{
+    shard_watch *w = ctx;
+    uint64_t a = w->pos, b = w->pos + len;
+    if (w->modes && a <= w->from && w->from < b && w->from < w->to) {
+        uint64_t e = b < w->to ? b : w->to;
+        for (size_t k = 0; k < w->nmodes; k++)
+            shard_modes_scan(&w->modes[k], data + (w->from - a), (size_t)(e - w->from));
+        w->from = e;
+    }
+    w->pos = b;
+    w->seen += len;
+}
+
+/* len bytes at off (fewer at the end of the file): 0, or -1 with a message. */
+static int shard_pread(scan_context *sc, int fd, const char *path, char *buf, size_t len,
+                       uint64_t off, size_t *got)
+{
+    *got = 0;
+    while (*got < len) {
+        ssize_t n = pread(fd, buf + *got, len - *got, (off_t)(off + *got));
+        if (n < 0 && errno == EINTR) continue;
+        if (n < 0) {
+            snprintf(sc->err, sizeof sc->err, "%s: read error at byte %llu: %s", path,
+                     (unsigned long long)(off + *got), strerror(errno));
+            return -1;
+        }
+        if (n == 0) break;
+        *got += (size_t)n;
+    }
+    return 0;
+}
+
+/* Feeds [w->from, w->to) to the modes by reading it (what a pass left). */
+static int shard_watch_finish(scan_context *sc, int fd, const char *path, shard_watch *w,
+                              char *buf, uint64_t *read_bytes)
+{
+    while (w->from < w->to) {
+        size_t want = w->to - w->from < SHARD_BLOCK ? (size_t)(w->to - w->from) : SHARD_BLOCK, got;
+        if (shard_pread(sc, fd, path, buf, want, w->from, &got) != 0) return -1;
+        *read_bytes += got;
+        if (got == 0) break;
+        shard_modes_scan(w->modes, buf, got);
+        w->from += got;
+    }
+    return 0;
+}
+
+/* The prefix rule: the true mode at the anchor from [skip, anchor), then the
+ * first record end at or after the anchor, reading past the window when it
+ * holds none (feeding those bytes to w's modes).  Sets *first (the file size
+ * when no record starts there) and *mode. */
+static int shard_from_top(scan_context *sc, int fd, const char *path, uint64_t size,
+                          uint64_t skip, uint64_t anchor, const char *win, size_t wlen,
+                          shard_watch *w, char *buf, uint64_t *read_bytes, uint64_t *first,
+                          csv_quote_mode *mode)
+{
+    csv_quote_state q;
+    csv_quote_init(&q, sc->delim);
+    for (uint64_t at = skip; at < anchor;) {
+        size_t want = anchor - at < SHARD_BLOCK ? (size_t)(anchor - at) : SHARD_BLOCK, got;
+        if (shard_pread(sc, fd, path, buf, want, at, &got) != 0) return -1;
+        *read_bytes += got;
+        if (got == 0) break;
+        csv_quote_scan(&q, buf, got, 0);
+        at += got;
+    }
+    *mode = q.mode;
+    size_t r = csv_quote_scan(&q, win, wlen, 1);
+    if (r <= wlen) { *first = anchor + r; return 0; }
+    for (uint64_t at = anchor + wlen;; ) { /* a record longer than the window */
+        size_t got;
+        if (shard_pread(sc, fd, path, buf, SHARD_BLOCK, at, &got) != 0) return -1;
+        *read_bytes += got;
+        if (got == 0) { *first = size; return 0; }
+        if (w->from == at && at < w->to) {
+            size_t n = w->to - at < got ? (size_t)(w->to - at) : got;
+            shard_modes_scan(w->modes, buf, n);
+            w->from += n;
+        }
+        r = csv_quote_scan(&q, buf, got, 1);
+        if (r <= got) { *first = at + r; return 0; }
+        at += got;
+    }
+}
+
+/* The start record of this shard added to every summary's last source. */
+static void shard_mark(scan_context *sc, const summary_source *mark)
+{
+    for (size_t t = 0; t < sc->nruns; t++) {
+        summary *s = sc->runs[t];
+        if (!s->nsources) continue;
+        summary_source *src = &s->sources[s->nsources - 1];
+        src->shard_rule = mark->shard_rule;
+        src->shard_modes = mark->shard_modes;
+        src->shard_map = mark->shard_map;
+        src->shard_index = mark->shard_index;
+        src->shard_count = mark->shard_count;
+        src->file_id = mark->file_id;
+        src->read_bytes = mark->read_bytes;
+    }
+}
+
+/* A test hook: a number from the environment, or def. */
+static uint64_t shard_test_knob(const char *name, uint64_t def)
+{
+    const char *v = getenv(name);
+    return v && *v ? strtoull(v, NULL, 10) : def;
+}
+
+static scan_status scan_shard_range(scan_context *sc, const char *path, int fd, uint64_t size,
+                                    int64_t mtime, char *buf)
 {
     const scan_options *o = &sc->o;
-    struct stat st;
-    if (strcmp(path, "-") == 0 || stat(path, &st) != 0 || !S_ISREG(st.st_mode)) {
-        snprintf(sc->err, sizeof sc->err, "%s: {shard} needs a regular file (not a pipe)", path);
-        return scan_fail(sc, SCAN_ERR_USAGE, NULL);
-    }
-    uint64_t size = (uint64_t)st.st_size;
     uint64_t lo = size * (o->shard_index - 1) / o->shard_count;
     uint64_t hi = size * o->shard_index / o->shard_count;
     sc->shard_start = lo;
     sc->shard_end = hi;
-    /* A check that the file is plain. */
-    errno = 0;
-    source *probe = source_open(path, sc->err, sizeof sc->err);
-    if (!probe) return scan_fail(sc, errno == ENOMEM ? SCAN_ERR_MEMORY : SCAN_ERR_INPUT, NULL);
-    source_format kind = source_kind(probe);
-    source_close(probe);
-    if (kind != SOURCE_PLAIN) {
+    summary_source mark;
+    memset(&mark, 0, sizeof mark);
+    mark.shard_index = o->shard_index;
+    mark.shard_count = o->shard_count;
+    /* The file's identity, its format and byte-order mark. */
+    size_t idlen;
+    if (shard_pread(sc, fd, path, buf, SHARD_ID_BYTES, 0, &idlen) != 0)
+        return scan_fail(sc, SCAN_ERR_INPUT, NULL);
+    mark.read_bytes += idlen;
+    mark.file_id = XXH3_64bits_withSeed(buf, idlen, size);
+    const unsigned char *m = (const unsigned char *)buf;
+    const char *kind = idlen >= 2 && m[0] == 0x1f && m[1] == 0x8b ? "gzip"
+                       : idlen >= 4 && m[0] == 0x28 && m[1] == 0xb5 && m[2] == 0x2f && m[3] == 0xfd
+                           ? "zstd" : NULL;
+    if (kind) {
         snprintf(sc->err, sizeof sc->err,
                  "%s: {shard} needs an uncompressed file, this one is %s; split the data into "
-                 "several compressed files instead and scan each as a shard",
-                 path, source_format_name(kind));
+                 "several compressed files instead and scan each as a shard", path, kind);
         return scan_fail(sc, SCAN_ERR_USAGE, NULL);
     }
+    uint64_t skip = csv_bom_length(buf, idlen);
+    if (hi == 0) lo = 0; /* more shards than bytes: an empty range at the start */
+    /* The delimiters the modes follow: the first shard reads the header in
+     * its data pass, and the reader's choice (csv_detect_delimiter, or the
+     * one given) is known only after it; the modes of the others follow the
+     * delimiter of their header pass. */
+    static const char guesses[] = {',', '\t', ';', '|', ' '};
+    char delims[sizeof guesses];
+    size_t ndelims = 0;
+    shard_modes modes[sizeof guesses];
+    shard_watch w = {0, 0, modes, 1, 0, 0};
     uint64_t first = 0;
-    if (hi == 0) lo = 1; /* more shards than bytes: [0, 0) holds no record start */
-    if (lo > 0) {
-        /* The header (and the delimiter) from byte 0, then the first record
-         * start in the range under the quote rule. */
+    if (lo == 0 && hi > 0) { /* the file's start: mode CSV_AT_FIELD after the mark */
+        if (o->delim) delims[ndelims++] = o->delim;
+        else
+            for (size_t k = 0; k < sizeof guesses; k++) delims[ndelims++] = guesses[k];
+        for (size_t k = 0; k < ndelims; k++) shard_modes_init(&modes[k], delims[k]);
+        w.nmodes = ndelims;
+        mark.shard_rule = SHARD_START_CERTAIN;
+        mark.shard_modes = 1u << CSV_AT_FIELD;
+        w.from = skip;
+        w.to = hi - 1 > skip ? hi - 1 : skip;
+    } else {
+        /* The header (and the delimiter) from byte 0. */
+        shard_watch hw = {0, 0, NULL, 0, 0, 0};
+        sc->observe = shard_watch_bytes;
+        sc->observe_ctx = &hw;
         sc->header_only = 1;
         scan_status hs = scan_file_range(sc, path, 0, 0);
         sc->header_only = 0;
+        sc->observe = NULL;
+        mark.read_bytes += hw.seen;
         if (hs != SCAN_OK) return hs;
-        if (chunk_find_record_start(path, lo, sc->delim, &first, sc->err, sizeof sc->err) != 0)
-            return scan_fail(sc, SCAN_ERR_INPUT, NULL);
+        delims[ndelims++] = sc->delim;
+        shard_modes_init(&modes[0], sc->delim);
+        uint64_t anchor = lo > skip + 1 ? lo - 1 : skip, end = hi > skip + 1 ? hi - 1 : skip;
+        w.from = anchor;
+        w.to = end > anchor ? end : anchor;
+        /* The look-ahead: SHARD_FIRST_LOOK bytes, then the whole window
+         * when those do not tell. */
+        size_t most = (size_t)shard_test_knob("SHEAF_TEST_SHARD_WINDOW", SHARD_LOOK_AHEAD), wlen = 0;
+        if (most < 1) most = 1;
+        if (most > SHARD_LOOK_AHEAD) most = SHARD_LOOK_AHEAD;
+        char *win = malloc(most);
+        if (!win) return scan_fail(sc, SCAN_ERR_MEMORY, "out of memory");
+        shard_guess g;
+        g.decided = 0;
+        for (size_t want = most < SHARD_FIRST_LOOK ? most : SHARD_FIRST_LOOK;; want = most) {
+            size_t got;
+            if (shard_pread(sc, fd, path, win + wlen, want - wlen, anchor + wlen, &got) != 0) {
+                free(win);
+                return scan_fail(sc, SCAN_ERR_INPUT, NULL);
+            }
+            mark.read_bytes += got;
+            wlen += got;
+            if (!o->shard_from_top && anchor > skip)
+                shard_start_guess(win, wlen, anchor + wlen >= size, sc->delim, sc->file_fields,
+                                  shard_test_knob("SHEAF_TEST_SHARD_WORST", 0) != 0, &g);
+            if (g.decided || wlen < want || want == most || o->shard_from_top || anchor <= skip)
+                break;
+        }
+        size_t fed = w.to - w.from < wlen ? (size_t)(w.to - w.from) : wlen;
+        shard_modes_scan(&modes[0], win, fed);
+        w.from += fed;
+        if (g.decided) {
+            first = anchor + g.offset;
+            mark.shard_rule = (uint8_t)g.rule;
+            mark.shard_modes = g.modes;
+        } else {
+            csv_quote_mode t;
+            if (shard_from_top(sc, fd, path, size, skip, anchor, win, wlen, &w, buf,
+                               &mark.read_bytes, &first, &t) != 0) {
+                free(win);
+                return scan_fail(sc, SCAN_ERR_INPUT, NULL);
+            }
+            mark.shard_rule = SHARD_START_PREFIX;
+            mark.shard_modes = (uint8_t)(1u << t);
+        }
+        free(win);
         /* The first record (after any blank lines) is the first shard's, even
          * when this range starts before its end. */
         if (first < sc->first_end) first = sc->first_end;
     }
-    if (first >= hi && lo > 0) {
+    if (first >= hi && (lo > 0 || hi == 0)) {
         /* No record starts in this range: an empty shard. */
-        summary_source rec;
-        memset(&rec, 0, sizeof rec);
+        if (shard_watch_finish(sc, fd, path, &w, buf, &mark.read_bytes) != 0)
+            return scan_fail(sc, SCAN_ERR_INPUT, NULL);
+        summary_source rec = mark;
         rec.path = (char *)path;
         snprintf(rec.format, sizeof rec.format, "plain");
         rec.size_bytes = size;
-        rec.mtime = (int64_t)st.st_mtime;
+        rec.mtime = mtime;
         rec.fingerprint = XXH3_64bits(NULL, 0);
-        rec.start_byte = sc->shard_start;
-        rec.end_byte = sc->shard_end;
+        rec.start_byte = lo;
+        rec.end_byte = hi;
+        rec.shard_map = shard_modes_map(&modes[0]);
         for (size_t t = 0; t < sc->nruns; t++)
             if (summary_add_source(sc->runs[t], &rec) != 0)
                 return scan_fail(sc, SCAN_ERR_MEMORY, "out of memory");
         return SCAN_OK;
     }
-    return scan_file_range(sc, path, first, hi - first);
+    w.pos = first;
+    w.seen = 0;
+    sc->observe = shard_watch_bytes;
+    sc->observe_ctx = &w;
+    scan_status st = scan_file_range(sc, path, first, hi - first);
+    sc->observe = NULL;
+    if (st == SCAN_ERR_INPUT && mark.shard_rule == SHARD_START_SPECULATED) {
+        /* A wrong guess can leave a quote open to the end of the file. */
+        size_t used = strlen(sc->err);
+        snprintf(sc->err + used, sizeof sc->err - used,
+                 " (this shard guessed its first record from the bytes after byte %llu; "
+                 "{shard_from_top} finds it from the top of the file)", (unsigned long long)lo);
+    }
+    if (st != SCAN_OK) return st;
+    mark.read_bytes += w.seen;
+    /* The modes of the delimiter the scan used (the first shard's from its
+     * reader); an unforeseen one is followed by reading the range again. */
+    size_t k = 0;
+    while (k < ndelims && delims[k] != sc->delim) k++;
+    if (k == ndelims) {
+        k = 0;
+        shard_modes_init(&modes[0], sc->delim);
+        w.from = lo == 0 ? skip : w.from;
+    }
+    if (k) modes[0] = modes[k];
+    w.modes = &modes[0];
+    w.nmodes = 1;
+    if (shard_watch_finish(sc, fd, path, &w, buf, &mark.read_bytes) != 0)
+        return scan_fail(sc, SCAN_ERR_INPUT, NULL);
+    mark.shard_map = shard_modes_map(&modes[0]);
+    shard_mark(sc, &mark);
+    return SCAN_OK;
+}
+
+static scan_status scan_shard(scan_context *sc, const char *path)
+{
+    struct stat st;
+    if (strcmp(path, "-") == 0 || stat(path, &st) != 0 || !S_ISREG(st.st_mode)) {
+        snprintf(sc->err, sizeof sc->err, "%s: {shard} needs a regular file (not a pipe)", path);
+        return scan_fail(sc, SCAN_ERR_USAGE, NULL);
+    }
+    int fd = open(path, O_RDONLY | O_CLOEXEC);
+    if (fd < 0) {
+        snprintf(sc->err, sizeof sc->err, "%s: cannot open: %s", path, strerror(errno));
+        return scan_fail(sc, SCAN_ERR_INPUT, NULL);
+    }
+    char *buf = malloc(SHARD_BLOCK > SHARD_ID_BYTES ? SHARD_BLOCK : SHARD_ID_BYTES);
+    scan_status rc = buf ? scan_shard_range(sc, path, fd, (uint64_t)st.st_size,
+                                            (int64_t)st.st_mtime, buf)
+                         : scan_fail(sc, SCAN_ERR_MEMORY, "out of memory");
+    free(buf);
+    close(fd);
+    return rc;
 }
 
 scan_status scan_path(scan_context *sc, const char *path)

@@ -48,8 +48,10 @@
  * any ASCII letter case (every scan since 2026-12-03: version 5 is version
  * 3's layout with the rule in SCHM), else 3 with a target (per-class sums
  * in two doubles), else 2 when it counted repeated headers, else 1.  Files
- * of versions 1 to 3 matched the spellings byte for byte. */
-#define SUMMARY_FORMAT_VERSION 5
+ * of versions 1 to 3 matched the spellings byte for byte.  6 when a source
+ * is a byte-range shard that says how it found its first record (version
+ * 5's layout, each source record followed by its shard fields). */
+#define SUMMARY_FORMAT_VERSION 6
 /* The version of a file of several targets (a container of single-target
  * summaries, one per target: docs/summary-format.md). */
 #define SUMMARY_SET_FORMAT_VERSION 4
@@ -147,6 +149,14 @@ typedef struct {
     uint64_t start_byte;     /* byte range start (shards), else 0 */
     uint64_t end_byte;       /* byte range end, 0 = whole file */
     uint64_t rows;           /* data rows read from it */
+    /* A byte-range shard's start (docs/shards.md; format version 6, else 0). */
+    uint8_t shard_rule;      /* shard_start_rule (io/shard_start.h); 0: not such a shard */
+    uint8_t shard_modes;     /* bit m: quote mode m at the range start gives its first record */
+    uint8_t shard_map;       /* transfer map of the owned bytes (2 bits per mode) */
+    uint32_t shard_index;    /* I of --shard I/N */
+    uint32_t shard_count;    /* N */
+    uint64_t file_id;        /* XXH3-64 of the file's first 64 KiB, seeded with its size */
+    uint64_t read_bytes;     /* bytes the shard read in all (header, look-ahead, data) */
 } summary_source;
 
 typedef struct {
@@ -297,8 +307,8 @@ uint64_t summary_column_present(const summary_column *c);
  * failure writes nothing there.  For reading (summary_read,
  * summary_set_read), "-" is standard input, read whole into memory. */
 summary_status summary_write(const summary *s, const char *path, char *err, size_t errlen);
-/* The format version s is written in: the oldest that holds it (5 when its
- * spellings match in any case, else 3 with a target, 2 when it counted
+/* The format version s is written in: the oldest that holds it (6 with a
+ * shard's start record, 5 when its spellings match in any case, else 3 with a target, 2 when it counted
  * repeated headers, 1).  Readers take 1 .. SUMMARY_FORMAT_VERSION. */
 uint32_t summary_file_version(const summary *s);
 /* Reads a summary file into a new, sealed summary. */

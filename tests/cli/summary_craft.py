@@ -132,6 +132,11 @@ def _walk_SRCS(w, info):
                      ("raw_bytes", "u64"), ("start_byte", "u64"), ("end_byte", "u64"),
                      ("rows", "u64")):
             w.get(p + f, t)
+        if info["version"] >= 6:  # a byte-range shard's start (docs/shards.md)
+            for f, t in (("shard_rule", "u8"), ("shard_modes", "u8"), ("shard_map", "u8"),
+                         ("shard_index", "u32"), ("shard_count", "u32"), ("file_id", "u64"),
+                         ("read_bytes", "u64")):
+                w.get(p + f, t)
 
 
 def _walk_TABL(w, info):

@@ -52,6 +52,7 @@ def info(p):
     except (OSError, ValueError) as e:
         sys.exit("%s: %s" % (p, e))
     d.pop("sources", None)
+    d.pop("format_version", None)  # shards' summaries are version 6 (docs/shards.md)
     for c in d["columns"]:
         if c.get("distinct_exact"):
             c["top"] = sorted(c["top"], key=lambda e: (-e["count"], e["value"]))

@@ -32,7 +32,8 @@ $SHEAF scan "$D" --target kind -o "$T/cls.sheaf" -q 2>/dev/null &&
     $SHEAF scan "$D" --target weight --task regress -o "$T/reg.sheaf" -q 2>/dev/null &&
     $SHEAF scan "$D" -o "$T/none.sheaf" -q 2>/dev/null &&
     { head -n 5 "$D" | gzip -c; head -n 5 "$D" | gzip -c; } >"$T/rep.csv.gz" &&
-    $SHEAF scan "$T/rep.csv.gz" -o "$T/rep.sheaf" -q 2>/dev/null ||
+    $SHEAF scan "$T/rep.csv.gz" -o "$T/rep.sheaf" -q 2>/dev/null &&
+    $SHEAF scan "$D" --shard 2/3 -o "$T/shd.sheaf" -q 2>/dev/null ||
     { fail setup "scans failed"; exit 0; }
 
 get() { $CRAFT get "$T/$1.sheaf" "$2"; }
@@ -69,7 +70,7 @@ crafted() {
 }
 
 # The good summaries are read by every command.
-for b in cls numcls reg none rep; do
+for b in cls numcls reg none rep shd; do
     run $SHEAF info "$T/$b.sheaf"
     check "decode.good.$b" "info exit $RC: $(err_text)" [ "$RC" -eq 0 ]
 done
@@ -163,6 +164,34 @@ check decode.version3_without_target.message "$(err_text)" \
     grep -q 'a version-3 file without a target' "$T/err"
 # Version 5 records the missing-value case rule, 1 (any case) or refused.
 crafted version5_rule_exact rep "SCHM.missing_any_case=0"
+# Version 6: a byte-range shard's start record (docs/shards.md), every field
+# checked: the rule, the modes (one for a start found from the top), I of N,
+# the range inside the file, the bytes read; and a version-6 file must hold
+# one such record.
+for f in shard_rule shard_modes shard_map shard_index shard_count file_id read_bytes; do
+    v=$(get shd "SRCS.source[0].$f")
+    check "decode.shard_field.$f" "SRCS.source[0].$f is '$v'" [ -n "$v" ]
+done
+check decode.shard_version "version $(get shd version)" [ "$(get shd version)" = 6 ]
+crafted shard_rule_unknown shd "SRCS.source[0].shard_rule=4"
+crafted shard_modes_none shd "SRCS.source[0].shard_modes=0"
+crafted shard_modes_past_four shd "SRCS.source[0].shard_modes=16"
+crafted shard_prefix_two_modes shd "SRCS.source[0].shard_rule=3" "SRCS.source[0].shard_modes=3"
+crafted shard_index_zero shd "SRCS.source[0].shard_index=0"
+crafted shard_index_past_count shd "SRCS.source[0].shard_index=4"
+crafted shard_count_zero shd "SRCS.source[0].shard_count=0"
+crafted shard_range_past_file shd "SRCS.source[0].end_byte=$(($(get shd 'SRCS.source[0].size_bytes') + 1))"
+crafted shard_read_less_than_data shd "SRCS.source[0].read_bytes=$(($(get shd 'SRCS.source[0].raw_bytes') - 1))"
+crafted shard_fields_without_rule shd "SRCS.source[0].shard_rule=0"
+crafted version6_without_shard shd "SRCS.source[0].shard_rule=0" "SRCS.source[0].shard_modes=0" \
+    "SRCS.source[0].shard_map=0" "SRCS.source[0].shard_index=0" "SRCS.source[0].shard_count=0" \
+    "SRCS.source[0].file_id=0" "SRCS.source[0].read_bytes=0"
+check decode.version6_without_shard.message "$(err_text)" \
+    grep -q 'a version-6 file without a shard' "$T/err"
+# The map takes any value (every 2-bit mode is one); the file's identity too.
+$CRAFT set "$T/shd.sheaf" "$T/shdmap.sheaf" "SRCS.source[0].shard_map=255" "SRCS.source[0].file_id=1"
+run $SHEAF info "$T/shdmap.sheaf"
+check decode.shard_any_map "info exit $RC: $(err_text)" [ "$RC" -eq 0 ]
 crafted version5_rule_two rep "SCHM.missing_any_case=2"
 # Exact pair sums with the target (acc/pairsum.h).
 crafted pairs_exact_flag reg "COLS[1].pairs.exact=2"

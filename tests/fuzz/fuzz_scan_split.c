@@ -53,6 +53,7 @@
 
 #include "io/csv.h"
 #include "summary/scan.h"
+#include "summary/shards.h"
 #include "summary/summary.h"
 
 #define MAX_INPUT_BYTES 8192 /* longer inputs are cut: per-input work stays small */
@@ -130,31 +131,60 @@ static void run_whole(outcome *r, const scan_options *base, size_t chunk_bytes)
     scan_one(base, chunk_bytes, 0, 0, &r->s, &r->st, r->err, sizeof r->err);
 }
 
-/* N shards, each scanned, then merged in order into the first. */
+/* N shards, each scanned, then merged in order into the first, as a user
+ * would (docs/shards.md): a shard whose scan fails, or that the merged
+ * summary's shard check finds wrong, is scanned again from the top of the
+ * file ({shard_from_top}), and the shards merged again. */
 static void run_shards(outcome *r, const scan_options *base, size_t chunk_bytes, uint32_t n)
 {
     snprintf(r->what, sizeof r->what, "%u shards, %zu-byte chunks", n, chunk_bytes);
-    r->s = NULL;
-    r->st = SCAN_OK;
-    summary *part[MAX_SHARDS] = {0};
-    for (uint32_t i = 0; i < n && r->st == SCAN_OK; i++) {
-        char e[512];
-        scan_one(base, chunk_bytes, i + 1, n, &part[i], &r->st, e, sizeof e);
-        if (r->st != SCAN_OK) snprintf(r->err, sizeof r->err, "shard %u/%u: %s", i + 1, n, e);
-    }
-    for (uint32_t i = 1; i < n && r->st == SCAN_OK; i++) {
-        summary_status ms = summary_merge(part[0], part[i], r->err, sizeof r->err);
-        if (ms != SUMMARY_OK) {
-            fprintf(stderr, "fuzz_scan_split: %s: merging shard %u fails: %s\n", r->what, i + 1,
-                    r->err);
-            stop();
+    int from_top[MAX_SHARDS] = {0};
+    for (uint32_t round = 0; round <= n; round++) {
+        r->s = NULL;
+        r->st = SCAN_OK;
+        summary *part[MAX_SHARDS] = {0};
+        for (uint32_t i = 0; i < n && r->st == SCAN_OK; i++) {
+            char e[512];
+            scan_options o = *base;
+            o.shard_from_top = from_top[i];
+            scan_one(&o, chunk_bytes, i + 1, n, &part[i], &r->st, e, sizeof e);
+            if (r->st != SCAN_OK && !from_top[i]) { /* a guessed start may fail: from the top */
+                from_top[i] = 1;
+                o.shard_from_top = 1;
+                scan_one(&o, chunk_bytes, i + 1, n, &part[i], &r->st, e, sizeof e);
+            }
+            if (r->st != SCAN_OK) snprintf(r->err, sizeof r->err, "shard %u/%u: %s", i + 1, n, e);
         }
+        for (uint32_t i = 1; i < n && r->st == SCAN_OK; i++) {
+            summary_status ms = summary_merge(part[0], part[i], r->err, sizeof r->err);
+            if (ms != SUMMARY_OK) {
+                fprintf(stderr, "fuzz_scan_split: %s: merging shard %u fails: %s\n", r->what,
+                        i + 1, r->err);
+                stop();
+            }
+        }
+        int again = 0;
+        if (r->st == SCAN_OK) {
+            shard_check c;
+            size_t bad;
+            char why[2048];
+            if (summary_shards_check(part[0], &c, NULL, &bad, why, sizeof why) != 0) {
+                uint32_t k = part[0]->sources[bad].shard_index;
+                if (k < 1 || k > n || from_top[k - 1] || !strstr(why, "{shard_from_top}")) {
+                    fprintf(stderr, "fuzz_scan_split: %s: the shard check fails: %s\n", r->what,
+                            why);
+                    stop();
+                }
+                from_top[k - 1] = 1;
+                again = 1;
+            } else {
+                r->s = part[0];
+                part[0] = NULL;
+            }
+        }
+        for (uint32_t i = 0; i < n; i++) summary_free(part[i]);
+        if (!again) return;
     }
-    if (r->st == SCAN_OK) {
-        r->s = part[0];
-        part[0] = NULL;
-    }
-    for (uint32_t i = 0; i < n; i++) summary_free(part[i]);
 }
 
 /* ---- comparison ---------------------------------------------------------- */

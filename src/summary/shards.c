@@ -1,0 +1,119 @@
+/* shards: see shards.h for the check. */
+#include "summary/shards.h"
+
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "io/shard_start.h"
+
+const char *summary_shard_rule_name(uint8_t rule)
+{
+    static const char *const names[] = {"", "certain", "speculated", "prefix"};
+    return rule < 4 ? names[rule] : "";
+}
+
+/* Shards of one file together, by range start then end. */
+static int by_file_range(const summary_source *a, const summary_source *b)
+{
+    if (a->file_id != b->file_id) return a->file_id < b->file_id ? -1 : 1;
+    if (a->size_bytes != b->size_bytes) return a->size_bytes < b->size_bytes ? -1 : 1;
+    if (a->start_byte != b->start_byte) return a->start_byte < b->start_byte ? -1 : 1;
+    if (a->end_byte != b->end_byte) return a->end_byte < b->end_byte ? -1 : 1;
+    return 0;
+}
+
+/* The modes a set of modes (bit m: mode m) goes to through a map. */
+static uint8_t image(uint8_t set, uint8_t map)
+{
+    uint8_t out = 0;
+    for (int m = 0; m < 4; m++)
+        if (set >> m & 1) out |= (uint8_t)(1u << shard_map_apply(map, (csv_quote_mode)m));
+    return out;
+}
+
+static void name_shard(char *b, size_t n, const summary_source *x)
+{
+    snprintf(b, n, "%s shard %u/%u (bytes %llu..%llu)", x->path, x->shard_index, x->shard_count,
+             (unsigned long long)x->start_byte, (unsigned long long)x->end_byte);
+}
+
+int summary_shards_check(const summary *s, shard_check *out, shard_verdict *verdicts,
+                         size_t *bad, char *msg, size_t msglen)
+{
+    memset(out, 0, sizeof *out);
+    if (verdicts)
+        for (size_t i = 0; i < s->nsources; i++) verdicts[i] = SHARD_NOT;
+    size_t n = 0;
+    size_t *ix = malloc((s->nsources ? s->nsources : 1) * sizeof *ix);
+    if (!ix) { snprintf(msg, msglen, "out of memory"); return -1; }
+    for (size_t i = 0; i < s->nsources; i++)
+        if (s->sources[i].shard_rule) ix[n++] = i;
+    /* Insertion sort: the sources of one summary are few. */
+    for (size_t i = 1; i < n; i++)
+        for (size_t k = i; k > 0 && by_file_range(&s->sources[ix[k - 1]], &s->sources[ix[k]]) > 0;
+             k--) {
+            size_t t = ix[k];
+            ix[k] = ix[k - 1];
+            ix[k - 1] = t;
+        }
+    out->shards = n;
+    int rc = 0;
+    const summary_source *prev = NULL;
+    uint8_t possible = 0; /* modes possible at the end of prev's range */
+    for (size_t k = 0; k < n && rc == 0; k++) {
+        const summary_source *x = &s->sources[ix[k]];
+        int same_file = prev && prev->file_id == x->file_id && prev->size_bytes == x->size_bytes;
+        if (!same_file) { out->files++; prev = NULL; }
+        char a[1200], b[1200];
+        if (prev && x->start_byte < prev->end_byte && x->start_byte < x->end_byte &&
+            prev->start_byte < prev->end_byte) {
+            name_shard(a, sizeof a, prev);
+            name_shard(b, sizeof b, x);
+            snprintf(msg, msglen, "%s and %s overlap: their records would be counted twice", a,
+                     b);
+            *bad = ix[k];
+            rc = -1;
+            break;
+        }
+        shard_verdict v;
+        if (x->start_byte == x->end_byte && x->start_byte > 0) {
+            /* An empty range owns no record start: nothing to check, and
+             * the run goes on through it unchanged. */
+            v = SHARD_VERIFIED;
+            if (verdicts) verdicts[ix[k]] = v;
+            out->verified++;
+            continue;
+        }
+        uint8_t p = 0xF;
+        if (x->start_byte == 0) p = 1u << CSV_AT_FIELD;
+        else if (prev && prev->end_byte == x->start_byte) p = possible;
+        if (x->shard_rule == SHARD_START_PREFIX) {
+            v = (p & x->shard_modes) ? SHARD_VERIFIED : SHARD_WRONG;
+            p = x->shard_modes;
+        } else if (x->shard_rule == SHARD_START_CERTAIN && x->start_byte > 0) {
+            v = SHARD_VERIFIED;
+        } else if ((p & x->shard_modes) == p) {
+            v = SHARD_VERIFIED;
+        } else {
+            v = (p & x->shard_modes) ? SHARD_UNVERIFIED : SHARD_WRONG;
+        }
+        if (verdicts) verdicts[ix[k]] = v;
+        if (v == SHARD_WRONG) {
+            name_shard(a, sizeof a, x);
+            snprintf(msg, msglen,
+                     "%s guessed its first record from the bytes near its start, and the shards "
+                     "before it show the guess was wrong; rescan it with {shard_from_top}",
+                     a);
+            *bad = ix[k];
+            rc = -1;
+            break;
+        }
+        if (v == SHARD_VERIFIED) out->verified++;
+        else out->unverified++;
+        possible = image(p, x->shard_map);
+        prev = x;
+    }
+    free(ix);
+    return rc;
+}
