@@ -280,6 +280,22 @@ source *source_open_at(const char *path, uint64_t start, char *err, size_t errle
     return s;
 }
 
+source *source_open_decoded(const char *name, source_pull pull, void *ctx, uint64_t size,
+                            char *err, size_t errlen)
+{
+    source *s = source_new(name, -1, 0);
+    if (!s) {
+        snprintf(err, errlen, "%s: out of memory", name);
+        errno = ENOMEM;
+        return NULL;
+    }
+    s->pull = pull;
+    s->pull_ctx = ctx;
+    s->raw_size = size;
+    s->kind = SOURCE_PLAIN; /* decoded already: never taken for compressed */
+    return s;
+}
+
 static void ahead_stop(source *s);
 
 void source_close(source *s)

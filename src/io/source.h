@@ -32,6 +32,11 @@ typedef ssize_t (*source_pull)(void *ctx, void *buf, size_t cap);
  * the modification time 0.  pull and ctx are used until source_close. */
 source *source_open_pull(const char *name, source_pull pull, void *ctx, uint64_t size, char *err,
                          size_t errlen);
+/* As source_open_pull for bytes that pull has decoded already (a shard of a
+ * compressed file, io/shard_members.h): always plain, whatever they begin
+ * with. */
+source *source_open_decoded(const char *name, source_pull pull, void *ctx, uint64_t size,
+                            char *err, size_t errlen);
 /* Opens a plain (uncompressed) regular file positioned at byte `start`.
  * Fails with a message when the file is compressed or not seekable. */
 source *source_open_at(const char *path, uint64_t start, char *err, size_t errlen);

@@ -588,6 +588,12 @@ scan_status scan_file_range(scan_context *sc, const char *path, uint64_t from, u
     return st;
 }
 
+scan_status scan_source_range(scan_context *sc, source *src, uint64_t from, uint64_t stop_at)
+{
+    scan_status st = begin(sc, source_path(src), from, stop_at);
+    return st != SCAN_OK ? st : pull(sc, src, source_raw_offset(src));
+}
+
 /* Every summary of the scan finished: each target's cells settled, the
  * first summary's co-moments copied into the others, all sealed.  0, or -1
  * (the scan's error set). */

@@ -70,4 +70,9 @@ scan_status scan_fail(scan_context *sc, scan_status st, const char *msg);
  * records that start at stop_at (0: none). */
 scan_status scan_file_range(scan_context *sc, const char *path, uint64_t from, uint64_t stop_at);
 
+/* A source the caller opened, as a shard's stream: from > 0 (its label in
+ * messages) when it starts past the file's header, stopping before records
+ * that start at stop_at bytes into it (0: none).  The caller closes src. */
+scan_status scan_source_range(scan_context *sc, source *src, uint64_t from, uint64_t stop_at);
+
 #endif

@@ -12,6 +12,7 @@
 #include <unistd.h>
 
 #include "io/csv.h"
+#include "io/shard_members.h"
 #include "io/shard_start.h"
 #include "io/source.h"
 
@@ -36,12 +37,14 @@ typedef struct {
     shard_modes *modes; /* fed [from, to), or NULL */
     size_t nmodes;      /* modes[0..nmodes) */
     uint64_t from, to;  /* from: the next byte the modes need */
+    int bom;            /* 1: from 0, the modes skip a byte-order mark at byte 0 */
 } shard_watch;
 
 static void shard_watch_bytes(void *ctx, const char *data, size_t len)
 {
     shard_watch *w = ctx;
     uint64_t a = w->pos, b = w->pos + len;
+    if (w->bom && a == 0) w->from = csv_bom_length(data, len);
     if (w->modes && a <= w->from && w->from < b && w->from < w->to) {
         uint64_t e = b < w->to ? b : w->to;
         for (size_t k = 0; k < w->nmodes; k++)
@@ -148,6 +151,264 @@ static uint64_t shard_test_knob(const char *name, uint64_t def)
     return v && *v ? strtoull(v, NULL, 10) : def;
 }
 
+/* --shard I/N of a BGZF file (io/shard_members.h; docs/shards.md): the
+ * members that start in the compressed range [size (I-1)/N, size I/N), found
+ * from the range's own bytes.  A shard owns the records whose preceding
+ * '\n' lies in the decompressed bytes of its members (the first shard also
+ * the header and the first record): the window of the look-ahead begins at
+ * its first member's first byte, the quote modes follow its members' bytes
+ * (their transfer map), and the scan reads on past its last member until
+ * the record that crosses its end ends.  The members tile the file, so the
+ * owned bytes tile the decompressed stream and merge checks the chain as for
+ * a plain file, with the member-aligned compressed ranges as the ranges. */
+
+/* The bytes a shard's scan reads: the look-ahead it has read already from
+ * `first` on, then the rest of its members' decoded stream. */
+typedef struct {
+    const char *win;  /* the look-ahead */
+    size_t pos, len;  /* next byte of it, and its end */
+    source *inner;    /* the members, decoded */
+} shard_replay;
+
+static ssize_t shard_replay_pull(void *ctx, void *buf, size_t cap)
+{
+    shard_replay *r = ctx;
+    if (r->pos < r->len) {
+        size_t n = r->len - r->pos < cap ? r->len - r->pos : cap;
+        memcpy(buf, r->win + r->pos, n);
+        r->pos += n;
+        return (ssize_t)n;
+    }
+    return source_read(r->inner, buf, cap);
+}
+
+/* Reads src on until the watch has seen its bytes [.., w->to): the rest of
+ * the owned members for the transfer map. */
+static int shard_read_through(source *src, shard_watch *w, char *buf)
+{
+    while (w->from < w->to) {
+        ssize_t n = source_read(src, buf, SHARD_BLOCK);
+        if (n < 0) return -1;
+        if (n == 0) break;
+    }
+    return 0;
+}
+
+/* Appends to the window from src until it holds `want` bytes (or src ends:
+ * *at_end). */
+static int shard_window_fill(source *src, char **win, size_t *wlen, size_t *wcap, size_t want,
+                             int *at_end)
+{
+    if (want > *wcap) {
+        char *p = realloc(*win, want);
+        if (!p) return -2;
+        *win = p;
+        *wcap = want;
+    }
+    while (*wlen < want && !*at_end) {
+        ssize_t n = source_read(src, *win + *wlen, want - *wlen);
+        if (n < 0) return -1;
+        if (n == 0) *at_end = 1;
+        *wlen += (size_t)n;
+    }
+    return 0;
+}
+
+/* The prefix rule for a BGZF shard: the mode at its first member's first
+ * byte from decoding every member before it, then the first record end in
+ * the window (read on when it holds none). */
+static scan_status shard_bgzf_from_top(scan_context *sc, const char *path, int fd, uint64_t size,
+                                       uint64_t mlo, source *inner, char **win, size_t *wlen,
+                                       size_t *wcap, int *at_end, char *buf, uint64_t *read_bytes,
+                                       uint64_t *first, csv_quote_mode *mode)
+{
+    shard_members_raw raw = {fd, 0, mlo, 64u << 10, 0};
+    source *top = source_open_pull(path, shard_members_pull, &raw, size, sc->err,
+                                   sizeof sc->err);
+    if (!top) return scan_fail(sc, errno == ENOMEM ? SCAN_ERR_MEMORY : SCAN_ERR_INPUT, NULL);
+    csv_quote_state q;
+    csv_quote_init(&q, sc->delim);
+    int begun = 0;
+    for (;;) {
+        ssize_t n = source_read(top, buf, SHARD_BLOCK);
+        if (n < 0) {
+            snprintf(sc->err, sizeof sc->err, "%s", source_error(top));
+            source_close(top);
+            return scan_fail(sc, SCAN_ERR_INPUT, NULL);
+        }
+        if (n == 0) break;
+        size_t skip = begun ? 0 : csv_bom_length(buf, (size_t)n);
+        begun = 1;
+        csv_quote_scan(&q, buf + skip, (size_t)n - skip, 0);
+    }
+    source_close(top);
+    *read_bytes += raw.read_bytes;
+    *mode = q.mode;
+    size_t done = 0;
+    for (;;) {
+        size_t r = csv_quote_scan(&q, *win + done, *wlen - done, 1);
+        if (r <= *wlen - done) { *first = done + r; return SCAN_OK; }
+        done = *wlen;
+        if (*at_end) { *first = *wlen; return SCAN_OK; }
+        int rc = shard_window_fill(inner, win, wlen, wcap, *wlen + SHARD_BLOCK, at_end);
+        if (rc == -2) return scan_fail(sc, SCAN_ERR_MEMORY, "out of memory");
+        if (rc < 0) return scan_fail(sc, SCAN_ERR_INPUT, source_error(inner));
+    }
+}
+
+static scan_status scan_shard_bgzf(scan_context *sc, const char *path, int fd, uint64_t size,
+                                   int64_t mtime, char *buf, summary_source *mark)
+{
+    const scan_options *o = &sc->o;
+    uint64_t lo = size * (o->shard_index - 1) / o->shard_count;
+    uint64_t hi = size * o->shard_index / o->shard_count;
+    if (hi == 0) {
+        snprintf(sc->err, sizeof sc->err, "%s: %u shards of a %llu-byte compressed file leave "
+                 "the first empty; use fewer", path, o->shard_count, (unsigned long long)size);
+        return scan_fail(sc, SCAN_ERR_USAGE, NULL);
+    }
+    /* The members this shard owns: [mlo, mhi), own decoded bytes. */
+    uint64_t mlo, mhi, own;
+    if (shard_members_find(fd, path, size, lo, &mlo, &mark->read_bytes, sc->err,
+                           sizeof sc->err) != 0 ||
+        shard_members_walk(fd, path, size, mlo, hi, &mhi, &own, &mark->read_bytes, sc->err,
+                           sizeof sc->err) != 0)
+        return scan_fail(sc, errno == ENOMEM ? SCAN_ERR_MEMORY : SCAN_ERR_INPUT, NULL);
+    sc->shard_start = mlo;
+    sc->shard_end = mhi;
+    if (mlo > 0) { /* the header (and the delimiter) from byte 0 */
+        shard_members_raw raw = {fd, 0, size, 16u << 10, 0};
+        source *hs = source_open_pull(path, shard_members_pull, &raw, size, sc->err,
+                                      sizeof sc->err);
+        if (!hs) return scan_fail(sc, errno == ENOMEM ? SCAN_ERR_MEMORY : SCAN_ERR_INPUT, NULL);
+        sc->header_only = 1;
+        scan_status st = scan_source(sc, hs);
+        sc->header_only = 0;
+        source_close(hs);
+        mark->read_bytes += raw.read_bytes;
+        if (st != SCAN_OK) return st;
+    }
+    static const char guesses[] = {',', '\t', ';', '|', ' '};
+    char delims[sizeof guesses];
+    size_t ndelims = 0;
+    shard_modes modes[sizeof guesses];
+    if (mlo == 0 && !o->delim)
+        for (size_t k = 0; k < sizeof guesses; k++) delims[ndelims++] = guesses[k];
+    else delims[ndelims++] = mlo == 0 ? o->delim : sc->delim;
+    for (size_t k = 0; k < ndelims; k++) shard_modes_init(&modes[k], delims[k]);
+    shard_watch w = {0, 0, modes, ndelims, 0, own, mlo == 0};
+    shard_members_raw raw = {fd, mlo, size, 64u << 10, 0};
+    source *inner = source_open_pull(path, shard_members_pull, &raw, size, sc->err,
+                                     sizeof sc->err);
+    if (!inner) return scan_fail(sc, errno == ENOMEM ? SCAN_ERR_MEMORY : SCAN_ERR_INPUT, NULL);
+    source_observe(inner, shard_watch_bytes, &w);
+    char *win = NULL;
+    size_t wlen = 0, wcap = 0;
+    int at_end = 0;
+    uint64_t first = 0;
+    scan_status st = SCAN_OK;
+    if (mlo == 0) {
+        mark->shard_rule = SHARD_START_CERTAIN;
+        mark->shard_modes = 1u << CSV_AT_FIELD;
+    } else {
+        size_t most = (size_t)shard_test_knob("SHEAF_TEST_SHARD_WINDOW", SHARD_LOOK_AHEAD);
+        if (most < 1) most = 1;
+        if (most > SHARD_LOOK_AHEAD) most = SHARD_LOOK_AHEAD;
+        shard_guess g;
+        g.decided = 0;
+        for (size_t want = most < SHARD_FIRST_LOOK ? most : SHARD_FIRST_LOOK;; want = most) {
+            int rc = shard_window_fill(inner, &win, &wlen, &wcap, want, &at_end);
+            if (rc != 0) {
+                st = rc == -2 ? scan_fail(sc, SCAN_ERR_MEMORY, "out of memory")
+                              : scan_fail(sc, SCAN_ERR_INPUT, source_error(inner));
+                break;
+            }
+            if (!o->shard_from_top)
+                shard_start_guess(win, wlen, at_end, sc->delim, sc->file_fields,
+                                  shard_test_knob("SHEAF_TEST_SHARD_WORST", 0) != 0, &g);
+            if (g.decided || at_end || want == most || o->shard_from_top) break;
+        }
+        if (st == SCAN_OK && g.decided) {
+            first = g.offset;
+            mark->shard_rule = (uint8_t)g.rule;
+            mark->shard_modes = g.modes;
+        } else if (st == SCAN_OK) {
+            csv_quote_mode t = CSV_AT_FIELD;
+            st = shard_bgzf_from_top(sc, path, fd, size, mlo, inner, &win, &wlen, &wcap, &at_end,
+                                     buf, &mark->read_bytes, &first, &t);
+            mark->shard_rule = SHARD_START_PREFIX;
+            mark->shard_modes = (uint8_t)(1u << t);
+        }
+    }
+    if (st == SCAN_OK && mlo > 0 && first > own) {
+        /* No record's preceding '\n' in the owned members: an empty shard. */
+        summary_source rec = *mark;
+        rec.path = (char *)path;
+        snprintf(rec.format, sizeof rec.format, "gzip");
+        rec.size_bytes = size;
+        rec.mtime = mtime;
+        rec.fingerprint = XXH3_64bits(NULL, 0);
+        rec.start_byte = mlo;
+        rec.end_byte = mhi;
+        if (shard_read_through(inner, &w, buf) != 0)
+            st = scan_fail(sc, SCAN_ERR_INPUT, source_error(inner));
+        rec.read_bytes += raw.read_bytes;
+        rec.shard_map = shard_modes_map(&modes[0]);
+        for (size_t t = 0; st == SCAN_OK && t < sc->nruns; t++)
+            if (summary_add_source(sc->runs[t], &rec) != 0)
+                st = scan_fail(sc, SCAN_ERR_MEMORY, "out of memory");
+        free(win);
+        source_close(inner);
+        return st;
+    }
+    if (st == SCAN_OK) {
+        shard_replay rp = {win, (size_t)first, wlen, inner};
+        source *data = source_open_decoded(path, shard_replay_pull, &rp, size, sc->err,
+                                           sizeof sc->err);
+        if (!data) {
+            st = scan_fail(sc, errno == ENOMEM ? SCAN_ERR_MEMORY : SCAN_ERR_INPUT, NULL);
+        } else {
+            st = scan_source_range(sc, data, mlo, own + 1 - first);
+            source_close(data);
+            if (st == SCAN_ERR_INPUT && source_error(inner)[0])
+                snprintf(sc->err, sizeof sc->err, "%s", source_error(inner));
+            else if (st == SCAN_ERR_INPUT && mark->shard_rule == SHARD_START_SPECULATED) {
+                size_t used = strlen(sc->err);
+                snprintf(sc->err + used, sizeof sc->err - used,
+                         " (this shard guessed its first record from the bytes of its first "
+                         "member, at byte %llu; {shard_from_top} finds it from the top of the "
+                         "file)", (unsigned long long)mlo);
+            }
+        }
+    }
+    if (st == SCAN_OK && shard_read_through(inner, &w, buf) != 0)
+        st = scan_fail(sc, SCAN_ERR_INPUT, source_error(inner));
+    mark->read_bytes += raw.read_bytes;
+    free(win);
+    source_close(inner);
+    if (st != SCAN_OK) return st;
+    /* The modes of the delimiter the scan used. */
+    size_t k = 0;
+    while (k < ndelims && delims[k] != sc->delim) k++;
+    if (k == ndelims) {
+        snprintf(sc->err, sizeof sc->err, "%s: the scan chose the delimiter '%c', which the "
+                 "shard did not follow; give it with the delimiter option", path, sc->delim);
+        return scan_fail(sc, SCAN_ERR_USAGE, NULL);
+    }
+    mark->shard_map = shard_modes_map(&modes[k]);
+    shard_mark(sc, mark);
+    for (size_t t = 0; t < sc->nruns; t++) {
+        summary *s = sc->runs[t];
+        if (!s->nsources) continue;
+        summary_source *src = &s->sources[s->nsources - 1];
+        snprintf(src->format, sizeof src->format, "gzip");
+        src->raw_bytes = raw.read_bytes; /* compressed, from its first member on */
+        src->size_bytes = size;
+        src->mtime = mtime;
+    }
+    return SCAN_OK;
+}
+
 static scan_status scan_shard_range(scan_context *sc, const char *path, int fd, uint64_t size,
                                     int64_t mtime, char *buf)
 {
@@ -170,10 +431,15 @@ static scan_status scan_shard_range(scan_context *sc, const char *path, int fd, 
     const char *kind = idlen >= 2 && m[0] == 0x1f && m[1] == 0x8b ? "gzip"
                        : idlen >= 4 && m[0] == 0x28 && m[1] == 0xb5 && m[2] == 0x2f && m[3] == 0xfd
                            ? "zstd" : NULL;
+    uint32_t member;
+    if (kind && kind[0] == 'g' && shard_members_header(m, idlen, &member) == 1)
+        return scan_shard_bgzf(sc, path, fd, size, mtime, buf, &mark);
     if (kind) {
         snprintf(sc->err, sizeof sc->err,
-                 "%s: {shard} needs an uncompressed file, this one is %s; split the data into "
-                 "several compressed files instead and scan each as a shard", path, kind);
+                 "%s: {shard} splits a compressed file only when it is written in "
+                 "independent blocks (gzip as BGZF, e.g. by bgzip from Debian's tabix package); "
+                 "this one is %s in one piece: recompress it as BGZF, or split the data into "
+                 "several compressed files and scan each as a shard", path, kind);
         return scan_fail(sc, SCAN_ERR_USAGE, NULL);
     }
     uint64_t skip = csv_bom_length(buf, idlen);
@@ -186,7 +452,7 @@ static scan_status scan_shard_range(scan_context *sc, const char *path, int fd, 
     char delims[sizeof guesses];
     size_t ndelims = 0;
     shard_modes modes[sizeof guesses];
-    shard_watch w = {0, 0, modes, 1, 0, 0};
+    shard_watch w = {0, 0, modes, 1, 0, 0, 0};
     uint64_t first = 0;
     if (lo == 0 && hi > 0) { /* the file's start: mode CSV_AT_FIELD after the mark */
         if (o->delim) delims[ndelims++] = o->delim;
@@ -200,7 +466,7 @@ static scan_status scan_shard_range(scan_context *sc, const char *path, int fd, 
         w.to = hi - 1 > skip ? hi - 1 : skip;
     } else {
         /* The header (and the delimiter) from byte 0. */
-        shard_watch hw = {0, 0, NULL, 0, 0, 0};
+        shard_watch hw = {0, 0, NULL, 0, 0, 0, 0};
         sc->observe = shard_watch_bytes;
         sc->observe_ctx = &hw;
         sc->header_only = 1;

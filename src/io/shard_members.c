@@ -1,0 +1,189 @@
+/* shard_members: see shard_members.h for the layout and the search. */
+#include "io/shard_members.h"
+
+#include <errno.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <unistd.h>
+
+#define HEADER_READ 64u /* bytes read to check a header (XLEN of BGZF members is 6) */
+
+int shard_members_header(const unsigned char *p, size_t len, uint32_t *member_bytes)
+{
+    if (len >= 1 && p[0] != 0x1f) return 0;
+    if (len >= 2 && p[1] != 0x8b) return 0;
+    if (len >= 3 && p[2] != 8) return 0;               /* deflate */
+    if (len >= 4 && ((p[3] & 4) == 0 || (p[3] & 0xe0))) return 0; /* FEXTRA; reserved bits 0 */
+    if (len < 12) return -1;
+    size_t xlen = (size_t)p[10] | (size_t)p[11] << 8;
+    if (xlen < 6) return 0;
+    if (len < 12 + xlen) return -1;
+    for (size_t i = 12; i + 4 <= 12 + xlen;) {
+        size_t slen = (size_t)p[i + 2] | (size_t)p[i + 3] << 8;
+        if (i + 4 + slen > 12 + xlen) return 0;
+        if (p[i] == 'B' && p[i + 1] == 'C' && slen == 2) {
+            uint32_t m = ((uint32_t)p[i + 4] | (uint32_t)p[i + 5] << 8) + 1u;
+            /* Room for the header, an empty deflate block and the trailer. */
+            if (m < 12 + xlen + 2 + 8) return 0;
+            *member_bytes = m;
+            return 1;
+        }
+        i += 4 + slen;
+    }
+    return 0;
+}
+
+static int read_at(int fd, const char *path, unsigned char *buf, size_t len, uint64_t off,
+                   size_t *got, uint64_t *read_bytes, char *err, size_t errlen)
+{
+    *got = 0;
+    while (*got < len) {
+        ssize_t n = pread(fd, buf + *got, len - *got, (off_t)(off + *got));
+        if (n < 0 && errno == EINTR) continue;
+        if (n < 0) {
+            snprintf(err, errlen, "%s: read error at byte %llu: %s", path,
+                     (unsigned long long)(off + *got), strerror(errno));
+            return -1;
+        }
+        if (n == 0) break;
+        *got += (size_t)n;
+    }
+    *read_bytes += *got;
+    return 0;
+}
+
+/* 1: a member header at `at` (*member_bytes set), 0: none, -1: read error. */
+static int header_at(int fd, const char *path, uint64_t size, uint64_t at,
+                     uint32_t *member_bytes, uint64_t *read_bytes, char *err, size_t errlen)
+{
+    unsigned char h[HEADER_READ];
+    size_t got;
+    if (read_at(fd, path, h, sizeof h, at, &got, read_bytes, err, errlen) != 0) return -1;
+    int v = shard_members_header(h, got, member_bytes);
+    return v == 1 && at + *member_bytes <= size;
+}
+
+/* Whether the member claimed at p (of m bytes) is followed by
+ * SHARD_MEMBERS_HOPS more headers or by the end of the file. */
+static int chain_holds(int fd, const char *path, uint64_t size, uint64_t p, uint32_t m,
+                       uint64_t *read_bytes, char *err, size_t errlen)
+{
+    uint64_t q = p + m;
+    for (int hop = 0; hop < SHARD_MEMBERS_HOPS; hop++) {
+        if (q == size) return 1;
+        uint32_t next;
+        int v = header_at(fd, path, size, q, &next, read_bytes, err, errlen);
+        if (v <= 0) return v;
+        q += next;
+    }
+    return 1;
+}
+
+int shard_members_find(int fd, const char *path, uint64_t size, uint64_t from, uint64_t *start,
+                       uint64_t *read_bytes, char *err, size_t errlen)
+{
+    if (from >= size) { *start = size; return 0; }
+    if (from == 0) {
+        uint32_t m;
+        int v = header_at(fd, path, size, 0, &m, read_bytes, err, errlen);
+        if (v < 0) return -1;
+        if (v == 0) {
+            snprintf(err, errlen, "%s: not BGZF (no BGZF member header at byte 0)", path);
+            return -1;
+        }
+        *start = 0;
+        return 0;
+    }
+    /* A member starts within SHARD_MEMBERS_MAX bytes of any offset before
+     * the last member's start. */
+    size_t want = SHARD_MEMBERS_MAX + HEADER_READ;
+    unsigned char *buf = malloc(want);
+    if (!buf) { snprintf(err, errlen, "out of memory"); errno = ENOMEM; return -1; }
+    size_t got;
+    if (read_at(fd, path, buf, want, from, &got, read_bytes, err, errlen) != 0) {
+        free(buf);
+        return -1;
+    }
+    size_t span = got < SHARD_MEMBERS_MAX ? got : SHARD_MEMBERS_MAX;
+    for (size_t i = 0; i < span; i++) {
+        if (buf[i] != 0x1f) continue;
+        uint32_t m;
+        int v = shard_members_header(buf + i, got - i, &m);
+        if (v == 0 || (v == 1 && from + i + m > size)) continue;
+        if (v < 0) { /* near the end of what was read: read it on its own */
+            v = header_at(fd, path, size, from + i, &m, read_bytes, err, errlen);
+            if (v < 0) { free(buf); return -1; }
+            if (v == 0) continue;
+        }
+        int c = chain_holds(fd, path, size, from + i, m, read_bytes, err, errlen);
+        if (c < 0) { free(buf); return -1; }
+        if (c) { *start = from + i; free(buf); return 0; }
+    }
+    if (from + SHARD_MEMBERS_MAX >= size) {
+        /* None starts in [from, size): the member that holds `from` must
+         * end the file, and start in the 64 KiB before it. */
+        uint64_t back = from > SHARD_MEMBERS_MAX ? from - SHARD_MEMBERS_MAX : 0;
+        if (read_at(fd, path, buf, (size_t)(from - back), back, &got, read_bytes, err,
+                    errlen) != 0) {
+            free(buf);
+            return -1;
+        }
+        for (size_t i = 0; i < got; i++) {
+            uint32_t m;
+            if (buf[i] == 0x1f && shard_members_header(buf + i, got - i, &m) != 0 &&
+                header_at(fd, path, size, back + i, &m, read_bytes, err, errlen) == 1 &&
+                back + i + m == size) {
+                *start = size;
+                free(buf);
+                return 0;
+            }
+        }
+    }
+    free(buf);
+    snprintf(err, errlen,
+             "%s: no BGZF member starts in the %u bytes after byte %llu, nor ends the file "
+             "from before it (not BGZF there?)", path, SHARD_MEMBERS_MAX,
+             (unsigned long long)from);
+    return -1;
+}
+
+int shard_members_walk(int fd, const char *path, uint64_t size, uint64_t start, uint64_t until,
+                       uint64_t *end, uint64_t *decoded, uint64_t *read_bytes, char *err,
+                       size_t errlen)
+{
+    uint64_t at = start, total = 0;
+    while (at < until && at < size) {
+        uint32_t m;
+        int v = header_at(fd, path, size, at, &m, read_bytes, err, errlen);
+        if (v < 0) return -1;
+        if (v == 0) {
+            snprintf(err, errlen, "%s: no BGZF member header at byte %llu where the one before "
+                     "ends (not BGZF throughout?)", path, (unsigned long long)at);
+            return -1;
+        }
+        unsigned char t[4];
+        size_t got;
+        if (read_at(fd, path, t, 4, at + m - 4, &got, read_bytes, err, errlen) != 0) return -1;
+        total += (uint64_t)t[0] | (uint64_t)t[1] << 8 | (uint64_t)t[2] << 16 |
+                 (uint64_t)t[3] << 24;
+        at += m;
+    }
+    *end = at < size ? at : size;
+    *decoded = total;
+    return 0;
+}
+
+ssize_t shard_members_pull(void *ctx, void *buf, size_t cap)
+{
+    shard_members_raw *r = ctx;
+    if (r->pos >= r->end) return 0;
+    if (r->most && cap > r->most) cap = r->most;
+    if (cap > r->end - r->pos) cap = (size_t)(r->end - r->pos);
+    for (;;) {
+        ssize_t n = pread(r->fd, buf, cap, (off_t)r->pos);
+        if (n < 0 && errno == EINTR) continue;
+        if (n > 0) { r->pos += (uint64_t)n; r->read_bytes += (uint64_t)n; }
+        return n;
+    }
+}

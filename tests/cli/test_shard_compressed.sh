@@ -1,0 +1,285 @@
+#!/usr/bin/env bash
+# Shards of one BGZF file (gzip written as independent members of at most
+# 64 KiB, each naming its size in a 'BC' extra subfield; docs/shards.md):
+# each shard takes the members that start in its compressed byte range,
+# found from the bytes there, and reads on past its last member until the
+# record that crosses it ends.
+#
+# The BGZF files are written here with Python's zlib (raw deflate, the BC
+# subfield, CRC-32 and ISIZE trailer, the 28-byte empty member at the end),
+# with members of a few hundred bytes so that quoted fields with delimiters
+# and newlines cross member boundaries and one record spans several members.
+# For N in 1..20: the merged shards equal the whole-file scan (info JSON) and
+# count the records Python's csv module counts (standard library: the
+# reference for the row totals).  Then: the bytes each shard of a 20 MB
+# generated table read are bounded by its member range plus a fixed
+# look-ahead; a wrong guess (the test hook SHEAF_TEST_SHARD_WORST) is refused
+# by merge and its rescan from the top merges; a look-ahead too short to tell
+# falls back to the prefix rule; plain gzip, multi-member non-BGZF gzip and
+# zstd are refused with a message that names BGZF.  Prints PASS/FAIL lines;
+# exits 0.
+set -u
+cd "$(dirname "$0")/../.." || exit 0
+. tests/cli/common.sh
+cli_setup shardbgzf python || exit 0
+
+# cmp.py A.sheaf B.sheaf: the info JSON of two summaries compared without
+# "sources", "format_version" (a shard's summary is version 6) and "bytes"
+# (a shard counts the bytes of its records only); integers and strings
+# equal, floats to 1e-12 relative (absolute below 1); top values as
+# count-ordered sets, only for exact value tables.
+cat >"$T/cmp.py" <<'EOF'
+import json, os, subprocess, sys
+sys.path.insert(0, "tests")
+from refcheck import tree_differences
+
+def info(p):
+    r = subprocess.run([os.environ.get("SHEAF_BIN", "./sheaf"), "info", "--format", "json",
+                        "--top-values", "1000", p], stdout=subprocess.PIPE, stderr=subprocess.PIPE)
+    if r.returncode:
+        sys.exit("info %s exit %d: %s" % (p, r.returncode, r.stderr.decode().strip()))
+    d = json.loads(r.stdout)
+    for k in ("sources", "format_version", "bytes"):
+        d.pop(k, None)
+    for c in d["columns"]:
+        c.pop("bytes", None)
+        if c.get("distinct_exact"):
+            c["top"] = sorted(c["top"], key=lambda e: (-e["count"], e["value"]))
+        else:
+            c.pop("top", None)
+    return d
+
+d = tree_differences(info(sys.argv[1]), info(sys.argv[2]), 1e-12)
+print("; ".join(d[:4]))
+EOF
+jget() {
+    "$SHEAF" info --format json "$1" 2>/dev/null | "$PY" -c 'import json,sys
+d = json.load(sys.stdin)
+print(json.dumps(eval(sys.argv[1]), separators=(",", ":")))' "$2" 2>/dev/null || echo "no-summary"
+}
+nrec() { "$PY" -c 'import csv,sys
+rows = list(csv.reader(open(sys.argv[1], newline="", encoding="utf-8-sig")))
+print(sum(1 for r in rows[1:] if r))' "$1"; }
+
+# bgzf.py IN OUT MEMBER_BYTES [SEED]: IN as BGZF, members of MEMBER_BYTES
+# uncompressed bytes (varied by up to half when SEED is given).
+cat >"$T/bgzf.py" <<'PYEOF'
+import random, struct, sys, zlib
+
+def member(data):
+    c = zlib.compressobj(6, zlib.DEFLATED, -15)
+    body = c.compress(data) + c.flush()
+    bsize = 12 + 6 + len(body) + 8 - 1
+    head = (b"\x1f\x8b\x08\x04\0\0\0\0\x00\xff" + struct.pack("<H", 6) + b"BC" +
+            struct.pack("<HH", 2, bsize))
+    return head + body + struct.pack("<II", zlib.crc32(data) & 0xffffffff, len(data))
+
+data = open(sys.argv[1], "rb").read()
+size = int(sys.argv[3])
+rnd = random.Random(int(sys.argv[4])) if len(sys.argv) > 4 else None
+with open(sys.argv[2], "wb") as f:
+    i = 0
+    while i < len(data):
+        n = size if rnd is None else rnd.randint(size // 2, size + size // 2)
+        f.write(member(data[i:i + n]))
+        i += n
+    f.write(member(b""))
+PYEOF
+
+# ------------------------------------------------------------ the hard files
+"$PY" - "$T" <<'EOF'
+import random, sys
+d = sys.argv[1]
+rnd = random.Random(17)
+def write(name, text, bom=False):
+    with open("%s/%s.csv" % (d, name), "wb") as f:
+        f.write((b"\xef\xbb\xbf" if bom else b"") + text.encode())
+head = "id,note,amount\n"
+rows = []
+for i in range(500):
+    k = rnd.random()
+    if k < 0.25:
+        note = '"x,y\n%d,fake,%d\nend"' % (i, i)   # a whole fake record inside quotes
+    elif k < 0.4:
+        note = '"say ""hi"", then\n,,\n"'          # delimiters, newlines, doubled quotes
+    elif k < 0.45:
+        note = '"' + "".join("%d,%d,%d\n" % (j, j, j) for j in range(40)) + '"'  # a fake table
+    else:
+        note = "plain %d" % i
+    rows.append("%d,%s,%.2f\n" % (i, note, rnd.uniform(-5, 5)))
+write("quoted", head + "".join(rows))
+long = ['%d,"%s",%d\n' % (i, ("field %d spans ranges, with commas,\n" % i) * 80 if i % 40 == 3 else "n%d" % i, i)
+        for i in range(300)]
+write("long", head + "".join(long))
+write("plain", head + "".join("%d,n%d,%d\n" % (i, i % 7, i) for i in range(2000)))
+write("crlf", head.replace("\n", "\r\n") + "".join('%d,"a\r\nb",%d\r\n' % (i, i) for i in range(800)))
+write("bom", head + "".join("%d,\"q,%d\",%d\n" % (i, i, i) for i in range(800)), bom=True)
+write("blank", head + "".join("%d,\"x\ny\",%d\n%s" % (i, i, "\n\n" if i % 3 == 0 else "") for i in range(800)))
+write("headonly", head)
+EOF
+
+# scan_shards FILE N TAG: scans the N shards of FILE; leaves TAG.I.sheaf and
+# the failures in $BAD.
+scan_shards() {
+    local f=$1 n=$2 tag=$3 i
+    BAD=""
+    for i in $(seq 1 "$n"); do
+        run "$SHEAF" scan -q -j1 "$f" --shard "$i/$n" -o "$T/$tag.$i.sheaf"
+        [ "$RC" -eq 0 ] || BAD+=" $i/$n exit $RC: $(err_text);"
+    done
+}
+
+# merge_fixing TAG N OUT: merges the shards; where merge refuses a guess, runs
+# the command it prints (writing that shard's file) and merges again.
+# FIXED counts the rescans.
+merge_fixing() {
+    local tag=$1 n=$2 out=$3 tries=0 cmd
+    FIXED=0
+    while :; do
+        run "$SHEAF" merge $(for i in $(seq 1 "$n"); do echo "$T/$tag.$i.sheaf"; done) -o "$out"
+        [ "$RC" -eq 5 ] && grep -q -- '--shard-from-top' "$T/err" && [ "$tries" -lt "$n" ] || return
+        cmd=$(sed -n 's/.*: \(sheaf scan .* -o\) NEW.sheaf.*/\1/p' "$T/err")
+        local idx
+        idx=$(sed -n 's/.*--shard \([0-9]*\)\/.*/\1/p' <<<"$cmd")
+        [ -n "$cmd" ] && [ -n "$idx" ] || return
+        ${cmd/sheaf/$SHEAF} "$T/$tag.$idx.sheaf" -q 2>/dev/null || return
+        tries=$((tries + 1))
+        FIXED=$((FIXED + 1))
+    done
+}
+
+for f in quoted long plain crlf bom blank; do
+    run "$SHEAF" scan -q "$T/$f.csv" -o "$T/$f.whole.sheaf"
+    check "$f.whole_scan" "exit $RC: $(err_text)" [ "$RC" -eq 0 ] || continue
+    want=$(nrec "$T/$f.csv")
+    check "$f.whole_rows_vs_python_csv" "rows $(jget "$T/$f.whole.sheaf" 'd["rows"]'), csv module $want" \
+        [ "$(jget "$T/$f.whole.sheaf" 'd["rows"]')" = "$want" ]
+    "$PY" "$T/bgzf.py" "$T/$f.csv" "$T/$f.bgz" 400 7
+    run "$SHEAF" scan -q "$T/$f.bgz" -o "$T/$f.bgz.whole.sheaf"
+    why=$("$PY" "$T/cmp.py" "$T/$f.bgz.whole.sheaf" "$T/$f.whole.sheaf" 2>&1)
+    check "$f.bgzf_whole_same_as_plain" "exit $RC, differs: ${why:0:300}" [ "$RC" -eq 0 ] && [ -z "$why" ]
+    case $f in quoted|long) ns="1 2 3 7 13 20" ;; *) ns="5 17" ;; esac
+    for n in $ns; do
+        scan_shards "$T/$f.bgz" "$n" "$f.$n"
+        check "$f.$n.scans" "$BAD" [ -z "$BAD" ] || continue
+        merge_fixing "$f.$n" "$n" "$T/$f.$n.merged.sheaf"
+        check "$f.$n.merge" "exit $RC: $(err_text)" [ "$RC" -eq 0 ] || continue
+        rows=$(jget "$T/$f.$n.merged.sheaf" 'd["rows"]')
+        check "$f.$n.every_record_once" "rows $rows, csv module $want" [ "$rows" = "$want" ]
+        why=$("$PY" "$T/cmp.py" "$T/$f.$n.merged.sheaf" "$T/$f.whole.sheaf" 2>&1)
+        check "$f.$n.same_as_whole" "differs: ${why:0:300}" [ -z "$why" ]
+        v=$(jget "$T/$f.$n.merged.sheaf" 'sorted(set(s["shard"]["check"] for s in d["sources"]))')
+        check "$f.$n.all_verified" "checks $v (rescanned $FIXED)" [ "$v" = '["verified"]' ]
+        # The member ranges tile the compressed file.
+        t=$(jget "$T/$f.$n.merged.sheaf" 'all(a["end_byte"] == b["start_byte"] for a, b in zip(sorted(d["sources"], key=lambda s: (s["start_byte"], s["end_byte"])), sorted(d["sources"], key=lambda s: (s["start_byte"], s["end_byte"]))[1:])) and max(s["end_byte"] for s in d["sources"]) == d["sources"][0]["size_bytes"]')
+        check "$f.$n.ranges_tile" "tiling $t" [ "$t" = true ]
+        [ "$FIXED" -gt 0 ] && echo "note: $f.$n: merge asked for $FIXED rescan(s) from the top"
+    done
+done
+
+# ------------------------------------------- bytes read: range plus bounded
+# A 20 MB table of the benchmark profile as BGZF (members of 65280 bytes, as
+# bgzip writes them) in 10 shards.  Each shard reads the file's first 64 KiB
+# (its identity), the search for its first member (64 KiB and a few
+# headers), a header and a trailer per member it owns (68 bytes), the header
+# pass from byte 0 (the reader's first pull: at most 1 MiB + a chunk
+# decoded, so at most that compressed plus a member), the look-ahead (at
+# most 1 MiB decoded plus a member), its members, and past its end the record
+# that crosses it plus the reader's pull ahead (at most 1 MiB + a 256 KiB
+# chunk decoded plus a member).
+GEN=build/demo/generate
+if [ -x "$GEN" ] || make -s "$GEN" >/dev/null 2>&1; then
+    "$GEN" --profile bench --rows 100000 -o "$T/bench.csv" 2>/dev/null
+    "$PY" "$T/bgzf.py" "$T/bench.csv" "$T/bench.bgz" 65280
+    size=$(stat -c %s "$T/bench.bgz")
+    bad="" total=0 max=0
+    for i in $(seq 1 10); do
+        run "$SHEAF" scan -q -j1 "$T/bench.bgz" --shard "$i/10" -o "$T/b.$i.sheaf"
+        [ "$RC" -eq 0 ] || { bad+=" $i exit $RC;"; continue; }
+        read -r lo hi rb rule <<<"$(jget "$T/b.$i.sheaf" '"%d %d %d %s" % (d["sources"][0]["start_byte"], d["sources"][0]["end_byte"], d["sources"][0]["shard"]["read_bytes"], d["sources"][0]["shard"]["start_rule"])' | tr -d '"')"
+        m=65536
+        bound=$(( (hi - lo) + (hi - lo) / 900 + 65536 + (m + 4096) + (1048576 + 262144 + m) + (1048576 + m) + (1048576 + 262144 + m) ))
+        [ "$rb" -le "$bound" ] || bad+=" shard $i read $rb > $bound;"
+        [ "$rule" = prefix ] && bad+=" shard $i fell back to the prefix rule;"
+        total=$((total + rb))
+        [ "$rb" -gt "$max" ] && max=$rb
+    done
+    check bytes.each_shard_bounded "$bad" [ -z "$bad" ]
+    run "$SHEAF" merge $(for i in $(seq 1 10); do echo "$T/b.$i.sheaf"; done) -o "$T/b.merged.sheaf"
+    check bytes.merge "exit $RC: $(err_text)" [ "$RC" -eq 0 ]
+    check bytes.total_bounded "total $total of $size bytes, largest shard $max" \
+        [ "$total" -lt "$((size + 10 * 4 * 1048576))" ]
+    echo "note: 10 shards of a $size-byte BGZF file read $total in all, at most $max each"
+else
+    skip bytes "build/demo/generate could not be built"
+fi
+
+# ------------------------------------------------ a wrong guess is refused
+# A shard scanned taking its worst candidate (the test hook) until one is
+# wrong: merge refuses it with the command that rescans it from the top
+# (decoding every member before its own), and that rescan merges.
+f=$T/quoted.bgz
+n=9
+scan_shards "$f" "$n" wrong
+merge_fixing wrong "$n" "$T/wrong.base.sheaf"
+check wrong_guess.base_merges "exit $RC: $(err_text)" [ "$RC" -eq 0 ]
+found=""
+for i in $(seq 2 "$n"); do
+    cp "$T/wrong.$i.sheaf" "$T/keep.sheaf"
+    SHEAF_TEST_SHARD_WORST=1 "$SHEAF" scan -q -j1 "$f" --shard "$i/$n" -o "$T/wrong.$i.sheaf" 2>/dev/null
+    run "$SHEAF" merge $(for k in $(seq 1 "$n"); do echo "$T/wrong.$k.sheaf"; done) -o "$T/wrong.merged.sheaf"
+    if [ "$RC" -eq 5 ]; then found=$i; break; fi
+    cp "$T/keep.sheaf" "$T/wrong.$i.sheaf"
+done
+if check wrong_guess.refused "no shard's worst candidate was refused" [ -n "$found" ]; then
+    i=$found
+    check wrong_guess.prints_the_rescan "$(err_text)" \
+        grep -qF "sheaf scan $f --shard $i/$n --shard-from-top -o NEW.sheaf" "$T/err"
+    check wrong_guess.nothing_written "merged file exists" [ ! -e "$T/wrong.merged.sheaf" ]
+    run "$SHEAF" scan -q "$f" --shard "$i/$n" --shard-from-top -o "$T/wrong.$i.sheaf"
+    check wrong_guess.rescan_prefix_rule "rule $(jget "$T/wrong.$i.sheaf" 'd["sources"][0]["shard"]["start_rule"]')" \
+        [ "$(jget "$T/wrong.$i.sheaf" 'd["sources"][0]["shard"]["start_rule"]')" = '"prefix"' ]
+    run "$SHEAF" merge $(for k in $(seq 1 "$n"); do echo "$T/wrong.$k.sheaf"; done) -o "$T/wrong.merged.sheaf"
+    check wrong_guess.rescan_merges "exit $RC: $(err_text)" [ "$RC" -eq 0 ]
+    why=$("$PY" "$T/cmp.py" "$T/wrong.merged.sheaf" "$T/quoted.whole.sheaf" 2>&1)
+    check wrong_guess.rescan_same_as_whole "differs: ${why:0:300}" [ -z "$why" ]
+fi
+
+# ------------------------------------------ a look-ahead too short to tell
+run env SHEAF_TEST_SHARD_WINDOW=16 "$SHEAF" scan -q "$T/long.bgz" --shard 2/3 -o "$T/short.2.sheaf"
+check short_window.exit_0 "exit $RC: $(err_text)" [ "$RC" -eq 0 ]
+check short_window.prefix_rule "rule $(jget "$T/short.2.sheaf" 'd["sources"][0]["shard"]["start_rule"]')" \
+    [ "$(jget "$T/short.2.sheaf" 'd["sources"][0]["shard"]["start_rule"]')" = '"prefix"' ]
+cp "$T/long.3.1.sheaf" "$T/short.1.sheaf"
+cp "$T/long.3.3.sheaf" "$T/short.3.sheaf"
+run "$SHEAF" merge "$T/short.1.sheaf" "$T/short.2.sheaf" "$T/short.3.sheaf" -o "$T/short.merged.sheaf"
+why=$("$PY" "$T/cmp.py" "$T/short.merged.sheaf" "$T/long.whole.sheaf" 2>&1)
+check short_window.merges_same_as_whole "exit $RC, differs: ${why:0:300}" [ "$RC" -eq 0 ] && [ -z "$why" ]
+
+# ------------------------------------------------------------- refusals
+gzip -c "$T/quoted.csv" >"$T/quoted.csv.gz"
+run "$SHEAF" scan -q "$T/quoted.csv.gz" --shard 1/2 -o "$T/x.sheaf"
+check plain_gzip_refused "exit $RC: $(err_text)" [ "$RC" -eq 2 ] && grep -q "gzip in one piece.*BGZF" "$T/err" \
+    || check plain_gzip_names_bgzf "$(err_text)" grep -q "BGZF" "$T/err"
+cat "$T/quoted.csv.gz" "$T/quoted.csv.gz" >"$T/two.csv.gz"
+run "$SHEAF" scan -q "$T/two.csv.gz" --shard 2/2 -o "$T/x.sheaf"
+check two_member_gzip_refused "exit $RC: $(err_text)" [ "$RC" -eq 2 ] && grep -q "BGZF" "$T/err"
+# BGZF then a plain member: the shard whose range holds the plain member
+# finds no BGZF header there (the search) or where the BGZF part ends (the
+# walk), and refuses.
+cat "$T/quoted.bgz" "$T/quoted.csv.gz" >"$T/mixed.gz"
+refused=0
+for i in 1 2 3; do
+    run "$SHEAF" scan -q "$T/mixed.gz" --shard "$i/3" -o "$T/x.sheaf"
+    [ "$RC" -ne 0 ] && grep -q "BGZF" "$T/err" && refused=$((refused + 1))
+done
+check mixed_gzip_refused "$refused of 3 shards refused naming BGZF" [ "$refused" -ge 1 ]
+run "$SHEAF" scan -q "$T/mixed.gz" --shard 3/3 -o "$T/x.sheaf"
+check mixed_gzip_last_shard_refused "exit $RC: $(err_text)" [ "$RC" -ne 0 ]
+if command -v zstd >/dev/null; then
+    zstd -q -c "$T/quoted.csv" >"$T/quoted.csv.zst"
+    run "$SHEAF" scan -q "$T/quoted.csv.zst" --shard 2/2 -o "$T/x.sheaf"
+    check zstd_refused "exit $RC: $(err_text)" [ "$RC" -eq 2 ] && grep -q "zstd" "$T/err"
+else
+    skip zstd_refused "no zstd command"
+fi
