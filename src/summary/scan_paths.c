@@ -438,8 +438,9 @@ static scan_status scan_shard_range(scan_context *sc, const char *path, int fd, 
         snprintf(sc->err, sizeof sc->err,
                  "%s: {shard} splits a compressed file only when it is written in "
                  "independent blocks (gzip as BGZF, e.g. by bgzip from Debian's tabix package); "
-                 "this one is %s in one piece: recompress it as BGZF, or split the data into "
-                 "several compressed files and scan each as a shard", path, kind);
+                 "this one is %s: recompress it as BGZF, or split the data into several "
+                 "compressed files and scan each as a shard", path,
+                 kind[0] == 'g' ? "gzip in one piece" : "zstd (not split, even of many frames)");
         return scan_fail(sc, SCAN_ERR_USAGE, NULL);
     }
     uint64_t skip = csv_bom_length(buf, idlen);

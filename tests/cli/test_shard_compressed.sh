@@ -259,8 +259,8 @@ check short_window.merges_same_as_whole "exit $RC, differs: ${why:0:300}" [ "$RC
 # ------------------------------------------------------------- refusals
 gzip -c "$T/quoted.csv" >"$T/quoted.csv.gz"
 run "$SHEAF" scan -q "$T/quoted.csv.gz" --shard 1/2 -o "$T/x.sheaf"
-check plain_gzip_refused "exit $RC: $(err_text)" [ "$RC" -eq 2 ] && grep -q "gzip in one piece.*BGZF" "$T/err" \
-    || check plain_gzip_names_bgzf "$(err_text)" grep -q "BGZF" "$T/err"
+check plain_gzip_refused "exit $RC: $(err_text)" [ "$RC" -eq 2 ]
+check plain_gzip_names_bgzf "$(err_text)" grep -q "gzip as BGZF, e.g. by bgzip.*gzip in one piece" "$T/err"
 cat "$T/quoted.csv.gz" "$T/quoted.csv.gz" >"$T/two.csv.gz"
 run "$SHEAF" scan -q "$T/two.csv.gz" --shard 2/2 -o "$T/x.sheaf"
 check two_member_gzip_refused "exit $RC: $(err_text)" [ "$RC" -eq 2 ] && grep -q "BGZF" "$T/err"
@@ -279,7 +279,8 @@ check mixed_gzip_last_shard_refused "exit $RC: $(err_text)" [ "$RC" -ne 0 ]
 if command -v zstd >/dev/null; then
     zstd -q -c "$T/quoted.csv" >"$T/quoted.csv.zst"
     run "$SHEAF" scan -q "$T/quoted.csv.zst" --shard 2/2 -o "$T/x.sheaf"
-    check zstd_refused "exit $RC: $(err_text)" [ "$RC" -eq 2 ] && grep -q "zstd" "$T/err"
+    check zstd_refused "exit $RC: $(err_text)" [ "$RC" -eq 2 ]
+    check zstd_refusal_names_bgzf "$(err_text)" grep -q "BGZF.*zstd" "$T/err"
 else
     skip zstd_refused "no zstd command"
 fi
