@@ -187,3 +187,105 @@ ssize_t shard_members_pull(void *ctx, void *buf, size_t cap)
         return n;
     }
 }
+
+/* The frame header at `at`: its size and content size (UINT64_MAX: none),
+ * and whether a checksum follows the last block.  1, 0 (not a zstd frame),
+ * -1 (read error). */
+static int frame_header(int fd, const char *path, uint64_t at, uint32_t *header_bytes,
+                        uint64_t *content, int *checksum, uint64_t *read_bytes, char *err,
+                        size_t errlen)
+{
+    unsigned char h[18];
+    size_t got;
+    if (read_at(fd, path, h, sizeof h, at, &got, read_bytes, err, errlen) != 0) return -1;
+    if (got < 6 || h[0] != 0x28 || h[1] != 0xb5 || h[2] != 0x2f || h[3] != 0xfd) return 0;
+    unsigned fhd = h[4];
+    if (fhd & 0x08) return 0; /* reserved bit */
+    int single = fhd >> 5 & 1;
+    unsigned fcs_flag = fhd >> 6, did_flag = fhd & 3;
+    size_t did = did_flag == 0 ? 0 : did_flag == 1 ? 1 : did_flag == 2 ? 2 : 4;
+    size_t fcs = fcs_flag == 0 ? (size_t)single : fcs_flag == 1 ? 2 : fcs_flag == 2 ? 4 : 8;
+    size_t hb = 5 + (size_t)!single + did + fcs;
+    if (got < hb) return 0;
+    uint64_t v = 0;
+    for (size_t k = 0; k < fcs; k++) v |= (uint64_t)h[5 + !single + did + k] << (8 * k);
+    if (fcs == 2) v += 256;
+    *content = fcs ? v : UINT64_MAX;
+    *checksum = fhd >> 2 & 1;
+    *header_bytes = (uint32_t)hb;
+    return 1;
+}
+
+int shard_frames_walk(int fd, const char *path, uint64_t size, uint64_t lo, uint64_t hi,
+                      uint64_t *start, uint64_t *end, uint64_t *decoded, uint64_t *frames,
+                      uint64_t *read_bytes, char *err, size_t errlen)
+{
+    uint64_t at = 0, own = 0, nframes = 0;
+    int started = 0;
+    *start = *end = size;
+    *frames = 0;
+    while (at < size) {
+        unsigned char m[8];
+        size_t got;
+        if (read_at(fd, path, m, 8, at, &got, read_bytes, err, errlen) != 0) return -1;
+        uint32_t magic = got >= 4 ? (uint32_t)m[0] | (uint32_t)m[1] << 8 |
+                                        (uint32_t)m[2] << 16 | (uint32_t)m[3] << 24 : 0;
+        if (got >= 8 && (magic & 0xfffffff0u) == 0x184d2a50u) { /* skippable */
+            at += 8 + ((uint64_t)m[4] | (uint64_t)m[5] << 8 | (uint64_t)m[6] << 16 |
+                       (uint64_t)m[7] << 24);
+            continue;
+        }
+        uint32_t hb;
+        uint64_t content;
+        int checksum;
+        int v = frame_header(fd, path, at, &hb, &content, &checksum, read_bytes, err, errlen);
+        if (v < 0) return -1;
+        if (v == 0) {
+            snprintf(err, errlen, "%s: no zstd frame header at byte %llu where the frame "
+                     "before ends", path, (unsigned long long)at);
+            return -1;
+        }
+        if (at >= hi) { *end = at; *frames = 0; break; }
+        nframes++;
+        if (at >= lo) {
+            if (!started) { *start = at; started = 1; }
+            if (content == UINT64_MAX) {
+                snprintf(err, errlen, "%s: the zstd frame at byte %llu does not say its "
+                         "decompressed size, which a shard needs (zstd writes it when it "
+                         "compresses a file)", path, (unsigned long long)at);
+                return -1;
+            }
+            own += content;
+        }
+        uint64_t b = at + hb;
+        for (;;) {
+            unsigned char bh[3];
+            if (read_at(fd, path, bh, 3, b, &got, read_bytes, err, errlen) != 0) return -1;
+            if (got < 3) {
+                snprintf(err, errlen, "%s: truncated zstd frame (a block header at byte %llu)",
+                         path, (unsigned long long)b);
+                return -1;
+            }
+            uint32_t w = (uint32_t)bh[0] | (uint32_t)bh[1] << 8 | (uint32_t)bh[2] << 16;
+            unsigned type = w >> 1 & 3;
+            uint64_t bytes = type == 1 ? 1 : (uint64_t)(w >> 3);
+            if (type == 3) {
+                snprintf(err, errlen, "%s: corrupt zstd block header at byte %llu", path,
+                         (unsigned long long)b);
+                return -1;
+            }
+            b += 3 + bytes;
+            if (w & 1) break;
+        }
+        at = b + (checksum ? 4 : 0);
+        if (at > size) {
+            snprintf(err, errlen, "%s: truncated zstd frame (it ends past the file, at byte %llu)",
+                     path, (unsigned long long)at);
+            return -1;
+        }
+        *frames = nframes;
+    }
+    if (!started) *start = *end;
+    *decoded = own;
+    return 0;
+}

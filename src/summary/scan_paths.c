@@ -257,8 +257,9 @@ static scan_status shard_bgzf_from_top(scan_context *sc, const char *path, int f
 }
 
 static scan_status scan_shard_bgzf(scan_context *sc, const char *path, int fd, uint64_t size,
-                                   int64_t mtime, char *buf, summary_source *mark)
+                                   int64_t mtime, char *buf, summary_source *mark, int zstd)
 {
+    const char *format = zstd ? "zstd" : "gzip";
     const scan_options *o = &sc->o;
     uint64_t lo = size * (o->shard_index - 1) / o->shard_count;
     uint64_t hi = size * o->shard_index / o->shard_count;
@@ -268,12 +269,22 @@ static scan_status scan_shard_bgzf(scan_context *sc, const char *path, int fd, u
         return scan_fail(sc, SCAN_ERR_USAGE, NULL);
     }
     /* The members this shard owns: [mlo, mhi), own decoded bytes. */
-    uint64_t mlo, mhi, own;
-    if (shard_members_find(fd, path, size, lo, &mlo, &mark->read_bytes, sc->err,
-                           sizeof sc->err) != 0 ||
-        shard_members_walk(fd, path, size, mlo, hi, &mhi, &own, &mark->read_bytes, sc->err,
-                           sizeof sc->err) != 0)
+    uint64_t mlo, mhi, own, frames = 0;
+    if (zstd ? shard_frames_walk(fd, path, size, lo, hi, &mlo, &mhi, &own, &frames,
+                                 &mark->read_bytes, sc->err, sizeof sc->err) != 0
+             : shard_members_find(fd, path, size, lo, &mlo, &mark->read_bytes, sc->err,
+                                  sizeof sc->err) != 0 ||
+                   shard_members_walk(fd, path, size, mlo, hi, &mhi, &own, &mark->read_bytes,
+                                      sc->err, sizeof sc->err) != 0)
         return scan_fail(sc, errno == ENOMEM ? SCAN_ERR_MEMORY : SCAN_ERR_INPUT, NULL);
+    if (zstd && frames == 1) {
+        snprintf(sc->err, sizeof sc->err,
+                 "%s: {shard} splits a zstd file only when it holds many frames, and this one "
+                 "is one frame: compress pieces separately and concatenate them (zstd -c "
+                 "part1 > f.zst; zstd -c part2 >> f.zst), or recompress as BGZF gzip "
+                 "(bgzip, from Debian's tabix package)", path);
+        return scan_fail(sc, SCAN_ERR_USAGE, NULL);
+    }
     sc->shard_start = mlo;
     sc->shard_end = mhi;
     if (mlo > 0) { /* the header (and the delimiter) from byte 0 */
@@ -344,7 +355,7 @@ static scan_status scan_shard_bgzf(scan_context *sc, const char *path, int fd, u
         /* No record's preceding '\n' in the owned members: an empty shard. */
         summary_source rec = *mark;
         rec.path = (char *)path;
-        snprintf(rec.format, sizeof rec.format, "gzip");
+        snprintf(rec.format, sizeof rec.format, "%s", format);
         rec.size_bytes = size;
         rec.mtime = mtime;
         rec.fingerprint = XXH3_64bits(NULL, 0);
@@ -401,7 +412,7 @@ static scan_status scan_shard_bgzf(scan_context *sc, const char *path, int fd, u
         summary *s = sc->runs[t];
         if (!s->nsources) continue;
         summary_source *src = &s->sources[s->nsources - 1];
-        snprintf(src->format, sizeof src->format, "gzip");
+        snprintf(src->format, sizeof src->format, "%s", format);
         src->raw_bytes = raw.read_bytes; /* compressed, from its first member on */
         src->size_bytes = size;
         src->mtime = mtime;
@@ -433,14 +444,15 @@ static scan_status scan_shard_range(scan_context *sc, const char *path, int fd, 
                            ? "zstd" : NULL;
     uint32_t member;
     if (kind && kind[0] == 'g' && shard_members_header(m, idlen, &member) == 1)
-        return scan_shard_bgzf(sc, path, fd, size, mtime, buf, &mark);
+        return scan_shard_bgzf(sc, path, fd, size, mtime, buf, &mark, 0);
+    if (kind && kind[0] == 'z') return scan_shard_bgzf(sc, path, fd, size, mtime, buf, &mark, 1);
     if (kind) {
         snprintf(sc->err, sizeof sc->err,
                  "%s: {shard} splits a compressed file only when it is written in "
-                 "independent blocks (gzip as BGZF, e.g. by bgzip from Debian's tabix package); "
-                 "this one is %s: recompress it as BGZF, or split the data into several "
-                 "compressed files and scan each as a shard", path,
-                 kind[0] == 'g' ? "gzip in one piece" : "zstd (not split, even of many frames)");
+                 "independent blocks (gzip as BGZF, e.g. by bgzip from Debian's tabix package, "
+                 "or zstd of many frames); this one is gzip in one piece: recompress it as BGZF, "
+                 "or split the data into several compressed files and scan each as a shard",
+                 path);
         return scan_fail(sc, SCAN_ERR_USAGE, NULL);
     }
     uint64_t skip = csv_bom_length(buf, idlen);
