@@ -160,7 +160,10 @@ static uint64_t shard_test_knob(const char *name, uint64_t def)
  * (their transfer map), and the scan reads on past its last member until
  * the record that crosses its end ends.  The members tile the file, so the
  * owned bytes tile the decompressed stream and merge checks the chain as for
- * a plain file, with the member-aligned compressed ranges as the ranges. */
+ * a plain file, with the member-aligned compressed ranges as the ranges.
+ * A zstd file of many frames takes the same path, its data frames for
+ * members, found by walking frame and block headers from the top
+ * (shard_frames_walk). */
 
 /* The bytes a shard's scan reads: the look-ahead it has read already from
  * `first` on, then the rest of its members' decoded stream. */
