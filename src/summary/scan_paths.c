@@ -217,13 +217,14 @@ static int shard_window_fill(source *src, char **win, size_t *wlen, size_t *wcap
     return 0;
 }
 
-/* The prefix rule for a BGZF shard: the mode at its first member's first
- * byte from decoding every member before it, then the first record end in
- * the window (read on when it holds none). */
-static scan_status shard_bgzf_from_top(scan_context *sc, const char *path, int fd, uint64_t size,
-                                       uint64_t mlo, source *inner, char **win, size_t *wlen,
-                                       size_t *wcap, int *at_end, char *buf, uint64_t *read_bytes,
-                                       uint64_t *first, csv_quote_mode *mode)
+/* The prefix rule for a shard of members (BGZF) or frames (zstd): the mode
+ * at its first member's first byte from decoding every member before it,
+ * then the first record end in the window (read on when it holds none). */
+static scan_status shard_members_from_top(scan_context *sc, const char *path, int fd,
+                                          uint64_t size, uint64_t mlo, source *inner, char **win,
+                                          size_t *wlen, size_t *wcap, int *at_end, char *buf,
+                                          uint64_t *read_bytes, uint64_t *first,
+                                          csv_quote_mode *mode)
 {
     shard_members_raw raw = {fd, 0, mlo, 64u << 10, 0};
     source *top = source_open_pull(path, shard_members_pull, &raw, size, sc->err,
@@ -259,8 +260,8 @@ static scan_status shard_bgzf_from_top(scan_context *sc, const char *path, int f
     }
 }
 
-static scan_status scan_shard_bgzf(scan_context *sc, const char *path, int fd, uint64_t size,
-                                   int64_t mtime, char *buf, summary_source *mark, int zstd)
+static scan_status scan_shard_members(scan_context *sc, const char *path, int fd, uint64_t size,
+                                      int64_t mtime, char *buf, summary_source *mark, int zstd)
 {
     const char *format = zstd ? "zstd" : "gzip";
     const scan_options *o = &sc->o;
@@ -284,8 +285,9 @@ static scan_status scan_shard_bgzf(scan_context *sc, const char *path, int fd, u
         snprintf(sc->err, sizeof sc->err,
                  "%s: {shard} splits a zstd file only when it holds many frames, and this one "
                  "is one frame: compress pieces separately and concatenate them (zstd -c "
-                 "part1 > f.zst; zstd -c part2 >> f.zst), or recompress as BGZF gzip "
-                 "(bgzip, from Debian's tabix package)", path);
+                 "part1 > f.zst; zstd -c part2 >> f.zst), recompress as BGZF gzip (bgzip, "
+                 "from Debian's tabix package), or split the data into several compressed "
+                 "files and scan each as a shard", path);
         return scan_fail(sc, SCAN_ERR_USAGE, NULL);
     }
     sc->shard_start = mlo;
@@ -348,7 +350,7 @@ static scan_status scan_shard_bgzf(scan_context *sc, const char *path, int fd, u
             mark->shard_modes = g.modes;
         } else if (st == SCAN_OK) {
             csv_quote_mode t = CSV_AT_FIELD;
-            st = shard_bgzf_from_top(sc, path, fd, size, mlo, inner, &win, &wlen, &wcap, &at_end,
+            st = shard_members_from_top(sc, path, fd, size, mlo, inner, &win, &wlen, &wcap, &at_end,
                                      buf, &mark->read_bytes, &first, &t);
             mark->shard_rule = SHARD_START_PREFIX;
             mark->shard_modes = (uint8_t)(1u << t);
@@ -447,8 +449,8 @@ static scan_status scan_shard_range(scan_context *sc, const char *path, int fd, 
                            ? "zstd" : NULL;
     uint32_t member;
     if (kind && kind[0] == 'g' && shard_members_header(m, idlen, &member) == 1)
-        return scan_shard_bgzf(sc, path, fd, size, mtime, buf, &mark, 0);
-    if (kind && kind[0] == 'z') return scan_shard_bgzf(sc, path, fd, size, mtime, buf, &mark, 1);
+        return scan_shard_members(sc, path, fd, size, mtime, buf, &mark, 0);
+    if (kind && kind[0] == 'z') return scan_shard_members(sc, path, fd, size, mtime, buf, &mark, 1);
     if (kind) {
         snprintf(sc->err, sizeof sc->err,
                  "%s: {shard} splits a compressed file only when it is written in "
