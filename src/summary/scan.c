@@ -15,6 +15,7 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <sys/stat.h>
 #include <unistd.h>
 
 #include "io/chunk.h"
@@ -157,6 +158,30 @@ static scan_status resolve_targets(scan_context *sc, char **names, size_t nnames
     return SCAN_OK;
 }
 
+/* Empty summaries for the scanned columns (sc->plan), one per target: the
+ * first summary of a scan, and of each segment after a cut.  0, or -1 with
+ * the message set. */
+static int make_runs(scan_context *sc)
+{
+    sc->nruns = sc->ntargets ? sc->ntargets : 1;
+    sc->runs = calloc(sc->nruns, sizeof *sc->runs);
+    for (size_t t = 0; sc->runs && t < sc->nruns; t++) {
+        /* The co-moments are fed into the first summary alone (scan_finish
+         * copies them). */
+        summary_options ot = sc->o.opt;
+        ot.target = sc->ntargets ? sc->target_names[t] : NULL;
+        if (!(sc->runs[t] = summary_create(&ot, sc->plan.n, sc->plan.cols, sc->plan.modes, t == 0)))
+            break;
+    }
+    sc->run = sc->runs ? sc->runs[0] : NULL;
+    if (!sc->runs || !sc->runs[sc->nruns - 1]) {
+        snprintf(sc->err, sizeof sc->err, "out of memory: the accumulators of %zu columns%s",
+                 sc->plan.n, sc->nruns > 1 ? " for each target" : "");
+        return -1;
+    }
+    return 0;
+}
+
 /* The schema from the header names (summary/schema.h), then the summary and
  * its chunks (one summary per target). */
 static scan_status setup(scan_context *sc, char **names, size_t nnames)
@@ -212,24 +237,16 @@ static scan_status setup(scan_context *sc, char **names, size_t nnames)
         st = SCAN_ERR_MEMORY;
         goto done;
     }
-    sc->nruns = sc->ntargets ? sc->ntargets : 1;
-    sc->runs = calloc(sc->nruns, sizeof *sc->runs);
-    for (size_t t = 0; sc->runs && t < sc->nruns; t++) {
-        /* The co-moments are fed into the first summary alone (scan_finish
-         * copies them). */
-        summary_options ot = o->opt;
-        ot.target = sc->ntargets ? sc->target_names[t] : NULL;
-        if (!(sc->runs[t] = summary_create(&ot, n, cols, modes, t == 0))) break;
-    }
-    sc->run = sc->runs ? sc->runs[0] : NULL;
-    if (!sc->runs || !sc->runs[sc->nruns - 1]) {
-        snprintf(sc->err, sizeof sc->err, "out of memory: the accumulators of %zu columns%s", n,
-                 sc->nruns > 1 ? " for each target" : "");
+    (void)cols;
+    (void)modes;
+    sc->field_of = plan.field_of;
+    plan.field_of = NULL;
+    sc->plan = plan;
+    memset(&plan, 0, sizeof plan);
+    if (make_runs(sc) != 0) {
         st = SCAN_ERR_MEMORY;
         goto done;
     }
-    sc->field_of = plan.field_of;
-    plan.field_of = NULL;
     sc->file_fields = nnames;
     if (start_work(sc) != 0) {
         snprintf(sc->err, sizeof sc->err,
@@ -278,7 +295,9 @@ static scan_status first_record(scan_context *sc, const csv_field *f, size_t nf)
         return SCAN_OK;
     }
     char **names = calloc(nf ? nf : 1, sizeof *names);
-    sc->first_path = strdup(sc->name);
+    /* A scan of files resumed past the first one meets the header in a later
+     * file: messages still name the first. */
+    sc->first_path = strdup(sc->paths ? sc->paths[0] : sc->name);
     if (!names || !sc->first_path) goto oom;
     for (size_t i = 0; i < nf; i++) {
         names[i] = malloc(f[i].len + 25);
@@ -356,6 +375,137 @@ static scan_status head(scan_context *sc, const reader_chunk *ch, int *found)
     return SCAN_OK;
 }
 
+/* The summaries of the scan (or of the open segment) settled: each
+ * target's cells numbered in key order, the first summary's co-moments
+ * copied into the others, all sealed.  0, or -1 (the scan's error set). */
+static int settle_runs(scan_context *sc)
+{
+    for (size_t t = 0; t < sc->nruns; t++) {
+        summary *s = sc->runs[t];
+        /* The continuous target's cells numbered in key order, every column
+         * brought to that numbering (summary/tcells.h). */
+        if (summary_target_cells_settle(s) != 0 ||
+            (t > 0 && summary_copy_comoments(s, sc->run) != 0) || summary_seal(s) != 0) {
+            scan_fail(sc, SCAN_ERR_MEMORY, "out of memory");
+            return -1;
+        }
+    }
+    return 0;
+}
+
+/* The settled summaries of the open segment merged into the finished
+ * segments (sc->done_set); sc->runs is then empty.  0, or -1. */
+static int absorb_segment(scan_context *sc)
+{
+    summary_set *seg = malloc(sizeof *seg);
+    if (!seg) { scan_fail(sc, SCAN_ERR_MEMORY, "out of memory"); return -1; }
+    seg->n = sc->nruns;
+    seg->parts = sc->runs;
+    sc->runs = NULL;
+    sc->nruns = 0;
+    sc->run = NULL;
+    if (!sc->done_set) {
+        sc->done_set = seg;
+        return 0;
+    }
+    char why[sizeof sc->err - 64];
+    summary_status st = summary_set_merge(sc->done_set, seg, why, sizeof why);
+    summary_set_free(seg);
+    if (st == SUMMARY_OK) return 0;
+    snprintf(sc->err, sizeof sc->err, "joining the scan's segments: %s", why);
+    sc->failed = st == SUMMARY_ERR_MEMORY ? SCAN_ERR_MEMORY : SCAN_ERR_INPUT;
+    return -1;
+}
+
+/* A segment ends before the chunk at `offset` of the current stream (every
+ * chunk before it pushed): its summaries are finished and merged into the
+ * running result, which goes to the checkpoint and is read back from the
+ * bytes written; then fresh summaries and chunk workers take the rest, the
+ * stream's lines and rows carried on.  A scan resumed from this checkpoint
+ * starts at exactly this state (scan_paths.c). */
+static scan_status cut(scan_context *sc, uint64_t offset)
+{
+    scan_status st = chunks_wait(sc->work);
+    if (st != SCAN_OK) return worked(sc, st);
+    uint64_t lines = chunks_lines(sc->work), rows = sc->rows_before + chunks_rows(sc->work);
+    chunks_free(sc->work);
+    sc->work = NULL;
+    if (settle_runs(sc) != 0 || absorb_segment(sc) != 0) return sc->failed;
+    checkpoint c;
+    memset(&c, 0, sizeof c);
+    c.options = sc->options_text;
+    c.nfiles = sc->npaths;
+    c.files = calloc(sc->npaths, sizeof *c.files);
+    if (!c.files) return scan_fail(sc, SCAN_ERR_MEMORY, "out of memory");
+    for (size_t i = 0; i < sc->npaths; i++) {
+        struct stat fs;
+        c.files[i].path = (char *)sc->paths[i];
+        if (i <= sc->file_index) {
+            if (stat(sc->paths[i], &fs) != 0) {
+                free(c.files);
+                snprintf(sc->err, sizeof sc->err, "%s: cannot stat for the checkpoint: %s",
+                         sc->paths[i], strerror(errno));
+                return scan_fail(sc, SCAN_ERR_INPUT, NULL);
+            }
+            c.files[i].size_bytes = (uint64_t)fs.st_size;
+            c.files[i].mtime_ns = (int64_t)fs.st_mtim.tv_sec * 1000000000 + fs.st_mtim.tv_nsec;
+        }
+        if (i < sc->file_index) c.files[i].fingerprint = sc->file_prints[i];
+    }
+    c.file_index = (uint32_t)sc->file_index;
+    c.offset = offset;
+    c.prefix_hash = XXH3_64bits_digest(sc->prefix);
+    c.lines = lines;
+    c.rows = rows;
+    c.number = ++sc->ckpt_number;
+    c.delim = sc->delim;
+    c.done = sc->done_set;
+    summary_set *reread;
+    char why[sizeof sc->err - 64];
+    checkpoint_status cs = checkpoint_write(sc->o.checkpoint, &c, sc->o.checkpoint_pause,
+                                            sc->o.checkpoint_pause_ctx, &reread, why, sizeof why);
+    free(c.files);
+    if (cs != CHECKPOINT_OK)
+        return scan_fail(sc, cs == CHECKPOINT_MEMORY ? SCAN_ERR_MEMORY : SCAN_ERR_INPUT, why);
+    summary_set_free(sc->done_set);
+    sc->done_set = reread;
+    return scan_segment_start(sc, lines, rows);
+}
+
+scan_status scan_segment_start(scan_context *sc, uint64_t lines, uint64_t rows)
+{
+    if (!sc->runs && make_runs(sc) != 0) return scan_fail(sc, SCAN_ERR_MEMORY, NULL);
+    if (!sc->work && start_work(sc) != 0)
+        return scan_fail(sc, SCAN_ERR_MEMORY,
+                         "out of memory: the chunk buffers and worker threads of the scan");
+    chunks_stream(sc->work, sc->shown, sc->stop_at, lines);
+    sc->rows_before = rows;
+    sc->seg_bytes = 0;
+    return SCAN_OK;
+}
+
+/* Resuming: the chunk at the checkpoint's offset, after the chunks before
+ * it were only hashed.  It must begin exactly there, after the very bytes
+ * the checkpoint saw. */
+static scan_status resume_here(scan_context *sc, const reader_chunk *ch)
+{
+    sc->skipping = 0;
+    if (ch->offset != sc->skip_to || XXH3_64bits_digest(sc->prefix) != sc->skip_hash) {
+        snprintf(sc->err, sizeof sc->err,
+                 "%s: its first %llu bytes differ from those checkpoint %s was written after "
+                 "(the file changed); start again without {resume}",
+                 sc->name, (unsigned long long)sc->skip_to, sc->o.checkpoint);
+        return scan_fail(sc, SCAN_ERR_INPUT, NULL);
+    }
+    if (!sc->work) {
+        snprintf(sc->err, sizeof sc->err, "%s: no header before byte %llu, where checkpoint %s "
+                 "resumes; start again without {resume}",
+                 sc->name, (unsigned long long)sc->skip_to, sc->o.checkpoint);
+        return scan_fail(sc, SCAN_ERR_INPUT, NULL);
+    }
+    return scan_segment_start(sc, sc->skip_lines, sc->skip_rows);
+}
+
 /* Hands every complete chunk of the reader to the chunks. */
 static scan_status drain(scan_context *sc)
 {
@@ -375,6 +525,18 @@ static scan_status drain(scan_context *sc)
         } else if (sc->stop_at && ch.offset >= sc->stop_at) {
             sc->done = 1; /* every record from here on is the next shard's */
             break;
+        }
+        if (sc->prefix) { /* segments: a cut, or (resuming) a chunk before the checkpoint */
+            if (sc->skipping && ch.offset + ch.len <= sc->skip_to) {
+                XXH3_64bits_update(sc->prefix, ch.data, ch.len);
+                continue;
+            }
+            scan_status st = SCAN_OK;
+            if (sc->skipping) st = resume_here(sc, &ch);
+            else if (sc->work && sc->seg_bytes >= sc->o.checkpoint_bytes) st = cut(sc, ch.offset);
+            if (st != SCAN_OK) return st;
+            XXH3_64bits_update(sc->prefix, ch.data, ch.len);
+            sc->seg_bytes += ch.len;
         }
         if (!sc->work) { /* blank lines before the first header: their lines count */
             for (size_t i = 0; i < ch.len; i++) sc->blank_lines += ch.data[i] == '\n';
@@ -424,6 +586,8 @@ static scan_status begin(scan_context *sc, const char *name, uint64_t from, uint
     sc->blank_lines = 0;
     if (sc->work) chunks_stream(sc->work, sc->shown, stop_at, 0);
     XXH3_64bits_reset(sc->fed_hash);
+    if (sc->prefix) XXH3_64bits_reset(sc->prefix);
+    sc->rows_before = 0;
     return SCAN_OK;
 }
 
@@ -442,6 +606,14 @@ static scan_status end(scan_context *sc, const summary_source *prov)
         if (st != SCAN_OK) return worked(sc, st);
     }
     sc->open = 0;
+    if (sc->skipping) {
+        sc->skipping = 0;
+        snprintf(sc->err, sizeof sc->err,
+                 "%s: ends before byte %llu, where checkpoint %s resumes (the file changed); "
+                 "start again without {resume}",
+                 sc->name, (unsigned long long)sc->skip_to, sc->o.checkpoint);
+        return scan_fail(sc, SCAN_ERR_INPUT, NULL);
+    }
     if (!sc->delim) sc->delim = reader_delim(sc->rd);
     if (sc->at_first && !sc->run) {
         snprintf(sc->err, sizeof sc->err, "%s: no records (empty input)", sc->name);
@@ -452,7 +624,9 @@ static scan_status end(scan_context *sc, const summary_source *prov)
     rec.path = sc->name;
     rec.start_byte = sc->shard_start;
     rec.end_byte = sc->shard_end;
-    rec.rows = chunks_rows(sc->work);
+    rec.rows = sc->rows_before + chunks_rows(sc->work);
+    if (sc->file_prints && sc->file_index < sc->npaths)
+        sc->file_prints[sc->file_index] = prov->fingerprint;
     for (size_t t = 0; t < sc->nruns; t++) {
         sc->runs[t]->bytes += chunks_absorbed(sc->work);
         if (summary_add_source(sc->runs[t], &rec) != 0)
@@ -505,6 +679,11 @@ void scan_free(scan_context *sc)
     free(sc->repeats);
     free(sc->name);
     if (sc->fed_hash) XXH3_freeState(sc->fed_hash);
+    if (sc->prefix) XXH3_freeState(sc->prefix);
+    schema_plan_free(&sc->plan);
+    summary_set_free(sc->done_set);
+    free(sc->file_prints);
+    free(sc->options_text);
     free(sc);
 }
 
@@ -603,15 +782,15 @@ static int finish_runs(scan_context *sc)
     if (within_limit(sc, 0) != SCAN_OK) return -1;
     chunks_free(sc->work);
     sc->work = NULL;
-    for (size_t t = 0; t < sc->nruns; t++) {
-        summary *s = sc->runs[t];
-        /* The continuous target's cells numbered in key order, every column
-         * brought to that numbering (summary/tcells.h). */
-        if (summary_target_cells_settle(s) != 0 ||
-            (t > 0 && summary_copy_comoments(s, sc->run) != 0) || summary_seal(s) != 0) {
-            scan_fail(sc, SCAN_ERR_MEMORY, "out of memory");
-            return -1;
-        }
+    if (settle_runs(sc) != 0) return -1;
+    if (sc->done_set) {
+        /* Segments: the last one merged into the others, the result the scan's. */
+        if (absorb_segment(sc) != 0) return -1;
+        sc->runs = sc->done_set->parts;
+        sc->nruns = sc->done_set->n;
+        sc->run = sc->runs[0];
+        free(sc->done_set);
+        sc->done_set = NULL;
     }
     return 0;
 }
