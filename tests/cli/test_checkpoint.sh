@@ -213,11 +213,11 @@ refused prefix_changed 3 'first [0-9]* bytes differ' \
     "$T/c.csv" "${EVERY[@]}" --checkpoint "$T/c.ck" --resume
 # A finished file changed in place (same size and mtime): its fingerprint.
 cp -p "$T/p1.csv" "$T/f1.csv"
-killed_in 2 "$T/f.ck" "$T/f1.csv" "$T/p2.csv.gz" "${EVERY[@]}" -o "$T/r.sheaf"
+killed_in 3 "$T/f.ck" "$T/f1.csv" "$T/p2.csv.gz" "$T/p3.csv.zst" "${EVERY[@]}" -o "$T/r.sheaf"
 printf '9' | dd of="$T/f1.csv" bs=1 seek=5000 conv=notrunc status=none
 touch -r "$T/p1.csv" "$T/f1.csv"
 refused finished_file_changed 3 'f1.csv: its bytes changed' \
-    "$T/f1.csv" "$T/p2.csv.gz" "${EVERY[@]}" --checkpoint "$T/f.ck" --resume
+    "$T/f1.csv" "$T/p2.csv.gz" "$T/p3.csv.zst" "${EVERY[@]}" --checkpoint "$T/f.ck" --resume
 # Damaged: a flipped byte inside, or cut short.
 cp "$T/c.ck.keep" "$T/d.ck"
 size=$(stat -c %s "$T/d.ck")
