@@ -123,7 +123,11 @@ resumed_case two_targets 3 "$T/t.csv.zst" --target digit,price "${EVERY[@]}"
 resumed_case classes_dropped 3 "$T/t.csv" --target hits --max-classes 20 --checkpoint-every 1M
 
 # The resumed summary against pandas: rows and the mean of price.
-if "$PY" -c 'import pandas' 2>/dev/null && [ -f "$T/plain.sheaf" ]; then
+if ! "$PY" -c 'import pandas' 2>/dev/null; then
+    skip checkpoint.pandas_mean "python3-pandas not installed"
+elif [ ! -f "$T/plain.sheaf" ]; then
+    fail checkpoint.pandas_mean "no resumed summary of the plain table to check"
+else
     "$SHEAF" info -f json "$T/plain.sheaf" >"$T/plain.json"
     check checkpoint.pandas_mean "rows or the price mean differ from pandas" \
         "$PY" - "$T/t.csv" "$T/plain.json" <<'EOF'
@@ -136,8 +140,6 @@ mean = col.get("mean", col.get("numeric", {}).get("mean") if isinstance(col.get(
 ok = s["rows"] == len(d) and mean is not None and abs(mean - d["price"].mean()) <= 1e-12 * abs(d["price"].mean())
 sys.exit(0 if ok else 1)
 EOF
-else
-    skip checkpoint.pandas_mean "python3-pandas not installed"
 fi
 
 # 3. A kill inside a checkpoint's write: the previous checkpoint is whole
