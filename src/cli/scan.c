@@ -151,6 +151,8 @@ int cmd_scan(int argc, char **argv)
         cli_error("scan", "--checkpoint and -o name the same file '%s'", out);
         goto done;
     }
+    if (o.checkpoint && cli_check_output("scan", o.checkpoint, (const char *const *)pos, npos))
+        goto done;
     o.resume = resume;
     if (o.checkpoint && getenv("SHEAF_TEST_CHECKPOINT_PAUSE")) {
         o.checkpoint_pause = pause_in_checkpoint;
@@ -242,7 +244,8 @@ int cmd_scan(int argc, char **argv)
         rc = st == SCAN_ERR_USAGE    ? EXIT_USAGE
              : st == SCAN_ERR_MEMORY ? EXIT_RESOURCE
              : st == SCAN_ERR_DAMAGED ? EXIT_CORRUPT
-                                      : EXIT_INPUT;
+             : st == SCAN_ERR_WRITE  ? EXIT_FAILED
+                                     : EXIT_INPUT;
         goto done;
     }
     screen_options judged; /* the task is judged by screen's default kind rule */

@@ -270,6 +270,15 @@ checkpoint_status checkpoint_write(const char *path, const checkpoint *c,
     return CHECKPOINT_OK;
 }
 
+checkpoint_status checkpoint_probe(const char *path, char *err, size_t errlen)
+{
+    tempfile t;
+    if (tempfile_open(&t, path, TEMPFILE_SEEKABLE, err, errlen) != 0)
+        return errno == ENOMEM ? CHECKPOINT_MEMORY : CHECKPOINT_IO;
+    tempfile_discard(&t);
+    return CHECKPOINT_OK;
+}
+
 /* ---- reading --------------------------------------------------------------- */
 
 static checkpoint_status damaged(const char *path, char *err, size_t errlen, const char *why)

@@ -82,6 +82,11 @@ checkpoint_status checkpoint_write(const char *path, const checkpoint *c,
                                    void (*pause)(void *ctx, uint64_t number), void *pause_ctx,
                                    summary_set **reread, char *err, size_t errlen);
 
+/* Whether a checkpoint can be written at path (its directory exists and
+ * takes a new file), before a scan spends an hour reading: nothing is left
+ * behind.  CHECKPOINT_OK, or the failure with a message in err. */
+checkpoint_status checkpoint_probe(const char *path, char *err, size_t errlen);
+
 /* Reads a checkpoint (every checksum checked, the summaries decoded) into
  * *c (free with checkpoint_free).  CHECKPOINT_OK, or the failure with a
  * one-line message naming the path in err. */

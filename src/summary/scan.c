@@ -466,7 +466,7 @@ static scan_status cut(scan_context *sc, uint64_t offset)
                                             sc->o.checkpoint_pause_ctx, &reread, why, sizeof why);
     free(c.files);
     if (cs != CHECKPOINT_OK)
-        return scan_fail(sc, cs == CHECKPOINT_MEMORY ? SCAN_ERR_MEMORY : SCAN_ERR_INPUT, why);
+        return scan_fail(sc, cs == CHECKPOINT_MEMORY ? SCAN_ERR_MEMORY : SCAN_ERR_WRITE, why);
     summary_set_free(sc->done_set);
     sc->done_set = reread;
     return scan_segment_start(sc, lines, rows);

@@ -38,7 +38,8 @@ typedef enum {
     SCAN_ERR_USAGE = 1,  /* an option names a column that does not exist, ... */
     SCAN_ERR_INPUT = 2,  /* unreadable or malformed input */
     SCAN_ERR_MEMORY = 3, /* out of memory or over the memory limit */
-    SCAN_ERR_DAMAGED = 4 /* the checkpoint to resume from is damaged */
+    SCAN_ERR_DAMAGED = 4, /* the checkpoint to resume from is damaged */
+    SCAN_ERR_WRITE = 5   /* a checkpoint could not be written */
 } scan_status;
 
 typedef struct {

@@ -191,9 +191,12 @@ static scan_status prepare_checkpoints(scan_context *sc, const char *const *path
     if (!sc->file_prints || !sc->options_text || !sc->prefix)
         return scan_fail(sc, SCAN_ERR_MEMORY, "out of memory");
     XXH3_64bits_reset(sc->prefix);
+    char why[sizeof sc->err - 600];
+    checkpoint_status ps = checkpoint_probe(path, why, sizeof why);
+    if (ps != CHECKPOINT_OK)
+        return scan_fail(sc, ps == CHECKPOINT_MEMORY ? SCAN_ERR_MEMORY : SCAN_ERR_WRITE, why);
     if (!sc->o.resume) return SCAN_OK;
     checkpoint c;
-    char why[sizeof sc->err - 600];
     checkpoint_status cs = checkpoint_read(path, &c, why, sizeof why);
     if (cs == CHECKPOINT_MISSING) {
         snprintf(sc->err, sizeof sc->err, "%s: no checkpoint to resume from (no such file); run "

@@ -62,8 +62,14 @@ reference() {
 
 # 1. SIGKILL at random moments (seeded), resumed each time from the last
 # checkpoint until a run finishes: the summary is the reference's.
+# The moments are seeded fractions of the uninterrupted scan's time (40% to
+# 85% for a scan from the start, past the first checkpoint; 10% to 50% for
+# a resumed one, which has less to do), so that kills land inside the scan
+# on a fast or a busy machine.
 RANDOM=16
+t0=$(date +%s%N)
 reference gzip_random "$T/t.csv.gz" "${EVERY[@]}" -j2
+full_ms=$((($(date +%s%N) - t0) / 1000000))
 ck=$T/g.ck
 rm -f "$ck"
 kills=0 resumed_kills=0 resumes=0 done_rc=
@@ -74,7 +80,9 @@ for attempt in $(seq 12); do
         -o "$T/g.sheaf" 2>"$T/g.err" &
     pid=$!
     if [ "$kills" -lt 4 ]; then
-        sleep "0.$(printf '%02d' $((RANDOM % 35 + 10)))"
+        if [ ${#resume[@]} -gt 0 ]; then ms=$((full_ms * (RANDOM % 40 + 10) / 100))
+        else ms=$((full_ms * (RANDOM % 45 + 40) / 100)); fi
+        sleep "$((ms / 1000)).$(printf '%03d' $((ms % 1000)))"
         if kill -9 "$pid" 2>/dev/null; then
             kills=$((kills + 1))
             [ ${#resume[@]} -gt 0 ] && resumed_kills=$((resumed_kills + 1))
@@ -107,7 +115,7 @@ resumed_case() {
         fail "checkpoint.$name" "the scan did not reach checkpoint $n: $(tr '\n' '|' <"$T/bg.err")"
         return
     fi
-    run "$SHEAF" scan -q "$@" -j2 --checkpoint "$ck" --resume -o "$T/$name.sheaf"
+    run "$SHEAF" scan -q "$@" -j"${RJ:-2}" --checkpoint "$ck" --resume -o "$T/$name.sheaf"
     if [ "$RC" -ne 0 ]; then fail "checkpoint.$name" "resume exit $RC: $(err_text)"; return; fi
     check "checkpoint.$name" "$(first_diff "$T/$name.sheaf" "$T/$name.ref")" \
         cmp -s "$T/$name.sheaf" "$T/$name.ref"
@@ -116,7 +124,7 @@ resumed_case plain 4 "$T/t.csv" "${EVERY[@]}"
 resumed_case zstd 4 "$T/t.csv.zst" "${EVERY[@]}"
 resumed_case gzip_first 2 "$T/t.csv.gz" "${EVERY[@]}"
 resumed_case files_in_second 3 "$T/p1.csv" "$T/p2.csv.gz" "$T/p3.csv.zst" "${EVERY[@]}"
-resumed_case files_in_third 4 "$T/p1.csv" "$T/p2.csv.gz" "$T/p3.csv.zst" "${EVERY[@]}"
+RJ=4 resumed_case files_in_third 4 "$T/p1.csv" "$T/p2.csv.gz" "$T/p3.csv.zst" "${EVERY[@]}"
 resumed_case class_target 3 "$T/t.csv.gz" --target digit "${EVERY[@]}"
 resumed_case text_target 3 "$T/t.csv.gz" --target code "${EVERY[@]}"
 resumed_case two_targets 3 "$T/t.csv.zst" --target digit,price "${EVERY[@]}"
@@ -236,6 +244,13 @@ refused no_checkpoint 2 'no checkpoint to resume from' \
 refused resume_alone 2 '--resume needs --checkpoint FILE' "$T/c.csv" --resume
 refused standard_input 2 'standard input cannot be read again' - --checkpoint "$T/s.ck" </dev/null
 refused with_shard 2 'do not go together' "$T/c.csv" --shard 1/2 --checkpoint "$T/s.ck"
+refused checkpoint_is_input 2 'same file as the input' "$T/c.csv" --checkpoint "$T/c.csv"
+mkdir -p "$T/ro"
+chmod 555 "$T/ro"
+if [ "$(id -u)" -ne 0 ]; then
+    refused unwritable 1 'cannot' "$T/c.csv" "${EVERY[@]}" --checkpoint "$T/ro/x.ck"
+fi
+refused checkpoint_in_missing_dir 1 'x.ck' "$T/c.csv" "${EVERY[@]}" --checkpoint "$T/nodir/x.ck"
 # The intact checkpoint still resumes after all those refusals.
 cp -p "$T/t.csv" "$T/c.csv"
 reference intact "$T/c.csv" "${EVERY[@]}"
