@@ -75,16 +75,24 @@ char *checkpoint_options_text(const scan_options *o)
     add(&b, "max_levels", "%u", o->opt.max_levels);
     add(&b, "bucket_budget", "%u", o->opt.bucket_budget);
     add(&b, "label_bytes", "%u", o->opt.label_bytes);
-    text_buf m = {0};
+    /* The spellings joined by commas, each with its length (a spelling may
+     * hold a comma). */
+    size_t mlen = 1;
+    for (uint32_t i = 0; i < o->opt.n_missing; i++) mlen += strlen(o->opt.missing[i]) + 24;
+    char *m = malloc(mlen);
+    if (!m) { free(b.text); return NULL; }
+    size_t used = 0;
+    m[0] = '\0';
     for (uint32_t i = 0; i < o->opt.n_missing; i++)
-        add(&m, "", "%s", o->opt.missing[i]);
-    add_list(&b, "missing", m.failed ? "?" : m.text ? m.text : "");
-    free(m.text);
+        used += (size_t)snprintf(m + used, mlen - used, "%s%zu:%s", i ? "," : "",
+                                 strlen(o->opt.missing[i]), o->opt.missing[i]);
+    add_list(&b, "missing", m);
+    free(m);
     add(&b, "missing_any_case", "%d", o->opt.missing_any_case);
     add(&b, "chunk_size", "%zu", o->chunk_bytes);
     add(&b, "max_record", "%zu", o->max_record_bytes);
     add(&b, "checkpoint_every", "%llu", (unsigned long long)o->checkpoint_bytes);
-    if (b.failed || m.failed) { free(b.text); return NULL; }
+    if (b.failed) { free(b.text); return NULL; }
     return b.text;
 }
 
