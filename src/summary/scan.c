@@ -15,7 +15,6 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
-#include <sys/stat.h>
 #include <unistd.h>
 
 #include "io/chunk.h"
@@ -103,7 +102,7 @@ static scan_status within_limit(scan_context *sc, int before_rows)
 }
 
 
-static int start_work(scan_context *sc)
+int scan_start_work(scan_context *sc)
 {
     chunks_options co = {sc->runs, sc->nruns, sc->field_of, sc->file_fields, sc->o.header, sc->o.strict,
                          &sc->ro, &sc->missing, sc->threads};
@@ -114,7 +113,7 @@ static int start_work(scan_context *sc)
 }
 
 /* The chunks failed: their failure becomes the scan's. */
-static scan_status worked(scan_context *sc, scan_status st)
+scan_status scan_worked(scan_context *sc, scan_status st)
 {
     snprintf(sc->err, sizeof sc->err, "%s", chunks_error(sc->work));
     sc->failed = st;
@@ -161,7 +160,7 @@ static scan_status resolve_targets(scan_context *sc, char **names, size_t nnames
 /* Empty summaries for the scanned columns (sc->plan), one per target: the
  * first summary of a scan, and of each segment after a cut.  0, or -1 with
  * the message set. */
-static int make_runs(scan_context *sc)
+int scan_make_runs(scan_context *sc)
 {
     sc->nruns = sc->ntargets ? sc->ntargets : 1;
     sc->runs = calloc(sc->nruns, sizeof *sc->runs);
@@ -243,12 +242,12 @@ static scan_status setup(scan_context *sc, char **names, size_t nnames)
     plan.field_of = NULL;
     sc->plan = plan;
     memset(&plan, 0, sizeof plan);
-    if (make_runs(sc) != 0) {
+    if (scan_make_runs(sc) != 0) {
         st = SCAN_ERR_MEMORY;
         goto done;
     }
     sc->file_fields = nnames;
-    if (start_work(sc) != 0) {
+    if (scan_start_work(sc) != 0) {
         snprintf(sc->err, sizeof sc->err,
                  "out of memory: the chunk buffers and worker threads of the scan");
         st = SCAN_ERR_MEMORY;
@@ -323,7 +322,7 @@ static scan_status reading_failed(scan_context *sc)
 {
     if (sc->work) {
         scan_status st = chunks_wait(sc->work);
-        if (st != SCAN_OK) return worked(sc, st);
+        if (st != SCAN_OK) return scan_worked(sc, st);
     }
     return scan_fail(sc, reader_out_of_memory(sc->rd) ? SCAN_ERR_MEMORY : SCAN_ERR_INPUT,
                 reader_error(sc->rd));
@@ -351,7 +350,7 @@ static scan_status head(scan_context *sc, const reader_chunk *ch, int *found)
         uint64_t lines = 0;
         if (sc->work) {
             scan_status st = chunks_wait(sc->work);
-            if (st != SCAN_OK) return worked(sc, st);
+            if (st != SCAN_OK) return scan_worked(sc, st);
             lines = chunks_lines(sc->work);
         }
         reader_cursor_message(&sc->head, sc->shown, lines, sc->err, sizeof sc->err);
@@ -378,7 +377,7 @@ static scan_status head(scan_context *sc, const reader_chunk *ch, int *found)
 /* The summaries of the scan (or of the open segment) settled: each
  * target's cells numbered in key order, the first summary's co-moments
  * copied into the others, all sealed.  0, or -1 (the scan's error set). */
-static int settle_runs(scan_context *sc)
+int scan_settle_runs(scan_context *sc)
 {
     for (size_t t = 0; t < sc->nruns; t++) {
         summary *s = sc->runs[t];
@@ -391,119 +390,6 @@ static int settle_runs(scan_context *sc)
         }
     }
     return 0;
-}
-
-/* The settled summaries of the open segment merged into the finished
- * segments (sc->done_set); sc->runs is then empty.  0, or -1. */
-static int absorb_segment(scan_context *sc)
-{
-    summary_set *seg = malloc(sizeof *seg);
-    if (!seg) { scan_fail(sc, SCAN_ERR_MEMORY, "out of memory"); return -1; }
-    seg->n = sc->nruns;
-    seg->parts = sc->runs;
-    sc->runs = NULL;
-    sc->nruns = 0;
-    sc->run = NULL;
-    if (!sc->done_set) {
-        sc->done_set = seg;
-        return 0;
-    }
-    char why[sizeof sc->err - 64];
-    summary_status st = summary_set_merge(sc->done_set, seg, why, sizeof why);
-    summary_set_free(seg);
-    if (st == SUMMARY_OK) return 0;
-    snprintf(sc->err, sizeof sc->err, "joining the scan's segments: %s", why);
-    sc->failed = st == SUMMARY_ERR_MEMORY ? SCAN_ERR_MEMORY : SCAN_ERR_INPUT;
-    return -1;
-}
-
-/* A segment ends before the chunk at `offset` of the current stream (every
- * chunk before it pushed): its summaries are finished and merged into the
- * running result, which goes to the checkpoint and is read back from the
- * bytes written; then fresh summaries and chunk workers take the rest, the
- * stream's lines and rows carried on.  A scan resumed from this checkpoint
- * starts at exactly this state (scan_paths.c). */
-static scan_status cut(scan_context *sc, uint64_t offset)
-{
-    scan_status st = chunks_wait(sc->work);
-    if (st != SCAN_OK) return worked(sc, st);
-    uint64_t lines = chunks_lines(sc->work), rows = sc->rows_before + chunks_rows(sc->work);
-    chunks_free(sc->work);
-    sc->work = NULL;
-    if (settle_runs(sc) != 0 || absorb_segment(sc) != 0) return sc->failed;
-    checkpoint c;
-    memset(&c, 0, sizeof c);
-    c.options = sc->options_text;
-    c.nfiles = sc->npaths;
-    c.files = calloc(sc->npaths, sizeof *c.files);
-    if (!c.files) return scan_fail(sc, SCAN_ERR_MEMORY, "out of memory");
-    for (size_t i = 0; i < sc->npaths; i++) {
-        struct stat fs;
-        c.files[i].path = (char *)sc->paths[i];
-        if (i <= sc->file_index) {
-            if (stat(sc->paths[i], &fs) != 0) {
-                free(c.files);
-                snprintf(sc->err, sizeof sc->err, "%s: cannot stat for the checkpoint: %s",
-                         sc->paths[i], strerror(errno));
-                return scan_fail(sc, SCAN_ERR_INPUT, NULL);
-            }
-            c.files[i].size_bytes = (uint64_t)fs.st_size;
-            c.files[i].mtime_ns = (int64_t)fs.st_mtim.tv_sec * 1000000000 + fs.st_mtim.tv_nsec;
-        }
-        if (i < sc->file_index) c.files[i].fingerprint = sc->file_prints[i];
-    }
-    c.file_index = (uint32_t)sc->file_index;
-    c.offset = offset;
-    c.prefix_hash = XXH3_64bits_digest(sc->prefix);
-    c.lines = lines;
-    c.rows = rows;
-    c.number = ++sc->ckpt_number;
-    c.delim = sc->delim;
-    c.done = sc->done_set;
-    summary_set *reread;
-    char why[sizeof sc->err - 64];
-    checkpoint_status cs = checkpoint_write(sc->o.checkpoint, &c, sc->o.checkpoint_pause,
-                                            sc->o.checkpoint_pause_ctx, &reread, why, sizeof why);
-    free(c.files);
-    if (cs != CHECKPOINT_OK)
-        return scan_fail(sc, cs == CHECKPOINT_MEMORY ? SCAN_ERR_MEMORY : SCAN_ERR_WRITE, why);
-    summary_set_free(sc->done_set);
-    sc->done_set = reread;
-    return scan_segment_start(sc, lines, rows);
-}
-
-scan_status scan_segment_start(scan_context *sc, uint64_t lines, uint64_t rows)
-{
-    if (!sc->runs && make_runs(sc) != 0) return scan_fail(sc, SCAN_ERR_MEMORY, NULL);
-    if (!sc->work && start_work(sc) != 0)
-        return scan_fail(sc, SCAN_ERR_MEMORY,
-                         "out of memory: the chunk buffers and worker threads of the scan");
-    chunks_stream(sc->work, sc->shown, sc->stop_at, lines);
-    sc->rows_before = rows;
-    sc->seg_bytes = 0;
-    return SCAN_OK;
-}
-
-/* Resuming: the chunk at the checkpoint's offset, after the chunks before
- * it were only hashed.  It must begin exactly there, after the very bytes
- * the checkpoint saw. */
-static scan_status resume_here(scan_context *sc, const reader_chunk *ch)
-{
-    sc->skipping = 0;
-    if (ch->offset != sc->skip_to || XXH3_64bits_digest(sc->prefix) != sc->skip_hash) {
-        snprintf(sc->err, sizeof sc->err,
-                 "%s: its first %llu bytes differ from those checkpoint %s was written after "
-                 "(the file changed); start again without {resume}",
-                 sc->name, (unsigned long long)sc->skip_to, sc->o.checkpoint);
-        return scan_fail(sc, SCAN_ERR_INPUT, NULL);
-    }
-    if (!sc->work) {
-        snprintf(sc->err, sizeof sc->err, "%s: no header before byte %llu, where checkpoint %s "
-                 "resumes; start again without {resume}",
-                 sc->name, (unsigned long long)sc->skip_to, sc->o.checkpoint);
-        return scan_fail(sc, SCAN_ERR_INPUT, NULL);
-    }
-    return scan_segment_start(sc, sc->skip_lines, sc->skip_rows);
 }
 
 /* Hands every complete chunk of the reader to the chunks. */
@@ -532,8 +418,8 @@ static scan_status drain(scan_context *sc)
                 continue;
             }
             scan_status st = SCAN_OK;
-            if (sc->skipping) st = resume_here(sc, &ch);
-            else if (sc->work && sc->seg_bytes >= sc->o.checkpoint_bytes) st = cut(sc, ch.offset);
+            if (sc->skipping) st = scan_resume_here(sc, &ch);
+            else if (sc->work && sc->seg_bytes >= sc->o.checkpoint_bytes) st = scan_cut(sc, ch.offset);
             if (st != SCAN_OK) return st;
             XXH3_64bits_update(sc->prefix, ch.data, ch.len);
             sc->seg_bytes += ch.len;
@@ -554,7 +440,7 @@ static scan_status drain(scan_context *sc)
                                            sc->repeats_cap);
         }
         scan_status st = chunks_push(sc->work, &ch, first, sc->repeats, nrep);
-        if (st != SCAN_OK) return worked(sc, st);
+        if (st != SCAN_OK) return scan_worked(sc, st);
         sc->pushed_bytes = ch.offset + ch.len;
         if (within_limit(sc, 0) != SCAN_OK) return sc->failed;
     }
@@ -603,7 +489,7 @@ static scan_status end(scan_context *sc, const summary_source *prov)
     }
     if (sc->work) {
         scan_status st = chunks_wait(sc->work);
-        if (st != SCAN_OK) return worked(sc, st);
+        if (st != SCAN_OK) return scan_worked(sc, st);
     }
     sc->open = 0;
     if (sc->skipping) {
@@ -782,10 +668,10 @@ static int finish_runs(scan_context *sc)
     if (within_limit(sc, 0) != SCAN_OK) return -1;
     chunks_free(sc->work);
     sc->work = NULL;
-    if (settle_runs(sc) != 0) return -1;
+    if (scan_settle_runs(sc) != 0) return -1;
     if (sc->done_set) {
         /* Segments: the last one merged into the others, the result the scan's. */
-        if (absorb_segment(sc) != 0) return -1;
+        if (scan_absorb_segment(sc) != 0) return -1;
         sc->runs = sc->done_set->parts;
         sc->nruns = sc->done_set->n;
         sc->run = sc->runs[0];

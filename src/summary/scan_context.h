@@ -88,4 +88,20 @@ scan_status scan_file_range(scan_context *sc, const char *path, uint64_t from, u
  * into them.  SCAN_OK or the failure. */
 scan_status scan_segment_start(scan_context *sc, uint64_t lines, uint64_t rows);
 
+/* scan.c, for scan_segments.c: empty summaries for the schema, one per
+ * target (0, or -1 with the message set); the chunk workers over them (0 or
+ * -1); the chunks' failure made the scan's; the open summaries settled and
+ * sealed (0, or -1 with the error set). */
+int scan_make_runs(scan_context *sc);
+int scan_start_work(scan_context *sc);
+scan_status scan_worked(scan_context *sc, scan_status st);
+int scan_settle_runs(scan_context *sc);
+/* scan_segments.c, for scan.c: the open segment's settled summaries merged
+ * into the finished ones (0, or -1); a cut before the chunk at `offset` of
+ * the current stream (SCAN_OK or the failure); the chunk at the
+ * checkpoint's offset of a resumed scan (SCAN_OK or the failure). */
+int scan_absorb_segment(scan_context *sc);
+scan_status scan_cut(scan_context *sc, uint64_t offset);
+scan_status scan_resume_here(scan_context *sc, const reader_chunk *ch);
+
 #endif
