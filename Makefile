@@ -4,7 +4,7 @@ CC      ?= cc
 OBJCOPY ?= objcopy
 OPT     ?= -O3
 CFLAGS  ?= $(OPT) -g
-CFLAGS  += -std=c11 -D_GNU_SOURCE -Wall -Wextra -Iinclude -Isrc -MMD -MP
+CFLAGS  += -std=c11 -ffp-contract=off -D_GNU_SOURCE -Wall -Wextra -Iinclude -Isrc -MMD -MP
 # GSL is linked without its reference CBLAS (-lgslcblas): OpenBLAS provides
 # the cblas_* symbols, so GSL and sheaf's own BLAS calls both use it.
 PKGS    := libisal libzstd libxxhash openblas lapacke
@@ -14,7 +14,7 @@ LDLIBS  := -lgsl $(shell pkg-config --libs $(PKGS) 2>/dev/null || echo -lisal -l
 DEB_PKGS := build-essential pkg-config libisal-dev isal zlib1g-dev libzstd-dev zstd \
             libxxhash-dev libcriterion-dev libgsl-dev libopenblas-dev liblapacke-dev \
             python3-numpy python3-scipy python3-pandas python3-statsmodels python3-sklearn python3-mpmath parallel \
-            hyperfine time bc clang mandoc groff-base
+            hyperfine time bc clang mandoc groff-base slurm-wlm munge openssh-server rsync chromium
 
 NPROC   := $(shell nproc 2>/dev/null || echo 1)
 LIB_SRC := $(wildcard src/io/*.c src/acc/*.c src/summary/*.c src/stats/*.c src/out/*.c src/pass/*.c \
@@ -85,7 +85,9 @@ $(SHARED): $(PIC_OBJ) src/libsheaf.map
 
 # The static library a program links (installed as libsheaf.a): the same
 # hidden-visibility objects joined into one (ld -r) whose hidden symbols are
-# then made local (objcopy --localize-hidden), so that only sheaf_* is global
+# then made local (objcopy --localize-hidden; and --keep-global-symbol for
+# the dispatchers of the hot loops' clones, src/io/clones.h, which GCC makes
+# global whatever the visibility), so that only sheaf_* is global
 # and the internal modules (json_*, table_*, csv_*, ...) cannot clash with a
 # program's own names.  The root libsheaf.a keeps them global: sheaf and the
 # unit tests reach the internals through it.
@@ -94,7 +96,7 @@ STATIC := build/lib/libsheaf.a
 $(STATIC): $(PIC_OBJ)
 	@mkdir -p $(dir $@)
 	$(LD) -r -o build/lib/libsheaf-all.o $(PIC_OBJ)
-	$(OBJCOPY) --localize-hidden build/lib/libsheaf-all.o
+	$(OBJCOPY) --localize-hidden --wildcard --keep-global-symbol='sheaf_*' build/lib/libsheaf-all.o
 	rm -f $@ && $(AR) rcs $@ build/lib/libsheaf-all.o
 
 shared: $(SHARED) $(STATIC)
@@ -185,7 +187,7 @@ uninstall:
 ASAN_DIR    := build/asan
 ASAN_FLAGS  := -O1 -g -fno-omit-frame-pointer -fsanitize=address,undefined \
                -fno-sanitize-recover=undefined
-ASAN_CFLAGS := $(ASAN_FLAGS) -std=c11 -D_GNU_SOURCE -Wall -Wextra -Iinclude -Isrc -MMD -MP
+ASAN_CFLAGS := $(ASAN_FLAGS) -std=c11 -ffp-contract=off -D_GNU_SOURCE -Wall -Wextra -Iinclude -Isrc -MMD -MP
 ASAN_LIB_OBJ := $(LIB_SRC:%.c=$(ASAN_DIR)/%.o)
 ASAN_CLI_OBJ := $(CLI_SRC:%.c=$(ASAN_DIR)/%.o)
 ASAN_TEST_BIN := $(filter-out $(ASAN_DIR)/tests/test_summary,$(TEST_SRC:tests/%.c=$(ASAN_DIR)/tests/%))

@@ -286,6 +286,21 @@ static const char DEMO_HEADER[] =
     "battery_v,dust_mg_m3,co2_ppm,fan_rpm,rssi_dbm,fault_flags,"
     "arrival_condition,energy_kwh";
 
+/* --night 2: the next night of the same fleet, with three planted changes
+ * for `sheaf drift` (and its stamps a day later): the battery voltage
+ * sensors drift 0.35 V low (1.4 sd),
+ * a new carrier (Larkspur Freight) appears on 15% of the legs, and the
+ * gateways stop reporting rssi_dbm (the column is gone).  Night 1, the
+ * default, is the table above, byte for byte as before. */
+static int demo_night = 1;
+static const char DEMO_HEADER_NIGHT2[] =
+    "reading_id,logged_at_ms,schema_rev,carrier_line,cargo_kind,deck_position,"
+    "leg_number,setpoint_c,ambient_c,ambient_aux_c,return_dev_c,door_open_min,"
+    "compressor_duty_pct,transit_h,defrost_interval_h,humidity_pct,vibration_g,"
+    "battery_v,dust_mg_m3,co2_ppm,fan_rpm,fault_flags,"
+    "arrival_condition,energy_kwh";
+static const level_t NEW_CARRIER = LEVEL("Larkspur Freight");
+
 /* Carriers: unrelated to the outcomes.  Two need RFC 4180 quoting. */
 static const level_t CARRIERS[5] = {
     LEVEL("Nordhav"), LEVEL("Blue Heron Lines"), LEVEL("\"Kestrel, Moor & Sons\""),
@@ -328,13 +343,18 @@ static char *demo_row(char *p, uint64_t key, uint64_t row)
     /* Upload stamp shared by a batch of rows; 1.5 s steps plus jitter. */
     uint64_t batch = row / DEMO_BATCH_ROWS;
     uint64_t stamp = DEMO_EPOCH_MS + batch * 1500u + mix64(key + batch) % 500u;
+    if (demo_night == 2)
+        stamp += 86400000u; /* the next night, a day later */
     p = put_u64(p, stamp);
     p = put_str(p, ",3,", 3);
 
     unsigned carrier = pick_cum(rng_uniform(&g), CARRIER_CUM, 5);
     unsigned cargo = pick_cum(rng_uniform(&g), CARGO_CUM, 6);
     unsigned deck = rng_below(&g, 3);
-    p = put_level(p, &CARRIERS[carrier]);
+    if (demo_night == 2 && rng_uniform(&g) < 0.15)
+        p = put_level(p, &NEW_CARRIER);
+    else
+        p = put_level(p, &CARRIERS[carrier]);
     *p++ = ',';
     p = put_level(p, &CARGOS[cargo]);
     *p++ = ',';
@@ -388,7 +408,7 @@ static char *demo_row(char *p, uint64_t key, uint64_t row)
     /* Pure noise. */
     p = put_fixed(p, exp(-2.3 + 0.6 * rng_normal(&g)), 4);
     *p++ = ',';
-    p = put_fixed(p, 12.6 + 0.25 * rng_normal(&g), 2);
+    p = put_fixed(p, 12.6 - (demo_night == 2 ? 0.35 : 0.0) + 0.25 * rng_normal(&g), 2);
     *p++ = ',';
     p = put_sci(p, exp(-9.0 + 1.2 * rng_normal(&g)), 4);
     *p++ = ',';
@@ -396,8 +416,11 @@ static char *demo_row(char *p, uint64_t key, uint64_t row)
     *p++ = ',';
     p = put_fixed(p, 2800.0 + 150.0 * rng_normal(&g), 0);
     *p++ = ',';
-    p = put_i64(p, -110 + (int64_t)rng_below(&g, 61));
-    *p++ = ',';
+    int64_t rssi = -110 + (int64_t)rng_below(&g, 61);
+    if (demo_night != 2) {
+        p = put_i64(p, rssi);
+        *p++ = ',';
+    }
     unsigned flags = 0;
     if (rng_uniform(&g) < 0.08)
         flags = 1 + rng_below(&g, 127);
@@ -897,6 +920,8 @@ static void usage(FILE *f)
         "  --seed S              seed; same seed and rows give the same bytes (default 1)\n"
         "  --profile NAME        demo: refrigerated-container leg reports (default)\n"
         "                        bench: 28 mixed columns for speed tests\n"
+        "  --night N             demo: 1 (default) or 2, the next night with planted drift\n"
+        "                        (a sensor drifts, a carrier appears, rssi_dbm is gone)\n"
         "  --shards K            write K files P-01.csv.gz ... splitting the rows in order\n"
         "  --prefix P            name prefix of the shard files\n"
         "  --shard-suffix EXT    suffix of shard files (default .csv.gz)\n"
@@ -950,6 +975,12 @@ int main(int argc, char **argv)
         } else if (!strcmp(a, "--profile")) {
             NEED_VALUE();
             profile = v;
+        } else if (!strcmp(a, "--night")) {
+            NEED_VALUE();
+            uint64_t n = parse_u64(v, a);
+            if (n < 1 || n > 2)
+                die("--night must be 1 or 2, not %s", v);
+            demo_night = (int)n;
         } else if (!strcmp(a, "--shards")) {
             NEED_VALUE();
             uint64_t k = parse_u64(v, a);
@@ -982,7 +1013,7 @@ int main(int argc, char **argv)
     table_t t = {.crlf = crlf};
     if (!strcmp(profile, "demo")) {
         t.row = demo_row;
-        t.header = DEMO_HEADER;
+        t.header = demo_night == 2 ? DEMO_HEADER_NIGHT2 : DEMO_HEADER;
     } else if (!strcmp(profile, "bench")) {
         t.row = bench_row;
         t.header = BENCH_HEADER;
@@ -991,6 +1022,11 @@ int main(int argc, char **argv)
     }
     /* The profile takes part in the key so the two tables do not share streams. */
     t.key = mix64(seed ^ (t.row == bench_row ? 0x6A09E667F3BCC909ull : 0));
+    if (demo_night != 1) {
+        if (t.row != demo_row)
+            die("--night applies to the demo profile only%s", "");
+        t.key = mix64(t.key ^ 0xBB67AE8584CAA73Bull); /* the next night draws anew */
+    }
 
     if (threads == 0) {
         long n = sysconf(_SC_NPROCESSORS_ONLN);

@@ -40,6 +40,15 @@ echo "== sheaf screen: which columns to keep against arrival_condition"
 ./sheaf screen "$out/legs.sheaf" --write-kept "$out/keep.txt"
 
 echo
+echo "== sheaf drift: the next night (a third of the rows) against this one"
+build/demo/generate --rows "$((rows / 3))" --seed 8 --night 2 -o "$out/legs-night2.csv.gz"
+./sheaf scan "$out/legs-night2.csv.gz" --target arrival_condition -o "$out/legs-night2.sheaf" -q
+drift=0
+./sheaf drift "$out/legs.sheaf" "$out/legs-night2.sheaf" || drift=$?
+echo "   exit status $drift (7: drift found, which a cron job alerts on; 0: quiet)"
+[ "$drift" = 7 ]
+
+echo
 echo "== sheaf trim: the reduced table (second streaming pass)"
 /usr/bin/time -f "   %e s" ./sheaf trim "$out"/legs-0*.csv.gz --summary "$out/legs.sheaf" \
     --carry reading_id -o "$out/legs-reduced.csv.gz"
@@ -58,3 +67,10 @@ echo "== sheaf project: the first component scores (another streaming pass)"
 echo
 echo "Everything above came from one read of each shard plus the two output passes;"
 echo "see README.md for the cautions that apply to the p-values."
+
+echo
+echo "== sheaf page: one HTML page of charts about the night (opens in any browser, offline)"
+./sheaf page "$out/legs.sheaf" -o "$out/night.html" --write-svg "$out/charts"
+echo "   $(realpath "$out/night.html")"
+./sheaf page "$out/legs-night2.sheaf" --base "$out/legs.sheaf" -o "$out/night2.html"
+echo "   $(realpath "$out/night2.html") (the next night, with what drifted since this one)"

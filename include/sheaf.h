@@ -408,6 +408,103 @@ SHEAF_API int sheaf_project_files(const sheaf_summary *s, const sheaf_pca *fit, 
                                   size_t ncarry, const char *const *paths, size_t npaths,
                                   const char *out_path, sheaf_error *err);
 
+/* ---- drift between two summaries -------------------------------------------
+ *
+ * What changed from a baseline summary (last night's) to a new one, per
+ * column and from the summaries alone (docs/drift.md): the population
+ * stability index over the baseline's decile bins, the Kolmogorov-Smirnov
+ * distance with the bound the buckets put on it, the shift of the mean in
+ * baseline standard deviations, the missing, non-numeric and distinct
+ * shares, categories that appeared or vanished with the chi-squared test and
+ * the total-variation distance, correlation pairs whose r moved, relevance
+ * to a shared target, and columns that appeared, vanished or changed kind.
+ * The handle keeps copies of the names it reports, so it may outlive both
+ * summaries. */
+
+typedef struct sheaf_drift sheaf_drift;
+
+/* The thresholds at which a column drifts (sheaf_drift_thresholds_default
+ * gives 0.25, 0.1, 0.5, 0.05, 0.1, 0.2, 0.05, 3 and 0.99). */
+typedef struct {
+    double max_psi;           /* population stability index */
+    double max_ks;            /* Kolmogorov-Smirnov distance reached */
+    double max_shift;         /* |mean shift| in baseline standard deviations */
+    double max_share_change;  /* missing, non-numeric, distinct shares; a category's share */
+    double max_tv;            /* total-variation distance of a text column */
+    double max_r_change;      /* |change of Pearson r| of a pair */
+    double fdr;               /* q level whose crossing counts (same target in both) */
+    unsigned max_rank_change; /* places among the kept columns (0: not checked) */
+    double numeric_share;     /* the kind rule */
+} sheaf_drift_thresholds;
+
+SHEAF_API void sheaf_drift_thresholds_default(sheaf_drift_thresholds *t);
+
+/* Compares next with base (t NULL: the defaults).  NULL on failure:
+ * SHEAF_ERR_INCOMPATIBLE when the two were scanned with different bucket
+ * budgets, value-table sizes, label lengths, missing spellings or letter-case
+ * rules, or declare a shared column differently (the message lists what);
+ * SHEAF_ERR_USAGE for a NULL summary or a threshold out of range;
+ * SHEAF_ERR_MEMORY.  Free with sheaf_drift_free. */
+SHEAF_API sheaf_drift *sheaf_drift_run(const sheaf_summary *base, const sheaf_summary *next,
+                                       const sheaf_drift_thresholds *t, sheaf_error *err);
+SHEAF_API void sheaf_drift_free(sheaf_drift *d);
+/* 1 when a column drifts or a pair moved (the CLI's exit 7), else 0. */
+SHEAF_API int sheaf_drift_found(const sheaf_drift *d);
+/* Columns compared: the baseline's in its order, then those only in the new. */
+SHEAF_API size_t sheaf_drift_column_count(const sheaf_drift *d);
+/* The name of flag bit b (0 <= b < 13: appeared, vanished, kind, psi, ks,
+ * mean_shift, missing_share, non_numeric_share, distinct, categories,
+ * tv, relevance, rank), or NULL. */
+SHEAF_API const char *sheaf_drift_flag_name(unsigned b);
+
+/* The figures of one column; NaN where they do not apply (PSI, KS and the
+ * shift for a column numeric in both, chi-squared and TV for one
+ * categorical in both). */
+typedef struct {
+    const char *name;           /* owned by the handle */
+    unsigned flags;             /* bit b set: flag b (sheaf_drift_flag_name) */
+    int in_base, in_new;        /* present in each */
+    double psi;                 /* over the baseline's decile bins */
+    double ks, ks_bound;        /* ks <= the raw data's D <= ks_bound */
+    double mean_shift;          /* in baseline standard deviations */
+    double base_missing_share, new_missing_share;
+    double base_non_numeric_share, new_non_numeric_share;
+    double base_distinct, new_distinct;
+    double tv;                  /* total-variation distance */
+    int tv_exact;               /* 0: a lower bound (a value table overflowed) */
+    double chi2, chi2_df, chi2_p; /* homogeneity of the two value tables */
+    size_t appeared, vanished;  /* categories in one night only */
+} sheaf_drift_column;
+
+/* Column i into *out: SHEAF_OK, or SHEAF_ERR_USAGE when i is out of range. */
+SHEAF_API int sheaf_drift_column_at(const sheaf_drift *d, size_t i, sheaf_drift_column *out);
+/* Pairs of columns whose r moved by max_r_change or more. */
+SHEAF_API size_t sheaf_drift_pair_count(const sheaf_drift *d);
+/* Pair i: names (owned by the handle) and r in each night; SHEAF_OK, or
+ * SHEAF_ERR_USAGE when i is out of range. */
+SHEAF_API int sheaf_drift_pair_at(const sheaf_drift *d, size_t i, const char **a, const char **b,
+                                  double *base_r, double *new_r);
+
+/* ---- the page: an HTML report of a summary -----------------------------------
+ * What `sheaf page` writes: one self-contained HTML file (inline CSS and SVG,
+ * nothing loaded from anywhere) with an overview, the column table, the
+ * relevance chart, the clustered correlation heat map, the class-conditional
+ * distributions, the scree chart and loadings, and the cautions
+ * (docs/report.md).  o (may be NULL: defaults) gives the screen's
+ * sheaf_options_set_fdr and sheaf_options_set_redundancy; title names the
+ * summary on the page (may be NULL).  html_path (NULL: no page; "-":
+ * standard output) is written whole and renamed into place; with svg_dir
+ * (may be NULL), each chart is also written as its own SVG file into that
+ * folder, created when missing.  With base (may be NULL), the page has the
+ * drift section of `sheaf page --base`: what changed since that summary, at
+ * sheaf_drift_thresholds_default's thresholds.  SHEAF_OK, SHEAF_ERR_IO (a
+ * file could not be written; the message names it), SHEAF_ERR_MEMORY,
+ * SHEAF_ERR_INCOMPATIBLE (base was scanned with other settings), or
+ * SHEAF_ERR_USAGE (neither a page nor a folder asked for). */
+SHEAF_API int sheaf_page_write(const sheaf_summary *s, const sheaf_summary *base,
+                               const sheaf_options *o, const char *title, const char *html_path,
+                               const char *svg_dir, sheaf_error *err);
+
 #ifdef __cplusplus
 }
 #endif

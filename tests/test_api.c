@@ -19,6 +19,7 @@
  * and pasted beside each check with the expression that gave it. */
 #include <criterion/criterion.h>
 #include <math.h>
+#include <dirent.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -1075,5 +1076,55 @@ Test(api, project_scores_match_numpy)
                  SHEAF_ERR_USAGE);
     cr_expect_neq(access(bad, F_OK), 0, "a refused projection left %s", bad);
     sheaf_pca_free(f);
+    sheaf_summary_free(s);
+}
+
+Test(api, page_and_charts_are_written_whole)
+{
+    /* sheaf_page_write: the page of `sheaf page` (docs/report.md), with the
+     * title escaped as text, and each chart as its own SVG file. */
+    sheaf_summary *s = greenhouse();
+    sheaf_error err;
+    char page[128], charts[128], bad[128];
+    cr_assert_eq(sheaf_page_write(s, NULL, NULL, "bench <b>&", in_dir(page, sizeof page, "p.html"),
+                                  in_dir(charts, sizeof charts, "charts"), &err),
+                 SHEAF_OK, "%s", err.message);
+    size_t n;
+    char *text = read_file(page, &n);
+    text[n] = '\0';
+    cr_expect_eq(strncmp(text, "<!DOCTYPE html>", 15), 0);
+    cr_expect_not_null(strstr(text, "bench &lt;b&gt;&amp;"), "the title is escaped");
+    cr_expect_null(strstr(text, "<b>&"), "the title went in raw");
+    cr_expect_not_null(strstr(text, "humidity"));
+    cr_expect_not_null(strstr(text, "</html>"));
+    free(text);
+    DIR *d = opendir(charts);
+    cr_assert_not_null(d);
+    size_t svgs = 0;
+    for (struct dirent *e; (e = readdir(d));) {
+        if (e->d_name[0] == '.') continue;
+        char path[512];
+        snprintf(path, sizeof path, "%s/%s", charts, e->d_name);
+        char *svg = read_file(path, &n);
+        svg[n] = '\0';
+        cr_expect_not_null(strstr(svg, "<svg"), "%s", e->d_name);
+        cr_expect_eq(strcmp(e->d_name + strlen(e->d_name) - 4, ".svg"), 0, "%s", e->d_name);
+        free(svg);
+        svgs++;
+    }
+    closedir(d);
+    cr_expect_geq(svgs, 3, "charts written: %zu", svgs);
+    cr_expect_eq(sheaf_page_write(s, NULL, NULL, NULL, NULL, NULL, &err), SHEAF_ERR_USAGE);
+    cr_expect_eq(sheaf_page_write(s, NULL, NULL, NULL, in_dir(bad, sizeof bad, "no/such/dir/p.html"), NULL,
+                                  &err),
+                 SHEAF_ERR_IO);
+    cr_expect_not_null(strstr(err.message, "no/such/dir"), "%s", err.message);
+    /* Against itself as the baseline: a drift section with nothing drifting. */
+    cr_assert_eq(sheaf_page_write(s, s, NULL, "again", page, NULL, &err), SHEAF_OK, "%s", err.message);
+    text = read_file(page, &n);
+    text[n] = '\0';
+    cr_expect_not_null(strstr(text, "id=\"drift\""), "no drift section");
+    cr_expect_not_null(strstr(text, " 0 of "), "something drifts against itself");
+    free(text);
     sheaf_summary_free(s);
 }

@@ -51,6 +51,7 @@
  *      packages", The American Statistician 50(4).
  *  [4] IEEE 754-2008, binary64 interchange format.
  */
+#include "io/clones.h"
 #include "acc/buckets.h"
 
 #include <math.h>
@@ -451,7 +452,7 @@ int buckets_add(buckets *b, double x, uint32_t cell, uint64_t count)
     return add_new(b, u, cell, count);
 }
 
-int buckets_add_many(buckets *b, const double *x, const uint32_t *cells, size_t n)
+SHEAF_HOT int buckets_add_many(buckets *b, const double *x, const uint32_t *cells, size_t n)
 {
     /* Same as n calls of buckets_add(b, x[i], cells ? cells[i] : 0, 1).  For
      * a run of values the ids and home slots are computed first, and the

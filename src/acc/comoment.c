@@ -44,6 +44,7 @@
  * N exactly and means, M2, co-moments and r to 1e-12 of a long-double
  * two-pass computation.
  */
+#include "io/clones.h"
 #include "acc/comoment.h"
 
 #include "acc/blas.h"
@@ -389,7 +390,7 @@ static void fill_sparse_columns(comoment *c, const double *x, const double *mask
     }
 }
 
-int comoment_add_block(comoment *c, const double *x, const double *mask, const double *center,
+SHEAF_HOT int comoment_add_block(comoment *c, const double *x, const double *mask, const double *center,
                        const unsigned char *complete, size_t rows)
 {
     if (rows == 0 || c->p == 0) return 0;

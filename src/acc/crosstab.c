@@ -57,6 +57,7 @@
  * overflowed == "an overflow-key record exists", and in values mode a finite
  * mean and finite M2 >= 0.
  */
+#include "io/clones.h"
 #include "acc/crosstab.h"
 #include "acc/crosstab_table.h"
 
@@ -233,7 +234,7 @@ int crosstab_add_count(crosstab *t, uint64_t key, uint32_t cell)
     return 0;
 }
 
-int crosstab_add_counts(crosstab *t, const uint64_t *keys, const uint32_t *cells, size_t n)
+SHEAF_HOT int crosstab_add_counts(crosstab *t, const uint64_t *keys, const uint32_t *cells, size_t n)
 {
     enum { AHEAD = 8 }; /* the tables outgrow the caches */
     for (size_t i = 0; i < n; i++) {

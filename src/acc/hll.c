@@ -33,6 +33,7 @@
  *     1 (dense):  16384 register bytes, each 0..51;
  * the writer picks whichever is shorter (sparse while k < 5460).
  */
+#include "io/clones.h"
 #include "acc/hll.h"
 
 #include <math.h>
@@ -67,7 +68,7 @@ void hll_add(hll *h, uint64_t hash)
     h->reg[j] = rank > old ? rank : old; /* a store either way: no branch to mispredict */
 }
 
-void hll_add_many(hll *h, const uint64_t *hash, size_t n)
+SHEAF_HOT void hll_add_many(hll *h, const uint64_t *hash, size_t n)
 {
     enum { PREFETCH = 8 };
     for (size_t i = 0; i < n; i++) {

@@ -9,6 +9,7 @@
  * When the two states have different references, d also carries the exact
  * decimal difference of the references (number_difference).
  */
+#include "io/clones.h"
 #include "acc/moments.h"
 
 #include <math.h>
@@ -41,7 +42,7 @@ static void combine(moments *m, double nb_, double mb, double m2b, double m3b, d
     moments_pair_merge(na, &m->mean, &m->m2, nb, mb, m2b);
 }
 
-void moments_add_block(moments *m, const double *dev, size_t count)
+SHEAF_HOT void moments_add_block(moments *m, const double *dev, size_t count)
 {
     if (count == 0) return;
     double sum = 0;

@@ -34,6 +34,7 @@
  *     VALUES_OVERFLOW_SLOTS x u64 count,
  * with overflowed == 1 exactly when some overflow slot is non-zero.
  */
+#include "io/clones.h"
 #include "acc/values.h"
 
 #include "acc/radix.h"
@@ -272,7 +273,7 @@ static int build_filter(values *v)
     return 0;
 }
 
-long values_add_many(values *v, const uint64_t *hash, const char *const *text,
+SHEAF_HOT long values_add_many(values *v, const uint64_t *hash, const char *const *text,
                      const uint32_t *len, size_t n, int stop_at_overflow)
 {
     enum { PREFETCH = 8 };

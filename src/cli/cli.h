@@ -15,7 +15,8 @@ enum {
     EXIT_INPUT = 3,        /* unreadable or malformed input data */
     EXIT_CORRUPT = 4,      /* a summary file is damaged, truncated or too new */
     EXIT_INCOMPATIBLE = 5, /* summaries that cannot be combined */
-    EXIT_RESOURCE = 6      /* out of memory or over --mem */
+    EXIT_RESOURCE = 6,     /* out of memory or over --mem */
+    EXIT_DRIFT = 7         /* drift: a threshold was crossed (the comparison itself succeeded) */
 };
 
 typedef struct {
@@ -236,5 +237,7 @@ int cmd_screen(int argc, char **argv);
 int cmd_trim(int argc, char **argv);
 int cmd_pca(int, char **);
 int cmd_project(int, char **);
+int cmd_drift(int, char **);
+int cmd_page(int, char **);
 
 #endif

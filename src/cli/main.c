@@ -33,6 +33,8 @@ static const command COMMANDS[] = {
     {"trim", cmd_trim, "write the table with only the kept columns"},
     {"pca", cmd_pca, "principal components of the correlation or covariance matrix"},
     {"project", cmd_project, "scores of the leading principal components, row by row"},
+    {"drift", cmd_drift, "what changed between two summaries (last night and tonight)"},
+    {"page", cmd_page, "one self-contained HTML page of charts about a summary"},
 };
 
 static void help(FILE *f)
@@ -52,7 +54,8 @@ static void help(FILE *f)
                "  3  bad input data (unreadable, malformed, truncated or corrupt stream)\n"
                "  4  damaged, truncated or newer summary file\n"
                "  5  incompatible summaries (different columns or options)\n"
-               "  6  resource limit (out of memory, over --mem)\n");
+               "  6  resource limit (out of memory, over --mem)\n"
+               "  7  drift found (sheaf drift: a threshold was crossed)\n");
 }
 
 /* A closed standard descriptor (`>&-`) is held by /dev/null opened the
@@ -180,5 +183,5 @@ int main(int argc, char **argv)
     hold_closed_std_fds();
     int rc = run(argc, argv);
     int out = cli_close_stdout();
-    return rc == EXIT_DONE ? out : rc;
+    return rc == EXIT_DONE || (rc == EXIT_DRIFT && out) ? out : rc;
 }

@@ -1,4 +1,5 @@
 /* block: see block.h. */
+#include "io/clones.h"
 #include "summary/block.h"
 
 #include <math.h>
@@ -79,7 +80,7 @@ static inline void two_sum_into(double *s, double *low, double x)
  * block sums corrected by a second pass over the residuals, 13.2 digits (the
  * residuals' partial sums wander to sqrt(n_b) standard deviations and round
  * there). */
-static void feed_classes(summary_column *c, block_lane *l, const block_rows *b)
+SHEAF_HOT static void feed_classes(summary_column *c, block_lane *l, const block_rows *b)
 {
     struct block_class *bc = l->cls_tmp; /* indexed by class 1..K */
     uint32_t *touched = l->cls_touched, nt = 0;
@@ -147,7 +148,7 @@ static inline int integer_valued(double x)
     return (a >= 0x1p52) | ((a + 0x1p52) - 0x1p52 == a);
 }
 
-static void scan_extent(const double *v, size_t n, number_extent *e)
+SHEAF_HOT static void scan_extent(const double *v, size_t n, number_extent *e)
 {
     size_t i = 0;
     double lo = e->lo, hi = e->hi;
@@ -192,7 +193,7 @@ static void scan_extent(const double *v, size_t n, number_extent *e)
     e->hi = hi;
 }
 
-int block_feed(summary_column *c, block_lane *l, const block_rows *b)
+SHEAF_HOT int block_feed(summary_column *c, block_lane *l, const block_rows *b)
 {
     int classes = b->classes;
     /* The sketch only matters once the exact table overflows: until then it
@@ -298,7 +299,7 @@ void block_como_free(block_como *bc)
     memset(bc, 0, sizeof *bc);
 }
 
-int block_comoments(summary *run, block_como *bc, const double *const *dev,
+SHEAF_HOT int block_comoments(summary *run, block_como *bc, const double *const *dev,
                     const unsigned char *const *present, size_t rows)
 {
     size_t p = run->ncomo;
@@ -458,9 +459,27 @@ __attribute__((target("ssse3"))) static void decode_decimals_ssse3(summary_colum
     const int decimals = 1;
     DECODE_NUMBERS(number_parse_padded);
 }
+
+#if defined(SHEAF_HAVE_CLONES)
+/* The same two for x86-64-v3 (io/clones.h): the parser's SSSE3 steps are
+ * the same instructions, the loop around them gains BMI2 and AVX2. */
+__attribute__((target("arch=x86-64-v3"))) static void decode_numbers_v3(summary_column *c,
+                                                                       block_lane *l, size_t n)
+{
+    const int decimals = 0;
+    DECODE_NUMBERS(number_parse_padded);
+}
+
+__attribute__((target("arch=x86-64-v3"))) static void decode_decimals_v3(summary_column *c,
+                                                                        block_lane *l, size_t n)
+{
+    const int decimals = 1;
+    DECODE_NUMBERS(number_parse_padded);
+}
+#endif
 #endif
 
-void block_decode(summary_column *c, block_lane *l, int simd)
+SHEAF_HOT void block_decode(summary_column *c, block_lane *l, int simd)
 {
     const size_t n = l->ncells;
     for (size_t i = 0; i < n; i++) l->hash[i] = XXH3_64bits(l->text[i], l->len[i]);
@@ -468,6 +487,13 @@ void block_decode(summary_column *c, block_lane *l, int simd)
     int decimals = l->decimals && c->pairs;
 #if defined(NUMBER_SIMD)
     if (simd) {
+#if defined(SHEAF_HAVE_CLONES)
+        if (__builtin_cpu_supports("x86-64-v3")) {
+            if (decimals) decode_decimals_v3(c, l, n);
+            else decode_numbers_v3(c, l, n);
+            return;
+        }
+#endif
         if (decimals) decode_decimals_ssse3(c, l, n);
         else decode_numbers_ssse3(c, l, n);
         return;

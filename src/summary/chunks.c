@@ -10,6 +10,7 @@
  * A worker takes the oldest ready task: R first (it unlocks the columns),
  * then the column whose next chunk is oldest, then C, then T.
  */
+#include "io/clones.h"
 #include "summary/chunks.h"
 
 #include <pthread.h>
@@ -94,7 +95,7 @@ static void tokenize(chunks *w, job *j)
 
 /* The cells of rows [start, end) of one column into the lane, less the
  * missing ones (counted in *missing when given). */
-static void fill_lane(const chunks *w, const job *j, size_t col, uint32_t start, uint32_t end,
+SHEAF_HOT static void fill_lane(const chunks *w, const job *j, size_t col, uint32_t start, uint32_t end,
                       block_lane *l, uint64_t *missing)
 {
     const csv_span *cells = j->cells + (size_t)w->o.field_of[col] * j->rows_cap;
@@ -205,7 +206,7 @@ static int column_own_block(chunks *w, job *j, size_t t, size_t col, const block
  * once for every target, except in the chunks where a target's blocks
  * leave the grid (at most one drop of its classes and TCELLS_MAX_EPOCHS
  * renumberings in a scan): that target's blocks there are decoded again. */
-static int group_of(chunks *w, job *j, size_t g, block_lane *l, char *msg, size_t msglen)
+SHEAF_HOT static int group_of(chunks *w, job *j, size_t g, block_lane *l, char *msg, size_t msglen)
 {
     size_t ngrid = (j->rows + SUMMARY_BLOCK_ROWS - 1) / SUMMARY_BLOCK_ROWS, col = 0;
     for (size_t i = w->group_at[g]; i < w->group_at[g + 1]; i++)

@@ -108,7 +108,7 @@ check json_utf8_cut "$ok" [ "$ok" = yes ]
 
 # --help fits 80 columns in a file or a pipe (no width known), and the width
 # of a terminal (COLUMNS) when it has one: option help wraps under itself.
-for c in "" scan info merge corr screen trim pca project; do
+for c in "" scan info merge corr screen trim pca project page; do
     wide=$(env -u COLUMNS $SHEAF $c --help 2>&1 | awk 'length($0) > 80 { n++ } END { print n + 0 }')
     check "help_80.${c:-top}" "$wide lines wider than 80" [ "$wide" = 0 ]
 done

@@ -129,7 +129,7 @@ run "$S" info -- "$T/fly.sheaf"
 check options.double_dash "exit $RC" [ "$RC" -eq 0 ]
 
 # ---- help, version, examples ------------------------------------------------
-for c in scan info merge corr screen trim pca project; do
+for c in scan info merge corr screen trim pca project page; do
     "$S" "$c" --help >"$T/a" 2>&1
     run "$S" help "$c"
     check "help.$c.same_as_dash_help" "exit $RC, $(first_diff "$T/out" "$T/a")" \

@@ -19,7 +19,7 @@ set -u
 cd "$(dirname "$0")/../.." || exit 0
 . tests/cli/common.sh
 cli_setup vocabulary python || exit 0
-COMMANDS="scan info merge corr screen trim pca project"
+COMMANDS="scan info merge corr screen trim pca project page"
 
 # ---- lib.*: no option names in the library's messages ---------------------
 # flag_literals FILE...: "file:line: literal" for each C string literal with
@@ -173,16 +173,16 @@ check renamed.every_case_listed_in_help "$listed listed, $n cases" [ "$listed" =
 # command, needs a line here (or its commands added to the line of the same
 # meaning): a name is never given a second meaning.
 TABLE='
-output|the file written (- : standard output)|scan merge trim project
+output|the file written (- : standard output)|scan merge trim project page
 format|the output format (text, csv, json)|info corr screen pca
-target|the outcome column (scan: which to record; later: which one to use)|scan info corr screen trim pca project
+target|the outcome column (scan: which to record; later: which one to use)|scan info corr screen trim pca project page
 columns|the columns to use (others left out)|scan corr pca project
 exclude|columns to leave out|scan pca project
 columns-from|a file of column names to use, one per line (read)|trim pca project
 write-kept|a file the kept column names are written to|screen
 summary|the summary of the data a pass over it uses|trim project
 carry|columns copied unchanged in front of the result|trim project
-numeric-share|share of parsing cells that makes a column numeric|info corr screen pca project
+numeric-share|share of parsing cells that makes a column numeric|info corr screen pca project page
 color|colour and bold: auto, always, never|info corr screen pca
 delim|the field delimiter|scan trim project
 no-header|the first row is data|scan trim project
@@ -197,10 +197,10 @@ with-target|the target column may be a component input|pca project
 leading|largest loadings listed per component|pca
 top-values|most frequent values shown per column|info
 max-kept|at most this many columns kept|screen trim
-fdr|the false discovery rate level for q-values|screen trim
+fdr|the false discovery rate level for q-values|screen trim page
 rank-by|the key that ranks kept columns|screen
 bins|equal-frequency bins for mutual information|screen
-redundancy|the absolute r at which two kept columns are redundant|screen
+redundancy|the absolute r at which two kept columns are redundant|screen page
 missing-share|share of missing cells that flags a column too sparse|screen
 min-variance|variance below which a column has little information|screen
 keep-mirrors|keep columns that mirror the target|screen
@@ -219,6 +219,8 @@ shard|read one of N byte ranges|scan
 checkpoint|save the scan so far, to resume it after a kill|scan
 checkpoint-every|decompressed input between checkpoints|scan
 resume|go on from the checkpoint|scan
+write-svg|a folder each chart is written to as an SVG file|page
+base|a baseline summary whose drift a page shows|page
 '
 declare -A on
 for cmd in $COMMANDS; do

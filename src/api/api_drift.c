@@ -1,0 +1,157 @@
+/* api_drift: the drift handle of the public API (include/sheaf.h) over
+ * stats/drift.h.  The handle keeps the internal result with copies of every
+ * name it reports, so it may outlive the two summaries. */
+#include "api/api.h"
+
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "stats/drift.h"
+
+struct sheaf_drift {
+    drift_result *r;   /* owned; its names point into `names` once copied */
+    char **names;      /* r->ncolumns column names, owned */
+    char **pair_names; /* 2 * r->npairs names, owned */
+};
+
+void sheaf_drift_thresholds_default(sheaf_drift_thresholds *t)
+{
+    drift_options o;
+    drift_options_defaults(&o);
+    *t = (sheaf_drift_thresholds){o.max_psi, o.max_ks, o.max_shift, o.max_share_change,
+                                  o.max_tv, o.max_r_change, o.fdr, o.max_rank_change,
+                                  o.numeric_share};
+}
+
+static void free_list(char **l, size_t n)
+{
+    if (!l) return;
+    for (size_t i = 0; i < n; i++) free(l[i]);
+    free(l);
+}
+
+void sheaf_drift_free(sheaf_drift *d)
+{
+    if (!d) return;
+    if (d->r) {
+        free_list(d->names, d->r->ncolumns);
+        free_list(d->pair_names, 2 * d->r->npairs);
+    }
+    drift_free(d->r);
+    free(d);
+}
+
+/* 1 when v is a threshold above 0 (at most 1 for a share). */
+static int in_range(double v, int share) { return v > 0 && isfinite(v) && (!share || v <= 1); }
+
+sheaf_drift *sheaf_drift_run(const sheaf_summary *base, const sheaf_summary *next,
+                             const sheaf_drift_thresholds *t, sheaf_error *err)
+{
+    if (!base || !next) {
+        api_fail(err, SHEAF_ERR_USAGE, "sheaf_drift_run: no summary (NULL)");
+        return NULL;
+    }
+    drift_options o;
+    drift_options_defaults(&o);
+    if (t) {
+        if (!in_range(t->max_psi, 0) || !in_range(t->max_ks, 1) || !in_range(t->max_shift, 0) ||
+            !in_range(t->max_share_change, 1) || !in_range(t->max_tv, 1) ||
+            !in_range(t->max_r_change, 0) || !in_range(t->fdr, 1) ||
+            !in_range(t->numeric_share, 1)) {
+            api_fail(err, SHEAF_ERR_USAGE, "sheaf_drift_run: a threshold is out of range "
+                     "(each above 0; shares, KS, TV and the fdr at most 1)");
+            return NULL;
+        }
+        o = (drift_options){t->numeric_share, t->max_psi, t->max_ks, t->max_shift,
+                            t->max_share_change, t->max_tv, t->max_r_change, t->fdr,
+                            t->max_rank_change};
+    }
+    char msg[SHEAF_ERROR_BYTES];
+    sheaf_drift *d = calloc(1, sizeof *d);
+    if (!d) goto oom;
+    drift_status st = drift_run(base->s, next->s, &o, &d->r, msg, sizeof msg);
+    if (st == DRIFT_ERR_INCOMPATIBLE) {
+        api_fail(err, SHEAF_ERR_INCOMPATIBLE, "the summaries were scanned differently: %s", msg);
+        sheaf_drift_free(d);
+        return NULL;
+    }
+    if (st != DRIFT_OK) goto oom;
+    drift_result *r = d->r;
+    d->names = calloc(r->ncolumns ? r->ncolumns : 1, sizeof *d->names);
+    d->pair_names = calloc(r->npairs ? 2 * r->npairs : 1, sizeof *d->pair_names);
+    if (!d->names || !d->pair_names) goto oom;
+    for (size_t i = 0; i < r->ncolumns; i++) {
+        if (!(d->names[i] = strdup(r->columns[i].name))) goto oom;
+        r->columns[i].name = d->names[i];
+    }
+    for (size_t i = 0; i < r->npairs; i++) {
+        if (!(d->pair_names[2 * i] = strdup(r->pairs[i].a))) goto oom;
+        if (!(d->pair_names[2 * i + 1] = strdup(r->pairs[i].b))) goto oom;
+        r->pairs[i].a = d->pair_names[2 * i];
+        r->pairs[i].b = d->pair_names[2 * i + 1];
+    }
+    /* Nothing else in the result points into the summaries that the API
+     * reads: the category labels and the target name are not reported. */
+    return d;
+oom:
+    sheaf_drift_free(d);
+    api_fail(err, SHEAF_ERR_MEMORY, "out of memory while comparing the summaries");
+    return NULL;
+}
+
+int sheaf_drift_found(const sheaf_drift *d)
+{
+    return d && (d->r->drifting > 0 || d->r->npairs > 0);
+}
+
+size_t sheaf_drift_column_count(const sheaf_drift *d) { return d ? d->r->ncolumns : 0; }
+
+const char *sheaf_drift_flag_name(unsigned b)
+{
+    return b < DRIFT_NFLAGS ? drift_flag_names[b] : NULL;
+}
+
+int sheaf_drift_column_at(const sheaf_drift *d, size_t i, sheaf_drift_column *out)
+{
+    if (!d || !out || i >= d->r->ncolumns) return SHEAF_ERR_USAGE;
+    const drift_column *c = &d->r->columns[i];
+    *out = (sheaf_drift_column){
+        .name = c->name,
+        .flags = c->flags,
+        .in_base = c->base.col >= 0,
+        .in_new = c->next.col >= 0,
+        .psi = c->psi,
+        .ks = c->ks,
+        .ks_bound = c->ks_bound,
+        .mean_shift = c->mean_shift,
+        .base_missing_share = c->base.missing_share,
+        .new_missing_share = c->next.missing_share,
+        .base_non_numeric_share = c->base.non_numeric_share,
+        .new_non_numeric_share = c->next.non_numeric_share,
+        .base_distinct = c->base.distinct,
+        .new_distinct = c->next.distinct,
+        .tv = c->tv,
+        .tv_exact = c->tv_exact,
+        .chi2 = c->chi2,
+        .chi2_df = c->chi2_df,
+        .chi2_p = c->chi2_p,
+        .appeared = c->appeared,
+        .vanished = c->vanished,
+    };
+    return SHEAF_OK;
+}
+
+size_t sheaf_drift_pair_count(const sheaf_drift *d) { return d ? d->r->npairs : 0; }
+
+int sheaf_drift_pair_at(const sheaf_drift *d, size_t i, const char **a, const char **b,
+                        double *base_r, double *new_r)
+{
+    if (!d || i >= d->r->npairs) return SHEAF_ERR_USAGE;
+    const drift_pair *p = &d->r->pairs[i];
+    if (a) *a = p->a;
+    if (b) *b = p->b;
+    if (base_r) *base_r = p->r_base;
+    if (new_r) *new_r = p->r_next;
+    return SHEAF_OK;
+}
