@@ -216,7 +216,7 @@ missing|spellings of a missing value|scan
 max-levels|exact value counts per column|scan
 bucket-budget|occupied value buckets per column|scan
 shard|read one of N byte ranges|scan
-shard-from-top|find a shard's first record from the top of the file|scan
+shard-from-top|find the first record of a shard from the top of the file|scan
 checkpoint|save the scan so far, to resume it after a kill|scan
 checkpoint-every|decompressed input between checkpoints|scan
 resume|go on from the checkpoint|scan
