@@ -81,6 +81,8 @@ int api_scan_code(scan_status st)
     case SCAN_OK: return SHEAF_OK;
     case SCAN_ERR_USAGE: return SHEAF_ERR_USAGE;
     case SCAN_ERR_MEMORY: return SHEAF_ERR_MEMORY;
+    case SCAN_ERR_DAMAGED: return SHEAF_ERR_CORRUPT;
+    case SCAN_ERR_WRITE: return SHEAF_ERR_IO;
     default: return SHEAF_ERR_INPUT;
     }
 }

@@ -1,4 +1,5 @@
 /* sheaf scan: data files -> summary file. */
+#include <errno.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -45,12 +46,24 @@ static void print_warnings(const held_warnings *h)
     if (h->dropped) fprintf(stderr, "sheaf scan: warning: out of memory for a warning\n");
 }
 
+/* SHEAF_TEST_CHECKPOINT_PAUSE=N (tests only, not documented in --help):
+ * checkpoint N stops for a minute inside its write, after a line on
+ * standard error, so that a test can kill the scan there. */
+static void pause_in_checkpoint(void *ctx, uint64_t number)
+{
+    const char *at = ctx;
+    if (strtoull(at, NULL, 10) != number) return;
+    fprintf(stderr, "sheaf scan: test: paused inside checkpoint %llu\n", (unsigned long long)number);
+    fflush(stderr);
+    sleep(60);
+}
+
 int cmd_scan(int argc, char **argv)
 {
     const char *out = NULL, *delim = NULL, *chunk = NULL, *maxrec = NULL, *missing = NULL;
     const char *levels = NULL, *budget = NULL, *target = NULL, *task = NULL, *classes = NULL;
-    const char *mem = NULL, *shard = NULL, *threads = NULL;
-    int no_header = 0, strict = 0, quiet = 0, force = 0, from_top = 0;
+    const char *mem = NULL, *shard = NULL, *threads = NULL, *every = NULL;
+    int no_header = 0, strict = 0, quiet = 0, force = 0, from_top = 0, resume = 0;
     held_warnings held = {0};
     scan_options o;
     scan_options_defaults(&o);
@@ -85,6 +98,14 @@ int cmd_scan(int argc, char **argv)
          "(one plain file)", &shard, NULL},
         {"shard-from-top", 0, NULL, "find the shard's first record by reading the file from its "
          "top, not by guessing from the bytes near its range (docs/shards.md)", NULL, &from_top},
+        {"checkpoint", 0, "FILE", "save the scan so far to FILE now and then (atomically), so "
+         "that a killed scan can go on with --resume; removed when the scan succeeds",
+         &o.checkpoint, NULL},
+        {"checkpoint-every", 0, "SIZE", "decompressed input between checkpoints (default 256M)",
+         &every, NULL},
+        {"resume", 0, NULL, "go on from the --checkpoint FILE of the same scan killed before; "
+         "the summary is the one an uninterrupted scan with --checkpoint writes, byte for byte",
+         NULL, &resume},
         {"threads", 'j', "N", CLI_THREADS_HELP, &threads, NULL},
         {"quiet", 'q', NULL, "no progress line, closing line or notes on ragged or mixed input",
          NULL, &quiet},
@@ -119,6 +140,28 @@ int cmd_scan(int argc, char **argv)
     }
     if (cli_parse_reading("scan", chunk, maxrec, &o.chunk_bytes, &o.max_record_bytes)) goto done;
     if (cli_parse_threads("scan", threads, &o.threads)) goto done;
+    if ((every || resume) && !o.checkpoint) {
+        cli_error("scan", "%s needs --checkpoint FILE", resume ? "--resume" : "--checkpoint-every");
+        goto done;
+    }
+    if (every) {
+        if ((v = cli_parse_size(every)) < 1) {
+            cli_error("scan", "--checkpoint-every must be a size such as 64M or 1G, got '%s'", every);
+            goto done;
+        }
+        o.checkpoint_bytes = (uint64_t)v;
+    }
+    if (o.checkpoint && !strcmp(o.checkpoint, out)) {
+        cli_error("scan", "--checkpoint and -o name the same file '%s'", out);
+        goto done;
+    }
+    if (o.checkpoint && cli_check_output("scan", o.checkpoint, (const char *const *)pos, npos))
+        goto done;
+    o.resume = resume;
+    if (o.checkpoint && getenv("SHEAF_TEST_CHECKPOINT_PAUSE")) {
+        o.checkpoint_pause = pause_in_checkpoint;
+        o.checkpoint_pause_ctx = getenv("SHEAF_TEST_CHECKPOINT_PAUSE");
+    }
     if (levels) {
         if ((v = cli_parse_count(levels)) < 1 || v > (1 << 24)) {
             cli_error("scan", "--max-levels must be between 1 and 16777216, got '%s'", levels);
@@ -204,7 +247,11 @@ int cmd_scan(int argc, char **argv)
     cli_progress_end(&ps);
     if (st != SCAN_OK) {
         cli_error("scan", "%s", err);
-        rc = st == SCAN_ERR_USAGE ? EXIT_USAGE : st == SCAN_ERR_MEMORY ? EXIT_RESOURCE : EXIT_INPUT;
+        rc = st == SCAN_ERR_USAGE    ? EXIT_USAGE
+             : st == SCAN_ERR_MEMORY ? EXIT_RESOURCE
+             : st == SCAN_ERR_DAMAGED ? EXIT_CORRUPT
+             : st == SCAN_ERR_WRITE  ? EXIT_FAILED
+                                     : EXIT_INPUT;
         goto done;
     }
     screen_options judged; /* the task is judged by screen's default kind rule */
@@ -224,6 +271,10 @@ int cmd_scan(int argc, char **argv)
         rc = ws == SUMMARY_ERR_MEMORY ? EXIT_RESOURCE : EXIT_FAILED;
         goto done;
     }
+    /* The summary is safe: the checkpoint has served. */
+    if (o.checkpoint && unlink(o.checkpoint) != 0)
+        cli_error("scan", "warning: cannot remove the checkpoint %s: %s", o.checkpoint,
+                  strerror(errno));
     print_warnings(&held);
     if (shard && !from_top)
         for (size_t i = 0; i < summary_source_count(set->parts[0]); i++) {

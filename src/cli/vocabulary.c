@@ -39,6 +39,12 @@ static const struct {
     {"force", "--force"},
     {"no_header", "--no-header"},
     {"carry", "--carry"},
+    {"max_levels", "--max-levels"},
+    {"bucket_budget", "--bucket-budget"},
+    {"missing", "--missing"},
+    {"checkpoint", "--checkpoint"},
+    {"checkpoint_every", "--checkpoint-every"},
+    {"resume", "--resume"},
 };
 
 const char *cli_setting_option(const char *key, size_t len)

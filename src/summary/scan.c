@@ -102,7 +102,7 @@ static scan_status within_limit(scan_context *sc, int before_rows)
 }
 
 
-static int start_work(scan_context *sc)
+int scan_start_work(scan_context *sc)
 {
     chunks_options co = {sc->runs, sc->nruns, sc->field_of, sc->file_fields, sc->o.header, sc->o.strict,
                          &sc->ro, &sc->missing, sc->threads};
@@ -113,7 +113,7 @@ static int start_work(scan_context *sc)
 }
 
 /* The chunks failed: their failure becomes the scan's. */
-static scan_status worked(scan_context *sc, scan_status st)
+scan_status scan_worked(scan_context *sc, scan_status st)
 {
     snprintf(sc->err, sizeof sc->err, "%s", chunks_error(sc->work));
     sc->failed = st;
@@ -155,6 +155,30 @@ static scan_status resolve_targets(scan_context *sc, char **names, size_t nnames
         p = e + 1;
     }
     return SCAN_OK;
+}
+
+/* Empty summaries for the scanned columns (sc->plan), one per target: the
+ * first summary of a scan, and of each segment after a cut.  0, or -1 with
+ * the message set. */
+int scan_make_runs(scan_context *sc)
+{
+    sc->nruns = sc->ntargets ? sc->ntargets : 1;
+    sc->runs = calloc(sc->nruns, sizeof *sc->runs);
+    for (size_t t = 0; sc->runs && t < sc->nruns; t++) {
+        /* The co-moments are fed into the first summary alone (scan_finish
+         * copies them). */
+        summary_options ot = sc->o.opt;
+        ot.target = sc->ntargets ? sc->target_names[t] : NULL;
+        if (!(sc->runs[t] = summary_create(&ot, sc->plan.n, sc->plan.cols, sc->plan.modes, t == 0)))
+            break;
+    }
+    sc->run = sc->runs ? sc->runs[0] : NULL;
+    if (!sc->runs || !sc->runs[sc->nruns - 1]) {
+        snprintf(sc->err, sizeof sc->err, "out of memory: the accumulators of %zu columns%s",
+                 sc->plan.n, sc->nruns > 1 ? " for each target" : "");
+        return -1;
+    }
+    return 0;
 }
 
 /* The schema from the header names (summary/schema.h), then the summary and
@@ -212,26 +236,18 @@ static scan_status setup(scan_context *sc, char **names, size_t nnames)
         st = SCAN_ERR_MEMORY;
         goto done;
     }
-    sc->nruns = sc->ntargets ? sc->ntargets : 1;
-    sc->runs = calloc(sc->nruns, sizeof *sc->runs);
-    for (size_t t = 0; sc->runs && t < sc->nruns; t++) {
-        /* The co-moments are fed into the first summary alone (scan_finish
-         * copies them). */
-        summary_options ot = o->opt;
-        ot.target = sc->ntargets ? sc->target_names[t] : NULL;
-        if (!(sc->runs[t] = summary_create(&ot, n, cols, modes, t == 0))) break;
-    }
-    sc->run = sc->runs ? sc->runs[0] : NULL;
-    if (!sc->runs || !sc->runs[sc->nruns - 1]) {
-        snprintf(sc->err, sizeof sc->err, "out of memory: the accumulators of %zu columns%s", n,
-                 sc->nruns > 1 ? " for each target" : "");
+    (void)cols;
+    (void)modes;
+    sc->field_of = plan.field_of;
+    plan.field_of = NULL;
+    sc->plan = plan;
+    memset(&plan, 0, sizeof plan);
+    if (scan_make_runs(sc) != 0) {
         st = SCAN_ERR_MEMORY;
         goto done;
     }
-    sc->field_of = plan.field_of;
-    plan.field_of = NULL;
     sc->file_fields = nnames;
-    if (start_work(sc) != 0) {
+    if (scan_start_work(sc) != 0) {
         snprintf(sc->err, sizeof sc->err,
                  "out of memory: the chunk buffers and worker threads of the scan");
         st = SCAN_ERR_MEMORY;
@@ -278,7 +294,9 @@ static scan_status first_record(scan_context *sc, const csv_field *f, size_t nf)
         return SCAN_OK;
     }
     char **names = calloc(nf ? nf : 1, sizeof *names);
-    sc->first_path = strdup(sc->name);
+    /* A scan of files resumed past the first one meets the header in a later
+     * file: messages still name the first. */
+    sc->first_path = strdup(sc->paths ? sc->paths[0] : sc->name);
     if (!names || !sc->first_path) goto oom;
     for (size_t i = 0; i < nf; i++) {
         names[i] = malloc(f[i].len + 25);
@@ -304,7 +322,7 @@ static scan_status reading_failed(scan_context *sc)
 {
     if (sc->work) {
         scan_status st = chunks_wait(sc->work);
-        if (st != SCAN_OK) return worked(sc, st);
+        if (st != SCAN_OK) return scan_worked(sc, st);
     }
     return scan_fail(sc, reader_out_of_memory(sc->rd) ? SCAN_ERR_MEMORY : SCAN_ERR_INPUT,
                 reader_error(sc->rd));
@@ -332,7 +350,7 @@ static scan_status head(scan_context *sc, const reader_chunk *ch, int *found)
         uint64_t lines = 0;
         if (sc->work) {
             scan_status st = chunks_wait(sc->work);
-            if (st != SCAN_OK) return worked(sc, st);
+            if (st != SCAN_OK) return scan_worked(sc, st);
             lines = chunks_lines(sc->work);
         }
         reader_cursor_message(&sc->head, sc->shown, lines, sc->err, sizeof sc->err);
@@ -356,6 +374,24 @@ static scan_status head(scan_context *sc, const reader_chunk *ch, int *found)
     return SCAN_OK;
 }
 
+/* The summaries of the scan (or of the open segment) settled: each
+ * target's cells numbered in key order, the first summary's co-moments
+ * copied into the others, all sealed.  0, or -1 (the scan's error set). */
+int scan_settle_runs(scan_context *sc)
+{
+    for (size_t t = 0; t < sc->nruns; t++) {
+        summary *s = sc->runs[t];
+        /* The continuous target's cells numbered in key order, every column
+         * brought to that numbering (summary/tcells.h). */
+        if (summary_target_cells_settle(s) != 0 ||
+            (t > 0 && summary_copy_comoments(s, sc->run) != 0) || summary_seal(s) != 0) {
+            scan_fail(sc, SCAN_ERR_MEMORY, "out of memory");
+            return -1;
+        }
+    }
+    return 0;
+}
+
 /* Hands every complete chunk of the reader to the chunks. */
 static scan_status drain(scan_context *sc)
 {
@@ -376,6 +412,18 @@ static scan_status drain(scan_context *sc)
             sc->done = 1; /* every record from here on is the next shard's */
             break;
         }
+        if (sc->prefix) { /* segments: a cut, or (resuming) a chunk before the checkpoint */
+            if (sc->skipping && ch.offset + ch.len <= sc->skip_to) {
+                XXH3_64bits_update(sc->prefix, ch.data, ch.len);
+                continue;
+            }
+            scan_status st = SCAN_OK;
+            if (sc->skipping) st = scan_resume_here(sc, &ch);
+            else if (sc->work && sc->seg_bytes >= sc->o.checkpoint_bytes) st = scan_cut(sc, ch.offset);
+            if (st != SCAN_OK) return st;
+            XXH3_64bits_update(sc->prefix, ch.data, ch.len);
+            sc->seg_bytes += ch.len;
+        }
         if (!sc->work) { /* blank lines before the first header: their lines count */
             for (size_t i = 0; i < ch.len; i++) sc->blank_lines += ch.data[i] == '\n';
             continue;
@@ -392,7 +440,7 @@ static scan_status drain(scan_context *sc)
                                            sc->repeats_cap);
         }
         scan_status st = chunks_push(sc->work, &ch, first, sc->repeats, nrep);
-        if (st != SCAN_OK) return worked(sc, st);
+        if (st != SCAN_OK) return scan_worked(sc, st);
         sc->pushed_bytes = ch.offset + ch.len;
         if (within_limit(sc, 0) != SCAN_OK) return sc->failed;
     }
@@ -424,6 +472,8 @@ static scan_status begin(scan_context *sc, const char *name, uint64_t from, uint
     sc->blank_lines = 0;
     if (sc->work) chunks_stream(sc->work, sc->shown, stop_at, 0);
     XXH3_64bits_reset(sc->fed_hash);
+    if (sc->prefix) XXH3_64bits_reset(sc->prefix);
+    sc->rows_before = 0;
     return SCAN_OK;
 }
 
@@ -439,9 +489,17 @@ static scan_status end(scan_context *sc, const summary_source *prov)
     }
     if (sc->work) {
         scan_status st = chunks_wait(sc->work);
-        if (st != SCAN_OK) return worked(sc, st);
+        if (st != SCAN_OK) return scan_worked(sc, st);
     }
     sc->open = 0;
+    if (sc->skipping) {
+        sc->skipping = 0;
+        snprintf(sc->err, sizeof sc->err,
+                 "%s: ends before byte %llu, where checkpoint %s resumes (the file changed); "
+                 "start again without {resume}",
+                 sc->name, (unsigned long long)sc->skip_to, sc->o.checkpoint);
+        return scan_fail(sc, SCAN_ERR_INPUT, NULL);
+    }
     if (!sc->delim) sc->delim = reader_delim(sc->rd);
     if (sc->at_first && !sc->run) {
         snprintf(sc->err, sizeof sc->err, "%s: no records (empty input)", sc->name);
@@ -452,7 +510,9 @@ static scan_status end(scan_context *sc, const summary_source *prov)
     rec.path = sc->name;
     rec.start_byte = sc->shard_start;
     rec.end_byte = sc->shard_end;
-    rec.rows = chunks_rows(sc->work);
+    rec.rows = sc->rows_before + chunks_rows(sc->work);
+    if (sc->file_prints && sc->file_index < sc->npaths)
+        sc->file_prints[sc->file_index] = prov->fingerprint;
     for (size_t t = 0; t < sc->nruns; t++) {
         sc->runs[t]->bytes += chunks_absorbed(sc->work);
         if (summary_add_source(sc->runs[t], &rec) != 0)
@@ -505,6 +565,11 @@ void scan_free(scan_context *sc)
     free(sc->repeats);
     free(sc->name);
     if (sc->fed_hash) XXH3_freeState(sc->fed_hash);
+    if (sc->prefix) XXH3_freeState(sc->prefix);
+    schema_plan_free(&sc->plan);
+    summary_set_free(sc->done_set);
+    free(sc->file_prints);
+    free(sc->options_text);
     free(sc);
 }
 
@@ -610,15 +675,15 @@ static int finish_runs(scan_context *sc)
     if (within_limit(sc, 0) != SCAN_OK) return -1;
     chunks_free(sc->work);
     sc->work = NULL;
-    for (size_t t = 0; t < sc->nruns; t++) {
-        summary *s = sc->runs[t];
-        /* The continuous target's cells numbered in key order, every column
-         * brought to that numbering (summary/tcells.h). */
-        if (summary_target_cells_settle(s) != 0 ||
-            (t > 0 && summary_copy_comoments(s, sc->run) != 0) || summary_seal(s) != 0) {
-            scan_fail(sc, SCAN_ERR_MEMORY, "out of memory");
-            return -1;
-        }
+    if (scan_settle_runs(sc) != 0) return -1;
+    if (sc->done_set) {
+        /* Segments: the last one merged into the others, the result the scan's. */
+        if (scan_absorb_segment(sc) != 0) return -1;
+        sc->runs = sc->done_set->parts;
+        sc->nruns = sc->done_set->n;
+        sc->run = sc->runs[0];
+        free(sc->done_set);
+        sc->done_set = NULL;
     }
     return 0;
 }

@@ -37,7 +37,9 @@ typedef enum {
     SCAN_OK = 0,
     SCAN_ERR_USAGE = 1,  /* an option names a column that does not exist, ... */
     SCAN_ERR_INPUT = 2,  /* unreadable or malformed input */
-    SCAN_ERR_MEMORY = 3  /* out of memory or over the memory limit */
+    SCAN_ERR_MEMORY = 3, /* out of memory or over the memory limit */
+    SCAN_ERR_DAMAGED = 4, /* the checkpoint to resume from is damaged */
+    SCAN_ERR_WRITE = 5   /* a checkpoint could not be written */
 } scan_status;
 
 typedef struct {
@@ -65,6 +67,22 @@ typedef struct {
     unsigned threads;         /* worker threads; 0 = the CPUs this process may use, 1 = none
                                  (everything on the calling thread); the summary is the same
                                  for every count */
+    /* Checkpoints (scan_files and scan_files_set only; summary/checkpoint.h).
+     * With a path, the scan cuts its input into segments: one ends at the
+     * first chunk boundary after every checkpoint_bytes decompressed bytes.
+     * At each cut the segment's summaries are finished and merged into the
+     * running result, which is written to the checkpoint and read back from
+     * its bytes; the summary is that of the same scan with the same cuts,
+     * resumed or not (byte for byte), but not that of a scan without them. */
+    const char *checkpoint;   /* checkpoint file (NULL: none) */
+    uint64_t checkpoint_bytes; /* decompressed bytes between cuts (0: SCAN_CHECKPOINT_BYTES) */
+    int resume;               /* continue from the checkpoint: it must exist and match the
+                                 inputs (size, mtime, fingerprint of the bytes consumed) and
+                                 the options that shape the summary */
+    /* A test hook (may be NULL): called inside every checkpoint write, after
+     * its summaries are written and before it replaces the old one. */
+    void (*checkpoint_pause)(void *ctx, uint64_t number);
+    void *checkpoint_pause_ctx;
     /* Called after every chunk: raw bytes done and total (0 if unknown). */
     void (*progress)(void *ctx, uint64_t done_bytes, uint64_t total_bytes);
     void *progress_ctx;
@@ -73,6 +91,9 @@ typedef struct {
     void (*warn)(void *ctx, const char *message);
     void *warn_ctx;
 } scan_options;
+
+/* The default distance between checkpoints: 256 MiB of decompressed input. */
+#define SCAN_CHECKPOINT_BYTES ((uint64_t)256 << 20)
 
 /* Defaults: detect the delimiter, header on, 1 MiB chunks, 64 MiB records. */
 void scan_options_defaults(scan_options *o);

@@ -12,8 +12,10 @@
 
 #include "io/reader.h"
 #include "io/source.h"
+#include "summary/checkpoint.h"
 #include "summary/chunks.h"
 #include "summary/scan.h"
+#include "summary/schema.h"
 #include "summary/summary.h"
 
 struct scan_context {
@@ -59,6 +61,21 @@ struct scan_context {
     void *observe_ctx;       /* its context */
     uint64_t total_bytes;  /* raw bytes of all paths (progress), 0 if unknown */
     uint64_t done_bytes;   /* raw bytes of finished streams */
+    schema_plan plan;      /* the scanned columns and modes (each segment's summaries are
+                              made from them; field_of moved out) */
+    /* Segments and checkpoints (o.checkpoint; scan_files). */
+    const char *const *paths; /* the files of scan_files (npaths) */
+    size_t npaths;
+    size_t file_index;     /* the current one */
+    uint64_t *file_prints; /* the raw fingerprint of each file finished */
+    char *options_text;    /* checkpoint_options_text */
+    uint64_t seg_bytes;    /* decompressed bytes pushed in the open segment */
+    uint64_t ckpt_number;  /* checkpoints written */
+    summary_set *done_set; /* the finished segments, merged */
+    XXH3_state_t *prefix;  /* XXH3 of the current stream's decompressed bytes cut so far */
+    uint64_t rows_before;  /* data rows of the current stream in earlier segments */
+    int skipping;          /* resuming: chunks before skip_to are only hashed */
+    uint64_t skip_to, skip_hash, skip_lines, skip_rows; /* the checkpoint's position */
     scan_status failed;    /* sticky: the first error */
     char err[4608];        /* its message */
 };
@@ -69,6 +86,26 @@ scan_status scan_fail(scan_context *sc, scan_status st, const char *msg);
 /* A file from byte `from` (0: the whole file, header first), stopping before
  * records that start at stop_at (0: none). */
 scan_status scan_file_range(scan_context *sc, const char *path, uint64_t from, uint64_t stop_at);
+/* A segment begins in the current stream, after `lines` lines and `rows`
+ * data rows of it: fresh summaries when there are none, chunk workers fed
+ * into them.  SCAN_OK or the failure. */
+scan_status scan_segment_start(scan_context *sc, uint64_t lines, uint64_t rows);
+
+/* scan.c, for scan_segments.c: empty summaries for the schema, one per
+ * target (0, or -1 with the message set); the chunk workers over them (0 or
+ * -1); the chunks' failure made the scan's; the open summaries settled and
+ * sealed (0, or -1 with the error set). */
+int scan_make_runs(scan_context *sc);
+int scan_start_work(scan_context *sc);
+scan_status scan_worked(scan_context *sc, scan_status st);
+int scan_settle_runs(scan_context *sc);
+/* scan_segments.c, for scan.c: the open segment's settled summaries merged
+ * into the finished ones (0, or -1); a cut before the chunk at `offset` of
+ * the current stream (SCAN_OK or the failure); the chunk at the
+ * checkpoint's offset of a resumed scan (SCAN_OK or the failure). */
+int scan_absorb_segment(scan_context *sc);
+scan_status scan_cut(scan_context *sc, uint64_t offset);
+scan_status scan_resume_here(scan_context *sc, const reader_chunk *ch);
 
 /* A source the caller opened, as a shard's stream: from > 0 (its label in
  * messages) when it starts past the file's header, stopping before records

@@ -4,6 +4,7 @@
 
 #include <errno.h>
 #include <stdio.h>
+#include <stdlib.h>
 #include <string.h>
 #include <sys/stat.h>
 
@@ -661,6 +662,7 @@ static scan_status read_ahead(scan_context *sc, const char *const *paths, size_t
         next = i + 1 < npaths
                    ? open_ahead(sc, paths[i + 1], next_err, sizeof next_err, &next_nomem)
                    : NULL;
+        sc->file_index = (size_t)(paths + i - sc->paths);
         st = scan_source(sc, src);
         source_close(src);
     }
@@ -668,10 +670,156 @@ static scan_status read_ahead(scan_context *sc, const char *const *paths, size_t
     return st;
 }
 
+/* ---- checkpoints -----------------------------------------------------------
+ *
+ * A resumed scan reads the checkpoint (summary/checkpoint.h), checks it
+ * against the command (options, files) and the files already consumed (size
+ * and modification time; the raw XXH3-64 of the finished files, read again;
+ * the decompressed prefix of the current one, hashed on the way), takes its
+ * merged summaries as the finished segments, and opens the current file from
+ * its start: the reader cuts the same chunks from the same bytes, the chunks
+ * before the checkpoint's offset are hashed and dropped without being
+ * tokenized (scan.c, drain), and the scan goes on from there in exactly the
+ * state the killed scan had after writing the checkpoint. */
+
+/* The first line where two "key=value\n" texts differ, into a message. */
+static void first_difference(const char *then, const char *now, char *out, size_t len)
+{
+    while (*then && *now) {
+        const char *e1 = strchr(then, '\n'), *e2 = strchr(now, '\n');
+        if (!e1 || !e2) break;
+        if (e1 - then != e2 - now || memcmp(then, now, (size_t)(e1 - then)) != 0) {
+            const char *k = memchr(then, '=', (size_t)(e1 - then));
+            int klen = k ? (int)(k - then) : 0;
+            snprintf(out, len, "{%.*s} was %.*s there and is %.*s here", klen, then,
+                     (int)(e1 - then - klen - 1), then + klen + 1,
+                     (int)(e2 - now - klen - 1), now + klen + 1);
+            return;
+        }
+        then = e1 + 1;
+        now = e2 + 1;
+    }
+    snprintf(out, len, "their options differ");
+}
+
+static scan_status refuse(scan_context *sc, scan_status st, checkpoint *c)
+{
+    checkpoint_free(c);
+    return scan_fail(sc, st, NULL);
+}
+
+/* Segments for o.checkpoint, and the state to resume from with o.resume.
+ * *start: the index of the first file to read. */
+static scan_status prepare_checkpoints(scan_context *sc, const char *const *paths, size_t npaths,
+                                       size_t *start)
+{
+    const char *path = sc->o.checkpoint;
+    *start = 0;
+    if (sc->o.shard_count) {
+        snprintf(sc->err, sizeof sc->err, "{checkpoint} and {shard} do not go together: a shard "
+                 "is one piece of a larger scan, resumed by scanning it again");
+        return scan_fail(sc, SCAN_ERR_USAGE, NULL);
+    }
+    for (size_t i = 0; i < npaths; i++)
+        if (!strcmp(paths[i], "-")) {
+            snprintf(sc->err, sizeof sc->err,
+                     "{checkpoint} needs files: standard input cannot be read again to resume");
+            return scan_fail(sc, SCAN_ERR_USAGE, NULL);
+        }
+    if (!sc->o.checkpoint_bytes) sc->o.checkpoint_bytes = SCAN_CHECKPOINT_BYTES;
+    sc->paths = paths;
+    sc->npaths = npaths;
+    sc->file_prints = calloc(npaths ? npaths : 1, sizeof *sc->file_prints);
+    sc->options_text = checkpoint_options_text(&sc->o);
+    sc->prefix = XXH3_createState();
+    if (!sc->file_prints || !sc->options_text || !sc->prefix)
+        return scan_fail(sc, SCAN_ERR_MEMORY, "out of memory");
+    XXH3_64bits_reset(sc->prefix);
+    char why[sizeof sc->err - 600];
+    checkpoint_status ps = checkpoint_probe(path, why, sizeof why);
+    if (ps != CHECKPOINT_OK)
+        return scan_fail(sc, ps == CHECKPOINT_MEMORY ? SCAN_ERR_MEMORY : SCAN_ERR_WRITE, why);
+    if (!sc->o.resume) return SCAN_OK;
+    checkpoint c;
+    checkpoint_status cs = checkpoint_read(path, &c, why, sizeof why);
+    if (cs == CHECKPOINT_MISSING) {
+        snprintf(sc->err, sizeof sc->err, "%s: no checkpoint to resume from (no such file); run "
+                 "without {resume} to start from the beginning", path);
+        return scan_fail(sc, SCAN_ERR_USAGE, NULL);
+    }
+    if (cs != CHECKPOINT_OK)
+        return scan_fail(sc, cs == CHECKPOINT_DAMAGED ? SCAN_ERR_DAMAGED
+                             : cs == CHECKPOINT_MEMORY ? SCAN_ERR_MEMORY : SCAN_ERR_INPUT, why);
+    if (strcmp(c.options, sc->options_text) != 0) {
+        first_difference(c.options, sc->options_text, why, sizeof why);
+        snprintf(sc->err, sizeof sc->err, "%s: written by a scan with other options (%s); "
+                 "resume with the same options, or start again without {resume}", path, why);
+        return refuse(sc, SCAN_ERR_USAGE, &c);
+    }
+    if (c.nfiles != npaths) {
+        snprintf(sc->err, sizeof sc->err, "%s: written by a scan of %zu files, this one reads %zu; "
+                 "resume with the same files, or start again without {resume}",
+                 path, c.nfiles, npaths);
+        return refuse(sc, SCAN_ERR_USAGE, &c);
+    }
+    for (size_t i = 0; i < npaths; i++)
+        if (strcmp(c.files[i].path, paths[i]) != 0) {
+            snprintf(sc->err, sizeof sc->err, "%s: file %zu of its scan was %.1024s, here it is "
+                     "%.1024s; resume with the same files, or start again without {resume}",
+                     path, i + 1, c.files[i].path, paths[i]);
+            return refuse(sc, SCAN_ERR_USAGE, &c);
+        }
+    for (size_t i = 0; i <= c.file_index; i++) {
+        struct stat fs;
+        if (stat(paths[i], &fs) != 0) {
+            snprintf(sc->err, sizeof sc->err, "%.1024s: cannot stat: %s", paths[i], strerror(errno));
+            return refuse(sc, SCAN_ERR_INPUT, &c);
+        }
+        int64_t mtime = (int64_t)fs.st_mtim.tv_sec * 1000000000 + fs.st_mtim.tv_nsec;
+        const checkpoint_file *f = &c.files[i];
+        uint64_t print = 0;
+        const char *what = NULL;
+        char detail[128] = "";
+        if ((uint64_t)fs.st_size != f->size_bytes) {
+            what = "its size";
+            snprintf(detail, sizeof detail, " (%llu bytes then, %llu now)",
+                     (unsigned long long)f->size_bytes, (unsigned long long)fs.st_size);
+        } else if (mtime != f->mtime_ns) {
+            what = "its modification time";
+        } else if (i < c.file_index &&
+                   (checkpoint_hash_file(paths[i], &print) != 0 || print != f->fingerprint)) {
+            what = "its bytes";
+        }
+        if (what) {
+            snprintf(sc->err, sizeof sc->err, "%.1024s: %s changed since checkpoint %.1024s was "
+                     "written%s; start again without {resume}", paths[i], what, path, detail);
+            return refuse(sc, SCAN_ERR_INPUT, &c);
+        }
+        if (i < c.file_index) {
+            sc->file_prints[i] = f->fingerprint;
+            sc->done_bytes += f->size_bytes;
+        }
+    }
+    sc->done_set = c.done;
+    c.done = NULL;
+    sc->delim = c.delim;
+    sc->ckpt_number = c.number;
+    sc->skipping = 1;
+    sc->skip_to = c.offset;
+    sc->skip_hash = c.prefix_hash;
+    sc->skip_lines = c.lines;
+    sc->skip_rows = c.rows;
+    *start = c.file_index;
+    checkpoint_free(&c);
+    return SCAN_OK;
+}
+
 /* The paths into sc (see scan_files). */
 static scan_status scan_all(scan_context *sc, const char *const *paths, size_t npaths)
 {
-    /* Sizes for the progress report, from the file system (nothing is read). */
+    /* Sizes for the progress report, from the file system (nothing is read);
+     * a resumed scan counts the files it does not read again as done. */
+    sc->total_bytes = sc->done_bytes;
     for (size_t i = 0; i < npaths; i++) {
         struct stat st;
         if (strcmp(paths[i], "-") && stat(paths[i], &st) == 0 && S_ISREG(st.st_mode))
@@ -679,7 +827,10 @@ static scan_status scan_all(scan_context *sc, const char *const *paths, size_t n
     }
     scan_status st = SCAN_OK;
     if (sc->o.shard_count || sc->threads < READ_AHEAD_MIN_THREADS) {
-        for (size_t i = 0; st == SCAN_OK && i < npaths; i++) st = scan_path(sc, paths[i]);
+        for (size_t i = 0; st == SCAN_OK && i < npaths; i++) {
+            sc->file_index = (size_t)(paths + i - sc->paths);
+            st = scan_path(sc, paths[i]);
+        }
     } else {
         st = read_ahead(sc, paths, npaths);
     }
@@ -706,7 +857,10 @@ static scan_status files(const scan_options *o, const char *const *paths, size_t
     scan_status st = SCAN_OK;
     scan_context *sc = files_context(o, npaths, err, errlen, &st);
     if (!sc) return st;
-    st = scan_all(sc, paths, npaths);
+    size_t start = 0;
+    sc->paths = paths;
+    if (o->checkpoint) st = prepare_checkpoints(sc, paths, npaths, &start);
+    if (st == SCAN_OK) st = scan_all(sc, paths + start, npaths - start);
     if (st == SCAN_OK) {
         if (one) *one = scan_finish(sc);
         else *set = scan_finish_set(sc);

@@ -216,6 +216,10 @@ missing|spellings of a missing value|scan
 max-levels|exact value counts per column|scan
 bucket-budget|occupied value buckets per column|scan
 shard|read one of N byte ranges|scan
+shard-from-top|find the first record of a shard from the top of the file|scan
+checkpoint|save the scan so far, to resume it after a kill|scan
+checkpoint-every|decompressed input between checkpoints|scan
+resume|go on from the checkpoint|scan
 write-svg|a folder each chart is written to as an SVG file|page
 base|a baseline summary whose drift a page shows|page
 '

@@ -1,0 +1,102 @@
+/* checkpoint: the file a scan writes now and then so that a killed scan
+ * can continue (scan_options.checkpoint and .resume; see scan.h).
+ *
+ * A checkpoint holds the summaries of every segment the scan has finished,
+ * merged (one per target), and where the next segment begins: the input
+ * file, the decompressed offset of its next record, its lines and data rows
+ * before that offset.  With them it keeps what a resumed scan checks before
+ * trusting it: the scan's options as text, every input file's path, size
+ * and modification time, the XXH3-64 of the raw bytes of each file already
+ * finished, and the XXH3-64 of the decompressed bytes of the current file
+ * before the offset.
+ *
+ * Layout (little-endian; docs/nightly.md describes it for users):
+ *
+ *   magic "SHEAFCKP", u32 version (1), u64 H
+ *   H bytes of header (acc/wire.h encoding): str options, u32 files
+ *     (each: str path, u64 size, i64 mtime in ns, u64 raw fingerprint or 0),
+ *     u32 file index, u64 offset, u64 prefix hash, u64 lines, u64 rows,
+ *     u64 checkpoint number, u8 delimiter, u32 parts (each: u64 length)
+ *   u64 XXH3-64 of every byte before it
+ *   the parts: each a whole summary file (docs/summary-format.md), with
+ *     one source more at the end: the current file so far (format plain,
+ *     its rows before the offset, nothing else), so that its rows add up as
+ *     a summary's must; dropped when the file is read
+ *   u64 XXH3-64 of every byte before it
+ *
+ * The file is written as summaries are (summary/tempfile.h): in full to a
+ * file without a name, flushed, then linked over the old checkpoint, so the
+ * old one or the new one is there at every instant, whatever kills the
+ * process.
+ */
+#ifndef SHEAF_CHECKPOINT_H
+#define SHEAF_CHECKPOINT_H
+
+#include <stddef.h>
+#include <stdint.h>
+
+#include "summary/scan.h"
+#include "summary/summary.h"
+
+typedef struct {
+    char *path;           /* as given to the scan */
+    uint64_t size_bytes;  /* its size when the checkpoint was written */
+    int64_t mtime_ns;     /* its modification time, nanoseconds since 1970 */
+    uint64_t fingerprint; /* a finished file: XXH3-64 of its raw bytes; else 0 */
+} checkpoint_file;
+
+typedef struct {
+    char *options;          /* the options that shape the summary, "key=value\n" lines */
+    size_t nfiles;
+    checkpoint_file *files; /* every input of the scan, in order */
+    uint32_t file_index;    /* the file the next segment begins in */
+    uint64_t offset;        /* its decompressed offset there (a chunk's start) */
+    uint64_t prefix_hash;   /* XXH3-64 of its decompressed bytes [0, offset) */
+    uint64_t lines;         /* its lines before offset */
+    uint64_t rows;          /* its data rows before offset */
+    uint64_t number;        /* checkpoints written by the scan, this one included */
+    char delim;             /* the scan's delimiter (0 while the first file is read) */
+    summary_set *done;      /* the finished segments, merged (owned) */
+} checkpoint;
+
+typedef enum {
+    CHECKPOINT_OK = 0,
+    CHECKPOINT_MISSING = 1, /* no file at the path */
+    CHECKPOINT_IO = 2,      /* cannot read or write it */
+    CHECKPOINT_DAMAGED = 3, /* not a checkpoint, damaged, truncated, or newer */
+    CHECKPOINT_MEMORY = 4
+} checkpoint_status;
+
+/* The options of o that change the summary, as "key=value\n" lines in a
+ * fixed order (keys as the library names settings: "max_levels", "target").
+ * The thread count, the memory limit and the callbacks are left out: the
+ * summary does not depend on them.  malloc'd; NULL when out of memory. */
+char *checkpoint_options_text(const scan_options *o);
+
+/* Writes c to path atomically (c->done is left as it was).  `pause` (may be NULL) is called once the
+ * parts are written and before the trailer and the link (a test hook).
+ * On success *reread holds c->done decoded back from the bytes written, so
+ * that a scan continues from exactly what the file holds.  CHECKPOINT_OK,
+ * or the failure with a message naming the path in err. */
+checkpoint_status checkpoint_write(const char *path, const checkpoint *c,
+                                   void (*pause)(void *ctx, uint64_t number), void *pause_ctx,
+                                   summary_set **reread, char *err, size_t errlen);
+
+/* Whether a checkpoint can be written at path (its directory exists and
+ * takes a new file), before a scan spends an hour reading: nothing is left
+ * behind.  CHECKPOINT_OK, or the failure with a message in err. */
+checkpoint_status checkpoint_probe(const char *path, char *err, size_t errlen);
+
+/* Reads a checkpoint (every checksum checked, the summaries decoded) into
+ * *c (free with checkpoint_free).  CHECKPOINT_OK, or the failure with a
+ * one-line message naming the path in err. */
+checkpoint_status checkpoint_read(const char *path, checkpoint *c, char *err, size_t errlen);
+
+void checkpoint_free(checkpoint *c);
+
+/* XXH3-64 of a file's bytes (what io/source gives as the fingerprint of a
+ * file read to its end), its size and modification time.  0, or -1 with
+ * errno set. */
+int checkpoint_hash_file(const char *path, uint64_t *hash);
+
+#endif

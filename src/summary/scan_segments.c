@@ -1,0 +1,127 @@
+/* scan_segments: the segments of a scan with checkpoints (see scan.h,
+ * scan_options.checkpoint, and DEVELOPERS.md, "Checkpoints and resuming"):
+ * the cut that finishes a segment and writes the checkpoint, the start of
+ * the next, and the point where a resumed scan takes over. */
+#include "summary/scan_context.h"
+
+#include <errno.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <sys/stat.h>
+
+#include "summary/checkpoint.h"
+
+/* The settled summaries of the open segment merged into the finished
+ * segments (sc->done_set); sc->runs is then empty.  0, or -1. */
+int scan_absorb_segment(scan_context *sc)
+{
+    summary_set *seg = malloc(sizeof *seg);
+    if (!seg) { scan_fail(sc, SCAN_ERR_MEMORY, "out of memory"); return -1; }
+    seg->n = sc->nruns;
+    seg->parts = sc->runs;
+    sc->runs = NULL;
+    sc->nruns = 0;
+    sc->run = NULL;
+    if (!sc->done_set) {
+        sc->done_set = seg;
+        return 0;
+    }
+    char why[sizeof sc->err - 64];
+    summary_status st = summary_set_merge(sc->done_set, seg, why, sizeof why);
+    summary_set_free(seg);
+    if (st == SUMMARY_OK) return 0;
+    snprintf(sc->err, sizeof sc->err, "joining the scan's segments: %s", why);
+    sc->failed = st == SUMMARY_ERR_MEMORY ? SCAN_ERR_MEMORY : SCAN_ERR_INPUT;
+    return -1;
+}
+
+/* A segment ends before the chunk at `offset` of the current stream (every
+ * chunk before it pushed): its summaries are finished and merged into the
+ * running result, which goes to the checkpoint and is read back from the
+ * bytes written; then fresh summaries and chunk workers take the rest, the
+ * stream's lines and rows carried on.  A scan resumed from this checkpoint
+ * starts at exactly this state (scan_paths.c). */
+scan_status scan_cut(scan_context *sc, uint64_t offset)
+{
+    scan_status st = chunks_wait(sc->work);
+    if (st != SCAN_OK) return scan_worked(sc, st);
+    uint64_t lines = chunks_lines(sc->work), rows = sc->rows_before + chunks_rows(sc->work);
+    chunks_free(sc->work);
+    sc->work = NULL;
+    if (scan_settle_runs(sc) != 0 || scan_absorb_segment(sc) != 0) return sc->failed;
+    checkpoint c;
+    memset(&c, 0, sizeof c);
+    c.options = sc->options_text;
+    c.nfiles = sc->npaths;
+    c.files = calloc(sc->npaths, sizeof *c.files);
+    if (!c.files) return scan_fail(sc, SCAN_ERR_MEMORY, "out of memory");
+    for (size_t i = 0; i < sc->npaths; i++) {
+        struct stat fs;
+        c.files[i].path = (char *)sc->paths[i];
+        if (i <= sc->file_index) {
+            if (stat(sc->paths[i], &fs) != 0) {
+                free(c.files);
+                snprintf(sc->err, sizeof sc->err, "%s: cannot stat for the checkpoint: %s",
+                         sc->paths[i], strerror(errno));
+                return scan_fail(sc, SCAN_ERR_INPUT, NULL);
+            }
+            c.files[i].size_bytes = (uint64_t)fs.st_size;
+            c.files[i].mtime_ns = (int64_t)fs.st_mtim.tv_sec * 1000000000 + fs.st_mtim.tv_nsec;
+        }
+        if (i < sc->file_index) c.files[i].fingerprint = sc->file_prints[i];
+    }
+    c.file_index = (uint32_t)sc->file_index;
+    c.offset = offset;
+    c.prefix_hash = XXH3_64bits_digest(sc->prefix);
+    c.lines = lines;
+    c.rows = rows;
+    c.number = ++sc->ckpt_number;
+    c.delim = sc->delim;
+    c.done = sc->done_set;
+    summary_set *reread;
+    char why[sizeof sc->err - 64];
+    checkpoint_status cs = checkpoint_write(sc->o.checkpoint, &c, sc->o.checkpoint_pause,
+                                            sc->o.checkpoint_pause_ctx, &reread, why, sizeof why);
+    free(c.files);
+    if (cs != CHECKPOINT_OK)
+        return scan_fail(sc, cs == CHECKPOINT_MEMORY ? SCAN_ERR_MEMORY : SCAN_ERR_WRITE, why);
+    summary_set_free(sc->done_set);
+    sc->done_set = reread;
+    return scan_segment_start(sc, lines, rows);
+}
+
+scan_status scan_segment_start(scan_context *sc, uint64_t lines, uint64_t rows)
+{
+    if (!sc->runs && scan_make_runs(sc) != 0) return scan_fail(sc, SCAN_ERR_MEMORY, NULL);
+    if (!sc->work && scan_start_work(sc) != 0)
+        return scan_fail(sc, SCAN_ERR_MEMORY,
+                         "out of memory: the chunk buffers and worker threads of the scan");
+    chunks_stream(sc->work, sc->shown, sc->stop_at, lines);
+    sc->rows_before = rows;
+    sc->seg_bytes = 0;
+    return SCAN_OK;
+}
+
+/* Resuming: the chunk at the checkpoint's offset, after the chunks before
+ * it were only hashed.  It must begin exactly there, after the very bytes
+ * the checkpoint saw. */
+scan_status scan_resume_here(scan_context *sc, const reader_chunk *ch)
+{
+    sc->skipping = 0;
+    if (ch->offset != sc->skip_to || XXH3_64bits_digest(sc->prefix) != sc->skip_hash) {
+        snprintf(sc->err, sizeof sc->err,
+                 "%s: its first %llu bytes differ from those checkpoint %s was written after "
+                 "(the file changed); start again without {resume}",
+                 sc->name, (unsigned long long)sc->skip_to, sc->o.checkpoint);
+        return scan_fail(sc, SCAN_ERR_INPUT, NULL);
+    }
+    if (!sc->work) {
+        snprintf(sc->err, sizeof sc->err, "%s: no header before byte %llu, where checkpoint %s "
+                 "resumes; start again without {resume}",
+                 sc->name, (unsigned long long)sc->skip_to, sc->o.checkpoint);
+        return scan_fail(sc, SCAN_ERR_INPUT, NULL);
+    }
+    return scan_segment_start(sc, sc->skip_lines, sc->skip_rows);
+}
+
