@@ -274,9 +274,14 @@ const char *cli_path_name(const char *path)
 int cli_close_stdout(void)
 {
     int failed = ferror(stdout);
+    /* A write that failed while the command printed (output past the
+     * buffer) left its reason in errno, and stdio dropped the buffer it
+     * could not write, so the flush below may not fail again: keep it. */
+    int earlier = failed ? errno : 0;
     errno = 0;
     if (fflush(stdout) != 0) failed = 1;
     int reason = errno; /* a failed write is retried by the flush, which sets errno again */
+    if (!reason) reason = earlier;
     if (fclose(stdout) != 0 && !failed) {
         failed = 1;
         reason = errno;

@@ -166,34 +166,10 @@ check data.rows_vs_python_csv "csv module counts $ROWS records" [ "$ROWS" -eq 50
 run sheaf scan -q "$T/big.csv" -o "$T/single.sheaf"
 check data.single_scan "exit $RC: $(err_text)" [ "$RC" -eq 0 ]
 
-cat >"$T/cmp.py" <<'EOF'
-# cmp.py A.sheaf B.sheaf: the info JSON of two summaries without "sources"
-# and "bytes" (a shard's read-ahead); prints the differences, nothing when
-# equal.  Integers and strings exactly, floats to 1e-12 relative (absolute
-# below 1); top values as count-ordered sets, and only for exact tables.
-import json, os, subprocess, sys
-sys.path.insert(0, "tests")
-from refcheck import tree_differences
-def info(p):
-    r = subprocess.run(["sheaf", "info", "--format", "json", "--top-values", "1000", p],
-                       stdout=subprocess.PIPE, stderr=subprocess.PIPE)
-    if r.returncode:
-        sys.exit("info %s exit %d: %s" % (p, r.returncode, r.stderr.decode().strip()))
-    d = json.loads(r.stdout)
-    for k in ("sources", "bytes"):
-        d.pop(k, None)
-    for c in d["columns"]:
-        if c.get("distinct_exact"):
-            c["top"] = sorted(c["top"], key=lambda e: (-e["count"], e["value"]))
-        else:
-            c.pop("top", None)
-    return d
-print("; ".join(tree_differences(info(sys.argv[1]), info(sys.argv[2]), 1e-12)[:4]))
-EOF
 # same_summary NAME A B
 same_summary() {
     local why
-    why=$("$PY" "$T/cmp.py" "$2" "$3" 2>&1)
+    why=$("$PY" tests/cli/info_same.py "$2" "$3" 2>&1)
     if [ -z "$why" ]; then pass "$1"; else fail "$1" "differs from the single scan: ${why:0:400}"; fi
 }
 # jget SUMMARY EXPR: python expression over d, the info JSON.
