@@ -86,6 +86,8 @@ scan_status scan_fail(scan_context *sc, scan_status st, const char *msg);
 /* A file from byte `from` (0: the whole file, header first), stopping before
  * records that start at stop_at (0: none). */
 scan_status scan_file_range(scan_context *sc, const char *path, uint64_t from, uint64_t stop_at);
+/* --shard I/N of the file at path (scan_shard.c; docs/shards.md). */
+scan_status scan_shard(scan_context *sc, const char *path);
 /* A segment begins in the current stream, after `lines` lines and `rows`
  * data rows of it: fresh summaries when there are none, chunk workers fed
  * into them.  SCAN_OK or the failure. */
