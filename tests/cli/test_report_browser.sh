@@ -2,7 +2,8 @@
 # sheaf page in a real browser: headless Chromium (Debian's chromium, installed
 # by make deps) opens the page of a small demo night (build/demo/generate,
 # 20,000 rows, target arrival_condition), of iris (target species) and of
-# penguins with two columns renamed to hostile names, once with JavaScript on
+# penguins with two columns renamed to hostile names (on a fresh clone
+# without ../shared/data: Debian scikit-learn's iris and wine), once with JavaScript on
 # and once off, through the DevTools protocol (tests/cli/report_browser.py,
 # Python's standard library only).  Checks: no console error, no dialog, no
 # network request but the file itself, a full-page screenshot of the layout's
@@ -16,7 +17,24 @@ cli_setup report-browser python || exit 0
 CHROMIUM=$(command -v chromium || true)
 if [ -z "$CHROMIUM" ]; then skip all "chromium not installed (make deps installs Debian's chromium)"; exit 0; fi
 DATA=${SHEAF_DATA:-../shared/data}/open
-if [ ! -f "$DATA/iris.csv" ]; then skip all "open datasets not found in $DATA"; exit 0; fi
+# The open datasets: iris and penguins from the project's data folder, or,
+# where it is absent (a fresh clone), iris and wine as Debian's scikit-learn
+# ships them (python3-sklearn, in make deps), given a header row here.
+SK=/usr/lib/python3/dist-packages/sklearn/datasets/data
+sk_table() { # FILE.csv NAMES... : sklearn's layout (a count line, then rows ending in a class code)
+    local src=$1
+    shift
+    "$PY" - "$src" "$@" <<'PYEOF'
+import csv, sys
+src, names = sys.argv[1], sys.argv[2:]
+rows = list(csv.reader(open(src)))
+classes = rows[0][2:]
+w = csv.writer(sys.stdout, lineterminator="\n")
+w.writerow(names)
+for r in rows[1:]:
+    w.writerow(r[:-1] + [classes[int(r[-1])]])
+PYEOF
+}
 
 # open PAGE_TAG SUMMARY [--hostile TEXT]...: the page and its browser checks
 open_page() {
@@ -49,11 +67,24 @@ if [ -x build/demo/generate ]; then
 else
     skip demo "build/demo/generate not built (make build/demo/generate)"
 fi
-"$SHEAF" scan "$DATA/iris.csv" --target species -o "$T/iris.sheaf" -q
-open_page iris "$T/iris.sheaf"
-{
-    printf '%s\n' 'species,island,<script>alert(1)</script>,"""&<>",flipper_length_mm,body_mass_g,sex'
-    tail -n +2 "$DATA/penguins.csv"
-} >"$T/penguins.csv"
-"$SHEAF" scan "$T/penguins.csv" --target species -o "$T/penguins.sheaf" -q
-open_page penguins_hostile "$T/penguins.sheaf" --hostile '<script>alert(1)</script>' --hostile '"&<>'
+if [ -f "$DATA/iris.csv" ] && [ -f "$DATA/penguins.csv" ]; then
+    "$SHEAF" scan "$DATA/iris.csv" --target species -o "$T/iris.sheaf" -q
+    open_page iris "$T/iris.sheaf"
+    {
+        printf '%s\n' 'species,island,<script>alert(1)</script>,"""&<>",flipper_length_mm,body_mass_g,sex'
+        tail -n +2 "$DATA/penguins.csv"
+    } >"$T/penguins.csv"
+    "$SHEAF" scan "$T/penguins.csv" --target species -o "$T/penguins.sheaf" -q
+    open_page penguins_hostile "$T/penguins.sheaf" --hostile '<script>alert(1)</script>' --hostile '"&<>'
+elif [ -f "$SK/iris.csv" ] && [ -f "$SK/wine_data.csv" ]; then
+    sk_table "$SK/iris.csv" sepal_length sepal_width petal_length petal_width species >"$T/iris.csv"
+    "$SHEAF" scan "$T/iris.csv" --target species -o "$T/iris.sheaf" -q
+    open_page iris "$T/iris.sheaf"
+    sk_table "$SK/wine_data.csv" alcohol malic_acid '<script>alert(1)</script>' '"&<>' magnesium \
+        phenols flavanoids nonflavanoid_phenols proanthocyanins colour hue od280_od315 proline \
+        cultivar >"$T/wine.csv"
+    "$SHEAF" scan "$T/wine.csv" --target cultivar -o "$T/wine.sheaf" -q
+    open_page wine_hostile "$T/wine.sheaf" --hostile '<script>alert(1)</script>' --hostile '"&<>'
+else
+    skip open "neither $DATA nor $SK holds the open datasets (make deps installs python3-sklearn)"
+fi
