@@ -16,6 +16,21 @@ run() {
     RC=$?
 }
 err_text() { tr '\n' '|' <"$T/err" | cut -c1-300; }
+# jget SUMMARY EXPR: a Python expression over d, the info JSON of SUMMARY
+# ("no-summary" when it cannot be read).
+jget() {
+    "$SHEAF" info --format json "$1" 2>/dev/null | "$PY" -c 'import json,sys
+d = json.load(sys.stdin)
+print(json.dumps(eval(sys.argv[1]), separators=(",", ":")))' "$2" 2>/dev/null || echo "no-summary"
+}
+# info_same NAME A B [COLUMN_KEY...]: PASS when the two summaries read the
+# same through tests/cli/info_same.py (COLUMN_KEYs also left out per column).
+info_same() {
+    local name=$1 a=$2 b=$3 why
+    shift 3
+    why=$("$PY" tests/cli/info_same.py "$a" "$b" "$@" 2>&1)
+    if [ -z "$why" ]; then pass "$name"; else fail "$name" "differs: ${why:0:400}"; fi
+}
 # first_diff A B: where two files first differ (for failure messages).
 first_diff() { cmp "$1" "$2" 2>&1 | head -n 1; }
 

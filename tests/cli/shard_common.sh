@@ -2,6 +2,12 @@
 # (sourced after common.sh, with $T, $PY and $SHEAF set): the hard files,
 # and scanning and merging the N shards of one of them.
 
+# nrec FILE: records after the header under Python's csv module (blank
+# lines and a byte-order mark left out).
+nrec() { "$PY" -c 'import csv,sys
+rows = list(csv.reader(open(sys.argv[1], newline="", encoding="utf-8-sig")))
+print(sum(1 for r in rows[1:] if r))' "$1"; }
+
 # shard_hard_files DIR: writes quoted, long, plain, crlf, bom, blank and
 # headonly .csv into DIR (fixed seed).
 shard_hard_files() {

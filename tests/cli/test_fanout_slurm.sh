@@ -166,18 +166,6 @@ check data.rows_vs_python_csv "csv module counts $ROWS records" [ "$ROWS" -eq 50
 run sheaf scan -q "$T/big.csv" -o "$T/single.sheaf"
 check data.single_scan "exit $RC: $(err_text)" [ "$RC" -eq 0 ]
 
-# same_summary NAME A B
-same_summary() {
-    local why
-    why=$("$PY" tests/cli/info_same.py "$2" "$3" 2>&1)
-    if [ -z "$why" ]; then pass "$1"; else fail "$1" "differs from the single scan: ${why:0:400}"; fi
-}
-# jget SUMMARY EXPR: python expression over d, the info JSON.
-jget() {
-    sheaf info --format json "$1" 2>/dev/null | "$PY" -c 'import json,sys
-d = json.load(sys.stdin)
-print(json.dumps(eval(sys.argv[1]), separators=(",", ":")))' "$2" 2>/dev/null || echo "no-summary"
-}
 # wait_jobs SECONDS: until the queue is empty; returns 1 on timeout.
 wait_jobs() {
     local end=$((SECONDS + $1))
@@ -230,7 +218,7 @@ for b in slurm-flat slurm-tree; do
         check "$b.rows" "rows $(jget "$out" 'd["rows"]'), want $ROWS" [ "$(jget "$out" 'd["rows"]')" = "$ROWS" ]
         nsrc=$(jget "$out" 'len(d["sources"])')
         check "$b.sources" "$nsrc sources, want 8 shards" [ "$nsrc" = 8 ]
-        same_summary "$b.same_as_single_scan" "$out" "$T/single.sheaf"
+        info_same "$b.same_as_single_scan" "$out" "$T/single.sheaf"
     fi
 done
 if [ -f "$T/slurm-tree/night.sheaf" ]; then

@@ -140,22 +140,12 @@ check data.rows_vs_python_csv "csv module counts $ROWS records" [ "$ROWS" -eq 50
 run sheaf scan -q "$W/big.csv" -o "$T/single.sheaf"
 check data.single_scan "exit $RC: $(err_text)" [ "$RC" -eq 0 ]
 
-same_summary() {
-    local why
-    why=$("$PY" tests/cli/info_same.py "$2" "$3" 2>&1)
-    if [ -z "$why" ]; then pass "$1"; else fail "$1" "differs from the single scan: ${why:0:400}"; fi
-}
-jget() {
-    sheaf info --format json "$1" 2>/dev/null | "$PY" -c 'import json,sys
-d = json.load(sys.stdin)
-print(json.dumps(eval(sys.argv[1]), separators=(",", ":")))' "$2" 2>/dev/null || echo "no-summary"
-}
 # merged NAME SUMMARY SOURCES: the merged summary equals the single scan
 merged() {
     if check "$1.merged_summary" "$2 missing" [ -s "$2" ]; then
         check "$1.rows" "rows $(jget "$2" 'd["rows"]'), want $ROWS" [ "$(jget "$2" 'd["rows"]')" = "$ROWS" ]
         check "$1.sources" "sources $(jget "$2" 'len(d["sources"])'), want $3" [ "$(jget "$2" 'len(d["sources"])')" = "$3" ]
-        same_summary "$1.same_as_single_scan" "$2" "$T/single.sheaf"
+        info_same "$1.same_as_single_scan" "$2" "$T/single.sheaf"
     fi
 }
 # calls WORD: how many calls of `sheaf WORD` went through ssh so far.

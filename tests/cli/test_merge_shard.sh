@@ -67,12 +67,6 @@ same_summary() {
     why=$("$PY" "$T/cmp.py" "$a" "$b" "$@" 2>&1)
     if [ -z "$why" ]; then pass "$name"; else fail "$name" "differs: ${why:0:400}"; fi
 }
-# jget SUMMARY EXPR: python expression over d, the info JSON.
-jget() {
-    "$SHEAF" info --format json "$1" 2>/dev/null | "$PY" -c 'import json,sys
-d = json.load(sys.stdin)
-print(json.dumps(eval(sys.argv[1]), separators=(",", ":")))' "$2" 2>/dev/null || echo "no-summary"
-}
 
 # ------------------------------------------------------------ the quoted file
 # Quoted fields hold delimiters, doubled quotes and newlines; several hold

@@ -111,12 +111,6 @@ elif mode == "same":
             want[bad] if bad is not None else None))
 EOF
 ref() { "$PY" "$T/csvref.py" "$@" 2>&1; }
-# jget SUMMARY EXPR: a Python expression over d, the info JSON.
-jget() {
-    "$SHEAF" info --format json "$1" 2>/dev/null | "$PY" -c 'import json,sys
-d = json.load(sys.stdin)
-print(json.dumps(eval(sys.argv[1]), separators=(",", ":")))' "$2" 2>/dev/null || echo "no-summary"
-}
 # scan's names for a header: empty ones are colN (1-based).
 scan_names() {
     "$PY" -c 'import json,sys

@@ -22,47 +22,10 @@ set -u
 cd "$(dirname "$0")/../.." || exit 0
 . tests/cli/common.sh
 cli_setup shardrange python || exit 0
+. tests/cli/shard_common.sh
 
-# cmp.py A.sheaf B.sheaf: the info JSON of two summaries compared without
-# "sources", "format_version" (a shard's summary is version 6) and "bytes"
-# (a shard counts the bytes of its records only); integers and strings
-# equal, floats to 1e-12 relative (absolute below 1); top values as
-# count-ordered sets, only for exact value tables.
-cat >"$T/cmp.py" <<'EOF'
-import json, os, subprocess, sys
-sys.path.insert(0, "tests")
-from refcheck import tree_differences
-
-def info(p):
-    r = subprocess.run([os.environ.get("SHEAF_BIN", "./sheaf"), "info", "--format", "json",
-                        "--top-values", "1000", p], stdout=subprocess.PIPE, stderr=subprocess.PIPE)
-    if r.returncode:
-        sys.exit("info %s exit %d: %s" % (p, r.returncode, r.stderr.decode().strip()))
-    d = json.loads(r.stdout)
-    for k in ("sources", "format_version", "bytes"):
-        d.pop(k, None)
-    for c in d["columns"]:
-        c.pop("bytes", None)
-        if c.get("distinct_exact"):
-            c["top"] = sorted(c["top"], key=lambda e: (-e["count"], e["value"]))
-        else:
-            c.pop("top", None)
-    return d
-
-d = tree_differences(info(sys.argv[1]), info(sys.argv[2]), 1e-12)
-print("; ".join(d[:4]))
-EOF
-jget() {
-    "$SHEAF" info --format json "$1" 2>/dev/null | "$PY" -c 'import json,sys
-d = json.load(sys.stdin)
-print(json.dumps(eval(sys.argv[1]), separators=(",", ":")))' "$2" 2>/dev/null || echo "no-summary"
-}
-nrec() { "$PY" -c 'import csv,sys
-rows = list(csv.reader(open(sys.argv[1], newline="", encoding="utf-8-sig")))
-print(sum(1 for r in rows[1:] if r))' "$1"; }
 
 # ------------------------------------------------------------ the hard files
-. tests/cli/shard_common.sh
 shard_hard_files "$T"
 
 for f in quoted long plain crlf bom blank headonly; do
@@ -79,7 +42,7 @@ for f in quoted long plain crlf bom blank headonly; do
         check "$f.$n.merge" "exit $RC: $(err_text)" [ "$RC" -eq 0 ] || continue
         rows=$(jget "$T/$f.$n.merged.sheaf" 'd["rows"]')
         check "$f.$n.every_record_once" "rows $rows, csv module $want" [ "$rows" = "$want" ]
-        why=$("$PY" "$T/cmp.py" "$T/$f.$n.merged.sheaf" "$T/$f.whole.sheaf" 2>&1)
+        why=$("$PY" tests/cli/info_same.py "$T/$f.$n.merged.sheaf" "$T/$f.whole.sheaf" bytes 2>&1)
         check "$f.$n.same_as_whole" "differs: ${why:0:300}" [ -z "$why" ]
         v=$(jget "$T/$f.$n.merged.sheaf" 'sorted(set(s["shard"]["check"] for s in d["sources"]))')
         check "$f.$n.all_verified" "checks $v (rescanned $FIXED)" [ "$v" = '["verified"]' ]
@@ -154,7 +117,7 @@ if check wrong_guess.refused "no shard's worst candidate was refused" [ -n "$fou
     run "$SHEAF" scan -q "$f" --shard "$i/$n" --shard-from-top -o "$T/wrong.$i.sheaf"
     run "$SHEAF" merge $(for k in $(seq 1 "$n"); do echo "$T/wrong.$k.sheaf"; done) -o "$T/wrong.merged.sheaf"
     check wrong_guess.rescan_merges "exit $RC: $(err_text)" [ "$RC" -eq 0 ]
-    why=$("$PY" "$T/cmp.py" "$T/wrong.merged.sheaf" "$T/quoted.whole.sheaf" 2>&1)
+    why=$("$PY" tests/cli/info_same.py "$T/wrong.merged.sheaf" "$T/quoted.whole.sheaf" bytes 2>&1)
     check wrong_guess.rescan_same_as_whole "differs: ${why:0:300}" [ -z "$why" ]
 fi
 
