@@ -63,6 +63,8 @@ void chunker_start(chunker *c, const char *name)
     memset(c->buf, 0, 1 + CHUNK_PADDING);
 }
 
+void chunker_rebase(chunker *c, uint64_t base) { c->base = base; }
+
 void chunker_set_dialect(chunker *c, char delim, size_t skip_bytes)
 {
     c->delim = delim;

@@ -44,6 +44,11 @@ void chunker_free(chunker *c);
 /* Starts a new stream (the previous one is dropped).  `name` is used in
  * messages and must outlive the stream. */
 void chunker_start(chunker *c, const char *name);
+/* The stream's next byte is at offset `base` (a record's start), not 0:
+ * for a stream taken up in the middle (a resumed scan).  The chunks cut
+ * from there are those a stream from offset 0 gives there.  Call after
+ * chunker_start, before any byte. */
+void chunker_rebase(chunker *c, uint64_t base);
 /* The delimiter the quote rule needs, and the bytes at the start of the
  * stream that belong to no record (a byte-order mark).  No chunk is cut
  * before this is set. */

@@ -84,6 +84,12 @@ void reader_start(reader *r, const char *name, int at_file_start, char delim, ui
     if (r->delim && !at_file_start) chunker_set_dialect(r->ck, r->delim, 0);
 }
 
+void reader_rebase(reader *r, uint64_t at)
+{
+    chunker_rebase(r->ck, at);
+    r->absorbed = at;
+}
+
 void reader_set_stop(reader *r, uint64_t stop_at)
 {
     r->stop_at = stop_at;

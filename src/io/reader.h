@@ -72,6 +72,11 @@ void reader_free(reader *r);
  * left to someone else (0: none). */
 void reader_start(reader *r, const char *name, int at_file_start, char delim, uint64_t stop_at);
 
+/* The stream just started continues a file at offset `at`, a record's
+ * start (chunker_rebase): its chunks and offsets are those of the whole
+ * stream from there.  Call right after reader_start, before any byte. */
+void reader_rebase(reader *r, uint64_t at);
+
 /* Sets the stop offset from now on (0: none), for records not yet read. */
 void reader_set_stop(reader *r, uint64_t stop_at);
 

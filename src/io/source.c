@@ -23,10 +23,13 @@
 #include <string.h>
 #include <sys/stat.h>
 #include <unistd.h>
+#define XXH_STATIC_LINKING_ONLY /* XXH3_state_t's layout: marks copy it */
 #include <xxhash.h>
 #include <zstd.h>
 
 #define RAW_BYTES (1u << 20)
+#define MARK_SLOTS 8           /* restart points kept (the newest ones) */
+#define MARK_MIN_BYTES (4u << 20) /* decoded bytes between two restart points, at least */
 #define DIRECT_BYTES (64u << 10) /* read() straight into a caller's room this large */
 
 struct source {
@@ -44,6 +47,8 @@ struct source {
     uint64_t raw_size;        /* file size, 0 if unknown */
     int64_t mtime;            /* seconds since the epoch */
     XXH3_state_t *hash;       /* fingerprint of raw bytes */
+    int hash_on_use;          /* gzip: hashed as the decoder consumes them, not as read */
+    struct marks *marks;      /* restart points (source_keep_marks), or NULL */
     struct inflate_state *gz; /* gzip state */
     int gz_in_member;         /* inside a gzip member */
     int gz_header_done;       /* the member's header has been parsed */
@@ -85,6 +90,29 @@ struct ahead {
     ssize_t rc;
     int quit;                 /* source_close: stop */
     uint64_t consumed_raw;    /* raw offset of what was handed out */
+};
+
+/* Restart points: the gzip decoder's whole state between two isal_inflate
+ * calls (struct inflate_state holds the bit buffer, the Huffman tables and
+ * the 32 KiB history; only next_in and next_out point outside it), with
+ * where it stands in the raw and the decoded bytes and the hashes of both
+ * prefixes.  The decoding thread writes them, under the read-ahead mutex
+ * when there is one; source_mark_before reads them under it. */
+typedef struct {
+    int used;                    /* the slot holds a point */
+    uint64_t raw_at;             /* raw offset of the next byte the decoder reads */
+    uint64_t decoded_at;         /* decoded bytes produced before the point */
+    uint64_t raw_print;          /* XXH3-64 of the raw bytes [0, raw_at) */
+    XXH3_state_t decoded_hash;   /* XXH3 of the decoded bytes [0, decoded_at) */
+    struct inflate_state gz;     /* the decoder, next_in and next_out cleared */
+} mark;
+
+struct marks {
+    uint64_t every;              /* decoded bytes between points, at least */
+    uint64_t next_at;            /* the next point is taken at or after this offset */
+    size_t newest;               /* slot of the last point taken */
+    XXH3_state_t decoded_hash;   /* XXH3 of every decoded byte so far */
+    mark slot[MARK_SLOTS];
 };
 
 /* Notes that a gzip member or zstd frame begins at decoded offset `at`.  Out
@@ -139,7 +167,7 @@ static ssize_t read_raw(source *s, uint8_t *buf, size_t cap)
             return -1;
         }
         if (n == 0) { s->raw_eof = 1; return 0; }
-        XXH3_64bits_update(s->hash, buf, (size_t)n);
+        if (!s->hash_on_use) XXH3_64bits_update(s->hash, buf, (size_t)n);
         s->raw_offset += (uint64_t)n;
         return n;
     }
@@ -192,6 +220,10 @@ static int detect(source *s, char *err, size_t errlen)
         if (!s->gz) { snprintf(err, errlen, "%s: out of memory", s->path); errno = ENOMEM; return -1; }
         isal_inflate_init(s->gz);
         s->gz_in_member = 0;
+        /* Nothing is consumed yet: from here the fingerprint follows the
+         * decoder, so that it is known exactly where a restart point is. */
+        XXH3_64bits_reset(s->hash);
+        s->hash_on_use = 1;
     } else if (s->raw_len >= 4 && m[0] == 0x28 && m[1] == 0xb5 && m[2] == 0x2f && m[3] == 0xfd) {
         s->kind = SOURCE_ZSTD;
         s->zs = ZSTD_createDStream();
@@ -307,6 +339,7 @@ void source_close(source *s)
     free(s->raw);
     if (s->hash) XXH3_freeState(s->hash);
     free(s->gz);
+    free(s->marks);
     if (s->zs) ZSTD_freeDStream(s->zs);
     free(s->starts);
     free(s);
@@ -356,6 +389,35 @@ static ssize_t gzip_fail(source *s, const char *fmt, uint64_t at)
     return -1;
 }
 
+/* n raw bytes at raw_pos were consumed by the gzip decoder: into the
+ * fingerprint (hash_on_use). */
+static void consume(source *s, size_t n)
+{
+    XXH3_64bits_update(s->hash, s->raw + s->raw_pos, n);
+    s->raw_pos += n;
+}
+
+/* A restart point where the decoder stands now, after `produced` bytes of
+ * this read: into the oldest slot. */
+static void take_mark(source *s, uint64_t decoded_at)
+{
+    struct marks *m = s->marks;
+    if (s->ahead) pthread_mutex_lock(&s->ahead->mu);
+    size_t k = (m->newest + 1) % MARK_SLOTS;
+    mark *p = &m->slot[k];
+    p->used = 1;
+    p->raw_at = unread_offset(s);
+    p->decoded_at = decoded_at;
+    p->raw_print = XXH3_64bits_digest(s->hash);
+    XXH3_copyState(&p->decoded_hash, &m->decoded_hash);
+    memcpy(&p->gz, s->gz, sizeof p->gz);
+    p->gz.next_in = p->gz.next_out = NULL;
+    p->gz.avail_in = p->gz.avail_out = 0;
+    m->newest = k;
+    if (s->ahead) pthread_mutex_unlock(&s->ahead->mu);
+    m->next_at = decoded_at + m->every;
+}
+
 static ssize_t read_gzip(source *s, uint8_t *buf, size_t cap)
 {
     struct inflate_state *st = s->gz;
@@ -383,7 +445,7 @@ static ssize_t read_gzip(source *s, uint8_t *buf, size_t cap)
         st->avail_in = (uint32_t)avail;
         if (!s->gz_header_done) {
             int rc = isal_read_gzip_header(st, &s->gz_header);
-            s->raw_pos += (size_t)avail - st->avail_in;
+            consume(s, (size_t)avail - st->avail_in);
             if (rc == ISAL_DECOMP_OK) {
                 s->gz_header_done = 1;
                 st->crc_flag = ISAL_GZIP_NO_HDR_VER;
@@ -399,9 +461,14 @@ static ssize_t read_gzip(source *s, uint8_t *buf, size_t cap)
         st->next_out = buf + produced;
         st->avail_out = room;
         int rc = isal_inflate(st);
-        size_t used = (size_t)avail - st->avail_in;
-        s->raw_pos += used;
-        produced += room - st->avail_out;
+        size_t used = (size_t)avail - st->avail_in, out = room - st->avail_out;
+        consume(s, used);
+        if (s->marks && rc >= 0) {
+            XXH3_64bits_update(&s->marks->decoded_hash, buf + produced, out);
+            if (st->block_state != ISAL_BLOCK_FINISH && s->decoded + produced + out >= s->marks->next_at)
+                take_mark(s, s->decoded + produced + out);
+        }
+        produced += out;
         if (rc < 0)
             return gzip_fail(s, rc == ISAL_INCORRECT_CHECKSUM
                                     ? "%s: corrupt gzip stream (checksum mismatch) near byte %s"
@@ -591,6 +658,159 @@ static void ahead_stop(source *s)
     pthread_cond_destroy(&a->cv);
     free(a);
     s->ahead = NULL;
+}
+
+/* ---- restart points ---------------------------------------------------- */
+
+/* A mark's bytes: what ties it to this build, then the point.  Native byte
+ * order and sizes: the probe and the sizes tell another machine's or
+ * build's apart. */
+static const char MARK_MAGIC[8] = {'s', 'h', 'f', 'g', 'z', 'r', 's', 't'};
+typedef struct {
+    char magic[8];
+    uint32_t isal[3];        /* ISAL_MAJOR_VERSION, _MINOR_, _PATCH_ */
+    uint32_t state_bytes;    /* sizeof (struct inflate_state) */
+    uint32_t xxh_version;    /* XXH_VERSION_NUMBER */
+    uint32_t xxh_bytes;      /* sizeof (XXH3_state_t) */
+    uint32_t pointer_bytes;  /* sizeof (void *) */
+    uint32_t order;          /* 0x01020304 as stored */
+    uint64_t raw_at, decoded_at, raw_print;
+} mark_head;
+
+#define MARK_BYTES (sizeof(mark_head) + sizeof(XXH3_state_t) + sizeof(struct inflate_state))
+
+static void mark_head_fill(mark_head *h)
+{
+    memset(h, 0, sizeof *h);
+    memcpy(h->magic, MARK_MAGIC, sizeof h->magic);
+    h->isal[0] = ISAL_MAJOR_VERSION;
+    h->isal[1] = ISAL_MINOR_VERSION;
+    h->isal[2] = ISAL_PATCH_VERSION;
+    h->state_bytes = (uint32_t)sizeof(struct inflate_state);
+    h->xxh_version = XXH_VERSION_NUMBER;
+    h->xxh_bytes = (uint32_t)sizeof(XXH3_state_t);
+    h->pointer_bytes = (uint32_t)sizeof(void *);
+    h->order = 0x01020304u;
+}
+
+int source_keep_marks(source *s, uint64_t every_bytes)
+{
+    if (s->kind != SOURCE_GZIP || s->marks) return 0;
+    size_t bytes = (sizeof *s->marks + 63) / 64 * 64;
+    struct marks *m = aligned_alloc(64, bytes);
+    if (!m) return -1;
+    memset(m, 0, bytes);
+    m->every = every_bytes > MARK_MIN_BYTES ? every_bytes : MARK_MIN_BYTES;
+    m->next_at = m->every;
+    m->newest = MARK_SLOTS - 1;
+    XXH3_64bits_reset(&m->decoded_hash);
+    s->marks = m;
+    return 0;
+}
+
+int source_mark_before(source *s, uint64_t at, void **out, size_t *len)
+{
+    *out = NULL;
+    *len = 0;
+    if (!s->marks) return 0;
+    if (s->ahead) pthread_mutex_lock(&s->ahead->mu);
+    const mark *best = NULL;
+    for (size_t k = 0; k < MARK_SLOTS; k++) {
+        const mark *p = &s->marks->slot[k];
+        if (p->used && p->decoded_at <= at && (!best || p->decoded_at > best->decoded_at)) best = p;
+    }
+    uint8_t *b = best ? malloc(MARK_BYTES) : NULL;
+    if (b) {
+        mark_head h;
+        mark_head_fill(&h);
+        h.raw_at = best->raw_at;
+        h.decoded_at = best->decoded_at;
+        h.raw_print = best->raw_print;
+        memcpy(b, &h, sizeof h);
+        /* The state's secret pointer means nothing in another process:
+         * stored cleared, set again on restoring (put_hash_state). */
+        XXH3_state_t hs;
+        memcpy(&hs, &best->decoded_hash, sizeof hs);
+        hs.extSecret = NULL;
+        memcpy(b + sizeof h, &hs, sizeof hs);
+        memcpy(b + sizeof h + sizeof(XXH3_state_t), &best->gz, sizeof(struct inflate_state));
+    }
+    if (s->ahead) pthread_mutex_unlock(&s->ahead->mu);
+    if (!best) return 0;
+    if (!b) return -1;
+    *out = b;
+    *len = MARK_BYTES;
+    return 1;
+}
+
+/* A stored XXH3 state into `to`, a state reset by its owner: all but the
+ * pointer to the default secret, which stays `to`'s own. */
+static void put_hash_state(void *to, const void *from)
+{
+    XXH3_state_t *t = to;
+    const unsigned char *secret = t->extSecret;
+    memcpy(t, from, sizeof *t);
+    t->extSecret = secret;
+}
+
+source_restored source_restore(source *s, const void *data, size_t len, void *hash_state,
+                               size_t hash_state_bytes, uint64_t *decoded_at)
+{
+    mark_head want, h;
+    mark_head_fill(&want);
+    if (s->kind != SOURCE_GZIP || s->ahead || s->decoded || s->gz_in_member || len != MARK_BYTES ||
+        hash_state_bytes != sizeof(XXH3_state_t))
+        return SOURCE_MARK_STALE;
+    memcpy(&h, data, sizeof h);
+    if (memcmp(h.magic, want.magic, sizeof h.magic) || memcmp(h.isal, want.isal, sizeof h.isal) ||
+        h.state_bytes != want.state_bytes || h.xxh_version != want.xxh_version ||
+        h.xxh_bytes != want.xxh_bytes || h.pointer_bytes != want.pointer_bytes ||
+        h.order != want.order || h.raw_at == 0)
+        return SOURCE_MARK_STALE;
+    /* The raw bytes before the point, into the fingerprint, as the decoder
+     * would have consumed them. */
+    while (unread_offset(s) < h.raw_at) {
+        ssize_t avail = raw_fill(s);
+        if (avail < 0) return SOURCE_MARK_FAILED;
+        if (avail == 0) return SOURCE_MARK_DIFFERS;
+        uint64_t left = h.raw_at - unread_offset(s);
+        consume(s, (size_t)avail < left ? (size_t)avail : (size_t)left);
+    }
+    if (XXH3_64bits_digest(s->hash) != h.raw_print) return SOURCE_MARK_DIFFERS;
+    const uint8_t *b = data;
+    put_hash_state(hash_state, b + sizeof h);
+    if (s->marks) {
+        put_hash_state(&s->marks->decoded_hash, b + sizeof h);
+        s->marks->next_at = h.decoded_at + s->marks->every;
+    }
+    memcpy(s->gz, b + sizeof h + sizeof(XXH3_state_t), sizeof(struct inflate_state));
+    s->gz->next_in = s->gz->next_out = NULL;
+    s->gz->avail_in = s->gz->avail_out = 0;
+    s->gz_in_member = 1;
+    s->gz_header_done = 1;
+    s->decoded = h.decoded_at;
+    *decoded_at = h.decoded_at;
+    return SOURCE_MARK_RESTORED;
+}
+
+source_restored source_skip_plain(source *s, uint64_t to, void *hash_state,
+                                  size_t hash_state_bytes)
+{
+    if (s->kind != SOURCE_PLAIN || s->ahead || s->decoded || s->pull || s->raw_pos ||
+        hash_state_bytes != sizeof(XXH3_state_t) || to < s->raw_offset)
+        return SOURCE_MARK_STALE;
+    /* What the format probe read lies before `to`: dropped, then the rest
+     * of [0, to) read straight into the fingerprint. */
+    s->raw_pos = s->raw_len = 0;
+    while (s->raw_offset < to) {
+        uint64_t left = to - s->raw_offset;
+        ssize_t n = read_raw(s, s->raw, left < RAW_BYTES ? (size_t)left : RAW_BYTES);
+        if (n < 0) return SOURCE_MARK_FAILED;
+        if (n == 0) return SOURCE_MARK_DIFFERS;
+    }
+    put_hash_state(hash_state, s->hash);
+    s->decoded = to;
+    return SOURCE_MARK_RESTORED;
 }
 
 const char *source_error(const source *s) { return s->err; }

@@ -17,7 +17,8 @@
 #include "summary/tempfile.h"
 
 static const uint8_t MAGIC[8] = {'S', 'H', 'E', 'A', 'F', 'C', 'K', 'P'};
-#define CHECKPOINT_VERSION 1u
+#define CHECKPOINT_VERSION 2u
+#define CHECKPOINT_OLDEST 1u /* version 1: no restart point; resumed by fast-forward */
 #define MAX_PARTS 4096u
 #define MAX_TEXT (1u << 24)
 
@@ -127,6 +128,7 @@ static void encode_header(const checkpoint *c, const uint64_t *part_len, wire_wr
     wire_put_u64(w, c->rows);
     wire_put_u64(w, c->number);
     wire_put_u8(w, (uint8_t)c->delim);
+    wire_put_str(w, c->restart ? c->restart : "", c->restart ? c->restart_len : 0);
     wire_put_u32(w, (uint32_t)c->done->n);
     for (size_t i = 0; i < c->done->n; i++) wire_put_u64(w, part_len[i]);
 }
@@ -327,10 +329,10 @@ checkpoint_status checkpoint_read(const char *path, checkpoint *c, char *err, si
     }
     uint32_t version = (uint32_t)b[8] | (uint32_t)b[9] << 8 | (uint32_t)b[10] << 16 |
                        (uint32_t)b[11] << 24;
-    if (version != CHECKPOINT_VERSION) {
+    if (version < CHECKPOINT_OLDEST || version > CHECKPOINT_VERSION) {
         char why[96];
-        snprintf(why, sizeof why, "version %u; this sheaf reads version %u", version,
-                 CHECKPOINT_VERSION);
+        snprintf(why, sizeof why, "version %u; this sheaf reads versions %u to %u", version,
+                 CHECKPOINT_OLDEST, CHECKPOINT_VERSION);
         rc = damaged(path, err, errlen, why);
         goto out;
     }
@@ -371,6 +373,16 @@ checkpoint_status checkpoint_read(const char *path, checkpoint *c, char *err, si
     c->rows = wire_get_u64(&r);
     c->number = wire_get_u64(&r);
     c->delim = (char)wire_get_u8(&r);
+    if (version >= 2) {
+        size_t n;
+        const char *blob = wire_get_str(&r, &n, MAX_TEXT);
+        if (blob && n) {
+            c->restart = malloc(n);
+            if (!c->restart) { rc = CHECKPOINT_MEMORY; snprintf(err, errlen, "out of memory"); goto out; }
+            memcpy(c->restart, blob, n);
+            c->restart_len = n;
+        }
+    }
     uint32_t nparts = wire_get_u32(&r);
     if (r.failed || nparts < 1 || nparts > MAX_PARTS || c->file_index >= c->nfiles) {
         rc = damaged(path, err, errlen, "bad header");
@@ -411,6 +423,7 @@ void checkpoint_free(checkpoint *c)
     free(c->options);
     for (size_t i = 0; i < c->nfiles; i++) free(c->files[i].path);
     free(c->files);
+    free(c->restart);
     summary_set_free(c->done);
     memset(c, 0, sizeof *c);
 }

@@ -12,17 +12,27 @@
  *
  * Layout (little-endian; docs/nightly.md describes it for users):
  *
- *   magic "SHEAFCKP", u32 version (1), u64 H
+ *   magic "SHEAFCKP", u32 version (2), u64 H
  *   H bytes of header (acc/wire.h encoding): str options, u32 files
  *     (each: str path, u64 size, i64 mtime in ns, u64 raw fingerprint or 0),
  *     u32 file index, u64 offset, u64 prefix hash, u64 lines, u64 rows,
- *     u64 checkpoint number, u8 delimiter, u32 parts (each: u64 length)
+ *     u64 checkpoint number, u8 delimiter, str restart point (empty: none;
+ *     version 2 only), u32 parts (each: u64 length)
  *   u64 XXH3-64 of every byte before it
  *   the parts: each a whole summary file (docs/summary-format.md), with
  *     one source more at the end: the current file so far (format plain,
  *     its rows before the offset, nothing else), so that its rows add up as
  *     a summary's must; dropped when the file is read
  *   u64 XXH3-64 of every byte before it
+ *
+ * The restart point (version 2) is the current file's: for gzip, a mark of
+ * io/source.h (the decoder's state at raw offset R, decoded offset D <=
+ * offset, the XXH3-64 of the raw bytes [0, R) and the XXH3 state of the
+ * decoded bytes [0, D)), so that a resumed scan decodes from R instead of
+ * from byte 0.  It is opaque here and guarded by the header checksum like
+ * the rest.  Version 1 files (no restart point) are still read and resume
+ * the old way, decompressing the file from its start; so does a version 2
+ * file whose mark another build of ISA-L or xxHash wrote.
  *
  * The file is written as summaries are (summary/tempfile.h): in full to a
  * file without a name, flushed, then linked over the old checkpoint, so the
@@ -56,6 +66,8 @@ typedef struct {
     uint64_t rows;          /* its data rows before offset */
     uint64_t number;        /* checkpoints written by the scan, this one included */
     char delim;             /* the scan's delimiter (0 while the first file is read) */
+    void *restart;          /* the current file's restart point (io/source.h mark), or NULL */
+    size_t restart_len;     /* its bytes */
     summary_set *done;      /* the finished segments, merged (owned) */
 } checkpoint;
 

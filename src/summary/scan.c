@@ -570,6 +570,8 @@ void scan_free(scan_context *sc)
     summary_set_free(sc->done_set);
     free(sc->file_prints);
     free(sc->options_text);
+    free(sc->restart);
+    if (sc->jump_hash) XXH3_freeState(sc->jump_hash);
     free(sc);
 }
 
@@ -608,8 +610,18 @@ scan_status scan_end(scan_context *sc)
     return end(sc, &prov);
 }
 
+static scan_status pull_stream(scan_context *sc, source *src, uint64_t from);
+
 /* Pulls the open stream from src to its end (or its stop offset). */
 static scan_status pull(scan_context *sc, source *src, uint64_t from)
+{
+    sc->src = src;
+    scan_status st = pull_stream(sc, src, from);
+    sc->src = NULL;
+    return st;
+}
+
+static scan_status pull_stream(scan_context *sc, source *src, uint64_t from)
 {
     while (!sc->done) {
         int got = reader_pull(sc->rd, src);
@@ -634,6 +646,64 @@ static scan_status pull(scan_context *sc, source *src, uint64_t from)
 scan_status scan_source(scan_context *sc, source *src)
 {
     scan_status st = begin(sc, source_path(src), 0, 0);
+    return st != SCAN_OK ? st : pull(sc, src, 0);
+}
+
+/* Resuming at a restart point: the decoded bytes [sc->jump_from, skip_to)
+ * of src hashed after the restored prefix state and dropped, so that the
+ * reader starts at the checkpoint's offset with sc->prefix as a scan from
+ * byte 0 would have it there. */
+static scan_status jump_ahead(scan_context *sc, source *src)
+{
+    XXH3_copyState(sc->prefix, sc->jump_hash);
+    uint64_t at = sc->jump_from;
+    size_t cap = 1u << 20;
+    char *buf = at < sc->skip_to ? malloc(cap) : NULL;
+    if (at < sc->skip_to && !buf) return scan_fail(sc, SCAN_ERR_MEMORY, "out of memory");
+    while (at < sc->skip_to) {
+        uint64_t left = sc->skip_to - at;
+        ssize_t n = source_read(src, buf, left < cap ? (size_t)left : cap);
+        if (n < 0) {
+            free(buf);
+            return scan_fail(sc, errno == ENOMEM ? SCAN_ERR_MEMORY : SCAN_ERR_INPUT,
+                             source_error(src));
+        }
+        if (n == 0) break;
+        XXH3_64bits_update(sc->prefix, buf, (size_t)n);
+        at += (uint64_t)n;
+        uint64_t drop[64];
+        while (source_take_starts(src, drop, 64) == 64) {} /* members begun before the offset */
+    }
+    free(buf);
+    /* The first chunk (at skip_to) is checked against the checkpoint's
+     * prefix hash by scan_resume_here, as after a fast-forward; a file
+     * that ends before the offset is refused by end(). */
+    reader_start(sc->rd, sc->shown, 0, sc->delim, 0);
+    reader_rebase(sc->rd, at);
+    sc->at_first = 0;
+    return SCAN_OK;
+}
+
+scan_status scan_source_checked(scan_context *sc, source *src)
+{
+    if (!sc->jump) return scan_source(sc, src);
+    sc->jump = 0;
+    /* The header (and the delimiter) from a separate read of the file's
+     * start, as a shard reads it; the skipping waits meanwhile. */
+    errno = 0;
+    source *hs = source_open(source_path(src), sc->err, sizeof sc->err);
+    if (!hs) return scan_fail(sc, errno == ENOMEM ? SCAN_ERR_MEMORY : SCAN_ERR_INPUT, NULL);
+    int skipping = sc->skipping;
+    sc->skipping = 0;
+    sc->header_only = 1;
+    scan_status st = begin(sc, source_path(src), 0, 0);
+    if (st == SCAN_OK) st = pull(sc, hs, 0);
+    sc->header_only = 0;
+    sc->skipping = skipping;
+    source_close(hs);
+    if (st != SCAN_OK) return st;
+    st = begin(sc, source_path(src), 0, 0);
+    if (st == SCAN_OK) st = jump_ahead(sc, src);
     return st != SCAN_OK ? st : pull(sc, src, 0);
 }
 

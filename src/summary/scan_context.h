@@ -76,6 +76,14 @@ struct scan_context {
     uint64_t rows_before;  /* data rows of the current stream in earlier segments */
     int skipping;          /* resuming: chunks before skip_to are only hashed */
     uint64_t skip_to, skip_hash, skip_lines, skip_rows; /* the checkpoint's position */
+    size_t skip_file;      /* resuming: the index of the file the checkpoint is in */
+    void *restart;         /* resuming: the checkpoint's restart point (io/source.h mark), or NULL */
+    size_t restart_len;    /* its bytes */
+    int jump;              /* resuming: the current source continues at jump_from (restored
+                              or skipped), not at byte 0 */
+    uint64_t jump_from;    /* its decoded offset there (<= skip_to) */
+    XXH3_state_t *jump_hash; /* XXH3 of the decoded bytes [0, jump_from) */
+    source *src;           /* the source being pulled (restart points for a cut), or NULL */
     scan_status failed;    /* sticky: the first error */
     char err[4608];        /* its message */
 };
@@ -108,6 +116,18 @@ int scan_settle_runs(scan_context *sc);
 int scan_absorb_segment(scan_context *sc);
 scan_status scan_cut(scan_context *sc, uint64_t offset);
 scan_status scan_resume_here(scan_context *sc, const reader_chunk *ch);
+
+/* scan_paths.c: a source just opened for file `index` of a scan with
+ * checkpoints, made ready: it keeps restart points, and when it is the
+ * file a resumed scan continues in, it is moved to the checkpoint's
+ * restart point (gzip) or offset (plain) where it can be (sc->jump).
+ * SCAN_OK, or the failure (the file changed before the point). */
+scan_status scan_prime_source(scan_context *sc, source *src, size_t index);
+/* scan.c: a source whose first bytes are the file's, or, with sc->jump,
+ * that continues at sc->jump_from: the header from a separate read of the
+ * file's start, then the bytes from sc->jump_from, those before the
+ * checkpoint's offset hashed only. */
+scan_status scan_source_checked(scan_context *sc, source *src);
 
 /* A source the caller opened, as a shard's stream: from > 0 (its label in
  * messages) when it starts past the file's header, stopping before records

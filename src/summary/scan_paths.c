@@ -17,7 +17,16 @@
 scan_status scan_path(scan_context *sc, const char *path)
 {
     if (sc->o.shard_count) return scan_shard(sc, path);
-    return scan_file_range(sc, path, 0, 0);
+    if (!sc->prefix) return scan_file_range(sc, path, 0, 0);
+    /* Checkpoints: restart points, and a resumed file moved to its point. */
+    if (sc->failed) return sc->failed;
+    errno = 0;
+    source *src = source_open(path, sc->err, sizeof sc->err);
+    if (!src) return scan_fail(sc, errno == ENOMEM ? SCAN_ERR_MEMORY : SCAN_ERR_INPUT, NULL);
+    scan_status st = scan_prime_source(sc, src, sc->file_index);
+    if (st == SCAN_OK) st = scan_source_checked(sc, src);
+    source_close(src);
+    return st;
 }
 
 /* Files in turn, each decompressed ahead on a thread of its own (a file and
@@ -29,12 +38,18 @@ scan_status scan_path(scan_context *sc, const char *path)
 #define READ_AHEAD_CHUNKS 2
 #define READ_AHEAD_MIN_THREADS 3
 
-static source *open_ahead(scan_context *sc, const char *path, char *err, size_t errlen,
-                          int *nomem)
+static source *open_ahead(scan_context *sc, const char *path, size_t index, char *err,
+                          size_t errlen, int *nomem)
 {
     errno = 0;
     source *src = source_open(path, err, errlen);
     *nomem = !src && errno == ENOMEM;
+    if (src && sc->prefix && scan_prime_source(sc, src, index) != SCAN_OK) {
+        source_close(src);
+        snprintf(err, errlen, "%s", sc->err);
+        *nomem = sc->failed == SCAN_ERR_MEMORY;
+        return NULL;
+    }
     if (src && source_read_ahead(src, READ_AHEAD_CHUNKS * sc->o.chunk_bytes) != 0) {
         source_close(src);
         snprintf(err, errlen, "%s: out of memory: the read-ahead thread", path);
@@ -48,7 +63,9 @@ static scan_status read_ahead(scan_context *sc, const char *const *paths, size_t
 {
     char next_err[sizeof sc->err];
     int next_nomem = 0;
-    source *next = npaths ? open_ahead(sc, paths[0], next_err, sizeof next_err, &next_nomem) : NULL;
+    size_t first = (size_t)(paths - sc->paths);
+    source *next = npaths ? open_ahead(sc, paths[0], first, next_err, sizeof next_err, &next_nomem)
+                          : NULL;
     scan_status st = SCAN_OK;
     for (size_t i = 0; st == SCAN_OK && i < npaths; i++) {
         source *src = next;
@@ -56,11 +73,11 @@ static scan_status read_ahead(scan_context *sc, const char *const *paths, size_t
             st = scan_fail(sc, next_nomem ? SCAN_ERR_MEMORY : SCAN_ERR_INPUT, next_err);
             break;
         }
-        next = i + 1 < npaths
-                   ? open_ahead(sc, paths[i + 1], next_err, sizeof next_err, &next_nomem)
-                   : NULL;
-        sc->file_index = (size_t)(paths + i - sc->paths);
-        st = scan_source(sc, src);
+        next = i + 1 < npaths ? open_ahead(sc, paths[i + 1], first + i + 1, next_err,
+                                           sizeof next_err, &next_nomem)
+                              : NULL;
+        sc->file_index = first + i;
+        st = sc->prefix ? scan_source_checked(sc, src) : scan_source(sc, src);
         source_close(src);
     }
     source_close(next);
@@ -78,6 +95,58 @@ static scan_status read_ahead(scan_context *sc, const char *const *paths, size_t
  * before the checkpoint's offset are hashed and dropped without being
  * tokenized (scan.c, drain), and the scan goes on from there in exactly the
  * state the killed scan had after writing the checkpoint. */
+
+/* SHEAF_TEST_RESTART (tests and measurements only; not in --help): a list
+ * of words.  "off": restart points are not used (the resume fast-forwards
+ * from byte 0, as before them); "stale": they are taken for another
+ * build's; "note": a warning says where the resumed file continued. */
+static int restart_knob(const char *word)
+{
+    const char *v = getenv("SHEAF_TEST_RESTART");
+    return v && strstr(v, word) != NULL;
+}
+
+static void restart_note(scan_context *sc, const char *line)
+{
+    if (sc->o.warn && restart_knob("note")) sc->o.warn(sc->o.warn_ctx, line);
+}
+
+scan_status scan_prime_source(scan_context *sc, source *src, size_t index)
+{
+    if (source_keep_marks(src, sc->o.chunk_bytes) != 0)
+        return scan_fail(sc, SCAN_ERR_MEMORY, "out of memory: restart points");
+    if (!sc->skipping || index != sc->skip_file) return SCAN_OK;
+    source_restored r = SOURCE_MARK_STALE;
+    uint64_t from = sc->skip_to;
+    if (restart_knob("off")) {
+        r = SOURCE_MARK_STALE;
+    } else if (source_kind(src) == SOURCE_GZIP) {
+        if (sc->restart && !restart_knob("stale"))
+            r = source_restore(src, sc->restart, sc->restart_len, sc->jump_hash,
+                               sizeof *sc->jump_hash, &from);
+    } else if (source_kind(src) == SOURCE_PLAIN) {
+        r = source_skip_plain(src, sc->skip_to, sc->jump_hash, sizeof *sc->jump_hash);
+    }
+    if (r == SOURCE_MARK_STALE) {
+        restart_note(sc, "test note: no restart point used; the file is read from byte 0");
+        return SCAN_OK;
+    }
+    if (r == SOURCE_MARK_FAILED) return scan_fail(sc, SCAN_ERR_INPUT, source_error(src));
+    if (r == SOURCE_MARK_DIFFERS) {
+        snprintf(sc->err, sizeof sc->err,
+                 "%s: its bytes before the restart point of checkpoint %s differ from those it "
+                 "was written after (the file changed); start again without {resume}",
+                 source_path(src), sc->o.checkpoint);
+        return scan_fail(sc, SCAN_ERR_INPUT, NULL);
+    }
+    sc->jump = 1;
+    sc->jump_from = from;
+    char line[128];
+    snprintf(line, sizeof line, "test note: resumed at raw byte %llu, decoded byte %llu",
+             (unsigned long long)source_raw_offset(src), (unsigned long long)from);
+    restart_note(sc, line);
+    return SCAN_OK;
+}
 
 /* The first line where two "key=value\n" texts differ, into a message. */
 static void first_difference(const char *then, const char *now, char *out, size_t len)
@@ -129,9 +198,11 @@ static scan_status prepare_checkpoints(scan_context *sc, const char *const *path
     sc->file_prints = calloc(npaths ? npaths : 1, sizeof *sc->file_prints);
     sc->options_text = checkpoint_options_text(&sc->o);
     sc->prefix = XXH3_createState();
-    if (!sc->file_prints || !sc->options_text || !sc->prefix)
+    sc->jump_hash = XXH3_createState();
+    if (!sc->file_prints || !sc->options_text || !sc->prefix || !sc->jump_hash)
         return scan_fail(sc, SCAN_ERR_MEMORY, "out of memory");
     XXH3_64bits_reset(sc->prefix);
+    XXH3_64bits_reset(sc->jump_hash);
     char why[sizeof sc->err - 600];
     checkpoint_status ps = checkpoint_probe(path, why, sizeof why);
     if (ps != CHECKPOINT_OK)
@@ -206,6 +277,10 @@ static scan_status prepare_checkpoints(scan_context *sc, const char *const *path
     sc->skip_hash = c.prefix_hash;
     sc->skip_lines = c.lines;
     sc->skip_rows = c.rows;
+    sc->skip_file = c.file_index;
+    sc->restart = c.restart;
+    sc->restart_len = c.restart_len;
+    c.restart = NULL;
     *start = c.file_index;
     checkpoint_free(&c);
     return SCAN_OK;

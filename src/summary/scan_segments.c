@@ -79,11 +79,17 @@ scan_status scan_cut(scan_context *sc, uint64_t offset)
     c.number = ++sc->ckpt_number;
     c.delim = sc->delim;
     c.done = sc->done_set;
+    /* The current file's newest restart point before the offset (gzip). */
+    if (sc->src && source_mark_before(sc->src, offset, &c.restart, &c.restart_len) < 0) {
+        free(c.files);
+        return scan_fail(sc, SCAN_ERR_MEMORY, "out of memory");
+    }
     summary_set *reread;
     char why[sizeof sc->err - 64];
     checkpoint_status cs = checkpoint_write(sc->o.checkpoint, &c, sc->o.checkpoint_pause,
                                             sc->o.checkpoint_pause_ctx, &reread, why, sizeof why);
     free(c.files);
+    free(c.restart);
     if (cs != CHECKPOINT_OK)
         return scan_fail(sc, cs == CHECKPOINT_MEMORY ? SCAN_ERR_MEMORY : SCAN_ERR_WRITE, why);
     summary_set_free(sc->done_set);
