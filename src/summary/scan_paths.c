@@ -118,25 +118,33 @@ scan_status scan_prime_source(scan_context *sc, source *src, size_t index)
     if (!sc->skipping || index != sc->skip_file) return SCAN_OK;
     source_restored r = SOURCE_MARK_STALE;
     uint64_t from = sc->skip_to;
+    const char *why = "switched off";
     if (restart_knob("off")) {
         r = SOURCE_MARK_STALE;
     } else if (source_kind(src) == SOURCE_GZIP) {
+        why = !sc->restart ? "none in the checkpoint" : "another build's";
         if (sc->restart && !restart_knob("stale"))
             r = source_restore(src, sc->restart, sc->restart_len, sc->jump_hash,
                                sizeof *sc->jump_hash, &from);
     } else if (source_kind(src) == SOURCE_PLAIN) {
+        why = "the offset lies in the first read";
         r = source_skip_plain(src, sc->skip_to, sc->jump_hash, sizeof *sc->jump_hash);
+    } else {
+        why = "zstd is fast-forwarded";
     }
     if (r == SOURCE_MARK_STALE) {
-        restart_note(sc, "test note: no restart point used; the file is read from byte 0");
+        char line[160];
+        snprintf(line, sizeof line, "test note: no restart point used (%s); the file is read "
+                 "from byte 0", why);
+        restart_note(sc, line);
         return SCAN_OK;
     }
     if (r == SOURCE_MARK_FAILED) return scan_fail(sc, SCAN_ERR_INPUT, source_error(src));
     if (r == SOURCE_MARK_DIFFERS) {
         snprintf(sc->err, sizeof sc->err,
-                 "%s: its bytes before the restart point of checkpoint %s differ from those it "
-                 "was written after (the file changed); start again without {resume}",
-                 source_path(src), sc->o.checkpoint);
+                 "%s: its first %llu raw bytes differ from those checkpoint %s was written after "
+                 "(the file changed); start again without {resume}",
+                 source_path(src), (unsigned long long)source_raw_offset(src), sc->o.checkpoint);
         return scan_fail(sc, SCAN_ERR_INPUT, NULL);
     }
     sc->jump = 1;
