@@ -20,6 +20,7 @@
 #include <sys/stat.h>
 #include <sys/wait.h>
 #include <unistd.h>
+#define XXH_STATIC_LINKING_ONLY /* sizeof (XXH3_state_t): restart points */
 #include <xxhash.h>
 #include <zlib.h>
 #include <zstd.h>
@@ -793,4 +794,161 @@ Test(source, format_names)
     cr_assert_str_eq(source_format_name(SOURCE_PLAIN), "plain");
     cr_assert_str_eq(source_format_name(SOURCE_GZIP), "gzip");
     cr_assert_str_eq(source_format_name(SOURCE_ZSTD), "zstd");
+}
+
+/* --- restart points (source_keep_marks, source_restore) ----------------------
+ *
+ * A mark taken while reading must let a fresh source continue at its point
+ * with exactly the bytes a read from the start gives there, the XXH3 state
+ * of the decoded prefix (checked against one-shot XXH3_64bits of it) and,
+ * at the end, the fingerprint of the whole raw file. */
+
+typedef struct {
+    void *mark;
+    size_t len;
+} kept_mark;
+
+/* Reads path whole with reads of varied sizes, asking for the newest mark
+ * after each read; keeps up to max distinct ones.  Returns how many. */
+static size_t collect_marks(const char *path, kept_mark *out, size_t max, const bytes *want)
+{
+    char err[512] = "";
+    source *s = source_open(path, err, sizeof err);
+    cr_assert_not_null(s, "%s", err);
+    cr_assert_eq(source_keep_marks(s, 0), 0);
+    size_t n = 0, have = 0;
+    uint64_t rng = 77;
+    unsigned char *buf = malloc(1u << 20);
+    cr_assert_not_null(buf);
+    for (;;) {
+        size_t cap = (size_t)(xorshift64(&rng) % (1u << 20)) + 1;
+        ssize_t got = source_read(s, buf, cap);
+        cr_assert_geq(got, 0, "%s", source_error(s));
+        if (got == 0) break;
+        cr_assert(memcmp(buf, want->data + have, (size_t)got) == 0);
+        have += (size_t)got;
+        void *m;
+        size_t len;
+        int rc = source_mark_before(s, have, &m, &len);
+        cr_assert_geq(rc, 0);
+        if (rc == 0) continue;
+        if (n && out[n - 1].len == len && memcmp(out[n - 1].mark, m, len) == 0) { free(m); continue; }
+        if (n == max) { free(out[0].mark); memmove(out, out + 1, (max - 1) * sizeof *out); n--; }
+        out[n].mark = m;
+        out[n].len = len;
+        n++;
+    }
+    cr_assert_eq(have, want->len);
+    free(buf);
+    source_close(s);
+    return n;
+}
+
+/* Restores mark into a fresh source of path and checks the rest. */
+static void expect_restores(const char *path, const kept_mark *m, const bytes *want,
+                            const bytes *raw)
+{
+    char err[512] = "";
+    source *s = source_open(path, err, sizeof err);
+    cr_assert_not_null(s, "%s", err);
+    cr_assert_eq(source_keep_marks(s, 0), 0);
+    XXH3_state_t *h = XXH3_createState();
+    XXH3_64bits_reset(h);
+    uint64_t at = 0;
+    cr_assert_eq(source_restore(s, m->mark, m->len, h, sizeof *h, &at), SOURCE_MARK_RESTORED);
+    cr_assert(at > 0 && at <= want->len);
+    cr_assert_eq(XXH3_64bits_digest(h), XXH3_64bits(want->data, (size_t)at),
+                 "the decoded prefix hash at %llu", (unsigned long long)at);
+    bytes rest = {0};
+    cr_assert_eq(drain(s, 65536 + 17, &rest), 0, "%s", source_error(s));
+    cr_assert_eq(rest.len, want->len - at);
+    cr_assert(memcmp(rest.data, want->data + at, rest.len) == 0, "bytes after %llu differ",
+              (unsigned long long)at);
+    cr_assert_eq(source_fingerprint(s), XXH3_64bits(raw->data, raw->len));
+    free(rest.data);
+    XXH3_freeState(h);
+    source_close(s);
+}
+
+Test(source, gzip_restart_points_continue_byte_for_byte)
+{
+    bytes text = make_text(5, 14u << 20);
+    bytes one = gzip_member(text.data, text.len);
+    size_t half = text.len / 2;
+    bytes two = gzip_member(text.data, half), second = gzip_member(text.data + half, text.len - half);
+    put(&two, second.data, second.len);
+    const bytes *files[] = {&one, &two};
+    for (int f = 0; f < 2; f++) {
+        char path[80];
+        temp_path(path, ".gz");
+        write_file(path, files[f]->data, files[f]->len);
+        kept_mark marks[6];
+        size_t n = collect_marks(path, marks, 6, &text);
+        cr_assert_geq(n, 2, "file %d: %zu marks", f, n);
+        for (size_t i = 0; i < n; i++) expect_restores(path, &marks[i], &text, files[f]);
+        /* Another build's mark (its ISA-L version differs): refused before
+         * anything is read, and the source still reads from the start. */
+        unsigned char *stale = marks[0].mark;
+        stale[8] ^= 1;
+        char err[512] = "";
+        source *s = source_open(path, err, sizeof err);
+        XXH3_state_t *h = XXH3_createState();
+        XXH3_64bits_reset(h);
+        uint64_t at = 0;
+        cr_assert_eq(source_restore(s, marks[0].mark, marks[0].len, h, sizeof *h, &at),
+                     SOURCE_MARK_STALE);
+        bytes all = {0};
+        cr_assert_eq(drain(s, 65536, &all), 0);
+        cr_assert(all.len == text.len && memcmp(all.data, text.data, text.len) == 0);
+        free(all.data);
+        source_close(s);
+        /* A raw byte before the last mark's point changed: refused. */
+        bytes changed = {0};
+        put(&changed, files[f]->data, files[f]->len);
+        changed.data[changed.len / 8] ^= 0x40;
+        write_file(path, changed.data, changed.len);
+        s = source_open(path, err, sizeof err);
+        XXH3_64bits_reset(h);
+        cr_assert_eq(source_restore(s, marks[n - 1].mark, marks[n - 1].len, h, sizeof *h, &at),
+                     SOURCE_MARK_DIFFERS);
+        source_close(s);
+        XXH3_freeState(h);
+        free(changed.data);
+        for (size_t i = 0; i < n; i++) free(marks[i].mark);
+        unlink(path);
+    }
+    free(text.data);
+    free(one.data);
+    free(two.data);
+    free(second.data);
+}
+
+Test(source, plain_file_skips_to_an_offset_with_its_prefix_hash)
+{
+    bytes text = make_text(9, 3u << 20);
+    char path[80];
+    temp_path(path, ".csv");
+    write_file(path, text.data, text.len);
+    uint64_t to = (2u << 20) + 12345;
+    char err[512] = "";
+    source *s = source_open(path, err, sizeof err);
+    cr_assert_not_null(s, "%s", err);
+    XXH3_state_t *h = XXH3_createState();
+    XXH3_64bits_reset(h);
+    cr_assert_eq(source_skip_plain(s, to, h, sizeof *h), SOURCE_MARK_RESTORED);
+    cr_assert_eq(XXH3_64bits_digest(h), XXH3_64bits(text.data, (size_t)to));
+    bytes rest = {0};
+    cr_assert_eq(drain(s, 70000, &rest), 0);
+    cr_assert(rest.len == text.len - to && memcmp(rest.data, text.data + to, rest.len) == 0);
+    cr_assert_eq(source_fingerprint(s), XXH3_64bits(text.data, text.len));
+    source_close(s);
+    /* An offset inside what the format probe read: not skipped. */
+    s = source_open(path, err, sizeof err);
+    XXH3_64bits_reset(h);
+    cr_assert_eq(source_skip_plain(s, 1000, h, sizeof *h), SOURCE_MARK_STALE);
+    source_close(s);
+    XXH3_freeState(h);
+    free(rest.data);
+    free(text.data);
+    unlink(path);
 }
