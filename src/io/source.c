@@ -23,7 +23,7 @@
 #include <string.h>
 #include <sys/stat.h>
 #include <unistd.h>
-#define XXH_STATIC_LINKING_ONLY /* XXH3_state_t's layout: marks copy it */
+#define XXH_INLINE_ALL /* XXH3_state_t's layout (marks copy it), and the hash inlined */
 #include <xxhash.h>
 #include <zstd.h>
 
