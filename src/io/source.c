@@ -23,7 +23,7 @@
 #include <string.h>
 #include <sys/stat.h>
 #include <unistd.h>
-#define XXH_INLINE_ALL /* XXH3_state_t's layout (marks copy it), and the hash inlined */
+#define XXH_INLINE_ALL /* the hash inlined; XXH3_state_t's layout for source_skip_plain */
 #include <xxhash.h>
 #include <zstd.h>
 
@@ -95,15 +95,14 @@ struct ahead {
 /* Restart points: the gzip decoder's whole state between two isal_inflate
  * calls (struct inflate_state holds the bit buffer, the Huffman tables and
  * the 32 KiB history; only next_in and next_out point outside it), with
- * where it stands in the raw and the decoded bytes and the hashes of both
- * prefixes.  The decoding thread writes them, under the read-ahead mutex
+ * where it stands in the raw and the decoded bytes and the hash of the raw
+ * prefix.  The decoding thread writes them, under the read-ahead mutex
  * when there is one; source_mark_before reads them under it. */
 typedef struct {
     int used;                    /* the slot holds a point */
     uint64_t raw_at;             /* raw offset of the next byte the decoder reads */
     uint64_t decoded_at;         /* decoded bytes produced before the point */
     uint64_t raw_print;          /* XXH3-64 of the raw bytes [0, raw_at) */
-    XXH3_state_t decoded_hash;   /* XXH3 of the decoded bytes [0, decoded_at) */
     struct inflate_state gz;     /* the decoder, next_in and next_out cleared */
 } mark;
 
@@ -111,7 +110,6 @@ struct marks {
     uint64_t every;              /* decoded bytes between points, at least */
     uint64_t next_at;            /* the next point is taken at or after this offset */
     size_t newest;               /* slot of the last point taken */
-    XXH3_state_t decoded_hash;   /* XXH3 of every decoded byte so far */
     mark slot[MARK_SLOTS];
 };
 
@@ -409,7 +407,6 @@ static void take_mark(source *s, uint64_t decoded_at)
     p->raw_at = unread_offset(s);
     p->decoded_at = decoded_at;
     p->raw_print = XXH3_64bits_digest(s->hash);
-    XXH3_copyState(&p->decoded_hash, &m->decoded_hash);
     memcpy(&p->gz, s->gz, sizeof p->gz);
     p->gz.next_in = p->gz.next_out = NULL;
     p->gz.avail_in = p->gz.avail_out = 0;
@@ -463,11 +460,9 @@ static ssize_t read_gzip(source *s, uint8_t *buf, size_t cap)
         int rc = isal_inflate(st);
         size_t used = (size_t)avail - st->avail_in, out = room - st->avail_out;
         consume(s, used);
-        if (s->marks && rc >= 0) {
-            XXH3_64bits_update(&s->marks->decoded_hash, buf + produced, out);
-            if (st->block_state != ISAL_BLOCK_FINISH && s->decoded + produced + out >= s->marks->next_at)
-                take_mark(s, s->decoded + produced + out);
-        }
+        if (s->marks && rc >= 0 && st->block_state != ISAL_BLOCK_FINISH &&
+            s->decoded + produced + out >= s->marks->next_at)
+            take_mark(s, s->decoded + produced + out);
         produced += out;
         if (rc < 0)
             return gzip_fail(s, rc == ISAL_INCORRECT_CHECKSUM
@@ -670,14 +665,13 @@ typedef struct {
     char magic[8];
     uint32_t isal[3];        /* ISAL_MAJOR_VERSION, _MINOR_, _PATCH_ */
     uint32_t state_bytes;    /* sizeof (struct inflate_state) */
-    uint32_t xxh_version;    /* XXH_VERSION_NUMBER */
-    uint32_t xxh_bytes;      /* sizeof (XXH3_state_t) */
+    uint32_t xxh_version;    /* XXH_VERSION_NUMBER (the raw prefix hash) */
     uint32_t pointer_bytes;  /* sizeof (void *) */
     uint32_t order;          /* 0x01020304 as stored */
     uint64_t raw_at, decoded_at, raw_print;
 } mark_head;
 
-#define MARK_BYTES (sizeof(mark_head) + sizeof(XXH3_state_t) + sizeof(struct inflate_state))
+#define MARK_BYTES (sizeof(mark_head) + sizeof(struct inflate_state))
 
 static void mark_head_fill(mark_head *h)
 {
@@ -688,7 +682,6 @@ static void mark_head_fill(mark_head *h)
     h->isal[2] = ISAL_PATCH_VERSION;
     h->state_bytes = (uint32_t)sizeof(struct inflate_state);
     h->xxh_version = XXH_VERSION_NUMBER;
-    h->xxh_bytes = (uint32_t)sizeof(XXH3_state_t);
     h->pointer_bytes = (uint32_t)sizeof(void *);
     h->order = 0x01020304u;
 }
@@ -696,55 +689,57 @@ static void mark_head_fill(mark_head *h)
 int source_keep_marks(source *s, uint64_t every_bytes)
 {
     if (s->kind != SOURCE_GZIP || s->marks) return 0;
-    size_t bytes = (sizeof *s->marks + 63) / 64 * 64;
-    struct marks *m = aligned_alloc(64, bytes);
+    struct marks *m = calloc(1, sizeof *m);
     if (!m) return -1;
-    memset(m, 0, bytes);
     m->every = every_bytes > MARK_MIN_BYTES ? every_bytes : MARK_MIN_BYTES;
     m->next_at = m->every;
     m->newest = MARK_SLOTS - 1;
-    XXH3_64bits_reset(&m->decoded_hash);
     s->marks = m;
     return 0;
 }
 
-int source_mark_before(source *s, uint64_t at, void **out, size_t *len)
+size_t source_mark_offsets(source *s, uint64_t after, uint64_t upto, uint64_t *out, size_t max)
+{
+    if (!s->marks) return 0;
+    if (s->ahead) pthread_mutex_lock(&s->ahead->mu);
+    size_t n = 0;
+    for (size_t i = 1; i <= MARK_SLOTS && n < max; i++) { /* oldest first */
+        const mark *p = &s->marks->slot[(s->marks->newest + i) % MARK_SLOTS];
+        if (p->used && p->decoded_at > after && p->decoded_at <= upto) out[n++] = p->decoded_at;
+    }
+    if (s->ahead) pthread_mutex_unlock(&s->ahead->mu);
+    return n;
+}
+
+int source_mark_at(source *s, uint64_t at, void **out, size_t *len)
 {
     *out = NULL;
     *len = 0;
     if (!s->marks) return 0;
     if (s->ahead) pthread_mutex_lock(&s->ahead->mu);
-    const mark *best = NULL;
-    for (size_t k = 0; k < MARK_SLOTS; k++) {
-        const mark *p = &s->marks->slot[k];
-        if (p->used && p->decoded_at <= at && (!best || p->decoded_at > best->decoded_at)) best = p;
-    }
-    uint8_t *b = best ? malloc(MARK_BYTES) : NULL;
+    const mark *found = NULL;
+    for (size_t k = 0; k < MARK_SLOTS; k++)
+        if (s->marks->slot[k].used && s->marks->slot[k].decoded_at == at) found = &s->marks->slot[k];
+    uint8_t *b = found ? malloc(MARK_BYTES) : NULL;
     if (b) {
         mark_head h;
         mark_head_fill(&h);
-        h.raw_at = best->raw_at;
-        h.decoded_at = best->decoded_at;
-        h.raw_print = best->raw_print;
+        h.raw_at = found->raw_at;
+        h.decoded_at = found->decoded_at;
+        h.raw_print = found->raw_print;
         memcpy(b, &h, sizeof h);
-        /* The state's secret pointer means nothing in another process:
-         * stored cleared, set again on restoring (put_hash_state). */
-        XXH3_state_t hs;
-        memcpy(&hs, &best->decoded_hash, sizeof hs);
-        hs.extSecret = NULL;
-        memcpy(b + sizeof h, &hs, sizeof hs);
-        memcpy(b + sizeof h + sizeof(XXH3_state_t), &best->gz, sizeof(struct inflate_state));
+        memcpy(b + sizeof h, &found->gz, sizeof(struct inflate_state));
     }
     if (s->ahead) pthread_mutex_unlock(&s->ahead->mu);
-    if (!best) return 0;
+    if (!found) return 0;
     if (!b) return -1;
     *out = b;
     *len = MARK_BYTES;
     return 1;
 }
 
-/* A stored XXH3 state into `to`, a state reset by its owner: all but the
- * pointer to the default secret, which stays `to`'s own. */
+/* An XXH3 state into `to`, a state reset by its owner: all but the pointer
+ * to the default secret, which stays `to`'s own. */
 static void put_hash_state(void *to, const void *from)
 {
     XXH3_state_t *t = to;
@@ -753,18 +748,16 @@ static void put_hash_state(void *to, const void *from)
     t->extSecret = secret;
 }
 
-source_restored source_restore(source *s, const void *data, size_t len, void *hash_state,
-                               size_t hash_state_bytes, uint64_t *decoded_at)
+source_restored source_restore(source *s, const void *data, size_t len, uint64_t *decoded_at)
 {
     mark_head want, h;
     mark_head_fill(&want);
-    if (s->kind != SOURCE_GZIP || s->ahead || s->decoded || s->gz_in_member || len != MARK_BYTES ||
-        hash_state_bytes != sizeof(XXH3_state_t))
+    if (s->kind != SOURCE_GZIP || s->ahead || s->decoded || s->gz_in_member || len != MARK_BYTES)
         return SOURCE_MARK_STALE;
     memcpy(&h, data, sizeof h);
     if (memcmp(h.magic, want.magic, sizeof h.magic) || memcmp(h.isal, want.isal, sizeof h.isal) ||
         h.state_bytes != want.state_bytes || h.xxh_version != want.xxh_version ||
-        h.xxh_bytes != want.xxh_bytes || h.pointer_bytes != want.pointer_bytes ||
+        h.pointer_bytes != want.pointer_bytes ||
         h.order != want.order || h.raw_at == 0)
         return SOURCE_MARK_STALE;
     /* The raw bytes before the point, into the fingerprint, as the decoder
@@ -778,12 +771,8 @@ source_restored source_restore(source *s, const void *data, size_t len, void *ha
     }
     if (XXH3_64bits_digest(s->hash) != h.raw_print) return SOURCE_MARK_DIFFERS;
     const uint8_t *b = data;
-    put_hash_state(hash_state, b + sizeof h);
-    if (s->marks) {
-        put_hash_state(&s->marks->decoded_hash, b + sizeof h);
-        s->marks->next_at = h.decoded_at + s->marks->every;
-    }
-    memcpy(s->gz, b + sizeof h + sizeof(XXH3_state_t), sizeof(struct inflate_state));
+    if (s->marks) s->marks->next_at = h.decoded_at + s->marks->every;
+    memcpy(s->gz, b + sizeof h, sizeof(struct inflate_state));
     s->gz->next_in = s->gz->next_out = NULL;
     s->gz->avail_in = s->gz->avail_out = 0;
     s->gz_in_member = 1;

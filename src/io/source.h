@@ -75,24 +75,30 @@ void source_observe(source *s, source_observer fn, void *ctx);
  * A scan with checkpoints resumes inside a gzip file without decompressing
  * it again from the start: the source keeps restart points, each the whole
  * decoder state between two isal_inflate calls (the bit buffer, the Huffman
- * tables, the 32 KiB history), the raw offset of the next byte the decoder
- * reads, the decoded offset there, the XXH3-64 of the raw bytes before it
- * and the XXH3 state of the decoded bytes before it.  A point's bytes (a
- * mark) are tied to this build of ISA-L and xxHash and to the machine's
- * sizes and byte order: source_restore refuses another's as stale.
+ * tables, the 32 KiB history), the raw offset R of the next byte the decoder
+ * reads, the decoded offset D there and the XXH3-64 of the raw bytes
+ * [0, R).  A point's bytes (a mark) are tied to this build of ISA-L and
+ * xxHash and to the machine's sizes and byte order: source_restore refuses
+ * another's as stale.  The hash of the decoded bytes before D is the
+ * caller's to keep (it hashes them anyway): source_mark_offsets says where
+ * the points lie.
  *
  * For gzip the fingerprint is taken as the decoder consumes the raw bytes
  * (the same hash at the end), so that it is known exactly at a point. */
 
 /* Keeps restart points every every_bytes decoded bytes (4 MiB at least),
- * the MARK_SLOTS newest ones.  Call before the first read and before
+ * the MARK_SLOTS (8) newest ones.  Call before the first read and before
  * source_read_ahead.  A source that is not gzip keeps none.  0, or -1 when
  * out of memory. */
 int source_keep_marks(source *s, uint64_t every_bytes);
-/* The newest restart point at or before decoded offset `at`, as a mark in
- * a malloc'd *out of *len bytes (the caller frees it): 1, or 0 when there
- * is none (none kept, or all after `at`), -1 when out of memory. */
-int source_mark_before(source *s, uint64_t at, void **out, size_t *len);
+/* The decoded offsets of the points kept that lie in (after, upto],
+ * ascending, at most max of them into out; how many.  Every point at or
+ * before the end of what source_read has handed out is known by then. */
+size_t source_mark_offsets(source *s, uint64_t after, uint64_t upto, uint64_t *out, size_t max);
+/* The point at decoded offset `at`, as a mark in a malloc'd *out of *len
+ * bytes (the caller frees it): 1, or 0 when no point kept is there, -1 when
+ * out of memory. */
+int source_mark_at(source *s, uint64_t at, void **out, size_t *len);
 
 typedef enum {
     SOURCE_MARK_RESTORED = 0, /* the source continues at the point */
@@ -104,16 +110,16 @@ typedef enum {
 
 /* Continues a freshly opened gzip source (nothing read yet, no read-ahead)
  * at the point of a mark: reads and fingerprints the raw bytes before it,
- * restores the decoder and sets *decoded_at to the decoded offset there.
- * hash_state (an XXH3_state_t of hash_state_bytes, from the same xxhash.h,
- * inline or not, reset by its owner: it keeps its own secret) receives the XXH3 state of the decoded bytes before the
- * point.  After SOURCE_MARK_DIFFERS or _FAILED the source is spent. */
-source_restored source_restore(source *s, const void *mark, size_t len, void *hash_state,
-                               size_t hash_state_bytes, uint64_t *decoded_at);
-/* The same for a freshly opened plain file and a decoded offset `to`: the
- * bytes [0, to) are read into the fingerprint only, and hash_state receives
- * their XXH3 state.  SOURCE_MARK_STALE when `to` lies within what the
- * format probe read, or the source is not a plain file. */
+ * checks their hash, restores the decoder and sets *decoded_at to the
+ * decoded offset there.  After SOURCE_MARK_DIFFERS or _FAILED the source is
+ * spent. */
+source_restored source_restore(source *s, const void *mark, size_t len, uint64_t *decoded_at);
+/* For a freshly opened plain file and an offset `to`: the bytes [0, to) are
+ * read into the fingerprint only, and hash_state (an XXH3_state_t of
+ * hash_state_bytes, from the same xxhash.h, inline or not, reset by its
+ * owner: it keeps its own secret pointer) receives their XXH3 state.
+ * SOURCE_MARK_STALE when `to` lies within what the format probe read, or
+ * the source is not a plain file. */
 source_restored source_skip_plain(source *s, uint64_t to, void *hash_state,
                                   size_t hash_state_bytes);
 

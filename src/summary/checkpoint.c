@@ -129,6 +129,7 @@ static void encode_header(const checkpoint *c, const uint64_t *part_len, wire_wr
     wire_put_u64(w, c->number);
     wire_put_u8(w, (uint8_t)c->delim);
     wire_put_str(w, c->restart ? c->restart : "", c->restart ? c->restart_len : 0);
+    wire_put_str(w, c->restart_hash ? c->restart_hash : "", c->restart_hash ? c->restart_hash_len : 0);
     wire_put_u32(w, (uint32_t)c->done->n);
     for (size_t i = 0; i < c->done->n; i++) wire_put_u64(w, part_len[i]);
 }
@@ -374,13 +375,21 @@ checkpoint_status checkpoint_read(const char *path, checkpoint *c, char *err, si
     c->number = wire_get_u64(&r);
     c->delim = (char)wire_get_u8(&r);
     if (version >= 2) {
-        size_t n;
-        const char *blob = wire_get_str(&r, &n, MAX_TEXT);
-        if (blob && n) {
+        size_t n, m;
+        const char *point = wire_get_str(&r, &n, MAX_TEXT);
+        const char *hash = wire_get_str(&r, &m, MAX_TEXT);
+        if (point && hash && n && m) {
             c->restart = malloc(n);
-            if (!c->restart) { rc = CHECKPOINT_MEMORY; snprintf(err, errlen, "out of memory"); goto out; }
-            memcpy(c->restart, blob, n);
+            c->restart_hash = malloc(m);
+            if (!c->restart || !c->restart_hash) {
+                rc = CHECKPOINT_MEMORY;
+                snprintf(err, errlen, "out of memory");
+                goto out;
+            }
+            memcpy(c->restart, point, n);
             c->restart_len = n;
+            memcpy(c->restart_hash, hash, m);
+            c->restart_hash_len = m;
         }
     }
     uint32_t nparts = wire_get_u32(&r);
@@ -424,6 +433,7 @@ void checkpoint_free(checkpoint *c)
     for (size_t i = 0; i < c->nfiles; i++) free(c->files[i].path);
     free(c->files);
     free(c->restart);
+    free(c->restart_hash);
     summary_set_free(c->done);
     memset(c, 0, sizeof *c);
 }

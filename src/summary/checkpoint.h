@@ -16,8 +16,9 @@
  *   H bytes of header (acc/wire.h encoding): str options, u32 files
  *     (each: str path, u64 size, i64 mtime in ns, u64 raw fingerprint or 0),
  *     u32 file index, u64 offset, u64 prefix hash, u64 lines, u64 rows,
- *     u64 checkpoint number, u8 delimiter, str restart point (empty: none;
- *     version 2 only), u32 parts (each: u64 length)
+ *     u64 checkpoint number, u8 delimiter, str restart point and str its
+ *     prefix hash (both empty: none; version 2 only), u32 parts (each: u64
+ *     length)
  *   u64 XXH3-64 of every byte before it
  *   the parts: each a whole summary file (docs/summary-format.md), with
  *     one source more at the end: the current file so far (format plain,
@@ -27,10 +28,11 @@
  *
  * The restart point (version 2) is the current file's: for gzip, a mark of
  * io/source.h (the decoder's state at raw offset R, decoded offset D <=
- * offset, the XXH3-64 of the raw bytes [0, R) and the XXH3 state of the
- * decoded bytes [0, D)), so that a resumed scan decodes from R instead of
- * from byte 0.  It is opaque here and guarded by the header checksum like
- * the rest.  Version 1 files (no restart point) are still read and resume
+ * offset, the XXH3-64 of the raw bytes [0, R)) and the scan's XXH3 state
+ * of the decoded bytes [0, D) (u32 XXH_VERSION_NUMBER, u32 its size, the
+ * state), so that a resumed scan decodes from R instead of from byte 0 and
+ * still checks the decoded prefix hash at the offset.  Both are opaque
+ * here and guarded by the header checksum like the rest.  Version 1 files (no restart point) are still read and resume
  * the old way, decompressing the file from its start; so does a version 2
  * file whose mark another build of ISA-L or xxHash wrote.
  *
@@ -68,6 +70,8 @@ typedef struct {
     char delim;             /* the scan's delimiter (0 while the first file is read) */
     void *restart;          /* the current file's restart point (io/source.h mark), or NULL */
     size_t restart_len;     /* its bytes */
+    void *restart_hash;     /* the decoded prefix hash at the point (scan_segments.c), or NULL */
+    size_t restart_hash_len; /* its bytes */
     summary_set *done;      /* the finished segments, merged (owned) */
 } checkpoint;
 

@@ -392,6 +392,26 @@ int scan_settle_runs(scan_context *sc)
     return 0;
 }
 
+/* The decoded bytes [offset, offset + len) of the current stream into the
+ * prefix hash, its state kept at each restart point of the source among
+ * them (a checkpoint stores the one at its point: scan_cut). */
+static void prefix_update(scan_context *sc, const char *data, size_t len, uint64_t offset)
+{
+    uint64_t at[SCAN_POINTS];
+    size_t n = sc->src ? source_mark_offsets(sc->src, offset, offset + len, at, SCAN_POINTS) : 0;
+    size_t done = 0;
+    for (size_t i = 0; i < n; i++) {
+        size_t cut = (size_t)(at[i] - offset);
+        XXH3_64bits_update(sc->prefix, data + done, cut - done);
+        done = cut;
+        size_t k = sc->point_next;
+        XXH3_copyState(sc->point_hash[k], sc->prefix);
+        sc->point_at[k] = at[i];
+        sc->point_next = (k + 1) % SCAN_POINTS;
+    }
+    XXH3_64bits_update(sc->prefix, data + done, len - done);
+}
+
 /* Hands every complete chunk of the reader to the chunks. */
 static scan_status drain(scan_context *sc)
 {
@@ -414,14 +434,14 @@ static scan_status drain(scan_context *sc)
         }
         if (sc->prefix) { /* segments: a cut, or (resuming) a chunk before the checkpoint */
             if (sc->skipping && ch.offset + ch.len <= sc->skip_to) {
-                XXH3_64bits_update(sc->prefix, ch.data, ch.len);
+                prefix_update(sc, ch.data, ch.len, ch.offset);
                 continue;
             }
             scan_status st = SCAN_OK;
             if (sc->skipping) st = scan_resume_here(sc, &ch);
             else if (sc->work && sc->seg_bytes >= sc->o.checkpoint_bytes) st = scan_cut(sc, ch.offset);
             if (st != SCAN_OK) return st;
-            XXH3_64bits_update(sc->prefix, ch.data, ch.len);
+            prefix_update(sc, ch.data, ch.len, ch.offset);
             sc->seg_bytes += ch.len;
         }
         if (!sc->work) { /* blank lines before the first header: their lines count */
@@ -473,6 +493,7 @@ static scan_status begin(scan_context *sc, const char *name, uint64_t from, uint
     if (sc->work) chunks_stream(sc->work, sc->shown, stop_at, 0);
     XXH3_64bits_reset(sc->fed_hash);
     if (sc->prefix) XXH3_64bits_reset(sc->prefix);
+    memset(sc->point_at, 0, sizeof sc->point_at);
     sc->rows_before = 0;
     return SCAN_OK;
 }
@@ -571,7 +592,10 @@ void scan_free(scan_context *sc)
     free(sc->file_prints);
     free(sc->options_text);
     free(sc->restart);
+    free(sc->restart_hash);
     if (sc->jump_hash) XXH3_freeState(sc->jump_hash);
+    for (size_t k = 0; k < SCAN_POINTS; k++)
+        if (sc->point_hash[k]) XXH3_freeState(sc->point_hash[k]);
     free(sc);
 }
 
@@ -660,6 +684,7 @@ static scan_status jump_ahead(scan_context *sc, source *src)
     size_t cap = 1u << 20;
     char *buf = at < sc->skip_to ? malloc(cap) : NULL;
     if (at < sc->skip_to && !buf) return scan_fail(sc, SCAN_ERR_MEMORY, "out of memory");
+    sc->src = src; /* restart points among the skipped bytes */
     while (at < sc->skip_to) {
         uint64_t left = sc->skip_to - at;
         ssize_t n = source_read(src, buf, left < cap ? (size_t)left : cap);
@@ -669,12 +694,13 @@ static scan_status jump_ahead(scan_context *sc, source *src)
                              source_error(src));
         }
         if (n == 0) break;
-        XXH3_64bits_update(sc->prefix, buf, (size_t)n);
+        prefix_update(sc, buf, (size_t)n, at);
         at += (uint64_t)n;
         uint64_t drop[64];
         while (source_take_starts(src, drop, 64) == 64) {} /* members begun before the offset */
     }
     free(buf);
+    sc->src = NULL;
     /* The first chunk (at skip_to) is checked against the checkpoint's
      * prefix hash by scan_resume_here, as after a fast-forward; a file
      * that ends before the offset is refused by end(). */

@@ -18,6 +18,8 @@
 #include "summary/schema.h"
 #include "summary/summary.h"
 
+#define SCAN_POINTS 8 /* prefix hashes kept at restart points (io/source.h keeps 8) */
+
 struct scan_context {
     scan_options o;        /* options (borrowed strings) */
     reader_options ro;     /* the reader's options */
@@ -79,6 +81,12 @@ struct scan_context {
     size_t skip_file;      /* resuming: the index of the file the checkpoint is in */
     void *restart;         /* resuming: the checkpoint's restart point (io/source.h mark), or NULL */
     size_t restart_len;    /* its bytes */
+    void *restart_hash;    /* resuming: the decoded prefix hash there (scan_hash_save) */
+    size_t restart_hash_len; /* its bytes */
+    XXH3_state_t *point_hash[SCAN_POINTS]; /* the prefix hash at the current source's restart
+                                              points, as the chunks pass them */
+    uint64_t point_at[SCAN_POINTS]; /* their decoded offsets (0: an empty slot) */
+    size_t point_next;     /* the slot the next one takes */
     int jump;              /* resuming: the current source continues at jump_from (restored
                               or skipped), not at byte 0 */
     uint64_t jump_from;    /* its decoded offset there (<= skip_to) */
@@ -123,6 +131,13 @@ scan_status scan_resume_here(scan_context *sc, const reader_chunk *ch);
  * restart point (gzip) or offset (plain) where it can be (sc->jump).
  * SCAN_OK, or the failure (the file changed before the point). */
 scan_status scan_prime_source(scan_context *sc, source *src, size_t index);
+/* scan_segments.c: an XXH3 state as bytes for a checkpoint (u32
+ * XXH_VERSION_NUMBER, u32 its size, the state with its secret pointer
+ * cleared): malloc'd, NULL when out of memory; and back into `to`, a state
+ * already reset (0, or -1 when the bytes are another build's). */
+void *scan_hash_save(const XXH3_state_t *h, size_t *len);
+int scan_hash_load(XXH3_state_t *to, const void *data, size_t len);
+
 /* scan.c: a source whose first bytes are the file's, or, with sc->jump,
  * that continues at sc->jump_from: the header from a separate read of the
  * file's start, then the bytes from sc->jump_from, those before the

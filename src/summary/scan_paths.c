@@ -123,9 +123,9 @@ scan_status scan_prime_source(scan_context *sc, source *src, size_t index)
         r = SOURCE_MARK_STALE;
     } else if (source_kind(src) == SOURCE_GZIP) {
         why = !sc->restart ? "none in the checkpoint" : "another build's";
-        if (sc->restart && !restart_knob("stale"))
-            r = source_restore(src, sc->restart, sc->restart_len, sc->jump_hash,
-                               sizeof *sc->jump_hash, &from);
+        if (sc->restart && !restart_knob("stale") &&
+            scan_hash_load(sc->jump_hash, sc->restart_hash, sc->restart_hash_len) == 0)
+            r = source_restore(src, sc->restart, sc->restart_len, &from);
     } else if (source_kind(src) == SOURCE_PLAIN) {
         why = "the offset lies in the first read";
         r = source_skip_plain(src, sc->skip_to, sc->jump_hash, sizeof *sc->jump_hash);
@@ -207,7 +207,10 @@ static scan_status prepare_checkpoints(scan_context *sc, const char *const *path
     sc->options_text = checkpoint_options_text(&sc->o);
     sc->prefix = XXH3_createState();
     sc->jump_hash = XXH3_createState();
-    if (!sc->file_prints || !sc->options_text || !sc->prefix || !sc->jump_hash)
+    int points = 1;
+    for (size_t k = 0; k < SCAN_POINTS; k++)
+        if (!(sc->point_hash[k] = XXH3_createState())) points = 0;
+    if (!sc->file_prints || !sc->options_text || !sc->prefix || !sc->jump_hash || !points)
         return scan_fail(sc, SCAN_ERR_MEMORY, "out of memory");
     XXH3_64bits_reset(sc->prefix);
     XXH3_64bits_reset(sc->jump_hash);
@@ -288,7 +291,10 @@ static scan_status prepare_checkpoints(scan_context *sc, const char *const *path
     sc->skip_file = c.file_index;
     sc->restart = c.restart;
     sc->restart_len = c.restart_len;
+    sc->restart_hash = c.restart_hash;
+    sc->restart_hash_len = c.restart_hash_len;
     c.restart = NULL;
+    c.restart_hash = NULL;
     *start = c.file_index;
     checkpoint_free(&c);
     return SCAN_OK;

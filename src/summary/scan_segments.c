@@ -12,6 +12,32 @@
 
 #include "summary/checkpoint.h"
 
+void *scan_hash_save(const XXH3_state_t *h, size_t *len)
+{
+    uint32_t head[2] = {XXH_VERSION_NUMBER, (uint32_t)sizeof *h};
+    uint8_t *b = malloc(sizeof head + sizeof *h);
+    if (!b) return NULL;
+    XXH3_state_t copy;
+    memcpy(&copy, h, sizeof copy);
+    copy.extSecret = NULL; /* a pointer into this process: set again by scan_hash_load */
+    memcpy(b, head, sizeof head);
+    memcpy(b + sizeof head, &copy, sizeof copy);
+    *len = sizeof head + sizeof copy;
+    return b;
+}
+
+int scan_hash_load(XXH3_state_t *to, const void *data, size_t len)
+{
+    uint32_t head[2];
+    if (len != sizeof head + sizeof *to) return -1;
+    memcpy(head, data, sizeof head);
+    if (head[0] != XXH_VERSION_NUMBER || head[1] != sizeof *to) return -1;
+    const unsigned char *secret = to->extSecret;
+    memcpy(to, (const uint8_t *)data + sizeof head, sizeof *to);
+    to->extSecret = secret;
+    return 0;
+}
+
 /* The settled summaries of the open segment merged into the finished
  * segments (sc->done_set); sc->runs is then empty.  0, or -1. */
 int scan_absorb_segment(scan_context *sc)
@@ -79,9 +105,22 @@ scan_status scan_cut(scan_context *sc, uint64_t offset)
     c.number = ++sc->ckpt_number;
     c.delim = sc->delim;
     c.done = sc->done_set;
-    /* The current file's newest restart point before the offset (gzip). */
-    if (sc->src && source_mark_before(sc->src, offset, &c.restart, &c.restart_len) < 0) {
+    /* The current file's newest restart point before the offset (gzip)
+     * whose prefix hash the chunks have passed, with that hash. */
+    size_t best = SCAN_POINTS;
+    for (size_t k = 0; k < SCAN_POINTS; k++)
+        if (sc->point_at[k] && sc->point_at[k] <= offset &&
+            (best == SCAN_POINTS || sc->point_at[k] > sc->point_at[best]))
+            best = k;
+    int got = 0;
+    if (sc->src && best < SCAN_POINTS) {
+        got = source_mark_at(sc->src, sc->point_at[best], &c.restart, &c.restart_len);
+        if (got == 1 && !(c.restart_hash = scan_hash_save(sc->point_hash[best], &c.restart_hash_len)))
+            got = -1;
+    }
+    if (got < 0) {
         free(c.files);
+        free(c.restart);
         return scan_fail(sc, SCAN_ERR_MEMORY, "out of memory");
     }
     summary_set *reread;
@@ -90,6 +129,7 @@ scan_status scan_cut(scan_context *sc, uint64_t offset)
                                             sc->o.checkpoint_pause_ctx, &reread, why, sizeof why);
     free(c.files);
     free(c.restart);
+    free(c.restart_hash);
     if (cs != CHECKPOINT_OK)
         return scan_fail(sc, cs == CHECKPOINT_MEMORY ? SCAN_ERR_MEMORY : SCAN_ERR_WRITE, why);
     summary_set_free(sc->done_set);
