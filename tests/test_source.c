@@ -857,6 +857,16 @@ static void expect_restores(const char *path, const kept_mark *m, const bytes *w
     uint64_t at = 0;
     cr_assert_eq(source_restore(s, m->mark, m->len, &at), SOURCE_MARK_RESTORED);
     cr_assert(at > 0 && at <= want->len);
+    /* The restored point is kept, the same bytes, for the next checkpoint
+     * (the next one is taken only a full interval later). */
+    uint64_t where[8];
+    cr_assert_eq(source_mark_offsets(s, at - 1, at, where, 8), 1);
+    cr_assert_eq(where[0], at);
+    void *again;
+    size_t again_len;
+    cr_assert_eq(source_mark_at(s, at, &again, &again_len), 1);
+    cr_assert(again_len == m->len && memcmp(again, m->mark, m->len) == 0);
+    free(again);
     bytes rest = {0};
     cr_assert_eq(drain(s, 65536 + 17, &rest), 0, "%s", source_error(s));
     cr_assert_eq(rest.len, want->len - at);

@@ -771,7 +771,17 @@ source_restored source_restore(source *s, const void *data, size_t len, uint64_t
     }
     if (XXH3_64bits_digest(s->hash) != h.raw_print) return SOURCE_MARK_DIFFERS;
     const uint8_t *b = data;
-    if (s->marks) s->marks->next_at = h.decoded_at + s->marks->every;
+    if (s->marks) { /* the point itself is kept, for the next checkpoint */
+        struct marks *m = s->marks;
+        m->newest = (m->newest + 1) % MARK_SLOTS;
+        mark *p = &m->slot[m->newest];
+        p->used = 1;
+        p->raw_at = h.raw_at;
+        p->decoded_at = h.decoded_at;
+        p->raw_print = h.raw_print;
+        memcpy(&p->gz, b + sizeof h, sizeof p->gz);
+        m->next_at = h.decoded_at + m->every;
+    }
     memcpy(s->gz, b + sizeof h, sizeof(struct inflate_state));
     s->gz->next_in = s->gz->next_out = NULL;
     s->gz->avail_in = s->gz->avail_out = 0;

@@ -111,7 +111,7 @@ typedef enum {
 /* Continues a freshly opened gzip source (nothing read yet, no read-ahead)
  * at the point of a mark: reads and fingerprints the raw bytes before it,
  * checks their hash, restores the decoder and sets *decoded_at to the
- * decoded offset there.  After SOURCE_MARK_DIFFERS or _FAILED the source is
+ * decoded offset there.  The point is kept as if taken there.  After SOURCE_MARK_DIFFERS or _FAILED the source is
  * spent. */
 source_restored source_restore(source *s, const void *mark, size_t len, uint64_t *decoded_at);
 /* For a freshly opened plain file and an offset `to`: the bytes [0, to) are

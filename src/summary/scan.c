@@ -681,6 +681,11 @@ static scan_status jump_ahead(scan_context *sc, source *src)
 {
     XXH3_copyState(sc->prefix, sc->jump_hash);
     uint64_t at = sc->jump_from;
+    if (source_kind(src) == SOURCE_GZIP) { /* the restored point: the source keeps it too */
+        XXH3_copyState(sc->point_hash[sc->point_next], sc->jump_hash);
+        sc->point_at[sc->point_next] = at;
+        sc->point_next = (sc->point_next + 1) % SCAN_POINTS;
+    }
     size_t cap = 1u << 20;
     char *buf = at < sc->skip_to ? malloc(cap) : NULL;
     if (at < sc->skip_to && !buf) return scan_fail(sc, SCAN_ERR_MEMORY, "out of memory");
@@ -690,6 +695,7 @@ static scan_status jump_ahead(scan_context *sc, source *src)
         ssize_t n = source_read(src, buf, left < cap ? (size_t)left : cap);
         if (n < 0) {
             free(buf);
+            sc->src = NULL;
             return scan_fail(sc, errno == ENOMEM ? SCAN_ERR_MEMORY : SCAN_ERR_INPUT,
                              source_error(src));
         }

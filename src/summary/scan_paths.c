@@ -88,13 +88,19 @@ static scan_status read_ahead(scan_context *sc, const char *const *paths, size_t
  *
  * A resumed scan reads the checkpoint (summary/checkpoint.h), checks it
  * against the command (options, files) and the files already consumed (size
- * and modification time; the raw XXH3-64 of the finished files, read again;
- * the decompressed prefix of the current one, hashed on the way), takes its
- * merged summaries as the finished segments, and opens the current file from
- * its start: the reader cuts the same chunks from the same bytes, the chunks
- * before the checkpoint's offset are hashed and dropped without being
- * tokenized (scan.c, drain), and the scan goes on from there in exactly the
- * state the killed scan had after writing the checkpoint. */
+ * and modification time; the raw XXH3-64 of the finished files, read again),
+ * takes its merged summaries as the finished segments, and opens the current
+ * file.  scan_prime_source moves it towards the checkpoint's offset: a gzip
+ * file to the checkpoint's restart point (the raw prefix read and its hash
+ * checked, the decoder restored), a plain file to the offset itself (its
+ * bytes hashed on the way); scan_source_checked (scan.c) then reads the
+ * header apart, decodes the rest up to the offset into the prefix hash, and
+ * starts the reader there.  Without a usable point (zstd, an old checkpoint,
+ * another build's point) the file is read from its start: the reader cuts
+ * the same chunks, the chunks before the offset are hashed and dropped
+ * without being tokenized (scan.c, drain).  Either way the decompressed
+ * prefix hash is checked at the offset (scan_resume_here) and the scan goes
+ * on in exactly the state the killed scan had after writing the checkpoint. */
 
 /* SHEAF_TEST_RESTART (tests and measurements only; not in --help): a list
  * of words.  "off": restart points are not used (the resume fast-forwards

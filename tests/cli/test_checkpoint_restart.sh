@@ -153,6 +153,31 @@ if resumed gzip_point 7 point "$T/t.csv.gz" "${EVERY[@]}"; then
     check restart.gzip_point_offset "decoded byte ${d:-?} is not within the 4-14 MB" \
         test "${d:-0}" -ge 4000000 -a "${d:-0}" -le 14000000
 fi
+# A checkpoint written by a scan that itself resumed from a restart point,
+# soon after it (less than one point interval on): it holds a point too
+# (the restored one at least), so a second resume does not start at byte 0.
+if [ -f "$T/gzip_point.ck.keep" ]; then
+    cp "$T/gzip_point.ck.keep" "$T/chain.ck"
+    SHEAF_TEST_CHECKPOINT_PAUSE=8 "$SHEAF" scan -q "$T/t.csv.gz" "${EVERY[@]}" -j2 \
+        --checkpoint "$T/chain.ck" --resume -o "$T/chain.sheaf" >/dev/null 2>"$T/bg.err" &
+    pid=$!
+    if wait_paused "$T/bg.err" "$pid"; then
+        kill -9 "$pid"
+        wait "$pid" 2>/dev/null
+        SHEAF_TEST_RESTART=note run "$SHEAF" scan -q "$T/t.csv.gz" "${EVERY[@]}" \
+            --checkpoint "$T/chain.ck" --resume -o "$T/chain.sheaf"
+        if grep -q 'test note: resumed at raw byte [1-9]' "$T/err"; then
+            check restart.resumed_twice "exit $RC $(first_diff "$T/chain.sheaf" "$T/gzip_point.ref")" \
+                cmp -s "$T/chain.sheaf" "$T/gzip_point.ref"
+        else
+            fail restart.resumed_twice "the second resume used no restart point: $(err_text)"
+        fi
+    else
+        kill -9 "$pid" 2>/dev/null
+        wait "$pid" 2>/dev/null
+        fail restart.resumed_twice "the resumed scan never paused in checkpoint 8"
+    fi
+fi
 RJ=3 resumed gzip_point_j3 5 point "$T/t.csv.gz" "${EVERY[@]}" --target digit
 # The summary's fingerprint of the file (its provenance), hashed partly
 # before the restart point and partly after it, against XXH3-64 of the
