@@ -97,7 +97,8 @@ struct ahead {
  * the 32 KiB history; only next_in and next_out point outside it), with
  * where it stands in the raw and the decoded bytes and the hash of the raw
  * prefix.  The decoding thread writes them, under the read-ahead mutex
- * when there is one; source_mark_before reads them under it. */
+ * when there is one; source_mark_offsets and source_mark_at read them
+ * under it. */
 typedef struct {
     int used;                    /* the slot holds a point */
     uint64_t raw_at;             /* raw offset of the next byte the decoder reads */
@@ -395,8 +396,8 @@ static void consume(source *s, size_t n)
     s->raw_pos += n;
 }
 
-/* A restart point where the decoder stands now, after `produced` bytes of
- * this read: into the oldest slot. */
+/* A restart point where the decoder stands now, decoded_at bytes into the
+ * decoded stream: into the oldest slot. */
 static void take_mark(source *s, uint64_t decoded_at)
 {
     struct marks *m = s->marks;
