@@ -11,7 +11,7 @@
 # checkpoint, a two-member gzip file (`cat a.gz b.gz`) killed in its second
 # member, a restart point from "another build" (SHEAF_TEST_RESTART=stale) and
 # one switched off, both falling back to decoding from byte 0, zstd (always
-# from byte 0), a flipped byte inside the restart point (damaged, exit 4),
+# from byte 0), a version 1 checkpoint (from byte 0), a flipped byte inside the restart point (damaged, exit 4),
 # and the gzip file changed before the restart point (exit 3).
 set -u
 cd "$(dirname "$0")/../.." || exit 1
@@ -212,6 +212,55 @@ fi
 RESTART=stale resumed stale 6 "another build's" "$T/t.csv.gz" "${EVERY[@]}"
 RESTART=off resumed switched_off 6 "switched off" "$T/t.csv.gz" "${EVERY[@]}"
 resumed zstd 6 "zstd is fast-forwarded" "$T/t.csv.zst" "${EVERY[@]}"
+
+# A version 1 checkpoint (written before restart points: the same file
+# without the two restart fields, its checksums made again with the
+# system's libxxhash) still resumes, from byte 0.
+if [ -f "$T/gzip_point.ck.keep" ] && "$PY" - "$T/gzip_point.ck.keep" "$T/v1.ck" <<'EOF'
+import ctypes, struct, sys
+lib = ctypes.CDLL("libxxhash.so.0")
+lib.XXH3_64bits.restype = ctypes.c_uint64
+lib.XXH3_64bits.argtypes = [ctypes.c_char_p, ctypes.c_size_t]
+h64 = lambda b: struct.pack("<Q", lib.XXH3_64bits(bytes(b), len(b)))
+b = open(sys.argv[1], "rb").read()
+assert b[:8] == b"SHEAFCKP" and struct.unpack_from("<I", b, 8)[0] == 2
+hlen = struct.unpack_from("<Q", b, 12)[0]
+head, parts = b[20:20 + hlen], b[28 + hlen:-8]
+pos = 0
+def take(n):
+    global pos
+    pos += n
+def text():
+    take(4 + struct.unpack_from("<I", head, pos)[0])
+text()                                   # options
+nfiles = struct.unpack_from("<I", head, pos)[0]
+take(4)
+for _ in range(nfiles):
+    text()                               # path
+    take(24)                             # size, mtime, fingerprint
+take(4 + 8 * 5 + 1)                      # index, offset, prefix, lines, rows, number, delim
+cut = pos
+text()                                   # the restart point
+text()                                   # its prefix hash
+v1 = head[:cut] + head[pos:]
+out = b"SHEAFCKP" + struct.pack("<I", 1) + struct.pack("<Q", len(v1)) + v1
+out += h64(out)
+out += parts
+out += h64(out)
+open(sys.argv[2], "wb").write(out)
+EOF
+then
+    SHEAF_TEST_RESTART=note run "$SHEAF" scan -q "$T/t.csv.gz" "${EVERY[@]}" \
+        --checkpoint "$T/v1.ck" --resume -o "$T/v1.sheaf"
+    if ! grep -q 'no restart point used (none in the checkpoint)' "$T/err"; then
+        fail restart.version_1 "exit $RC, want a note that the file is read from byte 0: $(err_text)"
+    else
+        check restart.version_1 "exit $RC $(first_diff "$T/v1.sheaf" "$T/gzip_point.ref")" \
+            cmp -s "$T/v1.sheaf" "$T/gzip_point.ref"
+    fi
+else
+    fail restart.version_1 "no version 1 checkpoint could be made from the gzip case's"
+fi
 
 # 6. Refusals.
 refused() {
