@@ -6,13 +6,16 @@
 # must write the summary of the same scan left alone, byte for byte, and
 # each must say (through the test switch SHEAF_TEST_RESTART=note, a warning
 # line) whether it used a restart point and where: a resume that silently
-# fell back to decoding from byte 0 fails.  Covered: SIGKILL at seeded random
-# moments (-j2, and -j3 with the read-ahead thread), a kill inside a chosen
-# checkpoint, a two-member gzip file (`cat a.gz b.gz`) killed in its second
-# member, a restart point from "another build" (SHEAF_TEST_RESTART=stale) and
-# one switched off, both falling back to decoding from byte 0, zstd (always
-# from byte 0), a version 1 checkpoint (from byte 0), a flipped byte inside the restart point (damaged, exit 4),
-# and the gzip file changed before the restart point (exit 3).
+# fell back to decoding from byte 0 fails.  Covered: SIGKILL at seeded
+# random moments (-j2, and -j3 with the read-ahead thread), a kill inside a
+# chosen checkpoint, a second resume from a checkpoint written soon after
+# the first, a two-member gzip file (`cat a.gz b.gz`) killed in its second
+# member, the second of two files, plain; falling back to decoding from byte
+# 0: a restart point from "another build" (SHEAF_TEST_RESTART=stale), one
+# switched off, zstd, a version 1 checkpoint; refused: a flipped byte inside
+# the restart point (damaged, exit 4), the gzip file changed before the
+# restart point (exit 3).  The resumed file's fingerprint is checked against
+# the system's libxxhash, the outside reference.
 set -u
 cd "$(dirname "$0")/../.." || exit 1
 . tests/cli/common.sh
@@ -198,6 +201,10 @@ if resumed two_members 8 point "$T/two.csv.gz" "${EVERY[@]}"; then
     check restart.two_members_second "raw byte ${r:-?} is not past the first member ($A_BYTES bytes)" \
         test "${r:-0}" -gt "$A_BYTES"
 fi
+
+# The second of two files (plain, then gzip): the header comes from the
+# second file's own top, the first file's fingerprint from the checkpoint.
+RJ=3 resumed second_file 20 point "$T/t.csv" "$T/t.csv.gz" "${EVERY[@]}"
 
 # 4. Plain: hashed to the offset, no chunks before it; the note's raw and
 # decoded bytes are the offset itself.
