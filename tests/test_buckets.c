@@ -1083,8 +1083,8 @@ Test(buckets, dense_window_leaves_the_store_of_single_adds)
                     i += m;
                 }
                 buckets_seal(one);
-                /* the window was used */
-                if (shape == 0 || shape == 1)
+                /* the window was used (it opens only for stores with cells) */
+                if (with_cells && (shape == 0 || shape == 1))
                     cr_assert_gt(many->pending, N / 2,
                                  "shape %d: %llu counts in the window", shape,
                                  (unsigned long long)many->pending);

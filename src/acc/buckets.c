@@ -580,8 +580,18 @@ static inline int add_hashed(buckets *b, const double *x, const uint32_t *cells,
  * can sit at a finer level than the whole data needs until then; nothing is
  * read from it in between. */
 
-/* Moves the window's counts into the table.  0, or -1 when memory runs out
- * (what was moved stays moved: the store is consistent either way). */
+/* The key of window row `row` at the window's level. */
+static inline int64_t row_key(const buckets *b, uint64_t row)
+{
+    if (row >= b->lobe_row[1]) return -(int64_t)(b->lobe_base[1] + row - b->lobe_row[1]);
+    if (row >= b->lobe_row[0]) return (int64_t)(b->lobe_base[0] + row - b->lobe_row[0]);
+    return 0;
+}
+
+/* Moves the window's counts into the table, one add_key per counter (a
+ * collapse on the way when the keys outgrow the budget).  0, or -1 when
+ * memory runs out (what was moved stays moved: the store is consistent
+ * either way). */
 static int settle(buckets *b)
 {
     if (!b->pending) return 0;
@@ -589,11 +599,7 @@ static int settle(buckets *b)
     for (size_t i = 0; i < size && b->pending; i++) {
         uint32_t c = b->dense[i];
         if (!c) continue;
-        uint64_t row = i / nc;
-        int64_t key = 0;
-        if (row >= b->lobe_row[1]) key = -(int64_t)(b->lobe_base[1] + row - b->lobe_row[1]);
-        else if (row >= b->lobe_row[0]) key = (int64_t)(b->lobe_base[0] + row - b->lobe_row[0]);
-        if (add_key(b, key, b->dense_level, (uint32_t)(i % nc), c) != 0) return -1;
+        if (add_key(b, row_key(b, i / nc), b->dense_level, (uint32_t)(i % nc), c) != 0) return -1;
         b->dense[i] = 0;
         b->pending -= c;
     }
@@ -662,7 +668,10 @@ static void dense_open(buckets *b)
         width[s] = hi[s] - lo[s] + 1;
         rows += width[s];
     }
-    if (cells * 16 > most) { dense_close(b, retry); return; }
+    /* Without cells (no target) the table is a quarter of the size and
+     * mostly stays in the core's caches: the window would only add the
+     * work of settling it, on the serial end of the scan. */
+    if (cells < 2 || cells * 16 > most) { dense_close(b, retry); return; }
     if (rows * cells > most) { /* each range narrowed around its middle, in proportion */
         uint64_t room = most / cells - 1, had = rows - 1;
         rows = 1;
