@@ -16,6 +16,7 @@
 #include <string.h>
 
 #include "acc/buckets.h"
+#include "acc/buckets_store.h" /* the dense window's counts (pending) */
 #include "acc/wire.h"
 #include "testutil.h"
 
@@ -1032,4 +1033,111 @@ Test(buckets, mapping_cells_in_place_equals_merging_with_the_map)
     buckets_free(a);
     free(cell);
     free(x);
+}
+
+/* One of the shapes a column takes, value i of n (the dense window of
+ * buckets_add_many must give the same store for each). */
+static double shaped(int shape, size_t i, uint64_t *r)
+{
+    switch (shape) {
+    case 0: return rng_normal(r) * 3.0;                             /* both signs, one lobe each */
+    case 1: return rng_uniform(r) < 0.3 ? 0.0 : rng_normal(r) + 50; /* zeros and a far lobe */
+    case 2: return (double)i;                                       /* always leaving the window */
+    case 3: return (double)(rng_next(r) % 10);                      /* ten integers */
+    case 4: return ldexp(rng_uniform(r), (int)(rng_next(r) % 60) - 30) * (rng_next(r) & 1 ? -1 : 1);
+    case 5: return i < 20000 ? rng_normal(r) : 1e6 + rng_normal(r); /* a jump */
+    default: return rng_uniform(r) < 0.5 ? -0.0 : 1.0 + (double)(i % 3);
+    }
+}
+
+Test(buckets, dense_window_leaves_the_store_of_single_adds)
+{
+    /* buckets_add_many counts the keys most values fall in in a window of
+     * its own and moves them into the table when the store is settled.
+     * Reference: the same values by buckets_add one at a time.  For seven
+     * shapes of column, with and without cells (some beyond the window's),
+     * two budgets (one that collapses while the window is settled), fed in
+     * uneven batches: every read of the unsettled store (level, keys,
+     * entries, entry_at, both quantiles, write) equals the reference's, and
+     * after the seal the bytes are the same; merging from an unsettled
+     * store, renumbering its cells and resetting it agree too. */
+    enum { N = 60000 };
+    static double x[N];
+    static uint32_t cells[N];
+    const uint32_t budgets[2] = {2048, 200};
+    for (int shape = 0; shape < 7; shape++)
+        for (int with_cells = 0; with_cells < 2; with_cells++)
+            for (int bi = 0; bi < 2; bi++) {
+                uint64_t r = 0x9e3779b97f4a7c15ull + (uint64_t)(shape * 4 + with_cells * 2 + bi);
+                buckets *one = buckets_create(budgets[bi]), *many = buckets_create(budgets[bi]);
+                cr_assert(one && many);
+                for (size_t i = 0; i < N; i++) {
+                    x[i] = shaped(shape, i, &r);
+                    /* cells 0..5, and now and then one the window has not seen */
+                    cells[i] = with_cells ? (i > N / 2 && i % 1000 == 0 ? 9 : (uint32_t)(rng_next(&r) % 6)) : 0;
+                    cr_assert_eq(buckets_add(one, x[i], cells[i], 1), 0);
+                }
+                for (size_t i = 0, step = 1; i < N; step = step * 13 % 3000 + 1) {
+                    size_t m = N - i < step ? N - i : step;
+                    cr_assert_eq(buckets_add_many(many, x + i, with_cells ? cells + i : NULL, m), 0);
+                    i += m;
+                }
+                buckets_seal(one);
+                /* the window was used (it opens only for stores with cells) */
+                if (with_cells && (shape == 0 || shape == 1))
+                    cr_assert_gt(many->pending, N / 2,
+                                 "shape %d: %llu counts in the window", shape,
+                                 (unsigned long long)many->pending);
+                cr_assert_eq(buckets_total(many), N);
+                cr_assert_eq(buckets_level(many), buckets_level(one), "shape %d", shape);
+                cr_assert_eq(buckets_keys(many), buckets_keys(one), "shape %d", shape);
+                cr_assert_eq(buckets_entries(many), buckets_entries(one), "shape %d", shape);
+                for (size_t e = 0; e < buckets_entries(one); e += 41) {
+                    buckets_entry a = buckets_entry_at(one, e), b = buckets_entry_at(many, e);
+                    cr_assert(a.key == b.key && a.cell == b.cell && a.count == b.count,
+                              "shape %d entry %zu: %ld %u %lu vs %ld %u %lu", shape, e, (long)a.key, a.cell, (unsigned long)a.count, (long)b.key, b.cell, (unsigned long)b.count);
+                }
+                for (double p = 0; p <= 1; p += 0.125) {
+                    cr_assert_eq(buckets_quantile(many, p, NULL), buckets_quantile(one, p, NULL),
+                                 "shape %d cells %d budget %u p %g", shape, with_cells,
+                                 budgets[bi], p);
+                    cr_assert_eq(buckets_quantile_linear(many, p, NULL),
+                                 buckets_quantile_linear(one, p, NULL));
+                }
+                cr_assert(same_bytes(one, many), "shape %d cells %d budget %u: unsettled write",
+                          shape, with_cells, budgets[bi]);
+                /* merge from the unsettled store, into an unsettled store */
+                buckets *into1 = buckets_create(budgets[bi]), *into2 = buckets_create(budgets[bi]);
+                cr_assert_eq(buckets_merge(into1, one, NULL, 0), 0);
+                cr_assert_eq(buckets_add_many(into2, x, with_cells ? cells : NULL, N / 3), 0);
+                cr_assert_eq(buckets_add_many(into2, x + N / 3, with_cells ? cells + N / 3 : NULL,
+                                              N - N / 3), 0);
+                cr_assert_eq(buckets_merge(into1, many, NULL, 0), 0);
+                cr_assert_eq(buckets_merge(into2, many, NULL, 0), 0);
+                buckets_seal(into2);
+                cr_assert(same_bytes(into1, into2), "shape %d: merges differ", shape);
+                buckets_free(into1);
+                buckets_free(into2);
+                /* renumbered cells: the window is settled first */
+                static const uint32_t join[10] = {0, 0, 1, 1, 2, 2, 3, 3, 4, 4};
+                buckets *m1 = buckets_create(budgets[bi]);
+                cr_assert_eq(buckets_add_many(m1, x, with_cells ? cells : NULL, N), 0);
+                cr_assert_eq(buckets_map_cells(m1, join, 10), 0);
+                cr_assert_eq(buckets_map_cells(one, join, 10), 0);
+                cr_assert_eq(buckets_add_many(m1, x, with_cells ? cells : NULL, 1000), 0);
+                for (size_t i = 0; i < 1000; i++)
+                    cr_assert_eq(buckets_add(one, x[i], with_cells ? cells[i] : 0, 1), 0);
+                buckets_seal(m1);
+                buckets_seal(one);
+                cr_assert(same_bytes(one, m1), "shape %d: renumbered stores differ", shape);
+                buckets_free(m1);
+                /* sealed, the bytes of the original store */
+                buckets_seal(many);
+                cr_assert(buckets_sealed(many));
+                buckets_reset(many);
+                cr_assert_eq(buckets_total(many), 0);
+                cr_assert_eq(buckets_entries(many), 0);
+                buckets_free(one);
+                buckets_free(many);
+            }
 }

@@ -79,6 +79,19 @@ static unsigned log2_of(size_t pow2)
 #define OVER_LOAD(n, cap) (4 * (n) > 3 * (cap))
 #define ORDER_CAP(cap) ((cap) / 4 * 3 + 1)
 
+#define DENSE_MAX 65536u   /* dense window (below): counters in a window (256 KiB) */
+#define DENSE_TAIL 400     /* a window leaves out at most 1/400 of the counts at each end */
+#define DENSE_FIRST 4096u  /* values before the first window: enough to see the range */
+#define DENSE_MISSES 16384u /* values outside a window before it is reconsidered */
+
+/* Closes the dense window (nothing pending); the next is tried once the
+ * store's total reaches retry_at. */
+static void dense_close(buckets *b, uint64_t retry_at)
+{
+    b->dense_rows = 0;
+    b->dense_next = retry_at;
+}
+
 static size_t cap_for(size_t n)
 {
     size_t cap = MIN_CAP;
@@ -311,7 +324,7 @@ int buckets_rebuild(buckets *b, const buckets_entry *e, size_t n, int level)
     b->nkeys = nk;
     b->order = order;
     b->order_valid = 1;
-    b->total = total;
+    b->total = total + b->pending; /* the window's counts are the store's too */
     b->level = level;
     b->last_id = NO_ID;
     return 0;
@@ -356,6 +369,7 @@ buckets *buckets_create(uint32_t budget)
     if (!b) return NULL;
     b->budget = budget < BUCKETS_MIN_BUDGET ? BUCKETS_MIN_BUDGET : budget;
     if (buckets_rebuild(b, NULL, 0, 0)) { free(b); return NULL; }
+    b->dense_next = DENSE_FIRST;
     return b;
 }
 
@@ -365,6 +379,7 @@ void buckets_free(buckets *b)
     free(b->slots);
     free(b->keys);
     free(b->order);
+    free(b->dense);
     free(b);
 }
 
@@ -378,6 +393,8 @@ void buckets_reset(buckets *b)
     b->total = 0;
     b->level = 0;
     b->last_id = NO_ID;
+    b->pending = 0;
+    dense_close(b, DENSE_FIRST);
 }
 
 /* Fills the empty slot pos with entry id (its key's slot kp, new_key when
@@ -394,16 +411,19 @@ static inline void insert_entry(buckets *b, size_t pos, size_t kp, uint64_t id, 
     b->order_valid = 0;
 }
 
-/* Slow path of buckets_add: the (key, cell) entry does not exist yet. */
-static int add_new(buckets *b, uint64_t u, uint32_t cell, uint64_t count)
+/* Adds count at key k of level `at` (at <= b's level) in cell: the slow
+ * path of buckets_add (the entry may not exist yet) and how the window's
+ * counters reach the table.  Keying at level 0 then collapsing equals keying
+ * at the final level (buckets.h), so k is re-keyed to the store's level
+ * after every collapse.  The caller counts the total. */
+static int add_key(buckets *b, int64_t k, int at, uint32_t cell, uint64_t count)
 {
     for (;;) {
-        int64_t key = key_of_bits(u, b->level);
+        int64_t key = rekey(k, b->level - at);
         uint64_t id = make_id(key, cell);
         size_t pos = slot_find(b->slots, b->cap, b->shift, id);
         if (b->slots[pos].count) { /* appeared through a collapse */
             b->slots[pos].count += count;
-            b->total += count;
             b->last_id = id;
             b->last_pos = pos;
             return 0;
@@ -423,7 +443,6 @@ static int add_new(buckets *b, uint64_t u, uint32_t cell, uint64_t count)
             kp = key_find(b->keys, b->key_cap, b->key_shift, key);
         }
         insert_entry(b, pos, kp, id, new_key, count);
-        b->total += count;
         b->last_id = id;
         b->last_pos = pos;
         return 0;
@@ -449,10 +468,14 @@ int buckets_add(buckets *b, double x, uint32_t cell, uint64_t count)
         b->last_pos = pos;
         return 0;
     }
-    return add_new(b, u, cell, count);
+    if (add_key(b, key_of_bits(u, 0), 0, cell, count) != 0) return -1;
+    b->total += count;
+    return 0;
 }
 
-SHEAF_HOT int buckets_add_many(buckets *b, const double *x, const uint32_t *cells, size_t n)
+/* n calls of buckets_add through the table (the window's values are
+ * counted before). */
+static inline int add_hashed(buckets *b, const double *x, const uint32_t *cells, size_t n)
 {
     /* Same as n calls of buckets_add(b, x[i], cells ? cells[i] : 0, 1).  For
      * a run of values the ids and home slots are computed first, and the
@@ -539,6 +562,251 @@ SHEAF_HOT int buckets_add_many(buckets *b, const double *x, const uint32_t *cell
     return 0;
 }
 
+/* ---- dense window -------------------------------------------------------- */
+
+/* Most of a column's values fall in a narrow range of keys, whose (key,
+ * cell) entries the table spreads over 16-byte slots found by hashing and
+ * probing: a load that misses the first-level cache for each value once a
+ * store outgrows it (12,288 entries of 16 bytes for 2,048 keys and 6
+ * classes).  The window counts those keys in plain 32-bit counters indexed by
+ * (key - base) * cells + cell, a quarter of the bytes and no probe; values
+ * outside it go through the table.  Its counts reach the table when the
+ * store is settled (sealed, merged, renumbered, read): one add_key per
+ * counter, after which the store holds exactly what n calls of buckets_add
+ * would have left, since the result of adding a multiset does not depend on
+ * the order of the additions (buckets.h, "Invariant") and keying at the
+ * window's level then re-keying equals keying at the store's level.  The
+ * window's new keys are counted against the budget only then, so the table
+ * can sit at a finer level than the whole data needs until then; nothing is
+ * read from it in between. */
+
+/* The key of window row `row` at the window's level. */
+static inline int64_t row_key(const buckets *b, uint64_t row)
+{
+    if (row >= b->lobe_row[1]) return -(int64_t)(b->lobe_base[1] + row - b->lobe_row[1]);
+    if (row >= b->lobe_row[0]) return (int64_t)(b->lobe_base[0] + row - b->lobe_row[0]);
+    return 0;
+}
+
+/* Moves the window's counts into the table, one add_key per counter (a
+ * collapse on the way when the keys outgrow the budget).  0, or -1 when
+ * memory runs out (what was moved stays moved: the store is consistent
+ * either way). */
+static int settle(buckets *b)
+{
+    if (!b->pending) return 0;
+    const size_t nc = b->dense_cells, size = (size_t)b->dense_rows * nc;
+    for (size_t i = 0; i < size && b->pending; i++) {
+        uint32_t c = b->dense[i];
+        if (!c) continue;
+        if (add_key(b, row_key(b, i / nc), b->dense_level, (uint32_t)(i % nc), c) != 0) return -1;
+        b->dense[i] = 0;
+        b->pending -= c;
+    }
+    b->order_valid = 0;
+    return 0;
+}
+
+/* The magnitudes [*lo, *hi] that hold all but 1/DENSE_TAIL of the counts
+ * of e[0..n) (one entry per magnitude, ascending) at each end; *mass their
+ * count.  Nothing when n is 0 (*mass 0). */
+static void lobe_range(const buckets_entry *e, size_t n, uint64_t *lo, uint64_t *hi,
+                       uint64_t *mass)
+{
+    uint64_t total = 0, cum = 0;
+    for (size_t i = 0; i < n; i++) total += e[i].count;
+    *mass = total;
+    if (!n) return;
+    uint64_t cut = total / DENSE_TAIL;
+    size_t i = 0, j = n - 1;
+    while (i < j && cum + e[i].count <= cut) cum += e[i++].count;
+    for (cum = 0; j > i && cum + e[j].count <= cut;) cum += e[j--].count;
+    *lo = (uint64_t)e[i].key;
+    *hi = (uint64_t)e[j].key;
+}
+
+/* Opens a window over the magnitudes that hold all but 1/DENSE_TAIL of
+ * each sign's counts at each end (at the table's level), widened by an
+ * eighth on each side, at most DENSE_MAX counters and twice the table's
+ * slots (memory: a store per column, thousands of columns), narrowed
+ * around the middle of each sign's range when that is too many; else tries
+ * again once the store has twice the values.  Nothing pending. */
+static void dense_open(buckets *b)
+{
+    uint64_t retry = b->total < DENSE_FIRST ? DENSE_FIRST : 2 * b->total;
+    buckets_entry *e = b->n ? malloc(b->n * sizeof *e) : NULL;
+    if (!e) { dense_close(b, retry); return; }
+    size_t n = gather(b, b->level, NULL, e);
+    uint32_t top_cell = 0;
+    for (size_t i = 0; i < n; i++) {
+        if (e[i].cell > top_cell) top_cell = e[i].cell;
+        e[i].cell = 0;
+    }
+    n = sort_combine(e, n); /* one entry per key, in key order */
+    size_t neg = 0, zero;
+    while (neg < n && e[neg].key < 0) neg++;
+    zero = neg < n && e[neg].key == 0;
+    /* negative keys as magnitudes, ascending */
+    for (size_t i = 0; i < neg; i++) e[i].key = -e[i].key;
+    for (size_t i = 0, k = neg; i < k / 2; i++) {
+        buckets_entry t = e[i];
+        e[i] = e[k - 1 - i];
+        e[k - 1 - i] = t;
+    }
+    uint64_t lo[2] = {1, 1}, hi[2] = {0, 0}, mass[2];
+    lobe_range(e + neg + zero, n - neg - zero, &lo[0], &hi[0], &mass[0]);
+    lobe_range(e, neg, &lo[1], &hi[1], &mass[1]);
+    free(e);
+    const uint64_t cells = (uint64_t)top_cell + 1, top = (uint64_t)max_magnitude(b->level);
+    const uint64_t most = DENSE_MAX < 2 * (uint64_t)b->cap ? DENSE_MAX : 2 * (uint64_t)b->cap;
+    uint64_t width[2] = {0, 0}, rows = 1;
+    for (int s = 0; s < 2; s++) {
+        if (!mass[s]) continue;
+        uint64_t margin = (hi[s] - lo[s] + 1) / 8 + 2;
+        lo[s] = lo[s] > margin ? lo[s] - margin : 1;
+        hi[s] = hi[s] + margin > top ? top : hi[s] + margin;
+        width[s] = hi[s] - lo[s] + 1;
+        rows += width[s];
+    }
+    /* Without cells (no target) the table is a quarter of the size and
+     * mostly stays in the core's caches: the window would only add the
+     * work of settling it, on the serial end of the scan. */
+    if (cells < 2 || cells * 16 > most) { dense_close(b, retry); return; }
+    if (rows * cells > most) { /* each range narrowed around its middle, in proportion */
+        uint64_t room = most / cells - 1, had = rows - 1;
+        rows = 1;
+        for (int s = 0; s < 2; s++) {
+            uint64_t keep = width[s] * room / had;
+            lo[s] += (width[s] - keep) / 2;
+            width[s] = keep;
+            rows += keep;
+        }
+    }
+    uint64_t size = rows * cells;
+    if (b->dense_alloc < size) {
+        uint32_t *d = realloc(b->dense, (size_t)size * sizeof *d);
+        if (!d) { dense_close(b, retry); return; }
+        b->dense = d;
+        b->dense_alloc = (size_t)size;
+    }
+    memset(b->dense, 0, (size_t)size * sizeof *b->dense);
+    b->lobe_base[0] = lo[0];
+    b->lobe_width[0] = width[0];
+    b->lobe_row[0] = 1;
+    b->lobe_base[1] = lo[1];
+    b->lobe_width[1] = width[1];
+    b->lobe_row[1] = 1 + width[0];
+    for (int z = 2; z < 4; z++) { /* key 0: row 0 */
+        b->lobe_base[z] = 0;
+        b->lobe_width[z] = 1;
+        b->lobe_row[z] = 0;
+    }
+    b->dense_rows = (uint32_t)rows;
+    b->dense_cells = (uint32_t)cells;
+    b->dense_level = b->level;
+    b->dense_in = b->dense_out = 0;
+}
+
+SHEAF_HOT int buckets_add_many(buckets *b, const double *x, const uint32_t *cells, size_t n)
+{
+    if (!b->dense_rows && b->total >= b->dense_next) dense_open(b);
+    if (!b->dense_rows) return add_hashed(b, x, cells, n);
+    /* Each counter stays below 2^32: none exceeds pending. */
+    if (b->pending + n > UINT32_MAX && settle(b) != 0) return -1;
+    enum { PIECE = 256 };
+    double rest_x[PIECE];
+    uint32_t rest_c[PIECE];
+    const unsigned shift = INDEX_SHIFT + (unsigned)b->dense_level;
+    const uint32_t nc = b->dense_cells;
+    uint64_t base[4], width[4], row[4];
+    memcpy(base, b->lobe_base, sizeof base);
+    memcpy(width, b->lobe_width, sizeof width);
+    memcpy(row, b->lobe_row, sizeof row);
+    uint32_t *const cnt = b->dense;
+    for (size_t at = 0; at < n; at += PIECE) {
+        const size_t m = n - at < PIECE ? n - at : PIECE;
+        const double *xs = x + at;
+        size_t nr = 0;
+        uint64_t in = 0, bad = 0;
+#define DENSE_ROW(i)                                                                   \
+    uint32_t cell = cells ? cells[at + (i)] : 0;                                       \
+    uint64_t u = double_bits(xs[i]), mag = u & MAG_MASK;                               \
+    uint64_t mk = (mag >> shift) + (mag != 0);                                         \
+    unsigned lobe = (unsigned)(u >> 63) | (unsigned)(mk == 0) << 1;                    \
+    uint64_t k = mk - base[lobe];                                                      \
+    int inside = k < width[lobe] && cell < nc
+        for (size_t i = 0; i < m; i++) {
+            /* The magnitude and sign of the key (key_of_bits); magnitudes of
+             * values that are not finite lie past every lobe. */
+            DENSE_ROW(i);
+            bad |= mag >= EXP_ALL_ONES;
+            if (inside) {
+                cnt[(row[lobe] + k) * nc + cell]++;
+                in++;
+            } else {
+                rest_x[nr] = xs[i];
+                rest_c[nr] = cell;
+                nr++;
+            }
+        }
+        if (bad) { /* a value that is not finite: exactly the calls of buckets_add */
+            for (size_t i = 0; i < m; i++) {
+                DENSE_ROW(i);
+                if (inside) cnt[(row[lobe] + k) * nc + cell]--;
+            }
+            for (size_t i = 0; i < m; i++)
+                if (buckets_add(b, xs[i], cells ? cells[at + i] : 0, 1) != 0) return -1;
+            continue;
+        }
+#undef DENSE_ROW
+        b->pending += in;
+        b->total += in;
+        b->dense_in += in;
+        b->dense_out += nr;
+        if (in) b->order_valid = 0;
+        if (nr && add_hashed(b, rest_x, rest_c, nr) != 0) return -1;
+    }
+    /* A window the values have left (a drifting or growing column): the
+     * next call opens one over the keys seen by then. */
+    if (b->dense_out > DENSE_MISSES && b->dense_out > b->dense_in) {
+        if (settle(b) != 0) return -1;
+        dense_close(b, b->total);
+    }
+    return 0;
+}
+
+/* Settles the window, and closes it when the table's level has moved on
+ * (the next window opens at the new level). */
+static int dense_settle(buckets *b)
+{
+    if (settle(b) != 0) return -1;
+    if (b->dense_rows && b->dense_level != b->level) dense_close(b, b->total);
+    return 0;
+}
+
+/* See buckets_store.h. */
+const buckets *buckets_readable(const buckets *b, buckets **tmp)
+{
+    *tmp = NULL;
+    if (!b->pending) return b;
+    buckets *c = calloc(1, sizeof *c);
+    if (!c) return NULL;
+    *c = *b;
+    c->slots = malloc(b->cap * sizeof *c->slots);
+    c->keys = malloc(b->key_cap * sizeof *c->keys);
+    c->order = malloc(ORDER_CAP(b->cap) * sizeof *c->order);
+    c->dense = malloc((b->dense_alloc ? b->dense_alloc : 1) * sizeof *c->dense);
+    if (!c->slots || !c->keys || !c->order || !c->dense) { buckets_free(c); return NULL; }
+    memcpy(c->slots, b->slots, b->cap * sizeof *c->slots);
+    memcpy(c->keys, b->keys, b->key_cap * sizeof *c->keys);
+    memcpy(c->dense, b->dense, b->dense_alloc * sizeof *c->dense);
+    c->order_valid = 0;
+    if (settle(c) != 0) { buckets_free(c); return NULL; }
+    buckets_seal(c);
+    *tmp = c;
+    return c;
+}
+
 /* Fast path of buckets_merge: `from` is no coarser than `into` and the union
  * fits into's budget at into's level, so entries are added in place with no
  * sort.  Returns 1 when done, 0 when the general path is needed, -1 on OOM
@@ -585,7 +853,23 @@ static int merge_in_place(buckets *into, const buckets *from, const uint32_t *ce
     return 1;
 }
 
+static int merge_settled(buckets *into, const buckets *from, const uint32_t *cell_map,
+                         uint32_t map_len);
+
 int buckets_merge(buckets *into, const buckets *from, const uint32_t *cell_map, uint32_t map_len)
+{
+    if (dense_settle(into) != 0) return -1;
+    buckets *tmp;
+    const buckets *f = buckets_readable(from, &tmp);
+    if (!f) return -1;
+    int rc = merge_settled(into, f, cell_map, map_len);
+    buckets_free(tmp);
+    return rc;
+}
+
+/* buckets_merge of stores whose windows hold nothing. */
+static int merge_settled(buckets *into, const buckets *from, const uint32_t *cell_map,
+                         uint32_t map_len)
 {
     if (cell_map) {
         for (size_t i = 0; i < from->cap; i++)
@@ -610,6 +894,10 @@ int buckets_merge(buckets *into, const buckets *from, const uint32_t *cell_map, 
 
 int buckets_map_cells(buckets *b, const uint32_t *cell_map, uint32_t map_len)
 {
+    /* The window's cells are numbered as the table's: settled first, and
+     * closed (the next window counts the new cells). */
+    if (settle(b) != 0) return -1;
+    dense_close(b, b->total);
     for (size_t i = 0; i < b->cap; i++)
         if (b->slots[i].count && id_cell(b->slots[i].id) >= map_len) return -1;
     /* The same keys and level: only the entry table is rebuilt, each entry
@@ -647,31 +935,63 @@ int buckets_map_cells(buckets *b, const uint32_t *cell_map, uint32_t map_len)
     return 0;
 }
 
-int buckets_level(const buckets *b) { return b->level; }
+/* The reads below see a store with counts in its window through a settled
+ * copy (correct, and slow: seal a store before reading it). */
+#define READ_SETTLED(b, tmp, fail)                       \
+    buckets *tmp;                                        \
+    if (!((b) = buckets_readable((b), &tmp))) return fail
+
+int buckets_level(const buckets *b)
+{
+    READ_SETTLED(b, tmp, 0);
+    int level = b->level;
+    buckets_free(tmp);
+    return level;
+}
+
 uint32_t buckets_budget(const buckets *b) { return b->budget; }
 uint64_t buckets_total(const buckets *b) { return b->total; }
-size_t buckets_keys(const buckets *b) { return b->nkeys; }
 
-size_t buckets_entries(const buckets *b) { return b->n; }
+size_t buckets_keys(const buckets *b)
+{
+    READ_SETTLED(b, tmp, 0);
+    size_t n = b->nkeys;
+    buckets_free(tmp);
+    return n;
+}
+
+size_t buckets_entries(const buckets *b)
+{
+    READ_SETTLED(b, tmp, 0);
+    size_t n = b->n;
+    buckets_free(tmp);
+    return n;
+}
 
 void buckets_seal(buckets *b)
 {
+    /* Out of memory while settling, the rest stays in the window and the
+     * reads settle a copy (or fail as they say). */
+    if (dense_settle(b) != 0) return;
     if (b->order_valid) return;
     fill_order(b, b->order);
     b->order_valid = 1;
 }
 
-int buckets_sealed(const buckets *b) { return b->order_valid; }
+int buckets_sealed(const buckets *b) { return b->order_valid && !b->pending; }
 
 buckets_entry buckets_entry_at(const buckets *b, size_t i)
 {
     buckets_entry e = {0, 0, 0};
+    READ_SETTLED(b, tmp, e);
     const order_item *order;
-    order_item *tmp;
-    if (i >= b->n || buckets_read_order(b, &order, &tmp)) return e;
-    e.key = order[i].key;
-    e.cell = order[i].cell;
-    e.count = b->slots[order[i].pos].count;
-    free(tmp);
+    order_item *otmp;
+    if (i < b->n && buckets_read_order(b, &order, &otmp) == 0) {
+        e.key = order[i].key;
+        e.cell = order[i].cell;
+        e.count = b->slots[order[i].pos].count;
+        free(otmp);
+    }
+    buckets_free(tmp);
     return e;
 }

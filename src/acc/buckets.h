@@ -101,8 +101,11 @@ void buckets_reset(buckets *b);
 /* Adds `count` at value x in `cell` (count 0 is a no-op).  Returns 0, or -1
  * on OOM or when x is not finite; the store is unchanged on -1. */
 int buckets_add(buckets *b, double x, uint32_t cell, uint64_t count);
-/* n calls of buckets_add(b, x[i], cells ? cells[i] : 0, 1), faster
- * (prefetches ahead). */
+/* n calls of buckets_add(b, x[i], cells ? cells[i] : 0, 1), faster: most
+ * values are counted in a dense window of the store's own (buckets.c) whose
+ * counts reach the table when the store is sealed, merged or renumbered;
+ * the reads give the same answers either way, but an unsealed store with
+ * counts in its window is read through a settled copy (slow: seal first). */
 int buckets_add_many(buckets *b, const double *x, const uint32_t *cells, size_t n);
 /* Adds from's counts to into; cell c of `from` becomes cell_map[c] (NULL:
  * identity).  into's budget applies to the result.  Returns 0, or -1 on OOM

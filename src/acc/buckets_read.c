@@ -8,7 +8,40 @@
 #include "acc/buckets_key.h"
 #include "acc/buckets_store.h"
 
+/* A store with counts in its window is read through a settled copy
+ * (buckets_readable). */
+static double quantile(const buckets *b, double p, double *rel_err);
+static double quantile_linear(const buckets *b, double p, double *rel_err);
+static void write_settled(const buckets *b, wire_writer *w);
+
 double buckets_quantile(const buckets *b, double p, double *rel_err)
+{
+    buckets *tmp;
+    const buckets *r = buckets_readable(b, &tmp);
+    double q = r ? quantile(r, p, rel_err) : NAN;
+    buckets_free(tmp);
+    return q;
+}
+
+double buckets_quantile_linear(const buckets *b, double p, double *rel_err)
+{
+    buckets *tmp;
+    const buckets *r = buckets_readable(b, &tmp);
+    double q = r ? quantile_linear(r, p, rel_err) : NAN;
+    buckets_free(tmp);
+    return q;
+}
+
+void buckets_write(const buckets *b, wire_writer *w)
+{
+    buckets *tmp;
+    const buckets *r = buckets_readable(b, &tmp);
+    if (r) write_settled(r, w);
+    else w->failed = 1;
+    buckets_free(tmp);
+}
+
+static double quantile(const buckets *b, double p, double *rel_err)
 {
     if (rel_err) *rel_err = buckets_relative_error(b->level);
     if (b->total == 0 || !(p >= 0.0 && p <= 1.0)) return NAN;
@@ -35,7 +68,7 @@ static int64_t rank_key(const buckets *b, const order_item *order, uint64_t r)
     return order[i].key;
 }
 
-double buckets_quantile_linear(const buckets *b, double p, double *rel_err)
+static double quantile_linear(const buckets *b, double p, double *rel_err)
 {
     if (rel_err) *rel_err = buckets_relative_error(b->level);
     if (b->total == 0 || !(p >= 0.0 && p <= 1.0)) return NAN;
@@ -58,7 +91,7 @@ double buckets_quantile_linear(const buckets *b, double p, double *rel_err)
 
 /* ---- serialization ------------------------------------------------------ */
 
-void buckets_write(const buckets *b, wire_writer *w)
+static void write_settled(const buckets *b, wire_writer *w)
 {
     const order_item *order;
     order_item *tmp;

@@ -46,6 +46,24 @@ struct buckets {
     int level;          /* collapse level of the stored keys */
     uint64_t last_id;   /* id of the last slot hit, NO_ID if none */
     size_t last_pos;    /* its position */
+    /* The dense window (buckets.c, "Dense window"): 32-bit counters for the
+     * keys it covers at dense_level, by (row of the key) * dense_cells +
+     * cell, that buckets_add_many counts into instead of the table.  Row 0
+     * is key 0; then the magnitudes [base, base + width) of the positive
+     * keys, then those of the negative keys (lobes 0 and 1; lobes 2 and 3
+     * are key 0, from +0 and -0).  pending is their sum, already in total;
+     * the tables do not hold them until settled. */
+    uint32_t *dense;       /* dense_alloc counters */
+    size_t dense_alloc;
+    uint64_t lobe_base[4]; /* first magnitude of each lobe */
+    uint64_t lobe_width[4];
+    uint64_t lobe_row[4];  /* row of its first magnitude */
+    uint32_t dense_rows;   /* 0: no window */
+    uint32_t dense_cells;
+    int dense_level;
+    uint64_t pending;      /* counts held in the window */
+    uint64_t dense_next;   /* total at which a window is next tried */
+    uint64_t dense_in, dense_out; /* values counted in and outside the window since it opened */
 };
 
 static inline uint64_t make_id(int64_t key, uint32_t cell)
@@ -55,6 +73,11 @@ static inline uint64_t make_id(int64_t key, uint32_t cell)
 
 static inline int64_t id_key(uint64_t id) { return (int32_t)(uint32_t)id; }
 static inline uint32_t id_cell(uint64_t id) { return (uint32_t)(id >> 32); }
+
+/* The store to read: b itself, or, when its window holds counts, a settled
+ * copy in *tmp that the caller frees (b is never written).  NULL when
+ * memory for the copy runs out. */
+const buckets *buckets_readable(const buckets *b, buckets **tmp);
 
 /* The sort index for a read: the store's own when sealed; else a temporary
  * one in *tmp, which the caller frees (the store is never written).  -1

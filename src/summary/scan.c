@@ -384,7 +384,8 @@ int scan_settle_runs(scan_context *sc)
         /* The continuous target's cells numbered in key order, every column
          * brought to that numbering (summary/tcells.h). */
         if (summary_target_cells_settle(s) != 0 ||
-            (t > 0 && summary_copy_comoments(s, sc->run) != 0) || summary_seal(s) != 0) {
+            (t > 0 && summary_copy_comoments(s, sc->run) != 0) ||
+            summary_seal_threads(s, sc->threads) != 0) {
             scan_fail(sc, SCAN_ERR_MEMORY, "out of memory");
             return -1;
         }

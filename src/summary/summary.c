@@ -7,6 +7,7 @@
 #include "summary/summary.h"
 
 #include <math.h>
+#include <pthread.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -209,6 +210,46 @@ int summary_seal(summary *s)
     for (size_t i = 0; i < s->ncols; i++)
         if (column_seal(&s->cols[i]) != 0) rc = -1;
     return rc;
+}
+
+/* summary_seal_threads: columns handed out one at a time by a counter. */
+typedef struct {
+    summary *s;
+    pthread_mutex_t mu;
+    size_t next;
+    int rc;
+} seal_work;
+
+static void *seal_some(void *arg)
+{
+    seal_work *w = arg;
+    for (;;) {
+        pthread_mutex_lock(&w->mu);
+        size_t i = w->next++;
+        pthread_mutex_unlock(&w->mu);
+        if (i >= w->s->ncols) return NULL;
+        if (column_seal(&w->s->cols[i]) != 0) {
+            pthread_mutex_lock(&w->mu);
+            w->rc = -1;
+            pthread_mutex_unlock(&w->mu);
+        }
+    }
+}
+
+int summary_seal_threads(summary *s, unsigned threads)
+{
+    enum { MOST = 64 };
+    pthread_t tid[MOST];
+    if (threads > MOST) threads = MOST;
+    if (threads < 2 || s->ncols < 2) return summary_seal(s);
+    seal_work w = {s, PTHREAD_MUTEX_INITIALIZER, 0, 0};
+    unsigned made = 0;
+    while (made + 1 < threads && made + 1 < s->ncols &&
+           pthread_create(&tid[made], NULL, seal_some, &w) == 0)
+        made++;
+    seal_some(&w); /* the caller takes columns too (all of them if no thread started) */
+    for (unsigned t = 0; t < made; t++) pthread_join(tid[t], NULL);
+    return w.rc;
 }
 
 int summary_sealed(const summary *s)

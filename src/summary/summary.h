@@ -254,6 +254,10 @@ void summary_free(summary *s);
  * indexes already built, and still correct).  Idempotent and cheap on a
  * sealed summary. */
 int summary_seal(summary *s);
+/* summary_seal with the columns shared among `threads` threads (the caller
+ * one of them): the same result, since each column is sealed on its own;
+ * the serial end of a wide scan.  0, or -1 when memory ran out. */
+int summary_seal_threads(summary *s, unsigned threads);
 /* 1 when every index is built (summary_seal has nothing left to do). */
 int summary_sealed(const summary *s);
 
