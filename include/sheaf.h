@@ -218,6 +218,41 @@ SHEAF_API sheaf_summary *sheaf_scan_finish(sheaf_scan *sc, sheaf_error *err);
  * (sheaf_summary_set_free). */
 SHEAF_API sheaf_summary_set *sheaf_scan_finish_set(sheaf_scan *sc, sheaf_error *err);
 
+/* Checkpoints.  A scan of files by path that saves itself now and then, so
+ * that a scan killed part way (a reboot, kill -9) goes on where it stood
+ * instead of from the start (docs/nightly.md).  It reads the npaths files
+ * in turn as sheaf_scan_path would (plain, gzip or zstd; they must share the
+ * header; "-" is refused: standard input cannot be read again) and returns
+ * the summaries, one per target as sheaf_scan_finish_set, owned by the
+ * caller.  The input is cut into segments, each ending at the first chunk
+ * boundary after every checkpoint_bytes decompressed bytes (0: 256 MiB); at
+ * each cut the summaries so far are written to checkpoint_path, atomically
+ * (the old checkpoint stays whole until the new one replaces it).  With
+ * resume 1 the scan goes on from that file, which must have been written by
+ * a scan of the same files (unchanged since) with the same options that
+ * shape the summary and the same checkpoint_bytes; the thread count and the
+ * memory limit may differ.  The result is the same, byte for byte, whether
+ * the scan was resumed or not, and the same as `sheaf scan --checkpoint`
+ * of the same files and options (whose checkpoints this call resumes, and
+ * the other way round); it is NOT byte-identical to a scan without
+ * checkpoints (the segments are merged as sheaf_summary_merge merges:
+ * counts, value tables and quantiles are equal, moments agree to rounding).
+ * The checkpoint is left in place on success: remove it once the summaries
+ * are written.  NULL on failure: SHEAF_ERR_USAGE for no checkpoint to
+ * resume from, one written with other options or for other files, a
+ * checkpoint path that is an input, or bad arguments; SHEAF_ERR_CORRUPT for
+ * a damaged or truncated checkpoint; SHEAF_ERR_INPUT for unreadable or
+ * malformed input, or an input changed since the checkpoint; SHEAF_ERR_IO
+ * when the checkpoint cannot be written; SHEAF_ERR_MEMORY.  The message is
+ * one line naming the checkpoint or the input file.  o may be NULL (the
+ * defaults); the arrays and strings are read during the call only. */
+SHEAF_API sheaf_summary_set *sheaf_scan_files_checkpointed(const sheaf_options *o,
+                                                           const char *const *paths,
+                                                           size_t npaths,
+                                                           const char *checkpoint_path,
+                                                           uint64_t checkpoint_bytes, int resume,
+                                                           sheaf_error *err);
+
 /* ---- summaries: files and merges --------------------------------------------- */
 
 SHEAF_API void sheaf_summary_free(sheaf_summary *s);

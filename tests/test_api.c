@@ -23,7 +23,10 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <signal.h>
 #include <sys/stat.h>
+#include <sys/wait.h>
+#include <time.h>
 #include <unistd.h>
 #include <utime.h>
 
@@ -1127,4 +1130,264 @@ Test(api, page_and_charts_are_written_whole)
     cr_expect_not_null(strstr(text, " 0 of "), "something drifts against itself");
     free(text);
     sheaf_summary_free(s);
+}
+
+/* ---- checkpointed scans ---------------------------------------------------------
+ *
+ * The invented table: beehives weighed each hour across apiaries (hive id,
+ * apiary, weight, brood temperature, humidity with some cells NA, whether
+ * the queen was seen).  Values come from a fixed linear congruential
+ * sequence, so every run writes the same bytes. */
+
+/* Writes rows of hive readings starting at row `first` to path, gzip
+ * (level 1) when gz is 1, else plain. */
+static void write_hives(const char *path, int gz, unsigned first, unsigned rows)
+{
+    static const char *const apiary[] = {"orchard", "heath", "riverside", "ridge", "meadow"};
+    uint64_t x = 0x2545f4914f6cdd1dull + first;
+    char line[160];
+    gzFile zf = NULL;
+    FILE *f = NULL;
+    if (gz) cr_assert_not_null(zf = gzopen(path, "wb1"), "%s", path);
+    else cr_assert_not_null(f = fopen(path, "wb"), "%s", path);
+    const char *header = "hive,apiary,weight_kg,brood_c,humidity,queen_seen\n";
+    if (gz) cr_assert_gt(gzputs(zf, header), 0);
+    else fputs(header, f);
+    for (unsigned i = first; i < first + rows; i++) {
+        x = x * 6364136223846793005ull + 1442695040888963407ull;
+        unsigned r = (unsigned)(x >> 33);
+        int n = snprintf(line, sizeof line, "%u,%s,%.2f,%.1f,", i, apiary[r % 5],
+                         38.0 + (double)(r % 4000) / 100.0, 33.0 + (double)(r % 37) / 10.0);
+        if (r % 23 == 0) n += snprintf(line + n, sizeof line - (size_t)n, "NA,");
+        else n += snprintf(line + n, sizeof line - (size_t)n, "%u,", 40 + (r >> 7) % 45);
+        n += snprintf(line + n, sizeof line - (size_t)n, "%s\n", (r >> 11) % 3 ? "yes" : "no");
+        if (gz) cr_assert_eq(gzwrite(zf, line, (unsigned)n), n);
+        else cr_assert_eq(fwrite(line, 1, (size_t)n, f), (size_t)n);
+    }
+    if (gz) cr_assert_eq(gzclose(zf), Z_OK);
+    else cr_assert_eq(fclose(f), 0);
+}
+
+/* The two inputs of the checkpoint tests: a gzip file of about 6.5 MB of
+ * text (about 25 chunks of the scan's 256 KiB) and a plain one. */
+static void hive_files(char *gz, char *plain, size_t len)
+{
+    write_hives(in_dir(gz, len, "hives-a.csv.gz"), 1, 1, 140000);
+    write_hives(in_dir(plain, len, "hives-b.csv"), 0, 140001, 20000);
+}
+
+/* A checkpointed scan that must succeed, written to out. */
+static void scan_checkpointed_to(const sheaf_options *o, const char *const *paths, size_t n,
+                                 const char *ck, uint64_t every, int resume, const char *out)
+{
+    sheaf_error err = {0, ""};
+    sheaf_summary_set *set =
+        sheaf_scan_files_checkpointed(o, paths, n, ck, every, resume, &err);
+    cr_assert_not_null(set, "%s", err.message);
+    cr_assert_eq(sheaf_summary_set_write(set, out, &err), SHEAF_OK, "%s", err.message);
+    sheaf_summary_set_free(set);
+}
+
+/* docs/nightly.md: a checkpointed summary is not the bytes of a scan
+ * without checkpoints (the segments are merged as summaries are), but its
+ * counts, distinct counts, value tables and quantiles are equal and its
+ * moments agree to rounding.  It is the bytes `sheaf scan --checkpoint`
+ * writes for the same files and options (checked when ./sheaf is built, as
+ * it is before the tests run), and the checkpoint stays after success. */
+Test(api, checkpointed_scan_equals_the_plain_scan_to_rounding)
+{
+    char gz[128], plain[128], ck[128], out[128], cli[128], cmd[1024];
+    hive_files(gz, plain, sizeof gz);
+    const char *paths[] = {gz, plain};
+    sheaf_error err = {0, ""};
+    sheaf_options *o = options("queen_seen", 2);
+    in_dir(ck, sizeof ck, "night.ck");
+    sheaf_summary_set *set = sheaf_scan_files_checkpointed(o, paths, 2, ck, 1 << 20, 0, &err);
+    cr_assert_not_null(set, "%s", err.message);
+    cr_expect_eq(sheaf_summary_set_count(set), 1);
+    cr_expect_str_eq(sheaf_summary_set_target(set, 0), "queen_seen");
+    struct stat st;
+    cr_expect_eq(stat(ck, &st), 0, "the checkpoint was removed on success");
+
+    sheaf_scan *sc = sheaf_scan_create(o, &err);
+    cr_assert_not_null(sc, "%s", err.message);
+    cr_assert_eq(sheaf_scan_path(sc, gz, &err), SHEAF_OK, "%s", err.message);
+    cr_assert_eq(sheaf_scan_path(sc, plain, &err), SHEAF_OK, "%s", err.message);
+    sheaf_summary_set *whole = sheaf_scan_finish_set(sc, &err);
+    cr_assert_not_null(whole, "%s", err.message);
+    sheaf_scan_free(sc);
+
+    /* Read both back from their files, so the figures are those on disk. */
+    cr_assert_eq(sheaf_summary_set_write(set, in_dir(out, sizeof out, "api.sheaf"), &err),
+                 SHEAF_OK, "%s", err.message);
+    char whole_path[128];
+    cr_assert_eq(sheaf_summary_set_write(whole, in_dir(whole_path, sizeof whole_path,
+                                                       "whole.sheaf"), &err),
+                 SHEAF_OK, "%s", err.message);
+    cr_expect_not(same_bytes(out, whole_path),
+                  "a scan cut into segments gave the bytes of one without cuts: the cuts did "
+                  "not happen");
+    sheaf_summary *a = sheaf_summary_read(out, &err);
+    cr_assert_not_null(a, "%s", err.message);
+    sheaf_summary *b = sheaf_summary_read(whole_path, &err);
+    cr_assert_not_null(b, "%s", err.message);
+    cr_assert_eq(sheaf_summary_column_count(a), 6);
+    cr_assert_eq(sheaf_summary_column_count(b), 6);
+    cr_expect_eq(sheaf_summary_rows(a), 160000);
+    cr_expect_eq(sheaf_summary_rows(b), 160000);
+    static const double p[] = {0, 0.1, 0.25, 0.5, 0.75, 0.9, 1};
+    for (size_t c = 0; c < 6; c++) {
+        cr_expect_eq(sheaf_column_numbers(a, c), sheaf_column_numbers(b, c), "col %zu", c);
+        cr_expect_eq(sheaf_column_present(a, c), sheaf_column_present(b, c), "col %zu", c);
+        cr_expect_eq(sheaf_column_missing(a, c), sheaf_column_missing(b, c), "col %zu", c);
+        cr_expect_eq(sheaf_column_text(a, c), sheaf_column_text(b, c), "col %zu", c);
+        int ea, eb;
+        cr_expect_eq(sheaf_column_distinct(a, c, &ea), sheaf_column_distinct(b, c, &eb),
+                     "col %zu", c);
+        cr_expect_eq(ea, eb, "col %zu", c);
+        if (!sheaf_column_is_numeric(a, c)) continue;
+        double qa[7], qb[7];
+        cr_assert_eq(sheaf_column_quantiles(a, c, p, 7, qa, NULL, &err), SHEAF_OK);
+        cr_assert_eq(sheaf_column_quantiles(b, c, p, 7, qb, NULL, &err), SHEAF_OK);
+        for (size_t i = 0; i < 7; i++)
+            cr_expect_eq(qa[i], qb[i], "col %zu quantile %g: %.17g and %.17g", c, p[i], qa[i],
+                         qb[i]);
+        cr_expect_eq(sheaf_column_min(a, c), sheaf_column_min(b, c));
+        cr_expect_eq(sheaf_column_max(a, c), sheaf_column_max(b, c));
+        near(sheaf_column_mean(a, c), sheaf_column_mean(b, c), 1e-13, "mean");
+        near(sheaf_column_variance(a, c), sheaf_column_variance(b, c), 1e-12, "variance");
+        near(sheaf_column_skewness(a, c), sheaf_column_skewness(b, c), 1e-10, "skewness");
+    }
+    size_t w = column(a, "weight_kg"), h = column(a, "humidity");
+    near(sheaf_correlation(a, w, h), sheaf_correlation(b, w, h), 1e-12, "r");
+    sheaf_summary_free(a);
+    sheaf_summary_free(b);
+    sheaf_summary_set_free(set);
+    sheaf_summary_set_free(whole);
+
+    /* The command line's checkpointed scan of the same files and options. */
+    if (access("./sheaf", X_OK) != 0) {
+        cr_log_warn("./sheaf is not built: the comparison with `sheaf scan --checkpoint` "
+                    "was skipped");
+    } else {
+        char cli_ck[128];
+        snprintf(cmd, sizeof cmd,
+                 "./sheaf scan -q -j 2 -t queen_seen --checkpoint '%s' --checkpoint-every 1M "
+                 "-o '%s' '%s' '%s'",
+                 in_dir(cli_ck, sizeof cli_ck, "cli.ck"), in_dir(cli, sizeof cli, "cli.sheaf"),
+                 gz, plain);
+        cr_assert_eq(system(cmd), 0, "%s", cmd);
+        cr_expect(same_bytes(out, cli), "the API's checkpointed summary differs from the CLI's");
+    }
+    sheaf_options_free(o);
+}
+
+/* A scan killed part way (SIGKILL of a forked child once its first
+ * checkpoint is on disk) and resumed through the API, on another thread
+ * count, writes the bytes of the same checkpointed scan left alone. */
+Test(api, a_killed_checkpointed_scan_resumes_to_the_same_bytes)
+{
+    char gz[128], plain[128], ck[128], ref_ck[128], ref[128], res[128];
+    hive_files(gz, plain, sizeof gz);
+    const char *paths[] = {gz, plain};
+    sheaf_options *o1 = options("queen_seen", 1), *o2 = options("queen_seen", 2);
+    in_dir(ck, sizeof ck, "killed.ck");
+    in_dir(ref_ck, sizeof ref_ck, "ref.ck");
+    in_dir(ref, sizeof ref, "ref.sheaf");
+    in_dir(res, sizeof res, "resumed.sheaf");
+    scan_checkpointed_to(o2, paths, 2, ref_ck, 1, 0, ref);
+
+    pid_t pid = fork();
+    cr_assert_neq(pid, -1);
+    if (pid == 0) {
+        sheaf_summary_set *set = sheaf_scan_files_checkpointed(o1, paths, 2, ck, 1, 0, NULL);
+        _exit(set ? 0 : 1);
+    }
+    struct stat st;
+    struct timespec nap = {0, 200000}; /* 0.2 ms */
+    for (int i = 0; i < 100000 && stat(ck, &st) != 0; i++) {
+        if (waitpid(pid, NULL, WNOHANG) == pid) cr_assert_fail("the scan ended before a checkpoint");
+        nanosleep(&nap, NULL);
+    }
+    kill(pid, SIGKILL);
+    int status;
+    cr_assert_eq(waitpid(pid, &status, 0), pid);
+    cr_assert(WIFSIGNALED(status) && WTERMSIG(status) == SIGKILL,
+              "the scan finished before it was killed (status %d)", status);
+    cr_assert_eq(stat(ck, &st), 0, "no checkpoint after the kill");
+
+    scan_checkpointed_to(o2, paths, 2, ck, 1, 1, res);
+    cr_expect(same_bytes(ref, res), "the resumed summary differs from the uninterrupted one");
+    /* The finished scan's own last checkpoint resumes to the same bytes. */
+    scan_checkpointed_to(o1, paths, 2, ref_ck, 1, 1, res);
+    cr_expect(same_bytes(ref, res), "resuming a finished scan's checkpoint gave other bytes");
+    sheaf_options_free(o1);
+    sheaf_options_free(o2);
+}
+
+/* A refused checkpointed scan: NULL, the code, and one line naming the file. */
+static void refused(const sheaf_options *o, const char *const *paths, size_t n, const char *ck,
+                    uint64_t every, int resume, int code, const char *names, const char *also)
+{
+    sheaf_error err = {0, ""};
+    sheaf_summary_set *set = sheaf_scan_files_checkpointed(o, paths, n, ck, every, resume, &err);
+    cr_expect_null(set, "accepted: %s", ck ? ck : "(NULL)");
+    sheaf_summary_set_free(set);
+    cr_expect_eq(err.code, code, "code %d, want %d: %s", err.code, code, err.message);
+    cr_expect(strstr(err.message, names) != NULL, "%s does not name %s", err.message, names);
+    if (also) cr_expect(strstr(err.message, also) != NULL, "%s lacks %s", err.message, also);
+    cr_expect_null(strchr(err.message, '\n'), "%s", err.message);
+    cr_expect_null(strstr(err.message, "--"), "%s", err.message);
+}
+
+/* The refusals of docs/nightly.md's table, with the codes the command line's
+ * exit codes stand for (2 usage, 4 corrupt, 3 input). */
+Test(api, a_checkpoint_that_does_not_fit_is_refused)
+{
+    char gz[128], plain[128], ck[128], out[128], bad[128];
+    hive_files(gz, plain, sizeof gz);
+    const char *paths[] = {gz, plain};
+    sheaf_options *o = options("queen_seen", 2);
+    in_dir(ck, sizeof ck, "night.ck");
+    scan_checkpointed_to(o, paths, 2, ck, 1 << 20, 0, in_dir(out, sizeof out, "night.sheaf"));
+
+    /* No checkpoint to resume from. */
+    refused(o, paths, 2, in_dir(bad, sizeof bad, "never-written.ck"), 1 << 20, 1,
+            SHEAF_ERR_USAGE, "never-written.ck", "resume (sheaf_scan_files_checkpointed)");
+    cr_expect_neq(access(bad, F_OK), 0, "a refused resume left a file");
+    /* Other options that shape the summary, another interval, other files. */
+    sheaf_error err;
+    sheaf_options *levels = options("queen_seen", 2);
+    cr_assert_eq(sheaf_options_set_max_levels(levels, 500, &err), SHEAF_OK);
+    refused(levels, paths, 2, ck, 1 << 20, 1, SHEAF_ERR_USAGE, "night.ck",
+            "sheaf_options_set_max_levels");
+    sheaf_options_free(levels);
+    refused(o, paths, 2, ck, 2 << 20, 1, SHEAF_ERR_USAGE, "night.ck", "checkpoint_bytes");
+    refused(o, paths, 1, ck, 1 << 20, 1, SHEAF_ERR_USAGE, "night.ck", NULL);
+    const char *swapped[] = {plain, gz};
+    refused(o, swapped, 2, ck, 1 << 20, 1, SHEAF_ERR_USAGE, "night.ck", NULL);
+    /* A damaged checkpoint: one byte flipped in its middle, then one cut short. */
+    size_t len;
+    char *bytes = read_file(ck, &len);
+    bytes[len / 2] ^= 0x20;
+    write_file(in_dir(bad, sizeof bad, "flipped.ck"), bytes, len);
+    refused(o, paths, 2, bad, 1 << 20, 1, SHEAF_ERR_CORRUPT, "flipped.ck", "damaged");
+    bytes[len / 2] ^= 0x20;
+    write_file(in_dir(bad, sizeof bad, "short.ck"), bytes, len - 100);
+    refused(o, paths, 2, bad, 1 << 20, 1, SHEAF_ERR_CORRUPT, "short.ck", "damaged");
+    free(bytes);
+    /* An input changed since the checkpoint (input data: 3 on the command line). */
+    FILE *f = fopen(plain, "ab");
+    cr_assert_not_null(f);
+    fputs("999999,heath,40.00,34.0,50,no\n", f);
+    fclose(f);
+    refused(o, paths, 2, ck, 1 << 20, 1, SHEAF_ERR_INPUT, "hives-b.csv", NULL);
+    /* Bad arguments: standard input, no checkpoint path, the checkpoint an input. */
+    const char *stdin_path[] = {"-"};
+    refused(o, stdin_path, 1, in_dir(bad, sizeof bad, "stdin.ck"), 0, 0, SHEAF_ERR_USAGE,
+            "standard input", NULL);
+    refused(o, paths, 2, NULL, 0, 0, SHEAF_ERR_USAGE, "sheaf_scan_files_checkpointed", NULL);
+    refused(o, paths, 2, plain, 0, 0, SHEAF_ERR_USAGE, "hives-b.csv", NULL);
+    refused(o, NULL, 0, ck, 0, 0, SHEAF_ERR_USAGE, "no input files", NULL);
+    sheaf_options_free(o);
 }

@@ -47,6 +47,11 @@ static const struct { const char *key, *call; } SETTING_CALLS[] = {
     {"threads", "sheaf_options_set_threads"},
     {"force", "sheaf_options_set_force"},
     {"no_header", "sheaf_options_set_header(0)"},
+    {"max_levels", "sheaf_options_set_max_levels"},
+    {"missing", "sheaf_options_set_missing"},
+    {"checkpoint", "a checkpoint (sheaf_scan_files_checkpointed)"},
+    {"checkpoint_every", "checkpoint_bytes (sheaf_scan_files_checkpointed)"},
+    {"resume", "resume (sheaf_scan_files_checkpointed)"},
 };
 
 /* The call that sets a key, or NULL (out/keys.h). */
