@@ -14,22 +14,25 @@ static double quantile(const buckets *b, double p, double *rel_err);
 static double quantile_linear(const buckets *b, double p, double *rel_err);
 static void write_settled(const buckets *b, wire_writer *w);
 
-double buckets_quantile(const buckets *b, double p, double *rel_err)
+/* A quantile read through buckets_readable: NaN when its copy cannot be made. */
+static double settled_quantile(const buckets *b, double p, double *rel_err,
+                               double (*read)(const buckets *, double, double *))
 {
     buckets *tmp;
     const buckets *r = buckets_readable(b, &tmp);
-    double q = r ? quantile(r, p, rel_err) : NAN;
+    double q = r ? read(r, p, rel_err) : NAN;
     buckets_free(tmp);
     return q;
 }
 
+double buckets_quantile(const buckets *b, double p, double *rel_err)
+{
+    return settled_quantile(b, p, rel_err, quantile);
+}
+
 double buckets_quantile_linear(const buckets *b, double p, double *rel_err)
 {
-    buckets *tmp;
-    const buckets *r = buckets_readable(b, &tmp);
-    double q = r ? quantile_linear(r, p, rel_err) : NAN;
-    buckets_free(tmp);
-    return q;
+    return settled_quantile(b, p, rel_err, quantile_linear);
 }
 
 void buckets_write(const buckets *b, wire_writer *w)

@@ -74,6 +74,67 @@ static inline uint64_t make_id(int64_t key, uint32_t cell)
 static inline int64_t id_key(uint64_t id) { return (int32_t)(uint32_t)id; }
 static inline uint32_t id_cell(uint64_t id) { return (uint32_t)(id >> 32); }
 
+/* ---- table basics (buckets.c, buckets_sort.c) ---------------------------- */
+
+/* Tables are kept at most 3/4 full (memory matters: one store per column,
+ * thousands of columns). */
+#define OVER_LOAD(n, cap) (4 * (n) > 3 * (cap))
+#define ORDER_CAP(cap) ((cap) / 4 * 3 + 1)
+
+static inline unsigned log2_of(size_t pow2)
+{
+    unsigned k = 0;
+    while (((size_t)1 << k) < pow2) k++;
+    return k;
+}
+
+/* Smallest power of two >= MIN_CAP that keeps load <= 3/4 for n items. */
+static inline size_t cap_for(size_t n)
+{
+    size_t cap = MIN_CAP;
+    while (OVER_LOAD(n, cap)) cap *= 2;
+    return cap;
+}
+
+/* The slot of id, or the empty slot where it goes (linear probing). */
+static inline size_t slot_find(const slot *slots, size_t cap, unsigned shift, uint64_t id)
+{
+    size_t mask = cap - 1;
+    size_t pos = (size_t)((id * FIB_MULT) >> shift);
+    for (;;) {
+        const slot *s = &slots[pos];
+        if (s->count == 0 || s->id == id) return pos;
+        pos = (pos + 1) & mask;
+    }
+}
+
+/* The same for a key's entry count. */
+static inline size_t key_find(const key_slot *keys, size_t cap, unsigned shift, int64_t key)
+{
+    size_t mask = cap - 1;
+    size_t pos = (size_t)(((uint64_t)(uint32_t)(int32_t)key * FIB_MULT) >> shift);
+    for (;;) {
+        const key_slot *s = &keys[pos];
+        if (s->entries == 0 || s->key == key) return pos;
+        pos = (pos + 1) & mask;
+    }
+}
+
+/* ---- sorting and rebuilding (buckets_sort.c) ----------------------------- */
+
+/* Writes the sort index of b's entries, in (key, cell) order, to out[0..n):
+ * never fails (qsort when the radix sort's scratch cannot be had). */
+void buckets_fill_order(const buckets *b, order_item *out);
+/* Sorts e[0..n) by (key, cell) and sums equal neighbours; the new length. */
+size_t buckets_sort_combine(buckets_entry *e, size_t n);
+/* Raises *level one step at a time while the sorted e[0..n) has more
+ * distinct keys than the budget; the new length. */
+size_t buckets_fit_budget(buckets_entry *e, size_t n, int *level, uint32_t budget);
+/* Appends b's entries re-keyed to `level` (>= b's level), cells mapped
+ * (cell_map NULL: as they are), in slot order: every caller sorts them
+ * next.  Returns how many. */
+size_t buckets_gather(const buckets *b, int level, const uint32_t *cell_map, buckets_entry *out);
+
 /* The store to read: b itself, or, when its window holds counts, a settled
  * copy in *tmp that the caller frees (b is never written).  NULL when
  * memory for the copy runs out. */
