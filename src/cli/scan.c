@@ -272,7 +272,7 @@ int cmd_scan(int argc, char **argv)
         goto done;
     }
     /* The summary is safe: the checkpoint has served. */
-    if (o.checkpoint && unlink(o.checkpoint) != 0)
+    if (o.checkpoint && unlink(o.checkpoint) != 0 && errno != ENOENT) /* none: shorter than one interval */
         cli_error("scan", "warning: cannot remove the checkpoint %s: %s", o.checkpoint,
                   strerror(errno));
     print_warnings(&held);

@@ -257,3 +257,10 @@ reference intact "$T/c.csv" "${EVERY[@]}"
 cp "$T/c.ck.keep" "$T/c.ck"
 run "$SHEAF" scan -q "$T/c.csv" "${EVERY[@]}" --checkpoint "$T/c.ck" --resume -o "$T/c.sheaf"
 check checkpoint.resume_after_refusals "exit $RC $(err_text)" cmp -s "$T/c.sheaf" "$T/intact.ref"
+
+# A table shorter than one interval writes no checkpoint: the scan ends
+# quietly (no warning about a checkpoint to remove) and leaves none.
+printf 'a,b\n1,2\n3,4\n' >"$T/short.csv"
+run "$SHEAF" scan "$T/short.csv" --checkpoint "$T/short.ck" -o "$T/short.sheaf"
+check checkpoint.shorter_than_an_interval "exit $RC, stderr: $(err_text)" \
+    test "$RC" -eq 0 -a ! -s "$T/err" -a ! -e "$T/short.ck" -a -s "$T/short.sheaf"
