@@ -397,7 +397,7 @@ static void lobe_range(const buckets_entry *e, size_t n, uint64_t *lo, uint64_t 
 
 /* Opens a window over the magnitudes that hold all but 1/DENSE_TAIL of
  * each sign's counts at each end (at the table's level), widened by an
- * eighth on each side, at most DENSE_MAX counters and twice the table's
+ * eighth on each side, at most DENSE_MAX counters and as many as the table's
  * slots (memory: a store per column, thousands of columns), narrowed
  * around the middle of each sign's range when that is too many; else tries
  * again once the store has twice the values.  Nothing pending. */
@@ -428,7 +428,7 @@ static void dense_open(buckets *b)
     lobe_range(e, neg, &lo[1], &hi[1], &mass[1]);
     free(e);
     const uint64_t cells = (uint64_t)top_cell + 1, top = (uint64_t)max_magnitude(b->level);
-    const uint64_t most = DENSE_MAX < 2 * (uint64_t)b->cap ? DENSE_MAX : 2 * (uint64_t)b->cap;
+    const uint64_t most = DENSE_MAX < (uint64_t)b->cap ? DENSE_MAX : (uint64_t)b->cap;
     uint64_t width[2] = {0, 0}, rows = 1;
     for (int s = 0; s < 2; s++) {
         if (!mass[s]) continue;
