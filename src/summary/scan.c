@@ -396,7 +396,7 @@ int scan_settle_runs(scan_context *sc)
 /* The decoded bytes [offset, offset + len) of the current stream into the
  * prefix hash, its state kept at each restart point of the source among
  * them (a checkpoint stores the one at its point: scan_cut). */
-static void prefix_update(scan_context *sc, const char *data, size_t len, uint64_t offset)
+void scan_prefix_update(scan_context *sc, const char *data, size_t len, uint64_t offset)
 {
     uint64_t at[SCAN_POINTS];
     size_t n = sc->src ? source_mark_offsets(sc->src, offset, offset + len, at, SCAN_POINTS) : 0;
@@ -435,14 +435,14 @@ static scan_status drain(scan_context *sc)
         }
         if (sc->prefix) { /* segments: a cut, or (resuming) a chunk before the checkpoint */
             if (sc->skipping && ch.offset + ch.len <= sc->skip_to) {
-                prefix_update(sc, ch.data, ch.len, ch.offset);
+                scan_prefix_update(sc, ch.data, ch.len, ch.offset);
                 continue;
             }
             scan_status st = SCAN_OK;
             if (sc->skipping) st = scan_resume_here(sc, &ch);
             else if (sc->work && sc->seg_bytes >= sc->o.checkpoint_bytes) st = scan_cut(sc, ch.offset);
             if (st != SCAN_OK) return st;
-            prefix_update(sc, ch.data, ch.len, ch.offset);
+            scan_prefix_update(sc, ch.data, ch.len, ch.offset);
             sc->seg_bytes += ch.len;
         }
         if (!sc->work) { /* blank lines before the first header: their lines count */
@@ -469,7 +469,7 @@ static scan_status drain(scan_context *sc)
 }
 
 /* Opens a stream: from > 0 for a shard that starts inside its file. */
-static scan_status begin(scan_context *sc, const char *name, uint64_t from, uint64_t stop_at)
+scan_status scan_begin_at(scan_context *sc, const char *name, uint64_t from, uint64_t stop_at)
 {
     if (sc->failed) return sc->failed;
     if (sc->open) return scan_fail(sc, SCAN_ERR_USAGE, "a stream is already open");
@@ -604,7 +604,7 @@ const char *scan_error(const scan_context *sc) { return sc->err; }
 
 uint64_t scan_position(const scan_context *sc) { return sc->work ? chunks_absorbed(sc->work) : 0; }
 
-scan_status scan_begin(scan_context *sc, const char *name) { return begin(sc, name, 0, 0); }
+scan_status scan_begin(scan_context *sc, const char *name) { return scan_begin_at(sc, name, 0, 0); }
 
 scan_status scan_feed(scan_context *sc, const void *data, size_t len)
 {
@@ -638,7 +638,7 @@ scan_status scan_end(scan_context *sc)
 static scan_status pull_stream(scan_context *sc, source *src, uint64_t from);
 
 /* Pulls the open stream from src to its end (or its stop offset). */
-static scan_status pull(scan_context *sc, source *src, uint64_t from)
+scan_status scan_pull(scan_context *sc, source *src, uint64_t from)
 {
     sc->src = src;
     scan_status st = pull_stream(sc, src, from);
@@ -670,74 +670,8 @@ static scan_status pull_stream(scan_context *sc, source *src, uint64_t from)
 
 scan_status scan_source(scan_context *sc, source *src)
 {
-    scan_status st = begin(sc, source_path(src), 0, 0);
-    return st != SCAN_OK ? st : pull(sc, src, 0);
-}
-
-/* Resuming at a restart point: the decoded bytes [sc->jump_from, skip_to)
- * of src hashed after the restored prefix state and dropped, so that the
- * reader starts at the checkpoint's offset with sc->prefix as a scan from
- * byte 0 would have it there. */
-static scan_status jump_ahead(scan_context *sc, source *src)
-{
-    XXH3_copyState(sc->prefix, sc->jump_hash);
-    uint64_t at = sc->jump_from;
-    if (source_kind(src) == SOURCE_GZIP) { /* the restored point: the source keeps it too */
-        XXH3_copyState(sc->point_hash[sc->point_next], sc->jump_hash);
-        sc->point_at[sc->point_next] = at;
-        sc->point_next = (sc->point_next + 1) % SCAN_POINTS;
-    }
-    size_t cap = 1u << 20;
-    char *buf = at < sc->skip_to ? malloc(cap) : NULL;
-    if (at < sc->skip_to && !buf) return scan_fail(sc, SCAN_ERR_MEMORY, "out of memory");
-    sc->src = src; /* restart points among the skipped bytes */
-    while (at < sc->skip_to) {
-        uint64_t left = sc->skip_to - at;
-        ssize_t n = source_read(src, buf, left < cap ? (size_t)left : cap);
-        if (n < 0) {
-            free(buf);
-            sc->src = NULL;
-            return scan_fail(sc, errno == ENOMEM ? SCAN_ERR_MEMORY : SCAN_ERR_INPUT,
-                             source_error(src));
-        }
-        if (n == 0) break;
-        prefix_update(sc, buf, (size_t)n, at);
-        at += (uint64_t)n;
-        uint64_t drop[64];
-        while (source_take_starts(src, drop, 64) == 64) {} /* members begun before the offset */
-    }
-    free(buf);
-    sc->src = NULL;
-    /* The first chunk (at skip_to) is checked against the checkpoint's
-     * prefix hash by scan_resume_here, as after a fast-forward; a file
-     * that ends before the offset is refused by end(). */
-    reader_start(sc->rd, sc->shown, 0, sc->delim, 0);
-    reader_rebase(sc->rd, at);
-    sc->at_first = 0;
-    return SCAN_OK;
-}
-
-scan_status scan_source_checked(scan_context *sc, source *src)
-{
-    if (!sc->jump) return scan_source(sc, src);
-    sc->jump = 0;
-    /* The header (and the delimiter) from a separate read of the file's
-     * start, as a shard reads it; the skipping waits meanwhile. */
-    errno = 0;
-    source *hs = source_open(source_path(src), sc->err, sizeof sc->err);
-    if (!hs) return scan_fail(sc, errno == ENOMEM ? SCAN_ERR_MEMORY : SCAN_ERR_INPUT, NULL);
-    int skipping = sc->skipping;
-    sc->skipping = 0;
-    sc->header_only = 1;
-    scan_status st = begin(sc, source_path(src), 0, 0);
-    if (st == SCAN_OK) st = pull(sc, hs, 0);
-    sc->header_only = 0;
-    sc->skipping = skipping;
-    source_close(hs);
-    if (st != SCAN_OK) return st;
-    st = begin(sc, source_path(src), 0, 0);
-    if (st == SCAN_OK) st = jump_ahead(sc, src);
-    return st != SCAN_OK ? st : pull(sc, src, 0);
+    scan_status st = scan_begin_at(sc, source_path(src), 0, 0);
+    return st != SCAN_OK ? st : scan_pull(sc, src, 0);
 }
 
 /* A file from byte `from` (0: the whole file, header first), stopping before
@@ -750,16 +684,16 @@ scan_status scan_file_range(scan_context *sc, const char *path, uint64_t from, u
                        : source_open(path, sc->err, sizeof sc->err);
     if (!src) return scan_fail(sc, errno == ENOMEM ? SCAN_ERR_MEMORY : SCAN_ERR_INPUT, NULL);
     source_observe(src, sc->observe, sc->observe_ctx);
-    scan_status st = begin(sc, path, from, stop_at);
-    if (st == SCAN_OK) st = pull(sc, src, from);
+    scan_status st = scan_begin_at(sc, path, from, stop_at);
+    if (st == SCAN_OK) st = scan_pull(sc, src, from);
     source_close(src);
     return st;
 }
 
 scan_status scan_source_range(scan_context *sc, source *src, uint64_t from, uint64_t stop_at)
 {
-    scan_status st = begin(sc, source_path(src), from, stop_at);
-    return st != SCAN_OK ? st : pull(sc, src, source_raw_offset(src));
+    scan_status st = scan_begin_at(sc, source_path(src), from, stop_at);
+    return st != SCAN_OK ? st : scan_pull(sc, src, source_raw_offset(src));
 }
 
 /* Every summary of the scan finished: each target's cells settled, the

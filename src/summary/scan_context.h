@@ -117,6 +117,14 @@ int scan_make_runs(scan_context *sc);
 int scan_start_work(scan_context *sc);
 scan_status scan_worked(scan_context *sc, scan_status st);
 int scan_settle_runs(scan_context *sc);
+/* scan.c, for the jump to a restart point in scan_segments.c: a stream
+ * opened (named name, from raw byte `from`, stopping before records at
+ * stop_at, 0: none); src pulled to its end (raw bytes counted from `from`);
+ * decoded bytes [offset, offset + len) added to the stream's prefix hash
+ * (and to the restart points' hashes where they fall). */
+scan_status scan_begin_at(scan_context *sc, const char *name, uint64_t from, uint64_t stop_at);
+scan_status scan_pull(scan_context *sc, source *src, uint64_t from);
+void scan_prefix_update(scan_context *sc, const char *data, size_t len, uint64_t offset);
 /* scan_segments.c, for scan.c: the open segment's settled summaries merged
  * into the finished ones (0, or -1); a cut before the chunk at `offset` of
  * the current stream (SCAN_OK or the failure); the chunk at the

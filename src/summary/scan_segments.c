@@ -1,7 +1,8 @@
 /* scan_segments: the segments of a scan with checkpoints (see scan.h,
  * scan_options.checkpoint, and DEVELOPERS.md, "Checkpoints and resuming"):
  * the cut that finishes a segment and writes the checkpoint, the start of
- * the next, and the point where a resumed scan takes over. */
+ * the next, the point where a resumed scan takes over, and the jump to a
+ * restart point. */
 #include "summary/scan_context.h"
 
 #include <errno.h>
@@ -171,3 +172,68 @@ scan_status scan_resume_here(scan_context *sc, const reader_chunk *ch)
     return scan_segment_start(sc, sc->skip_lines, sc->skip_rows);
 }
 
+/* Resuming at a restart point: the decoded bytes [sc->jump_from, skip_to)
+ * of src hashed after the restored prefix state and dropped, so that the
+ * reader starts at the checkpoint's offset with sc->prefix as a scan from
+ * byte 0 would have it there. */
+static scan_status jump_ahead(scan_context *sc, source *src)
+{
+    XXH3_copyState(sc->prefix, sc->jump_hash);
+    uint64_t at = sc->jump_from;
+    if (source_kind(src) == SOURCE_GZIP) { /* the restored point: the source keeps it too */
+        XXH3_copyState(sc->point_hash[sc->point_next], sc->jump_hash);
+        sc->point_at[sc->point_next] = at;
+        sc->point_next = (sc->point_next + 1) % SCAN_POINTS;
+    }
+    size_t cap = 1u << 20;
+    char *buf = at < sc->skip_to ? malloc(cap) : NULL;
+    if (at < sc->skip_to && !buf) return scan_fail(sc, SCAN_ERR_MEMORY, "out of memory");
+    sc->src = src; /* restart points among the skipped bytes */
+    while (at < sc->skip_to) {
+        uint64_t left = sc->skip_to - at;
+        ssize_t n = source_read(src, buf, left < cap ? (size_t)left : cap);
+        if (n < 0) {
+            free(buf);
+            sc->src = NULL;
+            return scan_fail(sc, errno == ENOMEM ? SCAN_ERR_MEMORY : SCAN_ERR_INPUT,
+                             source_error(src));
+        }
+        if (n == 0) break;
+        scan_prefix_update(sc, buf, (size_t)n, at);
+        at += (uint64_t)n;
+        uint64_t drop[64];
+        while (source_take_starts(src, drop, 64) == 64) {} /* members begun before the offset */
+    }
+    free(buf);
+    sc->src = NULL;
+    /* The first chunk (at skip_to) is checked against the checkpoint's
+     * prefix hash by scan_resume_here, as after a fast-forward; a file
+     * that ends before the offset is refused by end(). */
+    reader_start(sc->rd, sc->shown, 0, sc->delim, 0);
+    reader_rebase(sc->rd, at);
+    sc->at_first = 0;
+    return SCAN_OK;
+}
+
+scan_status scan_source_checked(scan_context *sc, source *src)
+{
+    if (!sc->jump) return scan_source(sc, src);
+    sc->jump = 0;
+    /* The header (and the delimiter) from a separate read of the file's
+     * start, as a shard reads it; the skipping waits meanwhile. */
+    errno = 0;
+    source *hs = source_open(source_path(src), sc->err, sizeof sc->err);
+    if (!hs) return scan_fail(sc, errno == ENOMEM ? SCAN_ERR_MEMORY : SCAN_ERR_INPUT, NULL);
+    int skipping = sc->skipping;
+    sc->skipping = 0;
+    sc->header_only = 1;
+    scan_status st = scan_begin_at(sc, source_path(src), 0, 0);
+    if (st == SCAN_OK) st = scan_pull(sc, hs, 0);
+    sc->header_only = 0;
+    sc->skipping = skipping;
+    source_close(hs);
+    if (st != SCAN_OK) return st;
+    st = scan_begin_at(sc, source_path(src), 0, 0);
+    if (st == SCAN_OK) st = jump_ahead(sc, src);
+    return st != SCAN_OK ? st : scan_pull(sc, src, 0);
+}
