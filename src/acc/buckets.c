@@ -595,7 +595,18 @@ static int merge_in_place(buckets *into, const buckets *from, const uint32_t *ce
     }
     /* Rekeyed keys may coincide, so `fresh` is an upper bound: safe. */
     if (into->nkeys + fresh > into->budget) return 0;
-    while (OVER_LOAD(into->n + from->n, into->cap))
+    /* Entries of `from` new to `into` (an upper bound again): the table
+     * grows for them alone, not for every entry of `from`, most of which
+     * are already there when two parts of one table meet. */
+    size_t fresh_entries = 0;
+    for (size_t i = 0; i < from->cap; i++) {
+        const slot *f = &from->slots[i];
+        if (!f->count) continue;
+        uint32_t cell = cell_map ? cell_map[id_cell(f->id)] : id_cell(f->id);
+        uint64_t id = make_id(rekey(id_key(f->id), steps), cell);
+        fresh_entries += !into->slots[slot_find(into->slots, into->cap, into->shift, id)].count;
+    }
+    while (OVER_LOAD(into->n + fresh_entries, into->cap))
         if (grow_slots(into)) return -1;
     while (OVER_LOAD(into->nkeys + fresh, into->key_cap))
         if (grow_keys(into)) return -1;
