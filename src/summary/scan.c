@@ -379,16 +379,21 @@ static scan_status head(scan_context *sc, const reader_chunk *ch, int *found)
  * copied into the others, all sealed.  0, or -1 (the scan's error set). */
 int scan_settle_runs(scan_context *sc)
 {
-    for (size_t t = 0; t < sc->nruns; t++) {
-        summary *s = sc->runs[t];
+    if (scan_settle(sc->runs, sc->nruns, sc->threads) == 0) return 0;
+    scan_fail(sc, SCAN_ERR_MEMORY, "out of memory");
+    return -1;
+}
+
+int scan_settle(summary *const *runs, size_t n, unsigned threads)
+{
+    for (size_t t = 0; t < n; t++) {
+        summary *s = runs[t];
         /* The continuous target's cells numbered in key order, every column
          * brought to that numbering (summary/tcells.h). */
         if (summary_target_cells_settle(s) != 0 ||
-            (t > 0 && summary_copy_comoments(s, sc->run) != 0) ||
-            summary_seal_threads(s, sc->threads) != 0) {
-            scan_fail(sc, SCAN_ERR_MEMORY, "out of memory");
+            (t > 0 && summary_copy_comoments(s, runs[0]) != 0) ||
+            summary_seal_threads(s, threads) != 0)
             return -1;
-        }
     }
     return 0;
 }
@@ -571,6 +576,7 @@ scan_context *scan_create(const scan_options *o)
 void scan_free(scan_context *sc)
 {
     if (!sc) return;
+    scan_cut_drop(sc); /* a checkpoint still being written: waited for, thrown away */
     chunks_free(sc->work);
     reader_free(sc->rd);
     reader_cursor_free(&sc->head);
@@ -713,6 +719,8 @@ static int finish_runs(scan_context *sc)
     chunks_free(sc->work);
     sc->work = NULL;
     if (scan_settle_runs(sc) != 0) return -1;
+    /* The last cut's checkpoint written meanwhile on its own thread. */
+    if (scan_cut_join(sc) != SCAN_OK) return -1;
     if (sc->done_set) {
         /* Segments: the last one merged into the others, the result the scan's. */
         if (scan_absorb_segment(sc) != 0) return -1;

@@ -73,7 +73,10 @@ struct scan_context {
     char *options_text;    /* checkpoint_options_text */
     uint64_t seg_bytes;    /* decompressed bytes pushed in the open segment */
     uint64_t ckpt_number;  /* checkpoints written */
-    summary_set *done_set; /* the finished segments, merged */
+    summary_set *done_set; /* the finished segments, merged (while a cut is written in the
+                              background, that cut's: cut_job) */
+    struct scan_cut_job *cut_job; /* the last cut, finished and written on its own thread while
+                                     the next segment is scanned, or NULL (scan_segments.c) */
     XXH3_state_t *prefix;  /* XXH3 of the current stream's decompressed bytes cut so far */
     uint64_t rows_before;  /* data rows of the current stream in earlier segments */
     int skipping;          /* resuming: chunks before skip_to are only hashed */
@@ -117,6 +120,9 @@ int scan_make_runs(scan_context *sc);
 int scan_start_work(scan_context *sc);
 scan_status scan_worked(scan_context *sc, scan_status st);
 int scan_settle_runs(scan_context *sc);
+/* The same for n summaries of one segment (runs[0] has the co-moments), on
+ * up to `threads` threads: 0, or -1 (out of memory). */
+int scan_settle(summary *const *runs, size_t n, unsigned threads);
 /* scan.c, for the jump to a restart point in scan_segments.c: a stream
  * opened (named name, from raw byte `from`, stopping before records at
  * stop_at, 0: none); src pulled to its end (raw bytes counted from `from`);
@@ -131,6 +137,12 @@ void scan_prefix_update(scan_context *sc, const char *data, size_t len, uint64_t
  * checkpoint's offset of a resumed scan (SCAN_OK or the failure). */
 int scan_absorb_segment(scan_context *sc);
 scan_status scan_cut(scan_context *sc, uint64_t offset);
+/* The cut still being written (sc->cut_job), waited for: its merged
+ * summaries become sc->done_set, or its failure the scan's (SCAN_OK or the
+ * failure; SCAN_OK when there is none).  scan_cut_drop waits for it and
+ * throws its work away (a scan freed before its end). */
+scan_status scan_cut_join(scan_context *sc);
+void scan_cut_drop(scan_context *sc);
 scan_status scan_resume_here(scan_context *sc, const reader_chunk *ch);
 
 /* scan_paths.c: a source just opened for file `index` of a scan with

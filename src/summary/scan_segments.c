@@ -6,6 +6,8 @@
 #include "summary/scan_context.h"
 
 #include <errno.h>
+#include <pthread.h>
+#include <signal.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -39,6 +41,24 @@ int scan_hash_load(XXH3_state_t *to, const void *data, size_t len)
     return 0;
 }
 
+/* seg (settled) merged into *done, or made *done when there is none; seg is
+ * consumed.  SUMMARY_OK, or the failure with its message in why. */
+static summary_status merge_segment(summary_set **done, summary_set *seg, char *why, size_t len)
+{
+    if (!*done) {
+        *done = seg;
+        return SUMMARY_OK;
+    }
+    summary_status st = summary_set_merge(*done, seg, why, len);
+    summary_set_free(seg);
+    return st;
+}
+
+static scan_status merge_failed(summary_status st)
+{
+    return st == SUMMARY_ERR_MEMORY ? SCAN_ERR_MEMORY : SCAN_ERR_INPUT;
+}
+
 /* The settled summaries of the open segment merged into the finished
  * segments (sc->done_set); sc->runs is then empty.  0, or -1. */
 int scan_absorb_segment(scan_context *sc)
@@ -50,23 +70,123 @@ int scan_absorb_segment(scan_context *sc)
     sc->runs = NULL;
     sc->nruns = 0;
     sc->run = NULL;
-    if (!sc->done_set) {
-        sc->done_set = seg;
-        return 0;
-    }
     char why[sizeof sc->err - 64];
-    summary_status st = summary_set_merge(sc->done_set, seg, why, sizeof why);
-    summary_set_free(seg);
+    summary_status st = merge_segment(&sc->done_set, seg, why, sizeof why);
     if (st == SUMMARY_OK) return 0;
     snprintf(sc->err, sizeof sc->err, "joining the scan's segments: %s", why);
-    sc->failed = st == SUMMARY_ERR_MEMORY ? SCAN_ERR_MEMORY : SCAN_ERR_INPUT;
+    sc->failed = merge_failed(st);
     return -1;
+}
+
+/* A cut's second half: the segment's summaries settled, merged into the
+ * finished ones, written to the checkpoint and read back.  With threads it
+ * runs on a thread of its own while the workers scan the next segment, so
+ * the scan does not stand still while the checkpoint is written; the
+ * next cut, or the end of the scan, waits for it (scan_cut_join).  It
+ * touches nothing the scan still uses: the segment's summaries are its
+ * own, and fresh ones take the next segment. */
+typedef struct scan_cut_job {
+    pthread_t thread;
+    int threaded;
+    summary_set *done;   /* in: the finished segments (NULL: none); out: with this one,
+                            as read back from the checkpoint */
+    summary_set *seg;    /* the segment's summaries, not settled yet */
+    checkpoint c;        /* what the checkpoint records (files, restart point and its
+                            hash owned; c.done set here) */
+    const scan_options *o; /* the scan's: the checkpoint's path, the test hook */
+    scan_status failed;
+    char err[sizeof ((scan_context *)0)->err];
+} scan_cut_job;
+
+static void cut_work(scan_cut_job *j)
+{
+    if (scan_settle(j->seg->parts, j->seg->n, 1) != 0) {
+        j->failed = SCAN_ERR_MEMORY;
+        snprintf(j->err, sizeof j->err, "out of memory");
+        return;
+    }
+    char why[sizeof j->err - 64];
+    summary_status ms = merge_segment(&j->done, j->seg, why, sizeof why);
+    j->seg = NULL;
+    if (ms != SUMMARY_OK) {
+        j->failed = merge_failed(ms);
+        snprintf(j->err, sizeof j->err, "joining the scan's segments: %s", why);
+        return;
+    }
+    j->c.done = j->done;
+    summary_set *reread;
+    checkpoint_status cs = checkpoint_write(j->o->checkpoint, &j->c, j->o->checkpoint_pause,
+                                            j->o->checkpoint_pause_ctx, &reread, why, sizeof why);
+    if (cs != CHECKPOINT_OK) {
+        j->failed = cs == CHECKPOINT_MEMORY ? SCAN_ERR_MEMORY : SCAN_ERR_WRITE;
+        snprintf(j->err, sizeof j->err, "%s", why);
+        return;
+    }
+    summary_set_free(j->done);
+    j->done = reread;
+}
+
+static void *cut_thread(void *arg)
+{
+    cut_work(arg);
+    return NULL;
+}
+
+static void cut_job_free(scan_cut_job *j)
+{
+    summary_set_free(j->seg);
+    summary_set_free(j->done);
+    free(j->c.files);
+    free(j->c.restart);
+    free(j->c.restart_hash);
+    free(j);
+}
+
+scan_status scan_cut_join(scan_context *sc)
+{
+    scan_cut_job *j = sc->cut_job;
+    if (!j) return SCAN_OK;
+    sc->cut_job = NULL;
+    if (j->threaded) pthread_join(j->thread, NULL);
+    scan_status st = j->failed;
+    if (st != SCAN_OK) {
+        if (sc->failed == SCAN_OK) scan_fail(sc, st, j->err);
+    } else {
+        sc->done_set = j->done; /* NULL until now: the job had it */
+        j->done = NULL;
+    }
+    cut_job_free(j);
+    return st;
+}
+
+void scan_cut_drop(scan_context *sc)
+{
+    scan_cut_job *j = sc->cut_job;
+    if (!j) return;
+    sc->cut_job = NULL;
+    if (j->threaded) pthread_join(j->thread, NULL);
+    cut_job_free(j);
+}
+
+/* Starts j on a thread of its own with every signal blocked there (they go
+ * to the scan's threads, as before).  0, or -1 when no thread can start. */
+static int cut_start(scan_cut_job *j)
+{
+    sigset_t all, old;
+    sigfillset(&all);
+    pthread_sigmask(SIG_SETMASK, &all, &old);
+    int rc = pthread_create(&j->thread, NULL, cut_thread, j);
+    pthread_sigmask(SIG_SETMASK, &old, NULL);
+    if (rc != 0) return -1;
+    j->threaded = 1;
+    return 0;
 }
 
 /* A segment ends before the chunk at `offset` of the current stream (every
  * chunk before it pushed): its summaries are finished and merged into the
  * running result, which goes to the checkpoint and is read back from the
- * bytes written; then fresh summaries and chunk workers take the rest, the
+ * bytes written (the job above: on its own thread when the scan has
+ * threads); then fresh summaries and chunk workers take the rest, the
  * stream's lines and rows carried on.  A scan resumed from this checkpoint
  * starts at exactly this state (scan_paths.c). */
 scan_status scan_cut(scan_context *sc, uint64_t offset)
@@ -76,36 +196,50 @@ scan_status scan_cut(scan_context *sc, uint64_t offset)
     uint64_t lines = chunks_lines(sc->work), rows = sc->rows_before + chunks_rows(sc->work);
     chunks_free(sc->work);
     sc->work = NULL;
-    if (scan_settle_runs(sc) != 0 || scan_absorb_segment(sc) != 0) return sc->failed;
-    checkpoint c;
-    memset(&c, 0, sizeof c);
-    c.options = sc->options_text;
-    c.nfiles = sc->npaths;
-    c.files = calloc(sc->npaths, sizeof *c.files);
-    if (!c.files) return scan_fail(sc, SCAN_ERR_MEMORY, "out of memory");
+    if (scan_cut_join(sc) != SCAN_OK) return sc->failed;
+    scan_cut_job *j = calloc(1, sizeof *j);
+    summary_set *seg = malloc(sizeof *seg);
+    checkpoint *c = j ? &j->c : NULL;
+    if (c) c->files = calloc(sc->npaths, sizeof *c->files);
+    if (!j || !seg || !c->files) {
+        if (j) free(c->files);
+        free(j);
+        free(seg);
+        return scan_fail(sc, SCAN_ERR_MEMORY, "out of memory");
+    }
+    seg->n = sc->nruns;
+    seg->parts = sc->runs;
+    sc->runs = NULL;
+    sc->nruns = 0;
+    sc->run = NULL;
+    j->seg = seg;
+    j->done = sc->done_set;
+    sc->done_set = NULL;
+    j->o = &sc->o;
+    sc->cut_job = j; /* from here on, whatever fails, scan_free frees it */
+    c->options = sc->options_text;
+    c->nfiles = sc->npaths;
     for (size_t i = 0; i < sc->npaths; i++) {
         struct stat fs;
-        c.files[i].path = (char *)sc->paths[i];
+        c->files[i].path = (char *)sc->paths[i];
         if (i <= sc->file_index) {
             if (stat(sc->paths[i], &fs) != 0) {
-                free(c.files);
                 snprintf(sc->err, sizeof sc->err, "%s: cannot stat for the checkpoint: %s",
                          sc->paths[i], strerror(errno));
                 return scan_fail(sc, SCAN_ERR_INPUT, NULL);
             }
-            c.files[i].size_bytes = (uint64_t)fs.st_size;
-            c.files[i].mtime_ns = (int64_t)fs.st_mtim.tv_sec * 1000000000 + fs.st_mtim.tv_nsec;
+            c->files[i].size_bytes = (uint64_t)fs.st_size;
+            c->files[i].mtime_ns = (int64_t)fs.st_mtim.tv_sec * 1000000000 + fs.st_mtim.tv_nsec;
         }
-        if (i < sc->file_index) c.files[i].fingerprint = sc->file_prints[i];
+        if (i < sc->file_index) c->files[i].fingerprint = sc->file_prints[i];
     }
-    c.file_index = (uint32_t)sc->file_index;
-    c.offset = offset;
-    c.prefix_hash = XXH3_64bits_digest(sc->prefix);
-    c.lines = lines;
-    c.rows = rows;
-    c.number = ++sc->ckpt_number;
-    c.delim = sc->delim;
-    c.done = sc->done_set;
+    c->file_index = (uint32_t)sc->file_index;
+    c->offset = offset;
+    c->prefix_hash = XXH3_64bits_digest(sc->prefix);
+    c->lines = lines;
+    c->rows = rows;
+    c->number = ++sc->ckpt_number;
+    c->delim = sc->delim;
     /* The current file's newest restart point before the offset (gzip)
      * whose prefix hash the chunks have passed, with that hash. */
     size_t best = SCAN_POINTS;
@@ -115,26 +249,16 @@ scan_status scan_cut(scan_context *sc, uint64_t offset)
             best = k;
     int got = 0;
     if (sc->src && best < SCAN_POINTS) {
-        got = source_mark_at(sc->src, sc->point_at[best], &c.restart, &c.restart_len);
-        if (got == 1 && !(c.restart_hash = scan_hash_save(sc->point_hash[best], &c.restart_hash_len)))
+        got = source_mark_at(sc->src, sc->point_at[best], &c->restart, &c->restart_len);
+        if (got == 1 &&
+            !(c->restart_hash = scan_hash_save(sc->point_hash[best], &c->restart_hash_len)))
             got = -1;
     }
-    if (got < 0) {
-        free(c.files);
-        free(c.restart);
-        return scan_fail(sc, SCAN_ERR_MEMORY, "out of memory");
+    if (got < 0) return scan_fail(sc, SCAN_ERR_MEMORY, "out of memory");
+    if (sc->threads <= 1 || cut_start(j) != 0) {
+        cut_work(j);
+        if (scan_cut_join(sc) != SCAN_OK) return sc->failed;
     }
-    summary_set *reread;
-    char why[sizeof sc->err - 64];
-    checkpoint_status cs = checkpoint_write(sc->o.checkpoint, &c, sc->o.checkpoint_pause,
-                                            sc->o.checkpoint_pause_ctx, &reread, why, sizeof why);
-    free(c.files);
-    free(c.restart);
-    free(c.restart_hash);
-    if (cs != CHECKPOINT_OK)
-        return scan_fail(sc, cs == CHECKPOINT_MEMORY ? SCAN_ERR_MEMORY : SCAN_ERR_WRITE, why);
-    summary_set_free(sc->done_set);
-    sc->done_set = reread;
     return scan_segment_start(sc, lines, rows);
 }
 

@@ -3,7 +3,8 @@
 # again with -fsanitize=thread (build/tsan/sheaf), then scan, trim and
 # project at -j3 with small chunks (many chunks in flight, every task kind
 # racing) on a small table with a class target and with a continuous target,
-# and a scan that fails in the middle (its threads stop while others run).
+# a scan with checkpoints (written on a thread of their own while the scan
+# goes on), and a scan that fails in the middle (its threads stop while others run).
 # Any unsynchronized access is a race ThreadSanitizer reports (its
 # happens-before detection); the outputs must also equal the -j1 outputs of
 # the normal build.  SKIP when no compiler here supports -fsanitize=thread.
@@ -57,6 +58,13 @@ for tgt in label price; do
         ./sheaf scan "$T/t.csv.gz" "$T/t.csv" --target "$tgt" --chunk-size 64K -j 1 -q -o "$T/b.sheaf" &&
         same "scan_$tgt" "$T/a.sheaf" "$T/b.sheaf"
 done
+# With checkpoints every 256 KiB: each cut's checkpoint is settled, merged
+# and written on its own thread while the workers scan the next segment.
+tsan checkpointed "$BIN" scan "$T/t.csv.gz" --target label --chunk-size 64K -j 3 -q \
+    --checkpoint "$T/a.ckpt" --checkpoint-every 256K -o "$T/a.sheaf" &&
+    ./sheaf scan "$T/t.csv.gz" --target label --chunk-size 64K -j 1 -q \
+        --checkpoint "$T/b.ckpt" --checkpoint-every 256K -o "$T/b.sheaf" &&
+    same checkpointed "$T/a.sheaf" "$T/b.sheaf"
 ./sheaf scan "$T/t.csv" --target label -q -o "$T/s.sheaf"
 tsan trim "$BIN" trim "$T/t.csv.gz" --summary "$T/s.sheaf" --chunk-size 64K -j 3 -q -o "$T/a.csv" &&
     ./sheaf trim "$T/t.csv.gz" --summary "$T/s.sheaf" --chunk-size 64K -j 1 -q -o "$T/b.csv" &&
