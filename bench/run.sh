@@ -18,7 +18,7 @@ results=bench/RESULTS.md
 rows=${BENCH_ROWS:-2000000}
 runs=${BENCH_RUNS:-5}
 sections=("$@")
-[ ${#sections[@]} -eq 0 ] && sections=(scan count target wide merge shard pca project threads)
+[ ${#sections[@]} -eq 0 ] && sections=(scan count target wide merge shard resume pca project threads)
 
 machine() {
     echo "- CPU: $(grep -m1 'model name' /proc/cpuinfo | cut -d: -f2 | sed 's/^ //'), $(nproc) cores"
@@ -319,6 +319,72 @@ compressed_forms() { # plain -> its gzip -6, igzip -1 and zstd (level 3) forms, 
     [ -s "$base.csv.zst" ] || { zstd -q -c "$plain" >"$base.tmp.zst"; mv "$base.tmp.zst" "$base.csv.zst"; }
 }
 
+section_resume() {
+    # A scan with checkpoints killed near 80% of the gzip -6 benchmark table
+    # and resumed (issue 16's target: the resume within 40% of a full scan),
+    # interleaved with the full scan without checkpoints, the same scan with
+    # them, and the resume the way it went before restart points (the file
+    # decompressed from its start). The checkpoint is taken once, by the test
+    # hook that stops a scan inside checkpoint N+1 and SIGKILL; each timed
+    # resume starts from a fresh copy of it (the copy, 4 MB, is in its time).
+    table_files
+    local plain=$out/bench-$rows.csv gz=$out/bench-$rows.gz6.csv.gz every=32 size n pid
+    compressed_forms "$plain"
+    size=$(stat -c %s "$plain")
+    n=$((size * 8 / 10 / (every << 20))) # the last checkpoint before 80%
+    local ck=$out/resume-kill.ckpt scan="./sheaf scan $gz --target label -q --checkpoint-every ${every}M"
+    rm -f "$ck" "$out/pause.txt"
+    SHEAF_TEST_CHECKPOINT_PAUSE=$((n + 1)) $scan --checkpoint "$ck" -o "$out/rk.sheaf" 2>"$out/pause.txt" &
+    pid=$!
+    until grep -q 'paused inside checkpoint' "$out/pause.txt" 2>/dev/null; do
+        kill -0 "$pid" 2>/dev/null || { echo "resume: the scan ended before checkpoint $((n + 1))" >&2; exit 1; }
+        sleep 0.05
+    done
+    kill -9 "$pid"; wait "$pid" 2>/dev/null || true
+    cp "$ck" "$out/resume-$n.ckpt"
+    local at
+    at=$(cp "$out/resume-$n.ckpt" "$out/rn.ckpt" && SHEAF_TEST_RESTART=note $scan --checkpoint "$out/rn.ckpt" \
+        --resume -o "$out/rn.sheaf" 2>&1 | sed -n 's/.*resumed at raw byte \([0-9]*\), decoded byte \([0-9]*\).*/\1 \2/p')
+    [ -n "$at" ] || { echo "resume: no restart point used" >&2; exit 1; }
+    local t=() j
+    for j in 1 "$(nproc)"; do
+        mapfile -t -O "${#t[@]}" t < <(interleaved "./sheaf scan $gz --target label -q -j$j -o $out/rp.sheaf" \
+            "$scan -j$j --checkpoint $out/rf.ckpt -o $out/rf.sheaf" \
+            "sh -c 'cp $out/resume-$n.ckpt $out/rr.ckpt && $scan -j$j --checkpoint $out/rr.ckpt --resume -o $out/rr.sheaf'" \
+            "env SHEAF_TEST_RESTART=off sh -c 'cp $out/resume-$n.ckpt $out/rz.ckpt && $scan -j$j --checkpoint $out/rz.ckpt --resume -o $out/rz.sheaf'")
+        for f in rr rz rn; do
+            cmp -s "$out/rf.sheaf" "$out/$f.sheaf" || { echo "resume: $f.sheaf differs from the uninterrupted scan's" >&2; exit 1; }
+        done
+    done
+    /usr/bin/python3 - "$size" "$(stat -c %s "$gz")" "$n" "$every" $at "$(nproc)" "${t[@]}" <<'PY' >"$out/resume.md"
+import sys
+size, gz, n, every, raw, dec, cores = (int(x) for x in sys.argv[1:8])
+t = [float(x) for x in sys.argv[8:16]]
+cut = n * (every << 20)
+print("## A resumed scan (issue 16)\n")
+print("The gzip -6 benchmark table (%.1f MB of CSV, %.1f MB gzip), `sheaf scan --target label"
+      " --checkpoint-every %dM`, killed with SIGKILL inside checkpoint %d (the test hook"
+      " `SHEAF_TEST_CHECKPOINT_PAUSE`), so that checkpoint %d, cut at about %.1f%% of the"
+      " decompressed bytes, is the one it resumes from. Its restart point (the gzip decoder's"
+      " state) is at decoded byte %d (%.1f%%), raw byte %d. Each thread count's four commands ran"
+      " interleaved, medians of the runs; each resume starts from a fresh copy of the checkpoint,"
+      " the copy timed with it. Every resumed summary equals the uninterrupted scan's, byte for"
+      " byte.\n" % (size / 1e6, gz / 1e6, every, n + 1, n, 100.0 * cut / size, dec, 100.0 * dec / size, raw))
+print("| what | threads | median s | / full scan, no checkpoints | / the same scan uninterrupted |")
+print("| --- | ---: | ---: | ---: | ---: |")
+verdict = []
+for k, j in enumerate([1, cores]):
+    plain, full, resumed, ffwd = t[4 * k: 4 * k + 4]
+    print("| full scan, no checkpoints | %d | %.3f | 1.00 | |" % (j, plain))
+    print("| full scan, checkpoint every %dM | %d | %.3f | %.2f | 1.00 |" % (every, j, full, full / plain))
+    print("| resumed at checkpoint %d, from its restart point | %d | %.3f | **%.0f%%** | %.0f%% |" % (n, j, resumed, 100 * resumed / plain, 100 * resumed / full))
+    print("| the same, restart points off (decompressed from byte 0) | %d | %.3f | %.0f%% | %.0f%% |" % (j, ffwd, 100 * ffwd / plain, 100 * ffwd / full))
+    verdict.append("-j%d: %.0f%% (%s)" % (j, 100 * resumed / plain, "PASS" if resumed <= 0.4 * plain else "MISS"))
+print("\nTarget: a scan killed at 80%% and resumed finishes within 40%% of a full scan; of the scan"
+      " without checkpoints: %s.\n" % "; ".join(verdict))
+PY
+}
+
 sqlengine_ready() { # the yardstick SQL engine's Node client, installed when missing
     if ! command -v node >/dev/null || ! command -v npm >/dev/null; then
         echo "threads: node and npm are needed: apt-get install nodejs npm" >&2
@@ -395,7 +461,7 @@ for s in "${sections[@]}"; do "section_$s"; done
     echo
     machine
     echo
-    for f in scan count target wide merge shard pca project threads; do
+    for f in scan count target wide merge shard resume pca project threads; do
         [ -s "$out/$f.md" ] && cat "$out/$f.md"
     done
     [ -s bench/threads-notes.md ] && cat bench/threads-notes.md
