@@ -190,17 +190,24 @@ checkpoint_status checkpoint_write(const char *path, const checkpoint *c,
     *reread = NULL;
     size_t n = c->done->n;
     uint64_t *part_len = calloc(n, sizeof *part_len);
-    if (!part_len) { snprintf(err, errlen, "out of memory"); return CHECKPOINT_MEMORY; }
     tempfile t;
-    if (tempfile_open(&t, path, TEMPFILE_SEEKABLE, err, errlen) != 0) {
-        free(part_len);
-        return errno == ENOMEM ? CHECKPOINT_MEMORY : CHECKPOINT_IO;
-    }
-    if (add_open_source(c->done, c) != 0) {
-        free(part_len);
+    checkpoint_status early = CHECKPOINT_OK;
+    if (!part_len) {
+        snprintf(err, errlen, "out of memory");
+        early = CHECKPOINT_MEMORY;
+    } else if (tempfile_open(&t, path, TEMPFILE_SEEKABLE, err, errlen) != 0) {
+        early = errno == ENOMEM ? CHECKPOINT_MEMORY : CHECKPOINT_IO;
+    } else if (add_open_source(c->done, c) != 0) {
         tempfile_discard(&t);
         snprintf(err, errlen, "out of memory");
-        return CHECKPOINT_MEMORY;
+        early = CHECKPOINT_MEMORY;
+    }
+    if (early != CHECKPOINT_OK) {
+        int saved = errno;
+        free(part_len);
+        if (c->drop_done) summary_set_free(c->done);
+        errno = saved;
+        return early;
     }
     /* The header's part lengths are known once the parts are written: a
      * first header with zeros keeps its size, then it is written again. */
@@ -239,6 +246,7 @@ checkpoint_status checkpoint_write(const char *path, const checkpoint *c,
     }
     wire_writer_free(&w);
     drop_open_source(c->done);
+    if (c->drop_done) summary_set_free(c->done); /* the bytes hold it now */
     if (rc == 0 && pause) pause(pause_ctx, c->number);
     uint64_t all;
     if (rc == 0 && summary_hash_region(t.fd, 0, pos, &all) == 0) {

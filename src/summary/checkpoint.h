@@ -73,6 +73,8 @@ typedef struct {
     void *restart_hash;     /* the decoded prefix hash at the point (scan_segments.c), or NULL */
     size_t restart_hash_len; /* its bytes */
     summary_set *done;      /* the finished segments, merged (owned) */
+    int drop_done;          /* checkpoint_write: free done once its bytes are written, before
+                               they are read back (success or failure: done is gone after) */
 } checkpoint;
 
 typedef enum {
@@ -89,7 +91,8 @@ typedef enum {
  * summary does not depend on them.  malloc'd; NULL when out of memory. */
 char *checkpoint_options_text(const scan_options *o);
 
-/* Writes c to path atomically (c->done is left as it was).  `pause` (may be NULL) is called once the
+/* Writes c to path atomically (c->done is left as it was, or freed with
+ * c->drop_done).  `pause` (may be NULL) is called once the
  * parts are written and before the trailer and the link (a test hook).
  * On success *reread holds c->done decoded back from the bytes written, so
  * that a scan continues from exactly what the file holds.  CHECKPOINT_OK,

@@ -113,17 +113,18 @@ static void cut_work(scan_cut_job *j)
         snprintf(j->err, sizeof j->err, "joining the scan's segments: %s", why);
         return;
     }
+    /* The merged summaries go once written: the copy read back replaces
+     * them, and the two are never held at once. */
     j->c.done = j->done;
-    summary_set *reread;
+    j->c.drop_done = 1;
+    j->done = NULL;
     checkpoint_status cs = checkpoint_write(j->o->checkpoint, &j->c, j->o->checkpoint_pause,
-                                            j->o->checkpoint_pause_ctx, &reread, why, sizeof why);
+                                            j->o->checkpoint_pause_ctx, &j->done, why, sizeof why);
+    j->c.done = NULL;
     if (cs != CHECKPOINT_OK) {
         j->failed = cs == CHECKPOINT_MEMORY ? SCAN_ERR_MEMORY : SCAN_ERR_WRITE;
         snprintf(j->err, sizeof j->err, "%s", why);
-        return;
     }
-    summary_set_free(j->done);
-    j->done = reread;
 }
 
 static void *cut_thread(void *arg)
