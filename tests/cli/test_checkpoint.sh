@@ -10,7 +10,8 @@
 # does not match (an appended byte, another mtime, a finished file or the
 # consumed prefix changed in place, other options, other files), a damaged
 # or truncated one, and --resume without one are refused with one line and
-# the documented exit code.  The resumed summary's price mean is checked
+# the documented exit code; so is a checkpoint a full file system cannot
+# take, at one thread and at two.  The resumed summary's price mean is checked
 # against pandas (Debian python3-pandas), the outside reference.
 set -u
 cd "$(dirname "$0")/../.." || exit 1
@@ -264,3 +265,21 @@ printf 'a,b\n1,2\n3,4\n' >"$T/short.csv"
 run "$SHEAF" scan "$T/short.csv" --checkpoint "$T/short.ck" -o "$T/short.sheaf"
 check checkpoint.shorter_than_an_interval "exit $RC, stderr: $(err_text)" \
     test "$RC" -eq 0 -a ! -s "$T/err" -a ! -e "$T/short.ck" -a -s "$T/short.sheaf"
+
+# A checkpoint that cannot be written (a full file system: a 64 KiB tmpfs,
+# when this user may mount one) stops the scan with one line naming it and
+# exit 1, at one thread and at two (where checkpoints are written on a
+# thread of their own while the scan goes on): no summary, nothing left
+# on the full file system.
+mkdir -p "$T/fullfs"
+if mount -t tmpfs -o size=64k tmpfs "$T/fullfs" 2>/dev/null; then
+    for j in 1 2; do
+        refused "full_disk_j$j" 1 "fullfs/x.ck: cannot write the checkpoint: No space left on device" \
+            "$T/c.csv" "${EVERY[@]}" -j "$j" --checkpoint "$T/fullfs/x.ck"
+        left=$(ls -A "$T/fullfs")
+        check "checkpoint.full_disk_j${j}_leaves_nothing" "left: $left" test -z "$left"
+    done
+    umount "$T/fullfs"
+else
+    skip checkpoint.full_disk "cannot mount a tmpfs here"
+fi
