@@ -419,8 +419,10 @@ section_threads() {
         "node bench/sqlengine/query.mjs correlations $gz6 2"
     )
     local -a t
-    mapfile -t t < <(interleaved "${cmds[@]}")
+    mapfile -t t < <(INTERLEAVE_CPU=$out/threads-cpu.txt interleaved "${cmds[@]}")
     [ ${#t[@]} -eq ${#cmds[@]} ] || { echo "threads: interleave.py gave ${#t[@]} times for ${#cmds[@]} commands" >&2; return 1; }
+    local -a c
+    mapfile -t c <"$out/threads-cpu.txt"
     local half=$out/bench-$((rows / 2)).csv
     local m_j2 m_j2_half m_j1 m_j2_gz m_pandas m_sql_agg m_sql_corr
     m_j2=$(peak_kb $scan "$plain" $tl -o "$out/m.sheaf" -j2)
@@ -447,6 +449,8 @@ section_threads() {
         t_plain_j1="${t[3]}" t_plain_j2="${t[4]}" t_gz6_j1="${t[5]}" t_gz6_j2="${t[6]}" \
         t_igz1_j1="${t[7]}" t_igz1_j2="${t[8]}" t_zst_j1="${t[9]}" t_zst_j2="${t[10]}" \
         t_pandas="${t[11]}" t_sql_agg="${t[12]}" t_sql_corr="${t[13]}" \
+        c_plain_j1="${c[3]}" c_plain_j2="${c[4]}" c_gz6_j1="${c[5]}" c_gz6_j2="${c[6]}" \
+        c_igz1_j1="${c[7]}" c_igz1_j2="${c[8]}" c_zst_j1="${c[9]}" c_zst_j2="${c[10]}" \
         m_j2="$m_j2" m_j2_half="$m_j2_half" m_j1="$m_j1" m_j2_gz="$m_j2_gz" m_pandas="$m_pandas" \
         m_sql_agg="$m_sql_agg" m_sql_corr="$m_sql_corr" \
         t_wide_j1="$w1" t_wide_j2="$w2" m_wide_j1="$m_w1" m_wide_j2="$m_w2" >"$out/threads.md"
