@@ -143,12 +143,19 @@ static void cut_job_free(scan_cut_job *j)
     free(j);
 }
 
-scan_status scan_cut_join(scan_context *sc)
+/* The cut job, taken from the scan once it has ended, or NULL. */
+static scan_cut_job *cut_wait(scan_context *sc)
 {
     scan_cut_job *j = sc->cut_job;
-    if (!j) return SCAN_OK;
     sc->cut_job = NULL;
-    if (j->threaded) pthread_join(j->thread, NULL);
+    if (j && j->threaded) pthread_join(j->thread, NULL);
+    return j;
+}
+
+scan_status scan_cut_join(scan_context *sc)
+{
+    scan_cut_job *j = cut_wait(sc);
+    if (!j) return SCAN_OK;
     scan_status st = j->failed;
     if (st != SCAN_OK) {
         if (sc->failed == SCAN_OK) scan_fail(sc, st, j->err);
@@ -162,11 +169,8 @@ scan_status scan_cut_join(scan_context *sc)
 
 void scan_cut_drop(scan_context *sc)
 {
-    scan_cut_job *j = sc->cut_job;
-    if (!j) return;
-    sc->cut_job = NULL;
-    if (j->threaded) pthread_join(j->thread, NULL);
-    cut_job_free(j);
+    scan_cut_job *j = cut_wait(sc);
+    if (j) cut_job_free(j);
 }
 
 /* Starts j on a thread of its own with every signal blocked there (they go
