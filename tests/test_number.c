@@ -579,6 +579,72 @@ __attribute__((target("ssse3"))) static number_kind parse_padded(const char *s, 
 }
 #endif
 
+#if defined(NUMBER_SIMD)
+__attribute__((target("ssse3"))) static int plain_padded(const char *s, size_t len, uint64_t *m,
+                                                         int32_t *e, int *negative)
+{
+    return number_plain_ssse3(s, len, m, e, negative);
+}
+#endif
+
+Test(number, plain_cells_read_as_number_parse_reads_them)
+{
+    /* The scan's common-cell path (number_plain_ssse3, then one operation
+     * by the power of ten) must give number_parse's mantissa, power, sign and
+     * value for every cell it takes, and take every "[-]digits[.digits]"
+     * cell of 1 to 16 bytes after the sign that is not zero.  Cells of every
+     * shape, junk after them as in a padded chunk. */
+#if !defined(NUMBER_SIMD)
+    cr_skip_test("no SIMD parser on this platform");
+#else
+    if (!number_simd_usable()) cr_skip_test("this CPU has no SSSE3");
+    static const char alphabet[] = "0123456789012345678900.-+eE x";
+    uint64_t state = UINT64_C(0x2545f4914f6cdd1d);
+    char buf[24 + NUMBER_READ_AHEAD + 1];
+    long taken = 0;
+    for (int i = 0; i < 1000000; i++) {
+        uint64_t r = xorshift64(&state);
+        size_t len = (size_t)(r % 21);
+        int shape = (int)((r >> 8) % 4);
+        for (size_t j = 0; j < sizeof buf; j++) {
+            uint64_t c = xorshift64(&state);
+            buf[j] = shape == 0 ? alphabet[c % (sizeof alphabet - 1)] : (char)('0' + c % 10);
+        }
+        if (shape >= 2 && len > 1) buf[(r >> 16) % len] = '.';
+        if (shape == 3 && len > 3) buf[len - 1 - (r >> 24) % 3] = 'e';
+        if ((r >> 40) & 1 && len) buf[0] = '-';
+        /* Is it a plain cell?  [-]digits[.digits], 1..16 bytes after the
+         * sign, some digit, at most one point, not all zeros. */
+        size_t at = len && buf[0] == '-', points = 0, digits = 0, nonzero = 0, other = 0;
+        for (size_t j = at; j < len; j++) {
+            if (buf[j] == '.') points++;
+            else if (buf[j] >= '0' && buf[j] <= '9') digits++, nonzero += buf[j] != '0';
+            else other++;
+        }
+        int plain = len - at >= 1 && len - at <= 16 && !other && points <= 1 && digits && nonzero;
+        uint64_t m = 0;
+        int32_t e = 0;
+        int neg = 0;
+        int got = plain_padded(buf, len, &m, &e, &neg);
+        cr_assert_eq(got == 0, plain, "\"%.*s\": plain %d, taken %d", (int)len, buf, plain,
+                     got == 0);
+        if (got != 0) continue;
+        taken++;
+        number_decimal a;
+        cr_assert_eq(number_parse(buf, len, &a), NUMBER_FINITE, "\"%.*s\"", (int)len, buf);
+        cr_assert(a.exact && a.mantissa == m && a.exp10 == e && a.negative == neg,
+                  "\"%.*s\": %llu e%d vs %llu e%d", (int)len, buf, (unsigned long long)a.mantissa,
+                  a.exp10, (unsigned long long)m, e);
+        if ((m >> 52) == 0) { /* the value the scan forms from it */
+            double v = e < 0 ? (double)m / number_pow10[-e] : (double)m * number_pow10[e];
+            if (neg) v = -v;
+            cr_assert_eq(bits_of(v), bits_of(a.value), "\"%.*s\"", (int)len, buf);
+        }
+    }
+    cr_assert_gt(taken, 200000, "only %ld plain cells", taken);
+#endif
+}
+
 Test(number, padded_parser_equals_number_parse)
 {
     /* The parser for padded cells (SIMD where the CPU allows) must agree

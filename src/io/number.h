@@ -125,7 +125,8 @@ static inline double number_deviation(const number_decimal *a, const number_ref 
             return a->exp10 < 0 ? d / number_pow10[-a->exp10] : d * number_pow10[a->exp10];
         }
     }
-    return number_difference(a, &r->dec, NULL);
+    number_decimal copy = *a; /* a's address stays with the caller (its registers) */
+    return number_difference(&copy, &r->dec, NULL);
 }
 
 #endif

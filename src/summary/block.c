@@ -388,76 +388,140 @@ static void keep_example(summary_column *c, const char *p, uint32_t len)
     c->n_examples++;
 }
 
-/* The numbers of a lane's cells: parse (an expression of text, length and
- * &d giving a number_kind) for each cell, then a finite number becomes a
+/* The numbers of a lane's cells.  Each cell is parsed (an expression of
+ * text, length and &d giving a number_kind), then a finite number becomes a
  * deviation from the column's reference decimal (number_deviation, on the
  * reference unpacked in the lane; the first number sets the reference,
- * through number_frame).  A macro, so that the SSSE3 variant below
- * inlines its parser. */
-#define DECODE_NUMBERS(parse)                                                                  \
-    do {                                                                                       \
+ * through number_frame).
+ *
+ * The common cell (plain digits at the reference's power of ten: `plain`
+ * reads it) is done in a tight loop with the reference in locals: its value
+ * (Clinger's one operation, exact as m < 2^52 and |e| <= 22) and its
+ * deviation are those of the general path, the same operations on the same
+ * operands.  Any other cell goes to the general path, a function of its own
+ * (DECODE_CELL) so that the loop keeps its registers.  Macros, so that the
+ * SSSE3 and x86-64-v3 variants below inline their parsers. */
+#define DECODE_CELL(name, parse, decimals, attr)                                               \
+    attr __attribute__((noinline)) static void name(summary_column *c, block_lane *l, size_t i) \
+    {                                                                                          \
         size_t nnum = l->nnum;                                                                 \
-        for (size_t i = 0; i < n; i++) {                                                       \
-            number_decimal d;                                                                  \
-            switch (parse(l->text[i], l->len[i], &d)) {                                        \
-            case NUMBER_FINITE: {                                                              \
-                if (!l->ref_set) {                                                             \
-                    if (!c->mom.has_ref) {                                                     \
-                        number_decimal frame;                                                  \
-                        number_frame(&d, &frame);                                              \
-                        moments_set_ref(&c->mom, &frame);                                      \
-                    }                                                                          \
-                    number_ref_set(&l->ref, &c->mom.ref);                                      \
-                    l->ref_set = 1;                                                            \
+        number_decimal d;                                                                      \
+        switch (parse(l->text[i], l->len[i], &d)) {                                           \
+        case NUMBER_FINITE: {                                                                  \
+            if (!l->ref_set) {                                                                 \
+                if (!c->mom.has_ref) {                                                         \
+                    number_decimal frame;                                                      \
+                    number_frame(&d, &frame);                                                  \
+                    moments_set_ref(&c->mom, &frame);                                          \
                 }                                                                              \
-                l->dev[nnum] = number_deviation(&d, &l->ref);                                  \
-                l->val[nnum] = d.value;                                                        \
-                if (decimals) { /* an int64 mantissa, or inexact for the pair sums */      \
-                    int whole = d.exact && (d.mantissa >> 63) == 0;                            \
-                    int64_t m = whole ? (int64_t)d.mantissa : 0;                               \
-                    l->num_mant[nnum] = d.negative ? -m : m;                                   \
-                    l->num_exp[nnum] = whole ? d.exp10 : BLOCK_INEXACT;                        \
+                number_ref_set(&l->ref, &c->mom.ref);                                          \
+                l->ref_set = 1;                                                                \
+            }                                                                                  \
+            l->dev[nnum] = number_deviation(&d, &l->ref);                                      \
+            l->val[nnum] = d.value;                                                            \
+            if (decimals) { /* an int64 mantissa, or inexact for the pair sums */          \
+                int whole = d.exact && (d.mantissa >> 63) == 0;                                \
+                int64_t m = whole ? (int64_t)d.mantissa : 0;                                   \
+                l->num_mant[nnum] = d.negative ? -m : m;                                       \
+                l->num_exp[nnum] = whole ? d.exp10 : BLOCK_INEXACT;                            \
+            }                                                                                  \
+            l->num_row[nnum] = l->cell_row[i];                                                 \
+            l->nnum = nnum + 1;                                                                \
+            break;                                                                             \
+        }                                                                                      \
+        case NUMBER_NONFINITE: c->non_finite++; break;                                         \
+        default:                                                                               \
+            c->non_numeric++;                                                                  \
+            keep_example(c, l->text[i], l->len[i]);                                            \
+        }                                                                                      \
+    }
+
+#define DECODE_NUMBERS(plain, cell, decimals)                                                  \
+    do {                                                                                       \
+        const char *const *text = (const char *const *)l->text;                               \
+        const uint32_t *len = l->len;                                                          \
+        const uint16_t *cell_row = l->cell_row;                                                \
+        double *dev = l->dev, *val = l->val;                                                   \
+        uint16_t *num_row = l->num_row;                                                        \
+        int64_t *num_mant = l->num_mant;                                                       \
+        int32_t *num_exp = l->num_exp;                                                         \
+        size_t nnum = l->nnum;                                                                 \
+        for (size_t i = 0; i < n;) {                                                           \
+            /* The reference in locals; a power of ten no cell has until   \
+             * it is set and fast. */                                        \
+            int32_t ref_exp = l->ref_set && l->ref.fast ? l->ref.exp10 : INT32_MIN;            \
+            const int64_t ref_m = l->ref.signed_m;                                             \
+            const double ref_scale = l->ref.scale;                                             \
+            const int ref_divide = l->ref.divide;                                              \
+            for (; i < n; i++) {                                                               \
+                uint64_t pm;                                                                   \
+                int32_t pe;                                                                    \
+                int pneg;                                                                      \
+                if (plain(text[i], len[i], &pm, &pe, &pneg) != 0 || pe != ref_exp ||           \
+                    (pm >> 52) != 0)                                                           \
+                    break;                                                                     \
+                int64_t x = pneg ? -(int64_t)pm : (int64_t)pm;                                 \
+                double dd = (double)(x - ref_m), v = (double)pm;                               \
+                if (ref_divide) {                                                              \
+                    dd = dd / ref_scale;                                                       \
+                    v = v / ref_scale;                                                         \
+                } else {                                                                       \
+                    dd = dd * ref_scale;                                                       \
+                    v = v * ref_scale;                                                         \
                 }                                                                              \
-                l->num_row[nnum] = l->cell_row[i];                                             \
+                dev[nnum] = dd;                                                                \
+                val[nnum] = pneg ? -v : v;                                                     \
+                if (decimals) {                                                                \
+                    num_mant[nnum] = x;                                                        \
+                    num_exp[nnum] = pe;                                                        \
+                }                                                                              \
+                num_row[nnum] = cell_row[i];                                                   \
                 nnum++;                                                                        \
-                break;                                                                         \
             }                                                                                  \
-            case NUMBER_NONFINITE: c->non_finite++; break;                                     \
-            default:                                                                           \
-                c->non_numeric++;                                                              \
-                keep_example(c, l->text[i], l->len[i]);                                        \
-            }                                                                                  \
+            if (i == n) break;                                                                 \
+            l->nnum = nnum;                                                                    \
+            cell(c, l, i++);                                                                   \
+            nnum = l->nnum;                                                                    \
         }                                                                                      \
         l->nnum = nnum;                                                                        \
     } while (0)
 
+/* No common-cell path for the scalar parser (it folds away). */
+static inline int no_plain(const char *s, size_t len, uint64_t *m, int32_t *e, int *negative)
+{
+    (void)s, (void)len, (void)m, (void)e, (void)negative;
+    return -1;
+}
+
+DECODE_CELL(number_cell, number_parse, 0, )
+DECODE_CELL(decimal_cell, number_parse, 1, )
+
 /* `decimals` is a constant in each instance below, so the test folds away. */
 static void decode_numbers(summary_column *c, block_lane *l, size_t n)
 {
-    const int decimals = 0;
-    DECODE_NUMBERS(number_parse);
+    DECODE_NUMBERS(no_plain, number_cell, 0);
 }
 
 static void decode_decimals(summary_column *c, block_lane *l, size_t n)
 {
-    const int decimals = 1;
-    DECODE_NUMBERS(number_parse);
+    DECODE_NUMBERS(no_plain, decimal_cell, 1);
 }
 
 #if defined(NUMBER_SIMD)
 /* Cells sit in padded chunks, so the SIMD parser may read past them. */
+DECODE_CELL(number_cell_ssse3, number_parse_padded, 0, __attribute__((target("ssse3"))))
+DECODE_CELL(decimal_cell_ssse3, number_parse_padded, 1, __attribute__((target("ssse3"))))
+
 __attribute__((target("ssse3"))) static void decode_numbers_ssse3(summary_column *c, block_lane *l,
                                                                   size_t n)
 {
-    const int decimals = 0;
-    DECODE_NUMBERS(number_parse_padded);
+    DECODE_NUMBERS(number_plain_ssse3, number_cell_ssse3, 0);
 }
 
 __attribute__((target("ssse3"))) static void decode_decimals_ssse3(summary_column *c,
                                                                    block_lane *l, size_t n)
 {
-    const int decimals = 1;
-    DECODE_NUMBERS(number_parse_padded);
+    DECODE_NUMBERS(number_plain_ssse3, decimal_cell_ssse3, 1);
 }
 
 #if defined(SHEAF_HAVE_CLONES)
@@ -466,15 +530,13 @@ __attribute__((target("ssse3"))) static void decode_decimals_ssse3(summary_colum
 __attribute__((target("arch=x86-64-v3"))) static void decode_numbers_v3(summary_column *c,
                                                                        block_lane *l, size_t n)
 {
-    const int decimals = 0;
-    DECODE_NUMBERS(number_parse_padded);
+    DECODE_NUMBERS(number_plain_ssse3, number_cell_ssse3, 0);
 }
 
 __attribute__((target("arch=x86-64-v3"))) static void decode_decimals_v3(summary_column *c,
                                                                         block_lane *l, size_t n)
 {
-    const int decimals = 1;
-    DECODE_NUMBERS(number_parse_padded);
+    DECODE_NUMBERS(number_plain_ssse3, decimal_cell_ssse3, 1);
 }
 #endif
 #endif
