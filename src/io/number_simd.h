@@ -113,52 +113,6 @@ number_parse_ssse3(const char *s, size_t len, number_decimal *out)
     return 0;
 }
 
-/* The common cell of a decimal column, for a caller that needs no more:
- * "[-]digits[.digits]" of 1 to 16 bytes after the sign, not zero.  Sets
- * *m, *e and *negative to what number_parse_ssse3 gives its mantissa,
- * power of ten and sign, and returns 0; returns -1 for any other cell
- * (with an exponent, longer, zero, or not a number: number_parse_padded
- * reads those).  No double is formed: a caller that knows the power of
- * ten forms it with one operation. */
-static inline __attribute__((always_inline, target("ssse3"))) int
-number_plain_ssse3(const char *s, size_t len, uint64_t *m, int32_t *e, int *negative)
-{
-    const unsigned char *q = (const unsigned char *)s;
-    int neg = len && *q == '-';
-    q += neg;
-    size_t n = len - (size_t)neg;
-    if (n - 1 >= 16) return -1;
-    const __m128i v = _mm_loadu_si128((const __m128i *)(const void *)q);
-    const __m128i t = _mm_sub_epi8(v, _mm_set1_epi8('0'));
-    const __m128i digit = _mm_cmpeq_epi8(_mm_min_epu8(t, _mm_set1_epi8(9)), t);
-    uint32_t other = ((UINT32_C(1) << n) - 1) & ~(uint32_t)_mm_movemask_epi8(digit);
-    unsigned digits = (unsigned)n, point = 16;
-    int32_t exp10 = 0;
-    if (other) { /* one '.', and nothing else but digits */
-        point = (unsigned)__builtin_ctz(other);
-        if (q[point] != '.' || (other & (other - 1)) || n == 1) return -1;
-        digits = (unsigned)n - 1;
-        exp10 = -(int32_t)(n - point - 1);
-    }
-    const __m128i iota = _mm_setr_epi8(0, 1, 2, 3, 4, 5, 6, 7, 8, 9, 10, 11, 12, 13, 14, 15);
-    __m128i idx = _mm_add_epi8(iota, _mm_set1_epi8((char)((int)digits - 16)));
-    idx = _mm_sub_epi8(idx, _mm_cmpgt_epi8(idx, _mm_set1_epi8((char)((int)point - 1))));
-    __m128i d = _mm_shuffle_epi8(t, idx);
-    __m128i pairs = _mm_maddubs_epi16(d, _mm_setr_epi8(10, 1, 10, 1, 10, 1, 10, 1, 10, 1, 10, 1,
-                                                        10, 1, 10, 1));
-    __m128i quads = _mm_madd_epi16(pairs, _mm_setr_epi16(100, 1, 100, 1, 100, 1, 100, 1));
-    quads = _mm_packs_epi32(quads, quads);
-    __m128i octets = _mm_madd_epi16(quads, _mm_setr_epi16(10000, 1, 10000, 1, 10000, 1, 10000, 1));
-    uint64_t hi = (uint32_t)_mm_cvtsi128_si32(octets);
-    uint64_t lo = (uint32_t)_mm_cvtsi128_si32(_mm_srli_si128(octets, 4));
-    uint64_t mant = hi * 100000000u + lo;
-    if (mant == 0) return -1;
-    *m = mant;
-    *e = exp10;
-    *negative = neg;
-    return 0;
-}
-
 /* number_parse for a cell with NUMBER_READ_AHEAD readable bytes after it:
  * number_parse_ssse3, and number_parse for whatever that does not read. */
 static inline __attribute__((always_inline, target("ssse3"))) number_kind

@@ -394,13 +394,14 @@ static void keep_example(summary_column *c, const char *p, uint32_t len)
  * reference unpacked in the lane; the first number sets the reference,
  * through number_frame).
  *
- * The common cell (plain digits at the reference's power of ten: `plain`
- * reads it) is done in a tight loop with the reference in locals: its value
- * (Clinger's one operation, exact as m < 2^52 and |e| <= 22) and its
- * deviation are those of the general path, the same operations on the same
- * operands.  Any other cell goes to the general path, a function of its own
- * (DECODE_CELL) so that the loop keeps its registers.  Macros, so that the
- * SSSE3 and x86-64-v3 variants below inline their parsers. */
+ * The common cell (one the SIMD parser reads whole, whose deviation is one
+ * of number_deviation's exact cases) is done in a tight loop with the
+ * reference in locals: the same operations on the same operands as the
+ * general path, so the same numbers (tests/cli/test_clones.sh compares the
+ * summaries with those of the scalar path, SHEAF_TEST_SCALAR_DECODE).  Any
+ * other cell goes to the general path, a function of its own (DECODE_CELL),
+ * so that the loop keeps its registers.  Macros, so that the SSSE3 and
+ * x86-64-v3 variants below inline their parsers. */
 #define DECODE_CELL(name, parse, decimals, attr)                                               \
     attr __attribute__((noinline)) static void name(summary_column *c, block_lane *l, size_t i) \
     {                                                                                          \
@@ -436,7 +437,7 @@ static void keep_example(summary_column *c, const char *p, uint32_t len)
         }                                                                                      \
     }
 
-#define DECODE_NUMBERS(plain, cell, decimals)                                                  \
+#define DECODE_NUMBERS(quick, cell, decimals)                                                  \
     do {                                                                                       \
         const char *const *text = (const char *const *)l->text;                               \
         const uint32_t *len = l->len;                                                          \
@@ -447,38 +448,45 @@ static void keep_example(summary_column *c, const char *p, uint32_t len)
         int32_t *num_exp = l->num_exp;                                                         \
         size_t nnum = l->nnum;                                                                 \
         for (size_t i = 0; i < n;) {                                                           \
-            /* The reference in locals; a power of ten no cell has until   \
-             * it is set and fast. */                                        \
-            int32_t ref_exp = l->ref_set && l->ref.fast ? l->ref.exp10 : INT32_MIN;            \
+            /* The reference in locals, while it is unset or not fast: no   \
+             * cell takes the loop. */                                       \
+            if (!l->ref_set || !l->ref.fast) goto general;                                     \
+            const int32_t ref_exp = l->ref.exp10;                                              \
             const int64_t ref_m = l->ref.signed_m;                                             \
+            const uint64_t ref_mant = l->ref.dec.mantissa;                                     \
             const double ref_scale = l->ref.scale;                                             \
             const int ref_divide = l->ref.divide;                                              \
             for (; i < n; i++) {                                                               \
-                uint64_t pm;                                                                   \
-                int32_t pe;                                                                    \
-                int pneg;                                                                      \
-                if (plain(text[i], len[i], &pm, &pe, &pneg) != 0 || pe != ref_exp ||           \
-                    (pm >> 52) != 0)                                                           \
-                    break;                                                                     \
-                int64_t x = pneg ? -(int64_t)pm : (int64_t)pm;                                 \
-                double dd = (double)(x - ref_m), v = (double)pm;                               \
-                if (ref_divide) {                                                              \
-                    dd = dd / ref_scale;                                                       \
-                    v = v / ref_scale;                                                         \
+                number_decimal d;                                                              \
+                if (quick(text[i], len[i], &d) != 0 || (d.mantissa >> 52) != 0) break;         \
+                /* number_deviation's three exact cases, on its operands */  \
+                int64_t x = d.negative ? -(int64_t)d.mantissa : (int64_t)d.mantissa;           \
+                int32_t k = d.exp10 - ref_exp;                                                 \
+                double dd;                                                                     \
+                if (k == 0) {                                                                  \
+                    dd = (double)(x - ref_m);                                                  \
+                    dd = ref_divide ? dd / ref_scale : dd * ref_scale;                         \
+                } else if (k > 0 && k < 16 && d.mantissa <= number_below52[k]) {               \
+                    dd = (double)(x * number_pow10_i64[k] - ref_m);                            \
+                    dd = ref_divide ? dd / ref_scale : dd * ref_scale;                         \
+                } else if (k < 0 && k > -16 && ref_mant <= number_below52[-k] &&               \
+                           d.exp10 >= -22) {                                                   \
+                    dd = (double)(x - ref_m * number_pow10_i64[-k]);                           \
+                    dd = d.exp10 < 0 ? dd / number_pow10[-d.exp10] : dd * number_pow10[d.exp10]; \
                 } else {                                                                       \
-                    dd = dd * ref_scale;                                                       \
-                    v = v * ref_scale;                                                         \
+                    break;                                                                     \
                 }                                                                              \
                 dev[nnum] = dd;                                                                \
-                val[nnum] = pneg ? -v : v;                                                     \
+                val[nnum] = d.value;                                                           \
                 if (decimals) {                                                                \
                     num_mant[nnum] = x;                                                        \
-                    num_exp[nnum] = pe;                                                        \
+                    num_exp[nnum] = d.exp10;                                                   \
                 }                                                                              \
                 num_row[nnum] = cell_row[i];                                                   \
                 nnum++;                                                                        \
             }                                                                                  \
             if (i == n) break;                                                                 \
+        general:                                                                               \
             l->nnum = nnum;                                                                    \
             cell(c, l, i++);                                                                   \
             nnum = l->nnum;                                                                    \
@@ -486,10 +494,10 @@ static void keep_example(summary_column *c, const char *p, uint32_t len)
         l->nnum = nnum;                                                                        \
     } while (0)
 
-/* No common-cell path for the scalar parser (it folds away). */
-static inline int no_plain(const char *s, size_t len, uint64_t *m, int32_t *e, int *negative)
+/* No quick path for the scalar parser (it folds away). */
+static inline int no_quick(const char *s, size_t len, number_decimal *d)
 {
-    (void)s, (void)len, (void)m, (void)e, (void)negative;
+    (void)s, (void)len, (void)d;
     return -1;
 }
 
@@ -499,12 +507,12 @@ DECODE_CELL(decimal_cell, number_parse, 1, )
 /* `decimals` is a constant in each instance below, so the test folds away. */
 static void decode_numbers(summary_column *c, block_lane *l, size_t n)
 {
-    DECODE_NUMBERS(no_plain, number_cell, 0);
+    DECODE_NUMBERS(no_quick, number_cell, 0);
 }
 
 static void decode_decimals(summary_column *c, block_lane *l, size_t n)
 {
-    DECODE_NUMBERS(no_plain, decimal_cell, 1);
+    DECODE_NUMBERS(no_quick, decimal_cell, 1);
 }
 
 #if defined(NUMBER_SIMD)
@@ -515,13 +523,13 @@ DECODE_CELL(decimal_cell_ssse3, number_parse_padded, 1, __attribute__((target("s
 __attribute__((target("ssse3"))) static void decode_numbers_ssse3(summary_column *c, block_lane *l,
                                                                   size_t n)
 {
-    DECODE_NUMBERS(number_plain_ssse3, number_cell_ssse3, 0);
+    DECODE_NUMBERS(number_parse_ssse3, number_cell_ssse3, 0);
 }
 
 __attribute__((target("ssse3"))) static void decode_decimals_ssse3(summary_column *c,
                                                                    block_lane *l, size_t n)
 {
-    DECODE_NUMBERS(number_plain_ssse3, decimal_cell_ssse3, 1);
+    DECODE_NUMBERS(number_parse_ssse3, decimal_cell_ssse3, 1);
 }
 
 #if defined(SHEAF_HAVE_CLONES)
@@ -530,13 +538,13 @@ __attribute__((target("ssse3"))) static void decode_decimals_ssse3(summary_colum
 __attribute__((target("arch=x86-64-v3"))) static void decode_numbers_v3(summary_column *c,
                                                                        block_lane *l, size_t n)
 {
-    DECODE_NUMBERS(number_plain_ssse3, number_cell_ssse3, 0);
+    DECODE_NUMBERS(number_parse_ssse3, number_cell_ssse3, 0);
 }
 
 __attribute__((target("arch=x86-64-v3"))) static void decode_decimals_v3(summary_column *c,
                                                                         block_lane *l, size_t n)
 {
-    DECODE_NUMBERS(number_plain_ssse3, decimal_cell_ssse3, 1);
+    DECODE_NUMBERS(number_parse_ssse3, decimal_cell_ssse3, 1);
 }
 #endif
 #endif

@@ -414,7 +414,9 @@ chunks *chunks_create(const chunks_options *o)
     w->run = o->runs[0];
     w->ncols = w->run->ncols;
     w->ncomo = w->run->ncomo;
-    w->simd = number_simd_usable();
+    /* SHEAF_TEST_SCALAR_DECODE (tests only; not in --help): the scalar
+     * parser for every cell, to compare summaries with the SIMD path's. */
+    w->simd = number_simd_usable() && !getenv("SHEAF_TEST_SCALAR_DECODE");
     w->kept_fields = 1;
     for (size_t c = 0; c < w->ncols; c++)
         if ((size_t)o->field_of[c] + 1 > w->kept_fields) w->kept_fields = (size_t)o->field_of[c] + 1;
