@@ -274,9 +274,11 @@ replay-build: $(REPLAY_BIN)
 
 # Long fuzzing: each harness's corpus replayed, then FUZZ_SECONDS (default
 # 900) of libFuzzer per harness with a random seed.  FUZZ_ONLY=NAME... picks
-# harnesses.
+# harnesses.  Exits non-zero when a line says FAIL (build/fuzz-run.log).
 fuzz: deps-check
-	@FUZZ_SECONDS=$(FUZZ_SECONDS) FUZZ_ONLY="$(FUZZ_ONLY)" bash tests/cli/test_fuzz_bounded.sh
+	@mkdir -p build; FUZZ_SECONDS=$(FUZZ_SECONDS) FUZZ_ONLY="$(FUZZ_ONLY)" \
+	    bash tests/cli/test_fuzz_bounded.sh | tee build/fuzz-run.log; \
+	    ! grep -q '^FAIL' build/fuzz-run.log
 
 # The bad-input run (tests/trust/bad_input_run.sh, docs/trust-run.md): bad
 # inputs over every command, damaged summaries, signals, fuzzing and memory

@@ -139,6 +139,11 @@ fuzz_one() {
 
 names=${FUZZ_ONLY:-$(for f in tests/fuzz/fuzz_*.c; do basename "$f" .c; done | sed 's/^fuzz_//')}
 for name in $names; do
+    name=${name#fuzz_} # FUZZ_ONLY may name the harness or its file
+    if [ ! -f "tests/fuzz/fuzz_$name.c" ]; then
+        fail "$name" "no harness tests/fuzz/fuzz_$name.c (there are: $(ls tests/fuzz/fuzz_*.c | sed 's|.*/fuzz_||; s|\.c$||' | tr '\n' ' '))"
+        continue
+    fi
     fuzz_one "$name"
 done
 exit 0
