@@ -99,32 +99,50 @@ static inline void number_ref_set(number_ref *r, const number_decimal *d)
 extern const int64_t number_pow10_i64[16];
 extern const uint64_t number_below52[16];
 
-/* number_difference(a, &r->dec, NULL), with its common cases inline: a
- * power of ten |e| <= 22 and mantissas that stay below 2^52 once written at
- * the smaller of the two powers (the same power, or a cell with fewer or more
- * decimals than the reference), where the integer difference is exact in a
- * double and times 10^e (or divided by 10^-e) is one correctly rounded
- * operation: the one number_difference performs. */
+/* The common cases of number_difference(a, &r->dec, NULL) for a decimal a
+ * = m * 10^e (m < 2^52, sign `negative`) and a fast reference given by its
+ * parts (those of number_ref): a power of ten |e| <= 22 and mantissas that
+ * stay below 2^52 once written at the smaller of the two powers (the same
+ * power, or a cell with fewer or more decimals than the reference), where
+ * the integer difference is exact in a double and times 10^e (or divided by
+ * 10^-e) is one correctly rounded operation: the one number_difference
+ * performs.  1 with *out set, or 0 when none applies.  In parts, so that a
+ * loop can hold the reference in registers (block_decode's). */
+static inline int number_deviation_exact(uint64_t m, int negative, int32_t e, int32_t ref_exp,
+                                         int64_t ref_m, uint64_t ref_mant, double scale,
+                                         int divide, double *out)
+{
+    int64_t x = negative ? -(int64_t)m : (int64_t)m;
+    int32_t k = e - ref_exp;
+    if (k == 0) {
+        double d = (double)(x - ref_m);
+        *out = divide ? d / scale : d * scale;
+        return 1;
+    }
+    if (k > 0 && k < 16 && m <= number_below52[k]) {
+        /* a has fewer decimals: written at the reference's power */
+        double d = (double)(x * number_pow10_i64[k] - ref_m);
+        *out = divide ? d / scale : d * scale;
+        return 1;
+    }
+    if (k < 0 && k > -16 && ref_mant <= number_below52[-k] && e >= -22) {
+        /* a has more decimals: the reference written at a's power */
+        double d = (double)(x - ref_m * number_pow10_i64[-k]);
+        *out = e < 0 ? d / number_pow10[-e] : d * number_pow10[e];
+        return 1;
+    }
+    return 0;
+}
+
+/* number_difference(a, &r->dec, NULL), its common cases inline
+ * (number_deviation_exact). */
 static inline double number_deviation(const number_decimal *a, const number_ref *r)
 {
-    if (r->fast && a->exact && (a->mantissa >> 52) == 0) {
-        int64_t x = a->negative ? -(int64_t)a->mantissa : (int64_t)a->mantissa;
-        if (a->exp10 == r->exp10) {
-            double d = (double)(x - r->signed_m);
-            return r->divide ? d / r->scale : d * r->scale;
-        }
-        int32_t k = a->exp10 - r->exp10;
-        if (k > 0 && k < 16 && a->mantissa <= number_below52[k]) {
-            /* a has fewer decimals: written at the reference's power */
-            double d = (double)(x * number_pow10_i64[k] - r->signed_m);
-            return r->divide ? d / r->scale : d * r->scale;
-        }
-        if (k < 0 && k > -16 && r->dec.mantissa <= number_below52[-k] && a->exp10 >= -22) {
-            /* a has more decimals: the reference written at a's power */
-            double d = (double)(x - r->signed_m * number_pow10_i64[-k]);
-            return a->exp10 < 0 ? d / number_pow10[-a->exp10] : d * number_pow10[a->exp10];
-        }
-    }
+    double d;
+    if (r->fast && a->exact && (a->mantissa >> 52) == 0 &&
+        number_deviation_exact(a->mantissa, a->negative, a->exp10, r->exp10, r->signed_m,
+                               r->dec.mantissa, r->scale, r->divide, &d))
+        return d;
     number_decimal copy = *a; /* a's address stays with the caller (its registers) */
     return number_difference(&copy, &r->dec, NULL);
 }

@@ -395,8 +395,8 @@ static void keep_example(summary_column *c, const char *p, uint32_t len)
  * through number_frame).
  *
  * The common cell (one the SIMD parser reads whole, whose deviation is one
- * of number_deviation's exact cases) is done in a tight loop with the
- * reference in locals: the same operations on the same operands as the
+ * of number_deviation's exact cases, number_deviation_exact) is done in a
+ * tight loop with the reference in locals: the same operations as the
  * general path, so the same numbers (tests/cli/test_clones.sh compares the
  * summaries with those of the scalar path, SHEAF_TEST_SCALAR_DECODE).  Any
  * other cell goes to the general path, a function of its own (DECODE_CELL),
@@ -448,45 +448,30 @@ static void keep_example(summary_column *c, const char *p, uint32_t len)
         int32_t *num_exp = l->num_exp;                                                         \
         size_t nnum = l->nnum;                                                                 \
         for (size_t i = 0; i < n;) {                                                           \
-            /* The reference in locals, while it is unset or not fast: no   \
-             * cell takes the loop. */                                       \
-            if (!l->ref_set || !l->ref.fast) goto general;                                     \
-            const int32_t ref_exp = l->ref.exp10;                                              \
-            const int64_t ref_m = l->ref.signed_m;                                             \
-            const uint64_t ref_mant = l->ref.dec.mantissa;                                     \
-            const double ref_scale = l->ref.scale;                                             \
-            const int ref_divide = l->ref.divide;                                              \
-            for (; i < n; i++) {                                                               \
-                number_decimal d;                                                              \
-                if (quick(text[i], len[i], &d) != 0 || (d.mantissa >> 52) != 0) break;         \
-                /* number_deviation's three exact cases, on its operands */  \
-                int64_t x = d.negative ? -(int64_t)d.mantissa : (int64_t)d.mantissa;           \
-                int32_t k = d.exp10 - ref_exp;                                                 \
-                double dd;                                                                     \
-                if (k == 0) {                                                                  \
-                    dd = (double)(x - ref_m);                                                  \
-                    dd = ref_divide ? dd / ref_scale : dd * ref_scale;                         \
-                } else if (k > 0 && k < 16 && d.mantissa <= number_below52[k]) {               \
-                    dd = (double)(x * number_pow10_i64[k] - ref_m);                            \
-                    dd = ref_divide ? dd / ref_scale : dd * ref_scale;                         \
-                } else if (k < 0 && k > -16 && ref_mant <= number_below52[-k] &&               \
-                           d.exp10 >= -22) {                                                   \
-                    dd = (double)(x - ref_m * number_pow10_i64[-k]);                           \
-                    dd = d.exp10 < 0 ? dd / number_pow10[-d.exp10] : dd * number_pow10[d.exp10]; \
-                } else {                                                                       \
-                    break;                                                                     \
+            if (l->ref_set && l->ref.fast) { /* the reference in locals */                     \
+                const int32_t ref_exp = l->ref.exp10;                                          \
+                const int64_t ref_m = l->ref.signed_m;                                         \
+                const uint64_t ref_mant = l->ref.dec.mantissa;                                 \
+                const double ref_scale = l->ref.scale;                                         \
+                const int ref_divide = l->ref.divide;                                          \
+                for (; i < n; i++) {                                                           \
+                    number_decimal d;                                                          \
+                    double dd;                                                                 \
+                    if (quick(text[i], len[i], &d) != 0 || (d.mantissa >> 52) != 0 ||          \
+                        !number_deviation_exact(d.mantissa, d.negative, d.exp10, ref_exp,      \
+                                                ref_m, ref_mant, ref_scale, ref_divide, &dd))  \
+                        break;                                                                 \
+                    dev[nnum] = dd;                                                            \
+                    val[nnum] = d.value;                                                       \
+                    if (decimals) {                                                            \
+                        num_mant[nnum] = d.negative ? -(int64_t)d.mantissa : (int64_t)d.mantissa; \
+                        num_exp[nnum] = d.exp10;                                               \
+                    }                                                                          \
+                    num_row[nnum] = cell_row[i];                                               \
+                    nnum++;                                                                    \
                 }                                                                              \
-                dev[nnum] = dd;                                                                \
-                val[nnum] = d.value;                                                           \
-                if (decimals) {                                                                \
-                    num_mant[nnum] = x;                                                        \
-                    num_exp[nnum] = d.exp10;                                                   \
-                }                                                                              \
-                num_row[nnum] = cell_row[i];                                                   \
-                nnum++;                                                                        \
+                if (i == n) break;                                                             \
             }                                                                                  \
-            if (i == n) break;                                                                 \
-        general:                                                                               \
             l->nnum = nnum;                                                                    \
             cell(c, l, i++);                                                                   \
             nnum = l->nnum;                                                                    \
