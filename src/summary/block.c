@@ -400,7 +400,10 @@ static void keep_example(summary_column *c, const char *p, uint32_t len)
  * general path, so the same numbers (tests/cli/test_clones.sh compares the
  * summaries with those of the scalar path, SHEAF_TEST_SCALAR_DECODE).  Any
  * other cell goes to the general path, a function of its own (DECODE_CELL),
- * so that the loop keeps its registers.  Macros, so that the SSSE3 and
+ * so that the loop keeps its registers; it parses the cell again, which
+ * costs only the rare number the loop parsed but could not take (a
+ * mantissa of 2^52 or more, or powers of ten too far from the
+ * reference's).  Macros, so that the SSSE3 and
  * x86-64-v3 variants below inline their parsers. */
 #define DECODE_CELL(name, parse, decimals, attr)                                               \
     attr __attribute__((noinline)) static void name(summary_column *c, block_lane *l, size_t i) \

@@ -23,40 +23,32 @@ else
 fi
 
 $GEN --profile bench --rows 30000 -o "$T/b.csv" 2>/dev/null
-same() { # NAME INPUT OPTIONS...
+# agree NAME INPUT OPTIONS...: the summary of ./sheaf against that of the
+# scanning command in OTHER (an array), byte for byte.
+agree() {
     local name=$1 in=$2
     shift 2
     "$SHEAF" scan "$in" -o "$T/fast.sheaf" -q "$@" 2>"$T/err1"
     local r1=$?
-    ASAN_OPTIONS=detect_leaks=0 "$BASE" scan "$in" -o "$T/base.sheaf" -q "$@" 2>"$T/err2"
+    "${OTHER[@]}" scan "$in" -o "$T/other.sheaf" -q "$@" 2>"$T/err2"
     local r2=$?
     if [ $r1 -ne 0 ] || [ $r2 -ne 0 ]; then
         fail "$name" "exit $r1 / $r2: $(head -c 200 "$T/err1") $(head -c 200 "$T/err2")"
     else
-        check "$name" "$(first_diff "$T/fast.sheaf" "$T/base.sheaf")" cmp -s "$T/fast.sheaf" "$T/base.sheaf"
+        check "$name" "$(first_diff "$T/fast.sheaf" "$T/other.sheaf")" cmp -s "$T/fast.sheaf" "$T/other.sheaf"
     fi
 }
+# The baseline build.
+same() { OTHER=(env ASAN_OPTIONS=detect_leaks=0 "$BASE"); agree "$@"; }
+# The scalar parser for every cell (no SIMD, no quick loop: the general
+# path of src/summary/block.c), in the build under test.
+scalar() { OTHER=(env SHEAF_TEST_SCALAR_DECODE=1 "$SHEAF"); agree "$@"; }
 for j in 1 2; do
     same "bench.none.j$j" "$T/b.csv" -j"$j"
     same "bench.label.j$j" "$T/b.csv" -j"$j" --target label
     same "bench.balance.j$j" "$T/b.csv" -j"$j" --target balance
     same "bench.digit3.j$j" "$T/b.csv" -j"$j" --target digit --max-classes 3
 done
-# The scalar parser for every cell (no SIMD, no quick loop: the general
-# path of src/summary/block.c) against the default, in one build.
-scalar() { # NAME INPUT OPTIONS...
-    local name=$1 in=$2
-    shift 2
-    "$SHEAF" scan "$in" -o "$T/fast.sheaf" -q "$@" 2>"$T/err1"
-    local r1=$?
-    SHEAF_TEST_SCALAR_DECODE=1 "$SHEAF" scan "$in" -o "$T/scalar.sheaf" -q "$@" 2>"$T/err2"
-    local r2=$?
-    if [ $r1 -ne 0 ] || [ $r2 -ne 0 ]; then
-        fail "$name" "exit $r1 / $r2: $(head -c 200 "$T/err1") $(head -c 200 "$T/err2")"
-    else
-        check "$name" "$(first_diff "$T/fast.sheaf" "$T/scalar.sheaf")" cmp -s "$T/fast.sheaf" "$T/scalar.sheaf"
-    fi
-}
 scalar "scalar.bench.label" "$T/b.csv" --target label
 scalar "scalar.bench.balance" "$T/b.csv" -j2 --target balance
 OPEN=${SHEAF_OPEN_DATA:-../shared/data/open}
