@@ -606,3 +606,95 @@ Test(chunk, last_record_end_is_just_after_the_last_unquoted_newline)
     cr_assert_eq(last_end("\"x\"\"\ny\"\"\"\nz"), 10); /* 6 quotes before the second '\n' */
     cr_assert_eq(last_end("a\r\nb\r\n"), 6);
 }
+
+/* --- trading buffers -------------------------------------------------------- */
+
+/* The chunk offsets and lengths of text fed in pieces of random size (1 to
+ * 3 x chunk_bytes); with `trade`, each read stops at chunker_to_mark and
+ * every chunk's buffer is traded away as a pass with two slots does it: held
+ * while the next chunk is cut, checked unchanged, then given back.  Returns
+ * the number of chunks; *tails sums the bytes chunker_trade copied. */
+static size_t cut_traded(const bytes *b, size_t chunk_bytes, int trade, uint64_t seed,
+                         uint64_t *offs, size_t *lens, size_t max_chunks, size_t *tails)
+{
+    char err[256] = "";
+    chunker *c = chunker_create(chunk_bytes, 64u << 20);
+    cr_assert_not_null(c);
+    chunker_start(c, "traded");
+    chunker_set_dialect(c, ',', 0);
+    enum { SLOTS = 2 };
+    char *slot[SLOTS] = {NULL, NULL};
+    size_t size[SLOTS] = {0, 0}, held_len[SLOTS] = {0, 0};
+    const char *held[SLOTS] = {NULL, NULL};
+    uint64_t held_off[SLOTS] = {0, 0};
+    uint64_t s = seed;
+    size_t fed = 0, n = 0;
+    *tails = 0;
+    for (;;) {
+        chunk ch;
+        int rc = chunker_next(c, &ch, err, sizeof err);
+        cr_assert_geq(rc, 0, "%s", err);
+        if (rc == 1) {
+            cr_assert_lt(n, max_chunks);
+            offs[n] = ch.offset;
+            lens[n] = ch.len;
+            cr_assert_eq(memcmp(ch.data, b->data + ch.offset, ch.len), 0, "chunk %zu bytes", n);
+            if (trade) {
+                size_t k = n % SLOTS;
+                if (held[k]) /* the chunk this slot held: untouched by the cuts since */
+                    cr_assert_eq(memcmp(held[k], b->data + held_off[k], held_len[k]), 0,
+                                 "a traded chunk changed before its slot was reused");
+                size_t rest;
+                chunker_pending(c, &rest);
+                cr_assert_eq(chunker_trade(c, &slot[k], &size[k], err, sizeof err), 0, "%s", err);
+                *tails += rest;
+                cr_assert(ch.data >= slot[k] && ch.data + ch.len <= slot[k] + size[k],
+                          "the chunk is not in the buffer traded away");
+                held[k] = ch.data;
+                held_off[k] = ch.offset;
+                held_len[k] = ch.len;
+            }
+            n++;
+            continue;
+        }
+        if (chunker_done(c)) break;
+        size_t room;
+        char *p = chunker_space(c, &room, err, sizeof err);
+        cr_assert_not_null(p, "%s", err);
+        size_t want = 1 + (size_t)(xorshift64(&s) % (3 * chunk_bytes));
+        if (trade && want > chunker_to_mark(c)) want = chunker_to_mark(c);
+        if (want > room) want = room;
+        if (want > b->len - fed) want = b->len - fed;
+        memcpy(p, b->data + fed, want);
+        chunker_commit(c, want);
+        fed += want;
+        if (fed == b->len) chunker_finish(c);
+    }
+    for (int k = 0; k < SLOTS; k++) free(slot[k]);
+    chunker_free(c);
+    return n;
+}
+
+Test(chunk, traded_buffers_give_the_same_chunks_and_keep_them_intact)
+{
+    bytes b = generate_csv(0x7a11ed, 3u << 20);
+    enum { MAX = 1 << 16 };
+    static uint64_t o1[MAX], o2[MAX];
+    static size_t l1[MAX], l2[MAX];
+    const size_t sizes[] = {64, 1000, 64u << 10, 256u << 10};
+    for (size_t i = 0; i < sizeof sizes / sizeof *sizes; i++) {
+        size_t tails = 0, t2 = 0;
+        size_t n1 = cut_traded(&b, sizes[i], 0, 11 + i, o1, l1, MAX, &tails);
+        size_t n2 = cut_traded(&b, sizes[i], 1, 23 + i, o2, l2, MAX, &t2);
+        cr_assert_eq(n1, n2, "%zu-byte chunks: %zu plain, %zu traded", sizes[i], n1, n2);
+        for (size_t k = 0; k < n1; k++)
+            cr_assert(o1[k] == o2[k] && l1[k] == l2[k], "%zu-byte chunks: chunk %zu differs",
+                      sizes[i], k);
+        /* Reads stop at the marks, so what a trade copies is the start of
+         * one record (under 2 KiB in this text), not the rest of a read. */
+        if (sizes[i] >= (64u << 10))
+            cr_assert_lt(t2, n2 * 2048, "%zu-byte chunks: trades copied %zu bytes for %zu chunks",
+                         sizes[i], t2, n2);
+    }
+    free(b.data);
+}

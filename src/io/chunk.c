@@ -125,6 +125,33 @@ size_t chunker_feed(chunker *c, const void *data, size_t len, char *err, size_t 
     return n;
 }
 
+size_t chunker_to_mark(const chunker *c)
+{
+    uint64_t held = c->base + c->len;
+    return (size_t)(c->mark_step - held % c->mark_step);
+}
+
+int chunker_trade(chunker *c, char **buf, size_t *size, char *err, size_t errlen)
+{
+    const size_t need = c->cap + 1 + CHUNK_PADDING;
+    char *nb = *buf;
+    if (!nb || *size < need) {
+        nb = malloc(need);
+        if (!nb) { snprintf(err, errlen, "%s: out of memory", c->name); errno = ENOMEM; return -1; }
+        free(*buf);
+    }
+    size_t rest = c->len - c->start;
+    memcpy(nb, c->buf + c->start, rest);
+    memset(nb + rest, 0, 1 + CHUNK_PADDING);
+    *buf = c->buf;
+    *size = need;
+    c->buf = nb;
+    c->len = rest;
+    c->base += c->start;
+    c->start = 0;
+    return 0;
+}
+
 void chunker_finish(chunker *c) { c->ended = 1; }
 
 int chunker_done(const chunker *c) { return c->ended && c->start == c->len; }

@@ -13,9 +13,10 @@
  * of g (offsets counted from the first byte of the stream), a chunk starting
  * at S ends at the last record end at or before the first mark E >=
  * S + chunk_bytes for which that record end lies at or after S + chunk_bytes;
- * the last chunk holds whatever is left.  (The marks are where a reader
- * asking 1 MiB at a time stops, so a chunk is cut from whole reads; the
- * chunks equal those of the earlier read-driven chunker on plain files.)
+ * the last chunk holds whatever is left.  (The reader reads up to the
+ * next mark at a time (chunker_to_mark), so a chunk is cut from whole reads
+ * and only the start of a record is left after it; the chunks equal those
+ * of the earlier read-driven chunker on plain files.)
  *
  * A record longer than max_record_bytes stops the chunker with an error that
  * gives the record's byte offset.
@@ -70,6 +71,19 @@ void chunker_finish(chunker *c);
  * needed (or the stream is done: chunker_done), -1 on error (message in err).
  * Chunks stay valid until the next chunker_space or chunker_feed. */
 int chunker_next(chunker *c, chunk *out, char *err, size_t errlen);
+/* How many bytes to add next so that the buffer ends on a mark, where
+ * chunks end: adding no more than this leaves only the start of a record
+ * after each chunk cut, which is what chunker_trade copies. */
+size_t chunker_to_mark(const chunker *c);
+/* Gives the caller the buffer that holds the chunk chunker_next just handed
+ * out, so that the chunk need not be copied: *buf (its *size bytes, from
+ * an earlier trade, or NULL) becomes the chunker's buffer, and the bytes
+ * after the chunk are copied into it (a new buffer is made when *buf is
+ * smaller than the chunker's).  On return *buf and *size are the buffer
+ * given away, which the chunk's data points into; every chunk handed out
+ * before is in it too.  0, or -1 with a message when a new buffer cannot be
+ * made (nothing changed). */
+int chunker_trade(chunker *c, char **buf, size_t *size, char *err, size_t errlen);
 /* The stream was finished and every byte has been handed out. */
 int chunker_done(const chunker *c);
 /* The bytes buffered and not yet handed out (for dialect detection). */

@@ -109,7 +109,12 @@ int reader_pull(reader *r, source *src)
     errno = 0;
     char *p = chunker_space(r->ck, &room, r->err, sizeof r->err);
     if (!p) { r->nomem = errno == ENOMEM; return -1; }
-    ssize_t n = source_read(src, p, room < PULL_BYTES ? room : PULL_BYTES);
+    /* Up to the next mark: a chunk cut there leaves only the start of a
+     * record behind, so the chunk's buffer can be traded, not copied. */
+    size_t want = chunker_to_mark(r->ck);
+    if (want > room) want = room;
+    if (want > PULL_BYTES) want = PULL_BYTES;
+    ssize_t n = source_read(src, p, want);
     if (n < 0) {
         r->nomem = errno == ENOMEM;
         snprintf(r->err, sizeof r->err, "%s", source_error(src));
@@ -217,6 +222,14 @@ reader_status reader_next_chunk(reader *r, reader_chunk *out)
     out->nstarts = to - from;
     r->starts_at = to;
     return READER_CHUNK;
+}
+
+int reader_trade_chunk(reader *r, char **buf, size_t *size)
+{
+    errno = 0;
+    if (chunker_trade(r->ck, buf, size, r->err, sizeof r->err) == 0) return 0;
+    r->nomem = 1;
+    return -1;
 }
 
 reader_status reader_next(reader *r, reader_record *rec)

@@ -83,7 +83,8 @@ void reader_set_stop(reader *r, uint64_t stop_at);
 /* Feeding: copies up to len bytes; returns how many were taken (0 means the
  * buffer is full: call reader_next first), or (size_t)-1 on an error. */
 size_t reader_feed(reader *r, const void *data, size_t len);
-/* Reads once from src into the reader (at most 1 MiB).  Returns 1 after
+/* Reads once from src into the reader (at most 1 MiB, and not past the
+ * next place a chunk may end).  Returns 1 after
  * reading, 0 at the end of the source (the stream is then finished), -1 on
  * an error. */
 int reader_pull(reader *r, source *src);
@@ -120,6 +121,13 @@ typedef struct {
  * filled (valid until the next feed or pull), READER_WANT, READER_END, or
  * READER_ERROR.  Do not mix with reader_next on one stream. */
 reader_status reader_next_chunk(reader *r, reader_chunk *out);
+/* Takes the buffer that holds the chunk reader_next_chunk just handed out,
+ * so that a thread may keep the chunk without a copy: *buf (*size bytes, a
+ * buffer from an earlier trade, or NULL) becomes the reader's, and on
+ * return *buf and *size are the buffer the chunk's data points into, free
+ * with free().  0, or -1 when out of memory (reader_error tells; nothing
+ * changed). */
+int reader_trade_chunk(reader *r, char **buf, size_t *size);
 
 typedef enum {
     READER_FAULT_NONE = 0,

@@ -557,7 +557,7 @@ static scan_status push_inline(chunks *w, const reader_chunk *c, int first,
 
 /* One piece of a chunk to the tasks. */
 static scan_status push_piece(chunks *w, const reader_chunk *c, int first,
-                              const uint64_t *repeats, size_t nrepeats)
+                              const uint64_t *repeats, size_t nrepeats, reader *owner)
 {
     if (!w->nthreads)
         return w->failed ? w->failed : push_inline(w, c, first, repeats, nrepeats);
@@ -569,11 +569,20 @@ static scan_status push_piece(chunks *w, const reader_chunk *c, int first,
     pthread_mutex_unlock(&w->mu);
     if (failed) return failed;
     job *j = slot_of(w, seq); /* free: nothing looks at it until it is pushed */
-    size_t need = c->len + CHUNK_PADDING;
-    char *nb = need > j->cap ? realloc(j->buf, need) : j->buf;
-    if (nb && need > j->cap) {
-        j->buf = nb;
-        j->cap = need;
+    char *nb = j->buf;
+    if (owner) {
+        /* The reader's buffer, which holds the chunk, for the slot's: no
+         * copy.  The slot's bytes past the chunk are the reader's (the start
+         * of the next record), as they are to the one-thread path. */
+        nb = reader_trade_chunk(owner, &j->buf, &j->cap) == 0 ? j->buf : NULL;
+    } else {
+        size_t need = c->len + CHUNK_PADDING;
+        nb = need > j->cap ? realloc(j->buf, need) : j->buf;
+        if (nb && need > j->cap) {
+            j->buf = nb;
+            j->cap = need;
+        }
+        if (nb) memcpy(j->buf, c->data, need); /* the padding too */
     }
     if (!nb || set_repeats(j, repeats, nrepeats) != 0) {
         pthread_mutex_lock(&w->mu);
@@ -584,9 +593,8 @@ static scan_status push_piece(chunks *w, const reader_chunk *c, int first,
         pthread_mutex_unlock(&w->mu);
         return SCAN_ERR_MEMORY;
     }
-    memcpy(j->buf, c->data, need); /* the padding too: zero past the data */
     j->ck = *c;
-    j->ck.data = j->buf;
+    if (!owner) j->ck.data = j->buf;
     j->ck.starts = NULL; /* the reader's, gone by the time T runs */
     j->ck.nstarts = 0;
     j->first = first;
@@ -649,7 +657,7 @@ static size_t piece_end(const chunks *w, const reader_chunk *c, size_t from)
 }
 
 scan_status chunks_push(chunks *w, const reader_chunk *c, int first, const uint64_t *repeats,
-                        size_t nrepeats)
+                        size_t nrepeats, reader *owner)
 {
     /* A chunk of more lines than piece_lines goes to the tasks in pieces
      * of whole records, cut by its bytes alone, so that the cell table
@@ -673,7 +681,11 @@ scan_status chunks_push(chunks *w, const reader_chunk *c, int first, const uint6
         size_t r0 = 0, r1; /* the repeated headers that begin in the piece */
         while (r0 < nrepeats && repeats[r0] < piece.offset) r0++;
         for (r1 = r0; r1 < nrepeats && repeats[r1] < piece.offset + piece.len;) r1++;
-        scan_status st = push_piece(w, &piece, head, r1 > r0 ? repeats + r0 : NULL, r1 - r0);
+        /* A chunk in one piece is traded for (chunks_push), one in pieces
+         * copied: the pieces share its buffer. */
+        reader *trade = w->nthreads && from == c->skip && end == c->len ? owner : NULL;
+        scan_status st = push_piece(w, &piece, head, r1 > r0 ? repeats + r0 : NULL, r1 - r0,
+                                    trade);
         if (st != SCAN_OK || end == c->len) return st;
         from = end;
     }

@@ -82,9 +82,12 @@ void chunks_stream(chunks *w, const char *shown, uint64_t stop_at, uint64_t line
  * ascending; they are skipped and counted in the summary's repeated_headers
  * (copied: the caller's array may go).  Blocks while every slot is busy.
  * A chunk of more lines than the cell budget allows is handed on in pieces.
- * SCAN_OK or the failure. */
+ * owner: the reader that just handed c out (reader_next_chunk), whose
+ * buffer a slot then takes in trade for its own (reader_trade_chunk)
+ * instead of copying the chunk; NULL: the chunk is copied.  SCAN_OK or
+ * the failure. */
 scan_status chunks_push(chunks *w, const reader_chunk *c, int first, const uint64_t *repeats,
-                        size_t nrepeats);
+                        size_t nrepeats, reader *owner);
 /* Waits until every pushed chunk is in the summary.  SCAN_OK or the failure
  * (chunks_error tells). */
 scan_status chunks_wait(chunks *w);

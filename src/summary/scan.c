@@ -222,9 +222,10 @@ static scan_status setup(scan_context *sc, char **names, size_t nnames)
         st = SCAN_ERR_MEMORY;
         goto done;
     }
-    /* The chunk buffers: one per worker slot, and the reader's own (a chunk
-     * being cut and the next being read). */
-    uint64_t nbuf = (uint64_t)sc->threads + 2, chunk = o->chunk_bytes + 64;
+    /* The chunk buffers, each of two chunks (a chunk being cut and the next
+     * being read): the reader's, and one per worker slot (the slots take the
+     * reader's buffers in trade, chunks_push). */
+    uint64_t nbuf = 2 * ((uint64_t)sc->threads + 1), chunk = o->chunk_bytes + 64;
     if (o->mem_limit_bytes && need + nbuf * chunk > o->mem_limit_bytes) {
         snprintf(sc->err, sizeof sc->err,
                  "the co-moment matrix (%s) and %llu chunk buffers of %s need "
@@ -465,7 +466,7 @@ static scan_status drain(scan_context *sc)
             nrep = reader_repeated_headers(&ch, sc->head_line, sc->head_len, sc->repeats,
                                            sc->repeats_cap);
         }
-        scan_status st = chunks_push(sc->work, &ch, first, sc->repeats, nrep);
+        scan_status st = chunks_push(sc->work, &ch, first, sc->repeats, nrep, sc->rd);
         if (st != SCAN_OK) return scan_worked(sc, st);
         sc->pushed_bytes = ch.offset + ch.len;
         if (within_limit(sc, 0) != SCAN_OK) return sc->failed;
