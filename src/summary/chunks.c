@@ -431,9 +431,13 @@ chunks *chunks_create(const chunks_options *o)
         parts = (w->jobs[i].tg = calloc(w->nruns, sizeof *w->jobs[i].tg)) != NULL;
     w->target_ref = calloc(w->nruns, sizeof *w->target_ref);
     w->target_ref_set = calloc(w->nruns, 1);
-    /* Column groups: one with one thread; else two per thread (the columns
-     * dealt out in turn), so that a worker finds a group to feed while
-     * another is busy.  Groups decide only who feeds a column, never what. */
+    /* Column groups: one with one thread; else GROUPS_PER_THREAD per
+     * thread (the columns dealt out in turn), so that a worker finds a group
+     * to feed while another is busy, and a group fed by the worker that does
+     * not own it (pick) moves little state between cores: four per thread
+     * took 3 to 6% off the 28-column table at -j2 against two, the
+     * 500-column table within the noise (bench/threads-notes.md).  Groups
+     * decide only who feeds a column, never what. */
     w->ngroups = threads > 1 ? GROUPS_PER_THREAD * (size_t)threads : 1;
     if (w->ngroups > w->ncols) w->ngroups = w->ncols ? w->ncols : 1;
     w->g_next = calloc(w->ngroups, sizeof *w->g_next);

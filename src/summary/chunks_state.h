@@ -15,7 +15,7 @@
 #include "summary/summary.h"
 
 #ifndef GROUPS_PER_THREAD
-#define GROUPS_PER_THREAD 2
+#define GROUPS_PER_THREAD 4
 #endif
 
 /* A slot's cell table is held within this many bytes (chunks_push cuts a
