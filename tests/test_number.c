@@ -624,3 +624,36 @@ Test(number, padded_parser_equals_number_parse)
     }
 #endif
 }
+
+Test(number, text_at_a_glance_is_text_to_number_parse)
+{
+    /* The decode loop counts a cell that number_text_at_once accepts as text
+     * without parsing it: number_parse must find every such cell text.
+     * Cells: each first byte 0-255, then 0 to 31 bytes drawn from digits,
+     * signs, points, exponents, the letters of inf, infinity and nan, space
+     * and stray bytes. */
+    static const char tail[] = "0123456789.+-eExXaAfFnNiItTyY \t_";
+    uint64_t state = UINT64_C(0x2545f4914f6cdd1d);
+    char buf[40];
+    long accepted = 0;
+    for (int first = 0; first < 256; first++)
+        for (int k = 0; k < 2000; k++) {
+            uint64_t r = xorshift64(&state);
+            size_t len = 1 + (size_t)(r % 33);
+            buf[0] = (char)first;
+            for (size_t j = 1; j < len; j++) {
+                uint64_t c = xorshift64(&state);
+                buf[j] = (c >> 60) == 0 ? (char)(c & 0xff) : tail[c % (sizeof tail - 1)];
+            }
+            if (!number_text_at_once(buf, len)) continue;
+            accepted++;
+            number_decimal d;
+            cr_assert_eq(number_parse(buf, len, &d), NUMBER_TEXT, "\"%.*s\" is not text",
+                         (int)len, buf);
+        }
+    /* Every letter but i and n, in both cases: 48 first bytes, 32 lengths of 33. */
+    cr_assert_gt(accepted, 48 * 2000 * 30 / 33, "only %ld cells accepted", accepted);
+    cr_assert(!number_text_at_once("inf", 3) && !number_text_at_once("NaN", 3) &&
+              !number_text_at_once("", 0) && !number_text_at_once("-x", 2));
+    cr_assert(number_text_at_once("e5", 2) && number_text_at_once("Zulu", 4));
+}

@@ -84,6 +84,15 @@ typedef struct {
     double scale;        /* 10^|exp10| */
 } number_ref;
 
+/* A cell number_parse finds text at a glance: at most 32 bytes, the first
+ * a letter other than that of inf or nan (so no number, infinity or NaN
+ * can start there).  tests/test_number.c checks it against number_parse. */
+static inline int number_text_at_once(const char *s, size_t len)
+{
+    unsigned c = len ? ((unsigned char)*s | 0x20u) : 0u;
+    return len <= 32 && c >= 'a' && c <= 'z' && c != 'i' && c != 'n';
+}
+
 static inline void number_ref_set(number_ref *r, const number_decimal *d)
 {
     r->dec = *d;

@@ -122,8 +122,7 @@ number_parse_padded(const char *s, size_t len, number_decimal *out)
     /* Text cells of a column not yet known to be text: a first letter other
      * than that of inf or nan is text, as number_parse would find after its
      * plain pass. */
-    unsigned c = len ? ((unsigned char)*s | 0x20u) : 0u;
-    if (len <= 32 && c >= 'a' && c <= 'z' && c != 'i' && c != 'n') return NUMBER_TEXT;
+    if (number_text_at_once(s, len)) return NUMBER_TEXT;
     number_decimal slow; /* out's address stays with the caller (its registers) */
     number_kind k = number_parse(s, len, &slow);
     *out = slow;

@@ -475,6 +475,13 @@ static void keep_example(summary_column *c, const char *p, uint32_t len)
                 }                                                                              \
                 if (i == n) break;                                                             \
             }                                                                                  \
+            /* A run of cells that every parser finds text: a first letter other     \
+             * than that of inf or nan, at most 32 bytes (number_parse_padded). */     \
+            for (; i < n && number_text_at_once(text[i], len[i]); i++) {                       \
+                c->non_numeric++;                                                              \
+                if (c->n_examples < SUMMARY_EXAMPLES) keep_example(c, text[i], len[i]);        \
+            }                                                                                  \
+            if (i == n) break;                                                                 \
             l->nnum = nnum;                                                                    \
             cell(c, l, i++);                                                                   \
             nnum = l->nnum;                                                                    \
