@@ -417,6 +417,7 @@ section_threads() {
         "/usr/bin/python3 bench/pandas_scan.py $gz6 label"
         "node bench/sqlengine/query.mjs aggregates $gz6 2"
         "node bench/sqlengine/query.mjs correlations $gz6 2"
+        "$scan $plain $tl -o $out/t4p.sheaf -j4" "$scan $gz6 $tl -o $out/t4g.sheaf -j4"
     )
     local -a t
     mapfile -t t < <(INTERLEAVE_CPU=$out/threads-cpu.txt interleaved "${cmds[@]}")
@@ -449,6 +450,7 @@ section_threads() {
         t_plain_j1="${t[3]}" t_plain_j2="${t[4]}" t_gz6_j1="${t[5]}" t_gz6_j2="${t[6]}" \
         t_igz1_j1="${t[7]}" t_igz1_j2="${t[8]}" t_zst_j1="${t[9]}" t_zst_j2="${t[10]}" \
         t_pandas="${t[11]}" t_sql_agg="${t[12]}" t_sql_corr="${t[13]}" \
+        t_plain_j4="${t[14]}" t_gz6_j4="${t[15]}" c_plain_j4="${c[14]}" c_gz6_j4="${c[15]}" \
         c_plain_j1="${c[3]}" c_plain_j2="${c[4]}" c_gz6_j1="${c[5]}" c_gz6_j2="${c[6]}" \
         c_igz1_j1="${c[7]}" c_igz1_j2="${c[8]}" c_zst_j1="${c[9]}" c_zst_j2="${c[10]}" \
         m_j2="$m_j2" m_j2_half="$m_j2_half" m_j1="$m_j1" m_j2_gz="$m_j2_gz" m_pandas="$m_pandas" \

@@ -457,9 +457,14 @@ static void *ahead_main(void *arg)
         pthread_mutex_lock(&a->mu);
         while (!a->quit && a->buffered >= a->budget) pthread_cond_wait(&a->cv, &a->mu);
         int quit = a->quit;
+        ahead_block *b = a->spare;
+        if (b) {
+            a->spare = b->next;
+            a->nspare--;
+        }
         pthread_mutex_unlock(&a->mu);
-        if (quit) break;
-        ahead_block *b = malloc(sizeof *b + AHEAD_BLOCK);
+        if (quit) { free(b); break; }
+        if (!b) b = malloc(sizeof *b + AHEAD_BLOCK);
         ssize_t n = -1;
         if (!b) {
             snprintf(s->err, sizeof s->err, "%s: out of memory", s->path);
@@ -524,7 +529,13 @@ static ssize_t ahead_read(source *s, void *buf, size_t cap)
             if (!a->head) a->tail = NULL;
             a->buffered -= b->len;
             a->consumed_raw = b->raw_after;
-            free(b);
+            if (a->nspare < AHEAD_SPARE) {
+                b->next = a->spare;
+                a->spare = b;
+                a->nspare++;
+            } else {
+                free(b);
+            }
             pthread_cond_broadcast(&a->cv);
         }
         n = (ssize_t)k;
@@ -548,6 +559,11 @@ static void ahead_stop(source *s)
     while (a->head) {
         ahead_block *b = a->head;
         a->head = b->next;
+        free(b);
+    }
+    while (a->spare) {
+        ahead_block *b = a->spare;
+        a->spare = b->next;
         free(b);
     }
     pthread_mutex_destroy(&a->mu);
