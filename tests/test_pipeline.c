@@ -8,6 +8,9 @@
 #include <stdlib.h>
 #include <string.h>
 #include <time.h>
+#include <sched.h>
+#include <sys/stat.h>
+#include <unistd.h>
 
 #include "io/pipeline.h"
 
@@ -122,4 +125,101 @@ Test(pipeline, counts_the_cpus_it_may_use)
 {
     unsigned n = pipeline_cpus();
     cr_assert(n >= 1 && n <= 4096, "%u", n);
+}
+
+/* ---- the cgroup CPU quota -------------------------------------------------- */
+
+/* Writes text to dir/name, making dir and its parents. */
+static void put_file(const char *dir, const char *name, const char *text)
+{
+    char cmd[1024], path[1024];
+    snprintf(cmd, sizeof cmd, "mkdir -p '%s'", dir);
+    cr_assert_eq(system(cmd), 0);
+    snprintf(path, sizeof path, "%s/%s", dir, name);
+    FILE *f = fopen(path, "w");
+    cr_assert_not_null(f, "%s", path);
+    fputs(text, f);
+    fclose(f);
+}
+
+/* A fake /proc/self/cgroup and /sys/fs/cgroup under a temporary directory:
+ * the quota read from them. */
+static unsigned fake_quota(const char *proc_text, const char *const *files)
+{
+    char root[] = "/tmp/sheaf-cgroup-XXXXXX", proc[128], sys[128], dir[512];
+    cr_assert_not_null(mkdtemp(root));
+    snprintf(proc, sizeof proc, "%s/cgroup", root);
+    snprintf(sys, sizeof sys, "%s/sys", root);
+    put_file(root, "cgroup", proc_text);
+    for (size_t i = 0; files[i]; i += 3) { /* directory under sys, file name, text */
+        snprintf(dir, sizeof dir, "%s%s", sys, files[i]);
+        put_file(dir, files[i + 1], files[i + 2]);
+    }
+    unsigned q = pipeline_quota_cpus(proc, sys);
+    char cmd[256];
+    snprintf(cmd, sizeof cmd, "rm -rf '%s'", root);
+    cr_assert_eq(system(cmd), 0);
+    return q;
+}
+
+Test(pipeline, cgroup_v2_quota_is_the_smallest_up_the_tree_rounded_up)
+{
+    const char *files[] = {"/a/b", "cpu.max", "max 100000\n",
+                           "/a", "cpu.max", "150000 100000\n",
+                           "", "cpu.max", "800000 100000\n", NULL};
+    cr_assert_eq(fake_quota("0::/a/b\n", files), 2);
+    const char *none[] = {"/a/b", "cpu.max", "max 100000\n", NULL};
+    cr_assert_eq(fake_quota("0::/a/b\n", none), 0);
+}
+
+Test(pipeline, cgroup_v1_quota_is_read_from_the_cpu_controller)
+{
+    const char *files[] = {"/cpu,cpuacct/docker/x", "cpu.cfs_quota_us", "300000\n",
+                           "/cpu,cpuacct/docker/x", "cpu.cfs_period_us", "100000\n",
+                           "/memory/docker/x", "cpu.cfs_quota_us", "100000\n",
+                           "/memory/docker/x", "cpu.cfs_period_us", "100000\n", NULL};
+    cr_assert_eq(fake_quota("5:memory:/docker/x\n4:cpu,cpuacct:/docker/x\n", files), 3);
+    /* Inside a container the mount is the container's own cgroup: its path
+     * is not there, the mount's root holds the quota. */
+    const char *inside[] = {"/cpu,cpuacct", "cpu.cfs_quota_us", "200000\n",
+                            "/cpu,cpuacct", "cpu.cfs_period_us", "100000\n", NULL};
+    cr_assert_eq(fake_quota("4:cpu,cpuacct:/docker/x\n", inside), 2);
+    const char *unlimited[] = {"/cpu", "cpu.cfs_quota_us", "-1\n",
+                               "/cpu", "cpu.cfs_period_us", "100000\n", NULL};
+    cr_assert_eq(fake_quota("1:cpu:/\n", unlimited), 0);
+}
+
+Test(pipeline, no_cgroup_file_means_no_quota)
+{
+    cr_assert_eq(pipeline_quota_cpus("/nonexistent/cgroup", "/nonexistent"), 0);
+    const char *files[] = {NULL};
+    cr_assert_eq(fake_quota("garbage without colons\n", files), 0);
+}
+
+Test(pipeline, a_real_cgroup_quota_limits_the_cpus)
+{
+    /* A cgroup v1 cpu hierarchy this process may write (root, outside a
+     * read-only container), else skipped: a quota of 1 CPU, this test's
+     * process moved in, pipeline_cpus asked, the process moved back. */
+    const char *base = "/sys/fs/cgroup/cpu";
+    char dir[256], path[300], pid[32];
+    snprintf(dir, sizeof dir, "%s/sheaf-test-%ld", base, (long)getpid());
+    if (access(base, W_OK) != 0 || mkdir(dir, 0755) != 0)
+        cr_skip_test("no writable cgroup v1 cpu hierarchy at %s", base);
+    snprintf(path, sizeof path, "%s/cpu.cfs_quota_us", dir);
+    FILE *f = fopen(path, "w");
+    int ok = f && fprintf(f, "100000\n") > 0;
+    if (f && fclose(f) != 0) ok = 0;
+    snprintf(path, sizeof path, "%s/tasks", dir);
+    snprintf(pid, sizeof pid, "%ld\n", (long)getpid());
+    f = ok ? fopen(path, "w") : NULL;
+    ok = f && fputs(pid, f) >= 0;
+    if (f && fclose(f) != 0) ok = 0;
+    unsigned inside = ok ? pipeline_cpus() : 0;
+    snprintf(path, sizeof path, "%s/tasks", base);
+    f = fopen(path, "w");
+    if (f) { fputs(pid, f); fclose(f); }
+    rmdir(dir);
+    if (!ok) cr_skip_test("could not set a quota in %s", dir);
+    cr_assert_eq(inside, 1, "pipeline_cpus in a 1-CPU cgroup: %u", inside);
 }

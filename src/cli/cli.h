@@ -160,7 +160,8 @@ void cli_text_end(cli_text *t);
  * this process may use).  0 or EXIT_USAGE. */
 int cli_parse_threads(const char *cmd, const char *text, unsigned *threads);
 /* The help line of -j, shared by every pass. */
-#define CLI_THREADS_HELP "worker threads (default: the CPUs this process may use; 1: none); " \
+#define CLI_THREADS_HELP "worker threads (default: the CPUs this process may use, within " \
+    "its cgroup's CPU quota; 1: none); " \
     "the output is the same for every N; memory grows by at most 2 chunks (--chunk-size) " \
     "per thread, with their cell positions (a scan holds at most 8 MiB of them a chunk) or output"
 

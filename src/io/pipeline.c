@@ -14,6 +14,7 @@
 
 #include <pthread.h>
 #include <sched.h>
+#include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 
@@ -42,12 +43,104 @@ struct pipeline {
     int quit;            /* workers must stop */
 };
 
+/* The first line of a small file into buf; 0, or -1 when it cannot be read. */
+static int read_line(const char *path, char *buf, size_t len)
+{
+    FILE *f = fopen(path, "r");
+    if (!f) return -1;
+    char *got = fgets(buf, (int)len, f);
+    fclose(f);
+    return got ? 0 : -1;
+}
+
+/* CPUs one cgroup directory's quota allows, rounded up; 0: none there. */
+static unsigned dir_quota(const char *dir, int v2)
+{
+    char path[4400], line[128];
+    long long quota = -1, period = 0;
+    if (v2) {
+        snprintf(path, sizeof path, "%s/cpu.max", dir);
+        if (read_line(path, line, sizeof line) != 0 ||
+            sscanf(line, "%lld %lld", &quota, &period) != 2) /* "max 100000": no quota */
+            return 0;
+    } else {
+        snprintf(path, sizeof path, "%s/cpu.cfs_quota_us", dir);
+        if (read_line(path, line, sizeof line) != 0 || sscanf(line, "%lld", &quota) != 1)
+            return 0;
+        snprintf(path, sizeof path, "%s/cpu.cfs_period_us", dir);
+        if (read_line(path, line, sizeof line) != 0 || sscanf(line, "%lld", &period) != 1)
+            return 0;
+    }
+    if (quota <= 0 || period <= 0) return 0;
+    long long n = (quota + period - 1) / period;
+    return n > 4096 ? 4096 : (unsigned)n;
+}
+
+/* The smallest quota of the cgroup at `cg` (a path from the proc file)
+ * under `mount` and of its ancestors, up to the mount itself (which is the
+ * process's own cgroup inside a container that sees no further up). */
+static unsigned walk_quota(const char *mount, const char *cg, int v2)
+{
+    char rel[4096], dir[4200];
+    snprintf(rel, sizeof rel, "%s", cg);
+    size_t n = strlen(rel);
+    while (n && (rel[n - 1] == '\n' || rel[n - 1] == '/')) rel[--n] = '\0';
+    unsigned best = 0;
+    for (;;) {
+        snprintf(dir, sizeof dir, "%s%s", mount, rel);
+        unsigned q = dir_quota(dir, v2);
+        if (q && (!best || q < best)) best = q;
+        char *slash = strrchr(rel, '/');
+        if (!slash) break;
+        *slash = '\0';
+    }
+    return best;
+}
+
+unsigned pipeline_quota_cpus(const char *proc_cgroup, const char *sys_cgroup)
+{
+    FILE *f = fopen(proc_cgroup, "r");
+    if (!f) return 0;
+    char line[4200], mount[4300];
+    unsigned best = 0;
+    while (fgets(line, sizeof line, f)) {
+        /* "ID:CONTROLLERS:PATH": v2 has ID 0 and no controllers; v1 names
+         * the cpu controller among its own (cpu, or cpu,cpuacct). */
+        char *c1 = strchr(line, ':'), *c2 = c1 ? strchr(c1 + 1, ':') : NULL;
+        if (!c2) continue;
+        *c2 = '\0';
+        const char *controllers = c1 + 1, *path = c2 + 1;
+        unsigned q = 0;
+        if (!*controllers && strncmp(line, "0:", 2) == 0) {
+            q = walk_quota(sys_cgroup, path, 1);
+            if (!q) { /* a hybrid layout mounts v2 under "unified" */
+                snprintf(mount, sizeof mount, "%s/unified", sys_cgroup);
+                q = walk_quota(mount, path, 1);
+            }
+        } else {
+            char list[256];
+            snprintf(list, sizeof list, ",%s,", controllers);
+            if (!strstr(list, ",cpu,")) continue;
+            snprintf(mount, sizeof mount, "%s/%s", sys_cgroup, controllers);
+            q = walk_quota(mount, path, 0);
+            if (!q) {
+                snprintf(mount, sizeof mount, "%s/cpu", sys_cgroup);
+                q = walk_quota(mount, path, 0);
+            }
+        }
+        if (q && (!best || q < best)) best = q;
+    }
+    fclose(f);
+    return best;
+}
+
 unsigned pipeline_cpus(void)
 {
     cpu_set_t set;
-    if (sched_getaffinity(0, sizeof set, &set) != 0) return 1;
-    int n = CPU_COUNT(&set);
-    return n > 0 ? (unsigned)n : 1;
+    int n = sched_getaffinity(0, sizeof set, &set) == 0 ? CPU_COUNT(&set) : 1;
+    if (n < 1) n = 1;
+    unsigned q = pipeline_quota_cpus("/proc/self/cgroup", "/sys/fs/cgroup");
+    return q && q < (unsigned)n ? q : (unsigned)n;
 }
 
 /* Commits every done job from `committed` on.  Called with the lock held;

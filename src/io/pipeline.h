@@ -71,7 +71,17 @@ int pipeline_wait(pipeline *p);
 /* The failure code so far (0: none), without waiting. */
 int pipeline_failed(pipeline *p);
 
-/* CPUs this process may run on (sched_getaffinity), at least 1. */
+/* CPUs this process may use, at least 1: those it may run on
+ * (sched_getaffinity), no more than its cgroup's CPU quota allows, rounded
+ * up (a container limited to 2 CPUs of a 16-CPU host: 2; threads beyond
+ * the quota only take turns, and on 2 cores -j4 took 1.19 times as long
+ * as -j2). */
 unsigned pipeline_cpus(void);
+/* The CPU quota of the process's cgroups as CPUs, rounded up (the smallest
+ * of its cgroup and their ancestors; cgroup v2's cpu.max, or v1's
+ * cpu.cfs_quota_us over cpu.cfs_period_us), or 0 when there is none.
+ * proc_cgroup: /proc/self/cgroup; sys_cgroup: where the hierarchies are
+ * mounted, /sys/fs/cgroup (tests give files of their own). */
+unsigned pipeline_quota_cpus(const char *proc_cgroup, const char *sys_cgroup);
 
 #endif
