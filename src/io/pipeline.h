@@ -73,9 +73,10 @@ int pipeline_failed(pipeline *p);
 
 /* CPUs this process may use, at least 1: those it may run on
  * (sched_getaffinity), no more than its cgroup's CPU quota allows, rounded
- * up (a container limited to 2 CPUs of a 16-CPU host: 2; threads beyond
- * the quota only take turns, and on 2 cores -j4 took 1.19 times as long
- * as -j2). */
+ * up (a container limited to 2 CPUs of a 16-CPU host: 2).  Threads beyond
+ * the quota only take turns, and a cgroup that spends its quota early in a
+ * period is stopped, every thread at once, until the next (the kernel's
+ * CFS bandwidth control). */
 unsigned pipeline_cpus(void);
 /* The CPU quota of the process's cgroups as CPUs, rounded up (the smallest
  * of its cgroup and their ancestors; cgroup v2's cpu.max, or v1's
