@@ -58,7 +58,7 @@ static int run(unsigned threads, state *s, char chunks[][64])
         snprintf(chunks[i], 64, "chunk %u", i);
         reader_chunk c = {.data = chunks[i], .len = strlen(chunks[i]), .offset = (uint64_t)i * 64,
                           .delim = ','};
-        rc = pipeline_push(p, &c, i);
+        rc = pipeline_push(p, &c, i, NULL);
     }
     int w = pipeline_wait(p);
     pipeline_free(p);

@@ -20,7 +20,7 @@
 
 typedef struct {
     pipeline_job job;
-    char *buf;       /* the slot's copy of its chunk (threads only) */
+    char *buf;       /* the slot's buffer: its chunk (threads only) */
     size_t cap;      /* its capacity */
     int done;        /* work has run (or was skipped) */
     int rc;          /* what work returned */
@@ -123,7 +123,7 @@ unsigned pipeline_quota_cpus(const char *proc_cgroup, const char *sys_cgroup)
             if (!strstr(list, ",cpu,")) continue;
             snprintf(mount, sizeof mount, "%s/%s", sys_cgroup, controllers);
             q = walk_quota(mount, path, 0);
-            if (!q) {
+            if (!q && strcmp(controllers, "cpu") != 0) { /* also mounted as "cpu" */
                 snprintf(mount, sizeof mount, "%s/cpu", sys_cgroup);
                 q = walk_quota(mount, path, 0);
             }
@@ -245,7 +245,7 @@ static int push_inline(pipeline *p, const reader_chunk *c, uint64_t tag)
     return rc;
 }
 
-int pipeline_push(pipeline *p, const reader_chunk *c, uint64_t tag)
+int pipeline_push(pipeline *p, const reader_chunk *c, uint64_t tag, reader *owner)
 {
     if (!p->nthreads) return push_inline(p, c, tag);
     pthread_mutex_lock(&p->mu);
@@ -258,8 +258,11 @@ int pipeline_push(pipeline *p, const reader_chunk *c, uint64_t tag)
     /* The slot is free: no worker looks at it until it is pushed. */
     slot *s = &p->slots[seq % p->nslots];
     size_t need = c->len + CHUNK_PADDING;
-    if (need > s->cap) {
-        char *nb = realloc(s->buf, need);
+    if (owner || need > s->cap) {
+        /* The reader's buffer, which holds the chunk, in trade for the
+         * slot's (no copy), or a bigger slot buffer for the copy. */
+        char *nb = owner ? (reader_trade_chunk(owner, &s->buf, &s->cap) == 0 ? s->buf : NULL)
+                         : realloc(s->buf, need);
         if (!nb) {
             pthread_mutex_lock(&p->mu);
             /* Chunks pushed before still commit; this one is the failure. */
@@ -269,12 +272,16 @@ int pipeline_push(pipeline *p, const reader_chunk *c, uint64_t tag)
             pthread_mutex_unlock(&p->mu);
             return failed;
         }
-        s->buf = nb;
-        s->cap = need;
+        if (!owner) {
+            s->buf = nb;
+            s->cap = need;
+        }
     }
-    memcpy(s->buf, c->data, need); /* the padding too: zero past the data */
     s->job.ck = *c;
-    s->job.ck.data = s->buf;
+    if (!owner) {
+        memcpy(s->buf, c->data, need); /* the padding too */
+        s->job.ck.data = s->buf;
+    }
     s->job.seq = seq;
     s->job.tag = tag;
     s->done = 0;

@@ -11,12 +11,13 @@
  * see the chunks in order too.)
  *
  *   pipeline *p = pipeline_create(threads, slots, work, commit, ctx);
- *   pipeline_push(p, &chunk, tag) ...;   blocks while every slot is busy
- *   pipeline_wait(p);                    every pushed chunk committed
+ *   pipeline_push(p, &chunk, tag, reader) ...;  blocks while every slot is busy
+ *   pipeline_wait(p);                           every pushed chunk committed
  *   pipeline_free(p);
  *
  * Slots bound the memory: at most `slots` chunks are between push and commit
- * (each copied into its slot's buffer, so the reader may go on).  With one
+ * (each in its slot's buffer, taken from the reader or copied, so the
+ * reader may go on).  With one
  * thread nothing is copied and no thread is started: push runs work and
  * commit on the caller's thread, on the caller's bytes.
  *
@@ -62,9 +63,11 @@ unsigned pipeline_slots(const pipeline *p);
 /* Worker threads running (0 when work runs on the caller's thread). */
 unsigned pipeline_threads(const pipeline *p);
 
-/* Hands a chunk over; blocks while every slot is busy.  Returns 0, or the
- * pipeline's failure code. */
-int pipeline_push(pipeline *p, const reader_chunk *c, uint64_t tag);
+/* Hands a chunk over; blocks while every slot is busy.  owner: the reader
+ * that just handed c out (reader_next_chunk), whose buffer the slot takes in
+ * trade for its own instead of copying the chunk (reader_trade_chunk);
+ * NULL: the chunk is copied.  Returns 0, or the pipeline's failure code. */
+int pipeline_push(pipeline *p, const reader_chunk *c, uint64_t tag, reader *owner);
 /* Waits until every pushed chunk is committed (or skipped after a failure).
  * Returns 0 or the failure code. */
 int pipeline_wait(pipeline *p);

@@ -8,7 +8,6 @@
 /* Bytes gathered before the delimiter is detected (the detection reads the
  * first 50 lines of them), unless the stream ends first. */
 #define DETECT_BYTES (1u << 20)
-#define PULL_BYTES (1u << 20)
 /* Bytes at a file's start that the text check reads (reader_not_text). */
 #define TEXT_SAMPLE_BYTES (64u << 10)
 /* Share of control bytes in the sample above which it is not text. */
@@ -109,11 +108,11 @@ int reader_pull(reader *r, source *src)
     errno = 0;
     char *p = chunker_space(r->ck, &room, r->err, sizeof r->err);
     if (!p) { r->nomem = errno == ENOMEM; return -1; }
-    /* Up to the next mark: a chunk cut there leaves only the start of a
-     * record behind, so the chunk's buffer can be traded, not copied. */
+    /* Up to the next mark (at most 1 MiB away): a chunk cut there leaves
+     * only the start of a record behind, so the chunk's buffer can be
+     * traded, not copied. */
     size_t want = chunker_to_mark(r->ck);
     if (want > room) want = room;
-    if (want > PULL_BYTES) want = PULL_BYTES;
     ssize_t n = source_read(src, p, want);
     if (n < 0) {
         r->nomem = errno == ENOMEM;

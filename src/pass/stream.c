@@ -189,7 +189,7 @@ static int stream_file(run *r, size_t file)
                 }
                 rep->n = reader_repeated_headers(&ch, r->head, r->head_len, rep->at, rep->cap);
             }
-            rc = outcome(r, pipeline_push(r->p, &ch, tag | (uint64_t)e << TAG_RING_SHIFT));
+            rc = outcome(r, pipeline_push(r->p, &ch, tag | (uint64_t)e << TAG_RING_SHIFT, r->rd));
             tag = (uint64_t)file << TAG_SHIFT;
         } else if (st == READER_WANT) {
             int got = reader_pull(r->rd, src);

@@ -228,7 +228,7 @@ static scan_status setup(scan_context *sc, char **names, size_t nnames)
     uint64_t nbuf = 2 * ((uint64_t)sc->threads + 1), chunk = o->chunk_bytes + 64;
     if (o->mem_limit_bytes && need + nbuf * chunk > o->mem_limit_bytes) {
         snprintf(sc->err, sizeof sc->err,
-                 "the co-moment matrix (%s) and %llu chunk buffers of %s need "
+                 "the co-moment matrix (%s) and chunk buffers for %llu chunks of %s need "
                  "%s before any row, above the %s limit ({mem_limit}); lower {chunk_size} "
                  "or {threads}, or raise the limit",
                  show_bytes((double)need, needs, sizeof needs), (unsigned long long)nbuf,
