@@ -69,6 +69,7 @@
 #define DENSE_TAIL 400     /* a window leaves out at most 1/400 of the counts at each end */
 #define DENSE_FIRST 4096u  /* values before the first window: enough to see the range */
 #define DENSE_MISSES 16384u /* values outside a window before it is reconsidered */
+#define DENSE_COVER 90      /* percent of the values so far a window must hold to be opened */
 
 /* Closes the dense window (nothing pending); the next is tried once the
  * store's total reaches retry_at. */
@@ -396,13 +397,34 @@ static void lobe_range(const buckets_entry *e, size_t n, uint64_t *lo, uint64_t 
     *hi = (uint64_t)e[j].key;
 }
 
+/* The first of `keep` consecutive magnitudes holding the most counts of
+ * e[0..n) (one entry per magnitude, ascending), a range starting at one of
+ * them; `otherwise` when there is none. */
+static uint64_t densest_start(const buckets_entry *e, size_t n, uint64_t keep, uint64_t otherwise)
+{
+    uint64_t best = 0, sum = 0, start = otherwise;
+    for (size_t i = 0, j = 0; i < n; i++) {
+        while (j < n && (uint64_t)e[j].key - (uint64_t)e[i].key < keep) sum += e[j++].count;
+        if (sum > best) best = sum, start = (uint64_t)e[i].key;
+        sum -= e[i].count;
+    }
+    return start;
+}
+
 /* Opens a window over the magnitudes that hold all but 1/DENSE_TAIL of
  * each sign's counts at each end (at the table's level), widened by an
  * eighth on each side, at most DENSE_MAX counters and no more than the
  * table's slots or DENSE_ROOM, whichever is more (memory: a store per
- * column, thousands of columns), narrowed around the middle of each sign's
- * range when that is too many; else tries again once the store has twice
- * the values.  Nothing pending.
+ * column, thousands of columns); when that is too many, each sign's range
+ * is narrowed in proportion, to the stretch that holds most of its values
+ * (around the middle, before: a column of whole numbers from 1 to 2,000,000
+ * has most of its values in its top octaves and its window held almost
+ * none).  A window that would hold fewer than
+ * DENSE_COVER percent of the values so far is not opened (a narrowed one
+ * missed so many that it was closed and reopened without end: a regression
+ * target's 40 to 65 cells leave room for a few hundred keys).  When no
+ * window is opened, tries again once the store has twice the values.
+ * Nothing pending.
  *
  * Why DENSE_ROOM: a column of few values spread over a wide range of
  * magnitudes (whole numbers 0 to 100, one decimal from -20 to 50) keeps a
@@ -438,7 +460,6 @@ static void dense_open(buckets *b)
     uint64_t lo[2] = {1, 1}, hi[2] = {0, 0}, mass[2];
     lobe_range(e + neg + zero, n - neg - zero, &lo[0], &hi[0], &mass[0]);
     lobe_range(e, neg, &lo[1], &hi[1], &mass[1]);
-    free(e);
     const uint64_t cells = (uint64_t)top_cell + 1, top = (uint64_t)max_magnitude(b->level);
     const uint64_t room = (uint64_t)b->cap > DENSE_ROOM ? (uint64_t)b->cap : DENSE_ROOM;
     const uint64_t most = DENSE_MAX < room ? DENSE_MAX : room;
@@ -454,17 +475,32 @@ static void dense_open(buckets *b)
     /* Without cells (no target) the table is a quarter of the size and
      * mostly stays in the core's caches: the window would only add the
      * work of settling it, on the serial end of the scan. */
-    if (cells < 2 || cells * 16 > most) { dense_close(b, retry); return; }
-    if (rows * cells > most) { /* each range narrowed around its middle, in proportion */
+    if (cells < 2 || cells * 16 > most) {
+        free(e);
+        dense_close(b, retry);
+        return;
+    }
+    const buckets_entry *lobe[2] = {e + neg + zero, e};
+    const size_t lobe_n[2] = {n - neg - zero, neg};
+    if (rows * cells > most) { /* each range narrowed in proportion, to where its values are */
         uint64_t room = most / cells - 1, had = rows - 1;
         rows = 1;
         for (int s = 0; s < 2; s++) {
             uint64_t keep = width[s] * room / had;
-            lo[s] += (width[s] - keep) / 2;
+            if (keep) lo[s] = densest_start(lobe[s], lobe_n[s], keep, lo[s] + (width[s] - keep) / 2);
             width[s] = keep;
             rows += keep;
         }
     }
+    /* The values so far that the window would hold: key 0, and each sign's
+     * magnitudes inside its range. */
+    uint64_t all = mass[0] + mass[1], in = 0;
+    if (zero) in = e[neg].count, all += e[neg].count;
+    for (int s = 0; s < 2; s++)
+        for (size_t i = 0; i < lobe_n[s]; i++)
+            if ((uint64_t)lobe[s][i].key - lo[s] < width[s]) in += lobe[s][i].count;
+    free(e);
+    if (in * 100 < all * DENSE_COVER) { dense_close(b, retry); return; }
     uint64_t size = rows * cells;
     if (b->dense_alloc < size) {
         uint32_t *d = realloc(b->dense, (size_t)size * sizeof *d);
