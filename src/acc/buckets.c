@@ -65,7 +65,7 @@
 /* ---- tables (the lookups and sizes are in buckets_store.h) ----------- */
 
 #define DENSE_MAX 65536u   /* dense window (below): counters in a window (256 KiB) */
-#define DENSE_ROOM 16384u  /* counters a window may have whatever the table's size (64 KiB) */
+#define DENSE_ROOM 8192u   /* counters a window may have whatever the table's size (32 KiB) */
 #define DENSE_TAIL 400     /* a window leaves out at most 1/400 of the counts at each end */
 #define DENSE_FIRST 4096u  /* values before the first window: enough to see the range */
 #define DENSE_MISSES 16384u /* values outside a window before it is reconsidered */
