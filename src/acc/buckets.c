@@ -61,6 +61,7 @@
 #include "acc/buckets_key.h"
 
 #include "acc/buckets_store.h"
+#include "acc/zeroed.h"
 
 /* ---- tables (the lookups and sizes are in buckets_store.h) ----------- */
 
@@ -83,7 +84,7 @@ static int grow_slots(buckets *b)
 {
     if (b->cap > UINT32_MAX / 2) return -1; /* order_item.pos is 32-bit */
     size_t cap = b->cap * 2;
-    slot *slots = calloc(cap, sizeof *slots);
+    slot *slots = zeroed(cap, sizeof *slots);
     order_item *order = malloc(ORDER_CAP(cap) * sizeof *order);
     if (!slots || !order) { free(slots); free(order); return -1; }
     unsigned shift = 64 - log2_of(cap);
@@ -105,7 +106,7 @@ static int grow_slots(buckets *b)
 static int grow_keys(buckets *b)
 {
     size_t cap = b->key_cap * 2;
-    key_slot *keys = calloc(cap, sizeof *keys);
+    key_slot *keys = zeroed(cap, sizeof *keys);
     if (!keys) return -1;
     unsigned shift = 64 - log2_of(cap);
     for (size_t i = 0; i < b->key_cap; i++) {
@@ -733,7 +734,7 @@ int buckets_map_cells(buckets *b, const uint32_t *cell_map, uint32_t map_len)
     /* The same keys and level: only the entry table is rebuilt, each entry
      * under its new id (entries that meet add up, so each key's entry count
      * is recounted); the sort index is left to the next seal. */
-    slot *slots = calloc(b->cap, sizeof *slots);
+    slot *slots = zeroed(b->cap, sizeof *slots);
     if (!slots) return -1;
     size_t n = 0;
     for (size_t i = 0; i < b->cap; i++) {

@@ -12,6 +12,7 @@
 #include "acc/radix.h"
 
 #include "acc/buckets_store.h"
+#include "acc/zeroed.h"
 
 static int order_cmp(const void *pa, const void *pb)
 {
@@ -144,8 +145,8 @@ int buckets_rebuild(buckets *b, const buckets_entry *e, size_t n, int level)
 {
     size_t nk = distinct_keys(e, n);
     size_t cap = cap_for(n), key_cap = cap_for(nk);
-    slot *slots = calloc(cap, sizeof *slots);
-    key_slot *keys = calloc(key_cap, sizeof *keys);
+    slot *slots = zeroed(cap, sizeof *slots);
+    key_slot *keys = zeroed(key_cap, sizeof *keys);
     order_item *order = malloc(ORDER_CAP(cap) * sizeof *order);
     if (!slots || !keys || !order) { free(slots); free(keys); free(order); return -1; }
     unsigned shift = 64 - log2_of(cap), key_shift = 64 - log2_of(key_cap);

@@ -48,6 +48,7 @@
 #include "acc/comoment.h"
 
 #include "acc/blas.h"
+#include "acc/zeroed.h"
 
 #include <cblas.h>
 #include <limits.h>
@@ -143,7 +144,7 @@ comoment *comoment_create(size_t p, size_t max_rows)
     c->max_rows = max_rows;
     c->pairs = p * (p + 1) / 2;
     size_t t = c->pairs ? c->pairs : 1;
-    double *s = calloc(6 * t, sizeof(double));
+    double *s = zeroed(6 * t, sizeof(double));
     if (!s) { free(c); return NULL; }
     c->n = s;
     c->mean_lo = s + t;

@@ -60,6 +60,7 @@
 #include "io/clones.h"
 #include "acc/crosstab.h"
 #include "acc/crosstab_table.h"
+#include "acc/zeroed.h"
 
 #include <math.h>
 #include <stdlib.h>
@@ -87,7 +88,7 @@ int crosstab_reserve_records(crosstab *t, uint64_t entries)
     uint32_t bits = bits_for(entries, t->bits);
     if (!bits) return -1;
     if (bits == t->bits) return 0;
-    unsigned char *slots = calloc((size_t)1 << bits, t->stride);
+    unsigned char *slots = zeroed((size_t)1 << bits, t->stride);
     if (!slots) return -1;
     unsigned char *old = t->slots;
     uint32_t old_n = t->bits ? UINT32_C(1) << t->bits : 0;

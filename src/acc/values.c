@@ -38,6 +38,7 @@
 #include "acc/values.h"
 
 #include "acc/radix.h"
+#include "acc/zeroed.h"
 
 #include <stdlib.h>
 #include <string.h>
@@ -113,8 +114,8 @@ static int reserve_entries(values *v, uint32_t entries)
     if (bits == v->bits) return 0;
 
     size_t n = (size_t)1 << bits;
-    slot *slots = calloc(n, sizeof *slots);
-    label_ref *labels = calloc(n, sizeof *labels);
+    slot *slots = zeroed(n, sizeof *slots);
+    label_ref *labels = zeroed(n, sizeof *labels);
     if (!slots || !labels) { free(slots); free(labels); return -1; }
 
     uint32_t old_n = slot_count(v);
