@@ -16,6 +16,19 @@
 # the libraries that compute them (ISA-L for the gzip inputs, OpenBLAS for the
 # co-moments), so they hold for one machine image, not across machines.
 #
+# Two things of the machine are pinned or rounded away, so that the values
+# hold on any x86-64 CPU with AVX2 and FMA (the CI machine may not be the one
+# that recorded them):
+# - OpenBLAS picks its kernels by CPU: the values were made with its Haswell
+#   kernels, which it also runs on AMD Zen, while a CPU with AVX-512 gets the
+#   SkylakeX kernels, whose sums of products round differently in the last
+#   bits of the co-moments of small tables.  OPENBLAS_CORETYPE=Haswell is set
+#   below where the CPU can run them.
+# - The JSON outputs are hashed with every number rounded to 12 significant
+#   digits: one screen of the bench table differed in the last digits of its
+#   p-values between two machines of the same image but for the CPU, for
+#   the same summary bytes.
+#
 # To refresh the values deliberately (a format change that is intended):
 #   SHEAF_GOLDEN_UPDATE=1 bash tests/cli/test_golden.sh
 # rewrites tests/golden/sha256.txt; review the diff and commit it with the
@@ -38,6 +51,11 @@ T=$(mktemp -d "${TMPDIR:-/tmp}/sheaf-golden.XXXXXX")
 trap 'rm -rf "$T"' EXIT
 
 . tests/cli/common.sh
+
+if [ -z "${OPENBLAS_CORETYPE:-}" ] && grep -qw avx2 /proc/cpuinfo 2>/dev/null &&
+    grep -qw fma /proc/cpuinfo 2>/dev/null; then
+    export OPENBLAS_CORETYPE=Haswell
+fi
 
 for tool in "$SHEAF" "$GEN"; do
     if [ ! -x "$tool" ]; then
@@ -139,7 +157,8 @@ summary() {
     record "$name" "$(sha256sum <"$out" | cut -d' ' -f1)" "$cmd"
 }
 
-# stdout NAME COMMAND...: the sha256 of a command's standard output.
+# stdout NAME COMMAND...: the sha256 of a command's standard output (JSON,
+# numbers rounded: json_rounded).
 stdout() {
     local name=$1
     shift
@@ -149,7 +168,28 @@ stdout() {
         fail "golden.$name" "exit $RC: $(err_text); command: $cmd"
         return 1
     fi
-    record "$name" "$(sha256sum <"$T/out" | cut -d' ' -f1)" "$cmd"
+    if ! json_rounded <"$T/out" >"$T/rounded"; then
+        fail "golden.$name" "output is not JSON; command: $cmd"
+        return 1
+    fi
+    record "$name" "$(sha256sum <"$T/rounded" | cut -d' ' -f1)" "$cmd"
+}
+
+# json_rounded: the JSON on stdin, every number rounded to 12 significant
+# digits, written back in the same order.
+json_rounded() {
+    /usr/bin/python3 -c '
+import json, sys
+def rounded(x):
+    if isinstance(x, float):
+        return float("%.12g" % x)
+    if isinstance(x, list):
+        return [rounded(v) for v in x]
+    if isinstance(x, dict):
+        return {k: rounded(v) for k, v in x.items()}
+    return x
+json.dump(rounded(json.load(sys.stdin)), sys.stdout, indent=1)
+'
 }
 
 have() { [ -n "${HAVE[$1]:-}" ]; }
