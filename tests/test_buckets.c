@@ -1062,18 +1062,23 @@ Test(buckets, dense_window_opens_only_where_it_holds_most_values)
      * value (narrowed around the middle, it held almost none, and was
      * closed and reopened again and again).
      * Numbers spread evenly over 60 octaves have no such stretch: no window
-     * is opened.  Either way the store equals the one of single adds. */
+     * is opened.  A growing column (a sequence number) has its densest
+     * stretch at its top; its narrowed window keeps room above it, so that
+     * it holds most values (132,397 of 200,000 here, reopened twice;
+     * without that room 85,150, reopened 4 times).  Either way the store
+     * equals the one of single adds. */
     enum { N = 200000 };
     static double x[N];
     static uint32_t cells[N];
-    for (int shape = 0; shape < 2; shape++) {
+    for (int shape = 0; shape < 3; shape++) {
         uint64_t r = 0x243f6a8885a308d3ull;
         buckets *one = buckets_create(2048), *many = buckets_create(2048);
         cr_assert(one && many);
-        uint64_t in = 0, out = 0;
+        uint64_t in = 0, out = 0, reopened = 0;
         for (size_t i = 0; i < N; i++) {
-            x[i] = shape == 0 ? (double)(1 + rng_next(&r) % 1000000)
-                              : ldexp(1 + rng_uniform(&r), (int)(rng_next(&r) % 60) - 30);
+            x[i] = shape == 0   ? (double)(1 + rng_next(&r) % 1000000)
+                   : shape == 1 ? ldexp(1 + rng_uniform(&r), (int)(rng_next(&r) % 60) - 30)
+                                : (double)(1000 + 5 * i);
             cells[i] = (uint32_t)(rng_next(&r) % 48);
             cr_assert_eq(buckets_add(one, x[i], cells[i], 1), 0);
         }
@@ -1087,9 +1092,13 @@ Test(buckets, dense_window_opens_only_where_it_holds_most_values)
             } else {
                 in += many->dense_in;
                 out += many->dense_out;
+                reopened++;
             }
         }
-        if (shape == 0)
+        if (shape == 2)
+            cr_assert(reopened <= 4 && in > N / 2, "a growing column: %llu reopenings, %llu in",
+                      (unsigned long long)reopened, (unsigned long long)in);
+        else if (shape == 0)
             cr_assert(in > N / 2 && out * 20 < in, "1 to 1,000,000: %llu in a window, %llu outside",
                       (unsigned long long)in, (unsigned long long)out);
         else

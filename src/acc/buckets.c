@@ -489,7 +489,16 @@ static void dense_open(buckets *b)
         rows = 1;
         for (int s = 0; s < 2; s++) {
             uint64_t keep = width[s] * room / had;
-            if (keep) lo[s] = densest_start(lobe[s], lobe_n[s], keep, lo[s] + (width[s] - keep) / 2);
+            /* an eighth of it on each side as room to drift: a column that
+             * grows (a sequence number, a time stamp) has its densest
+             * stretch at its top, and a window ending there was left by the
+             * next values and reopened again and again */
+            uint64_t m = keep / 8;
+            if (keep) {
+                uint64_t at = densest_start(lobe[s], lobe_n[s], keep - 2 * m,
+                                            lo[s] + (width[s] - keep) / 2 + m);
+                lo[s] = at > m ? at - m : 1;
+            }
             width[s] = keep;
             rows += keep;
         }
