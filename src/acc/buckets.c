@@ -65,12 +65,8 @@
 
 /* ---- tables (the lookups and sizes are in buckets_store.h) ----------- */
 
-#define DENSE_MAX 65536u   /* dense window (below): counters in a window (256 KiB) */
-#define DENSE_ROOM 8192u   /* counters a window may have whatever the table's size (32 KiB) */
-#define DENSE_TAIL 400     /* a window leaves out at most 1/400 of the counts at each end */
 #define DENSE_FIRST 4096u  /* values before the first window: enough to see the range */
 #define DENSE_MISSES 16384u /* values outside a window before it is reconsidered */
-#define DENSE_COVER 90      /* percent of the values so far a window must hold to be opened */
 
 /* Closes the dense window (nothing pending); the next is tried once the
  * store's total reaches retry_at. */
@@ -380,139 +376,14 @@ static int settle(buckets *b)
     return 0;
 }
 
-/* The magnitudes [*lo, *hi] that hold all but 1/DENSE_TAIL of the counts
- * of e[0..n) (one entry per magnitude, ascending) at each end; *mass their
- * count.  Nothing when n is 0 (*mass 0). */
-static void lobe_range(const buckets_entry *e, size_t n, uint64_t *lo, uint64_t *hi,
-                       uint64_t *mass)
-{
-    uint64_t total = 0, cum = 0;
-    for (size_t i = 0; i < n; i++) total += e[i].count;
-    *mass = total;
-    if (!n) return;
-    uint64_t cut = total / DENSE_TAIL;
-    size_t i = 0, j = n - 1;
-    while (i < j && cum + e[i].count <= cut) cum += e[i++].count;
-    for (cum = 0; j > i && cum + e[j].count <= cut;) cum += e[j--].count;
-    *lo = (uint64_t)e[i].key;
-    *hi = (uint64_t)e[j].key;
-}
-
-/* The first of `keep` consecutive magnitudes holding the most counts of
- * e[0..n) (one entry per magnitude, ascending), a range starting at one of
- * them; `otherwise` when there is none. */
-static uint64_t densest_start(const buckets_entry *e, size_t n, uint64_t keep, uint64_t otherwise)
-{
-    uint64_t best = 0, sum = 0, start = otherwise;
-    for (size_t i = 0, j = 0; i < n; i++) {
-        while (j < n && (uint64_t)e[j].key - (uint64_t)e[i].key < keep) sum += e[j++].count;
-        if (sum > best) best = sum, start = (uint64_t)e[i].key;
-        sum -= e[i].count;
-    }
-    return start;
-}
-
-/* Opens a window over the magnitudes that hold all but 1/DENSE_TAIL of
- * each sign's counts at each end (at the table's level), widened by an
- * eighth on each side, at most DENSE_MAX counters and no more than the
- * table's slots or DENSE_ROOM, whichever is more (memory: a store per
- * column, thousands of columns); when that is too many, each sign's range
- * is narrowed in proportion, to the stretch that holds most of its values
- * (around the middle, before: a column of whole numbers from 1 to 2,000,000
- * has most of its values in its top octaves and its window held almost
- * none).  A window that would hold fewer than
- * DENSE_COVER percent of the values so far is not opened (a narrowed one
- * missed so many that it was closed and reopened without end: a regression
- * target's 40 to 65 cells leave room for a few hundred keys).  When no
- * window is opened, tries again once the store has twice the values.
- * Nothing pending.
- *
- * Why DENSE_ROOM: a column of few values spread over a wide range of
- * magnitudes (whole numbers 0 to 100, one decimal from -20 to 50) keeps a
- * small table but needs a window over every key between its ends.  Bound by
- * the table's slots alone, such a window was narrowed to a few dozen keys,
- * most values fell outside it and paid the window and the hashed table both,
- * and it was closed and reopened every few ten thousand values (2,000,000
- * rows of the bench table: 15.4 million of 48.7 million values through the
- * table, four columns reopening 74 to 97 times).  A window opened early,
- * while the table was still small, stayed narrow for good. */
+/* Opens the window buckets_window_plan places (buckets_window.c); else
+ * tries again once the store has twice the values.  Nothing pending. */
 static void dense_open(buckets *b)
 {
     uint64_t retry = b->total < DENSE_FIRST ? DENSE_FIRST : 2 * b->total;
-    buckets_entry *e = b->n ? malloc(b->n * sizeof *e) : NULL;
-    if (!e) { dense_close(b, retry); return; }
-    size_t n = buckets_gather(b, b->level, NULL, e);
-    uint32_t top_cell = 0;
-    for (size_t i = 0; i < n; i++) {
-        if (e[i].cell > top_cell) top_cell = e[i].cell;
-        e[i].cell = 0;
-    }
-    n = buckets_sort_combine(e, n); /* one entry per key, in key order */
-    size_t neg = 0, zero;
-    while (neg < n && e[neg].key < 0) neg++;
-    zero = neg < n && e[neg].key == 0;
-    /* negative keys as magnitudes, ascending */
-    for (size_t i = 0; i < neg; i++) e[i].key = -e[i].key;
-    for (size_t i = 0, k = neg; i < k / 2; i++) {
-        buckets_entry t = e[i];
-        e[i] = e[k - 1 - i];
-        e[k - 1 - i] = t;
-    }
-    uint64_t lo[2] = {1, 1}, hi[2] = {0, 0}, mass[2];
-    lobe_range(e + neg + zero, n - neg - zero, &lo[0], &hi[0], &mass[0]);
-    lobe_range(e, neg, &lo[1], &hi[1], &mass[1]);
-    const uint64_t cells = (uint64_t)top_cell + 1, top = (uint64_t)max_magnitude(b->level);
-    const uint64_t room = (uint64_t)b->cap > DENSE_ROOM ? (uint64_t)b->cap : DENSE_ROOM;
-    const uint64_t most = DENSE_MAX < room ? DENSE_MAX : room;
-    uint64_t width[2] = {0, 0}, rows = 1;
-    for (int s = 0; s < 2; s++) {
-        if (!mass[s]) continue;
-        uint64_t margin = (hi[s] - lo[s] + 1) / 8 + 2;
-        lo[s] = lo[s] > margin ? lo[s] - margin : 1;
-        hi[s] = hi[s] + margin > top ? top : hi[s] + margin;
-        width[s] = hi[s] - lo[s] + 1;
-        rows += width[s];
-    }
-    /* Stores without cells (no target) get a window too: their tables are
-     * a quarter of the size, but a table of 500 columns does not stay in a
-     * core's caches either (a scan of 500 columns took 13% less time with
-     * windows, one of the 28-column bench table 6% less). */
-    if (cells * 16 > most) {
-        free(e);
-        dense_close(b, retry);
-        return;
-    }
-    const buckets_entry *lobe[2] = {e + neg + zero, e};
-    const size_t lobe_n[2] = {n - neg - zero, neg};
-    if (rows * cells > most) { /* each range narrowed in proportion, to where its values are */
-        uint64_t room = most / cells - 1, had = rows - 1;
-        rows = 1;
-        for (int s = 0; s < 2; s++) {
-            uint64_t keep = width[s] * room / had;
-            /* an eighth of it on each side as room to drift: a column that
-             * grows (a sequence number, a time stamp) has its densest
-             * stretch at its top, and a window ending there was left by the
-             * next values and reopened again and again */
-            uint64_t m = keep / 8;
-            if (keep) {
-                uint64_t at = densest_start(lobe[s], lobe_n[s], keep - 2 * m,
-                                            lo[s] + (width[s] - keep) / 2 + m);
-                lo[s] = at > m ? at - m : 1;
-            }
-            width[s] = keep;
-            rows += keep;
-        }
-    }
-    /* The values so far that the window would hold: key 0, and each sign's
-     * magnitudes inside its range. */
-    uint64_t all = mass[0] + mass[1], in = 0;
-    if (zero) in = e[neg].count, all += e[neg].count;
-    for (int s = 0; s < 2; s++)
-        for (size_t i = 0; i < lobe_n[s]; i++)
-            if ((uint64_t)lobe[s][i].key - lo[s] < width[s]) in += lobe[s][i].count;
-    free(e);
-    if (in * 100 < all * DENSE_COVER) { dense_close(b, retry); return; }
-    uint64_t size = rows * cells;
+    buckets_window w;
+    if (!buckets_window_plan(b, &w)) { dense_close(b, retry); return; }
+    uint64_t size = w.rows * w.cells;
     if (b->dense_alloc < size) {
         uint32_t *d = realloc(b->dense, (size_t)size * sizeof *d);
         if (!d) { dense_close(b, retry); return; }
@@ -520,19 +391,19 @@ static void dense_open(buckets *b)
         b->dense_alloc = (size_t)size;
     }
     memset(b->dense, 0, (size_t)size * sizeof *b->dense);
-    b->lobe_base[0] = lo[0];
-    b->lobe_width[0] = width[0];
+    b->lobe_base[0] = w.base[0];
+    b->lobe_width[0] = w.width[0];
     b->lobe_row[0] = 1;
-    b->lobe_base[1] = lo[1];
-    b->lobe_width[1] = width[1];
-    b->lobe_row[1] = 1 + width[0];
+    b->lobe_base[1] = w.base[1];
+    b->lobe_width[1] = w.width[1];
+    b->lobe_row[1] = 1 + w.width[0];
     for (int z = 2; z < 4; z++) { /* key 0: row 0 */
         b->lobe_base[z] = 0;
         b->lobe_width[z] = 1;
         b->lobe_row[z] = 0;
     }
-    b->dense_rows = (uint32_t)rows;
-    b->dense_cells = (uint32_t)cells;
+    b->dense_rows = (uint32_t)w.rows;
+    b->dense_cells = (uint32_t)w.cells;
     b->dense_level = b->level;
     b->dense_in = b->dense_out = 0;
 }

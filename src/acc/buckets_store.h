@@ -1,5 +1,6 @@
-/* buckets, private part: the store's tables, shared by the store (buckets.c)
- * and its reads (buckets_read.c: quantiles, the file form).  See buckets.h
+/* buckets, private part: the store's tables, shared by the store (buckets.c),
+ * the placing of its dense window (buckets_window.c), its sorts
+ * (buckets_sort.c) and its reads (buckets_read.c: quantiles, the file form).  See buckets.h
  * for the interface and buckets.c for the method. */
 #ifndef SHEAF_BUCKETS_STORE_H
 #define SHEAF_BUCKETS_STORE_H
@@ -119,6 +120,18 @@ static inline size_t key_find(const key_slot *keys, size_t cap, unsigned shift, 
         pos = (pos + 1) & mask;
     }
 }
+
+/* ---- where the dense window goes (buckets_window.c) ---------------------- */
+
+typedef struct {
+    uint64_t base[2], width[2]; /* per sign (0 positive, 1 negative): first magnitude, count */
+    uint64_t rows, cells;       /* counters: rows (row 0 is key 0, then each sign's) x cells */
+} buckets_window;
+
+/* Where b's next window goes, from the entries of its table: 1 with *w set,
+ * or 0 when none should be opened now (too few of the values so far would
+ * fall in it, too many cells, or no memory for the look). */
+int buckets_window_plan(const buckets *b, buckets_window *w);
 
 /* ---- sorting and rebuilding (buckets_sort.c) ----------------------------- */
 
