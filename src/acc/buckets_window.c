@@ -33,11 +33,11 @@ static void lobe_range(const buckets_entry *e, size_t n, uint64_t *lo, uint64_t 
 }
 
 /* The first of `keep` consecutive magnitudes holding the most counts of
- * e[0..n) (one entry per magnitude, ascending), a range starting at one of
- * them; `otherwise` when there is none. */
-static uint64_t densest_start(const buckets_entry *e, size_t n, uint64_t keep, uint64_t otherwise)
+ * e[0..n) (n > 0, one entry per magnitude, ascending, every count > 0), a
+ * range starting at one of them. */
+static uint64_t densest_start(const buckets_entry *e, size_t n, uint64_t keep)
 {
-    uint64_t best = 0, sum = 0, start = otherwise;
+    uint64_t best = 0, sum = 0, start = (uint64_t)e[0].key;
     for (size_t i = 0, j = 0; i < n; i++) {
         while (j < n && (uint64_t)e[j].key - (uint64_t)e[i].key < keep) sum += e[j++].count;
         if (sum > best) best = sum, start = (uint64_t)e[i].key;
@@ -105,10 +105,11 @@ int buckets_window_plan(const buckets *b, buckets_window *w)
         width[s] = hi[s] - lo[s] + 1;
         rows += width[s];
     }
-    /* Stores without cells (no target) get a window too: their tables are
-     * a quarter of the size, but a table of 500 columns does not stay in a
-     * core's caches either (a scan of 500 columns took 13% less time with
-     * windows, one of the 28-column bench table 6% less). */
+    /* Too many cells for a useful window.  Stores without cells (no
+     * target) get one too: their tables are a quarter of the size, but a
+     * table of 500 columns does not stay in a core's caches either (a scan
+     * of 500 columns took 13% less time with windows, one of the 28-column
+     * bench table 6% less). */
     if (cells * 16 > most) {
         free(e);
         return 0;
@@ -116,18 +117,17 @@ int buckets_window_plan(const buckets *b, buckets_window *w)
     const buckets_entry *lobe[2] = {e + neg + zero, e};
     const size_t lobe_n[2] = {n - neg - zero, neg};
     if (rows * cells > most) { /* each range narrowed in proportion, to where its values are */
-        uint64_t room = most / cells - 1, had = rows - 1;
+        uint64_t keys = most / cells - 1, had = rows - 1;
         rows = 1;
         for (int s = 0; s < 2; s++) {
-            uint64_t keep = width[s] * room / had;
+            uint64_t keep = width[s] * keys / had;
             /* room to drift: a column that grows (a sequence number, a
              * time stamp) has its densest stretch at its top, and a window
              * ending there was left by the next values and reopened again
              * and again */
             uint64_t m = keep / 8;
-            if (keep) {
-                uint64_t at = densest_start(lobe[s], lobe_n[s], keep - 2 * m,
-                                            lo[s] + (width[s] - keep) / 2 + m);
+            if (keep) { /* a range of keys has entries: its lobe is not empty */
+                uint64_t at = densest_start(lobe[s], lobe_n[s], keep - 2 * m);
                 lo[s] = at > m ? at - m : 1;
             }
             width[s] = keep;
