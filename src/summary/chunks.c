@@ -404,6 +404,32 @@ static void *worker(void *arg)
 
 /* ---- the interface ----------------------------------------------------------- */
 
+/* The columns of each group (w->group_cols from w->group_at[g]).  With a
+ * cache line of cell positions (GROUP_RUN of them) or more a group, a group
+ * takes a run of neighbouring columns: its cells then sit together in each
+ * row, text and positions, so that each line of the chunk is read on one
+ * core rather than on both (500 columns at -j2, medians of 7: 0.775 ->
+ * 0.719 s, CPU 1.393 -> 1.281 s; bench/threads-notes.md).  With fewer
+ * columns they are dealt out in turn, which spreads the costly ones over
+ * the groups: runs were 1% slower on the 28-column table, in each of three
+ * runs. */
+#define GROUP_RUN (64 / sizeof(csv_span))
+
+static void group_columns(chunks *w)
+{
+    size_t n = 0;
+    int runs = w->ncols >= GROUP_RUN * w->ngroups;
+    for (size_t g = 0; g < w->ngroups; g++) {
+        w->group_at[g] = n;
+        if (runs)
+            for (size_t c = g * w->ncols / w->ngroups; c < (g + 1) * w->ncols / w->ngroups; c++)
+                w->group_cols[n++] = c;
+        else
+            for (size_t c = g; c < w->ncols; c += w->ngroups) w->group_cols[n++] = c;
+    }
+    w->group_at[w->ngroups] = n;
+}
+
 chunks *chunks_create(const chunks_options *o)
 {
     chunks *w = calloc(1, sizeof *w);
@@ -432,26 +458,19 @@ chunks *chunks_create(const chunks_options *o)
     w->target_ref = calloc(w->nruns, sizeof *w->target_ref);
     w->target_ref_set = calloc(w->nruns, 1);
     /* Column groups: one with one thread; else GROUPS_PER_THREAD per
-     * thread (the columns dealt out in turn), so that a worker finds a group
-     * to feed while another is busy, and a group fed by the worker that does
-     * not own it (pick) moves little state between cores: four per thread
-     * took 3 to 6% off the 28-column table at -j2 against two, the
-     * 500-column table within the noise (bench/threads-notes.md).  Groups
-     * decide only who feeds a column, never what. */
+     * thread, so that a worker finds a group to feed while another is busy,
+     * and a group fed by the worker that does not own it (pick) moves little
+     * state between cores: four per thread took 3 to 6% off the 28-column
+     * table at -j2 against two, the 500-column table within the noise
+     * (bench/threads-notes.md).  Which columns share a group: see
+     * group_columns.  Groups decide only who feeds a column, never what. */
     w->ngroups = threads > 1 ? GROUPS_PER_THREAD * (size_t)threads : 1;
     if (w->ngroups > w->ncols) w->ngroups = w->ncols ? w->ncols : 1;
     w->g_next = calloc(w->ngroups, sizeof *w->g_next);
     w->g_busy = calloc(w->ngroups, 1);
     w->group_cols = calloc(w->ncols ? w->ncols : 1, sizeof *w->group_cols);
     w->group_at = calloc(w->ngroups + 1, sizeof *w->group_at);
-    if (w->group_cols && w->group_at) {
-        size_t n = 0;
-        for (size_t g = 0; g < w->ngroups; g++) {
-            w->group_at[g] = n;
-            for (size_t c = g; c < w->ncols; c += w->ngroups) w->group_cols[n++] = c;
-        }
-        w->group_at[w->ngroups] = n;
-    }
+    if (w->group_cols && w->group_at) group_columns(w);
     w->devp = calloc(w->ncomo ? w->ncomo : 1, sizeof *w->devp);
     w->presp = calloc(w->ncomo ? w->ncomo : 1, sizeof *w->presp);
     w->threads = calloc(threads, sizeof *w->threads);
