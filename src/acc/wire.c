@@ -41,25 +41,6 @@ void wire_put_bytes(wire_writer *w, const void *p, size_t n)
     w->len += n;
 }
 
-static void put_le(wire_writer *w, uint64_t v, int bytes)
-{
-    uint8_t b[8];
-    for (int i = 0; i < bytes; i++) b[i] = (uint8_t)(v >> (8 * i));
-    wire_put_bytes(w, b, (size_t)bytes);
-}
-
-void wire_put_u8(wire_writer *w, uint8_t v) { put_le(w, v, 1); }
-void wire_put_u32(wire_writer *w, uint32_t v) { put_le(w, v, 4); }
-void wire_put_u64(wire_writer *w, uint64_t v) { put_le(w, v, 8); }
-void wire_put_i64(wire_writer *w, int64_t v) { put_le(w, (uint64_t)v, 8); }
-
-void wire_put_f64(wire_writer *w, double v)
-{
-    uint64_t u;
-    memcpy(&u, &v, 8);
-    put_le(w, u, 8);
-}
-
 void wire_put_str(wire_writer *w, const char *s, size_t n)
 {
     wire_put_u32(w, (uint32_t)n);
@@ -78,28 +59,6 @@ int wire_need(wire_reader *r, size_t n)
 {
     if (!r->failed && r->len - r->pos < n) r->failed = 1;
     return !r->failed;
-}
-
-static uint64_t get_le(wire_reader *r, int bytes)
-{
-    if (!wire_need(r, (size_t)bytes)) return 0;
-    uint64_t v = 0;
-    for (int i = 0; i < bytes; i++) v |= (uint64_t)r->data[r->pos + i] << (8 * i);
-    r->pos += (size_t)bytes;
-    return v;
-}
-
-uint8_t wire_get_u8(wire_reader *r) { return (uint8_t)get_le(r, 1); }
-uint32_t wire_get_u32(wire_reader *r) { return (uint32_t)get_le(r, 4); }
-uint64_t wire_get_u64(wire_reader *r) { return get_le(r, 8); }
-int64_t wire_get_i64(wire_reader *r) { return (int64_t)get_le(r, 8); }
-
-double wire_get_f64(wire_reader *r)
-{
-    uint64_t u = get_le(r, 8);
-    double v;
-    memcpy(&v, &u, 8);
-    return v;
 }
 
 void wire_get_bytes(wire_reader *r, void *p, size_t n)

@@ -10,6 +10,7 @@
 
 #include <stddef.h>
 #include <stdint.h>
+#include <string.h>
 
 typedef struct {
     uint8_t *data;  /* owned buffer (free with wire_writer_free) */
@@ -37,21 +38,11 @@ typedef struct {
 
 void wire_writer_init(wire_writer *w);
 void wire_writer_free(wire_writer *w);
-void wire_put_u8(wire_writer *w, uint8_t v);
-void wire_put_u32(wire_writer *w, uint32_t v);
-void wire_put_u64(wire_writer *w, uint64_t v);
-void wire_put_i64(wire_writer *w, int64_t v);
-void wire_put_f64(wire_writer *w, double v);
 void wire_put_bytes(wire_writer *w, const void *p, size_t n);
 /* A string: u32 length then the bytes (no terminator). */
 void wire_put_str(wire_writer *w, const char *s, size_t n);
 
 void wire_reader_init(wire_reader *r, const void *data, size_t len);
-uint8_t wire_get_u8(wire_reader *r);
-uint32_t wire_get_u32(wire_reader *r);
-uint64_t wire_get_u64(wire_reader *r);
-int64_t wire_get_i64(wire_reader *r);
-double wire_get_f64(wire_reader *r);
 /* Copies n bytes into p (zero-fills p on failure). */
 void wire_get_bytes(wire_reader *r, void *p, size_t n);
 /* Returns a pointer into the reader's buffer and sets *n; NULL on failure.
@@ -59,5 +50,71 @@ void wire_get_bytes(wire_reader *r, void *p, size_t n);
 const char *wire_get_str(wire_reader *r, size_t *n, size_t max);
 /* Fails the reader unless at least n more bytes remain; returns !failed. */
 int wire_need(wire_reader *r, size_t n);
+
+/* ---- fixed-width numbers, inline ----------------------------------------
+ * A summary is mostly such numbers: they are stored in place when the
+ * buffer has room and no drain is due, else through wire_put_bytes (which
+ * drains, grows or fails), and read in place when the bytes are there, else
+ * the reader fails: a single load or store on a little-endian host.  Out
+ * of line they took about 33 instructions a number (callgrind). */
+
+static inline void wire_put_le(wire_writer *w, uint64_t v, unsigned bytes)
+{
+    if (!w->failed && (!w->drain || w->len < WIRE_DRAIN_BYTES) && w->cap - w->len >= bytes) {
+#if defined(__BYTE_ORDER__) && __BYTE_ORDER__ == __ORDER_LITTLE_ENDIAN__
+        memcpy(w->data + w->len, &v, bytes); /* the low bytes, in order */
+#else
+        uint8_t *d = w->data + w->len;
+        for (unsigned i = 0; i < bytes; i++) d[i] = (uint8_t)(v >> (8 * i));
+#endif
+        w->len += bytes;
+        return;
+    }
+    uint8_t b[8];
+    for (unsigned i = 0; i < bytes; i++) b[i] = (uint8_t)(v >> (8 * i));
+    wire_put_bytes(w, b, bytes);
+}
+
+static inline void wire_put_u8(wire_writer *w, uint8_t v) { wire_put_le(w, v, 1); }
+static inline void wire_put_u32(wire_writer *w, uint32_t v) { wire_put_le(w, v, 4); }
+static inline void wire_put_u64(wire_writer *w, uint64_t v) { wire_put_le(w, v, 8); }
+static inline void wire_put_i64(wire_writer *w, int64_t v) { wire_put_le(w, (uint64_t)v, 8); }
+
+static inline void wire_put_f64(wire_writer *w, double v)
+{
+    uint64_t u;
+    memcpy(&u, &v, 8);
+    wire_put_le(w, u, 8);
+}
+
+static inline uint64_t wire_get_le(wire_reader *r, unsigned bytes)
+{
+    if (r->failed || r->len - r->pos < bytes) {
+        r->failed = 1;
+        return 0;
+    }
+    uint64_t v = 0;
+#if defined(__BYTE_ORDER__) && __BYTE_ORDER__ == __ORDER_LITTLE_ENDIAN__
+    memcpy(&v, r->data + r->pos, bytes); /* into the low bytes */
+#else
+    const uint8_t *d = r->data + r->pos;
+    for (unsigned i = 0; i < bytes; i++) v |= (uint64_t)d[i] << (8 * i);
+#endif
+    r->pos += bytes;
+    return v;
+}
+
+static inline uint8_t wire_get_u8(wire_reader *r) { return (uint8_t)wire_get_le(r, 1); }
+static inline uint32_t wire_get_u32(wire_reader *r) { return (uint32_t)wire_get_le(r, 4); }
+static inline uint64_t wire_get_u64(wire_reader *r) { return wire_get_le(r, 8); }
+static inline int64_t wire_get_i64(wire_reader *r) { return (int64_t)wire_get_le(r, 8); }
+
+static inline double wire_get_f64(wire_reader *r)
+{
+    uint64_t u = wire_get_le(r, 8);
+    double v;
+    memcpy(&v, &u, 8);
+    return v;
+}
 
 #endif
