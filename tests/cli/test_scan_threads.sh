@@ -49,7 +49,7 @@ done
 # 1b. A wide table: from 8 columns a group (-j2: 64, -j8: 256) a group takes
 # a run of neighbouring columns instead of columns dealt out in turn
 # (chunks.c, group_columns); the bytes are still those of -j1.  300 columns,
-# some cells missing, a class target in the middle.
+# some cells missing, a class target in the middle, and two targets at once.
 /usr/bin/python3 - "$T/w.csv" <<'PY'
 import random, sys
 random.seed(11)
@@ -68,8 +68,12 @@ with open(sys.argv[1], "w") as f:
                 row.append("%.3f" % random.gauss(j % 7, 1 + j % 5))
         f.write(",".join(row) + "\n")
 PY
-for tgt in none kind; do
-    topt=(); [ $tgt = kind ] && topt=(--target kind)
+for tgt in none kind two; do
+    case $tgt in
+        none) topt=() ;;
+        kind) topt=(--target kind) ;;
+        two) topt=(--target kind,c010) ;; # a class target and a continuous one
+    esac
     want=
     bad=
     for j in 1 2 3 8; do
