@@ -55,12 +55,6 @@ void wire_reader_init(wire_reader *r, const void *data, size_t len)
     r->failed = 0;
 }
 
-int wire_need(wire_reader *r, size_t n)
-{
-    if (!r->failed && r->len - r->pos < n) r->failed = 1;
-    return !r->failed;
-}
-
 void wire_get_bytes(wire_reader *r, void *p, size_t n)
 {
     if (!wire_need(r, n)) { memset(p, 0, n); return; }

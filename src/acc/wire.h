@@ -49,7 +49,11 @@ void wire_get_bytes(wire_reader *r, void *p, size_t n);
  * Lengths above `max` fail the reader (guards against corrupt lengths). */
 const char *wire_get_str(wire_reader *r, size_t *n, size_t max);
 /* Fails the reader unless at least n more bytes remain; returns !failed. */
-int wire_need(wire_reader *r, size_t n);
+static inline int wire_need(wire_reader *r, size_t n)
+{
+    if (!r->failed && r->len - r->pos < n) r->failed = 1;
+    return !r->failed;
+}
 
 /* ---- fixed-width numbers, inline ----------------------------------------
  * A summary is mostly such numbers: they are stored in place when the
@@ -60,19 +64,18 @@ int wire_need(wire_reader *r, size_t n);
 
 static inline void wire_put_le(wire_writer *w, uint64_t v, unsigned bytes)
 {
-    if (!w->failed && (!w->drain || w->len < WIRE_DRAIN_BYTES) && w->cap - w->len >= bytes) {
+    uint8_t b[8]; /* v's low bytes first */
 #if defined(__BYTE_ORDER__) && __BYTE_ORDER__ == __ORDER_LITTLE_ENDIAN__
-        memcpy(w->data + w->len, &v, bytes); /* the low bytes, in order */
+    memcpy(b, &v, 8);
 #else
-        uint8_t *d = w->data + w->len;
-        for (unsigned i = 0; i < bytes; i++) d[i] = (uint8_t)(v >> (8 * i));
+    for (unsigned i = 0; i < 8; i++) b[i] = (uint8_t)(v >> (8 * i));
 #endif
+    if (!w->failed && (!w->drain || w->len < WIRE_DRAIN_BYTES) && w->cap - w->len >= bytes) {
+        memcpy(w->data + w->len, b, bytes);
         w->len += bytes;
-        return;
+    } else {
+        wire_put_bytes(w, b, bytes);
     }
-    uint8_t b[8];
-    for (unsigned i = 0; i < bytes; i++) b[i] = (uint8_t)(v >> (8 * i));
-    wire_put_bytes(w, b, bytes);
 }
 
 static inline void wire_put_u8(wire_writer *w, uint8_t v) { wire_put_le(w, v, 1); }
@@ -89,18 +92,17 @@ static inline void wire_put_f64(wire_writer *w, double v)
 
 static inline uint64_t wire_get_le(wire_reader *r, unsigned bytes)
 {
-    if (r->failed || r->len - r->pos < bytes) {
-        r->failed = 1;
-        return 0;
-    }
-    uint64_t v = 0;
-#if defined(__BYTE_ORDER__) && __BYTE_ORDER__ == __ORDER_LITTLE_ENDIAN__
-    memcpy(&v, r->data + r->pos, bytes); /* into the low bytes */
-#else
-    const uint8_t *d = r->data + r->pos;
-    for (unsigned i = 0; i < bytes; i++) v |= (uint64_t)d[i] << (8 * i);
-#endif
+    if (!wire_need(r, bytes)) return 0;
+    uint8_t b[8] = {0};
+    memcpy(b, r->data + r->pos, bytes);
     r->pos += bytes;
+    uint64_t v;
+#if defined(__BYTE_ORDER__) && __BYTE_ORDER__ == __ORDER_LITTLE_ENDIAN__
+    memcpy(&v, b, 8);
+#else
+    v = 0;
+    for (unsigned i = 0; i < 8; i++) v |= (uint64_t)b[i] << (8 * i);
+#endif
     return v;
 }
 

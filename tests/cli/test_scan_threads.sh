@@ -20,6 +20,21 @@ gzip -6 -c "$T/t.csv" >"$T/t.csv.gz"
 zstd -q -c "$T/t.csv" >"$T/t.csv.zst"
 sha() { sha256sum <"$1" | cut -c1-16; }
 
+# Runs `sheaf scan ARGS -j N` for each N in JS (the first is 1) and passes
+# NAME when every summary has the bytes of the first.
+same_bytes_for_j() {
+    local name=$1 js=$2 want= bad= h j
+    shift 2
+    for j in $js; do
+        run "$SHEAF" scan "$@" -j "$j" -q -o "$T/s$j.sheaf"
+        if [ "$RC" -ne 0 ]; then bad="-j$j exit $RC: $(err_text)"; break; fi
+        h=$(sha "$T/s$j.sheaf")
+        [ -z "$want" ] && want=$h
+        [ "$h" != "$want" ] && bad="-j$j gives $h, -j1 $want"
+    done
+    if [ -z "$bad" ]; then pass "$name"; else fail "$name" "$bad"; fi
+}
+
 # 1. The matrix: every -j gives the -j1 bytes.
 for f in t.csv t.csv.gz t.csv.zst; do
     # digit3: a numeric target past --max-classes, whose classes are dropped mid-chunk.
@@ -31,17 +46,7 @@ for f in t.csv t.csv.gz t.csv.zst; do
         esac
         for cs in default 64K 300K; do
             copt=(); [ "$cs" != default ] && copt=(--chunk-size "$cs")
-            want=
-            bad=
-            for j in 1 2 3 8; do
-                run "$SHEAF" scan "$T/$f" "${topt[@]}" "${copt[@]}" -j "$j" -q -o "$T/s$j.sheaf"
-                if [ "$RC" -ne 0 ]; then bad="-j$j exit $RC: $(err_text)"; break; fi
-                h=$(sha "$T/s$j.sheaf")
-                [ -z "$want" ] && want=$h
-                [ "$h" != "$want" ] && bad="-j$j gives $h, -j1 $want"
-            done
-            name="threads.same_bytes.$f.$tgt.$cs"
-            if [ -z "$bad" ]; then pass "$name"; else fail "$name" "$bad"; fi
+            same_bytes_for_j "threads.same_bytes.$f.$tgt.$cs" "1 2 3 8" "$T/$f" "${topt[@]}" "${copt[@]}"
         done
     done
 done
@@ -74,35 +79,12 @@ for tgt in none kind two; do
         kind) topt=(--target kind) ;;
         two) topt=(--target kind,c010) ;; # a class target and a continuous one
     esac
-    want=
-    bad=
-    for j in 1 2 3 8; do
-        run "$SHEAF" scan "$T/w.csv" "${topt[@]}" --chunk-size 64K -j "$j" -q -o "$T/w$j.sheaf"
-        if [ "$RC" -ne 0 ]; then bad="-j$j exit $RC: $(err_text)"; break; fi
-        h=$(sha "$T/w$j.sheaf")
-        [ -z "$want" ] && want=$h
-        [ "$h" != "$want" ] && bad="-j$j gives $h, -j1 $want"
-    done
-    if [ -z "$bad" ]; then pass "threads.same_bytes.wide.$tgt"; else fail "threads.same_bytes.wide.$tgt" "$bad"; fi
+    same_bytes_for_j "threads.same_bytes.wide.$tgt" "1 2 3 8" "$T/w.csv" "${topt[@]}" --chunk-size 64K
 done
 
 # 2. Several files (read ahead on threads of their own), and a shard, at every -j.
-for case in files shard; do
-    want=
-    bad=
-    for j in 1 2 5; do
-        if [ $case = files ]; then
-            run "$SHEAF" scan "$T/t.csv.gz" "$T/t.csv" "$T/t.csv.zst" --target label -j "$j" -q -o "$T/m$j.sheaf"
-        else
-            run "$SHEAF" scan "$T/t.csv" --shard 2/3 --chunk-size 64K --target label -j "$j" -q -o "$T/m$j.sheaf"
-        fi
-        [ "$RC" -ne 0 ] && { bad="-j$j exit $RC: $(err_text)"; break; }
-        h=$(sha "$T/m$j.sheaf")
-        [ -z "$want" ] && want=$h
-        [ "$h" != "$want" ] && bad="-j$j gives $h, -j1 $want"
-    done
-    if [ -z "$bad" ]; then pass "threads.same_bytes.$case"; else fail "threads.same_bytes.$case" "$bad"; fi
-done
+same_bytes_for_j threads.same_bytes.files "1 2 5" "$T/t.csv.gz" "$T/t.csv" "$T/t.csv.zst" --target label
+same_bytes_for_j threads.same_bytes.shard "1 2 5" "$T/t.csv" --shard 2/3 --chunk-size 64K --target label
 
 # 2b. Co-moments in blocks of 256 rows of the stream, whatever the chunks:
 # the covariance and correlation matrices (JSON, every digit) are the same
