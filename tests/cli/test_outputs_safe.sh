@@ -53,6 +53,8 @@ for i in $(seq 1 150); do ln -s big.sheaf "$T/in/m$i.sheaf"; done
 # The commands, each writing OUT (a placeholder replaced by the target).
 declare -A CMD=(
     [scan]="scan -q $T/big.csv -o OUT"
+    # on three threads: a full disk stops them all the same way
+    [scan_j3]="scan -q -j 3 $T/big.csv -o OUT"
     [merge]="merge --allow-duplicates $(printf "$T/in/m%d.sheaf " $(seq 1 150))-o OUT"
     [trim]="trim -q $T/big.csv --columns-from $T/keep -o OUT"
     [project]="project -q $T/big.csv --summary $T/in/big.sheaf -o OUT"
@@ -331,7 +333,7 @@ fi
 mkdir "$T/small"
 if mount -t tmpfs -o size=1m tmpfs "$T/small" 2>/dev/null; then
     MNT=$T/small
-    for c in trim project scan merge; do
+    for c in trim project scan scan_j3 merge; do
         rm -rf "$MNT"/* "$MNT"/.[!.]* 2>/dev/null
         cp "$T/old" "$MNT/target"
         # leave about 16 KiB free: less than any of the outputs
@@ -340,7 +342,7 @@ if mount -t tmpfs -o size=1m tmpfs "$T/small" 2>/dev/null; then
         run sheaf_to "${CMD[$c]}" "$MNT/target"
         check "full.tmpfs.$c.exit_1" "exit $RC: $(err_text)" [ "$RC" -eq 1 ]
         check "full.tmpfs.$c.names_file_and_reason" "$(err_text)" \
-            grep -q "^sheaf $c: $MNT/target: .*No space left on device\$" "$T/err"
+            grep -q "^sheaf ${c%_j3}: $MNT/target: .*No space left on device\$" "$T/err"
         check "full.tmpfs.$c.old_target_whole" "$(first_diff "$MNT/target" "$T/old")" cmp -s "$MNT/target" "$T/old"
         check "full.tmpfs.$c.nothing_left" "$(ls -A "$MNT" | tr '\n' ' ')" \
             [ "$(ls -A "$MNT" | tr '\n' ' ')" = "filler target " ]
