@@ -13,6 +13,7 @@
 #include <xxhash.h>
 
 #include "acc/wire.h"
+#include "summary/filehash.h"
 #include "summary/format.h"
 #include "summary/tempfile.h"
 
@@ -233,8 +234,8 @@ checkpoint_status checkpoint_write(const char *path, const checkpoint *c,
         rc = w.failed || !h ? -1 : 0;
         if (rc == 0) {
             XXH3_64bits_reset(h);
-            XXH3_64bits_update(h, head, sizeof head);
-            XXH3_64bits_update(h, w.data, w.len);
+            filehash_update(h, head, sizeof head);
+            filehash_update(h, w.data, w.len);
             put_le64(sum, XXH3_64bits_digest(h));
         }
         XXH3_freeState(h);
@@ -354,7 +355,7 @@ checkpoint_status checkpoint_read(const char *path, checkpoint *c, char *err, si
         rc = damaged(path, err, errlen, "header checksum mismatch");
         goto out;
     }
-    if (XXH3_64bits(b, len - 8) != get_le64(b + len - 8)) {
+    if (filehash(b, len - 8) != get_le64(b + len - 8)) {
         rc = damaged(path, err, errlen, "checksum mismatch: truncated or changed");
         goto out;
     }
@@ -459,7 +460,7 @@ int checkpoint_hash_file(const char *path, uint64_t *hash)
         if (n < 0 && errno == EINTR) continue;
         if (n < 0) rc = -1;
         if (n <= 0) break;
-        XXH3_64bits_update(h, buf, (size_t)n);
+        filehash_update(h, buf, (size_t)n);
     }
     if (rc == 0) *hash = XXH3_64bits_digest(h);
     int saved = errno;

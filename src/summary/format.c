@@ -24,6 +24,7 @@
 #include <unistd.h>
 #include <xxhash.h>
 
+#include "summary/filehash.h"
 #include "summary/format.h"
 
 const uint8_t SUMMARY_MAGIC[8] = {0x89, 'S', 'H', 'F', 0x0d, 0x0a, 0x1a, 0x0a};
@@ -571,7 +572,7 @@ summary_status summary_decode(const uint8_t *data, size_t len, summary **out, ch
         snprintf(err, errlen, "truncated or damaged summary (no end marker)");
         return SUMMARY_ERR_CORRUPT;
     }
-    if (XXH3_64bits(data, len - 8) != tsum) {
+    if (filehash(data, len - 8) != tsum) {
         snprintf(err, errlen, "damaged summary (file checksum mismatch)");
         return SUMMARY_ERR_CORRUPT;
     }
@@ -596,7 +597,7 @@ summary_status summary_decode(const uint8_t *data, size_t len, summary **out, ch
         }
         const uint8_t *payload = data + r.pos;
         r.pos += (size_t)plen;
-        if (XXH3_64bits(payload, (size_t)plen) != wire_get_u64(&r)) {
+        if (filehash(payload, (size_t)plen) != wire_get_u64(&r)) {
             snprintf(err, errlen, "damaged summary (section %d checksum mismatch)", k + 1);
             summary_free(s);
             return SUMMARY_ERR_CORRUPT;

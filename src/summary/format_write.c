@@ -11,6 +11,7 @@
 #include <unistd.h>
 #include <xxhash.h>
 
+#include "summary/filehash.h"
 #include "summary/format.h"
 #include "summary/tempfile.h"
 
@@ -174,7 +175,7 @@ int summary_write_all(int fd, const void *data, size_t len)
 static int section_drain(void *ctx, const uint8_t *data, size_t len)
 {
     section_out *o = ctx;
-    XXH3_64bits_update(o->hash, data, len);
+    filehash_update(o->hash, data, len);
     o->bytes += len;
     return summary_write_all(o->fd, data, len);
 }
@@ -192,7 +193,7 @@ int summary_hash_region(int fd, off_t from, off_t to, uint64_t *hash)
     size_t len = (size_t)(to - start);
     void *map = mmap(NULL, len ? len : 1, PROT_READ, MAP_SHARED, fd, start);
     if (map == MAP_FAILED) return -1;
-    *hash = XXH3_64bits((const uint8_t *)map + (from - start), (size_t)(to - from));
+    *hash = filehash((const uint8_t *)map + (from - start), (size_t)(to - from));
     munmap(map, len ? len : 1);
     return 0;
 }
