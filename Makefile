@@ -11,7 +11,7 @@ PKGS    := libisal libzstd libxxhash openblas lapacke
 LDLIBS  := -lgsl $(shell pkg-config --libs $(PKGS) 2>/dev/null || echo -lisal -lzstd -lxxhash -lopenblas -llapacke) -lz -lm -lpthread
 
 # Debian packages sheaf needs to build, test, bench and demo.
-DEB_PKGS := build-essential pkg-config libisal-dev isal zlib1g-dev libzstd-dev zstd \
+DEB_PKGS := build-essential pkg-config strace libisal-dev isal zlib1g-dev libzstd-dev zstd \
             libxxhash-dev libcriterion-dev libgsl-dev libopenblas-dev liblapacke-dev \
             python3-numpy python3-scipy python3-pandas python3-statsmodels python3-sklearn python3-mpmath parallel \
             hyperfine time bc clang mandoc groff-base slurm-wlm munge openssh-server rsync chromium

@@ -21,6 +21,9 @@ struct sink {
     int fd;              /* destination: the tempfile's descriptor, or 1 */
     tempfile out;        /* the file (unused for standard output) */
     int to_file;         /* out is open */
+    int push;            /* push written bytes to the disk as they go (tempfile_push) */
+    off_t written;       /* bytes written to fd */
+    off_t pushed;        /* bytes before this offset were pushed */
     struct isal_zstream *gz; /* gzip state (ISA-L deflate, level 2) */
     uint8_t *gz_level;   /* ISA-L level buffer */
     ZSTD_CStream *zs;    /* zstd state */
@@ -58,6 +61,7 @@ sink *sink_open(const char *path, char *err, size_t errlen)
     }
     s->to_file = 1;
     s->fd = s->out.fd;
+    s->push = tempfile_pushes(&s->out);
     s->kind = ends_with(path, ".gz") ? GZIP : ends_with(path, ".zst") ? ZSTD : PLAIN;
     if (s->kind == GZIP) {
         s->gz = malloc(sizeof *s->gz);
@@ -99,6 +103,11 @@ static int put(sink *s, const void *p, size_t n)
         }
         b += w;
         n -= (size_t)w;
+        s->written += w;
+    }
+    if (s->push && s->written - s->pushed >= TEMPFILE_PUSH_BYTES) {
+        tempfile_push(s->fd, s->pushed, s->written);
+        s->pushed = s->written;
     }
     return s->failed ? -1 : 0;
 }

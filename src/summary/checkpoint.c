@@ -223,7 +223,7 @@ checkpoint_status checkpoint_write(const char *path, const checkpoint *c,
     int rc = w.failed || lseek(t.fd, parts_at, SEEK_SET) != parts_at ? -1 : 0;
     for (size_t i = 0; rc == 0 && i < n; i++) {
         off_t end;
-        rc = summary_write_at(c->done->parts[i], t.fd, pos, &end);
+        rc = summary_write_at(c->done->parts[i], t.fd, pos, &end, tempfile_pushes(&t));
         part_len[i] = (uint64_t)(end - pos);
         pos = end;
     }

@@ -24,13 +24,17 @@ extern const uint8_t SUMMARY_MAGIC[8];
 
 /* Writes s's whole file (magic to trailer) to fd from byte `base` on, which
  * must be fd's position; *end (may be NULL) receives the offset after it.
- * 0, or -1 with errno set. */
-int summary_write_at(const summary *s, int fd, off_t base, off_t *end);
+ * push: start the disk writes every few MiB as they go (tempfile_push), for
+ * a file fsynced when done.  0, or -1 with errno set. */
+int summary_write_at(const summary *s, int fd, off_t base, off_t *end, int push);
 /* Writes a summary file at path, or to standard output for "-": write(obj,
- * fd) fills a scratch file that becomes the file only when it succeeds (for
- * "-" it is copied out then), so a failure leaves nothing.  SUMMARY_OK or the
- * failure, its message naming the path in err. */
-summary_status summary_write_through(const char *path, int (*write)(const void *obj, int fd),
+ * fd, push) fills a scratch file that becomes the file only when it succeeds
+ * (for "-" it is copied out then), so a failure leaves nothing; push says
+ * whether the file is worth pushing to the disk as it is written (see
+ * summary_write_at).  SUMMARY_OK or the failure, its message naming the path
+ * in err. */
+summary_status summary_write_through(const char *path,
+                                     int (*write)(const void *obj, int fd, int push),
                                      const void *obj, char *err, size_t errlen);
 /* Writes all of data to fd (retrying short writes).  0, or -1 with errno. */
 int summary_write_all(int fd, const void *data, size_t len);

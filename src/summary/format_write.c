@@ -157,6 +157,9 @@ typedef struct {
     int fd;               /* destination */
     XXH3_state_t *hash;   /* payload checksum of the current section */
     uint64_t bytes;       /* payload bytes of the current section */
+    off_t payload;        /* file offset of the current section's payload */
+    int push;             /* start the disk writes as it goes (tempfile_push) */
+    off_t pushed;         /* bytes before this offset were pushed */
 } section_out;
 
 int summary_write_all(int fd, const void *data, size_t len)
@@ -177,7 +180,13 @@ static int section_drain(void *ctx, const uint8_t *data, size_t len)
     section_out *o = ctx;
     filehash_update(o->hash, data, len);
     o->bytes += len;
-    return summary_write_all(o->fd, data, len);
+    if (summary_write_all(o->fd, data, len) != 0) return -1;
+    off_t at = o->payload + (off_t)o->bytes;
+    if (o->push && at - o->pushed >= TEMPFILE_PUSH_BYTES) {
+        tempfile_push(o->fd, o->pushed, at);
+        o->pushed = at;
+    }
+    return 0;
 }
 
 static int put_le64(uint8_t *b, uint64_t v)
@@ -198,7 +207,7 @@ int summary_hash_region(int fd, off_t from, off_t to, uint64_t *hash)
     return 0;
 }
 
-int summary_write_at(const summary *s, int fd, off_t base, off_t *end)
+int summary_write_at(const summary *s, int fd, off_t base, off_t *end, int push)
 {
     uint8_t head[12];
     memcpy(head, SUMMARY_MAGIC, sizeof SUMMARY_MAGIC);
@@ -210,7 +219,7 @@ int summary_write_at(const summary *s, int fd, off_t base, off_t *end)
                                                       encode_comoments};
     const uint32_t tags[] = {TAG_SCHEMA,  TAG_SOURCES, TAG_TABLE,
                              TAG_TARGET, TAG_COLUMNS, TAG_COMOMENTS};
-    section_out so = {fd, XXH3_createState(), 0};
+    section_out so = {fd, XXH3_createState(), 0, 0, push, base};
     if (!so.hash) return -1;
     int rc = 0;
     off_t pos = base + (off_t)sizeof head;
@@ -221,6 +230,7 @@ int summary_write_at(const summary *s, int fd, off_t base, off_t *end)
         if (summary_write_all(fd, sh, sizeof sh) != 0) { rc = -1; break; }
         XXH3_64bits_reset(so.hash);
         so.bytes = 0;
+        so.payload = pos + (off_t)sizeof sh;
         wire_writer w;
         wire_writer_init(&w);
         w.drain = section_drain;
@@ -254,7 +264,8 @@ int summary_write_at(const summary *s, int fd, off_t base, off_t *end)
     return summary_write_all(fd, tr + 12, 8);
 }
 
-summary_status summary_write_through(const char *path, int (*write)(const void *obj, int fd),
+summary_status summary_write_through(const char *path,
+                                     int (*write)(const void *obj, int fd, int push),
                                      const void *obj, char *err, size_t errlen)
 {
     tempfile t; /* written in full, then made the target's (src/summary/tempfile.h) */
@@ -265,7 +276,7 @@ summary_status summary_write_through(const char *path, int (*write)(const void *
                    : tempfile_open(&t, path, TEMPFILE_SEEKABLE, err, errlen)) != 0)
         return errno == ENOMEM ? SUMMARY_ERR_MEMORY : SUMMARY_ERR_IO;
     if (to_stdout) path = "standard output";
-    if (write(obj, t.fd) != 0) {
+    if (write(obj, t.fd, tempfile_pushes(&t)) != 0) {
         int saved = errno;
         snprintf(err, errlen, "%s: cannot write: %s", path, strerror(saved ? saved : EIO));
         tempfile_discard(&t);
@@ -274,7 +285,10 @@ summary_status summary_write_through(const char *path, int (*write)(const void *
     return tempfile_commit(&t, err, errlen) == 0 ? SUMMARY_OK : SUMMARY_ERR_IO;
 }
 
-static int write_one(const void *s, int fd) { return summary_write_at(s, fd, 0, NULL); }
+static int write_one(const void *s, int fd, int push)
+{
+    return summary_write_at(s, fd, 0, NULL, push);
+}
 
 summary_status summary_write(const summary *s, const char *path, char *err, size_t errlen)
 {

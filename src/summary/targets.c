@@ -123,7 +123,7 @@ static int put_section_head(int fd, uint32_t tag, uint64_t len)
     return summary_write_all(fd, h, sizeof h);
 }
 
-static int write_set(const void *obj, int fd)
+static int write_set(const void *obj, int fd, int push)
 {
     const summary_set *set = obj;
     uint8_t head[12];
@@ -150,7 +150,7 @@ static int write_set(const void *obj, int fd)
         uint64_t h;
         uint8_t lenb[8];
         if (put_section_head(fd, TAG_PART, 0) != 0 ||
-            summary_write_at(set->parts[i], fd, start, &end) != 0 ||
+            summary_write_at(set->parts[i], fd, start, &end, push) != 0 ||
             summary_hash_region(fd, start, end, &h) != 0)
             return -1;
         put_le(sum, h, 8);

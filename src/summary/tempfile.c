@@ -414,6 +414,16 @@ static void sync_dir(const char *path)
     free(dir);
 }
 
+int tempfile_pushes(const tempfile *t)
+{
+    return t->kind == TEMPFILE_ANONYMOUS || t->kind == TEMPFILE_NAMED;
+}
+
+void tempfile_push(int fd, off_t from, off_t to)
+{
+    if (to > from) sync_file_range(fd, from, to - from, SYNC_FILE_RANGE_WRITE);
+}
+
 int tempfile_commit(tempfile *t, char *err, size_t errlen)
 {
     int rc = 0;

@@ -16,6 +16,9 @@
 #   full.*     a full disk (/dev/full, a 1 MiB tmpfs) names the file and the
 #              reason, leaves the old target whole and nothing beside it
 #   stdout.*   every failure to write standard output is one line and exit 1
+#   push.*     a file that is fsynced at the end has its bytes pushed to the
+#              disk every 4 MiB as it is written (sync_file_range, seen with
+#              strace), all before that fsync; standard output is not pushed
 # References: the old and new files are compared byte for byte with cmp; the
 # file types come from stat(1); "No space left on device" and "Bad file
 # descriptor" are strerror(ENOSPC) and strerror(EBADF) of glibc.
@@ -350,6 +353,38 @@ if mount -t tmpfs -o size=1m tmpfs "$T/small" 2>/dev/null; then
     umount "$MNT" && MNT=
 else
     skip full.tmpfs "cannot mount a tmpfs (not root?)"
+fi
+
+# ---- push.*: early writeback (tempfile_push in src/summary/tempfile.h) ----
+if command -v strace >/dev/null && strace -f -o /dev/null true 2>/dev/null; then
+    # 120 columns of decimals: a summary of 8.2 MB, a trimmed table of 19 MB
+    awk 'BEGIN { srand(11); for (j = 0; j < 120; j++) printf "%sv%d", (j ? "," : ""), j; print ""
+        for (i = 0; i < 20000; i++) {
+            for (j = 0; j < 120; j++) printf "%s%.3f", (j ? "," : ""), rand() * 1000
+            print "" } }' >"$T/wide.csv"
+    cut -d, -f1-120 "$T/wide.csv" | head -n 1 | tr , '\n' >"$T/keep_wide"
+    declare -A PUSH=([scan]="scan -q $T/wide.csv -o $T/push.out"
+                     [trim]="trim -q $T/wide.csv --columns-from $T/keep_wide -o $T/push.out")
+    for c in scan trim; do
+        rm -f "$T/push.out"
+        # shellcheck disable=SC2086
+        strace -f -qq -e trace=sync_file_range,fsync -o "$T/trace" $SHEAF ${PUSH[$c]} 2>"$T/err"
+        RC=$?
+        size=$(stat -c %s "$T/push.out" 2>/dev/null || echo 0)
+        pushes=$(grep -c 'sync_file_range(' "$T/trace")
+        first_fsync=$(grep -n 'fsync(' "$T/trace" | head -n 1 | cut -d: -f1)
+        last_push=$(grep -n 'sync_file_range(' "$T/trace" | tail -n 1 | cut -d: -f1)
+        check "push.$c.wrote_over_4_MiB" "exit $RC, $size bytes" [ "$RC" -eq 0 -a "$size" -gt 4194304 ]
+        check "push.$c.one_push_per_4_MiB" "$pushes pushes for $size bytes" \
+            [ "$pushes" -eq $((size / 4194304)) ]
+        check "push.$c.pushed_before_the_fsync" "last push line ${last_push:-none}, fsync line ${first_fsync:-none}" \
+            [ -n "$last_push" -a -n "$first_fsync" ] && [ "$last_push" -lt "$first_fsync" ]
+    done
+    strace -f -qq -e trace=sync_file_range -o "$T/trace" $SHEAF scan -q "$T/wide.csv" -o - >"$T/push.out" 2>"$T/err"
+    check push.stdout.not_pushed "$(grep -c 'sync_file_range(' "$T/trace") pushes" \
+        [ "$(grep -c 'sync_file_range(' "$T/trace")" -eq 0 -a -s "$T/push.out" ]
+else
+    skip push "strace cannot trace here"
 fi
 
 # ---- stdout.*: standard output ----
