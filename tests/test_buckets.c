@@ -16,6 +16,7 @@
 #include <string.h>
 
 #include "acc/buckets.h"
+#include "acc/radix.h"
 #include "acc/buckets_store.h" /* the dense window's counts (pending) */
 #include "acc/wire.h"
 #include "testutil.h"
@@ -1219,4 +1220,64 @@ Test(buckets, dense_window_leaves_the_store_of_single_adds)
                 buckets_free(one);
                 buckets_free(many);
             }
+}
+
+/* ---- radix_sort_pairs (acc/radix.h) --------------------------------------- */
+
+static int pair_cmp(const void *pa, const void *pb)
+{
+    const radix_pair *a = pa, *b = pb;
+    if (a->k != b->k) return a->k < b->k ? -1 : 1;
+    return (a->i > b->i) - (a->i < b->i); /* stable: the input order among equal keys */
+}
+
+/* The radix sort of a[0..n) against qsort by (key, index), for n items
+ * whose index is their input position. */
+static void radix_matches_qsort(const radix_pair *in, size_t n, const char *what)
+{
+    radix_pair *a = malloc((2 * n + 1) * sizeof *a), *want = malloc((n + 1) * sizeof *want);
+    cr_assert(a && want);
+    memcpy(a, in, n * sizeof *a);
+    memcpy(want, in, n * sizeof *want);
+    qsort(want, n, sizeof *want, pair_cmp);
+    const radix_pair *got = radix_sort_pairs(a, a + n, n);
+    size_t bad = n;
+    for (size_t i = 0; i < n && bad == n; i++)
+        if (got[i].k != want[i].k || got[i].i != want[i].i) bad = i;
+    cr_expect_eq(bad, n, "%s, n %zu: item %zu differs", what, n, bad);
+    free(a);
+    free(want);
+}
+
+Test(buckets, radix_sort_equals_a_stable_comparison_sort)
+{
+    const size_t sizes[] = {0, 1, 2, 3, 15, 255, 256, 1000, 1300, 2048, 5000};
+    uint64_t x = 88172645463325252ull; /* xorshift64 */
+    for (size_t s = 0; s < sizeof sizes / sizeof *sizes; s++) {
+        size_t n = sizes[s];
+        radix_pair *in = malloc((n + 1) * sizeof *in);
+        cr_assert_not_null(in);
+        for (int kind = 0; kind < 6; kind++) {
+            for (size_t i = 0; i < n; i++) {
+                x ^= x << 13, x ^= x >> 7, x ^= x << 17;
+                uint64_t k;
+                switch (kind) {
+                case 0: k = x; break;                                /* hashes: every bit */
+                case 1: k = (x % 4096) << 20; break;                 /* few keys, many equal */
+                case 2: /* bucket keys of both signs: (key ^ sign bit) << 32 | cell */
+                    k = ((uint64_t)((uint32_t)((int32_t)(x % 200001) - 100000) ^ 0x80000000u)
+                         << 32) | (x >> 61);
+                    break;
+                case 3: k = 42; break;                               /* all equal */
+                case 4: k = i % 2 ? ~(uint64_t)0 : 0; break;         /* the two ends */
+                default: k = (uint64_t)(n - i) << 7 | 5; break;      /* descending, low bits set */
+                }
+                in[i] = (radix_pair){k, (uint32_t)i};
+            }
+            char what[64];
+            snprintf(what, sizeof what, "key kind %d", kind);
+            radix_matches_qsort(in, n, what);
+        }
+        free(in);
+    }
 }

@@ -15,8 +15,8 @@ typedef struct {
 } radix_pair;
 
 /* Sorts a[0..n) by k, stably, RADIX_BITS bits at a time over only the bits
- * in which the keys differ.  tmp holds n pairs; returns whichever of a and
- * tmp holds the result. */
+ * of k - min(k) that can differ.  tmp holds n pairs; returns whichever of a
+ * and tmp holds the result (the pairs themselves unchanged). */
 radix_pair *radix_sort_pairs(radix_pair *a, radix_pair *tmp, size_t n);
 
 #endif
