@@ -566,24 +566,29 @@ void comoment_correlation_matrix(const comoment *c, double *out)
 
 /* Layout: u64 p; then p x p row-major matrices N (u64), MEAN, M2, C (f64),
  * where MEAN[i][j] and M2[i][j] are of column i over rows where j is present. */
+/* Row i of a p x p matrix held as packed triangles: entry (i, j) is
+ * lo[pair_index(i, j)] when i <= j, else hi[pair_index(i, j)] (hi == lo for
+ * a symmetric matrix).  The entries j < i lie together from
+ * pair_index(0, i); those j > i are j + 1 apart. */
+static void put_row(wire_writer *w, const double *lo, const double *hi, size_t i, size_t p)
+{
+    size_t base = i * (i + 1) / 2; /* pair_index(0, i) */
+    wire_put_f64s(w, hi + base, i);
+    wire_put_f64(w, lo[base + i]);
+    for (size_t j = i + 1, k = base + i + (i + 1); j < p; k += ++j) wire_put_f64(w, lo[k]);
+}
+
 void comoment_write(const comoment *c, wire_writer *w)
 {
     const size_t p = c->p;
     wire_put_u64(w, p);
     for (size_t i = 0; i < p; i++)
         for (size_t j = 0; j < p; j++) wire_put_u64(w, (uint64_t)c->n[pair_index(i, j)]);
-    for (size_t i = 0; i < p; i++)
-        for (size_t j = 0; j < p; j++) {
-            size_t k = pair_index(i, j);
-            wire_put_f64(w, i <= j ? c->mean_lo[k] : c->mean_hi[k]);
-        }
-    for (size_t i = 0; i < p; i++)
-        for (size_t j = 0; j < p; j++) {
-            size_t k = pair_index(i, j);
-            wire_put_f64(w, i <= j ? c->m2_lo[k] : c->m2_hi[k]);
-        }
-    for (size_t i = 0; i < p; i++)
-        for (size_t j = 0; j < p; j++) wire_put_f64(w, c->co[pair_index(i, j)]);
+    /* The three f64 matrices row by row, p x p each (the file keeps the full
+     * matrices: readers check their symmetry). */
+    for (size_t i = 0; i < p; i++) put_row(w, c->mean_lo, c->mean_hi, i, p);
+    for (size_t i = 0; i < p; i++) put_row(w, c->m2_lo, c->m2_hi, i, p);
+    for (size_t i = 0; i < p; i++) put_row(w, c->co, c->co, i, p);
 }
 
 /* Reads a p x p f64 matrix whose (i, j) entry goes to lo[k] when i <= j and

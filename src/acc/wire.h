@@ -90,6 +90,16 @@ static inline void wire_put_f64(wire_writer *w, double v)
     wire_put_le(w, u, 8);
 }
 
+/* n doubles in a row, as n calls of wire_put_f64 would store them. */
+static inline void wire_put_f64s(wire_writer *w, const double *v, size_t n)
+{
+#if defined(__BYTE_ORDER__) && __BYTE_ORDER__ == __ORDER_LITTLE_ENDIAN__
+    wire_put_bytes(w, v, n * sizeof *v);
+#else
+    for (size_t i = 0; i < n; i++) wire_put_f64(w, v[i]);
+#endif
+}
+
 static inline uint64_t wire_get_le(wire_reader *r, unsigned bytes)
 {
     if (!wire_need(r, bytes)) return 0;
