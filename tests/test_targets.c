@@ -206,3 +206,102 @@ Test(targets, a_header_name_with_a_comma_is_one_target)
     summary_options_free(&o.opt);
     testutil_remove_dir(dir);
 }
+
+/* ---- sealed while written (summary_set_seal_write) ------------------------ */
+
+/* The scan of `data` left unsealed (scan_options.seal_later). */
+static summary_set *scan_unsealed(const char *data, const char *targets, unsigned threads)
+{
+    scan_options o;
+    scan_options_defaults(&o);
+    o.targets = targets;
+    o.threads = threads;
+    o.seal_later = 1;
+    summary_set *set = NULL;
+    char err[1024];
+    const char *paths[1] = {data};
+    scan_status st = scan_files_set(&o, paths, 1, &set, err, sizeof err);
+    summary_options_free(&o.opt);
+    cr_assert_eq(st, SCAN_OK, "%s", err);
+    return set;
+}
+
+/* Written while sealed on 1, 2, 3 and 8 threads, the file is the bytes of
+ * the same scan sealed first and written after, and the set ends sealed. */
+static void sealed_while_written(const char *data, const char *targets)
+{
+    char dir[256], path[600], err[1024];
+    testutil_temp_dir(dir, sizeof dir);
+    snprintf(path, sizeof path, "%s/first.sheaf", dir);
+    summary_set *ref = scan_set(data, targets, 1, 0, 0);
+    cr_assert_eq(summary_set_write(ref, path, err, sizeof err), SUMMARY_OK, "%s", err);
+    size_t lr = 0;
+    unsigned char *want = testutil_read_file(path, &lr);
+    const unsigned threads[] = {1, 2, 3, 8};
+    for (size_t k = 0; k < sizeof threads / sizeof *threads; k++) {
+        summary_set *set = scan_unsealed(data, targets, threads[k]);
+        cr_expect(!summary_sealed(set->parts[0]), "%s: the scan sealed it already", data);
+        snprintf(path, sizeof path, "%s/while.sheaf", dir);
+        cr_assert_eq(summary_set_seal_write(set, path, threads[k], err, sizeof err), SUMMARY_OK,
+                     "%s", err);
+        for (size_t t = 0; t < set->n; t++)
+            cr_expect(summary_sealed(set->parts[t]), "part %zu not sealed after the write", t);
+        size_t lg = 0;
+        unsigned char *got = testutil_read_file(path, &lg);
+        cr_expect(lg == lr && memcmp(got, want, lr) == 0,
+                  "%s, targets '%s', %u threads: %zu bytes against %zu sealed first", data,
+                  targets ? targets : "", threads[k], lg, lr);
+        free(got);
+        summary_set_free(set);
+    }
+    free(want);
+    summary_set_free(ref);
+    testutil_remove_dir(dir);
+}
+
+Test(targets, sealed_while_written_equals_sealed_then_written_penguins)
+{
+    const char *data = open_data("penguins.csv");
+    sealed_while_written(data, NULL);
+    sealed_while_written(data, "species");
+    sealed_while_written(data, "species,body_mass_g");
+}
+
+Test(targets, sealed_while_written_equals_sealed_then_written_wide)
+{
+    /* 160 columns of decimals (a fixed linear congruential sequence), so the
+     * gate hands out many columns to many threads. */
+    char dir[256], file[600];
+    testutil_temp_dir(dir, sizeof dir);
+    size_t cap = 8u << 20, len = 0;
+    char *text = malloc(cap);
+    cr_assert_not_null(text);
+    for (int j = 0; j < 160; j++) len += (size_t)sprintf(text + len, "%sc%d", j ? "," : "", j);
+    text[len++] = '\n';
+    uint64_t x = 12345;
+    for (int i = 0; i < 3000; i++) {
+        for (int j = 0; j < 160; j++) {
+            x = x * 6364136223846793005ull + 1442695040888963407ull;
+            len += (size_t)sprintf(text + len, "%s%.3f", j ? "," : "",
+                                   (double)(x >> 40) / 1000.0 - 8000.0);
+        }
+        text[len++] = '\n';
+    }
+    text[len] = 0;
+    const char *p = testutil_write_file(dir, "wide.csv", text, file, sizeof file);
+    free(text);
+    sealed_while_written(p, NULL);
+    sealed_while_written(p, "c7");
+    testutil_remove_dir(dir);
+}
+
+Test(targets, sealed_while_written_seals_even_when_the_write_fails)
+{
+    char err[1024];
+    summary_set *set = scan_unsealed(open_data("penguins.csv"), "species", 2);
+    cr_expect_neq(summary_set_seal_write(set, "/nonexistent-dir/x.sheaf", 2, err, sizeof err),
+                  SUMMARY_OK);
+    cr_expect(strstr(err, "/nonexistent-dir/x.sheaf") != NULL, "%s", err);
+    cr_expect(summary_sealed(set->parts[0]));
+    summary_set_free(set);
+}

@@ -232,6 +232,7 @@ int cmd_scan(int argc, char **argv)
         free(copy);
     }
     o.targets = target;
+    o.seal_later = 1; /* sealed while written: summary_set_seal_write below */
     o.header = !no_header;
     o.strict = strict;
     o.force = force;
@@ -264,7 +265,7 @@ int cmd_scan(int argc, char **argv)
             rc = EXIT_USAGE;
             goto done;
         }
-    summary_status ws = summary_set_write(set, out, err, sizeof err);
+    summary_status ws = summary_set_seal_write(set, out, o.threads, err, sizeof err);
     if (ws != SUMMARY_OK) {
         summary_set_free(set);
         cli_error("scan", "%s", err);

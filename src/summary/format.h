@@ -27,6 +27,13 @@ extern const uint8_t SUMMARY_MAGIC[8];
  * push: start the disk writes every few MiB as they go (tempfile_push), for
  * a file fsynced when done.  0, or -1 with errno set. */
 int summary_write_at(const summary *s, int fd, off_t base, off_t *end, int push);
+/* summary_write_at of a summary whose columns may not be sealed yet: they
+ * are sealed on threads - 1 helper threads, in column order, while this
+ * thread writes each one as soon as its seal has run (and seals columns too
+ * while it waits).  The same bytes as summary_seal then summary_write_at;
+ * s is sealed afterwards, whether the write succeeded or not.  0, or -1
+ * with errno set (ENOMEM when a seal ran out of memory). */
+int summary_seal_write_at(summary *s, int fd, off_t base, off_t *end, int push, unsigned threads);
 /* Writes a summary file at path, or to standard output for "-": write(obj,
  * fd, push) fills a scratch file that becomes the file only when it succeeds
  * (for "-" it is copied out then), so a failure leaves nothing; push says

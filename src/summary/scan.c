@@ -380,12 +380,12 @@ static scan_status head(scan_context *sc, const reader_chunk *ch, int *found)
  * copied into the others, all sealed.  0, or -1 (the scan's error set). */
 int scan_settle_runs(scan_context *sc)
 {
-    if (scan_settle(sc->runs, sc->nruns, sc->threads) == 0) return 0;
+    if (scan_settle(sc->runs, sc->nruns, sc->threads, !sc->o.seal_later) == 0) return 0;
     scan_fail(sc, SCAN_ERR_MEMORY, "out of memory");
     return -1;
 }
 
-int scan_settle(summary *const *runs, size_t n, unsigned threads)
+int scan_settle(summary *const *runs, size_t n, unsigned threads, int seal)
 {
     for (size_t t = 0; t < n; t++) {
         summary *s = runs[t];
@@ -393,7 +393,7 @@ int scan_settle(summary *const *runs, size_t n, unsigned threads)
          * brought to that numbering (summary/tcells.h). */
         if (summary_target_cells_settle(s) != 0 ||
             (t > 0 && summary_copy_comoments(s, runs[0]) != 0) ||
-            summary_seal_threads(s, threads) != 0)
+            (seal && summary_seal_threads(s, threads) != 0))
             return -1;
     }
     return 0;

@@ -67,6 +67,9 @@ typedef struct {
     unsigned threads;         /* worker threads; 0 = the CPUs this process may use, 1 = none
                                  (everything on the calling thread); the summary is the same
                                  for every count */
+    int seal_later;           /* finish with the summaries not sealed: the caller seals them
+                                 while it writes them (summary_set_seal_write), which overlaps
+                                 the two; any read works on them meanwhile, only slower */
     /* Checkpoints (scan_files and scan_files_set only; summary/checkpoint.h).
      * With a path, the scan cuts its input into segments: one ends at the
      * first chunk boundary after every checkpoint_bytes decompressed bytes.

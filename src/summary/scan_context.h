@@ -115,14 +115,14 @@ scan_status scan_segment_start(scan_context *sc, uint64_t lines, uint64_t rows);
 /* scan.c, for scan_segments.c: empty summaries for the schema, one per
  * target (0, or -1 with the message set); the chunk workers over them (0 or
  * -1); the chunks' failure made the scan's; the open summaries settled and
- * sealed (0, or -1 with the error set). */
+ * sealed, unless the options say seal_later (0, or -1 with the error set). */
 int scan_make_runs(scan_context *sc);
 int scan_start_work(scan_context *sc);
 scan_status scan_worked(scan_context *sc, scan_status st);
 int scan_settle_runs(scan_context *sc);
-/* The same for n summaries of one segment (runs[0] has the co-moments), on
- * up to `threads` threads: 0, or -1 (out of memory). */
-int scan_settle(summary *const *runs, size_t n, unsigned threads);
+/* The same for n summaries of one segment (runs[0] has the co-moments),
+ * sealed (seal 1) on up to `threads` threads: 0, or -1 (out of memory). */
+int scan_settle(summary *const *runs, size_t n, unsigned threads, int seal);
 /* scan.c, for the jump to a restart point in scan_segments.c: a stream
  * opened (named name, from raw byte `from`, stopping before records at
  * stop_at, 0: none); src pulled to its end (raw bytes counted from `from`);

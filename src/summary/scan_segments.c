@@ -100,7 +100,7 @@ typedef struct scan_cut_job {
 
 static void cut_work(scan_cut_job *j)
 {
-    if (scan_settle(j->seg->parts, j->seg->n, 1) != 0) {
+    if (scan_settle(j->seg->parts, j->seg->n, 1, 1) != 0) {
         j->failed = SCAN_ERR_MEMORY;
         snprintf(j->err, sizeof j->err, "out of memory");
         return;

@@ -365,6 +365,15 @@ summary_status summary_read_target(const char *path, const char *target, summary
  * file of format version 4 (atomically, as summary_write). */
 summary_status summary_set_write(const summary_set *set, const char *path, char *err,
                                  size_t errlen);
+/* summary_set_write of summaries that may not be sealed yet (a scan that
+ * left them so: scan_options.seal_later): each is sealed on `threads`
+ * threads (the caller one of them; 0: the CPUs this process may use) while
+ * it is written, a column written as
+ * soon as its seal has run, so that the sealing and the writing overlap.
+ * The same bytes as summary_seal then summary_set_write; the set is sealed
+ * afterwards, whether the write succeeded or not. */
+summary_status summary_set_seal_write(summary_set *set, const char *path, unsigned threads,
+                                      char *err, size_t errlen);
 /* into := into (+) from, part by part (summary_merge).  The sets must hold
  * the same targets in the same order (SUMMARY_ERR_INCOMPATIBLE, naming both
  * lists, otherwise).  On failure into may be partly merged. */

@@ -31,6 +31,7 @@
 #include <unistd.h>
 #include <xxhash.h>
 
+#include "io/pipeline.h"
 
 #define TAG_TARGETS TAG('T', 'G', 'T', 'S')
 #define TAG_PART TAG('P', 'A', 'R', 'T')
@@ -123,9 +124,28 @@ static int put_section_head(int fd, uint32_t tag, uint64_t len)
     return summary_write_all(fd, h, sizeof h);
 }
 
+/* A set to write: seal_threads 0 when it is sealed, else the threads that
+ * seal its summaries while they are written (summary_seal_write_at). */
+typedef struct {
+    const summary_set *set;
+    unsigned seal_threads;
+} set_job;
+
+static int write_part(const set_job *job, size_t i, int fd, off_t base, off_t *end, int push)
+{
+    if (!job->seal_threads) return summary_write_at(job->set->parts[i], fd, base, end, push);
+    return summary_seal_write_at(job->set->parts[i], fd, base, end, push, job->seal_threads);
+}
+
+static int write_one_part(const void *obj, int fd, int push)
+{
+    return write_part(obj, 0, fd, 0, NULL, push);
+}
+
 static int write_set(const void *obj, int fd, int push)
 {
-    const summary_set *set = obj;
+    const set_job *job = obj;
+    const summary_set *set = job->set;
     uint8_t head[12];
     memcpy(head, SUMMARY_MAGIC, 8);
     put_le(head + 8, SUMMARY_SET_FORMAT_VERSION, 4);
@@ -150,7 +170,7 @@ static int write_set(const void *obj, int fd, int push)
         uint64_t h;
         uint8_t lenb[8];
         if (put_section_head(fd, TAG_PART, 0) != 0 ||
-            summary_write_at(set->parts[i], fd, start, &end, push) != 0 ||
+            write_part(job, i, fd, start, &end, push) != 0 ||
             summary_hash_region(fd, start, end, &h) != 0)
             return -1;
         put_le(sum, h, 8);
@@ -171,16 +191,38 @@ static int write_set(const void *obj, int fd, int push)
     return summary_write_all(fd, tr + 12, 8);
 }
 
-summary_status summary_set_write(const summary_set *set, const char *path, char *err,
-                                 size_t errlen)
+static summary_status set_write(const set_job *job, const char *path, char *err, size_t errlen)
 {
-    if (set->n == 1) return summary_write(set->parts[0], path, err, errlen);
+    const summary_set *set = job->set;
+    if (set->n == 1) return summary_write_through(path, write_one_part, job, err, errlen);
     for (size_t i = 0; i < set->n; i++)
         if (!set->parts[i] || !set->parts[i]->opt.target) {
             snprintf(err, errlen, "%s: a set of several summaries needs a target in each", path);
             return SUMMARY_ERR_INCOMPATIBLE;
         }
-    return summary_write_through(path, write_set, set, err, errlen);
+    return summary_write_through(path, write_set, job, err, errlen);
+}
+
+summary_status summary_set_write(const summary_set *set, const char *path, char *err,
+                                 size_t errlen)
+{
+    set_job job = {set, 0};
+    return set_write(&job, path, err, errlen);
+}
+
+summary_status summary_set_seal_write(summary_set *set, const char *path, unsigned threads,
+                                      char *err, size_t errlen)
+{
+    set_job job = {set, threads ? threads : pipeline_cpus()};
+    summary_status st = set_write(&job, path, err, errlen);
+    /* Refused before any byte (a set without targets): sealed all the same. */
+    for (size_t i = 0; i < set->n; i++)
+        if (set->parts[i] && !summary_sealed(set->parts[i]) && summary_seal(set->parts[i]) != 0 &&
+            st == SUMMARY_OK) {
+            snprintf(err, errlen, "out of memory");
+            st = SUMMARY_ERR_MEMORY;
+        }
+    return st;
 }
 
 /* ---- decoding -------------------------------------------------------------- */
