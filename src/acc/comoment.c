@@ -578,17 +578,60 @@ static void put_row(wire_writer *w, const double *lo, const double *hi, size_t i
     for (size_t j = i + 1, k = base + i + (i + 1); j < p; k += ++j) wire_put_f64(w, lo[k]);
 }
 
+enum { ROW_BLOCK = 8 }; /* rows built at once: a cache line of each packed column */
+
+/* Rows [i0, i1) of the matrix of put_row into rows[(i - i0) * p + j].  The
+ * entries (i0..i1-1, j) of a column j >= i1 lie together from
+ * pair_index(i0, j): a block of rows reads each packed column once, where
+ * row by row every entry above the diagonal is a cache line of its own. */
+static void fill_rows(double *rows, const double *lo, const double *hi, size_t i0, size_t i1,
+                      size_t p)
+{
+    for (size_t i = i0; i < i1; i++) {
+        double *r = rows + (i - i0) * p;
+        size_t base = i * (i + 1) / 2;
+        memcpy(r, hi + base, i * sizeof *r);
+        r[i] = lo[base + i];
+        for (size_t j = i + 1; j < i1; j++) r[j] = lo[j * (j + 1) / 2 + i];
+    }
+    for (size_t j = i1; j < p; j++) {
+        const double *col = lo + j * (j + 1) / 2;
+        for (size_t i = i0; i < i1; i++) rows[(i - i0) * p + j] = col[i];
+    }
+}
+
+/* One p x p matrix, row-major: f64, or the counts as u64. */
+static void put_matrix(wire_writer *w, const double *lo, const double *hi, size_t p, int counts,
+                       double *rows)
+{
+    if (!rows) { /* no room for a block: row by row */
+        for (size_t i = 0; i < p; i++) {
+            if (!counts) { put_row(w, lo, hi, i, p); continue; }
+            for (size_t j = 0; j < p; j++) wire_put_u64(w, (uint64_t)lo[pair_index(i, j)]);
+        }
+        return;
+    }
+    for (size_t i0 = 0; i0 < p; i0 += ROW_BLOCK) {
+        size_t i1 = i0 + ROW_BLOCK < p ? i0 + ROW_BLOCK : p, n = (i1 - i0) * p;
+        fill_rows(rows, lo, hi, i0, i1, p);
+        if (!counts) wire_put_f64s(w, rows, n);
+        else
+            for (size_t k = 0; k < n; k++) wire_put_u64(w, (uint64_t)rows[k]);
+    }
+}
+
 void comoment_write(const comoment *c, wire_writer *w)
 {
     const size_t p = c->p;
     wire_put_u64(w, p);
-    for (size_t i = 0; i < p; i++)
-        for (size_t j = 0; j < p; j++) wire_put_u64(w, (uint64_t)c->n[pair_index(i, j)]);
-    /* The three f64 matrices row by row, p x p each (the file keeps the full
-     * matrices: readers check their symmetry). */
-    for (size_t i = 0; i < p; i++) put_row(w, c->mean_lo, c->mean_hi, i, p);
-    for (size_t i = 0; i < p; i++) put_row(w, c->m2_lo, c->m2_hi, i, p);
-    for (size_t i = 0; i < p; i++) put_row(w, c->co, c->co, i, p);
+    /* The four matrices in full, p x p each (readers check their symmetry),
+     * built ROW_BLOCK rows at a time. */
+    double *rows = p ? malloc(ROW_BLOCK * p * sizeof *rows) : NULL;
+    put_matrix(w, c->n, c->n, p, 1, rows);
+    put_matrix(w, c->mean_lo, c->mean_hi, p, 0, rows);
+    put_matrix(w, c->m2_lo, c->m2_hi, p, 0, rows);
+    put_matrix(w, c->co, c->co, p, 0, rows);
+    free(rows);
 }
 
 /* Reads a p x p f64 matrix whose (i, j) entry goes to lo[k] when i <= j and
