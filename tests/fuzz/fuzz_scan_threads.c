@@ -9,8 +9,10 @@
  * and the tasks of several are in flight at once):
  *   - on one thread (threads = 1: no workers, everything on the caller);
  *   - on 2 threads, and on 3 for a quarter of the inputs;
- * and compares the summary files byte for byte (summary_write), or the
- * status and the message of the failure.  The delimiter is detected; some
+ * and compares the summary files byte for byte, or the status and the
+ * message of the failure.  The one-thread scan is sealed, then written
+ * (summary_write); the threaded scans are written as `sheaf scan` writes
+ * them, sealed while written (summary_set_seal_write).  The delimiter is detected; some
  * inputs run with a target (the last column, when its values are few) and
  * some with a small --max-record, from the hash as in fuzz_scan_split.c.
  * Reference: sheaf's own scan on one thread (the whole-file and shard scans
@@ -119,11 +121,23 @@ static void scan_with(const scan_options *base, unsigned threads, int slot, outc
     r->s = NULL;
     r->bytes = NULL;
     r->len = 0;
-    r->st = scan_files(&o, paths, 1, &r->s, r->err, sizeof r->err);
-    if (r->st != SCAN_OK) return;
     char e[512];
-    if (summary_write(r->s, out_path[slot], e, sizeof e) != SUMMARY_OK)
-        fault("summary_write %s: %s", out_path[slot], e);
+    if (threads == 1) { /* sealed by the scan, then written */
+        r->st = scan_files(&o, paths, 1, &r->s, r->err, sizeof r->err);
+        if (r->st != SCAN_OK) return;
+        if (summary_write(r->s, out_path[slot], e, sizeof e) != SUMMARY_OK)
+            fault("summary_write %s: %s", out_path[slot], e);
+    } else { /* as `sheaf scan` does: left unsealed, sealed while written */
+        o.seal_later = 1;
+        summary_set *set = NULL;
+        r->st = scan_files_set(&o, paths, 1, &set, r->err, sizeof r->err);
+        if (r->st != SCAN_OK) return;
+        if (summary_set_seal_write(set, out_path[slot], threads, e, sizeof e) != SUMMARY_OK)
+            fault("summary_set_seal_write %s: %s", out_path[slot], e);
+        if (!summary_sealed(set->parts[0])) fault("not sealed after summary_set_seal_write");
+        r->s = summary_set_take(set, 0);
+        summary_set_free(set);
+    }
     r->bytes = read_whole(out_path[slot], &r->len);
     if (!r->bytes) fault("cannot read back %s", out_path[slot]);
 }
