@@ -36,13 +36,16 @@ static unsigned char *file_bytes(const summary *s, const char *dir, const char *
     return testutil_read_file(path, len);
 }
 
-static summary_set *scan_set(const char *data, const char *targets, unsigned threads,
-                             size_t chunk_bytes, uint32_t max_classes)
+/* The scan of `data`; seal_later leaves its summaries unsealed
+ * (scan_options.seal_later). */
+static summary_set *scan_set_as(const char *data, const char *targets, unsigned threads,
+                                size_t chunk_bytes, uint32_t max_classes, int seal_later)
 {
     scan_options o;
     scan_options_defaults(&o);
     o.targets = targets;
     o.threads = threads;
+    o.seal_later = seal_later;
     if (chunk_bytes) o.chunk_bytes = chunk_bytes;
     if (max_classes) o.opt.max_classes = max_classes;
     summary_set *set = NULL;
@@ -52,6 +55,12 @@ static summary_set *scan_set(const char *data, const char *targets, unsigned thr
     summary_options_free(&o.opt);
     cr_assert_eq(st, SCAN_OK, "%s", err);
     return set;
+}
+
+static summary_set *scan_set(const char *data, const char *targets, unsigned threads,
+                             size_t chunk_bytes, uint32_t max_classes)
+{
+    return scan_set_as(data, targets, threads, chunk_bytes, max_classes, 0);
 }
 
 static summary *scan_one(const char *data, const char *target, unsigned threads,
@@ -209,23 +218,6 @@ Test(targets, a_header_name_with_a_comma_is_one_target)
 
 /* ---- sealed while written (summary_set_seal_write) ------------------------ */
 
-/* The scan of `data` left unsealed (scan_options.seal_later). */
-static summary_set *scan_unsealed(const char *data, const char *targets, unsigned threads)
-{
-    scan_options o;
-    scan_options_defaults(&o);
-    o.targets = targets;
-    o.threads = threads;
-    o.seal_later = 1;
-    summary_set *set = NULL;
-    char err[1024];
-    const char *paths[1] = {data};
-    scan_status st = scan_files_set(&o, paths, 1, &set, err, sizeof err);
-    summary_options_free(&o.opt);
-    cr_assert_eq(st, SCAN_OK, "%s", err);
-    return set;
-}
-
 /* Written while sealed on 1, 2, 3 and 8 threads, the file is the bytes of
  * the same scan sealed first and written after, and the set ends sealed. */
 static void sealed_while_written(const char *data, const char *targets)
@@ -239,7 +231,7 @@ static void sealed_while_written(const char *data, const char *targets)
     unsigned char *want = testutil_read_file(path, &lr);
     const unsigned threads[] = {1, 2, 3, 8};
     for (size_t k = 0; k < sizeof threads / sizeof *threads; k++) {
-        summary_set *set = scan_unsealed(data, targets, threads[k]);
+        summary_set *set = scan_set_as(data, targets, threads[k], 0, 0, 1);
         cr_expect(!summary_sealed(set->parts[0]), "%s: the scan sealed it already", data);
         snprintf(path, sizeof path, "%s/while.sheaf", dir);
         cr_assert_eq(summary_set_seal_write(set, path, threads[k], err, sizeof err), SUMMARY_OK,
@@ -298,7 +290,7 @@ Test(targets, sealed_while_written_equals_sealed_then_written_wide)
 Test(targets, sealed_while_written_seals_even_when_the_write_fails)
 {
     char err[1024];
-    summary_set *set = scan_unsealed(open_data("penguins.csv"), "species", 2);
+    summary_set *set = scan_set_as(open_data("penguins.csv"), "species", 2, 0, 0, 1);
     cr_expect_neq(summary_set_seal_write(set, "/nonexistent-dir/x.sheaf", 2, err, sizeof err),
                   SUMMARY_OK);
     cr_expect(strstr(err, "/nonexistent-dir/x.sheaf") != NULL, "%s", err);

@@ -5,9 +5,7 @@
 #include "summary/summary.h"
 
 #include <errno.h>
-#include <pthread.h>
 #include <stdio.h>
-#include <stdlib.h>
 #include <string.h>
 #include <sys/mman.h>
 #include <unistd.h>
@@ -131,68 +129,13 @@ uint32_t summary_file_version(const summary *s)
     return s->target >= 0 ? 3 : s->repeated_headers ? 2 : 1;
 }
 
-/* ---- sealing while writing ---------------------------------------------- */
-
-/* The columns of one summary sealed on helper threads while the writing
- * thread writes them (summary_seal_write_at).  Columns are claimed in
- * order, one at a time; the writer waits for each column's seal before it
- * encodes it, and while it waits it claims and seals columns itself, so no
- * thread idles while a column is left to seal.  A column is written only
- * once sealed, and sealing a column touches nothing but that column's own
- * tables, so the bytes are those of summary_seal then summary_write_at. */
-typedef struct {
-    summary *s;
-    pthread_mutex_t mu;
-    pthread_cond_t sealed_cv; /* a column was sealed */
-    size_t next;              /* the next column to claim */
-    unsigned char *sealed;    /* per column: its seal has run */
-    int rc;                   /* -1 once a seal failed (out of memory) */
-} seal_gate;
-
-/* Claims and seals the next column; 0 when none was left to claim. */
-static int gate_seal_next(seal_gate *g)
-{
-    pthread_mutex_lock(&g->mu);
-    size_t i = g->next < g->s->ncols ? g->next++ : g->s->ncols;
-    pthread_mutex_unlock(&g->mu);
-    if (i == g->s->ncols) return 0;
-    int rc = column_seal(&g->s->cols[i]);
-    pthread_mutex_lock(&g->mu);
-    g->sealed[i] = 1;
-    if (rc != 0) g->rc = -1;
-    pthread_cond_broadcast(&g->sealed_cv);
-    pthread_mutex_unlock(&g->mu);
-    return 1;
-}
-
-static void *gate_helper(void *arg)
-{
-    while (gate_seal_next(arg)) {}
-    return NULL;
-}
-
-/* Returns once column i is sealed, sealing others meanwhile. */
-static void gate_wait(seal_gate *g, size_t i)
-{
-    pthread_mutex_lock(&g->mu);
-    while (!g->sealed[i]) {
-        if (g->next < g->s->ncols) {
-            pthread_mutex_unlock(&g->mu);
-            gate_seal_next(g);
-            pthread_mutex_lock(&g->mu);
-        } else {
-            pthread_cond_wait(&g->sealed_cv, &g->mu);
-        }
-    }
-    pthread_mutex_unlock(&g->mu);
-}
-
-/* The columns section; with a gate, each column once its seal has run. */
-static void encode_columns(const summary *s, wire_writer *w, seal_gate *g)
+/* The columns section; with a sealer, each column once its seal has run
+ * (summary_seal_write_at). */
+static void encode_columns(const summary *s, wire_writer *w, summary_sealer *g)
 {
     uint32_t version = summary_file_version(s);
     for (size_t i = 0; i < s->ncols; i++) {
-        if (g) gate_wait(g, i);
+        if (g) summary_sealer_wait(g, i);
         column_write(&s->cols[i], s->nclasses, version, w);
     }
 }
@@ -269,9 +212,9 @@ int summary_hash_region(int fd, off_t from, off_t to, uint64_t *hash)
     return 0;
 }
 
-/* summary_write_at, the columns section through gate g when not NULL. */
+/* summary_write_at, the columns section through sealer g when not NULL. */
 static int write_sections(const summary *s, int fd, off_t base, off_t *end, int push,
-                          seal_gate *g)
+                          summary_sealer *g)
 {
     uint8_t head[12];
     memcpy(head, SUMMARY_MAGIC, sizeof SUMMARY_MAGIC);
@@ -333,25 +276,19 @@ int summary_write_at(const summary *s, int fd, off_t base, off_t *end, int push)
     return write_sections(s, fd, base, end, push, NULL);
 }
 
+/* The writer waits for each column's seal before it encodes it and seals
+ * columns itself while it waits; a column's seal touches nothing but its
+ * own tables, so the bytes are those of summary_seal then summary_write_at,
+ * and the sealing and the writing of a wide summary overlap. */
 int summary_seal_write_at(summary *s, int fd, off_t base, off_t *end, int push, unsigned threads)
 {
-    enum { MOST = 64 };
-    if (threads > MOST) threads = MOST;
-    seal_gate g = {s, PTHREAD_MUTEX_INITIALIZER, PTHREAD_COND_INITIALIZER, 0,
-                   calloc(s->ncols ? s->ncols : 1, 1), 0};
-    if (!g.sealed) { errno = ENOMEM; return -1; }
-    pthread_t tid[MOST];
-    unsigned made = 0;
-    while (made + 1 < threads && made + 1 < s->ncols &&
-           pthread_create(&tid[made], NULL, gate_helper, &g) == 0)
-        made++;
-    int rc = write_sections(s, fd, base, end, push, &g);
-    while (gate_seal_next(&g)) {} /* a failed write left columns unclaimed */
-    for (unsigned t = 0; t < made; t++) pthread_join(tid[t], NULL);
-    free(g.sealed);
-    pthread_cond_destroy(&g.sealed_cv);
-    pthread_mutex_destroy(&g.mu);
-    if (rc == 0 && g.rc != 0) {
+    summary_sealer *g = summary_sealer_start(s, threads);
+    if (!g) {
+        errno = ENOMEM;
+        return -1;
+    }
+    int rc = write_sections(s, fd, base, end, push, g);
+    if (summary_sealer_finish(g) != 0 && rc == 0) {
         errno = ENOMEM;
         rc = -1;
     }

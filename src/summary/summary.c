@@ -212,44 +212,92 @@ int summary_seal(summary *s)
     return rc;
 }
 
-/* summary_seal_threads: columns handed out one at a time by a counter. */
-typedef struct {
+/* Columns handed out one at a time, in order, by a counter; a column's seal
+ * touches nothing but that column's own tables. */
+struct summary_sealer {
     summary *s;
     pthread_mutex_t mu;
-    size_t next;
-    int rc;
-} seal_work;
+    pthread_cond_t sealed_cv; /* a column was sealed */
+    size_t next;              /* the next column to claim */
+    unsigned char *sealed;    /* per column: its seal has run */
+    int rc;                   /* -1 once a seal failed (out of memory) */
+    unsigned helpers;         /* threads started */
+    pthread_t tid[SUMMARY_SEAL_THREADS_MOST];
+};
 
-static void *seal_some(void *arg)
+/* Claims and seals the next column; 0 when none was left to claim. */
+static int seal_next(summary_sealer *g)
 {
-    seal_work *w = arg;
-    for (;;) {
-        pthread_mutex_lock(&w->mu);
-        size_t i = w->next++;
-        pthread_mutex_unlock(&w->mu);
-        if (i >= w->s->ncols) return NULL;
-        if (column_seal(&w->s->cols[i]) != 0) {
-            pthread_mutex_lock(&w->mu);
-            w->rc = -1;
-            pthread_mutex_unlock(&w->mu);
+    pthread_mutex_lock(&g->mu);
+    size_t i = g->next < g->s->ncols ? g->next++ : g->s->ncols;
+    pthread_mutex_unlock(&g->mu);
+    if (i == g->s->ncols) return 0;
+    int rc = column_seal(&g->s->cols[i]);
+    pthread_mutex_lock(&g->mu);
+    g->sealed[i] = 1;
+    if (rc != 0) g->rc = -1;
+    pthread_cond_broadcast(&g->sealed_cv);
+    pthread_mutex_unlock(&g->mu);
+    return 1;
+}
+
+static void *seal_helper(void *arg)
+{
+    while (seal_next(arg)) {}
+    return NULL;
+}
+
+summary_sealer *summary_sealer_start(summary *s, unsigned threads)
+{
+    summary_sealer *g = malloc(sizeof *g);
+    unsigned char *sealed = calloc(s->ncols ? s->ncols : 1, 1);
+    if (!g || !sealed) {
+        free(g);
+        free(sealed);
+        return NULL;
+    }
+    *g = (summary_sealer){.s = s, .sealed = sealed};
+    pthread_mutex_init(&g->mu, NULL);
+    pthread_cond_init(&g->sealed_cv, NULL);
+    if (threads > SUMMARY_SEAL_THREADS_MOST) threads = SUMMARY_SEAL_THREADS_MOST;
+    while (g->helpers + 1 < threads && g->helpers + 1 < s->ncols &&
+           pthread_create(&g->tid[g->helpers], NULL, seal_helper, g) == 0)
+        g->helpers++;
+    return g;
+}
+
+void summary_sealer_wait(summary_sealer *g, size_t column)
+{
+    pthread_mutex_lock(&g->mu);
+    while (!g->sealed[column]) {
+        if (g->next < g->s->ncols) {
+            pthread_mutex_unlock(&g->mu);
+            seal_next(g);
+            pthread_mutex_lock(&g->mu);
+        } else {
+            pthread_cond_wait(&g->sealed_cv, &g->mu);
         }
     }
+    pthread_mutex_unlock(&g->mu);
+}
+
+int summary_sealer_finish(summary_sealer *g)
+{
+    while (seal_next(g)) {} /* the caller takes what is left */
+    for (unsigned t = 0; t < g->helpers; t++) pthread_join(g->tid[t], NULL);
+    int rc = g->rc;
+    pthread_cond_destroy(&g->sealed_cv);
+    pthread_mutex_destroy(&g->mu);
+    free(g->sealed);
+    free(g);
+    return rc;
 }
 
 int summary_seal_threads(summary *s, unsigned threads)
 {
-    enum { MOST = 64 };
-    pthread_t tid[MOST];
-    if (threads > MOST) threads = MOST;
     if (threads < 2 || s->ncols < 2) return summary_seal(s);
-    seal_work w = {s, PTHREAD_MUTEX_INITIALIZER, 0, 0};
-    unsigned made = 0;
-    while (made + 1 < threads && made + 1 < s->ncols &&
-           pthread_create(&tid[made], NULL, seal_some, &w) == 0)
-        made++;
-    seal_some(&w); /* the caller takes columns too (all of them if no thread started) */
-    for (unsigned t = 0; t < made; t++) pthread_join(tid[t], NULL);
-    return w.rc;
+    summary_sealer *g = summary_sealer_start(s, threads);
+    return g ? summary_sealer_finish(g) : summary_seal(s);
 }
 
 int summary_sealed(const summary *s)

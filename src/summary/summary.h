@@ -258,6 +258,21 @@ int summary_seal(summary *s);
  * one of them): the same result, since each column is sealed on its own;
  * the serial end of a wide scan.  0, or -1 when memory ran out. */
 int summary_seal_threads(summary *s, unsigned threads);
+/* The same in steps, for a caller that reads each column as soon as it is
+ * sealed (summary_seal_write_at in format.h).  summary_sealer_start starts
+ * threads - 1 helper threads (at most SUMMARY_SEAL_THREADS_MOST - 1) that
+ * seal s's columns, claimed in column order; NULL when memory ran out.
+ * summary_sealer_wait returns once column `column` is sealed, sealing
+ * columns on the calling thread while it waits; from then on that column
+ * may be read.  summary_sealer_finish seals what is left on the calling
+ * thread, joins the helpers and frees g: 0, or -1 when a seal ran out of
+ * memory (that column stays unsealed, still readable).  No call but these
+ * may touch s's columns between start and finish. */
+#define SUMMARY_SEAL_THREADS_MOST 64
+typedef struct summary_sealer summary_sealer;
+summary_sealer *summary_sealer_start(summary *s, unsigned threads);
+void summary_sealer_wait(summary_sealer *g, size_t column);
+int summary_sealer_finish(summary_sealer *g);
 /* 1 when every index is built (summary_seal has nothing left to do). */
 int summary_sealed(const summary *s);
 
