@@ -44,6 +44,10 @@ wait_paused() {
 killed_in() {
     local n=$1 ck=$2
     shift 2
+    # Emptied here: the redirection below truncates the file only once the
+    # background process runs, and until then wait_paused would read the
+    # previous run's "paused" line and kill this one before any checkpoint.
+    : >"$T/bg.err"
     SHEAF_TEST_CHECKPOINT_PAUSE=$n "$SHEAF" scan -q "$@" --checkpoint "$ck" >/dev/null 2>"$T/bg.err" &
     local pid=$!
     local ok=1
@@ -164,6 +168,7 @@ fi
 ls -A "$T/w" >"$T/w.list"
 check checkpoint.kill_in_write_leaves_one_file "the directory holds: $(tr '\n' ' ' <"$T/w.list")" \
     test "$(cat "$T/w.list")" = night.ck
+: >"$T/bg.err" # as in killed_in
 SHEAF_TEST_CHECKPOINT_PAUSE=3 "$SHEAF" scan -q "$T/t.csv.gz" "${EVERY[@]}" --checkpoint "$T/w2.ck" \
     -o "$T/w2.sheaf" 2>"$T/bg.err" &
 pid=$!

@@ -51,6 +51,10 @@ killed_in() {
     local n=$1 ck=$2
     shift 2
     rm -f "$ck"
+    # Emptied here: the redirection below truncates the file only once the
+    # background process runs, and until then wait_paused would read the
+    # previous run's "paused" line and kill this one before any checkpoint.
+    : >"$T/bg.err"
     SHEAF_TEST_CHECKPOINT_PAUSE=$n "$SHEAF" scan -q "$@" --checkpoint "$ck" -o "$T/bg.sheaf" \
         >/dev/null 2>"$T/bg.err" &
     local pid=$!
@@ -166,6 +170,7 @@ fi
 # (the restored one at least), so a second resume does not start at byte 0.
 if [ -f "$T/gzip_point.ck.keep" ]; then
     cp "$T/gzip_point.ck.keep" "$T/chain.ck"
+    : >"$T/bg.err" # as in killed_in
     SHEAF_TEST_CHECKPOINT_PAUSE=8 "$SHEAF" scan -q "$T/t.csv.gz" "${EVERY[@]}" -j2 \
         --checkpoint "$T/chain.ck" --resume -o "$T/chain.sheaf" >/dev/null 2>"$T/bg.err" &
     pid=$!
