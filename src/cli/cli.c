@@ -59,6 +59,36 @@ static void help_line(const char *left, const char *help, size_t width)
     putchar('\n');
 }
 
+/* A command's description: prose, so each paragraph (blank lines apart)
+ * is filled anew at width, its source line breaks ignored.  Wrapping the
+ * source lines one by one left a word alone on an indented line wherever a
+ * line was a little wider than the page. */
+static void about_text(const char *text, size_t width)
+{
+    size_t col = 0;
+    for (const char *p = text; *p;) {
+        if (p[0] == '\n' && p[1] == '\n') { /* a paragraph ends */
+            if (col) putchar('\n');
+            putchar('\n');
+            col = 0;
+            p += 2;
+            continue;
+        }
+        if (*p == ' ' || *p == '\n') { p++; continue; }
+        size_t n = strcspn(p, " \n"), w = 0;
+        for (size_t i = 0; i < n; i++) w += ((unsigned char)p[i] & 0xC0) != 0x80;
+        if (col && col + 1 + w > width) {
+            putchar('\n');
+            col = 0;
+        }
+        if (col) { putchar(' '); col++; }
+        fwrite(p, 1, n, stdout);
+        col += w;
+        p += n;
+    }
+    if (col) putchar('\n');
+}
+
 void cli_help(const cli_command *cmd)
 {
     if (cli_doc_command(cmd)) return; /* sheaf help --roff / --completion (cli/doc.h) */
@@ -68,7 +98,7 @@ void cli_help(const cli_command *cmd)
     snprintf(usage, sizeof usage, "usage: sheaf %s %s\n", cmd->name, cmd->synopsis);
     table_wrap(stdout, usage, width);
     putchar('\n');
-    table_wrap(stdout, cmd->about, width);
+    about_text(cmd->about, width);
     if (cmd->options[0].name) printf("\noptions:\n");
     for (const cli_option *o = cmd->options; o->name; o++) {
         char left[64];

@@ -115,6 +115,26 @@ done
 wide=$(COLUMNS=64 $SHEAF screen --help | sed '/^examples:/,$d' |
     awk 'length($0) > 64 { n++ } END { print n + 0 }')
 check help_columns_64.screen "$wide lines wider than 64 before the examples" [ "$wide" = 0 ]
+# A command's description is prose: filled anew at the width, so no line
+# starts indented and none ends early (the next line's first word would
+# have fitted).  Wrapping its source lines one by one left a lone word on
+# an indented line ("all\n  their\nsources").
+for c in scan info merge corr screen trim pca project drift page; do
+    for w in 60 80; do
+        COLUMNS=$w $SHEAF $c --help >"$T/about" 2>&1
+        bad=$("$PY" - "$T/about" "$w" <<'EOF2'
+import sys
+lines = open(sys.argv[1], encoding="utf-8").read().split("\n")
+width = int(sys.argv[2])
+about = lines[2:lines.index("options:") - 1] if "options:" in lines else []
+bad = [l for l in about if l.startswith(" ")]
+bad += [a for a, b in zip(about, about[1:]) if a and b and len(a) + 1 + len(b.split()[0]) <= width]
+print(len(bad) if about else "no description")
+EOF2
+)
+        check "help_description_filled.$c.$w" "$bad lines indented or ended early" [ "$bad" = 0 ]
+    done
+done
 env -u COLUMNS $SHEAF screen --help >"$T/h80"
 check help_wraps_under_itself "the --fdr help does not go on under column 30" \
     grep -qE '^ {29}below it is relevant' "$T/h80"
