@@ -564,26 +564,15 @@ void comoment_correlation_matrix(const comoment *c, double *out)
         for (size_t j = 0; j < c->p; j++) out[i * c->p + j] = comoment_correlation(c, i, j);
 }
 
-/* Layout: u64 p; then p x p row-major matrices N (u64), MEAN, M2, C (f64),
- * where MEAN[i][j] and M2[i][j] are of column i over rows where j is present. */
-/* Row i of a p x p matrix held as packed triangles: entry (i, j) is
- * lo[pair_index(i, j)] when i <= j, else hi[pair_index(i, j)] (hi == lo for
- * a symmetric matrix).  The entries j < i lie together from
- * pair_index(0, i); those j > i are j + 1 apart. */
-static void put_row(wire_writer *w, const double *lo, const double *hi, size_t i, size_t p)
-{
-    size_t base = i * (i + 1) / 2; /* pair_index(0, i) */
-    wire_put_f64s(w, hi + base, i);
-    wire_put_f64(w, lo[base + i]);
-    for (size_t j = i + 1, k = base + i + (i + 1); j < p; k += ++j) wire_put_f64(w, lo[k]);
-}
-
 enum { ROW_BLOCK = 8 }; /* rows built at once: a cache line of each packed column */
 
-/* Rows [i0, i1) of the matrix of put_row into rows[(i - i0) * p + j].  The
- * entries (i0..i1-1, j) of a column j >= i1 lie together from
- * pair_index(i0, j): a block of rows reads each packed column once, where
- * row by row every entry above the diagonal is a cache line of its own. */
+/* Rows [i0, i1) of a p x p matrix held as packed triangles (entry (i, j) is
+ * lo[pair_index(i, j)] when i <= j, else hi[pair_index(i, j)]; hi == lo for
+ * a symmetric matrix) into rows[(i - i0) * p + j].  A row's entries j < i
+ * lie together from pair_index(0, i); the entries (i0..i1-1, j) of a column
+ * j >= i1 lie together from pair_index(i0, j), so a block of rows reads each
+ * packed column once, where row by row every entry above the diagonal is a
+ * cache line of its own. */
 static void fill_rows(double *rows, const double *lo, const double *hi, size_t i0, size_t i1,
                       size_t p)
 {
@@ -600,15 +589,17 @@ static void fill_rows(double *rows, const double *lo, const double *hi, size_t i
     }
 }
 
-/* One p x p matrix, row-major: f64, or the counts as u64. */
+/* One p x p matrix of fill_rows, row-major: f64, or the counts as u64. */
 static void put_matrix(wire_writer *w, const double *lo, const double *hi, size_t p, int counts,
                        double *rows)
 {
-    if (!rows) { /* no room for a block: row by row */
-        for (size_t i = 0; i < p; i++) {
-            if (!counts) { put_row(w, lo, hi, i, p); continue; }
-            for (size_t j = 0; j < p; j++) wire_put_u64(w, (uint64_t)lo[pair_index(i, j)]);
-        }
+    if (!rows) { /* no room for a block: entry by entry */
+        for (size_t i = 0; i < p; i++)
+            for (size_t j = 0; j < p; j++) {
+                double v = (i <= j ? lo : hi)[pair_index(i, j)];
+                if (counts) wire_put_u64(w, (uint64_t)v);
+                else wire_put_f64(w, v);
+            }
         return;
     }
     for (size_t i0 = 0; i0 < p; i0 += ROW_BLOCK) {
@@ -620,6 +611,8 @@ static void put_matrix(wire_writer *w, const double *lo, const double *hi, size_
     }
 }
 
+/* Layout: u64 p; then p x p row-major matrices N (u64), MEAN, M2, C (f64),
+ * where MEAN[i][j] and M2[i][j] are of column i over rows where j is present. */
 void comoment_write(const comoment *c, wire_writer *w)
 {
     const size_t p = c->p;

@@ -105,10 +105,7 @@ static int put(sink *s, const void *p, size_t n)
         n -= (size_t)w;
         s->written += w;
     }
-    if (s->push && s->written - s->pushed >= TEMPFILE_PUSH_BYTES) {
-        tempfile_push(s->fd, s->pushed, s->written);
-        s->pushed = s->written;
-    }
+    if (s->push) tempfile_push(s->fd, &s->pushed, s->written);
     return s->failed ? -1 : 0;
 }
 

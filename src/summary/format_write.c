@@ -186,11 +186,7 @@ static int section_drain(void *ctx, const uint8_t *data, size_t len)
     filehash_update(o->hash, data, len);
     o->bytes += len;
     if (summary_write_all(o->fd, data, len) != 0) return -1;
-    off_t at = o->payload + (off_t)o->bytes;
-    if (o->push && at - o->pushed >= TEMPFILE_PUSH_BYTES) {
-        tempfile_push(o->fd, o->pushed, at);
-        o->pushed = at;
-    }
+    if (o->push) tempfile_push(o->fd, &o->pushed, o->payload + (off_t)o->bytes);
     return 0;
 }
 

@@ -419,9 +419,11 @@ int tempfile_pushes(const tempfile *t)
     return t->kind == TEMPFILE_ANONYMOUS || t->kind == TEMPFILE_NAMED;
 }
 
-void tempfile_push(int fd, off_t from, off_t to)
+void tempfile_push(int fd, off_t *pushed, off_t at)
 {
-    if (to > from) sync_file_range(fd, from, to - from, SYNC_FILE_RANGE_WRITE);
+    if (at - *pushed < TEMPFILE_PUSH_BYTES) return;
+    sync_file_range(fd, *pushed, at - *pushed, SYNC_FILE_RANGE_WRITE);
+    *pushed = at;
 }
 
 int tempfile_commit(tempfile *t, char *err, size_t errlen)

@@ -98,12 +98,14 @@ int tempfile_commit(tempfile *t, char *err, size_t errlen);
  *
  * tempfile_pushes: 1 when t is fsynced at commit (so pushing is worth it);
  * 0 for a device, a FIFO, or a scratch file that is copied and dropped.
- * tempfile_push: starts the writing of fd's bytes [from, to) to the disk
- * without waiting for it (sync_file_range(2), SYNC_FILE_RANGE_WRITE).  A
- * failure is ignored: the fsync still waits for every byte and reports. */
+ * tempfile_push: fd's bytes are written up to offset `at`; once
+ * TEMPFILE_PUSH_BYTES or more of them lie past *pushed, starts their
+ * writing to the disk without waiting for it (sync_file_range(2),
+ * SYNC_FILE_RANGE_WRITE) and moves *pushed to at.  A failure is ignored:
+ * the fsync still waits for every byte and reports. */
 #define TEMPFILE_PUSH_BYTES (4 << 20)
 int tempfile_pushes(const tempfile *t);
-void tempfile_push(int fd, off_t from, off_t to);
+void tempfile_push(int fd, off_t *pushed, off_t at);
 
 /* Drops everything written (closes, removes a named file) and releases t. */
 void tempfile_discard(tempfile *t);
