@@ -651,9 +651,48 @@ Test(number, text_at_a_glance_is_text_to_number_parse)
             cr_assert_eq(number_parse(buf, len, &d), NUMBER_TEXT, "\"%.*s\" is not text",
                          (int)len, buf);
         }
-    /* Every letter but i and n, in both cases: 48 first bytes, 32 lengths of 33. */
+    /* Every letter but i and n in both cases (48 first bytes, 32 lengths of
+     * 33), and most cells starting with i or n. */
     cr_assert_gt(accepted, 48 * 2000 * 30 / 33, "only %ld cells accepted", accepted);
     cr_assert(!number_text_at_once("inf", 3) && !number_text_at_once("NaN", 3) &&
               !number_text_at_once("", 0) && !number_text_at_once("-x", 2));
     cr_assert(number_text_at_once("e5", 2) && number_text_at_once("Zulu", 4));
+    /* Words starting with i or n are text at a glance too, unless they start
+     * with inf or nan, which the parser must see. */
+    cr_assert(number_text_at_once("north", 5) && number_text_at_once("Item", 4) &&
+              number_text_at_once("n", 1) && number_text_at_once("IN", 2) &&
+              number_text_at_once("nab", 3) && number_text_at_once("ing", 3));
+    cr_assert(!number_text_at_once("INFINITY", 8) && !number_text_at_once("nan  ", 5) &&
+              !number_text_at_once("Information", 11) && !number_text_at_once("nanometre", 9));
+}
+
+Test(number, words_after_i_and_n_at_a_glance_are_text_to_number_parse)
+{
+    /* Every cell i or n (either case), then two bytes of all 256, then 0 to 6
+     * bytes from the letters of infinity and nan and spaces: what
+     * number_text_at_once accepts, number_parse finds text; and the spellings
+     * of infinity and NaN with trailing spaces are never accepted. */
+    static const char tail[] = "iInNfFaAtTyY  ";
+    uint64_t state = UINT64_C(0x9e3779b97f4a7c15);
+    char buf[16];
+    long accepted = 0, nonfinite = 0;
+    for (int first = 0; first < 4; first++)
+        for (int b = 0; b < 256; b++)
+            for (int d = 0; d < 256; d++)
+                for (size_t extra = 0; extra <= 6; extra++) {
+                    buf[0] = "iInN"[first];
+                    buf[1] = (char)b;
+                    buf[2] = (char)d;
+                    for (size_t j = 0; j < extra; j++)
+                        buf[3 + j] = tail[xorshift64(&state) % (sizeof tail - 1)];
+                    size_t len = 3 + extra;
+                    number_decimal dec;
+                    number_kind k = number_parse(buf, len, &dec);
+                    nonfinite += k == NUMBER_NONFINITE;
+                    if (!number_text_at_once(buf, len)) continue;
+                    accepted++;
+                    cr_assert_eq(k, NUMBER_TEXT, "\"%.*s\" is not text", (int)len, buf);
+                }
+    cr_assert_gt(accepted, 4 * 256 * 256 * 7 * 9 / 10, "only %ld cells accepted", accepted);
+    cr_assert_gt(nonfinite, 0, "no spelling of infinity or NaN was drawn");
 }

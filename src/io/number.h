@@ -85,12 +85,20 @@ typedef struct {
 } number_ref;
 
 /* A cell number_parse finds text at a glance: at most 32 bytes, the first
- * a letter other than that of inf or nan (so no number, infinity or NaN
- * can start there).  tests/test_number.c checks it against number_parse. */
+ * a letter, and not starting with "inf" or "nan" in any case (so no number,
+ * infinity or NaN can be there: those need a sign, a digit, a point or a
+ * space first, or one of those two words).  A column of words then skips
+ * the parser for all of them, also for "north" or "item"; until that test
+ * looked past the first letter, every cell starting with i or n took the
+ * whole parse (a sixth of the labels of the bench table).
+ * tests/test_number.c checks it against number_parse. */
 static inline int number_text_at_once(const char *s, size_t len)
 {
     unsigned c = len ? ((unsigned char)*s | 0x20u) : 0u;
-    return len <= 32 && c >= 'a' && c <= 'z' && c != 'i' && c != 'n';
+    if (len > 32 || c < 'a' || c > 'z') return 0;
+    if ((c != 'i' && c != 'n') || len < 3) return 1;
+    unsigned b = (unsigned char)s[1] | 0x20u, d = (unsigned char)s[2] | 0x20u;
+    return c == 'i' ? !(b == 'n' && d == 'f') : !(b == 'a' && d == 'n');
 }
 
 static inline void number_ref_set(number_ref *r, const number_decimal *d)
