@@ -29,6 +29,7 @@ struct scan_context {
     chunks *work;          /* the chunks into the summary (once the schema is known) */
     unsigned threads;      /* worker threads */
     uint64_t rss_base;     /* resident bytes when the scan was created (--mem) */
+    int statm_fd;          /* /proc/self/statm while --mem is checked, or -1 */
     uint64_t pushed_bytes; /* stream bytes handed to the workers (--mem messages) */
     summary *run;          /* the summary (once the schema is known): runs[0] */
     summary **runs;        /* one summary per target (nruns; one without a target) */
