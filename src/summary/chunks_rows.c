@@ -93,7 +93,9 @@ static scan_status target_row(chunks *w, job *j, size_t t, size_t r, const char 
     if (!p) return SCAN_OK;
     summary_column *tc = &s->cols[s->target];
     number_decimal d;
-    int finite = tc->mode != COLUMN_CATEGORICAL && number_parse(p, len, &d) == NUMBER_FINITE;
+    /* A label is mostly a word: number_text_at_once tells it without the parse. */
+    int finite = tc->mode != COLUMN_CATEGORICAL && !number_text_at_once(p, len) &&
+                 number_parse(p, len, &d) == NUMBER_FINITE;
     if (!finite) s->target_text++;
     if (finite) { /* for the pair sums, whatever the task */
         int whole = d.exact && (d.mantissa >> 63) == 0;
