@@ -457,6 +457,14 @@ chunks *chunks_create(const chunks_options *o)
         parts = (w->jobs[i].tg = calloc(w->nruns, sizeof *w->jobs[i].tg)) != NULL;
     w->target_ref = calloc(w->nruns, sizeof *w->target_ref);
     w->target_ref_set = calloc(w->nruns, 1);
+    /* A scan resumed from a checkpoint keeps the target's frame it had. */
+    for (size_t t = 0; w->target_ref && w->target_ref_set && t < w->nruns; t++) {
+        const summary *s = w->runs[t];
+        if (s->target >= 0 && s->cols[s->target].mom.has_ref) {
+            w->target_ref[t] = s->cols[s->target].mom.ref;
+            w->target_ref_set[t] = 1;
+        }
+    }
     /* Column groups: one with one thread; else GROUPS_PER_THREAD per
      * thread, so that a worker finds a group to feed while another is busy,
      * and a group fed by the worker that does not own it (pick) moves little

@@ -97,6 +97,14 @@ static scan_status target_row(chunks *w, job *j, size_t t, size_t r, const char 
     int finite = tc->mode != COLUMN_CATEGORICAL && !number_text_at_once(p, len) &&
                  number_parse(p, len, &d) == NUMBER_FINITE;
     if (!finite) s->target_text++;
+    if (finite && !w->target_ref_set[t]) {
+        /* The target's frame: its first number's, as the target column's
+         * (block.c).  Set here, whatever the task, so that per-class counts
+         * turned into per-value target moments when the classes are dropped
+         * (summary_class_conversion) and the rows after share it. */
+        number_frame(&d, &w->target_ref[t]);
+        w->target_ref_set[t] = 1;
+    }
     if (finite) { /* for the pair sums, whatever the task */
         int whole = d.exact && (d.mantissa >> 63) == 0;
         int64_t m = whole ? (int64_t)d.mantissa : 0;
@@ -133,10 +141,6 @@ static scan_status target_row(chunks *w, job *j, size_t t, size_t r, const char 
         *classes = -1; /* the next block drops them */
     }
     if (finite) {
-        if (!w->target_ref_set[t]) { /* the target column's frame (block.c) */
-            number_frame(&d, &w->target_ref[t]);
-            w->target_ref_set[t] = 1;
-        }
         jt->row_cell[r] = summary_target_cell(s, d.value);
         if (!jt->row_cell[r]) return SCAN_ERR_MEMORY;
         jt->row_y[r] = number_difference(&d, &w->target_ref[t], NULL);
