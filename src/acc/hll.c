@@ -102,10 +102,16 @@ double hll_estimate(const hll *h)
     return alpha * m * m / sum;
 }
 
-void hll_write(const hll *h, wire_writer *w)
+uint32_t hll_used(const hll *h)
 {
     uint32_t k = 0;
     for (uint32_t j = 0; j < HLL_REGISTERS; j++) k += h->reg[j] != 0;
+    return k;
+}
+
+void hll_write(const hll *h, wire_writer *w)
+{
+    uint32_t k = hll_used(h);
 
     size_t sparse_bytes = 4 + 3 * (size_t)k;
     if (sparse_bytes < HLL_REGISTERS) {

@@ -30,6 +30,8 @@ void hll_add(hll *h, uint64_t hash);
 void hll_add_many(hll *h, const uint64_t *hash, size_t n);
 void hll_merge(hll *into, const hll *from);
 double hll_estimate(const hll *h);
+/* Registers that are not empty: at most the distinct hashes added. */
+uint32_t hll_used(const hll *h);
 /* Compact serialization (sparse when few registers are set). */
 void hll_write(const hll *h, wire_writer *w);
 /* Returns 0, or -1 with r->failed set on malformed input. */

@@ -101,6 +101,15 @@ static inline int number_text_at_once(const char *s, size_t len)
     return c == 'i' ? !(b == 'n' && d == 'f') : !(b == 'a' && d == 'n');
 }
 
+/* 1 when the finite double x is integer-valued: its magnitude is 2^52 or
+ * more, or adding and taking away 2^52 (round to nearest, exact below
+ * 2^52) gives it back.  The rule a column's count of integers keeps. */
+static inline int number_integer_valued(double x)
+{
+    double a = __builtin_fabs(x);
+    return (a >= 0x1p52) | ((a + 0x1p52) - 0x1p52 == a);
+}
+
 static inline void number_ref_set(number_ref *r, const number_decimal *d)
 {
     r->dec = *d;

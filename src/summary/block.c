@@ -142,12 +142,6 @@ static double first_zero(const double *v, size_t n)
     return v[i];
 }
 
-static inline int integer_valued(double x)
-{
-    double a = fabs(x);
-    return (a >= 0x1p52) | ((a + 0x1p52) - 0x1p52 == a);
-}
-
 SHEAF_HOT static void scan_extent(const double *v, size_t n, number_extent *e)
 {
     size_t i = 0;
@@ -187,7 +181,7 @@ SHEAF_HOT static void scan_extent(const double *v, size_t n, number_extent *e)
         lo = x < lo ? x : lo;
         hi = x > hi ? x : hi;
         e->zeros += x == 0;
-        e->integers += integer_valued(x);
+        e->integers += number_integer_valued(x);
     }
     e->lo = lo;
     e->hi = hi;

@@ -9,6 +9,8 @@
 #include <string.h>
 #include <xxhash.h>
 
+#include "io/number.h"
+
 int column_alloc(summary_column *c, const summary_options *o, int with_classes)
 {
     if (o->target && c->mode != COLUMN_CATEGORICAL) {
@@ -254,8 +256,12 @@ static int cell_valid(const summary *s, uint32_t cell)
     return regression_cell(s, cell);
 }
 
+static int deviation_in_range(double dev, const moments *col);
+static int m2_in_range(double m2, uint64_t n, const moments *col);
+
 /* Per-class moments: as a column's moments, without min and max of their
- * own (the column's bound them). */
+ * own (the column's bound them): a mean within the column's range, a
+ * spread that numbers within it can have. */
 static int class_moments_valid(const class_moments *k, const moments *col)
 {
     if (k->n == 0) return k->sum == 0 && k->sum_low == 0 && k->m2 == 0;
@@ -268,7 +274,127 @@ static int class_moments_valid(const class_moments *k, const moments *col)
         !(fabs(k->sum_low) <= 0.5 * (nextafter(mag, INFINITY) - mag)))
         return 0;
     double mean = class_moments_mean(k);
-    return isfinite(mean) && isfinite(k->m2) && moments_mean_plausible(mean, col->min, col->max);
+    return isfinite(mean) && isfinite(k->m2) && deviation_in_range(mean, col) &&
+           m2_in_range(k->m2, k->n, col);
+}
+
+/* A deviation from the column's frame (ref) that a number in [min, max]
+ * can have, or an average of such: within [min - ref, max - ref], less a
+ * slack for decimals that round to the same double and for summation
+ * rounding. */
+static int deviation_in_range(double dev, const moments *col)
+{
+    double lo = col->min - col->ref.value, hi = col->max - col->ref.value;
+    double slack = 0x1p-30 * (hi - lo) + 0x1p-30 * fmax(fabs(col->min), fabs(col->max)) + 0x1p-1000;
+    return dev >= lo - slack && dev <= hi + slack;
+}
+
+/* Sum of squared deviations of n numbers that lie in [min, max]: at most
+ * n (max - min)^2 / 4 (Popoviciu's inequality); four times that, so that
+ * rounding never refuses a file a scan wrote. */
+static int m2_in_range(double m2, uint64_t n, const moments *col)
+{
+    double spread = col->max - col->min;
+    return m2 <= (double)n * spread * spread + 0x1p-1000;
+}
+
+/* An exact value table holds every present cell as its text: read as the
+ * scan read them, its labels give the column's counts of numbers,
+ * non-finite and text cells, its zeros and integers, and its smallest and
+ * largest number.  Skipped when a label may have been cut (it may no longer
+ * read as its cells did). */
+static int labels_agree(const summary_column *c, const values *v, uint32_t label_bytes, char *msg,
+                        size_t len)
+{
+    uint32_t levels = values_levels(v);
+    for (uint32_t k = 0; k < levels; k++)
+        if (values_entry_at(v, k).label_len >= label_bytes) return 0;
+    uint64_t numbers = 0, nonfinite = 0, text = 0, zeros = 0, integers = 0;
+    double lo = INFINITY, hi = -INFINITY;
+    for (uint32_t k = 0; k < levels; k++) {
+        values_entry e = values_entry_at(v, k);
+        number_decimal d;
+        switch (number_parse(e.label, e.label_len, &d)) {
+        case NUMBER_FINITE:
+            numbers += e.count;
+            if (d.value == 0) zeros += e.count;
+            if (number_integer_valued(d.value)) integers += e.count;
+            lo = d.value < lo ? d.value : lo;
+            hi = d.value > hi ? d.value : hi;
+            break;
+        case NUMBER_NONFINITE: nonfinite += e.count; break;
+        default: text += e.count;
+        }
+    }
+    if (numbers != c->mom.n || nonfinite != c->non_finite || text != c->non_numeric)
+        return why(msg, len, "the value table reads as %llu numbers, %llu non-finite and %llu "
+                   "text cells, the counts say %llu, %llu and %llu",
+                   (unsigned long long)numbers, (unsigned long long)nonfinite,
+                   (unsigned long long)text, (unsigned long long)c->mom.n,
+                   (unsigned long long)c->non_finite, (unsigned long long)c->non_numeric);
+    if (zeros != c->zeros || integers != c->integers)
+        return why(msg, len, "the value table holds %llu zeros and %llu integers, the counts say "
+                   "%llu and %llu", (unsigned long long)zeros, (unsigned long long)integers,
+                   (unsigned long long)c->zeros, (unsigned long long)c->integers);
+    if (numbers && (lo != c->mom.min || hi != c->mom.max))
+        return why(msg, len, "the value table's numbers span %.17g to %.17g, the moments %.17g "
+                   "to %.17g", lo, hi, c->mom.min, c->mom.max);
+    return 0;
+}
+
+/* Rows of each regression target cell 1..n: the target column's own
+ * numbers in that cell (its bucket store).  cells[0] is unused. */
+static void target_cell_rows(const summary *s, uint64_t *cells)
+{
+    const buckets *b = s->cols[s->target].bins;
+    for (size_t i = 0, n = buckets_entries(b); i < n; i++) {
+        buckets_entry e = buckets_entry_at(b, i);
+        if (e.cell >= 1 && e.cell <= s->tcells.n) cells[e.cell] += e.count;
+    }
+}
+
+/* What a column holds about the target, against the target column (read
+ * after every column): without classes, each column's numbers (bucket
+ * store) and per-value rows in a target cell are at most the rows of that
+ * cell, and a per-value target mean and spread are those of numbers within
+ * the target's range. */
+int column_check_target(const summary *s, const summary_column *c, char *msg, size_t len)
+{
+    if (s->target < 0 || s->has_classes) return 0;
+    const moments *ty = &s->cols[s->target].mom;
+    for (size_t i = 0, n = c->cross ? crosstab_entries(c->cross) : 0; i < n; i++) {
+        crosstab_entry e = crosstab_entry_at(c->cross, i);
+        if (crosstab_mode(c->cross) == CROSSTAB_VALUES &&
+            !moments_spread_allows_overflow(ty->min, ty->max) &&
+            (!ty->n || !deviation_in_range(e.mean, ty) || !m2_in_range(e.m2, e.n, ty)))
+            return why(msg, len, "per-value entry %zu: target mean or spread outside the "
+                       "target's range%s", i + 1,
+                       s->classes_dropped ? " (classes dropped in the scan: an older sheaf "
+                                            "wrote these wrongly; rescan)"
+                                          : "");
+    }
+    if (s->legacy_cells || !s->tcells.n) return 0;
+    uint64_t rows[SUMMARY_TARGET_CELLS + 1] = {0}, used[SUMMARY_TARGET_CELLS + 1] = {0},
+             cross[SUMMARY_TARGET_CELLS + 1] = {0};
+    target_cell_rows(s, rows);
+    const buckets *b = c->bins;
+    for (size_t i = 0, n = buckets_entries(b); i < n; i++) {
+        buckets_entry e = buckets_entry_at(b, i);
+        if (e.cell >= 1 && e.cell <= s->tcells.n) used[e.cell] += e.count; /* within n's total */
+    }
+    for (size_t i = 0, n = c->cross ? crosstab_entries(c->cross) : 0; i < n; i++) {
+        crosstab_entry e = crosstab_entry_at(c->cross, i);
+        if (e.cell >= 1 && e.cell <= s->tcells.n) cross[e.cell] += e.n; /* within values' total */
+    }
+    for (uint32_t t = 1; t <= s->tcells.n; t++) {
+        if (used[t] > rows[t])
+            return why(msg, len, "%llu numbers in target cell %u, which holds %llu rows",
+                       (unsigned long long)used[t], t, (unsigned long long)rows[t]);
+        if (cross[t] > rows[t])
+            return why(msg, len, "per-value rows in target cell %u: %llu, more than its %llu",
+                       t, (unsigned long long)cross[t], (unsigned long long)rows[t]);
+    }
+    return 0;
 }
 
 int column_check(const summary *s, const summary_column *c, char *msg, size_t len)
@@ -318,6 +444,22 @@ int column_check(const summary *s, const summary_column *c, char *msg, size_t le
         if (e.label_len < o->label_bytes && XXH3_64bits(e.label, e.label_len) != e.hash)
             return why(msg, len, "value %u: label does not hash to its key", k + 1);
     }
+    if (!values_overflowed(v) && c->mode != COLUMN_CATEGORICAL &&
+        labels_agree(c, v, o->label_bytes, msg, len) != 0)
+        return -1;
+
+    /* Distinct-count sketch: an overflowed table's keys are in it; while
+     * the table is exact it is empty (older summaries: it holds the
+     * table's keys, so no more registers than entries); never more
+     * registers set than cells. */
+    uint32_t used = hll_used(c->distinct);
+    if (values_overflowed(v) ? used == 0 : used > values_levels(v))
+        return why(msg, len, "distinct-count sketch of %u registers next to %s value table of "
+                   "%u entries", used, values_overflowed(v) ? "an overflowed" : "an exact",
+                   values_levels(v));
+    if (used > present)
+        return why(msg, len, "distinct-count sketch with %u registers set by %llu cells", used,
+                   (unsigned long long)present);
 
     /* Bucket store: the schema's budget, one entry count per number, zeros
      * in key 0, and cells that exist. */
@@ -373,26 +515,41 @@ int column_check(const summary *s, const summary_column *c, char *msg, size_t le
         if (mode == CROSSTAB_VALUES && s->has_classes)
             return why(msg, len, "per-value target moments with target classes");
         uint64_t key_total = 0, last_key = 0;
+        uint64_t *class_total = NULL; /* rows per class over the table */
+        if (mode == CROSSTAB_COUNTS && !(class_total = calloc(s->nclasses + 1, sizeof *class_total)))
+            return why(msg, len, "out of memory");
         for (size_t i = 0, n = crosstab_entries(x); i < n; i++) {
             crosstab_entry e = crosstab_entry_at(x, i);
             if (mode == CROSSTAB_COUNTS ? e.cell == 0 || e.cell > s->nclasses
-                                        : !regression_cell(s, e.cell))
+                                        : !regression_cell(s, e.cell)) {
+                free(class_total);
                 return why(msg, len, "per-value entry %zu names target cell %u, which does "
                            "not exist", i + 1, e.cell);
+            }
+            if (class_total) {
+                /* each row counted once: the sum stays below the class's rows */
+                class_total[e.cell] += e.n;
+                if (e.n > s->class_rows[e.cell - 1] ||
+                    class_total[e.cell] > s->class_rows[e.cell - 1]) {
+                    free(class_total);
+                    return why(msg, len, "per-value entries count more rows than class %u has",
+                               e.cell);
+                }
+            }
             if (e.key == CROSSTAB_OVERFLOW_KEY) continue; /* values past max_keys */
             if (i == 0 || e.key != last_key) key_total = 0;
             last_key = e.key;
             /* The key is the hash, except that 2^64 - 1 is stored as 2^64 - 2. */
             uint64_t count = values_count_of(v, e.key);
             if (e.key == CROSSTAB_OVERFLOW_KEY - 1) count += values_count_of(v, CROSSTAB_OVERFLOW_KEY);
-            if (e.n > count - key_total)
+            if (e.n > count - key_total) {
+                free(class_total);
                 return why(msg, len, "per-value entry %zu counts more rows than its value has",
                            i + 1);
+            }
             key_total += e.n;
-            if (mode == CROSSTAB_COUNTS && e.n > s->class_rows[e.cell - 1])
-                return why(msg, len, "per-value entry %zu counts more rows than class %u has",
-                           i + 1, e.cell);
         }
+        free(class_total);
     }
 
     /* Pair sums with the target: over rows holding numbers in both. */

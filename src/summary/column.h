@@ -41,6 +41,10 @@ int column_read(summary_column *c, uint32_t nclasses, uint32_t version, wire_rea
  * counts, the schema's options, the target classes; docs/summary-format.md,
  * "Invariants").  0, or -1 with the broken one described in msg. */
 int column_check(const summary *s, const summary_column *c, char *msg, size_t len);
+/* The checks of a read column against the target column, once every column
+ * is read (regression target cells, per-value target moments).  0, or -1
+ * with the broken one described in msg. */
+int column_check_target(const summary *s, const summary_column *c, char *msg, size_t len);
 
 /* How the target cells and classes of `from` map into `into` for a merge. */
 typedef struct {

@@ -311,6 +311,16 @@ static void decode_target(summary *s, wire_reader *r, decode_state *ds, uint32_t
         static const number_decimal zero;
         if (numeric ? !isfinite(d.value) : memcmp(&d, &zero, sizeof d) != 0)
             { broken(r, ds, "class %u: value does not match its numeric flag", c + 1); return; }
+        /* A class is numeric when its label reads as a finite number (in a
+         * target column not declared categorical), with the label's value
+         * and decimal (the first 19 digits). */
+        number_decimal p;
+        int reads = s->cols[s->target].mode != COLUMN_CATEGORICAL &&
+                    number_parse(label, len, &p) == NUMBER_FINITE;
+        if (reads != numeric ||
+            (numeric && (p.value != d.value || p.mantissa != d.mantissa || p.exp10 != d.exp10 ||
+                         p.negative != d.negative)))
+            { broken(r, ds, "class %u: value does not match its label", c + 1); return; }
         if (crows == 0 || crows > s->rows - rows)
             { broken(r, ds, "class %u: %llu rows do not fit the table", c + 1,
                      (unsigned long long)crows); return; }
@@ -444,6 +454,13 @@ static void check_target(summary *s, wire_reader *r, decode_state *ds)
                (unsigned long long)s->target_text,
                (unsigned long long)(t->non_numeric + t->non_finite));
         return;
+    }
+    for (size_t i = 0; i < s->ncols; i++) {
+        char msg[200];
+        if (column_check_target(s, &s->cols[i], msg, sizeof msg) != 0) {
+            broken(r, ds, "column %zu '%.80s': %s", i + 1, s->cols[i].name, msg);
+            return;
+        }
     }
     for (size_t i = 0; i < s->ncols; i++)
         if (s->cols[i].pairs && s->cols[i].pairs->n > t->mom.n) {

@@ -316,6 +316,14 @@ summary_status summary_merge(summary *into, summary *from, char *err, size_t err
 static summary_status fold(summary *into, summary *from, char *err, size_t errlen)
 {
     if (!summary_compatible(into, from, err, errlen)) return SUMMARY_ERR_INCOMPATIBLE;
+    /* Every count of a summary is at most its rows, so rows that add up
+     * keep them all from wrapping; past 2^53 the co-moments' counts (doubles)
+     * would stop being exact, and no reader would take the file. */
+    if (from->rows > SUMMARY_MAX_ROWS || into->rows > SUMMARY_MAX_ROWS - from->rows ||
+        from->bytes > UINT64_MAX - into->bytes) {
+        snprintf(err, errlen, "together the summaries hold more than 2^53 rows or 2^64 bytes");
+        return SUMMARY_ERR_INCOMPATIBLE;
+    }
     /* Classes: both kept, or neither (a side that dropped them wins). */
     if (into->has_classes != from->has_classes) {
         summary *keeper = into->has_classes ? into : from;

@@ -350,6 +350,11 @@ double summary_column_distinct(const summary_column *c, int *exact)
 {
     int ok = !values_overflowed(c->vals);
     if (exact) *exact = ok;
-    return ok ? (double)values_levels(c->vals) : hll_estimate(c->distinct);
+    if (ok) return (double)values_levels(c->vals);
+    /* An overflowed table saw more distinct values than it holds, and no
+     * column has more than its present cells: the estimate is kept within. */
+    double e = hll_estimate(c->distinct), lo = (double)values_levels(c->vals) + 1,
+           hi = (double)values_total(c->vals);
+    return e < lo ? lo : e > hi ? hi : e;
 }
 

@@ -63,6 +63,9 @@
 #define SUMMARY_MAX_MISSING_BYTES 1024 /* bytes of one spelling (the reader refuses more) */
 #define SUMMARY_BLOCK_ROWS 256    /* rows per block fed to the accumulators */
 
+/* Rows a summary counts exactly (2^53: the co-moments count in doubles). */
+#define SUMMARY_MAX_ROWS (UINT64_C(1) << 53)
+
 /* How a column was declared at scan time. */
 typedef enum {
     COLUMN_AUTO = 0,       /* kind decided when the summary is read */
