@@ -3,6 +3,7 @@
 #include "cli/doc.h"
 #include "io/closest.h"
 #include "summary/summary.h"
+#include "summary/tempfile.h"
 #include "out/table.h"
 
 #include <ctype.h>
@@ -264,6 +265,10 @@ static int stat_of(const char *path, int std_fd, struct stat *st)
 
 int cli_check_output(const char *cmd, const char *out, const char *const *inputs, size_t n)
 {
+    if (out && !*out) {
+        cli_error(cmd, "an output needs a name: got an empty one");
+        return EXIT_USAGE;
+    }
     struct stat o;
     if (stat_of(out, STDOUT_FILENO, &o) != 0 || !S_ISREG(o.st_mode)) return 0;
     for (size_t i = 0; i < n; i++) {
@@ -276,6 +281,56 @@ int cli_check_output(const char *cmd, const char *out, const char *const *inputs
                   inn);
         return EXIT_USAGE;
     }
+    return 0;
+}
+
+/* The directory (identity) and last name a path leads to, links followed. */
+static int place_of(const char *path, struct stat *dir, char **name)
+{
+    char *target = tempfile_target(path);
+    if (!target) return -1;
+    char *slash = strrchr(target, '/');
+    int rc;
+    if (!slash) {
+        rc = stat(".", dir);
+        *name = strdup(target);
+    } else {
+        *slash = '\0';
+        rc = stat(*target ? target : "/", dir);
+        *name = strdup(slash + 1);
+    }
+    free(target);
+    if (!*name) return -1;
+    if (rc != 0) { free(*name); *name = NULL; }
+    return rc;
+}
+
+int cli_same_place(const char *a, const char *b)
+{
+    struct stat sa, sb;
+    if (stat(a, &sa) == 0 && stat(b, &sb) == 0)
+        return sa.st_dev == sb.st_dev && sa.st_ino == sb.st_ino;
+    char *na = NULL, *nb = NULL;
+    int same = !strcmp(a, b);
+    if (!same && place_of(a, &sa, &na) == 0 && place_of(b, &sb, &nb) == 0)
+        same = sa.st_dev == sb.st_dev && sa.st_ino == sb.st_ino && !strcmp(na, nb);
+    free(na);
+    free(nb);
+    return same;
+}
+
+int cli_probe_output(const char *cmd, const char *out)
+{
+    if (!out || !strcmp(out, "-") || tempfile_descriptor(out) >= 0) return 0;
+    struct stat st; /* a FIFO would block until read, and be closed on its reader */
+    if (stat(out, &st) == 0 && (S_ISCHR(st.st_mode) || S_ISFIFO(st.st_mode))) return 0;
+    tempfile t;
+    char err[600];
+    if (tempfile_open(&t, out, 0, err, sizeof err) != 0) {
+        cli_error(cmd, "%s", err);
+        return EXIT_FAILED;
+    }
+    tempfile_discard(&t);
     return 0;
 }
 

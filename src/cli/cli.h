@@ -80,6 +80,14 @@ const cli_renamed *cli_find_renamed(const char *cmd, const char *name, size_t le
  * protected: /dev/null as input and output is fine.  Returns 0, or
  * EXIT_USAGE after a one-line error naming both. */
 int cli_check_output(const char *cmd, const char *out, const char *const *inputs, size_t n);
+/* 1 when paths a and b lead to the same file, links followed: the same
+ * file when both exist, else the same name in the same directory. */
+int cli_same_place(const char *a, const char *b);
+/* Whether the output `out` can be created (its folder exists and takes a
+ * new file; it is not a folder), before a command spends an hour reading:
+ * nothing is left behind.  0, or EXIT_FAILED after one line.  Standard
+ * output, a descriptor, a device and a FIFO are not probed. */
+int cli_probe_output(const char *cmd, const char *out);
 
 /* Refuses `-o -` for a binary output (a summary) when standard output is a
  * terminal: 0, or EXIT_USAGE after a one-line error.  A pipe or a

@@ -6,6 +6,7 @@
 #include <unistd.h>
 
 #include "cli/cli.h"
+#include "summary/checkpoint.h"
 #include "cli/scan_notes.h"
 #include "io/shard_start.h"
 #include "stats/screen.h"
@@ -151,12 +152,19 @@ int cmd_scan(int argc, char **argv)
         }
         o.checkpoint_bytes = (uint64_t)v;
     }
-    if (o.checkpoint && !strcmp(o.checkpoint, out)) {
-        cli_error("scan", "--checkpoint and -o name the same file '%s'", out);
-        goto done;
+    checkpoint_mark before = {0};
+    if (o.checkpoint) {
+        char cerr[600];
+        if (checkpoint_mark_path(o.checkpoint, &before, cerr, sizeof cerr) != 0) {
+            cli_error("scan", "%s", cerr);
+            goto done;
+        }
+        if (cli_same_place(o.checkpoint, out)) {
+            cli_error("scan", "--checkpoint %s and -o %s name the same file", o.checkpoint, out);
+            goto done;
+        }
+        if (cli_check_output("scan", o.checkpoint, (const char *const *)pos, npos)) goto done;
     }
-    if (o.checkpoint && cli_check_output("scan", o.checkpoint, (const char *const *)pos, npos))
-        goto done;
     o.resume = resume;
     if (o.checkpoint && getenv("SHEAF_TEST_CHECKPOINT_PAUSE")) {
         o.checkpoint_pause = pause_in_checkpoint;
@@ -231,6 +239,8 @@ int cmd_scan(int argc, char **argv)
         }
         free(copy);
     }
+    if ((rc = cli_probe_output("scan", out)) != 0) goto done;
+    rc = EXIT_USAGE;
     o.targets = target;
     o.seal_later = 1; /* sealed while written: summary_set_seal_write below */
     o.header = !no_header;
@@ -272,10 +282,10 @@ int cmd_scan(int argc, char **argv)
         rc = ws == SUMMARY_ERR_MEMORY ? EXIT_RESOURCE : EXIT_FAILED;
         goto done;
     }
-    /* The summary is safe: the checkpoint has served. */
-    if (o.checkpoint && unlink(o.checkpoint) != 0 && errno != ENOENT) /* none: shorter than one interval */
-        cli_error("scan", "warning: cannot remove the checkpoint %s: %s", o.checkpoint,
-                  strerror(errno));
+    /* The summary is safe: the checkpoint has served (the one this scan
+     * wrote or resumed from; none when shorter than one interval). */
+    if (o.checkpoint && checkpoint_remove(o.checkpoint, &before, resume, err, sizeof err) != 0)
+        cli_error("scan", "warning: %s", err);
     print_warnings(&held);
     if (shard && !from_top)
         for (size_t i = 0; i < summary_source_count(set->parts[0]); i++) {

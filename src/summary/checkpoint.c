@@ -290,8 +290,59 @@ checkpoint_status checkpoint_write(const char *path, const checkpoint *c,
     return CHECKPOINT_OK;
 }
 
+int checkpoint_mark_path(const char *path, checkpoint_mark *m, char *err, size_t errlen)
+{
+    memset(m, 0, sizeof *m);
+    if (!*path) {
+        snprintf(err, errlen, "--checkpoint names no file (an empty name)");
+        return -1;
+    }
+    if (tempfile_descriptor(path) >= 0) {
+        snprintf(err, errlen, "%s: names an open descriptor; a checkpoint must be a regular file",
+                 path);
+        return -1;
+    }
+    struct stat st;
+    if (stat(path, &st) != 0) {
+        if (errno == ENOENT) return 0;
+        snprintf(err, errlen, "%s: cannot use as a checkpoint: %s", path, strerror(errno));
+        return -1;
+    }
+    if (!S_ISREG(st.st_mode)) {
+        snprintf(err, errlen, "%s: not a regular file; a checkpoint must be one", path);
+        return -1;
+    }
+    m->exists = 1;
+    m->dev = (uint64_t)st.st_dev;
+    m->ino = (uint64_t)st.st_ino;
+    return 0;
+}
+
+int checkpoint_remove(const char *path, const checkpoint_mark *before, int resumed, char *err,
+                      size_t errlen)
+{
+    struct stat st;
+    if (stat(path, &st) != 0 || !S_ISREG(st.st_mode)) return 0; /* none was written */
+    if (!resumed && before->exists && (uint64_t)st.st_dev == before->dev &&
+        (uint64_t)st.st_ino == before->ino)
+        return 0;
+    char *target = tempfile_target(path);
+    if (!target || unlink(target) != 0) {
+        snprintf(err, errlen, "cannot remove the checkpoint %s: %s", path, strerror(errno));
+        free(target);
+        return -1;
+    }
+    free(target);
+    return 0;
+}
+
 checkpoint_status checkpoint_probe(const char *path, char *err, size_t errlen)
 {
+    checkpoint_mark m;
+    if (checkpoint_mark_path(path, &m, err, errlen) != 0) {
+        errno = EINVAL;
+        return CHECKPOINT_IO;
+    }
     tempfile t;
     if (tempfile_open(&t, path, TEMPFILE_SEEKABLE, err, errlen) != 0)
         return errno == ENOMEM ? CHECKPOINT_MEMORY : CHECKPOINT_IO;

@@ -106,6 +106,28 @@ checkpoint_status checkpoint_write(const char *path, const checkpoint *c,
  * behind.  CHECKPOINT_OK, or the failure with a message in err. */
 checkpoint_status checkpoint_probe(const char *path, char *err, size_t errlen);
 
+/* What a checkpoint path names before a scan: nothing yet, or a regular
+ * file (its identity, links followed). */
+typedef struct {
+    int exists;    /* a file was there */
+    uint64_t dev;  /* its device and inode */
+    uint64_t ino;
+} checkpoint_mark;
+
+/* Marks path before a scan.  0, or -1 with a message in err when it cannot
+ * hold a checkpoint: a directory, a device, a FIFO (which a checkpoint
+ * would be written through and then removed: /dev/null) or a descriptor of
+ * this process (/dev/stdout ...); a checkpoint is a regular file. */
+int checkpoint_mark_path(const char *path, checkpoint_mark *m, char *err, size_t errlen);
+
+/* After the scan's output is safe: removes the checkpoint at path (the file
+ * its links lead to; the links stay), unless it is still the file marked
+ * before the scan and the scan did not resume from it (a scan shorter than
+ * one interval never wrote one: what was there is not sheaf's to remove).
+ * 0, or -1 with a message in err (nothing else changes). */
+int checkpoint_remove(const char *path, const checkpoint_mark *before, int resumed, char *err,
+                      size_t errlen);
+
 /* Reads a checkpoint (every checksum checked, the summaries decoded) into
  * *c (free with checkpoint_free).  CHECKPOINT_OK, or the failure with a
  * one-line message naming the path in err. */
