@@ -8,6 +8,7 @@
 #include <fcntl.h>
 #include <gsl/gsl_errno.h>
 #include <malloc.h>
+#include <signal.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -190,6 +191,10 @@ int main(int argc, char **argv)
     mallopt(M_TRIM_THRESHOLD, 128 << 10);
     gsl_set_error_handler(stat_gsl_error_handler);
     hold_closed_std_fds();
+    /* A file-size limit (ulimit -f) reached is a write error like a full
+     * disk (EFBIG: one line naming the file, exit 1), not a silent death by
+     * SIGXFSZ with the output half written. */
+    signal(SIGXFSZ, SIG_IGN);
     int rc = run(argc, argv);
     int out = cli_close_stdout();
     return rc == EXIT_DONE || (rc == EXIT_DRIFT && out) ? out : rc;

@@ -32,7 +32,7 @@ static struct {
     char path[PATH_MAX];  /* the named temporary file while SLOT_ARMED */
 } slots[TEMPFILE_SLOTS];
 
-static const int CLEANUP_SIGNALS[] = {SIGTERM, SIGINT, SIGHUP};
+static const int CLEANUP_SIGNALS[] = {SIGTERM, SIGINT, SIGHUP, SIGXFSZ};
 static pthread_once_t handlers_once = PTHREAD_ONCE_INIT;
 
 /* Async-signal-safe: atomic loads, unlink(2) and raise(3).  SA_RESETHAND
@@ -176,6 +176,54 @@ static char *follow_links(const char *path)
     return NULL;
 }
 
+/* The descriptor n when name is /dev/fd/n, /proc/self/fd/n,
+ * /proc/thread-self/fd/n or /proc/PID/fd/n of this process; else -1. */
+static int descriptor_in(const char *name)
+{
+    char own[40];
+    snprintf(own, sizeof own, "/proc/%ld/fd/", (long)getpid());
+    static const char *const dirs[] = {"/dev/fd/", "/proc/self/fd/", "/proc/thread-self/fd/"};
+    const char *rest = NULL;
+    for (size_t i = 0; i < sizeof dirs / sizeof *dirs && !rest; i++)
+        if (!strncmp(name, dirs[i], strlen(dirs[i]))) rest = name + strlen(dirs[i]);
+    if (!rest && !strncmp(name, own, strlen(own))) rest = name + strlen(own);
+    if (!rest || !*rest || strlen(rest) > 9) return -1;
+    int fd = 0;
+    for (const char *c = rest; *c; c++) {
+        if (*c < '0' || *c > '9') return -1;
+        fd = fd * 10 + (*c - '0');
+    }
+    return fd;
+}
+
+int tempfile_descriptor(const char *path)
+{
+    char *cur = strdup(path);
+    for (int hops = 0; cur && hops <= MAX_LINKS; hops++) {
+        int fd = descriptor_in(cur);
+        if (fd >= 0) { free(cur); return fd; }
+        char link[PATH_MAX];
+        ssize_t n = readlink(cur, link, sizeof link - 1);
+        if (n < 0) break; /* not a link (or gone): the end of the chain */
+        link[n] = '\0';
+        char *next;
+        if (link[0] == '/' || !strchr(cur, '/')) {
+            next = strdup(link);
+        } else {
+            char *dir = dir_of(cur);
+            next = dir ? malloc(strlen(dir) + strlen(link) + 2) : NULL;
+            if (next) sprintf(next, "%s/%s", dir, link);
+            free(dir);
+        }
+        free(cur);
+        cur = next;
+    }
+    free(cur);
+    return -1;
+}
+
+char *tempfile_target(const char *path) { return follow_links(path); }
+
 /* ---- opening ---- */
 
 static int fail(tempfile *t, char *err, size_t errlen, const char *path, const char *what)
@@ -190,13 +238,28 @@ static int fail(tempfile *t, char *err, size_t errlen, const char *path, const c
     return -1;
 }
 
+/* Bytes of the target's name a temporary name keeps: room for the
+ * prefix, suffix and letters within a name's 255 bytes (the name only has
+ * to be new; a target of 242 to 255 bytes could not be replaced). */
+#define TMP_BASE_BYTES 200
+
+/* path with its last part cut to TMP_BASE_BYTES bytes (a new string). */
+static char *cut_base(const char *path)
+{
+    const char *base = base_of(path);
+    size_t keep = (size_t)(base - path) + (strlen(base) > TMP_BASE_BYTES ? TMP_BASE_BYTES : strlen(base));
+    return strndup(path, keep);
+}
+
 static int open_named(tempfile *t)
 {
-    size_t len = strlen(t->path) + sizeof ".tmp." + SUFFIX_LETTERS;
+    char *stem = cut_base(t->path);
+    if (!stem) { errno = ENOMEM; return -1; }
+    size_t len = strlen(stem) + sizeof ".tmp." + SUFFIX_LETTERS;
     t->tmp_path = malloc(len);
-    if (!t->tmp_path) { errno = ENOMEM; return -1; }
+    if (!t->tmp_path) { free(stem); errno = ENOMEM; return -1; }
     for (unsigned attempt = 0; attempt < ATTEMPTS; attempt++) {
-        random_name(t->tmp_path, len, t->path, ".tmp.", "", attempt);
+        random_name(t->tmp_path, len, stem, ".tmp.", "", attempt);
         sigset_t old;
         block(&old);
         int slot = slot_claim(t->tmp_path);
@@ -205,9 +268,10 @@ static int open_named(tempfile *t)
         if (fd >= 0) slot_set(slot, SLOT_ARMED);
         else slot_set(slot, SLOT_FREE);
         unblock(&old);
-        if (fd >= 0) { t->fd = fd; t->slot = slot; return 0; }
-        if (saved != EEXIST) { errno = saved; return -1; }
+        if (fd >= 0) { free(stem); t->fd = fd; t->slot = slot; return 0; }
+        if (saved != EEXIST) { free(stem); errno = saved; return -1; }
     }
+    free(stem);
     errno = EEXIST;
     return -1;
 }
@@ -247,6 +311,11 @@ static int attach(tempfile *t, int fd, int flags, const char *name, char *err, s
 
 int tempfile_open(tempfile *t, const char *path, int flags, char *err, size_t errlen)
 {
+    /* /dev/stdout and the like name a descriptor of this process: written
+     * through it, as `-o -` writes standard output (an append or a shared
+     * redirection keeps what it holds; a closed one fails). */
+    int own = tempfile_descriptor(path);
+    if (own >= 0) return tempfile_open_fd(t, own, path, flags, err, errlen);
     memset(t, 0, sizeof *t);
     t->fd = t->target_fd = t->slot = -1;
     struct stat st;
@@ -340,11 +409,11 @@ static int place_anonymous(tempfile *t)
 {
     if (link_fd(t->fd, t->path) == 0) return 0;
     if (errno != EEXIST) return -1;
-    char *dir = dir_of(t->path);
-    const char *base = base_of(t->path);
+    char *dir = dir_of(t->path), *stem = cut_base(t->path);
+    const char *base = stem ? base_of(stem) : "";
     size_t len = (dir ? strlen(dir) : 0) + strlen(base) + sizeof "/..sheaf-" + SUFFIX_LETTERS;
-    char *name = dir ? malloc(len) : NULL;
-    if (!name) { free(dir); errno = ENOMEM; return -1; }
+    char *name = dir && stem ? malloc(len) : NULL;
+    if (!name) { free(dir); free(stem); errno = ENOMEM; return -1; }
     int rc = -1;
     for (unsigned attempt = 0; attempt < ATTEMPTS; attempt++) {
         char prefix[PATH_MAX + 2];
@@ -361,8 +430,11 @@ static int place_anonymous(tempfile *t)
         }
         if (errno != EEXIST) break;
     }
+    int saved = errno;
     free(name);
     free(dir);
+    free(stem);
+    errno = saved;
     return rc;
 }
 

@@ -11,12 +11,13 @@
  *     instant.  A process killed while writing, even by SIGKILL, leaves
  *     nothing (the kernel frees a file without a name when its last
  *     descriptor closes).  The one window: between that linkat and that
- *     rename (two system calls, with SIGTERM, SIGINT and SIGHUP blocked) a
- *     SIGKILL or a power cut leaves the random name ".NAME.sheaf-XXXXXX".
+ *     rename (two system calls, with the cleanup signals blocked) a
+ *     SIGKILL or a power cut leaves the random name ".NAME.sheaf-XXXXXX"
+ *     (NAME cut to 200 bytes).
  *   - a regular file on a file system without O_TMPFILE (open fails with
  *     EOPNOTSUPP, EISDIR or EINVAL): a named file "<path>.tmp.XXXXXX" is
  *     created and renamed over the target.  Its name is recorded for a
- *     handler of SIGTERM, SIGINT and SIGHUP that removes it and then dies of
+ *     handler of SIGTERM, SIGINT, SIGHUP and SIGXFSZ that removes it and then dies of
  *     the same signal (so the exit status still says which).  The handler is
  *     installed only for a signal whose action is the default one, so a host
  *     program that handles these signals keeps its own handler (and its own
@@ -25,9 +26,13 @@
  *     from the link's directory) to the file it names, which is then handled
  *     as above; the link itself stays.  A dangling link names the file to
  *     create.
- *   - a character device or a FIFO (/dev/null, /dev/full, /dev/stdout on a
- *     terminal or a pipe, a named pipe): written through, in place, as a
- *     shell redirection would.  A caller that must seek or map what it
+ *   - a descriptor of this process named through /proc (/dev/stdout,
+ *     /dev/fd/N, /proc/self/fd/N, or links to them): written through that
+ *     descriptor as tempfile_open_fd does (`-o -`), whatever it leads to, so
+ *     an append or a redirection shared with other commands keeps what it
+ *     holds, and a closed descriptor fails.
+ *   - a character device or a FIFO (/dev/null, /dev/full, a named pipe):
+ *     written through, in place, as a shell redirection would.  A caller that must seek or map what it
  *     writes (TEMPFILE_SEEKABLE) writes to a scratch file without a name
  *     (O_TMPFILE in $TMPDIR or /tmp, else memfd_create), copied to the
  *     target by tempfile_commit.
@@ -109,5 +114,14 @@ void tempfile_push(int fd, off_t *pushed, off_t at);
 
 /* Drops everything written (closes, removes a named file) and releases t. */
 void tempfile_discard(tempfile *t);
+
+/* The descriptor of this process that path names (/dev/stdout, /dev/fd/N,
+ * /proc/self/fd/N, /proc/PID/fd/N, or a chain of links to one of them), or
+ * -1.  tempfile_open writes such a path through the descriptor. */
+int tempfile_descriptor(const char *path);
+
+/* path with its symbolic links followed to the name they lead to (a new
+ * string; the name need not exist), or NULL with errno set. */
+char *tempfile_target(const char *path);
 
 #endif
