@@ -80,6 +80,8 @@ int cmd_merge(int argc, char **argv)
     if (cli_check_output("merge", out, (const char *const *)pos, npos) ||
         cli_check_binary_stdout("merge", out) || cli_check_stdin("merge", (const char *const *)pos, npos))
         goto done;
+    if ((rc = cli_probe_output("merge", out)) != 0) goto done;
+    rc = EXIT_USAGE;
     char err[2048];
     for (size_t i = 0; i < npos; i++) {
         summary_set *s;

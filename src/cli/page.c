@@ -63,7 +63,12 @@ int cmd_page(int argc, char **argv)
     if (q && cli_parse_unit("page", "--fdr", q, &o.screen.q_level)) goto done;
     if (redund && cli_parse_unit("page", "--redundancy", redund, &o.screen.redundancy)) goto done;
     if (cli_numeric_share("page", share, &o.numeric_share)) goto done;
-    if (out && cli_check_output("page", out, (const char *const *)pos, 1)) goto done;
+    const char *inputs[2] = {pos[0], base_path};
+    if (out && cli_check_output("page", out, inputs, base_path ? 2 : 1)) goto done;
+    if (svg && !*svg) {
+        cli_error("page", "--write-svg needs a folder name: got an empty one");
+        goto done;
+    }
     if ((rc = cli_read_target("page", pos[0], target, 0, &s)) != EXIT_DONE) goto done;
     if (base_path) {
         const char *both[2] = {pos[0], base_path};
@@ -96,7 +101,8 @@ int cmd_page(int argc, char **argv)
         if (gmtime_r(&t, &tm)) strftime(made, sizeof made, "%Y-%m-%d %H:%M UTC", &tm);
     }
     const report_page p = {cli_path_name(pos[0]), made[0] ? made : NULL, dr,
-                           base_path ? cli_path_name(base_path) : NULL};
+                           base_path ? cli_path_name(base_path) : NULL, inputs,
+                           base_path ? 2 : 1};
     char err[1024];
     int w = report_files_write(r, &p, out, svg, err, sizeof err);
     if (w) cli_error("page", "%s", err);

@@ -5,31 +5,55 @@
 #include <stdlib.h>
 #include <string.h>
 #include <sys/stat.h>
+#include <unistd.h>
 
 #include "out/report_html.h"
 #include "out/sink.h"
 
-/* The bytes of b to path through a sink (a temporary file renamed into
- * place).  0, or REPORT_FILES_WRITE with the message in err. */
-static int write_whole(const char *path, const html_buf *b, char *err, size_t errlen)
+/* 1 when path leads to one of the inputs (links followed). */
+static int is_input(const report_page *p, const char *path)
 {
-    sink *k = sink_open(path, err, errlen);
-    if (!k) return REPORT_FILES_WRITE;
-    if (sink_write(k, b->data, b->len)) {
-        sink_error(k, err, errlen);
-        sink_abort(k);
-        return REPORT_FILES_WRITE;
+    struct stat o, in;
+    if (stat(path, &o) != 0 || !S_ISREG(o.st_mode)) return 0;
+    for (size_t i = 0; i < p->ninputs; i++) {
+        if (!p->inputs[i]) continue;
+        int got = strcmp(p->inputs[i], "-") ? stat(p->inputs[i], &in) : fstat(STDIN_FILENO, &in);
+        if (got == 0 && in.st_dev == o.st_dev && in.st_ino == o.st_ino) return 1;
     }
-    return sink_close(k, err, errlen) ? REPORT_FILES_WRITE : 0;
+    return 0;
 }
 
-static int write_charts(const report *r, const char *dir, char *err, size_t errlen)
+/* The outputs of one page: opened first, written, then all closed. */
+typedef struct {
+    sink **sinks;    /* the page's (when written) and each chart's */
+    size_t n, cap;
+} outputs;
+
+/* Opens path as the last of o and writes b into it (b NULL: nothing yet).
+ * 0, or an error. */
+static int add_output(outputs *o, const char *path, const html_buf *b, char *err, size_t errlen)
 {
-    struct stat st;
-    if (mkdir(dir, 0777) != 0 && errno != EEXIST) {
-        snprintf(err, errlen, "%s: cannot create the folder: %s", dir, strerror(errno));
+    if (o->n == o->cap) {
+        size_t cap = o->cap ? 2 * o->cap : 8;
+        sink **s = realloc(o->sinks, cap * sizeof *s);
+        if (!s) { snprintf(err, errlen, "out of memory"); return REPORT_FILES_MEMORY; }
+        o->sinks = s;
+        o->cap = cap;
+    }
+    sink *k = sink_open(path, err, errlen);
+    if (!k) return REPORT_FILES_WRITE;
+    o->sinks[o->n++] = k;
+    if (b && sink_write(k, b->data, b->len)) {
+        sink_error(k, err, errlen);
         return REPORT_FILES_WRITE;
     }
+    return 0;
+}
+
+static int open_charts(const report *r, const report_page *p, const char *dir, outputs *o,
+                       char *err, size_t errlen)
+{
+    struct stat st;
     if (stat(dir, &st) != 0 || !S_ISDIR(st.st_mode)) {
         snprintf(err, errlen, "%s: not a folder", dir);
         return REPORT_FILES_WRITE;
@@ -51,7 +75,14 @@ static int write_charts(const report *r, const char *dir, char *err, size_t errl
             return REPORT_FILES_MEMORY;
         }
         snprintf(path, len, "%s/%s", dir, name);
-        int rc = write_whole(path, &b, err, errlen);
+        int rc = 0;
+        if (is_input(p, path)) {
+            snprintf(err, errlen, "%s: is the same file as an input; refusing to overwrite it",
+                     path);
+            rc = REPORT_FILES_WRITE;
+        } else {
+            rc = add_output(o, path, &b, err, errlen);
+        }
         free(path);
         html_free(&b);
         if (rc) return rc;
@@ -64,13 +95,48 @@ int report_files_write(const report *r, const report_page *p, const char *html_p
 {
     html_buf page;
     html_init(&page);
-    int rc = 0;
+    outputs o = {0};
+    int rc = 0, made_dir = 0;
     if (html_path && report_html_write(r, p, &page)) {
         snprintf(err, errlen, "out of memory");
         rc = REPORT_FILES_MEMORY;
     }
-    if (!rc && svg_dir) rc = write_charts(r, svg_dir, err, errlen);
-    if (!rc && html_path) rc = write_whole(html_path, &page, err, errlen);
+    /* The page opened first (a page that cannot be created makes no
+     * chart), written last (standard output gets nothing when a chart
+     * fails). */
+    if (!rc && html_path) rc = add_output(&o, html_path, NULL, err, errlen);
+    if (!rc && svg_dir) {
+        if (mkdir(svg_dir, 0777) == 0) {
+            made_dir = 1;
+        } else if (errno != EEXIST) {
+            snprintf(err, errlen, "%s: cannot create the folder: %s", svg_dir, strerror(errno));
+            rc = REPORT_FILES_WRITE;
+        }
+        if (!rc) rc = open_charts(r, p, svg_dir, &o, err, errlen);
+    }
+    /* The charts, then the page, each renamed into place. */
+    for (size_t i = html_path ? 1 : 0; !rc && i < o.n; i++) {
+        sink *k = o.sinks[i];
+        o.sinks[i] = NULL;
+        if (sink_close(k, err, errlen)) rc = REPORT_FILES_WRITE;
+    }
+    if (!rc && html_path) {
+        sink *k = o.sinks[0];
+        o.sinks[0] = NULL;
+        if (sink_write(k, page.data, page.len)) {
+            sink_error(k, err, errlen);
+            sink_abort(k);
+            rc = REPORT_FILES_WRITE;
+        } else if (sink_close(k, err, errlen)) {
+            rc = REPORT_FILES_WRITE;
+        }
+    }
+    if (rc) {
+        for (size_t i = 0; i < o.n; i++)
+            if (o.sinks[i]) sink_abort(o.sinks[i]);
+        if (made_dir) rmdir(svg_dir); /* only when nothing was renamed into it */
+    }
+    free(o.sinks);
     html_free(&page);
     return rc;
 }

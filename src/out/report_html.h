@@ -27,6 +27,8 @@ typedef struct {
     const char *made;         /* when the summary file was written (text), or NULL */
     const drift_result *drift; /* the drift from a baseline (stats/drift.h), or NULL */
     const char *base_name;    /* how the baseline is named (with drift) */
+    const char *const *inputs; /* files no chart may be written over ("-": standard input) */
+    size_t ninputs;
 } report_page;
 
 /* The whole page into out.  Returns 0, or -1 when out of memory. */
@@ -44,9 +46,12 @@ enum { REPORT_FILES_WRITE = 1, REPORT_FILES_MEMORY = 2 };
 
 /* The page into html_path (NULL: none; "-": standard output) and, when
  * svg_dir is not NULL, each chart as its own SVG file in that folder
- * (created when missing; the charts first, then the page).  Each file is
- * written whole and renamed into place (out/sink.h).  Returns 0, or
- * REPORT_FILES_WRITE / REPORT_FILES_MEMORY with a one-line message in err. */
+ * (created when missing).  Each file is written whole and renamed into
+ * place (out/sink.h), and all of them only once every one could be opened
+ * and written: a page that cannot be created, or a chart that cannot, or
+ * one that would land on one of p->inputs, leaves no file (and no folder
+ * it made).  Returns 0, or REPORT_FILES_WRITE / REPORT_FILES_MEMORY with a
+ * one-line message in err. */
 int report_files_write(const report *r, const report_page *p, const char *html_path,
                        const char *svg_dir, char *err, size_t errlen);
 
