@@ -17,9 +17,8 @@
 /* Notes that a gzip member or zstd frame begins at decoded offset `at`.  Out
  * of memory drops the note: a repeated header there is then read as data,
  * as it was before starts were reported. */
-static void note_start(source *s, uint64_t at)
+void source_add_start(source *s, uint64_t at)
 {
-    if (at == 0) return;
     if (s->ahead) pthread_mutex_lock(&s->ahead->mu);
     if (!(s->nstarts && s->starts[s->nstarts - 1] == at)) {
         if (s->nstarts == s->starts_cap) {
@@ -30,6 +29,11 @@ static void note_start(source *s, uint64_t at)
         if (s->nstarts < s->starts_cap) s->starts[s->nstarts++] = at;
     }
     if (s->ahead) pthread_mutex_unlock(&s->ahead->mu);
+}
+
+static void note_start(source *s, uint64_t at)
+{
+    if (at) source_add_start(s, at); /* the stream's own start is not a member's */
 }
 
 size_t source_take_starts(source *s, uint64_t *out, size_t max)

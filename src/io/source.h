@@ -63,6 +63,13 @@ int source_read_ahead(source *s, size_t budget);
  * them after each read.  A plain source has none. */
 size_t source_take_starts(source *s, uint64_t *out, size_t max);
 
+/* Notes that a member or frame begins at offset `at` of s's stream (0
+ * included), for a source whose bytes another one decoded
+ * (source_open_decoded): a shard's data stream hands on its members'
+ * starts so that a repeated header there is skipped as in a whole scan.
+ * Offsets must come in ascending order; out of memory drops the note. */
+void source_add_start(source *s, uint64_t at);
+
 /* Shows every decoded byte to fn(ctx, data, len), in order, as it is decoded
  * (on the read-ahead thread when there is one): how a byte-range shard
  * follows the quote rule over the bytes it reads without a second pass

@@ -490,8 +490,9 @@ scan_status scan_begin_at(scan_context *sc, const char *name, uint64_t from, uin
     sc->name = strdup(name);
     if (!sc->name) return scan_fail(sc, SCAN_ERR_MEMORY, "out of memory");
     /* A shard does not know how many lines precede it: its messages count
-     * lines from its first record, and say so. */
-    if (from) snprintf(sc->shown, sizeof sc->shown, "%s (shard; lines counted from byte %llu)",
+     * lines and bytes from its first record, and say so. */
+    if (from) snprintf(sc->shown, sizeof sc->shown,
+                       "%s (shard; lines and bytes counted from its first record, at byte %llu)",
                        name, (unsigned long long)from);
     else snprintf(sc->shown, sizeof sc->shown, "%s", name);
     reader_start(sc->rd, sc->shown, from == 0, sc->delim, 0);
@@ -709,7 +710,14 @@ scan_status scan_file_range(scan_context *sc, const char *path, uint64_t from, u
 scan_status scan_source_range(scan_context *sc, source *src, uint64_t from, uint64_t stop_at)
 {
     scan_status st = scan_begin_at(sc, source_path(src), from, stop_at);
-    return st != SCAN_OK ? st : scan_pull(sc, src, source_raw_offset(src));
+    if (st != SCAN_OK) return st;
+    /* The shard of a file of members: `from` is where its first member
+     * begins in the file, and its bytes are counted decompressed (the
+     * reader and the workers hold this buffer's address). */
+    if (from) snprintf(sc->shown, sizeof sc->shown,
+                       "%s (shard; lines and decompressed bytes counted from its first record, "
+                       "in the member at byte %llu)", source_path(src), (unsigned long long)from);
+    return scan_pull(sc, src, source_raw_offset(src));
 }
 
 /* Every summary of the scan finished: each target's cells settled, the

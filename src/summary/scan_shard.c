@@ -172,18 +172,34 @@ typedef struct {
     const char *win;  /* the look-ahead */
     size_t pos, len;  /* next byte of it, and its end */
     source *inner;    /* the members, decoded */
+    size_t first;     /* where the shard's stream begins in inner's */
+    source *data;     /* the shard's stream (NULL: no starts handed on) */
 } shard_replay;
+
+/* inner's member and frame starts found so far, moved to the shard's
+ * stream (those at or past its first byte). */
+static void hand_on_starts(shard_replay *r)
+{
+    uint64_t at[64];
+    size_t n;
+    while ((n = source_take_starts(r->inner, at, 64)) > 0)
+        for (size_t i = 0; r->data && i < n; i++)
+            if (at[i] >= r->first) source_add_start(r->data, at[i] - r->first);
+}
 
 static ssize_t shard_replay_pull(void *ctx, void *buf, size_t cap)
 {
     shard_replay *r = ctx;
+    hand_on_starts(r); /* the window's, then each read's */
     if (r->pos < r->len) {
         size_t n = r->len - r->pos < cap ? r->len - r->pos : cap;
         memcpy(buf, r->win + r->pos, n);
         r->pos += n;
         return (ssize_t)n;
     }
-    return source_read(r->inner, buf, cap);
+    ssize_t got = source_read(r->inner, buf, cap);
+    hand_on_starts(r);
+    return got;
 }
 
 /* Reads src on until the watch has seen its bytes [.., w->to): the rest of
@@ -379,9 +395,14 @@ static scan_status scan_shard_members(scan_context *sc, const char *path, int fd
         return st;
     }
     if (st == SCAN_OK) {
-        shard_replay rp = {win, (size_t)first, wlen, inner};
+        shard_replay rp = {win, (size_t)first, wlen, inner, (size_t)first, NULL};
         source *data = source_open_decoded(path, shard_replay_pull, &rp, size, sc->err,
                                            sizeof sc->err);
+        rp.data = data;
+        /* A shard whose first record opens a member other than the file's
+         * first: a repeated header there is skipped too, as a whole scan
+         * skips it (inner's own start, offset 0, is never noted). */
+        if (data && first == 0 && mlo > 0) source_add_start(data, 0);
         if (!data) {
             st = scan_fail(sc, errno == ENOMEM ? SCAN_ERR_MEMORY : SCAN_ERR_INPUT, NULL);
         } else {
