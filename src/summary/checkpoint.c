@@ -294,7 +294,7 @@ int checkpoint_mark_path(const char *path, checkpoint_mark *m, char *err, size_t
 {
     memset(m, 0, sizeof *m);
     if (!*path) {
-        snprintf(err, errlen, "--checkpoint names no file (an empty name)");
+        snprintf(err, errlen, "a checkpoint needs a name: got an empty one");
         return -1;
     }
     if (tempfile_descriptor(path) >= 0) {
