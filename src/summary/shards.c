@@ -59,9 +59,11 @@ int summary_shards_check(const summary *s, shard_check *out, shard_verdict *verd
         }
     out->shards = n;
     int rc = 0;
+    size_t wrong = 0;  /* shards that took a wrong first record */
+    char others[600] = ""; /* the ones after the first, as "I/N" */
     const summary_source *prev = NULL;
     uint8_t possible = 0; /* modes possible at the end of prev's range */
-    for (size_t k = 0; k < n && rc == 0; k++) {
+    for (size_t k = 0; k < n; k++) { /* an overlap breaks out */
         const summary_source *x = &s->sources[ix[k]];
         int same_file = prev && prev->file_id == x->file_id && prev->size_bytes == x->size_bytes;
         if (!same_file) { out->files++; prev = NULL; }
@@ -90,7 +92,7 @@ int summary_shards_check(const summary *s, shard_check *out, shard_verdict *verd
         else if (prev && prev->end_byte == x->start_byte) p = possible;
         if (x->shard_rule == SHARD_START_PREFIX) {
             v = (p & x->shard_modes) ? SHARD_VERIFIED : SHARD_WRONG;
-            p = x->shard_modes;
+            if (v != SHARD_WRONG) p = x->shard_modes;
         } else if (x->shard_rule == SHARD_START_CERTAIN && x->start_byte > 0) {
             v = SHARD_VERIFIED;
         } else if ((p & x->shard_modes) == p) {
@@ -100,20 +102,36 @@ int summary_shards_check(const summary *s, shard_check *out, shard_verdict *verd
         }
         if (verdicts) verdicts[ix[k]] = v;
         if (v == SHARD_WRONG) {
-            name_shard(a, sizeof a, x);
-            snprintf(msg, msglen,
-                     "%s guessed its first record from the bytes near its start, and the shards "
-                     "before it show the guess was wrong; rescan it with {shard_from_top}",
-                     a);
-            *bad = ix[k];
-            rc = -1;
-            break;
+            /* The check goes on from the modes possible at its start (its
+             * map tells where each leads), so that one merge names every
+             * shard to rescan. */
+            if (wrong++ == 0) {
+                name_shard(a, sizeof a, x);
+                snprintf(msg, msglen,
+                         "%s guessed its first record from the bytes near its start, and the "
+                         "shards before it show the guess was wrong; rescan it with "
+                         "{shard_from_top}",
+                         a);
+                *bad = ix[k];
+                rc = -1;
+            } else {
+                size_t used = strlen(others);
+                snprintf(others + used, sizeof others - used, "%s%u/%u", used ? ", " : "",
+                         x->shard_index, x->shard_count);
+            }
+        } else if (v == SHARD_VERIFIED) {
+            out->verified++;
+        } else {
+            out->unverified++;
         }
-        if (v == SHARD_VERIFIED) out->verified++;
-        else out->unverified++;
         possible = image(p, x->shard_map);
         prev = x;
     }
     free(ix);
+    if (wrong > 1) {
+        size_t used = strlen(msg);
+        snprintf(msg + used, msglen - used, " (and the same for %zu more: shard%s %s)", wrong - 1,
+                 wrong > 2 ? "s" : "", others);
+    }
     return rc;
 }

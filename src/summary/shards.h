@@ -35,8 +35,10 @@ typedef enum { SHARD_NOT = 0, SHARD_VERIFIED, SHARD_UNVERIFIED, SHARD_WRONG } sh
 
 /* Checks the shards among s's sources.  0 with *out filled when they fit;
  * -1 with one line in msg when two ranges overlap or a shard took a wrong
- * first record (*bad: that source's index, or the later of two overlapping).
- * verdicts (may be NULL): s->nsources entries, each source's verdict. */
+ * first record (*bad: that source's index, or the later of two overlapping;
+ * when several shards took a wrong one, the first, and msg names the others
+ * too, so that one round of rescans mends them all).  verdicts (may be
+ * NULL): s->nsources entries, each source's verdict (every wrong shard's). */
 int summary_shards_check(const summary *s, shard_check *out, shard_verdict *verdicts,
                          size_t *bad, char *msg, size_t msglen);
 
