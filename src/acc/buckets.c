@@ -424,42 +424,51 @@ SHEAF_HOT int buckets_add_many(buckets *b, const double *x, const uint32_t *cell
     memcpy(width, b->lobe_width, sizeof width);
     memcpy(row, b->lobe_row, sizeof row);
     uint32_t *const cnt = b->dense;
+    static const uint32_t no_cells[PIECE]; /* without a target: cell 0 */
     for (size_t at = 0; at < n; at += PIECE) {
         const size_t m = n - at < PIECE ? n - at : PIECE;
         const double *xs = x + at;
+        const uint32_t *cs = cells ? cells + at : no_cells;
+        uint32_t idx[PIECE];
+        unsigned char inside[PIECE];
         size_t nr = 0;
         uint64_t in = 0, bad = 0;
-#define DENSE_ROW(i)                                                                   \
-    uint32_t cell = cells ? cells[at + (i)] : 0;                                       \
-    uint64_t u = double_bits(xs[i]), mag = u & MAG_MASK;                               \
-    uint64_t mk = (mag >> shift) + (mag != 0);                                         \
-    unsigned lobe = (unsigned)(u >> 63) | (unsigned)(mk == 0) << 1;                    \
-    uint64_t k = mk - base[lobe];                                                      \
-    int inside = k < width[lobe] && cell < nc
+        /* The counter of each value (key_of_bits: the magnitude and sign of
+         * its key, its lobe's row), in a loop without branches that the
+         * x86-64-v3 copy runs four values at a time; the lobes of key 0
+         * (rows 0, width 1) need no lookup.  Magnitudes of values that are
+         * not finite lie past every lobe. */
         for (size_t i = 0; i < m; i++) {
-            /* The magnitude and sign of the key (key_of_bits); magnitudes of
-             * values that are not finite lie past every lobe. */
-            DENSE_ROW(i);
+            uint64_t u = double_bits(xs[i]), mag = u & MAG_MASK;
+            uint64_t mk = (mag >> shift) + (mag != 0);
+            uint64_t neg = u >> 63, zero = mk == 0;
+            uint64_t lb = neg ? base[1] : base[0], lw = neg ? width[1] : width[0];
+            uint64_t lr = neg ? row[1] : row[0];
+            lb = zero ? 0 : lb;
+            lw = zero ? 1 : lw;
+            lr = zero ? 0 : lr;
+            uint64_t k = mk - lb;
+            inside[i] = (k < lw) & (cs[i] < nc);
+            idx[i] = (uint32_t)((lr + k) * nc + cs[i]); /* meaningful when inside */
             bad |= mag >= EXP_ALL_ONES;
-            if (inside) {
-                cnt[(row[lobe] + k) * nc + cell]++;
+        }
+        for (size_t i = 0; i < m; i++) {
+            if (inside[i]) {
+                cnt[idx[i]]++;
                 in++;
             } else {
                 rest_x[nr] = xs[i];
-                rest_c[nr] = cell;
+                rest_c[nr] = cs[i];
                 nr++;
             }
         }
         if (bad) { /* a value that is not finite: exactly the calls of buckets_add */
-            for (size_t i = 0; i < m; i++) {
-                DENSE_ROW(i);
-                if (inside) cnt[(row[lobe] + k) * nc + cell]--;
-            }
             for (size_t i = 0; i < m; i++)
-                if (buckets_add(b, xs[i], cells ? cells[at + i] : 0, 1) != 0) return -1;
+                if (inside[i]) cnt[idx[i]]--;
+            for (size_t i = 0; i < m; i++)
+                if (buckets_add(b, xs[i], cs[i], 1) != 0) return -1;
             continue;
         }
-#undef DENSE_ROW
         b->pending += in;
         b->total += in;
         b->dense_in += in;
