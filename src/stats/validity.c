@@ -91,19 +91,29 @@ static size_t nonzero(const long double *margin, size_t n)
     return k;
 }
 
-/* A cell's walk length and its position in the table's order of cells. */
+/* A cell's walk length, its margins and its position in the table's order
+ * of cells. */
 typedef struct {
     double steps;
+    double a, b; /* its row and column totals */
     size_t cell;
 } cell_cost;
 
-/* Widest first; ties by position, so the cells approximated depend on the
- * table alone. */
+/* Widest first; ties by the margins (a cell's term, exact or approximated,
+ * is a function of its margins and N alone), then by position.  So the
+ * value does not depend on the order of the rows and columns, which is the
+ * order their values were first seen in: a merge in another order, or the
+ * same rows in another order, gives the same number.  (Ties by position
+ * alone moved the adjusted MI of a merge by up to 3e-6 relative.) */
 static int cost_descending(const void *x, const void *y)
 {
-    const cell_cost *a = x, *b = y;
-    if (a->steps != b->steps) return (a->steps < b->steps) - (a->steps > b->steps);
-    return (a->cell > b->cell) - (a->cell < b->cell);
+    const cell_cost *p = x, *q = y;
+    if (p->steps != q->steps) return (p->steps < q->steps) - (p->steps > q->steps);
+    double pa = fmax(p->a, p->b), qa = fmax(q->a, q->b);
+    if (pa != qa) return (pa < qa) - (pa > qa);
+    double pb = fmin(p->a, p->b), qb = fmin(q->a, q->b);
+    if (pb != qb) return (pb < qb) - (pb > qb);
+    return (p->cell > q->cell) - (p->cell < q->cell);
 }
 
 int validity_expected_mi(const double *table, size_t rows, size_t cols, validity_expected *out)
@@ -127,7 +137,7 @@ int validity_expected_mi(const double *table, size_t rows, size_t cols, validity
     for (size_t i = 0; i < rows; i++)
         for (size_t j = 0; j < cols && rs[i] > 0; j++)
             if (cs[j] > 0) {
-                cost[k] = (cell_cost){cell_steps(rs[i], cs[j], N), k};
+                cost[k] = (cell_cost){cell_steps(rs[i], cs[j], N), (double)rs[i], (double)cs[j], k};
                 total += cost[k++].steps;
             }
     if (total > limit) {
