@@ -191,6 +191,10 @@ int stat_anova(const double *n, const double *mean, const double *m2, size_t k, 
         ssb += n[g] * d * d;
     }
     if (ssw == 0 && ssb == 0) return -1;
+    /* A group's M2 or mean past the double range (values near 1e155 and
+     * more: their squares overflow where they were summed) leaves no F to
+     * take: undefined, not the 0 that ssb / inf gives. */
+    if (!(ssw <= LDBL_MAX) || !(ssb <= LDBL_MAX) || !(grand == grand)) return -1;
     double df1 = (double)(groups - 1), df2 = (double)(N - groups);
     double f = ssw == 0 ? INFINITY : (double)((ssb / df1) / (ssw / df2));
     stat_f_test(f, df1, df2, out);
@@ -205,6 +209,7 @@ int stat_welch(const double *n, const double *mean, const double *m2, size_t k, 
     set_undefined(out);
     for (size_t g = 0; g < k; g++) {
         if (!(n[g] >= 2) || !(m2[g] > 0)) continue;
+        if (!(m2[g] <= DBL_MAX) || !isfinite(mean[g])) return -1; /* as stat_anova */
         long double w = n[g] * (n[g] - 1) / (long double)m2[g];
         W += w;
         wm += w * mean[g];

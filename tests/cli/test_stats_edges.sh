@@ -1,0 +1,91 @@
+#!/usr/bin/env bash
+# Statistics that came out wrong, or differently, once a summary had gone
+# through a change of shape or past the double range (found by a fresh
+# audit of the statistics against scipy; both checks failed on the build
+# before the fixes).
+#
+# 1. Adjusted mutual information after a merge.  E[I] of a large table is
+#    summed with its widest cells approximated (src/stats/validity.c); the
+#    cells' costs are integers, so many tie, and ties go by position in the
+#    table, whose class columns are in the order the classes were first met.
+#    A merge in another order (or the same rows in another order) meets them
+#    in another order, approximates other cells, and gets another E[I]: the
+#    merge of two byte-range shards, later shard first, differs from the
+#    whole scan by 1e-9..1e-7 relative in expected_nats and 1e-6 in the
+#    adjusted MI near 0, where a merge is meant to equal the whole scan.
+#    Reference: the whole scan (same summary contents up to class order);
+#    expected_nats to 1e-12.
+# 2. A per-level target M2 that overflows a double (target values near
+#    1e250) made the ANOVA F of a text column 0 with p = 1 ("not relevant"),
+#    where the exact F is 769.5.  Reference: scipy.stats.f_oneway (Debian's
+#    python3-scipy) on the values scaled by 1e-250; sheaf's F to 1e-6, or no
+#    F at all (undefined), but not a number that is wrong.
+cd "$(dirname "$0")/../.." || exit 1
+. tests/cli/common.sh
+cli_setup stats-edges python || exit 0
+if ! "$PY" -c 'import numpy, scipy' 2>/dev/null; then
+    skip stats_edges "python3-numpy or python3-scipy not installed"
+    exit 0
+fi
+
+# --- 1. E[I] does not depend on the merge order -----------------------------
+# A seed nursery's weighings (invented): 30 lots, 12 beds, 60,000 rows.
+"$PY" - "$T/lots.csv" <<'EOF2'
+import sys
+import numpy as np
+rng = np.random.default_rng(7)
+n = 60000
+bed = rng.integers(0, 12, n)
+half = np.arange(n) >= n // 2
+lot = np.where(half, 16, 1) + rng.integers(0, 15, n)
+with open(sys.argv[1], "w") as f:
+    f.write("bed,lot\n")
+    for b, l in zip(bed, lot):
+        f.write("B%02d,%d\n" % (b + 1, l))
+EOF2
+emi() { # emi SUMMARY: the expected_nats and adjusted MI of bed
+    "$SHEAF" screen "$1" --format json | "$PY" -c 'import json,sys
+f = next(x for x in json.load(sys.stdin)["features"] if x["name"] == "bed")
+m = f["tests"]["mutual_information"]
+print(repr(m["expected_nats"]), repr(m["adjusted"]), m["expected_approximated_cells"])'
+}
+if "$SHEAF" scan -q -j1 "$T/lots.csv" -t lot -o "$T/whole.sheaf" 2>"$T/err" &&
+    "$SHEAF" scan -q -j1 "$T/lots.csv" --shard 1/2 -t lot -o "$T/s1.sheaf" 2>>"$T/err" &&
+    "$SHEAF" scan -q -j1 "$T/lots.csv" --shard 2/2 -t lot -o "$T/s2.sheaf" 2>>"$T/err" &&
+    "$SHEAF" merge "$T/s2.sheaf" "$T/s1.sheaf" -o "$T/rev.sheaf" 2>>"$T/err"; then
+    w=$(emi "$T/whole.sheaf") r=$(emi "$T/rev.sheaf")
+    same=$("$PY" -c 'import sys
+a, b = [list(map(float, s.split()[:2])) for s in sys.argv[1:3]]
+print(int(abs(a[0] - b[0]) <= 1e-12 * abs(a[0]) and abs(a[1] - b[1]) <= 1e-9 * abs(a[1])))' "$w" "$r")
+    check stats_edges.expected_mi_merge_order "whole scan: $w; shards merged 2,1: $r" test "$same" = 1
+else
+    fail stats_edges.expected_mi_merge_order "scan or merge: $(err_text)"
+fi
+
+# --- 2. an overflowing target M2 gives no false F ----------------------------
+{
+    echo "glaze,strength"
+    for i in $(seq 1 40); do
+        if [ $((i % 2)) = 0 ]; then echo "G0,-7e250"; else echo "G1,$((i % 5))e250"; fi
+    done
+} >"$T/kiln.csv"
+if "$SHEAF" scan -q "$T/kiln.csv" -t strength --task regress -o "$T/kiln.sheaf" 2>"$T/err" &&
+    "$SHEAF" screen "$T/kiln.sheaf" --format json >"$T/kiln.json" 2>"$T/err"; then
+    why=$("$PY" - "$T/kiln.csv" "$T/kiln.json" <<'EOF2'
+import json, sys
+from scipy.stats import f_oneway
+g = {}
+for line in open(sys.argv[1]).read().split()[1:]:
+    k, v = line.split(",")
+    g.setdefault(k, []).append(float(v) * 1e-250)
+ref = f_oneway(*g.values()).statistic
+t = json.load(open(sys.argv[2]))["features"][0]["tests"].get("anova_f")
+f = t and t.get("stat")
+if f is not None and abs(f - ref) > 1e-6 * ref:
+    print("F %r (p %r), scipy f_oneway %r" % (f, t.get("p"), ref))
+EOF2
+)
+    check stats_edges.anova_overflowing_target "$why" test -z "$why"
+else
+    fail stats_edges.anova_overflowing_target "scan or screen: $(err_text)"
+fi
