@@ -141,6 +141,22 @@ static const char *base_of(const char *path)
     return slash ? slash + 1 : path;
 }
 
+/* The name the symbolic link cur leads to (relative links resolved from
+ * the link's directory), or NULL with errno set (not a link: EINVAL). */
+static char *link_step(const char *cur)
+{
+    char link[PATH_MAX];
+    ssize_t n = readlink(cur, link, sizeof link - 1);
+    if (n < 0) return NULL;
+    link[n] = '\0';
+    if (link[0] == '/' || !strchr(cur, '/')) return strdup(link);
+    char *dir = dir_of(cur);
+    char *next = dir ? malloc(strlen(dir) + strlen(link) + 2) : NULL;
+    if (next) sprintf(next, "%s/%s", dir, link);
+    free(dir);
+    return next;
+}
+
 /* Follows symbolic links from path to a name that is not one (absent, or a
  * file of another type).  Returns a new string, or NULL with errno set. */
 static char *follow_links(const char *path)
@@ -154,19 +170,8 @@ static char *follow_links(const char *path)
         }
         if (!S_ISLNK(st.st_mode)) return cur;
         if (hops == MAX_LINKS) { errno = ELOOP; break; }
-        char link[PATH_MAX];
-        ssize_t n = readlink(cur, link, sizeof link - 1);
-        if (n < 0) break;
-        link[n] = '\0';
-        char *next;
-        if (link[0] == '/' || !strchr(cur, '/')) {
-            next = strdup(link);
-        } else {
-            char *dir = dir_of(cur);
-            next = dir ? malloc(strlen(dir) + strlen(link) + 2) : NULL;
-            if (next) sprintf(next, "%s/%s", dir, link);
-            free(dir);
-        }
+        char *next = link_step(cur);
+        if (!next) break;
         free(cur);
         cur = next;
     }
@@ -202,19 +207,8 @@ int tempfile_descriptor(const char *path)
     for (int hops = 0; cur && hops <= MAX_LINKS; hops++) {
         int fd = descriptor_in(cur);
         if (fd >= 0) { free(cur); return fd; }
-        char link[PATH_MAX];
-        ssize_t n = readlink(cur, link, sizeof link - 1);
-        if (n < 0) break; /* not a link (or gone): the end of the chain */
-        link[n] = '\0';
-        char *next;
-        if (link[0] == '/' || !strchr(cur, '/')) {
-            next = strdup(link);
-        } else {
-            char *dir = dir_of(cur);
-            next = dir ? malloc(strlen(dir) + strlen(link) + 2) : NULL;
-            if (next) sprintf(next, "%s/%s", dir, link);
-            free(dir);
-        }
+        char *next = link_step(cur); /* NULL: not a link (or gone), the chain's end */
+        if (!next) break;
         free(cur);
         cur = next;
     }

@@ -64,3 +64,38 @@ tsan_compiler() {
     done
     return 1
 }
+
+# no_tmpfile_shim: builds tests/cli/no_tmpfile_shim.c into $T and sets SHIM
+# to it; 1 (SHIM empty, the reason in SHIM_WHY) when $SHEAF carries a
+# sanitizer runtime (it must be the first library) or no compiler is there.
+no_tmpfile_shim() {
+    SHIM= SHIM_WHY=
+    if ldd "$SHEAF" 2>/dev/null | grep -q -e libasan -e libtsan; then
+        SHIM_WHY="a sanitizer runtime must be the first library: no LD_PRELOAD shim"
+    elif ! command -v cc >/dev/null; then
+        SHIM_WHY="no C compiler for the LD_PRELOAD shim"
+    elif cc -shared -fPIC -O1 -o "$T/shim.so" tests/cli/no_tmpfile_shim.c -ldl 2>"$T/shim.err"; then
+        SHIM=$T/shim.so
+        return 0
+    else
+        SHIM_WHY="cannot build the LD_PRELOAD shim: $(tr '\n' '|' <"$T/shim.err" | cut -c1-200)"
+    fi
+    return 1
+}
+
+# expect_damaged_by PREFIX NAME FILE CMD...: every CMD (sheaf's arguments,
+# one string each) exits 4 with one line naming FILE; PASS or FAIL
+# PREFIX.NAME.
+expect_damaged_by() {
+    local prefix=$1 name=$2 f=$3 bad= c lines
+    shift 3
+    for c in "$@"; do
+        # shellcheck disable=SC2086
+        run $SHEAF $c
+        lines=$(wc -l <"$T/err")
+        if [ "$RC" -ne 4 ] || [ "$lines" -ne 1 ] || ! grep -qF "$f" "$T/err"; then
+            bad="$bad; '${c%% *}' exit $RC ($lines lines: $(err_text))"
+        fi
+    done
+    if [ -z "$bad" ]; then pass "$prefix.$name"; else fail "$prefix.$name" "${bad#; }"; fi
+}

@@ -49,23 +49,11 @@ get() { $CRAFT get "$T/$1.sheaf" "$2"; }
 # expect_damaged NAME FILE PARTNER: every reader exits 4 with one line
 # naming FILE (PARTNER: a good summary of the same kind, for merge and drift).
 expect_damaged() {
-    local name=$1 f=$2 p=$3 bad=
-    local -a cmds=(
-        "info $f" "info --format json $f" "screen $f" "pca $f" "corr $f"
-        "merge $f $p -o $T/merged.sheaf" "merge $p $f -o $T/merged.sheaf"
-        "drift $p $f" "drift $f $p" "page $f -o $T/page.html" "page $p --base $f -o $T/page.html"
-        "trim $D --summary $f -o $T/trim.csv"
-        "project $D --summary $f -o $T/proj.csv")
-    for c in "${cmds[@]}"; do
-        # shellcheck disable=SC2086
-        run $SHEAF $c
-        local lines
-        lines=$(wc -l <"$T/err")
-        if [ "$RC" -ne 4 ] || [ "$lines" -ne 1 ] || ! grep -qF "$f" "$T/err"; then
-            bad="$bad; '${c%% *}' exit $RC"
-        fi
-    done
-    if [ -z "$bad" ]; then pass "crosscheck.$name"; else fail "crosscheck.$name" "${bad#; }"; fi
+    local f=$2 p=$3
+    expect_damaged_by crosscheck "$1" "$f" "info $f" "info --format json $f" "screen $f" "pca $f" \
+        "corr $f" "merge $f $p -o $T/merged.sheaf" "merge $p $f -o $T/merged.sheaf" "drift $p $f" \
+        "drift $f $p" "page $f -o $T/page.html" "page $p --base $f -o $T/page.html" \
+        "trim $D --summary $f -o $T/trim.csv" "project $D --summary $f -o $T/proj.csv"
 }
 
 # crafted NAME BASE PARTNER FIELD=VALUE...: summary_craft.py set, then expect_damaged.

@@ -239,38 +239,7 @@ for c in scan merge trim project; do
     echo "# $c runs ${SECS[$c]} ms"
 done
 echo "old contents, not a table" >"$T/old"
-SHIM=
-if ldd "$SHEAF" 2>/dev/null | grep -q -e libasan -e libtsan; then
-    skip named.shim "a sanitizer runtime must be the first library: no LD_PRELOAD shim"
-elif command -v cc >/dev/null && cat >"$T/shim.c" <<'EOF'
-/* Refuses O_TMPFILE as a file system without it does (EOPNOTSUPP). */
-#define _GNU_SOURCE
-#include <dlfcn.h>
-#include <errno.h>
-#include <fcntl.h>
-#include <stdarg.h>
-#include <sys/types.h>
-#define WRAP(name)                                                              \
-    int name(const char *path, int flags, ...)                                  \
-    {                                                                           \
-        static int (*real)(const char *, int, ...);                             \
-        mode_t mode = 0;                                                        \
-        va_list ap;                                                             \
-        va_start(ap, flags);                                                    \
-        if (flags & (O_CREAT | __O_TMPFILE)) mode = va_arg(ap, mode_t);         \
-        va_end(ap);                                                             \
-        if ((flags & O_TMPFILE) == O_TMPFILE) { errno = EOPNOTSUPP; return -1; } \
-        if (!real) real = (int (*)(const char *, int, ...))dlsym(RTLD_NEXT, #name); \
-        return real(path, flags, mode);                                         \
-    }
-WRAP(open)
-WRAP(open64)
-EOF
-    cc -shared -fPIC -O1 -o "$T/shim.so" "$T/shim.c" -ldl 2>"$T/err"; then
-    SHIM=$T/shim.so
-else
-    skip named.shim "cannot build the LD_PRELOAD shim: $(err_text)"
-fi
+no_tmpfile_shim || skip named.shim "$SHIM_WHY"
 RANDOM=12  # the fixed seed of the moments
 # trial MODE CMD SIG I: one run killed after a drawn delay.
 trial() {

@@ -119,34 +119,7 @@ for c in scan trim; do
         [ "$(wc -l <"$T/err")" -eq 1 -a -n "$(grep -F "$T/x/target" "$T/err")" ]
     check "xfsz.$c.old_target_whole" "$(cat "$T/x/target" | head -c 40)" [ "$(cat "$T/x/target")" = old ]
 done
-SHIM=
-if ! ldd "$SHEAF" 2>/dev/null | grep -q -e libasan -e libtsan && command -v cc >/dev/null; then
-    cat >"$T/shim.c" <<'EOF'
-/* Refuses O_TMPFILE as a file system without it does (EOPNOTSUPP). */
-#define _GNU_SOURCE
-#include <dlfcn.h>
-#include <errno.h>
-#include <fcntl.h>
-#include <stdarg.h>
-#include <sys/types.h>
-#define WRAP(name)                                                              \
-    int name(const char *path, int flags, ...)                                  \
-    {                                                                           \
-        static int (*real)(const char *, int, ...);                             \
-        mode_t mode = 0;                                                        \
-        va_list ap;                                                             \
-        va_start(ap, flags);                                                    \
-        if (flags & (O_CREAT | __O_TMPFILE)) mode = va_arg(ap, mode_t);         \
-        va_end(ap);                                                             \
-        if ((flags & O_TMPFILE) == O_TMPFILE) { errno = EOPNOTSUPP; return -1; } \
-        if (!real) real = (int (*)(const char *, int, ...))dlsym(RTLD_NEXT, #name); \
-        return real(path, flags, mode);                                         \
-    }
-WRAP(open)
-WRAP(open64)
-EOF
-    cc -shared -fPIC -O1 -o "$T/shim.so" "$T/shim.c" -ldl 2>/dev/null && SHIM=$T/shim.so
-fi
+no_tmpfile_shim
 if [ -n "$SHIM" ]; then
     rm -rf "$T/x"/* && echo old >"$T/x/target"
     { (ulimit -f 64; LD_PRELOAD=$SHIM exec "$SHEAF" trim -q "$T/big.csv" --columns-from "$T/keep_x1" \
@@ -157,7 +130,7 @@ if [ -n "$SHIM" ]; then
     run env LD_PRELOAD="$SHIM" "$SHEAF" scan -q "$T/a.csv" -o "$T/long2/$L2"
     check long.named_fallback_creates "exit $RC: $(err_text | rev | cut -c1-80 | rev)" [ "$RC" -eq 0 ]
 else
-    skip xfsz.named_fallback "no LD_PRELOAD shim (sanitizer build or no cc)"
+    skip xfsz.named_fallback "$SHIM_WHY"
 fi
 
 # ---- early.*: an output that cannot be created, found before the input is read ----

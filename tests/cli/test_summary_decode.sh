@@ -40,22 +40,9 @@ get() { $CRAFT get "$T/$1.sheaf" "$2"; }
 
 # expect_damaged NAME FILE: every reader exits 4 with one line naming FILE.
 expect_damaged() {
-    local name=$1 f=$2 bad=
-    local -a cmds=(
-        "info $f" "info --format json $f" "screen $f" "pca $f" "corr $f"
-        "merge $f $T/none.sheaf -o $T/merged.sheaf"
-        "trim $D --summary $f -o $T/trim.csv"
-        "project $D --summary $f -o $T/proj.csv")
-    for c in "${cmds[@]}"; do
-        # shellcheck disable=SC2086
-        run $SHEAF $c
-        local lines
-        lines=$(wc -l <"$T/err")
-        if [ "$RC" -ne 4 ] || [ "$lines" -ne 1 ] || ! grep -qF "$f" "$T/err"; then
-            bad="$bad; '${c%% *}' exit $RC ($lines lines: $(err_text))"
-        fi
-    done
-    if [ -z "$bad" ]; then pass "decode.$name"; else fail "decode.$name" "${bad#; }"; fi
+    expect_damaged_by decode "$1" "$2" "info $2" "info --format json $2" "screen $2" "pca $2" \
+        "corr $2" "merge $2 $T/none.sheaf -o $T/merged.sheaf" "trim $D --summary $2 -o $T/trim.csv" \
+        "project $D --summary $2 -o $T/proj.csv"
 }
 
 # crafted NAME BASE FIELD=VALUE...: rewrites BASE.sheaf and expects rejection.
