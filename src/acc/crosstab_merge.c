@@ -274,6 +274,7 @@ crosstab *crosstab_counts_to_values(const crosstab *t, const double *y, const ui
     for (uint32_t j = 0; j < t->records; j++) {
         const record *r = slot_at(t, order[j].slot, t->stride);
         uint32_t cell = cells ? cells[r->cell] : 0;
+        if (cells && r->cell && !cell) continue; /* a class with no target cell (not finite) */
         int rc = r->key == CROSSTAB_OVERFLOW_KEY ? add_overflow_values(v, cell, y[r->cell], r->n)
                                                 : crosstab_add_values_in(v, r->key, cell, y[r->cell], r->n);
         if (rc != 0) { crosstab_free(v); free(tmp); return NULL; }

@@ -94,8 +94,10 @@ static scan_status target_row(chunks *w, job *j, size_t t, size_t r, const char 
     summary_column *tc = &s->cols[s->target];
     number_decimal d;
     /* A label is mostly a word: number_text_at_once tells it without the parse. */
-    int finite = tc->mode != COLUMN_CATEGORICAL && !number_text_at_once(p, len) &&
-                 number_parse(p, len, &d) == NUMBER_FINITE;
+    number_kind kind = tc->mode == COLUMN_CATEGORICAL || number_text_at_once(p, len)
+                           ? NUMBER_TEXT
+                           : number_parse(p, len, &d);
+    int finite = kind == NUMBER_FINITE;
     if (!finite) s->target_text++;
     if (finite && !w->target_ref_set[t]) {
         /* The target's frame: its first number's, as the target column's
@@ -121,8 +123,8 @@ static scan_status target_row(chunks *w, job *j, size_t t, size_t r, const char 
         }
         /* One class too many: a numeric target continues as a regression
          * target, a text one cannot. */
-        int numeric = finite && s->opt.task != TASK_CLASSIFY;
-        for (uint32_t c = 0; numeric && c < s->nclasses; c++) numeric = s->class_numeric[c];
+        int numeric = kind != NUMBER_TEXT && s->opt.task != TASK_CLASSIFY;
+        for (uint32_t c = 0; numeric && c < s->nclasses; c++) numeric = summary_class_is_number(s, c);
         if (!numeric)
             return too_many_classes(w, s, w->lines + j->line[r]);
         /* The rows before end a block; the columns convert before the next. */

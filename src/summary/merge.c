@@ -34,9 +34,18 @@ int summary_class_conversion(summary *s, const number_decimal *frame, uint32_t *
     /* The class values enter the target cell table (which may rise), then
      * the cells are numbered in key order and each class looks its up. */
     for (uint32_t c = 0; c < k; c++)
-        if (!summary_target_cell(s, s->class_dec[c].value)) { free(map); free(y); return -1; }
+        if (s->class_numeric[c] && !summary_target_cell(s, s->class_dec[c].value)) {
+            free(map);
+            free(y);
+            return -1;
+        }
     if (tcells_canonical(&s->tcells) != 0) { free(map); free(y); return -1; }
     for (uint32_t c = 0; c < k; c++) {
+        if (!s->class_numeric[c]) { /* infinity or NaN: no target cell, as such a row */
+            map[c + 1] = 0;
+            y[c + 1] = 0;
+            continue;
+        }
         map[c + 1] = summary_target_cell(s, s->class_dec[c].value);
         y[c + 1] = frame ? number_difference(&s->class_dec[c], frame, NULL) : s->class_dec[c].value;
     }
@@ -49,7 +58,7 @@ int summary_drop_classes(summary *s)
 {
     if (!s->has_classes) return 0;
     for (uint32_t c = 0; c < s->nclasses; c++)
-        if (!s->class_numeric[c]) return -1; /* a text target cannot become numeric */
+        if (!summary_class_is_number(s, c)) return -1; /* a text target cannot become numeric */
     uint32_t *map;
     double *y;
     if (summary_class_conversion(s, target_frame(s), &map, &y) != 0) return -1;
@@ -292,7 +301,7 @@ static int map_classes(summary *into, const summary *from, uint32_t *map)
 static int classes_numeric(const summary *s)
 {
     for (uint32_t c = 0; c < s->nclasses; c++)
-        if (!s->class_numeric[c]) return 0;
+        if (!summary_class_is_number(s, c)) return 0;
     return 1;
 }
 

@@ -98,6 +98,15 @@ int summary_target_cells_settle(summary *s)
     return 0;
 }
 
+int summary_class_is_number(const summary *s, uint32_t c)
+{
+    if (s->class_numeric[c]) return 1;
+    if (s->target < 0 || s->cols[s->target].mode == COLUMN_CATEGORICAL) return 0;
+    number_decimal d;
+    const char *label = s->class_label[c];
+    return number_parse(label, strlen(label), &d) == NUMBER_NONFINITE;
+}
+
 uint32_t summary_class_of(summary *s, uint64_t h, const char *text, size_t len,
                           const number_decimal *dec)
 {

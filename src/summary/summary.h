@@ -229,6 +229,12 @@ uint64_t summary_comoment_bytes(size_t ncomo);
  * returns its index 1..K, or 0 when adding would pass max_classes. */
 uint32_t summary_class_of(summary *s, uint64_t h, const char *text, size_t len,
                           const number_decimal *dec);
+/* 1 when class c (0-based) is a number: finite (class_numeric), or a
+ * spelling of infinity or NaN in a target column not declared categorical.
+ * A target whose classes are all numbers can drop them and go on as a
+ * regression target (a class that is not finite then has no target cell,
+ * as a row whose target is not finite). */
+int summary_class_is_number(const summary *s, uint32_t c);
 /* Adds class K + 1 without looking for h among the classes (the reader,
  * which checks uniqueness once for all).  0, or -1 past max_classes or when
  * out of memory. */
