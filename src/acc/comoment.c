@@ -52,6 +52,7 @@
 
 #include <cblas.h>
 #include <limits.h>
+#include <float.h>
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
@@ -549,7 +550,13 @@ double comoment_correlation(const comoment *c, size_t i, size_t j)
 {
     size_t k = pair_index(i, j);
     if (c->n[k] < 2 || !(c->m2_lo[k] > 0) || !(c->m2_hi[k] > 0)) return NAN;
-    return c->co[k] / sqrt(c->m2_lo[k] * c->m2_hi[k]);
+    /* One root of the product, correctly rounded, while the product is a
+     * normal double; the roots one by one where it is not: it leaves the
+     * double range (spread x sqrt(n) past about 1e77, or below 1e-77) long
+     * before either sum does. */
+    double p = c->m2_lo[k] * c->m2_hi[k];
+    if (p >= DBL_MIN && p <= DBL_MAX) return c->co[k] / sqrt(p);
+    return c->co[k] / (sqrt(c->m2_lo[k]) * sqrt(c->m2_hi[k]));
 }
 
 void comoment_covariance_matrix(const comoment *c, double *out)
