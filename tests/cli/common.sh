@@ -99,3 +99,14 @@ expect_damaged_by() {
     done
     if [ -z "$bad" ]; then pass "$prefix.$name"; else fail "$prefix.$name" "${bad#; }"; fi
 }
+
+# python_modules NAME MODULE...: 0 when $PY imports every module; else SKIP
+# NAME (naming Debian's python3-MODULE packages) and 1.
+python_modules() {
+    local name=$1 m missing=
+    shift
+    for m in "$@"; do "$PY" -c "import $m" 2>/dev/null || missing="$missing python3-$m"; done
+    [ -z "$missing" ] && return 0
+    skip "$name" "not installed:$missing"
+    return 1
+}

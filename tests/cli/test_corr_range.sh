@@ -22,10 +22,7 @@
 cd "$(dirname "$0")/../.." || exit 1
 . tests/cli/common.sh
 cli_setup corr-range python || exit 0
-if ! "$PY" -c 'import numpy' 2>/dev/null; then
-    skip corr_range "python3-numpy not installed"
-    exit 0
-fi
+python_modules corr_range numpy || exit 0
 
 # gen.py SCALE OUT: 50 rows of a, b (scaled by SCALE) and c (= b unscaled),
 # r(a, b) about 0.54.

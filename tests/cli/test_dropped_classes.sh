@@ -22,10 +22,7 @@ OPEN=""
 for d in ../shared/data/open /work/shared/data/open; do [ -s "$d/penguins.csv" ] && OPEN=$d && break; done
 [ -n "$OPEN" ] || { skip dropped_classes "no open datasets (shared/data/open)"; exit 0; }
 P=$OPEN/penguins.csv
-if ! "$PY" -c 'import pandas, scipy' 2>/dev/null; then
-    skip dropped_classes "python3-pandas or python3-scipy not installed"
-    exit 0
-fi
+python_modules dropped_classes pandas scipy || exit 0
 
 # f.py SCREEN_JSON DATA: prints the columns whose ANOVA F differs from
 # scipy's (over the rows whose body_mass_g is a finite number).

@@ -23,10 +23,7 @@
 cd "$(dirname "$0")/../.." || exit 1
 . tests/cli/common.sh
 cli_setup stats-edges python || exit 0
-if ! "$PY" -c 'import numpy, scipy' 2>/dev/null; then
-    skip stats_edges "python3-numpy or python3-scipy not installed"
-    exit 0
-fi
+python_modules stats_edges numpy scipy || exit 0
 
 # --- 1. E[I] does not depend on the merge order -----------------------------
 # A seed nursery's weighings (invented): 30 lots, 12 beds, 60,000 rows.
