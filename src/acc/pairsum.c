@@ -421,6 +421,33 @@ int pairsum_fit(const pairsum *p, double *r, double *f, double *n)
     return 0;
 }
 
+/* v 10^k in steps of at most 10^22: each step rounds once, and the steps
+ * go one way, so nothing overflows or underflows unless the result does. */
+static double times_pow10(double v, int64_t k)
+{
+    static const double p10[23] = {1e0,  1e1,  1e2,  1e3,  1e4,  1e5,  1e6,  1e7,
+                                   1e8,  1e9,  1e10, 1e11, 1e12, 1e13, 1e14, 1e15,
+                                   1e16, 1e17, 1e18, 1e19, 1e20, 1e21, 1e22};
+    for (; k > 0 && v != 0; k -= k > 22 ? 22 : k) v *= p10[k > 22 ? 22 : k];
+    for (; k < 0 && v != 0; k += k < -22 ? 22 : -k) v /= p10[k < -22 ? 22 : -k];
+    return v;
+}
+
+int pairsum_centred(const pairsum *p, double *m2x, double *m2y, double *cxy)
+{
+    *m2x = *m2y = *cxy = NAN;
+    if (!p->exact || p->n == 0 || p->block_n) return -1;
+    double n = (double)p->n;
+    big a = centred(p->n, &p->sxx, &p->sx, &p->sx);
+    big b = centred(p->n, &p->syy, &p->sy, &p->sy);
+    big c = centred(p->n, &p->sxy, &p->sx, &p->sy);
+    /* A / n^2 10^(2 scale_x) is the variance over the pairs: n of it is M2. */
+    *m2x = times_pow10(big_to_double(a) / n, 2 * (int64_t)p->scale_x);
+    *m2y = times_pow10(big_to_double(b) / n, 2 * (int64_t)p->scale_y);
+    *cxy = times_pow10(big_to_double(c) / n, (int64_t)p->scale_x + p->scale_y);
+    return 0;
+}
+
 /* ---- serialization ---------------------------------------------------------- */
 
 static void put_wide(wire_writer *w, const pairsum_wide *a)

@@ -100,6 +100,11 @@ void pairsum_merge(pairsum *into, const pairsum *from);
  * pairs, or either column is constant over them (A or B zero).  F is +inf
  * when A B = C^2 (a perfect fit). */
 int pairsum_fit(const pairsum *p, double *r, double *f, double *n);
+/* The centred sums in the cells' own units, each rounded a few times:
+ * M2 of x and of y about their means over the pairs, and their co-moment
+ * (A, B and C above, over n, times the scales' powers of ten); for a check
+ * against the double co-moments.  -1 (NaNs) when not exact or empty. */
+int pairsum_centred(const pairsum *p, double *m2x, double *m2y, double *cxy);
 
 void pairsum_write(const pairsum *p, wire_writer *w);
 /* Reads a state and checks it (pairsum_valid); -1 (r->failed set) on

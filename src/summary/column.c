@@ -397,6 +397,44 @@ int column_check_target(const summary *s, const summary_column *c, char *msg, si
     return 0;
 }
 
+/* Whether s spells a missing value as t (ASCII letters in either case when
+ * its rule says so), as io/reader.h matches cells. */
+static int spelled_missing(const summary *s, const char *t)
+{
+    if (!*t) return 1;
+    for (uint32_t i = 0; i < s->opt.n_missing; i++) {
+        const char *m = s->opt.missing[i];
+        size_t k = 0;
+        for (; m[k] && t[k]; k++) {
+            unsigned a = (unsigned char)m[k], b = (unsigned char)t[k];
+            if (s->opt.missing_any_case) {
+                if (a - 'A' < 26) a |= 0x20;
+                if (b - 'A' < 26) b |= 0x20;
+            }
+            if (a != b) break;
+        }
+        if (!m[k] && !t[k]) return 1;
+    }
+    return 0;
+}
+
+/* An example is a cell that read as text: not a number (finite or not),
+ * not a missing-value spelling, and one of the exact value table's cells.
+ * One of more than SUMMARY_EXAMPLE_BYTES - 4 bytes may be a cut cell
+ * (keep_example cuts at a whole UTF-8 character), whose start can read
+ * as a number: only its table entry is left unchecked (the cut changes
+ * the hash). */
+static int example_impossible(const summary *s, const summary_column *c, const char *t)
+{
+    size_t n = strlen(t);
+    if (spelled_missing(s, t)) return 1;
+    if (n + 4 > SUMMARY_EXAMPLE_BYTES) return 0;
+    number_decimal d;
+    if (number_parse(t, n, &d) != NUMBER_TEXT) return 1;
+    return !values_overflowed(c->vals) && n < values_label_bytes(c->vals) &&
+           values_count_of(c->vals, XXH3_64bits(t, n)) == 0;
+}
+
 int column_check(const summary *s, const summary_column *c, char *msg, size_t len)
 {
     const summary_options *o = &s->opt;
@@ -421,6 +459,9 @@ int column_check(const summary *s, const summary_column *c, char *msg, size_t le
         for (uint32_t f = 0; f < e; f++)
             if (strcmp(c->examples[e], c->examples[f]) == 0)
                 return why(msg, len, "example %u repeats example %u", e + 1, f + 1);
+    for (uint32_t e = 0; e < c->n_examples; e++)
+        if (example_impossible(s, c, c->examples[e]))
+            return why(msg, len, "example %u is not a text cell the column could hold", e + 1);
 
     /* Value table: the schema's sizes, every present cell counted once,
      * full when it overflowed, and a label that was not cut hashes to its
