@@ -100,7 +100,7 @@ static void feed_rows(comoment *c, const table *t, const size_t *order, size_t f
                 m[j * rows + r] = ok;
             }
         }
-        cr_assert_eq(comoment_add_block(c, x, m, center, complete, rows), 0);
+        cr_assert_eq(comoment_add_block(c, x, m, center, complete, rows, NULL), 0);
     }
     free(x);
     free(m);
@@ -380,19 +380,19 @@ Test(comoment, single_row_blocks_and_tiny_counts)
     comoment *c = comoment_create(2, 1);
     double x[2] = {0, 0}, m[2] = {1, 1}, center[2] = {1.0, 10.0};
     unsigned char complete[2] = {1, 1};
-    cr_assert_eq(comoment_add_block(c, x, m, center, complete, 1), 0);
+    cr_assert_eq(comoment_add_block(c, x, m, center, complete, 1, NULL), 0);
     cr_assert(isnan(comoment_covariance(c, 0, 1)));
     cr_assert_eq(comoment_mean(c, 1, 0), 10.0);
     center[0] = 3.0;
     center[1] = 14.0;
-    cr_assert_eq(comoment_add_block(c, x, m, center, complete, 1), 0);
+    cr_assert_eq(comoment_add_block(c, x, m, center, complete, 1, NULL), 0);
     /* (1,10), (3,14): cov = (-1)(-2) + (1)(2) = 4 over n - 1 = 1. */
     cr_assert_eq(comoment_covariance(c, 0, 1), 4.0);
     cr_assert_eq(comoment_variance(c, 0, 0), 2.0);
     cr_assert_eq(comoment_correlation(c, 0, 1), 1.0);
-    cr_assert_eq(comoment_add_block(c, x, m, center, complete, 0), 0); /* no-op */
+    cr_assert_eq(comoment_add_block(c, x, m, center, complete, 0, NULL), 0); /* no-op */
     double x2[4] = {0}, m2[4] = {1, 1, 1, 1};
-    cr_assert_eq(comoment_add_block(c, x2, m2, center, complete, 2), -1); /* > max_rows */
+    cr_assert_eq(comoment_add_block(c, x2, m2, center, complete, 2, NULL), -1); /* > max_rows */
     comoment_reset(c);
     cr_assert_eq(comoment_n(c, 0, 1), 0);
     comoment_free(c);
@@ -404,7 +404,7 @@ Test(comoment, create_refuses_impossible_sizes)
     cr_assert_eq(comoment_bytes(100001, 16), UINT64_MAX);
     comoment *c = comoment_create(0, 16);
     cr_assert_not_null(c);
-    cr_assert_eq(comoment_add_block(c, NULL, NULL, NULL, NULL, 5), 0);
+    cr_assert_eq(comoment_add_block(c, NULL, NULL, NULL, NULL, 5, NULL), 0);
     comoment_free(c);
     /* Merge-only states carry no block scratch. */
     cr_assert_lt(comoment_bytes(500, 0), comoment_bytes(500, 256));
@@ -554,9 +554,9 @@ static void time_blocks(size_t incomplete, double missing, const char *label)
             if (!ok) complete[j] = 0;
         }
     }
-    comoment_add_block(c, x, m, center, complete, rows); /* warm-up */
+    comoment_add_block(c, x, m, center, complete, rows, NULL); /* warm-up */
     double t0 = now_s();
-    for (size_t k = 0; k < reps; k++) comoment_add_block(c, x, m, center, complete, rows);
+    for (size_t k = 0; k < reps; k++) comoment_add_block(c, x, m, center, complete, rows, NULL);
     double ms = (now_s() - t0) * 1e3 / (double)reps;
     double mb_s = (double)(rows * p * 8) / 1e6 / (ms / 1e3);
     cr_log_info("comoment p=500 rows=256 %s: %.3f ms/block, %.0f MB/s of 8-byte cells", label, ms,

@@ -229,12 +229,53 @@ static inline void pair_update(pair_arrays a, size_t k, double nb, double mean_l
     a.co[k] += cb + d_lo * d_hi * f;
 }
 
+/* Pair (i, j) of a block summed directly over the rows where both are
+ * present, about the pair's own means (two passes, the second corrected by
+ * its residual sums): its count, means in the state's frame, M2s and
+ * co-moment, as merge_block would hand them to pair_update. */
+static void pair_direct(const comoment_source *src, const double *mask, size_t rows, size_t i,
+                        size_t j, double out[6])
+{
+    const double *restrict xi = src->raw[i], *restrict xj = src->raw[j];
+    const double *restrict mi = mask + i * rows, *restrict mj = mask + j * rows;
+    double n = 0, si = 0, sj = 0;
+    for (size_t r = 0; r < rows; r++)
+        if (mi[r] != 0 && mj[r] != 0) {
+            n += 1;
+            si += xi[r];
+            sj += xj[r];
+        }
+    double ai = si / n, aj = sj / n, ri = 0, rj = 0, qi = 0, qj = 0, co = 0;
+    for (size_t r = 0; r < rows; r++)
+        if (mi[r] != 0 && mj[r] != 0) {
+            double u = xi[r] - ai, v = xj[r] - aj;
+            ri += u;
+            rj += v;
+            qi += u * u;
+            qj += v * v;
+            co += u * v;
+        }
+    out[0] = n;
+    out[1] = src->shift[i] + (ai + ri / n);
+    out[2] = src->shift[j] + (aj + rj / n);
+    out[3] = nonnegative(qi - ri * ri / n);
+    out[4] = nonnegative(qj - rj * rj / n);
+    out[5] = co - ri * rj / n;
+}
+
+/* Whether a pair's M2 over a subset of a column's block rows, m2, kept
+ * fewer than 40 of its bits: it is what is left of sums of squares as large
+ * as the column's, col_sq (q - s^2 / n, or col_sq minus the missing rows'
+ * squares), so each lost bit of m2 / col_sq is a bit of rounding. */
+static inline int cancelled(double m2, double col_sq) { return m2 < 0x1p-13 * col_sq; }
+
 /* The block merge.  Pair sums of a pair (i, j) with j complete in the block
  * are the totals of column i; otherwise they are in column j of the product
  * buffers (filled for every incomplete column).  `any_incomplete` is a
  * constant at both call sites, so the all-complete case has no selects. */
 static inline void merge_block(comoment *c, const double *center, const unsigned char *complete,
-                               int any_incomplete)
+                               int any_incomplete, const comoment_source *src,
+                               const double *mask, size_t rows)
 {
     pair_arrays a = arrays_of(c);
     const size_t p = c->p;
@@ -273,6 +314,15 @@ static inline void merge_block(comoment *c, const double *center, const unsigned
             double m2_ij = nonnegative(q_ij - s_ij * s_ij * inv);
             double m2_ji = nonnegative(q_ji - s_ji * s_ji * inv);
             double cb = cross_j[i] - s_ij * s_ji * inv;
+            /* Only a subset's sums can cancel: i's where j is incomplete. */
+            if (any_incomplete && src && nb > 0 &&
+                ((!j_complete && cancelled(m2_ij, col_sq[i])) ||
+                 (!i_complete && cancelled(m2_ji, col_sq[j])))) {
+                double d[6];
+                pair_direct(src, mask, rows, i, j, d);
+                pair_update(a, base + i, d[0], d[1], d[2], d[3], d[4], d[5]);
+                continue;
+            }
             pair_update(a, base + i, nb, center[i] + s_ij * inv, center[j] + s_ji * inv, m2_ij,
                         m2_ji, cb);
         }
@@ -393,7 +443,8 @@ static void fill_sparse_columns(comoment *c, const double *x, const double *mask
 }
 
 SHEAF_HOT int comoment_add_block(comoment *c, const double *x, const double *mask, const double *center,
-                       const unsigned char *complete, size_t rows)
+                       const unsigned char *complete, size_t rows,
+                       const comoment_source *source)
 {
     if (rows == 0 || c->p == 0) return 0;
     if (rows > c->max_rows) return -1;
@@ -441,7 +492,7 @@ SHEAF_HOT int comoment_add_block(comoment *c, const double *x, const double *mas
     cblas_dsyrk(CblasColMajor, CblasUpper, CblasTrans, n_cols, n_rows, 1.0, x, n_rows, 0.0,
                 c->cross, n_cols);
     if (n_dense + n_sparse + n_empty == 0) {
-        merge_block(c, center, complete, 0);
+        merge_block(c, center, complete, 0, NULL, mask, rows);
         return 0;
     }
 
@@ -487,7 +538,7 @@ SHEAF_HOT int comoment_add_block(comoment *c, const double *x, const double *mas
         memset(c->squares + j * p, 0, p * sizeof(double));
         memset(c->counts + j * p, 0, p * sizeof(double));
     }
-    merge_block(c, center, complete, 1);
+    merge_block(c, center, complete, 1, source, mask, rows);
     return 0;
 }
 

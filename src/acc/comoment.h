@@ -60,12 +60,25 @@ size_t comoment_columns(const comoment *c);
  * state plus block scratch.  UINT64_MAX when create would refuse the sizes. */
 uint64_t comoment_bytes(size_t p, size_t max_rows);
 
+/* The values a block was centred from: raw[j][r] for the rows where column
+ * j's mask is 1, with raw[j][r] + shift[j] in the state's frame.  A pair
+ * whose block sums cancel (its rows lie far from the column's centre
+ * compared with their own spread: a far value of the column in rows where
+ * the other column is missing) is summed again from these, about its own
+ * mean, so that such a value costs no digits of the others' statistics. */
+typedef struct {
+    const double *const *raw;
+    const double *shift;
+} comoment_source;
+
 /* Adds a block of `rows` rows.
  *   x     column-major rows x p: x[j * rows + r], centred values (value minus
  *         center[j]); 0 where missing
  *   mask  same layout: 1.0 present, 0.0 missing
  *   center[j]  the constant subtracted from column j, in the state's frame
  *   complete[j] nonzero when column j has no missing cell in this block
+ *   source  the values before centring (above), or NULL: then a pair whose
+ *         sums cancel keeps what is left of its digits
  * The inputs are trusted: x must be 0 wherever mask is 0, and complete[j]
  * must agree with the mask.  Centring near the block mean matters for
  * accuracy: the block's M2 and co-moment are one-pass sums in that frame.
@@ -79,7 +92,8 @@ uint64_t comoment_bytes(size_t p, size_t max_rows);
  * OpenBLAS's working buffer does not fit in this thread (acc/blas.h: the
  * state is unchanged). */
 int comoment_add_block(comoment *c, const double *x, const double *mask, const double *center,
-                       const unsigned char *complete, size_t rows);
+                       const unsigned char *complete, size_t rows,
+                       const comoment_source *source);
 
 /* into := into (+) from.  shift[j] = from's frame minus into's frame for
  * column j (add it to from's means); NULL = same frames.  into != from.

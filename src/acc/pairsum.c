@@ -406,7 +406,7 @@ int pairsum_fit(const pairsum *p, double *r, double *f, double *n)
     big a = centred(p->n, &p->sxx, &p->sx, &p->sx);
     big b = centred(p->n, &p->syy, &p->sy, &p->sy);
     big c = centred(p->n, &p->sxy, &p->sx, &p->sy);
-    if (big_zero(&a) || big_zero(&b) || big_negative(&a) || big_negative(&b)) return -1;
+    if (big_zero(&a) || big_zero(&b) || big_negative(&a) || big_negative(&b)) return 1;
     big cc = big_mul(c, c), ab = big_mul(a, b), d = big_sub(ab, &cc);
     double ad = big_to_double(a), bd = big_to_double(b), cd = big_to_double(c);
     *r = cd / (sqrt(ad) * sqrt(bd));

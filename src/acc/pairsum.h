@@ -96,9 +96,10 @@ void pairsum_flush(pairsum *p);
 void pairsum_merge(pairsum *into, const pairsum *from);
 
 /* r and F = (n - 2) r^2 / (1 - r^2) from the exact sums (see above), and
- * n.  Returns 0, or -1 when the state is not exact or holds fewer than 3
- * pairs, or either column is constant over them (A or B zero).  F is +inf
- * when A B = C^2 (a perfect fit). */
+ * n.  Returns 0; 1 (r and F NaN) when either column is constant over the
+ * pairs (A or B exactly zero: r is undefined, and no rounded co-moment
+ * should stand in for it); -1 when the state is not exact or holds fewer
+ * than 3 pairs.  F is +inf when A B = C^2 (a perfect fit). */
 int pairsum_fit(const pairsum *p, double *r, double *f, double *n);
 /* The centred sums in the cells' own units, each rounded a few times:
  * M2 of x and of y about their means over the pairs, and their co-moment

@@ -318,18 +318,21 @@ static int groups_test(const level_moments *g, size_t m, screen_test *t)
 
 /* The F test of Pearson r with the target: from the exact residual sum of
  * squares when the pair sums are exact (summary_target_fit; issue 13: NIST
- * StRD Norris to 13 digits), else from the co-moments' r.  (Not inlined:
+ * StRD Norris to 13 digits), else from the co-moments' r; none when the
+ * exact sums find either column constant over the pairs.  (Not inlined:
  * inlined into test_feature, it made GCC 12 see an uninitialized g there.) */
 static __attribute__((noinline)) void correlation_test(const summary *s, size_t col,
                                                       screen_test *t)
 {
     stat_result r;
     double xr, xf, xn;
-    if (summary_target_fit(s, col, &xr, &xf, &xn) == 0 && stat_f_test(xf, 1, xn - 2, &r) == 0) {
+    int exact = summary_target_fit(s, col, &xr, &xf, &xn);
+    if (exact == 0 && stat_f_test(xf, 1, xn - 2, &r) == 0) {
         r.extra = xr;
         set_test(t, &r);
         return;
     }
+    if (exact == 1) return; /* constant over the pairs, exactly: no test */
     size_t y = (size_t)summary_target_column(s);
     double rr = summary_correlation(s, col, y);
     double nn = (double)summary_pair_count(s, col, y);

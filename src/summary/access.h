@@ -178,10 +178,11 @@ double summary_pair_variance(const summary *s, size_t a, size_t b);
 /* The regression of the target on column col from their exact pair sums
  * (acc/pairsum.h): Pearson r, F = (n - 2) r^2 / (1 - r^2) formed from the
  * exact residual sum of squares (+inf for a perfect fit), and the pairs n.
- * Returns 0, or -1 (all NaN) when there are no exact sums: no target, col
- * is the target, a cell that is not an exact decimal (or a version 1 or 2
- * file), fewer than 3 pairs, or either column constant over them; the
- * co-moments' r then stands in (summary_correlation). */
+ * Returns 0; 1 (all NaN but n) when either column is constant over the
+ * pairs, exactly: r is undefined; or -1 (all NaN) when there are no exact
+ * sums: no target, col is the target, a cell that is not an exact decimal
+ * (or a version 1 or 2 file), or fewer than 3 pairs; the co-moments' r
+ * then stands in (summary_correlation). */
 int summary_target_fit(const summary *s, size_t col, double *r, double *f, double *n);
 
 /* ---- accumulators, for statistics that walk their entries ----------------- */

@@ -269,12 +269,13 @@ int block_como_init(block_como *bc, size_t ncomo)
     bc->x = malloc(cells * sizeof *bc->x);
     bc->mask = malloc(cells * sizeof *bc->mask);
     bc->center = malloc((ncomo + 1) * sizeof *bc->center);
+    bc->shift = malloc((ncomo + 1) * sizeof *bc->shift);
     bc->complete = malloc(ncomo + 1);
     bc->stage_dev = malloc(cells * sizeof *bc->stage_dev);
     bc->stage_present = malloc(cells);
     bc->dev_at = malloc((ncomo + 1) * sizeof *bc->dev_at);
     bc->present_at = malloc((ncomo + 1) * sizeof *bc->present_at);
-    return bc->x && bc->mask && bc->center && bc->complete && bc->stage_dev &&
+    return bc->x && bc->mask && bc->center && bc->shift && bc->complete && bc->stage_dev &&
                    bc->stage_present && bc->dev_at && bc->present_at
                ? 0
                : -1;
@@ -285,6 +286,7 @@ void block_como_free(block_como *bc)
     free(bc->x);
     free(bc->mask);
     free(bc->center);
+    free(bc->shift);
     free(bc->complete);
     free(bc->stage_dev);
     free(bc->stage_present);
@@ -307,6 +309,7 @@ SHEAF_HOT int block_comoments(summary *run, block_como *bc, const double *const 
             if (pr[r]) { sum += d[r]; nnum++; }
         bc->complete[k] = nnum == rows;
         bc->center[k] = 0;
+        bc->shift[k] = 0;
         double *x = bc->x + k * rows, *msk = bc->mask + k * rows;
         if (nnum < rows) { /* missing cells are 0 in both; complete columns overwrite all */
             memset(x, 0, rows * sizeof *x);
@@ -323,13 +326,15 @@ SHEAF_HOT int block_comoments(summary *run, block_como *bc, const double *const 
         }
         double mean = sum / (double)nnum;
         bc->center[k] = mean + shift;
+        bc->shift[k] = shift;
         for (size_t r = 0; r < rows; r++)
             if (pr[r]) {
                 x[r] = d[r] - mean;
                 msk[r] = 1.0;
             }
     }
-    return comoment_add_block(run->como, bc->x, bc->mask, bc->center, bc->complete, rows);
+    const comoment_source source = {dev, bc->shift};
+    return comoment_add_block(run->como, bc->x, bc->mask, bc->center, bc->complete, rows, &source);
 }
 
 int block_comoments_flush(summary *run, block_como *bc)

@@ -122,6 +122,7 @@ typedef struct {
     double *x;               /* ncomo x rows, centred values */
     double *mask;            /* ncomo x rows, presence */
     double *center;          /* ncomo */
+    double *shift;           /* ncomo: the column's frame minus the co-moments' */
     unsigned char *complete; /* ncomo */
     /* Rows held until a whole block of SUMMARY_BLOCK_ROWS is there
      * (block_comoments_add): ncomo x SUMMARY_BLOCK_ROWS deviations and
