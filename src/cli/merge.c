@@ -15,8 +15,9 @@ static long duplicate_source(const summary *into, const summary *from, size_t *w
     for (size_t i = 0; i < summary_source_count(from); i++)
         for (size_t k = 0; k < summary_source_count(into); k++) {
             const summary_source *a = summary_source_at(into, k), *b = summary_source_at(from, i);
-            /* A source that contributed no bytes cannot be counted twice. */
-            if (b->raw_bytes == 0) continue;
+            /* A source that contributed no bytes or no rows (a night of a
+             * header alone) cannot be counted twice. */
+            if (b->raw_bytes == 0 || b->rows == 0) continue;
             if (a->fingerprint == b->fingerprint && a->raw_bytes == b->raw_bytes &&
                 a->start_byte == b->start_byte && a->end_byte == b->end_byte) {
                 *which = k;

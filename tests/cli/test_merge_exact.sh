@@ -100,6 +100,19 @@ d=$T/cases/unitetext
 "$SHEAF" scan -q -t t --max-classes 8 "$d/n2.csv" -o "$d/n2.sheaf"
 refuse text_classes_over_limit "$d/n1.sheaf" "$d/n2.sheaf"
 
+# Two nights of a header alone (the same bytes, no rows) merge with a third:
+# nothing can be counted twice, so no refusal (exit 5 before).
+mkdir -p "$T/e"
+printf 'x,y\n' >"$T/e/e1.csv"
+printf 'x,y\n' >"$T/e/e2.csv"
+printf 'x,y\n1,2\n3,5\n' >"$T/e/full.csv"
+for n in e1 e2 full; do "$SHEAF" scan -q "$T/e/$n.csv" -o "$T/e/$n.sheaf"; done
+run "$SHEAF" merge "$T/e/full.sheaf" "$T/e/e1.sheaf" "$T/e/e2.sheaf" -o "$T/e/m.sheaf"
+check merge.header_only_nights "exit $RC: $(err_text)" [ "$RC" -eq 0 ]
+cmp_sum merge.header_only_nights.same "$T/e/m.sheaf" "$T/e/full.sheaf"
+run "$SHEAF" merge "$T/e/full.sheaf" "$T/e/full.sheaf" -o "$T/e/m2.sheaf"
+check merge.same_rows_twice_refused "exit $RC: $(err_text)" [ "$RC" -eq 5 ]
+
 # ---- fixed after the audit --------------------------------------------------------
 mkdir -p "$T/f"
 "$PY" - "$T/f" <<'EOF'
