@@ -205,8 +205,9 @@ int chunker_next(chunker *c, chunk *out, char *err, size_t errlen)
             c->scanned = upto;
         }
         int final = c->ended && upto == held;
-        /* The open record (from the last record end) must fit the limit. */
-        if (upto - c->best > c->max_record) {
+        /* The open record (from the last record end, or from past the
+         * byte-order mark) must fit the limit. */
+        if (upto - record_start(c, c->best) > c->max_record) {
             if (c->best > s) return emit(c, c->best, out);
             return too_long(c, record_start(c, c->best), err, errlen);
         }
