@@ -422,13 +422,12 @@ static int spelled_missing(const summary *s, const char *t)
  * not a missing-value spelling, and one of the exact value table's cells.
  * One of more than SUMMARY_EXAMPLE_BYTES - 4 bytes may be a cut cell
  * (keep_example cuts at a whole UTF-8 character), whose start can read
- * as a number: only its table entry is left unchecked (the cut changes
- * the hash). */
+ * as a number or spell a missing value: it is left unchecked. */
 static int example_impossible(const summary *s, const summary_column *c, const char *t)
 {
     size_t n = strlen(t);
-    if (spelled_missing(s, t)) return 1;
     if (n + 4 > SUMMARY_EXAMPLE_BYTES) return 0;
+    if (spelled_missing(s, t)) return 1;
     number_decimal d;
     if (number_parse(t, n, &d) != NUMBER_TEXT) return 1;
     return !values_overflowed(c->vals) && n < values_label_bytes(c->vals) &&
