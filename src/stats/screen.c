@@ -87,19 +87,29 @@ static unsigned column_flags(const summary *s, size_t col, column_kind kind,
 {
     unsigned flags = 0;
     uint64_t present = summary_present(s, col), rows = summary_rows(s);
-    if (rows && (double)summary_missing(s, col) >= o->missing_share * (double)rows)
+    /* Shares compared as quotients: a correctly rounded k / n equal to the
+     * option's decimal is the option's double, where the product share * n
+     * can round past k (0.55 x 100 = 55.000000000000007). */
+    if (rows && (double)summary_missing(s, col) / (double)rows >= o->missing_share)
         flags |= SCREEN_MOSTLY_MISSING;
     if (present == 0) return flags | SCREEN_CONSTANT;
     int exact;
     double distinct = summary_distinct(s, col, &exact);
     double var = summary_variance(s, col);
-    /* Constant only when the exact value table holds one value.  A variance
-     * of 0 over several distinct cells is the rounding of long numbers to a
-     * double (30-digit IDs that share 28 digits), not a constant; a table
-     * that overflowed holds more than max_levels values. */
+    /* Constant when the exact value table holds one value, or when every
+     * present cell is a finite number and all are one decimal: spellings
+     * such as 1 and 1.0, or 0 and -0, are distinct cells but one number.
+     * Their deviations from the frame (the first of them) are then exactly
+     * 0, so M2 is exactly 0; distinct decimals that round to one double
+     * (30-digit IDs that share 28 digits) keep distinct deviations and a
+     * variance above 0, and are not constant.  A table that overflowed
+     * holds more than max_levels values. */
     if (exact && distinct <= 1) return flags | SCREEN_CONSTANT;
+    if (summary_numbers(s, col) == present && present >= 2 && var == 0 &&
+        summary_min(s, col) == summary_max(s, col))
+        return flags | SCREEN_CONSTANT;
     values_entry top;
-    if (summary_top(s, col, 1, &top) == 1 && (double)top.count >= o->near_constant * (double)present)
+    if (summary_top(s, col, 1, &top) == 1 && (double)top.count / (double)present >= o->near_constant)
         flags |= SCREEN_NEAR_CONSTANT;
     if (kind == KIND_NUMERIC && o->min_variance > 0 && var < o->min_variance) flags |= SCREEN_NEAR_CONSTANT;
     if (validity_id_like(s, col, kind, o->id_share)) flags |= SCREEN_ID_LIKE;
@@ -484,33 +494,48 @@ static double primary_stat(const screen_feature *f)
     return 0;
 }
 
-/* More relevant first: the ranking key, then q, p, the statistic, the column. */
+/* x rounded to 40 significant bits: the ranking keys of equal tests agree
+ * to about 12 digits however their sums were ordered (one scan, or a merge
+ * of its halves), and rounding (unlike a tolerance) keeps the order
+ * transitive, so such ties fall through to the column order. */
+static double tie_key(double x)
+{
+    if (!isfinite(x) || x == 0) return x;
+    int e;
+    frexp(x, &e);
+    return ldexp(nearbyint(ldexp(x, 40 - e)), e - 40);
+}
+
+/* More relevant first: the ranking key, then q, p, the statistic, the
+ * column (each key to 40 bits: tie_key). */
 static int relevance_cmp(const screen_feature *a, const screen_feature *b, screen_rank by)
 {
     if (by == RANK_MI) {
-        double ma = a->mi.present && !isnan(a->mi.adjusted) ? a->mi.adjusted : -2,
-               mb = b->mi.present && !isnan(b->mi.adjusted) ? b->mi.adjusted : -2;
+        double ma = tie_key(a->mi.present && !isnan(a->mi.adjusted) ? a->mi.adjusted : -2),
+               mb = tie_key(b->mi.present && !isnan(b->mi.adjusted) ? b->mi.adjusted : -2);
         if (ma != mb) return ma > mb ? -1 : 1;
     }
     if (by == RANK_STAT) {
-        double sa = primary_stat(a), sb = primary_stat(b);
+        double sa = tie_key(primary_stat(a)), sb = tie_key(primary_stat(b));
         if (sa != sb) return sa > sb ? -1 : 1;
     }
     /* log10 q and log10 p (at most 0; NaN = untested, last) keep their order
      * below the double range, where q and p are both 0. */
-    double lqa = isnan(a->log10_q) ? 1 : a->log10_q, lqb = isnan(b->log10_q) ? 1 : b->log10_q;
+    double lqa = tie_key(isnan(a->log10_q) ? 1 : a->log10_q),
+           lqb = tie_key(isnan(b->log10_q) ? 1 : b->log10_q);
     if (lqa != lqb) return lqa < lqb ? -1 : 1;
-    double lpa = isnan(a->log10_p) ? 1 : a->log10_p, lpb = isnan(b->log10_p) ? 1 : b->log10_p;
+    double lpa = tie_key(isnan(a->log10_p) ? 1 : a->log10_p),
+           lpb = tie_key(isnan(b->log10_p) ? 1 : b->log10_p);
     if (lpa != lpb) return lpa < lpb ? -1 : 1;
-    double pa = isnan(a->p) ? 2 : a->p, pb = isnan(b->p) ? 2 : b->p; /* the key without a target */
+    double pa = tie_key(isnan(a->p) ? 2 : a->p), pb = tie_key(isnan(b->p) ? 2 : b->p); /* the key without a target */
     if (pa != pb) return pa < pb ? -1 : 1;
     /* Equal p (both 0 exactly, or equal by rounding): statistics of
      * different tests are not comparable, mutual information adjusted for
      * chance is. */
-    if (a->mi.present && b->mi.present && a->mi.adjusted != b->mi.adjusted &&
-        !isnan(a->mi.adjusted) && !isnan(b->mi.adjusted))
-        return a->mi.adjusted > b->mi.adjusted ? -1 : 1;
-    double sa = primary_stat(a), sb = primary_stat(b);
+    double mia = tie_key(a->mi.adjusted), mib = tie_key(b->mi.adjusted);
+    if (a->mi.present && b->mi.present && mia != mib && !isnan(mia) && !isnan(mib))
+        return mia > mib ? -1 : 1;
+    double sa = tie_key(primary_stat(a)), sb = tie_key(primary_stat(b));
     if (sa != sb) return sa > sb ? -1 : 1;
     return (a->col > b->col) - (a->col < b->col);
 }
@@ -653,7 +678,9 @@ screen_result *screen_run(const summary *s, const screen_options *o)
             continue;
         }
         f->rank = ++rnk;
-        if (task == TASK_AUTO) add_reason(f, "no flag, not redundant");
+        if (task == TASK_AUTO)
+            add_reason(f, f->kind == KIND_NUMERIC ? "no flag, not redundant"
+                                                  : "no flag (text: not compared with the others)");
         else {
             char q[40];
             logp_format(q, sizeof q, f->log10_q, 3);
