@@ -233,8 +233,8 @@ static inline void pair_update(pair_arrays a, size_t k, double nb, double mean_l
  * present, about the pair's own means (two passes, the second corrected by
  * its residual sums): its count, means in the state's frame, M2s and
  * co-moment, as merge_block would hand them to pair_update. */
-static void pair_direct(const comoment_source *src, const double *mask, size_t rows, size_t i,
-                        size_t j, double out[6])
+static __attribute__((noinline)) void pair_direct(const comoment_source *src, const double *mask,
+                                                  size_t rows, size_t i, size_t j, double out[6])
 {
     const double *restrict xi = src->raw[i], *restrict xj = src->raw[j];
     const double *restrict mi = mask + i * rows, *restrict mj = mask + j * rows;
@@ -273,7 +273,8 @@ static inline int cancelled(double m2, double col_sq) { return m2 < 0x1p-13 * co
  * are the totals of column i; otherwise they are in column j of the product
  * buffers (filled for every incomplete column).  `any_incomplete` is a
  * constant at both call sites, so the all-complete case has no selects. */
-static inline void merge_block(comoment *c, const double *center, const unsigned char *complete,
+static inline __attribute__((always_inline)) void merge_block(comoment *c, const double *center,
+                                                             const unsigned char *complete,
                                int any_incomplete, const comoment_source *src,
                                const double *mask, size_t rows)
 {
