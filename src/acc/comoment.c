@@ -273,10 +273,9 @@ static inline int cancelled(double m2, double col_sq) { return m2 < 0x1p-13 * co
  * are the totals of column i; otherwise they are in column j of the product
  * buffers (filled for every incomplete column).  `any_incomplete` is a
  * constant at both call sites, so the all-complete case has no selects. */
-static inline __attribute__((always_inline)) void merge_block(comoment *c, const double *center,
-                                                             const unsigned char *complete,
-                               int any_incomplete, const comoment_source *src,
-                               const double *mask, size_t rows)
+static inline __attribute__((always_inline)) void
+merge_block(comoment *c, const double *center, const unsigned char *complete, int any_incomplete,
+            const comoment_source *src, const double *mask, size_t rows)
 {
     pair_arrays a = arrays_of(c);
     const size_t p = c->p;
