@@ -646,6 +646,19 @@ screen_result *screen_run(const summary *s, const screen_options *o)
         }
     }
     sort_by_relevance(order, nk, res->features, task == TASK_AUTO ? RANK_Q : o->rank_by);
+    /* Copies (the same cell in every row, any kind of column), the more
+     * relevant one staying. */
+    int prints = summary_has_copy_prints(s);
+    for (size_t a = 0; a < nk && prints; a++) {
+        screen_feature *fa = &res->features[order[a]];
+        if (!fa->keep) continue;
+        for (size_t b = a + 1; b < nk; b++) {
+            screen_feature *fb = &res->features[order[b]];
+            if (!fb->keep || summary_same_cells(s, fa->col, fb->col) != 1) continue;
+            fb->keep = 0;
+            add_reason(fb, "a copy of %s (the same cell in every row)", summary_name(s, fa->col));
+        }
+    }
     /* Redundancy among kept numeric features, the more relevant one staying. */
     for (size_t a = 0; a < nk; a++) {
         screen_feature *fa = &res->features[order[a]];
@@ -679,8 +692,9 @@ screen_result *screen_run(const summary *s, const screen_options *o)
         }
         f->rank = ++rnk;
         if (task == TASK_AUTO)
-            add_reason(f, f->kind == KIND_NUMERIC ? "no flag, not redundant"
-                                                  : "no flag (text: not compared with the others)");
+            add_reason(f, f->kind == KIND_NUMERIC || prints
+                              ? "no flag, not redundant"
+                              : "no flag (text: not compared with the others)");
         else {
             char q[40];
             logp_format(q, sizeof q, f->log10_q, 3);

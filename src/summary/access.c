@@ -73,6 +73,17 @@ column_kind summary_kind(const summary *s, size_t col, double numeric_share)
 
 uint64_t summary_numbers(const summary *s, size_t col) { return column(s, col)->mom.n; }
 uint64_t summary_missing(const summary *s, size_t col) { return column(s, col)->missing; }
+int summary_has_copy_prints(const summary *s) { return s->copy_prints; }
+
+int summary_same_cells(const summary *s, size_t a, size_t b)
+{
+    if (!s->copy_prints) return -1;
+    const summary_column *x = &s->cols[a], *y = &s->cols[b];
+    uint64_t nx = x->mom.n + x->non_numeric + x->non_finite;
+    uint64_t ny = y->mom.n + y->non_numeric + y->non_finite;
+    return nx > 0 && nx == ny && x->copy_print == y->copy_print;
+}
+
 uint64_t summary_present(const summary *s, size_t col) { return summary_column_present(column(s, col)); }
 uint64_t summary_non_numeric(const summary *s, size_t col) { return column(s, col)->non_numeric; }
 uint64_t summary_non_finite(const summary *s, size_t col) { return column(s, col)->non_finite; }

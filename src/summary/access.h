@@ -67,6 +67,11 @@ column_kind summary_kind(const summary *s, size_t col, double numeric_share);
 
 uint64_t summary_numbers(const summary *s, size_t col);     /* finite numbers (n of the moments) */
 uint64_t summary_missing(const summary *s, size_t col);     /* missing cells, absent ones included */
+/* Whether columns a and b hold the same cell in every row (their copy prints
+ * agree, with present cells): -1 when s carries no copy prints (a file
+ * written before format version 7, or a merge with one). */
+int summary_same_cells(const summary *s, size_t a, size_t b);
+int summary_has_copy_prints(const summary *s);
 uint64_t summary_present(const summary *s, size_t col);     /* present cells: numbers, text, inf/nan */
 uint64_t summary_non_numeric(const summary *s, size_t col); /* present cells that are not numbers */
 uint64_t summary_non_finite(const summary *s, size_t col);  /* inf / nan cells */

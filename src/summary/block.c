@@ -546,7 +546,17 @@ __attribute__((target("arch=x86-64-v3"))) static void decode_decimals_v3(summary
 SHEAF_HOT void block_decode(summary_column *c, block_lane *l, int simd)
 {
     const size_t n = l->ncells;
-    for (size_t i = 0; i < n; i++) l->hash[i] = XXH3_64bits(l->text[i], l->len[i]);
+    if (l->row_key) {
+        uint64_t print = 0;
+        for (size_t i = 0; i < n; i++) {
+            uint64_t h = XXH3_64bits(l->text[i], l->len[i]);
+            l->hash[i] = h;
+            print += block_copy_term(l->row_key[l->cell_row[i]], h);
+        }
+        c->copy_print += print;
+    } else {
+        for (size_t i = 0; i < n; i++) l->hash[i] = XXH3_64bits(l->text[i], l->len[i]);
+    }
     if (c->mode == COLUMN_CATEGORICAL) { c->non_numeric += n; return; }
     int decimals = l->decimals && c->pairs;
 #if defined(NUMBER_SIMD)

@@ -55,7 +55,17 @@ typedef struct {
     uint32_t cls_cap;            /* entries of cls_tmp */
     number_ref ref;      /* the column's frame, unpacked for number_deviation */
     int ref_set;         /* ref holds the column's frame */
+    const uint64_t *row_key; /* each block row's key, or NULL: block_decode adds the cells'
+                                terms to the column's copy print (summary.h) */
 } block_lane;
+
+/* A cell's term in its column's copy print: the cell's hash and its row's
+ * key, xored, times the key made odd: a sum of terms then depends on which
+ * cell sits in which row (docs/summary-format.md, "Copy prints"). */
+static inline uint64_t block_copy_term(uint64_t key, uint64_t hash)
+{
+    return (hash ^ key) * (key | 1);
+}
 
 /* What the accumulators need of a block's rows: their target cells. */
 typedef struct {

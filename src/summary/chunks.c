@@ -141,9 +141,12 @@ static int column_grid_block(chunks *w, job *j, size_t col, size_t b, block_lane
     fill_lane(w, j, col, start, end, l, &c->missing);
     l->decimals = 0;
     for (size_t t = 0; t < w->nruns; t++) l->decimals |= j->tg[t].any_y;
+    l->row_key = j->row_key + start; /* the grid's decoding counts the print */
     block_decode(c, l, w->simd);
+    l->row_key = NULL;
     for (size_t t = 1; t < w->nruns; t++) { /* the same cells, the same counts */
         summary_column *ct = &w->runs[t]->cols[col];
+        ct->copy_print = c->copy_print;
         ct->missing = c->missing;
         ct->non_numeric = c->non_numeric;
         ct->non_finite = c->non_finite;
@@ -515,7 +518,7 @@ void chunks_free(chunks *w)
     for (unsigned i = 0; i < w->nthreads; i++) pthread_join(w->threads[i], NULL);
     for (unsigned i = 0; w->jobs && i < w->nslots; i++) {
         job *j = &w->jobs[i];
-        free(j->buf); free(j->cells); free(j->line); free(j->nf);
+        free(j->buf); free(j->cells); free(j->line); free(j->row_key); free(j->nf);
         for (size_t t = 0; j->tg && t < w->nruns; t++) {
             job_target *jt = &j->tg[t];
             free(jt->row_cell); free(jt->row_class); free(jt->row_y); free(jt->row_has_y);

@@ -49,6 +49,9 @@ static int grow_row_arrays(chunks *w, job *j)
         if (ye) jt->row_ye = ye;
         ok = ok && cell && cls && y && hy && ym && ye;
     }
+    uint64_t *key = realloc(j->row_key, cap * sizeof *key);
+    if (key) j->row_key = key;
+    ok = ok && key;
     double *dev = p ? realloc(j->dev, p * cap * sizeof *dev) : j->dev;
     if (dev) j->dev = dev;
     unsigned char *pr = p ? realloc(j->present, p * cap) : j->present;
@@ -226,8 +229,13 @@ scan_status chunks_rows_of(chunks *w, job *j)
         jt->tepoch = w->runs[t]->tcells.epoch; /* of the rows since start */
         jt->any_y = 0;
     }
+    const size_t kept = w->kept_fields, cap = j->rows_cap;
     for (size_t r = 0; r < j->rows; r++) {
         w->rows++;
+        /* The row's key for the copy prints: its bytes, wherever it lies. */
+        const csv_span *first = &j->cells[r];
+        const csv_span *last = &j->cells[((j->nf[r] < kept ? j->nf[r] : kept) - 1) * cap + r];
+        j->row_key[r] = XXH3_64bits(j->ck.data + first->off, last->off + last->len - first->off);
         int ragged = j->nf[r] != w->o.width;
         uint64_t line = w->lines + j->line[r];
         for (size_t t = 0; t < w->nruns; t++) { /* the table's counts, in every summary */

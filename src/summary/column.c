@@ -115,6 +115,7 @@ void column_write(const summary_column *c, uint32_t nclasses, uint32_t version, 
         wire_put_u8(w, c->pairs != NULL);
         if (c->pairs) pairsum_write(c->pairs, w);
     }
+    if (version >= 7) wire_put_u64(w, c->copy_print);
 }
 
 void column_write_common(const summary_column *c, wire_writer *w)
@@ -140,6 +141,7 @@ void column_write_common(const summary_column *c, wire_writer *w)
         wire_put_str(w, c->examples[e], strlen(c->examples[e]));
     values_write(c->vals, w);
     hll_write(c->distinct, w);
+    wire_put_u64(w, c->copy_print);
 }
 
 int column_read(summary_column *c, uint32_t nclasses, uint32_t version, wire_reader *r,
@@ -219,6 +221,8 @@ int column_read(summary_column *c, uint32_t nclasses, uint32_t version, wire_rea
         pairsum_init(c->pairs);
         c->pairs->exact = 0;
     }
+    *part = "copy print";
+    c->copy_print = version >= 7 ? wire_get_u64(r) : 0;
     return r->failed ? -1 : 0;
 }
 
@@ -454,6 +458,8 @@ int column_check(const summary *s, const summary_column *c, char *msg, size_t le
         return why(msg, len, "a declared-categorical column holds numbers or examples");
     if (c->n_examples > c->non_numeric)
         return why(msg, len, "more examples than text cells");
+    if (present == 0 && c->copy_print != 0)
+        return why(msg, len, "a copy print without present cells");
     for (uint32_t e = 0; e < c->n_examples; e++)
         for (uint32_t f = 0; f < e; f++)
             if (strcmp(c->examples[e], c->examples[f]) == 0)
@@ -657,6 +663,7 @@ int column_merge(summary_column *a, const summary_column *b, const column_merge_
             class_merge(&a->cls[m->same_classes ? c : m->map[c + 1] - 1], &b->cls[c], shift);
     }
     a->missing += b->missing;
+    a->copy_print += b->copy_print; /* mod 2^64, in any order */
     a->non_numeric += b->non_numeric;
     a->non_finite += b->non_finite;
     a->zeros += b->zeros;

@@ -108,9 +108,9 @@ static summary *decode_schema(wire_reader *r, decode_state *ds, uint32_t version
     if (version >= 5) { /* older files matched the spellings byte for byte */
         uint8_t rule = wire_get_u8(r);
         if (rule > 1) r->failed = 1;
-        else if (rule == 0 && version == 5 && !r->failed)
-            broken(r, ds, "a version-5 file whose missing-value spellings match exactly "
-                          "(written as version 1 to 3)");
+        else if (rule == 0 && !r->failed) /* every build that writes 5 or later matched in any case */
+            broken(r, ds, "a version-%u file whose missing-value spellings match exactly "
+                          "(written as version 1 to 3)", version);
         o.missing_any_case = rule;
     }
     char *target = dup_str(r, MAX_NAME_BYTES);
@@ -229,7 +229,7 @@ static void decode_sources(summary *s, wire_reader *r, decode_state *ds, uint32_
         if (!r->failed && summary_add_source(s, &src) != 0) r->failed = 1;
         free(src.path);
     }
-    if (!r->failed && version >= 6 && shards == 0)
+    if (!r->failed && version == 6 && shards == 0)
         broken(r, ds, "a version-6 file without a shard's start record (written as version 5 "
                       "or older)");
 }
@@ -718,7 +718,10 @@ summary_status summary_decode(const uint8_t *data, size_t len, summary **out, ch
         /* A failed allocation sets errno to ENOMEM (nothing else the
          * decoders call does): that is a resource limit, not damage. */
         errno = 0;
-        if (k == 0) s = decode_schema(&p, &ds, version);
+        if (k == 0) {
+            s = decode_schema(&p, &ds, version);
+            if (s) s->copy_prints = version >= 7;
+        }
         else if (k == 1) decode_sources(s, &p, &ds, version);
         else if (k == 2) decode_table(s, &p, &ds, version);
         else if (k == 3) decode_target(s, &p, &ds, version);

@@ -123,6 +123,7 @@ static void encode_table(const summary *s, wire_writer *w)
 
 uint32_t summary_file_version(const summary *s)
 {
+    if (s->copy_prints) return 7;
     for (size_t i = 0; i < s->nsources; i++)
         if (s->sources[i].shard_rule) return 6;
     if (s->opt.missing_any_case) return 5;

@@ -421,6 +421,7 @@ static summary_status fold(summary *into, summary *from, char *err, size_t errle
     into->bytes += from->bytes;
     into->short_rows += from->short_rows;
     into->repeated_headers += from->repeated_headers;
+    into->copy_prints = into->copy_prints && from->copy_prints;
     into->long_rows += from->long_rows;
     for (uint32_t i = 0; i < from->n_bad_lines && into->n_bad_lines < SUMMARY_BAD_LINES; i++)
         into->bad_lines[into->n_bad_lines++] = from->bad_lines[i];

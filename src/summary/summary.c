@@ -143,6 +143,7 @@ summary *summary_create(const summary_options *opt, size_t ncols, char *const *n
     summary *s = calloc(1, sizeof *s);
     if (!s) return NULL;
     s->target = -1;
+    s->copy_prints = 1; /* a decoded file of an older version clears it */
     tcells_init(&s->tcells);
     if (summary_options_copy(&s->opt, opt) != 0) goto fail;
     if (opt->target) {

@@ -50,8 +50,10 @@
  * in two doubles), else 2 when it counted repeated headers, else 1.  Files
  * of versions 1 to 3 matched the spellings byte for byte.  6 when a source
  * is a byte-range shard that says how it found its first record (version
- * 5's layout, each source record followed by its shard fields). */
-#define SUMMARY_FORMAT_VERSION 6
+ * 5's layout, each source record followed by its shard fields).  7 when
+ * every column carries its copy print (version 6's layout, each column
+ * ending with it): every summary a scan of this sheaf writes. */
+#define SUMMARY_FORMAT_VERSION 7
 /* The version of a file of several targets (a container of single-target
  * summaries, one per target: docs/summary-format.md). */
 #define SUMMARY_SET_FORMAT_VERSION 4
@@ -140,6 +142,9 @@ typedef struct {
     uint32_t tcell_epoch;    /* (a scan) the target cell epoch its accumulators are at */
     uint32_t n_examples;     /* non-numeric examples kept */
     char examples[SUMMARY_EXAMPLES][SUMMARY_EXAMPLE_BYTES + 1];
+    uint64_t copy_print;     /* sum over its present cells of copy_mix(row key, cell hash),
+                                mod 2^64: two columns with the same cells in the same rows
+                                have the same print (summary.copy_prints) */
 } summary_column;
 
 typedef struct {
@@ -171,6 +176,8 @@ typedef struct {
     uint64_t short_rows;      /* rows with too few fields */
     uint64_t long_rows;       /* rows with too many fields */
     uint64_t repeated_headers; /* header lines skipped where a compressed member began */
+    int copy_prints;          /* every column's copy_print counts every row (a scan, a merge of
+                                 such summaries, a file of version 7); 0 for older files */
     uint32_t n_bad_lines;     /* kept line numbers of ragged rows */
     uint64_t bad_lines[SUMMARY_BAD_LINES];
     size_t nsources;
@@ -335,8 +342,8 @@ uint64_t summary_column_present(const summary_column *c);
  * failure writes nothing there.  For reading (summary_read,
  * summary_set_read), "-" is standard input, read whole into memory. */
 summary_status summary_write(const summary *s, const char *path, char *err, size_t errlen);
-/* The format version s is written in: the oldest that holds it (6 with a
- * shard's start record, 5 when its spellings match in any case, else 3 with a target, 2 when it counted
+/* The format version s is written in: the oldest that holds it (7 with copy
+ * prints, 6 with a shard's start record, 5 when its spellings match in any case, else 3 with a target, 2 when it counted
  * repeated headers, 1).  Readers take 1 .. SUMMARY_FORMAT_VERSION. */
 uint32_t summary_file_version(const summary *s);
 /* Reads a summary file into a new, sealed summary. */

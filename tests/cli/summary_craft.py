@@ -238,6 +238,8 @@ def _walk_COLS(w, info):
             for f in ("sx", "sy", "sxx", "syy", "sxy"):
                 for k in range(4):
                     w.get(q + "%s[%d]" % (f, k), "u64")
+        if info["version"] >= 7:  # the column's copy print (summary/summary.h)
+            w.get(p + "copy_print", "u64")
 
 
 def _walk_COMO(w, info):

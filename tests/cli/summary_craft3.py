@@ -9,10 +9,14 @@ SHEAF_TREE/tests/cli, default the tree this file is in).  Every output is reseal
       |R| <= 1), so only a comparison with the co-moments can tell.
   craft3.py pairs-get FILE COL
       prints n, scales, the pair sums as integers, and r from them.
+  craft3.py no-prints IN OUT
+      a version 7 summary rewritten as the version before copy prints: 6
+      when a source is a shard with its start record, else 5.
   craft3.py legacy IN OUT [CELLMAP]
-      a version 5 summary of a regression target rewritten as version 1 (the
-      layout of docs/summary-format.md for versions 1 and 2): no case rule,
-      no repeated_headers, no cell table, no pair sums, and every target
+      a version 5 to 7 summary of a regression target rewritten as version 1
+      (the layout of docs/summary-format.md for versions 1 and 2): no case
+      rule, no repeated_headers, no shard fields, no copy prints, no cell
+      table, no pair sums, and every target
       cell c as 2^20 + the level-50 key of the cell table's key c (the cell
       table must be at a level <= 50).  CELLMAP "c=K,..": cell c becomes
       2^20 + K instead (a crafted legacy key).
@@ -68,8 +72,48 @@ def rekey(key, steps):
     return -(((-key - 1) >> steps) + 1)
 
 
+SHARD = ("shard_rule", "shard_modes", "shard_map", "shard_index", "shard_count", "file_id",
+         "read_bytes")
+
+
+def rewrite(data, drop, put, version):
+    """data with the byte ranges in drop removed, the bytes of put (offset:
+    bytes) written, the given version, every section and the file resealed."""
+    sections, _ = sc.parse(data)
+    out = bytearray(data[:12])
+    struct.pack_into("<I", out, 8, version)
+    for tag, hdr, start, plen in sections:
+        payload = bytearray()
+        pos = start
+        for a, b in sorted(x for x in drop if start <= x[0] < start + plen):
+            payload += data[pos:a]
+            pos = b
+        payload += data[pos:start + plen]
+        for off, raw in put.items():
+            if start <= off < start + plen:
+                rel = off - start - sum(b - a for a, b in drop if start <= a < off)
+                payload[rel:rel + len(raw)] = raw
+        out += tag.encode() + struct.pack("<Q", len(payload)) + payload + b"\0" * 8
+    out += b"END." + struct.pack("<Q", 8) + b"\0" * 8
+    secs, _ = sc.parse(out)
+    sc.reseal(out, secs)
+    return out
+
+
+def no_prints(data):
+    """A version 7 summary as the version before copy prints: version 6
+    when a source is a shard with its start record, else version 5 (the
+    shard fields dropped too)."""
+    _, fields = sc.parse(data)
+    shard = any(name.endswith(".shard_rule") and v for name, _, _, v in fields)
+    drop = [(off, off + sc.SIZES[typ]) for name, off, typ, v in fields
+            if name.endswith(".copy_print") or
+            (not shard and name.startswith("SRCS.") and name.split(".")[-1] in SHARD)]
+    return rewrite(data, drop, {}, 6 if shard else 5)
+
+
 def legacy(data, cellmap):
-    sections, fields = sc.parse(data)
+    _, fields = sc.parse(data)
     byname = {f[0]: f for f in fields}
     level = byname["TRGT.tcells.level"][3]
     n = byname["TRGT.tcells.n"][3]
@@ -81,28 +125,13 @@ def legacy(data, cellmap):
     drop, put = [], {}
     for name, off, typ, v in fields:
         if name in ("SCHM.missing_any_case", "TABL.repeated_headers") or \
-                name.startswith("TRGT.tcells.") or ".has_pairs" in name or ".pairs." in name:
+                name.startswith("TRGT.tcells.") or ".has_pairs" in name or ".pairs." in name or \
+                name.endswith(".copy_print") or \
+                (name.startswith("SRCS.") and name.split(".")[-1] in SHARD):
             drop.append((off, off + sc.SIZES[typ]))
         elif name.startswith("COLS[") and name.endswith(".cell") and v:
             put[off] = struct.pack("<I", cell[v])
-    out = bytearray(data[:12])
-    struct.pack_into("<I", out, 8, 1)
-    for tag, hdr, start, plen in sections:
-        payload = bytearray()
-        pos = start
-        for a, b in sorted(x for x in drop if start <= x[0] < start + plen):
-            payload += data[pos:a]
-            pos = b
-        payload += data[pos:start + plen]
-        for off, raw in put.items():
-            if start <= off < start + plen:
-                rel = off - start - sum(b - a for a, b in drop if start <= a < off)
-                payload[rel:rel + 4] = raw
-        out += tag.encode() + struct.pack("<Q", len(payload)) + payload + b"\0" * 8
-    out += b"END." + struct.pack("<Q", 8) + b"\0" * 8
-    secs, _ = sc.parse(out)
-    sc.reseal(out, secs)
-    return out
+    return rewrite(data, drop, put, 1)
 
 
 def main(argv):
@@ -127,6 +156,10 @@ def main(argv):
             print(out, file=sys.stderr)
             return 1
         open(argv[3], "wb").write(out)
+        return 0
+    if op == "no-prints":
+        data = bytearray(open(argv[2], "rb").read())
+        open(argv[3], "wb").write(no_prints(data))
         return 0
     if op == "legacy":
         data = bytearray(open(argv[2], "rb").read())

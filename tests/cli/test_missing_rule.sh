@@ -24,9 +24,9 @@ run "$SHEAF" scan "$T/lockers.csv" --target pickup_outcome -o "$T/new3.sheaf" -q
 check scan.target "exit $RC: $(err_text)" test "$RC" = 0
 run "$SHEAF" scan "$T/lockers.csv" -o "$T/new1.sheaf" -q
 check scan.plain "exit $RC: $(err_text)" test "$RC" = 0
-check new.version "version $(version "$T/new3.sheaf"), want 5" test "$(version "$T/new3.sheaf")" = 5
-check new.version_no_target "version $(version "$T/new1.sheaf"), want 5" \
-    test "$(version "$T/new1.sheaf")" = 5
+check new.version "version $(version "$T/new3.sheaf"), want 7" test "$(version "$T/new3.sheaf")" = 7
+check new.version_no_target "version $(version "$T/new1.sheaf"), want 7" \
+    test "$(version "$T/new1.sheaf")" = 7
 rule=$("$PY" "$CRAFT" get "$T/new3.sheaf" SCHM.missing_any_case 2>&1)
 check new.rule_byte "SCHM.missing_any_case is '$rule', want 1" test "$rule" = 1
 
@@ -73,7 +73,7 @@ check merge.old_old_version "version $(version "$T/old2.sheaf"), want 3" \
 m=$(missing_of "$T/old2.sheaf" bay_temp_c)
 check merge.old_old_missing "bay_temp_c missing '$m', want 4" test "$m" = 4
 
-# A version-5 file must say its rule is any-case: 0 and 2 are damage.
+# A file of version 5 or later must say its rule is any-case: 0 and 2 are damage.
 for b in 0 2; do
     "$PY" "$CRAFT" set "$T/new3.sheaf" "$T/rule$b.sheaf" SCHM.missing_any_case=$b
     run "$SHEAF" info "$T/rule$b.sheaf"

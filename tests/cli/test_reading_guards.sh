@@ -75,14 +75,15 @@ check repeat_header.info_text "info does not report the skipped header line" \
 "$SHEAF" info "$T/rm.sheaf" --format json >"$T/rm.json" 2>/dev/null
 check repeat_header.merge_adds "merge does not add the counts ($(json_field "$T/rm.json" repeated_headers))" \
     test "$(json_field "$T/rm.json" repeated_headers)" = 3
-# A scan writes format version 5 with or without repeated headers (the
-# missing-value case rule is in it: docs/summary-format.md); a version-2 file
-# of an earlier build (tests/old/README.md) still reads with its count.
+# A scan writes format version 7 with or without repeated headers (the
+# missing-value case rule and the copy prints are in it:
+# docs/summary-format.md); a version-2 file of an earlier build
+# (tests/old/README.md) still reads with its count.
 "$SHEAF" scan "$T/a.csv.gz" -q -o "$T/one.sheaf" 2>/dev/null
-check repeat_header.version5_without "a summary without repeated headers is not version 5" \
-    test "$(od -An -tu4 -j8 -N4 "$T/one.sheaf" | tr -d ' ')" = 5
-check repeat_header.version5_with "a summary with repeated headers is not version 5" \
-    test "$(od -An -tu4 -j8 -N4 "$T/r.sheaf" | tr -d ' ')" = 5
+check repeat_header.version7_without "a summary without repeated headers is not version 7" \
+    test "$(od -An -tu4 -j8 -N4 "$T/one.sheaf" | tr -d ' ')" = 7
+check repeat_header.version7_with "a summary with repeated headers is not version 7" \
+    test "$(od -An -tu4 -j8 -N4 "$T/r.sheaf" | tr -d ' ')" = 7
 "$SHEAF" info tests/old/v2-exact-case.sheaf --json >"$T/old2.json" 2>/dev/null
 check repeat_header.version2_reads "the version-2 file's count ($(json_field "$T/old2.json" repeated_headers)), want 1" \
     test "$(json_field "$T/old2.json" repeated_headers)" = 1

@@ -6,8 +6,8 @@
 # several spellings (1 and 1.0) was not no_information, too_sparse missed
 # 55 of 100 rows at --missing-share 0.55 (the product 0.55 x 100 rounds
 # up), exactly tied columns were ranked by the last bits of their sums (a
-# merge re-ranked them), and a kept text column was called "not redundant"
-# though text columns are not compared.  Inputs: tests/cli/verdict_inputs.py
+# merge re-ranked them), and a copy of a text column was kept (text columns
+# were not compared: copy prints, format version 7).  Inputs: tests/cli/verdict_inputs.py
 # (invented data, fixed seeds).
 cd "$(dirname "$0")/../.." || exit 1
 . tests/cli/common.sh
@@ -162,11 +162,11 @@ done
 sj "$G/dup_one.sheaf" >"$G/d.json"
 same=$("$PY" -c 'import pandas as pd,sys
 df = pd.read_csv(sys.argv[1], dtype=str); print(df["cat"].equals(df["cat_copy"]))' "$G/dup.csv")
-# Text columns are not compared with each other (a documented limit): the
-# reason must say so, not "not redundant".
+# A copy of a text column is found by the copy prints (both were kept
+# before format version 7).
 reason=$(feat "$G/d.json" cat_copy reasons)
-check redundancy.text_copy_reason "cat_copy equals cat (pandas equals: $same); reason '$reason'" \
-    [ "$reason" = "no flag (text: not compared with the others)" ]
+check redundancy.text_copy "cat_copy equals cat (pandas equals: $same); reason '$reason'" \
+    [ "$reason" = "a copy of cat (the same cell in every row)" ]
 
 # ---- selection: q-values, ranks, trim ------------------------------------------------
 halves sel "$G/sel.csv" -t y

@@ -159,7 +159,7 @@ for f in shard_rule shard_modes shard_map shard_index shard_count file_id read_b
     v=$(get shd "SRCS.source[0].$f")
     check "decode.shard_field.$f" "SRCS.source[0].$f is '$v'" [ -n "$v" ]
 done
-check decode.shard_version "version $(get shd version)" [ "$(get shd version)" = 6 ]
+check decode.shard_version "version $(get shd version)" [ "$(get shd version)" = 7 ]
 crafted shard_rule_unknown shd "SRCS.source[0].shard_rule=4"
 crafted shard_modes_none shd "SRCS.source[0].shard_modes=0"
 crafted shard_modes_past_four shd "SRCS.source[0].shard_modes=16"
@@ -170,7 +170,14 @@ crafted shard_count_zero shd "SRCS.source[0].shard_count=0"
 crafted shard_range_past_file shd "SRCS.source[0].end_byte=$(($(get shd 'SRCS.source[0].size_bytes') + 1))"
 crafted shard_read_less_than_data shd "SRCS.source[0].read_bytes=$(($(get shd 'SRCS.source[0].raw_bytes') - 1))"
 crafted shard_fields_without_rule shd "SRCS.source[0].shard_rule=0"
-crafted version6_without_shard shd "SRCS.source[0].shard_rule=0" "SRCS.source[0].shard_modes=0" \
+# (Version 7 holds the shard fields of every source, zeros for one that is
+# no shard; a version-6 file is version 7 without the copy prints.)
+$PY tests/cli/summary_craft3.py no-prints "$T/shd.sheaf" "$T/shd6.sheaf" ||
+    fail decode.version6_setup "summary_craft3.py no-prints failed"
+check decode.version6_made "version $(get shd6 version)" [ "$(get shd6 version)" = 6 ]
+run $SHEAF info "$T/shd6.sheaf"
+check decode.good.version6 "info exit $RC: $(err_text)" [ "$RC" -eq 0 ]
+crafted version6_without_shard shd6 "SRCS.source[0].shard_rule=0" "SRCS.source[0].shard_modes=0" \
     "SRCS.source[0].shard_map=0" "SRCS.source[0].shard_index=0" "SRCS.source[0].shard_count=0" \
     "SRCS.source[0].file_id=0" "SRCS.source[0].read_bytes=0"
 check decode.version6_without_shard.message "$(err_text)" \
