@@ -184,7 +184,10 @@ int moments_valid(const moments *m)
     if (!m->has_ref || !isfinite(m->min) || !isfinite(m->max) || !(m->min <= m->max) ||
         !isfinite(m->ref.value) || m->ref.value < m->min || m->ref.value > m->max)
         return 0;
-    if (m->n == 1) return m->mean == 0 && m->m2 == 0 && m->m3 == 0 && m->m4 == 0;
+    /* One number: its deviation from the frame, 0 unless the cell has more
+     * digits than the frame keeps (19: number_frame), then a sliver. */
+    if (m->n == 1)
+        return m->m2 == 0 && m->m3 == 0 && m->m4 == 0 && moments_mean_plausible(m->mean, m->min, m->max);
     if (m->m2 < 0 || m->m4 < 0) return 0;
     if (moments_spread_allows_overflow(m->min, m->max)) return 1;
     return isfinite(m->mean) && isfinite(m->m2) && isfinite(m->m3) && isfinite(m->m4) &&

@@ -114,7 +114,9 @@ int cmd_trim(int argc, char **argv)
         "trim", "DATA... (--summary FILE.sheaf | --columns-from FILE) [-o OUT]",
         "Writes DATA with only the kept columns (and the target, and --carry columns), in\n"
         "their input order, keeping each field's bytes and quoting as they were.\n"
-        "With --summary, the kept set is that of `sheaf screen` with the same options.",
+        "With --summary, the kept set is that of `sheaf screen` with the same options.\n"
+        "A failed run leaves no -o file; on standard output, what was written before the\n"
+        "failure stays (exit code != 0).",
         opts,
         "  $ sheaf trim day.csv.gz --summary fleet.sheaf --carry drone_id -o kept.csv.gz\n"
         "  $ sheaf trim flights.csv --columns-from kept.txt -o - | head\n"};

@@ -127,7 +127,7 @@ static int detect(source *s, char *err, size_t errlen)
          * decoder, so that it is known exactly where a restart point is. */
         XXH3_64bits_reset(s->hash);
         s->hash_on_use = 1;
-    } else if (s->raw_len >= 4 && m[0] == 0x28 && m[1] == 0xb5 && m[2] == 0x2f && m[3] == 0xfd) {
+    } else if (source_zstd_magic(m, s->raw_len)) {
         s->kind = SOURCE_ZSTD;
         s->zs = ZSTD_createDStream();
         if (!s->zs) { snprintf(err, errlen, "%s: out of memory", s->path); errno = ENOMEM; return -1; }

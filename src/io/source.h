@@ -140,4 +140,13 @@ int64_t source_mtime(const source *s);
 /* XXH3-64 of the raw bytes read so far (complete once source_read returned 0). */
 uint64_t source_fingerprint(const source *s);
 
+/* Whether the n bytes at m start a zstd stream: a frame (28 b5 2f fd), or a
+ * skippable frame (5x 2a 4d 18), which parallel compressors such as
+ * Debian's pzstd put before each frame and the decoder steps over. */
+static inline int source_zstd_magic(const unsigned char *m, size_t n)
+{
+    return n >= 4 && ((m[0] == 0x28 && m[1] == 0xb5 && m[2] == 0x2f && m[3] == 0xfd) ||
+                      ((m[0] & 0xf0) == 0x50 && m[1] == 0x2a && m[2] == 0x4d && m[3] == 0x18));
+}
+
 #endif

@@ -110,7 +110,8 @@ SHEAF_HOT static void feed_classes(summary_column *c, block_lane *l, const block
         if (m->n == 0) {
             m->m2 = m2b;
         } else {
-            double na = (double)m->n, d = (e->sum + e->sum_low) / nb - class_moments_mean(m);
+            double na = (double)m->n,
+                   d = class_sum_quotient(e->sum, e->sum_low, nb) - class_moments_mean(m);
             m->m2 += m2b + d * d * na * nb / (na + nb);
         }
         two_sum_into(&m->sum, &m->sum_low, e->sum);

@@ -295,10 +295,13 @@ static int deviation_in_range(double dev, const moments *col)
 
 /* Sum of squared deviations of n numbers that lie in [min, max]: at most
  * n (max - min)^2 / 4 (Popoviciu's inequality); four times that, so that
- * rounding never refuses a file a scan wrote. */
+ * rounding never refuses a file a scan wrote, with the slack of
+ * deviation_in_range: decimals that round to one double (min = max) still
+ * deviate from one another, by their exact differences. */
 static int m2_in_range(double m2, uint64_t n, const moments *col)
 {
     double spread = col->max - col->min;
+    spread += 0x1p-30 * spread + 0x1p-30 * fmax(fabs(col->min), fabs(col->max));
     return m2 <= (double)n * spread * spread + 0x1p-1000;
 }
 

@@ -26,6 +26,7 @@
 #include "io/reader.h"
 #include "summary/block.h"
 #include "summary/column.h"
+#include "summary/format.h"
 #include "summary/schema.h"
 
 _Static_assert(CHUNK_PADDING >= CSV_READ_AHEAD && CHUNK_PADDING >= NUMBER_READ_AHEAD,
@@ -311,6 +312,16 @@ static scan_status first_record(scan_context *sc, const csv_field *f, size_t nf)
         if (!names[i]) goto oom;
         names[i][reader_column_name(&f[i], i, sc->o.header, 1, names[i])] = '\0';
     }
+    for (size_t i = 0; i < nf; i++) /* the file format's limit: a summary must read back */
+        if (strlen(names[i]) > MAX_NAME_BYTES) {
+            snprintf(sc->err, sizeof sc->err,
+                     "%s: header field %zu is %zu bytes long; a column name holds at most %d "
+                     "(is the first line a header?)", sc->name, i + 1, strlen(names[i]),
+                     MAX_NAME_BYTES);
+            for (size_t k = 0; k < nf; k++) free(names[k]);
+            free(names);
+            return scan_fail(sc, SCAN_ERR_INPUT, NULL);
+        }
     sc->header = names;
     sc->file_fields = nf;
     scan_status st = setup(sc, names, nf);

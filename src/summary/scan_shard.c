@@ -467,8 +467,7 @@ static scan_status scan_shard_range(scan_context *sc, const char *path, int fd, 
     mark.file_id = XXH3_64bits_withSeed(buf, idlen, size);
     const unsigned char *m = (const unsigned char *)buf;
     const char *kind = idlen >= 2 && m[0] == 0x1f && m[1] == 0x8b ? "gzip"
-                       : idlen >= 4 && m[0] == 0x28 && m[1] == 0xb5 && m[2] == 0x2f && m[3] == 0xfd
-                           ? "zstd" : NULL;
+                       : source_zstd_magic(m, idlen) ? "zstd" : NULL;
     uint32_t member;
     if (kind && kind[0] == 'g' && shard_members_header(m, idlen, &member) == 1)
         return scan_shard_members(sc, path, fd, size, mtime, buf, &mark, 0);

@@ -6,10 +6,14 @@ fail() { echo "FAIL $1: $2"; }
 skip() { echo "SKIP $1: $2"; }
 # check NAME WHY COMMAND...: PASS when COMMAND succeeds; returns its status.
 check() {
-    local name=$1 why=$2
+    local check_name_=$1 check_why_=$2
     shift 2
-    if "$@"; then pass "$name"; else fail "$name" "$why"; return 1; fi
+    if "$@"; then pass "$check_name_"; else fail "$check_name_" "$check_why_"; return 1; fi
 }
+# holds 'A && B': a condition of several commands for check, evaluated here
+# (check NAME WHY [ A ] && [ B ] would check A alone: && binds outside).  It
+# sees the caller's variables, not its positional parameters.
+holds() { eval "$1"; }
 # run CMD...: runs with stdout/stderr to $T/out, $T/err; exit code in $RC.
 run() {
     "$@" >"$T/out" 2>"$T/err"

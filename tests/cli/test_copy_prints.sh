@@ -36,11 +36,11 @@ for f in json.load(sys.stdin)["features"]:
     print("%s=%s" % (f["name"], "; ".join(f["reasons"])))'
 }
 expect_copies() { # NAME SUMMARY
-    local got want
+    local got want sum=$2
     got=$(reasons "$2" | grep -c 'a copy of')
     want=2
     check "$1.copies" "$(reasons "$2" | grep 'a copy of' | tr '\n' '|'), want bay_again and weight_again" \
-        [ "$got" = "$want" ] && [ "$(reasons "$2" | grep -c '^bay_again=a copy of bay \|^weight_again=a copy of weight ')" = 2 ]
+        holds '[ "$got" = "$want" ] && [ "$(reasons "$sum" | grep -c "^bay_again=a copy of bay \|^weight_again=a copy of weight ")" = 2 ]'
 }
 # The reference: which columns equal which (pandas, as text).
 pairs=$("$PY" - "$T/lockers.csv" <<'PY'
@@ -80,7 +80,7 @@ for i in 1 2 3; do "$SHEAF" scan "$T/lockers.csv" --shard $i/3 -q -o "$T/s$i.she
 expect_copies shards "$T/s.sheaf"
 p1=$("$PY" tests/cli/summary_craft.py get "$T/one.sheaf" 'COLS[2].copy_print')
 p2=$("$PY" tests/cli/summary_craft.py get "$T/s.sheaf" 'COLS[2].copy_print')
-check shards.same_print "whole $p1, shards $p2" [ -n "$p1" ] && [ "$p1" = "$p2" ]
+check shards.same_print "whole $p1, shards $p2" holds '[ -n "$p1" ] && [ "$p1" = "$p2" ]'
 # Without prints (version 5): the text copy is kept, and the reason says why.
 "$PY" tests/cli/summary_craft3.py no-prints "$T/one.sheaf" "$T/v6.sheaf"
 r=$(reasons "$T/v6.sheaf" | grep '^bay_again=')

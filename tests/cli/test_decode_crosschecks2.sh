@@ -60,7 +60,7 @@ done
 # Co-moment columns: route 0, load 1, stops 2, gauge 3, probe 4, early 5,
 # late 6, tag 7 (every column not declared categorical).
 check audit2.layout "N[early][late] $(get a-reg 'COMO.N[5][6]'), N[probe][probe] $(get a-reg 'COMO.N[4][4]')" \
-    [ "$(get a-reg 'COMO.N[5][6]')" = 0 ] && [ "$(get a-reg 'COMO.N[4][4]')" = 1 ]
+    holds '[ "$(get a-reg "COMO.N[5][6]")" = 0 ] && [ "$(get a-reg "COMO.N[4][4]")" = 1 ]'
 
 # 1. A constant column (gauge = 7 in every row): none of its co-moment
 #    entries is checked, and a partner's C is not bounded against it.  corr

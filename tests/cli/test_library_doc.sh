@@ -44,7 +44,7 @@ check header_calls_prefixed "not sheaf_: $bad" [ -z "$bad" ]
 awk '/<!-- example:begin -->/ { on = 1; next } /<!-- example:end -->/ { on = 0 }
      on && /^```/ { next } on { print }' docs/library.md >"$T/example.c"
 lines=$(wc -l <"$T/example.c")
-check example_found "extracted $lines lines" [ "$lines" -ge 20 ] && [ "$lines" -le 45 ]
+check example_found "extracted $lines lines" holds '[ "$lines" -ge 20 ] && [ "$lines" -le 45 ]'
 # shellcheck disable=SC2086
 run "$CC" -std=c11 -Wall -Wextra -Werror -Iinclude "$T/example.c" libsheaf.a $LIBS -o "$T/example"
 check example_compiles "exit $RC: $(err_text)" [ "$RC" -eq 0 ] || exit 0

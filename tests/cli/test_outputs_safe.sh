@@ -347,7 +347,7 @@ if command -v strace >/dev/null && strace -f -o /dev/null true 2>/dev/null; then
         check "push.$c.one_push_per_4_MiB" "$pushes pushes for $size bytes" \
             [ "$pushes" -eq $((size / 4194304)) ]
         check "push.$c.pushed_before_the_fsync" "last push line ${last_push:-none}, fsync line ${first_fsync:-none}" \
-            [ -n "$last_push" -a -n "$first_fsync" ] && [ "$last_push" -lt "$first_fsync" ]
+            holds '[ -n "$last_push" -a -n "$first_fsync" ] && [ "$last_push" -lt "$first_fsync" ]'
     done
     strace -f -qq -e trace=sync_file_range -o "$T/trace" $SHEAF scan -q "$T/wide.csv" -o - >"$T/push.out" 2>"$T/err"
     check push.stdout.not_pushed "$(grep -c 'sync_file_range(' "$T/trace") pushes" \

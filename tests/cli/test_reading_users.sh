@@ -37,7 +37,7 @@ EOF
 
 if [ -r "$SPECTOR" ] && [ -r "$E6" ]; then
     run "$SHEAF" scan "$SPECTOR" -o "$T/spector.sheaf"
-    check spector_space_detected "rc $RC: $(err_text)" [ "$RC" = 0 ] && [ ! -s "$T/err" ]
+    check spector_space_detected "rc $RC: $(err_text)" holds '[ "$RC" = 0 ] && [ ! -s "$T/err" ]'
     # reference: pandas.read_csv(sep=' '), as statsmodels' loader reads it (sep=r'\s')
     check spector_moments_match_pandas "differs" moments_match "$T/spector.sheaf" \
         "pd.read_csv('$SPECTOR', sep=' ')"
@@ -45,7 +45,7 @@ if [ -r "$SPECTOR" ] && [ -r "$E6" ]; then
     check spector_names_keep_their_single_quotes "names differ from pandas'" \
         "$PY" -c "import json,sys,pandas as pd; n=[c['name'] for c in json.load(open('$T/sp.json'))['columns']]; sys.exit(n != list(pd.read_csv('$SPECTOR', sep=' ').columns) or n[0] != \"'OBS'\")"
     run "$SHEAF" scan --no-header "$E6" -o "$T/e6.sheaf"
-    check e6_jmulti_space_detected "rc $RC: $(err_text)" [ "$RC" = 0 ] && [ ! -s "$T/err" ]
+    check e6_jmulti_space_detected "rc $RC: $(err_text)" holds '[ "$RC" = 0 ] && [ ! -s "$T/err" ]'
     # reference: pandas.read_csv(sep=' ', header=None)
     check e6_jmulti_moments_match_pandas "differs" moments_match "$T/e6.sheaf" \
         "pd.read_csv('$E6', sep=' ', header=None)"

@@ -13,12 +13,12 @@ if [ ! -f "$DATA/iris.csv" ]; then skip all "open datasets not found in $DATA"; 
 
 # ---- usage ---------------------------------------------------------------------
 run "$SHEAF" page --help
-check help "exit $RC" [ "$RC" = 0 ] && grep -q '^usage: sheaf page' "$T/out"
+check help "exit $RC" holds '[ "$RC" = 0 ] && grep -q "^usage: sheaf page" "$T/out"'
 run "$SHEAF" page
 check no_summary_is_usage "exit $RC: $(err_text)" [ "$RC" = 2 ]
 "$SHEAF" scan "$DATA/iris.csv" --target species -o "$T/iris.sheaf" -q
 run "$SHEAF" page "$T/iris.sheaf"
-check no_output_is_usage "exit $RC: $(err_text)" [ "$RC" = 2 ] && grep -q -- '-o FILE' "$T/err"
+check no_output_is_usage "exit $RC: $(err_text)" holds '[ "$RC" = 2 ] && grep -q -- "-o FILE" "$T/err"'
 run "$SHEAF" page "$T/iris.sheaf" -o "$T/x.html" --colour never
 check unknown_option_is_usage "exit $RC: $(err_text)" [ "$RC" = 2 ]
 run "$SHEAF" page "$T/iris.sheaf" -o "$T/x.html" --fdr 2
@@ -37,13 +37,13 @@ check unwritable_output_exit_1 "exit $RC: $(err_text)" [ "$RC" = 1 -a ! -e "$T/n
 run "$SHEAF" page "$T/iris.sheaf" --write-svg "$T/afile"
 check svg_into_a_file_refused "exit $RC: $(err_text)" [ "$RC" = 1 -a ! -s "$T/afile" ]
 run "$SHEAF" page "$T/iris.sheaf" -o -
-check stdout_output "exit $RC, $(head -c 40 "$T/out")" [ "$RC" = 0 ] && head -n 1 "$T/out" | grep -q '^<!DOCTYPE html>'
+check stdout_output "exit $RC, $(head -c 40 "$T/out")" holds '[ "$RC" = 0 ] && head -n 1 "$T/out" | grep -q "^<!DOCTYPE html>"'
 if [ -w /dev/full ]; then
     run "$SHEAF" page "$T/iris.sheaf" -o /dev/full
-    check full_device_exit_1 "exit $RC: $(err_text)" [ "$RC" = 1 ] && grep -q 'No space left' "$T/err"
+    check full_device_exit_1 "exit $RC: $(err_text)" holds '[ "$RC" = 1 ] && grep -q "No space left" "$T/err"'
     "$SHEAF" page "$T/iris.sheaf" -o - >/dev/full 2>"$T/err"
     RC=$?
-    check full_stdout_exit_1 "exit $RC: $(err_text)" [ "$RC" = 1 ] && grep -q 'standard output' "$T/err"
+    check full_stdout_exit_1 "exit $RC: $(err_text)" holds '[ "$RC" = 1 ] && grep -q "standard output" "$T/err"'
 fi
 ls -A "$T" | grep -q '^\..*sheaf-\|\.tmp\.' && fail no_temporary_files_left "$(ls -A "$T")" || pass no_temporary_files_left
 
@@ -137,7 +137,7 @@ run "$SHEAF" page "$T/two.sheaf" -o "$T/two-first.html"
 check targets.first_without_target "exit $RC: $(err_text)" [ "$RC" = 0 ] &&
     grep -q 'target species' "$T/two-first.html"
 run "$SHEAF" page "$T/two.sheaf" -t sex -o "$T/two-sex.html"
-check targets.named_with_target "exit $RC: $(err_text)" [ "$RC" = 0 ] && grep -q 'target sex' "$T/two-sex.html"
+check targets.named_with_target "exit $RC: $(err_text)" holds '[ "$RC" = 0 ] && grep -q "target sex" "$T/two-sex.html"'
 run "$SHEAF" page "$T/two.sheaf" -t island -o "$T/two-x.html"
 check targets.unknown_target_is_usage "exit $RC: $(err_text)" [ "$RC" = 2 -a ! -e "$T/two-x.html" ]
 

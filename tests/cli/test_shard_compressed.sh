@@ -62,7 +62,7 @@ for f in quoted long plain crlf bom blank; do
     "$PY" "$T/bgzf.py" "$T/$f.csv" "$T/$f.bgz" 400 7
     run "$SHEAF" scan -q "$T/$f.bgz" -o "$T/$f.bgz.whole.sheaf"
     why=$("$PY" tests/cli/info_same.py "$T/$f.bgz.whole.sheaf" "$T/$f.whole.sheaf" bytes 2>&1)
-    check "$f.bgzf_whole_same_as_plain" "exit $RC, differs: ${why:0:300}" [ "$RC" -eq 0 ] && [ -z "$why" ]
+    check "$f.bgzf_whole_same_as_plain" "exit $RC, differs: ${why:0:300}" holds '[ "$RC" -eq 0 ] && [ -z "$why" ]'
     case $f in quoted|long) ns="1 2 3 7 13 20" ;; *) ns="5 17" ;; esac
     for n in $ns; do
         scan_shards "$T/$f.bgz" "$n" "$f.$n"
@@ -229,7 +229,7 @@ cp "$T/long.3.1.sheaf" "$T/short.1.sheaf"
 cp "$T/long.3.3.sheaf" "$T/short.3.sheaf"
 run "$SHEAF" merge "$T/short.1.sheaf" "$T/short.2.sheaf" "$T/short.3.sheaf" -o "$T/short.merged.sheaf"
 why=$("$PY" tests/cli/info_same.py "$T/short.merged.sheaf" "$T/long.whole.sheaf" bytes 2>&1)
-check short_window.merges_same_as_whole "exit $RC, differs: ${why:0:300}" [ "$RC" -eq 0 ] && [ -z "$why" ]
+check short_window.merges_same_as_whole "exit $RC, differs: ${why:0:300}" holds '[ "$RC" -eq 0 ] && [ -z "$why" ]'
 
 # ------------------------------------------------------------- refusals
 gzip -c "$T/quoted.csv" >"$T/quoted.csv.gz"
@@ -238,7 +238,7 @@ check plain_gzip_refused "exit $RC: $(err_text)" [ "$RC" -eq 2 ]
 check plain_gzip_names_bgzf "$(err_text)" grep -q "gzip as BGZF, e.g. by bgzip.*gzip in one piece" "$T/err"
 cat "$T/quoted.csv.gz" "$T/quoted.csv.gz" >"$T/two.csv.gz"
 run "$SHEAF" scan -q "$T/two.csv.gz" --shard 2/2 -o "$T/x.sheaf"
-check two_member_gzip_refused "exit $RC: $(err_text)" [ "$RC" -eq 2 ] && grep -q "BGZF" "$T/err"
+check two_member_gzip_refused "exit $RC: $(err_text)" holds '[ "$RC" -eq 2 ] && grep -q BGZF "$T/err"'
 # BGZF then a plain member: the shard whose range holds the plain member
 # finds no BGZF header there (the search) or where the BGZF part ends (the
 # walk), and refuses.

@@ -156,11 +156,11 @@ run "$SHEAF" scan -q "$T/quoted.csv" --shard-from-top -o "$T/x.sheaf"
 check from_top_needs_shard "exit $RC: $(err_text)" [ "$RC" -eq 2 ]
 gzip -c "$T/quoted.csv" >"$T/quoted.csv.gz"
 run "$SHEAF" scan -q "$T/quoted.csv.gz" --shard 1/2 -o "$T/x.sheaf"
-check gzip_refused "exit $RC: $(err_text)" [ "$RC" -eq 2 ] && grep -q "gzip" "$T/err"
+check gzip_refused "exit $RC: $(err_text)" holds '[ "$RC" -eq 2 ] && grep -q gzip "$T/err"'
 if command -v zstd >/dev/null; then
     zstd -q -c "$T/quoted.csv" >"$T/quoted.csv.zst"
     run "$SHEAF" scan -q "$T/quoted.csv.zst" --shard 2/2 -o "$T/x.sheaf"
-    check zstd_refused "exit $RC: $(err_text)" [ "$RC" -eq 2 ] && grep -q "zstd" "$T/err"
+    check zstd_refused "exit $RC: $(err_text)" holds '[ "$RC" -eq 2 ] && grep -q zstd "$T/err"'
 else
     skip zstd_refused "no zstd command"
 fi

@@ -12,7 +12,6 @@ cd "$(dirname "$0")/../.." || exit 0
 cli_setup shell || exit 0
 S=$(cd "$(dirname "$SHEAF")" && pwd)/$(basename "$SHEAF")
 # holds CONDITION: a shell condition (with && ...) for check, evaluated there.
-holds() { eval "$1"; }
 
 # Invented telemetry of a fleet of delivery drones.
 {

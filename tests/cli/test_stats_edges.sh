@@ -86,3 +86,51 @@ EOF2
 else
     fail stats_edges.anova_overflowing_target "scan or screen: $(err_text)"
 fi
+
+# Summaries a scan writes must read back (a fresh audit of info's figures:
+# both were refused as damaged, exit 4, after a scan that exited 0).
+# Ten masses that are distinct decimals but one double, with a class
+# target: the per-class M2 check took max - min as doubles (0 here).
+{
+    echo mass,lot
+    echo 1000000000000.0000005,a
+    for i in 1 2 3 4 5 6 7 8 9; do echo "1000000000000.00000$i,$((i % 2))"; done
+} >"$T/masses.csv"
+if "$SHEAF" scan -q "$T/masses.csv" -t lot -o "$T/masses.sheaf" 2>"$T/err"; then
+    run "$SHEAF" info --format json "$T/masses.sheaf"
+    # The variance of the ten decimals: 8.691666...e-12 (Python's fractions).
+    v=$("$PY" -c 'import json,sys; print(json.load(open(sys.argv[1]))["columns"][0]["variance"])' "$T/out" 2>/dev/null)
+    want=$("$PY" -c '
+from fractions import Fraction as F
+x = [F("1000000000000.0000005")] + [F("1000000000000.00000%d" % i) for i in range(1, 10)]
+m = sum(x) / 10
+print(float(sum((a - m) ** 2 for a in x) / 9))')
+    check stats_edges.class_target_one_double "info exit $RC, variance $v, fractions $want: $(err_text)" \
+        holds '[ "$RC" -eq 0 ] && [ "$v" = "$want" ]'
+else
+    fail stats_edges.class_target_one_double "scan: $(err_text)"
+fi
+# One number of more than 19 digits: its deviation from its 19-digit frame
+# is a sliver, not 0 (the n = 1 check wanted 0).
+printf 'tag,ok\nalpha,1\n1.00000000000000000001,2\nbeta,3\n' >"$T/wide1.csv"
+"$SHEAF" scan -q "$T/wide1.csv" -o "$T/wide1.sheaf" 2>/dev/null
+run "$SHEAF" info "$T/wide1.sheaf"
+check stats_edges.one_wide_number "info exit $RC: $(err_text)" [ "$RC" -eq 0 ]
+# A class whose cells are all one value (0.1 or 0.2, over many blocks) has
+# variance 0 exactly (the class mean of n deviations of 0.1 was
+# 0.10000000000000002, and the variance 2.6e-35).
+"$PY" -c '
+import sys
+with open(sys.argv[1], "w") as f:
+    f.write("dose,tray\n")
+    for i in range(3000):
+        f.write("%s,%d\n" % (("0.1", "0.2")[i % 2], i % 4))' "$T/doses.csv"
+"$SHEAF" scan -q "$T/doses.csv" -t tray -o "$T/doses.sheaf" 2>/dev/null
+run "$SHEAF" info --format json "$T/doses.sheaf"
+why=$("$PY" -c '
+import json, sys
+c = json.load(open(sys.argv[1]))["columns"][0]
+bad = ["%s: mean %r variance %r" % (k["class"], k["mean"], k["variance"]) for k in c["by_class"]
+       if k["variance"] != 0 or k["mean"] not in (0.1, 0.2)]
+print("; ".join(bad))' "$T/out" 2>&1)
+check stats_edges.constant_class_variance_0 "exit $RC; $why" holds '[ "$RC" -eq 0 ] && [ -z "$why" ]'
