@@ -177,7 +177,8 @@ check header_quote_alone.empty_table "rows and columns $(jget "$T/h8.sheaf" '[d[
 # A first record of exactly --max-record bytes after a UTF-8 byte-order mark
 # is within the limit for every chunk size: the chunker measured it from
 # the mark and refused it when a chunk boundary fell inside it (found by
-# the csv_reader fuzzer; exit 3 before).
+# the csv_reader fuzzer; exit 3 before).  Read without a header: a column
+# name that long is refused on its own.
 "$PY" - "$T/bom_limit.csv" <<'EOF'
 import sys
 head = "a," + "b" * 131067  # 131069 bytes and its newline: 131070
@@ -185,9 +186,9 @@ with open(sys.argv[1], "wb") as f:
     f.write(b"\xef\xbb\xbf" + head.encode() + b"\n" + b"5,6\n" * 40000)
 EOF
 for cs in 64K 1M; do
-    run "$SHEAF" scan -q "$T/bom_limit.csv" --max-record 131070 --chunk-size $cs -o "$T/bl.sheaf"
+    run "$SHEAF" scan -q "$T/bom_limit.csv" --no-header --max-record 131070 --chunk-size $cs -o "$T/bl.sheaf"
     check bom_record_at_limit.chunk_$cs "exit $RC: $(err_text)" [ "$RC" -eq 0 ]
 done
-run "$SHEAF" scan -q "$T/bom_limit.csv" --max-record 131069 --chunk-size 64K -o "$T/bl.sheaf"
+run "$SHEAF" scan -q "$T/bom_limit.csv" --no-header --max-record 131069 --chunk-size 64K -o "$T/bl.sheaf"
 check bom_record_past_limit.refused "exit $RC: $(err_text)" [ "$RC" -eq 3 ]
 exit 0
