@@ -228,9 +228,7 @@ int column_read(summary_column *c, uint32_t nclasses, uint32_t version, wire_rea
 
 /* ---- invariants ---------------------------------------------------------- */
 
-static int why(char *msg, size_t len, const char *fmt, ...) __attribute__((format(printf, 3, 4)));
-
-static int why(char *msg, size_t len, const char *fmt, ...)
+int summary_why(char *msg, size_t len, const char *fmt, ...)
 {
     va_list ap;
     va_start(ap, fmt);
@@ -334,17 +332,17 @@ static int labels_agree(const summary_column *c, const values *v, uint32_t label
         }
     }
     if (numbers != c->mom.n || nonfinite != c->non_finite || text != c->non_numeric)
-        return why(msg, len, "the value table reads as %llu numbers, %llu non-finite and %llu "
+        return summary_why(msg, len, "the value table reads as %llu numbers, %llu non-finite and %llu "
                    "text cells, the counts say %llu, %llu and %llu",
                    (unsigned long long)numbers, (unsigned long long)nonfinite,
                    (unsigned long long)text, (unsigned long long)c->mom.n,
                    (unsigned long long)c->non_finite, (unsigned long long)c->non_numeric);
     if (zeros != c->zeros || integers != c->integers)
-        return why(msg, len, "the value table holds %llu zeros and %llu integers, the counts say "
+        return summary_why(msg, len, "the value table holds %llu zeros and %llu integers, the counts say "
                    "%llu and %llu", (unsigned long long)zeros, (unsigned long long)integers,
                    (unsigned long long)c->zeros, (unsigned long long)c->integers);
     if (numbers && (lo != c->mom.min || hi != c->mom.max))
-        return why(msg, len, "the value table's numbers span %.17g to %.17g, the moments %.17g "
+        return summary_why(msg, len, "the value table's numbers span %.17g to %.17g, the moments %.17g "
                    "to %.17g", lo, hi, c->mom.min, c->mom.max);
     return 0;
 }
@@ -374,7 +372,7 @@ int column_check_target(const summary *s, const summary_column *c, char *msg, si
         if (crosstab_mode(c->cross) == CROSSTAB_VALUES &&
             !moments_spread_allows_overflow(ty->min, ty->max) &&
             (!ty->n || !deviation_in_range(e.mean, ty) || !m2_in_range(e.m2, e.n, ty)))
-            return why(msg, len, "per-value entry %zu: target mean or spread outside the "
+            return summary_why(msg, len, "per-value entry %zu: target mean or spread outside the "
                        "target's range%s", i + 1,
                        s->classes_dropped ? " (classes dropped in the scan: an older sheaf "
                                             "wrote these wrongly; rescan)"
@@ -395,10 +393,10 @@ int column_check_target(const summary *s, const summary_column *c, char *msg, si
     }
     for (uint32_t t = 1; t <= s->tcells.n; t++) {
         if (used[t] > rows[t])
-            return why(msg, len, "%llu numbers in target cell %u, which holds %llu rows",
+            return summary_why(msg, len, "%llu numbers in target cell %u, which holds %llu rows",
                        (unsigned long long)used[t], t, (unsigned long long)rows[t]);
         if (cross[t] > rows[t])
-            return why(msg, len, "per-value rows in target cell %u: %llu, more than its %llu",
+            return summary_why(msg, len, "per-value rows in target cell %u: %llu, more than its %llu",
                        t, (unsigned long long)cross[t], (unsigned long long)rows[t]);
     }
     return 0;
@@ -447,51 +445,51 @@ int column_check(const summary *s, const summary_column *c, char *msg, size_t le
     /* Counts: every row has exactly one state in every column. */
     uint64_t present = c->mom.n, rows = c->missing;
     if (present > UINT64_MAX - c->non_numeric || present + c->non_numeric > UINT64_MAX - c->non_finite)
-        return why(msg, len, "cell counts overflow");
+        return summary_why(msg, len, "cell counts overflow");
     present += c->non_numeric + c->non_finite;
     if (rows > UINT64_MAX - present || rows + present != s->rows)
-        return why(msg, len, "missing + numbers + text + non-finite cells = %llu + %llu, not the "
+        return summary_why(msg, len, "missing + numbers + text + non-finite cells = %llu + %llu, not the "
                    "table's %llu rows", (unsigned long long)c->missing,
                    (unsigned long long)present, (unsigned long long)s->rows);
     if (c->zeros > c->integers || c->integers > c->mom.n)
-        return why(msg, len, "zeros %llu, integers %llu, numbers %llu out of order",
+        return summary_why(msg, len, "zeros %llu, integers %llu, numbers %llu out of order",
                    (unsigned long long)c->zeros, (unsigned long long)c->integers,
                    (unsigned long long)c->mom.n);
     if (c->mode == COLUMN_CATEGORICAL && (c->mom.n || c->non_finite || c->n_examples))
-        return why(msg, len, "a declared-categorical column holds numbers or examples");
+        return summary_why(msg, len, "a declared-categorical column holds numbers or examples");
     if (c->n_examples > c->non_numeric)
-        return why(msg, len, "more examples than text cells");
+        return summary_why(msg, len, "more examples than text cells");
     if (present == 0 && c->copy_print != 0)
-        return why(msg, len, "a copy print without present cells");
+        return summary_why(msg, len, "a copy print without present cells");
     for (uint32_t e = 0; e < c->n_examples; e++)
         for (uint32_t f = 0; f < e; f++)
             if (strcmp(c->examples[e], c->examples[f]) == 0)
-                return why(msg, len, "example %u repeats example %u", e + 1, f + 1);
+                return summary_why(msg, len, "example %u repeats example %u", e + 1, f + 1);
     for (uint32_t e = 0; e < c->n_examples; e++)
         if (example_impossible(s, c, c->examples[e]))
-            return why(msg, len, "example %u is not a text cell the column could hold", e + 1);
+            return summary_why(msg, len, "example %u is not a text cell the column could hold", e + 1);
 
     /* Value table: the schema's sizes, every present cell counted once,
      * full when it overflowed, and a label that was not cut hashes to its
      * key (XXH3-64, as the scan hashed the cell). */
     const values *v = c->vals;
     if (values_max_levels(v) != o->max_levels)
-        return why(msg, len, "value table of %u entries, not the schema's %u",
+        return summary_why(msg, len, "value table of %u entries, not the schema's %u",
                    values_max_levels(v), o->max_levels);
     if (values_label_bytes(v) != o->label_bytes)
-        return why(msg, len, "value labels cut at %u bytes, not the schema's %u",
+        return summary_why(msg, len, "value labels cut at %u bytes, not the schema's %u",
                    values_label_bytes(v), o->label_bytes);
     if (values_total(v) != present)
-        return why(msg, len, "value table counts %llu cells, not the %llu present",
+        return summary_why(msg, len, "value table counts %llu cells, not the %llu present",
                    (unsigned long long)values_total(v), (unsigned long long)present);
     if (values_overflowed(v) && values_levels(v) != o->max_levels)
-        return why(msg, len, "value table overflowed with room left");
+        return summary_why(msg, len, "value table overflowed with room left");
     for (uint32_t k = 0; k < values_levels(v); k++) {
         values_entry e = values_entry_at(v, k);
         if (e.label_len > o->label_bytes)
-            return why(msg, len, "value label longer than the schema's label_bytes");
+            return summary_why(msg, len, "value label longer than the schema's label_bytes");
         if (e.label_len < o->label_bytes && XXH3_64bits(e.label, e.label_len) != e.hash)
-            return why(msg, len, "value %u: label does not hash to its key", k + 1);
+            return summary_why(msg, len, "value %u: label does not hash to its key", k + 1);
     }
     if (!values_overflowed(v) && c->mode != COLUMN_CATEGORICAL &&
         labels_agree(c, v, o->label_bytes, msg, len) != 0)
@@ -503,31 +501,31 @@ int column_check(const summary *s, const summary_column *c, char *msg, size_t le
      * registers set than cells. */
     uint32_t used = hll_used(c->distinct);
     if (values_overflowed(v) ? used == 0 : used > values_levels(v))
-        return why(msg, len, "distinct-count sketch of %u registers next to %s value table of "
+        return summary_why(msg, len, "distinct-count sketch of %u registers next to %s value table of "
                    "%u entries", used, values_overflowed(v) ? "an overflowed" : "an exact",
                    values_levels(v));
     if (used > present)
-        return why(msg, len, "distinct-count sketch with %u registers set by %llu cells", used,
+        return summary_why(msg, len, "distinct-count sketch with %u registers set by %llu cells", used,
                    (unsigned long long)present);
 
     /* Bucket store: the schema's budget, one entry count per number, zeros
      * in key 0, and cells that exist. */
     const buckets *b = c->bins;
     if (buckets_budget(b) != o->bucket_budget)
-        return why(msg, len, "bucket budget %u, not the schema's %u", buckets_budget(b),
+        return summary_why(msg, len, "bucket budget %u, not the schema's %u", buckets_budget(b),
                    o->bucket_budget);
     if (buckets_total(b) != c->mom.n)
-        return why(msg, len, "bucket store counts %llu numbers, not %llu",
+        return summary_why(msg, len, "bucket store counts %llu numbers, not %llu",
                    (unsigned long long)buckets_total(b), (unsigned long long)c->mom.n);
     uint64_t zero_count = 0;
     uint64_t *class_numbers = NULL; /* bucket counts per class cell */
     if (c->cls && !(class_numbers = calloc(s->nclasses + 1, sizeof *class_numbers)))
-        return why(msg, len, "out of memory");
+        return summary_why(msg, len, "out of memory");
     for (size_t i = 0, n = buckets_entries(b); i < n; i++) {
         buckets_entry e = buckets_entry_at(b, i);
         if (!cell_valid(s, e.cell)) {
             free(class_numbers);
-            return why(msg, len, "bucket entry %zu names target cell %u, which does not exist",
+            return summary_why(msg, len, "bucket entry %zu names target cell %u, which does not exist",
                        i + 1, e.cell);
         }
         if (e.key == 0) zero_count += e.count;
@@ -535,7 +533,7 @@ int column_check(const summary *s, const summary_column *c, char *msg, size_t le
     }
     if (zero_count != c->zeros) {
         free(class_numbers);
-        return why(msg, len, "bucket store holds %llu zeros, not %llu",
+        return summary_why(msg, len, "bucket store holds %llu zeros, not %llu",
                    (unsigned long long)zero_count, (unsigned long long)c->zeros);
     }
     /* Per-class moments count the numbers of each class, as the bucket
@@ -544,7 +542,7 @@ int column_check(const summary *s, const summary_column *c, char *msg, size_t le
         if (c->cls[k].n != class_numbers[k + 1]) {
             uint64_t n = class_numbers[k + 1];
             free(class_numbers);
-            return why(msg, len, "class %u: %llu numbers in its moments, %llu in the bucket store",
+            return summary_why(msg, len, "class %u: %llu numbers in its moments, %llu in the bucket store",
                        k + 1, (unsigned long long)c->cls[k].n, (unsigned long long)n);
         }
     free(class_numbers);
@@ -557,22 +555,22 @@ int column_check(const summary *s, const summary_column *c, char *msg, size_t le
         const crosstab *x = c->cross;
         int mode = crosstab_mode(x);
         if (crosstab_max_keys(x) != o->max_levels)
-            return why(msg, len, "per-value table of %u keys, not the schema's %u",
+            return summary_why(msg, len, "per-value table of %u keys, not the schema's %u",
                        crosstab_max_keys(x), o->max_levels);
         if (mode == CROSSTAB_COUNTS && !s->has_classes)
-            return why(msg, len, "per-value class counts without target classes");
+            return summary_why(msg, len, "per-value class counts without target classes");
         if (mode == CROSSTAB_VALUES && s->has_classes)
-            return why(msg, len, "per-value target moments with target classes");
+            return summary_why(msg, len, "per-value target moments with target classes");
         uint64_t key_total = 0, last_key = 0;
         uint64_t *class_total = NULL; /* rows per class over the table */
         if (mode == CROSSTAB_COUNTS && !(class_total = calloc(s->nclasses + 1, sizeof *class_total)))
-            return why(msg, len, "out of memory");
+            return summary_why(msg, len, "out of memory");
         for (size_t i = 0, n = crosstab_entries(x); i < n; i++) {
             crosstab_entry e = crosstab_entry_at(x, i);
             if (mode == CROSSTAB_COUNTS ? e.cell == 0 || e.cell > s->nclasses
                                         : !regression_cell(s, e.cell)) {
                 free(class_total);
-                return why(msg, len, "per-value entry %zu names target cell %u, which does "
+                return summary_why(msg, len, "per-value entry %zu names target cell %u, which does "
                            "not exist", i + 1, e.cell);
             }
             if (class_total) {
@@ -581,7 +579,7 @@ int column_check(const summary *s, const summary_column *c, char *msg, size_t le
                 if (e.n > s->class_rows[e.cell - 1] ||
                     class_total[e.cell] > s->class_rows[e.cell - 1]) {
                     free(class_total);
-                    return why(msg, len, "per-value entries count more rows than class %u has",
+                    return summary_why(msg, len, "per-value entries count more rows than class %u has",
                                e.cell);
                 }
             }
@@ -593,7 +591,7 @@ int column_check(const summary *s, const summary_column *c, char *msg, size_t le
             if (e.key == CROSSTAB_OVERFLOW_KEY - 1) count += values_count_of(v, CROSSTAB_OVERFLOW_KEY);
             if (e.n > count - key_total) {
                 free(class_total);
-                return why(msg, len, "per-value entry %zu counts more rows than its value has",
+                return summary_why(msg, len, "per-value entry %zu counts more rows than its value has",
                            i + 1);
             }
             key_total += e.n;
@@ -603,9 +601,9 @@ int column_check(const summary *s, const summary_column *c, char *msg, size_t le
 
     /* Pair sums with the target: over rows holding numbers in both. */
     if ((c->pairs != NULL) != (s->target >= 0 && c->mode != COLUMN_CATEGORICAL))
-        return why(msg, len, "pair sums %s", c->pairs ? "without a target" : "missing");
+        return summary_why(msg, len, "pair sums %s", c->pairs ? "without a target" : "missing");
     if (c->pairs && c->pairs->n > c->mom.n)
-        return why(msg, len, "%llu exact pairs with the target, more than the column's %llu "
+        return summary_why(msg, len, "%llu exact pairs with the target, more than the column's %llu "
                    "numbers", (unsigned long long)c->pairs->n, (unsigned long long)c->mom.n);
 
     /* Per-class moments: within the class's rows (their counts were
@@ -614,10 +612,10 @@ int column_check(const summary *s, const summary_column *c, char *msg, size_t le
         for (uint32_t k = 0; k < s->nclasses; k++) {
             const class_moments *m = &c->cls[k];
             if (m->n > s->class_rows[k])
-                return why(msg, len, "class %u: %llu numbers in %llu rows", k + 1,
+                return summary_why(msg, len, "class %u: %llu numbers in %llu rows", k + 1,
                            (unsigned long long)m->n, (unsigned long long)s->class_rows[k]);
             if (!class_moments_valid(m, &c->mom))
-                return why(msg, len, "class %u: impossible moments", k + 1);
+                return summary_why(msg, len, "class %u: impossible moments", k + 1);
         }
     }
     return 0;

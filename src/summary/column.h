@@ -40,6 +40,9 @@ int column_read(summary_column *c, uint32_t nclasses, uint32_t version, wire_rea
 /* Checks the invariants of a read column against its summary (the table
  * counts, the schema's options, the target classes; docs/summary-format.md,
  * "Invariants").  0, or -1 with the broken one described in msg. */
+/* The decoder checks' message: fmt into msg (len bytes); returns -1. */
+int summary_why(char *msg, size_t len, const char *fmt, ...) __attribute__((format(printf, 3, 4)));
+
 int column_check(const summary *s, const summary_column *c, char *msg, size_t len);
 /* The checks of a read column against the target column, once every column
  * is read (regression target cells, per-value target moments).  0, or -1

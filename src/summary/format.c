@@ -370,8 +370,6 @@ static int decimal_equal(const number_decimal *a, const number_decimal *b)
            a->exp10 == b->exp10 && a->negative == b->negative && a->exact == b->exact;
 }
 
-static void check_comoment_sums(summary *s, const comoment *c, wire_reader *r, decode_state *ds);
-
 static void decode_comoments(summary *s, wire_reader *r, decode_state *ds)
 {
     if (wire_get_u64(r) != s->ncomo) { r->failed = 1; return; }
@@ -409,130 +407,8 @@ static void decode_comoments(summary *s, wire_reader *r, decode_state *ds)
                    "pairs", i + 1, s->cols[i].name, (unsigned long long)ps->n,
                    comoment_n(c, k, (size_t)t));
     }
-    if (!r->failed) check_comoment_sums(s, c, r, ds);
-}
-
-/* The scale of a co-moment column's deviations from its frame: its spread,
- * or for a constant column the distance of its value from the frame plus
- * the rounding of a deviation there (a cell of more than 19 digits deviates
- * from its 19-digit frame by less than the double's unit), so that the
- * tolerances below are 0 only where every deviation is exactly 0. */
-static double deviation_scale(const moments *m)
-{
-    double lo = m->min - m->ref.value, hi = m->max - m->ref.value;
-    return fmax(m->max - m->min, fmax(fabs(lo), fabs(hi))) +
-           0x1p-52 * fmax(fabs(m->min), fabs(m->max));
-}
-
-/* A column whose sums the checks below can bound: some numbers, a spread
- * below 2^200 (wider ones may overflow), and a scale of deviations that is
- * 0 or at least 2^-460 (below, sums of squares reach the subnormal numbers
- * and round beyond any tolerance; the readers find such columns' r
- * undefined where their sums vanish). */
-static int comoment_checkable(const moments *m, double w)
-{
-    return m->n > 0 && !moments_spread_allows_overflow(m->min, m->max) &&
-           (w == 0 || w >= 0x1p-460);
-}
-
-static void check_pair_sums(summary *s, const comoment *c, wire_reader *r, decode_state *ds,
-                            const double *w);
-
-/* The co-moment sums against the columns' moments, with slack for rounding
- * (2^-20 of the scale n w^2, w the column's deviation_scale):
- *   - a pair of no rows holds zeros (the writer's, and what merge assumes),
- *     unless a column's spread may overflow;
- *   - the diagonal M2 is the column's M2;
- *   - over a subset of the rows (where j is present) M2[i][j] lies in
- *     [0, M2[i][i]], and is 0 over one row; MEAN[i][j] lies between the
- *     column's min and max (in its frame);
- *   - |C[i][j]| <= sqrt(M2[i][j] M2[j][i]) (Cauchy-Schwarz).
- * A constant column's w is the rounding of its deviations (0 for a column
- * of zeros), so every sum of it must be 0 within a sliver of that. */
-static void check_comoment_sums(summary *s, const comoment *c, wire_reader *r, decode_state *ds)
-{
-    const double slack = 0x1p-20;
-    double *w = malloc((s->ncomo ? s->ncomo : 1) * sizeof *w);
-    if (!w) { r->failed = 1; return; }
-    for (size_t a = 0; a < s->ncomo; a++) w[a] = deviation_scale(&s->cols[s->como_col[a]].mom);
-    for (size_t a = 0; a < s->ncomo && !r->failed; a++) {
-        const summary_column *ca = &s->cols[s->como_col[a]];
-        const moments *ma = &ca->mom;
-        for (size_t b = 0; b < s->ncomo && !r->failed; b++) {
-            const moments *mb = &s->cols[s->como_col[b]].mom;
-            double n, m, m2, co;
-            comoment_pair_state(c, a, b, &n, &m, &m2, &co);
-            /* (A block's mean of a column spread past 2^200 squares to inf,
-             * and inf times a weight of 0 leaves NaN even where the pair
-             * has no rows.) */
-            if (n == 0 && (m != 0 || m2 != 0 || co != 0) &&
-                !moments_spread_allows_overflow(ma->min, ma->max) &&
-                !moments_spread_allows_overflow(mb->min, mb->max))
-                broken(r, ds, "co-moments of columns '%.60s' and '%.60s' over no rows are not 0",
-                       ca->name, s->cols[s->como_col[b]].name);
-        }
-        if (r->failed || !comoment_checkable(ma, w[a])) continue;
-        double nd, mean, m2d, cod;
-        comoment_pair_state(c, a, a, &nd, &mean, &m2d, &cod);
-        double tol = slack * (double)ma->n * w[a] * w[a];
-        if (!isfinite(m2d) || fabs(m2d - ma->m2) > tol) {
-            broken(r, ds, "column %zu '%.80s': co-moment M2 %g, the column's %g",
-                   s->como_col[a] + 1, ca->name, m2d, ma->m2);
-            break;
-        }
-        double lo = ma->min - ma->ref.value, hi = ma->max - ma->ref.value;
-        double mtol = slack * fmax(w[a], fmax(fabs(ma->min), fabs(ma->max)));
-        for (size_t b = 0; b < s->ncomo && !r->failed; b++) {
-            const moments *mb = &s->cols[s->como_col[b]].mom;
-            double n, m, m2, co, nb_, mb_, m2b, cob;
-            comoment_pair_state(c, a, b, &n, &m, &m2, &co);
-            if (n == 0) continue;
-            double top = n == 1 ? slack * w[a] * w[a] : m2d + tol; /* one row: no spread */
-            const char *what = NULL;
-            if (!isfinite(m) || m < lo - mtol || m > hi + mtol) what = "MEAN";
-            else if (!isfinite(m2) || m2 < -tol || m2 > top) what = "M2";
-            else if (comoment_checkable(mb, w[b])) {
-                comoment_pair_state(c, b, a, &nb_, &mb_, &m2b, &cob);
-                double bound = sqrt(fmax(m2, 0)) * sqrt(fmax(m2b, 0)) + slack * n * w[a] * w[b];
-                if (!isfinite(co) || fabs(co) > bound) what = "C";
-            }
-            if (what)
-                broken(r, ds, "co-moment %s[%zu][%zu] is impossible for columns '%.60s' and '%.60s'",
-                       what, a + 1, b + 1, ca->name, s->cols[s->como_col[b]].name);
-        }
-    }
-    if (!r->failed) check_pair_sums(s, c, r, ds, w);
-    free(w);
-}
-
-/* A column's exact pair sums with the target give, over the same rows, the
- * co-moments M2[k][t], M2[t][k] and C[k][t] (pairsum_centred): they must
- * agree within the same slack, or the F test of r (read from the pair sums)
- * and the correlation (read from the co-moments) would tell two stories. */
-static void check_pair_sums(summary *s, const comoment *c, wire_reader *r, decode_state *ds,
-                            const double *w)
-{
-    const double slack = 0x1p-20;
-    int t = s->target >= 0 ? s->como_of[s->target] : -1;
-    if (t < 0) return;
-    const moments *mt = &s->cols[s->target].mom;
-    if (!comoment_checkable(mt, w[t])) return;
-    for (size_t k = 0; k < s->ncomo && !r->failed; k++) {
-        const summary_column *ck = &s->cols[s->como_col[k]];
-        double m2x, m2y, cxy, n, mean, m2, m2t, co;
-        if (!ck->pairs || (int)k == t || !comoment_checkable(&ck->mom, w[k]) ||
-            pairsum_centred(ck->pairs, &m2x, &m2y, &cxy) != 0)
-            continue;
-        comoment_pair_state(c, k, (size_t)t, &n, &mean, &m2, &co);
-        comoment_pair_state(c, (size_t)t, k, &n, &mean, &m2t, &co);
-        const char *what = NULL;
-        if (!(fabs(m2x - m2) <= slack * n * w[k] * w[k])) what = "its sum of squares";
-        else if (!(fabs(m2y - m2t) <= slack * n * w[t] * w[t])) what = "the target's sum of squares";
-        else if (!(fabs(cxy - co) <= slack * n * w[k] * w[t])) what = "the co-moment";
-        if (what)
-            broken(r, ds, "column %zu '%.80s': the exact sums with the target disagree with the "
-                   "co-moments in %s", s->como_col[k] + 1, ck->name, what);
-    }
+    char why[400];
+    if (!r->failed && comoment_check(s, why, sizeof why) != 0) broken(r, ds, "%s", why);
 }
 
 /* The target column against the class table: every present target cell

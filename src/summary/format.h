@@ -27,6 +27,12 @@ extern const uint8_t SUMMARY_MAGIC[8];
  * push: start the disk writes every few MiB as they go (tempfile_push), for
  * a file fsynced when done.  0, or -1 with errno set. */
 int summary_write_at(const summary *s, int fd, off_t base, off_t *end, int push);
+
+/* The decoded co-moment matrix of s (s->como) against its columns' moments
+ * and their exact pair sums with the target (comoment_check.c; the
+ * invariants of docs/summary-format.md for COMO): 0, or -1 with what broke
+ * in msg. */
+int comoment_check(const summary *s, char *msg, size_t len);
 /* summary_write_at of a summary whose columns may not be sealed yet: they
  * are sealed on threads - 1 helper threads, in column order, while this
  * thread writes each one as soon as its seal has run (and seals columns too

@@ -104,6 +104,18 @@ expect_damaged_by() {
     if [ -z "$bad" ]; then pass "$prefix.$name"; else fail "$prefix.$name" "${bad#; }"; fi
 }
 
+# expect_readers_refuse PREFIX NAME FILE PARTNER DATA: expect_damaged_by with
+# every reader of a summary: info (text and JSON), screen, pca, corr, merge
+# both ways with PARTNER (a good summary of the same kind), drift both ways,
+# page (FILE alone and as the baseline), and trim and project of DATA.
+expect_readers_refuse() {
+    local f=$3 p=$4 d=$5
+    expect_damaged_by "$1" "$2" "$f" "info $f" "info --format json $f" "screen $f" "pca $f" \
+        "corr $f" "merge $f $p -o $T/merged.sheaf" "merge $p $f -o $T/merged.sheaf" "drift $p $f" \
+        "drift $f $p" "page $f -o $T/page.html" "page $p --base $f -o $T/page.html" \
+        "trim $d --summary $f -o $T/trim.csv" "project $d --summary $f -o $T/proj.csv"
+}
+
 # python_modules NAME MODULE...: 0 when $PY imports every module; else SKIP
 # NAME (naming Debian's python3-MODULE packages) and 1.
 python_modules() {

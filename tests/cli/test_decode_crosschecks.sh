@@ -48,13 +48,7 @@ get() { $CRAFT get "$T/$1.sheaf" "$2"; }
 
 # expect_damaged NAME FILE PARTNER: every reader exits 4 with one line
 # naming FILE (PARTNER: a good summary of the same kind, for merge and drift).
-expect_damaged() {
-    local f=$2 p=$3
-    expect_damaged_by crosscheck "$1" "$f" "info $f" "info --format json $f" "screen $f" "pca $f" \
-        "corr $f" "merge $f $p -o $T/merged.sheaf" "merge $p $f -o $T/merged.sheaf" "drift $p $f" \
-        "drift $f $p" "page $f -o $T/page.html" "page $p --base $f -o $T/page.html" \
-        "trim $D --summary $f -o $T/trim.csv" "project $D --summary $f -o $T/proj.csv"
-}
+expect_damaged() { expect_readers_refuse crosscheck "$1" "$2" "$3" "$D"; }
 
 # crafted NAME BASE PARTNER FIELD=VALUE...: summary_craft.py set, then expect_damaged.
 crafted() {
