@@ -1,7 +1,7 @@
 #!/usr/bin/env bash
 # The copy prints (summary format version 7), from a fresh audit of them:
-# `sheaf screen`'s
-# "a copy of NAME (the same cell in every row)" checked against Python's csv
+# `sheaf screen`'s "a copy of NAME (the same cell in every row)" checked
+# against Python's csv
 # module (RFC 4180; copies_ref.py says how missing cells and ragged rows are
 # read) and against itself across -j, shards (plain, BGZF, zstd frames),
 # merges of nights (CRLF + BOM vs LF), repeated gzip headers, checkpoint and
