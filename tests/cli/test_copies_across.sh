@@ -1,9 +1,8 @@
 #!/usr/bin/env bash
 # The copy prints (summary format version 7), from a fresh audit of them:
 # `sheaf screen`'s "a copy of NAME (the same cell in every row)" checked
-# against Python's csv
-# module (RFC 4180; copies_ref.py says how missing cells and ragged rows are
-# read) and against itself across -j, shards (plain, BGZF, zstd frames),
+# against Python's csv module (RFC 4180; copies_ref.py says how missing
+# cells and ragged rows are read) and against itself across -j, shards (plain, BGZF, zstd frames),
 # merges of nights (CRLF + BOM vs LF), repeated gzip headers, checkpoint and
 # resume, several targets and stdin.  The last check (rows whose unquoted
 # bytes agree) failed before the row key took the fields' places.  Inputs:
