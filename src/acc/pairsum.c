@@ -19,6 +19,8 @@
 #include <math.h>
 #include <string.h>
 
+#include "io/number.h"
+
 __extension__ typedef unsigned __int128 pairsum_u128;
 
 #define TWO59 ((int64_t)1 << 59)
@@ -425,11 +427,8 @@ int pairsum_fit(const pairsum *p, double *r, double *f, double *n)
  * go one way, so nothing overflows or underflows unless the result does. */
 static double times_pow10(double v, int64_t k)
 {
-    static const double p10[23] = {1e0,  1e1,  1e2,  1e3,  1e4,  1e5,  1e6,  1e7,
-                                   1e8,  1e9,  1e10, 1e11, 1e12, 1e13, 1e14, 1e15,
-                                   1e16, 1e17, 1e18, 1e19, 1e20, 1e21, 1e22};
-    for (; k > 0 && v != 0; k -= k > 22 ? 22 : k) v *= p10[k > 22 ? 22 : k];
-    for (; k < 0 && v != 0; k += k < -22 ? 22 : -k) v /= p10[k < -22 ? 22 : -k];
+    for (; k > 0 && v != 0; k -= k > 22 ? 22 : k) v *= number_pow10[k > 22 ? 22 : k];
+    for (; k < 0 && v != 0; k += k < -22 ? 22 : -k) v /= number_pow10[k < -22 ? 22 : -k];
     return v;
 }
 

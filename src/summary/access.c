@@ -79,9 +79,8 @@ int summary_same_cells(const summary *s, size_t a, size_t b)
 {
     if (!s->copy_prints) return -1;
     const summary_column *x = &s->cols[a], *y = &s->cols[b];
-    uint64_t nx = x->mom.n + x->non_numeric + x->non_finite;
-    uint64_t ny = y->mom.n + y->non_numeric + y->non_finite;
-    return nx > 0 && nx == ny && x->copy_print == y->copy_print;
+    uint64_t nx = summary_column_present(x);
+    return nx > 0 && nx == summary_column_present(y) && x->copy_print == y->copy_print;
 }
 
 uint64_t summary_present(const summary *s, size_t col) { return summary_column_present(column(s, col)); }

@@ -10,6 +10,7 @@
 #include <xxhash.h>
 
 #include "io/number.h"
+#include "io/reader.h"
 
 int column_alloc(summary_column *c, const summary_options *o, int with_classes)
 {
@@ -402,25 +403,15 @@ int column_check_target(const summary *s, const summary_column *c, char *msg, si
     return 0;
 }
 
-/* Whether s spells a missing value as t (ASCII letters in either case when
- * its rule says so), as io/reader.h matches cells. */
+/* Whether s spells a missing value as t: the reader's own match (io/reader.h),
+ * under the summary's case rule. */
 static int spelled_missing(const summary *s, const char *t)
 {
-    if (!*t) return 1;
-    for (uint32_t i = 0; i < s->opt.n_missing; i++) {
-        const char *m = s->opt.missing[i];
-        size_t k = 0;
-        for (; m[k] && t[k]; k++) {
-            unsigned a = (unsigned char)m[k], b = (unsigned char)t[k];
-            if (s->opt.missing_any_case) {
-                if (a - 'A' < 26) a |= 0x20;
-                if (b - 'A' < 26) b |= 0x20;
-            }
-            if (a != b) break;
-        }
-        if (!m[k] && !t[k]) return 1;
-    }
-    return 0;
+    reader_missing m;
+    reader_missing_init(&m, (const char *const *)s->opt.missing, s->opt.n_missing,
+                        s->opt.missing_any_case);
+    size_t n = strlen(t);
+    return n == 0 || reader_missing_spelled(&m, t, (uint32_t)n);
 }
 
 /* An example is a cell that read as text: not a number (finite or not),
