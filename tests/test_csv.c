@@ -85,7 +85,9 @@ static tokenized tokenize_rows(const char *data, size_t len, char delim, size_t 
     uint32_t nf[4];
     uint64_t line[4];
     cr_assert_leq(batch, 4);
-    csv_rows rows = {cells, batch, MAX_FIELDS, 0, batch, nf, line, buf, SIZE_MAX, SIZE_MAX};
+    csv_rows rows = {.cells = cells, .stride = batch, .width = MAX_FIELDS, .max_rows = batch,
+                     .nfields = nf, .line = line, .base = buf, .stop = SIZE_MAX,
+                     .max_record_bytes = SIZE_MAX};
     size_t used = 0;
     csv_status st;
     do {
@@ -616,6 +618,75 @@ Test(csv, padded_and_rows_readers_agree_with_the_plain_one_on_random_chunks)
                 cr_assert(a.last == c.last && a.lines == c.lines, "%s", what);
             }
     }
+}
+
+Test(csv, rows_reader_gives_each_record_as_written)
+{
+    /* What the copy prints' row key rests on: a row's record (csv_rows.records)
+     * runs from its first byte to after its line end, and unless the reader
+     * marked it rewritten its bytes are still those of the input, which read
+     * alone give the same fields.  Random chunks as above, 1 to 3 rows at a
+     * time. */
+    static const char alphabet[] = "ab1,,,;\t\"\"\n\n\r ";
+    uint64_t x = 0x13198A2E03707344ull;
+    char data[301];
+    int rewritten = 0, plain = 0;
+    for (int iter = 0; iter < 5000; iter++) {
+        size_t len = (size_t)(iter % 301);
+        for (size_t i = 0; i < len; i++) {
+            x ^= x << 13; x ^= x >> 7; x ^= x << 17;
+            data[i] = alphabet[x % (sizeof alphabet - 1)];
+        }
+        char delim = ",;\t"[iter % 3];
+        size_t batch = 1 + (size_t)iter % 3;
+        char *buf = padded_copy(data, len);
+        csv_reader r;
+        csv_reader_init_padded(&r, buf, len, delim);
+        csv_span cells[MAX_FIELDS * 3], records[3];
+        unsigned char rw[3];
+        uint32_t nf[3];
+        uint64_t line[3];
+        csv_rows rows = {.cells = cells, .stride = batch, .width = MAX_FIELDS, .max_rows = batch,
+                         .nfields = nf, .line = line, .base = buf, .stop = SIZE_MAX,
+                         .max_record_bytes = SIZE_MAX, .records = records, .rewritten = rw};
+        csv_status st;
+        uint32_t after = 0;
+        do {
+            rows.rows = 0;
+            st = csv_next_rows(&r, &rows);
+            for (size_t i = 0; i < rows.rows; i++) {
+                const csv_span *rec = &records[i];
+                cr_assert_geq(rec->off, after, "iteration %d: records in order", iter);
+                cr_assert_leq((size_t)rec->off + rec->len, len, "iteration %d", iter);
+                after = rec->off + rec->len;
+                for (size_t f = 0; f < nf[i] && f < MAX_FIELDS; f++) {
+                    const csv_span *c = &cells[f * batch + i];
+                    cr_assert(c->off >= rec->off && c->off + c->len <= after,
+                              "iteration %d: field %zu inside its record", iter, f);
+                }
+                if (rw[i]) { rewritten++; continue; }
+                plain++;
+                cr_assert(memcmp(buf + rec->off, data + rec->off, rec->len) == 0,
+                          "iteration %d: a record not rewritten keeps its bytes", iter);
+                tokenized alone = tokenize_with(data + rec->off, rec->len, delim, 0);
+                tokenized here;
+                memset(&here, 0, sizeof here);
+                size_t used = 0;
+                const char *ptr[MAX_FIELDS];
+                uint32_t flen[MAX_FIELDS];
+                for (size_t f = 0; f < MAX_FIELDS; f++) {
+                    ptr[f] = buf + cells[f * batch + i].off;
+                    flen[f] = cells[f * batch + i].len;
+                }
+                render(&here, &used, ptr, flen, nf[i], 0);
+                here.text[used] = '\0';
+                cr_assert_str_eq(alone.text, here.text, "iteration %d: read alone", iter);
+            }
+        } while (st == CSV_RECORD);
+        free(buf);
+    }
+    cr_assert(rewritten > 100 && plain > 1000, "both kinds met: %d rewritten, %d plain",
+              rewritten, plain);
 }
 
 /* --- other delimiters ------------------------------------------------------- */

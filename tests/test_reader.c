@@ -338,7 +338,8 @@ static void rows_agree(const char *data, size_t len, uint64_t offset, uint64_t s
     uint32_t nf[8];
     uint64_t line[8];
     cr_assert_leq(max_rows, 8);
-    csv_rows rows = {cells, max_rows, width, 0, max_rows, nf, line, b, 0, 0};
+    csv_rows rows = {.cells = cells, .stride = max_rows, .width = width, .max_rows = max_rows,
+                     .nfields = nf, .line = line, .base = b};
     size_t got = 0;
     reader_status ys;
     do {

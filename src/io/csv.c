@@ -84,6 +84,7 @@ void csv_reader_init(csv_reader *r, char *data, size_t len, char delim)
     r->record_end = data;
     r->padded = 0;
     r->wide = 0;
+    r->rewrites = 0;
     r->mask_base = data;
     r->mask_bits = 0;
 }
@@ -345,6 +346,7 @@ fields_of(csv_reader *r, marks *mk, char *f, const char *base, csv_span *dst, si
             uint32_t flen;
             char *t = quoted(f + 1, end, delim, &flen, &r->lines);
             if (!t) { s = end; st = CSV_UNTERMINATED; goto done; }
+            r->rewrites++;
             KEEP(f + 1, flen);
             s = t;
         }
@@ -431,6 +433,7 @@ padded_rows(csv_reader *r, csv_rows *out, csv_record *rec)
         if (!rec && (size_t)(p - out->base) >= out->stop) { st = CSV_STOP; break; }
         size_t nf;
         char *after;
+        const uint64_t rewrites = r->rewrites;
         if (rec)
             st = record_fields(r, &m, p, rec, &nf, &after);
         else if (r->wide)
@@ -445,6 +448,11 @@ padded_rows(csv_reader *r, csv_rows *out, csv_record *rec)
         if ((size_t)(p - r->record_start) > out->max_record_bytes) { st = CSV_TOO_LONG; break; }
         out->nfields[out->rows] = (uint32_t)nf;
         out->line[out->rows] = r->record_line + 1;
+        if (out->records) {
+            out->records[out->rows].off = (uint32_t)(r->record_start - out->base);
+            out->records[out->rows].len = (uint32_t)(p - r->record_start);
+            out->rewritten[out->rows] = r->rewrites != rewrites;
+        }
         out->rows++;
     }
     r->pos = p;
@@ -475,7 +483,9 @@ static csv_status next_padded(csv_reader *r, csv_record *rec)
 {
     uint32_t nfields = 0;
     uint64_t line;
-    csv_rows one = {rec->spans, 1, rec->cap, 0, 1, &nfields, &line, NULL, SIZE_MAX, SIZE_MAX};
+    csv_rows one = {.cells = rec->spans, .stride = 1, .width = rec->cap, .max_rows = 1,
+                    .nfields = &nfields, .line = &line, .stop = SIZE_MAX,
+                    .max_record_bytes = SIZE_MAX};
     csv_status st = padded_rows(r, &one, rec);
     if (st != CSV_RECORD) return st;
     for (uint32_t i = 0; i < nfields; i++)

@@ -53,6 +53,9 @@ typedef struct {
     int padded;           /* CSV_READ_AHEAD bytes after end are readable */
     int wide;             /* csv_next_rows reads 32 bytes at a time (AVX2 and BMI1, where
                              the CPU has them); the same results either way */
+    uint64_t rewrites;    /* quoted fields copied down in place so far (doubled quotes,
+                             or text after the closing quote); other fields keep their
+                             bytes as written */
     const char *mask_base;  /* first byte of the current block (padded reader) */
     uint64_t mask_bits;     /* its delimiter, newline and quote positions not yet passed */
 } csv_reader;
@@ -112,6 +115,11 @@ typedef struct {
     const char *base;        /* spans count from here */
     size_t stop;             /* records that begin at base + stop or later are not read */
     size_t max_record_bytes; /* longest record kept */
+    csv_span *records;       /* per row, or NULL: the record's bytes, from its first
+                                (an opening quote included) to after its line end */
+    unsigned char *rewritten; /* per row, with records: 1 when a quoted field of the
+                                record was copied down in place (its bytes are then no
+                                longer as written), else 0 */
 } csv_rows;
 
 csv_status csv_next_rows(csv_reader *r, csv_rows *out);

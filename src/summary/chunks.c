@@ -51,12 +51,18 @@ static int grow_rows(chunks *w, job *j, csv_rows *rows)
     if (line) j->line = line;
     uint32_t *nf = realloc(j->nf, cap * sizeof *nf);
     if (nf) j->nf = nf;
-    if (!cells || !line || !nf) return -1;
+    csv_span *record = realloc(j->record, cap * sizeof *record);
+    if (record) j->record = record;
+    unsigned char *rewritten = realloc(j->rewritten, cap);
+    if (rewritten) j->rewritten = rewritten;
+    if (!cells || !line || !nf || !record || !rewritten) return -1;
     j->rows_cap = cap;
     rows->cells = j->cells;
     rows->stride = rows->max_rows = cap;
     rows->nfields = j->nf;
     rows->line = j->line;
+    rows->records = j->record;
+    rows->rewritten = j->rewritten;
     return 0;
 }
 
@@ -67,8 +73,9 @@ static void tokenize(chunks *w, job *j)
     j->repeated = 0;
     if (j->ck.len > UINT32_MAX - 64) { j->fault = FAULT_TOO_BIG; return; }
     reader_cursor_start(&j->cur, &j->ck, w->stop_at, j->first);
-    csv_rows rows = {j->cells, j->rows_cap, w->kept_fields, 0, j->rows_cap, j->nf, j->line,
-                     j->ck.data, 0, 0};
+    csv_rows rows = {.cells = j->cells, .stride = j->rows_cap, .width = w->kept_fields,
+                     .max_rows = j->rows_cap, .nfields = j->nf, .line = j->line,
+                     .base = j->ck.data, .records = j->record, .rewritten = j->rewritten};
     if (!j->rows_cap && grow_rows(w, j, &rows) != 0) { j->fault = FAULT_MEMORY; return; }
     reader_status rs = READER_RECORD;
     if (j->first && w->o.header) { /* the header, read by the reading thread: row 0, dropped */
@@ -518,7 +525,8 @@ void chunks_free(chunks *w)
     for (unsigned i = 0; i < w->nthreads; i++) pthread_join(w->threads[i], NULL);
     for (unsigned i = 0; w->jobs && i < w->nslots; i++) {
         job *j = &w->jobs[i];
-        free(j->buf); free(j->cells); free(j->line); free(j->row_key); free(j->nf);
+        free(j->buf); free(j->cells); free(j->line); free(j->record); free(j->rewritten);
+        free(j->row_key); free(j->nf);
         for (size_t t = 0; j->tg && t < w->nruns; t++) {
             job_target *jt = &j->tg[t];
             free(jt->row_cell); free(jt->row_class); free(jt->row_y); free(jt->row_has_y);

@@ -232,27 +232,27 @@ scan_status chunks_rows_of(chunks *w, job *j)
     const size_t kept = w->kept_fields, cap = j->rows_cap;
     for (size_t r = 0; r < j->rows; r++) {
         w->rows++;
-        /* The row's key for the copy prints: its bytes, wherever it lies,
-         * so that rows with the same key hold the same cells.  Bytes
-         * without a quote are the fields and their delimiters as written,
-         * which fix every cell.  With one, the tokenizer has unquoted
-         * fields in place and the bytes alone are ambiguous (a quoted
-         * first field holding the delimiter reads like two fields): the
-         * key is then seeded with where each field lies in them. */
-        const size_t nk = j->nf[r] < kept ? j->nf[r] : kept;
-        const csv_span *first = &j->cells[r], *last = &j->cells[(nk - 1) * cap + r];
-        const char *bytes = j->ck.data + first->off;
-        const size_t nbytes = last->off + last->len - first->off;
-        uint64_t places = 0;
-        if (memchr(bytes, '"', nbytes)) {
-            places = nk;
+        /* The row's key for the copy prints: the XXH3 of its record as
+         * written, so that rows with the same key hold the same cells (the
+         * delimiter seeds it: the same bytes split otherwise under another).
+         * A record whose quoted field the tokenizer copied down in place
+         * no longer holds its bytes as written, and those bytes alone are
+         * ambiguous (a doubled quote and a closing one read alike): its key
+         * is seeded with where each kept field lies, the seed's top bit set
+         * to keep it apart from any record as written. */
+        const csv_span *rec = &j->record[r];
+        uint64_t seed = (unsigned char)j->ck.delim;
+        if (j->rewritten[r]) {
+            const size_t nk = j->nf[r] < kept ? j->nf[r] : kept;
+            seed ^= nk << 8;
             for (size_t f = 0; f < nk; f++) {
                 const csv_span *x = &j->cells[f * cap + r];
-                places = (places ^ ((uint64_t)(x->off - first->off) << 32 | x->len)) *
-                         UINT64_C(0x9E3779B97F4A7C15);
+                seed = (seed ^ ((uint64_t)(x->off - rec->off) << 32 | x->len)) *
+                       UINT64_C(0x9E3779B97F4A7C15);
             }
+            seed |= UINT64_C(1) << 63;
         }
-        j->row_key[r] = XXH3_64bits_withSeed(bytes, nbytes, places);
+        j->row_key[r] = XXH3_64bits_withSeed(j->ck.data + rec->off, rec->len, seed);
         int ragged = j->nf[r] != w->o.width;
         uint64_t line = w->lines + j->line[r];
         for (size_t t = 0; t < w->nruns; t++) { /* the table's counts, in every summary */

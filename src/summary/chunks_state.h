@@ -78,8 +78,10 @@ typedef struct {
                                r], so that a column's task walks its own cells in order
                                (csv_next_rows) */
     uint64_t *line;         /* rows: line of each row, from the chunk's first */
-    uint64_t *row_key;      /* R: XXH3-64 of each row's kept fields, the bytes from the
-                               first one's start to the last one's end (copy prints) */
+    csv_span *record;       /* rows: each row's record as written (line end included) */
+    unsigned char *rewritten; /* rows: 1 when the tokenizer copied a quoted field of the
+                               row down in place */
+    uint64_t *row_key;      /* R: XXH3-64 of each row's record (copy prints, chunks_rows.c) */
     uint32_t *nf;           /* rows: fields of each row */
     /* R: one part per target (one when the scan has none) */
     job_target *tg;

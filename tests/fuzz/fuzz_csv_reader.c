@@ -280,6 +280,8 @@ static void check_rows(const uint8_t *s, size_t len, char delim, size_t width, s
     csv_span *cells = malloc(width * batch * sizeof *cells);
     uint32_t nf[3];
     uint64_t line[3];
+    csv_span records[3];
+    unsigned char rewritten[3];
     if (!plain || !padded || !cells || batch > 3) fault("out of memory");
     memcpy(plain, s, len);
     memcpy(padded, s, len);
@@ -289,7 +291,9 @@ static void check_rows(const uint8_t *s, size_t len, char delim, size_t width, s
     csv_reader_init_padded(&b, padded, len, delim);
     if (!wide) b.wide = 0;
     csv_record ra = {0};
-    csv_rows rows = {cells, batch, width, 0, batch, nf, line, padded, SIZE_MAX, SIZE_MAX};
+    csv_rows rows = {.cells = cells, .stride = batch, .width = width, .max_rows = batch,
+                     .nfields = nf, .line = line, .base = padded, .stop = SIZE_MAX,
+                     .max_record_bytes = SIZE_MAX, .records = records, .rewritten = rewritten};
     size_t k = 0;
     csv_status sb, sa = CSV_RECORD;
     do {
@@ -302,6 +306,17 @@ static void check_rows(const uint8_t *s, size_t len, char delim, size_t width, s
                 fault("rows record %zu: %u fields at line %llu, plain %zu at %llu", k, nf[i],
                       (unsigned long long)line[i], ra.nfields,
                       (unsigned long long)a.record_line + 1);
+            /* The record as written (the copy prints' row key): where the
+             * plain tokenizer found it, and its input bytes unless a quoted
+             * field was copied down. */
+            if (records[i].off != (size_t)(a.record_start - plain) ||
+                records[i].len != (size_t)(a.record_end - a.record_start))
+                fault("rows record %zu: record at %u, %u bytes; plain at %zu, %zu", k,
+                      records[i].off, records[i].len, (size_t)(a.record_start - plain),
+                      (size_t)(a.record_end - a.record_start));
+            const csv_span *rec = &records[i];
+            if (!rewritten[i] && memcmp(padded + rec->off, s + rec->off, rec->len))
+                fault("rows record %zu: not rewritten, yet its bytes changed", k);
             for (size_t f = 0; f < width; f++) {
                 const csv_span *x = &cells[f * batch + i];
                 size_t want = f < ra.nfields ? ra.fields[f].len : 0;
