@@ -124,10 +124,11 @@ static scan_status target_row(chunks *w, job *j, size_t t, size_t r, const char 
             jt->row_cell[r] = jt->row_class[r] = k;
             return SCAN_OK;
         }
-        /* One class too many: a numeric target continues as a regression
-         * target, a text one cannot. */
-        int numeric = kind != NUMBER_TEXT && s->opt.task != TASK_CLASSIFY;
-        for (uint32_t c = 0; numeric && c < s->nclasses; c++) numeric = summary_class_is_number(s, c);
+        /* One class too many: a target of numbers continues as a regression
+         * target (its few text cells, this one too, then without a value),
+         * a text one cannot. */
+        int numeric = s->opt.task != TASK_CLASSIFY &&
+                      summary_classes_mostly_numbers(s, kind != NUMBER_TEXT, kind == NUMBER_TEXT);
         if (!numeric)
             return too_many_classes(w, s, w->lines + j->line[r]);
         /* The rows before end a block; the columns convert before the next. */

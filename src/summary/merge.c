@@ -57,8 +57,6 @@ int summary_class_conversion(summary *s, const number_decimal *frame, uint32_t *
 int summary_drop_classes(summary *s)
 {
     if (!s->has_classes) return 0;
-    for (uint32_t c = 0; c < s->nclasses; c++)
-        if (!summary_class_is_number(s, c)) return -1; /* a text target cannot become numeric */
     uint32_t *map;
     double *y;
     if (summary_class_conversion(s, target_frame(s), &map, &y) != 0) return -1;
@@ -296,13 +294,15 @@ static int map_classes(summary *into, const summary *from, uint32_t *map)
     return 0;
 }
 
-/* 1 when every class of s is a number, so that its classes can be dropped
- * (a text target cannot continue as a regression target). */
-static int classes_numeric(const summary *s)
+/* 1 when the classes of a and b can be dropped: the scan's rule at the
+ * class limit, over the target cells of both (a text target cannot continue
+ * as a regression target).  The target column counts every target cell,
+ * whether its summary kept classes or not. */
+static int targets_numeric(const summary *a, const summary *b)
 {
-    for (uint32_t c = 0; c < s->nclasses; c++)
-        if (!summary_class_is_number(s, c)) return 0;
-    return 1;
+    const summary_column *x = &a->cols[a->target], *y = &b->cols[b->target];
+    return summary_mostly_numbers(x->mom.n + x->non_finite + y->mom.n + y->non_finite,
+                                  x->non_numeric + y->non_numeric);
 }
 
 static summary_status out_of_memory(char *err, size_t errlen)
@@ -336,7 +336,7 @@ static summary_status fold(summary *into, summary *from, char *err, size_t errle
     /* Classes: both kept, or neither (a side that dropped them wins). */
     if (into->has_classes != from->has_classes) {
         summary *keeper = into->has_classes ? into : from;
-        if (!classes_numeric(keeper)) {
+        if (!targets_numeric(into, from)) {
             snprintf(err, errlen, "target '%s': one summary has more than %u classes and the "
                      "target is not numeric", into->opt.target, into->opt.max_classes);
             return SUMMARY_ERR_INCOMPATIBLE;
@@ -352,7 +352,7 @@ static summary_status fold(summary *into, summary *from, char *err, size_t errle
         if (rc > 0) {
             free(map);
             map = NULL;
-            if (!classes_numeric(into) || !classes_numeric(from)) {
+            if (!targets_numeric(into, from)) {
                 snprintf(err, errlen, "target '%s': together the summaries have more than %u "
                          "classes (the class limit); rescan with a larger {max_classes} or with "
                          "{task=regress}",

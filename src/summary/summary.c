@@ -107,6 +107,23 @@ int summary_class_is_number(const summary *s, uint32_t c)
     return number_parse(label, strlen(label), &d) == NUMBER_NONFINITE;
 }
 
+int summary_mostly_numbers(uint64_t numbers, uint64_t text)
+{
+    /* In 128 bits, so that no count can wrap. */
+    unsigned __int128 all = (unsigned __int128)numbers + text;
+    return all > 0 && (unsigned __int128)numbers * 100 >= all * SUMMARY_TARGET_NUMBER_PERCENT;
+}
+
+int summary_classes_mostly_numbers(const summary *s, uint64_t more_numbers, uint64_t more_text)
+{
+    uint64_t numbers = more_numbers, text = more_text; /* rows: at most 2^53 */
+    for (uint32_t c = 0; c < s->nclasses; c++) {
+        if (summary_class_is_number(s, c)) numbers += s->class_rows[c];
+        else text += s->class_rows[c];
+    }
+    return summary_mostly_numbers(numbers, text);
+}
+
 uint32_t summary_class_of(summary *s, uint64_t h, const char *text, size_t len,
                           const number_decimal *dec)
 {

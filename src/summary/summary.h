@@ -254,15 +254,28 @@ uint32_t summary_class_of(summary *s, uint64_t h, const char *text, size_t len,
  * regression target (a class that is not finite then has no target cell,
  * as a row whose target is not finite). */
 int summary_class_is_number(const summary *s, uint32_t c);
+/* The share of a target's cells that must be numbers (finite or not) for
+ * it to drop its classes at the class limit and go on as a regression
+ * target: the default of the readers' kind rule.  Its text cells then have
+ * no target value, as a row whose target is missing. */
+#define SUMMARY_TARGET_NUMBER_PERCENT 99
+/* 1 when numbers are at least SUMMARY_TARGET_NUMBER_PERCENT of numbers +
+ * text, exactly; else 0. */
+int summary_mostly_numbers(uint64_t numbers, uint64_t text);
+/* The same over the rows in s's classes (summary_class_is_number) and
+ * `more_numbers` and `more_text` rows not yet in a class: the scan's test at
+ * the class limit, on the rows read so far. */
+int summary_classes_mostly_numbers(const summary *s, uint64_t more_numbers, uint64_t more_text);
 /* Adds class K + 1 without looking for h among the classes (the reader,
  * which checks uniqueness once for all).  0, or -1 past max_classes or when
  * out of memory. */
 int summary_append_class(summary *s, uint64_t h, const char *text, size_t len,
                          const number_decimal *dec);
-/* Drops the class accumulators of a numeric target (it continues as a
- * regression target): bucket cells and per-value tables are converted
- * exactly from class counts to target cells.  -1 on OOM or for a text
- * target. */
+/* Drops the class accumulators of a target (it continues as a regression
+ * target): bucket cells and per-value tables are converted exactly from
+ * class counts to target cells; a class that is not a finite number gets
+ * none, as a row whose target is missing.  The caller decides that the
+ * target is numeric enough (summary_mostly_numbers).  -1 on OOM. */
 int summary_drop_classes(summary *s);
 /* The regression cell of a finite target value, adding it to the cell table
  * (which may renumber the cells: a new epoch, see summary/tcells.h).  0 when

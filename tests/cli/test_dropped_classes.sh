@@ -89,3 +89,61 @@ if "$SHEAF" scan -q "$T/pinf.csv" --target body_mass_g --max-classes 20 -o "$T/p
 else
     fail dropped_classes.non_finite_classes_dropped "scan: $(err_text)"
 fi
+
+# A stray text cell in a target of measures (300 distinct values, one 'n/a '
+# with a trailing space, so text): the target continues as a regression
+# target whether the cell comes before the class limit or after it, and
+# shards of the file merge (an early text class made the scan fail, exit 3,
+# and the merge of the shards refused, exit 5).  Reference: Pearson r of x
+# and y over the rows whose y is a number, scipy.stats.pearsonr; sheaf's r
+# to 1e-12.  More than 1% text when the limit is met is a text target still.
+cat >"$T/stray.py" <<'EOF2'
+import sys
+at, out = int(sys.argv[1]), sys.argv[2]
+texts = [int(a) for a in sys.argv[3:]] or [at]
+with open(out, "w") as f:
+    f.write("y,x\n")
+    for i in range(300):
+        f.write(("n/a " if i in texts else str(i / 2)) + "," + str((i * 7) % 17 + i / 40) + "\n")
+EOF2
+cat >"$T/stray_r.py" <<'EOF2'
+import json, sys
+import pandas as pd
+from scipy.stats import pearsonr
+d = pd.read_csv(sys.argv[2], keep_default_na=False, dtype=str)
+y = pd.to_numeric(d["y"], errors="coerce")
+ok = y.notna()
+ref = pearsonr(d["x"][ok].astype(float), y[ok]).statistic
+s = json.load(open(sys.argv[1]))
+r = s["features"][0]["tests"]["corr_f"]["r"]
+if abs(r - ref) > 1e-12:
+    print("r %r, scipy %r" % (r, ref))
+EOF2
+for at in 3 298; do
+    "$PY" "$T/stray.py" $at "$T/stray$at.csv"
+    if "$SHEAF" scan -q "$T/stray$at.csv" --target y -o "$T/stray$at.sheaf" 2>"$T/err" &&
+        "$SHEAF" screen "$T/stray$at.sheaf" --format json >"$T/stray$at.json" 2>"$T/err"; then
+        "$PY" "$T/stray_r.py" "$T/stray$at.json" "$T/stray$at.csv" >"$T/check" 2>&1
+        check "dropped_classes.stray_text_in_row_$at" "$(tr '\n' '|' <"$T/check")" \
+            holds '[ ! -s "$T/check" ] && [ "$(jget "$T/stray$at.sheaf" "[c for c in d[\"columns\"] if c[\"name\"] == \"y\"][0][\"non_numeric\"]")" = 1 ]'
+    else
+        fail "dropped_classes.stray_text_in_row_$at" "$(err_text)"
+    fi
+    ok=1
+    for i in 1 2; do
+        "$SHEAF" scan -q "$T/stray$at.csv" --shard $i/2 --target y -o "$T/stray$at.$i.sheaf" \
+            2>"$T/err" || ok=0
+    done
+    if [ $ok = 1 ] && "$SHEAF" merge "$T/stray$at.1.sheaf" "$T/stray$at.2.sheaf" \
+        -o "$T/stray$at.m.sheaf" 2>"$T/err"; then
+        info_same "dropped_classes.stray_text_in_row_${at}_shards_merge" "$T/stray$at.sheaf" \
+            "$T/stray$at.m.sheaf"
+    else
+        fail "dropped_classes.stray_text_in_row_${at}_shards_merge" "scan or merge: $(err_text)"
+    fi
+done
+# Four text cells among the first 257 rows (1.6%): a text target at the limit.
+"$PY" "$T/stray.py" 0 "$T/stray4.csv" 3 10 20 30
+run "$SHEAF" scan -q "$T/stray4.csv" --target y -o "$T/stray4.sheaf"
+check dropped_classes.text_share_past_one_percent_is_a_text_target "exit $RC: $(err_text)" \
+    holds '[ $RC = 3 ] && grep -q "more than 256 classes" "$T/err" && [ ! -e "$T/stray4.sheaf" ]'
