@@ -361,6 +361,40 @@ Test(pca_fit, exclude_and_explicit_lists)
     summary_free(s);
 }
 
+Test(pca, a_variance_past_the_double_range_is_out_of_range_not_constant)
+{
+    /* x: 0..49 and one 1e300 (variance about 2e598, inf in a double, as
+     * pandas' Series.var() gives it); a and b ordinary.  Left out as
+     * out_of_range, and an error when named, in either basis. */
+    char text[4096];
+    size_t used = (size_t)snprintf(text, sizeof text, "a,b,x\n");
+    for (int i = 0; i < 51; i++) {
+        char x[16];
+        snprintf(x, sizeof x, "%d", i);
+        used += (size_t)snprintf(text + used, sizeof text - used, "%d,%d,%s\n", i % 9,
+                                 (i * 7) % 11, i == 50 ? "1e300" : x);
+    }
+    summary *s = scan_text(text, NULL);
+    pca_options o;
+    pca_options_defaults(&o);
+    pca_result *r;
+    char err[256];
+    cr_assert_eq(pca_fit(s, &o, &r, err, sizeof err), PCA_OK, "%s", err);
+    cr_assert_eq(r->p, 2);
+    cr_assert_eq(r->nleft, 1);
+    cr_assert_eq(r->left[0].reason, PCA_LEFT_OUT_OF_RANGE, "%s",
+                 pca_reason_name(r->left[0].reason));
+    cr_assert_str_eq(pca_reason_name(r->left[0].reason), "out_of_range");
+    pca_result_free(r);
+    o.columns = "a,x";
+    for (int basis = 0; basis < 2; basis++) {
+        o.basis = basis ? PCA_BASIS_COVARIANCE : PCA_BASIS_CORRELATION;
+        cr_assert_eq(pca_fit(s, &o, &r, err, sizeof err), PCA_ERR_USAGE);
+        cr_assert(strstr(err, "beyond the range") && !strstr(err, "constant"), "%s", err);
+    }
+    summary_free(s);
+}
+
 Test(pca_fit, covariance_basis_trace_is_the_sum_of_variances)
 {
     summary *s = scan_text(TABLE, "y");

@@ -60,6 +60,7 @@ const char *pca_reason_name(pca_reason r)
     case PCA_LEFT_CATEGORICAL: return "categorical";
     case PCA_LEFT_EMPTY: return "empty";
     case PCA_LEFT_CONSTANT: return "constant";
+    case PCA_LEFT_OUT_OF_RANGE: return "out_of_range";
     case PCA_LEFT_ID_LIKE: return "ID-like";
     case PCA_LEFT_EXCLUDED: return "excluded";
     }
@@ -296,6 +297,8 @@ static int unusable(const summary *s, size_t j, const pca_options *o, int explic
     if (numbers < 2) return PCA_LEFT_EMPTY;
     double var = summary_variance(s, j);
     double distinct = summary_distinct(s, j, NULL);
+    /* Spread too wide for a double (a NaN or infinite variance): not constant. */
+    if (distinct > 1 && !(var < INFINITY) && var != 0) return PCA_LEFT_OUT_OF_RANGE;
     if (!(var > 0) || distinct <= 1) {
         /* A covariance basis can hold a constant column that was asked for. */
         if (explicit_choice && o->basis == PCA_BASIS_COVARIANCE && var == 0) return 0;
@@ -349,6 +352,7 @@ static const char *why_unusable(int reason, pca_basis basis)
     case PCA_LEFT_CONSTANT:
         return basis == PCA_BASIS_CORRELATION ? "is constant (it has no correlation)"
                                               : "is constant";
+    case PCA_LEFT_OUT_OF_RANGE: return "has a variance beyond the range of a double";
     }
     return "cannot be used";
 }

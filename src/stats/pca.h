@@ -37,6 +37,7 @@ typedef enum {
     PCA_LEFT_CATEGORICAL,  /* categorical, or declared categorical at scan time */
     PCA_LEFT_EMPTY,        /* fewer than two finite numbers */
     PCA_LEFT_CONSTANT,     /* variance 0, or a single distinct value */
+    PCA_LEFT_OUT_OF_RANGE, /* distinct values whose variance passes the double range */
     PCA_LEFT_ID_LIKE,      /* ID-like by validity_id_like, the rule screen uses */
     PCA_LEFT_EXCLUDED      /* named in `exclude` */
 } pca_reason;
@@ -93,15 +94,15 @@ void pca_options_defaults(pca_options *o);
  * has at least two numbers, is not constant and not ID-like, without the
  * target unless with_target; the others are listed in `left`.  An explicit
  * list uses the named columns in summary order (the target too when named);
- * a name that is not a column, or is categorical, empty or (correlation
- * basis) constant, is an error.  At least one column must remain.
+ * a name that is not a column, or is categorical, empty, out of range or
+ * (correlation basis) constant, is an error.  At least one column must remain.
  * Returns PCA_OK with *out set, or a status with a message in err. */
 pca_status pca_fit(const summary *s, const pca_options *o, pca_result **out, char *err,
                    size_t errlen);
 void pca_result_free(pca_result *r);
 
 /* The name of a reason ("target", "categorical", "empty", "constant",
- * "ID-like", "excluded"). */
+ * "out_of_range", "ID-like", "excluded"). */
 const char *pca_reason_name(pca_reason r);
 const char *pca_basis_name(pca_basis b);
 
