@@ -63,8 +63,9 @@ int cmd_project(int argc, char **argv)
         "principal components of the summary (the same components `sheaf pca` reports\n"
         "with the same options) as CSV. Each value is standardised with the summary's\n"
         "mean and sample standard deviation (centred only with --basis covariance); a\n"
-        "missing or non-numeric cell counts as the mean. A failed run leaves no -o file;\n"
-        "on standard output, the rows written before the failure stay (exit code != 0).",
+        "missing, non-numeric or non-finite cell counts as the mean. A failed run leaves\n"
+        "no -o file; on standard output, the rows written before the failure stay (exit\n"
+        "code != 0).",
         opts,
         "  $ sheaf project day.csv.gz --summary fleet.sheaf -k 3 --carry drone_id >pc.csv\n"
         "  $ sheaf project flights.csv --summary - -o - < fleet.sheaf | head\n"};

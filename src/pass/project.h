@@ -3,7 +3,8 @@
  * The data files are streamed again through the one record reader
  * (io/reader.h): each file's first record gives the position of every basis
  * column by name (named as the scan names them), each cell is parsed
- * (io/number; a missing or non-numeric cell counts as the mean), blocks of
+ * (io/number; a missing, non-numeric or non-finite cell counts as the
+ * mean), blocks of
  * BLOCK_ROWS rows are standardised and multiplied by the loadings
  * (pca_project: cblas_dgemm), and the scores are written as CSV: the carried
  * columns, then PC1..PCk.  Chunks are scored on worker threads
