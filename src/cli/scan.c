@@ -59,6 +59,25 @@ static void pause_in_checkpoint(void *ctx, uint64_t number)
     sleep(60);
 }
 
+/* The next spelling of a --missing list, cut from *at in place: commas
+ * separate spellings; a backslash before a comma makes the comma part of
+ * the spelling (1\,5), two backslashes are one, and any other backslash is
+ * itself.  Empty spellings are skipped; NULL at the end. */
+static char *missing_next(char **at)
+{
+    char *p = *at;
+    while (p && *p == ',') p++;
+    if (!p || !*p) return NULL;
+    char *start = p, *out = p;
+    for (; *p && *p != ','; p++) {
+        if (*p == '\\' && (p[1] == ',' || p[1] == '\\')) p++;
+        *out++ = *p;
+    }
+    *at = *p ? p + 1 : NULL;
+    *out = '\0';
+    return start;
+}
+
 int cmd_scan(int argc, char **argv)
 {
     const char *out = NULL, *delim = NULL, *chunk = NULL, *maxrec = NULL, *missing = NULL;
@@ -88,8 +107,8 @@ int cmd_scan(int argc, char **argv)
         {"mem", 0, "SIZE", "memory the scan may add: co-moments and chunk buffers checked before reading, everything after each chunk (default: half of RAM)",
          &mem, NULL},
         {"missing", 0, "S1,S2,..",
-         "missing-value spellings, any letter case (default NA,N/A,null,NULL,None,-,?)", &missing,
-         NULL},
+         "missing-value spellings, any letter case (default NA,N/A,null,NULL,None,-,?); \\, "
+         "puts a comma inside one", &missing, NULL},
         {"max-levels", 0, "N", "exact value counts per column before overflow (default 1024)",
          &levels, NULL},
         {"bucket-budget", 0, "N", "occupied value buckets per column (default 2048)", &budget, NULL},
@@ -222,8 +241,8 @@ int cmd_scan(int argc, char **argv)
     }
     if (missing) {
         summary_options_free(&o.opt); /* the target is set below */
-        char *copy = strdup(missing);
-        for (char *t = strtok(copy, ","); t; t = strtok(NULL, ",")) {
+        char *copy = strdup(missing), *next = copy;
+        for (char *t; (t = missing_next(&next));) {
             if (o.opt.n_missing == SUMMARY_MAX_MISSING) {
                 cli_error("scan", "--missing takes at most %d spellings", SUMMARY_MAX_MISSING);
                 free(copy);

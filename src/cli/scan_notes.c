@@ -29,25 +29,53 @@ static const char *single_token(const summary *s, size_t col)
     return strlen(t) < SUMMARY_EXAMPLE_BYTES ? t : NULL;
 }
 
+/* The --missing list that adds token to the summary's spellings, as one
+ * shell word: each spelling with its commas and backslashes escaped
+ * (scan.c, missing_next), the whole in single quotes.  0, or -1 when a
+ * spelling holds a control byte or the list does not fit. */
+static int missing_list(char *out, size_t cap, const summary *s, const char *token)
+{
+    size_t used = 0;
+    uint32_t n = summary_missing_spellings(s);
+#define PUT(c)                                                                                 \
+    do {                                                                                       \
+        if (used + 1 >= cap) return -1;                                                        \
+        out[used++] = (c);                                                                     \
+    } while (0)
+    PUT('\'');
+    for (uint32_t i = 0; i <= n; i++) {
+        const char *t = i < n ? summary_missing_spelling(s, i) : token;
+        if (i) PUT(',');
+        for (; *t; t++) {
+            if ((unsigned char)*t < 0x20 || *t == 0x7f) return -1;
+            if (*t == ',' || *t == '\\') PUT('\\');
+            if (*t == '\'') { /* end the quotes, a quoted quote, open again */
+                PUT('\''); PUT('\\'); PUT('\''); PUT('\'');
+            } else {
+                PUT(*t);
+            }
+        }
+    }
+    PUT('\'');
+#undef PUT
+    out[used] = '\0';
+    return 0;
+}
+
 static void token_warning(FILE *f, const summary *s, size_t col, const char *token)
 {
     uint64_t text = summary_non_numeric(s, col), present = summary_present(s, col);
-    char shown[SUMMARY_EXAMPLE_BYTES * 2 + 1], list[SUMMARY_MAX_MISSING * 48 + 64];
+    char shown[SUMMARY_EXAMPLE_BYTES * 2 + 1], list[SUMMARY_MAX_MISSING * 4 * 48 + 256];
     shown_text(shown, sizeof shown, token);
-    size_t used = 0;
-    for (uint32_t i = 0; i < summary_missing_spellings(s) && used < sizeof list - 48; i++)
-        used += (size_t)snprintf(list + used, sizeof list - used, "%.40s,",
-                                 summary_missing_spelling(s, i));
-    snprintf(list + used, sizeof list - used, "%s", shown);
     fprintf(f,
             "sheaf scan: warning: column '%s': %llu of its %llu present cells (%.1f%%) are '%s' and the "
             "rest numbers, so it is read as categorical; ",
             summary_name(s, col), (unsigned long long)text, (unsigned long long)present,
             100.0 * (double)text / (double)present, shown);
-    if (strchr(token, ',') || strchr(token, '\'') || strchr(token, ' '))
-        fprintf(f, "if '%s' means a missing value, name it with --missing (quoted for the shell)\n",
-                shown);
-    else fprintf(f, "if '%s' means a missing value, scan again with --missing %s\n", shown, list);
+    if (missing_list(list, sizeof list, s, token) == 0)
+        fprintf(f, "if '%s' means a missing value, scan again with --missing %s\n", shown, list);
+    else
+        fprintf(f, "if '%s' means a missing value, name it with --missing\n", shown);
 }
 
 static void mixed_note(FILE *f, const summary *s, size_t col, double numeric_share)
