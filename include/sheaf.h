@@ -17,6 +17,7 @@
  *   sheaf_summary_set  the summaries of a scan or file with several targets
  *   sheaf_screen       a screen's rows: which columns to keep and why
  *   sheaf_pca          a principal component fit
+ *   sheaf_drift        what changed between a baseline summary and a later one
  *
  * Errors.  Every call that can fail returns an int status (SHEAF_OK, 0, on
  * success, else a SHEAF_ERR_* code) or a pointer (NULL on failure), and
@@ -159,6 +160,20 @@ SHEAF_API int sheaf_options_set_max_classes(sheaf_options *o, uint32_t classes, 
 /* Memory the scan may add, in bytes (0: no limit); past it the scan fails
  * with SHEAF_ERR_MEMORY. */
 SHEAF_API int sheaf_options_set_memory_limit(sheaf_options *o, uint64_t bytes, sheaf_error *err);
+/* Occupied value buckets per column, 16 to 2^24 (default 2048); summaries
+ * merge only with the same budget. */
+SHEAF_API int sheaf_options_set_bucket_budget(sheaf_options *o, uint32_t buckets,
+                                              sheaf_error *err);
+/* Bytes per chunk, 64 to 4 GiB (default 256 KiB).  Figures may differ in
+ * their last bits between chunk sizes (as `sheaf scan --chunk-size`). */
+SHEAF_API int sheaf_options_set_chunk_size(sheaf_options *o, size_t bytes, sheaf_error *err);
+/* Scan only the records that start in byte range index (1..count) of count
+ * equal ranges of one file (docs/shards.md); from_top finds the range's
+ * first record by reading the file from its top.  0, 0, 0: the whole file
+ * (the default).  The summaries of the count shards merge to the whole
+ * file's. */
+SHEAF_API int sheaf_options_set_shard(sheaf_options *o, unsigned index, unsigned count,
+                                      int from_top, sheaf_error *err);
 /* Screen: the q-value at which a column is relevant (0 < q <= 1, default
  * 0.05); at most `top` columns kept (0: no cap); the |r| above which the
  * less relevant of two kept numeric columns is dropped (0 < r <= 1, 0.95). */
@@ -175,9 +190,10 @@ SHEAF_API int sheaf_options_set_pca_exclude(sheaf_options *o, const char *names,
 /* ---- scanning ---------------------------------------------------------------
  *
  * A scan reads any number of streams in turn (they must share the header;
- * the first fixes the columns) and is finished into a summary.  Errors are
- * sticky: after one, every later call on the scan returns the same code and
- * message.  The four ways in give the same summary, byte for byte, for the
+ * the first fixes the columns) and is finished into a summary.  Errors of
+ * reading and scanning are sticky: after one, every later call on the scan
+ * returns the same code and message (a refused argument leaves the scan as
+ * it was).  The four ways in give the same summary, byte for byte, for the
  * same bytes under the same stream name, however the bytes are split; only
  * a file by path also records its modification time (the others 0). */
 
@@ -272,19 +288,31 @@ SHEAF_API sheaf_summary *sheaf_summary_read_target(const char *path, const char 
 SHEAF_API sheaf_summary *sheaf_summary_read_memory(const void *data, size_t len, sheaf_error *err);
 /* into := into + from, exactly as a scan of both tables' bytes would count
  * (moments up to rounding).  The schemas and options must agree
- * (SHEAF_ERR_INCOMPATIBLE, naming the differences).  from stays the
- * caller's; it may be changed (its target classes dropped when into's were).
- * On failure into may be partly merged: discard it. */
+ * (SHEAF_ERR_INCOMPATIBLE, naming the differences).  Refused with
+ * SHEAF_ERR_INCOMPATIBLE, as `sheaf merge` refuses them: a source of from
+ * already counted in into (the same bytes: fingerprint, size and byte range,
+ * whatever the path), and byte-range shards of one file that overlap or
+ * took a wrong first record (docs/shards.md).  from stays the caller's; it
+ * may be changed (its target classes dropped when into's were).  On failure
+ * into may be partly merged: discard it. */
 SHEAF_API int sheaf_summary_merge(sheaf_summary *into, sheaf_summary *from, sheaf_error *err);
+/* Flags of the _flags merges. */
+#define SHEAF_MERGE_ALLOW_DUPLICATES 1u /* merge a source already counted (count it twice) */
+/* sheaf_summary_merge with flags (0: the same). */
+SHEAF_API int sheaf_summary_merge_flags(sheaf_summary *into, sheaf_summary *from, unsigned flags,
+                                        sheaf_error *err);
 
 /* Several targets.  A set owns its summaries until one is taken out. */
 SHEAF_API void sheaf_summary_set_free(sheaf_summary_set *set);
 SHEAF_API sheaf_summary_set *sheaf_summary_set_read(const char *path, sheaf_error *err);
 SHEAF_API int sheaf_summary_set_write(const sheaf_summary_set *set, const char *path,
                                       sheaf_error *err);
-/* Part by part; the sets must hold the same targets in the same order. */
+/* Part by part; the sets must hold the same targets in the same order.
+ * Refusals as sheaf_summary_merge's. */
 SHEAF_API int sheaf_summary_set_merge(sheaf_summary_set *into, sheaf_summary_set *from,
                                       sheaf_error *err);
+SHEAF_API int sheaf_summary_set_merge_flags(sheaf_summary_set *into, sheaf_summary_set *from,
+                                            unsigned flags, sheaf_error *err);
 SHEAF_API size_t sheaf_summary_set_count(const sheaf_summary_set *set);
 /* The target of part i (owned by the set); NULL when out of range, when the
  * part has no target, or after it was taken. */
@@ -423,8 +451,10 @@ SHEAF_API double sheaf_pca_loading(const sheaf_pca *f, size_t k, size_t j);
  * their bytes) with o's delimiter, header, record limit and threads (NULL:
  * the defaults), and write out_path ("-": standard output; a name ending in
  * .gz is gzip, .zst zstd) whole or not at all: a failed pass leaves nothing
- * under that name.  The output is the same bytes for any thread count.  The
- * arrays and strings passed in are read during the call only. */
+ * under that name.  The output is the same bytes for any thread count.  An
+ * output that is one of the inputs (the same file, through any link) is
+ * refused with SHEAF_ERR_USAGE.  The arrays and strings passed in are read
+ * during the call only. */
 
 /* The kept columns (nkeep header names, e.g. the screen's kept rows) of
  * every file, in their input order, each field's bytes and quoting as they
@@ -436,8 +466,9 @@ SHEAF_API int sheaf_trim_files(const sheaf_options *o, const char *const *keep, 
                                sheaf_error *err);
 /* CSV of the carried columns (ncarry header names, e.g. an ID; may be 0)
  * then PC1..PCk: the scores of every row on the first k components of fit
- * (1 <= k <= sheaf_pca_column_count), which must have been fit on s.  A
- * missing or non-numeric cell counts as its column's mean. */
+ * (1 <= k <= sheaf_pca_column_count), which must have been fit on s
+ * (SHEAF_ERR_USAGE when its columns are not s's, by index, name and mean).
+ * A missing, non-numeric or non-finite cell counts as its column's mean. */
 SHEAF_API int sheaf_project_files(const sheaf_summary *s, const sheaf_pca *fit, size_t k,
                                   const sheaf_options *o, const char *const *carry,
                                   size_t ncarry, const char *const *paths, size_t npaths,

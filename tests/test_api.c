@@ -727,10 +727,21 @@ Test(api, several_targets_in_one_pass)
     cr_expect_null(sheaf_summary_read_target(path, "tray_colour", &err));
     cr_expect_eq(err.code, SHEAF_ERR_TARGETS);
 
-    /* The whole set back, merged with itself: twice the rows. */
+    /* The whole set back, merged with itself: refused (its one source would
+     * count twice, as sheaf merge refuses it), then merged when asked to:
+     * twice the rows. */
     sheaf_summary_set *back = sheaf_summary_set_read(path, &err);
     cr_assert_not_null(back, "%s", err.message);
-    cr_assert_eq(sheaf_summary_set_merge(back, set, &err), SHEAF_OK, "%s", err.message);
+    err.code = 0;
+    cr_expect_eq(sheaf_summary_set_merge(back, set, &err), SHEAF_ERR_INCOMPATIBLE);
+    cr_expect(strstr(err.message, "already counted") &&
+                  strstr(err.message, "SHEAF_MERGE_ALLOW_DUPLICATES"),
+              "%s", err.message);
+    sheaf_summary_set_free(back);
+    back = sheaf_summary_set_read(path, &err);
+    cr_assert_not_null(back, "%s", err.message);
+    cr_assert_eq(sheaf_summary_set_merge_flags(back, set, SHEAF_MERGE_ALLOW_DUPLICATES, &err),
+                 SHEAF_OK, "%s", err.message);
     sheaf_summary *w = sheaf_summary_set_take(back, 0, &err);
     cr_assert_not_null(w, "%s", err.message);
     cr_expect_eq(sheaf_summary_rows(w), 96);
@@ -745,7 +756,8 @@ Test(api, several_targets_in_one_pass)
     sheaf_summary_free(soil);
     sheaf_summary_set_free(back);
 
-    /* sheaf_scan_finish refuses a scan of several targets. */
+    /* sheaf_scan_finish refuses a scan of several targets, naming the call
+     * that takes them, and the scan is not lost: the set is still there. */
     o = options("wilted,soil", 1);
     sc = sheaf_scan_create(o, &err);
     sheaf_options_free(o);
@@ -753,6 +765,11 @@ Test(api, several_targets_in_one_pass)
     err.code = 0;
     cr_expect_null(sheaf_scan_finish(sc, &err));
     cr_expect_eq(err.code, SHEAF_ERR_USAGE);
+    cr_expect(strstr(err.message, "sheaf_scan_finish_set"), "%s", err.message);
+    sheaf_summary_set *later = sheaf_scan_finish_set(sc, &err);
+    cr_expect_not_null(later, "%s", err.message);
+    if (later) cr_expect_eq(sheaf_summary_set_count(later), 2);
+    sheaf_summary_set_free(later);
     sheaf_scan_free(sc);
     sheaf_summary_set_free(set);
 }
@@ -1411,5 +1428,161 @@ Test(api, a_checkpoint_that_does_not_fit_is_refused)
     refused(o, paths, 2, NULL, 0, 0, SHEAF_ERR_USAGE, "sheaf_scan_files_checkpointed", NULL);
     refused(o, paths, 2, plain, 0, 0, SHEAF_ERR_USAGE, "hives-b.csv", NULL);
     refused(o, NULL, 0, ck, 0, 0, SHEAF_ERR_USAGE, "no input files", NULL);
+    sheaf_options_free(o);
+}
+
+/* ---- what the command line refuses, the library refuses too ---------------------- */
+
+Test(api, a_second_pass_never_writes_over_its_input)
+{
+    char in[128], link[128];
+    in_dir(in, sizeof in, "greenhouse.csv");
+    write_file(in, GREENHOUSE, sizeof GREENHOUSE - 1);
+    in_dir(link, sizeof link, "same.csv");
+    cr_assert_eq(symlink("greenhouse.csv", link), 0);
+    const char *paths[] = {in};
+    const char *keep[] = {"soil", "tray"};
+    sheaf_error err = {0, ""};
+    /* The input by its name and through a link: refused, the input whole. */
+    cr_expect_eq(sheaf_trim_files(NULL, keep, 2, paths, 1, in, &err), SHEAF_ERR_USAGE);
+    cr_expect(strstr(err.message, "refusing to overwrite an input"), "%s", err.message);
+    cr_expect_eq(sheaf_trim_files(NULL, keep, 2, paths, 1, link, &err), SHEAF_ERR_USAGE);
+    sheaf_summary *s = greenhouse();
+    sheaf_pca *f = sheaf_pca_fit(s, NULL, &err);
+    cr_assert_not_null(f, "%s", err.message);
+    cr_expect_eq(sheaf_project_files(s, f, 1, NULL, NULL, 0, paths, 1, in, &err),
+                 SHEAF_ERR_USAGE);
+    cr_expect(strstr(err.message, "refusing to overwrite an input"), "%s", err.message);
+    size_t n;
+    char *text = read_file(in, &n);
+    cr_expect(n == sizeof GREENHOUSE - 1 && memcmp(text, GREENHOUSE, n) == 0,
+              "the input changed");
+    free(text);
+    sheaf_pca_free(f);
+    sheaf_summary_free(s);
+}
+
+Test(api, a_fit_of_another_summary_is_refused_by_project)
+{
+    char in[128], out[128];
+    in_dir(in, sizeof in, "greenhouse.csv");
+    write_file(in, GREENHOUSE, sizeof GREENHOUSE - 1);
+    const char *paths[] = {in};
+    /* Narrower and wider tables than the greenhouse, and its own first half
+     * (the same columns, other means). */
+    static const char narrow[] = "a,b\n3,2\n1,7\n4,1\n1,8\n5,2\n9,8\n2,1\n6,8\n";
+    char wide[4096];
+    size_t w = (size_t)snprintf(wide, sizeof wide, "c0,c1,c2,c3,c4,c5,c6,c7,c8,c9\n");
+    for (int r = 0; r < 30; r++)
+        for (int c = 0; c < 10; c++)
+            w += (size_t)snprintf(wide + w, sizeof wide - w, "%d%c", (r * (c + 3)) % 17 + c,
+                                  c == 9 ? '\n' : ',');
+    const char *cut = GREENHOUSE;
+    for (int lines = 0; lines < 25; lines++) cut = strchr(cut, '\n') + 1;
+    sheaf_summary *others[3] = {scan_text(narrow, sizeof narrow - 1, NULL),
+                                scan_text(wide, w, NULL),
+                                scan_text(GREENHOUSE, (size_t)(cut - GREENHOUSE), "wilted")};
+    sheaf_summary *s = greenhouse();
+    sheaf_error err = {0, ""};
+    for (int i = 0; i < 3; i++) {
+        sheaf_pca *f = sheaf_pca_fit(others[i], NULL, &err);
+        cr_assert_not_null(f, "%d: %s", i, err.message);
+        err.code = 0;
+        cr_expect_eq(sheaf_project_files(s, f, 1, NULL, NULL, 0, paths, 1,
+                                         in_dir(out, sizeof out, "scores.csv"), &err),
+                     SHEAF_ERR_USAGE, "fit %d", i);
+        cr_expect(strstr(err.message, "not made on this summary"), "%d: %s", i, err.message);
+        cr_expect_neq(access(out, F_OK), 0, "a refused projection left %s", out);
+        sheaf_pca_free(f);
+        sheaf_summary_free(others[i]);
+    }
+    sheaf_summary_free(s);
+}
+
+Test(api, a_regression_on_a_text_target_is_refused)
+{
+    /* wilted is yes/no: `sheaf scan --task regress` and `sheaf screen` refuse it. */
+    sheaf_error err = {0, ""};
+    sheaf_options *o = options("wilted", 1);
+    cr_assert_eq(sheaf_options_set_task(o, SHEAF_TASK_REGRESS, &err), SHEAF_OK);
+    sheaf_scan *sc = sheaf_scan_create(o, &err);
+    cr_assert_not_null(sc, "%s", err.message);
+    cr_assert_eq(sheaf_scan_memory(sc, GREENHOUSE, sizeof GREENHOUSE - 1, "gh", &err), SHEAF_OK);
+    err.code = 0;
+    cr_expect_null(sheaf_scan_finish(sc, &err));
+    cr_expect_eq(err.code, SHEAF_ERR_USAGE);
+    cr_expect(strstr(err.message, "numeric target") && strstr(err.message, "wilted") &&
+                  strstr(err.message, "sheaf_options_set_task"),
+              "%s", err.message);
+    sheaf_scan_free(sc);
+    /* A summary of such a scan, read from a file another build wrote, is
+     * refused by the screen: here the task is declared on a text target of
+     * a summary the scan above would have made. */
+    sheaf_options_free(o);
+}
+
+Test(api, merges_refuse_what_the_command_refuses)
+{
+    char path[128];
+    in_dir(path, sizeof path, "greenhouse.csv");
+    write_file(path, GREENHOUSE, sizeof GREENHOUSE - 1);
+    sheaf_error err = {0, ""};
+    /* The same file twice: counted once, unless asked. */
+    sheaf_summary *s[2];
+    for (int i = 0; i < 2; i++) {
+        sheaf_options *o = options(NULL, 1);
+        sheaf_scan *sc = sheaf_scan_create(o, &err);
+        sheaf_options_free(o);
+        cr_assert_eq(sheaf_scan_path(sc, path, &err), SHEAF_OK, "%s", err.message);
+        s[i] = sheaf_scan_finish(sc, &err);
+        cr_assert_not_null(s[i], "%s", err.message);
+        sheaf_scan_free(sc);
+    }
+    err.code = 0;
+    cr_expect_eq(sheaf_summary_merge(s[0], s[1], &err), SHEAF_ERR_INCOMPATIBLE);
+    cr_expect(strstr(err.message, "already counted"), "%s", err.message);
+    sheaf_summary_free(s[0]);
+    s[0] = NULL;
+    /* Byte-range shards 1/2 and 2/3 overlap: refused; 1/2 and 2/2 merge to
+     * the whole file's rows. */
+    sheaf_summary *sh[3];
+    const unsigned idx[3][2] = {{1, 2}, {2, 3}, {2, 2}};
+    for (int i = 0; i < 3; i++) {
+        sheaf_options *o = options(NULL, 1);
+        cr_assert_eq(sheaf_options_set_shard(o, idx[i][0], idx[i][1], 0, &err), SHEAF_OK, "%s",
+                     err.message);
+        sheaf_scan *sc = sheaf_scan_create(o, &err);
+        sheaf_options_free(o);
+        cr_assert_eq(sheaf_scan_path(sc, path, &err), SHEAF_OK, "%s", err.message);
+        sh[i] = sheaf_scan_finish(sc, &err);
+        cr_assert_not_null(sh[i], "%s", err.message);
+        sheaf_scan_free(sc);
+    }
+    err.code = 0;
+    cr_expect_eq(sheaf_summary_merge(sh[0], sh[1], &err), SHEAF_ERR_INCOMPATIBLE);
+    cr_expect(strstr(err.message, "overlap"), "%s", err.message);
+    sheaf_summary_free(sh[0]);
+    sh[0] = NULL;
+    sheaf_options *o = options(NULL, 1);
+    cr_assert_eq(sheaf_options_set_shard(o, 1, 2, 0, &err), SHEAF_OK);
+    sheaf_scan *sc = sheaf_scan_create(o, &err);
+    sheaf_options_free(o);
+    cr_assert_eq(sheaf_scan_path(sc, path, &err), SHEAF_OK, "%s", err.message);
+    sh[0] = sheaf_scan_finish(sc, &err);
+    sheaf_scan_free(sc);
+    cr_assert_not_null(sh[0], "%s", err.message);
+    cr_expect_eq(sheaf_summary_merge(sh[0], sh[2], &err), SHEAF_OK, "%s", err.message);
+    cr_expect_eq(sheaf_summary_rows(sh[0]), sheaf_summary_rows(s[1]));
+    for (int i = 0; i < 3; i++) sheaf_summary_free(sh[i]);
+    sheaf_summary_free(s[1]);
+    /* The new setters check their ranges. */
+    o = options(NULL, 1);
+    cr_expect_eq(sheaf_options_set_shard(o, 3, 2, 0, &err), SHEAF_ERR_USAGE);
+    cr_expect_eq(sheaf_options_set_shard(o, 0, 0, 1, &err), SHEAF_ERR_USAGE);
+    cr_expect_eq(sheaf_options_set_shard(o, 0, 0, 0, &err), SHEAF_OK);
+    cr_expect_eq(sheaf_options_set_chunk_size(o, 63, &err), SHEAF_ERR_USAGE);
+    cr_expect_eq(sheaf_options_set_chunk_size(o, 4096, &err), SHEAF_OK);
+    cr_expect_eq(sheaf_options_set_bucket_budget(o, 15, &err), SHEAF_ERR_USAGE);
+    cr_expect_eq(sheaf_options_set_bucket_budget(o, 4096, &err), SHEAF_OK);
     sheaf_options_free(o);
 }

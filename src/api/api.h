@@ -55,6 +55,8 @@ void api_options_release(sheaf_options *o);
 
 /* The fit a PCA handle holds (owned by the handle). */
 const pca_result *api_pca_result(const sheaf_pca *fit);
+/* The name of the fit's basis column j (a copy the fit owns). */
+const char *api_pca_name(const sheaf_pca *fit, size_t j);
 
 /* A summary wrapped in a new handle (NULL when out of memory: s freed). */
 sheaf_summary *api_wrap(summary *s, sheaf_error *err);

@@ -13,7 +13,7 @@
 
 #include <stdlib.h>
 #include <string.h>
-#include <sys/stat.h>
+#include "out/sink.h"
 
 /* Refuses a checkpoint path that is one of the inputs (the same file by
  * device and inode, through any link), which the first checkpoint would
@@ -21,14 +21,11 @@
 static int checkpoint_is_input(const char *checkpoint, const char *const *paths, size_t npaths,
                                sheaf_error *err)
 {
-    struct stat ck, in;
-    if (stat(checkpoint, &ck) != 0 || !S_ISREG(ck.st_mode)) return SHEAF_OK;
-    for (size_t i = 0; i < npaths; i++)
-        if (stat(paths[i], &in) == 0 && in.st_dev == ck.st_dev && in.st_ino == ck.st_ino)
-            return api_fail(err, SHEAF_ERR_USAGE,
-                            "sheaf_scan_files_checkpointed: the checkpoint %s is the input %s",
-                            checkpoint, paths[i]);
-    return SHEAF_OK;
+    long i = sink_replaces_input(checkpoint, paths, npaths);
+    if (i < 0) return SHEAF_OK;
+    return api_fail(err, SHEAF_ERR_USAGE,
+                    "sheaf_scan_files_checkpointed: the checkpoint %s is the input %s", checkpoint,
+                    paths[i]);
 }
 
 sheaf_summary_set *sheaf_scan_files_checkpointed(const sheaf_options *o,

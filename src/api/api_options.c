@@ -48,6 +48,12 @@ static const struct { const char *key, *call; } SETTING_CALLS[] = {
     {"force", "sheaf_options_set_force"},
     {"no_header", "sheaf_options_set_header(0)"},
     {"max_levels", "sheaf_options_set_max_levels"},
+    {"bucket_budget", "sheaf_options_set_bucket_budget"},
+    {"chunk_size", "sheaf_options_set_chunk_size"},
+    {"shard", "sheaf_options_set_shard"},
+    {"shard_from_top", "sheaf_options_set_shard(..., from_top 1)"},
+    {"carry", "the carried names (sheaf_project_files)"},
+    {"read_target", "sheaf_summary_read_target"},
     {"missing", "sheaf_options_set_missing"},
     {"checkpoint", "a checkpoint (sheaf_scan_files_checkpointed)"},
     {"checkpoint_every", "checkpoint_bytes (sheaf_scan_files_checkpointed)"},
@@ -324,6 +330,42 @@ int sheaf_options_set_max_levels(sheaf_options *o, uint32_t levels, sheaf_error 
         return api_fail(err, SHEAF_ERR_USAGE,
                         "sheaf_options_set_max_levels: between 1 and 16777216, got %u", levels);
     o->scan.opt.max_levels = levels;
+    return SHEAF_OK;
+}
+
+int sheaf_options_set_bucket_budget(sheaf_options *o, uint32_t buckets, sheaf_error *err)
+{
+    if (!o) return no_options(err, "sheaf_options_set_bucket_budget");
+    if (buckets < 16 || buckets > (1u << 24))
+        return api_fail(err, SHEAF_ERR_USAGE,
+                        "sheaf_options_set_bucket_budget: between 16 and 16777216, got %u",
+                        buckets);
+    o->scan.opt.bucket_budget = buckets;
+    return SHEAF_OK;
+}
+
+int sheaf_options_set_chunk_size(sheaf_options *o, size_t bytes, sheaf_error *err)
+{
+    if (!o) return no_options(err, "sheaf_options_set_chunk_size");
+    if (bytes < 64 || (uint64_t)bytes > (UINT64_C(1) << 32))
+        return api_fail(err, SHEAF_ERR_USAGE,
+                        "sheaf_options_set_chunk_size: between 64 and 4 GiB, got %zu", bytes);
+    o->scan.chunk_bytes = bytes;
+    return SHEAF_OK;
+}
+
+int sheaf_options_set_shard(sheaf_options *o, unsigned index, unsigned count, int from_top,
+                            sheaf_error *err)
+{
+    if (!o) return no_options(err, "sheaf_options_set_shard");
+    if (count == 0 ? index != 0 || from_top : index < 1 || index > count)
+        return api_fail(err, SHEAF_ERR_USAGE,
+                        "sheaf_options_set_shard: index 1 to count, or 0 and 0 for the whole "
+                        "file (from_top only with a shard), got %u of %u",
+                        index, count);
+    o->scan.shard_index = index;
+    o->scan.shard_count = count;
+    o->scan.shard_from_top = from_top != 0;
     return SHEAF_OK;
 }
 

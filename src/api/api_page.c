@@ -37,8 +37,7 @@ SHEAF_API int sheaf_page_write(const sheaf_summary *s, const sheaf_summary *base
         drift_free(dr);
         return api_fail(err, SHEAF_ERR_MEMORY, "out of memory");
     }
-    const report_page p = {title ? title : "summary", NULL, dr, dr ? "the baseline" : NULL, NULL,
-                           0};
+    const report_page p = {title ? title : "summary", NULL, dr, NULL, NULL, 0};
     int w = report_files_write(r, &p, html_path, svg_dir, msg, sizeof msg);
     report_free(r);
     drift_free(dr);

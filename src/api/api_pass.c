@@ -5,10 +5,12 @@
 #include "api/api.h"
 
 #include <stdlib.h>
+#include <string.h>
 
 #include "out/sink.h"
 #include "pass/project.h"
 #include "pass/trim.h"
+#include "summary/access.h"
 
 /* The reading settings a pass shares with the scan: delimiter, header,
  * record limit, threads. */
@@ -30,6 +32,12 @@ static int check_lists(const char *call, const char *const *paths, size_t npaths
     for (size_t i = 0; i < npaths; i++)
         if (!paths[i]) return api_fail(err, SHEAF_ERR_USAGE, "%s: input %zu is NULL", call, i + 1);
     if (!out_path) return api_fail(err, SHEAF_ERR_USAGE, "%s: no output path (NULL)", call);
+    long same = sink_replaces_input(out_path, paths, npaths);
+    if (same >= 0)
+        return api_fail(err, SHEAF_ERR_USAGE,
+                        "%s: the output %s is the same file as the input %s; refusing to "
+                        "overwrite an input",
+                        call, strcmp(out_path, "-") ? out_path : "(standard output)", paths[same]);
     return SHEAF_OK;
 }
 
@@ -90,6 +98,18 @@ int sheaf_project_files(const sheaf_summary *s, const sheaf_pca *fit, size_t k,
     int rc = check_lists("sheaf_project_files", paths, npaths, out_path, err);
     if (rc != SHEAF_OK) return rc;
     const pca_result *r = api_pca_result(fit);
+    /* The fit must be s's: its columns s's by index and name, centred on
+     * s's means (a fit of another summary read other columns, or past the
+     * end of s's). */
+    for (size_t j = 0; j < r->p; j++) {
+        size_t c = r->cols[j];
+        if (c >= summary_columns(s->s) || strcmp(summary_name(s->s, c), api_pca_name(fit, j)) ||
+            !(summary_mean(s->s, c) == r->center[j]))
+            return api_fail(err, SHEAF_ERR_USAGE,
+                            "sheaf_project_files: the fit was not made on this summary (its "
+                            "column '%s' is not this summary's column %zu with the same mean)",
+                            api_pca_name(fit, j), c + 1);
+    }
     if (k == 0 || k > r->p)
         return api_fail(err, SHEAF_ERR_USAGE,
                         "sheaf_project_files: %zu components asked, the fit has 1 to %zu", k,

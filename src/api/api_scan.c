@@ -12,6 +12,7 @@
 #include <string.h>
 #include <sys/stat.h>
 
+#include "stats/validity.h"
 #include "summary/scan.h"
 
 
@@ -187,12 +188,34 @@ int sheaf_scan_stream(sheaf_scan *sc, FILE *f, const char *name, sheaf_error *er
     return scan_pulled(sc, name ? name : "(stream)", pull_stream, f, size, err);
 }
 
+/* 1 with SHEAF_ERR_USAGE when s's declared regression target is text, as
+ * `sheaf scan` refuses it (stats/validity.h: judged by screen's default
+ * kind rule). */
+static int task_misfit(const summary *s, sheaf_error *err)
+{
+    screen_options judged;
+    screen_options_defaults(&judged);
+    char msg[SHEAF_ERROR_BYTES] = "";
+    if (validity_task_fits(s, judged.numeric_share, msg, sizeof msg) == 0) return 0;
+    api_fail(err, SHEAF_ERR_USAGE, "%s", msg);
+    return 1;
+}
+
 sheaf_summary *sheaf_scan_finish(sheaf_scan *sc, sheaf_error *err)
 {
     if (unusable(sc, "sheaf_scan_finish", 0, err)) return NULL;
+    size_t n = scan_targets(sc->sc);
+    if (n > 1) { /* before anything is spent: the set can still be taken */
+        api_fail(err, SHEAF_ERR_USAGE,
+                 "sheaf_scan_finish: the scan has %zu targets; sheaf_scan_finish_set takes them "
+                 "all",
+                 n);
+        return NULL;
+    }
     sc->spent = 1;
     summary *s = scan_finish(sc->sc);
     if (!s) { finish_failed(sc, err); return NULL; }
+    if (task_misfit(s, err)) { summary_free(s); return NULL; }
     return api_wrap(s, err);
 }
 
@@ -202,5 +225,7 @@ sheaf_summary_set *sheaf_scan_finish_set(sheaf_scan *sc, sheaf_error *err)
     sc->spent = 1;
     summary_set *set = scan_finish_set(sc->sc);
     if (!set) { finish_failed(sc, err); return NULL; }
+    for (size_t t = 0; t < set->n; t++)
+        if (task_misfit(set->parts[t], err)) { summary_set_free(set); return NULL; }
     return api_wrap_set(set, err);
 }

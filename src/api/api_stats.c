@@ -8,6 +8,7 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "stats/validity.h"
 #include "summary/access.h"
 
 struct sheaf_screen {
@@ -51,6 +52,11 @@ sheaf_screen *sheaf_screen_run(const sheaf_summary *s, const sheaf_options *o, s
     screen_options so;
     if (o) so = o->screen;
     else screen_options_defaults(&so);
+    char msg[SHEAF_ERROR_BYTES] = "";
+    if (validity_task_fits(s->s, so.numeric_share, msg, sizeof msg) != 0) {
+        api_fail(err, SHEAF_ERR_USAGE, "%s", msg); /* as `sheaf screen` refuses it */
+        return NULL;
+    }
     sheaf_screen *w = calloc(1, sizeof *w);
     if (!w || !(w->r = screen_run(s->s, &so))) goto oom;
     size_t n = w->r->nfeatures;
@@ -246,3 +252,4 @@ double sheaf_pca_loading(const sheaf_pca *f, size_t k, size_t j)
 }
 
 const pca_result *api_pca_result(const sheaf_pca *fit) { return fit->r; }
+const char *api_pca_name(const sheaf_pca *fit, size_t j) { return fit->names[j]; }

@@ -9,6 +9,7 @@
 #include <string.h>
 
 #include "summary/access.h"
+#include "summary/shards.h"
 
 /* The kind rule of `screen` and `info` (screen_options_defaults). */
 #define NUMERIC_SHARE 0.99
@@ -93,13 +94,49 @@ sheaf_summary *sheaf_summary_read_memory(const void *data, size_t len, sheaf_err
     return api_wrap(s, err);
 }
 
+/* What sheaf merge refuses before a merge: a source of `from` already
+ * counted in `into` (unless SHEAF_MERGE_ALLOW_DUPLICATES). */
+static int counted_twice(const char *call, const summary *into, const summary *from,
+                         unsigned flags, sheaf_error *err)
+{
+    size_t k;
+    long d = flags & SHEAF_MERGE_ALLOW_DUPLICATES ? -1 : summary_duplicate_source(into, from, &k);
+    if (d < 0) return SHEAF_OK;
+    return api_fail(err, SHEAF_ERR_INCOMPATIBLE,
+                    "%s: source %s (fingerprint %016llx) is already counted (from %s); "
+                    "SHEAF_MERGE_ALLOW_DUPLICATES merges anyway",
+                    call, summary_source_at(from, (size_t)d)->path,
+                    (unsigned long long)summary_source_at(from, (size_t)d)->fingerprint,
+                    summary_source_at(into, k)->path);
+}
+
+/* And after it: the byte-range shards among the sources fit together
+ * (summary/shards.h; shards not yet checkable pass). */
+static int shards_fit(const char *call, const summary *s, sheaf_error *err)
+{
+    shard_check c;
+    size_t bad = 0;
+    char why[SHEAF_ERROR_BYTES - 64];
+    if (summary_shards_check(s, &c, NULL, &bad, why, sizeof why) == 0) return SHEAF_OK;
+    return api_fail(err, SHEAF_ERR_INCOMPATIBLE, "%s: %s", call, why);
+}
+
+int sheaf_summary_merge_flags(sheaf_summary *into, sheaf_summary *from, unsigned flags,
+                              sheaf_error *err)
+{
+    static const char call[] = "sheaf_summary_merge";
+    if (!into || !from) return no_summary(err, call);
+    if (into == from) return api_fail(err, SHEAF_ERR_USAGE, "%s: a summary merged into itself", call);
+    int rc = counted_twice(call, into->s, from->s, flags, err);
+    if (rc != SHEAF_OK) return rc;
+    char msg[SHEAF_ERROR_BYTES] = "";
+    rc = reported(summary_merge(into->s, from->s, msg, sizeof msg), msg, err);
+    return rc != SHEAF_OK ? rc : shards_fit(call, into->s, err);
+}
+
 int sheaf_summary_merge(sheaf_summary *into, sheaf_summary *from, sheaf_error *err)
 {
-    if (!into || !from) return no_summary(err, "sheaf_summary_merge");
-    if (into == from)
-        return api_fail(err, SHEAF_ERR_USAGE, "sheaf_summary_merge: a summary merged into itself");
-    char msg[SHEAF_ERROR_BYTES] = "";
-    return reported(summary_merge(into->s, from->s, msg, sizeof msg), msg, err);
+    return sheaf_summary_merge_flags(into, from, 0, err);
 }
 
 /* ---- sets ------------------------------------------------------------------- */
@@ -143,14 +180,24 @@ int sheaf_summary_set_write(const sheaf_summary_set *set, const char *path, shea
     return reported(summary_set_write(set->set, path, msg, sizeof msg), msg, err);
 }
 
+int sheaf_summary_set_merge_flags(sheaf_summary_set *into, sheaf_summary_set *from,
+                                  unsigned flags, sheaf_error *err)
+{
+    static const char call[] = "sheaf_summary_set_merge";
+    if (!whole(into, call, err) || !whole(from, call, err))
+        return err ? err->code : SHEAF_ERR_USAGE;
+    if (into == from) return api_fail(err, SHEAF_ERR_USAGE, "%s: a set merged into itself", call);
+    /* Every part holds the same sources: the first part's tell. */
+    int rc = counted_twice(call, into->set->parts[0], from->set->parts[0], flags, err);
+    if (rc != SHEAF_OK) return rc;
+    char msg[SHEAF_ERROR_BYTES] = "";
+    rc = reported(summary_set_merge(into->set, from->set, msg, sizeof msg), msg, err);
+    return rc != SHEAF_OK ? rc : shards_fit(call, into->set->parts[0], err);
+}
+
 int sheaf_summary_set_merge(sheaf_summary_set *into, sheaf_summary_set *from, sheaf_error *err)
 {
-    if (!whole(into, "sheaf_summary_set_merge", err) || !whole(from, "sheaf_summary_set_merge", err))
-        return err ? err->code : SHEAF_ERR_USAGE;
-    if (into == from)
-        return api_fail(err, SHEAF_ERR_USAGE, "sheaf_summary_set_merge: a set merged into itself");
-    char msg[SHEAF_ERROR_BYTES] = "";
-    return reported(summary_set_merge(into->set, from->set, msg, sizeof msg), msg, err);
+    return sheaf_summary_set_merge_flags(into, from, 0, err);
 }
 
 size_t sheaf_summary_set_count(const sheaf_summary_set *set) { return set ? set->set->n : 0; }

@@ -2,6 +2,7 @@
 #include "cli/cli.h"
 #include "cli/doc.h"
 #include "io/closest.h"
+#include "out/sink.h"
 #include "summary/summary.h"
 #include "summary/tempfile.h"
 #include "out/table.h"
@@ -256,32 +257,18 @@ long long cli_parse_size(const char *s)
     return (long long)(v * mult);
 }
 
-/* stat of a path, or of standard input or output for "-"; 0 or -1. */
-static int stat_of(const char *path, int std_fd, struct stat *st)
-{
-    if (!path || !strcmp(path, "-")) return fstat(std_fd, st);
-    return stat(path, st);
-}
-
 int cli_check_output(const char *cmd, const char *out, const char *const *inputs, size_t n)
 {
     if (out && !*out) {
         cli_error(cmd, "an output needs a name: got an empty one");
         return EXIT_USAGE;
     }
-    struct stat o;
-    if (stat_of(out, STDOUT_FILENO, &o) != 0 || !S_ISREG(o.st_mode)) return 0;
-    for (size_t i = 0; i < n; i++) {
-        struct stat in;
-        if (!inputs[i] || stat_of(inputs[i], STDIN_FILENO, &in) != 0) continue;
-        if (in.st_dev != o.st_dev || in.st_ino != o.st_ino) continue;
-        const char *on = out && strcmp(out, "-") ? out : "standard output";
-        const char *inn = strcmp(inputs[i], "-") ? inputs[i] : "standard input";
-        cli_error(cmd, "%s: is the same file as the input %s; refusing to overwrite an input", on,
-                  inn);
-        return EXIT_USAGE;
-    }
-    return 0;
+    long i = sink_replaces_input(out, inputs, n);
+    if (i < 0) return 0;
+    const char *on = out && strcmp(out, "-") ? out : "standard output";
+    const char *inn = strcmp(inputs[i], "-") ? inputs[i] : "standard input";
+    cli_error(cmd, "%s: is the same file as the input %s; refusing to overwrite an input", on, inn);
+    return EXIT_USAGE;
 }
 
 /* The directory (identity) and last name a path leads to, links followed. */

@@ -7,26 +7,6 @@
 #include "summary/access.h"
 #include "summary/shards.h"
 
-/* Index of the first source of `from` already counted in `into`, or -1.
- * Two records name the same bytes when fingerprint, size and byte range
- * agree (the path may differ: a copy of a file is still the same data). */
-static long duplicate_source(const summary *into, const summary *from, size_t *which)
-{
-    for (size_t i = 0; i < summary_source_count(from); i++)
-        for (size_t k = 0; k < summary_source_count(into); k++) {
-            const summary_source *a = summary_source_at(into, k), *b = summary_source_at(from, i);
-            /* A source that contributed no bytes or no rows (a night of a
-             * header alone) cannot be counted twice. */
-            if (b->raw_bytes == 0 || b->rows == 0) continue;
-            if (a->fingerprint == b->fingerprint && a->raw_bytes == b->raw_bytes &&
-                a->start_byte == b->start_byte && a->end_byte == b->end_byte) {
-                *which = k;
-                return (long)i;
-            }
-        }
-    return -1;
-}
-
 /* The byte-range shards among the merged sources fit together (summary/
  * shards.h): 0, or -1 after one line naming the shard and the command that
  * rescans it. */
@@ -91,7 +71,7 @@ int cmd_merge(int argc, char **argv)
         if (!acc) { acc = s; continue; }
         size_t k;
         /* Every part holds the same sources: the first part's tell. */
-        long d = allow_dup ? -1 : duplicate_source(acc->parts[0], s->parts[0], &k);
+        long d = allow_dup ? -1 : summary_duplicate_source(acc->parts[0], s->parts[0], &k);
         if (d >= 0) {
             cli_error("merge",
                       "%s: source %s (fingerprint %016llx) is already counted (from %s); "

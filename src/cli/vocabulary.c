@@ -45,6 +45,7 @@ static const struct {
     {"checkpoint", "--checkpoint"},
     {"checkpoint_every", "--checkpoint-every"},
     {"resume", "--resume"},
+    {"read_target", "--target"},
 };
 
 const char *cli_setting_option(const char *key, size_t len)

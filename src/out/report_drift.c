@@ -32,9 +32,10 @@ void report_drift_section(html_buf *b, const report_page *p)
 {
     const drift_result *d = p->drift;
     html_raw(b, "<section id=\"drift\"><h2>Drift</h2>\n<p class=\"read\">");
-    html_textf(b, "Against the baseline %s (%llu rows; this summary %llu rows): %zu of %zu columns drift, "
-                  "%zu of %zu correlation pairs moved. ",
-               p->base_name ? p->base_name : "summary", (unsigned long long)d->base_rows,
+    html_textf(b, "Against the baseline%s%s (%llu rows; this summary %llu rows): %zu of %zu "
+                  "columns drift, %zu of %zu correlation pairs moved. ",
+               p->base_name ? " " : "", p->base_name ? p->base_name : "",
+               (unsigned long long)d->base_rows,
                (unsigned long long)d->next_rows, d->drifting, d->ncolumns, d->npairs, d->pairs_compared);
     html_raw(b, "PSI is the population stability index over the baseline's decile bins (bar: 0 to 1; by "
                 "common practice, no source: below 0.1 no change, dashed line; 0.1 to 0.25 moderate; above "

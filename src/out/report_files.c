@@ -13,14 +13,7 @@
 /* 1 when path leads to one of the inputs (links followed). */
 static int is_input(const report_page *p, const char *path)
 {
-    struct stat o, in;
-    if (stat(path, &o) != 0 || !S_ISREG(o.st_mode)) return 0;
-    for (size_t i = 0; i < p->ninputs; i++) {
-        if (!p->inputs[i]) continue;
-        int got = strcmp(p->inputs[i], "-") ? stat(p->inputs[i], &in) : fstat(STDIN_FILENO, &in);
-        if (got == 0 && in.st_dev == o.st_dev && in.st_ino == o.st_ino) return 1;
-    }
-    return 0;
+    return sink_replaces_input(path, (const char *const *)p->inputs, p->ninputs) >= 0;
 }
 
 /* The outputs of one page: opened first, written, then all closed. */

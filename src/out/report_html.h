@@ -26,7 +26,7 @@ typedef struct {
     const char *summary_name; /* how the summary is named on the page (a path) */
     const char *made;         /* when the summary file was written (text), or NULL */
     const drift_result *drift; /* the drift from a baseline (stats/drift.h), or NULL */
-    const char *base_name;    /* how the baseline is named (with drift) */
+    const char *base_name;    /* how the baseline is named (with drift; NULL: unnamed) */
     const char *const *inputs; /* files no chart may be written over ("-": standard input) */
     size_t ninputs;
 } report_page;

@@ -6,6 +6,7 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <sys/stat.h>
 #include <unistd.h>
 #include <isa-l.h>
 #include <zstd.h>
@@ -40,6 +41,24 @@ static int ends_with(const char *s, const char *suffix)
 {
     size_t a = strlen(s), b = strlen(suffix);
     return a >= b && strcmp(s + a - b, suffix) == 0;
+}
+
+/* stat of a path, or of a standard descriptor for "-" or NULL; 0 or -1. */
+static int stat_of(const char *path, int std_fd, struct stat *st)
+{
+    if (!path || !strcmp(path, "-")) return fstat(std_fd, st);
+    return stat(path, st);
+}
+
+long sink_replaces_input(const char *path, const char *const *inputs, size_t n)
+{
+    struct stat o, in;
+    if (stat_of(path, STDOUT_FILENO, &o) != 0 || !S_ISREG(o.st_mode)) return -1;
+    for (size_t i = 0; i < n; i++)
+        if (inputs[i] && stat_of(inputs[i], STDIN_FILENO, &in) == 0 && in.st_dev == o.st_dev &&
+            in.st_ino == o.st_ino)
+            return (long)i;
+    return -1;
 }
 
 sink *sink_open(const char *path, char *err, size_t errlen)

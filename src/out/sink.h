@@ -20,6 +20,12 @@ typedef struct sink sink;
 
 /* NULL with a message naming the file on failure. */
 sink *sink_open(const char *path, char *err, size_t errlen);
+/* The index of the first of inputs[0..n) that is the regular file an
+ * output at path would replace (the same device and inode, links
+ * followed; "-" or NULL: standard output, an input "-" standard input),
+ * or -1: an output must not be written over its own input.  NULL inputs
+ * are skipped. */
+long sink_replaces_input(const char *path, const char *const *inputs, size_t n);
 /* Returns 0, or -1 once a write failed (the error is kept for sink_close). */
 int sink_write(sink *s, const void *data, size_t len);
 /* Room for n bytes written in place: returns where to write them (commit

@@ -34,6 +34,23 @@ const summary_source *summary_source_at(const summary *s, size_t i)
     return &s->sources[i];
 }
 
+long summary_duplicate_source(const summary *into, const summary *from, size_t *which)
+{
+    for (size_t i = 0; i < from->nsources; i++) {
+        const summary_source *b = &from->sources[i];
+        if (b->raw_bytes == 0 || b->rows == 0) continue;
+        for (size_t k = 0; k < into->nsources; k++) {
+            const summary_source *a = &into->sources[k];
+            if (a->fingerprint == b->fingerprint && a->raw_bytes == b->raw_bytes &&
+                a->start_byte == b->start_byte && a->end_byte == b->end_byte) {
+                *which = k;
+                return (long)i;
+            }
+        }
+    }
+    return -1;
+}
+
 /* ---- columns ------------------------------------------------------------- */
 
 size_t summary_columns(const summary *s) { return s->ncols; }

@@ -46,6 +46,12 @@ int summary_missing_any_case(const summary *s);
 size_t summary_source_count(const summary *s);  /* source records */
 /* Source record i (0 <= i < summary_source_count), owned by the summary. */
 const summary_source *summary_source_at(const summary *s, size_t i);
+/* The index of the first source of `from` already counted in `into` (the
+ * same fingerprint, raw bytes and byte range: a copy of a file under another
+ * path is still the same data), with its index in `into` in *which; or -1.
+ * A source of no bytes or no rows (a night of a header alone) is never
+ * counted twice. */
+long summary_duplicate_source(const summary *into, const summary *from, size_t *which);
 
 /* ---- columns ------------------------------------------------------------- */
 

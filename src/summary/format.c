@@ -537,7 +537,8 @@ summary_status summary_decode(const uint8_t *data, size_t len, summary **out, ch
         summary_status st = summary_set_decode(data, len, &set, err, errlen);
         if (st != SUMMARY_OK) return st;
         char names[512];
-        snprintf(err, errlen, "a summary of %zu targets (%s): choose one", set->n,
+        snprintf(err, errlen, "a summary of %zu targets (%s): choose one with {read_target}",
+                 set->n,
                  summary_set_names(set, names, sizeof names));
         summary_set_free(set);
         return SUMMARY_ERR_TARGETS;

@@ -762,6 +762,8 @@ static int finish_runs(scan_context *sc)
     return 0;
 }
 
+size_t scan_targets(const scan_context *sc) { return sc->nruns; }
+
 summary *scan_finish(scan_context *sc)
 {
     if (!sc->failed && sc->nruns > 1) {

@@ -128,6 +128,9 @@ scan_status scan_path(scan_context *sc, const char *path);
  * scan would start from. */
 uint64_t scan_position(const scan_context *sc);
 
+/* The number of summaries the scan makes: its targets, or 1 without one. */
+size_t scan_targets(const scan_context *sc);
+
 /* The summary of everything scanned; the caller owns it.  NULL on an
  * error, or when nothing was scanned (scan_error tells), and when the scan
  * has several targets (SCAN_ERR_USAGE: take them with scan_finish_set). */

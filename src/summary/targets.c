@@ -447,8 +447,9 @@ summary_status summary_read_target(const char *path, const char *target, summary
         char names[512];
         summary_set_names(set, names, sizeof names);
         if (!target)
-            snprintf(err, errlen, "%s: a summary of %zu targets (%s): choose one", path, set->n,
-                     names);
+            snprintf(err, errlen,
+                     "%s: a summary of %zu targets (%s): choose one with {read_target}", path,
+                     set->n, names);
         else
             snprintf(err, errlen, "%s: no target '%s' (it holds %s)", path, target,
                      set->n == 1 && !set->parts[0]->opt.target ? "none" : names);

@@ -52,6 +52,14 @@ for k in $keys; do
 done
 check lib.every_key_has_an_option "keys without an option:$missing (keys: $(echo $keys))" \
     [ -z "$missing" -a -n "$keys" ]
+# And a call of the C library's (src/api/api_options.c, SETTING_CALLS): a
+# message read through the library names no key in braces.
+missing=""
+for k in $keys; do
+    bare=${k#\{}; bare=${bare%\}}
+    grep -q "{\"$bare\", \"" src/api/api_options.c || missing="$missing $k"
+done
+check lib.every_key_has_a_library_call "keys without a call:$missing" [ -z "$missing" ]
 
 # Invented data: a small greenhouse log.
 {
