@@ -51,6 +51,9 @@ build/tests/%: tests/%.c libsheaf.a tests/testutil.h
 build/tests/test_api: tests/test_api.c libsheaf.a include/sheaf.h
 	@mkdir -p $(dir $@)
 	$(CC) $(filter-out -Isrc,$(CFLAGS)) -o $@ $< libsheaf.a -lcriterion $(LDLIBS)
+build/tests/test_api_more: tests/test_api_more.c libsheaf.a include/sheaf.h
+	@mkdir -p $(dir $@)
+	$(CC) $(filter-out -Isrc,$(CFLAGS)) -o $@ $< libsheaf.a -lcriterion $(LDLIBS)
 
 $(DEMO_BIN): demo/generate.c
 	@mkdir -p $(dir $@)
@@ -223,6 +226,9 @@ $(ASAN_DIR)/tests/%: tests/%.c $(ASAN_DIR)/libsheaf.a tests/testutil.h
 	$(CC) $(ASAN_CFLAGS) -Itests -o $@ $< $(ASAN_DIR)/libsheaf.a -lcriterion $(LDLIBS)
 
 $(ASAN_DIR)/tests/test_api: tests/test_api.c $(ASAN_DIR)/libsheaf.a include/sheaf.h
+	@mkdir -p $(dir $@)
+	$(CC) $(filter-out -Isrc,$(ASAN_CFLAGS)) -o $@ $< $(ASAN_DIR)/libsheaf.a -lcriterion $(LDLIBS)
+$(ASAN_DIR)/tests/test_api_more: tests/test_api_more.c $(ASAN_DIR)/libsheaf.a include/sheaf.h
 	@mkdir -p $(dir $@)
 	$(CC) $(filter-out -Isrc,$(ASAN_CFLAGS)) -o $@ $< $(ASAN_DIR)/libsheaf.a -lcriterion $(LDLIBS)
 

@@ -186,6 +186,41 @@ SHEAF_API int sheaf_options_set_redundancy(sheaf_options *o, double abs_r, sheaf
 SHEAF_API int sheaf_options_set_pca_basis(sheaf_options *o, int basis, sheaf_error *err);
 SHEAF_API int sheaf_options_set_pca_columns(sheaf_options *o, const char *names, sheaf_error *err);
 SHEAF_API int sheaf_options_set_pca_exclude(sheaf_options *o, const char *names, sheaf_error *err);
+/* PCA: 1 keeps the summary's target in the automatic choice of columns
+ * (default 0: the target is left out, with the reason "target"). */
+SHEAF_API int sheaf_options_set_pca_with_target(sheaf_options *o, int with_target,
+                                                sheaf_error *err);
+/* The kind rule of the screen, the PCA and the page: a column is numeric
+ * when at least this share of its present cells are numbers, or when it was
+ * declared numeric (0 < share <= 1, default 0.99).  One setting for all
+ * three, as the command line's share is one per command. */
+SHEAF_API int sheaf_options_set_numeric_share(sheaf_options *o, double share, sheaf_error *err);
+
+/* Screen, further settings.  The order of the kept columns: SHEAF_RANK_Q
+ * (the default: log10 q, then log10 p), _MI (the adjusted mutual
+ * information) or _STAT (the statistic of the test behind q). */
+enum { SHEAF_RANK_Q = 0, SHEAF_RANK_MI = 1, SHEAF_RANK_STAT = 2 };
+SHEAF_API int sheaf_options_set_rank_by(sheaf_options *o, int key, sheaf_error *err);
+/* Equal-frequency bins of the mutual information (2 .. 1000, default 10). */
+SHEAF_API int sheaf_options_set_bins(sheaf_options *o, unsigned bins, sheaf_error *err);
+/* The share of missing cells at or above which a column is flagged
+ * too_sparse (0 < share <= 1, default 0.5). */
+SHEAF_API int sheaf_options_set_missing_share(sheaf_options *o, double share, sheaf_error *err);
+/* The variance below which a numeric column is flagged little_information
+ * (>= 0; default 0: not checked). */
+SHEAF_API int sheaf_options_set_min_variance(sheaf_options *o, double variance, sheaf_error *err);
+/* 1: a relevant column flagged mirrors_target (a possible leak of the
+ * outcome) stays in the selection (default 0: it is dropped). */
+SHEAF_API int sheaf_options_set_keep_mirrors(sheaf_options *o, int keep, sheaf_error *err);
+/* Screens against another column of the summary instead of its target:
+ * a numeric column of the co-moments, tested by the F test of Pearson r
+ * from the co-moments alone (sheaf_screen_from_comoments).  NULL (the
+ * default) or the target's own name: the summary's target.  The name is
+ * looked up by sheaf_screen_run, which fails with SHEAF_ERR_USAGE when it
+ * is no column (naming the nearest), names more than one, or is not a
+ * numeric column of the co-moments. */
+SHEAF_API int sheaf_options_set_screen_target(sheaf_options *o, const char *name,
+                                              sheaf_error *err);
 
 /* ---- scanning ---------------------------------------------------------------
  *
@@ -305,6 +340,11 @@ SHEAF_API int sheaf_summary_merge_flags(sheaf_summary *into, sheaf_summary *from
 /* Several targets.  A set owns its summaries until one is taken out. */
 SHEAF_API void sheaf_summary_set_free(sheaf_summary_set *set);
 SHEAF_API sheaf_summary_set *sheaf_summary_set_read(const char *path, sheaf_error *err);
+/* Decodes any summary file held in memory (len bytes, read during the
+ * call only): one summary (a set of one) or every target of a file of
+ * several, checked as sheaf_summary_set_read checks a file. */
+SHEAF_API sheaf_summary_set *sheaf_summary_set_read_memory(const void *data, size_t len,
+                                                           sheaf_error *err);
 SHEAF_API int sheaf_summary_set_write(const sheaf_summary_set *set, const char *path,
                                       sheaf_error *err);
 /* Part by part; the sets must hold the same targets in the same order.
@@ -334,6 +374,61 @@ SHEAF_API const char *sheaf_summary_target(const sheaf_summary *s);   /* NULL: n
 SHEAF_API int sheaf_summary_find_column(const sheaf_summary *s, const char *name, size_t *col,
                                         sheaf_error *err);
 
+/* The table's other counts: decompressed bytes read; rows with too few and
+ * with too many fields (counted, unless the scan was strict); header lines
+ * skipped where a gzip member or zstd frame began (not rows).  The line
+ * numbers of the first ragged rows (at most 5): their count, with *lines
+ * (may be NULL) pointing into s. */
+SHEAF_API uint64_t sheaf_summary_bytes(const sheaf_summary *s);
+SHEAF_API uint64_t sheaf_summary_short_rows(const sheaf_summary *s);
+SHEAF_API uint64_t sheaf_summary_long_rows(const sheaf_summary *s);
+SHEAF_API uint64_t sheaf_summary_repeated_headers(const sheaf_summary *s);
+SHEAF_API size_t sheaf_summary_ragged_lines(const sheaf_summary *s, const uint64_t **lines);
+/* The format version s is written in alone (a file of several targets is
+ * version 4 as a whole); 0 for NULL. */
+SHEAF_API unsigned sheaf_summary_format_version(const sheaf_summary *s);
+
+/* Where the rows came from: one record per stream scanned (merges append
+ * the other summary's).  Strings point into the summary. */
+typedef struct {
+    const char *path;        /* the stream's name as scanned ("-": standard input) */
+    const char *format;      /* "plain", "gzip" or "zstd" */
+    uint64_t size_bytes;     /* the file's size (0 when not known, as for a pipe) */
+    int64_t mtime;           /* its modification time, seconds since 1970 (0: not a file
+                                scanned by path) */
+    uint64_t fingerprint;    /* XXH3-64 of the raw bytes read (the CLI prints it as 16
+                                hex digits) */
+    uint64_t raw_bytes;      /* raw (still compressed) bytes read */
+    uint64_t rows;           /* data rows read from it */
+    uint64_t start_byte;     /* a byte range's first byte (0 for the whole file) */
+    uint64_t end_byte;       /* the byte after its last; 0: the whole file */
+    unsigned shard_index;    /* I of a byte-range shard I of N (sheaf_options_set_shard) */
+    unsigned shard_count;    /* N; 0 and 0: no shard record */
+    const char *shard_start; /* how the shard's first record was found: "certain",
+                                "speculated" or "prefix"; "" without a shard record */
+} sheaf_source;
+SHEAF_API size_t sheaf_summary_source_count(const sheaf_summary *s);
+/* Source i into *out: SHEAF_OK, or SHEAF_ERR_USAGE when i is out of range
+ * (or s or out is NULL). */
+SHEAF_API int sheaf_summary_source_at(const sheaf_summary *s, size_t i, sheaf_source *out);
+
+/* The target.  Its task (SHEAF_TASK_CLASSIFY or _REGRESS): the declared one
+ * (sheaf_options_set_task), else decided by its values under the kind rule
+ * numeric_share (0 < share <= 1; 0.99 is every command's default);
+ * SHEAF_TASK_AUTO without a target or for a share out of range.  The task
+ * declared at scan time (SHEAF_TASK_AUTO: none).  1 when a numeric target
+ * passed the class limit and its class figures were dropped.  The class
+ * limit the summary was scanned with (sheaf_options_set_max_classes). */
+SHEAF_API int sheaf_summary_task(const sheaf_summary *s, double numeric_share);
+SHEAF_API int sheaf_summary_declared_task(const sheaf_summary *s);
+SHEAF_API int sheaf_summary_classes_dropped(const sheaf_summary *s);
+SHEAF_API uint32_t sheaf_summary_max_classes(const sheaf_summary *s);
+/* The target's classes (0 when none are kept), class k's text (owned by s)
+ * and its rows, in the summary's order of classes. */
+SHEAF_API size_t sheaf_summary_class_count(const sheaf_summary *s);
+SHEAF_API const char *sheaf_summary_class_label(const sheaf_summary *s, size_t k);
+SHEAF_API uint64_t sheaf_summary_class_rows(const sheaf_summary *s, size_t k);
+
 /* Counts: finite numbers, present cells (numbers, text, inf/nan), missing
  * cells (absent ones in short rows included), present cells that are not
  * numbers. */
@@ -344,6 +439,17 @@ SHEAF_API uint64_t sheaf_column_text(const sheaf_summary *s, size_t col);
 /* 1 when at least 99% of the present cells are numbers (or the column was
  * declared numeric), else 0. */
 SHEAF_API int sheaf_column_is_numeric(const sheaf_summary *s, size_t col);
+/* Present cells that are inf or nan; finite cells equal to zero; finite
+ * cells with an integer value. */
+SHEAF_API uint64_t sheaf_column_non_finite(const sheaf_summary *s, size_t col);
+SHEAF_API uint64_t sheaf_column_zeros(const sheaf_summary *s, size_t col);
+SHEAF_API uint64_t sheaf_column_integers(const sheaf_summary *s, size_t col);
+/* The column's kind under the kind rule numeric_share (0 < share <= 1):
+ * SHEAF_KIND_NUMERIC when at least that share of its present cells are
+ * numbers (or it was declared numeric), else SHEAF_KIND_CATEGORICAL; -1
+ * for a column out of range or a share out of range. */
+enum { SHEAF_KIND_CATEGORICAL = 0, SHEAF_KIND_NUMERIC = 1 };
+SHEAF_API int sheaf_column_kind(const sheaf_summary *s, size_t col, double numeric_share);
 /* Moments of the finite numbers: mean; sample variance and sd (n - 1);
  * skewness g1 = sqrt(n) m3 / m2^1.5; excess kurtosis g2 = n m4 / m2^2 - 3;
  * smallest and largest number.  NaN where undefined. */
@@ -376,6 +482,23 @@ typedef struct {
  * order of sheaf's own), into out (room for k); returns how many were
  * written (0 also when out of memory, which only k > 64 may run into). */
 SHEAF_API size_t sheaf_column_top(const sheaf_summary *s, size_t col, size_t k, sheaf_value *out);
+/* 1 when the column's table of exact values overflowed (here or in a
+ * merged part): the distinct count is then an estimate and the top counts
+ * are lower bounds. */
+SHEAF_API int sheaf_column_table_overflowed(const sheaf_summary *s, size_t col);
+/* The first few present cells that are not numbers, kept as examples (at
+ * most 3, each NUL-terminated and cut to 40 bytes): their count, and
+ * example i (owned by s; NULL out of range). */
+SHEAF_API size_t sheaf_column_example_count(const sheaf_summary *s, size_t col);
+SHEAF_API const char *sheaf_column_example(const sheaf_summary *s, size_t col, size_t i);
+/* A column's numbers within target class k (k < sheaf_summary_class_count):
+ * how many, their mean (NaN when none) and sample variance (n - 1; NaN
+ * below two); 0 and NaN out of range, or when the column keeps no class
+ * figures (as when the target's classes are not kept).  `sheaf info` lists
+ * them for the columns numeric by the kind rule. */
+SHEAF_API uint64_t sheaf_column_class_numbers(const sheaf_summary *s, size_t col, size_t k);
+SHEAF_API double sheaf_column_class_mean(const sheaf_summary *s, size_t col, size_t k);
+SHEAF_API double sheaf_column_class_variance(const sheaf_summary *s, size_t col, size_t k);
 
 /* Pearson r of two numeric columns over the rows where both hold a number;
  * NaN with fewer than two such rows, a constant side, or a column outside
@@ -419,6 +542,84 @@ SHEAF_API double sheaf_screen_q(const sheaf_screen *r, size_t i);
 SHEAF_API double sheaf_screen_log10_q(const sheaf_screen *r, size_t i);
 SHEAF_API const char *sheaf_screen_reason(const sheaf_screen *r, size_t i);
 
+/* The column screened against (owned by the screen; NULL without a
+ * target), and 1 when it is not the summary's target but another numeric
+ * column (sheaf_options_set_screen_target): a regression from the
+ * co-moments, where only the F test of r applies. */
+SHEAF_API const char *sheaf_screen_target(const sheaf_screen *r);
+SHEAF_API int sheaf_screen_from_comoments(const sheaf_screen *r);
+/* Row i's kind under the screen's kind rule (SHEAF_KIND_*; -1 out of
+ * range); its flags, bit b set for flag b (sheaf_screen_flag_name); 1 when
+ * the test behind its q passes its validity rule or has none (0: the test
+ * takes no part in the q-values and never keeps the column; also 0 out of
+ * range); its adjusted mutual information (NaN when not computed or
+ * undefined). */
+SHEAF_API int sheaf_screen_kind(const sheaf_screen *r, size_t i);
+SHEAF_API unsigned sheaf_screen_flags(const sheaf_screen *r, size_t i);
+SHEAF_API int sheaf_screen_test_holds(const sheaf_screen *r, size_t i);
+SHEAF_API double sheaf_screen_adjusted_mi(const sheaf_screen *r, size_t i);
+/* The name of flag bit b (0 <= b < 6: no_information, little_information,
+ * names_rows, too_sparse, too_many_levels, mirrors_target), or NULL. */
+SHEAF_API const char *sheaf_screen_flag_name(unsigned b);
+
+/* The tests of a row: SHEAF_TEST_ANOVA_F (classification: a numeric
+ * column across the classes; regression: the target across a text
+ * column's levels), _WELCH_F (classification, numeric column), _CORR_F (the
+ * F test of Pearson r; regression, numeric column) and _CHI2 (the column's
+ * levels, or a numeric column's bins, against the classes). */
+enum { SHEAF_TEST_ANOVA_F = 0, SHEAF_TEST_WELCH_F = 1, SHEAF_TEST_CORR_F = 2, SHEAF_TEST_CHI2 = 3 };
+/* The validity rule a test was judged by: none, Cochran's (1954) on the
+ * expected counts of the chi-squared table, or sheaf's level-size rule for
+ * the ANOVA across a text column's levels. */
+enum { SHEAF_RULE_NONE = 0, SHEAF_RULE_COCHRAN = 1, SHEAF_RULE_LEVEL_SIZES = 2 };
+typedef struct {
+    int present;         /* 1: computed for this row (the figures below are set) */
+    double stat;         /* the statistic */
+    double df1, df2;     /* degrees of freedom; the chi-squared test has one (df1; df2 NaN) */
+    double p, log10_p;   /* p-value (0 where it underflows) and its log10 (stays finite) */
+    double extra;        /* _CORR_F: Pearson r; _CHI2: Cramer's V; NaN for the others */
+    int rule;            /* SHEAF_RULE_* */
+    int holds;           /* 1: the rule holds, or there is none */
+    size_t units;        /* Cochran: expected counts judged; level sizes: levels */
+    size_t small;        /* of them, below 5 (an expected count, or a level's rows) */
+    double small_share;  /* Cochran: small / units; level sizes: the share of rows in
+                            levels of fewer than 5 rows */
+    double smallest;     /* the smallest expected count, or the smallest level's rows */
+} sheaf_test_figures;
+/* Test `test` (SHEAF_TEST_*) of row i into *out (present 0 when it was not
+ * computed): SHEAF_OK, or SHEAF_ERR_USAGE when i or test is out of range
+ * (or r or out is NULL). */
+SHEAF_API int sheaf_screen_test_at(const sheaf_screen *r, size_t i, int test,
+                                   sheaf_test_figures *out);
+
+/* The mutual information of a row with the target, from their contingency
+ * table (numeric sides coarsened into about equal-frequency bins). */
+typedef struct {
+    int present;             /* 1: computed (the figures below are set) */
+    double nats;             /* the plug-in estimate, in nats */
+    double nats_corrected;   /* Miller-Madow corrected (may be below 0) */
+    double normalized;       /* nats / the target's entropy; NaN when that is 0 */
+    unsigned feature_bins, target_bins; /* non-empty bins (levels) of each side used */
+    double expected_nats;    /* its expectation by chance, for these margins */
+    double adjusted;         /* adjusted for chance (Vinh et al. 2010, the max form);
+                                NaN when undefined */
+    size_t expected_approximated_cells; /* cells of the expectation approximated */
+} sheaf_mi_figures;
+/* Row i's mutual information into *out: SHEAF_OK, or SHEAF_ERR_USAGE when i
+ * is out of range (or r or out is NULL). */
+SHEAF_API int sheaf_screen_mi_at(const sheaf_screen *r, size_t i, sheaf_mi_figures *out);
+
+/* Pairs of numeric columns whose |r| is at or above the redundancy
+ * (sheaf_options_set_redundancy), among the columns still kept before the
+ * pruning; where both were kept, the less relevant one was dropped.  Their
+ * count, and pair i as two rows of the screen (sheaf_screen_name gives
+ * their names; *row_a is the more relevant) with their Pearson r.
+ * SHEAF_OK, or SHEAF_ERR_USAGE when i is out of range (any pointer may be
+ * NULL). */
+SHEAF_API size_t sheaf_screen_pair_count(const sheaf_screen *r);
+SHEAF_API int sheaf_screen_pair_at(const sheaf_screen *r, size_t i, size_t *row_a, size_t *row_b,
+                                   double *pearson_r);
+
 /* ---- principal components ------------------------------------------------------
  *
  * From the pairwise-complete correlation (or covariance) matrix of the
@@ -444,6 +645,22 @@ SHEAF_API double sheaf_pca_cumulative(const sheaf_pca *f, size_t k);
 /* Loading of basis column j on component k: the unit eigenvector's entry,
  * signed so that each component's largest-magnitude entry is positive. */
 SHEAF_API double sheaf_pca_loading(const sheaf_pca *f, size_t k, size_t j);
+/* The columns the automatic choice left out, and those excluded
+ * (sheaf_options_set_pca_exclude), in summary order: their count, column i's
+ * summary index and name (copies the fit owns), and the reason, one of
+ * "target", "categorical", "empty", "constant", "out_of_range", "ID-like",
+ * "excluded" (static storage); out of range: (size_t)-1 and NULL. */
+SHEAF_API size_t sheaf_pca_left_out_count(const sheaf_pca *f);
+SHEAF_API size_t sheaf_pca_left_out_column(const sheaf_pca *f, size_t i);
+SHEAF_API const char *sheaf_pca_left_out_name(const sheaf_pca *f, size_t i);
+SHEAF_API const char *sheaf_pca_left_out_reason(const sheaf_pca *f, size_t i);
+/* A pairwise-complete matrix need not be positive semi-definite: the
+ * eigenvalues that were below zero before they were set to 0, and the most
+ * negative of them (NaN when none); the pairs of basis columns with too few
+ * common rows for an estimate (set to 0 in the matrix). */
+SHEAF_API size_t sheaf_pca_clamped_negative(const sheaf_pca *f);
+SHEAF_API double sheaf_pca_most_negative_eigenvalue(const sheaf_pca *f);
+SHEAF_API size_t sheaf_pca_undefined_pairs(const sheaf_pca *f);
 
 /* ---- second passes over the data -------------------------------------------
  *
@@ -544,6 +761,57 @@ typedef struct {
 
 /* Column i into *out: SHEAF_OK, or SHEAF_ERR_USAGE when i is out of range. */
 SHEAF_API int sheaf_drift_column_at(const sheaf_drift *d, size_t i, sheaf_drift_column *out);
+/* More of column i: each night's side, the numeric bins and the text
+ * figures (what `sheaf drift -f json` prints beside sheaf_drift_column). */
+#define SHEAF_DRIFT_BINS 10 /* PSI bins at most */
+typedef struct {
+    int kind;                /* SHEAF_KIND_* under the kind rule; -1: the column is not
+                                in this summary (the figures below are then NaN or 0) */
+    double missing_share;    /* missing cells / rows */
+    double non_numeric_share; /* non-numeric cells / present cells */
+    double distinct;         /* distinct values (exact, or a HyperLogLog estimate) */
+    int distinct_exact;      /* 1: distinct is exact */
+    double distinct_share;   /* distinct / present cells */
+    uint64_t numbers;        /* finite numbers */
+    uint64_t present;        /* present cells */
+    double mean, sd;         /* of the numbers */
+    int table_overflowed;    /* the value table overflowed */
+    int ranked;              /* 1: the screen ran on this night (relevance compared) */
+    double q;                /* the screen's q-value (NaN: untested, or not ranked) */
+    size_t rank;             /* among the kept columns, 0 when dropped or not ranked */
+} sheaf_drift_side;
+typedef struct {
+    sheaf_drift_side base_side, new_side;
+    /* A column numeric in both: the baseline's decile bins, (edge[j-1], edge[j]]. */
+    unsigned bins;           /* bins (0: not computed) */
+    double edges[SHEAF_DRIFT_BINS - 1]; /* bins - 1 upper edges, ascending */
+    uint64_t base_counts[SHEAF_DRIFT_BINS], new_counts[SHEAF_DRIFT_BINS]; /* per bin */
+    int bucket_level;        /* the common bucket level of the bins (0 without bins) */
+    int ks_exact;            /* 1: both value tables hold every number, ks = ks_bound */
+    /* A column categorical in both. */
+    int text;                /* 1: the text figures (tv, chi-squared, categories) are set */
+    double chi2_log10_p;     /* log10 of chi2_p, finite where it underflows */
+    int appeared_known, vanished_known; /* 0: the other night's table overflowed, so the
+                                           list is incomplete */
+    size_t appeared_listed, vanished_listed; /* categories listed (at most 8), most
+                                                frequent first (sheaf_drift_category_at) */
+} sheaf_drift_detail;
+/* Column i into *out: SHEAF_OK, or SHEAF_ERR_USAGE when i is out of range. */
+SHEAF_API int sheaf_drift_column_detail(const sheaf_drift *d, size_t i, sheaf_drift_detail *out);
+/* Listed category k (k < appeared_listed, or with vanished 1 k <
+ * vanished_listed) of column i: its text (a copy the handle owns, not
+ * NUL-terminated), count and cut into *value, its share of that night's
+ * present cells into *share (may be NULL).  SHEAF_OK, or SHEAF_ERR_USAGE
+ * out of range. */
+SHEAF_API int sheaf_drift_category_at(const sheaf_drift *d, size_t i, int vanished, size_t k,
+                                      sheaf_value *value, double *share);
+/* 1 when relevance to a shared target was compared (the screen ran on
+ * both), else 0; *target (may be NULL) its name (owned by the handle) or
+ * NULL; *note (may be NULL) why it was not compared (static storage) or
+ * NULL. */
+SHEAF_API int sheaf_drift_relevance(const sheaf_drift *d, const char **target, const char **note);
+/* Pairs of columns with r in both summaries. */
+SHEAF_API size_t sheaf_drift_pairs_compared(const sheaf_drift *d);
 /* Pairs of columns whose r moved by max_r_change or more. */
 SHEAF_API size_t sheaf_drift_pair_count(const sheaf_drift *d);
 /* Pair i: names (owned by the handle) and r in each night; SHEAF_OK, or
@@ -557,13 +825,15 @@ SHEAF_API int sheaf_drift_pair_at(const sheaf_drift *d, size_t i, const char **a
  * relevance chart, the clustered correlation heat map, the class-conditional
  * distributions, the scree chart and loadings, and the cautions
  * (docs/report.md).  o (may be NULL: defaults) gives the screen's
- * sheaf_options_set_fdr and sheaf_options_set_redundancy; title names the
+ * sheaf_options_set_fdr and sheaf_options_set_redundancy, and the kind rule
+ * of the whole page (sheaf_options_set_numeric_share); title names the
  * summary on the page (may be NULL).  html_path (NULL: no page; "-":
  * standard output) is written whole and renamed into place; with svg_dir
  * (may be NULL), each chart is also written as its own SVG file into that
  * folder, created when missing.  With base (may be NULL), the page has the
  * drift section of `sheaf page --base`: what changed since that summary, at
- * sheaf_drift_thresholds_default's thresholds.  SHEAF_OK, SHEAF_ERR_IO (a
+ * sheaf_drift_thresholds_default's thresholds and o's kind rule.  SHEAF_OK,
+ * SHEAF_ERR_IO (a
  * file could not be written; the message names it), SHEAF_ERR_MEMORY,
  * SHEAF_ERR_INCOMPATIBLE (base was scanned with other settings), or
  * SHEAF_ERR_USAGE (neither a page nor a folder asked for). */

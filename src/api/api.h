@@ -20,6 +20,8 @@ struct sheaf_options {
     screen_options screen;
     pca_options pca;         /* columns / exclude point at the copies below */
     char *pca_columns, *pca_exclude;
+    char *screen_target;     /* owned: the column to screen against (NULL: the target);
+                                sheaf_screen_run finds it as screen.target_col */
 };
 
 struct sheaf_scan {

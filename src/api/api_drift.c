@@ -13,7 +13,13 @@ struct sheaf_drift {
     drift_result *r;   /* owned; its names point into `names` once copied */
     char **names;      /* r->ncolumns column names, owned */
     char **pair_names; /* 2 * r->npairs names, owned */
+    char **labels;     /* the listed categories' labels (r->columns[i].appeared_list and
+                          vanished_list point at them once copied), owned */
+    size_t nlabels;
+    char *target;      /* r->target once copied, owned */
 };
+
+_Static_assert(SHEAF_DRIFT_BINS == DRIFT_DECILES, "the public bins are the internal deciles");
 
 void sheaf_drift_thresholds_default(sheaf_drift_thresholds *t)
 {
@@ -38,12 +44,46 @@ void sheaf_drift_free(sheaf_drift *d)
         free_list(d->names, d->r->ncolumns);
         free_list(d->pair_names, 2 * d->r->npairs);
     }
+    free_list(d->labels, d->nlabels);
+    free(d->target);
     drift_free(d->r);
     free(d);
 }
 
 /* 1 when v is a threshold above 0 (at most 1 for a share). */
 static int in_range(double v, int share) { return v > 0 && isfinite(v) && (!share || v <= 1); }
+
+/* A copy of one category's label (its bytes; not NUL-terminated for the
+ * reader, though the copy has a NUL after them), repointed; -1 when out of
+ * memory. */
+static int copy_label(sheaf_drift *d, drift_category *c)
+{
+    char *copy = malloc((size_t)c->label_len + 1);
+    if (!copy) return -1;
+    memcpy(copy, c->label, c->label_len);
+    copy[c->label_len] = '\0';
+    d->labels[d->nlabels++] = copy;
+    c->label = copy;
+    return 0;
+}
+
+/* Copies of every listed category's label (they point into the summaries). */
+static int copy_labels(sheaf_drift *d)
+{
+    drift_result *r = d->r;
+    size_t n = 0;
+    for (size_t i = 0; i < r->ncolumns; i++)
+        n += r->columns[i].listed_appeared + r->columns[i].listed_vanished;
+    if (!(d->labels = calloc(n ? n : 1, sizeof *d->labels))) return -1;
+    for (size_t i = 0; i < r->ncolumns; i++) {
+        drift_column *c = &r->columns[i];
+        for (size_t k = 0; k < c->listed_appeared; k++)
+            if (copy_label(d, &c->appeared_list[k]) != 0) return -1;
+        for (size_t k = 0; k < c->listed_vanished; k++)
+            if (copy_label(d, &c->vanished_list[k]) != 0) return -1;
+    }
+    return 0;
+}
 
 sheaf_drift *sheaf_drift_run(const sheaf_summary *base, const sheaf_summary *next,
                              const sheaf_drift_thresholds *t, sheaf_error *err)
@@ -91,8 +131,13 @@ sheaf_drift *sheaf_drift_run(const sheaf_summary *base, const sheaf_summary *nex
         r->pairs[i].a = d->pair_names[2 * i];
         r->pairs[i].b = d->pair_names[2 * i + 1];
     }
-    /* Nothing else in the result points into the summaries that the API
-     * reads: the category labels and the target name are not reported. */
+    if (r->target) {
+        if (!(d->target = strdup(r->target))) goto oom;
+        r->target = d->target;
+    }
+    if (copy_labels(d) != 0) goto oom;
+    /* Nothing else in the result that the API reads points into the
+     * summaries (relevance_note is static). */
     return d;
 oom:
     sheaf_drift_free(d);
@@ -155,3 +200,75 @@ int sheaf_drift_pair_at(const sheaf_drift *d, size_t i, const char **a, const ch
     if (new_r) *new_r = p->r_next;
     return SHEAF_OK;
 }
+
+/* One night's side as the public struct (`sheaf drift -f json`'s "base" and
+ * "new", src/cli/drift.c json_side). */
+static sheaf_drift_side side_of(const drift_side *sd)
+{
+    if (sd->col < 0)
+        return (sheaf_drift_side){.kind = -1, .missing_share = NAN, .non_numeric_share = NAN,
+                                  .distinct = NAN, .distinct_share = NAN, .mean = NAN,
+                                  .sd = NAN, .q = NAN};
+    return (sheaf_drift_side){
+        .kind = sd->kind == KIND_NUMERIC ? SHEAF_KIND_NUMERIC : SHEAF_KIND_CATEGORICAL,
+        .missing_share = sd->missing_share,
+        .non_numeric_share = sd->non_numeric_share,
+        .distinct = sd->distinct,
+        .distinct_exact = sd->distinct_exact,
+        .distinct_share = sd->distinct_share,
+        .numbers = sd->numbers,
+        .present = sd->present,
+        .mean = sd->mean,
+        .sd = sd->sd,
+        .table_overflowed = sd->overflowed,
+        .ranked = sd->ranked,
+        .q = sd->ranked ? sd->q : NAN,
+        .rank = sd->ranked ? sd->rank : 0,
+    };
+}
+
+int sheaf_drift_column_detail(const sheaf_drift *d, size_t i, sheaf_drift_detail *out)
+{
+    if (!d || !out || i >= d->r->ncolumns) return SHEAF_ERR_USAGE;
+    const drift_column *c = &d->r->columns[i];
+    memset(out, 0, sizeof *out);
+    out->base_side = side_of(&c->base);
+    out->new_side = side_of(&c->next);
+    out->bins = c->bins;
+    for (unsigned k = 0; k < SHEAF_DRIFT_BINS - 1; k++)
+        out->edges[k] = k + 1 < c->bins ? c->edges[k] : NAN;
+    for (unsigned k = 0; k < c->bins && k < SHEAF_DRIFT_BINS; k++) {
+        out->base_counts[k] = c->base_counts[k];
+        out->new_counts[k] = c->next_counts[k];
+    }
+    out->bucket_level = c->bins ? c->level : 0;
+    out->ks_exact = c->ks_exact;
+    out->text = c->text;
+    out->chi2_log10_p = c->chi2_log10_p;
+    out->appeared_known = c->appeared_known;
+    out->vanished_known = c->vanished_known;
+    out->appeared_listed = c->listed_appeared;
+    out->vanished_listed = c->listed_vanished;
+    return SHEAF_OK;
+}
+
+int sheaf_drift_category_at(const sheaf_drift *d, size_t i, int vanished, size_t k,
+                            sheaf_value *value, double *share)
+{
+    if (!d || i >= d->r->ncolumns) return SHEAF_ERR_USAGE;
+    const drift_column *c = &d->r->columns[i];
+    if (k >= (vanished ? c->listed_vanished : c->listed_appeared)) return SHEAF_ERR_USAGE;
+    const drift_category *g = vanished ? &c->vanished_list[k] : &c->appeared_list[k];
+    if (value) *value = (sheaf_value){g->label, g->label_len, g->count, g->cut != 0};
+    if (share) *share = g->share;
+    return SHEAF_OK;
+}
+
+int sheaf_drift_relevance(const sheaf_drift *d, const char **target, const char **note)
+{
+    if (target) *target = d ? d->r->target : NULL;
+    if (note) *note = d ? d->r->relevance_note : NULL;
+    return d && d->r->relevance;
+}
+
+size_t sheaf_drift_pairs_compared(const sheaf_drift *d) { return d ? d->r->pairs_compared : 0; }

@@ -145,7 +145,7 @@ int api_options_copy(sheaf_options *dst, const sheaf_options *src)
 {
     *dst = *src;
     dst->targets = dst->columns = dst->numeric = dst->categorical = dst->ignore = NULL;
-    dst->pca_columns = dst->pca_exclude = NULL;
+    dst->pca_columns = dst->pca_exclude = dst->screen_target = NULL;
     int bad = summary_options_copy(&dst->scan.opt, &src->scan.opt);
     bad |= dup_or_null(&dst->targets, src->targets);
     bad |= dup_or_null(&dst->columns, src->columns);
@@ -154,6 +154,7 @@ int api_options_copy(sheaf_options *dst, const sheaf_options *src)
     bad |= dup_or_null(&dst->ignore, src->ignore);
     bad |= dup_or_null(&dst->pca_columns, src->pca_columns);
     bad |= dup_or_null(&dst->pca_exclude, src->pca_exclude);
+    bad |= dup_or_null(&dst->screen_target, src->screen_target);
     point(dst);
     if (bad) { api_options_release(dst); return -1; }
     return 0;
@@ -169,8 +170,9 @@ void api_options_release(sheaf_options *o)
     free(o->ignore);
     free(o->pca_columns);
     free(o->pca_exclude);
+    free(o->screen_target);
     o->targets = o->columns = o->numeric = o->categorical = o->ignore = NULL;
-    o->pca_columns = o->pca_exclude = NULL;
+    o->pca_columns = o->pca_exclude = o->screen_target = NULL;
     point(o);
 }
 
@@ -438,4 +440,82 @@ int sheaf_options_set_force(sheaf_options *o, int force, sheaf_error *err)
     if (!o) return no_options(err, "sheaf_options_set_force");
     o->scan.force = force != 0;
     return SHEAF_OK;
+}
+
+int sheaf_options_set_pca_with_target(sheaf_options *o, int with_target, sheaf_error *err)
+{
+    if (!o) return no_options(err, "sheaf_options_set_pca_with_target");
+    o->pca.with_target = with_target != 0;
+    return SHEAF_OK;
+}
+
+/* 1 when v is a share: 0 < v <= 1 (NaN is not). */
+static int is_share(double v) { return v > 0 && v <= 1; }
+
+int sheaf_options_set_numeric_share(sheaf_options *o, double share, sheaf_error *err)
+{
+    if (!o) return no_options(err, "sheaf_options_set_numeric_share");
+    if (!is_share(share))
+        return api_fail(err, SHEAF_ERR_USAGE,
+                        "sheaf_options_set_numeric_share: 0 < share <= 1, got %g", share);
+    o->screen.numeric_share = share;
+    o->pca.numeric_share = share;
+    return SHEAF_OK;
+}
+
+/* ---- the screen's further settings (`sheaf screen`'s, src/cli/screen.c) ---- */
+
+int sheaf_options_set_rank_by(sheaf_options *o, int key, sheaf_error *err)
+{
+    if (!o) return no_options(err, "sheaf_options_set_rank_by");
+    if (key != SHEAF_RANK_Q && key != SHEAF_RANK_MI && key != SHEAF_RANK_STAT)
+        return api_fail(err, SHEAF_ERR_USAGE, "sheaf_options_set_rank_by: unknown key %d "
+                        "(SHEAF_RANK_Q, _MI or _STAT)", key);
+    o->screen.rank_by = key == SHEAF_RANK_MI ? RANK_MI : key == SHEAF_RANK_STAT ? RANK_STAT : RANK_Q;
+    return SHEAF_OK;
+}
+
+int sheaf_options_set_bins(sheaf_options *o, unsigned bins, sheaf_error *err)
+{
+    if (!o) return no_options(err, "sheaf_options_set_bins");
+    if (bins < 2 || bins > 1000)
+        return api_fail(err, SHEAF_ERR_USAGE, "sheaf_options_set_bins: between 2 and 1000, got %u",
+                        bins);
+    o->screen.bins = bins;
+    return SHEAF_OK;
+}
+
+int sheaf_options_set_missing_share(sheaf_options *o, double share, sheaf_error *err)
+{
+    if (!o) return no_options(err, "sheaf_options_set_missing_share");
+    if (!is_share(share))
+        return api_fail(err, SHEAF_ERR_USAGE,
+                        "sheaf_options_set_missing_share: 0 < share <= 1, got %g", share);
+    o->screen.missing_share = share;
+    return SHEAF_OK;
+}
+
+int sheaf_options_set_min_variance(sheaf_options *o, double variance, sheaf_error *err)
+{
+    if (!o) return no_options(err, "sheaf_options_set_min_variance");
+    if (!(variance >= 0))
+        return api_fail(err, SHEAF_ERR_USAGE, "sheaf_options_set_min_variance: >= 0, got %g",
+                        variance);
+    o->screen.min_variance = variance;
+    return SHEAF_OK;
+}
+
+int sheaf_options_set_keep_mirrors(sheaf_options *o, int keep, sheaf_error *err)
+{
+    if (!o) return no_options(err, "sheaf_options_set_keep_mirrors");
+    o->screen.keep_mirrors = keep != 0;
+    return SHEAF_OK;
+}
+
+int sheaf_options_set_screen_target(sheaf_options *o, const char *name, sheaf_error *err)
+{
+    if (name && !*name)
+        return api_fail(err, SHEAF_ERR_USAGE,
+                        "sheaf_options_set_screen_target: empty name (NULL: the target)");
+    return set_text(o, o ? &o->screen_target : NULL, name, "sheaf_options_set_screen_target", err);
 }

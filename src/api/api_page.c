@@ -20,12 +20,14 @@ SHEAF_API int sheaf_page_write(const sheaf_summary *s, const sheaf_summary *base
     if (o) {
         ro.screen.q_level = o->screen.q_level;
         ro.screen.redundancy = o->screen.redundancy;
+        ro.numeric_share = o->screen.numeric_share; /* `sheaf page --numeric-share` */
     }
     char msg[SHEAF_ERROR_BYTES - 64];
     drift_result *dr = NULL;
     if (base) {
         drift_options d;
         drift_options_defaults(&d);
+        d.numeric_share = ro.numeric_share;
         drift_status st = drift_run(base->s, s->s, &d, &dr, msg, sizeof msg);
         if (st == DRIFT_ERR_INCOMPATIBLE)
             return api_fail(err, SHEAF_ERR_INCOMPATIBLE, "the baseline was scanned differently: %s",

@@ -383,3 +383,184 @@ uint64_t sheaf_pair_count(const sheaf_summary *s, size_t a, size_t b)
 {
     return has(s, a) && has(s, b) ? summary_pair_count(s->s, a, b) : 0;
 }
+
+/* ---- more of the table: counts, sources, the target (`sheaf info`) ----------- */
+
+sheaf_summary_set *sheaf_summary_set_read_memory(const void *data, size_t len, sheaf_error *err)
+{
+    if (!data && len) {
+        api_fail(err, SHEAF_ERR_USAGE, "sheaf_summary_set_read_memory: no bytes (NULL)");
+        return NULL;
+    }
+    char msg[SHEAF_ERROR_BYTES] = "";
+    summary_set *set = NULL;
+    if (reported(summary_set_decode(data, len, &set, msg, sizeof msg), msg, err)) return NULL;
+    return api_wrap_set(set, err);
+}
+
+uint64_t sheaf_summary_bytes(const sheaf_summary *s) { return s ? summary_bytes(s->s) : 0; }
+
+uint64_t sheaf_summary_short_rows(const sheaf_summary *s)
+{
+    return s ? summary_short_rows(s->s) : 0;
+}
+
+uint64_t sheaf_summary_long_rows(const sheaf_summary *s) { return s ? summary_long_rows(s->s) : 0; }
+
+uint64_t sheaf_summary_repeated_headers(const sheaf_summary *s)
+{
+    return s ? summary_repeated_headers(s->s) : 0;
+}
+
+size_t sheaf_summary_ragged_lines(const sheaf_summary *s, const uint64_t **lines)
+{
+    const uint64_t *l = NULL;
+    size_t n = s ? summary_ragged_lines(s->s, &l) : 0;
+    if (lines) *lines = n ? l : NULL;
+    return n;
+}
+
+unsigned sheaf_summary_format_version(const sheaf_summary *s)
+{
+    return s ? (unsigned)summary_file_version(s->s) : 0;
+}
+
+size_t sheaf_summary_source_count(const sheaf_summary *s)
+{
+    return s ? summary_source_count(s->s) : 0;
+}
+
+int sheaf_summary_source_at(const sheaf_summary *s, size_t i, sheaf_source *out)
+{
+    if (!s || !out || i >= summary_source_count(s->s)) return SHEAF_ERR_USAGE;
+    const summary_source *src = summary_source_at(s->s, i);
+    *out = (sheaf_source){
+        .path = src->path,
+        .format = src->format,
+        .size_bytes = src->size_bytes,
+        .mtime = src->mtime,
+        .fingerprint = src->fingerprint,
+        .raw_bytes = src->raw_bytes,
+        .rows = src->rows,
+        .start_byte = src->start_byte,
+        .end_byte = src->end_byte,
+        /* `sheaf info` prints the shard record where the source has one. */
+        .shard_index = src->shard_rule ? src->shard_index : 0,
+        .shard_count = src->shard_rule ? src->shard_count : 0,
+        .shard_start = src->shard_rule ? summary_shard_rule_name(src->shard_rule) : "",
+    };
+    return SHEAF_OK;
+}
+
+/* The public code of an internal task. */
+static int public_task(target_task t)
+{
+    return t == TASK_CLASSIFY ? SHEAF_TASK_CLASSIFY
+           : t == TASK_REGRESS ? SHEAF_TASK_REGRESS : SHEAF_TASK_AUTO;
+}
+
+/* 1 when v is a share of the kind rule: 0 < v <= 1 (NaN is not). */
+static int is_share(double v) { return v > 0 && v <= 1; }
+
+int sheaf_summary_task(const sheaf_summary *s, double numeric_share)
+{
+    if (!s || summary_target_column(s->s) < 0 || !is_share(numeric_share)) return SHEAF_TASK_AUTO;
+    return public_task(summary_task(s->s, numeric_share));
+}
+
+int sheaf_summary_declared_task(const sheaf_summary *s)
+{
+    return s ? public_task(summary_declared_task(s->s)) : SHEAF_TASK_AUTO;
+}
+
+int sheaf_summary_classes_dropped(const sheaf_summary *s)
+{
+    return s && summary_classes_dropped(s->s);
+}
+
+uint32_t sheaf_summary_max_classes(const sheaf_summary *s)
+{
+    return s ? summary_max_classes(s->s) : 0;
+}
+
+size_t sheaf_summary_class_count(const sheaf_summary *s)
+{
+    return s ? summary_class_count(s->s) : 0;
+}
+
+const char *sheaf_summary_class_label(const sheaf_summary *s, size_t k)
+{
+    return s && k < summary_class_count(s->s) ? summary_class_label(s->s, (uint32_t)k) : NULL;
+}
+
+uint64_t sheaf_summary_class_rows(const sheaf_summary *s, size_t k)
+{
+    return s && k < summary_class_count(s->s) ? summary_class_rows(s->s, (uint32_t)k) : 0;
+}
+
+/* ---- more of a column ------------------------------------------------------- */
+
+uint64_t sheaf_column_non_finite(const sheaf_summary *s, size_t col)
+{
+    return has(s, col) ? summary_non_finite(s->s, col) : 0;
+}
+
+uint64_t sheaf_column_zeros(const sheaf_summary *s, size_t col)
+{
+    return has(s, col) ? summary_zeros(s->s, col) : 0;
+}
+
+uint64_t sheaf_column_integers(const sheaf_summary *s, size_t col)
+{
+    return has(s, col) ? summary_integers(s->s, col) : 0;
+}
+
+int sheaf_column_kind(const sheaf_summary *s, size_t col, double numeric_share)
+{
+    if (!has(s, col) || !is_share(numeric_share)) return -1;
+    return summary_kind(s->s, col, numeric_share) == KIND_NUMERIC ? SHEAF_KIND_NUMERIC
+                                                                   : SHEAF_KIND_CATEGORICAL;
+}
+
+int sheaf_column_table_overflowed(const sheaf_summary *s, size_t col)
+{
+    return has(s, col) && summary_high_cardinality(s->s, col);
+}
+
+size_t sheaf_column_example_count(const sheaf_summary *s, size_t col)
+{
+    return has(s, col) ? summary_example_count(s->s, col) : 0;
+}
+
+const char *sheaf_column_example(const sheaf_summary *s, size_t col, size_t i)
+{
+    if (!has(s, col) || i >= summary_example_count(s->s, col)) return NULL;
+    return summary_example(s->s, col, (uint32_t)i);
+}
+
+/* Column col's moments within class k into *cs; 0, or -1 when there are
+ * none (out of range, or no class figures kept). */
+static int class_stats(const sheaf_summary *s, size_t col, size_t k, summary_class_stats *cs)
+{
+    if (!has(s, col) || k >= summary_class_count(s->s) || !summary_has_class_moments(s->s, col))
+        return -1;
+    return summary_class_moments(s->s, col, (uint32_t)k, cs);
+}
+
+uint64_t sheaf_column_class_numbers(const sheaf_summary *s, size_t col, size_t k)
+{
+    summary_class_stats cs;
+    return class_stats(s, col, k, &cs) == 0 ? cs.n : 0;
+}
+
+double sheaf_column_class_mean(const sheaf_summary *s, size_t col, size_t k)
+{
+    summary_class_stats cs;
+    return class_stats(s, col, k, &cs) == 0 ? cs.mean : NAN;
+}
+
+double sheaf_column_class_variance(const sheaf_summary *s, size_t col, size_t k)
+{
+    summary_class_stats cs;
+    return class_stats(s, col, k, &cs) == 0 ? cs.variance : NAN;
+}

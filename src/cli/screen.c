@@ -427,20 +427,13 @@ int cmd_screen(int argc, char **argv)
         goto done;
     }
     if (target) {
-        long col = summary_find_column(s, target);
-        size_t same = 0;
-        for (size_t i = 0; i < summary_columns(s); i++) same += !strcmp(summary_name(s, i), target);
-        const char *problem = col < 0     ? "no such column"
-                              : same > 1 ? "names more than one column of the summary"
-                                         : screen_target_problem(s, (size_t)col, o.numeric_share);
-        if (problem) {
-            char hint[768] = "";
-            if (col < 0) summary_suggest_columns(s, target, strlen(target), hint, sizeof hint);
-            cli_error("screen", "%s: --target %s: %s%s", cli_path_name(pos[0]), target, problem, hint);
+        char problem[1024];
+        if (screen_target_lookup(s, target, o.numeric_share, &o.target_col, problem,
+                                 sizeof problem) != 0) {
+            cli_error("screen", "%s: --target %s: %s", cli_path_name(pos[0]), target, problem);
             rc = EXIT_USAGE;
             goto done;
         }
-        o.target_col = col;
     }
     r = screen_run(s, &o);
     if (!r) { cli_error("screen", "out of memory"); rc = EXIT_RESOURCE; goto done; }

@@ -42,6 +42,25 @@ const char *screen_target_problem(const summary *s, size_t col, double numeric_s
     return NULL;
 }
 
+int screen_target_lookup(const summary *s, const char *name, double numeric_share, long *col,
+                         char *msg, size_t msglen)
+{
+    long c = summary_find_column(s, name);
+    size_t same = 0;
+    for (size_t i = 0; i < summary_columns(s); i++) same += !strcmp(summary_name(s, i), name);
+    const char *problem = c < 0      ? "no such column"
+                          : same > 1 ? "names more than one column of the summary"
+                                     : screen_target_problem(s, (size_t)c, numeric_share);
+    if (!problem) {
+        *col = c;
+        return 0;
+    }
+    char hint[768] = "";
+    if (c < 0) summary_suggest_columns(s, name, strlen(name), hint, sizeof hint);
+    snprintf(msg, msglen, "%s%s", problem, hint);
+    return -1;
+}
+
 void screen_free(screen_result *r)
 {
     if (!r) return;

@@ -123,6 +123,11 @@ void screen_options_defaults(screen_options *o);
  * not (a phrase for a message).  The summary's own target always can; another
  * column must be numeric and in the co-moment matrix. */
 const char *screen_target_problem(const summary *s, size_t col, double numeric_share);
+/* The column a screen target named `name` is: one column of that exact name
+ * that screen_target_problem accepts.  0 with *col set, or -1 with why not
+ * in msg (nearest names added when there is no such column). */
+int screen_target_lookup(const summary *s, const char *name, double numeric_share, long *col,
+                         char *msg, size_t msglen);
 /* NULL on OOM, or when o->target_col is refused by screen_target_problem. */
 screen_result *screen_run(const summary *s, const screen_options *o);
 void screen_free(screen_result *r);
