@@ -466,10 +466,11 @@ static double seconds_now(void)
     return (double)ts.tv_sec + ts.tv_nsec * 1e-9;
 }
 
-void cli_progress_start(cli_progress *p, const char *label, int quiet)
+void cli_progress_start(cli_progress *p, const char *label, int quiet, int rows_to_stdout)
 {
     p->label = label;
-    p->on = !quiet && isatty(STDERR_FILENO);
+    /* Not over rows printed on the same terminal. */
+    p->on = !quiet && isatty(STDERR_FILENO) && !(rows_to_stdout && isatty(STDOUT_FILENO));
     p->start = p->last = seconds_now();
     p->shown = 0;
 }

@@ -182,7 +182,9 @@ typedef struct {
     double start, last; /* seconds */
     int shown;          /* something is on the line */
 } cli_progress;
-void cli_progress_start(cli_progress *p, const char *label, int quiet);
+/* rows_to_stdout: the pass writes its rows to standard output (no line then
+ * when that is a terminal too: it would be drawn over the rows). */
+void cli_progress_start(cli_progress *p, const char *label, int quiet, int rows_to_stdout);
 /* The callback the passes take (ctx: a cli_progress). */
 void cli_progress_update(void *ctx, uint64_t done, uint64_t total);
 /* Clears the line. */

@@ -121,7 +121,7 @@ int cmd_project(int argc, char **argv)
         goto done;
     }
     cli_progress bar;
-    cli_progress_start(&bar, "project", quiet);
+    cli_progress_start(&bar, "project", quiet, !out_path || !strcmp(out_path, "-"));
     po.progress = cli_progress_update;
     po.progress_ctx = &bar;
     project_status ps = project_files(s, r, k, &po, (const char *const *)pos, npos, out, err,

@@ -266,7 +266,7 @@ int cmd_scan(int argc, char **argv)
     o.strict = strict;
     o.force = force;
     cli_progress ps;
-    cli_progress_start(&ps, "scan", quiet);
+    cli_progress_start(&ps, "scan", quiet, 0);
     o.progress = cli_progress_update;
     o.progress_ctx = &ps;
     o.warn = warn_line;

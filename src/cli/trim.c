@@ -200,7 +200,7 @@ int cmd_trim(int argc, char **argv)
     to.nkeep = keep.n;
     to.read.delim = delim;
     cli_progress ps;
-    cli_progress_start(&ps, "trim", quiet);
+    cli_progress_start(&ps, "trim", quiet, !out_path || !strcmp(out_path, "-"));
     to.progress = cli_progress_update;
     to.progress_ctx = &ps;
     trim_status ts = trim_files(&to, (const char *const *)pos, npos, out, err, sizeof err);

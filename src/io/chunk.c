@@ -23,6 +23,10 @@ struct chunker {
     uint64_t mark_step;   /* g: min(MARK_BYTES, chunk_bytes) */
     const char *name;     /* the stream's name, for messages */
     int ended;            /* no more bytes follow */
+    int flushing;         /* no more bytes follow, the stream failed (chunker_flush) */
+    uint64_t long_at;     /* the record that passed the limit (chunker_too_long), or
+                             UINT64_MAX */
+    int long_quoted;      /* a quote was open where it passed it */
     int dialect_set;      /* the delimiter is known */
     char delim;           /* field delimiter */
     size_t skip;          /* bytes before the first record (BOM) */
@@ -43,6 +47,7 @@ chunker *chunker_create(size_t chunk_bytes, size_t max_record_bytes)
     c->cap = c->chunk_bytes * 2;
     c->buf = calloc(1, c->cap + 1 + CHUNK_PADDING);
     if (!c->buf) { free(c); return NULL; }
+    c->long_at = UINT64_MAX;
     return c;
 }
 
@@ -58,7 +63,8 @@ void chunker_start(chunker *c, const char *name)
     c->name = name;
     c->len = c->start = 0;
     c->base = 0;
-    c->ended = c->dialect_set = 0;
+    c->ended = c->dialect_set = c->flushing = 0;
+    c->long_at = UINT64_MAX;
     c->mark = 0;
     memset(c->buf, 0, 1 + CHUNK_PADDING);
 }
@@ -153,6 +159,7 @@ int chunker_trade(chunker *c, char **buf, size_t *size, char *err, size_t errlen
 }
 
 void chunker_finish(chunker *c) { c->ended = 1; }
+void chunker_flush(chunker *c) { c->flushing = 1; }
 
 int chunker_done(const chunker *c) { return c->ended && c->start == c->len; }
 
@@ -162,12 +169,25 @@ const char *chunker_pending(const chunker *c, size_t *len)
     return c->buf + c->start;
 }
 
-static int too_long(const chunker *c, uint64_t at, char *err, size_t errlen)
+static int too_long(chunker *c, uint64_t at, char *err, size_t errlen)
 {
+    /* The hint of a quote only when one is open where the limit is passed. */
+    c->long_at = at;
+    c->long_quoted = c->quote.mode == CSV_IN_QUOTES || c->quote.mode == CSV_QUOTE_SEEN;
     snprintf(err, errlen, "%s: record at byte %llu is longer than the %zu-byte limit "
-             "(the record limit: an unterminated quote, or raise {max_record})",
-             c->name, (unsigned long long)at, c->max_record);
+             "(the record limit: %sraise {max_record})",
+             c->name, (unsigned long long)at, c->max_record,
+             c->long_quoted ? "an unterminated quote, or " : "");
     return -1;
+}
+
+int chunker_too_long(const chunker *c, uint64_t *at, size_t *limit, int *quoted)
+{
+    if (c->long_at == UINT64_MAX) return 0;
+    *at = c->long_at;
+    *limit = c->max_record;
+    *quoted = c->long_quoted;
+    return 1;
 }
 
 /* Hands out [start, end) (stream offsets) as the next chunk. */
@@ -196,7 +216,7 @@ int chunker_next(chunker *c, chunk *out, char *err, size_t errlen)
         c->best = s;
     }
     for (;;) {
-        if (held < c->mark && !c->ended) return 0;
+        if (held < c->mark && !c->ended && !c->flushing) return 0;
         uint64_t upto = held < c->mark ? held : c->mark;
         if (upto > c->scanned) {
             size_t from = (size_t)(c->scanned - c->base), n = (size_t)(upto - c->scanned);
@@ -213,6 +233,7 @@ int chunker_next(chunker *c, chunk *out, char *err, size_t errlen)
         }
         if (c->best >= s + c->chunk_bytes) return emit(c, c->best, out);
         if (final) return emit(c, held, out);
+        if (c->flushing && upto == held) return c->best > s ? emit(c, c->best, out) : 0;
         c->mark += c->mark_step;
     }
 }

@@ -66,6 +66,10 @@ void chunker_commit(chunker *c, size_t n);
 size_t chunker_feed(chunker *c, const void *data, size_t len, char *err, size_t errlen);
 /* No more bytes follow in this stream. */
 void chunker_finish(chunker *c);
+/* No more bytes follow, and the stream failed: its complete records are
+ * handed out (the last chunk ends at the last record end, whatever its
+ * size); the open record after them never is. */
+void chunker_flush(chunker *c);
 
 /* Next complete chunk.  Returns 1 with *out filled, 0 when more bytes are
  * needed (or the stream is done: chunker_done), -1 on error (message in err).
@@ -84,6 +88,11 @@ size_t chunker_to_mark(const chunker *c);
  * before is in it too.  0, or -1 with a message when a new buffer cannot be
  * made (nothing changed). */
 int chunker_trade(chunker *c, char **buf, size_t *size, char *err, size_t errlen);
+/* After chunker_next failed: 1 when a record passed the record limit, with
+ * its stream offset, the limit, and whether a quote was open where it passed
+ * it; else 0.  (The record's line is the lines of the chunks handed out
+ * before it, plus one: it starts where the last of them ends.) */
+int chunker_too_long(const chunker *c, uint64_t *at, size_t *limit, int *quoted);
 /* The stream was finished and every byte has been handed out. */
 int chunker_done(const chunker *c);
 /* The bytes buffered and not yet handed out (for dialect detection). */

@@ -32,6 +32,8 @@ struct reader {
     uint64_t absorbed;    /* stream offset after the last record absorbed */
     int stopped;          /* reached stop_at */
     int ended;            /* reader_finish was called */
+    int fault_pending;    /* the source failed (message in err): the complete records read
+                             before the fault are handed out first, then the fault */
     source *src;          /* the source pulled from last (for its member starts) */
     uint64_t *starts;     /* member and frame starts not yet handed out with a chunk */
     size_t starts_at;     /* starts[0 .. starts_at) went out with the last chunk */
@@ -77,7 +79,7 @@ void reader_start(reader *r, const char *name, int at_file_start, char delim, ui
     r->stop_at = stop_at;
     r->lines_before = 0;
     r->absorbed = 0;
-    r->in_chunk = r->stopped = r->ended = 0;
+    r->in_chunk = r->stopped = r->ended = r->fault_pending = 0;
     r->nstarts = r->starts_at = 0;
     r->err[0] = '\0';
     if (r->delim && !at_file_start) chunker_set_dialect(r->ck, r->delim, 0);
@@ -104,6 +106,7 @@ size_t reader_feed(reader *r, const void *data, size_t len)
 
 int reader_pull(reader *r, source *src)
 {
+    if (r->fault_pending) return -1;
     size_t room;
     errno = 0;
     char *p = chunker_space(r->ck, &room, r->err, sizeof r->err);
@@ -117,7 +120,13 @@ int reader_pull(reader *r, source *src)
     if (n < 0) {
         r->nomem = errno == ENOMEM;
         snprintf(r->err, sizeof r->err, "%s", source_error(src));
-        return -1;
+        if (r->nomem) return -1;
+        /* A damaged stream: what came before the damage is data, whatever
+         * the read sizes, so its complete records go out first (an error in
+         * them is the first error), then the fault (reader_next_chunk). */
+        r->fault_pending = 1;
+        chunker_flush(r->ck);
+        return 1;
     }
     if (n == 0) { reader_finish(r); return 0; }
     chunker_commit(r->ck, (size_t)n);
@@ -184,7 +193,8 @@ static int dialect(reader *r)
 {
     size_t len;
     const char *p = chunker_pending(r->ck, &len);
-    if (!r->ended && len < (r->delim ? TEXT_SAMPLE_BYTES : DETECT_BYTES)) return 1;
+    if (!r->ended && !r->fault_pending && len < (r->delim ? TEXT_SAMPLE_BYTES : DETECT_BYTES))
+        return 1;
     size_t bom = csv_bom_length(p, len);
     r->not_text = text_verdict(p + bom, len - bom);
     if (!r->delim) r->delim = csv_detect_delimiter(p + bom, len - bom);
@@ -200,6 +210,7 @@ reader_status reader_next_chunk(reader *r, reader_chunk *out)
     chunk ch;
     int got = chunker_next(r->ck, &ch, r->err, sizeof r->err);
     if (got < 0) return READER_ERROR;
+    if (got == 0 && r->fault_pending) return READER_ERROR;
     if (got == 0) return chunker_done(r->ck) ? READER_END : READER_WANT;
     out->data = ch.data;
     out->len = ch.len;
@@ -236,6 +247,8 @@ reader_status reader_next(reader *r, reader_record *rec)
     if (r->stopped) return READER_END;
     if (!r->in_chunk) {
         reader_status st = reader_next_chunk(r, &r->ch);
+        if (st == READER_ERROR)
+            reader_too_long_message(r, r->lines_before, r->err, sizeof r->err);
         if (st != READER_CHUNK) return st;
         reader_cursor_start(&r->cur, &r->ch, r->stop_at, 0);
         r->in_chunk = 1;
@@ -442,6 +455,22 @@ void reader_cursor_message(const reader_cursor *c, const char *name, uint64_t li
         break;
     default: snprintf(buf, len, "%s: no error", name);
     }
+}
+
+int reader_too_long_message(const reader *r, uint64_t lines_before, char *buf, size_t len)
+{
+    uint64_t at;
+    size_t limit;
+    int quoted;
+    if (!chunker_too_long(r->ck, &at, &limit, &quoted)) return 0;
+    /* The cursor's words (reader_cursor_message), so that the message is
+     * the same whichever of the two met the record. */
+    snprintf(buf, len,
+             "%s: line %llu: record at byte %llu is longer than the %zu-byte limit "
+             "(the record limit: %sraise {max_record})",
+             r->name, (unsigned long long)lines_before + 1, (unsigned long long)at, limit,
+             quoted ? "an unterminated quote, or " : "");
+    return 1;
 }
 
 size_t reader_bom_length(const reader *r) { return r->bom; }

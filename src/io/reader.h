@@ -192,6 +192,12 @@ const char *reader_error(const reader *r);
 /* After READER_ERROR: 1 when the cause was a failed allocation (out of
  * memory), not the input. */
 int reader_out_of_memory(const reader *r);
+/* After READER_ERROR from reader_next_chunk: 1 when a record passed the
+ * record limit before any chunk held its end, with the message (the
+ * cursor's, naming its line) in buf; lines_before: the lines of the
+ * stream's chunks handed out before it (counted by whoever tokenized
+ * them).  0 for any other error (reader_error). */
+int reader_too_long_message(const reader *r, uint64_t lines_before, char *buf, size_t len);
 /* The delimiter in use (0 before it is known). */
 char reader_delim(const reader *r);
 /* Stream offset just after the last record absorbed: the end of the last

@@ -99,8 +99,12 @@ static source *source_new(const char *path, int fd, int owns)
     XXH3_64bits_reset(s->hash);
     struct stat st;
     if (fd >= 0 && fstat(fd, &st) == 0) {
-        if (S_ISREG(st.st_mode)) s->raw_size = (uint64_t)st.st_size;
-        s->mtime = (int64_t)st.st_mtime;
+        /* A pipe's times are when it was made: no property of the bytes,
+         * and a summary of them would differ from one run to the next. */
+        if (S_ISREG(st.st_mode)) {
+            s->raw_size = (uint64_t)st.st_size;
+            s->mtime = (int64_t)st.st_mtime;
+        }
     }
     return s;
 }
@@ -244,6 +248,7 @@ void source_close(source *s)
     free(s->gz);
     free(s->marks);
     if (s->zs) ZSTD_freeDStream(s->zs);
+    free(s->zs_stage);
     free(s->starts);
     free(s);
 }
@@ -320,6 +325,19 @@ static void take_mark(source *s, uint64_t decoded_at)
     m->next_at = decoded_at + m->every;
 }
 
+/* A decoder failed (message set) after producing n bytes in this read:
+ * those bytes are data like any other, so they are handed out now and the
+ * fault on the next read.  The reader then meets whatever they hold (a
+ * ragged row, an over-long record) before the fault, as it would with
+ * reads of any other size: the same error for any read size and thread
+ * count. */
+static ssize_t output_then_fault(source *s, size_t n)
+{
+    if (n == 0) return -1;
+    s->fault_next = 1;
+    return (ssize_t)n;
+}
+
 static ssize_t read_gzip(source *s, uint8_t *buf, size_t cap)
 {
     struct inflate_state *st = s->gz;
@@ -369,11 +387,13 @@ static ssize_t read_gzip(source *s, uint8_t *buf, size_t cap)
             s->decoded + produced + out >= s->marks->next_at)
             take_mark(s, s->decoded + produced + out);
         produced += out;
-        if (rc < 0)
-            return gzip_fail(s, rc == ISAL_INCORRECT_CHECKSUM
-                                    ? "%s: corrupt gzip stream (checksum mismatch) near byte %s"
-                                    : "%s: corrupt gzip stream near byte %s",
-                             source_unread_offset(s));
+        if (rc < 0) {
+            gzip_fail(s, rc == ISAL_INCORRECT_CHECKSUM
+                             ? "%s: corrupt gzip stream (checksum mismatch) near byte %s"
+                             : "%s: corrupt gzip stream near byte %s",
+                      source_unread_offset(s));
+            return output_then_fault(s, produced);
+        }
         if (st->block_state == ISAL_BLOCK_FINISH) {
             s->gz_in_member = 0;
             continue;
@@ -385,9 +405,22 @@ static ssize_t read_gzip(source *s, uint8_t *buf, size_t cap)
     return (ssize_t)produced;
 }
 
-static ssize_t read_zstd(source *s, uint8_t *buf, size_t cap)
+/* zstd's decoder reports neither the output nor the input of a call that
+ * fails, and how far it gets before a fault depends on the room it is
+ * given.  So it is always given the same room, whatever a read asks for:
+ * the rest of a step of ZSTD_STEP decoded bytes (steps counted from the
+ * stream's start), in the caller's buffer when it has room for that, else
+ * in a buffer of the source's own, handed out over the next reads.  Every
+ * reader then sees the same bytes before a fault and the same byte offset
+ * in its message (one read at a time, or a read-ahead thread's larger
+ * blocks). */
+#define ZSTD_STEP ((size_t)1 << 17)
+
+/* One step's worth into dst (room: the rest of the step); the bytes decoded,
+ * 0 at the end of the stream, -1 on an error (message set). */
+static ssize_t zstd_step(source *s, uint8_t *dst)
 {
-    ZSTD_outBuffer out = {buf, cap, 0};
+    ZSTD_outBuffer out = {dst, s->zs_left, 0};
     while (out.pos == 0) {
         ssize_t avail = source_raw_fill(s);
         if (avail < 0) return -1;
@@ -405,7 +438,7 @@ static ssize_t read_zstd(source *s, uint8_t *buf, size_t cap)
                 fail(s, "%s: corrupt zstd stream: %s", ZSTD_getErrorName(rc));
                 return -1;
             }
-            return (ssize_t)out.pos;
+            break;
         }
         ZSTD_inBuffer in = {s->raw + s->raw_pos, (size_t)avail, 0};
         size_t rc = ZSTD_decompressStream(s->zs, &out, &in);
@@ -418,15 +451,54 @@ static ssize_t read_zstd(source *s, uint8_t *buf, size_t cap)
             return -1;
         }
         s->zs_hint = rc;
-        if (rc == 0) note_start(s, s->decoded + out.pos); /* a frame ended: the next starts */
+        /* A frame ended: the next starts (decoded counts the reads before). */
+        if (rc == 0) note_start(s, s->decoded + s->zs_produced + out.pos);
     }
+    s->zs_left -= out.pos;
     return (ssize_t)out.pos;
+}
+
+static ssize_t read_zstd(source *s, uint8_t *buf, size_t cap)
+{
+    if (s->zs_taken < s->zs_staged) { /* the rest of a staged step */
+        size_t n = s->zs_staged - s->zs_taken < cap ? s->zs_staged - s->zs_taken : cap;
+        memcpy(buf, s->zs_stage + s->zs_taken, n);
+        s->zs_taken += n;
+        return (ssize_t)n;
+    }
+    /* Whole steps into the caller's buffer while it has room for them; a
+     * fault after some of them is handed out on the next read. */
+    size_t produced = 0;
+    s->zs_produced = 0;
+    for (;;) {
+        if (s->zs_left == 0) s->zs_left = ZSTD_STEP;
+        if (cap - produced < s->zs_left) break;
+        size_t want = s->zs_left;
+        ssize_t n = zstd_step(s, buf + produced);
+        if (n < 0) return output_then_fault(s, produced);
+        produced += (size_t)n;
+        s->zs_produced = produced;
+        if ((size_t)n < want) return (ssize_t)produced; /* input ran short, or the end */
+    }
+    if (produced) return (ssize_t)produced;
+    /* Less room than the rest of the step: decode it aside. */
+    if (!s->zs_stage && !(s->zs_stage = malloc(ZSTD_STEP))) {
+        fail(s, "%s: %s", "out of memory");
+        s->nomem = 1;
+        return -1;
+    }
+    ssize_t n = zstd_step(s, s->zs_stage);
+    if (n <= 0) return n;
+    s->zs_staged = (size_t)n;
+    s->zs_taken = 0;
+    return read_zstd(s, buf, cap);
 }
 
 static ssize_t ahead_read(source *s, void *buf, size_t cap);
 
 static ssize_t decode(source *s, void *buf, size_t cap)
 {
+    if (s->fault_next) return -1;
     if (s->done || cap == 0) return 0;
     ssize_t n;
     switch (s->kind) {

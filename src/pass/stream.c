@@ -125,6 +125,18 @@ static int reading_failed(run *r, int code)
     return code;
 }
 
+/* reader_next_chunk failed: the run's failure unless a chunk pushed before
+ * fails; a record past the limit is named by its line, from the lines of
+ * the file's chunks before it (pushed: some were). */
+static int chunk_failed(run *r, int code, int pushed)
+{
+    int rc = pipeline_wait(r->p);
+    if (rc) return outcome(r, rc);
+    if (!reader_too_long_message(r->rd, pushed ? r->lines_before : 0, r->err, r->errlen))
+        snprintf(r->err, r->errlen, "%s", reader_error(r->rd));
+    return code;
+}
+
 static int stream_file(run *r, size_t file)
 {
     const char *path = r->paths[file];
@@ -203,8 +215,7 @@ static int stream_file(run *r, size_t file)
         } else if (st == READER_END) {
             break;
         } else {
-            snprintf(r->msg, r->errlen, "%s", reader_error(r->rd));
-            rc = reading_failed(r, h->input_error);
+            rc = chunk_failed(r, h->input_error, !(tag & TAG_FILE_START));
         }
     }
     if (!rc && !seen && r->o->require_records) {

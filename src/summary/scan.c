@@ -343,6 +343,10 @@ static scan_status reading_failed(scan_context *sc)
         scan_status st = chunks_wait(sc->work);
         if (st != SCAN_OK) return scan_worked(sc, st);
     }
+    /* A record past the limit: its line, from the lines of the chunks before. */
+    uint64_t lines = sc->at_first || !sc->work ? sc->blank_lines : chunks_lines(sc->work);
+    if (reader_too_long_message(sc->rd, lines, sc->err, sizeof sc->err))
+        return scan_fail(sc, SCAN_ERR_INPUT, NULL);
     return scan_fail(sc, reader_out_of_memory(sc->rd) ? SCAN_ERR_MEMORY : SCAN_ERR_INPUT,
                 reader_error(sc->rd));
 }
