@@ -100,7 +100,9 @@ static int commit(void *ctx, unsigned slot, pipeline_job *job, int work_rc)
     }
     if (work_rc) {
         snprintf(r->err, r->errlen,
-                 "out of memory: a worker's row buffers, or %s, did not fit", blas_buffer_what());
+                 "out of memory: a worker's row buffers, or %s, did not fit (fewer threads "
+                 "need less: {threads})",
+                 blas_buffer_what());
         return work_rc;
     }
     r->lines_before += c->lines;
@@ -111,7 +113,8 @@ static int commit(void *ctx, unsigned slot, pipeline_job *job, int work_rc)
 static int outcome(run *r, int rc)
 {
     if (rc >= 0) return rc;
-    snprintf(r->err, r->errlen, "out of memory");
+    snprintf(r->err, r->errlen, "out of memory: a chunk's buffer could not grow to hold its "
+             "records (fewer threads hold fewer chunks: {threads})");
     return r->h->memory_error;
 }
 
@@ -260,7 +263,7 @@ int stream_files(const stream_options *o, const stream_handler *h, void *ctx,
     }
     int rc = 0;
     if (!r.msg || !r.rd || !r.p || !r.cursors || !r.ring || h->slots(ctx, r.nslots) != 0) {
-        snprintf(err, errlen, "out of memory");
+        snprintf(err, errlen, "out of memory: the reader and chunk slots of the pass");
         rc = h->memory_error;
     } else {
         for (unsigned i = 0; i < r.nslots; i++) reader_cursor_init(&r.cursors[i], &r.ropt);

@@ -232,8 +232,9 @@ SHEAF_HOT static int group_of(chunks *w, job *j, size_t g, block_lane *l, char *
     }
     return 0;
 oom:
-    snprintf(msg, msglen, "out of memory: the accumulators of column '%s' grew past it",
-             w->run->cols[col].name);
+    snprintf(msg, msglen,
+             "%s: byte %llu: out of memory: the accumulators of column '%s' could not grow",
+             w->shown, (unsigned long long)j->ck.offset, w->run->cols[col].name);
     return -1;
 }
 
@@ -257,7 +258,7 @@ static int comoments_of(chunks *w, job *j)
 
 /* ---- scheduling ------------------------------------------------------------ */
 
-typedef enum { TASK_NONE, TASK_T, TASK_R, TASK_G, TASK_C } task_kind;
+typedef enum { TASK_NONE, TASK_T, TASK_R, TASK_G, TASK_C, TASK_FLUSH } task_kind;
 
 static job *slot_of(chunks *w, uint64_t seq) { return &w->jobs[seq % w->nslots]; }
 
@@ -291,6 +292,10 @@ static scan_status fail_locked(chunks *w, scan_status st)
 static task_kind pick(chunks *w, unsigned id, uint64_t *seq, size_t *col, int blas)
 {
     if (w->failed) return TASK_NONE;
+    if (w->flush_wanted && blas && !w->c_busy) { /* chunks_wait: every chunk is done */
+        w->c_busy = 1;
+        return TASK_FLUSH;
+    }
     if (!w->r_busy && w->r_next < w->pushed && slot_of(w, w->r_next)->t_state == T_DONE) {
         w->r_busy = 1;
         *seq = w->r_next;
@@ -340,9 +345,14 @@ static scan_status run_task(chunks *w, task_kind t, uint64_t seq, size_t col, bl
     case TASK_G:
         if (group_of(w, j, col, lane, msg, msglen) == 0) return SCAN_OK;
         return SCAN_ERR_MEMORY;
+    case TASK_FLUSH:
+        if (block_comoments_flush(w->run, &w->bc) == 0) return SCAN_OK;
+        snprintf(msg, msglen, "out of memory: %s does not fit", blas_buffer_what());
+        return SCAN_ERR_MEMORY;
     case TASK_C:
         if (comoments_of(w, j) == 0) return SCAN_OK;
-        snprintf(msg, msglen, "out of memory: %s does not fit", blas_buffer_what());
+        snprintf(msg, msglen, "out of memory: %s does not fit (fewer threads need less: {threads})",
+                 blas_buffer_what());
         return SCAN_ERR_MEMORY;
     default: return SCAN_OK;
     }
@@ -359,6 +369,10 @@ static void finish_task(chunks *w, task_kind t, uint64_t seq, size_t col, scan_s
     case TASK_R: w->r_busy = 0; if (st == SCAN_OK) w->r_next++; break;
     case TASK_G: w->g_busy[col] = 0; if (st == SCAN_OK) w->g_next[col]++; break;
     case TASK_C: w->c_busy = 0; if (st == SCAN_OK) w->c_next++; break;
+    case TASK_FLUSH:
+        w->c_busy = w->flush_wanted = 0;
+        pthread_cond_broadcast(&w->done_cv);
+        break;
     default: break;
     }
     if (st != SCAN_OK) fail_locked(w, st);
@@ -372,7 +386,9 @@ static void finish_task(chunks *w, task_kind t, uint64_t seq, size_t col, scan_s
 static void no_blas_worker(chunks *w)
 {
     if (w->ncomo && w->all_made && w->nthreads && w->no_blas == w->nthreads && !w->failed) {
-        snprintf(w->err, sizeof w->err, "out of memory: %s does not fit", blas_buffer_what());
+        snprintf(w->err, sizeof w->err,
+                 "out of memory: %s does not fit (fewer threads need less: {threads})",
+                 blas_buffer_what());
         fail_locked(w, SCAN_ERR_MEMORY);
     }
 }
@@ -398,7 +414,7 @@ static void *worker(void *arg)
         no_blas_worker(w);
     }
     while (ok && !w->quit) {
-        uint64_t seq;
+        uint64_t seq = 0;
         size_t col = 0;
         task_kind t = pick(w, id, &seq, &col, blas);
         if (t == TASK_NONE) { pthread_cond_wait(&w->work_cv, &w->mu); continue; }
@@ -656,7 +672,8 @@ static scan_status flush_comoments(chunks *w)
     if (!w->ncomo || !w->bc.staged) return SCAN_OK;
     if (block_comoments_flush(w->run, &w->bc) == 0) return SCAN_OK;
     if (w->nthreads) pthread_mutex_lock(&w->mu); /* idle workers look at `failed` */
-    snprintf(w->err, sizeof w->err, "out of memory: %s does not fit", blas_buffer_what());
+    snprintf(w->err, sizeof w->err, "out of memory: %s does not fit (fewer threads need less: "
+             "{threads})", blas_buffer_what());
     w->failed = SCAN_ERR_MEMORY;
     if (w->nthreads) pthread_mutex_unlock(&w->mu);
     return SCAN_ERR_MEMORY;
@@ -671,9 +688,17 @@ scan_status chunks_wait(chunks *w)
     while (w->retired < w->pushed && !(w->failed && !w->r_busy && !w->c_busy &&
                                        !memchr(w->g_busy, 1, w->ngroups)))
         pthread_cond_wait(&w->done_cv, &w->mu);
+    /* The rows held for a block are summed by a worker that has OpenBLAS's
+     * buffer, not on this thread, which would need one more (a scan under
+     * `ulimit -v` that fits its workers' buffers then fits). */
+    if (!w->failed && w->ncomo && w->bc.staged) {
+        w->flush_wanted = 1;
+        pthread_cond_broadcast(&w->work_cv);
+        while (w->flush_wanted && !w->failed) pthread_cond_wait(&w->done_cv, &w->mu);
+    }
     scan_status st = w->failed;
     pthread_mutex_unlock(&w->mu);
-    return st ? st : flush_comoments(w);
+    return st;
 }
 
 /* The end of the piece of c that begins at `from` (a record start): just

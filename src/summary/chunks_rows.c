@@ -118,6 +118,14 @@ static scan_status target_row(chunks *w, job *j, size_t t, size_t r, const char 
         jt->any_y = 1;
     }
     if (s->has_classes) {
+        if (len > SUMMARY_MAX_CLASS_BYTES) { /* a summary keeps no such label */
+            snprintf(w->r_err, sizeof w->r_err,
+                     "%s: line %llu: target '%s' has a cell of %u bytes; a class label holds at "
+                     "most %u",
+                     w->shown, (unsigned long long)(w->lines + j->line[r]), s->opt.target, len,
+                     SUMMARY_MAX_CLASS_BYTES);
+            return SCAN_ERR_INPUT;
+        }
         uint32_t k = summary_class_of(s, XXH3_64bits(p, len), p, len, finite ? &d : NULL);
         if (k) {
             s->class_rows[k - 1]++;

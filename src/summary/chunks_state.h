@@ -114,6 +114,8 @@ struct chunks {
     size_t *group_cols;     /* the columns of group g: group_cols[group_at[g] .. group_at[g+1]) */
     size_t *group_at;
     int r_busy, c_busy, quit;
+    int flush_wanted;       /* the co-moment rows held at a stream's end await a worker with
+                               OpenBLAS's buffer (chunks_wait) */
     unsigned started;       /* workers that took an id */
     unsigned no_blas;       /* workers whose BLAS buffer did not fit (acc/blas.h): they
                                never take a co-moment task */

@@ -314,7 +314,7 @@ static void decode_target(summary *s, wire_reader *r, decode_state *ds, uint32_t
     for (uint32_t c = 0; c < n && !r->failed; c++) {
         uint64_t h = wire_get_u64(r);
         size_t len;
-        const char *label = wire_get_str(r, &len, 1 << 20);
+        const char *label = wire_get_str(r, &len, SUMMARY_MAX_CLASS_BYTES);
         uint64_t crows = wire_get_u64(r);
         uint8_t numeric = wire_get_u8(r);
         number_decimal d;

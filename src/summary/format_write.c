@@ -306,11 +306,16 @@ summary_status summary_write_through(const char *path,
     if (to_stdout) path = "standard output";
     if (write(obj, t.fd, tempfile_pushes(&t)) != 0) {
         int saved = errno;
-        snprintf(err, errlen, "%s: cannot write: %s", path, strerror(saved ? saved : EIO));
         tempfile_discard(&t);
+        if (saved == ENOMEM) { /* memory, not the disk: the exit code says which */
+            snprintf(err, errlen, "%s: out of memory while the summary was written", path);
+            return SUMMARY_ERR_MEMORY;
+        }
+        snprintf(err, errlen, "%s: cannot write: %s", path, strerror(saved ? saved : EIO));
         return SUMMARY_ERR_IO;
     }
-    return tempfile_commit(&t, err, errlen) == 0 ? SUMMARY_OK : SUMMARY_ERR_IO;
+    if (tempfile_commit(&t, err, errlen) == 0) return SUMMARY_OK;
+    return errno == ENOMEM ? SUMMARY_ERR_MEMORY : SUMMARY_ERR_IO;
 }
 
 static int write_one(const void *s, int fd, int push)

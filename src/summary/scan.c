@@ -96,11 +96,11 @@ static scan_status within_limit(scan_context *sc, int before_rows)
     show_bytes((double)sc->o.mem_limit_bytes, limit, sizeof limit);
     if (before_rows)
         snprintf(sc->err, sizeof sc->err,
-                 "the accumulators of %zu columns (with %u target classes at most) take %s "
-                 "before any row, above the %s memory limit ({mem_limit})",
-                 sc->run ? sc->run->ncols : (size_t)0,
-                 sc->run && sc->run->target >= 0 ? sc->o.opt.max_classes : 0,
-                 held, limit);
+                 "%s: the scan holds %s at its first record (the accumulators of %zu columns, "
+                 "with %u target classes at most, and the chunk that holds the record: a long "
+                 "one is bounded by {max_record}), above the %s memory limit ({mem_limit})",
+                 sc->name ? sc->name : "input", held, sc->run ? sc->run->ncols : (size_t)0,
+                 sc->run && sc->run->target >= 0 ? sc->o.opt.max_classes : 0, limit);
     else
         snprintf(sc->err, sizeof sc->err,
                  "%s: byte %llu: the scan holds %s (its accumulators, chunk buffers and "
@@ -754,6 +754,9 @@ static int finish_runs(scan_context *sc)
     if (scan_settle_runs(sc) != 0) return -1;
     /* The last cut's checkpoint written meanwhile on its own thread. */
     if (scan_cut_join(sc) != SCAN_OK) return -1;
+    /* And once settled (the stores' tables folded): the scan's own last
+     * check.  Writing the summary adds up to its file's size on top. */
+    if (within_limit(sc, 0) != SCAN_OK) return -1;
     if (sc->done_set) {
         /* Segments: the last one merged into the others, the result the scan's. */
         if (scan_absorb_segment(sc) != 0) return -1;

@@ -64,6 +64,7 @@
 #define SUMMARY_BAD_LINES 5       /* line numbers kept of ragged rows */
 #define SUMMARY_MAX_MISSING 32    /* missing-value spellings */
 #define SUMMARY_MAX_MISSING_BYTES 1024 /* bytes of one spelling (the reader refuses more) */
+#define SUMMARY_MAX_CLASS_BYTES (1u << 20) /* bytes of a class label (the reader refuses more) */
 #define SUMMARY_BLOCK_ROWS 256    /* rows per block fed to the accumulators */
 
 /* Rows a summary counts exactly (2^53: the co-moments count in doubles). */

@@ -97,3 +97,18 @@ check mem_100K_limit_in_KiB "exit $RC: $(err_text)" \
 run $SHEAF scan -q -j2 "$T/w.csv" --target label --mem 1G -o "$T/l.sheaf"
 check mem_1G_scans "exit $RC: $(err_text)" test "$RC" = 0
 check mem_1G_same_summary "differs from the scan without --mem" cmp -s "$T/l.sheaf" "$T/t.sheaf"
+
+# A scan whose workers' OpenBLAS buffers fit also fits as a whole: the rows
+# held for the last co-moment block at a stream's end are summed by a
+# worker that has its buffer, not by the reading thread, which asked for a
+# third one (this 300-row -j2 scan with a target failed under 460 MiB of
+# address space and passed at 470; now it passes at 300, as -j1 does).
+"$PY" -c "
+import sys
+with open(sys.argv[1], 'w') as f:
+    f.write('a,b,c,y\n')
+    for i in range(300): f.write('%d,%.2f,%d,%.3f\n' % (i % 17, i / 7, i % 5, (i % 23) / 3))" "$T/s300.csv"
+bash -c 'ulimit -v $((400 * 1024)); exec timeout 60 "$@"' x $SHEAF scan -q -j2 "$T/s300.csv" \
+    -t y -o "$T/s300.sheaf" >"$T/out" 2>"$T/err"
+RC=$?
+check last_block_on_a_worker_400M "exit $RC: $(err_text)" [ "$RC" = 0 ]

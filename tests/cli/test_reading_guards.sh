@@ -275,3 +275,17 @@ check header.name_too_long "exit $RC: $(err_text)" holds '[ "$RC" -eq 3 ] && [ !
 "$SHEAF" scan "$T/longname2.csv" -q -o "$T/longname2.sheaf" 2>/dev/null
 run "$SHEAF" info "$T/longname2.sheaf"
 check header.name_at_limit_reads "exit $RC: $(err_text)" [ "$RC" -eq 0 ]
+# The same for a class label (a summary holds at most 1 MiB in one): a
+# target cell of 1,048,577 bytes is refused by the scan with its line (it
+# wrote a summary that info, screen and merge refused as damaged, exit 4);
+# one of exactly 1 MiB reads back.
+"$PY" -c 'import sys; open(sys.argv[1], "w").write("x,label\n1," + "a" * 1048577 + "\n2,b\n")' \
+    "$T/longlabel.csv"
+run "$SHEAF" scan "$T/longlabel.csv" -q -t label -o "$T/longlabel.sheaf"
+check target.label_too_long "exit $RC: $(err_text)" \
+    holds '[ "$RC" -eq 3 ] && grep -q "line 2: target .label. has a cell of 1048577 bytes" "$T/err" && [ ! -e "$T/longlabel.sheaf" ]'
+"$PY" -c 'import sys; open(sys.argv[1], "w").write("x,label\n1," + "a" * 1048576 + "\n2,b\n")' \
+    "$T/longlabel2.csv"
+"$SHEAF" scan "$T/longlabel2.csv" -q -t label -o "$T/longlabel2.sheaf" 2>/dev/null
+run "$SHEAF" screen "$T/longlabel2.sheaf"
+check target.label_at_limit_reads "exit $RC: $(err_text)" [ "$RC" -eq 0 ]
