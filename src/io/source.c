@@ -248,7 +248,7 @@ void source_close(source *s)
     free(s->gz);
     free(s->marks);
     if (s->zs) ZSTD_freeDStream(s->zs);
-    free(s->zs_stage);
+    free(s->stage);
     free(s->starts);
     free(s);
 }
@@ -338,8 +338,11 @@ static ssize_t output_then_fault(source *s, size_t n)
     return (ssize_t)n;
 }
 
-static ssize_t read_gzip(source *s, uint8_t *buf, size_t cap)
+/* One step into buf (room: the rest of the step, read_stepped): the bytes
+ * decoded (at least one, or 0 at the end), -1 on an error. */
+static ssize_t gzip_step(source *s, uint8_t *buf)
 {
+    const size_t cap = s->step_left;
     struct inflate_state *st = s->gz;
     size_t produced = 0;
     while (produced == 0) {
@@ -353,7 +356,7 @@ static ssize_t read_gzip(source *s, uint8_t *buf, size_t cap)
                 return gzip_fail(s, "%s: unexpected bytes after a gzip member at byte %s",
                                  source_unread_offset(s));
             isal_inflate_reset(st);
-            note_start(s, s->decoded); /* produced is 0 here: a member starts a read */
+            note_start(s, s->decoded + s->step_produced); /* produced is 0 here */
             memset(&s->gz_header, 0, sizeof s->gz_header);
             isal_gzip_header_init(&s->gz_header);
             s->gz_in_member = 1;
@@ -381,17 +384,24 @@ static ssize_t read_gzip(source *s, uint8_t *buf, size_t cap)
         st->next_out = buf + produced;
         st->avail_out = room;
         int rc = isal_inflate(st);
-        size_t used = (size_t)avail - st->avail_in, out = room - st->avail_out;
+        /* On some errors ISA-L leaves avail_in past what it was given (seen:
+         * 2^32 - 1 after an invalid symbol): no more than was given is taken
+         * as consumed or produced, so that nothing is read past the buffers. */
+        size_t left_in = st->avail_in <= (size_t)avail ? st->avail_in : (size_t)avail;
+        size_t left_out = st->avail_out <= room ? st->avail_out : room;
+        size_t used = (size_t)avail - left_in, out = room - left_out;
         source_consume(s, used);
+        const uint64_t at = s->decoded + s->step_produced + produced + out;
         if (s->marks && rc >= 0 && st->block_state != ISAL_BLOCK_FINISH &&
-            s->decoded + produced + out >= s->marks->next_at)
-            take_mark(s, s->decoded + produced + out);
+            at >= s->marks->next_at)
+            take_mark(s, at);
         produced += out;
         if (rc < 0) {
             gzip_fail(s, rc == ISAL_INCORRECT_CHECKSUM
                              ? "%s: corrupt gzip stream (checksum mismatch) near byte %s"
                              : "%s: corrupt gzip stream near byte %s",
                       source_unread_offset(s));
+            s->step_left -= produced;
             return output_then_fault(s, produced);
         }
         if (st->block_state == ISAL_BLOCK_FINISH) {
@@ -402,25 +412,15 @@ static ssize_t read_gzip(source *s, uint8_t *buf, size_t cap)
             return gzip_fail(s, "%s: truncated gzip stream (input ends inside a member at byte %s)",
                              s->raw_offset);
     }
+    s->step_left -= produced;
     return (ssize_t)produced;
 }
 
-/* zstd's decoder reports neither the output nor the input of a call that
- * fails, and how far it gets before a fault depends on the room it is
- * given.  So it is always given the same room, whatever a read asks for:
- * the rest of a step of ZSTD_STEP decoded bytes (steps counted from the
- * stream's start), in the caller's buffer when it has room for that, else
- * in a buffer of the source's own, handed out over the next reads.  Every
- * reader then sees the same bytes before a fault and the same byte offset
- * in its message (one read at a time, or a read-ahead thread's larger
- * blocks). */
-#define ZSTD_STEP ((size_t)1 << 17)
-
-/* One step's worth into dst (room: the rest of the step); the bytes decoded,
- * 0 at the end of the stream, -1 on an error (message set). */
+/* One step into dst (room: the rest of the step, read_stepped): the bytes
+ * decoded, 0 at the end of the stream, -1 on an error (message set). */
 static ssize_t zstd_step(source *s, uint8_t *dst)
 {
-    ZSTD_outBuffer out = {dst, s->zs_left, 0};
+    ZSTD_outBuffer out = {dst, s->step_left, 0};
     while (out.pos == 0) {
         ssize_t avail = source_raw_fill(s);
         if (avail < 0) return -1;
@@ -452,58 +452,73 @@ static ssize_t zstd_step(source *s, uint8_t *dst)
         }
         s->zs_hint = rc;
         /* A frame ended: the next starts (decoded counts the reads before). */
-        if (rc == 0) note_start(s, s->decoded + s->zs_produced + out.pos);
+        if (rc == 0) note_start(s, s->decoded + s->step_produced + out.pos);
     }
-    s->zs_left -= out.pos;
+    s->step_left -= out.pos;
     return (ssize_t)out.pos;
 }
 
-static ssize_t read_zstd(source *s, uint8_t *buf, size_t cap)
+/* The decoders report neither the output of a call that fails nor, for
+ * zstd, its input, and how far they get before a fault depends on the room
+ * they are given (ISA-L decodes into a buffer of its own when the room is
+ * small).  So a decoder is always given the same room, whatever a read asks
+ * for: the rest of a step of STEP_BYTES decoded bytes (steps counted from
+ * the stream's start), in the caller's buffer when it has room for that,
+ * else in a buffer of the source's own, handed out over the next reads.
+ * Every reader then sees the same bytes before a fault and the same byte
+ * offset in its message (one read at a time, or a read-ahead thread's
+ * larger blocks). */
+#define STEP_BYTES ((size_t)1 << 17)
+
+typedef ssize_t (*step_fn)(source *s, uint8_t *dst);
+
+static ssize_t read_stepped(source *s, uint8_t *buf, size_t cap, step_fn step)
 {
-    if (s->zs_taken < s->zs_staged) { /* the rest of a staged step */
-        size_t n = s->zs_staged - s->zs_taken < cap ? s->zs_staged - s->zs_taken : cap;
-        memcpy(buf, s->zs_stage + s->zs_taken, n);
-        s->zs_taken += n;
+    if (s->taken < s->staged) { /* the rest of a staged step */
+        size_t n = s->staged - s->taken < cap ? s->staged - s->taken : cap;
+        memcpy(buf, s->stage + s->taken, n);
+        s->taken += n;
         return (ssize_t)n;
     }
+    if (s->fault_next) return -1; /* after the bytes decoded before it */
     /* Whole steps into the caller's buffer while it has room for them; a
      * fault after some of them is handed out on the next read. */
     size_t produced = 0;
-    s->zs_produced = 0;
+    s->step_produced = 0;
     for (;;) {
-        if (s->zs_left == 0) s->zs_left = ZSTD_STEP;
-        if (cap - produced < s->zs_left) break;
-        size_t want = s->zs_left;
-        ssize_t n = zstd_step(s, buf + produced);
+        if (s->step_left == 0) s->step_left = STEP_BYTES;
+        if (cap - produced < s->step_left) break;
+        size_t want = s->step_left;
+        ssize_t n = step(s, buf + produced);
         if (n < 0) return output_then_fault(s, produced);
         produced += (size_t)n;
-        s->zs_produced = produced;
-        if ((size_t)n < want) return (ssize_t)produced; /* input ran short, or the end */
+        s->step_produced = produced;
+        /* Input ran short, the end, or a fault after these bytes. */
+        if ((size_t)n < want || s->fault_next) return (ssize_t)produced;
     }
     if (produced) return (ssize_t)produced;
     /* Less room than the rest of the step: decode it aside. */
-    if (!s->zs_stage && !(s->zs_stage = malloc(ZSTD_STEP))) {
+    if (!s->stage && !(s->stage = malloc(STEP_BYTES))) {
         fail(s, "%s: %s", "out of memory");
         s->nomem = 1;
         return -1;
     }
-    ssize_t n = zstd_step(s, s->zs_stage);
+    ssize_t n = step(s, s->stage);
     if (n <= 0) return n;
-    s->zs_staged = (size_t)n;
-    s->zs_taken = 0;
-    return read_zstd(s, buf, cap);
+    s->staged = (size_t)n;
+    s->taken = 0;
+    return read_stepped(s, buf, cap, step);
 }
 
 static ssize_t ahead_read(source *s, void *buf, size_t cap);
 
 static ssize_t decode(source *s, void *buf, size_t cap)
 {
-    if (s->fault_next) return -1;
     if (s->done || cap == 0) return 0;
     ssize_t n;
     switch (s->kind) {
-    case SOURCE_GZIP: n = read_gzip(s, buf, cap); break;
-    case SOURCE_ZSTD: n = read_zstd(s, buf, cap); break;
+    case SOURCE_GZIP: n = read_stepped(s, buf, cap, gzip_step); break;
+    case SOURCE_ZSTD: n = read_stepped(s, buf, cap, zstd_step); break;
     default: n = read_plain(s, buf, cap); break;
     }
     if (n == 0) s->done = 1;

@@ -47,10 +47,10 @@ struct source {
     struct isal_gzip_header gz_header; /* header being parsed */
     ZSTD_DStream *zs;         /* zstd state */
     size_t zs_hint;           /* last ZSTD_decompressStream result */
-    size_t zs_left;           /* bytes left in the current output step (read_zstd) */
-    uint8_t *zs_stage;        /* a step decoded for a read smaller than it, or NULL */
-    size_t zs_staged, zs_taken; /* its bytes, and those handed out */
-    size_t zs_produced;       /* bytes the current read_zstd put out before this step */
+    size_t step_left;         /* bytes left in the current output step (read_stepped) */
+    uint8_t *stage;           /* a step decoded for a read smaller than it, or NULL */
+    size_t staged, taken;     /* its bytes, and those handed out */
+    size_t step_produced;     /* bytes the current read put out before this step */
     int done;                 /* end of decoded input reached */
     int fault_next;           /* a decoder failed after some output: that output was handed
                                  out, the next read returns -1 (the message is in err) */

@@ -138,3 +138,13 @@ if command -v script >/dev/null; then
 else
     skip fault_order.progress "no script command"
 fi
+
+# 43 bytes of gzip whose deflate data holds an invalid symbol, after which
+# ISA-L reports 2^32 - 1 bytes of input left: the input pointer was moved
+# past the buffer and the scan read out of bounds (exit 139 at --chunk-size
+# 200).  Found by fuzz_scan_threads on compressed inputs (its corpus keeps
+# the input).  Now the damage is the error, the same at every -j.
+printf '\x1f\x8b\x08\x00\x00\x00\x00\x00\x00\x03\xcb\x4c\xd1\x29\x5f\x41\x32\x48\xcd\x4c\xcf\xa8\xd9\x49\x2a\xcd\xcc\x49\xd1\x49\x4c\x49\xe5\x02\x00\xaa\x20\xf2\x08\x46\x00\x00\x00' \
+    >"$T/symbol.csv.gz"
+same_error invalid_symbol_in_deflate "symbol.csv.gz: corrupt gzip stream near byte [0-9]+" \
+    "$SHEAF" scan "$T/symbol.csv.gz" -q

@@ -15,6 +15,11 @@
  * them, sealed while written (summary_set_seal_write).  The delimiter is detected; some
  * inputs run with a target (the last column, when its values are few) and
  * some with a small --max-record, from the hash as in fuzz_scan_split.c.
+ * Half of the inputs are written compressed instead, as gzip of one to three
+ * members or as zstd, with one byte of the compressed bytes flipped for half
+ * of those: a damaged stream must fail with the same message on every
+ * thread count (3 threads decode ahead on a thread of their own, in larger
+ * reads), and whatever it held before the damage must be read first.
  * Reference: sheaf's own scan on one thread (the whole-file and shard scans
  * are checked against each other by fuzz_scan_split.c, and the summary
  * against outside references by the unit and reference suites).
@@ -31,6 +36,9 @@
 #include <string.h>
 #include <sys/stat.h>
 #include <unistd.h>
+
+#include <zlib.h>
+#include <zstd.h>
 
 #include "summary/scan.h"
 #include "summary/summary.h"
@@ -177,13 +185,59 @@ static char *pick_target(const summary *s)
     return strdup(c->name);
 }
 
+/* data as gzip members (cut at the given points) into out; its length. */
+static size_t gzip_members(const uint8_t *data, size_t size, const size_t *cuts, int ncuts,
+                           uint8_t *out, size_t cap)
+{
+    size_t used = 0, from = 0;
+    for (int k = 0; k <= ncuts; k++) {
+        size_t to = k < ncuts ? cuts[k] : size;
+        z_stream z;
+        memset(&z, 0, sizeof z);
+        if (deflateInit2(&z, 6, Z_DEFLATED, 31, 8, Z_DEFAULT_STRATEGY) != Z_OK) fault("deflateInit2");
+        z.next_in = (Bytef *)(data + from);
+        z.avail_in = (uInt)(to - from);
+        z.next_out = out + used;
+        z.avail_out = (uInt)(cap - used);
+        if (deflate(&z, Z_FINISH) != Z_STREAM_END) fault("deflate");
+        used = cap - z.avail_out;
+        deflateEnd(&z);
+        from = to;
+    }
+    return used;
+}
+
+/* The input file: the bytes as they are, or compressed (and maybe damaged),
+ * as the hash says. */
+static void write_input(const uint8_t *data, size_t size, uint64_t h)
+{
+    static uint8_t packed[2 * MAX_INPUT_BYTES + 4096];
+    const uint8_t *bytes = data;
+    size_t len = size;
+    unsigned form = (unsigned)(h >> 58 & 3); /* 0, 3: plain; 1: gzip; 2: zstd */
+    if (form == 1) {
+        size_t cuts[2] = {size / 3, 2 * size / 3};
+        int ncuts = (int)(h >> 20 & 3) % 3;
+        if (ncuts == 1) cuts[0] = size / 2;
+        len = gzip_members(data, size, cuts, ncuts, packed, sizeof packed);
+        bytes = packed;
+    } else if (form == 2) {
+        len = ZSTD_compress(packed, sizeof packed, data, size, 3);
+        if (ZSTD_isError(len)) fault("ZSTD_compress: %s", ZSTD_getErrorName(len));
+        bytes = packed;
+    }
+    if (bytes == packed && (h >> 61 & 1) && len > 0)
+        packed[(h >> 8) % len] ^= (uint8_t)(1u << (h >> 24 & 7)); /* one bit of one byte */
+    FILE *f = fopen(input_path, "wb");
+    if (!f || fwrite(bytes, 1, len, f) != len || fclose(f) != 0) fault("cannot write %s", input_path);
+}
+
 int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
 {
     if (size > MAX_INPUT_BYTES) size = MAX_INPUT_BYTES;
     if (make_files() != 0) fault("cannot make a directory under TMPDIR");
-    FILE *f = fopen(input_path, "wb");
-    if (!f || fwrite(data, 1, size, f) != size || fclose(f) != 0) fault("cannot write %s", input_path);
     uint64_t h = fnv1a(data, size);
+    write_input(data, size, h);
     size_t chunk = 64 + (h & 0xffff) % 512;
 
     scan_options base;
