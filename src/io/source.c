@@ -390,6 +390,11 @@ static ssize_t gzip_step(source *s, uint8_t *buf)
         size_t left_in = st->avail_in <= (size_t)avail ? st->avail_in : (size_t)avail;
         size_t left_out = st->avail_out <= room ? st->avail_out : room;
         size_t used = (size_t)avail - left_in, out = room - left_out;
+        /* Nor are the bytes of a call that met damaged data taken: ISA-L's
+         * count of them is not to be trusted (it may count bytes it never
+         * wrote, whatever the buffer held).  A checksum mismatch is met after
+         * the member's data were decoded from valid codes: those are kept. */
+        if (rc < 0 && rc != ISAL_INCORRECT_CHECKSUM) out = 0;
         source_consume(s, used);
         const uint64_t at = s->decoded + s->step_produced + produced + out;
         if (s->marks && rc >= 0 && st->block_state != ISAL_BLOCK_FINISH &&
