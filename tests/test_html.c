@@ -51,6 +51,20 @@ Test(html, what_xml_cannot_hold_becomes_replacement_characters)
     EXPECT("ab\xe2\x88", "ab\xef\xbf\xbd\xef\xbf\xbd");               /* cut at the end */
 }
 
+Test(html, controls_that_could_reorder_or_hide_text_are_replaced)
+{
+    /* An unclosed right-to-left override in a column name drew the figures
+     * after it reversed ("(20.0%)" as "(%0.02)"): the bidirectional
+     * embeddings, overrides and isolates become one U+FFFD each, as do DEL
+     * and the C1 controls; the marks U+200E/U+200F and other text stay. */
+    EXPECT("rtl-\xe2\x80\xaeunclosed", "rtl-\xef\xbf\xbdunclosed");      /* U+202E */
+    EXPECT("\xe2\x80\xaa\xe2\x80\xab\xe2\x80\xac\xe2\x80\xad",
+           "\xef\xbf\xbd\xef\xbf\xbd\xef\xbf\xbd\xef\xbf\xbd");          /* U+202A..D */
+    EXPECT("\xe2\x81\xa6x\xe2\x81\xa9", "\xef\xbf\xbdx\xef\xbf\xbd");  /* U+2066, 2069 */
+    EXPECT("a\x7f" "b\xc2\x85" "c\xc2\x9f", "a\xef\xbf\xbd" "b\xef\xbf\xbd" "c\xef\xbf\xbd");
+    EXPECT("\xe2\x80\x8e\xe2\x80\xa9\xc2\xa0", "\xe2\x80\x8e\xe2\x80\xa9\xc2\xa0");
+}
+
 Test(html, an_embedded_nul_is_replaced)
 {
     char *got = escaped("a\0b", 3);

@@ -36,7 +36,8 @@ int cmd_page(int argc, char **argv)
         "the best columns, the principal components' scree chart and loadings, and\n"
         "the cautions. The page loads nothing from anywhere and reads without\n"
         "scripts. With --write-svg, each chart is also written as an SVG file of its\n"
-        "own. The screen inside uses screen's defaults unless --fdr or --redundancy\n"
+        "own (charts of an earlier page that this one does not draw stay in the\n"
+        "folder as they were: give each night a folder of its own). The screen inside uses screen's defaults unless --fdr or --redundancy\n"
         "say otherwise. With --base, the page also shows what drifted since that\n"
         "baseline summary, as sheaf drift reports it.",
         opts,

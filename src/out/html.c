@@ -84,6 +84,19 @@ void html_textf(html_buf *b, const char *fmt, ...)
     va_end(ap);
 }
 
+/* 1 when the well-formed sequence at s (len bytes) is a character a page
+ * shows as U+FFFD: DEL, the C1 controls, and the bidirectional embeddings,
+ * overrides and isolates (U+202A..U+202E, U+2066..U+2069), which would let a
+ * name turn the figures written after it right to left. */
+static int hidden_char(const unsigned char *s, size_t len)
+{
+    if (len == 1) return s[0] == 0x7f;
+    if (len == 2) return s[0] == 0xc2 && s[1] <= 0x9f;
+    if (len == 3 && s[0] == 0xe2 && s[1] == 0x80) return s[2] >= 0xaa && s[2] <= 0xae;
+    if (len == 3 && s[0] == 0xe2 && s[1] == 0x81) return s[2] >= 0xa6 && s[2] <= 0xa9;
+    return 0;
+}
+
 /* Length of the well-formed UTF-8 sequence at s (n bytes left) that XML 1.0
  * allows, or 0. */
 static size_t utf8_char(const unsigned char *s, size_t n)
@@ -122,7 +135,10 @@ void html_text_n(html_buf *b, const char *s, size_t n)
             continue;
         }
         size_t len = utf8_char(u + i, n - i);
-        if (len) {
+        if (len && hidden_char(u + i, len)) { /* one U+FFFD for the whole character */
+            html_raw(b, "\xef\xbf\xbd");
+            i += len;
+        } else if (len) {
             html_raw_n(b, s + i, len);
             i += len;
         } else {

@@ -6,7 +6,10 @@
  * as character references and replaces what XML 1.0 cannot hold (control
  * characters other than tab, newline and carriage return, and bytes that are
  * not well-formed UTF-8) by U+FFFD, so the result is text in an element or an
- * attribute value, never markup, in HTML and in XML alike.  Numbers and
+ * attribute value, never markup, in HTML and in XML alike.  DEL, the C1
+ * controls and the bidirectional embeddings, overrides and isolates become
+ * U+FFFD too: user text cannot turn the figures written after it right to
+ * left.  Numbers and
  * markup the program writes itself go through html_raw and html_printf.
  *
  * Memory: a failed allocation sets `failed` and later writes do nothing, so

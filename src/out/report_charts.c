@@ -12,6 +12,32 @@
 #include "stats/logp.h"
 #include "summary/access.h"
 
+#include <stdarg.h>
+
+/* A hover text of any length, formatted into a buffer that grows as needed
+ * (names come first and may be long: a fixed buffer cut the figures after
+ * them).  Returns the text, "" when memory ran out.  Free *buf at the end. */
+static const char *tip(char **buf, size_t *cap, const char *fmt, ...)
+    __attribute__((format(printf, 3, 4)));
+static const char *tip(char **buf, size_t *cap, const char *fmt, ...)
+{
+    va_list ap;
+    va_start(ap, fmt);
+    int n = vsnprintf(*buf, *buf ? *cap : 0, fmt, ap);
+    va_end(ap);
+    if (n < 0) return "";
+    if ((size_t)n >= *cap) {
+        char *p = realloc(*buf, (size_t)n + 1);
+        if (!p) return "";
+        *buf = p;
+        *cap = (size_t)n + 1;
+        va_start(ap, fmt);
+        vsnprintf(*buf, *cap, fmt, ap);
+        va_end(ap);
+    }
+    return *buf;
+}
+
 #define LABEL_CHARS 28    /* code points of a column name shown in a chart */
 #define CHAR_WIDTH 0.58   /* average glyph width, in font sizes, for layout */
 #define MAX_RELEVANCE 120 /* bars in the relevance chart */
@@ -91,6 +117,7 @@ static void chart_relevance(html_buf *b, const report *r, int standalone)
     double h = top + row * (double)shown + 40;
     svg_begin(b, w, h, "Relevance of each tested column: evidence against no association, and "
                        "normalized mutual information", standalone);
+    if (!(emax > 0)) emax = 1; /* q-level 1 and nothing below it: a scale all the same */
     double lmax = log10(1 + emax);
 #define EX(e) (left + bar * log10(1 + (e)) / lmax)
     svg_text(b, left, 14, "start", 12, SVG_INK, 0, "font-weight=\"600\"",
@@ -104,19 +131,22 @@ static void chart_relevance(html_buf *b, const report *r, int standalone)
         svg_text(b, EX(t), top - 10, "middle", 10, SVG_MUTED, 0, NULL, lab);
     }
     double et = evidence(log10(r->opt.screen.q_level));
+    char *tb = NULL;
+    size_t tcap = 0;
     for (size_t i = 0; i < shown; i++) {
         const screen_feature *f = &sr->features[idx[i]];
         double y = top + row * (double)i;
         const char *name = summary_name(r->s, f->col);
-        char cut[128], lp[40], lq[40], t[1024];
+        char cut[128], lp[40], lq[40];
         double e = evidence(isnan(f->log10_q) ? f->log10_p : f->log10_q);
         int infinite = !isfinite(e);
         if (infinite) e = emax;
         logp_format(lp, sizeof lp, f->log10_p, 3);
         if (isnan(f->log10_q)) snprintf(lq, sizeof lq, "none (%s)", f->unreliable ? "unreliable test" : "untested");
         else logp_format(lq, sizeof lq, f->log10_q, 3);
-        snprintf(t, sizeof t, "%s: p = %s, q = %s, normalized MI %.3f; %s: %s", name, lp, lq,
-                 f->mi.present ? f->mi.normalized : NAN, f->keep ? "kept" : "dropped", f->reasons);
+        const char *t = tip(&tb, &tcap, "%s: p = %s, q = %s, normalized MI %.3f; %s: %s", name, lp,
+                            lq, f->mi.present ? f->mi.normalized : NAN,
+                            f->keep ? "kept" : "dropped", f->reasons);
         html_printf(b, "<g class=\"rel\" data-kept=\"%d\" data-log10-p=\"", f->keep);
         html_number(b, f->log10_p);
         html_raw(b, "\" data-log10-q=\"");
@@ -143,6 +173,7 @@ static void chart_relevance(html_buf *b, const report *r, int standalone)
         }
         html_raw(b, "</g>\n");
     }
+    free(tb);
     double y1 = top + row * (double)shown;
     svg_line(b, EX(et), top - 4, EX(et), y1 + 2, SVG_ACCENT, 1.6, "5 3");
     char ql[64];
@@ -223,7 +254,8 @@ static void chart_heatmap(html_buf *b, const report *r, int standalone)
     double w = mx + side + lab + 10, h = my + side + 100;
     if (w < 520) w = 520;
     svg_begin(b, w, h, "Correlation heat map in clustered order, with its dendrogram", standalone);
-    char cut[128], t[1024], col[8];
+    char cut[128], col[8], *tb = NULL;
+    size_t tcap = 0;
     for (size_t j = 0; j < n; j++) {
         const char *name = summary_name(r->s, r->heat_cols[j]);
         svg_text(b, mx + cell * ((double)j + 0.5) + font * 0.35, my - 4, "start", font, SVG_INK, -90,
@@ -246,8 +278,10 @@ static void chart_heatmap(html_buf *b, const report *r, int standalone)
             double v = r->heat_r[i * n + j];
             svg_diverging(v, col);
             int red = r->heat_redundant[i * n + j];
-            snprintf(t, sizeof t, "%s \xc3\x97 %s: r = %.3f%s", summary_name(r->s, r->heat_cols[i]),
-                     summary_name(r->s, r->heat_cols[j]), v, red ? " (pruned as redundant)" : "");
+            const char *t = tip(&tb, &tcap, "%s \xc3\x97 %s: r = %.3f%s",
+                                summary_name(r->s, r->heat_cols[i]),
+                                summary_name(r->s, r->heat_cols[j]), v,
+                                red ? " (pruned as redundant)" : "");
             html_buf a;
             html_init(&a);
             html_raw(&a, "class=\"cell\" data-r=\"");
@@ -267,6 +301,7 @@ static void chart_heatmap(html_buf *b, const report *r, int standalone)
                          svg_dark(col) ? "#ffffff" : SVG_INK, 0, "pointer-events=\"none\"", vt);
             }
         }
+    free(tb);
     html_raw(b, "</g>\n");
     if (n > 1) dendrogram(b, r, 4, dend - 4, my, cell);
     /* legend */
@@ -310,11 +345,13 @@ static void chart_balance(html_buf *b, const report *r, int standalone)
     for (uint32_t i = 0; i < shown; i++) {
         uint64_t n = summary_class_rows(r->s, i);
         double y = 22 + row * i, share = total ? (double)n / (double)total : 0;
-        char cut[128], t[512], v[64];
+        char cut[128], v[64], *tb = NULL;
+        size_t tcap = 0;
         const char *lab = summary_class_label(r->s, i);
         svg_text(b, left - 6, y + row * 0.7, "end", font, SVG_INK, 0, "class=\"label\"", short_label(lab, cut, sizeof cut));
-        snprintf(t, sizeof t, "%s: %llu rows (%.2f%%)", lab, (unsigned long long)n, 100 * share);
-        svg_rect(b, left, y + 3, most ? bar * (double)n / (double)most : 0, row - 6, svg_class_color(i), t);
+        svg_rect(b, left, y + 3, most ? bar * (double)n / (double)most : 0, row - 6, svg_class_color(i),
+                 tip(&tb, &tcap, "%s: %llu rows (%.2f%%)", lab, (unsigned long long)n, 100 * share));
+        free(tb);
         snprintf(v, sizeof v, "%llu (%.1f%%)", (unsigned long long)n, 100 * share);
         svg_text(b, left + (most ? bar * (double)n / (double)most : 0) + 5, y + row * 0.7, "start", 10, SVG_INK, 0, NULL, v);
     }
@@ -350,9 +387,11 @@ static void chart_classes(html_buf *b, const report *r, size_t which, int standa
     uint32_t cls[MAX_CLASS_LINES];
     size_t m = drawn_classes(r, cls);
     const double w = 380, h = 190, left = 36, top = 30, pw = w - left - 14, ph = h - top - 40;
-    char title[512];
-    snprintf(title, sizeof title, "%s by class: share of each class's rows per bin", name);
-    svg_begin(b, w, h, title, standalone);
+    char *tb = NULL;
+    size_t tcap = 0;
+    svg_begin(b, w, h, tip(&tb, &tcap, "%s by class: share of each class's rows per bin", name),
+              standalone);
+    free(tb);
     char cut[128];
     html_buf a;
     html_init(&a);
@@ -388,9 +427,11 @@ static void chart_classes(html_buf *b, const report *r, size_t which, int standa
         uint64_t tot = 0;
         for (size_t k = 0; k < REPORT_BINS; k++) tot += hh[k];
         if (!tot) continue;
-        char t[512];
-        snprintf(t, sizeof t, "%s = %s: %llu rows with a number", summary_target_name(r->s),
-                 summary_class_label(r->s, cls[i]), (unsigned long long)tot);
+        char *tb = NULL;
+        size_t tcap = 0;
+        const char *t = tip(&tb, &tcap, "%s = %s: %llu rows with a number",
+                            summary_target_name(r->s), summary_class_label(r->s, cls[i]),
+                            (unsigned long long)tot);
         const char *dash = svg_class_dash(i);
         html_raw(b, "<g class=\"class-line\" data-class=\"");
         html_text(b, summary_class_label(r->s, cls[i]));
@@ -405,6 +446,7 @@ static void chart_classes(html_buf *b, const report *r, size_t which, int standa
             svg_path_to(b, 0, left + bw * (double)(k + 1), y);
         }
         svg_path_end(b, t);
+        free(tb);
         html_raw(b, "</g>\n");
     }
     /* legend */
@@ -519,7 +561,8 @@ static void chart_loadings(html_buf *b, const report *r, int standalone)
     double w = left + cw * (double)k + 20, h = top + rh * (double)rows + 44;
     if (w < 300) w = 300;
     svg_begin(b, w, h, "Loadings of the kept principal components", standalone);
-    char lab[64], col[8], cut[128], t[512];
+    char lab[64], col[8], cut[128], *tb = NULL;
+    size_t tcap = 0;
     for (size_t c = 0; c < k; c++) {
         snprintf(lab, sizeof lab, "PC%zu", c + 1);
         svg_text(b, left + cw * ((double)c + 0.5), top - 6, "middle", 10, SVG_INK, 0, "font-weight=\"600\"", lab);
@@ -531,13 +574,14 @@ static void chart_loadings(html_buf *b, const report *r, int standalone)
         for (size_t c = 0; c < k; c++) {
             double v = p->loadings[c * p->p + j];
             svg_diverging(v, col);
-            snprintf(t, sizeof t, "%s on PC%zu: %.4f", name, c + 1, v);
-            svg_rect(b, left + cw * (double)c, top + rh * (double)j, cw - 1, rh - 1, col, t);
+            svg_rect(b, left + cw * (double)c, top + rh * (double)j, cw - 1, rh - 1, col,
+                     tip(&tb, &tcap, "%s on PC%zu: %.4f", name, c + 1, v));
             snprintf(lab, sizeof lab, "%.2f", v);
             svg_text(b, left + cw * ((double)c + 0.5), top + rh * ((double)j + 0.72), "middle", 9,
                      svg_dark(col) ? "#ffffff" : SVG_INK, 0, "pointer-events=\"none\"", lab);
         }
     }
+    free(tb);
     if (rows < p->p) {
         snprintf(lab, sizeof lab, "first %zu of %zu columns", rows, p->p);
         svg_text(b, left, h - 26, "start", 9, SVG_MUTED, 0, NULL, lab);

@@ -43,8 +43,22 @@ static int add_output(outputs *o, const char *path, const html_buf *b, char *err
     return 0;
 }
 
-static int open_charts(const report *r, const report_page *p, const char *dir, outputs *o,
-                       char *err, size_t errlen)
+/* 1 when paths a and b name one file: the same folder (by identity) and
+ * the same last name, whether the file exists yet or not. */
+static int same_place(const char *a, const char *b)
+{
+    const char *sa = strrchr(a, '/'), *sb = strrchr(b, '/');
+    const char *na = sa ? sa + 1 : a, *nb = sb ? sb + 1 : b;
+    if (strcmp(na, nb) != 0) return 0;
+    char da[4096], db[4096];
+    snprintf(da, sizeof da, "%.*s", sa ? (int)(sa - a) + (sa == a) : 1, sa ? a : ".");
+    snprintf(db, sizeof db, "%.*s", sb ? (int)(sb - b) + (sb == b) : 1, sb ? b : ".");
+    struct stat x, y;
+    return stat(da, &x) == 0 && stat(db, &y) == 0 && x.st_dev == y.st_dev && x.st_ino == y.st_ino;
+}
+
+static int open_charts(const report *r, const report_page *p, const char *dir, const char *page,
+                       outputs *o, char *err, size_t errlen)
 {
     struct stat st;
     if (stat(dir, &st) != 0 || !S_ISDIR(st.st_mode)) {
@@ -69,7 +83,10 @@ static int open_charts(const report *r, const report_page *p, const char *dir, o
         }
         snprintf(path, len, "%s/%s", dir, name);
         int rc = 0;
-        if (is_input(p, path)) {
+        if (page && same_place(path, page)) {
+            snprintf(err, errlen, "%s: the page and a chart would be the same file", path);
+            rc = REPORT_FILES_WRITE;
+        } else if (is_input(p, path)) {
             snprintf(err, errlen, "%s: is the same file as an input; refusing to overwrite it",
                      path);
             rc = REPORT_FILES_WRITE;
@@ -105,9 +122,18 @@ int report_files_write(const report *r, const report_page *p, const char *html_p
             snprintf(err, errlen, "%s: cannot create the folder: %s", svg_dir, strerror(errno));
             rc = REPORT_FILES_WRITE;
         }
-        if (!rc) rc = open_charts(r, p, svg_dir, &o, err, errlen);
+        if (!rc) rc = open_charts(r, p, svg_dir, html_path, &o, err, errlen);
     }
-    /* The charts, then the page, each renamed into place. */
+    /* The page is written before any chart is put in place, so that a page
+     * that cannot be written leaves no chart (to a file it is renamed into
+     * place last; standard output or a device keeps what it got when a
+     * chart then fails, as every pass's standard output does).  Then the
+     * charts, then the page, each renamed into place. */
+    if (!rc && html_path && (sink_write(o.sinks[0], page.data, page.len) ||
+                             sink_flush(o.sinks[0]))) {
+        sink_error(o.sinks[0], err, errlen);
+        rc = REPORT_FILES_WRITE;
+    }
     for (size_t i = html_path ? 1 : 0; !rc && i < o.n; i++) {
         sink *k = o.sinks[i];
         o.sinks[i] = NULL;
@@ -116,13 +142,7 @@ int report_files_write(const report *r, const report_page *p, const char *html_p
     if (!rc && html_path) {
         sink *k = o.sinks[0];
         o.sinks[0] = NULL;
-        if (sink_write(k, page.data, page.len)) {
-            sink_error(k, err, errlen);
-            sink_abort(k);
-            rc = REPORT_FILES_WRITE;
-        } else if (sink_close(k, err, errlen)) {
-            rc = REPORT_FILES_WRITE;
-        }
+        if (sink_close(k, err, errlen)) rc = REPORT_FILES_WRITE;
     }
     if (rc) {
         for (size_t i = 0; i < o.n; i++)

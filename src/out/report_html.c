@@ -171,8 +171,7 @@ static void overview(html_buf *b, const report *r, const report_page *p)
     const char *tn = summary_target_name(s);
     target_task task = summary_task(s, r->opt.numeric_share);
     if (tn) {
-        snprintf(v, sizeof v, "%s", tn);
-        fact(b, "target", v);
+        fact(b, "target", tn);
         snprintf(v, sizeof v, "%s%s", task_name(task), summary_declared_task(s) ? " (declared)" : " (decided from the target's cells)");
         if (task == TASK_CLASSIFY && summary_classes_kept(s))
             snprintf(v + strlen(v), sizeof v - strlen(v), ", %u classes", summary_class_count(s));
@@ -186,11 +185,16 @@ static void overview(html_buf *b, const report *r, const report_page *p)
         fact(b, "screen", v);
     }
     uint32_t nm = summary_missing_spellings(s);
-    snprintf(v, sizeof v, "%u missing-value spelling%s besides the empty cell%s", nm, nm == 1 ? "" : "s",
+    /* Every spelling whole (each is at most SUMMARY_MAX_MISSING_BYTES). */
+    size_t cap = 256 + (size_t)nm * (SUMMARY_MAX_MISSING_BYTES + 2);
+    char *how = malloc(cap);
+    if (!how) { b->failed = 1; return; }
+    snprintf(how, cap, "%u missing-value spelling%s besides the empty cell%s", nm, nm == 1 ? "" : "s",
              nm ? (summary_missing_any_case(s) ? ", matched in any letter case" : ", matched byte for byte") : "");
-    for (uint32_t i = 0; i < nm && strlen(v) + 40 < sizeof v; i++)
-        snprintf(v + strlen(v), sizeof v - strlen(v), "%s%.32s", i ? ", " : ": ", summary_missing_spelling(s, i));
-    fact(b, "how it was scanned", v);
+    for (uint32_t i = 0; i < nm; i++)
+        snprintf(how + strlen(how), cap - strlen(how), "%s%s", i ? ", " : ": ", summary_missing_spelling(s, i));
+    fact(b, "how it was scanned", how);
+    free(how);
     if (p->made) fact(b, "summary written", p->made);
     html_raw(b, "</dl>\n");
     if (ns) {
@@ -375,7 +379,11 @@ int report_html_write(const report *r, const report_page *p, html_buf *b)
                     "column determines the target), a size of the effect that the p-value is not.</p>\n");
         for (size_t i = 0; i < n; i++) if (kind[i] == CHART_RELEVANCE) figure(b, r, kind[i], arg[i]);
     } else {
-        html_raw(b, "<p class=\"read\">No column was tested: the summary was scanned without a target.</p>\n");
+        html_raw(b, summary_target_column(r->s) >= 0
+                        ? "<p class=\"read\">No column was tested against the target (too few rows, "
+                          "or no column a test applies to).</p>\n"
+                        : "<p class=\"read\">No column was tested: the summary was scanned without a "
+                          "target.</p>\n");
     }
     html_raw(b, "</section>\n<section id=\"correlation\"><h2>Correlation</h2>\n");
     if (has_heat) {

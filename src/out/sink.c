@@ -205,6 +205,11 @@ void sink_error(const sink *s, char *err, size_t errlen)
              s->error ? strerror(s->error) : "the compressor failed");
 }
 
+int sink_flush(sink *s)
+{
+    return drain(s, 0) != 0 || s->failed ? -1 : 0;
+}
+
 int sink_close(sink *s, char *err, size_t errlen)
 {
     drain(s, 0);

@@ -33,6 +33,10 @@ int sink_write(sink *s, const void *data, size_t len);
 char *sink_reserve(sink *s, size_t n);
 /* Marks n bytes written at the last sink_reserve's pointer. */
 void sink_commit(sink *s, size_t n);
+/* Hands the bytes buffered so far on (to the file or descriptor; a
+ * compressed stream keeps what its compressor holds): 0, or -1 once a write
+ * failed (the error is kept for sink_close and sink_error). */
+int sink_flush(sink *s);
 /* Flushes, finishes the compressed stream, renames into place.  Returns 0, or
  * -1 with a message (and nothing left under the final name). */
 int sink_close(sink *s, char *err, size_t errlen);

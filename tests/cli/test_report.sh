@@ -196,3 +196,55 @@ PY
 else
     skip base.all "$GEN not built"
 fi
+
+# The page audit's findings (each failed before):
+# a right-to-left override in a category drew the share after it reversed
+# ("(20.0%)" as "(%0.02)"): it is shown as U+FFFD;
+printf 'zone,x\nnorth,1\nsouth,2\nnorth,3\nsouth,4\n' >"$T/rb.csv"
+printf 'zone,x\nnorth,1\nsouth,2\nrtl-\xe2\x80\xaeunclosed,3\nsouth,4\nnorth,5\n' >"$T/rn.csv"
+"$SHEAF" scan -q "$T/rb.csv" -o "$T/rb.sheaf" && "$SHEAF" scan -q "$T/rn.csv" -o "$T/rn.sheaf"
+run "$SHEAF" page "$T/rn.sheaf" --base "$T/rb.sheaf" -o "$T/rtl.html"
+check page_audit.no_bidi_override "exit $RC: $(err_text)" \
+    holds '[ "$RC" = 0 ] && ! grep -q "$(printf "\xe2\x80\xae")" "$T/rtl.html" && grep -q "rtl-$(printf "\xef\xbf\xbd")unclosed" "$T/rtl.html"'
+# a 1000-byte column name cut the q-value off its hover text (q = 1.9 for
+# 1.98e-11): the text is whole;
+"$PY" - "$T/long.csv" <<'EOF2'
+import random, sys
+random.seed(1)
+with open(sys.argv[1], "w") as f:
+    f.write("w" * 1000 + ",b,c,cls\n")
+    for i in range(200):
+        k = i % 2; x = random.gauss(k, 1)
+        f.write("%.3f,%.3f,%.3f,%s\n" % (x, x + random.gauss(0, 1), random.gauss(0, 1), "ab"[k]))
+EOF2
+"$SHEAF" scan -q "$T/long.csv" -o "$T/long.sheaf" --target cls
+run "$SHEAF" page "$T/long.sheaf" -o "$T/long.html"
+check page_audit.long_name_hover_whole "$(grep -o ': p = [^<]*</title>' "$T/long.html" | head -1)" \
+    holds 'grep -q "w: p = [^<]*, q = [^<]*, normalized MI [0-9.]*; kept: [^<]*</title>" "$T/long.html"'
+# a summary with a target but no test said it was scanned without a target;
+printf 'a,b,c,t\n1.5,2,x,yes\n' >"$T/one.csv"
+"$SHEAF" scan -q "$T/one.csv" -o "$T/one.sheaf" --target t
+run "$SHEAF" page "$T/one.sheaf" -o "$T/one.html"
+check page_audit.target_without_tests "$(grep -o 'No column was tested[^<]*' "$T/one.html")" \
+    holds '! grep -q "scanned without a target" "$T/one.html" && grep -q "No column was tested against the target" "$T/one.html"'
+# --fdr 1 with nothing below it: -nan coordinates in the relevance chart;
+printf 'f,cls\n1,a\n2,a\n3,a\n1,b\n2,b\n3,b\n' >"$T/null.csv"
+"$SHEAF" scan -q "$T/null.csv" -o "$T/null.sheaf" --target cls
+run "$SHEAF" page "$T/null.sheaf" --fdr 1 -o "$T/null.html" --write-svg "$T/null-svg"
+check page_audit.no_nan_coordinates "exit $RC: $(grep -cE '(x|y|x1|x2|y1|y2|width|height)="-?nan"' "$T/null-svg/relevance.svg")" \
+    holds '[ "$RC" = 0 ] && ! grep -qE "(x|y|x1|x2|y1|y2|width|height)=\"-?nan\"" "$T/null-svg/relevance.svg" "$T/null.html"'
+# a page that cannot be written left its charts in place;
+run "$SHEAF" page "$T/long.sheaf" -o /dev/full --write-svg "$T/full-svg"
+check page_audit.failed_page_leaves_no_chart "exit $RC: $(ls "$T/full-svg" 2>&1 | tr '\n' ' ')" \
+    holds '[ "$RC" = 1 ] && [ ! -e "$T/full-svg" ]'
+# -o under a chart's name in the chart folder replaced the chart silently;
+mkdir -p "$T/same"
+run "$SHEAF" page "$T/long.sheaf" -o "$T/same/heatmap.svg" --write-svg "$T/same"
+check page_audit.page_as_a_chart_refused "exit $RC: $(err_text)" \
+    holds '[ "$RC" != 0 ] && grep -q "the page and a chart would be the same file" "$T/err" && [ ! -e "$T/same/heatmap.svg" ]'
+# and the missing spellings were cut at 512 bytes (19 of 31 listed).
+"$SHEAF" scan -q "$T/one.csv" -o "$T/miss.sheaf" --target t \
+    --missing "$("$PY" -c 'print("a" + "\u00e9" * 20 + "," + ",".join("missing-spelling-%02d" % i for i in range(30)), end="")')"
+"$SHEAF" page "$T/miss.sheaf" -o "$T/miss.html"
+check page_audit.every_spelling_listed "$(grep -o 'missing-spelling-[0-9]*' "$T/miss.html" | wc -l) of 30" \
+    [ "$(grep -o 'missing-spelling-[0-9]*' "$T/miss.html" | wc -l)" = 30 ]
