@@ -206,8 +206,11 @@ static void print_csv(const drift_report *d)
             if (c->text) printf(",%zu,%zu", c->appeared, c->vanished); else fputs(",,", stdout);
             csv_number(c->base.ranked ? c->base.q : NAN);
             csv_number(c->next.ranked ? c->next.q : NAN);
-            if (c->base.ranked) printf(",%zu", c->base.rank); else fputs(",", stdout);
-            if (c->next.ranked) printf(",%zu", c->next.rank); else fputs(",", stdout);
+            /* A rank is among the kept columns: none for a dropped one. */
+            if (c->base.ranked && c->base.rank) printf(",%zu", c->base.rank);
+            else fputs(",", stdout);
+            if (c->next.ranked && c->next.rank) printf(",%zu", c->next.rank);
+            else fputs(",", stdout);
             fputc('\n', stdout);
         }
 }
@@ -231,7 +234,7 @@ static void json_side(json_out *j, const char *key, const drift_side *s, int rel
     json_key(j, "table_overflowed"); json_bool(j, s->overflowed);
     if (relevance) {
         json_key(j, "q"); json_number(j, s->ranked ? s->q : NAN);
-        json_key(j, "rank"); if (s->ranked) json_uint(j, s->rank); else json_null(j);
+        json_key(j, "rank"); if (s->ranked && s->rank) json_uint(j, s->rank); else json_null(j);
     }
     json_object_end(j);
 }

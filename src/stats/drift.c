@@ -72,6 +72,20 @@ static const char *mode_name(column_mode m)
     return m == COLUMN_NUMERIC ? "numeric" : m == COLUMN_CATEGORICAL ? "categorical" : "undeclared";
 }
 
+/* The column of `other` paired with column c of s: columns are matched by
+ * name, and a name that several columns share by occurrence (the k-th
+ * column of that name with the k-th), so that two summaries of one file
+ * pair every column with itself.  -1 when other has no such column. */
+static long paired_column(const summary *s, size_t c, const summary *other)
+{
+    const char *name = summary_name(s, c);
+    size_t k = 0;
+    for (size_t i = 0; i < c; i++) k += !strcmp(summary_name(s, i), name);
+    for (size_t i = 0; i < summary_columns(other); i++)
+        if (!strcmp(summary_name(other, i), name) && k-- == 0) return (long)i;
+    return -1;
+}
+
 int drift_compatible(const summary *base, const summary *next, char *msg, size_t msglen)
 {
     size_t used = 0;
@@ -95,7 +109,7 @@ int drift_compatible(const summary *base, const summary *next, char *msg, size_t
         note(msg, msglen, &used, "missing-value spellings differ");
     size_t listed = 0, more = 0;
     for (size_t c = 0; c < summary_columns(base); c++) {
-        long d = summary_find_column(next, summary_name(base, c));
+        long d = paired_column(base, c, next);
         if (d < 0 || summary_mode(base, c) == summary_mode(next, (size_t)d)) continue;
         if (listed++ < 6)
             note(msg, msglen, &used, "column '%s' declared %s vs %s", summary_name(base, c),
@@ -219,6 +233,7 @@ static void numeric_drift(const summary *base, const summary *next, drift_column
 {
     size_t bc = (size_t)c->base.col, nc = (size_t)c->next.col;
     double mb = c->base.mean, mn = c->next.mean, sd = c->base.sd;
+    if (c->base.numbers == 1) sd = 0; /* one number is a constant baseline */
     if (isfinite(mb) && isfinite(mn)) {
         if (isfinite(sd) && sd > 0) c->mean_shift = (mn - mb) / sd;
         else if (isfinite(sd)) c->mean_shift = mn == mb ? 0 : copysign(INFINITY, mn - mb);
@@ -344,8 +359,21 @@ static void text_drift(const summary *base, const summary *next, drift_column *c
     uint64_t tb = values_total(vb), tn = values_total(vn);
     int ob = values_overflowed(vb), on = values_overflowed(vn);
     c->text = 1;
-    c->appeared_known = !ob;
-    c->vanished_known = !on;
+    /* A category is known to have appeared when the baseline's table is
+     * whole; all of them are known only when the new night's is whole too
+     * (one first seen after its table filled is in no table).  The same for
+     * vanished ones, the other way round. */
+    c->appeared_known = !ob && !on;
+    c->vanished_known = !on && !ob;
+    /* Cells outside a full table may hold a category that came or went,
+     * unseen: when they are enough for one to pass the share, the column
+     * drifts (its table overflowed while the other night's did not, itself
+     * a change). */
+    double share = o->max_share_change;
+    if (!ob && on && (double)values_overflow_total(vn) >= share * (double)tn)
+        c->flags |= DRIFT_CATEGORIES;
+    if (ob && !on && (double)values_overflow_total(vb) >= share * (double)tb)
+        c->flags |= DRIFT_CATEGORIES;
     memcpy(sorted, eb, nb * sizeof *eb);
     qsort(sorted, nb, sizeof *sorted, by_hash);
 
@@ -451,6 +479,9 @@ static void compare_column(const summary *base, const summary *next, drift_colum
     if (c->next.col < 0) { c->flags |= DRIFT_VANISHED; return; }
     double m = o->max_share_change;
     if (fabs(c->next.missing_share - c->base.missing_share) >= m) c->flags |= DRIFT_MISSING;
+    /* A night of no rows at all has no share to compare: against one with
+     * rows, every column drifts by its missing cells. */
+    if ((summary_rows(base) == 0) != (summary_rows(next) == 0)) c->flags |= DRIFT_MISSING;
     if (fabs(c->next.non_numeric_share - c->base.non_numeric_share) >= m)
         c->flags |= DRIFT_NON_NUMERIC;
     /* The expected distinct count of a sample is concave in its size and 0
@@ -464,6 +495,9 @@ static void compare_column(const summary *base, const summary *next, drift_colum
         double excess = dn < lo ? lo - dn : dn > hi ? dn - hi : 0;
         if (excess >= m * pn) c->flags |= DRIFT_DISTINCT;
     }
+    /* A column with no present cell on one side has no kind there: its
+     * missing share tells the change, not a change of kind. */
+    if (!c->base.present || !c->next.present) return;
     if (c->base.kind != c->next.kind) { c->flags |= DRIFT_KIND; return; }
     if (c->base.kind == KIND_NUMERIC) numeric_drift(base, next, c, o, oom);
     else text_drift(base, next, c, o, oom);
@@ -587,7 +621,7 @@ drift_status drift_run(const summary *base, const summary *next, const drift_opt
         drift_column *c = &r->columns[r->ncolumns];
         column_init(c);
         c->name = summary_name(base, i);
-        long j = summary_find_column(next, c->name);
+        long j = paired_column(base, i, next);
         side_of(base, (long)i, o, &c->base);
         side_of(next, j, o, &c->next);
         of_base[i] = (long)r->ncolumns;
@@ -595,7 +629,7 @@ drift_status drift_run(const summary *base, const summary *next, const drift_opt
         r->ncolumns++;
     }
     for (size_t j = 0; j < nn; j++) {
-        if (summary_find_column(base, summary_name(next, j)) >= 0) continue;
+        if (paired_column(next, j, base) >= 0) continue;
         drift_column *c = &r->columns[r->ncolumns];
         column_init(c);
         c->name = summary_name(next, j);

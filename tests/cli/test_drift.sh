@@ -179,3 +179,49 @@ $SHEAF drift --help >"$T/help"
 check vocabulary.shared_letters "$(grep -- '--format\|--target' "$T/help" | tr '\n' '|')" \
     eval 'grep -q "^  -f, --format" "$T/help" && grep -q "^  -t, --target" "$T/help" &&
           grep -q "^      --numeric-share" "$T/help" && grep -q "^      --fdr" "$T/help"'
+
+# The drift audit's findings (each failed before; references by construction
+# or pandas value_counts where named):
+# duplicate column names are matched by occurrence: a summary against
+# itself is quiet (the second 'temp' was compared with the first, exit 7);
+printf 'temp,temp\n1,10\n2,20\n3,30\n4,45\n5,50\n' >"$T/dup.csv"
+$SHEAF scan -q "$T/dup.csv" -o "$T/dup.sheaf" 2>/dev/null
+run $SHEAF drift "$T/dup.sheaf" "$T/dup.sheaf"
+check audit.duplicate_names_against_itself "exit $RC: $(head -n 1 "$T/out")" [ "$RC" = 0 ]
+# a category on 40% of the new night, past its full table (the baseline's
+# whole): pandas value_counts finds 'surge' on 40 of 100 cells; the column
+# drifts and the appeared list is not called complete;
+{ echo code; for i in $(seq 20); do echo a; done; } >"$T/ca.csv"
+{ echo code; for i in 1 2 3 4 5; do echo id$i; done; for i in $(seq 40); do echo surge; done
+  for i in $(seq 55); do echo a; done; } >"$T/cb.csv"
+$SHEAF scan -q --max-levels 4 "$T/ca.csv" -o "$T/ca.sheaf" 2>/dev/null
+$SHEAF scan -q --max-levels 4 "$T/cb.csv" -o "$T/cb.sheaf" 2>/dev/null
+run $SHEAF drift "$T/ca.sheaf" "$T/cb.sheaf" -f json
+check audit.category_past_a_full_table "exit $RC" \
+    holds '[ "$RC" = 7 ] && "$PY" -c "
+import json, sys
+c = json.load(open(sys.argv[1]))[\"columns\"][0]
+sys.exit(0 if \"categories\" in c[\"flags\"] and c[\"text\"][\"appeared\"][\"known\"] is False else 1)" "$T/out"'
+# a night of no rows against one with rows drifts, either way round;
+printf 'flow,temp\n' >"$T/e0.csv"
+printf 'flow,temp\n1.5,20\n2.5,21\n3.5,22\n4.5,23\n' >"$T/e4.csv"
+$SHEAF scan -q "$T/e0.csv" -o "$T/e0.sheaf" && $SHEAF scan -q "$T/e4.csv" -o "$T/e4.sheaf"
+run $SHEAF drift "$T/e4.sheaf" "$T/e0.sheaf"
+rc1=$RC
+run $SHEAF drift "$T/e0.sheaf" "$T/e4.sheaf"
+check audit.empty_night_drifts "exits $rc1 and $RC" holds '[ "$rc1" = 7 ] && [ "$RC" = 7 ]'
+# a baseline of one number is constant: the shift is infinite and flags;
+printf 'flow\n20\n' >"$T/n1.csv"
+printf 'flow\n20\n20\n20\n20\n1000\n' >"$T/n5.csv"
+$SHEAF scan -q "$T/n1.csv" -o "$T/n1.sheaf" 2>/dev/null && $SHEAF scan -q "$T/n5.csv" -o "$T/n5.sheaf" 2>/dev/null
+run $SHEAF drift "$T/n1.sheaf" "$T/n5.sheaf" -f csv
+check audit.one_number_baseline_shift "$(tail -n 1 "$T/out" | cut -d, -f1-3,10)" \
+    holds 'tail -n 1 "$T/out" | cut -d, -f3,10 | grep -q "mean_shift.*,inf$"'
+# a text column that becomes all missing drifts by its missing share, not as
+# a change of kind;
+printf 'zone,x\nnorth,1\nsouth,2\nnorth,3\n' >"$T/k1.csv"
+printf 'zone,x\n,1\n,2\n,3\n' >"$T/k2.csv"
+$SHEAF scan -q "$T/k1.csv" -o "$T/k1.sheaf" && $SHEAF scan -q "$T/k2.csv" -o "$T/k2.sheaf"
+run $SHEAF drift "$T/k1.sheaf" "$T/k2.sheaf" -f csv
+check audit.all_missing_is_no_kind_change "$(grep '^zone' "$T/out" | cut -d, -f1-3)" \
+    holds 'grep "^zone" "$T/out" | cut -d, -f3 | grep -q missing && ! grep "^zone" "$T/out" | cut -d, -f3 | grep -q kind'
