@@ -9,6 +9,7 @@
 
 #include <ctype.h>
 #include <errno.h>
+#include <fcntl.h>
 #include <stdarg.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -323,9 +324,21 @@ int cli_probe_output(const char *cmd, const char *out)
 
 int cli_check_binary_stdout(const char *cmd, const char *out)
 {
-    if (!out || strcmp(out, "-") || !isatty(STDOUT_FILENO)) return 0;
-    cli_error(cmd, "-o -: refusing to write a binary summary to a terminal; redirect standard "
-                   "output to a file or a pipe");
+    if (!out) return 0;
+    int tty = 0;
+    if (!strcmp(out, "-")) {
+        tty = isatty(STDOUT_FILENO);
+    } else { /* a name for a terminal: /dev/stdout, /dev/tty, /dev/pts/N */
+        struct stat st;
+        int fd = stat(out, &st) == 0 && S_ISCHR(st.st_mode) ? open(out, O_WRONLY | O_NOCTTY) : -1;
+        if (fd >= 0) {
+            tty = isatty(fd);
+            close(fd);
+        }
+    }
+    if (!tty) return 0;
+    cli_error(cmd, "-o %s: refusing to write a binary summary to a terminal; redirect standard "
+                   "output to a file or a pipe", out);
     return EXIT_USAGE;
 }
 
@@ -366,7 +379,8 @@ int cli_close_stdout(void)
 
 char *cli_read_text(const char *path, char *err, size_t errlen)
 {
-    FILE *f = fopen(path, "rb");
+    int in = !strcmp(path, "-"); /* standard input, as trim reads it */
+    FILE *f = in ? stdin : fopen(path, "rb");
     if (!f) { snprintf(err, errlen, "%s: %s", path, strerror(errno)); return NULL; }
     size_t cap = 4096, len = 0;
     char *buf = malloc(cap);
@@ -382,7 +396,7 @@ char *cli_read_text(const char *path, char *err, size_t errlen)
         if (got == 0) break;
     }
     int bad = ferror(f);
-    fclose(f);
+    if (!in) fclose(f);
     if (!buf || bad) {
         snprintf(err, errlen, "%s: %s", path, buf ? "read error" : "too large or out of memory");
         free(buf);

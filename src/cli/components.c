@@ -33,6 +33,7 @@ int cli_fit_components(const char *cmd, const char *path, const cli_components *
         return EXIT_USAGE;
     char err[1024];
     char *keep_text = NULL;
+    if (c->keep_list && cli_check_output(cmd, "-", &c->keep_list, 1)) return EXIT_USAGE;
     if (c->keep_list && !(keep_text = cli_read_text(c->keep_list, err, sizeof err))) {
         cli_error(cmd, "--columns-from: %s", err);
         return EXIT_INPUT;

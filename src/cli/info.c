@@ -411,6 +411,7 @@ int cmd_info(int argc, char **argv)
         cli_error("info", "--top-values must be a count, got '%s'", top_s);
         goto done;
     }
+    if (ntop > (1 << 24)) ntop = 1 << 24; /* no value table holds more (--max-levels) */
     if ((rc = cli_read_set("info", pos[0], &set)) != EXIT_DONE) goto done;
     held_targets held = {NULL, 0, set->n > 1 ? SUMMARY_SET_FORMAT_VERSION
                                              : summary_file_version(set->parts[0])};

@@ -238,6 +238,7 @@ int cmd_pca(int argc, char **argv)
                                exclude, keep, with_target, target};
     rc = cli_fit_components("pca", pos[0], &cc, &s, &r, &k);
     if (rc != EXIT_DONE) goto done;
+    if (nleading > (long long)r->p) nleading = (long long)r->p; /* no fit has more */
     char rule[64];
     if (k_s) snprintf(rule, sizeof rule, "--components %s", k_s);
     else if (share_s) snprintf(rule, sizeof rule, "--share %s", share_s);

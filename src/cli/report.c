@@ -21,6 +21,9 @@ int cli_read_summary(const char *cmd, const char *path, summary **s)
 
 int cli_read_set(const char *cmd, const char *path, summary_set **set)
 {
+    /* A report appended to the summary it reads would damage it. */
+    int rc = cli_check_output(cmd, "-", &path, 1);
+    if (rc) return rc;
     char err[1024];
     summary_status st = summary_set_read(path, set, err, sizeof err);
     if (st == SUMMARY_OK) return EXIT_DONE;

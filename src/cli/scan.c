@@ -204,14 +204,19 @@ int cmd_scan(int argc, char **argv)
         o.opt.bucket_budget = (uint32_t)v;
     }
     if (shard) {
-        unsigned i, n;
-        char extra;
-        if (sscanf(shard, "%u/%u%c", &i, &n, &extra) != 2 || n < 1 || i < 1 || i > n) {
+        /* Whole numbers up to 2^32 - 1, no sign: %u took "-1" and 2^32 + 1
+         * and wrapped them. */
+        const char *slash = strchr(shard, '/');
+        char first[32] = "";
+        if (slash && (size_t)(slash - shard) < sizeof first)
+            memcpy(first, shard, (size_t)(slash - shard));
+        long long i = slash ? cli_parse_count(first) : -1, n = slash ? cli_parse_count(slash + 1) : -1;
+        if (!slash || n < 1 || i < 1 || i > n || n > (long long)UINT32_MAX) {
             cli_error("scan", "--shard must be I/N with 1 <= I <= N, got '%s'", shard);
             goto done;
         }
-        o.shard_index = i;
-        o.shard_count = n;
+        o.shard_index = (uint32_t)i;
+        o.shard_count = (uint32_t)n;
     }
     if (from_top && !shard) { cli_error("scan", "--shard-from-top needs --shard"); goto done; }
     o.shard_from_top = from_top;

@@ -8,6 +8,7 @@
 #include <unistd.h>
 
 #include "cli/cli.h"
+#include "io/keep_list.h"
 #include "out/json.h"
 #include "out/table.h"
 #include "stats/logp.h"
@@ -29,9 +30,17 @@ static int write_keep_list(tempfile *t, const summary *s, const screen_result *r
             if (r->features[i].rank != k) continue;
             const char *name = summary_name(s, r->features[i].col);
             size_t len = strlen(name);
-            for (size_t part = 0; part < 2; part++) {
-                const char *p = part ? "\n" : name;
-                size_t left = part ? 1 : len;
+            if (!keep_list_writable(name)) {
+                snprintf(err, errlen, "%s: the kept column '%.40s' cannot be named in a keep list "
+                         "(its name holds a line end or ends in a blank): rename it",
+                         t->path, name);
+                tempfile_discard(t);
+                return -1;
+            }
+            for (size_t part = 0; part < 3; part++) {
+                if (part == 0 && !keep_list_escaped(name)) continue;
+                const char *p = part == 0 ? "\\" : part == 2 ? "\n" : name;
+                size_t left = part == 1 ? len : 1;
                 while (left > 0) {
                     ssize_t w = write(t->fd, p, left);
                     if (w < 0 && errno == EINTR) continue;

@@ -5,6 +5,7 @@
 #include <string.h>
 
 #include "cli/cli.h"
+#include "io/keep_list.h"
 #include "out/sink.h"
 #include "pass/trim.h"
 #include "stats/screen.h"
@@ -41,7 +42,8 @@ static void names_free(name_set *s)
     free(s->names);
 }
 
-/* Reads one name per line (blank lines and '#' comments skipped).  Returns
+/* Reads one name per line (io/keep_list.h: blank lines and '#' comments
+ * skipped, a leading backslash escapes the name).  Returns
  * 0, -1 when the list cannot be opened or read (a directory, an I/O error:
  * an error with its reason, never a shorter list) or -2 out of memory. */
 static int read_keep_list(const char *path, name_set *out, char *err, size_t errlen)
@@ -54,9 +56,11 @@ static int read_keep_list(const char *path, name_set *out, char *err, size_t err
     int rc = 0;
     errno = 0;
     while (rc == 0 && (n = getline(&line, &cap, f)) >= 0) {
-        while (n && (line[n - 1] == '\n' || line[n - 1] == '\r')) line[--n] = '\0';
-        if (n == 0 || line[0] == '#') continue;
-        if (names_add(out, line, (size_t)n) != 0) {
+        while (n && line[n - 1] == '\n') line[--n] = '\0';
+        size_t len;
+        const char *name = keep_list_name(line, (size_t)n, &len);
+        if (!name) continue;
+        if (names_add(out, name, len) != 0) {
             snprintf(err, errlen, "out of memory: the keep list %s", path);
             rc = -2;
         }

@@ -41,6 +41,8 @@
 #include <cblas.h>
 #include <lapacke.h>
 #include <math.h>
+
+#include "io/keep_list.h"
 #include <stdlib.h>
 #include <string.h>
 #include <stdio.h>
@@ -320,9 +322,9 @@ static int mark_names(const summary *s, const name_entry *byname, const char *li
         size_t len = e ? (size_t)(e - p) : strlen(p);
         const char *next = e ? e + 1 : p + len;
         if (sep == '\n') {
-            while (len > 0 && (p[len - 1] == '\r' || p[len - 1] == ' ' || p[len - 1] == '\t'))
-                len--;
-            if (len == 0 || p[0] == '#') { p = next; continue; }
+            const char *name = keep_list_name(p, len, &len);
+            if (!name) { p = next; continue; }
+            p = name;
         } else if (len == 0) {
             p = next;
             continue;
