@@ -101,6 +101,13 @@ int cmd_merge(int argc, char **argv)
         }
     }
     if (shards_fit(acc->parts[0]) != 0) { rc = EXIT_INCOMPATIBLE; goto done; }
+    /* A night with a shard missing merges (one level of a tree is one), but
+     * not silently. */
+    char partial[1024];
+    size_t incomplete = summary_shards_incomplete(acc->parts[0], partial, sizeof partial);
+    if (incomplete)
+        fprintf(stderr, "sheaf merge: note: %s%s\n", partial,
+                incomplete > 1 ? " (and more files so)" : "");
     summary_status st = summary_set_write(acc, out, err, sizeof err);
     if (st != SUMMARY_OK) {
         cli_error("merge", "%s", err);

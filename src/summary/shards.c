@@ -135,3 +135,35 @@ int summary_shards_check(const summary *s, shard_check *out, shard_verdict *verd
     }
     return rc;
 }
+
+size_t summary_shards_incomplete(const summary *s, char *msg, size_t msglen)
+{
+    size_t bad = 0;
+    if (msglen) msg[0] = '\0';
+    for (size_t i = 0; i < s->nsources; i++) {
+        const summary_source *x = &s->sources[i];
+        if (!x->shard_rule) continue;
+        int first = 1, other_version = 0;
+        size_t have = 0;
+        for (size_t k = 0; k < s->nsources; k++) {
+            const summary_source *y = &s->sources[k];
+            if (!y->shard_rule) continue;
+            if (y->file_id == x->file_id && y->shard_count == x->shard_count) {
+                if (k < i) first = 0; /* counted at its first source */
+                have++;
+            } else if (!strcmp(y->path, x->path)) {
+                other_version = 1;
+            }
+        }
+        if (!first || (have >= x->shard_count && !other_version)) continue;
+        if (bad++ == 0) {
+            if (other_version)
+                snprintf(msg, msglen, "%s: shards of two versions of the file (they differ in "
+                         "size or first bytes)", x->path);
+            else
+                snprintf(msg, msglen, "%s: %zu of its %u shards (the rest of the file is not "
+                         "counted)", x->path, have, x->shard_count);
+        }
+    }
+    return bad;
+}

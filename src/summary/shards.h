@@ -42,6 +42,13 @@ typedef enum { SHARD_NOT = 0, SHARD_VERIFIED, SHARD_UNVERIFIED, SHARD_WRONG } sh
 int summary_shards_check(const summary *s, shard_check *out, shard_verdict *verdicts,
                          size_t *bad, char *msg, size_t msglen);
 
+/* The byte-range shards among s's sources that do not make whole files: a
+ * file (one file_id) some of whose N shards are absent, or one path whose
+ * shards come from two versions of the file (two file_ids).  Returns how
+ * many such files, with one line about the first in msg (a partial merge,
+ * one level of a tree, is one of these and is not an error). */
+size_t summary_shards_incomplete(const summary *s, char *msg, size_t msglen);
+
 /* "certain", "speculated" or "prefix" (or "" for none). */
 const char *summary_shard_rule_name(uint8_t rule);
 

@@ -335,4 +335,18 @@ if check parallel_gzip.made_4_files "files: ${gz[*]##*/}; $(err_text)" [ "${#gz[
     same_summary parallel_gzip.same_as_concatenated "$T/par/gzinorder.sheaf" "$T/par/cat.sheaf" bytes
 fi
 
+# A merge of some of a file's shards (a lost job) is not silent: a note on
+# standard error names the file and how many of its N shards it holds
+# (exit 0, as one level of a tree merge must); all N merge without one.
+# The fan-out audit's case: 7 of 8 shards merged with exit 0 and no word.
+"$PY" -c "
+print('a,b')
+for i in range(4000): print('%d,%d' % (i, i % 7))" >"$T/part.csv"
+for i in 1 2 3 4; do "$SHEAF" scan -q "$T/part.csv" --shard $i/4 -o "$T/part$i.sheaf"; done
+run "$SHEAF" merge "$T/part1.sheaf" "$T/part2.sheaf" "$T/part4.sheaf" -o "$T/part124.sheaf"
+check partial.note_names_missing_shards "exit $RC: $(err_text)" \
+    holds '[ "$RC" = 0 ] && grep -q "^sheaf merge: note: .*part.csv: 3 of its 4 shards" "$T/err"'
+run "$SHEAF" merge "$T/part1.sheaf" "$T/part2.sheaf" "$T/part3.sheaf" "$T/part4.sheaf" -o "$T/part1234.sheaf"
+check partial.whole_set_says_nothing "exit $RC: $(err_text)" holds '[ "$RC" = 0 ] && [ ! -s "$T/err" ]'
+
 exit 0

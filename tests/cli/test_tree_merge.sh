@@ -171,7 +171,7 @@ t0=$(date +%s.%N)
 RC=$?
 t1=$(date +%s.%N)
 check tree.exit_0 "exit $RC: $(err_text)" [ "$RC" -eq 0 ]
-ng=$(find "$W/groups" -name 'g*.sheaf' | wc -l)
+ng=$(find "$W/groups-local" -name 'g*.sheaf' | wc -l)
 check tree.groups "$ng group summaries, want 100" [ "$ng" -eq 100 ]
 echo "# tree merge (100 groups of 100 on 2 job slots, then the 100): $(echo "$t1 - $t0" | bc) s"
 run "$SHEAF" scan -q "$T/table.csv" -o "$T/single.sheaf"
