@@ -754,9 +754,7 @@ static int finish_runs(scan_context *sc)
     if (scan_settle_runs(sc) != 0) return -1;
     /* The last cut's checkpoint written meanwhile on its own thread. */
     if (scan_cut_join(sc) != SCAN_OK) return -1;
-    /* And once settled (the stores' tables folded): the scan's own last
-     * check.  Writing the summary adds up to its file's size on top. */
-    if (within_limit(sc, 0) != SCAN_OK) return -1;
+    if (within_limit(sc, 0) != SCAN_OK) return -1; /* settled; the write adds its size */
     if (sc->done_set) {
         /* Segments: the last one merged into the others, the result the scan's. */
         if (scan_absorb_segment(sc) != 0) return -1;
