@@ -315,7 +315,8 @@ int cmd_scan(int argc, char **argv)
         for (size_t i = 0; i < summary_source_count(set->parts[0]); i++) {
             const summary_source *src = summary_source_at(set->parts[0], i);
             if (src->shard_rule == SHARD_START_PREFIX && src->start_byte > 4)
-                fprintf(stderr, "scan: note: %s shard %u/%u: the bytes after byte %llu did not "
+                fprintf(stderr,
+                        "sheaf scan: note: %s shard %u/%u: the bytes after byte %llu did not "
                         "tell where its first record begins; found it from the top of the file "
                         "(read %llu bytes in all)\n", src->path, src->shard_index,
                         src->shard_count, (unsigned long long)src->start_byte,

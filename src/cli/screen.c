@@ -251,7 +251,8 @@ static void print_csv(const summary *s, const screen_result *r)
     }
 }
 
-static void print_text(FILE *out, const summary *s, const screen_result *r, const char *path)
+static void print_text(FILE *out, const summary *s, const screen_result *r, const char *path,
+                       const char *keep_list)
 {
     const char *named = cli_path_name(path); /* "standard input" for "-" */
     int color = table_use_color(stdout);
@@ -325,10 +326,15 @@ static void print_text(FILE *out, const summary *s, const screen_result *r, cons
             fprintf(out, "  %s ~ %s  r = %.4f\n", pair_name(s, r, i, 0), pair_name(s, r, i, 1),
                    r->pairs[i].r);
     }
-    fprintf(out, "\nnext: write the kept names with --write-kept FILE, then keep only those "
-                 "columns with `sheaf trim DATA --columns-from FILE -o OUT` (or `sheaf trim DATA "
-                 "--summary %s -o OUT`, which screens again with the same options)\n",
-            strcmp(path, "-") ? path : "SUMMARY.sheaf");
+    if (keep_list) /* written: what to do with it */
+        fprintf(out, "\nnext: the kept names are in %s; keep only those columns with `sheaf trim "
+                     "DATA --columns-from %s -o OUT` (add the target to the list to keep it)\n",
+                keep_list, keep_list);
+    else
+        fprintf(out, "\nnext: write the kept names with --write-kept FILE, then keep only those "
+                     "columns with `sheaf trim DATA --columns-from FILE -o OUT` (or `sheaf trim "
+                     "DATA --summary %s -o OUT`, which screens again with the same options)\n",
+                strcmp(path, "-") ? path : "SUMMARY.sheaf");
 }
 
 
@@ -459,7 +465,7 @@ int cmd_screen(int argc, char **argv)
     else if (!strcmp(format, "csv")) print_csv(s, r);
     else {
         cli_text out;
-        print_text(cli_text_begin(&out), s, r, pos[0]);
+        print_text(cli_text_begin(&out), s, r, pos[0], keep_list);
         cli_text_end(&out);
     }
     if (keep_list) {

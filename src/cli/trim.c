@@ -116,9 +116,10 @@ int cmd_trim(int argc, char **argv)
     };
     const cli_command cmd = {
         "trim", "DATA... (--summary FILE.sheaf | --columns-from FILE) [-o OUT]",
-        "Writes DATA with only the kept columns (and the target, and --carry columns), in\n"
-        "their input order, keeping each field's bytes and quoting as they were.\n"
-        "With --summary, the kept set is that of `sheaf screen` with the same options.\n"
+        "Writes DATA with only the kept columns (and --carry columns), in their input\n"
+        "order, keeping each field's bytes and quoting as they were. With --summary,\n"
+        "the kept set is that of `sheaf screen` with the same options, and the target;\n"
+        "with --columns-from, the columns the list names (name the target there too).\n"
         "A failed run leaves no -o file; on standard output, what was written before the\n"
         "failure stays (exit code != 0).",
         opts,

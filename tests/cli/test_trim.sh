@@ -398,3 +398,8 @@ check outputs.report_appended_to_its_keep_list "exit $RC: $(err_text)" \
 # the whole file as 1/1).
 run "$SHEAF" scan "$T/hash.csv" --shard 1/4294967297 -o "$T/w.sheaf"
 check shard.no_wrap "exit $RC: $(err_text)" holds '[ "$RC" = 2 ] && [ ! -e "$T/w.sheaf" ]'
+# After --write-kept, screen's last line says where the list is (it asked to
+# write one with --write-kept all the same).
+run "$SHEAF" screen "$T/hash.sheaf" --write-kept "$T/hash2.txt"
+check keep_list.hint_names_the_written_list "$(tail -n 1 "$T/out")" \
+    holds 'tail -n 1 "$T/out" | grep -q "the kept names are in .*hash2.txt" && ! grep -q "write the kept names with --write-kept" "$T/out"'
