@@ -461,12 +461,17 @@ int cli_parse_reading(const char *cmd, const char *chunk, const char *max_record
 
 int cli_parse_threads(const char *cmd, const char *text, unsigned *threads)
 {
-    /* SHEAF_THREADS sets the default (for a whole test suite, or a cron job). */
-    if (!text) text = getenv("SHEAF_THREADS");
-    if (!text || !*text) return 0;
+    /* SHEAF_THREADS sets the default (for a whole test suite, or a cron job);
+     * an empty one is unset, an empty --threads an error. */
+    const char *from = "--threads";
+    if (!text) {
+        text = getenv("SHEAF_THREADS");
+        from = "SHEAF_THREADS";
+        if (!text || !*text) return 0;
+    }
     long long v = cli_parse_count(text);
     if (v < 1 || v > 1024) {
-        cli_error(cmd, "--threads must be a count from 1 to 1024, got '%s'", text);
+        cli_error(cmd, "%s must be a count from 1 to 1024, got '%s'", from, text);
         return EXIT_USAGE;
     }
     *threads = (unsigned)v;

@@ -206,3 +206,15 @@ g_fail=$(grep -c '^FAIL' "$T/golden1")
 g_pass=$(grep -c '^PASS' "$T/golden1")
 if [ "$g_fail" -eq 0 ] && [ "$g_pass" -gt 0 ]; then pass "threads.golden_at_j1 ($g_pass fingerprints)"
 else fail threads.golden_at_j1 "$g_fail of $((g_pass + g_fail)) differ: $(grep '^FAIL' "$T/golden1" | head -n 2 | tr '\n' '|')"; fi
+
+# An empty -j is an error (it was taken as the default), and a bad
+# SHEAF_THREADS is named as such (it was reported as --threads); an empty
+# SHEAF_THREADS is unset.
+printf 'a,b\n1,2\n3,4\n' >"$T/tiny.csv"
+run "$SHEAF" scan "$T/tiny.csv" -j '' -q -o "$T/tiny.sheaf"
+check threads.empty_option_refused "exit $RC: $(err_text)" holds '[ "$RC" = 2 ] && [ ! -e "$T/tiny.sheaf" ]'
+run env SHEAF_THREADS=abc "$SHEAF" scan "$T/tiny.csv" -q -o "$T/tiny.sheaf"
+check threads.bad_environment_named "exit $RC: $(err_text)" \
+    holds '[ "$RC" = 2 ] && grep -q "^sheaf scan: SHEAF_THREADS must be" "$T/err"'
+run env SHEAF_THREADS= "$SHEAF" scan "$T/tiny.csv" -q -o "$T/tiny.sheaf"
+check threads.empty_environment_unset "exit $RC: $(err_text)" [ "$RC" = 0 ]
