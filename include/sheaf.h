@@ -10,32 +10,14 @@
  *   cc prog.c -Iinclude libsheaf.a -lgsl -lisal -lzstd -lxxhash -lopenblas \
  *      -llapacke -lz -lm -lpthread
  *
- * The handles:
- *   sheaf_options      what a scan reads and keeps, and how screen and PCA run
- *   sheaf_scan         one pass over streams (files, FILE *, memory, fed bytes)
- *   sheaf_summary      the summary of one table (one target, or none)
- *   sheaf_summary_set  the summaries of a scan or file with several targets
- *   sheaf_screen       a screen's rows: which columns to keep and why
- *   sheaf_pca          a principal component fit
- *   sheaf_drift        what changed between a baseline summary and a later one
- *
- * Errors.  Every call that can fail returns an int status (SHEAF_OK, 0, on
- * success, else a SHEAF_ERR_* code) or a pointer (NULL on failure), and
- * takes a `sheaf_error *err` as its last argument.  On failure the call
- * writes the code and a one-line message (naming the file, line or byte
- * offset where there is one) into *err; on success *err is left as it was.
- * err may be NULL when the caller does not want the message.  Calls that
- * cannot fail (the readers of figures) take no err: a figure that does not
- * exist (no numbers, fewer than two for a variance, a column index out of
- * range) is NaN, a count is 0, a name is NULL.
- *
- * Ownership.  Every handle is created by one call and freed by its
- * sheaf_*_free (which accepts NULL).  Strings and arrays passed in are
- * copied before the call returns, so the caller may free them at once.
- * Strings returned point into the handle they were read from and live until
- * that handle is freed; the caller never frees them.  Objects made from
- * another (a scan from options, a screen or PCA from a summary) hold copies
- * of what they need, so their source may be freed first.
+ * Handles (sheaf_options, _scan, _summary, _summary_set, _screen, _pca,
+ * _drift) are made by one call and freed by their sheaf_*_free (NULL is
+ * fine).  A call that can fail returns an int status (SHEAF_OK or a
+ * SHEAF_ERR_* code) or a pointer (NULL), with a one-line message in its
+ * last argument, `sheaf_error *err` (may be NULL; left alone on success).
+ * Readers of figures cannot fail: what does not exist is NaN, 0 or NULL.
+ * Strings passed in are copied; strings returned live as long as their
+ * handle.  docs/library.md, "Who owns what" and "Errors", has the rules.
  *
  * Threads.  No call keeps global mutable state.  A handle may be used by one
  * thread at a time; the read-only calls on a summary (readers, screen, PCA,
@@ -269,34 +251,21 @@ SHEAF_API sheaf_summary *sheaf_scan_finish(sheaf_scan *sc, sheaf_error *err);
  * (sheaf_summary_set_free). */
 SHEAF_API sheaf_summary_set *sheaf_scan_finish_set(sheaf_scan *sc, sheaf_error *err);
 
-/* Checkpoints.  A scan of files by path that saves itself now and then, so
- * that a scan killed part way (a reboot, kill -9) goes on where it stood
- * instead of from the start (docs/nightly.md).  It reads the npaths files
- * in turn as sheaf_scan_path would (plain, gzip or zstd; they must share the
- * header; "-" is refused: standard input cannot be read again) and returns
- * the summaries, one per target as sheaf_scan_finish_set, owned by the
- * caller.  The input is cut into segments, each ending at the first chunk
- * boundary after every checkpoint_bytes decompressed bytes (0: 256 MiB); at
- * each cut the summaries so far are written to checkpoint_path, atomically
- * (the old checkpoint stays whole until the new one replaces it).  With
- * resume 1 the scan goes on from that file, which must have been written by
- * a scan of the same files (unchanged since) with the same options that
- * shape the summary and the same checkpoint_bytes; the thread count and the
- * memory limit may differ.  The result is the same, byte for byte, whether
- * the scan was resumed or not, and the same as `sheaf scan --checkpoint`
- * of the same files and options (whose checkpoints this call resumes, and
- * the other way round); it is NOT byte-identical to a scan without
- * checkpoints (the segments are merged as sheaf_summary_merge merges:
- * counts, value tables and quantiles are equal, moments agree to rounding).
- * The checkpoint is left in place on success: remove it once the summaries
- * are written.  NULL on failure: SHEAF_ERR_USAGE for no checkpoint to
- * resume from, one written with other options or for other files, a
- * checkpoint path that is an input, or bad arguments; SHEAF_ERR_CORRUPT for
- * a damaged or truncated checkpoint; SHEAF_ERR_INPUT for unreadable or
- * malformed input, or an input changed since the checkpoint; SHEAF_ERR_IO
- * when the checkpoint cannot be written; SHEAF_ERR_MEMORY.  The message is
- * one line naming the checkpoint or the input file.  o may be NULL (the
- * defaults); the arrays and strings are read during the call only. */
+/* Checkpoints (docs/nightly.md): the npaths files scanned in turn as
+ * sheaf_scan_path would ("-" refused), the summaries at every cut (the first
+ * chunk boundary after each checkpoint_bytes decompressed bytes; 0: 256 MiB)
+ * written atomically to checkpoint_path, and the result returned as
+ * sheaf_scan_finish_set would (the caller's).  With resume 1 the scan goes
+ * on from that file, written by a scan of the same unchanged files with the
+ * same shaping options and checkpoint_bytes (threads and memory limit may
+ * differ).  Resumed or not, the result is byte for byte that of `sheaf scan
+ * --checkpoint` (whose checkpoints this call resumes); against a scan without
+ * checkpoints, counts and tables are equal and moments agree to rounding.
+ * The checkpoint stays on success: remove it once the summaries are written.
+ * NULL on failure: SHEAF_ERR_USAGE (nothing to resume, a checkpoint of other
+ * options or files, or one that is an input), SHEAF_ERR_CORRUPT (damaged),
+ * SHEAF_ERR_INPUT (bad input, or an input changed since), SHEAF_ERR_IO (it
+ * cannot be written), SHEAF_ERR_MEMORY.  o may be NULL (the defaults). */
 SHEAF_API sheaf_summary_set *sheaf_scan_files_checkpointed(const sheaf_options *o,
                                                            const char *const *paths,
                                                            size_t npaths,
@@ -693,16 +662,9 @@ SHEAF_API int sheaf_project_files(const sheaf_summary *s, const sheaf_pca *fit, 
 
 /* ---- drift between two summaries -------------------------------------------
  *
- * What changed from a baseline summary (last night's) to a new one, per
- * column and from the summaries alone (docs/drift.md): the population
- * stability index over the baseline's decile bins, the Kolmogorov-Smirnov
- * distance with the bound the buckets put on it, the shift of the mean in
- * baseline standard deviations, the missing, non-numeric and distinct
- * shares, categories that appeared or vanished with the chi-squared test and
- * the total-variation distance, correlation pairs whose r moved, relevance
- * to a shared target, and columns that appeared, vanished or changed kind.
- * The handle keeps copies of the names it reports, so it may outlive both
- * summaries. */
+ * What changed from a baseline summary to a new one, per column, as `sheaf
+ * drift` reports it (docs/drift.md).  The handle keeps copies of the names
+ * it reports, so it may outlive both summaries. */
 
 typedef struct sheaf_drift sheaf_drift;
 
@@ -791,18 +753,16 @@ typedef struct {
     /* A column categorical in both. */
     int text;                /* 1: the text figures (tv, chi-squared, categories) are set */
     double chi2_log10_p;     /* log10 of chi2_p, finite where it underflows */
-    int appeared_known, vanished_known; /* 0: the other night's table overflowed, so the
-                                           list is incomplete */
+    int appeared_known, vanished_known; /* 0: a night's table overflowed, so the list
+                                           and count may be incomplete */
     size_t appeared_listed, vanished_listed; /* categories listed (at most 8), most
                                                 frequent first (sheaf_drift_category_at) */
 } sheaf_drift_detail;
 /* Column i into *out: SHEAF_OK, or SHEAF_ERR_USAGE when i is out of range. */
 SHEAF_API int sheaf_drift_column_detail(const sheaf_drift *d, size_t i, sheaf_drift_detail *out);
-/* Listed category k (k < appeared_listed, or with vanished 1 k <
- * vanished_listed) of column i: its text (a copy the handle owns, not
- * NUL-terminated), count and cut into *value, its share of that night's
- * present cells into *share (may be NULL).  SHEAF_OK, or SHEAF_ERR_USAGE
- * out of range. */
+/* Listed category k (of appeared_listed; of vanished_listed when vanished is
+ * 1) of column i into *value (text owned by the handle, not NUL-terminated)
+ * and its share of that night's present cells into *share (may be NULL). */
 SHEAF_API int sheaf_drift_category_at(const sheaf_drift *d, size_t i, int vanished, size_t k,
                                       sheaf_value *value, double *share);
 /* 1 when relevance to a shared target was compared (the screen ran on
@@ -820,23 +780,15 @@ SHEAF_API int sheaf_drift_pair_at(const sheaf_drift *d, size_t i, const char **a
                                   double *base_r, double *new_r);
 
 /* ---- the page: an HTML report of a summary -----------------------------------
- * What `sheaf page` writes: one self-contained HTML file (inline CSS and SVG,
- * nothing loaded from anywhere) with an overview, the column table, the
- * relevance chart, the clustered correlation heat map, the class-conditional
- * distributions, the scree chart and loadings, and the cautions
- * (docs/report.md).  o (may be NULL: defaults) gives the screen's
- * sheaf_options_set_fdr and sheaf_options_set_redundancy, and the kind rule
- * of the whole page (sheaf_options_set_numeric_share); title names the
- * summary on the page (may be NULL).  html_path (NULL: no page; "-":
- * standard output) is written whole and renamed into place; with svg_dir
- * (may be NULL), each chart is also written as its own SVG file into that
- * folder, created when missing.  With base (may be NULL), the page has the
- * drift section of `sheaf page --base`: what changed since that summary, at
- * sheaf_drift_thresholds_default's thresholds and o's kind rule.  SHEAF_OK,
- * SHEAF_ERR_IO (a
- * file could not be written; the message names it), SHEAF_ERR_MEMORY,
- * SHEAF_ERR_INCOMPATIBLE (base was scanned with other settings), or
- * SHEAF_ERR_USAGE (neither a page nor a folder asked for). */
+ * What `sheaf page` writes (docs/report.md): one self-contained HTML file at
+ * html_path (NULL: none; "-": standard output), written whole, and with
+ * svg_dir (may be NULL) each chart as its own SVG file in that folder (made
+ * when missing).  o (may be NULL) gives the screen's fdr and redundancy and
+ * the kind rule; title (may be NULL) names the summary; base (may be NULL)
+ * adds the drift section at the default thresholds.  SHEAF_OK, SHEAF_ERR_IO
+ * (the message names the file), SHEAF_ERR_MEMORY, SHEAF_ERR_INCOMPATIBLE
+ * (base scanned with other settings) or SHEAF_ERR_USAGE (nothing asked for,
+ * or a page named as one of its charts). */
 SHEAF_API int sheaf_page_write(const sheaf_summary *s, const sheaf_summary *base,
                                const sheaf_options *o, const char *title, const char *html_path,
                                const char *svg_dir, sheaf_error *err);
