@@ -296,27 +296,67 @@ void block_como_free(block_como *bc)
     memset(bc, 0, sizeof *bc);
 }
 
+/* x where keep is all ones, +0 where it is zero (a select on the bits,
+ * which vectorizes where a branch or a select on doubles does not). */
+static inline double masked(double x, uint64_t keep)
+{
+    uint64_t b;
+    memcpy(&b, &x, sizeof b);
+    b &= keep;
+    memcpy(&x, &b, sizeof x);
+    return x;
+}
+
+/* The sum of d[r] over the rows with pr[r], in four interleaved partial
+ * sums (row r in sum r mod 4) added pairwise at the end; the other rows'
+ * entries are masked to +0 in their bits, never read as numbers.  Vector
+ * types, so that each clone's instructions carry the four at once. */
+typedef double four_doubles __attribute__((vector_size(32)));
+typedef uint64_t four_words __attribute__((vector_size(32)));
+
+static inline double masked_sum(const double *d, const unsigned char *pr, size_t rows)
+{
+    four_doubles acc = {0, 0, 0, 0};
+    size_t r = 0;
+    for (; r + 4 <= rows; r += 4) {
+        four_doubles v;
+        memcpy(&v, d + r, sizeof v);
+        four_words keep = {(uint64_t)0 - (pr[r] != 0), (uint64_t)0 - (pr[r + 1] != 0),
+                           (uint64_t)0 - (pr[r + 2] != 0), (uint64_t)0 - (pr[r + 3] != 0)};
+        acc += (four_doubles)((four_words)v & keep);
+    }
+    for (size_t u = 0; r < rows; r++, u++) acc[u] += masked(d[r], (uint64_t)0 - (pr[r] != 0));
+    return (acc[0] + acc[1]) + (acc[2] + acc[3]);
+}
+
 SHEAF_HOT int block_comoments(summary *run, block_como *bc, const double *const *dev,
                     const unsigned char *const *present, size_t rows)
 {
     size_t p = run->ncomo;
     if (!p || !rows) return 0;
     for (size_t k = 0; k < p; k++) {
-        const double *d = dev[k];
-        const unsigned char *pr = present[k];
+        const double *restrict d = dev[k];
+        const unsigned char *restrict pr = present[k];
+        double *restrict x = bc->x + k * rows, *restrict msk = bc->mask + k * rows;
+        /* The block's sum in four interleaved partial sums, without
+         * branches: a missing cell's deviation (not a number to read) is
+         * masked to +0 in its bits.  A sum of one chain waited on every
+         * addition.  The mean only centres the block (comoment_add_block
+         * corrects it by the centred values' own sum), so any order of the
+         * sum serves. */
         size_t nnum = 0;
-        double sum = 0;
-        for (size_t r = 0; r < rows; r++)
-            if (pr[r]) { sum += d[r]; nnum++; }
+        for (size_t r = 0; r < rows; r++) {
+            msk[r] = (double)(pr[r] != 0);
+            nnum += pr[r] != 0;
+        }
+        double sum = masked_sum(d, pr, rows);
         bc->complete[k] = nnum == rows;
         bc->center[k] = 0;
         bc->shift[k] = 0;
-        double *x = bc->x + k * rows, *msk = bc->mask + k * rows;
-        if (nnum < rows) { /* missing cells are 0 in both; complete columns overwrite all */
+        if (!nnum) { /* missing cells are 0 in both */
             memset(x, 0, rows * sizeof *x);
-            memset(msk, 0, rows * sizeof *msk);
+            continue;
         }
-        if (!nnum) continue;
         const moments *m = &run->cols[run->como_col[k]].mom;
         double shift = 0;
         if (!run->como_ref_set[k]) {
@@ -328,11 +368,10 @@ SHEAF_HOT int block_comoments(summary *run, block_como *bc, const double *const 
         double mean = sum / (double)nnum;
         bc->center[k] = mean + shift;
         bc->shift[k] = shift;
-        for (size_t r = 0; r < rows; r++)
-            if (pr[r]) {
-                x[r] = d[r] - mean;
-                msk[r] = 1.0;
-            }
+        for (size_t i = 0; i < rows; i++) { /* what a missing cell holds is never computed on */
+            uint64_t keep = (uint64_t)0 - (pr[i] != 0);
+            x[i] = masked(masked(d[i], keep) - mean, keep);
+        }
     }
     const comoment_source source = {dev, bc->shift};
     return comoment_add_block(run->como, bc->x, bc->mask, bc->center, bc->complete, rows, &source);
