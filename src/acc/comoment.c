@@ -48,6 +48,7 @@
 #include "acc/comoment.h"
 
 #include "acc/blas.h"
+#include "acc/four.h"
 #include "acc/zeroed.h"
 
 #include <cblas.h>
@@ -352,31 +353,37 @@ static void place_dense_columns(comoment *c, size_t n_dense, int counts_placed)
 
 /* Column j of the sum, square and count buffers for a dense column j:
  * s[i][j] = sum_r x_ri m_rj, q[i][j] = sum_r x_ri^2 m_rj, n[i][j] =
- * sum_r m_ri m_rj, two interleaved partial sums each so that the additions
+ * sum_r m_ri m_rj, each in four lanes (acc/four.h) so that the additions
  * do not wait on one another. */
-static void dense_column(comoment *c, const double *x, const double *mask, size_t rows, size_t j)
+/* Inlined into the clones of comoment_add_block (io/clones.h). */
+static inline __attribute__((always_inline)) void dense_column(comoment *c, const double *x,
+                                                              const double *mask, size_t rows,
+                                                              size_t j)
 {
     const size_t p = c->p;
     const double *restrict mj = mask + j * rows;
     for (size_t i = 0; i < p; i++) {
         const double *restrict xi = x + i * rows, *restrict mi = mask + i * rows;
-        double s0 = 0, s1 = 0, q0 = 0, q1 = 0, n0 = 0, n1 = 0;
+        four_doubles s = FOUR_OF(0.0), q = s, n = s, w, xv, mv;
         size_t r = 0;
-        for (; r + 2 <= rows; r += 2) {
-            double w0 = mj[r], w1 = mj[r + 1], v0 = xi[r] * w0, v1 = xi[r + 1] * w1;
-            s0 += v0, s1 += v1;
-            q0 += v0 * xi[r], q1 += v1 * xi[r + 1];
-            n0 += mi[r] * w0, n1 += mi[r + 1] * w1;
+        for (; r + 4 <= rows; r += 4) {
+            four_get(&w, mj + r);
+            four_get(&xv, xi + r);
+            four_get(&mv, mi + r);
+            four_doubles v = xv * w;
+            s += v;
+            q += v * xv;
+            n += mv * w;
         }
-        for (; r < rows; r++) {
+        for (size_t u = 0; r < rows; r++, u++) {
             double v = xi[r] * mj[r];
-            s0 += v;
-            q0 += v * xi[r];
-            n0 += mi[r] * mj[r];
+            s[u] += v;
+            q[u] += v * xi[r];
+            n[u] += mi[r] * mj[r];
         }
-        c->sums[j * p + i] = s0 + s1;
-        c->squares[j * p + i] = q0 + q1;
-        c->counts[j * p + i] = n0 + n1;
+        c->sums[j * p + i] = four_total(&s);
+        c->squares[j * p + i] = four_total(&q);
+        c->counts[j * p + i] = four_total(&n);
     }
 }
 
@@ -457,24 +464,27 @@ SHEAF_HOT int comoment_add_block(comoment *c, const double *x, const double *mas
     size_t n_dense = 0, n_sparse = 0, n_miss = 0, n_empty = 0;
     for (size_t j = 0; j < p; j++) {
         const double *xj = x + j * rows;
-        double s = 0, q = 0;
-        for (size_t r = 0; r < rows; r++) {
-            s += xj[r];
-            q += xj[r] * xj[r];
+        four_doubles s4 = FOUR_OF(0.0), q4 = s4, v;
+        size_t r = 0;
+        for (; r + 4 <= rows; r += 4) {
+            four_get(&v, xj + r);
+            s4 += v;
+            q4 += v * v;
         }
-        c->col_sum[j] = s;
-        c->col_sq[j] = q;
+        for (size_t u = 0; r < rows; r++, u++) {
+            s4[u] += xj[r];
+            q4[u] += xj[r] * xj[r];
+        }
+        c->col_sum[j] = four_total(&s4);
+        c->col_sq[j] = four_total(&q4);
         if (complete[j]) {
             c->col_count[j] = (double)rows;
             continue;
         }
         const double *mj = mask + j * rows;
-        double k = 0;
-        size_t missing = 0;
-        for (size_t r = 0; r < rows; r++) {
-            k += mj[r];
-            missing += mj[r] == 0;
-        }
+        size_t missing = 0; /* the mask is 1.0 or 0.0: the count is exact */
+        for (size_t r = 0; r < rows; r++) missing += mj[r] == 0;
+        double k = (double)(rows - missing);
         c->col_count[j] = k;
         if (k == 0) { /* no value in this block: every product with it is 0 */
             c->empty[n_empty++] = j;

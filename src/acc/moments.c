@@ -11,6 +11,7 @@
  */
 #include "io/clones.h"
 #include "acc/moments.h"
+#include "acc/four.h"
 
 #include <math.h>
 #include <string.h>
@@ -45,17 +46,35 @@ static void combine(moments *m, double nb_, double mb, double m2b, double m3b, d
 SHEAF_HOT void moments_add_block(moments *m, const double *dev, size_t count)
 {
     if (count == 0) return;
-    double sum = 0;
-    for (size_t i = 0; i < count; i++) sum += dev[i];
-    double mean = sum / (double)count;
-    double s2 = 0, s3 = 0, s4 = 0, corr = 0;
-    for (size_t i = 0; i < count; i++) {
-        double e = dev[i] - mean, e2 = e * e;
-        corr += e;
-        s2 += e2;
-        s3 += e2 * e;
-        s4 += e2 * e2;
+    /* Both passes in four lanes (acc/four.h): one chain per sum waited on
+     * every addition. */
+    four_doubles acc = FOUR_OF(0.0), v;
+    size_t i = 0;
+    for (; i + 4 <= count; i += 4) {
+        four_get(&v, dev + i);
+        acc += v;
     }
+    for (size_t u = 0; i < count; i++, u++) acc[u] += dev[i];
+    double mean = four_total(&acc) / (double)count;
+    four_doubles c4 = FOUR_OF(0.0), q2 = c4, q3 = c4, q4 = c4;
+    const four_doubles mv = FOUR_OF(mean);
+    for (i = 0; i + 4 <= count; i += 4) {
+        four_get(&v, dev + i);
+        four_doubles e = v - mv, e2 = e * e;
+        c4 += e;
+        q2 += e2;
+        q3 += e2 * e;
+        q4 += e2 * e2;
+    }
+    for (size_t u = 0; i < count; i++, u++) {
+        double e = dev[i] - mean, e2 = e * e;
+        c4[u] += e;
+        q2[u] += e2;
+        q3[u] += e2 * e;
+        q4[u] += e2 * e2;
+    }
+    double corr = four_total(&c4), s2 = four_total(&q2), s3 = four_total(&q3),
+           s4 = four_total(&q4);
     /* Second pass correction of the block mean (Björck; Chan et al. 1983). */
     mean += corr / (double)count;
     s2 -= corr * corr / (double)count;

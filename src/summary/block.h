@@ -50,7 +50,8 @@ typedef struct {
     int32_t *num_exp;    /* and its power of ten (BLOCK_INEXACT: not an exact decimal) */
     int decimals;        /* block_decode keeps num_mant and num_exp */
     uint32_t *cells_tmp; /* bucket cell of each number */
-    struct block_class *cls_tmp; /* per class 1..max_classes: the block's part */
+    struct block_class *cls_tmp; /* per class 0..max_classes: the block's part */
+    double *cls_vals;            /* the block's numbers grouped by class */
     uint32_t *cls_touched;       /* classes with numbers in the block */
     uint32_t cls_cap;            /* entries of cls_tmp */
     number_ref ref;      /* the column's frame, unpacked for number_deviation */
@@ -67,6 +68,12 @@ static inline uint64_t block_copy_term(uint64_t key, uint64_t hash)
     return (hash ^ key) * (key | 1);
 }
 
+/* A class's rows in a block ordered by class: class cls, at
+ * class_order[at .. at + count). */
+typedef struct {
+    uint32_t cls, at, count;
+} block_class_run;
+
 /* What the accumulators need of a block's rows: their target cells. */
 typedef struct {
     size_t rows;                    /* rows in the block */
@@ -81,6 +88,10 @@ typedef struct {
     const int32_t *row_ye;          /* its power of ten; BLOCK_NO_NUMBER when the row has no
                                        finite target, BLOCK_INEXACT when it is not exact */
     int any_y;                      /* some row of the block has a finite target (row_ye set) */
+    const uint16_t *class_order;    /* with classes: the block's rows of a class, by class,
+                                       each class's in row order (class_runs say where) */
+    const block_class_run *class_runs; /* one per class present in the block */
+    size_t n_class_runs;
 } block_rows;
 
 /* row_ye and num_exp markers (acc/pairsum.h). */

@@ -126,7 +126,9 @@ static int feed_target(chunks *w, job *j, size_t t, size_t col, const block_span
     block_rows rows = {sp->end - sp->start, jt->row_cell + sp->start, jt->row_class + sp->start,
                        jt->row_y + sp->start, jt->row_has_y + sp->start, sp->classes,
                        s->target >= 0, s->opt.max_classes, jt->row_ym + sp->start,
-                       jt->row_ye + sp->start, jt->any_y};
+                       jt->row_ye + sp->start, jt->any_y,
+                       jt->row_order ? jt->row_order + sp->start : NULL,
+                       jt->runs ? jt->runs + sp->runs_at : NULL, sp->nruns};
     return block_feed(c, l, &rows);
 }
 
@@ -481,6 +483,11 @@ chunks *chunks_create(const chunks_options *o)
     int parts = w->jobs != NULL;
     for (unsigned i = 0; parts && i < w->nslots; i++)
         parts = (w->jobs[i].tg = calloc(w->nruns, sizeof *w->jobs[i].tg)) != NULL;
+    uint32_t most_classes = 0;
+    for (size_t t = 0; t < w->nruns; t++)
+        if (w->runs[t]->opt.max_classes > most_classes) most_classes = w->runs[t]->opt.max_classes;
+    w->class_count = calloc((size_t)most_classes + 1, sizeof *w->class_count);
+    w->class_pos = calloc((size_t)most_classes + 1, sizeof *w->class_pos);
     w->target_ref = calloc(w->nruns, sizeof *w->target_ref);
     w->target_ref_set = calloc(w->nruns, 1);
     /* A scan resumed from a checkpoint keeps the target's frame it had. */
@@ -511,7 +518,7 @@ chunks *chunks_create(const chunks_options *o)
     pthread_mutex_init(&w->mu, NULL);
     pthread_cond_init(&w->work_cv, NULL);
     pthread_cond_init(&w->done_cv, NULL);
-    if (!parts || !w->target_ref || !w->target_ref_set || !w->g_next || !w->g_busy || !w->group_cols || !w->group_at || !w->devp || !w->presp || !w->threads ||
+    if (!parts || !w->target_ref || !w->target_ref_set || !w->g_next || !w->g_busy || !w->group_cols || !w->group_at || !w->class_count || !w->class_pos || !w->devp || !w->presp || !w->threads ||
         block_como_init(&w->bc, w->ncomo) != 0 || block_lane_init(&w->inline_lane) != 0) {
         chunks_free(w);
         return NULL;
@@ -545,6 +552,7 @@ void chunks_free(chunks *w)
         free(j->row_key); free(j->nf);
         for (size_t t = 0; j->tg && t < w->nruns; t++) {
             job_target *jt = &j->tg[t];
+            free(jt->row_order); free(jt->runs);
             free(jt->row_cell); free(jt->row_class); free(jt->row_y); free(jt->row_has_y);
             free(jt->row_ym); free(jt->row_ye);
             free(jt->blocks); free(jt->drop_map); free(jt->drop_y);
@@ -562,6 +570,8 @@ void chunks_free(chunks *w)
     free(w->threads);
     free(w->target_ref);
     free(w->target_ref_set);
+    free(w->class_count);
+    free(w->class_pos);
     free(w);
 }
 

@@ -25,7 +25,7 @@ static int add_block(job_target *jt, uint32_t start, uint32_t end, int classes, 
         jt->blocks = b;
         jt->blocks_cap = cap;
     }
-    jt->blocks[jt->nblocks++] = (block_span){start, end, classes, drop, tepoch};
+    jt->blocks[jt->nblocks++] = (block_span){start, end, classes, drop, tepoch, 0, 0};
     return 0;
 }
 
@@ -47,7 +47,11 @@ static int grow_row_arrays(chunks *w, job *j)
         if (ym) jt->row_ym = ym;
         int32_t *ye = realloc(jt->row_ye, cap * sizeof *ye);
         if (ye) jt->row_ye = ye;
-        ok = ok && cell && cls && y && hy && ym && ye;
+        uint16_t *order = realloc(jt->row_order, cap * sizeof *order);
+        if (order) jt->row_order = order;
+        block_class_run *runs = realloc(jt->runs, cap * sizeof *runs);
+        if (runs) jt->runs = runs;
+        ok = ok && cell && cls && y && hy && ym && ye && order && runs;
     }
     uint64_t *key = realloc(j->row_key, cap * sizeof *key);
     if (key) j->row_key = key;
@@ -200,6 +204,40 @@ static scan_status target_rows_of(chunks *w, job *j, size_t t, size_t r)
     return SCAN_OK;
 }
 
+/* For each block of target t's that keeps classes: its rows of a class,
+ * class by class in the order the classes first appear, each class's rows
+ * in row order (a stable counting sort), so that a column's per-class
+ * moments take each class's numbers in one run (block.c, feed_classes).
+ * Once per block here, not once per column there.  A block has at most
+ * SUMMARY_BLOCK_ROWS rows, so at most as many runs as rows. */
+static void order_classes(chunks *w, job_target *jt)
+{
+    uint32_t *count = w->class_count, *pos = w->class_pos;
+    size_t nruns = 0;
+    for (size_t b = 0; b < jt->nblocks; b++) {
+        block_span *sp = &jt->blocks[b];
+        sp->runs_at = (uint32_t)nruns;
+        sp->nruns = 0;
+        if (!sp->classes) continue;
+        const uint32_t *cls = jt->row_class;
+        for (uint32_t r = sp->start; r < sp->end; r++) count[cls[r]]++;
+        uint32_t at = 0;
+        for (uint32_t r = sp->start; r < sp->end; r++) {
+            uint32_t k = cls[r];
+            if (!k) continue;
+            if (count[k]) { /* k's first row: its run starts here */
+                jt->runs[nruns++] = (block_class_run){k, at, count[k]};
+                pos[k] = at;
+                at += count[k];
+                count[k] = 0;
+            }
+            jt->row_order[sp->start + pos[k]++] = (uint16_t)(r - sp->start);
+        }
+        count[0] = 0;
+        sp->nruns = (uint32_t)nruns - sp->runs_at;
+    }
+}
+
 /* A target's blocks are the grid when they end every SUMMARY_BLOCK_ROWS
  * rows from the chunk's first and at its end. */
 static int on_grid(const job *j, const job_target *jt)
@@ -278,7 +316,10 @@ scan_status chunks_rows_of(chunks *w, job *j)
             if (st != SCAN_OK) return st;
         }
     }
-    for (size_t t = 0; t < w->nruns; t++) j->tg[t].on_grid = on_grid(j, &j->tg[t]);
+    for (size_t t = 0; t < w->nruns; t++) {
+        j->tg[t].on_grid = on_grid(j, &j->tg[t]);
+        order_classes(w, &j->tg[t]);
+    }
     w->lines += j->cur.lines;
     w->absorbed = j->cur.absorbed;
     return SCAN_OK;

@@ -34,6 +34,7 @@ typedef struct {
     int classes;         /* class accumulators are kept in this block */
     int drop;            /* the classes are dropped before it */
     uint32_t tepoch;     /* the target cell epoch of its rows' regression cells */
+    uint32_t runs_at, nruns; /* with classes: its class runs, job_target.runs[runs_at ..] */
 } block_span;
 
 /* One target's part of a chunk (R writes it, G reads it): the target cell
@@ -47,6 +48,8 @@ typedef struct {
     int any_y;              /* some row of the chunk has a finite target */
     block_span *blocks;
     size_t nblocks, blocks_cap;
+    uint16_t *row_order;    /* per block with classes: its rows by class (order_classes) */
+    block_class_run *runs;  /* the blocks' class runs (rows_cap at most) */
     int on_grid;            /* its blocks are the chunk's grid (every SUMMARY_BLOCK_ROWS rows) */
     uint32_t *drop_map;     /* the class conversion at a drop */
     double *drop_y;
@@ -99,6 +102,8 @@ struct chunks {
     size_t kept_fields;     /* fields kept per row: up to the last scanned one */
     size_t piece_lines;     /* lines of a chunk handed to the tasks at once (chunks_push) */
     int simd;
+    uint32_t *class_count;  /* R's scratch for order_classes: per class 0..max_classes */
+    uint32_t *class_pos;
     unsigned nslots;
     job *jobs;
     /* scheduling */
