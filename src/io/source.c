@@ -49,6 +49,16 @@ size_t source_take_starts(source *s, uint64_t *out, size_t max)
     return n;
 }
 
+void source_drop_starts_before(source *s, uint64_t before)
+{
+    if (s->ahead) pthread_mutex_lock(&s->ahead->mu);
+    size_t n = 0;
+    while (n < s->nstarts && s->starts[n] < before) n++;
+    memmove(s->starts, s->starts + n, (s->nstarts - n) * sizeof *s->starts);
+    s->nstarts -= n;
+    if (s->ahead) pthread_mutex_unlock(&s->ahead->mu);
+}
+
 static void fail(source *s, const char *fmt, const char *detail)
 {
     snprintf(s->err, sizeof s->err, fmt, s->path, detail);

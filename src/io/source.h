@@ -63,6 +63,11 @@ int source_read_ahead(source *s, size_t budget);
  * them after each read.  A plain source has none. */
 size_t source_take_starts(source *s, uint64_t *out, size_t max);
 
+/* Drops the offsets found so far that lie before `before` (a resumed scan's
+ * skipped bytes), keeping those at or past it: decoding, on a read-ahead
+ * thread or in a decoder's step, may have found starts past it already. */
+void source_drop_starts_before(source *s, uint64_t before);
+
 /* Notes that a member or frame begins at offset `at` of s's stream (0
  * included), for a source whose bytes another one decoded
  * (source_open_decoded): a shard's data stream hands on its members'

@@ -330,8 +330,9 @@ static scan_status jump_ahead(scan_context *sc, source *src)
         if (n == 0) break;
         scan_prefix_update(sc, buf, (size_t)n, at);
         at += (uint64_t)n;
-        uint64_t drop[64];
-        while (source_take_starts(src, drop, 64) == 64) {} /* members begun before the offset */
+        /* Members begun before the offset; those found past it are the
+         * scan's (a read-ahead thread may have decoded that far). */
+        source_drop_starts_before(src, sc->skip_to);
     }
     free(buf);
     sc->src = NULL;

@@ -322,3 +322,33 @@ else
     fail restart.refuse_flipped_in_point "no checkpoint of the gzip case to damage"
     fail restart.refuse_raw_prefix_changed "no checkpoint of the gzip case"
 fi
+
+# 7. Repeated headers at gzip member starts (each member of `cat a.gz b.gz
+# ...` begins with the header line), resumed at -j3 from a restart point: a
+# read-ahead thread may have found member starts past the checkpoint's
+# offset, which the resume once dropped with the skipped ones, so that a
+# later member's header counted as a data row (some resumes in four: 5 rows
+# more, a class named after the header).  Four resumes of one checkpoint,
+# each the reference's bytes.
+head -n 1 "$T/t.csv" >"$T/hdr"
+tail -n +2 "$T/t.csv" | split -l 2000 - "$T/member_"
+for f in "$T"/member_*; do cat "$T/hdr" "$f" | gzip -1 -c; done >"$T/rep.csv.gz"
+rm -f "$T"/member_*
+REP=("$T/rep.csv.gz" --target label --checkpoint-every 1M --chunk-size 256K)
+if reference repeated "${REP[@]}" -j2 && killed_in 5 "$T/rep.ck" "${REP[@]}" -j2; then
+    cp "$T/rep.ck" "$T/rep.ck.keep"
+    bad=""
+    for k in 1 2 3 4; do
+        cp "$T/rep.ck.keep" "$T/rep.ck"
+        SHEAF_TEST_RESTART=note run "$SHEAF" scan -q "${REP[@]}" -j3 --checkpoint "$T/rep.ck" \
+            --resume -o "$T/rep.sheaf"
+        if [ "$RC" -ne 0 ]; then bad="$bad resume $k: exit $RC ($(err_text));"; continue; fi
+        grep -q 'test note: resumed at raw byte [1-9]' "$T/err" ||
+            bad="$bad resume $k: no restart point used;"
+        cmp -s "$T/rep.sheaf" "$T/repeated.ref" ||
+            bad="$bad resume $k: $(first_diff "$T/rep.sheaf" "$T/repeated.ref");"
+    done
+    check restart.repeated_headers_j3 "${bad:-}" [ -z "$bad" ]
+else
+    fail restart.repeated_headers_j3 "no reference or the scan did not reach checkpoint 5: $(tr '\n' '|' <"$T/bg.err")"
+fi
