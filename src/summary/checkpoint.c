@@ -184,6 +184,15 @@ static checkpoint_status decode_parts(const uint8_t *data, const uint64_t *part_
     return CHECKPOINT_OK;
 }
 
+/* A message of the scratch-file layer ("PATH: cannot create: ...") says
+ * that PATH is the checkpoint. */
+static void as_checkpoint(char *err, size_t errlen)
+{
+    char was[1024];
+    snprintf(was, sizeof was, "%s", err);
+    snprintf(err, errlen, "checkpoint %s", was);
+}
+
 checkpoint_status checkpoint_write(const char *path, const checkpoint *c,
                                    void (*pause)(void *ctx, uint64_t number), void *pause_ctx,
                                    summary_set **reread, char *err, size_t errlen)
@@ -198,6 +207,7 @@ checkpoint_status checkpoint_write(const char *path, const checkpoint *c,
         early = CHECKPOINT_MEMORY;
     } else if (tempfile_open(&t, path, TEMPFILE_SEEKABLE, err, errlen) != 0) {
         early = errno == ENOMEM ? CHECKPOINT_MEMORY : CHECKPOINT_IO;
+        as_checkpoint(err, errlen);
     } else if (add_open_source(c->done, c) != 0) {
         tempfile_discard(&t);
         snprintf(err, errlen, "out of memory");
@@ -283,6 +293,7 @@ checkpoint_status checkpoint_write(const char *path, const checkpoint *c,
         return st;
     }
     if (tempfile_commit(&t, err, errlen) != 0) {
+        as_checkpoint(err, errlen);
         summary_set_free(*reread);
         *reread = NULL;
         return CHECKPOINT_IO;
@@ -344,8 +355,11 @@ checkpoint_status checkpoint_probe(const char *path, char *err, size_t errlen)
         return CHECKPOINT_IO;
     }
     tempfile t;
-    if (tempfile_open(&t, path, TEMPFILE_SEEKABLE, err, errlen) != 0)
-        return errno == ENOMEM ? CHECKPOINT_MEMORY : CHECKPOINT_IO;
+    if (tempfile_open(&t, path, TEMPFILE_SEEKABLE, err, errlen) != 0) {
+        int saved = errno;
+        as_checkpoint(err, errlen);
+        return saved == ENOMEM ? CHECKPOINT_MEMORY : CHECKPOINT_IO;
+    }
     tempfile_discard(&t);
     return CHECKPOINT_OK;
 }

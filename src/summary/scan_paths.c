@@ -162,6 +162,39 @@ scan_status scan_prime_source(scan_context *sc, source *src, size_t index)
     return SCAN_OK;
 }
 
+/* A value of the options text as the user wrote it: the task by name, the
+ * missing spellings without their lengths (checkpoint_options_text). */
+static void shown_value(const char *key, int klen, const char *v, int vlen, char *out,
+                        size_t len)
+{
+    static const char *const tasks[] = {"(decided when read)", "classify", "regress"};
+    if (klen == 4 && !memcmp(key, "task", 4) && vlen == 1 && v[0] >= '0' && v[0] <= '2') {
+        snprintf(out, len, "%s", tasks[v[0] - '0']);
+        return;
+    }
+    if (klen == 7 && !memcmp(key, "missing", 7)) { /* "2:NA,3:N/A": lengths, then spellings */
+        size_t used = 0;
+        const char *p = v, *end = v + vlen;
+        out[0] = '\0';
+        while (p < end && used + 1 < len) {
+            char *colon;
+            unsigned long n = strtoul(p, &colon, 10);
+            if (colon >= end || *colon != ':' || n > (size_t)(end - colon - 1)) break;
+            if (p != v) out[used++] = ',';
+            for (unsigned long i = 0; i < n && used + 3 < len; i++) { /* as --missing takes it */
+                char ch = colon[1 + i];
+                if (ch == ',' || ch == '\\') out[used++] = '\\';
+                out[used++] = ch;
+            }
+            out[used] = '\0';
+            p = colon + 1 + n + 1; /* past the comma */
+        }
+        if (!vlen) snprintf(out, len, "(none)");
+        return;
+    }
+    snprintf(out, len, "%.*s", vlen, v);
+}
+
 /* The first line where two "key=value\n" texts differ, into a message. */
 static void first_difference(const char *then, const char *now, char *out, size_t len)
 {
@@ -171,9 +204,10 @@ static void first_difference(const char *then, const char *now, char *out, size_
         if (e1 - then != e2 - now || memcmp(then, now, (size_t)(e1 - then)) != 0) {
             const char *k = memchr(then, '=', (size_t)(e1 - then));
             int klen = k ? (int)(k - then) : 0;
-            snprintf(out, len, "{%.*s} was %.*s there and is %.*s here", klen, then,
-                     (int)(e1 - then - klen - 1), then + klen + 1,
-                     (int)(e2 - now - klen - 1), now + klen + 1);
+            char was[1024], is[1024];
+            shown_value(then, klen, then + klen + 1, (int)(e1 - then - klen - 1), was, sizeof was);
+            shown_value(now, klen, now + klen + 1, (int)(e2 - now - klen - 1), is, sizeof is);
+            snprintf(out, len, "{%.*s} was %s there and is %s here", klen, then, was, is);
             return;
         }
         then = e1 + 1;
@@ -200,12 +234,24 @@ static scan_status prepare_checkpoints(scan_context *sc, const char *const *path
                  "is one piece of a larger scan, resumed by scanning it again");
         return scan_fail(sc, SCAN_ERR_USAGE, NULL);
     }
-    for (size_t i = 0; i < npaths; i++)
+    for (size_t i = 0; i < npaths; i++) {
         if (!strcmp(paths[i], "-")) {
             snprintf(sc->err, sizeof sc->err,
                      "{checkpoint} needs files: standard input cannot be read again to resume");
             return scan_fail(sc, SCAN_ERR_USAGE, NULL);
         }
+        /* A pipe under a name (/dev/stdin, a FIFO, <(...)) cannot be read
+         * again either: a resume would only ever find it changed. */
+        struct stat st;
+        if (stat(paths[i], &st) == 0 && !S_ISREG(st.st_mode) && !S_ISBLK(st.st_mode)) {
+            snprintf(sc->err, sizeof sc->err,
+                     "%.1024s: {checkpoint} needs files that can be read again to resume, and "
+                     "this is a %s", paths[i],
+                     S_ISFIFO(st.st_mode) ? "pipe" : S_ISDIR(st.st_mode) ? "directory"
+                     : S_ISSOCK(st.st_mode) ? "socket" : "device");
+            return scan_fail(sc, SCAN_ERR_USAGE, NULL);
+        }
+    }
     if (!sc->o.checkpoint_bytes) sc->o.checkpoint_bytes = SCAN_CHECKPOINT_BYTES;
     sc->paths = paths;
     sc->npaths = npaths;

@@ -288,3 +288,51 @@ if mount -t tmpfs -o size=64k tmpfs "$T/fullfs" 2>/dev/null; then
 else
     skip checkpoint.full_disk "cannot mount a tmpfs here"
 fi
+
+# 6. A refusal names options as they are written: the task by name, the
+# missing spellings as --missing takes them (it showed "--task was 0 there
+# and is 1 here", "2:NA,3:N/A,..").
+if killed_in 2 "$T/tk.ck" "$T/c.csv" "${EVERY[@]}" --target label -o "$T/r.sheaf"; then
+    refused task_by_name 2 '(--task was (decided when read) there and is classify here)' \
+        "$T/c.csv" "${EVERY[@]}" --target label --task classify --checkpoint "$T/tk.ck" --resume
+else
+    fail checkpoint.refuse_task_by_name "the scan did not reach checkpoint 2: $(tr '\n' '|' <"$T/bg.err")"
+fi
+cp "$T/c.ck.keep" "$T/c.ck"
+refused missing_as_written 2 '(--missing was NA,N/A,null,NULL,None,-,? there and is NA,a\\,b here)' \
+    "$T/c.csv" "${EVERY[@]}" --missing 'NA,a\,b' --checkpoint "$T/c.ck" --resume
+
+# 7. A pipe under a name (/dev/stdin, a FIFO) is refused with a checkpoint,
+# as '-' is: it cannot be read again, and a resume could only ever find it
+# changed (it was accepted, then every resume failed with exit 3).
+rm -f "$T/pipe.ck" "$T/r.sheaf"
+head -c 100000 "$T/c.csv" | "$SHEAF" scan -q /dev/stdin --checkpoint "$T/pipe.ck" -o "$T/r.sheaf" \
+    >/dev/null 2>"$T/err"
+rc=$?
+check checkpoint.refuse_dev_stdin "exit $rc: $(head -c 300 "$T/err")" \
+    [ "$rc" -eq 2 ] && check checkpoint.refuse_dev_stdin_says "$(head -c 300 "$T/err")" \
+    grep -q '/dev/stdin: --checkpoint needs files that can be read again to resume, and this is a pipe' "$T/err"
+check checkpoint.refuse_dev_stdin_writes_nothing "$(ls "$T"/pipe.ck "$T"/r.sheaf 2>&1)" \
+    [ ! -e "$T/pipe.ck" ] && check checkpoint.refuse_dev_stdin_no_summary "summary written" [ ! -e "$T/r.sheaf" ]
+if mkfifo "$T/fifo" 2>/dev/null; then
+    (head -c 100000 "$T/c.csv" >"$T/fifo" &)
+    run "$SHEAF" scan -q "$T/fifo" --checkpoint "$T/pipe.ck" -o "$T/r.sheaf"
+    check checkpoint.refuse_fifo "exit $RC: $(err_text)" [ "$RC" -eq 2 ]
+    cat "$T/fifo" >/dev/null 2>&1 & # the writer, if the scan left it waiting
+    sleep 0.2
+    kill %1 2>/dev/null
+fi
+
+# 8. A checkpoint that cannot be made says it is the checkpoint (it said
+# only "x.ck: cannot create: Permission denied").
+if command -v setpriv >/dev/null && [ "$(id -u)" = 0 ]; then
+    mkdir -p "$T/ro" && chmod 555 "$T/ro" && chmod 755 "$T"
+    setpriv --reuid=65534 --regid=65534 --clear-groups "$SHEAF" scan -q "$T/c.csv" \
+        --checkpoint "$T/ro/x.ck" -o /tmp/sheaf-ck-nobody.$$.sheaf >/dev/null 2>"$T/err"
+    rc=$?
+    rm -f /tmp/sheaf-ck-nobody.$$.sheaf
+    check checkpoint.unwritable_says_checkpoint "exit $rc: $(head -c 300 "$T/err")" \
+        grep -q "checkpoint $T/ro/x.ck: cannot create: Permission denied" "$T/err"
+else
+    skip checkpoint.unwritable_says_checkpoint "not root, or no setpriv"
+fi
