@@ -47,7 +47,7 @@ static inline __attribute__((always_inline, target("ssse3"))) int
 number_parse_ssse3(const char *s, size_t len, number_decimal *out)
 {
     const unsigned char *q = (const unsigned char *)s;
-    int negative = len && *q == '-';
+    int negative = *q == '-'; /* readable even when len is 0: the cell is padded */
     q += negative;
     size_t n = len - (size_t)negative;
     if (n - 1 >= 16) return -1;
@@ -59,13 +59,14 @@ number_parse_ssse3(const char *s, size_t len, number_decimal *out)
     unsigned mlen = (unsigned)n; /* bytes of the mantissa */
     unsigned point = 16;         /* position of the '.', 16 if none */
     int64_t e = 0;
+    int exponent = 0;            /* an exponent was written */
     if (other) {
         unsigned k = (unsigned)__builtin_ctz(other);
         if (q[k] == '.') {
             point = k;
             other &= other - 1;
         }
-        if (other) {
+        if (__builtin_expect(other != 0, 0)) { /* an exponent, or not a number */
             unsigned x = (unsigned)__builtin_ctz(other);
             if ((q[x] | 0x20) != 'e') return -1;
             mlen = x;
@@ -73,13 +74,14 @@ number_parse_ssse3(const char *s, size_t len, number_decimal *out)
             int exponent_negative = 0;
             if (p < end && (*p == '-' || *p == '+')) exponent_negative = *p++ == '-';
             if (p == end || end - p > 4) return -1;
-            int64_t exponent = 0;
+            int64_t written = 0;
             for (; p < end; p++) {
                 unsigned d = (unsigned)*p - '0';
                 if (d > 9) return -1;
-                exponent = exponent * 10 + d;
+                written = written * 10 + d;
             }
-            e = exponent_negative ? -exponent : exponent;
+            e = exponent_negative ? -written : written;
+            exponent = 1;
         }
     }
     unsigned digits = mlen - (point < mlen);
@@ -103,8 +105,13 @@ number_parse_ssse3(const char *s, size_t len, number_decimal *out)
     if (m == 0) {
         e = 0;
         val = 0.0;
+    } else if (!exponent) {
+        /* At most 16 digits and 15 decimals: Clinger's exact case when m is
+         * at most 2^53 (one correctly rounded operation; a division by
+         * 10^0 = 1 is exact). */
+        if (m > (UINT64_C(1) << 53)) return -1;
+        val = (double)m / number_pow10[-e];
     } else if (m <= (UINT64_C(1) << 53) && e >= -22 && e <= 22) {
-        /* Clinger's exact case: one correctly rounded operation. */
         val = e < 0 ? (double)m / number_pow10[-e] : (double)m * number_pow10[e];
     } else {
         return -1;
