@@ -235,8 +235,74 @@ int crosstab_add_count(crosstab *t, uint64_t key, uint32_t cell)
     return 0;
 }
 
+/* n rows of (key, cell) (key already crosstab_key_of): crosstab_add_count
+ * n times. */
+static int add_count_n(crosstab *t, uint64_t key, uint32_t cell, uint64_t n)
+{
+    record *r;
+    if (t->mode == CROSSTAB_COUNTS) {
+        r = find_record(t, key, cell, sizeof(record));
+        if (r->n) { r->n += n; return 0; }
+    } else if (crosstab_begin_mode(t, CROSSTAB_COUNTS)) {
+        return -1;
+    }
+    r = new_record(t, key, cell);
+    if (!r) return -1;
+    r->n += n;
+    return 0;
+}
+
+/* crosstab_add_counts for a table of few (key, cell) pairs: each piece of
+ * AGG_PIECE rows counted by pair in a small table of its own (in the L1
+ * cache), then each pair added once, in the order the pairs first appear,
+ * so that new keys reach the table in the order the rows bring them (what
+ * max_keys keeps does not change).  A column of a few values and classes
+ * has a few dozen pairs in 256 rows: one probe of the large table each,
+ * where every row probed it (a cache miss for most). */
+#define AGG_PIECE 256
+#define AGG_SLOTS 512
+#define AGG_PAIRS 128 /* keys x cells at most, for the pieces to pay */
+
+static int add_aggregated(crosstab *t, const uint64_t *keys, const uint32_t *cells, size_t n)
+{
+    uint16_t slot[AGG_SLOTS];
+    uint64_t pair_key[AGG_PIECE], pair_n[AGG_PIECE];
+    uint32_t pair_cell[AGG_PIECE];
+    for (size_t at = 0; at < n; at += AGG_PIECE) {
+        const size_t m = n - at < AGG_PIECE ? n - at : AGG_PIECE;
+        memset(slot, 0, sizeof slot);
+        uint16_t np = 0;
+        for (size_t i = at; i < at + m; i++) {
+            const uint32_t c = cells[i];
+            if (!c) continue;
+            const uint64_t k = crosstab_key_of(keys[i]);
+            uint32_t h = record_home(k, c, 9);
+            for (;;) {
+                uint16_t s = slot[h];
+                if (!s) {
+                    pair_key[np] = k;
+                    pair_cell[np] = c;
+                    pair_n[np] = 1;
+                    slot[h] = ++np;
+                    break;
+                }
+                if (pair_key[s - 1] == k && pair_cell[s - 1] == c) {
+                    pair_n[s - 1]++;
+                    break;
+                }
+                h = (h + 1) & (AGG_SLOTS - 1);
+            }
+        }
+        for (uint16_t p = 0; p < np; p++)
+            if (add_count_n(t, pair_key[p], pair_cell[p], pair_n[p]) != 0) return -1;
+    }
+    return 0;
+}
+
 SHEAF_HOT int crosstab_add_counts(crosstab *t, const uint64_t *keys, const uint32_t *cells, size_t n)
 {
+    if (t->mode == CROSSTAB_COUNTS && (uint64_t)t->keys * t->cells <= AGG_PAIRS && n >= 32)
+        return add_aggregated(t, keys, cells, n);
     enum { AHEAD = 8 }; /* the tables outgrow the caches */
     for (size_t i = 0; i < n; i++) {
         if (!cells[i]) continue;

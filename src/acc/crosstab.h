@@ -79,9 +79,10 @@ void crosstab_prefetch(const crosstab *t, uint64_t key, uint32_t cell);
  * table in CROSSTAB_VALUES mode, or when memory runs out. */
 int crosstab_add_count(crosstab *t, uint64_t key, uint32_t cell);
 /* n calls of crosstab_add_count(t, keys[i], cells[i]) in order, skipping
- * the rows whose cell is 0 (no class), with the home slots prefetched a few
- * rows ahead: the same table.  0, or -1 as crosstab_add_count (the rows
- * before the failing one are in). */
+ * the rows whose cell is 0 (no class): the same table (rows of a table of
+ * few pairs counted by pair first, the others with their home slots
+ * prefetched a few rows ahead).  0, or -1 as crosstab_add_count (the table
+ * then holds part of the rows). */
 int crosstab_add_counts(crosstab *t, const uint64_t *keys, const uint32_t *cells, size_t n);
 /* Regression: one row with value hash `key` and target value y (a deviation
  * in the target's frame).  -1 on a table in CROSSTAB_COUNTS mode, or when y

@@ -248,6 +248,8 @@ static inline uint64_t filter_bits(uint64_t hash)
     return (UINT64_C(1) << (hash & 63)) | (UINT64_C(1) << ((hash >> 6) & 63));
 }
 
+#define FILTER_CACHED_WORDS 4096 /* 32 KiB */
+
 static inline uint32_t filter_word(const values *v, uint64_t hash)
 {
     return (uint32_t)(hash >> 12) & (v->filter_words - 1);
@@ -284,9 +286,14 @@ SHEAF_HOT long values_add_many(values *v, const uint64_t *hash, const char *cons
      * cells are new: a filter answers those without probing. */
     if (v->levels >= v->max_levels && v->overflowed && v->bits &&
         (v->filter_valid || build_filter(v) == 0)) {
+        /* A filter within the L1 cache (a table of up to 2,048 levels) is
+         * not worth a prefetch per cell. */
+        const int fetch = v->filter_words > FILTER_CACHED_WORDS;
+        uint64_t spilled = 0;
         for (; i < n; i++) {
             uint64_t h = hash[i];
-            if (i + PREFETCH < n) __builtin_prefetch(&v->filter[filter_word(v, hash[i + PREFETCH])]);
+            if (fetch && i + PREFETCH < n)
+                __builtin_prefetch(&v->filter[filter_word(v, hash[i + PREFETCH])]);
             uint64_t b = filter_bits(h);
             if ((v->filter[filter_word(v, h)] & b) == b) {
                 slot *s = &v->slots[find_slot(v, h)];
@@ -296,8 +303,9 @@ SHEAF_HOT long values_add_many(values *v, const uint64_t *hash, const char *cons
                 }
             }
             v->overflow[h % VALUES_OVERFLOW_SLOTS]++;
-            v->overflow_total++;
+            spilled++;
         }
+        v->overflow_total += spilled;
         v->total += n;
         return (long)n;
     }
