@@ -3,9 +3,6 @@
 #include "summary/block.h"
 
 #include <math.h>
-#if defined(__SSE2__)
-#include <emmintrin.h>
-#endif
 #include <stdlib.h>
 #include <string.h>
 #define XXH_INLINE_ALL
@@ -180,8 +177,9 @@ SHEAF_HOT static void feed_classes(summary_column *c, block_lane *l, const block
  * equal values the first stays, which matters for -0 and +0 only), and a
  * number is integer-valued when its magnitude is 2^52 or more or when
  * adding and taking away 2^52 (round to nearest, exact below 2^52) gives
- * it back.  Two numbers at a time with SSE2: 6 instructions a number
- * against 29 for the scalar loop (callgrind). */
+ * it back.  Four numbers at a time in vector lanes (acc/four.h): 5.8
+ * instructions a number in the x86-64-v3 clone, 7.7 with SSE2 pairs before,
+ * 29 for the scalar loop (callgrind). */
 typedef struct {
     double lo, hi;
     uint64_t zeros, integers;
@@ -199,36 +197,35 @@ SHEAF_HOT static void scan_extent(const double *v, size_t n, number_extent *e)
 {
     size_t i = 0;
     double lo = e->lo, hi = e->hi;
-#if defined(__SSE2__)
-    if (n >= 4) {
-        const __m128d sign = _mm_set1_pd(-0.0), two52 = _mm_set1_pd(0x1p52), zero = _mm_setzero_pd();
-        __m128d vlo = _mm_set1_pd(lo), vhi = _mm_set1_pd(hi);
-        __m128i nz = _mm_setzero_si128(), ni = _mm_setzero_si128();
-        for (; i + 2 <= n; i += 2) {
-            __m128d x = _mm_loadu_pd(v + i), a = _mm_andnot_pd(sign, x);
-            vlo = _mm_min_pd(x, vlo); /* x < lo ? x : lo, lane by lane */
-            vhi = _mm_max_pd(x, vhi);
-            __m128d whole = _mm_or_pd(_mm_cmpge_pd(a, two52),
-                                      _mm_cmpeq_pd(_mm_sub_pd(_mm_add_pd(a, two52), two52), a));
-            nz = _mm_sub_epi64(nz, _mm_castpd_si128(_mm_cmpeq_pd(x, zero)));
-            ni = _mm_sub_epi64(ni, _mm_castpd_si128(whole));
+    if (n >= 8) { /* four lanes (acc/four.h), on the bits of the doubles */
+        const four_doubles two52 = FOUR_OF(0x1p52), zero = FOUR_OF(0.0);
+        const four_words magnitude = {INT64_MAX, INT64_MAX, INT64_MAX, INT64_MAX};
+        four_doubles vlo = FOUR_OF(lo), vhi = FOUR_OF(hi), x;
+        four_words nz = {0, 0, 0, 0}, ni = nz;
+        for (; i + 4 <= n; i += 4) {
+            four_get(&x, v + i);
+            /* x < lo ? x : lo, lane by lane (equal values keep lo) */
+            four_words lt = (four_words)(x < vlo), gt = (four_words)(x > vhi);
+            vlo = (four_doubles)((lt & (four_words)x) | (~lt & (four_words)vlo));
+            vhi = (four_doubles)((gt & (four_words)x) | (~gt & (four_words)vhi));
+            four_doubles a = (four_doubles)((four_words)x & magnitude);
+            four_words whole = (four_words)(a >= two52) | (four_words)((a + two52) - two52 == a);
+            nz -= (four_words)(x == zero);
+            ni -= whole;
         }
-        double l2[2], h2[2];
-        uint64_t z2[2], i2[2];
-        _mm_storeu_pd(l2, vlo);
-        _mm_storeu_pd(h2, vhi);
-        _mm_storeu_si128((__m128i *)z2, nz);
-        _mm_storeu_si128((__m128i *)i2, ni);
-        double vl = l2[0] < l2[1] ? l2[0] : l2[1], vh = h2[0] > h2[1] ? h2[0] : h2[1];
+        double vl = vlo[0], vh = vhi[0];
+        for (int u = 1; u < 4; u++) {
+            vl = vlo[u] < vl ? vlo[u] : vl;
+            vh = vhi[u] > vh ? vhi[u] : vh;
+        }
         /* The lanes lose the order of equal values, which only matters for
          * a new extreme of zero: in order, the block's first zero (-0 or
          * +0) would be it.  An extreme equal to the old one keeps the old. */
         if (vl < lo) lo = vl == 0 ? first_zero(v, i) : vl;
         if (vh > hi) hi = vh == 0 ? first_zero(v, i) : vh;
-        e->zeros += z2[0] + z2[1];
-        e->integers += i2[0] + i2[1];
+        e->zeros += nz[0] + nz[1] + nz[2] + nz[3];
+        e->integers += ni[0] + ni[1] + ni[2] + ni[3];
     }
-#endif
     for (; i < n; i++) {
         double x = v[i];
         lo = x < lo ? x : lo;
