@@ -249,6 +249,7 @@ static inline uint64_t filter_bits(uint64_t hash)
 }
 
 #define FILTER_CACHED_WORDS 4096 /* 32 KiB */
+#define SLOTS_CACHED_BITS 10      /* 1,024 slots of 16 bytes: 16 KiB */
 
 static inline uint32_t filter_word(const values *v, uint64_t hash)
 {
@@ -309,10 +310,14 @@ SHEAF_HOT long values_add_many(values *v, const uint64_t *hash, const char *cons
         v->total += n;
         return (long)n;
     }
+    /* Slots within the L1 cache (a table of up to 1,024 of them) are not
+     * worth a prefetch per cell either. */
+    const int fetch_slots = v->bits > SLOTS_CACHED_BITS;
     while (i < n) {
         uint64_t h = hash[i];
         if (v->bits) {
-            if (i + PREFETCH < n) __builtin_prefetch(&v->slots[home_slot(hash[i + PREFETCH], v->bits)]);
+            if (fetch_slots && i + PREFETCH < n)
+                __builtin_prefetch(&v->slots[home_slot(hash[i + PREFETCH], v->bits)]);
             slot *s = &v->slots[find_slot(v, h)];
             if (s->count) {
                 s->count++;
