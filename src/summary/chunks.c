@@ -172,10 +172,15 @@ static int column_grid_block(chunks *w, job *j, size_t col, size_t b, block_lane
         const size_t nnum = l->nnum;
         const uint16_t *num_row = l->num_row;
         const double *num_dev = l->dev;
-        memset(pr, 0, end - start);
-        for (size_t i = 0; i < nnum; i++) {
-            dev[num_row[i]] = num_dev[i];
-            pr[num_row[i]] = 1;
+        if (nnum == end - start) { /* a number in every row: the i-th is row i's */
+            memcpy(dev, num_dev, nnum * sizeof *dev);
+            memset(pr, 1, nnum);
+        } else {
+            memset(pr, 0, end - start);
+            for (size_t i = 0; i < nnum; i++) {
+                dev[num_row[i]] = num_dev[i];
+                pr[num_row[i]] = 1;
+            }
         }
     }
     /* block_feed empties the lane, and reads it only: each target is fed the
