@@ -261,8 +261,12 @@ SHEAF_HOT int block_feed(summary_column *c, block_lane *l, const block_rows *b)
      * stayed exact; once the running value table overflowed it never will. */
     if (c->cross && !values_overflowed(c->vals)) {
         if (classes) {
-            for (size_t i = 0; i < l->ncells; i++) l->cells_tmp[i] = b->row_class[l->cell_row[i]];
-            if (crosstab_add_counts(c->cross, l->hash, l->cells_tmp, l->ncells) != 0) return -1;
+            const uint32_t *cls = b->row_class; /* a cell in every row: the i-th is row i's */
+            if (l->ncells != b->rows) {
+                for (size_t i = 0; i < l->ncells; i++) l->cells_tmp[i] = b->row_class[l->cell_row[i]];
+                cls = l->cells_tmp;
+            }
+            if (crosstab_add_counts(c->cross, l->hash, cls, l->ncells) != 0) return -1;
         } else {
             for (size_t i = 0; i < l->ncells; i++) {
                 if (i + 8 < l->ncells) { /* the tables outgrow the caches */
@@ -287,10 +291,14 @@ SHEAF_HOT int block_feed(summary_column *c, block_lane *l, const block_rows *b)
         c->mom.max = hi;
         c->zeros += zeros;
         c->integers += integers;
-        if (b->target)
+        const uint32_t *cells = NULL; /* the bucket cell of each number */
+        if (b->target && l->nnum == b->rows) { /* a number in every row: the i-th is row i's */
+            cells = b->row_cell;
+        } else if (b->target) {
             for (size_t i = 0; i < l->nnum; i++) l->cells_tmp[i] = b->row_cell[l->num_row[i]];
-        if (buckets_add_many(c->bins, l->val, b->target ? l->cells_tmp : NULL, l->nnum) != 0)
-            return -1;
+            cells = l->cells_tmp;
+        }
+        if (buckets_add_many(c->bins, l->val, cells, l->nnum) != 0) return -1;
         if (c->cls && classes) {
             if (l->cls_cap < b->max_classes) {
                 free(l->cls_tmp);
