@@ -120,6 +120,38 @@ number_parse_ssse3(const char *s, size_t len, number_decimal *out)
     return 0;
 }
 
+/* number_parse_ssse3 for a cell of digits alone (an optional '-', 1 to 16
+ * digits, nothing else): the same decimal, without looking for a point or
+ * an exponent; -1 for any other cell (then number_parse_ssse3 reads it). */
+static inline __attribute__((always_inline, target("ssse3"))) int
+number_parse_integer_ssse3(const char *s, size_t len, number_decimal *out)
+{
+    const unsigned char *q = (const unsigned char *)s;
+    int negative = *q == '-';
+    q += negative;
+    size_t n = len - (size_t)negative;
+    if (n - 1 >= 16) return -1;
+    const __m128i v = _mm_loadu_si128((const __m128i *)(const void *)q);
+    const __m128i t = _mm_sub_epi8(v, _mm_set1_epi8('0'));
+    const __m128i digit = _mm_cmpeq_epi8(_mm_min_epu8(t, _mm_set1_epi8(9)), t);
+    uint32_t inside = (UINT32_C(1) << n) - 1;
+    if ((inside & ~(uint32_t)_mm_movemask_epi8(digit)) != 0) return -1;
+    /* Lane i takes digit i - (16 - n); a negative index reads as zero. */
+    const __m128i iota = _mm_setr_epi8(0, 1, 2, 3, 4, 5, 6, 7, 8, 9, 10, 11, 12, 13, 14, 15);
+    __m128i d = _mm_shuffle_epi8(t, _mm_add_epi8(iota, _mm_set1_epi8((char)((int)n - 16))));
+    __m128i pairs = _mm_maddubs_epi16(d, _mm_setr_epi8(10, 1, 10, 1, 10, 1, 10, 1, 10, 1, 10, 1,
+                                                        10, 1, 10, 1));
+    __m128i quads = _mm_madd_epi16(pairs, _mm_setr_epi16(100, 1, 100, 1, 100, 1, 100, 1));
+    quads = _mm_packs_epi32(quads, quads);
+    __m128i octets = _mm_madd_epi16(quads, _mm_setr_epi16(10000, 1, 10000, 1, 10000, 1, 10000, 1));
+    uint64_t hi = (uint32_t)_mm_cvtsi128_si32(octets);
+    uint64_t lo = (uint32_t)_mm_cvtsi128_si32(_mm_srli_si128(octets, 4));
+    uint64_t m = hi * 100000000u + lo;
+    if (m > (UINT64_C(1) << 53)) return -1;
+    number_set_exact(out, (double)m, m, 0, negative);
+    return 0;
+}
+
 /* number_parse for a cell with NUMBER_READ_AHEAD readable bytes after it:
  * number_parse_ssse3, and number_parse for whatever that does not read. */
 static inline __attribute__((always_inline, target("ssse3"))) number_kind

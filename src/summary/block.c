@@ -520,7 +520,20 @@ static void keep_example(summary_column *c, const char *p, uint32_t len)
         }                                                                                      \
     }
 
-#define DECODE_NUMBERS(quick, cell, decimals)                                                  \
+/* The quick loops' number d with deviation dd, of cell i. */
+#define DECODE_KEEP(d, dd, decimals)                                                           \
+    do {                                                                                       \
+        dev[nnum] = dd;                                                                        \
+        val[nnum] = d.value;                                                                   \
+        if (decimals) {                                                                        \
+            num_mant[nnum] = d.negative ? -(int64_t)d.mantissa : (int64_t)d.mantissa;         \
+            num_exp[nnum] = d.exp10;                                                           \
+        }                                                                                      \
+        num_row[nnum] = cell_row[i];                                                           \
+        nnum++;                                                                                \
+    } while (0)
+
+#define DECODE_NUMBERS(whole, quick, cell, decimals)                                                  \
     do {                                                                                       \
         const char *const *text = (const char *const *)l->text;                               \
         const uint32_t *len = l->len;                                                          \
@@ -537,6 +550,18 @@ static void keep_example(summary_column *c, const char *p, uint32_t len)
                 const uint64_t ref_mant = l->ref.dec.mantissa;                                 \
                 const double ref_scale = l->ref.scale;                                         \
                 const int ref_divide = l->ref.divide;                                          \
+                /* A run of cells of digits alone first (a column of whole      \
+                 * numbers: the parser need not look for a point or an        \
+                 * exponent), then the quick parser for the rest. */          \
+                for (; i < n; i++) {                                                           \
+                    number_decimal d;                                                          \
+                    double dd;                                                                 \
+                    if (whole(text[i], len[i], &d) != 0 || (d.mantissa >> 52) != 0 ||          \
+                        !number_deviation_exact(d.mantissa, d.negative, 0, ref_exp, ref_m,     \
+                                                ref_mant, ref_scale, ref_divide, &dd))         \
+                        break;                                                                 \
+                    DECODE_KEEP(d, dd, decimals);                                              \
+                }                                                                              \
                 for (; i < n; i++) {                                                           \
                     number_decimal d;                                                          \
                     double dd;                                                                 \
@@ -544,14 +569,7 @@ static void keep_example(summary_column *c, const char *p, uint32_t len)
                         !number_deviation_exact(d.mantissa, d.negative, d.exp10, ref_exp,      \
                                                 ref_m, ref_mant, ref_scale, ref_divide, &dd))  \
                         break;                                                                 \
-                    dev[nnum] = dd;                                                            \
-                    val[nnum] = d.value;                                                       \
-                    if (decimals) {                                                            \
-                        num_mant[nnum] = d.negative ? -(int64_t)d.mantissa : (int64_t)d.mantissa; \
-                        num_exp[nnum] = d.exp10;                                               \
-                    }                                                                          \
-                    num_row[nnum] = cell_row[i];                                               \
-                    nnum++;                                                                    \
+                    DECODE_KEEP(d, dd, decimals);                                              \
                 }                                                                              \
                 if (i == n) break;                                                             \
             }                                                                                  \
@@ -582,12 +600,12 @@ DECODE_CELL(decimal_cell, number_parse, 1, )
 /* `decimals` is a constant in each instance below, so the test folds away. */
 static void decode_numbers(summary_column *c, block_lane *l, size_t n)
 {
-    DECODE_NUMBERS(no_quick, number_cell, 0);
+    DECODE_NUMBERS(no_quick, no_quick, number_cell, 0);
 }
 
 static void decode_decimals(summary_column *c, block_lane *l, size_t n)
 {
-    DECODE_NUMBERS(no_quick, decimal_cell, 1);
+    DECODE_NUMBERS(no_quick, no_quick, decimal_cell, 1);
 }
 
 #if defined(NUMBER_SIMD)
@@ -598,13 +616,13 @@ DECODE_CELL(decimal_cell_ssse3, number_parse_padded, 1, __attribute__((target("s
 __attribute__((target("ssse3"))) static void decode_numbers_ssse3(summary_column *c, block_lane *l,
                                                                   size_t n)
 {
-    DECODE_NUMBERS(number_parse_ssse3, number_cell_ssse3, 0);
+    DECODE_NUMBERS(number_parse_integer_ssse3, number_parse_ssse3, number_cell_ssse3, 0);
 }
 
 __attribute__((target("ssse3"))) static void decode_decimals_ssse3(summary_column *c,
                                                                    block_lane *l, size_t n)
 {
-    DECODE_NUMBERS(number_parse_ssse3, decimal_cell_ssse3, 1);
+    DECODE_NUMBERS(number_parse_integer_ssse3, number_parse_ssse3, decimal_cell_ssse3, 1);
 }
 
 #if defined(SHEAF_HAVE_CLONES)
@@ -613,13 +631,13 @@ __attribute__((target("ssse3"))) static void decode_decimals_ssse3(summary_colum
 __attribute__((target("arch=x86-64-v3"))) static void decode_numbers_v3(summary_column *c,
                                                                        block_lane *l, size_t n)
 {
-    DECODE_NUMBERS(number_parse_ssse3, number_cell_ssse3, 0);
+    DECODE_NUMBERS(number_parse_integer_ssse3, number_parse_ssse3, number_cell_ssse3, 0);
 }
 
 __attribute__((target("arch=x86-64-v3"))) static void decode_decimals_v3(summary_column *c,
                                                                         block_lane *l, size_t n)
 {
-    DECODE_NUMBERS(number_parse_ssse3, decimal_cell_ssse3, 1);
+    DECODE_NUMBERS(number_parse_integer_ssse3, number_parse_ssse3, decimal_cell_ssse3, 1);
 }
 #endif
 #endif

@@ -4,7 +4,8 @@
  * its first '|'.  For each cell:
  *   - number_parse reads it from a buffer of exactly its size, so
  *     AddressSanitizer sees any read past len;
- *   - the SIMD parser for padded cells (number_parse_padded, where the CPU
+ *   - the SIMD parser for padded cells (number_parse_padded, and the
+ *     digits-only number_parse_integer_ssse3 where it reads a cell, where the CPU
  *     has SSSE3) reads it with NUMBER_READ_AHEAD bytes of digits, points and
  *     'e's after it, and must give the same kind and, for a number, the same
  *     value bits, mantissa, power of ten, sign and exactness;
@@ -72,6 +73,12 @@ __attribute__((target("ssse3"))) static number_kind parse_padded(const char *s, 
 {
     return number_parse_padded(s, len, out);
 }
+
+__attribute__((target("ssse3"))) static int parse_whole(const char *s, size_t len,
+                                                      number_decimal *out)
+{
+    return number_parse_integer_ssse3(s, len, out);
+}
 #endif
 
 /* Parses one cell every way and checks them against each other. */
@@ -108,6 +115,17 @@ static number_kind check_cell(const uint8_t *cell, size_t len, number_decimal *o
             fault("\"%s\": number_parse %llu e%d neg %d exact %d, padded %llu e%d neg %d exact %d",
                   text, (unsigned long long)d.mantissa, d.exp10, d.negative, d.exact,
                   (unsigned long long)p.mantissa, p.exp10, p.negative, p.exact);
+        /* The digits-only parser: a cell it reads is one number_parse reads
+         * the same way. */
+        number_decimal w;
+        memset(&w, 0, sizeof w);
+        if (parse_whole(padded, len, &w) == 0 &&
+            (k != NUMBER_FINITE || bits_of(w.value) != bits_of(d.value) ||
+             w.mantissa != d.mantissa || w.exp10 != d.exp10 || w.negative != d.negative ||
+             w.exact != d.exact || w.tail_digits != d.tail_digits))
+            fault("\"%s\": number_parse kind %d %.17g %llu e%d, digits-only parser %.17g %llu e%d",
+                  text, k, d.value, (unsigned long long)d.mantissa, d.exp10, w.value,
+                  (unsigned long long)w.mantissa, w.exp10);
     }
 #endif
 
