@@ -220,7 +220,7 @@ int shard_frames_walk(int fd, const char *path, uint64_t size, uint64_t lo, uint
                       uint64_t *start, uint64_t *end, uint64_t *decoded, uint64_t *frames,
                       uint64_t *read_bytes, char *err, size_t errlen)
 {
-    uint64_t at = 0, own = 0, nframes = 0;
+    uint64_t at = 0, own = 0, nframes = 0, unsized = UINT64_MAX;
     int started = 0;
     *start = *end = size;
     *frames = 0;
@@ -249,13 +249,8 @@ int shard_frames_walk(int fd, const char *path, uint64_t size, uint64_t lo, uint
         nframes++;
         if (at >= lo) {
             if (!started) { *start = at; started = 1; }
-            if (content == UINT64_MAX) {
-                snprintf(err, errlen, "%s: the zstd frame at byte %llu does not say its "
-                         "decompressed size, which a shard needs (zstd writes it when it "
-                         "compresses a file)", path, (unsigned long long)at);
-                return -1;
-            }
-            own += content;
+            if (content == UINT64_MAX && unsized == UINT64_MAX) unsized = at;
+            own += content == UINT64_MAX ? 0 : content;
         }
         uint64_t b = at + hb;
         for (;;) {
@@ -286,6 +281,18 @@ int shard_frames_walk(int fd, const char *path, uint64_t size, uint64_t lo, uint
         *frames = nframes;
     }
     if (!started) *start = *end;
+    /* The first shard owns the file from byte 0, skippable frames before
+     * its first data frame included: it starts at the top (reads the
+     * header itself, and starts the shards' chain). */
+    if (started && lo == 0) *start = 0;
+    /* A frame without its size, unless the file is one frame (refused as
+     * such by the caller, with the way to make many). */
+    if (unsized != UINT64_MAX && *frames != 1) {
+        snprintf(err, errlen, "%s: the zstd frame at byte %llu does not say its "
+                 "decompressed size, which a shard needs (zstd writes it when it "
+                 "compresses a file, not standard input)", path, (unsigned long long)unsized);
+        return -1;
+    }
     *decoded = own;
     return 0;
 }

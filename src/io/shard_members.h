@@ -62,12 +62,13 @@ ssize_t shard_members_pull(void *ctx, void *buf, size_t cap);
  * 3-byte header (its size, type and last-block flag), and the optional
  * 4-byte checksum; skippable frames (magic 50..5f 2a 4d 18) by their size.
  * A few bytes per block of up to 128 KiB are read, never the data.  The
- * data frames that start in [lo, hi) are the shard's: *start, where the
+ * data frames that start in [lo, hi) are the shard's: *start (0 for the
+ * first shard, lo == 0, whatever skippable frames come first), where the
  * first data frame at or after hi begins (*end; size when none), and their
  * decompressed bytes (*decoded, from their content-size fields: a frame
- * without one is refused).  *frames: the data frames in the file when the
- * walk reached its end, else 0 (more than the walk saw).  0, or -1 with one
- * line in err. */
+ * without one is refused, unless the file is one frame).  *frames: the data
+ * frames in the file when the walk reached its end, else 0 (more than the
+ * walk saw).  0, or -1 with one line in err. */
 int shard_frames_walk(int fd, const char *path, uint64_t size, uint64_t lo, uint64_t hi,
                       uint64_t *start, uint64_t *end, uint64_t *decoded, uint64_t *frames,
                       uint64_t *read_bytes, char *err, size_t errlen);

@@ -619,7 +619,11 @@ static scan_status scan_shard_range(scan_context *sc, const char *path, int fd, 
 scan_status scan_shard(scan_context *sc, const char *path)
 {
     struct stat st;
-    if (strcmp(path, "-") == 0 || stat(path, &st) != 0 || !S_ISREG(st.st_mode)) {
+    if (strcmp(path, "-") != 0 && stat(path, &st) != 0) { /* as a whole scan says it */
+        snprintf(sc->err, sizeof sc->err, "%s: cannot open: %s", path, strerror(errno));
+        return scan_fail(sc, SCAN_ERR_INPUT, NULL);
+    }
+    if (strcmp(path, "-") == 0 || !S_ISREG(st.st_mode)) {
         snprintf(sc->err, sizeof sc->err, "%s: {shard} needs a regular file (not a pipe)", path);
         return scan_fail(sc, SCAN_ERR_USAGE, NULL);
     }

@@ -259,3 +259,34 @@ if command -v zstd >/dev/null; then
 else
     skip zstd_refused "no zstd command"
 fi
+
+# zstd frames (equivalence audit): a file that begins with a skippable
+# frame (metadata some producers write first) still has a first shard, at
+# the top: it reads the header and starts the chain (shard 1 was taken for
+# a middle one: the header's bytes went uncounted and it stayed unverified);
+# a one-frame file without its size (compressed from standard input) is
+# refused as one frame, exit 2, as documented (it said exit 3, "does not say
+# its decompressed size"); a missing file under --shard is "cannot open",
+# exit 3, as without it (it said "needs a regular file (not a pipe)", exit 2).
+if command -v zstd >/dev/null; then
+    split -n l/5 "$T/quoted.csv" "$T/zpart_"
+    : >"$T/frames.zst"
+    for f in "$T"/zpart_*; do zstd -q -c "$f" >>"$T/frames.zst"; done
+    printf '\x50\x2a\x4d\x18\x0c\x00\x00\x00metadata....' >"$T/skipfirst.zst"
+    cat "$T/frames.zst" >>"$T/skipfirst.zst"
+    run "$SHEAF" scan -q "$T/skipfirst.zst" -o "$T/skw.sheaf"
+    for i in 1 2 3; do "$SHEAF" scan -q "$T/skipfirst.zst" --shard "$i/3" -o "$T/sk$i.sheaf"; done
+    run "$SHEAF" merge "$T/sk1.sheaf" "$T/sk2.sheaf" "$T/sk3.sheaf" -o "$T/sk.sheaf"
+    got=$("$SHEAF" info "$T/sk.sheaf" --format json | python3 -c 'import json,sys; d=json.load(sys.stdin); print(d["rows"], d["bytes"], d["sources"][0]["shard"]["start_rule"])' 2>&1)
+    want=$("$SHEAF" info "$T/skw.sheaf" --format json | python3 -c 'import json,sys; d=json.load(sys.stdin); print(d["rows"], d["bytes"], "certain")' 2>&1)
+    check zstd_skippable_first_frame "merged: $got; whole: $want" [ "$got" = "$want" ]
+    zstd -q -c <"$T/quoted.csv" >"$T/pipe.zst"
+    run "$SHEAF" scan -q "$T/pipe.zst" --shard 1/2 -o "$T/x.sheaf"
+    check zstd_one_frame_without_size_refused "exit $RC: $(err_text)" [ "$RC" -eq 2 ] &&
+        check zstd_one_frame_without_size_says_one_frame "$(err_text)" grep -q "this one is one frame" "$T/err"
+else
+    skip zstd_skippable_first_frame "no zstd command"
+fi
+run "$SHEAF" scan -q "$T/no-such-file.csv" --shard 1/2 -o "$T/x.sheaf"
+check shard_missing_file_cannot_open "exit $RC: $(err_text)" [ "$RC" -eq 3 ] &&
+    check shard_missing_file_says_so "$(err_text)" grep -q "cannot open: No such file or directory" "$T/err"
