@@ -135,7 +135,8 @@ int cmd_scan(int argc, char **argv)
         "scan", "FILE... -o OUT.sheaf [options]",
         "Reads each FILE (plain, gzip or zstd, detected from its bytes; '-' is standard\n"
         "input) once, in bounded memory, and writes a summary of every column. Several\n"
-        "files are read in turn and must share the header. A failed scan writes nothing.\n"
+        "files are read in turn and must share the header and the delimiter (the first\n"
+        "file's, unless -d). A failed scan writes nothing.\n"
         "With --target A,B,.. the one pass keeps what each target needs, and the summary\n"
         "holds every target: info, screen, corr, pca, project and trim --summary take --target\n"
         "to choose one. The value is split at commas unless it is, whole, a header name.",

@@ -292,10 +292,12 @@ static scan_status first_record(scan_context *sc, const csv_field *f, size_t nf)
             }
             if (!same) {
                 free(name);
+                char d[8];
+                snprintf(d, sizeof d, sc->delim == '\t' ? "tab" : "'%c'", sc->delim);
                 snprintf(sc->err, sizeof sc->err,
                          "%s: header differs from %s's (%zu vs %zu fields; first difference at "
-                         "field %zu)",
-                         sc->shown, sc->first_path, nf, sc->file_fields, i + 1);
+                         "field %zu; every file is read with the first one's delimiter, %s)",
+                         sc->shown, sc->first_path, nf, sc->file_fields, i + 1, d);
                 return scan_fail(sc, SCAN_ERR_INPUT, NULL);
             }
         }

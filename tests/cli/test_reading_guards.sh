@@ -289,3 +289,15 @@ check target.label_too_long "exit $RC: $(err_text)" \
 "$SHEAF" scan "$T/longlabel2.csv" -q -t label -o "$T/longlabel2.sheaf" 2>/dev/null
 run "$SHEAF" screen "$T/longlabel2.sheaf"
 check target.label_at_limit_reads "exit $RC: $(err_text)" [ "$RC" -eq 0 ]
+
+# Pieces of one table as CSV and TSV (equivalence audit): every file is read
+# with the first one's delimiter, and the refusal says so (it said only "1
+# vs 12 fields").
+printf 'a,b,c\n1,2,3\n' >"$T/piece1.csv"
+printf 'a\tb\tc\n4\t5\t6\n' >"$T/piece2.tsv"
+run "$SHEAF" scan "$T/piece1.csv" "$T/piece2.tsv" -q -o "$T/pieces.sheaf"
+check files.other_delimiter_named "exit $RC: $(err_text)" [ "$RC" -eq 3 ] &&
+    check files.other_delimiter_says_why "$(err_text)" \
+        grep -q "every file is read with the first one's delimiter, ','" "$T/err"
+run "$SHEAF" scan "$T/piece1.csv" "$T/piece2.tsv" -q -d , -o "$T/pieces.sheaf"
+check files.other_delimiter_still_refused_with_d "exit $RC" [ "$RC" -eq 3 ]
