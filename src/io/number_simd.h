@@ -32,6 +32,22 @@ static inline void number_set_exact(number_decimal *out, double val, uint64_t m,
 #define NUMBER_SIMD 1
 #include <immintrin.h>
 
+/* The value of 16 digit lanes (0..9 each, the last digit in lane 15): three
+ * multiply-add steps combine them into two 8-digit halves (the SIMD digit
+ * conversion used by simdjson). */
+static inline __attribute__((always_inline, target("ssse3"))) uint64_t
+number_digits_value(__m128i d)
+{
+    __m128i pairs = _mm_maddubs_epi16(d, _mm_setr_epi8(10, 1, 10, 1, 10, 1, 10, 1, 10, 1, 10, 1,
+                                                        10, 1, 10, 1));
+    __m128i quads = _mm_madd_epi16(pairs, _mm_setr_epi16(100, 1, 100, 1, 100, 1, 100, 1));
+    quads = _mm_packs_epi32(quads, quads);
+    __m128i octets = _mm_madd_epi16(quads, _mm_setr_epi16(10000, 1, 10000, 1, 10000, 1, 10000, 1));
+    uint64_t hi = (uint32_t)_mm_cvtsi128_si32(octets);
+    uint64_t lo = (uint32_t)_mm_cvtsi128_si32(_mm_srli_si128(octets, 4));
+    return hi * 100000000u + lo;
+}
+
 /* number_parse for cells with 16 readable bytes after the sign: a cell of
  * "digits[.digits][e[+-]digits]" in at most 16 bytes after the sign, with at
  * most 4 exponent digits, is read here (returns 0, *out filled); anything else returns -1 for
@@ -92,15 +108,7 @@ number_parse_ssse3(const char *s, size_t len, number_decimal *out)
     const __m128i iota = _mm_setr_epi8(0, 1, 2, 3, 4, 5, 6, 7, 8, 9, 10, 11, 12, 13, 14, 15);
     __m128i idx = _mm_add_epi8(iota, _mm_set1_epi8((char)((int)digits - 16)));
     idx = _mm_sub_epi8(idx, _mm_cmpgt_epi8(idx, _mm_set1_epi8((char)((int)point - 1))));
-    __m128i d = _mm_shuffle_epi8(t, idx);
-    __m128i pairs = _mm_maddubs_epi16(d, _mm_setr_epi8(10, 1, 10, 1, 10, 1, 10, 1, 10, 1, 10, 1,
-                                                        10, 1, 10, 1));
-    __m128i quads = _mm_madd_epi16(pairs, _mm_setr_epi16(100, 1, 100, 1, 100, 1, 100, 1));
-    quads = _mm_packs_epi32(quads, quads);
-    __m128i octets = _mm_madd_epi16(quads, _mm_setr_epi16(10000, 1, 10000, 1, 10000, 1, 10000, 1));
-    uint64_t hi = (uint32_t)_mm_cvtsi128_si32(octets);
-    uint64_t lo = (uint32_t)_mm_cvtsi128_si32(_mm_srli_si128(octets, 4));
-    uint64_t m = hi * 100000000u + lo;
+    uint64_t m = number_digits_value(_mm_shuffle_epi8(t, idx));
     double val;
     if (m == 0) {
         e = 0;
@@ -138,15 +146,8 @@ number_parse_integer_ssse3(const char *s, size_t len, number_decimal *out)
     if ((inside & ~(uint32_t)_mm_movemask_epi8(digit)) != 0) return -1;
     /* Lane i takes digit i - (16 - n); a negative index reads as zero. */
     const __m128i iota = _mm_setr_epi8(0, 1, 2, 3, 4, 5, 6, 7, 8, 9, 10, 11, 12, 13, 14, 15);
-    __m128i d = _mm_shuffle_epi8(t, _mm_add_epi8(iota, _mm_set1_epi8((char)((int)n - 16))));
-    __m128i pairs = _mm_maddubs_epi16(d, _mm_setr_epi8(10, 1, 10, 1, 10, 1, 10, 1, 10, 1, 10, 1,
-                                                        10, 1, 10, 1));
-    __m128i quads = _mm_madd_epi16(pairs, _mm_setr_epi16(100, 1, 100, 1, 100, 1, 100, 1));
-    quads = _mm_packs_epi32(quads, quads);
-    __m128i octets = _mm_madd_epi16(quads, _mm_setr_epi16(10000, 1, 10000, 1, 10000, 1, 10000, 1));
-    uint64_t hi = (uint32_t)_mm_cvtsi128_si32(octets);
-    uint64_t lo = (uint32_t)_mm_cvtsi128_si32(_mm_srli_si128(octets, 4));
-    uint64_t m = hi * 100000000u + lo;
+    uint64_t m = number_digits_value(
+        _mm_shuffle_epi8(t, _mm_add_epi8(iota, _mm_set1_epi8((char)((int)n - 16)))));
     if (m > (UINT64_C(1) << 53)) return -1;
     number_set_exact(out, (double)m, m, 0, negative);
     return 0;

@@ -271,8 +271,6 @@ done:
     return st;
 }
 
-/* The first record of a source: the header, or (no header) the width. */
-
 /* The first record of a stream: the header, or (no header) the width.  Its
  * fields are raw (the reading thread leaves the chunk as it is). */
 static scan_status first_record(scan_context *sc, const csv_field *f, size_t nf)
