@@ -81,6 +81,8 @@ struct values {
     uint64_t *filter;     /* membership filter of a full table, or NULL */
     uint32_t filter_words; /* 64-bit words of filter (power of two) */
     int filter_valid;     /* filter holds exactly the current keys */
+    const values *known;  /* values_admit_after: keys that enter whenever they come */
+    uint32_t room;        /* places left for keys not in known */
 };
 
 static inline uint32_t home_slot(uint64_t hash, uint32_t bits)
@@ -215,7 +217,12 @@ void values_reset(values *v)
 /* Slow path of values_add: the key is absent. */
 static int add_new(values *v, uint64_t hash, const char *text, size_t len)
 {
-    if (v->levels >= v->max_levels) {
+    int full = v->levels >= v->max_levels;
+    if (!full && v->known && !values_count_of(v->known, hash)) { /* a key of this part's own */
+        if (v->room) v->room--;
+        else full = 1;
+    }
+    if (full) {
         add_overflow(v, hash, 1);
         v->total++;
         return 0;
@@ -473,6 +480,12 @@ int values_merge(values *into, const values *from)
     into->total += from_total;
     free(tmp);
     return 0;
+}
+
+void values_admit_after(values *v, const values *known)
+{
+    v->known = known;
+    v->room = known->levels < v->max_levels ? v->max_levels - known->levels : 0;
 }
 
 uint32_t values_levels(const values *v) { return v->levels; }

@@ -84,6 +84,13 @@ uint64_t values_overflow_total(const values *v); /* cells counted in overflow sl
 uint64_t values_total(const values *v);          /* all counted cells */
 /* Count of one value: exact for table entries, 0 if absent. */
 uint64_t values_count_of(const values *v, uint64_t hash);
+/* Admission after earlier parts of the same stream (a checkpointed scan's
+ * segments): keys in `known` (the earlier parts' keys, borrowed) enter v
+ * whenever they come, any other key only while the room they left
+ * (max_levels - known's levels) lasts, one place each, the rest overflowing.
+ * A merge of the parts then holds the keys, and the counts, of one table fed
+ * the whole stream: its first max_levels distinct values. */
+void values_admit_after(values *v, const values *known);
 /* Entry i (0 <= i < values_levels) in canonical (hash) order; count 0 when
  * i is out of range, or when the table is unsealed and its temporary index
  * cannot be allocated. */

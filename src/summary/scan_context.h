@@ -74,6 +74,10 @@ struct scan_context {
     char *options_text;    /* checkpoint_options_text */
     uint64_t seg_bytes;    /* decompressed bytes pushed in the open segment */
     uint64_t ckpt_number;  /* checkpoints written */
+    values **known;        /* per summary and column: the keys of the finished segments'
+                              value tables (scan_known_add), which the next segments admit
+                              as one scan would (values_admit_after); NULL before a cut */
+    size_t nknown;         /* entries of known: summaries x plan columns */
     summary_set *done_set; /* the finished segments, merged (while a cut is written in the
                               background, that cut's: cut_job) */
     struct scan_cut_job *cut_job; /* the last cut, finished and written on its own thread while
@@ -138,10 +142,11 @@ void scan_prefix_update(scan_context *sc, const char *data, size_t len, uint64_t
  * checkpoint's offset of a resumed scan (SCAN_OK or the failure). */
 int scan_absorb_segment(scan_context *sc);
 scan_status scan_cut(scan_context *sc, uint64_t offset);
+int scan_known_add(scan_context *sc, summary *const *parts, size_t nparts);
 /* The cut still being written (sc->cut_job), waited for: its merged
  * summaries become sc->done_set, or its failure the scan's (SCAN_OK or the
  * failure; SCAN_OK when there is none).  scan_cut_drop waits for it and
- * throws its work away (a scan freed before its end). */
+ * throws its work away, and frees sc->known (scan_free). */
 scan_status scan_cut_join(scan_context *sc);
 void scan_cut_drop(scan_context *sc);
 scan_status scan_resume_here(scan_context *sc, const reader_chunk *ch);

@@ -171,6 +171,33 @@ void scan_cut_drop(scan_context *sc)
 {
     scan_cut_job *j = cut_wait(sc);
     if (j) cut_job_free(j);
+    for (size_t k = 0; sc->known && k < sc->nknown; k++) values_free(sc->known[k]);
+    free(sc->known);
+    sc->known = NULL;
+}
+
+/* The value-table keys of parts (summaries of the finished segments, one
+ * per target, columns as the plan's) added to sc->known: what a later
+ * segment's tables admit as one scan's table would (values_admit_after), so
+ * that merging the segments keeps the first --max-levels values of the
+ * stream with their exact counts, as a scan without checkpoints does.  The
+ * segments' own keys always fit: each admitted only the room the ones
+ * before left.  0, or -1 when out of memory. */
+int scan_known_add(scan_context *sc, summary *const *parts, size_t nparts)
+{
+    size_t ncols = sc->plan.n;
+    if (!sc->known) {
+        sc->nknown = nparts * ncols;
+        if (!(sc->known = calloc(sc->nknown ? sc->nknown : 1, sizeof *sc->known))) return -1;
+    }
+    for (size_t t = 0; t < nparts && t * ncols < sc->nknown; t++)
+        for (size_t c = 0; c < ncols; c++) {
+            values **k = &sc->known[t * ncols + c];
+            const values *v = parts[t]->cols[c].vals;
+            if (!*k && !(*k = values_create(values_max_levels(v), 0))) return -1;
+            if (values_merge(*k, v) != 0) return -1;
+        }
+    return 0;
 }
 
 /* Starts j on a thread of its own with every signal blocked there (they go
@@ -208,6 +235,18 @@ scan_status scan_cut(scan_context *sc, uint64_t offset)
     if (c) c->files = calloc(sc->npaths, sizeof *c->files);
     if (!j || !seg || !c->files) {
         if (j) free(c->files);
+        free(j);
+        free(seg);
+        return scan_fail(sc, SCAN_ERR_MEMORY, "out of memory");
+    }
+    if (scan_known_add(sc, sc->runs, sc->nruns) != 0) {
+        free(c->files);
+        free(j);
+        free(seg);
+        return scan_fail(sc, SCAN_ERR_MEMORY, "out of memory");
+    }
+    if (scan_known_add(sc, sc->runs, sc->nruns) != 0) {
+        free(c->files);
         free(j);
         free(seg);
         return scan_fail(sc, SCAN_ERR_MEMORY, "out of memory");
@@ -270,6 +309,14 @@ scan_status scan_cut(scan_context *sc, uint64_t offset)
 scan_status scan_segment_start(scan_context *sc, uint64_t lines, uint64_t rows)
 {
     if (!sc->runs && scan_make_runs(sc) != 0) return scan_fail(sc, SCAN_ERR_MEMORY, NULL);
+    /* Resuming: the keys of the checkpoint's finished segments (after a cut
+     * the scan has them already; the plan's columns are known by now). */
+    if (!sc->known && sc->done_set &&
+        scan_known_add(sc, sc->done_set->parts, sc->done_set->n) != 0)
+        return scan_fail(sc, SCAN_ERR_MEMORY, "out of memory");
+    for (size_t t = 0; sc->known && t < sc->nruns; t++) /* after a cut, or resuming */
+        for (size_t c = 0; c < sc->plan.n && t * sc->plan.n + c < sc->nknown; c++)
+            values_admit_after(sc->runs[t]->cols[c].vals, sc->known[t * sc->plan.n + c]);
     if (!sc->work && scan_start_work(sc) != 0)
         return scan_fail(sc, SCAN_ERR_MEMORY,
                          "out of memory: the chunk buffers and worker threads of the scan");
