@@ -233,20 +233,9 @@ scan_status scan_cut(scan_context *sc, uint64_t offset)
     summary_set *seg = malloc(sizeof *seg);
     checkpoint *c = j ? &j->c : NULL;
     if (c) c->files = calloc(sc->npaths, sizeof *c->files);
-    if (!j || !seg || !c->files) {
+    /* The segment's keys join the known ones while nothing feeds it. */
+    if (!j || !seg || !c->files || scan_known_add(sc, sc->runs, sc->nruns) != 0) {
         if (j) free(c->files);
-        free(j);
-        free(seg);
-        return scan_fail(sc, SCAN_ERR_MEMORY, "out of memory");
-    }
-    if (scan_known_add(sc, sc->runs, sc->nruns) != 0) {
-        free(c->files);
-        free(j);
-        free(seg);
-        return scan_fail(sc, SCAN_ERR_MEMORY, "out of memory");
-    }
-    if (scan_known_add(sc, sc->runs, sc->nruns) != 0) {
-        free(c->files);
         free(j);
         free(seg);
         return scan_fail(sc, SCAN_ERR_MEMORY, "out of memory");
