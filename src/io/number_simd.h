@@ -48,6 +48,26 @@ number_digits_value(__m128i d)
     return hi * 100000000u + lo;
 }
 
+/* What both parsers read first: the sign (*negative; s[0] is readable even
+ * when len is 0, the cell being padded), the bytes after it (*q, *n: 1 to
+ * 16, else -1 is returned), those 16 bytes less '0' (*t) and the mask of
+ * the cell's bytes that are no digit (*other). */
+static inline __attribute__((always_inline, target("ssse3"))) int
+number_simd_open(const char *s, size_t len, const unsigned char **q, int *negative, size_t *n,
+                 __m128i *t, uint32_t *other)
+{
+    const unsigned char *p = (const unsigned char *)s;
+    *negative = *p == '-';
+    p += *negative;
+    *n = len - (size_t)*negative;
+    if (*n - 1 >= 16) return -1;
+    *q = p;
+    *t = _mm_sub_epi8(_mm_loadu_si128((const __m128i *)(const void *)p), _mm_set1_epi8('0'));
+    const __m128i digit = _mm_cmpeq_epi8(_mm_min_epu8(*t, _mm_set1_epi8(9)), *t);
+    *other = ((UINT32_C(1) << *n) - 1) & ~(uint32_t)_mm_movemask_epi8(digit);
+    return 0;
+}
+
 /* number_parse for cells with 16 readable bytes after the sign: a cell of
  * "digits[.digits][e[+-]digits]" in at most 16 bytes after the sign, with at
  * most 4 exponent digits, is read here (returns 0, *out filled); anything else returns -1 for
@@ -62,16 +82,12 @@ number_digits_value(__m128i d)
 static inline __attribute__((always_inline, target("ssse3"))) int
 number_parse_ssse3(const char *s, size_t len, number_decimal *out)
 {
-    const unsigned char *q = (const unsigned char *)s;
-    int negative = *q == '-'; /* readable even when len is 0: the cell is padded */
-    q += negative;
-    size_t n = len - (size_t)negative;
-    if (n - 1 >= 16) return -1;
-    const __m128i v = _mm_loadu_si128((const __m128i *)(const void *)q);
-    const __m128i t = _mm_sub_epi8(v, _mm_set1_epi8('0'));
-    const __m128i digit = _mm_cmpeq_epi8(_mm_min_epu8(t, _mm_set1_epi8(9)), t);
-    uint32_t inside = (UINT32_C(1) << n) - 1;
-    uint32_t other = inside & ~(uint32_t)_mm_movemask_epi8(digit);
+    const unsigned char *q;
+    int negative;
+    size_t n;
+    __m128i t;
+    uint32_t other;
+    if (number_simd_open(s, len, &q, &negative, &n, &t, &other) != 0) return -1;
     unsigned mlen = (unsigned)n; /* bytes of the mantissa */
     unsigned point = 16;         /* position of the '.', 16 if none */
     int64_t e = 0;
@@ -134,16 +150,12 @@ number_parse_ssse3(const char *s, size_t len, number_decimal *out)
 static inline __attribute__((always_inline, target("ssse3"))) int
 number_parse_integer_ssse3(const char *s, size_t len, number_decimal *out)
 {
-    const unsigned char *q = (const unsigned char *)s;
-    int negative = *q == '-';
-    q += negative;
-    size_t n = len - (size_t)negative;
-    if (n - 1 >= 16) return -1;
-    const __m128i v = _mm_loadu_si128((const __m128i *)(const void *)q);
-    const __m128i t = _mm_sub_epi8(v, _mm_set1_epi8('0'));
-    const __m128i digit = _mm_cmpeq_epi8(_mm_min_epu8(t, _mm_set1_epi8(9)), t);
-    uint32_t inside = (UINT32_C(1) << n) - 1;
-    if ((inside & ~(uint32_t)_mm_movemask_epi8(digit)) != 0) return -1;
+    const unsigned char *q;
+    int negative;
+    size_t n;
+    __m128i t;
+    uint32_t other;
+    if (number_simd_open(s, len, &q, &negative, &n, &t, &other) != 0 || other) return -1;
     /* Lane i takes digit i - (16 - n); a negative index reads as zero. */
     const __m128i iota = _mm_setr_epi8(0, 1, 2, 3, 4, 5, 6, 7, 8, 9, 10, 11, 12, 13, 14, 15);
     uint64_t m = number_digits_value(
