@@ -171,7 +171,7 @@ int cli_parse_threads(const char *cmd, const char *text, unsigned *threads);
 #define CLI_THREADS_HELP "worker threads (default: the CPUs this process may use, within " \
     "its cgroup's CPU quota; 1: none); " \
     "the output is the same for every N; memory grows by at most 2 chunks (--chunk-size, " \
-    "or 2 records when a record is longer) per thread, with their cell positions (a scan " \
+    "or 2 records when a record is longer) per thread and 2 more, with their cell positions (a scan " \
     "holds at most 8 MiB of them a chunk) or output"
 
 /* The one progress line of a long pass on a terminal: bytes done of total (0:

@@ -61,11 +61,16 @@ typedef struct {
     int strict;                    /* a ragged row is an error */
     const reader_options *ro;      /* the reader's options (borrowed) */
     const reader_missing *missing; /* the missing-cell test (borrowed) */
-    unsigned threads;              /* worker threads (1: none), and chunks in flight: a spare
-                                      slot for the reading thread measured no faster */
+    unsigned threads;              /* worker threads (1: none); chunks in flight:
+                                      chunks_slots */
 } chunks_options;
 
 typedef struct chunks chunks;
+
+/* The chunks in flight with this many threads: one with one thread, else
+ * one a thread and a spare, so that a worker waiting for its own columns
+ * has a chunk to tokenize. */
+static inline unsigned chunks_slots(unsigned threads) { return threads > 1 ? threads + 1 : 1; }
 
 chunks *chunks_create(const chunks_options *o);
 void chunks_free(chunks *w);

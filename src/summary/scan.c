@@ -233,7 +233,7 @@ static scan_status setup(scan_context *sc, char **names, size_t nnames)
     /* The chunk buffers, each of two chunks (a chunk being cut and the next
      * being read): the reader's, and one per worker slot (the slots take the
      * reader's buffers in trade, chunks_push). */
-    uint64_t nbuf = 2 * ((uint64_t)sc->threads + 1), chunk = o->chunk_bytes + 64;
+    uint64_t nbuf = 2 * ((uint64_t)chunks_slots(sc->threads) + 1), chunk = o->chunk_bytes + 64;
     if (o->mem_limit_bytes && need + nbuf * chunk > o->mem_limit_bytes) {
         snprintf(sc->err, sizeof sc->err,
                  "the co-moment matrix (%s) and chunk buffers for %llu chunks of %s need "

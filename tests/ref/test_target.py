@@ -663,7 +663,7 @@ def test_mem_limit():
         check("mem.300_columns_default.corr", cr is not None and len(cr["columns"]) == 300,
               err or "%d columns" % len(cr["columns"]))
     # --mem bounds the whole scan: 20 columns need their co-moments (0.1 MiB)
-    # and buffers for 6 chunks of 256 KiB at -j2, so 5 MiB fits them, not 300 columns.
+    # and buffers for 8 chunks of 256 KiB at -j2, so 5 MiB fits them, not 300 columns.
     info, s = scan([p], ["--mem", "5M", "-j", "2",
                          "--columns", ",".join("w%d" % i for i in range(20))])
     check("mem.5M_with_20_columns.ok", info is not None and len(info["columns"]) == 20,
