@@ -83,21 +83,31 @@ static inline void wire_put_u32(wire_writer *w, uint32_t v) { wire_put_le(w, v, 
 static inline void wire_put_u64(wire_writer *w, uint64_t v) { wire_put_le(w, v, 8); }
 static inline void wire_put_i64(wire_writer *w, int64_t v) { wire_put_le(w, (uint64_t)v, 8); }
 
+/* Every NaN is written as this one quiet NaN: which of two NaNs an
+ * operation returns depends on the order of its operands, which differs
+ * between the compiled copies of a loop (src/io/clones.h), so the bytes
+ * would depend on the CPU. */
+#define WIRE_NAN_BITS UINT64_C(0x7ff8000000000000)
+
 static inline void wire_put_f64(wire_writer *w, double v)
 {
     uint64_t u;
     memcpy(&u, &v, 8);
-    wire_put_le(w, u, 8);
+    wire_put_le(w, v != v ? WIRE_NAN_BITS : u, 8);
 }
 
 /* n doubles in a row, as n calls of wire_put_f64 would store them. */
 static inline void wire_put_f64s(wire_writer *w, const double *v, size_t n)
 {
 #if defined(__BYTE_ORDER__) && __BYTE_ORDER__ == __ORDER_LITTLE_ENDIAN__
-    wire_put_bytes(w, v, n * sizeof *v);
-#else
-    for (size_t i = 0; i < n; i++) wire_put_f64(w, v[i]);
+    int nan = 0;
+    for (size_t i = 0; i < n; i++) nan |= v[i] != v[i];
+    if (!nan) {
+        wire_put_bytes(w, v, n * sizeof *v);
+        return;
+    }
 #endif
+    for (size_t i = 0; i < n; i++) wire_put_f64(w, v[i]);
 }
 
 static inline uint64_t wire_get_le(wire_reader *r, unsigned bytes)
