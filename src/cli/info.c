@@ -78,6 +78,7 @@ static void json_column(json_out *j, const column_description *d)
             json_key(j, "n"); json_uint(j, c->n);
             json_key(j, "mean"); json_number(j, c->mean);
             json_key(j, "variance"); json_number(j, c->variance);
+            json_key(j, "imprecise"); json_bool(j, c->imprecise);
             json_object_end(j);
         }
         json_array_end(j);
@@ -196,6 +197,12 @@ static int print_json(const summary *s, const held_targets *held, double share, 
     for (size_t i = 0; i < summary_columns(s); i++) {
         column_description d;
         if (describe_column(s, i, share, ntop, &d) != 0) return -1;
+        if (d.imprecise_classes)
+            fprintf(stderr,
+                    "sheaf info: warning: column '%s': the mean and variance of %zu class%s are "
+                    "null: its numbers lie too far from the column's first number to keep "
+                    "their digits (docs/methods.md, \"Exact decimal deviations\")\n",
+                    d.name, d.imprecise_classes, d.imprecise_classes == 1 ? "" : "es");
         json_column(&j, &d);
         describe_column_free(&d);
     }

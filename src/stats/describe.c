@@ -53,7 +53,9 @@ int describe_column(const summary *s, size_t col, double numeric_share, size_t n
         for (uint32_t c = 0; c < k; c++) {
             summary_class_stats cs;
             summary_class_moments(s, col, c, &cs);
-            d->by_class[c] = (describe_class){summary_class_label(s, c), cs.n, cs.mean, cs.variance};
+            d->by_class[c] = (describe_class){summary_class_label(s, c), cs.n, cs.mean, cs.variance,
+                                              cs.imprecise};
+            d->imprecise_classes += (size_t)cs.imprecise;
         }
         d->nclasses = k;
     }

@@ -35,6 +35,8 @@ typedef struct {
     uint64_t n;            /* rows of the class with a number in the column */
     double mean;           /* NaN when n = 0 */
     double variance;       /* sample variance (n - 1); NaN when n < 2 */
+    int imprecise;         /* mean and variance lost to a far frame: both NaN
+                              (summary_class_stats.imprecise) */
 } describe_class;
 
 typedef struct {
@@ -70,6 +72,7 @@ typedef struct {
     int has_by_class;      /* a numeric column with per-class moments (classes kept) */
     size_t nclasses;       /* entries of by_class (0 when !has_by_class) */
     describe_class *by_class; /* per class, in class order (allocated; NULL when empty) */
+    size_t imprecise_classes; /* entries of by_class marked imprecise */
 } column_description;
 
 /* Fills *out for column col (0 <= col < summary_columns(s)), with at most

@@ -441,18 +441,23 @@ static int test_feature(const summary *s, size_t col, target_task task, const sc
             size_t k = summary_class_count(s);
             level_moments *g = malloc((k ? k : 1) * sizeof *g);
             if (!g) return -1;
+            int imprecise = 0;
             for (size_t i = 0; i < k; i++) {
                 /* Less the column's mean, a frame common to every class: the tests are shift-free, and the frame keeps the digits in which classes differ. */
                 summary_class_stats cs;
                 summary_class_moments(s, col, (uint32_t)i, &cs);
                 g[i] = (level_moments){i, (double)cs.n, cs.frame_mean, cs.m2};
+                imprecise |= cs.imprecise;
             }
             rc = groups_test(g, k, &f->anova_f);
             double *n = malloc((k ? k : 1) * sizeof *n), *mean = malloc((k ? k : 1) * sizeof *mean),
                    *m2 = malloc((k ? k : 1) * sizeof *m2);
             if (n && mean && m2) {
+                /* Welch's F weighs each class by its own variance: not
+                 * with a class whose figures a far frame took (ANOVA F,
+                 * relative to the column's spread, holds). */
                 for (size_t i = 0; i < k; i++) { n[i] = g[i].n; mean[i] = g[i].mean; m2[i] = g[i].m2; }
-                if (stat_welch(n, mean, m2, k, &r) == 0) set_test(&f->welch_f, &r);
+                if (!imprecise && stat_welch(n, mean, m2, k, &r) == 0) set_test(&f->welch_f, &r);
             } else {
                 rc = -1;
             }

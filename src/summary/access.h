@@ -160,6 +160,10 @@ typedef struct {
                           of itself, so the digits in which classes differ are kept;
                           NaN when n = 0 */
     double m2;         /* sum of squared deviations from the mean */
+    int imprecise;     /* 1 when the class's numbers lie so far from the column's frame (its
+                          first number) that the rounding of their deviations exceeds 2^-20
+                          of the class's own spread or mean: mean and variance are then NaN
+                          (frame_mean and m2, which the column-level tests use, stay) */
 } summary_class_stats;
 
 /* 1 when the column has per-class moments (kept for every column while the
