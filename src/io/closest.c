@@ -88,13 +88,26 @@ void closest_offer(closest *c, const char *name, size_t len)
     if (c->nbest < CLOSEST_KEEP) c->nbest++;
 }
 
-/* Appends printf-formatted text to buf, cut to fit. */
+/* Appends printf-formatted text to buf, cut to fit; control bytes of text
+ * are shown escaped (\r, \t, \n, \xNN), so that a name ending in a CR does
+ * not print as the name without it. */
 static void add(char *buf, size_t buflen, const char *fmt, const char *text, size_t len)
 {
     size_t used = strlen(buf);
     if (used + 1 >= buflen) return;
-    snprintf(buf + used, buflen - used, fmt, (int)(len > 64 ? 64 : len), text,
-             len > 64 ? "..." : "");
+    char shown[64 * 4 + 1];
+    size_t k = 0, n = len > 64 ? 64 : len;
+    for (size_t i = 0; i < n; i++) {
+        unsigned char c = (unsigned char)text[i];
+        if (c >= 0x20 && c != 0x7f) {
+            shown[k++] = (char)c;
+        } else {
+            const char *e = c == '\r' ? "\\r" : c == '\t' ? "\\t" : c == '\n' ? "\\n" : NULL;
+            if (e) k += (size_t)snprintf(shown + k, sizeof shown - k, "%s", e);
+            else k += (size_t)snprintf(shown + k, sizeof shown - k, "\\x%02x", c);
+        }
+    }
+    snprintf(buf + used, buflen - used, fmt, (int)k, shown, len > 64 ? "..." : "");
 }
 
 void closest_append(const closest *c, const char *list_what, char *buf, size_t buflen)

@@ -27,7 +27,8 @@ typedef struct {
     /* Fixed by the reading thread before a worker sees a row: */
     unsigned char *pick;   /* per field of the first record: kept */
     size_t nfields;        /* fields of the first file's first record */
-    char *header;          /* the first file's header record, raw */
+    char *header;          /* the first file's column names, each a size_t length and its
+                              bytes (reader_column_name: as the scan compares them) */
     size_t header_len;
     char *name;            /* scratch for a column name */
     size_t name_cap;
@@ -98,26 +99,53 @@ static int choose(trimmer *t, const char *path, const reader_record *rec, char *
     return TRIM_OK;
 }
 
+/* The column names of a first record, each a size_t length and its bytes,
+ * into a new *out (*len bytes); 0 or -1 (out of memory). */
+static int header_names(const reader_record *rec, char **out, size_t *len)
+{
+    size_t cap = 0;
+    for (size_t i = 0; i < rec->nfields; i++) cap += sizeof(size_t) + rec->fields[i].len + 24;
+    char *b = malloc(cap ? cap : 1), *d = b;
+    if (!b) return -1;
+    for (size_t i = 0; i < rec->nfields; i++) {
+        size_t n = reader_column_name(&rec->fields[i], i, 1, 1, d + sizeof n);
+        memcpy(d, &n, sizeof n);
+        d += sizeof n + n;
+    }
+    *out = b;
+    *len = (size_t)(d - b);
+    return 0;
+}
+
 /* Reading thread: a file's first record (the header checks). */
 static int first_record(void *ctx, size_t file, const char *path, const reader *rd,
                         const reader_record *rec, int *skip, char *msg, size_t msglen)
 {
     trimmer *t = ctx;
     if (t->o->header) {
-        size_t hl = (size_t)(rec->eol - rec->text);
-        if (t->started) { /* later files: the same header, not written again */
-            if (hl != t->header_len || memcmp(t->header, rec->text, hl) != 0) {
-                snprintf(msg, msglen, "%s: line %llu: header differs from the first file's", path,
-                         (unsigned long long)rec->line);
+        char *names;
+        size_t len;
+        if (header_names(rec, &names, &len) != 0) {
+            snprintf(msg, msglen, "out of memory");
+            return TRIM_ERR_MEMORY;
+        }
+        if (t->started) { /* later files: the same names, as the scan asks; not written again */
+            int same = len == t->header_len && memcmp(names, t->header, len) == 0;
+            free(names);
+            if (!same) {
+                snprintf(msg, msglen,
+                         "%s: line %llu: header differs from the first file's (%zu vs %zu "
+                         "fields; column names are compared, unquoted)",
+                         path, (unsigned long long)rec->line, rec->nfields, t->nfields);
                 return TRIM_ERR_INPUT;
             }
             *skip = 1;
             return TRIM_OK;
         }
-        t->header = malloc(hl + 1);
-        if (!t->header) { snprintf(msg, msglen, "out of memory"); return TRIM_ERR_MEMORY; }
-        memcpy(t->header, rec->text, hl);
-        t->header_len = hl;
+        t->header = names;
+        t->header_len = len;
+    }
+    if (!t->started) { /* the first file's byte-order mark leads the output, header or not */
         t->bom = reader_bom_length(rd);
         t->bom_file = file;
     }

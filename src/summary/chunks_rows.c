@@ -82,8 +82,9 @@ static scan_status too_many_classes(chunks *w, const summary *s, uint64_t line)
 
 static scan_status ragged_row(chunks *w, uint64_t line, size_t nf)
 {
-    snprintf(w->r_err, sizeof w->r_err, "%s: line %llu: %zu fields, the header has %zu (rows must match: {strict})",
-             w->shown, (unsigned long long)line, nf, w->o.width);
+    snprintf(w->r_err, sizeof w->r_err,
+             "%s: line %llu: %zu field%s, the header has %zu (rows must match: {strict})",
+             w->shown, (unsigned long long)line, nf, nf == 1 ? "" : "s", w->o.width);
     return SCAN_ERR_INPUT;
 }
 

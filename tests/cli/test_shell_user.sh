@@ -31,6 +31,17 @@ mkdir "$T/cwd" && cd "$T/cwd" || exit 0
 RC=$?
 check stdout.scan_dash_writes_stdout "exit $RC, $(first_diff ../piped.sheaf ../fly.sheaf)" \
     cmp -s ../piped.sheaf ../fly.sheaf
+# A header name with a control byte (a lone CR before the CR LF is data by
+# the rule) is shown escaped in the suggestion, not as the name asked for;
+# one field is "1 field" (quote audit of 2026-12-05).
+printf 'h1,h2,h3\r\r\n1,2,3\r\n' >"$T/cr_name.csv"
+run "$S" scan "$T/cr_name.csv" --target h3 -o "$T/cr_name.sheaf"
+check messages.control_byte_escaped "$(err_text)" \
+    holds '[ "$RC" = 2 ] && grep -qF "'"'"'h3\r'"'"'" "$T/err"'
+printf 'a,b\n1\n' >"$T/one_field.csv"
+run "$S" scan --strict "$T/one_field.csv" -o "$T/one_field.sheaf"
+check messages.one_field_singular "$(err_text)" \
+    holds '[ "$RC" = 3 ] && grep -q "line 2: 1 field, the header" "$T/err"'
 left=$(ls -A . | tr '\n' ' ')
 check stdout.scan_dash_no_file_in_cwd "left in the current directory: $left" [ -z "$left" ]
 "$S" scan -q "$T/fly.csv" -t status -o - | cat >../pipe2.sheaf

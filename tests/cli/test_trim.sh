@@ -403,3 +403,23 @@ check shard.no_wrap "exit $RC: $(err_text)" holds '[ "$RC" = 2 ] && [ ! -e "$T/w
 run "$SHEAF" screen "$T/hash.sheaf" --write-kept "$T/hash2.txt"
 check keep_list.hint_names_the_written_list "$(tail -n 1 "$T/out")" \
     holds 'tail -n 1 "$T/out" | grep -q "the kept names are in .*hash2.txt" && ! grep -q "write the kept names with --write-kept" "$T/out"'
+# Later files' headers are compared by column name, unquoted, as scan and
+# project compare them: '"a",b' after 'a,b' was refused by trim alone (the
+# raw bytes differed; quote audit of 2026-12-05).  A different name is
+# still refused.  Without a header, the first file's byte-order mark still
+# leads the output, as the README says (it was dropped).
+printf 'a,b\n1,2\n3,5\n' >"$T/hq1.csv"
+printf '"a",b\n4,6\n' >"$T/hq2.csv"
+printf 'a,c\n4,6\n' >"$T/hq3.csv"
+printf 'a\n' >"$T/hq_keep.txt"
+run "$SHEAF" trim -q "$T/hq1.csv" "$T/hq2.csv" --columns-from "$T/hq_keep.txt" -o -
+check trim.header_by_name.quoted_same "exit $RC: $(err_text)" \
+    holds '[ "$RC" = 0 ] && [ "$(tr "\n" " " <"$T/out")" = "a 1 3 4 " ]'
+run "$SHEAF" trim -q "$T/hq1.csv" "$T/hq3.csv" --columns-from "$T/hq_keep.txt" -o -
+check trim.header_by_name.other_refused "exit $RC: $(err_text)" \
+    holds '[ "$RC" = 3 ] && grep -q "header differs" "$T/err"'
+printf '\357\273\277x,1\nz,3\n' >"$T/hq_bom.csv"
+printf 'col1\n' >"$T/hq_keep1.txt"
+"$SHEAF" trim -q --no-header "$T/hq_bom.csv" --columns-from "$T/hq_keep1.txt" -o "$T/hq_bom.out" 2>"$T/err"
+check trim.no_header_keeps_bom "$(od -c "$T/hq_bom.out" | head -2)" \
+    holds '[ "$(od -An -tx1 "$T/hq_bom.out" | tr -d " \n")" = "efbbbf780a7a0a" ]'
