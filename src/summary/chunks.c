@@ -534,9 +534,10 @@ chunks *chunks_create(const chunks_options *o)
         return NULL;
     }
     for (unsigned i = 0; i < w->nslots; i++) reader_cursor_init(&w->jobs[i].cur, o->ro);
+    /* A calling thread that helps is the last of the N (help). */
     unsigned made = 0;
     if (threads > 1)
-        for (unsigned i = 0; i < threads; i++) {
+        for (unsigned i = 0; i + (o->caller_helps != 0) < threads; i++) {
             if (pthread_create(&w->threads[made], NULL, worker, w) != 0) break;
             made++;
         }
@@ -633,6 +634,32 @@ static scan_status push_inline(chunks *w, const reader_chunk *c, int first,
     return st;
 }
 
+/* The calling thread, waiting for a slot or for the chunks' end, when it
+ * is one of the N (chunks_options.caller_helps): one task (any but the
+ * co-moments, which want OpenBLAS's buffer this thread does not take), run
+ * as worker N - 1; 0 when none is ready, or when it is not one of them.
+ * Under the lock. */
+static int help(chunks *w)
+{
+    uint64_t seq = 0;
+    size_t col = 0;
+    task_kind t = w->o.caller_helps ? pick(w, w->o.threads - 1, &seq, &col, 0) : TASK_NONE;
+    if (t == TASK_NONE) return 0;
+    pthread_mutex_unlock(&w->mu);
+    char msg[600] = "";
+    scan_status st = run_task(w, t, seq, col, &w->inline_lane, msg, sizeof msg);
+    pthread_mutex_lock(&w->mu);
+    finish_task(w, t, seq, col, st, msg);
+    return 1;
+}
+
+/* What the calling thread waits on: a helper for any task's end (it may
+ * make another ready), else only for a slot's (retire). */
+static pthread_cond_t *helper_cv(chunks *w)
+{
+    return w->o.caller_helps ? &w->work_cv : &w->done_cv;
+}
+
 /* One piece of a chunk to the tasks. */
 static scan_status push_piece(chunks *w, const reader_chunk *c, int first,
                               const uint64_t *repeats, size_t nrepeats, reader *owner)
@@ -641,7 +668,7 @@ static scan_status push_piece(chunks *w, const reader_chunk *c, int first,
         return w->failed ? w->failed : push_inline(w, c, first, repeats, nrepeats);
     pthread_mutex_lock(&w->mu);
     while (!w->failed && w->pushed - w->retired >= w->nslots)
-        pthread_cond_wait(&w->done_cv, &w->mu);
+        if (!help(w)) pthread_cond_wait(helper_cv(w), &w->mu);
     scan_status failed = w->failed;
     uint64_t seq = w->pushed;
     pthread_mutex_unlock(&w->mu);
@@ -707,7 +734,7 @@ scan_status chunks_wait(chunks *w)
      * slots); none starts. */
     while (w->retired < w->pushed && !(w->failed && !w->r_busy && !w->c_busy &&
                                        !memchr(w->g_busy, 1, w->ngroups)))
-        pthread_cond_wait(&w->done_cv, &w->mu);
+        if (!help(w)) pthread_cond_wait(helper_cv(w), &w->mu);
     /* The rows held for a block are summed by a worker that has OpenBLAS's
      * buffer, not on this thread, which would need one more (a scan under
      * `ulimit -v` that fits its workers' buffers then fits). */

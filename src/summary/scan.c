@@ -109,11 +109,11 @@ static scan_status within_limit(scan_context *sc, int before_rows)
     return scan_fail(sc, SCAN_ERR_MEMORY, NULL);
 }
 
-
 int scan_start_work(scan_context *sc)
 {
     chunks_options co = {sc->runs, sc->nruns, sc->field_of, sc->file_fields, sc->o.header, sc->o.strict,
-                         &sc->ro, &sc->missing, sc->threads};
+                         &sc->ro, &sc->missing, sc->threads,
+                         sc->src && source_kind(sc->src) != SOURCE_PLAIN};
     sc->work = chunks_create(&co);
     if (!sc->work) return -1;
     if (sc->open) chunks_stream(sc->work, sc->shown, sc->stop_at, sc->blank_lines);

@@ -76,5 +76,15 @@ if tsan failing_scan "$BIN" scan "$T/quote.csv" --chunk-size 64K -j 3 -q -o "$T/
     if [ "$RC" -eq 3 ] && grep -q "line 3001: unterminated quote" "$T/err"; then pass threads_tsan.failing_scan
     else fail threads_tsan.failing_scan "exit $RC: $(err_text)"; fi
 fi
+# Compressed input at -j2: one worker, and the reading thread runs tasks
+# while it waits for a slot (chunks_options.caller_helps), a failing one too.
+tsan helping_scan "$BIN" scan "$T/t.csv.gz" --target label --chunk-size 64K -j 2 -q -o "$T/h.sheaf" &&
+    ./sheaf scan "$T/t.csv.gz" --target label --chunk-size 64K -j 1 -q -o "$T/h1.sheaf" &&
+    same helping_scan "$T/h.sheaf" "$T/h1.sheaf"
+gzip -c "$T/quote.csv" >"$T/quote.csv.gz"
+if tsan helping_failing_scan "$BIN" scan "$T/quote.csv.gz" --chunk-size 64K -j 2 -q -o "$T/qh.sheaf"; then
+    if [ "$RC" -eq 3 ] && grep -q "line 3001: unterminated quote" "$T/err"; then pass threads_tsan.helping_failing_scan
+    else fail threads_tsan.helping_failing_scan "exit $RC: $(err_text)"; fi
+fi
 races=$(grep -c 'WARNING: ThreadSanitizer' "$T/tsan.err")
 check threads_tsan.no_race_report "$races reports" test "$races" -eq 0
