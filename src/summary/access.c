@@ -336,17 +336,19 @@ int summary_class_moments(const summary *s, size_t col, uint32_t k, summary_clas
     }
     out->variance = cm->n > 1 ? cm->m2 / (double)(cm->n - 1) : NAN;
     /* Each number entered as its deviation from the column's frame rounded
-     * to a double, off by up to 2^-53 of itself: about |class mean
-     * deviation| + sd.  Against the class's own scale (its sd, or its mean
-     * when its numbers are all equal) that loss must stay below 2^-20, or
-     * the class's figures are noise (a first row of 8e15 before values in
-     * [1, 2]: a class mean of 1 for 1.487).  A class read as all zeros is
-     * taken as exact (it is, for zeros), and figures past the double range
-     * keep their own warning (NaN or infinity). */
+     * to a double, off by up to 2^-53 of itself: `loss`, about 2^-53
+     * (|class mean deviation| + sd).  It must stay below 2^-20 of the
+     * class's scale, or the class's figures are noise (a first row of 8e15
+     * before values in [1, 2]: a class mean of 1 for 1.487).  The scale is
+     * the sd, unless the sd is below 2^-30 of the class's mean, where it is
+     * rounding (a merge of constant classes leaves one of about 1e-16):
+     * then the mean.  A class read as all zeros is taken as exact (it is,
+     * for zeros), and figures past the double range keep their own warning
+     * (NaN or infinity). */
     if (cm->n) {
         double sd = cm->n > 1 && cm->m2 > 0 ? sqrt(out->variance) : 0;
         double loss = 0x1p-53 * (fabs(class_moments_mean(cm)) + sd);
-        double scale = sd > 0 ? sd : fabs(out->mean);
+        double scale = sd > 0x1p-30 * fabs(out->mean) ? sd : fabs(out->mean);
         if (isfinite(loss) && isfinite(scale) && scale > 0 && loss > 0x1p-20 * scale) {
             out->imprecise = 1;
             out->mean = out->variance = NAN;
