@@ -388,7 +388,6 @@ int cmd_screen(int argc, char **argv)
     summary *s = NULL;
     screen_result *r = NULL;
     tempfile kept;
-    int kept_open = 0;
     rc = EXIT_USAGE;
     if (cli_check_format("screen", format)) goto done;
     if (q && cli_parse_unit("screen", "--fdr", q, &o.q_level)) goto done;
@@ -452,6 +451,8 @@ int cmd_screen(int argc, char **argv)
     }
     r = screen_run(s, &o);
     if (!r) { cli_error("screen", "out of memory"); rc = EXIT_RESOURCE; goto done; }
+    /* The kept list first: a report into a pipe closed early (`| head`)
+     * ends the process, which must not leave last run's list in place. */
     if (keep_list) {
         char err[PATH_MAX + 128];
         if (tempfile_open(&kept, keep_list, 0, err, sizeof err) != 0) {
@@ -459,7 +460,11 @@ int cmd_screen(int argc, char **argv)
             cli_error("screen", "%s", err);
             goto done;
         }
-        kept_open = 1;
+        if (write_keep_list(&kept, s, r, err, sizeof err) != 0) {
+            cli_error("screen", "%s", err);
+            rc = EXIT_FAILED;
+            goto done;
+        }
     }
     if (!strcmp(format, "json")) print_json(s, r);
     else if (!strcmp(format, "csv")) print_csv(s, r);
@@ -468,18 +473,8 @@ int cmd_screen(int argc, char **argv)
         print_text(cli_text_begin(&out), s, r, pos[0], keep_list);
         cli_text_end(&out);
     }
-    if (keep_list) {
-        char err[PATH_MAX + 128];
-        kept_open = 0;
-        if (write_keep_list(&kept, s, r, err, sizeof err) != 0) {
-            cli_error("screen", "%s", err);
-            rc = EXIT_FAILED;
-            goto done;
-        }
-    }
     rc = EXIT_DONE; /* standard output is checked once, by main (cli_close_stdout) */
 done:
-    if (kept_open) tempfile_discard(&kept);
     screen_free(r);
     summary_free(s);
     free(pos);

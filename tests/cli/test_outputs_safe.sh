@@ -173,6 +173,17 @@ check keep.summary_as_keep_list_exit_2 "exit $RC: $(err_text)" [ "$RC" -eq 2 ]
 check keep.summary_as_keep_list_says_so "$(err_text)" grep -q 'same file as the input' "$T/err"
 check keep.summary_unchanged "$(first_diff "$T/kl/t.sheaf" "$T/kl/copy.sheaf")" cmp -s "$T/kl/t.sheaf" "$T/kl/copy.sheaf"
 cp "$T/kl/copy.sheaf" "$T/kl/t.sheaf" # whatever happened above
+# The list is written before the report: a report into a pipe its reader has
+# closed (`| head`) ended screen by SIGPIPE before the list was written, and
+# last run's list stayed in place for trim (outputs audit of 2026-12-05).
+awk 'BEGIN { srand(5); printf "cls"; for (j = 0; j < 40; j++) printf ",v%d", j; print ""
+    for (i = 0; i < 200; i++) { printf "%s", i % 2 ? "b" : "a"
+        for (j = 0; j < 40; j++) printf ",%.3f", (i % 2) * (j % 3) * 0.3 + rand(); print "" } }' >"$T/kl/w.csv"
+$SHEAF scan -q "$T/kl/w.csv" --target cls -o "$T/kl/w.sheaf" || fail setup "scan of the wide table failed"
+echo stale >"$T/kl/w.list"
+$SHEAF screen "$T/kl/w.sheaf" --format json --write-kept "$T/kl/w.list" | { exec <&-; sleep 0.3; }
+check keep.written_before_the_report "list: $(head -n 1 "$T/kl/w.list")" \
+    holds '[ "$(head -n 1 "$T/kl/w.list")" != stale ] && [ -s "$T/kl/w.list" ]'
 mkdir "$T/kl/real"
 echo old >"$T/kl/real/keep"
 ln -s real/keep "$T/kl/link"
