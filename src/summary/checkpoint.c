@@ -326,6 +326,8 @@ int checkpoint_mark_path(const char *path, checkpoint_mark *m, char *err, size_t
     m->exists = 1;
     m->dev = (uint64_t)st.st_dev;
     m->ino = (uint64_t)st.st_ino;
+    m->ctime_sec = (int64_t)st.st_ctim.tv_sec;
+    m->ctime_nsec = (int64_t)st.st_ctim.tv_nsec;
     return 0;
 }
 
@@ -335,7 +337,8 @@ int checkpoint_remove(const char *path, const checkpoint_mark *before, int resum
     struct stat st;
     if (stat(path, &st) != 0 || !S_ISREG(st.st_mode)) return 0; /* none was written */
     if (!resumed && before->exists && (uint64_t)st.st_dev == before->dev &&
-        (uint64_t)st.st_ino == before->ino)
+        (uint64_t)st.st_ino == before->ino && (int64_t)st.st_ctim.tv_sec == before->ctime_sec &&
+        (int64_t)st.st_ctim.tv_nsec == before->ctime_nsec)
         return 0;
     char *target = tempfile_target(path);
     if (!target || unlink(target) != 0) {

@@ -112,6 +112,9 @@ typedef struct {
     int exists;    /* a file was there */
     uint64_t dev;  /* its device and inode */
     uint64_t ino;
+    int64_t ctime_sec, ctime_nsec; /* and its status change time: a file system may give
+                                      the inode number of a replaced file to a later one
+                                      (ext4 does), never with the same ctime */
 } checkpoint_mark;
 
 /* Marks path before a scan.  0, or -1 with a message in err when it cannot
