@@ -134,6 +134,15 @@ int report_files_write(const report *r, const report_page *p, const char *html_p
         sink_error(o.sinks[0], err, errlen);
         rc = REPORT_FILES_WRITE;
     }
+    /* Every chart's bytes out of the sinks' buffers before the first is
+     * renamed into place: a full disk then fails before any chart is placed
+     * (a chart's bytes were written at its close, after the charts before
+     * it had been renamed: 1 to 6 of 9 were left). */
+    for (size_t i = html_path ? 1 : 0; !rc && i < o.n; i++)
+        if (sink_flush(o.sinks[i])) {
+            sink_error(o.sinks[i], err, errlen);
+            rc = REPORT_FILES_WRITE;
+        }
     for (size_t i = html_path ? 1 : 0; !rc && i < o.n; i++) {
         sink *k = o.sinks[i];
         o.sinks[i] = NULL;
