@@ -44,6 +44,7 @@ SHEAF_API int sheaf_page_write(const sheaf_summary *s, const sheaf_summary *base
     report_free(r);
     drift_free(dr);
     if (w == REPORT_FILES_MEMORY) return api_fail(err, SHEAF_ERR_MEMORY, "out of memory");
+    if (w == REPORT_FILES_CLASH) return api_fail(err, SHEAF_ERR_USAGE, "%s", msg);
     if (w) return api_fail(err, SHEAF_ERR_IO, "%s", msg);
     return SHEAF_OK;
 }

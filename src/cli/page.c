@@ -107,7 +107,10 @@ int cmd_page(int argc, char **argv)
     char err[1024];
     int w = report_files_write(r, &p, out, svg, err, sizeof err);
     if (w) cli_error("page", "%s", err);
-    rc = w == 0 ? EXIT_DONE : w == REPORT_FILES_MEMORY ? EXIT_RESOURCE : EXIT_FAILED;
+    rc = w == 0                    ? EXIT_DONE
+         : w == REPORT_FILES_MEMORY ? EXIT_RESOURCE
+         : w == REPORT_FILES_CLASH  ? EXIT_USAGE
+                                    : EXIT_FAILED;
 done:
     report_free(r);
     drift_free(dr);

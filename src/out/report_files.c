@@ -85,11 +85,11 @@ static int open_charts(const report *r, const report_page *p, const char *dir, c
         int rc = 0;
         if (page && same_place(path, page)) {
             snprintf(err, errlen, "%s: the page and a chart would be the same file", path);
-            rc = REPORT_FILES_WRITE;
+            rc = REPORT_FILES_CLASH;
         } else if (is_input(p, path)) {
             snprintf(err, errlen, "%s: is the same file as an input; refusing to overwrite it",
                      path);
-            rc = REPORT_FILES_WRITE;
+            rc = REPORT_FILES_CLASH;
         } else {
             rc = add_output(o, path, &b, err, errlen);
         }

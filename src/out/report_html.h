@@ -42,7 +42,7 @@ size_t report_chart_count(const report *r);
 int report_chart(const report *r, size_t i, html_buf *out, const char **name);
 
 /* report_files_write's failures. */
-enum { REPORT_FILES_WRITE = 1, REPORT_FILES_MEMORY = 2 };
+enum { REPORT_FILES_WRITE = 1, REPORT_FILES_MEMORY = 2, REPORT_FILES_CLASH = 3 };
 
 /* The page into html_path (NULL: none; "-": standard output) and, when
  * svg_dir is not NULL, each chart as its own SVG file in that folder
@@ -50,8 +50,9 @@ enum { REPORT_FILES_WRITE = 1, REPORT_FILES_MEMORY = 2 };
  * place (out/sink.h), and all of them only once every one could be opened
  * and written: a page that cannot be created, or a chart that cannot, or
  * one that would land on one of p->inputs, leaves no file (and no folder
- * it made).  Returns 0, or REPORT_FILES_WRITE / REPORT_FILES_MEMORY with a
- * one-line message in err. */
+ * it made).  Returns 0, or REPORT_FILES_WRITE / REPORT_FILES_MEMORY /
+ * REPORT_FILES_CLASH (a chart on the page or on an input: the paths asked
+ * for, a usage error) with a one-line message in err. */
 int report_files_write(const report *r, const report_page *p, const char *html_path,
                        const char *svg_dir, char *err, size_t errlen);
 
