@@ -155,6 +155,11 @@ static inline const char *cell_text(const chunks *w, const job *j, size_t col, s
 /* R: the rows of chunk j, in chunk order (see chunks.h).  SCAN_OK or the
  * failure, its message in w->r_err. */
 scan_status chunks_rows_of(chunks *w, job *j);
+/* G (chunks_columns.c): column group g's cells of chunk j into its columns;
+ * 0, or -1 (out of memory) with the message in msg. */
+int chunks_group_of(chunks *w, job *j, size_t g, block_lane *l, char *msg, size_t msglen);
+/* C (chunks_columns.c): chunk j's rows into the co-moments; 0 or -1. */
+int chunks_comoments_of(chunks *w, job *j);
 /* Records "out of memory" as the failure and returns SCAN_ERR_MEMORY. */
 scan_status chunks_out_of_memory(chunks *w);
 
