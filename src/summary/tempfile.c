@@ -182,9 +182,20 @@ static char *follow_links(const char *path)
 }
 
 /* The descriptor n when name is /dev/fd/n, /proc/self/fd/n,
- * /proc/thread-self/fd/n or /proc/PID/fd/n of this process; else -1. */
-static int descriptor_in(const char *name)
+ * /proc/thread-self/fd/n or /proc/PID/fd/n of this process, spelt with
+ * any repeated '/' or "./" parts (/proc/self/fd//1 names descriptor 1 as
+ * well: read as a file, `>> log` was replaced, not appended to); else -1. */
+static int descriptor_in(const char *given)
 {
+    char name[64];
+    size_t k = 0;
+    for (const char *c = given; *c; c++) { /* lexically: "//" and "/./" are "/" */
+        if (k && name[k - 1] == '/' && (*c == '/' || (c[0] == '.' && (c[1] == '/' || !c[1]))))
+            continue;
+        if (k + 1 == sizeof name) return -1; /* longer than any spelling of one */
+        name[k++] = *c;
+    }
+    name[k] = '\0';
     char own[40];
     snprintf(own, sizeof own, "/proc/%ld/fd/", (long)getpid());
     static const char *const dirs[] = {"/dev/fd/", "/proc/self/fd/", "/proc/thread-self/fd/"};

@@ -101,6 +101,15 @@ for c in scan trim; do
         cmp -s "$T/got" "$T/ref/small.$c"
     check "device.$c.stdout_link_stays_a_link" "$(stat -c %F "$T/stdout")" [ -L "$T/stdout" ]
 done
+# Other spellings of descriptor 1 are descriptor 1 too: '>> log' with
+# -o /proc/self/fd//1 replaced log with the summary alone (outputs audit of
+# 2026-12-05).
+for p in /proc/self/fd//1 /dev/fd/./1 /proc/self/./fd/1; do
+    echo first >"$T/log"
+    sheaf_to "${SMALL[scan]}" "$p" >>"$T/log" 2>"$T/err"
+    check "device.scan.spelt_${p//[^a-z0-9]/_}_appends" "$(err_text) / $(head -c 5 "$T/log" | od -c | head -1)" \
+        holds '[ "$(head -n 1 "$T/log")" = first ] && [ "$(wc -c <"$T/log")" -gt 100 ]'
+done
 # A named pipe: the reader gets every byte, the FIFO stays.
 mkfifo "$T/fifo"
 for c in scan merge trim project; do
