@@ -48,23 +48,30 @@ number_digits_value(__m128i d)
     return hi * 100000000u + lo;
 }
 
-/* What both parsers read first: the sign (*negative; s[0] is readable even
- * when len is 0, the cell being padded), the bytes after it (*q, *n: 1 to
- * 16, else -1 is returned), those 16 bytes less '0' (*t) and the mask of
- * the cell's bytes that are no digit (*other). */
+/* What both parsers read first of a cell (number_simd_open). */
+typedef struct {
+    const unsigned char *q; /* the bytes after the sign */
+    size_t n;               /* how many: 1 to 16 */
+    int negative;           /* a '-' came first */
+    __m128i t;              /* 16 bytes from q, less '0' */
+    uint32_t other;         /* bit i: q[i] (i < n) is no digit */
+} number_simd_cell;
+
+/* Opens the cell s of len bytes into *c (s[0] is readable even when len is
+ * 0, the cell being padded); -1 when more than 16 bytes (or none) follow
+ * the sign. */
 static inline __attribute__((always_inline, target("ssse3"))) int
-number_simd_open(const char *s, size_t len, const unsigned char **q, int *negative, size_t *n,
-                 __m128i *t, uint32_t *other)
+number_simd_open(const char *s, size_t len, number_simd_cell *c)
 {
     const unsigned char *p = (const unsigned char *)s;
-    *negative = *p == '-';
-    p += *negative;
-    *n = len - (size_t)*negative;
-    if (*n - 1 >= 16) return -1;
-    *q = p;
-    *t = _mm_sub_epi8(_mm_loadu_si128((const __m128i *)(const void *)p), _mm_set1_epi8('0'));
-    const __m128i digit = _mm_cmpeq_epi8(_mm_min_epu8(*t, _mm_set1_epi8(9)), *t);
-    *other = ((UINT32_C(1) << *n) - 1) & ~(uint32_t)_mm_movemask_epi8(digit);
+    c->negative = *p == '-';
+    p += c->negative;
+    c->n = len - (size_t)c->negative;
+    if (c->n - 1 >= 16) return -1;
+    c->q = p;
+    c->t = _mm_sub_epi8(_mm_loadu_si128((const __m128i *)(const void *)p), _mm_set1_epi8('0'));
+    const __m128i digit = _mm_cmpeq_epi8(_mm_min_epu8(c->t, _mm_set1_epi8(9)), c->t);
+    c->other = ((UINT32_C(1) << c->n) - 1) & ~(uint32_t)_mm_movemask_epi8(digit);
     return 0;
 }
 
@@ -82,12 +89,11 @@ number_simd_open(const char *s, size_t len, const unsigned char **q, int *negati
 static inline __attribute__((always_inline, target("ssse3"))) int
 number_parse_ssse3(const char *s, size_t len, number_decimal *out)
 {
-    const unsigned char *q;
-    int negative;
-    size_t n;
-    __m128i t;
-    uint32_t other;
-    if (number_simd_open(s, len, &q, &negative, &n, &t, &other) != 0) return -1;
+    number_simd_cell c;
+    if (number_simd_open(s, len, &c) != 0) return -1;
+    const unsigned char *q = c.q;
+    const size_t n = c.n;
+    uint32_t other = c.other;
     unsigned mlen = (unsigned)n; /* bytes of the mantissa */
     unsigned point = 16;         /* position of the '.', 16 if none */
     int64_t e = 0;
@@ -124,7 +130,7 @@ number_parse_ssse3(const char *s, size_t len, number_decimal *out)
     const __m128i iota = _mm_setr_epi8(0, 1, 2, 3, 4, 5, 6, 7, 8, 9, 10, 11, 12, 13, 14, 15);
     __m128i idx = _mm_add_epi8(iota, _mm_set1_epi8((char)((int)digits - 16)));
     idx = _mm_sub_epi8(idx, _mm_cmpgt_epi8(idx, _mm_set1_epi8((char)((int)point - 1))));
-    uint64_t m = number_digits_value(_mm_shuffle_epi8(t, idx));
+    uint64_t m = number_digits_value(_mm_shuffle_epi8(c.t, idx));
     double val;
     if (m == 0) {
         e = 0;
@@ -140,7 +146,7 @@ number_parse_ssse3(const char *s, size_t len, number_decimal *out)
     } else {
         return -1;
     }
-    number_set_exact(out, val, m, e, negative);
+    number_set_exact(out, val, m, e, c.negative);
     return 0;
 }
 
@@ -150,18 +156,14 @@ number_parse_ssse3(const char *s, size_t len, number_decimal *out)
 static inline __attribute__((always_inline, target("ssse3"))) int
 number_parse_integer_ssse3(const char *s, size_t len, number_decimal *out)
 {
-    const unsigned char *q;
-    int negative;
-    size_t n;
-    __m128i t;
-    uint32_t other;
-    if (number_simd_open(s, len, &q, &negative, &n, &t, &other) != 0 || other) return -1;
+    number_simd_cell c;
+    if (number_simd_open(s, len, &c) != 0 || c.other) return -1;
     /* Lane i takes digit i - (16 - n); a negative index reads as zero. */
     const __m128i iota = _mm_setr_epi8(0, 1, 2, 3, 4, 5, 6, 7, 8, 9, 10, 11, 12, 13, 14, 15);
     uint64_t m = number_digits_value(
-        _mm_shuffle_epi8(t, _mm_add_epi8(iota, _mm_set1_epi8((char)((int)n - 16)))));
+        _mm_shuffle_epi8(c.t, _mm_add_epi8(iota, _mm_set1_epi8((char)((int)c.n - 16)))));
     if (m > (UINT64_C(1) << 53)) return -1;
-    number_set_exact(out, (double)m, m, 0, negative);
+    number_set_exact(out, (double)m, m, 0, c.negative);
     return 0;
 }
 
