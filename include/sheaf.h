@@ -461,10 +461,10 @@ SHEAF_API int sheaf_column_table_overflowed(const sheaf_summary *s, size_t col);
 SHEAF_API size_t sheaf_column_example_count(const sheaf_summary *s, size_t col);
 SHEAF_API const char *sheaf_column_example(const sheaf_summary *s, size_t col, size_t i);
 /* A column's numbers within target class k (k < sheaf_summary_class_count):
- * how many, their mean (NaN when none, or when they lie too far from the
- * column's first number to keep their digits) and sample variance (n - 1;
- * NaN below two, or then); 0 and NaN out of range, or with no class figures
- * (classes not kept).  `sheaf info` lists them for numeric columns. */
+ * how many, their mean (NaN when none, or when they lay too far from the first
+ * number of the scan that read them, here or in a merged summary, to keep
+ * their digits) and sample variance (n - 1; NaN below two, or then); 0 and
+ * NaN out of range, or with no class figures (classes not kept). */
 SHEAF_API uint64_t sheaf_column_class_numbers(const sheaf_summary *s, size_t col, size_t k);
 SHEAF_API double sheaf_column_class_mean(const sheaf_summary *s, size_t col, size_t k);
 SHEAF_API double sheaf_column_class_variance(const sheaf_summary *s, size_t col, size_t k);

@@ -200,9 +200,11 @@ static int print_json(const summary *s, const held_targets *held, double share, 
         if (d.imprecise_classes)
             fprintf(stderr,
                     "sheaf info: warning: column '%s': the mean and variance of %zu class%s are "
-                    "null: its numbers lie too far from the column's first number to keep "
-                    "their digits (docs/methods.md, \"Exact decimal deviations\")\n",
-                    d.name, d.imprecise_classes, d.imprecise_classes == 1 ? "" : "es");
+                    "null: %s numbers lay too far from the first number of the scan that read "
+                    "them to keep their digits (docs/methods.md, \"Target classes and "
+                    "per-class moments\")\n",
+                    d.name, d.imprecise_classes, d.imprecise_classes == 1 ? "" : "es",
+                    d.imprecise_classes == 1 ? "its" : "their");
         json_column(&j, &d);
         describe_column_free(&d);
     }

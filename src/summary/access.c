@@ -335,24 +335,14 @@ int summary_class_moments(const summary *s, size_t col, uint32_t k, summary_clas
         out->mean = (ref ? ref->value : 0) + class_moments_mean(cm);
     }
     out->variance = cm->n > 1 ? cm->m2 / (double)(cm->n - 1) : NAN;
-    /* Each number entered as its deviation from the column's frame rounded
-     * to a double, off by up to 2^-53 of itself: `loss`, about 2^-53
-     * (|class mean deviation| + sd).  It must stay below 2^-20 of the
-     * class's scale, or the class's figures are noise (a first row of 8e15
-     * before values in [1, 2]: a class mean of 1 for 1.487).  The scale is
-     * the sd, unless the sd is below 2^-30 of the class's mean, where it is
-     * rounding (a merge of constant classes leaves one of about 1e-16):
-     * then the mean.  A class read as all zeros is taken as exact (it is,
-     * for zeros), and figures past the double range keep their own warning
-     * (NaN or infinity). */
-    if (cm->n) {
-        double sd = cm->n > 1 && cm->m2 > 0 ? sqrt(out->variance) : 0;
-        double loss = 0x1p-53 * (fabs(class_moments_mean(cm)) + sd);
-        double scale = sd > 0x1p-30 * fabs(out->mean) ? sd : fabs(out->mean);
-        if (isfinite(loss) && isfinite(scale) && scale > 0 && loss > 0x1p-20 * scale) {
-            out->imprecise = 1;
-            out->mean = out->variance = NAN;
-        }
+    /* The rounding of the class's numbers in the column's frame must stay
+     * below 2^-20 of the class's scale, or its figures are noise (a first
+     * row of 8e15 before values in [1, 2]: a class mean of 1 for 1.487); a
+     * merge flags a class whose numbers came from a summary of another
+     * frame where they were rounded so (column_merge). */
+    if (cm->imprecise || class_moments_lost(cm, ref ? ref->value : 0, class_moments_loss(cm))) {
+        out->imprecise = 1;
+        out->mean = out->variance = NAN;
     }
     return 0;
 }

@@ -103,7 +103,7 @@ void column_write(const summary_column *c, uint32_t nclasses, uint32_t version, 
     if (c->cls)
         for (uint32_t k = 0; k < nclasses; k++) {
             const class_moments *m = &c->cls[k];
-            wire_put_u64(w, m->n);
+            wire_put_u64(w, m->n | (m->imprecise ? CLASS_IMPRECISE_BIT : 0));
             if (version >= 3) {
                 wire_put_f64(w, m->sum);
                 wire_put_f64(w, m->sum_low);
@@ -199,6 +199,12 @@ int column_read(summary_column *c, uint32_t nclasses, uint32_t version, wire_rea
     for (uint32_t k = 0; has_cls && k < nclasses; k++) {
         class_moments *m = &c->cls[k];
         m->n = wire_get_u64(r);
+        m->imprecise = (m->n & CLASS_IMPRECISE_BIT) != 0;
+        m->n &= ~CLASS_IMPRECISE_BIT;
+        if (m->imprecise && (version < 7 || m->n == 0)) { /* written from 2026-12-05, version 7 */
+            r->failed = 1;
+            return -1;
+        }
         if (version >= 3) {
             m->sum = wire_get_f64(r);
             m->sum_low = wire_get_f64(r);
@@ -620,12 +626,18 @@ static void two_sum_into(double *s, double *low, double x)
     *s = t;
 }
 
-/* Combines two class moments; shift = from's frame minus into's.  The sums
- * add as two-double sums, from's shifted by n_b shift (an exact product by
- * fma); M2 by the pairwise rule of Chan, Golub & LeVeque (1979). */
-static void class_merge(class_moments *a, const class_moments *b, double shift)
+/* Combines two class moments; shift = from's frame minus into's, and
+ * into_ref the value of into's frame.  The sums add as two-double sums,
+ * from's shifted by n_b shift (an exact product by fma); M2 by the pairwise
+ * rule of Chan, Golub & LeVeque (1979).  The rounding of from's numbers in
+ * from's own frame is gone from the merged sums, where a read would judge
+ * them by into's frame (summary_class_moments): when it is too much for
+ * the merged class, the class is flagged imprecise, and stays so. */
+static void class_merge(class_moments *a, const class_moments *b, double shift, double into_ref)
 {
     if (b->n == 0) return;
+    const double b_loss = shift != 0 ? class_moments_loss(b) : 0;
+    const int flagged = a->imprecise | b->imprecise;
     double nb = (double)b->n, p = nb * shift, pe = fma(nb, shift, -p);
     double mb = class_moments_mean(b) + shift;
     double sum = a->n ? a->sum : 0, low = a->n ? a->sum_low : 0;
@@ -640,6 +652,7 @@ static void class_merge(class_moments *a, const class_moments *b, double shift)
     two_sum_into(&a->sum, &a->sum_low, low);
     a->m2 = m2;
     a->n += b->n;
+    a->imprecise = flagged || class_moments_lost(a, into_ref, b_loss);
 }
 
 
@@ -649,10 +662,12 @@ int column_merge(summary_column *a, const summary_column *b, const column_merge_
         return -1;
     /* Column frame shift (before the moments merge sets a's reference). */
     double shift = a->mom.has_ref && b->mom.has_ref ? number_difference(&b->mom.ref, &a->mom.ref, NULL) : 0;
+    double into_ref = a->mom.has_ref ? a->mom.ref.value : b->mom.has_ref ? b->mom.ref.value : 0;
     if (a->cls && b->cls) {
         uint32_t k = m->same_classes ? m->max_classes : m->from_classes;
         for (uint32_t c = 0; c < k; c++)
-            class_merge(&a->cls[m->same_classes ? c : m->map[c + 1] - 1], &b->cls[c], shift);
+            class_merge(&a->cls[m->same_classes ? c : m->map[c + 1] - 1], &b->cls[c], shift,
+                        into_ref);
     }
     a->missing += b->missing;
     a->copy_print += b->copy_print; /* mod 2^64, in any order */

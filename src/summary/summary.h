@@ -101,7 +101,14 @@ typedef struct {
     double sum;       /* sum of the deviations, in the column's frame (its moments reference) */
     double sum_low;   /* the rest of that sum: |sum_low| <= ulp(sum) / 2 */
     double m2;        /* sum of squared deviations from the class mean */
+    int imprecise;    /* a merge brought numbers whose rounding in their own summary's frame
+                         exceeds 2^-20 of the merged class's scale (column_merge): mean and
+                         variance are not to be shown (summary_class_moments) */
 } class_moments;
+
+/* On the wire the flag is the top bit of the class's count (which never
+ * reaches 2^63): files without it read as before. */
+#define CLASS_IMPRECISE_BIT (UINT64_C(1) << 63)
 
 /* (sum + sum_low) / n for a two-double sum: the quotient of sum, its exact
  * remainder (one fma) and sum_low corrected, so that n equal values give
@@ -118,6 +125,31 @@ static inline double class_sum_quotient(double sum, double sum_low, double n)
 static inline double class_moments_mean(const class_moments *m)
 {
     return class_sum_quotient(m->sum, m->sum_low, (double)m->n);
+}
+
+/* The rounding of a class's numbers as they entered its summary: each was
+ * its deviation from the column's frame rounded to a double, off by up to
+ * 2^-53 of itself, so about 2^-53 (|the class's mean deviation| + its sd). */
+static inline double class_moments_loss(const class_moments *m)
+{
+    if (!m->n) return 0;
+    double sd = m->n > 1 && m->m2 > 0 ? sqrt(m->m2 / (double)(m->n - 1)) : 0;
+    return 0x1p-53 * (fabs(class_moments_mean(m)) + sd);
+}
+
+/* 1 when an error of `loss` makes the class's figures noise: it passes 2^-20
+ * of the class's scale, its sd, or its mean (ref_value + its mean
+ * deviation) when the sd is below 2^-30 of the mean: there the spread is
+ * rounding (a merge of constant classes leaves one of about 1e-16).  A
+ * class of zeros is taken as exact, and figures past the double range keep
+ * their own warning (NaN or infinity). */
+static inline int class_moments_lost(const class_moments *m, double ref_value, double loss)
+{
+    if (!m->n) return 0;
+    double sd = m->n > 1 && m->m2 > 0 ? sqrt(m->m2 / (double)(m->n - 1)) : 0;
+    double mean = ref_value + class_moments_mean(m);
+    double scale = sd > 0x1p-30 * fabs(mean) ? sd : fabs(mean);
+    return isfinite(loss) && isfinite(scale) && scale > 0 && loss > 0x1p-20 * scale;
 }
 
 /* Options that change what the accumulators hold: equal in mergeable summaries. */

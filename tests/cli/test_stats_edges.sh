@@ -189,3 +189,65 @@ print("; ".join(bad))
 EOF2
 )
 check stats_edges.far_frame_class_null "$why" [ -z "$why" ]
+
+# --- A merge that brings a far frame's class --------------------------------
+# The class of numbers in [1, 2] is imprecise in the shard whose first row is
+# 8e15; merged after a shard whose first row is 1, its sums were re-based
+# into that shard's frame and read as precise: mean 1.4894 and variance
+# 0.387 for an exact 1.4939 and 0.0847 (fractions.Fraction).  The merge now
+# weighs the incoming class's own rounding and flags it, in either order
+# and through a later merge; a merge of two near shards keeps its figures,
+# checked against Fraction.
+"$PY" - "$T" <<'EOF2'
+import random, sys
+t = sys.argv[1]
+for name, first, seed in (("m_near", "1", 7), ("m_far", "8000000000000000", 8), ("m_near2", "1", 9)):
+    random.seed(seed)
+    with open("%s/%s.csv" % (t, name), "w") as f:
+        f.write("tray,weight\na,%s\n" % first)
+        for i in range(999):
+            f.write("%s,%.4f\n" % ("ba"[i % 2], 1 + random.random()))
+EOF2
+for w in m_near m_far m_near2; do "$SHEAF" scan -q "$T/$w.csv" -t tray -o "$T/$w.sheaf" 2>/dev/null; done
+"$SHEAF" merge "$T/m_near.sheaf" "$T/m_far.sheaf" -o "$T/m_nf.sheaf" 2>/dev/null
+"$SHEAF" merge "$T/m_far.sheaf" "$T/m_near.sheaf" -o "$T/m_fn.sheaf" 2>/dev/null
+"$SHEAF" merge "$T/m_nf.sheaf" "$T/m_near2.sheaf" -o "$T/m_nfn.sheaf" 2>/dev/null
+"$SHEAF" merge "$T/m_near.sheaf" "$T/m_near2.sheaf" -o "$T/m_nn.sheaf" 2>/dev/null
+for w in m_nf m_fn m_nfn m_nn; do
+    "$SHEAF" info --format json "$T/$w.sheaf" >"$T/$w.json" 2>"$T/$w.err"
+    "$SHEAF" screen --format json "$T/$w.sheaf" >"$T/$w.screen" 2>/dev/null
+done
+why=$("$PY" - "$T" 2>&1 <<'EOF2'
+import csv, json, sys
+from fractions import Fraction
+t = sys.argv[1]
+bad = []
+def exact(names):
+    b = [Fraction(r[1]) for n in names for r in list(csv.reader(open("%s/%s.csv" % (t, n))))[1:] if r[0] == "b"]
+    m = sum(b) / len(b)
+    return m, sum((x - m) ** 2 for x in b) / (len(b) - 1)
+for w in ("m_nf", "m_fn", "m_nfn", "m_nn"):
+    try:
+        c = json.load(open("%s/%s.json" % (t, w)))["columns"][1]
+        k = [k for k in c["by_class"] if k["class"] == "b"][0]
+        tests = json.load(open("%s/%s.screen" % (t, w)))["features"][0]["tests"]
+    except Exception as e:
+        bad.append("%s: %s" % (w, e))
+        continue
+    if w != "m_nn":
+        if not (k.get("imprecise") and k["mean"] is None and k["variance"] is None):
+            bad.append("%s: %r" % (w, k))
+        if tests.get("welch_f") is not None:
+            bad.append("%s: welch %r" % (w, tests["welch_f"]))
+        if "anova_f" not in tests:
+            bad.append("%s: no anova" % w)
+        if "class" not in open("%s/%s.err" % (t, w)).read():
+            bad.append("%s: no warning" % w)
+    else:
+        m, v = exact(["m_near", "m_near2"])
+        if k.get("imprecise", True) or abs(k["mean"] - float(m)) > 1e-12 or abs(k["variance"] - float(v)) > 1e-12:
+            bad.append("m_nn: %r against %s %s" % (k, float(m), float(v)))
+print("; ".join(bad))
+EOF2
+)
+check stats_edges.merged_far_frame_class_null "$why" [ -z "$why" ]
