@@ -9,6 +9,7 @@
 
 #include "out/report_html.h"
 #include "out/sink.h"
+#include "summary/tempfile.h"
 
 /* 1 when path leads to one of the inputs (links followed). */
 static int is_input(const report_page *p, const char *path)
@@ -43,9 +44,9 @@ static int add_output(outputs *o, const char *path, const html_buf *b, char *err
     return 0;
 }
 
-/* 1 when paths a and b name one file: the same folder (by identity) and
- * the same last name, whether the file exists yet or not. */
-static int same_place(const char *a, const char *b)
+/* 1 when paths a and b, links not followed, name one file: the same folder
+ * (by identity) and the same last name, whether the file exists yet or not. */
+static int same_name(const char *a, const char *b)
 {
     const char *sa = strrchr(a, '/'), *sb = strrchr(b, '/');
     const char *na = sa ? sa + 1 : a, *nb = sb ? sb + 1 : b;
@@ -57,12 +58,28 @@ static int same_place(const char *a, const char *b)
     return stat(da, &x) == 0 && stat(db, &y) == 0 && x.st_dev == y.st_dev && x.st_ino == y.st_ino;
 }
 
+/* 1 when writing paths a and b would write one file: one existing file
+ * (hard links too), or the names their symbolic links lead to are one
+ * name (a chart that is a link to the page, made or yet to be made). */
+static int same_place(const char *a, const char *b)
+{
+    struct stat x, y;
+    if (stat(a, &x) == 0 && stat(b, &y) == 0) return x.st_dev == y.st_dev && x.st_ino == y.st_ino;
+    char *ta = tempfile_target(a), *tb = tempfile_target(b);
+    int same = ta && tb ? same_name(ta, tb) : same_name(a, b);
+    free(ta);
+    free(tb);
+    return same;
+}
+
 static int open_charts(const report *r, const report_page *p, const char *dir, const char *page,
                        outputs *o, char *err, size_t errlen)
 {
     struct stat st;
     if (stat(dir, &st) != 0 || !S_ISDIR(st.st_mode)) {
-        snprintf(err, errlen, "%s: not a folder", dir);
+        if (lstat(dir, &st) == 0 && S_ISLNK(st.st_mode) && stat(dir, &st) != 0)
+            snprintf(err, errlen, "%s: a symbolic link to a missing folder", dir);
+        else snprintf(err, errlen, "%s: not a folder", dir);
         return REPORT_FILES_WRITE;
     }
     size_t n = report_chart_count(r);

@@ -306,12 +306,14 @@ summary_status summary_write_through(const char *path,
     if (to_stdout) path = "standard output";
     if (write(obj, t.fd, tempfile_pushes(&t)) != 0) {
         int saved = errno;
+        char where[600];
+        tempfile_where(&t, where, sizeof where);
         tempfile_discard(&t);
         if (saved == ENOMEM) { /* memory, not the disk: the exit code says which */
             snprintf(err, errlen, "%s: out of memory while the summary was written", path);
             return SUMMARY_ERR_MEMORY;
         }
-        snprintf(err, errlen, "%s: cannot write: %s", path, strerror(saved ? saved : EIO));
+        snprintf(err, errlen, "%s%s: cannot write: %s", path, where, strerror(saved ? saved : EIO));
         return SUMMARY_ERR_IO;
     }
     if (tempfile_commit(&t, err, errlen) == 0) return SUMMARY_OK;

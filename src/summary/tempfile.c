@@ -281,14 +281,32 @@ static int open_named(tempfile *t)
     return -1;
 }
 
-/* A file without a name for TEMPFILE_SCRATCH: O_TMPFILE in $TMPDIR or /tmp,
- * else a memory file. */
-static int open_scratch(void)
+/* The folder of scratch files: $TMPDIR, or /tmp. */
+static const char *scratch_dir(int *from_env)
 {
     const char *dir = getenv("TMPDIR");
-    int fd = open(dir && *dir ? dir : "/tmp", O_TMPFILE | O_RDWR | O_CLOEXEC, 0600);
+    *from_env = dir && *dir;
+    return *from_env ? dir : "/tmp";
+}
+
+/* A file without a name for TEMPFILE_SCRATCH: O_TMPFILE in $TMPDIR or /tmp,
+ * else a memory file (*in_memory set). */
+static int open_scratch(int *in_memory)
+{
+    int from_env;
+    int fd = open(scratch_dir(&from_env), O_TMPFILE | O_RDWR | O_CLOEXEC, 0600);
+    *in_memory = fd < 0;
     if (fd < 0) fd = memfd_create("sheaf-output", MFD_CLOEXEC);
     return fd;
+}
+
+void tempfile_where(const tempfile *t, char *buf, size_t len)
+{
+    int from_env;
+    const char *dir = scratch_dir(&from_env);
+    if (t->kind != TEMPFILE_SCRATCH) snprintf(buf, len, "%s", "");
+    else if (t->in_memory) snprintf(buf, len, " (its scratch copy in memory)");
+    else snprintf(buf, len, " (its scratch file in %s%s)", dir, from_env ? ", $TMPDIR" : "");
 }
 
 /* An output that is not a regular file (a pipe, a terminal, a device):
@@ -303,7 +321,7 @@ static int attach(tempfile *t, int fd, int flags, const char *name, char *err, s
     }
     t->kind = TEMPFILE_SCRATCH;
     t->target_fd = fd;
-    t->fd = open_scratch();
+    t->fd = open_scratch(&t->in_memory);
     if (t->fd < 0) {
         int saved = errno;
         close(fd);

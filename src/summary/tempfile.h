@@ -73,6 +73,7 @@ typedef struct {
     char *tmp_path;     /* TEMPFILE_NAMED: the temporary name; else NULL */
     int target_fd;      /* TEMPFILE_SCRATCH: the target, open for writing; else -1 */
     int slot;           /* the signal-cleanup slot of tmp_path, or -1 */
+    int in_memory;      /* TEMPFILE_SCRATCH: a memory file, not one in $TMPDIR */
 } tempfile;
 
 /* Prepares the output for `path` (see above).  Returns 0 with t filled, or
@@ -119,6 +120,12 @@ void tempfile_discard(tempfile *t);
  * /proc/self/fd/N, /proc/PID/fd/N, or a chain of links to one of them), or
  * -1.  tempfile_open writes such a path through the descriptor. */
 int tempfile_descriptor(const char *path);
+
+/* For an error met while writing t: where the bytes were going when they
+ * were not going to the target itself (a scratch file in $TMPDIR or /tmp,
+ * or memory, for TEMPFILE_SCRATCH), as " (its scratch file in /tmp)", to
+ * follow the target's name in the message; "" otherwise. */
+void tempfile_where(const tempfile *t, char *buf, size_t len);
 
 /* path with its symbolic links followed to the name they lead to (a new
  * string; the name need not exist), or NULL with errno set. */

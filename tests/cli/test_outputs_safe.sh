@@ -429,4 +429,19 @@ EOF
 else
     skip stdout.closed_pipe "/usr/bin/python3 not found"
 fi
+# A summary for a pipe or a device is written to a scratch file in $TMPDIR
+# first; when that file could not grow, the message named standard output
+# (or /dev/null), which had room (outputs audit of 2026-12-05).  A file-size
+# limit stands in for a full $TMPDIR (SIGXFSZ ignored: the write fails).
+mkdir -p "$T/scratch"
+for dest in stdout null; do
+    for cmd in scan merge; do
+        if [ "$cmd" = scan ]; then set -- scan -q "$T/big.csv"; else set -- merge "$T/in/big.sheaf"; fi
+        if [ "$dest" = stdout ]; then out=-; name="standard output"; else out=/dev/null; name=/dev/null; fi
+        (trap '' XFSZ; ulimit -f 1; TMPDIR="$T/scratch" "$SHEAF" "$@" -o "$out" 2>"$T/err" | cat >"$T/piped"; exit "${PIPESTATUS[0]}")
+        RC=$?
+        check "scratch_full.$cmd.$dest.names_the_scratch_folder" "exit $RC: $(err_text)" \
+            holds '[ "$RC" = 1 ] && [ "$(wc -l <"$T/err")" = 1 ] && grep -qF "$name (its scratch file in $T/scratch, \$TMPDIR): cannot write: File too large" "$T/err" && [ ! -s "$T/piped" ] && [ -z "$(ls -A "$T/scratch")" ]'
+    done
+done
 exit 0

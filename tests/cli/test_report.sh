@@ -242,6 +242,22 @@ mkdir -p "$T/same"
 run "$SHEAF" page "$T/long.sheaf" -o "$T/same/heatmap.svg" --write-svg "$T/same"
 check page_audit.page_as_a_chart_refused "exit $RC: $(err_text)" \
     holds '[ "$RC" = 2 ] && grep -q "the page and a chart would be the same file" "$T/err" && [ ! -e "$T/same/heatmap.svg" ]'
+# a chart that is a symbolic link to the page (made or yet to be made) was
+# written through the link, then the page renamed over it: exit 0, the
+# chart lost (outputs audit of 2026-12-05);
+for made in yes no; do
+    rm -rf "$T/linked" && mkdir -p "$T/linked/ch"
+    [ "$made" = yes ] && echo old >"$T/linked/p.html"
+    ln -s ../p.html "$T/linked/ch/heatmap.svg"
+    run "$SHEAF" page "$T/long.sheaf" -o "$T/linked/p.html" --write-svg "$T/linked/ch"
+    check "page_audit.chart_linked_to_page_refused_$made" "exit $RC: $(err_text)" \
+        holds '[ "$RC" = 2 ] && grep -q "the page and a chart would be the same file" "$T/err" && { [ "$made" = no ] && [ ! -e "$T/linked/p.html" ] || [ "$(cat "$T/linked/p.html")" = old ]; }'
+done
+# a chart folder that is a link to nothing was called "not a folder";
+ln -s "$T/made-later" "$T/dangling-ch"
+run "$SHEAF" page "$T/long.sheaf" -o "$T/dangling.html" --write-svg "$T/dangling-ch"
+check page_audit.dangling_chart_folder_says_so "exit $RC: $(err_text)" \
+    holds '[ "$RC" = 1 ] && grep -q "dangling-ch: a symbolic link to a missing folder" "$T/err" && [ ! -e "$T/dangling.html" ] && [ ! -e "$T/made-later" ]'
 # and the missing spellings were cut at 512 bytes (19 of 31 listed).
 "$SHEAF" scan -q "$T/one.csv" -o "$T/miss.sheaf" --target t \
     --missing "$("$PY" -c 'print("a" + "\u00e9" * 20 + "," + ",".join("missing-spelling-%02d" % i for i in range(30)), end="")')"
