@@ -99,6 +99,14 @@ crafted class_numeric_flag numcls "TRGT.class[1].numeric=0"
 crafted class_no_rows cls "TRGT.class[1].rows=0"
 crafted class_rows_vs_target cls "TRGT.class[1].rows=$(($(get cls 'TRGT.class[1].rows') + 1))"
 crafted class_dropped_while_kept cls "TRGT.classes_dropped=1"
+# A class flagged imprecise by a merge (the top bit of its count, 2^63):
+# read as its count with no mean and variance; never on an empty class.
+n1=$(get cls 'COLS[1].cls[1].n')
+crafted class_imprecise_empty cls "COLS[1].cls[1].n=$((1 << 63))"
+$CRAFT set "$T/cls.sheaf" "$T/flagged.sheaf" "COLS[1].cls[1].n=$(( (1 << 63) | n1 ))" 2>/dev/null
+run $SHEAF info --format json "$T/flagged.sheaf"
+check decode.class_imprecise_flag_read "exit $RC: $(err_text)" \
+    holds '[ "$RC" = 0 ] && $PY -c "import json,sys; k=json.load(open(sys.argv[1]))[\"columns\"][1][\"by_class\"][0]; sys.exit(not (k[\"imprecise\"] and k[\"n\"] == $n1 and k[\"mean\"] is None))" "$T/out"'
 crafted target_text_vs_column cls "TRGT.target_text=3"
 l1=$(get numcls 'TRGT.class[1].label.text') h1=$(get numcls 'TRGT.class[1].hash')
 l2=$(get numcls 'TRGT.class[2].label.len')
