@@ -110,6 +110,26 @@ static inline int number_integer_valued(double x)
     return (a >= 0x1p52) | ((a + 0x1p52) - 0x1p52 == a);
 }
 
+/* x with its sign bit flipped when `negative` (-x), by masks: a branch on the
+ * sign mispredicts one cell in two in a column of both signs (callgrind's
+ * branch simulation found a third of the scan's mispredictions in the
+ * parser's and number_deviation_exact's sign tests). */
+static inline double number_signed(double x, int negative)
+{
+    uint64_t bits;
+    __builtin_memcpy(&bits, &x, sizeof bits);
+    bits ^= (uint64_t)(negative != 0) << 63;
+    __builtin_memcpy(&x, &bits, sizeof bits);
+    return x;
+}
+
+/* (negative ? -m : m) as a signed integer, by masks (number_signed). */
+static inline int64_t number_signed_int(uint64_t m, int negative)
+{
+    uint64_t mask = (uint64_t)0 - (uint64_t)(negative != 0);
+    return (int64_t)((m ^ mask) - mask);
+}
+
 static inline void number_ref_set(number_ref *r, const number_decimal *d)
 {
     r->dec = *d;
@@ -138,7 +158,7 @@ static inline int number_deviation_exact(uint64_t m, int negative, int32_t e, in
                                          int64_t ref_m, uint64_t ref_mant, double scale,
                                          int divide, double *out)
 {
-    int64_t x = negative ? -(int64_t)m : (int64_t)m;
+    int64_t x = number_signed_int(m, negative);
     int32_t k = e - ref_exp;
     if (k == 0) {
         double d = (double)(x - ref_m);

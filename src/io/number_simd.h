@@ -17,7 +17,7 @@
 static inline void number_set_exact(number_decimal *out, double val, uint64_t m, int64_t e,
                                     int negative)
 {
-    out->value = negative ? -val : val;
+    out->value = number_signed(val, negative);
     out->mantissa = m;
     out->exp10 = (int32_t)e;
     out->negative = (uint8_t)negative;

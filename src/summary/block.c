@@ -526,7 +526,7 @@ static void keep_example(summary_column *c, const char *p, uint32_t len)
         dev[nnum] = dd;                                                                        \
         val[nnum] = d.value;                                                                   \
         if (decimals) {                                                                        \
-            num_mant[nnum] = d.negative ? -(int64_t)d.mantissa : (int64_t)d.mantissa;         \
+            num_mant[nnum] = number_signed_int(d.mantissa, d.negative);                     \
             num_exp[nnum] = d.exp10;                                                           \
         }                                                                                      \
         num_row[nnum] = cell_row[i];                                                           \
