@@ -470,9 +470,8 @@ SHEAF_API double sheaf_column_class_mean(const sheaf_summary *s, size_t col, siz
 SHEAF_API double sheaf_column_class_variance(const sheaf_summary *s, size_t col, size_t k);
 
 /* Pearson r of two numeric columns over the rows where both hold a number;
- * NaN with fewer than two such rows, a constant side, or a column outside
- * the co-moments (declared categorical).  The sample covariance over the
- * same rows, and how many rows that is. */
+ * NaN with fewer than two such rows, a constant side, or a column outside the
+ * co-moments (declared categorical); the sample covariance there; the rows. */
 SHEAF_API double sheaf_correlation(const sheaf_summary *s, size_t a, size_t b);
 SHEAF_API double sheaf_covariance(const sheaf_summary *s, size_t a, size_t b);
 SHEAF_API uint64_t sheaf_pair_count(const sheaf_summary *s, size_t a, size_t b);
@@ -494,11 +493,12 @@ SHEAF_API int sheaf_screen_task(const sheaf_screen *r);         /* SHEAF_TASK_*;
 SHEAF_API size_t sheaf_screen_row_count(const sheaf_screen *r);  /* rows */
 SHEAF_API size_t sheaf_screen_kept_count(const sheaf_screen *r); /* rows kept */
 /* Row i (0 <= i < sheaf_screen_row_count; out of range: (size_t)-1, NULL,
- * 0 or NaN): its summary column index and name; 1 when kept, 0 when dropped; its rank among the kept (1 = most
- * relevant, 0 when dropped); the test behind its q ("anova_f", "chi2",
- * "corr_f"; "" when untested) and that test's statistic; p and log10 p
- * (log10 p stays finite where p underflows to 0); the Benjamini-Hochberg q
- * and log10 q (NaN when untested); the reasons, "; "-separated. */
+ * 0 or NaN): its summary column index and name; 1 when kept, 0 when dropped;
+ * its rank among the kept (1 = most relevant, 0 when dropped); the test behind
+ * its q ("anova_f", "chi2" (also a numeric column's with imprecise class means),
+ * "corr_f"; "" when untested) and its statistic; p and log10 p (finite where p
+ * underflows to 0); Benjamini-Hochberg q and log10 q (NaN when untested); the
+ * reasons, "; "-separated. */
 SHEAF_API size_t sheaf_screen_column(const sheaf_screen *r, size_t i);
 SHEAF_API const char *sheaf_screen_name(const sheaf_screen *r, size_t i);
 SHEAF_API int sheaf_screen_kept(const sheaf_screen *r, size_t i);

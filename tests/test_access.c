@@ -284,8 +284,13 @@ Test(access_classes, class_table_and_per_class_moments_match_the_hand_worked_tab
     REL(b.m2, 32.0, 1e-15);
     cr_assert_eq(summary_class_moments(s, big, 0, &a), 0);
     cr_assert_eq(a.mean, 100000002.0);
-    /* less the column's mean, 100000004.4: by hand, 2 - 4.4 */
-    REL(a.frame_mean, -2.4, 1e-15);
+    /* The reference of the shift-free tests: the mean deviation of the
+     * class with the largest n / variance, a (2 / 2 against b's 3 / 16),
+     * 100000002 - 100000001 = 1; about it, a's mean is 0 and b's 6 - 2 = 4
+     * (by hand). */
+    cr_assert_eq(summary_class_reference(s, big), 1.0);
+    cr_assert_eq(summary_class_mean_about(s, big, 0, 1.0), 0.0);
+    cr_assert_eq(summary_class_mean_about(s, big, 1, 1.0), 4.0);
     REL(a.variance, 2.0, 1e-15);
     summary_free(s);
 }

@@ -115,19 +115,6 @@ static const screen_feature *row(const sheaf_screen *r, size_t i)
     return r && i < r->r->nfeatures ? &r->r->features[i] : NULL;
 }
 
-/* The test that decided the row's q, as `sheaf screen` names it
- * (src/cli/screen.c): the task and the column's kind choose it. */
-static const screen_test *primary(const sheaf_screen *r, const screen_feature *f,
-                                  const char **name)
-{
-    target_task task = r->r->task;
-    if (task == TASK_CLASSIFY && f->kind == KIND_NUMERIC) { *name = "anova_f"; return &f->anova_f; }
-    if (task == TASK_CLASSIFY) { *name = "chi2"; return &f->chi2; }
-    if (task == TASK_REGRESS && f->kind == KIND_NUMERIC) { *name = "corr_f"; return &f->corr_f; }
-    if (task == TASK_REGRESS) { *name = "anova_f"; return &f->anova_f; }
-    *name = "";
-    return NULL;
-}
 
 size_t sheaf_screen_column(const sheaf_screen *r, size_t i)
 {
@@ -157,7 +144,7 @@ const char *sheaf_screen_test(const sheaf_screen *r, size_t i)
     const screen_feature *f = row(r, i);
     if (!f) return NULL;
     const char *name;
-    const screen_test *t = primary(r, f, &name);
+    const screen_test *t = screen_primary(f, &name);
     return t && t->present ? name : "";
 }
 
@@ -166,7 +153,7 @@ double sheaf_screen_statistic(const sheaf_screen *r, size_t i)
     const screen_feature *f = row(r, i);
     if (!f) return NAN;
     const char *name;
-    const screen_test *t = primary(r, f, &name);
+    const screen_test *t = screen_primary(f, &name);
     return t && t->present ? t->stat : NAN;
 }
 

@@ -67,16 +67,6 @@ static void p_text(char *buf, size_t len, double log10_value, int digits)
     logp_format(buf, len, log10_value, digits);
 }
 
-/* The test that decided a feature's q (the primary one). */
-static const screen_test *primary(const screen_result *r, const screen_feature *f, const char **name)
-{
-    if (r->task == TASK_CLASSIFY && f->kind == KIND_NUMERIC) { *name = "anova_f"; return &f->anova_f; }
-    if (r->task == TASK_CLASSIFY) { *name = "chi2"; return &f->chi2; }
-    if (r->task == TASK_REGRESS && f->kind == KIND_NUMERIC) { *name = "corr_f"; return &f->corr_f; }
-    if (r->task == TASK_REGRESS) { *name = "anova_f"; return &f->anova_f; }
-    *name = "";
-    return NULL;
-}
 
 static const char *const RULES[] = {"", "cochran_1954", "level_sizes"};
 
@@ -223,7 +213,7 @@ static void print_csv(const summary *s, const screen_result *r)
         for (int b = 0; b < SCREEN_NFLAGS; b++)
             if (f->flags & (1u << b)) { printf("%s%s", first ? "" : ";", screen_flag_names[b]); first = 0; }
         const char *tn;
-        const screen_test *t = primary(r, f, &tn);
+        const screen_test *t = screen_primary(f, &tn);
         if (t && t->present) {
             char pb[40] = "", qb[40] = "", lp[40] = "", lq[40] = ""; /* empty when undefined */
             if (!isnan(t->log10_p)) {
@@ -302,7 +292,7 @@ static void print_text(FILE *out, const summary *s, const screen_result *r, cons
             table_cell(t, 2, f->kind == KIND_NUMERIC ? "numeric" : "categorical");
             table_cell(t, 3, f->keep ? (color ? "\033[32mkeep\033[0m" : "keep") : "drop");
             const char *tn;
-            const screen_test *pt = primary(r, f, &tn);
+            const screen_test *pt = screen_primary(f, &tn);
             if (pt && pt->present) {
                 char b[40];
                 table_cell(t, 4, tn);

@@ -95,8 +95,20 @@ static void set_test(screen_test *t, const stat_result *r)
 /* The p-value behind q: that of the primary test t, NaN without one. */
 static void set_primary(screen_feature *f, const screen_test *t)
 {
+    f->by = t == &f->anova_f ? SCREEN_BY_ANOVA_F : t == &f->corr_f ? SCREEN_BY_CORR_F
+                                                                   : SCREEN_BY_CHI2;
     f->p = t->present ? t->p : NAN;
     f->log10_p = t->present ? t->log10_p : NAN;
+}
+
+const screen_test *screen_primary(const screen_feature *f, const char **name)
+{
+    switch (f->by) {
+    case SCREEN_BY_ANOVA_F: *name = "anova_f"; return &f->anova_f;
+    case SCREEN_BY_CORR_F: *name = "corr_f"; return &f->corr_f;
+    case SCREEN_BY_CHI2: *name = "chi2"; return &f->chi2;
+    default: *name = ""; return NULL;
+    }
 }
 
 /* ---- flags ---------------------------------------------------------------- */
@@ -437,29 +449,36 @@ static int test_feature(const summary *s, size_t col, target_task task, const sc
     triples t = {0};
     int rc = 0;
     if (f->kind == KIND_NUMERIC) {
+        int imprecise = 0;
         if (task == TASK_CLASSIFY && summary_has_class_moments(s, col)) {
             size_t k = summary_class_count(s);
             level_moments *g = malloc((k ? k : 1) * sizeof *g);
             if (!g) return -1;
-            int imprecise = 0;
+            /* Class means less a reference near the classes the tests weigh
+             * most (summary_class_reference): the tests are shift-free, and
+             * the digits in which those classes differ are kept. */
+            const double ref = summary_class_reference(s, col);
             for (size_t i = 0; i < k; i++) {
-                /* Less the column's mean, a frame common to every class: the tests are shift-free, and the frame keeps the digits in which classes differ. */
                 summary_class_stats cs;
                 summary_class_moments(s, col, (uint32_t)i, &cs);
-                g[i] = (level_moments){i, (double)cs.n, cs.frame_mean, cs.m2};
+                g[i] = (level_moments){i, (double)cs.n,
+                                       summary_class_mean_about(s, col, (uint32_t)i, ref), cs.m2};
                 imprecise |= cs.imprecise;
             }
-            rc = groups_test(g, k, &f->anova_f);
+            /* A class whose figures are noise (summary_class_moments) makes
+             * both F tests noise: the binned values' chi-squared, made from
+             * the numbers themselves, decides instead. */
             double *n = malloc((k ? k : 1) * sizeof *n), *mean = malloc((k ? k : 1) * sizeof *mean),
                    *m2 = malloc((k ? k : 1) * sizeof *m2);
-            if (n && mean && m2) {
-                /* Welch's F weighs each class by its own variance: not
-                 * with a class whose figures a far frame took (ANOVA F,
-                 * relative to the column's spread, holds). */
-                for (size_t i = 0; i < k; i++) { n[i] = g[i].n; mean[i] = g[i].mean; m2[i] = g[i].m2; }
-                if (!imprecise && stat_welch(n, mean, m2, k, &r) == 0) set_test(&f->welch_f, &r);
-            } else {
+            if (!n || !mean || !m2) {
                 rc = -1;
+            } else if (!imprecise) {
+                rc = groups_test(g, k, &f->anova_f);
+                for (size_t i = 0; i < k; i++) { n[i] = g[i].n; mean[i] = g[i].mean; m2[i] = g[i].m2; }
+                if (stat_welch(n, mean, m2, k, &r) == 0) set_test(&f->welch_f, &r);
+            } else {
+                add_reason(f, "class means imprecise (see info): F tests left out, the binned "
+                              "values' chi-squared used");
             }
             free(n); free(mean); free(m2); free(g);
             set_primary(f, &f->anova_f);
@@ -477,6 +496,7 @@ static int test_feature(const summary *s, size_t col, target_task task, const sc
         }
         if (rc == 0)
             rc = pair_table(f, t.x, t.y, t.n, t.len, o->bins, task == TASK_CLASSIFY ? 0 : o->bins, 1);
+        if (imprecise) set_primary(f, &f->chi2);
         triples_free(&t);
         return rc;
     }

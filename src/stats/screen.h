@@ -84,11 +84,15 @@ typedef struct {
     size_t approximated_cells; /* cells of E[I] taken from the expansion, not summed */
 } screen_mi;
 
+/* The test behind a feature's q. */
+typedef enum { SCREEN_BY_NONE, SCREEN_BY_ANOVA_F, SCREEN_BY_CORR_F, SCREEN_BY_CHI2 } screen_by;
+
 typedef struct {
     size_t col;              /* summary column */
     column_kind kind;
     unsigned flags;
     screen_test anova_f, welch_f, corr_f, chi2;
+    screen_by by;            /* which of them q comes from (SCREEN_BY_NONE: untested) */
     screen_mi mi;
     validity_check chi2_check;  /* Cochran's rule on the chi-squared table (chi2 present) */
     validity_check anova_check; /* level sizes of the ANOVA across levels (regression, text) */
@@ -131,5 +135,9 @@ int screen_target_lookup(const summary *s, const char *name, double numeric_shar
 /* NULL on OOM, or when o->target_col is refused by screen_target_problem. */
 screen_result *screen_run(const summary *s, const screen_options *o);
 void screen_free(screen_result *r);
+
+/* The test behind f's q and its name ("anova_f", "corr_f", "chi2"), as
+ * screen's outputs name it; NULL and "" when f is untested. */
+const screen_test *screen_primary(const screen_feature *f, const char **name);
 
 #endif

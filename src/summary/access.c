@@ -2,6 +2,7 @@
  * reads a summary's fields; every call is a read. */
 #include "summary/access.h"
 #include "io/closest.h"
+#include "summary/column.h"
 
 #include <math.h>
 #include <stdlib.h>
@@ -320,31 +321,53 @@ int summary_class_moments(const summary *s, size_t col, uint32_t k, summary_clas
 {
     const summary_column *c = column(s, col);
     memset(out, 0, sizeof *out);
-    out->mean = out->variance = out->frame_mean = NAN;
+    out->mean = out->variance = NAN;
     if (!c->cls) return -1;
     const class_moments *cm = &c->cls[k];
     const number_decimal *ref = c->mom.has_ref ? &c->mom.ref : NULL;
     out->n = cm->n;
     out->m2 = cm->m2;
-    if (cm->n) {
-        /* (sum - n M) / n with n M an exact two-double product: the class
-         * mean less the column's mean of deviations M, to about 2^-53 of
-         * itself however close the classes lie. */
-        double n = (double)cm->n, M = c->mom.mean, p = n * M, pe = fma(n, M, -p);
-        out->frame_mean = ((cm->sum - p) + (cm->sum_low - pe)) / n;
-        out->mean = (ref ? ref->value : 0) + class_moments_mean(cm);
-    }
+    if (cm->n) out->mean = (ref ? ref->value : 0) + class_moments_mean(cm);
     out->variance = cm->n > 1 ? cm->m2 / (double)(cm->n - 1) : NAN;
     /* The rounding of the class's numbers in the column's frame must stay
      * below 2^-20 of the class's scale, or its figures are noise (a first
      * row of 8e15 before values in [1, 2]: a class mean of 1 for 1.487); a
      * merge flags a class whose numbers came from a summary of another
      * frame where they were rounded so (column_merge). */
-    if (cm->imprecise || class_moments_lost(cm, ref ? ref->value : 0, class_moments_loss(cm))) {
+    if (column_class_lost(c, cm, class_moments_loss(cm))) {
         out->imprecise = 1;
         out->mean = out->variance = NAN;
     }
     return 0;
+}
+
+double summary_class_reference(const summary *s, size_t col)
+{
+    const summary_column *c = column(s, col);
+    if (!c->cls) return NAN;
+    const class_moments *best = NULL;
+    double best_w = -1;
+    uint64_t best_n = 0;
+    for (uint32_t k = 0; k < s->nclasses; k++) {
+        const class_moments *cm = &c->cls[k];
+        if (!cm->n) continue;
+        double w = cm->n > 1 && cm->m2 > 0 ? (double)cm->n * (double)(cm->n - 1) / cm->m2 : -1;
+        if (w > best_w || (best_w < 0 && w < 0 && cm->n > best_n)) {
+            best = cm;
+            best_w = w;
+            best_n = cm->n;
+        }
+    }
+    return best ? class_moments_mean(best) : NAN;
+}
+
+double summary_class_mean_about(const summary *s, size_t col, uint32_t k, double ref)
+{
+    const summary_column *c = column(s, col);
+    if (!c->cls || !c->cls[k].n) return NAN;
+    const class_moments *cm = &c->cls[k];
+    double n = (double)cm->n, p = n * ref, pe = fma(n, ref, -p);
+    return ((cm->sum - p) + (cm->sum_low - pe)) / n;
 }
 
 /* ---- pairs of numeric columns --------------------------------------------- */

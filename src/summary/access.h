@@ -155,15 +155,10 @@ typedef struct {
     uint64_t n;        /* rows of the class with a number in the column */
     double mean;       /* their mean in the column's units; NaN when n = 0 */
     double variance;   /* sample variance (n - 1); NaN when n < 2 */
-    double frame_mean; /* the mean less a reference common to every class of the column
-                          (the column's mean): what shift-free tests use, to about 2^-53
-                          of itself, so the digits in which classes differ are kept;
-                          NaN when n = 0 */
     double m2;         /* sum of squared deviations from the mean */
-    int imprecise;     /* 1 when the class's numbers lie so far from the column's frame (its
-                          first number) that the rounding of their deviations exceeds 2^-20
-                          of the class's own spread or mean: mean and variance are then NaN
-                          (frame_mean and m2, which the column-level tests use, stay) */
+    int imprecise;     /* 1 when the class's figures cannot be trusted (column_class_lost:
+                          numbers rounded far from the first number of the scan that read
+                          them, here or in a merged summary): mean and variance are NaN */
 } summary_class_stats;
 
 /* 1 when the column has per-class moments (kept for every column while the
@@ -172,6 +167,17 @@ int summary_has_class_moments(const summary *s, size_t col);
 /* Per-class moments of column col in class k into *out; 0, or -1 (and *out
  * zero with NaN means) when the column has none. */
 int summary_class_moments(const summary *s, size_t col, uint32_t k, summary_class_stats *out);
+/* A reference near the classes that shift-free tests weigh most: the mean
+ * deviation (from the column's frame) of the class with the largest n /
+ * variance, or of the largest class when none varies; NaN without classes
+ * or numbers.  Not the column's mean, which one far number in any row moves
+ * away from every class (merge audit of 2026-12-05). */
+double summary_class_reference(const summary *s, size_t col);
+/* The mean of class k less `ref` (in the column's deviations), formed from
+ * the class's two-double sum with n ref an exact two-double product, so
+ * that it holds about 53 bits of itself however close the classes lie;
+ * NaN when the class has no number. */
+double summary_class_mean_about(const summary *s, size_t col, uint32_t k, double ref);
 
 /* ---- pairs of numeric columns --------------------------------------------- */
 

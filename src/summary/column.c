@@ -626,6 +626,25 @@ static void two_sum_into(double *s, double *low, double x)
     *s = t;
 }
 
+int column_class_lost(const summary_column *c, const class_moments *m, double loss)
+{
+    if (!m->n) return 0;
+    if (m->imprecise) return 1;
+    const double ref = c->mom.has_ref ? c->mom.ref.value : 0;
+    if (class_moments_lost(m, ref, loss)) return 1;
+    const double mean = ref + class_moments_mean(m), lo = c->mom.min, hi = c->mom.max;
+    const double var = m->n > 1 ? m->m2 / (double)(m->n - 1) : 0;
+    /* The mean is ref + its deviation, each within 2^-52 of the larger
+     * magnitude: that much slack, and more. */
+    const double slack = 0x1p-40 * fmax(fabs(lo), fabs(hi));
+    if (isfinite(mean) && isfinite(lo) && isfinite(hi) && (mean < lo - slack || mean > hi + slack))
+        return 1;
+    if (!isfinite(var) && isfinite(hi - lo)) return 1;
+    /* Deviations that all rounded to minus the frame read as zeros: a class
+     * of zeros only if the column held that many. */
+    return mean == 0 && var == 0 && loss > 0 && c->zeros < m->n;
+}
+
 /* Combines two class moments; shift = from's frame minus into's, and
  * into_ref the value of into's frame.  The sums add as two-double sums,
  * from's shifted by n_b shift (an exact product by fma); M2 by the pairwise
@@ -633,11 +652,14 @@ static void two_sum_into(double *s, double *low, double x)
  * from's own frame is gone from the merged sums, where a read would judge
  * them by into's frame (summary_class_moments): when it is too much for
  * the merged class, the class is flagged imprecise, and stays so. */
-static void class_merge(class_moments *a, const class_moments *b, double shift, double into_ref)
+static void class_merge(class_moments *a, const class_moments *b, double shift, double into_ref,
+                        const summary_column *from)
 {
     if (b->n == 0) return;
     const double b_loss = shift != 0 ? class_moments_loss(b) : 0;
-    const int flagged = a->imprecise | b->imprecise;
+    /* from's own reading of the class, when it comes from another frame */
+    const int flagged = a->imprecise | b->imprecise ||
+                        (shift != 0 && column_class_lost(from, b, class_moments_loss(b)));
     double nb = (double)b->n, p = nb * shift, pe = fma(nb, shift, -p);
     double mb = class_moments_mean(b) + shift;
     double sum = a->n ? a->sum : 0, low = a->n ? a->sum_low : 0;
@@ -667,7 +689,7 @@ int column_merge(summary_column *a, const summary_column *b, const column_merge_
         uint32_t k = m->same_classes ? m->max_classes : m->from_classes;
         for (uint32_t c = 0; c < k; c++)
             class_merge(&a->cls[m->same_classes ? c : m->map[c + 1] - 1], &b->cls[c], shift,
-                        into_ref);
+                        into_ref, b);
     }
     a->missing += b->missing;
     a->copy_print += b->copy_print; /* mod 2^64, in any order */

@@ -66,6 +66,14 @@ typedef struct {
  * (a is then partly merged: the caller discards it). */
 int column_merge(summary_column *a, const summary_column *b, const column_merge_map *m);
 
+/* 1 when class moments m of column c cannot be trusted (summary_class_moments
+ * shows no mean or variance): flagged by a merge, their rounding `loss`
+ * past 2^-20 of their scale (class_moments_lost), or a reading that the
+ * column's own numbers rule out, which rounding to the frame leaves (a
+ * mean outside the column's [min, max]; a spread past the double range in
+ * a column whose range is not; all zeros in a column of fewer zeros). */
+int column_class_lost(const summary_column *c, const class_moments *m, double loss);
+
 /* Builds the sort index of each accumulator (see "Sealing" in summary.h).
  * 0, or -1 when out of memory. */
 /* Converts c's class accumulators to target cells (a numeric target passing
