@@ -469,9 +469,9 @@ SHEAF_API uint64_t sheaf_column_class_numbers(const sheaf_summary *s, size_t col
 SHEAF_API double sheaf_column_class_mean(const sheaf_summary *s, size_t col, size_t k);
 SHEAF_API double sheaf_column_class_variance(const sheaf_summary *s, size_t col, size_t k);
 
-/* Pearson r of two numeric columns over the rows where both hold a number;
- * NaN with fewer than two such rows, a constant side, or a column outside the
- * co-moments (declared categorical); the sample covariance there; the rows. */
+/* Pearson r of two numeric columns over the rows where both hold a number (NaN
+ * with fewer than two, a constant side, a declared-categorical column, or numbers
+ * rounded far from the first number of their scan); the sample covariance; the rows. */
 SHEAF_API double sheaf_correlation(const sheaf_summary *s, size_t a, size_t b);
 SHEAF_API double sheaf_covariance(const sheaf_summary *s, size_t a, size_t b);
 SHEAF_API uint64_t sheaf_pair_count(const sheaf_summary *s, size_t a, size_t b);
@@ -625,8 +625,8 @@ SHEAF_API const char *sheaf_pca_left_out_name(const sheaf_pca *f, size_t i);
 SHEAF_API const char *sheaf_pca_left_out_reason(const sheaf_pca *f, size_t i);
 /* A pairwise-complete matrix need not be positive semi-definite: the
  * eigenvalues that were below zero before they were set to 0, and the most
- * negative of them (NaN when none); the pairs of basis columns with too few
- * common rows for an estimate (set to 0 in the matrix). */
+ * negative of them (NaN when none); the pairs of basis columns with no
+ * estimate (too few common rows, or imprecise: set to 0 in the matrix). */
 SHEAF_API size_t sheaf_pca_clamped_negative(const sheaf_pca *f);
 SHEAF_API double sheaf_pca_most_negative_eigenvalue(const sheaf_pca *f);
 SHEAF_API size_t sheaf_pca_undefined_pairs(const sheaf_pca *f);

@@ -45,7 +45,7 @@
  * two-pass computation.
  */
 #include "io/clones.h"
-#include "acc/comoment.h"
+#include "acc/comoment_state.h"
 
 #include "acc/blas.h"
 #include "acc/four.h"
@@ -58,10 +58,6 @@
 #include <stdlib.h>
 #include <string.h>
 
-/* Largest p a serialized state may declare. */
-#define COMOMENT_MAX_COLUMNS 100000u
-/* Counts are doubles; above 2^53 they would no longer be exact. */
-#define COMOMENT_MAX_COUNT 9007199254740992.0
 /* An incomplete column with at most rows / COMOMENT_SPARSE_SHARE missing
  * cells in a block has its pair sums taken as the column totals minus the
  * missing rows (about 4 p k operations for k missing rows) instead of by
@@ -71,40 +67,6 @@
  * loops rather than BLAS calls (measured: about 30,000 instructions of
  * setup per call at 22 columns and 256 rows, against 9 per product term). */
 #define COMOMENT_DIRECT_WORK 16384
-
-struct comoment {
-    size_t p;          /* columns */
-    size_t max_rows;   /* largest block accepted (0: merge/read only) */
-    size_t pairs;      /* p (p + 1) / 2 */
-    /* State, packed upper triangles indexed by pair_index(lo, hi). */
-    double *n;         /* rows where both lo and hi are present */
-    double *mean_lo;   /* mean of column lo over those rows, in the frame */
-    double *mean_hi;   /* mean of column hi over those rows */
-    double *m2_lo;     /* sum of squared deviations of lo from mean_lo */
-    double *m2_hi;     /* same for hi */
-    double *co;        /* co-moment sum (x_lo - mean_lo)(x_hi - mean_hi) */
-    /* Scratch for one block (NULL when max_rows == 0). */
-    double *cross;     /* p x p column-major, upper part: X^T X */
-    double *sums;      /* p x p column-major: s[i][j], columns j incomplete */
-    double *squares;   /* p x p column-major: q[i][j] */
-    double *counts;    /* p x p column-major, upper part: nb[i][j] */
-    double *x2;        /* max_rows x p: squared values */
-    double *mask_g;    /* max_rows x p: gathered masks of the dense columns */
-    double *col_count; /* p: present cells per column in the block */
-    double *col_sum;   /* p: column sums of x */
-    double *col_sq;    /* p: column sums of x^2 */
-    size_t *dense;     /* p: incomplete columns done by dgemm, ascending */
-    size_t *sparse;    /* p: incomplete columns done by their missing rows */
-    size_t *miss_start;/* p + 1: sparse column k's rows at miss_rows[start[k]..start[k+1]) */
-    size_t *empty;     /* p: columns with no value in the block */
-    uint32_t *miss_rows; /* (max_rows / COMOMENT_SPARSE_SHARE) p: missing row numbers */
-};
-
-static size_t pair_index(size_t i, size_t j)
-{
-    size_t lo = i < j ? i : j, hi = i < j ? j : i;
-    return hi * (hi + 1) / 2 + lo;
-}
 
 /* Sizes; the caller has checked p and max_rows against overflow. */
 static uint64_t state_doubles(uint64_t p)
@@ -147,7 +109,13 @@ comoment *comoment_create(size_t p, size_t max_rows)
     c->pairs = p * (p + 1) / 2;
     size_t t = c->pairs ? c->pairs : 1;
     double *s = zeroed(6 * t, sizeof(double));
-    if (!s) { free(c); return NULL; }
+    c->lost = calloc(t, 1);
+    if (!s || !c->lost) {
+        free(s);
+        free(c->lost);
+        free(c);
+        return NULL;
+    }
     c->n = s;
     c->mean_lo = s + t;
     c->mean_hi = s + 2 * t;
@@ -184,6 +152,7 @@ void comoment_free(comoment *c)
 {
     if (!c) return;
     free(c->n);
+    free(c->lost);
     free(c->cross);
     free(c->dense);
     free(c->miss_rows);
@@ -194,6 +163,7 @@ void comoment_reset(comoment *c)
 {
     size_t t = c->pairs ? c->pairs : 1;
     memset(c->n, 0, 6 * t * sizeof(double));
+    memset(c->lost, 0, t);
 }
 
 size_t comoment_columns(const comoment *c) { return c->p; }
@@ -552,6 +522,22 @@ SHEAF_HOT int comoment_add_block(comoment *c, const double *x, const double *mas
     return 0;
 }
 
+/* The rounding of one side's numbers as they entered: each was its
+ * deviation from the column's frame rounded to a double, off by up to 2^-53
+ * of itself, so about 2^-53 (|mean deviation| + sd) over the pair's rows. */
+static double side_loss(double n, double mean, double m2)
+{
+    return 0x1p-53 * (fabs(mean) + (n > 1 && m2 > 0 ? sqrt(m2 / (n - 1)) : 0));
+}
+
+/* 1 when a loss makes one side's figures over the pair's rows noise: it
+ * passes 2^-20 of that side's sd there (a constant side has no r anyway). */
+static int side_lost(double n, double m2, double loss)
+{
+    double sd = n > 1 && m2 > 0 ? sqrt(m2 / (n - 1)) : 0;
+    return sd > 0 && isfinite(loss) && loss > 0x1p-20 * sd;
+}
+
 int comoment_merge(comoment *into, const comoment *from, const double *shift)
 {
     if (into->p != from->p) return -1;
@@ -567,11 +553,27 @@ int comoment_merge(comoment *into, const comoment *from, const double *shift)
             const double sh_i = shift ? shift[i] : 0.0;
             /* Empty pairs of `from` hold zeros, not means: leave them out. */
             if (fn[k] == 0) continue;
+            /* from's rounding in its own frame, which the shifted sums no
+             * longer show (a read judges them in into's frame) */
+            const double loss_lo = sh_i != 0 ? side_loss(fn[k], fmean_lo[k], fm2_lo[k]) : 0;
+            const double loss_hi = sh_j != 0 ? side_loss(fn[k], fmean_hi[k], fm2_hi[k]) : 0;
             pair_update(a, k, fn[k], fmean_lo[k] + sh_i, fmean_hi[k] + sh_j, fm2_lo[k], fm2_hi[k],
                         fco[k]);
+            if (i != j)
+                into->lost[k] |= from->lost[k] || side_lost(into->n[k], into->m2_lo[k], loss_lo) ||
+                                 side_lost(into->n[k], into->m2_hi[k], loss_hi);
         }
     }
     return 0;
+}
+
+int comoment_pair_lost(const comoment *c, size_t i, size_t j)
+{
+    if (i == j) return 0;
+    const size_t k = pair_index(i, j);
+    const double n = c->n[k];
+    return c->lost[k] || side_lost(n, c->m2_lo[k], side_loss(n, c->mean_lo[k], c->m2_lo[k])) ||
+           side_lost(n, c->m2_hi[k], side_loss(n, c->mean_hi[k], c->m2_hi[k]));
 }
 
 double comoment_n(const comoment *c, size_t i, size_t j) { return c->n[pair_index(i, j)]; }
@@ -630,129 +632,4 @@ void comoment_correlation_matrix(const comoment *c, double *out)
 {
     for (size_t i = 0; i < c->p; i++)
         for (size_t j = 0; j < c->p; j++) out[i * c->p + j] = comoment_correlation(c, i, j);
-}
-
-enum { ROW_BLOCK = 8 }; /* rows built at once: a cache line of each packed column */
-
-/* Rows [i0, i1) of a p x p matrix held as packed triangles (entry (i, j) is
- * lo[pair_index(i, j)] when i <= j, else hi[pair_index(i, j)]; hi == lo for
- * a symmetric matrix) into rows[(i - i0) * p + j].  A row's entries j < i
- * lie together from pair_index(0, i); the entries (i0..i1-1, j) of a column
- * j >= i1 lie together from pair_index(i0, j), so a block of rows reads each
- * packed column once, where row by row every entry above the diagonal is a
- * cache line of its own. */
-static void fill_rows(double *rows, const double *lo, const double *hi, size_t i0, size_t i1,
-                      size_t p)
-{
-    for (size_t i = i0; i < i1; i++) {
-        double *r = rows + (i - i0) * p;
-        size_t base = i * (i + 1) / 2;
-        memcpy(r, hi + base, i * sizeof *r);
-        r[i] = lo[base + i];
-        for (size_t j = i + 1; j < i1; j++) r[j] = lo[j * (j + 1) / 2 + i];
-    }
-    for (size_t j = i1; j < p; j++) {
-        const double *col = lo + j * (j + 1) / 2;
-        for (size_t i = i0; i < i1; i++) rows[(i - i0) * p + j] = col[i];
-    }
-}
-
-/* One p x p matrix of fill_rows, row-major: f64, or the counts as u64. */
-static void put_matrix(wire_writer *w, const double *lo, const double *hi, size_t p, int counts,
-                       double *rows)
-{
-    if (!rows) { /* no room for a block: entry by entry */
-        for (size_t i = 0; i < p; i++)
-            for (size_t j = 0; j < p; j++) {
-                double v = (i <= j ? lo : hi)[pair_index(i, j)];
-                if (counts) wire_put_u64(w, (uint64_t)v);
-                else wire_put_f64(w, v);
-            }
-        return;
-    }
-    for (size_t i0 = 0; i0 < p; i0 += ROW_BLOCK) {
-        size_t i1 = i0 + ROW_BLOCK < p ? i0 + ROW_BLOCK : p, n = (i1 - i0) * p;
-        fill_rows(rows, lo, hi, i0, i1, p);
-        if (!counts) wire_put_f64s(w, rows, n);
-        else
-            for (size_t k = 0; k < n; k++) wire_put_u64(w, (uint64_t)rows[k]);
-    }
-}
-
-/* Layout: u64 p; then p x p row-major matrices N (u64), MEAN, M2, C (f64),
- * where MEAN[i][j] and M2[i][j] are of column i over rows where j is present. */
-void comoment_write(const comoment *c, wire_writer *w)
-{
-    const size_t p = c->p;
-    wire_put_u64(w, p);
-    /* The four matrices in full, p x p each (readers check their symmetry),
-     * built ROW_BLOCK rows at a time. */
-    double *rows = p ? malloc(ROW_BLOCK * p * sizeof *rows) : NULL;
-    put_matrix(w, c->n, c->n, p, 1, rows);
-    put_matrix(w, c->mean_lo, c->mean_hi, p, 0, rows);
-    put_matrix(w, c->m2_lo, c->m2_hi, p, 0, rows);
-    put_matrix(w, c->co, c->co, p, 0, rows);
-    free(rows);
-}
-
-/* Reads a p x p f64 matrix whose (i, j) entry goes to lo[k] when i <= j and
- * to hi[k] otherwise (hi == lo: the matrix must be symmetric).  Diagonal
- * entries go to both. */
-static int read_pair_matrix(wire_reader *r, size_t p, double *lo, double *hi)
-{
-    for (size_t i = 0; i < p; i++)
-        for (size_t j = 0; j < p; j++) {
-            /* Values may be infinite or NaN (overflow on extreme data);
-             * symmetry is checked on the bits. */
-            double v = wire_get_f64(r);
-            size_t k = pair_index(i, j);
-            if (i < j) lo[k] = v;
-            else if (i == j) lo[k] = hi[k] = v;
-            else if (hi == lo) { if (memcmp(&lo[k], &v, sizeof v) != 0) return 0; }
-            else hi[k] = v;
-        }
-    return !r->failed;
-}
-
-static int state_valid(const comoment *c)
-{
-    for (size_t j = 0; j < c->p; j++)
-        for (size_t i = 0; i <= j; i++) {
-            size_t k = pair_index(i, j);
-            double n = c->n[k];
-            /* Counts only: moments may round slightly below zero or overflow
-             * to infinity on extreme data, and the file checksums already
-             * guard the bytes. */
-            if (n > c->n[pair_index(i, i)] || n > c->n[pair_index(j, j)]) return 0;
-        }
-    return 1;
-}
-
-comoment *comoment_read(wire_reader *r, size_t max_rows)
-{
-    uint64_t p64 = wire_get_u64(r);
-    if (r->failed || p64 > COMOMENT_MAX_COLUMNS) { r->failed = 1; return NULL; }
-    size_t p = (size_t)p64;
-    if (!wire_need(r, p * p * 32)) return NULL;
-    comoment *c = comoment_create(p, max_rows);
-    if (!c) return NULL; /* out of memory (or max_rows too large); r not failed */
-    int ok = 1;
-    for (size_t i = 0; i < p && ok; i++)
-        for (size_t j = 0; j < p; j++) {
-            uint64_t v = wire_get_u64(r);
-            if ((double)v > COMOMENT_MAX_COUNT) { ok = 0; break; }
-            size_t k = pair_index(i, j);
-            if (i <= j) c->n[k] = (double)v;
-            else if (c->n[k] != (double)v) { ok = 0; break; }
-        }
-    ok = ok && read_pair_matrix(r, p, c->mean_lo, c->mean_hi);
-    ok = ok && read_pair_matrix(r, p, c->m2_lo, c->m2_hi);
-    ok = ok && read_pair_matrix(r, p, c->co, c->co);
-    ok = ok && !r->failed && state_valid(c);
-    if (!ok) {
-        r->failed = 1;
-        comoment_free(c);
-        return NULL;
-    }
-    return c;
 }

@@ -109,6 +109,12 @@ double comoment_covariance(const comoment *c, size_t i, size_t j); /* c / (n - 1
 /* c / sqrt(m2[i][j] m2[j][i]); NaN if n < 2 or either m2 is 0.  Not clipped
  * to [-1, 1]: rounding can leave |r| a few ulps above 1. */
 double comoment_correlation(const comoment *c, size_t i, size_t j);
+/* 1 when the pair's figures over its rows cannot be trusted: a side's
+ * numbers, rounded as deviations from their column's frame, lost more than
+ * 2^-20 of that side's sd there, in this state or in one merged into it
+ * (a far first value in rows where the other column is missing).  0 on the
+ * diagonal: a column's own figures are relative to its own spread. */
+int comoment_pair_lost(const comoment *c, size_t i, size_t j);
 double comoment_variance(const comoment *c, size_t i, size_t j);  /* of i where j present: m2 / (n - 1); NaN if n < 2 */
 /* The stored state of pair (i, j) as written: n, mean and M2 of column i
  * over the rows where j is present, and the co-moment sum. */

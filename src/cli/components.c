@@ -54,12 +54,18 @@ int cli_fit_components(const char *cmd, const char *path, const cli_components *
         return ps == PCA_ERR_USAGE ? EXIT_USAGE : ps == PCA_ERR_MEMORY ? EXIT_RESOURCE : EXIT_FAILED;
     }
     const pca_result *f = *r;
-    if (f->undefined_pairs)
+    const size_t lacking = f->undefined_pairs - f->imprecise_pairs;
+    if (lacking)
         fprintf(stderr,
                 "sheaf %s: warning: %zu column pair%s never present together (or constant "
                 "where together): %s set to 0\n",
-                cmd, f->undefined_pairs, f->undefined_pairs == 1 ? " is" : "s are",
-                f->undefined_pairs == 1 ? "its entry" : "their entries");
+                cmd, lacking, lacking == 1 ? " is" : "s are", lacking == 1 ? "its entry" : "their entries");
+    if (f->imprecise_pairs)
+        fprintf(stderr,
+                "sheaf %s: warning: %zu column pair%s imprecise (numbers rounded far from the "
+                "first number of the scan that read them; see corr): %s set to 0\n",
+                cmd, f->imprecise_pairs, f->imprecise_pairs == 1 ? " is" : "s are",
+                f->imprecise_pairs == 1 ? "its entry" : "their entries");
     if (f->clamped_negative)
         fprintf(stderr,
                 "sheaf %s: warning: the pairwise-complete %s matrix is not positive "

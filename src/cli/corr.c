@@ -164,6 +164,14 @@ int cmd_corr(int argc, char **argv)
     if (!v) { cli_error("corr", "out of memory (the %ld x %ld matrix)", n, n); goto done; }
     corr_matrix(s, cols, r.n, covariance ? CORR_COVARIANCE : CORR_PEARSON, v);
     r.v = v;
+    size_t ia = 0, ib = 0, imprecise = corr_imprecise_pairs(s, cols, r.n, &ia, &ib);
+    if (imprecise)
+        fprintf(stderr,
+                "sheaf corr: warning: %zu pair%s no figure (first: %s and %s): numbers rounded "
+                "far from the first number of the scan that read them (docs/methods.md, "
+                "\"Pairwise-complete co-moments\")\n",
+                imprecise, imprecise == 1 ? " has" : "s have", summary_name(s, cols[ia]),
+                summary_name(s, cols[ib]));
     if (!strcmp(format, "csv")) print_csv(&r);
     else if (!strcmp(format, "text")) {
         cli_text out;

@@ -70,3 +70,16 @@ void corr_pair_counts(const summary *s, const size_t *cols, size_t n, uint64_t *
     for (size_t a = 0; a < n; a++)
         for (size_t b = 0; b < n; b++) out[a * n + b] = summary_pair_count(s, cols[a], cols[b]);
 }
+
+size_t corr_imprecise_pairs(const summary *s, const size_t *cols, size_t n, size_t *first_a,
+                            size_t *first_b)
+{
+    size_t count = 0;
+    for (size_t a = 0; a < n; a++)
+        for (size_t b = a + 1; b < n; b++) {
+            if (!summary_pair_imprecise(s, cols[a], cols[b])) continue;
+            if (!count) { *first_a = a; *first_b = b; }
+            count++;
+        }
+    return count;
+}

@@ -35,6 +35,13 @@ long corr_columns(const summary *s, double numeric_share, const char *names, siz
  * itself (1 up to rounding) or its variance. */
 void corr_matrix(const summary *s, const size_t *cols, size_t n, corr_statistic stat, double *out);
 
+/* Pairs a < b of cols whose entry is NaN for being imprecise
+ * (summary_pair_imprecise: numbers rounded far from the first number of
+ * the scan that read them), with the first such pair in *first_a,
+ * *first_b (indices into cols). */
+size_t corr_imprecise_pairs(const summary *s, const size_t *cols, size_t n, size_t *first_a,
+                            size_t *first_b);
+
 /* out[a * n + b] = rows where both cols[a] and cols[b] hold a number. */
 void corr_pair_counts(const summary *s, const size_t *cols, size_t n, uint64_t *out);
 

@@ -465,7 +465,11 @@ pca_status pca_fit(const summary *s, const pca_options *o, pca_result **out, cha
         for (size_t j = 0; j < i; j++) {
             size_t cj = r->cols[j];
             double v = corr ? summary_correlation(s, ci, cj) : summary_covariance(s, ci, cj);
-            if (!isfinite(v)) { v = 0; r->undefined_pairs++; }
+            if (!isfinite(v)) {
+                v = 0;
+                r->undefined_pairs++;
+                r->imprecise_pairs += (size_t)summary_pair_imprecise(s, ci, cj);
+            }
             a[i * p + j] = a[j * p + i] = v;
         }
     }

@@ -80,6 +80,7 @@ typedef struct {
     size_t clamped_negative;  /* eigenvalues below zero before clamping */
     double most_negative;  /* the smallest of them (0 when none) */
     size_t undefined_pairs;   /* pairs (i < j) with no estimate (too few common rows), set to 0 */
+    size_t imprecise_pairs;   /* of those, pairs whose r is noise (summary_pair_imprecise) */
     size_t kaiser_k;       /* leading eigenvalues above the mean eigenvalue */
     size_t broken_stick_k; /* leading components whose share beats the broken stick */
     size_t nleft;          /* columns left out, with reasons (automatic choice and exclude) */

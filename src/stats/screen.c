@@ -380,6 +380,9 @@ static __attribute__((noinline)) void correlation_test(const summary *s, size_t 
     if (isfinite(rr) && stat_correlation_f(rr, nn, &r) == 0) set_test(t, &r);
 }
 
+/* Why a numeric column has no F test of its r with the target. */
+#define IMPRECISE_R "r with the target imprecise (see corr): no F test of r"
+
 /* The level-size rule (validity.h) on the rows of each level. */
 static int level_check(const level_moments *g, size_t m, validity_check *out)
 {
@@ -439,6 +442,7 @@ static void test_from_comoments(const summary *s, size_t col, size_t y, screen_f
     double rr = summary_correlation(s, col, y);
     double nn = (double)summary_pair_count(s, col, y);
     if (isfinite(rr) && stat_correlation_f(rr, nn, &r) == 0) set_test(&f->corr_f, &r);
+    else if (summary_pair_imprecise(s, col, y)) add_reason(f, IMPRECISE_R);
     set_primary(f, &f->corr_f);
 }
 
@@ -484,6 +488,8 @@ static int test_feature(const summary *s, size_t col, target_task task, const sc
             set_primary(f, &f->anova_f);
         } else if (task == TASK_REGRESS) {
             correlation_test(s, col, &f->corr_f);
+            if (!f->corr_f.present && summary_pair_imprecise(s, col, (size_t)summary_target_column(s)))
+                add_reason(f, IMPRECISE_R);
             set_primary(f, &f->corr_f);
         }
         /* MI (and chi-squared) from the bucket store: feature buckets x target cells. */

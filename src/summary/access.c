@@ -394,16 +394,26 @@ uint64_t summary_pair_count(const summary *s, size_t a, size_t b)
     return pair(s, a, b, &i, &j) ? (uint64_t)comoment_n(s->como, i, j) : 0;
 }
 
+int summary_pair_imprecise(const summary *s, size_t a, size_t b)
+{
+    size_t i, j;
+    return pair(s, a, b, &i, &j) && comoment_pair_lost(s->como, i, j);
+}
+
 double summary_correlation(const summary *s, size_t a, size_t b)
 {
     size_t i, j;
-    return pair(s, a, b, &i, &j) ? comoment_correlation(s->como, i, j) : NAN;
+    return pair(s, a, b, &i, &j) && !comoment_pair_lost(s->como, i, j)
+               ? comoment_correlation(s->como, i, j)
+               : NAN;
 }
 
 double summary_covariance(const summary *s, size_t a, size_t b)
 {
     size_t i, j;
-    return pair(s, a, b, &i, &j) ? comoment_covariance(s->como, i, j) : NAN;
+    return pair(s, a, b, &i, &j) && !comoment_pair_lost(s->como, i, j)
+               ? comoment_covariance(s->como, i, j)
+               : NAN;
 }
 
 double summary_pair_variance(const summary *s, size_t a, size_t b)

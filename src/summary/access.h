@@ -187,9 +187,14 @@ int summary_has_pairs(const summary *s, size_t col); /* 1 when col is in the co-
  * the matrix); 0 when either is not in the matrix. */
 uint64_t summary_pair_count(const summary *s, size_t a, size_t b);
 /* Pearson r over the rows where both are present; NaN when fewer than two,
- * when either is constant there, or either is not in the matrix.  Not
- * clipped to [-1, 1]. */
+ * when either is constant there, either is not in the matrix, or the pair
+ * is imprecise (below).  Not clipped to [-1, 1]. */
 double summary_correlation(const summary *s, size_t a, size_t b);
+/* 1 when a pair's r and covariance are noise (comoment_pair_lost): a
+ * side's numbers lay so far from the first number of the scan that read
+ * them, here or in a merged summary, that their rounding passes 2^-20 of
+ * that side's spread over the pair's rows. */
+int summary_pair_imprecise(const summary *s, size_t a, size_t b);
 /* Sample covariance (n - 1) over the same rows; NaN when n < 2 or either is
  * not in the matrix. */
 double summary_covariance(const summary *s, size_t a, size_t b);

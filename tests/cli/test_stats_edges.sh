@@ -354,3 +354,52 @@ print("; ".join(bad))
 EOF2
 )
 check stats_edges.class_tests_about_the_classes "$why" [ -z "$why" ]
+
+# r over the rows where both columns hold a number carries each side's
+# rounding in its scan's frame: a shard whose first value is a far sentinel
+# (1e15) on a row where y is missing gave a merged r of 0.70574 for an exact
+# 0.70707 (fractions.Fraction), different in each merge order (merge audit
+# of 2026-12-05).  Such a pair now has no r in corr, pca warns and sets its
+# entry to 0, and the one scan keeps its exact r.
+"$PY" - "$T" <<'EOF2'
+import random, sys
+t = sys.argv[1]
+R = random.Random(11)
+rows = []
+for i in range(300):
+    x = round(R.gauss(5, 1), 3)
+    rows.append("%s,%s" % (x, round(x + R.gauss(0, 1), 3)))
+rows.insert(100, "1e15,")
+open(t + "/pr.csv", "w").write("x,y\n" + "\n".join(rows) + "\n")
+for k, part in enumerate((rows[:100], rows[100:200], rows[200:])):
+    open("%s/pr%d.csv" % (t, k + 1), "w").write("\n".join(["x,y"] + part) + "\n")
+EOF2
+for w in pr pr1 pr2 pr3; do "$SHEAF" scan -q "$T/$w.csv" -o "$T/$w.sheaf" 2>/dev/null; done
+"$SHEAF" merge "$T/pr1.sheaf" "$T/pr2.sheaf" "$T/pr3.sheaf" -o "$T/pr123.sheaf" 2>/dev/null
+"$SHEAF" merge "$T/pr3.sheaf" "$T/pr2.sheaf" "$T/pr1.sheaf" -o "$T/pr321.sheaf" 2>/dev/null
+for w in pr pr123 pr321; do
+    "$SHEAF" corr -f csv "$T/$w.sheaf" >"$T/$w.corr" 2>"$T/$w.corr.err"
+    "$SHEAF" pca -f json "$T/$w.sheaf" >/dev/null 2>"$T/$w.pca.err"
+done
+why=$("$PY" - "$T" 2>&1 <<'EOF2'
+import csv, math, sys
+from fractions import Fraction as F
+t = sys.argv[1]
+bad = []
+p = [(F(a), F(b)) for a, b in list(csv.reader(open(t + "/pr.csv")))[1:] if a and b]
+mx = sum(a for a, b in p) / len(p); my = sum(b for a, b in p) / len(p)
+sxy = sum((a - mx) * (b - my) for a, b in p)
+r = float(sxy) / math.sqrt(float(sum((a - mx) ** 2 for a, b in p)) * float(sum((b - my) ** 2 for a, b in p)))
+got = list(csv.reader(open(t + "/pr.corr")))[1][2]
+if abs(float(got) - r) > 1e-12 or open(t + "/pr.corr.err").read():
+    bad.append("one scan: %s against %r" % (got, r))
+for w in ("pr123", "pr321"):
+    got = list(csv.reader(open("%s/%s.corr" % (t, w))))[1][2]
+    if got != "" or "1 pair has no figure" not in open("%s/%s.corr.err" % (t, w)).read():
+        bad.append("%s: r %r" % (w, got))
+    if "1 column pair is imprecise" not in open("%s/%s.pca.err" % (t, w)).read():
+        bad.append("%s: pca %r" % (w, open("%s/%s.pca.err" % (t, w)).read()))
+print("; ".join(bad))
+EOF2
+)
+check stats_edges.far_shard_pair_no_r "$why" [ -z "$why" ]

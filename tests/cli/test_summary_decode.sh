@@ -99,6 +99,21 @@ crafted class_numeric_flag numcls "TRGT.class[1].numeric=0"
 crafted class_no_rows cls "TRGT.class[1].rows=0"
 crafted class_rows_vs_target cls "TRGT.class[1].rows=$(($(get cls 'TRGT.class[1].rows') + 1))"
 crafted class_dropped_while_kept cls "TRGT.classes_dropped=1"
+# A co-moment pair flagged imprecise by a merge (the top bit of N[i][j] and
+# N[j][i]): read with no r; refused on the diagonal, on one half only, or
+# with no rows.
+nij=$(get none 'COMO.N[1][2]')
+crafted pair_lost_diagonal none "COMO.N[0][0]=$(( (1 << 63) | $(get none 'COMO.N[0][0]') ))"
+crafted pair_lost_one_half none "COMO.N[1][2]=$(( (1 << 63) | nij ))"
+if [ "$nij" -gt 0 ]; then
+    $CRAFT set "$T/none.sheaf" "$T/pairlost.sheaf" "COMO.N[1][2]=$(( (1 << 63) | nij ))" \
+        "COMO.N[2][1]=$(( (1 << 63) | nij ))" 2>/dev/null
+    run $SHEAF corr "$T/pairlost.sheaf" -f csv
+    check decode.pair_lost_read "exit $RC: $(err_text)" \
+        holds '[ "$RC" = 0 ] && grep -q "1 pair has no figure" "$T/err" && [ "$(sed -n 2p "$T/out" | cut -d, -f3)" = "" ]'
+else
+    skip decode.pair_lost_read "size and weight share no row"
+fi
 # A class flagged imprecise by a merge (the top bit of its count, 2^63):
 # read as its count with no mean and variance; never on an empty class.
 n1=$(get cls 'COLS[1].cls[1].n')
