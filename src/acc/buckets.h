@@ -132,6 +132,10 @@ size_t buckets_entries(const buckets *b);
  * is out of range, or when the store is unsealed and its temporary index
  * cannot be allocated. */
 buckets_entry buckets_entry_at(const buckets *b, size_t i);
+/* The count of cell's numbers that are exactly zero (key 0 at every level);
+ * UINT64_MAX when a store with counts in its window cannot be settled for
+ * the read (out of memory). */
+uint64_t buckets_zeros(const buckets *b, uint32_t cell);
 /* The p-quantile (0 <= p <= 1) of the marginal over cells, by the inverted
  * empirical CDF (numpy method='inverted_cdf', Hyndman & Fan definition 1):
  * the value at 1-based rank r = max(1, ceil(p * total)), found by walking

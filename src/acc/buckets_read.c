@@ -35,6 +35,20 @@ double buckets_quantile_linear(const buckets *b, double p, double *rel_err)
     return settled_quantile(b, p, rel_err, quantile_linear);
 }
 
+uint64_t buckets_zeros(const buckets *b, uint32_t cell)
+{
+    buckets *tmp;
+    const buckets *r = buckets_readable(b, &tmp);
+    uint64_t n = UINT64_MAX;
+    if (r && !r->cap) n = 0;
+    else if (r) {
+        const slot *s = &r->slots[slot_find(r->slots, r->cap, r->shift, (uint64_t)cell << 32)];
+        n = s->count;
+    }
+    buckets_free(tmp);
+    return n;
+}
+
 void buckets_write(const buckets *b, wire_writer *w)
 {
     buckets *tmp;

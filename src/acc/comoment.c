@@ -540,6 +540,12 @@ static int side_lost(double n, double m2, double loss)
 
 int comoment_merge(comoment *into, const comoment *from, const double *shift)
 {
+    return comoment_merge_exact(into, from, shift, NULL);
+}
+
+int comoment_merge_exact(comoment *into, const comoment *from, const double *shift,
+                         const unsigned char *exact)
+{
     if (into->p != from->p) return -1;
     pair_arrays a = arrays_of(into);
     const double *restrict fn = from->n, *restrict fmean_lo = from->mean_lo;
@@ -555,8 +561,10 @@ int comoment_merge(comoment *into, const comoment *from, const double *shift)
             if (fn[k] == 0) continue;
             /* from's rounding in its own frame, which the shifted sums no
              * longer show (a read judges them in into's frame) */
-            const double loss_lo = sh_i != 0 ? side_loss(fn[k], fmean_lo[k], fm2_lo[k]) : 0;
-            const double loss_hi = sh_j != 0 ? side_loss(fn[k], fmean_hi[k], fm2_hi[k]) : 0;
+            const double loss_lo = sh_i != 0 && !(exact && exact[i])
+                                       ? side_loss(fn[k], fmean_lo[k], fm2_lo[k]) : 0;
+            const double loss_hi = sh_j != 0 && !(exact && exact[j])
+                                       ? side_loss(fn[k], fmean_hi[k], fm2_hi[k]) : 0;
             pair_update(a, k, fn[k], fmean_lo[k] + sh_i, fmean_hi[k] + sh_j, fm2_lo[k], fm2_hi[k],
                         fco[k]);
             if (i != j)
@@ -567,13 +575,16 @@ int comoment_merge(comoment *into, const comoment *from, const double *shift)
     return 0;
 }
 
-int comoment_pair_lost(const comoment *c, size_t i, size_t j)
+int comoment_pair_lost(const comoment *c, size_t i, size_t j, int exact_i, int exact_j)
 {
     if (i == j) return 0;
     const size_t k = pair_index(i, j);
     const double n = c->n[k];
-    return c->lost[k] || side_lost(n, c->m2_lo[k], side_loss(n, c->mean_lo[k], c->m2_lo[k])) ||
-           side_lost(n, c->m2_hi[k], side_loss(n, c->mean_hi[k], c->m2_hi[k]));
+    /* the state's lo side is the smaller index */
+    const int exact_lo = i < j ? exact_i : exact_j, exact_hi = i < j ? exact_j : exact_i;
+    return c->lost[k] ||
+           (!exact_lo && side_lost(n, c->m2_lo[k], side_loss(n, c->mean_lo[k], c->m2_lo[k]))) ||
+           (!exact_hi && side_lost(n, c->m2_hi[k], side_loss(n, c->mean_hi[k], c->m2_hi[k])));
 }
 
 double comoment_n(const comoment *c, size_t i, size_t j) { return c->n[pair_index(i, j)]; }
@@ -612,7 +623,11 @@ double comoment_covariance(const comoment *c, size_t i, size_t j)
 double comoment_correlation(const comoment *c, size_t i, size_t j)
 {
     size_t k = pair_index(i, j);
-    if (c->n[k] < 2 || !(c->m2_lo[k] > 0) || !(c->m2_hi[k] > 0)) return NAN;
+    /* A side's M2 or the co-moment past the double range (spreads of 1e154
+     * or more) leaves no r: dividing by an infinite root read as r = 0. */
+    if (c->n[k] < 2 || !(c->m2_lo[k] > 0) || !(c->m2_hi[k] > 0) || !isfinite(c->co[k]) ||
+        !isfinite(c->m2_lo[k]) || !isfinite(c->m2_hi[k]))
+        return NAN;
     /* One root of the product, correctly rounded, while the product is a
      * normal double; the roots one by one where it is not: it leaves the
      * double range (spread x sqrt(n) past about 1e77, or below 1e-77) long

@@ -99,6 +99,11 @@ int comoment_add_block(comoment *c, const double *x, const double *mask, const d
  * column j (add it to from's means); NULL = same frames.  into != from.
  * Returns 0, or -1 (into unchanged) when the column counts differ. */
 int comoment_merge(comoment *into, const comoment *from, const double *shift);
+/* comoment_merge, knowing which of from's columns held deviations that were
+ * exact (exact[j] nonzero: integers whose differences fit in 2^53), whose
+ * sides no merge judges rounded (exact may be NULL: none). */
+int comoment_merge_exact(comoment *into, const comoment *from, const double *shift,
+                         const unsigned char *exact);
 
 /* Accessors (pairwise complete).  comoment_n(c, i, i) is the count of column
  * i, comoment_mean(c, i, i) its mean (in the frame), comoment_variance(c, i, i)
@@ -113,8 +118,10 @@ double comoment_correlation(const comoment *c, size_t i, size_t j);
  * numbers, rounded as deviations from their column's frame, lost more than
  * 2^-20 of that side's sd there, in this state or in one merged into it
  * (a far first value in rows where the other column is missing).  0 on the
- * diagonal: a column's own figures are relative to its own spread. */
-int comoment_pair_lost(const comoment *c, size_t i, size_t j);
+ * diagonal: a column's own figures are relative to its own spread.  A side
+ * whose deviations were exact (exact_i, exact_j: integers whose differences
+ * fit in 2^53) lost nothing. */
+int comoment_pair_lost(const comoment *c, size_t i, size_t j, int exact_i, int exact_j);
 double comoment_variance(const comoment *c, size_t i, size_t j);  /* of i where j present: m2 / (n - 1); NaN if n < 2 */
 /* The stored state of pair (i, j) as written: n, mean and M2 of column i
  * over the rows where j is present, and the co-moment sum. */

@@ -278,10 +278,17 @@ static void chart_heatmap(html_buf *b, const report *r, int standalone)
             double v = r->heat_r[i * n + j];
             svg_diverging(v, col);
             int red = r->heat_redundant[i * n + j];
-            const char *t = tip(&tb, &tcap, "%s \xc3\x97 %s: r = %.3f%s",
-                                summary_name(r->s, r->heat_cols[i]),
-                                summary_name(r->s, r->heat_cols[j]), v,
-                                red ? " (pruned as redundant)" : "");
+            const char *t = isfinite(v)
+                                ? tip(&tb, &tcap, "%s \xc3\x97 %s: r = %.3f%s",
+                                      summary_name(r->s, r->heat_cols[i]),
+                                      summary_name(r->s, r->heat_cols[j]), v,
+                                      red ? " (pruned as redundant)" : "")
+                                : tip(&tb, &tcap, "%s \xc3\x97 %s: no r (%s)",
+                                      summary_name(r->s, r->heat_cols[i]),
+                                      summary_name(r->s, r->heat_cols[j]),
+                                      summary_pair_imprecise(r->s, r->heat_cols[i], r->heat_cols[j])
+                                          ? "imprecise: see corr"
+                                          : "never together, or constant there");
             html_buf a;
             html_init(&a);
             html_raw(&a, "class=\"cell\" data-r=\"");

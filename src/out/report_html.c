@@ -417,6 +417,17 @@ int report_html_write(const report *r, const report_page *p, html_buf *b)
                     "(dashed), the broken-stick rule those above the share a random split would give (dotted). "
                     "The report keeps the Kaiser count; the table below it shows their loadings, the weight of each "
                     "column in each component.</p>\n");
+        if (r->pca->undefined_pairs) {
+            char note[256];
+            snprintf(note, sizeof note,
+                     "%zu pair%s of these columns had no r (%zu imprecise: numbers rounded far from "
+                     "the first number of the scan that read them); %s 0 in the matrix.",
+                     r->pca->undefined_pairs, r->pca->undefined_pairs == 1 ? "" : "s",
+                     r->pca->imprecise_pairs, r->pca->undefined_pairs == 1 ? "its entry is" : "their entries are");
+            html_raw(b, "<p class=\"read\">");
+            html_text(b, note);
+            html_raw(b, "</p>\n");
+        }
         for (size_t i = 0; i < n; i++)
             if (kind[i] == CHART_SCREE || kind[i] == CHART_LOADINGS) figure(b, r, kind[i], arg[i]);
     } else {

@@ -470,19 +470,26 @@ static int test_feature(const summary *s, size_t col, target_task task, const sc
                 imprecise |= cs.imprecise;
             }
             /* A class whose figures are noise (summary_class_moments) makes
-             * both F tests noise: the binned values' chi-squared, made from
-             * the numbers themselves, decides instead. */
+             * both F tests noise, and so does a spread whose squares leave
+             * the double range at the bottom (below 2^-480, about 3e-145:
+             * the class M2 summed underflowing squares; values near 1e-300
+             * read F = infinity for an exact 1.33): the binned values'
+             * chi-squared, made from the numbers themselves, decides. */
+            const double spread = summary_max(s, col) - summary_min(s, col);
+            const int tiny = spread > 0 && spread < 0x1p-480;
             double *n = malloc((k ? k : 1) * sizeof *n), *mean = malloc((k ? k : 1) * sizeof *mean),
                    *m2 = malloc((k ? k : 1) * sizeof *m2);
             if (!n || !mean || !m2) {
                 rc = -1;
-            } else if (!imprecise) {
+            } else if (!imprecise && !tiny) {
                 rc = groups_test(g, k, &f->anova_f);
                 for (size_t i = 0; i < k; i++) { n[i] = g[i].n; mean[i] = g[i].mean; m2[i] = g[i].m2; }
                 if (stat_welch(n, mean, m2, k, &r) == 0) set_test(&f->welch_f, &r);
             } else {
-                add_reason(f, "class means imprecise (see info): F tests left out, the binned "
-                              "values' chi-squared used");
+                add_reason(f, "%s: F tests left out, the binned values' chi-squared used",
+                           imprecise ? "class means imprecise (see info)"
+                                     : "spread below 1e-144 (its squares underflow)");
+                imprecise = 1;
             }
             free(n); free(mean); free(m2); free(g);
             set_primary(f, &f->anova_f);

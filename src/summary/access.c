@@ -334,9 +334,12 @@ int summary_class_moments(const summary *s, size_t col, uint32_t k, summary_clas
      * row of 8e15 before values in [1, 2]: a class mean of 1 for 1.487); a
      * merge flags a class whose numbers came from a summary of another
      * frame where they were rounded so (column_merge). */
-    if (column_class_lost(c, cm, class_moments_loss(cm))) {
+    if (column_class_lost(c, k, class_moments_loss(cm))) {
         out->imprecise = 1;
         out->mean = out->variance = NAN;
+    } else if (column_class_zeros(c, k)) { /* exactly, however its sums read */
+        out->mean = 0;
+        out->variance = cm->n > 1 ? 0 : NAN;
     }
     return 0;
 }
@@ -394,16 +397,23 @@ uint64_t summary_pair_count(const summary *s, size_t a, size_t b)
     return pair(s, a, b, &i, &j) ? (uint64_t)comoment_n(s->como, i, j) : 0;
 }
 
+/* comoment_pair_lost for columns a and b (co-moment indices i, j). */
+static int pair_lost(const summary *s, size_t a, size_t b, size_t i, size_t j)
+{
+    return comoment_pair_lost(s->como, i, j, column_exact_deviations(&s->cols[a]),
+                              column_exact_deviations(&s->cols[b]));
+}
+
 int summary_pair_imprecise(const summary *s, size_t a, size_t b)
 {
     size_t i, j;
-    return pair(s, a, b, &i, &j) && comoment_pair_lost(s->como, i, j);
+    return pair(s, a, b, &i, &j) && pair_lost(s, a, b, i, j);
 }
 
 double summary_correlation(const summary *s, size_t a, size_t b)
 {
     size_t i, j;
-    return pair(s, a, b, &i, &j) && !comoment_pair_lost(s->como, i, j)
+    return pair(s, a, b, &i, &j) && !pair_lost(s, a, b, i, j)
                ? comoment_correlation(s->como, i, j)
                : NAN;
 }
@@ -411,7 +421,7 @@ double summary_correlation(const summary *s, size_t a, size_t b)
 double summary_covariance(const summary *s, size_t a, size_t b)
 {
     size_t i, j;
-    return pair(s, a, b, &i, &j) && !comoment_pair_lost(s->como, i, j)
+    return pair(s, a, b, &i, &j) && !pair_lost(s, a, b, i, j)
                ? comoment_covariance(s->como, i, j)
                : NAN;
 }

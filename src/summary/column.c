@@ -626,23 +626,40 @@ static void two_sum_into(double *s, double *low, double x)
     *s = t;
 }
 
-int column_class_lost(const summary_column *c, const class_moments *m, double loss)
+int column_exact_deviations(const summary_column *c)
 {
+    const double lo = c->mom.min, hi = c->mom.max;
+    return c->mom.n && c->integers == c->mom.n && lo > -0x1p53 && hi < 0x1p53 && hi - lo < 0x1p53;
+}
+
+int column_class_zeros(const summary_column *c, uint32_t k)
+{
+    const class_moments *m = &c->cls[k];
+    return m->n && c->bins && c->zeros >= m->n && buckets_zeros(c->bins, k + 1) == m->n;
+}
+
+int column_class_lost(const summary_column *c, uint32_t k, double loss)
+{
+    const class_moments *m = &c->cls[k];
     if (!m->n) return 0;
-    if (m->imprecise) return 1;
     const double ref = c->mom.has_ref ? c->mom.ref.value : 0;
-    if (class_moments_lost(m, ref, loss)) return 1;
     const double mean = ref + class_moments_mean(m), lo = c->mom.min, hi = c->mom.max;
     const double var = m->n > 1 ? m->m2 / (double)(m->n - 1) : 0;
     /* The mean is ref + its deviation, each within 2^-52 of the larger
      * magnitude: that much slack, and more. */
     const double slack = 0x1p-40 * fmax(fabs(lo), fabs(hi));
-    if (isfinite(mean) && isfinite(lo) && isfinite(hi) && (mean < lo - slack || mean > hi + slack))
-        return 1;
-    if (!isfinite(var) && isfinite(hi - lo)) return 1;
-    /* Deviations that all rounded to minus the frame read as zeros: a class
-     * of zeros only if the column held that many. */
-    return mean == 0 && var == 0 && loss > 0 && c->zeros < m->n;
+    /* A variance past the double range where the column's spread squared is
+     * within it (a spread of 1e160 overflows on its own: that is not noise).
+     * Deviations that all rounded to minus the frame read as zeros. */
+    if (column_exact_deviations(c)) loss = 0;
+    int lost = m->imprecise || class_moments_lost(m, ref, loss) ||
+               (isfinite(mean) && isfinite(lo) && isfinite(hi) &&
+                (mean < lo - slack || mean > hi + slack)) ||
+               (!isfinite(var) && isfinite((hi - lo) * (hi - lo))) ||
+               (mean == 0 && var == 0 && loss > 0);
+    /* A class of zeros is exact whatever its sums read: a class of true
+     * zeros re-based from another frame reads about 1e-15. */
+    return lost && !column_class_zeros(c, k);
 }
 
 /* Combines two class moments; shift = from's frame minus into's, and
@@ -653,13 +670,14 @@ int column_class_lost(const summary_column *c, const class_moments *m, double lo
  * them by into's frame (summary_class_moments): when it is too much for
  * the merged class, the class is flagged imprecise, and stays so. */
 static void class_merge(class_moments *a, const class_moments *b, double shift, double into_ref,
-                        const summary_column *from)
+                        const summary_column *from, uint32_t kb, int zeros)
 {
     if (b->n == 0) return;
-    const double b_loss = shift != 0 ? class_moments_loss(b) : 0;
-    /* from's own reading of the class, when it comes from another frame */
-    const int flagged = a->imprecise | b->imprecise ||
-                        (shift != 0 && column_class_lost(from, b, class_moments_loss(b)));
+    const double b_loss = shift != 0 && !column_exact_deviations(from) ? class_moments_loss(b) : 0;
+    /* from's own reading of the class, when it comes from another frame;
+     * none for classes of zeros on both sides, which stay exact */
+    const int flagged = !zeros && (a->imprecise | b->imprecise ||
+                                   (shift != 0 && column_class_lost(from, kb, class_moments_loss(b))));
     double nb = (double)b->n, p = nb * shift, pe = fma(nb, shift, -p);
     double mb = class_moments_mean(b) + shift;
     double sum = a->n ? a->sum : 0, low = a->n ? a->sum_low : 0;
@@ -674,7 +692,7 @@ static void class_merge(class_moments *a, const class_moments *b, double shift, 
     two_sum_into(&a->sum, &a->sum_low, low);
     a->m2 = m2;
     a->n += b->n;
-    a->imprecise = flagged || class_moments_lost(a, into_ref, b_loss);
+    a->imprecise = flagged || (!zeros && class_moments_lost(a, into_ref, b_loss));
 }
 
 
@@ -687,9 +705,11 @@ int column_merge(summary_column *a, const summary_column *b, const column_merge_
     double into_ref = a->mom.has_ref ? a->mom.ref.value : b->mom.has_ref ? b->mom.ref.value : 0;
     if (a->cls && b->cls) {
         uint32_t k = m->same_classes ? m->max_classes : m->from_classes;
-        for (uint32_t c = 0; c < k; c++)
-            class_merge(&a->cls[m->same_classes ? c : m->map[c + 1] - 1], &b->cls[c], shift,
-                        into_ref, b);
+        for (uint32_t c = 0; c < k; c++) {
+            const uint32_t ka = m->same_classes ? c : m->map[c + 1] - 1;
+            const int zeros = (!a->cls[ka].n || column_class_zeros(a, ka)) && column_class_zeros(b, c);
+            class_merge(&a->cls[ka], &b->cls[c], shift, into_ref, b, c, zeros);
+        }
     }
     a->missing += b->missing;
     a->copy_print += b->copy_print; /* mod 2^64, in any order */

@@ -66,13 +66,24 @@ typedef struct {
  * (a is then partly merged: the caller discards it). */
 int column_merge(summary_column *a, const summary_column *b, const column_merge_map *m);
 
-/* 1 when class moments m of column c cannot be trusted (summary_class_moments
- * shows no mean or variance): flagged by a merge, their rounding `loss`
- * past 2^-20 of their scale (class_moments_lost), or a reading that the
- * column's own numbers rule out, which rounding to the frame leaves (a
- * mean outside the column's [min, max]; a spread past the double range in
- * a column whose range is not; all zeros in a column of fewer zeros). */
-int column_class_lost(const summary_column *c, const class_moments *m, double loss);
+/* 1 when every deviation of column c from its frame (any of its numbers)
+ * was exact: integers of magnitude below 2^53 whose differences stay below
+ * 2^53 (epoch microseconds, ids); nothing was rounded, whatever the frame. */
+int column_exact_deviations(const summary_column *c);
+
+/* 1 when every number of class k (0-based) of column c is exactly zero, by
+ * the bucket store (whose keys come from the numbers, not from their
+ * deviations): the class's mean and variance are then exactly 0. */
+int column_class_zeros(const summary_column *c, uint32_t k);
+
+/* 1 when the moments of class k of column c cannot be trusted
+ * (summary_class_moments shows no mean or variance): flagged by a merge,
+ * their rounding `loss` past 2^-20 of their scale (class_moments_lost), or
+ * a reading that the column's own numbers rule out, which rounding to the
+ * frame leaves (a mean outside the column's [min, max]; a variance past the
+ * double range where the column's spread squared is not; all zeros, for a
+ * class that holds numbers other than 0); never for a class of zeros. */
+int column_class_lost(const summary_column *c, uint32_t k, double loss);
 
 /* Builds the sort index of each accumulator (see "Sealing" in summary.h).
  * 0, or -1 when out of memory. */

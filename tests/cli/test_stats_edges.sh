@@ -403,3 +403,87 @@ print("; ".join(bad))
 EOF2
 )
 check stats_edges.far_shard_pair_no_r "$why" [ -z "$why" ]
+
+# --- The verification audit of the flags (merge3, 2026-12-05) ---------------
+# (1) Zeros elsewhere in the column let a class rounded to 0/0 pass; a
+# class's own zeros now come from the bucket store (keyed by the numbers).
+# (5) A class of true zeros re-based from another frame read about 1e-15
+# and was flagged (the decision then hung on the merge order): exactly 0/0.
+# (6) A spread of 1e160 is the double range's, not the frame's: no flag.
+# (3) A pair whose M2 overflowed in a merge read r = 0 (exact 0.7071).
+# (4) Values near 1e-300: the class M2 underflowed and ANOVA read F = inf,
+# p = 0 (exact 1.33): F tests left out.  (7) Integer columns whose
+# deviations are exact (epoch microseconds) kept no r: they keep it.
+printf 'x,t\n1e17,A\n1.5,B\n1.7,B\n1.6,B\n0,C\n0,C\n0,C\n' >"$T/v1.csv"
+printf 'x,t\n5.702181,A\n5.2,A\n6.1,B\n4.4,B\n' >"$T/v5a.csv"
+printf 'x,t\n6.907755,A\n0,Z\n0,Z\n5.0,B\n' >"$T/v5b.csv"
+printf 'x,y\n1.0,2.1\n2.0,2.9\n3.0,4.2\n4.0,3.8\n' >"$T/v3a.csv"
+printf 'x,y\n5.0,1e300\n' >"$T/v3b.csv"
+"$PY" - "$T" <<'EOF2'
+import random, sys
+t = sys.argv[1]
+R = random.Random(5)
+with open(t + "/v6.csv", "w") as f:
+    f.write("x,t\n")
+    for i in range(300):
+        c = "ABC"[i % 3]
+        f.write("%.2e,%s\n" % ((R.uniform(-1, 1) + (0.3 if c == "B" else 0)) * 1e160, c))
+R = random.Random(7)
+with open(t + "/v4.csv", "w") as f:
+    f.write("x,t\n")
+    for i in range(300):
+        f.write("%.6e,%s\n" % ((1 + R.random()) * 1e-300, "ABC"[i % 3]))
+R = random.Random(3)
+with open(t + "/v7.csv", "w") as f:
+    f.write("stamp_us,burst\n")
+    s = 1700000000000000
+    for i in range(200):
+        s += R.randrange(1, 10 ** 9)
+        f.write("%d,\n" % s)
+    for i in range(6):
+        s += 1
+        f.write("%d,%d\n" % (s, R.randrange(0, 10)))
+EOF2
+for w in v1 v5a v5b v3a v3b v6 v4 v7; do
+    case $w in v3a|v3b|v7) "$SHEAF" scan -q "$T/$w.csv" -o "$T/$w.sheaf" 2>/dev/null ;;
+        *) "$SHEAF" scan -q -t t "$T/$w.csv" -o "$T/$w.sheaf" 2>/dev/null ;; esac
+done
+"$SHEAF" merge "$T/v5a.sheaf" "$T/v5b.sheaf" -o "$T/v5ab.sheaf" 2>/dev/null
+"$SHEAF" merge "$T/v5b.sheaf" "$T/v5a.sheaf" -o "$T/v5ba.sheaf" 2>/dev/null
+"$SHEAF" merge "$T/v3a.sheaf" "$T/v3b.sheaf" -o "$T/v3ab.sheaf" 2>/dev/null
+for w in v1 v5ab v5ba v6; do "$SHEAF" info --format json "$T/$w.sheaf" >"$T/$w.json" 2>/dev/null; done
+for w in v5ab v5ba v4; do "$SHEAF" screen --format json "$T/$w.sheaf" >"$T/$w.screen" 2>/dev/null; done
+for w in v3ab v7; do "$SHEAF" corr -f csv "$T/$w.sheaf" >"$T/$w.corr" 2>/dev/null; done
+why=$("$PY" - "$T" 2>&1 <<'EOF2'
+import csv, json, math, sys
+from fractions import Fraction as F
+t = sys.argv[1]
+bad = []
+def by(w):
+    return {k["class"]: k for k in json.load(open("%s/%s.json" % (t, w)))["columns"][0]["by_class"]}
+k = by("v1")
+if not k["B"]["imprecise"] or k["C"]["imprecise"] or (k["C"]["mean"], k["C"]["variance"]) != (0, 0):
+    bad.append("zeros elsewhere: %r" % k)
+for w in ("v5ab", "v5ba"):
+    z = by(w)["Z"]
+    f = json.load(open("%s/%s.screen" % (t, w)))["features"][0]
+    if z["imprecise"] or (z["mean"], z["variance"]) != (0, 0) or abs(f["tests"]["anova_f"]["stat"] - 38.91255946464958) > 1e-9:
+        bad.append("%s: %r %r" % (w, z, f["tests"].get("anova_f")))
+if any(c["imprecise"] for c in by("v6").values()):
+    bad.append("huge spread flagged: %r" % by("v6"))
+r = list(csv.reader(open(t + "/v3ab.corr")))[2][1]
+if r != "":
+    bad.append("overflowed pair r %r" % r)
+f = json.load(open(t + "/v4.screen"))["features"][0]
+if f["tests"].get("anova_f") is not None or not any("spread below" in x for x in f["reasons"]):
+    bad.append("tiny: %r %r" % (f["tests"].get("anova_f"), f["reasons"]))
+p = [(F(a), F(b)) for a, b in list(csv.reader(open(t + "/v7.csv")))[1:] if a and b]
+mx = sum(a for a, b in p) / len(p); my = sum(b for a, b in p) / len(p)
+ex = float(sum((a - mx) * (b - my) for a, b in p)) / math.sqrt(float(sum((a - mx) ** 2 for a, b in p)) * float(sum((b - my) ** 2 for a, b in p)))
+got = list(csv.reader(open(t + "/v7.corr")))[1][2]
+if got == "" or abs(float(got) - ex) > 1e-12:
+    bad.append("integer pair r %r against %r" % (got, ex))
+print("; ".join(bad))
+EOF2
+)
+check stats_edges.flags_verified "$why" [ -z "$why" ]
