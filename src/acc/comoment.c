@@ -538,13 +538,8 @@ static int side_lost(double n, double m2, double loss)
     return sd > 0 && isfinite(loss) && loss > 0x1p-20 * sd;
 }
 
-int comoment_merge(comoment *into, const comoment *from, const double *shift)
-{
-    return comoment_merge_exact(into, from, shift, NULL);
-}
-
-int comoment_merge_exact(comoment *into, const comoment *from, const double *shift,
-                         const unsigned char *exact)
+int comoment_merge(comoment *into, const comoment *from, const double *shift,
+                   const unsigned char *exact)
 {
     if (into->p != from->p) return -1;
     pair_arrays a = arrays_of(into);

@@ -97,13 +97,13 @@ int comoment_add_block(comoment *c, const double *x, const double *mask, const d
 
 /* into := into (+) from.  shift[j] = from's frame minus into's frame for
  * column j (add it to from's means); NULL = same frames.  into != from.
+ * A pair is flagged lost (comoment_pair_lost) when from's side, judged in
+ * from's own frame, lost more than 2^-20 of the merged side's sd; exact[j]
+ * nonzero says from's column j held exact deviations (integers whose
+ * differences fit in 2^53), never judged so (exact may be NULL: none).
  * Returns 0, or -1 (into unchanged) when the column counts differ. */
-int comoment_merge(comoment *into, const comoment *from, const double *shift);
-/* comoment_merge, knowing which of from's columns held deviations that were
- * exact (exact[j] nonzero: integers whose differences fit in 2^53), whose
- * sides no merge judges rounded (exact may be NULL: none). */
-int comoment_merge_exact(comoment *into, const comoment *from, const double *shift,
-                         const unsigned char *exact);
+int comoment_merge(comoment *into, const comoment *from, const double *shift,
+                   const unsigned char *exact);
 
 /* Accessors (pairwise complete).  comoment_n(c, i, i) is the count of column
  * i, comoment_mean(c, i, i) its mean (in the frame), comoment_variance(c, i, i)

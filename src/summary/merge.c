@@ -422,7 +422,7 @@ static summary_status fold(summary *into, summary *from, char *err, size_t errle
                 shift[k] = number_difference(&from->como_ref[k], &into->como_ref[k], NULL);
             }
         }
-        int rc = comoment_merge_exact(into->como, from->como, shift, exact);
+        int rc = comoment_merge(into->como, from->como, shift, exact);
         free(shift);
         free(exact);
         if (rc != 0) return out_of_memory(err, errlen);

@@ -161,12 +161,11 @@ done
 why=$("$PY" - "$T" 2>&1 <<'EOF2'
 import json, sys
 from fractions import Fraction
+sys.path.insert(0, "tests/cli")
+from exact_ref import class_moments, rows
 t = sys.argv[1]
 bad = []
-rows = [l.strip().split(",") for l in open(t + "/near.csv")][1:]
-b = [Fraction(v) for c, v in rows if c == "b"]
-mean = sum(b) / len(b)
-var = sum((x - mean) ** 2 for x in b) / (len(b) - 1)
+mean, var = class_moments([Fraction(v) for c, v in rows(t + "/near.csv") if c == "b"])
 for w in ("far", "near"):
     c = json.load(open("%s/%s.json" % (t, w)))["columns"][1]
     k = [k for k in c["by_class"] if k["class"] == "b"][0]
@@ -220,14 +219,14 @@ for w in m_nf m_fn m_nfn m_nn; do
     "$SHEAF" screen --format json "$T/$w.sheaf" >"$T/$w.screen" 2>/dev/null
 done
 why=$("$PY" - "$T" 2>&1 <<'EOF2'
-import csv, json, sys
+import json, sys
 from fractions import Fraction
+sys.path.insert(0, "tests/cli")
+from exact_ref import class_moments, rows
 t = sys.argv[1]
 bad = []
 def exact(names):
-    b = [Fraction(r[1]) for n in names for r in list(csv.reader(open("%s/%s.csv" % (t, n))))[1:] if r[0] == "b"]
-    m = sum(b) / len(b)
-    return m, sum((x - m) ** 2 for x in b) / (len(b) - 1)
+    return class_moments([Fraction(r[1]) for n in names for r in rows("%s/%s.csv" % (t, n)) if r[0] == "b"])
 for w in ("m_nf", "m_fn", "m_nfn", "m_nn"):
     try:
         c = json.load(open("%s/%s.json" % (t, w)))["columns"][1]
@@ -382,14 +381,12 @@ for w in pr pr123 pr321; do
     "$SHEAF" pca -f json "$T/$w.sheaf" >/dev/null 2>"$T/$w.pca.err"
 done
 why=$("$PY" - "$T" 2>&1 <<'EOF2'
-import csv, math, sys
-from fractions import Fraction as F
+import csv, sys
+sys.path.insert(0, "tests/cli")
+from exact_ref import pearson
 t = sys.argv[1]
 bad = []
-p = [(F(a), F(b)) for a, b in list(csv.reader(open(t + "/pr.csv")))[1:] if a and b]
-mx = sum(a for a, b in p) / len(p); my = sum(b for a, b in p) / len(p)
-sxy = sum((a - mx) * (b - my) for a, b in p)
-r = float(sxy) / math.sqrt(float(sum((a - mx) ** 2 for a, b in p)) * float(sum((b - my) ** 2 for a, b in p)))
+r = pearson(t + "/pr.csv")
 got = list(csv.reader(open(t + "/pr.corr")))[1][2]
 if abs(float(got) - r) > 1e-12 or open(t + "/pr.corr.err").read():
     bad.append("one scan: %s against %r" % (got, r))
@@ -455,8 +452,9 @@ for w in v1 v5ab v5ba v6; do "$SHEAF" info --format json "$T/$w.sheaf" >"$T/$w.j
 for w in v5ab v5ba v4; do "$SHEAF" screen --format json "$T/$w.sheaf" >"$T/$w.screen" 2>/dev/null; done
 for w in v3ab v7; do "$SHEAF" corr -f csv "$T/$w.sheaf" >"$T/$w.corr" 2>/dev/null; done
 why=$("$PY" - "$T" 2>&1 <<'EOF2'
-import csv, json, math, sys
-from fractions import Fraction as F
+import csv, json, sys
+sys.path.insert(0, "tests/cli")
+from exact_ref import pearson
 t = sys.argv[1]
 bad = []
 def by(w):
@@ -477,9 +475,7 @@ if r != "":
 f = json.load(open(t + "/v4.screen"))["features"][0]
 if f["tests"].get("anova_f") is not None or not any("spread below" in x for x in f["reasons"]):
     bad.append("tiny: %r %r" % (f["tests"].get("anova_f"), f["reasons"]))
-p = [(F(a), F(b)) for a, b in list(csv.reader(open(t + "/v7.csv")))[1:] if a and b]
-mx = sum(a for a, b in p) / len(p); my = sum(b for a, b in p) / len(p)
-ex = float(sum((a - mx) * (b - my) for a, b in p)) / math.sqrt(float(sum((a - mx) ** 2 for a, b in p)) * float(sum((b - my) ** 2 for a, b in p)))
+ex = pearson(t + "/v7.csv")
 got = list(csv.reader(open(t + "/v7.corr")))[1][2]
 if got == "" or abs(float(got) - ex) > 1e-12:
     bad.append("integer pair r %r against %r" % (got, ex))
