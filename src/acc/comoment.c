@@ -538,8 +538,7 @@ static int side_lost(double n, double m2, double loss)
     return sd > 0 && isfinite(loss) && loss > 0x1p-20 * sd;
 }
 
-int comoment_merge(comoment *into, const comoment *from, const double *shift,
-                   const unsigned char *exact)
+int comoment_merge(comoment *into, const comoment *from, const double *shift)
 {
     if (into->p != from->p) return -1;
     pair_arrays a = arrays_of(into);
@@ -556,10 +555,8 @@ int comoment_merge(comoment *into, const comoment *from, const double *shift,
             if (fn[k] == 0) continue;
             /* from's rounding in its own frame, which the shifted sums no
              * longer show (a read judges them in into's frame) */
-            const double loss_lo = sh_i != 0 && !(exact && exact[i])
-                                       ? side_loss(fn[k], fmean_lo[k], fm2_lo[k]) : 0;
-            const double loss_hi = sh_j != 0 && !(exact && exact[j])
-                                       ? side_loss(fn[k], fmean_hi[k], fm2_hi[k]) : 0;
+            const double loss_lo = sh_i != 0 ? side_loss(fn[k], fmean_lo[k], fm2_lo[k]) : 0;
+            const double loss_hi = sh_j != 0 ? side_loss(fn[k], fmean_hi[k], fm2_hi[k]) : 0;
             pair_update(a, k, fn[k], fmean_lo[k] + sh_i, fmean_hi[k] + sh_j, fm2_lo[k], fm2_hi[k],
                         fco[k]);
             if (i != j)
@@ -570,16 +567,13 @@ int comoment_merge(comoment *into, const comoment *from, const double *shift,
     return 0;
 }
 
-int comoment_pair_lost(const comoment *c, size_t i, size_t j, int exact_i, int exact_j)
+int comoment_pair_lost(const comoment *c, size_t i, size_t j)
 {
     if (i == j) return 0;
     const size_t k = pair_index(i, j);
     const double n = c->n[k];
-    /* the state's lo side is the smaller index */
-    const int exact_lo = i < j ? exact_i : exact_j, exact_hi = i < j ? exact_j : exact_i;
-    return c->lost[k] ||
-           (!exact_lo && side_lost(n, c->m2_lo[k], side_loss(n, c->mean_lo[k], c->m2_lo[k]))) ||
-           (!exact_hi && side_lost(n, c->m2_hi[k], side_loss(n, c->mean_hi[k], c->m2_hi[k])));
+    return c->lost[k] || side_lost(n, c->m2_lo[k], side_loss(n, c->mean_lo[k], c->m2_lo[k])) ||
+           side_lost(n, c->m2_hi[k], side_loss(n, c->mean_hi[k], c->m2_hi[k]));
 }
 
 double comoment_n(const comoment *c, size_t i, size_t j) { return c->n[pair_index(i, j)]; }

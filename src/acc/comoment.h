@@ -98,12 +98,9 @@ int comoment_add_block(comoment *c, const double *x, const double *mask, const d
 /* into := into (+) from.  shift[j] = from's frame minus into's frame for
  * column j (add it to from's means); NULL = same frames.  into != from.
  * A pair is flagged lost (comoment_pair_lost) when from's side, judged in
- * from's own frame, lost more than 2^-20 of the merged side's sd; exact[j]
- * nonzero says from's column j held exact deviations (integers whose
- * differences fit in 2^53), never judged so (exact may be NULL: none).
+ * from's own frame, lost more than 2^-20 of the merged side's sd.
  * Returns 0, or -1 (into unchanged) when the column counts differ. */
-int comoment_merge(comoment *into, const comoment *from, const double *shift,
-                   const unsigned char *exact);
+int comoment_merge(comoment *into, const comoment *from, const double *shift);
 
 /* Accessors (pairwise complete).  comoment_n(c, i, i) is the count of column
  * i, comoment_mean(c, i, i) its mean (in the frame), comoment_variance(c, i, i)
@@ -118,10 +115,12 @@ double comoment_correlation(const comoment *c, size_t i, size_t j);
  * numbers, rounded as deviations from their column's frame, lost more than
  * 2^-20 of that side's sd there, in this state or in one merged into it
  * (a far first value in rows where the other column is missing).  0 on the
- * diagonal: a column's own figures are relative to its own spread.  A side
- * whose deviations were exact (exact_i, exact_j: integers whose differences
- * fit in 2^53) lost nothing. */
-int comoment_pair_lost(const comoment *c, size_t i, size_t j, int exact_i, int exact_j);
+ * diagonal: a column's own figures are relative to its own spread.  The
+ * bound is the ulp of the side's mean deviation, which every update of the
+ * pair's mean and M2 works at (integer deviations that are exact still meet
+ * it there), so an exact figure may be flagged: epoch microseconds with a
+ * burst of 1-microsecond steps lose their r. */
+int comoment_pair_lost(const comoment *c, size_t i, size_t j);
 double comoment_variance(const comoment *c, size_t i, size_t j);  /* of i where j present: m2 / (n - 1); NaN if n < 2 */
 /* The stored state of pair (i, j) as written: n, mean and M2 of column i
  * over the rows where j is present, and the co-moment sum. */

@@ -477,18 +477,22 @@ static int test_feature(const summary *s, size_t col, target_task task, const sc
              * chi-squared, made from the numbers themselves, decides. */
             const double spread = summary_max(s, col) - summary_min(s, col);
             const int tiny = spread > 0 && spread < 0x1p-480;
+            /* and at the top: squares past the double range (spreads of 1e154
+             * or more) leave the tests undefined */
+            const int huge = spread > 0 && !isfinite(summary_sd(s, col));
             double *n = malloc((k ? k : 1) * sizeof *n), *mean = malloc((k ? k : 1) * sizeof *mean),
                    *m2 = malloc((k ? k : 1) * sizeof *m2);
             if (!n || !mean || !m2) {
                 rc = -1;
-            } else if (!imprecise && !tiny) {
+            } else if (!imprecise && !tiny && !huge) {
                 rc = groups_test(g, k, &f->anova_f);
                 for (size_t i = 0; i < k; i++) { n[i] = g[i].n; mean[i] = g[i].mean; m2[i] = g[i].m2; }
                 if (stat_welch(n, mean, m2, k, &r) == 0) set_test(&f->welch_f, &r);
             } else {
                 add_reason(f, "%s: F tests left out, the binned values' chi-squared used",
                            imprecise ? "class means imprecise (see info)"
-                                     : "spread below 1e-144 (its squares underflow)");
+                           : tiny    ? "spread below 1e-144 (its squares underflow)"
+                                     : "spread past the double range (its squares overflow)");
                 imprecise = 1;
             }
             free(n); free(mean); free(m2); free(g);

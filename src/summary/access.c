@@ -397,23 +397,16 @@ uint64_t summary_pair_count(const summary *s, size_t a, size_t b)
     return pair(s, a, b, &i, &j) ? (uint64_t)comoment_n(s->como, i, j) : 0;
 }
 
-/* comoment_pair_lost for columns a and b (co-moment indices i, j). */
-static int pair_lost(const summary *s, size_t a, size_t b, size_t i, size_t j)
-{
-    return comoment_pair_lost(s->como, i, j, column_exact_deviations(&s->cols[a]),
-                              column_exact_deviations(&s->cols[b]));
-}
-
 int summary_pair_imprecise(const summary *s, size_t a, size_t b)
 {
     size_t i, j;
-    return pair(s, a, b, &i, &j) && pair_lost(s, a, b, i, j);
+    return pair(s, a, b, &i, &j) && comoment_pair_lost(s->como, i, j);
 }
 
 double summary_correlation(const summary *s, size_t a, size_t b)
 {
     size_t i, j;
-    return pair(s, a, b, &i, &j) && !pair_lost(s, a, b, i, j)
+    return pair(s, a, b, &i, &j) && !comoment_pair_lost(s->como, i, j)
                ? comoment_correlation(s->como, i, j)
                : NAN;
 }
@@ -421,7 +414,7 @@ double summary_correlation(const summary *s, size_t a, size_t b)
 double summary_covariance(const summary *s, size_t a, size_t b)
 {
     size_t i, j;
-    return pair(s, a, b, &i, &j) && !pair_lost(s, a, b, i, j)
+    return pair(s, a, b, &i, &j) && !comoment_pair_lost(s->como, i, j)
                ? comoment_covariance(s->como, i, j)
                : NAN;
 }

@@ -626,12 +626,6 @@ static void two_sum_into(double *s, double *low, double x)
     *s = t;
 }
 
-int column_exact_deviations(const summary_column *c)
-{
-    const double lo = c->mom.min, hi = c->mom.max;
-    return c->mom.n && c->integers == c->mom.n && lo > -0x1p53 && hi < 0x1p53 && hi - lo < 0x1p53;
-}
-
 int column_class_zeros(const summary_column *c, uint32_t k)
 {
     const class_moments *m = &c->cls[k];
@@ -649,13 +643,16 @@ int column_class_lost(const summary_column *c, uint32_t k, double loss)
      * magnitude: that much slack, and more. */
     const double slack = 0x1p-40 * fmax(fabs(lo), fabs(hi));
     /* A variance past the double range where the column's spread squared is
-     * within it (a spread of 1e160 overflows on its own: that is not noise).
-     * Deviations that all rounded to minus the frame read as zeros. */
-    if (column_exact_deviations(c)) loss = 0;
+     * within it; where it is not (a spread of 1e160 overflows on its own),
+     * the mean alone, against its own magnitude (a class re-based from
+     * 1e200 into 1e300 read mean 0 for 3.3e199).  Deviations that all
+     * rounded to minus the frame read as zeros. */
+    const double dev = class_moments_mean(m);
     int lost = m->imprecise || class_moments_lost(m, ref, loss) ||
                (isfinite(mean) && isfinite(lo) && isfinite(hi) &&
                 (mean < lo - slack || mean > hi + slack)) ||
-               (!isfinite(var) && isfinite((hi - lo) * (hi - lo))) ||
+               (!isfinite(var) && (isfinite((hi - lo) * (hi - lo)) ||
+                                   !(0x1p-53 * fabs(dev) <= 0x1p-20 * fabs(mean)))) ||
                (mean == 0 && var == 0 && loss > 0);
     /* A class of zeros is exact whatever its sums read: a class of true
      * zeros re-based from another frame reads about 1e-15. */
@@ -673,7 +670,7 @@ static void class_merge(class_moments *a, const class_moments *b, double shift, 
                         const summary_column *from, uint32_t kb, int zeros)
 {
     if (b->n == 0) return;
-    const double b_loss = shift != 0 && !column_exact_deviations(from) ? class_moments_loss(b) : 0;
+    const double b_loss = shift != 0 ? class_moments_loss(b) : 0;
     /* from's own reading of the class, when it comes from another frame;
      * none for classes of zeros on both sides, which stay exact */
     const int flagged = !zeros && (a->imprecise | b->imprecise ||

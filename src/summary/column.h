@@ -66,11 +66,6 @@ typedef struct {
  * (a is then partly merged: the caller discards it). */
 int column_merge(summary_column *a, const summary_column *b, const column_merge_map *m);
 
-/* 1 when every deviation of column c from its frame (any of its numbers)
- * was exact: integers of magnitude below 2^53 whose differences stay below
- * 2^53 (epoch microseconds, ids); nothing was rounded, whatever the frame. */
-int column_exact_deviations(const summary_column *c);
-
 /* 1 when every number of class k (0-based) of column c is exactly zero, by
  * the bucket store (whose keys come from the numbers, not from their
  * deviations): the class's mean and variance are then exactly 0. */

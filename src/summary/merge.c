@@ -403,16 +403,7 @@ static summary_status fold(summary *into, summary *from, char *err, size_t errle
     /* Co-moments: shift from's frame into into's. */
     if (into->como && from->como) {
         double *shift = calloc(into->ncomo ? into->ncomo : 1, sizeof *shift);
-        unsigned char *exact = calloc(into->ncomo ? into->ncomo : 1, 1);
-        if (!shift || !exact) {
-            free(shift);
-            free(exact);
-            return out_of_memory(err, errlen);
-        }
-        /* from's columns whose deviations were exact lost nothing to its frame */
-        for (size_t col = 0; col < from->ncols; col++)
-            if (from->como_of[col] >= 0)
-                exact[from->como_of[col]] = (unsigned char)column_exact_deviations(&from->cols[col]);
+        if (!shift) return out_of_memory(err, errlen);
         for (size_t k = 0; k < into->ncomo; k++) {
             if (!from->como_ref_set[k]) continue;
             if (!into->como_ref_set[k]) {
@@ -422,9 +413,8 @@ static summary_status fold(summary *into, summary *from, char *err, size_t errle
                 shift[k] = number_difference(&from->como_ref[k], &into->como_ref[k], NULL);
             }
         }
-        int rc = comoment_merge(into->como, from->como, shift, exact);
+        int rc = comoment_merge(into->como, from->como, shift);
         free(shift);
-        free(exact);
         if (rc != 0) return out_of_memory(err, errlen);
     }
     into->rows += from->rows;
