@@ -78,7 +78,10 @@ static void print_text(FILE *f, const drift_report *d)
             cli_path_name(d->base_path), (unsigned long long)r->base_rows,
             cli_path_name(d->next_path), (unsigned long long)r->next_rows, r->drifting,
             r->ncolumns);
-    fprintf(f, ", %zu of %zu correlation pairs moved\n", r->npairs, r->pairs_compared);
+    fprintf(f, ", %zu of %zu correlation pairs moved", r->npairs, r->pairs_compared);
+    if (r->pairs_imprecise)
+        fprintf(f, " (%zu more left out: r imprecise on a side, see corr)", r->pairs_imprecise);
+    fputc('\n', f);
     if (r->drifting) {
         const char *head[] = {"column", "kind", "drift", "PSI", "KS", "shift sd", "missing",
                               "distinct", "TV"};
@@ -354,6 +357,7 @@ static void print_json(const drift_report *d)
     json_array_end(&j);
     json_key(&j, "pairs"); json_object_begin(&j);
     json_key(&j, "compared"); json_uint(&j, r->pairs_compared);
+    json_key(&j, "imprecise"); json_uint(&j, r->pairs_imprecise);
     json_key(&j, "moved");
     json_array_begin(&j);
     for (size_t i = 0; i < r->npairs; i++) {

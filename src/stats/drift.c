@@ -524,7 +524,12 @@ static int moved_pairs(const summary *base, const summary *next, drift_result *r
             if (!in_pairs(b, base, next)) continue;
             double rb = summary_correlation(base, (size_t)a->base.col, (size_t)b->base.col);
             double rn = summary_correlation(next, (size_t)a->next.col, (size_t)b->next.col);
-            if (!isfinite(rb) || !isfinite(rn)) continue;
+            if (!isfinite(rb) || !isfinite(rn)) {
+                r->pairs_imprecise +=
+                    (size_t)(summary_pair_imprecise(base, (size_t)a->base.col, (size_t)b->base.col) ||
+                             summary_pair_imprecise(next, (size_t)a->next.col, (size_t)b->next.col));
+                continue;
+            }
             r->pairs_compared++;
             if (!(fabs(rn - rb) >= o->max_r_change)) continue;
             if (r->npairs == cap) {

@@ -185,6 +185,8 @@ typedef struct {
     drift_column *columns;
     size_t drifting;         /* columns with a flag */
     size_t pairs_compared;   /* pairs with r in both */
+    size_t pairs_imprecise;  /* pairs left out because r is imprecise on a side
+                                (summary_pair_imprecise) */
     size_t npairs;           /* pairs that moved */
     drift_pair *pairs;
     int relevance;           /* 1: both have the same target and the screen ran on both */

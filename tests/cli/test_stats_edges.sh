@@ -359,7 +359,7 @@ check stats_edges.class_tests_about_the_classes "$why" [ -z "$why" ]
 # (1e15) on a row where y is missing gave a merged r of 0.70574 for an exact
 # 0.70707 (fractions.Fraction), different in each merge order (merge audit
 # of 2026-12-05).  Such a pair now has no r in corr, pca warns and sets its
-# entry to 0, and the one scan keeps its exact r.
+# entry to 0, drift counts it apart, and the one scan keeps its exact r.
 "$PY" - "$T" <<'EOF2'
 import random, sys
 t = sys.argv[1]
@@ -380,8 +380,9 @@ for w in pr pr123 pr321; do
     "$SHEAF" corr -f csv "$T/$w.sheaf" >"$T/$w.corr" 2>"$T/$w.corr.err"
     "$SHEAF" pca -f json "$T/$w.sheaf" >/dev/null 2>"$T/$w.pca.err"
 done
+"$SHEAF" drift -f json "$T/pr.sheaf" "$T/pr123.sheaf" >"$T/pr.drift" 2>/dev/null
 why=$("$PY" - "$T" 2>&1 <<'EOF2'
-import csv, sys
+import csv, json, sys
 sys.path.insert(0, "tests/cli")
 from exact_ref import pearson
 t = sys.argv[1]
@@ -396,6 +397,9 @@ for w in ("pr123", "pr321"):
         bad.append("%s: r %r" % (w, got))
     if "1 column pair is imprecise" not in open("%s/%s.pca.err" % (t, w)).read():
         bad.append("%s: pca %r" % (w, open("%s/%s.pca.err" % (t, w)).read()))
+pairs = json.load(open(t + "/pr.drift"))["pairs"]
+if pairs.get("imprecise") != 1 or pairs["compared"] != 0:
+    bad.append("drift pairs %r" % pairs)
 print("; ".join(bad))
 EOF2
 )
