@@ -107,8 +107,7 @@ SHEAF_API void sheaf_options_free(sheaf_options *o);
 SHEAF_API int sheaf_options_set_target(sheaf_options *o, const char *names, sheaf_error *err);
 /* SHEAF_TASK_AUTO (decided when the summary is read), _CLASSIFY or _REGRESS. */
 SHEAF_API int sheaf_options_set_task(sheaf_options *o, int task, sheaf_error *err);
-/* Worker threads: 0 = the CPUs the process may use, 1 = none (all on the
- * calling thread). */
+/* Worker threads: 0 = the CPUs the process may use, 1 = none (the caller's). */
 SHEAF_API int sheaf_options_set_threads(sheaf_options *o, unsigned threads, sheaf_error *err);
 /* The field delimiter, one byte (',' '\t' ';' '|' ' ' ...), or 0 to detect it. */
 SHEAF_API int sheaf_options_set_delimiter(sheaf_options *o, char delimiter, sheaf_error *err);
@@ -162,9 +161,8 @@ SHEAF_API int sheaf_options_set_shard(sheaf_options *o, unsigned index, unsigned
 SHEAF_API int sheaf_options_set_fdr(sheaf_options *o, double q, sheaf_error *err);
 SHEAF_API int sheaf_options_set_max_kept(sheaf_options *o, size_t top, sheaf_error *err);
 SHEAF_API int sheaf_options_set_redundancy(sheaf_options *o, double abs_r, sheaf_error *err);
-/* PCA: SHEAF_BASIS_CORRELATION or _COVARIANCE; comma-separated columns to
- * use instead of the automatic choice (NULL: automatic); columns to leave
- * out (NULL: none). */
+/* PCA: SHEAF_BASIS_CORRELATION or _COVARIANCE; comma-separated columns to use
+ * instead of the automatic choice (NULL: automatic); columns to leave out. */
 SHEAF_API int sheaf_options_set_pca_basis(sheaf_options *o, int basis, sheaf_error *err);
 SHEAF_API int sheaf_options_set_pca_columns(sheaf_options *o, const char *names, sheaf_error *err);
 SHEAF_API int sheaf_options_set_pca_exclude(sheaf_options *o, const char *names, sheaf_error *err);
@@ -461,20 +459,22 @@ SHEAF_API int sheaf_column_table_overflowed(const sheaf_summary *s, size_t col);
 SHEAF_API size_t sheaf_column_example_count(const sheaf_summary *s, size_t col);
 SHEAF_API const char *sheaf_column_example(const sheaf_summary *s, size_t col, size_t i);
 /* A column's numbers within target class k (k < sheaf_summary_class_count):
- * how many, their mean (NaN when none, or when they lay too far from the first
- * number of the scan that read them, here or in a merged summary, to keep
- * their digits) and sample variance (n - 1; NaN below two, or then); 0 and
- * NaN out of range, or with no class figures (classes not kept). */
+ * how many, their mean (NaN when none, or imprecise) and sample variance (n - 1;
+ * NaN below two, or imprecise: 1 from _imprecise when the numbers lay too far
+ * from the first number of the scan that read them, here or in a merged summary,
+ * to keep their digits); 0 and NaN out of range, or with no class figures. */
 SHEAF_API uint64_t sheaf_column_class_numbers(const sheaf_summary *s, size_t col, size_t k);
 SHEAF_API double sheaf_column_class_mean(const sheaf_summary *s, size_t col, size_t k);
 SHEAF_API double sheaf_column_class_variance(const sheaf_summary *s, size_t col, size_t k);
-
+SHEAF_API int sheaf_column_class_imprecise(const sheaf_summary *s, size_t col, size_t k);
 /* Pearson r of two numeric columns over the rows where both hold a number (NaN
- * with fewer than two, a constant side, a declared-categorical column, or numbers
- * rounded far from the first number of their scan); the sample covariance; the rows. */
+ * with fewer than two, a constant side, a declared-categorical column, or when
+ * _pair_imprecise says 1: numbers rounded far from the first number of their
+ * scan); the sample covariance; the rows. */
 SHEAF_API double sheaf_correlation(const sheaf_summary *s, size_t a, size_t b);
 SHEAF_API double sheaf_covariance(const sheaf_summary *s, size_t a, size_t b);
 SHEAF_API uint64_t sheaf_pair_count(const sheaf_summary *s, size_t a, size_t b);
+SHEAF_API int sheaf_pair_imprecise(const sheaf_summary *s, size_t a, size_t b);
 
 /* ---- screen ------------------------------------------------------------------
  *

@@ -1586,3 +1586,29 @@ Test(api, merges_refuse_what_the_command_refuses)
     cr_expect_eq(sheaf_options_set_bucket_budget(o, 4096, &err), SHEAF_OK);
     sheaf_options_free(o);
 }
+
+/* Figures that rounding to a far first number made noise are said to be
+ * (merge audit of 2026-12-05): behind 8e15, the values in [1.25, 1.75]
+ * keep only whole units, so class b's mean and the pair's r are left out
+ * and the predicates say why; behind a first value of 1 they stay. */
+Test(api_flags, imprecise_class_figures_and_pairs_are_said_so)
+{
+    static const char far[] = "x,y,t\n8000000000000000,,a\n1.25,2.5,b\n1.5,2.75,b\n1.75,3.5,b\n"
+                              "1.5,3.0,a\n1.25,2.25,a\n";
+    static const char near_text[] = "x,y,t\n1,,a\n1.25,2.5,b\n1.5,2.75,b\n1.75,3.5,b\n"
+                                    "1.5,3.0,a\n1.25,2.25,a\n";
+    sheaf_summary *f = scan_text(far, sizeof far - 1, "t");
+    sheaf_summary *n = scan_text(near_text, sizeof near_text - 1, "t");
+    cr_expect(sheaf_column_class_imprecise(f, 0, 1), "class b behind 8e15");
+    cr_expect(isnan(sheaf_column_class_mean(f, 0, 1)));
+    cr_expect(sheaf_pair_imprecise(f, 0, 1), "x and y behind 8e15");
+    cr_expect(isnan(sheaf_correlation(f, 0, 1)));
+    cr_expect_not(sheaf_column_class_imprecise(n, 0, 1));
+    near(sheaf_column_class_mean(n, 0, 1), 1.5, 1e-15, "class b's mean, by hand");
+    cr_expect_not(sheaf_pair_imprecise(n, 0, 1));
+    cr_expect(isfinite(sheaf_correlation(n, 0, 1)));
+    cr_expect_not(sheaf_pair_imprecise(n, 0, 0), "a column with itself");
+    cr_expect_not(sheaf_column_class_imprecise(n, 0, 99), "out of range");
+    sheaf_summary_free(f);
+    sheaf_summary_free(n);
+}

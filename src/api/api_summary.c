@@ -384,6 +384,11 @@ uint64_t sheaf_pair_count(const sheaf_summary *s, size_t a, size_t b)
     return has(s, a) && has(s, b) ? summary_pair_count(s->s, a, b) : 0;
 }
 
+int sheaf_pair_imprecise(const sheaf_summary *s, size_t a, size_t b)
+{
+    return has(s, a) && has(s, b) && summary_pair_imprecise(s->s, a, b);
+}
+
 /* ---- more of the table: counts, sources, the target (`sheaf info`) ----------- */
 
 sheaf_summary_set *sheaf_summary_set_read_memory(const void *data, size_t len, sheaf_error *err)
@@ -563,4 +568,10 @@ double sheaf_column_class_variance(const sheaf_summary *s, size_t col, size_t k)
 {
     summary_class_stats cs;
     return class_stats(s, col, k, &cs) == 0 ? cs.variance : NAN;
+}
+
+int sheaf_column_class_imprecise(const sheaf_summary *s, size_t col, size_t k)
+{
+    summary_class_stats cs;
+    return class_stats(s, col, k, &cs) == 0 && cs.imprecise;
 }
