@@ -49,6 +49,7 @@
 
 #include "acc/blas.h"
 #include "acc/four.h"
+#include "acc/moments.h"
 #include "acc/zeroed.h"
 
 #include <cblas.h>
@@ -522,19 +523,12 @@ SHEAF_HOT int comoment_add_block(comoment *c, const double *x, const double *mas
     return 0;
 }
 
-/* The rounding of one side's numbers as they entered: each was its
- * deviation from the column's frame rounded to a double, off by up to 2^-53
- * of itself, so about 2^-53 (|mean deviation| + sd) over the pair's rows. */
-static double side_loss(double n, double mean, double m2)
-{
-    return 0x1p-53 * (fabs(mean) + (n > 1 && m2 > 0 ? sqrt(m2 / (n - 1)) : 0));
-}
-
-/* 1 when a loss makes one side's figures over the pair's rows noise: it
- * passes 2^-20 of that side's sd there (a constant side has no r anyway). */
+/* 1 when a loss (moments_frame_loss) makes one side's figures over the
+ * pair's rows noise: it passes 2^-20 of that side's sd there (a constant
+ * side has no r anyway). */
 static int side_lost(double n, double m2, double loss)
 {
-    double sd = n > 1 && m2 > 0 ? sqrt(m2 / (n - 1)) : 0;
+    double sd = moments_sd(n, m2);
     return sd > 0 && isfinite(loss) && loss > 0x1p-20 * sd;
 }
 
@@ -555,8 +549,8 @@ int comoment_merge(comoment *into, const comoment *from, const double *shift)
             if (fn[k] == 0) continue;
             /* from's rounding in its own frame, which the shifted sums no
              * longer show (a read judges them in into's frame) */
-            const double loss_lo = sh_i != 0 ? side_loss(fn[k], fmean_lo[k], fm2_lo[k]) : 0;
-            const double loss_hi = sh_j != 0 ? side_loss(fn[k], fmean_hi[k], fm2_hi[k]) : 0;
+            const double loss_lo = sh_i != 0 ? moments_frame_loss(fn[k], fmean_lo[k], fm2_lo[k]) : 0;
+            const double loss_hi = sh_j != 0 ? moments_frame_loss(fn[k], fmean_hi[k], fm2_hi[k]) : 0;
             pair_update(a, k, fn[k], fmean_lo[k] + sh_i, fmean_hi[k] + sh_j, fm2_lo[k], fm2_hi[k],
                         fco[k]);
             if (i != j)
@@ -572,8 +566,8 @@ int comoment_pair_lost(const comoment *c, size_t i, size_t j)
     if (i == j) return 0;
     const size_t k = pair_index(i, j);
     const double n = c->n[k];
-    return c->lost[k] || side_lost(n, c->m2_lo[k], side_loss(n, c->mean_lo[k], c->m2_lo[k])) ||
-           side_lost(n, c->m2_hi[k], side_loss(n, c->mean_hi[k], c->m2_hi[k]));
+    return c->lost[k] || side_lost(n, c->m2_lo[k], moments_frame_loss(n, c->mean_lo[k], c->m2_lo[k])) ||
+           side_lost(n, c->m2_hi[k], moments_frame_loss(n, c->mean_hi[k], c->m2_hi[k]));
 }
 
 double comoment_n(const comoment *c, size_t i, size_t j) { return c->n[pair_index(i, j)]; }

@@ -55,6 +55,23 @@ static inline void moments_pair_merge(double na, double *mean_a, double *m2_a, d
     *mean_a += d * nb / n;
     *m2_a += m2_b + d * d * na * nb / n;
 }
+/* The sample sd of n numbers of sum of squared deviations m2 (0 below two,
+ * or when m2 is not positive). */
+static inline double moments_sd(double n, double m2)
+{
+    return n > 1 && m2 > 0 ? __builtin_sqrt(m2 / (n - 1)) : 0;
+}
+
+/* The rounding n numbers carry when each entered as its deviation from a
+ * frame rounded to a double (off by up to 2^-53 of itself): about 2^-53
+ * (|their mean deviation| + their sd).  Every update of their mean and M2
+ * also works at that ulp.  Class moments and co-moment pairs judge their
+ * figures by it. */
+static inline double moments_frame_loss(double n, double mean_dev, double m2)
+{
+    return 0x1p-53 * (__builtin_fabs(mean_dev) + moments_sd(n, m2));
+}
+
 /* into := into (+) from, shifting from's mean into into's reference. */
 void moments_merge(moments *into, const moments *from);
 

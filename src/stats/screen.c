@@ -342,7 +342,9 @@ static size_t level_groups(const summary *s, const crosstab *x, level_moments *o
 
 /* ---- relevance ------------------------------------------------------------ */
 
-static int groups_test(const level_moments *g, size_t m, screen_test *t)
+/* ANOVA F of the groups into *anova, and Welch's F into *welch when given.
+ * 0, or -1 when out of memory. */
+static int groups_test(const level_moments *g, size_t m, screen_test *anova, screen_test *welch)
 {
     double *n = malloc((m ? m : 1) * sizeof *n), *mean = malloc((m ? m : 1) * sizeof *mean),
            *m2 = malloc((m ? m : 1) * sizeof *m2);
@@ -350,7 +352,8 @@ static int groups_test(const level_moments *g, size_t m, screen_test *t)
     if (n && mean && m2) {
         for (size_t i = 0; i < m; i++) { n[i] = g[i].n; mean[i] = g[i].mean; m2[i] = g[i].m2; }
         stat_result r;
-        if (stat_anova(n, mean, m2, m, &r) == 0) set_test(t, &r);
+        if (stat_anova(n, mean, m2, m, &r) == 0) set_test(anova, &r);
+        if (welch && stat_welch(n, mean, m2, m, &r) == 0) set_test(welch, &r);
         rc = 0;
     }
     free(n); free(mean); free(m2);
@@ -449,11 +452,10 @@ static void test_from_comoments(const summary *s, size_t col, size_t y, screen_f
 static int test_feature(const summary *s, size_t col, target_task task, const screen_options *o,
                         const target_axis *ta, screen_feature *f)
 {
-    stat_result r;
     triples t = {0};
     int rc = 0;
     if (f->kind == KIND_NUMERIC) {
-        int imprecise = 0;
+        int by_chi2 = 0; /* the F tests left out: the chi-squared decides */
         if (task == TASK_CLASSIFY && summary_has_class_moments(s, col)) {
             size_t k = summary_class_count(s);
             level_moments *g = malloc((k ? k : 1) * sizeof *g);
@@ -462,6 +464,7 @@ static int test_feature(const summary *s, size_t col, target_task task, const sc
              * most (summary_class_reference): the tests are shift-free, and
              * the digits in which those classes differ are kept. */
             const double ref = summary_class_reference(s, col);
+            int imprecise = 0;
             for (size_t i = 0; i < k; i++) {
                 summary_class_stats cs;
                 summary_class_moments(s, col, (uint32_t)i, &cs);
@@ -480,22 +483,15 @@ static int test_feature(const summary *s, size_t col, target_task task, const sc
             /* and at the top: squares past the double range (spreads of 1e154
              * or more) leave the tests undefined */
             const int huge = spread > 0 && !isfinite(summary_sd(s, col));
-            double *n = malloc((k ? k : 1) * sizeof *n), *mean = malloc((k ? k : 1) * sizeof *mean),
-                   *m2 = malloc((k ? k : 1) * sizeof *m2);
-            if (!n || !mean || !m2) {
-                rc = -1;
-            } else if (!imprecise && !tiny && !huge) {
-                rc = groups_test(g, k, &f->anova_f);
-                for (size_t i = 0; i < k; i++) { n[i] = g[i].n; mean[i] = g[i].mean; m2[i] = g[i].m2; }
-                if (stat_welch(n, mean, m2, k, &r) == 0) set_test(&f->welch_f, &r);
-            } else {
+            by_chi2 = imprecise || tiny || huge;
+            if (!by_chi2)
+                rc = groups_test(g, k, &f->anova_f, &f->welch_f);
+            else
                 add_reason(f, "%s: F tests left out, the binned values' chi-squared used",
                            imprecise ? "class means imprecise (see info)"
                            : tiny    ? "spread below 1e-144 (its squares underflow)"
                                      : "spread past the double range (its squares overflow)");
-                imprecise = 1;
-            }
-            free(n); free(mean); free(m2); free(g);
+            free(g);
             set_primary(f, &f->anova_f);
         } else if (task == TASK_REGRESS) {
             correlation_test(s, col, &f->corr_f);
@@ -513,7 +509,7 @@ static int test_feature(const summary *s, size_t col, target_task task, const sc
         }
         if (rc == 0)
             rc = pair_table(f, t.x, t.y, t.n, t.len, o->bins, task == TASK_CLASSIFY ? 0 : o->bins, 1);
-        if (imprecise) set_primary(f, &f->chi2);
+        if (by_chi2) set_primary(f, &f->chi2);
         triples_free(&t);
         return rc;
     }
@@ -524,7 +520,7 @@ static int test_feature(const summary *s, size_t col, target_task task, const sc
         level_moments *g = malloc((ne ? ne : 1) * sizeof *g);
         if (!g) return -1;
         size_t m = level_groups(s, cross, g);
-        rc = groups_test(g, m, &f->anova_f);
+        rc = groups_test(g, m, &f->anova_f, NULL);
         if (rc == 0) rc = level_check(g, m, &f->anova_check);
         free(g);
         set_primary(f, &f->anova_f);

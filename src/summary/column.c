@@ -636,8 +636,8 @@ int column_class_lost(const summary_column *c, uint32_t k, double loss)
 {
     const class_moments *m = &c->cls[k];
     if (!m->n) return 0;
-    const double ref = c->mom.has_ref ? c->mom.ref.value : 0;
-    const double mean = ref + class_moments_mean(m), lo = c->mom.min, hi = c->mom.max;
+    const double ref = c->mom.has_ref ? c->mom.ref.value : 0, dev = class_moments_mean(m);
+    const double mean = ref + dev, lo = c->mom.min, hi = c->mom.max;
     const double var = m->n > 1 ? m->m2 / (double)(m->n - 1) : 0;
     /* The mean is ref + its deviation, each within 2^-52 of the larger
      * magnitude: that much slack, and more. */
@@ -647,7 +647,6 @@ int column_class_lost(const summary_column *c, uint32_t k, double loss)
      * the mean alone, against its own magnitude (a class re-based from
      * 1e200 into 1e300 read mean 0 for 3.3e199).  Deviations that all
      * rounded to minus the frame read as zeros. */
-    const double dev = class_moments_mean(m);
     int lost = m->imprecise || class_moments_lost(m, ref, loss) ||
                (isfinite(mean) && isfinite(lo) && isfinite(hi) &&
                 (mean < lo - slack || mean > hi + slack)) ||
@@ -674,7 +673,7 @@ static void class_merge(class_moments *a, const class_moments *b, double shift, 
     /* from's own reading of the class, when it comes from another frame;
      * none for classes of zeros on both sides, which stay exact */
     const int flagged = !zeros && (a->imprecise | b->imprecise ||
-                                   (shift != 0 && column_class_lost(from, kb, class_moments_loss(b))));
+                                   (shift != 0 && column_class_lost(from, kb, b_loss)));
     double nb = (double)b->n, p = nb * shift, pe = fma(nb, shift, -p);
     double sum = a->n ? a->sum : 0, low = a->n ? a->sum_low : 0;
     double m2 = b->m2;
@@ -686,8 +685,8 @@ static void class_merge(class_moments *a, const class_moments *b, double shift, 
          * frame, rounding b's shifted mean first moved a variance of 4.3 to
          * 4.185 (merge4 audit, N3). */
         double na = (double)a->n, qa = a->sum / na, qb = b->sum / nb;
-        double ra = (fma(-qa, na, a->sum) + a->sum_low) / na;
-        double rb = (fma(-qb, nb, b->sum) + b->sum_low) / nb;
+        double ra = class_sum_rest(a->sum, a->sum_low, na, qa);
+        double rb = class_sum_rest(b->sum, b->sum_low, nb, qb);
         double t = shift - qa, v = t - shift, e = (shift - (t - v)) + (-qa - v);
         double d = (t + qb) + ((e + rb) - ra);
         m2 = a->m2 + b->m2 + d * d * na * nb / (na + nb);

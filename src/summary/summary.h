@@ -110,6 +110,14 @@ typedef struct {
  * reaches 2^63): files without it read as before. */
 #define CLASS_IMPRECISE_BIT (UINT64_C(1) << 63)
 
+/* What the quotient q = sum / n leaves of (sum + sum_low) / n: its exact
+ * remainder (one fma) and sum_low, over n, so that q + the rest is the
+ * two-double quotient. */
+static inline double class_sum_rest(double sum, double sum_low, double n, double q)
+{
+    return (fma(-q, n, sum) + sum_low) / n;
+}
+
 /* (sum + sum_low) / n for a two-double sum: the quotient of sum, its exact
  * remainder (one fma) and sum_low corrected, so that n equal values give
  * back that value exactly (rounding sum + sum_low first did not: three
@@ -118,7 +126,7 @@ typedef struct {
 static inline double class_sum_quotient(double sum, double sum_low, double n)
 {
     double q = sum / n;
-    return q + (fma(-q, n, sum) + sum_low) / n;
+    return q + class_sum_rest(sum, sum_low, n, q);
 }
 
 /* A class's mean in the column's frame (NaN when n = 0). */
@@ -127,14 +135,11 @@ static inline double class_moments_mean(const class_moments *m)
     return class_sum_quotient(m->sum, m->sum_low, (double)m->n);
 }
 
-/* The rounding of a class's numbers as they entered its summary: each was
- * its deviation from the column's frame rounded to a double, off by up to
- * 2^-53 of itself, so about 2^-53 (|the class's mean deviation| + its sd). */
+/* The rounding of a class's numbers as they entered its summary
+ * (moments_frame_loss, in the column's frame). */
 static inline double class_moments_loss(const class_moments *m)
 {
-    if (!m->n) return 0;
-    double sd = m->n > 1 && m->m2 > 0 ? sqrt(m->m2 / (double)(m->n - 1)) : 0;
-    return 0x1p-53 * (fabs(class_moments_mean(m)) + sd);
+    return m->n ? moments_frame_loss((double)m->n, class_moments_mean(m), m->m2) : 0;
 }
 
 /* 1 when an error of `loss` makes the class's figures noise: it passes 2^-20
@@ -146,7 +151,7 @@ static inline double class_moments_loss(const class_moments *m)
 static inline int class_moments_lost(const class_moments *m, double ref_value, double loss)
 {
     if (!m->n) return 0;
-    double sd = m->n > 1 && m->m2 > 0 ? sqrt(m->m2 / (double)(m->n - 1)) : 0;
+    double sd = moments_sd((double)m->n, m->m2);
     double mean = ref_value + class_moments_mean(m);
     double scale = sd > 0x1p-30 * fabs(mean) ? sd : fabs(mean);
     return isfinite(loss) && isfinite(scale) && scale > 0 && loss > 0x1p-20 * scale;
