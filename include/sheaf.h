@@ -723,8 +723,7 @@ typedef struct {
 
 /* Column i into *out: SHEAF_OK, or SHEAF_ERR_USAGE when i is out of range. */
 SHEAF_API int sheaf_drift_column_at(const sheaf_drift *d, size_t i, sheaf_drift_column *out);
-/* More of column i: each night's side, the numeric bins and the text
- * figures (what `sheaf drift -f json` prints beside sheaf_drift_column). */
+/* More of column i: each night's side, numeric bins, text figures (drift's JSON). */
 #define SHEAF_DRIFT_BINS 10 /* PSI bins at most */
 typedef struct {
     int kind;                /* SHEAF_KIND_* under the kind rule; -1: the column is not
@@ -740,6 +739,7 @@ typedef struct {
     int table_overflowed;    /* the value table overflowed */
     int ranked;              /* 1: the screen ran on this night (relevance compared) */
     double q;                /* the screen's q-value (NaN: untested, or not ranked) */
+    const char *q_test;      /* its test ("anova_f", "corr_f", "chi2"; "": none; static) */
     size_t rank;             /* among the kept columns, 0 when dropped or not ranked */
 } sheaf_drift_side;
 typedef struct {

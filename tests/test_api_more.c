@@ -984,6 +984,9 @@ static void check_side(const sheaf_drift_side *sd, const jval *js, int relevance
     cr_expect_eq(sd->table_overflowed, jbool(js, "table_overflowed"), "%s", what);
     if (!relevance) return;
     same_figure(js, "q", sd->q, what);
+    jval *qt = jmust(js, "q_test");
+    if (qt->t == J_NULL) cr_expect_str_eq(sd->q_test, "", "%s", what);
+    else cr_expect_str_eq(sd->q_test, jstr(js, "q_test"), "%s", what);
     jval *rank = jmust(js, "rank");
     /* JSON's rank is among the kept columns: null for a dropped one (rank 0). */
     cr_expect_eq(sd->ranked && sd->rank, rank->t != J_NULL, "%s", what);

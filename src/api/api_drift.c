@@ -208,7 +208,7 @@ static sheaf_drift_side side_of(const drift_side *sd)
     if (sd->col < 0)
         return (sheaf_drift_side){.kind = -1, .missing_share = NAN, .non_numeric_share = NAN,
                                   .distinct = NAN, .distinct_share = NAN, .mean = NAN,
-                                  .sd = NAN, .q = NAN};
+                                  .sd = NAN, .q = NAN, .q_test = ""};
     return (sheaf_drift_side){
         .kind = sd->kind == KIND_NUMERIC ? SHEAF_KIND_NUMERIC : SHEAF_KIND_CATEGORICAL,
         .missing_share = sd->missing_share,
@@ -223,6 +223,7 @@ static sheaf_drift_side side_of(const drift_side *sd)
         .table_overflowed = sd->overflowed,
         .ranked = sd->ranked,
         .q = sd->ranked ? sd->q : NAN,
+        .q_test = sd->ranked && sd->q_test ? sd->q_test : "",
         .rank = sd->ranked ? sd->rank : 0,
     };
 }

@@ -20,6 +20,21 @@ typedef struct {
 
 static const char *kind_name(column_kind k) { return k == KIND_NUMERIC ? "numeric" : "categorical"; }
 
+/* Both nights ranked the column by different tests (an F test left out on
+ * one side, screen's reasons): their q-values are not of one test. */
+static int q_tests_differ(const drift_column *c)
+{
+    return c->base.ranked && c->next.ranked && strcmp(c->base.q_test, c->next.q_test) != 0;
+}
+
+static const char *test_shown(const char *t)
+{
+    if (!strcmp(t, "anova_f")) return "ANOVA F";
+    if (!strcmp(t, "corr_f")) return "the F test of r";
+    if (!strcmp(t, "chi2")) return "chi-squared";
+    return "no test";
+}
+
 /* The flag names joined by sep into buf. */
 static const char *flag_list(unsigned flags, const char *sep, char *buf, size_t len)
 {
@@ -140,9 +155,23 @@ static void print_text(FILE *f, const drift_report *d)
             table_format_number(qb, sizeof qb, c->next.q, 3);
             fprintf(f, "  %s: q %s > %s", c->name, qa, qb);
             if (c->base.rank || c->next.rank) fprintf(f, ", rank %zu > %zu", c->base.rank, c->next.rank);
+            if (q_tests_differ(c))
+                fprintf(f, " (q from %s > %s: the tests differ)", test_shown(c->base.q_test),
+                        test_shown(c->next.q_test));
             fputc('\n', f);
         }
     }
+    /* Columns whose q came from different tests, each named once (those
+     * listed above say it there). */
+    int differ = 0;
+    for (size_t i = 0; i < r->ncolumns; i++) {
+        const drift_column *c = &r->columns[i];
+        if (!q_tests_differ(c) || (c->flags & (DRIFT_RELEVANCE | DRIFT_RANK))) continue;
+        fprintf(f, "%s%s (%s > %s)", differ++ ? ", " : "\nq from different tests (screen left an F test "
+                "out on one side): ", c->name, test_shown(c->base.q_test),
+                test_shown(c->next.q_test));
+    }
+    if (differ) fputc('\n', f);
     if (r->npairs) {
         fprintf(f, "\ncorrelation pairs whose r moved by %g or more:\n", o->max_r_change);
         for (size_t i = 0; i < r->npairs; i++)
@@ -175,7 +204,8 @@ static void print_csv(const drift_report *d)
     fputs("column,drifts,flags,base_kind,new_kind,psi,bins,ks,ks_bound,mean_shift,"
           "base_missing_share,new_missing_share,base_non_numeric_share,new_non_numeric_share,"
           "base_distinct,new_distinct,base_distinct_share,new_distinct_share,tv,tv_exact,"
-          "chi2,chi2_df,chi2_p,appeared,vanished,base_q,new_q,base_rank,new_rank\n",
+          "chi2,chi2_df,chi2_p,appeared,vanished,base_q,new_q,base_rank,new_rank,base_q_test,"
+          "new_q_test\n",
           stdout);
     /* Drifting columns first, each group in the result's order. */
     for (int pass = 0; pass < 2; pass++)
@@ -214,7 +244,8 @@ static void print_csv(const drift_report *d)
             else fputs(",", stdout);
             if (c->next.ranked && c->next.rank) printf(",%zu", c->next.rank);
             else fputs(",", stdout);
-            fputc('\n', stdout);
+            printf(",%s,%s\n", c->base.ranked ? c->base.q_test : "",
+                   c->next.ranked ? c->next.q_test : "");
         }
 }
 
@@ -237,6 +268,8 @@ static void json_side(json_out *j, const char *key, const drift_side *s, int rel
     json_key(j, "table_overflowed"); json_bool(j, s->overflowed);
     if (relevance) {
         json_key(j, "q"); json_number(j, s->ranked ? s->q : NAN);
+        json_key(j, "q_test");
+        if (s->ranked && s->q_test[0]) json_string(j, s->q_test); else json_null(j);
         json_key(j, "rank"); if (s->ranked && s->rank) json_uint(j, s->rank); else json_null(j);
     }
     json_object_end(j);

@@ -555,6 +555,7 @@ static void relevance_side(const screen_result *sr, const long *of, drift_column
         drift_side *d = next ? &cols[at].next : &cols[at].base;
         d->ranked = 1;
         d->q = x->q;
+        screen_primary(x, &d->q_test);
         d->rank = x->rank;
     }
 }

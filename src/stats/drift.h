@@ -147,6 +147,8 @@ typedef struct {
     int overflowed;          /* the value table overflowed */
     int ranked;              /* the relevance figures below are set */
     double q;                /* the screen's q-value (NaN: untested) */
+    const char *q_test;      /* the test behind q (screen_primary: "anova_f", "corr_f",
+                                "chi2"; "" untested); ranked only */
     size_t rank;             /* among kept columns, 0 when dropped */
 } drift_side;
 

@@ -52,7 +52,7 @@ widths = {len(r) for r in rows}
 print(";".join("%s:%s:%s" % (r["column"], r["drifts"], r["flags"]) for r in rows), widths)
 EOF
 check csv_drifting_first_then_quiet "$(cat "$T/csv.txt")" \
-    grep -q "^level:1:psi ks mean_shift;tag:1:categories.*;gone:1:vanished;fresh:1:appeared;steady:0:;y:0: {29}" "$T/csv.txt"
+    grep -q "^level:1:psi ks mean_shift;tag:1:categories.*;gone:1:vanished;fresh:1:appeared;steady:0:;y:0: {31}" "$T/csv.txt"
 
 run $SHEAF drift "$T/n1.sheaf" "$T/n2.sheaf" -f json
 "$PY" - "$T/out" >"$T/json.txt" <<'EOF'
@@ -225,3 +225,31 @@ $SHEAF scan -q "$T/k1.csv" -o "$T/k1.sheaf" && $SHEAF scan -q "$T/k2.csv" -o "$T
 run $SHEAF drift "$T/k1.sheaf" "$T/k2.sheaf" -f csv
 check audit.all_missing_is_no_kind_change "$(grep '^zone' "$T/out" | cut -d, -f1-3)" \
     holds 'grep "^zone" "$T/out" | cut -d, -f3 | grep -q missing && ! grep "^zone" "$T/out" | cut -d, -f3 | grep -q kind'
+# a night whose first value lies far from the rest leaves screen's F tests
+# out (imprecise classes) and ranks by chi-squared: drift says the q-values
+# came from different tests (text, CSV, JSON) instead of comparing them silently
+"$PY" - "$T" <<'PY'
+import random, sys
+random.seed(5)
+for name, far in (("fb", False), ("fn", True)):
+    with open("%s/%s.csv" % (sys.argv[1], name), "w") as f:
+        f.write("x,y,label\n")
+        if far:
+            f.write("8e15,1,a\n")
+        for i in range(3000):
+            c = random.choice("abc")
+            f.write("%.4f,%.3f,%s\n" % (1 + random.random() + (0.3 if c == "a" else 0), random.random(), c))
+PY
+$SHEAF scan -q "$T/fb.csv" --target label -o "$T/fb.sheaf" && $SHEAF scan -q "$T/fn.csv" --target label -o "$T/fn.sheaf"
+run $SHEAF drift "$T/fb.sheaf" "$T/fn.sheaf"
+check q_tests_differ.text "$(grep 'different tests' "$T/out")" \
+    grep -q '^q from different tests.*: x (ANOVA F > chi-squared)$' "$T/out"
+run $SHEAF drift "$T/fb.sheaf" "$T/fn.sheaf" -f csv
+check q_tests_differ.csv "$(grep '^x,' "$T/out" | cut -d, -f26-)" \
+    holds 'head -n 1 "$T/out" | grep -q ",base_q_test,new_q_test$" && grep -q "^x,.*,anova_f,chi2$" "$T/out" && grep -q "^y,.*,anova_f,anova_f$" "$T/out"'
+run $SHEAF drift "$T/fb.sheaf" "$T/fn.sheaf" -f json
+check q_tests_differ.json "exit $RC" \
+    holds '"$PY" -c "
+import json, sys
+c = {x[\"name\"]: x for x in json.load(open(sys.argv[1]))[\"columns\"]}
+sys.exit(0 if (c[\"x\"][\"base\"][\"q_test\"], c[\"x\"][\"new\"][\"q_test\"], c[\"label\"][\"base\"][\"q_test\"]) == (\"anova_f\", \"chi2\", None) else 1)" "$T/out"'
