@@ -3,6 +3,7 @@
  * and a pca_options with the defaults of summary/scan.h, stats/screen.h and
  * stats/pca.h; every string is copied in. */
 #include "api/api.h"
+#include "io/message.h"
 #include "out/keys.h"
 
 #include <stdarg.h>
@@ -75,7 +76,7 @@ int api_fail(sheaf_error *err, int code, const char *fmt, ...)
     err->code = code;
     va_list ap;
     va_start(ap, fmt);
-    vsnprintf(err->message, sizeof err->message, fmt, ap);
+    message_vprintf(err->message, sizeof err->message, fmt, ap);
     va_end(ap);
     /* One line: a newline inside a message ends it. */
     char *nl = strchr(err->message, '\n');

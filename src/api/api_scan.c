@@ -12,6 +12,7 @@
 #include <string.h>
 #include <sys/stat.h>
 
+#include "io/message.h"
 #include "stats/validity.h"
 #include "summary/scan.h"
 
@@ -48,7 +49,7 @@ static int fail_scan(sheaf_scan *sc, int code, const char *msg, sheaf_error *err
 {
     if (!sc->failed) {
         sc->failed = code;
-        snprintf(sc->message, sizeof sc->message, "%s", msg);
+        message_printf(sc->message, sizeof sc->message, "%s", msg);
     }
     return api_fail(err, sc->failed, "%s", sc->message);
 }
@@ -68,15 +69,18 @@ static int unusable(sheaf_scan *sc, const char *call, int want_open, sheaf_error
     if (!sc) return api_fail(err, SHEAF_ERR_USAGE, "%s: no scan (NULL)", call);
     if (sc->failed) return api_fail(err, sc->failed, "%s", sc->message);
     if (sc->spent) {
-        snprintf(msg, sizeof msg, "%s: the scan is finished (only sheaf_scan_free remains)", call);
+        message_printf(msg, sizeof msg, "%s: the scan is finished (only sheaf_scan_free remains)",
+                       call);
         return api_fail(err, SHEAF_ERR_USAGE, "%s", msg); /* not sticky: the summary is out */
     }
     if (want_open == 1 && !sc->open) {
-        snprintf(msg, sizeof msg, "%s: no stream is open (call sheaf_scan_begin first)", call);
+        message_printf(msg, sizeof msg, "%s: no stream is open (call sheaf_scan_begin first)",
+                       call);
         return fail_scan(sc, SHEAF_ERR_USAGE, msg, err);
     }
     if (want_open == 0 && sc->open) {
-        snprintf(msg, sizeof msg, "%s: a stream is still open (call sheaf_scan_end first)", call);
+        message_printf(msg, sizeof msg, "%s: a stream is still open (call sheaf_scan_end first)",
+                       call);
         return fail_scan(sc, SHEAF_ERR_USAGE, msg, err);
     }
     return SHEAF_OK;

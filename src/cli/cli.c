@@ -18,6 +18,8 @@
 #include <time.h>
 #include <unistd.h>
 
+#include "io/message.h"
+
 /* Largest text file a command reads whole (keep lists). */
 #define KEEP_LIST_MAX_BYTES (64u << 20)
 
@@ -167,6 +169,18 @@ static int unknown_option(const cli_command *cmd, const char *arg, size_t len, c
     return EXIT_USAGE;
 }
 
+/* A list of column names (metavar A,B,..) with an empty name in it: '',
+ * ',x', 'x,,y', 'x,' is refused by every command alike (an empty list read
+ * as every column in scan, as none in corr, and as an error in pca). */
+static int empty_name(const cli_command *cmd, const cli_option *o)
+{
+    const char *v = *o->value;
+    if (strcmp(o->metavar, "A,B,..") != 0 || !v) return 0;
+    if (*v && *v != ',' && !strstr(v, ",,") && v[strlen(v) - 1] != ',') return 0;
+    cli_error(cmd->name, "--%s: an empty name in '%s' (names are separated by commas)", o->name, v);
+    return 1;
+}
+
 int cli_parse(const cli_command *cmd, int argc, char **argv, char ***pos, size_t *npos)
 {
     *pos = calloc((size_t)argc + 1, sizeof **pos);
@@ -184,7 +198,16 @@ int cli_parse(const cli_command *cmd, int argc, char **argv, char ***pos, size_t
             const cli_option *o = find(cmd, a + 2, len, 0);
             const cli_renamed *old = o ? NULL : cli_find_renamed(cmd->name, a + 2, len);
             if (old) o = find(cmd, old->now, strlen(old->now), 0);
+            if (!o && len == 4 && !memcmp(a + 2, "help", 4)) { /* --help=... */
+                cli_error(cmd->name, "--help takes no value");
+                return EXIT_USAGE;
+            }
             if (!o) return unknown_option(cmd, a, len, 0);
+            if (old && !old->value && o->metavar && !eq && i + 1 >= argc) { /* one line */
+                cli_error(cmd->name, "--%s (renamed --%s) needs a value (%s)", old->old, o->name,
+                          o->metavar);
+                return EXIT_USAGE;
+            }
             if (old) {
                 if (old->value && eq) { /* an old flag that stands for an option with a value */
                     cli_error(cmd->name, "--%s takes no value", old->old);
@@ -208,6 +231,7 @@ int cli_parse(const cli_command *cmd, int argc, char **argv, char ***pos, size_t
                 return EXIT_USAGE;
             }
             *o->value = eq ? eq + 1 : argv[++i];
+            if (empty_name(cmd, o)) return EXIT_USAGE;
             continue;
         }
         /* Short options, bundled as getopt reads them: flags first, and the
@@ -223,6 +247,7 @@ int cli_parse(const cli_command *cmd, int argc, char **argv, char ***pos, size_t
                 return EXIT_USAGE;
             }
             *o->value = p[1] ? p + 1 : argv[++i];
+            if (empty_name(cmd, o)) return EXIT_USAGE;
             break;
         }
     }
@@ -381,7 +406,7 @@ char *cli_read_text(const char *path, char *err, size_t errlen)
 {
     int in = !strcmp(path, "-"); /* standard input, as trim reads it */
     FILE *f = in ? stdin : fopen(path, "rb");
-    if (!f) { snprintf(err, errlen, "%s: %s", path, strerror(errno)); return NULL; }
+    if (!f) { message_printf(err, errlen, "%s: %s", path, strerror(errno)); return NULL; }
     size_t cap = 4096, len = 0;
     char *buf = malloc(cap);
     while (buf) {
@@ -398,7 +423,8 @@ char *cli_read_text(const char *path, char *err, size_t errlen)
     int bad = ferror(f);
     if (!in) fclose(f);
     if (!buf || bad) {
-        snprintf(err, errlen, "%s: %s", path, buf ? "read error" : "too large or out of memory");
+        message_printf(err, errlen, "%s: %s", path,
+                       buf ? "read error" : "too large or out of memory");
         free(buf);
         return NULL;
     }

@@ -28,7 +28,7 @@ int cmd_page(int argc, char **argv)
         {0},
     };
     const cli_command cmd = {
-        "page", "SUMMARY.sheaf -o REPORT.html [--write-svg DIR] [options]",
+        "page", "SUMMARY.sheaf (-o REPORT.html | --write-svg DIR) [options]",
         "Writes one self-contained HTML page about a summary, from the summary alone:\n"
         "an overview, a sortable table of the columns with a small histogram of each,\n"
         "the relevance of each column to the target, the correlation heat map in\n"
@@ -39,7 +39,8 @@ int cmd_page(int argc, char **argv)
         "own (charts of an earlier page that this one does not draw stay in the\n"
         "folder as they were: give each night a folder of its own). The screen inside uses screen's defaults unless --fdr or --redundancy\n"
         "say otherwise. With --base, the page also shows what drifted since that\n"
-        "baseline summary, as sheaf drift reports it.",
+        "baseline summary, as sheaf drift reports it. Without -o, only the charts are\n"
+        "written. A summary scanned with several targets needs --target, as screen does.",
         opts,
         "  $ sheaf page fleet.sheaf -o fleet.html\n"
         "  $ sheaf page fleet.sheaf -o fleet.html --write-svg fleet-charts\n"
@@ -70,11 +71,11 @@ int cmd_page(int argc, char **argv)
         cli_error("page", "--write-svg needs a folder name: got an empty one");
         goto done;
     }
-    if ((rc = cli_read_target("page", pos[0], target, 0, &s)) != EXIT_DONE) goto done;
+    if ((rc = cli_read_target("page", pos[0], target, 1, &s)) != EXIT_DONE) goto done;
     if (base_path) {
         const char *both[2] = {pos[0], base_path};
         if (cli_check_stdin("page", both, 2)) { rc = EXIT_USAGE; goto done; }
-        if ((rc = cli_read_target("page", base_path, target, 0, &base)) != EXIT_DONE) goto done;
+        if ((rc = cli_read_target("page", base_path, target, 1, &base)) != EXIT_DONE) goto done;
         drift_options d;
         drift_options_defaults(&d);
         d.numeric_share = o.numeric_share;

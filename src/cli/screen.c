@@ -9,6 +9,7 @@
 
 #include "cli/cli.h"
 #include "io/keep_list.h"
+#include "io/message.h"
 #include "out/json.h"
 #include "out/table.h"
 #include "stats/logp.h"
@@ -31,9 +32,10 @@ static int write_keep_list(tempfile *t, const summary *s, const screen_result *r
             const char *name = summary_name(s, r->features[i].col);
             size_t len = strlen(name);
             if (!keep_list_writable(name)) {
-                snprintf(err, errlen, "%s: the kept column '%.40s' cannot be named in a keep list "
-                         "(its name holds a line end or ends in a blank): rename it",
-                         t->path, name);
+                message_printf(err, errlen,
+                               "%s: the kept column '%.40s' cannot be named in a keep list (its "
+                               "name holds a line end or ends in a blank): rename it", t->path,
+                               name);
                 tempfile_discard(t);
                 return -1;
             }
@@ -46,7 +48,8 @@ static int write_keep_list(tempfile *t, const summary *s, const screen_result *r
                     if (w < 0 && errno == EINTR) continue;
                     if (w <= 0) {
                         int saved = w < 0 ? errno : EIO;
-                        snprintf(err, errlen, "%s: cannot write: %s", t->path, strerror(saved));
+                        message_printf(err, errlen, "%s: cannot write: %s", t->path,
+                                       strerror(saved));
                         tempfile_discard(t);
                         return -1;
                     }

@@ -6,6 +6,7 @@
 
 #include "cli/cli.h"
 #include "io/keep_list.h"
+#include "io/message.h"
 #include "out/sink.h"
 #include "pass/trim.h"
 #include "stats/screen.h"
@@ -49,7 +50,10 @@ static void names_free(name_set *s)
 static int read_keep_list(const char *path, name_set *out, char *err, size_t errlen)
 {
     FILE *f = strcmp(path, "-") ? fopen(path, "r") : stdin;
-    if (!f) { snprintf(err, errlen, "%s: cannot open: %s", path, strerror(errno)); return -1; }
+    if (!f) {
+        message_printf(err, errlen, "%s: cannot open: %s", path, strerror(errno));
+        return -1;
+    }
     char *line = NULL;
     size_t cap = 0;
     ssize_t n;
@@ -66,7 +70,7 @@ static int read_keep_list(const char *path, name_set *out, char *err, size_t err
         }
     }
     if (rc == 0 && ferror(f)) {
-        snprintf(err, errlen, "%s: cannot read: %s", path, strerror(errno ? errno : EIO));
+        message_printf(err, errlen, "%s: cannot read: %s", path, strerror(errno ? errno : EIO));
         rc = errno == ENOMEM ? -2 : -1;
     }
     free(line);

@@ -9,6 +9,7 @@
 #include <unistd.h>
 
 #include "io/csv.h"
+#include "io/message.h"
 
 #define MARK_BYTES (1u << 20) /* spacing of the marks chunks end before */
 
@@ -100,13 +101,18 @@ char *chunker_space(chunker *c, size_t *room, char *err, size_t errlen)
         size_t limit = c->chunk_bytes + MARK_BYTES + c->max_record;
         size_t cap = c->cap * 2 > limit ? limit : c->cap * 2;
         if (cap <= c->cap) {
-            snprintf(err, errlen, "%s: record at byte %llu is longer than the %zu-byte limit "
-                     "(the record limit: an unterminated quote, or raise {max_record})",
-                     c->name, (unsigned long long)record_start(c, c->base), c->max_record);
+            message_printf(err, errlen,
+                           "%s: record at byte %llu is longer than the %zu-byte limit (the record "
+                           "limit: an unterminated quote, or raise {max_record})", c->name,
+                           (unsigned long long)record_start(c, c->base), c->max_record);
             return NULL;
         }
         char *p = realloc(c->buf, cap + 1 + CHUNK_PADDING);
-        if (!p) { snprintf(err, errlen, "%s: out of memory", c->name); errno = ENOMEM; return NULL; }
+        if (!p) {
+            message_printf(err, errlen, "%s: out of memory", c->name);
+            errno = ENOMEM;
+            return NULL;
+        }
         c->buf = p;
         c->cap = cap;
     }
@@ -143,7 +149,11 @@ int chunker_trade(chunker *c, char **buf, size_t *size, char *err, size_t errlen
     char *nb = *buf;
     if (!nb || *size < need) {
         nb = malloc(need);
-        if (!nb) { snprintf(err, errlen, "%s: out of memory", c->name); errno = ENOMEM; return -1; }
+        if (!nb) {
+            message_printf(err, errlen, "%s: out of memory", c->name);
+            errno = ENOMEM;
+            return -1;
+        }
         free(*buf);
     }
     size_t rest = c->len - c->start;
@@ -174,10 +184,10 @@ static int too_long(chunker *c, uint64_t at, char *err, size_t errlen)
     /* The hint of a quote only when one is open where the limit is passed. */
     c->long_at = at;
     c->long_quoted = c->quote.mode == CSV_IN_QUOTES || c->quote.mode == CSV_QUOTE_SEEN;
-    snprintf(err, errlen, "%s: record at byte %llu is longer than the %zu-byte limit "
-             "(the record limit: %sraise {max_record})",
-             c->name, (unsigned long long)at, c->max_record,
-             c->long_quoted ? "an unterminated quote, or " : "");
+    message_printf(err, errlen,
+                   "%s: record at byte %llu is longer than the %zu-byte limit (the record limit: "
+                   "%sraise {max_record})", c->name, (unsigned long long)at, c->max_record,
+                   c->long_quoted ? "an unterminated quote, or " : "");
     return -1;
 }
 
@@ -244,7 +254,7 @@ int chunk_find_record_start(const char *path, uint64_t offset, char delim, uint6
     if (offset == 0) { *start = 0; return 0; }
     int fd = open(path, O_RDONLY | O_CLOEXEC);
     if (fd < 0) {
-        snprintf(err, errlen, "%s: cannot open: %s", path, strerror(errno));
+        message_printf(err, errlen, "%s: cannot open: %s", path, strerror(errno));
         return -1;
     }
     enum { BLOCK = 1 << 20 };
@@ -260,7 +270,7 @@ int chunk_find_record_start(const char *path, uint64_t offset, char delim, uint6
         ssize_t n = read(fd, buf, BLOCK);
         if (n < 0 && errno == EINTR) continue;
         if (n < 0) {
-            snprintf(err, errlen, "%s: read error: %s", path, strerror(errno));
+            message_printf(err, errlen, "%s: read error: %s", path, strerror(errno));
             rc = -1;
             break;
         }

@@ -5,6 +5,8 @@
 #include <stdio.h>
 #include <stdlib.h>
 
+#include "io/message.h"
+
 /* Bytes gathered before the delimiter is detected (the detection reads the
  * first 50 lines of them), unless the stream ends first. */
 #define DETECT_BYTES (1u << 20)
@@ -119,7 +121,7 @@ int reader_pull(reader *r, source *src)
     ssize_t n = source_read(src, p, want);
     if (n < 0) {
         r->nomem = errno == ENOMEM;
-        snprintf(r->err, sizeof r->err, "%s", source_error(src));
+        message_printf(r->err, sizeof r->err, "%s", source_error(src));
         if (r->nomem) return -1;
         /* A damaged stream: what came before the damage is data, whatever
          * the read sizes, so its complete records go out first (an error in
@@ -442,18 +444,19 @@ void reader_cursor_message(const reader_cursor *c, const char *name, uint64_t li
     unsigned long long line = (unsigned long long)(lines_before + c->fault_line);
     switch (c->fault) {
     case READER_FAULT_UNTERMINATED:
-        snprintf(buf, len,
-                 "%s: line %llu: unterminated quote (a quoted field runs to the end of the input)",
-                 name, line);
+        message_printf(buf, len,
+                       "%s: line %llu: unterminated quote (a quoted field runs to the end of the "
+                       "input)", name, line);
         break;
-    case READER_FAULT_NOMEM: snprintf(buf, len, "%s: line %llu: out of memory", name, line); break;
+    case READER_FAULT_NOMEM: message_printf(buf, len, "%s: line %llu: out of memory", name,
+                                            line); break;
     case READER_FAULT_TOO_LONG:
-        snprintf(buf, len,
-                 "%s: line %llu: record at byte %llu is longer than the %zu-byte limit "
-                 "(the record limit: raise {max_record})",
-                 name, line, (unsigned long long)c->fault_offset, c->o->max_record_bytes);
+        message_printf(buf, len,
+                       "%s: line %llu: record at byte %llu is longer than the %zu-byte limit (the "
+                       "record limit: raise {max_record})", name, line,
+                       (unsigned long long)c->fault_offset, c->o->max_record_bytes);
         break;
-    default: snprintf(buf, len, "%s: no error", name);
+    default: message_printf(buf, len, "%s: no error", name);
     }
 }
 
@@ -465,11 +468,11 @@ int reader_too_long_message(const reader *r, uint64_t lines_before, char *buf, s
     if (!chunker_too_long(r->ck, &at, &limit, &quoted)) return 0;
     /* The cursor's words (reader_cursor_message), so that the message is
      * the same whichever of the two met the record. */
-    snprintf(buf, len,
-             "%s: line %llu: record at byte %llu is longer than the %zu-byte limit "
-             "(the record limit: %sraise {max_record})",
-             r->name, (unsigned long long)lines_before + 1, (unsigned long long)at, limit,
-             quoted ? "an unterminated quote, or " : "");
+    message_printf(buf, len,
+                   "%s: line %llu: record at byte %llu is longer than the %zu-byte limit (the "
+                   "record limit: %sraise {max_record})", r->name,
+                   (unsigned long long)lines_before + 1, (unsigned long long)at, limit,
+                   quoted ? "an unterminated quote, or " : "");
     return 1;
 }
 

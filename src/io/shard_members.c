@@ -7,6 +7,8 @@
 #include <string.h>
 #include <unistd.h>
 
+#include "io/message.h"
+
 #define HEADER_READ 64u /* bytes read to check a header (XLEN of BGZF members is 6) */
 
 int shard_members_header(const unsigned char *p, size_t len, uint32_t *member_bytes)
@@ -42,8 +44,8 @@ static int read_at(int fd, const char *path, unsigned char *buf, size_t len, uin
         ssize_t n = pread(fd, buf + *got, len - *got, (off_t)(off + *got));
         if (n < 0 && errno == EINTR) continue;
         if (n < 0) {
-            snprintf(err, errlen, "%s: read error at byte %llu: %s", path,
-                     (unsigned long long)(off + *got), strerror(errno));
+            message_printf(err, errlen, "%s: read error at byte %llu: %s", path,
+                           (unsigned long long)(off + *got), strerror(errno));
             return -1;
         }
         if (n == 0) break;
@@ -89,7 +91,7 @@ int shard_members_find(int fd, const char *path, uint64_t size, uint64_t from, u
         int v = header_at(fd, path, size, 0, &m, read_bytes, err, errlen);
         if (v < 0) return -1;
         if (v == 0) {
-            snprintf(err, errlen, "%s: not BGZF (no BGZF member header at byte 0)", path);
+            message_printf(err, errlen, "%s: not BGZF (no BGZF member header at byte 0)", path);
             return -1;
         }
         *start = 0;
@@ -141,10 +143,10 @@ int shard_members_find(int fd, const char *path, uint64_t size, uint64_t from, u
         }
     }
     free(buf);
-    snprintf(err, errlen,
-             "%s: no BGZF member starts in the %u bytes after byte %llu, nor ends the file "
-             "from before it (not BGZF there?)", path, SHARD_MEMBERS_MAX,
-             (unsigned long long)from);
+    message_printf(err, errlen,
+                   "%s: no BGZF member starts in the %u bytes after byte %llu, nor ends the file "
+                   "from before it (not BGZF there?)", path, SHARD_MEMBERS_MAX,
+                   (unsigned long long)from);
     return -1;
 }
 
@@ -158,8 +160,9 @@ int shard_members_walk(int fd, const char *path, uint64_t size, uint64_t start, 
         int v = header_at(fd, path, size, at, &m, read_bytes, err, errlen);
         if (v < 0) return -1;
         if (v == 0) {
-            snprintf(err, errlen, "%s: no BGZF member header at byte %llu where the one before "
-                     "ends (not BGZF throughout?)", path, (unsigned long long)at);
+            message_printf(err, errlen,
+                           "%s: no BGZF member header at byte %llu where the one before ends (not "
+                           "BGZF throughout?)", path, (unsigned long long)at);
             return -1;
         }
         unsigned char t[4];
@@ -241,8 +244,9 @@ int shard_frames_walk(int fd, const char *path, uint64_t size, uint64_t lo, uint
         int v = frame_header(fd, path, at, &hb, &content, &checksum, read_bytes, err, errlen);
         if (v < 0) return -1;
         if (v == 0) {
-            snprintf(err, errlen, "%s: no zstd frame header at byte %llu where the frame "
-                     "before ends", path, (unsigned long long)at);
+            message_printf(err, errlen,
+                           "%s: no zstd frame header at byte %llu where the frame before ends",
+                           path, (unsigned long long)at);
             return -1;
         }
         if (at >= hi) { *end = at; *frames = 0; break; }
@@ -257,16 +261,17 @@ int shard_frames_walk(int fd, const char *path, uint64_t size, uint64_t lo, uint
             unsigned char bh[3];
             if (read_at(fd, path, bh, 3, b, &got, read_bytes, err, errlen) != 0) return -1;
             if (got < 3) {
-                snprintf(err, errlen, "%s: truncated zstd frame (a block header at byte %llu)",
-                         path, (unsigned long long)b);
+                message_printf(err, errlen,
+                               "%s: truncated zstd frame (a block header at byte %llu)", path,
+                               (unsigned long long)b);
                 return -1;
             }
             uint32_t w = (uint32_t)bh[0] | (uint32_t)bh[1] << 8 | (uint32_t)bh[2] << 16;
             unsigned type = w >> 1 & 3;
             uint64_t bytes = type == 1 ? 1 : (uint64_t)(w >> 3);
             if (type == 3) {
-                snprintf(err, errlen, "%s: corrupt zstd block header at byte %llu", path,
-                         (unsigned long long)b);
+                message_printf(err, errlen, "%s: corrupt zstd block header at byte %llu", path,
+                               (unsigned long long)b);
                 return -1;
             }
             b += 3 + bytes;
@@ -274,8 +279,9 @@ int shard_frames_walk(int fd, const char *path, uint64_t size, uint64_t lo, uint
         }
         at = b + (checksum ? 4 : 0);
         if (at > size) {
-            snprintf(err, errlen, "%s: truncated zstd frame (it ends past the file, at byte %llu)",
-                     path, (unsigned long long)at);
+            message_printf(err, errlen,
+                           "%s: truncated zstd frame (it ends past the file, at byte %llu)", path,
+                           (unsigned long long)at);
             return -1;
         }
         *frames = nframes;
@@ -288,9 +294,10 @@ int shard_frames_walk(int fd, const char *path, uint64_t size, uint64_t lo, uint
     /* A frame without its size, unless the file is one frame (refused as
      * such by the caller, with the way to make many). */
     if (unsized != UINT64_MAX && *frames != 1) {
-        snprintf(err, errlen, "%s: the zstd frame at byte %llu does not say its "
-                 "decompressed size, which a shard needs (zstd writes it when it "
-                 "compresses a file, not standard input)", path, (unsigned long long)unsized);
+        message_printf(err, errlen,
+                       "%s: the zstd frame at byte %llu does not say its decompressed size, which "
+                       "a shard needs (zstd writes it when it compresses a file, not standard "
+                       "input)", path, (unsigned long long)unsized);
         return -1;
     }
     *decoded = own;

@@ -14,6 +14,8 @@
  */
 #include "io/source_impl.h"
 
+#include "io/message.h"
+
 /* Notes that a gzip member or zstd frame begins at decoded offset `at`.  Out
  * of memory drops the note: a repeated header there is then read as data,
  * as it was before starts were reported. */
@@ -75,8 +77,9 @@ ssize_t source_read_raw(source *s, uint8_t *buf, size_t cap)
         ssize_t n = s->pull ? s->pull(s->pull_ctx, buf, cap) : read(s->fd, buf, cap);
         if (n < 0 && errno == EINTR && !s->pull) continue;
         if (n < 0) {
-            snprintf(s->err, sizeof s->err, "%s: read error at byte %llu: %s", s->path,
-                     (unsigned long long)s->raw_offset, errno ? strerror(errno) : "stream error");
+            message_printf(s->err, sizeof s->err, "%s: read error at byte %llu: %s", s->path,
+                           (unsigned long long)s->raw_offset,
+                           errno ? strerror(errno) : "stream error");
             return -1;
         }
         if (n == 0) { s->raw_eof = 1; return 0; }
@@ -125,7 +128,7 @@ static int detect(source *s, char *err, size_t errlen)
     while (!s->raw_eof && s->raw_len < 4) {
         ssize_t n = source_read_raw(s, s->raw + s->raw_len, RAW_BYTES - s->raw_len);
         if (n < 0) {
-            snprintf(err, errlen, "%s", s->err);
+            message_printf(err, errlen, "%s", s->err);
             return -1;
         }
         s->raw_len += (size_t)n;
@@ -134,7 +137,11 @@ static int detect(source *s, char *err, size_t errlen)
     if (s->raw_len >= 2 && m[0] == 0x1f && m[1] == 0x8b) {
         s->kind = SOURCE_GZIP;
         s->gz = malloc(sizeof *s->gz);
-        if (!s->gz) { snprintf(err, errlen, "%s: out of memory", s->path); errno = ENOMEM; return -1; }
+        if (!s->gz) {
+            message_printf(err, errlen, "%s: out of memory", s->path);
+            errno = ENOMEM;
+            return -1;
+        }
         isal_inflate_init(s->gz);
         s->gz_in_member = 0;
         /* Nothing is consumed yet: from here the fingerprint follows the
@@ -144,7 +151,11 @@ static int detect(source *s, char *err, size_t errlen)
     } else if (source_zstd_magic(m, s->raw_len)) {
         s->kind = SOURCE_ZSTD;
         s->zs = ZSTD_createDStream();
-        if (!s->zs) { snprintf(err, errlen, "%s: out of memory", s->path); errno = ENOMEM; return -1; }
+        if (!s->zs) {
+            message_printf(err, errlen, "%s: out of memory", s->path);
+            errno = ENOMEM;
+            return -1;
+        }
         ZSTD_initDStream(s->zs);
     } else {
         s->kind = SOURCE_PLAIN;
@@ -168,20 +179,20 @@ source *source_open(const char *path, char *err, size_t errlen)
     if (strcmp(path, "-") != 0) {
         fd = open(path, O_RDONLY | O_CLOEXEC);
         if (fd < 0) {
-            snprintf(err, errlen, "%s: cannot open: %s", path, strerror(errno));
+            message_printf(err, errlen, "%s: cannot open: %s", path, strerror(errno));
             return NULL;
         }
         owns = 1;
         struct stat st;
         if (fstat(fd, &st) == 0 && S_ISDIR(st.st_mode)) {
-            snprintf(err, errlen, "%s: is a directory", path);
+            message_printf(err, errlen, "%s: is a directory", path);
             close(fd);
             return NULL;
         }
     }
     source *s = source_new(path, fd, owns);
     if (!s) {
-        snprintf(err, errlen, "%s: out of memory", path);
+        message_printf(err, errlen, "%s: out of memory", path);
         if (owns) close(fd);
         errno = ENOMEM;
         return NULL;
@@ -194,7 +205,7 @@ source *source_open_pull(const char *name, source_pull pull, void *ctx, uint64_t
 {
     source *s = source_new(name, -1, 0);
     if (!s) {
-        snprintf(err, errlen, "%s: out of memory", name);
+        message_printf(err, errlen, "%s: out of memory", name);
         errno = ENOMEM;
         return NULL;
     }
@@ -209,15 +220,15 @@ source *source_open_at(const char *path, uint64_t start, char *err, size_t errle
     source *s = source_open(path, err, errlen);
     if (!s) return NULL;
     if (s->kind != SOURCE_PLAIN) {
-        snprintf(err, errlen,
-                 "%s: a %s file cannot be split into byte ranges; split it into several "
-                 "compressed files instead and scan them as shards",
-                 path, source_format_name(s->kind));
+        message_printf(err, errlen,
+                       "%s: a %s file cannot be split into byte ranges; split it into several "
+                       "compressed files instead and scan them as shards", path,
+                       source_format_name(s->kind));
         source_close(s);
         return NULL;
     }
     if (!s->raw_size || lseek(s->fd, (off_t)start, SEEK_SET) < 0) {
-        snprintf(err, errlen, "%s: byte ranges need a regular, seekable file", path);
+        message_printf(err, errlen, "%s: byte ranges need a regular, seekable file", path);
         source_close(s);
         return NULL;
     }
@@ -234,7 +245,7 @@ source *source_open_decoded(const char *name, source_pull pull, void *ctx, uint6
 {
     source *s = source_new(name, -1, 0);
     if (!s) {
-        snprintf(err, errlen, "%s: out of memory", name);
+        message_printf(err, errlen, "%s: out of memory", name);
         errno = ENOMEM;
         return NULL;
     }
@@ -573,7 +584,7 @@ static void *ahead_main(void *arg)
         if (!b) b = malloc(sizeof *b + AHEAD_BLOCK);
         ssize_t n = -1;
         if (!b) {
-            snprintf(s->err, sizeof s->err, "%s: out of memory", s->path);
+            message_printf(s->err, sizeof s->err, "%s: out of memory", s->path);
             s->nomem = 1;
         }
         else n = decode(s, b->data, AHEAD_BLOCK);

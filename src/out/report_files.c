@@ -7,6 +7,7 @@
 #include <sys/stat.h>
 #include <unistd.h>
 
+#include "io/message.h"
 #include "out/report_html.h"
 #include "out/sink.h"
 #include "summary/tempfile.h"
@@ -78,8 +79,8 @@ static int open_charts(const report *r, const report_page *p, const char *dir, c
     struct stat st;
     if (stat(dir, &st) != 0 || !S_ISDIR(st.st_mode)) {
         if (lstat(dir, &st) == 0 && S_ISLNK(st.st_mode) && stat(dir, &st) != 0)
-            snprintf(err, errlen, "%s: a symbolic link to a missing folder", dir);
-        else snprintf(err, errlen, "%s: not a folder", dir);
+            message_printf(err, errlen, "%s: a symbolic link to a missing folder", dir);
+        else message_printf(err, errlen, "%s: not a folder", dir);
         return REPORT_FILES_WRITE;
     }
     size_t n = report_chart_count(r);
@@ -101,11 +102,11 @@ static int open_charts(const report *r, const report_page *p, const char *dir, c
         snprintf(path, len, "%s/%s", dir, name);
         int rc = 0;
         if (page && same_place(path, page)) {
-            snprintf(err, errlen, "%s: the page and a chart would be the same file", path);
+            message_printf(err, errlen, "%s: the page and a chart would be the same file", path);
             rc = REPORT_FILES_CLASH;
         } else if (is_input(p, path)) {
-            snprintf(err, errlen, "%s: is the same file as an input; refusing to overwrite it",
-                     path);
+            message_printf(err, errlen,
+                           "%s: is the same file as an input; refusing to overwrite it", path);
             rc = REPORT_FILES_CLASH;
         } else {
             rc = add_output(o, path, &b, err, errlen);
@@ -136,7 +137,8 @@ int report_files_write(const report *r, const report_page *p, const char *html_p
         if (mkdir(svg_dir, 0777) == 0) {
             made_dir = 1;
         } else if (errno != EEXIST) {
-            snprintf(err, errlen, "%s: cannot create the folder: %s", svg_dir, strerror(errno));
+            message_printf(err, errlen, "%s: cannot create the folder: %s", svg_dir,
+                           strerror(errno));
             rc = REPORT_FILES_WRITE;
         }
         if (!rc) rc = open_charts(r, p, svg_dir, html_path, &o, err, errlen);

@@ -11,6 +11,7 @@
 #include <isa-l.h>
 #include <zstd.h>
 
+#include "io/message.h"
 #include "summary/tempfile.h"
 
 enum { PLAIN, GZIP, ZSTD };
@@ -101,7 +102,7 @@ sink *sink_open(const char *path, char *err, size_t errlen)
     }
     if ((s->kind == GZIP && (!s->gz || !s->gz_level || !s->zbuf)) ||
         (s->kind == ZSTD && (!s->zs || !s->zbuf))) {
-        snprintf(err, errlen, "%s: cannot open for writing", path);
+        message_printf(err, errlen, "%s: cannot open for writing", path);
         sink_abort(s);
         return NULL;
     }
@@ -201,8 +202,8 @@ static void release(sink *s)
 
 void sink_error(const sink *s, char *err, size_t errlen)
 {
-    snprintf(err, errlen, "%s: cannot write: %s", s->path ? s->path : "standard output",
-             s->error ? strerror(s->error) : "the compressor failed");
+    message_printf(err, errlen, "%s: cannot write: %s", s->path ? s->path : "standard output",
+                   s->error ? strerror(s->error) : "the compressor failed");
 }
 
 int sink_flush(sink *s)

@@ -7,6 +7,7 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "io/message.h"
 #include "io/number.h"
 #include "io/reader.h"
 #include "pass/stream.h"
@@ -234,14 +235,15 @@ static int map_header(void *ctx, size_t file, const char *path, const reader *rd
         const char *name = summary_name(pj->s, pj->r->cols[j]);
         size_t at = header_find(pj, f, nf, name);
         if (at == FIELD_AMBIGUOUS) {
-            snprintf(msg, msglen,
-                     "%s: line 1: '%s' names more than one column of the header (the PCA uses "
-                     "it); rename them to tell them apart", path, name);
+            message_printf(msg, msglen,
+                           "%s: line 1: '%s' names more than one column of the header (the PCA "
+                           "uses it); rename them to tell them apart", path, name);
             return PROJECT_ERR_INPUT;
         }
         if (at == SIZE_MAX) {
-            snprintf(msg, msglen,
-                     "%s: line 1: no column named '%s' in the header (the PCA uses it)", path, name);
+            message_printf(msg, msglen,
+                           "%s: line 1: no column named '%s' in the header (the PCA uses it)", path,
+                           name);
             if (pj->header) stream_suggest_column(f, nf, 1, name, msg, msglen);
             return PROJECT_ERR_INPUT;
         }
@@ -250,13 +252,14 @@ static int map_header(void *ctx, size_t file, const char *path, const reader *rd
     for (size_t c = 0; c < pj->ncarry; c++) {
         size_t at = header_find(pj, f, nf, pj->carry[c]);
         if (at == FIELD_AMBIGUOUS) {
-            snprintf(msg, msglen, "%s: line 1: {carry}: '%s' names more than one column of the "
-                     "header", path, pj->carry[c]);
+            message_printf(msg, msglen,
+                           "%s: line 1: {carry}: '%s' names more than one column of the header",
+                           path, pj->carry[c]);
             return PROJECT_ERR_USAGE;
         }
         if (at == SIZE_MAX) {
-            snprintf(msg, msglen, "%s: line 1: {carry}: no column named '%s'%s", path,
-                     pj->carry[c], pj->header ? " in the header" : " (use col1..colN)");
+            message_printf(msg, msglen, "%s: line 1: {carry}: no column named '%s'%s", path,
+                           pj->carry[c], pj->header ? " in the header" : " (use col1..colN)");
             if (pj->header) stream_suggest_column(f, nf, 1, pj->carry[c], msg, msglen);
             return PROJECT_ERR_USAGE;
         }

@@ -14,6 +14,7 @@
 #include <sys/stat.h>
 
 #include "io/closest.h"
+#include "io/message.h"
 #include "io/pipeline.h"
 #include "io/reader.h"
 #include "io/source.h"
@@ -124,7 +125,7 @@ static int reading_failed(run *r, int code)
 {
     int rc = pipeline_wait(r->p);
     if (rc) return outcome(r, rc);
-    snprintf(r->err, r->errlen, "%s", r->msg);
+    message_printf(r->err, r->errlen, "%s", r->msg);
     return code;
 }
 
@@ -136,7 +137,7 @@ static int chunk_failed(run *r, int code, int pushed)
     int rc = pipeline_wait(r->p);
     if (rc) return outcome(r, rc);
     if (!reader_too_long_message(r->rd, pushed ? r->lines_before : 0, r->err, r->errlen))
-        snprintf(r->err, r->errlen, "%s", reader_error(r->rd));
+        message_printf(r->err, r->errlen, "%s", reader_error(r->rd));
     return code;
 }
 
@@ -209,7 +210,7 @@ static int stream_file(run *r, size_t file)
         } else if (st == READER_WANT) {
             int got = reader_pull(r->rd, src);
             if (got < 0) {
-                snprintf(r->msg, r->errlen, "%s", reader_error(r->rd));
+                message_printf(r->msg, r->errlen, "%s", reader_error(r->rd));
                 rc = reading_failed(r, h->input_error);
             } else if (r->o->progress) {
                 r->o->progress(r->o->progress_ctx, r->done_bytes + source_raw_offset(src),
@@ -222,7 +223,7 @@ static int stream_file(run *r, size_t file)
         }
     }
     if (!rc && !seen && r->o->require_records) {
-        snprintf(r->msg, r->errlen, "%s: no records (empty input)", path);
+        message_printf(r->msg, r->errlen, "%s: no records (empty input)", path);
         rc = reading_failed(r, h->input_error);
     }
     r->done_bytes += source_raw_offset(src);

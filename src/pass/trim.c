@@ -13,6 +13,7 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "io/message.h"
 #include "pass/stream.h"
 
 typedef struct {
@@ -71,10 +72,10 @@ static int choose(trimmer *t, const char *path, const reader_record *rec, char *
         for (size_t k = 0; k < o->nkeep; k++)
             if (strlen(o->keep[k]) == n && memcmp(o->keep[k], t->name, n) == 0) {
                 if (found[k]) { /* two fields carry the name: which one is meant? */
-                    snprintf(msg, msglen,
-                             "%s: '%s' names more than one column of the header (fields %zu and "
-                             "%zu); rename them to tell them apart",
-                             path, o->keep[k], found[k], i + 1);
+                    message_printf(msg, msglen,
+                                   "%s: '%s' names more than one column of the header (fields %zu "
+                                   "and %zu); rename them to tell them apart", path, o->keep[k],
+                                   found[k], i + 1);
                     free(found);
                     return TRIM_ERR_USAGE;
                 }
@@ -87,10 +88,10 @@ static int choose(trimmer *t, const char *path, const reader_record *rec, char *
             const char *k0 = o->keep[k];
             int generated = strncmp(k0, "col", 3) == 0 && k0[3] >= '1' && k0[3] <= '9' &&
                             strspn(k0 + 3, "0123456789") == strlen(k0 + 3);
-            snprintf(msg, msglen, "%s: no column named '%s' %s", path, k0,
-                     !o->header  ? "(without a header: col1..colN)"
-                     : generated ? "in the header (for a file without one, add {no_header})"
-                                 : "in the header");
+            message_printf(msg, msglen, "%s: no column named '%s' %s", path, k0,
+                           !o->header  ? "(without a header: col1..colN)"
+                           : generated ? "in the header (for a file without one, add {no_header})"
+                                       : "in the header");
             if (o->header) stream_suggest_column(rec->fields, rec->nfields, 1, k0, msg, msglen);
             free(found);
             return TRIM_ERR_USAGE;
@@ -133,10 +134,10 @@ static int first_record(void *ctx, size_t file, const char *path, const reader *
             int same = len == t->header_len && memcmp(names, t->header, len) == 0;
             free(names);
             if (!same) {
-                snprintf(msg, msglen,
-                         "%s: line %llu: header differs from the first file's (%zu vs %zu "
-                         "fields; column names are compared, unquoted)",
-                         path, (unsigned long long)rec->line, rec->nfields, t->nfields);
+                message_printf(msg, msglen,
+                               "%s: line %llu: header differs from the first file's (%zu vs %zu "
+                               "fields; column names are compared, unquoted)", path,
+                               (unsigned long long)rec->line, rec->nfields, t->nfields);
                 return TRIM_ERR_INPUT;
             }
             *skip = 1;

@@ -35,6 +35,7 @@
 #include "stats/pca.h"
 
 #include "acc/blas.h"
+#include "io/message.h"
 #include "stats/validity.h"
 #include "summary/access.h"
 
@@ -331,13 +332,15 @@ static int mark_names(const summary *s, const name_entry *byname, const char *li
         }
         long j = find_name(byname, summary_columns(s), p, len);
         if (j < 0) {
-            snprintf(err, errlen, "%s: no column named '%.*s' in the summary", what, (int)len, p);
+            message_printf(err, errlen, "%s: no column named '%.*s' in the summary", what, (int)len,
+                           p);
             summary_suggest_columns(s, p, len, err, errlen);
             return -1;
         }
         if (count_name(byname, summary_columns(s), p, len) > 1) {
-            snprintf(err, errlen, "%s: '%.*s' names more than one column (duplicate header names)",
-                     what, (int)len, p);
+            message_printf(err, errlen,
+                           "%s: '%.*s' names more than one column (duplicate header names)", what,
+                           (int)len, p);
             return -1;
         }
         mark[j] = 1;

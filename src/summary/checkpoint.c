@@ -13,6 +13,7 @@
 #include <xxhash.h>
 
 #include "acc/wire.h"
+#include "io/message.h"
 #include "summary/filehash.h"
 #include "summary/format.h"
 #include "summary/tempfile.h"
@@ -189,7 +190,7 @@ static checkpoint_status decode_parts(const uint8_t *data, const uint64_t *part_
 static void as_checkpoint(char *err, size_t errlen)
 {
     char was[1024];
-    snprintf(was, sizeof was, "%s", err);
+    message_printf(was, sizeof was, "%s", err);
     snprintf(err, errlen, "checkpoint %s", was);
 }
 
@@ -268,14 +269,15 @@ checkpoint_status checkpoint_write(const char *path, const checkpoint *c,
     }
     checkpoint_status st = CHECKPOINT_OK;
     if (rc != 0) {
-        snprintf(err, errlen, "%s: cannot write the checkpoint: %s", path,
-                 strerror(errno ? errno : EIO));
+        message_printf(err, errlen, "%s: cannot write the checkpoint: %s", path,
+                       strerror(errno ? errno : EIO));
         st = errno == ENOMEM ? CHECKPOINT_MEMORY : CHECKPOINT_IO;
     } else {
         /* The summaries read back from the bytes just written. */
         void *map = mmap(NULL, (size_t)pos, PROT_READ, MAP_SHARED, t.fd, 0);
         if (map == MAP_FAILED) {
-            snprintf(err, errlen, "%s: cannot read the checkpoint back: %s", path, strerror(errno));
+            message_printf(err, errlen, "%s: cannot read the checkpoint back: %s", path,
+                           strerror(errno));
             st = errno == ENOMEM ? CHECKPOINT_MEMORY : CHECKPOINT_IO;
         } else {
             char inner[400];
@@ -284,7 +286,8 @@ checkpoint_status checkpoint_write(const char *path, const checkpoint *c,
             munmap(map, (size_t)pos);
             if (st == CHECKPOINT_OK) drop_open_source(*reread);
             if (st != CHECKPOINT_OK)
-                snprintf(err, errlen, "%s: the checkpoint does not read back: %s", path, inner);
+                message_printf(err, errlen, "%s: the checkpoint does not read back: %s", path,
+                               inner);
         }
     }
     free(part_len);
@@ -309,18 +312,18 @@ int checkpoint_mark_path(const char *path, checkpoint_mark *m, char *err, size_t
         return -1;
     }
     if (tempfile_descriptor(path) >= 0) {
-        snprintf(err, errlen, "%s: names an open descriptor; a checkpoint must be a regular file",
-                 path);
+        message_printf(err, errlen,
+                       "%s: names an open descriptor; a checkpoint must be a regular file", path);
         return -1;
     }
     struct stat st;
     if (stat(path, &st) != 0) {
         if (errno == ENOENT) return 0;
-        snprintf(err, errlen, "%s: cannot use as a checkpoint: %s", path, strerror(errno));
+        message_printf(err, errlen, "%s: cannot use as a checkpoint: %s", path, strerror(errno));
         return -1;
     }
     if (!S_ISREG(st.st_mode)) {
-        snprintf(err, errlen, "%s: not a regular file; a checkpoint must be one", path);
+        message_printf(err, errlen, "%s: not a regular file; a checkpoint must be one", path);
         return -1;
     }
     m->exists = 1;
@@ -371,7 +374,7 @@ checkpoint_status checkpoint_probe(const char *path, char *err, size_t errlen)
 
 static checkpoint_status damaged(const char *path, char *err, size_t errlen, const char *why)
 {
-    snprintf(err, errlen, "%s: damaged checkpoint (%s)", path, why);
+    message_printf(err, errlen, "%s: damaged checkpoint (%s)", path, why);
     return CHECKPOINT_DAMAGED;
 }
 
@@ -391,7 +394,7 @@ checkpoint_status checkpoint_read(const char *path, checkpoint *c, char *err, si
     memset(c, 0, sizeof *c);
     struct stat st;
     if (stat(path, &st) != 0 && errno == ENOENT) {
-        snprintf(err, errlen, "%s: no such file", path);
+        message_printf(err, errlen, "%s: no such file", path);
         return CHECKPOINT_MISSING;
     }
     void *map;
@@ -494,7 +497,7 @@ checkpoint_status checkpoint_read(const char *path, checkpoint *c, char *err, si
         snprintf(why, sizeof why, "its summary: %s", inner);
         damaged(path, err, errlen, why);
     } else if (rc != CHECKPOINT_OK) {
-        snprintf(err, errlen, "%s: %s", path, inner);
+        message_printf(err, errlen, "%s: %s", path, inner);
     }
 out:
     free(part_len);

@@ -27,6 +27,7 @@
 #include "summary/block.h"
 #include "summary/column.h"
 
+#include "io/message.h"
 #include "summary/chunks_state.h"
 
 /* ---- T: tokenize --------------------------------------------------------- */
@@ -210,7 +211,7 @@ static void finish_task(chunks *w, task_kind t, uint64_t seq, size_t col, scan_s
                         const char *msg)
 {
     if (st != SCAN_OK && !w->failed)
-        snprintf(w->err, sizeof w->err, "%s", t == TASK_R ? w->r_err : msg);
+        message_printf(w->err, sizeof w->err, "%s", t == TASK_R ? w->r_err : msg);
     switch (t) {
     case TASK_T: slot_of(w, seq)->t_state = T_DONE; break;
     case TASK_R: w->r_busy = 0; if (st == SCAN_OK) w->r_next++; break;
@@ -464,7 +465,7 @@ static scan_status push_inline(chunks *w, const reader_chunk *c, int first,
     if (st == SCAN_OK && w->ncomo) st = run_task(w, TASK_C, j->seq, 0, NULL, msg, sizeof msg);
     if (st != SCAN_OK) {
         w->failed = st;
-        snprintf(w->err, sizeof w->err, "%s", why);
+        message_printf(w->err, sizeof w->err, "%s", why);
     }
     return st;
 }

@@ -7,6 +7,7 @@
 #include <stdio.h>
 #include <string.h>
 
+#include "io/message.h"
 #include "summary/block.h"
 #include "summary/column.h"
 
@@ -153,9 +154,9 @@ SHEAF_HOT int chunks_group_of(chunks *w, job *j, size_t g, block_lane *l, char *
     }
     return 0;
 oom:
-    snprintf(msg, msglen,
-             "%s: byte %llu: out of memory: the accumulators of column '%s' could not grow",
-             w->shown, (unsigned long long)j->ck.offset, w->run->cols[col].name);
+    message_printf(msg, msglen,
+                   "%s: byte %llu: out of memory: the accumulators of column '%s' could not grow",
+                   w->shown, (unsigned long long)j->ck.offset, w->run->cols[col].name);
     return -1;
 }
 

@@ -9,6 +9,7 @@
 #define XXH_INLINE_ALL
 #include <xxhash.h>
 
+#include "io/message.h"
 #include "io/number.h"
 #include "summary/column.h"
 
@@ -73,18 +74,18 @@ scan_status chunks_out_of_memory(chunks *w)
 
 static scan_status too_many_classes(chunks *w, const summary *s, uint64_t line)
 {
-    snprintf(w->r_err, sizeof w->r_err,
-             "%s: line %llu: target '%s' has more than %u classes (the class limit); raise "
-             "{max_classes}, or read the target as a measure with {task=regress}",
-             w->shown, (unsigned long long)line, s->opt.target, s->opt.max_classes);
+    message_printf(w->r_err, sizeof w->r_err,
+                   "%s: line %llu: target '%s' has more than %u classes (the class limit); raise "
+                   "{max_classes}, or read the target as a measure with {task=regress}", w->shown,
+                   (unsigned long long)line, s->opt.target, s->opt.max_classes);
     return SCAN_ERR_INPUT;
 }
 
 static scan_status ragged_row(chunks *w, uint64_t line, size_t nf)
 {
-    snprintf(w->r_err, sizeof w->r_err,
-             "%s: line %llu: %zu field%s, the header has %zu (rows must match: {strict})",
-             w->shown, (unsigned long long)line, nf, nf == 1 ? "" : "s", w->o.width);
+    message_printf(w->r_err, sizeof w->r_err,
+                   "%s: line %llu: %zu field%s, the header has %zu (rows must match: {strict})",
+                   w->shown, (unsigned long long)line, nf, nf == 1 ? "" : "s", w->o.width);
     return SCAN_ERR_INPUT;
 }
 
@@ -124,11 +125,10 @@ static scan_status target_row(chunks *w, job *j, size_t t, size_t r, const char 
     }
     if (s->has_classes) {
         if (len > SUMMARY_MAX_CLASS_BYTES) { /* a summary keeps no such label */
-            snprintf(w->r_err, sizeof w->r_err,
-                     "%s: line %llu: target '%s' has a cell of %u bytes; a class label holds at "
-                     "most %u",
-                     w->shown, (unsigned long long)(w->lines + j->line[r]), s->opt.target, len,
-                     SUMMARY_MAX_CLASS_BYTES);
+            message_printf(w->r_err, sizeof w->r_err,
+                           "%s: line %llu: target '%s' has a cell of %u bytes; a class label holds "
+                           "at most %u", w->shown, (unsigned long long)(w->lines + j->line[r]),
+                           s->opt.target, len, SUMMARY_MAX_CLASS_BYTES);
             return SCAN_ERR_INPUT;
         }
         uint32_t k = summary_class_of(s, XXH3_64bits(p, len), p, len, finite ? &d : NULL);
@@ -257,9 +257,9 @@ scan_status chunks_rows_of(chunks *w, job *j)
         return SCAN_ERR_INPUT;
     }
     if (j->fault == FAULT_TOO_BIG) {
-        snprintf(w->r_err, sizeof w->r_err,
-                 "%s: a chunk of %zu bytes is over the 4 GiB a chunk may hold; lower "
-                 "{chunk_size} or {max_record}", w->shown, j->ck.len);
+        message_printf(w->r_err, sizeof w->r_err,
+                       "%s: a chunk of %zu bytes is over the 4 GiB a chunk may hold; lower "
+                       "{chunk_size} or {max_record}", w->shown, j->ck.len);
         return SCAN_ERR_USAGE;
     }
     if (j->fault == FAULT_MEMORY) return chunks_out_of_memory(w);

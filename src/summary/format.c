@@ -9,6 +9,7 @@
  * The trailer checksum covers the whole file, so any single-bit change is
  * detected (a change to the magic or version is reported as such first).
  */
+#include "io/message.h"
 #include "summary/column.h"
 #include "summary/summary.h"
 
@@ -691,13 +692,13 @@ summary_status summary_map_file(const char *path, void **map_out, size_t *len_ou
     if (!strcmp(path, "-")) return read_stdin(map_out, len_out, err, errlen);
     int fd = open(path, O_RDONLY | O_CLOEXEC);
     if (fd < 0) {
-        snprintf(err, errlen, "%s: cannot open: %s", path, strerror(errno));
+        message_printf(err, errlen, "%s: cannot open: %s", path, strerror(errno));
         return SUMMARY_ERR_IO;
     }
     struct stat st;
     if (fstat(fd, &st) != 0 || !S_ISREG(st.st_mode)) {
         close(fd);
-        snprintf(err, errlen, "%s: not a regular file", path);
+        message_printf(err, errlen, "%s: not a regular file", path);
         return SUMMARY_ERR_IO;
     }
     size_t len = (size_t)st.st_size;
@@ -708,11 +709,11 @@ summary_status summary_map_file(const char *path, void **map_out, size_t *len_ou
     if (len && map == MAP_FAILED) {
         errno = map_errno;
         if (errno == ENOMEM) {
-            snprintf(err, errlen, "%s: out of memory: no room to map its %.1f MiB", path,
-                     len / 1048576.0);
+            message_printf(err, errlen, "%s: out of memory: no room to map its %.1f MiB", path,
+                           len / 1048576.0);
             return SUMMARY_ERR_MEMORY;
         }
-        snprintf(err, errlen, "%s: cannot map: %s", path, strerror(errno));
+        message_printf(err, errlen, "%s: cannot map: %s", path, strerror(errno));
         return SUMMARY_ERR_IO;
     }
     *map_out = map;
@@ -731,6 +732,6 @@ summary_status summary_read(const char *path, summary **out, char *err, size_t e
     rc = summary_decode(map ? map : "", len, out, inner, sizeof inner);
     if (map) munmap(map, len);
     if (rc != SUMMARY_OK)
-        snprintf(err, errlen, "%s: %s", strcmp(path, "-") ? path : "standard input", inner);
+        message_printf(err, errlen, "%s: %s", strcmp(path, "-") ? path : "standard input", inner);
     return rc;
 }

@@ -1,6 +1,7 @@
 /* summary file format: encoding and writing one summary's file
  * (docs/summary-format.md; format.c decodes and reads).  The layout is in
  * format.c's opening comment. */
+#include "io/message.h"
 #include "summary/column.h"
 #include "summary/summary.h"
 
@@ -310,7 +311,7 @@ summary_status summary_write_through(const char *path,
         tempfile_where(&t, where, sizeof where);
         tempfile_discard(&t);
         if (saved == ENOMEM) { /* memory, not the disk: the exit code says which */
-            snprintf(err, errlen, "%s: out of memory while the summary was written", path);
+            message_printf(err, errlen, "%s: out of memory while the summary was written", path);
             return SUMMARY_ERR_MEMORY;
         }
         snprintf(err, errlen, "%s%s: cannot write: %s", path, where, strerror(saved ? saved : EIO));

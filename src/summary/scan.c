@@ -19,6 +19,7 @@
 #include <unistd.h>
 
 #include "io/chunk.h"
+#include "io/message.h"
 #include "io/number.h"
 #include "io/number_simd.h"
 #include "io/pipeline.h"
@@ -45,7 +46,7 @@ void scan_options_defaults(scan_options *o)
 
 scan_status scan_fail(scan_context *sc, scan_status st, const char *msg)
 {
-    if (msg) snprintf(sc->err, sizeof sc->err, "%s", msg);
+    if (msg) message_printf(sc->err, sizeof sc->err, "%s", msg);
     sc->failed = st;
     return st;
 }
@@ -95,17 +96,19 @@ static scan_status within_limit(scan_context *sc, int before_rows)
     show_bytes((double)(now - sc->rss_base), held, sizeof held);
     show_bytes((double)sc->o.mem_limit_bytes, limit, sizeof limit);
     if (before_rows)
-        snprintf(sc->err, sizeof sc->err,
-                 "%s: the scan holds %s at its first record (the accumulators of %zu columns, "
-                 "with %u target classes at most, and the chunk that holds the record: a long "
-                 "one is bounded by {max_record}), above the %s memory limit ({mem_limit})",
-                 sc->name ? sc->name : "input", held, sc->run ? sc->run->ncols : (size_t)0,
-                 sc->run && sc->run->target >= 0 ? sc->o.opt.max_classes : 0, limit);
+        message_printf(sc->err, sizeof sc->err,
+                       "%s: the scan holds %s at its first record (the accumulators of %zu "
+                       "columns, with %u target classes at most, and the chunk that holds the "
+                       "record: a long one is bounded by {max_record}), above the %s memory limit "
+                       "({mem_limit})", sc->name ? sc->name : "input", held,
+                       sc->run ? sc->run->ncols : (size_t)0,
+                       sc->run && sc->run->target >= 0 ? sc->o.opt.max_classes : 0, limit);
     else
-        snprintf(sc->err, sizeof sc->err,
-                 "%s: byte %llu: the scan holds %s (its accumulators, chunk buffers and "
-                 "co-moments), above the %s memory limit ({mem_limit})",
-                 sc->name ? sc->name : "input", (unsigned long long)sc->pushed_bytes, held, limit);
+        message_printf(sc->err, sizeof sc->err,
+                       "%s: byte %llu: the scan holds %s (its accumulators, chunk buffers and "
+                       "co-moments), above the %s memory limit ({mem_limit})",
+                       sc->name ? sc->name : "input", (unsigned long long)sc->pushed_bytes, held,
+                       limit);
     return scan_fail(sc, SCAN_ERR_MEMORY, NULL);
 }
 
@@ -123,7 +126,7 @@ int scan_start_work(scan_context *sc)
 /* The chunks failed: their failure becomes the scan's. */
 scan_status scan_worked(scan_context *sc, scan_status st)
 {
-    snprintf(sc->err, sizeof sc->err, "%s", chunks_error(sc->work));
+    message_printf(sc->err, sizeof sc->err, "%s", chunks_error(sc->work));
     sc->failed = st;
     return st;
 }
@@ -292,10 +295,10 @@ static scan_status first_record(scan_context *sc, const csv_field *f, size_t nf)
                 free(name);
                 char d[8];
                 snprintf(d, sizeof d, sc->delim == '\t' ? "tab" : "'%c'", sc->delim);
-                snprintf(sc->err, sizeof sc->err,
-                         "%s: header differs from %s's (%zu vs %zu fields; first difference at "
-                         "field %zu; every file is read with the first one's delimiter, %s)",
-                         sc->shown, sc->first_path, nf, sc->file_fields, i + 1, d);
+                message_printf(sc->err, sizeof sc->err,
+                               "%s: header differs from %s's (%zu vs %zu fields; first difference "
+                               "at field %zu; every file is read with the first one's delimiter, "
+                               "%s)", sc->shown, sc->first_path, nf, sc->file_fields, i + 1, d);
                 return scan_fail(sc, SCAN_ERR_INPUT, NULL);
             }
         }
@@ -314,10 +317,10 @@ static scan_status first_record(scan_context *sc, const csv_field *f, size_t nf)
     }
     for (size_t i = 0; i < nf; i++) /* the file format's limit: a summary must read back */
         if (strlen(names[i]) > MAX_NAME_BYTES) {
-            snprintf(sc->err, sizeof sc->err,
-                     "%s: header field %zu is %zu bytes long; a column name holds at most %d "
-                     "(is the first line a header?)", sc->name, i + 1, strlen(names[i]),
-                     MAX_NAME_BYTES);
+            message_printf(sc->err, sizeof sc->err,
+                           "%s: header field %zu is %zu bytes long; a column name holds at most %d "
+                           "(is the first line a header?)", sc->name, i + 1, strlen(names[i]),
+                           MAX_NAME_BYTES);
             for (size_t k = 0; k < nf; k++) free(names[k]);
             free(names);
             return scan_fail(sc, SCAN_ERR_INPUT, NULL);
@@ -359,10 +362,10 @@ static scan_status head(scan_context *sc, const reader_chunk *ch, int *found)
     *found = 0;
     const char *why = reader_not_text(sc->rd);
     if (why && !sc->o.force) {
-        snprintf(sc->err, sizeof sc->err,
-                 "%s: not text (%s in the first 64 KiB): a binary file, UTF-16, or a compression "
-                 "sheaf does not read (it reads gzip and zstd); {force} reads it anyway",
-                 sc->shown, why);
+        message_printf(sc->err, sizeof sc->err,
+                       "%s: not text (%s in the first 64 KiB): a binary file, UTF-16, or a "
+                       "compression sheaf does not read (it reads gzip and zstd); {force} reads it "
+                       "anyway", sc->shown, why);
         return scan_fail(sc, SCAN_ERR_INPUT, NULL);
     }
     reader_cursor_start(&sc->head, ch, 0, 0);
@@ -506,10 +509,10 @@ scan_status scan_begin_at(scan_context *sc, const char *name, uint64_t from, uin
     if (!sc->name) return scan_fail(sc, SCAN_ERR_MEMORY, "out of memory");
     /* A shard does not know how many lines precede it: its messages count
      * lines and bytes from its first record, and say so. */
-    if (from) snprintf(sc->shown, sizeof sc->shown,
-                       "%s (shard; lines and bytes counted from its first record, at byte %llu)",
-                       name, (unsigned long long)from);
-    else snprintf(sc->shown, sizeof sc->shown, "%s", name);
+    if (from) message_printf(sc->shown, sizeof sc->shown,
+                             "%s (shard; lines and bytes counted from its first record, at byte "
+                             "%llu)", name, (unsigned long long)from);
+    else message_printf(sc->shown, sizeof sc->shown, "%s", name);
     reader_start(sc->rd, sc->shown, from == 0, sc->delim, 0);
     /* The first record of a file is this stream's even when it starts past
      * the range end (a byte-order mark before a tiny first range): the
@@ -545,15 +548,15 @@ static scan_status end(scan_context *sc, const summary_source *prov)
     sc->open = 0;
     if (sc->skipping) {
         sc->skipping = 0;
-        snprintf(sc->err, sizeof sc->err,
-                 "%s: ends before byte %llu, where checkpoint %s resumes (the file changed); "
-                 "start again without {resume}",
-                 sc->name, (unsigned long long)sc->skip_to, sc->o.checkpoint);
+        message_printf(sc->err, sizeof sc->err,
+                       "%s: ends before byte %llu, where checkpoint %s resumes (the file changed); "
+                       "start again without {resume}", sc->name, (unsigned long long)sc->skip_to,
+                       sc->o.checkpoint);
         return scan_fail(sc, SCAN_ERR_INPUT, NULL);
     }
     if (!sc->delim) sc->delim = reader_delim(sc->rd);
     if (sc->at_first && !sc->run) {
-        snprintf(sc->err, sizeof sc->err, "%s: no records (empty input)", sc->name);
+        message_printf(sc->err, sizeof sc->err, "%s: no records (empty input)", sc->name);
         return scan_fail(sc, SCAN_ERR_INPUT, NULL);
     }
     if (sc->header_only) return SCAN_OK;
@@ -729,9 +732,10 @@ scan_status scan_source_range(scan_context *sc, source *src, uint64_t from, uint
     /* The shard of a file of members: `from` is where its first member
      * begins in the file, and its bytes are counted decompressed (the
      * reader and the workers hold this buffer's address). */
-    if (from) snprintf(sc->shown, sizeof sc->shown,
-                       "%s (shard; lines and decompressed bytes counted from its first record, "
-                       "in the member at byte %llu)", source_path(src), (unsigned long long)from);
+    if (from) message_printf(sc->shown, sizeof sc->shown,
+                             "%s (shard; lines and decompressed bytes counted from its first "
+                             "record, in the member at byte %llu)", source_path(src),
+                             (unsigned long long)from);
     return scan_pull(sc, src, source_raw_offset(src));
 }
 

@@ -1,6 +1,7 @@
 /* scan_paths: files by path into a scan context (see scan.h): a shard
  * (scan_shard.c), or several files in turn, decompressed ahead, with
  * checkpoints. */
+#include "io/message.h"
 #include "summary/scan_context.h"
 
 #include <errno.h>
@@ -46,13 +47,13 @@ static source *open_ahead(scan_context *sc, const char *path, size_t index, char
     *nomem = !src && errno == ENOMEM;
     if (src && sc->prefix && scan_prime_source(sc, src, index) != SCAN_OK) {
         source_close(src);
-        snprintf(err, errlen, "%s", sc->err);
+        message_printf(err, errlen, "%s", sc->err);
         *nomem = sc->failed == SCAN_ERR_MEMORY;
         return NULL;
     }
     if (src && source_read_ahead(src, READ_AHEAD_CHUNKS * sc->o.chunk_bytes) != 0) {
         source_close(src);
-        snprintf(err, errlen, "%s: out of memory: the read-ahead thread", path);
+        message_printf(err, errlen, "%s: out of memory: the read-ahead thread", path);
         *nomem = 1;
         return NULL;
     }
@@ -147,10 +148,10 @@ scan_status scan_prime_source(scan_context *sc, source *src, size_t index)
     }
     if (r == SOURCE_MARK_FAILED) return scan_fail(sc, SCAN_ERR_INPUT, source_error(src));
     if (r == SOURCE_MARK_DIFFERS) {
-        snprintf(sc->err, sizeof sc->err,
-                 "%s: its first %llu raw bytes differ from those checkpoint %s was written after "
-                 "(the file changed); start again without {resume}",
-                 source_path(src), (unsigned long long)source_raw_offset(src), sc->o.checkpoint);
+        message_printf(sc->err, sizeof sc->err,
+                       "%s: its first %llu raw bytes differ from those checkpoint %s was written "
+                       "after (the file changed); start again without {resume}", source_path(src),
+                       (unsigned long long)source_raw_offset(src), sc->o.checkpoint);
         return scan_fail(sc, SCAN_ERR_INPUT, NULL);
     }
     sc->jump = 1;
@@ -274,8 +275,9 @@ static scan_status prepare_checkpoints(scan_context *sc, const char *const *path
     checkpoint c;
     checkpoint_status cs = checkpoint_read(path, &c, why, sizeof why);
     if (cs == CHECKPOINT_MISSING) {
-        snprintf(sc->err, sizeof sc->err, "%s: no checkpoint to resume from (no such file); run "
-                 "without {resume} to start from the beginning", path);
+        message_printf(sc->err, sizeof sc->err,
+                       "%s: no checkpoint to resume from (no such file); run without {resume} to "
+                       "start from the beginning", path);
         return scan_fail(sc, SCAN_ERR_USAGE, NULL);
     }
     if (cs != CHECKPOINT_OK)
@@ -283,21 +285,23 @@ static scan_status prepare_checkpoints(scan_context *sc, const char *const *path
                              : cs == CHECKPOINT_MEMORY ? SCAN_ERR_MEMORY : SCAN_ERR_INPUT, why);
     if (strcmp(c.options, sc->options_text) != 0) {
         first_difference(c.options, sc->options_text, why, sizeof why);
-        snprintf(sc->err, sizeof sc->err, "%s: written by a scan with other options (%s); "
-                 "resume with the same options, or start again without {resume}", path, why);
+        message_printf(sc->err, sizeof sc->err,
+                       "%s: written by a scan with other options (%s); resume with the same "
+                       "options, or start again without {resume}", path, why);
         return refuse(sc, SCAN_ERR_USAGE, &c);
     }
     if (c.nfiles != npaths) {
-        snprintf(sc->err, sizeof sc->err, "%s: written by a scan of %zu files, this one reads %zu; "
-                 "resume with the same files, or start again without {resume}",
-                 path, c.nfiles, npaths);
+        message_printf(sc->err, sizeof sc->err,
+                       "%s: written by a scan of %zu files, this one reads %zu; resume with the "
+                       "same files, or start again without {resume}", path, c.nfiles, npaths);
         return refuse(sc, SCAN_ERR_USAGE, &c);
     }
     for (size_t i = 0; i < npaths; i++)
         if (strcmp(c.files[i].path, paths[i]) != 0) {
-            snprintf(sc->err, sizeof sc->err, "%s: file %zu of its scan was %.1024s, here it is "
-                     "%.1024s; resume with the same files, or start again without {resume}",
-                     path, i + 1, c.files[i].path, paths[i]);
+            message_printf(sc->err, sizeof sc->err,
+                           "%s: file %zu of its scan was %.1024s, here it is %.1024s; resume with "
+                           "the same files, or start again without {resume}", path, i + 1,
+                           c.files[i].path, paths[i]);
             return refuse(sc, SCAN_ERR_USAGE, &c);
         }
     for (size_t i = 0; i <= c.file_index; i++) {
@@ -404,7 +408,7 @@ static scan_status files(const scan_options *o, const char *const *paths, size_t
         else *set = scan_finish_set(sc);
         st = sc->failed;
     }
-    if (st != SCAN_OK) snprintf(err, errlen, "%s", sc->err);
+    if (st != SCAN_OK) message_printf(err, errlen, "%s", sc->err);
     scan_free(sc);
     return st;
 }

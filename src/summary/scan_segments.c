@@ -3,6 +3,7 @@
  * the cut that finishes a segment and writes the checkpoint, the start of
  * the next, the point where a resumed scan takes over, and the jump to a
  * restart point. */
+#include "io/message.h"
 #include "summary/scan_context.h"
 
 #include <errno.h>
@@ -123,7 +124,7 @@ static void cut_work(scan_cut_job *j)
     j->c.done = NULL;
     if (cs != CHECKPOINT_OK) {
         j->failed = cs == CHECKPOINT_MEMORY ? SCAN_ERR_MEMORY : SCAN_ERR_WRITE;
-        snprintf(j->err, sizeof j->err, "%s", why);
+        message_printf(j->err, sizeof j->err, "%s", why);
     }
 }
 
@@ -257,8 +258,8 @@ scan_status scan_cut(scan_context *sc, uint64_t offset)
         c->files[i].path = (char *)sc->paths[i];
         if (i <= sc->file_index) {
             if (stat(sc->paths[i], &fs) != 0) {
-                snprintf(sc->err, sizeof sc->err, "%s: cannot stat for the checkpoint: %s",
-                         sc->paths[i], strerror(errno));
+                message_printf(sc->err, sizeof sc->err, "%s: cannot stat for the checkpoint: %s",
+                               sc->paths[i], strerror(errno));
                 return scan_fail(sc, SCAN_ERR_INPUT, NULL);
             }
             c->files[i].size_bytes = (uint64_t)fs.st_size;
@@ -322,16 +323,17 @@ scan_status scan_resume_here(scan_context *sc, const reader_chunk *ch)
 {
     sc->skipping = 0;
     if (ch->offset != sc->skip_to || XXH3_64bits_digest(sc->prefix) != sc->skip_hash) {
-        snprintf(sc->err, sizeof sc->err,
-                 "%s: its first %llu bytes differ from those checkpoint %s was written after "
-                 "(the file changed); start again without {resume}",
-                 sc->name, (unsigned long long)sc->skip_to, sc->o.checkpoint);
+        message_printf(sc->err, sizeof sc->err,
+                       "%s: its first %llu bytes differ from those checkpoint %s was written after "
+                       "(the file changed); start again without {resume}", sc->name,
+                       (unsigned long long)sc->skip_to, sc->o.checkpoint);
         return scan_fail(sc, SCAN_ERR_INPUT, NULL);
     }
     if (!sc->work) {
-        snprintf(sc->err, sizeof sc->err, "%s: no header before byte %llu, where checkpoint %s "
-                 "resumes; start again without {resume}",
-                 sc->name, (unsigned long long)sc->skip_to, sc->o.checkpoint);
+        message_printf(sc->err, sizeof sc->err,
+                       "%s: no header before byte %llu, where checkpoint %s resumes; start again "
+                       "without {resume}", sc->name, (unsigned long long)sc->skip_to,
+                       sc->o.checkpoint);
         return scan_fail(sc, SCAN_ERR_INPUT, NULL);
     }
     return scan_segment_start(sc, sc->skip_lines, sc->skip_rows);

@@ -13,6 +13,7 @@
 #include <unistd.h>
 
 #include "io/csv.h"
+#include "io/message.h"
 #include "io/shard_members.h"
 #include "io/shard_start.h"
 #include "io/source.h"
@@ -65,8 +66,8 @@ static int shard_pread(scan_context *sc, int fd, const char *path, char *buf, si
         ssize_t n = pread(fd, buf + *got, len - *got, (off_t)(off + *got));
         if (n < 0 && errno == EINTR) continue;
         if (n < 0) {
-            snprintf(sc->err, sizeof sc->err, "%s: read error at byte %llu: %s", path,
-                     (unsigned long long)(off + *got), strerror(errno));
+            message_printf(sc->err, sizeof sc->err, "%s: read error at byte %llu: %s", path,
+                           (unsigned long long)(off + *got), strerror(errno));
             return -1;
         }
         if (n == 0) break;
@@ -253,7 +254,7 @@ static scan_status shard_members_from_top(scan_context *sc, const char *path, in
     for (;;) {
         ssize_t n = source_read(top, buf, SHARD_BLOCK);
         if (n < 0) {
-            snprintf(sc->err, sizeof sc->err, "%s", source_error(top));
+            message_printf(sc->err, sizeof sc->err, "%s", source_error(top));
             source_close(top);
             return scan_fail(sc, SCAN_ERR_INPUT, NULL);
         }
@@ -285,8 +286,9 @@ static scan_status scan_shard_members(scan_context *sc, const char *path, int fd
     uint64_t lo = size * (o->shard_index - 1) / o->shard_count;
     uint64_t hi = size * o->shard_index / o->shard_count;
     if (hi == 0) {
-        snprintf(sc->err, sizeof sc->err, "%s: %u shards of a %llu-byte compressed file leave "
-                 "the first empty; use fewer", path, o->shard_count, (unsigned long long)size);
+        message_printf(sc->err, sizeof sc->err,
+                       "%s: %u shards of a %llu-byte compressed file leave the first empty; use "
+                       "fewer", path, o->shard_count, (unsigned long long)size);
         return scan_fail(sc, SCAN_ERR_USAGE, NULL);
     }
     /* The members this shard owns: [mlo, mhi), own decoded bytes. */
@@ -299,12 +301,12 @@ static scan_status scan_shard_members(scan_context *sc, const char *path, int fd
                                       sc->err, sizeof sc->err) != 0)
         return scan_fail(sc, errno == ENOMEM ? SCAN_ERR_MEMORY : SCAN_ERR_INPUT, NULL);
     if (zstd && frames == 1) {
-        snprintf(sc->err, sizeof sc->err,
-                 "%s: {shard} splits a zstd file only when it holds many frames, and this one "
-                 "is one frame: compress pieces separately and concatenate them (zstd -c "
-                 "part1 > f.zst; zstd -c part2 >> f.zst), recompress as BGZF gzip (bgzip, "
-                 "from Debian's tabix package), or split the data into several compressed "
-                 "files and scan each as a shard", path);
+        message_printf(sc->err, sizeof sc->err,
+                       "%s: {shard} splits a zstd file only when it holds many frames, and this "
+                       "one is one frame: compress pieces separately and concatenate them (zstd -c "
+                       "part1 > f.zst; zstd -c part2 >> f.zst), recompress as BGZF gzip (bgzip, "
+                       "from Debian's tabix package), or split the data into several compressed "
+                       "files and scan each as a shard", path);
         return scan_fail(sc, SCAN_ERR_USAGE, NULL);
     }
     sc->shard_start = mlo;
@@ -409,7 +411,7 @@ static scan_status scan_shard_members(scan_context *sc, const char *path, int fd
             st = scan_source_range(sc, data, mlo, own + 1 - first);
             source_close(data);
             if (st == SCAN_ERR_INPUT && source_error(inner)[0])
-                snprintf(sc->err, sizeof sc->err, "%s", source_error(inner));
+                message_printf(sc->err, sizeof sc->err, "%s", source_error(inner));
             else if (st == SCAN_ERR_INPUT && mark->shard_rule == SHARD_START_SPECULATED) {
                 size_t used = strlen(sc->err);
                 snprintf(sc->err + used, sizeof sc->err - used,
@@ -429,8 +431,9 @@ static scan_status scan_shard_members(scan_context *sc, const char *path, int fd
     size_t k = 0;
     while (k < ndelims && delims[k] != sc->delim) k++;
     if (k == ndelims) {
-        snprintf(sc->err, sizeof sc->err, "%s: the scan chose the delimiter '%c', which the "
-                 "shard did not follow; give it with the delimiter option", path, sc->delim);
+        message_printf(sc->err, sizeof sc->err,
+                       "%s: the scan chose the delimiter '%c', which the shard did not follow; "
+                       "give it with the delimiter option", path, sc->delim);
         return scan_fail(sc, SCAN_ERR_USAGE, NULL);
     }
     mark->shard_map = shard_modes_map(&modes[k]);
@@ -473,12 +476,12 @@ static scan_status scan_shard_range(scan_context *sc, const char *path, int fd, 
         return scan_shard_members(sc, path, fd, size, mtime, buf, &mark, 0);
     if (kind && kind[0] == 'z') return scan_shard_members(sc, path, fd, size, mtime, buf, &mark, 1);
     if (kind) {
-        snprintf(sc->err, sizeof sc->err,
-                 "%s: {shard} splits a compressed file only when it is written in "
-                 "independent blocks (gzip as BGZF, e.g. by bgzip from Debian's tabix package, "
-                 "or zstd of many frames); this one is gzip in one piece: recompress it as BGZF, "
-                 "or split the data into several compressed files and scan each as a shard",
-                 path);
+        message_printf(sc->err, sizeof sc->err,
+                       "%s: {shard} splits a compressed file only when it is written in "
+                       "independent blocks (gzip as BGZF, e.g. by bgzip from Debian's tabix "
+                       "package, or zstd of many frames); this one is gzip in one piece: "
+                       "recompress it as BGZF, or split the data into several compressed files and "
+                       "scan each as a shard", path);
         return scan_fail(sc, SCAN_ERR_USAGE, NULL);
     }
     uint64_t skip = csv_bom_length(buf, idlen);
@@ -620,16 +623,17 @@ scan_status scan_shard(scan_context *sc, const char *path)
 {
     struct stat st;
     if (strcmp(path, "-") != 0 && stat(path, &st) != 0) { /* as a whole scan says it */
-        snprintf(sc->err, sizeof sc->err, "%s: cannot open: %s", path, strerror(errno));
+        message_printf(sc->err, sizeof sc->err, "%s: cannot open: %s", path, strerror(errno));
         return scan_fail(sc, SCAN_ERR_INPUT, NULL);
     }
     if (strcmp(path, "-") == 0 || !S_ISREG(st.st_mode)) {
-        snprintf(sc->err, sizeof sc->err, "%s: {shard} needs a regular file (not a pipe)", path);
+        message_printf(sc->err, sizeof sc->err, "%s: {shard} needs a regular file (not a pipe)",
+                       path);
         return scan_fail(sc, SCAN_ERR_USAGE, NULL);
     }
     int fd = open(path, O_RDONLY | O_CLOEXEC);
     if (fd < 0) {
-        snprintf(sc->err, sizeof sc->err, "%s: cannot open: %s", path, strerror(errno));
+        message_printf(sc->err, sizeof sc->err, "%s: cannot open: %s", path, strerror(errno));
         return scan_fail(sc, SCAN_ERR_INPUT, NULL);
     }
     char *buf = malloc(SHARD_BLOCK > SHARD_ID_BYTES ? SHARD_BLOCK : SHARD_ID_BYTES);

@@ -1,6 +1,7 @@
 /* schema: see schema.h. */
 #include "summary/schema.h"
 #include "io/closest.h"
+#include "io/message.h"
 
 #include <stdio.h>
 #include <stdlib.h>
@@ -41,10 +42,10 @@ static int ambiguous(const char *file, const char *opt, const char *name, char *
             count++;
         }
     if (count < 2) return 0;
-    snprintf(err, errlen,
-             "%s: '%s' names %zu columns of %s's header (fields %zu and %zu%s); rename them to "
-             "tell them apart",
-             opt, name, count, file, first + 1, second + 1, count > 2 ? ", ..." : "");
+    message_printf(err, errlen,
+                   "%s: '%s' names %zu columns of %s's header (fields %zu and %zu%s); rename them "
+                   "to tell them apart", opt, name, count, file, first + 1, second + 1,
+                   count > 2 ? ", ..." : "");
     return -1;
 }
 
@@ -66,7 +67,7 @@ static int check_names(const char *file, const char *opt, char **items, int n, c
         size_t k = 0;
         while (k < nnames && strcmp(names[k], items[i]) != 0) k++;
         if (k == nnames) {
-            snprintf(err, errlen, "%s: no column named '%s' in the header", opt, items[i]);
+            message_printf(err, errlen, "%s: no column named '%s' in the header", opt, items[i]);
             suggest(items[i], names, nnames, err, errlen);
             return -1;
         }
@@ -116,9 +117,9 @@ static int warn_duplicates(const scan_options *o, const char *shown, char **name
     free(nf);
     if (groups) {
         char line[4352 + sizeof msg + 96];
-        snprintf(line, sizeof line,
-                 "%s: duplicate column name%s in the header: %s; options cannot name %s",
-                 shown, groups > 1 ? "s" : "", msg, groups > 1 ? "them" : "it");
+        message_printf(line, sizeof line,
+                       "%s: duplicate column name%s in the header: %s; options cannot name %s",
+                       shown, groups > 1 ? "s" : "", msg, groups > 1 ? "them" : "it");
         o->warn(o->warn_ctx, line);
     }
     return 0;
@@ -143,10 +144,9 @@ scan_status schema_plan_make(const scan_options *o, const char *file, const char
     if (nnames == 1 && o->warn) {
         /* A file of one column is rare; one whose delimiter was not found is not. */
         char line[4352 + 160];
-        snprintf(line, sizeof line,
-                 "%s: one column only ('%.60s'); if another character separates the fields, "
-                 "give it with {delim}",
-                 shown, names[0]);
+        message_printf(line, sizeof line,
+                       "%s: one column only ('%.60s'); if another character separates the fields, "
+                       "give it with {delim}", shown, names[0]);
         o->warn(o->warn_ctx, line);
     }
     if (warn_duplicates(o, shown, names, nnames) != 0) {

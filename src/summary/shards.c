@@ -5,6 +5,7 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "io/message.h"
 #include "io/shard_start.h"
 
 const char *summary_shard_rule_name(uint8_t rule)
@@ -107,11 +108,10 @@ int summary_shards_check(const summary *s, shard_check *out, shard_verdict *verd
              * shard to rescan. */
             if (wrong++ == 0) {
                 name_shard(a, sizeof a, x);
-                snprintf(msg, msglen,
-                         "%s guessed its first record from the bytes near its start, and the "
-                         "shards before it show the guess was wrong; rescan it with "
-                         "{shard_from_top}",
-                         a);
+                message_printf(msg, msglen,
+                               "%s guessed its first record from the bytes near its start, and the "
+                               "shards before it show the guess was wrong; rescan it with "
+                               "{shard_from_top}", a);
                 *bad = ix[k];
                 rc = -1;
             } else {
@@ -158,11 +158,13 @@ size_t summary_shards_incomplete(const summary *s, char *msg, size_t msglen)
         if (!first || (have >= x->shard_count && !other_version)) continue;
         if (bad++ == 0) {
             if (other_version)
-                snprintf(msg, msglen, "%s: shards of two versions of the file (they differ in "
-                         "size or first bytes)", x->path);
+                message_printf(msg, msglen,
+                               "%s: shards of two versions of the file (they differ in size or "
+                               "first bytes)", x->path);
             else
-                snprintf(msg, msglen, "%s: %zu of its %u shards (the rest of the file is not "
-                         "counted)", x->path, have, x->shard_count);
+                message_printf(msg, msglen,
+                               "%s: %zu of its %u shards (the rest of the file is not counted)",
+                               x->path, have, x->shard_count);
         }
     }
     return bad;

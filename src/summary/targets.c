@@ -19,6 +19,7 @@
  * whose cells are renumbered ends blocks where another does not, and block
  * sums round differently (docs/methods.md).
  */
+#include "io/message.h"
 #include "summary/column.h"
 #include "summary/format.h"
 #include "summary/summary.h"
@@ -197,7 +198,8 @@ static summary_status set_write(const set_job *job, const char *path, char *err,
     if (set->n == 1) return summary_write_through(path, write_one_part, job, err, errlen);
     for (size_t i = 0; i < set->n; i++)
         if (!set->parts[i] || !set->parts[i]->opt.target) {
-            snprintf(err, errlen, "%s: a set of several summaries needs a target in each", path);
+            message_printf(err, errlen, "%s: a set of several summaries needs a target in each",
+                           path);
             return SUMMARY_ERR_INCOMPATIBLE;
         }
     return summary_write_through(path, write_set, job, err, errlen);
@@ -395,7 +397,7 @@ summary_status summary_set_decode(const uint8_t *data, size_t len, summary_set *
         char inner[400];
         st = summary_decode(p, plen, &set->parts[k], inner, sizeof inner);
         if (st == SUMMARY_ERR_TARGETS) st = SUMMARY_ERR_CORRUPT; /* nested */
-        if (st == SUMMARY_ERR_MEMORY) snprintf(err, errlen, "%s", inner);
+        if (st == SUMMARY_ERR_MEMORY) message_printf(err, errlen, "%s", inner);
         else if (st != SUMMARY_OK)
             damaged(err, errlen, "target %u '%.*s': %s", k + 1,
                     (int)(name_len[k] < 80 ? name_len[k] : 80), names[k], inner);
@@ -431,7 +433,7 @@ summary_status summary_set_read(const char *path, summary_set **out, char *err, 
     rc = summary_set_decode(map ? map : (const void *)"", len, out, inner, sizeof inner);
     if (map) munmap(map, len);
     if (rc != SUMMARY_OK)
-        snprintf(err, errlen, "%s: %s", strcmp(path, "-") ? path : "standard input", inner);
+        message_printf(err, errlen, "%s: %s", strcmp(path, "-") ? path : "standard input", inner);
     return rc;
 }
 
@@ -447,12 +449,12 @@ summary_status summary_read_target(const char *path, const char *target, summary
         char names[512];
         summary_set_names(set, names, sizeof names);
         if (!target)
-            snprintf(err, errlen,
-                     "%s: a summary of %zu targets (%s): choose one with {read_target}", path,
-                     set->n, names);
+            message_printf(err, errlen,
+                           "%s: a summary of %zu targets (%s): choose one with {read_target}", path,
+                           set->n, names);
         else
-            snprintf(err, errlen, "%s: no target '%s' (it holds %s)", path, target,
-                     set->n == 1 && !set->parts[0]->opt.target ? "none" : names);
+            message_printf(err, errlen, "%s: no target '%s' (it holds %s)", path, target,
+                           set->n == 1 && !set->parts[0]->opt.target ? "none" : names);
         summary_set_free(set);
         return SUMMARY_ERR_TARGETS;
     }

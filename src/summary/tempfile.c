@@ -17,6 +17,8 @@
 #include <time.h>
 #include <unistd.h>
 
+#include "io/message.h"
+
 #define SUFFIX_LETTERS 6
 #define ATTEMPTS 100
 #define MAX_LINKS 40 /* as the kernel's own limit on links followed in a path */
@@ -235,7 +237,7 @@ static int fail(tempfile *t, char *err, size_t errlen, const char *path, const c
 {
     int saved = errno;
     if (saved == ENOMEM) snprintf(err, errlen, "out of memory");
-    else snprintf(err, errlen, "%s: %s: %s", path, what, strerror(saved));
+    else message_printf(err, errlen, "%s: %s: %s", path, what, strerror(saved));
     free(t->path);
     free(t->tmp_path);
     t->path = t->tmp_path = NULL;
@@ -350,9 +352,9 @@ int tempfile_open(tempfile *t, const char *path, int flags, char *err, size_t er
             return fail(t, err, errlen, path, "cannot write");
         }
         if (!S_ISCHR(st.st_mode) && !S_ISFIFO(st.st_mode)) {
-            snprintf(err, errlen,
-                     "%s: not a regular file, a character device or a FIFO; refusing to write to it",
-                     path);
+            message_printf(err, errlen,
+                           "%s: not a regular file, a character device or a FIFO; refusing to "
+                           "write to it", path);
             errno = EINVAL;
             return -1;
         }
@@ -556,7 +558,7 @@ int tempfile_commit(tempfile *t, char *err, size_t errlen)
     }
     if (rc != 0) {
         int saved = errno;
-        snprintf(err, errlen, "%s: cannot write: %s", t->path, strerror(saved ? saved : EIO));
+        message_printf(err, errlen, "%s: cannot write: %s", t->path, strerror(saved ? saved : EIO));
         release(t);
         errno = saved;
         return -1;

@@ -12,7 +12,9 @@
 #     name, in trim and project alike);
 #  6. input that is not text (random bytes, NUL bytes) stops the scan with
 #     exit 3 unless --force; real CSV (tabs, CRLF, Latin-1, a UTF-8 BOM,
-#     UTF-8 text) passes.
+#     UTF-8 text) passes;
+#  7. a message about a file under a long path (1,500 bytes and more) keeps its
+#     reason: the path is cut in its middle, not the message at its end.
 # Expected counts are worked by hand from the inputs this script writes (the
 # outside reference: the inputs' own construction, counted with wc/grep).
 set -u
@@ -307,3 +309,32 @@ check files.other_delimiter_named "exit $RC: $(err_text)" [ "$RC" -eq 3 ] &&
         grep -q "every file is read with the first one's delimiter, ','" "$T/err"
 run "$SHEAF" scan "$T/piece1.csv" "$T/piece2.tsv" -q -d , -o "$T/pieces.sheaf"
 check files.other_delimiter_still_refused_with_d "exit $RC" [ "$RC" -eq 3 ]
+
+# ---- 7. long paths keep the reason -------------------------------------------
+deep="$T/$(printf 'd%.0s' $(seq 1 250))"
+for _ in 1 2 3 4 5; do deep="$deep/$(printf 'e%.0s' $(seq 1 250))"; done
+if mkdir -p "$deep" 2>/dev/null; then
+    printf 'a,b\n1,"open\n' >"$deep/quote.csv"
+    printf 'a,b\n1,2\n' >"$deep/plain.csv"
+    long_reason() { # NAME EXIT PATTERN: one line, the exit, the reason at its end
+        local lines want=$2 reason=$3
+        lines=$(wc -l <"$T/err")
+        check "long_path.$1" "exit $RC, $lines lines: $(tail -c 200 "$T/err")" \
+            holds '[ "$RC" = "$want" ] && [ "$lines" = 1 ] && grep -q "$reason" "$T/err" &&
+                   grep -q "^sheaf [a-z]*: $T/d" "$T/err" && grep -q " \.\.\. " "$T/err"'
+    }
+    run "$SHEAF" scan "$deep/missing.csv" -o "$T/l.sheaf"
+    long_reason scan_missing 3 'missing.csv: cannot open: No such file or directory$'
+    for j in 1 2; do
+        run "$SHEAF" scan "$deep/quote.csv" -o "$T/l.sheaf" -j$j
+        long_reason "unterminated_quote_j$j" 3 'quote.csv: line 2: unterminated quote (a quoted field runs to the end of the input)$'
+    done
+    check long_path.no_summary_left "$(ls "$T"/l.sheaf 2>&1)" [ ! -e "$T/l.sheaf" ]
+    run "$SHEAF" info "$deep/plain.csv"
+    long_reason info_not_a_summary 4 'plain.csv: not a sheaf summary'
+    printf "a\n" >"$T/keep_a.txt"
+    run "$SHEAF" trim "$deep/missing.csv" --columns-from "$T/keep_a.txt" -o "$T/l.csv"
+    long_reason trim_missing 3 'missing.csv: cannot open: No such file or directory$'
+else
+    skip long_path "cannot make a 1,500-byte path under $T"
+fi

@@ -131,11 +131,12 @@ cells=$(grep -c 'class="cell"' "$T/w130.html")
 check wide.130_columns_show_100 "$cells cells" [ "$cells" = 10000 ]
 check wide.note_names_the_cut "no note" grep -q '100 of 130 numeric columns shown: the most relevant' "$T/w130.html"
 
-# ---- a summary of several targets: the first without --target, the named one with it ----
+# ---- a summary of several targets: --target is needed (as in screen: the ----
+# relevance and class charts depend on it; the page took the first without a word)
 "$SHEAF" scan "$DATA/penguins.csv" --target species,sex -o "$T/two.sheaf" -q
 run "$SHEAF" page "$T/two.sheaf" -o "$T/two-first.html"
-check targets.first_without_target "exit $RC: $(err_text)" [ "$RC" = 0 ] &&
-    grep -q 'target species' "$T/two-first.html"
+check targets.refused_without_target "exit $RC: $(err_text)" \
+    holds '[ "$RC" = 2 ] && grep -q "holds 2 targets (species, sex): choose one with --target" "$T/err" && [ ! -e "$T/two-first.html" ]'
 run "$SHEAF" page "$T/two.sheaf" -t sex -o "$T/two-sex.html"
 check targets.named_with_target "exit $RC: $(err_text)" holds '[ "$RC" = 0 ] && grep -q "target sex" "$T/two-sex.html"'
 run "$SHEAF" page "$T/two.sheaf" -t island -o "$T/two-x.html"
@@ -264,3 +265,10 @@ check page_audit.dangling_chart_folder_says_so "exit $RC: $(err_text)" \
 "$SHEAF" page "$T/miss.sheaf" -o "$T/miss.html"
 check page_audit.every_spelling_listed "$(grep -o 'missing-spelling-[0-9]*' "$T/miss.html" | wc -l) of 30" \
     [ "$(grep -o 'missing-spelling-[0-9]*' "$T/miss.html" | wc -l)" = 30 ]
+# Without -o, --write-svg writes the charts alone (the usage line says so).
+run "$SHEAF" page "$T/iris.sheaf" --write-svg "$T/charts_only"
+check charts_without_page "exit $RC: $(ls "$T/charts_only" | tr '\n' ' ')" \
+    holds '[ "$RC" = 0 ] && [ -s "$T/charts_only/relevance.svg" ] && ! ls "$T"/charts_only/*.html >/dev/null 2>&1'
+run "$SHEAF" page --help
+check usage_names_either_output "$(head -n 1 "$T/out")" \
+    grep -q '^usage: sheaf page SUMMARY.sheaf (-o REPORT.html | --write-svg DIR)' "$T/out"

@@ -166,6 +166,26 @@ done
 run "$SHEAF" info "$T/s.sheaf" --json=yes
 check renamed.old_flag_refuses_a_value "exit $RC: $(err_text)" \
     [ "$RC" = 2 -a "$(cat "$T/err")" = "sheaf info: --json takes no value" ]
+# An old spelling without its value: one line, naming both spellings.
+run "$SHEAF" info "$T/s.sheaf" --top
+check renamed.old_option_without_value_one_line "exit $RC: $(err_text)" \
+    [ "$RC" = 2 -a "$(cat "$T/err")" = "sheaf info: --top (renamed --top-values) needs a value (N)" ]
+# --help takes no value, in every command (it was 'unknown option --help').
+for cmd in $COMMANDS; do
+    run "$SHEAF" "$cmd" --help=yes
+    check "help.$cmd.takes_no_value" "exit $RC: $(err_text)" \
+        [ "$RC" = 2 -a "$(cat "$T/err")" = "sheaf $cmd: --help takes no value" ]
+done
+# A list of column names (A,B,..) with an empty name is refused by every
+# command alike: scan read '' as every column, corr as none, pca refused it.
+for c in "scan $T/d.csv --columns= -o $T/x.sheaf" "scan $T/d.csv --exclude ,a -o $T/x.sheaf" \
+         "pca $T/s.sheaf --columns=" "corr $T/s.sheaf --columns a," \
+         "project $T/d.csv --summary $T/s.sheaf --carry a,,b" "trim $T/d.csv --summary $T/s.sheaf --carry="; do
+    set -- $c
+    run "$SHEAF" "$@"
+    check "lists.empty_name_refused.$1.$(echo "$c" | grep -o -- '--[a-z]*[= ][^ ]*' | tail -n 1 | tr -c 'a-z\n' _)" \
+        "exit $RC: $(err_text)" holds '[ "$RC" = 2 ] && grep -q "an empty name in" "$T/err" && [ ! -e "$T/x.sheaf" ]'
+done
 # Every renaming a --help lists has a case above, and every case is listed.
 listed=0
 for cmd in $COMMANDS; do
