@@ -167,13 +167,34 @@ static int make_slots(void *ctx, unsigned nslots)
     return t->slots ? 0 : TRIM_ERR_MEMORY;
 }
 
+/* Writes the text of raw field f (n bytes: quoted or not, csv_unquote's
+ * reading) as one quoted field at d; returns the end.  At most 2n + 2 bytes. */
+static char *quoted_text(char *d, const char *f, size_t n)
+{
+    char *text = d + n + 2; /* past what the quoted form can reach before its text */
+    size_t len = csv_unquote(f, n, text); /* the output never overtakes it */
+    *d++ = '"';
+    for (size_t k = 0; k < len; k++) {
+        char c = text[k];
+        if (c == '"') *d++ = '"';
+        *d++ = c;
+    }
+    *d++ = '"';
+    return d;
+}
+
 /* Worker: one record's kept fields into the slot's buffer. */
 static int row(void *ctx, unsigned slot, size_t file, const reader_record *rec, int first_of_file)
 {
     trimmer *t = ctx;
     trim_slot *s = &t->slots[slot];
-    /* The kept fields are bytes of the record: its length bounds theirs. */
-    size_t need = (size_t)(rec->end - rec->offset) + t->nfields + 8;
+    /* The kept fields are bytes of the record: its length bounds theirs (the
+     * last one may be written quoted: twice its bytes and two quotes). */
+    size_t last = t->nfields;
+    while (last > 0 && !t->pick[last - 1]) last--;
+    last--; /* the last kept field (none: never matched below) */
+    size_t last_len = last < rec->nfields ? rec->fields[last].len : 0;
+    size_t need = (size_t)(rec->end - rec->offset) + t->nfields + 8 + last_len + 2;
     if (s->len + need > s->cap) {
         size_t cap = s->cap ? s->cap : 1u << 16;
         while (cap < s->len + need) cap *= 2;
@@ -195,10 +216,19 @@ static int row(void *ctx, unsigned slot, size_t file, const reader_record *rec, 
         if (!t->pick[i]) continue;
         if (!lead) *d++ = t->delim;
         lead = 0;
-        if (i < rec->nfields && rec->fields[i].len) {
-            memcpy(d, rec->fields[i].ptr, rec->fields[i].len);
-            d += rec->fields[i].len;
+        if (i >= rec->nfields || !rec->fields[i].len) continue;
+        const char *f = rec->fields[i].ptr;
+        size_t n = rec->fields[i].len;
+        if (i == last && f[n - 1] == '\r') {
+            /* A CR ending the row's last field is text where a delimiter
+             * followed it, but a line end where the line end follows: the
+             * field is written quoted (its text, quotes doubled), so that it
+             * reads back as it was (its bytes kept, 'x\r' read as 'x'). */
+            d = quoted_text(d, f, n);
+            continue;
         }
+        memcpy(d, f, n);
+        d += n;
     }
     /* A row whose kept cells are one empty cell would be a blank line, which
      * every reader skips: write it as an empty quoted field. */
@@ -206,7 +236,10 @@ static int row(void *ctx, unsigned slot, size_t file, const reader_record *rec, 
     /* The input's own line end; none after a last record without one. */
     memcpy(d, rec->eol, rec->eol_len);
     d += rec->eol_len;
-    s->unterminated = rec->eol_len == 0;
+    /* A last record ends at the input's end, bare or with a lone CR (a line
+     * end there): a row that follows needs a LF first (after "\r", the two
+     * make "\r\n"), or it would be joined to this one. */
+    s->unterminated = rec->eol_len == 0 || rec->eol[rec->eol_len - 1] != '\n';
     s->rows++;
     s->len = (size_t)(d - s->buf);
     return 0;

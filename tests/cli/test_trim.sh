@@ -423,3 +423,55 @@ printf 'col1\n' >"$T/hq_keep1.txt"
 "$SHEAF" trim -q --no-header "$T/hq_bom.csv" --columns-from "$T/hq_keep1.txt" -o "$T/hq_bom.out" 2>"$T/err"
 check trim.no_header_keeps_bom "$(od -c "$T/hq_bom.out" | head -2)" \
     holds '[ "$(od -An -tx1 "$T/hq_bom.out" | tr -d " \n")" = "efbbbf780a7a0a" ]'
+# ---- a CR ending the last kept field (quote audit) ------------------------------
+# A CR followed by a delimiter is text ('x\r'); written last before the line
+# end it became part of the line end ('x'), and a field of CR alone a blank
+# line (the row lost).  The field is now written quoted.  And a file ending in
+# a lone CR (a line end there) had the next file's first row joined to it.
+printf 'a\n' >"$T/keep_a"
+printf 'a\nb\n' >"$T/keep_ab"
+printf 'a,b,c\nx\r,1,p\ny,2,q\n' >"$T/cr.csv"
+printf 'a\n"x\r"\ny\n' >"$T/cr.want"
+run "$SHEAF" trim "$T/cr.csv" --columns-from "$T/keep_a" -o "$T/cr.out"
+check cr.last_field_kept "exit $RC: $(od -c "$T/cr.out" | head -n 2 | tr '\n' ' ')" cmp -s "$T/cr.out" "$T/cr.want"
+printf 'a,b\n\r,1\nx,2\n' >"$T/crlost.csv"
+printf 'a\n"\r"\nx\n' >"$T/crlost.want"
+run "$SHEAF" trim "$T/crlost.csv" --columns-from "$T/keep_a" -o "$T/crlost.out"
+check cr.lone_cr_field_keeps_its_row "exit $RC: $(od -c "$T/crlost.out" | head -n 2 | tr '\n' ' ')" \
+    cmp -s "$T/crlost.out" "$T/crlost.want"
+printf 'a,b\n1,2\r' >"$T/f1.csv"
+printf 'a,b\n3,4\n' >"$T/f2.csv"
+printf 'a,b\n1,2\r\n3,4\n' >"$T/f12.want"
+for j in 1 2; do
+    run "$SHEAF" trim "$T/f1.csv" "$T/f2.csv" --columns-from "$T/keep_ab" -o "$T/f12.out" -j$j
+    check "cr.file_ending_in_cr_not_joined_j$j" "exit $RC: $(od -c "$T/f12.out" | head -n 2 | tr '\n' ' ')" \
+        cmp -s "$T/f12.out" "$T/f12.want"
+done
+# The same texts as the input, read back by Python's csv module (RFC 4180)
+# against the input read by sheaf's rule (a CR before the line end is the line end).
+"$PY" - "$T" <<'PY' >"$T/cr_mix.csv"
+import random, sys
+random.seed(11)
+print("id,a,b", end="\n")
+for i in range(400):
+    a = random.choice(["x\r", "\r", "plain", ""])  # (a CR inside is no RFC 4180 text)
+    b = random.choice(["1", "2\r", "z"])
+    print("%d,%s,%s" % (i, a, b), end=random.choice(["\n", "\r\n"]))
+PY
+printf 'id\na\n' >"$T/keep_ida"
+run "$SHEAF" trim "$T/cr_mix.csv" --columns-from "$T/keep_ida" -o "$T/cr_mix.out"
+check cr.texts_read_back "exit $RC" holds '"$PY" - "$T" <<"PY"
+import csv, sys
+t = sys.argv[1]
+raw = open(t + "/cr_mix.csv", newline="").read()
+want = []
+for line in raw.split("\n")[1:]:
+    if not line:
+        continue
+    if line.endswith("\r"):
+        line = line[:-1]
+    f = line.split(",")
+    want.append([f[0], f[1]])
+got = list(csv.reader(open(t + "/cr_mix.out", newline="")))[1:]
+sys.exit(0 if got == want else 1)
+PY'
