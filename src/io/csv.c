@@ -568,23 +568,6 @@ csv_status csv_next_raw(csv_reader *r, csv_record *rec, const char **eol, size_t
     return CSV_RECORD;
 }
 
-size_t csv_unquote(const char *raw, size_t len, char *out)
-{
-    if (len == 0 || raw[0] != '"') {
-        memcpy(out, raw, len);
-        return len;
-    }
-    size_t i = 1, o = 0;
-    while (i < len) {
-        if (raw[i] != '"') { out[o++] = raw[i++]; continue; }
-        if (i + 1 < len && raw[i + 1] == '"') { out[o++] = '"'; i += 2; continue; }
-        i++; /* the closing quote: the rest is kept as it is */
-        memcpy(out + o, raw + i, len - i);
-        return o + (len - i);
-    }
-    return o;
-}
-
 void csv_quote_init(csv_quote_state *q, char delim)
 {
     q->mode = CSV_AT_FIELD;

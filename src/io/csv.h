@@ -135,6 +135,17 @@ csv_status csv_next_raw(csv_reader *r, csv_record *rec, const char **eol, size_t
  * quote kept.  out needs len bytes; returns the text's length. */
 size_t csv_unquote(const char *raw, size_t len, char *out);
 
+/* 1 when the record at p (bytes to end) holds the same field texts
+ * (csv_unquote's) as the record head[0..head_len) (one record, its line end
+ * excluded), field for field, and ends there: at a LF, a CR LF or end.  0
+ * otherwise, or when a quote in either does not close.  So '"id","x"'
+ * repeats 'id,x', as a later file's header does.  mark: the bytes of a
+ * byte-order mark at p (0: none), which the tokenizer reads as text inside a
+ * stream: p's first field then runs to the delimiter or the line end, quoted
+ * or not, and its text is taken without the mark. */
+int csv_same_record(const char *head, size_t head_len, const char *p, const char *end,
+                    char delim, size_t mark);
+
 /* The quote rule's state between two calls of csv_quote_scan. */
 typedef enum {
     CSV_AT_FIELD = 0,  /* at the first byte of a field (or of a record) */

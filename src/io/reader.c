@@ -480,18 +480,15 @@ size_t reader_bom_length(const reader *r) { return r->bom; }
 const char *reader_not_text(const reader *r) { return r->not_text; }
 
 size_t reader_repeated_headers(const reader_chunk *ch, const char *head, size_t head_len,
-                               uint64_t *out, size_t max)
+                               char delim, uint64_t *out, size_t max)
 {
     size_t n = 0;
     for (size_t i = 0; i < ch->nstarts && n < max; i++) {
         size_t at = (size_t)(ch->starts[i] - ch->offset);
         if (at < ch->skip || (at > 0 && ch->data[at - 1] != '\n')) continue;
         const char *p = ch->data + at, *end = ch->data + ch->len;
-        p += csv_bom_length(p, (size_t)(end - p));
-        if ((size_t)(end - p) < head_len || memcmp(p, head, head_len) != 0) continue;
-        p += head_len;
-        if (p == end || *p == '\n' || (*p == '\r' && p + 1 < end && p[1] == '\n'))
-            out[n++] = ch->starts[i];
+        size_t bom = csv_bom_length(p, (size_t)(end - p));
+        if (csv_same_record(head, head_len, p, end, delim, bom)) out[n++] = ch->starts[i];
     }
     return n;
 }

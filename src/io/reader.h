@@ -224,14 +224,17 @@ size_t reader_column_name(const csv_field *f, size_t i, int header, int raw, cha
 /* The records of a chunk that repeat the header of their file where one
  * compressed member or frame ends and the next begins (`cat a.csv.gz
  * b.csv.gz`): at each of ch->starts that begins a line, an optional UTF-8
- * byte-order mark, then exactly the header's bytes head[0..head_len) (its
- * line end excluded), then a line end or the chunk's end.  Writes their
+ * byte-order mark, then a record of the same field texts as the header
+ * head[0..head_len) (its line end excluded; compared unquoted, as a later
+ * file's header is: csv_same_record), then a line end or the chunk's end;
+ * after a mark, the record as the tokenizer reads it (the mark is text
+ * there, so a quote after it opens nothing), less the mark.  Writes their
  * stream offsets (where the record starts) to out, at most max, ascending,
  * and returns how many.  A start inside a quoted field can match only if
  * that field's text repeats the header line; a pass skips a record only
  * when one starts at such an offset, so it never skips part of a record. */
 size_t reader_repeated_headers(const reader_chunk *ch, const char *head, size_t head_len,
-                               uint64_t *out, size_t max);
+                               char delim, uint64_t *out, size_t max);
 
 /* ---- the missing-cell test ---------------------------------------------- */
 

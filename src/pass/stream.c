@@ -203,7 +203,8 @@ static int stream_file(run *r, size_t file)
                     rep->at = p;
                     rep->cap = ch.nstarts;
                 }
-                rep->n = reader_repeated_headers(&ch, r->head, r->head_len, rep->at, rep->cap);
+                rep->n = reader_repeated_headers(&ch, r->head, r->head_len, reader_delim(r->rd),
+                                                 rep->at, rep->cap);
             }
             rc = outcome(r, pipeline_push(r->p, &ch, tag | (uint64_t)e << TAG_RING_SHIFT, r->rd));
             tag = (uint64_t)file << TAG_SHIFT;

@@ -96,19 +96,17 @@ static scan_status within_limit(scan_context *sc, int before_rows)
     show_bytes((double)(now - sc->rss_base), held, sizeof held);
     show_bytes((double)sc->o.mem_limit_bytes, limit, sizeof limit);
     if (before_rows)
-        message_printf(sc->err, sizeof sc->err,
-                       "%s: the scan holds %s at its first record (the accumulators of %zu "
-                       "columns, with %u target classes at most, and the chunk that holds the "
-                       "record: a long one is bounded by {max_record}), above the %s memory limit "
-                       "({mem_limit})", sc->name ? sc->name : "input", held,
+        message_printf(sc->err, sizeof sc->err, "%s: the scan holds %s at its first record (the "
+                       "accumulators of %zu columns, with %u target classes at most, and the chunk "
+                       "that holds the record: a long one is bounded by {max_record}), above the "
+                       "%s memory limit ({mem_limit})", sc->name ? sc->name : "input", held,
                        sc->run ? sc->run->ncols : (size_t)0,
                        sc->run && sc->run->target >= 0 ? sc->o.opt.max_classes : 0, limit);
     else
-        message_printf(sc->err, sizeof sc->err,
-                       "%s: byte %llu: the scan holds %s (its accumulators, chunk buffers and "
-                       "co-moments), above the %s memory limit ({mem_limit})",
-                       sc->name ? sc->name : "input", (unsigned long long)sc->pushed_bytes, held,
-                       limit);
+        message_printf(sc->err, sizeof sc->err, "%s: byte %llu: the scan holds %s (its "
+                       "accumulators, chunk buffers and co-moments), above the %s memory limit "
+                       "({mem_limit})", sc->name ? sc->name : "input",
+                       (unsigned long long)sc->pushed_bytes, held, limit);
     return scan_fail(sc, SCAN_ERR_MEMORY, NULL);
 }
 
@@ -295,10 +293,10 @@ static scan_status first_record(scan_context *sc, const csv_field *f, size_t nf)
                 free(name);
                 char d[8];
                 snprintf(d, sizeof d, sc->delim == '\t' ? "tab" : "'%c'", sc->delim);
-                message_printf(sc->err, sizeof sc->err,
-                               "%s: header differs from %s's (%zu vs %zu fields; first difference "
-                               "at field %zu; every file is read with the first one's delimiter, "
-                               "%s)", sc->shown, sc->first_path, nf, sc->file_fields, i + 1, d);
+                message_printf(sc->err, sizeof sc->err, "%s: header differs from %s's (%zu vs "
+                               "%zu fields; first difference at field %zu; every file is read with "
+                               "the first one's delimiter, %s)", sc->shown, sc->first_path, nf,
+                               sc->file_fields, i + 1, d);
                 return scan_fail(sc, SCAN_ERR_INPUT, NULL);
             }
         }
@@ -317,10 +315,9 @@ static scan_status first_record(scan_context *sc, const csv_field *f, size_t nf)
     }
     for (size_t i = 0; i < nf; i++) /* the file format's limit: a summary must read back */
         if (strlen(names[i]) > MAX_NAME_BYTES) {
-            message_printf(sc->err, sizeof sc->err,
-                           "%s: header field %zu is %zu bytes long; a column name holds at most %d "
-                           "(is the first line a header?)", sc->name, i + 1, strlen(names[i]),
-                           MAX_NAME_BYTES);
+            message_printf(sc->err, sizeof sc->err, "%s: header field %zu is %zu bytes long; a "
+                           "column name holds at most %d (is the first line a header?)", sc->name,
+                           i + 1, strlen(names[i]), MAX_NAME_BYTES);
             for (size_t k = 0; k < nf; k++) free(names[k]);
             free(names);
             return scan_fail(sc, SCAN_ERR_INPUT, NULL);
@@ -488,8 +485,8 @@ static scan_status drain(scan_context *sc)
                 sc->repeats = p;
                 sc->repeats_cap = ch.nstarts;
             }
-            nrep = reader_repeated_headers(&ch, sc->head_line, sc->head_len, sc->repeats,
-                                           sc->repeats_cap);
+            nrep = reader_repeated_headers(&ch, sc->head_line, sc->head_len,
+                                           reader_delim(sc->rd), sc->repeats, sc->repeats_cap);
         }
         scan_status st = chunks_push(sc->work, &ch, first, sc->repeats, nrep, sc->rd);
         if (st != SCAN_OK) return scan_worked(sc, st);
@@ -548,10 +545,9 @@ static scan_status end(scan_context *sc, const summary_source *prov)
     sc->open = 0;
     if (sc->skipping) {
         sc->skipping = 0;
-        message_printf(sc->err, sizeof sc->err,
-                       "%s: ends before byte %llu, where checkpoint %s resumes (the file changed); "
-                       "start again without {resume}", sc->name, (unsigned long long)sc->skip_to,
-                       sc->o.checkpoint);
+        message_printf(sc->err, sizeof sc->err, "%s: ends before byte %llu, where checkpoint %s "
+                       "resumes (the file changed); start again without {resume}", sc->name,
+                       (unsigned long long)sc->skip_to, sc->o.checkpoint);
         return scan_fail(sc, SCAN_ERR_INPUT, NULL);
     }
     if (!sc->delim) sc->delim = reader_delim(sc->rd);

@@ -338,3 +338,22 @@ if mkdir -p "$deep" 2>/dev/null; then
 else
     skip long_path "cannot make a 1,500-byte path under $T"
 fi
+
+# ---- 8. a repeated header is told by its names, quoted or not (quote audit) ----
+# A later file's header was compared unquoted, a member's byte for byte, so
+# '"id","x"' after 'id,x' in a later gzip member was counted as a data row.
+printf 'id,x\n1,2\n' | gzip -c >"$T/q1.gz"
+for h in '"id","x"' 'id,"x"' '\xef\xbb\xbf"id","x"' '\xef\xbb\xbfid,x'; do
+    printf "$h\n3,4\n" | gzip -c >"$T/q2.gz"
+    cat "$T/q1.gz" "$T/q2.gz" >"$T/qq.csv.gz"
+    for j in 1 2; do
+        "$SHEAF" scan -q "$T/qq.csv.gz" -o "$T/qq.sheaf" -j$j
+        "$SHEAF" info "$T/qq.sheaf" -f json >"$T/qq.json"
+        check "quoted_member_header.$(printf '%s' "$h" | tr -c 'a-z' _).j$j" \
+            "rows $(json_field "$T/qq.json" rows), repeated $(json_field "$T/qq.json" repeated_headers)" \
+            [ "$(json_field "$T/qq.json" rows)" = 2 -a "$(json_field "$T/qq.json" repeated_headers)" = 1 ]
+    done
+done
+printf 'x\n' >"$T/keep_x"
+run "$SHEAF" trim "$T/qq.csv.gz" --columns-from "$T/keep_x"
+check quoted_member_header.trim_skips_it "$(tr '\n' ' ' <"$T/out")" [ "$(tr '\n' ' ' <"$T/out")" = "x 2 4 " ]
