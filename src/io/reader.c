@@ -448,8 +448,9 @@ void reader_cursor_message(const reader_cursor *c, const char *name, uint64_t li
                        "%s: line %llu: unterminated quote (a quoted field runs to the end of the "
                        "input)", name, line);
         break;
-    case READER_FAULT_NOMEM: message_printf(buf, len, "%s: line %llu: out of memory", name,
-                                            line); break;
+    case READER_FAULT_NOMEM:
+        message_printf(buf, len, "%s: line %llu: out of memory", name, line);
+        break;
     case READER_FAULT_TOO_LONG:
         message_printf(buf, len,
                        "%s: line %llu: record at byte %llu is longer than the %zu-byte limit (the "
