@@ -429,7 +429,7 @@ Test(comoment, serialization_round_trip_is_byte_identical)
     cr_assert_eq(w1.len, 8 + 4 * 8 * t.p * t.p);
     wire_reader r;
     wire_reader_init(&r, w1.data, w1.len);
-    comoment *d = comoment_read(&r, 32);
+    comoment *d = comoment_read(&r, 32, 1);
     cr_assert_not_null(d);
     cr_assert(!r.failed);
     cr_assert_eq(r.pos, w1.len);
@@ -471,7 +471,7 @@ static int rejects(const uint8_t *good, size_t len, void (*edit)(uint8_t *, size
     edit(b, &n, p);
     wire_reader r;
     wire_reader_init(&r, b, n);
-    comoment *c = comoment_read(&r, 0);
+    comoment *c = comoment_read(&r, 0, 1);
     int ok = c == NULL && r.failed;
     comoment_free(c);
     free(b);
@@ -517,7 +517,7 @@ Test(comoment, malformed_input_is_rejected)
     /* The unedited bytes are accepted. */
     wire_reader r;
     wire_reader_init(&r, w.data, w.len);
-    comoment *d = comoment_read(&r, 0);
+    comoment *d = comoment_read(&r, 0, 1);
     cr_assert_not_null(d);
     comoment_free(d);
     wire_writer_free(&w);

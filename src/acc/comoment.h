@@ -136,11 +136,12 @@ void comoment_correlation_matrix(const comoment *c, double *out);
  * column i over rows where j is present.
  * comoment_read gives a state with block scratch for max_rows (0: none).  On
  * malformed input (p > 100000, too few bytes, a count above 2^53, N or C not
- * symmetric, a pair count above a column count) it returns NULL and sets
- * r->failed.  Moment values are not checked: extreme data can overflow them
+ * symmetric, a pair count above a column count, a lost pair's flag where
+ * lost_allowed is 0: files of format version 6 and before) it returns NULL
+ * and sets r->failed.  Moment values are not checked: extreme data can overflow them
  * to infinity or round M2 slightly below zero, and such states must read
  * back; the summary's checksums guard the bytes.  NULL with r->failed clear: out of memory. */
 void comoment_write(const comoment *c, wire_writer *w);
-comoment *comoment_read(wire_reader *r, size_t max_rows);
+comoment *comoment_read(wire_reader *r, size_t max_rows, int lost_allowed);
 
 #endif

@@ -109,7 +109,7 @@ static int state_valid(const comoment *c)
     return 1;
 }
 
-comoment *comoment_read(wire_reader *r, size_t max_rows)
+comoment *comoment_read(wire_reader *r, size_t max_rows, int lost_allowed)
 {
     uint64_t p64 = wire_get_u64(r);
     if (r->failed || p64 > COMOMENT_MAX_COLUMNS) { r->failed = 1; return NULL; }
@@ -125,7 +125,11 @@ comoment *comoment_read(wire_reader *r, size_t max_rows)
              * both halves, a count of at least 1, never the diagonal. */
             unsigned char lost = (v & COMOMENT_LOST_BIT) != 0;
             v &= ~COMOMENT_LOST_BIT;
-            if ((double)v > COMOMENT_MAX_COUNT || (lost && (i == j || v == 0))) { ok = 0; break; }
+            /* (The count compared as an integer: 2^53 + 1 rounded to 2^53.) */
+            if (v > (uint64_t)COMOMENT_MAX_COUNT || (lost && (i == j || v == 0 || !lost_allowed))) {
+                ok = 0;
+                break;
+            }
             size_t k = pair_index(i, j);
             if (i <= j) {
                 c->n[k] = (double)v;

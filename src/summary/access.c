@@ -397,26 +397,33 @@ uint64_t summary_pair_count(const summary *s, size_t a, size_t b)
     return pair(s, a, b, &i, &j) ? (uint64_t)comoment_n(s->como, i, j) : 0;
 }
 
+/* Pair (i, j) of the co-moments has no r to give: its sides' rounding is
+ * past the bound (comoment_pair_lost), or its co-moment passes
+ * Cauchy-Schwarz by more than rounding does (|r| > 1 + 2^-20), which no
+ * numbers give: the decoder's bound allows rounding at the columns' whole
+ * scale, so a hand-made file could show r = 5000 (decode audit). */
+static int no_r(const summary *s, size_t i, size_t j)
+{
+    return comoment_pair_lost(s->como, i, j) ||
+           (i != j && fabs(comoment_correlation(s->como, i, j)) > 1 + 0x1p-20);
+}
+
 int summary_pair_imprecise(const summary *s, size_t a, size_t b)
 {
     size_t i, j;
-    return pair(s, a, b, &i, &j) && comoment_pair_lost(s->como, i, j);
+    return pair(s, a, b, &i, &j) && no_r(s, i, j);
 }
 
 double summary_correlation(const summary *s, size_t a, size_t b)
 {
     size_t i, j;
-    return pair(s, a, b, &i, &j) && !comoment_pair_lost(s->como, i, j)
-               ? comoment_correlation(s->como, i, j)
-               : NAN;
+    return pair(s, a, b, &i, &j) && !no_r(s, i, j) ? comoment_correlation(s->como, i, j) : NAN;
 }
 
 double summary_covariance(const summary *s, size_t a, size_t b)
 {
     size_t i, j;
-    return pair(s, a, b, &i, &j) && !comoment_pair_lost(s->como, i, j)
-               ? comoment_covariance(s->como, i, j)
-               : NAN;
+    return pair(s, a, b, &i, &j) && !no_r(s, i, j) ? comoment_covariance(s->como, i, j) : NAN;
 }
 
 double summary_pair_variance(const summary *s, size_t a, size_t b)

@@ -527,6 +527,26 @@ int column_check(const summary *s, const summary_column *c, char *msg, size_t le
         }
         if (e.key == 0) zero_count += e.count;
         if (class_numbers) class_numbers[e.cell] += e.count; /* cell <= nclasses: checked */
+        /* Every bucket holds a number in [min, max]: a store whose level
+         * was changed put every quantile outside them (decode audit). */
+        double lo, hi;
+        buckets_bounds(e.key, buckets_level(b), &lo, &hi);
+        if (e.count && (hi < c->mom.min || lo > c->mom.max)) {
+            free(class_numbers);
+            return summary_why(msg, len, "bucket entry %zu holds [%g, %g], outside the column's "
+                               "numbers [%g, %g]", i + 1, lo, hi, c->mom.min, c->mom.max);
+        }
+    }
+    /* The smallest and largest keys are those of min and max, which are
+     * numbers of the column (and every number is in the store). */
+    size_t nb = buckets_entries(b);
+    if (nb && c->mom.n && isfinite(c->mom.min) && isfinite(c->mom.max) &&
+        (buckets_entry_at(b, 0).key != buckets_key_at(buckets_key(c->mom.min), buckets_level(b)) ||
+         buckets_entry_at(b, nb - 1).key !=
+             buckets_key_at(buckets_key(c->mom.max), buckets_level(b)))) {
+        free(class_numbers);
+        return summary_why(msg, len, "bucket store's first or last key is not that of the "
+                           "column's min or max");
     }
     if (zero_count != c->zeros) {
         free(class_numbers);

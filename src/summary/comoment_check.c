@@ -71,6 +71,11 @@ static int column_sums(const summary *s, size_t a, const double *w, char *msg, s
     if (!isfinite(m2d) || fabs(m2d - ma->m2) > tol)
         return summary_why(msg, len, "column %zu '%.80s': co-moment M2 %g, the column's %g",
                    s->como_col[a] + 1, ca->name, m2d, ma->m2);
+    /* C[a][a] is M2[a][a] (a column's co-moment with itself); any other
+     * value read as r(a, a) = -1 and a negative variance (decode audit). */
+    if (!isfinite(cod) || fabs(cod - m2d) > tol)
+        return summary_why(msg, len, "column %zu '%.80s': co-moment C %g with itself, its M2 %g",
+                   s->como_col[a] + 1, ca->name, cod, m2d);
     double lo = ma->min - ma->ref.value, hi = ma->max - ma->ref.value;
     double mtol = SLACK * fmax(w[a], fmax(fabs(ma->min), fabs(ma->max)));
     for (size_t b = 0; b < s->ncomo; b++) {

@@ -251,6 +251,8 @@ static void decode_table(summary *s, wire_reader *r, decode_state *ds, uint32_t 
     }
     if (version == 3 && s->target < 0)
         broken(r, ds, "a version-3 file without a target (written as version 1 or 2)");
+    if (s->rows > SUMMARY_MAX_ROWS) /* what merge refuses to make (co-moment counts are doubles) */
+        broken(r, ds, "%llu rows, more than 2^53", (unsigned long long)s->rows);
     if (r->failed) return;
     uint64_t source_rows = 0;
     for (size_t i = 0; i < s->nsources; i++) {
@@ -371,7 +373,7 @@ static int decimal_equal(const number_decimal *a, const number_decimal *b)
            a->exp10 == b->exp10 && a->negative == b->negative && a->exact == b->exact;
 }
 
-static void decode_comoments(summary *s, wire_reader *r, decode_state *ds)
+static void decode_comoments(summary *s, wire_reader *r, decode_state *ds, uint32_t version)
 {
     if (wire_get_u64(r) != s->ncomo) { r->failed = 1; return; }
     if (!wire_need(r, s->ncomo * 28)) return;
@@ -382,7 +384,8 @@ static void decode_comoments(summary *s, wire_reader *r, decode_state *ds)
     }
     uint8_t present = wire_get_u8(r);
     if (present != 1 || r->failed) { r->failed = 1; return; }
-    comoment *c = comoment_read(r, 0); /* read or merged, never fed blocks */
+    /* Read or merged, never fed blocks; a pair's lost flag from version 7. */
+    comoment *c = comoment_read(r, 0, version >= 7);
     if (!c || comoment_columns(c) != s->ncomo) { comoment_free(c); r->failed = 1; return; }
     comoment_free(s->como);
     s->como = c;
@@ -423,6 +426,17 @@ static void check_target(summary *s, wire_reader *r, decode_state *ds)
         broken(r, ds, "%llu target text cells, but the target column has %llu",
                (unsigned long long)s->target_text,
                (unsigned long long)(t->non_numeric + t->non_finite));
+        return;
+    }
+    /* A continuous target's cells are the keys of its values, in key order
+     * (tcells.h): the first and last are those of its min and max (keys
+     * shifted together passed every other check and moved the screen's
+     * bins after a merge: decode audit). */
+    const tcells *tc = &s->tcells;
+    if (!s->has_classes && tc->n && t->mom.n && isfinite(t->mom.min) && isfinite(t->mom.max) &&
+        (tc->key[0] != tcells_key(t->mom.min, tc->level) ||
+         tc->key[tc->n - 1] != tcells_key(t->mom.max, tc->level))) {
+        broken(r, ds, "the target's cells do not begin and end at its min and max");
         return;
     }
     for (size_t i = 0; i < s->ncols; i++) {
@@ -604,7 +618,7 @@ summary_status summary_decode(const uint8_t *data, size_t len, summary **out, ch
         else if (k == 2) decode_table(s, &p, &ds, version);
         else if (k == 3) decode_target(s, &p, &ds, version);
         else if (k == 4) decode_columns(s, &p, &ds, version);
-        else decode_comoments(s, &p, &ds);
+        else decode_comoments(s, &p, &ds, version);
         if (p.failed || p.pos != p.len || !s) {
             /* Counts are checked against the bytes that remain before
              * anything is allocated for them: a failed allocation is a

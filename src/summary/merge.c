@@ -329,8 +329,10 @@ static summary_status fold(summary *into, summary *from, char *err, size_t errle
      * keep them all from wrapping; past 2^53 the co-moments' counts (doubles)
      * would stop being exact, and no reader would take the file. */
     if (from->rows > SUMMARY_MAX_ROWS || into->rows > SUMMARY_MAX_ROWS - from->rows ||
-        from->bytes > UINT64_MAX - into->bytes) {
-        snprintf(err, errlen, "together the summaries hold more than 2^53 rows or 2^64 bytes");
+        from->bytes > UINT64_MAX - into->bytes ||
+        from->repeated_headers > UINT64_MAX - into->repeated_headers) {
+        snprintf(err, errlen, "together the summaries hold more than 2^53 rows, 2^64 bytes or "
+                 "2^64 repeated headers");
         return SUMMARY_ERR_INCOMPATIBLE;
     }
     /* Classes: both kept, or neither (a side that dropped them wins). */

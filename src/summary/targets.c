@@ -102,7 +102,7 @@ int summary_copy_comoments(summary *into, const summary *from)
     if (!w.failed) {
         wire_reader r;
         wire_reader_init(&r, w.data, w.len);
-        into->como = comoment_read(&r, 0);
+        into->como = comoment_read(&r, 0, 1);
     }
     wire_writer_free(&w);
     return into->como ? 0 : -1;
@@ -395,8 +395,18 @@ summary_status summary_set_decode(const uint8_t *data, size_t len, summary_set *
             break;
         }
         char inner[400];
+        /* A part that is itself a set is refused before it is read: read by
+         * recursion, thousands of nested sets ran out of stack (decode
+         * audit: a 380 KB file crashed every reader). */
+        uint32_t part_version = plen >= 12 ? (p[8] | p[9] << 8 | p[10] << 16 |
+                                              (uint32_t)p[11] << 24) : 0;
+        if (part_version == SUMMARY_SET_FORMAT_VERSION && memcmp(p, SUMMARY_MAGIC, 8) == 0) {
+            st = damaged(err, errlen, "target %u '%.*s': a summary of several targets inside one",
+                         k + 1, (int)(name_len[k] < 80 ? name_len[k] : 80), names[k]);
+            break;
+        }
         st = summary_decode(p, plen, &set->parts[k], inner, sizeof inner);
-        if (st == SUMMARY_ERR_TARGETS) st = SUMMARY_ERR_CORRUPT; /* nested */
+        if (st == SUMMARY_ERR_TARGETS) st = SUMMARY_ERR_CORRUPT;
         if (st == SUMMARY_ERR_MEMORY) message_printf(err, errlen, "%s", inner);
         else if (st != SUMMARY_OK)
             damaged(err, errlen, "target %u '%.*s': %s", k + 1,

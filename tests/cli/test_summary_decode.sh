@@ -231,6 +231,43 @@ crafted como_m2_subset cls "COMO.M2[1][2]=1e6"
 crafted como_m2_negative cls "COMO.M2[1][2]=-1"
 crafted como_mean_outside cls "COMO.MEAN[1][2]=1e9"
 crafted como_cauchy_schwarz cls "COMO.C[1][2]=1e12" "COMO.C[2][1]=1e12"
+# (decode audit) A column's co-moment with itself is its M2: -M2 read as
+# r(a, a) = -1 and a negative variance.
+crafted como_c_diagonal cls "COMO.C[1][1]=-$(get cls 'COMO.M2[1][1]')"
+# A pair within the decoder's rounding slack but past Cauchy-Schwarz (r =
+# 5000, found by the decode audit) has no r: corr leaves it empty and warns.
+$CRAFT set "$T/cls.sheaf" "$T/r5000.sheaf" "COMO.M2[1][2]=1e-6" "COMO.M2[2][1]=1e-6" \
+    "COMO.C[1][2]=0.005" "COMO.C[2][1]=0.005" 2>"$T/craft.err"
+run $SHEAF corr "$T/r5000.sheaf"
+check decode.como_r_past_one_has_no_r "exit $RC: $(tr '\n' '|' <"$T/out" | cut -c1-300) $(err_text)" \
+    holds '[ "$RC" = 0 ] && ! grep -q "5000" "$T/out" && grep -q "1 pair has no figure" "$T/err"'
+# A regression target's cell keys, every one moved down by 2^52 (still in
+# order): a merge put rows in the wrong target cells (every column's mutual
+# information changed).  They must begin and end at the keys of min and max.
+n=$(get reg 'TRGT.tcells.n')
+sets=()
+for ((k = 0; k < n; k++)); do sets+=("TRGT.tcells.key[$k]=$(( $(get reg "TRGT.tcells.key[$k]") - 4503599627370496 ))"); done
+crafted tcells_keys_shifted reg "${sets[@]}"
+# A bucket store whose level was changed: every quantile fell outside the
+# column's numbers (6.5e-05 for a median of 0.87).  Its first and last keys
+# must be those of min and max.
+$PY - "$T/spread.csv" <<'PY'
+import random, sys
+random.seed(3)
+with open(sys.argv[1], "w") as f:
+    f.write("x\n")
+    for i in range(3000):
+        f.write("%.6g\n" % random.lognormvariate(0, 2))
+PY
+$SHEAF scan -q "$T/spread.csv" --bucket-budget 16 -o "$T/spread.sheaf"
+lv=$(get spread 'COLS[0].bins.level')
+check decode.bins_level_setup "level $lv" [ "${lv:-0}" -gt 1 ]
+for to in 0 $((lv - 1)) $((lv + 1)); do
+    $CRAFT set "$T/spread.sheaf" "$T/lv$to.sheaf" "COLS[0].bins.level=$to" 2>"$T/craft.err"
+    run $SHEAF info "$T/lv$to.sheaf"
+    check "decode.bins_level_$to" "exit $RC: $(err_text)" \
+        holds '[ "$RC" = 4 ] && grep -q "damaged summary" "$T/err"'
+done
 
 # A file of several targets (format version 4, docs/summary-format.md
 # "Several targets"): the list against the parts, the parts against each
@@ -268,7 +305,7 @@ several several_comoments_differ "its co-moments differ from target 1's" \
     part-set 1 "COMO.C[1][2]=-134.83142857" "COMO.C[2][1]=-134.83142857"
 several several_part_of_another_table "target 2 'weight': its sources differ" part-from 1 "$T/w20.sheaf"
 several several_part_damaged "target 2 'weight': damaged summary" part-set 1 "TRGT.target_text=3"
-several several_nested "target 2 'weight': a summary of 2 targets" part-from 1 "$T/sev.sheaf"
+several several_nested "target 2 'weight': a summary of several targets inside one" part-from 1 "$T/sev.sheaf"
 head -c 400 "$T/sev.sheaf" >"$T/several_cut.sheaf"
 expect_damaged several_truncated "$T/several_cut.sheaf"
 
@@ -296,3 +333,4 @@ while read -r k bit; do
 done <"$T/flips.list"
 echo "bit flips: $flips, rejected $rejected, accepted $accepted, accepted flips that changed info --format json: $changed"
 check decode.bit_flips "${signals:-}" [ -z "$signals" ]
+
