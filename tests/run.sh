@@ -16,6 +16,11 @@ set -u
 cd "$(dirname "$0")/.."
 log=${SHEAF_TEST_LOGS:-build/test-logs}; mkdir -p "$log"
 export SHEAF_BIN=${SHEAF_BIN:-./sheaf}
+# sheaf sets OPENBLAS_NUM_THREADS=1 by starting itself again when it is
+# unset (src/cli/main.c): 20 ms of every run here, half of a small command's
+# time and minutes of the suite's.  test_scan_threads.sh checks the
+# re-execution itself.
+export OPENBLAS_NUM_THREADS=${OPENBLAS_NUM_THREADS:-1}
 jobs_max=${SHEAF_TEST_JOBS:-$(nproc 2>/dev/null || echo 1)}
 SERIAL=" test_install.sh test_fuzz_bounded.sh test_make_targets.sh "
 

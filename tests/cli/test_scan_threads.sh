@@ -218,3 +218,22 @@ check threads.bad_environment_named "exit $RC: $(err_text)" \
     holds '[ "$RC" = 2 ] && grep -q "^sheaf scan: SHEAF_THREADS must be" "$T/err"'
 run env SHEAF_THREADS= "$SHEAF" scan "$T/tiny.csv" -q -o "$T/tiny.sheaf"
 check threads.empty_environment_unset "exit $RC: $(err_text)" [ "$RC" = 0 ]
+# Without OPENBLAS_NUM_THREADS (tests/run.sh sets it for speed), sheaf starts
+# itself again with it set to 1: the same summary, and OpenBLAS started no
+# pool of its own (one thread at -j1 then, read from /proc while it runs).
+OPENBLAS_NUM_THREADS=1 "$SHEAF" scan "$T/t.csv" -q -j2 -o "$T/withenv.sheaf"
+run env -u OPENBLAS_NUM_THREADS "$SHEAF" scan "$T/t.csv" -q -j2 -o "$T/noenv.sheaf"
+check openblas.reexec_same_summary "exit $RC" \
+    holds '[ "$RC" = 0 ] && cmp -s "$T/noenv.sheaf" "$T/withenv.sheaf"'
+mkfifo "$T/hold"
+env -u OPENBLAS_NUM_THREADS "$SHEAF" scan "$T/hold" -q -j1 -o "$T/hold.sheaf" &
+pid=$!
+exec 7>"$T/hold"
+printf 'a,b\n1,2\n' >&7
+sleep 0.5
+threads=$(awk '/^Threads:/ {print $2}' "/proc/$pid/status" 2>/dev/null)
+env_set=$(tr '\0' '\n' <"/proc/$pid/environ" 2>/dev/null | grep -c '^OPENBLAS_NUM_THREADS=1$')
+exec 7>&-
+wait "$pid"
+check openblas.reexec_one_thread "threads $threads, OPENBLAS_NUM_THREADS=1 in its environment: $env_set" \
+    [ "${threads:-0}" = 1 -a "${env_set:-0}" = 1 ]
