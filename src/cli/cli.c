@@ -169,13 +169,13 @@ static int unknown_option(const cli_command *cmd, const char *arg, size_t len, c
     return EXIT_USAGE;
 }
 
-/* A list of column names (metavar A,B,..) with an empty name in it: '',
+/* A list of column names (metavar CLI_NAME_LIST) with an empty name in it: '',
  * ',x', 'x,,y', 'x,' is refused by every command alike (an empty list read
  * as every column in scan, as none in corr, and as an error in pca). */
 static int empty_name(const cli_command *cmd, const cli_option *o)
 {
     const char *v = *o->value;
-    if (strcmp(o->metavar, "A,B,..") != 0 || !v) return 0;
+    if (strcmp(o->metavar, CLI_NAME_LIST) != 0 || !v) return 0;
     if (*v && *v != ',' && !strstr(v, ",,") && v[strlen(v) - 1] != ',') return 0;
     cli_error(cmd->name, "--%s: an empty name in '%s' (names are separated by commas)", o->name, v);
     return 1;

@@ -219,6 +219,9 @@ int cli_choose_target(const char *cmd, const char *path, summary_set *set, const
 int cli_read_target(const char *cmd, const char *path, const char *target, int need_one,
                     summary **s);
 /* The --target option of the commands that read a summary. */
+/* The metavar of an option that takes a list of column names: cli_parse
+ * refuses an empty name in such a list. */
+#define CLI_NAME_LIST "A,B,.."
 #define CLI_TARGET_OPTION(var)                                                                  \
     {"target", 't', "COL", "which target of a summary scanned with several (scan --target A,B)", \
      &(var), NULL}

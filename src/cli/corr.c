@@ -119,7 +119,7 @@ int cmd_corr(int argc, char **argv)
         {"format", 'f', "FMT", "text (default), csv or json", &format, NULL},
         {"basis", 0, "B", "correlation (Pearson r; default) or covariance (the sample covariance)",
          &basis, NULL},
-        {"columns", 0, "A,B,..", "only these columns", &cols_s, NULL},
+        {"columns", 0, CLI_NAME_LIST, "only these columns", &cols_s, NULL},
         CLI_NUMERIC_SHARE_OPTION(share_s),
         CLI_COLOR_OPTION(color),
         {0},

@@ -94,10 +94,10 @@ int cmd_scan(int argc, char **argv)
         {"strict", 0, NULL, "rows with too few or too many fields are errors", NULL, &strict},
         {"force", 0, NULL, "read a file that does not look like text (NUL or control bytes)",
          NULL, &force},
-        {"columns", 0, "A,B,..", "scan only these columns", &o.columns, NULL},
-        {"numeric", 0, "A,B,..", "declare columns numeric", &o.numeric, NULL},
-        {"categorical", 0, "A,B,..", "declare columns categorical (never parsed)", &o.categorical, NULL},
-        {"exclude", 0, "A,B,..", "leave these columns out", &o.ignore, NULL},
+        {"columns", 0, CLI_NAME_LIST, "scan only these columns", &o.columns, NULL},
+        {"numeric", 0, CLI_NAME_LIST, "declare columns numeric", &o.numeric, NULL},
+        {"categorical", 0, CLI_NAME_LIST, "declare columns categorical (never parsed)", &o.categorical, NULL},
+        {"exclude", 0, CLI_NAME_LIST, "leave these columns out", &o.ignore, NULL},
         {"target", 't', "COL[,COL..]", "the outcome column (a class or a continuous measure); "
          "several, separated by commas, in one pass (a value that is a whole header name is one "
          "column)", &target, NULL},

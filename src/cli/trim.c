@@ -105,7 +105,7 @@ int cmd_trim(int argc, char **argv)
          &target, NULL},
         {"columns-from", 0, "FILE", "keep the columns named in FILE, one per line (screen --write-kept)",
          &keep_list, NULL},
-        {"carry", 0, "A,B,..", "also keep these columns (IDs, timestamps)", &carry, NULL},
+        {"carry", 0, CLI_NAME_LIST, "also keep these columns (IDs, timestamps)", &carry, NULL},
         {"output", 'o', "OUT", "write here (.gz / .zst compress; default or -: standard output)", &out_path,
          NULL},
         {"delim", 'd', "CHAR", "field delimiter: , ; | tab or space (default: detected)", &delim_s, NULL},
