@@ -7,7 +7,9 @@
 # Suites run SHEAF_TEST_JOBS at a time (default: the CPUs, nproc), each in
 # its own temporary directory; their lines are printed in the order above,
 # with each suite's wall time.  The suites that run make in the tree
-# (SERIAL below) run alone, after the others.
+# (SERIAL below) run alone, after the others; the longest (FIRST below,
+# about a third of the whole) start first, so that the last minutes do not
+# run one long suite on one core.
 # Environment: SHEAF_BIN, the sheaf binary the scripts run (./sheaf; the
 # sanitized build sets build/asan/sheaf); SHEAF_TEST_SCRIPTS, the scripts to
 # run instead of all of them; SHEAF_TEST_LOGS, the log directory
@@ -22,7 +24,11 @@ export SHEAF_BIN=${SHEAF_BIN:-./sheaf}
 # re-execution itself.
 export OPENBLAS_NUM_THREADS=${OPENBLAS_NUM_THREADS:-1}
 jobs_max=${SHEAF_TEST_JOBS:-$(nproc 2>/dev/null || echo 1)}
-SERIAL=" test_install.sh test_fuzz_bounded.sh test_make_targets.sh "
+SERIAL=" test_install.sh test_make_targets.sh "
+# (test_fuzz_bounded.sh runs make too, but only for its own build/fuzz/
+# targets, which nothing else builds.)
+FIRST=" test_fuzz_bounded.sh test_scan_threads.sh test_merge_shard.sh test_threads_tsan.sh "
+FIRST+=" test_summary_decode.sh test_scan_info.sh test_checkpoint_restart.sh "
 
 # One suite: runs it, leaves its log in $log/NAME.out and "passed failed
 # seconds" in $log/NAME.res (written last: its presence means done).
@@ -81,9 +87,12 @@ print_ready() {
     done
 }
 
-serial=()
+serial=() first=() rest=()
 for item in "${items[@]}"; do
     case "$SERIAL" in *" $(basename "$item") "*) serial+=("$item"); continue ;; esac
+    case "$FIRST" in *" $(basename "$item") "*) first+=("$item") ;; *) rest+=("$item") ;; esac
+done
+for item in ${first[@]+"${first[@]}"} ${rest[@]+"${rest[@]}"}; do
     while [ "$(jobs -rp | wc -l)" -ge "$jobs_max" ]; do wait -n; print_ready; done
     run_one "$item" &
 done
