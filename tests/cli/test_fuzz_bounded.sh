@@ -36,8 +36,8 @@ trap 'rm -rf "$T"' EXIT
 # for every input; the parsers run in memory).
 runs_for() {
     case $1 in
-        scan_split) echo 400 ;;
-        scan_threads) echo 500 ;;
+        scan_split) echo 250 ;;
+        scan_threads) echo 300 ;;
         csv_reader) echo 20000 ;;
         number) echo 100000 ;;
         summary_decode) echo 5000 ;;

@@ -145,12 +145,14 @@ check shard_3_quoted.bytes_equal_whole \
 
 # ------------------------------------------------------- every byte offset
 # --shard I/N splits at size*(I-1)/N: with N = size every shard is one byte
-# and every offset is a boundary; N = size-1 and a few others shift them.
+# and every offset is a boundary; N = size + 1 gives an empty shard, 37 and
+# 13 shards of several records.  (N = size - 1 and size / 2 + 1, dropped in
+# session 25 for make test's time, moved boundaries N = size already has.)
 size=$(stat -c %s "$T/small.csv")
 run "$SHEAF" scan -q "$T/small.csv" -o "$T/small.sheaf"
 check small_whole.rows "rows $(jget "$T/small.sheaf" 'd["rows"]'), csv module $SROWS (file $size bytes)" \
     [ "$(jget "$T/small.sheaf" 'd["rows"]')" = "$SROWS" ]
-for n in "$size" $((size - 1)) $((size / 2 + 1)) 37 13 $((size + 1)); do
+for n in "$size" 37 13 $((size + 1)); do
     bad="" rows=0 parts=()
     for i in $(seq 1 "$n"); do
         p="$T/o$i.sheaf"
