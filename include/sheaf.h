@@ -121,9 +121,9 @@ SHEAF_API int sheaf_options_set_strict(sheaf_options *o, int strict, sheaf_error
  * any ASCII letter case. */
 SHEAF_API int sheaf_options_set_missing(sheaf_options *o, const char *const *spellings, size_t n,
                                         sheaf_error *err);
-/* Comma-separated header names (NULL: clear): scan only these columns;
- * declare these numeric; declare these categorical (never parsed); leave
- * these out.  A name the header does not hold fails the scan (USAGE). */
+/* Comma-separated header names, "\\," a comma in one (NULL: clear): scan only
+ * these; declare these numeric; declare these categorical (never parsed);
+ * leave these out.  A name the header does not hold fails the scan (USAGE). */
 SHEAF_API int sheaf_options_set_columns(sheaf_options *o, const char *names, sheaf_error *err);
 SHEAF_API int sheaf_options_set_numeric(sheaf_options *o, const char *names, sheaf_error *err);
 SHEAF_API int sheaf_options_set_categorical(sheaf_options *o, const char *names, sheaf_error *err);

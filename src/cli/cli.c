@@ -2,6 +2,7 @@
 #include "cli/cli.h"
 #include "cli/doc.h"
 #include "io/closest.h"
+#include "io/namelist.h"
 #include "out/sink.h"
 #include "summary/summary.h"
 #include "summary/tempfile.h"
@@ -116,6 +117,12 @@ void cli_help(const cli_command *cmd)
         help_line(left, o->help, width);
     }
     help_line("-h, --help", "show this help", width);
+    for (const cli_option *o = cmd->options; o->name; o++)
+        if (o->metavar && strcmp(o->metavar, CLI_NAME_LIST) == 0) {
+            printf("\n%s: names separated by commas; \\, is a comma inside a name, \\\\ a "
+                   "backslash\n", CLI_NAME_LIST);
+            break;
+        }
     int renamed = 0;
     for (const cli_renamed *r = CLI_RENAMED; r->command; r++) {
         if (strcmp(r->command, cmd->name)) continue;
@@ -176,8 +183,10 @@ static int empty_name(const cli_command *cmd, const cli_option *o)
 {
     const char *v = *o->value;
     if (strcmp(o->metavar, CLI_NAME_LIST) != 0 || !v) return 0;
-    if (*v && *v != ',' && !strstr(v, ",,") && v[strlen(v) - 1] != ',') return 0;
-    cli_error(cmd->name, "--%s: an empty name in '%s' (names are separated by commas)", o->name, v);
+    if (!namelist_has_empty(v)) return 0;
+    cli_error(cmd->name,
+              "--%s: an empty name in '%s' (names are separated by commas; \\, is a comma in a name)",
+              o->name, v);
     return 1;
 }
 

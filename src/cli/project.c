@@ -11,6 +11,7 @@
 #include <string.h>
 
 #include "cli/cli.h"
+#include "io/namelist.h"
 #include "out/sink.h"
 #include "pass/project.h"
 #include "stats/pca.h"
@@ -76,7 +77,6 @@ int cmd_project(int argc, char **argv)
     rc = EXIT_USAGE;
     summary *s = NULL;
     pca_result *r = NULL;
-    char *carry_buf = NULL;
     char err[1024];
     project_options po;
     project_options_defaults(&po);
@@ -104,10 +104,11 @@ int cmd_project(int argc, char **argv)
     if (cli_parse_reading("project", chunk, maxrec, &po.read.chunk_bytes, &po.read.max_record_bytes)) goto done;
     if (cli_parse_threads("project", threads, &po.threads)) goto done;
     if (carry_s) {
-        carry_buf = strdup(carry_s);
-        carry = calloc(strlen(carry_s) / 2 + 2, sizeof *carry);
-        if (!carry_buf || !carry) { cli_error("project", "out of memory"); rc = EXIT_RESOURCE; goto done; }
-        for (char *t = strtok(carry_buf, ","); t; t = strtok(NULL, ",")) carry[po.ncarry++] = t;
+        size_t n = 0;
+        carry = namelist_split(carry_s, &n); /* empty names are refused by cli_parse */
+        if (!carry) { cli_error("project", "out of memory"); rc = EXIT_RESOURCE; goto done; }
+        for (size_t i = 0; i < n; i++)
+            if (carry[i][0]) carry[po.ncarry++] = carry[i];
         po.carry = carry;
     }
     const cli_components cc = {basis,   k_s,  share_s,     numshare_s, cols,
@@ -141,7 +142,6 @@ done:
         rc = EXIT_FAILED;
     }
     free(carry);
-    free(carry_buf);
     pca_result_free(r);
     summary_free(s);
     free(pos);

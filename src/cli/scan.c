@@ -8,6 +8,7 @@
 #include "cli/cli.h"
 #include "summary/checkpoint.h"
 #include "cli/scan_notes.h"
+#include "io/namelist.h"
 #include "io/shard_start.h"
 #include "stats/screen.h"
 #include "stats/validity.h"
@@ -57,25 +58,6 @@ static void pause_in_checkpoint(void *ctx, uint64_t number)
     fprintf(stderr, "sheaf scan: test: paused inside checkpoint %llu\n", (unsigned long long)number);
     fflush(stderr);
     sleep(60);
-}
-
-/* The next spelling of a --missing list, cut from *at in place: commas
- * separate spellings; a backslash before a comma makes the comma part of
- * the spelling (1\,5), two backslashes are one, and any other backslash is
- * itself.  Empty spellings are skipped; NULL at the end. */
-static char *missing_next(char **at)
-{
-    char *p = *at;
-    while (p && *p == ',') p++;
-    if (!p || !*p) return NULL;
-    char *start = p, *out = p;
-    for (; *p && *p != ','; p++) {
-        if (*p == '\\' && (p[1] == ',' || p[1] == '\\')) p++;
-        *out++ = *p;
-    }
-    *at = *p ? p + 1 : NULL;
-    *out = '\0';
-    return start;
 }
 
 int cmd_scan(int argc, char **argv)
@@ -247,22 +229,26 @@ int cmd_scan(int argc, char **argv)
     }
     if (missing) {
         summary_options_free(&o.opt); /* the target is set below */
-        char *copy = strdup(missing), *next = copy;
-        for (char *t; (t = missing_next(&next));) {
+        size_t n = 0;
+        char **each = namelist_split(missing, &n); /* empty spellings skipped */
+        if (!each) { cli_error("scan", "out of memory"); rc = EXIT_RESOURCE; goto done; }
+        for (size_t i = 0; i < n; i++) {
+            const char *t = each[i];
+            if (!*t) continue;
             if (o.opt.n_missing == SUMMARY_MAX_MISSING) {
                 cli_error("scan", "--missing takes at most %d spellings", SUMMARY_MAX_MISSING);
-                free(copy);
+                free(each);
                 goto done;
             }
             if (strlen(t) > SUMMARY_MAX_MISSING_BYTES) {
                 cli_error("scan", "--missing: a spelling is at most %d bytes, '%.20s...' has %zu",
                           SUMMARY_MAX_MISSING_BYTES, t, strlen(t));
-                free(copy);
+                free(each);
                 goto done;
             }
             o.opt.missing[o.opt.n_missing++] = strdup(t);
         }
-        free(copy);
+        free(each);
     }
     if ((rc = cli_probe_output("scan", out)) != 0) goto done;
     rc = EXIT_USAGE;

@@ -7,6 +7,7 @@
 #include "cli/cli.h"
 #include "io/keep_list.h"
 #include "io/message.h"
+#include "io/namelist.h"
 #include "out/sink.h"
 #include "pass/trim.h"
 #include "stats/screen.h"
@@ -78,16 +79,17 @@ static int read_keep_list(const char *path, name_set *out, char *err, size_t err
     return rc;
 }
 
-/* Adds a comma-separated list. */
+/* Adds a list of names (io/namelist's rule; empty names skipped). */
 static int add_list(name_set *s, const char *list)
 {
-    while (list && *list) {
-        const char *e = strchr(list, ',');
-        size_t l = e ? (size_t)(e - list) : strlen(list);
-        if (l && names_add(s, list, l) != 0) return -1;
-        list += l + (e != NULL);
-    }
-    return 0;
+    if (!list || !*list) return 0;
+    size_t n = 0;
+    char **each = namelist_split(list, &n);
+    int rc = each ? 0 : -1;
+    for (size_t i = 0; i < n && rc == 0; i++)
+        if (each[i][0]) rc = names_add(s, each[i], strlen(each[i]));
+    free(each);
+    return rc;
 }
 
 int cmd_trim(int argc, char **argv)

@@ -2,23 +2,12 @@
 #include "stats/corr.h"
 
 #include <stdio.h>
+#include <stdlib.h>
 #include <string.h>
 
+#include "io/message.h"
+#include "io/namelist.h"
 #include "summary/access.h"
-
-/* Whether name is one of the comma-separated pieces of list (empty pieces
- * included, so an empty name matches an empty piece). */
-static int listed(const char *list, const char *name)
-{
-    size_t len = strlen(name);
-    for (const char *p = list; *p;) {
-        const char *e = strchr(p, ',');
-        size_t l = e ? (size_t)(e - p) : strlen(p);
-        if (l == len && strncmp(p, name, l) == 0) return 1;
-        p += l + (e != NULL);
-    }
-    return 0;
-}
 
 long corr_columns(const summary *s, double numeric_share, const char *names, size_t *cols,
                   char *err, size_t errlen)
@@ -28,32 +17,35 @@ long corr_columns(const summary *s, double numeric_share, const char *names, siz
         if (!summary_has_pairs(s, j) || summary_kind(s, j, numeric_share) != KIND_NUMERIC ||
             summary_numbers(s, j) == 0)
             continue;
-        if (names && !listed(names, summary_name(s, j))) continue;
+        if (names && !namelist_has(names, summary_name(s, j), strlen(summary_name(s, j)))) continue;
         cols[n++] = j;
     }
     /* Every non-empty name must be one of the chosen columns. */
-    for (const char *p = names; p && *p;) {
-        const char *e = strchr(p, ',');
-        size_t l = e ? (size_t)(e - p) : strlen(p);
-        size_t k = 0;
-        while (l && k < n &&
-               !(strncmp(summary_name(s, cols[k]), p, l) == 0 && summary_name(s, cols[k])[l] == '\0'))
-            k++;
+    size_t nnames = 0;
+    char **each = names ? namelist_split(names, &nnames) : NULL;
+    if (names && !each) {
+        snprintf(err, errlen, "out of memory");
+        return -1;
+    }
+    for (size_t i = 0; i < nnames; i++) {
+        const char *p = each[i];
+        size_t l = strlen(p), k = 0;
+        while (l && k < n && strcmp(summary_name(s, cols[k]), p) != 0) k++;
         if (l && k == n) {
-            snprintf(err, errlen, "'%.*s' is not a numeric column", (int)l, p);
+            message_printf(err, errlen, "'%s' is not a numeric column", p);
             if (summary_find_column_n(s, p, l) < 0) summary_suggest_columns(s, p, l, err, errlen);
+            free(each);
             return -1;
         }
         size_t named = 0;
-        for (size_t j = 0; l && j < summary_columns(s); j++)
-            named += strncmp(summary_name(s, j), p, l) == 0 && summary_name(s, j)[l] == '\0';
+        for (size_t j = 0; l && j < summary_columns(s); j++) named += strcmp(summary_name(s, j), p) == 0;
         if (named > 1) {
-            snprintf(err, errlen, "'%.*s' names %zu columns (duplicate header names)", (int)l, p,
-                     named);
+            message_printf(err, errlen, "'%s' names %zu columns (duplicate header names)", p, named);
+            free(each);
             return -1;
         }
-        p += l + (e != NULL);
     }
+    free(each);
     return (long)n;
 }
 

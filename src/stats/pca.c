@@ -36,6 +36,7 @@
 
 #include "acc/blas.h"
 #include "io/message.h"
+#include "io/namelist.h"
 #include "stats/validity.h"
 #include "summary/access.h"
 
@@ -312,38 +313,53 @@ static int unusable(const summary *s, size_t j, const pca_options *o, int explic
     return 0;
 }
 
-/* Marks the names of a list in `mark` (1).  sep ',' for a comma list, '\n'
- * for a keep list.  Returns 0, or -1 with a message for an unknown name. */
+/* Marks the column name (len bytes) in `mark` (1).  Returns 0, or -1 with
+ * a message for an unknown or doubled name. */
+static int mark_one(const summary *s, const name_entry *byname, const char *p, size_t len,
+                    const char *what, unsigned char *mark, char *err, size_t errlen)
+{
+    long j = find_name(byname, summary_columns(s), p, len);
+    if (j < 0) {
+        message_printf(err, errlen, "%s: no column named '%.*s' in the summary", what, (int)len, p);
+        summary_suggest_columns(s, p, len, err, errlen);
+        return -1;
+    }
+    if (count_name(byname, summary_columns(s), p, len) > 1) {
+        message_printf(err, errlen,
+                       "%s: '%.*s' names more than one column (duplicate header names)", what,
+                       (int)len, p);
+        return -1;
+    }
+    mark[j] = 1;
+    return 0;
+}
+
+/* Marks the names of a list in `mark` (1).  sep ',' for a list of names
+ * (io/namelist's rule; empty names skipped), '\n' for a keep list.
+ * Returns 0, or -1 with a message for an unknown name. */
 static int mark_names(const summary *s, const name_entry *byname, const char *list, char sep,
                       const char *what, unsigned char *mark, char *err, size_t errlen)
 {
-    const char *p = list;
-    while (*p) {
+    if (sep == ',') {
+        size_t n = 0;
+        char **names = namelist_split(list, &n);
+        if (!names) {
+            message_printf(err, errlen, "out of memory");
+            return -1;
+        }
+        int rc = 0;
+        for (size_t i = 0; i < n && rc == 0; i++)
+            if (names[i][0])
+                rc = mark_one(s, byname, names[i], strlen(names[i]), what, mark, err, errlen);
+        free(names);
+        return rc;
+    }
+    for (const char *p = list; *p;) {
         const char *e = strchr(p, sep);
         size_t len = e ? (size_t)(e - p) : strlen(p);
         const char *next = e ? e + 1 : p + len;
-        if (sep == '\n') {
-            const char *name = keep_list_name(p, len, &len);
-            if (!name) { p = next; continue; }
-            p = name;
-        } else if (len == 0) {
-            p = next;
-            continue;
-        }
-        long j = find_name(byname, summary_columns(s), p, len);
-        if (j < 0) {
-            message_printf(err, errlen, "%s: no column named '%.*s' in the summary", what, (int)len,
-                           p);
-            summary_suggest_columns(s, p, len, err, errlen);
-            return -1;
-        }
-        if (count_name(byname, summary_columns(s), p, len) > 1) {
-            message_printf(err, errlen,
-                           "%s: '%.*s' names more than one column (duplicate header names)", what,
-                           (int)len, p);
-            return -1;
-        }
-        mark[j] = 1;
+        const char *name = keep_list_name(p, len, &len);
+        if (name && mark_one(s, byname, name, len, what, mark, err, errlen) != 0) return -1;
         p = next;
     }
     return 0;

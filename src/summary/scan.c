@@ -20,6 +20,7 @@
 
 #include "io/chunk.h"
 #include "io/message.h"
+#include "io/namelist.h"
 #include "io/number.h"
 #include "io/number_simd.h"
 #include "io/pipeline.h"
@@ -130,7 +131,7 @@ scan_status scan_worked(scan_context *sc, scan_status st)
 }
 
 /* The target names: opt.target, or the list in `targets`, taken whole when
- * it is a header name, else split at commas.  Each name once. */
+ * it is a header name, else split by io/namelist's rule.  Each name once. */
 static scan_status resolve_targets(scan_context *sc, char **names, size_t nnames)
 {
     const char *list = sc->o.targets;
@@ -140,30 +141,29 @@ static scan_status resolve_targets(scan_context *sc, char **names, size_t nnames
     if (!list) return SCAN_OK;
     int whole = !sc->o.targets;
     for (size_t i = 0; i < nnames && !whole; i++) whole = strcmp(names[i], list) == 0;
-    size_t cap = 1;
-    for (const char *p = list; !whole && *p; p++) cap += *p == ',';
-    sc->target_names = calloc(cap, sizeof *sc->target_names);
-    if (!sc->target_names) return scan_fail(sc, SCAN_ERR_MEMORY, "out of memory");
-    for (const char *p = list;;) {
-        const char *e = whole ? p + strlen(p) : strchrnul(p, ',');
-        if (e == p) {
+    size_t n = 1;
+    char **split = whole ? NULL : namelist_split(list, &n);
+    const char *const *each = whole ? &list : (const char *const *)split;
+    sc->target_names = calloc(n, sizeof *sc->target_names);
+    scan_status st = sc->target_names && (whole || split) ? SCAN_OK
+                     : scan_fail(sc, SCAN_ERR_MEMORY, "out of memory");
+    for (size_t i = 0; i < n && st == SCAN_OK; i++) {
+        if (!each[i][0]) {
             snprintf(sc->err, sizeof sc->err,
                      "{target}: an empty name in '%s' (names are separated by commas)", list);
-            return scan_fail(sc, SCAN_ERR_USAGE, NULL);
+            st = scan_fail(sc, SCAN_ERR_USAGE, NULL);
         }
-        char *name = strndup(p, (size_t)(e - p));
-        if (!name) return scan_fail(sc, SCAN_ERR_MEMORY, "out of memory");
-        for (size_t t = 0; t < sc->ntargets; t++)
-            if (strcmp(sc->target_names[t], name) == 0) {
-                snprintf(sc->err, sizeof sc->err, "{target}: '%s' is named twice", name);
-                free(name);
-                return scan_fail(sc, SCAN_ERR_USAGE, NULL);
+        for (size_t t = 0; st == SCAN_OK && t < sc->ntargets; t++)
+            if (strcmp(sc->target_names[t], each[i]) == 0) {
+                snprintf(sc->err, sizeof sc->err, "{target}: '%s' is named twice", each[i]);
+                st = scan_fail(sc, SCAN_ERR_USAGE, NULL);
             }
-        sc->target_names[sc->ntargets++] = name;
-        if (!*e) break;
-        p = e + 1;
+        char *name = st == SCAN_OK ? strdup(each[i]) : NULL;
+        if (name) sc->target_names[sc->ntargets++] = name;
+        else if (st == SCAN_OK) st = scan_fail(sc, SCAN_ERR_MEMORY, "out of memory");
     }
-    return SCAN_OK;
+    free(split);
+    return st;
 }
 
 /* Empty summaries for the scanned columns (sc->plan), one per target: the

@@ -2,23 +2,24 @@
 #include "summary/schema.h"
 #include "io/closest.h"
 #include "io/message.h"
+#include "io/namelist.h"
 
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 
-static int split_list(const char *s, char ***items, char **buf)
+/* The names of list s (io/namelist's rule: commas, "\\," for a comma in a
+ * name), empty ones left out: their count, or -1 when out of memory.  One
+ * block in *items, one free() (NULL for an empty list). */
+static int split_list(const char *s, char ***items)
 {
     *items = NULL;
-    *buf = NULL;
     if (!s || !*s) return 0;
-    *buf = strdup(s);
-    size_t n = 1;
-    for (const char *p = s; *p; p++) n += *p == ',';
-    *items = calloc(n, sizeof **items);
-    if (!*buf || !*items) return -1;
-    size_t k = 0;
-    for (char *tok = strtok(*buf, ","); tok; tok = strtok(NULL, ",")) (*items)[k++] = tok;
+    size_t n = 0, k = 0;
+    *items = namelist_split(s, &n);
+    if (!*items) return -1;
+    for (size_t i = 0; i < n; i++)
+        if ((*items)[i][0]) (*items)[k++] = (*items)[i];
     return (int)k;
 }
 
@@ -129,9 +130,9 @@ scan_status schema_plan_make(const scan_options *o, const char *file, const char
                              char **names, size_t nnames, schema_plan *p, char *err, size_t errlen)
 {
     memset(p, 0, sizeof *p);
-    char **sel, **num, **cat, **ign, *b1, *b2, *b3, *b4;
-    int nsel = split_list(o->columns, &sel, &b1), nnum = split_list(o->numeric, &num, &b2);
-    int ncat = split_list(o->categorical, &cat, &b3), nign = split_list(o->ignore, &ign, &b4);
+    char **sel, **num, **cat, **ign;
+    int nsel = split_list(o->columns, &sel), nnum = split_list(o->numeric, &num);
+    int ncat = split_list(o->categorical, &cat), nign = split_list(o->ignore, &ign);
     scan_status st = SCAN_OK;
     p->cols = calloc(nnames ? nnames : 1, sizeof *p->cols);
     p->modes = calloc(nnames ? nnames : 1, sizeof *p->modes);
@@ -201,7 +202,6 @@ scan_status schema_plan_make(const scan_options *o, const char *file, const char
     }
 done:
     free(sel); free(num); free(cat); free(ign);
-    free(b1); free(b2); free(b3); free(b4);
     if (st != SCAN_OK) schema_plan_free(p);
     return st;
 }
