@@ -119,8 +119,7 @@ void cli_help(const cli_command *cmd)
     help_line("-h, --help", "show this help", width);
     for (const cli_option *o = cmd->options; o->name; o++)
         if (o->metavar && strcmp(o->metavar, CLI_NAME_LIST) == 0) {
-            printf("\n%s: names separated by commas; \\, is a comma inside a name, \\\\ a "
-                   "backslash\n", CLI_NAME_LIST);
+            printf("\n%s: %s\n", CLI_NAME_LIST, CLI_NAME_LIST_RULE);
             break;
         }
     int renamed = 0;

@@ -222,6 +222,9 @@ int cli_read_target(const char *cmd, const char *path, const char *target, int n
 /* The metavar of an option that takes a list of column names: cli_parse
  * refuses an empty name in such a list. */
 #define CLI_NAME_LIST "A,B,.."
+/* What --help and the manual page say of such a list (io/namelist's rule). */
+#define CLI_NAME_LIST_RULE                                                                   \
+    "names separated by commas; \\, is a comma inside a name, \\\\ a backslash"
 #define CLI_TARGET_OPTION(var)                                                                  \
     {"target", 't', "COL", "which target of a summary scanned with several (scan --target A,B)", \
      &(var), NULL}

@@ -15,6 +15,7 @@
 #              pasted back
 #   empty.*    an empty name is still refused, an escaped trailing comma
 #              is no empty name
+#   help.*     --help and the manual page state the rule where a list is taken
 # The references are the header names as Python's csv module reads them.
 set -u
 cd "$(dirname "$0")/../.." || exit 0
@@ -79,3 +80,12 @@ printf 'id,"a,"\n1,2\n' >"$T/trail.csv"
 run "$SHEAF" scan "$T/trail.csv" -q -o "$T/y.sheaf" --columns 'a\,'
 check empty.escaped_trailing_comma "exit $RC: $(err_text)" \
     [ "$(names "$T/y.sheaf")" = '["a,"]' ]
+
+# help.*: every command with a list of names states the rule in --help and in
+# its manual page; a command without one does not.
+for cmd in scan corr pca project trim; do
+    check "help.$cmd" "$("$SHEAF" "$cmd" --help | tail -n 3 | tr '\n' '|')" holds \
+        '"$SHEAF" "$cmd" --help | grep -qF "A,B,..: names separated by commas; \\, is a comma inside a name" &&
+         "$SHEAF" help --roff "$cmd" | grep -qF "A,B,..: names separated by commas; \\e, is a comma"'
+done
+check help.merge_has_no_lists "" holds '! "$SHEAF" merge --help | grep -qF "A,B,..:"'
