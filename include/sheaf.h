@@ -101,9 +101,9 @@ enum { SHEAF_BASIS_CORRELATION = 0, SHEAF_BASIS_COVARIANCE = 1 };
 SHEAF_API sheaf_options *sheaf_options_create(sheaf_error *err);
 SHEAF_API void sheaf_options_free(sheaf_options *o);
 
-/* The outcome column: one header name, or several separated by commas (a
- * text that is a whole header name is one column), kept for in one pass
- * (then finish with sheaf_scan_finish_set).  NULL: none. */
+/* The outcome column: one header name, or several separated by commas, "\\,"
+ * a comma in one (a text that is a whole header name is one column), kept
+ * for in one pass (then finish with sheaf_scan_finish_set).  NULL: none. */
 SHEAF_API int sheaf_options_set_target(sheaf_options *o, const char *names, sheaf_error *err);
 /* SHEAF_TASK_AUTO (decided when the summary is read), _CLASSIFY or _REGRESS. */
 SHEAF_API int sheaf_options_set_task(sheaf_options *o, int task, sheaf_error *err);
@@ -162,7 +162,7 @@ SHEAF_API int sheaf_options_set_fdr(sheaf_options *o, double q, sheaf_error *err
 SHEAF_API int sheaf_options_set_max_kept(sheaf_options *o, size_t top, sheaf_error *err);
 SHEAF_API int sheaf_options_set_redundancy(sheaf_options *o, double abs_r, sheaf_error *err);
 /* PCA: SHEAF_BASIS_CORRELATION or _COVARIANCE; comma-separated columns to use
- * instead of the automatic choice (NULL: automatic); columns to leave out. */
+ * ("\\," a comma in one; NULL: the automatic choice); columns to leave out. */
 SHEAF_API int sheaf_options_set_pca_basis(sheaf_options *o, int basis, sheaf_error *err);
 SHEAF_API int sheaf_options_set_pca_columns(sheaf_options *o, const char *names, sheaf_error *err);
 SHEAF_API int sheaf_options_set_pca_exclude(sheaf_options *o, const char *names, sheaf_error *err);

@@ -82,7 +82,7 @@ int cmd_scan(int argc, char **argv)
         {"exclude", 0, CLI_NAME_LIST, "leave these columns out", &o.ignore, NULL},
         {"target", 't', "COL[,COL..]", "the outcome column (a class or a continuous measure); "
          "several, separated by commas, in one pass (a value that is a whole header name is one "
-         "column)", &target, NULL},
+         "column; \\, is a comma inside a name)", &target, NULL},
         {"task", 0, "TASK", "classify or regress (default: decided when the summary is read)",
          &task, NULL},
         {"max-classes", 0, "N", "target classes kept (default 256)", &classes, NULL},
@@ -90,7 +90,7 @@ int cmd_scan(int argc, char **argv)
          &mem, NULL},
         {"missing", 0, "S1,S2,..",
          "missing-value spellings, any letter case (default NA,N/A,null,NULL,None,-,?); \\, "
-         "puts a comma inside one", &missing, NULL},
+         "puts a comma inside one, \\\\ a backslash", &missing, NULL},
         {"max-levels", 0, "N", "exact value counts per column before overflow (default 1024)",
          &levels, NULL},
         {"bucket-budget", 0, "N", "occupied value buckets per column (default 2048)", &budget, NULL},

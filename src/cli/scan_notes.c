@@ -31,7 +31,7 @@ static const char *single_token(const summary *s, size_t col)
 
 /* The --missing list that adds token to the summary's spellings, as one
  * shell word: each spelling with its commas and backslashes escaped
- * (scan.c, missing_next), the whole in single quotes.  0, or -1 when a
+ * (io/namelist.h's rule), the whole in single quotes.  0, or -1 when a
  * spelling holds a control byte or the list does not fit. */
 static int missing_list(char *out, size_t cap, const summary *s, const char *token)
 {

@@ -90,12 +90,8 @@ void closest_offer(closest *c, const char *name, size_t len)
 
 /* Appends printf-formatted text to buf, cut to fit; control bytes of text
  * are shown escaped (\r, \t, \n, \xNN), so that a name ending in a CR does
- * not print as the name without it; in an item of a list (item), a comma,
- * and a backslash that would escape, are shown as a list of names takes
- * them (io/namelist.h: "\,", "\\"), so that the commas between the items
- * stay the only ones and the listing reads back as the names. */
-static void add_text(char *buf, size_t buflen, const char *fmt, const char *text, size_t len,
-                     int item)
+ * not print as the name without it. */
+static void add(char *buf, size_t buflen, const char *fmt, const char *text, size_t len)
 {
     size_t used = strlen(buf);
     if (used + 1 >= buflen) return;
@@ -103,11 +99,7 @@ static void add_text(char *buf, size_t buflen, const char *fmt, const char *text
     size_t k = 0, n = len > 64 ? 64 : len;
     for (size_t i = 0; i < n; i++) {
         unsigned char c = (unsigned char)text[i];
-        if (item && (c == ',' || (c == '\\' && (i + 1 == len || text[i + 1] == ',' ||
-                                                 text[i + 1] == '\\')))) {
-            shown[k++] = '\\';
-            shown[k++] = (char)c;
-        } else if (c >= 0x20 && c != 0x7f) {
+        if (c >= 0x20 && c != 0x7f) {
             shown[k++] = (char)c;
         } else {
             const char *e = c == '\r' ? "\\r" : c == '\t' ? "\\t" : c == '\n' ? "\\n" : NULL;
@@ -116,11 +108,6 @@ static void add_text(char *buf, size_t buflen, const char *fmt, const char *text
         }
     }
     snprintf(buf + used, buflen - used, fmt, (int)k, shown, len > 64 ? "..." : "");
-}
-
-static void add(char *buf, size_t buflen, const char *fmt, const char *text, size_t len)
-{
-    add_text(buf, buflen, fmt, text, len, 0);
 }
 
 void closest_append(const closest *c, const char *list_what, char *buf, size_t buflen)
@@ -132,8 +119,13 @@ void closest_append(const closest *c, const char *list_what, char *buf, size_t b
     if (c->nbest) add(buf, buflen, "%.*s%s?", "", 0);
     if (!list_what || c->offered == 0) return;
     add(buf, buflen, " (%.*s%s:", list_what, strlen(list_what));
-    for (size_t i = 0; i < c->nsome; i++)
-        add_text(buf, buflen, i ? ", %.*s%s" : " %.*s%s", c->some[i].text, c->some[i].len, 1);
+    /* A name holding a comma is quoted, so that the commas between the
+     * names stay the only bare ones. */
+    for (size_t i = 0; i < c->nsome; i++) {
+        int comma = memchr(c->some[i].text, ',', c->some[i].len) != NULL;
+        add(buf, buflen, comma ? (i ? ", '%.*s%s'" : " '%.*s%s'") : (i ? ", %.*s%s" : " %.*s%s"),
+            c->some[i].text, c->some[i].len);
+    }
     if (c->offered > c->nsome) {
         char tail[48];
         snprintf(tail, sizeof tail, ", ... %zu in all", c->offered);

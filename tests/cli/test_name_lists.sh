@@ -10,9 +10,8 @@
 #   pca.*      pca --columns / --exclude
 #   carry.*    trim --carry and project --carry copy the named column
 #   target.*   scan --target with two names, one holding a comma
-#   hint.*     the "(columns: ...)" listing of an unknown name shows a comma
-#              inside a name as the list takes it, so the listing can be
-#              pasted back
+#   hint.*     the "(columns: ...)" listing of an unknown name quotes a name
+#              that holds a comma, so the commas between names stay apart
 #   empty.*    an empty name is still refused, an escaped trailing comma
 #              is no empty name
 #   help.*     --help and the manual page state the rule where a list is taken
@@ -70,8 +69,8 @@ check target.two_names "exit $RC: $(err_text)" \
     [ "$(jget "$T/g.sheaf" 'd["targets"]')" = '["kind, of","zone"]' ]
 
 run "$SHEAF" scan "$T/d.csv" -q -o "$T/x.sheaf" --columns 'fare usd'
-check hint.listing_escaped "exit $RC: $(err_text)" holds \
-    '[ "$RC" = 2 ] && grep -qF "(columns: id, fare\\, usd, tip\\\\, a\\b, zone, ..." "$T/err" && [ ! -e "$T/x.sheaf" ]'
+check hint.listing_quoted "exit $RC: $(err_text)" holds \
+    '[ "$RC" = 2 ] && grep -qF "(columns: id, '"'"'fare, usd'"'"', tip\\, a\\b, zone, ..." "$T/err" && [ ! -e "$T/x.sheaf" ]'
 
 run "$SHEAF" scan "$T/d.csv" -q -o "$T/x.sheaf" --columns 'id,,zone'
 check empty.refused "exit $RC: $(err_text)" holds \
