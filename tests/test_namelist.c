@@ -52,13 +52,3 @@ Test(namelist, empty_names_are_kept)
     cr_expect(!namelist_has_empty("x\\,"));
     cr_expect(!namelist_has_empty("a,b"));
 }
-
-Test(namelist, membership_reads_the_same_rule)
-{
-    cr_expect(namelist_has("id,fare\\, usd", "fare, usd", 9));
-    cr_expect(!namelist_has("id,fare\\, usd", "fare", 4));
-    cr_expect(!namelist_has("id,fare\\, usd", "fare\\", 5));
-    cr_expect(namelist_has("tip\\\\,b", "tip\\", 4));
-    cr_expect(namelist_has("a,,b", "", 0));
-    cr_expect(!namelist_has("a,b", "", 0));
-}

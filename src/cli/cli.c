@@ -95,6 +95,13 @@ static void about_text(const char *text, size_t width)
     if (col) putchar('\n');
 }
 
+int cli_takes_names(const cli_command *cmd)
+{
+    for (const cli_option *o = cmd->options; o->name; o++)
+        if (o->metavar && strcmp(o->metavar, CLI_NAME_LIST) == 0) return 1;
+    return 0;
+}
+
 void cli_help(const cli_command *cmd)
 {
     if (cli_doc_command(cmd)) return; /* sheaf help --roff / --completion (cli/doc.h) */
@@ -117,11 +124,7 @@ void cli_help(const cli_command *cmd)
         help_line(left, o->help, width);
     }
     help_line("-h, --help", "show this help", width);
-    for (const cli_option *o = cmd->options; o->name; o++)
-        if (o->metavar && strcmp(o->metavar, CLI_NAME_LIST) == 0) {
-            printf("\n%s: %s\n", CLI_NAME_LIST, CLI_NAME_LIST_RULE);
-            break;
-        }
+    if (cli_takes_names(cmd)) printf("\n%s: %s\n", CLI_NAME_LIST, CLI_NAME_LIST_RULE);
     int renamed = 0;
     for (const cli_renamed *r = CLI_RENAMED; r->command; r++) {
         if (strcmp(r->command, cmd->name)) continue;

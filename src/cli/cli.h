@@ -47,8 +47,11 @@ typedef struct {
  * spelling in CLI_RENAMED is read as its new option after a one-line
  * warning on stderr. */
 int cli_parse(const cli_command *cmd, int argc, char **argv, char ***pos, size_t *npos);
-/* --help: usage, about, the options, the renamed old spellings, examples. */
+/* --help: usage, about, the options, the rule for lists of names (when an
+ * option takes one), the renamed old spellings, examples. */
 void cli_help(const cli_command *cmd);
+/* Whether one of cmd's options takes a list of names (metavar CLI_NAME_LIST). */
+int cli_takes_names(const cli_command *cmd);
 /* "sheaf CMD: message" on stderr, with every setting key of a library
  * message ("{max_classes}") shown as its option (cli_name_settings). */
 void cli_error(const char *cmd, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
@@ -222,7 +225,8 @@ int cli_read_target(const char *cmd, const char *path, const char *target, int n
 /* The metavar of an option that takes a list of column names: cli_parse
  * refuses an empty name in such a list. */
 #define CLI_NAME_LIST "A,B,.."
-/* What --help and the manual page say of such a list (io/namelist's rule). */
+/* What --help and the manual page say of such a list (io/namelist's rule),
+ * on a command that takes one (cli_takes_names). */
 #define CLI_NAME_LIST_RULE                                                                   \
     "names separated by commas; \\, is a comma inside a name, \\\\ a backslash"
 #define CLI_TARGET_OPTION(var)                                                                  \

@@ -191,12 +191,10 @@ static void roff_command(const cli_command *cmd)
         roff_prose(f, o->help);
     }
     fputs(".TP\n\\fB\\-h\\fR, \\fB\\-\\-help\\fR\nshow this help\n", f);
-    for (const cli_option *o = cmd->options; o->name; o++)
-        if (o->metavar && strcmp(o->metavar, CLI_NAME_LIST) == 0) {
-            fputs(".PP\n", f);
-            roff_prose(f, CLI_NAME_LIST ": " CLI_NAME_LIST_RULE);
-            break;
-        }
+    if (cli_takes_names(cmd)) {
+        fputs(".PP\n", f);
+        roff_prose(f, CLI_NAME_LIST ": " CLI_NAME_LIST_RULE);
+    }
     if (cmd->examples) roff_examples(f, cmd->examples);
     fputs(".SH SEE ALSO\n.BR sheaf (1)\n", f);
 }

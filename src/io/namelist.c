@@ -2,16 +2,23 @@
 #include "io/namelist.h"
 
 #include <stdlib.h>
-#include <string.h>
+
+/* The byte at *q, a backslash before a comma or a backslash read as the
+ * byte it escapes; *q moves past what was read. */
+static char take(const char **q)
+{
+    if (**q == '\\' && ((*q)[1] == ',' || (*q)[1] == '\\')) (*q)++;
+    return *(*q)++;
+}
 
 /* The first name of p into out (when not NULL): its unescaped length, and
  * *next at the byte after its comma, or NULL after the last name. */
 static size_t next_name(const char *p, char *out, const char **next)
 {
     size_t len = 0;
-    for (; *p && *p != ','; p++) {
-        if (*p == '\\' && (p[1] == ',' || p[1] == '\\')) p++;
-        if (out) out[len] = *p;
+    while (*p && *p != ',') {
+        char c = take(&p);
+        if (out) out[len] = c;
         len++;
     }
     *next = *p ? p + 1 : NULL;
@@ -42,21 +49,5 @@ int namelist_has_empty(const char *list)
 {
     for (const char *p = list ? list : ""; p;)
         if (next_name(p, NULL, &p) == 0) return 1;
-    return 0;
-}
-
-int namelist_has(const char *list, const char *name, size_t len)
-{
-    for (const char *p = list ? list : ""; p;) {
-        const char *start = p;
-        if (next_name(start, NULL, &p) != len) continue;
-        /* Compare unescaped bytes without copying. */
-        size_t i = 0;
-        for (const char *q = start; i < len; q++, i++) {
-            if (*q == '\\' && (q[1] == ',' || q[1] == '\\')) q++;
-            if (*q != name[i]) break;
-        }
-        if (i == len) return 1;
-    }
     return 0;
 }

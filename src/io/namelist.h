@@ -23,7 +23,4 @@ char **namelist_split(const char *list, size_t *n);
 /* Whether list holds an empty name (by the rule above). */
 int namelist_has_empty(const char *list);
 
-/* Whether name (len bytes) is one of the names of list. */
-int namelist_has(const char *list, const char *name, size_t len);
-
 #endif

@@ -12,41 +12,40 @@
 long corr_columns(const summary *s, double numeric_share, const char *names, size_t *cols,
                   char *err, size_t errlen)
 {
-    size_t n = 0;
-    for (size_t j = 0; j < summary_columns(s); j++) {
-        if (!summary_has_pairs(s, j) || summary_kind(s, j, numeric_share) != KIND_NUMERIC ||
-            summary_numbers(s, j) == 0)
-            continue;
-        if (names && !namelist_has(names, summary_name(s, j), strlen(summary_name(s, j)))) continue;
-        cols[n++] = j;
-    }
-    /* Every non-empty name must be one of the chosen columns. */
     size_t nnames = 0;
     char **each = names ? namelist_split(names, &nnames) : NULL;
     if (names && !each) {
         snprintf(err, errlen, "out of memory");
         return -1;
     }
-    for (size_t i = 0; i < nnames; i++) {
+    size_t n = 0;
+    for (size_t j = 0; j < summary_columns(s); j++) {
+        if (!summary_has_pairs(s, j) || summary_kind(s, j, numeric_share) != KIND_NUMERIC ||
+            summary_numbers(s, j) == 0)
+            continue;
+        size_t k = 0;
+        while (k < nnames && strcmp(each[k], summary_name(s, j)) != 0) k++;
+        if (!names || k < nnames) cols[n++] = j;
+    }
+    /* Every non-empty name must be one of the chosen columns. */
+    long rc = (long)n;
+    for (size_t i = 0; i < nnames && rc >= 0; i++) {
         const char *p = each[i];
         size_t l = strlen(p), k = 0;
         while (l && k < n && strcmp(summary_name(s, cols[k]), p) != 0) k++;
+        size_t named = 0;
+        for (size_t j = 0; l && j < summary_columns(s); j++) named += strcmp(summary_name(s, j), p) == 0;
         if (l && k == n) {
             message_printf(err, errlen, "'%s' is not a numeric column", p);
             if (summary_find_column_n(s, p, l) < 0) summary_suggest_columns(s, p, l, err, errlen);
-            free(each);
-            return -1;
-        }
-        size_t named = 0;
-        for (size_t j = 0; l && j < summary_columns(s); j++) named += strcmp(summary_name(s, j), p) == 0;
-        if (named > 1) {
+            rc = -1;
+        } else if (named > 1) {
             message_printf(err, errlen, "'%s' names %zu columns (duplicate header names)", p, named);
-            free(each);
-            return -1;
+            rc = -1;
         }
     }
     free(each);
-    return (long)n;
+    return rc;
 }
 
 void corr_matrix(const summary *s, const size_t *cols, size_t n, corr_statistic stat, double *out)
