@@ -44,10 +44,16 @@ static int next_text_byte(unquoted_bytes *u)
     return -1;
 }
 
+/* The text of the raw field f of n bytes, to be read a byte at a time. */
+static unquoted_bytes unquoted(const char *f, size_t n)
+{
+    int q = n && *f == '"';
+    return (unquoted_bytes){f + q, f + n, q};
+}
+
 static int same_text(const char *a, size_t alen, const char *b, size_t blen)
 {
-    unquoted_bytes x = {a + (alen && *a == '"'), a + alen, alen && *a == '"'};
-    unquoted_bytes y = {b + (blen && *b == '"'), b + blen, blen && *b == '"'};
+    unquoted_bytes x = unquoted(a, alen), y = unquoted(b, blen);
     for (;;) {
         int c = next_text_byte(&x);
         if (c != next_text_byte(&y)) return 0;
@@ -87,17 +93,8 @@ int csv_same_record(const char *head, size_t head_len, const char *p, const char
 
 size_t csv_unquote(const char *raw, size_t len, char *out)
 {
-    if (len == 0 || raw[0] != '"') {
-        memcpy(out, raw, len);
-        return len;
-    }
-    size_t i = 1, o = 0;
-    while (i < len) {
-        if (raw[i] != '"') { out[o++] = raw[i++]; continue; }
-        if (i + 1 < len && raw[i + 1] == '"') { out[o++] = '"'; i += 2; continue; }
-        i++; /* the closing quote: the rest is kept as it is */
-        memcpy(out + o, raw + i, len - i);
-        return o + (len - i);
-    }
+    unquoted_bytes u = unquoted(raw, len);
+    size_t o = 0;
+    for (int c; (c = next_text_byte(&u)) >= 0;) out[o++] = (char)c;
     return o;
 }

@@ -28,6 +28,7 @@ typedef struct {
     /* Fixed by the reading thread before a worker sees a row: */
     unsigned char *pick;   /* per field of the first record: kept */
     size_t nfields;        /* fields of the first file's first record */
+    size_t last;           /* the last kept field (SIZE_MAX: none) */
     char *header;          /* the first file's column names, each a size_t length and its
                               bytes (reader_column_name: as the scan compares them) */
     size_t header_len;
@@ -97,6 +98,9 @@ static int choose(trimmer *t, const char *path, const reader_record *rec, char *
             return TRIM_ERR_USAGE;
         }
     free(found);
+    t->last = SIZE_MAX;
+    for (size_t i = 0; i < rec->nfields; i++)
+        if (t->pick[i]) t->last = i;
     return TRIM_OK;
 }
 
@@ -190,9 +194,7 @@ static int row(void *ctx, unsigned slot, size_t file, const reader_record *rec, 
     trim_slot *s = &t->slots[slot];
     /* The kept fields are bytes of the record: its length bounds theirs (the
      * last one may be written quoted: twice its bytes and two quotes). */
-    size_t last = t->nfields;
-    while (last > 0 && !t->pick[last - 1]) last--;
-    last--; /* the last kept field (none: never matched below) */
+    const size_t last = t->last;
     size_t last_len = last < rec->nfields ? rec->fields[last].len : 0;
     size_t need = (size_t)(rec->end - rec->offset) + t->nfields + 8 + last_len + 2;
     if (s->len + need > s->cap) {
