@@ -5,11 +5,13 @@
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
-#define XXH_INLINE_ALL
-#include <xxhash.h>
 
 #include "acc/four.h"
+#include "io/cellhash.h"
+#include "io/chunk.h"
 #include "io/number_simd.h"
+
+_Static_assert(CHUNK_PADDING >= CELLHASH_READ_AHEAD, "cells are hashed in padded chunks");
 
 int block_lane_init(block_lane *l)
 {
@@ -645,16 +647,12 @@ __attribute__((target("arch=x86-64-v3"))) static void decode_decimals_v3(summary
 SHEAF_HOT void block_decode(summary_column *c, block_lane *l, int simd)
 {
     const size_t n = l->ncells;
+    /* Cells sit in padded chunks (CELLHASH_READ_AHEAD). */
+    cellhash_many((const char *const *)l->text, l->len, n, l->hash);
     if (l->row_key) {
         uint64_t print = 0;
-        for (size_t i = 0; i < n; i++) {
-            uint64_t h = XXH3_64bits(l->text[i], l->len[i]);
-            l->hash[i] = h;
-            print += block_copy_term(l->row_key[l->cell_row[i]], h);
-        }
+        for (size_t i = 0; i < n; i++) print += block_copy_term(l->row_key[l->cell_row[i]], l->hash[i]);
         c->copy_print += print;
-    } else {
-        for (size_t i = 0; i < n; i++) l->hash[i] = XXH3_64bits(l->text[i], l->len[i]);
     }
     if (c->mode == COLUMN_CATEGORICAL) { c->non_numeric += n; return; }
     int decimals = l->decimals && c->pairs;

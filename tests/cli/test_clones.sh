@@ -6,7 +6,9 @@
 # baseline code of the same sources: this compares its summaries with those
 # of ./sheaf, byte for byte, on the benchmark profile (no target, a class
 # target, a continuous target with exact pair sums, a numeric target past
-# --max-classes), at -j1 and -j2, and on the four open datasets.
+# --max-classes), at -j1 and -j2, and on the four open datasets; and the
+# build under test against itself with its SIMD parser or its wide cell
+# hash turned off.
 set -u
 cd "$(dirname "$0")/../.." || exit 1
 . tests/cli/common.sh
@@ -56,6 +58,11 @@ done
 same "nan_m2.label" "$T/nan.csv" --target tray
 scalar "scalar.bench.label" "$T/b.csv" --target label
 scalar "scalar.bench.balance" "$T/b.csv" -j2 --target balance
+# The cells' hashes one at a time (io/cellhash.h: eight at a time with
+# AVX-512), in the build under test.
+one_hash() { OTHER=(env SHEAF_TEST_SCALAR_HASH=1 "$SHEAF"); agree "$@"; }
+one_hash "one_hash.bench.none" "$T/b.csv"
+one_hash "one_hash.bench.label" "$T/b.csv" -j2 --target label
 OPEN=${SHEAF_OPEN_DATA:-../shared/data/open}
 for d in iris mpg penguins tips; do
     if [ -s "$OPEN/$d.csv" ]; then
