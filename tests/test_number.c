@@ -625,6 +625,62 @@ Test(number, padded_parser_equals_number_parse)
 #endif
 }
 
+#if defined(NUMBER_SIMD)
+__attribute__((target("ssse3"))) static int parse_simd(const char *s, size_t len,
+                                                       number_decimal *out)
+{
+    return number_parse_ssse3(s, len, out);
+}
+
+__attribute__((target("ssse3"))) static int parse_fixed(const char *s, size_t len,
+                                                        unsigned decimals, number_decimal *out)
+{
+    return number_parse_fixed_ssse3(s, len, decimals, out);
+}
+#endif
+
+Test(number, fixed_decimals_parser_equals_the_simd_parser)
+{
+    /* The scan's parser for a column's usual decimals (number_simd.h) must
+     * read every cell as number_parse_ssse3 does, whether it takes the cell
+     * itself (1) or hands it on (0 or -1): cells of 0 to 20 bytes, digits
+     * with a point at every place and now and then a sign, an exponent or
+     * a stray byte, for every decimals value 1 to 16 (16 never matches). */
+#if !defined(NUMBER_SIMD)
+    cr_skip_test("no SIMD parser on this platform");
+#else
+    if (!number_simd_usable()) cr_skip_test("this CPU has no SSSE3");
+    static const char stray[] = ".-+eEx ";
+    uint64_t state = UINT64_C(0x3c6ef372fe94f82b);
+    char buf[20 + NUMBER_READ_AHEAD + 1];
+    long taken = 0;
+    for (int i = 0; i < 1000000; i++) {
+        uint64_t r = xorshift64(&state);
+        size_t len = (size_t)(r % 21);
+        unsigned decimals = 1 + (unsigned)((r >> 8) % 16);
+        for (size_t j = 0; j < sizeof buf; j++) buf[j] = (char)('0' + xorshift64(&state) % 10);
+        if (len > 1 && (r >> 16) % 8 != 0) buf[len - 1 - (r >> 20) % len] = '.';
+        if ((r >> 28) % 4 == 0 && len > 2) buf[(r >> 32) % len] = stray[(r >> 40) % 7];
+        if ((r >> 44) & 1 && len) buf[0] = '-';
+        if ((r >> 45) % 8 == 0 && len > 2) memset(buf + 1, '0', len / 2); /* zeros */
+        number_decimal a, b;
+        memset(&a, 0, sizeof a);
+        memset(&b, 0, sizeof b);
+        int ka = parse_simd(buf, len, &a), kb = parse_fixed(buf, len, decimals, &b);
+        taken += kb == 1;
+        cr_assert_eq(ka, kb == 1 ? 0 : kb, "\"%.*s\" with %u decimals: %d vs %d", (int)len, buf,
+                     decimals, ka, kb);
+        if (ka != 0) continue;
+        cr_assert(bits_of(a.value) == bits_of(b.value) && a.mantissa == b.mantissa &&
+                      a.exp10 == b.exp10 && a.negative == b.negative && a.exact == b.exact,
+                  "\"%.*s\" with %u decimals: %llu e%d vs %llu e%d", (int)len, buf, decimals,
+                  (unsigned long long)a.mantissa, a.exp10, (unsigned long long)b.mantissa,
+                  b.exp10);
+    }
+    cr_assert_gt(taken, 20000, "only %ld cells took the fixed form", taken);
+#endif
+}
+
 Test(number, text_at_a_glance_is_text_to_number_parse)
 {
     /* The decode loop counts a cell that number_text_at_once accepts as text

@@ -87,10 +87,9 @@ number_simd_open(const char *s, size_t len, number_simd_cell *c)
  * SSSE3 (pshufb, pmaddubsw): callers check number_simd_usable() and call it
  * only from functions compiled for SSSE3, where it inlines. */
 static inline __attribute__((always_inline, target("ssse3"))) int
-number_parse_ssse3(const char *s, size_t len, number_decimal *out)
+number_simd_finish(const number_simd_cell *cell, number_decimal *out)
 {
-    number_simd_cell c;
-    if (number_simd_open(s, len, &c) != 0) return -1;
+    const number_simd_cell c = *cell;
     const unsigned char *q = c.q;
     const size_t n = c.n;
     uint32_t other = c.other;
@@ -148,6 +147,38 @@ number_parse_ssse3(const char *s, size_t len, number_decimal *out)
     }
     number_set_exact(out, val, m, e, c.negative);
     return 0;
+}
+
+static inline __attribute__((always_inline, target("ssse3"))) int
+number_parse_ssse3(const char *s, size_t len, number_decimal *out)
+{
+    number_simd_cell c;
+    if (number_simd_open(s, len, &c) != 0) return -1;
+    return number_simd_finish(&c, out);
+}
+
+/* number_parse_ssse3 for a column whose cells are mostly written with
+ * `decimals` digits after a point (1 to 15; any other value never
+ * matches): such a cell, digits, a point and `decimals` digits, returns 1
+ * with *out filled (the point's place known, no look for an exponent;
+ * exp10 is -decimals, or 0 for a zero, as number_parse_ssse3 gives); any
+ * other cell is number_parse_ssse3's (0 or -1). */
+static inline __attribute__((always_inline, target("ssse3"))) int
+number_parse_fixed_ssse3(const char *s, size_t len, unsigned decimals, number_decimal *out)
+{
+    number_simd_cell c;
+    if (number_simd_open(s, len, &c) != 0) return -1;
+    const unsigned point = (unsigned)c.n - 1u - decimals; /* wraps past 16 when too short */
+    if (point >= 16 || c.other != (UINT32_C(1) << point) || c.q[point] != '.')
+        return number_simd_finish(&c, out);
+    const __m128i iota = _mm_setr_epi8(0, 1, 2, 3, 4, 5, 6, 7, 8, 9, 10, 11, 12, 13, 14, 15);
+    __m128i idx = _mm_add_epi8(iota, _mm_set1_epi8((char)((int)c.n - 17)));
+    idx = _mm_sub_epi8(idx, _mm_cmpgt_epi8(idx, _mm_set1_epi8((char)((int)point - 1))));
+    uint64_t m = number_digits_value(_mm_shuffle_epi8(c.t, idx));
+    /* At most 15 digits: m < 2^53, so Clinger's one division. */
+    number_set_exact(out, (double)m / number_pow10[decimals], m, m ? -(int64_t)decimals : 0,
+                     c.negative);
+    return 1;
 }
 
 /* number_parse_ssse3 for a cell of digits alone (an optional '-', 1 to 16

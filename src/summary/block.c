@@ -552,6 +552,9 @@ static void keep_example(summary_column *c, const char *p, uint32_t len)
                 const uint64_t ref_mant = l->ref.dec.mantissa;                                 \
                 const double ref_scale = l->ref.scale;                                         \
                 const int ref_divide = l->ref.divide;                                          \
+                /* The reference's decimals, which most cells of a column share   \
+                 * (16: none, a whole reference; quick never matches it). */       \
+                const unsigned fixed = ref_exp < 0 && ref_exp > -16 ? (unsigned)-ref_exp : 16; \
                 /* A run of cells of digits alone first (a column of whole      \
                  * numbers: the parser need not look for a point or an        \
                  * exponent), then the quick parser for the rest. */          \
@@ -567,9 +570,14 @@ static void keep_example(summary_column *c, const char *p, uint32_t len)
                 for (; i < n; i++) {                                                           \
                     number_decimal d;                                                          \
                     double dd;                                                                 \
-                    if (quick(text[i], len[i], &d) != 0 || (d.mantissa >> 52) != 0 ||          \
-                        !number_deviation_exact(d.mantissa, d.negative, d.exp10, ref_exp,      \
-                                                ref_m, ref_mant, ref_scale, ref_divide, &dd))  \
+                    int got = quick(text[i], len[i], fixed, &d);                               \
+                    if (got == 1) /* the reference's decimals: k = 0 of the deviation */   \
+                        dd = (double)(number_signed_int(d.mantissa, d.negative) - ref_m) /     \
+                             ref_scale;                                                        \
+                    else if (got != 0 || (d.mantissa >> 52) != 0 ||                           \
+                             !number_deviation_exact(d.mantissa, d.negative, d.exp10, ref_exp, \
+                                                     ref_m, ref_mant, ref_scale, ref_divide,   \
+                                                     &dd))                                     \
                         break;                                                                 \
                     DECODE_KEEP(d, dd, decimals);                                              \
                 }                                                                              \
@@ -596,18 +604,24 @@ static inline int no_quick(const char *s, size_t len, number_decimal *d)
     return -1;
 }
 
+static inline int no_quick_fixed(const char *s, size_t len, unsigned decimals, number_decimal *d)
+{
+    (void)decimals;
+    return no_quick(s, len, d);
+}
+
 DECODE_CELL(number_cell, number_parse, 0, )
 DECODE_CELL(decimal_cell, number_parse, 1, )
 
 /* `decimals` is a constant in each instance below, so the test folds away. */
 static void decode_numbers(summary_column *c, block_lane *l, size_t n)
 {
-    DECODE_NUMBERS(no_quick, no_quick, number_cell, 0);
+    DECODE_NUMBERS(no_quick, no_quick_fixed, number_cell, 0);
 }
 
 static void decode_decimals(summary_column *c, block_lane *l, size_t n)
 {
-    DECODE_NUMBERS(no_quick, no_quick, decimal_cell, 1);
+    DECODE_NUMBERS(no_quick, no_quick_fixed, decimal_cell, 1);
 }
 
 #if defined(NUMBER_SIMD)
@@ -618,13 +632,13 @@ DECODE_CELL(decimal_cell_ssse3, number_parse_padded, 1, __attribute__((target("s
 __attribute__((target("ssse3"))) static void decode_numbers_ssse3(summary_column *c, block_lane *l,
                                                                   size_t n)
 {
-    DECODE_NUMBERS(number_parse_integer_ssse3, number_parse_ssse3, number_cell_ssse3, 0);
+    DECODE_NUMBERS(number_parse_integer_ssse3, number_parse_fixed_ssse3, number_cell_ssse3, 0);
 }
 
 __attribute__((target("ssse3"))) static void decode_decimals_ssse3(summary_column *c,
                                                                    block_lane *l, size_t n)
 {
-    DECODE_NUMBERS(number_parse_integer_ssse3, number_parse_ssse3, decimal_cell_ssse3, 1);
+    DECODE_NUMBERS(number_parse_integer_ssse3, number_parse_fixed_ssse3, decimal_cell_ssse3, 1);
 }
 
 #if defined(SHEAF_HAVE_CLONES)
@@ -633,13 +647,13 @@ __attribute__((target("ssse3"))) static void decode_decimals_ssse3(summary_colum
 __attribute__((target("arch=x86-64-v3"))) static void decode_numbers_v3(summary_column *c,
                                                                        block_lane *l, size_t n)
 {
-    DECODE_NUMBERS(number_parse_integer_ssse3, number_parse_ssse3, number_cell_ssse3, 0);
+    DECODE_NUMBERS(number_parse_integer_ssse3, number_parse_fixed_ssse3, number_cell_ssse3, 0);
 }
 
 __attribute__((target("arch=x86-64-v3"))) static void decode_decimals_v3(summary_column *c,
                                                                         block_lane *l, size_t n)
 {
-    DECODE_NUMBERS(number_parse_integer_ssse3, number_parse_ssse3, decimal_cell_ssse3, 1);
+    DECODE_NUMBERS(number_parse_integer_ssse3, number_parse_fixed_ssse3, decimal_cell_ssse3, 1);
 }
 #endif
 #endif
