@@ -75,6 +75,19 @@ number_simd_open(const char *s, size_t len, number_simd_cell *c)
     return 0;
 }
 
+/* The value of the `digits` digits of t (a cell's bytes less '0'), its
+ * point at byte `point` (16: none) skipped: lane i takes digit
+ * i - (16 - digits), skipping the point; lanes with a negative index read
+ * as zero. */
+static inline __attribute__((always_inline, target("ssse3"))) uint64_t
+number_simd_mantissa(__m128i t, unsigned digits, unsigned point)
+{
+    const __m128i iota = _mm_setr_epi8(0, 1, 2, 3, 4, 5, 6, 7, 8, 9, 10, 11, 12, 13, 14, 15);
+    __m128i idx = _mm_add_epi8(iota, _mm_set1_epi8((char)((int)digits - 16)));
+    idx = _mm_sub_epi8(idx, _mm_cmpgt_epi8(idx, _mm_set1_epi8((char)((int)point - 1))));
+    return number_digits_value(_mm_shuffle_epi8(t, idx));
+}
+
 /* number_parse for cells with 16 readable bytes after the sign: a cell of
  * "digits[.digits][e[+-]digits]" in at most 16 bytes after the sign, with at
  * most 4 exponent digits, is read here (returns 0, *out filled); anything else returns -1 for
@@ -124,12 +137,7 @@ number_simd_finish(const number_simd_cell *cell, number_decimal *out)
     unsigned digits = mlen - (point < mlen);
     if (digits == 0) return -1;
     if (point < mlen) e -= (int64_t)(mlen - point - 1);
-    /* Lane i takes digit i - (16 - digits), skipping the point; lanes with a
-     * negative index read as zero. */
-    const __m128i iota = _mm_setr_epi8(0, 1, 2, 3, 4, 5, 6, 7, 8, 9, 10, 11, 12, 13, 14, 15);
-    __m128i idx = _mm_add_epi8(iota, _mm_set1_epi8((char)((int)digits - 16)));
-    idx = _mm_sub_epi8(idx, _mm_cmpgt_epi8(idx, _mm_set1_epi8((char)((int)point - 1))));
-    uint64_t m = number_digits_value(_mm_shuffle_epi8(c.t, idx));
+    uint64_t m = number_simd_mantissa(c.t, digits, point);
     double val;
     if (m == 0) {
         e = 0;
@@ -171,10 +179,7 @@ number_parse_fixed_ssse3(const char *s, size_t len, unsigned decimals, number_de
     const unsigned point = (unsigned)c.n - 1u - decimals; /* wraps past 16 when too short */
     if (point >= 16 || c.other != (UINT32_C(1) << point) || c.q[point] != '.')
         return number_simd_finish(&c, out);
-    const __m128i iota = _mm_setr_epi8(0, 1, 2, 3, 4, 5, 6, 7, 8, 9, 10, 11, 12, 13, 14, 15);
-    __m128i idx = _mm_add_epi8(iota, _mm_set1_epi8((char)((int)c.n - 17)));
-    idx = _mm_sub_epi8(idx, _mm_cmpgt_epi8(idx, _mm_set1_epi8((char)((int)point - 1))));
-    uint64_t m = number_digits_value(_mm_shuffle_epi8(c.t, idx));
+    uint64_t m = number_simd_mantissa(c.t, (unsigned)c.n - 1u, point);
     /* At most 15 digits: m < 2^53, so Clinger's one division. */
     number_set_exact(out, (double)m / number_pow10[decimals], m, m ? -(int64_t)decimals : 0,
                      c.negative);
