@@ -4,10 +4,11 @@
  * its first '|'.  For each cell:
  *   - number_parse reads it from a buffer of exactly its size, so
  *     AddressSanitizer sees any read past len;
- *   - the SIMD parser for padded cells (number_parse_padded, and the
- *     digits-only number_parse_integer_ssse3 where it reads a cell, where the CPU
- *     has SSSE3) reads it with NUMBER_READ_AHEAD bytes of digits, points and
- *     'e's after it, and must give the same kind and, for a number, the same
+ *   - the SIMD parsers for padded cells (number_parse_padded; where they
+ *     read a cell, the digits-only number_parse_integer_ssse3 and
+ *     number_parse_fixed_ssse3 for 1 to 16 decimals; where the CPU has
+ *     SSSE3) read it with NUMBER_READ_AHEAD bytes of digits, points and 'e's
+ *     after it, and must give the same kind and, for a number, the same
  *     value bits, mantissa, power of ten, sign and exactness;
  *   - glibc strtod (correctly rounded for inputs of any length) is the
  *     outside reference, on what both accept under sheaf's number rules
@@ -74,6 +75,12 @@ __attribute__((target("ssse3"))) static number_kind parse_padded(const char *s, 
     return number_parse_padded(s, len, out);
 }
 
+__attribute__((target("ssse3"))) static int parse_fixed(const char *s, size_t len,
+                                                        unsigned decimals, number_decimal *out)
+{
+    return number_parse_fixed_ssse3(s, len, decimals, out);
+}
+
 __attribute__((target("ssse3"))) static int parse_whole(const char *s, size_t len,
                                                       number_decimal *out)
 {
@@ -126,6 +133,22 @@ static number_kind check_cell(const uint8_t *cell, size_t len, number_decimal *o
             fault("\"%s\": number_parse kind %d %.17g %llu e%d, digits-only parser %.17g %llu e%d",
                   text, k, d.value, (unsigned long long)d.mantissa, d.exp10, w.value,
                   (unsigned long long)w.mantissa, w.exp10);
+        /* The parser for a column's usual decimals, for each number of
+         * decimals: a cell it reads (itself or by the general steps) is one
+         * number_parse reads the same way. */
+        for (unsigned dec = 1; dec <= 16; dec++) {
+            number_decimal f;
+            memset(&f, 0, sizeof f);
+            int got = parse_fixed(padded, len, dec, &f);
+            if (got >= 0 &&
+                (k != NUMBER_FINITE || bits_of(f.value) != bits_of(d.value) ||
+                 f.mantissa != d.mantissa || f.exp10 != d.exp10 || f.negative != d.negative ||
+                 f.exact != d.exact || f.tail_digits != d.tail_digits))
+                fault("\"%s\": number_parse kind %d %.17g %llu e%d, %u-decimals parser (%d) "
+                      "%.17g %llu e%d",
+                      text, k, d.value, (unsigned long long)d.mantissa, d.exp10, dec, got,
+                      f.value, (unsigned long long)f.mantissa, f.exp10);
+        }
     }
 #endif
 
