@@ -14,6 +14,7 @@
 
 #include "io/number.h"
 #include "io/number_simd.h"
+#include "number_simd_calls.h"
 #include "testutil.h"
 
 static uint64_t xorshift64(uint64_t *state)
@@ -570,15 +571,6 @@ Test(number, inline_deviation_equals_the_general_difference)
     }
 }
 
-#if defined(NUMBER_SIMD)
-/* The scan's parser for padded cells, compiled where it can inline. */
-__attribute__((target("ssse3"))) static number_kind parse_padded(const char *s, size_t len,
-                                                               number_decimal *out)
-{
-    return number_parse_padded(s, len, out);
-}
-#endif
-
 Test(number, padded_parser_equals_number_parse)
 {
     /* The parser for padded cells (SIMD where the CPU allows) must agree
@@ -624,20 +616,6 @@ Test(number, padded_parser_equals_number_parse)
     }
 #endif
 }
-
-#if defined(NUMBER_SIMD)
-__attribute__((target("ssse3"))) static int parse_simd(const char *s, size_t len,
-                                                       number_decimal *out)
-{
-    return number_parse_ssse3(s, len, out);
-}
-
-__attribute__((target("ssse3"))) static int parse_fixed(const char *s, size_t len,
-                                                        unsigned decimals, number_decimal *out)
-{
-    return number_parse_fixed_ssse3(s, len, decimals, out);
-}
-#endif
 
 Test(number, fixed_decimals_parser_equals_the_simd_parser)
 {

@@ -44,6 +44,7 @@
 
 #include "io/number.h"
 #include "io/number_simd.h"
+#include "../number_simd_calls.h"
 
 #define MAX_INPUT_BYTES 64
 
@@ -67,26 +68,6 @@ static uint64_t bits_of(double v)
     memcpy(&u, &v, sizeof u);
     return u;
 }
-
-#if defined(NUMBER_SIMD)
-__attribute__((target("ssse3"))) static number_kind parse_padded(const char *s, size_t len,
-                                                               number_decimal *out)
-{
-    return number_parse_padded(s, len, out);
-}
-
-__attribute__((target("ssse3"))) static int parse_fixed(const char *s, size_t len,
-                                                        unsigned decimals, number_decimal *out)
-{
-    return number_parse_fixed_ssse3(s, len, decimals, out);
-}
-
-__attribute__((target("ssse3"))) static int parse_whole(const char *s, size_t len,
-                                                      number_decimal *out)
-{
-    return number_parse_integer_ssse3(s, len, out);
-}
-#endif
 
 /* Parses one cell every way and checks them against each other. */
 static number_kind check_cell(const uint8_t *cell, size_t len, number_decimal *out)
